@@ -1,0 +1,56 @@
+package main
+
+import (
+	"context"
+	"os"
+)
+
+func init() {
+	c := &command{
+		Name:  "run",
+		Usage: "--station FILE --sequence FILE --serial SN [--serial SN ...] [--out DIR] [--operator NAME] [--json]",
+		Short: "trim and certify units on a station (the production command)",
+		Long: `Runs the sequence once per serial number, in order: pre-trim sweep, fit, trim
+codes written, read back and stored, verification sweep, limits judged. Each run is
+recorded in the ledger (DIR/ledger.db); a PASS or FAIL run gets a certificate
+number and a PDF in DIR/certificates. With sim:// addresses in the station file the
+units run on the simulated bench.
+
+Exit code: 0 every unit passed, 1 a unit failed, 2 bad input, 3 station fault.`,
+		Flags: newFlags("run"),
+	}
+	station := c.Flags.String("station", "", "station `file` (what is on this bench)")
+	sequence := c.Flags.String("sequence", "", "sequence `file` (how the product is trimmed)")
+	var serials multiFlag
+	c.Flags.Var(&serials, "serial", "serial `number` of a unit to run; repeat for several")
+	out := c.Flags.String("out", "", "output `folder` (default: the station file's output.folder)")
+	operator := c.Flags.String("operator", defaultOperator(), "operator `name` printed on certificates")
+	asJSON := c.Flags.Bool("json", false, "print one JSON object per unit instead of a live line")
+	c.Run = func(ctx context.Context, c *command, args []string) error {
+		if *station == "" || *sequence == "" || len(serials) == 0 {
+			return usageErr("need --station, --sequence and at least one --serial")
+		}
+		if len(args) > 0 {
+			return usageErr("unexpected argument %q", args[0])
+		}
+		t, err := runBatch(ctx, batch{stationPath: *station, sequencePath: *sequence, serials: serials, out: *out,
+			operator: *operator, json: *asJSON, stdout: stdoutW, stderr: stderrW})
+		if err != nil {
+			return err
+		}
+		if !*asJSON {
+			t.summary(stdoutW)
+		}
+		return silent(t.code())
+	}
+	register(c)
+}
+
+func defaultOperator() string {
+	for _, k := range []string{"TRIMLINE_OPERATOR", "USER", "USERNAME"} {
+		if v := os.Getenv(k); v != "" {
+			return v
+		}
+	}
+	return "unknown"
+}

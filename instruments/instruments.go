@@ -1,0 +1,326 @@
+// Package instruments is the driver contract of trimline: the small interfaces that
+// every source, meter and DUT trim-port driver implements, and the registry that
+// finds a driver by the scheme of an instrument address (sim://meter,
+// serial:///dev/ttyUSB0?baud=115200, tcp://host:5025, usbtmc:///dev/usbtmc0).
+//
+// The engine (package sequencer) imports only this package. Concrete drivers live in
+// subpackages and register themselves from an init function, like database/sql drivers.
+//
+// Units: every level is in SI base units (volts, amperes, seconds) as float64.
+package instruments
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"math"
+	"net/url"
+	"sort"
+	"strings"
+	"sync"
+	"time"
+)
+
+// Instrument is what every opened instrument can do. Close must be safe to call more
+// than once; the second call returns nil.
+type Instrument interface {
+	Close() error
+}
+
+// Source is a programmable DC voltage source that drives the DUT input.
+// SetLevel programs the output level in volts; it does not switch the output on.
+// SetOutput switches the output terminals on or off. Implementations must accept
+// SetOutput(ctx, false) at any time, also after an earlier error, because the engine
+// calls it on every exit path.
+type Source interface {
+	Instrument
+	SetLevel(ctx context.Context, volts float64) error
+	SetOutput(ctx context.Context, on bool) error
+}
+
+// Meter is a DC voltmeter that reads the DUT output. Read takes n readings in a row
+// and returns them in order; each carries its own time and flag.
+type Meter interface {
+	Instrument
+	Read(ctx context.Context, n int) ([]Reading, error)
+}
+
+// TrimPort is the DUT's line-based command port. Command sends one line and waits
+// for the DUT's acknowledgement; Query sends one line and returns the reply line
+// without its terminator. The command text comes from templates in the sequence
+// file, so the engine knows nothing about a product's protocol.
+type TrimPort interface {
+	Instrument
+	Command(ctx context.Context, line string) error
+	Query(ctx context.Context, line string) (string, error)
+}
+
+// Flag qualifies a reading. Only FlagNone readings are numbers that may be used.
+type Flag int
+
+const (
+	FlagNone     Flag = iota // a valid number
+	FlagOverload             // the meter reported overload (SCPI +/-9.9E37)
+	FlagNaN                  // the meter reported not-a-number (SCPI 9.91E37)
+)
+
+func (f Flag) String() string {
+	switch f {
+	case FlagNone:
+		return "ok"
+	case FlagOverload:
+		return "overload"
+	case FlagNaN:
+		return "nan"
+	}
+	return fmt.Sprintf("flag(%d)", int(f))
+}
+
+// Reading is one meter reading in volts.
+type Reading struct {
+	Value float64   // volts; meaningless unless Flag == FlagNone
+	Flag  Flag      // FlagNone for a valid number
+	Time  time.Time // when the reading was taken (the driver's clock)
+}
+
+// Valid reports whether the reading is a finite, unflagged number.
+func (r Reading) Valid() bool {
+	return r.Flag == FlagNone && !math.IsNaN(r.Value) && !math.IsInf(r.Value, 0)
+}
+
+// Identity is the parsed reply of an identification query (IEEE 488.2 *IDN?):
+// maker, model, serial and firmware, "0" where the instrument does not say.
+type Identity struct {
+	Maker    string `json:"maker"`
+	Model    string `json:"model"`
+	Serial   string `json:"serial"`
+	Firmware string `json:"firmware"`
+}
+
+func (id Identity) String() string {
+	return strings.Join([]string{id.Maker, id.Model, id.Serial, id.Firmware}, ",")
+}
+
+// Identifier is an optional capability: an instrument that can say what it is.
+// Fallback when absent: the engine records the identity as unknown.
+type Identifier interface {
+	Identify(ctx context.Context) (Identity, error)
+}
+
+// Resetter is an optional capability: put the instrument in its documented safe,
+// known state (*RST). Fallback when absent: no reset; for a Source the engine still
+// switches the output off.
+type Resetter interface {
+	Reset(ctx context.Context) error
+}
+
+// MeterConfigurer is an optional capability of a Meter: set range (volts, 0 = auto)
+// and integration time in power-line cycles. Fallback when absent: the meter's own
+// configuration is used and recorded as unknown.
+type MeterConfigurer interface {
+	Configure(ctx context.Context, rangeVolts, nplc float64) error
+}
+
+// ComplianceSetter is an optional capability of a Source: set the current limit in
+// amperes. Fallback when absent: the engine refuses to run if the station file asks
+// for a compliance limit, because an unenforced limit is a safety hazard.
+type ComplianceSetter interface {
+	SetCompliance(ctx context.Context, amps float64) error
+}
+
+// FixtureLoader is an optional capability of a TrimPort used by simulated benches:
+// the engine tells it which serial number the operator placed in the fixture.
+// Fallback when absent: nothing happens (a real fixture holds a real unit).
+type FixtureLoader interface {
+	LoadUnit(ctx context.Context, serial string) error
+}
+
+// Spec says how to open one instrument: its role on the station, its address and
+// driver settings from the station file.
+type Spec struct {
+	Role     string            // "source", "meter" or "dut"
+	Address  string            // e.g. "sim://meter"
+	Settings map[string]string // driver-specific settings, values still as written
+}
+
+// Driver opens instruments of one address scheme.
+type Driver interface {
+	Open(ctx context.Context, addr *url.URL, spec Spec) (Instrument, error)
+}
+
+// GroupDriver is an optional capability of a Driver whose instruments are wired to
+// each other (the simulated bench: the source drives the DUT the meter reads).
+// OpenGroup receives every spec of its scheme at once and returns one instrument per
+// spec, in the same order. Fallback when absent: Open is called per spec.
+type GroupDriver interface {
+	OpenGroup(ctx context.Context, specs []Spec) ([]Instrument, error)
+}
+
+// SettingsChecker is an optional capability of a Driver: validate settings before any
+// instrument is opened, so that a bad station file is rejected at load. It returns a
+// *SettingError naming the offending key.
+type SettingsChecker interface {
+	CheckSettings(spec Spec) error
+}
+
+// SettingError names a driver setting that is wrong.
+type SettingError struct {
+	Key string
+	Msg string
+}
+
+func (e *SettingError) Error() string { return fmt.Sprintf("setting %q: %s", e.Key, e.Msg) }
+
+var (
+	mu      sync.RWMutex
+	drivers = map[string]Driver{}
+)
+
+// Register makes a driver available for addresses with the given scheme. It panics
+// if drv is nil or the scheme is already registered. Safe for concurrent use.
+func Register(scheme string, drv Driver) {
+	mu.Lock()
+	defer mu.Unlock()
+	if drv == nil {
+		panic("instruments: Register driver is nil")
+	}
+	if _, dup := drivers[scheme]; dup {
+		panic("instruments: Register called twice for scheme " + scheme)
+	}
+	drivers[scheme] = drv
+}
+
+// Schemes returns the registered schemes, sorted.
+func Schemes() []string {
+	mu.RLock()
+	defer mu.RUnlock()
+	out := make([]string, 0, len(drivers))
+	for s := range drivers {
+		out = append(out, s)
+	}
+	sort.Strings(out)
+	return out
+}
+
+// ErrUnknownScheme is returned (wrapped) for an address whose scheme has no driver.
+var ErrUnknownScheme = errors.New("unknown address scheme")
+
+// Lookup parses addr and returns its driver.
+func Lookup(addr string) (Driver, *url.URL, error) {
+	u, err := url.Parse(addr)
+	if err != nil {
+		return nil, nil, fmt.Errorf("address %q: %w", addr, err)
+	}
+	if u.Scheme == "" {
+		return nil, nil, fmt.Errorf("address %q has no scheme (known: %s): %w", addr, strings.Join(Schemes(), ", "), ErrUnknownScheme)
+	}
+	mu.RLock()
+	drv := drivers[u.Scheme]
+	mu.RUnlock()
+	if drv == nil {
+		return nil, nil, fmt.Errorf("address %q: scheme %q has no driver (known: %s): %w", addr, u.Scheme, strings.Join(Schemes(), ", "), ErrUnknownScheme)
+	}
+	return drv, u, nil
+}
+
+// Check validates specs without opening anything: every address has a registered
+// scheme and every driver that can check its settings accepts them.
+func Check(specs []Spec) error {
+	for _, s := range specs {
+		drv, _, err := Lookup(s.Address)
+		if err != nil {
+			return fmt.Errorf("%s: %w", s.Role, err)
+		}
+		if c, ok := drv.(SettingsChecker); ok {
+			if err := c.CheckSettings(s); err != nil {
+				return fmt.Errorf("%s: %w", s.Role, err)
+			}
+		}
+	}
+	return nil
+}
+
+// OpenAll opens every spec and returns the instruments keyed by role. Specs of a
+// GroupDriver's scheme are opened together. On error every instrument already opened
+// is closed again.
+func OpenAll(ctx context.Context, specs []Spec) (map[string]Instrument, error) {
+	out := map[string]Instrument{}
+	closeAll := func() {
+		for _, in := range out {
+			in.Close()
+		}
+	}
+	groups := map[string][]Spec{}
+	var order []string
+	for _, s := range specs {
+		drv, u, err := Lookup(s.Address)
+		if err != nil {
+			closeAll()
+			return nil, fmt.Errorf("%s: %w", s.Role, err)
+		}
+		if _, ok := drv.(GroupDriver); ok {
+			if _, seen := groups[u.Scheme]; !seen {
+				order = append(order, u.Scheme)
+			}
+			groups[u.Scheme] = append(groups[u.Scheme], s)
+			continue
+		}
+		in, err := drv.Open(ctx, u, s)
+		if err != nil {
+			closeAll()
+			return nil, fmt.Errorf("open %s at %s: %w", s.Role, s.Address, err)
+		}
+		out[s.Role] = in
+	}
+	for _, scheme := range order {
+		mu.RLock()
+		gd := drivers[scheme].(GroupDriver)
+		mu.RUnlock()
+		ins, err := gd.OpenGroup(ctx, groups[scheme])
+		if err != nil {
+			closeAll()
+			return nil, fmt.Errorf("open %s instruments: %w", scheme, err)
+		}
+		for i, s := range groups[scheme] {
+			out[s.Role] = ins[i]
+		}
+	}
+	return out, nil
+}
+
+// Clock is the time base of a run: the engine waits for settling and stamps records
+// with it. RealClock is the wall clock.
+type Clock interface {
+	Now() time.Time
+	// Sleep waits d or until ctx is done, whichever comes first, and returns
+	// ctx.Err() in the second case.
+	Sleep(ctx context.Context, d time.Duration) error
+}
+
+// ClockSource is an optional capability of an instrument that runs on its own time
+// base, such as the simulated bench, whose physics advance on simulated time so that a
+// thousand units run in seconds. Fallback when absent: the engine uses RealClock.
+type ClockSource interface {
+	Clock() Clock
+}
+
+// RealClock is the wall clock.
+type RealClock struct{}
+
+// Now returns time.Now().
+func (RealClock) Now() time.Time { return time.Now() }
+
+// Sleep waits d or until ctx is done.
+func (RealClock) Sleep(ctx context.Context, d time.Duration) error {
+	if d <= 0 {
+		return ctx.Err()
+	}
+	t := time.NewTimer(d)
+	defer t.Stop()
+	select {
+	case <-t.C:
+		return nil
+	case <-ctx.Done():
+		return ctx.Err()
+	}
+}

@@ -1,0 +1,253 @@
+package sim
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"math"
+	"math/rand/v2"
+	"net/url"
+	"strings"
+	"sync"
+	"time"
+
+	"trimline/instruments"
+)
+
+// Bench is one simulated bench: up to one source, one meter and one DUT fixture,
+// wired together (the source drives the DUT input, the meter reads the DUT output),
+// on one clock. All its instruments share one mutex, so each call is atomic; the
+// bench is meant to be driven from one goroutine at a time.
+type Bench struct {
+	mu     sync.Mutex
+	clock  instruments.Clock
+	seed   uint64
+	noise  *rand.Rand // reading noise, one stream per bench
+	source *Source
+	meter  *Meter
+	dut    *DUT
+	stored map[string][2]int // serial → NV-stored {offset, gain} codes
+}
+
+// virtualClock is simulated time: Sleep advances it at once.
+type virtualClock struct {
+	mu  sync.Mutex
+	now time.Time
+}
+
+// Now returns the simulated time.
+func (c *virtualClock) Now() time.Time {
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	return c.now
+}
+
+// Sleep advances the simulated time by d (nothing for d ≤ 0) and returns at once,
+// or returns ctx.Err() without advancing when ctx is already done.
+func (c *virtualClock) Sleep(ctx context.Context, d time.Duration) error {
+	if err := ctx.Err(); err != nil {
+		return err
+	}
+	if d > 0 {
+		c.mu.Lock()
+		c.now = c.now.Add(d)
+		c.mu.Unlock()
+	}
+	return nil
+}
+
+// model returns the instrument model an address names: "source", "meter" or "dut".
+func model(addr *url.URL) (string, error) {
+	bad := fmt.Errorf("address %q: expected sim://source, sim://meter or sim://dut", addr.String())
+	if addr.Scheme != "sim" || addr.Opaque != "" || addr.User != nil || addr.Port() != "" ||
+		(addr.Path != "" && addr.Path != "/") || addr.RawQuery != "" || addr.Fragment != "" {
+		return "", bad
+	}
+	switch h := strings.ToLower(addr.Hostname()); h {
+	case modelSource, modelMeter, modelDUT:
+		return h, nil
+	}
+	return "", bad
+}
+
+func specModel(s instruments.Spec) (string, error) {
+	u, err := url.Parse(s.Address)
+	if err != nil {
+		return "", fmt.Errorf("address %q: %w", s.Address, err)
+	}
+	return model(u)
+}
+
+// NewBench opens a bench with one instrument per spec (at most one of each of
+// sim://source, sim://meter, sim://dut), wired together. Bench-wide settings (seed,
+// time, start) may appear in any spec; conflicting values give a
+// *instruments.SettingError.
+func NewBench(specs []instruments.Spec) (*Bench, error) {
+	if len(specs) == 0 {
+		return nil, errors.New("sim: a bench needs at least one instrument")
+	}
+	cfgs := make([]config, len(specs))
+	var bk benchKeys
+	var from [3]int // index of the spec that set seed, time, start
+	for i, s := range specs {
+		m, err := specModel(s)
+		if err != nil {
+			return nil, err
+		}
+		c, err := parseSettings(m, s.Settings)
+		if err != nil {
+			return nil, fmt.Errorf("%s: %w", s.Address, err)
+		}
+		for j := range i {
+			if cfgs[j].model == m {
+				return nil, fmt.Errorf("sim: two instruments at sim://%s on one bench", m)
+			}
+		}
+		cfgs[i] = c
+		b := c.bench
+		if b.seedSet {
+			if bk.seedSet && bk.seed != b.seed {
+				return nil, conflict("seed", specs[from[0]], s)
+			}
+			bk.seed, bk.seedSet, from[0] = b.seed, true, i
+		}
+		if b.timeSet {
+			if bk.timeSet && bk.real != b.real {
+				return nil, conflict("time", specs[from[1]], s)
+			}
+			bk.real, bk.timeSet, from[1] = b.real, true, i
+		}
+		if b.startSet {
+			if bk.startSet && !bk.start.Equal(b.start) {
+				return nil, conflict("start", specs[from[2]], s)
+			}
+			bk.start, bk.startSet, from[2] = b.start, true, i
+		}
+	}
+	if bk.real && bk.startSet {
+		return nil, settingErr("start", "applies only to time: simulated")
+	}
+	seed := uint64(1)
+	if bk.seedSet {
+		seed = bk.seed
+	}
+	b := &Bench{seed: seed, noise: streamRand("noise", seed), stored: map[string][2]int{}}
+	switch {
+	case bk.real:
+		b.clock = instruments.RealClock{}
+	case bk.startSet:
+		b.clock = &virtualClock{now: bk.start}
+	default:
+		b.clock = &virtualClock{now: time.Now().Truncate(time.Millisecond)}
+	}
+	for _, c := range cfgs {
+		switch c.model {
+		case modelSource:
+			b.source = newSource(b, c)
+		case modelMeter:
+			b.meter = newMeter(b, c)
+		case modelDUT:
+			b.dut = &DUT{bench: b, latency: c.latency, settings: c.dut}
+		}
+	}
+	return b, nil
+}
+
+// conflict reports a bench-wide key set differently in two specs.
+func conflict(key string, first, second instruments.Spec) error {
+	return settingErr(key, "conflicting bench-wide values %q (%s) and %q (%s)",
+		first.Settings[key], first.Address, second.Settings[key], second.Address)
+}
+
+// instrument returns the bench's instrument for a spec's address.
+func (b *Bench) instrument(s instruments.Spec) instruments.Instrument {
+	m, _ := specModel(s)
+	switch m {
+	case modelSource:
+		return b.source
+	case modelMeter:
+		return b.meter
+	}
+	return b.dut
+}
+
+// Source returns the bench's source, nil if it has none.
+func (b *Bench) Source() *Source { return b.source }
+
+// Meter returns the bench's meter, nil if it has none.
+func (b *Bench) Meter() *Meter { return b.meter }
+
+// DUT returns the bench's DUT fixture, nil if it has none.
+func (b *Bench) DUT() *DUT { return b.dut }
+
+// Clock returns the bench clock: simulated unless the bench was opened with
+// time: real.
+func (b *Bench) Clock() instruments.Clock { return b.clock }
+
+// Seed returns the bench-wide seed.
+func (b *Bench) Seed() uint64 { return b.seed }
+
+// Close closes every instrument of the bench. It is safe to call more than once.
+func (b *Bench) Close() error {
+	if b.source != nil {
+		b.source.Close()
+	}
+	if b.meter != nil {
+		b.meter.Close()
+	}
+	if b.dut != nil {
+		b.dut.Close()
+	}
+	return nil
+}
+
+// advance lets d of bench time pass (a command latency or a meter aperture). Called
+// with b.mu held; the clock has its own lock.
+func (b *Bench) advance(ctx context.Context, d time.Duration) error {
+	if d <= 0 {
+		return ctx.Err()
+	}
+	return b.clock.Sleep(ctx, d)
+}
+
+// dutInput returns the noiseless voltage in V at the DUT input: the source's actual
+// output when it is on, else 0 V (the fixture relay shorts the input).
+func (b *Bench) dutInput() float64 {
+	if b.source == nil {
+		return 0
+	}
+	return b.source.actual()
+}
+
+// inputChanged tells the DUT that its input went from old to the present value at
+// the present time, so it settles towards the new value.
+func (b *Bench) inputChanged(old float64) {
+	if b.dut != nil {
+		b.dut.step(b.clock.Now(), old, b.dutInput())
+	}
+}
+
+// output returns the DUT output in V as the meter sees it at time t, with source and
+// DUT noise: 0 V when the bench has no DUT or the fixture is empty.
+func (b *Bench) output(t time.Time) float64 {
+	if b.dut == nil || !b.dut.loaded {
+		return 0
+	}
+	x := b.dutInput()
+	if b.source != nil && b.source.on {
+		x += b.source.noise * b.noise.NormFloat64()
+	}
+	return b.dut.output(t, x, b.noise.NormFloat64())
+}
+
+// uniform returns a value drawn uniformly in ±0.6 (the share of a spec inside which
+// instrument errors are drawn).
+func uniform(r *rand.Rand) float64 { return 0.6 * (2*r.Float64() - 1) }
+
+// quantise rounds v to a multiple of res (no rounding when res is 0).
+func quantise(v, res float64) float64 {
+	if res <= 0 {
+		return v
+	}
+	return math.Round(v/res) * res
+}

@@ -1,0 +1,235 @@
+package sim
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"math"
+	"time"
+
+	"trimline/instruments"
+)
+
+// Meter is the simulated 6½-digit DC voltmeter at sim://meter. A reading is the DUT
+// output at the instant the reading starts, ·(1 + gain error) + offset error + noise,
+// quantised to the resolution; the clock then advances by the aperture.
+type Meter struct {
+	bench   *Bench
+	latency time.Duration
+	cfg     meterConfig
+	uGain   float64 // drawn share (±0.6) of the gain spec
+	uOffset float64 // drawn share (±0.6) of the offset spec
+	rng     float64 // V, present range
+	nplc    float64 // power-line cycles, present integration time
+	closed  bool
+}
+
+var (
+	_ instruments.Meter           = (*Meter)(nil)
+	_ instruments.Identifier      = (*Meter)(nil)
+	_ instruments.Resetter        = (*Meter)(nil)
+	_ instruments.MeterConfigurer = (*Meter)(nil)
+	_ instruments.ClockSource     = (*Meter)(nil)
+)
+
+// MeterRanges are the meter's DC voltage ranges in volts (full scale; readings up to
+// 1.2× the range are valid).
+var MeterRanges = []float64{0.1, 1, 10, 100, 1000}
+
+// OverloadValue is the value of an overloaded reading (SCPI +9.9E37), signed like
+// the input; NaNValue that of a not-a-number reading (SCPI 9.91E37).
+const (
+	OverloadValue = 9.9e37
+	NaNValue      = 9.91e37
+)
+
+// meterRange returns the range in V the meter uses for a requested range: 0 = auto
+// (the 10 V range), otherwise the smallest range that holds the request.
+func meterRange(v float64) (float64, error) {
+	if v == 0 {
+		return 10, nil
+	}
+	if !(v > 0) || math.IsInf(v, 0) {
+		return 0, fmt.Errorf("range %g V: expected 0 (auto) or a positive voltage", v)
+	}
+	for _, r := range MeterRanges {
+		if v <= r*(1+1e-9) {
+			return r, nil
+		}
+	}
+	return 0, fmt.Errorf("range %g V above the largest range, %g V", v, MeterRanges[len(MeterRanges)-1])
+}
+
+// checkNPLC accepts an integration time of 0.001 to 100 power-line cycles.
+func checkNPLC(n float64) error {
+	if !(n >= 0.001 && n <= 100) {
+		return fmt.Errorf("nplc %g outside 0.001..100", n)
+	}
+	return nil
+}
+
+func newMeter(b *Bench, c config) *Meter {
+	r := streamRand("meter", b.seed)
+	m := &Meter{bench: b, latency: c.latency, cfg: c.meter, uGain: uniform(r), uOffset: uniform(r),
+		rng: c.meter.rng, nplc: c.meter.nplc}
+	return m
+}
+
+var errMeterClosed = errors.New("sim meter: closed")
+
+// Errors returns the meter's gain error (fraction) and offset error (V) on the
+// present range: reading = input·(1 + gain) + offset + noise.
+func (m *Meter) Errors() (gain, offset float64) {
+	m.bench.mu.Lock()
+	defer m.bench.mu.Unlock()
+	return m.errors()
+}
+
+func (m *Meter) errors() (gain, offset float64) {
+	gain = m.uGain * m.cfg.specReading
+	if m.cfg.gainError != nil {
+		gain = *m.cfg.gainError
+	}
+	offset = m.uOffset * m.cfg.specRange * m.rng
+	if m.cfg.offset != nil {
+		offset = *m.cfg.offset
+	}
+	return gain, offset
+}
+
+// Resolution returns the reading resolution in V on the present range: the
+// resolution setting (1 µV on the 10 V range by default) scaled by range/10 V.
+func (m *Meter) Resolution() float64 {
+	m.bench.mu.Lock()
+	defer m.bench.mu.Unlock()
+	return m.resolution()
+}
+
+func (m *Meter) resolution() float64 { return m.cfg.resolution * m.rng / 10 }
+
+// Aperture returns the time one reading takes: NPLC / line frequency (1 PLC = 20 ms
+// at 50 Hz).
+func (m *Meter) Aperture() time.Duration {
+	m.bench.mu.Lock()
+	defer m.bench.mu.Unlock()
+	return m.aperture()
+}
+
+func (m *Meter) aperture() time.Duration {
+	return time.Duration(math.Round(m.nplc / m.cfg.lineFreq * 1e9))
+}
+
+// Range returns the present range in volts.
+func (m *Meter) Range() float64 {
+	m.bench.mu.Lock()
+	defer m.bench.mu.Unlock()
+	return m.rng
+}
+
+// Clock returns the bench clock.
+func (m *Meter) Clock() instruments.Clock { return m.bench.clock }
+
+// Configure sets the range (volts; 0 = auto, which is the 10 V range; otherwise the
+// smallest of MeterRanges that holds it) and the integration time (0.001..100 PLC).
+func (m *Meter) Configure(ctx context.Context, rangeVolts, nplc float64) error {
+	b := m.bench
+	b.mu.Lock()
+	defer b.mu.Unlock()
+	if m.closed {
+		return errMeterClosed
+	}
+	r, err := meterRange(rangeVolts)
+	if err != nil {
+		return fmt.Errorf("sim meter: %w", err)
+	}
+	if err := checkNPLC(nplc); err != nil {
+		return fmt.Errorf("sim meter: %w", err)
+	}
+	if err := b.advance(ctx, m.latency); err != nil {
+		return fmt.Errorf("sim meter: configure: %w", err)
+	}
+	m.rng, m.nplc = r, nplc
+	return nil
+}
+
+// Reset returns the meter to its power-on configuration (the range and nplc
+// settings, by default the 10 V range and 1 PLC).
+func (m *Meter) Reset(ctx context.Context) error {
+	b := m.bench
+	b.mu.Lock()
+	defer b.mu.Unlock()
+	if m.closed {
+		return errMeterClosed
+	}
+	if err := b.advance(ctx, m.latency); err != nil {
+		return fmt.Errorf("sim meter: reset: %w", err)
+	}
+	m.rng, m.nplc = m.cfg.rng, m.cfg.nplc
+	return nil
+}
+
+// Identify returns the meter's invented identity.
+func (m *Meter) Identify(ctx context.Context) (instruments.Identity, error) {
+	b := m.bench
+	b.mu.Lock()
+	defer b.mu.Unlock()
+	if m.closed {
+		return instruments.Identity{}, errMeterClosed
+	}
+	if err := b.advance(ctx, m.latency); err != nil {
+		return instruments.Identity{}, fmt.Errorf("sim meter: identify: %w", err)
+	}
+	return instruments.Identity{Maker: Maker, Model: "DV-65", Serial: fmt.Sprintf("DV%06d", b.seed%1000000), Firmware: "1.0"}, nil
+}
+
+// Read takes n ≥ 1 readings. Each samples the DUT output at the instant it starts
+// (its Time); the clock then advances by the aperture. A reading above 1.2× the
+// range is FlagOverload (±OverloadValue); force_flag flags every reading. A done ctx
+// stops the readings and returns its error, wrapped.
+func (m *Meter) Read(ctx context.Context, n int) ([]instruments.Reading, error) {
+	b := m.bench
+	b.mu.Lock()
+	defer b.mu.Unlock()
+	if m.closed {
+		return nil, errMeterClosed
+	}
+	if n < 1 {
+		return nil, fmt.Errorf("sim meter: read %d readings: expected at least 1", n)
+	}
+	if err := b.advance(ctx, m.latency); err != nil {
+		return nil, fmt.Errorf("sim meter: read: %w", err)
+	}
+	gain, offset := m.errors()
+	noise := m.cfg.noise / math.Sqrt(m.nplc)
+	res := m.resolution()
+	out := make([]instruments.Reading, 0, n)
+	for range n {
+		if err := ctx.Err(); err != nil {
+			return nil, fmt.Errorf("sim meter: read: %w", err)
+		}
+		t := b.clock.Now()
+		v := b.output(t)*(1+gain) + offset + noise*b.noise.NormFloat64()
+		r := instruments.Reading{Value: quantise(v, res), Time: t}
+		switch {
+		case m.cfg.force == instruments.FlagNaN:
+			r.Value, r.Flag = NaNValue, instruments.FlagNaN
+		case m.cfg.force == instruments.FlagOverload:
+			r.Value, r.Flag = OverloadValue, instruments.FlagOverload
+		case math.Abs(v) > 1.2*m.rng:
+			r.Value, r.Flag = math.Copysign(OverloadValue, v), instruments.FlagOverload
+		}
+		out = append(out, r)
+		if err := b.advance(ctx, m.aperture()); err != nil {
+			return nil, fmt.Errorf("sim meter: read: %w", err)
+		}
+	}
+	return out, nil
+}
+
+// Close closes the meter; later calls return an error. A second Close returns nil.
+func (m *Meter) Close() error {
+	m.bench.mu.Lock()
+	defer m.bench.mu.Unlock()
+	m.closed = true
+	return nil
+}

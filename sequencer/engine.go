@@ -1,0 +1,631 @@
+// Package sequencer is trimline's engine and the domain it speaks: station and
+// sequence files, sweeps, fits, trim codes, verdicts and the run record.
+//
+// For one serial number the engine opens instruments by role, puts the source in a
+// safe state, sweeps the input range before trim, fits a straight line, computes and
+// writes the trim codes, reads them back, stores them, sweeps again to verify, judges
+// every limit and decides the verdict. Every exit path leaves the source output off.
+//
+// The engine imports only the instruments contract and the limits judge; it never
+// imports a concrete driver, the PDF writer or the ledger.
+package sequencer
+
+import (
+	"context"
+	"crypto/rand"
+	"encoding/hex"
+	"errors"
+	"fmt"
+	"math"
+	"runtime/debug"
+	"strconv"
+	"strings"
+	"time"
+
+	"github.com/rs/zerolog"
+
+	"trimline/instruments"
+	"trimline/limits"
+	"trimline/sequencer/fit"
+)
+
+// Config is what an Engine needs besides the instruments.
+type Config struct {
+	Station  *Station
+	Sequence *Sequence
+	Operator string
+	Software string         // version string recorded in every run
+	Log      zerolog.Logger // zero value logs nothing
+	// NewID returns a run id; nil uses a time-stamped random id.
+	NewID func(now time.Time) string
+}
+
+// Engine runs units on one opened bench. It is not safe for concurrent use: one
+// fixture, one unit at a time.
+type Engine struct {
+	cfg    Config
+	all    map[string]instruments.Instrument
+	source instruments.Source
+	meter  instruments.Meter
+	dut    instruments.TrimPort
+	clock  instruments.Clock
+	refs   []InstrumentRef
+	closed bool
+}
+
+// ErrSafety is wrapped by every refusal to program the source outside the
+// station's caps.
+var ErrSafety = errors.New("safety cap")
+
+// CheckCaps reports whether the sequence stays inside the station's safety caps.
+// It is run at load (trimline check) and again when an Engine opens.
+func CheckCaps(st *Station, seq *Sequence) error {
+	var errs []string
+	for _, sw := range []struct {
+		name string
+		p    SweepPlan
+	}{{"pre_trim", seq.PreTrim}, {"verify", seq.Verify}} {
+		for _, v := range []float64{sw.p.From, sw.p.To} {
+			if math.Abs(v) > st.MaxSourceVolts {
+				errs = append(errs, fmt.Sprintf("%s: %s sweep reaches %s, above the station cap of %s (%s safety.max_source_voltage)",
+					sw.p.Where, sw.name, fmtV(v), fmtV(st.MaxSourceVolts), st.File.Name))
+				break
+			}
+		}
+	}
+	for _, r := range seq.Requires {
+		if _, ok := st.Instruments[r]; !ok {
+			errs = append(errs, fmt.Sprintf("%s: the sequence requires the %q role, which station %s does not bind", seq.File.Name, r, st.ID))
+		}
+	}
+	if len(errs) > 0 {
+		return fmt.Errorf("%w: %s", ErrSafety, strings.Join(errs, "; "))
+	}
+	return nil
+}
+
+// Open checks the station against the sequence, opens every required instrument,
+// checks calibration due dates and pinned identities, and puts the source in a
+// safe state (level 0, output off). On error nothing stays open.
+func Open(ctx context.Context, cfg Config) (*Engine, error) {
+	st, seq := cfg.Station, cfg.Sequence
+	if err := CheckCaps(st, seq); err != nil {
+		return nil, err
+	}
+	all, err := instruments.OpenAll(ctx, st.Specs(seq.Requires))
+	if err != nil {
+		return nil, err
+	}
+	e := &Engine{cfg: cfg, all: all, clock: instruments.RealClock{}}
+	fail := func(err error) (*Engine, error) {
+		e.Close()
+		return nil, err
+	}
+	var ok bool
+	if e.source, ok = all["source"].(instruments.Source); !ok {
+		return fail(fmt.Errorf("source at %s is not a voltage source", st.Instruments["source"].Address))
+	}
+	if e.meter, ok = all["meter"].(instruments.Meter); !ok {
+		return fail(fmt.Errorf("meter at %s is not a voltmeter", st.Instruments["meter"].Address))
+	}
+	if e.dut, ok = all["dut"].(instruments.TrimPort); !ok {
+		return fail(fmt.Errorf("dut at %s is not a trim port", st.Instruments["dut"].Address))
+	}
+	for _, r := range seq.Requires {
+		if cs, ok := all[r].(instruments.ClockSource); ok {
+			e.clock = cs.Clock()
+			break
+		}
+	}
+	now := e.clock.Now()
+	for _, r := range seq.Requires {
+		si := st.Instruments[r]
+		ref := InstrumentRef{Role: r, Address: si.Address, Asset: si.Asset, Accuracy: si.Accuracy.String(),
+			Identity: instruments.Identity{Maker: "0", Model: "0", Serial: "0", Firmware: "0"}}
+		if !si.CalDue.IsZero() {
+			ref.CalDue = si.CalDue.Format("2006-01-02")
+			if now.After(si.CalDue.AddDate(0, 0, 1)) {
+				return fail(fmt.Errorf("%s %s: calibration expired on %s; recalibrate it or fix cal_due in %s", r, si.Asset, ref.CalDue, st.File.Name))
+			}
+		}
+		// The DUT's identity belongs to the unit in the fixture, read per run.
+		if id, ok := all[r].(instruments.Identifier); ok && r != "dut" {
+			got, err := id.Identify(ctx)
+			if err != nil {
+				return fail(fmt.Errorf("%s: identify: %w", r, err))
+			}
+			ref.Identity = got
+			if si.Model != "" && got.Model != si.Model || si.Serial != "" && got.Serial != si.Serial {
+				return fail(fmt.Errorf("%s %s: instrument identifies as model %q serial %q, station file pins model %q serial %q: wrong instrument on the bench",
+					r, si.Asset, got.Model, got.Serial, si.Model, si.Serial))
+			}
+		}
+		e.refs = append(e.refs, ref)
+	}
+	if err := e.safeState(ctx); err != nil {
+		return fail(fmt.Errorf("put source in a safe state: %w", err))
+	}
+	if cs, ok := e.source.(instruments.ComplianceSetter); ok {
+		if err := cs.SetCompliance(ctx, st.MaxSourceAmps); err != nil {
+			return fail(fmt.Errorf("source: set compliance: %w", err))
+		}
+	} else {
+		return fail(fmt.Errorf("source at %s cannot limit its current; the station caps it at %s", st.Instruments["source"].Address, fmtA(st.MaxSourceAmps)))
+	}
+	if mc, ok := e.meter.(instruments.MeterConfigurer); ok {
+		if err := mc.Configure(ctx, seq.Meter.Range, seq.Meter.NPLC); err != nil {
+			return fail(fmt.Errorf("meter: configure: %w", err))
+		}
+	}
+	return e, nil
+}
+
+// Instrument returns the opened instrument for role, or nil.
+func (e *Engine) Instrument(role string) instruments.Instrument { return e.all[role] }
+
+// Clock returns the time base the engine runs on.
+func (e *Engine) Clock() instruments.Clock { return e.clock }
+
+// Close switches the source output off and closes every instrument. Safe to call
+// twice.
+func (e *Engine) Close() error {
+	if e.closed {
+		return nil
+	}
+	e.closed = true
+	var first error
+	if e.source != nil {
+		first = e.safeOff()
+	}
+	for _, r := range Roles {
+		if in, ok := e.all[r]; ok {
+			if err := in.Close(); err != nil && first == nil {
+				first = err
+			}
+		}
+	}
+	return first
+}
+
+// safeState programs level 0 with the output off.
+func (e *Engine) safeState(ctx context.Context) error {
+	if r, ok := e.source.(instruments.Resetter); ok {
+		if err := r.Reset(ctx); err != nil {
+			return err
+		}
+	}
+	if err := e.source.SetOutput(ctx, false); err != nil {
+		return err
+	}
+	return e.source.SetLevel(ctx, 0)
+}
+
+// safeOff switches the output off with a context of its own, so it works after the
+// run's context was cancelled.
+func (e *Engine) safeOff() error {
+	ctx, cancel := context.WithTimeout(context.Background(), 2*time.Second)
+	defer cancel()
+	err := e.source.SetOutput(ctx, false)
+	if err2 := e.source.SetLevel(ctx, 0); err == nil {
+		err = err2
+	}
+	return err
+}
+
+// stop ends a run early: it carries the verdict and the message.
+type stop struct {
+	verdict Verdict
+	msg     string
+}
+
+func (s *stop) Error() string { return s.msg }
+
+// Run trims one serial number and returns its record. Run never returns a nil
+// record: a station fault, a cancelled context or a panic are recorded in it with
+// verdict FAULT or ABORTED. The source output is off when Run returns.
+func (e *Engine) Run(ctx context.Context, serial string) (rec *Record) {
+	st, seq := e.cfg.Station, e.cfg.Sequence
+	now := e.clock.Now().UTC()
+	rec = &Record{
+		Schema: RecordSchema, Serial: serial, Product: seq.Product, Revision: seq.Revision,
+		Station: st.ID, Operator: e.cfg.Operator, Software: e.cfg.Software, Started: now,
+		Files:       []FileRef{st.File, seq.File, limitsRef(seq.Limits)},
+		Instruments: append([]InstrumentRef(nil), e.refs...),
+		IdealGain:   seq.IdealGain, IdealOffset: seq.IdealOffset, FullScale: seq.FullScale,
+	}
+	if e.cfg.NewID != nil {
+		rec.RunID = e.cfg.NewID(now)
+	} else {
+		rec.RunID = newID(now)
+	}
+	log := e.cfg.Log.With().Str("serial", serial).Str("run", rec.RunID).Logger()
+	defer func() {
+		if p := recover(); p != nil {
+			log.Error().Str("stack", string(debug.Stack())).Msgf("panic: %v", p)
+			rec.Verdict, rec.Fault = Fault, fmt.Sprintf("internal error: %v", p)
+		}
+		if err := e.safeOff(); err != nil {
+			log.Error().Err(err).Msg("could not switch the source output off")
+			if rec.Verdict == Pass || rec.Verdict == Fail {
+				rec.Verdict = Fault
+			}
+			rec.Fault = strings.TrimPrefix(rec.Fault+"; source output off failed: "+err.Error(), "; ")
+		}
+		rec.Finished = e.clock.Now().UTC()
+	}()
+	err := e.run(ctx, rec)
+	var s *stop
+	switch {
+	case err == nil:
+	case errors.As(err, &s):
+		rec.Verdict = s.verdict
+		if s.verdict == Fail {
+			rec.Reasons = append(rec.Reasons, s.msg)
+		} else {
+			rec.Fault = s.msg
+		}
+	case ctx.Err() != nil:
+		rec.Verdict, rec.Fault = Aborted, fmt.Sprintf("aborted: %v", context.Cause(ctx))
+	default:
+		rec.Verdict, rec.Fault = Fault, err.Error()
+	}
+	if rec.Verdict == Fault || rec.Verdict == Aborted {
+		log.Warn().Str("verdict", string(rec.Verdict)).Msg(rec.Fault)
+	}
+	return rec
+}
+
+func (e *Engine) run(ctx context.Context, rec *Record) error {
+	seq := e.cfg.Sequence
+	if fl, ok := e.dut.(instruments.FixtureLoader); ok {
+		if err := fl.LoadUnit(ctx, rec.Serial); err != nil {
+			return fmt.Errorf("load unit into fixture: %w", err)
+		}
+	}
+	if q := seq.DUT.SerialQuery; q != "" {
+		got, err := e.dut.Query(ctx, q)
+		if err != nil {
+			return fmt.Errorf("dut: read serial number: %w", err)
+		}
+		if strings.TrimSpace(got) != rec.Serial {
+			return &stop{Fault, fmt.Sprintf("the unit in the fixture reports serial %q but %q was scanned: wrong unit in the fixture", strings.TrimSpace(got), rec.Serial)}
+		}
+	}
+	if q := seq.DUT.FirmwareQuery; q != "" {
+		fw, err := e.dut.Query(ctx, q)
+		if err != nil {
+			return fmt.Errorf("dut: read firmware id: %w", err)
+		}
+		for i := range rec.Instruments {
+			if rec.Instruments[i].Role == "dut" {
+				rec.Instruments[i].Identity = instruments.Identity{Maker: orZero(seq.Maker), Model: orZero(seq.Product), Serial: rec.Serial, Firmware: strings.TrimSpace(fw)}
+			}
+		}
+	}
+
+	// Known starting state: record what the unit holds, then apply no correction.
+	trims := []TrimCode{{DAC: "gain"}, {DAC: "offset"}}
+	dacs := []DAC{seq.Trim.Gain, seq.Trim.Offset}
+	for i, d := range dacs {
+		c, err := e.readCode(ctx, trims[i].DAC, d)
+		if err != nil {
+			return err
+		}
+		trims[i].Before = c
+		if err := e.writeCode(ctx, trims[i].DAC, d, d.NoCorrection); err != nil {
+			return err
+		}
+	}
+
+	pre, err := e.sweep(ctx, "pre-trim", seq.PreTrim)
+	rec.Sweeps = append(rec.Sweeps, pre)
+	if err != nil {
+		return err
+	}
+	res := newResults()
+	preFit, ferr := e.fitSweep(pre)
+	if ferr != nil {
+		res.invalidAll("pre-trim sweep: " + ferr.Error())
+		rec.Results = res.list()
+		e.judge(rec, res)
+		return nil
+	}
+	rec.Fits = append(rec.Fits, preFit)
+	res.set(ResPreOffset, preFit.Intercept-seq.IdealOffset)
+	res.set(ResPreGainError, preFit.Slope/seq.IdealGain-1)
+	res.set(ResPreNonlinearity, preFit.Nonlinearity)
+
+	sol, err := ComputeTrim(seq.Trim, preFit.Slope, preFit.Intercept, seq.Trim.Gain.NoCorrection, seq.Trim.Offset.NoCorrection, seq.IdealGain, seq.IdealOffset)
+	if err != nil {
+		res.invalidFrom(ResOffsetCode, "cannot compute trim: "+err.Error())
+		rec.Results = res.list()
+		rec.Reasons = append(rec.Reasons, "cannot compute trim codes: "+err.Error())
+		e.judge(rec, res)
+		return nil
+	}
+	trims[0].Ideal, trims[0].Code, trims[0].Saturated = sol.GainIdeal, sol.Gain, sol.GainSat
+	trims[1].Ideal, trims[1].Code, trims[1].Saturated = sol.OffsetIdeal, sol.Offset, sol.OffsetSat
+	rec.Trims = trims
+	res.set(ResGainCode, float64(sol.Gain))
+	res.set(ResOffsetCode, float64(sol.Offset))
+	var sat []string
+	for i, t := range trims {
+		if t.Saturated {
+			sat = append(sat, fmt.Sprintf("%s trim needs code %.1f, outside the DAC's range 0..%d", t.DAC, t.Ideal, dacs[i].MaxCode()))
+		}
+	}
+	if len(sat) > 0 {
+		rec.Reasons = append(rec.Reasons, sat...)
+		res.invalidFrom(ResPostOffset, "not measured: trim saturated")
+		res.values[ResGainCode] = limits.Value{V: float64(sol.Gain), Valid: !sol.GainSat, Why: "gain trim saturated"}
+		res.values[ResOffsetCode] = limits.Value{V: float64(sol.Offset), Valid: !sol.OffsetSat, Why: "offset trim saturated"}
+		rec.Results = res.list()
+		e.judge(rec, res)
+		return nil
+	}
+
+	for i := range trims {
+		if err := e.writeCode(ctx, trims[i].DAC, dacs[i], trims[i].Code); err != nil {
+			return err
+		}
+		trims[i].Readback = trims[i].Code
+	}
+	if seq.Trim.Store != "" {
+		if err := e.dut.Command(ctx, seq.Trim.Store); err != nil {
+			return fmt.Errorf("dut: store trim codes: %w", err)
+		}
+		for i := range trims {
+			trims[i].Stored = true
+		}
+	}
+	rec.Trims = trims
+
+	post, err := e.sweep(ctx, "verify", seq.Verify)
+	rec.Sweeps = append(rec.Sweeps, post)
+	if err != nil {
+		return err
+	}
+	postFit, ferr := e.fitSweep(post)
+	if ferr != nil {
+		res.invalidFrom(ResPostOffset, "verification sweep: "+ferr.Error())
+	} else {
+		rec.Fits = append(rec.Fits, postFit)
+		res.set(ResPostOffset, postFit.Intercept-seq.IdealOffset)
+		res.set(ResPostGainError, postFit.Slope/seq.IdealGain-1)
+		res.set(ResPostNonlinearity, postFit.Nonlinearity)
+		var maxErr, maxSD float64
+		for _, p := range post.Points {
+			maxErr = math.Max(maxErr, math.Abs(p.Mean-(seq.IdealGain*p.Stimulus+seq.IdealOffset)))
+			maxSD = math.Max(maxSD, p.SD)
+		}
+		res.set(ResPostMaxError, maxErr)
+		if seq.Verify.Readings > 1 {
+			res.set(ResPostNoise, maxSD)
+		} else {
+			res.invalid(ResPostNoise, "one reading per point: no noise estimate")
+		}
+	}
+	rec.Results = res.list()
+	e.judge(rec, res)
+	return nil
+}
+
+// judge evaluates every limit and sets the verdict; earlier reasons (saturated trim)
+// already make it FAIL.
+func (e *Engine) judge(rec *Record, res *results) {
+	rec.Outcomes = e.cfg.Sequence.Limits.Judge(res.values)
+	for _, o := range rec.Outcomes {
+		if !o.Pass {
+			rec.Reasons = append(rec.Reasons, fmt.Sprintf("limit %q failed: %s", o.Name, o.Reason))
+		}
+	}
+	rec.Verdict = Pass
+	if len(rec.Reasons) > 0 {
+		rec.Verdict = Fail
+	}
+}
+
+// sweep steps the source across p and reads the meter at each level. The output is
+// switched on after the first level is programmed and off again at the end.
+func (e *Engine) sweep(ctx context.Context, name string, p SweepPlan) (Sweep, error) {
+	sw := Sweep{Name: name}
+	for i, x := range p.Levels() {
+		if err := e.setLevel(ctx, x); err != nil {
+			return sw, err
+		}
+		if i == 0 {
+			if err := e.source.SetOutput(ctx, true); err != nil {
+				return sw, fmt.Errorf("%s sweep: source output on: %w", name, err)
+			}
+		}
+		if err := e.clock.Sleep(ctx, p.Settle); err != nil {
+			return sw, err
+		}
+		rs, err := e.meter.Read(ctx, p.Readings)
+		if err != nil {
+			return sw, fmt.Errorf("%s sweep at %s: read meter: %w", name, fmtV(x), err)
+		}
+		sw.Points = append(sw.Points, point(x, rs))
+		e.cfg.Log.Debug().Str("sweep", name).Float64("x", x).Float64("y", sw.Points[i].Mean).Msg("point")
+	}
+	if err := e.source.SetOutput(ctx, false); err != nil {
+		return sw, fmt.Errorf("%s sweep: source output off: %w", name, err)
+	}
+	return sw, nil
+}
+
+// setLevel programs the source after checking the station cap once more.
+func (e *Engine) setLevel(ctx context.Context, volts float64) error {
+	if !finite(volts) || math.Abs(volts) > e.cfg.Station.MaxSourceVolts {
+		return &stop{Fault, fmt.Sprintf("%v: refusing to program %s, above the station cap of %s", ErrSafety, fmtV(volts), fmtV(e.cfg.Station.MaxSourceVolts))}
+	}
+	if err := e.source.SetLevel(ctx, volts); err != nil {
+		return fmt.Errorf("source: set level %s: %w", fmtV(volts), err)
+	}
+	return nil
+}
+
+// point summarises the readings at one level. Mean and SD are over the valid
+// readings; a point with any invalid reading cannot be fitted.
+func point(x float64, rs []instruments.Reading) Point {
+	p := Point{Stimulus: x, Readings: rs}
+	var sum float64
+	for _, r := range rs {
+		if r.Valid() {
+			p.Valid++
+			sum += r.Value
+		}
+	}
+	if p.Valid == 0 {
+		p.Mean, p.SD = math.NaN(), math.NaN()
+		return p
+	}
+	p.Mean = sum / float64(p.Valid)
+	if p.Valid > 1 {
+		var ss float64
+		for _, r := range rs {
+			if r.Valid() {
+				ss += (r.Value - p.Mean) * (r.Value - p.Mean)
+			}
+		}
+		p.SD = math.Sqrt(ss / float64(p.Valid-1))
+	}
+	return p
+}
+
+// fitSweep fits a straight line through the sweep's means. Any point with an invalid
+// reading (NaN, infinite, overload) makes the fit unusable, because a flagged reading
+// must never contribute to a passing result.
+func (e *Engine) fitSweep(sw Sweep) (FitSummary, error) {
+	x := make([]float64, len(sw.Points))
+	y := make([]float64, len(sw.Points))
+	for i, p := range sw.Points {
+		if p.Valid != len(p.Readings) || len(p.Readings) == 0 {
+			bad := "no reading"
+			for _, r := range p.Readings {
+				if !r.Valid() {
+					bad = r.Flag.String()
+					if r.Flag == instruments.FlagNone {
+						bad = strconv.FormatFloat(r.Value, 'g', -1, 64)
+					}
+					break
+				}
+			}
+			return FitSummary{}, fmt.Errorf("invalid reading (%s) at %s", bad, fmtV(p.Stimulus))
+		}
+		x[i], y[i] = p.Stimulus, p.Mean
+	}
+	r, err := fit.Poly(x, y, 1, 0)
+	if err != nil {
+		return FitSummary{}, err
+	}
+	fs := FitSummary{Sweep: sw.Name, Intercept: r.Coef[0], Slope: r.Coef[1], ResidualSD: r.ResidualSD, DOF: r.DOF,
+		Residuals: r.Residuals}
+	fs.Cov = [2][2]float64{{r.Cov[0][0], r.Cov[0][1]}, {r.Cov[1][0], r.Cov[1][1]}}
+	fs.Nonlinearity = r.MaxAbsResidual() / e.cfg.Sequence.FullScale
+	return fs, nil
+}
+
+func (e *Engine) writeCode(ctx context.Context, name string, d DAC, code int) error {
+	line := strings.ReplaceAll(d.Write, "{code}", strconv.Itoa(code))
+	if err := e.dut.Command(ctx, line); err != nil {
+		return fmt.Errorf("dut: write %s trim code %d: %w", name, code, err)
+	}
+	got, err := e.readCode(ctx, name, d)
+	if err != nil {
+		return err
+	}
+	if got != code {
+		return &stop{Fault, fmt.Sprintf("dut: %s trim read back %d after writing %d", name, got, code)}
+	}
+	return nil
+}
+
+func (e *Engine) readCode(ctx context.Context, name string, d DAC) (int, error) {
+	reply, err := e.dut.Query(ctx, d.Read)
+	if err != nil {
+		return 0, fmt.Errorf("dut: read %s trim code: %w", name, err)
+	}
+	c, err := strconv.Atoi(strings.TrimSpace(reply))
+	if err != nil {
+		return 0, &stop{Fault, fmt.Sprintf("dut: %s trim read-back %q is not a code", name, reply)}
+	}
+	return c, nil
+}
+
+// results collects the named results of one run.
+type results struct{ values map[string]limits.Value }
+
+func newResults() *results {
+	r := &results{values: map[string]limits.Value{}}
+	for _, n := range resultOrder {
+		r.values[n] = limits.Value{Why: "not measured"}
+	}
+	return r
+}
+
+func (r *results) set(name string, v float64) {
+	r.values[name] = limits.Value{V: v, Valid: finite(v), Why: "not a finite number"}
+}
+
+func (r *results) invalid(name, why string) { r.values[name] = limits.Value{Why: why} }
+
+func (r *results) invalidAll(why string) {
+	for _, n := range resultOrder {
+		r.invalid(n, why)
+	}
+}
+
+// invalidFrom marks name and every later result invalid.
+func (r *results) invalidFrom(name, why string) {
+	on := false
+	for _, n := range resultOrder {
+		on = on || n == name
+		if on {
+			r.invalid(n, why)
+		}
+	}
+}
+
+func (r *results) list() []Result {
+	out := make([]Result, 0, len(resultOrder))
+	for _, n := range resultOrder {
+		v := r.values[n]
+		res := Result{Name: n, Value: v.V, Unit: unitName(ResultCatalog[n]), Valid: v.Valid}
+		if !v.Valid {
+			res.Value, res.Note = 0, v.Why
+		}
+		out = append(out, res)
+	}
+	return out
+}
+
+func limitsRef(s *limits.Set) FileRef {
+	if s == nil {
+		return FileRef{Kind: "limits"}
+	}
+	return FileRef{Kind: "limits", Name: baseName(s.File), Title: strings.TrimSpace(s.Name + " rev " + s.Revision), SHA256: s.SHA256}
+}
+
+func baseName(p string) string {
+	if i := strings.LastIndexAny(p, `/\`); i >= 0 {
+		return p[i+1:]
+	}
+	return p
+}
+
+func newID(now time.Time) string {
+	var b [4]byte
+	rand.Read(b[:])
+	return now.UTC().Format("20060102T150405.000Z") + "-" + hex.EncodeToString(b[:])
+}
+
+func orZero(s string) string {
+	if s == "" {
+		return "0"
+	}
+	return s
+}
+
+func fmtV(v float64) string { return formatSI(v, "V") }
+func fmtA(v float64) string { return formatSI(v, "A") }

@@ -1,0 +1,349 @@
+package sequencer_test
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"math"
+	"net/url"
+	"strings"
+	"sync"
+	"testing"
+
+	"trimline/instruments"
+	"trimline/instruments/sim"
+	"trimline/sequencer"
+)
+
+// plan is what the "faulty" test driver injects into a simulated bench.
+type plan struct {
+	reads        int
+	panicAtRead  int        // panic in the Nth meter read (1-based); 0 = never
+	errAtRead    int        // return an error from the Nth read
+	cancelAtRead int        // call cancel during the Nth read
+	cancel       func()     // used with cancelAtRead
+	readbackSkew int        // added to every trim code read back after a write
+	bench        *sim.Bench // the bench opened last
+}
+
+type faults struct {
+	mu sync.Mutex
+	plan
+}
+
+func (f *faults) set(p plan) {
+	f.mu.Lock()
+	defer f.mu.Unlock()
+	f.plan = p
+}
+
+var inject = &faults{}
+
+// faultyDriver opens a simulated bench (addresses faulty://source etc.) and wraps
+// its meter and DUT so tests can make them misbehave.
+type faultyDriver struct{}
+
+func (faultyDriver) Open(ctx context.Context, u *url.URL, s instruments.Spec) (instruments.Instrument, error) {
+	return nil, errors.New("faulty: open as a group")
+}
+
+func (faultyDriver) OpenGroup(ctx context.Context, specs []instruments.Spec) ([]instruments.Instrument, error) {
+	simSpecs := make([]instruments.Spec, len(specs))
+	for i, s := range specs {
+		s.Address = strings.Replace(s.Address, "faulty://", "sim://", 1)
+		simSpecs[i] = s
+	}
+	b, err := sim.NewBench(simSpecs)
+	if err != nil {
+		return nil, err
+	}
+	inject.mu.Lock()
+	inject.bench = b
+	inject.mu.Unlock()
+	out := make([]instruments.Instrument, len(specs))
+	for i, s := range specs {
+		switch s.Role {
+		case "source":
+			out[i] = b.Source()
+		case "meter":
+			out[i] = &faultyMeter{b.Meter()}
+		case "dut":
+			out[i] = &faultyDUT{DUT: b.DUT()}
+		}
+	}
+	return out, nil
+}
+
+type faultyMeter struct{ *sim.Meter }
+
+func (m *faultyMeter) Read(ctx context.Context, n int) ([]instruments.Reading, error) {
+	inject.mu.Lock()
+	inject.reads++
+	k := inject.reads
+	f := inject.plan
+	inject.mu.Unlock()
+	switch k {
+	case f.panicAtRead:
+		panic("injected meter panic")
+	case f.errAtRead:
+		return nil, errors.New("injected: meter stopped answering")
+	case f.cancelAtRead:
+		f.cancel()
+	}
+	return m.Meter.Read(ctx, n)
+}
+
+type faultyDUT struct {
+	*sim.DUT
+	wrote bool
+}
+
+func (d *faultyDUT) Command(ctx context.Context, line string) error {
+	d.wrote = strings.HasPrefix(line, "TRIM ")
+	return d.DUT.Command(ctx, line)
+}
+
+func (d *faultyDUT) Query(ctx context.Context, line string) (string, error) {
+	r, err := d.DUT.Query(ctx, line)
+	inject.mu.Lock()
+	skew := inject.readbackSkew
+	inject.mu.Unlock()
+	if err == nil && skew != 0 && d.wrote && strings.HasPrefix(line, "TRIM ") {
+		var c int
+		fmt.Sscan(r, &c)
+		r = fmt.Sprint(c + skew)
+	}
+	return r, err
+}
+
+func init() { instruments.Register("faulty", faultyDriver{}) }
+
+// setup loads the demo files with settings overrides per role and opens an engine.
+func setup(t testing.TB, scheme string, set map[string]map[string]string, limitFile string) *sequencer.Engine {
+	t.Helper()
+	st, err := sequencer.ParseStation("brx200-station.yaml", []byte(demoFile(t, "brx200-station.yaml")))
+	if err != nil {
+		t.Fatal(err)
+	}
+	for role, in := range st.Instruments {
+		in.Address = strings.Replace(in.Address, "sim://", scheme+"://", 1)
+		in.Settings = map[string]string{}
+		for k, v := range set[role] {
+			in.Settings[k] = v
+		}
+		st.Instruments[role] = in
+	}
+	over := map[string]string{}
+	if limitFile != "" {
+		over["brx200-limits.yaml"] = limitFile
+	}
+	seq, err := sequencer.ParseSequence("brx200-sequence.yaml", []byte(demoFile(t, "brx200-sequence.yaml")), demoReader(t, over))
+	if err != nil {
+		t.Fatal(err)
+	}
+	e, err := sequencer.Open(context.Background(), sequencer.Config{Station: st, Sequence: seq, Operator: "test", Software: "test"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	t.Cleanup(func() { e.Close() })
+	return e
+}
+
+// ideal makes every instrument error and noise zero, so outcomes are exactly
+// predictable from the DUT model.
+func ideal(dut map[string]string) map[string]map[string]string {
+	d := map[string]string{"noise": "0 V", "crossover_step": "0 V", "dnl": "0", "defect": "none", "open_loop_gain": "0"}
+	for k, v := range dut {
+		d[k] = v
+	}
+	return map[string]map[string]string{
+		"source": {"noise": "0 V", "gain_error": "0 ppm", "offset": "0 V"},
+		"meter":  {"noise": "0 V", "gain_error": "0 ppm", "offset": "0 V"},
+		"dut":    d,
+	}
+}
+
+func resultOf(t testing.TB, rec *sequencer.Record, name string) sequencer.Result {
+	t.Helper()
+	for _, r := range rec.Results {
+		if r.Name == name {
+			return r
+		}
+	}
+	t.Fatalf("no result %q", name)
+	return sequencer.Result{}
+}
+
+func TestKnownDUTGivesPredictableCodes(t *testing.T) {
+	e := setup(t, "sim", ideal(map[string]string{"offset": "3.1 mV", "gain_error": "-2500 ppm"}), "")
+	rec := e.Run(context.Background(), "BRX-00042")
+	if rec.Verdict != sequencer.Pass {
+		t.Fatalf("verdict %s: %v %s", rec.Verdict, rec.Reasons, rec.Fault)
+	}
+	// Hand-worked in TestComputeTrimHandWorked: gain code 2299, offset code 1793.
+	var codes = map[string]int{}
+	for _, tc := range rec.Trims {
+		codes[tc.DAC] = tc.Code
+		if tc.Readback != tc.Code || !tc.Stored || tc.Before != 2048 {
+			t.Errorf("%s: %+v", tc.DAC, tc)
+		}
+	}
+	if codes["gain"] != 2299 || codes["offset"] != 1793 {
+		t.Fatalf("codes %v, want gain 2299 offset 1793", codes)
+	}
+	// Hand-worked: after trim the model gives slope 199.5·1.00251 = 200.000745 V/V
+	// (+3.725 ppm) and intercept 2.5 + 1.00251·3.1 mV − 255·12.2 µV = 2.499996781 V
+	// (−3.219 µV); the meter resolves 1 µV.
+	near(t, "post offset", resultOf(t, rec, sequencer.ResPostOffset).Value, -3.219e-6, 1e-6)
+	near(t, "post gain error", resultOf(t, rec, sequencer.ResPostGainError).Value, 3.725e-6, 0.2e-6)
+	near(t, "pre offset", resultOf(t, rec, sequencer.ResPreOffset).Value, 3.1e-3, 1e-6)
+	near(t, "pre gain error", resultOf(t, rec, sequencer.ResPreGainError).Value, -2500e-6, 0.1e-6)
+	if n := len(rec.Sweeps); n != 2 || len(rec.Sweeps[0].Points) != 11 || len(rec.Sweeps[0].Points[0].Readings) != 8 {
+		t.Fatalf("sweeps not recorded in full: %d", n)
+	}
+	if !rec.Finished.After(rec.Started) {
+		t.Error("times not recorded")
+	}
+	if on, lvl := simSource(t, e).State(); on || lvl != 0 {
+		t.Errorf("source left on=%v level=%g", on, lvl)
+	}
+}
+
+func simSource(t testing.TB, e *sequencer.Engine) *sim.Source {
+	t.Helper()
+	s, ok := e.Instrument("source").(*sim.Source)
+	if !ok {
+		t.Fatal("source is not simulated")
+	}
+	return s
+}
+
+// Over 1000 simulated healthy units the post-trim offset is within ½ LSB of the
+// offset DAC plus the measurement noise for at least 99 % of them. The noise
+// allowance is 3 standard uncertainties of the difference between the pre- and
+// post-trim intercepts, as the fits themselves report them (common practice: a
+// 3σ band).
+func TestPostTrimOffsetWithinHalfLSB(t *testing.T) {
+	if testing.Short() {
+		t.Skip("1000 units")
+	}
+	e := setup(t, "sim", map[string]map[string]string{"dut": {"defect_rate": "0"}}, "")
+	const n = 1000
+	const halfLSB = 12.2e-6 / 2
+	within, worst := 0, 0.0
+	for i := range n {
+		rec := e.Run(context.Background(), fmt.Sprintf("POP-%05d", i))
+		if rec.Verdict == sequencer.Fault || len(rec.Fits) != 2 {
+			t.Fatalf("unit %d: %s %s %v", i, rec.Verdict, rec.Fault, rec.Reasons)
+		}
+		post := resultOf(t, rec, sequencer.ResPostOffset).Value
+		u := math.Sqrt(rec.Fits[0].Cov[0][0] + rec.Fits[1].Cov[0][0])
+		if math.Abs(post) <= halfLSB+3*u {
+			within++
+		}
+		worst = math.Max(worst, math.Abs(post))
+	}
+	t.Logf("%d of %d within ½ LSB + 3u; worst |post offset| %.2f µV", within, n, worst*1e6)
+	if within < 990 {
+		t.Fatalf("only %d of %d units within ½ LSB plus noise", within, n)
+	}
+}
+
+// A flagged, NaN or infinite reading must never let a unit pass, even with a limit
+// written so that NaN would slip through expr-lang (`!(x > lim)`).
+func TestFlaggedReadingsNeverPass(t *testing.T) {
+	trap := `limit_set:
+  name: trap
+  revision: "1"
+  product: BRX-200
+limits:
+  - name: negated offset
+    description: written the dangerous way
+    unit: uV
+    uses: [post_offset]
+    expr: "!(abs(post_offset) > 50)"
+  - name: negated pre offset
+    description: written the dangerous way
+    unit: mV
+    uses: [pre_offset]
+    expr: "not (abs(pre_offset) > 20)"
+`
+	for _, flag := range []string{"overload", "nan"} {
+		t.Run(flag, func(t *testing.T) {
+			set := ideal(nil)
+			set["meter"]["force_flag"] = flag
+			e := setup(t, "sim", set, trap)
+			rec := e.Run(context.Background(), "BRX-00001")
+			if rec.Verdict != sequencer.Fail {
+				t.Fatalf("verdict %s, want FAIL", rec.Verdict)
+			}
+			for _, o := range rec.Outcomes {
+				if o.Pass {
+					t.Errorf("limit %q passed on flagged readings", o.Name)
+				}
+			}
+			if r := resultOf(t, rec, sequencer.ResPreOffset); r.Valid {
+				t.Errorf("pre_offset valid from %s readings", flag)
+			}
+			if on, _ := simSource(t, e).State(); on {
+				t.Error("source left on")
+			}
+		})
+	}
+}
+
+func TestSaturatedTrimFailsWithReason(t *testing.T) {
+	// +30 mV offset needs an offset code below 0 (hand-worked in the trim test).
+	e := setup(t, "sim", ideal(map[string]string{"offset": "30 mV", "gain_error": "0 ppm"}), "")
+	rec := e.Run(context.Background(), "BRX-00003")
+	if rec.Verdict != sequencer.Fail || len(rec.Reasons) == 0 || !strings.Contains(rec.Reasons[0], "offset trim needs code") {
+		t.Fatalf("verdict %s reasons %v", rec.Verdict, rec.Reasons)
+	}
+	for _, tc := range rec.Trims {
+		if tc.Stored {
+			t.Error("a saturated trim was stored")
+		}
+	}
+}
+
+// Every exit path leaves the source output off: a failed step, an instrument
+// error, a cancelled context and a panic.
+func TestSourceOffOnEveryExitPath(t *testing.T) {
+	cases := []struct {
+		name    string
+		plan    plan
+		verdict sequencer.Verdict
+		fault   string
+	}{
+		{"meter error", plan{errAtRead: 5}, sequencer.Fault, "meter stopped answering"},
+		{"panic", plan{panicAtRead: 7}, sequencer.Fault, "internal error: injected meter panic"},
+		{"cancelled", plan{cancelAtRead: 3}, sequencer.Aborted, "aborted"},
+		{"read-back mismatch", plan{readbackSkew: 1}, sequencer.Fault, "read back"},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			inject.set(plan{})
+			e := setup(t, "faulty", ideal(nil), "")
+			ctx, cancel := context.WithCancel(context.Background())
+			defer cancel()
+			inject.mu.Lock()
+			bench := inject.bench
+			inject.mu.Unlock()
+			p := c.plan
+			p.cancel, p.bench = cancel, bench
+			inject.set(p)
+			rec := e.Run(ctx, "BRX-00009")
+			if rec.Verdict != c.verdict || !strings.Contains(rec.Fault, c.fault) {
+				t.Fatalf("verdict %s fault %q, want %s containing %q", rec.Verdict, rec.Fault, c.verdict, c.fault)
+			}
+			if on, lvl := bench.Source().State(); on || lvl != 0 {
+				t.Errorf("source left on=%v level=%g", on, lvl)
+			}
+			inject.set(plan{bench: bench})
+			// The next unit runs after the fault.
+			if rec := e.Run(context.Background(), "BRX-00010"); rec.Verdict == sequencer.Fault || rec.Verdict == sequencer.Aborted {
+				t.Errorf("next unit: %s %s", rec.Verdict, rec.Fault)
+			}
+		})
+	}
+}

@@ -1,0 +1,162 @@
+package sequencer_test
+
+import (
+	"fmt"
+	"io/fs"
+	"strings"
+	"testing"
+
+	_ "trimline/instruments/sim"
+	"trimline/sequencer"
+	"trimline/sequencer/files"
+	"trimline/sequences"
+)
+
+func demoFile(t testing.TB, name string) string {
+	t.Helper()
+	b, err := fs.ReadFile(sequences.Demo, name)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return string(b)
+}
+
+// demoReader serves the demo files by base name, with optional replacements.
+func demoReader(t testing.TB, over map[string]string) func(string) ([]byte, error) {
+	return func(p string) ([]byte, error) {
+		name := p[strings.LastIndexAny(p, `/\`)+1:]
+		if s, ok := over[name]; ok {
+			return []byte(s), nil
+		}
+		return fs.ReadFile(sequences.Demo, name)
+	}
+}
+
+// lineOf returns the 1-based line of the first occurrence of needle in text.
+func lineOf(t *testing.T, text, needle string) int {
+	t.Helper()
+	i := strings.Index(text, needle)
+	if i < 0 {
+		t.Fatalf("%q not in text", needle)
+	}
+	return strings.Count(text[:i], "\n") + 1
+}
+
+func TestDemoFilesLoad(t *testing.T) {
+	st, err := sequencer.ParseStation("brx200-station.yaml", []byte(demoFile(t, "brx200-station.yaml")))
+	if err != nil {
+		t.Fatal(err)
+	}
+	seq, err := sequencer.ParseSequence("brx200-sequence.yaml", []byte(demoFile(t, "brx200-sequence.yaml")), demoReader(t, nil))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := sequencer.CheckCaps(st, seq); err != nil {
+		t.Fatal(err)
+	}
+	// Units parsed once at the boundary (hand-read from the demo files).
+	near(t, "max source voltage", st.MaxSourceVolts, 0.05, 1e-15)
+	near(t, "max source current", st.MaxSourceAmps, 0.01, 1e-15)
+	near(t, "meter of_reading", st.Instruments["meter"].Accuracy.OfReading, 30e-6, 1e-18)
+	near(t, "offset LSB", seq.Trim.Offset.LSB, 12.2e-6, 1e-18)
+	near(t, "gain LSB", seq.Trim.Gain.LSB, 10e-6, 1e-18)
+	near(t, "from", seq.PreTrim.From, -0.01, 1e-15)
+	if seq.PreTrim.Settle.Milliseconds() != 20 || seq.PreTrim.Points != 11 || seq.Limits == nil || len(seq.Limits.Limits) != 8 {
+		t.Errorf("sequence parsed wrong: %+v", seq.PreTrim)
+	}
+	if len(st.File.SHA256) != 64 || len(seq.File.SHA256) != 64 {
+		t.Error("file hashes missing")
+	}
+}
+
+// Every error a person can cause in a station or sequence file gets a message that
+// names file, line and column.
+func TestFileErrorsArePositioned(t *testing.T) {
+	station := demoFile(t, "brx200-station.yaml")
+	sequence := demoFile(t, "brx200-sequence.yaml")
+	cases := []struct {
+		name       string
+		file       string // "station" or "sequence"
+		from, to   string // replacement in the demo file
+		needle     string // text on the line the error must point at
+		col        int
+		msgContain string
+	}{
+		{"unknown key", "station", "  name: Demo line", "  nmae: Demo line", "nmae:", 3, "unknown field \"nmae\""},
+		{"wrong type", "sequence", "  points: 11\n  settle: 20 ms                  # wait", "  points: eleven\n  settle: 20 ms                  # wait", "points: eleven", 11, "expected a whole number"},
+		{"missing required key", "station", "    asset: DMM-0203\n", "", "  meter:", 0, "missing required key \"asset\""},
+		{"duplicate key", "station", "    asset: STD-0117 ", "    asset: STD-0118\n    asset: STD-0117 ", "asset: STD-0117 ", 5, "duplicate key"},
+		{"bad unit", "station", "max_source_voltage: 50 mV", "max_source_voltage: 50 mX", "50 mX", 23, "unknown unit \"mX\""},
+		{"wrong dimension", "sequence", "  settle: 20 ms                  # wait", "  settle: 20 mV                  # wait", "settle: 20 mV", 11, "expected a time"},
+		{"unknown role", "station", "  dut:", "  fixture_dut:", "fixture_dut:", 3, "unknown role \"fixture_dut\""},
+		{"unknown role in requires", "sequence", "requires: [source, meter, dut]", "requires: [source, meter, dvm]", "requires:", 27, "unknown role \"dvm\""},
+		{"bad DAC template", "sequence", `write: "TRIM OFS {code}"`, `write: "TRIM OFS"`, `write: "TRIM OFS"`, 12, "{code}"},
+		{"bad date", "station", "cal_due: 2027-12-31         # last", "cal_due: 31.12.2027         # last", "31.12.2027", 14, "YYYY-MM-DD"},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			src := station
+			name := "brx200-station.yaml"
+			if c.file == "sequence" {
+				src, name = sequence, "brx200-sequence.yaml"
+			}
+			if !strings.Contains(src, c.from) {
+				t.Fatalf("demo file lacks %q", c.from)
+			}
+			mut := strings.Replace(src, c.from, c.to, 1)
+			var err error
+			if c.file == "station" {
+				_, err = sequencer.ParseStation(name, []byte(mut))
+			} else {
+				_, err = sequencer.ParseSequence(name, []byte(mut), demoReader(t, nil))
+			}
+			errs := files.Errs(err)
+			if len(errs) == 0 {
+				t.Fatalf("no positioned error, got %v", err)
+			}
+			line := lineOf(t, mut, c.needle)
+			found := false
+			for _, e := range errs {
+				prefix := fmt.Sprintf("%s:%d:", name, line)
+				if c.col > 0 {
+					prefix = fmt.Sprintf("%s:%d:%d:", name, line, c.col)
+				}
+				if strings.HasPrefix(e.Error(), prefix) && strings.Contains(e.Msg, c.msgContain) {
+					found = true
+					if e.Excerpt == "" {
+						t.Error("no excerpt")
+					}
+				}
+			}
+			if !found {
+				t.Errorf("want an error at %s line %d col %d containing %q, got:\n%v", name, line, c.col, c.msgContain, err)
+			}
+		})
+	}
+}
+
+func TestLimitFileErrorsSurfaceThroughSequence(t *testing.T) {
+	lim := demoFile(t, "brx200-limits.yaml")
+	mut := strings.Replace(lim, "uses: [post_offset]", "uses: [post_ofset]", 1)
+	_, err := sequencer.ParseSequence("brx200-sequence.yaml", []byte(demoFile(t, "brx200-sequence.yaml")), demoReader(t, map[string]string{"brx200-limits.yaml": mut}))
+	errs := files.Errs(err)
+	if len(errs) == 0 || !strings.Contains(errs[0].Error(), fmt.Sprintf("brx200-limits.yaml:%d:", lineOf(t, mut, "post_ofset"))) ||
+		!strings.Contains(errs[0].Msg, "post_ofset") {
+		t.Fatalf("want the limit file's positioned error, got %v", err)
+	}
+}
+
+func TestCapsRefuseSweepBeyondStation(t *testing.T) {
+	st, err := sequencer.ParseStation("s.yaml", []byte(strings.Replace(demoFile(t, "brx200-station.yaml"), "max_source_voltage: 50 mV", "max_source_voltage: 5 mV", 1)))
+	if err != nil {
+		t.Fatal(err)
+	}
+	seq, err := sequencer.ParseSequence("brx200-sequence.yaml", []byte(demoFile(t, "brx200-sequence.yaml")), demoReader(t, nil))
+	if err != nil {
+		t.Fatal(err)
+	}
+	err = sequencer.CheckCaps(st, seq)
+	if err == nil || !strings.Contains(err.Error(), "brx200-sequence.yaml:") || !strings.Contains(err.Error(), "above the station cap") {
+		t.Fatalf("want a cap refusal naming the sequence file, got %v", err)
+	}
+}

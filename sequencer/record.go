@@ -1,0 +1,126 @@
+package sequencer
+
+import (
+	"time"
+
+	"trimline/instruments"
+	"trimline/limits"
+)
+
+// RecordSchema is the version of the Record layout. Bump it when a field changes
+// meaning; readers of old ledgers switch on it.
+const RecordSchema = 1
+
+// Verdict is the outcome of one unit's run.
+type Verdict string
+
+const (
+	Pass    Verdict = "PASS"    // every limit passed
+	Fail    Verdict = "FAIL"    // the unit was measured and at least one limit failed (or a trim saturated)
+	Fault   Verdict = "FAULT"   // the station could not measure: an instrument or I/O error
+	Aborted Verdict = "ABORTED" // the operator or a signal stopped the run
+)
+
+// Record is everything one run of one serial number produced: the raw readings with
+// their times, the fits, the codes, every limit's value and verdict, the instruments'
+// identities and the hashes of the files in force. Reports are made from a Record
+// alone; identical Records give identical documents.
+type Record struct {
+	Schema   int       `json:"schema"`
+	RunID    string    `json:"run_id"`
+	Serial   string    `json:"serial"`
+	Product  string    `json:"product"`
+	Revision string    `json:"revision"`
+	Station  string    `json:"station"`
+	Operator string    `json:"operator"`
+	Software string    `json:"software"` // trimline version that ran
+	Started  time.Time `json:"started"`
+	Finished time.Time `json:"finished"`
+
+	Files       []FileRef       `json:"files"`
+	Instruments []InstrumentRef `json:"instruments"`
+
+	// Ideal transfer the unit is trimmed to: y = IdealGain·x + IdealOffset (V/V, V).
+	IdealGain   float64 `json:"ideal_gain"`
+	IdealOffset float64 `json:"ideal_offset_v"`
+	FullScale   float64 `json:"full_scale_v"` // output span used for "% of full scale"
+
+	Sweeps []Sweep      `json:"sweeps"`
+	Fits   []FitSummary `json:"fits"`
+	Trims  []TrimCode   `json:"trims"`
+
+	Results  []Result         `json:"results"`
+	Outcomes []limits.Outcome `json:"limits"`
+
+	Verdict Verdict  `json:"verdict"`
+	Reasons []string `json:"reasons,omitempty"` // why the verdict is not PASS, in order
+	Fault   string   `json:"fault,omitempty"`   // the station fault message, for FAULT and ABORTED
+}
+
+// FileRef names one input file and the SHA-256 of its exact bytes.
+type FileRef struct {
+	Kind   string `json:"kind"` // "station", "sequence" or "limits"
+	Name   string `json:"name"` // base name as given
+	Title  string `json:"title"`
+	SHA256 string `json:"sha256"` // lowercase hex
+}
+
+// InstrumentRef is one instrument used, as the station file declares it and as it
+// identified itself.
+type InstrumentRef struct {
+	Role     string               `json:"role"`
+	Address  string               `json:"address"`
+	Asset    string               `json:"asset"`
+	CalDue   string               `json:"cal_due"` // YYYY-MM-DD
+	Accuracy string               `json:"accuracy,omitempty"`
+	Identity instruments.Identity `json:"identity"`
+}
+
+// Sweep is one pass across the stimulus range.
+type Sweep struct {
+	Name   string  `json:"name"` // "pre-trim" or "verify"
+	Points []Point `json:"points"`
+}
+
+// Point is one stimulus level and the readings taken there.
+type Point struct {
+	Stimulus float64               `json:"stimulus_v"` // programmed source level, volts
+	Readings []instruments.Reading `json:"readings"`
+	Mean     float64               `json:"mean_v"` // mean of the valid readings, volts
+	SD       float64               `json:"sd_v"`   // sample standard deviation of the valid readings, volts
+	Valid    int                   `json:"valid"`  // number of valid readings
+}
+
+// FitSummary is the straight-line fit of one sweep: y = Intercept + Slope·x, with x
+// the stimulus in volts and y the mean output in volts.
+type FitSummary struct {
+	Sweep        string        `json:"sweep"`
+	Slope        float64       `json:"slope"`       // V/V
+	Intercept    float64       `json:"intercept_v"` // V at x = 0
+	Cov          [2][2]float64 `json:"cov"`         // covariance of (intercept, slope)
+	ResidualSD   float64       `json:"residual_sd_v"`
+	DOF          int           `json:"dof"`
+	Residuals    []float64     `json:"residuals_v"`
+	Nonlinearity float64       `json:"nonlinearity"` // max |residual| / full scale, a fraction
+}
+
+// TrimCode is one trim DAC's computed, written and read-back code.
+type TrimCode struct {
+	DAC       string  `json:"dac"`    // "offset" or "gain"
+	Before    int     `json:"before"` // code in the DAC before trimming (no correction)
+	Code      int     `json:"code"`   // code written
+	Ideal     float64 `json:"ideal"`  // exact (unrounded) code the fit asked for
+	Readback  int     `json:"readback"`
+	Saturated bool    `json:"saturated"`
+	Stored    bool    `json:"stored"` // committed to non-volatile memory
+}
+
+// Result is one named number a limit may judge. Value is in SI base units (volts,
+// plain fractions for ppm and %, counts for codes); Unit names the dimension.
+type Result struct {
+	Name  string  `json:"name"`
+	Value float64 `json:"value"`
+	Unit  string  `json:"unit"` // "V", "ratio" or "code"
+	Valid bool    `json:"valid"`
+	Note  string  `json:"note,omitempty"` // why the value is not valid
+}

@@ -1,0 +1,353 @@
+package sequencer
+
+import (
+	"fmt"
+	"math"
+	"os"
+	"path/filepath"
+	"strings"
+	"time"
+
+	"trimline/limits"
+	"trimline/sequencer/files"
+	"trimline/sequencer/units"
+)
+
+// Sequence is a loaded sequence file: how one product is trimmed.
+type Sequence struct {
+	Product     string
+	Revision    string
+	Maker       string
+	Description string
+	Requires    []string // roles the sequence needs on the station
+
+	IdealGain   float64 // V/V
+	IdealOffset float64 // output at zero input, V
+	FullScale   float64 // output span for "% of full scale", V
+
+	PreTrim SweepPlan
+	Verify  SweepPlan
+	Meter   MeterPlan
+	Trim    TrimPlan
+	DUT     DUTPlan
+
+	Limits *limits.Set
+	File   FileRef
+}
+
+// SweepPlan is one pass across the input range.
+type SweepPlan struct {
+	From, To float64       // stimulus, volts
+	Points   int           // number of levels, ≥ 2, evenly spaced, From first
+	Settle   time.Duration // wait after each level change before reading
+	Readings int           // readings per level
+	Where    string        // "file:line:col" of the sweep in the sequence file, for messages
+}
+
+// Levels returns the stimulus levels in volts, From to To inclusive.
+func (p SweepPlan) Levels() []float64 {
+	out := make([]float64, p.Points)
+	for i := range out {
+		out[i] = p.From + (p.To-p.From)*float64(i)/float64(p.Points-1)
+	}
+	return out
+}
+
+// MeterPlan configures the meter for the sweeps.
+type MeterPlan struct {
+	Range float64 // volts; 0 = auto
+	NPLC  float64 // integration time in power-line cycles
+}
+
+// TrimPlan says how the unit's trim DACs work and how to program them.
+type TrimPlan struct {
+	Offset DAC
+	Gain   DAC
+	// OffsetBeforeGain is true when the offset DAC adds its voltage at the input of
+	// the gain stage (its LSB is then input-referred and its output effect scales
+	// with the gain); false when it adds at the output.
+	OffsetBeforeGain bool
+	// GainPivot is the output voltage about which the gain trim scales the signal.
+	GainPivot float64
+	Store     string // command that commits the codes to non-volatile memory; "" = none
+}
+
+// DAC is one trim DAC: codes 0..2^Bits−1, LSB per code (volts for offset, a
+// fraction for gain), and the code that applies no correction.
+type DAC struct {
+	Bits         int
+	LSB          float64
+	NoCorrection int
+	Write        string // command template; {code} is replaced by the decimal code
+	Read         string // query that returns the code
+}
+
+// MaxCode is the largest code the DAC accepts.
+func (d DAC) MaxCode() int { return 1<<d.Bits - 1 }
+
+// DUTPlan holds the DUT queries that identify the unit.
+type DUTPlan struct {
+	SerialQuery   string // returns the unit's own serial number; "" = not checked
+	FirmwareQuery string // returns the firmware id; "" = not recorded
+}
+
+type sweepDecl struct {
+	From     *units.Voltage  `yaml:"from"`
+	To       *units.Voltage  `yaml:"to"`
+	Points   int             `yaml:"points"`
+	Settle   *units.Duration `yaml:"settle"`
+	Readings int             `yaml:"readings"`
+}
+
+type dacDecl struct {
+	Bits         int    `yaml:"bits"`
+	LSB          string `yaml:"lsb"`
+	NoCorrection *int   `yaml:"no_correction"`
+	Placement    string `yaml:"placement"`
+	Write        string `yaml:"write"`
+	Read         string `yaml:"read"`
+}
+
+type sequenceFile struct {
+	Sequence struct {
+		Product     string `yaml:"product"`
+		Revision    string `yaml:"revision"`
+		Maker       string `yaml:"maker"`
+		Description string `yaml:"description"`
+	} `yaml:"sequence"`
+	Requires []string `yaml:"requires"`
+	Limits   string   `yaml:"limits"`
+	Ideal    struct {
+		Gain      *float64       `yaml:"gain"`
+		Offset    *units.Voltage `yaml:"offset"`
+		FullScale *units.Voltage `yaml:"full_scale"`
+	} `yaml:"ideal"`
+	Meter struct {
+		Range *units.Voltage `yaml:"range"`
+		NPLC  *float64       `yaml:"nplc"`
+	} `yaml:"meter"`
+	PreTrim *sweepDecl `yaml:"pre_trim"`
+	Verify  *sweepDecl `yaml:"verify"`
+	Trim    struct {
+		Offset    *dacDecl       `yaml:"offset"`
+		Gain      *dacDecl       `yaml:"gain"`
+		GainPivot *units.Voltage `yaml:"gain_pivot"`
+		Store     string         `yaml:"store"`
+	} `yaml:"trim"`
+	DUT struct {
+		SerialQuery   string `yaml:"serial_query"`
+		FirmwareQuery string `yaml:"firmware_query"`
+	} `yaml:"dut"`
+}
+
+// LoadSequence reads and checks a sequence file and the limit file it names
+// (resolved relative to the sequence file). All problems come back as a files.List.
+func LoadSequence(path string) (*Sequence, error) {
+	data, err := os.ReadFile(path)
+	if err != nil {
+		return nil, err
+	}
+	return ParseSequence(path, data, func(p string) ([]byte, error) { return os.ReadFile(p) })
+}
+
+// ParseSequence is LoadSequence on bytes already read; read loads the limit file.
+func ParseSequence(name string, data []byte, read func(path string) ([]byte, error)) (*Sequence, error) {
+	doc, err := files.Parse(name, data)
+	if err != nil {
+		return nil, err
+	}
+	var f sequenceFile
+	if err := doc.Decode(&f); err != nil {
+		return nil, err
+	}
+	var errs files.List
+	bad := func(path, format string, args ...any) { errs = append(errs, doc.Errorf(path, format, args...)) }
+	req := func(path, v string) {
+		if strings.TrimSpace(v) == "" {
+			bad(path, "missing required key %q", lastPart(path))
+		}
+	}
+	req("$.sequence.product", f.Sequence.Product)
+	req("$.sequence.revision", f.Sequence.Revision)
+	req("$.limits", f.Limits)
+	s := &Sequence{
+		Product: f.Sequence.Product, Revision: f.Sequence.Revision, Maker: f.Sequence.Maker,
+		Description: f.Sequence.Description, Requires: f.Requires,
+		File: FileRef{Kind: "sequence", Name: filepath.Base(name), Title: strings.TrimSpace(f.Sequence.Product + " rev " + f.Sequence.Revision), SHA256: hashHex(data)},
+	}
+	if len(s.Requires) == 0 {
+		s.Requires = append([]string(nil), Roles...)
+	}
+	for i, r := range s.Requires {
+		if !isRole(r) {
+			bad(fmt.Sprintf("$.requires[%d]", i), "unknown role %q (expected one of %s)", r, strings.Join(Roles, ", "))
+		}
+	}
+	for _, r := range []string{"source", "meter", "dut"} {
+		if !contains(s.Requires, r) {
+			bad("$.requires", "a trim sequence needs the %q role", r)
+		}
+	}
+
+	if f.Ideal.Gain == nil {
+		bad("$.ideal", "missing required key \"gain\" (V/V)")
+	} else if s.IdealGain = *f.Ideal.Gain; s.IdealGain == 0 || math.IsNaN(s.IdealGain) || math.IsInf(s.IdealGain, 0) {
+		bad("$.ideal.gain", "expected a finite non-zero gain in V/V")
+	}
+	if f.Ideal.Offset == nil {
+		bad("$.ideal", "missing required key \"offset\" (the output at zero input, e.g. 2.5V)")
+	} else {
+		s.IdealOffset = float64(*f.Ideal.Offset)
+	}
+
+	if f.Meter.Range != nil {
+		s.Meter.Range = float64(*f.Meter.Range)
+	}
+	s.Meter.NPLC = 1
+	if f.Meter.NPLC != nil {
+		s.Meter.NPLC = *f.Meter.NPLC
+		if s.Meter.NPLC <= 0 || s.Meter.NPLC > 1000 {
+			bad("$.meter.nplc", "expected an integration time between 0 and 1000 power-line cycles")
+		}
+	}
+
+	s.PreTrim = sweepPlan(doc, "$.pre_trim", f.PreTrim, &errs)
+	s.Verify = sweepPlan(doc, "$.verify", f.Verify, &errs)
+	if f.Ideal.FullScale != nil {
+		s.FullScale = float64(*f.Ideal.FullScale)
+		if s.FullScale <= 0 {
+			bad("$.ideal.full_scale", "expected a positive full-scale output span")
+		}
+	} else {
+		s.FullScale = math.Abs(s.IdealGain * (s.PreTrim.To - s.PreTrim.From))
+	}
+
+	s.Trim.Offset = dac(doc, "$.trim.offset", f.Trim.Offset, units.Volt, &errs)
+	s.Trim.Gain = dac(doc, "$.trim.gain", f.Trim.Gain, units.Ratio, &errs)
+	if f.Trim.Offset != nil {
+		switch f.Trim.Offset.Placement {
+		case "", "after_gain":
+		case "before_gain":
+			s.Trim.OffsetBeforeGain = true
+		default:
+			bad("$.trim.offset.placement", "expected before_gain or after_gain, found %q", f.Trim.Offset.Placement)
+		}
+	}
+	if f.Trim.Gain != nil && f.Trim.Gain.Placement != "" {
+		bad("$.trim.gain.placement", "placement applies to the offset DAC only")
+	}
+	s.Trim.GainPivot = s.IdealOffset
+	if f.Trim.GainPivot != nil {
+		s.Trim.GainPivot = float64(*f.Trim.GainPivot)
+	}
+	s.Trim.Store = f.Trim.Store
+	s.DUT = DUTPlan{SerialQuery: f.DUT.SerialQuery, FirmwareQuery: f.DUT.FirmwareQuery}
+
+	if f.Limits != "" {
+		lp := f.Limits
+		if !filepath.IsAbs(lp) {
+			lp = filepath.Join(filepath.Dir(name), lp)
+		}
+		ldata, err := read(lp)
+		if err != nil {
+			bad("$.limits", "cannot read limit file: %v", err)
+		} else if set, err := limits.Load(lp, ldata, ResultCatalog); err != nil {
+			if fe := files.Errs(err); fe != nil {
+				errs = append(errs, fe...)
+			} else {
+				bad("$.limits", "%v", err)
+			}
+		} else {
+			s.Limits = set
+		}
+	}
+	if len(errs) > 0 {
+		sortErrs(errs)
+		return nil, errs
+	}
+	return s, nil
+}
+
+func sweepPlan(doc *files.Doc, path string, d *sweepDecl, errs *files.List) SweepPlan {
+	bad := func(p, format string, args ...any) { *errs = append(*errs, doc.Errorf(p, format, args...)) }
+	if d == nil {
+		bad(path, "missing required key %q (from, to, points, settle, readings)", lastPart(path))
+		return SweepPlan{}
+	}
+	var p SweepPlan
+	line, col := doc.Pos(path)
+	p.Where = fmt.Sprintf("%s:%d:%d", doc.Name, line, col)
+	if d.From == nil {
+		bad(path, "missing required key \"from\"")
+	} else {
+		p.From = float64(*d.From)
+	}
+	if d.To == nil {
+		bad(path, "missing required key \"to\"")
+	} else {
+		p.To = float64(*d.To)
+	}
+	if d.From != nil && d.To != nil && p.From == p.To {
+		bad(path+".to", "expected \"to\" to differ from \"from\"")
+	}
+	p.Points = d.Points
+	if p.Points < 3 {
+		bad(path+".points", "expected at least 3 points, found %d (a line through 2 points has no residual to judge)", d.Points)
+	}
+	if d.Settle == nil {
+		bad(path, "missing required key \"settle\" (e.g. 20ms)")
+	} else if p.Settle = d.Settle.D(); p.Settle < 0 {
+		bad(path+".settle", "expected a settle time ≥ 0")
+	}
+	p.Readings = d.Readings
+	if p.Readings < 1 {
+		bad(path+".readings", "expected at least 1 reading per point, found %d", d.Readings)
+	}
+	return p
+}
+
+func dac(doc *files.Doc, path string, d *dacDecl, dim units.Dim, errs *files.List) DAC {
+	bad := func(p, format string, args ...any) { *errs = append(*errs, doc.Errorf(p, format, args...)) }
+	if d == nil {
+		bad(parentPath(path), "missing required key %q", lastPart(path))
+		return DAC{}
+	}
+	out := DAC{Bits: d.Bits, Write: d.Write, Read: d.Read}
+	if d.Bits < 1 || d.Bits > 24 {
+		bad(path+".bits", "expected 1 to 24 bits, found %d", d.Bits)
+		out.Bits = 1
+	}
+	if d.LSB == "" {
+		bad(path, "missing required key \"lsb\"")
+	} else if v, err := units.ParseAs(d.LSB, dim); err != nil {
+		bad(path+".lsb", "%v", err)
+	} else if out.LSB = v; v <= 0 {
+		bad(path+".lsb", "expected a positive LSB size")
+	}
+	if d.NoCorrection == nil {
+		bad(path, "missing required key \"no_correction\" (the code that applies no correction, often mid-scale)")
+	} else {
+		out.NoCorrection = *d.NoCorrection
+		if out.NoCorrection < 0 || out.NoCorrection > out.MaxCode() {
+			bad(path+".no_correction", "expected a code in 0..%d", out.MaxCode())
+		}
+	}
+	if !strings.Contains(d.Write, "{code}") {
+		bad(path+".write", "expected a command template containing {code}, e.g. \"TRIM OFS {code}\"")
+	}
+	if d.Read == "" {
+		bad(path, "missing required key \"read\" (the query that reads the code back)")
+	}
+	return out
+}
+
+func parentPath(p string) string { return p[:strings.LastIndex(p, ".")] }
+
+func contains(list []string, s string) bool {
+	for _, x := range list {
+		if x == s {
+			return true
+		}
+	}
+	return false
+}

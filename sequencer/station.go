@@ -1,0 +1,244 @@
+package sequencer
+
+import (
+	"crypto/sha256"
+	"encoding/hex"
+	"fmt"
+	"os"
+	"path/filepath"
+	"sort"
+	"strings"
+	"time"
+
+	"trimline/instruments"
+	"trimline/sequencer/files"
+	"trimline/sequencer/units"
+)
+
+// Roles are the instrument roles a station file may bind.
+var Roles = []string{"source", "meter", "dut"}
+
+// Station is a loaded station file: what is on this bench.
+type Station struct {
+	ID                string
+	Name              string
+	CertificatePrefix string
+	Instruments       map[string]StationInstrument // keyed by role
+	MaxSourceVolts    float64                      // safety cap on |source level|, volts
+	MaxSourceAmps     float64                      // safety cap on source compliance, amperes
+	OutputFolder      string                       // resolved relative to the station file
+	File              FileRef
+}
+
+// StationInstrument is one role's binding on the station.
+type StationInstrument struct {
+	Role     string
+	Address  string
+	Asset    string
+	CalDue   time.Time // the last day the calibration is valid, UTC midnight
+	Accuracy Accuracy
+	Model    string // expected model from *IDN?, empty = not pinned
+	Serial   string // expected serial from *IDN?, empty = not pinned
+	Settings map[string]string
+}
+
+// Accuracy is a ±(of reading + of range) specification, both as fractions, with the
+// range in volts it applies to.
+type Accuracy struct {
+	OfReading float64
+	OfRange   float64
+	Range     float64
+}
+
+// String gives the spec in the usual written form.
+func (a Accuracy) String() string {
+	if a == (Accuracy{}) {
+		return ""
+	}
+	return fmt.Sprintf("±(%g ppm of reading + %g ppm of range), range %s",
+		round6(a.OfReading*1e6), round6(a.OfRange*1e6), units.Format(a.Range, "V", 4))
+}
+
+func round6(v float64) float64 {
+	s := fmt.Sprintf("%.6g", v)
+	var f float64
+	fmt.Sscan(s, &f)
+	return f
+}
+
+type stationFile struct {
+	Station struct {
+		ID                string `yaml:"id"`
+		Name              string `yaml:"name"`
+		CertificatePrefix string `yaml:"certificate_prefix"`
+	} `yaml:"station"`
+	Instruments map[string]struct {
+		Address  string `yaml:"address"`
+		Asset    string `yaml:"asset"`
+		CalDue   string `yaml:"cal_due"`
+		Model    string `yaml:"model"`
+		Serial   string `yaml:"serial"`
+		Accuracy *struct {
+			OfReading units.Fraction `yaml:"of_reading"`
+			OfRange   units.Fraction `yaml:"of_range"`
+			Range     units.Voltage  `yaml:"range"`
+		} `yaml:"accuracy"`
+		Settings map[string]string `yaml:"settings"`
+	} `yaml:"instruments"`
+	Safety struct {
+		MaxSourceVoltage *units.Voltage `yaml:"max_source_voltage"`
+		MaxSourceCurrent *units.Current `yaml:"max_source_current"`
+	} `yaml:"safety"`
+	Output struct {
+		Folder string `yaml:"folder"`
+	} `yaml:"output"`
+}
+
+// LoadStation reads and checks a station file. Every problem comes back in a
+// files.List, positioned.
+func LoadStation(path string) (*Station, error) {
+	data, err := os.ReadFile(path)
+	if err != nil {
+		return nil, err
+	}
+	return ParseStation(path, data)
+}
+
+// ParseStation is LoadStation on bytes already read; name is used in messages and
+// to resolve the output folder.
+func ParseStation(name string, data []byte) (*Station, error) {
+	doc, err := files.Parse(name, data)
+	if err != nil {
+		return nil, err
+	}
+	var f stationFile
+	if err := doc.Decode(&f); err != nil {
+		return nil, err
+	}
+	var errs files.List
+	req := func(path, v string) {
+		if strings.TrimSpace(v) == "" {
+			errs = append(errs, doc.Errorf(path, "missing required key %q", lastPart(path)))
+		}
+	}
+	req("$.station.id", f.Station.ID)
+	st := &Station{
+		ID: f.Station.ID, Name: f.Station.Name, CertificatePrefix: f.Station.CertificatePrefix,
+		Instruments: map[string]StationInstrument{},
+		File:        FileRef{Kind: "station", Name: filepath.Base(name), Title: f.Station.Name, SHA256: hashHex(data)},
+	}
+	if st.CertificatePrefix == "" {
+		st.CertificatePrefix = st.ID
+	}
+	if !doc.Has("$.instruments") {
+		errs = append(errs, doc.Errorf("$", "missing required key \"instruments\" (roles: %s)", strings.Join(Roles, ", ")))
+	}
+	roles := make([]string, 0, len(f.Instruments))
+	for r := range f.Instruments {
+		roles = append(roles, r)
+	}
+	sort.Strings(roles)
+	for _, role := range roles {
+		in := f.Instruments[role]
+		base := "$.instruments." + role
+		if !isRole(role) {
+			errs = append(errs, doc.KeyErrorf(base, "unknown role %q (expected one of %s)", role, strings.Join(Roles, ", ")))
+			continue
+		}
+		req(base+".address", in.Address)
+		req(base+".asset", in.Asset)
+		si := StationInstrument{Role: role, Address: in.Address, Asset: in.Asset, Model: in.Model, Serial: in.Serial, Settings: in.Settings}
+		if role != "dut" {
+			req(base+".cal_due", in.CalDue)
+			if in.CalDue != "" {
+				d, err := time.Parse("2006-01-02", in.CalDue)
+				if err != nil {
+					errs = append(errs, doc.Errorf(base+".cal_due", "expected a date as YYYY-MM-DD, found %q", in.CalDue))
+				}
+				si.CalDue = d
+			}
+			if in.Accuracy == nil {
+				errs = append(errs, doc.Errorf(base, "missing required key \"accuracy\" (of_reading, of_range, range)"))
+			} else {
+				si.Accuracy = Accuracy{OfReading: float64(in.Accuracy.OfReading), OfRange: float64(in.Accuracy.OfRange), Range: float64(in.Accuracy.Range)}
+				if si.Accuracy.Range <= 0 {
+					errs = append(errs, doc.Errorf(base+".accuracy.range", "expected a positive range such as 10V"))
+				}
+			}
+		}
+		if in.Address != "" {
+			spec := instruments.Spec{Role: role, Address: in.Address, Settings: in.Settings}
+			if err := instruments.Check([]instruments.Spec{spec}); err != nil {
+				var se *instruments.SettingError
+				if errorsAs(err, &se) {
+					errs = append(errs, doc.Errorf(base+".settings."+se.Key, "%s", err))
+				} else {
+					errs = append(errs, doc.Errorf(base+".address", "%s", err))
+				}
+			}
+		}
+		st.Instruments[role] = si
+	}
+	if f.Safety.MaxSourceVoltage == nil {
+		errs = append(errs, doc.Errorf("$.safety", "missing required key \"max_source_voltage\": the engine refuses to run without a cap on the source level"))
+	} else if st.MaxSourceVolts = float64(*f.Safety.MaxSourceVoltage); st.MaxSourceVolts <= 0 {
+		errs = append(errs, doc.Errorf("$.safety.max_source_voltage", "expected a positive voltage"))
+	}
+	if f.Safety.MaxSourceCurrent == nil {
+		errs = append(errs, doc.Errorf("$.safety", "missing required key \"max_source_current\": the engine refuses to run without a cap on the source current"))
+	} else if st.MaxSourceAmps = float64(*f.Safety.MaxSourceCurrent); st.MaxSourceAmps <= 0 {
+		errs = append(errs, doc.Errorf("$.safety.max_source_current", "expected a positive current"))
+	}
+	st.OutputFolder = f.Output.Folder
+	if st.OutputFolder != "" && !filepath.IsAbs(st.OutputFolder) {
+		st.OutputFolder = filepath.Join(filepath.Dir(name), st.OutputFolder)
+	}
+	if len(errs) > 0 {
+		sortErrs(errs)
+		return nil, errs
+	}
+	return st, nil
+}
+
+// Specs returns the instrument specs to open, in role order.
+func (s *Station) Specs(roles []string) []instruments.Spec {
+	var out []instruments.Spec
+	for _, r := range roles {
+		in, ok := s.Instruments[r]
+		if !ok {
+			continue
+		}
+		out = append(out, instruments.Spec{Role: r, Address: in.Address, Settings: in.Settings})
+	}
+	return out
+}
+
+func isRole(r string) bool {
+	for _, k := range Roles {
+		if k == r {
+			return true
+		}
+	}
+	return false
+}
+
+func lastPart(path string) string {
+	return path[strings.LastIndex(path, ".")+1:]
+}
+
+func hashHex(b []byte) string {
+	h := sha256.Sum256(b)
+	return hex.EncodeToString(h[:])
+}
+
+func sortErrs(l files.List) {
+	sort.SliceStable(l, func(i, j int) bool {
+		if l[i].File != l[j].File {
+			return l[i].File < l[j].File
+		}
+		if l[i].Line != l[j].Line {
+			return l[i].Line < l[j].Line
+		}
+		return l[i].Col < l[j].Col
+	})
+}

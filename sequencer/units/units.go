@@ -1,0 +1,298 @@
+// Package units parses engineering quantities such as "10mV", "-2.5 V", "250us",
+// "12.2 uV", "10 ppm", "0.1 %" and "5 kHz" into SI values, once, at the file boundary.
+// Everything past the boundary is a float64 in SI base units (volts, amperes, seconds,
+// hertz, ohms; ratios as plain fractions, so 10 ppm is 1e-5).
+package units
+
+import (
+	"fmt"
+	"math"
+	"strconv"
+	"strings"
+	"time"
+
+	"github.com/goccy/go-yaml/ast"
+)
+
+// Dim is the physical dimension of a quantity.
+type Dim int
+
+const (
+	Ratio   Dim = iota // dimensionless: ppm, %, or a plain number
+	Volt               // V
+	Ampere             // A
+	Second             // s
+	Hertz              // Hz
+	Ohm                // Ω (also written ohm)
+	Celsius            // °C (also written degC)
+	Count              // a count of codes or LSBs ("code", "LSB")
+)
+
+var dimNames = map[Dim]string{Ratio: "ratio (ppm or %)", Volt: "voltage (V)", Ampere: "current (A)",
+	Second: "time (s)", Hertz: "frequency (Hz)", Ohm: "resistance (Ω)", Celsius: "temperature (°C)", Count: "count (code)"}
+
+func (d Dim) String() string {
+	if s, ok := dimNames[d]; ok {
+		return s
+	}
+	return fmt.Sprintf("dim(%d)", int(d))
+}
+
+// Quantity is a parsed value in SI base units.
+type Quantity struct {
+	Value float64
+	Dim   Dim
+}
+
+var prefixes = map[string]float64{"p": 1e-12, "n": 1e-9, "u": 1e-6, "µ": 1e-6, "μ": 1e-6, "m": 1e-3, "k": 1e3, "M": 1e6, "G": 1e9}
+
+type unitDef struct {
+	dim      Dim
+	scale    float64
+	prefixed bool
+}
+
+var unitTable = map[string]unitDef{
+	"V": {Volt, 1, true}, "A": {Ampere, 1, true}, "s": {Second, 1, true},
+	"Hz": {Hertz, 1, true}, "Ω": {Ohm, 1, true}, "ohm": {Ohm, 1, true}, "Ohm": {Ohm, 1, true},
+	"ppm": {Ratio, 1e-6, false}, "%": {Ratio, 1e-2, false}, "ppb": {Ratio, 1e-9, false},
+	"°C": {Celsius, 1, false}, "degC": {Celsius, 1, false},
+	"code": {Count, 1, false}, "codes": {Count, 1, false}, "LSB": {Count, 1, false},
+	"min": {Second, 60, false}, "h": {Second, 3600, false},
+}
+
+// Parse reads a number followed by an optional unit with an optional SI prefix.
+// Spaces between number and unit are allowed. A bare number is a Ratio. The error
+// says what was expected.
+func Parse(s string) (Quantity, error) {
+	t := strings.TrimSpace(s)
+	if t == "" {
+		return Quantity{}, fmt.Errorf("expected a quantity such as 10mV, found nothing")
+	}
+	// Split the longest numeric prefix.
+	end := numberEnd(t)
+	if end == 0 {
+		return Quantity{}, fmt.Errorf("expected a number before the unit in %q", s)
+	}
+	num, err := strconv.ParseFloat(t[:end], 64)
+	if err != nil || math.IsNaN(num) || math.IsInf(num, 0) {
+		return Quantity{}, fmt.Errorf("expected a finite number in %q", s)
+	}
+	unit := strings.TrimSpace(t[end:])
+	if unit == "" {
+		return Quantity{Value: num, Dim: Ratio}, nil
+	}
+	if u, ok := unitTable[unit]; ok {
+		return Quantity{Value: num * u.scale, Dim: u.dim}, nil
+	}
+	for p, f := range prefixes {
+		if rest, ok := strings.CutPrefix(unit, p); ok {
+			if u, ok := unitTable[rest]; ok && u.prefixed {
+				return Quantity{Value: num * f * u.scale, Dim: u.dim}, nil
+			}
+		}
+	}
+	return Quantity{}, fmt.Errorf("unknown unit %q in %q (expected V, A, s, Hz, Ω with an optional prefix p n u µ m k M G, or ppm, %%, °C)", unit, s)
+}
+
+// numberEnd returns the length of the leading decimal number in s (sign, digits,
+// point, exponent), taking care that the "m" of "mV" is not read as part of it.
+func numberEnd(s string) int {
+	i := 0
+	if i < len(s) && (s[i] == '+' || s[i] == '-') {
+		i++
+	}
+	digits := 0
+	for i < len(s) && (s[i] >= '0' && s[i] <= '9' || s[i] == '.') {
+		if s[i] != '.' {
+			digits++
+		}
+		i++
+	}
+	if digits == 0 {
+		return 0
+	}
+	if i < len(s) && (s[i] == 'e' || s[i] == 'E') {
+		j := i + 1
+		if j < len(s) && (s[j] == '+' || s[j] == '-') {
+			j++
+		}
+		k := j
+		for k < len(s) && s[k] >= '0' && s[k] <= '9' {
+			k++
+		}
+		if k > j {
+			i = k
+		}
+	}
+	return i
+}
+
+// ParseAs parses s and checks that it has dimension want.
+func ParseAs(s string, want Dim) (float64, error) {
+	q, err := Parse(s)
+	if err != nil {
+		return 0, err
+	}
+	if q.Dim != want {
+		if q.Dim == Ratio && want != Ratio && !strings.ContainsAny(s, "%pm") {
+			return 0, fmt.Errorf("%q has no unit: expected a %s, e.g. %s", s, want, example(want))
+		}
+		return 0, fmt.Errorf("%q is a %s: expected a %s, e.g. %s", s, q.Dim, want, example(want))
+	}
+	return q.Value, nil
+}
+
+func example(d Dim) string {
+	switch d {
+	case Volt:
+		return "10mV"
+	case Ampere:
+		return "10mA"
+	case Second:
+		return "250us"
+	case Hertz:
+		return "50Hz"
+	case Ohm:
+		return "350Ω"
+	case Celsius:
+		return "23°C"
+	}
+	return "10ppm"
+}
+
+// Format writes v (SI) with an SI prefix and unit, using digits significant digits:
+// Format(12.2e-6, "V", 3) = "12.2 µV".
+func Format(v float64, unit string, digits int) string {
+	if math.IsNaN(v) || math.IsInf(v, 0) {
+		return fmt.Sprint(v)
+	}
+	if unit == "ppm" || unit == "%" || unit == "" || unit == "code" || unit == "°C" {
+		return strings.TrimSpace(fixedOrSci(v, digits) + " " + unit)
+	}
+	a := math.Abs(v)
+	type p struct {
+		f float64
+		s string
+	}
+	steps := []p{{1e9, "G"}, {1e6, "M"}, {1e3, "k"}, {1, ""}, {1e-3, "m"}, {1e-6, "µ"}, {1e-9, "n"}, {1e-12, "p"}}
+	chosen := p{1, ""}
+	if a != 0 {
+		for _, s := range steps {
+			if a >= s.f*0.9999999 {
+				chosen = s
+				break
+			}
+			chosen = s
+		}
+	}
+	return fixed(v/chosen.f, digits) + " " + chosen.s + unit
+}
+
+func fixedOrSci(v float64, digits int) string {
+	if a := math.Abs(v); a != 0 && (a >= 1e6 || a < 1e-4) {
+		return strconv.FormatFloat(v, 'g', digits, 64)
+	}
+	return fixed(v, digits)
+}
+
+// fixed formats m (|m| < 1000) with digits significant digits in plain notation.
+func fixed(m float64, digits int) string {
+	if m == 0 {
+		return "0"
+	}
+	dec := digits - 1 - int(math.Floor(math.Log10(math.Abs(m))))
+	if dec < 0 {
+		dec = 0
+	}
+	s := strconv.FormatFloat(m, 'f', dec, 64)
+	if strings.Contains(s, ".") {
+		s = strings.TrimRight(strings.TrimRight(s, "0"), ".")
+	}
+	return s
+}
+
+// NodeError is a problem with one YAML value, positioned at its token.
+type NodeError struct {
+	Line, Col int
+	Msg       string
+}
+
+func (e *NodeError) Error() string { return fmt.Sprintf("[%d:%d] %s", e.Line, e.Col, e.Msg) }
+
+func decodeNode(n ast.Node, want Dim) (float64, error) {
+	tk := n.GetToken()
+	var s string
+	switch v := n.(type) {
+	case *ast.StringNode:
+		s = v.Value
+	case *ast.IntegerNode, *ast.FloatNode:
+		s = tk.Value
+	default:
+		if tk != nil {
+			s = tk.Value
+		}
+	}
+	v, err := ParseAs(s, want)
+	if err != nil {
+		line, col := 0, 0
+		if tk != nil && tk.Position != nil {
+			line, col = tk.Position.Line, tk.Position.Column
+		}
+		return 0, &NodeError{Line: line, Col: col, Msg: err.Error()}
+	}
+	return v, nil
+}
+
+// Voltage is a voltage in volts, written with a unit in files ("10mV").
+type Voltage float64
+
+// UnmarshalYAML parses a voltage; the error is positioned at the value.
+func (v *Voltage) UnmarshalYAML(n ast.Node) error {
+	f, err := decodeNode(n, Volt)
+	*v = Voltage(f)
+	return err
+}
+
+// Current is a current in amperes, written with a unit in files ("100mA").
+type Current float64
+
+// UnmarshalYAML parses a current.
+func (v *Current) UnmarshalYAML(n ast.Node) error {
+	f, err := decodeNode(n, Ampere)
+	*v = Current(f)
+	return err
+}
+
+// Fraction is a dimensionless ratio written with ppm or % ("10 ppm" is 1e-5).
+type Fraction float64
+
+// UnmarshalYAML parses a ratio.
+func (v *Fraction) UnmarshalYAML(n ast.Node) error {
+	f, err := decodeNode(n, Ratio)
+	*v = Fraction(f)
+	return err
+}
+
+// Frequency is a frequency in hertz ("50Hz").
+type Frequency float64
+
+// UnmarshalYAML parses a frequency.
+func (v *Frequency) UnmarshalYAML(n ast.Node) error {
+	f, err := decodeNode(n, Hertz)
+	*v = Frequency(f)
+	return err
+}
+
+// Duration is a time written with a unit ("250us", "20ms", "2 s").
+type Duration time.Duration
+
+// UnmarshalYAML parses a duration.
+func (v *Duration) UnmarshalYAML(n ast.Node) error {
+	f, err := decodeNode(n, Second)
+	*v = Duration(time.Duration(math.Round(f * 1e9)))
+	return err
+}
+
+// D returns the value as a time.Duration.
+func (v Duration) D() time.Duration { return time.Duration(v) }

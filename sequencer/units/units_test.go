@@ -1,0 +1,92 @@
+package units_test
+
+import (
+	"math"
+	"strings"
+	"testing"
+
+	"trimline/sequencer/units"
+)
+
+func TestParse(t *testing.T) {
+	// Expected SI values are the SI prefix definitions (BIPM SI Brochure, 9th ed.,
+	// Table 7: m = 1e-3, µ = 1e-6, k = 1e3) and ppm = 1e-6, % = 1e-2.
+	cases := []struct {
+		in   string
+		v    float64
+		dim  units.Dim
+		fail string
+	}{
+		{in: "10mV", v: 10e-3, dim: units.Volt},
+		{in: "-2.5 V", v: -2.5, dim: units.Volt},
+		{in: "250us", v: 250e-6, dim: units.Second},
+		{in: "12.2 uV", v: 12.2e-6, dim: units.Volt},
+		{in: "12.2 µV", v: 12.2e-6, dim: units.Volt},
+		{in: "10 ppm", v: 10e-6, dim: units.Ratio},
+		{in: "0.1 %", v: 1e-3, dim: units.Ratio},
+		{in: "5 kHz", v: 5e3, dim: units.Hertz},
+		{in: "350 Ω", v: 350, dim: units.Ohm},
+		{in: "2e-3 A", v: 2e-3, dim: units.Ampere},
+		{in: "+1.5E+1ms", v: 15e-3, dim: units.Second},
+		{in: "23 °C", v: 23, dim: units.Celsius},
+		{in: "4095 code", v: 4095, dim: units.Count},
+		{in: "2 min", v: 120, dim: units.Second},
+		{in: "7", v: 7, dim: units.Ratio},
+		{in: "10mX", fail: "unknown unit \"mX\""},
+		{in: "mV", fail: "expected a number"},
+		{in: "", fail: "found nothing"},
+		{in: "1.2.3V", fail: "expected a finite number"},
+		{in: "10 kppm", fail: "unknown unit"},
+	}
+	for _, c := range cases {
+		q, err := units.Parse(c.in)
+		if c.fail != "" {
+			if err == nil || !strings.Contains(err.Error(), c.fail) {
+				t.Errorf("Parse(%q) error %v, want one containing %q", c.in, err, c.fail)
+			}
+			continue
+		}
+		if err != nil {
+			t.Errorf("Parse(%q): %v", c.in, err)
+			continue
+		}
+		if math.Abs(q.Value-c.v) > 1e-12*math.Abs(c.v) || q.Dim != c.dim {
+			t.Errorf("Parse(%q) = %g %v, want %g %v", c.in, q.Value, q.Dim, c.v, c.dim)
+		}
+	}
+}
+
+func TestParseAsNamesTheExpectedDimension(t *testing.T) {
+	if _, err := units.ParseAs("20 mV", units.Second); err == nil || !strings.Contains(err.Error(), "expected a time") {
+		t.Errorf("want a dimension error, got %v", err)
+	}
+	if _, err := units.ParseAs("20", units.Volt); err == nil || !strings.Contains(err.Error(), "has no unit") {
+		t.Errorf("want a missing-unit error, got %v", err)
+	}
+}
+
+func TestFormat(t *testing.T) {
+	for _, c := range []struct {
+		v    float64
+		unit string
+		want string
+	}{
+		{12.2e-6, "V", "12.2 µV"}, {-3.1e-3, "V", "-3.1 mV"}, {2.5, "V", "2.5 V"}, {0, "V", "0 V"}, {15, "ppm", "15 ppm"},
+	} {
+		if got := units.Format(c.v, c.unit, 3); got != c.want {
+			t.Errorf("Format(%g, %q) = %q, want %q", c.v, c.unit, got, c.want)
+		}
+	}
+}
+
+func FuzzParse(f *testing.F) {
+	for _, s := range []string{"10mV", "-2.5 V", "250us", "12.2 uV", "10 ppm", "0.1 %", "5 kHz", "1e", "-", "µ"} {
+		f.Add(s)
+	}
+	f.Fuzz(func(t *testing.T, s string) {
+		q, err := units.Parse(s)
+		if err == nil && (math.IsNaN(q.Value) || math.IsInf(q.Value, 0)) {
+			t.Fatalf("Parse(%q) gave a non-finite value without error", s)
+		}
+	})
+}
