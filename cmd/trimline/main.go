@@ -69,7 +69,7 @@ func usageErr(format string, args ...any) error {
 	return &exitError{exitUsage, fmt.Errorf(format, args...)}
 }
 
-func badInput(err error) error  { return &exitError{exitUsage, err} }
+func badInput(err error) error   { return &exitError{exitUsage, err} }
 func stationErr(err error) error { return &exitError{exitStation, err} }
 
 // silent is an exit code whose message was already printed.
