@@ -13,7 +13,9 @@ import (
 	"trimline/sequencer/files"
 )
 
-func init() {
+func init() { register(newCheckCmd) }
+
+func newCheckCmd() *command {
 	c := &command{
 		Name:  "check",
 		Usage: "FILE...",
@@ -88,7 +90,7 @@ Exit code 0 when every file is clean, 2 otherwise.`,
 		}
 		return nil
 	}
-	register(c)
+	return c
 }
 
 // detectKind tells a file's kind from its top-level keys.

@@ -13,7 +13,9 @@ import (
 	"trimline/sequences"
 )
 
-func init() {
+func init() { register(newDemoCmd) }
+
+func newDemoCmd() *command {
 	c := &command{
 		Name:  "demo",
 		Usage: "[--out DIR] [--units N] [--seed S]",
@@ -62,7 +64,7 @@ trimline.log (JSON lines). Rerun with the same --seed for the same units.`,
 		}
 		return nil
 	}
-	register(c)
+	return c
 }
 
 var (

@@ -11,7 +11,9 @@ import (
 	"trimline/sequencer/fit"
 )
 
-func init() {
+func init() { register(newFitCmd) }
+
+func newFitCmd() *command {
 	c := &command{
 		Name:  "fit",
 		Usage: "[--order 1|2] [--x0 X] [--json] FILE.csv",
@@ -87,7 +89,7 @@ their correlation, the residual standard deviation, the degrees of freedom and R
 		fmt.Fprintf(w, "\nresidual SD = %.6g   dof = %d   R² = %.12f\n", r.ResidualSD, r.DOF, r.RSquared)
 		return nil
 	}
-	register(c)
+	return c
 }
 
 // jsonNum keeps NaN out of JSON, which has no such number.

@@ -5,7 +5,9 @@ import (
 	"os"
 )
 
-func init() {
+func init() { register(newRunCmd) }
+
+func newRunCmd() *command {
 	c := &command{
 		Name:  "run",
 		Usage: "--station FILE --sequence FILE --serial SN [--serial SN ...] [--out DIR] [--operator NAME] [--json]",
@@ -43,7 +45,7 @@ Exit code: 0 every unit passed, 1 a unit failed, 2 bad input, 3 station fault.`,
 		}
 		return silent(t.code())
 	}
-	register(c)
+	return c
 }
 
 func defaultOperator() string {

@@ -42,12 +42,12 @@ type command struct {
 	Run   func(ctx context.Context, cmd *command, args []string) error
 }
 
-var commands []*command
+// commands holds a constructor per command, so every run parses into fresh flags.
+var commands []func() *command
 
-func register(c *command) {
-	c.Flags.Usage = func() { usage(c, os.Stderr) }
-	commands = append(commands, c)
-	sort.Slice(commands, func(i, j int) bool { return commands[i].Name < commands[j].Name })
+func register(newCmd func() *command) {
+	commands = append(commands, newCmd)
+	sort.Slice(commands, func(i, j int) bool { return commands[i]().Name < commands[j]().Name })
 }
 
 func newFlags(name string) *flag.FlagSet {
@@ -144,8 +144,8 @@ func exitCode(err error, name string, stderr io.Writer) int {
 }
 
 func find(name string) *command {
-	for _, c := range commands {
-		if c.Name == name {
+	for _, newCmd := range commands {
+		if c := newCmd(); c.Name == name {
 			return c
 		}
 	}
@@ -154,7 +154,8 @@ func find(name string) *command {
 
 func mainUsage(w io.Writer) {
 	fmt.Fprintf(w, "trimline %s — end-of-line gain and offset trim station\n\nUsage: trimline <command> [flags] [args]\n\nCommands:\n", version())
-	for _, c := range commands {
+	for _, newCmd := range commands {
+		c := newCmd()
 		fmt.Fprintf(w, "  %-8s %s\n", c.Name, c.Short)
 	}
 	fmt.Fprintf(w, "\nExit codes: 0 every unit passed, 1 a unit failed, 2 bad input or usage, 3 station fault.\nRun 'trimline help <command>' for its flags.\n")

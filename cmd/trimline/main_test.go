@@ -1,0 +1,182 @@
+package main
+
+import (
+	"bytes"
+	"context"
+	"encoding/json"
+	"math"
+	"os"
+	"os/exec"
+	"path/filepath"
+	"strings"
+	"testing"
+
+	"trimline/reports/ledger"
+)
+
+func runCLI(t *testing.T, args ...string) (code int, stdout, stderr string) {
+	t.Helper()
+	var o, e bytes.Buffer
+	code = run(context.Background(), args, &o, &e)
+	return code, o.String(), e.String()
+}
+
+func TestDemoEndToEnd(t *testing.T) {
+	dir := t.TempDir()
+	code, out, errOut := runCLI(t, "demo", "--out", dir, "--units", "6", "--seed", "3")
+	if code != 0 {
+		t.Fatalf("exit %d\n%s\n%s", code, out, errOut)
+	}
+	pdfs, _ := filepath.Glob(filepath.Join(dir, "certificates", "*.pdf"))
+	if len(pdfs) != 6 {
+		t.Fatalf("%d PDFs, want 6\n%s", len(pdfs), out)
+	}
+	led, err := ledger.Open(context.Background(), filepath.Join(dir, "ledger.db"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer led.Close()
+	counts, err := led.Counts(context.Background())
+	if err != nil {
+		t.Fatal(err)
+	}
+	// 6 units × 2 sweeps × 11 points × 8 readings (the demo sequence).
+	if counts["runs"] != 6 || counts["documents"] != 6 || counts["readings"] != 6*2*11*8 {
+		t.Fatalf("ledger counts %v", counts)
+	}
+	if !strings.Contains(out, "yield") || !strings.Contains(out, "pre-trim offset") {
+		t.Errorf("no summary:\n%s", out)
+	}
+	if _, err := os.Stat(filepath.Join(dir, "trimline.log")); err != nil {
+		t.Error(err)
+	}
+	// A PDF's text contains its serial number and verdict.
+	if _, err := exec.LookPath("pdftotext"); err != nil {
+		t.Skip("pdftotext not installed")
+	}
+	runs, err := led.Runs(context.Background(), "")
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, r := range runs {
+		pdf := ""
+		for _, p := range pdfs {
+			if strings.Contains(p, r.Certificate) {
+				pdf = p
+			}
+		}
+		txt, err := exec.Command("pdftotext", "-layout", pdf, "-").Output()
+		if err != nil {
+			t.Fatal(err)
+		}
+		if !bytes.Contains(txt, []byte(r.Serial)) || !bytes.Contains(txt, []byte(string(r.Verdict))) {
+			t.Errorf("%s lacks serial %s or verdict %s", pdf, r.Serial, r.Verdict)
+		}
+	}
+}
+
+func TestRunExitCodes(t *testing.T) {
+	dir := t.TempDir()
+	station, sequence, err := writeDemoFiles(dir, 1, testNow())
+	if err != nil {
+		t.Fatal(err)
+	}
+	code, out, errOut := runCLI(t, "run", "--station", station, "--sequence", sequence, "--serial", "BRX-00001", "--out", dir, "--json")
+	if code != 0 {
+		t.Fatalf("exit %d\n%s\n%s", code, out, errOut)
+	}
+	var u unitJSON
+	if err := json.Unmarshal([]byte(out), &u); err != nil || u.Verdict != "PASS" || u.Certificate == "" {
+		t.Fatalf("json %q: %v", out, err)
+	}
+	// A unit that fails its limits: force an open output through the station file.
+	data, _ := os.ReadFile(station)
+	broken := filepath.Join(dir, "open.yaml")
+	os.WriteFile(broken, bytes.Replace(data, []byte(`seed: "1"`), []byte(`seed: "1"
+      defect: open`), 1), 0o644)
+	if code, out, _ := runCLI(t, "run", "--station", broken, "--sequence", sequence, "--serial", "BRX-00002", "--out", dir); code != exitFail {
+		t.Errorf("open output: exit %d, want 1\n%s", code, out)
+	}
+	// Bad input: usage and a broken file.
+	if code, _, _ := runCLI(t, "run", "--station", station); code != exitUsage {
+		t.Errorf("missing flags: exit %d, want 2", code)
+	}
+	os.WriteFile(broken, bytes.Replace(data, []byte("max_source_voltage: 50 mV"), []byte("max_source_voltage: 50 mX"), 1), 0o644)
+	code, _, errOut = runCLI(t, "run", "--station", broken, "--sequence", sequence, "--serial", "X")
+	if code != exitUsage || !strings.Contains(errOut, "open.yaml:") || !strings.Contains(errOut, "unknown unit") {
+		t.Errorf("bad unit: exit %d, %s", code, errOut)
+	}
+	// Bad input caught at load: an address no driver serves.
+	os.WriteFile(broken, bytes.Replace(data, []byte("address: sim://meter"), []byte("address: sim://voltmeter"), 1), 0o644)
+	if code, _, errOut := runCLI(t, "run", "--station", broken, "--sequence", sequence, "--serial", "X", "--out", dir); code != exitUsage ||
+		!strings.Contains(errOut, "open.yaml:24:14:") {
+		t.Errorf("bad address: exit %d, want 2: %s", code, errOut)
+	}
+	// Station fault: the source refuses a level mid-sweep (its range is too small).
+	os.WriteFile(broken, bytes.Replace(data, []byte("    address: sim://source "), []byte("    settings: {range: 5 mV}\n    address: sim://source "), 1), 0o644)
+	code, out, _ = runCLI(t, "run", "--station", broken, "--sequence", sequence, "--serial", "BRX-00003", "--out", dir)
+	if code != exitStation || !strings.Contains(out, "FAULT") {
+		t.Errorf("source fault: exit %d, want 3:\n%s", code, out)
+	}
+}
+
+func TestCheck(t *testing.T) {
+	dir := t.TempDir()
+	station, sequence, err := writeDemoFiles(dir, 1, testNow())
+	if err != nil {
+		t.Fatal(err)
+	}
+	limitsFile := filepath.Join(dir, "brx200-limits.yaml")
+	if code, out, _ := runCLI(t, "check", station, sequence, limitsFile); code != 0 || strings.Count(out, "ok  ") != 3 {
+		t.Fatalf("clean files: exit %d\n%s", code, out)
+	}
+	data, _ := os.ReadFile(limitsFile)
+	bad := filepath.Join(dir, "bad-limits.yaml")
+	os.WriteFile(bad, bytes.Replace(data, []byte("uses: [post_noise]"), []byte("uses: [post_nois]"), 1), 0o644)
+	code, out, _ := runCLI(t, "check", bad)
+	if code != exitUsage || !strings.Contains(out, "bad-limits.yaml:") || !strings.Contains(out, "post_nois") {
+		t.Fatalf("bad limits: exit %d\n%s", code, out)
+	}
+	other := filepath.Join(dir, "other.yaml")
+	os.WriteFile(other, []byte("hello: world\n"), 0o644)
+	if code, out, _ := runCLI(t, "check", other); code != exitUsage || !strings.Contains(out, "cannot tell the kind") {
+		t.Fatalf("unknown kind: exit %d\n%s", code, out)
+	}
+}
+
+// trimline fit on NIST StRD Norris prints the certified values (NIST StRD, Norris:
+// B0 = -0.262323073774029, B1 = 1.00211681802045, residual SD 0.884796396144373).
+func TestFitNorrisJSON(t *testing.T) {
+	code, out, errOut := runCLI(t, "fit", "--json", filepath.Join("..", "..", "testdata", "nist-strd-norris.csv"))
+	if code != 0 {
+		t.Fatalf("exit %d: %s", code, errOut)
+	}
+	var r struct {
+		Coefficients []float64   `json:"coefficients"`
+		StdUnc       []float64   `json:"std_uncertainties"`
+		Covariance   [][]float64 `json:"covariance"`
+		ResidualSD   float64     `json:"residual_sd"`
+		DOF          int         `json:"dof"`
+		RSquared     float64     `json:"r_squared"`
+	}
+	if err := json.Unmarshal([]byte(out), &r); err != nil {
+		t.Fatal(err)
+	}
+	for _, c := range []struct{ got, want float64 }{
+		{r.Coefficients[0], -0.262323073774029}, {r.Coefficients[1], 1.00211681802045},
+		{r.StdUnc[0], 0.232818234301152}, {r.StdUnc[1], 0.429796848199937e-03},
+		{r.ResidualSD, 0.884796396144373}, {r.RSquared, 0.999993745883712},
+	} {
+		if math.Abs(c.got-c.want) > 1e-10*math.Abs(c.want) {
+			t.Errorf("got %.15g, want %.15g", c.got, c.want)
+		}
+	}
+	if r.DOF != 34 || len(r.Covariance) != 2 {
+		t.Errorf("dof %d", r.DOF)
+	}
+	bad := filepath.Join(t.TempDir(), "bad.csv")
+	os.WriteFile(bad, []byte("x,y\n1,2\n2,abc\n"), 0o644)
+	if code, _, errOut := runCLI(t, "fit", bad); code != exitUsage || !strings.Contains(errOut, "bad.csv:3:3") {
+		t.Errorf("bad csv: exit %d: %s", code, errOut)
+	}
+}
