@@ -1,0 +1,202 @@
+// Package certificate renders the per-unit trim and calibration certificate of a
+// sequencer.Record as a PDF (A4 portrait).
+//
+// The document is made from the Record and the Options alone: identical inputs give
+// byte-identical files. The creation date is the record's finish time, resource
+// catalogues are sorted and no map is iterated in output order, so a certificate
+// can be re-issued from the ledger and compared byte for byte.
+//
+// Text is set in the Go fonts (golang.org/x/image/font/gofont), embedded as UTF-8
+// subsets, so µ, ±, °, Ω and the like render on every viewer; the PDF core fonts
+// are never used.
+package certificate
+
+import (
+	"bytes"
+	"errors"
+	"fmt"
+	"io"
+	"os"
+	"path/filepath"
+	"strings"
+	"time"
+
+	"github.com/jung-kurt/gofpdf"
+	"golang.org/x/image/font/gofont/gobold"
+	"golang.org/x/image/font/gofont/gomono"
+	"golang.org/x/image/font/gofont/goregular"
+
+	"trimline/sequencer"
+)
+
+// Options are the parts of the certificate that are not in the record.
+type Options struct {
+	Number string // certificate number, e.g. "TL1-000042" (issued by the ledger)
+	Maker  string // maker's name printed in the header (from the station/sequence; may be empty)
+}
+
+// Write renders the certificate for rec to w. Identical (rec, opt) give
+// byte-identical PDFs. Records of any verdict render; FAULT and ABORTED records are
+// marked as not certified.
+func Write(w io.Writer, rec *sequencer.Record, opt Options) error {
+	if rec == nil {
+		return errors.New("certificate: nil record")
+	}
+	pdf, err := render(rec, opt)
+	if err != nil {
+		return err
+	}
+	if err := pdf.Output(w); err != nil {
+		return fmt.Errorf("certificate: write PDF: %w", err)
+	}
+	return nil
+}
+
+// WriteFile renders the certificate and writes it to path atomically: the PDF goes
+// to a temporary file in the same directory, which is synced and then renamed over
+// path. On error no temporary file is left behind and an existing file at path is
+// untouched.
+func WriteFile(path string, rec *sequencer.Record, opt Options) (err error) {
+	if rec == nil {
+		return errors.New("certificate: nil record")
+	}
+	// Render into memory first so that a rendering error never touches the disk.
+	var buf bytes.Buffer
+	if err := Write(&buf, rec, opt); err != nil {
+		return err
+	}
+	dir, base := filepath.Split(path)
+	if dir == "" {
+		dir = "."
+	}
+	tmp, err := os.CreateTemp(dir, "."+base+".tmp-*")
+	if err != nil {
+		return fmt.Errorf("certificate: %w", err)
+	}
+	tmpName := tmp.Name()
+	defer func() {
+		if err != nil {
+			tmp.Close()
+			os.Remove(tmpName)
+		}
+	}()
+	if _, err = tmp.Write(buf.Bytes()); err != nil {
+		return fmt.Errorf("certificate: write %s: %w", tmpName, err)
+	}
+	if err = tmp.Chmod(0o644); err != nil {
+		return fmt.Errorf("certificate: %w", err)
+	}
+	if err = tmp.Sync(); err != nil {
+		return fmt.Errorf("certificate: sync %s: %w", tmpName, err)
+	}
+	if err = tmp.Close(); err != nil {
+		return fmt.Errorf("certificate: close %s: %w", tmpName, err)
+	}
+	if err = os.Rename(tmpName, path); err != nil {
+		return fmt.Errorf("certificate: %w", err)
+	}
+	// Make the rename itself durable. Not every platform can sync a directory; the
+	// file is in place either way, so a failure here is not reported.
+	if d, derr := os.Open(dir); derr == nil {
+		d.Sync()
+		d.Close()
+	}
+	return nil
+}
+
+// FileName returns the conventional file name "<number>_<serial>.pdf". Characters
+// other than ASCII letters, digits, '-', '+' and '.' are replaced with '_', and a
+// leading '.' is replaced too, so the name is safe on every file system and never
+// hidden or a path. A missing number or serial is left out; with neither the name
+// is "certificate.pdf".
+func FileName(rec *sequencer.Record, opt Options) string {
+	var parts []string
+	if s := safeName(opt.Number); s != "" {
+		parts = append(parts, s)
+	}
+	if rec != nil {
+		if s := safeName(rec.Serial); s != "" {
+			parts = append(parts, s)
+		}
+	}
+	if len(parts) == 0 {
+		return "certificate.pdf"
+	}
+	return strings.Join(parts, "_") + ".pdf"
+}
+
+func safeName(s string) string {
+	s = strings.TrimSpace(s)
+	const max = 80
+	var b strings.Builder
+	n := 0
+	for _, r := range s {
+		if n == max {
+			break
+		}
+		n++
+		switch {
+		case r >= 'a' && r <= 'z', r >= 'A' && r <= 'Z', r >= '0' && r <= '9', r == '-', r == '+':
+			b.WriteRune(r)
+		case r == '.' && b.Len() > 0:
+			b.WriteRune(r)
+		default:
+			b.WriteByte('_')
+		}
+	}
+	return b.String()
+}
+
+// Font families registered in every document.
+const (
+	sans = "gosans"
+	mono = "gomono"
+)
+
+// Pristine copies of the Go fonts, taken before anything can touch them.
+// gofpdf v1.16.2 writes into the byte slice given to AddUTF8FontFromBytes (its
+// hmtx reader appends to a sub-slice of the font), so every document gets a fresh
+// clone: handing it goregular.TTF itself would corrupt that shared slice and make
+// the next document differ.
+var (
+	ttfRegular = bytes.Clone(goregular.TTF)
+	ttfBold    = bytes.Clone(gobold.TTF)
+	ttfMono    = bytes.Clone(gomono.TTF)
+)
+
+// render lays out the whole document and returns it ready for Output.
+func render(rec *sequencer.Record, opt Options) (*gofpdf.Fpdf, error) {
+	pdf := gofpdf.New("P", "mm", "A4", "")
+	stamp := rec.Finished.UTC()
+	if rec.Finished.IsZero() {
+		// gofpdf would use the wall clock for a zero date; a fixed date keeps the
+		// output reproducible for records that never finished.
+		stamp = time.Unix(0, 0).UTC()
+	}
+	pdf.SetCreationDate(stamp)
+	pdf.SetModificationDate(stamp)
+	pdf.SetCatalogSort(true)
+	pdf.SetCompression(true)
+	pdf.SetAutoPageBreak(false, 0)
+	pdf.SetMargins(marginL, marginT, marginR)
+	pdf.SetCellMargin(0)
+	pdf.AddUTF8FontFromBytes(sans, "", bytes.Clone(ttfRegular))
+	pdf.AddUTF8FontFromBytes(sans, "B", bytes.Clone(ttfBold))
+	pdf.AddUTF8FontFromBytes(mono, "", bytes.Clone(ttfMono))
+
+	title := "Trim and calibration certificate"
+	pdf.SetTitle(strings.TrimSpace(title+" "+opt.Number), true)
+	pdf.SetSubject(strings.TrimSpace(rec.Product+" "+rec.Serial), true)
+	if opt.Maker != "" {
+		pdf.SetAuthor(opt.Maker, true)
+	}
+	pdf.SetCreator(strings.TrimSpace("trimline "+rec.Software), true)
+	pdf.SetProducer("trimline/reports/certificate", true)
+
+	d := &doc{pdf: pdf, rec: rec, opt: opt}
+	d.build()
+	if err := pdf.Error(); err != nil {
+		return nil, fmt.Errorf("certificate: render: %w", err)
+	}
+	return pdf, nil
+}
