@@ -50,6 +50,7 @@ type Engine struct {
 	dut    instruments.TrimPort
 	clock  instruments.Clock
 	refs   []InstrumentRef
+	log    zerolog.Logger // the current run's logger
 	closed bool
 }
 
@@ -239,6 +240,7 @@ func (e *Engine) Run(ctx context.Context, serial string) (rec *Record) {
 		rec.RunID = newID(now)
 	}
 	log := e.cfg.Log.With().Str("serial", serial).Str("run", rec.RunID).Logger()
+	e.log = log
 	defer func() {
 		if p := recover(); p != nil {
 			log.Error().Str("stack", string(debug.Stack())).Msgf("panic: %v", p)
@@ -446,7 +448,7 @@ func (e *Engine) sweep(ctx context.Context, name string, p SweepPlan) (Sweep, er
 			return sw, fmt.Errorf("%s sweep at %s: read meter: %w", name, fmtV(x), err)
 		}
 		sw.Points = append(sw.Points, point(x, rs))
-		e.cfg.Log.Debug().Str("sweep", name).Float64("x", x).Float64("y", sw.Points[i].Mean).Msg("point")
+		e.log.Debug().Str("sweep", name).Float64("x", x).Float64("y", sw.Points[i].Mean).Msg("point")
 	}
 	if err := e.source.SetOutput(ctx, false); err != nil {
 		return sw, fmt.Errorf("%s sweep: source output off: %w", name, err)

@@ -1,0 +1,606 @@
+// Package ledger is the station's SQLite ledger: every run of every unit, with every
+// reading, result, limit outcome, fit, trim code, input file and instrument, the
+// certificate numbers issued, and the documents (certificate PDFs) made from them.
+// Audits read it; nothing in it is ever updated or deleted (triggers refuse it),
+// except a unit's last_seen/product and the certificate sequences, which only count up.
+//
+// One ledger file may be shared by several processes and goroutines: writes take
+// SQLite's write lock at BEGIN (BEGIN IMMEDIATE) and wait up to 5 s for it, WAL lets
+// readers run alongside the writer, and certificate numbers are allocated inside the
+// transaction that stores the run, so they have no gaps and no duplicates.
+//
+// Each run is stored twice: as rows for queries, and as the canonical JSON of the
+// whole sequencer.Record with its SHA-256, which is what Run returns, so a stored run
+// is re-read exactly. The canonical JSON is json.Marshal's output; only where a float
+// is NaN or ±Inf, which json.Marshal refuses, it holds the string "NaN", "Infinity"
+// or "-Infinity" instead. In the rows, a REAL column is NULL where the value is not a
+// finite number.
+//
+// Times are stored as RFC 3339 text in UTC with nine fractional digits
+// ("2006-01-02T15:04:05.000000000Z"), so they sort as text; times read back from the
+// rows are in UTC.
+package ledger
+
+import (
+	"context"
+	"crypto/sha256"
+	"database/sql"
+	"encoding/hex"
+	"errors"
+	"fmt"
+	"math"
+	"math/rand/v2"
+	"path/filepath"
+	"strings"
+	"time"
+
+	"modernc.org/sqlite" // registers the "sqlite" driver
+	sqlite3 "modernc.org/sqlite/lib"
+
+	"trimline/sequencer"
+)
+
+// Errors returned (wrapped) by the Ledger; test with errors.Is.
+var (
+	// ErrNotFound: the run id is not in the ledger.
+	ErrNotFound = errors.New("ledger: run not found")
+	// ErrDuplicateRun: RecordRun was given a run id that is already stored.
+	ErrDuplicateRun = errors.New("ledger: run already recorded")
+	// ErrSchemaTooNew: the file was migrated by a newer trimline than this one.
+	ErrSchemaTooNew = errors.New("ledger: database schema is newer than this program")
+	// ErrCorrupt: stored data fails its own check (a record's SHA-256, a migration's name).
+	ErrCorrupt = errors.New("ledger: stored data is inconsistent")
+	// ErrSequenceExhausted: a certificate prefix has issued all 999999 numbers.
+	ErrSequenceExhausted = errors.New("ledger: certificate sequence exhausted")
+	// ErrInvalid: an argument or record is not acceptable (empty run id, bad verdict, ...).
+	ErrInvalid = errors.New("ledger: invalid argument")
+)
+
+// MaxCertSequence is the highest sequence number a certificate prefix can issue: the
+// sequence is written with exactly six digits.
+const MaxCertSequence = 999999
+
+// timeLayout is RFC 3339 with nanoseconds, fixed width, for UTC times.
+const timeLayout = "2006-01-02T15:04:05.000000000Z"
+
+// busyTimeout is how long a connection waits for another's lock before SQLITE_BUSY.
+const busyTimeout = 5 * time.Second
+
+// Ledger is an open ledger file. Make one with Open. Its methods are safe for
+// concurrent use by several goroutines, and several processes (or several Ledgers in
+// one process) may have the same file open.
+type Ledger struct {
+	// Now is the clock for the created_at time of documents (AddDocument). Open sets
+	// it to time.Now; replace it before the Ledger is used, not while it is in use.
+	// Migrations applied by Open are stamped with time.Now.
+	Now func() time.Time
+
+	db *sql.DB
+}
+
+// Open opens the ledger at path (a file name; it is created if missing, but its
+// directory must exist), configures every connection with busy_timeout 5000 ms,
+// journal_mode WAL, foreign_keys on and BEGIN IMMEDIATE transactions, and applies the
+// embedded migrations the file does not have yet, each in its own transaction.
+// Several processes may Open the same file at once, also one that does not exist
+// yet: a start-up step that SQLite refuses with SQLITE_BUSY is retried for up to 5 s.
+//
+// It fails with ErrSchemaTooNew if the file has a migration newer than this program
+// knows, with ErrCorrupt if an applied migration's name differs from the embedded
+// one, and if the file system does not allow WAL mode. ctx bounds Open's own work.
+func Open(ctx context.Context, path string) (*Ledger, error) {
+	if path == "" {
+		return nil, fmt.Errorf("ledger: open: empty path: %w", ErrInvalid)
+	}
+	abs, err := filepath.Abs(path)
+	if err != nil {
+		return nil, fmt.Errorf("ledger: open %s: %w", path, err)
+	}
+	db, err := sql.Open("sqlite", dsn(abs))
+	if err != nil {
+		return nil, fmt.Errorf("ledger: open %s: %w", path, err)
+	}
+	l := &Ledger{Now: time.Now, db: db}
+	if err := l.initRetrying(ctx); err != nil {
+		db.Close()
+		return nil, fmt.Errorf("ledger: open %s: %w", path, err)
+	}
+	return l, nil
+}
+
+// initRetrying runs init, again and again while it fails with SQLITE_BUSY, for up to
+// the busy timeout. When several processes create a new file at the same moment, the
+// switch to WAL can fail with SQLITE_BUSY at once, without waiting in SQLite's busy
+// handler (SQLite does so when waiting could deadlock); a new attempt a moment later,
+// on a new connection, succeeds.
+func (l *Ledger) initRetrying(ctx context.Context) error {
+	deadline := time.Now().Add(busyTimeout)
+	wait := 2 * time.Millisecond
+	for {
+		err := l.init(ctx)
+		if err == nil || !isBusy(err) || time.Now().After(deadline) {
+			return err
+		}
+		select {
+		case <-ctx.Done():
+			return ctx.Err()
+		case <-time.After(wait + time.Duration(rand.Int64N(int64(wait)))):
+		}
+		wait = min(2*wait, 100*time.Millisecond)
+	}
+}
+
+// isBusy reports whether err is SQLite's SQLITE_BUSY or SQLITE_LOCKED (any extended code).
+func isBusy(err error) bool {
+	var se *sqlite.Error
+	if !errors.As(err, &se) {
+		return false
+	}
+	code := se.Code() & 0xff
+	return code == sqlite3.SQLITE_BUSY || code == sqlite3.SQLITE_LOCKED
+}
+
+// dsn builds the driver's data source name. The path is a SQLite URI path: '%', '?'
+// and '#' are percent-escaped.
+func dsn(abs string) string {
+	p := strings.NewReplacer("%", "%25", "?", "%3f", "#", "%23").Replace(filepath.ToSlash(abs))
+	return "file:" + p + fmt.Sprintf("?_pragma=busy_timeout(%d)&_pragma=journal_mode(WAL)&_pragma=foreign_keys(1)&_txlock=immediate",
+		busyTimeout.Milliseconds())
+}
+
+func (l *Ledger) init(ctx context.Context) error {
+	var mode string
+	if err := l.db.QueryRowContext(ctx, "PRAGMA journal_mode").Scan(&mode); err != nil {
+		return err
+	}
+	if !strings.EqualFold(mode, "wal") {
+		return fmt.Errorf("journal mode is %q, want wal (does the file system support WAL?)", mode)
+	}
+	return l.migrate(ctx)
+}
+
+// Close closes the ledger's connections. Calls in progress finish first; the Ledger
+// must not be used afterwards.
+func (l *Ledger) Close() error {
+	return l.db.Close()
+}
+
+func (l *Ledger) now() time.Time {
+	if l.Now == nil {
+		return time.Now()
+	}
+	return l.Now()
+}
+
+// formatTime renders t for storage: UTC, RFC 3339, nine fractional digits.
+func formatTime(t time.Time) string {
+	return t.UTC().Format(timeLayout)
+}
+
+// parseTime reads a time written by formatTime (any RFC 3339 time is accepted).
+func parseTime(s string) (time.Time, error) {
+	t, err := time.Parse(time.RFC3339Nano, s)
+	if err != nil {
+		return time.Time{}, fmt.Errorf("%w: time %q: %v", ErrCorrupt, s, err)
+	}
+	return t.UTC(), nil
+}
+
+// realOrNull returns f for a REAL column: NULL unless f is finite.
+func realOrNull(f float64) any {
+	if math.IsNaN(f) || math.IsInf(f, 0) {
+		return nil
+	}
+	return f
+}
+
+// nullText returns s for a nullable TEXT column: NULL when empty.
+func nullText(s string) any {
+	if s == "" {
+		return nil
+	}
+	return s
+}
+
+func sha256Hex(b []byte) string {
+	s := sha256.Sum256(b)
+	return hex.EncodeToString(s[:])
+}
+
+// RecordRun stores one complete run in one transaction: the unit (inserted or
+// updated: first_seen and last_seen span the Started and Finished times of all its
+// runs, product is that of its latest run), the run with its canonical record JSON and that
+// JSON's SHA-256, and every reading, result, limit outcome, fit, trim code, file and
+// instrument of rec. Either all of it is stored or none.
+//
+// For a PASS or FAIL record it allocates the next certificate number of certPrefix in
+// the same transaction and returns it: certPrefix + "-" + the sequence written with
+// six digits, starting at 1 ("TL1-000001"). Numbers have no gaps and no duplicates
+// across goroutines and processes, because a transaction that fails takes its number
+// with it. certPrefix must be 1 to 32 characters of A–Z, a–z, 0–9, '.', '_' or '-'.
+// FAULT and ABORTED records get no number: RecordRun returns "" and ignores certPrefix.
+//
+// Errors (wrapped): ErrInvalid for a nil record, an empty RunID or Serial, an unknown
+// verdict or a bad prefix; ErrDuplicateRun if the run id is already stored;
+// ErrSequenceExhausted after number 999999 of a prefix; otherwise database errors,
+// including SQLITE_BUSY if another writer holds the file for more than 5 s, and
+// ctx's error if ctx ends first. rec is only read.
+func (l *Ledger) RecordRun(ctx context.Context, rec *sequencer.Record, certPrefix string) (certNumber string, err error) {
+	if err := validateRecord(rec); err != nil {
+		return "", err
+	}
+	wantCert := rec.Verdict == sequencer.Pass || rec.Verdict == sequencer.Fail
+	if wantCert {
+		if err := validatePrefix(certPrefix); err != nil {
+			return "", err
+		}
+	}
+	doc, err := canonicalJSON(rec)
+	if err != nil {
+		return "", fmt.Errorf("ledger: run %s: encode record: %w", rec.RunID, err)
+	}
+	reasons := rec.Reasons
+	if reasons == nil {
+		reasons = []string{}
+	}
+	reasonsJSON, err := canonicalJSON(reasons)
+	if err != nil {
+		return "", fmt.Errorf("ledger: run %s: encode reasons: %w", rec.RunID, err)
+	}
+
+	tx, err := l.db.BeginTx(ctx, nil)
+	if err != nil {
+		return "", fmt.Errorf("ledger: run %s: begin: %w", rec.RunID, err)
+	}
+	defer tx.Rollback() // no-op after Commit
+
+	cert, err := storeRun(ctx, tx, rec, doc, string(reasonsJSON), wantCert, certPrefix)
+	if err != nil {
+		return "", fmt.Errorf("ledger: run %s: %w", rec.RunID, err)
+	}
+	if err := tx.Commit(); err != nil {
+		return "", fmt.Errorf("ledger: run %s: commit: %w", rec.RunID, err)
+	}
+	return cert, nil
+}
+
+func validateRecord(rec *sequencer.Record) error {
+	switch {
+	case rec == nil:
+		return fmt.Errorf("ledger: nil record: %w", ErrInvalid)
+	case rec.RunID == "":
+		return fmt.Errorf("ledger: record has no run id: %w", ErrInvalid)
+	case rec.Serial == "":
+		return fmt.Errorf("ledger: run %s has no serial: %w", rec.RunID, ErrInvalid)
+	}
+	switch rec.Verdict {
+	case sequencer.Pass, sequencer.Fail, sequencer.Fault, sequencer.Aborted:
+	default:
+		return fmt.Errorf("ledger: run %s: unknown verdict %q: %w", rec.RunID, rec.Verdict, ErrInvalid)
+	}
+	return nil
+}
+
+func validatePrefix(p string) error {
+	if len(p) == 0 || len(p) > 32 {
+		return fmt.Errorf("ledger: certificate prefix %q must be 1 to 32 characters: %w", p, ErrInvalid)
+	}
+	for _, c := range p {
+		ok := c >= 'A' && c <= 'Z' || c >= 'a' && c <= 'z' || c >= '0' && c <= '9' || c == '.' || c == '_' || c == '-'
+		if !ok {
+			return fmt.Errorf("ledger: certificate prefix %q: character %q not allowed: %w", p, c, ErrInvalid)
+		}
+	}
+	return nil
+}
+
+func storeRun(ctx context.Context, tx *sql.Tx, rec *sequencer.Record, doc []byte, reasonsJSON string, wantCert bool, prefix string) (string, error) {
+	var exists int
+	switch err := tx.QueryRowContext(ctx, `SELECT 1 FROM runs WHERE run_id = ?`, rec.RunID).Scan(&exists); {
+	case err == nil:
+		return "", ErrDuplicateRun
+	case !errors.Is(err, sql.ErrNoRows):
+		return "", err
+	}
+
+	first, last := formatTime(rec.Started), formatTime(rec.Finished)
+	if last < first {
+		last = first
+	}
+	if _, err := tx.ExecContext(ctx, `
+		INSERT INTO units (serial, product, first_seen, last_seen) VALUES (?, ?, ?, ?)
+		ON CONFLICT (serial) DO UPDATE SET
+			product    = CASE WHEN excluded.last_seen >= units.last_seen THEN excluded.product ELSE units.product END,
+			first_seen = min(units.first_seen, excluded.first_seen),
+			last_seen  = max(units.last_seen, excluded.last_seen)`,
+		rec.Serial, rec.Product, first, last); err != nil {
+		return "", fmt.Errorf("unit %s: %w", rec.Serial, err)
+	}
+
+	var cert string
+	if wantCert {
+		var n int64
+		if err := tx.QueryRowContext(ctx, `
+			INSERT INTO cert_sequences (prefix, last) VALUES (?, 1)
+			ON CONFLICT (prefix) DO UPDATE SET last = last + 1
+			RETURNING last`, prefix).Scan(&n); err != nil {
+			return "", fmt.Errorf("certificate number for %s: %w", prefix, err)
+		}
+		if n > MaxCertSequence {
+			return "", fmt.Errorf("prefix %s: %w", prefix, ErrSequenceExhausted)
+		}
+		cert = fmt.Sprintf("%s-%06d", prefix, n)
+	}
+
+	if _, err := tx.ExecContext(ctx, `
+		INSERT INTO runs (run_id, serial, product, revision, station, operator, software, started, finished,
+			verdict, fault, reasons, certificate, record_json, record_sha256)
+		VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)`,
+		rec.RunID, rec.Serial, rec.Product, rec.Revision, rec.Station, rec.Operator, rec.Software,
+		formatTime(rec.Started), formatTime(rec.Finished), string(rec.Verdict), nullText(rec.Fault),
+		reasonsJSON, nullText(cert), string(doc), sha256Hex(doc)); err != nil {
+		return "", fmt.Errorf("run row: %w", err)
+	}
+
+	if err := storeReadings(ctx, tx, rec); err != nil {
+		return "", err
+	}
+	if err := storeDetails(ctx, tx, rec); err != nil {
+		return "", err
+	}
+	return cert, nil
+}
+
+func storeReadings(ctx context.Context, tx *sql.Tx, rec *sequencer.Record) error {
+	st, err := tx.PrepareContext(ctx, `
+		INSERT INTO readings (run_id, sweep, point_index, reading_index, stimulus_v, value_v, flag, taken_at)
+		VALUES (?, ?, ?, ?, ?, ?, ?, ?)`)
+	if err != nil {
+		return fmt.Errorf("readings: %w", err)
+	}
+	defer st.Close()
+	for _, sw := range rec.Sweeps {
+		for pi, pt := range sw.Points {
+			for ri, r := range pt.Readings {
+				if _, err := st.ExecContext(ctx, rec.RunID, sw.Name, pi, ri, realOrNull(pt.Stimulus), realOrNull(r.Value),
+					r.Flag.String(), formatTime(r.Time)); err != nil {
+					return fmt.Errorf("reading %s[%d][%d]: %w", sw.Name, pi, ri, err)
+				}
+			}
+		}
+	}
+	return nil
+}
+
+// storeDetails writes the results, limit outcomes, fits, trims, files and instruments.
+func storeDetails(ctx context.Context, tx *sql.Tx, rec *sequencer.Record) error {
+	type table struct {
+		name, sql string
+		n         int
+		args      func(i int) ([]any, error)
+	}
+	tables := []table{
+		{"results", `INSERT INTO results (run_id, name, value, unit, valid, note) VALUES (?, ?, ?, ?, ?, ?)`,
+			len(rec.Results), func(i int) ([]any, error) {
+				r := rec.Results[i]
+				return []any{rec.RunID, r.Name, realOrNull(r.Value), r.Unit, r.Valid, r.Note}, nil
+			}},
+		{"limit_outcomes", `INSERT INTO limit_outcomes (run_id, name, expr, unit, pass, reason, values_json) VALUES (?, ?, ?, ?, ?, ?, ?)`,
+			len(rec.Outcomes), func(i int) ([]any, error) {
+				o := rec.Outcomes[i]
+				vals := o.Values
+				if vals == nil {
+					vals = map[string]float64{}
+				}
+				vj, err := canonicalJSON(vals)
+				if err != nil {
+					return nil, err
+				}
+				return []any{rec.RunID, o.Name, o.Expr, o.Unit, o.Pass, o.Reason, string(vj)}, nil
+			}},
+		{"fits", `INSERT INTO fits (run_id, sweep, slope, intercept_v, residual_sd_v, dof, nonlinearity, cov_json) VALUES (?, ?, ?, ?, ?, ?, ?, ?)`,
+			len(rec.Fits), func(i int) ([]any, error) {
+				f := rec.Fits[i]
+				cj, err := canonicalJSON(f.Cov)
+				if err != nil {
+					return nil, err
+				}
+				return []any{rec.RunID, f.Sweep, realOrNull(f.Slope), realOrNull(f.Intercept), realOrNull(f.ResidualSD), f.DOF, realOrNull(f.Nonlinearity), string(cj)}, nil
+			}},
+		{"trims", `INSERT INTO trims (run_id, dac, before_code, code, ideal, readback, saturated, stored) VALUES (?, ?, ?, ?, ?, ?, ?, ?)`,
+			len(rec.Trims), func(i int) ([]any, error) {
+				t := rec.Trims[i]
+				return []any{rec.RunID, t.DAC, t.Before, t.Code, realOrNull(t.Ideal), t.Readback, t.Saturated, t.Stored}, nil
+			}},
+		{"files", `INSERT INTO files (run_id, kind, name, title, sha256) VALUES (?, ?, ?, ?, ?)`,
+			len(rec.Files), func(i int) ([]any, error) {
+				f := rec.Files[i]
+				return []any{rec.RunID, f.Kind, f.Name, f.Title, f.SHA256}, nil
+			}},
+		{"instruments", `INSERT INTO instruments (run_id, role, address, asset, cal_due, identity) VALUES (?, ?, ?, ?, ?, ?)`,
+			len(rec.Instruments), func(i int) ([]any, error) {
+				in := rec.Instruments[i]
+				return []any{rec.RunID, in.Role, in.Address, in.Asset, in.CalDue, in.Identity.String()}, nil
+			}},
+	}
+	for _, t := range tables {
+		if t.n == 0 {
+			continue
+		}
+		st, err := tx.PrepareContext(ctx, t.sql)
+		if err != nil {
+			return fmt.Errorf("%s: %w", t.name, err)
+		}
+		for i := range t.n {
+			args, err := t.args(i)
+			if err == nil {
+				_, err = st.ExecContext(ctx, args...)
+			}
+			if err != nil {
+				st.Close()
+				return fmt.Errorf("%s[%d]: %w", t.name, i, err)
+			}
+		}
+		st.Close()
+	}
+	return nil
+}
+
+// AddDocument records a document issued for a run: the certificate number it carries,
+// the path it was written to, the SHA-256 of its exact bytes (64 hex digits, stored in
+// lower case) and its size in bytes, stamped with l.Now() as created_at. A run may
+// have several documents (a re-issued PDF is a new row; none is replaced).
+//
+// number must be the certificate number RecordRun allocated for the run, so a
+// document can only be recorded for a PASS or FAIL run. Errors (wrapped): ErrNotFound
+// for an unknown run; ErrInvalid for an empty path, a malformed hash, a negative size,
+// a run without a certificate or a number that is not the run's.
+func (l *Ledger) AddDocument(ctx context.Context, runID, number, path string, sha256hex string, size int64) error {
+	sum := strings.ToLower(sha256hex)
+	if b, err := hex.DecodeString(sum); err != nil || len(b) != sha256.Size {
+		return fmt.Errorf("ledger: document for run %s: sha256 %q is not 64 hex digits: %w", runID, sha256hex, ErrInvalid)
+	}
+	if path == "" {
+		return fmt.Errorf("ledger: document for run %s: empty path: %w", runID, ErrInvalid)
+	}
+	if size < 0 {
+		return fmt.Errorf("ledger: document for run %s: negative size %d: %w", runID, size, ErrInvalid)
+	}
+	created := formatTime(l.now())
+
+	tx, err := l.db.BeginTx(ctx, nil)
+	if err != nil {
+		return fmt.Errorf("ledger: document for run %s: begin: %w", runID, err)
+	}
+	defer tx.Rollback()
+	var cert sql.NullString
+	switch err := tx.QueryRowContext(ctx, `SELECT certificate FROM runs WHERE run_id = ?`, runID).Scan(&cert); {
+	case errors.Is(err, sql.ErrNoRows):
+		return fmt.Errorf("ledger: document for run %s: %w", runID, ErrNotFound)
+	case err != nil:
+		return fmt.Errorf("ledger: document for run %s: %w", runID, err)
+	}
+	if !cert.Valid {
+		return fmt.Errorf("ledger: document for run %s: the run has no certificate number: %w", runID, ErrInvalid)
+	}
+	if number != cert.String {
+		return fmt.Errorf("ledger: document for run %s: number %q is not the run's certificate %q: %w", runID, number, cert.String, ErrInvalid)
+	}
+	if _, err := tx.ExecContext(ctx, `
+		INSERT INTO documents (run_id, number, path, sha256, size, created_at) VALUES (?, ?, ?, ?, ?, ?)`,
+		runID, number, path, sum, size, created); err != nil {
+		return fmt.Errorf("ledger: document for run %s: %w", runID, err)
+	}
+	if err := tx.Commit(); err != nil {
+		return fmt.Errorf("ledger: document for run %s: commit: %w", runID, err)
+	}
+	return nil
+}
+
+// Run returns the record of run runID exactly as RecordRun was given it, decoded from
+// the stored canonical JSON after checking that JSON against its stored SHA-256.
+// Times come back with the instant and offset they had, but not their time.Location
+// name or monotonic reading (compare them with time.Time.Equal); what JSON cannot
+// tell apart comes back as JSON decodes it (an empty but non-nil Reasons, which is
+// omitted, comes back nil; every NaN is math.NaN()).
+//
+// Errors (wrapped): ErrNotFound for an unknown run id; ErrCorrupt if the JSON does
+// not match its hash or cannot be decoded.
+func (l *Ledger) Run(ctx context.Context, runID string) (*sequencer.Record, error) {
+	var doc []byte
+	var sum string
+	err := l.db.QueryRowContext(ctx, `SELECT record_json, record_sha256 FROM runs WHERE run_id = ?`, runID).Scan(&doc, &sum)
+	if errors.Is(err, sql.ErrNoRows) {
+		return nil, fmt.Errorf("ledger: run %s: %w", runID, ErrNotFound)
+	}
+	if err != nil {
+		return nil, fmt.Errorf("ledger: run %s: %w", runID, err)
+	}
+	if got := sha256Hex(doc); got != sum {
+		return nil, fmt.Errorf("ledger: run %s: record SHA-256 is %s, stored %s: %w", runID, got, sum, ErrCorrupt)
+	}
+	rec := new(sequencer.Record)
+	if err := decodeCanonical(doc, rec); err != nil {
+		return nil, fmt.Errorf("ledger: run %s: decode record: %v: %w", runID, err, ErrCorrupt)
+	}
+	return rec, nil
+}
+
+// RunSummary is one run as Runs lists it. Certificate is "" for a run without one;
+// Started and Finished are in UTC.
+type RunSummary struct {
+	RunID, Serial, Product, Revision, Station string
+	Verdict                                   sequencer.Verdict
+	Certificate                               string
+	Started, Finished                         time.Time
+}
+
+// Runs lists the stored runs, newest first (by Started, then by run id descending),
+// only those of serial unless serial is "". It returns an empty slice when there are
+// none.
+func (l *Ledger) Runs(ctx context.Context, serial string) ([]RunSummary, error) {
+	q := `SELECT run_id, serial, product, revision, station, verdict, certificate, started, finished FROM runs`
+	var args []any
+	if serial != "" {
+		q += ` WHERE serial = ?`
+		args = append(args, serial)
+	}
+	q += ` ORDER BY started DESC, run_id DESC`
+	rows, err := l.db.QueryContext(ctx, q, args...)
+	if err != nil {
+		return nil, fmt.Errorf("ledger: runs: %w", err)
+	}
+	defer rows.Close()
+	out := []RunSummary{}
+	for rows.Next() {
+		var s RunSummary
+		var verdict, started, finished string
+		var cert sql.NullString
+		if err := rows.Scan(&s.RunID, &s.Serial, &s.Product, &s.Revision, &s.Station, &verdict, &cert, &started, &finished); err != nil {
+			return nil, fmt.Errorf("ledger: runs: %w", err)
+		}
+		s.Verdict = sequencer.Verdict(verdict)
+		s.Certificate = cert.String
+		if s.Started, err = parseTime(started); err != nil {
+			return nil, fmt.Errorf("ledger: runs: run %s: %w", s.RunID, err)
+		}
+		if s.Finished, err = parseTime(finished); err != nil {
+			return nil, fmt.Errorf("ledger: runs: run %s: %w", s.RunID, err)
+		}
+		out = append(out, s)
+	}
+	if err := rows.Err(); err != nil {
+		return nil, fmt.Errorf("ledger: runs: %w", err)
+	}
+	return out, nil
+}
+
+// countedTables are the tables Counts reports, in its map's keys.
+var countedTables = []string{
+	"units", "runs", "readings", "results", "limit_outcomes", "documents",
+	"fits", "trims", "files", "instruments",
+}
+
+// Counts returns the number of rows in each of units, runs, readings, results,
+// limit_outcomes and documents, and also fits, trims, files and instruments, keyed by
+// table name. All counts are read by one statement, so they are consistent with each
+// other.
+func (l *Ledger) Counts(ctx context.Context) (map[string]int, error) {
+	sel := make([]string, len(countedTables))
+	for i, t := range countedTables {
+		sel[i] = "(SELECT count(*) FROM " + t + ")"
+	}
+	n := make([]int, len(countedTables))
+	dest := make([]any, len(n))
+	for i := range n {
+		dest[i] = &n[i]
+	}
+	if err := l.db.QueryRowContext(ctx, "SELECT "+strings.Join(sel, ", ")).Scan(dest...); err != nil {
+		return nil, fmt.Errorf("ledger: counts: %w", err)
+	}
+	out := make(map[string]int, len(countedTables))
+	for i, t := range countedTables {
+		out[t] = n[i]
+	}
+	return out, nil
+}

@@ -1,0 +1,173 @@
+package ledger
+
+import (
+	"context"
+	"database/sql"
+	"embed"
+	"errors"
+	"fmt"
+	"io/fs"
+	"regexp"
+	"slices"
+	"strconv"
+	"time"
+)
+
+//go:embed migrations/*.sql
+var migrationFS embed.FS
+
+// Migration is one schema migration applied to a ledger file. Version numbers start
+// at 1 and have no gaps; Name is the file name's words ("init" for 0001_init.sql).
+type Migration struct {
+	Version   int
+	Name      string
+	AppliedAt time.Time // UTC
+}
+
+type migrationFile struct {
+	version int
+	name    string
+	sql     string
+}
+
+var migrationName = regexp.MustCompile(`^([0-9]{4})_([a-z0-9_]+)\.sql$`)
+
+// embeddedMigrations returns the embedded migrations in version order. Their files
+// must be named NNNN_words.sql, numbered 1, 2, 3, ... without gaps.
+func embeddedMigrations() ([]migrationFile, error) {
+	names, err := fs.Glob(migrationFS, "migrations/*.sql")
+	if err != nil {
+		return nil, err
+	}
+	var out []migrationFile
+	for _, p := range names {
+		base := p[len("migrations/"):]
+		m := migrationName.FindStringSubmatch(base)
+		if m == nil {
+			return nil, fmt.Errorf("embedded migration %s: name is not NNNN_words.sql", base)
+		}
+		v, _ := strconv.Atoi(m[1])
+		b, err := migrationFS.ReadFile(p)
+		if err != nil {
+			return nil, err
+		}
+		out = append(out, migrationFile{version: v, name: m[2], sql: string(b)})
+	}
+	slices.SortFunc(out, func(a, b migrationFile) int { return a.version - b.version })
+	for i, m := range out {
+		if m.version != i+1 {
+			return nil, fmt.Errorf("embedded migrations: version %d where %d was expected", m.version, i+1)
+		}
+	}
+	if len(out) == 0 {
+		return nil, errors.New("embedded migrations: none")
+	}
+	return out, nil
+}
+
+// migrate brings the file's schema up to the embedded migrations. Each migration runs
+// in its own BEGIN IMMEDIATE transaction that first checks whether another process
+// applied it meanwhile, so concurrent Opens apply each migration exactly once.
+func (l *Ledger) migrate(ctx context.Context) error {
+	migs, err := embeddedMigrations()
+	if err != nil {
+		return err
+	}
+	if err := l.inTx(ctx, func(tx *sql.Tx) error {
+		_, err := tx.ExecContext(ctx, `CREATE TABLE IF NOT EXISTS schema_migrations (
+			version    INTEGER PRIMARY KEY,
+			name       TEXT NOT NULL,
+			applied_at TEXT NOT NULL
+		) STRICT`)
+		return err
+	}); err != nil {
+		return fmt.Errorf("schema_migrations: %w", err)
+	}
+	if err := l.checkApplied(ctx, migs); err != nil {
+		return err
+	}
+	for _, m := range migs {
+		err := l.inTx(ctx, func(tx *sql.Tx) error {
+			var n int
+			if err := tx.QueryRowContext(ctx, `SELECT count(*) FROM schema_migrations WHERE version = ?`, m.version).Scan(&n); err != nil {
+				return err
+			}
+			if n > 0 {
+				return nil // applied already, possibly by another process a moment ago
+			}
+			if _, err := tx.ExecContext(ctx, m.sql); err != nil {
+				return err
+			}
+			_, err := tx.ExecContext(ctx, `INSERT INTO schema_migrations (version, name, applied_at) VALUES (?, ?, ?)`,
+				m.version, m.name, formatTime(time.Now()))
+			return err
+		})
+		if err != nil {
+			return fmt.Errorf("migration %04d_%s: %w", m.version, m.name, err)
+		}
+	}
+	return nil
+}
+
+// checkApplied fails if the file has a migration this program does not know
+// (ErrSchemaTooNew) or one whose name differs from the embedded one (ErrCorrupt).
+func (l *Ledger) checkApplied(ctx context.Context, known []migrationFile) error {
+	applied, err := l.Migrations(ctx)
+	if err != nil {
+		return err
+	}
+	latest := known[len(known)-1].version
+	for _, a := range applied {
+		if a.Version > latest {
+			return fmt.Errorf("file has migration %d (%s), this program knows up to %d: %w", a.Version, a.Name, latest, ErrSchemaTooNew)
+		}
+		if a.Version < 1 || known[a.Version-1].name != a.Name {
+			return fmt.Errorf("file has migration %d named %q, this program's is %q: %w", a.Version, a.Name, nameOf(known, a.Version), ErrCorrupt)
+		}
+	}
+	return nil
+}
+
+func nameOf(known []migrationFile, v int) string {
+	if v < 1 || v > len(known) {
+		return ""
+	}
+	return known[v-1].name
+}
+
+func (l *Ledger) inTx(ctx context.Context, f func(tx *sql.Tx) error) error {
+	tx, err := l.db.BeginTx(ctx, nil)
+	if err != nil {
+		return err
+	}
+	defer tx.Rollback()
+	if err := f(tx); err != nil {
+		return err
+	}
+	return tx.Commit()
+}
+
+// Migrations returns the migrations applied to the ledger file, in version order.
+func (l *Ledger) Migrations(ctx context.Context) ([]Migration, error) {
+	rows, err := l.db.QueryContext(ctx, `SELECT version, name, applied_at FROM schema_migrations ORDER BY version`)
+	if err != nil {
+		return nil, fmt.Errorf("ledger: migrations: %w", err)
+	}
+	defer rows.Close()
+	out := []Migration{}
+	for rows.Next() {
+		var m Migration
+		var at string
+		if err := rows.Scan(&m.Version, &m.Name, &at); err != nil {
+			return nil, fmt.Errorf("ledger: migrations: %w", err)
+		}
+		if m.AppliedAt, err = parseTime(at); err != nil {
+			return nil, fmt.Errorf("ledger: migrations: %w", err)
+		}
+		out = append(out, m)
+	}
+	if err := rows.Err(); err != nil {
+		return nil, fmt.Errorf("ledger: migrations: %w", err)
+	}
+	return out, nil
+}
