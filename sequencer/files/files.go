@@ -74,7 +74,8 @@ type Doc struct {
 }
 
 // Parse parses data as YAML; syntax errors come back as *Error.
-func Parse(name string, data []byte) (*Doc, error) {
+func Parse(name string, data []byte) (doc *Doc, err error) {
+	defer recoverYAML(name, &err)
 	d := &Doc{Name: name, Data: data, lines: strings.Split(string(data), "\n")}
 	f, err := parser.ParseBytes(data, 0)
 	if err != nil {
@@ -85,12 +86,21 @@ func Parse(name string, data []byte) (*Doc, error) {
 }
 
 // Decode decodes the document into v strictly. Problems come back as *Error.
-func (d *Doc) Decode(v any) error {
-	err := yaml.UnmarshalWithOptions(d.Data, v, yaml.Strict())
+func (d *Doc) Decode(v any) (err error) {
+	defer recoverYAML(d.Name, &err)
+	err = yaml.UnmarshalWithOptions(d.Data, v, yaml.Strict())
 	if err != nil {
 		return d.convert(err)
 	}
 	return nil
+}
+
+// recoverYAML turns a panic inside the YAML library (seen on some malformed tags)
+// into an error naming the file, so a bad file can never crash the station.
+func recoverYAML(name string, err *error) {
+	if p := recover(); p != nil {
+		*err = &Error{File: name, Msg: fmt.Sprintf("cannot read this YAML (the parser failed: %v)", p)}
+	}
 }
 
 // At returns an *Error positioned at line and column.

@@ -1,0 +1,156 @@
+package limits
+
+import (
+	"errors"
+	"fmt"
+	"math"
+	"strconv"
+	"strings"
+	"sync"
+
+	"github.com/expr-lang/expr/file"
+	"github.com/expr-lang/expr/vm"
+)
+
+// Judge judges one unit's results against every limit of the Set and returns one
+// Outcome per limit, in file order. results maps result names to values in SI base
+// units (volts; ratios as plain fractions; counts).
+//
+// A limit passes only when its expression gives true. Before the expression runs,
+// every result the limit uses must be present, Valid, and a finite number (also
+// once scaled to the limit's unit); otherwise the limit fails with the reason
+// "result NAME is not a valid number: WHY" and the expression is not run, so no
+// form of expression can pass a NaN. Outcome.Values holds each usable result in the
+// limit's unit (never a NaN or an infinity, so the Outcome always encodes as JSON);
+// a failing expression's Reason quotes it with those values, and a run-time error
+// (say from a registered function) fails the limit with the error as the reason.
+//
+// Judge does not change the Set or results and is safe for concurrent use.
+func (s *Set) Judge(results map[string]Value) []Outcome {
+	if s == nil {
+		return nil
+	}
+	outs := make([]Outcome, len(s.Limits))
+	for i, l := range s.Limits {
+		outs[i] = l.judge(results)
+	}
+	return outs
+}
+
+// Passed reports whether every outcome passed. It is false for no outcomes: a unit
+// that nothing was judged on has not passed.
+func Passed(outs []Outcome) bool {
+	for _, o := range outs {
+		if !o.Pass {
+			return false
+		}
+	}
+	return len(outs) > 0
+}
+
+var vms = sync.Pool{New: func() any { return new(vm.VM) }}
+
+func (l *Limit) judge(results map[string]Value) Outcome {
+	o := Outcome{Name: l.Name, Description: l.Description, Expr: l.Expr, Unit: l.Unit,
+		Uses: append([]string(nil), l.Uses...), Values: make(map[string]float64, len(l.Uses))}
+	env := make(map[string]any, len(l.Uses))
+	var bad []string
+	for _, n := range l.Uses {
+		why := ""
+		r, ok := results[n]
+		switch {
+		case !ok:
+			why = "no such result was produced"
+		case !r.Valid && r.Why != "":
+			why = r.Why
+		case !r.Valid:
+			why = "flagged invalid"
+		case math.IsNaN(r.V):
+			why = "it is NaN"
+		case math.IsInf(r.V, 0):
+			why = fmt.Sprintf("it is %v", r.V)
+		}
+		var v float64
+		if why == "" {
+			if v = l.inUnit(r.V); math.IsInf(v, 0) || math.IsNaN(v) {
+				why = fmt.Sprintf("%g is out of range in %s", r.V, l.Unit)
+			}
+		}
+		if why != "" {
+			bad = append(bad, fmt.Sprintf("result %s is not a valid number: %s", n, why))
+			continue
+		}
+		o.Values[n] = v
+		env[n] = v
+	}
+	if len(bad) > 0 {
+		o.Reason = strings.Join(bad, "; ")
+		return o
+	}
+	if l.prog == nil { // a Limit not made by Load
+		o.Reason = "limit was not compiled by Load"
+		return o
+	}
+	m := vms.Get().(*vm.VM)
+	out, err := m.Run(l.prog, env)
+	vms.Put(m)
+	if err != nil {
+		msg := err.Error()
+		var fe *file.Error
+		if errors.As(err, &fe) {
+			msg = fe.Message
+		}
+		o.Reason = fmt.Sprintf("%s could not be evaluated: %s", oneLine(l.Expr), msg)
+		return o
+	}
+	pass, ok := out.(bool)
+	if !ok {
+		o.Reason = fmt.Sprintf("%s gave %v, not true or false", oneLine(l.Expr), out)
+		return o
+	}
+	if pass {
+		o.Pass = true
+		return o
+	}
+	parts := make([]string, len(l.Uses))
+	for i, n := range l.Uses {
+		parts[i] = n + " = " + strconv.FormatFloat(o.Values[n], 'g', -1, 64)
+		if l.Unit != "" {
+			parts[i] += " " + l.Unit
+		}
+	}
+	o.Reason = fmt.Sprintf("%s is false with %s", oneLine(l.Expr), strings.Join(parts, ", "))
+	return o
+}
+
+// inUnit converts v (SI) to the limit's unit. When the unit is a power of ten of
+// the SI unit (uV, mV, ppm, %) the shift is done on v's shortest decimal form, so
+// 1.23e-5 V is exactly 12.3 uV and 60e-6 V is exactly 60 uV (plain division by
+// 1e-6, itself inexact, gives 12.299999999999999 and 60.00000000000001): a value
+// written at a limit stays at it, and records show the digits that were measured.
+func (l *Limit) inUnit(v float64) float64 {
+	if !l.pow10 {
+		return v / l.scale
+	}
+	if l.exp10 == 0 || v == 0 || math.IsNaN(v) || math.IsInf(v, 0) {
+		return v
+	}
+	var buf [40]byte
+	b := strconv.AppendFloat(buf[:0], v, 'e', -1, 64) // "-1.23e-05"
+	i := len(b) - 1
+	for b[i] != 'e' {
+		i--
+	}
+	exp, err := strconv.Atoi(string(b[i+1:]))
+	if err != nil {
+		return v / l.scale
+	}
+	b = strconv.AppendInt(b[:i+1], int64(exp-l.exp10), 10)
+	out, err := strconv.ParseFloat(string(b), 64)
+	if err != nil && !math.IsInf(out, 0) {
+		return v / l.scale
+	}
+	return out // ±Inf when the shift overflows, which Judge reports
+}
+
+func oneLine(s string) string { return strings.Join(strings.Fields(s), " ") }

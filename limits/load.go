@@ -1,0 +1,759 @@
+package limits
+
+import (
+	"crypto/sha256"
+	"encoding/hex"
+	"errors"
+	"fmt"
+	"math"
+	"os"
+	"sort"
+	"strconv"
+	"strings"
+
+	"github.com/expr-lang/expr"
+	exprast "github.com/expr-lang/expr/ast"
+	"github.com/expr-lang/expr/file"
+	"github.com/expr-lang/expr/vm"
+	"github.com/goccy/go-yaml/ast"
+	"github.com/goccy/go-yaml/parser"
+
+	"trimline/sequencer/files"
+	"trimline/sequencer/units"
+)
+
+// The file as decoded. Pointers tell a missing key from an empty value.
+type fileForm struct {
+	LimitSet *headerForm  `yaml:"limit_set"`
+	Limits   []*limitForm `yaml:"limits"`
+}
+
+type headerForm struct {
+	Name     *string `yaml:"name"`
+	Revision *string `yaml:"revision"`
+	Product  *string `yaml:"product"`
+}
+
+type limitForm struct {
+	Name        *string   `yaml:"name"`
+	Description *string   `yaml:"description"`
+	Unit        *string   `yaml:"unit"`
+	Uses        *[]string `yaml:"uses"`
+	Expr        *string   `yaml:"expr"`
+}
+
+// LoadFile reads the limit file at path and loads it with Load, naming it path in
+// the Set and in messages. A read error is returned as it came from os.ReadFile.
+func LoadFile(path string, cat Catalog) (*Set, error) {
+	data, err := os.ReadFile(path)
+	if err != nil {
+		return nil, err
+	}
+	return Load(path, data, cat)
+}
+
+// Load decodes and compiles the limit file data, called name in messages and in
+// Set.File. cat lists the results that limits may use, with their dimensions.
+//
+// The file is decoded strictly (unknown keys, duplicate keys and wrong types are
+// errors), every required key must be present, every name in uses must be in cat,
+// each limit's unit must fit the dimension of every result it uses, limit names
+// must be unique, and every expression must compile to a true/false value using
+// only the names in its uses (as float64, in the limit's unit), expr-lang's
+// built-in functions (abs, min, max, ...; not the clock ones: now, date, duration,
+// timezone) and the functions added with RegisterFunc (within and outside come
+// built in). Every name in uses must also appear in the expression, and a
+// constant within/outside range must have lo ≤ hi.
+//
+// On any problem Load returns a nil Set and a files.List holding every problem it
+// found, sorted by line (a file without a top-level limit_set key gets the single
+// error "not a limit file"), each a *files.Error positioned file:line:col with an
+// excerpt of the file; a problem inside an expression points at the offending
+// character of the file. Load is safe for concurrent use.
+func Load(name string, data []byte, cat Catalog) (*Set, error) {
+	var doc *files.Doc
+	err := yamlSafely(name, func() (err error) { doc, err = files.Parse(name, data); return err })
+	if err != nil {
+		return nil, asList(name, err)
+	}
+	sum := sha256.Sum256(data)
+	l := &loader{doc: doc, cat: cat}
+	l.src = splitRunes(data)
+	var f *ast.File
+	if yamlSafely(name, func() (err error) { f, err = parser.ParseBytes(data, 0); return err }) == nil {
+		l.ast = f
+		l.root = rootMapping(f)
+	}
+	if l.ast != nil && len(l.ast.Docs) > 1 {
+		l.errs = append(l.errs, doc.At(1, 1, "expected one YAML document in a limit file, found %d", len(l.ast.Docs)))
+	}
+	l.funcOpts = funcOptions()
+
+	if !doc.Has("$.limit_set") {
+		// Some other file: its own keys would only add noise.
+		msg := "not a limit file: expected a top-level \"limit_set\" key (name, revision, product)"
+		if keys := l.topKeys(); len(keys) > 0 {
+			msg += ", found " + strings.Join(keys, ", ")
+		}
+		return nil, files.List{doc.At(1, 1, "%s", msg)}
+	}
+	hdr, entries := l.decode()
+	set := &Set{File: name, SHA256: hex.EncodeToString(sum[:])}
+	if hdr.ok {
+		l.header(hdr.form, set)
+	}
+	set.Limits = l.limits(entries)
+
+	if len(l.errs) > 0 {
+		return nil, l.sorted()
+	}
+	return set, nil
+}
+
+type loader struct {
+	doc      *files.Doc
+	src      [][]rune
+	ast      *ast.File
+	root     *ast.MappingNode
+	cat      Catalog
+	funcOpts []expr.Option
+	errs     files.List
+}
+
+// topKeys returns the file's top-level keys, quoted, in file order.
+func (l *loader) topKeys() []string {
+	if l.root == nil {
+		return nil
+	}
+	var keys []string
+	for _, mv := range l.root.Values {
+		if mv.Key != nil && mv.Key.GetToken() != nil {
+			keys = append(keys, strconv.Quote(mv.Key.GetToken().Value))
+		}
+	}
+	return keys
+}
+
+type decodedHeader struct {
+	form *headerForm
+	ok   bool // decoded without error, so it can be checked
+}
+
+// decodedEntries is the limits list: whether it decoded (ok), and per entry the
+// decoded form, or nil when that entry had a decoding error.
+type decodedEntries struct {
+	ok      bool // the list as a whole could be checked
+	present bool
+	forms   []*limitForm
+	good    []bool
+}
+
+// decode decodes the file strictly. files.Doc.Decode stops at the first problem, so
+// when there is one, each top-level section and each limit entry is decoded again
+// on its own (the rest of the file blanked out, line numbers kept) to find the
+// problems in the others and to check the entries that are sound.
+func (l *loader) decode() (decodedHeader, decodedEntries) {
+	var whole fileForm
+	err := yamlSafely(l.doc.Name, func() error { return l.doc.Decode(&whole) })
+	if err == nil {
+		good := make([]bool, len(whole.Limits))
+		for i := range good {
+			good[i] = true
+		}
+		return decodedHeader{whole.LimitSet, true},
+			decodedEntries{ok: true, present: l.doc.Has("$.limits"), forms: whole.Limits, good: good}
+	}
+	l.addDecodeErr(err)
+	var hdr decodedHeader
+	var ents decodedEntries
+	if !l.maskable() {
+		return hdr, ents
+	}
+	keys := l.root.Values
+	for i, mv := range keys {
+		from := mv.Key.GetToken().Position.Line
+		to := len(l.src)
+		if i+1 < len(keys) {
+			to = keys[i+1].Key.GetToken().Position.Line - 1
+		}
+		key := mv.Key.GetToken().Value
+		seq, isSeq := mv.Value.(*ast.SequenceNode)
+		if key == "limits" && isSeq && blockEntries(seq) {
+			ents = decodedEntries{ok: true, present: true, forms: make([]*limitForm, len(seq.Values)), good: make([]bool, len(seq.Values))}
+			for j, e := range seq.Entries {
+				efrom := e.Start.Position.Line
+				eto := to
+				if j+1 < len(seq.Entries) {
+					eto = seq.Entries[j+1].Start.Position.Line - 1
+				}
+				var f fileForm
+				if err := l.decodeLines(&f, from, from, efrom, eto); err != nil {
+					l.addDecodeErr(err)
+				} else if len(f.Limits) == 1 {
+					ents.forms[j], ents.good[j] = f.Limits[0], true
+				}
+			}
+			continue
+		}
+		var f fileForm
+		if err := l.decodeLines(&f, from, to, from, to); err != nil {
+			l.addDecodeErr(err)
+			continue
+		}
+		switch key {
+		case "limit_set":
+			hdr = decodedHeader{f.LimitSet, true}
+		case "limits":
+			good := make([]bool, len(f.Limits))
+			for j := range good {
+				good[j] = true
+			}
+			ents = decodedEntries{ok: true, present: true, forms: f.Limits, good: good}
+		}
+	}
+	if !l.doc.Has("$.limits") {
+		ents = decodedEntries{ok: true}
+	}
+	return hdr, ents
+}
+
+// blockEntries reports whether seq is a non-empty block sequence whose entries'
+// "-" positions are known.
+func blockEntries(seq *ast.SequenceNode) bool {
+	if seq.IsFlowStyle || len(seq.Values) == 0 || len(seq.Entries) != len(seq.Values) {
+		return false
+	}
+	for _, e := range seq.Entries {
+		if e == nil || e.Start == nil || e.Start.Position == nil {
+			return false
+		}
+	}
+	return true
+}
+
+// maskable reports whether the file is laid out so that its sections can be decoded
+// one at a time: a block mapping at the top with distinct keys on their own lines,
+// and no anchors or aliases tying sections together.
+func (l *loader) maskable() bool {
+	if l.root == nil || l.root.IsFlowStyle || len(l.ast.Docs) != 1 {
+		return false
+	}
+	seen := map[string]bool{}
+	last := 0
+	for _, mv := range l.root.Values {
+		if mv == nil || mv.Key == nil {
+			return false
+		}
+		tk := mv.Key.GetToken()
+		if tk == nil || tk.Position == nil || tk.Position.Line <= last || seen[tk.Value] {
+			return false
+		}
+		seen[tk.Value] = true
+		last = tk.Position.Line
+	}
+	ok := true
+	ast.Walk(visitFunc(func(n ast.Node) bool {
+		switch n.(type) {
+		case *ast.AnchorNode, *ast.AliasNode:
+			ok = false
+		}
+		return ok
+	}), l.root)
+	return ok
+}
+
+type visitFunc func(ast.Node) bool
+
+func (f visitFunc) Visit(n ast.Node) ast.Visitor {
+	if f(n) {
+		return f
+	}
+	return nil
+}
+
+// decodeLines decodes only lines a1..a2 and b1..b2 of the file (1-based, inclusive),
+// every other line blanked so that positions stay those of the file.
+func (l *loader) decodeLines(v any, a1, a2, b1, b2 int) error {
+	var b strings.Builder
+	for i, line := range l.src {
+		n := i + 1
+		if (n >= a1 && n <= a2) || (n >= b1 && n <= b2) {
+			b.WriteString(string(line))
+		}
+		if i < len(l.src)-1 {
+			b.WriteByte('\n')
+		}
+	}
+	return yamlSafely(l.doc.Name, func() error {
+		d, err := files.Parse(l.doc.Name, []byte(b.String()))
+		if err != nil {
+			return err
+		}
+		return d.Decode(v)
+	})
+}
+
+// addDecodeErr records the problems in err, re-made against the whole file so that
+// the excerpts show the real lines.
+func (l *loader) addDecodeErr(err error) {
+	fe := files.Errs(err)
+	if fe == nil {
+		l.errs = append(l.errs, &files.Error{File: l.doc.Name, Msg: err.Error()})
+		return
+	}
+	for _, e := range fe {
+		if e.Line > 0 {
+			e = l.doc.At(e.Line, e.Col, "%s", e.Msg)
+		}
+		l.errs = append(l.errs, e)
+	}
+}
+
+func (l *loader) header(h *headerForm, set *Set) {
+	if h == nil {
+		l.errs = append(l.errs, l.doc.KeyErrorf("$.limit_set", "limit_set is empty: expected name, revision and product"))
+		return
+	}
+	set.Name = l.required("$.limit_set", "name", h.Name, true)
+	set.Revision = l.required("$.limit_set", "revision", h.Revision, true)
+	set.Product = l.required("$.limit_set", "product", h.Product, true)
+}
+
+// required checks the key under the mapping at path: present, not null, and (when
+// nonBlank) not empty. It returns the value with surrounding white space removed.
+func (l *loader) required(path, key string, v *string, nonBlank bool) string {
+	return l.requiredAt(path, key, v, nonBlank, func() *files.Error {
+		return l.doc.KeyErrorf(path, "missing required key %q", key)
+	})
+}
+
+func (l *loader) requiredAt(path, key string, v *string, nonBlank bool, missing func() *files.Error) string {
+	p := path + "." + key
+	if v == nil {
+		if l.doc.Has(p) {
+			l.errs = append(l.errs, l.doc.Errorf(p, "%q has no value", key))
+		} else {
+			l.errs = append(l.errs, missing())
+		}
+		return ""
+	}
+	s := strings.TrimSpace(*v)
+	if nonBlank && s == "" {
+		l.errs = append(l.errs, l.doc.Errorf(p, "%q is empty", key))
+	}
+	return s
+}
+
+func (l *loader) limits(ents decodedEntries) []*Limit {
+	if !ents.ok {
+		return nil
+	}
+	if !ents.present {
+		l.errs = append(l.errs, l.doc.At(1, 1, "missing required key \"limits\" (the list of limits)"))
+		return nil
+	}
+	if len(ents.forms) == 0 {
+		l.errs = append(l.errs, l.doc.Errorf("$.limits", "\"limits\" is empty: expected at least one limit"))
+		return nil
+	}
+	var out []*Limit
+	firstLine := map[string]int{}
+	for i, f := range ents.forms {
+		if !ents.good[i] {
+			continue
+		}
+		lim := l.limit(i, f)
+		if lim == nil {
+			continue
+		}
+		key := strings.ToLower(strings.Join(strings.Fields(lim.Name), " "))
+		if key != "" {
+			if first, dup := firstLine[key]; dup {
+				l.errs = append(l.errs, l.doc.Errorf(fmt.Sprintf("$.limits[%d].name", i),
+					"duplicate limit name %q (also the name of the limit at line %d)", lim.Name, first))
+			} else {
+				firstLine[key] = lim.Line
+			}
+		}
+		out = append(out, lim)
+	}
+	return out
+}
+
+// entryPlace returns the position of limit entry i: its "-", or the entry itself.
+func (l *loader) entryPlace(i int) place {
+	if seq := l.limitsSeq(); seq != nil && i < len(seq.Values) {
+		if i < len(seq.Entries) && seq.Entries[i].Start != nil && seq.Entries[i].Start.Position != nil {
+			p := seq.Entries[i].Start.Position
+			return place{p.Line, p.Column}
+		}
+	}
+	line, col := l.doc.Pos(fmt.Sprintf("$.limits[%d]", i))
+	return place{line, col}
+}
+
+func (l *loader) limitsSeq() *ast.SequenceNode {
+	if l.root == nil {
+		return nil
+	}
+	if mv := mapValue(l.root, "limits"); mv != nil {
+		if seq, ok := mv.Value.(*ast.SequenceNode); ok {
+			return seq
+		}
+	}
+	return nil
+}
+
+// exprNode returns the AST node of limit entry i's expr value, or nil.
+func (l *loader) exprNode(i int) ast.Node {
+	seq := l.limitsSeq()
+	if seq == nil || i >= len(seq.Values) {
+		return nil
+	}
+	m := asMapping(seq.Values[i])
+	if m == nil {
+		return nil
+	}
+	if mv := mapValue(m, "expr"); mv != nil {
+		return mv.Value
+	}
+	return nil
+}
+
+// limit checks and compiles entry i. It returns nil when the entry is empty.
+func (l *loader) limit(i int, f *limitForm) *Limit {
+	path := fmt.Sprintf("$.limits[%d]", i)
+	at := l.entryPlace(i)
+	if f == nil {
+		l.errs = append(l.errs, l.doc.At(at.line, at.col, "empty limit entry: expected name, description, unit, uses and expr"))
+		return nil
+	}
+	missing := func(key string) func() *files.Error {
+		return func() *files.Error { return l.doc.At(at.line, at.col, "missing required key %q", key) }
+	}
+	lim := &Limit{Line: at.line}
+	lim.Name = l.requiredAt(path, "name", f.Name, true, missing("name"))
+	lim.Description = l.requiredAt(path, "description", f.Description, true, missing("description"))
+	var unitOK bool
+	if f.Unit == nil {
+		l.requiredAt(path, "unit", nil, false, missing("unit"))
+	} else {
+		lim.Unit = *f.Unit
+		var dim units.Dim
+		var bare bool
+		var scale float64
+		scale, dim, bare, unitOK = l.unit(path+".unit", lim.Unit)
+		lim.setScale(scale)
+		if unitOK && f.Uses != nil {
+			for j, u := range *f.Uses {
+				d, known := l.cat[u]
+				if known && !fits(d, dim, bare) {
+					unitOK = false
+					what := fmt.Sprintf("is a %s", dim)
+					if bare {
+						what = "is empty (a plain number, for counts and ratios)"
+					}
+					l.errs = append(l.errs, l.doc.Errorf(path+".unit",
+						"unit %q %s, but result %q (uses item %d) is a %s", lim.Unit, what, u, j+1, d))
+				}
+			}
+		}
+	}
+	usesOK := false
+	if f.Uses == nil {
+		l.requiredAt(path, "uses", nil, false, missing("uses"))
+	} else {
+		usesOK = l.uses(path+".uses", *f.Uses)
+		lim.Uses = append([]string(nil), *f.Uses...)
+	}
+	if f.Expr == nil {
+		l.requiredAt(path, "expr", nil, false, missing("expr"))
+		return lim
+	}
+	lim.Expr = strings.TrimSpace(*f.Expr)
+	if lim.Expr == "" {
+		l.errs = append(l.errs, l.doc.Errorf(path+".expr", "\"expr\" is empty"))
+		return lim
+	}
+	if f.Uses != nil {
+		lim.prog = l.compile(i, path, *f.Expr, lim.Uses, usesOK && unitOK)
+	}
+	return lim
+}
+
+// unit parses a limit's unit. bare is true for the empty unit, which is a plain
+// number and fits counts and ratios.
+func (l *loader) unit(path, u string) (scale float64, dim units.Dim, bare, ok bool) {
+	if u == "" {
+		return 1, units.Ratio, true, true
+	}
+	// A space before the unit keeps units.Parse from reading digits or an exponent
+	// in the unit ("0mV", "e3V") as part of the number.
+	q, err := units.Parse("1 " + u)
+	if err != nil || u != strings.TrimSpace(u) || !(q.Value > 0) || math.IsInf(q.Value, 0) {
+		l.errs = append(l.errs, l.doc.Errorf(path, "unknown unit %q: expected a unit such as uV, mV, V, ppm, %%, code or LSB, with no number", u))
+		return 0, 0, false, false
+	}
+	return q.Value, q.Dim, false, true
+}
+
+// fits reports whether a result of dimension res can be shown in a unit of
+// dimension unit (bare: the empty unit).
+func fits(res, unit units.Dim, bare bool) bool {
+	if bare {
+		return res == units.Count || res == units.Ratio
+	}
+	return res == unit
+}
+
+// uses checks the uses list: not empty, every name in the catalog, none twice.
+func (l *loader) uses(path string, names []string) bool {
+	if len(names) == 0 {
+		l.errs = append(l.errs, l.doc.Errorf(path, "\"uses\" is empty: expected the result names the expression uses"))
+		return false
+	}
+	ok := true
+	seen := map[string]int{}
+	for j, n := range names {
+		p := fmt.Sprintf("%s[%d]", path, j)
+		if _, known := l.cat[n]; !known {
+			l.errs = append(l.errs, l.doc.Errorf(p, "unknown result name %q (known: %s)", n, strings.Join(l.known(), ", ")))
+			ok = false
+		} else if k, dup := seen[n]; dup {
+			l.errs = append(l.errs, l.doc.Errorf(p, "result %q is listed twice in uses (also item %d)", n, k+1))
+			ok = false
+		}
+		seen[n] = j
+	}
+	return ok
+}
+
+func (l *loader) known() []string {
+	names := make([]string, 0, len(l.cat))
+	for n := range l.cat {
+		names = append(names, n)
+	}
+	sort.Strings(names)
+	return names
+}
+
+// compile compiles entry i's expression with only its uses in scope, as float64.
+// Errors are positioned at the offending character of the expression in the file.
+// check adds the checks that need a sound uses list (every listed name used).
+func (l *loader) compile(i int, path, src string, uses []string, check bool) *vm.Program {
+	env := make(map[string]any, len(uses))
+	for _, n := range uses {
+		env[n] = float64(0)
+	}
+	opts := []expr.Option{expr.Env(env), expr.AsBool()}
+	for _, b := range clockBuiltins {
+		opts = append(opts, expr.DisableBuiltin(b))
+	}
+	opts = append(opts, l.funcOpts...)
+	prog, err := compileSafely(src, opts)
+	var st scalarText
+	located := false
+	errAt := func(from, line, col int, format string, args ...any) {
+		if !located {
+			if n := l.exprNode(i); n != nil {
+				st = locateScalar(l.src, n, src)
+			} else {
+				line, col := l.doc.Pos(path + ".expr")
+				st = scalarText{start: place{line, col}}
+			}
+			located = true
+		}
+		p := st.pos(l.src, from, line, col)
+		l.errs = append(l.errs, l.doc.At(p.line, p.col, format, args...))
+	}
+	if err != nil {
+		var fe *file.Error
+		if errors.As(err, &fe) {
+			msg := fe.Message
+			if name, ok := strings.CutPrefix(msg, "unknown name "); ok {
+				if _, known := l.cat[name]; known {
+					msg = fmt.Sprintf("expression uses result %q, which is not listed in uses", name)
+				} else {
+					msg = fmt.Sprintf("expression uses unknown name %q: not a result listed in uses (%s) nor a function", name, strings.Join(uses, ", "))
+				}
+			} else {
+				msg = "invalid expression: " + msg
+			}
+			errAt(fe.From, fe.Line, fe.Column, "%s", msg)
+		} else {
+			errAt(-1, 0, 0, "%s", exprMessage(err.Error()))
+		}
+		return nil
+	}
+	if !check {
+		return prog
+	}
+	// Every listed result must be used: the judge fails a limit when any of its
+	// results is invalid, so a stray name would fail it for the wrong reason.
+	used := map[string]bool{}
+	root := prog.Node()
+	exprast.Walk(&root, walker(func(n exprast.Node) {
+		switch n := n.(type) {
+		case *exprast.IdentifierNode:
+			used[n.Value] = true
+		case *exprast.MemberNode: // $env.x, $env["x"]
+			id, isID := n.Node.(*exprast.IdentifierNode)
+			prop, isStr := n.Property.(*exprast.StringNode)
+			if isID && isStr && id.Value == "$env" {
+				used[prop.Value] = true
+			}
+		case *exprast.CallNode:
+			id, ok := n.Callee.(*exprast.IdentifierNode)
+			if ok && (id.Value == "within" || id.Value == "outside") && len(n.Arguments) == 3 {
+				lo, lok := constNumber(n.Arguments[1])
+				hi, hok := constNumber(n.Arguments[2])
+				if lok && hok && lo > hi {
+					errAt(n.Callee.Location().From, 0, 0, "%s(x, lo, hi) needs lo ≤ hi, found lo = %g above hi = %g", id.Value, lo, hi)
+				}
+			}
+		}
+	}))
+	for j, n := range uses {
+		if !used[n] {
+			l.errs = append(l.errs, l.doc.Errorf(fmt.Sprintf("%s.uses[%d]", path, j),
+				"result %q is listed in uses but the expression does not use it", n))
+		}
+	}
+	return prog
+}
+
+// yamlSafely runs a YAML parse or decode, turning a panic inside the YAML library
+// (it has some on malformed input) into an error, so that no limit file can crash
+// the station.
+func yamlSafely(name string, f func() error) (err error) {
+	defer func() {
+		if r := recover(); r != nil {
+			err = &files.Error{File: name, Msg: fmt.Sprintf("cannot read this file: the YAML decoder failed (%v); check tags (!...) and indentation", r)}
+		}
+	}()
+	return f()
+}
+
+// clockBuiltins are expr-lang built-ins that read the clock or the time zone. A
+// verdict must follow from the results alone, so limits cannot call them.
+var clockBuiltins = []string{"now", "date", "duration", "timezone"}
+
+// compileSafely compiles src, turning a panic inside the compiler into an error so
+// that no limit file can crash the station.
+func compileSafely(src string, opts []expr.Option) (p *vm.Program, err error) {
+	defer func() {
+		if r := recover(); r != nil {
+			p, err = nil, fmt.Errorf("the expression compiler failed: %v", r)
+		}
+	}()
+	return expr.Compile(src, opts...)
+}
+
+// exprMessage rewrites expr-lang's unpositioned messages in words.
+func exprMessage(msg string) string {
+	if got, ok := strings.CutPrefix(msg, "expected bool, but got "); ok {
+		what := got
+		switch got {
+		case "int", "float64", "float", "int64":
+			what = "a number"
+		case "string":
+			what = "text"
+		}
+		return fmt.Sprintf("expression must give true or false (a comparison such as x <= 60), but it gives %s", what)
+	}
+	return "invalid expression: " + msg
+}
+
+type walker func(exprast.Node)
+
+func (w walker) Visit(n *exprast.Node) { w(*n) }
+
+func constNumber(n exprast.Node) (float64, bool) {
+	switch n := n.(type) {
+	case *exprast.IntegerNode:
+		return float64(n.Value), true
+	case *exprast.FloatNode:
+		return n.Value, true
+	case *exprast.UnaryNode:
+		v, ok := constNumber(n.Node)
+		switch {
+		case ok && n.Operator == "-":
+			return -v, true
+		case ok && n.Operator == "+":
+			return v, true
+		}
+	}
+	return 0, false
+}
+
+func (l *loader) sorted() files.List {
+	type key struct {
+		line, col int
+		msg       string
+	}
+	seen := map[key]bool{}
+	out := make(files.List, 0, len(l.errs))
+	for _, e := range l.errs {
+		k := key{e.Line, e.Col, e.Msg}
+		if seen[k] {
+			continue
+		}
+		seen[k] = true
+		out = append(out, e)
+	}
+	sort.SliceStable(out, func(a, b int) bool {
+		ea, eb := out[a], out[b]
+		if (ea.Line == 0) != (eb.Line == 0) {
+			return eb.Line == 0
+		}
+		if ea.Line != eb.Line {
+			return ea.Line < eb.Line
+		}
+		return ea.Col < eb.Col
+	})
+	return out
+}
+
+func asList(name string, err error) error {
+	if fe := files.Errs(err); fe != nil {
+		return files.List(fe)
+	}
+	return files.List{{File: name, Msg: err.Error()}}
+}
+
+func splitRunes(data []byte) [][]rune {
+	lines := strings.Split(string(data), "\n")
+	out := make([][]rune, len(lines))
+	for i, s := range lines {
+		out[i] = []rune(s)
+	}
+	return out
+}
+
+func rootMapping(f *ast.File) *ast.MappingNode {
+	if len(f.Docs) == 0 || f.Docs[0] == nil {
+		return nil
+	}
+	return asMapping(f.Docs[0].Body)
+}
+
+func asMapping(n ast.Node) *ast.MappingNode {
+	switch n := n.(type) {
+	case *ast.MappingNode:
+		return n
+	case *ast.MappingValueNode:
+		return &ast.MappingNode{BaseNode: &ast.BaseNode{}, Values: []*ast.MappingValueNode{n}}
+	}
+	return nil
+}
+
+func mapValue(m *ast.MappingNode, key string) *ast.MappingValueNode {
+	for _, mv := range m.Values {
+		if mv.Key != nil {
+			if tk := mv.Key.GetToken(); tk != nil && tk.Value == key {
+				return mv
+			}
+		}
+	}
+	return nil
+}
