@@ -114,7 +114,7 @@ func (l *Limit) judge(results map[string]Value) Outcome {
 	}
 	parts := make([]string, len(l.Uses))
 	for i, n := range l.Uses {
-		parts[i] = n + " = " + strconv.FormatFloat(o.Values[n], 'g', -1, 64)
+		parts[i] = n + " = " + strconv.FormatFloat(o.Values[n], 'g', 10, 64)
 		if l.Unit != "" {
 			parts[i] += " " + l.Unit
 		}
