@@ -275,27 +275,34 @@ func (t *tally) summary(w io.Writer) {
 		fmt.Fprintf(w, "; yield %.1f %%", 100*float64(pass)/float64(judged))
 	}
 	fmt.Fprintln(w)
-	stat := func(name string) (mean, sd float64, k int) {
+	stat := func(name string, passedOnly bool) (mean, sd float64, k int) {
 		var xs []float64
 		for _, r := range t.records {
+			if passedOnly && r.Verdict != sequencer.Pass {
+				continue
+			}
 			if v, ok := result(r, name); ok {
 				xs = append(xs, v)
 			}
 		}
 		return meanSD(xs)
 	}
+	// Pre-trim spread over every measured unit (the process); post-trim residuals
+	// over the units that passed (what ships).
 	rows := []struct {
 		label, name, unit string
 		scale             float64
+		passedOnly        bool
 	}{
-		{"pre-trim offset", sequencer.ResPreOffset, "mV", 1e3},
-		{"pre-trim gain error", sequencer.ResPreGainError, "%", 1e2},
-		{"post-trim offset", sequencer.ResPostOffset, "µV", 1e6},
-		{"post-trim gain error", sequencer.ResPostGainError, "ppm", 1e6},
-		{"post-trim nonlinearity", sequencer.ResPostNonlinearity, "% FS", 1e2},
+		{"pre-trim offset", sequencer.ResPreOffset, "mV", 1e3, false},
+		{"pre-trim gain error", sequencer.ResPreGainError, "%", 1e2, false},
+		{"post-trim offset", sequencer.ResPostOffset, "µV", 1e6, true},
+		{"post-trim gain error", sequencer.ResPostGainError, "ppm", 1e6, true},
+		{"post-trim nonlinearity", sequencer.ResPostNonlinearity, "% FS", 1e2, true},
 	}
+	fmt.Fprintln(w, "  pre-trim over every measured unit, post-trim over the units that passed:")
 	for _, r := range rows {
-		m, s, k := stat(r.name)
+		m, s, k := stat(r.name, r.passedOnly)
 		if k == 0 {
 			continue
 		}
