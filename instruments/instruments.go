@@ -139,8 +139,14 @@ type FixtureLoader interface {
 // driver settings from the station file.
 type Spec struct {
 	Role     string            // "source", "meter" or "dut"
-	Address  string            // e.g. "sim://meter"
+	Address  string            // e.g. "sim://meter", "tcp://192.0.2.7:5025", "serial:///dev/ttyUSB0?baud=9600"
 	Settings map[string]string // driver-specific settings, values still as written
+	// Templates overrides a driver's command templates by name (e.g. "set_level":
+	// "SOUR:VOLT {volts}"), so a new instrument model needs no Go code. For the DUT
+	// the sequence file supplies the protocol; see the generic drivers for names.
+	Templates map[string]string
+	// Timeout bounds each command/reply exchange; 0 means the driver's default.
+	Timeout time.Duration
 }
 
 // Driver opens instruments of one address scheme.

@@ -27,19 +27,33 @@ type Station struct {
 	MaxSourceVolts    float64                      // safety cap on |source level|, volts
 	MaxSourceAmps     float64                      // safety cap on source compliance, amperes
 	OutputFolder      string                       // resolved relative to the station file
-	File              FileRef
+	// StepDeadline bounds one engine step (a sweep point, a trim write); 0 = none.
+	StepDeadline time.Duration
+	// Interlock, when set, must answer "closed" before any output is switched on
+	// and between sweep points.
+	Interlock *Interlock
+	File      FileRef
+}
+
+// Interlock is a fixture input read through one of the station's instruments.
+type Interlock struct {
+	Role   string // instrument that answers the query
+	Query  string // e.g. "LID?"
+	Closed string // the exact reply that means closed, e.g. "CLOSED"
 }
 
 // StationInstrument is one role's binding on the station.
 type StationInstrument struct {
-	Role     string
-	Address  string
-	Asset    string
-	CalDue   time.Time // the last day the calibration is valid, UTC midnight
-	Accuracy Accuracy
-	Model    string // expected model from *IDN?, empty = not pinned
-	Serial   string // expected serial from *IDN?, empty = not pinned
-	Settings map[string]string
+	Role      string
+	Address   string
+	Asset     string
+	CalDue    time.Time // the last day the calibration is valid, UTC midnight
+	Accuracy  Accuracy
+	Model     string // expected model from *IDN?, empty = not pinned
+	Serial    string // expected serial from *IDN?, empty = not pinned
+	Settings  map[string]string
+	Templates map[string]string // command template overrides for this model
+	Timeout   time.Duration     // per command; 0 = the driver's default
 }
 
 // Accuracy is a ±(of reading + of range) specification, both as fractions, with the
@@ -83,9 +97,17 @@ type stationFile struct {
 			OfRange   units.Fraction `yaml:"of_range"`
 			Range     units.Voltage  `yaml:"range"`
 		} `yaml:"accuracy"`
-		Settings map[string]string `yaml:"settings"`
+		Settings  map[string]string `yaml:"settings"`
+		Templates map[string]string `yaml:"templates"`
+		Timeout   *units.Duration   `yaml:"timeout"`
 	} `yaml:"instruments"`
-	Safety struct {
+	Interlock *struct {
+		Role   string `yaml:"role"`
+		Query  string `yaml:"query"`
+		Closed string `yaml:"closed"`
+	} `yaml:"interlock"`
+	StepDeadline *units.Duration `yaml:"step_deadline"`
+	Safety       struct {
 		MaxSourceVoltage *units.Voltage `yaml:"max_source_voltage"`
 		MaxSourceCurrent *units.Current `yaml:"max_source_current"`
 	} `yaml:"safety"`
@@ -147,7 +169,13 @@ func ParseStation(name string, data []byte) (*Station, error) {
 		}
 		req(base+".address", in.Address)
 		req(base+".asset", in.Asset)
-		si := StationInstrument{Role: role, Address: in.Address, Asset: in.Asset, Model: in.Model, Serial: in.Serial, Settings: in.Settings}
+		si := StationInstrument{Role: role, Address: in.Address, Asset: in.Asset, Model: in.Model, Serial: in.Serial,
+			Settings: in.Settings, Templates: in.Templates}
+		if in.Timeout != nil {
+			if si.Timeout = in.Timeout.D(); si.Timeout <= 0 {
+				errs = append(errs, doc.Errorf(base+".timeout", "expected a positive timeout such as 2 s"))
+			}
+		}
 		if role != "dut" {
 			req(base+".cal_due", in.CalDue)
 			if in.CalDue != "" {
@@ -167,7 +195,7 @@ func ParseStation(name string, data []byte) (*Station, error) {
 			}
 		}
 		if in.Address != "" {
-			spec := instruments.Spec{Role: role, Address: in.Address, Settings: in.Settings}
+			spec := si.spec()
 			if err := instruments.Check([]instruments.Spec{spec}); err != nil {
 				var se *instruments.SettingError
 				if errorsAs(err, &se) {
@@ -189,6 +217,25 @@ func ParseStation(name string, data []byte) (*Station, error) {
 	} else if st.MaxSourceAmps = float64(*f.Safety.MaxSourceCurrent); st.MaxSourceAmps <= 0 {
 		errs = append(errs, doc.Errorf("$.safety.max_source_current", "expected a positive current"))
 	}
+	if f.StepDeadline != nil {
+		if st.StepDeadline = f.StepDeadline.D(); st.StepDeadline <= 0 {
+			errs = append(errs, doc.Errorf("$.step_deadline", "expected a positive duration such as 30 s"))
+		}
+	}
+	if il := f.Interlock; il != nil {
+		st.Interlock = &Interlock{Role: il.Role, Query: il.Query, Closed: il.Closed}
+		if !isRole(il.Role) {
+			errs = append(errs, doc.Errorf("$.interlock.role", "unknown role %q (expected one of %s)", il.Role, strings.Join(Roles, ", ")))
+		} else if _, ok := f.Instruments[il.Role]; !ok {
+			errs = append(errs, doc.Errorf("$.interlock.role", "the interlock is read through the %q role, which this station does not bind", il.Role))
+		}
+		if il.Query == "" {
+			errs = append(errs, doc.Errorf("$.interlock.query", "missing required key \"query\" (the command that reads the fixture lid)"))
+		}
+		if il.Closed == "" {
+			errs = append(errs, doc.Errorf("$.interlock.closed", "missing required key \"closed\" (the reply that means the lid is closed)"))
+		}
+	}
 	st.OutputFolder = f.Output.Folder
 	if st.OutputFolder != "" && !filepath.IsAbs(st.OutputFolder) {
 		st.OutputFolder = filepath.Join(filepath.Dir(name), st.OutputFolder)
@@ -208,9 +255,13 @@ func (s *Station) Specs(roles []string) []instruments.Spec {
 		if !ok {
 			continue
 		}
-		out = append(out, instruments.Spec{Role: r, Address: in.Address, Settings: in.Settings})
+		out = append(out, in.spec())
 	}
 	return out
+}
+
+func (si StationInstrument) spec() instruments.Spec {
+	return instruments.Spec{Role: si.Role, Address: si.Address, Settings: si.Settings, Templates: si.Templates, Timeout: si.Timeout}
 }
 
 func isRole(r string) bool {
