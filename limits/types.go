@@ -20,6 +20,11 @@ type Value struct {
 	V     float64
 	Valid bool
 	Why   string
+	// Uncertainty of V in SI units: standard u, expanded U at the limit set's
+	// coverage probability with coverage factor K, and effective dof (math.Inf(1)
+	// for infinite). All zero means "not evaluated": a toleranced limit then judges
+	// by simple acceptance and says so in its statement.
+	Std, U, K, DOF float64
 }
 
 // Outcome is one limit's verdict on one unit, as stored in the run record.
@@ -31,5 +36,38 @@ type Outcome struct {
 	Uses        []string           `json:"uses"`
 	Values      map[string]float64 `json:"values"` // each used result in the limit's unit
 	Pass        bool               `json:"pass"`
-	Reason      string             `json:"reason,omitempty"` // why it failed, in words
+	Reason      string             `json:"reason,omitempty"`   // why it failed, in words
+	Decision    *Decision          `json:"decision,omitempty"` // for toleranced limits
+}
+
+// Zones of a toleranced result (ILAC-G8:09/2019 §4.2.3).
+const (
+	ZonePass            = "pass"
+	ZoneConditionalPass = "conditional pass" // inside the tolerance, within w of it
+	ZoneConditionalFail = "conditional fail" // outside the tolerance, within w of it
+	ZoneFail            = "fail"
+)
+
+// Decision is the decision-rule evaluation of one toleranced limit. Every number is
+// in the limit's unit.
+type Decision struct {
+	Result      string   `json:"result"`
+	Lower       *float64 `json:"lower,omitempty"` // tolerance limits TL; nil = unbounded on that side
+	Upper       *float64 `json:"upper,omitempty"`
+	Rule        string   `json:"rule"`                   // "simple" (w = 0) or "guarded" (w = r·U)
+	GuardFactor float64  `json:"guard_factor"`           // r
+	Guard       float64  `json:"guard"`                  // w
+	AcceptLower *float64 `json:"accept_lower,omitempty"` // acceptance limits AL = TL ± w
+	AcceptUpper *float64 `json:"accept_upper,omitempty"`
+	Value       float64  `json:"value"`
+	Std         float64  `json:"u"`
+	U           float64  `json:"U"`
+	K           float64  `json:"k"`
+	DOF         float64  `json:"dof"`
+	Binary      bool     `json:"binary"`    // binary statement (pass/fail) or non-binary (four zones)
+	Zone        string   `json:"zone"`      // one of the Zone constants
+	POutside    float64  `json:"p_outside"` // probability that the true value lies outside the tolerance; for an accepted result the specific false-accept probability
+	TUR         float64  `json:"tur"`       // (upper − lower)/(2·U95); 0 when one-sided or U unknown
+	TURLow      bool     `json:"tur_low"`   // below the set's minimum TUR
+	Statement   string   `json:"statement"` // the decision rule and its outcome in words
 }

@@ -19,7 +19,29 @@ const (
 	Fail    Verdict = "FAIL"    // the unit was measured and at least one limit failed (or a trim saturated)
 	Fault   Verdict = "FAULT"   // the station could not measure: an instrument or I/O error
 	Aborted Verdict = "ABORTED" // the operator or a signal stopped the run
+	// Review: measured, nothing failed, but a result sits in a conditional zone
+	// (within the guard band of a limit) and the limit file's policy sends such
+	// units to a person instead of shipping them.
+	Review Verdict = "REVIEW"
 )
+
+// Conditions are the environmental conditions of a run.
+type Conditions struct {
+	AmbientC      float64 `json:"ambient_c,omitempty"`      // ambient temperature, °C
+	AmbientSource string  `json:"ambient_source,omitempty"` // "" (not recorded), "entered" or "sensor"
+}
+
+// Uncertainty is the uncertainty of one number (JCGM 100:2008): standard
+// uncertainty, effective degrees of freedom (Welch–Satterthwaite), coverage factor
+// for the record's coverage probability, and the expanded uncertainty U = k·u. The
+// zero value means "not evaluated". Std and Expanded are in the unit of the value.
+type Uncertainty struct {
+	Std      float64 `json:"u"`
+	DOF      float64 `json:"dof"` // math.Inf(1) when every contribution has infinite dof
+	K        float64 `json:"k"`
+	Expanded float64 `json:"U"`
+	Method   string  `json:"method,omitempty"` // "GUM" (law of propagation) or "MC" (JCGM 101 Monte Carlo)
+}
 
 // Record is everything one run of one serial number produced: the raw readings with
 // their times, the fits, the codes, every limit's value and verdict, the instruments'
@@ -49,10 +71,13 @@ type Record struct {
 	Fits   []FitSummary `json:"fits"`
 	Trims  []TrimCode   `json:"trims"`
 
+	Conditions Conditions `json:"conditions"`
+	Coverage   float64    `json:"coverage"` // coverage probability of every expanded uncertainty, e.g. 0.9545
+
 	Results  []Result         `json:"results"`
 	Outcomes []limits.Outcome `json:"limits"`
 
-	Verdict Verdict  `json:"verdict"`
+	Verdict Verdict  `json:"verdict"`           // PASS, FAIL, REVIEW, FAULT or ABORTED
 	Reasons []string `json:"reasons,omitempty"` // why the verdict is not PASS, in order
 	Fault   string   `json:"fault,omitempty"`   // the station fault message, for FAULT and ABORTED
 }
@@ -106,10 +131,11 @@ type FitSummary struct {
 
 // TrimCode is one trim DAC's computed, written and read-back code.
 type TrimCode struct {
-	DAC       string  `json:"dac"`    // "offset" or "gain"
-	Before    int     `json:"before"` // code in the DAC before trimming (no correction)
-	Code      int     `json:"code"`   // code written
-	Ideal     float64 `json:"ideal"`  // exact (unrounded) code the fit asked for
+	DAC       string  `json:"dac"`     // "offset" or "gain"
+	Before    int     `json:"before"`  // code in the DAC before trimming (no correction)
+	Code      int     `json:"code"`    // code written
+	Ideal     float64 `json:"ideal"`   // exact (unrounded) code the fit asked for
+	IdealU    float64 `json:"ideal_u"` // standard uncertainty of Ideal, in codes
 	Readback  int     `json:"readback"`
 	Saturated bool    `json:"saturated"`
 	Stored    bool    `json:"stored"` // committed to non-volatile memory
@@ -118,9 +144,10 @@ type TrimCode struct {
 // Result is one named number a limit may judge. Value is in SI base units (volts,
 // plain fractions for ppm and %, counts for codes); Unit names the dimension.
 type Result struct {
-	Name  string  `json:"name"`
-	Value float64 `json:"value"`
-	Unit  string  `json:"unit"` // "V", "ratio" or "code"
-	Valid bool    `json:"valid"`
-	Note  string  `json:"note,omitempty"` // why the value is not valid
+	Name  string      `json:"name"`
+	Value float64     `json:"value"`
+	Unit  string      `json:"unit"` // "V", "ratio" or "code"
+	Valid bool        `json:"valid"`
+	Note  string      `json:"note,omitempty"` // why the value is not valid
+	Unc   Uncertainty `json:"uncertainty"`    // zero for codes (exact integers)
 }
