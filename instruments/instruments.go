@@ -88,6 +88,14 @@ func (r Reading) Valid() bool {
 	return r.Flag == FlagNone && !math.IsNaN(r.Value) && !math.IsInf(r.Value, 0)
 }
 
+// Querier is an optional capability: send one line and return the reply line. The
+// engine reads a fixture interlock through it. TrimPort has it by contract; SCPI
+// source and meter drivers have it too. Fallback when absent: an interlock cannot be
+// read through that instrument and the station refuses to run.
+type Querier interface {
+	Query(ctx context.Context, line string) (string, error)
+}
+
 // Identity is the parsed reply of an identification query (IEEE 488.2 *IDN?):
 // maker, model, serial and firmware, "0" where the instrument does not say.
 type Identity struct {

@@ -143,6 +143,11 @@ func Open(ctx context.Context, cfg Config) (*Engine, error) {
 		}
 		e.refs = append(e.refs, ref)
 	}
+	if il := st.Interlock; il != nil {
+		if _, ok := all[il.Role].(instruments.Querier); !ok {
+			return fail(fmt.Errorf("interlock: the %s at %s cannot be queried", il.Role, st.Instruments[il.Role].Address))
+		}
+	}
 	if err := e.safeState(ctx); err != nil {
 		return fail(fmt.Errorf("put source in a safe state: %w", err))
 	}
@@ -246,7 +251,9 @@ func (e *Engine) Run(ctx context.Context, serial string) (rec *Record) {
 			log.Error().Str("stack", string(debug.Stack())).Msgf("panic: %v", p)
 			rec.Verdict, rec.Fault = Fault, fmt.Sprintf("internal error: %v", p)
 		}
-		if err := e.safeOff(); err != nil {
+		if err := e.safeOff(); err == nil {
+			log.Debug().Msg("source output off, level 0")
+		} else {
 			log.Error().Err(err).Msg("could not switch the source output off")
 			if rec.Verdict == Pass || rec.Verdict == Fail {
 				rec.Verdict = Fault
@@ -432,28 +439,74 @@ func (e *Engine) judge(rec *Record, res *results) {
 func (e *Engine) sweep(ctx context.Context, name string, p SweepPlan) (Sweep, error) {
 	sw := Sweep{Name: name}
 	for i, x := range p.Levels() {
-		if err := e.setLevel(ctx, x); err != nil {
-			return sw, err
-		}
-		if i == 0 {
-			if err := e.source.SetOutput(ctx, true); err != nil {
-				return sw, fmt.Errorf("%s sweep: source output on: %w", name, err)
+		err := e.step(ctx, func(ctx context.Context) error {
+			if err := e.checkInterlock(ctx); err != nil {
+				return err
 			}
-		}
-		if err := e.clock.Sleep(ctx, p.Settle); err != nil {
+			if err := e.setLevel(ctx, x); err != nil {
+				return err
+			}
+			if i == 0 {
+				if err := e.source.SetOutput(ctx, true); err != nil {
+					return fmt.Errorf("%s sweep: source output on: %w", name, err)
+				}
+			}
+			if err := e.clock.Sleep(ctx, p.Settle); err != nil {
+				return err
+			}
+			rs, err := e.meter.Read(ctx, p.Readings)
+			if err != nil {
+				return fmt.Errorf("%s sweep at %s: read meter: %w", name, fmtV(x), err)
+			}
+			sw.Points = append(sw.Points, point(x, rs))
+			return nil
+		})
+		if err != nil {
 			return sw, err
 		}
-		rs, err := e.meter.Read(ctx, p.Readings)
-		if err != nil {
-			return sw, fmt.Errorf("%s sweep at %s: read meter: %w", name, fmtV(x), err)
-		}
-		sw.Points = append(sw.Points, point(x, rs))
 		e.log.Debug().Str("sweep", name).Float64("x", x).Float64("y", sw.Points[i].Mean).Msg("point")
 	}
 	if err := e.source.SetOutput(ctx, false); err != nil {
 		return sw, fmt.Errorf("%s sweep: source output off: %w", name, err)
 	}
 	return sw, nil
+}
+
+// step runs one engine step under the station's step deadline, if any. A step that
+// overruns it is a station fault naming the deadline.
+func (e *Engine) step(ctx context.Context, f func(ctx context.Context) error) error {
+	d := e.cfg.Station.StepDeadline
+	if d <= 0 {
+		return f(ctx)
+	}
+	sctx, cancel := context.WithTimeoutCause(ctx, d, errStepDeadline)
+	defer cancel()
+	err := f(sctx)
+	if err != nil && ctx.Err() == nil && context.Cause(sctx) == errStepDeadline {
+		return &stop{Fault, fmt.Sprintf("step deadline of %s exceeded (station file step_deadline): %v", d, err)}
+	}
+	return err
+}
+
+var errStepDeadline = errors.New("step deadline exceeded")
+
+// checkInterlock reads the fixture interlock, when the station has one, and stops
+// the run unless it answers closed. It runs before the output is switched on and
+// before every sweep point.
+func (e *Engine) checkInterlock(ctx context.Context) error {
+	il := e.cfg.Station.Interlock
+	if il == nil {
+		return nil
+	}
+	q := e.all[il.Role].(instruments.Querier)
+	got, err := q.Query(ctx, il.Query)
+	if err != nil {
+		return fmt.Errorf("interlock: %s %q: %w", il.Role, il.Query, err)
+	}
+	if strings.TrimSpace(got) != il.Closed {
+		return &stop{Fault, fmt.Sprintf("interlock open: %s answered %q to %q, expected %q; close the fixture lid", il.Role, strings.TrimSpace(got), il.Query, il.Closed)}
+	}
+	return nil
 }
 
 // setLevel programs the source after checking the station cap once more.
@@ -529,6 +582,10 @@ func (e *Engine) fitSweep(sw Sweep) (FitSummary, error) {
 }
 
 func (e *Engine) writeCode(ctx context.Context, name string, d DAC, code int) error {
+	return e.step(ctx, func(ctx context.Context) error { return e.writeCodeStep(ctx, name, d, code) })
+}
+
+func (e *Engine) writeCodeStep(ctx context.Context, name string, d DAC, code int) error {
 	line := strings.ReplaceAll(d.Write, "{code}", strconv.Itoa(code))
 	if err := e.dut.Command(ctx, line); err != nil {
 		return fmt.Errorf("dut: write %s trim code %d: %w", name, code, err)

@@ -9,6 +9,7 @@ import (
 	"strings"
 	"sync"
 	"testing"
+	"time"
 
 	"trimline/instruments"
 	"trimline/instruments/sim"
@@ -23,6 +24,7 @@ type plan struct {
 	cancelAtRead int        // call cancel during the Nth read
 	cancel       func()     // used with cancelAtRead
 	readbackSkew int        // added to every trim code read back after a write
+	lidOpenAt    int        // the fixture lid reads OPEN from the Nth meter read on; 0 = always closed
 	bench        *sim.Bench // the bench opened last
 }
 
@@ -104,10 +106,17 @@ func (d *faultyDUT) Command(ctx context.Context, line string) error {
 }
 
 func (d *faultyDUT) Query(ctx context.Context, line string) (string, error) {
-	r, err := d.DUT.Query(ctx, line)
 	inject.mu.Lock()
 	skew := inject.readbackSkew
+	lidOpen := inject.lidOpenAt > 0 && inject.reads >= inject.lidOpenAt
 	inject.mu.Unlock()
+	if line == "LID?" {
+		if lidOpen {
+			return "OPEN", nil
+		}
+		return "CLOSED", nil
+	}
+	r, err := d.DUT.Query(ctx, line)
 	if err == nil && skew != 0 && d.wrote && strings.HasPrefix(line, "TRIM ") {
 		var c int
 		fmt.Sscan(r, &c)
@@ -121,6 +130,12 @@ func init() { instruments.Register("faulty", faultyDriver{}) }
 // setup loads the demo files with settings overrides per role and opens an engine.
 func setup(t testing.TB, scheme string, set map[string]map[string]string, limitFile string) *sequencer.Engine {
 	t.Helper()
+	return setupWith(t, scheme, set, limitFile, nil)
+}
+
+// setupWith is setup with a hook that edits the loaded station.
+func setupWith(t testing.TB, scheme string, set map[string]map[string]string, limitFile string, edit func(*sequencer.Station)) *sequencer.Engine {
+	t.Helper()
 	st, err := sequencer.ParseStation("brx200-station.yaml", []byte(demoFile(t, "brx200-station.yaml")))
 	if err != nil {
 		t.Fatal(err)
@@ -132,6 +147,9 @@ func setup(t testing.TB, scheme string, set map[string]map[string]string, limitF
 			in.Settings[k] = v
 		}
 		st.Instruments[role] = in
+	}
+	if edit != nil {
+		edit(st)
 	}
 	over := map[string]string{}
 	if limitFile != "" {
@@ -345,5 +363,45 @@ func TestSourceOffOnEveryExitPath(t *testing.T) {
 				t.Errorf("next unit: %s %s", rec.Verdict, rec.Fault)
 			}
 		})
+	}
+}
+
+// The interlock is read before the output goes on and between points; an open lid
+// stops the run as a station fault with the output off.
+func TestInterlockOpenStopsTheRun(t *testing.T) {
+	lid := func(st *sequencer.Station) {
+		st.Interlock = &sequencer.Interlock{Role: "dut", Query: "LID?", Closed: "CLOSED"}
+	}
+	inject.set(plan{})
+	e := setupWith(t, "faulty", ideal(nil), "", lid)
+	if rec := e.Run(context.Background(), "BRX-00011"); rec.Verdict != sequencer.Pass {
+		t.Fatalf("closed lid: %s %s %v", rec.Verdict, rec.Fault, rec.Reasons)
+	}
+	inject.mu.Lock()
+	bench := inject.bench
+	inject.mu.Unlock()
+	inject.set(plan{bench: bench, lidOpenAt: 4})
+	rec := e.Run(context.Background(), "BRX-00012")
+	if rec.Verdict != sequencer.Fault || !strings.Contains(rec.Fault, "interlock open") {
+		t.Fatalf("open lid: %s %q", rec.Verdict, rec.Fault)
+	}
+	if got := len(rec.Sweeps[0].Points); got != 4 {
+		t.Errorf("run went on for %d points after the lid opened at the 4th read", got)
+	}
+	if on, _ := bench.Source().State(); on {
+		t.Error("source left on with the lid open")
+	}
+}
+
+func TestStepDeadline(t *testing.T) {
+	// A step that takes longer than the station's step deadline is a fault. The
+	// simulated clock makes the 20 ms settle "take" 20 ms; a 5 ms deadline on the real
+	// clock cannot be overrun by simulated time, so use latency on the real clock.
+	e := setupWith(t, "sim", map[string]map[string]string{"meter": {"time": "real", "latency": "50ms"}}, "", func(st *sequencer.Station) {
+		st.StepDeadline = 20 * time.Millisecond
+	})
+	rec := e.Run(context.Background(), "BRX-00013")
+	if rec.Verdict != sequencer.Fault || !strings.Contains(rec.Fault, "step deadline") {
+		t.Fatalf("%s %q", rec.Verdict, rec.Fault)
 	}
 }
