@@ -7,6 +7,7 @@ import (
 	"fmt"
 	"math"
 	"os"
+	"strconv"
 
 	"trimline/sequencer/fit"
 )
@@ -16,18 +17,29 @@ func init() { register(newFitCmd) }
 func newFitCmd() *command {
 	c := &command{
 		Name:  "fit",
-		Usage: "[--order 1|2] [--x0 X] [--json] FILE.csv",
+		Usage: "[--order 1|2] [--x0 X] [--at X] [--u-y U] [--json] FILE.csv",
 		Short: "fit a line or quadratic to x,y data (bench characterisation)",
 		Long: `Reads two columns x,y (a third column, if present, is each point's standard
 uncertainty and makes the fit weighted); a header line is optional; separators are
 commas, semicolons, tabs or spaces. Fits y = b0 + b1·(x−x0) [+ b2·(x−x0)²] by a QR
 least-squares solver and prints the coefficients with their standard uncertainties,
-their correlation, the residual standard deviation, the degrees of freedom and R².`,
+their correlation, the residual standard deviation, the degrees of freedom and R².
+
+Without per-point uncertainties the coefficient uncertainties come from the residual
+scatter (s²·(XᵀX)⁻¹). With them (a third column, or --u-y for every point) the fit is
+weighted by 1/u² and the uncertainties are taken as known ((XᵀWX)⁻¹); the printed
+χ²/dof tells whether the scatter agrees with them. --at X adds the predicted y at X
+with its standard uncertainty, propagated through the coefficient covariance
+(JCGM 100:2008 §5.2, with the correlation term).`,
 		Flags: newFlags("fit"),
 	}
 	order := c.Flags.Int("order", 1, "polynomial `order`: 1 (line) or 2 (quadratic)")
 	x0 := c.Flags.Float64("x0", 0, "centre `X` of the model")
 	asJSON := c.Flags.Bool("json", false, "print a JSON object")
+	var at optFloat
+	c.Flags.Var(&at, "at", "predict y and its standard uncertainty at `X`")
+	var uy optFloat
+	c.Flags.Var(&uy, "u-y", "standard uncertainty `U` of every y (overrides a third column)")
 	c.Run = func(ctx context.Context, c *command, args []string) error {
 		if len(args) != 1 {
 			return usageErr("name exactly one CSV file")
@@ -44,9 +56,18 @@ their correlation, the residual standard deviation, the degrees of freedom and R
 		if err != nil {
 			return badInput(err)
 		}
+		if uy.set {
+			if !(uy.v > 0) {
+				return usageErr("--u-y must be a positive standard uncertainty")
+			}
+			u = make([]float64, len(y))
+			for i := range u {
+				u[i] = uy.v
+			}
+		}
 		var r fit.Result
 		if u != nil {
-			r, err = fit.Weighted(x, y, u, *order, *x0, false)
+			r, err = fit.Weighted(x, y, u, *order, *x0, true)
 		} else {
 			r, err = fit.Poly(x, y, *order, *x0)
 		}
@@ -56,14 +77,22 @@ their correlation, the residual standard deviation, the degrees of freedom and R
 			}
 			return err
 		}
+		var py, pu float64
+		if at.set {
+			py, pu = r.PredictU(at.v)
+		}
 		if *asJSON {
 			e := json.NewEncoder(stdoutW)
 			e.SetIndent("", "  ")
-			return e.Encode(map[string]any{
-				"order": r.Order, "x0": r.X0, "n": r.N,
+			out := map[string]any{
+				"order": r.Order, "x0": r.X0, "n": r.N, "weighted": u != nil,
 				"coefficients": r.Coef, "std_uncertainties": r.StdUnc, "covariance": r.Cov,
 				"residual_sd": jsonNum(r.ResidualSD), "dof": r.DOF, "r_squared": jsonNum(r.RSquared),
-			})
+			}
+			if at.set {
+				out["prediction"] = map[string]float64{"x": at.v, "y": py, "u": pu}
+			}
+			return e.Encode(out)
 		}
 		w := stdoutW
 		fmt.Fprintf(w, "model: y = b0 + b1·(x − %g)", r.X0)
@@ -86,7 +115,14 @@ their correlation, the residual standard deviation, the degrees of freedom and R
 			}
 			fmt.Fprintln(w)
 		}
-		fmt.Fprintf(w, "\nresidual SD = %.6g   dof = %d   R² = %.12f\n", r.ResidualSD, r.DOF, r.RSquared)
+		if u != nil {
+			fmt.Fprintf(w, "\nχ²/dof = %.4g   dof = %d   R² = %.12f   (uncertainties taken as known)\n", r.ResidualSD*r.ResidualSD, r.DOF, r.RSquared)
+		} else {
+			fmt.Fprintf(w, "\nresidual SD = %.6g   dof = %d   R² = %.12f\n", r.ResidualSD, r.DOF, r.RSquared)
+		}
+		if at.set {
+			fmt.Fprintf(w, "\nat x = %g:  y = %.10g   u(y) = %.6g\n", at.v, py, pu)
+		}
 		return nil
 	}
 	return c
@@ -98,4 +134,26 @@ func jsonNum(v float64) any {
 		return nil
 	}
 	return v
+}
+
+// optFloat is a float flag that remembers whether it was given.
+type optFloat struct {
+	v   float64
+	set bool
+}
+
+func (o *optFloat) String() string {
+	if !o.set {
+		return ""
+	}
+	return strconv.FormatFloat(o.v, 'g', -1, 64)
+}
+
+func (o *optFloat) Set(s string) error {
+	v, err := strconv.ParseFloat(s, 64)
+	if err != nil || math.IsNaN(v) || math.IsInf(v, 0) {
+		return fmt.Errorf("expected a finite number, found %q", s)
+	}
+	o.v, o.set = v, true
+	return nil
 }

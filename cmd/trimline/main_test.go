@@ -180,3 +180,35 @@ func TestFitNorrisJSON(t *testing.T) {
 		t.Errorf("bad csv: exit %d: %s", code, errOut)
 	}
 }
+
+// trimline fit --at on GUM H.3 predicts b(30 °C) = −0.1494 °C with u = 0.0041 °C
+// (JCGM 100:2008 Annex H.3; recomputed −0.149377, 0.0041386).
+func TestFitPredictionGUMH3(t *testing.T) {
+	code, out, errOut := runCLI(t, "fit", "--json", "--x0", "20", "--at", "30", filepath.Join("..", "..", "testdata", "gum-h3-thermometer.csv"))
+	if code != 0 {
+		t.Fatalf("exit %d: %s", code, errOut)
+	}
+	var r struct {
+		Prediction struct{ X, Y, U float64 } `json:"prediction"`
+	}
+	if err := json.Unmarshal([]byte(out), &r); err != nil {
+		t.Fatal(err)
+	}
+	if r.Prediction.X != 30 || math.Abs(r.Prediction.Y-(-0.149377)) > 1e-6 || math.Abs(r.Prediction.U-0.0041386) > 1e-7 {
+		t.Errorf("prediction %+v", r.Prediction)
+	}
+	// Known per-point uncertainties: a weighted fit with (XᵀWX)⁻¹; with u equal to the
+	// unweighted fit's residual SD (0.00349756, GUM H.3 recomputed) the coefficient
+	// uncertainties equal the unweighted ones (hand-worked: s²(XᵀX)⁻¹ = (XᵀWX)⁻¹ then).
+	code, out, errOut = runCLI(t, "fit", "--json", "--x0", "20", "--u-y", "0.00349756", filepath.Join("..", "..", "testdata", "gum-h3-thermometer.csv"))
+	if code != 0 {
+		t.Fatalf("exit %d: %s", code, errOut)
+	}
+	var w struct {
+		StdUnc []float64 `json:"std_uncertainties"`
+	}
+	json.Unmarshal([]byte(out), &w)
+	if len(w.StdUnc) != 2 || math.Abs(w.StdUnc[0]-0.00287760) > 1e-7 || math.Abs(w.StdUnc[1]-0.000667939) > 1e-8 {
+		t.Errorf("weighted std uncertainties %v", w.StdUnc)
+	}
+}
