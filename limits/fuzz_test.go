@@ -1,6 +1,7 @@
 package limits_test
 
 import (
+	"encoding/json"
 	"math"
 	"os"
 	"testing"
@@ -22,6 +23,13 @@ func FuzzLoad(f *testing.F) {
 	f.Add([]byte(header + "limits:\n" + entry("name: offset", "description: d", "unit: uX",
 		"uses: post_offset", `expr: "within(post_offset, 60, -60)"`)))
 	f.Add([]byte("limit_set: {name: a}\nlimits: [{name: x, expr: '!(x > 1)'}]\n"))
+	tol, err := os.ReadFile(tolPath)
+	if err != nil {
+		f.Fatal(err)
+	}
+	f.Add(tol)
+	f.Add([]byte(decisionFile("rule: guarded", "statements: non-binary", "min_tur: 4:1", "coverage: 95 %")))
+	f.Add([]byte(header + "limits:\n" + tolEntry("tolerance: {lower: 50, upper: -50}", "rule: simple", "guard_factor: 2")))
 	f.Fuzz(func(t *testing.T, data []byte) {
 		set, err := limits.Load("fuzz.yaml", data, catalog)
 		if (set == nil) == (err == nil) {
@@ -36,9 +44,16 @@ func FuzzLoad(f *testing.F) {
 			}
 			return
 		}
-		// A loaded set judges anything without panicking.
-		set.Judge(goodResults())
-		set.Judge(nil)
+		// A loaded set judges anything without panicking, and its outcomes encode.
+		for _, r := range []map[string]limits.Value{goodResults(), tolResults(45, 61, 99), nil} {
+			outs := set.Judge(r)
+			set.Overall(outs)
+			if _, err := json.Marshal(outs); err != nil {
+				t.Fatalf("outcomes do not encode: %v", err)
+			}
+		}
+		set.PredictTUR(tolResults(0, 0, 0))
+		set.Toleranced()
 	})
 }
 
@@ -75,5 +90,41 @@ func FuzzJudgeScaling(f *testing.F) {
 				t.Fatalf("%s: %g in unit = %g, want %g", o.Name, v, got, want)
 			}
 		}
+	})
+}
+
+// FuzzJudgeDecision: any value and uncertainty judge without panicking; a pass has
+// a finite value in zone pass; the probability is in [0, 1]; the outcome encodes.
+func FuzzJudgeDecision(f *testing.F) {
+	set, err := limits.LoadFile(tolPath, catalog)
+	if err != nil {
+		f.Fatal(detail(err))
+	}
+	f.Add(45e-6, 8e-6, 2.0, 0.0, 0.0)
+	f.Add(60e-6, 0.0, 0.0, 4e-6, 10.0)
+	f.Add(1e-300, 1e-300, 1e-300, 1e-300, 1e-300)
+	f.Add(0.0, 1e300, 0.5, 0.0, 0.3)
+	f.Add(0.0, math.MaxFloat64, 2.0, 0.0, 0.0)
+	f.Add(0.0, 1e300, 0.0, 1e-300, 0.0)
+	f.Fuzz(func(t *testing.T, v, U, k, std, dof float64) {
+		val := limits.Value{V: v, Valid: true, U: U, K: k, Std: std, DOF: dof}
+		r := map[string]limits.Value{"post_offset": val, "post_noise": val, "gain_code": val, "offset_code": val}
+		outs := set.Judge(r)
+		for _, o := range outs {
+			if _, err := json.Marshal(o); err != nil {
+				t.Fatalf("%s: %v (%+v)", o.Name, err, o.Decision)
+			}
+			d := o.Decision
+			if d == nil {
+				continue
+			}
+			if o.Pass && d.Zone != limits.ZonePass && d.Zone != limits.ZoneConditionalPass {
+				t.Fatalf("%s: pass in zone %s", o.Name, d.Zone)
+			}
+			if !(d.POutside >= 0 && d.POutside <= 1) || d.TUR < 0 {
+				t.Fatalf("%s: POutside %v TUR %v", o.Name, d.POutside, d.TUR)
+			}
+		}
+		set.Overall(outs)
 	})
 }

@@ -16,11 +16,22 @@ import (
 // Outcome per limit, in file order. results maps result names to values in SI base
 // units (volts; ratios as plain fractions; counts).
 //
-// A limit passes only when its expression gives true. Before the expression runs,
-// every result the limit uses must be present, Valid, and a finite number (also
-// once scaled to the limit's unit); otherwise the limit fails with the reason
-// "result NAME is not a valid number: WHY" and the expression is not run, so no
-// form of expression can pass a NaN. Outcome.Values holds each usable result in the
+// An expression limit passes only when its expression gives true. Before the
+// expression runs, every result the limit uses must be present, Valid, and a finite
+// number (also once scaled to the limit's unit); otherwise the limit fails with the
+// reason "result NAME is not a valid number: WHY" and the expression is not run, so
+// no form of expression can pass a NaN. Such a failure has no Decision.
+//
+// A toleranced limit's result passes the same guard, and then its uncertainty
+// (Value.U, K, Std, DOF, converted to the limit's unit) must be finite numbers ≥ 0,
+// else the limit fails without a Decision. Its Decision gives the guard band
+// w = r·U (0 for the simple rule), the acceptance limits AL = TL ∓ w, the zone of
+// ILAC-G8:09/2019 §4.2.3, the probability that the true value is outside the
+// tolerance, the TUR and a statement in words. Pass is true for zone pass, and with
+// non-binary statements also for conditional pass under conditional_pass: ship; a
+// TUR below min_tur under tur_policy: refuse turns a pass into review (Pass false).
+// A result without an uncertainty (U and Std zero) is judged by simple acceptance
+// against the tolerance and its statement says so. See Set.Overall. Outcome.Values holds each usable result in the
 // limit's unit (never a NaN or an infinity, so the Outcome always encodes as JSON);
 // a failing expression's Reason quotes it with those values, and a run-time error
 // (say from a registered function) fails the limit with the error as the reason.
@@ -30,9 +41,10 @@ func (s *Set) Judge(results map[string]Value) []Outcome {
 	if s == nil {
 		return nil
 	}
+	pol := s.Policy()
 	outs := make([]Outcome, len(s.Limits))
 	for i, l := range s.Limits {
-		outs[i] = l.judge(results)
+		outs[i] = l.judge(results, pol)
 	}
 	return outs
 }
@@ -50,7 +62,7 @@ func Passed(outs []Outcome) bool {
 
 var vms = sync.Pool{New: func() any { return new(vm.VM) }}
 
-func (l *Limit) judge(results map[string]Value) Outcome {
+func (l *Limit) judge(results map[string]Value, pol Policy) Outcome {
 	o := Outcome{Name: l.Name, Description: l.Description, Expr: l.Expr, Unit: l.Unit,
 		Uses: append([]string(nil), l.Uses...), Values: make(map[string]float64, len(l.Uses))}
 	env := make(map[string]any, len(l.Uses))
@@ -85,6 +97,10 @@ func (l *Limit) judge(results map[string]Value) Outcome {
 	}
 	if len(bad) > 0 {
 		o.Reason = strings.Join(bad, "; ")
+		return o
+	}
+	if l.Tolerance != nil && len(l.Uses) == 1 {
+		l.decide(&o, o.Values[l.Uses[0]], results[l.Uses[0]], pol)
 		return o
 	}
 	if l.prog == nil { // a Limit not made by Load

@@ -24,8 +24,9 @@ import (
 
 // The file as decoded. Pointers tell a missing key from an empty value.
 type fileForm struct {
-	LimitSet *headerForm  `yaml:"limit_set"`
-	Limits   []*limitForm `yaml:"limits"`
+	LimitSet *headerForm   `yaml:"limit_set"`
+	Decision *decisionForm `yaml:"decision"`
+	Limits   []*limitForm  `yaml:"limits"`
 }
 
 type headerForm struct {
@@ -35,11 +36,15 @@ type headerForm struct {
 }
 
 type limitForm struct {
-	Name        *string   `yaml:"name"`
-	Description *string   `yaml:"description"`
-	Unit        *string   `yaml:"unit"`
-	Uses        *[]string `yaml:"uses"`
-	Expr        *string   `yaml:"expr"`
+	Name        *string        `yaml:"name"`
+	Description *string        `yaml:"description"`
+	Unit        *string        `yaml:"unit"`
+	Uses        *[]string      `yaml:"uses"`
+	Expr        *string        `yaml:"expr"`
+	Tolerance   *toleranceForm `yaml:"tolerance"`
+	Rule        *string        `yaml:"rule"`
+	GuardFactor *float64       `yaml:"guard_factor"`
+	Statements  *string        `yaml:"statements"`
 }
 
 // LoadFile reads the limit file at path and loads it with Load, naming it path in
@@ -58,12 +63,25 @@ func LoadFile(path string, cat Catalog) (*Set, error) {
 // The file is decoded strictly (unknown keys, duplicate keys and wrong types are
 // errors), every required key must be present, every name in uses must be in cat,
 // each limit's unit must fit the dimension of every result it uses, limit names
-// must be unique, and every expression must compile to a true/false value using
-// only the names in its uses (as float64, in the limit's unit), expr-lang's
-// built-in functions (abs, min, max, ...; not the clock ones: now, date, duration,
-// timezone) and the functions added with RegisterFunc (within and outside come
-// built in). Every name in uses must also appear in the expression, and a
-// constant within/outside range must have lo ≤ hi.
+// must be unique, and every limit has exactly one of expr and tolerance.
+//
+// Every expression must compile to a true/false value using only the names in its
+// uses (as float64, in the limit's unit), expr-lang's built-in functions (abs, min,
+// max, ...; not the clock ones: now, date, duration, timezone) and the functions
+// added with RegisterFunc (within and outside come built in). Every name in uses
+// must also appear in the expression, and a constant within/outside range must
+// have lo ≤ hi. An expression limit cannot set rule, guard_factor or statements.
+//
+// A toleranced limit uses exactly one result; its tolerance has lower, upper or
+// both, plain finite numbers in the limit's unit with lower < upper. It may set
+// its own rule (simple, guarded), guard_factor (> 0, only with rule guarded) and
+// statements (binary, non-binary); otherwise the file's optional decision section
+// gives them. That section's keys are all optional: coverage (a percentage above
+// 0 and below 100 %, default 95.45 %), rule (default simple), guard_factor
+// (default 1), statements (default binary), conditional_pass (ship, review or
+// fail; default review), conditional_fail (fail or review; default fail), min_tur
+// (a number above 0, N for N:1, "4:1" is also read; default 4) and tur_policy
+// (warn or refuse; default warn). See Set.Policy.
 //
 // On any problem Load returns a nil Set and a files.List holding every problem it
 // found, sorted by line (a file without a top-level limit_set key gets the single
@@ -97,11 +115,17 @@ func Load(name string, data []byte, cat Catalog) (*Set, error) {
 		}
 		return nil, files.List{doc.At(1, 1, "%s", msg)}
 	}
-	hdr, entries := l.decode()
+	hdr, dec, entries := l.decode()
 	set := &Set{File: name, SHA256: hex.EncodeToString(sum[:])}
 	if hdr.ok {
 		l.header(hdr.form, set)
 	}
+	l.policy = defaultPolicy()
+	l.policyOK = dec.ok
+	if dec.ok {
+		l.decision(dec.form)
+	}
+	set.policy = l.policy
 	set.Limits = l.limits(entries)
 
 	if len(l.errs) > 0 {
@@ -118,6 +142,8 @@ type loader struct {
 	cat      Catalog
 	funcOpts []expr.Option
 	errs     files.List
+	policy   Policy // the decision section, defaults filled in
+	policyOK bool   // the decision section decoded (or is absent), so per-limit checks against it are sound
 }
 
 // topKeys returns the file's top-level keys, quoted, in file order.
@@ -139,6 +165,11 @@ type decodedHeader struct {
 	ok   bool // decoded without error, so it can be checked
 }
 
+type decodedDecision struct {
+	form *decisionForm
+	ok   bool // decoded without error (or absent), so it can be checked
+}
+
 // decodedEntries is the limits list: whether it decoded (ok), and per entry the
 // decoded form, or nil when that entry had a decoding error.
 type decodedEntries struct {
@@ -152,7 +183,7 @@ type decodedEntries struct {
 // when there is one, each top-level section and each limit entry is decoded again
 // on its own (the rest of the file blanked out, line numbers kept) to find the
 // problems in the others and to check the entries that are sound.
-func (l *loader) decode() (decodedHeader, decodedEntries) {
+func (l *loader) decode() (decodedHeader, decodedDecision, decodedEntries) {
 	var whole fileForm
 	err := yamlSafely(l.doc.Name, func() error { return l.doc.Decode(&whole) })
 	if err == nil {
@@ -160,14 +191,15 @@ func (l *loader) decode() (decodedHeader, decodedEntries) {
 		for i := range good {
 			good[i] = true
 		}
-		return decodedHeader{whole.LimitSet, true},
+		return decodedHeader{whole.LimitSet, true}, decodedDecision{whole.Decision, true},
 			decodedEntries{ok: true, present: l.doc.Has("$.limits"), forms: whole.Limits, good: good}
 	}
 	l.addDecodeErr(err)
 	var hdr decodedHeader
+	var dec decodedDecision
 	var ents decodedEntries
 	if !l.maskable() {
-		return hdr, ents
+		return hdr, dec, ents
 	}
 	keys := l.root.Values
 	for i, mv := range keys {
@@ -203,6 +235,8 @@ func (l *loader) decode() (decodedHeader, decodedEntries) {
 		switch key {
 		case "limit_set":
 			hdr = decodedHeader{f.LimitSet, true}
+		case "decision":
+			dec = decodedDecision{f.Decision, true}
 		case "limits":
 			good := make([]bool, len(f.Limits))
 			for j := range good {
@@ -214,7 +248,10 @@ func (l *loader) decode() (decodedHeader, decodedEntries) {
 	if !l.doc.Has("$.limits") {
 		ents = decodedEntries{ok: true}
 	}
-	return hdr, ents
+	if !l.doc.Has("$.decision") {
+		dec = decodedDecision{ok: true}
+	}
+	return hdr, dec, ents
 }
 
 // blockEntries reports whether seq is a non-empty block sequence whose entries'
@@ -425,7 +462,7 @@ func (l *loader) limit(i int, f *limitForm) *Limit {
 	path := fmt.Sprintf("$.limits[%d]", i)
 	at := l.entryPlace(i)
 	if f == nil {
-		l.errs = append(l.errs, l.doc.At(at.line, at.col, "empty limit entry: expected name, description, unit, uses and expr"))
+		l.errs = append(l.errs, l.doc.At(at.line, at.col, "empty limit entry: expected name, description, unit, uses and expr or tolerance"))
 		return nil
 	}
 	missing := func(key string) func() *files.Error {
@@ -466,10 +503,26 @@ func (l *loader) limit(i int, f *limitForm) *Limit {
 		usesOK = l.uses(path+".uses", *f.Uses)
 		lim.Uses = append([]string(nil), *f.Uses...)
 	}
-	if f.Expr == nil {
-		l.requiredAt(path, "expr", nil, false, missing("expr"))
+	hasExpr := f.Expr != nil || l.doc.Has(path+".expr")
+	hasTol := f.Tolerance != nil || l.doc.Has(path+".tolerance")
+	switch {
+	case hasExpr && hasTol:
+		l.errs = append(l.errs, l.doc.KeyErrorf(path+".tolerance",
+			"a limit has either \"expr\" or \"tolerance\", not both: keep the expression, or the tolerance and its decision rule"))
+		return lim
+	case hasTol:
+		l.toleranced(path, lim, f, usesOK, unitOK)
+		return lim
+	case f.Expr == nil:
+		if l.doc.Has(path + ".expr") {
+			l.requiredAt(path, "expr", nil, false, missing("expr"))
+		} else {
+			l.errs = append(l.errs, l.doc.At(at.line, at.col,
+				"missing required key \"expr\" or \"tolerance\": a limit is either an expression or a toleranced result"))
+		}
 		return lim
 	}
+	l.notForExpr(path, f)
 	lim.Expr = strings.TrimSpace(*f.Expr)
 	if lim.Expr == "" {
 		l.errs = append(l.errs, l.doc.Errorf(path+".expr", "\"expr\" is empty"))

@@ -15,21 +15,45 @@ type Set struct {
 	File                    string // the name given to Load (the path for LoadFile)
 	SHA256                  string // lowercase hex SHA-256 of the exact bytes loaded
 	Limits                  []*Limit
+
+	policy Policy // the file's decision section with defaults filled in; zero when not made by Load
 }
 
-// Limit is one compiled limit of a Set, in file order.
+// Limit is one compiled limit of a Set, in file order. It is either an expression
+// limit (expr in the file; Tolerance nil) or a toleranced limit (tolerance in the
+// file), which judges its one result under a decision rule.
 type Limit struct {
-	Name        string   // unique within the Set, ignoring case and runs of spaces
-	Description string   // what the limit is for, in words
-	Unit        string   // unit the used results are expressed in inside Expr ("uV", "ppm", "code", "")
-	Expr        string   // the expression as written, surrounding white space removed
-	Uses        []string // the result names Expr uses, as listed (Load checks each appears in Expr)
-	Line        int      // line of the limit's entry ("- name: ...") in the file
+	Name        string // unique within the Set, ignoring case and runs of spaces
+	Description string // what the limit is for, in words
+	Unit        string // unit the used results are expressed in inside Expr ("uV", "ppm", "code", "")
+	// Expr is the expression as written, surrounding white space removed. For a
+	// toleranced limit it is the tolerance written as an expression, for records:
+	// "within(post_offset, -50, 50)", "post_noise <= 60", "pre_offset >= -20".
+	Expr      string
+	Uses      []string   // the result names Expr uses, as listed (Load checks each appears in Expr); one for a toleranced limit
+	Line      int        // line of the limit's entry ("- name: ...") in the file
+	Tolerance *Tolerance // nil for an expression limit
 
 	prog  *vm.Program
 	scale float64 // SI value of one Unit: a result in SI is V/scale in Unit
 	pow10 bool    // scale is exactly 10^exp10
 	exp10 int
+}
+
+// Decision rules (ILAC-G8:09/2019 §4.2).
+const (
+	RuleSimple  = "simple"  // w = 0: the acceptance limits are the tolerance limits
+	RuleGuarded = "guarded" // w = r·U: the acceptance interval is the tolerance shrunk by w on each bounded side
+)
+
+// Tolerance is a toleranced limit's tolerance interval, in the limit's unit, and
+// the decision rule it is judged by (the limit's own rule, guard_factor and
+// statements, or else the file's decision defaults).
+type Tolerance struct {
+	Lower, Upper *float64 // tolerance limits TL; nil = unbounded on that side. At least one is set; Lower < Upper
+	Rule         string   // RuleSimple or RuleGuarded
+	GuardFactor  float64  // r in w = r·U (used by RuleGuarded)
+	Binary       bool     // binary statement (pass/fail) rather than the four ILAC-G8 zones
 }
 
 // setScale records the SI value of one unit of l.Unit.

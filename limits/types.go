@@ -1,11 +1,19 @@
 // Package limits loads the limit files that quality engineers own, compiles every
 // limit expression once at load (expr-lang), and judges a unit's named results.
 //
-// A limit is a boolean expression over named results, written in the limit's own
+// An expression limit is a boolean expression over named results, in the limit's own
 // unit: with unit "uV", the result post_offset (volts inside the engine) appears in
 // the expression as microvolts. A result that is missing, NaN, infinite or flagged
 // can never pass: the judge fails it before the expression runs, because expr-lang
 // compares NaN as false and `!(x > 60)` would pass a NaN.
+//
+// A toleranced limit instead gives one result a tolerance (lower, upper or both, in
+// the limit's unit) and judges it under a decision rule with the result's
+// measurement uncertainty: simple or guarded acceptance with binary or non-binary
+// statements (ILAC-G8:09/2019, JCGM 106:2012), the probability that the true value
+// is outside the tolerance, and the test uncertainty ratio (ANSI/NCSL Z540.3-2006
+// §5.3). The file's decision section sets the rule and what the unit's overall
+// verdict makes of each zone (Set.Policy, Set.Overall).
 package limits
 
 import "trimline/sequencer/units"
@@ -60,10 +68,10 @@ type Decision struct {
 	AcceptLower *float64 `json:"accept_lower,omitempty"` // acceptance limits AL = TL ± w
 	AcceptUpper *float64 `json:"accept_upper,omitempty"`
 	Value       float64  `json:"value"`
-	Std         float64  `json:"u"`
-	U           float64  `json:"U"`
-	K           float64  `json:"k"`
-	DOF         float64  `json:"dof"`
+	Std         float64  `json:"u"`         // standard uncertainty; 0 with U and K when not evaluated
+	U           float64  `json:"U"`         // expanded uncertainty at the set's coverage
+	K           float64  `json:"k"`         // coverage factor of U
+	DOF         float64  `json:"dof"`       // effective degrees of freedom; 0 = infinite or unknown (normal distribution), so the record encodes as JSON
 	Binary      bool     `json:"binary"`    // binary statement (pass/fail) or non-binary (four zones)
 	Zone        string   `json:"zone"`      // one of the Zone constants
 	POutside    float64  `json:"p_outside"` // probability that the true value lies outside the tolerance; for an accepted result the specific false-accept probability

@@ -26,7 +26,6 @@ import (
 
 	"trimline/instruments"
 	"trimline/limits"
-	"trimline/sequencer/fit"
 )
 
 // Config is what an Engine needs besides the instruments.
@@ -327,22 +326,22 @@ func (e *Engine) run(ctx context.Context, rec *Record) error {
 	}
 
 	pre, err := e.sweep(ctx, "pre-trim", seq.PreTrim)
+	e.annotate(&pre)
 	rec.Sweeps = append(rec.Sweeps, pre)
 	if err != nil {
 		return err
 	}
 	res := newResults()
-	preFit, ferr := e.fitSweep(pre)
+	preA, ferr := e.analyse(pre, rec.RunID)
 	if ferr != nil {
 		res.invalidAll("pre-trim sweep: " + ferr.Error())
 		rec.Results = res.list()
 		e.judge(rec, res)
 		return nil
 	}
+	preFit := preA.sum
 	rec.Fits = append(rec.Fits, preFit)
-	res.set(ResPreOffset, preFit.Intercept-seq.IdealOffset)
-	res.set(ResPreGainError, preFit.Slope/seq.IdealGain-1)
-	res.set(ResPreNonlinearity, preFit.Nonlinearity)
+	e.fitResults(res, preA, ResPreOffset, ResPreGainError, ResPreNonlinearity)
 
 	sol, err := ComputeTrim(seq.Trim, preFit.Slope, preFit.Intercept, seq.Trim.Gain.NoCorrection, seq.Trim.Offset.NoCorrection, seq.IdealGain, seq.IdealOffset)
 	if err != nil {
@@ -354,6 +353,7 @@ func (e *Engine) run(ctx context.Context, rec *Record) error {
 	}
 	trims[0].Ideal, trims[0].Code, trims[0].Saturated = sol.GainIdeal, sol.Gain, sol.GainSat
 	trims[1].Ideal, trims[1].Code, trims[1].Saturated = sol.OffsetIdeal, sol.Offset, sol.OffsetSat
+	trims[0].IdealU, trims[1].IdealU = idealCodeU(seq.Trim, preA, sol)
 	rec.Trims = trims
 	res.set(ResGainCode, float64(sol.Gain))
 	res.set(ResOffsetCode, float64(sol.Offset))
@@ -390,26 +390,31 @@ func (e *Engine) run(ctx context.Context, rec *Record) error {
 	rec.Trims = trims
 
 	post, err := e.sweep(ctx, "verify", seq.Verify)
+	e.annotate(&post)
 	rec.Sweeps = append(rec.Sweeps, post)
 	if err != nil {
 		return err
 	}
-	postFit, ferr := e.fitSweep(post)
+	postA, ferr := e.analyse(post, rec.RunID)
 	if ferr != nil {
 		res.invalidFrom(ResPostOffset, "verification sweep: "+ferr.Error())
 	} else {
-		rec.Fits = append(rec.Fits, postFit)
-		res.set(ResPostOffset, postFit.Intercept-seq.IdealOffset)
-		res.set(ResPostGainError, postFit.Slope/seq.IdealGain-1)
-		res.set(ResPostNonlinearity, postFit.Nonlinearity)
-		var maxErr, maxSD float64
-		for _, p := range post.Points {
-			maxErr = math.Max(maxErr, math.Abs(p.Mean-(seq.IdealGain*p.Stimulus+seq.IdealOffset)))
-			maxSD = math.Max(maxSD, p.SD)
+		rec.Fits = append(rec.Fits, postA.sum)
+		e.fitResults(res, postA, ResPostOffset, ResPostGainError, ResPostNonlinearity)
+		// The largest deviation from the ideal transfer, with that point's own
+		// uncertainty; the noise as the pooled standard deviation of the
+		// readings, with u(s) ≈ s/√(2ν) (JCGM 100 E.4.3).
+		imax := 0
+		dev := func(p Point) float64 { return math.Abs(p.Mean - (seq.IdealGain*p.Stimulus + seq.IdealOffset)) }
+		for i, p := range post.Points {
+			if dev(p) > dev(post.Points[imax]) {
+				imax = i
+			}
 		}
-		res.set(ResPostMaxError, maxErr)
-		if seq.Verify.Readings > 1 {
-			res.set(ResPostNoise, maxSD)
+		u, dof := pointErrorU(post.Points[imax])
+		res.setU(ResPostMaxError, dev(post.Points[imax]), e.unc(u, dof))
+		if sp, nu := pooledSD(post.Points); nu > 0 {
+			res.setU(ResPostNoise, sp, e.unc(sp/math.Sqrt(2*nu), nu))
 		} else {
 			res.invalid(ResPostNoise, "one reading per point: no noise estimate")
 		}
@@ -419,19 +424,43 @@ func (e *Engine) run(ctx context.Context, rec *Record) error {
 	return nil
 }
 
-// judge evaluates every limit and sets the verdict; earlier reasons (saturated trim)
-// already make it FAIL.
+// judge evaluates every limit and sets the verdict following the limit file's
+// policy for conditional zones; earlier reasons (a saturated trim) make it FAIL.
 func (e *Engine) judge(rec *Record, res *results) {
-	rec.Outcomes = e.cfg.Sequence.Limits.Judge(res.values)
+	set := e.cfg.Sequence.Limits
+	rec.Coverage = e.coverage()
+	rec.Outcomes = set.Judge(res.values)
+	failedBefore := len(rec.Reasons) > 0
 	for _, o := range rec.Outcomes {
 		if !o.Pass {
-			rec.Reasons = append(rec.Reasons, fmt.Sprintf("limit %q failed: %s", o.Name, o.Reason))
+			rec.Reasons = append(rec.Reasons, fmt.Sprintf("limit %q: %s", o.Name, o.Reason))
 		}
 	}
-	rec.Verdict = Pass
-	if len(rec.Reasons) > 0 {
+	switch overall := set.Overall(rec.Outcomes); {
+	case failedBefore || overall == "fail":
 		rec.Verdict = Fail
+	case overall == "review":
+		rec.Verdict = Review
+	default:
+		rec.Verdict = Pass
 	}
+}
+
+// idealCodeU propagates the pre-trim fit's uncertainty to the exact codes, to first
+// order: the gain code depends on the slope, the offset code on the intercept.
+func idealCodeU(t TrimPlan, a analysis, sol TrimSolution) (gainU, offsetU float64) {
+	u0, u1 := math.Sqrt(a.lf.Cov[0][0]), math.Sqrt(a.lf.Cov[1][1])
+	slope := a.sum.Slope
+	g0 := gainFactor(t.Gain, float64(t.Gain.NoCorrection))
+	g1 := gainFactor(t.Gain, float64(sol.Gain))
+	// ∂(gain code)/∂a = −G·g0/(a²·LSB); with G·g0/a ≈ 1 after trim: ≈ 1/(a·LSB).
+	gainU = u1 * (slope * g1 / g0) / (slope * slope * t.Gain.LSB)
+	if t.OffsetBeforeGain {
+		offsetU = u0 / (g0 * (slope / g0) * t.Offset.LSB)
+	} else {
+		offsetU = u0 * g1 / (g0 * t.Offset.LSB)
+	}
+	return math.Abs(gainU), math.Abs(offsetU)
 }
 
 // sweep steps the source across p and reads the meter at each level. The output is
@@ -548,39 +577,6 @@ func point(x float64, rs []instruments.Reading) Point {
 	return p
 }
 
-// fitSweep fits a straight line through the sweep's means. Any point with an invalid
-// reading (NaN, infinite, overload) makes the fit unusable, because a flagged reading
-// must never contribute to a passing result.
-func (e *Engine) fitSweep(sw Sweep) (FitSummary, error) {
-	x := make([]float64, len(sw.Points))
-	y := make([]float64, len(sw.Points))
-	for i, p := range sw.Points {
-		if p.Valid != len(p.Readings) || len(p.Readings) == 0 {
-			bad := "no reading"
-			for _, r := range p.Readings {
-				if !r.Valid() {
-					bad = r.Flag.String()
-					if r.Flag == instruments.FlagNone {
-						bad = strconv.FormatFloat(r.Value, 'g', -1, 64)
-					}
-					break
-				}
-			}
-			return FitSummary{}, fmt.Errorf("invalid reading (%s) at %s", bad, fmtV(p.Stimulus))
-		}
-		x[i], y[i] = p.Stimulus, p.Mean
-	}
-	r, err := fit.Poly(x, y, 1, 0)
-	if err != nil {
-		return FitSummary{}, err
-	}
-	fs := FitSummary{Sweep: sw.Name, Intercept: r.Coef[0], Slope: r.Coef[1], ResidualSD: r.ResidualSD, DOF: r.DOF,
-		Residuals: r.Residuals}
-	fs.Cov = [2][2]float64{{r.Cov[0][0], r.Cov[0][1]}, {r.Cov[1][0], r.Cov[1][1]}}
-	fs.Nonlinearity = r.MaxAbsResidual() / e.cfg.Sequence.FullScale
-	return fs, nil
-}
-
 func (e *Engine) writeCode(ctx context.Context, name string, d DAC, code int) error {
 	return e.step(ctx, func(ctx context.Context) error { return e.writeCodeStep(ctx, name, d, code) })
 }
@@ -613,10 +609,13 @@ func (e *Engine) readCode(ctx context.Context, name string, d DAC) (int, error) 
 }
 
 // results collects the named results of one run.
-type results struct{ values map[string]limits.Value }
+type results struct {
+	values map[string]limits.Value
+	unc    map[string]Uncertainty
+}
 
 func newResults() *results {
-	r := &results{values: map[string]limits.Value{}}
+	r := &results{values: map[string]limits.Value{}, unc: map[string]Uncertainty{}}
 	for _, n := range resultOrder {
 		r.values[n] = limits.Value{Why: "not measured"}
 	}
@@ -627,7 +626,17 @@ func (r *results) set(name string, v float64) {
 	r.values[name] = limits.Value{V: v, Valid: finite(v), Why: "not a finite number"}
 }
 
-func (r *results) invalid(name, why string) { r.values[name] = limits.Value{Why: why} }
+// setU sets a result with its uncertainty.
+func (r *results) setU(name string, v float64, u Uncertainty) {
+	r.values[name] = limits.Value{V: v, Valid: finite(v), Why: "not a finite number",
+		Std: u.Std, U: u.Expanded, K: u.K, DOF: u.DOF}
+	r.unc[name] = u
+}
+
+func (r *results) invalid(name, why string) {
+	r.values[name] = limits.Value{Why: why}
+	delete(r.unc, name)
+}
 
 func (r *results) invalidAll(why string) {
 	for _, n := range resultOrder {
@@ -650,7 +659,7 @@ func (r *results) list() []Result {
 	out := make([]Result, 0, len(resultOrder))
 	for _, n := range resultOrder {
 		v := r.values[n]
-		res := Result{Name: n, Value: v.V, Unit: unitName(ResultCatalog[n]), Valid: v.Valid}
+		res := Result{Name: n, Value: v.V, Unit: unitName(ResultCatalog[n]), Valid: v.Valid, Unc: r.unc[n]}
 		if !v.Valid {
 			res.Value, res.Note = 0, v.Why
 		}

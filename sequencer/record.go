@@ -114,6 +114,11 @@ type Point struct {
 	Mean     float64               `json:"mean_v"` // mean of the valid readings, volts
 	SD       float64               `json:"sd_v"`   // sample standard deviation of the valid readings, volts
 	Valid    int                   `json:"valid"`  // number of valid readings
+	// URandom is the Type A standard uncertainty of Mean (SD/√n, n − 1 dof);
+	// USys the Type B standard uncertainty from the meter and source specs and
+	// the meter resolution at this point, volts referred to the output.
+	URandom float64 `json:"u_random_v"`
+	USys    float64 `json:"u_sys_v"`
 }
 
 // FitSummary is the straight-line fit of one sweep: y = Intercept + Slope·x, with x
@@ -127,6 +132,11 @@ type FitSummary struct {
 	DOF          int           `json:"dof"`
 	Residuals    []float64     `json:"residuals_v"`
 	Nonlinearity float64       `json:"nonlinearity"` // max |residual| / full scale, a fraction
+	// CovTotal adds to Cov the correlated parts of the source and meter errors
+	// (gain and offset errors shared by every point) that a least-squares
+	// covariance misses; uncertainties of results come from CovTotal.
+	CovTotal [2][2]float64 `json:"cov_total"`
+	DOFEff   float64       `json:"dof_eff"` // effective dof of the intercept's uncertainty
 }
 
 // TrimCode is one trim DAC's computed, written and read-back code.

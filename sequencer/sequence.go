@@ -31,6 +31,11 @@ type Sequence struct {
 	Trim    TrimPlan
 	DUT     DUTPlan
 
+	// Uncertainty selects how the fits' uncertainties are evaluated: "gum" (the law
+	// of propagation, JCGM 100) or "monte_carlo" (JCGM 101, MCTrials trials).
+	Uncertainty string
+	MCTrials    int
+
 	Limits *limits.Set
 	File   FileRef
 }
@@ -138,6 +143,10 @@ type sequenceFile struct {
 		SerialQuery   string `yaml:"serial_query"`
 		FirmwareQuery string `yaml:"firmware_query"`
 	} `yaml:"dut"`
+	Uncertainty struct {
+		Method string `yaml:"method"`
+		Trials int    `yaml:"trials"`
+	} `yaml:"uncertainty"`
 }
 
 // LoadSequence reads and checks a sequence file and the limit file it names
@@ -242,6 +251,20 @@ func ParseSequence(name string, data []byte, read func(path string) ([]byte, err
 	}
 	s.Trim.Store = f.Trim.Store
 	s.DUT = DUTPlan{SerialQuery: f.DUT.SerialQuery, FirmwareQuery: f.DUT.FirmwareQuery}
+	switch s.Uncertainty, s.MCTrials = f.Uncertainty.Method, f.Uncertainty.Trials; s.Uncertainty {
+	case "":
+		s.Uncertainty = "gum"
+	case "gum":
+	case "monte_carlo":
+		if s.MCTrials == 0 {
+			s.MCTrials = 20000
+		}
+		if s.MCTrials < 1000 {
+			bad("$.uncertainty.trials", "expected at least 1000 Monte Carlo trials, found %d", s.MCTrials)
+		}
+	default:
+		bad("$.uncertainty.method", "expected gum or monte_carlo, found %q", s.Uncertainty)
+	}
 
 	if f.Limits != "" {
 		lp := f.Limits

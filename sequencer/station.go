@@ -59,9 +59,10 @@ type StationInstrument struct {
 // Accuracy is a ±(of reading + of range) specification, both as fractions, with the
 // range in volts it applies to.
 type Accuracy struct {
-	OfReading float64
-	OfRange   float64
-	Range     float64
+	OfReading  float64
+	OfRange    float64
+	Range      float64
+	Resolution float64 // one count on that range, volts; 0 = not stated
 }
 
 // String gives the spec in the usual written form.
@@ -69,8 +70,12 @@ func (a Accuracy) String() string {
 	if a == (Accuracy{}) {
 		return ""
 	}
-	return fmt.Sprintf("±(%g ppm of reading + %g ppm of range), range %s",
+	s := fmt.Sprintf("±(%g ppm of reading + %g ppm of range), range %s",
 		round6(a.OfReading*1e6), round6(a.OfRange*1e6), units.Format(a.Range, "V", 4))
+	if a.Resolution > 0 {
+		s += ", resolution " + units.Format(a.Resolution, "V", 3)
+	}
+	return s
 }
 
 func round6(v float64) float64 {
@@ -93,9 +98,10 @@ type stationFile struct {
 		Model    string `yaml:"model"`
 		Serial   string `yaml:"serial"`
 		Accuracy *struct {
-			OfReading units.Fraction `yaml:"of_reading"`
-			OfRange   units.Fraction `yaml:"of_range"`
-			Range     units.Voltage  `yaml:"range"`
+			OfReading  units.Fraction `yaml:"of_reading"`
+			OfRange    units.Fraction `yaml:"of_range"`
+			Range      units.Voltage  `yaml:"range"`
+			Resolution units.Voltage  `yaml:"resolution"`
 		} `yaml:"accuracy"`
 		Settings  map[string]string `yaml:"settings"`
 		Templates map[string]string `yaml:"templates"`
@@ -188,7 +194,11 @@ func ParseStation(name string, data []byte) (*Station, error) {
 			if in.Accuracy == nil {
 				errs = append(errs, doc.Errorf(base, "missing required key \"accuracy\" (of_reading, of_range, range)"))
 			} else {
-				si.Accuracy = Accuracy{OfReading: float64(in.Accuracy.OfReading), OfRange: float64(in.Accuracy.OfRange), Range: float64(in.Accuracy.Range)}
+				si.Accuracy = Accuracy{OfReading: float64(in.Accuracy.OfReading), OfRange: float64(in.Accuracy.OfRange),
+					Range: float64(in.Accuracy.Range), Resolution: float64(in.Accuracy.Resolution)}
+				if si.Accuracy.OfReading < 0 || si.Accuracy.OfRange < 0 || si.Accuracy.Resolution < 0 {
+					errs = append(errs, doc.Errorf(base+".accuracy", "accuracy terms must not be negative"))
+				}
 				if si.Accuracy.Range <= 0 {
 					errs = append(errs, doc.Errorf(base+".accuracy.range", "expected a positive range such as 10V"))
 				}

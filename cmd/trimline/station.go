@@ -202,7 +202,7 @@ func liveLine(i, n int, rec *sequencer.Record, cert string) string {
 	if cert != "" {
 		line += "   " + cert
 	}
-	if rec.Verdict == sequencer.Fail && len(rec.Reasons) > 0 {
+	if (rec.Verdict == sequencer.Fail || rec.Verdict == sequencer.Review) && len(rec.Reasons) > 0 {
 		line += "\n" + strings.Repeat(" ", 2*w+3) + "↳ " + rec.Reasons[0]
 		if len(rec.Reasons) > 1 {
 			line += fmt.Sprintf(" (+%d more)", len(rec.Reasons)-1)
@@ -249,8 +249,8 @@ func (t *tally) code() int {
 		switch r.Verdict {
 		case sequencer.Fault, sequencer.Aborted:
 			return exitStation
-		case sequencer.Fail:
-			code = exitFail
+		case sequencer.Fail, sequencer.Review:
+			code = exitFail // a unit held for review does not ship either
 		}
 	}
 	return code
@@ -259,19 +259,21 @@ func (t *tally) code() int {
 // summary prints yield and the spread of the pre- and post-trim results.
 func (t *tally) summary(w io.Writer) {
 	n := len(t.records)
-	var pass, fail, fault int
+	var pass, fail, review, fault int
 	for _, r := range t.records {
 		switch r.Verdict {
 		case sequencer.Pass:
 			pass++
 		case sequencer.Fail:
 			fail++
+		case sequencer.Review:
+			review++
 		default:
 			fault++
 		}
 	}
-	fmt.Fprintf(w, "\n%d unit(s): %d passed, %d failed, %d station fault/aborted", n, pass, fail, fault)
-	if judged := pass + fail; judged > 0 {
+	fmt.Fprintf(w, "\n%d unit(s): %d passed, %d failed, %d held for review, %d station fault/aborted", n, pass, fail, review, fault)
+	if judged := pass + fail + review; judged > 0 {
 		fmt.Fprintf(w, "; yield %.1f %%", 100*float64(pass)/float64(judged))
 	}
 	fmt.Fprintln(w)

@@ -1,0 +1,373 @@
+package limits
+
+import (
+	"fmt"
+	"math"
+	"strconv"
+	"strings"
+	"sync"
+	"sync/atomic"
+
+	"gonum.org/v1/gonum/stat/distuv"
+)
+
+// decide judges a toleranced limit's one result x (already checked to be a finite
+// number, in the limit's unit) with its uncertainty, filling o's Pass, Reason and
+// Decision.
+func (l *Limit) decide(o *Outcome, x float64, v Value, pol Policy) {
+	t := l.Tolerance
+	un, why := l.uncertainty(v, pol.Coverage)
+	if why != "" {
+		o.Reason = fmt.Sprintf("result %s has no usable uncertainty: %s", l.Uses[0], why)
+		return
+	}
+	d := &Decision{Result: l.Uses[0], Rule: t.Rule, GuardFactor: t.GuardFactor, Value: x, Binary: t.Binary}
+	if t.Lower != nil {
+		d.Lower = ptr(*t.Lower)
+	}
+	if t.Upper != nil {
+		d.Upper = ptr(*t.Upper)
+	}
+	if un.evaluated {
+		d.Std, d.U, d.K, d.DOF = un.u, un.U, un.k, un.dof
+	} else {
+		d.Rule, d.GuardFactor = RuleSimple, 0 // nothing to guard with
+	}
+	if d.Rule == RuleGuarded {
+		d.Guard = d.GuardFactor * d.U
+	}
+	if d.Lower != nil {
+		d.AcceptLower = ptr(*d.Lower + d.Guard)
+	}
+	if d.Upper != nil {
+		d.AcceptUpper = ptr(*d.Upper - d.Guard)
+	}
+	if !finite(d.Guard, d.AcceptLower, d.AcceptUpper) {
+		o.Reason = fmt.Sprintf("result %s has no usable uncertainty: U = %g %s is too large to judge with", l.Uses[0], d.U, l.Unit)
+		return
+	}
+	d.Zone = zone(x, d)
+	d.POutside = pOutside(x, d, un)
+	if un.evaluated && d.Lower != nil && d.Upper != nil {
+		d.TUR = tur(*d.Lower, *d.Upper, un)
+		d.TURLow = turLow(d.TUR, pol.MinTUR)
+	}
+	v2 := verdict(d, pol)
+	o.Pass = v2 == VerdictPass
+	o.Decision = d
+	d.Statement = l.statement(d, un, pol, v2)
+	if !o.Pass {
+		o.Reason = l.reason(d, pol, v2)
+	}
+}
+
+func ptr(v float64) *float64 { return &v }
+
+// finite reports whether w and the limits that are set are finite numbers.
+func finite(w float64, lims ...*float64) bool {
+	if math.IsInf(w, 0) || math.IsNaN(w) {
+		return false
+	}
+	for _, p := range lims {
+		if p != nil && (math.IsInf(*p, 0) || math.IsNaN(*p)) {
+			return false
+		}
+	}
+	return true
+}
+
+// zone places x in the zones of ILAC-G8:09/2019 §4.2.3: pass inside the acceptance
+// interval (its limits included), conditional pass inside the tolerance (its limits
+// included) but outside the acceptance interval, conditional fail outside the
+// tolerance by at most w, fail beyond.
+func zone(x float64, d *Decision) string {
+	inAccept := (d.AcceptLower == nil || x >= *d.AcceptLower) && (d.AcceptUpper == nil || x <= *d.AcceptUpper)
+	inTol := (d.Lower == nil || x >= *d.Lower) && (d.Upper == nil || x <= *d.Upper)
+	switch {
+	case inAccept && inTol: // inTol matters only when the acceptance interval is empty
+		return ZonePass
+	case inTol:
+		return ZoneConditionalPass
+	case (d.Lower == nil || x >= *d.Lower-d.Guard) && (d.Upper == nil || x <= *d.Upper+d.Guard):
+		return ZoneConditionalFail
+	}
+	return ZoneFail
+}
+
+// pOutside is the probability that the true value lies outside the tolerance, for
+// a measured x with standard uncertainty u: the normal distribution, or Student's
+// t scaled by u with the dof when it is finite. Without an uncertainty it is 0
+// inside the tolerance and 1 outside.
+func pOutside(x float64, d *Decision, un unc) float64 {
+	if !un.evaluated {
+		if (d.Lower == nil || x >= *d.Lower) && (d.Upper == nil || x <= *d.Upper) {
+			return 0
+		}
+		return 1
+	}
+	var p float64
+	if un.dof == 0 {
+		s := un.u * math.Sqrt2
+		if d.Lower != nil {
+			p += 0.5 * math.Erfc((x-*d.Lower)/s)
+		}
+		if d.Upper != nil {
+			p += 0.5 * math.Erfc((*d.Upper-x)/s)
+		}
+	} else {
+		t := distuv.StudentsT{Mu: x, Sigma: un.u, Nu: un.dof}
+		if d.Lower != nil {
+			p += t.CDF(*d.Lower)
+		}
+		if d.Upper != nil {
+			p += t.Survival(*d.Upper)
+		}
+	}
+	return math.Max(0, math.Min(1, p))
+}
+
+// coverageFactor is the two-sided coverage factor for coverage probability p:
+// the (1+p)/2 quantile of Student's t with dof degrees of freedom, or of the normal
+// distribution when dof is 0 (infinite).
+//
+// The t quantile costs some microseconds, so factors are remembered, up to
+// kCacheMax distinct (p, dof) pairs (a station has a few; fractional
+// Welch–Satterthwaite dofs could have many, and are then computed each time).
+func coverageFactor(p, dof float64) float64 {
+	key := [2]float64{p, dof}
+	if k, ok := kCache.m.Load(key); ok {
+		return k.(float64)
+	}
+	q := (1 + p) / 2
+	var k float64
+	if dof == 0 {
+		k = distuv.UnitNormal.Quantile(q)
+	} else {
+		k = distuv.StudentsT{Mu: 0, Sigma: 1, Nu: dof}.Quantile(q)
+	}
+	if kCache.n.Load() < kCacheMax {
+		if _, loaded := kCache.m.LoadOrStore(key, k); !loaded {
+			kCache.n.Add(1)
+		}
+	}
+	return k
+}
+
+const kCacheMax = 4096
+
+var kCache struct {
+	m sync.Map // [2]float64{p, dof} → coverage factor
+	n atomic.Int32
+}
+
+// toSI converts v in the limit's unit to SI, the inverse of inUnit (a decimal shift
+// for powers of ten, so 50 uV is exactly 5e-05 V).
+func (l *Limit) toSI(v float64) float64 {
+	if !l.pow10 {
+		return v * l.scale
+	}
+	if l.exp10 == 0 || v == 0 {
+		return v
+	}
+	s := strconv.FormatFloat(v, 'e', -1, 64)
+	i := strings.IndexByte(s, 'e')
+	exp, err := strconv.Atoi(s[i+1:])
+	if err != nil {
+		return v * l.scale
+	}
+	out, err := strconv.ParseFloat(s[:i+1]+strconv.Itoa(exp+l.exp10), 64)
+	if err != nil {
+		return v * l.scale
+	}
+	return out
+}
+
+// section names the ILAC-G8:09/2019 clause of the rule applied.
+func section(d *Decision) string {
+	switch {
+	case d.Rule == RuleSimple:
+		return "§4.2.1"
+	case d.Binary:
+		return "§4.2.2"
+	}
+	return "§4.2.3"
+}
+
+// statement says, in words, the decision rule, where the result lies and the
+// verdict, the probability of being outside the tolerance, and the TUR.
+func (l *Limit) statement(d *Decision, un unc, pol Policy, v string) string {
+	u := dispUnit(l.Unit)
+	q := func(x float64) string { return strings.TrimSpace(fmtNum(x) + " " + u) }
+	qu := func(x float64) string { return strings.TrimSpace(fmtSig(x, 3) + " " + u) }
+	var b strings.Builder
+	switch {
+	case !un.evaluated:
+		b.WriteString("Uncertainty not evaluated: simple acceptance, w = 0 (ILAC-G8:09/2019 §4.2.1)")
+		if l.Tolerance.Rule == RuleGuarded {
+			b.WriteString(" instead of the guarded rule")
+		}
+		fmt.Fprintf(&b, ": measured %s", q(d.Value))
+	case d.Rule == RuleSimple:
+		fmt.Fprintf(&b, "Simple acceptance, w = 0 (ILAC-G8:09/2019 §4.2.1): measured %s with U = %s (k = %.2f%s)",
+			q(d.Value), qu(d.U), d.K, dofText(d.DOF))
+	default:
+		fmt.Fprintf(&b, "Guarded acceptance, w = %s·U = %s (ILAC-G8:09/2019 %s): measured %s with U = %s (k = %.2f%s)",
+			fmtNum(d.GuardFactor), qu(d.Guard), section(d), q(d.Value), qu(d.U), d.K, dofText(d.DOF))
+	}
+	b.WriteString(" lies ")
+	b.WriteString(l.where(d, q))
+	b.WriteString(": ")
+	b.WriteString(d.Zone)
+	switch {
+	case d.Binary && d.Zone != ZonePass && d.Zone != ZoneFail:
+		b.WriteString(", so fail (binary statement)")
+	case !d.Binary && d.Zone == ZoneConditionalPass:
+		fmt.Fprintf(&b, ", so %s (conditional_pass: %s)", v, pol.ConditionalPass)
+	case !d.Binary && d.Zone == ZoneConditionalFail:
+		fmt.Fprintf(&b, ", so %s (conditional_fail: %s)", v, pol.ConditionalFail)
+	case d.Zone == ZonePass && v == VerdictReview:
+		b.WriteString(", but review: the TUR is below the minimum (tur_policy: refuse)")
+	}
+	b.WriteString(".")
+	if un.evaluated {
+		fmt.Fprintf(&b, " Probability the true value is outside the tolerance: %s.", fmtPct(d.POutside))
+	}
+	switch {
+	case d.Lower == nil || d.Upper == nil:
+		b.WriteString(" TUR not defined for a one-sided tolerance.")
+	case !un.evaluated:
+		b.WriteString(" TUR not known.")
+	default:
+		fmt.Fprintf(&b, " TUR %s:1 (ANSI/NCSL Z540.3-2006 §5.3, U95 = %s)", fmtRatio(d.TUR), qu(un.u*un.k95))
+		if d.TURLow {
+			fmt.Fprintf(&b, ", below the minimum %s:1", fmtNum(pol.MinTUR))
+			if pol.TURPolicy == "refuse" {
+				b.WriteString(" (tur_policy: refuse)")
+			}
+		}
+		b.WriteString(".")
+	}
+	return b.String()
+}
+
+func dofText(dof float64) string {
+	if dof == 0 {
+		return ""
+	}
+	return ", ν = " + fmtNum(dof)
+}
+
+// where says where x lies relative to the acceptance interval and the tolerance.
+func (l *Limit) where(d *Decision, q func(float64) string) string {
+	interval := func(lo, hi *float64, what string) string {
+		switch {
+		case lo != nil && hi != nil:
+			return fmt.Sprintf("the %s interval %s … %s", what, fmtNum(*lo), q(*hi))
+		case lo != nil:
+			return fmt.Sprintf("the lower %s limit %s", what, q(*lo))
+		}
+		return fmt.Sprintf("the upper %s limit %s", what, q(*hi))
+	}
+	side := func(lo, hi *float64) string {
+		if lo != nil && hi != nil {
+			return "within"
+		}
+		if lo != nil {
+			return "at or above"
+		}
+		return "at or below"
+	}
+	tol := interval(d.Lower, d.Upper, "tolerance")
+	acc := interval(d.AcceptLower, d.AcceptUpper, "acceptance")
+	empty := d.AcceptLower != nil && d.AcceptUpper != nil && *d.AcceptLower > *d.AcceptUpper
+	switch d.Zone {
+	case ZonePass:
+		if d.Guard == 0 {
+			return side(d.Lower, d.Upper) + " " + tol
+		}
+		return side(d.AcceptLower, d.AcceptUpper) + " " + acc
+	case ZoneConditionalPass:
+		if empty {
+			return fmt.Sprintf("%s %s, but the acceptance interval is empty (2w = %s exceeds the tolerance width)",
+				side(d.Lower, d.Upper), tol, fmtSig(2*d.Guard, 3)+" "+dispUnit(l.Unit))
+		}
+		return fmt.Sprintf("%s %s but outside %s", side(d.Lower, d.Upper), tol, acc)
+	case ZoneConditionalFail:
+		return fmt.Sprintf("outside %s by no more than w = %s", tol, strings.TrimSpace(fmtSig(d.Guard, 3)+" "+dispUnit(l.Unit)))
+	}
+	if d.Guard == 0 {
+		return "outside " + tol
+	}
+	return fmt.Sprintf("outside %s by more than w = %s", tol, strings.TrimSpace(fmtSig(d.Guard, 3)+" "+dispUnit(l.Unit)))
+}
+
+// reason says why a toleranced limit did not pass.
+func (l *Limit) reason(d *Decision, pol Policy, v string) string {
+	u := dispUnit(l.Unit)
+	q := func(x float64) string { return strings.TrimSpace(fmtNum(x) + " " + u) }
+	r := fmt.Sprintf("%s = %s lies %s", d.Result, q(d.Value), l.where(d, q))
+	switch {
+	case d.Zone == ZoneFail:
+		r += ": fail"
+	case d.Binary:
+		r += fmt.Sprintf(": %s, so fail (binary statement: only the acceptance interval passes)", d.Zone)
+	case d.Zone == ZoneConditionalPass:
+		r += fmt.Sprintf(": conditional pass, so %s (conditional_pass: %s)", v, pol.ConditionalPass)
+	case d.Zone == ZoneConditionalFail:
+		r += fmt.Sprintf(": conditional fail, so %s (conditional_fail: %s)", v, pol.ConditionalFail)
+	default: // a pass held back by a low TUR
+		r = fmt.Sprintf("%s = %s passes, but the TUR %s:1 is below the minimum %s:1 and tur_policy is refuse: review",
+			d.Result, q(d.Value), fmtRatio(d.TUR), fmtNum(pol.MinTUR))
+	}
+	return r
+}
+
+// dispUnit writes the micro prefix as µ for statements ("uV" → "µV").
+func dispUnit(u string) string {
+	if len(u) > 1 && u[0] == 'u' {
+		return "µ" + u[1:]
+	}
+	return u
+}
+
+// fmtNum writes v with up to 6 significant digits, no exponent for ordinary sizes,
+// and a real minus sign.
+func fmtNum(v float64) string { return fmtSig(v, 6) }
+
+// fmtSig writes v with up to sig significant digits (trailing zeros dropped).
+func fmtSig(v float64, sig int) string {
+	var s string
+	if a := math.Abs(v); a == 0 || (a >= 1e-4 && a < 1e9) {
+		dec := 0
+		if a != 0 {
+			dec = max(0, sig-1-int(math.Floor(math.Log10(a))))
+		}
+		s = strconv.FormatFloat(v, 'f', dec, 64)
+		if strings.Contains(s, ".") {
+			s = strings.TrimRight(strings.TrimRight(s, "0"), ".")
+		}
+	} else {
+		s = strconv.FormatFloat(v, 'g', sig, 64)
+	}
+	if s == "-0" {
+		s = "0"
+	}
+	return strings.Replace(s, "-", "−", 1)
+}
+
+// fmtPct writes a probability as a percentage with three significant digits.
+func fmtPct(p float64) string {
+	v := p * 100
+	switch {
+	case v == 0:
+		return "0 %"
+	case v < 1e-4:
+		return "< 0.0001 %"
+	}
+	dec := max(0, 2-int(math.Floor(math.Log10(v))))
+	s := strconv.FormatFloat(v, 'f', dec, 64)
+	if strings.Contains(s, ".") {
+		s = strings.TrimRight(strings.TrimRight(s, "0"), ".")
+	}
+	return s + " %"
+}

@@ -1,0 +1,202 @@
+package sequencer
+
+import (
+	"fmt"
+	"hash/fnv"
+	"math"
+
+	"trimline/instruments"
+	"trimline/sequencer/uncertainty"
+)
+
+// analysis is one sweep's fit with its uncertainty.
+type analysis struct {
+	sum FitSummary
+	lf  uncertainty.LineFit
+	sw  uncertainty.Sweep
+}
+
+func (e *Engine) specs() (meter, source uncertainty.Spec, resolution float64) {
+	m := e.cfg.Station.Instruments["meter"].Accuracy
+	s := e.cfg.Station.Instruments["source"].Accuracy
+	return uncertainty.Spec{OfReading: m.OfReading, OfRange: m.OfRange, Range: m.Range},
+		uncertainty.Spec{OfReading: s.OfReading, OfRange: s.OfRange, Range: s.Range}, m.Resolution
+}
+
+// annotate fills each point's Type A and Type B standard uncertainties. The Type A
+// part uses the pooled standard deviation of the whole sweep (JCGM 100 §4.2.4: the
+// noise of one unit on one range is one process, and a pooled estimate with
+// Σ(n_i − 1) degrees of freedom is far better than eleven estimates from 8 readings
+// each); weights then differ only where the number of readings does, and a chance
+// small SD at one point cannot tilt the line.
+func (e *Engine) annotate(sw *Sweep) {
+	meter, source, res := e.specs()
+	g := e.cfg.Sequence.IdealGain
+	sp, _ := pooledSD(sw.Points)
+	for i := range sw.Points {
+		p := &sw.Points[i]
+		if p.Valid > 1 {
+			p.URandom = sp / math.Sqrt(float64(p.Valid))
+		}
+		if p.Valid > 0 {
+			// Meter spec at the reading, half a count of resolution, and the
+			// source spec at the stimulus seen through the ideal gain; each
+			// rectangular (JCGM 100 §4.3.7).
+			p.USys, _ = uncertainty.Combine([]uncertainty.Component{
+				uncertainty.Rectangular("meter", meter.HalfWidth(p.Mean)),
+				uncertainty.Resolution("resolution", res),
+				uncertainty.Rectangular("source", math.Abs(g)*source.HalfWidth(p.Stimulus)),
+			})
+		}
+	}
+}
+
+// analyse fits a straight line through the sweep's means with its uncertainty,
+// including the correlated parts of the source and meter errors. Any point with an
+// invalid reading (NaN, infinite, overload) makes the fit unusable, because a
+// flagged reading must never contribute to a passing result.
+func (e *Engine) analyse(sw Sweep, seed string) (analysis, error) {
+	x := make([]float64, len(sw.Points))
+	y := make([]float64, len(sw.Points))
+	ur := make([]float64, len(sw.Points))
+	dof := make([]float64, len(sw.Points))
+	// One pooled estimate serves every point, so its Σ(n_i − 1) degrees of freedom
+	// must be counted once: handing each of the N points ν/N makes the
+	// Welch–Satterthwaite sum over equal contributions come back to ν.
+	_, pdof := pooledSD(sw.Points)
+	if pdof == 0 {
+		pdof = math.Inf(1)
+	}
+	pdof /= float64(len(sw.Points))
+	for i, p := range sw.Points {
+		if p.Valid != len(p.Readings) || len(p.Readings) == 0 {
+			return analysis{}, fmt.Errorf("invalid reading (%s) at %s", firstBad(p.Readings), fmtV(p.Stimulus))
+		}
+		x[i], y[i], ur[i], dof[i] = p.Stimulus, p.Mean, p.URandom, pdof
+	}
+	meter, source, res := e.specs()
+	us := uncertainty.Sweep{X: x, Y: y, URandom: ur, DOFRandom: dof, Meter: meter, MeterResolution: res, Source: source}
+	lf, err := uncertainty.FitLine(us)
+	if err != nil {
+		return analysis{}, err
+	}
+	a := analysis{lf: lf, sw: us}
+	s := &a.sum
+	s.Sweep, s.Intercept, s.Slope = sw.Name, lf.B0, lf.B1
+	s.Cov, s.CovTotal = lf.CovRandom, lf.Cov
+	s.DOFEff = lf.DOFB0
+	s.Residuals = lf.Residuals
+	s.DOF = len(x) - 2
+	var rss, maxAbs float64
+	for _, r := range lf.Residuals {
+		rss += r * r
+		maxAbs = math.Max(maxAbs, math.Abs(r))
+	}
+	s.ResidualSD = math.Sqrt(rss / float64(s.DOF))
+	s.Nonlinearity = maxAbs / e.cfg.Sequence.FullScale
+	if e.cfg.Sequence.Uncertainty == "monte_carlo" {
+		h := fnv.New64a()
+		h.Write([]byte(seed + "/" + sw.Name))
+		mc, err := uncertainty.MonteCarlo(us, e.cfg.Sequence.MCTrials, h.Sum64())
+		if err != nil {
+			return analysis{}, fmt.Errorf("monte carlo: %w", err)
+		}
+		s.CovTotal = mc.Cov
+		a.lf.Cov = mc.Cov
+	}
+	return a, nil
+}
+
+// pooledSD returns the pooled standard deviation of the points' readings and its
+// degrees of freedom Σ(n_i − 1).
+func pooledSD(ps []Point) (sd, dof float64) {
+	var ss float64
+	for _, p := range ps {
+		if p.Valid > 1 {
+			ss += p.SD * p.SD * float64(p.Valid-1)
+			dof += float64(p.Valid - 1)
+		}
+	}
+	if dof == 0 {
+		return 0, 0
+	}
+	return math.Sqrt(ss / dof), dof
+}
+
+func firstBad(rs []instruments.Reading) string {
+	for _, r := range rs {
+		if !r.Valid() {
+			if r.Flag == instruments.FlagNone {
+				return fmt.Sprint(r.Value)
+			}
+			return r.Flag.String()
+		}
+	}
+	return "no reading"
+}
+
+// method names the evaluation recorded with every uncertainty.
+func (e *Engine) method() string {
+	if e.cfg.Sequence.Uncertainty == "monte_carlo" {
+		return "MC"
+	}
+	return "GUM"
+}
+
+// unc expands a standard uncertainty at the limit set's coverage probability.
+func (e *Engine) unc(u, dof float64) Uncertainty {
+	if !(u >= 0) || math.IsInf(u, 0) {
+		return Uncertainty{}
+	}
+	if dof <= 0 || math.IsNaN(dof) {
+		dof = math.Inf(1)
+	}
+	p := e.coverage()
+	k, U := uncertainty.Expand(u, dof, p)
+	return Uncertainty{Std: u, DOF: dof, K: k, Expanded: U, Method: e.method()}
+}
+
+func (e *Engine) coverage() float64 {
+	if s := e.cfg.Sequence.Limits; s != nil {
+		if p := s.Policy().Coverage; p > 0 && p < 1 {
+			return p
+		}
+	}
+	return 0.9545
+}
+
+// fitResults sets the offset, gain error and nonlinearity of one analysed sweep,
+// with their uncertainties.
+func (e *Engine) fitResults(res *results, a analysis, offset, gainErr, nonlin string) {
+	seq := e.cfg.Sequence
+	uo, do := a.lf.Linear([2]float64{1, 0})
+	res.setU(offset, a.sum.Intercept-seq.IdealOffset, e.unc(uo, do))
+	ug, dg := a.lf.Linear([2]float64{0, 1 / seq.IdealGain})
+	res.setU(gainErr, a.sum.Slope/seq.IdealGain-1, e.unc(math.Abs(ug), dg))
+	// Nonlinearity: the largest residual; its uncertainty is that residual's own
+	// (random part only: shared gain and offset errors do not bend the line).
+	ru := make([]float64, len(a.sw.X))
+	for i := range ru {
+		ru[i] = math.Hypot(a.sw.URandom[i], a.sw.MeterResolution/(2*math.Sqrt(3)))
+	}
+	imax := 0
+	for i, r := range a.sum.Residuals {
+		if math.Abs(r) > math.Abs(a.sum.Residuals[imax]) {
+			imax = i
+		}
+	}
+	var un, dn float64
+	if ur := uncertainty.ResidualU(a.sw.X, ru); len(ur) > imax && !math.IsNaN(ur[imax]) {
+		un, dn = ur[imax]/seq.FullScale, a.sw.DOFRandom[imax]
+	}
+	res.setU(nonlin, a.sum.Nonlinearity, e.unc(un, dn))
+}
+
+// pointErrorU is the standard uncertainty of one point's deviation from the ideal
+// transfer: its Type A part and the meter and source specs at that point.
+func pointErrorU(p Point) (u, dof float64) {
+	return uncertainty.Combine([]uncertainty.Component{
+		{Name: "repeatability", U: p.URandom, DOF: float64(max(p.Valid-1, 1)), Kind: uncertainty.KindA},
+		{Name: "specs", U: p.USys, DOF: math.Inf(1), Kind: uncertainty.KindB},
+	})
+}
