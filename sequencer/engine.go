@@ -92,6 +92,15 @@ func Open(ctx context.Context, cfg Config) (*Engine, error) {
 	if err := CheckCaps(st, seq); err != nil {
 		return nil, err
 	}
+	checks, err := CheckTUR(st, seq)
+	if err != nil {
+		return nil, err
+	}
+	for _, c := range checks {
+		if c.Low && !c.OneSided {
+			cfg.Log.Warn().Str("limit", c.Limit).Float64("tur", c.TUR).Float64("min_tur", c.Min).Msg("the station's instruments cannot reach the limit file's minimum TUR for this limit")
+		}
+	}
 	all, err := instruments.OpenAll(ctx, st.Specs(seq.Requires))
 	if err != nil {
 		return nil, err

@@ -216,6 +216,20 @@ func TestKnownDUTGivesPredictableCodes(t *testing.T) {
 	near(t, "post gain error", resultOf(t, rec, sequencer.ResPostGainError).Value, 3.725e-6, 0.2e-6)
 	near(t, "pre offset", resultOf(t, rec, sequencer.ResPreOffset).Value, 3.1e-3, 1e-6)
 	near(t, "pre gain error", resultOf(t, rec, sequencer.ResPreGainError).Value, -2500e-6, 0.1e-6)
+	// Uncertainty, hand-worked from the demo station's specs (JCGM 100 §4.3.7,
+	// rectangular a/√3; sensitivities of the intercept: meter gain −b0 ≈ −2.5 V,
+	// meter offset −1, source offset −b1 = −200):
+	//   u(b0)² = (2.5·30 ppm/√3)² + (4 ppm·10 V/√3)² + (200·5 ppm·100 mV/√3)² + (1 µV/(2√3))²/11
+	//   u(b0) = 75.77 µV; dof ∞ (no noise) so k = 2.000 at 95.45 %.
+	//   u(b1)/b1 = √((30 ppm/√3)² + (20 ppm/√3)²) = 20.82 ppm.
+	po := resultOf(t, rec, sequencer.ResPostOffset).Unc
+	near(t, "u(post offset)", po.Std, 75.77e-6, 0.1e-6)
+	near(t, "k", po.K, 2.000, 0.001)
+	near(t, "U(post offset)", po.Expanded, 151.5e-6, 0.3e-6)
+	near(t, "u(post gain error)", resultOf(t, rec, sequencer.ResPostGainError).Unc.Std, 20.82e-6, 0.02e-6)
+	if rec.Coverage != 0.9545 {
+		t.Errorf("coverage %g", rec.Coverage)
+	}
 	if n := len(rec.Sweeps); n != 2 || len(rec.Sweeps[0].Points) != 11 || len(rec.Sweeps[0].Points[0].Readings) != 8 {
 		t.Fatalf("sweeps not recorded in full: %d", n)
 	}
@@ -403,5 +417,33 @@ func TestStepDeadline(t *testing.T) {
 	rec := e.Run(context.Background(), "BRX-00013")
 	if rec.Verdict != sequencer.Fault || !strings.Contains(rec.Fault, "step deadline") {
 		t.Fatalf("%s %q", rec.Verdict, rec.Fault)
+	}
+}
+
+// A limit file that refuses to run where the station cannot reach its minimum TUR
+// stops the station before any unit (ANSI/NCSL Z540.3-2006 §5.3 ratio; the station
+// reaches about 5.4:1 on ±800 µV, so ±50 µV gives about 0.33:1).
+func TestTURRefuseStopsTheStation(t *testing.T) {
+	lim := strings.Replace(demoFile(t, "brx200-limits.yaml"), "tur_policy: warn", "tur_policy: refuse", 1)
+	lim = strings.Replace(lim, "tolerance: {lower: -800, upper: 800}", "tolerance: {lower: -50, upper: 50}", 1)
+	st, err := sequencer.ParseStation("brx200-station.yaml", []byte(demoFile(t, "brx200-station.yaml")))
+	if err != nil {
+		t.Fatal(err)
+	}
+	seq, err := sequencer.ParseSequence("brx200-sequence.yaml", []byte(demoFile(t, "brx200-sequence.yaml")), demoReader(t, map[string]string{"brx200-limits.yaml": lim}))
+	if err != nil {
+		t.Fatal(err)
+	}
+	checks, err := sequencer.CheckTUR(st, seq)
+	if !errors.Is(err, sequencer.ErrTUR) || !strings.Contains(err.Error(), "offset after trim") {
+		t.Fatalf("want ErrTUR naming the limit, got %v", err)
+	}
+	for _, c := range checks {
+		if c.Limit == "offset after trim" && (c.TUR < 0.3 || c.TUR > 0.36) {
+			t.Errorf("predicted TUR %.3f, want ≈ 0.33 (100 µV / (2·1.96·75.8 µV))", c.TUR)
+		}
+	}
+	if _, err := sequencer.Open(context.Background(), sequencer.Config{Station: st, Sequence: seq}); !errors.Is(err, sequencer.ErrTUR) {
+		t.Fatalf("Open: %v", err)
 	}
 }

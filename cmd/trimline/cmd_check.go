@@ -76,6 +76,11 @@ Exit code 0 when every file is clean, 2 otherwise.`,
 				if err := sequencer.CheckCaps(st, s); err != nil {
 					other = append(other, err)
 				}
+				checks, err := sequencer.CheckTUR(st, s)
+				if err != nil {
+					other = append(other, err)
+				}
+				printTUR(st, s, checks)
 			}
 		}
 		for _, p := range problems {
@@ -91,6 +96,32 @@ Exit code 0 when every file is clean, 2 otherwise.`,
 		return nil
 	}
 	return c
+}
+
+// printTUR shows the test uncertainty ratio each toleranced limit can reach on
+// this station, from the instruments' specifications alone.
+func printTUR(st *sequencer.Station, seq *sequencer.Sequence, checks []limits.TURCheck) {
+	if len(checks) == 0 {
+		return
+	}
+	fmt.Fprintf(stdoutW, "\nTUR on station %s for %s (from instrument specs; minimum %g:1):\n", st.ID, seq.Limits.File, seq.Limits.Policy().MinTUR)
+	for _, c := range checks {
+		switch {
+		case c.OneSided:
+			fmt.Fprintf(stdoutW, "  %-28s  —       one-sided tolerance\n", c.Limit)
+		case c.Low:
+			fmt.Fprintf(stdoutW, "  %-28s  %-7s below the minimum: %s\n", c.Limit, turRatio(c.TUR), c.Note)
+		default:
+			fmt.Fprintf(stdoutW, "  %-28s  %-7s ok\n", c.Limit, turRatio(c.TUR))
+		}
+	}
+}
+
+func turRatio(v float64) string {
+	if !(v > 0) {
+		return "?"
+	}
+	return fmt.Sprintf("%.1f:1", v)
 }
 
 // detectKind tells a file's kind from its top-level keys.

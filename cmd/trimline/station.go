@@ -112,7 +112,7 @@ func runBatch(ctx context.Context, b batch) (*tally, error) {
 
 	eng, err := sequencer.Open(ctx, sequencer.Config{Station: st, Sequence: seq, Operator: b.operator, Software: "trimline " + version(), Log: log})
 	if err != nil {
-		if errors.Is(err, sequencer.ErrSafety) {
+		if errors.Is(err, sequencer.ErrSafety) || errors.Is(err, sequencer.ErrTUR) {
 			return nil, badInput(err)
 		}
 		return nil, stationErr(err)
