@@ -82,4 +82,3 @@ func turText(v float64) string {
 	}
 	return fmt.Sprintf("%.2f:1", v)
 }
-
