@@ -420,7 +420,7 @@ func (e *Engine) run(ctx context.Context, rec *Record) error {
 				imax = i
 			}
 		}
-		u, dof := pointErrorU(post.Points[imax])
+		u, dof := pointErrorU(post.Points[imax], postA.poolDOF)
 		res.setU(ResPostMaxError, dev(post.Points[imax]), e.unc(u, dof))
 		if sp, nu := pooledSD(post.Points); nu > 0 {
 			res.setU(ResPostNoise, sp, e.unc(sp/math.Sqrt(2*nu), nu))

@@ -11,9 +11,10 @@ import (
 
 // analysis is one sweep's fit with its uncertainty.
 type analysis struct {
-	sum FitSummary
-	lf  uncertainty.LineFit
-	sw  uncertainty.Sweep
+	sum     FitSummary
+	lf      uncertainty.LineFit
+	sw      uncertainty.Sweep
+	poolDOF float64 // degrees of freedom of the pooled standard deviation, Σ(n_i − 1)
 }
 
 func (e *Engine) specs() (meter, source uncertainty.Spec, resolution float64) {
@@ -63,11 +64,11 @@ func (e *Engine) analyse(sw Sweep, seed string) (analysis, error) {
 	// One pooled estimate serves every point, so its Σ(n_i − 1) degrees of freedom
 	// must be counted once: handing each of the N points ν/N makes the
 	// Welch–Satterthwaite sum over equal contributions come back to ν.
-	_, pdof := pooledSD(sw.Points)
-	if pdof == 0 {
-		pdof = math.Inf(1)
+	_, pooled := pooledSD(sw.Points)
+	if pooled == 0 {
+		pooled = math.Inf(1)
 	}
-	pdof /= float64(len(sw.Points))
+	pdof := pooled / float64(len(sw.Points))
 	for i, p := range sw.Points {
 		if p.Valid != len(p.Readings) || len(p.Readings) == 0 {
 			return analysis{}, fmt.Errorf("invalid reading (%s) at %s", firstBad(p.Readings), fmtV(p.Stimulus))
@@ -80,7 +81,7 @@ func (e *Engine) analyse(sw Sweep, seed string) (analysis, error) {
 	if err != nil {
 		return analysis{}, err
 	}
-	a := analysis{lf: lf, sw: us}
+	a := analysis{lf: lf, sw: us, poolDOF: pooled}
 	s := &a.sum
 	s.Sweep, s.Intercept, s.Slope = sw.Name, lf.B0, lf.B1
 	s.Cov, s.CovTotal = lf.CovRandom, lf.Cov
@@ -187,16 +188,17 @@ func (e *Engine) fitResults(res *results, a analysis, offset, gainErr, nonlin st
 	}
 	var un, dn float64
 	if ur := uncertainty.ResidualU(a.sw.X, ru); len(ur) > imax && !math.IsNaN(ur[imax]) {
-		un, dn = ur[imax]/seq.FullScale, a.sw.DOFRandom[imax]
+		un, dn = ur[imax]/seq.FullScale, a.poolDOF
 	}
 	res.setU(nonlin, a.sum.Nonlinearity, e.unc(un, dn))
 }
 
 // pointErrorU is the standard uncertainty of one point's deviation from the ideal
-// transfer: its Type A part and the meter and source specs at that point.
-func pointErrorU(p Point) (u, dof float64) {
+// transfer: its Type A part (from the pooled SD with poolDOF degrees of freedom) and
+// the meter and source specs at that point.
+func pointErrorU(p Point, poolDOF float64) (u, dof float64) {
 	return uncertainty.Combine([]uncertainty.Component{
-		{Name: "repeatability", U: p.URandom, DOF: float64(max(p.Valid-1, 1)), Kind: uncertainty.KindA},
+		{Name: "repeatability", U: p.URandom, DOF: poolDOF, Kind: uncertainty.KindA},
 		{Name: "specs", U: p.USys, DOF: math.Inf(1), Kind: uncertainty.KindB},
 	})
 }

@@ -45,7 +45,7 @@ func PredictUncertainty(st *Station, seq *Sequence) map[string]limits.Value {
 			out[n] = res.values[n]
 		}
 		if sw.plan == seq.Verify && len(ideal.Points) > 0 {
-			u, dof := pointErrorU(ideal.Points[len(ideal.Points)-1])
+			u, dof := pointErrorU(ideal.Points[len(ideal.Points)-1], math.Inf(1))
 			un := e.unc(u, dof)
 			out[ResPostMaxError] = limits.Value{Valid: true, Std: un.Std, U: un.Expanded, K: un.K, DOF: un.DOF}
 		}

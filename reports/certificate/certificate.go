@@ -1,6 +1,18 @@
 // Package certificate renders the per-unit trim and calibration certificate of a
 // sequencer.Record as a PDF (A4 portrait).
 //
+// Page 1 carries what ISO/IEC 17025:2017 §7.8.4.1 and §7.8.6 ask of a calibration
+// certificate: the unit, the conditions (ambient temperature, or that it was not
+// recorded), the results as found (pre_*, before adjustment) and as left (post_*,
+// after it), each with its expanded uncertainty U, coverage factor k and unit; for
+// toleranced limits the tolerance, the acceptance interval of a guarded rule, the
+// zone (pass, conditional pass, conditional fail, fail), the TUR and the specific
+// false-accept probability; the decision rules in force (ILAC-G8:09/2019) with the
+// coverage probability; and the traceability of the reference instruments. The
+// measurement detail follows: each limit's decision statement, results no limit
+// judged, fits, plots and every sweep point. Records without uncertainties (made
+// before they were evaluated) render with "U not evaluated".
+//
 // The document is made from the Record and the Options alone: identical inputs give
 // byte-identical files. The creation date is the record's finish time, resource
 // catalogues are sorted and no map is iterated in output order, so a certificate
@@ -37,7 +49,8 @@ type Options struct {
 
 // Write renders the certificate for rec to w. Identical (rec, opt) give
 // byte-identical PDFs. Records of any verdict render; FAULT and ABORTED records are
-// marked as not certified.
+// marked as not certified. A REVIEW record is a certificate whose verdict box says
+// the unit is held for review.
 func Write(w io.Writer, rec *sequencer.Record, opt Options) error {
 	if rec == nil {
 		return errors.New("certificate: nil record")

@@ -50,6 +50,21 @@ func pdfText(t *testing.T, pdf []byte) string {
 	return string(out)
 }
 
+// flat collapses every run of white space to one space, so that a phrase is found
+// even where the page wrapped it.
+func flat(s string) string { return strings.Join(strings.Fields(s), " ") }
+
+// requireText fails t for every phrase (white space collapsed) text lacks.
+func requireText(t *testing.T, text string, phrases ...string) {
+	t.Helper()
+	ft := flat(text)
+	for _, p := range phrases {
+		if !strings.Contains(ft, flat(p)) {
+			t.Errorf("text lacks %q", p)
+		}
+	}
+}
+
 func TestWriteIsDeterministic(t *testing.T) {
 	a := render(t, sampleRecord(), opt)
 	b := render(t, sampleRecord(), opt)
@@ -139,11 +154,171 @@ func TestTextContent(t *testing.T) {
 	if strings.Contains(text, "PASS\n\n1 of 8") || strings.Contains(strings.ToLower(text), "no data") {
 		t.Error("unexpected verdict or missing plot data")
 	}
+
+	// ISO/IEC 17025 §7.8.4.1 / §7.8.6 content.
+	requireText(t, text,
+		// every result with U, k and unit
+		"−3 µV ± 13 µV", "17.9 ppm ± 2.8 ppm", "3.242 mV ± 0.014 mV", "63.13 ppm ± 0.49 ppm",
+		"k = 2.00", "k = 2.11", "νeff = ∞", "νeff = 24", "MC",
+		// tolerance, acceptance, zone, TUR, false-accept probability
+		"−50 … 50 µV", "accept −37.0 … 37.0 µV", "−20 … 20 ppm", "accept −17.25 … 17.25 ppm", "≤ 10 µV",
+		"conditional pass", "3.8:1 ¹", "7.3:1", "5.2 %", "< 0.0001 %",
+		"¹ Test uncertainty ratio below the minimum the limit file requires",
+		// decision rule, coverage, statements
+		"Decision rule", "Guarded acceptance, non-binary statement (ILAC-G8:09/2019 §4.2.3), guard band w = r·U, r = 1",
+		"Simple acceptance (ILAC-G8:09/2019 §4.2.1), w = 0", "Applies to limits post_offset and post_gain.", "Applies to limit post_noise.",
+		"coverage probability of 95.45 %", "Decision statements", "lies in the conditional pass zone",
+		// as found and as left
+		"As found: before adjustment (pre-trim sweep)", "As left: after adjustment (verify sweep)",
+		"Before trim, as found", "After trim, as left", "Sweep “pre-trim” (as found)", "Sweep “verify” (as left)",
+		// conditions and traceability
+		"Ambient 23.1 °C (entered by the operator)",
+		"traceable to the SI through the reference instruments EQ-0142 (source, Fictive Metrology DCV-20 s/n FM20-55831, cal. due 2026-09-30) and EQ-0097 (meter,",
+		"traceable to national measurement standards",
+	)
+	for _, want := range []string{"±", "k = 2", ":1", "conditional pass", "traceable"} {
+		if !strings.Contains(text, want) {
+			t.Errorf("text lacks %q", want)
+		}
+	}
+	if strings.Contains(text, "U not evaluated") {
+		t.Error("a record with uncertainties says U not evaluated")
+	}
+	if strings.Contains(text, "FX-BA7-03 (") {
+		t.Error("the unit's trim port is named as a reference instrument")
+	}
+}
+
+// The fixture's decisions: two guarded non-binary limits, one of them a
+// conditional pass, and a one-sided simple one.
+func TestSampleRecordDecisions(t *testing.T) {
+	zones := map[string]string{}
+	guarded := 0
+	for _, o := range sampleRecord().Outcomes {
+		if d := o.Decision; d != nil {
+			zones[o.Name] = d.Zone
+			if d.Rule == "guarded" && !d.Binary {
+				guarded++
+			}
+		}
+	}
+	want := map[string]string{"post_offset": limits.ZonePass, "post_gain": limits.ZoneConditionalPass, "post_noise": limits.ZonePass}
+	if guarded != 2 || len(zones) != 3 || zones["post_offset"] != want["post_offset"] || zones["post_gain"] != want["post_gain"] || zones["post_noise"] != want["post_noise"] {
+		t.Fatalf("fixture zones %v, %d guarded non-binary; want %v, 2", zones, guarded, want)
+	}
+}
+
+func TestReviewVerdict(t *testing.T) {
+	rec := reviewRecord()
+	pdf := render(t, rec, opt)
+	if !bytes.Equal(pdf, render(t, reviewRecord(), opt)) {
+		t.Error("REVIEW record renders differently twice")
+	}
+	text := pdfText(t, pdf)
+	requireText(t, text,
+		"REVIEW", "held for review: a result lies in a conditional zone",
+		"Why the verdict is REVIEW", rec.Reasons[0],
+		"conditional pass", "This unit is held for review by a person before it ships",
+		"Issued 2026-03-14 09:41:55 UTC",
+	)
+	if strings.Contains(text, "Not a certificate") || strings.Contains(text, "FAIL") {
+		t.Error("a REVIEW certificate reads as not certified or failed")
+	}
+	if n := strings.Count(flat(text), "held for review"); n < 2 {
+		t.Errorf("“held for review” %d times, want it in the verdict box and at post_gain", n)
+	}
+
+	// Held for a low TUR (tur_policy: refuse), nothing in a conditional zone.
+	rec = passRecord()
+	o := &rec.Outcomes[2] // post_offset: pass zone, TUR 3.8:1 below 4:1
+	o.Pass, o.Reason = false, "post_offset = −2.854 µV passes, but the TUR 3.8:1 is below the minimum 4:1 and tur_policy is refuse: review"
+	rec.Outcomes[3].Decision.Zone, rec.Outcomes[3].Decision.Statement = limits.ZonePass, "guarded acceptance: pass"
+	rec.Verdict, rec.Reasons = sequencer.Review, []string{"limit post_offset: " + o.Reason}
+	text = pdfText(t, render(t, rec, opt))
+	requireText(t, text, "held for review: a test uncertainty ratio is below the minimum", "tur_policy is refuse: review", "held for review")
+	if strings.Contains(text, "FAIL") || strings.Contains(flat(text), "lies in a conditional zone") || strings.Contains(text, "Conditional zones") {
+		t.Error("a pass held for its TUR reads as failed or conditional")
+	}
+}
+
+// Records from before uncertainties were evaluated (all zero, no decisions, no
+// coverage, no conditions) still render, and say so.
+func TestRecordWithoutUncertaintyRenders(t *testing.T) {
+	pdf := render(t, oldRecord(), opt)
+	if !bytes.Equal(pdf, render(t, oldRecord(), opt)) {
+		t.Error("old record renders differently twice")
+	}
+	text := pdfText(t, pdf)
+	requireText(t, text,
+		"U not evaluated", "Ambient temperature not recorded", "Limit expression", "abs(post_offset) <= 50",
+		"−2.854 µV", "U not evaluated: the record holds no measurement uncertainty.",
+		"8 limits: written as expressions", "1 of 8 limits failed", "traceable",
+	)
+	for _, bad := range []string{"k = ", "PFA", "TUR", "conditional", "coverage probability of"} {
+		if strings.Contains(text, bad) {
+			t.Errorf("old record shows %q", bad)
+		}
+	}
+	// One toleranced limit without U: judged by simple acceptance, U not evaluated.
+	rec := oldRecord()
+	rec.Outcomes[2].Decision = &limits.Decision{Result: "post_offset", Lower: ptr(-50), Upper: ptr(50), Rule: "simple",
+		Value: rec.Outcomes[2].Values["post_offset"], Binary: true, Zone: limits.ZonePass, Statement: "simple acceptance, U not evaluated"}
+	text = pdfText(t, render(t, rec, opt))
+	requireText(t, text, "−2.854 µV", "U not evaluated", "−50 … 50 µV", "simple acceptance, w = 0")
+}
+
+// Each zone has its word in the decision cell; PFA is given only for accepted results.
+func TestZonesRender(t *testing.T) {
+	rec := sampleRecord()
+	for i, z := range []string{limits.ZoneConditionalFail, limits.ZoneFail} {
+		o := &rec.Outcomes[2+i*3] // post_offset, post_noise
+		o.Decision.Zone = z
+		o.Pass = false
+		o.Reason = "result outside its acceptance interval"
+	}
+	text := pdfText(t, render(t, rec, opt))
+	requireText(t, text, "conditional fail", "conditional pass", "3 of 8 limits not passed")
+	if strings.Contains(text, "result outside its acceptance interval") {
+		t.Error("a toleranced limit's reason is repeated in the results table")
+	}
+	if n := strings.Count(text, "< 0.0001 %"); n != 0 {
+		t.Errorf("a rejected result shows a false-accept probability (%d times)", n)
+	}
+
+	// A binary statement that records a conditional zone is a plain fail.
+	rec = sampleRecord()
+	g := &rec.Outcomes[3]
+	g.Decision.Binary, g.Pass, g.Reason = true, false, "conditional pass, so fail (binary statement: only the acceptance interval passes)"
+	text = pdfText(t, render(t, rec, opt))
+	requireText(t, text, "conditional pass zone, binary")
+	if strings.Contains(text, "5.2 %") {
+		t.Error("a rejected binary result shows a false-accept probability")
+	}
+}
+
+// Traceability is not claimed through an instrument past its calibration date or
+// without one, nor when no reference instrument is recorded.
+func TestTraceabilityGaps(t *testing.T) {
+	rec := sampleRecord()
+	rec.Instruments[0].CalDue = "2025-12-31"
+	rec.Instruments[1].CalDue = ""
+	requireText(t, pdfText(t, render(t, rec, opt)),
+		"Traceability is not assured for this run: EQ-0142 was past its calibration due date (2025-12-31) when the unit was tested and EQ-0097 has no calibration due date on record.")
+	rec.Instruments = rec.Instruments[2:]
+	requireText(t, pdfText(t, render(t, rec, opt)), "No reference instrument (source or meter) is recorded for this run")
+}
+
+func TestSampleFitsThreePages(t *testing.T) {
+	for name, rec := range map[string]*sequencer.Record{"fail": sampleRecord(), "review": reviewRecord(), "old": oldRecord()} {
+		if pages := strings.Count(pdfText(t, render(t, rec, opt)), "\f"); pages > 3 {
+			t.Errorf("%s record: %d pages, want at most 3", name, pages)
+		}
+	}
 }
 
 func TestPassVerdict(t *testing.T) {
 	text := pdfText(t, render(t, passRecord(), opt))
-	for _, want := range []string{"PASS", "8 of 8 limits passed"} {
+	for _, want := range []string{"PASS", "8 of 8 limits passed", "conditional pass"} {
 		if !strings.Contains(text, want) {
 			t.Errorf("text lacks %q", want)
 		}
@@ -328,7 +503,8 @@ func TestWriteSamples(t *testing.T) {
 	if dir == "" {
 		t.Skip("set CERTIFICATE_SAMPLES to a directory to write sample certificates")
 	}
-	for name, rec := range map[string]*sequencer.Record{"fail": sampleRecord(), "pass": passRecord(), "fault": faultRecord()} {
+	for name, rec := range map[string]*sequencer.Record{"fail": sampleRecord(), "pass": passRecord(), "fault": faultRecord(),
+		"review": reviewRecord(), "old": oldRecord()} {
 		if err := certificate.WriteFile(filepath.Join(dir, "cert-"+name+".pdf"), rec, opt); err != nil {
 			t.Fatal(err)
 		}

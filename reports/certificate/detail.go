@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"math"
 	"strconv"
+	"strings"
 
 	"trimline/sequencer"
 )
@@ -14,16 +15,22 @@ const (
 	sweepVerify = "verify"
 )
 
-// detail is the measurement detail: results no limit judged, the straight-line
-// fits, the error plots and every sweep point. It follows on the same page when
-// all of it fits there, and starts a page of its own otherwise.
+// detail is the measurement detail: the decision statements of the toleranced
+// limits, results no limit judged, the straight-line fits, the error plots and
+// every sweep point. On page 1 it follows on the same page only when all of it
+// fits there, so that page 1 stays the certificate proper; on a later page (page 1
+// already overflowed) it flows on, each heading kept with its first rows.
 func (d *doc) detail() {
+	sCols, sRows := d.statements()
 	oCols, oRows := d.otherResults()
 	fCols, fRows := d.fits()
 	pre, post, plotH := d.plotSeries()
 	pts := d.pointTables()
 
 	total := 0.0
+	if len(sRows) > 0 {
+		total += headingH + d.tableHeight(sCols, sRows)
+	}
 	if len(oRows) > 0 {
 		total += headingH + d.tableHeight(oCols, oRows)
 	}
@@ -35,10 +42,14 @@ func (d *doc) detail() {
 	for _, t := range pts {
 		total += d.tableHeight(t.cols, t.rows, t.groups...) + 3
 	}
-	if d.y+total > bottom {
+	if d.pdf.PageNo() == 1 && d.y+total > bottom {
 		d.newPage()
 	}
 
+	if len(sRows) > 0 {
+		d.heading("Decision statements", keep(d.tableHeight(sCols, sRows)))
+		d.table(sCols, sRows)
+	}
 	if len(oRows) > 0 {
 		d.heading("Other results (not judged by a limit)", keep(d.tableHeight(oCols, oRows)))
 		d.table(oCols, oRows)
@@ -49,6 +60,21 @@ func (d *doc) detail() {
 	}
 	d.plots(pre, post, plotH)
 	d.sweepPoints(pts)
+}
+
+// statements lists the decision statement of every toleranced limit, in words, as
+// the limits package gave it.
+func (d *doc) statements() ([]column, []row) {
+	var rows []row
+	for _, o := range d.outcomesByStage() {
+		dd := o.Decision
+		if dd == nil || strings.TrimSpace(dd.Statement) == "" {
+			continue
+		}
+		name := cell{{o.Name, stBold}, {stageWord(outcomeStage(o)), stSmall}}
+		rows = append(rows, row{name, c1(dd.Statement, stBody), d.zoneCell(o)})
+	}
+	return []column{{title: "Limit", w: 40, align: "L"}, {title: "Statement", w: 116, align: "L"}, {title: "Decision", w: 24, align: "C"}}, rows
 }
 
 // otherResults lists the results that no limit uses.
@@ -71,9 +97,18 @@ func (d *doc) otherResults() ([]column, []row) {
 		if !r.Valid {
 			st = stBody.with(colMuted)
 		}
-		rows = append(rows, row{c1(r.Name, stBold), c1(fmtResult(r), st), c1(r.Note, stSmall)})
+		note := r.Note
+		if r.Valid && finite(r.Value) && r.Unit != "code" {
+			note = strings.TrimSpace(uncLine(r.Unc.Expanded, r.Unc.K, r.Unc.DOF, r.Unc.Method) + "   " + note)
+		}
+		rows = append(rows, row{c1(r.Name, stBold), c1(stageWord(stageOf(r.Name)), stBody), c1(fmtResultU(r), st), c1(note, stSmall)})
 	}
-	return []column{{title: "Result", w: 62, align: "L"}, {title: "Value", w: 34, align: "R"}, {title: "Note", w: 84, align: "L", gap: 4}}, rows
+	return []column{
+		{title: "Result", w: 48, align: "L"},
+		{title: "Stage", w: 20, align: "L"},
+		{title: "Value ± U", w: 46, align: "R"},
+		{title: "Uncertainty · note", w: 66, align: "L", gap: 4},
+	}, rows
 }
 
 // fits is the table of straight-line fits of the sweeps.
@@ -104,7 +139,7 @@ func (d *doc) fits() ([]column, []row) {
 			slope = strconv.FormatFloat(f.Slope, 'g', 7, 64) + " V/V"
 		}
 		rows = append(rows, row{
-			c1(dash(f.Sweep), stBold),
+			cell{{dash(f.Sweep), stBold}, {stageWord(sweepStage(f.Sweep)), stSmall}},
 			c1(strconv.Itoa(f.DOF), stBody),
 			c1(slope, stBody),
 			c1(gainErr, stBody),
@@ -118,6 +153,27 @@ func (d *doc) fits() ([]column, []row) {
 }
 
 func finite(v float64) bool { return !math.IsNaN(v) && !math.IsInf(v, 0) }
+
+// sweepStage is the stage of a sweep: the pre-trim sweep finds the unit as it came,
+// the verify sweep leaves it as it ships.
+func sweepStage(name string) stage {
+	switch name {
+	case sweepPre:
+		return stageFound
+	case sweepVerify:
+		return stageLeft
+	}
+	return stageOther
+}
+
+// sweepTitle names a sweep with its stage: "Sweep “pre-trim” (as found)".
+func sweepTitle(name string) string {
+	t := "Sweep “" + name + "”"
+	if st := sweepStage(name); st != stageOther {
+		t += " (" + stageWord(st) + ")"
+	}
+	return t
+}
 
 // sweepByName returns the first sweep with the given name, or nil.
 func (d *doc) sweepByName(name string) *sequencer.Sweep {
@@ -178,8 +234,8 @@ func (d *doc) plots(sPre, sPost series, h float64) {
 		return
 	}
 	w := (contentW - gap) / 2
-	d.plot(marginL, d.y, w, plotH, "Before trim", sPre)
-	d.plot(marginL+w+gap, d.y, w, plotH, "After trim", sPost)
+	d.plot(marginL, d.y, w, plotH, "Before trim, as found", sPre)
+	d.plot(marginL+w+gap, d.y, w, plotH, "After trim, as left", sPost)
 	d.y += plotH + 1.5
 
 	// Legend, shared by the two plots.
@@ -227,9 +283,9 @@ func (d *doc) pointTables() []pointTable {
 		if len(pair[0].Points) == 0 && (len(pair) == 1 || len(pair[1].Points) == 0) {
 			continue
 		}
-		groups := []group{{"Sweep “" + pair[0].Name + "”", 6}}
+		groups := []group{{sweepTitle(pair[0].Name), 6}}
 		if len(pair) == 2 {
-			groups = append(groups, group{"Sweep “" + pair[1].Name + "”", 6})
+			groups = append(groups, group{sweepTitle(pair[1].Name), 6})
 		}
 		var rows []row
 		for i := 0; i < len(pair[0].Points) || len(pair) == 2 && i < len(pair[1].Points); i++ {

@@ -54,9 +54,26 @@ func isCount(u string) bool {
 	return false
 }
 
+// minus writes a leading hyphen-minus as the minus sign U+2212, the way a number is
+// set in print. "-0" (a negative value rounded to zero) loses its sign.
+func minus(s string) string {
+	rest, ok := strings.CutPrefix(s, "-")
+	if !ok {
+		return s
+	}
+	if strings.Trim(rest, "0.") == "" {
+		return rest
+	}
+	return "−" + rest
+}
+
 // fmtNum writes v with four significant digits in fixed notation, or in
 // exponent notation when it is very large or very small.
 func fmtNum(v float64) string {
+	return minus(fmtNumRaw(v))
+}
+
+func fmtNumRaw(v float64) string {
 	switch {
 	case math.IsNaN(v):
 		return "NaN"
@@ -82,7 +99,7 @@ func fmtValue(v float64, unit string) string {
 		return "not valid"
 	}
 	if isCount(unit) {
-		return strconv.FormatFloat(math.Round(v), 'f', 0, 64)
+		return minus(strconv.FormatFloat(math.Round(v), 'f', 0, 64))
 	}
 	u := dispUnit(unit)
 	if u == "" {
@@ -95,6 +112,22 @@ func fmtValue(v float64, unit string) string {
 // uses more than one result. The order is the order of Uses, then any other keys
 // sorted, so that map order never reaches the page.
 func outcomeValues(o limits.Outcome) []string {
+	keys := outcomeKeys(o)
+	if len(keys) == 0 {
+		return []string{"not measured"}
+	}
+	if len(keys) == 1 {
+		return []string{fmtValue(o.Values[keys[0]], o.Unit)}
+	}
+	out := make([]string, len(keys))
+	for i, k := range keys {
+		out[i] = k + " = " + fmtValue(o.Values[k], o.Unit)
+	}
+	return out
+}
+
+// outcomeKeys are the keys of o.Values in the order outcomeValues lists them.
+func outcomeKeys(o limits.Outcome) []string {
 	keys := make([]string, 0, len(o.Values))
 	seen := map[string]bool{}
 	for _, k := range o.Uses {
@@ -110,18 +143,7 @@ func outcomeValues(o limits.Outcome) []string {
 		}
 	}
 	sort.Strings(rest)
-	keys = append(keys, rest...)
-	if len(keys) == 0 {
-		return []string{"not measured"}
-	}
-	if len(keys) == 1 {
-		return []string{fmtValue(o.Values[keys[0]], o.Unit)}
-	}
-	out := make([]string, len(keys))
-	for i, k := range keys {
-		out[i] = k + " = " + fmtValue(o.Values[k], o.Unit)
-	}
-	return out
+	return append(keys, rest...)
 }
 
 // fmtResult writes a result's value in its dimension: volts with an SI prefix,
@@ -132,14 +154,14 @@ func fmtResult(r sequencer.Result) string {
 	}
 	switch r.Unit {
 	case "V":
-		return units.Format(r.Value, "V", 4)
+		return minus(units.Format(r.Value, "V", 4))
 	case "ratio":
 		if math.Abs(r.Value) >= 0.01 {
-			return strconv.FormatFloat(r.Value*100, 'f', 3, 64) + " %"
+			return minus(strconv.FormatFloat(r.Value*100, 'f', 3, 64)) + " %"
 		}
-		return units.Format(r.Value*1e6, "ppm", 4)
+		return minus(units.Format(r.Value*1e6, "ppm", 4))
 	case "code":
-		return strconv.FormatFloat(math.Round(r.Value), 'f', 0, 64)
+		return minus(strconv.FormatFloat(math.Round(r.Value), 'f', 0, 64))
 	}
 	return strings.TrimSpace(fmtNum(r.Value) + " " + r.Unit)
 }
@@ -149,7 +171,314 @@ func fmtVolts(v float64, digits int) string {
 	if math.IsNaN(v) || math.IsInf(v, 0) {
 		return "—"
 	}
-	return units.Format(v, "V", digits)
+	return minus(units.Format(v, "V", digits))
+}
+
+// Measurement uncertainty.
+//
+// A value and its expanded uncertainty U are written in one unit, U with two
+// significant digits, rounded up (JCGM 100:2008 §7.2.6 allows rounding up; it never
+// makes the stated uncertainty smaller than the evaluated one), and the value
+// rounded to the same decimal place: "−3.2 µV ± 8.4 µV".
+
+// hasU reports whether U is an evaluated expanded uncertainty.
+func hasU(U float64) bool { return U > 0 && finite(U) }
+
+// roundU rounds U up to two significant digits and returns it with the number of
+// decimals to write it (negative: U is rounded to tens, hundreds, ...).
+func roundU(U float64) (float64, int) {
+	dec := 1 - int(math.Floor(math.Log10(U)))
+	for range 2 {
+		p := math.Pow(10, float64(dec))
+		x := U * p
+		r := math.Ceil(x - 1e-9*x)
+		if r >= 100 { // 9.96 → 10.0: three digits, one decimal fewer
+			dec--
+			continue
+		}
+		return r / p, dec
+	}
+	p := math.Pow(10, float64(dec))
+	return math.Ceil(U*p-1e-9*U*p) / p, dec
+}
+
+// fmtDec writes v with dec decimals; a negative dec rounds v to 10^-dec first.
+func fmtDec(v float64, dec int) string {
+	if dec < 0 {
+		p := math.Pow(10, float64(-dec))
+		return minus(strconv.FormatFloat(math.Round(v/p)*p, 'f', 0, 64))
+	}
+	return minus(strconv.FormatFloat(v, 'f', min(dec, 15), 64))
+}
+
+// fmtWithU writes "value ± U unit" with v and U in unit (a limit-file unit such as
+// "uV" or "ppm"). Without an evaluated U, or for a count, it is fmtValue(v, unit).
+func fmtWithU(v, U float64, unit string) string {
+	if !finite(v) {
+		return "not valid"
+	}
+	if !hasU(U) || isCount(unit) {
+		return fmtValue(v, unit)
+	}
+	ur, dec := roundU(U)
+	if dec > 15 || dec < -15 { // no sensible fixed notation
+		return strings.TrimSpace(fmtNum(v) + " ± " + fmtNum(U) + " " + dispUnit(unit))
+	}
+	u := dispUnit(unit)
+	if u == "" {
+		return fmtDec(v, dec) + " ± " + fmtDec(ur, dec)
+	}
+	return fmtDec(v, dec) + " " + u + " ± " + fmtDec(ur, dec) + " " + u
+}
+
+// fmtK writes a coverage factor: "k = 2.00".
+func fmtK(k float64) string {
+	if !finite(k) || k <= 0 {
+		return "k not stated"
+	}
+	return "k = " + strconv.FormatFloat(k, 'f', 2, 64)
+}
+
+// fmtDOF writes effective degrees of freedom: "νeff = 37", "νeff = ∞", or "" when
+// not stated. A fractional dof (Welch–Satterthwaite) is truncated, as for a table
+// of t-factors; from 1000 on the coverage factor no longer depends on it and it is
+// written "νeff ≥ 1000".
+func fmtDOF(dof float64) string {
+	switch {
+	case math.IsInf(dof, 1):
+		return "νeff = ∞"
+	case math.IsNaN(dof) || dof <= 0:
+		return ""
+	case dof >= 1000:
+		return "νeff ≥ 1000"
+	}
+	return "νeff = " + strconv.FormatFloat(math.Floor(dof), 'f', 0, 64)
+}
+
+// uncLine is the small print under a value with its uncertainty: coverage factor,
+// degrees of freedom and, when stated, the method. It is "U not evaluated" without
+// an uncertainty.
+func uncLine(U, k, dof float64, method string) string {
+	if !hasU(U) {
+		return "U not evaluated"
+	}
+	parts := []string{fmtK(k)}
+	if s := fmtDOF(dof); s != "" {
+		parts = append(parts, s)
+	}
+	if method != "" {
+		parts = append(parts, method)
+	}
+	return strings.Join(parts, " · ")
+}
+
+// unitScale is the SI value of one unit as a limit file writes it ("uV" is 1e-6,
+// "%" is 0.01, "code" and "" are 1), or 0 when the unit is not known.
+func unitScale(unit string) float64 {
+	u := strings.TrimSpace(unit)
+	if u == "" {
+		return 1
+	}
+	q, err := units.Parse("1" + u)
+	if err != nil || q.Value == 0 || !finite(q.Value) {
+		return 0
+	}
+	return q.Value
+}
+
+// resultUnit is the unit a result is written in on its own (outside a limit), in
+// limit-file spelling, and the SI value of one of it: volts with the SI prefix that
+// suits the larger of |value| and U, ratios in % from 1 % up and in ppm below,
+// codes as codes.
+func resultUnit(r sequencer.Result) (string, float64) {
+	switch r.Unit {
+	case "V":
+		m := math.Abs(r.Value)
+		if hasU(r.Unc.Expanded) {
+			m = math.Max(m, r.Unc.Expanded)
+		}
+		switch {
+		case m >= 1 || !finite(m):
+			return "V", 1
+		case m >= 1e-3:
+			return "mV", 1e-3
+		case m >= 1e-6 || m == 0:
+			return "uV", 1e-6
+		}
+		return "nV", 1e-9
+	case "ratio":
+		if math.Abs(r.Value) >= 0.01 {
+			return "%", 0.01
+		}
+		return "ppm", 1e-6
+	case "code":
+		return "code", 1
+	}
+	return r.Unit, 1
+}
+
+// fmtResultU writes a result with its uncertainty, in the unit resultUnit picks.
+func fmtResultU(r sequencer.Result) string {
+	if !r.Valid || !finite(r.Value) {
+		return "not valid"
+	}
+	if !hasU(r.Unc.Expanded) {
+		return fmtResult(r)
+	}
+	unit, scale := resultUnit(r)
+	return fmtWithU(r.Value/scale, r.Unc.Expanded/scale, unit)
+}
+
+// fmtLimitNum writes a tolerance limit as the limit file gave it: the shortest
+// decimal form.
+func fmtLimitNum(v float64) string {
+	if !finite(v) {
+		return fmtNum(v)
+	}
+	a := math.Abs(v)
+	if a != 0 && (a >= 1e9 || a < 1e-6) {
+		return minus(strconv.FormatFloat(v, 'g', -1, 64))
+	}
+	return minus(strconv.FormatFloat(v, 'f', -1, 64))
+}
+
+// fmtInterval writes an interval with a unit: "−50 … 50 µV", one-sided "≤ 0.01 %"
+// or "≥ 5 µV", or "—" when unbounded. num writes one end.
+func fmtInterval(lo, hi *float64, unit string, num func(v float64, upper bool) string) string {
+	u := dispUnit(unit)
+	if isCount(unit) {
+		u = ""
+	}
+	with := func(s string) string { return strings.TrimSpace(s + " " + u) }
+	switch {
+	case lo != nil && hi != nil:
+		return with(num(*lo, false) + " … " + num(*hi, true))
+	case hi != nil:
+		return with("≤ " + num(*hi, true))
+	case lo != nil:
+		return with("≥ " + num(*lo, false))
+	}
+	return "—"
+}
+
+// fmtTolerance writes a decision's tolerance interval.
+func fmtTolerance(d *limits.Decision, unit string) string {
+	return fmtInterval(d.Lower, d.Upper, unit, func(v float64, _ bool) string { return fmtLimitNum(v) })
+}
+
+// fmtAcceptance writes a decision's acceptance interval to the decimals of its U,
+// rounded inward (the lower limit up, the upper down), so that the printed interval
+// never claims more than the evaluated one.
+func fmtAcceptance(d *limits.Decision, unit string) string {
+	if !hasU(d.U) {
+		return fmtInterval(d.AcceptLower, d.AcceptUpper, unit, func(v float64, _ bool) string { return fmtLimitNum(v) })
+	}
+	_, dec := roundU(d.U)
+	dec = max(dec, 0) + 1 // one digit finer than U
+	p := math.Pow(10, float64(dec))
+	return fmtInterval(d.AcceptLower, d.AcceptUpper, unit, func(v float64, upper bool) string {
+		x := v * p
+		if upper {
+			x = math.Floor(x + 1e-9*math.Abs(x))
+		} else {
+			x = math.Ceil(x - 1e-9*math.Abs(x))
+		}
+		return fmtDec(x/p, dec)
+	})
+}
+
+// fmtTUR writes a test uncertainty ratio "4.2:1", or "—" when it is not defined
+// (one-sided tolerance, U not evaluated).
+func fmtTUR(t float64) string {
+	if !finite(t) || t <= 0 {
+		return "—"
+	}
+	if t >= 10 {
+		return strconv.FormatFloat(t, 'f', 0, 64) + ":1"
+	}
+	return strconv.FormatFloat(t, 'f', 1, 64) + ":1"
+}
+
+// fmtPercent writes a probability in percent with two significant digits:
+// "0.73 %", "12 %", "< 0.0001 %". Zero is written "< 0.0001 %" too: a tail
+// probability that underflowed is small, not impossible.
+func fmtPercent(p float64) string {
+	if !finite(p) || p < 0 {
+		return "—"
+	}
+	pct := p * 100
+	switch {
+	case pct < 1e-4:
+		return "< 0.0001 %"
+	case pct >= 99.5:
+		return strconv.FormatFloat(pct, 'f', 0, 64) + " %"
+	}
+	dec := max(0, 1-int(math.Floor(math.Log10(pct))))
+	return strconv.FormatFloat(pct, 'f', dec, 64) + " %"
+}
+
+// fmtCoverage writes a coverage probability as a percentage: 0.9545 is "95.45 %".
+func fmtCoverage(p float64) string {
+	s := strconv.FormatFloat(p*100, 'f', 4, 64)
+	s = strings.TrimRight(strings.TrimRight(s, "0"), ".")
+	return s + " %"
+}
+
+// stage is when in the run a result was measured.
+type stage int
+
+const (
+	stageFound stage = iota // before adjustment: pre_* results, the pre-trim sweep
+	stageLeft               // after adjustment: post_* results, the verify sweep
+	stageOther              // trim codes, or results of both stages
+)
+
+// stageOf is the stage of a set of result names: as found when every name starts
+// with "pre_", as left when every one starts with "post_", else other.
+func stageOf(names ...string) stage {
+	if len(names) == 0 {
+		return stageOther
+	}
+	all := func(prefix string) bool {
+		for _, n := range names {
+			if !strings.HasPrefix(n, prefix) {
+				return false
+			}
+		}
+		return true
+	}
+	switch {
+	case all("pre_"):
+		return stageFound
+	case all("post_"):
+		return stageLeft
+	}
+	return stageOther
+}
+
+// outcomeStage is the stage of the results a limit judges.
+func outcomeStage(o limits.Outcome) stage {
+	if o.Decision != nil && o.Decision.Result != "" {
+		return stageOf(o.Decision.Result)
+	}
+	names := append([]string(nil), o.Uses...)
+	if len(names) == 0 {
+		for k := range o.Values {
+			names = append(names, k)
+		}
+	}
+	return stageOf(names...)
+}
+
+// stageWord is the short label of a stage.
+func stageWord(s stage) string {
+	switch s {
+	case stageFound:
+		return "as found"
+	case stageLeft:
+		return "as left"
+	}
+	return "—"
 }
 
 func yesNo(b bool) string {

@@ -36,6 +36,11 @@ var (
 	colFault    = rgb{194, 104, 0}
 	colAborted  = rgb{98, 104, 112}
 	colReasonBg = rgb{252, 237, 237}
+	colReview   = rgb{204, 128, 0}   // REVIEW verdict box
+	colReviewBg = rgb{250, 242, 226} // tint behind the reasons of a REVIEW
+	colCondPass = rgb{180, 110, 0}   // zone "conditional pass": amber, dark enough for text
+	colCondFail = rgb{214, 78, 24}   // zone "conditional fail": orange-red
+	colBand     = rgb{241, 244, 248} // band rows inside a table
 	colPre      = rgb{212, 94, 18}
 	colPost     = rgb{26, 86, 172}
 )
@@ -231,10 +236,30 @@ const (
 	padY = 0.8
 )
 
+// band is a title row across a whole table, drawn before row at: it labels the
+// rows that follow, up to the next band.
+type band struct {
+	at    int
+	title string
+}
+
+// stBand is the style of a band title.
+var stBand = style{sans, "B", 7.6, colInk}
+
+// bandH is the height of a band row.
+func bandH() float64 { return stBand.lineH() + 2*padY + 0.4 }
+
 // table draws a table with a header row (and a row of group titles above it when
 // groups is not empty). Rows that do not fit on the page move to the next one,
 // which repeats the header.
 func (d *doc) table(cols []column, rows []row, groups ...group) {
+	d.bandTable(cols, rows, nil, groups...)
+}
+
+// bandTable is table with band rows. A band is never the last row on a page: it
+// moves to the next page with its first row. On a page that starts inside a band,
+// the band's title is repeated under the header with "(continued)".
+func (d *doc) bandTable(cols []column, rows []row, bands []band, groups ...group) {
 	seps := func(y, h float64) {
 		x := marginL
 		for _, c := range cols {
@@ -272,13 +297,39 @@ func (d *doc) table(cols []column, rows []row, groups ...group) {
 		seps(d.y, h)
 		d.y += h
 	}
+	drawBand := func(title string) {
+		h := bandH()
+		d.fill(colBand)
+		d.pdf.Rect(marginL, d.y, contentW, h, "F")
+		d.text(marginL+padX, d.y+0.2, contentW-2*padX, h, title, stBand, "L")
+		d.y += h
+		d.draw(colRule)
+		d.pdf.SetLineWidth(0.2)
+		d.pdf.Line(marginL, d.y, marginL+contentW, d.y)
+	}
 	header()
+	current, zebra := "", 0
 	for i, r := range rows {
 		laid, h := d.layoutRow(cols, r)
-		if d.need(h) {
-			header()
+		starts := ""
+		for _, b := range bands {
+			if b.at == i {
+				starts = b.title
+			}
 		}
-		if i%2 == 1 {
+		if starts != "" {
+			if d.need(bandH() + h) {
+				header()
+			}
+			drawBand(starts)
+			current, zebra = starts, 0
+		} else if d.need(h) {
+			header()
+			if current != "" {
+				drawBand(current + " (continued)")
+			}
+		}
+		if zebra%2 == 1 {
 			d.fill(colZebra)
 			d.pdf.Rect(marginL, d.y, contentW, h, "F")
 		}
@@ -297,6 +348,7 @@ func (d *doc) table(cols []column, rows []row, groups ...group) {
 		d.draw(colGrid)
 		d.pdf.SetLineWidth(0.2)
 		d.pdf.Line(marginL, d.y, marginL+contentW, d.y)
+		zebra++
 	}
 	if len(rows) == 0 {
 		h := stBody.lineH() + 2*padY
@@ -331,7 +383,12 @@ func (d *doc) layoutRow(cols []column, r row) ([][]laidLine, float64) {
 
 // tableHeight is the height table(cols, rows, groups...) takes on one page.
 func (d *doc) tableHeight(cols []column, rows []row, groups ...group) float64 {
-	h := stHead.lineH() + 2*padY
+	return d.bandTableHeight(cols, rows, nil, groups...)
+}
+
+// bandTableHeight is the height bandTable takes on one page.
+func (d *doc) bandTableHeight(cols []column, rows []row, bands []band, groups ...group) float64 {
+	h := stHead.lineH() + 2*padY + float64(len(bands))*bandH()
 	if len(groups) > 0 {
 		h += stBold.lineH() + 2*padY
 	}

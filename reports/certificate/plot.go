@@ -95,7 +95,7 @@ func newAxis(lo, hi, pad float64, n int) axis {
 	return a
 }
 
-func (a axis) label(v float64) string { return strconv.FormatFloat(v, 'f', a.dec, 64) }
+func (a axis) label(v float64) string { return minus(strconv.FormatFloat(v, 'f', a.dec, 64)) }
 
 // plot draws one error-versus-stimulus chart in the box (x, y, w, h).
 func (d *doc) plot(x, y, w, h float64, title string, s series) {

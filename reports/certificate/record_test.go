@@ -78,12 +78,77 @@ func fitSweep(s sequencer.Sweep) sequencer.FitSummary {
 	return f
 }
 
+// unc is an uncertainty with U = k·u.
+func unc(u, dof, k float64, method string) sequencer.Uncertainty {
+	return sequencer.Uncertainty{Std: u, DOF: dof, K: k, Expanded: k * u, Method: method}
+}
+
+func ptr(v float64) *float64 { return &v }
+
+// normCDF is the standard normal distribution function.
+func normCDF(z float64) float64 { return 0.5 * math.Erfc(-z/math.Sqrt2) }
+
+// decide evaluates a toleranced limit the way the limits package does
+// (ILAC-G8:09/2019): acceptance limits AL = TL ∓ w with w = r·U for the guarded
+// rule, the zone of the value, the probability that the true value (normal, mean
+// v, sd u) lies outside the tolerance, and TUR = (upper − lower)/(2U). A TUR below
+// 4:1 (common practice) is flagged low. As in the limits package, the decision's
+// dof is 0 for infinite.
+func decide(result string, v float64, lo, hi *float64, rule string, r float64, binary bool, u, k, dof float64) *limits.Decision {
+	U := k * u
+	if math.IsInf(dof, 1) {
+		dof = 0
+	}
+	d := &limits.Decision{Result: result, Lower: lo, Upper: hi, Rule: rule, Value: v, Std: u, U: U, K: k, DOF: dof, Binary: binary}
+	if rule == "guarded" {
+		d.GuardFactor, d.Guard = r, r*U
+	}
+	w := d.Guard
+	inside, accept, near := true, true, true
+	if lo != nil {
+		d.AcceptLower = ptr(*lo + w)
+		inside, accept, near = inside && v >= *lo, accept && v >= *lo+w, near && v >= *lo-w
+		d.POutside += normCDF((*lo - v) / u)
+	}
+	if hi != nil {
+		d.AcceptUpper = ptr(*hi - w)
+		inside, accept, near = inside && v <= *hi, accept && v <= *hi-w, near && v <= *hi+w
+		d.POutside += 1 - normCDF((*hi-v)/u)
+	}
+	switch {
+	case accept:
+		d.Zone = limits.ZonePass
+	case inside && !binary:
+		d.Zone = limits.ZoneConditionalPass
+	case !inside && near && !binary:
+		d.Zone = limits.ZoneConditionalFail
+	default:
+		d.Zone = limits.ZoneFail
+	}
+	if lo != nil && hi != nil {
+		d.TUR = (*hi - *lo) / (2 * U)
+		d.TURLow = d.TUR < 4
+	}
+	how := "simple acceptance (w = 0)"
+	if rule == "guarded" {
+		how = fmt.Sprintf("guarded acceptance, w = %g·U = %.3g", r, w)
+	}
+	d.Statement = fmt.Sprintf("Judged by %s, %s statement: the measured value %.4g with U = %.2g (k = %.2f) lies in the %s zone; "+
+		"probability that the true value is outside the tolerance %.2g.", how, map[bool]string{true: "binary", false: "non-binary"}[binary],
+		v, U, k, d.Zone, d.POutside)
+	return d
+}
+
 // sampleRecord is a realistic FAIL record: trimmed well, but its post-trim
-// nonlinearity is just above the limit.
+// nonlinearity is just above the limit. Three limits are toleranced: post_offset
+// and post_gain by guarded acceptance with a non-binary statement (post_offset with
+// a low TUR, post_gain in the conditional-pass zone, which this limit file's policy
+// ships: conditional_pass: ship), post_noise by simple acceptance against a
+// one-sided tolerance. The others are expressions.
 func sampleRecord() *sequencer.Record {
 	rng := rand.New(rand.NewPCG(7, 11))
 	pre := sweep("pre-trim", rng, t0.Add(3*time.Second), idealGain*1.0081, idealOffset+3.214e-3, 0.42e-3, 2.1e-6, 8)
-	post := sweep("verify", rng, t0.Add(26*time.Second), idealGain*(1+3.1e-6), idealOffset-4.2e-6, 18e-6, 1.8e-6, 8)
+	post := sweep("verify", rng, t0.Add(26*time.Second), idealGain*(1+17.9e-6), idealOffset-4.2e-6, 18e-6, 1.8e-6, 8)
 	fPre, fPost := fitSweep(pre), fitSweep(post)
 
 	preOffset := fPre.Intercept - idealOffset
@@ -95,18 +160,19 @@ func sampleRecord() *sequencer.Record {
 		postMax = math.Max(postMax, math.Abs(p.Mean-(idealGain*p.Stimulus+idealOffset)))
 	}
 
+	inf := math.Inf(1)
 	results := []sequencer.Result{
-		{Name: "pre_offset", Value: preOffset, Unit: "V", Valid: true},
-		{Name: "pre_gain_error", Value: preGainErr, Unit: "ratio", Valid: true},
-		{Name: "pre_nonlinearity", Value: fPre.Nonlinearity, Unit: "ratio", Valid: true},
-		{Name: "post_offset", Value: postOffset, Unit: "V", Valid: true},
-		{Name: "post_gain_error", Value: postGainErr, Unit: "ratio", Valid: true},
-		{Name: "post_nonlinearity", Value: fPost.Nonlinearity, Unit: "ratio", Valid: true},
-		{Name: "post_noise", Value: fPost.ResidualSD, Unit: "V", Valid: true},
-		{Name: "post_max_error", Value: postMax, Unit: "V", Valid: true},
+		{Name: "pre_offset", Value: preOffset, Unit: "V", Valid: true, Unc: unc(6.6e-6, inf, 2, "GUM")},
+		{Name: "pre_gain_error", Value: preGainErr, Unit: "ratio", Valid: true, Unc: unc(1.4e-6, 30, 2.09, "GUM")},
+		{Name: "pre_nonlinearity", Value: fPre.Nonlinearity, Unit: "ratio", Valid: true, Unc: unc(0.21e-6, 9, 2.32, "GUM")},
+		{Name: "post_offset", Value: postOffset, Unit: "V", Valid: true, Unc: unc(6.5e-6, inf, 2, "GUM")},
+		{Name: "post_gain_error", Value: postGainErr, Unit: "ratio", Valid: true, Unc: unc(1.3e-6, 24, 2.11, "MC")},
+		{Name: "post_nonlinearity", Value: fPost.Nonlinearity, Unit: "ratio", Valid: true, Unc: unc(0.2e-6, 9, 2.32, "GUM")},
+		{Name: "post_noise", Value: fPost.ResidualSD, Unit: "V", Valid: true, Unc: unc(0.45e-6, 9, 2.32, "GUM")},
+		{Name: "post_max_error", Value: postMax, Unit: "V", Valid: true, Unc: unc(6.6e-6, inf, 2, "GUM")},
 		{Name: "offset_code", Value: 1873, Unit: "code", Valid: true},
 		{Name: "gain_code", Value: 2405, Unit: "code", Valid: true},
-		{Name: "pre_noise", Value: fPre.ResidualSD, Unit: "V", Valid: true},
+		{Name: "pre_noise", Value: fPre.ResidualSD, Unit: "V", Valid: true, Unc: unc(9e-6, 9, 2.32, "GUM")},
 		{Name: "post_drift", Value: math.NaN(), Unit: "V", Valid: false, Note: "not measured: one verify sweep only"},
 	}
 	// lim is a one-result limit "[abs(]name[)] <= max" in unit, judged here the way
@@ -131,13 +197,32 @@ func sampleRecord() *sequencer.Record {
 		}
 		return o
 	}
+	// tol is a toleranced limit judged by decide; the value and u are scaled into
+	// the limit's unit.
+	tol := func(name, desc, result, unit string, scale float64, lo, hi *float64, rule string, binary bool) limits.Outcome {
+		o := lim(name, desc, result, unit, scale, *hi, lo != nil)
+		var r sequencer.Result
+		for _, x := range results {
+			if x.Name == result {
+				r = x
+			}
+		}
+		d := decide(result, o.Values[result], lo, hi, rule, 1, binary, r.Unc.Std*scale, r.Unc.K, r.Unc.DOF)
+		o.Decision = d
+		o.Pass = d.Zone == limits.ZonePass || d.Zone == limits.ZoneConditionalPass && !binary // conditional_pass: ship
+		o.Reason = ""
+		if !o.Pass {
+			o.Reason = fmt.Sprintf("%s is in the %s zone", result, d.Zone)
+		}
+		return o
+	}
 	outcomes := []limits.Outcome{
 		lim("pre_offset_in_range", "Untrimmed offset within the trim range", "pre_offset", "mV", 1e3, 25, true),
 		lim("pre_gain_in_range", "Untrimmed gain error within the trim range", "pre_gain_error", "%", 100, 2, true),
-		lim("post_offset", "Offset after trim", "post_offset", "uV", 1e6, 50, true),
-		lim("post_gain", "Gain error after trim", "post_gain_error", "ppm", 1e6, 20, true),
+		tol("post_offset", "Offset after trim", "post_offset", "uV", 1e6, ptr(-50), ptr(50), "guarded", false),
+		tol("post_gain", "Gain error after trim", "post_gain_error", "ppm", 1e6, ptr(-20), ptr(20), "guarded", false),
 		lim("post_linearity", "Nonlinearity after trim, of full scale", "post_nonlinearity", "ppm", 1e6, 2, false),
-		lim("post_noise", "Residual scatter about the fitted line", "post_noise", "uV", 1e6, 10, false),
+		tol("post_noise", "Residual scatter about the fitted line", "post_noise", "uV", 1e6, nil, ptr(10), "simple", true),
 		lim("post_max_error", "Largest error of any verify point", "post_max_error", "uV", 1e6, 100, false),
 		{Name: "codes_in_range", Description: "Trim codes clear of the DAC end stops",
 			Expr: "offset_code >= 16 && offset_code <= 4079 && gain_code >= 16 && gain_code <= 4079", Unit: "code",
@@ -189,11 +274,42 @@ func sampleRecord() *sequencer.Record {
 			{DAC: "offset", Before: 2048, Ideal: 1873.417, Code: 1873, Readback: 1873, Stored: true},
 			{DAC: "gain", Before: 2048, Ideal: 2405.262, Code: 2405, Readback: 2405, Stored: true},
 		},
-		Results:  results,
-		Outcomes: outcomes,
-		Verdict:  verdict,
-		Reasons:  reasons,
+		Conditions: sequencer.Conditions{AmbientC: 23.1, AmbientSource: "entered"},
+		Coverage:   0.9545,
+		Results:    results,
+		Outcomes:   outcomes,
+		Verdict:    verdict,
+		Reasons:    reasons,
 	}
+}
+
+// reviewRecord is sampleRecord with the nonlinearity passing, under a limit file
+// whose policy sends a conditional pass to review (conditional_pass: review):
+// nothing failed, but post_gain is a conditional pass, so it did not pass and the
+// unit is held for review.
+func reviewRecord() *sequencer.Record {
+	r := passRecord()
+	o := &r.Outcomes[3]
+	o.Pass = false
+	o.Reason = "post_gain_error = 17.89 ppm lies within the tolerance interval −20 … 20 ppm but outside the acceptance interval " +
+		"−17.26 … 17.26 ppm: conditional pass, so review (conditional_pass: review)"
+	r.Verdict = sequencer.Review
+	r.Reasons = []string{"limit post_gain: " + o.Reason}
+	return r
+}
+
+// oldRecord is sampleRecord as a ledger written before uncertainties were evaluated
+// holds it: no uncertainty, no decisions, no coverage, no conditions.
+func oldRecord() *sequencer.Record {
+	r := sampleRecord()
+	r.Coverage, r.Conditions = 0, sequencer.Conditions{}
+	for i := range r.Results {
+		r.Results[i].Unc = sequencer.Uncertainty{}
+	}
+	for i := range r.Outcomes {
+		r.Outcomes[i].Decision = nil
+	}
+	return r
 }
 
 // passRecord is sampleRecord with every limit passing.

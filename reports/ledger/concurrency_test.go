@@ -182,8 +182,13 @@ func checkCertificates(t *testing.T, path string, n, readings int) {
 		t.Errorf("counts %v, want %d runs and %d readings", counts, n, readings)
 	}
 	migs, err := l.Migrations(ctx)
-	if err != nil || len(migs) != 1 {
-		t.Errorf("migrations %+v, %v: want exactly one", migs, err)
+	if err != nil || len(migs) != ledger.LatestMigration() {
+		t.Errorf("migrations %+v, %v: want each of 1..%d exactly once", migs, err, ledger.LatestMigration())
+	}
+	for i, m := range migs {
+		if m.Version != i+1 {
+			t.Errorf("migration %d has version %d", i, m.Version)
+		}
 	}
 }
 

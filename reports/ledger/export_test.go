@@ -5,3 +5,12 @@ var (
 	CanonicalJSON  = canonicalJSON
 	DecodeExtended = decodeExtended
 )
+
+// LatestMigration is the version of the newest embedded migration.
+func LatestMigration() int {
+	m, err := embeddedMigrations()
+	if err != nil {
+		panic(err)
+	}
+	return m[len(m)-1].version
+}

@@ -96,17 +96,29 @@ func makeRecord(runID, serial string, verdict sequencer.Verdict, shape recordSha
 		{DAC: "offset", Before: 2048, Code: 2101, Ideal: 2100.62, Readback: 2101, Stored: true},
 		{DAC: "gain", Before: 2048, Code: 1990, Ideal: 1989.71, Readback: 1990, Stored: true},
 	}
+	rec.Coverage = 0.9545
+	rec.Conditions = sequencer.Conditions{AmbientC: 23.1, AmbientSource: "entered"}
 	rec.Results = []sequencer.Result{
-		{Name: "post_offset", Value: 3.1e-6, Unit: "V", Valid: true},
-		{Name: "post_gain_error", Value: -1.2e-5, Unit: "ratio", Valid: true},
-		{Name: "nonlinearity", Value: 1.2e-6, Unit: "ratio", Valid: true},
-		{Name: "offset_code", Value: 2101, Unit: "code", Valid: true},
+		{Name: "post_offset", Value: 3.1e-6, Unit: "V", Valid: true,
+			Unc: sequencer.Uncertainty{Std: 1.2e-6, DOF: 37.4, K: 2.06, Expanded: 2.472e-6, Method: "GUM"}},
+		{Name: "post_gain_error", Value: -1.2e-5, Unit: "ratio", Valid: true,
+			Unc: sequencer.Uncertainty{Std: 3e-6, DOF: 120, K: 2.0, Expanded: 6e-6, Method: "MC"}},
+		{Name: "nonlinearity", Value: 1.2e-6, Unit: "ratio", Valid: true,
+			Unc: sequencer.Uncertainty{Std: 4e-7, DOF: 9, K: 2.32, Expanded: 9.28e-7}},
+		{Name: "offset_code", Value: 2101, Unit: "code", Valid: true}, // exact: no uncertainty
 	}
 	rec.Outcomes = []limits.Outcome{
 		{Name: "offset", Description: "post-trim offset", Expr: "abs(post_offset) <= 50", Unit: "uV",
-			Uses: []string{"post_offset"}, Values: map[string]float64{"post_offset": 3.1}, Pass: true},
+			Uses: []string{"post_offset"}, Values: map[string]float64{"post_offset": 3.1}, Pass: true,
+			Decision: &limits.Decision{Result: "post_offset", Lower: f64(-50), Upper: f64(50),
+				Rule: "guarded", GuardFactor: 1, Guard: 2.472, AcceptLower: f64(-47.528), AcceptUpper: f64(47.528),
+				Value: 3.1, Std: 1.2, U: 2.472, K: 2.06, DOF: 37.4, Binary: false, Zone: limits.ZonePass,
+				POutside: 1.5e-300, TUR: 20.23, Statement: "guarded acceptance, w = 1·U: pass"}},
 		{Name: "gain", Description: "post-trim gain error", Expr: "abs(post_gain_error) <= 100", Unit: "ppm",
-			Uses: []string{"post_gain_error"}, Values: map[string]float64{"post_gain_error": -12}, Pass: true},
+			Uses: []string{"post_gain_error"}, Values: map[string]float64{"post_gain_error": -12}, Pass: true,
+			Decision: &limits.Decision{Result: "post_gain_error", Upper: f64(100),
+				Rule: "simple", Value: -12, Std: 3, U: 6, K: 2, DOF: 120, Binary: true, Zone: limits.ZonePass,
+				TURLow: true, Statement: "simple acceptance: pass"}},
 		{Name: "linearity", Expr: "nonlinearity < 10 && offset_code < 4000", Unit: "ppm",
 			Uses: []string{"nonlinearity", "offset_code"}, Values: map[string]float64{"nonlinearity": 1.2, "offset_code": 2101}, Pass: true},
 	}
@@ -114,6 +126,7 @@ func makeRecord(runID, serial string, verdict sequencer.Verdict, shape recordSha
 	case sequencer.Fail:
 		rec.Outcomes[1].Pass = false
 		rec.Outcomes[1].Reason = "post_gain_error = -12 ppm, limit abs(x) <= 100 \"ppm\""
+		rec.Outcomes[1].Decision.Zone = limits.ZoneFail
 		rec.Reasons = []string{"gain: post_gain_error out of limit"}
 	case sequencer.Fault:
 		rec.Reasons = []string{"meter did not answer"}
@@ -140,6 +153,8 @@ func makeRecord(runID, serial string, verdict sequencer.Verdict, shape recordSha
 	}
 	return rec
 }
+
+func f64(v float64) *float64 { return &v }
 
 // totalReadings counts the readings of rec.
 func totalReadings(rec *sequencer.Record) int {

@@ -14,7 +14,9 @@
 // is re-read exactly. The canonical JSON is json.Marshal's output; only where a float
 // is NaN or ±Inf, which json.Marshal refuses, it holds the string "NaN", "Infinity"
 // or "-Infinity" instead. In the rows, a REAL column is NULL where the value is not a
-// finite number.
+// finite number. In particular results.dof is NULL for an infinite number of degrees
+// of freedom (math.Inf(1) in the record, "Infinity" in its JSON) when results.u is
+// not NULL; all uncertainty columns are NULL for an uncertainty not evaluated.
 //
 // Times are stored as RFC 3339 text in UTC with nine fractional digits
 // ("2006-01-02T15:04:05.000000000Z"), so they sort as text; times read back from the
@@ -37,6 +39,7 @@ import (
 	"modernc.org/sqlite" // registers the "sqlite" driver
 	sqlite3 "modernc.org/sqlite/lib"
 
+	"trimline/limits"
 	"trimline/sequencer"
 )
 
@@ -194,6 +197,55 @@ func realOrNull(f float64) any {
 	return f
 }
 
+// positiveOrNull returns f for a REAL column that is NULL when the value was not
+// recorded (zero) or not a finite number.
+func positiveOrNull(f float64) any {
+	if f == 0 {
+		return nil
+	}
+	return realOrNull(f)
+}
+
+// ptrOrNull returns *p for a REAL column: NULL for a nil pointer or a non-finite value.
+func ptrOrNull(p *float64) any {
+	if p == nil {
+		return nil
+	}
+	return realOrNull(*p)
+}
+
+// ambientC is runs.ambient_c: NULL when the record says the ambient temperature was
+// not recorded (no source). A temperature of 0 °C with a source is stored as 0.
+func ambientC(c sequencer.Conditions) any {
+	if c.AmbientSource == "" && c.AmbientC == 0 {
+		return nil
+	}
+	return realOrNull(c.AmbientC)
+}
+
+// uncertaintyArgs are the results columns u, dof, k, expanded_u, method. A zero
+// Uncertainty (not evaluated) is five NULLs. Otherwise dof is NULL when infinite:
+// "u IS NOT NULL AND dof IS NULL" reads as infinitely many degrees of freedom. The
+// exact value, +Inf included, is in the record JSON.
+func uncertaintyArgs(u sequencer.Uncertainty) []any {
+	if u == (sequencer.Uncertainty{}) {
+		return []any{nil, nil, nil, nil, nil}
+	}
+	return []any{realOrNull(u.Std), realOrNull(u.DOF), realOrNull(u.K), realOrNull(u.Expanded), nullText(u.Method)}
+}
+
+// decisionArgs are the limit_outcomes columns rule … statement: thirteen NULLs for
+// an expression limit (no decision). tur is NULL when the record has 0 (one-sided
+// tolerance or U unknown).
+func decisionArgs(d *limits.Decision) []any {
+	if d == nil {
+		return make([]any, 13)
+	}
+	return []any{d.Rule, realOrNull(d.GuardFactor), realOrNull(d.Guard), ptrOrNull(d.Lower), ptrOrNull(d.Upper),
+		ptrOrNull(d.AcceptLower), ptrOrNull(d.AcceptUpper), d.Zone, realOrNull(d.POutside), positiveOrNull(d.TUR),
+		d.TURLow, d.Binary, d.Statement}
+}
+
 // nullText returns s for a nullable TEXT column: NULL when empty.
 func nullText(s string) any {
 	if s == "" {
@@ -213,8 +265,9 @@ func sha256Hex(b []byte) string {
 // JSON's SHA-256, and every reading, result, limit outcome, fit, trim code, file and
 // instrument of rec. Either all of it is stored or none.
 //
-// For a PASS or FAIL record it allocates the next certificate number of certPrefix in
-// the same transaction and returns it: certPrefix + "-" + the sequence written with
+// For a PASS, FAIL or REVIEW record (a unit that was measured completely) it
+// allocates the next certificate number of certPrefix in the same transaction and
+// returns it: certPrefix + "-" + the sequence written with
 // six digits, starting at 1 ("TL1-000001"). Numbers have no gaps and no duplicates
 // across goroutines and processes, because a transaction that fails takes its number
 // with it. certPrefix must be 1 to 32 characters of A–Z, a–z, 0–9, '.', '_' or '-'.
@@ -229,7 +282,7 @@ func (l *Ledger) RecordRun(ctx context.Context, rec *sequencer.Record, certPrefi
 	if err := validateRecord(rec); err != nil {
 		return "", err
 	}
-	wantCert := rec.Verdict == sequencer.Pass || rec.Verdict == sequencer.Fail
+	wantCert := certified(rec.Verdict)
 	if wantCert {
 		if err := validatePrefix(certPrefix); err != nil {
 			return "", err
@@ -274,11 +327,17 @@ func validateRecord(rec *sequencer.Record) error {
 		return fmt.Errorf("ledger: run %s has no serial: %w", rec.RunID, ErrInvalid)
 	}
 	switch rec.Verdict {
-	case sequencer.Pass, sequencer.Fail, sequencer.Fault, sequencer.Aborted:
+	case sequencer.Pass, sequencer.Fail, sequencer.Review, sequencer.Fault, sequencer.Aborted:
 	default:
 		return fmt.Errorf("ledger: run %s: unknown verdict %q: %w", rec.RunID, rec.Verdict, ErrInvalid)
 	}
 	return nil
+}
+
+// certified reports whether a run of verdict v gets a certificate number: PASS, FAIL
+// and REVIEW runs were measured completely; FAULT and ABORTED runs were not.
+func certified(v sequencer.Verdict) bool {
+	return v == sequencer.Pass || v == sequencer.Fail || v == sequencer.Review
 }
 
 func validatePrefix(p string) error {
@@ -334,11 +393,12 @@ func storeRun(ctx context.Context, tx *sql.Tx, rec *sequencer.Record, doc []byte
 
 	if _, err := tx.ExecContext(ctx, `
 		INSERT INTO runs (run_id, serial, product, revision, station, operator, software, started, finished,
-			verdict, fault, reasons, certificate, record_json, record_sha256)
-		VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)`,
+			verdict, fault, reasons, certificate, record_json, record_sha256, coverage, ambient_c, ambient_source)
+		VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)`,
 		rec.RunID, rec.Serial, rec.Product, rec.Revision, rec.Station, rec.Operator, rec.Software,
 		formatTime(rec.Started), formatTime(rec.Finished), string(rec.Verdict), nullText(rec.Fault),
-		reasonsJSON, nullText(cert), string(doc), sha256Hex(doc)); err != nil {
+		reasonsJSON, nullText(cert), string(doc), sha256Hex(doc),
+		positiveOrNull(rec.Coverage), ambientC(rec.Conditions), nullText(rec.Conditions.AmbientSource)); err != nil {
 		return "", fmt.Errorf("run row: %w", err)
 	}
 
@@ -380,12 +440,15 @@ func storeDetails(ctx context.Context, tx *sql.Tx, rec *sequencer.Record) error 
 		args      func(i int) ([]any, error)
 	}
 	tables := []table{
-		{"results", `INSERT INTO results (run_id, name, value, unit, valid, note) VALUES (?, ?, ?, ?, ?, ?)`,
+		{"results", `INSERT INTO results (run_id, name, value, unit, valid, note, u, dof, k, expanded_u, method)
+			VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)`,
 			len(rec.Results), func(i int) ([]any, error) {
 				r := rec.Results[i]
-				return []any{rec.RunID, r.Name, realOrNull(r.Value), r.Unit, r.Valid, r.Note}, nil
+				return append([]any{rec.RunID, r.Name, realOrNull(r.Value), r.Unit, r.Valid, r.Note}, uncertaintyArgs(r.Unc)...), nil
 			}},
-		{"limit_outcomes", `INSERT INTO limit_outcomes (run_id, name, expr, unit, pass, reason, values_json) VALUES (?, ?, ?, ?, ?, ?, ?)`,
+		{"limit_outcomes", `INSERT INTO limit_outcomes (run_id, name, expr, unit, pass, reason, values_json,
+			rule, guard_factor, guard, lower, upper, accept_lower, accept_upper, zone, p_outside, tur, tur_low, binary, statement)
+			VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)`,
 			len(rec.Outcomes), func(i int) ([]any, error) {
 				o := rec.Outcomes[i]
 				vals := o.Values
@@ -396,7 +459,7 @@ func storeDetails(ctx context.Context, tx *sql.Tx, rec *sequencer.Record) error 
 				if err != nil {
 					return nil, err
 				}
-				return []any{rec.RunID, o.Name, o.Expr, o.Unit, o.Pass, o.Reason, string(vj)}, nil
+				return append([]any{rec.RunID, o.Name, o.Expr, o.Unit, o.Pass, o.Reason, string(vj)}, decisionArgs(o.Decision)...), nil
 			}},
 		{"fits", `INSERT INTO fits (run_id, sweep, slope, intercept_v, residual_sd_v, dof, nonlinearity, cov_json) VALUES (?, ?, ?, ?, ?, ?, ?, ?)`,
 			len(rec.Fits), func(i int) ([]any, error) {
@@ -452,7 +515,7 @@ func storeDetails(ctx context.Context, tx *sql.Tx, rec *sequencer.Record) error 
 // have several documents (a re-issued PDF is a new row; none is replaced).
 //
 // number must be the certificate number RecordRun allocated for the run, so a
-// document can only be recorded for a PASS or FAIL run. Errors (wrapped): ErrNotFound
+// document can only be recorded for a PASS, FAIL or REVIEW run. Errors (wrapped): ErrNotFound
 // for an unknown run; ErrInvalid for an empty path, a malformed hash, a negative size,
 // a run without a certificate or a number that is not the run's.
 func (l *Ledger) AddDocument(ctx context.Context, runID, number, path string, sha256hex string, size int64) error {

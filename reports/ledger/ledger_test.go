@@ -81,6 +81,39 @@ func TestRoundTrip(t *testing.T) {
 	if len(runs) != 1 || runs[0] != wantSummary {
 		t.Errorf("Runs = %+v\nwant   [%+v]", runs, wantSummary)
 	}
+
+	// Infinite degrees of freedom (every contribution had infinite dof) and a
+	// REVIEW verdict: the record comes back exactly, the JSON says "Infinity", the
+	// row has dof NULL beside a non-NULL u, and REVIEW gets the next number.
+	inf := makeRecord("run-2", "SN0001", sequencer.Review, benchShape)
+	inf.Results[0].Unc.DOF = math.Inf(1)
+	inf.Outcomes[0].Decision.DOF = 0 // the limits package's "infinite" in a decision
+	inf.Outcomes[0].Decision.Zone = "conditional pass"
+	if cert := mustRecord(t, l, inf, "TL1"); cert != "TL1-000002" {
+		t.Errorf("REVIEW run: certificate %q, want TL1-000002", cert)
+	}
+	got, err = l.Run(ctx, "run-2")
+	if err != nil {
+		t.Fatal(err)
+	}
+	requireSameRecord(t, inf, got)
+	if !math.IsInf(got.Results[0].Unc.DOF, 1) {
+		t.Errorf("dof came back as %v, want +Inf", got.Results[0].Unc.DOF)
+	}
+	db := rawDB(t, path)
+	if err := db.QueryRow(`SELECT record_json FROM runs WHERE run_id = 'run-2'`).Scan(&doc); err != nil {
+		t.Fatal(err)
+	}
+	if !bytes.Contains(doc, []byte(`"uncertainty":{"u":0.0000012,"dof":"Infinity","k":2.06,"U":0.000002472,"method":"GUM"}`)) {
+		t.Errorf("record_json does not hold the infinite dof as \"Infinity\":\n%s", doc)
+	}
+	var u, dof *float64
+	if err := db.QueryRow(`SELECT u, dof FROM results WHERE run_id = 'run-2' AND name = 'post_offset'`).Scan(&u, &dof); err != nil {
+		t.Fatal(err)
+	}
+	if u == nil || *u != 1.2e-6 || dof != nil {
+		t.Errorf("post_offset u %v dof %v, want 1.2e-06 and NULL (infinite)", u, dof)
+	}
 }
 
 func TestRoundTripRows(t *testing.T) {
@@ -153,6 +186,88 @@ func TestRoundTripRows(t *testing.T) {
 	if identity != "SIM,DMM6,0002,2.3" {
 		t.Errorf("identity %q", identity)
 	}
+
+	// Conditions and coverage of the run.
+	var coverage, ambient *float64
+	var source *string
+	if err := db.QueryRow(`SELECT coverage, ambient_c, ambient_source FROM runs`).Scan(&coverage, &ambient, &source); err != nil {
+		t.Fatal(err)
+	}
+	if coverage == nil || *coverage != 0.9545 || ambient == nil || *ambient != 23.1 || source == nil || *source != "entered" {
+		t.Errorf("runs coverage %v ambient_c %v ambient_source %v", deref(coverage), deref(ambient), deref(source))
+	}
+
+	// Uncertainty of each result; all NULL where it was not evaluated.
+	type uncRow struct {
+		u, dof, k, expanded *float64
+		method              *string
+	}
+	wantUnc := map[string]string{
+		"post_offset":     "1.2e-06 37.4 2.06 2.472e-06 GUM",
+		"post_gain_error": "3e-06 120 2 6e-06 MC",
+		"nonlinearity":    "4e-07 9 2.32 9.28e-07 NULL",
+		"offset_code":     "NULL NULL NULL NULL NULL",
+	}
+	rs, err := db.Query(`SELECT name, u, dof, k, expanded_u, method FROM results`)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer rs.Close()
+	n := 0
+	for rs.Next() {
+		var name string
+		var r uncRow
+		if err := rs.Scan(&name, &r.u, &r.dof, &r.k, &r.expanded, &r.method); err != nil {
+			t.Fatal(err)
+		}
+		got := fmt.Sprint(deref(r.u), " ", deref(r.dof), " ", deref(r.k), " ", deref(r.expanded), " ", deref(r.method))
+		if got != wantUnc[name] {
+			t.Errorf("results %s: u dof k U method = %s, want %s", name, got, wantUnc[name])
+		}
+		n++
+	}
+	if err := rs.Err(); err != nil || n != len(wantUnc) {
+		t.Errorf("%d result rows, %v", n, err)
+	}
+
+	// Decision columns: filled for toleranced limits, NULL for an expression limit.
+	wantDec := map[string]string{
+		"offset":    "guarded 1 2.472 -50 50 -47.528 47.528 pass 1.5e-300 20.23 0 0 guarded acceptance, w = 1·U: pass",
+		"gain":      "simple 0 0 NULL 100 NULL NULL fail 0 NULL 1 1 simple acceptance: pass",
+		"linearity": "NULL NULL NULL NULL NULL NULL NULL NULL NULL NULL NULL NULL NULL",
+	}
+	ds, err := db.Query(`SELECT name, rule, guard_factor, guard, lower, upper, accept_lower, accept_upper, zone, p_outside, tur, tur_low, binary, statement FROM limit_outcomes`)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer ds.Close()
+	n = 0
+	for ds.Next() {
+		var name string
+		var rule, zone, statement *string
+		var r, w, lo, hi, alo, ahi, p, tur *float64
+		var turLow, binary *int64
+		if err := ds.Scan(&name, &rule, &r, &w, &lo, &hi, &alo, &ahi, &zone, &p, &tur, &turLow, &binary, &statement); err != nil {
+			t.Fatal(err)
+		}
+		got := strings.Join([]string{deref(rule), deref(r), deref(w), deref(lo), deref(hi), deref(alo), deref(ahi),
+			deref(zone), deref(p), deref(tur), deref(turLow), deref(binary), deref(statement)}, " ")
+		if got != wantDec[name] {
+			t.Errorf("limit_outcomes %s:\n got %s\nwant %s", name, got, wantDec[name])
+		}
+		n++
+	}
+	if err := ds.Err(); err != nil || n != len(wantDec) {
+		t.Errorf("%d limit outcome rows, %v", n, err)
+	}
+}
+
+// deref prints a nullable column value, "NULL" for nil.
+func deref[T any](p *T) string {
+	if p == nil {
+		return "NULL"
+	}
+	return fmt.Sprint(*p)
 }
 
 // A real run holds NaN and ±Inf (a flagged reading, an invalid result, the residual
@@ -453,7 +568,8 @@ func TestMigrations(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if len(first) != 1 || first[0].Version != 1 || first[0].Name != "init" || time.Since(first[0].AppliedAt) > time.Minute {
+	if len(first) != 2 || first[0].Version != 1 || first[0].Name != "init" || first[1].Version != 2 || first[1].Name != "uncertainty" ||
+		time.Since(first[0].AppliedAt) > time.Minute || first[1].AppliedAt.Before(first[0].AppliedAt) {
 		t.Fatalf("Migrations = %+v", first)
 	}
 	mustRecord(t, l, makeRecord("r", "S", sequencer.Pass, recordShape{sweeps: 1, points: 1, readings: 1}), "P")
@@ -480,14 +596,14 @@ func TestMigrations(t *testing.T) {
 
 	// A file migrated by a newer program is refused.
 	db := rawDB(t, path)
-	if _, err := db.Exec(`INSERT INTO schema_migrations (version, name, applied_at) VALUES (2, 'future', '2030-01-01T00:00:00.000000000Z')`); err != nil {
+	if _, err := db.Exec(`INSERT INTO schema_migrations (version, name, applied_at) VALUES (3, 'future', '2030-01-01T00:00:00.000000000Z')`); err != nil {
 		t.Fatal(err)
 	}
 	if _, err := ledger.Open(ctx, path); !errors.Is(err, ledger.ErrSchemaTooNew) {
 		t.Errorf("newer schema: %v, want ErrSchemaTooNew", err)
 	}
 	// So is one whose migration 1 is not ours.
-	if _, err := db.Exec(`DELETE FROM schema_migrations WHERE version = 2; UPDATE schema_migrations SET name = 'other' WHERE version = 1`); err != nil {
+	if _, err := db.Exec(`DELETE FROM schema_migrations WHERE version = 3; UPDATE schema_migrations SET name = 'other' WHERE version = 1`); err != nil {
 		t.Fatal(err)
 	}
 	if _, err := ledger.Open(ctx, path); !errors.Is(err, ledger.ErrCorrupt) {

@@ -68,7 +68,13 @@ func embeddedMigrations() ([]migrationFile, error) {
 // migrate brings the file's schema up to the embedded migrations. Each migration runs
 // in its own BEGIN IMMEDIATE transaction that first checks whether another process
 // applied it meanwhile, so concurrent Opens apply each migration exactly once.
-func (l *Ledger) migrate(ctx context.Context) error {
+//
+// Migrations run on one connection with foreign_keys off, so that a migration may
+// rebuild a table that other tables refer to (SQLite's table-rebuild procedure:
+// create the new table, copy, drop the old one, rename); before its transaction
+// commits, PRAGMA foreign_key_check must report nothing, else the migration is
+// rolled back. The connection's foreign_keys is switched back on afterwards.
+func (l *Ledger) migrate(ctx context.Context) (err error) {
 	migs, err := embeddedMigrations()
 	if err != nil {
 		return err
@@ -86,8 +92,23 @@ func (l *Ledger) migrate(ctx context.Context) error {
 	if err := l.checkApplied(ctx, migs); err != nil {
 		return err
 	}
+	conn, err := l.db.Conn(ctx)
+	if err != nil {
+		return err
+	}
+	defer conn.Close()
+	if _, err := conn.ExecContext(ctx, `PRAGMA foreign_keys = OFF`); err != nil {
+		return fmt.Errorf("foreign_keys off for migrations: %w", err)
+	}
+	defer func() {
+		// Back on before the connection returns to the pool. Open fails (and closes
+		// every connection) when this fails, so no connection stays without it.
+		if _, ferr := conn.ExecContext(context.WithoutCancel(ctx), `PRAGMA foreign_keys = ON`); ferr != nil && err == nil {
+			err = fmt.Errorf("foreign_keys on after migrations: %w", ferr)
+		}
+	}()
 	for _, m := range migs {
-		err := l.inTx(ctx, func(tx *sql.Tx) error {
+		err := connTx(ctx, conn, func(tx *sql.Tx) error {
 			var n int
 			if err := tx.QueryRowContext(ctx, `SELECT count(*) FROM schema_migrations WHERE version = ?`, m.version).Scan(&n); err != nil {
 				return err
@@ -96,6 +117,9 @@ func (l *Ledger) migrate(ctx context.Context) error {
 				return nil // applied already, possibly by another process a moment ago
 			}
 			if _, err := tx.ExecContext(ctx, m.sql); err != nil {
+				return err
+			}
+			if err := foreignKeyCheck(ctx, tx); err != nil {
 				return err
 			}
 			_, err := tx.ExecContext(ctx, `INSERT INTO schema_migrations (version, name, applied_at) VALUES (?, ?, ?)`,
@@ -107,6 +131,37 @@ func (l *Ledger) migrate(ctx context.Context) error {
 		}
 	}
 	return nil
+}
+
+// foreignKeyCheck fails with ErrCorrupt if any row refers to a missing parent.
+func foreignKeyCheck(ctx context.Context, tx *sql.Tx) error {
+	rows, err := tx.QueryContext(ctx, `PRAGMA foreign_key_check`)
+	if err != nil {
+		return err
+	}
+	defer rows.Close()
+	if rows.Next() {
+		var table, parent string
+		var rowid sql.NullInt64
+		var fk int
+		if err := rows.Scan(&table, &rowid, &parent, &fk); err != nil {
+			return err
+		}
+		return fmt.Errorf("foreign key check: row %d of %s refers to a missing %s: %w", rowid.Int64, table, parent, ErrCorrupt)
+	}
+	return rows.Err()
+}
+
+func connTx(ctx context.Context, conn *sql.Conn, f func(tx *sql.Tx) error) error {
+	tx, err := conn.BeginTx(ctx, nil)
+	if err != nil {
+		return err
+	}
+	defer tx.Rollback()
+	if err := f(tx); err != nil {
+		return err
+	}
+	return tx.Commit()
 }
 
 // checkApplied fails if the file has a migration this program does not know
