@@ -447,3 +447,41 @@ func TestTURRefuseStopsTheStation(t *testing.T) {
 		t.Fatalf("Open: %v", err)
 	}
 }
+
+// The Monte Carlo evaluation (JCGM 101:2008) chosen in the sequence file gives the
+// same standard uncertainties as the law of propagation (JCGM 100) within 5 % on a
+// realistic unit, and the record says which method produced them.
+func TestMonteCarloOptionAgreesWithGUM(t *testing.T) {
+	run := func(method string) *sequencer.Record {
+		st, err := sequencer.ParseStation("brx200-station.yaml", []byte(demoFile(t, "brx200-station.yaml")))
+		if err != nil {
+			t.Fatal(err)
+		}
+		src := demoFile(t, "brx200-sequence.yaml")
+		if method != "" {
+			src += "\nuncertainty: {method: " + method + ", trials: 20000}\n"
+		}
+		seq, err := sequencer.ParseSequence("brx200-sequence.yaml", []byte(src), demoReader(t, nil))
+		if err != nil {
+			t.Fatal(err)
+		}
+		e, err := sequencer.Open(context.Background(), sequencer.Config{Station: st, Sequence: seq})
+		if err != nil {
+			t.Fatal(err)
+		}
+		defer e.Close()
+		return e.Run(context.Background(), "BRX-00031")
+	}
+	gum, mc := run(""), run("monte_carlo")
+	for _, n := range []string{sequencer.ResPreOffset, sequencer.ResPreGainError, sequencer.ResPostOffset, sequencer.ResPostGainError} {
+		g, m := resultOf(t, gum, n), resultOf(t, mc, n)
+		if g.Unc.Method != "GUM" || m.Unc.Method != "MC" {
+			t.Errorf("%s: methods %q %q", n, g.Unc.Method, m.Unc.Method)
+		}
+		r := m.Unc.Std / g.Unc.Std
+		t.Logf("%s: u(MC)/u(GUM) = %.4f", n, r)
+		if r < 0.95 || r > 1.05 {
+			t.Errorf("%s: u(MC)/u(GUM) = %.3f, want within 5 %%", n, r)
+		}
+	}
+}
