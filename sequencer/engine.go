@@ -35,6 +35,9 @@ type Config struct {
 	Operator string
 	Software string         // version string recorded in every run
 	Log      zerolog.Logger // zero value logs nothing
+	// Conditions are recorded in every run (e.g. an ambient temperature the
+	// operator entered).
+	Conditions Conditions
 	// NewID returns a run id; nil uses a time-stamped random id.
 	NewID func(now time.Time) string
 }
@@ -246,6 +249,7 @@ func (e *Engine) Run(ctx context.Context, serial string) (rec *Record) {
 		Files:       []FileRef{st.File, seq.File, limitsRef(seq.Limits)},
 		Instruments: append([]InstrumentRef(nil), e.refs...),
 		IdealGain:   seq.IdealGain, IdealOffset: seq.IdealOffset, FullScale: seq.FullScale,
+		Conditions: e.cfg.Conditions, Coverage: e.coverage(),
 	}
 	if e.cfg.NewID != nil {
 		rec.RunID = e.cfg.NewID(now)

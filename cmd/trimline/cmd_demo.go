@@ -35,6 +35,7 @@ trimline.log (JSON lines). Rerun with the same --seed for the same units.`,
 	n := c.Flags.Int("units", 25, "number of simulated `units`")
 	seed := c.Flags.Uint64("seed", 8, "`seed` of the simulated unit population")
 	operator := c.Flags.String("operator", defaultOperator(), "operator `name` printed on certificates")
+	ambient := c.Flags.String("ambient", "", "ambient `temperature` to record on every run, e.g. \"23.1 °C\" or 23.1degC")
 	c.Run = func(ctx context.Context, c *command, args []string) error {
 		if len(args) > 0 {
 			return usageErr("unexpected argument %q", args[0])
@@ -52,7 +53,7 @@ trimline.log (JSON lines). Rerun with the same --seed for the same units.`,
 			serials[i] = fmt.Sprintf("BRX-%05d", i+1)
 		}
 		t, err := runBatch(ctx, batch{stationPath: station, sequencePath: sequence, serials: serials, out: *out,
-			operator: *operator, stdout: stdoutW, stderr: stderrW})
+			operator: *operator, ambient: *ambient, stdout: stdoutW, stderr: stderrW})
 		if err != nil {
 			return err
 		}

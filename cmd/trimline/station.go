@@ -29,7 +29,8 @@ type batch struct {
 	serials                   []string
 	out                       string // output folder; "" = the station file's
 	operator                  string
-	json                      bool // one JSON object per unit on stdout instead of live lines
+	ambient                   string // entered ambient temperature, e.g. "23.1 °C"; "" = not recorded
+	json                      bool   // one JSON object per unit on stdout instead of live lines
 	stdout, stderr            io.Writer
 }
 
@@ -110,7 +111,16 @@ func runBatch(ctx context.Context, b batch) (*tally, error) {
 	}
 	defer led.Close()
 
-	eng, err := sequencer.Open(ctx, sequencer.Config{Station: st, Sequence: seq, Operator: b.operator, Software: "trimline " + version(), Log: log})
+	var cond sequencer.Conditions
+	if b.ambient != "" {
+		c, err := units.ParseAs(b.ambient, units.Celsius)
+		if err != nil {
+			return nil, usageErr("--ambient: %v", err)
+		}
+		cond = sequencer.Conditions{AmbientC: c, AmbientSource: "entered"}
+	}
+	eng, err := sequencer.Open(ctx, sequencer.Config{Station: st, Sequence: seq, Operator: b.operator,
+		Software: "trimline " + version(), Log: log, Conditions: cond})
 	if err != nil {
 		if errors.Is(err, sequencer.ErrSafety) || errors.Is(err, sequencer.ErrTUR) {
 			return nil, badInput(err)
