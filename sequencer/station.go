@@ -209,7 +209,11 @@ func ParseStation(name string, data []byte) (*Station, error) {
 			if err := instruments.Check([]instruments.Spec{spec}); err != nil {
 				var se *instruments.SettingError
 				if errorsAs(err, &se) {
-					errs = append(errs, doc.Errorf(base+".settings."+se.Key, "%s", err))
+					path := base + ".settings." + se.Key
+					if t, ok := strings.CutPrefix(se.Key, "templates."); ok {
+						path = base + ".templates." + t
+					}
+					errs = append(errs, doc.Errorf(path, "%s", err))
 				} else {
 					errs = append(errs, doc.Errorf(base+".address", "%s", err))
 				}

@@ -21,7 +21,8 @@ import (
 	"strings"
 	"syscall"
 
-	_ "trimline/instruments/sim" // the simulated bench, scheme sim://
+	_ "trimline/instruments/generic" // SCPI and trim-port drivers, schemes serial:// tcp:// usbtmc://
+	_ "trimline/instruments/sim"     // the simulated bench, scheme sim://
 )
 
 // Exit codes, part of the interface: scripts and line controllers read them.

@@ -147,7 +147,7 @@ func NewBench(specs []instruments.Spec) (*Bench, error) {
 		case modelMeter:
 			b.meter = newMeter(b, c)
 		case modelDUT:
-			b.dut = &DUT{bench: b, latency: c.latency, settings: c.dut}
+			b.dut = &DUT{bench: b, latency: c.latency, settings: c.dut, lidOpen: c.lidOpen}
 		}
 	}
 	return b, nil

@@ -5,6 +5,9 @@
 // All names here (the maker "Trimline Sim", the VS-100M source, the DV-65 meter, the
 // BRX-200 card) are invented; no value is taken from a real datasheet.
 //
+// Package sim/serve puts a bench on a real wire (loopback TCP, pseudo-terminals) for
+// the serial, tcp and usbtmc drivers.
+//
 // # Addresses and wiring
 //
 // sim://source, sim://meter and sim://dut name the three models. Opened together
@@ -94,9 +97,12 @@
 //	TRIM OFS?        → the offset register as decimal
 //	TRIM GAIN?       → the gain register as decimal
 //	NV STORE         → OK; stores both registers in the unit's non-volatile memory
+//	LID?             → CLOSED or OPEN: the fixture's lid (interlock) input
 //	anything else    → ERR unknown command "<line>"
 //
-// With no unit in the fixture every command answers "ERR no unit in fixture".
+// LID? belongs to the fixture, so it answers with or without a unit; the lid starts
+// as the lid setting says (closed by default) and DUT.SetLid moves it. With no unit
+// in the fixture every other command answers "ERR no unit in fixture".
 // LoadUnit(serial) places a unit; its registers start from the codes it last stored
 // on this bench (the bench remembers them per serial for its lifetime), mid-scale
 // 2048 for a fresh unit. DUT.Command returns nil on OK and a *ReplyError on ERR;
@@ -128,7 +134,8 @@
 //	             dnl (0.05 LSB; 0 disables), open_loop_gain (1e7; 0 = ideal),
 //	             offset_lsb (12.2 µV; 61 nV with offset_trim: before),
 //	             gain_lsb (10 ppm), offset_trim (after|before, after),
-//	             defect (none|stuck_bit|noisy|open, drawn), defect_rate (2 %)
+//	             defect (none|stuck_bit|noisy|open, drawn), defect_rate (2 %),
+//	             lid (closed|open: the fixture lid at open, closed)
 //
 // # Concurrency
 //

@@ -21,6 +21,7 @@ type DUT struct {
 	latency  time.Duration
 	settings DUTSettings
 	closed   bool
+	lidOpen  bool // the fixture lid (interlock input) is open
 
 	loaded bool
 	unit   UnitParams
@@ -124,8 +125,28 @@ func (d *DUT) output(t time.Time, x, z float64) float64 {
 	return rail(d.unit.linear(x, d.ofs, d.gain) + d.decay(t) + n)
 }
 
+// SetLid opens or closes the fixture lid, the interlock input that LID? reports.
+func (d *DUT) SetLid(open bool) {
+	d.bench.mu.Lock()
+	defer d.bench.mu.Unlock()
+	d.lidOpen = open
+}
+
+// LidOpen reports whether the fixture lid is open.
+func (d *DUT) LidOpen() bool {
+	d.bench.mu.Lock()
+	defer d.bench.mu.Unlock()
+	return d.lidOpen
+}
+
 // reply answers one line of the trim port protocol. Called with the bench lock held.
 func (d *DUT) reply(line string) string {
+	if f := strings.Fields(line); len(f) == 1 && f[0] == "LID?" {
+		if d.lidOpen {
+			return "OPEN"
+		}
+		return "CLOSED"
+	}
 	if !d.loaded {
 		return "ERR no unit in fixture"
 	}

@@ -126,6 +126,13 @@ func (m *Meter) Range() float64 {
 	return m.rng
 }
 
+// NPLC returns the present integration time in power-line cycles.
+func (m *Meter) NPLC() float64 {
+	m.bench.mu.Lock()
+	defer m.bench.mu.Unlock()
+	return m.nplc
+}
+
 // Clock returns the bench clock.
 func (m *Meter) Clock() instruments.Clock { return m.bench.clock }
 

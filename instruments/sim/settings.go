@@ -111,6 +111,7 @@ type config struct {
 	source  sourceConfig
 	meter   meterConfig
 	dut     DUTSettings
+	lidOpen bool // dut: the fixture lid starts open
 }
 
 var commonKeys = []string{"seed", "time", "start", "latency"}
@@ -120,7 +121,7 @@ var modelKeys = map[string][]string{
 	modelMeter: {"spec_ppm_reading", "spec_ppm_range", "range", "nplc", "line_frequency", "resolution",
 		"noise", "gain_error", "offset", "force_flag"},
 	modelDUT: {"offset", "gain_error", "offset_sigma", "gain_sigma", "noise", "tau", "crossover_step",
-		"crossover_at", "dnl", "open_loop_gain", "offset_lsb", "gain_lsb", "offset_trim", "defect", "defect_rate"},
+		"crossover_at", "dnl", "open_loop_gain", "offset_lsb", "gain_lsb", "offset_trim", "defect", "defect_rate", "lid"},
 }
 
 func defaultConfig(model string) config {
@@ -224,6 +225,14 @@ func parseSettings(model string, settings map[string]string) (config, error) {
 			var v float64
 			v, err = nonNegative(k, val, units.Second)
 			c.latency = time.Duration(math.Round(v * 1e9))
+		case "lid":
+			if model != modelDUT {
+				err = unknownKey(model, k)
+				break
+			}
+			var v string
+			v, err = choice(k, val, "closed", "open")
+			c.lidOpen = v == "open"
 		default:
 			switch model {
 			case modelSource:

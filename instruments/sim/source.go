@@ -75,6 +75,10 @@ func (s *Source) actual() float64 {
 // programmed·(1 + gain) + offset.
 func (s *Source) Errors() (gain, offset float64) { return s.gainErr, s.offsetErr }
 
+// Range returns the source's full-scale range in volts (the range setting, 100 mV by
+// default); SetLevel refuses a level beyond it.
+func (s *Source) Range() float64 { return s.rng }
+
 // Clock returns the bench clock.
 func (s *Source) Clock() instruments.Clock { return s.bench.clock }
 

@@ -1,0 +1,402 @@
+// Package conformance is a test suite every trimline driver must pass. Source, Meter
+// and TrimPort run subtests against instruments a test opens with its own open
+// function (called once per subtest; register cleanup with t.Cleanup there):
+// identification (if the instrument is an Identifier), set and read, rejected
+// requests and the error queue, timeouts and cancellation while blocked (when Hooks
+// can silence the peer), cancellation without a peer to silence, and Close twice.
+//
+// The suite uses only the instruments contract, plus the sentinels of packages
+// transport and scpi for the kinds of error it expects.
+package conformance
+
+import (
+	"context"
+	"errors"
+	"math"
+	"strings"
+	"testing"
+	"time"
+
+	"trimline/instruments"
+	"trimline/instruments/scpi"
+	"trimline/instruments/transport"
+)
+
+// Hooks tell the suite what an instrument can be made to do. The zero value runs
+// every subtest that needs no help.
+type Hooks struct {
+	// Silence makes the peer of the instrument opened last stop answering for the
+	// rest of t (it registers its own cleanup if it needs one). nil skips the timeout
+	// subtest; the cancellation subtest then cancels a long call instead.
+	Silence func(t *testing.T)
+	// Timeout is the instrument's exchange timeout; 0 means 2 s. A call to a silent
+	// peer must fail with transport.ErrTimeout after at least Timeout/2 and within
+	// (Retries+1)·Timeout + 1 s.
+	Timeout time.Duration
+	// Retries is how often the instrument repeats an idempotent query.
+	Retries int
+	// ErrorQueue means requests the instrument rejects fail with its own
+	// *scpi.InstrumentError.
+	ErrorQueue bool
+	// Level is a safe source level in volts; 0 means 10 mV.
+	Level float64
+	// OutOfRange is a source level the source must refuse; 0 skips that check.
+	OutOfRange float64
+	// BadRange is a meter range the meter must refuse; 0 skips that check.
+	BadRange float64
+	// Probe is a trim-port query that must answer (default "SN?"), Command a command
+	// that must succeed (default "TRIM OFS 2048") and Bad a line the port must refuse
+	// (default "NO SUCH COMMAND").
+	Probe, Command, Bad string
+	// LongRead is how many readings the cancellation subtest asks for without a
+	// Silence hook; 0 means 200.
+	LongRead int
+}
+
+func hooksOf(h []Hooks) Hooks {
+	var o Hooks
+	if len(h) > 0 {
+		o = h[0]
+	}
+	if o.Timeout <= 0 {
+		o.Timeout = 2 * time.Second
+	}
+	if o.Level == 0 {
+		o.Level = 10e-3
+	}
+	if o.Probe == "" {
+		o.Probe = "SN?"
+	}
+	if o.Command == "" {
+		o.Command = "TRIM OFS 2048"
+	}
+	if o.Bad == "" {
+		o.Bad = "NO SUCH COMMAND"
+	}
+	if o.LongRead <= 0 {
+		o.LongRead = 200
+	}
+	return o
+}
+
+// bgCtx returns a context bounded well beyond any exchange of the suite.
+func bgCtx(t *testing.T) context.Context {
+	ctx, cancel := context.WithTimeout(context.Background(), 30*time.Second)
+	t.Cleanup(cancel)
+	return ctx
+}
+
+func identify(t *testing.T, in instruments.Instrument) {
+	id, ok := in.(instruments.Identifier)
+	if !ok {
+		t.Skip("not an Identifier")
+	}
+	got, err := id.Identify(bgCtx(t))
+	if err != nil {
+		t.Fatalf("Identify: %v", err)
+	}
+	for _, f := range []string{got.Maker, got.Model, got.Serial, got.Firmware} {
+		if f == "" || strings.ContainsAny(f, ",\r\n") {
+			t.Fatalf("Identify = %+v: every field must be non-empty and free of commas and line breaks", got)
+		}
+	}
+}
+
+func closeTwice(t *testing.T, in instruments.Instrument) {
+	in.Close()
+	if err := in.Close(); err != nil {
+		t.Fatalf("second Close = %v, want nil", err)
+	}
+}
+
+// timed runs f and checks it fails with a timeout in the allowed window.
+func timed(t *testing.T, h Hooks, what string, f func(ctx context.Context) error) {
+	start := time.Now()
+	err := f(bgCtx(t))
+	el := time.Since(start)
+	if !errors.Is(err, transport.ErrTimeout) {
+		t.Fatalf("%s to a silent peer: err = %v, want one wrapping transport.ErrTimeout", what, err)
+	}
+	if lo, hi := h.Timeout/2, time.Duration(h.Retries+1)*h.Timeout+time.Second; el < lo || el > hi {
+		t.Fatalf("%s to a silent peer failed after %v, want between %v and %v", what, el, lo, hi)
+	}
+}
+
+// cancelled runs f with a context cancelled after 50 ms and checks it returns within
+// 1 s of the cancel with the context's error (or, when mayFinish, without error).
+func cancelled(t *testing.T, what string, mayFinish bool, f func(ctx context.Context) error) {
+	ctx, cancel := context.WithCancel(context.Background())
+	defer cancel()
+	done := make(chan error, 1)
+	go func() { done <- f(ctx) }()
+	time.Sleep(50 * time.Millisecond)
+	cancel()
+	at := time.Now()
+	select {
+	case err := <-done:
+		if err == nil && mayFinish {
+			return
+		}
+		if !errors.Is(err, context.Canceled) {
+			t.Fatalf("%s cancelled: err = %v, want one wrapping context.Canceled", what, err)
+		}
+		if el := time.Since(at); el > time.Second {
+			t.Fatalf("%s returned %v after the cancel, want < 1 s", what, el)
+		}
+	case <-time.After(2 * time.Second):
+		t.Fatalf("%s did not return within 2 s of the cancel", what)
+	}
+}
+
+func preCancelled(t *testing.T, what string, f func(ctx context.Context) error) {
+	ctx, cancel := context.WithCancel(context.Background())
+	cancel()
+	start := time.Now()
+	err := f(ctx)
+	if !errors.Is(err, context.Canceled) {
+		t.Fatalf("%s with a cancelled context: err = %v, want one wrapping context.Canceled", what, err)
+	}
+	if el := time.Since(start); el > time.Second {
+		t.Fatalf("%s with a cancelled context took %v", what, el)
+	}
+}
+
+func wantInstrumentError(t *testing.T, h Hooks, what string, err error) {
+	if err == nil {
+		t.Fatalf("%s: accepted, want an error", what)
+	}
+	if h.ErrorQueue {
+		var ie *scpi.InstrumentError
+		if !errors.As(err, &ie) || ie.Code == 0 || ie.Text == "" {
+			t.Fatalf("%s: err = %v, want a *scpi.InstrumentError with the instrument's code and text", what, err)
+		}
+	}
+}
+
+// Source runs the suite on a voltage source.
+func Source(t *testing.T, open func(t *testing.T) instruments.Source, hooks ...Hooks) {
+	h := hooksOf(hooks)
+	t.Run("identify", func(t *testing.T) { identify(t, open(t)) })
+	t.Run("reset", func(t *testing.T) {
+		r, ok := open(t).(instruments.Resetter)
+		if !ok {
+			t.Skip("not a Resetter")
+		}
+		if err := r.Reset(bgCtx(t)); err != nil {
+			t.Fatalf("Reset: %v", err)
+		}
+	})
+	t.Run("set level and output", func(t *testing.T) {
+		s, ctx := open(t), bgCtx(t)
+		for _, step := range []struct {
+			what string
+			f    func() error
+		}{
+			{"SetLevel(+level)", func() error { return s.SetLevel(ctx, h.Level) }},
+			{"SetOutput(on)", func() error { return s.SetOutput(ctx, true) }},
+			{"SetLevel(-level)", func() error { return s.SetLevel(ctx, -h.Level) }},
+			{"SetOutput(off)", func() error { return s.SetOutput(ctx, false) }},
+			{"SetLevel(0)", func() error { return s.SetLevel(ctx, 0) }},
+			{"SetOutput(off) again", func() error { return s.SetOutput(ctx, false) }},
+		} {
+			if err := step.f(); err != nil {
+				t.Fatalf("%s: %v", step.what, err)
+			}
+		}
+	})
+	t.Run("rejects", func(t *testing.T) {
+		s, ctx := open(t), bgCtx(t)
+		if err := s.SetLevel(ctx, math.NaN()); err == nil {
+			t.Fatal("SetLevel(NaN) accepted")
+		}
+		if h.OutOfRange != 0 {
+			wantInstrumentError(t, h, "SetLevel(out of range)", s.SetLevel(ctx, h.OutOfRange))
+		}
+		if err := s.SetOutput(ctx, false); err != nil {
+			t.Fatalf("SetOutput(off) after a refused request: %v", err)
+		}
+		if err := s.SetLevel(ctx, h.Level); err != nil {
+			t.Fatalf("SetLevel after a refused request: %v", err)
+		}
+	})
+	t.Run("compliance", func(t *testing.T) {
+		s := open(t)
+		cs, ok := s.(instruments.ComplianceSetter)
+		if !ok {
+			t.Skip("not a ComplianceSetter")
+		}
+		ctx := bgCtx(t)
+		if err := cs.SetCompliance(ctx, 10e-3); err != nil {
+			t.Fatalf("SetCompliance(10 mA): %v", err)
+		}
+		if err := cs.SetCompliance(ctx, -1); err == nil {
+			t.Fatal("SetCompliance(-1 A) accepted")
+		}
+		if err := cs.SetCompliance(ctx, 5e-3); err != nil {
+			t.Fatalf("SetCompliance(5 mA) after a refused request: %v", err)
+		}
+	})
+	t.Run("off after cancel", func(t *testing.T) {
+		s := open(t)
+		if err := s.SetOutput(bgCtx(t), true); err != nil {
+			t.Fatalf("SetOutput(on): %v", err)
+		}
+		ctx, cancel := context.WithCancel(context.Background())
+		cancel()
+		if err := s.SetOutput(ctx, false); err != nil {
+			t.Fatalf("SetOutput(off) with a done context: %v, want nil (it must still switch off)", err)
+		}
+	})
+	t.Run("cancel", func(t *testing.T) {
+		s := open(t)
+		preCancelled(t, "SetLevel", func(ctx context.Context) error { return s.SetLevel(ctx, h.Level) })
+		if h.Silence != nil {
+			h.Silence(t)
+			cancelled(t, "SetLevel to a silent peer", false, func(ctx context.Context) error { return s.SetLevel(ctx, h.Level) })
+		}
+	})
+	t.Run("timeout", func(t *testing.T) {
+		if h.Silence == nil {
+			t.Skip("no Silence hook")
+		}
+		s := open(t)
+		h.Silence(t)
+		timed(t, h, "SetLevel", func(ctx context.Context) error { return s.SetLevel(ctx, h.Level) })
+	})
+	t.Run("close twice", func(t *testing.T) {
+		s := open(t)
+		closeTwice(t, s)
+		if err := s.SetOutput(context.Background(), false); err != nil {
+			t.Fatalf("SetOutput(off) after Close: %v, want nil", err)
+		}
+	})
+}
+
+// Meter runs the suite on a voltmeter.
+func Meter(t *testing.T, open func(t *testing.T) instruments.Meter, hooks ...Hooks) {
+	h := hooksOf(hooks)
+	t.Run("identify", func(t *testing.T) { identify(t, open(t)) })
+	t.Run("reset", func(t *testing.T) {
+		r, ok := open(t).(instruments.Resetter)
+		if !ok {
+			t.Skip("not a Resetter")
+		}
+		if err := r.Reset(bgCtx(t)); err != nil {
+			t.Fatalf("Reset: %v", err)
+		}
+	})
+	t.Run("configure", func(t *testing.T) {
+		m := open(t)
+		mc, ok := m.(instruments.MeterConfigurer)
+		if !ok {
+			t.Skip("not a MeterConfigurer")
+		}
+		ctx := bgCtx(t)
+		if err := mc.Configure(ctx, 10, 1); err != nil {
+			t.Fatalf("Configure(10 V, 1 PLC): %v", err)
+		}
+		if err := mc.Configure(ctx, 0, 0.1); err != nil {
+			t.Fatalf("Configure(auto, 0.1 PLC): %v", err)
+		}
+		if err := mc.Configure(ctx, -1, 1); err == nil {
+			t.Fatal("Configure(-1 V) accepted")
+		}
+		if h.BadRange != 0 {
+			wantInstrumentError(t, h, "Configure(bad range)", mc.Configure(ctx, h.BadRange, 1))
+		}
+		if err := mc.Configure(ctx, 10, 0.1); err != nil {
+			t.Fatalf("Configure after a refused request: %v", err)
+		}
+	})
+	t.Run("read", func(t *testing.T) {
+		m, ctx := open(t), bgCtx(t)
+		for _, n := range []int{1, 5, 1} {
+			rs, err := m.Read(ctx, n)
+			if err != nil {
+				t.Fatalf("Read(%d): %v", n, err)
+			}
+			if len(rs) != n {
+				t.Fatalf("Read(%d) gave %d readings", n, len(rs))
+			}
+			for i, r := range rs {
+				if r.Time.IsZero() || i > 0 && r.Time.Before(rs[i-1].Time) {
+					t.Fatalf("Read(%d): reading %d time %v: want set and not before the one before", n, i, r.Time)
+				}
+				if r.Flag == instruments.FlagNone && !r.Valid() {
+					t.Fatalf("Read(%d): reading %d is unflagged but not a finite number: %v", n, i, r.Value)
+				}
+			}
+		}
+		if _, err := m.Read(ctx, 0); err == nil {
+			t.Fatal("Read(0) accepted")
+		}
+	})
+	t.Run("cancel", func(t *testing.T) {
+		m := open(t)
+		preCancelled(t, "Read", func(ctx context.Context) error { _, err := m.Read(ctx, 1); return err })
+		if h.Silence != nil {
+			h.Silence(t)
+			cancelled(t, "Read from a silent peer", false, func(ctx context.Context) error { _, err := m.Read(ctx, 1); return err })
+			return
+		}
+		cancelled(t, "a long Read", true, func(ctx context.Context) error { _, err := m.Read(ctx, h.LongRead); return err })
+	})
+	t.Run("timeout", func(t *testing.T) {
+		if h.Silence == nil {
+			t.Skip("no Silence hook")
+		}
+		m := open(t)
+		h.Silence(t)
+		timed(t, h, "Read", func(ctx context.Context) error { _, err := m.Read(ctx, 1); return err })
+	})
+	t.Run("close twice", func(t *testing.T) { closeTwice(t, open(t)) })
+}
+
+// TrimPort runs the suite on a DUT trim port that holds a unit.
+func TrimPort(t *testing.T, open func(t *testing.T) instruments.TrimPort, hooks ...Hooks) {
+	h := hooksOf(hooks)
+	t.Run("identify", func(t *testing.T) { identify(t, open(t)) })
+	t.Run("query and command", func(t *testing.T) {
+		p, ctx := open(t), bgCtx(t)
+		r, err := p.Query(ctx, h.Probe)
+		if err != nil || r == "" {
+			t.Fatalf("Query(%q) = %q, %v: want a reply", h.Probe, r, err)
+		}
+		if strings.ContainsAny(r, "\r\n") {
+			t.Fatalf("Query(%q) = %q: the terminator must be removed", h.Probe, r)
+		}
+		if err := p.Command(ctx, h.Command); err != nil {
+			t.Fatalf("Command(%q): %v", h.Command, err)
+		}
+	})
+	t.Run("rejects", func(t *testing.T) {
+		p, ctx := open(t), bgCtx(t)
+		if err := p.Command(ctx, h.Bad); err == nil {
+			t.Fatalf("Command(%q) accepted", h.Bad)
+		}
+		if _, err := p.Query(ctx, h.Bad); err == nil {
+			t.Fatalf("Query(%q) accepted", h.Bad)
+		}
+		if r, err := p.Query(ctx, h.Probe); err != nil || r == "" {
+			t.Fatalf("Query(%q) after a refused line = %q, %v", h.Probe, r, err)
+		}
+	})
+	t.Run("cancel", func(t *testing.T) {
+		p := open(t)
+		preCancelled(t, "Query", func(ctx context.Context) error { _, err := p.Query(ctx, h.Probe); return err })
+		if h.Silence != nil {
+			h.Silence(t)
+			cancelled(t, "Query to a silent peer", false, func(ctx context.Context) error { _, err := p.Query(ctx, h.Probe); return err })
+		}
+	})
+	t.Run("timeout", func(t *testing.T) {
+		if h.Silence == nil {
+			t.Skip("no Silence hook")
+		}
+		p := open(t)
+		h.Silence(t)
+		timed(t, h, "Query", func(ctx context.Context) error { _, err := p.Query(ctx, h.Probe); return err })
+		timed(t, h, "Command", func(ctx context.Context) error { return p.Command(ctx, h.Command) })
+	})
+	t.Run("close twice", func(t *testing.T) { closeTwice(t, open(t)) })
+}

@@ -1,0 +1,441 @@
+// Package generic is trimline's template-driven driver for real instruments. It
+// registers the address schemes serial, tcp and usbtmc (package transport) and opens,
+// by the spec's role, a DC source, a DC voltmeter or a DUT trim port whose command
+// text comes from templates, so that a new instrument model needs a station file
+// entry, not Go code.
+//
+// # Templates
+//
+// Each role has default templates (the standard SCPI tree); spec.Templates replaces
+// any of them by name, and an unknown name or placeholder is a
+// *instruments.SettingError with Key "templates.<name>". Placeholders are replaced by
+// numbers formatted with strconv 'g' and 10 significant digits; {range} is "AUTO"
+// for autorange.
+//
+//	source                                     meter
+//	identify        *IDN?                      identify    *IDN?
+//	reset           *RST                       reset       *RST
+//	clear           *CLS                       clear       *CLS
+//	sync            *OPC?                      sync        *OPC?
+//	error_query     SYST:ERR?                  error_query SYST:ERR?
+//	set_range       SOUR:VOLT:RANG {volts}     configure   CONF:VOLT:DC {range}
+//	set_level       SOUR:VOLT {volts}          set_nplc    VOLT:DC:NPLC {nplc}
+//	get_level       SOUR:VOLT?                 autozero    ZERO:AUTO ON
+//	set_compliance  SOUR:CURR:PROT {amps}      set_count   SAMP:COUN {n}
+//	output_on       OUTP ON                    read        READ?
+//	output_off      OUTP OFF
+//	get_output      OUTP?
+//
+// clear, sync, set_range and autozero may be set to "" to leave that step out. The
+// DUT needs no templates (its protocol comes from the sequence file); its only one is
+// load_unit (no default), e.g. "FIXTURE LOAD {serial}": when set, the port also
+// implements instruments.FixtureLoader by sending it as a command.
+//
+// # Settings
+//
+//	read_term, write_term  line terminators, escapes allowed ("\n", "\r\n"); "\n"
+//	timeout                per exchange (e.g. "500ms", "2 s"); default 2 s, or spec.Timeout
+//	retries                extra tries of an idempotent query after a timeout or a
+//	                       dropped link (0..10); default 2
+//	reset                  source and meter: true|false, clear and reset at open; true
+//	range                  source: volts programmed with set_range at open and after Reset
+//	line_frequency         meter: Hz, only to size the read timeout; 50 Hz
+//
+// # Behaviour
+//
+// Every configuration command of a source or meter is followed by a drain of the
+// error queue (error_query until 0); an entry fails the call with the instrument's
+// own *scpi.InstrumentError. SetLevel reads the level back (get_level) and fails with
+// an error wrapping ErrReadback unless it agrees within 1e-9 relative or 1 nV;
+// SetOutput reads the output state back likewise. Commands are never repeated;
+// idempotent queries are retried (package scpi). SetOutput(ctx, false) always tries,
+// also after earlier errors, on a broken link (it reconnects) and after ctx is done
+// (it runs on a fresh context bounded by three exchange timeouts).
+//
+// # Concurrency
+//
+// An instrument may be used from several goroutines; its exchanges are serialised.
+package generic
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"math"
+	"net/url"
+	"regexp"
+	"sort"
+	"strconv"
+	"strings"
+	"time"
+
+	"trimline/instruments"
+	"trimline/instruments/scpi"
+	"trimline/instruments/transport"
+	"trimline/sequencer/units"
+)
+
+// Driver is the generic driver, registered for the schemes serial, tcp and usbtmc.
+type Driver struct{}
+
+var (
+	_ instruments.Driver          = Driver{}
+	_ instruments.SettingsChecker = Driver{}
+)
+
+func init() {
+	for _, s := range []string{"serial", "tcp", "usbtmc"} {
+		instruments.Register(s, Driver{})
+	}
+}
+
+// Querier is implemented by every instrument of this package: send one line and
+// return the reply line (an idempotent query is retried, see package scpi).
+type Querier interface {
+	Query(ctx context.Context, line string) (string, error)
+}
+
+// ErrReadback is wrapped when an instrument reads back a different value than the
+// one just programmed.
+var ErrReadback = errors.New("read-back mismatch")
+
+// Roles this driver opens.
+const (
+	RoleSource = "source"
+	RoleMeter  = "meter"
+	RoleDUT    = "dut"
+)
+
+var defaults = map[string]map[string]string{
+	RoleSource: {
+		"identify": "*IDN?", "reset": "*RST", "clear": "*CLS", "sync": "*OPC?", "error_query": "SYST:ERR?",
+		"set_range": "SOUR:VOLT:RANG {volts}", "set_level": "SOUR:VOLT {volts}", "get_level": "SOUR:VOLT?",
+		"set_compliance": "SOUR:CURR:PROT {amps}", "output_on": "OUTP ON", "output_off": "OUTP OFF", "get_output": "OUTP?",
+	},
+	RoleMeter: {
+		"identify": "*IDN?", "reset": "*RST", "clear": "*CLS", "sync": "*OPC?", "error_query": "SYST:ERR?",
+		"configure": "CONF:VOLT:DC {range}", "set_nplc": "VOLT:DC:NPLC {nplc}", "autozero": "ZERO:AUTO ON",
+		"set_count": "SAMP:COUN {n}", "read": "READ?",
+	},
+	RoleDUT: {"load_unit": ""},
+}
+
+// placeholders lists the placeholders each template may use (none if absent).
+var placeholders = map[string][]string{
+	"set_range": {"{volts}"}, "set_level": {"{volts}"}, "set_compliance": {"{amps}"},
+	"configure": {"{range}"}, "set_nplc": {"{nplc}"}, "set_count": {"{n}"}, "load_unit": {"{serial}"},
+}
+
+// optional templates may be "" to leave the step out.
+var optional = map[string]bool{"clear": true, "sync": true, "set_range": true, "autozero": true, "load_unit": true}
+
+// DefaultTemplates returns a copy of the default templates of role ("source",
+// "meter" or "dut"), nil for another role.
+func DefaultTemplates(role string) map[string]string {
+	d, ok := defaults[role]
+	if !ok {
+		return nil
+	}
+	out := make(map[string]string, len(d))
+	for k, v := range d {
+		out[k] = v
+	}
+	return out
+}
+
+// config is a spec's parsed settings and templates.
+type config struct {
+	role     string
+	tpl      map[string]string
+	topt     transport.Options
+	retries  int
+	reset    bool
+	rangeV   float64 // source: 0 = not programmed
+	lineFreq float64 // meter
+}
+
+func settingErr(key, format string, args ...any) error {
+	return &instruments.SettingError{Key: key, Msg: fmt.Sprintf(format, args...)}
+}
+
+var settingKeys = map[string][]string{
+	RoleSource: {"read_term", "write_term", "timeout", "retries", "reset", "range"},
+	RoleMeter:  {"read_term", "write_term", "timeout", "retries", "reset", "line_frequency"},
+	RoleDUT:    {"read_term", "write_term", "timeout", "retries"},
+}
+
+var placeholderRE = regexp.MustCompile(`\{[^{}]*\}`)
+
+// parseConfig validates spec and returns its configuration.
+func parseConfig(spec instruments.Spec) (config, error) {
+	c := config{role: spec.Role, retries: 2, reset: true, lineFreq: 50}
+	def, ok := defaults[spec.Role]
+	if !ok {
+		return c, fmt.Errorf("role %q: the generic driver opens a source, a meter or a dut", spec.Role)
+	}
+	c.tpl = DefaultTemplates(spec.Role)
+	names := make([]string, 0, len(spec.Templates))
+	for k := range spec.Templates {
+		names = append(names, k)
+	}
+	sort.Strings(names)
+	for _, k := range names {
+		v := strings.TrimSpace(spec.Templates[k])
+		if _, known := def[k]; !known {
+			return c, settingErr("templates."+k, "unknown template for a %s (known: %s)", spec.Role, strings.Join(sortedKeys(def), ", "))
+		}
+		if v == "" && !optional[k] {
+			return c, settingErr("templates."+k, "must not be empty")
+		}
+		for _, ph := range placeholderRE.FindAllString(v, -1) {
+			if !contains(placeholders[k], ph) {
+				want := "none"
+				if len(placeholders[k]) > 0 {
+					want = strings.Join(placeholders[k], ", ")
+				}
+				return c, settingErr("templates."+k, "placeholder %s not known here (allowed: %s)", ph, want)
+			}
+		}
+		if strings.ContainsAny(v, "\r\n") {
+			return c, settingErr("templates."+k, "a template is one line")
+		}
+		c.tpl[k] = v
+	}
+	keys := make([]string, 0, len(spec.Settings))
+	for k := range spec.Settings {
+		keys = append(keys, k)
+	}
+	sort.Strings(keys)
+	for _, k := range keys {
+		v := spec.Settings[k]
+		if !contains(settingKeys[spec.Role], k) {
+			return c, settingErr(k, "unknown setting for a %s on the generic driver (known: %s)", spec.Role, strings.Join(settingKeys[spec.Role], ", "))
+		}
+		var err error
+		switch k {
+		case "read_term":
+			c.topt.ReadTerm, err = terminator(k, v)
+		case "write_term":
+			c.topt.WriteTerm, err = terminator(k, v)
+		case "timeout":
+			c.topt.Timeout, err = duration(k, v)
+			if err == nil && spec.Timeout > 0 && spec.Timeout != c.topt.Timeout {
+				err = settingErr(k, "%q conflicts with the instrument's timeout of %s", v, spec.Timeout)
+			}
+		case "retries":
+			c.retries, err = strconv.Atoi(strings.TrimSpace(v))
+			if err != nil || c.retries < 0 || c.retries > 10 {
+				err = settingErr(k, "%q: expected an integer 0..10", v)
+			}
+		case "reset":
+			c.reset, err = strconv.ParseBool(strings.TrimSpace(v))
+			if err != nil {
+				err = settingErr(k, "%q: expected true or false", v)
+			}
+		case "range":
+			c.rangeV, err = units.ParseAs(v, units.Volt)
+			if err != nil || !(c.rangeV > 0) || math.IsInf(c.rangeV, 0) {
+				err = settingErr(k, "%q: expected a positive voltage such as 100 mV", v)
+			}
+		case "line_frequency":
+			c.lineFreq, err = units.ParseAs(v, units.Hertz)
+			if err != nil || !(c.lineFreq > 0) || math.IsInf(c.lineFreq, 0) {
+				err = settingErr(k, "%q: expected a positive frequency such as 50 Hz", v)
+			}
+		}
+		if err != nil {
+			return c, err
+		}
+	}
+	if spec.Timeout > 0 {
+		c.topt.Timeout = spec.Timeout
+	}
+	if c.topt.Timeout <= 0 {
+		c.topt.Timeout = transport.DefaultTimeout
+	}
+	return c, nil
+}
+
+func terminator(key, v string) (string, error) {
+	s := v
+	if strings.Contains(v, `\`) {
+		u, err := strconv.Unquote(`"` + strings.ReplaceAll(v, `"`, `\"`) + `"`)
+		if err != nil {
+			return "", settingErr(key, "%q: bad escape sequence (use \\n, \\r\\n, \\r)", v)
+		}
+		s = u
+	}
+	if s == "" {
+		return "", settingErr(key, "must not be empty")
+	}
+	return s, nil
+}
+
+func duration(key, v string) (time.Duration, error) {
+	d, err := time.ParseDuration(strings.TrimSpace(v))
+	if err != nil {
+		var s float64
+		if s, err = units.ParseAs(v, units.Second); err != nil {
+			return 0, settingErr(key, "%q: expected a duration such as 500ms or 2 s", v)
+		}
+		d = time.Duration(math.Round(s * 1e9))
+	}
+	if d <= 0 {
+		return 0, settingErr(key, "%q: expected a positive duration", v)
+	}
+	return d, nil
+}
+
+func contains(list []string, s string) bool {
+	for _, x := range list {
+		if x == s {
+			return true
+		}
+	}
+	return false
+}
+
+func sortedKeys(m map[string]string) []string {
+	out := make([]string, 0, len(m))
+	for k := range m {
+		out = append(out, k)
+	}
+	sort.Strings(out)
+	return out
+}
+
+// CheckSettings validates the address (scheme-specific parts), the role, the
+// settings and the templates of spec without opening anything. A bad setting or
+// template is a *instruments.SettingError.
+func (Driver) CheckSettings(spec instruments.Spec) error {
+	u, err := url.Parse(spec.Address)
+	if err != nil {
+		return fmt.Errorf("address %q: %w", spec.Address, err)
+	}
+	if err := transport.CheckAddress(u); err != nil {
+		return err
+	}
+	_, err = parseConfig(spec)
+	return err
+}
+
+// Open dials addr and opens the instrument spec.Role names: a *Source, a *Meter or a
+// *Port (a *LoaderPort when the load_unit template is set). A source or meter is
+// cleared and reset at open unless the reset setting is false; its error queue is
+// then drained. ctx bounds the opening only.
+func (Driver) Open(ctx context.Context, addr *url.URL, spec instruments.Spec) (instruments.Instrument, error) {
+	if err := transport.CheckAddress(addr); err != nil {
+		return nil, err
+	}
+	c, err := parseConfig(spec)
+	if err != nil {
+		return nil, err
+	}
+	dial := func(ctx context.Context) (transport.Conn, error) { return transport.Dial(ctx, addr, c.topt) }
+	conn, err := dial(ctx)
+	if err != nil {
+		return nil, err
+	}
+	sess := scpi.NewSession(conn, scpi.Options{Redial: dial, Retries: c.retries, ErrorQuery: c.tpl["error_query"]})
+	b := base{sess: sess, tpl: c.tpl, addr: addr.String(), timeout: c.topt.Timeout}
+	var in instruments.Instrument
+	switch c.role {
+	case RoleSource:
+		s := &Source{base: b, rangeV: c.rangeV}
+		err = s.open(ctx, c.reset)
+		in = s
+	case RoleMeter:
+		m := &Meter{base: b, lineFreq: c.lineFreq}
+		err = m.open(ctx, c.reset)
+		in = m
+	default:
+		p := &Port{base: b}
+		in = p
+		if c.tpl["load_unit"] != "" {
+			in = &LoaderPort{Port: p}
+		}
+	}
+	if err != nil {
+		sess.Close()
+		return nil, err
+	}
+	return in, nil
+}
+
+// base is what every instrument of this package shares.
+type base struct {
+	sess    *scpi.Session
+	tpl     map[string]string
+	addr    string
+	timeout time.Duration
+}
+
+// Session returns the instrument's SCPI session (for diagnostics and tests).
+func (b *base) Session() *scpi.Session { return b.sess }
+
+// Query sends line and returns the reply; an idempotent query is retried.
+func (b *base) Query(ctx context.Context, line string) (string, error) {
+	r, err := b.sess.Query(ctx, line)
+	if err != nil {
+		return "", fmt.Errorf("%s: %w", b.addr, err)
+	}
+	return r, nil
+}
+
+// expand fills the template name with the placeholder values (pairs).
+func (b *base) expand(name string, kv ...string) string {
+	return strings.NewReplacer(kv...).Replace(b.tpl[name])
+}
+
+// exec sends the template name and drains the error queue.
+func (b *base) exec(ctx context.Context, name string, kv ...string) error {
+	if err := b.sess.Exec(ctx, b.expand(name, kv...)); err != nil {
+		return fmt.Errorf("%s: %s: %w", b.addr, name, err)
+	}
+	return nil
+}
+
+// prepare clears, optionally resets and syncs, then drains the error queue.
+func (b *base) prepare(ctx context.Context, reset bool) error {
+	if t := b.tpl["clear"]; t != "" {
+		if err := b.sess.Write(ctx, t); err != nil {
+			return fmt.Errorf("%s: clear: %w", b.addr, err)
+		}
+	}
+	if reset {
+		if err := b.sess.Write(ctx, b.tpl["reset"]); err != nil {
+			return fmt.Errorf("%s: reset: %w", b.addr, err)
+		}
+	}
+	if t := b.tpl["sync"]; t != "" {
+		r, err := b.sess.Query(ctx, t)
+		if err != nil {
+			return fmt.Errorf("%s: sync: %w", b.addr, err)
+		}
+		if v, f, err := scpi.ParseNumber(r); err != nil || f != instruments.FlagNone || v != 1 {
+			return fmt.Errorf("%s: sync: %q answered %q, want 1: %w", b.addr, t, r, scpi.ErrMalformed)
+		}
+	}
+	if err := b.sess.DrainErrors(ctx); err != nil {
+		return fmt.Errorf("%s: %w", b.addr, err)
+	}
+	return nil
+}
+
+// identify sends the identify template and parses the reply strictly.
+func (b *base) identify(ctx context.Context) (instruments.Identity, error) {
+	r, err := b.sess.Query(ctx, b.tpl["identify"])
+	if err != nil {
+		return instruments.Identity{}, fmt.Errorf("%s: identify: %w", b.addr, err)
+	}
+	id, err := scpi.ParseIDN(r)
+	if err != nil {
+		return instruments.Identity{}, fmt.Errorf("%s: identify: %w", b.addr, err)
+	}
+	return id, nil
+}
+
+// num formats v for a template: strconv 'g' with 10 significant digits.
+func num(v float64) string { return strconv.FormatFloat(v, 'g', 10, 64) }
+
+func finite(v float64) bool { return !math.IsNaN(v) && !math.IsInf(v, 0) }

@@ -1,0 +1,162 @@
+package generic
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"math"
+	"strings"
+	"sync"
+
+	"trimline/instruments"
+	"trimline/instruments/scpi"
+)
+
+// Source is a DC voltage source driven by templates (see the package doc).
+type Source struct {
+	base
+	rangeV float64 // volts programmed with set_range; 0 = never
+
+	mu       sync.Mutex
+	closed   bool
+	closeErr error // the output-off result of Close
+}
+
+var (
+	_ instruments.Source           = (*Source)(nil)
+	_ instruments.Identifier       = (*Source)(nil)
+	_ instruments.Resetter         = (*Source)(nil)
+	_ instruments.ComplianceSetter = (*Source)(nil)
+	_ Querier                      = (*Source)(nil)
+)
+
+func (s *Source) open(ctx context.Context, reset bool) error {
+	if err := s.prepare(ctx, reset); err != nil {
+		return err
+	}
+	return s.programRange(ctx)
+}
+
+func (s *Source) programRange(ctx context.Context) error {
+	if s.rangeV > 0 && s.tpl["set_range"] != "" {
+		return s.exec(ctx, "set_range", "{volts}", num(s.rangeV))
+	}
+	return nil
+}
+
+// Identify sends the identify template (*IDN?) and parses the reply strictly.
+func (s *Source) Identify(ctx context.Context) (instruments.Identity, error) { return s.identify(ctx) }
+
+// Reset clears the instrument, sends the reset template (*RST: by IEEE 488.2 the
+// output is then off), waits for it (*OPC?), drains the error queue and programs the
+// range setting again.
+func (s *Source) Reset(ctx context.Context) error {
+	if err := s.prepare(ctx, true); err != nil {
+		return err
+	}
+	return s.programRange(ctx)
+}
+
+// SetLevel programs volts (finite) with set_level, drains the error queue and reads
+// the level back with get_level; a difference of more than 1e-9 relative or 1 nV is
+// an error wrapping ErrReadback. It does not switch the output on.
+func (s *Source) SetLevel(ctx context.Context, volts float64) error {
+	if !finite(volts) {
+		return fmt.Errorf("%s: set level %g V: not a finite voltage", s.addr, volts)
+	}
+	if err := s.exec(ctx, "set_level", "{volts}", num(volts)); err != nil {
+		return err
+	}
+	got, err := s.sess.QueryFloat(ctx, s.tpl["get_level"])
+	if err != nil {
+		return fmt.Errorf("%s: read back level: %w", s.addr, err)
+	}
+	if d := math.Abs(got - volts); d > 1e-9 && d > 1e-9*math.Abs(volts) {
+		return fmt.Errorf("%s: level set to %s V reads back %s V: %w", s.addr, num(volts), num(got), ErrReadback)
+	}
+	return nil
+}
+
+// SetCompliance programs the current limit in amperes (finite, > 0) with
+// set_compliance and drains the error queue.
+func (s *Source) SetCompliance(ctx context.Context, amps float64) error {
+	if !finite(amps) || amps <= 0 {
+		return fmt.Errorf("%s: compliance %g A: expected a positive current", s.addr, amps)
+	}
+	return s.exec(ctx, "set_compliance", "{amps}", num(amps))
+}
+
+// SetOutput switches the output with output_on or output_off, drains the error queue
+// and reads the state back with get_output (1/0 or ON/OFF). Switching off runs on a
+// fresh context bounded by three exchange timeouts, whatever ctx and earlier errors
+// say, and reconnects a dropped link first; after Close it returns the result of the
+// switch-off Close did.
+func (s *Source) SetOutput(ctx context.Context, on bool) error {
+	if !on {
+		s.mu.Lock()
+		closed, cerr := s.closed, s.closeErr
+		s.mu.Unlock()
+		if closed {
+			return cerr
+		}
+		return s.off(ctx)
+	}
+	if err := s.exec(ctx, "output_on"); err != nil {
+		return err
+	}
+	return s.checkOutput(ctx, true)
+}
+
+func (s *Source) off(ctx context.Context) error {
+	octx, cancel := context.WithTimeout(context.WithoutCancel(ctx), 3*s.timeout)
+	defer cancel()
+	if err := s.exec(octx, "output_off"); err != nil {
+		return err
+	}
+	return s.checkOutput(octx, false)
+}
+
+func (s *Source) checkOutput(ctx context.Context, want bool) error {
+	r, err := s.sess.Query(ctx, s.tpl["get_output"])
+	if err != nil {
+		return fmt.Errorf("%s: read back output state: %w", s.addr, err)
+	}
+	var got bool
+	switch strings.ToUpper(strings.TrimSpace(r)) {
+	case "1", "+1", "ON":
+		got = true
+	case "0", "+0", "OFF":
+	default:
+		return fmt.Errorf("%s: output state %q is not 1/0 or ON/OFF: %w", s.addr, r, scpi.ErrMalformed)
+	}
+	if got != want {
+		return fmt.Errorf("%s: output switched %s reads back %s: %w", s.addr, onOff(want), onOff(got), ErrReadback)
+	}
+	return nil
+}
+
+func onOff(b bool) string {
+	if b {
+		return "on"
+	}
+	return "off"
+}
+
+// Close switches the output off (as SetOutput(ctx, false) does) and closes the link.
+// It returns the switch-off error, if any; a second call returns nil.
+func (s *Source) Close() error {
+	s.mu.Lock()
+	if s.closed {
+		s.mu.Unlock()
+		return nil
+	}
+	s.mu.Unlock()
+	err := s.off(context.Background())
+	s.mu.Lock()
+	s.closed, s.closeErr = true, err
+	s.mu.Unlock()
+	if cerr := s.sess.Close(); err == nil && cerr != nil && !errors.Is(cerr, context.Canceled) {
+		err = cerr
+	}
+	return err
+}
