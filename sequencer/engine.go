@@ -501,6 +501,15 @@ func (e *Engine) sweep(ctx context.Context, name string, p SweepPlan) (Sweep, er
 				return fmt.Errorf("%s sweep at %s: read meter: %w", name, fmtV(x), err)
 			}
 			sw.Points = append(sw.Points, point(x, rs))
+			// The unit's output cannot leave its supply rails, so an overload or
+			// not-a-number on the meter's range is the station's problem (range,
+			// wiring, a failing meter), not a measurement of the unit.
+			for j, r := range rs {
+				if !r.Valid() {
+					return &stop{Fault, fmt.Sprintf("%s sweep at %s: meter reported %s (reading %d of %d): check the meter range and the wiring",
+						name, fmtV(x), firstBad(rs[j:j+1]), j+1, len(rs))}
+				}
+			}
 			return nil
 		})
 		if err != nil {

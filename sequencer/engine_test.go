@@ -282,7 +282,9 @@ func TestPostTrimOffsetWithinHalfLSB(t *testing.T) {
 }
 
 // A flagged, NaN or infinite reading must never let a unit pass, even with a limit
-// written so that NaN would slip through expr-lang (`!(x > lim)`).
+// written so that NaN would slip through expr-lang (`!(x > lim)`): the engine stops
+// the unit as a station fault (an overload on a range the unit's rails cannot reach
+// is the station's problem) and judges nothing on it.
 func TestFlaggedReadingsNeverPass(t *testing.T) {
 	trap := `limit_set:
   name: trap
@@ -306,16 +308,18 @@ limits:
 			set["meter"]["force_flag"] = flag
 			e := setup(t, "sim", set, trap)
 			rec := e.Run(context.Background(), "BRX-00001")
-			if rec.Verdict != sequencer.Fail {
-				t.Fatalf("verdict %s, want FAIL", rec.Verdict)
+			if rec.Verdict != sequencer.Fault || !strings.Contains(rec.Fault, "meter reported "+flag) {
+				t.Fatalf("verdict %s %q, want FAULT naming the %s", rec.Verdict, rec.Fault, flag)
 			}
 			for _, o := range rec.Outcomes {
 				if o.Pass {
 					t.Errorf("limit %q passed on flagged readings", o.Name)
 				}
 			}
-			if r := resultOf(t, rec, sequencer.ResPreOffset); r.Valid {
-				t.Errorf("pre_offset valid from %s readings", flag)
+			for _, r := range rec.Results {
+				if r.Valid {
+					t.Errorf("%s valid from %s readings", r.Name, flag)
+				}
 			}
 			if on, _ := simSource(t, e).State(); on {
 				t.Error("source left on")

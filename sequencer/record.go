@@ -161,3 +161,31 @@ type Result struct {
 	Note  string      `json:"note,omitempty"` // why the value is not valid
 	Unc   Uncertainty `json:"uncertainty"`    // zero for codes (exact integers)
 }
+
+// FaultRecord is the record of a unit that could not be run at all because the
+// station failed before it started (an instrument that would not open, identify or
+// reach a safe state). It carries the files in force and the message, so the
+// ledger shows the attempt.
+func FaultRecord(cfg Config, serial string, now time.Time, err error) *Record {
+	st, seq := cfg.Station, cfg.Sequence
+	rec := &Record{Schema: RecordSchema, Serial: serial, Product: seq.Product, Revision: seq.Revision,
+		Station: st.ID, Operator: cfg.Operator, Software: cfg.Software, Started: now.UTC(), Finished: now.UTC(),
+		Files:     []FileRef{st.File, seq.File, limitsRef(seq.Limits)},
+		IdealGain: seq.IdealGain, IdealOffset: seq.IdealOffset, FullScale: seq.FullScale,
+		Conditions: cfg.Conditions, Verdict: Fault, Fault: "station could not start the unit: " + err.Error()}
+	for _, r := range seq.Requires {
+		si := st.Instruments[r]
+		ref := InstrumentRef{Role: r, Address: si.Address, Asset: si.Asset, Accuracy: si.Accuracy.String(),
+			Identity: instruments.Identity{Maker: "0", Model: "0", Serial: "0", Firmware: "0"}}
+		if !si.CalDue.IsZero() {
+			ref.CalDue = si.CalDue.Format("2006-01-02")
+		}
+		rec.Instruments = append(rec.Instruments, ref)
+	}
+	if cfg.NewID != nil {
+		rec.RunID = cfg.NewID(now)
+	} else {
+		rec.RunID = newID(now)
+	}
+	return rec
+}

@@ -10,6 +10,7 @@ import (
 	"strconv"
 	"time"
 
+	"trimline/sequencer"
 	"trimline/sequences"
 )
 
@@ -18,7 +19,7 @@ func init() { register(newDemoCmd) }
 func newDemoCmd() *command {
 	c := &command{
 		Name:  "demo",
-		Usage: "[--out DIR] [--units N] [--seed S]",
+		Usage: "[--out DIR] [--units N] [--seed S] [--transport sim|tcp|serial]",
 		Short: "write the demo files and trim N simulated units end to end",
 		Long: `Writes the demo station, sequence and limit files for the BRX-200 bridge amplifier
 card (an invented product) into DIR, then runs N simulated units through the whole
@@ -28,12 +29,18 @@ carry a real defect (a stuck trim-DAC bit, excess noise, an open output); the de
 seed's first 25 units include two, so the demo shows how failures look.
 
 Afterwards DIR holds the three files, certificates/*.pdf, ledger.db (SQLite) and
-trimline.log (JSON lines). Rerun with the same --seed for the same units.`,
+trimline.log (JSON lines). Rerun with the same --seed for the same units.
+
+With --transport tcp or serial the same units run through the real SCPI and
+trim-port drivers against the simulator served on loopback TCP ports or
+pseudo-terminals (see trimline bench). The served bench runs on real time, so each
+unit takes a few seconds, as it would on a real bench.`,
 		Flags: newFlags("demo"),
 	}
 	out := c.Flags.String("out", "trimline-demo", "output `folder`")
 	n := c.Flags.Int("units", 25, "number of simulated `units`")
 	seed := c.Flags.Uint64("seed", 8, "`seed` of the simulated unit population")
+	transport := c.Flags.String("transport", "sim", "`how` to reach the simulated bench: sim (in process), tcp or serial")
 	operator := c.Flags.String("operator", defaultOperator(), "operator `name` printed on certificates")
 	ambient := c.Flags.String("ambient", "", "ambient `temperature` to record on every run, e.g. \"23.1 °C\" or 23.1degC")
 	c.Run = func(ctx context.Context, c *command, args []string) error {
@@ -46,6 +53,26 @@ trimline.log (JSON lines). Rerun with the same --seed for the same units.`,
 		station, sequence, err := writeDemoFiles(*out, *seed, time.Now())
 		if err != nil {
 			return stationErr(err)
+		}
+		switch *transport {
+		case "sim":
+		case "tcp", "serial":
+			st, err := sequencer.LoadStation(station)
+			if err != nil {
+				return badInput(err)
+			}
+			srv, err := serveStation(ctx, st, *transport, nil)
+			if err != nil {
+				return err
+			}
+			defer srv.Close()
+			station = filepath.Join(*out, "brx200-station-"+*transport+".yaml")
+			if err := os.WriteFile(station, servedStationYAML(st, srv.Addresses()), 0o644); err != nil {
+				return stationErr(err)
+			}
+			fmt.Fprintf(stdoutW, "serving the simulated bench over %s; station file %s\n", *transport, station)
+		default:
+			return usageErr("--transport must be sim, tcp or serial")
 		}
 		fmt.Fprintf(stdoutW, "trimline demo: %d simulated BRX-200 units, seed %d, files in %s\n\n", *n, *seed, *out)
 		serials := make([]string, *n)

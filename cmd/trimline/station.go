@@ -119,12 +119,19 @@ func runBatch(ctx context.Context, b batch) (*tally, error) {
 		}
 		cond = sequencer.Conditions{AmbientC: c, AmbientSource: "entered"}
 	}
-	eng, err := sequencer.Open(ctx, sequencer.Config{Station: st, Sequence: seq, Operator: b.operator,
-		Software: "trimline " + version(), Log: log, Conditions: cond})
+	cfg := sequencer.Config{Station: st, Sequence: seq, Operator: b.operator,
+		Software: "trimline " + version(), Log: log, Conditions: cond}
+	eng, err := sequencer.Open(ctx, cfg)
 	if err != nil {
 		if errors.Is(err, sequencer.ErrSafety) || errors.Is(err, sequencer.ErrTUR) {
 			return nil, badInput(err)
 		}
+		// The unit in the fixture was not run: record the attempt and why.
+		rec := sequencer.FaultRecord(cfg, b.serials[0], time.Now(), err)
+		if _, lerr := led.RecordRun(context.WithoutCancel(ctx), rec, st.CertificatePrefix); lerr != nil {
+			log.Error().Err(lerr).Msg("could not record the failed start in the ledger")
+		}
+		log.Error().Str("serial", rec.Serial).Err(err).Msg("station fault before the unit started")
 		return nil, stationErr(err)
 	}
 	defer eng.Close()
