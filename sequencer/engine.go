@@ -345,46 +345,11 @@ func (e *Engine) run(ctx context.Context, rec *Record) error {
 		return err
 	}
 	res := newResults()
-	preA, ferr := e.analyse(pre, rec.RunID)
-	if ferr != nil {
-		res.invalidAll("pre-trim sweep: " + ferr.Error())
-		rec.Results = res.list()
-		e.judge(rec, res)
+	if !e.evalPre(rec, res, pre, trims) {
+		e.finish(rec, res)
 		return nil
 	}
-	preFit := preA.sum
-	rec.Fits = append(rec.Fits, preFit)
-	e.fitResults(res, preA, ResPreOffset, ResPreGainError, ResPreNonlinearity)
-
-	sol, err := ComputeTrim(seq.Trim, preFit.Slope, preFit.Intercept, seq.Trim.Gain.NoCorrection, seq.Trim.Offset.NoCorrection, seq.IdealGain, seq.IdealOffset)
-	if err != nil {
-		res.invalidFrom(ResOffsetCode, "cannot compute trim: "+err.Error())
-		rec.Results = res.list()
-		rec.Reasons = append(rec.Reasons, "cannot compute trim codes: "+err.Error())
-		e.judge(rec, res)
-		return nil
-	}
-	trims[0].Ideal, trims[0].Code, trims[0].Saturated = sol.GainIdeal, sol.Gain, sol.GainSat
-	trims[1].Ideal, trims[1].Code, trims[1].Saturated = sol.OffsetIdeal, sol.Offset, sol.OffsetSat
-	trims[0].IdealU, trims[1].IdealU = idealCodeU(seq.Trim, preA, sol)
-	rec.Trims = trims
-	res.set(ResGainCode, float64(sol.Gain))
-	res.set(ResOffsetCode, float64(sol.Offset))
-	var sat []string
-	for i, t := range trims {
-		if t.Saturated {
-			sat = append(sat, fmt.Sprintf("%s trim needs code %.1f, outside the DAC's range 0..%d", t.DAC, t.Ideal, dacs[i].MaxCode()))
-		}
-	}
-	if len(sat) > 0 {
-		rec.Reasons = append(rec.Reasons, sat...)
-		res.invalidFrom(ResPostOffset, "not measured: trim saturated")
-		res.values[ResGainCode] = limits.Value{V: float64(sol.Gain), Valid: !sol.GainSat, Why: "gain trim saturated"}
-		res.values[ResOffsetCode] = limits.Value{V: float64(sol.Offset), Valid: !sol.OffsetSat, Why: "offset trim saturated"}
-		rec.Results = res.list()
-		e.judge(rec, res)
-		return nil
-	}
+	trims = rec.Trims
 
 	for i := range trims {
 		if err := e.writeCode(ctx, trims[i].DAC, dacs[i], trims[i].Code); err != nil {
@@ -408,6 +373,59 @@ func (e *Engine) run(ctx context.Context, rec *Record) error {
 	if err != nil {
 		return err
 	}
+	e.evalPost(rec, res, post)
+	e.finish(rec, res)
+	return nil
+}
+
+// evalPre computes the pre-trim results and the trim codes from the pre-trim sweep
+// into rec and res. It reports false when the run cannot go on (no usable fit, no
+// trim possible, a saturated trim); the reasons are then in rec and res. It does
+// no I/O, so a replay of a stored record runs the very same arithmetic.
+func (e *Engine) evalPre(rec *Record, res *results, pre Sweep, trims []TrimCode) bool {
+	seq := e.cfg.Sequence
+	dacs := []DAC{seq.Trim.Gain, seq.Trim.Offset}
+	preA, ferr := e.analyse(pre, rec.RunID)
+	if ferr != nil {
+		res.invalidAll("pre-trim sweep: " + ferr.Error())
+		return false
+	}
+	preFit := preA.sum
+	rec.Fits = append(rec.Fits, preFit)
+	e.fitResults(res, preA, ResPreOffset, ResPreGainError, ResPreNonlinearity)
+
+	sol, err := ComputeTrim(seq.Trim, preFit.Slope, preFit.Intercept, seq.Trim.Gain.NoCorrection, seq.Trim.Offset.NoCorrection, seq.IdealGain, seq.IdealOffset)
+	if err != nil {
+		res.invalidFrom(ResOffsetCode, "cannot compute trim: "+err.Error())
+		rec.Reasons = append(rec.Reasons, "cannot compute trim codes: "+err.Error())
+		return false
+	}
+	trims[0].Ideal, trims[0].Code, trims[0].Saturated = sol.GainIdeal, sol.Gain, sol.GainSat
+	trims[1].Ideal, trims[1].Code, trims[1].Saturated = sol.OffsetIdeal, sol.Offset, sol.OffsetSat
+	trims[0].IdealU, trims[1].IdealU = idealCodeU(seq.Trim, preA, sol)
+	rec.Trims = trims
+	res.set(ResGainCode, float64(sol.Gain))
+	res.set(ResOffsetCode, float64(sol.Offset))
+	var sat []string
+	for i, t := range trims {
+		if t.Saturated {
+			sat = append(sat, fmt.Sprintf("%s trim needs code %.1f, outside the DAC's range 0..%d", t.DAC, t.Ideal, dacs[i].MaxCode()))
+		}
+	}
+	if len(sat) > 0 {
+		rec.Reasons = append(rec.Reasons, sat...)
+		res.invalidFrom(ResPostOffset, "not measured: trim saturated")
+		res.values[ResGainCode] = limits.Value{V: float64(sol.Gain), Valid: !sol.GainSat, Why: "gain trim saturated"}
+		res.values[ResOffsetCode] = limits.Value{V: float64(sol.Offset), Valid: !sol.OffsetSat, Why: "offset trim saturated"}
+		return false
+	}
+	return true
+
+}
+
+// evalPost computes the post-trim results from the verification sweep.
+func (e *Engine) evalPost(rec *Record, res *results, post Sweep) {
+	seq := e.cfg.Sequence
 	postA, ferr := e.analyse(post, rec.RunID)
 	if ferr != nil {
 		res.invalidFrom(ResPostOffset, "verification sweep: "+ferr.Error())
@@ -432,9 +450,12 @@ func (e *Engine) run(ctx context.Context, rec *Record) error {
 			res.invalid(ResPostNoise, "one reading per point: no noise estimate")
 		}
 	}
+}
+
+// finish stores the results and judges them.
+func (e *Engine) finish(rec *Record, res *results) {
 	rec.Results = res.list()
 	e.judge(rec, res)
-	return nil
 }
 
 // judge evaluates every limit and sets the verdict following the limit file's

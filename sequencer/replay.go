@@ -1,0 +1,128 @@
+package sequencer
+
+import (
+	"errors"
+	"fmt"
+	"math"
+)
+
+// ErrNotReplayable is returned for records with no complete measurement (FAULT,
+// ABORTED): there is nothing to recompute.
+var ErrNotReplayable = errors.New("record has no measurement to replay")
+
+// Replay recomputes a stored record from its raw readings with the files that were
+// in force (cfg.Station and cfg.Sequence must be loaded from the stored bytes):
+// point statistics, fits, uncertainties, trim codes, results, limit verdicts and
+// the unit's verdict, by the same code the engine runs. It touches no instrument.
+// The returned record differs from the stored one only where this release computes
+// differently; Differences lists where.
+func Replay(cfg Config, stored *Record) (*Record, error) {
+	if stored.Verdict == Fault || stored.Verdict == Aborted || len(stored.Sweeps) == 0 {
+		return nil, fmt.Errorf("%s (%s): %w", stored.RunID, stored.Verdict, ErrNotReplayable)
+	}
+	e := &Engine{cfg: cfg}
+	seq := cfg.Sequence
+	rec := &Record{
+		Schema: stored.Schema, RunID: stored.RunID, Serial: stored.Serial, Product: stored.Product, Revision: stored.Revision,
+		Station: stored.Station, Operator: stored.Operator, Software: stored.Software,
+		Started: stored.Started, Finished: stored.Finished, Files: stored.Files, Instruments: stored.Instruments,
+		IdealGain: seq.IdealGain, IdealOffset: seq.IdealOffset, FullScale: seq.FullScale,
+		Conditions: stored.Conditions, Coverage: e.coverage(),
+	}
+	resweep := func(s Sweep) Sweep {
+		out := Sweep{Name: s.Name}
+		for _, p := range s.Points {
+			out.Points = append(out.Points, point(p.Stimulus, p.Readings))
+		}
+		e.annotate(&out)
+		return out
+	}
+	trims := []TrimCode{{DAC: "gain", Before: seq.Trim.Gain.NoCorrection}, {DAC: "offset", Before: seq.Trim.Offset.NoCorrection}}
+	for i := range trims {
+		for _, t := range stored.Trims {
+			if t.DAC == trims[i].DAC {
+				trims[i].Before = t.Before
+			}
+		}
+	}
+	res := newResults()
+	pre := resweep(stored.Sweeps[0])
+	rec.Sweeps = append(rec.Sweeps, pre)
+	if e.evalPre(rec, res, pre, trims) && len(stored.Sweeps) > 1 {
+		// What the unit did with the codes is a fact of the run, not a computation.
+		for i := range rec.Trims {
+			for _, t := range stored.Trims {
+				if t.DAC == rec.Trims[i].DAC {
+					rec.Trims[i].Readback, rec.Trims[i].Stored = t.Readback, t.Stored
+				}
+			}
+		}
+		post := resweep(stored.Sweeps[1])
+		rec.Sweeps = append(rec.Sweeps, post)
+		e.evalPost(rec, res, post)
+	}
+	e.finish(rec, res)
+	return rec, nil
+}
+
+// Differences lists, in words, every computed quantity where two records of the
+// same run disagree: verdict, trim codes, results (value, validity, expanded
+// uncertainty) and limit outcomes. Numbers agree when they match to 1e-9 relative
+// (or 1e-15 absolute); anything else is reported.
+func Differences(recorded, replayed *Record) []string {
+	var d []string
+	add := func(format string, args ...any) { d = append(d, fmt.Sprintf(format, args...)) }
+	if recorded.Verdict != replayed.Verdict {
+		add("verdict: recorded %s, recomputed %s", recorded.Verdict, replayed.Verdict)
+	}
+	if len(recorded.Trims) != len(replayed.Trims) {
+		add("trim codes: recorded %d DACs, recomputed %d", len(recorded.Trims), len(replayed.Trims))
+	}
+	for i := range min(len(recorded.Trims), len(replayed.Trims)) {
+		a, b := recorded.Trims[i], replayed.Trims[i]
+		if a.Code != b.Code || a.Saturated != b.Saturated {
+			add("%s trim code: recorded %d, recomputed %d", a.DAC, a.Code, b.Code)
+		}
+		if !same(a.Ideal, b.Ideal) {
+			add("%s trim ideal code: recorded %.9g, recomputed %.9g", a.DAC, a.Ideal, b.Ideal)
+		}
+	}
+	got := map[string]Result{}
+	for _, r := range replayed.Results {
+		got[r.Name] = r
+	}
+	for _, a := range recorded.Results {
+		b, ok := got[a.Name]
+		switch {
+		case !ok:
+			add("result %s: not computed by this release", a.Name)
+		case a.Valid != b.Valid:
+			add("result %s: recorded valid=%v, recomputed valid=%v", a.Name, a.Valid, b.Valid)
+		case !same(a.Value, b.Value):
+			add("result %s: recorded %.9g, recomputed %.9g", a.Name, a.Value, b.Value)
+		case !same(a.Unc.Expanded, b.Unc.Expanded):
+			add("result %s: recorded U = %.6g, recomputed U = %.6g", a.Name, a.Unc.Expanded, b.Unc.Expanded)
+		}
+	}
+	outs := map[string]bool{}
+	for _, o := range replayed.Outcomes {
+		outs[o.Name] = o.Pass
+	}
+	for _, o := range recorded.Outcomes {
+		p, ok := outs[o.Name]
+		switch {
+		case !ok:
+			add("limit %q: not judged by this release", o.Name)
+		case p != o.Pass:
+			add("limit %q: recorded pass=%v, recomputed pass=%v", o.Name, o.Pass, p)
+		}
+	}
+	return d
+}
+
+func same(a, b float64) bool {
+	if math.IsNaN(a) || math.IsNaN(b) {
+		return math.IsNaN(a) && math.IsNaN(b)
+	}
+	return a == b || math.Abs(a-b) <= 1e-15 || math.Abs(a-b) <= 1e-9*math.Max(math.Abs(a), math.Abs(b))
+}
