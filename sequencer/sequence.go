@@ -38,6 +38,9 @@ type Sequence struct {
 
 	Limits *limits.Set
 	File   FileRef
+	// Raw and LimitsRaw are the exact bytes of the sequence and limit files, for
+	// the ledger's content-addressed store.
+	Raw, LimitsRaw []byte
 }
 
 // SweepPlan is one pass across the input range.
@@ -181,7 +184,7 @@ func ParseSequence(name string, data []byte, read func(path string) ([]byte, err
 	req("$.limits", f.Limits)
 	s := &Sequence{
 		Product: f.Sequence.Product, Revision: f.Sequence.Revision, Maker: f.Sequence.Maker,
-		Description: f.Sequence.Description, Requires: f.Requires,
+		Description: f.Sequence.Description, Requires: f.Requires, Raw: data,
 		File: FileRef{Kind: "sequence", Name: filepath.Base(name), Title: strings.TrimSpace(f.Sequence.Product + " rev " + f.Sequence.Revision), SHA256: hashHex(data)},
 	}
 	if len(s.Requires) == 0 {
@@ -281,7 +284,7 @@ func ParseSequence(name string, data []byte, read func(path string) ([]byte, err
 				bad("$.limits", "%v", err)
 			}
 		} else {
-			s.Limits = set
+			s.Limits, s.LimitsRaw = set, ldata
 		}
 	}
 	if len(errs) > 0 {

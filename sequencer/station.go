@@ -33,6 +33,7 @@ type Station struct {
 	// and between sweep points.
 	Interlock *Interlock
 	File      FileRef
+	Raw       []byte // the file's exact bytes, for the ledger's content-addressed store
 }
 
 // Interlock is a fixture input read through one of the station's instruments.
@@ -154,6 +155,7 @@ func ParseStation(name string, data []byte) (*Station, error) {
 		ID: f.Station.ID, Name: f.Station.Name, CertificatePrefix: f.Station.CertificatePrefix,
 		Instruments: map[string]StationInstrument{},
 		File:        FileRef{Kind: "station", Name: filepath.Base(name), Title: f.Station.Name, SHA256: hashHex(data)},
+		Raw:         data,
 	}
 	if st.CertificatePrefix == "" {
 		st.CertificatePrefix = st.ID
