@@ -537,3 +537,23 @@ func TestReplayReproducesTheRecord(t *testing.T) {
 		t.Error("a tightened gain limit changed nothing in the replay")
 	}
 }
+
+// The station file may pin the model and serial an instrument must report; the
+// wrong instrument on the bench refuses to run (it would void traceability).
+func TestPinnedIdentityMismatchRefuses(t *testing.T) {
+	st, err := sequencer.ParseStation("brx200-station.yaml", []byte(demoFile(t, "brx200-station.yaml")))
+	if err != nil {
+		t.Fatal(err)
+	}
+	seq, err := sequencer.ParseSequence("brx200-sequence.yaml", []byte(demoFile(t, "brx200-sequence.yaml")), demoReader(t, nil))
+	if err != nil {
+		t.Fatal(err)
+	}
+	m := st.Instruments["meter"]
+	m.Model = "DV-99"
+	st.Instruments["meter"] = m
+	_, err = sequencer.Open(context.Background(), sequencer.Config{Station: st, Sequence: seq})
+	if err == nil || !strings.Contains(err.Error(), "wrong instrument") || !strings.Contains(err.Error(), "DV-99") {
+		t.Fatalf("want a refusal naming the pinned model, got %v", err)
+	}
+}
