@@ -18,6 +18,13 @@
 // catalogues are sorted and no map is iterated in output order, so a certificate
 // can be re-issued from the ledger and compared byte for byte.
 //
+// A sealed certificate (Options.KeyID, VerificationCode, RecordSHA256, Signer)
+// shows the seal in a block at the foot of page 1 and its verification code in
+// the footer of every page; without them it says "Unsigned". The signature over
+// the PDF itself is detached (reports/signing). The document keywords carry the
+// certificate number and run id in plain text, so that Metadata can identify even
+// an altered PDF.
+//
 // Text is set in the Go fonts (golang.org/x/image/font/gofont), embedded as UTF-8
 // subsets, so µ, ±, °, Ω and the like render on every viewer; the PDF core fonts
 // are never used.
@@ -45,6 +52,23 @@ import (
 type Options struct {
 	Number string // certificate number, e.g. "TL1-000042" (issued by the ledger)
 	Maker  string // maker's name printed in the header (from the station/sequence; may be empty)
+
+	// The seal, printed in a block at the foot of page 1; the verification code is
+	// repeated in the footer of every page. With neither KeyID nor
+	// VerificationCode the certificate says plainly that it is unsigned.
+	RecordSHA256     string         // lowercase hex SHA-256 of the ledger record, in full
+	VerificationCode string         // signing.VerificationCode of the record signature, e.g. "K7QF-2M9D-XA4P"
+	KeyID            string         // ID of the station key that sealed it, e.g. "ed25519:3f9a0c1d2e4b5a69"
+	Signer           *Manifestation // the person's signature manifestation; printed only when set
+}
+
+// Manifestation is what a certificate shows of a person's electronic signature
+// (21 CFR 11.50): the printed name of the signer, the date and time of signing and
+// the meaning of the signature.
+type Manifestation struct {
+	Name    string    // printed name of the signer
+	Meaning string    // what the signature means, e.g. "released", "approved"
+	Signed  time.Time // when it was signed; printed in UTC
 }
 
 // Write renders the certificate for rec to w. Identical (rec, opt) give
@@ -205,6 +229,7 @@ func render(rec *sequencer.Record, opt Options) (*gofpdf.Fpdf, error) {
 	}
 	pdf.SetCreator(strings.TrimSpace("trimline "+rec.Software), true)
 	pdf.SetProducer("trimline/reports/certificate", true)
+	pdf.SetKeywords(keywords(opt.Number, rec.RunID), false)
 
 	d := &doc{pdf: pdf, rec: rec, opt: opt}
 	d.build()

@@ -42,7 +42,7 @@ func (d *doc) detail() {
 	for _, t := range pts {
 		total += d.tableHeight(t.cols, t.rows, t.groups...) + 3
 	}
-	if d.pdf.PageNo() == 1 && d.y+total > bottom {
+	if d.pdf.PageNo() == 1 && d.y+total > d.bottom() {
 		d.newPage()
 	}
 

@@ -76,6 +76,8 @@ type doc struct {
 	rec *sequencer.Record
 	opt Options
 	y   float64
+	// sealH is the height the seal block takes at the foot of page 1.
+	sealH float64
 }
 
 func (d *doc) use(s style) {
@@ -152,10 +154,19 @@ func (d *doc) wrap(s string, w float64, st style) []string {
 	return out
 }
 
+// bottom is the lowest y the body may reach on the current page: above the
+// footer, and on page 1 above the seal block too.
+func (d *doc) bottom() float64 {
+	if d.pdf.PageNo() == 1 && d.sealH > 0 {
+		return bottom - d.sealH - sealGap
+	}
+	return bottom
+}
+
 // need makes sure h millimetres are free below d.y, starting a new page when not.
 // It reports whether a page was started.
 func (d *doc) need(h float64) bool {
-	if d.y+h <= bottom {
+	if d.y+h <= d.bottom() {
 		return false
 	}
 	d.newPage()

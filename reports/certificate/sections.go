@@ -19,6 +19,7 @@ import (
 // measurement detail follows on the same page when it fits, else on the next.
 func (d *doc) build() {
 	d.newPage()
+	d.sealH = d.sealHeight()
 	d.header()
 	d.identification()
 	d.reasons()
@@ -28,7 +29,8 @@ func (d *doc) build() {
 	d.trims()
 	d.filesInForce()
 	d.detail()
-	d.footers()
+	d.seal()
+	d.footers() // ends on the last page, which gofpdf needs: it writes pages up to the current one
 }
 
 // certified reports whether the run was measured completely, so that the document
@@ -890,6 +892,11 @@ func (d *doc) footers() {
 			ly += stSmall.lineH()
 		}
 		left := "Certificate " + dash(d.opt.Number) + " · serial " + dash(d.rec.Serial)
+		if d.opt.VerificationCode != "" {
+			left += " · verification code " + d.opt.VerificationCode
+		} else if !d.sealed() {
+			left += " · unsigned"
+		}
 		d.text(marginL, ly+0.6, contentW-32, stSmall.lineH(), left, stSmall.with(colInk), "L")
 		d.text(marginL+contentW-30, y+1.8, 30, 4, fmt.Sprintf("Page %d of %d", p, n), stBold.sized(8), "R")
 	}
