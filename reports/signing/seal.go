@@ -105,7 +105,7 @@ type Seal struct {
 	Format           string    `json:"format"` // SealFormat
 	Number           string    `json:"number"` // certificate number
 	RunID            string    `json:"run_id"`
-	Serial           string    `json:"serial"` // for the reader; bound through RecordSHA256, not signed on its own
+	Serial           string    `json:"serial"`        // for the reader; bound through RecordSHA256, not signed on its own
 	RecordSHA256     string    `json:"record_sha256"` // lowercase hex
 	PDFSHA256        string    `json:"pdf_sha256"`    // lowercase hex
 	KeyID            string    `json:"key_id"`        // ID of the signing key
