@@ -89,10 +89,22 @@ func LoadFile(path string, cat Catalog) (*Set, error) {
 // excerpt of the file; a problem inside an expression points at the offending
 // character of the file. Load is safe for concurrent use.
 func Load(name string, data []byte, cat Catalog) (*Set, error) {
+	set, errs, _ := load(name, data, cat)
+	if len(errs) > 0 {
+		return nil, errs
+	}
+	return set, nil
+}
+
+// load is Load, keeping what it could check when there are problems: the Set
+// (nil only when the file could not be parsed or is not a limit file) holds every
+// limit entry that decoded, each marked sound or not (Limit.sound), with the
+// problems sorted as Load returns them, and the parsed document for positions.
+func load(name string, data []byte, cat Catalog) (*Set, files.List, *files.Doc) {
 	var doc *files.Doc
 	err := yamlSafely(name, func() (err error) { doc, err = files.Parse(name, data); return err })
 	if err != nil {
-		return nil, asList(name, err)
+		return nil, asList(name, err), nil
 	}
 	sum := sha256.Sum256(data)
 	l := &loader{doc: doc, cat: cat}
@@ -113,7 +125,7 @@ func Load(name string, data []byte, cat Catalog) (*Set, error) {
 		if keys := l.topKeys(); len(keys) > 0 {
 			msg += ", found " + strings.Join(keys, ", ")
 		}
-		return nil, files.List{doc.At(1, 1, "%s", msg)}
+		return nil, files.List{doc.At(1, 1, "%s", msg)}, doc
 	}
 	hdr, dec, entries := l.decode()
 	set := &Set{File: name, SHA256: hex.EncodeToString(sum[:])}
@@ -129,9 +141,9 @@ func Load(name string, data []byte, cat Catalog) (*Set, error) {
 	set.Limits = l.limits(entries)
 
 	if len(l.errs) > 0 {
-		return nil, l.sorted()
+		return set, l.sorted(), doc
 	}
-	return set, nil
+	return set, nil, doc
 }
 
 type loader struct {
@@ -399,10 +411,13 @@ func (l *loader) limits(ents decodedEntries) []*Limit {
 		if !ents.good[i] {
 			continue
 		}
+		before := len(l.errs)
 		lim := l.limit(i, f)
 		if lim == nil {
 			continue
 		}
+		lim.entry = i
+		lim.sound = len(l.errs) == before
 		key := strings.ToLower(strings.Join(strings.Fields(lim.Name), " "))
 		if key != "" {
 			if first, dup := firstLine[key]; dup {
@@ -468,7 +483,7 @@ func (l *loader) limit(i int, f *limitForm) *Limit {
 	missing := func(key string) func() *files.Error {
 		return func() *files.Error { return l.doc.At(at.line, at.col, "missing required key %q", key) }
 	}
-	lim := &Limit{Line: at.line}
+	lim := &Limit{Line: at.line, col: at.col}
 	lim.Name = l.requiredAt(path, "name", f.Name, true, missing("name"))
 	lim.Description = l.requiredAt(path, "description", f.Description, true, missing("description"))
 	var unitOK bool
@@ -767,7 +782,7 @@ func (l *loader) sorted() files.List {
 	return out
 }
 
-func asList(name string, err error) error {
+func asList(name string, err error) files.List {
 	if fe := files.Errs(err); fe != nil {
 		return files.List(fe)
 	}

@@ -35,6 +35,9 @@ type Limit struct {
 	Tolerance *Tolerance // nil for an expression limit
 
 	prog  *vm.Program
+	entry int     // index of the limit's entry in the file's limits list
+	col   int     // column of the entry's "-"
+	sound bool    // Load found no problem in the entry (always true in a Set that Load returned)
 	scale float64 // SI value of one Unit: a result in SI is V/scale in Unit
 	pow10 bool    // scale is exactly 10^exp10
 	exp10 int
