@@ -1,0 +1,135 @@
+package main
+
+import (
+	"context"
+	"fmt"
+	"os"
+
+	"trimline/limits"
+	"trimline/sequencer"
+	"trimline/sequencer/files"
+)
+
+func init() { register(newLimitsCmd) }
+
+// limitsSubs are the quality engineer's subcommands of "trimline limits".
+var limitsSubs = map[string]func(ctx context.Context, args []string) error{
+	"lint": limitsLint,
+	"diff": limitsDiff,
+}
+
+func newLimitsCmd() *command {
+	c := &command{
+		Name:  "limits",
+		Usage: "lint FILE... | diff OLD NEW | whatif NEW [flags] | release FILE --by NAME --meaning MEANING",
+		Short: "quality engineer's tools for limit files: lint, diff, what-if, release",
+		Long: `lint     prints every problem of each limit file as file:line:col: unknown result
+         names, type errors, limits that can never pass or never fail over the
+         result's physical range, contradictory or redundant limits on one result,
+         tolerances tighter than the station can measure (with --station), missing
+         descriptions. Exit 2 when any error is found.
+diff     a semantic diff: each limit added, removed, tightened, loosened, shifted or
+         changed in shape, with the bounds side by side, and decision-rule changes.
+whatif   re-judges every stored result in the ledger against NEW (see
+         'trimline limits whatif -h').
+release  records a limit or sequence file's hash as released (see
+         'trimline limits release -h').`,
+		Flags: newFlags("limits"),
+	}
+	c.Run = func(ctx context.Context, c *command, args []string) error {
+		if len(args) == 0 {
+			return usageErr("name a subcommand: lint, diff, whatif or release")
+		}
+		sub, ok := limitsSubs[args[0]]
+		if !ok {
+			return usageErr("unknown subcommand %q (lint, diff, whatif, release)", args[0])
+		}
+		return sub(ctx, args[1:])
+	}
+	return c
+}
+
+// physicalRanges bounds each result where the unit can physically be: the output
+// spans the 0–5 V supply, gain errors the trim DAC's reach, codes a 12-bit DAC.
+// Lint uses them to find limits that can never pass or never fail.
+var physicalRanges = map[string][2]float64{
+	sequencer.ResPreOffset: {-2.5, 2.5}, sequencer.ResPostOffset: {-2.5, 2.5},
+	sequencer.ResPreGainError: {-1, 1}, sequencer.ResPostGainError: {-1, 1},
+	sequencer.ResPreNonlinearity: {0, 1}, sequencer.ResPostNonlinearity: {0, 1},
+	sequencer.ResPostMaxError: {0, 5}, sequencer.ResPostNoise: {0, 1},
+	sequencer.ResOffsetCode: {0, 4095}, sequencer.ResGainCode: {0, 4095},
+}
+
+func limitsLint(ctx context.Context, args []string) error {
+	fs := newFlags("limits lint")
+	station := fs.String("station", "", "station `file`: also check each tolerance against the TUR the station can reach")
+	sequence := fs.String("sequence", "", "sequence `file` for the TUR check (with --station)")
+	if err := fs.Parse(args); err != nil {
+		return usageErr("%v", err)
+	}
+	if fs.NArg() == 0 {
+		return usageErr("name at least one limit file")
+	}
+	opt := limits.LintOptions{Ranges: physicalRanges}
+	if *station != "" && *sequence != "" {
+		st, seq, err := loadFiles(*station, *sequence)
+		if err != nil {
+			return err
+		}
+		opt.TUR = sequencer.PredictUncertainty(st, seq)
+	}
+	errorsFound := 0
+	for _, path := range fs.Args() {
+		data, err := os.ReadFile(path)
+		if err != nil {
+			return badInput(err)
+		}
+		fds := limits.Lint(path, data, sequencer.ResultCatalog, opt)
+		for _, f := range fds {
+			fmt.Fprintln(stdoutW, f.Error())
+			if f.Severity == limits.SeverityError {
+				errorsFound++
+			}
+		}
+		if len(fds) == 0 {
+			fmt.Fprintf(stdoutW, "ok  %s\n", path)
+		}
+	}
+	if errorsFound > 0 {
+		return silent(exitUsage)
+	}
+	return nil
+}
+
+func loadLimitSet(path string) (*limits.Set, error) {
+	set, err := limits.LoadFile(path, sequencer.ResultCatalog)
+	if err != nil {
+		if fe := files.Errs(err); fe != nil {
+			return nil, badInput(detailed(fe))
+		}
+		return nil, badInput(err)
+	}
+	return set, nil
+}
+
+func limitsDiff(ctx context.Context, args []string) error {
+	if len(args) != 2 {
+		return usageErr("usage: trimline limits diff OLD NEW")
+	}
+	old, err := loadLimitSet(args[0])
+	if err != nil {
+		return err
+	}
+	nw, err := loadLimitSet(args[1])
+	if err != nil {
+		return err
+	}
+	changes := limits.Diff(old, nw)
+	fmt.Fprintf(stdoutW, "%s (rev %s) → %s (rev %s)\n\n", args[0], old.Revision, args[1], nw.Revision)
+	if len(changes) == 0 {
+		fmt.Fprintln(stdoutW, "no semantic change")
+		return nil
+	}
+	limits.FormatDiff(stdoutW, changes)
+	return nil
+}
