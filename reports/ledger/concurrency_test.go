@@ -210,3 +210,140 @@ func (s *syncBuffer) String() string {
 	defer s.mu.Unlock()
 	return string(s.b)
 }
+
+// Environment of a child process of TestConcurrentProcessesChain.
+const envChainChildPath = "TRIMLINE_LEDGER_TEST_CHAIN_CHILD_PATH"
+
+const (
+	chainProcs       = 4
+	chainRunsPerProc = 250
+)
+
+// TestConcurrentProcessesChain runs 4 processes (this test binary again) that share
+// one ledger file and each record 250 signed runs with the files in force, two
+// processes per station, so every station's chain and the certificate sequence are
+// extended by two or four processes in turn. The ledger must end with 1000 runs,
+// certificates TL1-000001 … TL1-001000 exactly, and every chain, signature and the
+// audit trail verifying. Source of expectations: hand-worked.
+func TestConcurrentProcessesChain(t *testing.T) {
+	if path := os.Getenv(envChainChildPath); path != "" {
+		childRecordChain(t, path, os.Getenv(envChildWorker))
+		return
+	}
+	if testing.Short() {
+		t.Skip("spawns processes and records 1000 runs")
+	}
+	start := time.Now()
+	path := filepath.Join(t.TempDir(), "ledger.db")
+	gate := path + ".go"
+	type child struct {
+		cmd *exec.Cmd
+		out *syncBuffer
+	}
+	var children []child
+	for w := range chainProcs {
+		cmd := exec.Command(os.Args[0], "-test.run=^TestConcurrentProcessesChain$", "-test.count=1", "-test.v")
+		cmd.Env = append(os.Environ(), envChainChildPath+"="+path, envChildWorker+"="+strconv.Itoa(w))
+		out := &syncBuffer{}
+		cmd.Stdout, cmd.Stderr = out, out
+		if err := cmd.Start(); err != nil {
+			t.Fatal(err)
+		}
+		children = append(children, child{cmd, out})
+	}
+	time.Sleep(200 * time.Millisecond)
+	if err := os.WriteFile(gate, nil, 0o644); err != nil {
+		t.Fatal(err)
+	}
+	for w, c := range children {
+		if err := c.cmd.Wait(); err != nil {
+			t.Errorf("child %d: %v\n%s", w, err, c.out.String())
+		}
+	}
+	recorded := time.Since(start)
+	if t.Failed() {
+		return
+	}
+	const n = chainProcs * chainRunsPerProc
+	checkCertificates(t, path, n, n*totalReadings(makeRecord("x", "x", sequencer.Pass, smallShape)))
+
+	l, err := ledger.Open(ctx, path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer l.Close()
+	var keys []string
+	for w := range chainProcs {
+		keys = append(keys, "worker-"+strconv.Itoa(w))
+	}
+	signer := newSigner(keys...)
+	verifyStart := time.Now()
+	rep, err := l.VerifyChain(ctx, "", ledger.ChainOptions{Verify: signer.verify, RequireSignatures: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !rep.OK || rep.Runs != n || rep.Stations != 2 || rep.Verified != n || rep.Certificates != n || rep.AuditEntries != n || rep.Blobs != 3 {
+		t.Errorf("VerifyChain = %+v", rep)
+	}
+	counts, _ := l.Counts(ctx)
+	if counts["blobs"] != 3 || counts["audit_trail"] != n {
+		t.Errorf("counts %v", counts)
+	}
+	verified := time.Since(verifyStart)
+	// How often a chain passed from one process to the other (evidence that the
+	// processes really took turns on the same chains).
+	rows, err := rawDB(t, path).Query(`SELECT station, substr(run_id, 1, 2) FROM runs ORDER BY station, chain_seq`)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer rows.Close()
+	handovers := 0
+	var lastStation, lastWorker string
+	for rows.Next() {
+		var st, w string
+		if err := rows.Scan(&st, &w); err != nil {
+			t.Fatal(err)
+		}
+		if st == lastStation && w != lastWorker {
+			handovers++
+		}
+		lastStation, lastWorker = st, w
+	}
+	t.Logf("%d processes × %d runs: recorded in %v (%.2f ms/run), verified in %v; the chains changed hands %d times",
+		chainProcs, chainRunsPerProc, recorded.Round(time.Millisecond), float64(recorded.Milliseconds())/n,
+		verified.Round(time.Millisecond), handovers)
+}
+
+func childRecordChain(t *testing.T, path, worker string) {
+	deadline := time.Now().Add(30 * time.Second)
+	for {
+		if _, err := os.Stat(path + ".go"); err == nil {
+			break
+		}
+		if time.Now().After(deadline) {
+			t.Fatal("the parent never opened the gate")
+		}
+		time.Sleep(5 * time.Millisecond)
+	}
+	l, err := ledger.Open(ctx, path)
+	if err != nil {
+		t.Fatalf("worker %s: open: %v", worker, err)
+	}
+	defer l.Close()
+	w, _ := strconv.Atoi(worker)
+	key := "worker-" + worker
+	signer := newSigner(key)
+	files, refs := filesInForce("v1")
+	for i := range chainRunsPerProc {
+		verdict := sequencer.Pass
+		if i%4 == 0 {
+			verdict = sequencer.Fail
+		}
+		rec := makeRecord(fmt.Sprintf("w%s-%03d", worker, i), fmt.Sprintf("SN-%s-%03d", worker, i), verdict, smallShape)
+		rec.Station = fmt.Sprintf("EOL-%d", w%2)
+		rec.Files = refs
+		if _, err := l.RecordRunWith(ctx, rec, ledger.RecordOptions{Prefix: "TL1", Files: files, Sign: signer.sign(key)}); err != nil {
+			t.Fatalf("worker %s run %d: %v", worker, i, err)
+		}
+	}
+}

@@ -4,6 +4,8 @@ package ledger
 var (
 	CanonicalJSON  = canonicalJSON
 	DecodeExtended = decodeExtended
+	ChainHash      = chainHash
+	AuditHash      = auditHash
 )
 
 // LatestMigration is the version of the newest embedded migration.

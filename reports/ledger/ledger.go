@@ -4,6 +4,22 @@
 // Audits read it; nothing in it is ever updated or deleted (triggers refuse it),
 // except a unit's last_seen/product and the certificate sequences, which only count up.
 //
+// The ledger is tamper-evident and self-contained, for an auditor years later:
+//   - every run carries an optional signature (RecordOptions.Sign) over
+//     SignedMessage(certificate, run id, record SHA-256), and a link in a SHA-256
+//     hash chain of its station (RecordRunWith describes the chain line);
+//   - the exact bytes of the files in force are kept, content-addressed, in blobs;
+//   - an append-only audit trail, hash-chained too, says who did what when: every
+//     run recorded ("create"), document issued ("issue"), certificate voided
+//     ("void") and whatever other parts report (Audit). A certificate's status is
+//     derived from the trail; the certificate itself is never changed;
+//   - VerifyChain re-checks all of it and names the first broken link.
+//
+// A hash chain has no secret: someone who can write the file can recompute every
+// chain from the changed row on. Such a rewrite shows only against something kept
+// elsewhere: the signatures (if the key is not on the station), or the chain heads
+// (ChainReport.Heads, AuditHead) recorded outside the ledger.
+//
 // One ledger file may be shared by several processes and goroutines: writes take
 // SQLite's write lock at BEGIN (BEGIN IMMEDIATE) and wait up to 5 s for it, WAL lets
 // readers run alongside the writer, and certificate numbers are allocated inside the
@@ -28,6 +44,7 @@ import (
 	"crypto/sha256"
 	"database/sql"
 	"encoding/hex"
+	"encoding/json"
 	"errors"
 	"fmt"
 	"math"
@@ -35,6 +52,7 @@ import (
 	"path/filepath"
 	"strings"
 	"time"
+	"unicode"
 
 	"modernc.org/sqlite" // registers the "sqlite" driver
 	sqlite3 "modernc.org/sqlite/lib"
@@ -45,8 +63,8 @@ import (
 
 // Errors returned (wrapped) by the Ledger; test with errors.Is.
 var (
-	// ErrNotFound: the run id is not in the ledger.
-	ErrNotFound = errors.New("ledger: run not found")
+	// ErrNotFound: the run id (or certificate number, document, blob) is not in the ledger.
+	ErrNotFound = errors.New("ledger: not found")
 	// ErrDuplicateRun: RecordRun was given a run id that is already stored.
 	ErrDuplicateRun = errors.New("ledger: run already recorded")
 	// ErrSchemaTooNew: the file was migrated by a newer trimline than this one.
@@ -57,6 +75,9 @@ var (
 	ErrSequenceExhausted = errors.New("ledger: certificate sequence exhausted")
 	// ErrInvalid: an argument or record is not acceptable (empty run id, bad verdict, ...).
 	ErrInvalid = errors.New("ledger: invalid argument")
+	// ErrVoided: the certificate is voided (VoidCertificate); it cannot be voided
+	// again, and no document is issued for it any more.
+	ErrVoided = errors.New("ledger: certificate voided")
 )
 
 // MaxCertSequence is the highest sequence number a certificate prefix can issue: the
@@ -73,9 +94,10 @@ const busyTimeout = 5 * time.Second
 // concurrent use by several goroutines, and several processes (or several Ledgers in
 // one process) may have the same file open.
 type Ledger struct {
-	// Now is the clock for the created_at time of documents (AddDocument). Open sets
-	// it to time.Now; replace it before the Ledger is used, not while it is in use.
-	// Migrations applied by Open are stamped with time.Now.
+	// Now is the clock for the created_at time of documents (AddSignedDocument) and
+	// the time of audit trail entries. Open sets it to time.Now; replace it before
+	// the Ledger is used, not while it is in use. Migrations applied by Open (and the
+	// audit entries migration 0003 backfills) are stamped with time.Now.
 	Now func() time.Time
 
 	db *sql.DB
@@ -259,34 +281,84 @@ func sha256Hex(b []byte) string {
 	return hex.EncodeToString(s[:])
 }
 
-// RecordRun stores one complete run in one transaction: the unit (inserted or
+// RecordRun stores one complete run in one transaction; it is RecordRunWith with
+// only a certificate prefix: no file contents, no signature, and the record's
+// Operator as the actor of the audit trail entry.
+func (l *Ledger) RecordRun(ctx context.Context, rec *sequencer.Record, certPrefix string) (certNumber string, err error) {
+	return l.RecordRunWith(ctx, rec, RecordOptions{Prefix: certPrefix})
+}
+
+// RecordOptions are RecordRunWith's options besides the record.
+type RecordOptions struct {
+	// Prefix is the certificate prefix: 1 to 32 characters of A–Z, a–z, 0–9, '.',
+	// '_' or '-'. Only PASS, FAIL and REVIEW runs need one.
+	Prefix string
+	// Files holds the exact content of the files in force, keyed by the lowercase hex
+	// SHA-256 of the content. Every entry is checked against its key (a mismatch is
+	// ErrInvalid); the content of each file of rec.Files whose SHA256 is a key is
+	// stored in the blobs table, once per distinct content however many runs use it.
+	// Entries that no file of rec.Files names are checked but not stored.
+	Files map[string][]byte
+	// Sign, if not nil, signs the run. It is called inside the write transaction,
+	// after the certificate number is allocated ("" for a FAULT or ABORTED run),
+	// with the run id and the record's SHA-256 (RecordSHA256), and must return the
+	// id of the key and a signature over SignedMessage(number, runID, recordSHA256).
+	// The key id must be non-empty without control characters and the signature
+	// non-empty. An error from Sign (returned wrapped) rolls everything back, the
+	// number included. Other writers of the file wait while Sign runs (for at most
+	// 5 s before they fail with SQLITE_BUSY), so it must be quick.
+	Sign func(number, runID, recordSHA256 string) (keyID string, sig []byte, err error)
+	// Actor is who recorded the run, for the audit trail; "" means rec.Operator,
+	// and "trimline" if that is empty too.
+	Actor string
+}
+
+// RecordRunWith stores one complete run in one transaction: the unit (inserted or
 // updated: first_seen and last_seen span the Started and Finished times of all its
-// runs, product is that of its latest run), the run with its canonical record JSON and that
-// JSON's SHA-256, and every reading, result, limit outcome, fit, trim code, file and
-// instrument of rec. Either all of it is stored or none.
+// runs, product is that of its latest run), the run with its canonical record JSON
+// (Canonical) and that JSON's SHA-256, and every reading, result, limit outcome,
+// fit, trim code, file and instrument of rec; the contents of the files in force
+// given in opt.Files; the run's signature (opt.Sign) and its link in the hash chain
+// of its station; and an audit trail entry "create". Either all of it is stored or
+// none.
 //
 // For a PASS, FAIL or REVIEW record (a unit that was measured completely) it
-// allocates the next certificate number of certPrefix in the same transaction and
-// returns it: certPrefix + "-" + the sequence written with
-// six digits, starting at 1 ("TL1-000001"). Numbers have no gaps and no duplicates
-// across goroutines and processes, because a transaction that fails takes its number
-// with it. certPrefix must be 1 to 32 characters of A–Z, a–z, 0–9, '.', '_' or '-'.
-// FAULT and ABORTED records get no number: RecordRun returns "" and ignores certPrefix.
+// allocates the next certificate number of opt.Prefix in the same transaction and
+// returns it: the prefix + "-" + the sequence written with six digits, starting at 1
+// ("TL1-000001"). Numbers have no gaps and no duplicates across goroutines and
+// processes, because a transaction that fails takes its number with it. FAULT and
+// ABORTED records get no number: RecordRunWith returns "" and ignores the prefix.
 //
-// Errors (wrapped): ErrInvalid for a nil record, an empty RunID or Serial, an unknown
-// verdict or a bad prefix; ErrDuplicateRun if the run id is already stored;
-// ErrSequenceExhausted after number 999999 of a prefix; otherwise database errors,
-// including SQLITE_BUSY if another writer holds the file for more than 5 s, and
-// ctx's error if ctx ends first. rec is only read.
-func (l *Ledger) RecordRun(ctx context.Context, rec *sequencer.Record, certPrefix string) (certNumber string, err error) {
+// The chain link: chain_prev is the chain_hash of the station's (rec.Station's)
+// previous run, "" for its first, and chain_hash is the lowercase hex SHA-256 of
+//
+//	"trimline-chain-v1\n" + chain_prev + "\n" + run_id + "\n" + certificate + "\n" +
+//	record_sha256 + "\n" + verdict + "\n" + key_id + "\n" + hex(signature)
+//
+// (certificate, key_id and hex(signature) "" when absent). It is computed inside
+// the write transaction, so runs of one station are chained in the order they were
+// stored, whichever process stored them.
+//
+// Errors (wrapped): ErrInvalid for a nil record, an empty RunID or Serial, a run id
+// with control characters, an unknown verdict, a bad prefix, a file whose content
+// does not match its key, or a bad key id or signature from Sign; ErrDuplicateRun if
+// the run id is already stored; ErrSequenceExhausted after number 999999 of a
+// prefix; Sign's error; otherwise database errors, including SQLITE_BUSY if another
+// writer holds the file for more than 5 s, and ctx's error if ctx ends first. rec
+// and opt.Files are only read.
+func (l *Ledger) RecordRunWith(ctx context.Context, rec *sequencer.Record, opt RecordOptions) (certNumber string, err error) {
 	if err := validateRecord(rec); err != nil {
 		return "", err
 	}
 	wantCert := certified(rec.Verdict)
 	if wantCert {
-		if err := validatePrefix(certPrefix); err != nil {
+		if err := validatePrefix(opt.Prefix); err != nil {
 			return "", err
 		}
+	}
+	blobs, err := filesToStore(rec, opt.Files)
+	if err != nil {
+		return "", err
 	}
 	doc, err := canonicalJSON(rec)
 	if err != nil {
@@ -300,14 +372,25 @@ func (l *Ledger) RecordRun(ctx context.Context, rec *sequencer.Record, certPrefi
 	if err != nil {
 		return "", fmt.Errorf("ledger: run %s: encode reasons: %w", rec.RunID, err)
 	}
+	actor := opt.Actor
+	if actor == "" {
+		actor = rec.Operator
+	}
+	if actor == "" {
+		actor = systemActor
+	}
+	in := runInput{rec: rec, doc: doc, recordSHA: sha256Hex(doc), reasonsJSON: string(reasonsJSON),
+		wantCert: wantCert, prefix: opt.Prefix, sign: opt.Sign, actor: actor, blobs: blobs}
 
 	tx, err := l.db.BeginTx(ctx, nil)
 	if err != nil {
 		return "", fmt.Errorf("ledger: run %s: begin: %w", rec.RunID, err)
 	}
 	defer tx.Rollback() // no-op after Commit
+	// Stamped once the write lock is held, so the trail's times follow its order.
+	in.at = formatTime(l.now())
 
-	cert, err := storeRun(ctx, tx, rec, doc, string(reasonsJSON), wantCert, certPrefix)
+	cert, err := storeRun(ctx, tx, in)
 	if err != nil {
 		return "", fmt.Errorf("ledger: run %s: %w", rec.RunID, err)
 	}
@@ -317,12 +400,66 @@ func (l *Ledger) RecordRun(ctx context.Context, rec *sequencer.Record, certPrefi
 	return cert, nil
 }
 
+// systemActor is the audit trail's actor when no person can be named.
+const systemActor = "trimline"
+
+type blob struct {
+	sha  string
+	data []byte
+}
+
+// filesToStore checks every entry of files against its key and returns the contents
+// of the files of rec that files holds, once per distinct SHA-256, in rec.Files order.
+func filesToStore(rec *sequencer.Record, files map[string][]byte) ([]blob, error) {
+	for key, data := range files {
+		if !isSHA256Hex(key) {
+			return nil, fmt.Errorf("ledger: run %s: file key %q is not 64 lowercase hex digits: %w", rec.RunID, key, ErrInvalid)
+		}
+		if got := sha256Hex(data); got != key {
+			return nil, fmt.Errorf("ledger: run %s: file content under key %s has SHA-256 %s: %w", rec.RunID, key, got, ErrInvalid)
+		}
+	}
+	var out []blob
+	seen := map[string]bool{}
+	for _, f := range rec.Files {
+		key := strings.ToLower(f.SHA256)
+		data, ok := files[key]
+		if !ok || seen[key] {
+			continue
+		}
+		seen[key] = true
+		out = append(out, blob{key, data})
+	}
+	return out, nil
+}
+
+// isSHA256Hex reports whether s is 64 lowercase hex digits.
+func isSHA256Hex(s string) bool {
+	if len(s) != 2*sha256.Size {
+		return false
+	}
+	for i := range len(s) {
+		if c := s[i]; !(c >= '0' && c <= '9' || c >= 'a' && c <= 'f') {
+			return false
+		}
+	}
+	return true
+}
+
+// hasControl reports whether s has a control character (a line break would make
+// the chain line and the signed message ambiguous).
+func hasControl(s string) bool {
+	return strings.ContainsFunc(s, unicode.IsControl)
+}
+
 func validateRecord(rec *sequencer.Record) error {
 	switch {
 	case rec == nil:
 		return fmt.Errorf("ledger: nil record: %w", ErrInvalid)
 	case rec.RunID == "":
 		return fmt.Errorf("ledger: record has no run id: %w", ErrInvalid)
+	case hasControl(rec.RunID):
+		return fmt.Errorf("ledger: run id %q has control characters: %w", rec.RunID, ErrInvalid)
 	case rec.Serial == "":
 		return fmt.Errorf("ledger: run %s has no serial: %w", rec.RunID, ErrInvalid)
 	}
@@ -353,7 +490,38 @@ func validatePrefix(p string) error {
 	return nil
 }
 
-func storeRun(ctx context.Context, tx *sql.Tx, rec *sequencer.Record, doc []byte, reasonsJSON string, wantCert bool, prefix string) (string, error) {
+// validateSignature checks a key id and signature pair as it is stored: both
+// empty (unsigned) or a key id without control characters and a non-empty signature.
+func validateSignature(keyID string, sig []byte) error {
+	switch {
+	case keyID == "" && len(sig) == 0:
+		return nil
+	case keyID == "":
+		return fmt.Errorf("signature without a key id: %w", ErrInvalid)
+	case hasControl(keyID):
+		return fmt.Errorf("key id %q has control characters: %w", keyID, ErrInvalid)
+	case len(sig) == 0:
+		return fmt.Errorf("key id %q without a signature: %w", keyID, ErrInvalid)
+	}
+	return nil
+}
+
+// runInput is what storeRun stores.
+type runInput struct {
+	rec         *sequencer.Record
+	doc         []byte // canonical JSON of rec
+	recordSHA   string // sha256Hex(doc)
+	reasonsJSON string
+	wantCert    bool
+	prefix      string
+	sign        func(number, runID, recordSHA256 string) (string, []byte, error)
+	actor       string
+	blobs       []blob
+	at          string // audit trail time
+}
+
+func storeRun(ctx context.Context, tx *sql.Tx, in runInput) (string, error) {
+	rec := in.rec
 	var exists int
 	switch err := tx.QueryRowContext(ctx, `SELECT 1 FROM runs WHERE run_id = ?`, rec.RunID).Scan(&exists); {
 	case err == nil:
@@ -377,28 +545,51 @@ func storeRun(ctx context.Context, tx *sql.Tx, rec *sequencer.Record, doc []byte
 	}
 
 	var cert string
-	if wantCert {
+	if in.wantCert {
 		var n int64
 		if err := tx.QueryRowContext(ctx, `
 			INSERT INTO cert_sequences (prefix, last) VALUES (?, 1)
 			ON CONFLICT (prefix) DO UPDATE SET last = last + 1
-			RETURNING last`, prefix).Scan(&n); err != nil {
-			return "", fmt.Errorf("certificate number for %s: %w", prefix, err)
+			RETURNING last`, in.prefix).Scan(&n); err != nil {
+			return "", fmt.Errorf("certificate number for %s: %w", in.prefix, err)
 		}
 		if n > MaxCertSequence {
-			return "", fmt.Errorf("prefix %s: %w", prefix, ErrSequenceExhausted)
+			return "", fmt.Errorf("prefix %s: %w", in.prefix, ErrSequenceExhausted)
 		}
-		cert = fmt.Sprintf("%s-%06d", prefix, n)
+		cert = fmt.Sprintf("%s-%06d", in.prefix, n)
 	}
+
+	keyID, sig := "", []byte{}
+	if in.sign != nil {
+		k, s, err := in.sign(cert, rec.RunID, in.recordSHA)
+		if err != nil {
+			return "", fmt.Errorf("sign: %w", err)
+		}
+		if k == "" && len(s) == 0 {
+			return "", fmt.Errorf("sign: no key id and no signature: %w", ErrInvalid)
+		}
+		if err := validateSignature(k, s); err != nil {
+			return "", fmt.Errorf("sign: %w", err)
+		}
+		keyID, sig = k, s
+	}
+
+	seq, prev, err := chainTail(ctx, tx, rec.Station)
+	if err != nil {
+		return "", err
+	}
+	link := chainHash(prev, rec.RunID, cert, in.recordSHA, string(rec.Verdict), keyID, sig)
 
 	if _, err := tx.ExecContext(ctx, `
 		INSERT INTO runs (run_id, serial, product, revision, station, operator, software, started, finished,
-			verdict, fault, reasons, certificate, record_json, record_sha256, coverage, ambient_c, ambient_source)
-		VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)`,
+			verdict, fault, reasons, certificate, record_json, record_sha256, coverage, ambient_c, ambient_source,
+			key_id, signature, chain_seq, chain_prev, chain_hash)
+		VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)`,
 		rec.RunID, rec.Serial, rec.Product, rec.Revision, rec.Station, rec.Operator, rec.Software,
 		formatTime(rec.Started), formatTime(rec.Finished), string(rec.Verdict), nullText(rec.Fault),
-		reasonsJSON, nullText(cert), string(doc), sha256Hex(doc),
-		positiveOrNull(rec.Coverage), ambientC(rec.Conditions), nullText(rec.Conditions.AmbientSource)); err != nil {
+		in.reasonsJSON, nullText(cert), string(in.doc), in.recordSHA,
+		positiveOrNull(rec.Coverage), ambientC(rec.Conditions), nullText(rec.Conditions.AmbientSource),
+		keyID, sig, seq+1, prev, link); err != nil {
 		return "", fmt.Errorf("run row: %w", err)
 	}
 
@@ -408,7 +599,47 @@ func storeRun(ctx context.Context, tx *sql.Tx, rec *sequencer.Record, doc []byte
 	if err := storeDetails(ctx, tx, rec); err != nil {
 		return "", err
 	}
+	var blobSHAs []string
+	for _, b := range in.blobs {
+		if _, err := tx.ExecContext(ctx, `INSERT INTO blobs (sha256, size, data) VALUES (?, ?, ?) ON CONFLICT (sha256) DO NOTHING`,
+			b.sha, len(b.data), nonNilBytes(b.data)); err != nil {
+			return "", fmt.Errorf("blob %s: %w", b.sha, err)
+		}
+		blobSHAs = append(blobSHAs, b.sha)
+	}
+	detail, err := json.Marshal(createDetail{Station: rec.Station, Serial: rec.Serial, Operator: rec.Operator,
+		Verdict: string(rec.Verdict), Certificate: cert, RecordSHA256: in.recordSHA, KeyID: keyID,
+		ChainSeq: seq + 1, ChainHash: link, Blobs: blobSHAs})
+	if err != nil {
+		return "", err
+	}
+	if _, err := appendAudit(ctx, tx, in.at, in.actor, ActionCreate, rec.RunID, string(detail)); err != nil {
+		return "", err
+	}
 	return cert, nil
+}
+
+// chainTail returns the chain_seq and chain_hash of the last run of station: 0 and
+// "" when the station has none.
+func chainTail(ctx context.Context, tx *sql.Tx, station string) (int64, string, error) {
+	var seq int64
+	var hash string
+	err := tx.QueryRowContext(ctx, `SELECT chain_seq, chain_hash FROM runs WHERE station = ? ORDER BY chain_seq DESC LIMIT 1`, station).Scan(&seq, &hash)
+	if errors.Is(err, sql.ErrNoRows) {
+		return 0, "", nil
+	}
+	if err != nil {
+		return 0, "", fmt.Errorf("chain of station %q: %w", station, err)
+	}
+	return seq, hash, nil
+}
+
+// nonNilBytes returns b, or an empty slice for nil: the driver stores a nil []byte as NULL.
+func nonNilBytes(b []byte) []byte {
+	if b == nil {
+		return []byte{}
+	}
+	return b
 }
 
 func storeReadings(ctx context.Context, tx *sql.Tx, rec *sequencer.Record) error {
@@ -509,55 +740,10 @@ func storeDetails(ctx context.Context, tx *sql.Tx, rec *sequencer.Record) error 
 	return nil
 }
 
-// AddDocument records a document issued for a run: the certificate number it carries,
-// the path it was written to, the SHA-256 of its exact bytes (64 hex digits, stored in
-// lower case) and its size in bytes, stamped with l.Now() as created_at. A run may
-// have several documents (a re-issued PDF is a new row; none is replaced).
-//
-// number must be the certificate number RecordRun allocated for the run, so a
-// document can only be recorded for a PASS, FAIL or REVIEW run. Errors (wrapped): ErrNotFound
-// for an unknown run; ErrInvalid for an empty path, a malformed hash, a negative size,
-// a run without a certificate or a number that is not the run's.
+// AddDocument records an unsigned document issued for a run; it is
+// AddSignedDocument without a key id and signature.
 func (l *Ledger) AddDocument(ctx context.Context, runID, number, path string, sha256hex string, size int64) error {
-	sum := strings.ToLower(sha256hex)
-	if b, err := hex.DecodeString(sum); err != nil || len(b) != sha256.Size {
-		return fmt.Errorf("ledger: document for run %s: sha256 %q is not 64 hex digits: %w", runID, sha256hex, ErrInvalid)
-	}
-	if path == "" {
-		return fmt.Errorf("ledger: document for run %s: empty path: %w", runID, ErrInvalid)
-	}
-	if size < 0 {
-		return fmt.Errorf("ledger: document for run %s: negative size %d: %w", runID, size, ErrInvalid)
-	}
-	created := formatTime(l.now())
-
-	tx, err := l.db.BeginTx(ctx, nil)
-	if err != nil {
-		return fmt.Errorf("ledger: document for run %s: begin: %w", runID, err)
-	}
-	defer tx.Rollback()
-	var cert sql.NullString
-	switch err := tx.QueryRowContext(ctx, `SELECT certificate FROM runs WHERE run_id = ?`, runID).Scan(&cert); {
-	case errors.Is(err, sql.ErrNoRows):
-		return fmt.Errorf("ledger: document for run %s: %w", runID, ErrNotFound)
-	case err != nil:
-		return fmt.Errorf("ledger: document for run %s: %w", runID, err)
-	}
-	if !cert.Valid {
-		return fmt.Errorf("ledger: document for run %s: the run has no certificate number: %w", runID, ErrInvalid)
-	}
-	if number != cert.String {
-		return fmt.Errorf("ledger: document for run %s: number %q is not the run's certificate %q: %w", runID, number, cert.String, ErrInvalid)
-	}
-	if _, err := tx.ExecContext(ctx, `
-		INSERT INTO documents (run_id, number, path, sha256, size, created_at) VALUES (?, ?, ?, ?, ?, ?)`,
-		runID, number, path, sum, size, created); err != nil {
-		return fmt.Errorf("ledger: document for run %s: %w", runID, err)
-	}
-	if err := tx.Commit(); err != nil {
-		return fmt.Errorf("ledger: document for run %s: commit: %w", runID, err)
-	}
-	return nil
+	return l.AddSignedDocument(ctx, Document{RunID: runID, Number: number, Path: path, SHA256: sha256hex, Size: size})
 }
 
 // Run returns the record of run runID exactly as RecordRun was given it, decoded from
@@ -579,12 +765,9 @@ func (l *Ledger) Run(ctx context.Context, runID string) (*sequencer.Record, erro
 	if err != nil {
 		return nil, fmt.Errorf("ledger: run %s: %w", runID, err)
 	}
-	if got := sha256Hex(doc); got != sum {
-		return nil, fmt.Errorf("ledger: run %s: record SHA-256 is %s, stored %s: %w", runID, got, sum, ErrCorrupt)
-	}
-	rec := new(sequencer.Record)
-	if err := decodeCanonical(doc, rec); err != nil {
-		return nil, fmt.Errorf("ledger: run %s: decode record: %v: %w", runID, err, ErrCorrupt)
+	rec, err := decodeRecord(runID, doc, sum)
+	if err != nil {
+		return nil, fmt.Errorf("ledger: %w", err)
 	}
 	return rec, nil
 }
@@ -641,12 +824,12 @@ func (l *Ledger) Runs(ctx context.Context, serial string) ([]RunSummary, error) 
 // countedTables are the tables Counts reports, in its map's keys.
 var countedTables = []string{
 	"units", "runs", "readings", "results", "limit_outcomes", "documents",
-	"fits", "trims", "files", "instruments",
+	"fits", "trims", "files", "instruments", "blobs", "audit_trail",
 }
 
 // Counts returns the number of rows in each of units, runs, readings, results,
-// limit_outcomes and documents, and also fits, trims, files and instruments, keyed by
-// table name. All counts are read by one statement, so they are consistent with each
+// limit_outcomes and documents, and also fits, trims, files, instruments, blobs and
+// audit_trail, keyed by table name. All counts are read by one statement, so they are consistent with each
 // other.
 func (l *Ledger) Counts(ctx context.Context) (map[string]int, error) {
 	sel := make([]string, len(countedTables))

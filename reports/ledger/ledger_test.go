@@ -50,6 +50,7 @@ func TestRoundTrip(t *testing.T) {
 		"units": 1, "runs": 1, "readings": want, "results": len(rec.Results),
 		"limit_outcomes": len(rec.Outcomes), "documents": 0, "fits": len(rec.Fits),
 		"trims": len(rec.Trims), "files": len(rec.Files), "instruments": len(rec.Instruments),
+		"blobs": 0, "audit_trail": 1, // no file contents given; one "create" entry
 	}
 	if !reflect.DeepEqual(counts, wantCounts) {
 		t.Errorf("Counts = %v\nwant     %v", counts, wantCounts)
@@ -568,8 +569,9 @@ func TestMigrations(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if len(first) != 2 || first[0].Version != 1 || first[0].Name != "init" || first[1].Version != 2 || first[1].Name != "uncertainty" ||
-		time.Since(first[0].AppliedAt) > time.Minute || first[1].AppliedAt.Before(first[0].AppliedAt) {
+	if len(first) != 3 || first[0].Version != 1 || first[0].Name != "init" || first[1].Version != 2 || first[1].Name != "uncertainty" ||
+		first[2].Version != 3 || first[2].Name != "tamper_evidence" ||
+		time.Since(first[0].AppliedAt) > time.Minute || first[1].AppliedAt.Before(first[0].AppliedAt) || first[2].AppliedAt.Before(first[1].AppliedAt) {
 		t.Fatalf("Migrations = %+v", first)
 	}
 	mustRecord(t, l, makeRecord("r", "S", sequencer.Pass, recordShape{sweeps: 1, points: 1, readings: 1}), "P")
@@ -596,14 +598,14 @@ func TestMigrations(t *testing.T) {
 
 	// A file migrated by a newer program is refused.
 	db := rawDB(t, path)
-	if _, err := db.Exec(`INSERT INTO schema_migrations (version, name, applied_at) VALUES (3, 'future', '2030-01-01T00:00:00.000000000Z')`); err != nil {
+	if _, err := db.Exec(`INSERT INTO schema_migrations (version, name, applied_at) VALUES (4, 'future', '2030-01-01T00:00:00.000000000Z')`); err != nil {
 		t.Fatal(err)
 	}
 	if _, err := ledger.Open(ctx, path); !errors.Is(err, ledger.ErrSchemaTooNew) {
 		t.Errorf("newer schema: %v, want ErrSchemaTooNew", err)
 	}
 	// So is one whose migration 1 is not ours.
-	if _, err := db.Exec(`DELETE FROM schema_migrations WHERE version = 3; UPDATE schema_migrations SET name = 'other' WHERE version = 1`); err != nil {
+	if _, err := db.Exec(`DELETE FROM schema_migrations WHERE version = 4; UPDATE schema_migrations SET name = 'other' WHERE version = 1`); err != nil {
 		t.Fatal(err)
 	}
 	if _, err := ledger.Open(ctx, path); !errors.Is(err, ledger.ErrCorrupt) {

@@ -10,6 +10,7 @@ import (
 	"regexp"
 	"slices"
 	"strconv"
+	"strings"
 	"time"
 )
 
@@ -27,7 +28,20 @@ type Migration struct {
 type migrationFile struct {
 	version int
 	name    string
-	sql     string
+	sql     string // the whole file
+	// parts is sql split at the backfill marker: without a marker one part; with
+	// one, two parts, and backfill runs between them in the same transaction.
+	parts    []string
+	backfill func(ctx context.Context, tx *sql.Tx) error
+}
+
+// backfillMarker is the line that splits a migration whose data is completed by Go
+// code (hashes SQLite cannot compute) into the part before and the part after it.
+const backfillMarker = "-- trimline:backfill"
+
+// backfills are the Go steps of the migrations that have a backfill marker, by version.
+var backfills = map[int]func(ctx context.Context, tx *sql.Tx) error{
+	3: backfill0003,
 }
 
 var migrationName = regexp.MustCompile(`^([0-9]{4})_([a-z0-9_]+)\.sql$`)
@@ -51,7 +65,19 @@ func embeddedMigrations() ([]migrationFile, error) {
 		if err != nil {
 			return nil, err
 		}
-		out = append(out, migrationFile{version: v, name: m[2], sql: string(b)})
+		mf := migrationFile{version: v, name: m[2], sql: string(b), backfill: backfills[v]}
+		before, after, marked := strings.Cut(mf.sql, "\n"+backfillMarker+"\n")
+		switch {
+		case marked && mf.backfill == nil:
+			return nil, fmt.Errorf("embedded migration %s: backfill marker but no backfill step", base)
+		case !marked && mf.backfill != nil:
+			return nil, fmt.Errorf("embedded migration %s: backfill step but no %q line", base, backfillMarker)
+		case marked:
+			mf.parts = []string{before, after}
+		default:
+			mf.parts = []string{mf.sql}
+		}
+		out = append(out, mf)
 	}
 	slices.SortFunc(out, func(a, b migrationFile) int { return a.version - b.version })
 	for i, m := range out {
@@ -74,6 +100,11 @@ func embeddedMigrations() ([]migrationFile, error) {
 // create the new table, copy, drop the old one, rename); before its transaction
 // commits, PRAGMA foreign_key_check must report nothing, else the migration is
 // rolled back. The connection's foreign_keys is switched back on afterwards.
+//
+// A migration whose new columns need values SQLite cannot compute (SHA-256 hash
+// chains) has a "-- trimline:backfill" line: the part before it runs, then the
+// migration's Go step (backfills), then the part after it, all in the one
+// transaction, so a ledger is never left half upgraded.
 func (l *Ledger) migrate(ctx context.Context) (err error) {
 	migs, err := embeddedMigrations()
 	if err != nil {
@@ -116,8 +147,15 @@ func (l *Ledger) migrate(ctx context.Context) (err error) {
 			if n > 0 {
 				return nil // applied already, possibly by another process a moment ago
 			}
-			if _, err := tx.ExecContext(ctx, m.sql); err != nil {
-				return err
+			for i, part := range m.parts {
+				if i > 0 {
+					if err := m.backfill(ctx, tx); err != nil {
+						return fmt.Errorf("backfill: %w", err)
+					}
+				}
+				if _, err := tx.ExecContext(ctx, part); err != nil {
+					return err
+				}
 			}
 			if err := foreignKeyCheck(ctx, tx); err != nil {
 				return err

@@ -1,0 +1,707 @@
+package ledger
+
+import (
+	"context"
+	"database/sql"
+	"encoding/hex"
+	"encoding/json"
+	"errors"
+	"fmt"
+	"strconv"
+	"strings"
+	"time"
+
+	"trimline/sequencer"
+)
+
+// Canonical returns the canonical JSON of rec: exactly the bytes RecordRun stores
+// as runs.record_json, so that a signer outside the package signs what the ledger
+// keeps. It is json.Marshal's output, except that a NaN or ±Inf float is the string
+// "NaN", "Infinity" or "-Infinity" (json.Marshal refuses them). ErrInvalid (wrapped)
+// for a nil record.
+func Canonical(rec *sequencer.Record) ([]byte, error) {
+	if rec == nil {
+		return nil, fmt.Errorf("ledger: canonical JSON: nil record: %w", ErrInvalid)
+	}
+	b, err := canonicalJSON(rec)
+	if err != nil {
+		return nil, fmt.Errorf("ledger: canonical JSON of run %s: %w", rec.RunID, err)
+	}
+	return b, nil
+}
+
+// RecordSHA256 returns the lowercase hex SHA-256 of Canonical(rec): the run's
+// record_sha256, which the Sign callback receives.
+func RecordSHA256(rec *sequencer.Record) (string, error) {
+	b, err := Canonical(rec)
+	if err != nil {
+		return "", err
+	}
+	return sha256Hex(b), nil
+}
+
+// SignedMessage returns the exact bytes a run's signature covers (RecordOptions.Sign
+// signs them, ChainOptions.Verify checks them):
+//
+//	"trimline-record-v1\n" + number + "\n" + runID + "\n" + recordSHA
+//
+// with number the certificate number ("" for a run without one) and recordSHA the
+// record's SHA-256 in lowercase hex. There is no final line break.
+func SignedMessage(number, runID, recordSHA string) []byte {
+	return []byte("trimline-record-v1\n" + number + "\n" + runID + "\n" + recordSHA)
+}
+
+// chainHash is a run's chain_hash; RecordRunWith documents the line.
+func chainHash(prev, runID, cert, recordSHA, verdict, keyID string, sig []byte) string {
+	line := "trimline-chain-v1\n" + prev + "\n" + runID + "\n" + cert + "\n" + recordSHA + "\n" +
+		verdict + "\n" + keyID + "\n" + hex.EncodeToString(sig)
+	return sha256Hex([]byte(line))
+}
+
+// ChainOptions are VerifyChain's options.
+type ChainOptions struct {
+	// Verify, if not nil, checks each signed run's signature: it must report whether
+	// sig is keyID's signature over msg (SignedMessage of the run). A false is a
+	// broken link. Without Verify, signatures are only checked to be covered by the
+	// chain.
+	Verify func(keyID string, msg, sig []byte) bool
+	// RequireSignatures makes an unsigned run a broken link. Runs recorded without a
+	// Sign callback (by RecordRun, or before migration 0003) are unsigned.
+	RequireSignatures bool
+}
+
+// ChainReport is VerifyChain's result.
+type ChainReport struct {
+	// Station is the station asked for ("" for all); when OK is false, the station
+	// of the broken run, "" if the break is not in a run.
+	Station string
+	OK      bool
+	// BrokenAt is the run id at the first broken link, "" if OK or if the break is
+	// not in a run; BrokenAuditSeq the audit trail entry at the break, 0 if none.
+	BrokenAt       string
+	BrokenAuditSeq int64
+	Reason         string // what is wrong, "" if OK
+
+	// What was checked before the break (all of it when OK).
+	Stations     int // station chains walked
+	Runs         int
+	Signed       int // runs with a signature
+	Verified     int // signatures found good by Verify
+	Unsigned     int // runs without a signature
+	Certificates int
+	Documents    int
+	Blobs        int
+	AuditEntries int
+
+	// Heads is the chain_hash of the last run of every station walked, and AuditHead
+	// the hash of the last audit trail entry. Kept outside the ledger (printed,
+	// mailed, signed), they make a rewrite of the whole ledger evident too.
+	Heads     map[string]string
+	AuditHead string
+}
+
+// appendOnlyTriggers are the triggers VerifyChain requires; their absence means
+// someone took the guard rails off.
+var appendOnlyTriggers = []string{
+	"runs_no_update", "runs_no_delete", "runs_chain_required",
+	"readings_no_update", "readings_no_delete", "results_no_update", "results_no_delete",
+	"limit_outcomes_no_update", "limit_outcomes_no_delete", "fits_no_update", "fits_no_delete",
+	"trims_no_update", "trims_no_delete", "files_no_update", "files_no_delete",
+	"instruments_no_update", "instruments_no_delete", "documents_no_update", "documents_no_delete",
+	"cert_sequences_no_delete", "cert_sequences_no_decrease",
+	"blobs_no_update", "blobs_no_delete", "audit_trail_no_update", "audit_trail_no_delete",
+}
+
+// VerifyChain re-checks the ledger and reports the first broken link, in this order:
+//
+//  1. the append-only triggers are all there;
+//  2. the audit trail: entries numbered 1, 2, 3, ... without gaps, each prev_hash the
+//     previous entry's hash and each hash its content's (audit.go); at most one
+//     create entry per run and one void entry per certificate;
+//  3. every blob's content has its SHA-256 and size;
+//  4. the runs of station (every station when station is ""), station by station in
+//     chain order: record_json hashes to record_sha256; the run's columns (run id,
+//     serial, product, revision, station, operator, software, times, verdict,
+//     reasons, fault) are those of its record; chain_seq counts 1, 2, 3, ...;
+//     chain_prev is the previous run's chain_hash ("" for the first) and chain_hash
+//     recomputes; the signature (opts' Verify and RequireSignatures); the run's
+//     create entry in the trail agrees with the row, and the blobs it names exist;
+//  5. every create entry (of station, if given) has its run;
+//  6. certificate numbers, all prefixes: each well formed, none twice, and every
+//     prefix's numbers exactly 1 … its sequence's last, without gaps; every void
+//     entry names an existing certificate;
+//  7. documents: each row has its issue entry, in order, and each issue entry its row.
+//
+// A broken ledger is not an error: VerifyChain returns the report with OK false and
+// a nil error. Errors are reserved for failures to read (and ErrInvalid for more
+// than one ChainOptions). It reads one consistent snapshot; writers may go on.
+//
+// What the chains cannot show: a change that rewrites every hash after it (there is
+// no secret in a hash), unless the signatures or heads kept elsewhere contradict it;
+// and the query rows of readings, results, limit outcomes, fits, trims, files and
+// instruments, which are copies of record_json (Run reads record_json) that
+// VerifyChain does not compare.
+func (l *Ledger) VerifyChain(ctx context.Context, station string, opts ...ChainOptions) (ChainReport, error) {
+	var opt ChainOptions
+	switch len(opts) {
+	case 0:
+	case 1:
+		opt = opts[0]
+	default:
+		return ChainReport{}, fmt.Errorf("ledger: verify chain: %d ChainOptions, want at most one: %w", len(opts), ErrInvalid)
+	}
+	c := &chainCheck{ctx: ctx, opt: opt, station: station,
+		rep: ChainReport{Station: station, OK: true, Heads: map[string]string{}}}
+	err := l.readTx(ctx, func(tx *sql.Tx) error {
+		c.tx = tx
+		for _, step := range []func() error{c.triggers, c.auditTrail, c.blobs, c.runs, c.orphanCreates, c.certificates, c.documents} {
+			if err := step(); err != nil {
+				return err
+			}
+		}
+		return nil
+	})
+	if errors.Is(err, errBroken) {
+		return c.rep, nil
+	}
+	if err != nil {
+		return ChainReport{}, fmt.Errorf("ledger: verify chain: %w", err)
+	}
+	return c.rep, nil
+}
+
+// errBroken stops the walk at the first broken link.
+var errBroken = errors.New("broken link")
+
+type auditRef struct {
+	seq     int64
+	subject string
+	idx     int // position among the issue entries of its certificate
+	create  createDetail
+	issue   issueDetail
+	void    voidDetail
+	seen    bool
+}
+
+type chainCheck struct {
+	ctx     context.Context
+	tx      *sql.Tx
+	opt     ChainOptions
+	station string
+	rep     ChainReport
+
+	creates    map[string]*auditRef   // run id -> create entry
+	createList []*auditRef            // create entries in trail order
+	issues     map[string][]*auditRef // certificate -> issue entries in trail order
+	issueList  []*auditRef            // issue entries in trail order
+	voids      map[string]*auditRef   // certificate -> void entry
+	voidList   []*auditRef            // void entries in trail order
+	blobSet    map[string]bool
+	runCert    map[string]string // run id -> certificate, for certified runs
+}
+
+// broken records the first broken link and stops the walk.
+func (c *chainCheck) broken(station, runID string, seq int64, format string, args ...any) error {
+	c.rep.OK = false
+	c.rep.Station = station
+	c.rep.BrokenAt = runID
+	c.rep.BrokenAuditSeq = seq
+	c.rep.Reason = fmt.Sprintf(format, args...)
+	return errBroken
+}
+
+func (c *chainCheck) triggers() error {
+	rows, err := c.tx.QueryContext(c.ctx, `SELECT name FROM sqlite_schema WHERE type = 'trigger'`)
+	if err != nil {
+		return err
+	}
+	defer rows.Close()
+	have := map[string]bool{}
+	for rows.Next() {
+		var name string
+		if err := rows.Scan(&name); err != nil {
+			return err
+		}
+		have[name] = true
+	}
+	if err := rows.Err(); err != nil {
+		return err
+	}
+	for _, t := range appendOnlyTriggers {
+		if !have[t] {
+			return c.broken("", "", 0, "the append-only trigger %s is missing", t)
+		}
+	}
+	return nil
+}
+
+func (c *chainCheck) auditTrail() error {
+	c.creates, c.issues, c.voids = map[string]*auditRef{}, map[string][]*auditRef{}, map[string]*auditRef{}
+	rows, err := c.tx.QueryContext(c.ctx, `SELECT seq, at, actor, action, subject, detail, prev_hash, hash FROM audit_trail ORDER BY seq`)
+	if err != nil {
+		return err
+	}
+	defer rows.Close()
+	prev, want := "", int64(1)
+	for rows.Next() {
+		var e AuditEntry
+		var at string
+		if err := rows.Scan(&e.Seq, &at, &e.Actor, &e.Action, &e.Subject, &e.Detail, &e.PrevHash, &e.Hash); err != nil {
+			return err
+		}
+		switch {
+		case e.Seq != want:
+			return c.broken("", "", e.Seq, "audit trail entry %d follows entry %d: entries are missing or renumbered", e.Seq, want-1)
+		case e.PrevHash != prev:
+			return c.broken("", "", e.Seq, "audit trail entry %d: prev_hash %s is not the hash of entry %d (%s)", e.Seq, e.PrevHash, e.Seq-1, prev)
+		case auditHash(e.PrevHash, e.Seq, at, e.Actor, e.Action, e.Subject, e.Detail) != e.Hash:
+			return c.broken("", "", e.Seq, "audit trail entry %d: hash %s does not match the entry's content", e.Seq, e.Hash)
+		}
+		if _, err := parseTime(at); err != nil {
+			return c.broken("", "", e.Seq, "audit trail entry %d: time %q is not RFC 3339", e.Seq, at)
+		}
+		ref := &auditRef{seq: e.Seq, subject: e.Subject}
+		var derr error
+		switch e.Action {
+		case ActionCreate:
+			derr = json.Unmarshal([]byte(e.Detail), &ref.create)
+			if c.creates[e.Subject] != nil {
+				return c.broken("", e.Subject, e.Seq, "audit trail entry %d: a second create entry for run %s (the first is entry %d)", e.Seq, e.Subject, c.creates[e.Subject].seq)
+			}
+			c.creates[e.Subject] = ref
+			c.createList = append(c.createList, ref)
+		case ActionIssue:
+			derr = json.Unmarshal([]byte(e.Detail), &ref.issue)
+			ref.idx = len(c.issues[e.Subject])
+			c.issues[e.Subject] = append(c.issues[e.Subject], ref)
+			c.issueList = append(c.issueList, ref)
+		case ActionVoid:
+			derr = json.Unmarshal([]byte(e.Detail), &ref.void)
+			if c.voids[e.Subject] != nil {
+				return c.broken("", "", e.Seq, "audit trail entry %d: certificate %s voided a second time (first in entry %d)", e.Seq, e.Subject, c.voids[e.Subject].seq)
+			}
+			c.voids[e.Subject] = ref
+			c.voidList = append(c.voidList, ref)
+		}
+		if derr != nil {
+			return c.broken("", "", e.Seq, "audit trail entry %d: %s detail is not its JSON object: %v", e.Seq, e.Action, derr)
+		}
+		prev = e.Hash
+		want++
+		c.rep.AuditEntries++
+	}
+	if err := rows.Err(); err != nil {
+		return err
+	}
+	c.rep.AuditHead = prev
+	return nil
+}
+
+func (c *chainCheck) blobs() error {
+	c.blobSet = map[string]bool{}
+	rows, err := c.tx.QueryContext(c.ctx, `SELECT sha256, size, data FROM blobs ORDER BY sha256`)
+	if err != nil {
+		return err
+	}
+	defer rows.Close()
+	for rows.Next() {
+		var sum string
+		var size int64
+		var data []byte
+		if err := rows.Scan(&sum, &size, &data); err != nil {
+			return err
+		}
+		if got := sha256Hex(data); got != sum {
+			return c.broken("", "", 0, "blob %s: content has SHA-256 %s", sum, got)
+		}
+		if int64(len(data)) != size {
+			return c.broken("", "", 0, "blob %s: %d bytes, stored size %d", sum, len(data), size)
+		}
+		c.blobSet[sum] = true
+		c.rep.Blobs++
+	}
+	return rows.Err()
+}
+
+// recordHeader is the part of a record that the runs row repeats.
+type recordHeader struct {
+	RunID    string    `json:"run_id"`
+	Serial   string    `json:"serial"`
+	Product  string    `json:"product"`
+	Revision string    `json:"revision"`
+	Station  string    `json:"station"`
+	Operator string    `json:"operator"`
+	Software string    `json:"software"`
+	Started  time.Time `json:"started"`
+	Finished time.Time `json:"finished"`
+	Verdict  string    `json:"verdict"`
+	Reasons  []string  `json:"reasons"`
+	Fault    string    `json:"fault"`
+}
+
+type runRow struct {
+	station                                 string
+	seq                                     sql.NullInt64
+	runID, cert, recordSHA, verdict, keyID  string
+	sig                                     []byte
+	prev, hash                              sql.NullString
+	doc                                     []byte
+	serial, product, revision, operator, sw string
+	started, finished                       string
+	fault                                   sql.NullString
+	reasons                                 string
+}
+
+func (c *chainCheck) runs() error {
+	q := `SELECT station, chain_seq, run_id, coalesce(certificate, ''), record_sha256, verdict, key_id, signature,
+		chain_prev, chain_hash, record_json, serial, product, revision, operator, software, started, finished, fault, reasons
+		FROM runs`
+	var args []any
+	if c.station != "" {
+		q += ` WHERE station = ?`
+		args = append(args, c.station)
+	}
+	q += ` ORDER BY station, chain_seq`
+	rows, err := c.tx.QueryContext(c.ctx, q, args...)
+	if err != nil {
+		return err
+	}
+	defer rows.Close()
+	var cur string
+	var curSeq int64
+	prev := ""
+	first := true
+	for rows.Next() {
+		var r runRow
+		if err := rows.Scan(&r.station, &r.seq, &r.runID, &r.cert, &r.recordSHA, &r.verdict, &r.keyID, &r.sig,
+			&r.prev, &r.hash, &r.doc, &r.serial, &r.product, &r.revision, &r.operator, &r.sw, &r.started, &r.finished, &r.fault, &r.reasons); err != nil {
+			return err
+		}
+		if first || r.station != cur {
+			cur, curSeq, prev, first = r.station, 0, "", false
+			c.rep.Stations++
+		}
+		if err := c.run(&r, curSeq, prev); err != nil {
+			return err
+		}
+		c.rep.Runs++
+		c.rep.Heads[r.station] = r.hash.String
+		curSeq, prev = r.seq.Int64, r.hash.String
+	}
+	return rows.Err()
+}
+
+// run checks one run, the link after (prevSeq, prev) of its station.
+func (c *chainCheck) run(r *runRow, prevSeq int64, prev string) error {
+	st, id := r.station, r.runID
+	fail := func(format string, args ...any) error {
+		return c.broken(st, id, 0, "station %q, run %s: %s", st, id, fmt.Sprintf(format, args...))
+	}
+	if !r.seq.Valid || !r.prev.Valid || !r.hash.Valid {
+		return fail("no chain link")
+	}
+	if got := sha256Hex(r.doc); got != r.recordSHA {
+		return fail("record_json has SHA-256 %s, record_sha256 is %s", got, r.recordSHA)
+	}
+	var h recordHeader
+	if err := json.Unmarshal(r.doc, &h); err != nil {
+		return fail("record_json does not decode: %v", err)
+	}
+	reasons := h.Reasons
+	if reasons == nil {
+		reasons = []string{}
+	}
+	rj, err := canonicalJSON(reasons)
+	if err != nil {
+		return err
+	}
+	for _, f := range []struct{ name, row, rec string }{
+		{"run_id", r.runID, h.RunID}, {"serial", r.serial, h.Serial}, {"product", r.product, h.Product},
+		{"revision", r.revision, h.Revision}, {"station", r.station, h.Station}, {"operator", r.operator, h.Operator},
+		{"software", r.sw, h.Software}, {"started", r.started, formatTime(h.Started)}, {"finished", r.finished, formatTime(h.Finished)},
+		{"verdict", r.verdict, h.Verdict}, {"reasons", r.reasons, string(rj)}, {"fault", r.fault.String, h.Fault},
+	} {
+		if f.row != f.rec {
+			return fail("column %s is %q, the record has %q", f.name, f.row, f.rec)
+		}
+	}
+	if r.fault.Valid && r.fault.String == "" {
+		return fail("column fault is empty instead of NULL")
+	}
+	if r.seq.Int64 != prevSeq+1 {
+		return fail("chain position %d follows %d: runs are missing or renumbered", r.seq.Int64, prevSeq)
+	}
+	if r.prev.String != prev {
+		return fail("chain_prev %q is not the previous run's chain_hash %q", r.prev.String, prev)
+	}
+	if got := chainHash(r.prev.String, r.runID, r.cert, r.recordSHA, r.verdict, r.keyID, r.sig); got != r.hash.String {
+		return fail("chain_hash %s, the link computes to %s", r.hash.String, got)
+	}
+	if err := validateSignature(r.keyID, r.sig); err != nil {
+		return fail("%v", err)
+	}
+	if r.keyID == "" {
+		c.rep.Unsigned++
+		if c.opt.RequireSignatures {
+			return fail("not signed")
+		}
+	} else {
+		c.rep.Signed++
+		if c.opt.Verify != nil {
+			if !c.opt.Verify(r.keyID, SignedMessage(r.cert, r.runID, r.recordSHA), r.sig) {
+				return fail("the signature of key %q does not verify", r.keyID)
+			}
+			c.rep.Verified++
+		}
+	}
+	ref := c.creates[r.runID]
+	if ref == nil {
+		return fail("the audit trail has no create entry for it")
+	}
+	ref.seen = true
+	d := ref.create
+	for _, f := range []struct{ name, row, trail string }{
+		{"station", r.station, d.Station}, {"serial", r.serial, d.Serial}, {"operator", r.operator, d.Operator},
+		{"verdict", r.verdict, d.Verdict}, {"certificate", r.cert, d.Certificate}, {"record_sha256", r.recordSHA, d.RecordSHA256},
+		{"key_id", r.keyID, d.KeyID}, {"chain_seq", strconv.FormatInt(r.seq.Int64, 10), strconv.FormatInt(d.ChainSeq, 10)},
+		{"chain_hash", r.hash.String, d.ChainHash},
+	} {
+		if f.row != f.trail {
+			return c.broken(st, id, ref.seq, "station %q, run %s: %s is %q, its create entry %d has %q", st, id, f.name, f.row, ref.seq, f.trail)
+		}
+	}
+	for _, b := range d.Blobs {
+		if !c.blobSet[b] {
+			return c.broken(st, id, ref.seq, "station %q, run %s: blob %s, stored with the run (entry %d), is missing", st, id, b, ref.seq)
+		}
+	}
+	return nil
+}
+
+func (c *chainCheck) orphanCreates() error {
+	for _, ref := range c.createList {
+		if !ref.seen && (c.station == "" || ref.create.Station == c.station) {
+			id := ref.subject
+			return c.broken(ref.create.Station, id, ref.seq, "audit trail entry %d records run %s of station %q, which is not in the ledger", ref.seq, id, ref.create.Station)
+		}
+	}
+	return nil
+}
+
+func (c *chainCheck) certificates() error {
+	last := map[string]int64{}
+	rows, err := c.tx.QueryContext(c.ctx, `SELECT prefix, last FROM cert_sequences ORDER BY prefix`)
+	if err != nil {
+		return err
+	}
+	var prefixes []string
+	for rows.Next() {
+		var p string
+		var n int64
+		if err := rows.Scan(&p, &n); err != nil {
+			rows.Close()
+			return err
+		}
+		last[p] = n
+		prefixes = append(prefixes, p)
+	}
+	rows.Close()
+	if err := rows.Err(); err != nil {
+		return err
+	}
+
+	c.runCert = map[string]string{}
+	used := map[string]map[int64]string{} // prefix -> number -> run id
+	rows, err = c.tx.QueryContext(c.ctx, `SELECT certificate, run_id, station FROM runs WHERE certificate IS NOT NULL ORDER BY rowid`)
+	if err != nil {
+		return err
+	}
+	defer rows.Close()
+	for rows.Next() {
+		var cert, id, st string
+		if err := rows.Scan(&cert, &id, &st); err != nil {
+			return err
+		}
+		c.runCert[id] = cert
+		i := strings.LastIndexByte(cert, '-')
+		var n int64 = -1
+		if i > 0 && len(cert)-i-1 == 6 && strings.Trim(cert[i+1:], "0123456789") == "" {
+			n, _ = strconv.ParseInt(cert[i+1:], 10, 64)
+		}
+		if n < 0 {
+			return c.broken(st, id, 0, "run %s: certificate %q is not PREFIX-NNNNNN", id, cert)
+		}
+		p := cert[:i]
+		top, ok := last[p]
+		if !ok {
+			return c.broken(st, id, 0, "run %s: certificate %s: prefix %q has no sequence", id, cert, p)
+		}
+		if n < 1 || n > top {
+			return c.broken(st, id, 0, "run %s: certificate %s is outside 1 … %d, the sequence of %s", id, cert, top, p)
+		}
+		if used[p] == nil {
+			used[p] = map[int64]string{}
+		}
+		if other, dup := used[p][n]; dup {
+			return c.broken(st, id, 0, "run %s: certificate %s is also run %s's", id, cert, other)
+		}
+		used[p][n] = id
+		c.rep.Certificates++
+	}
+	if err := rows.Err(); err != nil {
+		return err
+	}
+	for _, p := range prefixes {
+		if int64(len(used[p])) == last[p] {
+			continue
+		}
+		for n := int64(1); n <= last[p]; n++ {
+			if _, ok := used[p][n]; !ok {
+				return c.broken("", "", 0, "certificate %s-%06d is missing: the sequence of %s is at %d, %d numbers are used", p, n, p, last[p], len(used[p]))
+			}
+		}
+	}
+	for _, ref := range c.voidList {
+		if c.runCert[ref.void.RunID] != ref.subject {
+			return c.broken("", ref.void.RunID, ref.seq, "audit trail entry %d voids %s, which is not the certificate of run %s (%q)",
+				ref.seq, ref.subject, ref.void.RunID, c.runCert[ref.void.RunID])
+		}
+	}
+	return nil
+}
+
+func (c *chainCheck) documents() error {
+	rows, err := c.tx.QueryContext(c.ctx, `SELECT `+documentColumns+` FROM documents ORDER BY rowid`)
+	if err != nil {
+		return err
+	}
+	defer rows.Close()
+	next := map[string]int{}
+	for rows.Next() {
+		d, err := scanDocument(rows)
+		if err != nil {
+			return c.broken("", "", 0, "document row %d: %v", c.rep.Documents+1, err)
+		}
+		list := c.issues[d.Number]
+		k := next[d.Number]
+		if k >= len(list) {
+			return c.broken("", d.RunID, 0, "document %d of certificate %s (%s) has no issue entry in the audit trail", k+1, d.Number, d.Path)
+		}
+		ref := list[k]
+		next[d.Number]++
+		is := ref.issue
+		for _, f := range []struct{ name, row, trail string }{
+			{"run_id", d.RunID, is.RunID}, {"path", d.Path, is.Path}, {"sha256", d.SHA256, is.SHA256},
+			{"size", strconv.FormatInt(d.Size, 10), strconv.FormatInt(is.Size, 10)}, {"key_id", d.KeyID, is.KeyID},
+			{"signature", hex.EncodeToString(d.Signature), is.Signature}, {"created_at", formatTime(d.CreatedAt), is.CreatedAt},
+		} {
+			if f.row != f.trail {
+				return c.broken("", d.RunID, ref.seq, "document %d of certificate %s: %s is %q, its issue entry %d has %q", k+1, d.Number, f.name, f.row, ref.seq, f.trail)
+			}
+		}
+		if c.runCert[d.RunID] != d.Number {
+			return c.broken("", d.RunID, ref.seq, "document %d of certificate %s belongs to run %s, whose certificate is %q", k+1, d.Number, d.RunID, c.runCert[d.RunID])
+		}
+		c.rep.Documents++
+	}
+	if err := rows.Err(); err != nil {
+		return err
+	}
+	for _, ref := range c.issueList {
+		if ref.idx >= next[ref.subject] {
+			return c.broken("", ref.issue.RunID, ref.seq, "audit trail entry %d issued a document of %s (%s) that is not in the ledger", ref.seq, ref.subject, ref.issue.Path)
+		}
+	}
+	return nil
+}
+
+// backfillActor is the actor of the audit trail entries migration 0003 writes.
+const backfillActor = "trimline migration 0003"
+
+// backfill0003 is migration 0003's Go step: the chain links of the runs stored
+// before it, in insertion order (rowid) station by station, unsigned; and a create
+// entry in the audit trail for each of them, followed by an issue entry for each of
+// its documents.
+func backfill0003(ctx context.Context, tx *sql.Tx) error {
+	type oldRun struct {
+		rowid                                             int64
+		id, station, cert, sha, verdict, serial, operator string
+	}
+	var runs []oldRun
+	rows, err := tx.QueryContext(ctx, `SELECT rowid, run_id, station, coalesce(certificate, ''), record_sha256, verdict, serial, operator FROM runs ORDER BY rowid`)
+	if err != nil {
+		return err
+	}
+	for rows.Next() {
+		var r oldRun
+		if err := rows.Scan(&r.rowid, &r.id, &r.station, &r.cert, &r.sha, &r.verdict, &r.serial, &r.operator); err != nil {
+			rows.Close()
+			return err
+		}
+		runs = append(runs, r)
+	}
+	rows.Close()
+	if err := rows.Err(); err != nil {
+		return err
+	}
+	docs := map[string][]issueDetail{}
+	rows, err = tx.QueryContext(ctx, `SELECT run_id, number, path, sha256, size, created_at FROM documents ORDER BY rowid`)
+	if err != nil {
+		return err
+	}
+	numbers := map[string][]string{}
+	for rows.Next() {
+		var d issueDetail
+		var number string
+		if err := rows.Scan(&d.RunID, &number, &d.Path, &d.SHA256, &d.Size, &d.CreatedAt); err != nil {
+			rows.Close()
+			return err
+		}
+		d.Note = "backfilled by migration 0003"
+		docs[d.RunID] = append(docs[d.RunID], d)
+		numbers[d.RunID] = append(numbers[d.RunID], number)
+	}
+	rows.Close()
+	if err := rows.Err(); err != nil {
+		return err
+	}
+
+	at := formatTime(time.Now())
+	type tail struct {
+		seq  int64
+		hash string
+	}
+	tails := map[string]tail{}
+	for _, r := range runs {
+		t := tails[r.station]
+		link := chainHash(t.hash, r.id, r.cert, r.sha, r.verdict, "", nil)
+		if _, err := tx.ExecContext(ctx, `UPDATE runs SET chain_seq = ?, chain_prev = ?, chain_hash = ? WHERE rowid = ?`,
+			t.seq+1, t.hash, link, r.rowid); err != nil {
+			return fmt.Errorf("run %s: %w", r.id, err)
+		}
+		detail, err := json.Marshal(createDetail{Station: r.station, Serial: r.serial, Operator: r.operator, Verdict: r.verdict,
+			Certificate: r.cert, RecordSHA256: r.sha, ChainSeq: t.seq + 1, ChainHash: link,
+			Note: "backfilled by migration 0003: the run was recorded before the audit trail existed"})
+		if err != nil {
+			return err
+		}
+		if _, err := appendAudit(ctx, tx, at, backfillActor, ActionCreate, r.id, string(detail)); err != nil {
+			return err
+		}
+		for i, d := range docs[r.id] {
+			detail, err := json.Marshal(d)
+			if err != nil {
+				return err
+			}
+			if _, err := appendAudit(ctx, tx, at, backfillActor, ActionIssue, numbers[r.id][i], string(detail)); err != nil {
+				return err
+			}
+		}
+		delete(docs, r.id)
+		tails[r.station] = tail{t.seq + 1, link}
+	}
+	if len(docs) > 0 {
+		return fmt.Errorf("documents of runs that are not in the ledger: %w", ErrCorrupt)
+	}
+	return nil
+}
