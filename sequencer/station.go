@@ -32,8 +32,11 @@ type Station struct {
 	// Interlock, when set, must answer "closed" before any output is switched on
 	// and between sweep points.
 	Interlock *Interlock
-	File      FileRef
-	Raw       []byte // the file's exact bytes, for the ledger's content-addressed store
+	// SigningKey is the station's Ed25519 private key file (resolved relative to
+	// the station file); "" issues unsigned certificates.
+	SigningKey string
+	File       FileRef
+	Raw        []byte // the file's exact bytes, for the ledger's content-addressed store
 }
 
 // Interlock is a fixture input read through one of the station's instruments.
@@ -114,7 +117,10 @@ type stationFile struct {
 		Closed string `yaml:"closed"`
 	} `yaml:"interlock"`
 	StepDeadline *units.Duration `yaml:"step_deadline"`
-	Safety       struct {
+	Signing      struct {
+		Key string `yaml:"key"`
+	} `yaml:"signing"`
+	Safety struct {
 		MaxSourceVoltage *units.Voltage `yaml:"max_source_voltage"`
 		MaxSourceCurrent *units.Current `yaml:"max_source_current"`
 	} `yaml:"safety"`
@@ -250,6 +256,12 @@ func ParseStation(name string, data []byte) (*Station, error) {
 		}
 		if il.Closed == "" {
 			errs = append(errs, doc.Errorf("$.interlock.closed", "missing required key \"closed\" (the reply that means the lid is closed)"))
+		}
+	}
+	if k := f.Signing.Key; k != "" {
+		st.SigningKey = k
+		if !filepath.IsAbs(k) {
+			st.SigningKey = filepath.Join(filepath.Dir(name), k)
 		}
 	}
 	st.OutputFolder = f.Output.Folder

@@ -10,6 +10,7 @@ import (
 	"strconv"
 	"time"
 
+	"trimline/reports/signing"
 	"trimline/sequencer"
 	"trimline/sequences"
 )
@@ -112,6 +113,12 @@ func writeDemoFiles(dir string, seed uint64, now time.Time) (station, sequence s
 	entries, err := fs.ReadDir(sequences.Demo, ".")
 	if err != nil {
 		return "", "", err
+	}
+	// The demo station seals its certificates with a key of its own.
+	if _, err := os.Stat(filepath.Join(dir, "keys", "TL1.key")); os.IsNotExist(err) {
+		if _, _, err := signing.Init(filepath.Join(dir, "keys"), "TL1"); err != nil {
+			return "", "", err
+		}
 	}
 	for _, e := range entries {
 		data, err := fs.ReadFile(sequences.Demo, e.Name())

@@ -2,8 +2,6 @@ package main
 
 import (
 	"context"
-	"crypto/sha256"
-	"encoding/hex"
 	"encoding/json"
 	"errors"
 	"fmt"
@@ -16,8 +14,8 @@ import (
 
 	"github.com/rs/zerolog"
 
-	"trimline/reports/certificate"
 	"trimline/reports/ledger"
+	"trimline/reports/signing"
 	"trimline/sequencer"
 	"trimline/sequencer/files"
 	"trimline/sequencer/units"
@@ -110,6 +108,17 @@ func runBatch(ctx context.Context, b batch) (*tally, error) {
 		return nil, stationErr(fmt.Errorf("open ledger: %w", err))
 	}
 	defer led.Close()
+	is := &issuer{led: led, st: st, seq: seq, certDir: filepath.Join(out, "certificates")}
+	if st.SigningKey != "" {
+		if is.key, err = signing.Load(st.SigningKey); err != nil {
+			return nil, badInput(fmt.Errorf("%s signing.key: %w", st.File.Name, err))
+		}
+	}
+	if n, err := is.repair(ctx); err != nil {
+		return nil, stationErr(err)
+	} else if n > 0 {
+		log.Warn().Int("certificates", n).Msg("published certificates whose documents were missing after an interrupted run")
+	}
 
 	var cond sequencer.Conditions
 	if b.ambient != "" {
@@ -128,7 +137,7 @@ func runBatch(ctx context.Context, b batch) (*tally, error) {
 		}
 		// The unit in the fixture was not run: record the attempt and why.
 		rec := sequencer.FaultRecord(cfg, b.serials[0], time.Now(), err)
-		if _, lerr := led.RecordRun(context.WithoutCancel(ctx), rec, st.CertificatePrefix); lerr != nil {
+		if _, lerr := is.record(context.WithoutCancel(ctx), rec); lerr != nil {
 			log.Error().Err(lerr).Msg("could not record the failed start in the ledger")
 		}
 		log.Error().Str("serial", rec.Serial).Err(err).Msg("station fault before the unit started")
@@ -143,24 +152,9 @@ func runBatch(ctx context.Context, b batch) (*tally, error) {
 			break
 		}
 		rec := eng.Run(ctx, sn)
-		cert, err := led.RecordRun(context.WithoutCancel(ctx), rec, st.CertificatePrefix)
+		cert, err := is.record(context.WithoutCancel(ctx), rec)
 		if err != nil {
-			return t, stationErr(fmt.Errorf("%s: record run in ledger: %w", sn, err))
-		}
-		if cert != "" {
-			opt := certificate.Options{Number: cert, Maker: seq.Maker}
-			path := filepath.Join(out, "certificates", certificate.FileName(rec, opt))
-			if err := certificate.WriteFile(path, rec, opt); err != nil {
-				return t, stationErr(fmt.Errorf("%s: write certificate: %w", sn, err))
-			}
-			data, err := os.ReadFile(path)
-			if err != nil {
-				return t, stationErr(err)
-			}
-			sum := sha256.Sum256(data)
-			if err := led.AddDocument(context.WithoutCancel(ctx), rec.RunID, cert, path, hex.EncodeToString(sum[:]), int64(len(data))); err != nil {
-				return t, stationErr(fmt.Errorf("%s: record certificate: %w", sn, err))
-			}
+			return t, stationErr(fmt.Errorf("%s: %w", sn, err))
 		}
 		t.records = append(t.records, rec)
 		t.certs = append(t.certs, cert)

@@ -98,7 +98,7 @@ const SealFormat = "trimline-seal-v1"
 // Seal is the detached signature file written next to a PDF (NAME.pdf.seal,
 // JSON): what an auditor needs, with the station's public key, to tell whether a
 // PDF is the one issued. RecordSignature covers RecordMessage(Number, RunID,
-// Serial, RecordSHA256) and PDFSignature covers PDFMessage(Number, pdf). Signed is
+// RecordSHA256) and PDFSignature covers PDFMessage(Number, pdf). Signed is
 // when the station sealed it; it is informational and covered by neither
 // signature. Signatures are base64 in the JSON.
 type Seal struct {

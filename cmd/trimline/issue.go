@@ -1,0 +1,134 @@
+package main
+
+import (
+	"context"
+	"crypto/sha256"
+	"encoding/hex"
+	"fmt"
+	"os"
+	"path/filepath"
+
+	"trimline/reports/certificate"
+	"trimline/reports/ledger"
+	"trimline/reports/signing"
+	"trimline/sequencer"
+)
+
+// issuer records runs in the ledger and publishes their certificates: the ledger
+// commit (with the certificate number and the record signature) comes first, then
+// the PDF is written atomically, then the document is recorded with its own
+// signature, then the detached seal is written. A crash between the commit and the
+// document leaves a certified run without a document, which repair finds and
+// publishes again, byte-identical, at the next start.
+type issuer struct {
+	led     *ledger.Ledger
+	key     *signing.Key // nil: unsigned certificates
+	st      *sequencer.Station
+	seq     *sequencer.Sequence
+	certDir string
+}
+
+// record stores rec and, for a certified verdict, publishes its certificate. It
+// returns the certificate number ("" for runs that get none).
+func (is *issuer) record(ctx context.Context, rec *sequencer.Record) (string, error) {
+	var keyID string
+	var sig []byte
+	opt := ledger.RecordOptions{Prefix: is.st.CertificatePrefix, Actor: rec.Operator, Files: map[string][]byte{}}
+	for _, f := range []struct {
+		ref sequencer.FileRef
+		raw []byte
+	}{{is.st.File, is.st.Raw}, {is.seq.File, is.seq.Raw}, {limitsFileRef(rec), is.seq.LimitsRaw}} {
+		if f.ref.SHA256 != "" && f.raw != nil {
+			opt.Files[f.ref.SHA256] = f.raw
+		}
+	}
+	recSHA, err := ledger.RecordSHA256(rec)
+	if err != nil {
+		return "", err
+	}
+	if is.key != nil {
+		opt.Sign = func(number, runID, recordSHA string) (string, []byte, error) {
+			keyID, sig = is.key.ID(), is.key.Sign(ledger.SignedMessage(number, runID, recordSHA))
+			return keyID, sig, nil
+		}
+	}
+	cert, err := is.led.RecordRunWith(ctx, rec, opt)
+	if err != nil || cert == "" {
+		return cert, err
+	}
+	return cert, is.publish(ctx, rec, ledger.RunMeta{RunID: rec.RunID, Certificate: cert, RecordSHA256: recSHA, KeyID: keyID, Signature: sig})
+}
+
+func limitsFileRef(rec *sequencer.Record) sequencer.FileRef {
+	for _, f := range rec.Files {
+		if f.Kind == "limits" {
+			return f
+		}
+	}
+	return sequencer.FileRef{}
+}
+
+// certOptions are the certificate options of a recorded run; they depend only on
+// the record and its ledger entry, so a regenerated PDF is byte-identical.
+func certOptions(rec *sequencer.Record, meta ledger.RunMeta) certificate.Options {
+	opt := certificate.Options{Number: meta.Certificate, RecordSHA256: meta.RecordSHA256, KeyID: meta.KeyID}
+	for _, in := range rec.Instruments {
+		if in.Role == "dut" && in.Identity.Maker != "0" {
+			opt.Maker = in.Identity.Maker
+		}
+	}
+	if len(meta.Signature) > 0 {
+		opt.VerificationCode = signing.VerificationCode(meta.Signature)
+	}
+	return opt
+}
+
+// publish writes the certificate, records it as a document and writes its seal.
+func (is *issuer) publish(ctx context.Context, rec *sequencer.Record, meta ledger.RunMeta) error {
+	opt := certOptions(rec, meta)
+	path := filepath.Join(is.certDir, certificate.FileName(rec, opt))
+	if err := certificate.WriteFile(path, rec, opt); err != nil {
+		return fmt.Errorf("%s: write certificate: %w", rec.Serial, err)
+	}
+	pdf, err := os.ReadFile(path)
+	if err != nil {
+		return err
+	}
+	sum := sha256.Sum256(pdf)
+	doc := ledger.Document{RunID: rec.RunID, Number: meta.Certificate, Path: path, SHA256: hex.EncodeToString(sum[:]), Size: int64(len(pdf))}
+	if is.key != nil {
+		doc.KeyID, doc.Signature = is.key.ID(), is.key.Sign(signing.PDFMessage(meta.Certificate, pdf))
+	}
+	if err := is.led.AddSignedDocument(ctx, doc); err != nil {
+		return fmt.Errorf("%s: record certificate: %w", rec.Serial, err)
+	}
+	if is.key == nil {
+		return nil
+	}
+	seal := signing.Seal{Format: signing.SealFormat, Number: meta.Certificate, RunID: rec.RunID, Serial: rec.Serial,
+		RecordSHA256: meta.RecordSHA256, PDFSHA256: doc.SHA256, KeyID: meta.KeyID, RecordSignature: meta.Signature,
+		PDFSignature: doc.Signature, VerificationCode: opt.VerificationCode, Signed: rec.Finished}
+	return signing.WriteSeal(path+".seal", seal)
+}
+
+// repair publishes every certified run whose document is missing (a crash between
+// the ledger commit and the document) and reports how many it published.
+func (is *issuer) repair(ctx context.Context) (int, error) {
+	missing, err := is.led.MissingDocuments(ctx)
+	if err != nil {
+		return 0, err
+	}
+	for _, m := range missing {
+		rec, meta, err := is.led.RunByCertificate(ctx, m.Certificate)
+		if err != nil {
+			return 0, fmt.Errorf("repair %s: %w", m.Certificate, err)
+		}
+		if meta.KeyID != "" && (is.key == nil || is.key.ID() != meta.KeyID) {
+			return 0, fmt.Errorf("repair %s: it was sealed with key %s, which this station does not hold", m.Certificate, meta.KeyID)
+		}
+		if err := is.publish(ctx, rec, meta); err != nil {
+			return 0, fmt.Errorf("repair %s: %w", m.Certificate, err)
+		}
+	}
+	return len(missing), nil
+}
