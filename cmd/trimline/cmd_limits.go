@@ -64,10 +64,11 @@ func limitsLint(ctx context.Context, args []string) error {
 	fs := newFlags("limits lint")
 	station := fs.String("station", "", "station `file`: also check each tolerance against the TUR the station can reach")
 	sequence := fs.String("sequence", "", "sequence `file` for the TUR check (with --station)")
-	if err := fs.Parse(args); err != nil {
+	paths, err := parseInterleaved(fs, args)
+	if err != nil {
 		return usageErr("%v", err)
 	}
-	if fs.NArg() == 0 {
+	if len(paths) == 0 {
 		return usageErr("name at least one limit file")
 	}
 	opt := limits.LintOptions{Ranges: physicalRanges}
@@ -79,7 +80,7 @@ func limitsLint(ctx context.Context, args []string) error {
 		opt.TUR = sequencer.PredictUncertainty(st, seq)
 	}
 	errorsFound := 0
-	for _, path := range fs.Args() {
+	for _, path := range paths {
 		data, err := os.ReadFile(path)
 		if err != nil {
 			return badInput(err)

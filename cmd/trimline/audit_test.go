@@ -1,0 +1,210 @@
+package main
+
+import (
+	"bytes"
+	"context"
+	"fmt"
+	"math/rand/v2"
+	"os"
+	"os/exec"
+	"path/filepath"
+	"strings"
+	"testing"
+	"time"
+
+	"trimline/reports/ledger"
+)
+
+// The demo's certificates verify as genuine, an altered copy does not, every demo
+// unit replays to exactly its recorded verdicts, the ledger chain verifies, and a
+// voided certificate is reported as voided.
+func TestAuditDemo(t *testing.T) {
+	dir := t.TempDir()
+	if code, out, errOut := runCLI(t, "demo", "--out", dir, "--units", "25"); code != 0 {
+		t.Fatalf("demo: exit %d\n%s%s", code, out, errOut)
+	}
+	led := filepath.Join(dir, "ledger.db")
+	pdfs, _ := filepath.Glob(filepath.Join(dir, "certificates", "*.pdf"))
+	if len(pdfs) != 25 {
+		t.Fatalf("%d certificates", len(pdfs))
+	}
+	for _, p := range pdfs[:3] {
+		if code, out, _ := runCLI(t, "audit", "verify", p); code != 0 || !strings.HasPrefix(out, "GENUINE") {
+			t.Errorf("%s: exit %d\n%s", p, code, out)
+		}
+	}
+	// An altered copy, with and without its seal beside it, and with no ledger.
+	data, _ := os.ReadFile(pdfs[0])
+	bad := filepath.Join(t.TempDir(), "altered.pdf")
+	data[len(data)/2] ^= 0x20
+	os.WriteFile(bad, data, 0o644)
+	if code, out, _ := runCLI(t, "audit", "verify", "--ledger", led, bad); code != exitFail || !strings.HasPrefix(out, "ALTERED") {
+		t.Errorf("altered: exit %d\n%s", code, out)
+	}
+	seal, _ := os.ReadFile(pdfs[0] + ".seal")
+	os.WriteFile(bad+".seal", seal, 0o644)
+	if code, out, _ := runCLI(t, "audit", "verify", "--ledger", filepath.Join(t.TempDir(), "none.db"), "--keys", filepath.Join(dir, "keys"), bad); code != exitFail || !strings.HasPrefix(out, "ALTERED") {
+		t.Errorf("altered, seal only: exit %d\n%s", code, out)
+	}
+	if code, out, _ := runCLI(t, "audit", "ledger", "--ledger", led); code != 0 || !strings.Contains(out, "chain intact") || !strings.Contains(out, "25 signed, 25 verified") {
+		t.Errorf("audit ledger: exit %d\n%s", code, out)
+	}
+	// Replay of every demo unit reproduces its recorded verdicts exactly.
+	for i := 1; i <= 25; i++ {
+		sn := fmt.Sprintf("BRX-%05d", i)
+		if code, out, errOut := runCLI(t, "audit", "replay", "--ledger", led, sn); code != 0 || !strings.Contains(out, "reproduced exactly") {
+			t.Errorf("replay %s: exit %d\n%s%s", sn, code, out, errOut)
+		}
+	}
+	num := strings.SplitN(filepath.Base(pdfs[0]), "_", 2)[0]
+	if code, _, errOut := runCLI(t, "audit", "void", num, "--ledger", led, "--by", "Q. Engineer", "--reason", "wrong fixture"); code != 0 {
+		t.Fatalf("void: %d %s", code, errOut)
+	}
+	if code, out, _ := runCLI(t, "audit", "verify", pdfs[0]); code != exitFail || !strings.HasPrefix(out, "VOIDED") || !strings.Contains(out, "wrong fixture") {
+		t.Errorf("voided: exit %d\n%s", code, out)
+	}
+}
+
+// Kill -9 of a running station at random moments, over 50 runs: the ledger opens
+// clean, the chain verifies, certificate numbers stay gap-free, and no published
+// PDF lacks its record; the next start republishes any certificate whose document
+// was lost, byte-identical.
+func TestKillNineCrashSafety(t *testing.T) {
+	if testing.Short() {
+		t.Skip("50 subprocess kills")
+	}
+	dir := t.TempDir()
+	station, sequence, err := writeDemoFiles(dir, 1, time.Now())
+	if err != nil {
+		t.Fatal(err)
+	}
+	serials := make([]string, 40)
+	for i := range serials {
+		serials[i] = fmt.Sprintf("--serial K-%05d", i)
+	}
+	rng := rand.New(rand.NewPCG(7, 11))
+	ledgerPath := filepath.Join(dir, "ledger.db")
+	for kill := 0; kill < 50; kill++ {
+		cmd := exec.Command(os.Args[0], "-test.run=^$")
+		cmd.Env = append(os.Environ(), "TRIMLINE_AS_MAIN=1",
+			"TRIMLINE_ARGS=run --station "+station+" --sequence "+sequence+" --out "+dir+" "+strings.Join(serials, " "))
+		var out bytes.Buffer
+		cmd.Stdout, cmd.Stderr = &out, &out
+		if err := cmd.Start(); err != nil {
+			t.Fatal(err)
+		}
+		time.Sleep(time.Duration(20+rng.IntN(400)) * time.Millisecond)
+		cmd.Process.Kill()
+		cmd.Wait()
+
+		led, err := ledger.Open(context.Background(), ledgerPath)
+		if err != nil {
+			t.Fatalf("kill %d: ledger does not open: %v\n%s", kill, err, out.String())
+		}
+		rep, err := led.VerifyChain(context.Background(), "")
+		if err != nil || !rep.OK {
+			t.Fatalf("kill %d: chain %+v %v", kill, rep, err)
+		}
+		pdfs, _ := filepath.Glob(filepath.Join(dir, "certificates", "*.pdf"))
+		for _, p := range pdfs {
+			num := strings.SplitN(filepath.Base(p), "_", 2)[0]
+			if _, _, err := led.RunByCertificate(context.Background(), num); err != nil {
+				t.Fatalf("kill %d: published %s has no record: %v", kill, p, err)
+			}
+		}
+		led.Close()
+	}
+	// A clean start repairs what the kills left half done.
+	code, out, errOut := runCLI(t, "run", "--station", station, "--sequence", sequence, "--out", dir, "--serial", "K-99999")
+	if code != 0 && code != exitFail {
+		t.Fatalf("restart: exit %d\n%s%s", code, out, errOut)
+	}
+	led, err := ledger.Open(context.Background(), ledgerPath)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer led.Close()
+	if missing, err := led.MissingDocuments(context.Background()); err != nil || len(missing) != 0 {
+		t.Fatalf("after restart %d certified runs still lack a document (%v)", len(missing), err)
+	}
+	rep, err := led.VerifyChain(context.Background(), "")
+	if err != nil || !rep.OK {
+		t.Fatalf("chain after restart: %+v %v", rep, err)
+	}
+	t.Logf("%d runs, %d certificates, %d documents after 50 kills", rep.Runs, rep.Certificates, rep.Documents)
+	pdfs := mustGlob(t, filepath.Join(dir, "certificates", "*.pdf"))
+	for i := 0; i < 10 && len(pdfs) > 0; i++ {
+		p := pdfs[rng.IntN(len(pdfs))]
+		if code, out, _ := runCLI(t, "audit", "verify", "--ledger", ledgerPath, p); code != 0 {
+			t.Errorf("%s after crashes: %s", p, out)
+		}
+	}
+}
+
+func mustGlob(t *testing.T, pattern string) []string {
+	t.Helper()
+	m, err := filepath.Glob(pattern)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return m
+}
+
+// A crash between the ledger commit and the document leaves a certified run with
+// no document; the next start republishes it byte-identical to what the station
+// would have published.
+func TestRepairRepublishesByteIdentical(t *testing.T) {
+	dir := t.TempDir()
+	station, sequence, err := writeDemoFiles(dir, 1, time.Now())
+	if err != nil {
+		t.Fatal(err)
+	}
+	st, seq, err := loadFiles(station, sequence)
+	if err != nil {
+		t.Fatal(err)
+	}
+	eng, err := sequencerOpen(st, seq)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer eng.Close()
+	rec := eng.Run(context.Background(), "BRX-00001")
+	key, err := signingLoad(st.SigningKey)
+	if err != nil {
+		t.Fatal(err)
+	}
+	issue := func(name string, crash bool) []byte {
+		d := filepath.Join(dir, name)
+		os.MkdirAll(filepath.Join(d, "certificates"), 0o755)
+		led, err := ledger.Open(context.Background(), filepath.Join(d, "ledger.db"))
+		if err != nil {
+			t.Fatal(err)
+		}
+		defer led.Close()
+		is := &issuer{led: led, key: key, st: st, seq: seq, certDir: filepath.Join(d, "certificates")}
+		if crash {
+			// The first half of record: the commit, then the process dies.
+			_, err = led.RecordRunWith(context.Background(), rec, ledger.RecordOptions{Prefix: st.CertificatePrefix,
+				Sign: func(number, runID, sha string) (string, []byte, error) {
+					return key.ID(), key.Sign(ledger.SignedMessage(number, runID, sha)), nil
+				}})
+			if err != nil {
+				t.Fatal(err)
+			}
+			if n, err := is.repair(context.Background()); err != nil || n != 1 {
+				t.Fatalf("repair: %d %v", n, err)
+			}
+		} else if _, err := is.record(context.Background(), rec); err != nil {
+			t.Fatal(err)
+		}
+		pdfs := mustGlob(t, filepath.Join(d, "certificates", "*.pdf"))
+		if len(pdfs) != 1 {
+			t.Fatalf("%d PDFs", len(pdfs))
+		}
+		b, _ := os.ReadFile(pdfs[0])
+		return b
+	}
+	if !bytes.Equal(issue("normal", false), issue("crashed", true)) {
+		t.Fatal("the republished certificate differs from the one the station would have issued")
+	}
+}
