@@ -38,6 +38,8 @@ type Config struct {
 	// Conditions are recorded in every run (e.g. an ambient temperature the
 	// operator entered).
 	Conditions Conditions
+	// Engineering runs use files that were never released; every record says so.
+	Engineering bool
 	// NewID returns a run id; nil uses a time-stamped random id.
 	NewID func(now time.Time) string
 }
@@ -249,7 +251,7 @@ func (e *Engine) Run(ctx context.Context, serial string) (rec *Record) {
 		Files:       []FileRef{st.File, seq.File, limitsRef(seq.Limits)},
 		Instruments: append([]InstrumentRef(nil), e.refs...),
 		IdealGain:   seq.IdealGain, IdealOffset: seq.IdealOffset, FullScale: seq.FullScale,
-		Conditions: e.cfg.Conditions, Coverage: e.coverage(),
+		Conditions: e.cfg.Conditions, Coverage: e.coverage(), Engineering: e.cfg.Engineering,
 	}
 	if e.cfg.NewID != nil {
 		rec.RunID = e.cfg.NewID(now)

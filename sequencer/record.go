@@ -77,9 +77,12 @@ type Record struct {
 	Results  []Result         `json:"results"`
 	Outcomes []limits.Outcome `json:"limits"`
 
-	Verdict Verdict  `json:"verdict"`           // PASS, FAIL, REVIEW, FAULT or ABORTED
-	Reasons []string `json:"reasons,omitempty"` // why the verdict is not PASS, in order
-	Fault   string   `json:"fault,omitempty"`   // the station fault message, for FAULT and ABORTED
+	Verdict Verdict `json:"verdict"` // PASS, FAIL, REVIEW, FAULT or ABORTED
+	// Engineering marks a run made with files that were never released: its
+	// certificate says so in large letters and comes from a number series of its own.
+	Engineering bool     `json:"engineering,omitempty"`
+	Reasons     []string `json:"reasons,omitempty"` // why the verdict is not PASS, in order
+	Fault       string   `json:"fault,omitempty"`   // the station fault message, for FAULT and ABORTED
 }
 
 // FileRef names one input file and the SHA-256 of its exact bytes.
@@ -172,7 +175,7 @@ func FaultRecord(cfg Config, serial string, now time.Time, err error) *Record {
 		Station: st.ID, Operator: cfg.Operator, Software: cfg.Software, Started: now.UTC(), Finished: now.UTC(),
 		Files:     []FileRef{st.File, seq.File, limitsRef(seq.Limits)},
 		IdealGain: seq.IdealGain, IdealOffset: seq.IdealOffset, FullScale: seq.FullScale,
-		Conditions: cfg.Conditions, Verdict: Fault, Fault: "station could not start the unit: " + err.Error()}
+		Conditions: cfg.Conditions, Engineering: cfg.Engineering, Verdict: Fault, Fault: "station could not start the unit: " + err.Error()}
 	for _, r := range seq.Requires {
 		si := st.Instruments[r]
 		ref := InstrumentRef{Role: r, Address: si.Address, Asset: si.Asset, Accuracy: si.Accuracy.String(),

@@ -32,6 +32,9 @@ type Station struct {
 	// Interlock, when set, must answer "closed" before any output is switched on
 	// and between sweep points.
 	Interlock *Interlock
+	// RequireRelease makes production runs refuse sequence and limit files whose
+	// hash was never released in the ledger's audit trail.
+	RequireRelease bool
 	// SigningKey is the station's Ed25519 private key file (resolved relative to
 	// the station file); "" issues unsigned certificates.
 	SigningKey string
@@ -120,7 +123,8 @@ type stationFile struct {
 	Signing      struct {
 		Key string `yaml:"key"`
 	} `yaml:"signing"`
-	Safety struct {
+	RequireRelease bool `yaml:"require_release"`
+	Safety         struct {
 		MaxSourceVoltage *units.Voltage `yaml:"max_source_voltage"`
 		MaxSourceCurrent *units.Current `yaml:"max_source_current"`
 	} `yaml:"safety"`
@@ -258,6 +262,7 @@ func ParseStation(name string, data []byte) (*Station, error) {
 			errs = append(errs, doc.Errorf("$.interlock.closed", "missing required key \"closed\" (the reply that means the lid is closed)"))
 		}
 	}
+	st.RequireRelease = f.RequireRelease
 	if k := f.Signing.Key; k != "" {
 		st.SigningKey = k
 		if !filepath.IsAbs(k) {

@@ -74,10 +74,7 @@ func TestKillNineCrashSafety(t *testing.T) {
 		t.Skip("50 subprocess kills")
 	}
 	dir := t.TempDir()
-	station, sequence, err := writeDemoFiles(dir, 1, time.Now())
-	if err != nil {
-		t.Fatal(err)
-	}
+	station, sequence := writeReleasedDemo(t, dir, 1)
 	serials := make([]string, 40)
 	for i := range serials {
 		serials[i] = fmt.Sprintf("--serial K-%05d", i)

@@ -2,6 +2,8 @@ package main
 
 import (
 	"context"
+	"crypto/sha256"
+	"encoding/hex"
 	"fmt"
 	"io/fs"
 	"os"
@@ -10,6 +12,7 @@ import (
 	"strconv"
 	"time"
 
+	"trimline/reports/ledger"
 	"trimline/reports/signing"
 	"trimline/sequencer"
 	"trimline/sequences"
@@ -54,6 +57,11 @@ unit takes a few seconds, as it would on a real bench.`,
 		station, sequence, err := writeDemoFiles(*out, *seed, time.Now())
 		if err != nil {
 			return stationErr(err)
+		}
+		// The demo plays its own quality engineer: it releases the demo sequence and
+		// limit files in its ledger, as production requires.
+		if err := releaseDemo(ctx, *out); err != nil {
+			return err
 		}
 		switch *transport {
 		case "sim":
@@ -134,4 +142,35 @@ func writeDemoFiles(dir string, seed uint64, now time.Time) (station, sequence s
 		}
 	}
 	return filepath.Join(dir, "brx200-station.yaml"), filepath.Join(dir, "brx200-sequence.yaml"), nil
+}
+
+// releaseDemo releases the demo's sequence and limit files in DIR's ledger unless
+// they already are.
+func releaseDemo(ctx context.Context, dir string) error {
+	led, err := ledger.Open(ctx, filepath.Join(dir, "ledger.db"))
+	if err != nil {
+		return stationErr(err)
+	}
+	rel, err := released(ctx, led)
+	led.Close()
+	if err != nil {
+		return stationErr(err)
+	}
+	for _, f := range []string{"brx200-sequence.yaml", "brx200-limits.yaml"} {
+		data, err := os.ReadFile(filepath.Join(dir, f))
+		if err != nil {
+			return stationErr(err)
+		}
+		sum := sha256.Sum256(data)
+		if _, ok := rel[hex.EncodeToString(sum[:])]; ok {
+			continue
+		}
+		kind := detectKind(data)
+		r, err := recordRelease(ctx, filepath.Join(dir, "ledger.db"), filepath.Join(dir, "keys", "TL1.key"), f, kind, data, "Demo Quality Engineer", "approved")
+		if err != nil {
+			return err
+		}
+		fmt.Fprintf(stdoutW, "released %s for production: %s — %s, signed %s\n", f, r.By, r.Meaning, r.KeyID)
+	}
+	return nil
 }

@@ -29,6 +29,7 @@ Exit code: 0 every unit passed, 1 a unit failed, 2 bad input, 3 station fault.`,
 	operator := c.Flags.String("operator", defaultOperator(), "operator `name` printed on certificates")
 	ambient := c.Flags.String("ambient", "", "ambient `temperature` to record on every run, e.g. \"23.1 °C\" or 23.1degC")
 	asJSON := c.Flags.Bool("json", false, "print one JSON object per unit instead of a live line")
+	engineering := c.Flags.Bool("engineering", false, "run files that were never released; certificates are marked ENGINEERING RUN — NOT FOR SHIPMENT and numbered apart")
 	c.Run = func(ctx context.Context, c *command, args []string) error {
 		if *station == "" || *sequence == "" || len(serials) == 0 {
 			return usageErr("need --station, --sequence and at least one --serial")
@@ -37,7 +38,7 @@ Exit code: 0 every unit passed, 1 a unit failed, 2 bad input, 3 station fault.`,
 			return usageErr("unexpected argument %q", args[0])
 		}
 		t, err := runBatch(ctx, batch{stationPath: *station, sequencePath: *sequence, serials: serials, out: *out,
-			operator: *operator, ambient: *ambient, json: *asJSON, stdout: stdoutW, stderr: stderrW})
+			operator: *operator, ambient: *ambient, engineering: *engineering, json: *asJSON, stdout: stdoutW, stderr: stderrW})
 		if err != nil {
 			return err
 		}

@@ -1,7 +1,9 @@
 package main
 
 import (
+	"bytes"
 	"context"
+	"testing"
 	"errors"
 	"time"
 
@@ -19,3 +21,19 @@ func sequencerOpen(st *sequencer.Station, seq *sequencer.Sequence) (*sequencer.E
 }
 
 func signingLoad(path string) (*signing.Key, error) { return signing.Load(path) }
+
+// writeReleasedDemo writes the demo files into dir and releases the sequence and
+// limit files in dir's ledger, as the demo command does.
+func writeReleasedDemo(t testing.TB, dir string, seed uint64) (station, sequence string) {
+	t.Helper()
+	station, sequence, err := writeDemoFiles(dir, seed, time.Now())
+	if err != nil {
+		t.Fatal(err)
+	}
+	var out bytes.Buffer
+	stdoutW = &out
+	if err := releaseDemo(context.Background(), dir); err != nil {
+		t.Fatal(err)
+	}
+	return station, sequence
+}

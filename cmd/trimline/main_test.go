@@ -77,10 +77,7 @@ func TestDemoEndToEnd(t *testing.T) {
 
 func TestRunExitCodes(t *testing.T) {
 	dir := t.TempDir()
-	station, sequence, err := writeDemoFiles(dir, 1, testNow())
-	if err != nil {
-		t.Fatal(err)
-	}
+	station, sequence := writeReleasedDemo(t, dir, 1)
 	code, out, errOut := runCLI(t, "run", "--station", station, "--sequence", sequence, "--serial", "BRX-00001", "--out", dir, "--json")
 	if code != 0 {
 		t.Fatalf("exit %d\n%s\n%s", code, out, errOut)
@@ -210,5 +207,41 @@ func TestFitPredictionGUMH3(t *testing.T) {
 	json.Unmarshal([]byte(out), &w)
 	if len(w.StdUnc) != 2 || math.Abs(w.StdUnc[0]-0.00287760) > 1e-7 || math.Abs(w.StdUnc[1]-0.000667939) > 1e-8 {
 		t.Errorf("weighted std uncertainties %v", w.StdUnc)
+	}
+}
+
+// Production refuses files nobody released; --engineering runs them with marked
+// certificates from their own number series; a release (21 CFR 11.50: name,
+// meaning, time, signature) lets production run.
+func TestReleaseAndEngineeringRuns(t *testing.T) {
+	dir := t.TempDir()
+	station, sequence, err := writeDemoFiles(dir, 1, testNow())
+	if err != nil {
+		t.Fatal(err)
+	}
+	code, _, errOut := runCLI(t, "run", "--station", station, "--sequence", sequence, "--serial", "R-1", "--out", dir)
+	if code != exitUsage || !strings.Contains(errOut, "never released") {
+		t.Fatalf("unreleased: exit %d %s", code, errOut)
+	}
+	code, out, errOut := runCLI(t, "run", "--engineering", "--station", station, "--sequence", sequence, "--serial", "R-2", "--out", dir)
+	if code != 0 || !strings.Contains(out, "TL1-ENG-000001") {
+		t.Fatalf("engineering: exit %d\n%s%s", code, out, errOut)
+	}
+	if _, err := exec.LookPath("pdftotext"); err == nil {
+		txt, _ := exec.Command("pdftotext", filepath.Join(dir, "certificates", "TL1-ENG-000001_R-2.pdf"), "-").Output()
+		if !bytes.Contains(txt, []byte("ENGINEERING RUN — NOT FOR SHIPMENT")) {
+			t.Error("engineering certificate is not marked")
+		}
+	}
+	for _, f := range []string{sequence, filepath.Join(dir, "brx200-limits.yaml")} {
+		code, out, errOut := runCLI(t, "limits", "release", f, "--by", "A. Quality", "--meaning", "approved", "--station", station)
+		if code != 0 || !strings.Contains(out, "A. Quality — approved") || !strings.Contains(out, "signed with ed25519:") {
+			t.Fatalf("release %s: exit %d\n%s%s", f, code, out, errOut)
+		}
+	}
+	// The station file's output folder is dir/out; production uses that ledger.
+	code, out, errOut = runCLI(t, "run", "--station", station, "--sequence", sequence, "--serial", "R-3")
+	if code != 0 || !strings.Contains(out, "TL1-000001") {
+		t.Fatalf("released: exit %d\n%s%s", code, out, errOut)
 	}
 }

@@ -33,10 +33,7 @@ func TestSignalDuringSweep(t *testing.T) {
 	for _, sig := range []syscall.Signal{syscall.SIGINT, syscall.SIGTERM} {
 		t.Run(sig.String(), func(t *testing.T) {
 			dir := t.TempDir()
-			station, sequence, err := writeDemoFiles(dir, 1, time.Now())
-			if err != nil {
-				t.Fatal(err)
-			}
+			station, sequence := writeReleasedDemo(t, dir, 1)
 			// Real time: every reading really takes its 20 ms aperture, so a unit
 			// takes seconds and the signal lands mid-sweep.
 			data, _ := os.ReadFile(station)
@@ -53,7 +50,7 @@ func TestSignalDuringSweep(t *testing.T) {
 			time.Sleep(700 * time.Millisecond)
 			sent := time.Now()
 			cmd.Process.Signal(sig)
-			err = cmd.Wait()
+			err := cmd.Wait()
 			took := time.Since(sent)
 			if took > 2*time.Second {
 				t.Errorf("exited %v after the signal, want < 2 s", took)

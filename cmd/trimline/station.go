@@ -28,6 +28,7 @@ type batch struct {
 	out                       string // output folder; "" = the station file's
 	operator                  string
 	ambient                   string // entered ambient temperature, e.g. "23.1 °C"; "" = not recorded
+	engineering               bool   // run unreleased files; certificates are marked and numbered apart
 	json                      bool   // one JSON object per unit on stdout instead of live lines
 	stdout, stderr            io.Writer
 }
@@ -108,6 +109,15 @@ func runBatch(ctx context.Context, b batch) (*tally, error) {
 		return nil, stationErr(fmt.Errorf("open ledger: %w", err))
 	}
 	defer led.Close()
+	if st.RequireRelease && !b.engineering {
+		if err := checkReleased(ctx, led, seq); err != nil {
+			return nil, err
+		}
+	}
+	if b.engineering {
+		// Engineering certificates come from a number series of their own.
+		st.CertificatePrefix += "-ENG"
+	}
 	is := &issuer{led: led, st: st, seq: seq, certDir: filepath.Join(out, "certificates")}
 	if st.SigningKey != "" {
 		if is.key, err = signing.Load(st.SigningKey); err != nil {
@@ -129,7 +139,7 @@ func runBatch(ctx context.Context, b batch) (*tally, error) {
 		cond = sequencer.Conditions{AmbientC: c, AmbientSource: "entered"}
 	}
 	cfg := sequencer.Config{Station: st, Sequence: seq, Operator: b.operator,
-		Software: "trimline " + version(), Log: log, Conditions: cond}
+		Software: "trimline " + version(), Log: log, Conditions: cond, Engineering: b.engineering}
 	eng, err := sequencer.Open(ctx, cfg)
 	if err != nil {
 		if errors.Is(err, sequencer.ErrSafety) || errors.Is(err, sequencer.ErrTUR) {

@@ -73,7 +73,18 @@ func (d *doc) header() {
 
 	d.rule(d.y, colInk, 0.6)
 	d.y += 4
+	if d.rec.Engineering {
+		// An engineering run used files nobody released: it must never pass for a
+		// shipping certificate.
+		d.pdf.SetFillColor(colFail.r, colFail.g, colFail.b)
+		d.pdf.Rect(marginL, d.y, contentW, 11, "F")
+		d.text(marginL, d.y, contentW, 11, engineeringBanner, style{sans, "B", 18, rgb{255, 255, 255}}, "C")
+		d.y += 14
+	}
 }
+
+// engineeringBanner marks every page of a certificate from an engineering run.
+const engineeringBanner = "ENGINEERING RUN — NOT FOR SHIPMENT"
 
 // identification is the unit/run block with the verdict box beside it.
 func (d *doc) identification() {

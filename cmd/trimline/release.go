@@ -1,0 +1,169 @@
+package main
+
+import (
+	"context"
+	"crypto/sha256"
+	"encoding/base64"
+	"encoding/hex"
+	"encoding/json"
+	"fmt"
+	"os"
+	"path/filepath"
+	"strings"
+	"time"
+
+	"trimline/limits"
+	"trimline/reports/ledger"
+	"trimline/reports/signing"
+	"trimline/sequencer"
+)
+
+// actionRelease is the audit-trail action that releases a file by its hash.
+const actionRelease = "release"
+
+// release is the detail of a release entry: a 21 CFR 11.50 manifestation (printed
+// name, date and time, meaning) signed with the releasing key.
+type release struct {
+	File      string    `json:"file"`
+	Kind      string    `json:"kind"`
+	SHA256    string    `json:"sha256"`
+	By        string    `json:"by"`
+	Meaning   string    `json:"meaning"`
+	At        time.Time `json:"at"`
+	KeyID     string    `json:"key_id,omitempty"`
+	Signature string    `json:"signature,omitempty"` // base64 Ed25519 over releaseMessage
+}
+
+func releaseMessage(r release) []byte {
+	return []byte("trimline-release-v1\n" + r.SHA256 + "\n" + r.By + "\n" + r.Meaning + "\n" + r.At.UTC().Format(time.RFC3339Nano))
+}
+
+func init() { limitsSubs["release"] = limitsRelease }
+
+func limitsRelease(ctx context.Context, args []string) error {
+	fs := newFlags("limits release")
+	by := fs.String("by", "", "printed `name` of the person releasing")
+	meaning := fs.String("meaning", "", "`meaning` of the signature, e.g. approved, released, reviewed")
+	ledgerPath := fs.String("ledger", "", "ledger `file` (default: the station's output folder's ledger.db)")
+	stationPath := fs.String("station", "", "station `file`: its ledger and signing key are used")
+	keyPath := fs.String("key", "", "private key `file` to sign the release (default: the station's)")
+	pos, err := parseInterleaved(fs, args)
+	if err != nil {
+		return usageErr("%v", err)
+	}
+	if len(pos) != 1 || *by == "" || *meaning == "" {
+		return usageErr("usage: trimline limits release FILE --by NAME --meaning MEANING [--station FILE | --ledger DB] [--key FILE]")
+	}
+	data, err := os.ReadFile(pos[0])
+	if err != nil {
+		return badInput(err)
+	}
+	kind := detectKind(data)
+	switch kind {
+	case "limits":
+		if _, err := loadLimitSet(pos[0]); err != nil {
+			return err
+		}
+	case "sequence":
+		if _, err := sequencer.LoadSequence(pos[0]); err != nil {
+			return badInput(err)
+		}
+	default:
+		return badInput(fmt.Errorf("%s: only limit and sequence files are released", pos[0]))
+	}
+	lp, kp := *ledgerPath, *keyPath
+	if *stationPath != "" {
+		st, err := sequencer.LoadStation(*stationPath)
+		if err != nil {
+			return badInput(err)
+		}
+		if lp == "" && st.OutputFolder != "" {
+			lp = filepath.Join(st.OutputFolder, "ledger.db")
+		}
+		if kp == "" {
+			kp = st.SigningKey
+		}
+	}
+	if lp == "" {
+		return usageErr("give --ledger or --station")
+	}
+	r, err := recordRelease(ctx, lp, kp, pos[0], kind, data, *by, *meaning)
+	if err != nil {
+		return err
+	}
+	fmt.Fprintf(stdoutW, "%s (%s file, SHA-256 %s)\n%s — %s — %s\n", pos[0], kind, r.SHA256, r.By, r.Meaning, r.At.Format("2006-01-02 15:04:05 UTC"))
+	if r.KeyID != "" {
+		fmt.Fprintf(stdoutW, "signed with %s\n", r.KeyID)
+	}
+	return nil
+}
+
+// recordRelease writes a signed release entry for data into the ledger at lp.
+func recordRelease(ctx context.Context, lp, keyPath, path, kind string, data []byte, by, meaning string) (release, error) {
+	if err := os.MkdirAll(filepath.Dir(lp), 0o755); err != nil {
+		return release{}, stationErr(err)
+	}
+	led, err := ledger.Open(ctx, lp)
+	if err != nil {
+		return release{}, stationErr(err)
+	}
+	defer led.Close()
+	sum := sha256.Sum256(data)
+	r := release{File: filepath.Base(path), Kind: kind, SHA256: hex.EncodeToString(sum[:]), By: by, Meaning: meaning, At: time.Now().UTC()}
+	if keyPath != "" {
+		k, err := signing.Load(keyPath)
+		if err != nil {
+			return release{}, badInput(err)
+		}
+		r.KeyID, r.Signature = k.ID(), base64.StdEncoding.EncodeToString(k.Sign(releaseMessage(r)))
+	}
+	detail, _ := json.Marshal(r)
+	if err := led.Audit(ctx, r.By, actionRelease, r.SHA256, string(detail)); err != nil {
+		return release{}, stationErr(err)
+	}
+	return r, nil
+}
+
+// released returns the hashes released in the ledger's audit trail.
+func released(ctx context.Context, led *ledger.Ledger) (map[string]release, error) {
+	trail, err := led.AuditTrail(ctx)
+	if err != nil {
+		return nil, err
+	}
+	out := map[string]release{}
+	for _, e := range trail {
+		if e.Action != actionRelease {
+			continue
+		}
+		var r release
+		if json.Unmarshal([]byte(e.Detail), &r) == nil && r.SHA256 == e.Subject {
+			out[r.SHA256] = r
+		}
+	}
+	return out, nil
+}
+
+// checkReleased refuses a production run on a sequence or limit file nobody released.
+func checkReleased(ctx context.Context, led *ledger.Ledger, seq *sequencer.Sequence) error {
+	rel, err := released(ctx, led)
+	if err != nil {
+		return stationErr(err)
+	}
+	var missing []string
+	for _, f := range []sequencer.FileRef{seq.File, limitsRefOf(seq.Limits)} {
+		if _, ok := rel[f.SHA256]; !ok {
+			missing = append(missing, fmt.Sprintf("%s file %s (SHA-256 %s…)", f.Kind, f.Name, f.SHA256[:12]))
+		}
+	}
+	if len(missing) > 0 {
+		return badInput(fmt.Errorf("production runs need released files; never released: %s. Release them with "+
+			"'trimline limits release FILE --by NAME --meaning approved', or run with --engineering (certificates then say ENGINEERING RUN — NOT FOR SHIPMENT)",
+			strings.Join(missing, "; ")))
+	}
+	return nil
+}
+
+func limitsRefOf(s *limits.Set) sequencer.FileRef {
+	sum := s.SHA256
+	return sequencer.FileRef{Kind: "limits", Name: filepath.Base(s.File), SHA256: sum}
+}
