@@ -3,8 +3,8 @@ package main
 import (
 	"bytes"
 	"context"
-	"testing"
 	"errors"
+	"testing"
 	"time"
 
 	"trimline/reports/signing"
