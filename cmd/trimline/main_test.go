@@ -245,3 +245,27 @@ func TestReleaseAndEngineeringRuns(t *testing.T) {
 		t.Fatalf("released: exit %d\n%s%s", code, out, errOut)
 	}
 }
+
+// limits whatif on the demo ledger: a tightened offset tolerance flips units, and
+// the report counts them against a direct re-judging of the stored results.
+func TestLimitsWhatIfOnDemoLedger(t *testing.T) {
+	dir := t.TempDir()
+	if code, out, errOut := runCLI(t, "demo", "--out", dir, "--units", "25"); code != 0 {
+		t.Fatalf("demo: %d\n%s%s", code, out, errOut)
+	}
+	lim, _ := os.ReadFile(filepath.Join(dir, "brx200-limits.yaml"))
+	tight := filepath.Join(dir, "tight.yaml")
+	os.WriteFile(tight, bytes.Replace(lim, []byte("tolerance: {lower: -800, upper: 800}"), []byte("tolerance: {lower: -20, upper: 20}"), 1), 0o644)
+	code, out, errOut := runCLI(t, "limits", "whatif", tight, "--ledger", filepath.Join(dir, "ledger.db"))
+	if code != 0 || !strings.Contains(out, "Units re-judged: 25") || !strings.Contains(out, "Yield before: 92 %") {
+		t.Fatalf("whatif: exit %d\n%s%s", code, out, errOut)
+	}
+	// With ±20 µV the guard band (U ≈ 150 µV) leaves no acceptance interval:
+	// every passing unit turns into a conditional pass, held for review.
+	if !strings.Contains(out, "pass → review") {
+		t.Errorf("no unit flipped to review under a tolerance inside the guard band:\n%s", out)
+	}
+	if code, out, _ := runCLI(t, "limits", "diff", filepath.Join(dir, "brx200-limits.yaml"), tight); code != 0 || !strings.Contains(out, "tightened") {
+		t.Errorf("diff: exit %d\n%s", code, out)
+	}
+}

@@ -167,3 +167,103 @@ func limitsRefOf(s *limits.Set) sequencer.FileRef {
 	sum := s.SHA256
 	return sequencer.FileRef{Kind: "limits", Name: filepath.Base(s.File), SHA256: sum}
 }
+
+func init() { limitsSubs["whatif"] = limitsWhatIf }
+
+// limitsWhatIf re-judges every stored result in a ledger against a new limit file.
+func limitsWhatIf(ctx context.Context, args []string) error {
+	fs := newFlags("limits whatif")
+	ledgerPath := fs.String("ledger", "", "ledger `file` to re-judge")
+	product := fs.String("product", "", "only units of this `product` (default: the new file's)")
+	since := fs.String("since", "", "only runs finished on or after this `date` (YYYY-MM-DD)")
+	until := fs.String("until", "", "only runs finished before the end of this `date` (YYYY-MM-DD)")
+	oldPath := fs.String("old", "", "the old limit `file` to compare with (default: the one in force on the newest run)")
+	pos, err := parseInterleaved(fs, args)
+	if err != nil {
+		return usageErr("%v", err)
+	}
+	if len(pos) != 1 || *ledgerPath == "" {
+		return usageErr("usage: trimline limits whatif NEW --ledger DB [--product P] [--since DATE] [--until DATE] [--old FILE]")
+	}
+	nw, err := loadLimitSet(pos[0])
+	if err != nil {
+		return err
+	}
+	var from, to time.Time
+	for _, d := range []struct {
+		s string
+		t *time.Time
+		add int
+	}{{*since, &from, 0}, {*until, &to, 1}} {
+		if d.s == "" {
+			continue
+		}
+		v, err := time.Parse("2006-01-02", d.s)
+		if err != nil {
+			return usageErr("expected a date as YYYY-MM-DD, found %q", d.s)
+		}
+		*d.t = v.AddDate(0, 0, d.add)
+	}
+	led, err := ledger.Open(ctx, *ledgerPath)
+	if err != nil {
+		return stationErr(err)
+	}
+	defer led.Close()
+	runs, err := led.Runs(ctx, "")
+	if err != nil {
+		return stationErr(err)
+	}
+	var units []limits.StoredUnit
+	var old *limits.Set
+	if *oldPath != "" {
+		if old, err = loadLimitSet(*oldPath); err != nil {
+			return err
+		}
+	}
+	for _, r := range runs {
+		if (!from.IsZero() && r.Finished.Before(from)) || (!to.IsZero() && !r.Finished.Before(to)) {
+			continue
+		}
+		if *product != "" && !strings.EqualFold(r.Product, *product) {
+			continue
+		}
+		var verdict string
+		switch r.Verdict {
+		case sequencer.Pass:
+			verdict = limits.VerdictPass
+		case sequencer.Review:
+			verdict = limits.VerdictReview
+		case sequencer.Fail:
+			verdict = limits.VerdictFail
+		default:
+			continue // faulted and aborted runs were never judged
+		}
+		rec, err := led.Run(ctx, r.RunID)
+		if err != nil {
+			return stationErr(err)
+		}
+		if old == nil {
+			// Runs are newest first: the first one's limit file is the one in force.
+			for _, f := range rec.Files {
+				if f.Kind != "limits" {
+					continue
+				}
+				if b, err := led.Blob(ctx, f.SHA256); err == nil {
+					old, _ = limits.Load(f.Name, b, sequencer.ResultCatalog)
+				}
+			}
+		}
+		u := limits.StoredUnit{Serial: rec.Serial, RunID: rec.RunID, Finished: rec.Finished, Product: rec.Product,
+			OldVerdict: verdict, Values: map[string]limits.Value{}}
+		for _, res := range rec.Results {
+			u.Values[res.Name] = limits.Value{V: res.Value, Valid: res.Valid, Why: res.Note,
+				Std: res.Unc.Std, U: res.Unc.Expanded, K: res.Unc.K, DOF: res.Unc.DOF}
+		}
+		units = append(units, u)
+	}
+	if len(units) == 0 {
+		return badInput(fmt.Errorf("no judged runs in %s match", *ledgerPath))
+	}
+	limits.WhatIf(old, nw, units).WriteText(stdoutW)
+	return nil
+}
