@@ -191,8 +191,8 @@ func limitsWhatIf(ctx context.Context, args []string) error {
 	}
 	var from, to time.Time
 	for _, d := range []struct {
-		s string
-		t *time.Time
+		s   string
+		t   *time.Time
 		add int
 	}{{*since, &from, 0}, {*until, &to, 1}} {
 		if d.s == "" {
