@@ -35,10 +35,9 @@ import (
 	"errors"
 	"fmt"
 	"io"
-	"os"
-	"path/filepath"
 	"strings"
 	"time"
+	"trimline/reports/internal/atomicfile"
 
 	"github.com/jung-kurt/gofpdf"
 	"golang.org/x/image/font/gofont/gobold"
@@ -93,7 +92,7 @@ func Write(w io.Writer, rec *sequencer.Record, opt Options) error {
 // to a temporary file in the same directory, which is synced and then renamed over
 // path. On error no temporary file is left behind and an existing file at path is
 // untouched.
-func WriteFile(path string, rec *sequencer.Record, opt Options) (err error) {
+func WriteFile(path string, rec *sequencer.Record, opt Options) error {
 	if rec == nil {
 		return errors.New("certificate: nil record")
 	}
@@ -102,41 +101,8 @@ func WriteFile(path string, rec *sequencer.Record, opt Options) (err error) {
 	if err := Write(&buf, rec, opt); err != nil {
 		return err
 	}
-	dir, base := filepath.Split(path)
-	if dir == "" {
-		dir = "."
-	}
-	tmp, err := os.CreateTemp(dir, "."+base+".tmp-*")
-	if err != nil {
+	if err := atomicfile.Write(path, buf.Bytes(), 0o644); err != nil {
 		return fmt.Errorf("certificate: %w", err)
-	}
-	tmpName := tmp.Name()
-	defer func() {
-		if err != nil {
-			tmp.Close()
-			os.Remove(tmpName)
-		}
-	}()
-	if _, err = tmp.Write(buf.Bytes()); err != nil {
-		return fmt.Errorf("certificate: write %s: %w", tmpName, err)
-	}
-	if err = tmp.Chmod(0o644); err != nil {
-		return fmt.Errorf("certificate: %w", err)
-	}
-	if err = tmp.Sync(); err != nil {
-		return fmt.Errorf("certificate: sync %s: %w", tmpName, err)
-	}
-	if err = tmp.Close(); err != nil {
-		return fmt.Errorf("certificate: close %s: %w", tmpName, err)
-	}
-	if err = os.Rename(tmpName, path); err != nil {
-		return fmt.Errorf("certificate: %w", err)
-	}
-	// Make the rename itself durable. Not every platform can sync a directory; the
-	// file is in place either way, so a failure here is not reported.
-	if d, derr := os.Open(dir); derr == nil {
-		d.Sync()
-		d.Close()
 	}
 	return nil
 }

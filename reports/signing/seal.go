@@ -11,9 +11,9 @@ import (
 	"fmt"
 	"io"
 	"os"
-	"path/filepath"
 	"strings"
 	"time"
+	"trimline/reports/internal/atomicfile"
 )
 
 // codeAlphabet is the alphabet of verification codes: Crockford's base32, the
@@ -158,7 +158,7 @@ func (s Seal) VerifyPDF(pub ed25519.PublicKey, pdf []byte) error {
 // WriteSeal writes s to path as indented JSON, atomically: to a temporary file in
 // the same directory, synced, then renamed over path (mode 0644). An empty Format
 // is written as SealFormat; another Format is an error.
-func WriteSeal(path string, s Seal) (err error) {
+func WriteSeal(path string, s Seal) error {
 	if s.Format == "" {
 		s.Format = SealFormat
 	}
@@ -170,37 +170,9 @@ func WriteSeal(path string, s Seal) (err error) {
 		return fmt.Errorf("signing: %w", err)
 	}
 	data = append(data, '\n')
-	dir, base := filepath.Split(path)
-	if dir == "" {
-		dir = "."
-	}
-	tmp, err := os.CreateTemp(dir, "."+base+".tmp-*")
-	if err != nil {
+	if err := atomicfile.Write(path, data, 0o644); err != nil {
 		return fmt.Errorf("signing: %w", err)
 	}
-	name := tmp.Name()
-	defer func() {
-		if err != nil {
-			tmp.Close()
-			os.Remove(name)
-		}
-	}()
-	if _, err = tmp.Write(data); err != nil {
-		return fmt.Errorf("signing: write %s: %w", name, err)
-	}
-	if err = tmp.Chmod(0o644); err != nil {
-		return fmt.Errorf("signing: %w", err)
-	}
-	if err = tmp.Sync(); err != nil {
-		return fmt.Errorf("signing: sync %s: %w", name, err)
-	}
-	if err = tmp.Close(); err != nil {
-		return fmt.Errorf("signing: close %s: %w", name, err)
-	}
-	if err = os.Rename(name, path); err != nil {
-		return fmt.Errorf("signing: %w", err)
-	}
-	syncDir(dir)
 	return nil
 }
 
