@@ -37,13 +37,13 @@ import (
 	"io"
 	"strings"
 	"time"
-	"trimline/reports/internal/atomicfile"
 
 	"github.com/jung-kurt/gofpdf"
 	"golang.org/x/image/font/gofont/gobold"
 	"golang.org/x/image/font/gofont/gomono"
 	"golang.org/x/image/font/gofont/goregular"
 
+	"trimline/reports/internal/atomicfile"
 	"trimline/sequencer"
 )
 

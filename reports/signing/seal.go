@@ -13,6 +13,7 @@ import (
 	"os"
 	"strings"
 	"time"
+
 	"trimline/reports/internal/atomicfile"
 )
 
