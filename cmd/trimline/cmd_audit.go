@@ -288,6 +288,8 @@ func (a *auditor) replay(ctx context.Context, what string) error {
 	var recs []*sequencer.Record
 	if rec, _, err := led.RunByCertificate(ctx, what); err == nil {
 		recs = append(recs, rec)
+	} else if rec, _, err := led.ImportedRunByCertificate(ctx, what); err == nil {
+		recs = append(recs, rec) // a run imported from another station's bundle
 	} else {
 		runs, err := led.Runs(ctx, what)
 		if err != nil {
