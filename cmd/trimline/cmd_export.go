@@ -152,4 +152,3 @@ and numbering, ready for 'trimline audit replay'.`,
 	}
 	return c
 }
-
