@@ -51,6 +51,10 @@ type Change struct {
 // or statements, and of the decision section (coverage, the default rule,
 // conditional_pass, conditional_fail, min_tur, tur_policy) are ChangeRule. A nil
 // set has no limits: every limit of the other is added or removed.
+//
+// Diff compares the sets as given: to compare variants, pass their effective sets
+// (Set.Variant), say a file's base set and one of its variants, or the same
+// variant of two releases.
 func Diff(old, new *Set) []Change {
 	var out []Change
 	if old != nil && new != nil {

@@ -30,6 +30,12 @@ func FuzzLoad(f *testing.F) {
 	f.Add(tol)
 	f.Add([]byte(decisionFile("rule: guarded", "statements: non-binary", "min_tur: 4:1", "coverage: 95 %")))
 	f.Add([]byte(header + "limits:\n" + tolEntry("tolerance: {lower: 50, upper: -50}", "rule: simple", "guard_factor: 2")))
+	variants, err := os.ReadFile(variantsPath)
+	if err != nil {
+		f.Fatal(err)
+	}
+	f.Add(variants)
+	f.Add([]byte(variantBase + v1 + "    overrides:\n      - name: codes\n        uses: [gain_code]\n    remove: [offset, codes]\n"))
 	f.Fuzz(func(t *testing.T, data []byte) {
 		set, err := limits.Load("fuzz.yaml", data, catalog)
 		if (set == nil) == (err == nil) {
@@ -54,6 +60,14 @@ func FuzzLoad(f *testing.F) {
 		}
 		set.PredictTUR(tolResults(0, 0, 0))
 		set.Toleranced()
+		// Every variant the file names is there, and judges too.
+		for _, vi := range set.Variants() {
+			v, err := set.Variant(vi.Name)
+			if err != nil || v.VariantName != vi.Name {
+				t.Fatalf("Variant(%q) = %v, %v", vi.Name, v, err)
+			}
+			v.Overall(v.Judge(goodResults()))
+		}
 	})
 }
 

@@ -92,6 +92,12 @@ const gridPoints = 201
 //   - a description that only repeats the name, and a ratio judged with the empty
 //     unit (as a plain fraction) rather than % or ppm: warnings.
 //
+// Every variant's effective set (Set.Variant) is then checked the same way for
+// what the variant changes: its overridden and added limits, the pairs of limits
+// that involve one of them, and its TUR (all its toleranced limits when it changes
+// coverage, min_tur or tur_policy). Those findings begin "variant NAME: " and point
+// at the variant's lines where it has them.
+//
 // Findings about one limit point at its entry ("- name: ..."), at its tolerance or
 // the offending bound, or at its expression. Lint is safe for concurrent use.
 func Lint(name string, data []byte, cat Catalog, opt LintOptions) []Finding {
@@ -114,6 +120,13 @@ func Lint(name string, data []byte, cat Catalog, opt LintOptions) []Finding {
 	lt.pairs()
 	lt.tur(len(errs) == 0)
 	out = append(out, lt.out...)
+	if set.variants != nil {
+		for _, v := range set.variants.list {
+			vt := &linter{name: name, doc: doc, set: v.set, cat: cat, opt: opt, base: set}
+			vt.variant(len(errs) == 0)
+			out = append(out, vt.out...)
+		}
+	}
 	sort.SliceStable(out, func(a, b int) bool {
 		fa, fb := out[a], out[b]
 		if (fa.Line == 0) != (fb.Line == 0) {
@@ -147,18 +160,55 @@ type linter struct {
 	cat  Catalog
 	opt  LintOptions
 	out  []Finding
+	base *Set // the base set, when set is a variant's effective set
 }
 
 func (lt *linter) add(p place, sev, code, format string, args ...any) {
-	lt.out = append(lt.out, Finding{File: lt.name, Line: p.line, Col: p.col, Severity: sev, Code: code, Msg: fmt.Sprintf(format, args...)})
+	msg := fmt.Sprintf(format, args...)
+	if lt.set.VariantName != "" {
+		msg = fmt.Sprintf("variant %q: %s", lt.set.VariantName, msg)
+	}
+	lt.out = append(lt.out, Finding{File: lt.name, Line: p.line, Col: p.col, Severity: sev, Code: code, Msg: msg})
 }
 
+// own reports whether l is the variant's own: overridden or added by it, rather
+// than a limit of the base list (which the base set's lint has checked).
+func (lt *linter) own(l *Limit) bool {
+	return lt.base == nil || l.src != nil && (l.src.over != "" || strings.HasPrefix(l.src.base, "$.variants"))
+}
+
+// variant lints a variant's effective set for what the variant changes: its own
+// limits (an override's description and unit checks only when it gives them, its
+// reach only when it changes the bounds), every pair of limits on one result of
+// which one is its own, and the TUR of its own toleranced limits, or of all of
+// them when it changes coverage, min_tur or tur_policy.
+func (lt *linter) variant(policyKnown bool) {
+	for _, l := range lt.set.Limits {
+		if !l.sound || !lt.own(l) {
+			continue
+		}
+		s := l.src
+		if s.over == "" || s.gives("description") || s.gives("unit") || s.gives("uses") {
+			lt.words(l)
+		}
+		if s.over == "" || s.gives("unit") || s.gives("uses") || s.gives("expr") || s.gives("tolerance") {
+			lt.reach(l)
+		}
+	}
+	lt.pairs()
+	lt.tur(policyKnown)
+}
+
+// at returns the position of key (or "key.sub") of the limit, or of its entry
+// (the variant's override entry, for an overridden limit) when key is "" or absent.
 func (lt *linter) at(l *Limit, key string) place {
-	path := fmt.Sprintf("$.limits[%d]", l.entry)
-	if key == "" || !lt.doc.Has(path+"."+key) {
+	if l.src == nil {
 		return place{l.Line, l.col}
 	}
-	line, col := lt.doc.Pos(path + "." + key)
+	if key == "" || !lt.doc.Has(l.src.path(key)) {
+		return l.src.entry()
+	}
+	line, col := lt.doc.Pos(l.src.path(key))
 	return place{line, col}
 }
 
@@ -175,11 +225,13 @@ func (lt *linter) rangeOf(result string) (span, bool) {
 
 // words checks the description and the unit.
 func (lt *linter) words(l *Limit) {
-	if nameKey(l.Description) == nameKey(l.Name) || len(strings.Fields(l.Description)) < 2 && len(l.Description) < 12 {
+	over := lt.base != nil && l.src != nil && l.src.over != ""
+	weak := nameKey(l.Description) == nameKey(l.Name) || len(strings.Fields(l.Description)) < 2 && len(l.Description) < 12
+	if weak && (!over || l.src.gives("description")) {
 		lt.add(lt.at(l, "description"), SeverityWarning, CodeDescription,
 			"limit %q: description %q does not say what the limit is for; write what is measured and why it matters", l.Name, l.Description)
 	}
-	if l.Unit == "" {
+	if l.Unit == "" && (!over || l.src.gives("unit") || l.src.gives("uses")) {
 		for _, n := range l.Uses {
 			if lt.cat[n] == units.Ratio {
 				lt.add(lt.at(l, "unit"), SeverityWarning, CodeBareRatio,
@@ -351,7 +403,9 @@ func (lt *linter) pairs() {
 		ls := byResult[r]
 		for j := 1; j < len(ls); j++ {
 			for i := range j {
-				lt.pair(r, ls[i], ls[j])
+				if lt.own(ls[i].l) || lt.own(ls[j].l) {
+					lt.pair(r, ls[i], ls[j])
+				}
 			}
 		}
 	}
@@ -361,7 +415,12 @@ func (lt *linter) pairs() {
 // point at b's entry.
 func (lt *linter) pair(r string, a, b bounded) {
 	at := lt.at(b.l, "")
-	q := func(x bounded) string { return fmt.Sprintf("%q (line %d, %s)", x.l.Name, x.l.Line, fmtSpan(x.l, x.s)) }
+	if !lt.own(b.l) { // in a variant, at the limit the variant changed
+		at = lt.at(a.l, "")
+	}
+	q := func(x bounded) string {
+		return fmt.Sprintf("%q (line %d, %s)", x.l.Name, lt.at(x.l, "").line, fmtSpan(x.l, x.s))
+	}
 	rules := ""
 	if a.l.Tolerance != nil && b.l.Tolerance != nil && ruleText(a.l.Tolerance) != ruleText(b.l.Tolerance) {
 		rules = fmt.Sprintf("; their decision rules differ (%s, %s): check which verdict is meant", ruleText(a.l.Tolerance), ruleText(b.l.Tolerance))
@@ -394,8 +453,13 @@ func (lt *linter) tur(policyKnown bool) {
 	}
 	sound := &Set{policy: lt.set.policy}
 	byName := map[string]*Limit{}
+	all := true
+	if lt.base != nil {
+		p, b := lt.set.Policy(), lt.base.Policy()
+		all = p.Coverage != b.Coverage || p.MinTUR != b.MinTUR || p.TURPolicy != b.TURPolicy
+	}
 	for _, l := range lt.set.Limits {
-		if l.sound && l.Tolerance != nil {
+		if l.sound && l.Tolerance != nil && (all || lt.own(l)) {
 			sound.Limits = append(sound.Limits, l)
 			byName[l.Name] = l
 		}

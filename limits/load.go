@@ -24,9 +24,10 @@ import (
 
 // The file as decoded. Pointers tell a missing key from an empty value.
 type fileForm struct {
-	LimitSet *headerForm   `yaml:"limit_set"`
-	Decision *decisionForm `yaml:"decision"`
-	Limits   []*limitForm  `yaml:"limits"`
+	LimitSet *headerForm    `yaml:"limit_set"`
+	Decision *decisionForm  `yaml:"decision"`
+	Limits   []*limitForm   `yaml:"limits"`
+	Variants []*variantForm `yaml:"variants"`
 }
 
 type headerForm struct {
@@ -83,6 +84,18 @@ func LoadFile(path string, cat Catalog) (*Set, error) {
 // (a number above 0, N for N:1, "4:1" is also read; default 4) and tur_policy
 // (warn or refuse; default warn). See Set.Policy.
 //
+// The optional variants list holds the limits of other product revisions or
+// grades as changes to the limits list (see Set.Variant). Each variant has a
+// name, unique in the file, and a description, and may have revisions (product
+// revisions, none listed by two variants), overrides (entries naming a limit of
+// the limits list with the keys that change: description, unit, uses, expr,
+// tolerance, rule, guard_factor, statements), add (full limit entries, their
+// names unique in the variant's set), remove (names of limits of the limits list,
+// neither overridden nor removed twice) and decision (keys of the decision
+// section that differ). Every variant's effective set is compiled with the same
+// checks as the limits list: a problem that a variant causes in an entry of the
+// limits list points there and names the variant.
+//
 // On any problem Load returns a nil Set and a files.List holding every problem it
 // found, sorted by line (a file without a top-level limit_set key gets the single
 // error "not a limit file"), each a *files.Error positioned file:line:col with an
@@ -127,7 +140,7 @@ func load(name string, data []byte, cat Catalog) (*Set, files.List, *files.Doc) 
 		}
 		return nil, files.List{doc.At(1, 1, "%s", msg)}, doc
 	}
-	hdr, dec, entries := l.decode()
+	hdr, dec, entries, vars := l.decode()
 	set := &Set{File: name, SHA256: hex.EncodeToString(sum[:])}
 	if hdr.ok {
 		l.header(hdr.form, set)
@@ -139,6 +152,7 @@ func load(name string, data []byte, cat Catalog) (*Set, files.List, *files.Doc) 
 	}
 	set.policy = l.policy
 	set.Limits = l.limits(entries)
+	l.variants(vars, set, entries)
 
 	if len(l.errs) > 0 {
 		return set, l.sorted(), doc
@@ -154,8 +168,9 @@ type loader struct {
 	cat      Catalog
 	funcOpts []expr.Option
 	errs     files.List
-	policy   Policy // the decision section, defaults filled in
-	policyOK bool   // the decision section decoded (or is absent), so per-limit checks against it are sound
+	byEntry  map[int]*Limit // the limits list's limits by entry index
+	policy   Policy         // the decision section, defaults filled in (a variant's, while its limits are compiled)
+	policyOK bool           // the decision section decoded (or is absent), so per-limit checks against it are sound
 }
 
 // topKeys returns the file's top-level keys, quoted, in file order.
@@ -195,7 +210,7 @@ type decodedEntries struct {
 // when there is one, each top-level section and each limit entry is decoded again
 // on its own (the rest of the file blanked out, line numbers kept) to find the
 // problems in the others and to check the entries that are sound.
-func (l *loader) decode() (decodedHeader, decodedDecision, decodedEntries) {
+func (l *loader) decode() (decodedHeader, decodedDecision, decodedEntries, decodedVariants) {
 	var whole fileForm
 	err := yamlSafely(l.doc.Name, func() error { return l.doc.Decode(&whole) })
 	if err == nil {
@@ -204,14 +219,16 @@ func (l *loader) decode() (decodedHeader, decodedDecision, decodedEntries) {
 			good[i] = true
 		}
 		return decodedHeader{whole.LimitSet, true}, decodedDecision{whole.Decision, true},
-			decodedEntries{ok: true, present: l.doc.Has("$.limits"), forms: whole.Limits, good: good}
+			decodedEntries{ok: true, present: l.doc.Has("$.limits"), forms: whole.Limits, good: good},
+			decodedVariants{ok: true, present: l.doc.Has("$.variants"), forms: whole.Variants}
 	}
 	l.addDecodeErr(err)
 	var hdr decodedHeader
 	var dec decodedDecision
 	var ents decodedEntries
+	var vars decodedVariants
 	if !l.maskable() {
-		return hdr, dec, ents
+		return hdr, dec, ents, vars
 	}
 	keys := l.root.Values
 	for i, mv := range keys {
@@ -255,6 +272,8 @@ func (l *loader) decode() (decodedHeader, decodedDecision, decodedEntries) {
 				good[j] = true
 			}
 			ents = decodedEntries{ok: true, present: true, forms: f.Limits, good: good}
+		case "variants":
+			vars = decodedVariants{ok: true, present: true, forms: f.Variants}
 		}
 	}
 	if !l.doc.Has("$.limits") {
@@ -263,7 +282,7 @@ func (l *loader) decode() (decodedHeader, decodedDecision, decodedEntries) {
 	if !l.doc.Has("$.decision") {
 		dec = decodedDecision{ok: true}
 	}
-	return hdr, dec, ents
+	return hdr, dec, ents, vars
 }
 
 // blockEntries reports whether seq is a non-empty block sequence whose entries'
@@ -406,18 +425,19 @@ func (l *loader) limits(ents decodedEntries) []*Limit {
 		return nil
 	}
 	var out []*Limit
+	l.byEntry = map[int]*Limit{}
 	firstLine := map[string]int{}
 	for i, f := range ents.forms {
 		if !ents.good[i] {
 			continue
 		}
 		before := len(l.errs)
-		lim := l.limit(i, f)
+		lim := l.limit(l.baseSrc(i), f)
 		if lim == nil {
 			continue
 		}
-		lim.entry = i
 		lim.sound = len(l.errs) == before
+		l.byEntry[i] = lim
 		key := strings.ToLower(strings.Join(strings.Fields(lim.Name), " "))
 		if key != "" {
 			if first, dup := firstLine[key]; dup {
@@ -432,50 +452,75 @@ func (l *loader) limits(ents decodedEntries) []*Limit {
 	return out
 }
 
-// entryPlace returns the position of limit entry i: its "-", or the entry itself.
-func (l *loader) entryPlace(i int) place {
-	if seq := l.limitsSeq(); seq != nil && i < len(seq.Values) {
+// baseSrc is where limit entry i of the limits list sits.
+func (l *loader) baseSrc(i int) *entrySrc {
+	return &entrySrc{base: fmt.Sprintf("$.limits[%d]", i), at: l.entryAt("$.limits", i)}
+}
+
+// entryAt returns the position of entry i of the sequence at path: its "-", or
+// the entry itself.
+func (l *loader) entryAt(path string, i int) place {
+	if seq, ok := l.nodeAt(path).(*ast.SequenceNode); ok && i < len(seq.Values) {
 		if i < len(seq.Entries) && seq.Entries[i].Start != nil && seq.Entries[i].Start.Position != nil {
 			p := seq.Entries[i].Start.Position
 			return place{p.Line, p.Column}
 		}
 	}
-	line, col := l.doc.Pos(fmt.Sprintf("$.limits[%d]", i))
+	line, col := l.doc.Pos(fmt.Sprintf("%s[%d]", path, i))
 	return place{line, col}
 }
 
-func (l *loader) limitsSeq() *ast.SequenceNode {
-	if l.root == nil {
+// nodeAt returns the AST node at a YAML path made of keys and indexes
+// ("$.variants[0].overrides[1].expr"), the value for a key, or nil.
+func (l *loader) nodeAt(path string) ast.Node {
+	rest, ok := strings.CutPrefix(path, "$")
+	if !ok || l.root == nil {
 		return nil
 	}
-	if mv := mapValue(l.root, "limits"); mv != nil {
-		if seq, ok := mv.Value.(*ast.SequenceNode); ok {
-			return seq
+	var n ast.Node = l.root
+	for rest != "" {
+		switch rest[0] {
+		case '.':
+			key := rest[1:]
+			if k := strings.IndexAny(key, ".["); k >= 0 {
+				key = key[:k]
+			}
+			rest = rest[1+len(key):]
+			m := asMapping(n)
+			if m == nil {
+				return nil
+			}
+			mv := mapValue(m, key)
+			if mv == nil {
+				return nil
+			}
+			n = mv.Value
+		case '[':
+			end := strings.IndexByte(rest, ']')
+			if end < 0 {
+				return nil
+			}
+			i, err := strconv.Atoi(rest[1:end])
+			rest = rest[end+1:]
+			seq, isSeq := n.(*ast.SequenceNode)
+			if err != nil || !isSeq || i < 0 || i >= len(seq.Values) {
+				return nil
+			}
+			n = seq.Values[i]
+		default:
+			return nil
+		}
+		if n == nil {
+			return nil
 		}
 	}
-	return nil
+	return n
 }
 
-// exprNode returns the AST node of limit entry i's expr value, or nil.
-func (l *loader) exprNode(i int) ast.Node {
-	seq := l.limitsSeq()
-	if seq == nil || i >= len(seq.Values) {
-		return nil
-	}
-	m := asMapping(seq.Values[i])
-	if m == nil {
-		return nil
-	}
-	if mv := mapValue(m, "expr"); mv != nil {
-		return mv.Value
-	}
-	return nil
-}
-
-// limit checks and compiles entry i. It returns nil when the entry is empty.
-func (l *loader) limit(i int, f *limitForm) *Limit {
-	path := fmt.Sprintf("$.limits[%d]", i)
-	at := l.entryPlace(i)
+// limit checks and compiles the limit entry f found at s. It returns nil when the
+// entry is empty.
+func (l *loader) limit(s *entrySrc, f *limitForm) *Limit {
+	at := s.at
 	if f == nil {
 		l.errs = append(l.errs, l.doc.At(at.line, at.col, "empty limit entry: expected name, description, unit, uses and expr or tolerance"))
 		return nil
@@ -483,18 +528,18 @@ func (l *loader) limit(i int, f *limitForm) *Limit {
 	missing := func(key string) func() *files.Error {
 		return func() *files.Error { return l.doc.At(at.line, at.col, "missing required key %q", key) }
 	}
-	lim := &Limit{Line: at.line, col: at.col}
-	lim.Name = l.requiredAt(path, "name", f.Name, true, missing("name"))
-	lim.Description = l.requiredAt(path, "description", f.Description, true, missing("description"))
+	lim := &Limit{Line: at.line, col: at.col, src: s}
+	lim.Name = l.requiredAt(s.of("name"), "name", f.Name, true, missing("name"))
+	lim.Description = l.requiredAt(s.of("description"), "description", f.Description, true, missing("description"))
 	var unitOK bool
 	if f.Unit == nil {
-		l.requiredAt(path, "unit", nil, false, missing("unit"))
+		l.requiredAt(s.of("unit"), "unit", nil, false, missing("unit"))
 	} else {
 		lim.Unit = *f.Unit
 		var dim units.Dim
 		var bare bool
 		var scale float64
-		scale, dim, bare, unitOK = l.unit(path+".unit", lim.Unit)
+		scale, dim, bare, unitOK = l.unit(s.path("unit"), lim.Unit)
 		lim.setScale(scale)
 		if unitOK && f.Uses != nil {
 			for j, u := range *f.Uses {
@@ -505,7 +550,12 @@ func (l *loader) limit(i int, f *limitForm) *Limit {
 					if bare {
 						what = "is empty (a plain number, for counts and ratios)"
 					}
-					l.errs = append(l.errs, l.doc.Errorf(path+".unit",
+					// A variant that changes only the uses is pointed at there.
+					where := s.path("unit")
+					if s.gives("uses") && !s.gives("unit") {
+						where = fmt.Sprintf("%s[%d]", s.path("uses"), j)
+					}
+					l.errs = append(l.errs, l.doc.Errorf(where,
 						"unit %q %s, but result %q (uses item %d) is a %s", lim.Unit, what, u, j+1, d))
 				}
 			}
@@ -513,38 +563,38 @@ func (l *loader) limit(i int, f *limitForm) *Limit {
 	}
 	usesOK := false
 	if f.Uses == nil {
-		l.requiredAt(path, "uses", nil, false, missing("uses"))
+		l.requiredAt(s.of("uses"), "uses", nil, false, missing("uses"))
 	} else {
-		usesOK = l.uses(path+".uses", *f.Uses)
+		usesOK = l.uses(s.path("uses"), *f.Uses)
 		lim.Uses = append([]string(nil), *f.Uses...)
 	}
-	hasExpr := f.Expr != nil || l.doc.Has(path+".expr")
-	hasTol := f.Tolerance != nil || l.doc.Has(path+".tolerance")
+	hasExpr := f.Expr != nil || l.doc.Has(s.path("expr"))
+	hasTol := f.Tolerance != nil || l.doc.Has(s.path("tolerance"))
 	switch {
 	case hasExpr && hasTol:
-		l.errs = append(l.errs, l.doc.KeyErrorf(path+".tolerance",
+		l.errs = append(l.errs, l.doc.KeyErrorf(s.path("tolerance"),
 			"a limit has either \"expr\" or \"tolerance\", not both: keep the expression, or the tolerance and its decision rule"))
 		return lim
 	case hasTol:
-		l.toleranced(path, lim, f, usesOK, unitOK)
+		l.toleranced(s, lim, f, usesOK, unitOK)
 		return lim
 	case f.Expr == nil:
-		if l.doc.Has(path + ".expr") {
-			l.requiredAt(path, "expr", nil, false, missing("expr"))
+		if l.doc.Has(s.path("expr")) {
+			l.requiredAt(s.of("expr"), "expr", nil, false, missing("expr"))
 		} else {
 			l.errs = append(l.errs, l.doc.At(at.line, at.col,
 				"missing required key \"expr\" or \"tolerance\": a limit is either an expression or a toleranced result"))
 		}
 		return lim
 	}
-	l.notForExpr(path, f)
+	l.notForExpr(s, f)
 	lim.Expr = strings.TrimSpace(*f.Expr)
 	if lim.Expr == "" {
-		l.errs = append(l.errs, l.doc.Errorf(path+".expr", "\"expr\" is empty"))
+		l.errs = append(l.errs, l.doc.Errorf(s.path("expr"), "\"expr\" is empty"))
 		return lim
 	}
 	if f.Uses != nil {
-		lim.prog = l.compile(i, path, *f.Expr, lim.Uses, usesOK && unitOK)
+		lim.prog = l.compile(s, *f.Expr, lim.Uses, usesOK && unitOK)
 	}
 	return lim
 }
@@ -605,10 +655,11 @@ func (l *loader) known() []string {
 	return names
 }
 
-// compile compiles entry i's expression with only its uses in scope, as float64.
-// Errors are positioned at the offending character of the expression in the file.
-// check adds the checks that need a sound uses list (every listed name used).
-func (l *loader) compile(i int, path, src string, uses []string, check bool) *vm.Program {
+// compile compiles the expression of the limit at s with only its uses in scope,
+// as float64. Errors are positioned at the offending character of the expression
+// in the file. check adds the checks that need a sound uses list (every listed
+// name used).
+func (l *loader) compile(s *entrySrc, text string, uses []string, check bool) *vm.Program {
 	env := make(map[string]any, len(uses))
 	for _, n := range uses {
 		env[n] = float64(0)
@@ -618,15 +669,15 @@ func (l *loader) compile(i int, path, src string, uses []string, check bool) *vm
 		opts = append(opts, expr.DisableBuiltin(b))
 	}
 	opts = append(opts, l.funcOpts...)
-	prog, err := compileSafely(src, opts)
+	prog, err := compileSafely(text, opts)
 	var st scalarText
 	located := false
 	errAt := func(from, line, col int, format string, args ...any) {
 		if !located {
-			if n := l.exprNode(i); n != nil {
-				st = locateScalar(l.src, n, src)
+			if n := l.nodeAt(s.path("expr")); n != nil {
+				st = locateScalar(l.src, n, text)
 			} else {
-				line, col := l.doc.Pos(path + ".expr")
+				line, col := l.doc.Pos(s.path("expr"))
 				st = scalarText{start: place{line, col}}
 			}
 			located = true
@@ -683,7 +734,7 @@ func (l *loader) compile(i int, path, src string, uses []string, check bool) *vm
 	}))
 	for j, n := range uses {
 		if !used[n] {
-			l.errs = append(l.errs, l.doc.Errorf(fmt.Sprintf("%s.uses[%d]", path, j),
+			l.errs = append(l.errs, l.doc.Errorf(fmt.Sprintf("%s[%d]", s.path("uses"), j),
 				"result %q is listed in uses but the expression does not use it", n))
 		}
 	}

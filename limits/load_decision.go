@@ -38,14 +38,19 @@ var (
 // decision checks the decision section and fills l.policy (which starts as the
 // defaults).
 func (l *loader) decision(f *decisionForm) {
-	const path = "$.decision"
+	l.decisionAt("$.decision", f, &l.policy)
+}
+
+// decisionAt checks the decision section f found at path (the file's, or a
+// variant's) and sets the keys it gives in p. It reports whether f had no problem.
+func (l *loader) decisionAt(path string, f *decisionForm, p *Policy) bool {
+	before := len(l.errs)
 	if f == nil {
 		if l.doc.Has(path) {
 			l.errs = append(l.errs, l.doc.KeyErrorf(path, "\"decision\" has no value: give some of %s, or remove it", decisionKeyHelp))
 		}
-		return
+		return len(l.errs) == before
 	}
-	p := &l.policy
 	if s, ok := l.present(path, "coverage", f.Coverage); ok {
 		if c, ok := l.coverage(path+".coverage", s); ok {
 			p.Coverage = c
@@ -74,6 +79,7 @@ func (l *loader) decision(f *decisionForm) {
 	if w, ok := l.word(path, "tur_policy", f.TURPolicy, turPolicyWords); ok {
 		p.TURPolicy = w
 	}
+	return len(l.errs) == before
 }
 
 // present returns the value of key under the mapping at path, trimmed; ok is false
@@ -158,14 +164,14 @@ func (l *loader) guardFactor(path string, v *float64) (float64, bool) {
 
 // toleranced checks a toleranced limit entry (it has tolerance, and no expr) and
 // fills lim.Tolerance and lim.Expr.
-func (l *loader) toleranced(path string, lim *Limit, f *limitForm, usesOK, unitOK bool) {
-	tp := path + ".tolerance"
+func (l *loader) toleranced(s *entrySrc, lim *Limit, f *limitForm, usesOK, unitOK bool) {
+	tp := s.path("tolerance")
 	if f.Tolerance == nil {
 		l.errs = append(l.errs, l.doc.KeyErrorf(tp, "\"tolerance\" has no value: expected lower, upper or both, in the limit's unit"))
 		return
 	}
 	if f.Uses != nil && len(*f.Uses) > 1 {
-		l.errs = append(l.errs, l.doc.Errorf(path+".uses",
+		l.errs = append(l.errs, l.doc.Errorf(s.path("uses"),
 			"a toleranced limit judges exactly one result, but uses lists %d (%s): use expr for a limit over several results",
 			len(*f.Uses), strings.Join(*f.Uses, ", ")))
 		usesOK = false
@@ -208,19 +214,19 @@ func (l *loader) toleranced(path string, lim *Limit, f *limitForm, usesOK, unitO
 
 	t.Rule, t.GuardFactor, t.Binary = l.policy.Rule, l.policy.GuardFactor, l.policy.Binary
 	ruleOK := l.policyOK
-	if w, ok := l.word(path, "rule", f.Rule, ruleWords); ok {
+	if w, ok := l.word(s.of("rule"), "rule", f.Rule, ruleWords); ok {
 		t.Rule, ruleOK = w, true
 	} else if f.Rule != nil {
 		ruleOK = false
 	}
-	if r, ok := l.guardFactor(path, f.GuardFactor); ok {
+	if r, ok := l.guardFactor(s.of("guard_factor"), f.GuardFactor); ok {
 		t.GuardFactor = r
 		if ruleOK && t.Rule == RuleSimple {
-			l.errs = append(l.errs, l.doc.KeyErrorf(path+".guard_factor",
+			l.errs = append(l.errs, l.doc.KeyErrorf(s.path("guard_factor"),
 				"guard_factor applies to rule: guarded only, and this limit's rule is simple (w = 0)"))
 		}
 	}
-	if w, ok := l.word(path, "statements", f.Statements, statementWords); ok {
+	if w, ok := l.word(s.of("statements"), "statements", f.Statements, statementWords); ok {
 		t.Binary = w == "binary"
 	}
 	if !okBounds || !usesOK || !unitOK || f.Uses == nil || len(*f.Uses) != 1 {
@@ -243,13 +249,13 @@ func tolExpr(name string, t *Tolerance) string {
 }
 
 // notForExpr reports decision-rule keys on an expression limit.
-func (l *loader) notForExpr(path string, f *limitForm) {
+func (l *loader) notForExpr(s *entrySrc, f *limitForm) {
 	for _, k := range []struct {
 		key string
 		set bool
 	}{{"rule", f.Rule != nil}, {"guard_factor", f.GuardFactor != nil}, {"statements", f.Statements != nil}} {
-		if k.set || l.doc.Has(path+"."+k.key) {
-			l.errs = append(l.errs, l.doc.KeyErrorf(path+"."+k.key,
+		if k.set || l.doc.Has(s.path(k.key)) {
+			l.errs = append(l.errs, l.doc.KeyErrorf(s.path(k.key),
 				"%q applies only to a toleranced limit (one with tolerance): an expression limit has no decision rule", k.key))
 		}
 	}

@@ -1,12 +1,52 @@
 package limits
 
 import (
+	"strings"
+
 	"github.com/goccy/go-yaml/ast"
 	"github.com/goccy/go-yaml/token"
 )
 
 // place is a 1-based line and column (in characters) in the limit file.
 type place struct{ line, col int }
+
+// entrySrc is where the keys of one limit are in the file: an entry of the limits
+// list or of a variant's add list, or a limits entry with a variant's override on
+// top, whose keys then come first.
+type entrySrc struct {
+	base    string // YAML path of the entry: "$.limits[2]", "$.variants[0].add[1]"
+	at      place  // the entry's "-"
+	over    string // YAML path of the variant's override entry, or ""
+	overAt  place
+	gave    map[string]bool // keys the override gives
+	dropped map[string]bool // keys of the base entry the override drops (an expr drops the tolerance and its rule)
+	variant string          // the variant the limit is part of; "" for the base list
+}
+
+// of returns the path of the entry that key (or "key.sub") is read from. A key
+// the override dropped is read at the override, where it is absent.
+func (s *entrySrc) of(key string) string {
+	top, _, _ := strings.Cut(key, ".")
+	if s.over != "" && (s.gave[top] || s.dropped[top]) {
+		return s.over
+	}
+	return s.base
+}
+
+// path returns the YAML path of key (or "key.sub") of the limit.
+func (s *entrySrc) path(key string) string { return s.of(key) + "." + key }
+
+// gives reports whether a variant's override gives key.
+func (s *entrySrc) gives(key string) bool { return s.over != "" && s.gave[key] }
+
+// entry returns the position of the limit's entry: the override's when there is
+// one, which is where the variant's limit differs from the base.
+func (s *entrySrc) entry() place {
+	if s.over != "" {
+		return s.overAt
+	}
+	return s.at
+}
 
 // scalarText tells where each character of a decoded YAML scalar sits in the file,
 // so that a position inside an expression (as expr-lang reports it) can be shown at

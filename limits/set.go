@@ -15,8 +15,12 @@ type Set struct {
 	File                    string // the name given to Load (the path for LoadFile)
 	SHA256                  string // lowercase hex SHA-256 of the exact bytes loaded
 	Limits                  []*Limit
+	// VariantName is the variant of the file this set is the effective set of
+	// (Set.Variant); "" for the base set, the file's limits list.
+	VariantName string
 
-	policy Policy // the file's decision section with defaults filled in; zero when not made by Load
+	policy   Policy        // the decision section with defaults filled in (a variant's merged in); zero when not made by Load
+	variants *variantTable // the file's variants, shared by all its sets; nil when it has none
 }
 
 // Limit is one compiled limit of a Set, in file order. It is either an expression
@@ -31,15 +35,15 @@ type Limit struct {
 	// "within(post_offset, -50, 50)", "post_noise <= 60", "pre_offset >= -20".
 	Expr      string
 	Uses      []string   // the result names Expr uses, as listed (Load checks each appears in Expr); one for a toleranced limit
-	Line      int        // line of the limit's entry ("- name: ...") in the file
+	Line      int        // line of the limit's entry ("- name: ...") in the file; for a limit a variant overrides, its entry in the limits list
 	Tolerance *Tolerance // nil for an expression limit
 
 	prog  *vm.Program
-	entry int     // index of the limit's entry in the file's limits list
-	col   int     // column of the entry's "-"
-	sound bool    // Load found no problem in the entry (always true in a Set that Load returned)
-	scale float64 // SI value of one Unit: a result in SI is V/scale in Unit
-	pow10 bool    // scale is exactly 10^exp10
+	src   *entrySrc // where the limit's keys are in the file
+	col   int       // column of the entry's "-"
+	sound bool      // Load found no problem in the entry (always true in a Set that Load returned)
+	scale float64   // SI value of one Unit: a result in SI is V/scale in Unit
+	pow10 bool      // scale is exactly 10^exp10
 	exp10 int
 }
 

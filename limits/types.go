@@ -14,6 +14,10 @@
 // is outside the tolerance, and the test uncertainty ratio (ANSI/NCSL Z540.3-2006
 // §5.3). The file's decision section sets the rule and what the unit's overall
 // verdict makes of each zone (Set.Policy, Set.Overall).
+//
+// One file may also hold variants, the limits of other product revisions or
+// grades written as changes to its limits list; Load compiles each, and
+// Set.Variant and Set.VariantFor return a variant's effective set.
 package limits
 
 import "trimline/sequencer/units"

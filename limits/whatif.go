@@ -25,7 +25,7 @@ const HistBins = 40
 
 // WhatIfReport is what a new limit set would have made of stored units (WhatIf).
 type WhatIfReport struct {
-	Old, New      string        // the two sets: name, revision and file
+	Old, New      string        // the two sets: name, revision, variant and file
 	Units         int           // units re-judged
 	Skipped       int           // units of another product than the new set's, not judged
 	Before, After VerdictCounts // recorded verdicts, and the new set's
@@ -272,6 +272,9 @@ func setLabel(s *Set) string {
 	l := s.Name
 	if s.Revision != "" {
 		l += " rev " + s.Revision
+	}
+	if s.VariantName != "" {
+		l += " variant " + s.VariantName
 	}
 	if s.File != "" {
 		l += " (" + s.File + ")"
