@@ -717,7 +717,11 @@ func limitsRef(s *limits.Set) FileRef {
 	if s == nil {
 		return FileRef{Kind: "limits"}
 	}
-	return FileRef{Kind: "limits", Name: baseName(s.File), Title: strings.TrimSpace(s.Name + " rev " + s.Revision), SHA256: s.SHA256}
+	title := strings.TrimSpace(s.Name + " rev " + s.Revision)
+	if s.VariantName != "" {
+		title += ", variant " + s.VariantName
+	}
+	return FileRef{Kind: "limits", Name: baseName(s.File), Title: title, SHA256: s.SHA256}
 }
 
 func baseName(p string) string {

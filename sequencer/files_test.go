@@ -160,3 +160,30 @@ func TestCapsRefuseSweepBeyondStation(t *testing.T) {
 		t.Fatalf("want a cap refusal naming the sequence file, got %v", err)
 	}
 }
+
+// A limit file's variant applies by the sequence's revision or by name, and the
+// run's files record which.
+func TestLimitVariantSelection(t *testing.T) {
+	lim := demoFile(t, "brx200-limits.yaml") + `
+variants:
+  - name: grade-H
+    description: High-accuracy grade.
+    revisions: [C]
+    overrides:
+      - name: offset after trim
+        tolerance: {lower: -400, upper: 400}
+`
+	read := demoReader(t, map[string]string{"brx200-limits.yaml": lim})
+	seq, err := sequencer.ParseSequence("brx200-sequence.yaml", []byte(demoFile(t, "brx200-sequence.yaml")), read)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if seq.Limits.VariantName != "grade-H" {
+		t.Fatalf("revision C picked variant %q, want grade-H", seq.Limits.VariantName)
+	}
+	bad := strings.Replace(demoFile(t, "brx200-sequence.yaml"), "limits: brx200-limits.yaml", "limits: brx200-limits.yaml\nlimits_variant: grade-X", 1)
+	_, err = sequencer.ParseSequence("brx200-sequence.yaml", []byte(bad), read)
+	if e := files.Errs(err); len(e) == 0 || !strings.Contains(e[0].Msg, "grade-X") || !strings.HasPrefix(e[0].Error(), fmt.Sprintf("brx200-sequence.yaml:%d:", lineOf(t, bad, "limits_variant"))) {
+		t.Fatalf("unknown variant: %v", err)
+	}
+}

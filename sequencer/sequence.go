@@ -123,9 +123,10 @@ type sequenceFile struct {
 		Maker       string `yaml:"maker"`
 		Description string `yaml:"description"`
 	} `yaml:"sequence"`
-	Requires []string `yaml:"requires"`
-	Limits   string   `yaml:"limits"`
-	Ideal    struct {
+	Requires      []string `yaml:"requires"`
+	Limits        string   `yaml:"limits"`
+	LimitsVariant string   `yaml:"limits_variant"`
+	Ideal         struct {
 		Gain      *float64       `yaml:"gain"`
 		Offset    *units.Voltage `yaml:"offset"`
 		FullScale *units.Voltage `yaml:"full_scale"`
@@ -285,6 +286,17 @@ func ParseSequence(name string, data []byte, read func(path string) ([]byte, err
 			}
 		} else {
 			s.Limits, s.LimitsRaw = set, ldata
+			// The variant for this product: named in the sequence file, else the one
+			// whose revisions list the sequence's revision, else the base limits.
+			if v := f.LimitsVariant; v != "" {
+				if vs, err := set.Variant(v); err != nil {
+					bad("$.limits_variant", "%v", err)
+				} else {
+					s.Limits = vs
+				}
+			} else {
+				s.Limits = set.VariantFor(s.Revision)
+			}
 		}
 	}
 	if len(errs) > 0 {
