@@ -232,22 +232,29 @@ func (l *Ledger) MissingDocuments(ctx context.Context) ([]RunMeta, error) {
 			AND NOT EXISTS (SELECT 1 FROM documents d WHERE d.run_id = r.run_id)
 			AND NOT EXISTS (SELECT 1 FROM audit_trail a WHERE a.subject = r.certificate AND a.action = ?)
 		ORDER BY rowid`, ActionVoid)
+	out, err := collect(rows, err, func(r *sql.Rows) (RunMeta, error) { return scanRunMeta(r) })
 	if err != nil {
 		return nil, fmt.Errorf("ledger: missing documents: %w", err)
 	}
-	defer rows.Close()
-	out := []RunMeta{}
-	for rows.Next() {
-		m, err := scanRunMeta(rows)
-		if err != nil {
-			return nil, fmt.Errorf("ledger: missing documents: %w", err)
-		}
-		out = append(out, m)
-	}
-	if err := rows.Err(); err != nil {
-		return nil, fmt.Errorf("ledger: missing documents: %w", err)
-	}
 	return out, nil
+}
+
+// collect scans every row of a query with scan and closes the rows; qerr is the
+// query's own error. It returns an empty, non-nil slice when there are no rows.
+func collect[T any](rows *sql.Rows, qerr error, scan func(*sql.Rows) (T, error)) ([]T, error) {
+	if qerr != nil {
+		return nil, qerr
+	}
+	defer rows.Close()
+	out := []T{}
+	for rows.Next() {
+		v, err := scan(rows)
+		if err != nil {
+			return nil, err
+		}
+		out = append(out, v)
+	}
+	return out, rows.Err()
 }
 
 // Blob returns the content of a file in force stored by RecordRunWith, by the

@@ -366,19 +366,8 @@ func (l *Ledger) ImportedRunByID(ctx context.Context, runID string) (*sequencer.
 // none.
 func (l *Ledger) ImportedRuns(ctx context.Context) ([]ImportedRun, error) {
 	rows, err := l.db.QueryContext(ctx, `SELECT `+importedColumns+` FROM imported_runs ORDER BY rowid`)
+	out, err := collect(rows, err, func(r *sql.Rows) (ImportedRun, error) { return scanImported(r) })
 	if err != nil {
-		return nil, fmt.Errorf("ledger: imported runs: %w", err)
-	}
-	defer rows.Close()
-	out := []ImportedRun{}
-	for rows.Next() {
-		ir, err := scanImported(rows)
-		if err != nil {
-			return nil, fmt.Errorf("ledger: imported runs: %w", err)
-		}
-		out = append(out, ir)
-	}
-	if err := rows.Err(); err != nil {
 		return nil, fmt.Errorf("ledger: imported runs: %w", err)
 	}
 	return out, nil
