@@ -256,12 +256,16 @@ func TestLimitsWhatIfOnDemoLedger(t *testing.T) {
 	lim, _ := os.ReadFile(filepath.Join(dir, "brx200-limits.yaml"))
 	tight := filepath.Join(dir, "tight.yaml")
 	os.WriteFile(tight, bytes.Replace(lim, []byte("tolerance: {lower: -800, upper: 800}"), []byte("tolerance: {lower: -20, upper: 20}"), 1), 0o644)
-	code, out, errOut := runCLI(t, "limits", "whatif", tight, "--ledger", filepath.Join(dir, "ledger.db"))
+	report := filepath.Join(dir, "whatif.pdf")
+	code, out, errOut := runCLI(t, "limits", "whatif", tight, "--ledger", filepath.Join(dir, "ledger.db"), "--pdf", report)
 	if code != 0 || !strings.Contains(out, "Units re-judged: 25") || !strings.Contains(out, "Yield before: 92 %") {
 		t.Fatalf("whatif: exit %d\n%s%s", code, out, errOut)
 	}
 	// With ±20 µV the guard band (U ≈ 150 µV) leaves no acceptance interval:
 	// every passing unit turns into a conditional pass, held for review.
+	if st, err := os.Stat(report); err != nil || st.Size() == 0 {
+		t.Errorf("no PDF report: %v", err)
+	}
 	if !strings.Contains(out, "pass → review") {
 		t.Errorf("no unit flipped to review under a tolerance inside the guard band:\n%s", out)
 	}

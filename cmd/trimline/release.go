@@ -15,6 +15,7 @@ import (
 	"trimline/limits"
 	"trimline/reports/ledger"
 	"trimline/reports/signing"
+	"trimline/reports/whatif"
 	"trimline/sequencer"
 )
 
@@ -178,12 +179,13 @@ func limitsWhatIf(ctx context.Context, args []string) error {
 	since := fs.String("since", "", "only runs finished on or after this `date` (YYYY-MM-DD)")
 	until := fs.String("until", "", "only runs finished before the end of this `date` (YYYY-MM-DD)")
 	oldPath := fs.String("old", "", "the old limit `file` to compare with (default: the one in force on the newest run)")
+	pdfPath := fs.String("pdf", "", "also write the report with histograms to this PDF `file`")
 	pos, err := parseInterleaved(fs, args)
 	if err != nil {
 		return usageErr("%v", err)
 	}
 	if len(pos) != 1 || *ledgerPath == "" {
-		return usageErr("usage: trimline limits whatif NEW --ledger DB [--product P] [--since DATE] [--until DATE] [--old FILE]")
+		return usageErr("usage: trimline limits whatif NEW --ledger DB [--product P] [--since DATE] [--until DATE] [--old FILE] [--pdf FILE]")
 	}
 	nw, err := loadLimitSet(pos[0])
 	if err != nil {
@@ -264,6 +266,13 @@ func limitsWhatIf(ctx context.Context, args []string) error {
 	if len(units) == 0 {
 		return badInput(fmt.Errorf("no judged runs in %s match", *ledgerPath))
 	}
-	limits.WhatIf(old, nw, units).WriteText(stdoutW)
+	rep := limits.WhatIf(old, nw, units)
+	rep.WriteText(stdoutW)
+	if *pdfPath != "" {
+		if err := whatif.WriteFile(*pdfPath, rep, time.Now()); err != nil {
+			return stationErr(err)
+		}
+		fmt.Fprintf(stdoutW, "\nreport with plots: %s\n", *pdfPath)
+	}
 	return nil
 }
