@@ -244,6 +244,9 @@ func limitsWhatIf(ctx context.Context, args []string) error {
 		if err != nil {
 			return stationErr(err)
 		}
+		if rec.Engineering {
+			continue // engineering runs never shipped; they say nothing about yield
+		}
 		if old == nil {
 			// Runs are newest first: the first one's limit file is the one in force.
 			for _, f := range rec.Files {
