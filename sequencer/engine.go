@@ -269,7 +269,7 @@ func (e *Engine) Run(ctx context.Context, serial string) (rec *Record) {
 			log.Debug().Msg("source output off, level 0")
 		} else {
 			log.Error().Err(err).Msg("could not switch the source output off")
-			if rec.Verdict == Pass || rec.Verdict == Fail {
+			if rec.Verdict != Aborted {
 				rec.Verdict = Fault
 			}
 			rec.Fault = strings.TrimPrefix(rec.Fault+"; source output off failed: "+err.Error(), "; ")
@@ -300,6 +300,41 @@ func (e *Engine) Run(ctx context.Context, serial string) (rec *Record) {
 
 func (e *Engine) run(ctx context.Context, rec *Record) error {
 	seq := e.cfg.Sequence
+	// A long batch can outlive a calibration: check every unit, not just at open.
+	for _, r := range seq.Requires {
+		si := e.cfg.Station.Instruments[r]
+		if !si.CalDue.IsZero() && rec.Started.After(si.CalDue.AddDate(0, 0, 1)) {
+			return &stop{Fault, fmt.Sprintf("%s %s: calibration expired on %s; recalibrate it or fix cal_due in %s",
+				r, si.Asset, si.CalDue.Format("2006-01-02"), e.cfg.Station.File.Name)}
+		}
+	}
+	if err := e.step(ctx, func(ctx context.Context) error { return e.identifyUnit(ctx, rec) }); err != nil {
+		return err
+	}
+
+	// Known starting state: record what the unit holds, then apply no correction.
+	trims := []TrimCode{{DAC: "gain"}, {DAC: "offset"}}
+	dacs := []DAC{seq.Trim.Gain, seq.Trim.Offset}
+	for i, d := range dacs {
+		err := e.step(ctx, func(ctx context.Context) error {
+			c, err := e.readCode(ctx, trims[i].DAC, d)
+			trims[i].Before = c
+			return err
+		})
+		if err != nil {
+			return err
+		}
+		if err := e.writeCode(ctx, trims[i].DAC, d, d.NoCorrection); err != nil {
+			return err
+		}
+	}
+	return e.measure(ctx, rec, trims)
+}
+
+// identifyUnit places the unit in a simulated fixture, checks it reports the
+// scanned serial and records its firmware.
+func (e *Engine) identifyUnit(ctx context.Context, rec *Record) error {
+	seq := e.cfg.Sequence
 	if fl, ok := e.dut.(instruments.FixtureLoader); ok {
 		if err := fl.LoadUnit(ctx, rec.Serial); err != nil {
 			return fmt.Errorf("load unit into fixture: %w", err)
@@ -325,20 +360,14 @@ func (e *Engine) run(ctx context.Context, rec *Record) error {
 			}
 		}
 	}
+	return nil
+}
 
-	// Known starting state: record what the unit holds, then apply no correction.
-	trims := []TrimCode{{DAC: "gain"}, {DAC: "offset"}}
+// measure runs the sweeps, the trim and the verification for a unit whose trim
+// DACs hold no correction.
+func (e *Engine) measure(ctx context.Context, rec *Record, trims []TrimCode) error {
+	seq := e.cfg.Sequence
 	dacs := []DAC{seq.Trim.Gain, seq.Trim.Offset}
-	for i, d := range dacs {
-		c, err := e.readCode(ctx, trims[i].DAC, d)
-		if err != nil {
-			return err
-		}
-		trims[i].Before = c
-		if err := e.writeCode(ctx, trims[i].DAC, d, d.NoCorrection); err != nil {
-			return err
-		}
-	}
 
 	pre, err := e.sweep(ctx, "pre-trim", seq.PreTrim)
 	e.annotate(&pre)
@@ -357,10 +386,11 @@ func (e *Engine) run(ctx context.Context, rec *Record) error {
 		if err := e.writeCode(ctx, trims[i].DAC, dacs[i], trims[i].Code); err != nil {
 			return err
 		}
-		trims[i].Readback = trims[i].Code
+		trims[i].Readback, trims[i].Written = trims[i].Code, true
 	}
 	if seq.Trim.Store != "" {
-		if err := e.dut.Command(ctx, seq.Trim.Store); err != nil {
+		err := e.step(ctx, func(ctx context.Context) error { return e.dut.Command(ctx, seq.Trim.Store) })
+		if err != nil {
 			return fmt.Errorf("dut: store trim codes: %w", err)
 		}
 		for i := range trims {
@@ -387,6 +417,7 @@ func (e *Engine) run(ctx context.Context, rec *Record) error {
 func (e *Engine) evalPre(rec *Record, res *results, pre Sweep, trims []TrimCode) bool {
 	seq := e.cfg.Sequence
 	dacs := []DAC{seq.Trim.Gain, seq.Trim.Offset}
+	rec.Trims = trims // at least what the unit held before; codes follow when computed
 	preA, ferr := e.analyse(pre, rec.RunID)
 	if ferr != nil {
 		res.invalidAll("pre-trim sweep: " + ferr.Error())
@@ -540,7 +571,7 @@ func (e *Engine) sweep(ctx context.Context, name string, p SweepPlan) (Sweep, er
 		}
 		e.log.Debug().Str("sweep", name).Float64("x", x).Float64("y", sw.Points[i].Mean).Msg("point")
 	}
-	if err := e.source.SetOutput(ctx, false); err != nil {
+	if err := e.step(ctx, func(ctx context.Context) error { return e.source.SetOutput(ctx, false) }); err != nil {
 		return sw, fmt.Errorf("%s sweep: source output off: %w", name, err)
 	}
 	return sw, nil

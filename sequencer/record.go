@@ -149,6 +149,7 @@ type TrimCode struct {
 	Code      int     `json:"code"`    // code written
 	Ideal     float64 `json:"ideal"`   // exact (unrounded) code the fit asked for
 	IdealU    float64 `json:"ideal_u"` // standard uncertainty of Ideal, in codes
+	Written   bool    `json:"written"` // Code was written to the unit (false when the run stopped first)
 	Readback  int     `json:"readback"`
 	Saturated bool    `json:"saturated"`
 	Stored    bool    `json:"stored"` // committed to non-volatile memory

@@ -53,7 +53,7 @@ func Replay(cfg Config, stored *Record) (*Record, error) {
 		for i := range rec.Trims {
 			for _, t := range stored.Trims {
 				if t.DAC == rec.Trims[i].DAC {
-					rec.Trims[i].Readback, rec.Trims[i].Stored = t.Readback, t.Stored
+					rec.Trims[i].Readback, rec.Trims[i].Stored, rec.Trims[i].Written = t.Readback, t.Stored, t.Written
 				}
 			}
 		}

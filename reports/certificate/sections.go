@@ -703,8 +703,15 @@ func (d *doc) trims() {
 		if !math.IsNaN(t.Ideal) && !math.IsInf(t.Ideal, 0) {
 			ideal = strconv.FormatFloat(t.Ideal, 'f', 3, 64)
 		}
+		written := c1(strconv.Itoa(t.Code), stBold)
 		rb := c1(strconv.Itoa(t.Readback), stBody)
-		if t.Readback != t.Code {
+		switch {
+		case !t.Written && !t.Stored && t.Readback == 0:
+			// The run stopped before the code was written (a saturated trim, no fit):
+			// the unit still holds its code from before.
+			written = cell{{"—", stBody}, {"not written", stSmall.with(colMuted)}}
+			rb = c1("—", stBody)
+		case t.Readback != t.Code:
 			rb = cell{{strconv.Itoa(t.Readback), stBold.with(colFail)}, {"differs from written", stSmall.with(colFail)}}
 		}
 		sat := c1("no", stBody)
@@ -715,7 +722,7 @@ func (d *doc) trims() {
 			c1(dash(t.DAC), stBold),
 			c1(strconv.Itoa(t.Before), stBody),
 			c1(ideal, stBody),
-			c1(strconv.Itoa(t.Code), stBold),
+			written,
 			rb,
 			c1(yesNo(t.Stored), stBody),
 			sat,
