@@ -43,7 +43,7 @@ func TestAuditDemo(t *testing.T) {
 	}
 	seal, _ := os.ReadFile(pdfs[0] + ".seal")
 	os.WriteFile(bad+".seal", seal, 0o644)
-	if code, out, _ := runCLI(t, "audit", "verify", "--ledger", filepath.Join(t.TempDir(), "none.db"), "--keys", filepath.Join(dir, "keys"), bad); code != exitFail || !strings.HasPrefix(out, "ALTERED") {
+	if code, out, _ := runCLI(t, "audit", "verify", "--no-ledger", "--keys", filepath.Join(dir, "keys"), bad); code != exitFail || !strings.HasPrefix(out, "ALTERED") {
 		t.Errorf("altered, seal only: exit %d\n%s", code, out)
 	}
 	if code, out, _ := runCLI(t, "audit", "ledger", "--ledger", led); code != 0 || !strings.Contains(out, "chain intact") || !strings.Contains(out, "25 signed, 25 verified") {
@@ -55,6 +55,10 @@ func TestAuditDemo(t *testing.T) {
 		if code, out, errOut := runCLI(t, "audit", "replay", "--ledger", led, sn); code != 0 || !strings.Contains(out, "reproduced exactly") {
 			t.Errorf("replay %s: exit %d\n%s%s", sn, code, out, errOut)
 		}
+	}
+	// A ledger named but unreadable is an error, never a fallback to the seal.
+	if code, _, _ := runCLI(t, "audit", "verify", "--ledger", filepath.Join(t.TempDir(), "typo.db"), pdfs[0]); code != exitUsage {
+		t.Errorf("missing --ledger: exit %d, want 2", code)
 	}
 	num := strings.SplitN(filepath.Base(pdfs[0]), "_", 2)[0]
 	if code, _, errOut := runCLI(t, "audit", "void", num, "--ledger", led, "--by", "Q. Engineer", "--reason", "wrong fixture"); code != 0 {

@@ -40,9 +40,10 @@ void NUMBER        voids a certificate with --by and --reason; it stays in the
 		Flags: newFlags("audit"),
 	}
 	ledgerPath := c.Flags.String("ledger", "", "ledger `file` (default ledger.db beside the PDF's certificates folder, or ./trimline-demo/ledger.db)")
-	keysDir := c.Flags.String("keys", "", "`folder` of trusted public keys (*.pub; default: keys beside the ledger)")
+	keysDir := c.Flags.String("keys", "", "`folder` of trusted public keys (*.pub; default: keys beside the ledger — give your own copy when the files came from elsewhere)")
 	by := c.Flags.String("by", "", "`name` of the person voiding")
 	reason := c.Flags.String("reason", "", "`reason` for voiding")
+	noLedger := c.Flags.Bool("no-ledger", false, "verify from the seal beside the PDF and the trusted keys alone")
 	c.Run = func(ctx context.Context, c *command, args []string) error {
 		if len(args) == 0 {
 			return usageErr("name a subcommand: verify, ledger, replay or void")
@@ -53,7 +54,7 @@ void NUMBER        voids a certificate with --by and --reason; it stays in the
 			return usageErr("%v", err)
 		}
 		args = append([]string{args[0]}, rest...)
-		a := &auditor{ledgerPath: *ledgerPath, keysDir: *keysDir}
+		a := &auditor{ledgerPath: *ledgerPath, keysDir: *keysDir, noLedger: *noLedger}
 		switch args[0] {
 		case "verify":
 			if len(args) != 2 {
@@ -89,6 +90,8 @@ void NUMBER        voids a certificate with --by and --reason; it stays in the
 
 type auditor struct {
 	ledgerPath, keysDir string
+	noLedger            bool   // verify from the seal alone
+	keysFrom            string // where the trusted keys came from, said with every verdict
 }
 
 // open opens the ledger named by --ledger, or the one beside near (a PDF in a
@@ -130,14 +133,18 @@ func (a *auditor) keys() (map[string]ed25519.PublicKey, error) {
 	if err != nil {
 		return nil, badInput(err)
 	}
+	a.keysFrom = fmt.Sprintf("trusted keys: %s (%d)", d, len(ks))
 	return ks, nil
 }
 
 // verdict prints the verification outcome; only genuine exits 0.
-func verdictOut(kind, file string, reasons []string) error {
+func (a *auditor) verdictOut(kind, file string, reasons []string) error {
 	fmt.Fprintf(stdoutW, "%s: %s\n", strings.ToUpper(kind), file)
 	for _, r := range reasons {
 		fmt.Fprintf(stdoutW, "  %s\n", r)
+	}
+	if a.keysFrom != "" {
+		fmt.Fprintf(stdoutW, "  (%s)\n", a.keysFrom)
 	}
 	if kind == "genuine" {
 		return nil
@@ -160,7 +167,17 @@ func (a *auditor) verify(ctx context.Context, file string) error {
 			number = s.Number
 		}
 	}
-	led, lerr := a.open(ctx, file)
+	explicit := a.ledgerPath != ""
+	var led *ledger.Ledger
+	lerr := errors.New("no ledger: verifying from the seal alone")
+	if !a.noLedger {
+		led, lerr = a.open(ctx, file)
+	}
+	if lerr != nil && explicit && !a.noLedger {
+		// A ledger the auditor named must be read; falling back to the seal would
+		// hide a voided certificate.
+		return lerr
+	}
 	keys, err := a.keys()
 	if err != nil {
 		return err
@@ -168,53 +185,53 @@ func (a *auditor) verify(ctx context.Context, file string) error {
 	if lerr != nil {
 		// No ledger: the seal and the public key alone.
 		if seal == nil {
-			return verdictOut("unknown", file, []string{"no ledger and no seal (" + file + ".seal) to check it against"})
+			return a.verdictOut("unknown", file, []string{"no ledger and no seal (" + file + ".seal) to check it against"})
 		}
 		pub, ok := keys[seal.KeyID]
 		if !ok {
-			return verdictOut("unknown", file, []string{"sealed with key " + seal.KeyID + ", which is not among the trusted keys"})
+			return a.verdictOut("unknown", file, []string{"sealed with key " + seal.KeyID + ", which is not among the trusted keys"})
 		}
 		if err := seal.VerifyPDF(pub, pdf); err != nil {
 			kind := "altered"
 			if errors.Is(err, signing.ErrWrongKey) {
 				kind = "unknown"
 			}
-			return verdictOut(kind, file, []string{err.Error()})
+			return a.verdictOut(kind, file, []string{err.Error()})
 		}
-		return verdictOut("genuine", file, []string{"certificate " + seal.Number + " matches its seal, signed by " + seal.KeyID, "(no ledger checked: the run and the chain were not verified)"})
+		return a.verdictOut("genuine", file, []string{"certificate " + seal.Number + " matches its seal, signed by " + seal.KeyID, "(no ledger checked: the run and the chain were not verified)"})
 	}
 	defer led.Close()
 	doc, err := led.DocumentBySHA(ctx, pdfSHA)
 	if errors.Is(err, ledger.ErrNotFound) {
 		if number != "" {
 			if _, _, err := led.RunByCertificate(ctx, number); err == nil {
-				return verdictOut("altered", file, []string{fmt.Sprintf("the ledger issued %s, but no document of it has this file's SHA-256 %s", number, pdfSHA[:16])})
+				return a.verdictOut("altered", file, []string{fmt.Sprintf("the ledger issued %s, but no document of it has this file's SHA-256 %s", number, pdfSHA[:16])})
 			}
-			return verdictOut("unknown", file, []string{fmt.Sprintf("%s is not a certificate of the ledger %s", number, a.ledgerPath)})
+			return a.verdictOut("unknown", file, []string{fmt.Sprintf("%s is not a certificate of the ledger %s", number, a.ledgerPath)})
 		}
-		return verdictOut("unknown", file, []string{"not a document of the ledger " + a.ledgerPath + " and no certificate number found in it"})
+		return a.verdictOut("unknown", file, []string{"not a document of the ledger " + a.ledgerPath + " and no certificate number found in it"})
 	} else if err != nil {
 		return stationErr(err)
 	}
 	var why []string
 	rec, meta, err := led.RunByCertificate(ctx, doc.Number)
 	if err != nil {
-		return verdictOut("altered", file, []string{"document " + doc.Number + " has no run in the ledger: " + err.Error()})
+		return a.verdictOut("altered", file, []string{"document " + doc.Number + " has no run in the ledger: " + err.Error()})
 	}
 	if runID != "" && runID != meta.RunID {
-		return verdictOut("altered", file, []string{"the PDF names run " + runID + " but certificate " + doc.Number + " belongs to run " + meta.RunID})
+		return a.verdictOut("altered", file, []string{"the PDF names run " + runID + " but certificate " + doc.Number + " belongs to run " + meta.RunID})
 	}
 	why = append(why, fmt.Sprintf("document %s of run %s (serial %s, verdict %s): SHA-256 matches the ledger", doc.Number, meta.RunID, rec.Serial, rec.Verdict))
 	if meta.KeyID != "" {
 		pub, ok := keys[meta.KeyID]
 		if !ok {
-			return verdictOut("unknown", file, append(why, "signed by "+meta.KeyID+", which is not among the trusted keys (--keys)"))
+			return a.verdictOut("unknown", file, append(why, "signed by "+meta.KeyID+", which is not among the trusted keys (--keys)"))
 		}
 		if !signing.Verify(pub, ledger.SignedMessage(doc.Number, meta.RunID, meta.RecordSHA256), meta.Signature) {
-			return verdictOut("altered", file, append(why, "the record signature does not verify"))
+			return a.verdictOut("altered", file, append(why, "the record signature does not verify"))
 		}
 		if !signing.Verify(pub, signing.PDFMessage(doc.Number, pdf), doc.Signature) {
-			return verdictOut("altered", file, append(why, "the PDF signature does not verify"))
+			return a.verdictOut("altered", file, append(why, "the PDF signature does not verify"))
 		}
 		why = append(why, "record and PDF signatures verify with "+meta.KeyID)
 	} else {
@@ -225,13 +242,13 @@ func (a *auditor) verify(ctx context.Context, file string) error {
 		return stationErr(err)
 	}
 	if !rep.OK {
-		return verdictOut("altered", file, append(why, "the ledger's chain is broken: "+rep.Reason))
+		return a.verdictOut("altered", file, append(why, "the ledger's chain is broken: "+rep.Reason))
 	}
 	why = append(why, fmt.Sprintf("station %s chain verifies (%d runs)", rec.Station, rep.Runs))
 	if st, err := led.CertificateStatus(ctx, doc.Number); err == nil && st.Voided {
-		return verdictOut("voided", file, append(why, fmt.Sprintf("VOIDED by %s on %s: %s", st.VoidedBy, st.VoidedAt.UTC().Format("2006-01-02 15:04 UTC"), st.VoidReason)))
+		return a.verdictOut("voided", file, append(why, fmt.Sprintf("VOIDED by %s on %s: %s", st.VoidedBy, st.VoidedAt.UTC().Format("2006-01-02 15:04 UTC"), st.VoidReason)))
 	}
-	return verdictOut("genuine", file, why)
+	return a.verdictOut("genuine", file, why)
 }
 
 func verifier(keys map[string]ed25519.PublicKey) func(keyID string, msg, sig []byte) bool {

@@ -14,11 +14,12 @@ func newRunCmd() *command {
 		Short: "trim and certify units on a station (the production command)",
 		Long: `Runs the sequence once per serial number, in order: pre-trim sweep, fit, trim
 codes written, read back and stored, verification sweep, limits judged. Each run is
-recorded in the ledger (DIR/ledger.db); a PASS or FAIL run gets a certificate
-number and a PDF in DIR/certificates. With sim:// addresses in the station file the
-units run on the simulated bench.
+recorded in the ledger (DIR/ledger.db); a PASS, FAIL or REVIEW run gets a
+certificate number and a PDF in DIR/certificates. With sim:// addresses in the
+station file the units run on the simulated bench.
 
-Exit code: 0 every unit passed, 1 a unit failed, 2 bad input, 3 station fault.`,
+Exit code: 0 every unit passed, 1 a unit failed or was held for review, 2 bad input
+(including files that were never released), 3 station fault or a stopped batch.`,
 		Flags: newFlags("run"),
 	}
 	station := c.Flags.String("station", "", "station `file` (what is on this bench)")

@@ -159,7 +159,7 @@ func mainUsage(w io.Writer) {
 		c := newCmd()
 		fmt.Fprintf(w, "  %-8s %s\n", c.Name, c.Short)
 	}
-	fmt.Fprintf(w, "\nExit codes: 0 every unit passed, 1 a unit failed, 2 bad input or usage, 3 station fault.\nRun 'trimline help <command>' for its flags.\n")
+	fmt.Fprintf(w, "\nExit codes: 0 every unit passed, 1 a unit failed or was held for review, 2 bad input or usage, 3 station fault.\nRun 'trimline help <command>' for its flags.\n")
 }
 
 func usage(c *command, w io.Writer) {

@@ -37,6 +37,7 @@ type batch struct {
 type tally struct {
 	records []*sequencer.Record
 	certs   []string
+	skipped []string // serials not run because the batch was stopped
 }
 
 // loadFiles loads the station and sequence files; problems are bad input.
@@ -159,6 +160,10 @@ func runBatch(ctx context.Context, b batch) (*tally, error) {
 	t := &tally{}
 	for i, sn := range b.serials {
 		if ctx.Err() != nil {
+			// Stopped between units: the rest were never run, and the batch is not a pass.
+			t.skipped = b.serials[i:]
+			log.Warn().Strs("serials", t.skipped).Msg("batch stopped: these units were not run")
+			fmt.Fprintf(b.stderr, "stopped: %d unit(s) not run: %s\n", len(t.skipped), strings.Join(t.skipped, " "))
 			break
 		}
 		rec := eng.Run(ctx, sn)
@@ -265,6 +270,9 @@ func writeJSONLine(w io.Writer, rec *sequencer.Record, cert string) {
 
 // code returns the batch's exit code: a station fault beats a failed unit.
 func (t *tally) code() int {
+	if len(t.skipped) > 0 {
+		return exitStation
+	}
 	code := exitPass
 	for _, r := range t.records {
 		switch r.Verdict {
