@@ -35,6 +35,9 @@ type Station struct {
 	// RequireRelease makes production runs refuse sequence and limit files whose
 	// hash was never released in the ledger's audit trail.
 	RequireRelease bool
+	// ReleaseKeys is the folder of the approvers' public keys (*.pub) whose signed
+	// releases count; required with RequireRelease.
+	ReleaseKeys string
 	// SigningKey is the station's Ed25519 private key file (resolved relative to
 	// the station file); "" issues unsigned certificates.
 	SigningKey string
@@ -123,7 +126,8 @@ type stationFile struct {
 	Signing      struct {
 		Key string `yaml:"key"`
 	} `yaml:"signing"`
-	RequireRelease bool `yaml:"require_release"`
+	RequireRelease bool   `yaml:"require_release"`
+	ReleaseKeys    string `yaml:"release_keys"`
 	Safety         struct {
 		MaxSourceVoltage *units.Voltage `yaml:"max_source_voltage"`
 		MaxSourceCurrent *units.Current `yaml:"max_source_current"`
@@ -263,6 +267,15 @@ func ParseStation(name string, data []byte) (*Station, error) {
 		}
 	}
 	st.RequireRelease = f.RequireRelease
+	if k := f.ReleaseKeys; k != "" {
+		st.ReleaseKeys = k
+		if !filepath.IsAbs(k) {
+			st.ReleaseKeys = filepath.Join(filepath.Dir(name), k)
+		}
+	}
+	if st.RequireRelease && st.ReleaseKeys == "" {
+		errs = append(errs, doc.Errorf("$.require_release", "require_release needs release_keys: the folder of the approvers' public keys whose signed releases count"))
+	}
 	if k := f.Signing.Key; k != "" {
 		st.SigningKey = k
 		if !filepath.IsAbs(k) {

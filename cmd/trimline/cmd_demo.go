@@ -122,10 +122,13 @@ func writeDemoFiles(dir string, seed uint64, now time.Time) (station, sequence s
 	if err != nil {
 		return "", "", err
 	}
-	// The demo station seals its certificates with a key of its own.
-	if _, err := os.Stat(filepath.Join(dir, "keys", "TL1.key")); os.IsNotExist(err) {
-		if _, _, err := signing.Init(filepath.Join(dir, "keys"), "TL1"); err != nil {
-			return "", "", err
+	// The demo station seals its certificates with a key of its own, and its
+	// quality engineer releases files with another.
+	for _, k := range []struct{ dir, name string }{{filepath.Join(dir, "keys"), "TL1"}, {filepath.Join(dir, "keys", "approvers"), "demo-qe"}} {
+		if _, err := os.Stat(filepath.Join(k.dir, k.name+".key")); os.IsNotExist(err) {
+			if _, _, err := signing.Init(k.dir, k.name); err != nil {
+				return "", "", err
+			}
 		}
 	}
 	for _, e := range entries {
@@ -151,7 +154,12 @@ func releaseDemo(ctx context.Context, dir string) error {
 	if err != nil {
 		return stationErr(err)
 	}
-	rel, err := released(ctx, led)
+	trusted, err := signing.LoadPublicDir(filepath.Join(dir, "keys", "approvers"))
+	if err != nil {
+		led.Close()
+		return badInput(err)
+	}
+	rel, err := releasedBy(ctx, led, trusted)
 	led.Close()
 	if err != nil {
 		return stationErr(err)
@@ -166,7 +174,7 @@ func releaseDemo(ctx context.Context, dir string) error {
 			continue
 		}
 		kind := detectKind(data)
-		r, err := recordRelease(ctx, filepath.Join(dir, "ledger.db"), filepath.Join(dir, "keys", "TL1.key"), f, kind, data, "Demo Quality Engineer", "approved")
+		r, err := recordRelease(ctx, filepath.Join(dir, "ledger.db"), filepath.Join(dir, "keys", "approvers", "demo-qe.key"), f, kind, data, "Demo Quality Engineer", "approved")
 		if err != nil {
 			return err
 		}

@@ -220,7 +220,7 @@ func TestReleaseAndEngineeringRuns(t *testing.T) {
 		t.Fatal(err)
 	}
 	code, _, errOut := runCLI(t, "run", "--station", station, "--sequence", sequence, "--serial", "R-1", "--out", dir)
-	if code != exitUsage || !strings.Contains(errOut, "never released") {
+	if code != exitUsage || !strings.Contains(errOut, "not released by a trusted approver") {
 		t.Fatalf("unreleased: exit %d %s", code, errOut)
 	}
 	code, out, errOut := runCLI(t, "run", "--engineering", "--station", station, "--sequence", sequence, "--serial", "R-2", "--out", dir)
@@ -234,7 +234,15 @@ func TestReleaseAndEngineeringRuns(t *testing.T) {
 		}
 	}
 	for _, f := range []string{sequence, filepath.Join(dir, "brx200-limits.yaml")} {
-		code, out, errOut := runCLI(t, "limits", "release", f, "--by", "A. Quality", "--meaning", "approved", "--station", station)
+		// Anyone can write an unsigned release; it does not count.
+		if code, out, _ := runCLI(t, "limits", "release", f, "--by", "anyone", "--meaning", "approved", "--station", station); code != 0 || !strings.Contains(out, "unsigned") {
+			t.Fatalf("unsigned release: exit %d\n%s", code, out)
+		}
+		if code, _, errOut := runCLI(t, "run", "--station", station, "--sequence", sequence, "--serial", "R-X"); code != exitUsage || !strings.Contains(errOut, "trusted approver") {
+			t.Fatalf("an unsigned release let production run: exit %d %s", code, errOut)
+		}
+		code, out, errOut := runCLI(t, "limits", "release", f, "--by", "A. Quality", "--meaning", "approved", "--station", station,
+			"--key", filepath.Join(dir, "keys", "approvers", "demo-qe.key"))
 		if code != 0 || !strings.Contains(out, "A. Quality — approved") || !strings.Contains(out, "signed with ed25519:") {
 			t.Fatalf("release %s: exit %d\n%s%s", f, code, out, errOut)
 		}

@@ -2,6 +2,7 @@ package main
 
 import (
 	"context"
+	"crypto/ed25519"
 	"crypto/sha256"
 	"encoding/base64"
 	"encoding/hex"
@@ -47,7 +48,7 @@ func limitsRelease(ctx context.Context, args []string) error {
 	meaning := fs.String("meaning", "", "`meaning` of the signature, e.g. approved, released, reviewed")
 	ledgerPath := fs.String("ledger", "", "ledger `file` (default: the station's output folder's ledger.db)")
 	stationPath := fs.String("station", "", "station `file`: its ledger and signing key are used")
-	keyPath := fs.String("key", "", "private key `file` to sign the release (default: the station's)")
+	keyPath := fs.String("key", "", "the approver's private key `file` that signs the release (its .pub must be in the station's release_keys)")
 	pos, err := parseInterleaved(fs, args)
 	if err != nil {
 		return usageErr("%v", err)
@@ -81,9 +82,6 @@ func limitsRelease(ctx context.Context, args []string) error {
 		if lp == "" && st.OutputFolder != "" {
 			lp = filepath.Join(st.OutputFolder, "ledger.db")
 		}
-		if kp == "" {
-			kp = st.SigningKey
-		}
 	}
 	if lp == "" {
 		return usageErr("give --ledger or --station")
@@ -95,6 +93,8 @@ func limitsRelease(ctx context.Context, args []string) error {
 	fmt.Fprintf(stdoutW, "%s (%s file, SHA-256 %s)\n%s — %s — %s\n", pos[0], kind, r.SHA256, r.By, r.Meaning, r.At.Format("2006-01-02 15:04:05 UTC"))
 	if r.KeyID != "" {
 		fmt.Fprintf(stdoutW, "signed with %s\n", r.KeyID)
+	} else {
+		fmt.Fprintln(stdoutW, "unsigned: stations that require releases will not accept it (give --key)")
 	}
 	return nil
 }
@@ -144,9 +144,15 @@ func released(ctx context.Context, led *ledger.Ledger) (map[string]release, erro
 	return out, nil
 }
 
-// checkReleased refuses a production run on a sequence or limit file nobody released.
-func checkReleased(ctx context.Context, led *ledger.Ledger, seq *sequencer.Sequence) error {
-	rel, err := released(ctx, led)
+// checkReleased refuses a production run on a sequence or limit file that no
+// trusted approver released: a release counts only when its signature verifies
+// with one of the public keys in the station's release_keys folder.
+func checkReleased(ctx context.Context, led *ledger.Ledger, st *sequencer.Station, seq *sequencer.Sequence) error {
+	trusted, err := signing.LoadPublicDir(st.ReleaseKeys)
+	if err != nil {
+		return badInput(fmt.Errorf("%s release_keys: %w", st.File.Name, err))
+	}
+	rel, err := releasedBy(ctx, led, trusted)
 	if err != nil {
 		return stationErr(err)
 	}
@@ -157,11 +163,28 @@ func checkReleased(ctx context.Context, led *ledger.Ledger, seq *sequencer.Seque
 		}
 	}
 	if len(missing) > 0 {
-		return badInput(fmt.Errorf("production runs need released files; never released: %s. Release them with "+
-			"'trimline limits release FILE --by NAME --meaning approved', or run with --engineering (certificates then say ENGINEERING RUN — NOT FOR SHIPMENT)",
-			strings.Join(missing, "; ")))
+		return badInput(fmt.Errorf("production runs need released files; not released by a trusted approver (%s): %s. An approver releases them with "+
+			"'trimline limits release FILE --by NAME --meaning approved --key THEIR.key', or run with --engineering (certificates then say ENGINEERING RUN — NOT FOR SHIPMENT)",
+			st.ReleaseKeys, strings.Join(missing, "; ")))
 	}
 	return nil
+}
+
+// releasedBy returns the releases whose signature verifies with a trusted key.
+func releasedBy(ctx context.Context, led *ledger.Ledger, trusted map[string]ed25519.PublicKey) (map[string]release, error) {
+	all, err := released(ctx, led)
+	if err != nil {
+		return nil, err
+	}
+	out := map[string]release{}
+	for sha, r := range all {
+		pub, ok := trusted[r.KeyID]
+		sig, err := base64.StdEncoding.DecodeString(r.Signature)
+		if ok && err == nil && signing.Verify(pub, releaseMessage(r), sig) {
+			out[sha] = r
+		}
+	}
+	return out, nil
 }
 
 func limitsRefOf(s *limits.Set) sequencer.FileRef {

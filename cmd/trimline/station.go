@@ -111,7 +111,7 @@ func runBatch(ctx context.Context, b batch) (*tally, error) {
 	}
 	defer led.Close()
 	if st.RequireRelease && !b.engineering {
-		if err := checkReleased(ctx, led, seq); err != nil {
+		if err := checkReleased(ctx, led, st, seq); err != nil {
 			return nil, err
 		}
 	}
