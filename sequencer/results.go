@@ -18,7 +18,7 @@ const (
 	ResPostGainError    = "post_gain_error"   // slope/ideal − 1 after trim, fraction
 	ResPostNonlinearity = "post_nonlinearity" // max |residual| / full scale after trim, fraction
 	ResPostMaxError     = "post_max_error"    // max |mean − ideal| over the verification points, V
-	ResPostNoise        = "post_noise"        // largest per-point standard deviation after trim, V rms
+	ResPostNoise        = "post_noise"        // pooled standard deviation of the verification readings, V rms
 )
 
 // ResultCatalog is every result name with its dimension, for limits.Load.

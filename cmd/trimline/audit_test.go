@@ -208,6 +208,28 @@ func TestRepairRepublishesByteIdentical(t *testing.T) {
 	if !bytes.Equal(issue("normal", false), issue("crashed", true)) {
 		t.Fatal("the republished certificate differs from the one the station would have issued")
 	}
+	// A PDF and seal lost after the document was recorded are written again at the
+	// next start, identical.
+	pdfs := mustGlob(t, filepath.Join(dir, "normal", "certificates", "*.pdf"))
+	want, _ := os.ReadFile(pdfs[0])
+	os.Remove(pdfs[0])
+	os.Remove(pdfs[0] + ".seal")
+	led, err := ledger.Open(context.Background(), filepath.Join(dir, "normal", "ledger.db"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer led.Close()
+	is := &issuer{led: led, key: key, st: st, seq: seq, certDir: filepath.Join(dir, "normal", "certificates")}
+	if n, err := is.repair(context.Background()); err != nil || n != 1 {
+		t.Fatalf("repair of lost files: %d %v", n, err)
+	}
+	got, _ := os.ReadFile(pdfs[0])
+	if !bytes.Equal(got, want) {
+		t.Error("the rewritten PDF differs")
+	}
+	if _, err := os.Stat(pdfs[0] + ".seal"); err != nil {
+		t.Error("the seal was not rewritten")
+	}
 }
 
 // A unit's record exports as one bundle, imports into an auditor's ledger on

@@ -111,12 +111,47 @@ func (is *issuer) publish(ctx context.Context, rec *sequencer.Record, meta ledge
 	return signing.WriteSeal(path+".seal", seal)
 }
 
+// recentChecked is how many of the newest certified runs repair checks for a lost
+// PDF or seal file: a crash interrupts only the run in flight, so the newest few
+// cover it without a scan of the whole ledger at every start.
+const recentChecked = 20
+
 // repair publishes every certified run whose document is missing (a crash between
-// the ledger commit and the document) and reports how many it published.
+// the ledger commit and the document), and the newest runs whose PDF or seal file
+// is gone (a crash after the document row), and reports how many it published.
 func (is *issuer) repair(ctx context.Context) (int, error) {
 	missing, err := is.led.MissingDocuments(ctx)
 	if err != nil {
 		return 0, err
+	}
+	runs, err := is.led.Runs(ctx, "")
+	if err != nil {
+		return 0, err
+	}
+	for i, r := range runs {
+		if i >= recentChecked {
+			break
+		}
+		if r.Certificate == "" {
+			continue
+		}
+		if st, err := is.led.CertificateStatus(ctx, r.Certificate); err != nil || st.Voided {
+			continue // a voided certificate is not published again
+		}
+		docs, err := is.led.DocumentsFor(ctx, r.Certificate)
+		if err != nil || len(docs) == 0 {
+			continue // already in missing
+		}
+		d := docs[len(docs)-1]
+		_, perr := os.Stat(d.Path)
+		_, serr := os.Stat(d.Path + ".seal")
+		if perr != nil || (d.KeyID != "" && serr != nil) {
+			_, meta, err := is.led.RunByCertificate(ctx, r.Certificate)
+			if err != nil {
+				return 0, err
+			}
+			missing = append(missing, meta)
+		}
 	}
 	for _, m := range missing {
 		rec, meta, err := is.led.RunByCertificate(ctx, m.Certificate)
