@@ -498,11 +498,21 @@ func (e *Engine) judge(rec *Record, res *results) {
 	rec.Coverage = e.coverage()
 	rec.Outcomes = set.Judge(res.values)
 	failedBefore := len(rec.Reasons) > 0
+	// As-found limits first (an untrimmed value far out names an assembly fault, the
+	// real cause), then what stopped the run (a saturated trim), then the rest.
+	var asFound, later []string
 	for _, o := range rec.Outcomes {
-		if !o.Pass {
-			rec.Reasons = append(rec.Reasons, fmt.Sprintf("limit %q: %s", o.Name, o.Reason))
+		if o.Pass {
+			continue
+		}
+		r := fmt.Sprintf("limit %q: %s", o.Name, o.Reason)
+		if usesPre(o.Uses) {
+			asFound = append(asFound, r)
+		} else {
+			later = append(later, r)
 		}
 	}
+	rec.Reasons = append(append(asFound, rec.Reasons...), later...)
 	switch overall := set.Overall(rec.Outcomes); {
 	case failedBefore || overall == "fail":
 		rec.Verdict = Fail
@@ -511,6 +521,15 @@ func (e *Engine) judge(rec *Record, res *results) {
 	default:
 		rec.Verdict = Pass
 	}
+}
+
+func usesPre(names []string) bool {
+	for _, n := range names {
+		if strings.HasPrefix(n, "pre_") {
+			return true
+		}
+	}
+	return false
 }
 
 // idealCodeU propagates the pre-trim fit's uncertainty to the exact codes, to first

@@ -332,7 +332,7 @@ func TestSaturatedTrimFailsWithReason(t *testing.T) {
 	// +30 mV offset needs an offset code below 0 (hand-worked in the trim test).
 	e := setup(t, "sim", ideal(map[string]string{"offset": "30 mV", "gain_error": "0 ppm"}), "")
 	rec := e.Run(context.Background(), "BRX-00003")
-	if rec.Verdict != sequencer.Fail || len(rec.Reasons) == 0 || !strings.Contains(rec.Reasons[0], "offset trim needs code") {
+	if rec.Verdict != sequencer.Fail || !strings.Contains(strings.Join(rec.Reasons, "\n"), "offset trim needs code") {
 		t.Fatalf("verdict %s reasons %v", rec.Verdict, rec.Reasons)
 	}
 	for _, tc := range rec.Trims {
