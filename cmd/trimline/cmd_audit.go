@@ -134,6 +134,9 @@ func (a *auditor) keys() (map[string]ed25519.PublicKey, error) {
 		return nil, badInput(err)
 	}
 	a.keysFrom = fmt.Sprintf("trusted keys: %s (%d)", d, len(ks))
+	if a.keysDir == "" {
+		a.keysFrom += " — the keys beside the ledger; for files that came from elsewhere pass --keys with your own copy of the station's public key"
+	}
 	return ks, nil
 }
 
