@@ -124,14 +124,11 @@ func (is *issuer) repair(ctx context.Context) (int, error) {
 	if err != nil {
 		return 0, err
 	}
-	runs, err := is.led.Runs(ctx, "")
+	runs, err := is.led.RecentRuns(ctx, recentChecked)
 	if err != nil {
 		return 0, err
 	}
-	for i, r := range runs {
-		if i >= recentChecked {
-			break
-		}
+	for _, r := range runs {
 		if r.Certificate == "" {
 			continue
 		}

@@ -785,6 +785,15 @@ type RunSummary struct {
 // only those of serial unless serial is "". It returns an empty slice when there are
 // none.
 func (l *Ledger) Runs(ctx context.Context, serial string) ([]RunSummary, error) {
+	return l.runs(ctx, serial, 0)
+}
+
+// RecentRuns is Runs of every serial, at most n of the newest (n ≤ 0: all).
+func (l *Ledger) RecentRuns(ctx context.Context, n int) ([]RunSummary, error) {
+	return l.runs(ctx, "", n)
+}
+
+func (l *Ledger) runs(ctx context.Context, serial string, limit int) ([]RunSummary, error) {
 	q := `SELECT run_id, serial, product, revision, station, verdict, certificate, started, finished FROM runs`
 	var args []any
 	if serial != "" {
@@ -792,6 +801,10 @@ func (l *Ledger) Runs(ctx context.Context, serial string) ([]RunSummary, error) 
 		args = append(args, serial)
 	}
 	q += ` ORDER BY started DESC, run_id DESC`
+	if limit > 0 {
+		q += ` LIMIT ?`
+		args = append(args, limit)
+	}
 	rows, err := l.db.QueryContext(ctx, q, args...)
 	if err != nil {
 		return nil, fmt.Errorf("ledger: runs: %w", err)
