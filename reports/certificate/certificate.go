@@ -39,11 +39,9 @@ import (
 	"time"
 
 	"github.com/jung-kurt/gofpdf"
-	"golang.org/x/image/font/gofont/gobold"
-	"golang.org/x/image/font/gofont/gomono"
-	"golang.org/x/image/font/gofont/goregular"
 
 	"trimline/reports/internal/atomicfile"
+	"trimline/reports/internal/pdfdoc"
 	"trimline/sequencer"
 )
 
@@ -150,42 +148,17 @@ func safeName(s string) string {
 	return b.String()
 }
 
-// Font families registered in every document.
+// Font families registered in every document (by pdfdoc.New).
 const (
-	sans = "gosans"
-	mono = "gomono"
-)
-
-// Pristine copies of the Go fonts, taken before anything can touch them.
-// gofpdf v1.16.2 writes into the byte slice given to AddUTF8FontFromBytes (its
-// hmtx reader appends to a sub-slice of the font), so every document gets a fresh
-// clone: handing it goregular.TTF itself would corrupt that shared slice and make
-// the next document differ.
-var (
-	ttfRegular = bytes.Clone(goregular.TTF)
-	ttfBold    = bytes.Clone(gobold.TTF)
-	ttfMono    = bytes.Clone(gomono.TTF)
+	sans = pdfdoc.Sans
+	mono = pdfdoc.Mono
 )
 
 // render lays out the whole document and returns it ready for Output.
 func render(rec *sequencer.Record, opt Options) (*gofpdf.Fpdf, error) {
-	pdf := gofpdf.New("P", "mm", "A4", "")
-	stamp := rec.Finished.UTC()
-	if rec.Finished.IsZero() {
-		// gofpdf would use the wall clock for a zero date; a fixed date keeps the
-		// output reproducible for records that never finished.
-		stamp = time.Unix(0, 0).UTC()
-	}
-	pdf.SetCreationDate(stamp)
-	pdf.SetModificationDate(stamp)
-	pdf.SetCatalogSort(true)
-	pdf.SetCompression(true)
-	pdf.SetAutoPageBreak(false, 0)
-	pdf.SetMargins(marginL, marginT, marginR)
-	pdf.SetCellMargin(0)
-	pdf.AddUTF8FontFromBytes(sans, "", bytes.Clone(ttfRegular))
-	pdf.AddUTF8FontFromBytes(sans, "B", bytes.Clone(ttfBold))
-	pdf.AddUTF8FontFromBytes(mono, "", bytes.Clone(ttfMono))
+	// A zero date (a record that never finished) becomes the epoch in pdfdoc.New,
+	// keeping the output reproducible.
+	pdf := pdfdoc.New(rec.Finished, marginL, marginT, marginR)
 
 	title := "Trim and calibration certificate"
 	pdf.SetTitle(strings.TrimSpace(title+" "+opt.Number), true)

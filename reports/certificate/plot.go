@@ -3,6 +3,8 @@ package certificate
 import (
 	"math"
 	"strconv"
+
+	"trimline/reports/internal/pdfdoc"
 )
 
 // xy is one plotted point: stimulus and error in volts, s the standard deviation
@@ -37,65 +39,16 @@ func siScale(maxAbs float64) (float64, string) {
 	return 1e-9, "nV"
 }
 
-// niceStep is the round step (1, 2, 2.5 or 5 times a power of ten) nearest to
-// span/n.
-func niceStep(span float64, n int) float64 {
-	raw := span / float64(n)
-	mag := math.Pow(10, math.Floor(math.Log10(raw)))
-	f := raw / mag
-	switch {
-	case f < 1.5:
-		f = 1
-	case f < 2.25:
-		f = 2
-	case f < 3.5:
-		f = 2.5
-	case f < 7.5:
-		f = 5
-	default:
-		f = 10
-	}
-	return f * mag
-}
-
-// axis is a linear axis with round ticks inside [lo, hi].
-type axis struct {
-	lo, hi float64
-	step   float64
-	ticks  []float64
-	dec    int // decimals of the tick labels
-}
-
 // newAxis makes an axis that shows [lo, hi] with a margin of pad (a fraction of
 // the span) on each side.
-func newAxis(lo, hi, pad float64, n int) axis {
-	if hi < lo {
-		lo, hi = hi, lo
-	}
-	if hi-lo < 1e-12*math.Max(1, math.Abs(hi)) {
-		m := math.Max(math.Abs(hi)*0.5, 1)
-		lo, hi = lo-m, hi+m
-	}
-	m := (hi - lo) * pad
-	a := axis{lo: lo - m, hi: hi + m}
-	a.step = niceStep(a.hi-a.lo, n)
-	for k := math.Ceil(a.lo/a.step - 1e-9); k*a.step <= a.hi+1e-9*a.step; k++ {
-		v := k * a.step
-		if math.Abs(v) < a.step*1e-9 {
-			v = 0
-		}
-		a.ticks = append(a.ticks, v)
-	}
-	for a.dec = 0; a.dec < 6; a.dec++ {
-		s := a.step * math.Pow(10, float64(a.dec))
-		if math.Abs(s-math.Round(s)) < 1e-6*s {
-			break
-		}
-	}
-	return a
+func newAxis(lo, hi, pad float64, n int) pdfdoc.Axis {
+	m := math.Abs(hi-lo) * pad
+	return pdfdoc.NewAxis(math.Min(lo, hi)-m, math.Max(lo, hi)+m, n)
 }
 
-func (a axis) label(v float64) string { return minus(strconv.FormatFloat(v, 'f', a.dec, 64)) }
+func axisLabel(a pdfdoc.Axis, v float64) string {
+	return minus(strconv.FormatFloat(v, 'f', a.Dec, 64))
+}
 
 // plot draws one error-versus-stimulus chart in the box (x, y, w, h).
 func (d *doc) plot(x, y, w, h float64, title string, s series) {
@@ -142,19 +95,19 @@ func (d *doc) plot(x, y, w, h float64, title string, s series) {
 	}
 	ax := newAxis(xlo, xhi, 0.04, 5)
 	ay := newAxis(ylo, yhi, 0.08, 5)
-	mapX := func(v float64) float64 { return px + (v-ax.lo)/(ax.hi-ax.lo)*pw }
-	mapY := func(v float64) float64 { return py + ph - (v-ay.lo)/(ay.hi-ay.lo)*ph }
+	mapX := func(v float64) float64 { return px + ax.Pos(v, pw) }
+	mapY := func(v float64) float64 { return py + ph - ay.Pos(v, ph) }
 
 	// Gridlines and tick labels.
 	tick := stSmall.sized(6.3)
 	d.pdf.SetLineWidth(0.15)
-	for _, t := range ax.ticks {
+	for _, t := range ax.Ticks {
 		gx := mapX(t)
 		d.draw(colGrid)
 		d.pdf.Line(gx, py, gx, py+ph)
-		d.text(gx-8, py+ph+0.6, 16, 3, ax.label(t), tick, "C")
+		d.text(gx-8, py+ph+0.6, 16, 3, axisLabel(ax, t), tick, "C")
 	}
-	for _, t := range ay.ticks {
+	for _, t := range ay.Ticks {
 		gy := mapY(t)
 		d.draw(colGrid)
 		d.pdf.SetLineWidth(0.15)
@@ -163,9 +116,9 @@ func (d *doc) plot(x, y, w, h float64, title string, s series) {
 			d.pdf.SetLineWidth(0.3)
 		}
 		d.pdf.Line(px, gy, px+pw, gy)
-		d.text(px-13, gy-1.5, 12, 3, ay.label(t), tick, "R")
+		d.text(px-13, gy-1.5, 12, 3, axisLabel(ay, t), tick, "R")
 	}
-	if ay.lo < 0 && ay.hi > 0 && !containsZero(ay.ticks) {
+	if ay.Lo < 0 && ay.Hi > 0 && !containsZero(ay.Ticks) {
 		d.draw(colMuted)
 		d.pdf.SetLineWidth(0.3)
 		d.pdf.Line(px, mapY(0), px+pw, mapY(0))

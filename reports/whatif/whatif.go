@@ -19,12 +19,10 @@ import (
 	"time"
 
 	"github.com/jung-kurt/gofpdf"
-	"golang.org/x/image/font/gofont/gobold"
-	"golang.org/x/image/font/gofont/gomono"
-	"golang.org/x/image/font/gofont/goregular"
 
 	"trimline/limits"
 	"trimline/reports/internal/atomicfile"
+	"trimline/reports/internal/pdfdoc"
 	"trimline/sequencer/units"
 )
 
@@ -76,16 +74,8 @@ const (
 )
 
 const (
-	sans = "gosans"
-	mono = "gomono"
-)
-
-// Pristine copies of the Go fonts. gofpdf writes into the slice it is given, so
-// each document gets its own clone of these.
-var (
-	ttfRegular = bytes.Clone(goregular.TTF)
-	ttfBold    = bytes.Clone(gobold.TTF)
-	ttfMono    = bytes.Clone(gomono.TTF)
+	sans = pdfdoc.Sans
+	mono = pdfdoc.Mono
 )
 
 type rgb struct{ r, g, b int }
@@ -119,17 +109,7 @@ func render(r limits.WhatIfReport, generated time.Time) (*gofpdf.Fpdf, error) {
 	if generated.IsZero() {
 		stamp = time.Unix(0, 0).UTC()
 	}
-	pdf := gofpdf.New("P", "mm", "A4", "")
-	pdf.SetCreationDate(stamp)
-	pdf.SetModificationDate(stamp)
-	pdf.SetCatalogSort(true)
-	pdf.SetCompression(true)
-	pdf.SetAutoPageBreak(false, 0)
-	pdf.SetMargins(marginL, marginT, marginR)
-	pdf.SetCellMargin(0)
-	pdf.AddUTF8FontFromBytes(sans, "", bytes.Clone(ttfRegular))
-	pdf.AddUTF8FontFromBytes(sans, "B", bytes.Clone(ttfBold))
-	pdf.AddUTF8FontFromBytes(mono, "", bytes.Clone(ttfMono))
+	pdf := pdfdoc.New(stamp, marginL, marginT, marginR)
 	pdf.SetTitle("What-if re-judging", true)
 	pdf.SetSubject(orDash(r.Old)+" → "+orDash(r.New), true)
 	pdf.SetCreator("trimline", true)
@@ -483,18 +463,18 @@ func (d *doc) histogram(dist limits.Distribution) {
 		}
 	}
 	pad := (vhi - vlo) * 0.04
-	ax := newAxis(vlo-pad, vhi+pad, 7)
+	ax := pdfdoc.NewAxis(vlo-pad, vhi+pad, 7)
 
 	const yAxisW = 12.0
 	px, pw := marginL+yAxisW, contentW-yAxisW-2
 	py := d.y + bandH
-	xOf := func(v float64) float64 { return px + (v-ax.lo)/(ax.hi-ax.lo)*pw }
+	xOf := func(v float64) float64 { return px + ax.Pos(v, pw) }
 
 	most := 1
 	for _, c := range dist.Bins {
 		most = max(most, c)
 	}
-	ystep := math.Max(1, math.Ceil(niceStep(float64(most), 4)))
+	ystep := math.Max(1, math.Ceil(pdfdoc.NiceStep(float64(most), 4)))
 	ymax := math.Ceil(float64(most)/ystep) * ystep
 	yOf := func(c float64) float64 { return py + plotH - c/ymax*plotH }
 
@@ -507,13 +487,13 @@ func (d *doc) histogram(dist limits.Distribution) {
 		d.pdf.Line(px, y, px+pw, y)
 		d.textR(px-1.5, y+0.9, strconv.FormatFloat(c, 'f', 0, 64))
 	}
-	for _, t := range ax.ticks {
+	for _, t := range ax.Ticks {
 		x := xOf(t)
 		d.draw(colGrid)
 		d.pdf.Line(x, py, x, py+plotH)
 		d.draw(colMuted)
 		d.pdf.Line(x, py+plotH, x, py+plotH+1)
-		d.textC(x, py+plotH+3.8, ax.label(t))
+		d.textC(x, py+plotH+3.8, axisLabel(ax, t))
 	}
 	d.font("", 7, colMuted)
 	xl := "value"
@@ -572,9 +552,9 @@ func (d *doc) histogram(dist limits.Distribution) {
 			x := xOf(e.v)
 			outside := 0
 			switch {
-			case e.v < ax.lo:
+			case e.v < ax.Lo:
 				x, outside = px, -1
-			case e.v > ax.hi:
+			case e.v > ax.Hi:
 				x, outside = px+pw, 1
 			}
 			d.draw(col)
@@ -883,65 +863,8 @@ func near(a, b float64) bool {
 	return math.Abs(a-b) <= 1e-9*math.Max(1, math.Max(math.Abs(a), math.Abs(b)))
 }
 
-// niceStep is the round step (1, 2, 2.5 or 5 times a power of ten) nearest to
-// span/n.
-func niceStep(span float64, n int) float64 {
-	raw := span / float64(n)
-	if !(raw > 0) || math.IsInf(raw, 0) {
-		return 1
-	}
-	mag := math.Pow(10, math.Floor(math.Log10(raw)))
-	f := raw / mag
-	switch {
-	case f < 1.5:
-		f = 1
-	case f < 2.25:
-		f = 2
-	case f < 3.5:
-		f = 2.5
-	case f < 7.5:
-		f = 5
-	default:
-		f = 10
-	}
-	return f * mag
-}
-
-// axis is a linear axis over [lo, hi] with round ticks inside it.
-type axis struct {
-	lo, hi float64
-	step   float64
-	ticks  []float64
-	dec    int
-}
-
-func newAxis(lo, hi float64, n int) axis {
-	if hi < lo {
-		lo, hi = hi, lo
-	}
-	if hi-lo < 1e-12*math.Max(1, math.Abs(hi)) {
-		m := math.Max(math.Abs(hi)*0.5, 1)
-		lo, hi = lo-m, hi+m
-	}
-	a := axis{lo: lo, hi: hi, step: niceStep(hi-lo, n)}
-	for k := math.Ceil(lo/a.step - 1e-9); k*a.step <= hi+1e-9*a.step && len(a.ticks) < 40; k++ {
-		v := k * a.step
-		if math.Abs(v) < a.step*1e-9 {
-			v = 0
-		}
-		a.ticks = append(a.ticks, v)
-	}
-	for a.dec = 0; a.dec < 9; a.dec++ {
-		s := a.step * math.Pow(10, float64(a.dec))
-		if math.Abs(s-math.Round(s)) < 1e-6*s {
-			break
-		}
-	}
-	return a
-}
-
-func (a axis) label(v float64) string {
-	s := strconv.FormatFloat(v, 'f', a.dec, 64)
+func axisLabel(a pdfdoc.Axis, v float64) string {
+	s := strconv.FormatFloat(v, 'f', a.Dec, 64)
 	if strings.Trim(s, "-0.") == "" {
 		s = strings.TrimPrefix(s, "-")
 	}
