@@ -193,17 +193,23 @@ func scanRunMeta(s interface{ Scan(...any) error }, extra ...any) (RunMeta, erro
 // returns it (checked against its SHA-256), and its RunMeta. Errors (wrapped):
 // ErrNotFound for a number no run has; ErrCorrupt as for Run.
 func (l *Ledger) RunByCertificate(ctx context.Context, number string) (*sequencer.Record, RunMeta, error) {
+	return l.runWithMeta(ctx, "certificate", number, "certificate "+number)
+}
+
+// runWithMeta reads one run's record and RunMeta by a unique column (certificate
+// or run_id); what names it in errors.
+func (l *Ledger) runWithMeta(ctx context.Context, column, value, what string) (*sequencer.Record, RunMeta, error) {
 	var doc []byte
-	m, err := scanRunMeta(l.db.QueryRowContext(ctx, `SELECT `+runMetaColumns+`, record_json FROM runs WHERE certificate = ?`, number), &doc)
+	m, err := scanRunMeta(l.db.QueryRowContext(ctx, `SELECT `+runMetaColumns+`, record_json FROM runs WHERE `+column+` = ?`, value), &doc)
 	if errors.Is(err, sql.ErrNoRows) {
-		return nil, RunMeta{}, fmt.Errorf("ledger: certificate %s: %w", number, ErrNotFound)
+		return nil, RunMeta{}, fmt.Errorf("ledger: %s: %w", what, ErrNotFound)
 	}
 	if err != nil {
-		return nil, RunMeta{}, fmt.Errorf("ledger: certificate %s: %w", number, err)
+		return nil, RunMeta{}, fmt.Errorf("ledger: %s: %w", what, err)
 	}
 	rec, err := decodeRecord(m.RunID, doc, m.RecordSHA256)
 	if err != nil {
-		return nil, RunMeta{}, fmt.Errorf("ledger: certificate %s: %w", number, err)
+		return nil, RunMeta{}, fmt.Errorf("ledger: %w", err)
 	}
 	return rec, m, nil
 }

@@ -120,19 +120,7 @@ func DecodeCanonical(doc []byte) (*sequencer.Record, error) {
 // run with or without a certificate number. Errors (wrapped): ErrNotFound for an
 // unknown run id; ErrCorrupt as for Run.
 func (l *Ledger) RunByID(ctx context.Context, runID string) (*sequencer.Record, RunMeta, error) {
-	var doc []byte
-	m, err := scanRunMeta(l.db.QueryRowContext(ctx, `SELECT `+runMetaColumns+`, record_json FROM runs WHERE run_id = ?`, runID), &doc)
-	if errors.Is(err, sql.ErrNoRows) {
-		return nil, RunMeta{}, fmt.Errorf("ledger: run %s: %w", runID, ErrNotFound)
-	}
-	if err != nil {
-		return nil, RunMeta{}, fmt.Errorf("ledger: run %s: %w", runID, err)
-	}
-	rec, err := decodeRecord(runID, doc, m.RecordSHA256)
-	if err != nil {
-		return nil, RunMeta{}, fmt.Errorf("ledger: %w", err)
-	}
-	return rec, m, nil
+	return l.runWithMeta(ctx, "run_id", runID, "run "+runID)
 }
 
 // ImportRun stores another station's run, in one transaction: the row of
