@@ -26,6 +26,7 @@ import (
 
 	"trimline/instruments"
 	"trimline/limits"
+	"trimline/sequencer/units"
 )
 
 // Config is what an Engine needs besides the instruments.
@@ -248,7 +249,7 @@ func (e *Engine) Run(ctx context.Context, serial string) (rec *Record) {
 	rec = &Record{
 		Schema: RecordSchema, Serial: serial, Product: seq.Product, Revision: seq.Revision,
 		Station: st.ID, Operator: e.cfg.Operator, Software: e.cfg.Software, Started: now,
-		Files:       []FileRef{st.File, seq.File, limitsRef(seq.Limits)},
+		Files:       []FileRef{st.File, seq.File, seq.LimitsFile},
 		Instruments: append([]InstrumentRef(nil), e.refs...),
 		IdealGain:   seq.IdealGain, IdealOffset: seq.IdealOffset, FullScale: seq.FullScale,
 		Conditions: e.cfg.Conditions, Coverage: e.coverage(), Engineering: e.cfg.Engineering,
@@ -763,17 +764,6 @@ func (r *results) list() []Result {
 	return out
 }
 
-func limitsRef(s *limits.Set) FileRef {
-	if s == nil {
-		return FileRef{Kind: "limits"}
-	}
-	title := strings.TrimSpace(s.Name + " rev " + s.Revision)
-	if s.VariantName != "" {
-		title += ", variant " + s.VariantName
-	}
-	return FileRef{Kind: "limits", Name: baseName(s.File), Title: title, SHA256: s.SHA256}
-}
-
 func baseName(p string) string {
 	if i := strings.LastIndexAny(p, `/\`); i >= 0 {
 		return p[i+1:]
@@ -794,5 +784,5 @@ func orZero(s string) string {
 	return s
 }
 
-func fmtV(v float64) string { return formatSI(v, "V") }
-func fmtA(v float64) string { return formatSI(v, "A") }
+func fmtV(v float64) string { return units.Format(v, "V", 4) }
+func fmtA(v float64) string { return units.Format(v, "A", 4) }

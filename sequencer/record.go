@@ -174,7 +174,7 @@ func FaultRecord(cfg Config, serial string, now time.Time, err error) *Record {
 	st, seq := cfg.Station, cfg.Sequence
 	rec := &Record{Schema: RecordSchema, Serial: serial, Product: seq.Product, Revision: seq.Revision,
 		Station: st.ID, Operator: cfg.Operator, Software: cfg.Software, Started: now.UTC(), Finished: now.UTC(),
-		Files:     []FileRef{st.File, seq.File, limitsRef(seq.Limits)},
+		Files:     []FileRef{st.File, seq.File, seq.LimitsFile},
 		IdealGain: seq.IdealGain, IdealOffset: seq.IdealOffset, FullScale: seq.FullScale,
 		Conditions: cfg.Conditions, Engineering: cfg.Engineering, Verdict: Fault, Fault: "station could not start the unit: " + err.Error()}
 	for _, r := range seq.Requires {

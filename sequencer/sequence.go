@@ -38,6 +38,8 @@ type Sequence struct {
 
 	Limits *limits.Set
 	File   FileRef
+	// LimitsFile names the limit file in force, with the variant that applies.
+	LimitsFile FileRef
 	// Raw and LimitsRaw are the exact bytes of the sequence and limit files, for
 	// the ledger's content-addressed store.
 	Raw, LimitsRaw []byte
@@ -303,7 +305,19 @@ func ParseSequence(name string, data []byte, read func(path string) ([]byte, err
 		sortErrs(errs)
 		return nil, errs
 	}
+	s.LimitsFile = limitsFileRef(s.Limits)
 	return s, nil
+}
+
+func limitsFileRef(s *limits.Set) FileRef {
+	if s == nil {
+		return FileRef{Kind: "limits"}
+	}
+	title := strings.TrimSpace(s.Name + " rev " + s.Revision)
+	if s.VariantName != "" {
+		title += ", variant " + s.VariantName
+	}
+	return FileRef{Kind: "limits", Name: baseName(s.File), Title: title, SHA256: s.SHA256}
 }
 
 func sweepPlan(doc *files.Doc, path string, d *sweepDecl, errs *files.List) SweepPlan {

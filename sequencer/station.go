@@ -3,6 +3,7 @@ package sequencer
 import (
 	"crypto/sha256"
 	"encoding/hex"
+	"errors"
 	"fmt"
 	"os"
 	"path/filepath"
@@ -224,7 +225,7 @@ func ParseStation(name string, data []byte) (*Station, error) {
 			spec := si.spec()
 			if err := instruments.Check([]instruments.Spec{spec}); err != nil {
 				var se *instruments.SettingError
-				if errorsAs(err, &se) {
+				if errors.As(err, &se) {
 					path := base + ".settings." + se.Key
 					if t, ok := strings.CutPrefix(se.Key, "templates."); ok {
 						path = base + ".templates." + t

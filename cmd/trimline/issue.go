@@ -37,7 +37,7 @@ func (is *issuer) record(ctx context.Context, rec *sequencer.Record) (string, er
 	for _, f := range []struct {
 		ref sequencer.FileRef
 		raw []byte
-	}{{is.st.File, is.st.Raw}, {is.seq.File, is.seq.Raw}, {limitsFileRef(rec), is.seq.LimitsRaw}} {
+	}{{is.st.File, is.st.Raw}, {is.seq.File, is.seq.Raw}, {is.seq.LimitsFile, is.seq.LimitsRaw}} {
 		if f.ref.SHA256 != "" && f.raw != nil {
 			opt.Files[f.ref.SHA256] = f.raw
 		}
@@ -57,15 +57,6 @@ func (is *issuer) record(ctx context.Context, rec *sequencer.Record) (string, er
 		return cert, err
 	}
 	return cert, is.publish(ctx, rec, ledger.RunMeta{RunID: rec.RunID, Certificate: cert, RecordSHA256: recSHA, KeyID: keyID, Signature: sig})
-}
-
-func limitsFileRef(rec *sequencer.Record) sequencer.FileRef {
-	for _, f := range rec.Files {
-		if f.Kind == "limits" {
-			return f
-		}
-	}
-	return sequencer.FileRef{}
 }
 
 // certOptions are the certificate options of a recorded run; they depend only on

@@ -157,7 +157,7 @@ func checkReleased(ctx context.Context, led *ledger.Ledger, st *sequencer.Statio
 		return stationErr(err)
 	}
 	var missing []string
-	for _, f := range []sequencer.FileRef{seq.File, limitsRefOf(seq.Limits)} {
+	for _, f := range []sequencer.FileRef{seq.File, seq.LimitsFile} {
 		if _, ok := rel[f.SHA256]; !ok {
 			missing = append(missing, fmt.Sprintf("%s file %s (SHA-256 %s…)", f.Kind, f.Name, f.SHA256[:12]))
 		}
@@ -185,11 +185,6 @@ func releasedBy(ctx context.Context, led *ledger.Ledger, trusted map[string]ed25
 		}
 	}
 	return out, nil
-}
-
-func limitsRefOf(s *limits.Set) sequencer.FileRef {
-	sum := s.SHA256
-	return sequencer.FileRef{Kind: "limits", Name: filepath.Base(s.File), SHA256: sum}
 }
 
 func init() { limitsSubs["whatif"] = limitsWhatIf }
