@@ -183,9 +183,6 @@ func Open(ctx context.Context, cfg Config) (*Engine, error) {
 // Instrument returns the opened instrument for role, or nil.
 func (e *Engine) Instrument(role string) instruments.Instrument { return e.all[role] }
 
-// Clock returns the time base the engine runs on.
-func (e *Engine) Clock() instruments.Clock { return e.clock }
-
 // Close switches the source output off and closes every instrument. Safe to call
 // twice.
 func (e *Engine) Close() error {
