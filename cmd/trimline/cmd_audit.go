@@ -48,12 +48,6 @@ void NUMBER        voids a certificate with --by and --reason; it stays in the
 		if len(args) == 0 {
 			return usageErr("name a subcommand: verify, ledger, replay or void")
 		}
-		// Flags may also follow the subcommand: trimline audit ledger --ledger DB.
-		rest, err := parseInterleaved(c.Flags, args[1:])
-		if err != nil {
-			return usageErr("%v", err)
-		}
-		args = append([]string{args[0]}, rest...)
 		a := &auditor{ledgerPath: *ledgerPath, keysDir: *keysDir, noLedger: *noLedger}
 		switch args[0] {
 		case "verify":

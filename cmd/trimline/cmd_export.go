@@ -32,10 +32,7 @@ its seal, and the station's public key. Every member's hash is in the manifest;
 	ledgerPath := c.Flags.String("ledger", filepath.Join("trimline-demo", "ledger.db"), "ledger `file`")
 	out := c.Flags.String("out", "", "bundle `file` (default NUMBER.zip)")
 	c.Run = func(ctx context.Context, c *command, args []string) error {
-		pos, err := parseInterleaved(c.Flags, args)
-		if err != nil {
-			return usageErr("%v", err)
-		}
+		pos := args
 		if len(pos) != 1 {
 			return usageErr("name one certificate number or run id")
 		}
@@ -104,10 +101,7 @@ and numbering, ready for 'trimline audit replay'.`,
 	keysDir := c.Flags.String("keys", "", "`folder` of trusted public keys")
 	actor := c.Flags.String("by", defaultOperator(), "`name` recorded in the audit trail")
 	c.Run = func(ctx context.Context, c *command, args []string) error {
-		pos, err := parseInterleaved(c.Flags, args)
-		if err != nil {
-			return usageErr("%v", err)
-		}
+		pos := args
 		if len(pos) != 1 || *ledgerPath == "" {
 			return usageErr("usage: trimline import FILE.zip --ledger DB [--keys DIR]")
 		}

@@ -34,7 +34,8 @@ whatif   re-judges every stored result in the ledger against NEW (see
          'trimline limits whatif -h').
 release  records a limit or sequence file's hash as released (see
          'trimline limits release -h').`,
-		Flags: newFlags("limits"),
+		Flags:   newFlags("limits"),
+		RawArgs: true, // each subcommand parses its own flags
 	}
 	c.Run = func(ctx context.Context, c *command, args []string) error {
 		if len(args) == 0 {

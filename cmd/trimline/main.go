@@ -41,6 +41,9 @@ type command struct {
 	Long  string // paragraphs
 	Flags *flag.FlagSet
 	Run   func(ctx context.Context, cmd *command, args []string) error
+	// RawArgs hands Run the arguments unparsed, for a command whose subcommands
+	// parse flags of their own.
+	RawArgs bool
 }
 
 // commands holds a constructor per command, so every run parses into fresh flags.
@@ -110,7 +113,13 @@ func run(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 		return exitUsage
 	}
 	c.Flags.SetOutput(io.Discard)
-	if err := c.Flags.Parse(args[1:]); err != nil {
+	if c.RawArgs {
+		stdoutW, stderrW = stdout, stderr
+		return exitCode(c.Run(ctx, c, args[1:]), c.Name, stderr)
+	}
+	// Flags may stand before, between or after the arguments.
+	pos, err := parseInterleaved(c.Flags, args[1:])
+	if err != nil {
 		if errors.Is(err, flag.ErrHelp) {
 			usage(c, stdout)
 			return exitPass
@@ -120,8 +129,7 @@ func run(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 		return exitUsage
 	}
 	stdoutW, stderrW = stdout, stderr
-	err := c.Run(ctx, c, c.Flags.Args())
-	return exitCode(err, c.Name, stderr)
+	return exitCode(c.Run(ctx, c, pos), c.Name, stderr)
 }
 
 // stdoutW and stderrW are where commands write; tests swap them through run.
