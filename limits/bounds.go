@@ -7,7 +7,7 @@ import (
 	exprast "github.com/expr-lang/expr/ast"
 	"github.com/expr-lang/expr/parser"
 
-	"trimline/sequencer/units"
+	"trimline/instruments/units"
 )
 
 // span is a closed interval of one result in SI units; lo is −Inf or hi +Inf when

@@ -4,8 +4,8 @@ import (
 	"strings"
 	"testing"
 
+	"trimline/instruments/files"
 	"trimline/limits"
-	"trimline/sequencer/files"
 )
 
 // tolEntry is a toleranced limit entry on post_offset with extra lines; its

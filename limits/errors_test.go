@@ -4,8 +4,8 @@ import (
 	"strings"
 	"testing"
 
+	"trimline/instruments/files"
 	"trimline/limits"
-	"trimline/sequencer/files"
 )
 
 // header is lines 1-4 of every test file; "limits:" is then line 5 and the first

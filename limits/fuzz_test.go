@@ -6,8 +6,8 @@ import (
 	"os"
 	"testing"
 
+	"trimline/instruments/files"
 	"trimline/limits"
-	"trimline/sequencer/files"
 )
 
 // FuzzLoad: Load never panics, and it returns exactly one of a Set and a

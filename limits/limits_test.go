@@ -11,9 +11,9 @@ import (
 	"sync"
 	"testing"
 
+	"trimline/instruments/files"
+	"trimline/instruments/units"
 	"trimline/limits"
-	"trimline/sequencer/files"
-	"trimline/sequencer/units"
 )
 
 // catalog is the engine's result catalog (the same names and dimensions as the

@@ -10,8 +10,8 @@ import (
 	"github.com/expr-lang/expr/parser"
 	"github.com/expr-lang/expr/vm"
 
-	"trimline/sequencer/files"
-	"trimline/sequencer/units"
+	"trimline/instruments/files"
+	"trimline/instruments/units"
 )
 
 // Finding severities.

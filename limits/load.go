@@ -18,8 +18,8 @@ import (
 	"github.com/goccy/go-yaml/ast"
 	"github.com/goccy/go-yaml/parser"
 
-	"trimline/sequencer/files"
-	"trimline/sequencer/units"
+	"trimline/instruments/files"
+	"trimline/instruments/units"
 )
 
 // The file as decoded. Pointers tell a missing key from an empty value.

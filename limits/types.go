@@ -20,7 +20,7 @@
 // Set.Variant and Set.VariantFor return a variant's effective set.
 package limits
 
-import "trimline/sequencer/units"
+import "trimline/instruments/units"
 
 // Catalog lists the result names the engine produces and the dimension of each
 // (units.Volt, units.Ratio, units.Count). A limit may only use names in the catalog.

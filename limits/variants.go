@@ -6,7 +6,7 @@ import (
 
 	"github.com/goccy/go-yaml/ast"
 
-	"trimline/sequencer/files"
+	"trimline/instruments/files"
 )
 
 // A limit file may hold, besides its limits list (the base set), variants: the

@@ -6,8 +6,8 @@ import (
 	"strings"
 	"testing"
 
+	"trimline/instruments/files"
 	"trimline/limits"
-	"trimline/sequencer/files"
 )
 
 const variantsPath = "../testdata/limits/variants.yaml"

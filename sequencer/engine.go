@@ -25,8 +25,8 @@ import (
 	"github.com/rs/zerolog"
 
 	"trimline/instruments"
+	"trimline/instruments/units"
 	"trimline/limits"
-	"trimline/sequencer/units"
 )
 
 // Config is what an Engine needs besides the instruments.

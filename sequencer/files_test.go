@@ -6,9 +6,9 @@ import (
 	"strings"
 	"testing"
 
+	"trimline/instruments/files"
 	_ "trimline/instruments/sim"
 	"trimline/sequencer"
-	"trimline/sequencer/files"
 	"trimline/sequences"
 )
 

@@ -1,8 +1,8 @@
 package sequencer
 
 import (
+	"trimline/instruments/units"
 	"trimline/limits"
-	"trimline/sequencer/units"
 )
 
 // Result names the engine computes for every unit. Limit files may judge these and

@@ -8,9 +8,9 @@ import (
 	"strings"
 	"time"
 
+	"trimline/instruments/files"
+	"trimline/instruments/units"
 	"trimline/limits"
-	"trimline/sequencer/files"
-	"trimline/sequencer/units"
 )
 
 // Sequence is a loaded sequence file: how one product is trimmed.

@@ -12,8 +12,8 @@ import (
 	"time"
 
 	"trimline/instruments"
-	"trimline/sequencer/files"
-	"trimline/sequencer/units"
+	"trimline/instruments/files"
+	"trimline/instruments/units"
 )
 
 // Roles are the instrument roles a station file may bind.

@@ -8,9 +8,9 @@ import (
 
 	"github.com/goccy/go-yaml"
 
+	"trimline/instruments/files"
 	"trimline/limits"
 	"trimline/sequencer"
-	"trimline/sequencer/files"
 )
 
 func init() { register(newCheckCmd) }

@@ -5,9 +5,9 @@ import (
 	"fmt"
 	"os"
 
+	"trimline/instruments/files"
 	"trimline/limits"
 	"trimline/sequencer"
-	"trimline/sequencer/files"
 )
 
 func init() { register(newLimitsCmd) }

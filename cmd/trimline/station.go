@@ -14,11 +14,11 @@ import (
 
 	"github.com/rs/zerolog"
 
+	"trimline/instruments/files"
+	"trimline/instruments/units"
 	"trimline/reports/ledger"
 	"trimline/reports/signing"
 	"trimline/sequencer"
-	"trimline/sequencer/files"
-	"trimline/sequencer/units"
 )
 
 // batch is one production session: a station, a sequence and a list of serials.

@@ -72,7 +72,7 @@ import (
 	"trimline/instruments"
 	"trimline/instruments/scpi"
 	"trimline/instruments/transport"
-	"trimline/sequencer/units"
+	"trimline/instruments/units"
 )
 
 // Driver is the generic driver, registered for the schemes serial, tcp and usbtmc.

@@ -9,7 +9,7 @@ import (
 	"time"
 
 	"trimline/instruments"
-	"trimline/sequencer/units"
+	"trimline/instruments/units"
 )
 
 // DUTSettings are the parsed settings of sim://dut that shape the units Params

@@ -8,9 +8,9 @@ import (
 	"strings"
 	"time"
 
+	"trimline/instruments/units"
 	"trimline/limits"
 	"trimline/sequencer"
-	"trimline/sequencer/units"
 )
 
 // timeFormat is the one way the certificate writes a time.

@@ -8,9 +8,9 @@ import (
 	"strings"
 	"time"
 
+	"trimline/instruments/units"
 	"trimline/limits"
 	"trimline/sequencer"
-	"trimline/sequencer/units"
 )
 
 // build lays out every section in order. Page 1 holds what a reader of the

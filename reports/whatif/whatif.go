@@ -20,10 +20,10 @@ import (
 
 	"github.com/jung-kurt/gofpdf"
 
+	"trimline/instruments/units"
 	"trimline/limits"
 	"trimline/reports/internal/atomicfile"
 	"trimline/reports/internal/pdfdoc"
-	"trimline/sequencer/units"
 )
 
 // MaxFlipRows is how many flips the table lists; the rest are counted in a

@@ -5,7 +5,7 @@ import (
 	"strings"
 	"testing"
 
-	"trimline/sequencer/units"
+	"trimline/instruments/units"
 )
 
 func TestParse(t *testing.T) {

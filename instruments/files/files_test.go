@@ -4,8 +4,8 @@ import (
 	"strings"
 	"testing"
 
-	"trimline/sequencer/files"
-	"trimline/sequencer/units"
+	"trimline/instruments/files"
+	"trimline/instruments/units"
 )
 
 type cfg struct {

@@ -14,7 +14,7 @@ import (
 	"github.com/goccy/go-yaml/parser"
 	"github.com/goccy/go-yaml/token"
 
-	"trimline/sequencer/units"
+	"trimline/instruments/units"
 )
 
 // Error is one positioned problem in a file, for a person to read.
