@@ -418,7 +418,7 @@ func (e *Engine) evalPre(rec *Record, res *results, pre Sweep, trims []TrimCode)
 	rec.Trims = trims // at least what the unit held before; codes follow when computed
 	preA, ferr := e.analyse(pre, rec.RunID)
 	if ferr != nil {
-		res.invalidAll("pre-trim sweep: " + ferr.Error())
+		res.invalidStages("pre-trim sweep: " + ferr.Error())
 		return false
 	}
 	preFit := preA.sum
@@ -427,7 +427,7 @@ func (e *Engine) evalPre(rec *Record, res *results, pre Sweep, trims []TrimCode)
 
 	sol, err := ComputeTrim(seq.Trim, preFit.Slope, preFit.Intercept, seq.Trim.Gain.NoCorrection, seq.Trim.Offset.NoCorrection, seq.IdealGain, seq.IdealOffset)
 	if err != nil {
-		res.invalidFrom(ResOffsetCode, "cannot compute trim: "+err.Error())
+		res.invalidStages("cannot compute trim: "+err.Error(), Adjustment, AsLeft)
 		rec.Reasons = append(rec.Reasons, "cannot compute trim codes: "+err.Error())
 		return false
 	}
@@ -445,7 +445,7 @@ func (e *Engine) evalPre(rec *Record, res *results, pre Sweep, trims []TrimCode)
 	}
 	if len(sat) > 0 {
 		rec.Reasons = append(rec.Reasons, sat...)
-		res.invalidFrom(ResPostOffset, "not measured: trim saturated")
+		res.invalidStages("not measured: trim saturated", AsLeft)
 		res.values[ResGainCode] = limits.Value{V: float64(sol.Gain), Valid: !sol.GainSat, Why: "gain trim saturated"}
 		res.values[ResOffsetCode] = limits.Value{V: float64(sol.Offset), Valid: !sol.OffsetSat, Why: "offset trim saturated"}
 		return false
@@ -459,7 +459,7 @@ func (e *Engine) evalPost(rec *Record, res *results, post Sweep) {
 	seq := e.cfg.Sequence
 	postA, ferr := e.analyse(post, rec.RunID)
 	if ferr != nil {
-		res.invalidFrom(ResPostOffset, "verification sweep: "+ferr.Error())
+		res.invalidStages("verification sweep: "+ferr.Error(), AsLeft)
 	} else {
 		rec.Fits = append(rec.Fits, postA.sum)
 		e.fitResults(res, postA, ResPostOffset, ResPostGainError, ResPostNonlinearity)
@@ -504,7 +504,7 @@ func (e *Engine) judge(rec *Record, res *results) {
 			continue
 		}
 		r := fmt.Sprintf("limit %q: %s", o.Name, o.Reason)
-		if usesPre(o.Uses) {
+		if usesStage(o.Uses, AsFound) {
 			asFound = append(asFound, r)
 		} else {
 			later = append(later, r)
@@ -521,9 +521,10 @@ func (e *Engine) judge(rec *Record, res *results) {
 	}
 }
 
-func usesPre(names []string) bool {
+// usesStage reports whether any of the named results is of stage s.
+func usesStage(names []string, s Stage) bool {
 	for _, n := range names {
-		if strings.HasPrefix(n, "pre_") {
+		if ResultStage(n) == s {
 			return true
 		}
 	}
@@ -699,66 +700,6 @@ func (e *Engine) readCode(ctx context.Context, name string, d DAC) (int, error) 
 		return 0, &stop{Fault, fmt.Sprintf("dut: %s trim read-back %q is not a code", name, reply)}
 	}
 	return c, nil
-}
-
-// results collects the named results of one run.
-type results struct {
-	values map[string]limits.Value
-	unc    map[string]Uncertainty
-}
-
-func newResults() *results {
-	r := &results{values: map[string]limits.Value{}, unc: map[string]Uncertainty{}}
-	for _, n := range resultOrder {
-		r.values[n] = limits.Value{Why: "not measured"}
-	}
-	return r
-}
-
-func (r *results) set(name string, v float64) {
-	r.values[name] = limits.Value{V: v, Valid: finite(v), Why: "not a finite number"}
-}
-
-// setU sets a result with its uncertainty.
-func (r *results) setU(name string, v float64, u Uncertainty) {
-	r.values[name] = limits.Value{V: v, Valid: finite(v), Why: "not a finite number",
-		Std: u.Std, U: u.Expanded, K: u.K, DOF: u.DOF}
-	r.unc[name] = u
-}
-
-func (r *results) invalid(name, why string) {
-	r.values[name] = limits.Value{Why: why}
-	delete(r.unc, name)
-}
-
-func (r *results) invalidAll(why string) {
-	for _, n := range resultOrder {
-		r.invalid(n, why)
-	}
-}
-
-// invalidFrom marks name and every later result invalid.
-func (r *results) invalidFrom(name, why string) {
-	on := false
-	for _, n := range resultOrder {
-		on = on || n == name
-		if on {
-			r.invalid(n, why)
-		}
-	}
-}
-
-func (r *results) list() []Result {
-	out := make([]Result, 0, len(resultOrder))
-	for _, n := range resultOrder {
-		v := r.values[n]
-		res := Result{Name: n, Value: v.V, Unit: unitName(ResultCatalog[n]), Valid: v.Valid, Unc: r.unc[n]}
-		if !v.Valid {
-			res.Value, res.Note = 0, v.Why
-		}
-		out = append(out, res)
-	}
-	return out
 }
 
 func baseName(p string) string {

@@ -50,21 +50,10 @@ release  records a limit or sequence file's hash as released (see
 	return c
 }
 
-// physicalRanges bounds each result where the unit can physically be: the output
-// spans the 0–5 V supply, gain errors the trim DAC's reach, codes a 12-bit DAC.
-// Lint uses them to find limits that can never pass or never fail.
-var physicalRanges = map[string][2]float64{
-	sequencer.ResPreOffset: {-2.5, 2.5}, sequencer.ResPostOffset: {-2.5, 2.5},
-	sequencer.ResPreGainError: {-1, 1}, sequencer.ResPostGainError: {-1, 1},
-	sequencer.ResPreNonlinearity: {0, 1}, sequencer.ResPostNonlinearity: {0, 1},
-	sequencer.ResPostMaxError: {0, 5}, sequencer.ResPostNoise: {0, 1},
-	sequencer.ResOffsetCode: {0, 4095}, sequencer.ResGainCode: {0, 4095},
-}
-
 func limitsLint(ctx context.Context, args []string) error {
 	fs := newFlags("limits lint")
 	station := fs.String("station", "", "station `file`: also check each tolerance against the TUR the station can reach")
-	sequence := fs.String("sequence", "", "sequence `file` for the TUR check (with --station)")
+	sequence := fs.String("sequence", "", "sequence `file`: the product's physical ranges (trim codes, output), and with --station the TUR check")
 	paths, err := parseInterleaved(fs, args)
 	if err != nil {
 		return usageErr("%v", err)
@@ -72,14 +61,24 @@ func limitsLint(ctx context.Context, args []string) error {
 	if len(paths) == 0 {
 		return usageErr("name at least one limit file")
 	}
-	opt := limits.LintOptions{Ranges: physicalRanges}
-	if *station != "" && *sequence != "" {
-		st, seq, err := loadFiles(*station, *sequence)
+	var opt limits.LintOptions
+	var seq *sequencer.Sequence // nil: lint knows only the ranges no product sets
+	switch {
+	case *station != "" && *sequence != "":
+		st, s, err := loadFiles(*station, *sequence)
 		if err != nil {
 			return err
 		}
-		opt.TUR = sequencer.PredictUncertainty(st, seq)
+		seq, opt.TUR = s, sequencer.PredictUncertainty(st, s)
+	case *sequence != "":
+		if seq, err = sequencer.LoadSequence(*sequence); err != nil {
+			if fe := files.Errs(err); fe != nil {
+				return badInput(detailed(fe))
+			}
+			return badInput(err)
+		}
 	}
+	opt.Ranges = sequencer.PhysicalRanges(seq)
 	errorsFound := 0
 	for _, path := range paths {
 		data, err := os.ReadFile(path)

@@ -428,29 +428,30 @@ func fmtCoverage(p float64) string {
 type stage int
 
 const (
-	stageFound stage = iota // before adjustment: pre_* results, the pre-trim sweep
-	stageLeft               // after adjustment: post_* results, the verify sweep
+	stageFound stage = iota // before adjustment: as-found results, the pre-trim sweep
+	stageLeft               // after adjustment: as-left results, the verify sweep
 	stageOther              // trim codes, or results of both stages
 )
 
-// stageOf is the stage of a set of result names: as found when every name starts
-// with "pre_", as left when every one starts with "post_", else other.
+// stageOf is the stage of a set of result names, as the results table declares
+// them: as found when every name is an as-found result, as left when every one is
+// an as-left result, else other.
 func stageOf(names ...string) stage {
 	if len(names) == 0 {
 		return stageOther
 	}
-	all := func(prefix string) bool {
+	all := func(s sequencer.Stage) bool {
 		for _, n := range names {
-			if !strings.HasPrefix(n, prefix) {
+			if sequencer.ResultStage(n) != s {
 				return false
 			}
 		}
 		return true
 	}
 	switch {
-	case all("pre_"):
+	case all(sequencer.AsFound):
 		return stageFound
-	case all("post_"):
+	case all(sequencer.AsLeft):
 		return stageLeft
 	}
 	return stageOther
