@@ -1,0 +1,27 @@
+package sequencer
+
+// Step deadlines: the station file's bound on one engine step.
+
+import (
+	"context"
+	"errors"
+	"fmt"
+)
+
+// step runs one engine step under the station's step deadline, if any. A step that
+// overruns it is a station fault naming the deadline.
+func (e *Engine) step(ctx context.Context, f func(ctx context.Context) error) error {
+	d := e.cfg.Station.StepDeadline
+	if d <= 0 {
+		return f(ctx)
+	}
+	sctx, cancel := context.WithTimeoutCause(ctx, d, errStepDeadline)
+	defer cancel()
+	err := f(sctx)
+	if err != nil && ctx.Err() == nil && context.Cause(sctx) == errStepDeadline {
+		return &stop{Fault, fmt.Sprintf("step deadline of %s exceeded (station file step_deadline): %v", d, err)}
+	}
+	return err
+}
+
+var errStepDeadline = errors.New("step deadline exceeded")

@@ -1,0 +1,82 @@
+package sequencer
+
+// The station's safety caps, checked at load and before every write to the source,
+// and the safe state every exit path leaves the source in.
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"math"
+	"strings"
+	"time"
+
+	"trimline/instruments"
+)
+
+// ErrSafety is wrapped by every refusal to program the source outside the
+// station's caps.
+var ErrSafety = errors.New("safety cap")
+
+// CheckCaps reports whether the sequence stays inside the station's safety caps.
+// It is run at load (trimline check) and again when an Engine opens.
+func CheckCaps(st *Station, seq *Sequence) error {
+	var errs []string
+	for _, sw := range []struct {
+		name string
+		p    SweepPlan
+	}{{"pre_trim", seq.PreTrim}, {"verify", seq.Verify}} {
+		for _, v := range []float64{sw.p.From, sw.p.To} {
+			if math.Abs(v) > st.MaxSourceVolts {
+				errs = append(errs, fmt.Sprintf("%s: %s sweep reaches %s, above the station cap of %s (%s safety.max_source_voltage)",
+					sw.p.Where, sw.name, fmtV(v), fmtV(st.MaxSourceVolts), st.File.Name))
+				break
+			}
+		}
+	}
+	for _, r := range seq.Requires {
+		if _, ok := st.Instruments[r]; !ok {
+			errs = append(errs, fmt.Sprintf("%s: the sequence requires the %q role, which station %s does not bind", seq.File.Name, r, st.ID))
+		}
+	}
+	if len(errs) > 0 {
+		return fmt.Errorf("%w: %s", ErrSafety, strings.Join(errs, "; "))
+	}
+	return nil
+}
+
+// setLevel programs the source after checking the station cap once more.
+func (e *Engine) setLevel(ctx context.Context, volts float64) error {
+	if !finite(volts) || math.Abs(volts) > e.cfg.Station.MaxSourceVolts {
+		return &stop{Fault, fmt.Sprintf("%v: refusing to program %s, above the station cap of %s", ErrSafety, fmtV(volts), fmtV(e.cfg.Station.MaxSourceVolts))}
+	}
+	if err := e.source.SetLevel(ctx, volts); err != nil {
+		return fmt.Errorf("source: set level %s: %w", fmtV(volts), err)
+	}
+	return nil
+}
+
+// safeState programs level 0 with the output off.
+func (e *Engine) safeState(ctx context.Context) error {
+	if r, ok := e.source.(instruments.Resetter); ok {
+		if err := r.Reset(ctx); err != nil {
+			return err
+		}
+	}
+	if err := e.source.SetOutput(ctx, false); err != nil {
+		return err
+	}
+	return e.source.SetLevel(ctx, 0)
+}
+
+// safeOff switches the output off with a context of its own, so it works after the
+// run's context was cancelled.
+func (e *Engine) safeOff() error {
+	ctx, cancel := context.WithTimeout(context.Background(), 2*time.Second)
+	defer cancel()
+	err := e.source.SetOutput(ctx, false)
+	if err2 := e.source.SetLevel(ctx, 0); err == nil {
+		err = err2
+	}
+	return err
+}
