@@ -252,18 +252,20 @@ func (e *Engine) run(ctx context.Context, rec *Record) error {
 	}
 
 	// Known starting state: record what the unit holds, then apply no correction.
-	trims := []TrimCode{{DAC: "gain"}, {DAC: "offset"}}
-	dacs := []DAC{seq.Trim.Gain, seq.Trim.Offset}
+	// trims[i] is the record of seq.Trim.DACs()[i].
+	dacs := seq.Trim.DACs()
+	trims := make([]TrimCode, len(dacs))
 	for i, d := range dacs {
+		trims[i].DAC = d.Name
 		err := e.step(ctx, func(ctx context.Context) error {
-			c, err := e.readCode(ctx, trims[i].DAC, d)
+			c, err := e.readCode(ctx, d)
 			trims[i].Before = c
 			return err
 		})
 		if err != nil {
 			return err
 		}
-		if err := e.writeCode(ctx, trims[i].DAC, d, d.NoCorrection); err != nil {
+		if err := e.writeCode(ctx, d, d.NoCorrection); err != nil {
 			return err
 		}
 	}
@@ -306,7 +308,6 @@ func (e *Engine) identifyUnit(ctx context.Context, rec *Record) error {
 // DACs hold no correction.
 func (e *Engine) measure(ctx context.Context, rec *Record, trims []TrimCode) error {
 	seq := e.cfg.Sequence
-	dacs := []DAC{seq.Trim.Gain, seq.Trim.Offset}
 
 	pre, err := e.sweep(ctx, "pre-trim", seq.PreTrim)
 	e.annotate(&pre)
@@ -321,8 +322,8 @@ func (e *Engine) measure(ctx context.Context, rec *Record, trims []TrimCode) err
 	}
 	trims = rec.Trims
 
-	for i := range trims {
-		if err := e.writeCode(ctx, trims[i].DAC, dacs[i], trims[i].Code); err != nil {
+	for i, d := range seq.Trim.DACs() {
+		if err := e.writeCode(ctx, d, trims[i].Code); err != nil {
 			return err
 		}
 		trims[i].Readback, trims[i].Written = trims[i].Code, true

@@ -16,7 +16,6 @@ import (
 // no I/O, so a replay of a stored record runs the very same arithmetic.
 func (e *Engine) evalPre(rec *Record, res *results, pre Sweep, trims []TrimCode) bool {
 	seq := e.cfg.Sequence
-	dacs := []DAC{seq.Trim.Gain, seq.Trim.Offset}
 	rec.Trims = trims // at least what the unit held before; codes follow when computed
 	preA, ferr := e.analyse(pre, rec.RunID)
 	if ferr != nil {
@@ -33,16 +32,20 @@ func (e *Engine) evalPre(rec *Record, res *results, pre Sweep, trims []TrimCode)
 		rec.Reasons = append(rec.Reasons, "cannot compute trim codes: "+err.Error())
 		return false
 	}
-	trims[0].Ideal, trims[0].Code, trims[0].Saturated = sol.GainIdeal, sol.Gain, sol.GainSat
-	trims[1].Ideal, trims[1].Code, trims[1].Saturated = sol.OffsetIdeal, sol.Offset, sol.OffsetSat
-	trims[0].IdealU, trims[1].IdealU = idealCodeU(seq.Trim, preA, sol)
+	gainU, offsetU := idealCodeU(seq.Trim, preA, sol)
+	idealU := map[string]float64{DACGain: gainU, DACOffset: offsetU}
+	for i := range trims {
+		t := &trims[i]
+		t.Ideal, t.Code, t.Saturated = sol.forDAC(t.DAC)
+		t.IdealU = idealU[t.DAC]
+	}
 	rec.Trims = trims
 	res.set(ResGainCode, float64(sol.Gain))
 	res.set(ResOffsetCode, float64(sol.Offset))
 	var sat []string
-	for i, t := range trims {
-		if t.Saturated {
-			sat = append(sat, fmt.Sprintf("%s trim needs code %.1f, outside the DAC's range 0..%d", t.DAC, t.Ideal, dacs[i].MaxCode()))
+	for i, d := range seq.Trim.DACs() {
+		if t := trims[i]; t.Saturated {
+			sat = append(sat, fmt.Sprintf("%s trim needs code %.1f, outside the DAC's range 0..%d", t.DAC, t.Ideal, d.MaxCode()))
 		}
 	}
 	if len(sat) > 0 {

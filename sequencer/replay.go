@@ -37,13 +37,15 @@ func Replay(cfg Config, stored *Record) (*Record, error) {
 		e.annotate(&out)
 		return out
 	}
-	trims := []TrimCode{{DAC: "gain", Before: seq.Trim.Gain.NoCorrection}, {DAC: "offset", Before: seq.Trim.Offset.NoCorrection}}
-	for i := range trims {
-		for _, t := range stored.Trims {
-			if t.DAC == trims[i].DAC {
-				trims[i].Before = t.Before
+	var trims []TrimCode
+	for _, d := range seq.Trim.DACs() {
+		t := TrimCode{DAC: d.Name, Before: d.NoCorrection}
+		for _, s := range stored.Trims {
+			if s.DAC == d.Name {
+				t.Before = s.Before
 			}
 		}
+		trims = append(trims, t)
 	}
 	res := newResults()
 	pre := resweep(stored.Sweeps[0])

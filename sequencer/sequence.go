@@ -82,9 +82,24 @@ type TrimPlan struct {
 	Store     string // command that commits the codes to non-volatile memory; "" = none
 }
 
+// Trim DAC names, as the record and messages call them.
+const (
+	DACGain   = "gain"
+	DACOffset = "offset"
+)
+
+// DACs lists the plan's trim DACs, each with its Name, in the order the engine
+// programs them and the record lists them: gain first, then offset.
+func (p TrimPlan) DACs() []DAC {
+	g, o := p.Gain, p.Offset
+	g.Name, o.Name = DACGain, DACOffset
+	return []DAC{g, o}
+}
+
 // DAC is one trim DAC: codes 0..2^Bits−1, LSB per code (volts for offset, a
 // fraction for gain), and the code that applies no correction.
 type DAC struct {
+	Name         string // DACGain or DACOffset, as TrimPlan.DACs sets it
 	Bits         int
 	LSB          float64
 	NoCorrection int

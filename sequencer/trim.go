@@ -32,6 +32,15 @@ type TrimSolution struct {
 	PredSlope, PredIntercept float64
 }
 
+// forDAC is what the solution asks of the named DAC (DACGain or DACOffset): the
+// exact code, the nearest code in range and whether it had to clamp.
+func (s TrimSolution) forDAC(name string) (ideal float64, code int, saturated bool) {
+	if name == DACGain {
+		return s.GainIdeal, s.Gain, s.GainSat
+	}
+	return s.OffsetIdeal, s.Offset, s.OffsetSat
+}
+
 // ComputeTrim returns the gain and offset codes that bring a unit measured with
 // slope (V/V) and intercept (V at x = 0) while its DACs held gainCode0 and
 // offsetCode0 to the ideal gain (V/V) and offset (V). It is pure arithmetic; a

@@ -9,16 +9,17 @@ import (
 	"strings"
 )
 
-func (e *Engine) writeCode(ctx context.Context, name string, d DAC, code int) error {
-	return e.step(ctx, func(ctx context.Context) error { return e.writeCodeStep(ctx, name, d, code) })
+func (e *Engine) writeCode(ctx context.Context, d DAC, code int) error {
+	return e.step(ctx, func(ctx context.Context) error { return e.writeCodeStep(ctx, d, code) })
 }
 
-func (e *Engine) writeCodeStep(ctx context.Context, name string, d DAC, code int) error {
+func (e *Engine) writeCodeStep(ctx context.Context, d DAC, code int) error {
+	name := d.Name
 	line := strings.ReplaceAll(d.Write, "{code}", strconv.Itoa(code))
 	if err := e.dut.Command(ctx, line); err != nil {
 		return fmt.Errorf("dut: write %s trim code %d: %w", name, code, err)
 	}
-	got, err := e.readCode(ctx, name, d)
+	got, err := e.readCode(ctx, d)
 	if err != nil {
 		return err
 	}
@@ -28,7 +29,8 @@ func (e *Engine) writeCodeStep(ctx context.Context, name string, d DAC, code int
 	return nil
 }
 
-func (e *Engine) readCode(ctx context.Context, name string, d DAC) (int, error) {
+func (e *Engine) readCode(ctx context.Context, d DAC) (int, error) {
+	name := d.Name
 	reply, err := e.dut.Query(ctx, d.Read)
 	if err != nil {
 		return 0, fmt.Errorf("dut: read %s trim code: %w", name, err)
