@@ -241,7 +241,7 @@ func (l *Limit) statement(d *Decision, un unc, pol Policy, v string) string {
 		fmt.Fprintf(&b, " TUR %s:1 (ANSI/NCSL Z540.3-2006 §5.3, U95 = %s)", fmtRatio(d.TUR), qu(un.u*un.k95))
 		if d.TURLow {
 			fmt.Fprintf(&b, ", below the minimum %s:1", fmtNum(pol.MinTUR))
-			if pol.TURPolicy == "refuse" {
+			if pol.TURPolicy == TURRefuse {
 				b.WriteString(" (tur_policy: refuse)")
 			}
 		}

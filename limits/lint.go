@@ -475,7 +475,7 @@ func (lt *linter) tur(policyKnown bool) {
 			continue
 		}
 		sev, then := SeverityWarning, "the station records it (tur_policy: warn)"
-		if pol.TURPolicy == "refuse" && policyKnown {
+		if pol.TURPolicy == TURRefuse && policyKnown {
 			sev, then = SeverityError, "no unit can pass it (tur_policy: refuse turns every pass into review)"
 		}
 		lt.add(lt.at(l, "tolerance"), sev, CodeTURLow,

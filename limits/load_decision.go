@@ -29,9 +29,9 @@ type toleranceForm struct {
 var (
 	ruleWords       = []string{RuleSimple, RuleGuarded}
 	statementWords  = []string{"binary", "non-binary"}
-	condPassWords   = []string{"ship", "review", "fail"}
-	condFailWords   = []string{"fail", "review"}
-	turPolicyWords  = []string{"warn", "refuse"}
+	condPassWords   = []string{ShipConditional, VerdictReview, VerdictFail}
+	condFailWords   = []string{VerdictFail, VerdictReview}
+	turPolicyWords  = []string{TURWarn, TURRefuse}
 	decisionKeyHelp = "coverage, rule, guard_factor, statements, conditional_pass, conditional_fail, min_tur, tur_policy"
 )
 

@@ -20,17 +20,30 @@ type Policy struct {
 	TURPolicy       string  // "warn" (record it) or "refuse" (the station must not run the file below MinTUR)
 }
 
-// Overall verdicts of a unit (Set.Overall).
+// Overall verdicts of a unit (Set.Overall). This package owns the verdict words:
+// conditional_pass and conditional_fail name a verdict (or ShipConditional), and
+// the engine's unit verdicts PASS, REVIEW and FAIL are these, as the run record
+// spells them.
 const (
 	VerdictPass   = "pass"
 	VerdictReview = "review" // a person decides (conditional zone under a review policy, or TUR too low under tur_policy: refuse)
 	VerdictFail   = "fail"
 )
 
+// ShipConditional is the conditional_pass policy that ships a conditional pass:
+// its verdict is VerdictPass.
+const ShipConditional = "ship"
+
+// tur_policy words.
+const (
+	TURWarn   = "warn"   // record a TUR below min_tur
+	TURRefuse = "refuse" // the station must not run the file below min_tur; a pass with a low TUR is review
+)
+
 // defaultPolicy is the policy of a file without a decision section.
 func defaultPolicy() Policy {
 	return Policy{Coverage: 0.9545, Rule: RuleSimple, GuardFactor: 1, Binary: true,
-		ConditionalPass: "review", ConditionalFail: "fail", MinTUR: 4, TURPolicy: "warn"}
+		ConditionalPass: VerdictReview, ConditionalFail: VerdictFail, MinTUR: 4, TURPolicy: TURWarn}
 }
 
 // Policy returns the file's decision defaults and policies, defaults filled in.
@@ -98,17 +111,17 @@ func verdict(d *Decision, pol Policy) string {
 		v = VerdictFail
 	case d.Zone == ZoneConditionalPass:
 		switch pol.ConditionalPass {
-		case "ship":
+		case ShipConditional:
 			v = VerdictPass
-		case "review":
+		case VerdictReview:
 			v = VerdictReview
 		}
 	case d.Zone == ZoneConditionalFail:
-		if pol.ConditionalFail == "review" {
+		if pol.ConditionalFail == VerdictReview {
 			v = VerdictReview
 		}
 	}
-	if v == VerdictPass && d.TURLow && pol.TURPolicy == "refuse" {
+	if v == VerdictPass && d.TURLow && pol.TURPolicy == TURRefuse {
 		v = VerdictReview
 	}
 	return v

@@ -117,9 +117,9 @@ func (e *Engine) judge(rec *Record, res *results) {
 	}
 	rec.Reasons = append(append(asFound, rec.Reasons...), later...)
 	switch overall := set.Overall(rec.Outcomes); {
-	case failedBefore || overall == "fail":
+	case failedBefore || overall == limits.VerdictFail:
 		rec.Verdict = Fail
-	case overall == "review":
+	case overall == limits.VerdictReview:
 		rec.Verdict = Review
 	default:
 		rec.Verdict = Pass

@@ -11,7 +11,9 @@ import (
 // meaning; readers of old ledgers switch on it.
 const RecordSchema = 1
 
-// Verdict is the outcome of one unit's run.
+// Verdict is the outcome of one unit's run. PASS, REVIEW and FAIL are the limit
+// file's overall verdicts (limits.VerdictPass, VerdictReview, VerdictFail) as the
+// record spells them; FAULT and ABORTED are the station's, when nothing was judged.
 type Verdict string
 
 const (
@@ -24,6 +26,21 @@ const (
 	// units to a person instead of shipping them.
 	Review Verdict = "REVIEW"
 )
+
+// Judged is the limit file's overall verdict that v spells: limits.VerdictPass,
+// VerdictReview or VerdictFail; ok is false for FAULT and ABORTED (and anything
+// else), which no limit judged.
+func (v Verdict) Judged() (verdict string, ok bool) {
+	switch v {
+	case Pass:
+		return limits.VerdictPass, true
+	case Review:
+		return limits.VerdictReview, true
+	case Fail:
+		return limits.VerdictFail, true
+	}
+	return "", false
+}
 
 // Conditions are the environmental conditions of a run.
 type Conditions struct {

@@ -61,7 +61,7 @@ func CheckTUR(st *Station, seq *Sequence) ([]limits.TURCheck, error) {
 		return nil, nil
 	}
 	checks := seq.Limits.PredictTUR(PredictUncertainty(st, seq))
-	if seq.Limits.Policy().TURPolicy != "refuse" {
+	if seq.Limits.Policy().TURPolicy != limits.TURRefuse {
 		return checks, nil
 	}
 	var low []string
