@@ -1,10 +1,11 @@
 // Package sequencer is trimline's engine and the domain it speaks: station and
 // sequence files, sweeps, fits, trim codes, verdicts and the run record.
 //
-// For one serial number the engine opens instruments by role, puts the source in a
-// safe state, sweeps the input range before trim, fits a straight line, computes and
-// writes the trim codes, reads them back, stores them, sweeps again to verify, judges
-// every limit and decides the verdict. Every exit path leaves the source output off.
+// Open opens the station's instruments by role once per batch, checks them and puts
+// the source in a safe state. Then, for each serial number, Run identifies the unit,
+// sweeps the input range before trim, fits a straight line, computes and writes the
+// trim codes, reads them back, stores them, sweeps again to verify, judges every
+// limit and decides the verdict. Every exit path leaves the source output off.
 //
 // The engine imports only the instruments contract and the limits judge; it never
 // imports a concrete driver, the PDF writer or the ledger.
@@ -56,9 +57,11 @@ type Engine struct {
 	closed bool
 }
 
-// Open checks the station against the sequence, opens every required instrument,
-// checks calibration due dates and pinned identities, and puts the source in a
-// safe state (level 0, output off). On error nothing stays open.
+// Open checks the station against the sequence (caps, roles, predicted TUR), opens
+// every required instrument, checks calibration due dates and pinned identities,
+// puts the source in a safe state (level 0, output off), sets its compliance to
+// the station's current cap and configures the meter. One Engine serves a whole
+// batch: Run it once per unit, then Close it. On error nothing stays open.
 func Open(ctx context.Context, cfg Config) (*Engine, error) {
 	st, seq := cfg.Station, cfg.Sequence
 	if err := CheckCaps(st, seq); err != nil {
@@ -272,8 +275,8 @@ func (e *Engine) run(ctx context.Context, rec *Record) error {
 	return e.measure(ctx, rec, trims)
 }
 
-// identifyUnit places the unit in a simulated fixture, checks it reports the
-// scanned serial and records its firmware.
+// identifyUnit tells a simulated fixture which unit it holds (FixtureLoader),
+// checks the unit reports the scanned serial and records its firmware.
 func (e *Engine) identifyUnit(ctx context.Context, rec *Record) error {
 	seq := e.cfg.Sequence
 	if fl, ok := e.dut.(instruments.FixtureLoader); ok {

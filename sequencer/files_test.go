@@ -1,6 +1,7 @@
 package sequencer_test
 
 import (
+	"errors"
 	"fmt"
 	"io/fs"
 	"strings"
@@ -185,5 +186,26 @@ variants:
 	_, err = sequencer.ParseSequence("brx200-sequence.yaml", []byte(bad), read)
 	if e := files.Errs(err); len(e) == 0 || !strings.Contains(e[0].Msg, "grade-X") || !strings.HasPrefix(e[0].Error(), fmt.Sprintf("brx200-sequence.yaml:%d:", lineOf(t, bad, "limits_variant"))) {
 		t.Fatalf("unknown variant: %v", err)
+	}
+}
+
+// A role the station does not bind is a misfit of the files, not a safety cap.
+func TestCapsUnboundRoleIsNotASafetyError(t *testing.T) {
+	st, err := sequencer.ParseStation("brx200-station.yaml", []byte(demoFile(t, "brx200-station.yaml")))
+	if err != nil {
+		t.Fatal(err)
+	}
+	seq, err := sequencer.ParseSequence("brx200-sequence.yaml", []byte(demoFile(t, "brx200-sequence.yaml")), demoReader(t, nil))
+	if err != nil {
+		t.Fatal(err)
+	}
+	delete(st.Instruments, "meter")
+	err = sequencer.CheckCaps(st, seq)
+	if !errors.Is(err, sequencer.ErrUnboundRole) || errors.Is(err, sequencer.ErrSafety) || !strings.Contains(err.Error(), `requires the "meter" role`) {
+		t.Fatalf("want an unbound-role error that is not a safety cap, got %v", err)
+	}
+	st.MaxSourceVolts = 1e-3
+	if err = sequencer.CheckCaps(st, seq); !errors.Is(err, sequencer.ErrUnboundRole) || !errors.Is(err, sequencer.ErrSafety) {
+		t.Fatalf("want both a cap and an unbound role, got %v", err)
 	}
 }

@@ -18,10 +18,16 @@ import (
 // station's caps.
 var ErrSafety = errors.New("safety cap")
 
-// CheckCaps reports whether the sequence stays inside the station's safety caps.
-// It is run at load (trimline check) and again when an Engine opens.
+// ErrUnboundRole is wrapped when a sequence requires an instrument role the
+// station does not bind: the files do not fit together, but nothing was unsafe.
+var ErrUnboundRole = errors.New("unbound role")
+
+// CheckCaps reports whether the sequence stays inside the station's safety caps
+// (an error wrapping ErrSafety) and whether the station binds every role the
+// sequence requires (an error wrapping ErrUnboundRole); both when both fail. It
+// is run at load (trimline check) and again when an Engine opens.
 func CheckCaps(st *Station, seq *Sequence) error {
-	var errs []string
+	var errs, unbound []string
 	for _, sw := range []struct {
 		name string
 		p    SweepPlan
@@ -36,11 +42,16 @@ func CheckCaps(st *Station, seq *Sequence) error {
 	}
 	for _, r := range seq.Requires {
 		if _, ok := st.Instruments[r]; !ok {
-			errs = append(errs, fmt.Sprintf("%s: the sequence requires the %q role, which station %s does not bind", seq.File.Name, r, st.ID))
+			unbound = append(unbound, fmt.Sprintf("%s: the sequence requires the %q role, which station %s does not bind", seq.File.Name, r, st.ID))
 		}
 	}
-	if len(errs) > 0 {
+	switch {
+	case len(errs) > 0 && len(unbound) > 0:
+		return fmt.Errorf("%w: %s; %w: %s", ErrSafety, strings.Join(errs, "; "), ErrUnboundRole, strings.Join(unbound, "; "))
+	case len(errs) > 0:
 		return fmt.Errorf("%w: %s", ErrSafety, strings.Join(errs, "; "))
+	case len(unbound) > 0:
+		return fmt.Errorf("%w: %s", ErrUnboundRole, strings.Join(unbound, "; "))
 	}
 	return nil
 }

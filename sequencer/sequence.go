@@ -47,8 +47,10 @@ type Sequence struct {
 
 // SweepPlan is one pass across the input range.
 type SweepPlan struct {
-	From, To float64       // stimulus, volts
-	Points   int           // number of levels, ≥ 2, evenly spaced, From first
+	From, To float64 // stimulus, volts
+	// Points is the number of levels, evenly spaced, From first: at least 3 (the
+	// loader refuses fewer; a line through 2 points has no residual to judge).
+	Points   int
 	Settle   time.Duration // wait after each level change before reading
 	Readings int           // readings per level
 	Where    string        // "file:line:col" of the sweep in the sequence file, for messages

@@ -30,8 +30,8 @@ type Station struct {
 	OutputFolder      string                       // resolved relative to the station file
 	// StepDeadline bounds one engine step (a sweep point, a trim write); 0 = none.
 	StepDeadline time.Duration
-	// Interlock, when set, must answer "closed" before any output is switched on
-	// and between sweep points.
+	// Interlock, when set, must give its Closed reply before every sweep point,
+	// so before any output is switched on.
 	Interlock *Interlock
 	// RequireRelease makes production runs refuse sequence and limit files whose
 	// hash was never released in the ledger's audit trail.
