@@ -312,7 +312,7 @@ func (e *Engine) identifyUnit(ctx context.Context, rec *Record) error {
 func (e *Engine) measure(ctx context.Context, rec *Record, trims []TrimCode) error {
 	seq := e.cfg.Sequence
 
-	pre, err := e.sweep(ctx, "pre-trim", seq.PreTrim)
+	pre, err := e.sweep(ctx, SweepPreTrim, seq.PreTrim)
 	e.annotate(&pre)
 	rec.Sweeps = append(rec.Sweeps, pre)
 	if err != nil {
@@ -342,7 +342,7 @@ func (e *Engine) measure(ctx context.Context, rec *Record, trims []TrimCode) err
 	}
 	rec.Trims = trims
 
-	post, err := e.sweep(ctx, "verify", seq.Verify)
+	post, err := e.sweep(ctx, SweepVerify, seq.Verify)
 	e.annotate(&post)
 	rec.Sweeps = append(rec.Sweeps, post)
 	if err != nil {

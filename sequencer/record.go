@@ -123,8 +123,26 @@ type InstrumentRef struct {
 
 // Sweep is one pass across the stimulus range.
 type Sweep struct {
-	Name   string  `json:"name"` // "pre-trim" or "verify"
+	Name   string  `json:"name"` // SweepPreTrim or SweepVerify
 	Points []Point `json:"points"`
+}
+
+// Names of the sweeps, as the record writes them.
+const (
+	SweepPreTrim = "pre-trim" // the unit as found, before trim
+	SweepVerify  = "verify"   // the unit as left, after trim
+)
+
+// SweepStage is the stage a sweep of that name measures: AsFound for the
+// pre-trim sweep, AsLeft for the verify sweep, 0 for any other name.
+func SweepStage(name string) Stage {
+	switch name {
+	case SweepPreTrim:
+		return AsFound
+	case SweepVerify:
+		return AsLeft
+	}
+	return 0
 }
 
 // Point is one stimulus level and the readings taken there.

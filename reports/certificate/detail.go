@@ -11,8 +11,8 @@ import (
 
 // Sweep names the plot looks for.
 const (
-	sweepPre    = "pre-trim"
-	sweepVerify = "verify"
+	sweepPre    = sequencer.SweepPreTrim
+	sweepVerify = sequencer.SweepVerify
 )
 
 // detail is the measurement detail: the decision statements of the toleranced
@@ -154,13 +154,13 @@ func (d *doc) fits() ([]column, []row) {
 
 func finite(v float64) bool { return !math.IsNaN(v) && !math.IsInf(v, 0) }
 
-// sweepStage is the stage of a sweep: the pre-trim sweep finds the unit as it came,
-// the verify sweep leaves it as it ships.
+// sweepStage is the stage of a sweep, as the sequencer declares it: the pre-trim
+// sweep finds the unit as it came, the verify sweep leaves it as it ships.
 func sweepStage(name string) stage {
-	switch name {
-	case sweepPre:
+	switch sequencer.SweepStage(name) {
+	case sequencer.AsFound:
 		return stageFound
-	case sweepVerify:
+	case sequencer.AsLeft:
 		return stageLeft
 	}
 	return stageOther
