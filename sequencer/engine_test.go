@@ -430,14 +430,7 @@ func TestStepDeadline(t *testing.T) {
 func TestTURRefuseStopsTheStation(t *testing.T) {
 	lim := strings.Replace(demoFile(t, "brx200-limits.yaml"), "tur_policy: warn", "tur_policy: refuse", 1)
 	lim = strings.Replace(lim, "tolerance: {lower: -800, upper: 800}", "tolerance: {lower: -50, upper: 50}", 1)
-	st, err := sequencer.ParseStation("brx200-station.yaml", []byte(demoFile(t, "brx200-station.yaml")))
-	if err != nil {
-		t.Fatal(err)
-	}
-	seq, err := sequencer.ParseSequence("brx200-sequence.yaml", []byte(demoFile(t, "brx200-sequence.yaml")), demoReader(t, map[string]string{"brx200-limits.yaml": lim}))
-	if err != nil {
-		t.Fatal(err)
-	}
+	st, seq := demoFiles(t, map[string]string{"brx200-limits.yaml": lim})
 	checks, err := sequencer.CheckTUR(st, seq)
 	if !errors.Is(err, sequencer.ErrTUR) || !strings.Contains(err.Error(), "offset after trim") {
 		t.Fatalf("want ErrTUR naming the limit, got %v", err)
@@ -493,14 +486,7 @@ func TestMonteCarloOptionAgreesWithGUM(t *testing.T) {
 // Replay recomputes a record from its raw readings and agrees with what the
 // engine recorded, exactly; a changed limit shows up as a difference.
 func TestReplayReproducesTheRecord(t *testing.T) {
-	st, err := sequencer.ParseStation("brx200-station.yaml", []byte(demoFile(t, "brx200-station.yaml")))
-	if err != nil {
-		t.Fatal(err)
-	}
-	seq, err := sequencer.ParseSequence("brx200-sequence.yaml", []byte(demoFile(t, "brx200-sequence.yaml")), demoReader(t, nil))
-	if err != nil {
-		t.Fatal(err)
-	}
+	st, seq := demoFiles(t, nil)
 	cfg := sequencer.Config{Station: st, Sequence: seq}
 	e, err := sequencer.Open(context.Background(), cfg)
 	if err != nil {
@@ -541,18 +527,11 @@ func TestReplayReproducesTheRecord(t *testing.T) {
 // The station file may pin the model and serial an instrument must report; the
 // wrong instrument on the bench refuses to run (it would void traceability).
 func TestPinnedIdentityMismatchRefuses(t *testing.T) {
-	st, err := sequencer.ParseStation("brx200-station.yaml", []byte(demoFile(t, "brx200-station.yaml")))
-	if err != nil {
-		t.Fatal(err)
-	}
-	seq, err := sequencer.ParseSequence("brx200-sequence.yaml", []byte(demoFile(t, "brx200-sequence.yaml")), demoReader(t, nil))
-	if err != nil {
-		t.Fatal(err)
-	}
+	st, seq := demoFiles(t, nil)
 	m := st.Instruments["meter"]
 	m.Model = "DV-99"
 	st.Instruments["meter"] = m
-	_, err = sequencer.Open(context.Background(), sequencer.Config{Station: st, Sequence: seq})
+	_, err := sequencer.Open(context.Background(), sequencer.Config{Station: st, Sequence: seq})
 	if err == nil || !strings.Contains(err.Error(), "wrong instrument") || !strings.Contains(err.Error(), "DV-99") {
 		t.Fatalf("want a refusal naming the pinned model, got %v", err)
 	}

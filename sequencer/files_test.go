@@ -33,6 +33,21 @@ func demoReader(t testing.TB, over map[string]string) func(string) ([]byte, erro
 	}
 }
 
+// demoFiles parses the demo station and sequence files, the files the sequence
+// names served by demoReader with the replacements in over.
+func demoFiles(t testing.TB, over map[string]string) (*sequencer.Station, *sequencer.Sequence) {
+	t.Helper()
+	st, err := sequencer.ParseStation("brx200-station.yaml", []byte(demoFile(t, "brx200-station.yaml")))
+	if err != nil {
+		t.Fatal(err)
+	}
+	seq, err := sequencer.ParseSequence("brx200-sequence.yaml", []byte(demoFile(t, "brx200-sequence.yaml")), demoReader(t, over))
+	if err != nil {
+		t.Fatal(err)
+	}
+	return st, seq
+}
+
 // lineOf returns the 1-based line of the first occurrence of needle in text.
 func lineOf(t *testing.T, text, needle string) int {
 	t.Helper()
@@ -44,14 +59,7 @@ func lineOf(t *testing.T, text, needle string) int {
 }
 
 func TestDemoFilesLoad(t *testing.T) {
-	st, err := sequencer.ParseStation("brx200-station.yaml", []byte(demoFile(t, "brx200-station.yaml")))
-	if err != nil {
-		t.Fatal(err)
-	}
-	seq, err := sequencer.ParseSequence("brx200-sequence.yaml", []byte(demoFile(t, "brx200-sequence.yaml")), demoReader(t, nil))
-	if err != nil {
-		t.Fatal(err)
-	}
+	st, seq := demoFiles(t, nil)
 	if err := sequencer.CheckCaps(st, seq); err != nil {
 		t.Fatal(err)
 	}
@@ -191,16 +199,9 @@ variants:
 
 // A role the station does not bind is a misfit of the files, not a safety cap.
 func TestCapsUnboundRoleIsNotASafetyError(t *testing.T) {
-	st, err := sequencer.ParseStation("brx200-station.yaml", []byte(demoFile(t, "brx200-station.yaml")))
-	if err != nil {
-		t.Fatal(err)
-	}
-	seq, err := sequencer.ParseSequence("brx200-sequence.yaml", []byte(demoFile(t, "brx200-sequence.yaml")), demoReader(t, nil))
-	if err != nil {
-		t.Fatal(err)
-	}
+	st, seq := demoFiles(t, nil)
 	delete(st.Instruments, "meter")
-	err = sequencer.CheckCaps(st, seq)
+	err := sequencer.CheckCaps(st, seq)
 	if !errors.Is(err, sequencer.ErrUnboundRole) || errors.Is(err, sequencer.ErrSafety) || !strings.Contains(err.Error(), `requires the "meter" role`) {
 		t.Fatalf("want an unbound-role error that is not a safety cap, got %v", err)
 	}

@@ -60,10 +60,7 @@ func TestPhysicalRanges(t *testing.T) {
 	if !reflect.DeepEqual(free, wantFree) {
 		t.Errorf("PhysicalRanges(nil) = %v, want %v", free, wantFree)
 	}
-	seq, err := sequencer.ParseSequence("brx200-sequence.yaml", []byte(demoFile(t, "brx200-sequence.yaml")), demoReader(t, nil))
-	if err != nil {
-		t.Fatal(err)
-	}
+	_, seq := demoFiles(t, nil)
 	got := sequencer.PhysicalRanges(seq)
 	for name, want := range map[string][2]float64{
 		"offset_code": {0, 4095}, "gain_code": {0, 4095},
