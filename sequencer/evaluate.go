@@ -56,7 +56,6 @@ func (e *Engine) evalPre(rec *Record, res *results, pre Sweep, trims []TrimCode)
 		return false
 	}
 	return true
-
 }
 
 // evalPost computes the post-trim results from the verification sweep.

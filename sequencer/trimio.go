@@ -9,6 +9,8 @@ import (
 	"strings"
 )
 
+// writeCode writes code to the DAC d under the step deadline and reads it back; a
+// read-back that differs stops the run as a station fault.
 func (e *Engine) writeCode(ctx context.Context, d DAC, code int) error {
 	return e.step(ctx, func(ctx context.Context) error { return e.writeCodeStep(ctx, d, code) })
 }
@@ -29,6 +31,8 @@ func (e *Engine) writeCodeStep(ctx context.Context, d DAC, code int) error {
 	return nil
 }
 
+// readCode reads the code the DAC d holds; a reply that is not a code stops the run
+// as a station fault.
 func (e *Engine) readCode(ctx context.Context, d DAC) (int, error) {
 	name := d.Name
 	reply, err := e.dut.Query(ctx, d.Read)
