@@ -129,7 +129,7 @@ func newStation(t *testing.T) *station {
 	rec := record("run-0001", "SN-17", sequencer.Pass, refs)
 	number, err := led.RecordRunWith(ctx, rec, ledger.RecordOptions{Prefix: "TL1", Files: contents,
 		Sign: func(number, runID, recordSHA string) (string, []byte, error) {
-			return key.ID(), key.Sign(ledger.SignedMessage(number, runID, recordSHA)), nil
+			return key.ID(), key.Sign(signing.RecordMessage(number, runID, recordSHA)), nil
 		}})
 	if err != nil {
 		t.Fatal(err)

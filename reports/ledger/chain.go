@@ -11,6 +11,7 @@ import (
 	"strings"
 	"time"
 
+	"trimline/reports/signing"
 	"trimline/sequencer"
 )
 
@@ -40,17 +41,6 @@ func RecordSHA256(rec *sequencer.Record) (string, error) {
 	return sha256Hex(b), nil
 }
 
-// SignedMessage returns the exact bytes a run's signature covers (RecordOptions.Sign
-// signs them, ChainOptions.Verify checks them):
-//
-//	"trimline-record-v1\n" + number + "\n" + runID + "\n" + recordSHA
-//
-// with number the certificate number ("" for a run without one) and recordSHA the
-// record's SHA-256 in lowercase hex. There is no final line break.
-func SignedMessage(number, runID, recordSHA string) []byte {
-	return []byte("trimline-record-v1\n" + number + "\n" + runID + "\n" + recordSHA)
-}
-
 // chainHash is a run's chain_hash; RecordRunWith documents the line.
 func chainHash(prev, runID, cert, recordSHA, verdict, keyID string, sig []byte) string {
 	line := "trimline-chain-v1\n" + prev + "\n" + runID + "\n" + cert + "\n" + recordSHA + "\n" +
@@ -61,7 +51,7 @@ func chainHash(prev, runID, cert, recordSHA, verdict, keyID string, sig []byte) 
 // ChainOptions are VerifyChain's options.
 type ChainOptions struct {
 	// Verify, if not nil, checks each signed run's signature: it must report whether
-	// sig is keyID's signature over msg (SignedMessage of the run). A false is a
+	// sig is keyID's signature over msg (signing.RecordMessage of the run). A false is a
 	// broken link. Without Verify, signatures are only checked to be covered by the
 	// chain.
 	Verify func(keyID string, msg, sig []byte) bool
@@ -448,7 +438,7 @@ func (c *chainCheck) run(r *runRow, prevSeq int64, prev string) error {
 	} else {
 		c.rep.Signed++
 		if c.opt.Verify != nil {
-			if !c.opt.Verify(r.keyID, SignedMessage(r.cert, r.runID, r.recordSHA), r.sig) {
+			if !c.opt.Verify(r.keyID, signing.RecordMessage(r.cert, r.runID, r.recordSHA), r.sig) {
 				return fail("the signature of key %q does not verify", r.keyID)
 			}
 			c.rep.Verified++

@@ -18,6 +18,7 @@ import (
 	"time"
 
 	"trimline/reports/ledger"
+	"trimline/reports/signing"
 	"trimline/sequencer"
 )
 
@@ -36,7 +37,7 @@ func newSigner(ids ...string) *testSigner {
 // sign returns a RecordOptions.Sign that signs with key id.
 func (s *testSigner) sign(id string) func(number, runID, recordSHA string) (string, []byte, error) {
 	return func(number, runID, recordSHA string) (string, []byte, error) {
-		return id, ed25519.Sign(s.keys[id], ledger.SignedMessage(number, runID, recordSHA)), nil
+		return id, ed25519.Sign(s.keys[id], signing.RecordMessage(number, runID, recordSHA)), nil
 	}
 }
 
@@ -80,8 +81,8 @@ func TestChainVectors(t *testing.T) {
 	if h := ledger.AuditHash(h1, 2, "2025-06-03T10:00:01.000000000Z", "qa\nlead", "void", "TL1-000001", ""); h != "d716784c3d5bca922f7623798dede3d97d54a632588edb9cdcd228b428f04f99" {
 		t.Errorf("audit entry 2: %s", h)
 	}
-	if got := string(ledger.SignedMessage("TL1-000007", "run-9", a)); got != "trimline-record-v1\nTL1-000007\nrun-9\n"+a {
-		t.Errorf("SignedMessage = %q", got)
+	if got := string(signing.RecordMessage("TL1-000007", "run-9", a)); got != "trimline-record-v1\nTL1-000007\nrun-9\n"+a {
+		t.Errorf("RecordMessage = %q", got)
 	}
 }
 
@@ -198,7 +199,7 @@ func TestChainStoredLinks(t *testing.T) {
 		t.Fatal(err)
 	}
 	if rec.RunID != "b2" || meta.RunID != "b2" || meta.Certificate != "TL1-000003" || meta.KeyID != "station-key-1" ||
-		meta.ChainHash != prev["EOL-B"] || !signer.verify(meta.KeyID, ledger.SignedMessage(meta.Certificate, meta.RunID, meta.RecordSHA256), meta.Signature) {
+		meta.ChainHash != prev["EOL-B"] || !signer.verify(meta.KeyID, signing.RecordMessage(meta.Certificate, meta.RunID, meta.RecordSHA256), meta.Signature) {
 		t.Errorf("RunByCertificate meta %+v", meta)
 	}
 	if _, _, err := l.RunByCertificate(ctx, "TL1-000099"); !errors.Is(err, ledger.ErrNotFound) {

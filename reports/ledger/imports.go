@@ -11,6 +11,7 @@ import (
 	"strings"
 	"time"
 
+	"trimline/reports/signing"
 	"trimline/sequencer"
 )
 
@@ -59,7 +60,7 @@ type ImportedRun struct {
 	RecordJSON   []byte // the record's canonical JSON (Canonical), as the source kept it
 	RecordSHA256 string // lowercase hex SHA-256 of RecordJSON
 	// KeyID and Signature are the source's signature over
-	// SignedMessage(Number, RunID, RecordSHA256); both empty when unsigned. The
+	// signing.RecordMessage(Number, RunID, RecordSHA256); both empty when unsigned. The
 	// ledger stores them; the importer checks them (reports/bundle does).
 	KeyID     string
 	Signature []byte
@@ -390,7 +391,7 @@ var importTriggers = []string{"imported_runs_no_update", "imported_runs_no_delet
 //  3. every imported run: record_json hashes to record_sha256, is a canonical
 //     record whose run id, serial and station are the row's, and has a number
 //     exactly if its verdict is PASS, FAIL or REVIEW; the signature (opts' Verify,
-//     over SignedMessage(number, run id, record SHA-256), and RequireSignatures);
+//     over signing.RecordMessage(number, run id, record SHA-256), and RequireSignatures);
 //     its import entry agrees with the row (time and importer included), and the
 //     blobs it names exist.
 //
@@ -501,7 +502,7 @@ func (l *Ledger) VerifyImports(ctx context.Context, opts ...ChainOptions) (Impor
 			} else {
 				rep.Signed++
 				if opt.Verify != nil {
-					if !opt.Verify(ir.KeyID, SignedMessage(ir.Number, ir.RunID, ir.RecordSHA256), ir.Signature) {
+					if !opt.Verify(ir.KeyID, signing.RecordMessage(ir.Number, ir.RunID, ir.RecordSHA256), ir.Signature) {
 						return fail("the signature of key %q does not verify", ir.KeyID)
 					}
 					rep.Verified++

@@ -6,7 +6,7 @@
 //
 // The ledger is tamper-evident and self-contained, for an auditor years later:
 //   - every run carries an optional signature (RecordOptions.Sign) over
-//     SignedMessage(certificate, run id, record SHA-256), and a link in a SHA-256
+//     signing.RecordMessage(certificate, run id, record SHA-256), and a link in a SHA-256
 //     hash chain of its station (RecordRunWith describes the chain line);
 //   - the exact bytes of the files in force are kept, content-addressed, in blobs;
 //   - an append-only audit trail, hash-chained too, says who did what when: every
@@ -302,7 +302,7 @@ type RecordOptions struct {
 	// Sign, if not nil, signs the run. It is called inside the write transaction,
 	// after the certificate number is allocated ("" for a FAULT or ABORTED run),
 	// with the run id and the record's SHA-256 (RecordSHA256), and must return the
-	// id of the key and a signature over SignedMessage(number, runID, recordSHA256).
+	// id of the key and a signature over signing.RecordMessage(number, runID, recordSHA256).
 	// The key id must be non-empty without control characters and the signature
 	// non-empty. An error from Sign (returned wrapped) rolls everything back, the
 	// number included. Other writers of the file wait while Sign runs (for at most
