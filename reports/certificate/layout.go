@@ -435,3 +435,38 @@ func dash(s string) string {
 	}
 	return s
 }
+
+// para is one labelled paragraph of a definition block.
+type para struct {
+	label, text string
+}
+
+// fields writes labelled paragraphs: the label in a narrow column at the left, the
+// text wrapped beside it. A paragraph may break across a page between its lines.
+func (d *doc) fields(fs []para) {
+	const labelW = 27.0
+	st := stBody.sized(7.6)
+	lh := st.lineH() + 0.3
+	for _, f := range fs {
+		lines := d.wrap(f.text, contentW-labelW, st)
+		d.need(lh * float64(min(len(lines), 2)))
+		d.text(marginL, d.y+0.4, labelW, lh, f.label, stLabel, "L")
+		for i, l := range lines {
+			if i > 0 && d.need(lh) {
+				d.text(marginL, d.y+0.4, labelW, lh, f.label+" (continued)", stLabel, "L")
+			}
+			d.text(marginL+labelW, d.y+0.4, contentW-labelW, lh, l, st, "L")
+			d.y += lh
+		}
+		d.y += 1
+	}
+}
+
+// note is a line of small print under a table.
+func (d *doc) note(s string) {
+	for _, l := range d.wrap(s, contentW, stSmall) {
+		d.need(stSmall.lineH() + 1)
+		d.text(marginL, d.y+0.8, contentW, stSmall.lineH(), l, stSmall, "L")
+		d.y += stSmall.lineH() + 0.8
+	}
+}
