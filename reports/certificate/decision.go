@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"strings"
 
+	"trimline/reports/internal/pdfdoc"
 	"trimline/sequencer"
 )
 
@@ -122,7 +123,7 @@ func (d *doc) decisionRule() {
 	if statements {
 		fs = append(fs, para{"Statements", "The statement of each toleranced limit is listed under “Decision statements” in the measurement detail."})
 	}
-	d.heading("Decision rule", 3*stBody.lineH())
+	d.heading("Decision rule", 3*pdfdoc.Body.LineH())
 	d.fields(fs)
 }
 

@@ -4,20 +4,21 @@ import (
 	"strings"
 	"time"
 
+	"trimline/reports/internal/pdfdoc"
 	"trimline/sequencer"
 )
 
 // instrumentsUsed is the traceability table of the instruments.
 func (d *doc) instrumentsUsed() {
-	cols := []column{
-		{title: "Role", w: 15, align: "L"},
-		{title: "Asset", w: 19, align: "L"},
-		{title: "Identity", w: 44, align: "L"},
-		{title: "Address", w: 42, align: "L"},
-		{title: "Cal. due", w: 19, align: "L"},
-		{title: "Accuracy", w: 41, align: "L"},
+	cols := []pdfdoc.Column{
+		{Title: "Role", W: 15, Align: "L"},
+		{Title: "Asset", W: 19, Align: "L"},
+		{Title: "Identity", W: 44, Align: "L"},
+		{Title: "Address", W: 42, Align: "L"},
+		{Title: "Cal. due", W: 19, Align: "L"},
+		{Title: "Accuracy", W: 41, Align: "L"},
 	}
-	var rows []row
+	var rows []pdfdoc.Row
 	for _, in := range d.rec.Instruments {
 		id := in.Identity
 		id.Maker, id.Model, id.Serial, id.Firmware = said(id.Maker), said(id.Model), said(id.Serial), said(id.Firmware)
@@ -25,7 +26,7 @@ func (d *doc) instrumentsUsed() {
 		if name == "" {
 			name = "did not identify itself"
 		}
-		ident := cell{{name, stBody}}
+		ident := pdfdoc.Cell{{Text: name, St: pdfdoc.Body}}
 		var sub []string
 		if id.Serial != "" {
 			sub = append(sub, "s/n "+id.Serial)
@@ -34,24 +35,23 @@ func (d *doc) instrumentsUsed() {
 			sub = append(sub, "firmware "+id.Firmware)
 		}
 		if len(sub) > 0 {
-			ident = append(ident, span{strings.Join(sub, " · "), stSmall})
+			ident = append(ident, pdfdoc.Span{Text: strings.Join(sub, " · "), St: pdfdoc.Small})
 		}
-		due := c1(dash(in.CalDue), stBody)
+		due := c1(dash(in.CalDue), pdfdoc.Body)
 		if d.overdue(in) {
-			due = cell{{in.CalDue, stBold.with(colFail)}, {"overdue at test", stSmall.with(colFail)}}
+			due = pdfdoc.Cell{{Text: in.CalDue, St: pdfdoc.Bold.With(pdfdoc.Fail)}, {Text: "overdue at test", St: pdfdoc.Small.With(pdfdoc.Fail)}}
 		}
-		rows = append(rows, row{
-			c1(dash(in.Role), stBold),
-			c1(dash(in.Asset), stBody),
+		rows = append(rows, pdfdoc.Row{
+			c1(dash(in.Role), pdfdoc.Bold),
+			c1(dash(in.Asset), pdfdoc.Body),
 			ident,
-			c1(dash(in.Address), stMono.sized(6.5)),
+			c1(dash(in.Address), stMono.Sized(6.5)),
 			due,
-			c1(dash(in.Accuracy), stBody),
+			c1(dash(in.Accuracy), pdfdoc.Body),
 		})
 	}
-	d.heading("Instruments used and traceability", keep(d.tableHeight(cols, rows)))
-	d.table(cols, rows)
-	d.y += 1.2
+	d.tableSection("Instruments used and traceability", cols, rows, nil)
+	d.Y += 1.2
 	d.fields([]para{{"Traceability", d.traceability()}})
 }
 

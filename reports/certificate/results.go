@@ -4,15 +4,16 @@ import (
 	"sort"
 
 	"trimline/limits"
+	"trimline/reports/internal/pdfdoc"
 	"trimline/sequencer"
 )
 
 // verdictCell is a PASS/FAIL cell in its colour.
-func verdictCell(pass bool) cell {
+func verdictCell(pass bool) pdfdoc.Cell {
 	if pass {
-		return c1("PASS", stBold.with(colPass))
+		return c1("PASS", pdfdoc.Bold.With(pdfdoc.Pass))
 	}
-	return c1("FAIL", stBold.with(colFail))
+	return c1("FAIL", pdfdoc.Bold.With(pdfdoc.Fail))
 }
 
 // conditional reports whether a decision puts its result in a conditional zone
@@ -36,23 +37,23 @@ func (d *doc) held(o limits.Outcome) bool {
 // zoneCell is the decision cell of a toleranced limit: PASS and FAIL as for an
 // expression limit, the conditional zones in words in their colours, and under it
 // "held for review" where the record was sent to review.
-func (d *doc) zoneCell(o limits.Outcome) cell {
+func (d *doc) zoneCell(o limits.Outcome) pdfdoc.Cell {
 	dd := o.Decision
-	var c cell
+	var c pdfdoc.Cell
 	switch {
 	case dd.Binary && dd.Zone != limits.ZonePass && dd.Zone != limits.ZoneFail:
-		c = cell{{"FAIL", stBold.with(colFail)}, {dd.Zone + " zone, binary", stSmall}}
+		c = pdfdoc.Cell{{Text: "FAIL", St: pdfdoc.Bold.With(pdfdoc.Fail)}, {Text: dd.Zone + " zone, binary", St: pdfdoc.Small}}
 	case dd.Zone == limits.ZoneConditionalPass:
-		c = c1("conditional pass", stBold.with(colCondPass))
+		c = c1("conditional pass", pdfdoc.Bold.With(colCondPass))
 	case dd.Zone == limits.ZoneConditionalFail:
-		c = c1("conditional fail", stBold.with(colCondFail))
+		c = c1("conditional fail", pdfdoc.Bold.With(colCondFail))
 	case dd.Zone == limits.ZonePass && !o.Pass:
-		c = c1("PASS", stBold.with(colCondPass)) // held back: see the reason
+		c = c1("PASS", pdfdoc.Bold.With(colCondPass)) // held back: see the reason
 	default:
 		c = verdictCell(o.Pass)
 	}
 	if d.held(o) {
-		c = append(c, span{"held for review", stSmall})
+		c = append(c, pdfdoc.Span{Text: "held for review", St: pdfdoc.Small})
 	}
 	return c
 }
@@ -96,14 +97,14 @@ func (d *doc) outcomesByStage() []limits.Outcome {
 // below it, the coverage factor, degrees of freedom and method (or "U not
 // evaluated"). A toleranced limit shows its decision's numbers; an expression limit
 // shows each result it uses, its U converted to the limit's unit.
-func (d *doc) measuredCell(o limits.Outcome) cell {
+func (d *doc) measuredCell(o limits.Outcome) pdfdoc.Cell {
 	if dd := o.Decision; dd != nil {
 		v, ok := o.Values[dd.Result]
 		switch {
 		case !ok && len(o.Values) == 0:
-			return c1("not measured", stBody)
+			return c1("not measured", pdfdoc.Body)
 		case ok && !finite(v), !finite(dd.Value):
-			return c1("not valid", stBody)
+			return c1("not valid", pdfdoc.Body)
 		}
 		// The decision's dof is 0 for "infinite or unknown"; the result's own
 		// uncertainty tells them apart (math.Inf(1) for infinite).
@@ -113,15 +114,15 @@ func (d *doc) measuredCell(o limits.Outcome) cell {
 			dof = r.Unc.DOF
 		}
 		sub := uncLine(dd.U, dd.K, dof, r.Unc.Method)
-		return cell{{fmtWithU(dd.Value, dd.U, o.Unit), stBody}, {sub, stSmall}}
+		return pdfdoc.Cell{{Text: fmtWithU(dd.Value, dd.U, o.Unit), St: pdfdoc.Body}, {Text: sub, St: pdfdoc.Small}}
 	}
 	vals := outcomeValues(o) // the keys in order, for the "not measured" case
 	keys := outcomeKeys(o)
 	if len(keys) == 0 {
-		return c1(vals[0], stBody)
+		return c1(vals[0], pdfdoc.Body)
 	}
 	scale := unitScale(o.Unit)
-	var c cell
+	var c pdfdoc.Cell
 	anyU := false
 	for _, k := range keys {
 		v := o.Values[k]
@@ -134,14 +135,14 @@ func (d *doc) measuredCell(o limits.Outcome) cell {
 		if len(keys) > 1 {
 			text = k + " = " + text
 		}
-		c = append(c, span{text, stBody})
+		c = append(c, pdfdoc.Span{Text: text, St: pdfdoc.Body})
 		if hasU(U) && finite(v) {
 			anyU = true
-			c = append(c, span{uncLine(U, r.Unc.K, r.Unc.DOF, r.Unc.Method), stSmall})
+			c = append(c, pdfdoc.Span{Text: uncLine(U, r.Unc.K, r.Unc.DOF, r.Unc.Method), St: pdfdoc.Small})
 		}
 	}
 	if !anyU && !isCount(o.Unit) {
-		c = append(c, span{"U not evaluated", stSmall})
+		c = append(c, pdfdoc.Span{Text: "U not evaluated", St: pdfdoc.Small})
 	}
 	return c
 }
@@ -156,42 +157,42 @@ func (d *doc) results() {
 	for _, o := range outs {
 		decided = decided || o.Decision != nil
 	}
-	cols := []column{
-		{title: "Limit", w: 50, align: "L"},
-		{title: "Measured value ± U", w: 44, align: "R"},
-		{title: "Limit expression", w: 66, align: "L", gap: 4},
-		{title: "Verdict", w: 20, align: "C"},
+	cols := []pdfdoc.Column{
+		{Title: "Limit", W: 50, Align: "L"},
+		{Title: "Measured value ± U", W: 44, Align: "R"},
+		{Title: "Limit expression", W: 66, Align: "L", Gap: 4},
+		{Title: "Verdict", W: 20, Align: "C"},
 	}
 	if decided {
-		cols = []column{
-			{title: "Limit", w: 51, align: "L"},
-			{title: "Measured value ± U", w: 36, align: "R"},
-			{title: "Tolerance · acceptance", w: 40, align: "L", gap: 3},
-			{title: "Decision", w: 22, align: "C"},
-			{title: "TUR", w: 12, align: "R"},
-			{title: "PFA", w: 19, align: "R"},
+		cols = []pdfdoc.Column{
+			{Title: "Limit", W: 51, Align: "L"},
+			{Title: "Measured value ± U", W: 36, Align: "R"},
+			{Title: "Tolerance · acceptance", W: 40, Align: "L", Gap: 3},
+			{Title: "Decision", W: 22, Align: "C"},
+			{Title: "TUR", W: 12, Align: "R"},
+			{Title: "PFA", W: 19, Align: "R"},
 		}
 	}
-	var rows []row
-	var bands []band
+	var rows []pdfdoc.Row
+	var bands []pdfdoc.Band
 	last := stage(-1)
 	turLow, exprs := false, false
 	for _, o := range outs {
 		if st := outcomeStage(o); st != last {
-			bands = append(bands, band{len(rows), stageTitle(st)})
+			bands = append(bands, pdfdoc.Band{At: len(rows), Title: stageTitle(st)})
 			last = st
 		}
-		name := cell{{o.Name, stBold}}
+		name := pdfdoc.Cell{{Text: o.Name, St: pdfdoc.Bold}}
 		if o.Description != "" {
-			name = append(name, span{o.Description, stSmall})
+			name = append(name, pdfdoc.Span{Text: o.Description, St: pdfdoc.Small})
 		}
 		meas := d.measuredCell(o)
 		// An expression limit's reason says what was false; a toleranced limit's
 		// is in the reasons above and in its decision statement, and its zone is
 		// in the row, so it is not repeated here.
-		reason := func(c cell) cell {
+		reason := func(c pdfdoc.Cell) pdfdoc.Cell {
 			if !o.Pass && o.Reason != "" {
-				c = append(c, span{o.Reason, stSmall.with(colFail)})
+				c = append(c, pdfdoc.Span{Text: o.Reason, St: pdfdoc.Small.With(pdfdoc.Fail)})
 			}
 			return c
 		}
@@ -201,42 +202,41 @@ func (d *doc) results() {
 			exprs = true
 			mono := stMono
 			if decided {
-				mono = stMono.sized(6.5) // a narrower column
+				mono = stMono.Sized(6.5) // a narrower column
 			}
-			expr := reason(cell{{o.Expr, mono}})
+			expr := reason(pdfdoc.Cell{{Text: o.Expr, St: mono}})
 			if decided {
-				na := c1("—", stSmall)
-				rows = append(rows, row{name, meas, expr, verdictCell(o.Pass), na, na})
+				na := c1("—", pdfdoc.Small)
+				rows = append(rows, pdfdoc.Row{name, meas, expr, verdictCell(o.Pass), na, na})
 			} else {
-				rows = append(rows, row{name, meas, expr, verdictCell(o.Pass)})
+				rows = append(rows, pdfdoc.Row{name, meas, expr, verdictCell(o.Pass)})
 			}
 		default:
-			tol := cell{{fmtTolerance(dd, o.Unit), stBody}}
+			tol := pdfdoc.Cell{{Text: fmtTolerance(dd, o.Unit), St: pdfdoc.Body}}
 			switch {
 			case dd.Rule == "guarded" && (dd.AcceptLower != nil || dd.AcceptUpper != nil):
-				tol = append(tol, span{"accept " + fmtAcceptance(dd, o.Unit), stSmall})
+				tol = append(tol, pdfdoc.Span{Text: "accept " + fmtAcceptance(dd, o.Unit), St: pdfdoc.Small})
 			case dd.Rule == "simple":
-				tol = append(tol, span{"simple acceptance, w = 0", stSmall})
+				tol = append(tol, pdfdoc.Span{Text: "simple acceptance, w = 0", St: pdfdoc.Small})
 			case dd.Rule != "":
-				tol = append(tol, span{"rule " + dd.Rule, stSmall})
+				tol = append(tol, pdfdoc.Span{Text: "rule " + dd.Rule, St: pdfdoc.Small})
 			}
-			tur := c1(fmtTUR(dd.TUR), stBody)
+			tur := c1(fmtTUR(dd.TUR), pdfdoc.Body)
 			if fmtTUR(dd.TUR) == "—" {
-				tur = c1("—", stSmall)
+				tur = c1("—", pdfdoc.Small)
 			}
 			if dd.TURLow {
-				tur = c1(fmtTUR(dd.TUR)+" ¹", stBold.with(colCondPass))
+				tur = c1(fmtTUR(dd.TUR)+" ¹", pdfdoc.Bold.With(colCondPass))
 				turLow = true
 			}
-			pfa := c1("—", stSmall)
+			pfa := c1("—", pdfdoc.Small)
 			if accepted(dd) && hasU(dd.U) && finite(dd.POutside) {
-				pfa = c1(fmtPercent(dd.POutside), stBody)
+				pfa = c1(fmtPercent(dd.POutside), pdfdoc.Body)
 			}
-			rows = append(rows, row{name, meas, tol, d.zoneCell(o), tur, pfa})
+			rows = append(rows, pdfdoc.Row{name, meas, tol, d.zoneCell(o), tur, pfa})
 		}
 	}
-	d.heading("Results against limits", keep(d.bandTableHeight(cols, rows, bands)))
-	d.bandTable(cols, rows, bands)
+	d.tableSection("Results against limits", cols, rows, bands)
 	if len(rows) == 0 {
 		return
 	}

@@ -3,6 +3,7 @@ package certificate
 import (
 	"fmt"
 
+	"trimline/reports/internal/pdfdoc"
 	"trimline/sequencer"
 )
 
@@ -39,18 +40,18 @@ func (d *doc) certified() bool {
 // footers writes the caution and the page number on every page, once the page
 // count is known.
 func (d *doc) footers() {
-	n := d.pdf.PageCount()
+	n := d.PDF.PageCount()
 	caution := "The results on this certificate relate only to the unit identified by its serial number, " +
 		"measured with the instruments and files listed, under the conditions at the time of the test. " +
 		"This certificate shall not be reproduced except in full."
 	for p := 1; p <= n; p++ {
-		d.pdf.SetPage(p)
-		y := pageH - 21
-		d.rule(y, colRule, 0.3)
+		d.PDF.SetPage(p)
+		y := pdfdoc.PageH - 21
+		d.Rule(y, pdfdoc.Rule, 0.3)
 		ly := y + 1.8
-		for _, l := range d.wrap(caution, contentW-32, stSmall) {
-			d.text(marginL, ly, contentW-32, stSmall.lineH(), l, stSmall, "L")
-			ly += stSmall.lineH()
+		for _, l := range d.Wrap(caution, contentW-32, pdfdoc.Small) {
+			d.Cell(marginL, ly, contentW-32, pdfdoc.Small.LineH(), l, pdfdoc.Small, "L")
+			ly += pdfdoc.Small.LineH()
 		}
 		left := "Certificate " + dash(d.opt.Number) + " · serial " + dash(d.rec.Serial)
 		if d.opt.VerificationCode != "" {
@@ -58,7 +59,7 @@ func (d *doc) footers() {
 		} else if !d.sealed() {
 			left += " · unsigned"
 		}
-		d.text(marginL, ly+0.6, contentW-32, stSmall.lineH(), left, stSmall.with(colInk), "L")
-		d.text(marginL+contentW-30, y+1.8, 30, 4, fmt.Sprintf("Page %d of %d", p, n), stBold.sized(8), "R")
+		d.Cell(marginL, ly+0.6, contentW-32, pdfdoc.Small.LineH(), left, pdfdoc.Small.With(pdfdoc.Ink), "L")
+		d.Cell(marginL+contentW-30, y+1.8, 30, 4, fmt.Sprintf("Page %d of %d", p, n), pdfdoc.Bold.Sized(8), "R")
 	}
 }
