@@ -5,15 +5,16 @@ import (
 	"strings"
 
 	"trimline/limits"
+	"trimline/reports/internal/pdfdoc"
 )
 
 func (d *doc) flips() {
 	fs := d.r.Flips
 	d.heading(fmt.Sprintf("Units whose verdict flips (%d)", len(fs)))
 	if len(fs) == 0 {
-		d.font("", 9, colMuted)
-		d.y += 4
-		d.text(marginL, d.y, "No unit changes verdict under the new set.")
+		d.font("", 9, pdfdoc.Muted)
+		d.Y += 4
+		d.PDF.Text(marginL, d.Y, "No unit changes verdict under the new set.")
 		return
 	}
 	cols := []struct {
@@ -22,70 +23,67 @@ func (d *doc) flips() {
 	}{{"Serial", 30}, {"Run", 30}, {"Finished (UTC)", 30}, {"Old → new", 28}, {"Limits involved", contentW - 118}}
 	const rowH = 4.6
 	header := func() {
-		d.fill(colHead)
-		d.pdf.Rect(marginL, d.y, contentW, rowH+0.6, "F")
-		d.font("B", 7.5, colInk)
+		d.Stripe(d.Y, rowH+0.6, pdfdoc.HeadFill)
+		d.font("B", 7.5, pdfdoc.Ink)
 		x := marginL + 1
 		for _, c := range cols {
-			d.text(x, d.y+rowH*0.72, c.title)
+			d.PDF.Text(x, d.Y+rowH*0.72, c.title)
 			x += c.w
 		}
-		d.y += rowH + 0.6
+		d.Y += rowH + 0.6
 	}
 	header()
 	for i, f := range fs {
 		if i == MaxFlipRows {
-			d.ensure(rowH + 2)
-			d.font("", 8, colMuted)
-			d.y += rowH
-			d.text(marginL+1, d.y, fmt.Sprintf("… and %d more", len(fs)-MaxFlipRows))
+			d.need(rowH + 2)
+			d.font("", 8, pdfdoc.Muted)
+			d.Y += rowH
+			d.PDF.Text(marginL+1, d.Y, fmt.Sprintf("… and %d more", len(fs)-MaxFlipRows))
 			break
 		}
-		if d.ensure(rowH) {
+		if d.need(rowH) {
 			header()
 		}
 		if i%2 == 1 {
-			d.fill(colZebra)
-			d.pdf.Rect(marginL, d.y, contentW, rowH, "F")
+			d.Stripe(d.Y, rowH, pdfdoc.Zebra)
 		}
-		base := d.y + rowH*0.72
+		base := d.Y + rowH*0.72
 		x := marginL + 1
-		d.pdf.SetFont(mono, "", 7.5)
-		d.pdf.SetTextColor(colInk.r, colInk.g, colInk.b)
-		d.text(x, base, d.fit(f.Serial, cols[0].w-2))
+		d.Use(pdfdoc.Style{Family: pdfdoc.Mono, Size: 7.5, Color: pdfdoc.Ink})
+		d.PDF.Text(x, base, d.Fit(f.Serial, cols[0].w-2))
 		x += cols[0].w
-		d.text(x, base, d.fit(orDash(f.RunID), cols[1].w-2))
+		d.PDF.Text(x, base, d.Fit(orDash(f.RunID), cols[1].w-2))
 		x += cols[1].w
-		d.font("", 7.5, colInk)
+		d.font("", 7.5, pdfdoc.Ink)
 		when := "—"
 		if !f.Finished.IsZero() {
 			when = f.Finished.UTC().Format("2006-01-02 15:04:05")
 		}
-		d.text(x, base, when)
+		d.PDF.Text(x, base, when)
 		x += cols[2].w
 		d.font("", 7.5, verdictColor(f.Old))
-		d.text(x, base, f.Old)
-		ow := d.pdf.GetStringWidth(f.Old + " ")
-		d.font("", 7.5, colMuted)
-		d.text(x+ow, base, "→")
-		aw := d.pdf.GetStringWidth("→ ")
+		d.PDF.Text(x, base, f.Old)
+		ow := d.PDF.GetStringWidth(f.Old + " ")
+		d.font("", 7.5, pdfdoc.Muted)
+		d.PDF.Text(x+ow, base, "→")
+		aw := d.PDF.GetStringWidth("→ ")
 		d.font("B", 7.5, verdictColor(f.New))
-		d.text(x+ow+aw, base, f.New)
+		d.PDF.Text(x+ow+aw, base, f.New)
 		x += cols[3].w
-		d.font("", 7.5, colInk)
-		d.text(x, base, d.fit(strings.Join(f.Limits, "; "), cols[4].w-2))
-		d.y += rowH
+		d.font("", 7.5, pdfdoc.Ink)
+		d.PDF.Text(x, base, d.Fit(strings.Join(f.Limits, "; "), cols[4].w-2))
+		d.Y += rowH
 	}
 }
 
-func verdictColor(v string) rgb {
+func verdictColor(v string) pdfdoc.Color {
 	switch v {
 	case limits.VerdictPass:
-		return colPass
+		return pdfdoc.Pass
 	case limits.VerdictFail:
-		return colFail
+		return pdfdoc.Fail
 	case limits.VerdictReview:
-		return colReview
+		return pdfdoc.Review
 	}
-	return colInk
+	return pdfdoc.Ink
 }

@@ -6,7 +6,6 @@ import (
 	"strings"
 
 	"trimline/instruments/units"
-	"trimline/reports/internal/pdfdoc"
 )
 
 // displayUnit returns the SI value of one unit u and its printed form; an unknown
@@ -78,12 +77,4 @@ func num(v float64) string {
 
 func near(a, b float64) bool {
 	return math.Abs(a-b) <= 1e-9*math.Max(1, math.Max(math.Abs(a), math.Abs(b)))
-}
-
-func axisLabel(a pdfdoc.Axis, v float64) string {
-	s := strconv.FormatFloat(v, 'f', a.Dec, 64)
-	if strings.Trim(s, "-0.") == "" {
-		s = strings.TrimPrefix(s, "-")
-	}
-	return strings.Replace(s, "-", "−", 1)
 }

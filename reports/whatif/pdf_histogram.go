@@ -42,15 +42,15 @@ func (d *doc) histogram(dist limits.Distribution) {
 	if dist.N == 0 {
 		total = 8 + 16 + legendH
 	}
-	if d.y == marginT {
+	if d.Y == marginT {
 		// fresh page
-	} else if d.y+total > bottom {
+	} else if d.Y+total > bottom {
 		d.newPage()
 	} else {
-		d.y += 4
+		d.Y += 4
 	}
-	d.font("B", 10, colInk)
-	d.y += 10 * ptMM
+	d.font("B", 10, pdfdoc.Ink)
+	d.Y += 10 * pdfdoc.PtMM
 	title := dist.Result
 	switch {
 	case unit != "":
@@ -58,22 +58,20 @@ func (d *doc) histogram(dist limits.Distribution) {
 	case strings.TrimSpace(dist.Unit) != "":
 		title += " [SI; unit " + dist.Unit + " not known]"
 	}
-	d.text(marginL, d.y, title)
-	d.font("", 8, colMuted)
+	d.PDF.Text(marginL, d.Y, title)
+	d.font("", 8, pdfdoc.Muted)
 	info := fmt.Sprintf("N = %d   invalid or missing = %d", dist.N, dist.Invalid)
 	if dist.N > 0 {
 		info += "   range " + num(dist.Min/scale) + " … " + num(dist.Max/scale) + sp(unit)
 	}
-	d.textR(marginL+contentW, d.y, info)
-	d.y += 3
+	d.TextRight(marginL+contentW, d.Y, info)
+	d.Y += 3
 
 	if dist.N == 0 {
-		d.draw(colRule)
-		d.pdf.SetLineWidth(0.2)
-		d.pdf.Rect(marginL, d.y, contentW, 14, "D")
-		d.font("", 9, colMuted)
-		d.textC(marginL+contentW/2, d.y+8.5, "No valid values: nothing to plot.")
-		d.y += 16
+		d.Frame(marginL, d.Y, contentW, 14, pdfdoc.Rule, 0.2)
+		d.font("", 9, pdfdoc.Muted)
+		d.TextCentre(marginL+contentW/2, d.Y+8.5, "No valid values: nothing to plot.")
+		d.Y += 16
 		d.boundList(edges, unit, dist)
 		return
 	}
@@ -99,12 +97,11 @@ func (d *doc) histogram(dist limits.Distribution) {
 			vhi = e.v
 		}
 	}
-	pad := (vhi - vlo) * 0.04
-	ax := pdfdoc.NewAxis(vlo-pad, vhi+pad, 7)
+	ax := pdfdoc.PaddedAxis(vlo, vhi, 0.04, 7)
 
 	const yAxisW = 12.0
 	px, pw := marginL+yAxisW, contentW-yAxisW-2
-	py := d.y + bandH
+	py := d.Y + bandH
 	xOf := func(v float64) float64 { return px + ax.Pos(v, pw) }
 
 	most := 1
@@ -116,37 +113,34 @@ func (d *doc) histogram(dist limits.Distribution) {
 	yOf := func(c float64) float64 { return py + plotH - c/ymax*plotH }
 
 	// Grid and axes.
-	d.pdf.SetLineWidth(0.15)
-	d.draw(colGrid)
-	d.font("", 6.5, colMuted)
+	d.PDF.SetLineWidth(0.15)
+	d.Stroke(colGrid)
+	d.font("", 6.5, pdfdoc.Muted)
 	for c := 0.0; c <= ymax+1e-9; c += ystep {
 		y := yOf(c)
-		d.pdf.Line(px, y, px+pw, y)
-		d.textR(px-1.5, y+0.9, strconv.FormatFloat(c, 'f', 0, 64))
+		d.PDF.Line(px, y, px+pw, y)
+		d.TextRight(px-1.5, y+0.9, strconv.FormatFloat(c, 'f', 0, 64))
 	}
 	for _, t := range ax.Ticks {
 		x := xOf(t)
-		d.draw(colGrid)
-		d.pdf.Line(x, py, x, py+plotH)
-		d.draw(colMuted)
-		d.pdf.Line(x, py+plotH, x, py+plotH+1)
-		d.textC(x, py+plotH+3.8, axisLabel(ax, t))
+		d.Stroke(colGrid)
+		d.PDF.Line(x, py, x, py+plotH)
+		d.Stroke(pdfdoc.Muted)
+		d.PDF.Line(x, py+plotH, x, py+plotH+1)
+		d.TextCentre(x, py+plotH+3.8, ax.Label(t))
 	}
-	d.font("", 7, colMuted)
+	d.font("", 7, pdfdoc.Muted)
 	xl := "value"
 	if unit != "" {
 		xl += " [" + unit + "]"
 	}
-	d.textC(px+pw/2, py+plotH+7.8, xl)
-	d.pdf.TransformBegin()
-	d.pdf.TransformRotate(90, marginL+2, py+plotH/2)
-	d.textC(marginL+2, py+plotH/2, "units")
-	d.pdf.TransformEnd()
+	d.TextCentre(px+pw/2, py+plotH+7.8, xl)
+	d.Rotated(marginL+2, py+plotH/2, func() { d.TextCentre(marginL+2, py+plotH/2, "units") })
 
 	// Bars.
-	d.fill(colBar)
-	d.draw(colBarEdg)
-	d.pdf.SetLineWidth(0.1)
+	d.Fill(colBar)
+	d.Stroke(colBarEdg)
+	d.PDF.SetLineWidth(0.1)
 	n := len(dist.Bins)
 	if n > 0 {
 		w := (hi - lo) / float64(n)
@@ -161,13 +155,11 @@ func (d *doc) histogram(dist limits.Distribution) {
 				x0, x1 = xOf(lo)-pw/160, xOf(lo)+pw/160
 			}
 			y := yOf(float64(c))
-			d.pdf.Rect(x0, y, math.Max(x1-x0, 0.3), py+plotH-y, "FD")
+			d.PDF.Rect(x0, y, math.Max(x1-x0, 0.3), py+plotH-y, "FD")
 		}
 	}
-	d.draw(colMuted)
-	d.pdf.SetLineWidth(0.25)
-	d.pdf.Line(px, py+plotH, px+pw, py+plotH)
-	d.pdf.Line(px, py, px, py+plotH)
+	d.HLine(px, py+plotH, pw, pdfdoc.Muted, 0.25)
+	d.PDF.Line(px, py, px, py+plotH)
 
 	// Bound lines, old first so the new ones are drawn on top.
 	type tag struct {
@@ -176,7 +168,7 @@ func (d *doc) histogram(dist limits.Distribution) {
 	}
 	var tags []tag
 	var edgeRows [3]int // labels at the left (0) and right (2) edge
-	d.font("", 6.3, colInk)
+	d.font("", 6.3, pdfdoc.Ink)
 	for _, pass := range []bool{false, true} {
 		for _, e := range edges {
 			if (e.which != "old") != pass {
@@ -194,39 +186,38 @@ func (d *doc) histogram(dist limits.Distribution) {
 			case e.v > ax.Hi:
 				x, outside = px+pw, 1
 			}
-			d.draw(col)
+			d.Stroke(col)
 			if e.which == "old" {
-				d.pdf.SetLineWidth(0.35)
-				d.pdf.SetDashPattern([]float64{1.2, 0.9}, 0)
+				d.PDF.SetLineWidth(0.35)
+				d.PDF.SetDashPattern([]float64{1.2, 0.9}, 0)
 			} else {
-				d.pdf.SetLineWidth(0.45)
+				d.PDF.SetLineWidth(0.45)
 			}
 			if outside == 0 {
-				d.pdf.Line(x, py-1, x, py+plotH)
+				d.PDF.Line(x, py-1, x, py+plotH)
 			}
-			d.pdf.SetDashPattern([]float64{}, 0)
-			d.pdf.SetTextColor(col.r, col.g, col.b)
+			d.PDF.SetDashPattern([]float64{}, 0)
+			d.PDF.SetTextColor(col.R, col.G, col.B)
 			s := e.label() + sp(unit)
 			if outside != 0 {
 				// An arrow at the edge pointing to where the bound lies, labelled
 				// inside the plot, stacked from the top at each edge.
 				ay := py + 4 + float64(edgeRows[outside+1])*3.2
 				edgeRows[outside+1]++
-				d.fill(col)
+				d.Fill(col)
 				dx := float64(outside) * 2.2
-				d.pdf.Polygon([]gofpdf.PointType{{X: x, Y: ay - 0.8}, {X: x - dx, Y: ay - 2.2}, {X: x - dx, Y: ay + 0.6}}, "F")
+				d.PDF.Polygon([]gofpdf.PointType{{X: x, Y: ay - 0.8}, {X: x - dx, Y: ay - 2.2}, {X: x - dx, Y: ay + 0.6}}, "F")
 				s += " (off scale)"
-				sw := d.pdf.GetStringWidth(s)
+				sw := d.PDF.GetStringWidth(s)
 				tx := x + 3
 				if outside > 0 {
 					tx = x - 3 - sw
 				}
-				d.fill(colWhite)
-				d.pdf.Rect(tx-0.6, ay-2.3, sw+1.2, 3, "F")
-				d.text(tx, ay, s)
+				d.FillRect(tx-0.6, ay-2.3, sw+1.2, 3, pdfdoc.White)
+				d.PDF.Text(tx, ay, s)
 				continue
 			}
-			sw := d.pdf.GetStringWidth(s)
+			sw := d.PDF.GetStringWidth(s)
 			tx := math.Max(marginL, math.Min(x-sw/2, marginL+contentW-sw))
 			row := 0
 			for ; row < 2; row++ {
@@ -242,40 +233,40 @@ func (d *doc) histogram(dist limits.Distribution) {
 				}
 			}
 			tags = append(tags, tag{tx, tx + sw, row})
-			d.text(tx, py-1.8-float64(row)*3.1, s)
+			d.PDF.Text(tx, py-1.8-float64(row)*3.1, s)
 		}
 	}
-	d.y = py + plotH + axisH + 1
+	d.Y = py + plotH + axisH + 1
 	d.boundList(edges, unit, dist)
 }
 
 // boundList writes the legend: line styles, then each bound with its limit.
 func (d *doc) boundList(edges []edge, unit string, dist limits.Distribution) {
-	d.y += 3.2
+	d.Y += 3.2
 	x := marginL
-	d.pdf.SetLineWidth(0.35)
-	d.draw(colOld)
-	d.pdf.SetDashPattern([]float64{1.2, 0.9}, 0)
-	d.pdf.Line(x, d.y-1, x+7, d.y-1)
-	d.pdf.SetDashPattern([]float64{}, 0)
-	d.font("", 7, colMuted)
-	d.text(x+8.5, d.y, "old bound")
-	d.pdf.SetLineWidth(0.45)
-	d.draw(colNew)
-	d.pdf.Line(x+26, d.y-1, x+33, d.y-1)
-	d.text(x+34.5, d.y, "new bound")
+	d.PDF.SetLineWidth(0.35)
+	d.Stroke(colOld)
+	d.PDF.SetDashPattern([]float64{1.2, 0.9}, 0)
+	d.PDF.Line(x, d.Y-1, x+7, d.Y-1)
+	d.PDF.SetDashPattern([]float64{}, 0)
+	d.font("", 7, pdfdoc.Muted)
+	d.PDF.Text(x+8.5, d.Y, "old bound")
+	d.PDF.SetLineWidth(0.45)
+	d.Stroke(colNew)
+	d.PDF.Line(x+26, d.Y-1, x+33, d.Y-1)
+	d.PDF.Text(x+34.5, d.Y, "new bound")
 	if len(edges) == 0 {
-		d.text(x+56, d.y, "no bounds on this result")
+		d.PDF.Text(x+56, d.Y, "no bounds on this result")
 	}
 	for _, e := range edges {
-		d.y += 3.6
+		d.Y += 3.6
 		col := colNew
 		if e.which == "old" {
 			col = colOld
 		}
 		d.font("", 7, col)
-		d.text(x+2, d.y, e.label()+sp(unit))
-		d.font("", 7, colInk)
+		d.PDF.Text(x+2, d.Y, e.label()+sp(unit))
+		d.font("", 7, pdfdoc.Ink)
 		note := e.limit
 		if dist.N > 0 {
 			vmin, vmax := dist.Min, dist.Max
@@ -287,9 +278,9 @@ func (d *doc) boundList(edges []edge, unit string, dist limits.Distribution) {
 				note += " — above every value"
 			}
 		}
-		d.text(x+40, d.y, d.fit(note, contentW-40))
+		d.PDF.Text(x+40, d.Y, d.Fit(note, contentW-40))
 	}
-	d.y += 2
+	d.Y += 2
 }
 
 // edgesOf lists the bounds of dist in the display unit; a bound both sets have on

@@ -3,15 +3,17 @@ package whatif
 import (
 	"fmt"
 	"math"
+
+	"trimline/reports/internal/pdfdoc"
 )
 
 func (d *doc) pareto() {
 	d.heading("Failures per limit under the new set")
 	if len(d.r.Pareto) == 0 {
-		d.font("", 9, colMuted)
-		d.y += 4
-		d.text(marginL, d.y, "The new set has no limits.")
-		d.y += 2
+		d.font("", 9, pdfdoc.Muted)
+		d.Y += 4
+		d.PDF.Text(marginL, d.Y, "The new set has no limits.")
+		d.Y += 2
 		return
 	}
 	const (
@@ -26,49 +28,44 @@ func (d *doc) pareto() {
 		most = max(most, c.Fail+c.Review)
 	}
 	legend := func() {
-		d.font("", 7.5, colMuted)
-		d.y += 3.5
-		d.fill(colFail)
-		d.pdf.Rect(barX, d.y-2.3, 3, 2.5, "F")
-		d.text(barX+4, d.y, "fail")
-		d.fill(colReview)
-		d.pdf.Rect(barX+14, d.y-2.3, 3, 2.5, "F")
-		d.text(barX+18, d.y, "review")
-		d.textR(marginL+contentW, d.y, "fail / review units")
-		d.y += 1.5
+		d.font("", 7.5, pdfdoc.Muted)
+		d.Y += 3.5
+		d.FillRect(barX, d.Y-2.3, 3, 2.5, pdfdoc.Fail)
+		d.PDF.Text(barX+4, d.Y, "fail")
+		d.FillRect(barX+14, d.Y-2.3, 3, 2.5, pdfdoc.Review)
+		d.PDF.Text(barX+18, d.Y, "review")
+		d.TextRight(marginL+contentW, d.Y, "fail / review units")
+		d.Y += 1.5
 	}
 	legend()
 	for i, c := range d.r.Pareto {
-		if d.ensure(rowH) {
+		if d.need(rowH) {
 			legend()
 		}
 		if i%2 == 1 {
-			d.fill(colZebra)
-			d.pdf.Rect(marginL, d.y, contentW, rowH, "F")
+			d.Stripe(d.Y, rowH, pdfdoc.Zebra)
 		}
-		base := d.y + rowH*0.7
-		d.font("", 8, colInk)
+		base := d.Y + rowH*0.7
+		d.font("", 8, pdfdoc.Ink)
 		name := c.Limit
 		if c.Result != "" {
 			name += "  (" + c.Result + ")"
 		}
-		d.text(marginL+1, base, d.fit(name, labelW-1))
+		d.PDF.Text(marginL+1, base, d.Fit(name, labelW-1))
 		scale := barW / float64(most)
 		wf, wr := float64(c.Fail)*scale, float64(c.Review)*scale
 		if wf > 0 {
-			d.fill(colFail)
-			d.pdf.Rect(barX, d.y+1, math.Max(wf, 0.4), rowH-2, "F")
+			d.FillRect(barX, d.Y+1, math.Max(wf, 0.4), rowH-2, pdfdoc.Fail)
 		}
 		if wr > 0 {
-			d.fill(colReview)
-			d.pdf.Rect(barX+wf, d.y+1, math.Max(wr, 0.4), rowH-2, "F")
+			d.FillRect(barX+wf, d.Y+1, math.Max(wr, 0.4), rowH-2, pdfdoc.Review)
 		}
-		d.font("", 8, colInk)
+		d.font("", 8, pdfdoc.Ink)
 		if c.Fail == 0 && c.Review == 0 {
-			d.font("", 8, colMuted)
+			d.font("", 8, pdfdoc.Muted)
 		}
-		d.textR(marginL+contentW, base, fmt.Sprintf("%d / %d", c.Fail, c.Review))
-		d.y += rowH
+		d.TextRight(marginL+contentW, base, fmt.Sprintf("%d / %d", c.Fail, c.Review))
+		d.Y += rowH
 	}
-	d.y += 2
+	d.Y += 2
 }

@@ -5,23 +5,24 @@ import (
 	"math"
 
 	"trimline/limits"
+	"trimline/reports/internal/pdfdoc"
 )
 
 func (d *doc) summary() {
 	r := d.r
-	d.font("B", 20, colInk)
-	d.y += 20 * ptMM
-	d.text(marginL, d.y, "What-if re-judging")
-	d.y += 4
-	d.font("", 10, colInk)
+	d.font("B", 20, pdfdoc.Ink)
+	d.Y += 20 * pdfdoc.PtMM
+	d.PDF.Text(marginL, d.Y, "What-if re-judging")
+	d.Y += 4
+	d.font("", 10, pdfdoc.Ink)
 	label := func(k, v string) {
-		d.font("", 8, colMuted)
-		d.y += 1
-		d.text(marginL, d.y+3.2, k)
-		d.font("", 10, colInk)
-		old := d.y
-		d.wrap(marginL+28, contentW-28, v)
-		d.y = math.Max(d.y, old+4.5)
+		d.font("", 8, pdfdoc.Muted)
+		d.Y += 1
+		d.PDF.Text(marginL, d.Y+3.2, k)
+		d.font("", 10, pdfdoc.Ink)
+		old := d.Y
+		d.lines(marginL+28, contentW-28, v)
+		d.Y = math.Max(d.Y, old+4.5)
 	}
 	label("Old limit set", orDash(r.Old))
 	label("→ New limit set", orDash(r.New))
@@ -33,15 +34,15 @@ func (d *doc) summary() {
 		units += ", none skipped"
 	}
 	label("Units", units)
-	d.y += 5
+	d.Y += 5
 
 	// Yield boxes.
 	const boxH = 34.0
 	bw := (contentW - 6) / 2
-	d.yieldBox(marginL, d.y, bw, boxH, "Yield before (as recorded)", r.Before, nil)
+	d.yieldBox(marginL, d.Y, bw, boxH, "Yield before (as recorded)", r.Before, nil)
 	delta := (r.After.Yield() - r.Before.Yield()) * 100
-	d.yieldBox(marginL+bw+6, d.y, bw, boxH, "Yield after (new limit set)", r.After, &delta)
-	d.y += boxH + 5
+	d.yieldBox(marginL+bw+6, d.Y, bw, boxH, "Yield after (new limit set)", r.After, &delta)
+	d.Y += boxH + 5
 
 	// Flip counts.
 	var fromPass, toPass, other int
@@ -55,44 +56,41 @@ func (d *doc) summary() {
 			other++
 		}
 	}
-	d.font("B", 10, colInk)
-	d.y += 4
-	d.text(marginL, d.y, fmt.Sprintf("Verdict flips: %d", len(r.Flips)))
-	d.font("", 9, colInk)
-	d.y += 5
-	d.text(marginL+4, d.y, fmt.Sprintf("pass → review/fail: %d     review/fail → pass: %d     review ↔ fail: %d", fromPass, toPass, other))
-	d.y += 2
+	d.font("B", 10, pdfdoc.Ink)
+	d.Y += 4
+	d.PDF.Text(marginL, d.Y, fmt.Sprintf("Verdict flips: %d", len(r.Flips)))
+	d.font("", 9, pdfdoc.Ink)
+	d.Y += 5
+	d.PDF.Text(marginL+4, d.Y, fmt.Sprintf("pass → review/fail: %d     review/fail → pass: %d     review ↔ fail: %d", fromPass, toPass, other))
+	d.Y += 2
 }
 
 func (d *doc) yieldBox(x, y, w, h float64, title string, c limits.VerdictCounts, delta *float64) {
-	d.fill(colZebra)
-	d.draw(colRule)
-	d.pdf.SetLineWidth(0.3)
-	d.pdf.Rect(x, y, w, h, "FD")
-	d.font("", 8.5, colMuted)
-	d.text(x+4, y+6, title)
-	d.font("B", 28, colInk)
+	d.Box(x, y, w, h, pdfdoc.Zebra, pdfdoc.Rule, 0.3)
+	d.font("", 8.5, pdfdoc.Muted)
+	d.PDF.Text(x+4, y+6, title)
+	d.font("B", 28, pdfdoc.Ink)
 	big := pct(c.Yield())
 	if c.Total() == 0 {
 		big = "—"
 	}
-	d.text(x+4, y+19, big)
+	d.PDF.Text(x+4, y+19, big)
 	if delta != nil && c.Total() > 0 {
-		col := colMuted
+		col := pdfdoc.Muted
 		switch {
 		case *delta < -0.005:
-			col = colFail
+			col = pdfdoc.Fail
 		case *delta > 0.005:
-			col = colPass
+			col = pdfdoc.Pass
 		}
 		d.font("B", 10, col)
-		d.textR(x+w-4, y+19, signed(*delta)+" points")
+		d.TextRight(x+w-4, y+19, signed(*delta)+" points")
 	}
-	d.font("", 8.5, colInk)
+	d.font("", 8.5, pdfdoc.Ink)
 	s := fmt.Sprintf("%d pass · %d review · %d fail", c.Pass, c.Review, c.Fail)
 	if c.Other > 0 {
 		s += fmt.Sprintf(" · %d other", c.Other)
 	}
 	s += fmt.Sprintf("  (of %d)", c.Total())
-	d.text(x+4, y+27, s)
+	d.PDF.Text(x+4, y+27, s)
 }

@@ -69,7 +69,8 @@ func render(r limits.WhatIfReport, generated time.Time) (*gofpdf.Fpdf, error) {
 	pdf.SetCreator("trimline", true)
 	pdf.SetProducer("trimline/reports/whatif", true)
 
-	d := &doc{pdf: pdf, r: r, gen: stamp}
+	d := &doc{Doc: pdfdoc.Doc{PDF: pdf, Left: marginL, Width: contentW}, r: r, gen: stamp}
+	d.Need = d.need
 	d.newPage()
 	d.summary()
 	d.pareto()
