@@ -132,17 +132,13 @@ var appendOnlyTriggers = []string{
 // instruments, which are copies of record_json (Run reads record_json) that
 // VerifyChain does not compare.
 func (l *Ledger) VerifyChain(ctx context.Context, station string, opts ...ChainOptions) (ChainReport, error) {
-	var opt ChainOptions
-	switch len(opts) {
-	case 0:
-	case 1:
-		opt = opts[0]
-	default:
-		return ChainReport{}, fmt.Errorf("ledger: verify chain: %d ChainOptions, want at most one: %w", len(opts), ErrInvalid)
+	opt, err := chainOption("verify chain", opts)
+	if err != nil {
+		return ChainReport{}, err
 	}
 	c := &chainCheck{ctx: ctx, opt: opt, station: station,
 		rep: ChainReport{Station: station, OK: true, Heads: map[string]string{}}}
-	err := l.readTx(ctx, func(tx *sql.Tx) error {
+	err = l.readTx(ctx, func(tx *sql.Tx) error {
 		c.tx = tx
 		for _, step := range []func() error{c.triggers, c.auditTrail, c.blobs, c.runs, c.orphanCreates, c.certificates, c.documents} {
 			if err := step(); err != nil {
@@ -201,28 +197,11 @@ func (c *chainCheck) broken(station, runID string, seq int64, format string, arg
 }
 
 func (c *chainCheck) triggers() error {
-	rows, err := c.tx.QueryContext(c.ctx, `SELECT name FROM sqlite_schema WHERE type = 'trigger'`)
-	if err != nil {
+	t, err := missingTrigger(c.ctx, c.tx, appendOnlyTriggers)
+	if err != nil || t == "" {
 		return err
 	}
-	defer rows.Close()
-	have := map[string]bool{}
-	for rows.Next() {
-		var name string
-		if err := rows.Scan(&name); err != nil {
-			return err
-		}
-		have[name] = true
-	}
-	if err := rows.Err(); err != nil {
-		return err
-	}
-	for _, t := range appendOnlyTriggers {
-		if !have[t] {
-			return c.broken("", "", 0, "the append-only trigger %s is missing", t)
-		}
-	}
-	return nil
+	return c.broken("", "", 0, "the append-only trigger %s is missing", t)
 }
 
 func (c *chainCheck) auditTrail() error {

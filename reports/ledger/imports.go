@@ -296,20 +296,15 @@ func sameImport(a, b ImportedRun) bool {
 const importedColumns = `run_id, number, station, serial, record_sha256, key_id, signature,
 	coalesce(pdf_sha256, ''), coalesce(seal_sha256, ''), coalesce(public_key_sha256, ''), imported_at, imported_by, source`
 
-func scanImported(s interface{ Scan(...any) error }, extra ...any) (ImportedRun, error) {
+func scanImported(s scanner, extra ...any) (ImportedRun, error) {
 	var ir ImportedRun
 	var at string
 	if err := s.Scan(append([]any{&ir.RunID, &ir.Number, &ir.Station, &ir.Serial, &ir.RecordSHA256, &ir.KeyID, &ir.Signature,
 		&ir.PDFSHA256, &ir.SealSHA256, &ir.PublicKeySHA256, &at, &ir.ImportedBy, &ir.Source}, extra...)...); err != nil {
 		return ImportedRun{}, err
 	}
-	t, err := parseTime(at)
-	if err != nil {
+	if err := stamped(at, &ir.ImportedAt, &ir.Signature); err != nil {
 		return ImportedRun{}, err
-	}
-	ir.ImportedAt = t
-	if len(ir.Signature) == 0 {
-		ir.Signature = nil
 	}
 	return ir, nil
 }
@@ -355,7 +350,7 @@ func (l *Ledger) ImportedRunByID(ctx context.Context, runID string) (*sequencer.
 // none.
 func (l *Ledger) ImportedRuns(ctx context.Context) ([]ImportedRun, error) {
 	rows, err := l.db.QueryContext(ctx, `SELECT `+importedColumns+` FROM imported_runs ORDER BY rowid`)
-	out, err := collect(rows, err, func(r *sql.Rows) (ImportedRun, error) { return scanImported(r) })
+	out, err := collect(rows, err, func(r scanner) (ImportedRun, error) { return scanImported(r) })
 	if err != nil {
 		return nil, fmt.Errorf("ledger: imported runs: %w", err)
 	}
@@ -398,33 +393,20 @@ var importTriggers = []string{"imported_runs_no_update", "imported_runs_no_delet
 // It relies on VerifyChain for the audit trail's own hash chain and the blobs'
 // contents. A broken import is not an error: OK is false and the error nil.
 func (l *Ledger) VerifyImports(ctx context.Context, opts ...ChainOptions) (ImportReport, error) {
-	var opt ChainOptions
-	switch len(opts) {
-	case 0:
-	case 1:
-		opt = opts[0]
-	default:
-		return ImportReport{}, fmt.Errorf("ledger: verify imports: %d ChainOptions, want at most one: %w", len(opts), ErrInvalid)
+	opt, err := chainOption("verify imports", opts)
+	if err != nil {
+		return ImportReport{}, err
 	}
 	rep := ImportReport{OK: true}
 	broken := func(runID string, seq int64, format string, args ...any) error {
 		rep.OK, rep.BrokenAt, rep.BrokenAuditSeq, rep.Reason = false, runID, seq, fmt.Sprintf(format, args...)
 		return errBroken
 	}
-	err := l.readTx(ctx, func(tx *sql.Tx) error {
-		have := map[string]bool{}
-		if err := eachRow(ctx, tx, `SELECT name FROM sqlite_schema WHERE type = 'trigger'`, nil, func(rows *sql.Rows) error {
-			var name string
-			err := rows.Scan(&name)
-			have[name] = true
+	err = l.readTx(ctx, func(tx *sql.Tx) error {
+		if t, err := missingTrigger(ctx, tx, importTriggers); err != nil {
 			return err
-		}); err != nil {
-			return err
-		}
-		for _, t := range importTriggers {
-			if !have[t] {
-				return broken("", 0, "the append-only trigger %s is missing", t)
-			}
+		} else if t != "" {
+			return broken("", 0, "the append-only trigger %s is missing", t)
 		}
 
 		type entry struct {
@@ -454,13 +436,8 @@ func (l *Ledger) VerifyImports(ctx context.Context, opts ...ChainOptions) (Impor
 			return err
 		}
 
-		blobSet := map[string]bool{}
-		if err := eachRow(ctx, tx, `SELECT sha256 FROM blobs`, nil, func(rows *sql.Rows) error {
-			var s string
-			err := rows.Scan(&s)
-			blobSet[s] = true
-			return err
-		}); err != nil {
+		blobSet, err := stringSet(ctx, tx, `SELECT sha256 FROM blobs`)
+		if err != nil {
 			return err
 		}
 
@@ -549,19 +526,4 @@ func (l *Ledger) VerifyImports(ctx context.Context, opts ...ChainOptions) (Impor
 		return ImportReport{}, fmt.Errorf("ledger: verify imports: %w", err)
 	}
 	return rep, nil
-}
-
-// eachRow runs query in tx and calls f for every row.
-func eachRow(ctx context.Context, tx *sql.Tx, query string, args []any, f func(rows *sql.Rows) error) error {
-	rows, err := tx.QueryContext(ctx, query, args...)
-	if err != nil {
-		return err
-	}
-	defer rows.Close()
-	for rows.Next() {
-		if err := f(rows); err != nil {
-			return err
-		}
-	}
-	return rows.Err()
 }

@@ -806,29 +806,25 @@ func (l *Ledger) runs(ctx context.Context, serial string, limit int) ([]RunSumma
 		args = append(args, limit)
 	}
 	rows, err := l.db.QueryContext(ctx, q, args...)
-	if err != nil {
-		return nil, fmt.Errorf("ledger: runs: %w", err)
-	}
-	defer rows.Close()
-	out := []RunSummary{}
-	for rows.Next() {
+	out, err := collect(rows, err, func(r scanner) (RunSummary, error) {
 		var s RunSummary
 		var verdict, started, finished string
 		var cert sql.NullString
-		if err := rows.Scan(&s.RunID, &s.Serial, &s.Product, &s.Revision, &s.Station, &verdict, &cert, &started, &finished); err != nil {
-			return nil, fmt.Errorf("ledger: runs: %w", err)
+		if err := r.Scan(&s.RunID, &s.Serial, &s.Product, &s.Revision, &s.Station, &verdict, &cert, &started, &finished); err != nil {
+			return s, err
 		}
 		s.Verdict = sequencer.Verdict(verdict)
 		s.Certificate = cert.String
+		var err error
 		if s.Started, err = parseTime(started); err != nil {
-			return nil, fmt.Errorf("ledger: runs: run %s: %w", s.RunID, err)
+			return s, fmt.Errorf("run %s: %w", s.RunID, err)
 		}
 		if s.Finished, err = parseTime(finished); err != nil {
-			return nil, fmt.Errorf("ledger: runs: run %s: %w", s.RunID, err)
+			return s, fmt.Errorf("run %s: %w", s.RunID, err)
 		}
-		out = append(out, s)
-	}
-	if err := rows.Err(); err != nil {
+		return s, nil
+	})
+	if err != nil {
 		return nil, fmt.Errorf("ledger: runs: %w", err)
 	}
 	return out, nil
