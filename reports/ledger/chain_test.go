@@ -4,7 +4,6 @@ import (
 	"bytes"
 	"crypto/ed25519"
 	"crypto/sha256"
-	"database/sql"
 	"encoding/hex"
 	"encoding/json"
 	"errors"
@@ -434,18 +433,8 @@ func TestDocumentsAndMissing(t *testing.T) {
 func ledger0002(t *testing.T) string {
 	t.Helper()
 	path := filepath.Join(t.TempDir(), "v2.db")
-	db, err := sql.Open("sqlite", "file:"+path+"?_pragma=foreign_keys(1)&_pragma=journal_mode(WAL)")
-	if err != nil {
-		t.Fatal(err)
-	}
+	db, exec := oldFile(t, path)
 	defer db.Close()
-	exec := func(q string, args ...any) {
-		t.Helper()
-		if _, err := db.Exec(q, args...); err != nil {
-			t.Fatalf("%.60s: %v", q, err)
-		}
-	}
-	exec(`CREATE TABLE schema_migrations (version INTEGER PRIMARY KEY, name TEXT NOT NULL, applied_at TEXT NOT NULL) STRICT`)
 	for i, name := range []string{"0001_init.sql", "0002_uncertainty.sql"} {
 		q, err := os.ReadFile(filepath.Join("migrations", name))
 		if err != nil {
