@@ -13,6 +13,7 @@ import (
 	"time"
 
 	"trimline/reports/ledger"
+	"trimline/reports/signing"
 )
 
 // The demo's certificates verify as genuine, an altered copy does not, every demo
@@ -187,7 +188,7 @@ func TestRepairRepublishesByteIdentical(t *testing.T) {
 			// The first half of record: the commit, then the process dies.
 			_, err = led.RecordRunWith(context.Background(), rec, ledger.RecordOptions{Prefix: st.CertificatePrefix,
 				Sign: func(number, runID, sha string) (string, []byte, error) {
-					return key.ID(), key.Sign(ledger.SignedMessage(number, runID, sha)), nil
+					return key.ID(), key.Sign(signing.RecordMessage(number, runID, sha)), nil
 				}})
 			if err != nil {
 				t.Fatal(err)

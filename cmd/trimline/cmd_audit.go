@@ -224,7 +224,7 @@ func (a *auditor) verify(ctx context.Context, file string) error {
 		if !ok {
 			return a.verdictOut("unknown", file, append(why, "signed by "+meta.KeyID+", which is not among the trusted keys (--keys)"))
 		}
-		if !signing.Verify(pub, ledger.SignedMessage(doc.Number, meta.RunID, meta.RecordSHA256), meta.Signature) {
+		if !signing.Verify(pub, signing.RecordMessage(doc.Number, meta.RunID, meta.RecordSHA256), meta.Signature) {
 			return a.verdictOut("altered", file, append(why, "the record signature does not verify"))
 		}
 		if !signing.Verify(pub, signing.PDFMessage(doc.Number, pdf), doc.Signature) {

@@ -48,7 +48,7 @@ func (is *issuer) record(ctx context.Context, rec *sequencer.Record) (string, er
 	}
 	if is.key != nil {
 		opt.Sign = func(number, runID, recordSHA string) (string, []byte, error) {
-			keyID, sig = is.key.ID(), is.key.Sign(ledger.SignedMessage(number, runID, recordSHA))
+			keyID, sig = is.key.ID(), is.key.Sign(signing.RecordMessage(number, runID, recordSHA))
 			return keyID, sig, nil
 		}
 	}

@@ -13,7 +13,7 @@
 //	keys/ed25519-HEX.pub   the station's public key (PEM), when given (Options.PublicKeyPath)
 //
 // What binds it together: the record's SHA-256 is covered by the station's record
-// signature (ledger.SignedMessage of the certificate number, run id and record
+// signature (signing.RecordMessage of the certificate number, run id and record
 // SHA-256); each file's SHA-256 is named by the record (Record.Files); readings.csv
 // is a function of the record; the PDF's SHA-256 and the record signature are in
 // the seal, whose PDF signature covers the PDF. The manifest is not signed: Open
@@ -86,7 +86,7 @@ type Manifest struct {
 	Station      string `json:"station"`       // the record's
 	RecordSHA256 string `json:"record_sha256"` // lowercase hex SHA-256 of record.json
 	// KeyID and RecordSignature are the run's signature in the ledger, over
-	// ledger.SignedMessage(Number, RunID, RecordSHA256); "" and nil (null) when the
+	// signing.RecordMessage(Number, RunID, RecordSHA256); "" and nil (null) when the
 	// run is unsigned. The signature is base64 in the JSON.
 	KeyID           string      `json:"key_id"`
 	RecordSignature []byte      `json:"record_signature"`
@@ -198,7 +198,7 @@ func build(ctx context.Context, led *ledger.Ledger, id string, opt Options) (Man
 			}
 			return Manifest{}, nil, fmt.Errorf("public key %s is not the run's key %s", id, meta.KeyID)
 		}
-		if !signing.Verify(pub, ledger.SignedMessage(m.Number, m.RunID, m.RecordSHA256), m.RecordSignature) {
+		if !signing.Verify(pub, signing.RecordMessage(m.Number, m.RunID, m.RecordSHA256), m.RecordSignature) {
 			return Manifest{}, nil, fmt.Errorf("the run's record signature does not verify with key %s", meta.KeyID)
 		}
 	}

@@ -129,7 +129,7 @@ func newStation(t *testing.T) *station {
 	rec := record("run-0001", "SN-17", sequencer.Pass, refs)
 	number, err := led.RecordRunWith(ctx, rec, ledger.RecordOptions{Prefix: "TL1", Files: contents,
 		Sign: func(number, runID, recordSHA string) (string, []byte, error) {
-			return key.ID(), key.Sign(ledger.SignedMessage(number, runID, recordSHA)), nil
+			return key.ID(), key.Sign(signing.RecordMessage(number, runID, recordSHA)), nil
 		}})
 	if err != nil {
 		t.Fatal(err)
@@ -287,27 +287,40 @@ func otherKey(t *testing.T) (ed25519.PublicKey, []byte) {
 	return pub, pem
 }
 
-// unzip returns the members of an archive by name.
-func unzip(t *testing.T, data []byte) map[string][]byte {
+// zipOf reads data as a zip archive.
+func zipOf(t *testing.T, data []byte) *zip.Reader {
 	t.Helper()
 	zr, err := zip.NewReader(bytes.NewReader(data), int64(len(data)))
 	if err != nil {
 		t.Fatal(err)
 	}
+	return zr
+}
+
+// unzip returns the members of an archive by name.
+func unzip(t *testing.T, data []byte) map[string][]byte {
+	t.Helper()
+	zr := zipOf(t, data)
 	out := map[string][]byte{}
 	for _, f := range zr.File {
-		rc, err := f.Open()
-		if err != nil {
-			t.Fatal(err)
-		}
-		b, err := io.ReadAll(rc)
-		rc.Close()
-		if err != nil {
-			t.Fatal(err)
-		}
-		out[f.Name] = b
+		out[f.Name] = member(t, f)
 	}
 	return out
+}
+
+// member returns the content of one member of an archive.
+func member(t *testing.T, f *zip.File) []byte {
+	t.Helper()
+	rc, err := f.Open()
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer rc.Close()
+	b, err := io.ReadAll(rc)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return b
 }
 
 // The same run and options give the same bytes: twice, by number and by run id,
@@ -326,10 +339,7 @@ func TestExportDeterministic(t *testing.T) {
 	if !bytes.Equal(a, b) || !bytes.Equal(a, c) || !bytes.Equal(a, d) {
 		t.Fatal("exports of the same run differ")
 	}
-	zr, err := zip.NewReader(bytes.NewReader(a), int64(len(a)))
-	if err != nil {
-		t.Fatal(err)
-	}
+	zr := zipOf(t, a)
 	if zr.File[0].Name != "manifest.json" {
 		t.Errorf("first member %s", zr.File[0].Name)
 	}
@@ -356,22 +366,11 @@ func TestExportDeterministic(t *testing.T) {
 // (same names, order, method and times).
 func rebuild(t *testing.T, data []byte, edit func(name string, content []byte) []byte) []byte {
 	t.Helper()
-	zr, err := zip.NewReader(bytes.NewReader(data), int64(len(data)))
-	if err != nil {
-		t.Fatal(err)
-	}
+	zr := zipOf(t, data)
 	var buf bytes.Buffer
 	zw := zip.NewWriter(&buf)
 	for _, f := range zr.File {
-		rc, err := f.Open()
-		if err != nil {
-			t.Fatal(err)
-		}
-		content, err := io.ReadAll(rc)
-		rc.Close()
-		if err != nil {
-			t.Fatal(err)
-		}
+		content := member(t, f)
 		fw, err := zw.CreateHeader(&zip.FileHeader{Name: f.Name, Method: f.Method, Modified: f.Modified})
 		if err != nil {
 			t.Fatal(err)
@@ -447,10 +446,7 @@ func TestOpenDetectsChanges(t *testing.T) {
 
 func addMember(t *testing.T, data []byte, name string, content []byte) []byte {
 	t.Helper()
-	zr, err := zip.NewReader(bytes.NewReader(data), int64(len(data)))
-	if err != nil {
-		t.Fatal(err)
-	}
+	zr := zipOf(t, data)
 	var buf bytes.Buffer
 	zw := zip.NewWriter(&buf)
 	for _, f := range zr.File {
@@ -466,10 +462,7 @@ func addMember(t *testing.T, data []byte, name string, content []byte) []byte {
 
 func dropMember(t *testing.T, data []byte, name string) []byte {
 	t.Helper()
-	zr, err := zip.NewReader(bytes.NewReader(data), int64(len(data)))
-	if err != nil {
-		t.Fatal(err)
-	}
+	zr := zipOf(t, data)
 	var buf bytes.Buffer
 	zw := zip.NewWriter(&buf)
 	for _, f := range zr.File {

@@ -58,7 +58,7 @@ type Bundle struct {
 //   - every files/ member is a file the record names, under its name, with the
 //     SHA-256 the record gives;
 //   - a public key (keys/...) has the manifest's key id, and the record signature
-//     verifies with it over ledger.SignedMessage(number, run id, record SHA-256);
+//     verifies with it over signing.RecordMessage(number, run id, record SHA-256);
 //   - a seal is of this run (number, run id, serial, record SHA-256, key id,
 //     record signature, verification code) and of the PDF when there is one; with
 //     the public key and the PDF, both its signatures verify (signing.Seal.VerifyPDF).
@@ -226,7 +226,7 @@ func Open(r io.ReaderAt, size int64) (*Bundle, error) {
 	}
 	switch {
 	case b.PublicKey != nil:
-		if !signing.Verify(b.PublicKey, ledger.SignedMessage(m.Number, m.RunID, m.RecordSHA256), m.RecordSignature) {
+		if !signing.Verify(b.PublicKey, signing.RecordMessage(m.Number, m.RunID, m.RecordSHA256), m.RecordSignature) {
 			return nil, bad("the record signature does not verify with key %s", m.KeyID)
 		}
 		b.verified("the record signature verifies with key %s (the bundle's own) over certificate %q, run %s, record SHA-256 %s",
@@ -283,7 +283,7 @@ func (b *Bundle) VerifyWith(pub ed25519.PublicKey) error {
 	if id := signing.KeyID(pub); len(pub) != ed25519.PublicKeySize || id != m.KeyID {
 		return fmt.Errorf("bundle: %w: the run is signed by key %s, given %s", signing.ErrWrongKey, m.KeyID, id)
 	}
-	if !signing.Verify(pub, ledger.SignedMessage(m.Number, m.RunID, m.RecordSHA256), m.RecordSignature) {
+	if !signing.Verify(pub, signing.RecordMessage(m.Number, m.RunID, m.RecordSHA256), m.RecordSignature) {
 		return bad("the record signature does not verify with key %s", m.KeyID)
 	}
 	if b.Seal != nil {
@@ -322,7 +322,7 @@ func Import(ctx context.Context, led *ledger.Ledger, b *Bundle, actor string) er
 		if id := signing.KeyID(b.PublicKey); id != m.KeyID {
 			return bad("the public key is %s, the run's key %q", id, m.KeyID)
 		}
-		if !signing.Verify(b.PublicKey, ledger.SignedMessage(m.Number, m.RunID, m.RecordSHA256), m.RecordSignature) {
+		if !signing.Verify(b.PublicKey, signing.RecordMessage(m.Number, m.RunID, m.RecordSHA256), m.RecordSignature) {
 			return bad("the record signature does not verify with key %s", m.KeyID)
 		}
 		pubPEM = encodePublic(b.PublicKey)

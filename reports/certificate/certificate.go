@@ -148,12 +148,6 @@ func safeName(s string) string {
 	return b.String()
 }
 
-// Font families registered in every document (by pdfdoc.New).
-const (
-	sans = pdfdoc.Sans
-	mono = pdfdoc.Mono
-)
-
 // render lays out the whole document and returns it ready for Output.
 func render(rec *sequencer.Record, opt Options) (*gofpdf.Fpdf, error) {
 	// A zero date (a record that never finished) becomes the epoch in pdfdoc.New,
@@ -170,7 +164,8 @@ func render(rec *sequencer.Record, opt Options) (*gofpdf.Fpdf, error) {
 	pdf.SetProducer("trimline/reports/certificate", true)
 	pdf.SetKeywords(keywords(opt.Number, rec.RunID), false)
 
-	d := &doc{pdf: pdf, rec: rec, opt: opt}
+	d := &doc{Doc: pdfdoc.Doc{PDF: pdf, Left: marginL, Width: contentW}, rec: rec, opt: opt}
+	d.Need = d.need
 	d.build()
 	if err := pdf.Error(); err != nil {
 		return nil, fmt.Errorf("certificate: render: %w", err)

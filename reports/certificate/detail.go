@@ -6,6 +6,7 @@ import (
 	"strconv"
 	"strings"
 
+	"trimline/reports/internal/pdfdoc"
 	"trimline/sequencer"
 )
 
@@ -29,34 +30,31 @@ func (d *doc) detail() {
 
 	total := 0.0
 	if len(sRows) > 0 {
-		total += headingH + d.tableHeight(sCols, sRows)
+		total += headingH + d.TableHeight(sCols, sRows, nil)
 	}
 	if len(oRows) > 0 {
-		total += headingH + d.tableHeight(oCols, oRows)
+		total += headingH + d.TableHeight(oCols, oRows, nil)
 	}
 	if len(fRows) > 0 {
-		total += headingH + d.tableHeight(fCols, fRows)
+		total += headingH + d.TableHeight(fCols, fRows, nil)
 	}
 	total += headingH + plotH
 	total += headingH + 4
 	for _, t := range pts {
-		total += d.tableHeight(t.cols, t.rows, t.groups...) + 3
+		total += d.TableHeight(t.cols, t.rows, nil, t.groups...) + 3
 	}
-	if d.pdf.PageNo() == 1 && d.y+total > d.bottom() {
+	if d.PDF.PageNo() == 1 && d.Y+total > d.bottom() {
 		d.newPage()
 	}
 
 	if len(sRows) > 0 {
-		d.heading("Decision statements", keep(d.tableHeight(sCols, sRows)))
-		d.table(sCols, sRows)
+		d.tableSection("Decision statements", sCols, sRows, nil)
 	}
 	if len(oRows) > 0 {
-		d.heading("Other results (not judged by a limit)", keep(d.tableHeight(oCols, oRows)))
-		d.table(oCols, oRows)
+		d.tableSection("Other results (not judged by a limit)", oCols, oRows, nil)
 	}
 	if len(fRows) > 0 {
-		d.heading("Straight-line fits", keep(d.tableHeight(fCols, fRows)))
-		d.table(fCols, fRows)
+		d.tableSection("Straight-line fits", fCols, fRows, nil)
 	}
 	d.plots(pre, post, plotH)
 	d.sweepPoints(pts)
@@ -64,21 +62,21 @@ func (d *doc) detail() {
 
 // statements lists the decision statement of every toleranced limit, in words, as
 // the limits package gave it.
-func (d *doc) statements() ([]column, []row) {
-	var rows []row
+func (d *doc) statements() ([]pdfdoc.Column, []pdfdoc.Row) {
+	var rows []pdfdoc.Row
 	for _, o := range d.outcomesByStage() {
 		dd := o.Decision
 		if dd == nil || strings.TrimSpace(dd.Statement) == "" {
 			continue
 		}
-		name := cell{{o.Name, stBold}, {stageWord(outcomeStage(o)), stSmall}}
-		rows = append(rows, row{name, c1(dd.Statement, stBody), d.zoneCell(o)})
+		name := pdfdoc.Cell{{Text: o.Name, St: pdfdoc.Bold}, {Text: stageWord(outcomeStage(o)), St: pdfdoc.Small}}
+		rows = append(rows, pdfdoc.Row{name, c1(dd.Statement, pdfdoc.Body), d.zoneCell(o)})
 	}
-	return []column{{title: "Limit", w: 40, align: "L"}, {title: "Statement", w: 116, align: "L"}, {title: "Decision", w: 24, align: "C"}}, rows
+	return []pdfdoc.Column{{Title: "Limit", W: 40, Align: "L"}, {Title: "Statement", W: 116, Align: "L"}, {Title: "Decision", W: 24, Align: "C"}}, rows
 }
 
 // otherResults lists the results that no limit uses.
-func (d *doc) otherResults() ([]column, []row) {
+func (d *doc) otherResults() ([]pdfdoc.Column, []pdfdoc.Row) {
 	used := map[string]bool{}
 	for _, o := range d.rec.Outcomes {
 		for _, u := range o.Uses {
@@ -88,43 +86,43 @@ func (d *doc) otherResults() ([]column, []row) {
 			used[k] = true
 		}
 	}
-	var rows []row
+	var rows []pdfdoc.Row
 	for _, r := range d.rec.Results {
 		if used[r.Name] {
 			continue
 		}
-		st := stBody
+		st := pdfdoc.Body
 		if !r.Valid {
-			st = stBody.with(colMuted)
+			st = pdfdoc.Body.With(pdfdoc.Muted)
 		}
 		note := r.Note
 		if r.Valid && finite(r.Value) && r.Unit != "code" {
 			note = strings.TrimSpace(uncLine(r.Unc.Expanded, r.Unc.K, r.Unc.DOF, r.Unc.Method) + "   " + note)
 		}
-		rows = append(rows, row{c1(r.Name, stBold), c1(stageWord(stageOf(r.Name)), stBody), c1(fmtResultU(r), st), c1(note, stSmall)})
+		rows = append(rows, pdfdoc.Row{c1(r.Name, pdfdoc.Bold), c1(stageWord(stageOf(r.Name)), pdfdoc.Body), c1(fmtResultU(r), st), c1(note, pdfdoc.Small)})
 	}
-	return []column{
-		{title: "Result", w: 48, align: "L"},
-		{title: "Stage", w: 20, align: "L"},
-		{title: "Value ± U", w: 46, align: "R"},
-		{title: "Uncertainty · note", w: 66, align: "L", gap: 4},
+	return []pdfdoc.Column{
+		{Title: "Result", W: 48, Align: "L"},
+		{Title: "Stage", W: 20, Align: "L"},
+		{Title: "Value ± U", W: 46, Align: "R"},
+		{Title: "Uncertainty · note", W: 66, Align: "L", Gap: 4},
 	}, rows
 }
 
 // fits is the table of straight-line fits of the sweeps.
-func (d *doc) fits() ([]column, []row) {
+func (d *doc) fits() ([]pdfdoc.Column, []pdfdoc.Row) {
 	r := d.rec
-	cols := []column{
-		{title: "Sweep", w: 22, align: "L"},
-		{title: "DOF", w: 12, align: "R"},
-		{title: "Gain", w: 26, align: "R"},
-		{title: "Gain error", w: 22, align: "R"},
-		{title: "Output at 0 V in", w: 26, align: "R"},
-		{title: "Offset error", w: 24, align: "R"},
-		{title: "Residual s", w: 24, align: "R"},
-		{title: "Nonlinearity", w: 24, align: "R"},
+	cols := []pdfdoc.Column{
+		{Title: "Sweep", W: 22, Align: "L"},
+		{Title: "DOF", W: 12, Align: "R"},
+		{Title: "Gain", W: 26, Align: "R"},
+		{Title: "Gain error", W: 22, Align: "R"},
+		{Title: "Output at 0 V in", W: 26, Align: "R"},
+		{Title: "Offset error", W: 24, Align: "R"},
+		{Title: "Residual s", W: 24, Align: "R"},
+		{Title: "Nonlinearity", W: 24, Align: "R"},
 	}
-	var rows []row
+	var rows []pdfdoc.Row
 	for _, f := range r.Fits {
 		gainErr := "—"
 		if r.IdealGain != 0 {
@@ -138,15 +136,15 @@ func (d *doc) fits() ([]column, []row) {
 		if finite(f.Slope) {
 			slope = strconv.FormatFloat(f.Slope, 'g', 7, 64) + " V/V"
 		}
-		rows = append(rows, row{
-			cell{{dash(f.Sweep), stBold}, {stageWord(sweepStage(f.Sweep)), stSmall}},
-			c1(strconv.Itoa(f.DOF), stBody),
-			c1(slope, stBody),
-			c1(gainErr, stBody),
-			c1(fmtVolts(f.Intercept, 7), stBody),
-			c1(fmtVolts(f.Intercept-r.IdealOffset, 3), stBody),
-			c1(fmtVolts(f.ResidualSD, 3), stBody),
-			c1(nl, stBody),
+		rows = append(rows, pdfdoc.Row{
+			pdfdoc.Cell{{Text: dash(f.Sweep), St: pdfdoc.Bold}, {Text: stageWord(sweepStage(f.Sweep)), St: pdfdoc.Small}},
+			c1(strconv.Itoa(f.DOF), pdfdoc.Body),
+			c1(slope, pdfdoc.Body),
+			c1(gainErr, pdfdoc.Body),
+			c1(fmtVolts(f.Intercept, 7), pdfdoc.Body),
+			c1(fmtVolts(f.Intercept-r.IdealOffset, 3), pdfdoc.Body),
+			c1(fmtVolts(f.ResidualSD, 3), pdfdoc.Body),
+			c1(nl, pdfdoc.Body),
 		})
 	}
 	return cols, rows
@@ -215,9 +213,9 @@ func (d *doc) plotSeries() (pre, post series, h float64) {
 	pre = series{label: "before trim", sweep: sweepPre, pts: d.errPoints(ps), color: colPre, marker: markerCircle, missing: ps == nil}
 	post = series{label: "after trim", sweep: sweepVerify, pts: d.errPoints(vs), color: colPost, marker: markerSquare, missing: vs == nil}
 	if len(pre.pts) == 0 && len(post.pts) == 0 {
-		return pre, post, 2 * (stSmall.lineH() + 0.8)
+		return pre, post, 2 * (pdfdoc.Small.LineH() + 0.8)
 	}
-	return pre, post, plotH + 1.5 + 4 + 2*(stSmall.lineH()+0.8)
+	return pre, post, plotH + 1.5 + 4 + 2*(pdfdoc.Small.LineH()+0.8)
 }
 
 // plotH is the height of one plot.
@@ -234,46 +232,46 @@ func (d *doc) plots(sPre, sPost series, h float64) {
 		return
 	}
 	w := (contentW - gap) / 2
-	d.plot(marginL, d.y, w, plotH, "Before trim, as found", sPre)
-	d.plot(marginL+w+gap, d.y, w, plotH, "After trim, as left", sPost)
-	d.y += plotH + 1.5
+	d.plot(marginL, d.Y, w, plotH, "Before trim, as found", sPre)
+	d.plot(marginL+w+gap, d.Y, w, plotH, "After trim, as left", sPost)
+	d.Y += plotH + 1.5
 
 	// Legend, shared by the two plots.
 	x := marginL
 	lh := 4.0
 	for _, s := range []series{sPre, sPost} {
-		d.marker(x+1.5, d.y+lh/2, s.marker, s.color)
-		d.draw(s.color)
-		d.pdf.SetLineWidth(0.35)
-		d.pdf.Line(x, d.y+lh/2, x+3, d.y+lh/2)
+		d.marker(x+1.5, d.Y+lh/2, s.marker, s.color)
+		d.Stroke(s.color)
+		d.PDF.SetLineWidth(0.35)
+		d.PDF.Line(x, d.Y+lh/2, x+3, d.Y+lh/2)
 		label := fmt.Sprintf("%s (sweep “%s”)", s.label, s.sweep)
-		d.text(x+4.5, d.y, 60, lh, label, stBody.sized(7.5), "L")
-		x += 4.5 + d.width(label, stBody.sized(7.5)) + 8
+		d.Cell(x+4.5, d.Y, 60, lh, label, pdfdoc.Body.Sized(7.5), "L")
+		x += 4.5 + d.TextWidth(label, pdfdoc.Body.Sized(7.5)) + 8
 	}
-	d.errorBarGlyph(x+1.5, d.y+lh/2)
-	d.text(x+4.5, d.y, 60, lh, "±1 s of the readings", stBody.sized(7.5), "L")
-	d.y += lh
+	d.errorBarGlyph(x+1.5, d.Y+lh/2)
+	d.Cell(x+4.5, d.Y, 60, lh, "±1 s of the readings", pdfdoc.Body.Sized(7.5), "L")
+	d.Y += lh
 	d.note("Error = mean output − (G · stimulus + b), with G and b the ideal transfer above. Each plot has its own vertical scale.")
 }
 
 // pointTable is one table of sweep points: two sweeps side by side.
 type pointTable struct {
-	cols   []column
-	rows   []row
-	groups []group
+	cols   []pdfdoc.Column
+	rows   []pdfdoc.Row
+	groups []pdfdoc.Group
 }
 
 // pointTables lays the sweeps out in pairs.
 func (d *doc) pointTables() []pointTable {
 	r := d.rec
-	half := func(sep bool) []column {
-		return []column{
-			{title: "#", w: 8, align: "R", sep: sep},
-			{title: "Stimulus", w: 17, align: "R"},
-			{title: "Mean output", w: 22, align: "R"},
-			{title: "Error", w: 16, align: "R"},
-			{title: "s", w: 13, align: "R"},
-			{title: "Valid", w: 14, align: "R"},
+	half := func(sep bool) []pdfdoc.Column {
+		return []pdfdoc.Column{
+			{Title: "#", W: 8, Align: "R", Sep: sep},
+			{Title: "Stimulus", W: 17, Align: "R"},
+			{Title: "Mean output", W: 22, Align: "R"},
+			{Title: "Error", W: 16, Align: "R"},
+			{Title: "s", W: 13, Align: "R"},
+			{Title: "Valid", W: 14, Align: "R"},
 		}
 	}
 	cols := append(half(false), half(true)...)
@@ -283,18 +281,18 @@ func (d *doc) pointTables() []pointTable {
 		if len(pair[0].Points) == 0 && (len(pair) == 1 || len(pair[1].Points) == 0) {
 			continue
 		}
-		groups := []group{{sweepTitle(pair[0].Name), 6}}
+		groups := []pdfdoc.Group{{Title: sweepTitle(pair[0].Name), N: 6}}
 		if len(pair) == 2 {
-			groups = append(groups, group{sweepTitle(pair[1].Name), 6})
+			groups = append(groups, pdfdoc.Group{Title: sweepTitle(pair[1].Name), N: 6})
 		}
-		var rows []row
+		var rows []pdfdoc.Row
 		for i := 0; i < len(pair[0].Points) || len(pair) == 2 && i < len(pair[1].Points); i++ {
-			var rw row
+			var rw pdfdoc.Row
 			for _, s := range pair {
 				if i < len(s.Points) {
 					rw = append(rw, d.pointCells(i, s.Points[i])...)
 				} else {
-					rw = append(rw, make(row, 6)...)
+					rw = append(rw, make(pdfdoc.Row, 6)...)
 				}
 			}
 			rows = append(rows, rw)
@@ -313,17 +311,17 @@ func (d *doc) sweepPoints(ts []pointTable) {
 	}
 	for k, t := range ts {
 		if k == 0 {
-			d.heading("Sweep points", keep(d.tableHeight(t.cols, t.rows, t.groups...)))
+			d.heading("Sweep points", keep(d.TableHeight(t.cols, t.rows, nil, t.groups...)))
 		} else {
-			d.y += 3
+			d.Y += 3
 		}
-		d.table(t.cols, t.rows, t.groups...)
+		d.Table(t.cols, t.rows, nil, t.groups...)
 	}
 	d.note("Error = mean output − ideal output; s is the standard deviation of the valid readings at the point.")
 }
 
 // pointCells are the six cells of one sweep point.
-func (d *doc) pointCells(i int, p sequencer.Point) []cell {
+func (d *doc) pointCells(i int, p sequencer.Point) []pdfdoc.Cell {
 	r := d.rec
 	ideal := r.IdealGain*p.Stimulus + r.IdealOffset
 	mean, errS, sd := "—", "—", "—"
@@ -334,16 +332,16 @@ func (d *doc) pointCells(i int, p sequencer.Point) []cell {
 			sd = fmtVolts(p.SD, 2)
 		}
 	}
-	valid := c1(fmt.Sprintf("%d/%d", p.Valid, len(p.Readings)), stBody)
+	valid := c1(fmt.Sprintf("%d/%d", p.Valid, len(p.Readings)), pdfdoc.Body)
 	if p.Valid < len(p.Readings) || p.Valid == 0 {
-		valid = c1(fmt.Sprintf("%d/%d", p.Valid, len(p.Readings)), stBold.with(colFail))
+		valid = c1(fmt.Sprintf("%d/%d", p.Valid, len(p.Readings)), pdfdoc.Bold.With(pdfdoc.Fail))
 	}
-	return []cell{
-		c1(strconv.Itoa(i+1), stSmall),
-		c1(fmtVolts(p.Stimulus, 5), stBody),
-		c1(mean, stBody),
-		c1(errS, stBold),
-		c1(sd, stBody),
+	return []pdfdoc.Cell{
+		c1(strconv.Itoa(i+1), pdfdoc.Small),
+		c1(fmtVolts(p.Stimulus, 5), pdfdoc.Body),
+		c1(mean, pdfdoc.Body),
+		c1(errS, pdfdoc.Bold),
+		c1(sd, pdfdoc.Body),
 		valid,
 	}
 }

@@ -10,6 +10,7 @@ import (
 
 	"trimline/instruments/units"
 	"trimline/limits"
+	"trimline/reports/internal/pdfdoc"
 	"trimline/sequencer"
 )
 
@@ -54,23 +55,10 @@ func isCount(u string) bool {
 	return false
 }
 
-// minus writes a leading hyphen-minus as the minus sign U+2212, the way a number is
-// set in print. "-0" (a negative value rounded to zero) loses its sign.
-func minus(s string) string {
-	rest, ok := strings.CutPrefix(s, "-")
-	if !ok {
-		return s
-	}
-	if strings.Trim(rest, "0.") == "" {
-		return rest
-	}
-	return "−" + rest
-}
-
 // fmtNum writes v with four significant digits in fixed notation, or in
 // exponent notation when it is very large or very small.
 func fmtNum(v float64) string {
-	return minus(fmtNumRaw(v))
+	return pdfdoc.Minus(fmtNumRaw(v))
 }
 
 func fmtNumRaw(v float64) string {
@@ -99,7 +87,7 @@ func fmtValue(v float64, unit string) string {
 		return "not valid"
 	}
 	if isCount(unit) {
-		return minus(strconv.FormatFloat(math.Round(v), 'f', 0, 64))
+		return pdfdoc.Minus(strconv.FormatFloat(math.Round(v), 'f', 0, 64))
 	}
 	u := dispUnit(unit)
 	if u == "" {
@@ -154,14 +142,14 @@ func fmtResult(r sequencer.Result) string {
 	}
 	switch r.Unit {
 	case "V":
-		return minus(units.Format(r.Value, "V", 4))
+		return pdfdoc.Minus(units.Format(r.Value, "V", 4))
 	case "ratio":
 		if math.Abs(r.Value) >= 0.01 {
-			return minus(strconv.FormatFloat(r.Value*100, 'f', 3, 64)) + " %"
+			return pdfdoc.Minus(strconv.FormatFloat(r.Value*100, 'f', 3, 64)) + " %"
 		}
-		return minus(units.Format(r.Value*1e6, "ppm", 4))
+		return pdfdoc.Minus(units.Format(r.Value*1e6, "ppm", 4))
 	case "code":
-		return minus(strconv.FormatFloat(math.Round(r.Value), 'f', 0, 64))
+		return pdfdoc.Minus(strconv.FormatFloat(math.Round(r.Value), 'f', 0, 64))
 	}
 	return strings.TrimSpace(fmtNum(r.Value) + " " + r.Unit)
 }
@@ -171,7 +159,7 @@ func fmtVolts(v float64, digits int) string {
 	if math.IsNaN(v) || math.IsInf(v, 0) {
 		return "—"
 	}
-	return minus(units.Format(v, "V", digits))
+	return pdfdoc.Minus(units.Format(v, "V", digits))
 }
 
 // Measurement uncertainty.
@@ -206,9 +194,9 @@ func roundU(U float64) (float64, int) {
 func fmtDec(v float64, dec int) string {
 	if dec < 0 {
 		p := math.Pow(10, float64(-dec))
-		return minus(strconv.FormatFloat(math.Round(v/p)*p, 'f', 0, 64))
+		return pdfdoc.Minus(strconv.FormatFloat(math.Round(v/p)*p, 'f', 0, 64))
 	}
-	return minus(strconv.FormatFloat(v, 'f', min(dec, 15), 64))
+	return pdfdoc.Minus(strconv.FormatFloat(v, 'f', min(dec, 15), 64))
 }
 
 // fmtWithU writes "value ± U unit" with v and U in unit (a limit-file unit such as
@@ -337,9 +325,9 @@ func fmtLimitNum(v float64) string {
 	}
 	a := math.Abs(v)
 	if a != 0 && (a >= 1e9 || a < 1e-6) {
-		return minus(strconv.FormatFloat(v, 'g', -1, 64))
+		return pdfdoc.Minus(strconv.FormatFloat(v, 'g', -1, 64))
 	}
-	return minus(strconv.FormatFloat(v, 'f', -1, 64))
+	return pdfdoc.Minus(strconv.FormatFloat(v, 'f', -1, 64))
 }
 
 // fmtInterval writes an interval with a unit: "−50 … 50 µV", one-sided "≤ 0.01 %"

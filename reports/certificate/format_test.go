@@ -5,6 +5,7 @@ import (
 	"testing"
 
 	"trimline/limits"
+	"trimline/reports/internal/pdfdoc"
 	"trimline/sequencer"
 )
 
@@ -61,10 +62,10 @@ func TestFmtUncertaintyParts(t *testing.T) {
 		{fmtCoverage(0.9545), "95.45 %"},
 		{fmtCoverage(0.95), "95 %"},
 		{fmtCoverage(0.99), "99 %"},
-		{minus("-3.2"), "−3.2"},
-		{minus("-0.00"), "0.00"},
-		{minus("-0"), "0"},
-		{minus("12"), "12"},
+		{pdfdoc.Minus("-3.2"), "−3.2"},
+		{pdfdoc.Minus("-0.00"), "0.00"},
+		{pdfdoc.Minus("-0"), "0"},
+		{pdfdoc.Minus("12"), "12"},
 	} {
 		if c.got != c.want {
 			t.Errorf("got %q, want %q", c.got, c.want)

@@ -3,6 +3,8 @@ package certificate
 import (
 	"bytes"
 	"strings"
+
+	"trimline/reports/internal/pdfdoc"
 )
 
 // The seal block sits at the foot of page 1, just above the footer, at the same
@@ -18,11 +20,11 @@ const (
 )
 
 var (
-	stSealLabel = stLabel.sized(7)
-	stSealValue = stBody.sized(7.5)
-	stSealMono  = stMono.sized(6.6)
-	stSealNote  = stSmall.sized(6.6)
-	stSealCode  = style{mono, "", 13, colInk}
+	stSealLabel = stLabel.Sized(7)
+	stSealValue = pdfdoc.Body.Sized(7.5)
+	stSealMono  = stMono.Sized(6.6)
+	stSealNote  = pdfdoc.Small.Sized(6.6)
+	stSealCode  = pdfdoc.Style{Family: pdfdoc.Mono, Size: 13, Color: pdfdoc.Ink}
 )
 
 // sealed reports whether the certificate carries a seal.
@@ -31,7 +33,7 @@ func (d *doc) sealed() bool { return d.opt.KeyID != "" || d.opt.VerificationCode
 // sealLine is one labelled line of the seal block, as wrapped spans.
 type sealLine struct {
 	label string
-	parts []span // laid out one after another; a span that does not fit starts a new row
+	parts []pdfdoc.Span // laid out one after another; a span that does not fit starts a new row
 }
 
 // sealLines are the labelled lines of the block.
@@ -39,10 +41,10 @@ func (d *doc) sealLines() []sealLine {
 	o := d.opt
 	var ls []sealLine
 	if d.sealed() {
-		ls = append(ls, sealLine{"Station seal", []span{{"Signed by station key " + dash(o.KeyID), stSealValue}}})
+		ls = append(ls, sealLine{"Station seal", []pdfdoc.Span{{Text: "Signed by station key " + dash(o.KeyID), St: stSealValue}}})
 	} else {
-		ls = append(ls, sealLine{"Station seal", []span{{"Unsigned", stBold.sized(8)},
-			{"  This certificate carries no station seal; it cannot be verified.", stSealNote}}})
+		ls = append(ls, sealLine{"Station seal", []pdfdoc.Span{{Text: "Unsigned", St: pdfdoc.Bold.Sized(8)},
+			{Text: "  This certificate carries no station seal; it cannot be verified.", St: stSealNote}}})
 	}
 	if s := o.Signer; s != nil {
 		name, meaning, when := strings.TrimSpace(s.Name), strings.TrimSpace(s.Meaning), fmtTime(s.Signed)
@@ -55,17 +57,17 @@ func (d *doc) sealLines() []sealLine {
 		if s.Signed.IsZero() {
 			when = "time not recorded"
 		}
-		ls = append(ls, sealLine{"Signature", []span{
-			{name, stBold.sized(7.5)},
-			{"  —  " + meaning, stSealValue},
-			{"  —  " + when, stSealValue}}})
+		ls = append(ls, sealLine{"Signature", []pdfdoc.Span{
+			{Text: name, St: pdfdoc.Bold.Sized(7.5)},
+			{Text: "  —  " + meaning, St: stSealValue},
+			{Text: "  —  " + when, St: stSealValue}}})
 	}
 	if o.RecordSHA256 != "" || d.sealed() {
-		ls = append(ls, sealLine{"Record SHA-256", []span{{dash(o.RecordSHA256), stSealMono}}})
+		ls = append(ls, sealLine{"Record SHA-256", []pdfdoc.Span{{Text: dash(o.RecordSHA256), St: stSealMono}}})
 	}
 	if d.sealed() {
-		ls = append(ls, sealLine{"To verify", []span{{"trimline audit verify FILE.pdf", stSealMono},
-			{"  needs FILE.pdf.seal and the station's public key", stSealNote}}})
+		ls = append(ls, sealLine{"To verify", []pdfdoc.Span{{Text: "trimline audit verify FILE.pdf", St: stSealMono},
+			{Text: "  needs FILE.pdf.seal and the station's public key", St: stSealNote}}})
 	}
 	return ls
 }
@@ -81,13 +83,13 @@ func (d *doc) sealValueW() float64 {
 
 // sealRows breaks a line into rows of spans that fit w: the spans run on while they
 // fit, and a span that does not fit starts a row of its own, wrapped.
-func (d *doc) sealRows(l sealLine) [][]span {
+func (d *doc) sealRows(l sealLine) [][]pdfdoc.Span {
 	w := d.sealValueW()
-	var rows [][]span
-	var cur []span
+	var rows [][]pdfdoc.Span
+	var cur []pdfdoc.Span
 	x := 0.0
 	for _, sp := range l.parts {
-		if sw := d.width(sp.text, sp.st); len(cur) > 0 && x+sw <= w {
+		if sw := d.TextWidth(sp.Text, sp.St); len(cur) > 0 && x+sw <= w {
 			cur = append(cur, sp)
 			x += sw
 			continue
@@ -97,12 +99,12 @@ func (d *doc) sealRows(l sealLine) [][]span {
 			cur, x = nil, 0
 		}
 		// A span that starts a row drops its separator.
-		lines := d.wrap(strings.TrimLeft(sp.text, " —"), w, sp.st)
+		lines := d.Wrap(strings.TrimLeft(sp.Text, " —"), w, sp.St)
 		for _, t := range lines[:len(lines)-1] {
-			rows = append(rows, []span{{t, sp.st}})
+			rows = append(rows, []pdfdoc.Span{{Text: t, St: sp.St}})
 		}
-		last := span{lines[len(lines)-1], sp.st}
-		cur, x = []span{last}, d.width(last.text, sp.st)
+		last := pdfdoc.Span{Text: lines[len(lines)-1], St: sp.St}
+		cur, x = []pdfdoc.Span{last}, d.TextWidth(last.Text, sp.St)
 	}
 	if len(cur) > 0 {
 		rows = append(rows, cur)
@@ -128,18 +130,18 @@ func (d *doc) sealHeight() float64 {
 
 // seal draws the seal block at the foot of page 1.
 func (d *doc) seal() {
-	d.pdf.SetPage(1)
+	d.PDF.SetPage(1)
 	top := bottom - d.sealH
-	d.rule(top, colInk, 0.35)
+	d.Rule(top, pdfdoc.Ink, 0.35)
 	y := top + sealPad
 	vx := marginL + sealLabelW
 	for _, l := range d.sealLines() {
-		d.text(marginL, y, sealLabelW, sealRowH, l.label, stSealLabel, "L")
+		d.Cell(marginL, y, sealLabelW, sealRowH, l.label, stSealLabel, "L")
 		for _, r := range d.sealRows(l) {
 			x := vx
 			for _, sp := range r {
-				d.text(x, y, d.sealValueW(), sealRowH, sp.text, sp.st, "L")
-				x += d.width(sp.text, sp.st)
+				d.Cell(x, y, d.sealValueW(), sealRowH, sp.Text, sp.St, "L")
+				x += d.TextWidth(sp.Text, sp.St)
 			}
 			y += sealRowH
 		}
@@ -148,12 +150,11 @@ func (d *doc) seal() {
 		return
 	}
 	bx, by, bh := marginL+contentW-sealCodeW, top+1.4, d.sealH-1.4
-	d.fill(colHeadFill)
-	d.pdf.Rect(bx, by, sealCodeW, bh, "F")
+	d.FillRect(bx, by, sealCodeW, bh, pdfdoc.HeadFill)
 	cy := by + (bh-sealCodeH)/2 // the code's three lines, centred in the box
-	d.text(bx, cy, sealCodeW, 3.6, "Verification code", stSealLabel, "C")
-	d.text(bx, cy+3.6, sealCodeW, 6.2, dash(d.opt.VerificationCode), stSealCode, "C")
-	d.text(bx, cy+9.8, sealCodeW, 3.4, "quote it to identify this certificate", stSealNote, "C")
+	d.Cell(bx, cy, sealCodeW, 3.6, "Verification code", stSealLabel, "C")
+	d.Cell(bx, cy+3.6, sealCodeW, 6.2, dash(d.opt.VerificationCode), stSealCode, "C")
+	d.Cell(bx, cy+9.8, sealCodeW, 3.4, "quote it to identify this certificate", stSealNote, "C")
 }
 
 // keywordsTag starts the document's keywords. The full keywords are

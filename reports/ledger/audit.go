@@ -151,23 +151,23 @@ func (l *Ledger) Audit(ctx context.Context, actor, action, subject, detail strin
 // hashes; VerifyChain does.
 func (l *Ledger) AuditTrail(ctx context.Context) ([]AuditEntry, error) {
 	rows, err := l.db.QueryContext(ctx, `SELECT seq, at, actor, action, subject, detail, prev_hash, hash FROM audit_trail ORDER BY seq`)
-	if err != nil {
-		return nil, fmt.Errorf("ledger: audit trail: %w", err)
-	}
-	defer rows.Close()
-	out := []AuditEntry{}
-	for rows.Next() {
+	var badSeq int64 // the entry whose time does not parse, if one does not
+	out, err := collect(rows, err, func(r scanner) (AuditEntry, error) {
 		var e AuditEntry
 		var at string
-		if err := rows.Scan(&e.Seq, &at, &e.Actor, &e.Action, &e.Subject, &e.Detail, &e.PrevHash, &e.Hash); err != nil {
-			return nil, fmt.Errorf("ledger: audit trail: %w", err)
+		if err := r.Scan(&e.Seq, &at, &e.Actor, &e.Action, &e.Subject, &e.Detail, &e.PrevHash, &e.Hash); err != nil {
+			return e, err
 		}
+		var err error
 		if e.At, err = parseTime(at); err != nil {
-			return nil, fmt.Errorf("ledger: audit trail entry %d: %w", e.Seq, err)
+			badSeq = e.Seq
 		}
-		out = append(out, e)
-	}
-	if err := rows.Err(); err != nil {
+		return e, err
+	})
+	switch {
+	case err != nil && badSeq != 0:
+		return nil, fmt.Errorf("ledger: audit trail entry %d: %w", badSeq, err)
+	case err != nil:
 		return nil, fmt.Errorf("ledger: audit trail: %w", err)
 	}
 	return out, nil
@@ -286,13 +286,5 @@ type querier interface {
 // snapshot. (With _txlock=immediate every BeginTx takes the write lock; a read-only
 // transaction does not.)
 func (l *Ledger) readTx(ctx context.Context, f func(tx *sql.Tx) error) error {
-	tx, err := l.db.BeginTx(ctx, &sql.TxOptions{ReadOnly: true})
-	if err != nil {
-		return err
-	}
-	defer tx.Rollback()
-	if err := f(tx); err != nil {
-		return err
-	}
-	return tx.Commit()
+	return runTx(ctx, l.db, &sql.TxOptions{ReadOnly: true}, f)
 }

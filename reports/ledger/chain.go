@@ -11,6 +11,7 @@ import (
 	"strings"
 	"time"
 
+	"trimline/reports/signing"
 	"trimline/sequencer"
 )
 
@@ -40,17 +41,6 @@ func RecordSHA256(rec *sequencer.Record) (string, error) {
 	return sha256Hex(b), nil
 }
 
-// SignedMessage returns the exact bytes a run's signature covers (RecordOptions.Sign
-// signs them, ChainOptions.Verify checks them):
-//
-//	"trimline-record-v1\n" + number + "\n" + runID + "\n" + recordSHA
-//
-// with number the certificate number ("" for a run without one) and recordSHA the
-// record's SHA-256 in lowercase hex. There is no final line break.
-func SignedMessage(number, runID, recordSHA string) []byte {
-	return []byte("trimline-record-v1\n" + number + "\n" + runID + "\n" + recordSHA)
-}
-
 // chainHash is a run's chain_hash; RecordRunWith documents the line.
 func chainHash(prev, runID, cert, recordSHA, verdict, keyID string, sig []byte) string {
 	line := "trimline-chain-v1\n" + prev + "\n" + runID + "\n" + cert + "\n" + recordSHA + "\n" +
@@ -61,7 +51,7 @@ func chainHash(prev, runID, cert, recordSHA, verdict, keyID string, sig []byte) 
 // ChainOptions are VerifyChain's options.
 type ChainOptions struct {
 	// Verify, if not nil, checks each signed run's signature: it must report whether
-	// sig is keyID's signature over msg (SignedMessage of the run). A false is a
+	// sig is keyID's signature over msg (signing.RecordMessage of the run). A false is a
 	// broken link. Without Verify, signatures are only checked to be covered by the
 	// chain.
 	Verify func(keyID string, msg, sig []byte) bool
@@ -142,17 +132,13 @@ var appendOnlyTriggers = []string{
 // instruments, which are copies of record_json (Run reads record_json) that
 // VerifyChain does not compare.
 func (l *Ledger) VerifyChain(ctx context.Context, station string, opts ...ChainOptions) (ChainReport, error) {
-	var opt ChainOptions
-	switch len(opts) {
-	case 0:
-	case 1:
-		opt = opts[0]
-	default:
-		return ChainReport{}, fmt.Errorf("ledger: verify chain: %d ChainOptions, want at most one: %w", len(opts), ErrInvalid)
+	opt, err := chainOption("verify chain", opts)
+	if err != nil {
+		return ChainReport{}, err
 	}
 	c := &chainCheck{ctx: ctx, opt: opt, station: station,
 		rep: ChainReport{Station: station, OK: true, Heads: map[string]string{}}}
-	err := l.readTx(ctx, func(tx *sql.Tx) error {
+	err = l.readTx(ctx, func(tx *sql.Tx) error {
 		c.tx = tx
 		for _, step := range []func() error{c.triggers, c.auditTrail, c.blobs, c.runs, c.orphanCreates, c.certificates, c.documents} {
 			if err := step(); err != nil {
@@ -211,28 +197,11 @@ func (c *chainCheck) broken(station, runID string, seq int64, format string, arg
 }
 
 func (c *chainCheck) triggers() error {
-	rows, err := c.tx.QueryContext(c.ctx, `SELECT name FROM sqlite_schema WHERE type = 'trigger'`)
-	if err != nil {
+	t, err := missingTrigger(c.ctx, c.tx, appendOnlyTriggers)
+	if err != nil || t == "" {
 		return err
 	}
-	defer rows.Close()
-	have := map[string]bool{}
-	for rows.Next() {
-		var name string
-		if err := rows.Scan(&name); err != nil {
-			return err
-		}
-		have[name] = true
-	}
-	if err := rows.Err(); err != nil {
-		return err
-	}
-	for _, t := range appendOnlyTriggers {
-		if !have[t] {
-			return c.broken("", "", 0, "the append-only trigger %s is missing", t)
-		}
-	}
-	return nil
+	return c.broken("", "", 0, "the append-only trigger %s is missing", t)
 }
 
 func (c *chainCheck) auditTrail() error {
@@ -448,7 +417,7 @@ func (c *chainCheck) run(r *runRow, prevSeq int64, prev string) error {
 	} else {
 		c.rep.Signed++
 		if c.opt.Verify != nil {
-			if !c.opt.Verify(r.keyID, SignedMessage(r.cert, r.runID, r.recordSHA), r.sig) {
+			if !c.opt.Verify(r.keyID, signing.RecordMessage(r.cert, r.runID, r.recordSHA), r.sig) {
 				return fail("the signature of key %q does not verify", r.keyID)
 			}
 			c.rep.Verified++

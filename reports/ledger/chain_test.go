@@ -4,7 +4,6 @@ import (
 	"bytes"
 	"crypto/ed25519"
 	"crypto/sha256"
-	"database/sql"
 	"encoding/hex"
 	"encoding/json"
 	"errors"
@@ -18,6 +17,7 @@ import (
 	"time"
 
 	"trimline/reports/ledger"
+	"trimline/reports/signing"
 	"trimline/sequencer"
 )
 
@@ -36,7 +36,7 @@ func newSigner(ids ...string) *testSigner {
 // sign returns a RecordOptions.Sign that signs with key id.
 func (s *testSigner) sign(id string) func(number, runID, recordSHA string) (string, []byte, error) {
 	return func(number, runID, recordSHA string) (string, []byte, error) {
-		return id, ed25519.Sign(s.keys[id], ledger.SignedMessage(number, runID, recordSHA)), nil
+		return id, ed25519.Sign(s.keys[id], signing.RecordMessage(number, runID, recordSHA)), nil
 	}
 }
 
@@ -80,8 +80,8 @@ func TestChainVectors(t *testing.T) {
 	if h := ledger.AuditHash(h1, 2, "2025-06-03T10:00:01.000000000Z", "qa\nlead", "void", "TL1-000001", ""); h != "d716784c3d5bca922f7623798dede3d97d54a632588edb9cdcd228b428f04f99" {
 		t.Errorf("audit entry 2: %s", h)
 	}
-	if got := string(ledger.SignedMessage("TL1-000007", "run-9", a)); got != "trimline-record-v1\nTL1-000007\nrun-9\n"+a {
-		t.Errorf("SignedMessage = %q", got)
+	if got := string(signing.RecordMessage("TL1-000007", "run-9", a)); got != "trimline-record-v1\nTL1-000007\nrun-9\n"+a {
+		t.Errorf("RecordMessage = %q", got)
 	}
 }
 
@@ -198,7 +198,7 @@ func TestChainStoredLinks(t *testing.T) {
 		t.Fatal(err)
 	}
 	if rec.RunID != "b2" || meta.RunID != "b2" || meta.Certificate != "TL1-000003" || meta.KeyID != "station-key-1" ||
-		meta.ChainHash != prev["EOL-B"] || !signer.verify(meta.KeyID, ledger.SignedMessage(meta.Certificate, meta.RunID, meta.RecordSHA256), meta.Signature) {
+		meta.ChainHash != prev["EOL-B"] || !signer.verify(meta.KeyID, signing.RecordMessage(meta.Certificate, meta.RunID, meta.RecordSHA256), meta.Signature) {
 		t.Errorf("RunByCertificate meta %+v", meta)
 	}
 	if _, _, err := l.RunByCertificate(ctx, "TL1-000099"); !errors.Is(err, ledger.ErrNotFound) {
@@ -433,18 +433,8 @@ func TestDocumentsAndMissing(t *testing.T) {
 func ledger0002(t *testing.T) string {
 	t.Helper()
 	path := filepath.Join(t.TempDir(), "v2.db")
-	db, err := sql.Open("sqlite", "file:"+path+"?_pragma=foreign_keys(1)&_pragma=journal_mode(WAL)")
-	if err != nil {
-		t.Fatal(err)
-	}
+	db, exec := oldFile(t, path)
 	defer db.Close()
-	exec := func(q string, args ...any) {
-		t.Helper()
-		if _, err := db.Exec(q, args...); err != nil {
-			t.Fatalf("%.60s: %v", q, err)
-		}
-	}
-	exec(`CREATE TABLE schema_migrations (version INTEGER PRIMARY KEY, name TEXT NOT NULL, applied_at TEXT NOT NULL) STRICT`)
 	for i, name := range []string{"0001_init.sql", "0002_uncertainty.sql"} {
 		q, err := os.ReadFile(filepath.Join("migrations", name))
 		if err != nil {

@@ -41,17 +41,28 @@ func TestConcurrentProcesses(t *testing.T) {
 	if testing.Short() {
 		t.Skip("spawns processes")
 	}
-	dir := t.TempDir()
-	path := filepath.Join(dir, "ledger.db")
-	gate := path + ".go"
+	path := filepath.Join(t.TempDir(), "ledger.db")
+	runChildren(t, procs, "TestConcurrentProcesses", envChildPath, path)
+	if t.Failed() {
+		return
+	}
+	checkCertificates(t, path, procs*runsPerProc, procs*runsPerProc*totalReadings(makeRecord("x", "x", sequencer.Pass, concurrencyShape)))
+}
+
+// runChildren runs n processes of this test binary that run only test, with
+// envPath set to path and envChildWorker to their number, and waits for them. It
+// lets them all go at once, through the gate file path+".go", so that they also
+// race to create and migrate the file; a child that fails fails t with its output.
+func runChildren(t *testing.T, n int, test, envPath, path string) {
+	t.Helper()
 	type child struct {
 		cmd *exec.Cmd
 		out *syncBuffer
 	}
 	var children []child
-	for w := range procs {
-		cmd := exec.Command(os.Args[0], "-test.run=^TestConcurrentProcesses$", "-test.count=1", "-test.v")
-		cmd.Env = append(os.Environ(), envChildPath+"="+path, envChildWorker+"="+strconv.Itoa(w))
+	for w := range n {
+		cmd := exec.Command(os.Args[0], "-test.run=^"+test+"$", "-test.count=1", "-test.v")
+		cmd.Env = append(os.Environ(), envPath+"="+path, envChildWorker+"="+strconv.Itoa(w))
 		out := &syncBuffer{}
 		cmd.Stdout, cmd.Stderr = out, out
 		if err := cmd.Start(); err != nil {
@@ -59,9 +70,8 @@ func TestConcurrentProcesses(t *testing.T) {
 		}
 		children = append(children, child{cmd, out})
 	}
-	// Let them all go at once, so that they also race to create and migrate the file.
 	time.Sleep(200 * time.Millisecond)
-	if err := os.WriteFile(gate, nil, 0o644); err != nil {
+	if err := os.WriteFile(path+".go", nil, 0o644); err != nil {
 		t.Fatal(err)
 	}
 	for w, c := range children {
@@ -69,10 +79,6 @@ func TestConcurrentProcesses(t *testing.T) {
 			t.Errorf("child %d: %v\n%s", w, err, c.out.String())
 		}
 	}
-	if t.Failed() {
-		return
-	}
-	checkCertificates(t, path, procs*runsPerProc, procs*runsPerProc*totalReadings(makeRecord("x", "x", sequencer.Pass, concurrencyShape)))
 }
 
 func childRecordRuns(t *testing.T, path, worker string) {
@@ -235,31 +241,7 @@ func TestConcurrentProcessesChain(t *testing.T) {
 	}
 	start := time.Now()
 	path := filepath.Join(t.TempDir(), "ledger.db")
-	gate := path + ".go"
-	type child struct {
-		cmd *exec.Cmd
-		out *syncBuffer
-	}
-	var children []child
-	for w := range chainProcs {
-		cmd := exec.Command(os.Args[0], "-test.run=^TestConcurrentProcessesChain$", "-test.count=1", "-test.v")
-		cmd.Env = append(os.Environ(), envChainChildPath+"="+path, envChildWorker+"="+strconv.Itoa(w))
-		out := &syncBuffer{}
-		cmd.Stdout, cmd.Stderr = out, out
-		if err := cmd.Start(); err != nil {
-			t.Fatal(err)
-		}
-		children = append(children, child{cmd, out})
-	}
-	time.Sleep(200 * time.Millisecond)
-	if err := os.WriteFile(gate, nil, 0o644); err != nil {
-		t.Fatal(err)
-	}
-	for w, c := range children {
-		if err := c.cmd.Wait(); err != nil {
-			t.Errorf("child %d: %v\n%s", w, err, c.out.String())
-		}
-	}
+	runChildren(t, chainProcs, "TestConcurrentProcessesChain", envChainChildPath, path)
 	recorded := time.Since(start)
 	if t.Failed() {
 		return

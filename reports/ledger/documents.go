@@ -104,19 +104,14 @@ func (l *Ledger) AddSignedDocument(ctx context.Context, d Document) error {
 
 const documentColumns = `run_id, number, path, sha256, size, created_at, key_id, signature`
 
-func scanDocument(s interface{ Scan(...any) error }) (Document, error) {
+func scanDocument(s scanner) (Document, error) {
 	var d Document
 	var created string
 	if err := s.Scan(&d.RunID, &d.Number, &d.Path, &d.SHA256, &d.Size, &created, &d.KeyID, &d.Signature); err != nil {
 		return Document{}, err
 	}
-	t, err := parseTime(created)
-	if err != nil {
+	if err := stamped(created, &d.CreatedAt, &d.Signature); err != nil {
 		return Document{}, err
-	}
-	d.CreatedAt = t
-	if len(d.Signature) == 0 {
-		d.Signature = nil
 	}
 	return d, nil
 }
@@ -148,19 +143,8 @@ func (l *Ledger) DocumentsFor(ctx context.Context, number string) ([]Document, e
 			return err
 		}
 		rows, err := tx.QueryContext(ctx, `SELECT `+documentColumns+` FROM documents WHERE number = ? ORDER BY rowid`, number)
-		if err != nil {
-			return err
-		}
-		defer rows.Close()
-		out = []Document{}
-		for rows.Next() {
-			d, err := scanDocument(rows)
-			if err != nil {
-				return err
-			}
-			out = append(out, d)
-		}
-		return rows.Err()
+		out, err = collect(rows, err, scanDocument)
+		return err
 	})
 	if err != nil {
 		return nil, fmt.Errorf("ledger: documents of %s: %w", number, err)
@@ -178,7 +162,7 @@ type RunMeta struct {
 
 const runMetaColumns = `run_id, coalesce(certificate, ''), record_sha256, key_id, signature, chain_hash`
 
-func scanRunMeta(s interface{ Scan(...any) error }, extra ...any) (RunMeta, error) {
+func scanRunMeta(s scanner, extra ...any) (RunMeta, error) {
 	var m RunMeta
 	if err := s.Scan(append([]any{&m.RunID, &m.Certificate, &m.RecordSHA256, &m.KeyID, &m.Signature, &m.ChainHash}, extra...)...); err != nil {
 		return RunMeta{}, err
@@ -238,29 +222,11 @@ func (l *Ledger) MissingDocuments(ctx context.Context) ([]RunMeta, error) {
 			AND NOT EXISTS (SELECT 1 FROM documents d WHERE d.run_id = r.run_id)
 			AND NOT EXISTS (SELECT 1 FROM audit_trail a WHERE a.subject = r.certificate AND a.action = ?)
 		ORDER BY rowid`, ActionVoid)
-	out, err := collect(rows, err, func(r *sql.Rows) (RunMeta, error) { return scanRunMeta(r) })
+	out, err := collect(rows, err, func(r scanner) (RunMeta, error) { return scanRunMeta(r) })
 	if err != nil {
 		return nil, fmt.Errorf("ledger: missing documents: %w", err)
 	}
 	return out, nil
-}
-
-// collect scans every row of a query with scan and closes the rows; qerr is the
-// query's own error. It returns an empty, non-nil slice when there are no rows.
-func collect[T any](rows *sql.Rows, qerr error, scan func(*sql.Rows) (T, error)) ([]T, error) {
-	if qerr != nil {
-		return nil, qerr
-	}
-	defer rows.Close()
-	out := []T{}
-	for rows.Next() {
-		v, err := scan(rows)
-		if err != nil {
-			return nil, err
-		}
-		out = append(out, v)
-	}
-	return out, rows.Err()
 }
 
 // Blob returns the content of a file in force stored by RecordRunWith, by the

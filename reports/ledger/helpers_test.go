@@ -271,6 +271,25 @@ func openLedger(t testing.TB) (*ledger.Ledger, string) {
 	return l, path
 }
 
+// oldFile makes a ledger file at path as trimline's first versions did, foreign
+// keys and WAL on and only the schema_migrations table in it, and returns it open
+// with exec, which runs a statement and fails t if it fails. The caller closes db.
+func oldFile(t *testing.T, path string) (db *sql.DB, exec func(q string, args ...any)) {
+	t.Helper()
+	db, err := sql.Open("sqlite", "file:"+path+"?_pragma=foreign_keys(1)&_pragma=journal_mode(WAL)")
+	if err != nil {
+		t.Fatal(err)
+	}
+	exec = func(q string, args ...any) {
+		t.Helper()
+		if _, err := db.Exec(q, args...); err != nil {
+			t.Fatalf("%.60s: %v", q, err)
+		}
+	}
+	exec(`CREATE TABLE schema_migrations (version INTEGER PRIMARY KEY, name TEXT NOT NULL, applied_at TEXT NOT NULL) STRICT`)
+	return db, exec
+}
+
 // rawDB opens the ledger file directly, for looking at (or damaging) rows.
 func rawDB(t testing.TB, path string) *sql.DB {
 	t.Helper()

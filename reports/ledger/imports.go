@@ -11,6 +11,7 @@ import (
 	"strings"
 	"time"
 
+	"trimline/reports/signing"
 	"trimline/sequencer"
 )
 
@@ -59,7 +60,7 @@ type ImportedRun struct {
 	RecordJSON   []byte // the record's canonical JSON (Canonical), as the source kept it
 	RecordSHA256 string // lowercase hex SHA-256 of RecordJSON
 	// KeyID and Signature are the source's signature over
-	// SignedMessage(Number, RunID, RecordSHA256); both empty when unsigned. The
+	// signing.RecordMessage(Number, RunID, RecordSHA256); both empty when unsigned. The
 	// ledger stores them; the importer checks them (reports/bundle does).
 	KeyID     string
 	Signature []byte
@@ -295,20 +296,15 @@ func sameImport(a, b ImportedRun) bool {
 const importedColumns = `run_id, number, station, serial, record_sha256, key_id, signature,
 	coalesce(pdf_sha256, ''), coalesce(seal_sha256, ''), coalesce(public_key_sha256, ''), imported_at, imported_by, source`
 
-func scanImported(s interface{ Scan(...any) error }, extra ...any) (ImportedRun, error) {
+func scanImported(s scanner, extra ...any) (ImportedRun, error) {
 	var ir ImportedRun
 	var at string
 	if err := s.Scan(append([]any{&ir.RunID, &ir.Number, &ir.Station, &ir.Serial, &ir.RecordSHA256, &ir.KeyID, &ir.Signature,
 		&ir.PDFSHA256, &ir.SealSHA256, &ir.PublicKeySHA256, &at, &ir.ImportedBy, &ir.Source}, extra...)...); err != nil {
 		return ImportedRun{}, err
 	}
-	t, err := parseTime(at)
-	if err != nil {
+	if err := stamped(at, &ir.ImportedAt, &ir.Signature); err != nil {
 		return ImportedRun{}, err
-	}
-	ir.ImportedAt = t
-	if len(ir.Signature) == 0 {
-		ir.Signature = nil
 	}
 	return ir, nil
 }
@@ -354,7 +350,7 @@ func (l *Ledger) ImportedRunByID(ctx context.Context, runID string) (*sequencer.
 // none.
 func (l *Ledger) ImportedRuns(ctx context.Context) ([]ImportedRun, error) {
 	rows, err := l.db.QueryContext(ctx, `SELECT `+importedColumns+` FROM imported_runs ORDER BY rowid`)
-	out, err := collect(rows, err, func(r *sql.Rows) (ImportedRun, error) { return scanImported(r) })
+	out, err := collect(rows, err, func(r scanner) (ImportedRun, error) { return scanImported(r) })
 	if err != nil {
 		return nil, fmt.Errorf("ledger: imported runs: %w", err)
 	}
@@ -390,40 +386,27 @@ var importTriggers = []string{"imported_runs_no_update", "imported_runs_no_delet
 //  3. every imported run: record_json hashes to record_sha256, is a canonical
 //     record whose run id, serial and station are the row's, and has a number
 //     exactly if its verdict is PASS, FAIL or REVIEW; the signature (opts' Verify,
-//     over SignedMessage(number, run id, record SHA-256), and RequireSignatures);
+//     over signing.RecordMessage(number, run id, record SHA-256), and RequireSignatures);
 //     its import entry agrees with the row (time and importer included), and the
 //     blobs it names exist.
 //
 // It relies on VerifyChain for the audit trail's own hash chain and the blobs'
 // contents. A broken import is not an error: OK is false and the error nil.
 func (l *Ledger) VerifyImports(ctx context.Context, opts ...ChainOptions) (ImportReport, error) {
-	var opt ChainOptions
-	switch len(opts) {
-	case 0:
-	case 1:
-		opt = opts[0]
-	default:
-		return ImportReport{}, fmt.Errorf("ledger: verify imports: %d ChainOptions, want at most one: %w", len(opts), ErrInvalid)
+	opt, err := chainOption("verify imports", opts)
+	if err != nil {
+		return ImportReport{}, err
 	}
 	rep := ImportReport{OK: true}
 	broken := func(runID string, seq int64, format string, args ...any) error {
 		rep.OK, rep.BrokenAt, rep.BrokenAuditSeq, rep.Reason = false, runID, seq, fmt.Sprintf(format, args...)
 		return errBroken
 	}
-	err := l.readTx(ctx, func(tx *sql.Tx) error {
-		have := map[string]bool{}
-		if err := eachRow(ctx, tx, `SELECT name FROM sqlite_schema WHERE type = 'trigger'`, nil, func(rows *sql.Rows) error {
-			var name string
-			err := rows.Scan(&name)
-			have[name] = true
+	err = l.readTx(ctx, func(tx *sql.Tx) error {
+		if t, err := missingTrigger(ctx, tx, importTriggers); err != nil {
 			return err
-		}); err != nil {
-			return err
-		}
-		for _, t := range importTriggers {
-			if !have[t] {
-				return broken("", 0, "the append-only trigger %s is missing", t)
-			}
+		} else if t != "" {
+			return broken("", 0, "the append-only trigger %s is missing", t)
 		}
 
 		type entry struct {
@@ -453,13 +436,8 @@ func (l *Ledger) VerifyImports(ctx context.Context, opts ...ChainOptions) (Impor
 			return err
 		}
 
-		blobSet := map[string]bool{}
-		if err := eachRow(ctx, tx, `SELECT sha256 FROM blobs`, nil, func(rows *sql.Rows) error {
-			var s string
-			err := rows.Scan(&s)
-			blobSet[s] = true
-			return err
-		}); err != nil {
+		blobSet, err := stringSet(ctx, tx, `SELECT sha256 FROM blobs`)
+		if err != nil {
 			return err
 		}
 
@@ -501,7 +479,7 @@ func (l *Ledger) VerifyImports(ctx context.Context, opts ...ChainOptions) (Impor
 			} else {
 				rep.Signed++
 				if opt.Verify != nil {
-					if !opt.Verify(ir.KeyID, SignedMessage(ir.Number, ir.RunID, ir.RecordSHA256), ir.Signature) {
+					if !opt.Verify(ir.KeyID, signing.RecordMessage(ir.Number, ir.RunID, ir.RecordSHA256), ir.Signature) {
 						return fail("the signature of key %q does not verify", ir.KeyID)
 					}
 					rep.Verified++
@@ -548,19 +526,4 @@ func (l *Ledger) VerifyImports(ctx context.Context, opts ...ChainOptions) (Impor
 		return ImportReport{}, fmt.Errorf("ledger: verify imports: %w", err)
 	}
 	return rep, nil
-}
-
-// eachRow runs query in tx and calls f for every row.
-func eachRow(ctx context.Context, tx *sql.Tx, query string, args []any, f func(rows *sql.Rows) error) error {
-	rows, err := tx.QueryContext(ctx, query, args...)
-	if err != nil {
-		return err
-	}
-	defer rows.Close()
-	for rows.Next() {
-		if err := f(rows); err != nil {
-			return err
-		}
-	}
-	return rows.Err()
 }

@@ -6,7 +6,7 @@
 //
 // The ledger is tamper-evident and self-contained, for an auditor years later:
 //   - every run carries an optional signature (RecordOptions.Sign) over
-//     SignedMessage(certificate, run id, record SHA-256), and a link in a SHA-256
+//     signing.RecordMessage(certificate, run id, record SHA-256), and a link in a SHA-256
 //     hash chain of its station (RecordRunWith describes the chain line);
 //   - the exact bytes of the files in force are kept, content-addressed, in blobs;
 //   - an append-only audit trail, hash-chained too, says who did what when: every
@@ -302,7 +302,7 @@ type RecordOptions struct {
 	// Sign, if not nil, signs the run. It is called inside the write transaction,
 	// after the certificate number is allocated ("" for a FAULT or ABORTED run),
 	// with the run id and the record's SHA-256 (RecordSHA256), and must return the
-	// id of the key and a signature over SignedMessage(number, runID, recordSHA256).
+	// id of the key and a signature over signing.RecordMessage(number, runID, recordSHA256).
 	// The key id must be non-empty without control characters and the signature
 	// non-empty. An error from Sign (returned wrapped) rolls everything back, the
 	// number included. Other writers of the file wait while Sign runs (for at most
@@ -806,29 +806,25 @@ func (l *Ledger) runs(ctx context.Context, serial string, limit int) ([]RunSumma
 		args = append(args, limit)
 	}
 	rows, err := l.db.QueryContext(ctx, q, args...)
-	if err != nil {
-		return nil, fmt.Errorf("ledger: runs: %w", err)
-	}
-	defer rows.Close()
-	out := []RunSummary{}
-	for rows.Next() {
+	out, err := collect(rows, err, func(r scanner) (RunSummary, error) {
 		var s RunSummary
 		var verdict, started, finished string
 		var cert sql.NullString
-		if err := rows.Scan(&s.RunID, &s.Serial, &s.Product, &s.Revision, &s.Station, &verdict, &cert, &started, &finished); err != nil {
-			return nil, fmt.Errorf("ledger: runs: %w", err)
+		if err := r.Scan(&s.RunID, &s.Serial, &s.Product, &s.Revision, &s.Station, &verdict, &cert, &started, &finished); err != nil {
+			return s, err
 		}
 		s.Verdict = sequencer.Verdict(verdict)
 		s.Certificate = cert.String
+		var err error
 		if s.Started, err = parseTime(started); err != nil {
-			return nil, fmt.Errorf("ledger: runs: run %s: %w", s.RunID, err)
+			return s, fmt.Errorf("run %s: %w", s.RunID, err)
 		}
 		if s.Finished, err = parseTime(finished); err != nil {
-			return nil, fmt.Errorf("ledger: runs: run %s: %w", s.RunID, err)
+			return s, fmt.Errorf("run %s: %w", s.RunID, err)
 		}
-		out = append(out, s)
-	}
-	if err := rows.Err(); err != nil {
+		return s, nil
+	})
+	if err != nil {
 		return nil, fmt.Errorf("ledger: runs: %w", err)
 	}
 	return out, nil

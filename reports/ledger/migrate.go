@@ -139,7 +139,7 @@ func (l *Ledger) migrate(ctx context.Context) (err error) {
 		}
 	}()
 	for _, m := range migs {
-		err := connTx(ctx, conn, func(tx *sql.Tx) error {
+		err := runTx(ctx, conn, nil, func(tx *sql.Tx) error {
 			var n int
 			if err := tx.QueryRowContext(ctx, `SELECT count(*) FROM schema_migrations WHERE version = ?`, m.version).Scan(&n); err != nil {
 				return err
@@ -190,8 +190,15 @@ func foreignKeyCheck(ctx context.Context, tx *sql.Tx) error {
 	return rows.Err()
 }
 
-func connTx(ctx context.Context, conn *sql.Conn, f func(tx *sql.Tx) error) error {
-	tx, err := conn.BeginTx(ctx, nil)
+// beginner is a *sql.DB or a *sql.Conn.
+type beginner interface {
+	BeginTx(ctx context.Context, opts *sql.TxOptions) (*sql.Tx, error)
+}
+
+// runTx runs f in a transaction of b begun with opts and commits it when f
+// returns nil; otherwise (and on a panic) it rolls back and returns f's error.
+func runTx(ctx context.Context, b beginner, opts *sql.TxOptions, f func(tx *sql.Tx) error) error {
+	tx, err := b.BeginTx(ctx, opts)
 	if err != nil {
 		return err
 	}
@@ -228,38 +235,25 @@ func nameOf(known []migrationFile, v int) string {
 	return known[v-1].name
 }
 
+// inTx runs f in a write transaction (runTx).
 func (l *Ledger) inTx(ctx context.Context, f func(tx *sql.Tx) error) error {
-	tx, err := l.db.BeginTx(ctx, nil)
-	if err != nil {
-		return err
-	}
-	defer tx.Rollback()
-	if err := f(tx); err != nil {
-		return err
-	}
-	return tx.Commit()
+	return runTx(ctx, l.db, nil, f)
 }
 
 // Migrations returns the migrations applied to the ledger file, in version order.
 func (l *Ledger) Migrations(ctx context.Context) ([]Migration, error) {
 	rows, err := l.db.QueryContext(ctx, `SELECT version, name, applied_at FROM schema_migrations ORDER BY version`)
-	if err != nil {
-		return nil, fmt.Errorf("ledger: migrations: %w", err)
-	}
-	defer rows.Close()
-	out := []Migration{}
-	for rows.Next() {
+	out, err := collect(rows, err, func(r scanner) (Migration, error) {
 		var m Migration
 		var at string
-		if err := rows.Scan(&m.Version, &m.Name, &at); err != nil {
-			return nil, fmt.Errorf("ledger: migrations: %w", err)
+		if err := r.Scan(&m.Version, &m.Name, &at); err != nil {
+			return m, err
 		}
-		if m.AppliedAt, err = parseTime(at); err != nil {
-			return nil, fmt.Errorf("ledger: migrations: %w", err)
-		}
-		out = append(out, m)
-	}
-	if err := rows.Err(); err != nil {
+		var err error
+		m.AppliedAt, err = parseTime(at)
+		return m, err
+	})
+	if err != nil {
 		return nil, fmt.Errorf("ledger: migrations: %w", err)
 	}
 	return out, nil

@@ -26,18 +26,8 @@ func oldLedger(t *testing.T) (string, *sequencer.Record, *sequencer.Record) {
 		t.Fatal(err)
 	}
 	path := filepath.Join(t.TempDir(), "old.db")
-	db, err := sql.Open("sqlite", "file:"+path+"?_pragma=foreign_keys(1)&_pragma=journal_mode(WAL)")
-	if err != nil {
-		t.Fatal(err)
-	}
+	db, exec := oldFile(t, path)
 	defer db.Close()
-	exec := func(q string, args ...any) {
-		t.Helper()
-		if _, err := db.Exec(q, args...); err != nil {
-			t.Fatalf("%.60s: %v", q, err)
-		}
-	}
-	exec(`CREATE TABLE schema_migrations (version INTEGER PRIMARY KEY, name TEXT NOT NULL, applied_at TEXT NOT NULL) STRICT`)
 	exec(string(init))
 	exec(`INSERT INTO schema_migrations VALUES (1, 'init', '2025-01-02T03:04:05.000000000Z')`)
 

@@ -77,22 +77,6 @@ func ParseVerificationCode(s string) (string, error) {
 	return string(b[0:4]) + "-" + string(b[4:8]) + "-" + string(b[8:12]), nil
 }
 
-// PDFMessage is the exact message a PDF's signature covers:
-// "trimline-pdf-v1\n" + number + "\n" + lowercase hex SHA-256 of the PDF bytes.
-func PDFMessage(number string, pdf []byte) []byte {
-	sum := sha256.Sum256(pdf)
-	return []byte("trimline-pdf-v1\n" + number + "\n" + hex.EncodeToString(sum[:]))
-}
-
-// RecordMessage is the exact message a record signature covers:
-// "trimline-record-v1\n" + number + "\n" + runID + "\n" + recordSHA256, the last
-// being the lowercase hex SHA-256 of the record's canonical bytes as the ledger
-// keeps them (ledger.SignedMessage is the same layout). It binds the certificate
-// number and the run to the record, and through the record's hash to the unit.
-func RecordMessage(number, runID, recordSHA256 string) []byte {
-	return []byte("trimline-record-v1\n" + number + "\n" + runID + "\n" + recordSHA256)
-}
-
 // SealFormat is the Format of every seal this package writes.
 const SealFormat = "trimline-seal-v1"
 

@@ -15,6 +15,10 @@
 // alone an auditor can tell whether the PDF is the one the station issued
 // (Seal.VerifyPDF). The VerificationCode, derived from the record signature, is
 // printed on the certificate so that a person can quote it.
+//
+// This package is also the one owner of every signed message layout: the record
+// (RecordMessage), the document (PDFMessage) and a file's release
+// (ReleaseMessage). Whatever signs or verifies one of them builds it here.
 package signing
 
 import (

@@ -330,6 +330,17 @@ func TestMessages(t *testing.T) {
 	if got != "trimline-record-v1\nTL1-000001\nrun7\n00ff" {
 		t.Errorf("RecordMessage = %q", got)
 	}
+	// A release made at 10:41:55.1200 in UTC+1 is signed at its UTC time, with the
+	// fraction's trailing zeros dropped (time.RFC3339Nano).
+	at := time.Date(2026, 3, 14, 10, 41, 55, 120000000, time.FixedZone("CET", 3600))
+	got = string(signing.ReleaseMessage("00ff", "Dana Whitfield", "approved", at))
+	if got != "trimline-release-v1\n00ff\nDana Whitfield\napproved\n2026-03-14T09:41:55.12Z" {
+		t.Errorf("ReleaseMessage = %q", got)
+	}
+	got = string(signing.ReleaseMessage("", "", "", time.Date(2026, 1, 2, 3, 4, 5, 0, time.UTC)))
+	if got != "trimline-release-v1\n\n\n\n2026-01-02T03:04:05Z" {
+		t.Errorf("ReleaseMessage of empty fields = %q", got)
+	}
 }
 
 func sealFor(k *signing.Key, pdf []byte) signing.Seal {

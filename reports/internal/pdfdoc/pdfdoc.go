@@ -1,11 +1,18 @@
-// Package pdfdoc holds what trimline's PDF documents share: a reproducible A4
-// document with the Go fonts embedded (so µ, ±, °, Ω render), and round axis ticks
-// for plots.
+// Package pdfdoc is the small PDF toolkit trimline's documents (the certificate
+// and the what-if report) share: a reproducible A4 document with the Go fonts
+// embedded, so µ, ±, °, Ω render (New); colours, text styles and the drawing of
+// text, boxes and rules on a page with a cursor (Doc, draw.go); tables with
+// wrapped cells, group titles and bands that break across pages (Table,
+// table.go); and plot axes with round ticks (Axis, axis.go).
+//
+// Everything here draws through gofpdf in a fixed order, so the same calls give
+// the same bytes: the documents built on it stay byte-identical for identical
+// inputs. Nothing is safe for concurrent use except New; each document is drawn
+// by one goroutine.
 package pdfdoc
 
 import (
 	"bytes"
-	"math"
 	"time"
 
 	"github.com/jung-kurt/gofpdf"
@@ -55,66 +62,3 @@ func New(stamp time.Time, left, top, right float64) *gofpdf.Fpdf {
 	pdf.AddUTF8FontFromBytes(Mono, "", bytes.Clone(ttfMono))
 	return pdf
 }
-
-// NiceStep is the round step (1, 2, 2.5 or 5 times a power of ten) nearest to
-// span/n; 1 for an empty or non-finite span.
-func NiceStep(span float64, n int) float64 {
-	raw := span / float64(n)
-	if !(raw > 0) || math.IsInf(raw, 0) {
-		return 1
-	}
-	mag := math.Pow(10, math.Floor(math.Log10(raw)))
-	f := raw / mag
-	switch {
-	case f < 1.5:
-		f = 1
-	case f < 2.25:
-		f = 2
-	case f < 3.5:
-		f = 2.5
-	case f < 7.5:
-		f = 5
-	default:
-		f = 10
-	}
-	return f * mag
-}
-
-// Axis is a linear axis over [Lo, Hi] with round ticks inside it, Dec being the
-// decimals a tick label needs.
-type Axis struct {
-	Lo, Hi float64
-	Step   float64
-	Ticks  []float64
-	Dec    int
-}
-
-// NewAxis makes an axis over [lo, hi] with about n ticks (at most 40). A span
-// too small to show is widened around its value.
-func NewAxis(lo, hi float64, n int) Axis {
-	if hi < lo {
-		lo, hi = hi, lo
-	}
-	if hi-lo < 1e-12*math.Max(1, math.Abs(hi)) {
-		m := math.Max(math.Abs(hi)*0.5, 1)
-		lo, hi = lo-m, hi+m
-	}
-	a := Axis{Lo: lo, Hi: hi, Step: NiceStep(hi-lo, n)}
-	for k := math.Ceil(lo/a.Step - 1e-9); k*a.Step <= hi+1e-9*a.Step && len(a.Ticks) < 40; k++ {
-		v := k * a.Step
-		if math.Abs(v) < a.Step*1e-9 {
-			v = 0
-		}
-		a.Ticks = append(a.Ticks, v)
-	}
-	for a.Dec = 0; a.Dec < 9; a.Dec++ {
-		s := a.Step * math.Pow(10, float64(a.Dec))
-		if math.Abs(s-math.Round(s)) < 1e-6*s {
-			break
-		}
-	}
-	return a
-}
-
-// Pos maps v onto a length w from the axis start.
-func (a Axis) Pos(v, w float64) float64 { return (v - a.Lo) / (a.Hi - a.Lo) * w }

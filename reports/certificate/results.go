@@ -1,0 +1,253 @@
+package certificate
+
+import (
+	"sort"
+
+	"trimline/limits"
+	"trimline/reports/internal/pdfdoc"
+	"trimline/sequencer"
+)
+
+// verdictCell is a PASS/FAIL cell in its colour.
+func verdictCell(pass bool) pdfdoc.Cell {
+	if pass {
+		return c1("PASS", pdfdoc.Bold.With(pdfdoc.Pass))
+	}
+	return c1("FAIL", pdfdoc.Bold.With(pdfdoc.Fail))
+}
+
+// conditional reports whether a decision puts its result in a conditional zone
+// under a non-binary statement. (A binary statement may record a conditional zone,
+// but its verdict is plainly fail.)
+func conditional(d *limits.Decision) bool {
+	return d != nil && !d.Binary && (d.Zone == limits.ZoneConditionalPass || d.Zone == limits.ZoneConditionalFail)
+}
+
+// held reports whether a limit did not pass without having failed outright: a
+// conditional zone, or a pass held back by a low TUR, in a record the station sent
+// to review. (Outcome.Pass is false for both; the policy that made them review is
+// the limit file's, and the record's REVIEW verdict says it applied.)
+func (d *doc) held(o limits.Outcome) bool {
+	if o.Pass || o.Decision == nil || d.rec.Verdict != sequencer.Review {
+		return false
+	}
+	return conditional(o.Decision) || o.Decision.Zone == limits.ZonePass
+}
+
+// zoneCell is the decision cell of a toleranced limit: PASS and FAIL as for an
+// expression limit, the conditional zones in words in their colours, and under it
+// "held for review" where the record was sent to review.
+func (d *doc) zoneCell(o limits.Outcome) pdfdoc.Cell {
+	dd := o.Decision
+	var c pdfdoc.Cell
+	switch {
+	case dd.Binary && dd.Zone != limits.ZonePass && dd.Zone != limits.ZoneFail:
+		c = pdfdoc.Cell{{Text: "FAIL", St: pdfdoc.Bold.With(pdfdoc.Fail)}, {Text: dd.Zone + " zone, binary", St: pdfdoc.Small}}
+	case dd.Zone == limits.ZoneConditionalPass:
+		c = c1("conditional pass", pdfdoc.Bold.With(colCondPass))
+	case dd.Zone == limits.ZoneConditionalFail:
+		c = c1("conditional fail", pdfdoc.Bold.With(colCondFail))
+	case dd.Zone == limits.ZonePass && !o.Pass:
+		c = c1("PASS", pdfdoc.Bold.With(colCondPass)) // held back: see the reason
+	default:
+		c = verdictCell(o.Pass)
+	}
+	if d.held(o) {
+		c = append(c, pdfdoc.Span{Text: "held for review", St: pdfdoc.Small})
+	}
+	return c
+}
+
+// accepted reports whether a decision accepts its result (pass, or conditional pass
+// under a non-binary statement), so that a false accept is possible.
+func accepted(d *limits.Decision) bool {
+	return d.Zone == limits.ZonePass || d.Zone == limits.ZoneConditionalPass && !d.Binary
+}
+
+// stageTitle is the band title over the limits of a stage.
+func stageTitle(s stage) string {
+	switch s {
+	case stageFound:
+		return "As found: before adjustment (pre-trim sweep)"
+	case stageLeft:
+		return "As left: after adjustment (verify sweep)"
+	}
+	return "Adjustment and other checks"
+}
+
+// result returns the record's result of that name.
+func (d *doc) result(name string) (sequencer.Result, bool) {
+	for _, r := range d.rec.Results {
+		if r.Name == name {
+			return r, true
+		}
+	}
+	return sequencer.Result{}, false
+}
+
+// outcomesByStage returns the outcomes as found, then as left, then the others,
+// each group in file order.
+func (d *doc) outcomesByStage() []limits.Outcome {
+	out := append([]limits.Outcome(nil), d.rec.Outcomes...)
+	sort.SliceStable(out, func(i, j int) bool { return outcomeStage(out[i]) < outcomeStage(out[j]) })
+	return out
+}
+
+// measuredCell is the measured value of a limit with its expanded uncertainty and,
+// below it, the coverage factor, degrees of freedom and method (or "U not
+// evaluated"). A toleranced limit shows its decision's numbers; an expression limit
+// shows each result it uses, its U converted to the limit's unit.
+func (d *doc) measuredCell(o limits.Outcome) pdfdoc.Cell {
+	if dd := o.Decision; dd != nil {
+		v, ok := o.Values[dd.Result]
+		switch {
+		case !ok && len(o.Values) == 0:
+			return c1("not measured", pdfdoc.Body)
+		case ok && !finite(v), !finite(dd.Value):
+			return c1("not valid", pdfdoc.Body)
+		}
+		// The decision's dof is 0 for "infinite or unknown"; the result's own
+		// uncertainty tells them apart (math.Inf(1) for infinite).
+		r, _ := d.result(dd.Result)
+		dof := dd.DOF
+		if hasU(r.Unc.Expanded) && (dof == 0 || !finite(dof)) {
+			dof = r.Unc.DOF
+		}
+		sub := uncLine(dd.U, dd.K, dof, r.Unc.Method)
+		return pdfdoc.Cell{{Text: fmtWithU(dd.Value, dd.U, o.Unit), St: pdfdoc.Body}, {Text: sub, St: pdfdoc.Small}}
+	}
+	vals := outcomeValues(o) // the keys in order, for the "not measured" case
+	keys := outcomeKeys(o)
+	if len(keys) == 0 {
+		return c1(vals[0], pdfdoc.Body)
+	}
+	scale := unitScale(o.Unit)
+	var c pdfdoc.Cell
+	anyU := false
+	for _, k := range keys {
+		v := o.Values[k]
+		r, _ := d.result(k)
+		U := 0.0
+		if scale > 0 && hasU(r.Unc.Expanded) {
+			U = r.Unc.Expanded / scale
+		}
+		text := fmtWithU(v, U, o.Unit)
+		if len(keys) > 1 {
+			text = k + " = " + text
+		}
+		c = append(c, pdfdoc.Span{Text: text, St: pdfdoc.Body})
+		if hasU(U) && finite(v) {
+			anyU = true
+			c = append(c, pdfdoc.Span{Text: uncLine(U, r.Unc.K, r.Unc.DOF, r.Unc.Method), St: pdfdoc.Small})
+		}
+	}
+	if !anyU && !isCount(o.Unit) {
+		c = append(c, pdfdoc.Span{Text: "U not evaluated", St: pdfdoc.Small})
+	}
+	return c
+}
+
+// results is the table of every limit's outcome, as found before adjustment and
+// as left after it. Toleranced limits (with a decision) show the tolerance, the
+// acceptance interval, the zone, the TUR and the false-accept probability; limits
+// written as expressions show the expression.
+func (d *doc) results() {
+	outs := d.outcomesByStage()
+	decided := false
+	for _, o := range outs {
+		decided = decided || o.Decision != nil
+	}
+	cols := []pdfdoc.Column{
+		{Title: "Limit", W: 50, Align: "L"},
+		{Title: "Measured value ± U", W: 44, Align: "R"},
+		{Title: "Limit expression", W: 66, Align: "L", Gap: 4},
+		{Title: "Verdict", W: 20, Align: "C"},
+	}
+	if decided {
+		cols = []pdfdoc.Column{
+			{Title: "Limit", W: 51, Align: "L"},
+			{Title: "Measured value ± U", W: 36, Align: "R"},
+			{Title: "Tolerance · acceptance", W: 40, Align: "L", Gap: 3},
+			{Title: "Decision", W: 22, Align: "C"},
+			{Title: "TUR", W: 12, Align: "R"},
+			{Title: "PFA", W: 19, Align: "R"},
+		}
+	}
+	var rows []pdfdoc.Row
+	var bands []pdfdoc.Band
+	last := stage(-1)
+	turLow, exprs := false, false
+	for _, o := range outs {
+		if st := outcomeStage(o); st != last {
+			bands = append(bands, pdfdoc.Band{At: len(rows), Title: stageTitle(st)})
+			last = st
+		}
+		name := pdfdoc.Cell{{Text: o.Name, St: pdfdoc.Bold}}
+		if o.Description != "" {
+			name = append(name, pdfdoc.Span{Text: o.Description, St: pdfdoc.Small})
+		}
+		meas := d.measuredCell(o)
+		// An expression limit's reason says what was false; a toleranced limit's
+		// is in the reasons above and in its decision statement, and its zone is
+		// in the row, so it is not repeated here.
+		reason := func(c pdfdoc.Cell) pdfdoc.Cell {
+			if !o.Pass && o.Reason != "" {
+				c = append(c, pdfdoc.Span{Text: o.Reason, St: pdfdoc.Small.With(pdfdoc.Fail)})
+			}
+			return c
+		}
+		dd := o.Decision
+		switch {
+		case dd == nil:
+			exprs = true
+			mono := stMono
+			if decided {
+				mono = stMono.Sized(6.5) // a narrower column
+			}
+			expr := reason(pdfdoc.Cell{{Text: o.Expr, St: mono}})
+			if decided {
+				na := c1("—", pdfdoc.Small)
+				rows = append(rows, pdfdoc.Row{name, meas, expr, verdictCell(o.Pass), na, na})
+			} else {
+				rows = append(rows, pdfdoc.Row{name, meas, expr, verdictCell(o.Pass)})
+			}
+		default:
+			tol := pdfdoc.Cell{{Text: fmtTolerance(dd, o.Unit), St: pdfdoc.Body}}
+			switch {
+			case dd.Rule == "guarded" && (dd.AcceptLower != nil || dd.AcceptUpper != nil):
+				tol = append(tol, pdfdoc.Span{Text: "accept " + fmtAcceptance(dd, o.Unit), St: pdfdoc.Small})
+			case dd.Rule == "simple":
+				tol = append(tol, pdfdoc.Span{Text: "simple acceptance, w = 0", St: pdfdoc.Small})
+			case dd.Rule != "":
+				tol = append(tol, pdfdoc.Span{Text: "rule " + dd.Rule, St: pdfdoc.Small})
+			}
+			tur := c1(fmtTUR(dd.TUR), pdfdoc.Body)
+			if fmtTUR(dd.TUR) == "—" {
+				tur = c1("—", pdfdoc.Small)
+			}
+			if dd.TURLow {
+				tur = c1(fmtTUR(dd.TUR)+" ¹", pdfdoc.Bold.With(colCondPass))
+				turLow = true
+			}
+			pfa := c1("—", pdfdoc.Small)
+			if accepted(dd) && hasU(dd.U) && finite(dd.POutside) {
+				pfa = c1(fmtPercent(dd.POutside), pdfdoc.Body)
+			}
+			rows = append(rows, pdfdoc.Row{name, meas, tol, d.zoneCell(o), tur, pfa})
+		}
+	}
+	d.tableSection("Results against limits", cols, rows, bands)
+	if len(rows) == 0 {
+		return
+	}
+	if decided {
+		d.note("U: expanded uncertainty, k: coverage factor, νeff: effective degrees of freedom. TUR = tolerance width / 2U (“—” when one-sided or without U). " +
+			"PFA: probability that the true value lies outside the tolerance although the result was accepted.")
+	}
+	if turLow {
+		d.note("¹ Test uncertainty ratio below the minimum the limit file requires: the uncertainty is large against the tolerance.")
+	}
+	if exprs && !decided {
+		d.note("Each limit expression is written in the unit of its measured value.")
+	}
+}

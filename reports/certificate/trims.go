@@ -1,0 +1,53 @@
+package certificate
+
+import (
+	"math"
+	"strconv"
+
+	"trimline/reports/internal/pdfdoc"
+)
+
+// trims is the table of trim codes written to the unit.
+func (d *doc) trims() {
+	cols := []pdfdoc.Column{
+		{Title: "Trim DAC", W: 30, Align: "L"},
+		{Title: "Code before", W: 24, Align: "R"},
+		{Title: "Ideal (unrounded)", W: 30, Align: "R"},
+		{Title: "Written", W: 22, Align: "R"},
+		{Title: "Read back", W: 24, Align: "R"},
+		{Title: "Stored", W: 24, Align: "C"},
+		{Title: "Saturated", W: 26, Align: "C"},
+	}
+	var rows []pdfdoc.Row
+	for _, t := range d.rec.Trims {
+		ideal := "—"
+		if !math.IsNaN(t.Ideal) && !math.IsInf(t.Ideal, 0) {
+			ideal = strconv.FormatFloat(t.Ideal, 'f', 3, 64)
+		}
+		written := c1(strconv.Itoa(t.Code), pdfdoc.Bold)
+		rb := c1(strconv.Itoa(t.Readback), pdfdoc.Body)
+		switch {
+		case !t.Written && !t.Stored && t.Readback == 0:
+			// The run stopped before the code was written (a saturated trim, no fit):
+			// the unit still holds its code from before.
+			written = pdfdoc.Cell{{Text: "—", St: pdfdoc.Body}, {Text: "not written", St: pdfdoc.Small.With(pdfdoc.Muted)}}
+			rb = c1("—", pdfdoc.Body)
+		case t.Readback != t.Code:
+			rb = pdfdoc.Cell{{Text: strconv.Itoa(t.Readback), St: pdfdoc.Bold.With(pdfdoc.Fail)}, {Text: "differs from written", St: pdfdoc.Small.With(pdfdoc.Fail)}}
+		}
+		sat := c1("no", pdfdoc.Body)
+		if t.Saturated {
+			sat = c1("yes", pdfdoc.Bold.With(pdfdoc.Fail))
+		}
+		rows = append(rows, pdfdoc.Row{
+			c1(dash(t.DAC), pdfdoc.Bold),
+			c1(strconv.Itoa(t.Before), pdfdoc.Body),
+			c1(ideal, pdfdoc.Body),
+			written,
+			rb,
+			c1(yesNo(t.Stored), pdfdoc.Body),
+			sat,
+		})
+	}
+	d.tableSection("Trim codes written", cols, rows, nil)
+}
