@@ -89,26 +89,30 @@ func outcomeVerdict(o *Outcome, pol Policy) string {
 
 // verdict is the verdict on one toleranced result. Judge sets Outcome.Pass to
 // verdict == VerdictPass, so Pass and Overall never disagree.
-func verdict(d *Decision, pol Policy) string {
+func verdict(d *Decision, pol Policy) string { return verdictOf(d.Zone, d.Binary, d.TURLow, pol) }
+
+// verdictOf is the verdict on a result in zone under binary or non-binary
+// statements, with a TUR below the minimum or not.
+func verdictOf(zone string, binary, turLow bool, pol Policy) string {
 	v := VerdictFail
 	switch {
-	case d.Zone == ZonePass:
+	case zone == ZonePass:
 		v = VerdictPass
-	case d.Binary:
+	case binary:
 		v = VerdictFail
-	case d.Zone == ZoneConditionalPass:
+	case zone == ZoneConditionalPass:
 		switch pol.ConditionalPass {
 		case "ship":
 			v = VerdictPass
 		case "review":
 			v = VerdictReview
 		}
-	case d.Zone == ZoneConditionalFail:
+	case zone == ZoneConditionalFail:
 		if pol.ConditionalFail == "review" {
 			v = VerdictReview
 		}
 	}
-	if v == VerdictPass && d.TURLow && pol.TURPolicy == "refuse" {
+	if v == VerdictPass && turLow && pol.TURPolicy == "refuse" {
 		v = VerdictReview
 	}
 	return v

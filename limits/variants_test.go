@@ -270,8 +270,8 @@ func TestVariantJudge(t *testing.T) {
 					}
 				}
 			}
-			if got := c.set.JudgeLite(tc.unit, nil); got != c.want {
-				t.Errorf("%s under %q: JudgeLite %s, want %s", tc.what, c.set.VariantName, got, c.want)
+			if got := c.set.Verdicts(tc.unit, nil); got != c.want {
+				t.Errorf("%s under %q: Verdicts %s, want %s", tc.what, c.set.VariantName, got, c.want)
 			}
 		}
 	}

@@ -101,7 +101,7 @@ type Bound struct {
 	Lower, Upper *float64
 }
 
-// WhatIf re-judges stored units with the new set (JudgeLite, the same verdicts as
+// WhatIf re-judges stored units with the new set (Verdicts, the same verdicts as
 // Judge and Overall) and reports what would change: the units judged, the yield
 // before (the recorded OldVerdict) and after, every unit whose verdict flips, how
 // many units each new limit fails or sends to review, and for every result bounded
@@ -152,7 +152,7 @@ func WhatIf(old, new *Set, units []StoredUnit) WhatIfReport {
 				continue
 			}
 			u := &units[i]
-			verdicts[i] = uint8(rank(new.JudgeLite(u.Values, vs)))
+			verdicts[i] = uint8(rank(new.Verdicts(u.Values, vs)))
 			for j, v := range vs {
 				switch v {
 				case VerdictFail:
@@ -305,7 +305,7 @@ func notPassing(s *Set, vals map[string]Value) []string {
 		return nil
 	}
 	vs := make([]string, len(s.Limits))
-	s.JudgeLite(vals, vs)
+	s.Verdicts(vals, vs)
 	var out []string
 	for j, v := range vs {
 		if v != VerdictPass {

@@ -54,7 +54,7 @@ func genValues(r *rand.Rand) map[string]limits.Value {
 }
 
 // genUnits makes n stored units judged by old (Judge and Overall when full, else
-// JudgeLite, for speed); every 97th is of another product.
+// Verdicts, for speed); every 97th is of another product.
 func genUnits(old *limits.Set, n int, seed uint64, full bool) []limits.StoredUnit {
 	r := rand.New(rand.NewPCG(seed, 1))
 	t0 := time.Date(2025, 3, 1, 6, 0, 0, 0, time.UTC)
@@ -66,7 +66,7 @@ func genUnits(old *limits.Set, n int, seed uint64, full bool) []limits.StoredUni
 		if full {
 			u.OldVerdict = old.Overall(old.Judge(vals))
 		} else {
-			u.OldVerdict = old.JudgeLite(vals, nil)
+			u.OldVerdict = old.Verdicts(vals, nil)
 		}
 		if i%97 == 96 {
 			u.Product = "BRX-100"
@@ -76,11 +76,11 @@ func genUnits(old *limits.Set, n int, seed uint64, full bool) []limits.StoredUni
 	return us
 }
 
-// TestJudgeLiteMatchesJudge: JudgeLite gives, limit by limit and overall, the
+// TestVerdictsMatchesJudge: Verdicts gives, limit by limit and overall, the
 // verdicts Overall gives for Judge's outcomes, on generated units and on edge cases
 // (invalid values, unusable uncertainties, values on the limits) under several
 // policies.
-func TestJudgeLiteMatchesJudge(t *testing.T) {
+func TestVerdictsMatchesJudge(t *testing.T) {
 	old, new := loadPair(t)
 	refuse := setOf(t, offsetLimit("offset", "uV", "tolerance: {lower: -50, upper: 50}", "rule: guarded", "statements: non-binary")+
 		"decision: {tur_policy: refuse, conditional_pass: ship, conditional_fail: review}\n")
@@ -109,18 +109,18 @@ func TestJudgeLiteMatchesJudge(t *testing.T) {
 		for ci, c := range cases {
 			outs := s.Judge(c)
 			want := s.Overall(outs)
-			if got := s.JudgeLite(c, vs); got != want {
-				t.Fatalf("set %d case %d: JudgeLite = %s, Overall(Judge) = %s (contract)", si, ci, got, want)
+			if got := s.Verdicts(c, vs); got != want {
+				t.Fatalf("set %d case %d: Verdicts = %s, Overall(Judge) = %s (contract)", si, ci, got, want)
 			}
 			for j, o := range outs {
 				if w := s.Overall([]limits.Outcome{o}); vs[j] != w {
-					t.Fatalf("set %d case %d limit %q: JudgeLite %s, Judge %s (%s) (contract)", si, ci, o.Name, vs[j], w, o.Reason)
+					t.Fatalf("set %d case %d limit %q: Verdicts %s, Judge %s (%s) (contract)", si, ci, o.Name, vs[j], w, o.Reason)
 				}
 			}
 		}
 	}
-	if got := new.JudgeLite(cases[0], nil); got != new.Overall(new.Judge(cases[0])) {
-		t.Errorf("JudgeLite with nil verdicts = %s", got)
+	if got := new.Verdicts(cases[0], nil); got != new.Overall(new.Judge(cases[0])) {
+		t.Errorf("Verdicts with nil verdicts = %s", got)
 	}
 }
 
@@ -300,9 +300,9 @@ func BenchmarkWhatIf100k(b *testing.B) {
 	}
 }
 
-// BenchmarkJudgeLite judges the unit of BenchmarkJudgeToleranced with JudgeLite:
+// BenchmarkVerdicts judges the unit of BenchmarkJudgeToleranced with Verdicts:
 // the same verdicts without statements, reasons or probabilities.
-func BenchmarkJudgeLite(b *testing.B) {
+func BenchmarkVerdicts(b *testing.B) {
 	set, err := limits.LoadFile("../sequences/brx200-limits.yaml", catalog)
 	if err != nil {
 		b.Fatal(detail(err))
@@ -323,7 +323,7 @@ func BenchmarkJudgeLite(b *testing.B) {
 	vs := make([]string, len(set.Limits))
 	b.ReportAllocs()
 	for b.Loop() {
-		if set.JudgeLite(r, vs) != limits.VerdictPass {
+		if set.Verdicts(r, vs) != limits.VerdictPass {
 			b.Fatal("demo unit did not pass")
 		}
 	}

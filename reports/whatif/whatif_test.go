@@ -67,7 +67,7 @@ func genUnits(old *limits.Set, n int, seed uint64) []limits.StoredUnit {
 		vals := genValues(r)
 		u := limits.StoredUnit{Serial: fmt.Sprintf("BRX%07d", i), RunID: fmt.Sprintf("run-%d", i),
 			Finished: t0.Add(time.Duration(i) * 40 * time.Second), Product: "BRX-200", Values: vals,
-			OldVerdict: old.JudgeLite(vals, nil)}
+			OldVerdict: old.Verdicts(vals, nil)}
 		if i%97 == 96 {
 			u.Product = "BRX-100"
 		}
