@@ -37,7 +37,7 @@ func (l *Limit) decide(o *Outcome, x float64, v Value, pol Policy) {
 		d.Upper, d.AcceptUpper = ptr(*t.Upper), ptr(r.acceptUpper)
 	}
 	if un.evaluated {
-		d.Std, d.U, d.K, d.DOF = un.u, un.U, un.k, un.dof
+		d.Std, d.U, d.K, d.DOF = un.u, un.U, un.k, DegreesOfFreedom(un.dof)
 	} else {
 		d.GuardFactor = 0 // nothing to guard with
 	}
@@ -143,7 +143,7 @@ func pOutside(x float64, d *Decision, un unc) float64 {
 		return 1
 	}
 	var p float64
-	if un.dof == 0 {
+	if math.IsInf(un.dof, 1) {
 		s := un.u * math.Sqrt2
 		if d.Lower != nil {
 			p += 0.5 * math.Erfc((x-*d.Lower)/s)
@@ -165,7 +165,7 @@ func pOutside(x float64, d *Decision, un unc) float64 {
 
 // coverageFactor is the two-sided coverage factor for coverage probability p:
 // the (1+p)/2 quantile of Student's t with dof degrees of freedom, or of the normal
-// distribution when dof is 0 (infinite).
+// distribution when dof is infinite.
 //
 // The t quantile costs some microseconds, so factors are remembered, up to
 // kCacheMax distinct (p, dof) pairs (a station has a few; fractional
@@ -177,7 +177,7 @@ func coverageFactor(p, dof float64) float64 {
 	}
 	q := (1 + p) / 2
 	var k float64
-	if dof == 0 {
+	if math.IsInf(dof, 1) {
 		k = distuv.UnitNormal.Quantile(q)
 	} else {
 		k = distuv.StudentsT{Mu: 0, Sigma: 1, Nu: dof}.Quantile(q)
@@ -246,10 +246,10 @@ func (l *Limit) statement(d *Decision, un unc, pol Policy, v string) string {
 		fmt.Fprintf(&b, ": measured %s", q(d.Value))
 	case d.Rule == RuleSimple:
 		fmt.Fprintf(&b, "Simple acceptance, w = 0 (ILAC-G8:09/2019 §4.2.1): measured %s with U = %s (k = %.2f%s)",
-			q(d.Value), qu(d.U), d.K, dofText(d.DOF))
+			q(d.Value), qu(d.U), d.K, dofText(float64(d.DOF)))
 	default:
 		fmt.Fprintf(&b, "Guarded acceptance, w = %s·U = %s (ILAC-G8:09/2019 %s): measured %s with U = %s (k = %.2f%s)",
-			fmtNum(d.GuardFactor), qu(d.Guard), section(d), q(d.Value), qu(d.U), d.K, dofText(d.DOF))
+			fmtNum(d.GuardFactor), qu(d.Guard), section(d), q(d.Value), qu(d.U), d.K, dofText(float64(d.DOF)))
 	}
 	b.WriteString(" lies ")
 	b.WriteString(l.where(d, q))
@@ -288,7 +288,7 @@ func (l *Limit) statement(d *Decision, un unc, pol Policy, v string) string {
 }
 
 func dofText(dof float64) string {
-	if dof == 0 {
+	if math.IsInf(dof, 1) {
 		return ""
 	}
 	return ", ν = " + fmtNum(dof)

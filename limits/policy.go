@@ -218,7 +218,7 @@ func (s *Set) PredictTUR(unc map[string]Value) []TURCheck {
 type unc struct {
 	evaluated bool    // U or Std given
 	u, U, k   float64 // standard, expanded at the set's coverage, coverage factor
-	dof       float64 // 0 = infinite (normal distribution)
+	dof       float64 // math.Inf(1) = infinite (normal distribution)
 	k95       float64 // coverage factor for 95 % with dof
 }
 
@@ -242,8 +242,8 @@ func (l *Limit) uncertainty(v Value, p float64) (unc, string) {
 		return unc{}, fmt.Sprintf("degrees of freedom %v is not a number ≥ 0", v.DOF)
 	}
 	dof := v.DOF
-	if math.IsInf(dof, 1) || dof > 1e7 {
-		dof = 0
+	if dof == 0 || dof > 1e7 {
+		dof = math.Inf(1)
 	}
 	var r unc
 	r.dof = dof
