@@ -107,14 +107,15 @@ type Distribution struct {
 }
 
 // Rejudge re-judges stored units with the new set (limits.Set.Verdicts, the same
-// verdicts as Judge and Overall) and reports what would change: the units judged, the yield
-// before (the recorded OldVerdict) and after, every unit whose verdict flips, how
-// many units each new limit fails or sends to review, and for every result bounded
-// by a toleranced limit (or an expression read as bounds, as Diff does) in either
-// set, a histogram of its values with the old and new bounds. Units whose Product
-// is set and differs from the new set's (ignoring case) are skipped. old may be
-// nil; it supplies the old bounds and the failing limits of units that flip to
-// pass. The work is spread over GOMAXPROCS goroutines.
+// verdicts as Judge and Overall) and reports what would change: the units judged,
+// the yield before (the recorded OldVerdict) and after, every unit whose verdict
+// flips, how many units each new limit fails or sends to review, and for every
+// result bounded by a toleranced limit (or an expression read as bounds, as
+// limits.Diff does) in either set, a histogram of its values with the old and new
+// bounds. Units whose Product is set and differs from the new set's (ignoring
+// case) are skipped. old may be nil; it supplies the old bounds and the failing
+// limits of units that flip to pass. The work is spread over GOMAXPROCS
+// goroutines.
 func Rejudge(old, new *limits.Set, units []StoredUnit) Report {
 	rep := Report{Old: old.Label(), New: new.Label()}
 	if new == nil {
