@@ -1,11 +1,11 @@
 package limits_test
 
 import (
-	"math"
 	"os"
 	"testing"
 
 	"trimline/limits"
+	"trimline/limits/limitstest"
 )
 
 // BenchmarkJudge judges one unit against the 8-limit demo set (good.yaml).
@@ -43,19 +43,7 @@ func BenchmarkJudgeToleranced(b *testing.B) {
 	if err != nil {
 		b.Fatal(detail(err))
 	}
-	inf := math.Inf(1)
-	r := map[string]limits.Value{
-		"pre_offset":        {V: 3.1e-3, Valid: true, U: 20e-6, K: 2, DOF: inf},
-		"pre_gain_error":    {V: 0.013, Valid: true, U: 50e-6, K: 2, DOF: inf},
-		"pre_nonlinearity":  {V: 0.001, Valid: true},
-		"offset_code":       {V: 512, Valid: true},
-		"gain_code":         {V: 2048, Valid: true},
-		"post_offset":       {V: 1.23e-5, Valid: true, U: 8e-6, K: 2, DOF: inf},
-		"post_gain_error":   {V: 12e-6, Valid: true, U: 6e-6, DOF: 12},
-		"post_nonlinearity": {V: 5e-5, Valid: true, U: 5e-6, DOF: 12},
-		"post_max_error":    {V: 1.2e-4, Valid: true, U: 30e-6, DOF: 12},
-		"post_noise":        {V: 8e-6, Valid: true, Std: 1e-6, DOF: 12},
-	}
+	r := limitstest.Passing()
 	if outs := set.Judge(r); set.Overall(outs) != limits.VerdictPass {
 		for _, o := range outs {
 			b.Log(o.Name, o.Reason)
@@ -66,6 +54,23 @@ func BenchmarkJudgeToleranced(b *testing.B) {
 	for b.Loop() {
 		if outs := set.Judge(r); !limits.Passed(outs) {
 			b.Fatal("demo unit failed")
+		}
+	}
+}
+
+// BenchmarkVerdicts judges the unit of BenchmarkJudgeToleranced with Verdicts:
+// the same verdicts without statements, reasons or probabilities.
+func BenchmarkVerdicts(b *testing.B) {
+	set, err := limits.LoadFile("../sequences/brx200-limits.yaml", catalog)
+	if err != nil {
+		b.Fatal(detail(err))
+	}
+	r := limitstest.Passing()
+	vs := make([]string, len(set.Limits))
+	b.ReportAllocs()
+	for b.Loop() {
+		if set.Verdicts(r, vs) != limits.VerdictPass {
+			b.Fatal("demo unit did not pass")
 		}
 	}
 }

@@ -238,3 +238,41 @@ func fmtSpan(l *Limit, s span) string {
 	}
 	return strings.TrimSpace(t + " " + u)
 }
+
+// Bound is what one limit accepts of one result, read as bounds in SI units: a
+// toleranced limit's tolerance, or an expression read as bounds as Diff reads it.
+type Bound struct {
+	Limit, Result string
+	Unit          string   // the limit's unit, for display
+	Lower, Upper  *float64 // SI; nil = unbounded on that side
+}
+
+// Bounds lists, in file order, the limits of s that can be read as bounds on
+// exactly one result, with those bounds.
+func (s *Set) Bounds() []Bound {
+	if s == nil {
+		return nil
+	}
+	var out []Bound
+	for _, l := range s.Limits {
+		b := l.box()
+		if !b.ok || len(b.names) != 1 {
+			continue
+		}
+		r := b.names[0]
+		lo, hi := b.spans[r].ptrs()
+		out = append(out, Bound{Limit: l.Name, Result: r, Unit: l.Unit, Lower: lo, Upper: hi})
+	}
+	return out
+}
+
+// InUnit converts v (SI) to unit the way a limit written in that unit sees it: a
+// decimal shift for powers of ten, so 1.23e-5 V is exactly 12.3 uV. An unknown
+// unit leaves v as it is.
+func InUnit(v float64, unit string) float64 {
+	l := unitLimit(unit)
+	if l == nil {
+		return v
+	}
+	return l.inUnit(v)
+}

@@ -9,86 +9,123 @@ import (
 	"sync/atomic"
 
 	"gonum.org/v1/gonum/stat/distuv"
+
+	"trimline/instruments/units"
 )
 
 // decide judges a toleranced limit's one result x (already checked to be a finite
 // number, in the limit's unit) with its uncertainty, filling o's Pass, Reason and
 // Decision.
 func (l *Limit) decide(o *Outcome, x float64, v Value, pol Policy) {
-	t := l.Tolerance
-	un, why := l.uncertainty(v, pol.Coverage)
-	if why != "" {
-		o.Reason = fmt.Sprintf("result %s has no usable uncertainty: %s", l.Uses[0], why)
+	r := l.rule(x, v, pol)
+	switch r.why {
+	case "":
+	case whyTooLarge:
+		o.Reason = fmt.Sprintf("result %s has no usable uncertainty: U = %g %s is too large to judge with", l.Uses[0], r.un.U, l.Unit)
+		return
+	default:
+		o.Reason = fmt.Sprintf("result %s has no usable uncertainty: %s", l.Uses[0], r.why)
 		return
 	}
-	d := &Decision{Result: l.Uses[0], Rule: t.Rule, GuardFactor: t.GuardFactor, Value: x, Binary: t.Binary}
+	t, un := l.Tolerance, r.un
+	d := &Decision{Result: l.Uses[0], Rule: r.rule, GuardFactor: t.GuardFactor, Guard: r.guard, Value: x,
+		Binary: t.Binary, Zone: r.zone, TUR: r.tur, TURLow: r.turLow}
 	if t.Lower != nil {
-		d.Lower = ptr(*t.Lower)
+		d.Lower, d.AcceptLower = ptr(*t.Lower), ptr(r.acceptLower)
 	}
 	if t.Upper != nil {
-		d.Upper = ptr(*t.Upper)
+		d.Upper, d.AcceptUpper = ptr(*t.Upper), ptr(r.acceptUpper)
 	}
 	if un.evaluated {
-		d.Std, d.U, d.K, d.DOF = un.u, un.U, un.k, un.dof
+		d.Std, d.U, d.K, d.DOF = un.u, un.U, un.k, DegreesOfFreedom(un.dof)
 	} else {
-		d.Rule, d.GuardFactor = RuleSimple, 0 // nothing to guard with
+		d.GuardFactor = 0 // nothing to guard with
 	}
-	if d.Rule == RuleGuarded {
-		d.Guard = d.GuardFactor * d.U
-	}
-	if d.Lower != nil {
-		d.AcceptLower = ptr(*d.Lower + d.Guard)
-	}
-	if d.Upper != nil {
-		d.AcceptUpper = ptr(*d.Upper - d.Guard)
-	}
-	if !finite(d.Guard, d.AcceptLower, d.AcceptUpper) {
-		o.Reason = fmt.Sprintf("result %s has no usable uncertainty: U = %g %s is too large to judge with", l.Uses[0], d.U, l.Unit)
-		return
-	}
-	d.Zone = zone(x, d)
 	d.POutside = pOutside(x, d, un)
-	if un.evaluated && d.Lower != nil && d.Upper != nil {
-		d.TUR = tur(*d.Lower, *d.Upper, un)
-		d.TURLow = turLow(d.TUR, pol.MinTUR)
-	}
-	v2 := verdict(d, pol)
-	o.Pass = v2 == VerdictPass
+	o.Pass = r.verdict == VerdictPass
 	o.Decision = d
-	d.Statement = l.statement(d, un, pol, v2)
+	d.Statement = l.statement(d, un, pol, r.verdict)
 	if !o.Pass {
-		o.Reason = l.reason(d, pol, v2)
+		o.Reason = l.reason(d, pol, r.verdict)
 	}
 }
+
+// ruling is the decision rule applied to one toleranced result: the numbers a
+// Decision records, without the words and the probability.
+type ruling struct {
+	un                       unc
+	why                      string  // non-empty: the uncertainty is unusable and the limit fails
+	rule                     string  // the rule applied: the limit's, or RuleSimple without an uncertainty
+	guard                    float64 // w
+	acceptLower, acceptUpper float64 // acceptance limits; ∓Inf where the tolerance is open
+	zone                     string
+	tur                      float64 // 0 when one-sided or U unknown
+	turLow                   bool
+	verdict                  string
+}
+
+// whyTooLarge is ruling.why when the guard band or an acceptance limit is not a
+// finite number.
+const whyTooLarge = "U too large"
+
+// rule applies the decision rule to a toleranced limit's result x (in the limit's
+// unit) with v's uncertainty: guard band, acceptance limits, zone of ILAC-G8:09/2019
+// §4.2.3, TUR and the verdict. Judge (through decide) and Verdicts both judge with
+// it; it allocates nothing.
+func (l *Limit) rule(x float64, v Value, pol Policy) ruling {
+	t := l.Tolerance
+	var r ruling
+	if r.un, r.why = l.uncertainty(v, pol.Coverage); r.why != "" {
+		r.verdict = VerdictFail
+		return r
+	}
+	lo, hi := math.Inf(-1), math.Inf(1)
+	if t.Lower != nil {
+		lo = *t.Lower
+	}
+	if t.Upper != nil {
+		hi = *t.Upper
+	}
+	r.rule = t.Rule
+	if !r.un.evaluated {
+		r.rule = RuleSimple
+	}
+	if r.rule == RuleGuarded {
+		r.guard = t.GuardFactor * r.un.U
+	}
+	r.acceptLower, r.acceptUpper = lo+r.guard, hi-r.guard
+	if math.IsInf(r.guard, 0) || math.IsNaN(r.guard) ||
+		t.Lower != nil && !isFinite(r.acceptLower) || t.Upper != nil && !isFinite(r.acceptUpper) {
+		r.why, r.verdict = whyTooLarge, VerdictFail
+		return r
+	}
+	r.zone = zone(x, lo, hi, r.acceptLower, r.acceptUpper, r.guard)
+	if r.un.evaluated && t.Lower != nil && t.Upper != nil {
+		r.tur = tur(lo, hi, r.un)
+		r.turLow = turLow(r.tur, pol.MinTUR)
+	}
+	r.verdict = verdictOf(r.zone, t.Binary, r.turLow, pol)
+	return r
+}
+
+func isFinite(v float64) bool { return !math.IsInf(v, 0) && !math.IsNaN(v) }
 
 func ptr(v float64) *float64 { return &v }
 
-// finite reports whether w and the limits that are set are finite numbers.
-func finite(w float64, lims ...*float64) bool {
-	if math.IsInf(w, 0) || math.IsNaN(w) {
-		return false
-	}
-	for _, p := range lims {
-		if p != nil && (math.IsInf(*p, 0) || math.IsNaN(*p)) {
-			return false
-		}
-	}
-	return true
-}
-
-// zone places x in the zones of ILAC-G8:09/2019 §4.2.3: pass inside the acceptance
-// interval (its limits included), conditional pass inside the tolerance (its limits
-// included) but outside the acceptance interval, conditional fail outside the
-// tolerance by at most w, fail beyond.
-func zone(x float64, d *Decision) string {
-	inAccept := (d.AcceptLower == nil || x >= *d.AcceptLower) && (d.AcceptUpper == nil || x <= *d.AcceptUpper)
-	inTol := (d.Lower == nil || x >= *d.Lower) && (d.Upper == nil || x <= *d.Upper)
+// zone places x (a finite number) in the zones of ILAC-G8:09/2019 §4.2.3: pass
+// inside the acceptance interval alo … ahi (its limits included), conditional pass
+// inside the tolerance lo … hi (its limits included) but outside the acceptance
+// interval, conditional fail outside the tolerance by at most w, fail beyond. A
+// side without a limit is −Inf or +Inf.
+func zone(x, lo, hi, alo, ahi, w float64) string {
+	inAccept := x >= alo && x <= ahi
+	inTol := x >= lo && x <= hi
 	switch {
 	case inAccept && inTol: // inTol matters only when the acceptance interval is empty
 		return ZonePass
 	case inTol:
 		return ZoneConditionalPass
-	case (d.Lower == nil || x >= *d.Lower-d.Guard) && (d.Upper == nil || x <= *d.Upper+d.Guard):
+	case x >= lo-w && x <= hi+w:
 		return ZoneConditionalFail
 	}
 	return ZoneFail
@@ -106,7 +143,7 @@ func pOutside(x float64, d *Decision, un unc) float64 {
 		return 1
 	}
 	var p float64
-	if un.dof == 0 {
+	if math.IsInf(un.dof, 1) {
 		s := un.u * math.Sqrt2
 		if d.Lower != nil {
 			p += 0.5 * math.Erfc((x-*d.Lower)/s)
@@ -128,7 +165,7 @@ func pOutside(x float64, d *Decision, un unc) float64 {
 
 // coverageFactor is the two-sided coverage factor for coverage probability p:
 // the (1+p)/2 quantile of Student's t with dof degrees of freedom, or of the normal
-// distribution when dof is 0 (infinite).
+// distribution when dof is infinite.
 //
 // The t quantile costs some microseconds, so factors are remembered, up to
 // kCacheMax distinct (p, dof) pairs (a station has a few; fractional
@@ -140,7 +177,7 @@ func coverageFactor(p, dof float64) float64 {
 	}
 	q := (1 + p) / 2
 	var k float64
-	if dof == 0 {
+	if math.IsInf(dof, 1) {
 		k = distuv.UnitNormal.Quantile(q)
 	} else {
 		k = distuv.StudentsT{Mu: 0, Sigma: 1, Nu: dof}.Quantile(q)
@@ -209,10 +246,10 @@ func (l *Limit) statement(d *Decision, un unc, pol Policy, v string) string {
 		fmt.Fprintf(&b, ": measured %s", q(d.Value))
 	case d.Rule == RuleSimple:
 		fmt.Fprintf(&b, "Simple acceptance, w = 0 (ILAC-G8:09/2019 §4.2.1): measured %s with U = %s (k = %.2f%s)",
-			q(d.Value), qu(d.U), d.K, dofText(d.DOF))
+			q(d.Value), qu(d.U), d.K, dofText(float64(d.DOF)))
 	default:
 		fmt.Fprintf(&b, "Guarded acceptance, w = %s·U = %s (ILAC-G8:09/2019 %s): measured %s with U = %s (k = %.2f%s)",
-			fmtNum(d.GuardFactor), qu(d.Guard), section(d), q(d.Value), qu(d.U), d.K, dofText(d.DOF))
+			fmtNum(d.GuardFactor), qu(d.Guard), section(d), q(d.Value), qu(d.U), d.K, dofText(float64(d.DOF)))
 	}
 	b.WriteString(" lies ")
 	b.WriteString(l.where(d, q))
@@ -251,7 +288,7 @@ func (l *Limit) statement(d *Decision, un unc, pol Policy, v string) string {
 }
 
 func dofText(dof float64) string {
-	if dof == 0 {
+	if math.IsInf(dof, 1) {
 		return ""
 	}
 	return ", ν = " + fmtNum(dof)
@@ -323,51 +360,14 @@ func (l *Limit) reason(d *Decision, pol Policy, v string) string {
 }
 
 // dispUnit writes the micro prefix as µ for statements ("uV" → "µV").
-func dispUnit(u string) string {
-	if len(u) > 1 && u[0] == 'u' {
-		return "µ" + u[1:]
-	}
-	return u
-}
+func dispUnit(u string) string { return units.Display(u) }
 
 // fmtNum writes v with up to 6 significant digits, no exponent for ordinary sizes,
 // and a real minus sign.
-func fmtNum(v float64) string { return fmtSig(v, 6) }
+func fmtNum(v float64) string { return units.FormatSig(v, 6) }
 
 // fmtSig writes v with up to sig significant digits (trailing zeros dropped).
-func fmtSig(v float64, sig int) string {
-	var s string
-	if a := math.Abs(v); a == 0 || (a >= 1e-4 && a < 1e9) {
-		dec := 0
-		if a != 0 {
-			dec = max(0, sig-1-int(math.Floor(math.Log10(a))))
-		}
-		s = strconv.FormatFloat(v, 'f', dec, 64)
-		if strings.Contains(s, ".") {
-			s = strings.TrimRight(strings.TrimRight(s, "0"), ".")
-		}
-	} else {
-		s = strconv.FormatFloat(v, 'g', sig, 64)
-	}
-	if s == "-0" {
-		s = "0"
-	}
-	return strings.Replace(s, "-", "−", 1)
-}
+func fmtSig(v float64, sig int) string { return units.FormatSig(v, sig) }
 
 // fmtPct writes a probability as a percentage with three significant digits.
-func fmtPct(p float64) string {
-	v := p * 100
-	switch {
-	case v == 0:
-		return "0 %"
-	case v < 1e-4:
-		return "< 0.0001 %"
-	}
-	dec := max(0, 2-int(math.Floor(math.Log10(v))))
-	s := strconv.FormatFloat(v, 'f', dec, 64)
-	if strings.Contains(s, ".") {
-		s = strings.TrimRight(strings.TrimRight(s, "0"), ".")
-	}
-	return s + " %"
-}
+func fmtPct(p float64) string { return units.FormatPercent(p) }

@@ -379,8 +379,8 @@ func TestTURReexpansion(t *testing.T) {
 	// Standard uncertainty only: U = k·u at 95.45 % (k = 2.000 normal), u = 4 µV.
 	r["post_offset"] = limits.Value{V: 0, Valid: true, Std: 4e-6}
 	d = find(t, set.Judge(r), "offset two-sided").Decision
-	if !within(d.U, 8, 1e-4) || !within(d.K, 2, 1e-4) || d.Std != 4 || d.DOF != 0 {
-		t.Errorf("from u = 4 µV: U %v k %v u %v dof %v, want U ≈ 8, k ≈ 2.000 (JCGM 100 Table G.1), dof 0 (infinite)", d.U, d.K, d.Std, d.DOF)
+	if !within(d.U, 8, 1e-4) || !within(d.K, 2, 1e-4) || d.Std != 4 || !math.IsInf(float64(d.DOF), 1) {
+		t.Errorf("from u = 4 µV: U %v k %v u %v dof %v, want U ≈ 8, k ≈ 2.000 (JCGM 100 Table G.1), dof +Inf (infinite)", d.U, d.K, d.Std, d.DOF)
 	}
 	// TURLow: ±50 µV with U95 = 15 µV is 3.33:1, below 4:1 (hand-worked).
 	r["post_offset"] = limits.Value{V: 0, Valid: true, U: 15e-6 * 2 / k95, K: 2}
@@ -533,14 +533,16 @@ func TestTolerancedNeverPassesBadNumbers(t *testing.T) {
 			t.Errorf("%s: Overall %q, want fail", tc.name, set.Overall(outs))
 		}
 	}
-	// Infinite dof is recorded as 0 so the record encodes.
+	// Infinite dof (+Inf in memory, as everywhere) is recorded as 0 so the record
+	// encodes.
 	outs := set.Judge(tolResults(0, 0, 2048))
 	for _, o := range outs {
-		if _, err := json.Marshal(o); err != nil {
+		b, err := json.Marshal(o)
+		if err != nil {
 			t.Errorf("%s: %v", o.Name, err)
 		}
-		if o.Decision != nil && o.Decision.DOF != 0 {
-			t.Errorf("%s: DOF %v, want 0 for infinite", o.Name, o.Decision.DOF)
+		if o.Decision != nil && (!math.IsInf(float64(o.Decision.DOF), 1) || !strings.Contains(string(b), `"dof":0,`)) {
+			t.Errorf("%s: DOF %v, want 0 for infinite in %s", o.Name, o.Decision.DOF, b)
 		}
 	}
 }

@@ -65,41 +65,20 @@ var vms = sync.Pool{New: func() any { return new(vm.VM) }}
 func (l *Limit) judge(results map[string]Value, pol Policy) Outcome {
 	o := Outcome{Name: l.Name, Description: l.Description, Expr: l.Expr, Unit: l.Unit,
 		Uses: append([]string(nil), l.Uses...), Values: make(map[string]float64, len(l.Uses))}
-	env := make(map[string]any, len(l.Uses))
 	var bad []string
 	for _, n := range l.Uses {
-		why := ""
-		r, ok := results[n]
-		switch {
-		case !ok:
-			why = "no such result was produced"
-		case !r.Valid && r.Why != "":
-			why = r.Why
-		case !r.Valid:
-			why = "flagged invalid"
-		case math.IsNaN(r.V):
-			why = "it is NaN"
-		case math.IsInf(r.V, 0):
-			why = fmt.Sprintf("it is %v", r.V)
-		}
-		var v float64
-		if why == "" {
-			if v = l.inUnit(r.V); math.IsInf(v, 0) || math.IsNaN(v) {
-				why = fmt.Sprintf("%g is out of range in %s", r.V, l.Unit)
-			}
-		}
+		v, why := l.value(results, n)
 		if why != "" {
 			bad = append(bad, fmt.Sprintf("result %s is not a valid number: %s", n, why))
 			continue
 		}
 		o.Values[n] = v
-		env[n] = v
 	}
 	if len(bad) > 0 {
 		o.Reason = strings.Join(bad, "; ")
 		return o
 	}
-	if l.Tolerance != nil && len(l.Uses) == 1 {
+	if l.toleranced() {
 		l.decide(&o, o.Values[l.Uses[0]], results[l.Uses[0]], pol)
 		return o
 	}
@@ -107,9 +86,7 @@ func (l *Limit) judge(results map[string]Value, pol Policy) Outcome {
 		o.Reason = "limit was not compiled by Load"
 		return o
 	}
-	m := vms.Get().(*vm.VM)
-	out, err := m.Run(l.prog, env)
-	vms.Put(m)
+	out, err := l.run(results)
 	if err != nil {
 		msg := err.Error()
 		var fe *file.Error
@@ -137,6 +114,53 @@ func (l *Limit) judge(results map[string]Value, pol Policy) Outcome {
 	}
 	o.Reason = fmt.Sprintf("%s is false with %s", oneLine(l.Expr), strings.Join(parts, ", "))
 	return o
+}
+
+// toleranced reports whether l is judged under the decision rule (a tolerance on
+// one result) rather than by its expression.
+func (l *Limit) toleranced() bool { return l.Tolerance != nil && len(l.Uses) == 1 }
+
+// value returns result n in the limit's unit, or why it cannot be judged: it is
+// missing, flagged invalid, not a finite number, or not finite once scaled.
+func (l *Limit) value(results map[string]Value, n string) (float64, string) {
+	r, ok := results[n]
+	switch {
+	case !ok:
+		return 0, "no such result was produced"
+	case !r.Valid && r.Why != "":
+		return 0, r.Why
+	case !r.Valid:
+		return 0, "flagged invalid"
+	case math.IsNaN(r.V):
+		return 0, "it is NaN"
+	case math.IsInf(r.V, 0):
+		return 0, fmt.Sprintf("it is %v", r.V)
+	}
+	v := l.inUnit(r.V)
+	if math.IsInf(v, 0) || math.IsNaN(v) {
+		return 0, fmt.Sprintf("%g is out of range in %s", r.V, l.Unit)
+	}
+	return v, ""
+}
+
+// envs holds expression environments for reuse, so that running an expression
+// allocates no map.
+var envs = sync.Pool{New: func() any { return make(map[string]any, 4) }}
+
+// run runs l's compiled expression on results that value has accepted, each in
+// the limit's unit.
+func (l *Limit) run(results map[string]Value) (any, error) {
+	env := envs.Get().(map[string]any)
+	clear(env)
+	for _, n := range l.Uses {
+		env[n] = l.inUnit(results[n].V)
+	}
+	m := vms.Get().(*vm.VM)
+	out, err := m.Run(l.prog, env)
+	vms.Put(m)
+	clear(env)
+	envs.Put(env)
+	return out, err
 }
 
 // inUnit converts v (SI) to the limit's unit. When the unit is a power of ten of

@@ -127,16 +127,7 @@ func Lint(name string, data []byte, cat Catalog, opt LintOptions) []Finding {
 			out = append(out, vt.out...)
 		}
 	}
-	sort.SliceStable(out, func(a, b int) bool {
-		fa, fb := out[a], out[b]
-		if (fa.Line == 0) != (fb.Line == 0) {
-			return fb.Line == 0
-		}
-		if fa.Line != fb.Line {
-			return fa.Line < fb.Line
-		}
-		return fa.Col < fb.Col
-	})
+	files.SortByPosition(out, func(f Finding) (string, int, int) { return f.File, f.Line, f.Col })
 	return out
 }
 

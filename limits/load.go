@@ -16,7 +16,6 @@ import (
 	"github.com/expr-lang/expr/file"
 	"github.com/expr-lang/expr/vm"
 	"github.com/goccy/go-yaml/ast"
-	"github.com/goccy/go-yaml/parser"
 
 	"trimline/instruments/files"
 	"trimline/instruments/units"
@@ -122,12 +121,8 @@ func load(name string, data []byte, cat Catalog) (*Set, files.List, *files.Doc) 
 	sum := sha256.Sum256(data)
 	l := &loader{doc: doc, cat: cat}
 	l.src = splitRunes(data)
-	var f *ast.File
-	if yamlSafely(name, func() (err error) { f, err = parser.ParseBytes(data, 0); return err }) == nil {
-		l.ast = f
-		l.root = rootMapping(f)
-	}
-	if l.ast != nil && len(l.ast.Docs) > 1 {
+	l.ast, l.root = doc.File(), doc.Root()
+	if len(l.ast.Docs) > 1 {
 		l.errs = append(l.errs, doc.At(1, 1, "expected one YAML document in a limit file, found %d", len(l.ast.Docs)))
 	}
 	l.funcOpts = funcOptions()
@@ -820,16 +815,7 @@ func (l *loader) sorted() files.List {
 		seen[k] = true
 		out = append(out, e)
 	}
-	sort.SliceStable(out, func(a, b int) bool {
-		ea, eb := out[a], out[b]
-		if (ea.Line == 0) != (eb.Line == 0) {
-			return eb.Line == 0
-		}
-		if ea.Line != eb.Line {
-			return ea.Line < eb.Line
-		}
-		return ea.Col < eb.Col
-	})
+	out.Sort()
 	return out
 }
 
@@ -847,13 +833,6 @@ func splitRunes(data []byte) [][]rune {
 		out[i] = []rune(s)
 	}
 	return out
-}
-
-func rootMapping(f *ast.File) *ast.MappingNode {
-	if len(f.Docs) == 0 || f.Docs[0] == nil {
-		return nil
-	}
-	return asMapping(f.Docs[0].Body)
 }
 
 func asMapping(n ast.Node) *ast.MappingNode {

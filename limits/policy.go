@@ -102,26 +102,30 @@ func outcomeVerdict(o *Outcome, pol Policy) string {
 
 // verdict is the verdict on one toleranced result. Judge sets Outcome.Pass to
 // verdict == VerdictPass, so Pass and Overall never disagree.
-func verdict(d *Decision, pol Policy) string {
+func verdict(d *Decision, pol Policy) string { return verdictOf(d.Zone, d.Binary, d.TURLow, pol) }
+
+// verdictOf is the verdict on a result in zone under binary or non-binary
+// statements, with a TUR below the minimum or not.
+func verdictOf(zone string, binary, turLow bool, pol Policy) string {
 	v := VerdictFail
 	switch {
-	case d.Zone == ZonePass:
+	case zone == ZonePass:
 		v = VerdictPass
-	case d.Binary:
+	case binary:
 		v = VerdictFail
-	case d.Zone == ZoneConditionalPass:
+	case zone == ZoneConditionalPass:
 		switch pol.ConditionalPass {
 		case ShipConditional:
 			v = VerdictPass
 		case VerdictReview:
 			v = VerdictReview
 		}
-	case d.Zone == ZoneConditionalFail:
+	case zone == ZoneConditionalFail:
 		if pol.ConditionalFail == VerdictReview {
 			v = VerdictReview
 		}
 	}
-	if v == VerdictPass && d.TURLow && pol.TURPolicy == TURRefuse {
+	if v == VerdictPass && turLow && pol.TURPolicy == TURRefuse {
 		v = VerdictReview
 	}
 	return v
@@ -227,7 +231,7 @@ func (s *Set) PredictTUR(unc map[string]Value) []TURCheck {
 type unc struct {
 	evaluated bool    // U or Std given
 	u, U, k   float64 // standard, expanded at the set's coverage, coverage factor
-	dof       float64 // 0 = infinite (normal distribution)
+	dof       float64 // math.Inf(1) = infinite (normal distribution)
 	k95       float64 // coverage factor for 95 % with dof
 }
 
@@ -251,8 +255,8 @@ func (l *Limit) uncertainty(v Value, p float64) (unc, string) {
 		return unc{}, fmt.Sprintf("degrees of freedom %v is not a number ≥ 0", v.DOF)
 	}
 	dof := v.DOF
-	if math.IsInf(dof, 1) || dof > 1e7 {
-		dof = 0
+	if dof == 0 || dof > 1e7 {
+		dof = math.Inf(1)
 	}
 	var r unc
 	r.dof = dof

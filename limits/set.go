@@ -73,3 +73,22 @@ func (l *Limit) setScale(scale float64) {
 		}
 	}
 }
+
+// Label names the set for a person: its name, revision, variant and file
+// ("BRX-200 end-of-line limits rev 6 variant grade-H (limits.yaml)"); "" for nil.
+func (s *Set) Label() string {
+	if s == nil {
+		return ""
+	}
+	l := s.Name
+	if s.Revision != "" {
+		l += " rev " + s.Revision
+	}
+	if s.VariantName != "" {
+		l += " variant " + s.VariantName
+	}
+	if s.File != "" {
+		l += " (" + s.File + ")"
+	}
+	return l
+}

@@ -20,7 +20,12 @@
 // Set.Variant and Set.VariantFor return a variant's effective set.
 package limits
 
-import "trimline/instruments/units"
+import (
+	"encoding/json"
+	"math"
+
+	"trimline/instruments/units"
+)
 
 // Catalog lists the result names the engine produces and the dimension of each
 // (units.Volt, units.Ratio, units.Count). A limit may only use names in the catalog.
@@ -34,7 +39,7 @@ type Value struct {
 	Why   string
 	// Uncertainty of V in SI units: standard u, expanded U at the limit set's
 	// coverage probability with coverage factor K, and effective dof (math.Inf(1)
-	// for infinite). All zero means "not evaluated": a toleranced limit then judges
+	// for infinite; 0, not given, is read as infinite too). All zero means "not evaluated": a toleranced limit then judges
 	// by simple acceptance and says so in its statement.
 	Std, U, K, DOF float64
 }
@@ -63,23 +68,73 @@ const (
 // Decision is the decision-rule evaluation of one toleranced limit. Every number is
 // in the limit's unit.
 type Decision struct {
-	Result      string   `json:"result"`
-	Lower       *float64 `json:"lower,omitempty"` // tolerance limits TL; nil = unbounded on that side
-	Upper       *float64 `json:"upper,omitempty"`
-	Rule        string   `json:"rule"`                   // "simple" (w = 0) or "guarded" (w = r·U)
-	GuardFactor float64  `json:"guard_factor"`           // r
-	Guard       float64  `json:"guard"`                  // w
-	AcceptLower *float64 `json:"accept_lower,omitempty"` // acceptance limits AL = TL ± w
-	AcceptUpper *float64 `json:"accept_upper,omitempty"`
-	Value       float64  `json:"value"`
-	Std         float64  `json:"u"`         // standard uncertainty; 0 with U and K when not evaluated
-	U           float64  `json:"U"`         // expanded uncertainty at the set's coverage
-	K           float64  `json:"k"`         // coverage factor of U
-	DOF         float64  `json:"dof"`       // effective degrees of freedom; 0 = infinite or unknown (normal distribution), so the record encodes as JSON
-	Binary      bool     `json:"binary"`    // binary statement (pass/fail) or non-binary (four zones)
-	Zone        string   `json:"zone"`      // one of the Zone constants
-	POutside    float64  `json:"p_outside"` // probability that the true value lies outside the tolerance; for an accepted result the specific false-accept probability
-	TUR         float64  `json:"tur"`       // (upper − lower)/(2·U95); 0 when one-sided or U unknown
-	TURLow      bool     `json:"tur_low"`   // below the set's minimum TUR
-	Statement   string   `json:"statement"` // the decision rule and its outcome in words
+	Result      string           `json:"result"`
+	Lower       *float64         `json:"lower,omitempty"` // tolerance limits TL; nil = unbounded on that side
+	Upper       *float64         `json:"upper,omitempty"`
+	Rule        string           `json:"rule"`                   // "simple" (w = 0) or "guarded" (w = r·U)
+	GuardFactor float64          `json:"guard_factor"`           // r
+	Guard       float64          `json:"guard"`                  // w
+	AcceptLower *float64         `json:"accept_lower,omitempty"` // acceptance limits AL = TL ± w
+	AcceptUpper *float64         `json:"accept_upper,omitempty"`
+	Value       float64          `json:"value"`
+	Std         float64          `json:"u"`         // standard uncertainty; 0 with U and K when not evaluated
+	U           float64          `json:"U"`         // expanded uncertainty at the set's coverage
+	K           float64          `json:"k"`         // coverage factor of U
+	DOF         DegreesOfFreedom `json:"dof"`       // effective degrees of freedom; +Inf = infinite (normal distribution), written 0 in JSON
+	Binary      bool             `json:"binary"`    // binary statement (pass/fail) or non-binary (four zones)
+	Zone        string           `json:"zone"`      // one of the Zone constants
+	POutside    float64          `json:"p_outside"` // probability that the true value lies outside the tolerance; for an accepted result the specific false-accept probability
+	TUR         float64          `json:"tur"`       // (upper − lower)/(2·U95); 0 when one-sided or U unknown
+	TURLow      bool             `json:"tur_low"`   // below the set's minimum TUR
+	Statement   string           `json:"statement"` // the decision rule and its outcome in words
+}
+
+// DegreesOfFreedom is the effective degrees of freedom of an uncertainty:
+// math.Inf(1) for infinite, as everywhere in trimline. JSON has no infinity, so in
+// JSON an infinite value is written 0 (no finite dof is 0) and 0 is read back as
+// infinite; a record's JSON is the same as when the decision kept 0 in memory.
+// NaN and −Inf, which the judge never produces, are written as the ledger's
+// canonical JSON writes them ("NaN", "-Infinity") and read back.
+type DegreesOfFreedom float64
+
+// MarshalJSON writes the number as json.Marshal writes a float64, 0 for +Inf.
+func (d DegreesOfFreedom) MarshalJSON() ([]byte, error) {
+	v := float64(d)
+	switch {
+	case math.IsInf(v, 1):
+		return []byte("0"), nil
+	case math.IsInf(v, -1):
+		return []byte(`"-Infinity"`), nil
+	case math.IsNaN(v):
+		return []byte(`"NaN"`), nil
+	}
+	return json.Marshal(v)
+}
+
+// UnmarshalJSON reads a number, 0 as +Inf, or the strings "NaN", "Infinity" and
+// "-Infinity".
+func (d *DegreesOfFreedom) UnmarshalJSON(b []byte) error {
+	var s string
+	if json.Unmarshal(b, &s) == nil {
+		switch s {
+		case "NaN":
+			*d = DegreesOfFreedom(math.NaN())
+			return nil
+		case "Infinity":
+			*d = DegreesOfFreedom(math.Inf(1))
+			return nil
+		case "-Infinity":
+			*d = DegreesOfFreedom(math.Inf(-1))
+			return nil
+		}
+	}
+	var v float64
+	if err := json.Unmarshal(b, &v); err != nil {
+		return err
+	}
+	if v == 0 {
+		v = math.Inf(1)
+	}
+	*d = DegreesOfFreedom(v)
+	return nil
 }

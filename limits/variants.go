@@ -121,9 +121,9 @@ func (s *Set) Variant(name string) (*Set, error) {
 		}
 	}
 	if len(known) == 0 {
-		return nil, fmt.Errorf("limit set %s has no variant %q: the file defines no variants", setLabel(base), name)
+		return nil, fmt.Errorf("limit set %s has no variant %q: the file defines no variants", base.Label(), name)
 	}
-	return nil, fmt.Errorf("limit set %s has no variant %q (known: %s)", setLabel(base), name, strings.Join(known, ", "))
+	return nil, fmt.Errorf("limit set %s has no variant %q (known: %s)", base.Label(), name, strings.Join(known, ", "))
 }
 
 // VariantFor returns the effective set of the variant whose revisions list the

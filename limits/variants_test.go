@@ -270,8 +270,8 @@ func TestVariantJudge(t *testing.T) {
 					}
 				}
 			}
-			if got := c.set.JudgeLite(tc.unit, nil); got != c.want {
-				t.Errorf("%s under %q: JudgeLite %s, want %s", tc.what, c.set.VariantName, got, c.want)
+			if got := c.set.Verdicts(tc.unit, nil); got != c.want {
+				t.Errorf("%s under %q: Verdicts %s, want %s", tc.what, c.set.VariantName, got, c.want)
 			}
 		}
 	}
@@ -307,7 +307,8 @@ func TestVariantDiff(t *testing.T) {
 	if cs := limits.Diff(h, h); len(cs) != 0 {
 		t.Errorf("Diff of a variant with itself = %v, want none", cs)
 	}
-	rep := limits.WhatIf(set, h, nil)
+	// The what-if report (reports/whatif) labels its two sets with Label.
+	rep := struct{ Old, New string }{set.Label(), h.Label()}
 	if !strings.Contains(rep.New, "variant grade-H") || strings.Contains(rep.Old, "variant grade") {
 		t.Errorf("WhatIf labels %q → %q, want the new one to name the variant", rep.Old, rep.New)
 	}

@@ -319,7 +319,7 @@ func ParseSequence(name string, data []byte, read func(path string) ([]byte, err
 		}
 	}
 	if len(errs) > 0 {
-		sortErrs(errs)
+		errs.Sort()
 		return nil, errs
 	}
 	s.LimitsFile = limitsFileRef(s.Limits)

@@ -288,7 +288,7 @@ func ParseStation(name string, data []byte) (*Station, error) {
 		st.OutputFolder = filepath.Join(filepath.Dir(name), st.OutputFolder)
 	}
 	if len(errs) > 0 {
-		sortErrs(errs)
+		errs.Sort()
 		return nil, errs
 	}
 	return st, nil
@@ -327,16 +327,4 @@ func lastPart(path string) string {
 func hashHex(b []byte) string {
 	h := sha256.Sum256(b)
 	return hex.EncodeToString(h[:])
-}
-
-func sortErrs(l files.List) {
-	sort.SliceStable(l, func(i, j int) bool {
-		if l[i].File != l[j].File {
-			return l[i].File < l[j].File
-		}
-		if l[i].Line != l[j].Line {
-			return l[i].Line < l[j].Line
-		}
-		return l[i].Col < l[j].Col
-	})
 }

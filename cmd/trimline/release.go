@@ -7,13 +7,13 @@ import (
 	"encoding/base64"
 	"encoding/hex"
 	"encoding/json"
+	"errors"
 	"fmt"
 	"os"
 	"path/filepath"
 	"strings"
 	"time"
 
-	"trimline/limits"
 	"trimline/reports/ledger"
 	"trimline/reports/signing"
 	"trimline/reports/whatif"
@@ -224,75 +224,19 @@ func limitsWhatIf(ctx context.Context, args []string) error {
 		}
 		*d.t = v.AddDate(0, 0, d.add)
 	}
-	led, err := ledger.Open(ctx, *ledgerPath)
-	if err != nil {
-		return stationErr(err)
-	}
-	defer led.Close()
-	runs, err := led.Runs(ctx, "")
-	if err != nil {
-		return stationErr(err)
-	}
-	var units []limits.StoredUnit
-	var old *limits.Set
+	req := whatif.Request{Ledger: *ledgerPath, New: nw, Product: *product, Since: from, Until: to,
+		PDF: *pdfPath, Generated: time.Now()}
 	if *oldPath != "" {
-		if old, err = loadLimitSet(*oldPath); err != nil {
+		if req.Old, err = loadLimitSet(*oldPath); err != nil {
 			return err
 		}
 	}
-	for _, r := range runs {
-		if (!from.IsZero() && r.Finished.Before(from)) || (!to.IsZero() && !r.Finished.Before(to)) {
-			continue
-		}
-		if *product != "" && !strings.EqualFold(r.Product, *product) {
-			continue
-		}
-		var verdict string
-		switch r.Verdict {
-		case sequencer.Pass:
-			verdict = limits.VerdictPass
-		case sequencer.Review:
-			verdict = limits.VerdictReview
-		case sequencer.Fail:
-			verdict = limits.VerdictFail
-		default:
-			continue // faulted and aborted runs were never judged
-		}
-		rec, err := led.Run(ctx, r.RunID)
-		if err != nil {
-			return stationErr(err)
-		}
-		if rec.Engineering {
-			continue // engineering runs never shipped; they say nothing about yield
-		}
-		if old == nil {
-			// Runs are newest first: the first one's limit file is the one in force.
-			for _, f := range rec.Files {
-				if f.Kind != "limits" {
-					continue
-				}
-				if b, err := led.Blob(ctx, f.SHA256); err == nil {
-					old, _ = limits.Load(f.Name, b, sequencer.ResultCatalog)
-				}
-			}
-		}
-		u := limits.StoredUnit{Serial: rec.Serial, RunID: rec.RunID, Finished: rec.Finished, Product: rec.Product,
-			OldVerdict: verdict, Values: map[string]limits.Value{}}
-		for _, res := range rec.Results {
-			u.Values[res.Name] = limits.Value{V: res.Value, Valid: res.Valid, Why: res.Note,
-				Std: res.Unc.Std, U: res.Unc.Expanded, K: res.Unc.K, DOF: res.Unc.DOF}
-		}
-		units = append(units, u)
+	if _, err := whatif.Run(ctx, req, stdoutW); errors.Is(err, whatif.ErrNoRuns) {
+		return badInput(err)
+	} else if err != nil {
+		return stationErr(err)
 	}
-	if len(units) == 0 {
-		return badInput(fmt.Errorf("no judged runs in %s match", *ledgerPath))
-	}
-	rep := limits.WhatIf(old, nw, units)
-	rep.WriteText(stdoutW)
 	if *pdfPath != "" {
-		if err := whatif.WriteFile(*pdfPath, rep, time.Now()); err != nil {
-			return stationErr(err)
-		}
 		fmt.Fprintf(stdoutW, "\nreport with plots: %s\n", *pdfPath)
 	}
 	return nil

@@ -5,8 +5,10 @@
 package files
 
 import (
+	"cmp"
 	"errors"
 	"fmt"
+	"slices"
 	"strings"
 
 	"github.com/goccy/go-yaml"
@@ -52,6 +54,36 @@ func (l List) Error() string {
 	return strings.Join(s, "\n")
 }
 
+// Sort orders the problems as a person reads them: by file name, then by line and
+// column, a problem without a position (line 0) after the positioned ones of its
+// file. Problems at one position keep their order. Every loader sorts with it.
+func (l List) Sort() {
+	SortByPosition(l, func(e *Error) (string, int, int) { return e.File, e.Line, e.Col })
+}
+
+// SortByPosition sorts s stably in the order of List.Sort, pos giving each
+// element's file, line and column: for problems kept in a type of their own (lint
+// findings).
+func SortByPosition[T any](s []T, pos func(T) (file string, line, col int)) {
+	slices.SortStableFunc(s, func(a, b T) int {
+		fa, la, ca := pos(a)
+		fb, lb, cb := pos(b)
+		if c := strings.Compare(fa, fb); c != 0 {
+			return c
+		}
+		if (la == 0) != (lb == 0) {
+			if la == 0 {
+				return 1
+			}
+			return -1
+		}
+		if c := cmp.Compare(la, lb); c != 0 {
+			return c
+		}
+		return cmp.Compare(ca, cb)
+	})
+}
+
 // Errs returns every *Error inside err (a List, a single *Error or a wrapped one).
 func Errs(err error) []*Error {
 	var l List
@@ -86,11 +118,39 @@ func Parse(name string, data []byte) (doc *Doc, err error) {
 }
 
 // Decode decodes the document into v strictly. Problems come back as *Error.
+//
+// A file of one document whose top is a mapping (every trimline file) is decoded
+// from the tree Parse built; anything else is decoded from Data as the YAML
+// library would, so that empty and multi-document files behave as they always did.
 func (d *Doc) Decode(v any) (err error) {
 	defer recoverYAML(d.Name, &err)
-	err = yaml.UnmarshalWithOptions(d.Data, v, yaml.Strict())
+	if m := d.Root(); m != nil && len(d.ast.Docs) == 1 {
+		err = yaml.NodeToValue(d.ast.Docs[0].Body, v, yaml.Strict())
+	} else {
+		err = yaml.UnmarshalWithOptions(d.Data, v, yaml.Strict())
+	}
 	if err != nil {
 		return d.convert(err)
+	}
+	return nil
+}
+
+// File returns the syntax tree Parse built, for a loader that needs more than
+// Decode and the positions (the layout of entries, the source of a value). It must
+// not be changed.
+func (d *Doc) File() *ast.File { return d.ast }
+
+// Root returns the mapping at the top of the first document, or nil when the file
+// does not start with one.
+func (d *Doc) Root() *ast.MappingNode {
+	if d.ast == nil || len(d.ast.Docs) == 0 || d.ast.Docs[0] == nil {
+		return nil
+	}
+	switch n := d.ast.Docs[0].Body.(type) {
+	case *ast.MappingNode:
+		return n
+	case *ast.MappingValueNode:
+		return &ast.MappingNode{BaseNode: &ast.BaseNode{}, Values: []*ast.MappingValueNode{n}}
 	}
 	return nil
 }

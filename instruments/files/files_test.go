@@ -85,3 +85,43 @@ func FuzzParseDecode(f *testing.F) {
 		_ = d.Decode(&v)
 	})
 }
+
+// Sort: by file, then line and column, unpositioned problems last in their file,
+// ties in the order given.
+func TestSort(t *testing.T) {
+	l := files.List{
+		{File: "b.yaml", Line: 2, Col: 1, Msg: "b2"},
+		{File: "a.yaml", Line: 0, Msg: "a0"},
+		{File: "a.yaml", Line: 3, Col: 5, Msg: "a3.5"},
+		{File: "a.yaml", Line: 3, Col: 1, Msg: "a3.1 first"},
+		{File: "a.yaml", Line: 3, Col: 1, Msg: "a3.1 second"},
+		{File: "a.yaml", Line: 1, Col: 9, Msg: "a1"},
+	}
+	l.Sort()
+	var got []string
+	for _, e := range l {
+		got = append(got, e.Msg)
+	}
+	if want := "a1, a3.1 first, a3.1 second, a3.5, a0, b2"; strings.Join(got, ", ") != want {
+		t.Errorf("sorted %s, want %s", strings.Join(got, ", "), want)
+	}
+}
+
+// Decode reads the tree Parse built for an ordinary file, and the bytes for an
+// empty or multi-document one, with the same results as decoding the bytes.
+func TestDecodeFromTree(t *testing.T) {
+	for _, src := range []string{"level: 1V\nbox: {count: 3}\n", "", "# nothing\n", "level: 2V\n---\nlevel: 3V\n"} {
+		doc, err := files.Parse("f.yaml", []byte(src))
+		if err != nil {
+			t.Fatalf("%q: %v", src, err)
+		}
+		var c cfg
+		if err := doc.Decode(&c); err != nil {
+			t.Errorf("%q: %v", src, err)
+		}
+		want := map[string]units.Voltage{"level: 1V\nbox: {count: 3}\n": 1, "level: 2V\n---\nlevel: 3V\n": 2}[src]
+		if c.Level != want {
+			t.Errorf("%q: level %v, want %v", src, c.Level, want)
+		}
+	}
+}

@@ -93,13 +93,10 @@ func normCDF(z float64) float64 { return 0.5 * math.Erfc(-z/math.Sqrt2) }
 // rule, the zone of the value, the probability that the true value (normal, mean
 // v, sd u) lies outside the tolerance, and TUR = (upper − lower)/(2U). A TUR below
 // 4:1 (common practice) is flagged low. As in the limits package, the decision's
-// dof is 0 for infinite.
+// dof is math.Inf(1) for infinite.
 func decide(result string, v float64, lo, hi *float64, rule string, r float64, binary bool, u, k, dof float64) *limits.Decision {
 	U := k * u
-	if math.IsInf(dof, 1) {
-		dof = 0
-	}
-	d := &limits.Decision{Result: result, Lower: lo, Upper: hi, Rule: rule, Value: v, Std: u, U: U, K: k, DOF: dof, Binary: binary}
+	d := &limits.Decision{Result: result, Lower: lo, Upper: hi, Rule: rule, Value: v, Std: u, U: U, K: k, DOF: limits.DegreesOfFreedom(dof), Binary: binary}
 	if rule == "guarded" {
 		d.GuardFactor, d.Guard = r, r*U
 	}

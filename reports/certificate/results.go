@@ -106,10 +106,10 @@ func (d *doc) measuredCell(o limits.Outcome) pdfdoc.Cell {
 		case ok && !finite(v), !finite(dd.Value):
 			return c1("not valid", pdfdoc.Body)
 		}
-		// The decision's dof is 0 for "infinite or unknown"; the result's own
+		// The decision's dof is +Inf for "infinite or unknown"; the result's own
 		// uncertainty tells them apart (math.Inf(1) for infinite).
 		r, _ := d.result(dd.Result)
-		dof := dd.DOF
+		dof := float64(dd.DOF)
 		if hasU(r.Unc.Expanded) && (dof == 0 || !finite(dof)) {
 			dof = r.Unc.DOF
 		}

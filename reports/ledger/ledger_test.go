@@ -17,6 +17,7 @@ import (
 	"testing"
 	"time"
 
+	"trimline/limits"
 	"trimline/reports/ledger"
 	"trimline/sequencer"
 )
@@ -88,7 +89,7 @@ func TestRoundTrip(t *testing.T) {
 	// row has dof NULL beside a non-NULL u, and REVIEW gets the next number.
 	inf := makeRecord("run-2", "SN0001", sequencer.Review, benchShape)
 	inf.Results[0].Unc.DOF = math.Inf(1)
-	inf.Outcomes[0].Decision.DOF = 0 // the limits package's "infinite" in a decision
+	inf.Outcomes[0].Decision.DOF = limits.DegreesOfFreedom(math.Inf(1)) // written 0 in the decision's JSON
 	inf.Outcomes[0].Decision.Zone = "conditional pass"
 	if cert := mustRecord(t, l, inf, "TL1"); cert != "TL1-000002" {
 		t.Errorf("REVIEW run: certificate %q, want TL1-000002", cert)
@@ -107,6 +108,9 @@ func TestRoundTrip(t *testing.T) {
 	}
 	if !bytes.Contains(doc, []byte(`"uncertainty":{"u":0.0000012,"dof":"Infinity","k":2.06,"U":0.000002472,"method":"GUM"}`)) {
 		t.Errorf("record_json does not hold the infinite dof as \"Infinity\":\n%s", doc)
+	}
+	if !bytes.Contains(doc, []byte(`"u":1.2,"U":2.472,"k":2.06,"dof":0,`)) {
+		t.Errorf("record_json does not hold the decision's infinite dof as 0, as records always have:\n%s", doc)
 	}
 	var u, dof *float64
 	if err := db.QueryRow(`SELECT u, dof FROM results WHERE run_id = 'run-2' AND name = 'post_offset'`).Scan(&u, &dof); err != nil {

@@ -4,7 +4,6 @@ import (
 	"fmt"
 	"time"
 
-	"trimline/limits"
 	"trimline/reports/internal/pdfdoc"
 )
 
@@ -31,7 +30,7 @@ var (
 // top of the free space on the current page) and what it is made from.
 type doc struct {
 	pdfdoc.Doc
-	r   limits.WhatIfReport
+	r   Report
 	gen time.Time
 }
 

@@ -55,25 +55,7 @@ func signed(v float64) string {
 }
 
 // num writes v with up to 6 significant digits and a real minus sign.
-func num(v float64) string {
-	var s string
-	if a := math.Abs(v); a == 0 || (a >= 1e-4 && a < 1e9) {
-		dec := 0
-		if a != 0 {
-			dec = max(0, 5-int(math.Floor(math.Log10(a))))
-		}
-		s = strconv.FormatFloat(v, 'f', dec, 64)
-		if strings.Contains(s, ".") {
-			s = strings.TrimRight(strings.TrimRight(s, "0"), ".")
-		}
-	} else {
-		s = strconv.FormatFloat(v, 'g', 6, 64)
-	}
-	if s == "-0" {
-		s = "0"
-	}
-	return strings.Replace(s, "-", "−", 1)
-}
+func num(v float64) string { return units.FormatSig(v, 6) }
 
 func near(a, b float64) bool {
 	return math.Abs(a-b) <= 1e-9*math.Max(1, math.Max(math.Abs(a), math.Abs(b)))

@@ -28,7 +28,7 @@ func (e edge) label() string {
 	return e.which + " " + op + " " + num(e.v)
 }
 
-func (d *doc) histogram(dist limits.Distribution) {
+func (d *doc) histogram(dist Distribution) {
 	scale, unit := displayUnit(dist.Unit)
 	edges := edgesOf(dist, scale)
 
@@ -241,7 +241,7 @@ func (d *doc) histogram(dist limits.Distribution) {
 }
 
 // boundList writes the legend: line styles, then each bound with its limit.
-func (d *doc) boundList(edges []edge, unit string, dist limits.Distribution) {
+func (d *doc) boundList(edges []edge, unit string, dist Distribution) {
 	d.Y += 3.2
 	x := marginL
 	d.PDF.SetLineWidth(0.35)
@@ -285,7 +285,7 @@ func (d *doc) boundList(edges []edge, unit string, dist limits.Distribution) {
 
 // edgesOf lists the bounds of dist in the display unit; a bound both sets have on
 // the same side with the same value is listed once, as "old = new".
-func edgesOf(dist limits.Distribution, scale float64) []edge {
+func edgesOf(dist Distribution, scale float64) []edge {
 	var all []edge
 	add := func(which string, bs []limits.Bound) {
 		for _, b := range bs {

@@ -65,7 +65,7 @@ func (d *doc) summary() {
 	d.Y += 2
 }
 
-func (d *doc) yieldBox(x, y, w, h float64, title string, c limits.VerdictCounts, delta *float64) {
+func (d *doc) yieldBox(x, y, w, h float64, title string, c VerdictCounts, delta *float64) {
 	d.Box(x, y, w, h, pdfdoc.Zebra, pdfdoc.Rule, 0.3)
 	d.font("", 8.5, pdfdoc.Muted)
 	d.PDF.Text(x+4, y+6, title)

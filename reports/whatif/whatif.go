@@ -1,11 +1,3 @@
-// Package whatif renders a limits.WhatIfReport as a PDF (A4 portrait) for a
-// quality engineer: the two limit sets, the units judged, the yield before and
-// after, the failure Pareto of the new set, a histogram of every bounded result
-// with the old and new bounds drawn on it, and the units whose verdict flips.
-//
-// Identical (report, generated) give byte-identical files: the creation date is
-// generated, resource catalogues are sorted and nothing is drawn in map order.
-// Text is set in the embedded Go fonts, so µ, −, ≤ and → render on every viewer.
 package whatif
 
 import (
@@ -17,7 +9,6 @@ import (
 
 	"github.com/jung-kurt/gofpdf"
 
-	"trimline/limits"
 	"trimline/reports/internal/atomicfile"
 	"trimline/reports/internal/pdfdoc"
 )
@@ -29,7 +20,7 @@ const MaxFlipRows = 200
 // Write renders the report to w as a PDF. generated is the document's date (and
 // creation date); a zero time is written as the Unix epoch so the output stays
 // reproducible.
-func Write(w io.Writer, r limits.WhatIfReport, generated time.Time) error {
+func Write(w io.Writer, r Report, generated time.Time) error {
 	pdf, err := render(r, generated)
 	if err != nil {
 		return err
@@ -43,7 +34,7 @@ func Write(w io.Writer, r limits.WhatIfReport, generated time.Time) error {
 // WriteFile renders the report and writes it to path atomically: a temporary
 // file in the same directory is written, synced and renamed over path. On error
 // nothing is left behind and an existing file at path is untouched.
-func WriteFile(path string, r limits.WhatIfReport, generated time.Time) error {
+func WriteFile(path string, r Report, generated time.Time) error {
 	if path == "" {
 		return errors.New("whatif: empty path")
 	}
@@ -58,7 +49,7 @@ func WriteFile(path string, r limits.WhatIfReport, generated time.Time) error {
 }
 
 // render lays out the whole report and returns it ready for Output.
-func render(r limits.WhatIfReport, generated time.Time) (*gofpdf.Fpdf, error) {
+func render(r Report, generated time.Time) (*gofpdf.Fpdf, error) {
 	stamp := generated.UTC()
 	if generated.IsZero() {
 		stamp = time.Unix(0, 0).UTC()
