@@ -1,0 +1,164 @@
+// Package issuing records runs in the ledger and publishes their certificates, in
+// an order that survives a crash at any moment: the ledger commit (with the
+// certificate number and the record signature) comes first, then the PDF is written
+// atomically, then the document is recorded with its own signature, then the
+// detached seal is written. A crash between the commit and the document leaves a
+// certified run without a document, which Repair finds and publishes again,
+// byte-identical, at the next start.
+package issuing
+
+import (
+	"context"
+	"crypto/sha256"
+	"encoding/hex"
+	"fmt"
+	"os"
+	"path/filepath"
+
+	"trimline/reports/certificate"
+	"trimline/reports/ledger"
+	"trimline/reports/signing"
+	"trimline/sequencer"
+)
+
+// Issuer records the runs of one station and sequence. It is not safe for
+// concurrent use; one batch uses one Issuer.
+type Issuer struct {
+	Ledger   *ledger.Ledger
+	Key      *signing.Key // nil: unsigned certificates
+	Station  *sequencer.Station
+	Sequence *sequencer.Sequence
+	CertDir  string // folder the certificates are written to
+}
+
+// Record stores rec and, for a certified verdict, publishes its certificate. It
+// returns the certificate number ("" for runs that get none).
+func (is *Issuer) Record(ctx context.Context, rec *sequencer.Record) (string, error) {
+	var keyID string
+	var sig []byte
+	st, seq := is.Station, is.Sequence
+	opt := ledger.RecordOptions{Prefix: st.CertificatePrefix, Actor: rec.Operator, Files: map[string][]byte{}}
+	for _, f := range []struct {
+		ref sequencer.FileRef
+		raw []byte
+	}{{st.File, st.Raw}, {seq.File, seq.Raw}, {seq.LimitsFile, seq.LimitsRaw}} {
+		if f.ref.SHA256 != "" && f.raw != nil {
+			opt.Files[f.ref.SHA256] = f.raw
+		}
+	}
+	recSHA, err := ledger.RecordSHA256(rec)
+	if err != nil {
+		return "", err
+	}
+	if is.Key != nil {
+		opt.Sign = func(number, runID, recordSHA string) (string, []byte, error) {
+			keyID, sig = is.Key.ID(), is.Key.Sign(ledger.SignedMessage(number, runID, recordSHA))
+			return keyID, sig, nil
+		}
+	}
+	cert, err := is.Ledger.RecordRunWith(ctx, rec, opt)
+	if err != nil || cert == "" {
+		return cert, err
+	}
+	return cert, is.publish(ctx, rec, ledger.RunMeta{RunID: rec.RunID, Certificate: cert, RecordSHA256: recSHA, KeyID: keyID, Signature: sig})
+}
+
+// certOptions are the certificate options of a recorded run; they depend only on
+// the record and its ledger entry, so a regenerated PDF is byte-identical.
+func certOptions(rec *sequencer.Record, meta ledger.RunMeta) certificate.Options {
+	opt := certificate.Options{Number: meta.Certificate, RecordSHA256: meta.RecordSHA256, KeyID: meta.KeyID}
+	for _, in := range rec.Instruments {
+		if in.Role == "dut" && in.Identity.Maker != "0" {
+			opt.Maker = in.Identity.Maker
+		}
+	}
+	if len(meta.Signature) > 0 {
+		opt.VerificationCode = signing.VerificationCode(meta.Signature)
+	}
+	return opt
+}
+
+// publish writes the certificate, records it as a document and writes its seal.
+func (is *Issuer) publish(ctx context.Context, rec *sequencer.Record, meta ledger.RunMeta) error {
+	opt := certOptions(rec, meta)
+	path := filepath.Join(is.CertDir, certificate.FileName(rec, opt))
+	if err := certificate.WriteFile(path, rec, opt); err != nil {
+		return fmt.Errorf("%s: write certificate: %w", rec.Serial, err)
+	}
+	pdf, err := os.ReadFile(path)
+	if err != nil {
+		return err
+	}
+	sum := sha256.Sum256(pdf)
+	doc := ledger.Document{RunID: rec.RunID, Number: meta.Certificate, Path: path, SHA256: hex.EncodeToString(sum[:]), Size: int64(len(pdf))}
+	if is.Key != nil {
+		doc.KeyID, doc.Signature = is.Key.ID(), is.Key.Sign(signing.PDFMessage(meta.Certificate, pdf))
+	}
+	if err := is.Ledger.AddSignedDocument(ctx, doc); err != nil {
+		return fmt.Errorf("%s: record certificate: %w", rec.Serial, err)
+	}
+	if is.Key == nil {
+		return nil
+	}
+	seal := signing.Seal{Format: signing.SealFormat, Number: meta.Certificate, RunID: rec.RunID, Serial: rec.Serial,
+		RecordSHA256: meta.RecordSHA256, PDFSHA256: doc.SHA256, KeyID: meta.KeyID, RecordSignature: meta.Signature,
+		PDFSignature: doc.Signature, VerificationCode: opt.VerificationCode, Signed: rec.Finished}
+	return signing.WriteSeal(path+".seal", seal)
+}
+
+// recentChecked is how many of the newest certified runs Repair checks for a lost
+// PDF or seal file: a crash interrupts only the run in flight, so the newest few
+// cover it without a scan of the whole ledger at every start.
+const recentChecked = 20
+
+// Repair publishes every certified run whose document is missing (a crash between
+// the ledger commit and the document), and the newest runs whose PDF or seal file
+// is gone (a crash after the document row), and reports how many it published. A
+// voided certificate is never published again; a run sealed with a key the Issuer
+// does not hold is an error.
+func (is *Issuer) Repair(ctx context.Context) (int, error) {
+	led := is.Ledger
+	missing, err := led.MissingDocuments(ctx)
+	if err != nil {
+		return 0, err
+	}
+	runs, err := led.RecentRuns(ctx, recentChecked)
+	if err != nil {
+		return 0, err
+	}
+	for _, r := range runs {
+		if r.Certificate == "" {
+			continue
+		}
+		if st, err := led.CertificateStatus(ctx, r.Certificate); err != nil || st.Voided {
+			continue // a voided certificate is not published again
+		}
+		docs, err := led.DocumentsFor(ctx, r.Certificate)
+		if err != nil || len(docs) == 0 {
+			continue // already in missing
+		}
+		d := docs[len(docs)-1]
+		_, perr := os.Stat(d.Path)
+		_, serr := os.Stat(d.Path + ".seal")
+		if perr != nil || (d.KeyID != "" && serr != nil) {
+			_, meta, err := led.RunByCertificate(ctx, r.Certificate)
+			if err != nil {
+				return 0, err
+			}
+			missing = append(missing, meta)
+		}
+	}
+	for _, m := range missing {
+		rec, meta, err := led.RunByCertificate(ctx, m.Certificate)
+		if err != nil {
+			return 0, fmt.Errorf("repair %s: %w", m.Certificate, err)
+		}
+		if meta.KeyID != "" && (is.Key == nil || is.Key.ID() != meta.KeyID) {
+			return 0, fmt.Errorf("repair %s: it was sealed with key %s, which this station does not hold", m.Certificate, meta.KeyID)
+		}
+		if err := is.publish(ctx, rec, meta); err != nil {
+			return 0, fmt.Errorf("repair %s: %w", m.Certificate, err)
+		}
+	}
+	return len(missing), nil
+}
