@@ -12,6 +12,7 @@ import (
 	"testing"
 	"time"
 
+	"trimline/reports/issuing"
 	"trimline/reports/ledger"
 )
 
@@ -182,7 +183,7 @@ func TestRepairRepublishesByteIdentical(t *testing.T) {
 			t.Fatal(err)
 		}
 		defer led.Close()
-		is := &issuer{led: led, key: key, st: st, seq: seq, certDir: filepath.Join(d, "certificates")}
+		is := &issuing.Issuer{Ledger: led, Key: key, Station: st, Sequence: seq, CertDir: filepath.Join(d, "certificates")}
 		if crash {
 			// The first half of record: the commit, then the process dies.
 			_, err = led.RecordRunWith(context.Background(), rec, ledger.RecordOptions{Prefix: st.CertificatePrefix,
@@ -192,10 +193,10 @@ func TestRepairRepublishesByteIdentical(t *testing.T) {
 			if err != nil {
 				t.Fatal(err)
 			}
-			if n, err := is.repair(context.Background()); err != nil || n != 1 {
+			if n, err := is.Repair(context.Background()); err != nil || n != 1 {
 				t.Fatalf("repair: %d %v", n, err)
 			}
-		} else if _, err := is.record(context.Background(), rec); err != nil {
+		} else if _, err := is.Record(context.Background(), rec); err != nil {
 			t.Fatal(err)
 		}
 		pdfs := mustGlob(t, filepath.Join(d, "certificates", "*.pdf"))
@@ -219,8 +220,8 @@ func TestRepairRepublishesByteIdentical(t *testing.T) {
 		t.Fatal(err)
 	}
 	defer led.Close()
-	is := &issuer{led: led, key: key, st: st, seq: seq, certDir: filepath.Join(dir, "normal", "certificates")}
-	if n, err := is.repair(context.Background()); err != nil || n != 1 {
+	is := &issuing.Issuer{Ledger: led, Key: key, Station: st, Sequence: seq, CertDir: filepath.Join(dir, "normal", "certificates")}
+	if n, err := is.Repair(context.Background()); err != nil || n != 1 {
 		t.Fatalf("repair of lost files: %d %v", n, err)
 	}
 	got, _ := os.ReadFile(pdfs[0])

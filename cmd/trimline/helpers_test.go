@@ -31,8 +31,7 @@ func writeReleasedDemo(t testing.TB, dir string, seed uint64) (station, sequence
 		t.Fatal(err)
 	}
 	var out bytes.Buffer
-	stdoutW = &out
-	if err := releaseDemo(context.Background(), dir); err != nil {
+	if err := releaseDemo(context.Background(), &env{stdout: &out, stderr: &out}, dir); err != nil {
 		t.Fatal(err)
 	}
 	return station, sequence
