@@ -33,7 +33,9 @@ type env struct {
 	stdout, stderr io.Writer
 }
 
-// trimline builds the command tree, once per run.
+// trimline builds the command tree. run calls it once per invocation and finds
+// commands by walking it; it is not a package variable so that every invocation
+// (the process's one, or each of a test's) parses into flags of its own.
 func trimline() *command {
 	root := &command{
 		UsageLine: "trimline <command> [flags] [args]",
