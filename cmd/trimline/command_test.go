@@ -1,8 +1,14 @@
 package main
 
 import (
+	"errors"
+	"fmt"
 	"strings"
 	"testing"
+
+	"trimline/reports/release"
+	"trimline/sequencer"
+	"trimline/sequencer/fit"
 )
 
 // Every command and subcommand answers -h, --help and 'trimline help …' with its
@@ -64,4 +70,29 @@ func without(args []string, drop string) []string {
 		}
 	}
 	return out
+}
+
+// exitCode is the one place errors become exit codes; wrapping keeps the code.
+func TestExitCode(t *testing.T) {
+	for _, c := range []struct {
+		err  error
+		want int
+	}{
+		{nil, exitPass},
+		{report(nil), exitPass},
+		{report(sequencer.ErrUnitsFailed), exitFail},
+		{fmt.Errorf("x: %w", sequencer.ErrUnitFault), exitStation},
+		{report(sequencer.ErrBatchStopped), exitStation},
+		{report(rejected(errors.New("altered"))), exitFail},
+		{usagef("name a subcommand"), exitUsage},
+		{badInput(errors.New("no such file")), exitUsage},
+		{&release.NotReleasedError{}, exitUsage},
+		{fmt.Errorf("open: %w", sequencer.ErrSafety), exitUsage},
+		{fmt.Errorf("f.csv: %w", fit.ErrTooFewPoints), exitUsage},
+		{errors.New("meter timeout"), exitStation},
+	} {
+		if got := exitCode(c.err); got != c.want {
+			t.Errorf("exitCode(%v) = %d, want %d", c.err, got, c.want)
+		}
+	}
 }
