@@ -13,7 +13,6 @@ import (
 	"time"
 
 	"trimline/reports/ledger"
-	"trimline/reports/signing"
 )
 
 // The demo's certificates verify as genuine, an altered copy does not, every demo
@@ -150,87 +149,6 @@ func mustGlob(t *testing.T, pattern string) []string {
 		t.Fatal(err)
 	}
 	return m
-}
-
-// A crash between the ledger commit and the document leaves a certified run with
-// no document; the next start republishes it byte-identical to what the station
-// would have published.
-func TestRepairRepublishesByteIdentical(t *testing.T) {
-	dir := t.TempDir()
-	station, sequence, err := writeDemoFiles(dir, 1, time.Now())
-	if err != nil {
-		t.Fatal(err)
-	}
-	st, seq, err := loadFiles(station, sequence)
-	if err != nil {
-		t.Fatal(err)
-	}
-	eng, err := sequencerOpen(st, seq)
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer eng.Close()
-	rec := eng.Run(context.Background(), "BRX-00001")
-	key, err := signingLoad(st.SigningKey)
-	if err != nil {
-		t.Fatal(err)
-	}
-	issue := func(name string, crash bool) []byte {
-		d := filepath.Join(dir, name)
-		os.MkdirAll(filepath.Join(d, "certificates"), 0o755)
-		led, err := ledger.Open(context.Background(), filepath.Join(d, "ledger.db"))
-		if err != nil {
-			t.Fatal(err)
-		}
-		defer led.Close()
-		is := &issuer{led: led, key: key, st: st, seq: seq, certDir: filepath.Join(d, "certificates")}
-		if crash {
-			// The first half of record: the commit, then the process dies.
-			_, err = led.RecordRunWith(context.Background(), rec, ledger.RecordOptions{Prefix: st.CertificatePrefix,
-				Sign: func(number, runID, sha string) (string, []byte, error) {
-					return key.ID(), key.Sign(signing.RecordMessage(number, runID, sha)), nil
-				}})
-			if err != nil {
-				t.Fatal(err)
-			}
-			if n, err := is.repair(context.Background()); err != nil || n != 1 {
-				t.Fatalf("repair: %d %v", n, err)
-			}
-		} else if _, err := is.record(context.Background(), rec); err != nil {
-			t.Fatal(err)
-		}
-		pdfs := mustGlob(t, filepath.Join(d, "certificates", "*.pdf"))
-		if len(pdfs) != 1 {
-			t.Fatalf("%d PDFs", len(pdfs))
-		}
-		b, _ := os.ReadFile(pdfs[0])
-		return b
-	}
-	if !bytes.Equal(issue("normal", false), issue("crashed", true)) {
-		t.Fatal("the republished certificate differs from the one the station would have issued")
-	}
-	// A PDF and seal lost after the document was recorded are written again at the
-	// next start, identical.
-	pdfs := mustGlob(t, filepath.Join(dir, "normal", "certificates", "*.pdf"))
-	want, _ := os.ReadFile(pdfs[0])
-	os.Remove(pdfs[0])
-	os.Remove(pdfs[0] + ".seal")
-	led, err := ledger.Open(context.Background(), filepath.Join(dir, "normal", "ledger.db"))
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer led.Close()
-	is := &issuer{led: led, key: key, st: st, seq: seq, certDir: filepath.Join(dir, "normal", "certificates")}
-	if n, err := is.repair(context.Background()); err != nil || n != 1 {
-		t.Fatalf("repair of lost files: %d %v", n, err)
-	}
-	got, _ := os.ReadFile(pdfs[0])
-	if !bytes.Equal(got, want) {
-		t.Error("the rewritten PDF differs")
-	}
-	if _, err := os.Stat(pdfs[0] + ".seal"); err != nil {
-		t.Error("the seal was not rewritten")
-	}
 }
 
 // A unit's record exports as one bundle, imports into an auditor's ledger on

@@ -2,9 +2,6 @@ package main
 
 import (
 	"context"
-	"crypto/ed25519"
-	"crypto/sha256"
-	"encoding/hex"
 	"errors"
 	"fmt"
 	"os"
@@ -12,80 +9,117 @@ import (
 	"sort"
 	"strings"
 
-	"trimline/reports/certificate"
+	"trimline/reports/audit"
 	"trimline/reports/ledger"
 	"trimline/reports/signing"
 	"trimline/sequencer"
 )
 
-func init() { register(newAuditCmd) }
-
 func newAuditCmd() *command {
-	c := &command{
-		Name:  "audit",
-		Usage: "verify FILE.pdf | ledger | replay CERT-NUMBER|SERIAL | void CERT-NUMBER  [--ledger DB] [--keys DIR] [--by NAME] [--reason TEXT]",
-		Short: "verify certificates and the ledger, replay recorded runs, void a certificate",
-		Long: `verify FILE.pdf    genuine, altered or unknown, with the reason: the PDF's hash
-                   against the ledger's document and its signature, the record's
-                   signature and the ledger's hash chain, or, without a ledger, the
-                   seal beside the PDF (FILE.pdf.seal). Exit 0 only for genuine.
-ledger             walks every station's hash chain and the audit trail and
-                   reports the first broken link; signatures are checked with the
-                   public keys in --keys. Prints the chain heads to keep elsewhere.
-replay NUMBER|SN   recomputes fits, trim codes, uncertainties and verdicts from the
-                   stored raw readings with the stored files, and lists every
-                   difference from what was recorded. Exit 1 when any.
-void NUMBER        voids a certificate with --by and --reason; it stays in the
-                   ledger and the audit trail.`,
-		Flags: newFlags("audit"),
+	return &command{
+		UsageLine: "trimline audit <command> [flags] [args]",
+		Short:     "verify certificates and the ledger, replay recorded runs, void a certificate",
+		Commands:  []*command{newAuditVerifyCmd(), newAuditLedgerCmd(), newAuditReplayCmd(), newAuditVoidCmd()},
 	}
-	ledgerPath := c.Flags.String("ledger", "", "ledger `file` (default ledger.db beside the PDF's certificates folder, or ./trimline-demo/ledger.db)")
-	keysDir := c.Flags.String("keys", "", "`folder` of trusted public keys (*.pub; default: keys beside the ledger — give your own copy when the files came from elsewhere)")
-	by := c.Flags.String("by", "", "`name` of the person voiding")
-	reason := c.Flags.String("reason", "", "`reason` for voiding")
-	noLedger := c.Flags.Bool("no-ledger", false, "verify from the seal beside the PDF and the trusted keys alone")
-	c.Run = func(ctx context.Context, c *command, args []string) error {
-		if len(args) == 0 {
-			return usageErr("name a subcommand: verify, ledger, replay or void")
+}
+
+func newAuditVerifyCmd() *command {
+	c := &command{
+		UsageLine: "trimline audit verify FILE.pdf [--ledger DB] [--keys DIR] [--no-ledger]",
+		Short:     "tell whether a certificate PDF is genuine, altered or unknown",
+		Long: `Says genuine, altered, unknown or voided, with the reason: the PDF's hash against
+the ledger's document and its signature, the record's signature and the ledger's
+hash chain, or, without a ledger, the seal beside the PDF (FILE.pdf.seal). Exit 0
+only for genuine.`,
+	}
+	a := newAuditor(c)
+	c.Flag.BoolVar(&a.noLedger, "no-ledger", false, "verify from the seal beside the PDF and the trusted keys alone")
+	c.Run = func(ctx context.Context, e *env, args []string) error {
+		if len(args) != 1 {
+			return usagef("usage: trimline audit verify FILE.pdf")
 		}
-		a := &auditor{ledgerPath: *ledgerPath, keysDir: *keysDir, noLedger: *noLedger}
-		switch args[0] {
-		case "verify":
-			if len(args) != 2 {
-				return usageErr("usage: trimline audit verify FILE.pdf")
-			}
-			return a.verify(ctx, args[1])
-		case "ledger":
-			return a.ledger(ctx)
-		case "replay":
-			if len(args) != 2 {
-				return usageErr("usage: trimline audit replay CERT-NUMBER|SERIAL")
-			}
-			return a.replay(ctx, args[1])
-		case "void":
-			if len(args) != 2 || *by == "" || *reason == "" {
-				return usageErr("usage: trimline audit void CERT-NUMBER --by NAME --reason TEXT")
-			}
-			led, err := a.open(ctx, "")
-			if err != nil {
-				return err
-			}
-			defer led.Close()
-			if err := led.VoidCertificate(ctx, args[1], *by, *reason); err != nil {
-				return badInput(err)
-			}
-			fmt.Fprintf(stdoutW, "%s voided by %s: %s\n", args[1], *by, *reason)
-			return nil
-		}
-		return usageErr("unknown subcommand %q (verify, ledger, replay, void)", args[0])
+		return a.verify(ctx, e, args[0])
 	}
 	return c
 }
 
+func newAuditLedgerCmd() *command {
+	c := &command{
+		UsageLine: "trimline audit ledger [--ledger DB] [--keys DIR]",
+		Short:     "verify every station's hash chain and the audit trail",
+		Long: `Walks every station's hash chain and the audit trail and reports the first broken
+link; signatures are checked with the public keys in --keys. Prints the chain heads
+to keep elsewhere. Exit 1 when the chain is broken.`,
+	}
+	a := newAuditor(c)
+	c.Run = func(ctx context.Context, e *env, args []string) error {
+		if len(args) != 0 {
+			return usagef("usage: %s", c.UsageLine)
+		}
+		return a.ledger(ctx, e)
+	}
+	return c
+}
+
+func newAuditReplayCmd() *command {
+	c := &command{
+		UsageLine: "trimline audit replay CERT-NUMBER|SERIAL [--ledger DB]",
+		Short:     "recompute recorded runs from their raw readings",
+		Long: `Recomputes fits, trim codes, uncertainties and verdicts from the stored raw
+readings with the stored files, and lists every difference from what was recorded.
+Exit 1 when any.`,
+	}
+	a := newAuditor(c)
+	c.Run = func(ctx context.Context, e *env, args []string) error {
+		if len(args) != 1 {
+			return usagef("usage: trimline audit replay CERT-NUMBER|SERIAL")
+		}
+		return a.replay(ctx, e, args[0])
+	}
+	return c
+}
+
+func newAuditVoidCmd() *command {
+	c := &command{
+		UsageLine: "trimline audit void CERT-NUMBER --by NAME --reason TEXT [--ledger DB]",
+		Short:     "void a certificate",
+		Long:      `Voids a certificate with --by and --reason; it stays in the ledger and the audit trail.`,
+	}
+	a := newAuditor(c)
+	by := c.Flag.String("by", "", "`name` of the person voiding")
+	reason := c.Flag.String("reason", "", "`reason` for voiding")
+	c.Run = func(ctx context.Context, e *env, args []string) error {
+		if len(args) != 1 || *by == "" || *reason == "" {
+			return usagef("usage: trimline audit void CERT-NUMBER --by NAME --reason TEXT")
+		}
+		led, err := a.open(ctx, "")
+		if err != nil {
+			return err
+		}
+		defer led.Close()
+		if err := led.VoidCertificate(ctx, args[0], *by, *reason); err != nil {
+			return badInput(err)
+		}
+		fmt.Fprintf(e.stdout, "%s voided by %s: %s\n", args[0], *by, *reason)
+		return nil
+	}
+	return c
+}
+
+// auditor holds what the audit subcommands share: where the ledger and the
+// trusted keys are.
 type auditor struct {
 	ledgerPath, keysDir string
 	noLedger            bool   // verify from the seal alone
 	keysFrom            string // where the trusted keys came from, said with every verdict
+}
+
+// newAuditor adds the --ledger and --keys flags every audit subcommand takes.
+func newAuditor(c *command) *auditor {
+	a := &auditor{}
+	c.Flag.StringVar(&a.ledgerPath, "ledger", "", "ledger `file` (default ledger.db beside the PDF's certificates folder, or ./trimline-demo/ledger.db)")
+	c.Flag.StringVar(&a.keysDir, "keys", "", "`folder` of trusted public keys (*.pub; default: keys beside the ledger — give your own copy when the files came from elsewhere)")
+	return a
 }
 
 // open opens the ledger named by --ledger, or the one beside near (a PDF in a
@@ -105,23 +139,19 @@ func (a *auditor) open(ctx context.Context, near string) (*ledger.Ledger, error)
 		return nil, badInput(fmt.Errorf("no ledger at %s (give --ledger)", p))
 	}
 	a.ledgerPath = p
-	led, err := ledger.Open(ctx, p)
-	if err != nil {
-		return nil, stationErr(err)
-	}
-	return led, nil
+	return ledger.Open(ctx, p)
 }
 
-func (a *auditor) keys() (map[string]ed25519.PublicKey, error) {
+func (a *auditor) keys() (audit.Keys, error) {
 	d := a.keysDir
 	if d == "" && a.ledgerPath != "" {
 		d = filepath.Join(filepath.Dir(a.ledgerPath), "keys")
 	}
 	if d == "" {
-		return map[string]ed25519.PublicKey{}, nil
+		return audit.Keys{}, nil
 	}
 	if _, err := os.Stat(d); err != nil {
-		return map[string]ed25519.PublicKey{}, nil
+		return audit.Keys{}, nil
 	}
 	ks, err := signing.LoadPublicDir(d)
 	if err != nil {
@@ -134,35 +164,28 @@ func (a *auditor) keys() (map[string]ed25519.PublicKey, error) {
 	return ks, nil
 }
 
-// verdict prints the verification outcome; only genuine exits 0.
-func (a *auditor) verdictOut(kind, file string, reasons []string) error {
-	fmt.Fprintf(stdoutW, "%s: %s\n", strings.ToUpper(kind), file)
-	for _, r := range reasons {
-		fmt.Fprintf(stdoutW, "  %s\n", r)
+// errNotGenuine is a certificate that did not verify as genuine.
+var errNotGenuine = errors.New("not genuine")
+
+// verdictOut prints the verification outcome; only genuine succeeds.
+func (a *auditor) verdictOut(e *env, file string, v audit.Verdict) error {
+	fmt.Fprintf(e.stdout, "%s: %s\n", strings.ToUpper(v.Kind), file)
+	for _, r := range v.Reasons {
+		fmt.Fprintf(e.stdout, "  %s\n", r)
 	}
 	if a.keysFrom != "" {
-		fmt.Fprintf(stdoutW, "  (%s)\n", a.keysFrom)
+		fmt.Fprintf(e.stdout, "  (%s)\n", a.keysFrom)
 	}
-	if kind == "genuine" {
+	if v.Kind == audit.Genuine {
 		return nil
 	}
-	return silent(exitFail)
+	return report(rejected(fmt.Errorf("%s: %w", v.Kind, errNotGenuine)))
 }
 
-func (a *auditor) verify(ctx context.Context, file string) error {
+func (a *auditor) verify(ctx context.Context, e *env, file string) error {
 	pdf, err := os.ReadFile(file)
 	if err != nil {
 		return badInput(err)
-	}
-	sum := sha256.Sum256(pdf)
-	pdfSHA := hex.EncodeToString(sum[:])
-	number, runID, _ := certificate.Metadata(pdf)
-	var seal *signing.Seal
-	if s, err := signing.ReadSeal(file + ".seal"); err == nil {
-		seal = &s
-		if number == "" {
-			number = s.Number
-		}
 	}
 	explicit := a.ledgerPath != ""
 	var led *ledger.Ledger
@@ -175,87 +198,21 @@ func (a *auditor) verify(ctx context.Context, file string) error {
 		// hide a voided certificate.
 		return lerr
 	}
+	if led != nil {
+		defer led.Close()
+	}
 	keys, err := a.keys()
 	if err != nil {
 		return err
 	}
-	if lerr != nil {
-		// No ledger: the seal and the public key alone.
-		if seal == nil {
-			return a.verdictOut("unknown", file, []string{"no ledger and no seal (" + file + ".seal) to check it against"})
-		}
-		pub, ok := keys[seal.KeyID]
-		if !ok {
-			return a.verdictOut("unknown", file, []string{"sealed with key " + seal.KeyID + ", which is not among the trusted keys"})
-		}
-		if err := seal.VerifyPDF(pub, pdf); err != nil {
-			kind := "altered"
-			if errors.Is(err, signing.ErrWrongKey) {
-				kind = "unknown"
-			}
-			return a.verdictOut(kind, file, []string{err.Error()})
-		}
-		return a.verdictOut("genuine", file, []string{"certificate " + seal.Number + " matches its seal, signed by " + seal.KeyID, "(no ledger checked: the run and the chain were not verified)"})
-	}
-	defer led.Close()
-	doc, err := led.DocumentBySHA(ctx, pdfSHA)
-	if errors.Is(err, ledger.ErrNotFound) {
-		if number != "" {
-			if _, _, err := led.RunByCertificate(ctx, number); err == nil {
-				return a.verdictOut("altered", file, []string{fmt.Sprintf("the ledger issued %s, but no document of it has this file's SHA-256 %s", number, pdfSHA[:16])})
-			}
-			return a.verdictOut("unknown", file, []string{fmt.Sprintf("%s is not a certificate of the ledger %s", number, a.ledgerPath)})
-		}
-		return a.verdictOut("unknown", file, []string{"not a document of the ledger " + a.ledgerPath + " and no certificate number found in it"})
-	} else if err != nil {
-		return stationErr(err)
-	}
-	var why []string
-	rec, meta, err := led.RunByCertificate(ctx, doc.Number)
+	v, err := audit.Certificate(ctx, led, a.ledgerPath, file, pdf, keys)
 	if err != nil {
-		return a.verdictOut("altered", file, []string{"document " + doc.Number + " has no run in the ledger: " + err.Error()})
+		return err
 	}
-	if runID != "" && runID != meta.RunID {
-		return a.verdictOut("altered", file, []string{"the PDF names run " + runID + " but certificate " + doc.Number + " belongs to run " + meta.RunID})
-	}
-	why = append(why, fmt.Sprintf("document %s of run %s (serial %s, verdict %s): SHA-256 matches the ledger", doc.Number, meta.RunID, rec.Serial, rec.Verdict))
-	if meta.KeyID != "" {
-		pub, ok := keys[meta.KeyID]
-		if !ok {
-			return a.verdictOut("unknown", file, append(why, "signed by "+meta.KeyID+", which is not among the trusted keys (--keys)"))
-		}
-		if !signing.Verify(pub, signing.RecordMessage(doc.Number, meta.RunID, meta.RecordSHA256), meta.Signature) {
-			return a.verdictOut("altered", file, append(why, "the record signature does not verify"))
-		}
-		if !signing.Verify(pub, signing.PDFMessage(doc.Number, pdf), doc.Signature) {
-			return a.verdictOut("altered", file, append(why, "the PDF signature does not verify"))
-		}
-		why = append(why, "record and PDF signatures verify with "+meta.KeyID)
-	} else {
-		why = append(why, "unsigned: the station had no key when it was issued")
-	}
-	rep, err := led.VerifyChain(ctx, rec.Station, ledger.ChainOptions{Verify: verifier(keys)})
-	if err != nil {
-		return stationErr(err)
-	}
-	if !rep.OK {
-		return a.verdictOut("altered", file, append(why, "the ledger's chain is broken: "+rep.Reason))
-	}
-	why = append(why, fmt.Sprintf("station %s chain verifies (%d runs)", rec.Station, rep.Runs))
-	if st, err := led.CertificateStatus(ctx, doc.Number); err == nil && st.Voided {
-		return a.verdictOut("voided", file, append(why, fmt.Sprintf("VOIDED by %s on %s: %s", st.VoidedBy, st.VoidedAt.UTC().Format("2006-01-02 15:04 UTC"), st.VoidReason)))
-	}
-	return a.verdictOut("genuine", file, why)
+	return a.verdictOut(e, file, v)
 }
 
-func verifier(keys map[string]ed25519.PublicKey) func(keyID string, msg, sig []byte) bool {
-	return func(keyID string, msg, sig []byte) bool {
-		pub, ok := keys[keyID]
-		return ok && signing.Verify(pub, msg, sig)
-	}
-}
-
-func (a *auditor) ledger(ctx context.Context) error {
+func (a *auditor) ledger(ctx context.Context, e *env) error {
 	led, err := a.open(ctx, "")
 	if err != nil {
 		return err
@@ -265,35 +222,36 @@ func (a *auditor) ledger(ctx context.Context) error {
 	if err != nil {
 		return err
 	}
-	rep, err := led.VerifyChain(ctx, "", ledger.ChainOptions{Verify: verifier(keys)})
+	rep, err := led.VerifyChain(ctx, "", ledger.ChainOptions{Verify: audit.Verifier(keys)})
 	if err != nil {
-		return stationErr(err)
+		return err
 	}
-	fmt.Fprintf(stdoutW, "ledger %s: %d station chain(s), %d runs (%d signed, %d verified, %d unsigned), %d certificates, %d documents, %d stored files, %d audit entries\n",
+	w := e.stdout
+	fmt.Fprintf(w, "ledger %s: %d station chain(s), %d runs (%d signed, %d verified, %d unsigned), %d certificates, %d documents, %d stored files, %d audit entries\n",
 		a.ledgerPath, rep.Stations, rep.Runs, rep.Signed, rep.Verified, rep.Unsigned, rep.Certificates, rep.Documents, rep.Blobs, rep.AuditEntries)
 	if !rep.OK {
 		at := rep.BrokenAt
 		if at == "" && rep.BrokenAuditSeq > 0 {
 			at = fmt.Sprintf("audit entry %d", rep.BrokenAuditSeq)
 		}
-		fmt.Fprintf(stdoutW, "BROKEN at %s: %s\n", at, rep.Reason)
-		return silent(exitFail)
+		fmt.Fprintf(w, "BROKEN at %s: %s\n", at, rep.Reason)
+		return report(rejected(fmt.Errorf("chain broken at %s: %s", at, rep.Reason)))
 	}
-	fmt.Fprintln(stdoutW, "chain intact. Heads (keep a copy outside the ledger):")
+	fmt.Fprintln(w, "chain intact. Heads (keep a copy outside the ledger):")
 	stations := make([]string, 0, len(rep.Heads))
 	for s := range rep.Heads {
 		stations = append(stations, s)
 	}
 	sort.Strings(stations)
 	for _, s := range stations {
-		fmt.Fprintf(stdoutW, "  station %-8s %s\n", s, rep.Heads[s])
+		fmt.Fprintf(w, "  station %-8s %s\n", s, rep.Heads[s])
 	}
-	fmt.Fprintf(stdoutW, "  audit trail      %s\n", rep.AuditHead)
+	fmt.Fprintf(w, "  audit trail      %s\n", rep.AuditHead)
 	return nil
 }
 
 // replay recomputes one certificate's run, or every run of a serial number.
-func (a *auditor) replay(ctx context.Context, what string) error {
+func (a *auditor) replay(ctx context.Context, e *env, what string) error {
 	led, err := a.open(ctx, "")
 	if err != nil {
 		return err
@@ -307,12 +265,12 @@ func (a *auditor) replay(ctx context.Context, what string) error {
 	} else {
 		runs, err := led.Runs(ctx, what)
 		if err != nil {
-			return stationErr(err)
+			return err
 		}
 		for i := len(runs) - 1; i >= 0; i-- {
 			rec, err := led.Run(ctx, runs[i].RunID)
 			if err != nil {
-				return stationErr(err)
+				return err
 			}
 			recs = append(recs, rec)
 		}
@@ -320,54 +278,29 @@ func (a *auditor) replay(ctx context.Context, what string) error {
 	if len(recs) == 0 {
 		return badInput(fmt.Errorf("%s is neither a certificate number nor a serial number in %s", what, a.ledgerPath))
 	}
+	w := e.stdout
 	differ := 0
 	for _, rec := range recs {
-		diffs, err := replayOne(ctx, led, rec)
+		diffs, err := audit.Replay(ctx, led, rec)
 		switch {
 		case errors.Is(err, sequencer.ErrNotReplayable):
-			fmt.Fprintf(stdoutW, "%s %s %s: not replayed (%s, nothing measured)\n", rec.RunID, rec.Serial, rec.Verdict, rec.Verdict)
+			fmt.Fprintf(w, "%s %s %s: not replayed (%s, nothing measured)\n", rec.RunID, rec.Serial, rec.Verdict, rec.Verdict)
 			continue
 		case err != nil:
 			return err
 		}
 		if len(diffs) == 0 {
-			fmt.Fprintf(stdoutW, "%s %s %s: reproduced exactly\n", rec.RunID, rec.Serial, rec.Verdict)
+			fmt.Fprintf(w, "%s %s %s: reproduced exactly\n", rec.RunID, rec.Serial, rec.Verdict)
 			continue
 		}
 		differ++
-		fmt.Fprintf(stdoutW, "%s %s %s: %d difference(s)\n", rec.RunID, rec.Serial, rec.Verdict, len(diffs))
+		fmt.Fprintf(w, "%s %s %s: %d difference(s)\n", rec.RunID, rec.Serial, rec.Verdict, len(diffs))
 		for _, d := range diffs {
-			fmt.Fprintf(stdoutW, "  %s\n", d)
+			fmt.Fprintf(w, "  %s\n", d)
 		}
 	}
 	if differ > 0 {
-		return silent(exitFail)
+		return report(rejected(fmt.Errorf("%d run(s) differ from what was recorded", differ)))
 	}
 	return nil
-}
-
-// replayOne loads the files that were in force from the ledger and replays rec.
-func replayOne(ctx context.Context, led *ledger.Ledger, rec *sequencer.Record) ([]string, error) {
-	data := map[string][]byte{}
-	names := map[string]string{}
-	for _, f := range rec.Files {
-		b, err := led.Blob(ctx, f.SHA256)
-		if err != nil {
-			return nil, stationErr(fmt.Errorf("%s: the %s file %s (%s) is not in the ledger: %w", rec.RunID, f.Kind, f.Name, f.SHA256[:min(12, len(f.SHA256))], err))
-		}
-		data[f.Kind], names[f.Kind] = b, f.Name
-	}
-	st, err := sequencer.ParseStation(names["station"], data["station"])
-	if err != nil {
-		return nil, stationErr(fmt.Errorf("%s: stored station file: %w", rec.RunID, err))
-	}
-	seq, err := sequencer.ParseSequence(names["sequence"], data["sequence"], func(string) ([]byte, error) { return data["limits"], nil })
-	if err != nil {
-		return nil, stationErr(fmt.Errorf("%s: stored sequence file: %w", rec.RunID, err))
-	}
-	again, err := sequencer.Replay(sequencer.Config{Station: st, Sequence: seq}, rec)
-	if err != nil {
-		return nil, err
-	}
-	return sequencer.Differences(rec, again), nil
 }

@@ -14,13 +14,10 @@ import (
 	"trimline/sequencer"
 )
 
-func init() { register(newBenchCmd) }
-
 func newBenchCmd() *command {
 	c := &command{
-		Name:  "bench",
-		Usage: "--station FILE [--transport tcp|serial] [--write FILE]",
-		Short: "serve the simulated bench as SCPI instruments over TCP or serial",
+		UsageLine: "trimline bench --station FILE [--transport tcp|serial] [--write FILE]",
+		Short:     "serve the simulated bench as SCPI instruments over TCP or serial",
 		Long: `Serves the simulated source and meter of the station file's sim:// instruments as
 SCPI instruments, and the DUT fixture as its trim port, each on its own endpoint:
 loopback TCP ports, or pseudo-terminals that behave as serial ports (Linux and
@@ -30,14 +27,13 @@ set so the fixture knows which serial is in it. Runs until Ctrl-C.
 
 The served bench runs on real time: settle times and integration apertures really
 elapse, as on a real bench.`,
-		Flags: newFlags("bench"),
 	}
-	station := c.Flags.String("station", "", "station `file` whose instruments are sim://")
-	transport := c.Flags.String("transport", "tcp", "`transport`: tcp or serial")
-	write := c.Flags.String("write", "", "write a station `file` that points at the served instruments")
-	c.Run = func(ctx context.Context, c *command, args []string) error {
+	station := c.Flag.String("station", "", "station `file` whose instruments are sim://")
+	transport := c.Flag.String("transport", "tcp", "`transport`: tcp or serial")
+	write := c.Flag.String("write", "", "write a station `file` that points at the served instruments")
+	c.Run = func(ctx context.Context, e *env, args []string) error {
 		if *station == "" || len(args) > 0 {
-			return usageErr("need --station and no arguments")
+			return usagef("need --station and no arguments")
 		}
 		st, err := sequencer.LoadStation(*station)
 		if err != nil {
@@ -49,22 +45,22 @@ elapse, as on a real bench.`,
 		}
 		defer srv.Close()
 		addrs := srv.Addresses()
-		fmt.Fprintf(stdoutW, "serving the simulated bench of station %s over %s:\n", st.ID, *transport)
+		fmt.Fprintf(e.stdout, "serving the simulated bench of station %s over %s:\n", st.ID, *transport)
 		roles := make([]string, 0, len(addrs))
 		for r := range addrs {
 			roles = append(roles, r)
 		}
 		sort.Strings(roles)
 		for _, r := range roles {
-			fmt.Fprintf(stdoutW, "  %-6s %s\n", r, addrs[r])
+			fmt.Fprintf(e.stdout, "  %-6s %s\n", r, addrs[r])
 		}
 		if *write != "" {
 			if err := os.WriteFile(*write, servedStationYAML(st, addrs), 0o644); err != nil {
-				return stationErr(err)
+				return err
 			}
-			fmt.Fprintf(stdoutW, "station file for these addresses: %s\n", *write)
+			fmt.Fprintf(e.stdout, "station file for these addresses: %s\n", *write)
 		}
-		fmt.Fprintln(stdoutW, "Ctrl-C stops.")
+		fmt.Fprintln(e.stdout, "Ctrl-C stops.")
 		<-ctx.Done()
 		return nil
 	}
@@ -76,13 +72,13 @@ func serveStation(ctx context.Context, st *sequencer.Station, transport string, 
 	var specs []instruments.Spec
 	for _, s := range st.Specs(sequencer.Roles) {
 		if !strings.HasPrefix(s.Address, "sim://") {
-			return nil, usageErr("%s: the %s is at %s; only sim:// instruments can be served", st.File.Name, s.Role, s.Address)
+			return nil, usagef("%s: the %s is at %s; only sim:// instruments can be served", st.File.Name, s.Role, s.Address)
 		}
 		specs = append(specs, s)
 	}
 	srv, err := serve.Start(ctx, specs, serve.Options{Transport: transport, Faults: faults})
 	if err != nil {
-		return nil, stationErr(fmt.Errorf("serve the simulated bench: %w", err))
+		return nil, fmt.Errorf("serve the simulated bench: %w", err)
 	}
 	return srv, nil
 }

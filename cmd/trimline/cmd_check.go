@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"context"
 	"fmt"
+	"io"
 	"os"
 
 	"github.com/goccy/go-yaml"
@@ -13,13 +14,10 @@ import (
 	"trimline/sequencer"
 )
 
-func init() { register(newCheckCmd) }
-
 func newCheckCmd() *command {
 	c := &command{
-		Name:  "check",
-		Usage: "FILE...",
-		Short: "validate station, sequence and limit files",
+		UsageLine: "trimline check FILE...",
+		Short:     "validate station, sequence and limit files",
 		Long: `Loads each file as production would and prints every problem as file:line:col
 with an excerpt. The kind of each file is told by its top-level key: station:,
 sequence: or limit_set:. A sequence file also loads the limit file it names. When
@@ -27,11 +25,10 @@ a station and a sequence are both given, the sequence is also checked against th
 station's safety caps and roles.
 
 Exit code 0 when every file is clean, 2 otherwise.`,
-		Flags: newFlags("check"),
 	}
-	c.Run = func(ctx context.Context, c *command, args []string) error {
+	c.Run = func(ctx context.Context, e *env, args []string) error {
 		if len(args) == 0 {
-			return usageErr("name at least one file")
+			return usagef("name at least one file")
 		}
 		var problems files.List
 		var other []error
@@ -69,7 +66,7 @@ Exit code 0 when every file is clean, 2 otherwise.`,
 				}
 				continue
 			}
-			fmt.Fprintf(stdoutW, "ok  %s (%s)\n", path, kind)
+			fmt.Fprintf(e.stdout, "ok  %s (%s)\n", path, kind)
 		}
 		if st != nil {
 			for _, s := range seqs {
@@ -80,18 +77,18 @@ Exit code 0 when every file is clean, 2 otherwise.`,
 				if err != nil {
 					other = append(other, err)
 				}
-				printTUR(st, s, checks)
+				printTUR(e.stdout, st, s, checks)
 			}
 		}
 		for _, p := range problems {
-			fmt.Fprintln(stdoutW, p.Detail())
+			fmt.Fprintln(e.stdout, p.Detail())
 		}
-		for _, e := range other {
-			fmt.Fprintln(stdoutW, e)
+		for _, err := range other {
+			fmt.Fprintln(e.stdout, err)
 		}
 		if n := len(problems) + len(other); n > 0 {
-			fmt.Fprintf(stdoutW, "%d problem(s)\n", n)
-			return silent(exitUsage)
+			fmt.Fprintf(e.stdout, "%d problem(s)\n", n)
+			return report(badInput(fmt.Errorf("%d problem(s)", n)))
 		}
 		return nil
 	}
@@ -100,19 +97,19 @@ Exit code 0 when every file is clean, 2 otherwise.`,
 
 // printTUR shows the test uncertainty ratio each toleranced limit can reach on
 // this station, from the instruments' specifications alone.
-func printTUR(st *sequencer.Station, seq *sequencer.Sequence, checks []limits.TURCheck) {
+func printTUR(w io.Writer, st *sequencer.Station, seq *sequencer.Sequence, checks []limits.TURCheck) {
 	if len(checks) == 0 {
 		return
 	}
-	fmt.Fprintf(stdoutW, "\nTUR on station %s for %s (from instrument specs; minimum %g:1):\n", st.ID, seq.Limits.File, seq.Limits.Policy().MinTUR)
+	fmt.Fprintf(w, "\nTUR on station %s for %s (from instrument specs; minimum %g:1):\n", st.ID, seq.Limits.File, seq.Limits.Policy().MinTUR)
 	for _, c := range checks {
 		switch {
 		case c.OneSided:
-			fmt.Fprintf(stdoutW, "  %-28s  —       one-sided tolerance\n", c.Limit)
+			fmt.Fprintf(w, "  %-28s  —       one-sided tolerance\n", c.Limit)
 		case c.Low:
-			fmt.Fprintf(stdoutW, "  %-28s  %-7s below the minimum: %s\n", c.Limit, turRatio(c.TUR), c.Note)
+			fmt.Fprintf(w, "  %-28s  %-7s below the minimum: %s\n", c.Limit, turRatio(c.TUR), c.Note)
 		default:
-			fmt.Fprintf(stdoutW, "  %-28s  %-7s ok\n", c.Limit, turRatio(c.TUR))
+			fmt.Fprintf(w, "  %-28s  %-7s ok\n", c.Limit, turRatio(c.TUR))
 		}
 	}
 }

@@ -4,6 +4,7 @@ import (
 	"context"
 	"crypto/sha256"
 	"encoding/hex"
+	"errors"
 	"fmt"
 	"io/fs"
 	"os"
@@ -13,18 +14,16 @@ import (
 	"time"
 
 	"trimline/reports/ledger"
+	"trimline/reports/release"
 	"trimline/reports/signing"
 	"trimline/sequencer"
 	"trimline/sequences"
 )
 
-func init() { register(newDemoCmd) }
-
 func newDemoCmd() *command {
 	c := &command{
-		Name:  "demo",
-		Usage: "[--out DIR] [--units N] [--seed S] [--transport sim|tcp|serial]",
-		Short: "write the demo files and trim N simulated units end to end",
+		UsageLine: "trimline demo [--out DIR] [--units N] [--seed S] [--transport sim|tcp|serial]",
+		Short:     "write the demo files and trim N simulated units end to end",
 		Long: `Writes the demo station, sequence and limit files for the BRX-200 bridge amplifier
 card (an invented product) into DIR, then runs N simulated units through the whole
 job on the simulated bench: pre-trim sweep, fit, trim, read-back, store, verification
@@ -39,28 +38,27 @@ With --transport tcp or serial the same units run through the real SCPI and
 trim-port drivers against the simulator served on loopback TCP ports or
 pseudo-terminals (see trimline bench). The served bench runs on real time, so each
 unit takes a few seconds, as it would on a real bench.`,
-		Flags: newFlags("demo"),
 	}
-	out := c.Flags.String("out", "trimline-demo", "output `folder`")
-	n := c.Flags.Int("units", 25, "number of simulated `units`")
-	seed := c.Flags.Uint64("seed", 8, "`seed` of the simulated unit population")
-	transport := c.Flags.String("transport", "sim", "`how` to reach the simulated bench: sim (in process), tcp or serial")
-	operator := c.Flags.String("operator", defaultOperator(), "operator `name` printed on certificates")
-	ambient := c.Flags.String("ambient", "", "ambient `temperature` to record on every run, e.g. \"23.1 °C\" or 23.1degC")
-	c.Run = func(ctx context.Context, c *command, args []string) error {
+	out := c.Flag.String("out", "trimline-demo", "output `folder`")
+	n := c.Flag.Int("units", 25, "number of simulated `units`")
+	seed := c.Flag.Uint64("seed", 8, "`seed` of the simulated unit population")
+	transport := c.Flag.String("transport", "sim", "`how` to reach the simulated bench: sim (in process), tcp or serial")
+	operator := c.Flag.String("operator", defaultOperator(), "operator `name` printed on certificates")
+	ambient := c.Flag.String("ambient", "", "ambient `temperature` to record on every run, e.g. \"23.1 °C\" or 23.1degC")
+	c.Run = func(ctx context.Context, e *env, args []string) error {
 		if len(args) > 0 {
-			return usageErr("unexpected argument %q", args[0])
+			return usagef("unexpected argument %q", args[0])
 		}
 		if *n < 1 {
-			return usageErr("--units must be at least 1")
+			return usagef("--units must be at least 1")
 		}
 		station, sequence, err := writeDemoFiles(*out, *seed, time.Now())
 		if err != nil {
-			return stationErr(err)
+			return err
 		}
 		// The demo plays its own quality engineer: it releases the demo sequence and
 		// limit files in its ledger, as production requires.
-		if err := releaseDemo(ctx, *out); err != nil {
+		if err := releaseDemo(ctx, e, *out); err != nil {
 			return err
 		}
 		switch *transport {
@@ -77,28 +75,28 @@ unit takes a few seconds, as it would on a real bench.`,
 			defer srv.Close()
 			station = filepath.Join(*out, "brx200-station-"+*transport+".yaml")
 			if err := os.WriteFile(station, servedStationYAML(st, srv.Addresses()), 0o644); err != nil {
-				return stationErr(err)
+				return err
 			}
-			fmt.Fprintf(stdoutW, "serving the simulated bench over %s; station file %s\n", *transport, station)
+			fmt.Fprintf(e.stdout, "serving the simulated bench over %s; station file %s\n", *transport, station)
 		default:
-			return usageErr("--transport must be sim, tcp or serial")
+			return usagef("--transport must be sim, tcp or serial")
 		}
-		fmt.Fprintf(stdoutW, "trimline demo: %d simulated BRX-200 units, seed %d, files in %s\n\n", *n, *seed, *out)
+		fmt.Fprintf(e.stdout, "trimline demo: %d simulated BRX-200 units, seed %d, files in %s\n\n", *n, *seed, *out)
 		serials := make([]string, *n)
 		for i := range serials {
 			serials[i] = fmt.Sprintf("BRX-%05d", i+1)
 		}
-		t, err := runBatch(ctx, batch{stationPath: station, sequencePath: sequence, serials: serials, out: *out,
-			operator: *operator, ambient: *ambient, stdout: stdoutW, stderr: stderrW})
+		t, err := runBatch(ctx, e, batch{stationPath: station, sequencePath: sequence, serials: serials, out: *out,
+			operator: *operator, ambient: *ambient})
 		if err != nil {
 			return err
 		}
-		t.summary(stdoutW)
-		fmt.Fprintf(stdoutW, "\ncertificates: %s\nledger:       %s\nlog:          %s\n",
+		printSummary(e.stdout, t.Summary())
+		fmt.Fprintf(e.stdout, "\ncertificates: %s\nledger:       %s\nlog:          %s\n",
 			filepath.Join(*out, "certificates"), filepath.Join(*out, "ledger.db"), filepath.Join(*out, "trimline.log"))
 		// The demo succeeds when it ran; failed units are part of the show.
-		if t.code() == exitStation {
-			return silent(exitStation)
+		if err := t.Err(); !errors.Is(err, sequencer.ErrUnitsFailed) {
+			return report(err)
 		}
 		return nil
 	}
@@ -149,25 +147,20 @@ func writeDemoFiles(dir string, seed uint64, now time.Time) (station, sequence s
 
 // releaseDemo releases the demo's sequence and limit files in DIR's ledger unless
 // they already are.
-func releaseDemo(ctx context.Context, dir string) error {
+func releaseDemo(ctx context.Context, e *env, dir string) error {
 	led, err := ledger.Open(ctx, filepath.Join(dir, "ledger.db"))
 	if err != nil {
-		return stationErr(err)
+		return err
 	}
-	trusted, err := signing.LoadPublicDir(filepath.Join(dir, "keys", "approvers"))
-	if err != nil {
-		led.Close()
-		return badInput(err)
-	}
-	rel, err := releasedBy(ctx, led, trusted)
+	rel, err := release.ByDir(ctx, led, filepath.Join(dir, "keys", "approvers"))
 	led.Close()
 	if err != nil {
-		return stationErr(err)
+		return err
 	}
 	for _, f := range []string{"brx200-sequence.yaml", "brx200-limits.yaml"} {
 		data, err := os.ReadFile(filepath.Join(dir, f))
 		if err != nil {
-			return stationErr(err)
+			return err
 		}
 		sum := sha256.Sum256(data)
 		if _, ok := rel[hex.EncodeToString(sum[:])]; ok {
@@ -178,7 +171,7 @@ func releaseDemo(ctx context.Context, dir string) error {
 		if err != nil {
 			return err
 		}
-		fmt.Fprintf(stdoutW, "released %s for production: %s — %s, signed %s\n", f, r.By, r.Meaning, r.KeyID)
+		fmt.Fprintf(e.stdout, "released %s for production: %s — %s, signed %s\n", f, r.By, r.Meaning, r.KeyID)
 	}
 	return nil
 }

@@ -13,32 +13,25 @@ import (
 	"trimline/reports/signing"
 )
 
-func init() {
-	register(newExportCmd)
-	register(newImportCmd)
-}
-
 func newExportCmd() *command {
 	c := &command{
-		Name:  "export",
-		Usage: "CERT-NUMBER|RUN-ID [--ledger DB] [--out FILE.zip]",
-		Short: "write one unit's full record as an archive bundle for an auditor",
+		UsageLine: "trimline export CERT-NUMBER|RUN-ID [--ledger DB] [--out FILE.zip]",
+		Short:     "write one unit's full record as an archive bundle for an auditor",
 		Long: `Writes a zip with the record (its canonical JSON, signed), the station, sequence
 and limit files that were in force, every reading as CSV, the certificate PDF and
 its seal, and the station's public key. Every member's hash is in the manifest;
 'trimline import' checks them all.`,
-		Flags: newFlags("export"),
 	}
-	ledgerPath := c.Flags.String("ledger", filepath.Join("trimline-demo", "ledger.db"), "ledger `file`")
-	out := c.Flags.String("out", "", "bundle `file` (default NUMBER.zip)")
-	c.Run = func(ctx context.Context, c *command, args []string) error {
+	ledgerPath := c.Flag.String("ledger", filepath.Join("trimline-demo", "ledger.db"), "ledger `file`")
+	out := c.Flag.String("out", "", "bundle `file` (default NUMBER.zip)")
+	c.Run = func(ctx context.Context, e *env, args []string) error {
 		pos := args
 		if len(pos) != 1 {
-			return usageErr("name one certificate number or run id")
+			return usagef("name one certificate number or run id")
 		}
 		led, err := ledger.Open(ctx, *ledgerPath)
 		if err != nil {
-			return stationErr(err)
+			return err
 		}
 		defer led.Close()
 		var opt bundle.Options
@@ -67,9 +60,9 @@ its seal, and the station's public key. Every member's hash is in the manifest;
 			path = strings.ReplaceAll(pos[0], string(filepath.Separator), "_") + ".zip"
 		}
 		if err := os.WriteFile(path, buf.Bytes(), 0o644); err != nil {
-			return stationErr(err)
+			return err
 		}
-		fmt.Fprintf(stdoutW, "%s: run %s, serial %s, %d members, record SHA-256 %s\n", path, m.RunID, m.Serial, len(m.Files), m.RecordSHA256)
+		fmt.Fprintf(e.stdout, "%s: run %s, serial %s, %d members, record SHA-256 %s\n", path, m.RunID, m.Serial, len(m.Files), m.RecordSHA256)
 		return nil
 	}
 	return c
@@ -88,22 +81,20 @@ func findPub(dir, id string) string {
 
 func newImportCmd() *command {
 	c := &command{
-		Name:  "import",
-		Usage: "FILE.zip --ledger DB [--keys DIR]",
-		Short: "check a bundle and import it into a ledger for audit",
+		UsageLine: "trimline import FILE.zip --ledger DB [--keys DIR]",
+		Short:     "check a bundle and import it into a ledger for audit",
 		Long: `Opens the bundle, checks every member against its hash and the record's
 signature, and — with --keys — that the signing key is one you trust. It then
 stores the run in the ledger as an imported run: outside the ledger's own chain
 and numbering, ready for 'trimline audit replay'.`,
-		Flags: newFlags("import"),
 	}
-	ledgerPath := c.Flags.String("ledger", "", "ledger `file` to import into (created if missing)")
-	keysDir := c.Flags.String("keys", "", "`folder` of trusted public keys")
-	actor := c.Flags.String("by", defaultOperator(), "`name` recorded in the audit trail")
-	c.Run = func(ctx context.Context, c *command, args []string) error {
+	ledgerPath := c.Flag.String("ledger", "", "ledger `file` to import into (created if missing)")
+	keysDir := c.Flag.String("keys", "", "`folder` of trusted public keys")
+	actor := c.Flag.String("by", defaultOperator(), "`name` recorded in the audit trail")
+	c.Run = func(ctx context.Context, e *env, args []string) error {
 		pos := args
 		if len(pos) != 1 || *ledgerPath == "" {
-			return usageErr("usage: trimline import FILE.zip --ledger DB [--keys DIR]")
+			return usagef("usage: trimline import FILE.zip --ledger DB [--keys DIR]")
 		}
 		data, err := os.ReadFile(pos[0])
 		if err != nil {
@@ -111,7 +102,7 @@ and numbering, ready for 'trimline audit replay'.`,
 		}
 		b, err := bundle.Open(bytes.NewReader(data), int64(len(data)))
 		if err != nil {
-			return &exitError{exitFail, err}
+			return rejected(err)
 		}
 		if *keysDir != "" && b.Manifest.KeyID != "" {
 			keys, err := signing.LoadPublicDir(*keysDir)
@@ -120,27 +111,27 @@ and numbering, ready for 'trimline audit replay'.`,
 			}
 			pub, ok := keys[b.Manifest.KeyID]
 			if !ok {
-				return &exitError{exitFail, fmt.Errorf("signed by %s, which is not among the trusted keys in %s", b.Manifest.KeyID, *keysDir)}
+				return rejected(fmt.Errorf("signed by %s, which is not among the trusted keys in %s", b.Manifest.KeyID, *keysDir))
 			}
 			if err := b.VerifyWith(pub); err != nil {
-				return &exitError{exitFail, err}
+				return rejected(err)
 			}
 			b.Verified = append(b.Verified, "signed by a trusted key: "+b.Manifest.KeyID)
 		}
 		led, err := ledger.Open(ctx, *ledgerPath)
 		if err != nil {
-			return stationErr(err)
+			return err
 		}
 		defer led.Close()
 		if err := bundle.Import(ctx, led, b, *actor); err != nil {
-			return stationErr(err)
+			return err
 		}
-		fmt.Fprintf(stdoutW, "imported %s (run %s, serial %s) into %s\n", b.Manifest.Number, b.Manifest.RunID, b.Manifest.Serial, *ledgerPath)
+		fmt.Fprintf(e.stdout, "imported %s (run %s, serial %s) into %s\n", b.Manifest.Number, b.Manifest.RunID, b.Manifest.Serial, *ledgerPath)
 		for _, v := range b.Verified {
-			fmt.Fprintf(stdoutW, "  ✓ %s\n", v)
+			fmt.Fprintf(e.stdout, "  ✓ %s\n", v)
 		}
 		for _, n := range b.Notes {
-			fmt.Fprintf(stdoutW, "  · %s\n", n)
+			fmt.Fprintf(e.stdout, "  · %s\n", n)
 		}
 		return nil
 	}

@@ -3,7 +3,6 @@ package main
 import (
 	"context"
 	"encoding/json"
-	"errors"
 	"fmt"
 	"math"
 	"os"
@@ -12,13 +11,10 @@ import (
 	"trimline/sequencer/fit"
 )
 
-func init() { register(newFitCmd) }
-
 func newFitCmd() *command {
 	c := &command{
-		Name:  "fit",
-		Usage: "[--order 1|2] [--x0 X] [--at X] [--u-y U] [--json] FILE.csv",
-		Short: "fit a line or quadratic to x,y data (bench characterisation)",
+		UsageLine: "trimline fit [--order 1|2] [--x0 X] [--at X] [--u-y U] [--json] FILE.csv",
+		Short:     "fit a line or quadratic to x,y data (bench characterisation)",
 		Long: `Reads two columns x,y (a third column, if present, is each point's standard
 uncertainty and makes the fit weighted); a header line is optional; separators are
 commas, semicolons, tabs or spaces. Fits y = b0 + b1·(x−x0) [+ b2·(x−x0)²] by a QR
@@ -31,21 +27,20 @@ weighted by 1/u² and the uncertainties are taken as known ((XᵀWX)⁻¹); the 
 χ²/dof tells whether the scatter agrees with them. --at X adds the predicted y at X
 with its standard uncertainty, propagated through the coefficient covariance
 (JCGM 100:2008 §5.2, with the correlation term).`,
-		Flags: newFlags("fit"),
 	}
-	order := c.Flags.Int("order", 1, "polynomial `order`: 1 (line) or 2 (quadratic)")
-	x0 := c.Flags.Float64("x0", 0, "centre `X` of the model")
-	asJSON := c.Flags.Bool("json", false, "print a JSON object")
+	order := c.Flag.Int("order", 1, "polynomial `order`: 1 (line) or 2 (quadratic)")
+	x0 := c.Flag.Float64("x0", 0, "centre `X` of the model")
+	asJSON := c.Flag.Bool("json", false, "print a JSON object")
 	var at optFloat
-	c.Flags.Var(&at, "at", "predict y and its standard uncertainty at `X`")
+	c.Flag.Var(&at, "at", "predict y and its standard uncertainty at `X`")
 	var uy optFloat
-	c.Flags.Var(&uy, "u-y", "standard uncertainty `U` of every y (overrides a third column)")
-	c.Run = func(ctx context.Context, c *command, args []string) error {
+	c.Flag.Var(&uy, "u-y", "standard uncertainty `U` of every y (overrides a third column)")
+	c.Run = func(ctx context.Context, e *env, args []string) error {
 		if len(args) != 1 {
-			return usageErr("name exactly one CSV file")
+			return usagef("name exactly one CSV file")
 		}
 		if *order != 1 && *order != 2 {
-			return usageErr("--order must be 1 or 2")
+			return usagef("--order must be 1 or 2")
 		}
 		f, err := os.Open(args[0])
 		if err != nil {
@@ -58,7 +53,7 @@ with its standard uncertainty, propagated through the coefficient covariance
 		}
 		if uy.set {
 			if !(uy.v > 0) {
-				return usageErr("--u-y must be a positive standard uncertainty")
+				return usagef("--u-y must be a positive standard uncertainty")
 			}
 			u = make([]float64, len(y))
 			for i := range u {
@@ -72,17 +67,14 @@ with its standard uncertainty, propagated through the coefficient covariance
 			r, err = fit.Poly(x, y, *order, *x0)
 		}
 		if err != nil {
-			if errors.Is(err, fit.ErrTooFewPoints) || errors.Is(err, fit.ErrSingular) || errors.Is(err, fit.ErrInvalidInput) {
-				return badInput(fmt.Errorf("%s: %w", args[0], err))
-			}
-			return err
+			return fmt.Errorf("%s: %w", args[0], err)
 		}
 		var py, pu float64
 		if at.set {
 			py, pu = r.PredictU(at.v)
 		}
 		if *asJSON {
-			e := json.NewEncoder(stdoutW)
+			e := json.NewEncoder(e.stdout)
 			e.SetIndent("", "  ")
 			out := map[string]any{
 				"order": r.Order, "x0": r.X0, "n": r.N, "weighted": u != nil,
@@ -94,7 +86,7 @@ with its standard uncertainty, propagated through the coefficient covariance
 			}
 			return e.Encode(out)
 		}
-		w := stdoutW
+		w := e.stdout
 		fmt.Fprintf(w, "model: y = b0 + b1·(x − %g)", r.X0)
 		if r.Order == 2 {
 			fmt.Fprintf(w, " + b2·(x − %g)²", r.X0)

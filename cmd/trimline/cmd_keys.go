@@ -8,14 +8,19 @@ import (
 	"trimline/reports/signing"
 )
 
-func init() { register(newKeysCmd) }
-
 func newKeysCmd() *command {
+	return &command{
+		UsageLine: "trimline keys <command> [flags]",
+		Short:     "make the station's Ed25519 signing key",
+		Commands:  []*command{newKeysInitCmd()},
+	}
+}
+
+func newKeysInitCmd() *command {
 	c := &command{
-		Name:  "keys",
-		Usage: "init [--dir DIR] [--name NAME]",
-		Short: "make the station's Ed25519 signing key",
-		Long: `init writes NAME.key (the private key, mode 0600: the station refuses a key file
+		UsageLine: "trimline keys init [--dir DIR] [--name NAME]",
+		Short:     "make a new Ed25519 key pair",
+		Long: `Writes NAME.key (the private key, mode 0600: the station refuses a key file
 that others can read) and NAME.pub (the public key, for auditors) into DIR, never
 overwriting an existing key. Point the station file at the private key:
 
@@ -25,13 +30,12 @@ overwriting an existing key. Point the station file at the private key:
 Every certificate is then sealed: its record and its PDF are signed, the PDF shows
 the record hash and a verification code, and a detached NAME.pdf.seal is written
 beside it. Give auditors the .pub file.`,
-		Flags: newFlags("keys"),
 	}
-	dir := c.Flags.String("dir", "keys", "`folder` for the key files")
-	name := c.Flags.String("name", "station", "key file `name` (without extension)")
-	c.Run = func(ctx context.Context, c *command, args []string) error {
-		if len(args) != 1 || args[0] != "init" {
-			return usageErr("usage: trimline keys init [--dir DIR] [--name NAME]")
+	dir := c.Flag.String("dir", "keys", "`folder` for the key files")
+	name := c.Flag.String("name", "station", "key file `name` (without extension)")
+	c.Run = func(ctx context.Context, e *env, args []string) error {
+		if len(args) != 0 {
+			return usagef("usage: %s", c.UsageLine)
 		}
 		priv, pub, err := signing.Init(*dir, *name)
 		if err != nil {
@@ -39,10 +43,10 @@ beside it. Give auditors the .pub file.`,
 		}
 		k, err := signing.Load(priv)
 		if err != nil {
-			return stationErr(err)
+			return err
 		}
 		pem, _ := os.ReadFile(pub)
-		fmt.Fprintf(stdoutW, "private key: %s (keep it on the station; mode 0600)\npublic key:  %s\nkey id:      %s\n\n%s", priv, pub, k.ID(), pem)
+		fmt.Fprintf(e.stdout, "private key: %s (keep it on the station; mode 0600)\npublic key:  %s\nkey id:      %s\n\n%s", priv, pub, k.ID(), pem)
 		return nil
 	}
 	return c

@@ -5,13 +5,10 @@ import (
 	"os"
 )
 
-func init() { register(newRunCmd) }
-
 func newRunCmd() *command {
 	c := &command{
-		Name:  "run",
-		Usage: "--station FILE --sequence FILE --serial SN [--serial SN ...] [--out DIR] [--operator NAME] [--json]",
-		Short: "trim and certify units on a station (the production command)",
+		UsageLine: "trimline run --station FILE --sequence FILE --serial SN [--serial SN ...] [--out DIR] [--operator NAME] [--json]",
+		Short:     "trim and certify units on a station (the production command)",
 		Long: `Runs the sequence once per serial number, in order: pre-trim sweep, fit, trim
 codes written, read back and stored, verification sweep, limits judged. Each run is
 recorded in the ledger (DIR/ledger.db); a PASS, FAIL or REVIEW run gets a
@@ -20,33 +17,32 @@ station file the units run on the simulated bench.
 
 Exit code: 0 every unit passed, 1 a unit failed or was held for review, 2 bad input
 (including files that were never released), 3 station fault or a stopped batch.`,
-		Flags: newFlags("run"),
 	}
-	station := c.Flags.String("station", "", "station `file` (what is on this bench)")
-	sequence := c.Flags.String("sequence", "", "sequence `file` (how the product is trimmed)")
+	station := c.Flag.String("station", "", "station `file` (what is on this bench)")
+	sequence := c.Flag.String("sequence", "", "sequence `file` (how the product is trimmed)")
 	var serials multiFlag
-	c.Flags.Var(&serials, "serial", "serial `number` of a unit to run; repeat for several")
-	out := c.Flags.String("out", "", "output `folder` (default: the station file's output.folder)")
-	operator := c.Flags.String("operator", defaultOperator(), "operator `name` printed on certificates")
-	ambient := c.Flags.String("ambient", "", "ambient `temperature` to record on every run, e.g. \"23.1 °C\" or 23.1degC")
-	asJSON := c.Flags.Bool("json", false, "print one JSON object per unit instead of a live line")
-	engineering := c.Flags.Bool("engineering", false, "run files that were never released; certificates are marked ENGINEERING RUN — NOT FOR SHIPMENT and numbered apart")
-	c.Run = func(ctx context.Context, c *command, args []string) error {
+	c.Flag.Var(&serials, "serial", "serial `number` of a unit to run; repeat for several")
+	out := c.Flag.String("out", "", "output `folder` (default: the station file's output.folder)")
+	operator := c.Flag.String("operator", defaultOperator(), "operator `name` printed on certificates")
+	ambient := c.Flag.String("ambient", "", "ambient `temperature` to record on every run, e.g. \"23.1 °C\" or 23.1degC")
+	asJSON := c.Flag.Bool("json", false, "print one JSON object per unit instead of a live line")
+	engineering := c.Flag.Bool("engineering", false, "run files that were never released; certificates are marked ENGINEERING RUN — NOT FOR SHIPMENT and numbered apart")
+	c.Run = func(ctx context.Context, e *env, args []string) error {
 		if *station == "" || *sequence == "" || len(serials) == 0 {
-			return usageErr("need --station, --sequence and at least one --serial")
+			return usagef("need --station, --sequence and at least one --serial")
 		}
 		if len(args) > 0 {
-			return usageErr("unexpected argument %q", args[0])
+			return usagef("unexpected argument %q", args[0])
 		}
-		t, err := runBatch(ctx, batch{stationPath: *station, sequencePath: *sequence, serials: serials, out: *out,
-			operator: *operator, ambient: *ambient, engineering: *engineering, json: *asJSON, stdout: stdoutW, stderr: stderrW})
+		t, err := runBatch(ctx, e, batch{stationPath: *station, sequencePath: *sequence, serials: serials, out: *out,
+			operator: *operator, ambient: *ambient, engineering: *engineering, json: *asJSON})
 		if err != nil {
 			return err
 		}
 		if !*asJSON {
-			t.summary(stdoutW)
+			printSummary(e.stdout, t.Summary())
 		}
-		return silent(t.code())
+		return report(t.Err())
 	}
 	return c
 }

@@ -5,24 +5,25 @@
 // PDF certificate, while a ledger keeps every reading.
 //
 // This file only parses the command line, cancels a context on Ctrl-C or SIGTERM and
-// maps errors to exit codes; every command lives in a file of its own.
+// maps errors to exit codes (exitCode is the one place that does); commands are
+// values (command.go), each in a file of its own.
 package main
 
 import (
 	"context"
 	"errors"
-	"flag"
 	"fmt"
 	"io"
 	"os"
 	"os/signal"
 	"runtime/debug"
-	"sort"
-	"strings"
 	"syscall"
 
 	_ "trimline/instruments/generic" // SCPI and trim-port drivers, schemes serial:// tcp:// usbtmc://
 	_ "trimline/instruments/sim"     // the simulated bench, scheme sim://
+	"trimline/reports/release"
+	"trimline/sequencer"
+	"trimline/sequencer/fit"
 )
 
 // Exit codes, part of the interface: scripts and line controllers read them.
@@ -33,54 +34,6 @@ const (
 	exitStation = 3 // station fault: an instrument or I/O error, or an aborted run
 )
 
-// command is one subcommand, described as data; help is generated from it.
-type command struct {
-	Name  string
-	Usage string // arguments after the name
-	Short string // one line
-	Long  string // paragraphs
-	Flags *flag.FlagSet
-	Run   func(ctx context.Context, cmd *command, args []string) error
-	// RawArgs hands Run the arguments unparsed, for a command whose subcommands
-	// parse flags of their own.
-	RawArgs bool
-}
-
-// commands holds a constructor per command, so every run parses into fresh flags.
-var commands []func() *command
-
-func register(newCmd func() *command) {
-	commands = append(commands, newCmd)
-	sort.Slice(commands, func(i, j int) bool { return commands[i]().Name < commands[j]().Name })
-}
-
-func newFlags(name string) *flag.FlagSet {
-	fs := flag.NewFlagSet(name, flag.ContinueOnError)
-	fs.SetOutput(io.Discard)
-	return fs
-}
-
-// exitError carries an exit code up to main.
-type exitError struct {
-	code int
-	err  error
-}
-
-func (e *exitError) Error() string { return e.err.Error() }
-func (e *exitError) Unwrap() error { return e.err }
-
-func usageErr(format string, args ...any) error {
-	return &exitError{exitUsage, fmt.Errorf(format, args...)}
-}
-
-func badInput(err error) error   { return &exitError{exitUsage, err} }
-func stationErr(err error) error { return &exitError{exitStation, err} }
-
-// silent is an exit code whose message was already printed.
-type silent int
-
-func (s silent) Error() string { return fmt.Sprintf("exit %d", int(s)) }
-
 func main() {
 	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
 	code := run(ctx, os.Args[1:], os.Stdout, os.Stderr)
@@ -90,14 +43,17 @@ func main() {
 
 // run is main without the process: it returns the exit code.
 func run(ctx context.Context, args []string, stdout, stderr io.Writer) int {
+	root := trimline()
+	e := &env{stdout: stdout, stderr: stderr}
 	if len(args) == 0 || args[0] == "help" || args[0] == "-h" || args[0] == "--help" {
-		if len(args) > 1 {
-			if c := find(args[1]); c != nil {
-				usage(c, stdout)
+		if len(args) > 1 && args[0] == "help" {
+			if top := root.sub(args[1]); top != nil {
+				c, _ := top.lookup(args[2:])
+				c.usage(stdout)
 				return exitPass
 			}
 		}
-		mainUsage(stdout)
+		root.usage(stdout)
 		if len(args) == 0 {
 			return exitUsage
 		}
@@ -107,82 +63,90 @@ func run(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 		fmt.Fprintln(stdout, "trimline", version())
 		return exitPass
 	}
-	c := find(args[0])
-	if c == nil {
+	top := root.sub(args[0])
+	if top == nil {
 		fmt.Fprintf(stderr, "trimline: unknown command %q\nRun 'trimline help' for the list.\n", args[0])
 		return exitUsage
 	}
-	c.Flags.SetOutput(io.Discard)
-	if c.RawArgs {
-		stdoutW, stderrW = stdout, stderr
-		return exitCode(c.Run(ctx, c, args[1:]), c.Name, stderr)
-	}
-	// Flags may stand before, between or after the arguments.
-	pos, err := parseInterleaved(c.Flags, args[1:])
-	if err != nil {
-		if errors.Is(err, flag.ErrHelp) {
-			usage(c, stdout)
-			return exitPass
+	c, rest := top.lookup(args[1:])
+	err := c.run(ctx, e, rest)
+	code := exitCode(err)
+	var r *reported
+	if err != nil && !errors.As(err, &r) {
+		fmt.Fprintf(stderr, "trimline %s: %v\n", c.LongName(), err)
+		var ue *usageError
+		if errors.As(err, &ue) && ue.showUsage {
+			c.usage(stderr)
 		}
-		fmt.Fprintf(stderr, "trimline %s: %v\n", c.Name, err)
-		usage(c, stderr)
-		return exitUsage
 	}
-	stdoutW, stderrW = stdout, stderr
-	return exitCode(c.Run(ctx, c, pos), c.Name, stderr)
-}
-
-// stdoutW and stderrW are where commands write; tests swap them through run.
-var stdoutW, stderrW io.Writer = os.Stdout, os.Stderr
-
-func exitCode(err error, name string, stderr io.Writer) int {
-	if err == nil {
-		return exitPass
-	}
-	var s silent
-	if errors.As(err, &s) {
-		return int(s)
-	}
-	var ee *exitError
-	code := exitStation
-	if errors.As(err, &ee) {
-		code = ee.code
-	}
-	fmt.Fprintf(stderr, "trimline %s: %v\n", name, err)
 	return code
 }
 
-func find(name string) *command {
-	for _, newCmd := range commands {
-		if c := newCmd(); c.Name == name {
-			return c
-		}
+// exitCode maps a command's error to the process's exit code; it is the only
+// place that does.
+func exitCode(err error) int {
+	var ue *usageError
+	switch {
+	case err == nil:
+		return exitPass
+	case errors.Is(err, sequencer.ErrBatchStopped), errors.Is(err, sequencer.ErrUnitFault):
+		return exitStation
+	case errors.Is(err, sequencer.ErrUnitsFailed), errors.Is(err, errRejected):
+		return exitFail
+	case errors.As(err, &ue), errors.Is(err, errBadInput),
+		errors.Is(err, release.ErrNotReleased), errors.Is(err, release.ErrNotReleasable), errors.Is(err, release.ErrReleaseKeys),
+		errors.Is(err, sequencer.ErrSafety), errors.Is(err, sequencer.ErrUnboundRole), errors.Is(err, sequencer.ErrTUR),
+		errors.Is(err, fit.ErrTooFewPoints), errors.Is(err, fit.ErrSingular), errors.Is(err, fit.ErrInvalidInput):
+		return exitUsage
 	}
-	return nil
+	return exitStation // an instrument, the ledger or the file system failed
 }
 
-func mainUsage(w io.Writer) {
-	fmt.Fprintf(w, "trimline %s — end-of-line gain and offset trim station\n\nUsage: trimline <command> [flags] [args]\n\nCommands:\n", version())
-	for _, newCmd := range commands {
-		c := newCmd()
-		fmt.Fprintf(w, "  %-8s %s\n", c.Name, c.Short)
-	}
-	fmt.Fprintf(w, "\nExit codes: 0 every unit passed, 1 a unit failed or was held for review, 2 bad input or usage, 3 station fault.\nRun 'trimline help <command>' for its flags.\n")
+// Kinds of error a command gives main to map; none changes the error's message.
+var (
+	// errBadInput: what the person gave cannot be used — a file that is missing
+	// or has problems, a key, a certificate number the ledger does not know.
+	errBadInput = errors.New("bad input")
+	// errRejected: what was checked is not what it claims to be — a certificate
+	// that is not genuine, a broken ledger chain, a replay that differs, a bundle
+	// that does not verify.
+	errRejected = errors.New("rejected")
+)
+
+// kinded is an error with a kind main maps; its message is the error's own.
+type kinded struct{ kind, err error }
+
+func (k *kinded) Error() string   { return k.err.Error() }
+func (k *kinded) Unwrap() []error { return []error{k.kind, k.err} }
+
+func badInput(err error) error { return &kinded{errBadInput, err} }
+func rejected(err error) error { return &kinded{errRejected, err} }
+
+// usageError is a command line that does not say what to do.
+type usageError struct {
+	msg       string
+	showUsage bool // print the command's usage after the message (bad flags)
 }
 
-func usage(c *command, w io.Writer) {
-	fmt.Fprintf(w, "Usage: trimline %s %s\n\n%s\n", c.Name, c.Usage, c.Short)
-	if c.Long != "" {
-		fmt.Fprintf(w, "\n%s\n", strings.TrimSpace(c.Long))
+func (e *usageError) Error() string { return e.msg }
+
+func usagef(format string, args ...any) error {
+	return &usageError{msg: fmt.Sprintf(format, args...)}
+}
+
+// reported is an outcome the command has already told on stdout (a verdict, a
+// list of problems); main maps it to an exit code without printing it again.
+type reported struct{ err error }
+
+func (r *reported) Error() string { return r.err.Error() }
+func (r *reported) Unwrap() error { return r.err }
+
+// report marks err as already told; nil stays nil.
+func report(err error) error {
+	if err == nil {
+		return nil
 	}
-	has := false
-	c.Flags.VisitAll(func(*flag.Flag) { has = true })
-	if has {
-		fmt.Fprintf(w, "\nFlags:\n")
-		c.Flags.SetOutput(w)
-		c.Flags.PrintDefaults()
-		c.Flags.SetOutput(io.Discard)
-	}
+	return &reported{err}
 }
 
 // version is the module version with the VCS revision when the binary was built from
@@ -214,26 +178,4 @@ func version() string {
 		v += " (" + rev + dirty + ")"
 	}
 	return v
-}
-
-// multiFlag collects a repeatable string flag.
-type multiFlag []string
-
-func (m *multiFlag) String() string     { return strings.Join(*m, ",") }
-func (m *multiFlag) Set(v string) error { *m = append(*m, v); return nil }
-
-// parseInterleaved parses flags that may stand before, between or after the
-// positional arguments, and returns the positional ones in order.
-func parseInterleaved(fs *flag.FlagSet, args []string) ([]string, error) {
-	var pos []string
-	for {
-		if err := fs.Parse(args); err != nil {
-			return nil, err
-		}
-		if fs.NArg() == 0 {
-			return pos, nil
-		}
-		pos = append(pos, fs.Arg(0))
-		args = fs.Args()[1:]
-	}
 }

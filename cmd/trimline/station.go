@@ -16,7 +16,9 @@ import (
 
 	"trimline/instruments/files"
 	"trimline/instruments/units"
+	"trimline/reports/issuing"
 	"trimline/reports/ledger"
+	"trimline/reports/release"
 	"trimline/reports/signing"
 	"trimline/sequencer"
 )
@@ -30,14 +32,6 @@ type batch struct {
 	ambient                   string // entered ambient temperature, e.g. "23.1 °C"; "" = not recorded
 	engineering               bool   // run unreleased files; certificates are marked and numbered apart
 	json                      bool   // one JSON object per unit on stdout instead of live lines
-	stdout, stderr            io.Writer
-}
-
-// tally is what a batch did, for the summary and the exit code.
-type tally struct {
-	records []*sequencer.Record
-	certs   []string
-	skipped []string // serials not run because the batch was stopped
 }
 
 // loadFiles loads the station and sequence files; problems are bad input.
@@ -81,8 +75,10 @@ func (d detailed) Error() string {
 	return b.String()
 }
 
-// runBatch runs every serial and writes records, certificates and logs.
-func runBatch(ctx context.Context, b batch) (*tally, error) {
+// runBatch wires a batch together: the files, the output folder, the log, the
+// ledger, the release check, the issuer and the engine; then it runs every serial
+// and prints a line (or a JSON object) per unit.
+func runBatch(ctx context.Context, e *env, b batch) (*sequencer.Tally, error) {
 	st, seq, err := loadFiles(b.stationPath, b.sequencePath)
 	if err != nil {
 		return nil, err
@@ -95,23 +91,23 @@ func runBatch(ctx context.Context, b batch) (*tally, error) {
 		out = "trimline-out"
 	}
 	if err := os.MkdirAll(filepath.Join(out, "certificates"), 0o755); err != nil {
-		return nil, stationErr(err)
+		return nil, err
 	}
 	logFile, err := os.OpenFile(filepath.Join(out, "trimline.log"), os.O_CREATE|os.O_APPEND|os.O_WRONLY, 0o644)
 	if err != nil {
-		return nil, stationErr(err)
+		return nil, err
 	}
 	defer logFile.Close()
-	console := zerolog.ConsoleWriter{Out: b.stderr, TimeFormat: "15:04:05", NoColor: true}
+	console := zerolog.ConsoleWriter{Out: e.stderr, TimeFormat: "15:04:05", NoColor: true}
 	log := zerolog.New(zerolog.MultiLevelWriter(levelWriter{console, zerolog.WarnLevel}, logFile)).With().Timestamp().Str("station", st.ID).Logger()
 
 	led, err := ledger.Open(ctx, filepath.Join(out, "ledger.db"))
 	if err != nil {
-		return nil, stationErr(fmt.Errorf("open ledger: %w", err))
+		return nil, fmt.Errorf("open ledger: %w", err)
 	}
 	defer led.Close()
 	if st.RequireRelease && !b.engineering {
-		if err := checkReleased(ctx, led, st, seq); err != nil {
+		if err := release.Check(ctx, led, st, seq); err != nil {
 			return nil, err
 		}
 	}
@@ -119,14 +115,14 @@ func runBatch(ctx context.Context, b batch) (*tally, error) {
 		// Engineering certificates come from a number series of their own.
 		st.CertificatePrefix += "-ENG"
 	}
-	is := &issuer{led: led, st: st, seq: seq, certDir: filepath.Join(out, "certificates")}
+	is := &issuing.Issuer{Ledger: led, Station: st, Sequence: seq, CertDir: filepath.Join(out, "certificates")}
 	if st.SigningKey != "" {
-		if is.key, err = signing.Load(st.SigningKey); err != nil {
+		if is.Key, err = signing.Load(st.SigningKey); err != nil {
 			return nil, badInput(fmt.Errorf("%s signing.key: %w", st.File.Name, err))
 		}
 	}
-	if n, err := is.repair(ctx); err != nil {
-		return nil, stationErr(err)
+	if n, err := is.Repair(ctx); err != nil {
+		return nil, err
 	} else if n > 0 {
 		log.Warn().Int("certificates", n).Msg("published certificates whose documents were missing after an interrupted run")
 	}
@@ -135,7 +131,7 @@ func runBatch(ctx context.Context, b batch) (*tally, error) {
 	if b.ambient != "" {
 		c, err := units.ParseAs(b.ambient, units.Celsius)
 		if err != nil {
-			return nil, usageErr("--ambient: %v", err)
+			return nil, usagef("--ambient: %v", err)
 		}
 		cond = sequencer.Conditions{AmbientC: c, AmbientSource: "entered"}
 	}
@@ -143,44 +139,37 @@ func runBatch(ctx context.Context, b batch) (*tally, error) {
 		Software: "trimline " + version(), Log: log, Conditions: cond, Engineering: b.engineering}
 	eng, err := sequencer.Open(ctx, cfg)
 	if err != nil {
-		if errors.Is(err, sequencer.ErrSafety) || errors.Is(err, sequencer.ErrTUR) {
-			return nil, badInput(err)
+		if !errors.Is(err, sequencer.ErrSafety) && !errors.Is(err, sequencer.ErrUnboundRole) && !errors.Is(err, sequencer.ErrTUR) {
+			// The unit in the fixture was not run: record the attempt and why.
+			rec := sequencer.FaultRecord(cfg, b.serials[0], time.Now(), err)
+			if _, lerr := is.Record(context.WithoutCancel(ctx), rec); lerr != nil {
+				log.Error().Err(lerr).Msg("could not record the failed start in the ledger")
+			}
+			log.Error().Str("serial", rec.Serial).Err(err).Msg("station fault before the unit started")
 		}
-		// The unit in the fixture was not run: record the attempt and why.
-		rec := sequencer.FaultRecord(cfg, b.serials[0], time.Now(), err)
-		if _, lerr := is.record(context.WithoutCancel(ctx), rec); lerr != nil {
-			log.Error().Err(lerr).Msg("could not record the failed start in the ledger")
-		}
-		log.Error().Str("serial", rec.Serial).Err(err).Msg("station fault before the unit started")
-		return nil, stationErr(err)
+		return nil, err
 	}
 	defer eng.Close()
 	log.Info().Str("sequence", seq.File.Name).Str("limits", seq.Limits.File).Int("units", len(b.serials)).Msg("batch start")
 
-	t := &tally{}
-	for i, sn := range b.serials {
-		if ctx.Err() != nil {
-			// Stopped between units: the rest were never run, and the batch is not a pass.
-			t.skipped = b.serials[i:]
-			log.Warn().Strs("serials", t.skipped).Msg("batch stopped: these units were not run")
-			fmt.Fprintf(b.stderr, "stopped: %d unit(s) not run: %s\n", len(t.skipped), strings.Join(t.skipped, " "))
-			break
-		}
-		rec := eng.Run(ctx, sn)
-		cert, err := is.record(context.WithoutCancel(ctx), rec)
+	t, err := eng.RunBatch(ctx, b.serials, func(i int, rec *sequencer.Record) error {
+		cert, err := is.Record(context.WithoutCancel(ctx), rec)
 		if err != nil {
-			return t, stationErr(fmt.Errorf("%s: %w", sn, err))
+			return fmt.Errorf("%s: %w", rec.Serial, err)
 		}
-		t.records = append(t.records, rec)
-		t.certs = append(t.certs, cert)
-		log.Info().Str("serial", sn).Str("verdict", string(rec.Verdict)).Str("certificate", cert).Msg("unit done")
+		log.Info().Str("serial", rec.Serial).Str("verdict", string(rec.Verdict)).Str("certificate", cert).Msg("unit done")
 		if b.json {
-			writeJSONLine(b.stdout, rec, cert)
+			writeJSONLine(e.stdout, rec, cert)
 		} else {
-			fmt.Fprintln(b.stdout, liveLine(i+1, len(b.serials), rec, cert))
+			fmt.Fprintln(e.stdout, liveLine(i+1, len(b.serials), rec, cert))
 		}
+		return nil
+	})
+	if len(t.Skipped) > 0 {
+		log.Warn().Strs("serials", t.Skipped).Msg("batch stopped: these units were not run")
+		fmt.Fprintf(e.stderr, "stopped: %d unit(s) not run: %s\n", len(t.Skipped), strings.Join(t.Skipped, " "))
 	}
-	return t, nil
+	return t, err
 }
 
 // levelWriter passes only events at or above min to w.
@@ -197,15 +186,6 @@ func (l levelWriter) WriteLevel(lv zerolog.Level, p []byte) (int, error) {
 	return l.w.Write(p)
 }
 
-func result(rec *sequencer.Record, name string) (float64, bool) {
-	for _, r := range rec.Results {
-		if r.Name == name {
-			return r.Value, r.Valid
-		}
-	}
-	return math.NaN(), false
-}
-
 func liveLine(i, n int, rec *sequencer.Record, cert string) string {
 	w := len(fmt.Sprint(n))
 	head := fmt.Sprintf("%*d/%d  %-12s %-7s", w, i, n, rec.Serial, rec.Verdict)
@@ -213,7 +193,7 @@ func liveLine(i, n int, rec *sequencer.Record, cert string) string {
 		return head + "  " + rec.Fault
 	}
 	show := func(name, unit string, scale float64, digits int) string {
-		v, ok := result(rec, name)
+		v, ok := rec.Result(name)
 		if !ok {
 			return "—"
 		}
@@ -268,93 +248,31 @@ func writeJSONLine(w io.Writer, rec *sequencer.Record, cert string) {
 	json.NewEncoder(w).Encode(u)
 }
 
-// code returns the batch's exit code: a station fault beats a failed unit.
-func (t *tally) code() int {
-	if len(t.skipped) > 0 {
-		return exitStation
-	}
-	code := exitPass
-	for _, r := range t.records {
-		switch r.Verdict {
-		case sequencer.Fault, sequencer.Aborted:
-			return exitStation
-		case sequencer.Fail, sequencer.Review:
-			code = exitFail // a unit held for review does not ship either
-		}
-	}
-	return code
+// summaryRows say how printSummary shows each spread the batch summarises.
+var summaryRows = map[string]struct {
+	label, unit string
+	scale       float64
+}{
+	sequencer.ResPreOffset:        {"pre-trim offset", "mV", 1e3},
+	sequencer.ResPreGainError:     {"pre-trim gain error", "%", 1e2},
+	sequencer.ResPostOffset:       {"post-trim offset", "µV", 1e6},
+	sequencer.ResPostGainError:    {"post-trim gain error", "ppm", 1e6},
+	sequencer.ResPostNonlinearity: {"post-trim nonlinearity", "% FS", 1e2},
 }
 
-// summary prints yield and the spread of the pre- and post-trim results.
-func (t *tally) summary(w io.Writer) {
-	n := len(t.records)
-	var pass, fail, review, fault int
-	for _, r := range t.records {
-		switch r.Verdict {
-		case sequencer.Pass:
-			pass++
-		case sequencer.Fail:
-			fail++
-		case sequencer.Review:
-			review++
-		default:
-			fault++
-		}
-	}
-	fmt.Fprintf(w, "\n%d unit(s): %d passed, %d failed, %d held for review, %d station fault/aborted", n, pass, fail, review, fault)
-	if judged := pass + fail + review; judged > 0 {
-		fmt.Fprintf(w, "; yield %.1f %%", 100*float64(pass)/float64(judged))
+// printSummary prints yield and the spread of the pre- and post-trim results.
+func printSummary(w io.Writer, s sequencer.Summary) {
+	fmt.Fprintf(w, "\n%d unit(s): %d passed, %d failed, %d held for review, %d station fault/aborted", s.Units, s.Passed, s.Failed, s.Review, s.Faulted)
+	if !math.IsNaN(s.Yield) {
+		fmt.Fprintf(w, "; yield %.1f %%", 100*s.Yield)
 	}
 	fmt.Fprintln(w)
-	stat := func(name string, passedOnly bool) (mean, sd float64, k int) {
-		var xs []float64
-		for _, r := range t.records {
-			if passedOnly && r.Verdict != sequencer.Pass {
-				continue
-			}
-			if v, ok := result(r, name); ok {
-				xs = append(xs, v)
-			}
-		}
-		return meanSD(xs)
-	}
-	// Pre-trim spread over every measured unit (the process); post-trim residuals
-	// over the units that passed (what ships).
-	rows := []struct {
-		label, name, unit string
-		scale             float64
-		passedOnly        bool
-	}{
-		{"pre-trim offset", sequencer.ResPreOffset, "mV", 1e3, false},
-		{"pre-trim gain error", sequencer.ResPreGainError, "%", 1e2, false},
-		{"post-trim offset", sequencer.ResPostOffset, "µV", 1e6, true},
-		{"post-trim gain error", sequencer.ResPostGainError, "ppm", 1e6, true},
-		{"post-trim nonlinearity", sequencer.ResPostNonlinearity, "% FS", 1e2, true},
-	}
 	fmt.Fprintln(w, "  pre-trim over every measured unit, post-trim over the units that passed:")
-	for _, r := range rows {
-		m, s, k := stat(r.name, r.passedOnly)
-		if k == 0 {
+	for _, sp := range s.Spreads {
+		r, ok := summaryRows[sp.Result]
+		if sp.N == 0 || !ok {
 			continue
 		}
-		fmt.Fprintf(w, "  %-24s mean %+10.4f %-4s  σ %9.4f %-4s  (n = %d)\n", r.label, m*r.scale, r.unit, s*r.scale, r.unit, k)
+		fmt.Fprintf(w, "  %-24s mean %+10.4f %-4s  σ %9.4f %-4s  (n = %d)\n", r.label, sp.Mean*r.scale, r.unit, sp.SD*r.scale, r.unit, sp.N)
 	}
-}
-
-func meanSD(xs []float64) (mean, sd float64, n int) {
-	n = len(xs)
-	if n == 0 {
-		return 0, 0, 0
-	}
-	for _, x := range xs {
-		mean += x
-	}
-	mean /= float64(n)
-	if n > 1 {
-		for _, x := range xs {
-			sd += (x - mean) * (x - mean)
-		}
-		sd = math.Sqrt(sd / float64(n-1))
-	}
-	return mean, sd, n
 }

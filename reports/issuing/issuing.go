@@ -1,4 +1,11 @@
-package main
+// Package issuing records runs in the ledger and publishes their certificates, in
+// an order that survives a crash at any moment: the ledger commit (with the
+// certificate number and the record signature) comes first, then the PDF is written
+// atomically, then the document is recorded with its own signature, then the
+// detached seal is written. A crash between the commit and the document leaves a
+// certified run without a document, which Repair finds and publishes again,
+// byte-identical, at the next start.
+package issuing
 
 import (
 	"context"
@@ -14,30 +21,27 @@ import (
 	"trimline/sequencer"
 )
 
-// issuer records runs in the ledger and publishes their certificates: the ledger
-// commit (with the certificate number and the record signature) comes first, then
-// the PDF is written atomically, then the document is recorded with its own
-// signature, then the detached seal is written. A crash between the commit and the
-// document leaves a certified run without a document, which repair finds and
-// publishes again, byte-identical, at the next start.
-type issuer struct {
-	led     *ledger.Ledger
-	key     *signing.Key // nil: unsigned certificates
-	st      *sequencer.Station
-	seq     *sequencer.Sequence
-	certDir string
+// Issuer records the runs of one station and sequence. It is not safe for
+// concurrent use; one batch uses one Issuer.
+type Issuer struct {
+	Ledger   *ledger.Ledger
+	Key      *signing.Key // nil: unsigned certificates
+	Station  *sequencer.Station
+	Sequence *sequencer.Sequence
+	CertDir  string // folder the certificates are written to
 }
 
-// record stores rec and, for a certified verdict, publishes its certificate. It
+// Record stores rec and, for a certified verdict, publishes its certificate. It
 // returns the certificate number ("" for runs that get none).
-func (is *issuer) record(ctx context.Context, rec *sequencer.Record) (string, error) {
+func (is *Issuer) Record(ctx context.Context, rec *sequencer.Record) (string, error) {
 	var keyID string
 	var sig []byte
-	opt := ledger.RecordOptions{Prefix: is.st.CertificatePrefix, Actor: rec.Operator, Files: map[string][]byte{}}
+	st, seq := is.Station, is.Sequence
+	opt := ledger.RecordOptions{Prefix: st.CertificatePrefix, Actor: rec.Operator, Files: map[string][]byte{}}
 	for _, f := range []struct {
 		ref sequencer.FileRef
 		raw []byte
-	}{{is.st.File, is.st.Raw}, {is.seq.File, is.seq.Raw}, {is.seq.LimitsFile, is.seq.LimitsRaw}} {
+	}{{st.File, st.Raw}, {seq.File, seq.Raw}, {seq.LimitsFile, seq.LimitsRaw}} {
 		if f.ref.SHA256 != "" && f.raw != nil {
 			opt.Files[f.ref.SHA256] = f.raw
 		}
@@ -46,13 +50,13 @@ func (is *issuer) record(ctx context.Context, rec *sequencer.Record) (string, er
 	if err != nil {
 		return "", err
 	}
-	if is.key != nil {
+	if is.Key != nil {
 		opt.Sign = func(number, runID, recordSHA string) (string, []byte, error) {
-			keyID, sig = is.key.ID(), is.key.Sign(signing.RecordMessage(number, runID, recordSHA))
+			keyID, sig = is.Key.ID(), is.Key.Sign(signing.RecordMessage(number, runID, recordSHA))
 			return keyID, sig, nil
 		}
 	}
-	cert, err := is.led.RecordRunWith(ctx, rec, opt)
+	cert, err := is.Ledger.RecordRunWith(ctx, rec, opt)
 	if err != nil || cert == "" {
 		return cert, err
 	}
@@ -75,9 +79,9 @@ func certOptions(rec *sequencer.Record, meta ledger.RunMeta) certificate.Options
 }
 
 // publish writes the certificate, records it as a document and writes its seal.
-func (is *issuer) publish(ctx context.Context, rec *sequencer.Record, meta ledger.RunMeta) error {
+func (is *Issuer) publish(ctx context.Context, rec *sequencer.Record, meta ledger.RunMeta) error {
 	opt := certOptions(rec, meta)
-	path := filepath.Join(is.certDir, certificate.FileName(rec, opt))
+	path := filepath.Join(is.CertDir, certificate.FileName(rec, opt))
 	if err := certificate.WriteFile(path, rec, opt); err != nil {
 		return fmt.Errorf("%s: write certificate: %w", rec.Serial, err)
 	}
@@ -87,13 +91,13 @@ func (is *issuer) publish(ctx context.Context, rec *sequencer.Record, meta ledge
 	}
 	sum := sha256.Sum256(pdf)
 	doc := ledger.Document{RunID: rec.RunID, Number: meta.Certificate, Path: path, SHA256: hex.EncodeToString(sum[:]), Size: int64(len(pdf))}
-	if is.key != nil {
-		doc.KeyID, doc.Signature = is.key.ID(), is.key.Sign(signing.PDFMessage(meta.Certificate, pdf))
+	if is.Key != nil {
+		doc.KeyID, doc.Signature = is.Key.ID(), is.Key.Sign(signing.PDFMessage(meta.Certificate, pdf))
 	}
-	if err := is.led.AddSignedDocument(ctx, doc); err != nil {
+	if err := is.Ledger.AddSignedDocument(ctx, doc); err != nil {
 		return fmt.Errorf("%s: record certificate: %w", rec.Serial, err)
 	}
-	if is.key == nil {
+	if is.Key == nil {
 		return nil
 	}
 	seal := signing.Seal{Format: signing.SealFormat, Number: meta.Certificate, RunID: rec.RunID, Serial: rec.Serial,
@@ -102,20 +106,23 @@ func (is *issuer) publish(ctx context.Context, rec *sequencer.Record, meta ledge
 	return signing.WriteSeal(path+".seal", seal)
 }
 
-// recentChecked is how many of the newest certified runs repair checks for a lost
+// recentChecked is how many of the newest certified runs Repair checks for a lost
 // PDF or seal file: a crash interrupts only the run in flight, so the newest few
 // cover it without a scan of the whole ledger at every start.
 const recentChecked = 20
 
-// repair publishes every certified run whose document is missing (a crash between
+// Repair publishes every certified run whose document is missing (a crash between
 // the ledger commit and the document), and the newest runs whose PDF or seal file
-// is gone (a crash after the document row), and reports how many it published.
-func (is *issuer) repair(ctx context.Context) (int, error) {
-	missing, err := is.led.MissingDocuments(ctx)
+// is gone (a crash after the document row), and reports how many it published. A
+// voided certificate is never published again; a run sealed with a key the Issuer
+// does not hold is an error.
+func (is *Issuer) Repair(ctx context.Context) (int, error) {
+	led := is.Ledger
+	missing, err := led.MissingDocuments(ctx)
 	if err != nil {
 		return 0, err
 	}
-	runs, err := is.led.RecentRuns(ctx, recentChecked)
+	runs, err := led.RecentRuns(ctx, recentChecked)
 	if err != nil {
 		return 0, err
 	}
@@ -123,10 +130,10 @@ func (is *issuer) repair(ctx context.Context) (int, error) {
 		if r.Certificate == "" {
 			continue
 		}
-		if st, err := is.led.CertificateStatus(ctx, r.Certificate); err != nil || st.Voided {
+		if st, err := led.CertificateStatus(ctx, r.Certificate); err != nil || st.Voided {
 			continue // a voided certificate is not published again
 		}
-		docs, err := is.led.DocumentsFor(ctx, r.Certificate)
+		docs, err := led.DocumentsFor(ctx, r.Certificate)
 		if err != nil || len(docs) == 0 {
 			continue // already in missing
 		}
@@ -134,7 +141,7 @@ func (is *issuer) repair(ctx context.Context) (int, error) {
 		_, perr := os.Stat(d.Path)
 		_, serr := os.Stat(d.Path + ".seal")
 		if perr != nil || (d.KeyID != "" && serr != nil) {
-			_, meta, err := is.led.RunByCertificate(ctx, r.Certificate)
+			_, meta, err := led.RunByCertificate(ctx, r.Certificate)
 			if err != nil {
 				return 0, err
 			}
@@ -142,11 +149,11 @@ func (is *issuer) repair(ctx context.Context) (int, error) {
 		}
 	}
 	for _, m := range missing {
-		rec, meta, err := is.led.RunByCertificate(ctx, m.Certificate)
+		rec, meta, err := led.RunByCertificate(ctx, m.Certificate)
 		if err != nil {
 			return 0, fmt.Errorf("repair %s: %w", m.Certificate, err)
 		}
-		if meta.KeyID != "" && (is.key == nil || is.key.ID() != meta.KeyID) {
+		if meta.KeyID != "" && (is.Key == nil || is.Key.ID() != meta.KeyID) {
 			return 0, fmt.Errorf("repair %s: it was sealed with key %s, which this station does not hold", m.Certificate, meta.KeyID)
 		}
 		if err := is.publish(ctx, rec, meta); err != nil {

@@ -1,0 +1,69 @@
+package main
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"time"
+
+	"trimline/reports/whatif"
+)
+
+func newLimitsWhatIfCmd() *command {
+	c := &command{
+		UsageLine: "trimline limits whatif NEW --ledger DB [--product P] [--since DATE] [--until DATE] [--old FILE] [--pdf FILE]",
+		Short:     "re-judge every stored result in the ledger against a new limit file",
+		Long: `Re-judges the stored results of every judged production run in the ledger against
+the limit file NEW and reports, against the old file (the one in force on the newest
+run, or --old), the yield before and after and every unit whose verdict would flip.
+Engineering runs, faulted and aborted runs are left out. With --pdf the report is
+also written as a PDF with histograms.`,
+	}
+	ledgerPath := c.Flag.String("ledger", "", "ledger `file` to re-judge")
+	product := c.Flag.String("product", "", "only units of this `product` (default: the new file's)")
+	since := c.Flag.String("since", "", "only runs finished on or after this `date` (YYYY-MM-DD)")
+	until := c.Flag.String("until", "", "only runs finished before the end of this `date` (YYYY-MM-DD)")
+	oldPath := c.Flag.String("old", "", "the old limit `file` to compare with (default: the one in force on the newest run)")
+	pdfPath := c.Flag.String("pdf", "", "also write the report with histograms to this PDF `file`")
+	c.Run = func(ctx context.Context, e *env, pos []string) error {
+		if len(pos) != 1 || *ledgerPath == "" {
+			return usagef("usage: %s", c.UsageLine)
+		}
+		nw, err := loadLimitSet(pos[0])
+		if err != nil {
+			return err
+		}
+		var from, to time.Time
+		for _, d := range []struct {
+			s   string
+			t   *time.Time
+			add int
+		}{{*since, &from, 0}, {*until, &to, 1}} {
+			if d.s == "" {
+				continue
+			}
+			v, err := time.Parse("2006-01-02", d.s)
+			if err != nil {
+				return usagef("expected a date as YYYY-MM-DD, found %q", d.s)
+			}
+			*d.t = v.AddDate(0, 0, d.add)
+		}
+		req := whatif.Request{Ledger: *ledgerPath, New: nw, Product: *product, Since: from, Until: to,
+			PDF: *pdfPath, Generated: time.Now()}
+		if *oldPath != "" {
+			if req.Old, err = loadLimitSet(*oldPath); err != nil {
+				return err
+			}
+		}
+		if _, err := whatif.Run(ctx, req, e.stdout); errors.Is(err, whatif.ErrNoRuns) {
+			return badInput(err)
+		} else if err != nil {
+			return err
+		}
+		if *pdfPath != "" {
+			fmt.Fprintf(e.stdout, "\nreport with plots: %s\n", *pdfPath)
+		}
+		return nil
+	}
+	return c
+}

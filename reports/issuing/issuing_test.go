@@ -1,0 +1,124 @@
+package issuing_test
+
+import (
+	"bytes"
+	"context"
+	"io/fs"
+	"os"
+	"path/filepath"
+	"regexp"
+	"testing"
+	"time"
+
+	_ "trimline/instruments/sim" // the simulated bench, scheme sim://
+	"trimline/reports/issuing"
+	"trimline/reports/ledger"
+	"trimline/reports/signing"
+	"trimline/sequencer"
+	"trimline/sequences"
+)
+
+// demoFiles writes the demo files into dir, with calibrations due a year from now
+// and the station's signing key made, and loads them.
+func demoFiles(t *testing.T, dir string) (*sequencer.Station, *sequencer.Sequence) {
+	t.Helper()
+	calDue := regexp.MustCompile(`(?m)^(\s*cal_due:\s*)\d{4}-\d{2}-\d{2}`)
+	entries, err := fs.ReadDir(sequences.Demo, ".")
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, e := range entries {
+		data, _ := fs.ReadFile(sequences.Demo, e.Name())
+		data = calDue.ReplaceAll(data, []byte("${1}"+time.Now().AddDate(1, 0, 0).Format("2006-01-02")))
+		if err := os.WriteFile(filepath.Join(dir, e.Name()), data, 0o644); err != nil {
+			t.Fatal(err)
+		}
+	}
+	if _, _, err := signing.Init(filepath.Join(dir, "keys"), "TL1"); err != nil {
+		t.Fatal(err)
+	}
+	os.MkdirAll(filepath.Join(dir, "keys", "approvers"), 0o755)
+	st, err := sequencer.LoadStation(filepath.Join(dir, "brx200-station.yaml"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	seq, err := sequencer.LoadSequence(filepath.Join(dir, "brx200-sequence.yaml"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	return st, seq
+}
+
+// A crash between the ledger commit and the document leaves a certified run with
+// no document; the next start republishes it byte-identical to what the station
+// would have published.
+func TestRepairRepublishesByteIdentical(t *testing.T) {
+	dir := t.TempDir()
+	st, seq := demoFiles(t, dir)
+	eng, err := sequencer.Open(context.Background(), sequencer.Config{Station: st, Sequence: seq, Operator: "test", Software: "test"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer eng.Close()
+	rec := eng.Run(context.Background(), "BRX-00001")
+	key, err := signing.Load(st.SigningKey)
+	if err != nil {
+		t.Fatal(err)
+	}
+	issue := func(name string, crash bool) []byte {
+		d := filepath.Join(dir, name)
+		os.MkdirAll(filepath.Join(d, "certificates"), 0o755)
+		led, err := ledger.Open(context.Background(), filepath.Join(d, "ledger.db"))
+		if err != nil {
+			t.Fatal(err)
+		}
+		defer led.Close()
+		is := &issuing.Issuer{Ledger: led, Key: key, Station: st, Sequence: seq, CertDir: filepath.Join(d, "certificates")}
+		if crash {
+			// The first half of record: the commit, then the process dies.
+			_, err = led.RecordRunWith(context.Background(), rec, ledger.RecordOptions{Prefix: st.CertificatePrefix,
+				Sign: func(number, runID, sha string) (string, []byte, error) {
+					return key.ID(), key.Sign(signing.RecordMessage(number, runID, sha)), nil
+				}})
+			if err != nil {
+				t.Fatal(err)
+			}
+			if n, err := is.Repair(context.Background()); err != nil || n != 1 {
+				t.Fatalf("repair: %d %v", n, err)
+			}
+		} else if _, err := is.Record(context.Background(), rec); err != nil {
+			t.Fatal(err)
+		}
+		pdfs, _ := filepath.Glob(filepath.Join(d, "certificates", "*.pdf"))
+		if len(pdfs) != 1 {
+			t.Fatalf("%d PDFs", len(pdfs))
+		}
+		b, _ := os.ReadFile(pdfs[0])
+		return b
+	}
+	if !bytes.Equal(issue("normal", false), issue("crashed", true)) {
+		t.Fatal("the republished certificate differs from the one the station would have issued")
+	}
+	// A PDF and seal lost after the document was recorded are written again at the
+	// next start, identical.
+	pdfs, _ := filepath.Glob(filepath.Join(dir, "normal", "certificates", "*.pdf"))
+	want, _ := os.ReadFile(pdfs[0])
+	os.Remove(pdfs[0])
+	os.Remove(pdfs[0] + ".seal")
+	led, err := ledger.Open(context.Background(), filepath.Join(dir, "normal", "ledger.db"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer led.Close()
+	is := &issuing.Issuer{Ledger: led, Key: key, Station: st, Sequence: seq, CertDir: filepath.Join(dir, "normal", "certificates")}
+	if n, err := is.Repair(context.Background()); err != nil || n != 1 {
+		t.Fatalf("repair of lost files: %d %v", n, err)
+	}
+	got, _ := os.ReadFile(pdfs[0])
+	if !bytes.Equal(got, want) {
+		t.Error("the rewritten PDF differs")
+	}
+	if _, err := os.Stat(pdfs[0] + ".seal"); err != nil {
+		t.Error("the seal was not rewritten")
+	}
+}

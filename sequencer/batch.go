@@ -1,0 +1,164 @@
+package sequencer
+
+import (
+	"context"
+	"errors"
+	"math"
+)
+
+// A batch is one production session: the units of a list of serial numbers run one
+// after another on one opened station. The errors below say how a batch ended
+// when not every unit passed, worst first.
+var (
+	// ErrBatchStopped: the batch was stopped (its context cancelled) before
+	// every unit ran; the rest were never run, and the batch is not a pass.
+	ErrBatchStopped = errors.New("batch stopped before every unit ran")
+	// ErrUnitFault: a unit ended in a station fault or was aborted.
+	ErrUnitFault = errors.New("a unit ended in a station fault or was aborted")
+	// ErrUnitsFailed: a unit failed its limits or was held for review (a unit
+	// held for review does not ship either).
+	ErrUnitsFailed = errors.New("a unit failed or was held for review")
+)
+
+// Tally is what a batch did.
+type Tally struct {
+	Records []*Record // every unit run, in order
+	Skipped []string  // serials not run because the batch was stopped
+}
+
+// RunBatch runs the units of serials in order. Between units it checks ctx: once
+// it is cancelled the rest are not run but listed in the tally's Skipped. After
+// each unit it calls done with the unit's index and record (to store, publish and
+// show it); an error from done ends the batch with that error, and that unit is
+// not counted.
+func (e *Engine) RunBatch(ctx context.Context, serials []string, done func(i int, rec *Record) error) (*Tally, error) {
+	t := &Tally{}
+	for i, sn := range serials {
+		if ctx.Err() != nil {
+			t.Skipped = serials[i:]
+			break
+		}
+		rec := e.Run(ctx, sn)
+		if err := done(i, rec); err != nil {
+			return t, err
+		}
+		t.Records = append(t.Records, rec)
+	}
+	return t, nil
+}
+
+// Err says how the batch ended: nil when every unit ran and passed, else
+// ErrBatchStopped, ErrUnitFault or ErrUnitsFailed, the worst that happened (a
+// station fault beats a failed unit).
+func (t *Tally) Err() error {
+	if len(t.Skipped) > 0 {
+		return ErrBatchStopped
+	}
+	var err error
+	for _, r := range t.Records {
+		switch r.Verdict {
+		case Fault, Aborted:
+			return ErrUnitFault
+		case Fail, Review:
+			err = ErrUnitsFailed
+		}
+	}
+	return err
+}
+
+// Summary is a batch's yield and the spread of its results.
+type Summary struct {
+	Units                  int
+	Passed, Failed, Review int
+	Faulted                int     // station faults and aborted runs
+	Yield                  float64 // passed / judged (passed, failed, held for review); NaN when none was judged
+	Spreads                []Spread
+}
+
+// Spread is the mean and sample standard deviation of one result over the units
+// it is taken over; N is how many had a valid value.
+type Spread struct {
+	Result     string
+	PassedOnly bool // over the units that passed (what ships), else every measured unit (the process)
+	Mean, SD   float64
+	N          int
+}
+
+// summaryResults are the results a summary spreads: pre-trim over every measured
+// unit (the process), post-trim residuals over the units that passed (what ships).
+var summaryResults = []struct {
+	name       string
+	passedOnly bool
+}{
+	{ResPreOffset, false},
+	{ResPreGainError, false},
+	{ResPostOffset, true},
+	{ResPostGainError, true},
+	{ResPostNonlinearity, true},
+}
+
+// Summary counts the verdicts, the yield and the spread of the summary results.
+func (t *Tally) Summary() Summary {
+	s := Summary{Units: len(t.Records)}
+	for _, r := range t.Records {
+		switch r.Verdict {
+		case Pass:
+			s.Passed++
+		case Fail:
+			s.Failed++
+		case Review:
+			s.Review++
+		default:
+			s.Faulted++
+		}
+	}
+	s.Yield = math.NaN()
+	if judged := s.Passed + s.Failed + s.Review; judged > 0 {
+		s.Yield = float64(s.Passed) / float64(judged)
+	}
+	for _, sr := range summaryResults {
+		var xs []float64
+		for _, r := range t.Records {
+			if sr.passedOnly && r.Verdict != Pass {
+				continue
+			}
+			if v, ok := r.Result(sr.name); ok {
+				xs = append(xs, v)
+			}
+		}
+		m, sd, n := MeanSD(xs)
+		s.Spreads = append(s.Spreads, Spread{Result: sr.name, PassedOnly: sr.passedOnly, Mean: m, SD: sd, N: n})
+	}
+	return s
+}
+
+// Result returns the value of the named result and whether it is valid; NaN and
+// false when the record has no such result or it could not be computed.
+func (r *Record) Result(name string) (float64, bool) {
+	for _, res := range r.Results {
+		if res.Name == name {
+			return res.Value, res.Valid
+		}
+	}
+	return math.NaN(), false
+}
+
+// MeanSD returns the mean and the sample standard deviation (n − 1) of xs, and
+// len(xs); zeros for no values, SD 0 for one.
+func MeanSD(xs []float64) (mean, sd float64, n int) {
+	n = len(xs)
+	if n == 0 {
+		return 0, 0, 0
+	}
+	for _, x := range xs {
+		mean += x
+	}
+	mean /= float64(n)
+	if n > 1 {
+		for _, x := range xs {
+			sd += (x - mean) * (x - mean)
+		}
+		sd = math.Sqrt(sd / float64(n-1))
+	}
+	return mean, sd, n
+}
