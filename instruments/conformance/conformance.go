@@ -220,19 +220,14 @@ func Source(t *testing.T, open func(t *testing.T) instruments.Source, hooks ...H
 		}
 	})
 	t.Run("compliance", func(t *testing.T) {
-		s := open(t)
-		cs, ok := s.(instruments.ComplianceSetter)
-		if !ok {
-			t.Skip("not a ComplianceSetter")
-		}
-		ctx := bgCtx(t)
-		if err := cs.SetCompliance(ctx, 10e-3); err != nil {
+		s, ctx := open(t), bgCtx(t)
+		if err := s.SetCompliance(ctx, 10e-3); err != nil {
 			t.Fatalf("SetCompliance(10 mA): %v", err)
 		}
-		if err := cs.SetCompliance(ctx, -1); err == nil {
+		if err := s.SetCompliance(ctx, -1); err == nil {
 			t.Fatal("SetCompliance(-1 A) accepted")
 		}
-		if err := cs.SetCompliance(ctx, 5e-3); err != nil {
+		if err := s.SetCompliance(ctx, 5e-3); err != nil {
 			t.Fatalf("SetCompliance(5 mA) after a refused request: %v", err)
 		}
 	})

@@ -27,11 +27,10 @@ type Source struct {
 }
 
 var (
-	_ instruments.Source           = (*Source)(nil)
-	_ instruments.Identifier       = (*Source)(nil)
-	_ instruments.Resetter         = (*Source)(nil)
-	_ instruments.ComplianceSetter = (*Source)(nil)
-	_ instruments.ClockSource      = (*Source)(nil)
+	_ instruments.Source      = (*Source)(nil)
+	_ instruments.Identifier  = (*Source)(nil)
+	_ instruments.Resetter    = (*Source)(nil)
+	_ instruments.ClockSource = (*Source)(nil)
 )
 
 // defaultCompliance is the source's current limit after reset, in amperes.
