@@ -31,11 +31,16 @@ type Instrument interface {
 // SetLevel programs the output level in volts; it does not switch the output on.
 // SetOutput switches the output terminals on or off. Implementations must accept
 // SetOutput(ctx, false) at any time, also after an earlier error, because the engine
-// calls it on every exit path.
+// calls it on every exit path. SetCompliance sets the current limit in amperes
+// (finite, > 0) and refuses a limit the source cannot enforce: every source must be
+// able to limit its current, because the engine programs the station's cap
+// (safety.max_source_current) before the output is ever switched on and an unenforced cap is a
+// safety hazard.
 type Source interface {
 	Instrument
 	SetLevel(ctx context.Context, volts float64) error
 	SetOutput(ctx context.Context, on bool) error
+	SetCompliance(ctx context.Context, amps float64) error
 }
 
 // Meter is a DC voltmeter that reads the DUT output. Read takes n readings in a row
@@ -127,13 +132,6 @@ type Resetter interface {
 // configuration is used and recorded as unknown.
 type MeterConfigurer interface {
 	Configure(ctx context.Context, rangeVolts, nplc float64) error
-}
-
-// ComplianceSetter is an optional capability of a Source: set the current limit in
-// amperes. Fallback when absent: the engine refuses to run if the station file asks
-// for a compliance limit, because an unenforced limit is a safety hazard.
-type ComplianceSetter interface {
-	SetCompliance(ctx context.Context, amps float64) error
 }
 
 // FixtureLoader is an optional capability of a TrimPort used by simulated benches:

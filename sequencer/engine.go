@@ -134,12 +134,8 @@ func Open(ctx context.Context, cfg Config) (*Engine, error) {
 	if err := e.safeState(ctx); err != nil {
 		return fail(fmt.Errorf("put source in a safe state: %w", err))
 	}
-	if cs, ok := e.source.(instruments.ComplianceSetter); ok {
-		if err := cs.SetCompliance(ctx, st.MaxSourceAmps); err != nil {
-			return fail(fmt.Errorf("source: set compliance: %w", err))
-		}
-	} else {
-		return fail(fmt.Errorf("source at %s cannot limit its current; the station caps it at %s", st.Instruments["source"].Address, fmtA(st.MaxSourceAmps)))
+	if err := e.source.SetCompliance(ctx, st.MaxSourceAmps); err != nil {
+		return fail(fmt.Errorf("source: set compliance: %w", err))
 	}
 	if mc, ok := e.meter.(instruments.MeterConfigurer); ok {
 		if err := mc.Configure(ctx, seq.Meter.Range, seq.Meter.NPLC); err != nil {

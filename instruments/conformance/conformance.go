@@ -102,6 +102,16 @@ func identify(t *testing.T, in instruments.Instrument) {
 	}
 }
 
+func reset(t *testing.T, in instruments.Instrument) {
+	r, ok := in.(instruments.Resetter)
+	if !ok {
+		t.Skip("not a Resetter")
+	}
+	if err := r.Reset(bgCtx(t)); err != nil {
+		t.Fatalf("Reset: %v", err)
+	}
+}
+
 func closeTwice(t *testing.T, in instruments.Instrument) {
 	in.Close()
 	if err := in.Close(); err != nil {
@@ -177,15 +187,7 @@ func wantInstrumentError(t *testing.T, h Hooks, what string, err error) {
 func Source(t *testing.T, open func(t *testing.T) instruments.Source, hooks ...Hooks) {
 	h := hooksOf(hooks)
 	t.Run("identify", func(t *testing.T) { identify(t, open(t)) })
-	t.Run("reset", func(t *testing.T) {
-		r, ok := open(t).(instruments.Resetter)
-		if !ok {
-			t.Skip("not a Resetter")
-		}
-		if err := r.Reset(bgCtx(t)); err != nil {
-			t.Fatalf("Reset: %v", err)
-		}
-	})
+	t.Run("reset", func(t *testing.T) { reset(t, open(t)) })
 	t.Run("set level and output", func(t *testing.T) {
 		s, ctx := open(t), bgCtx(t)
 		for _, step := range []struct {
@@ -220,19 +222,14 @@ func Source(t *testing.T, open func(t *testing.T) instruments.Source, hooks ...H
 		}
 	})
 	t.Run("compliance", func(t *testing.T) {
-		s := open(t)
-		cs, ok := s.(instruments.ComplianceSetter)
-		if !ok {
-			t.Skip("not a ComplianceSetter")
-		}
-		ctx := bgCtx(t)
-		if err := cs.SetCompliance(ctx, 10e-3); err != nil {
+		s, ctx := open(t), bgCtx(t)
+		if err := s.SetCompliance(ctx, 10e-3); err != nil {
 			t.Fatalf("SetCompliance(10 mA): %v", err)
 		}
-		if err := cs.SetCompliance(ctx, -1); err == nil {
+		if err := s.SetCompliance(ctx, -1); err == nil {
 			t.Fatal("SetCompliance(-1 A) accepted")
 		}
-		if err := cs.SetCompliance(ctx, 5e-3); err != nil {
+		if err := s.SetCompliance(ctx, 5e-3); err != nil {
 			t.Fatalf("SetCompliance(5 mA) after a refused request: %v", err)
 		}
 	})
@@ -276,15 +273,7 @@ func Source(t *testing.T, open func(t *testing.T) instruments.Source, hooks ...H
 func Meter(t *testing.T, open func(t *testing.T) instruments.Meter, hooks ...Hooks) {
 	h := hooksOf(hooks)
 	t.Run("identify", func(t *testing.T) { identify(t, open(t)) })
-	t.Run("reset", func(t *testing.T) {
-		r, ok := open(t).(instruments.Resetter)
-		if !ok {
-			t.Skip("not a Resetter")
-		}
-		if err := r.Reset(bgCtx(t)); err != nil {
-			t.Fatalf("Reset: %v", err)
-		}
-	})
+	t.Run("reset", func(t *testing.T) { reset(t, open(t)) })
 	t.Run("configure", func(t *testing.T) {
 		m := open(t)
 		mc, ok := m.(instruments.MeterConfigurer)

@@ -23,11 +23,10 @@ type Source struct {
 }
 
 var (
-	_ instruments.Source           = (*Source)(nil)
-	_ instruments.Identifier       = (*Source)(nil)
-	_ instruments.Resetter         = (*Source)(nil)
-	_ instruments.ComplianceSetter = (*Source)(nil)
-	_ Querier                      = (*Source)(nil)
+	_ instruments.Source     = (*Source)(nil)
+	_ instruments.Identifier = (*Source)(nil)
+	_ instruments.Resetter   = (*Source)(nil)
+	_ Querier                = (*Source)(nil)
 )
 
 func (s *Source) open(ctx context.Context, reset bool) error {

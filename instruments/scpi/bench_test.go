@@ -5,47 +5,17 @@ import (
 	"context"
 	"net"
 	"net/url"
-	"sync"
 	"testing"
 
 	"trimline/instruments/scpi"
 	"trimline/instruments/transport"
+	"trimline/instruments/transport/transporttest"
 )
 
 // echoServer answers every line with a fixed numeric reply over loopback TCP.
 func echoServer(b *testing.B) string {
-	ln, err := net.Listen("tcp", "127.0.0.1:0")
-	if err != nil {
-		b.Fatal(err)
-	}
-	var wg sync.WaitGroup
-	b.Cleanup(func() { ln.Close(); wg.Wait() })
-	wg.Add(1)
-	go func() {
-		defer wg.Done()
-		for {
-			c, err := ln.Accept()
-			if err != nil {
-				return
-			}
-			wg.Add(1)
-			go func() {
-				defer wg.Done()
-				defer c.Close()
-				r := bufio.NewReader(c)
-				reply := []byte("+2.503100000E+00\n")
-				for {
-					if _, err := r.ReadSlice('\n'); err != nil {
-						return
-					}
-					if _, err := c.Write(reply); err != nil {
-						return
-					}
-				}
-			}()
-		}
-	}()
-	return ln.Addr().String()
+	reply := []byte("+2.503100000E+00\n")
+	return transporttest.LineServer(b, '\n', func([]byte) []byte { return reply })
 }
 
 // BenchmarkRawSocketQuery is the floor: one query and its reply over a bare socket

@@ -201,6 +201,12 @@ func (s *Session) lost(err error) error {
 func (s *Session) Write(ctx context.Context, cmd string) error {
 	s.mu.Lock()
 	defer s.mu.Unlock()
+	return s.write(ctx, cmd)
+}
+
+// write sends cmd once and leaves it pending: written, no reply seen yet. Called
+// with s.mu held.
+func (s *Session) write(ctx context.Context, cmd string) error {
 	s.last = cmd
 	if err := s.send(ctx, cmd); err != nil {
 		return fmt.Errorf("write %q: %w", cmd, err)
@@ -366,11 +372,9 @@ func (s *Session) drain(ctx context.Context) error {
 func (s *Session) Exec(ctx context.Context, cmd string) error {
 	s.mu.Lock()
 	defer s.mu.Unlock()
-	s.last = cmd
-	if err := s.send(ctx, cmd); err != nil {
-		return fmt.Errorf("write %q: %w", cmd, err)
+	if err := s.write(ctx, cmd); err != nil {
+		return err
 	}
-	s.pending = cmd
 	if err := s.drain(ctx); err != nil {
 		var ie *InstrumentError
 		var le *LostError

@@ -147,7 +147,8 @@ func NewBench(specs []instruments.Spec) (*Bench, error) {
 		case modelMeter:
 			b.meter = newMeter(b, c)
 		case modelDUT:
-			b.dut = &DUT{bench: b, latency: c.latency, settings: c.dut, lidOpen: c.lidOpen}
+			b.dut = &DUT{wiring: wiring{bench: b, latency: c.latency, name: "sim dut", errClosed: errDUTClosed},
+				settings: c.dut, lidOpen: c.lidOpen}
 		}
 	}
 	return b, nil
@@ -199,6 +200,45 @@ func (b *Bench) Close() error {
 		b.dut.Close()
 	}
 	return nil
+}
+
+// wiring is what every instrument of a bench shares: the bench it is wired into, its
+// command latency and whether it is closed. Its methods are called with the bench
+// lock held.
+type wiring struct {
+	bench     *Bench
+	latency   time.Duration
+	name      string // the prefix of its errors, e.g. "sim source"
+	errClosed error  // what every call but a switch-off returns after Close
+	closed    bool
+}
+
+// start begins one command: it fails with errClosed after Close, then with invalid
+// (the caller's verdict on the request; nil when the request is good), and then lets
+// the command latency pass on the bench clock. A done ctx fails as "<name>: <what>:
+// <ctx error>" and lets no time pass.
+func (w *wiring) start(ctx context.Context, what string, invalid error) error {
+	if w.closed {
+		return w.errClosed
+	}
+	if invalid != nil {
+		return invalid
+	}
+	if err := w.bench.advance(ctx, w.latency); err != nil {
+		return fmt.Errorf("%s: %s: %w", w.name, what, err)
+	}
+	return nil
+}
+
+// identify returns the invented identity of a bench instrument: model, and a serial
+// of prefix and the last six digits of the bench seed.
+func (w *wiring) identify(ctx context.Context, model, prefix string) (instruments.Identity, error) {
+	w.bench.mu.Lock()
+	defer w.bench.mu.Unlock()
+	if err := w.start(ctx, "identify", nil); err != nil {
+		return instruments.Identity{}, err
+	}
+	return instruments.Identity{Maker: Maker, Model: model, Serial: fmt.Sprintf("%s%06d", prefix, w.bench.seed%1000000), Firmware: "1.0"}, nil
 }
 
 // advance lets d of bench time pass (a command latency or a meter aperture). Called

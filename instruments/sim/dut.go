@@ -17,10 +17,8 @@ import (
 // at a time. Its trim port speaks the line protocol in the package doc; until
 // LoadUnit places a unit, every command answers "ERR no unit in fixture".
 type DUT struct {
-	bench    *Bench
-	latency  time.Duration
+	wiring
 	settings DUTSettings
-	closed   bool
 	lidOpen  bool // the fixture lid (interlock input) is open
 
 	loaded bool
@@ -71,17 +69,15 @@ func (d *DUT) Unit() (p UnitParams, ok bool) {
 // stored with NV STORE on this bench, mid-scale (2048) for a fresh unit. The serial
 // must be non-empty and free of spaces and control characters.
 func (d *DUT) LoadUnit(ctx context.Context, serial string) error {
+	var invalid error
+	if serial == "" || strings.IndexFunc(serial, func(r rune) bool { return unicode.IsSpace(r) || unicode.IsControl(r) }) >= 0 {
+		invalid = fmt.Errorf("sim dut: serial %q: expected a non-empty serial without spaces or control characters", serial)
+	}
 	b := d.bench
 	b.mu.Lock()
 	defer b.mu.Unlock()
-	if d.closed {
-		return errDUTClosed
-	}
-	if serial == "" || strings.IndexFunc(serial, func(r rune) bool { return unicode.IsSpace(r) || unicode.IsControl(r) }) >= 0 {
-		return fmt.Errorf("sim dut: serial %q: expected a non-empty serial without spaces or control characters", serial)
-	}
-	if err := b.advance(ctx, d.latency); err != nil {
-		return fmt.Errorf("sim dut: load unit: %w", err)
+	if err := d.start(ctx, "load unit", invalid); err != nil {
+		return err
 	}
 	d.unit = Params(serial, b.seed, d.settings)
 	d.loaded = true
@@ -186,14 +182,10 @@ func (d *DUT) reply(line string) string {
 
 // exchange sends one line and returns the reply.
 func (d *DUT) exchange(ctx context.Context, line string) (string, error) {
-	b := d.bench
-	b.mu.Lock()
-	defer b.mu.Unlock()
-	if d.closed {
-		return "", errDUTClosed
-	}
-	if err := b.advance(ctx, d.latency); err != nil {
-		return "", fmt.Errorf("sim dut: %q: %w", line, err)
+	d.bench.mu.Lock()
+	defer d.bench.mu.Unlock()
+	if err := d.start(ctx, strconv.Quote(line), nil); err != nil {
+		return "", err
 	}
 	return d.reply(line), nil
 }

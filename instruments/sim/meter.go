@@ -14,14 +14,12 @@ import (
 // output at the instant the reading starts, ·(1 + gain error) + offset error + noise,
 // quantised to the resolution; the clock then advances by the aperture.
 type Meter struct {
-	bench   *Bench
-	latency time.Duration
+	wiring
 	cfg     meterConfig
 	uGain   float64 // drawn share (±0.6) of the gain spec
 	uOffset float64 // drawn share (±0.6) of the offset spec
 	rng     float64 // V, present range
 	nplc    float64 // power-line cycles, present integration time
-	closed  bool
 }
 
 var (
@@ -70,9 +68,10 @@ func checkNPLC(n float64) error {
 
 func newMeter(b *Bench, c config) *Meter {
 	r := streamRand("meter", b.seed)
-	m := &Meter{bench: b, latency: c.latency, cfg: c.meter, uGain: uniform(r), uOffset: uniform(r),
-		rng: c.meter.rng, nplc: c.meter.nplc}
-	return m
+	return &Meter{
+		wiring: wiring{bench: b, latency: c.latency, name: "sim meter", errClosed: errMeterClosed},
+		cfg:    c.meter, uGain: uniform(r), uOffset: uniform(r), rng: c.meter.rng, nplc: c.meter.nplc,
+	}
 }
 
 var errMeterClosed = errors.New("sim meter: closed")
@@ -139,21 +138,17 @@ func (m *Meter) Clock() instruments.Clock { return m.bench.clock }
 // Configure sets the range (volts; 0 = auto, which is the 10 V range; otherwise the
 // smallest of MeterRanges that holds it) and the integration time (0.001..100 PLC).
 func (m *Meter) Configure(ctx context.Context, rangeVolts, nplc float64) error {
-	b := m.bench
-	b.mu.Lock()
-	defer b.mu.Unlock()
-	if m.closed {
-		return errMeterClosed
+	r, invalid := meterRange(rangeVolts)
+	if invalid == nil {
+		invalid = checkNPLC(nplc)
 	}
-	r, err := meterRange(rangeVolts)
-	if err != nil {
-		return fmt.Errorf("sim meter: %w", err)
+	if invalid != nil {
+		invalid = fmt.Errorf("sim meter: %w", invalid)
 	}
-	if err := checkNPLC(nplc); err != nil {
-		return fmt.Errorf("sim meter: %w", err)
-	}
-	if err := b.advance(ctx, m.latency); err != nil {
-		return fmt.Errorf("sim meter: configure: %w", err)
+	m.bench.mu.Lock()
+	defer m.bench.mu.Unlock()
+	if err := m.start(ctx, "configure", invalid); err != nil {
+		return err
 	}
 	m.rng, m.nplc = r, nplc
 	return nil
@@ -162,14 +157,10 @@ func (m *Meter) Configure(ctx context.Context, rangeVolts, nplc float64) error {
 // Reset returns the meter to its power-on configuration (the range and nplc
 // settings, by default the 10 V range and 1 PLC).
 func (m *Meter) Reset(ctx context.Context) error {
-	b := m.bench
-	b.mu.Lock()
-	defer b.mu.Unlock()
-	if m.closed {
-		return errMeterClosed
-	}
-	if err := b.advance(ctx, m.latency); err != nil {
-		return fmt.Errorf("sim meter: reset: %w", err)
+	m.bench.mu.Lock()
+	defer m.bench.mu.Unlock()
+	if err := m.start(ctx, "reset", nil); err != nil {
+		return err
 	}
 	m.rng, m.nplc = m.cfg.rng, m.cfg.nplc
 	return nil
@@ -177,16 +168,7 @@ func (m *Meter) Reset(ctx context.Context) error {
 
 // Identify returns the meter's invented identity.
 func (m *Meter) Identify(ctx context.Context) (instruments.Identity, error) {
-	b := m.bench
-	b.mu.Lock()
-	defer b.mu.Unlock()
-	if m.closed {
-		return instruments.Identity{}, errMeterClosed
-	}
-	if err := b.advance(ctx, m.latency); err != nil {
-		return instruments.Identity{}, fmt.Errorf("sim meter: identify: %w", err)
-	}
-	return instruments.Identity{Maker: Maker, Model: "DV-65", Serial: fmt.Sprintf("DV%06d", b.seed%1000000), Firmware: "1.0"}, nil
+	return m.identify(ctx, "DV-65", "DV")
 }
 
 // Read takes n ≥ 1 readings. Each samples the DUT output at the instant it starts
@@ -194,17 +176,15 @@ func (m *Meter) Identify(ctx context.Context) (instruments.Identity, error) {
 // range is FlagOverload (±OverloadValue); force_flag flags every reading. A done ctx
 // stops the readings and returns its error, wrapped.
 func (m *Meter) Read(ctx context.Context, n int) ([]instruments.Reading, error) {
+	var invalid error
+	if n < 1 {
+		invalid = fmt.Errorf("sim meter: read %d readings: expected at least 1", n)
+	}
 	b := m.bench
 	b.mu.Lock()
 	defer b.mu.Unlock()
-	if m.closed {
-		return nil, errMeterClosed
-	}
-	if n < 1 {
-		return nil, fmt.Errorf("sim meter: read %d readings: expected at least 1", n)
-	}
-	if err := b.advance(ctx, m.latency); err != nil {
-		return nil, fmt.Errorf("sim meter: read: %w", err)
+	if err := m.start(ctx, "read", invalid); err != nil {
+		return nil, err
 	}
 	gain, offset := m.errors()
 	noise := m.cfg.noise / math.Sqrt(m.nplc)

@@ -2,8 +2,9 @@ package sim
 
 import (
 	"fmt"
+	"maps"
 	"math"
-	"sort"
+	"slices"
 	"strconv"
 	"strings"
 	"time"
@@ -105,23 +106,14 @@ type meterConfig struct {
 
 // config is one spec's parsed settings.
 type config struct {
-	model   string
-	bench   benchKeys
-	latency time.Duration
-	source  sourceConfig
-	meter   meterConfig
-	dut     DUTSettings
-	lidOpen bool // dut: the fixture lid starts open
-}
-
-var commonKeys = []string{"seed", "time", "start", "latency"}
-
-var modelKeys = map[string][]string{
-	modelSource: {"spec_ppm_reading", "spec_ppm_range", "range", "noise", "gain_error", "offset"},
-	modelMeter: {"spec_ppm_reading", "spec_ppm_range", "range", "nplc", "line_frequency", "resolution",
-		"noise", "gain_error", "offset", "force_flag"},
-	modelDUT: {"offset", "gain_error", "offset_sigma", "gain_sigma", "noise", "tau", "crossover_step",
-		"crossover_at", "dnl", "open_loop_gain", "offset_lsb", "gain_lsb", "offset_trim", "defect", "defect_rate", "lid"},
+	model        string
+	bench        benchKeys
+	latency      time.Duration
+	source       sourceConfig
+	meter        meterConfig
+	dut          DUTSettings
+	lidOpen      bool // dut: the fixture lid starts open
+	offsetLSBSet bool // dut: offset_lsb was given, so offset_trim does not change it
 }
 
 func defaultConfig(model string) config {
@@ -189,192 +181,209 @@ func choice(key, val string, allowed ...string) (string, error) {
 	return "", settingErr(key, "%q is not one of %s", val, strings.Join(allowed, ", "))
 }
 
-func ptr(v float64, err error) (*float64, error) { return &v, err }
+// A setter parses the value of one settings key into its field; key names the
+// setting in errors. On error the field may hold a partial value: the caller drops
+// the whole config.
+type setter func(key, val string) error
 
-// parseSettings parses one spec's settings for model. Keys are visited in sorted
-// order so the first error reported is stable.
-func parseSettings(model string, settings map[string]string) (config, error) {
-	c := defaultConfig(model)
-	keys := make([]string, 0, len(settings))
-	for k := range settings {
-		keys = append(keys, k)
+func quantityOf(p *float64, dim units.Dim) setter {
+	return func(k, val string) (err error) { *p, err = quantity(k, val, dim); return err }
+}
+
+func nonNegativeOf(p *float64, dim units.Dim) setter {
+	return func(k, val string) (err error) { *p, err = nonNegative(k, val, dim); return err }
+}
+
+func positiveOf(p *float64, dim units.Dim) setter {
+	return func(k, val string) (err error) { *p, err = positive(k, val, dim); return err }
+}
+
+func ppmOf(p *float64) setter {
+	return func(k, val string) (err error) { *p, err = ppm(k, val); return err }
+}
+
+// overrideOf sets an optional override: nil until the key is given.
+func overrideOf(p **float64, dim units.Dim) setter {
+	return func(k, val string) error {
+		v, err := quantity(k, val, dim)
+		*p = &v
+		return err
 	}
-	sort.Strings(keys)
-	ofsLSBSet := false
-	for _, k := range keys {
-		val := settings[k]
-		var err error
-		switch k {
-		case "seed":
+}
+
+// choiceOf sets *p to whether the value is the second of two allowed words.
+func choiceOf(p *bool, no, yes string) setter {
+	return func(k, val string) error {
+		v, err := choice(k, val, no, yes)
+		*p = v == yes
+		return err
+	}
+}
+
+// setters returns the setter of every key a spec of c's model may hold: the
+// bench-wide keys, latency and the model's own.
+func (c *config) setters() map[string]setter {
+	s := map[string]setter{
+		"seed": func(k, val string) (err error) {
 			c.bench.seed, err = strconv.ParseUint(strings.TrimSpace(val), 10, 64)
 			if err != nil {
 				err = settingErr(k, "%q is not a non-negative integer", val)
 			}
 			c.bench.seedSet = true
-		case "time":
-			var v string
-			v, err = choice(k, val, "simulated", "real")
-			c.bench.real, c.bench.timeSet = v == "real", true
-		case "start":
+			return err
+		},
+		"time": func(k, val string) error {
+			c.bench.timeSet = true
+			return choiceOf(&c.bench.real, "simulated", "real")(k, val)
+		},
+		"start": func(k, val string) (err error) {
 			c.bench.start, err = time.Parse(time.RFC3339Nano, strings.TrimSpace(val))
 			if err != nil {
 				err = settingErr(k, "%q is not an RFC 3339 time such as 2030-01-02T15:04:05Z", val)
 			}
 			c.bench.startSet = true
-		case "latency":
-			var v float64
-			v, err = nonNegative(k, val, units.Second)
+			return err
+		},
+		"latency": func(k, val string) error {
+			v, err := nonNegative(k, val, units.Second)
 			c.latency = time.Duration(math.Round(v * 1e9))
-		case "lid":
-			if model != modelDUT {
-				err = unknownKey(model, k)
-				break
-			}
-			var v string
-			v, err = choice(k, val, "closed", "open")
-			c.lidOpen = v == "open"
-		default:
-			switch model {
-			case modelSource:
-				err = c.source.set(k, val)
-			case modelMeter:
-				err = c.meter.set(k, val)
-			case modelDUT:
-				err = c.dut.set(k, val, &ofsLSBSet)
-			}
+			return err
+		},
+	}
+	var own map[string]setter
+	switch c.model {
+	case modelSource:
+		own = c.source.setters()
+	case modelMeter:
+		own = c.meter.setters()
+	case modelDUT:
+		own = c.dut.setters(&c.offsetLSBSet)
+		own["lid"] = choiceOf(&c.lidOpen, "closed", "open")
+	}
+	maps.Copy(s, own)
+	return s
+}
+
+// parseSettings parses one spec's settings for model. Keys are visited in sorted
+// order so the first error reported is stable.
+func parseSettings(model string, settings map[string]string) (config, error) {
+	c := defaultConfig(model)
+	set := c.setters()
+	for _, k := range slices.Sorted(maps.Keys(settings)) {
+		f, ok := set[k]
+		if !ok {
+			return c, unknownKey(model, k)
 		}
-		if err != nil {
+		if err := f(k, settings[k]); err != nil {
 			return c, err
 		}
 	}
 	if c.bench.startSet && c.bench.timeSet && c.bench.real {
 		return c, settingErr("start", "applies only to time: simulated")
 	}
-	if model == modelDUT && c.dut.OffsetTrimBefore && !ofsLSBSet {
+	if model == modelDUT && c.dut.OffsetTrimBefore && !c.offsetLSBSet {
 		c.dut.OffsetLSB = DefaultOffsetLSB / NominalGain
 	}
 	return c, nil
 }
 
 func unknownKey(model, key string) error {
-	known := append(append([]string{}, modelKeys[model]...), commonKeys...)
-	sort.Strings(known)
+	c := defaultConfig(model)
+	known := slices.Sorted(maps.Keys(c.setters()))
 	return settingErr(key, "unknown setting for sim://%s (known: %s)", model, strings.Join(known, ", "))
 }
 
-func (c *sourceConfig) set(k, val string) (err error) {
-	switch k {
-	case "spec_ppm_reading":
-		c.specReading, err = ppm(k, val)
-	case "spec_ppm_range":
-		c.specRange, err = ppm(k, val)
-	case "range":
-		c.rng, err = positive(k, val, units.Volt)
-	case "noise":
-		c.noise, err = nonNegative(k, val, units.Volt)
-	case "gain_error":
-		c.gainError, err = ptr(quantity(k, val, units.Ratio))
-	case "offset":
-		c.offset, err = ptr(quantity(k, val, units.Volt))
-	default:
-		return unknownKey(modelSource, k)
+func (c *sourceConfig) setters() map[string]setter {
+	return map[string]setter{
+		"spec_ppm_reading": ppmOf(&c.specReading),
+		"spec_ppm_range":   ppmOf(&c.specRange),
+		"range":            positiveOf(&c.rng, units.Volt),
+		"noise":            nonNegativeOf(&c.noise, units.Volt),
+		"gain_error":       overrideOf(&c.gainError, units.Ratio),
+		"offset":           overrideOf(&c.offset, units.Volt),
 	}
-	return err
 }
 
-func (c *meterConfig) set(k, val string) (err error) {
-	switch k {
-	case "spec_ppm_reading":
-		c.specReading, err = ppm(k, val)
-	case "spec_ppm_range":
-		c.specRange, err = ppm(k, val)
-	case "range":
-		var v float64
-		if v, err = nonNegative(k, val, units.Volt); err == nil {
-			if c.rng, err = meterRange(v); err != nil {
-				err = settingErr(k, "%v", err)
+func (c *meterConfig) setters() map[string]setter {
+	return map[string]setter{
+		"spec_ppm_reading": ppmOf(&c.specReading),
+		"spec_ppm_range":   ppmOf(&c.specRange),
+		"range": func(k, val string) error {
+			v, err := nonNegative(k, val, units.Volt)
+			if err == nil {
+				if c.rng, err = meterRange(v); err != nil {
+					err = settingErr(k, "%v", err)
+				}
 			}
-		}
-	case "nplc":
-		var v float64
-		if v, err = quantity(k, val, units.Ratio); err == nil {
-			if err = checkNPLC(v); err != nil {
-				err = settingErr(k, "%v", err)
+			return err
+		},
+		"nplc": func(k, val string) error {
+			v, err := quantity(k, val, units.Ratio)
+			if err == nil {
+				if err = checkNPLC(v); err != nil {
+					err = settingErr(k, "%v", err)
+				}
+				c.nplc = v
 			}
-			c.nplc = v
-		}
-	case "line_frequency":
-		c.lineFreq, err = positive(k, val, units.Hertz)
-	case "resolution":
-		c.resolution, err = nonNegative(k, val, units.Volt)
-	case "noise":
-		c.noise, err = nonNegative(k, val, units.Volt)
-	case "gain_error":
-		c.gainError, err = ptr(quantity(k, val, units.Ratio))
-	case "offset":
-		c.offset, err = ptr(quantity(k, val, units.Volt))
-	case "force_flag":
-		var v string
-		v, err = choice(k, val, "none", "overload", "nan")
-		c.force = map[string]instruments.Flag{"none": instruments.FlagNone,
-			"overload": instruments.FlagOverload, "nan": instruments.FlagNaN}[v]
-	default:
-		return unknownKey(modelMeter, k)
+			return err
+		},
+		"line_frequency": positiveOf(&c.lineFreq, units.Hertz),
+		"resolution":     nonNegativeOf(&c.resolution, units.Volt),
+		"noise":          nonNegativeOf(&c.noise, units.Volt),
+		"gain_error":     overrideOf(&c.gainError, units.Ratio),
+		"offset":         overrideOf(&c.offset, units.Volt),
+		"force_flag": func(k, val string) error {
+			v, err := choice(k, val, "none", "overload", "nan")
+			c.force = map[string]instruments.Flag{"none": instruments.FlagNone,
+				"overload": instruments.FlagOverload, "nan": instruments.FlagNaN}[v]
+			return err
+		},
 	}
-	return err
 }
 
-func (s *DUTSettings) set(k, val string, ofsLSBSet *bool) (err error) {
-	switch k {
-	case "offset":
-		s.Offset, err = ptr(quantity(k, val, units.Volt))
-	case "gain_error":
-		s.GainError, err = ptr(quantity(k, val, units.Ratio))
-	case "offset_sigma":
-		s.OffsetSigma, err = nonNegative(k, val, units.Volt)
-	case "gain_sigma":
-		s.GainSigma, err = nonNegative(k, val, units.Ratio)
-	case "noise":
-		s.Noise, err = nonNegative(k, val, units.Volt)
-	case "tau":
-		s.Tau, err = nonNegative(k, val, units.Second)
-	case "crossover_step":
-		s.CrossoverStep, err = nonNegative(k, val, units.Volt)
-	case "crossover_at":
-		s.CrossoverAt, err = quantity(k, val, units.Volt)
-	case "dnl":
-		q, perr := units.Parse(val)
-		switch {
-		case perr != nil:
-			err = settingErr(k, "%v", perr)
-		case q.Dim != units.Ratio && q.Dim != units.Count:
-			err = settingErr(k, "%q is a %s: expected LSB, e.g. 0.05 or 0.05 LSB", val, q.Dim)
-		case q.Value < 0:
-			err = settingErr(k, "%q must not be negative", val)
-		}
-		s.DNL = q.Value
-	case "open_loop_gain":
-		s.OpenLoopGain, err = nonNegative(k, val, units.Ratio)
-	case "offset_lsb":
-		s.OffsetLSB, err = positive(k, val, units.Volt)
-		*ofsLSBSet = true
-	case "gain_lsb":
-		s.GainLSB, err = positive(k, val, units.Ratio)
-	case "offset_trim":
-		var v string
-		v, err = choice(k, val, "after", "before")
-		s.OffsetTrimBefore = v == "before"
-	case "defect":
-		var v string
-		v, err = choice(k, val, string(DefectNone), string(DefectStuckBit), string(DefectNoisy), string(DefectOpen))
-		s.Defect = Defect(v)
-	case "defect_rate":
-		s.DefectRate, err = nonNegative(k, val, units.Ratio)
-		if err == nil && s.DefectRate > 1 {
-			err = settingErr(k, "%q is more than 100 %%", val)
-		}
-	default:
-		return unknownKey(modelDUT, k)
+// setters returns the setters of the DUT's own keys; offset_lsb also sets
+// *offsetLSBSet.
+func (s *DUTSettings) setters(offsetLSBSet *bool) map[string]setter {
+	return map[string]setter{
+		"offset":         overrideOf(&s.Offset, units.Volt),
+		"gain_error":     overrideOf(&s.GainError, units.Ratio),
+		"offset_sigma":   nonNegativeOf(&s.OffsetSigma, units.Volt),
+		"gain_sigma":     nonNegativeOf(&s.GainSigma, units.Ratio),
+		"noise":          nonNegativeOf(&s.Noise, units.Volt),
+		"tau":            nonNegativeOf(&s.Tau, units.Second),
+		"crossover_step": nonNegativeOf(&s.CrossoverStep, units.Volt),
+		"crossover_at":   quantityOf(&s.CrossoverAt, units.Volt),
+		"dnl": func(k, val string) (err error) {
+			q, perr := units.Parse(val)
+			switch {
+			case perr != nil:
+				err = settingErr(k, "%v", perr)
+			case q.Dim != units.Ratio && q.Dim != units.Count:
+				err = settingErr(k, "%q is a %s: expected LSB, e.g. 0.05 or 0.05 LSB", val, q.Dim)
+			case q.Value < 0:
+				err = settingErr(k, "%q must not be negative", val)
+			}
+			s.DNL = q.Value
+			return err
+		},
+		"open_loop_gain": nonNegativeOf(&s.OpenLoopGain, units.Ratio),
+		"offset_lsb": func(k, val string) error {
+			*offsetLSBSet = true
+			return positiveOf(&s.OffsetLSB, units.Volt)(k, val)
+		},
+		"gain_lsb":    positiveOf(&s.GainLSB, units.Ratio),
+		"offset_trim": choiceOf(&s.OffsetTrimBefore, "after", "before"),
+		"defect": func(k, val string) error {
+			v, err := choice(k, val, string(DefectNone), string(DefectStuckBit), string(DefectNoisy), string(DefectOpen))
+			s.Defect = Defect(v)
+			return err
+		},
+		"defect_rate": func(k, val string) error {
+			err := nonNegativeOf(&s.DefectRate, units.Ratio)(k, val)
+			if err == nil && s.DefectRate > 1 {
+				err = settingErr(k, "%q is more than 100 %%", val)
+			}
+			return err
+		},
 	}
-	return err
 }

@@ -5,7 +5,6 @@ import (
 	"errors"
 	"fmt"
 	"math"
-	"time"
 
 	"trimline/instruments"
 )
@@ -14,8 +13,7 @@ import (
 // level·(1 + GainError) + OffsetError when on, plus white noise per meter reading;
 // off, the DUT input is shorted to 0 V.
 type Source struct {
-	bench      *Bench
-	latency    time.Duration
+	wiring
 	rng        float64 // V, full-scale range; |level| must not exceed it
 	gainErr    float64 // fraction
 	offsetErr  float64 // V
@@ -23,15 +21,13 @@ type Source struct {
 	level      float64 // V, programmed
 	on         bool
 	compliance float64 // A
-	closed     bool
 }
 
 var (
-	_ instruments.Source           = (*Source)(nil)
-	_ instruments.Identifier       = (*Source)(nil)
-	_ instruments.Resetter         = (*Source)(nil)
-	_ instruments.ComplianceSetter = (*Source)(nil)
-	_ instruments.ClockSource      = (*Source)(nil)
+	_ instruments.Source      = (*Source)(nil)
+	_ instruments.Identifier  = (*Source)(nil)
+	_ instruments.Resetter    = (*Source)(nil)
+	_ instruments.ClockSource = (*Source)(nil)
 )
 
 // defaultCompliance is the source's current limit after reset, in amperes.
@@ -44,8 +40,7 @@ func newSource(b *Bench, c config) *Source {
 	r := streamRand("source", b.seed)
 	uGain, uOfs := uniform(r), uniform(r)
 	s := &Source{
-		bench:      b,
-		latency:    c.latency,
+		wiring:     wiring{bench: b, latency: c.latency, name: "sim source", errClosed: errSourceClosed},
 		rng:        c.source.rng,
 		gainErr:    uGain * c.source.specReading,
 		offsetErr:  uOfs * c.source.specRange * c.source.rng,
@@ -82,66 +77,58 @@ func (s *Source) Range() float64 { return s.rng }
 // Clock returns the bench clock.
 func (s *Source) Clock() instruments.Clock { return s.bench.clock }
 
+// drive sets the output state and level; when that moves the DUT input, the DUT
+// starts settling towards the new input now. Called with the bench lock held.
+func (s *Source) drive(on bool, level float64) {
+	old := s.bench.dutInput()
+	s.on, s.level = on, level
+	s.bench.inputChanged(old)
+}
+
 // SetLevel programs the output level in volts (|volts| ≤ the source range, 100 mV by
 // default). When the output is on, the DUT input steps at this instant.
 func (s *Source) SetLevel(ctx context.Context, volts float64) error {
-	b := s.bench
-	b.mu.Lock()
-	defer b.mu.Unlock()
-	if s.closed {
-		return errSourceClosed
-	}
+	var invalid error
 	if math.IsNaN(volts) || math.IsInf(volts, 0) || math.Abs(volts) > s.rng {
-		return fmt.Errorf("sim source: level %g V outside the ±%g V range", volts, s.rng)
+		invalid = fmt.Errorf("sim source: level %g V outside the ±%g V range", volts, s.rng)
 	}
-	if err := b.advance(ctx, s.latency); err != nil {
-		return fmt.Errorf("sim source: set level: %w", err)
+	s.bench.mu.Lock()
+	defer s.bench.mu.Unlock()
+	if err := s.start(ctx, "set level", invalid); err != nil {
+		return err
 	}
-	old := b.dutInput()
-	s.level = volts
-	b.inputChanged(old)
+	s.drive(s.on, volts)
 	return nil
 }
 
 // SetOutput switches the output on or off. Switching off always succeeds, also on a
 // closed source or a done ctx.
 func (s *Source) SetOutput(ctx context.Context, on bool) error {
-	b := s.bench
-	b.mu.Lock()
-	defer b.mu.Unlock()
+	s.bench.mu.Lock()
+	defer s.bench.mu.Unlock()
 	if !on {
-		old := b.dutInput()
-		s.on = false
-		b.inputChanged(old)
-		b.advance(context.WithoutCancel(ctx), s.latency)
+		s.drive(false, s.level)
+		s.bench.advance(context.WithoutCancel(ctx), s.latency)
 		return nil
 	}
-	if s.closed {
-		return errSourceClosed
+	if err := s.start(ctx, "output on", nil); err != nil {
+		return err
 	}
-	if err := b.advance(ctx, s.latency); err != nil {
-		return fmt.Errorf("sim source: output on: %w", err)
-	}
-	old := b.dutInput()
-	s.on = true
-	b.inputChanged(old)
+	s.drive(true, s.level)
 	return nil
 }
 
 // SetCompliance sets the current limit in amperes (0 < amps ≤ 100 mA). The DUT
 // input draws no current, so the limit is never reached.
 func (s *Source) SetCompliance(ctx context.Context, amps float64) error {
-	b := s.bench
-	b.mu.Lock()
-	defer b.mu.Unlock()
-	if s.closed {
-		return errSourceClosed
-	}
+	var invalid error
 	if !(amps > 0 && amps <= maxCompliance) {
-		return fmt.Errorf("sim source: compliance %g A outside 0 < I ≤ %g A", amps, maxCompliance)
+		invalid = fmt.Errorf("sim source: compliance %g A outside 0 < I ≤ %g A", amps, maxCompliance)
 	}
-	if err := b.advance(ctx, s.latency); err != nil {
-		return fmt.Errorf("sim source: set compliance: %w", err)
+	s.bench.mu.Lock()
+	defer s.bench.mu.Unlock()
+	if err := s.start(ctx, "set compliance", invalid); err != nil {
+		return err
 	}
 	s.compliance = amps
 	return nil
@@ -156,45 +143,28 @@ func (s *Source) Compliance() float64 {
 
 // Reset puts the source in its safe state: output off, level 0 V, compliance 10 mA.
 func (s *Source) Reset(ctx context.Context) error {
-	b := s.bench
-	b.mu.Lock()
-	defer b.mu.Unlock()
-	if s.closed {
-		return errSourceClosed
+	s.bench.mu.Lock()
+	defer s.bench.mu.Unlock()
+	if err := s.start(ctx, "reset", nil); err != nil {
+		return err
 	}
-	if err := b.advance(ctx, s.latency); err != nil {
-		return fmt.Errorf("sim source: reset: %w", err)
-	}
-	old := b.dutInput()
-	s.on, s.level, s.compliance = false, 0, defaultCompliance
-	b.inputChanged(old)
+	s.drive(false, 0)
+	s.compliance = defaultCompliance
 	return nil
 }
 
 // Identify returns the source's invented identity.
 func (s *Source) Identify(ctx context.Context) (instruments.Identity, error) {
-	b := s.bench
-	b.mu.Lock()
-	defer b.mu.Unlock()
-	if s.closed {
-		return instruments.Identity{}, errSourceClosed
-	}
-	if err := b.advance(ctx, s.latency); err != nil {
-		return instruments.Identity{}, fmt.Errorf("sim source: identify: %w", err)
-	}
-	return instruments.Identity{Maker: Maker, Model: "VS-100M", Serial: fmt.Sprintf("VS%06d", b.seed%1000000), Firmware: "1.0"}, nil
+	return s.identify(ctx, "VS-100M", "VS")
 }
 
 // Close switches the output off and closes the source; later calls return an error
 // (except SetOutput(false)). A second Close returns nil.
 func (s *Source) Close() error {
-	b := s.bench
-	b.mu.Lock()
-	defer b.mu.Unlock()
+	s.bench.mu.Lock()
+	defer s.bench.mu.Unlock()
 	if !s.closed {
-		old := b.dutInput()
-		s.on = false
-		b.inputChanged(old)
+		s.drive(false, s.level)
 		s.closed = true
 	}
 	return nil

@@ -235,31 +235,71 @@ type stream interface {
 
 var errDeadline = errors.New("deadline")
 
-// streamConn splits a byte stream into lines.
-type streamConn struct {
+// connState is what both kinds of Conn (streamConn, msgConn) keep about
+// themselves: the address their errors name, their options, and whether they are
+// closed or their link is known to be broken.
+type connState struct {
 	addr string
 	opt  Options
-	s    stream
+	// kindOf sorts an error of the underlying link that is none of this package's
+	// own: ErrTimeout, ErrLinkDown (the error is kept as the cause), or nil (the
+	// error is the cause, with no kind).
+	kindOf func(err error) error
 
-	rmu    sync.Mutex // one reader at a time; guards buf
-	buf    []byte
-	tmp    []byte
-	wmu    sync.Mutex // one writer at a time
-	cmu    sync.Mutex
+	cmu    sync.Mutex // guards closed and broken
 	closed bool
+	broken error // why the link cannot be used any more, or nil
 }
 
-func newStreamConn(addr string, s stream, opt Options) *streamConn {
-	return &streamConn{addr: addr, opt: opt, s: s, tmp: make([]byte, 4096)}
-}
-
-func (c *streamConn) isClosed() bool {
+func (c *connState) state() (closed bool, broken error) {
 	c.cmu.Lock()
 	defer c.cmu.Unlock()
-	return c.closed
+	return c.closed, c.broken
 }
 
-func (c *streamConn) fail(op string, ctx context.Context, fromCtx bool, err error, notSent bool) error {
+func (c *connState) isClosed() bool {
+	closed, _ := c.state()
+	return closed
+}
+
+// markClosed marks the Conn closed and reports whether this call closed it (false
+// when it was closed already).
+func (c *connState) markClosed() bool {
+	c.cmu.Lock()
+	defer c.cmu.Unlock()
+	if c.closed {
+		return false
+	}
+	c.closed = true
+	return true
+}
+
+// refuse returns why a read or write must not start (the Conn is closed, its link
+// is known to be broken, or ctx is done) as an *Error for op, or nil. A refused write
+// sent nothing.
+func (c *connState) refuse(ctx context.Context, op string) error {
+	closed, broken := c.state()
+	var kind, cause error
+	switch {
+	case closed:
+		kind = ErrClosed
+	case broken != nil:
+		kind, cause = ErrLinkDown, broken
+	default:
+		kind = ctx.Err()
+	}
+	if kind == nil {
+		return nil
+	}
+	return &Error{Op: op, Addr: c.addr, Kind: kind, Err: cause, NotSent: op == "write"}
+}
+
+// fail turns the error of a read or write that started into an *Error for op:
+// ErrClosed once the Conn is closed, ctx.Err() once ctx is done,
+// context.DeadlineExceeded when the exchange deadline was the context's own,
+// ErrTimeout at the exchange timeout, ErrLineTooLong, and otherwise what kindOf
+// says. fromCtx is deadline's second result; notSent says no byte of a write left.
+func (c *connState) fail(op string, ctx context.Context, fromCtx bool, err error, notSent bool) error {
 	e := &Error{Op: op, Addr: c.addr, NotSent: notSent}
 	switch {
 	case c.isClosed():
@@ -272,10 +312,10 @@ func (c *streamConn) fail(op string, ctx context.Context, fromCtx bool, err erro
 		e.Kind = ErrTimeout
 	case errors.Is(err, ErrLineTooLong):
 		e.Kind = ErrLineTooLong
-	case errors.Is(err, ErrLinkDown) || c.s.linkErr(err):
-		e.Kind, e.Err = ErrLinkDown, err
 	default:
-		e.Err = err
+		if e.Kind = c.kindOf(err); e.Kind != ErrTimeout {
+			e.Err = err
+		}
 	}
 	if e.Err == errDeadline || e.Err == ErrLinkDown {
 		e.Err = nil
@@ -283,15 +323,35 @@ func (c *streamConn) fail(op string, ctx context.Context, fromCtx bool, err erro
 	return e
 }
 
+// streamConn splits a byte stream into lines.
+type streamConn struct {
+	connState
+	s stream
+
+	rmu sync.Mutex // one reader at a time; guards buf
+	buf []byte
+	tmp []byte
+	wmu sync.Mutex // one writer at a time
+}
+
+func newStreamConn(addr string, s stream, opt Options) *streamConn {
+	c := &streamConn{s: s, tmp: make([]byte, 4096)}
+	c.addr, c.opt = addr, opt
+	c.kindOf = func(err error) error {
+		if errors.Is(err, ErrLinkDown) || s.linkErr(err) {
+			return ErrLinkDown
+		}
+		return nil
+	}
+	return c
+}
+
 // WriteLine sends s and the write terminator. Unread input is dropped first.
 func (c *streamConn) WriteLine(ctx context.Context, s string) error {
 	c.wmu.Lock()
 	defer c.wmu.Unlock()
-	if c.isClosed() {
-		return &Error{Op: "write", Addr: c.addr, Kind: ErrClosed, NotSent: true}
-	}
-	if err := ctx.Err(); err != nil {
-		return &Error{Op: "write", Addr: c.addr, Kind: err, NotSent: true}
+	if err := c.refuse(ctx, "write"); err != nil {
+		return err
 	}
 	if c.rmu.TryLock() { // no reader waits for a reply: unread input is stale
 		c.buf = c.buf[:0]
@@ -315,11 +375,8 @@ func (c *streamConn) WriteLine(ctx context.Context, s string) error {
 func (c *streamConn) ReadLine(ctx context.Context) (string, error) {
 	c.rmu.Lock()
 	defer c.rmu.Unlock()
-	if c.isClosed() {
-		return "", &Error{Op: "read", Addr: c.addr, Kind: ErrClosed}
-	}
-	if err := ctx.Err(); err != nil {
-		return "", &Error{Op: "read", Addr: c.addr, Kind: err}
+	if err := c.refuse(ctx, "read"); err != nil {
+		return "", err
 	}
 	term := []byte(c.opt.ReadTerm)
 	if line, ok := c.cut(term); ok {
@@ -363,13 +420,9 @@ func (c *streamConn) cut(term []byte) (string, bool) {
 
 // Close closes the link; a second call returns nil.
 func (c *streamConn) Close() error {
-	c.cmu.Lock()
-	if c.closed {
-		c.cmu.Unlock()
+	if !c.markClosed() {
 		return nil
 	}
-	c.closed = true
-	c.cmu.Unlock()
 	c.s.abortRead()
 	c.s.abortWrite()
 	if err := c.s.close(); err != nil {

@@ -1,7 +1,6 @@
 package transport_test
 
 import (
-	"bufio"
 	"context"
 	"errors"
 	"io/fs"
@@ -9,13 +8,13 @@ import (
 	"net/url"
 	"runtime"
 	"strings"
-	"sync"
 	"testing"
 	"time"
 
 	"trimline/instruments"
 	"trimline/instruments/sim/serve"
 	"trimline/instruments/transport"
+	"trimline/instruments/transport/transporttest"
 )
 
 const timeout = 200 * time.Millisecond
@@ -239,41 +238,11 @@ func TestMissingDevice(t *testing.T) {
 	}
 }
 
-// lineServer is a raw TCP peer: answer maps each received line to the bytes to send.
+// lineServer is a raw TCP peer: answer maps each line received (terminated by
+// "\r") to the bytes to send.
 func lineServer(t *testing.T, answer func(line string) string) string {
 	t.Helper()
-	ln, err := net.Listen("tcp", "127.0.0.1:0")
-	if err != nil {
-		t.Fatal(err)
-	}
-	var wg sync.WaitGroup
-	t.Cleanup(func() { ln.Close(); wg.Wait() })
-	wg.Add(1)
-	go func() {
-		defer wg.Done()
-		for {
-			c, err := ln.Accept()
-			if err != nil {
-				return
-			}
-			wg.Add(1)
-			go func() {
-				defer wg.Done()
-				defer c.Close()
-				r := bufio.NewReader(c)
-				for {
-					l, err := r.ReadString('\r')
-					if err != nil {
-						return
-					}
-					if _, err := c.Write([]byte(answer(strings.TrimSuffix(l, "\r")))); err != nil {
-						return
-					}
-				}
-			}()
-		}
-	}()
-	return "tcp://" + ln.Addr().String()
+	return "tcp://" + transporttest.LineServer(t, '\r', func(l []byte) []byte { return []byte(answer(string(l))) })
 }
 
 func TestTerminatorsAndFraming(t *testing.T) {

@@ -35,14 +35,10 @@ type device interface {
 // abandoned read the Conn is unusable (ErrLinkDown): a late response would be
 // taken for the next one; the caller redials.
 type msgConn struct {
-	addr string
-	opt  Options
-	f    device
+	connState // broken is set after an abandoned read
+	f         device
 
 	mu      sync.Mutex // one exchange step at a time
-	cmu     sync.Mutex
-	closed  bool
-	broken  error // set after an aborted read
 	pending chan readResult
 }
 
@@ -52,25 +48,25 @@ type readResult struct {
 }
 
 func newMsgConn(addr string, f device, opt Options) *msgConn {
-	return &msgConn{addr: addr, opt: opt, f: f}
+	c := &msgConn{f: f}
+	c.addr, c.opt, c.kindOf = addr, opt, msgKind
+	return c
 }
 
-func (c *msgConn) state() (closed bool, broken error) {
-	c.cmu.Lock()
-	defer c.cmu.Unlock()
-	return c.closed, c.broken
+// msgKind sorts a device error: the device's own timeouts are ErrTimeout; anything
+// else (EOF, EIO, ENODEV) means the device went away.
+func msgKind(err error) error {
+	if errors.Is(err, os.ErrDeadlineExceeded) || isDriverTimeout(err) {
+		return ErrTimeout
+	}
+	return ErrLinkDown
 }
 
 func (c *msgConn) WriteLine(ctx context.Context, s string) error {
 	c.mu.Lock()
 	defer c.mu.Unlock()
-	if closed, broken := c.state(); closed {
-		return &Error{Op: "write", Addr: c.addr, Kind: ErrClosed, NotSent: true}
-	} else if broken != nil {
-		return &Error{Op: "write", Addr: c.addr, Kind: ErrLinkDown, Err: broken, NotSent: true}
-	}
-	if err := ctx.Err(); err != nil {
-		return &Error{Op: "write", Addr: c.addr, Kind: err, NotSent: true}
+	if err := c.refuse(ctx, "write"); err != nil {
+		return err
 	}
 	dl, fromCtx := deadline(ctx, c.opt.Timeout)
 	c.f.SetWriteDeadline(dl)
@@ -86,13 +82,8 @@ func (c *msgConn) WriteLine(ctx context.Context, s string) error {
 func (c *msgConn) ReadLine(ctx context.Context) (string, error) {
 	c.mu.Lock()
 	defer c.mu.Unlock()
-	if closed, broken := c.state(); closed {
-		return "", &Error{Op: "read", Addr: c.addr, Kind: ErrClosed}
-	} else if broken != nil {
-		return "", &Error{Op: "read", Addr: c.addr, Kind: ErrLinkDown, Err: broken}
-	}
-	if err := ctx.Err(); err != nil {
-		return "", &Error{Op: "read", Addr: c.addr, Kind: err}
+	if err := c.refuse(ctx, "read"); err != nil {
+		return "", err
 	}
 	dl, fromCtx := deadline(ctx, c.opt.Timeout)
 	c.f.SetReadDeadline(dl) // effective where the device can be polled
@@ -152,40 +143,12 @@ func (c *msgConn) readMessage() ([]byte, error) {
 	}
 }
 
-func (c *msgConn) fail(op string, ctx context.Context, fromCtx bool, err error, notSent bool) error {
-	e := &Error{Op: op, Addr: c.addr, NotSent: notSent}
-	closed, _ := c.state()
-	switch {
-	case closed:
-		e.Kind = ErrClosed
-	case ctx.Err() != nil:
-		e.Kind = ctx.Err()
-	case errors.Is(err, errDeadline) && fromCtx:
-		e.Kind = context.DeadlineExceeded
-	case errors.Is(err, errDeadline) || errors.Is(err, os.ErrDeadlineExceeded) || isDriverTimeout(err):
-		e.Kind = ErrTimeout
-	case errors.Is(err, ErrLineTooLong):
-		e.Kind = ErrLineTooLong
-	default:
-		// EOF, EIO, ENODEV: the device went away.
-		e.Kind, e.Err = ErrLinkDown, err
-	}
-	if e.Err == errDeadline {
-		e.Err = nil
-	}
-	return e
-}
-
 // Close closes the device; a second call returns nil. It does not wait for an
 // abandoned read.
 func (c *msgConn) Close() error {
-	c.cmu.Lock()
-	if c.closed {
-		c.cmu.Unlock()
+	if !c.markClosed() {
 		return nil
 	}
-	c.closed = true
-	c.cmu.Unlock()
 	c.f.SetReadDeadline(time.Unix(1, 0))
 	c.f.SetWriteDeadline(time.Unix(1, 0))
 	done := make(chan error, 1)

@@ -302,30 +302,40 @@ func (s Sweep) uRandom(i int) float64 {
 	return s.URandom[i]
 }
 
+// weightedCentre returns what a straight-line fit with weights 1/u[i]² is centred
+// with: the weights w[i] = (umin/u[i])², normalised by umin, the smallest u (the
+// normalisation cancels in every result), their sum sw, the weighted mean xm of x
+// and sdd = Σ w[i]·(x[i] − xm)². The caller guarantees len(u) = len(x) ≥ 1 and
+// finite x and u > 0.
+func weightedCentre(x, u []float64, umin float64) (w []float64, sw, xm, sdd float64) {
+	n := len(x)
+	w = make([]float64, n)
+	var swx float64
+	for i := range n {
+		r := umin / u[i]
+		w[i] = r * r
+		sw += w[i]
+		swx += w[i] * x[i]
+	}
+	xm = swx / sw
+	for i := range n {
+		d := x[i] - xm
+		sdd += w[i] * d * d
+	}
+	return w, sw, xm, sdd
+}
+
 // lsWeights returns the weights a0[i], a1[i] of y[i] in the weighted
 // least-squares coefficients b0 = Σ a0[i]·y[i], b1 = Σ a1[i]·y[i] of the
 // line y = b0 + b1·(x − x0) with weights 1/u[i]². The caller guarantees
 // valid input (the fit has succeeded).
 func lsWeights(x, u []float64, x0 float64) (a0, a1 []float64) {
 	n := len(x)
-	w := make([]float64, n)
 	umin := math.Inf(1)
 	for _, v := range u {
 		umin = math.Min(umin, v)
 	}
-	var sw, swx float64
-	for i := range n {
-		r := umin / u[i] // normalised weights: the normalisation cancels
-		w[i] = r * r
-		sw += w[i]
-		swx += w[i] * x[i]
-	}
-	xm := swx / sw
-	var sdd float64
-	for i := range n {
-		d := x[i] - xm
-		sdd += w[i] * d * d
-	}
+	w, sw, xm, sdd := weightedCentre(x, u, umin)
 	a0, a1 = make([]float64, n), make([]float64, n)
 	for i := range n {
 		a1[i] = w[i] * (x[i] - xm) / sdd

@@ -51,20 +51,7 @@ func ResidualU(x, u []float64) []float64 {
 		umin = math.Min(umin, u[i])
 		xmax = math.Max(xmax, math.Abs(x[i]))
 	}
-	w := make([]float64, n)
-	var sw, swx float64
-	for i := range n {
-		r := umin / u[i]
-		w[i] = r * r
-		sw += w[i]
-		swx += w[i] * x[i]
-	}
-	xm := swx / sw
-	var sdd float64
-	for i := range n {
-		d := x[i] - xm
-		sdd += w[i] * d * d
-	}
+	w, sw, xm, sdd := weightedCentre(x, u, umin)
 	// All x equal leaves only rounding in x − x̄_w.
 	if tiny := 16 * float64(n) * 0x1p-52 * xmax; !(sdd > sw*tiny*tiny) {
 		return nil
