@@ -370,4 +370,3 @@ func orZero(s string) string {
 }
 
 func fmtV(v float64) string { return units.Format(v, "V", 4) }
-func fmtA(v float64) string { return units.Format(v, "A", 4) }
