@@ -104,7 +104,7 @@ type Record struct {
 
 // FileRef names one input file and the SHA-256 of its exact bytes.
 type FileRef struct {
-	Kind   string `json:"kind"` // "station", "sequence" or "limits"
+	Kind   string `json:"kind"` // FileStation, FileSequence or FileLimits
 	Name   string `json:"name"` // base name as given
 	Title  string `json:"title"`
 	SHA256 string `json:"sha256"` // lowercase hex

@@ -205,7 +205,7 @@ func ParseSequence(name string, data []byte, read func(path string) ([]byte, err
 	s := &Sequence{
 		Product: f.Sequence.Product, Revision: f.Sequence.Revision, Maker: f.Sequence.Maker,
 		Description: f.Sequence.Description, Requires: f.Requires, Raw: data,
-		File: FileRef{Kind: "sequence", Name: filepath.Base(name), Title: strings.TrimSpace(f.Sequence.Product + " rev " + f.Sequence.Revision), SHA256: hashHex(data)},
+		File: FileRef{Kind: FileSequence, Name: filepath.Base(name), Title: strings.TrimSpace(f.Sequence.Product + " rev " + f.Sequence.Revision), SHA256: hashHex(data)},
 	}
 	if len(s.Requires) == 0 {
 		s.Requires = append([]string(nil), Roles...)
@@ -328,13 +328,13 @@ func ParseSequence(name string, data []byte, read func(path string) ([]byte, err
 
 func limitsFileRef(s *limits.Set) FileRef {
 	if s == nil {
-		return FileRef{Kind: "limits"}
+		return FileRef{Kind: FileLimits}
 	}
 	title := strings.TrimSpace(s.Name + " rev " + s.Revision)
 	if s.VariantName != "" {
 		title += ", variant " + s.VariantName
 	}
-	return FileRef{Kind: "limits", Name: baseName(s.File), Title: title, SHA256: s.SHA256}
+	return FileRef{Kind: FileLimits, Name: baseName(s.File), Title: title, SHA256: s.SHA256}
 }
 
 func sweepPlan(doc *files.Doc, path string, d *sweepDecl, errs *files.List) SweepPlan {

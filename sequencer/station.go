@@ -169,7 +169,7 @@ func ParseStation(name string, data []byte) (*Station, error) {
 	st := &Station{
 		ID: f.Station.ID, Name: f.Station.Name, CertificatePrefix: f.Station.CertificatePrefix,
 		Instruments: map[string]StationInstrument{},
-		File:        FileRef{Kind: "station", Name: filepath.Base(name), Title: f.Station.Name, SHA256: hashHex(data)},
+		File:        FileRef{Kind: FileStation, Name: filepath.Base(name), Title: f.Station.Name, SHA256: hashHex(data)},
 		Raw:         data,
 	}
 	if st.CertificatePrefix == "" {

@@ -4,9 +4,7 @@ import (
 	"context"
 	"fmt"
 	"os"
-	"path/filepath"
 	"sort"
-	"strconv"
 	"strings"
 
 	"trimline/instruments"
@@ -55,7 +53,7 @@ elapse, as on a real bench.`,
 			fmt.Fprintf(e.stdout, "  %-6s %s\n", r, addrs[r])
 		}
 		if *write != "" {
-			if err := os.WriteFile(*write, servedStationYAML(st, addrs), 0o644); err != nil {
+			if err := os.WriteFile(*write, st.Rewired(addrs, serve.DUTTemplates), 0o644); err != nil {
 				return err
 			}
 			fmt.Fprintf(e.stdout, "station file for these addresses: %s\n", *write)
@@ -81,46 +79,4 @@ func serveStation(ctx context.Context, st *sequencer.Station, transport string, 
 		return nil, fmt.Errorf("serve the simulated bench: %w", err)
 	}
 	return srv, nil
-}
-
-// servedStationYAML writes a station file equal to st but with each instrument at
-// its served address, without the simulator's settings (the bench being served
-// holds them), and with the fixture's load_unit template.
-func servedStationYAML(st *sequencer.Station, addrs map[string]string) []byte {
-	var b strings.Builder
-	q := strconv.Quote
-	fmt.Fprintf(&b, "# Station %s, served over the wire by `trimline bench` / `trimline demo --transport`.\n", st.ID)
-	fmt.Fprintf(&b, "station:\n  id: %s\n  name: %s\n  certificate_prefix: %s\n", q(st.ID), q(st.Name+" (served simulator)"), q(st.CertificatePrefix))
-	b.WriteString("instruments:\n")
-	for _, r := range sequencer.Roles {
-		in, ok := st.Instruments[r]
-		if !ok {
-			continue
-		}
-		fmt.Fprintf(&b, "  %s:\n    address: %s\n    asset: %s\n", r, q(addrs[r]), q(in.Asset))
-		if !in.CalDue.IsZero() {
-			fmt.Fprintf(&b, "    cal_due: %s\n", in.CalDue.Format("2006-01-02"))
-		}
-		if a := in.Accuracy; a != (sequencer.Accuracy{}) {
-			fmt.Fprintf(&b, "    accuracy:\n      of_reading: %.9g ppm\n      of_range: %.9g ppm\n      range: %.9g V\n", a.OfReading*1e6, a.OfRange*1e6, a.Range)
-			if a.Resolution > 0 {
-				fmt.Fprintf(&b, "      resolution: %.9g V\n", a.Resolution)
-			}
-		}
-		if r == "dut" {
-			b.WriteString("    templates:\n      load_unit: \"FIXTURE LOAD {serial}\"\n")
-		}
-	}
-	fmt.Fprintf(&b, "safety:\n  max_source_voltage: %g V\n  max_source_current: %g A\n", st.MaxSourceVolts, st.MaxSourceAmps)
-	if st.Interlock != nil {
-		fmt.Fprintf(&b, "interlock:\n  role: %s\n  query: %s\n  closed: %s\n", st.Interlock.Role, q(st.Interlock.Query), q(st.Interlock.Closed))
-	}
-	if st.OutputFolder != "" {
-		// The folder was resolved against the original file; keep it absolute so
-		// the copy writes to the same place wherever it lives.
-		if abs, err := filepath.Abs(st.OutputFolder); err == nil {
-			fmt.Fprintf(&b, "output:\n  folder: %s\n", q(filepath.ToSlash(abs)))
-		}
-	}
-	return []byte(b.String())
 }

@@ -1,13 +1,10 @@
 package main
 
 import (
-	"bytes"
 	"context"
 	"fmt"
 	"io"
 	"os"
-
-	"github.com/goccy/go-yaml"
 
 	"trimline/instruments/files"
 	"trimline/limits"
@@ -40,18 +37,18 @@ Exit code 0 when every file is clean, 2 otherwise.`,
 				other = append(other, err)
 				continue
 			}
-			kind := detectKind(data)
+			kind := sequencer.FileKind(data)
 			var lerr error
 			switch kind {
-			case "station":
+			case sequencer.FileStation:
 				st, lerr = sequencer.ParseStation(path, data)
-			case "sequence":
+			case sequencer.FileSequence:
 				var s *sequencer.Sequence
 				s, lerr = sequencer.LoadSequence(path)
 				if s != nil {
 					seqs = append(seqs, s)
 				}
-			case "limits":
+			case sequencer.FileLimits:
 				_, lerr = limits.Load(path, data, sequencer.ResultCatalog)
 			default:
 				problems = append(problems, &files.Error{File: path, Line: 1, Col: 1,
@@ -119,28 +116,4 @@ func turRatio(v float64) string {
 		return "?"
 	}
 	return fmt.Sprintf("%.1f:1", v)
-}
-
-// detectKind tells a file's kind from its top-level keys.
-func detectKind(data []byte) string {
-	var top map[string]any
-	if err := yaml.Unmarshal(data, &top); err != nil {
-		// Fall back to a line scan so that a broken file still gets its own
-		// loader's positioned syntax error.
-		for _, k := range []struct{ key, kind string }{{"station:", "station"}, {"sequence:", "sequence"}, {"limit_set:", "limits"}} {
-			if bytes.HasPrefix(data, []byte(k.key)) || bytes.Contains(data, []byte("\n"+k.key)) {
-				return k.kind
-			}
-		}
-		return ""
-	}
-	switch {
-	case top["station"] != nil:
-		return "station"
-	case top["sequence"] != nil:
-		return "sequence"
-	case top["limit_set"] != nil:
-		return "limits"
-	}
-	return ""
 }

@@ -13,6 +13,7 @@ import (
 	"strconv"
 	"time"
 
+	"trimline/instruments/sim/serve"
 	"trimline/reports/ledger"
 	"trimline/reports/release"
 	"trimline/reports/signing"
@@ -74,7 +75,7 @@ unit takes a few seconds, as it would on a real bench.`,
 			}
 			defer srv.Close()
 			station = filepath.Join(*out, "brx200-station-"+*transport+".yaml")
-			if err := os.WriteFile(station, servedStationYAML(st, srv.Addresses()), 0o644); err != nil {
+			if err := os.WriteFile(station, st.Rewired(srv.Addresses(), serve.DUTTemplates), 0o644); err != nil {
 				return err
 			}
 			fmt.Fprintf(e.stdout, "serving the simulated bench over %s; station file %s\n", *transport, station)
@@ -166,7 +167,7 @@ func releaseDemo(ctx context.Context, e *env, dir string) error {
 		if _, ok := rel[hex.EncodeToString(sum[:])]; ok {
 			continue
 		}
-		kind := detectKind(data)
+		kind := sequencer.FileKind(data)
 		r, err := recordRelease(ctx, filepath.Join(dir, "ledger.db"), filepath.Join(dir, "keys", "approvers", "demo-qe.key"), f, kind, data, "Demo Quality Engineer", "approved")
 		if err != nil {
 			return err

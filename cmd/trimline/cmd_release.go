@@ -34,7 +34,7 @@ only releases signed with a key in its release_keys folder.`,
 		if err != nil {
 			return badInput(err)
 		}
-		kind := detectKind(data)
+		kind := sequencer.FileKind(data)
 		switch kind {
 		case release.KindLimits:
 			if _, err := loadLimitSet(pos[0]); err != nil {

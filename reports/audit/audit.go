@@ -148,11 +148,11 @@ func Replay(ctx context.Context, led *ledger.Ledger, rec *sequencer.Record) ([]s
 		}
 		data[f.Kind], names[f.Kind] = b, f.Name
 	}
-	st, err := sequencer.ParseStation(names["station"], data["station"])
+	st, err := sequencer.ParseStation(names[sequencer.FileStation], data[sequencer.FileStation])
 	if err != nil {
 		return nil, fmt.Errorf("%s: stored station file: %w", rec.RunID, err)
 	}
-	seq, err := sequencer.ParseSequence(names["sequence"], data["sequence"], func(string) ([]byte, error) { return data["limits"], nil })
+	seq, err := sequencer.ParseSequence(names[sequencer.FileSequence], data[sequencer.FileSequence], func(string) ([]byte, error) { return data[sequencer.FileLimits], nil })
 	if err != nil {
 		return nil, fmt.Errorf("%s: stored sequence file: %w", rec.RunID, err)
 	}

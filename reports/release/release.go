@@ -32,8 +32,8 @@ const Action = "release"
 
 // Kinds of file that are released.
 const (
-	KindLimits   = "limits"
-	KindSequence = "sequence"
+	KindLimits   = sequencer.FileLimits
+	KindSequence = sequencer.FileSequence
 )
 
 // ErrNotReleased is returned by Check when a production run's sequence or limit file

@@ -69,6 +69,10 @@ import (
 	"trimline/instruments/sim"
 )
 
+// DUTTemplates are the generic trim-port templates that reach the served fixture:
+// its load_unit command places a unit, as Server.LoadUnit does from Go.
+var DUTTemplates = map[string]string{"load_unit": "FIXTURE LOAD {serial}"}
+
 // Options configure a Server. The zero value serves over loopback TCP.
 type Options struct {
 	// Transport is "tcp" (loopback 127.0.0.1, an ephemeral port per instrument; the

@@ -1,0 +1,39 @@
+package sequencer
+
+import (
+	"bytes"
+
+	"github.com/goccy/go-yaml"
+)
+
+// The kinds of file a station reads, as FileRef.Kind and the ledger record them.
+const (
+	FileStation  = "station"  // a station file: instruments, safety caps, output
+	FileSequence = "sequence" // a sequence file: the product's sweeps and trims
+	FileLimits   = "limits"   // a limit file: what the results are judged against
+)
+
+// FileKind tells a file's kind (FileStation, FileSequence or FileLimits) from its
+// top-level keys, or "" when it is none of them. A file that is not valid YAML is
+// told by a line scan, so that it still reaches its own loader and gets that
+// loader's positioned syntax error.
+func FileKind(data []byte) string {
+	var top map[string]any
+	if err := yaml.Unmarshal(data, &top); err != nil {
+		for _, k := range []struct{ key, kind string }{{"station:", FileStation}, {"sequence:", FileSequence}, {"limit_set:", FileLimits}} {
+			if bytes.HasPrefix(data, []byte(k.key)) || bytes.Contains(data, []byte("\n"+k.key)) {
+				return k.kind
+			}
+		}
+		return ""
+	}
+	switch {
+	case top["station"] != nil:
+		return FileStation
+	case top["sequence"] != nil:
+		return FileSequence
+	case top["limit_set"] != nil:
+		return FileLimits
+	}
+	return ""
+}
