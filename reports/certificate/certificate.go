@@ -3,11 +3,11 @@
 //
 // Page 1 carries what ISO/IEC 17025:2017 §7.8.4.1 and §7.8.6 ask of a calibration
 // certificate: the unit, the conditions (ambient temperature, or that it was not
-// recorded), the results as found (pre_*, before adjustment) and as left (post_*,
-// after it), each with its expanded uncertainty U, coverage factor k and unit; for
-// toleranced limits the tolerance, the acceptance interval of a guarded rule, the
-// zone (pass, conditional pass, conditional fail, fail), the TUR and the specific
-// false-accept probability; the decision rules in force (ILAC-G8:09/2019) with the
+// recorded), the results as found (before adjustment) and as left (after it), by
+// the stage the results table declares (sequencer.Stage), each with its expanded
+// uncertainty U, coverage factor k and unit; for toleranced limits the tolerance,
+// the acceptance interval of a guarded rule, the zone (pass, conditional pass,
+// conditional fail, fail), the TUR and the specific false-accept probability; the decision rules in force (ILAC-G8:09/2019) with the
 // coverage probability; and the traceability of the reference instruments. The
 // measurement detail follows: each limit's decision statement, results no limit
 // judged, fits, plots and every sweep point. Records without uncertainties (made
