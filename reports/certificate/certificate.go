@@ -7,9 +7,9 @@
 // the stage the results table declares (sequencer.Stage), each with its expanded
 // uncertainty U, coverage factor k and unit; for toleranced limits the tolerance,
 // the acceptance interval of a guarded rule, the zone (pass, conditional pass,
-// conditional fail, fail), the TUR and the specific false-accept probability; the decision rules in force (ILAC-G8:09/2019) with the
-// coverage probability; and the traceability of the reference instruments. The
-// measurement detail follows: each limit's decision statement, results no limit
+// conditional fail, fail), the TUR and the specific false-accept probability; the
+// decision rules in force (ILAC-G8:09/2019) with the coverage probability; and the
+// traceability of the reference instruments. The measurement detail follows: each limit's decision statement, results no limit
 // judged, fits, plots and every sweep point. Records without uncertainties (made
 // before they were evaluated) render with "U not evaluated".
 //
