@@ -9,9 +9,10 @@
 // the acceptance interval of a guarded rule, the zone (pass, conditional pass,
 // conditional fail, fail), the TUR and the specific false-accept probability; the
 // decision rules in force (ILAC-G8:09/2019) with the coverage probability; and the
-// traceability of the reference instruments. The measurement detail follows: each limit's decision statement, results no limit
-// judged, fits, plots and every sweep point. Records without uncertainties (made
-// before they were evaluated) render with "U not evaluated".
+// traceability of the reference instruments. The measurement detail follows: each
+// limit's decision statement, results no limit judged, fits, plots and every sweep
+// point. Records without uncertainties (made before they were evaluated) render
+// with "U not evaluated".
 //
 // The document is made from the Record and the Options alone: identical inputs give
 // byte-identical files. The creation date is the record's finish time, resource
