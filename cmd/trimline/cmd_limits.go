@@ -20,19 +20,23 @@ func newLimitsCmd() *command {
 
 func newLimitsLintCmd() *command {
 	c := &command{
-		UsageLine: "trimline limits lint [--station FILE --sequence FILE] FILE...",
+		UsageLine: "trimline limits lint [--sequence FILE [--station FILE]] FILE...",
 		Short:     "print every problem of each limit file",
 		Long: `Prints every problem of each limit file as file:line:col: unknown result names,
 type errors, limits that can never pass or never fail over the result's physical
-range, contradictory or redundant limits on one result, tolerances tighter than the
-station can measure (with --station and --sequence), missing descriptions. Exit 2
-when any error is found.`,
+range (the trim codes' and the output's ranges come from the product, so they are
+checked with --sequence), contradictory or redundant limits on one result,
+tolerances tighter than the station can measure (with --sequence and --station),
+missing descriptions. Exit 2 when any error is found.`,
 	}
 	station := c.Flag.String("station", "", "station `file`: also check each tolerance against the TUR the station can reach")
 	sequence := c.Flag.String("sequence", "", "sequence `file`: the product's physical ranges (trim codes, output), and with --station the TUR check")
 	c.Run = func(ctx context.Context, e *env, paths []string) error {
 		if len(paths) == 0 {
 			return usagef("name at least one limit file")
+		}
+		if *station != "" && *sequence == "" {
+			return usagef("--station needs --sequence: the TUR check predicts the sequence's measurements on the station")
 		}
 		var opt limits.LintOptions
 		var seq *sequencer.Sequence // nil: lint knows only the ranges no product sets

@@ -96,3 +96,11 @@ func TestExitCode(t *testing.T) {
 		}
 	}
 }
+
+// Lint's TUR check needs both files; a station alone is refused, not ignored.
+func TestLintStationNeedsSequence(t *testing.T) {
+	code, _, errOut := runCLI(t, "limits", "lint", "--station", "st.yaml", "limits.yaml")
+	if code != exitUsage || !strings.Contains(errOut, "--station needs --sequence") {
+		t.Errorf("lint --station alone: exit %d %s", code, errOut)
+	}
+}
