@@ -9,9 +9,9 @@ import (
 	"testing"
 	"time"
 
-	"trimline/instruments"
 	_ "trimline/instruments/generic"
 	"trimline/instruments/sim/serve"
+	"trimline/instruments/sim/simtest"
 	"trimline/sequencer"
 )
 
@@ -25,7 +25,7 @@ func TestEngineOverTheWire(t *testing.T) {
 	if testing.Short() {
 		t.Skip("real-time run")
 	}
-	srv := startServed(t)
+	srv := simtest.Serve(t, serve.Options{Transport: "tcp"})
 	a := srv.Addresses()
 	station := fmt.Sprintf(`
 station: {id: TW1, name: wire smoke test}
@@ -87,26 +87,4 @@ output: {folder: out}
 		t.Fatal("the source output is on after the faulted run")
 	}
 	t.Logf("fault recorded: %s", rec.Fault)
-}
-
-// startServed serves a quiet simulated bench over loopback TCP with a unit loaded:
-// no instrument errors or noise, a short meter aperture (0.01 PLC) and a DUT that
-// settles in 1 ms.
-func startServed(t *testing.T) *serve.Server {
-	t.Helper()
-	specs := []instruments.Spec{
-		{Role: "source", Address: "sim://source", Settings: map[string]string{"noise": "0V", "gain_error": "0", "offset": "0V"}},
-		{Role: "meter", Address: "sim://meter", Settings: map[string]string{"noise": "0V", "gain_error": "0", "offset": "0V", "nplc": "0.01"}},
-		{Role: "dut", Address: "sim://dut", Settings: map[string]string{"offset": "3.1mV", "gain_error": "-2500 ppm", "noise": "0V",
-			"crossover_step": "0uV", "dnl": "0", "defect": "none"}},
-	}
-	srv, err := serve.Start(context.Background(), specs, serve.Options{Transport: "tcp"})
-	if err != nil {
-		t.Fatal(err)
-	}
-	t.Cleanup(func() { srv.Close() })
-	if err := srv.LoadUnit(context.Background(), "BRX-000001"); err != nil {
-		t.Fatal(err)
-	}
-	return srv
 }
