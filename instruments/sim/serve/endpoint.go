@@ -28,16 +28,17 @@ type endpoint struct {
 	role string
 	h    handler
 
-	mu         sync.Mutex
-	fault      Fault
-	cmds       int // commands received since Start or SetFault
-	total      int // commands received since Start
-	replies    int // replies sent since Start or SetFault
-	errorFired bool
-	log        []string
-	links      map[io.Closer]bool
-	closers    []func() error
-	down       bool
+	mu           sync.Mutex
+	fault        Fault
+	cmds         int // commands received since Start or SetFault
+	total        int // commands received since Start
+	replies      int // replies sent since Start or SetFault
+	errorMatches int // commands matching Fault.ErrorAfter since Start or SetFault
+	errorFired   bool
+	log          []string
+	links        map[io.Closer]bool
+	closers      []func() error
+	down         bool
 }
 
 // addCloser registers something to close at shutdown (a listener, a terminal).
@@ -103,9 +104,11 @@ func (ep *endpoint) serve(link io.ReadWriteCloser) {
 		perLink++
 		drop := f.DropAfter > 0 && perLink > f.DropAfter
 		silent := f.NoReply && n >= f.NoReplyAfter
-		inject := !drop && !silent && f.ErrorAfter != "" && !ep.errorFired && strings.HasPrefix(strings.TrimSpace(line), f.ErrorAfter)
-		if inject {
-			ep.errorFired = true
+		inject := false
+		if !drop && !silent && f.ErrorAfter != "" && !ep.errorFired && strings.HasPrefix(strings.TrimSpace(line), f.ErrorAfter) {
+			ep.errorMatches++
+			inject = ep.errorMatches >= max(f.ErrorAt, 1)
+			ep.errorFired = inject
 		}
 		ep.mu.Unlock()
 		if drop {

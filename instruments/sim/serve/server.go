@@ -112,9 +112,11 @@ type Fault struct {
 	Truncate bool
 	GarbleAt int
 	// ErrorAfter pushes ErrorEntry onto the error queue after the first command that
-	// starts with this prefix has been carried out. The DUT has no queue: its first
-	// matching command is not carried out and answers "ERR injected fault".
+	// starts with this prefix (the ErrorAt-th, with ErrorAt > 1) has been carried
+	// out. The DUT has no queue: that matching command is not carried out and
+	// answers "ERR injected fault".
 	ErrorAfter string
+	ErrorAt    int
 	// ErrorEntry is the entry ErrorAfter pushes, code,"text"; "" means
 	// -300,"Device-specific error".
 	ErrorEntry string
@@ -243,7 +245,7 @@ func (s *Server) SetFault(role string, f Fault) error {
 	}
 	ep.mu.Lock()
 	defer ep.mu.Unlock()
-	ep.fault, ep.cmds, ep.replies, ep.errorFired = f, 0, 0, false
+	ep.fault, ep.cmds, ep.replies, ep.errorMatches, ep.errorFired = f, 0, 0, 0, false
 	return nil
 }
 
