@@ -127,6 +127,18 @@ type Resetter interface {
 	Reset(ctx context.Context) error
 }
 
+// ErrorQueue is an optional capability: an instrument that queues the errors it
+// meets, as a SCPI instrument does, and can be asked for them. CheckErrors reads
+// the queue until it is empty; it returns nil when the queue held nothing, an error
+// naming the first entry (and how many more) when it held any, or the error of the
+// exchange. Reading the queue empties it. The engine calls it for every instrument
+// after each sweep point's readings and again before any verdict, and takes any
+// entry as a station fault. Fallback when absent: the instrument is taken to report
+// every error in the reply of the call that met it, as the simulator does.
+type ErrorQueue interface {
+	CheckErrors(ctx context.Context) error
+}
+
 // MeterConfigurer is an optional capability of a Meter: set range (volts, 0 = auto)
 // and integration time in power-line cycles. Fallback when absent: the meter's own
 // configuration is used and recorded as unknown.

@@ -5,7 +5,9 @@
 // the source in a safe state. Then, for each serial number, Run identifies the unit,
 // sweeps the input range before trim, fits a straight line, computes and writes the
 // trim codes, reads them back, stores them, sweeps again to verify, judges every
-// limit and decides the verdict. Every exit path leaves the source output off.
+// limit and decides the verdict. Every instrument's error queue is read after each
+// sweep point and before the verdict; an entry is a station fault. Every exit path
+// leaves the source output off.
 //
 // The engine imports only the instruments contract and the limits judge; it never
 // imports a concrete driver, the PDF writer or the ledger.
@@ -52,6 +54,7 @@ type Engine struct {
 	meter  instruments.Meter
 	dut    instruments.TrimPort
 	clock  instruments.Clock
+	queues []roleQueue // instruments with an error queue, in role order
 	refs   []InstrumentRef
 	log    zerolog.Logger // the current run's logger
 	closed bool
@@ -94,6 +97,11 @@ func Open(ctx context.Context, cfg Config) (*Engine, error) {
 	}
 	if e.dut, ok = all["dut"].(instruments.TrimPort); !ok {
 		return fail(fmt.Errorf("dut at %s is not a trim port", st.Instruments["dut"].Address))
+	}
+	for _, r := range Roles {
+		if q, ok := all[r].(instruments.ErrorQueue); ok {
+			e.queues = append(e.queues, roleQueue{r, q})
+		}
 	}
 	for _, r := range seq.Requires {
 		if cs, ok := all[r].(instruments.ClockSource); ok {
@@ -316,6 +324,9 @@ func (e *Engine) measure(ctx context.Context, rec *Record, trims []TrimCode) err
 	}
 	res := newResults()
 	if !e.evalPre(rec, res, pre, trims) {
+		if err := e.checkErrorsBeforeVerdict(ctx); err != nil {
+			return err
+		}
 		e.finish(rec, res)
 		return nil
 	}
@@ -345,8 +356,20 @@ func (e *Engine) measure(ctx context.Context, rec *Record, trims []TrimCode) err
 		return err
 	}
 	e.evalPost(rec, res, post)
+	if err := e.checkErrorsBeforeVerdict(ctx); err != nil {
+		return err
+	}
 	e.finish(rec, res)
 	return nil
+}
+
+// checkErrorsBeforeVerdict reads every error queue once more, under the step
+// deadline, so that no entry queued after the last point goes unread into a
+// verdict.
+func (e *Engine) checkErrorsBeforeVerdict(ctx context.Context) error {
+	return e.step(ctx, func(ctx context.Context) error {
+		return e.checkErrors(ctx, func() string { return "before the verdict" })
+	})
 }
 
 func baseName(p string) string {

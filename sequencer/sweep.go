@@ -11,7 +11,9 @@ import (
 )
 
 // sweep steps the source across p and reads the meter at each level. The output is
-// switched on after the first level is programmed and off again at the end.
+// switched on after the first level is programmed and off again at the end. After
+// each point's readings every instrument's error queue is read: an entry (say, a
+// meter that flags its reading as stale) stops the run as a station fault.
 func (e *Engine) sweep(ctx context.Context, name string, p SweepPlan) (Sweep, error) {
 	sw := Sweep{Name: name}
 	for i, x := range p.Levels() {
@@ -44,7 +46,7 @@ func (e *Engine) sweep(ctx context.Context, name string, p SweepPlan) (Sweep, er
 						name, fmtV(x), firstBad(rs[j:j+1]), j+1, len(rs))}
 				}
 			}
-			return nil
+			return e.checkErrors(ctx, func() string { return fmt.Sprintf("%s sweep at %s", name, fmtV(x)) })
 		})
 		if err != nil {
 			return sw, err

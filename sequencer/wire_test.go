@@ -15,17 +15,11 @@ import (
 	"trimline/sequencer"
 )
 
-// TestEngineOverTheWire is a smoke test of the whole chain: the engine opens the
-// served bench through the generic drivers by the addresses Server.Addresses gives,
-// loads the unit over the wire (load_unit), reads the interlock and trims one unit.
-// The sequence is the demo's with fewer readings and a shorter aperture so that it
-// runs in about a second of real time. A dropped source link then ends a run as a
-// FAULT with the source output off.
-func TestEngineOverTheWire(t *testing.T) {
-	if testing.Short() {
-		t.Skip("real-time run")
-	}
-	srv := simtest.Serve(t, serve.Options{Transport: "tcp"})
+// wireFiles returns a station file for the served bench srv (extra is appended to
+// the source's entry, indented as its keys) and the demo sequence with fewer points
+// and readings and a shorter aperture (quick replaces further text in it).
+func wireFiles(t testing.TB, srv *serve.Server, extra string, quick ...string) (*sequencer.Station, *sequencer.Sequence) {
+	t.Helper()
 	a := srv.Addresses()
 	station := fmt.Sprintf(`
 station: {id: TW1, name: wire smoke test}
@@ -36,6 +30,7 @@ instruments:
     cal_due: 2099-12-31
     timeout: 500 ms
     accuracy: {of_reading: 20 ppm, of_range: 5 ppm, range: 100 mV}
+%s
   meter:
     address: %s
     asset: M-1
@@ -48,7 +43,7 @@ instruments:
 interlock: {role: dut, query: "LID?", closed: "CLOSED"}
 safety: {max_source_voltage: 50 mV, max_source_current: 10 mA}
 output: {folder: out}
-`, a["source"], a["meter"], a["dut"])
+`, a["source"], extra, a["meter"], a["dut"])
 	st, err := sequencer.ParseStation("wire-station.yaml", []byte(station))
 	if err != nil {
 		t.Fatal(err)
@@ -58,11 +53,29 @@ output: {folder: out}
 	if err != nil {
 		t.Fatal(err)
 	}
-	text := strings.NewReplacer("readings: 8", "readings: 2", "nplc: 1 ", "nplc: 0.1 ", "points: 11", "points: 5").Replace(string(data))
+	if quick == nil {
+		quick = []string{"readings: 8", "readings: 2", "nplc: 1 ", "nplc: 0.1 ", "points: 11", "points: 5"}
+	}
+	text := strings.NewReplacer(quick...).Replace(string(data))
 	seq, err := sequencer.ParseSequence(filepath.Join(dir, "brx200-sequence.yaml"), []byte(text), os.ReadFile)
 	if err != nil {
 		t.Fatal(err)
 	}
+	return st, seq
+}
+
+// TestEngineOverTheWire is a smoke test of the whole chain: the engine opens the
+// served bench through the generic drivers by the addresses Server.Addresses gives,
+// loads the unit over the wire (load_unit), reads the interlock and trims one unit.
+// The sequence is the demo's with fewer readings and a shorter aperture so that it
+// runs in about a second of real time. A dropped source link then ends a run as a
+// FAULT with the source output off.
+func TestEngineOverTheWire(t *testing.T) {
+	if testing.Short() {
+		t.Skip("real-time run")
+	}
+	srv := simtest.Serve(t, serve.Options{Transport: "tcp"})
+	st, seq := wireFiles(t, srv, "")
 	ctx, cancel := context.WithTimeout(context.Background(), 20*time.Second)
 	defer cancel()
 	e, err := sequencer.Open(ctx, sequencer.Config{Station: st, Sequence: seq, Operator: "test", Software: "test"})
@@ -87,4 +100,53 @@ output: {folder: out}
 		t.Fatal("the source output is on after the faulted run")
 	}
 	t.Logf("fault recorded: %s", rec.Fault)
+}
+
+// An entry an instrument queues while answering a reading (here the meter's
+// -230 "Data corrupt or stale" after READ?) is a station fault: the engine reads
+// every instrument's error queue after each point's readings, so the unit ends as
+// FAULT with the output off and is never judged. The entry is injected after the
+// first READ? of the pre-trim sweep and after the last READ? of the verify sweep
+// (the last reading before the verdict).
+func TestErrorQueuedByAReadingIsAFault(t *testing.T) {
+	if testing.Short() {
+		t.Skip("real-time run")
+	}
+	srv := simtest.Serve(t, serve.Options{Transport: "tcp"})
+	st, seq := wireFiles(t, srv, "")
+	ctx, cancel := context.WithTimeout(context.Background(), 30*time.Second)
+	defer cancel()
+	e, err := sequencer.Open(ctx, sequencer.Config{Station: st, Sequence: seq, Operator: "test", Software: "test"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer e.Close()
+	stale := `-230,"Data corrupt or stale"`
+	for _, c := range []struct {
+		name   string
+		fault  serve.Fault
+		points int // points recorded when the fault stops the run
+	}{
+		{"first reading", serve.Fault{ErrorAfter: "READ?", ErrorEntry: stale}, 1},
+		// 5 pre-trim points, then the trim; the verify sweep's 5th READ? is the 10th.
+		{"last reading", serve.Fault{ErrorAfter: "READ?", ErrorAt: 10, ErrorEntry: stale}, 5},
+	} {
+		t.Run(c.name, func(t *testing.T) {
+			srv.SetFault("meter", c.fault)
+			rec := e.Run(ctx, "BRX-000125")
+			if rec.Verdict != sequencer.Fault || !strings.Contains(rec.Fault, "Data corrupt or stale") || !strings.Contains(rec.Fault, "-230") {
+				t.Fatalf("verdict %s, fault %q, reasons %q: want FAULT naming the meter's -230 entry", rec.Verdict, rec.Fault, rec.Reasons)
+			}
+			if got := len(rec.Sweeps[len(rec.Sweeps)-1].Points); got != c.points {
+				t.Errorf("the run went on for %d points of its last sweep, want %d", got, c.points)
+			}
+			if len(rec.Outcomes) != 0 {
+				t.Errorf("a faulted unit was judged: %+v", rec.Outcomes)
+			}
+			if on, lvl := srv.Bench().Source().State(); on || lvl != 0 {
+				t.Errorf("source left on=%v level=%g", on, lvl)
+			}
+			t.Logf("fault recorded: %s", rec.Fault)
+		})
+	}
 }

@@ -82,6 +82,7 @@ func TestInjectedFaultsAreStationFaults(t *testing.T) {
 		{"garbled reply", "meter", serve.Fault{Garble: true, GarbleAt: 10}, "malformed"},
 		{"truncated reply", "meter", serve.Fault{Truncate: true, GarbleAt: 10}, "malformed"},
 		{"error-queue entry", "source", serve.Fault{ErrorAfter: "SOUR:VOLT", ErrorEntry: `-221,"Settings conflict"`}, "Settings conflict"},
+		{"meter error raised by a reading", "meter", serve.Fault{ErrorAfter: "READ?", ErrorEntry: `-230,"Data corrupt or stale"`}, "Data corrupt or stale"},
 		{"overload reading", "meter", serve.Fault{Overload: true}, "overload"},
 		{"DUT read-back mismatch", "dut", serve.Fault{ReadbackMismatch: true}, "read back"},
 	}

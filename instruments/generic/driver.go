@@ -45,7 +45,8 @@
 //
 // Every configuration command of a source or meter is followed by a drain of the
 // error queue (error_query until 0); an entry fails the call with the instrument's
-// own *scpi.InstrumentError. SetLevel reads the level back (get_level) and fails with
+// own *scpi.InstrumentError. A query (a reading, a read-back) does not read the
+// queue; CheckErrors (instruments.ErrorQueue) does, for a source or a meter. SetLevel reads the level back (get_level) and fails with
 // an error wrapping ErrReadback unless it agrees within 1e-9 relative or 1 nV;
 // SetOutput reads the output state back likewise. Commands are never repeated;
 // idempotent queries are retried (package scpi). SetOutput(ctx, false) always tries,
@@ -418,6 +419,14 @@ func (b *base) prepare(ctx context.Context, reset bool) error {
 	}
 	if err := b.sess.DrainErrors(ctx); err != nil {
 		return fmt.Errorf("%s: %w", b.addr, err)
+	}
+	return nil
+}
+
+// checkErrors drains the error queue (error_query until 0).
+func (b *base) checkErrors(ctx context.Context) error {
+	if err := b.sess.DrainErrors(ctx); err != nil {
+		return fmt.Errorf("%s: error queue: %w", b.addr, err)
 	}
 	return nil
 }

@@ -32,6 +32,7 @@ var (
 	_ instruments.Identifier      = (*Meter)(nil)
 	_ instruments.Resetter        = (*Meter)(nil)
 	_ instruments.MeterConfigurer = (*Meter)(nil)
+	_ instruments.ErrorQueue      = (*Meter)(nil)
 	_ Querier                     = (*Meter)(nil)
 )
 
@@ -42,6 +43,12 @@ func (m *Meter) open(ctx context.Context, reset bool) error {
 
 // Identify sends the identify template (*IDN?) and parses the reply strictly.
 func (m *Meter) Identify(ctx context.Context) (instruments.Identity, error) { return m.identify(ctx) }
+
+// CheckErrors reads the error queue (error_query until 0) and returns the first
+// entry as a *scpi.InstrumentError; nil when the queue was empty. A reading (read)
+// is a query and does not read the queue itself, so an entry the meter raised while
+// answering it is found here.
+func (m *Meter) CheckErrors(ctx context.Context) error { return m.checkErrors(ctx) }
 
 // Reset clears the instrument, sends the reset template (*RST), waits for it
 // (*OPC?) and drains the error queue. The sample count and NPLC are then unknown

@@ -26,6 +26,7 @@ var (
 	_ instruments.Source     = (*Source)(nil)
 	_ instruments.Identifier = (*Source)(nil)
 	_ instruments.Resetter   = (*Source)(nil)
+	_ instruments.ErrorQueue = (*Source)(nil)
 	_ Querier                = (*Source)(nil)
 )
 
@@ -55,6 +56,10 @@ func (s *Source) Reset(ctx context.Context) error {
 	}
 	return s.programRange(ctx)
 }
+
+// CheckErrors reads the error queue (error_query until 0) and returns the first
+// entry as a *scpi.InstrumentError; nil when the queue was empty.
+func (s *Source) CheckErrors(ctx context.Context) error { return s.checkErrors(ctx) }
 
 // SetLevel programs volts (finite) with set_level, drains the error queue and reads
 // the level back with get_level; a difference of more than 1e-9 relative or 1 nV is
