@@ -218,6 +218,7 @@ type wiring struct {
 // the command latency pass on the bench clock. A done ctx fails as "<name>: <what>:
 // <ctx error>" and lets no time pass.
 func (w *wiring) start(ctx context.Context, what string, invalid error) error {
+	w.bench.watchdog()
 	if w.closed {
 		return w.errClosed
 	}
@@ -247,7 +248,18 @@ func (b *Bench) advance(ctx context.Context, d time.Duration) error {
 	if d <= 0 {
 		return ctx.Err()
 	}
-	return b.clock.Sleep(ctx, d)
+	err := b.clock.Sleep(ctx, d)
+	b.watchdog()
+	return err
+}
+
+// watchdog lets the source's output watchdog act if its time ran out. Called with
+// b.mu held whenever the bench is about to be read or changed, and after time
+// passed.
+func (b *Bench) watchdog() {
+	if b.source != nil {
+		b.source.expire(b.clock.Now())
+	}
 }
 
 // dutInput returns the noiseless voltage in V at the DUT input: the source's actual

@@ -34,6 +34,13 @@
 // the fixture relay shorts the DUT input to 0 V. A change of the DUT input (level
 // change while on, switching on or off) is a step the DUT settles after.
 //
+// The source has an output watchdog (Source.ArmWatchdog): once armed with a time, it
+// must be armed again within that time on the bench clock, or the source switches
+// its output off and programs 0 V by itself, at the instant the time ran out (the
+// DUT input steps then). Like the DUT's settling it is worked out on the bench
+// clock whenever the bench is next read or driven, so it behaves the same on
+// simulated and on real time. Reset disarms it.
+//
 // # Meter
 //
 // A reading samples the DUT output at the instant the reading starts (its Time), then

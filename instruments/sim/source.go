@@ -5,6 +5,7 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"time"
 
 	"trimline/instruments"
 )
@@ -21,6 +22,13 @@ type Source struct {
 	level      float64 // V, programmed
 	on         bool
 	compliance float64 // A
+
+	// The output watchdog: while armed, the output switches off and the level goes
+	// to 0 V at wdDeadline unless it is armed again before.
+	wdArmed    bool
+	wdTimeout  time.Duration
+	wdDeadline time.Time
+	wdTrips    int // expiries that switched an output off
 }
 
 var (
@@ -106,6 +114,7 @@ func (s *Source) SetLevel(ctx context.Context, volts float64) error {
 func (s *Source) SetOutput(ctx context.Context, on bool) error {
 	s.bench.mu.Lock()
 	defer s.bench.mu.Unlock()
+	s.bench.watchdog()
 	if !on {
 		s.drive(false, s.level)
 		s.bench.advance(context.WithoutCancel(ctx), s.latency)
@@ -141,7 +150,8 @@ func (s *Source) Compliance() float64 {
 	return s.compliance
 }
 
-// Reset puts the source in its safe state: output off, level 0 V, compliance 10 mA.
+// Reset puts the source in its safe state: output off, level 0 V, compliance 10 mA,
+// output watchdog disarmed.
 func (s *Source) Reset(ctx context.Context) error {
 	s.bench.mu.Lock()
 	defer s.bench.mu.Unlock()
@@ -150,7 +160,70 @@ func (s *Source) Reset(ctx context.Context) error {
 	}
 	s.drive(false, 0)
 	s.compliance = defaultCompliance
+	s.wdArmed = false
 	return nil
+}
+
+// MaxWatchdog is the longest output-watchdog time the source accepts.
+const MaxWatchdog = time.Hour
+
+// ArmWatchdog arms the output watchdog for timeout (0 < timeout ≤ MaxWatchdog), or,
+// when it is armed, restarts its time: unless it is armed again within timeout
+// on the bench clock, the source switches its output off and programs 0 V by
+// itself, at the instant the time ran out, as if the station had done so. A
+// station that dies with the output on (kill -9, a crash, a pulled cable) so
+// leaves the unit driven for at most timeout.
+func (s *Source) ArmWatchdog(ctx context.Context, timeout time.Duration) error {
+	var invalid error
+	if timeout <= 0 || timeout > MaxWatchdog {
+		invalid = fmt.Errorf("sim source: watchdog time %s outside 0 < t ≤ %s", timeout, MaxWatchdog)
+	}
+	s.bench.mu.Lock()
+	defer s.bench.mu.Unlock()
+	if err := s.start(ctx, "arm watchdog", invalid); err != nil {
+		return err
+	}
+	s.wdArmed, s.wdTimeout, s.wdDeadline = true, timeout, s.bench.clock.Now().Add(timeout)
+	return nil
+}
+
+// DisarmWatchdog stops the output watchdog; the output stays as it is.
+func (s *Source) DisarmWatchdog(ctx context.Context) error {
+	s.bench.mu.Lock()
+	defer s.bench.mu.Unlock()
+	if err := s.start(ctx, "disarm watchdog", nil); err != nil {
+		return err
+	}
+	s.wdArmed = false
+	return nil
+}
+
+// Watchdog returns whether the output watchdog is armed and its time, and how many
+// times it ran out with the output on (and switched it off).
+func (s *Source) Watchdog() (armed bool, timeout time.Duration, trips int) {
+	s.bench.mu.Lock()
+	defer s.bench.mu.Unlock()
+	s.bench.watchdog()
+	return s.wdArmed, s.wdTimeout, s.wdTrips
+}
+
+// expire runs the watchdog out if its time has passed by now: output off and
+// level 0 V from the instant it ran out. Called with the bench lock held, before
+// anything reads or changes the bench's state, so a watchdog that ran out while
+// nobody talked to the bench (simulated or real time) has acted before.
+func (s *Source) expire(now time.Time) {
+	if !s.wdArmed || now.Before(s.wdDeadline) {
+		return
+	}
+	s.wdArmed = false
+	if s.on {
+		s.wdTrips++
+	}
+	old := s.bench.dutInput()
+	s.on, s.level = false, 0
+	if d := s.bench.dut; d != nil {
+		d.step(s.wdDeadline, old, s.bench.dutInput())
+	}
 }
 
 // Identify returns the source's invented identity.
@@ -163,6 +236,7 @@ func (s *Source) Identify(ctx context.Context) (instruments.Identity, error) {
 func (s *Source) Close() error {
 	s.bench.mu.Lock()
 	defer s.bench.mu.Unlock()
+	s.bench.watchdog()
 	if !s.closed {
 		s.drive(false, s.level)
 		s.closed = true
@@ -175,5 +249,6 @@ func (s *Source) Close() error {
 func (s *Source) State() (on bool, level float64) {
 	s.bench.mu.Lock()
 	defer s.bench.mu.Unlock()
+	s.bench.watchdog()
 	return s.on, s.level
 }

@@ -6,6 +6,7 @@ import (
 	"strconv"
 	"strings"
 	"sync"
+	"time"
 
 	"trimline/instruments"
 	"trimline/instruments/scpi"
@@ -21,6 +22,7 @@ const (
 	errOutOfRange   = `-222,"Data out of range"`
 	errIllegalValue = `-224,"Illegal parameter value"`
 	errOverflow     = `-350,"Queue overflow"`
+	errWatchdog     = `+301,"Output watchdog ran out: output off, 0 V"`
 	noError         = `0,"No error"`
 	queueLen        = 10
 )
@@ -78,6 +80,10 @@ type scpiInstrument struct {
 	identify func(ctx context.Context) (instruments.Identity, error)
 	reset    func(ctx context.Context) error
 	overload bool // set per line from the fault
+	// trips, when set, counts the times the instrument switched its own output
+	// off (the source's output watchdog); each new one queues errWatchdog.
+	trips     func() int
+	seenTrips int
 }
 
 func (s *scpiInstrument) push(entry string) {
@@ -105,6 +111,12 @@ func (s *scpiInstrument) handle(ctx context.Context, line string, f Fault, _ int
 	s.mu.Lock()
 	defer s.mu.Unlock()
 	s.overload = f.Overload
+	if s.trips != nil {
+		if n := s.trips(); n > s.seenTrips {
+			s.push(errWatchdog)
+			s.seenTrips = n
+		}
+	}
 	var replies []string
 	for _, unit := range strings.Split(line, ";") {
 		unit = strings.TrimSpace(unit)
@@ -249,7 +261,7 @@ func onOff(b bool) string {
 
 // newSourceHandler serves a sim.Source.
 func newSourceHandler(src *sim.Source) *scpiInstrument {
-	s := &scpiInstrument{identify: src.Identify}
+	s := &scpiInstrument{identify: src.Identify, trips: func() int { _, _, n := src.Watchdog(); return n }}
 	rng := src.Range()
 	s.reset = func(ctx context.Context) error {
 		rng = src.Range()
@@ -309,6 +321,33 @@ func newSourceHandler(src *sim.Source) *scpiInstrument {
 	}, func(ctx context.Context, a []string) (string, string) {
 		on, _ := src.State()
 		return onOff(on), noArgs(a)
+	})
+	s.add("OUTPut WATChdog [TIMe]", func(ctx context.Context, a []string) string {
+		if len(a) == 1 && strings.EqualFold(a[0], "OFF") {
+			src.DisarmWatchdog(ctx)
+			return ""
+		}
+		v, e := number(a)
+		if e != "" {
+			return e
+		}
+		if v == 0 {
+			src.DisarmWatchdog(ctx)
+			return ""
+		}
+		if !(v > 0) || v > sim.MaxWatchdog.Seconds() {
+			return errOutOfRange
+		}
+		if err := src.ArmWatchdog(ctx, time.Duration(math.Round(v*1e9))); err != nil {
+			return errOutOfRange
+		}
+		return ""
+	}, func(ctx context.Context, a []string) (string, string) {
+		armed, d, _ := src.Watchdog()
+		if !armed {
+			d = 0
+		}
+		return formatNumber(d.Seconds()), noArgs(a)
 	})
 	return s
 }

@@ -288,3 +288,31 @@ func TestAddresses(t *testing.T) {
 	w := connect(t, ser, "source")
 	w.want("*OPC?", "1")
 }
+
+// The source's output watchdog over the wire: armed and queried, it switches the
+// output off and programs 0 V when not armed again in time, and queues +301 for it;
+// 0, OFF and *RST disarm it; a bad time is out of range.
+func TestSourceWatchdogCommands(t *testing.T) {
+	srv := start(t, serve.Options{})
+	w := connect(t, srv, "source")
+	w.want("OUTP:WATC?", "+0.000000000E+00")
+	w.noReply("OUTP:WATC -1", `-222,"Data out of range"`)
+	w.noReply("OUTP:WATC 7200", `-222,"Data out of range"`)
+	w.noReply("OUTP:WATC MAYBE", `-104,"Data type error"`)
+	w.send("SOUR:VOLT 0.01;:OUTP ON;:OUTPut:WATChdog:TIMe 0.1")
+	w.want("OUTP:WATC?", "+1.000000000E-01")
+	time.Sleep(150 * time.Millisecond)
+	w.want("OUTP?;SOUR:VOLT?;OUTP:WATC?", "0;+0.000000000E+00;+0.000000000E+00")
+	w.want("SYST:ERR?", `+301,"Output watchdog ran out: output off, 0 V"`)
+	w.want("SYST:ERR?", `0,"No error"`)
+	for _, stop := range []string{"OUTP:WATC 0", "OUTP:WATC OFF", "*RST"} {
+		w.send("SOUR:VOLT 0.01;:OUTP ON;:OUTP:WATC 0.1")
+		w.send(stop)
+		w.want("OUTP:WATC?", "+0.000000000E+00")
+		time.Sleep(150 * time.Millisecond)
+		if stop != "*RST" {
+			w.want("OUTP?", "1")
+		}
+		w.want("SYST:ERR?", `0,"No error"`)
+	}
+}

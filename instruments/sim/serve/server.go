@@ -26,7 +26,13 @@
 // 100 mV by default; the level must stay within it);
 // [SOURce:]VOLTage[:LEVel][:IMMediate][:AMPLitude] <V> and ?;
 // [SOURce:]CURRent:PROTection[:LEVel] <A> and ? (0 < A ≤ 100 mA);
-// OUTPut[:STATe] ON|OFF|1|0 and ? (1 or 0). *RST: output off, 0 V, 10 mA, full range.
+// OUTPut[:STATe] ON|OFF|1|0 and ? (1 or 0);
+// OUTPut:WATChdog[:TIMe] <s>|0|OFF and ? (the output watchdog, sim.Source.ArmWatchdog:
+// a time arms it or restarts it, 0 < s ≤ 3600; 0 or OFF disarms it; the query
+// answers the armed time, 0 when disarmed). When the watchdog runs out with the
+// output on, the source switches it off, programs 0 V and queues
+// +301,"Output watchdog ran out: output off, 0 V". *RST: output off, 0 V, 10 mA,
+// full range, watchdog disarmed.
 //
 // Meter (sim.Meter): CONFigure[:VOLTage][:DC] [<range V>|AUTO|DEF] (no value, AUTO or
 // DEF: autorange, which is the 10 V range); [SENSe:]VOLTage[:DC]:NPLCycles <n> and ?
