@@ -139,6 +139,21 @@ type ErrorQueue interface {
 	CheckErrors(ctx context.Context) error
 }
 
+// OutputWatchdog is an optional capability of a Source that can switch its own
+// output off: once armed, the source switches the output off and programs 0 V by
+// itself unless it is armed again within its time (set where the source is
+// configured, e.g. the station file), so a station program that dies with the
+// output on (kill -9, a crash, a pulled cable) leaves the unit driven for at most
+// that time. ArmWatchdog arms it or, when armed, restarts its time; DisarmWatchdog
+// stops it. The engine arms it at the start of every step of a run and disarms it
+// once the output is off at the end of the run. Fallback when absent: the output
+// stays as last programmed until the program switches it off; after a hard kill,
+// until the next start (the engine's Open) puts the source in its safe state.
+type OutputWatchdog interface {
+	ArmWatchdog(ctx context.Context) error
+	DisarmWatchdog(ctx context.Context) error
+}
+
 // MeterConfigurer is an optional capability of a Meter: set range (volts, 0 = auto)
 // and integration time in power-line cycles. Fallback when absent: the meter's own
 // configuration is used and recorded as unknown.

@@ -25,8 +25,15 @@
 //	output_on       OUTP ON                    read        READ?
 //	output_off      OUTP OFF
 //	get_output      OUTP?
+//	arm_watchdog    (none)
+//	disarm_watchdog (none)
 //
-// clear, sync, set_range and autozero may be set to "" to leave that step out. The
+// clear, sync, set_range and autozero may be set to "" to leave that step out. A
+// source whose output can switch itself off when not kept alive gets
+// arm_watchdog, e.g. "OUTP:WATC {seconds}" ({seconds}: the watchdog setting), and
+// optionally disarm_watchdog, e.g. "OUTP:WATC OFF"; the source then also implements
+// instruments.OutputWatchdog (a *WatchdogSource), and the engine re-arms it at
+// every step of a run and disarms it once the output is off. The
 // DUT needs no templates (its protocol comes from the sequence file); its only one is
 // load_unit (no default), e.g. "FIXTURE LOAD {serial}": when set, the port also
 // implements instruments.FixtureLoader by sending it as a command.
@@ -39,6 +46,10 @@
 //	                       dropped link (0..10); default 2
 //	reset                  source and meter: true|false, clear and reset at open; true
 //	range                  source: volts programmed with set_range at open and after Reset
+//	watchdog               source: the output watchdog's time (e.g. "5 s", at most 1 h),
+//	                       required with arm_watchdog and only with it; choose it
+//	                       longer than the longest step of a run (a sweep point:
+//	                       settle + readings × aperture)
 //	line_frequency         meter: Hz, only to size the read timeout; 50 Hz
 //
 // # Behaviour
@@ -112,6 +123,7 @@ var defaults = map[string]map[string]string{
 		"identify": "*IDN?", "reset": "*RST", "clear": "*CLS", "sync": "*OPC?", "error_query": "SYST:ERR?",
 		"set_range": "SOUR:VOLT:RANG {volts}", "set_level": "SOUR:VOLT {volts}", "get_level": "SOUR:VOLT?",
 		"set_compliance": "SOUR:CURR:PROT {amps}", "output_on": "OUTP ON", "output_off": "OUTP OFF", "get_output": "OUTP?",
+		"arm_watchdog": "", "disarm_watchdog": "",
 	},
 	RoleMeter: {
 		"identify": "*IDN?", "reset": "*RST", "clear": "*CLS", "sync": "*OPC?", "error_query": "SYST:ERR?",
@@ -125,10 +137,15 @@ var defaults = map[string]map[string]string{
 var placeholders = map[string][]string{
 	"set_range": {"{volts}"}, "set_level": {"{volts}"}, "set_compliance": {"{amps}"},
 	"configure": {"{range}"}, "set_nplc": {"{nplc}"}, "set_count": {"{n}"}, "load_unit": {"{serial}"},
+	"arm_watchdog": {"{seconds}"},
 }
 
 // optional templates may be "" to leave the step out.
-var optional = map[string]bool{"clear": true, "sync": true, "set_range": true, "autozero": true, "load_unit": true}
+var optional = map[string]bool{"clear": true, "sync": true, "set_range": true, "autozero": true, "load_unit": true,
+	"arm_watchdog": true, "disarm_watchdog": true}
+
+// maxWatchdog bounds the watchdog setting.
+const maxWatchdog = time.Hour
 
 // DefaultTemplates returns a copy of the default templates of role ("source",
 // "meter" or "dut"), nil for another role.
@@ -151,8 +168,9 @@ type config struct {
 	topt     transport.Options
 	retries  int
 	reset    bool
-	rangeV   float64 // source: 0 = not programmed
-	lineFreq float64 // meter
+	rangeV   float64       // source: 0 = not programmed
+	watchdog time.Duration // source: the output watchdog's time; 0 = none
+	lineFreq float64       // meter
 }
 
 func settingErr(key, format string, args ...any) error {
@@ -160,7 +178,7 @@ func settingErr(key, format string, args ...any) error {
 }
 
 var settingKeys = map[string][]string{
-	RoleSource: {"read_term", "write_term", "timeout", "retries", "reset", "range"},
+	RoleSource: {"read_term", "write_term", "timeout", "retries", "reset", "range", "watchdog"},
 	RoleMeter:  {"read_term", "write_term", "timeout", "retries", "reset", "line_frequency"},
 	RoleDUT:    {"read_term", "write_term", "timeout", "retries"},
 }
@@ -238,6 +256,11 @@ func parseConfig(spec instruments.Spec) (config, error) {
 			if err != nil || !(c.rangeV > 0) || math.IsInf(c.rangeV, 0) {
 				err = settingErr(k, "%q: expected a positive voltage such as 100 mV", v)
 			}
+		case "watchdog":
+			c.watchdog, err = duration(k, v)
+			if err == nil && c.watchdog > maxWatchdog {
+				err = settingErr(k, "%q: at most %s", v, maxWatchdog)
+			}
 		case "line_frequency":
 			c.lineFreq, err = units.ParseAs(v, units.Hertz)
 			if err != nil || !(c.lineFreq > 0) || math.IsInf(c.lineFreq, 0) {
@@ -247,6 +270,14 @@ func parseConfig(spec instruments.Spec) (config, error) {
 		if err != nil {
 			return c, err
 		}
+	}
+	switch arm := c.tpl["arm_watchdog"] != ""; {
+	case arm && c.watchdog == 0:
+		return c, settingErr("templates.arm_watchdog", "needs the watchdog setting: the time the source keeps its output on unless armed again, such as 5 s")
+	case !arm && c.watchdog > 0:
+		return c, settingErr("watchdog", "needs templates.arm_watchdog: the command that arms the source's output watchdog")
+	case !arm && c.tpl["disarm_watchdog"] != "":
+		return c, settingErr("templates.disarm_watchdog", "needs templates.arm_watchdog: the command that arms the source's output watchdog")
 	}
 	if spec.Timeout > 0 {
 		c.topt.Timeout = spec.Timeout
@@ -320,8 +351,9 @@ func (Driver) CheckSettings(spec instruments.Spec) error {
 	return err
 }
 
-// Open dials addr and opens the instrument spec.Role names: a *Source, a *Meter or a
-// *Port (a *LoaderPort when the load_unit template is set). A source or meter is
+// Open dials addr and opens the instrument spec.Role names: a *Source (a
+// *WatchdogSource when the arm_watchdog template is set), a *Meter or a *Port (a
+// *LoaderPort when the load_unit template is set). A source or meter is
 // cleared and reset at open unless the reset setting is false; its error queue is
 // then drained. ctx bounds the opening only.
 func (Driver) Open(ctx context.Context, addr *url.URL, spec instruments.Spec) (instruments.Instrument, error) {
@@ -345,6 +377,9 @@ func (Driver) Open(ctx context.Context, addr *url.URL, spec instruments.Spec) (i
 		s := &Source{base: b, rangeV: c.rangeV}
 		err = s.open(ctx, c.reset)
 		in = s
+		if c.watchdog > 0 {
+			in = &WatchdogSource{Source: s, timeout: c.watchdog}
+		}
 	case RoleMeter:
 		m := &Meter{base: b, lineFreq: c.lineFreq}
 		err = m.open(ctx, c.reset)

@@ -38,6 +38,12 @@ func TestCheckSettings(t *testing.T) {
 		{instruments.Spec{Role: "source", Settings: map[string]string{"range": "1A"}}, "range"},
 		{instruments.Spec{Role: "meter", Settings: map[string]string{"range": "10V"}}, "range"},
 		{instruments.Spec{Role: "meter", Settings: map[string]string{"line_frequency": "0Hz"}}, "line_frequency"},
+		{instruments.Spec{Role: "source", Templates: map[string]string{"arm_watchdog": "OUTP:WATC {seconds}"}}, "templates.arm_watchdog"},
+		{instruments.Spec{Role: "source", Settings: map[string]string{"watchdog": "5 s"}}, "watchdog"},
+		{instruments.Spec{Role: "source", Templates: map[string]string{"arm_watchdog": "OUTP:WATC {seconds}"}, Settings: map[string]string{"watchdog": "2h"}}, "watchdog"},
+		{instruments.Spec{Role: "source", Templates: map[string]string{"arm_watchdog": "OUTP:WATC {volts}"}, Settings: map[string]string{"watchdog": "5s"}}, "templates.arm_watchdog"},
+		{instruments.Spec{Role: "source", Templates: map[string]string{"disarm_watchdog": "OUTP:WATC OFF"}}, "templates.disarm_watchdog"},
+		{instruments.Spec{Role: "meter", Templates: map[string]string{"arm_watchdog": "X {seconds}"}, Settings: map[string]string{"watchdog": "5s"}}, "templates.arm_watchdog"},
 		{instruments.Spec{Role: "dut", Settings: map[string]string{"reset": "true"}}, "reset"},
 	}
 	for _, c := range bad {

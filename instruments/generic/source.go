@@ -7,6 +7,7 @@ import (
 	"math"
 	"strings"
 	"sync"
+	"time"
 
 	"trimline/instruments"
 	"trimline/instruments/scpi"
@@ -164,3 +165,32 @@ func (s *Source) Close() error {
 	}
 	return err
 }
+
+// WatchdogSource is a Source whose output watchdog the station file's templates arm
+// (arm_watchdog, disarm_watchdog; the watchdog setting is its time).
+type WatchdogSource struct {
+	*Source
+	timeout time.Duration
+}
+
+var _ instruments.OutputWatchdog = (*WatchdogSource)(nil)
+
+// ArmWatchdog sends arm_watchdog with {seconds} the watchdog setting and drains the
+// error queue: the source must then be armed again within that time or it
+// switches its output off by itself.
+func (w *WatchdogSource) ArmWatchdog(ctx context.Context) error {
+	return w.exec(ctx, "arm_watchdog", "{seconds}", num(w.timeout.Seconds()))
+}
+
+// DisarmWatchdog sends disarm_watchdog and drains the error queue; without that
+// template it does nothing (the watchdog then runs out with the output already
+// off, which changes nothing).
+func (w *WatchdogSource) DisarmWatchdog(ctx context.Context) error {
+	if w.tpl["disarm_watchdog"] == "" {
+		return nil
+	}
+	return w.exec(ctx, "disarm_watchdog")
+}
+
+// Watchdog returns the output watchdog's time (the watchdog setting).
+func (w *WatchdogSource) Watchdog() time.Duration { return w.timeout }
