@@ -9,8 +9,19 @@ import (
 )
 
 // step runs one engine step under the station's step deadline, if any. A step that
-// overruns it is a station fault naming the deadline.
+// overruns it is a station fault naming the deadline. When the source has an output
+// watchdog, the step first arms it again (every sweep point is a step), so the
+// output stays on only while the engine keeps stepping.
 func (e *Engine) step(ctx context.Context, f func(ctx context.Context) error) error {
+	if e.watchdog != nil {
+		g := f
+		f = func(ctx context.Context) error {
+			if err := e.watchdog.ArmWatchdog(ctx); err != nil {
+				return fmt.Errorf("source: arm output watchdog: %w", err)
+			}
+			return g(ctx)
+		}
+	}
 	d := e.cfg.Station.StepDeadline
 	if d <= 0 {
 		return f(ctx)

@@ -53,11 +53,14 @@ type Engine struct {
 	source instruments.Source
 	meter  instruments.Meter
 	dut    instruments.TrimPort
-	clock  instruments.Clock
-	queues []roleQueue // instruments with an error queue, in role order
-	refs   []InstrumentRef
-	log    zerolog.Logger // the current run's logger
-	closed bool
+	// watchdog is the source's output watchdog, nil when it has none: armed at
+	// every step, disarmed once the output is off.
+	watchdog instruments.OutputWatchdog
+	clock    instruments.Clock
+	queues   []roleQueue // instruments with an error queue, in role order
+	refs     []InstrumentRef
+	log      zerolog.Logger // the current run's logger
+	closed   bool
 }
 
 // Open checks the station against the sequence (caps, roles, predicted TUR), opens
@@ -92,6 +95,7 @@ func Open(ctx context.Context, cfg Config) (*Engine, error) {
 	if e.source, ok = all["source"].(instruments.Source); !ok {
 		return fail(fmt.Errorf("source at %s is not a voltage source", st.Instruments["source"].Address))
 	}
+	e.watchdog, _ = e.source.(instruments.OutputWatchdog)
 	if e.meter, ok = all["meter"].(instruments.Meter); !ok {
 		return fail(fmt.Errorf("meter at %s is not a voltmeter", st.Instruments["meter"].Address))
 	}

@@ -67,7 +67,9 @@ func (e *Engine) setLevel(ctx context.Context, volts float64) error {
 	return nil
 }
 
-// safeState programs level 0 with the output off.
+// safeState programs level 0 with the output off and disarms the output watchdog,
+// whatever a previous program left (after a kill -9 the output may still be on, or
+// the watchdog may have switched it off already).
 func (e *Engine) safeState(ctx context.Context) error {
 	if r, ok := e.source.(instruments.Resetter); ok {
 		if err := r.Reset(ctx); err != nil {
@@ -77,17 +79,32 @@ func (e *Engine) safeState(ctx context.Context) error {
 	if err := e.source.SetOutput(ctx, false); err != nil {
 		return err
 	}
-	return e.source.SetLevel(ctx, 0)
+	if err := e.source.SetLevel(ctx, 0); err != nil {
+		return err
+	}
+	if e.watchdog != nil {
+		if err := e.watchdog.DisarmWatchdog(ctx); err != nil {
+			return fmt.Errorf("disarm output watchdog: %w", err)
+		}
+	}
+	return nil
 }
 
 // safeOff switches the output off with a context of its own, so it works after the
-// run's context was cancelled.
+// run's context was cancelled, then disarms the output watchdog. Only the switch-off
+// and the level count: a watchdog that cannot be disarmed runs out with the output
+// already off, which is logged, not a fault.
 func (e *Engine) safeOff() error {
 	ctx, cancel := context.WithTimeout(context.Background(), 2*time.Second)
 	defer cancel()
 	err := e.source.SetOutput(ctx, false)
 	if err2 := e.source.SetLevel(ctx, 0); err == nil {
 		err = err2
+	}
+	if e.watchdog != nil && err == nil {
+		if werr := e.watchdog.DisarmWatchdog(ctx); werr != nil {
+			e.log.Error().Err(werr).Msg("output off, but the output watchdog could not be disarmed")
+		}
 	}
 	return err
 }

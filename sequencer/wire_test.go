@@ -9,7 +9,9 @@ import (
 	"testing"
 	"time"
 
+	"trimline/instruments"
 	_ "trimline/instruments/generic"
+	"trimline/instruments/scpi"
 	"trimline/instruments/sim/serve"
 	"trimline/instruments/sim/simtest"
 	"trimline/sequencer"
@@ -148,5 +150,69 @@ func TestErrorQueuedByAReadingIsAFault(t *testing.T) {
 			}
 			t.Logf("fault recorded: %s", rec.Fault)
 		})
+	}
+}
+
+// watchdogEntry is the station file text that arms the served source's output
+// watchdog.
+const watchdogEntry = `    settings: {watchdog: 300 ms}
+    templates: {arm_watchdog: "OUTP:WATC {seconds}", disarm_watchdog: "OUTP:WATC OFF"}`
+
+// With the source's output watchdog in the station file, the engine arms it at every
+// step (so at every sweep point) and disarms it once the output is off. When the
+// station stops talking in the middle of a sweep (its links closed under it, with
+// no switch-off, as a kill -9 leaves the bench) the output stays on until the
+// watchdog's time has run out, then the source switches it off and programs 0 V.
+func TestWatchdogSwitchesOffAStationThatStoppedTalking(t *testing.T) {
+	if testing.Short() {
+		t.Skip("real-time run")
+	}
+	srv := simtest.Serve(t, serve.Options{Transport: "tcp"})
+	st, seq := wireFiles(t, srv, watchdogEntry)
+	ctx, cancel := context.WithTimeout(context.Background(), 30*time.Second)
+	defer cancel()
+	e, err := sequencer.Open(ctx, sequencer.Config{Station: st, Sequence: seq, Operator: "test", Software: "test"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer e.Close()
+	if _, ok := e.Instrument("source").(instruments.OutputWatchdog); !ok {
+		t.Fatalf("the source is a %T, without an output watchdog", e.Instrument("source"))
+	}
+	if rec := e.Run(ctx, "BRX-000126"); rec.Verdict != sequencer.Pass {
+		t.Fatalf("verdict %s: fault %q, reasons %q", rec.Verdict, rec.Fault, rec.Reasons)
+	}
+	if n := srv.Count("source", "OUTP:WATC 0.3"); n < 10 {
+		t.Errorf("the watchdog was armed %d times in a run of 10 sweep points, want at least once a point", n)
+	}
+	if armed, _, trips := srv.Bench().Source().Watchdog(); armed || trips != 0 {
+		t.Errorf("after the run: watchdog armed=%v, trips %d; want disarmed, never run out", armed, trips)
+	}
+
+	// The station dies in the middle of the pre-trim sweep: with the output on,
+	// every link of the engine closes and nothing switches the output off.
+	done := make(chan *sequencer.Record)
+	go func() { done <- e.Run(ctx, "BRX-000127") }()
+	for on := false; !on; on, _ = srv.Bench().Source().State() {
+		time.Sleep(time.Millisecond)
+	}
+	for _, r := range sequencer.Roles {
+		if s, ok := e.Instrument(r).(interface{ Session() *scpi.Session }); ok {
+			s.Session().Close()
+		}
+	}
+	rec := <-done
+	if rec.Verdict != sequencer.Fault {
+		t.Fatalf("verdict %s after the links closed", rec.Verdict)
+	}
+	if on, _ := srv.Bench().Source().State(); !on {
+		t.Fatal("the output went off at once: nothing is left for the watchdog to do")
+	}
+	time.Sleep(400 * time.Millisecond)
+	if on, lvl := srv.Bench().Source().State(); on || lvl != 0 {
+		t.Fatalf("400 ms after the station stopped talking: on=%v level=%g, want off at 0 V", on, lvl)
+	}
+	if _, _, trips := srv.Bench().Source().Watchdog(); trips != 1 {
+		t.Errorf("watchdog trips %d, want 1", trips)
 	}
 }
