@@ -6,6 +6,7 @@ import (
 	"testing"
 	"time"
 
+	"trimline/instruments"
 	"trimline/instruments/sim/serve"
 	"trimline/instruments/sim/simtest"
 	"trimline/sequencer"
@@ -49,4 +50,40 @@ func BenchmarkUnitOverTheWire(b *testing.B) {
 		i++
 	}
 	b.ReportMetric(float64(time.Since(start).Nanoseconds())/float64(22*i), "ns/point")
+}
+
+// BenchmarkErrorQueuesPerPoint is what the engine adds to every sweep point on the
+// served bench: one read of the source's and one of the meter's (empty) error
+// queue over loopback TCP; the second metric is the re-arm of an output watchdog
+// that the engine adds to every step when the station file arms one.
+func BenchmarkErrorQueuesPerPoint(b *testing.B) {
+	srv := simtest.Serve(b, serve.Options{Transport: "tcp"})
+	st, seq := wireFiles(b, srv, watchdogEntry)
+	ctx := context.Background()
+	e, err := sequencer.Open(ctx, sequencer.Config{Station: st, Sequence: seq, Operator: "test", Software: "test"})
+	if err != nil {
+		b.Fatal(err)
+	}
+	defer e.Close()
+	src := e.Instrument("source").(instruments.ErrorQueue)
+	met := e.Instrument("meter").(instruments.ErrorQueue)
+	wd := e.Instrument("source").(instruments.OutputWatchdog)
+	b.Run("error_queues", func(b *testing.B) {
+		for b.Loop() {
+			if err := src.CheckErrors(ctx); err != nil {
+				b.Fatal(err)
+			}
+			if err := met.CheckErrors(ctx); err != nil {
+				b.Fatal(err)
+			}
+		}
+	})
+	b.Run("watchdog_rearm", func(b *testing.B) {
+		for b.Loop() {
+			if err := wd.ArmWatchdog(ctx); err != nil {
+				b.Fatal(err)
+			}
+		}
+		wd.DisarmWatchdog(ctx)
+	})
 }
