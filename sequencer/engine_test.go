@@ -19,12 +19,14 @@ import (
 // plan is what the "faulty" test driver injects into a simulated bench.
 type plan struct {
 	reads        int
-	panicAtRead  int        // panic in the Nth meter read (1-based); 0 = never
-	errAtRead    int        // return an error from the Nth read
-	cancelAtRead int        // call cancel during the Nth read
-	cancel       func()     // used with cancelAtRead
-	readbackSkew int        // added to every trim code read back after a write
-	lidOpenAt    int        // the fixture lid reads OPEN from the Nth meter read on; 0 = always closed
+	panicAtRead  int    // panic in the Nth meter read (1-based); 0 = never
+	errAtRead    int    // return an error from the Nth read
+	cancelAtRead int    // call cancel during the Nth read
+	cancel       func() // used with cancelAtRead
+	readbackSkew int    // added to every trim code read back after a write
+	lidOpenAt    int    // the fixture lid reads OPEN from the Nth meter read on; 0 = always closed
+	checks       int
+	entryAtCheck int        // the meter's error queue holds an entry at the Nth read of it (1-based); 0 = never
 	bench        *sim.Bench // the bench opened last
 }
 
@@ -93,6 +95,18 @@ func (m *faultyMeter) Read(ctx context.Context, n int) ([]instruments.Reading, e
 		f.cancel()
 	}
 	return m.Meter.Read(ctx, n)
+}
+
+// CheckErrors gives the simulated meter an error queue that is empty unless the
+// plan puts an entry in it.
+func (m *faultyMeter) CheckErrors(ctx context.Context) error {
+	inject.mu.Lock()
+	defer inject.mu.Unlock()
+	inject.checks++
+	if inject.checks == inject.entryAtCheck {
+		return errors.New(`instrument error -230, "Data corrupt or stale"`)
+	}
+	return nil
 }
 
 type faultyDUT struct {
@@ -381,6 +395,38 @@ func TestSourceOffOnEveryExitPath(t *testing.T) {
 				t.Errorf("next unit: %s %s", rec.Verdict, rec.Fault)
 			}
 		})
+	}
+}
+
+// Every instrument's error queue is read after each of the 22 points and once more
+// before the verdict: an entry there, after the last reading, still makes the unit
+// a station fault that is never judged.
+func TestErrorQueueReadBeforeTheVerdict(t *testing.T) {
+	inject.set(plan{})
+	e := setup(t, "faulty", ideal(nil), "")
+	inject.mu.Lock()
+	bench := inject.bench
+	inject.mu.Unlock()
+	inject.set(plan{bench: bench})
+	if rec := e.Run(context.Background(), "BRX-00014"); rec.Verdict != sequencer.Pass {
+		t.Fatalf("clean queue: %s %s %v", rec.Verdict, rec.Fault, rec.Reasons)
+	}
+	inject.mu.Lock()
+	n := inject.checks
+	inject.mu.Unlock()
+	if n != 23 {
+		t.Fatalf("the meter's error queue was read %d times in a run of 22 points, want 23 (each point and before the verdict)", n)
+	}
+	inject.set(plan{bench: bench, entryAtCheck: 23})
+	rec := e.Run(context.Background(), "BRX-00015")
+	if rec.Verdict != sequencer.Fault || !strings.Contains(rec.Fault, "before the verdict") || !strings.Contains(rec.Fault, "-230") {
+		t.Fatalf("entry before the verdict: %s %q", rec.Verdict, rec.Fault)
+	}
+	if len(rec.Outcomes) != 0 {
+		t.Errorf("a faulted unit was judged: %+v", rec.Outcomes)
+	}
+	if on, lvl := bench.Source().State(); on || lvl != 0 {
+		t.Errorf("source left on=%v level=%g", on, lvl)
 	}
 }
 
