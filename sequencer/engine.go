@@ -53,14 +53,15 @@ type Engine struct {
 	source instruments.Source
 	meter  instruments.Meter
 	dut    instruments.TrimPort
+	clock  instruments.Clock
+	refs   []InstrumentRef
+	log    zerolog.Logger // the current run's logger
+	closed bool
+
 	// watchdog is the source's output watchdog, nil when it has none: armed at
 	// every step, disarmed once the output is off.
 	watchdog instruments.OutputWatchdog
-	clock    instruments.Clock
 	queues   []roleQueue // instruments with an error queue, in role order
-	refs     []InstrumentRef
-	log      zerolog.Logger // the current run's logger
-	closed   bool
 }
 
 // Open checks the station against the sequence (caps, roles, predicted TUR), opens

@@ -19,15 +19,16 @@ import (
 // plan is what the "faulty" test driver injects into a simulated bench.
 type plan struct {
 	reads        int
-	panicAtRead  int    // panic in the Nth meter read (1-based); 0 = never
-	errAtRead    int    // return an error from the Nth read
-	cancelAtRead int    // call cancel during the Nth read
-	cancel       func() // used with cancelAtRead
-	readbackSkew int    // added to every trim code read back after a write
-	lidOpenAt    int    // the fixture lid reads OPEN from the Nth meter read on; 0 = always closed
-	checks       int
-	entryAtCheck int        // the meter's error queue holds an entry at the Nth read of it (1-based); 0 = never
+	panicAtRead  int        // panic in the Nth meter read (1-based); 0 = never
+	errAtRead    int        // return an error from the Nth read
+	cancelAtRead int        // call cancel during the Nth read
+	cancel       func()     // used with cancelAtRead
+	readbackSkew int        // added to every trim code read back after a write
+	lidOpenAt    int        // the fixture lid reads OPEN from the Nth meter read on; 0 = always closed
 	bench        *sim.Bench // the bench opened last
+
+	checks       int // reads of the meter's error queue
+	entryAtCheck int // the meter's error queue holds an entry at the Nth read of it (1-based); 0 = never
 }
 
 type faults struct {
