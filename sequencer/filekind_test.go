@@ -30,7 +30,10 @@ func TestFileKind(t *testing.T) {
 func TestStationRewired(t *testing.T) {
 	st, _ := demoFiles(t, nil)
 	addrs := map[string]string{"source": "tcp://127.0.0.1:5025", "meter": "tcp://127.0.0.1:5026", "dut": "tcp://127.0.0.1:5027"}
-	data := st.Rewired(addrs, map[string]string{"load_unit": "FIXTURE LOAD {serial}"})
+	data := st.Rewired(addrs, sequencer.Served{
+		Templates: map[string]map[string]string{"dut": {"load_unit": "FIXTURE LOAD {serial}"}, "source": {"arm_watchdog": "OUTP:WATC {seconds}"}},
+		Settings:  map[string]map[string]string{"source": {"watchdog": "5 s"}},
+	})
 	back, err := sequencer.ParseStation("served.yaml", data)
 	if err != nil {
 		t.Fatalf("rewired file does not load: %v\n%s", err, data)
@@ -49,5 +52,11 @@ func TestStationRewired(t *testing.T) {
 	}
 	if got := back.Instruments["dut"].Templates["load_unit"]; got != "FIXTURE LOAD {serial}" {
 		t.Errorf("dut load_unit template %q", got)
+	}
+	if got := back.Instruments["source"].Templates["arm_watchdog"]; got != "OUTP:WATC {seconds}" {
+		t.Errorf("source arm_watchdog template %q", got)
+	}
+	if got := back.Instruments["source"].Settings["watchdog"]; got != "5 s" {
+		t.Errorf("source watchdog setting %q", got)
 	}
 }

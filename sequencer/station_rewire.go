@@ -9,12 +9,19 @@ import (
 	"strings"
 )
 
+// Served is what a served bench asks of the station file that reaches it, per role:
+// the driver settings and templates its instruments need (the fixture's load_unit,
+// the source's output watchdog).
+type Served struct {
+	Settings, Templates map[string]map[string]string
+}
+
 // Rewired writes a station file equal to st but with each instrument at the
 // address addrs gives its role, without the simulator's settings (the bench being
-// served holds them), and with dutTemplates as the DUT's templates (e.g. the served
-// fixture's load_unit). The output folder is written absolute, so the copy writes
-// where st does wherever the copy lives.
-func (st *Station) Rewired(addrs map[string]string, dutTemplates map[string]string) []byte {
+// served holds them), and with the settings and templates sv gives each role. The
+// output folder is written absolute, so the copy writes where st does wherever the
+// copy lives.
+func (st *Station) Rewired(addrs map[string]string, sv Served) []byte {
 	var b strings.Builder
 	q := strconv.Quote
 	fmt.Fprintf(&b, "# Station %s, served over the wire by `trimline bench` / `trimline demo --transport`.\n", st.ID)
@@ -35,10 +42,16 @@ func (st *Station) Rewired(addrs map[string]string, dutTemplates map[string]stri
 				fmt.Fprintf(&b, "      resolution: %.9g V\n", a.Resolution)
 			}
 		}
-		if r == "dut" && len(dutTemplates) > 0 {
-			b.WriteString("    templates:\n")
-			for _, k := range slices.Sorted(maps.Keys(dutTemplates)) {
-				fmt.Fprintf(&b, "      %s: %s\n", k, q(dutTemplates[k]))
+		for _, block := range []struct {
+			key string
+			m   map[string]string
+		}{{"settings", sv.Settings[r]}, {"templates", sv.Templates[r]}} {
+			if len(block.m) == 0 {
+				continue
+			}
+			fmt.Fprintf(&b, "    %s:\n", block.key)
+			for _, k := range slices.Sorted(maps.Keys(block.m)) {
+				fmt.Fprintf(&b, "      %s: %s\n", k, q(block.m[k]))
 			}
 		}
 	}

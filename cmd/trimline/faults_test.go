@@ -36,7 +36,7 @@ func wire(t *testing.T, transport string, faults map[string]serve.Fault) (dir, s
 		t.Fatal(err)
 	}
 	t.Cleanup(func() { srv.Close() })
-	yaml := st.Rewired(srv.Addresses(), serve.DUTTemplates)
+	yaml := st.Rewired(srv.Addresses(), sequencer.Served{Settings: serve.Settings, Templates: serve.Templates})
 	// Short per-command timeouts so silent instruments are found quickly.
 	yaml = []byte(strings.ReplaceAll(string(yaml), "    asset: ", "    timeout: 300 ms\n    asset: "))
 	station = filepath.Join(dir, "served.yaml")

@@ -75,9 +75,20 @@ import (
 	"trimline/instruments/sim"
 )
 
-// DUTTemplates are the generic trim-port templates that reach the served fixture:
-// its load_unit command places a unit, as Server.LoadUnit does from Go.
-var DUTTemplates = map[string]string{"load_unit": "FIXTURE LOAD {serial}"}
+// Templates are the generic drivers' templates, per role, that reach what the
+// served bench offers beyond the standard commands: the fixture's load_unit places a
+// unit (as Server.LoadUnit does from Go), and the source's output watchdog switches
+// the output off when the station stops talking.
+var Templates = map[string]map[string]string{
+	"dut":    {"load_unit": "FIXTURE LOAD {serial}"},
+	"source": {"arm_watchdog": "OUTP:WATC {seconds}", "disarm_watchdog": "OUTP:WATC OFF"},
+}
+
+// Settings are the generic drivers' settings, per role, that go with Templates: the
+// source's watchdog time, longer than any step of the demo sequence.
+var Settings = map[string]map[string]string{
+	"source": {"watchdog": "5 s"},
+}
 
 // Options configure a Server. The zero value serves over loopback TCP.
 type Options struct {
