@@ -56,11 +56,26 @@ type SweepPlan struct {
 	Where    string        // "file:line:col" of the sweep in the sequence file, for messages
 }
 
-// Levels returns the stimulus levels in volts, From to To inclusive.
+// Levels returns the stimulus levels in volts, From to To inclusive: the first is
+// exactly From and the last exactly To, and none lies outside them, so a cap that
+// holds at both ends holds at every level. It is the one computation of the levels:
+// the sweep programs them, and CheckCaps, the TUR prediction and the physical
+// ranges read them.
 func (p SweepPlan) Levels() []float64 {
+	if p.Points < 1 {
+		return nil
+	}
 	out := make([]float64, p.Points)
+	lo, hi := min(p.From, p.To), max(p.From, p.To)
 	for i := range out {
-		out[i] = p.From + (p.To-p.From)*float64(i)/float64(p.Points-1)
+		// (1−t)·From + t·To is From at t = 0 and To at t = 1 exactly, and
+		// symmetric sweeps land on 0 exactly; the clamp keeps a rounding of the
+		// products from stepping a hair past either end.
+		t := float64(i) / float64(p.Points-1)
+		out[i] = min(max((1-t)*p.From+t*p.To, lo), hi)
+	}
+	if p.Points == 1 {
+		out[0] = p.From
 	}
 	return out
 }
