@@ -25,8 +25,12 @@ type Station struct {
 	Name              string
 	CertificatePrefix string
 	Instruments       map[string]StationInstrument // keyed by role
-	MaxSourceVolts    float64                      // safety cap on |source level|, volts
-	MaxSourceAmps     float64                      // safety cap on source compliance, amperes
+	// SourceRating is the source's own output rating, from its data sheet.
+	SourceRating Rating
+	// MaxSourceVolts caps |source level| and MaxSourceAmps the source compliance,
+	// volts and amperes: finite, positive and no larger than SourceRating.
+	MaxSourceVolts float64
+	MaxSourceAmps  float64
 	OutputFolder      string                       // resolved relative to the station file
 	// StepDeadline bounds one engine step (a sweep point, a trim write); 0 = none.
 	StepDeadline time.Duration
@@ -130,6 +134,7 @@ type stationFile struct {
 	RequireRelease bool   `yaml:"require_release"`
 	ReleaseKeys    string `yaml:"release_keys"`
 	Safety         struct {
+		SourceRating     *ratingDecl    `yaml:"source_rating"`
 		MaxSourceVoltage *units.Voltage `yaml:"max_source_voltage"`
 		MaxSourceCurrent *units.Current `yaml:"max_source_current"`
 	} `yaml:"safety"`
@@ -238,16 +243,8 @@ func ParseStation(name string, data []byte) (*Station, error) {
 		}
 		st.Instruments[role] = si
 	}
-	if f.Safety.MaxSourceVoltage == nil {
-		errs = append(errs, doc.Errorf("$.safety", "missing required key \"max_source_voltage\": the engine refuses to run without a cap on the source level"))
-	} else if st.MaxSourceVolts = float64(*f.Safety.MaxSourceVoltage); st.MaxSourceVolts <= 0 {
-		errs = append(errs, doc.Errorf("$.safety.max_source_voltage", "expected a positive voltage"))
-	}
-	if f.Safety.MaxSourceCurrent == nil {
-		errs = append(errs, doc.Errorf("$.safety", "missing required key \"max_source_current\": the engine refuses to run without a cap on the source current"))
-	} else if st.MaxSourceAmps = float64(*f.Safety.MaxSourceCurrent); st.MaxSourceAmps <= 0 {
-		errs = append(errs, doc.Errorf("$.safety.max_source_current", "expected a positive current"))
-	}
+	st.SourceRating = rating(doc, f.Safety.SourceRating, &errs)
+	st.MaxSourceVolts, st.MaxSourceAmps = caps(doc, f.Safety.MaxSourceVoltage, f.Safety.MaxSourceCurrent, st.SourceRating, &errs)
 	if f.StepDeadline != nil {
 		if st.StepDeadline = f.StepDeadline.D(); st.StepDeadline <= 0 {
 			errs = append(errs, doc.Errorf("$.step_deadline", "expected a positive duration such as 30 s"))

@@ -83,16 +83,25 @@ func Parse(s string) (Quantity, error) {
 		return Quantity{Value: num, Dim: Ratio}, nil
 	}
 	if u, ok := unitTable[unit]; ok {
-		return Quantity{Value: num * u.scale, Dim: u.dim}, nil
+		return scaled(s, num*u.scale, u.dim)
 	}
 	for p, f := range prefixes {
 		if rest, ok := strings.CutPrefix(unit, p); ok {
 			if u, ok := unitTable[rest]; ok && u.prefixed {
-				return Quantity{Value: num * f * u.scale, Dim: u.dim}, nil
+				return scaled(s, num*f*u.scale, u.dim)
 			}
 		}
 	}
 	return Quantity{}, fmt.Errorf("unknown unit %q in %q (expected V, A, s, Hz, Ω with an optional prefix p n u µ m k M G, or ppm, %%, °C)", unit, s)
+}
+
+// scaled returns the quantity v of dimension d, refusing a value that the unit's
+// scale pushed beyond the largest float64 ("1e308 GV" is +Inf volts, not a number).
+func scaled(s string, v float64, d Dim) (Quantity, error) {
+	if math.IsInf(v, 0) || math.IsNaN(v) {
+		return Quantity{}, fmt.Errorf("%q is too large to be a %s", s, d)
+	}
+	return Quantity{Value: v, Dim: d}, nil
 }
 
 // numberEnd returns the length of the leading decimal number in s (sign, digits,

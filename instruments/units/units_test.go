@@ -37,6 +37,8 @@ func TestParse(t *testing.T) {
 		{in: "", fail: "found nothing"},
 		{in: "1.2.3V", fail: "expected a finite number"},
 		{in: "10 kppm", fail: "unknown unit"},
+		{in: "1e308 GV", fail: "too large"}, // 1e317 V overflows float64 to +Inf
+		{in: "-1e308 GA", fail: "too large"},
 	}
 	for _, c := range cases {
 		q, err := units.Parse(c.in)
