@@ -403,7 +403,7 @@ func dac(doc *files.Doc, path string, d *dacDecl, dim units.Dim, errs *files.Lis
 	}
 	if d.LSB == "" {
 		bad(path, "missing required key \"lsb\"")
-	} else if v, err := units.ParseAs(d.LSB, dim); err != nil {
+	} else if v, err := parseLSB(d.LSB, dim); err != nil {
 		bad(path+".lsb", "%v", err)
 	} else if out.LSB = v; v <= 0 {
 		bad(path+".lsb", "expected a positive LSB size")
@@ -423,6 +423,15 @@ func dac(doc *files.Doc, path string, d *dacDecl, dim units.Dim, errs *files.Lis
 		bad(path, "missing required key \"read\" (the query that reads the code back)")
 	}
 	return out
+}
+
+// parseLSB reads a DAC's LSB: a voltage, or for a gain DAC a ratio with its unit
+// (a bare "10" could be 10 ppm or 10 %).
+func parseLSB(s string, dim units.Dim) (float64, error) {
+	if dim == units.Ratio {
+		return units.ParseRatio(s)
+	}
+	return units.ParseAs(s, dim)
 }
 
 func parentPath(p string) string { return p[:strings.LastIndex(p, ".")] }

@@ -137,6 +137,25 @@ func numberEnd(s string) int {
 	return i
 }
 
+// ParseRatio parses a ratio written with its unit: ppm, ppb or % ("30 ppm",
+// "0.003 %"). A bare number is refused, because nobody can tell whether "30" meant
+// 30 ppm, 30 % or 30 times; only 0, which is the same in every unit, may stand
+// alone.
+func ParseRatio(s string) (float64, error) {
+	q, err := Parse(s)
+	if err != nil {
+		return 0, err
+	}
+	if q.Dim != Ratio {
+		return 0, fmt.Errorf("%q is a %s: expected a ratio such as 30 ppm or 0.003 %%", s, q.Dim)
+	}
+	t := strings.TrimSpace(s)
+	if strings.TrimSpace(t[numberEnd(t):]) == "" && q.Value != 0 {
+		return 0, fmt.Errorf("%q has no unit: write the ratio with ppm or %% (e.g. %s ppm or %s %%), a bare number could mean either", s, t, t)
+	}
+	return q.Value, nil
+}
+
 // ParseAs parses s and checks that it has dimension want.
 func ParseAs(s string, want Dim) (float64, error) {
 	q, err := Parse(s)
@@ -230,6 +249,11 @@ type NodeError struct {
 func (e *NodeError) Error() string { return fmt.Sprintf("[%d:%d] %s", e.Line, e.Col, e.Msg) }
 
 func decodeNode(n ast.Node, want Dim) (float64, error) {
+	return decodeWith(n, func(s string) (float64, error) { return ParseAs(s, want) })
+}
+
+// decodeWith parses the text of n with parse; an error is positioned at n.
+func decodeWith(n ast.Node, parse func(string) (float64, error)) (float64, error) {
 	tk := n.GetToken()
 	var s string
 	switch v := n.(type) {
@@ -242,7 +266,7 @@ func decodeNode(n ast.Node, want Dim) (float64, error) {
 			s = tk.Value
 		}
 	}
-	v, err := ParseAs(s, want)
+	v, err := parse(s)
 	if err != nil {
 		line, col := 0, 0
 		if tk != nil && tk.Position != nil {
@@ -273,12 +297,13 @@ func (v *Current) UnmarshalYAML(n ast.Node) error {
 	return err
 }
 
-// Fraction is a dimensionless ratio written with ppm or % ("10 ppm" is 1e-5).
+// Fraction is a dimensionless ratio written with ppm, ppb or % ("10 ppm" is 1e-5);
+// a bare number other than 0 is refused (ParseRatio).
 type Fraction float64
 
-// UnmarshalYAML parses a ratio.
+// UnmarshalYAML parses a ratio; the error is positioned at the value.
 func (v *Fraction) UnmarshalYAML(n ast.Node) error {
-	f, err := decodeNode(n, Ratio)
+	f, err := decodeWith(n, ParseRatio)
 	*v = Fraction(f)
 	return err
 }
