@@ -31,7 +31,7 @@ type Station struct {
 	// volts and amperes: finite, positive and no larger than SourceRating.
 	MaxSourceVolts float64
 	MaxSourceAmps  float64
-	OutputFolder      string                       // resolved relative to the station file
+	OutputFolder   string // resolved relative to the station file
 	// StepDeadline bounds one engine step (a sweep point, a trim write); 0 = none.
 	StepDeadline time.Duration
 	// Interlock, when set, must give its Closed reply before every sweep point,
