@@ -204,9 +204,7 @@ func ParseSequence(name string, data []byte, read func(path string) ([]byte, err
 		return nil, err
 	}
 	var f sequenceFile
-	if err := doc.Decode(&f); err != nil {
-		return nil, err
-	}
+	decodeErrs := decodeAll(doc, &f)
 	var errs files.List
 	bad := func(path, format string, args ...any) { errs = append(errs, doc.Errorf(path, format, args...)) }
 	req := func(path, v string) {
@@ -333,7 +331,7 @@ func ParseSequence(name string, data []byte, read func(path string) ([]byte, err
 			}
 		}
 	}
-	if len(errs) > 0 {
+	if errs = withDecodeErrs(decodeErrs, errs); len(errs) > 0 {
 		errs.Sort()
 		return nil, errs
 	}

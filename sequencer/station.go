@@ -161,9 +161,7 @@ func ParseStation(name string, data []byte) (*Station, error) {
 		return nil, err
 	}
 	var f stationFile
-	if err := doc.Decode(&f); err != nil {
-		return nil, err
-	}
+	decodeErrs := decodeAll(doc, &f)
 	var errs files.List
 	req := func(path, v string) {
 		if strings.TrimSpace(v) == "" {
@@ -284,7 +282,7 @@ func ParseStation(name string, data []byte) (*Station, error) {
 	if st.OutputFolder != "" && !filepath.IsAbs(st.OutputFolder) {
 		st.OutputFolder = filepath.Join(filepath.Dir(name), st.OutputFolder)
 	}
-	if len(errs) > 0 {
+	if errs = withDecodeErrs(decodeErrs, errs); len(errs) > 0 {
 		errs.Sort()
 		return nil, errs
 	}
