@@ -35,6 +35,11 @@ func CheckCaps(st *Station, seq *Sequence) error {
 		// Every level the sweep will program, as the engine computes them, through
 		// the engine's own test: the two cannot disagree at the edge of the cap.
 		for _, v := range sw.p.Levels() {
+			if r := st.SourceRating.Volts; r > 0 && !withinCap(v, r) {
+				errs = append(errs, fmt.Sprintf("%s: %s sweep reaches %s, outside the source's own rating of ±%s (%s safety.source_rating.voltage): this source cannot make it",
+					sw.p.Where, sw.name, fmtV(v), fmtV(r), st.File.Name))
+				break
+			}
 			if !withinCap(v, st.MaxSourceVolts) {
 				errs = append(errs, fmt.Sprintf("%s: %s sweep reaches %s, above the station cap of %s (%s safety.max_source_voltage)",
 					sw.p.Where, sw.name, fmtV(v), fmtV(st.MaxSourceVolts), st.File.Name))

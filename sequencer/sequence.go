@@ -203,6 +203,9 @@ func ParseSequence(name string, data []byte, read func(path string) ([]byte, err
 	if err != nil {
 		return nil, err
 	}
+	if err := wrongKind(doc, data, FileSequence); err != nil {
+		return nil, err
+	}
 	var f sequenceFile
 	decodeErrs := decodeAll(doc, &f)
 	var errs files.List
@@ -318,6 +321,10 @@ func ParseSequence(name string, data []byte, read func(path string) ([]byte, err
 			}
 		} else {
 			s.Limits, s.LimitsRaw = set, ldata
+			if s.Product != "" && strings.TrimSpace(set.Product) != strings.TrimSpace(s.Product) {
+				bad("$.limits", "the limit file %s is for product %q (its limit_set.product), this sequence is for %q: name the limit file for %s",
+					f.Limits, set.Product, s.Product, s.Product)
+			}
 			// The variant for this product: named in the sequence file, else the one
 			// whose revisions list the sequence's revision, else the base limits.
 			if v := f.LimitsVariant; v != "" {

@@ -48,6 +48,8 @@ type Station struct {
 	SigningKey string
 	File       FileRef
 	Raw        []byte // the file's exact bytes, for the ledger's content-addressed store
+
+	doc *files.Doc // the parsed file, for positions of checks made after loading
 }
 
 // Interlock is a fixture input read through one of the station's instruments.
@@ -156,8 +158,23 @@ func LoadStation(path string) (*Station, error) {
 // ParseStation is LoadStation on bytes already read; name is used in messages and
 // to resolve the output folder.
 func ParseStation(name string, data []byte) (*Station, error) {
+	st, err := InspectStation(name, data)
+	if err != nil {
+		return nil, err
+	}
+	return st, nil
+}
+
+// InspectStation is ParseStation that returns what did load even when the file has
+// problems (nil only when it could not be read as a station file at all), so that
+// trimline check can go on to report what else production would refuse. A station
+// that comes with an error must not be run.
+func InspectStation(name string, data []byte) (*Station, error) {
 	doc, err := files.Parse(name, data)
 	if err != nil {
+		return nil, err
+	}
+	if err := wrongKind(doc, data, FileStation); err != nil {
 		return nil, err
 	}
 	var f stationFile
@@ -169,11 +186,13 @@ func ParseStation(name string, data []byte) (*Station, error) {
 		}
 	}
 	req("$.station.id", f.Station.ID)
+	stationIDs(doc, f.Station.ID, f.Station.CertificatePrefix, &errs)
 	st := &Station{
 		ID: f.Station.ID, Name: f.Station.Name, CertificatePrefix: f.Station.CertificatePrefix,
 		Instruments: map[string]StationInstrument{},
 		File:        FileRef{Kind: FileStation, Name: filepath.Base(name), Title: f.Station.Name, SHA256: hashHex(data)},
 		Raw:         data,
+		doc:         doc,
 	}
 	if st.CertificatePrefix == "" {
 		st.CertificatePrefix = st.ID
@@ -262,6 +281,7 @@ func ParseStation(name string, data []byte) (*Station, error) {
 			errs = append(errs, doc.Errorf("$.interlock.closed", "missing required key \"closed\" (the reply that means the lid is closed)"))
 		}
 	}
+	hazard(doc, st, &errs)
 	st.RequireRelease = f.RequireRelease
 	if k := f.ReleaseKeys; k != "" {
 		st.ReleaseKeys = k
@@ -284,7 +304,7 @@ func ParseStation(name string, data []byte) (*Station, error) {
 	}
 	if errs = withDecodeErrs(decodeErrs, errs); len(errs) > 0 {
 		errs.Sort()
-		return nil, errs
+		return st, errs
 	}
 	return st, nil
 }

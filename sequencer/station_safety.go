@@ -5,6 +5,7 @@ package sequencer
 import (
 	"fmt"
 	"math"
+	"strings"
 
 	"trimline/instruments/files"
 	"trimline/instruments/units"
@@ -78,4 +79,77 @@ func fmtA(a float64) string {
 		return fmt.Sprint(a)
 	}
 	return units.Format(a, "A", 4)
+}
+
+// HazardousDCVolts is the d.c. level above which IEC 61010-1 §6.3.1 deems an
+// accessible voltage hazardous live in normal condition. From memory, not read
+// from the standard: the 2nd edition (2001) gives 30 V r.m.s., 42.4 V peak and
+// 60 V d.c.; the 3rd edition (2010) 33 V r.m.s., 46.7 V peak and 70 V d.c. The
+// source programs d.c. levels, so the d.c. level applies, and the lower of the two
+// editions is used so that the rule holds under either.
+const HazardousDCVolts = 60.0
+
+// hazard refuses a voltage cap above HazardousDCVolts on a station without a
+// fixture interlock: the engine could then drive a hazardous voltage into a fixture
+// whose lid nothing watches.
+func hazard(doc *files.Doc, st *Station, errs *files.List) {
+	if st.MaxSourceVolts > HazardousDCVolts && st.Interlock == nil {
+		*errs = append(*errs, doc.Errorf("$.safety.max_source_voltage",
+			"the cap of %s is above the hazardous-live level of %s d.c. (IEC 61010-1 §6.3.1, normal condition, 2nd edition; 70 V in the 3rd): "+
+				"a station that can drive it needs a fixture interlock that removes the source output when the lid opens (interlock: role, query, closed), or a lower cap",
+			fmtV(st.MaxSourceVolts), fmtV(HazardousDCVolts)))
+	}
+}
+
+// maxStationID is the longest station id or certificate prefix: certificate numbers
+// add "-ENG" for engineering runs and "-000001", and file names the serial.
+const maxStationID = 16
+
+// stationIDRule says which station ids and certificate prefixes are allowed.
+const stationIDRule = "1 to 16 characters of A–Z, 0–9 and '-', beginning and ending with a letter or digit"
+
+// validStationID reports whether id follows stationIDRule: it stands in every
+// certificate number (TL1-000042) and in file names (TL1-000042_BRX-00001.pdf,
+// keys/TL1.key) on every file system, including case-insensitive ones, so no
+// lowercase, spaces, separators or dots.
+func validStationID(id string) bool {
+	if id == "" || len(id) > maxStationID || id[0] == '-' || id[len(id)-1] == '-' {
+		return false
+	}
+	for _, c := range id {
+		if !(c >= 'A' && c <= 'Z' || c >= '0' && c <= '9' || c == '-') {
+			return false
+		}
+	}
+	return true
+}
+
+// stationIDs checks station.id and station.certificate_prefix against the rule.
+func stationIDs(doc *files.Doc, id, prefix string, errs *files.List) {
+	for _, k := range []struct{ key, v string }{{"id", id}, {"certificate_prefix", prefix}} {
+		if strings.TrimSpace(k.v) == "" || validStationID(k.v) {
+			continue
+		}
+		hint := ""
+		if s := suggestID(k.v); s != "" {
+			hint = ", e.g. " + s
+		}
+		*errs = append(*errs, doc.Errorf("$.station."+k.key,
+			"%s %q cannot stand in certificate numbers and file names: use %s%s", k.key, k.v, stationIDRule, hint))
+	}
+}
+
+// suggestID makes a valid id of s, or "".
+func suggestID(s string) string {
+	var b strings.Builder
+	for _, c := range strings.ToUpper(s) {
+		if c >= 'A' && c <= 'Z' || c >= '0' && c <= '9' || c == '-' {
+			b.WriteRune(c)
+		}
+	}
+	out := strings.Trim(b.String(), "-")
+	if len(out) > maxStationID || !validStationID(out) {
+		return ""
+	}
+	return out
 }
