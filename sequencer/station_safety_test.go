@@ -51,3 +51,27 @@ func TestCapsAreFiniteAndWithinTheSourceRating(t *testing.T) {
 		t.Errorf("rating %+v, want 100 mV and 20 mA (the demo station file)", st.SourceRating)
 	}
 }
+
+// A station file recorded with a run before source_rating, the station id rule and
+// the interlock rule existed still loads for replay (ParseRecordedStation); a run
+// refuses it (ParseStation).
+func TestRecordedStationFilesStillReplay(t *testing.T) {
+	old := strings.NewReplacer(
+		"  source_rating:                # the source's own output limits, from its data sheet:\n    voltage: 100 mV             # the caps below may not exceed them\n    current: 20 mA\n", "",
+		"  id: TL1 ", "  id: tl1 ", "certificate_prefix: TL1", "certificate_prefix: tl1",
+		"max_source_voltage: 50 mV", "max_source_voltage: 61 V").Replace(demoFile(t, "brx200-station.yaml"))
+	if _, err := sequencer.ParseStation("s.yaml", []byte(old)); len(files.Errs(err)) != 4 {
+		t.Fatalf("want 4 refusals (rating, id, prefix, interlock), got %v", err)
+	}
+	st, err := sequencer.ParseRecordedStation("s.yaml", []byte(old))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if st.MaxSourceVolts != 61 || st.SourceRating != (sequencer.Rating{}) || st.ID != "tl1" {
+		t.Errorf("recorded station loaded wrong: cap %g V, rating %+v, id %q", st.MaxSourceVolts, st.SourceRating, st.ID)
+	}
+	near(t, "meter of_reading", st.Instruments["meter"].Accuracy.OfReading, 30e-6, 1e-18)
+	if _, err := sequencer.ParseRecordedStation("s.yaml", []byte(strings.Replace(old, "61 V", "1e308 GV", 1))); err == nil {
+		t.Error("an infinite cap is refused even in a recorded file")
+	}
+}
