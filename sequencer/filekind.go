@@ -4,6 +4,8 @@ import (
 	"bytes"
 
 	"github.com/goccy/go-yaml"
+
+	"trimline/instruments/files"
 )
 
 // The kinds of file a station reads, as FileRef.Kind and the ledger record them.
@@ -36,4 +38,22 @@ func FileKind(data []byte) string {
 		return FileLimits
 	}
 	return ""
+}
+
+// topKeys are the top-level keys that tell each kind of file.
+var topKeys = map[string]string{FileStation: "station", FileSequence: "sequence", FileLimits: "limit_set"}
+
+// kindNames are the kinds as a person reads them.
+var kindNames = map[string]string{FileStation: "station file", FileSequence: "sequence file", FileLimits: "limit file"}
+
+// wrongKind returns a positioned error when data is a file of another known kind
+// than want (a sequence file given for the station file, say), else nil: the
+// loader stops there rather than list every key of the other kind as unknown.
+func wrongKind(doc *files.Doc, data []byte, want string) error {
+	got := FileKind(data)
+	if got == "" || got == want {
+		return nil
+	}
+	return files.List{doc.KeyErrorf("$."+topKeys[got], "this is a %s (top-level key %s:), but a %s (top-level key %s:) was expected here: were the files given in each other's place?",
+		kindNames[got], topKeys[got], kindNames[want], topKeys[want])}
 }

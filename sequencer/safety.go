@@ -32,8 +32,15 @@ func CheckCaps(st *Station, seq *Sequence) error {
 		name string
 		p    SweepPlan
 	}{{"pre_trim", seq.PreTrim}, {"verify", seq.Verify}} {
-		for _, v := range []float64{sw.p.From, sw.p.To} {
-			if math.Abs(v) > st.MaxSourceVolts {
+		// Every level the sweep will program, as the engine computes them, through
+		// the engine's own test: the two cannot disagree at the edge of the cap.
+		for _, v := range sw.p.Levels() {
+			if r := st.SourceRating.Volts; r > 0 && !withinCap(v, r) {
+				errs = append(errs, fmt.Sprintf("%s: %s sweep reaches %s, outside the source's own rating of ±%s (%s safety.source_rating.voltage): this source cannot make it",
+					sw.p.Where, sw.name, fmtV(v), fmtV(r), st.File.Name))
+				break
+			}
+			if !withinCap(v, st.MaxSourceVolts) {
 				errs = append(errs, fmt.Sprintf("%s: %s sweep reaches %s, above the station cap of %s (%s safety.max_source_voltage)",
 					sw.p.Where, sw.name, fmtV(v), fmtV(st.MaxSourceVolts), st.File.Name))
 				break
@@ -56,9 +63,15 @@ func CheckCaps(st *Station, seq *Sequence) error {
 	return nil
 }
 
+// withinCap reports whether the source may be programmed to volts under a cap of
+// capVolts on |level|: the one test CheckCaps and the engine share.
+func withinCap(volts, capVolts float64) bool {
+	return finite(volts) && math.Abs(volts) <= capVolts
+}
+
 // setLevel programs the source after checking the station cap once more.
 func (e *Engine) setLevel(ctx context.Context, volts float64) error {
-	if !finite(volts) || math.Abs(volts) > e.cfg.Station.MaxSourceVolts {
+	if !withinCap(volts, e.cfg.Station.MaxSourceVolts) {
 		return &stop{Fault, fmt.Sprintf("%v: refusing to program %s, above the station cap of %s", ErrSafety, fmtV(volts), fmtV(e.cfg.Station.MaxSourceVolts))}
 	}
 	if err := e.source.SetLevel(ctx, volts); err != nil {

@@ -56,11 +56,26 @@ type SweepPlan struct {
 	Where    string        // "file:line:col" of the sweep in the sequence file, for messages
 }
 
-// Levels returns the stimulus levels in volts, From to To inclusive.
+// Levels returns the stimulus levels in volts, From to To inclusive: the first is
+// exactly From and the last exactly To, and none lies outside them, so a cap that
+// holds at both ends holds at every level. It is the one computation of the levels:
+// the sweep programs them, and CheckCaps, the TUR prediction and the physical
+// ranges read them.
 func (p SweepPlan) Levels() []float64 {
+	if p.Points < 1 {
+		return nil
+	}
 	out := make([]float64, p.Points)
+	lo, hi := min(p.From, p.To), max(p.From, p.To)
 	for i := range out {
-		out[i] = p.From + (p.To-p.From)*float64(i)/float64(p.Points-1)
+		// (1−t)·From + t·To is From at t = 0 and To at t = 1 exactly, and
+		// symmetric sweeps land on 0 exactly; the clamp keeps a rounding of the
+		// products from stepping a hair past either end.
+		t := float64(i) / float64(p.Points-1)
+		out[i] = min(max((1-t)*p.From+t*p.To, lo), hi)
+	}
+	if p.Points == 1 {
+		out[0] = p.From
 	}
 	return out
 }
@@ -188,10 +203,11 @@ func ParseSequence(name string, data []byte, read func(path string) ([]byte, err
 	if err != nil {
 		return nil, err
 	}
-	var f sequenceFile
-	if err := doc.Decode(&f); err != nil {
+	if err := wrongKind(doc, data, FileSequence); err != nil {
 		return nil, err
 	}
+	var f sequenceFile
+	decodeErrs := decodeAll(doc, &f)
 	var errs files.List
 	bad := func(path, format string, args ...any) { errs = append(errs, doc.Errorf(path, format, args...)) }
 	req := func(path, v string) {
@@ -305,6 +321,10 @@ func ParseSequence(name string, data []byte, read func(path string) ([]byte, err
 			}
 		} else {
 			s.Limits, s.LimitsRaw = set, ldata
+			if s.Product != "" && strings.TrimSpace(set.Product) != strings.TrimSpace(s.Product) {
+				bad("$.limits", "the limit file %s is for product %q (its limit_set.product), this sequence is for %q: name the limit file for %s",
+					f.Limits, set.Product, s.Product, s.Product)
+			}
 			// The variant for this product: named in the sequence file, else the one
 			// whose revisions list the sequence's revision, else the base limits.
 			if v := f.LimitsVariant; v != "" {
@@ -318,7 +338,7 @@ func ParseSequence(name string, data []byte, read func(path string) ([]byte, err
 			}
 		}
 	}
-	if len(errs) > 0 {
+	if errs = withDecodeErrs(decodeErrs, errs); len(errs) > 0 {
 		errs.Sort()
 		return nil, errs
 	}
@@ -388,7 +408,7 @@ func dac(doc *files.Doc, path string, d *dacDecl, dim units.Dim, errs *files.Lis
 	}
 	if d.LSB == "" {
 		bad(path, "missing required key \"lsb\"")
-	} else if v, err := units.ParseAs(d.LSB, dim); err != nil {
+	} else if v, err := parseLSB(d.LSB, dim); err != nil {
 		bad(path+".lsb", "%v", err)
 	} else if out.LSB = v; v <= 0 {
 		bad(path+".lsb", "expected a positive LSB size")
@@ -408,6 +428,15 @@ func dac(doc *files.Doc, path string, d *dacDecl, dim units.Dim, errs *files.Lis
 		bad(path, "missing required key \"read\" (the query that reads the code back)")
 	}
 	return out
+}
+
+// parseLSB reads a DAC's LSB: a voltage, or for a gain DAC a ratio with its unit
+// (a bare "10" could be 10 ppm or 10 %).
+func parseLSB(s string, dim units.Dim) (float64, error) {
+	if dim == units.Ratio {
+		return units.ParseRatio(s)
+	}
+	return units.ParseAs(s, dim)
 }
 
 func parentPath(p string) string { return p[:strings.LastIndex(p, ".")] }

@@ -25,9 +25,13 @@ type Station struct {
 	Name              string
 	CertificatePrefix string
 	Instruments       map[string]StationInstrument // keyed by role
-	MaxSourceVolts    float64                      // safety cap on |source level|, volts
-	MaxSourceAmps     float64                      // safety cap on source compliance, amperes
-	OutputFolder      string                       // resolved relative to the station file
+	// SourceRating is the source's own output rating, from its data sheet.
+	SourceRating Rating
+	// MaxSourceVolts caps |source level| and MaxSourceAmps the source compliance,
+	// volts and amperes: finite, positive and no larger than SourceRating.
+	MaxSourceVolts float64
+	MaxSourceAmps  float64
+	OutputFolder   string // resolved relative to the station file
 	// StepDeadline bounds one engine step (a sweep point, a trim write); 0 = none.
 	StepDeadline time.Duration
 	// Interlock, when set, must give its Closed reply before every sweep point,
@@ -44,6 +48,8 @@ type Station struct {
 	SigningKey string
 	File       FileRef
 	Raw        []byte // the file's exact bytes, for the ledger's content-addressed store
+
+	doc *files.Doc // the parsed file, for positions of checks made after loading
 }
 
 // Interlock is a fixture input read through one of the station's instruments.
@@ -130,6 +136,7 @@ type stationFile struct {
 	RequireRelease bool   `yaml:"require_release"`
 	ReleaseKeys    string `yaml:"release_keys"`
 	Safety         struct {
+		SourceRating     *ratingDecl    `yaml:"source_rating"`
 		MaxSourceVoltage *units.Voltage `yaml:"max_source_voltage"`
 		MaxSourceCurrent *units.Current `yaml:"max_source_current"`
 	} `yaml:"safety"`
@@ -151,14 +158,46 @@ func LoadStation(path string) (*Station, error) {
 // ParseStation is LoadStation on bytes already read; name is used in messages and
 // to resolve the output folder.
 func ParseStation(name string, data []byte) (*Station, error) {
+	st, err := InspectStation(name, data)
+	if err != nil {
+		return nil, err
+	}
+	return st, nil
+}
+
+// InspectStation is ParseStation that returns what did load even when the file has
+// problems (nil only when it could not be read as a station file at all), so that
+// trimline check can go on to report what else production would refuse. A station
+// that comes with an error must not be run.
+func InspectStation(name string, data []byte) (*Station, error) {
+	return parseStation(name, data, false)
+}
+
+// ParseRecordedStation loads a station file stored with a recorded run, for replay.
+// The file was in force when the run was made, so the rules added since a file may
+// have been recorded are not applied to it: a declared source_rating (caps are
+// then bounded by nothing but being finite and positive), the station id rule and
+// the interlock above the hazardous-live level. Everything else is checked as
+// ParseStation checks it. The station must not be run.
+func ParseRecordedStation(name string, data []byte) (*Station, error) {
+	st, err := parseStation(name, data, true)
+	if err != nil {
+		return nil, err
+	}
+	return st, nil
+}
+
+// parseStation loads a station file; recorded is ParseRecordedStation's leniency.
+func parseStation(name string, data []byte, recorded bool) (*Station, error) {
 	doc, err := files.Parse(name, data)
 	if err != nil {
 		return nil, err
 	}
-	var f stationFile
-	if err := doc.Decode(&f); err != nil {
+	if err := wrongKind(doc, data, FileStation); err != nil {
 		return nil, err
 	}
+	var f stationFile
+	decodeErrs := decodeAll(doc, &f)
 	var errs files.List
 	req := func(path, v string) {
 		if strings.TrimSpace(v) == "" {
@@ -166,11 +205,15 @@ func ParseStation(name string, data []byte) (*Station, error) {
 		}
 	}
 	req("$.station.id", f.Station.ID)
+	if !recorded {
+		stationIDs(doc, f.Station.ID, f.Station.CertificatePrefix, &errs)
+	}
 	st := &Station{
 		ID: f.Station.ID, Name: f.Station.Name, CertificatePrefix: f.Station.CertificatePrefix,
 		Instruments: map[string]StationInstrument{},
 		File:        FileRef{Kind: FileStation, Name: filepath.Base(name), Title: f.Station.Name, SHA256: hashHex(data)},
 		Raw:         data,
+		doc:         doc,
 	}
 	if st.CertificatePrefix == "" {
 		st.CertificatePrefix = st.ID
@@ -238,16 +281,10 @@ func ParseStation(name string, data []byte) (*Station, error) {
 		}
 		st.Instruments[role] = si
 	}
-	if f.Safety.MaxSourceVoltage == nil {
-		errs = append(errs, doc.Errorf("$.safety", "missing required key \"max_source_voltage\": the engine refuses to run without a cap on the source level"))
-	} else if st.MaxSourceVolts = float64(*f.Safety.MaxSourceVoltage); st.MaxSourceVolts <= 0 {
-		errs = append(errs, doc.Errorf("$.safety.max_source_voltage", "expected a positive voltage"))
+	if f.Safety.SourceRating != nil || !recorded {
+		st.SourceRating = rating(doc, f.Safety.SourceRating, &errs)
 	}
-	if f.Safety.MaxSourceCurrent == nil {
-		errs = append(errs, doc.Errorf("$.safety", "missing required key \"max_source_current\": the engine refuses to run without a cap on the source current"))
-	} else if st.MaxSourceAmps = float64(*f.Safety.MaxSourceCurrent); st.MaxSourceAmps <= 0 {
-		errs = append(errs, doc.Errorf("$.safety.max_source_current", "expected a positive current"))
-	}
+	st.MaxSourceVolts, st.MaxSourceAmps = caps(doc, f.Safety.MaxSourceVoltage, f.Safety.MaxSourceCurrent, st.SourceRating, &errs)
 	if f.StepDeadline != nil {
 		if st.StepDeadline = f.StepDeadline.D(); st.StepDeadline <= 0 {
 			errs = append(errs, doc.Errorf("$.step_deadline", "expected a positive duration such as 30 s"))
@@ -266,6 +303,9 @@ func ParseStation(name string, data []byte) (*Station, error) {
 		if il.Closed == "" {
 			errs = append(errs, doc.Errorf("$.interlock.closed", "missing required key \"closed\" (the reply that means the lid is closed)"))
 		}
+	}
+	if !recorded {
+		hazard(doc, st, &errs)
 	}
 	st.RequireRelease = f.RequireRelease
 	if k := f.ReleaseKeys; k != "" {
@@ -287,9 +327,9 @@ func ParseStation(name string, data []byte) (*Station, error) {
 	if st.OutputFolder != "" && !filepath.IsAbs(st.OutputFolder) {
 		st.OutputFolder = filepath.Join(filepath.Dir(name), st.OutputFolder)
 	}
-	if len(errs) > 0 {
+	if errs = withDecodeErrs(decodeErrs, errs); len(errs) > 0 {
 		errs.Sort()
-		return nil, errs
+		return st, errs
 	}
 	return st, nil
 }

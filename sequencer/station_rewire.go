@@ -55,7 +55,8 @@ func (st *Station) Rewired(addrs map[string]string, sv Served) []byte {
 			}
 		}
 	}
-	fmt.Fprintf(&b, "safety:\n  max_source_voltage: %g V\n  max_source_current: %g A\n", st.MaxSourceVolts, st.MaxSourceAmps)
+	fmt.Fprintf(&b, "safety:\n  source_rating: {voltage: %.9g V, current: %.9g A}\n", st.SourceRating.Volts, st.SourceRating.Amps)
+	fmt.Fprintf(&b, "  max_source_voltage: %g V\n  max_source_current: %g A\n", st.MaxSourceVolts, st.MaxSourceAmps)
 	if st.Interlock != nil {
 		fmt.Fprintf(&b, "interlock:\n  role: %s\n  query: %s\n  closed: %s\n", st.Interlock.Role, q(st.Interlock.Query), q(st.Interlock.Closed))
 	}

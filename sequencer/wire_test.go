@@ -43,7 +43,7 @@ instruments:
     asset: F-1
     templates: {load_unit: "FIXTURE LOAD {serial}"}
 interlock: {role: dut, query: "LID?", closed: "CLOSED"}
-safety: {max_source_voltage: 50 mV, max_source_current: 10 mA}
+safety: {source_rating: {voltage: 100 mV, current: 20 mA}, max_source_voltage: 50 mV, max_source_current: 10 mA}
 output: {folder: out}
 `, a["source"], extra, a["meter"], a["dut"])
 	st, err := sequencer.ParseStation("wire-station.yaml", []byte(station))

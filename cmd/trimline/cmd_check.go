@@ -8,6 +8,7 @@ import (
 
 	"trimline/instruments/files"
 	"trimline/limits"
+	"trimline/reports/signing"
 	"trimline/sequencer"
 )
 
@@ -15,13 +16,19 @@ func newCheckCmd() *command {
 	c := &command{
 		UsageLine: "trimline check FILE...",
 		Short:     "validate station, sequence and limit files",
-		Long: `Loads each file as production would and prints every problem as file:line:col
-with an excerpt. The kind of each file is told by its top-level key: station:,
-sequence: or limit_set:. A sequence file also loads the limit file it names. When
-a station and a sequence are both given, the sequence is also checked against the
-station's safety caps and roles.
+		Long: `Loads each file as production would and prints every problem of every file,
+in one pass, as file:line:col with an excerpt. The kind of each file is told by its
+top-level key: station:, sequence: or limit_set:. A sequence file also loads the
+limit file it names, which must be for the sequence's product.
 
-Exit code 0 when every file is clean, 2 otherwise.`,
+A station file is also checked for what production would refuse later: a
+calibration that has run out (an error) or runs out within 14 days (a warning), and
+a signing key that is missing or cannot be read. When a station and a sequence are
+both given, every sweep level is checked against the station's caps and the
+source's rating, and the roles against the station's instruments.
+
+Exit code 0 when no file has an error (warnings are printed but do not count), 2
+otherwise.`,
 	}
 	c.Run = func(ctx context.Context, e *env, args []string) error {
 		if len(args) == 0 {
@@ -29,7 +36,7 @@ Exit code 0 when every file is clean, 2 otherwise.`,
 		}
 		var problems files.List
 		var other []error
-		var st *sequencer.Station
+		var stations []*sequencer.Station
 		var seqs []*sequencer.Sequence
 		for _, path := range args {
 			data, err := os.ReadFile(path)
@@ -41,7 +48,13 @@ Exit code 0 when every file is clean, 2 otherwise.`,
 			var lerr error
 			switch kind {
 			case sequencer.FileStation:
-				st, lerr = sequencer.ParseStation(path, data)
+				var st *sequencer.Station
+				if st, lerr = sequencer.InspectStation(path, data); st != nil {
+					problems = append(problems, stationProblems(e, st)...)
+					if lerr == nil {
+						stations = append(stations, st)
+					}
+				}
 			case sequencer.FileSequence:
 				var s *sequencer.Sequence
 				s, lerr = sequencer.LoadSequence(path)
@@ -65,7 +78,7 @@ Exit code 0 when every file is clean, 2 otherwise.`,
 			}
 			fmt.Fprintf(e.stdout, "ok  %s (%s)\n", path, kind)
 		}
-		if st != nil {
+		for _, st := range stations {
 			for _, s := range seqs {
 				if err := sequencer.CheckCaps(st, s); err != nil {
 					other = append(other, err)
@@ -77,19 +90,40 @@ Exit code 0 when every file is clean, 2 otherwise.`,
 				printTUR(e.stdout, st, s, checks)
 			}
 		}
+		problems.Sort()
+		warnings := 0
 		for _, p := range problems {
 			fmt.Fprintln(e.stdout, p.Detail())
+			if p.Warning {
+				warnings++
+			}
 		}
 		for _, err := range other {
 			fmt.Fprintln(e.stdout, err)
 		}
-		if n := len(problems) + len(other); n > 0 {
+		if warnings > 0 {
+			fmt.Fprintf(e.stdout, "%d warning(s)\n", warnings)
+		}
+		if n := len(problems) - warnings + len(other); n > 0 {
 			fmt.Fprintf(e.stdout, "%d problem(s)\n", n)
 			return report(badInput(fmt.Errorf("%d problem(s)", n)))
 		}
 		return nil
 	}
 	return c
+}
+
+// stationProblems are what a loaded station file would meet in production beyond
+// the loader's checks: calibrations run out or running out at e's clock, and a
+// signing key that is missing or unreadable.
+func stationProblems(e *env, st *sequencer.Station) files.List {
+	out := st.CheckCalibration(e.clock())
+	if st.SigningKey != "" {
+		if _, err := signing.Load(st.SigningKey); err != nil {
+			out = append(out, st.Errorf("$.signing.key", "cannot use the signing key: %v (make one with: trimline keys init)", err))
+		}
+	}
+	return out
 }
 
 // printTUR shows the test uncertainty ratio each toleranced limit can reach on

@@ -8,6 +8,7 @@ import (
 	"io"
 	"slices"
 	"strings"
+	"time"
 )
 
 // command is one command or subcommand, described as data; its help is generated
@@ -28,9 +29,18 @@ type command struct {
 	Commands []*command
 }
 
-// env is what a running command writes to.
+// env is what a running command writes to, and its clock.
 type env struct {
 	stdout, stderr io.Writer
+	now            func() time.Time // nil: time.Now; tests set a fixed day
+}
+
+// clock returns the time now, from e.now when set.
+func (e *env) clock() time.Time {
+	if e.now != nil {
+		return e.now()
+	}
+	return time.Now()
 }
 
 // trimline builds the command tree. run calls it once per invocation and finds

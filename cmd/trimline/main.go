@@ -43,8 +43,13 @@ func main() {
 
 // run is main without the process: it returns the exit code.
 func run(ctx context.Context, args []string, stdout, stderr io.Writer) int {
+	return runEnv(ctx, args, &env{stdout: stdout, stderr: stderr})
+}
+
+// runEnv is run with the env given (tests fix its clock).
+func runEnv(ctx context.Context, args []string, e *env) int {
 	root := trimline()
-	e := &env{stdout: stdout, stderr: stderr}
+	stdout, stderr := e.stdout, e.stderr
 	if len(args) == 0 || args[0] == "help" || args[0] == "-h" || args[0] == "--help" {
 		if len(args) > 1 && args[0] == "help" {
 			if top := root.sub(args[1]); top != nil {

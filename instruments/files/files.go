@@ -25,14 +25,22 @@ type Error struct {
 	Line, Col int // 1-based; 0 when the position is unknown
 	Msg       string
 	Excerpt   string // source lines around Line with a caret, may be empty
+	// Warning marks a problem a person should see that does not make the file
+	// unusable (a calibration due soon); loaders never return one.
+	Warning bool
 }
 
-// Error returns "file:line:col: message".
+// Error returns "file:line:col: message", with "warning: " before the message of
+// a warning.
 func (e *Error) Error() string {
-	if e.Line == 0 {
-		return fmt.Sprintf("%s: %s", e.File, e.Msg)
+	msg := e.Msg
+	if e.Warning {
+		msg = "warning: " + msg
 	}
-	return fmt.Sprintf("%s:%d:%d: %s", e.File, e.Line, e.Col, e.Msg)
+	if e.Line == 0 {
+		return fmt.Sprintf("%s: %s", e.File, msg)
+	}
+	return fmt.Sprintf("%s:%d:%d: %s", e.File, e.Line, e.Col, msg)
 }
 
 // Detail returns Error() followed by the excerpt.

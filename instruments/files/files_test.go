@@ -125,3 +125,57 @@ func TestDecodeFromTree(t *testing.T) {
 		}
 	}
 }
+
+type wide struct {
+	Name   string                     `yaml:"name"`
+	Level  *units.Voltage             `yaml:"level"`
+	Gap    *units.Voltage             `yaml:"gap"`
+	Roles  map[string]struct{ A int } `yaml:"roles"`
+	Waits  []units.Duration           `yaml:"waits"`
+	Labels map[string]string          `yaml:"labels"`
+	Inner  *struct {
+		Count int `yaml:"count"`
+	} `yaml:"inner"`
+}
+
+// DecodeAll decodes a sound file exactly as Decode does, and on a bad one reports
+// every problem (positions hand-counted), where Decode stops at the first.
+func TestDecodeAllReportsEveryProblem(t *testing.T) {
+	good := "name: x\nlevel: 5 mV\ngap:\nroles:\n  r1: {a: 3}\nwaits: [1 ms, 2 s]\nlabels: {k: v, n: 8}\ninner: {count: 4}\n"
+	var a, b wide
+	da, _ := files.Parse("g.yaml", []byte(good))
+	db, _ := files.Parse("g.yaml", []byte(good))
+	if err := da.Decode(&a); err != nil {
+		t.Fatal(err)
+	}
+	if err := db.DecodeAll(&b); err != nil {
+		t.Fatal(err)
+	}
+	if a.Name != b.Name || *a.Level != *b.Level || b.Gap != nil || a.Roles["r1"] != b.Roles["r1"] || len(b.Waits) != 2 ||
+		a.Waits[1] != b.Waits[1] || b.Labels["n"] != "8" || b.Inner == nil || b.Inner.Count != 4 {
+		t.Fatalf("Decode %+v, DecodeAll %+v", a, b)
+	}
+	bad := "name: x\nlevel: 5 mX\nroles:\n  r1: {a: three}\n  r2: {b: 1}\nwaits: [1 ms, 2 V]\nextra: 1\n"
+	d, _ := files.Parse("b.yaml", []byte(bad))
+	var w wide
+	err := d.DecodeAll(&w)
+	want := []string{
+		`b.yaml:2:8: unknown unit "mX"`,
+		`b.yaml:4:11: wrong type: expected a whole number`,
+		`b.yaml:5:8: unknown field "b"`,
+		`b.yaml:6:15: "2 V" is a voltage (V): expected a time`,
+		`b.yaml:7:1: unknown field "extra"`,
+	}
+	errs := files.Errs(err)
+	if len(errs) != len(want) {
+		t.Fatalf("%d problems, want %d:\n%v", len(errs), len(want), err)
+	}
+	for i, e := range errs {
+		if !strings.HasPrefix(e.Error(), want[i]) {
+			t.Errorf("problem %d: %s, want %s…", i+1, e.Error(), want[i])
+		}
+	}
+	if w.Level == nil || *w.Level != 0 || w.Name != "x" {
+		t.Errorf("a bad value leaves a zero value behind a set pointer; the rest decodes: %+v", w)
+	}
+}

@@ -40,6 +40,9 @@ func TestCheckSettings(t *testing.T) {
 		{"sim://dut", "start", "yesterday"},     // not RFC 3339
 		{"sim://dut", "latency", "3"},           // no unit
 		{"sim://meter", "spec_ppm_range", "-4"}, // negative
+		{"sim://dut", "gain_error", "0.01"},     // a ratio with no unit: 1 %? 0.01 ppm?
+		{"sim://dut", "gain_lsb", "10"},         // a ratio with no unit
+		{"sim://source", "gain_error", "3"},     // a ratio with no unit
 	} {
 		err := checker.CheckSettings(instruments.Spec{Address: c.addr, Settings: map[string]string{c.key: c.val}})
 		var se *instruments.SettingError

@@ -134,9 +134,24 @@ func settingErr(key, format string, args ...any) error {
 	return &instruments.SettingError{Key: key, Msg: fmt.Sprintf(format, args...)}
 }
 
-// quantity parses val with dimension dim; a failure names key.
+// quantity parses val with dimension dim; a failure names key. A ratio needs its
+// unit (units.ParseRatio: "-2500 ppm", "0.4 %"; only 0 may stand alone).
 func quantity(key, val string, dim units.Dim) (float64, error) {
-	v, err := units.ParseAs(val, dim)
+	parse := func(s string) (float64, error) { return units.ParseAs(s, dim) }
+	if dim == units.Ratio {
+		parse = units.ParseRatio
+	}
+	v, err := parse(val)
+	if err != nil {
+		return 0, settingErr(key, "%v", err)
+	}
+	return v, nil
+}
+
+// plain parses a plain number that is not a ratio (a count of power-line cycles,
+// a gain in V/V); a failure names key.
+func plain(key, val string) (float64, error) {
+	v, err := units.ParseAs(val, units.Ratio)
 	if err != nil {
 		return 0, settingErr(key, "%v", err)
 	}
@@ -318,7 +333,7 @@ func (c *meterConfig) setters() map[string]setter {
 			return err
 		},
 		"nplc": func(k, val string) error {
-			v, err := quantity(k, val, units.Ratio)
+			v, err := plain(k, val)
 			if err == nil {
 				if err = checkNPLC(v); err != nil {
 					err = settingErr(k, "%v", err)
@@ -366,7 +381,12 @@ func (s *DUTSettings) setters(offsetLSBSet *bool) map[string]setter {
 			s.DNL = q.Value
 			return err
 		},
-		"open_loop_gain": nonNegativeOf(&s.OpenLoopGain, units.Ratio),
+		"open_loop_gain": func(k, val string) (err error) {
+			if s.OpenLoopGain, err = plain(k, val); err == nil && s.OpenLoopGain < 0 {
+				err = settingErr(k, "%q must not be negative", val)
+			}
+			return err
+		},
 		"offset_lsb": func(k, val string) error {
 			*offsetLSBSet = true
 			return positiveOf(&s.OffsetLSB, units.Volt)(k, val)

@@ -83,16 +83,25 @@ func Parse(s string) (Quantity, error) {
 		return Quantity{Value: num, Dim: Ratio}, nil
 	}
 	if u, ok := unitTable[unit]; ok {
-		return Quantity{Value: num * u.scale, Dim: u.dim}, nil
+		return scaled(s, num*u.scale, u.dim)
 	}
 	for p, f := range prefixes {
 		if rest, ok := strings.CutPrefix(unit, p); ok {
 			if u, ok := unitTable[rest]; ok && u.prefixed {
-				return Quantity{Value: num * f * u.scale, Dim: u.dim}, nil
+				return scaled(s, num*f*u.scale, u.dim)
 			}
 		}
 	}
 	return Quantity{}, fmt.Errorf("unknown unit %q in %q (expected V, A, s, Hz, Ω with an optional prefix p n u µ m k M G, or ppm, %%, °C)", unit, s)
+}
+
+// scaled returns the quantity v of dimension d, refusing a value that the unit's
+// scale pushed beyond the largest float64 ("1e308 GV" is +Inf volts, not a number).
+func scaled(s string, v float64, d Dim) (Quantity, error) {
+	if math.IsInf(v, 0) || math.IsNaN(v) {
+		return Quantity{}, fmt.Errorf("%q is too large to be a %s", s, d)
+	}
+	return Quantity{Value: v, Dim: d}, nil
 }
 
 // numberEnd returns the length of the leading decimal number in s (sign, digits,
@@ -126,6 +135,25 @@ func numberEnd(s string) int {
 		}
 	}
 	return i
+}
+
+// ParseRatio parses a ratio written with its unit: ppm, ppb or % ("30 ppm",
+// "0.003 %"). A bare number is refused, because nobody can tell whether "30" meant
+// 30 ppm, 30 % or 30 times; only 0, which is the same in every unit, may stand
+// alone.
+func ParseRatio(s string) (float64, error) {
+	q, err := Parse(s)
+	if err != nil {
+		return 0, err
+	}
+	if q.Dim != Ratio {
+		return 0, fmt.Errorf("%q is a %s: expected a ratio such as 30 ppm or 0.003 %%", s, q.Dim)
+	}
+	t := strings.TrimSpace(s)
+	if strings.TrimSpace(t[numberEnd(t):]) == "" && q.Value != 0 {
+		return 0, fmt.Errorf("%q has no unit: write the ratio with ppm or %% (e.g. %s ppm or %s %%), a bare number could mean either", s, t, t)
+	}
+	return q.Value, nil
 }
 
 // ParseAs parses s and checks that it has dimension want.
@@ -221,6 +249,11 @@ type NodeError struct {
 func (e *NodeError) Error() string { return fmt.Sprintf("[%d:%d] %s", e.Line, e.Col, e.Msg) }
 
 func decodeNode(n ast.Node, want Dim) (float64, error) {
+	return decodeWith(n, func(s string) (float64, error) { return ParseAs(s, want) })
+}
+
+// decodeWith parses the text of n with parse; an error is positioned at n.
+func decodeWith(n ast.Node, parse func(string) (float64, error)) (float64, error) {
 	tk := n.GetToken()
 	var s string
 	switch v := n.(type) {
@@ -233,7 +266,7 @@ func decodeNode(n ast.Node, want Dim) (float64, error) {
 			s = tk.Value
 		}
 	}
-	v, err := ParseAs(s, want)
+	v, err := parse(s)
 	if err != nil {
 		line, col := 0, 0
 		if tk != nil && tk.Position != nil {
@@ -264,12 +297,13 @@ func (v *Current) UnmarshalYAML(n ast.Node) error {
 	return err
 }
 
-// Fraction is a dimensionless ratio written with ppm or % ("10 ppm" is 1e-5).
+// Fraction is a dimensionless ratio written with ppm, ppb or % ("10 ppm" is 1e-5);
+// a bare number other than 0 is refused (ParseRatio).
 type Fraction float64
 
-// UnmarshalYAML parses a ratio.
+// UnmarshalYAML parses a ratio; the error is positioned at the value.
 func (v *Fraction) UnmarshalYAML(n ast.Node) error {
-	f, err := decodeNode(n, Ratio)
+	f, err := decodeWith(n, ParseRatio)
 	*v = Fraction(f)
 	return err
 }

@@ -37,6 +37,8 @@ func TestParse(t *testing.T) {
 		{in: "", fail: "found nothing"},
 		{in: "1.2.3V", fail: "expected a finite number"},
 		{in: "10 kppm", fail: "unknown unit"},
+		{in: "1e308 GV", fail: "too large"}, // 1e317 V overflows float64 to +Inf
+		{in: "-1e308 GA", fail: "too large"},
 	}
 	for _, c := range cases {
 		q, err := units.Parse(c.in)
@@ -89,4 +91,28 @@ func FuzzParse(f *testing.F) {
 			t.Fatalf("Parse(%q) gave a non-finite value without error", s)
 		}
 	})
+}
+
+// A ratio needs its unit: a bare 30 could be 30 ppm, 30 % or 30 times (it was read
+// as 30, i.e. 3 000 000 000 ppm). Only 0 may stand alone.
+func TestParseRatioNeedsAUnit(t *testing.T) {
+	for _, c := range []struct {
+		in   string
+		v    float64
+		fail string
+	}{
+		{in: "30 ppm", v: 30e-6}, {in: "0.003 %", v: 3e-5}, {in: "5 ppb", v: 5e-9}, {in: "0", v: 0}, {in: "-20ppm", v: -20e-6},
+		{in: "30", fail: "has no unit"}, {in: "1e-5", fail: "has no unit"}, {in: "10 mV", fail: "expected a ratio"},
+	} {
+		v, err := units.ParseRatio(c.in)
+		if c.fail != "" {
+			if err == nil || !strings.Contains(err.Error(), c.fail) {
+				t.Errorf("ParseRatio(%q) = %g, %v; want an error containing %q", c.in, v, err, c.fail)
+			}
+			continue
+		}
+		if err != nil || math.Abs(v-c.v) > 1e-12*math.Abs(c.v) {
+			t.Errorf("ParseRatio(%q) = %g, %v; want %g", c.in, v, err, c.v)
+		}
+	}
 }

@@ -148,7 +148,7 @@ func Replay(ctx context.Context, led *ledger.Ledger, rec *sequencer.Record) ([]s
 		}
 		data[f.Kind], names[f.Kind] = b, f.Name
 	}
-	st, err := sequencer.ParseStation(names[sequencer.FileStation], data[sequencer.FileStation])
+	st, err := sequencer.ParseRecordedStation(names[sequencer.FileStation], data[sequencer.FileStation])
 	if err != nil {
 		return nil, fmt.Errorf("%s: stored station file: %w", rec.RunID, err)
 	}

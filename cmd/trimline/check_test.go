@@ -1,0 +1,100 @@
+package main
+
+import (
+	"bytes"
+	"context"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+	"time"
+)
+
+// runCLIAt is runCLI with the commands' clock fixed at now.
+func runCLIAt(t *testing.T, now time.Time, args ...string) (code int, stdout, stderr string) {
+	t.Helper()
+	var o, e bytes.Buffer
+	code = runEnv(context.Background(), args, &env{stdout: &o, stderr: &e, now: func() time.Time { return now }})
+	return code, o.String(), e.String()
+}
+
+// trimline check finds, in one pass and each at file:line:col, everything
+// production would refuse later; warnings print and leave the exit code 0.
+func TestCheckFindsEverythingInOnePass(t *testing.T) {
+	dir := t.TempDir()
+	now := time.Date(2030, 6, 1, 9, 0, 0, 0, time.UTC)
+	station, sequence, err := writeDemoFiles(dir, 1, now.AddDate(-1, 0, 10)) // cal_due: 2030-06-11
+	if err != nil {
+		t.Fatal(err)
+	}
+	limitsFile := filepath.Join(dir, "brx200-limits.yaml")
+	code, out, _ := runCLIAt(t, now, "check", station, sequence, limitsFile)
+	if code != 0 || strings.Count(out, "ok  ") != 3 || strings.Count(out, "warning: the calibration of the") != 2 ||
+		!strings.Contains(out, "brx200-station.yaml:18:14: warning: the calibration of the source STD-0117 runs out in 10 days") {
+		t.Fatalf("a calibration due in 10 days: want two warnings and exit 0, got exit %d\n%s", code, out)
+	}
+
+	edit := func(name string, pairs ...string) string {
+		t.Helper()
+		path := filepath.Join(dir, name)
+		data, _ := os.ReadFile(path)
+		text := string(data)
+		for i := 0; i < len(pairs); i += 2 {
+			if !strings.Contains(text, pairs[i]) {
+				t.Fatalf("%s lacks %q", name, pairs[i])
+			}
+			text = strings.Replace(text, pairs[i], pairs[i+1], 1)
+		}
+		bad := filepath.Join(dir, "bad-"+name)
+		os.WriteFile(bad, []byte(text), 0o644)
+		return bad
+	}
+	badStation := edit("brx200-station.yaml",
+		"  id: TL1 ", "  id: TL 3 ",
+		"cal_due: 2030-06-11", "cal_due: 2030-05-31",
+		"key: keys/TL1.key", "key: keys/TL9.key",
+		"max_source_voltage: 50 mV", "max_source_voltage: 50 mX",
+		"  name: Demo line", "  nmae: Demo line")
+	badLimits := edit("brx200-limits.yaml", "product: BRX-200", "product: BRX-300")
+	badSequence := edit("brx200-sequence.yaml", "limits: brx200-limits.yaml", "limits: "+filepath.Base(badLimits))
+	code, out, _ = runCLIAt(t, now, "check", badStation, badSequence)
+	for _, want := range []string{
+		`bad-brx200-station.yaml:10:7: id "TL 3" cannot stand in certificate numbers and file names`,
+		`bad-brx200-station.yaml:11:3: unknown field "nmae"`,
+		`bad-brx200-station.yaml:18:14: the calibration of the source STD-0117 ran out on 2030-05-31`,
+		`bad-brx200-station.yaml:26:14: warning: the calibration of the meter DMM-0203 runs out in 10 days`,
+		`bad-brx200-station.yaml:42:23: unknown unit "mX"`,
+		`bad-brx200-station.yaml:50:8: cannot use the signing key`,
+		`bad-brx200-sequence.yaml:10:9: the limit file bad-brx200-limits.yaml is for product "BRX-300"`,
+		"1 warning(s)", "6 problem(s)",
+	} {
+		if !strings.Contains(out, want) {
+			t.Errorf("missing %q", want)
+		}
+	}
+	if code != exitUsage || t.Failed() {
+		t.Fatalf("exit %d, want 2:\n%s", code, out)
+	}
+
+	// A sweep outside the source's rating (the cap raised with it, so only the
+	// rating and the cap speak).
+	wide := edit("brx200-station.yaml", "voltage: 100 mV", "voltage: 8 mV", "max_source_voltage: 50 mV", "max_source_voltage: 8 mV")
+	code, out, _ = runCLIAt(t, now, "check", wide, sequence)
+	if code != exitUsage || !strings.Contains(out, "brx200-sequence.yaml:") || !strings.Contains(out, "outside the source's own rating of ±8 mV") {
+		t.Fatalf("sweep outside the rating: exit %d\n%s", code, out)
+	}
+}
+
+// Swapping --station and --sequence says which kind of file was given.
+func TestRunSaysWhichKindOfFileWasGiven(t *testing.T) {
+	dir := t.TempDir()
+	station, sequence, err := writeDemoFiles(dir, 1, testNow())
+	if err != nil {
+		t.Fatal(err)
+	}
+	code, _, errOut := runCLI(t, "run", "--station", sequence, "--sequence", station, "--serial", "BRX-00001", "--out", dir)
+	if code != exitUsage || !strings.Contains(errOut, "brx200-sequence.yaml:2:1: this is a sequence file (top-level key sequence:), but a station file") ||
+		!strings.Contains(errOut, "brx200-station.yaml:9:1: this is a station file (top-level key station:), but a sequence file") {
+		t.Fatalf("exit %d, want 2 naming both kinds:\n%s", code, errOut)
+	}
+}

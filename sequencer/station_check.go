@@ -1,0 +1,59 @@
+package sequencer
+
+// Checks of a loaded station file that depend on more than the file: the date.
+
+import (
+	"fmt"
+	"time"
+
+	"trimline/instruments/files"
+)
+
+// CalWarnDays is how many days ahead CheckCalibration warns of a calibration that
+// runs out.
+const CalWarnDays = 14
+
+// Errorf returns a problem positioned at path in the station file (a YAML path
+// such as "$.signing.key"), for checks made after loading; a Station not loaded
+// from a file gives the file name alone.
+func (s *Station) Errorf(path, format string, args ...any) *files.Error {
+	if s.doc == nil {
+		return &files.Error{File: s.File.Name, Msg: fmt.Sprintf(format, args...)}
+	}
+	return s.doc.Errorf(path, format, args...)
+}
+
+// CheckCalibration reports, positioned at each cal_due in the station file and in
+// role order, every instrument whose calibration has run out at now (an error: the
+// engine refuses to run past the last day of cal_due) or runs out within
+// CalWarnDays days (a warning, Warning set). Days are UTC calendar days, as cal_due
+// is read.
+func (s *Station) CheckCalibration(now time.Time) files.List {
+	var out files.List
+	today := now.UTC().Truncate(24 * time.Hour)
+	for _, r := range Roles {
+		si, ok := s.Instruments[r]
+		if !ok || si.CalDue.IsZero() {
+			continue
+		}
+		due := si.CalDue.Format("2006-01-02")
+		path := "$.instruments." + r + ".cal_due"
+		left := int(si.CalDue.Sub(today).Hours() / 24)
+		switch {
+		case now.After(si.CalDue.AddDate(0, 0, 1)):
+			out = append(out, s.Errorf(path, "the calibration of the %s %s ran out on %s: the engine refuses to run; recalibrate it and update cal_due", r, si.Asset, due))
+		case left <= CalWarnDays:
+			when := fmt.Sprintf("in %d days", left)
+			switch left {
+			case 0:
+				when = "today"
+			case 1:
+				when = "tomorrow"
+			}
+			e := s.Errorf(path, "the calibration of the %s %s runs out %s (cal_due %s): plan its recalibration; the engine refuses to run after that day", r, si.Asset, when, due)
+			e.Warning = true
+			out = append(out, e)
+		}
+	}
+	return out
+}
