@@ -81,7 +81,7 @@ func TestKillNineCrashSafety(t *testing.T) {
 	station, sequence := writeReleasedDemo(t, dir, 1)
 	serials := make([]string, 40)
 	for i := range serials {
-		serials[i] = fmt.Sprintf("--serial K-%05d", i)
+		serials[i] = fmt.Sprintf("--serial BRX-9%04d", i)
 	}
 	rng := rand.New(rand.NewPCG(7, 11))
 	ledgerPath := filepath.Join(dir, "ledger.db")
@@ -116,7 +116,7 @@ func TestKillNineCrashSafety(t *testing.T) {
 		led.Close()
 	}
 	// A clean start repairs what the kills left half done.
-	code, out, errOut := runCLI(t, "run", "--station", station, "--sequence", sequence, "--out", dir, "--serial", "K-99999")
+	code, out, errOut := runCLI(t, "run", "--station", station, "--sequence", sequence, "--out", dir, "--serial", "BRX-99999")
 	if code != 0 && code != exitFail {
 		t.Fatalf("restart: exit %d\n%s%s", code, out, errOut)
 	}

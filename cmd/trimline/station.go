@@ -83,6 +83,10 @@ func runBatch(ctx context.Context, e *env, b batch) (*sequencer.Tally, error) {
 	if err != nil {
 		return nil, err
 	}
+	// Every serial is checked before anything is opened, written or recorded.
+	if err := seq.CheckSerials(b.serials); err != nil {
+		return nil, err
+	}
 	out := b.out
 	if out == "" {
 		out = st.OutputFolder
