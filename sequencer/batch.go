@@ -26,13 +26,18 @@ type Tally struct {
 	Skipped []string  // serials not run because the batch was stopped
 }
 
-// RunBatch runs the units of serials in order. Between units it checks ctx: once
-// it is cancelled the rest are not run but listed in the tally's Skipped. After
-// each unit it calls done with the unit's index and record (to store, publish and
-// show it); an error from done ends the batch with that error, and that unit is
-// not counted.
+// RunBatch runs the units of serials in order. First it checks every serial
+// against the sequence's serial rule (Sequence.CheckSerials): if any is refused,
+// no unit runs, no instrument is touched and the error wraps ErrBadSerial. Between
+// units it checks ctx: once it is cancelled the rest are not run but listed in the
+// tally's Skipped. After each unit it calls done with the unit's index and record
+// (to store, publish and show it); an error from done ends the batch with that
+// error, and that unit is not counted.
 func (e *Engine) RunBatch(ctx context.Context, serials []string, done func(i int, rec *Record) error) (*Tally, error) {
 	t := &Tally{}
+	if err := e.cfg.Sequence.CheckSerials(serials); err != nil {
+		return t, err
+	}
 	for i, sn := range serials {
 		if ctx.Err() != nil {
 			t.Skipped = serials[i:]

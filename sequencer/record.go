@@ -97,9 +97,13 @@ type Record struct {
 	Verdict Verdict `json:"verdict"` // PASS, FAIL, REVIEW, FAULT or ABORTED
 	// Engineering marks a run made with files that were never released: its
 	// certificate says so in large letters and comes from a number series of its own.
-	Engineering bool     `json:"engineering,omitempty"`
-	Reasons     []string `json:"reasons,omitempty"` // why the verdict is not PASS, in order
-	Fault       string   `json:"fault,omitempty"`   // the station fault message, for FAULT and ABORTED
+	Engineering bool `json:"engineering,omitempty"`
+	// RetestOf is the run id of the earlier measured run (PASS, FAIL or REVIEW) of
+	// the same serial that this run repeats, "" for a first test. The ledger
+	// supersedes that run's certificate when this run is certified.
+	RetestOf string   `json:"retest_of,omitempty"`
+	Reasons  []string `json:"reasons,omitempty"` // why the verdict is not PASS, in order
+	Fault    string   `json:"fault,omitempty"`   // the station fault message, for FAULT and ABORTED
 }
 
 // FileRef names one input file and the SHA-256 of its exact bytes.

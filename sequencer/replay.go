@@ -27,7 +27,7 @@ func Replay(cfg Config, stored *Record) (*Record, error) {
 		Station: stored.Station, Operator: stored.Operator, Software: stored.Software,
 		Started: stored.Started, Finished: stored.Finished, Files: stored.Files, Instruments: stored.Instruments,
 		IdealGain: seq.IdealGain, IdealOffset: seq.IdealOffset, FullScale: seq.FullScale,
-		Conditions: stored.Conditions, Coverage: e.coverage(), Engineering: stored.Engineering,
+		Conditions: stored.Conditions, Coverage: e.coverage(), Engineering: stored.Engineering, RetestOf: stored.RetestOf,
 	}
 	resweep := func(s Sweep) Sweep {
 		out := Sweep{Name: s.Name}

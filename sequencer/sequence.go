@@ -5,6 +5,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"regexp"
 	"strings"
 	"time"
 
@@ -30,6 +31,11 @@ type Sequence struct {
 	Meter   MeterPlan
 	Trim    TrimPlan
 	DUT     DUTPlan
+
+	// SerialPattern is the sequence file's serial_pattern as written, matched
+	// against the whole serial ("" = DefaultSerialPattern); CheckSerial applies it.
+	SerialPattern string
+	serialRE      *regexp.Regexp
 
 	// Uncertainty selects how the fits' uncertainties are evaluated: "gum" (the law
 	// of propagation, JCGM 100) or "monte_carlo" (JCGM 101, MCTrials trials).
@@ -160,6 +166,7 @@ type sequenceFile struct {
 	Requires      []string `yaml:"requires"`
 	Limits        string   `yaml:"limits"`
 	LimitsVariant string   `yaml:"limits_variant"`
+	SerialPattern *string  `yaml:"serial_pattern"`
 	Ideal         struct {
 		Gain      *float64       `yaml:"gain"`
 		Offset    *units.Voltage `yaml:"offset"`
@@ -290,6 +297,7 @@ func ParseSequence(name string, data []byte, read func(path string) ([]byte, err
 	}
 	s.Trim.Store = f.Trim.Store
 	s.DUT = DUTPlan{SerialQuery: f.DUT.SerialQuery, FirmwareQuery: f.DUT.FirmwareQuery}
+	serialPattern(doc, s, f.SerialPattern, &errs)
 	switch s.Uncertainty, s.MCTrials = f.Uncertainty.Method, f.Uncertainty.Trials; s.Uncertainty {
 	case "":
 		s.Uncertainty = "gum"

@@ -81,14 +81,14 @@ func TestKillNineCrashSafety(t *testing.T) {
 	station, sequence := writeReleasedDemo(t, dir, 1)
 	serials := make([]string, 40)
 	for i := range serials {
-		serials[i] = fmt.Sprintf("--serial K-%05d", i)
+		serials[i] = fmt.Sprintf("--serial BRX-9%04d", i)
 	}
 	rng := rand.New(rand.NewPCG(7, 11))
 	ledgerPath := filepath.Join(dir, "ledger.db")
 	for kill := 0; kill < 50; kill++ {
 		cmd := exec.Command(os.Args[0], "-test.run=^$")
 		cmd.Env = append(os.Environ(), "TRIMLINE_AS_MAIN=1",
-			"TRIMLINE_ARGS=run --station "+station+" --sequence "+sequence+" --out "+dir+" "+strings.Join(serials, " "))
+			"TRIMLINE_ARGS=run --retest --station "+station+" --sequence "+sequence+" --out "+dir+" "+strings.Join(serials, " "))
 		var out bytes.Buffer
 		cmd.Stdout, cmd.Stderr = &out, &out
 		if err := cmd.Start(); err != nil {
@@ -116,7 +116,7 @@ func TestKillNineCrashSafety(t *testing.T) {
 		led.Close()
 	}
 	// A clean start repairs what the kills left half done.
-	code, out, errOut := runCLI(t, "run", "--station", station, "--sequence", sequence, "--out", dir, "--serial", "K-99999")
+	code, out, errOut := runCLI(t, "run", "--station", station, "--sequence", sequence, "--out", dir, "--serial", "BRX-99999")
 	if code != 0 && code != exitFail {
 		t.Fatalf("restart: exit %d\n%s%s", code, out, errOut)
 	}
@@ -136,8 +136,33 @@ func TestKillNineCrashSafety(t *testing.T) {
 	pdfs := mustGlob(t, filepath.Join(dir, "certificates", "*.pdf"))
 	for i := 0; i < 10 && len(pdfs) > 0; i++ {
 		p := pdfs[rng.IntN(len(pdfs))]
-		if code, out, _ := runCLI(t, "audit", "verify", "--ledger", ledgerPath, p); code != 0 {
+		// Each kill's next start retests the same serials: earlier certificates are
+		// superseded, still authentic.
+		if code, out, _ := runCLI(t, "audit", "verify", "--ledger", ledgerPath, p); code != 0 && !strings.HasPrefix(out, "SUPERSEDED") {
 			t.Errorf("%s after crashes: %s", p, out)
+		}
+	}
+	// However the kills fell, no serial holds two current certificates.
+	runs, err := led.Runs(context.Background(), "")
+	if err != nil {
+		t.Fatal(err)
+	}
+	current := map[string][]string{}
+	for _, r := range runs {
+		if r.Certificate == "" {
+			continue
+		}
+		st, err := led.CertificateStatus(context.Background(), r.Certificate)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if st.Current() {
+			current[r.Serial] = append(current[r.Serial], r.Certificate)
+		}
+	}
+	for sn, certs := range current {
+		if len(certs) > 1 {
+			t.Errorf("%s holds %d current certificates: %v", sn, len(certs), certs)
 		}
 	}
 }

@@ -27,10 +27,12 @@ func newAuditVerifyCmd() *command {
 	c := &command{
 		UsageLine: "trimline audit verify FILE.pdf [--ledger DB] [--keys DIR] [--no-ledger]",
 		Short:     "tell whether a certificate PDF is genuine, altered or unknown",
-		Long: `Says genuine, altered, unknown or voided, with the reason: the PDF's hash against
-the ledger's document and its signature, the record's signature and the ledger's
-hash chain, or, without a ledger, the seal beside the PDF (FILE.pdf.seal). Exit 0
-only for genuine.`,
+		Long: `Says genuine, altered, unknown, voided or superseded, with the reason: the PDF's
+hash against the ledger's document and its signature, the record's signature and
+the ledger's hash chain, or, without a ledger, the seal beside the PDF
+(FILE.pdf.seal). Superseded is an authentic certificate that is no longer current:
+a certified retest of the same serial replaced it ("superseded by NUMBER"). Exit 0
+only for genuine (current); 1 for altered, unknown, voided and superseded.`,
 	}
 	a := newAuditor(c)
 	c.Flag.BoolVar(&a.noLedger, "no-ledger", false, "verify from the seal beside the PDF and the trusted keys alone")

@@ -23,7 +23,7 @@ import (
 
 func newDemoCmd() *command {
 	c := &command{
-		UsageLine: "trimline demo [--out DIR] [--units N] [--seed S] [--transport sim|tcp|serial]",
+		UsageLine: "trimline demo [--out DIR] [--units N] [--seed S] [--transport sim|tcp|serial] [--retest]",
 		Short:     "write the demo files and trim N simulated units end to end",
 		Long: `Writes the demo station, sequence and limit files for the BRX-200 bridge amplifier
 card (an invented product) into DIR, then runs N simulated units through the whole
@@ -33,7 +33,9 @@ carry a real defect (a stuck trim-DAC bit, excess noise, an open output); the de
 seed's first 25 units include two, so the demo shows how failures look.
 
 Afterwards DIR holds the three files, certificates/*.pdf, ledger.db (SQLite) and
-trimline.log (JSON lines). Rerun with the same --seed for the same units.
+trimline.log (JSON lines). Rerun with the same --seed for the same units. The units
+are BRX-00001 onwards; into a folder whose ledger has them already, run again with
+--retest (each retest supersedes the unit's earlier certificate) or use a new --out.
 
 With --transport tcp or serial the same units run through the real SCPI and
 trim-port drivers against the simulator served on loopback TCP ports or
@@ -46,6 +48,7 @@ unit takes a few seconds, as it would on a real bench.`,
 	transport := c.Flag.String("transport", "sim", "`how` to reach the simulated bench: sim (in process), tcp or serial")
 	operator := c.Flag.String("operator", defaultOperator(), "operator `name` printed on certificates")
 	ambient := c.Flag.String("ambient", "", "ambient `temperature` to record on every run, e.g. \"23.1 °C\" or 23.1degC")
+	retest := c.Flag.Bool("retest", false, "run units the folder's ledger has already tested again, as retests")
 	c.Run = func(ctx context.Context, e *env, args []string) error {
 		if len(args) > 0 {
 			return usagef("unexpected argument %q", args[0])
@@ -88,7 +91,7 @@ unit takes a few seconds, as it would on a real bench.`,
 			serials[i] = fmt.Sprintf("BRX-%05d", i+1)
 		}
 		t, err := runBatch(ctx, e, batch{stationPath: station, sequencePath: sequence, serials: serials, out: *out,
-			operator: *operator, ambient: *ambient})
+			operator: *operator, ambient: *ambient, retest: *retest})
 		if err != nil {
 			return err
 		}

@@ -7,7 +7,7 @@ import (
 
 func newRunCmd() *command {
 	c := &command{
-		UsageLine: "trimline run --station FILE --sequence FILE --serial SN [--serial SN ...] [--out DIR] [--operator NAME] [--json]",
+		UsageLine: "trimline run --station FILE --sequence FILE --serial SN [--serial SN ...] [--retest] [--out DIR] [--operator NAME] [--json]",
 		Short:     "trim and certify units on a station (the production command)",
 		Long: `Runs the sequence once per serial number, in order: pre-trim sweep, fit, trim
 codes written, read back and stored, verification sweep, limits judged. Each run is
@@ -15,8 +15,15 @@ recorded in the ledger (DIR/ledger.db); a PASS, FAIL or REVIEW run gets a
 certificate number and a PDF in DIR/certificates. With sim:// addresses in the
 station file the units run on the simulated bench.
 
+Every serial must match the sequence file's serial_pattern; a serial that already
+has a measured run (PASS, FAIL or REVIEW; engineering runs count among engineering
+runs only) is refused unless --retest is given. A retest is linked to the earlier
+run, and when it is certified the earlier certificate is superseded. Both checks
+happen before any instrument is touched.
+
 Exit code: 0 every unit passed, 1 a unit failed or was held for review, 2 bad input
-(including files that were never released), 3 station fault or a stopped batch.`,
+(including files that were never released, a refused serial and a serial tested
+before without --retest), 3 station fault or a stopped batch.`,
 	}
 	station := c.Flag.String("station", "", "station `file` (what is on this bench)")
 	sequence := c.Flag.String("sequence", "", "sequence `file` (how the product is trimmed)")
@@ -26,6 +33,7 @@ Exit code: 0 every unit passed, 1 a unit failed or was held for review, 2 bad in
 	operator := c.Flag.String("operator", defaultOperator(), "operator `name` printed on certificates")
 	ambient := c.Flag.String("ambient", "", "ambient `temperature` to record on every run, e.g. \"23.1 °C\" or 23.1degC")
 	asJSON := c.Flag.Bool("json", false, "print one JSON object per unit instead of a live line")
+	retest := c.Flag.Bool("retest", false, "run serials that already have a measured run again; each retest links to the earlier run and supersedes its certificate")
 	engineering := c.Flag.Bool("engineering", false, "run files that were never released; certificates are marked ENGINEERING RUN — NOT FOR SHIPMENT and numbered apart")
 	c.Run = func(ctx context.Context, e *env, args []string) error {
 		if *station == "" || *sequence == "" || len(serials) == 0 {
@@ -35,7 +43,7 @@ Exit code: 0 every unit passed, 1 a unit failed or was held for review, 2 bad in
 			return usagef("unexpected argument %q", args[0])
 		}
 		t, err := runBatch(ctx, e, batch{stationPath: *station, sequencePath: *sequence, serials: serials, out: *out,
-			operator: *operator, ambient: *ambient, engineering: *engineering, json: *asJSON})
+			operator: *operator, ambient: *ambient, engineering: *engineering, retest: *retest, json: *asJSON})
 		if err != nil {
 			return err
 		}

@@ -219,16 +219,16 @@ func TestReleaseAndEngineeringRuns(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	code, _, errOut := runCLI(t, "run", "--station", station, "--sequence", sequence, "--serial", "R-1", "--out", dir)
+	code, _, errOut := runCLI(t, "run", "--station", station, "--sequence", sequence, "--serial", "BRX-00011", "--out", dir)
 	if code != exitUsage || !strings.Contains(errOut, "not released by a trusted approver") {
 		t.Fatalf("unreleased: exit %d %s", code, errOut)
 	}
-	code, out, errOut := runCLI(t, "run", "--engineering", "--station", station, "--sequence", sequence, "--serial", "R-2", "--out", dir)
+	code, out, errOut := runCLI(t, "run", "--engineering", "--station", station, "--sequence", sequence, "--serial", "BRX-00012", "--out", dir)
 	if code != 0 || !strings.Contains(out, "TL1-ENG-000001") {
 		t.Fatalf("engineering: exit %d\n%s%s", code, out, errOut)
 	}
 	if _, err := exec.LookPath("pdftotext"); err == nil {
-		txt, _ := exec.Command("pdftotext", filepath.Join(dir, "certificates", "TL1-ENG-000001_R-2.pdf"), "-").Output()
+		txt, _ := exec.Command("pdftotext", filepath.Join(dir, "certificates", "TL1-ENG-000001_BRX-00012.pdf"), "-").Output()
 		if !bytes.Contains(txt, []byte("ENGINEERING RUN — NOT FOR SHIPMENT")) {
 			t.Error("engineering certificate is not marked")
 		}
@@ -238,7 +238,7 @@ func TestReleaseAndEngineeringRuns(t *testing.T) {
 		if code, out, _ := runCLI(t, "limits", "release", f, "--by", "anyone", "--meaning", "approved", "--station", station); code != 0 || !strings.Contains(out, "unsigned") {
 			t.Fatalf("unsigned release: exit %d\n%s", code, out)
 		}
-		if code, _, errOut := runCLI(t, "run", "--station", station, "--sequence", sequence, "--serial", "R-X"); code != exitUsage || !strings.Contains(errOut, "trusted approver") {
+		if code, _, errOut := runCLI(t, "run", "--station", station, "--sequence", sequence, "--serial", "BRX-00019"); code != exitUsage || !strings.Contains(errOut, "trusted approver") {
 			t.Fatalf("an unsigned release let production run: exit %d %s", code, errOut)
 		}
 		code, out, errOut := runCLI(t, "limits", "release", f, "--by", "A. Quality", "--meaning", "approved", "--station", station,
@@ -248,7 +248,7 @@ func TestReleaseAndEngineeringRuns(t *testing.T) {
 		}
 	}
 	// The station file's output folder is dir/out; production uses that ledger.
-	code, out, errOut = runCLI(t, "run", "--station", station, "--sequence", sequence, "--serial", "R-3")
+	code, out, errOut = runCLI(t, "run", "--station", station, "--sequence", sequence, "--serial", "BRX-00013")
 	if code != 0 || !strings.Contains(out, "TL1-000001") {
 		t.Fatalf("released: exit %d\n%s%s", code, out, errOut)
 	}

@@ -41,7 +41,7 @@ func TestSignalDuringSweep(t *testing.T) {
       time: real`), 1), 0o644)
 			cmd := exec.Command(os.Args[0], "-test.run=^$")
 			cmd.Env = append(os.Environ(), "TRIMLINE_AS_MAIN=1",
-				"TRIMLINE_ARGS=run --station "+station+" --sequence "+sequence+" --serial SIG-1 --serial SIG-2 --out "+dir)
+				"TRIMLINE_ARGS=run --station "+station+" --sequence "+sequence+" --serial BRX-00101 --serial BRX-00102 --out "+dir)
 			var out bytes.Buffer
 			cmd.Stdout, cmd.Stderr = &out, &out
 			if err := cmd.Start(); err != nil {

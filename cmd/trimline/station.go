@@ -31,6 +31,7 @@ type batch struct {
 	operator                  string
 	ambient                   string // entered ambient temperature, e.g. "23.1 °C"; "" = not recorded
 	engineering               bool   // run unreleased files; certificates are marked and numbered apart
+	retest                    bool   // serials with an earlier measured run may run again (and supersede its certificate)
 	json                      bool   // one JSON object per unit on stdout instead of live lines
 }
 
@@ -83,6 +84,10 @@ func runBatch(ctx context.Context, e *env, b batch) (*sequencer.Tally, error) {
 	if err != nil {
 		return nil, err
 	}
+	// Every serial is checked before anything is opened, written or recorded.
+	if err := seq.CheckSerials(b.serials); err != nil {
+		return nil, err
+	}
 	out := b.out
 	if out == "" {
 		out = st.OutputFolder
@@ -115,7 +120,12 @@ func runBatch(ctx context.Context, e *env, b batch) (*sequencer.Tally, error) {
 		// Engineering certificates come from a number series of their own.
 		st.CertificatePrefix += "-ENG"
 	}
-	is := &issuing.Issuer{Ledger: led, Station: st, Sequence: seq, CertDir: filepath.Join(out, "certificates")}
+	is := &issuing.Issuer{Ledger: led, Station: st, Sequence: seq, CertDir: filepath.Join(out, "certificates"), Engineering: b.engineering}
+	// A serial tested before runs again only as a retest: refused before anything
+	// is touched or recorded.
+	if err := is.CheckRetests(ctx, b.serials, b.retest); err != nil {
+		return nil, err
+	}
 	if st.SigningKey != "" {
 		if is.Key, err = signing.Load(st.SigningKey); err != nil {
 			return nil, badInput(fmt.Errorf("%s signing.key: %w", st.File.Name, err))

@@ -27,6 +27,9 @@ const (
 	Altered = "altered"
 	Unknown = "unknown" // not issued by this ledger, or signed by a key not trusted
 	Voided  = "voided"
+	// Superseded: a genuine certificate that is no longer current, because a
+	// certified retest of the same serial replaced it.
+	Superseded = "superseded"
 )
 
 // Verdict is the outcome of verifying a certificate: its kind and the reasons,
@@ -49,7 +52,7 @@ func Verifier(keys Keys) func(keyID string, msg, sig []byte) bool {
 // Certificate verifies pdf, the contents of the file at path. With a ledger (led,
 // named ledgerName in the reasons) it checks the PDF's hash against the ledger's
 // document and its signature, the record's signature, the station's hash chain
-// and whether the certificate was voided; with led nil it checks the seal beside
+// and whether the certificate was voided or superseded by a retest; with led nil it checks the seal beside
 // the file (path + ".seal") with the trusted keys alone. The error is the
 // ledger's, when it could not be read.
 func Certificate(ctx context.Context, led *ledger.Ledger, ledgerName, path string, pdf []byte, keys Keys) (Verdict, error) {
@@ -109,8 +112,16 @@ func Certificate(ctx context.Context, led *ledger.Ledger, ledgerName, path strin
 		return verdict(Altered, append(why, "the ledger's chain is broken: "+rep.Reason)...), nil
 	}
 	why = append(why, fmt.Sprintf("station %s chain verifies (%d runs)", rec.Station, rep.Runs))
-	if st, err := led.CertificateStatus(ctx, doc.Number); err == nil && st.Voided {
+	st, err := led.CertificateStatus(ctx, doc.Number)
+	if err != nil {
+		return Verdict{}, err
+	}
+	if st.Voided {
 		return verdict(Voided, append(why, fmt.Sprintf("VOIDED by %s on %s: %s", st.VoidedBy, st.VoidedAt.UTC().Format("2006-01-02 15:04 UTC"), st.VoidReason))...), nil
+	}
+	if st.Superseded {
+		return verdict(Superseded, append(why, fmt.Sprintf("superseded by %s: serial %s was retested on %s (run %s); this certificate is no longer current",
+			st.SupersededBy, rec.Serial, st.SupersededAt.UTC().Format("2006-01-02 15:04 UTC"), st.SupersededByRun))...), nil
 	}
 	return verdict(Genuine, why...), nil
 }

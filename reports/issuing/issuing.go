@@ -11,6 +11,7 @@ import (
 	"context"
 	"crypto/sha256"
 	"encoding/hex"
+	"errors"
 	"fmt"
 	"os"
 	"path/filepath"
@@ -29,11 +30,90 @@ type Issuer struct {
 	Station  *sequencer.Station
 	Sequence *sequencer.Sequence
 	CertDir  string // folder the certificates are written to
+	// Engineering: the batch runs unreleased files; its serials are checked
+	// against the earlier engineering runs only (CheckRetests).
+	Engineering bool
+}
+
+// ErrTestedBefore is what CheckRetests' refusals wrap: a serial that already has
+// a measured run in the ledger, given without permission to retest it. It is bad
+// input (exit 2), found before any instrument is touched.
+var ErrTestedBefore = errors.New("serial already tested")
+
+// TestedBeforeError is one refused serial and its newest measured run.
+type TestedBeforeError struct {
+	Serial      string
+	Earlier     ledger.RunSummary // the newest PASS, FAIL or REVIEW run of Serial
+	Engineering bool              // counted among the engineering runs
+	InBatch     bool              // the serial is given twice in one batch (Earlier is zero)
+}
+
+func (e *TestedBeforeError) Error() string {
+	if e.InBatch {
+		return fmt.Sprintf("serial %s is given twice in this batch: the second run would be a retest; give --retest to run it again", e.Serial)
+	}
+	kind := "a recorded run"
+	if e.Engineering {
+		kind = "a recorded engineering run"
+	}
+	what := "no certificate"
+	if e.Earlier.Certificate != "" {
+		what = "certificate " + e.Earlier.Certificate
+	}
+	return fmt.Sprintf("serial %s already has %s: run %s, %s, %s, %s; give --retest to test it again (a certified retest supersedes the earlier certificate)",
+		e.Serial, kind, e.Earlier.RunID, e.Earlier.Verdict, what, e.Earlier.Finished.Format("2006-01-02 15:04 UTC"))
+}
+
+// Unwrap returns ErrTestedBefore.
+func (e *TestedBeforeError) Unwrap() error { return ErrTestedBefore }
+
+// CheckRetests refuses, before a batch starts, every serial that already has a
+// measured run (PASS, FAIL or REVIEW; engineering runs counted among engineering
+// runs only) and every serial given twice, unless retest is true. The error joins
+// one *TestedBeforeError per refused serial; nil when all may run. A ledger
+// failure is returned as it is.
+func (is *Issuer) CheckRetests(ctx context.Context, serials []string, retest bool) error {
+	if retest {
+		return nil
+	}
+	var errs []error
+	seen := map[string]bool{}
+	for _, sn := range serials {
+		if seen[sn] {
+			errs = append(errs, &TestedBeforeError{Serial: sn, Engineering: is.Engineering, InBatch: true})
+			continue
+		}
+		seen[sn] = true
+		run, ok, err := is.Ledger.LastMeasuredRun(ctx, sn, is.Engineering)
+		if err != nil {
+			return err
+		}
+		if ok {
+			errs = append(errs, &TestedBeforeError{Serial: sn, Earlier: run, Engineering: is.Engineering})
+		}
+	}
+	return errors.Join(errs...)
 }
 
 // Record stores rec and, for a certified verdict, publishes its certificate. It
 // returns the certificate number ("" for runs that get none).
+//
+// When the serial already has a measured run (ledger.LastMeasuredRun, among the
+// engineering runs for an engineering record) Record links rec to it
+// (rec.RetestOf) before it is hashed and signed; the ledger then supersedes that
+// run's certificate if rec is certified. CheckRetests decides beforehand whether a
+// retest may run at all; Record links whatever ran, so that a serial never holds
+// two current certificates.
 func (is *Issuer) Record(ctx context.Context, rec *sequencer.Record) (string, error) {
+	if rec.RetestOf == "" && rec.Serial != "" {
+		earlier, ok, err := is.Ledger.LastMeasuredRun(ctx, rec.Serial, rec.Engineering)
+		if err != nil {
+			return "", err
+		}
+		if ok {
+			rec.RetestOf = earlier.RunID
+		}
+	}
 	var keyID string
 	var sig []byte
 	st, seq := is.Station, is.Sequence

@@ -33,6 +33,9 @@ const (
 	ActionCreate = "create" // RecordRunWith: subject is the run id
 	ActionIssue  = "issue"  // AddSignedDocument: subject is the certificate number
 	ActionVoid   = "void"   // VoidCertificate: subject is the certificate number
+	// ActionSupersede: RecordRunWith, for a certified retest of a certified run;
+	// subject is the superseded (older) certificate number.
+	ActionSupersede = "supersede"
 )
 
 // AuditEntry is one entry of the audit trail.
@@ -61,6 +64,7 @@ type createDetail struct {
 	ChainHash    string   `json:"chain_hash"`
 	Blobs        []string `json:"blobs,omitempty"` // SHA-256 of the file contents stored with the run
 	Note         string   `json:"note,omitempty"`
+	RetestOf     string   `json:"retest_of,omitempty"` // the earlier run a retest repeats`
 }
 
 // issueDetail is the detail of an "issue" entry: everything of the document row.
@@ -73,6 +77,15 @@ type issueDetail struct {
 	Signature string `json:"signature,omitempty"` // hex
 	CreatedAt string `json:"created_at"`
 	Note      string `json:"note,omitempty"`
+}
+
+// supersedeDetail is the detail of a "supersede" entry: the run whose certificate
+// (the entry's subject) is superseded, and the retest and certificate that
+// supersede it.
+type supersedeDetail struct {
+	RunID         string `json:"run_id"`
+	ByRunID       string `json:"by_run_id"`
+	ByCertificate string `json:"by_certificate"`
 }
 
 // voidDetail is the detail of a "void" entry.
@@ -125,12 +138,12 @@ func appendAudit(ctx context.Context, tx *sql.Tx, at, actor, action, subject, de
 // file released, a key rotated, a user signed in, ...): who (actor), what (action),
 // on which record (subject) and any detail, stamped with l.Now(). Errors (wrapped):
 // ErrInvalid for an empty actor or action, or one of the ledger's own actions
-// (create, issue, void), which only its methods write.
+// (create, issue, void, supersede), which only its methods write.
 func (l *Ledger) Audit(ctx context.Context, actor, action, subject, detail string) error {
 	switch action {
 	case "":
 		return fmt.Errorf("ledger: audit: empty action: %w", ErrInvalid)
-	case ActionCreate, ActionIssue, ActionVoid:
+	case ActionCreate, ActionIssue, ActionVoid, ActionSupersede:
 		return fmt.Errorf("ledger: audit: action %q is the ledger's own: %w", action, ErrInvalid)
 	}
 	if actor == "" {
@@ -211,14 +224,24 @@ func (l *Ledger) VoidCertificate(ctx context.Context, number, actor, reason stri
 	return nil
 }
 
-// Status is a certificate's status, as the audit trail has it.
+// Status is a certificate's status, as the audit trail has it. A certificate is
+// current when it is neither voided nor superseded.
 type Status struct {
 	Number, RunID string
 	Voided        bool
 	VoidReason    string    // "" unless Voided
 	VoidedBy      string    // the actor of the void entry
 	VoidedAt      time.Time // UTC; zero unless Voided
+	// Superseded: a certified retest of the same serial replaced the certificate;
+	// SupersededBy is the retest's certificate number, SupersededByRun its run id.
+	Superseded      bool
+	SupersededBy    string
+	SupersededByRun string
+	SupersededAt    time.Time // UTC; zero unless Superseded
 }
+
+// Current reports whether the certificate is neither voided nor superseded.
+func (s Status) Current() bool { return !s.Voided && !s.Superseded }
 
 // CertificateStatus returns the status of certificate number. ErrNotFound (wrapped)
 // for a number no run has.
@@ -230,6 +253,15 @@ func (l *Ledger) CertificateStatus(ctx context.Context, number string) (Status, 
 			return err
 		}
 		st = Status{Number: number, RunID: runID}
+		if e, ok, err := firstEntry(ctx, tx, number, ActionSupersede); err != nil {
+			return err
+		} else if ok {
+			var d supersedeDetail
+			if err := json.Unmarshal([]byte(e.Detail), &d); err != nil {
+				return fmt.Errorf("audit trail entry %d: detail: %v: %w", e.Seq, err, ErrCorrupt)
+			}
+			st.Superseded, st.SupersededBy, st.SupersededByRun, st.SupersededAt = true, d.ByCertificate, d.ByRunID, e.At
+		}
 		e, voided, err := voidEntry(ctx, tx, number)
 		if err != nil || !voided {
 			return err
@@ -259,11 +291,16 @@ func runOfCertificate(ctx context.Context, q querier, number string) (string, er
 
 // voidEntry returns the first void entry of certificate number, if any.
 func voidEntry(ctx context.Context, q querier, number string) (AuditEntry, bool, error) {
-	e := AuditEntry{Subject: number, Action: ActionVoid}
+	return firstEntry(ctx, q, number, ActionVoid)
+}
+
+// firstEntry returns the first audit trail entry of action about subject, if any.
+func firstEntry(ctx context.Context, q querier, subject, action string) (AuditEntry, bool, error) {
+	e := AuditEntry{Subject: subject, Action: action}
 	var at string
 	err := q.QueryRowContext(ctx, `
 		SELECT seq, at, actor, detail, prev_hash, hash FROM audit_trail WHERE subject = ? AND action = ? ORDER BY seq LIMIT 1`,
-		number, ActionVoid).Scan(&e.Seq, &at, &e.Actor, &e.Detail, &e.PrevHash, &e.Hash)
+		subject, action).Scan(&e.Seq, &at, &e.Actor, &e.Detail, &e.PrevHash, &e.Hash)
 	if errors.Is(err, sql.ErrNoRows) {
 		return AuditEntry{}, false, nil
 	}

@@ -112,14 +112,16 @@ var appendOnlyTriggers = []string{
 //  4. the runs of station (every station when station is ""), station by station in
 //     chain order: record_json hashes to record_sha256; the run's columns (run id,
 //     serial, product, revision, station, operator, software, times, verdict,
-//     reasons, fault) are those of its record; chain_seq counts 1, 2, 3, ...;
+//     reasons, fault, retest_of) are those of its record; chain_seq counts 1, 2, 3, ...;
 //     chain_prev is the previous run's chain_hash ("" for the first) and chain_hash
 //     recomputes; the signature (opts' Verify and RequireSignatures); the run's
 //     create entry in the trail agrees with the row, and the blobs it names exist;
 //  5. every create entry (of station, if given) has its run;
 //  6. certificate numbers, all prefixes: each well formed, none twice, and every
 //     prefix's numbers exactly 1 … its sequence's last, without gaps; every void
-//     entry names an existing certificate;
+//     entry names an existing certificate; every supersede entry (at most one per
+//     certificate) names the certificate of its run and the certificate of a
+//     retest of that run;
 //  7. documents: each row has its issue entry, in order, and each issue entry its row.
 //
 // A broken ledger is not an error: VerifyChain returns the report with OK false and
@@ -166,6 +168,7 @@ type auditRef struct {
 	create  createDetail
 	issue   issueDetail
 	void    voidDetail
+	super   supersedeDetail
 	seen    bool
 }
 
@@ -182,6 +185,8 @@ type chainCheck struct {
 	issueList  []*auditRef            // issue entries in trail order
 	voids      map[string]*auditRef   // certificate -> void entry
 	voidList   []*auditRef            // void entries in trail order
+	supers     map[string]*auditRef   // certificate -> supersede entry
+	superList  []*auditRef            // supersede entries in trail order
 	blobSet    map[string]bool
 	runCert    map[string]string // run id -> certificate, for certified runs
 }
@@ -205,7 +210,7 @@ func (c *chainCheck) triggers() error {
 }
 
 func (c *chainCheck) auditTrail() error {
-	c.creates, c.issues, c.voids = map[string]*auditRef{}, map[string][]*auditRef{}, map[string]*auditRef{}
+	c.creates, c.issues, c.voids, c.supers = map[string]*auditRef{}, map[string][]*auditRef{}, map[string]*auditRef{}, map[string]*auditRef{}
 	rows, err := c.tx.QueryContext(c.ctx, `SELECT seq, at, actor, action, subject, detail, prev_hash, hash FROM audit_trail ORDER BY seq`)
 	if err != nil {
 		return err
@@ -251,6 +256,13 @@ func (c *chainCheck) auditTrail() error {
 			}
 			c.voids[e.Subject] = ref
 			c.voidList = append(c.voidList, ref)
+		case ActionSupersede:
+			derr = json.Unmarshal([]byte(e.Detail), &ref.super)
+			if c.supers[e.Subject] != nil {
+				return c.broken("", "", e.Seq, "audit trail entry %d: certificate %s superseded a second time (first in entry %d)", e.Seq, e.Subject, c.supers[e.Subject].seq)
+			}
+			c.supers[e.Subject] = ref
+			c.superList = append(c.superList, ref)
 		}
 		if derr != nil {
 			return c.broken("", "", e.Seq, "audit trail entry %d: %s detail is not its JSON object: %v", e.Seq, e.Action, derr)
@@ -306,6 +318,7 @@ type recordHeader struct {
 	Verdict  string    `json:"verdict"`
 	Reasons  []string  `json:"reasons"`
 	Fault    string    `json:"fault"`
+	RetestOf string    `json:"retest_of"`
 }
 
 type runRow struct {
@@ -319,11 +332,12 @@ type runRow struct {
 	started, finished                       string
 	fault                                   sql.NullString
 	reasons                                 string
+	retestOf                                sql.NullString
 }
 
 func (c *chainCheck) runs() error {
 	q := `SELECT station, chain_seq, run_id, coalesce(certificate, ''), record_sha256, verdict, key_id, signature,
-		chain_prev, chain_hash, record_json, serial, product, revision, operator, software, started, finished, fault, reasons
+		chain_prev, chain_hash, record_json, serial, product, revision, operator, software, started, finished, fault, reasons, retest_of
 		FROM runs`
 	var args []any
 	if c.station != "" {
@@ -343,7 +357,7 @@ func (c *chainCheck) runs() error {
 	for rows.Next() {
 		var r runRow
 		if err := rows.Scan(&r.station, &r.seq, &r.runID, &r.cert, &r.recordSHA, &r.verdict, &r.keyID, &r.sig,
-			&r.prev, &r.hash, &r.doc, &r.serial, &r.product, &r.revision, &r.operator, &r.sw, &r.started, &r.finished, &r.fault, &r.reasons); err != nil {
+			&r.prev, &r.hash, &r.doc, &r.serial, &r.product, &r.revision, &r.operator, &r.sw, &r.started, &r.finished, &r.fault, &r.reasons, &r.retestOf); err != nil {
 			return err
 		}
 		if first || r.station != cur {
@@ -389,6 +403,7 @@ func (c *chainCheck) run(r *runRow, prevSeq int64, prev string) error {
 		{"revision", r.revision, h.Revision}, {"station", r.station, h.Station}, {"operator", r.operator, h.Operator},
 		{"software", r.sw, h.Software}, {"started", r.started, formatTime(h.Started)}, {"finished", r.finished, formatTime(h.Finished)},
 		{"verdict", r.verdict, h.Verdict}, {"reasons", r.reasons, string(rj)}, {"fault", r.fault.String, h.Fault},
+		{"retest_of", r.retestOf.String, h.RetestOf},
 	} {
 		if f.row != f.rec {
 			return fail("column %s is %q, the record has %q", f.name, f.row, f.rec)
@@ -433,7 +448,7 @@ func (c *chainCheck) run(r *runRow, prevSeq int64, prev string) error {
 		{"station", r.station, d.Station}, {"serial", r.serial, d.Serial}, {"operator", r.operator, d.Operator},
 		{"verdict", r.verdict, d.Verdict}, {"certificate", r.cert, d.Certificate}, {"record_sha256", r.recordSHA, d.RecordSHA256},
 		{"key_id", r.keyID, d.KeyID}, {"chain_seq", strconv.FormatInt(r.seq.Int64, 10), strconv.FormatInt(d.ChainSeq, 10)},
-		{"chain_hash", r.hash.String, d.ChainHash},
+		{"chain_hash", r.hash.String, d.ChainHash}, {"retest_of", r.retestOf.String, d.RetestOf},
 	} {
 		if f.row != f.trail {
 			return c.broken(st, id, ref.seq, "station %q, run %s: %s is %q, its create entry %d has %q", st, id, f.name, f.row, ref.seq, f.trail)
@@ -534,6 +549,45 @@ func (c *chainCheck) certificates() error {
 		if c.runCert[ref.void.RunID] != ref.subject {
 			return c.broken("", ref.void.RunID, ref.seq, "audit trail entry %d voids %s, which is not the certificate of run %s (%q)",
 				ref.seq, ref.subject, ref.void.RunID, c.runCert[ref.void.RunID])
+		}
+	}
+	return c.superseded()
+}
+
+// superseded checks every supersede entry: it names the certificate of the
+// earlier run, and a retest of that run whose certificate supersedes it.
+func (c *chainCheck) superseded() error {
+	if len(c.superList) == 0 {
+		return nil
+	}
+	retestOf := map[string]string{}
+	rows, err := c.tx.QueryContext(c.ctx, `SELECT run_id, retest_of FROM runs WHERE retest_of IS NOT NULL`)
+	if err != nil {
+		return err
+	}
+	defer rows.Close()
+	for rows.Next() {
+		var id, of string
+		if err := rows.Scan(&id, &of); err != nil {
+			return err
+		}
+		retestOf[id] = of
+	}
+	if err := rows.Err(); err != nil {
+		return err
+	}
+	for _, ref := range c.superList {
+		d := ref.super
+		switch {
+		case c.runCert[d.RunID] != ref.subject:
+			return c.broken("", d.RunID, ref.seq, "audit trail entry %d supersedes %s, which is not the certificate of run %s (%q)",
+				ref.seq, ref.subject, d.RunID, c.runCert[d.RunID])
+		case d.ByCertificate == "" || c.runCert[d.ByRunID] != d.ByCertificate:
+			return c.broken("", d.ByRunID, ref.seq, "audit trail entry %d supersedes %s by %s, which is not the certificate of run %s (%q)",
+				ref.seq, ref.subject, d.ByCertificate, d.ByRunID, c.runCert[d.ByRunID])
+		case retestOf[d.ByRunID] != d.RunID:
+			return c.broken("", d.ByRunID, ref.seq, "audit trail entry %d supersedes %s by run %s, which is not a retest of run %s",
+				ref.seq, ref.subject, d.ByRunID, d.RunID)
 		}
 	}
 	return nil

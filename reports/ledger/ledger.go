@@ -322,6 +322,12 @@ type RecordOptions struct {
 // of its station; and an audit trail entry "create". Either all of it is stored or
 // none.
 //
+// A retest (rec.RetestOf, the run id of an earlier run of the same serial) is
+// linked in the column retest_of and the create entry; when the retest gets a
+// certificate and the earlier run has one, an audit trail entry "supersede" (subject:
+// the earlier certificate) is written in the same transaction, so the serial never
+// holds two current certificates (CertificateStatus).
+//
 // For a PASS, FAIL or REVIEW record (a unit that was measured completely) it
 // allocates the next certificate number of opt.Prefix in the same transaction and
 // returns it: the prefix + "-" + the sequence written with six digits, starting at 1
@@ -342,7 +348,8 @@ type RecordOptions struct {
 // Errors (wrapped): ErrInvalid for a nil record, an empty RunID or Serial, a run id
 // with control characters, an unknown verdict, a bad prefix, a file whose content
 // does not match its key, or a bad key id or signature from Sign; ErrDuplicateRun if
-// the run id is already stored; ErrSequenceExhausted after number 999999 of a
+// the run id is already stored; ErrInvalid for a RetestOf that names no stored run
+// of rec.Serial; ErrSequenceExhausted after number 999999 of a
 // prefix; Sign's error; otherwise database errors, including SQLITE_BUSY if another
 // writer holds the file for more than 5 s, and ctx's error if ctx ends first. rec
 // and opt.Files are only read.
@@ -530,6 +537,23 @@ func storeRun(ctx context.Context, tx *sql.Tx, in runInput) (string, error) {
 		return "", err
 	}
 
+	// A retest names an earlier run of the same serial; its certificate, if any,
+	// is superseded below when this run is certified.
+	var earlierCert string
+	if rec.RetestOf != "" {
+		var serial string
+		var cert sql.NullString
+		switch err := tx.QueryRowContext(ctx, `SELECT serial, certificate FROM runs WHERE run_id = ?`, rec.RetestOf).Scan(&serial, &cert); {
+		case errors.Is(err, sql.ErrNoRows):
+			return "", fmt.Errorf("retest of run %s, which is not in the ledger: %w", rec.RetestOf, ErrInvalid)
+		case err != nil:
+			return "", fmt.Errorf("retest of run %s: %w", rec.RetestOf, err)
+		case serial != rec.Serial:
+			return "", fmt.Errorf("retest of run %s, which tested serial %s, not %s: %w", rec.RetestOf, serial, rec.Serial, ErrInvalid)
+		}
+		earlierCert = cert.String
+	}
+
 	first, last := formatTime(rec.Started), formatTime(rec.Finished)
 	if last < first {
 		last = first
@@ -583,13 +607,13 @@ func storeRun(ctx context.Context, tx *sql.Tx, in runInput) (string, error) {
 	if _, err := tx.ExecContext(ctx, `
 		INSERT INTO runs (run_id, serial, product, revision, station, operator, software, started, finished,
 			verdict, fault, reasons, certificate, record_json, record_sha256, coverage, ambient_c, ambient_source,
-			key_id, signature, chain_seq, chain_prev, chain_hash)
-		VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)`,
+			key_id, signature, chain_seq, chain_prev, chain_hash, retest_of)
+		VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)`,
 		rec.RunID, rec.Serial, rec.Product, rec.Revision, rec.Station, rec.Operator, rec.Software,
 		formatTime(rec.Started), formatTime(rec.Finished), string(rec.Verdict), nullText(rec.Fault),
 		in.reasonsJSON, nullText(cert), string(in.doc), in.recordSHA,
 		positiveOrNull(rec.Coverage), ambientC(rec.Conditions), nullText(rec.Conditions.AmbientSource),
-		keyID, sig, seq+1, prev, link); err != nil {
+		keyID, sig, seq+1, prev, link, nullText(rec.RetestOf)); err != nil {
 		return "", fmt.Errorf("run row: %w", err)
 	}
 
@@ -609,14 +633,35 @@ func storeRun(ctx context.Context, tx *sql.Tx, in runInput) (string, error) {
 	}
 	detail, err := json.Marshal(createDetail{Station: rec.Station, Serial: rec.Serial, Operator: rec.Operator,
 		Verdict: string(rec.Verdict), Certificate: cert, RecordSHA256: in.recordSHA, KeyID: keyID,
-		ChainSeq: seq + 1, ChainHash: link, Blobs: blobSHAs})
+		ChainSeq: seq + 1, ChainHash: link, Blobs: blobSHAs, RetestOf: rec.RetestOf})
 	if err != nil {
 		return "", err
 	}
 	if _, err := appendAudit(ctx, tx, in.at, in.actor, ActionCreate, rec.RunID, string(detail)); err != nil {
 		return "", err
 	}
+	if cert != "" && earlierCert != "" {
+		if err := supersede(ctx, tx, in.at, in.actor, earlierCert, rec.RetestOf, rec.RunID, cert); err != nil {
+			return "", err
+		}
+	}
 	return cert, nil
+}
+
+// supersede appends the audit trail entry that supersedes certificate old (of run
+// oldRun) by certificate by (of the retest byRun), unless old is superseded already.
+func supersede(ctx context.Context, tx *sql.Tx, at, actor, old, oldRun, byRun, by string) error {
+	if _, done, err := firstEntry(ctx, tx, old, ActionSupersede); err != nil || done {
+		return err
+	}
+	detail, err := json.Marshal(supersedeDetail{RunID: oldRun, ByRunID: byRun, ByCertificate: by})
+	if err != nil {
+		return err
+	}
+	if _, err := appendAudit(ctx, tx, at, actor, ActionSupersede, old, string(detail)); err != nil {
+		return fmt.Errorf("supersede %s: %w", old, err)
+	}
+	return nil
 }
 
 // chainTail returns the chain_seq and chain_hash of the last run of station: 0 and
@@ -793,8 +838,52 @@ func (l *Ledger) RecentRuns(ctx context.Context, n int) ([]RunSummary, error) {
 	return l.runs(ctx, "", n)
 }
 
+// LastMeasuredRun returns the newest stored run of serial that measured the unit
+// completely (PASS, FAIL or REVIEW; FAULT and ABORTED runs do not count), among the
+// engineering runs when engineering is true and among the production runs
+// otherwise (Record.Engineering); ok is false when there is none. "Newest" is the
+// order runs were stored in.
+func (l *Ledger) LastMeasuredRun(ctx context.Context, serial string, engineering bool) (s RunSummary, ok bool, err error) {
+	eng := 0
+	if engineering {
+		eng = 1
+	}
+	rows, err := l.db.QueryContext(ctx, `SELECT `+runSummaryColumns+` FROM runs
+		WHERE serial = ? AND verdict IN ('PASS', 'FAIL', 'REVIEW') AND coalesce(json_extract(record_json, '$.engineering'), 0) = ?
+		ORDER BY rowid DESC LIMIT 1`, serial, eng)
+	out, err := collect(rows, err, scanRunSummary)
+	if err != nil {
+		return RunSummary{}, false, fmt.Errorf("ledger: runs of %s: %w", serial, err)
+	}
+	if len(out) == 0 {
+		return RunSummary{}, false, nil
+	}
+	return out[0], true, nil
+}
+
+const runSummaryColumns = `run_id, serial, product, revision, station, verdict, certificate, started, finished`
+
+func scanRunSummary(r scanner) (RunSummary, error) {
+	var s RunSummary
+	var verdict, started, finished string
+	var cert sql.NullString
+	if err := r.Scan(&s.RunID, &s.Serial, &s.Product, &s.Revision, &s.Station, &verdict, &cert, &started, &finished); err != nil {
+		return s, err
+	}
+	s.Verdict = sequencer.Verdict(verdict)
+	s.Certificate = cert.String
+	var err error
+	if s.Started, err = parseTime(started); err != nil {
+		return s, fmt.Errorf("run %s: %w", s.RunID, err)
+	}
+	if s.Finished, err = parseTime(finished); err != nil {
+		return s, fmt.Errorf("run %s: %w", s.RunID, err)
+	}
+	return s, nil
+}
+
 func (l *Ledger) runs(ctx context.Context, serial string, limit int) ([]RunSummary, error) {
-	q := `SELECT run_id, serial, product, revision, station, verdict, certificate, started, finished FROM runs`
+	q := `SELECT ` + runSummaryColumns + ` FROM runs`
 	var args []any
 	if serial != "" {
 		q += ` WHERE serial = ?`
@@ -806,24 +895,7 @@ func (l *Ledger) runs(ctx context.Context, serial string, limit int) ([]RunSumma
 		args = append(args, limit)
 	}
 	rows, err := l.db.QueryContext(ctx, q, args...)
-	out, err := collect(rows, err, func(r scanner) (RunSummary, error) {
-		var s RunSummary
-		var verdict, started, finished string
-		var cert sql.NullString
-		if err := r.Scan(&s.RunID, &s.Serial, &s.Product, &s.Revision, &s.Station, &verdict, &cert, &started, &finished); err != nil {
-			return s, err
-		}
-		s.Verdict = sequencer.Verdict(verdict)
-		s.Certificate = cert.String
-		var err error
-		if s.Started, err = parseTime(started); err != nil {
-			return s, fmt.Errorf("run %s: %w", s.RunID, err)
-		}
-		if s.Finished, err = parseTime(finished); err != nil {
-			return s, fmt.Errorf("run %s: %w", s.RunID, err)
-		}
-		return s, nil
-	})
+	out, err := collect(rows, err, scanRunSummary)
 	if err != nil {
 		return nil, fmt.Errorf("ledger: runs: %w", err)
 	}

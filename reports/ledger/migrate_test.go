@@ -4,6 +4,7 @@ import (
 	"crypto/sha256"
 	"database/sql"
 	"encoding/hex"
+	"encoding/json"
 	"errors"
 	"os"
 	"path/filepath"
@@ -56,9 +57,16 @@ func oldLedger(t *testing.T) (string, *sequencer.Record, *sequencer.Record) {
 		if rec.Verdict == sequencer.Pass {
 			cert = "OLD-000001"
 		}
+		// The row repeats the record's header, as the ledger has always stored it.
+		reasons, _ := json.Marshal(append([]string{}, rec.Reasons...))
+		var fault any
+		if rec.Fault != "" {
+			fault = rec.Fault
+		}
 		exec(`INSERT INTO runs VALUES (?, 'SN-OLD', 'AMP-10', 'C', 'EOL-2', 'op17', 'trimline 0.1.0',
-			'2025-06-03T07:14:27.123456789Z', '2025-06-03T07:15:08.123456796Z', ?, NULL, '[]', ?, ?, ?)`,
-			rec.RunID, string(rec.Verdict), cert, string(doc), sha(doc))
+			?, ?, ?, ?, ?, ?, ?, ?)`,
+			rec.RunID, rec.Started.UTC().Format("2006-01-02T15:04:05.000000000Z"), rec.Finished.UTC().Format("2006-01-02T15:04:05.000000000Z"),
+			string(rec.Verdict), fault, string(reasons), cert, string(doc), sha(doc))
 		exec(`INSERT INTO readings VALUES (?, 'pre-trim', 0, 0, -2, -3.5, 'ok', '2025-06-03T07:14:28.000000000Z')`, rec.RunID)
 		exec(`INSERT INTO results VALUES (?, 'post_offset', 3.1e-6, 'V', 1, '')`, rec.RunID)
 		exec(`INSERT INTO limit_outcomes VALUES (?, 'offset', 'abs(post_offset) <= 50', 'uV', 1, '', '{"post_offset":3.1}')`, rec.RunID)
