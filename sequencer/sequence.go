@@ -3,7 +3,6 @@ package sequencer
 import (
 	"fmt"
 	"math"
-	"os"
 	"path/filepath"
 	"strings"
 	"time"
@@ -175,11 +174,11 @@ type sequenceFile struct {
 // LoadSequence reads and checks a sequence file and the limit file it names
 // (resolved relative to the sequence file). All problems come back as a files.List.
 func LoadSequence(path string) (*Sequence, error) {
-	data, err := os.ReadFile(path)
+	data, err := files.ReadFile(path)
 	if err != nil {
 		return nil, err
 	}
-	return ParseSequence(path, data, func(p string) ([]byte, error) { return os.ReadFile(p) })
+	return ParseSequence(path, data, files.ReadFile)
 }
 
 // ParseSequence is LoadSequence on bytes already read; read loads the limit file.

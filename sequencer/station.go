@@ -5,7 +5,6 @@ import (
 	"encoding/hex"
 	"errors"
 	"fmt"
-	"os"
 	"path/filepath"
 	"sort"
 	"strings"
@@ -141,7 +140,7 @@ type stationFile struct {
 // LoadStation reads and checks a station file. Every problem comes back in a
 // files.List, positioned.
 func LoadStation(path string) (*Station, error) {
-	data, err := os.ReadFile(path)
+	data, err := files.ReadFile(path)
 	if err != nil {
 		return nil, err
 	}

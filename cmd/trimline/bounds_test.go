@@ -1,6 +1,7 @@
 package main
 
 import (
+	"fmt"
 	"os"
 	"path/filepath"
 	"strings"
@@ -30,5 +31,40 @@ func TestFitRefusesNotFinite(t *testing.T) {
 	code, out, errOut := runCLI(t, "fit", "--at", "1e300", path)
 	if code != exitUsage || !strings.Contains(errOut, "not finite") || strings.Contains(out, "Inf") {
 		t.Errorf("--at 1e300: exit %d, want %d\nstdout: %s\nstderr: %s", code, exitUsage, out, errOut)
+	}
+}
+
+// trimline check refuses, as bad input naming file:line:col and the bound, a
+// station file nested deeper than the parser's bound, one larger than the size
+// bound and a sequence file whose mapping has too many keys, before the YAML
+// library sees them; FileKind does not parse them either.
+func TestCheckRefusesHostileFiles(t *testing.T) {
+	dir := t.TempDir()
+	deep := filepath.Join(dir, "deep.yaml")
+	os.WriteFile(deep, []byte("station: {id: TL1}\nx: "+strings.Repeat("[", 100)+strings.Repeat("]", 100)+"\n"), 0o644)
+	big := filepath.Join(dir, "big.yaml")
+	os.WriteFile(big, []byte("station: {id: TL1}\n"+strings.Repeat("# a comment line of some length\n", 9000)), 0o644)
+	var keys strings.Builder
+	keys.WriteString("sequence: {product: P, revision: A}\nideal:\n")
+	for i := range 300 {
+		fmt.Fprintf(&keys, "  k%d: 1\n", i)
+	}
+	wide := filepath.Join(dir, "wide.yaml")
+	os.WriteFile(wide, []byte(keys.String()), 0o644)
+	for _, tc := range []struct{ path, want string }{
+		{deep, "deep.yaml:2:67: nested too deep: expected at most 64 levels"},
+		{big, "big.yaml:8193:14: file too large: expected at most 256 KiB"},
+		{wide, "wide.yaml:259:3: too many keys in one mapping: expected at most 256"},
+	} {
+		code, out, errOut := runCLI(t, "check", tc.path)
+		if code != exitUsage || !strings.Contains(out+errOut, tc.want) {
+			t.Errorf("check %s: exit %d, want %d and %q\nstdout: %s\nstderr: %s", filepath.Base(tc.path), code, exitUsage, tc.want, out, errOut)
+		}
+	}
+	for _, args := range [][]string{{"run", "--station", deep, "--sequence", wide, "--serial", "BRX-00001"}, {"limits", "lint", deep}} {
+		code, out, errOut := runCLI(t, args...)
+		if code != exitUsage || !strings.Contains(out+errOut, "refused before parsing") {
+			t.Errorf("%v: exit %d, want %d and a bound named\nstdout: %s\nstderr: %s", args, code, exitUsage, out, errOut)
+		}
 	}
 }
