@@ -52,8 +52,8 @@ func TestCheckRefusesHostileFiles(t *testing.T) {
 	wide := filepath.Join(dir, "wide.yaml")
 	os.WriteFile(wide, []byte(keys.String()), 0o644)
 	for _, tc := range []struct{ path, want string }{
-		{deep, "deep.yaml:2:67: nested too deep: expected at most 64 levels"},
-		{big, "big.yaml:8193:14: file too large: expected at most 256 KiB"},
+		{deep, "deep.yaml:2:35: nested too deep: expected at most 32 levels"},
+		{big, "big.yaml:4097:14: file too large: expected at most 128 KiB"},
 		{wide, "wide.yaml:259:3: too many keys in one mapping: expected at most 256"},
 	} {
 		code, out, errOut := runCLI(t, "check", tc.path)

@@ -11,11 +11,14 @@ import (
 // the square of the nesting depth, of the number of keys in one block mapping and
 // of the number of documents (a 200 KB file nested 100 000 deep took 24 GB), and it
 // cannot be interrupted, so Check refuses such files with a cheap line scan first.
-// Within these bounds the worst file costs about 0.6 s and under 150 MB
-// (BenchmarkWorstAcceptedFile). Every station, sequence and limit file is a few KB.
+// Beyond that, its cost is about 1 to 2 KB of memory per node, so the size bound
+// is what keeps a file cheap: within these bounds the worst file measured (128 KiB
+// of nested flow brackets) takes under a second and about 200 MB of heap at its
+// peak (BenchmarkWorstAcceptedFile). The demo's files are 2 to 4 KB and the
+// deepest nests 6 levels; 500 limits of five lines each fit in under 100 KB.
 const (
-	MaxFileSize    = 256 << 10 // bytes of one station, sequence or limit file
-	MaxDepth       = 64        // nesting levels: block indentation, "- " entries and [ { brackets together
+	MaxFileSize    = 128 << 10 // bytes of one station, sequence or limit file
+	MaxDepth       = 32        // nesting levels: block indentation, "- " entries and [ { brackets together
 	MaxMappingKeys = 256       // keys of one block mapping
 	MaxDocuments   = 16        // YAML documents in one file ("---")
 )

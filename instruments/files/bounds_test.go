@@ -38,23 +38,23 @@ func manyKeys(n int) string {
 // Files nested deeper than MaxDepth, with more keys in one mapping than
 // MaxMappingKeys, with more documents than MaxDocuments or larger than
 // MaxFileSize are refused before the YAML library sees them (its cost grows with
-// the square of each), at the line and column where the bound is crossed. Before
-// this check a 32 KB file nested 16 000 deep cost 866 MB; these small ones are
-// accepted by the library, so the test fails without the check.
+// the square of the first three), at the line and column where the bound is
+// crossed. Before this check a 32 KB file nested 16 000 deep cost 866 MB; these
+// small ones are accepted by the library, so the test fails without the check.
 func TestParseRefusesOutOfBounds(t *testing.T) {
 	for _, tc := range []struct {
 		name, src string
 		pos       string // "line:col" of the error
 		msg       string
 	}{
-		{"flow sequences 65 deep", nestedFlow(65), "1:67", "at most 64 levels"},
-		{"flow mappings 65 deep", nestedMap(64), "1:256", "at most 64 levels"},
-		{"block entries 65 deep", nestedDash(65), "2:129", "at most 64 levels"},
-		{"block mappings 65 deep", nestedBlock(64), "65:65", "at most 64 levels"},
-		{"257 keys", manyKeys(257), "258:3", "at most 256"},
-		{"17 documents", strings.Repeat("---\na: 1\n", 17), "33:1", "at most 16"},
-		{"17 documents, the first unmarked", "a: 1\n" + strings.Repeat("---\na: 1\n", 16), "32:1", "at most 16"},
-		{"larger than 256 KiB", "a: 1\n" + strings.Repeat("# comment line\n", files.MaxFileSize/15+1), "17477:15", "at most 256 KiB"},
+		{"flow sequences too deep", nestedFlow(files.MaxDepth + 1), "1:35", "at most 32 levels"},
+		{"flow mappings too deep", nestedMap(files.MaxDepth), "1:128", "at most 32 levels"},
+		{"block entries too deep", nestedDash(files.MaxDepth + 1), "2:65", "at most 32 levels"},
+		{"block mappings too deep", nestedBlock(files.MaxDepth), "33:33", "at most 32 levels"},
+		{"257 keys", manyKeys(files.MaxMappingKeys + 1), "258:3", "at most 256"},
+		{"17 documents", strings.Repeat("---\na: 1\n", files.MaxDocuments+1), "33:1", "at most 16"},
+		{"17 documents, the first unmarked", "a: 1\n" + strings.Repeat("---\na: 1\n", files.MaxDocuments), "32:1", "at most 16"},
+		{"larger than 128 KiB", "a: 1\n" + strings.Repeat("# comment line\n", files.MaxFileSize/15+1), "8739:13", "at most 128 KiB"},
 	} {
 		_, err := files.Parse("f.yaml", []byte(tc.src))
 		fe := files.Errs(err)
@@ -70,12 +70,12 @@ func TestParseRefusesOutOfBounds(t *testing.T) {
 // nesting (brackets in plain scalars, quotes and comments; block scalars), parse.
 func TestParseAcceptsWithinBounds(t *testing.T) {
 	for _, tc := range []struct{ name, src string }{
-		{"flow sequences 63 deep", nestedFlow(63)},
-		{"flow mappings 63 deep", nestedMap(63)},
-		{"block entries 63 deep", nestedDash(63)},
-		{"block mappings 63 deep", nestedBlock(63)},
-		{"256 keys", manyKeys(256)},
-		{"16 documents", strings.Repeat("---\na: 1\n", 16)},
+		{"flow sequences deepest", nestedFlow(files.MaxDepth - 1)},
+		{"flow mappings deepest", nestedMap(files.MaxDepth - 1)},
+		{"block entries deepest", nestedDash(files.MaxDepth - 1)},
+		{"block mappings deepest", nestedBlock(files.MaxDepth - 1)},
+		{"256 keys", manyKeys(files.MaxMappingKeys)},
+		{"16 documents", strings.Repeat("---\na: 1\n", files.MaxDocuments)},
 		{"templates", "write: TRIM OFS {code}\nread: [ \"a[[[\", 'b{{{', c ]\nx: \"[[[[\n  [[[[\"\ny: '{{{ '' {{'\n# [[[[[[[[\nz: 1 # {{{{{{{{\n"},
 		{"block scalar", "a: |\n" + strings.Repeat("  "+strings.Repeat(" ", 200)+"- [[[ {{{ x: y\n", 3) + "b: >-\n  text\n---\nc: 1\n"},
 		{"sequence of mappings", "l:\n" + strings.Repeat("  - name: x\n    unit: mV\n    tolerance: {lower: -1, upper: 1}\n", 300)},
