@@ -28,7 +28,7 @@ func worstFiles() map[string]string {
 		fmt.Fprintf(&keys, "  %x: 1\n", i)
 	}
 	return map[string]string{
-		"deepest flow":      fill("", "- "+nestedFlow(files.MaxDepth-2)[3:], ""),
+		"deepest flow":      fill("", "- "+nestedFlow(files.MaxDepth - 2)[3:], ""),
 		"deepest block":     fill("", "- "+strings.Repeat("- ", files.MaxDepth-2)+"x\n", ""),
 		"widest mappings":   fill("", "- m:\n"+indent(keys.String(), "    "), ""),
 		"long flow list":    fill("a: [", "1,", "1]\n"),
