@@ -253,7 +253,9 @@ func ParseSequence(name string, data []byte, read func(path string) ([]byte, err
 			p.Settle < 0 || p.Settle > MaxSettle || !(s.Meter.NPLC > 0 && s.Meter.NPLC <= MaxNPLC) {
 			continue // already refused
 		}
-		if t := sweepTime(p, s.Meter.NPLC); t > MaxSweepTime {
+		if n := p.Points * p.Readings; n > MaxSweepReadings {
+			bad(sw.path, "expected at most %d readings in a sweep: %d points × %d readings is %d", MaxSweepReadings, p.Points, p.Readings, n)
+		} else if t := sweepTime(p, s.Meter.NPLC); t > MaxSweepTime {
 			bad(sw.path, "expected a sweep of at most %s: %d points × (settle %s + %d readings × %g PLC at 50 Hz) is %s",
 				MaxSweepTime, p.Points, p.Settle, p.Readings, s.Meter.NPLC, t.Round(time.Second))
 		}
@@ -365,6 +367,9 @@ const (
 	MaxReadings = 1000
 	// MaxSettle is the longest wait after a level change before reading.
 	MaxSettle = time.Minute
+	// MaxSweepReadings bounds points × readings of one sweep: it keeps a run's
+	// record (about 100 bytes of JSON a reading) near 20 MB.
+	MaxSweepReadings = 100_000
 	// MaxSweepTime bounds the time a sweep can take, estimated as points ×
 	// (settle + readings × NPLC at 50 Hz, the slower line frequency).
 	MaxSweepTime = time.Hour
