@@ -68,3 +68,18 @@ func TestCheckRefusesHostileFiles(t *testing.T) {
 		}
 	}
 }
+
+// trimline fit refuses a table of more rows than fit.MaxRows as bad input at the
+// line where the bound is crossed, instead of reading any number into memory.
+func TestFitRefusesTooManyRows(t *testing.T) {
+	path := filepath.Join(t.TempDir(), "rows.csv")
+	var b strings.Builder
+	for i := range 100_001 {
+		fmt.Fprintf(&b, "%d,%d.5\n", i, 2*i)
+	}
+	os.WriteFile(path, []byte(b.String()), 0o644)
+	code, out, errOut := runCLI(t, "fit", path)
+	if code != exitUsage || !strings.Contains(errOut, "rows.csv:100001:1: expected at most 100000 data rows") {
+		t.Errorf("exit %d, want %d\nstdout: %s\nstderr: %s", code, exitUsage, out, errOut)
+	}
+}

@@ -3,6 +3,7 @@ package fit_test
 import (
 	"errors"
 	"math"
+	"strings"
 	"testing"
 
 	"trimline/sequencer/fit"
@@ -57,4 +58,41 @@ func TestPredictionNotFinite(t *testing.T) {
 	if _, _, err := r.Prediction(math.NaN()); !errors.Is(err, fit.ErrInvalidInput) {
 		t.Errorf("Prediction(NaN): %v, want ErrInvalidInput", err)
 	}
+}
+
+// ReadXY refuses more than MaxRows data rows and more than MaxBytes of input,
+// at the line where the bound is crossed, and never reads past MaxBytes+1 bytes
+// of an endless input. Before, any number of rows was read into memory.
+func TestReadXYBounded(t *testing.T) {
+	rows := strings.Repeat("1,2\n", fit.MaxRows+1)
+	_, _, _, err := fit.ReadXY("rows.csv", strings.NewReader(rows))
+	var ie *fit.InputError
+	if !errors.As(err, &ie) || ie.Line != fit.MaxRows+1 || !strings.Contains(ie.Msg, "at most 100000 data rows") {
+		t.Errorf("%d rows: %v", fit.MaxRows+1, err)
+	}
+	if x, _, _, err := fit.ReadXY("rows.csv", strings.NewReader(rows[4:])); err != nil || len(x) != fit.MaxRows {
+		t.Errorf("%d rows: %d read, %v", fit.MaxRows, len(x), err)
+	}
+	r := &countingReader{src: "# an endless comment\n"}
+	_, _, _, err = fit.ReadXY("endless.csv", r)
+	if !errors.As(err, &ie) || !strings.Contains(ie.Msg, "at most 16 MiB") || ie.Line == 0 {
+		t.Errorf("endless input: %v", err)
+	}
+	if r.n > fit.MaxBytes+1 {
+		t.Errorf("read %d bytes of an endless input, want at most %d", r.n, fit.MaxBytes+1)
+	}
+}
+
+// countingReader repeats src without end and counts the bytes read.
+type countingReader struct {
+	src string
+	n   int
+}
+
+func (c *countingReader) Read(p []byte) (int, error) {
+	for i := range p {
+		p[i] = c.src[(c.n+i)%len(c.src)]
+	}
+	c.n += len(p)
+	return len(p), nil
 }
