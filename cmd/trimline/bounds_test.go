@@ -83,3 +83,19 @@ func TestFitRefusesTooManyRows(t *testing.T) {
 		t.Errorf("exit %d, want %d\nstdout: %s\nstderr: %s", code, exitUsage, out, errOut)
 	}
 }
+
+// trimline audit verify refuses a file larger than any certificate as bad input,
+// without reading it whole.
+func TestAuditVerifyRefusesHugeFile(t *testing.T) {
+	path := filepath.Join(t.TempDir(), "huge.pdf")
+	f, err := os.Create(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	f.Truncate(17 << 20) // sparse: 17 MiB of zeros
+	f.Close()
+	code, out, errOut := runCLI(t, "audit", "verify", path, "--no-ledger")
+	if code != exitUsage || !strings.Contains(errOut, "more than 16 MiB") {
+		t.Errorf("exit %d, want %d\nstdout: %s\nstderr: %s", code, exitUsage, out, errOut)
+	}
+}
