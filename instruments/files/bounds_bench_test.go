@@ -28,16 +28,17 @@ func worstFiles() map[string]string {
 		fmt.Fprintf(&keys, "  %x: 1\n", i)
 	}
 	return map[string]string{
-		"deepest flow":      fill("", "- "+nestedFlow(files.MaxDepth - 2)[3:], ""),
-		"deepest block":     fill("", "- "+strings.Repeat("- ", files.MaxDepth-2)+"x\n", ""),
-		"widest mappings":   fill("", "- m:\n"+indent(keys.String(), "    "), ""),
-		"long flow list":    fill("a: [", "1,", "1]\n"),
-		"long block list":   fill("a:\n", "  - 1\n", ""),
-		"list of mappings":  fill("a:\n", "  - {x: 1}\n", ""),
-		"aliases":           fill("x: &x 1\na:\n", "  - *x\n", ""),
-		"most documents":    strings.Repeat(strings.Repeat("---\na:\n", 1)+strings.Repeat("  - 1\n", files.MaxFileSize/files.MaxDocuments/6-2), files.MaxDocuments),
-		"one long scalar":   "a: " + strings.Repeat("x", files.MaxFileSize-5) + "\n",
-		"trailing comments": fill("a:\n", "  - 1 # c\n", ""),
+		"deepest flow":       fill("", "- "+nestedFlow(files.MaxDepth - 2)[3:], ""),
+		"deepest flow pairs": fill("", "- "+strings.Repeat("[a: ", files.MaxDepth-2)+"1"+strings.Repeat("]", files.MaxDepth-2)+"\n", ""),
+		"deepest block":      fill("", "- "+strings.Repeat("- ", files.MaxDepth-2)+"x\n", ""),
+		"widest mappings":    fill("", "- m:\n"+indent(keys.String(), "    "), ""),
+		"long flow list":     fill("a: [", "1,", "1]\n"),
+		"long block list":    fill("a:\n", "  - 1\n", ""),
+		"list of mappings":   fill("a:\n", "  - {x: 1}\n", ""),
+		"aliases":            fill("x: &x 1\na:\n", "  - *x\n", ""),
+		"most documents":     strings.Repeat(strings.Repeat("---\na:\n", 1)+strings.Repeat("  - 1\n", files.MaxFileSize/files.MaxDocuments/6-2), files.MaxDocuments),
+		"one long scalar":    "a: " + strings.Repeat("x", files.MaxFileSize-5) + "\n",
+		"trailing comments":  fill("a:\n", "  - 1 # c\n", ""),
 	}
 }
 

@@ -127,3 +127,18 @@ func (c *countingReader) Read(p []byte) (int, error) {
 }
 
 var _ io.Reader = (*countingReader)(nil)
+
+// FuzzCheck: the scan never panics, and what it accepts the parser may refuse
+// but never with a panic of its own (Parse recovers those anyway).
+func FuzzCheck(f *testing.F) {
+	for _, s := range []string{nestedFlow(3), nestedDash(3), nestedBlock(3), manyKeys(3), "a: |\n  x\n", "'a\n b': [\"c\n\", {d: e}]\n", "--- |\n x\n...\n"} {
+		f.Add(s)
+	}
+	f.Fuzz(func(t *testing.T, s string) {
+		if err := files.Check("f.yaml", []byte(s)); err != nil {
+			if fe := files.Errs(err); len(fe) != 1 || fe[0].Line < 1 || fe[0].Col < 1 {
+				t.Fatalf("%q: %v", s, err)
+			}
+		}
+	})
+}
