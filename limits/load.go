@@ -6,7 +6,6 @@ import (
 	"errors"
 	"fmt"
 	"math"
-	"os"
 	"sort"
 	"strconv"
 	"strings"
@@ -50,7 +49,7 @@ type limitForm struct {
 // LoadFile reads the limit file at path and loads it with Load, naming it path in
 // the Set and in messages. A read error is returned as it came from os.ReadFile.
 func LoadFile(path string, cat Catalog) (*Set, error) {
-	data, err := os.ReadFile(path)
+	data, err := files.ReadFile(path)
 	if err != nil {
 		return nil, err
 	}

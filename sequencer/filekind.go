@@ -18,10 +18,12 @@ const (
 // FileKind tells a file's kind (FileStation, FileSequence or FileLimits) from its
 // top-level keys, or "" when it is none of them. A file that is not valid YAML is
 // told by a line scan, so that it still reaches its own loader and gets that
-// loader's positioned syntax error.
+// loader's positioned syntax error; so is a file outside files.Check's bounds.
 func FileKind(data []byte) string {
 	var top map[string]any
-	if err := yaml.Unmarshal(data, &top); err != nil {
+	// A file outside the parser's bounds (files.Check) is told by the line scan
+	// too: the YAML library would take too long and too much memory over it.
+	if err := files.Check("", data); err != nil || yaml.Unmarshal(data, &top) != nil {
 		for _, k := range []struct{ key, kind string }{{"station:", FileStation}, {"sequence:", FileSequence}, {"limit_set:", FileLimits}} {
 			if bytes.HasPrefix(data, []byte(k.key)) || bytes.Contains(data, []byte("\n"+k.key)) {
 				return k.kind

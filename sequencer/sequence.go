@@ -3,7 +3,6 @@ package sequencer
 import (
 	"fmt"
 	"math"
-	"os"
 	"path/filepath"
 	"regexp"
 	"strings"
@@ -197,11 +196,11 @@ type sequenceFile struct {
 // LoadSequence reads and checks a sequence file and the limit file it names
 // (resolved relative to the sequence file). All problems come back as a files.List.
 func LoadSequence(path string) (*Sequence, error) {
-	data, err := os.ReadFile(path)
+	data, err := files.ReadFile(path)
 	if err != nil {
 		return nil, err
 	}
-	return ParseSequence(path, data, func(p string) ([]byte, error) { return os.ReadFile(p) })
+	return ParseSequence(path, data, files.ReadFile)
 }
 
 // ParseSequence is LoadSequence on bytes already read; read loads the limit file.
@@ -261,13 +260,29 @@ func ParseSequence(name string, data []byte, read func(path string) ([]byte, err
 	s.Meter.NPLC = 1
 	if f.Meter.NPLC != nil {
 		s.Meter.NPLC = *f.Meter.NPLC
-		if s.Meter.NPLC <= 0 || s.Meter.NPLC > 1000 {
-			bad("$.meter.nplc", "expected an integration time between 0 and 1000 power-line cycles")
+		if !(s.Meter.NPLC > 0 && s.Meter.NPLC <= MaxNPLC) {
+			bad("$.meter.nplc", "expected an integration time above 0 and at most %d power-line cycles, found %g", MaxNPLC, s.Meter.NPLC)
 		}
 	}
 
 	s.PreTrim = sweepPlan(doc, "$.pre_trim", f.PreTrim, &errs)
 	s.Verify = sweepPlan(doc, "$.verify", f.Verify, &errs)
+	for _, sw := range []struct {
+		path string
+		p    SweepPlan
+	}{{"$.pre_trim", s.PreTrim}, {"$.verify", s.Verify}} {
+		p := sw.p
+		if p.Points < MinPoints || p.Points > MaxPoints || p.Readings < 1 || p.Readings > MaxReadings ||
+			p.Settle < 0 || p.Settle > MaxSettle || !(s.Meter.NPLC > 0 && s.Meter.NPLC <= MaxNPLC) {
+			continue // already refused
+		}
+		if n := p.Points * p.Readings; n > MaxSweepReadings {
+			bad(sw.path, "expected at most %d readings in a sweep: %d points × %d readings is %d", MaxSweepReadings, p.Points, p.Readings, n)
+		} else if t := sweepTime(p, s.Meter.NPLC); t > MaxSweepTime {
+			bad(sw.path, "expected a sweep of at most %s: %d points × (settle %s + %d readings × %g PLC at 50 Hz) is %s",
+				MaxSweepTime, p.Points, p.Settle, p.Readings, s.Meter.NPLC, t.Round(time.Second))
+		}
+	}
 	if f.Ideal.FullScale != nil {
 		s.FullScale = float64(*f.Ideal.FullScale)
 		if s.FullScale <= 0 {
@@ -306,8 +321,10 @@ func ParseSequence(name string, data []byte, read func(path string) ([]byte, err
 		if s.MCTrials == 0 {
 			s.MCTrials = 20000
 		}
-		if s.MCTrials < 1000 {
-			bad("$.uncertainty.trials", "expected at least 1000 Monte Carlo trials, found %d", s.MCTrials)
+		if s.MCTrials < MinMCTrials {
+			bad("$.uncertainty.trials", "expected at least %d Monte Carlo trials, found %d", MinMCTrials, s.MCTrials)
+		} else if s.MCTrials > MaxMCTrials {
+			bad("$.uncertainty.trials", "expected at most %d Monte Carlo trials, found %d", MaxMCTrials, s.MCTrials)
 		}
 	default:
 		bad("$.uncertainty.method", "expected gum or monte_carlo, found %q", s.Uncertainty)
@@ -365,6 +382,42 @@ func limitsFileRef(s *limits.Set) FileRef {
 	return FileRef{Kind: FileLimits, Name: baseName(s.File), Title: title, SHA256: s.SHA256}
 }
 
+// Bounds on the counts and durations a sequence file sets, so that no file can
+// make a run that never ends (100 000 000 points were once accepted). Each is
+// far beyond any product's need and well inside what a station finishes.
+const (
+	// MinPoints is the fewest levels of a sweep: a line through 2 points has
+	// no residual to judge.
+	MinPoints = 3
+	// MaxPoints is the most levels of a sweep: one per 0.1 % of the range.
+	MaxPoints = 1001
+	// MaxReadings is the most meter readings at one level.
+	MaxReadings = 1000
+	// MaxSettle is the longest wait after a level change before reading.
+	MaxSettle = time.Minute
+	// MaxSweepReadings bounds points × readings of one sweep: it keeps a run's
+	// record (about 100 bytes of JSON a reading) near 20 MB.
+	MaxSweepReadings = 100_000
+	// MaxSweepTime bounds the time a sweep can take, estimated as points ×
+	// (settle + readings × NPLC at 50 Hz, the slower line frequency).
+	MaxSweepTime = time.Hour
+	// MaxNPLC is the longest meter integration time, in power-line cycles (the
+	// longest of common DMMs).
+	MaxNPLC = 1000
+	// MinMCTrials and MaxMCTrials bound the Monte Carlo trials; JCGM 101:2008
+	// §7.2.1 suggests 10⁶ for a 95 % interval good to two significant digits.
+	MinMCTrials = 1000
+	MaxMCTrials = 1_000_000
+	// MaxDACBits is the widest trim DAC.
+	MaxDACBits = 24
+)
+
+// sweepTime estimates how long a sweep of p takes with the meter at nplc.
+func sweepTime(p SweepPlan, nplc float64) time.Duration {
+	perReading := time.Duration(nplc / 50 * float64(time.Second))
+	return time.Duration(p.Points) * (p.Settle + time.Duration(p.Readings)*perReading)
+}
+
 func sweepPlan(doc *files.Doc, path string, d *sweepDecl, errs *files.List) SweepPlan {
 	bad := func(p, format string, args ...any) { *errs = append(*errs, doc.Errorf(p, format, args...)) }
 	if d == nil {
@@ -388,17 +441,23 @@ func sweepPlan(doc *files.Doc, path string, d *sweepDecl, errs *files.List) Swee
 		bad(path+".to", "expected \"to\" to differ from \"from\"")
 	}
 	p.Points = d.Points
-	if p.Points < 3 {
-		bad(path+".points", "expected at least 3 points, found %d (a line through 2 points has no residual to judge)", d.Points)
+	if p.Points < MinPoints {
+		bad(path+".points", "expected at least %d points, found %d (a line through 2 points has no residual to judge)", MinPoints, d.Points)
+	} else if p.Points > MaxPoints {
+		bad(path+".points", "expected at most %d points, found %d", MaxPoints, d.Points)
 	}
 	if d.Settle == nil {
 		bad(path, "missing required key \"settle\" (e.g. 20ms)")
 	} else if p.Settle = d.Settle.D(); p.Settle < 0 {
 		bad(path+".settle", "expected a settle time ≥ 0")
+	} else if p.Settle > MaxSettle {
+		bad(path+".settle", "expected a settle time of at most %s, found %s", MaxSettle, p.Settle)
 	}
 	p.Readings = d.Readings
 	if p.Readings < 1 {
 		bad(path+".readings", "expected at least 1 reading per point, found %d", d.Readings)
+	} else if p.Readings > MaxReadings {
+		bad(path+".readings", "expected at most %d readings per point, found %d", MaxReadings, d.Readings)
 	}
 	return p
 }
@@ -410,8 +469,8 @@ func dac(doc *files.Doc, path string, d *dacDecl, dim units.Dim, errs *files.Lis
 		return DAC{}
 	}
 	out := DAC{Bits: d.Bits, Write: d.Write, Read: d.Read}
-	if d.Bits < 1 || d.Bits > 24 {
-		bad(path+".bits", "expected 1 to 24 bits, found %d", d.Bits)
+	if d.Bits < 1 || d.Bits > MaxDACBits {
+		bad(path+".bits", "expected 1 to %d bits, found %d", MaxDACBits, d.Bits)
 		out.Bits = 1
 	}
 	if d.LSB == "" {

@@ -5,7 +5,6 @@ import (
 	"encoding/hex"
 	"errors"
 	"fmt"
-	"os"
 	"path/filepath"
 	"sort"
 	"strings"
@@ -145,10 +144,20 @@ type stationFile struct {
 	} `yaml:"output"`
 }
 
+// Bounds on the durations a station file sets: a wait longer than these is a
+// hung instrument, not a slow one.
+const (
+	// MaxTimeout is the longest per-exchange timeout of an instrument.
+	MaxTimeout = time.Minute
+	// MaxStepDeadline is the longest deadline of one engine step (a sweep point
+	// of MaxReadings readings at 1 PLC takes 20 s; a trim write well under 1 s).
+	MaxStepDeadline = 10 * time.Minute
+)
+
 // LoadStation reads and checks a station file. Every problem comes back in a
 // files.List, positioned.
 func LoadStation(path string) (*Station, error) {
-	data, err := os.ReadFile(path)
+	data, err := files.ReadFile(path)
 	if err != nil {
 		return nil, err
 	}
@@ -240,6 +249,8 @@ func parseStation(name string, data []byte, recorded bool) (*Station, error) {
 		if in.Timeout != nil {
 			if si.Timeout = in.Timeout.D(); si.Timeout <= 0 {
 				errs = append(errs, doc.Errorf(base+".timeout", "expected a positive timeout such as 2 s"))
+			} else if si.Timeout > MaxTimeout {
+				errs = append(errs, doc.Errorf(base+".timeout", "expected a timeout of at most %s, found %s", MaxTimeout, si.Timeout))
 			}
 		}
 		if role != "dut" {
@@ -288,6 +299,8 @@ func parseStation(name string, data []byte, recorded bool) (*Station, error) {
 	if f.StepDeadline != nil {
 		if st.StepDeadline = f.StepDeadline.D(); st.StepDeadline <= 0 {
 			errs = append(errs, doc.Errorf("$.step_deadline", "expected a positive duration such as 30 s"))
+		} else if st.StepDeadline > MaxStepDeadline {
+			errs = append(errs, doc.Errorf("$.step_deadline", "expected a step deadline of at most %s, found %s", MaxStepDeadline, st.StepDeadline))
 		}
 	}
 	if il := f.Interlock; il != nil {

@@ -185,7 +185,7 @@ func (a *auditor) verdictOut(e *env, file string, v audit.Verdict) error {
 }
 
 func (a *auditor) verify(ctx context.Context, e *env, file string) error {
-	pdf, err := os.ReadFile(file)
+	pdf, err := audit.ReadPDF(file)
 	if err != nil {
 		return badInput(err)
 	}

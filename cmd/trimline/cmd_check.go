@@ -4,7 +4,6 @@ import (
 	"context"
 	"fmt"
 	"io"
-	"os"
 
 	"trimline/instruments/files"
 	"trimline/limits"
@@ -39,9 +38,16 @@ otherwise.`,
 		var stations []*sequencer.Station
 		var seqs []*sequencer.Sequence
 		for _, path := range args {
-			data, err := os.ReadFile(path)
+			if err := ctx.Err(); err != nil {
+				return err // one file's parse is bounded (files.Check); stop between files
+			}
+			data, err := files.ReadFile(path)
 			if err != nil {
-				other = append(other, err)
+				if fe := files.Errs(err); fe != nil {
+					problems = append(problems, fe...)
+				} else {
+					other = append(other, err)
+				}
 				continue
 			}
 			kind := sequencer.FileKind(data)

@@ -96,11 +96,16 @@ and numbering, ready for 'trimline audit replay'.`,
 		if len(pos) != 1 || *ledgerPath == "" {
 			return usagef("usage: trimline import FILE.zip --ledger DB [--keys DIR]")
 		}
-		data, err := os.ReadFile(pos[0])
+		f, err := os.Open(pos[0])
 		if err != nil {
 			return badInput(err)
 		}
-		b, err := bundle.Open(bytes.NewReader(data), int64(len(data)))
+		defer f.Close()
+		fi, err := f.Stat()
+		if err != nil {
+			return badInput(err)
+		}
+		b, err := bundle.Open(f, fi.Size()) // reads what it needs; bounds the archive and every member
 		if err != nil {
 			return rejected(err)
 		}

@@ -71,7 +71,9 @@ with its standard uncertainty, propagated through the coefficient covariance
 		}
 		var py, pu float64
 		if at.set {
-			py, pu = r.PredictU(at.v)
+			if py, pu, err = r.Prediction(at.v); err != nil {
+				return fmt.Errorf("%s: --at: %w", args[0], err)
+			}
 		}
 		if *asJSON {
 			e := json.NewEncoder(e.stdout)

@@ -3,7 +3,6 @@ package main
 import (
 	"context"
 	"fmt"
-	"os"
 
 	"trimline/instruments/files"
 	"trimline/limits"
@@ -42,7 +41,7 @@ missing descriptions. Exit 2 when any error is found.`,
 		var seq *sequencer.Sequence // nil: lint knows only the ranges no product sets
 		switch {
 		case *station != "" && *sequence != "":
-			st, s, err := loadFiles(*station, *sequence)
+			st, s, err := loadFiles(ctx, *station, *sequence)
 			if err != nil {
 				return err
 			}
@@ -60,7 +59,7 @@ missing descriptions. Exit 2 when any error is found.`,
 		opt.Ranges = sequencer.PhysicalRanges(seq)
 		errorsFound := 0
 		for _, path := range paths {
-			data, err := os.ReadFile(path)
+			data, err := files.ReadFile(path)
 			if err != nil {
 				return badInput(err)
 			}

@@ -6,6 +6,7 @@ import (
 	"os"
 	"path/filepath"
 
+	"trimline/instruments/files"
 	"trimline/reports/ledger"
 	"trimline/reports/release"
 	"trimline/reports/signing"
@@ -30,7 +31,7 @@ only releases signed with a key in its release_keys folder.`,
 		if len(pos) != 1 || *by == "" || *meaning == "" {
 			return usagef("usage: %s", c.UsageLine)
 		}
-		data, err := os.ReadFile(pos[0])
+		data, err := files.ReadFile(pos[0])
 		if err != nil {
 			return badInput(err)
 		}

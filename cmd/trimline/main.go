@@ -103,7 +103,8 @@ func exitCode(err error) int {
 		errors.Is(err, release.ErrNotReleased), errors.Is(err, release.ErrNotReleasable), errors.Is(err, release.ErrReleaseKeys),
 		errors.Is(err, sequencer.ErrSafety), errors.Is(err, sequencer.ErrUnboundRole), errors.Is(err, sequencer.ErrTUR),
 		errors.Is(err, sequencer.ErrBadSerial), errors.Is(err, issuing.ErrTestedBefore),
-		errors.Is(err, fit.ErrTooFewPoints), errors.Is(err, fit.ErrSingular), errors.Is(err, fit.ErrInvalidInput):
+		errors.Is(err, fit.ErrTooFewPoints), errors.Is(err, fit.ErrSingular), errors.Is(err, fit.ErrInvalidInput),
+		errors.Is(err, fit.ErrNotFinite):
 		return exitUsage
 	}
 	return exitStation // an instrument, the ledger or the file system failed

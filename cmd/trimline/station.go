@@ -35,8 +35,10 @@ type batch struct {
 	json                      bool   // one JSON object per unit on stdout instead of live lines
 }
 
-// loadFiles loads the station and sequence files; problems are bad input.
-func loadFiles(stationPath, sequencePath string) (*sequencer.Station, *sequencer.Sequence, error) {
+// loadFiles loads the station and sequence files; problems are bad input. One
+// file's parse cannot be interrupted, but files.Check bounds its work to well
+// under a second; a cancelled ctx (Ctrl-C, SIGTERM) stops between the files.
+func loadFiles(ctx context.Context, stationPath, sequencePath string) (*sequencer.Station, *sequencer.Sequence, error) {
 	var errs files.List
 	st, err := sequencer.LoadStation(stationPath)
 	if err != nil {
@@ -45,6 +47,9 @@ func loadFiles(stationPath, sequencePath string) (*sequencer.Station, *sequencer
 		} else {
 			return nil, nil, badInput(err)
 		}
+	}
+	if err := ctx.Err(); err != nil {
+		return nil, nil, err
 	}
 	seq, err := sequencer.LoadSequence(sequencePath)
 	if err != nil {
@@ -80,7 +85,7 @@ func (d detailed) Error() string {
 // ledger, the release check, the issuer and the engine; then it runs every serial
 // and prints a line (or a JSON object) per unit.
 func runBatch(ctx context.Context, e *env, b batch) (*sequencer.Tally, error) {
-	st, seq, err := loadFiles(b.stationPath, b.sequencePath)
+	st, seq, err := loadFiles(ctx, b.stationPath, b.sequencePath)
 	if err != nil {
 		return nil, err
 	}

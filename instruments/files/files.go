@@ -113,8 +113,14 @@ type Doc struct {
 	lines []string
 }
 
-// Parse parses data as YAML; syntax errors come back as *Error.
+// Parse parses data as YAML; syntax errors come back as *Error. A file outside
+// the bounds Check sets (size, nesting, keys of a mapping, documents) is refused
+// before the YAML library sees it (an *Error too), so no file costs more than a
+// bounded time and memory.
 func Parse(name string, data []byte) (doc *Doc, err error) {
+	if err := Check(name, data); err != nil {
+		return nil, err
+	}
 	defer recoverYAML(name, &err)
 	d := &Doc{Name: name, Data: data, lines: strings.Split(string(data), "\n")}
 	f, err := parser.ParseBytes(data, 0)

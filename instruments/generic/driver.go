@@ -41,7 +41,7 @@
 // # Settings
 //
 //	read_term, write_term  line terminators, escapes allowed ("\n", "\r\n"); "\n"
-//	timeout                per exchange (e.g. "500ms", "2 s"); default 2 s, or spec.Timeout
+//	timeout                per exchange (e.g. "500ms", "2 s"), at most 1 min; default 2 s, or spec.Timeout
 //	retries                extra tries of an idempotent query after a timeout or a
 //	                       dropped link (0..10); default 2
 //	reset                  source and meter: true|false, clear and reset at open; true
@@ -50,7 +50,7 @@
 //	                       required with arm_watchdog and only with it; choose it
 //	                       longer than the longest step of a run (a sweep point:
 //	                       settle + readings × aperture)
-//	line_frequency         meter: Hz, only to size the read timeout; 50 Hz
+//	line_frequency         meter: 10 to 1000 Hz, only to size the read timeout; 50 Hz
 //
 // # Behaviour
 //
@@ -185,6 +185,14 @@ var settingKeys = map[string][]string{
 
 var placeholderRE = regexp.MustCompile(`\{[^{}]*\}`)
 
+// Bounds on the settings: a longer timeout is a hung instrument, and the line
+// frequency sizes the read timeout (16.7 Hz rail to 400 Hz aircraft supplies fit).
+const (
+	maxTimeout  = time.Minute
+	minLineFreq = 10.0   // Hz
+	maxLineFreq = 1000.0 // Hz
+)
+
 // parseConfig validates spec and returns its configuration.
 func parseConfig(spec instruments.Spec) (config, error) {
 	c := config{role: spec.Role, retries: 2, reset: true, lineFreq: 50}
@@ -263,8 +271,8 @@ func parseConfig(spec instruments.Spec) (config, error) {
 			}
 		case "line_frequency":
 			c.lineFreq, err = units.ParseAs(v, units.Hertz)
-			if err != nil || !(c.lineFreq > 0) || math.IsInf(c.lineFreq, 0) {
-				err = settingErr(k, "%q: expected a positive frequency such as 50 Hz", v)
+			if err != nil || !(c.lineFreq >= minLineFreq && c.lineFreq <= maxLineFreq) {
+				err = settingErr(k, "%q: expected a frequency of %g to %g Hz such as 50 Hz", v, minLineFreq, maxLineFreq)
 			}
 		}
 		if err != nil {
@@ -314,6 +322,9 @@ func duration(key, v string) (time.Duration, error) {
 	}
 	if d <= 0 {
 		return 0, settingErr(key, "%q: expected a positive duration", v)
+	}
+	if d > maxTimeout {
+		return 0, settingErr(key, "%q: expected a duration of at most %s", v, maxTimeout)
 	}
 	return d, nil
 }

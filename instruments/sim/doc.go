@@ -125,7 +125,7 @@
 //
 //	bench-wide   seed (unsigned integer, 1), time (simulated|real, simulated),
 //	             start (RFC 3339, time.Now() at open)
-//	every model  latency (time per command, 0 s)
+//	every model  latency (time per command, at most 10 s; 0 s)
 //	source       spec_ppm_reading (20), spec_ppm_range (5), range (100 mV),
 //	             noise (50 nV rms), gain_error (drawn), offset (drawn)
 //	meter        spec_ppm_reading (30), spec_ppm_range (4), range (power-on range, 0 = auto = 10 V),

@@ -196,6 +196,10 @@ func choice(key, val string, allowed ...string) (string, error) {
 	return "", settingErr(key, "%q is not one of %s", val, strings.Join(allowed, ", "))
 }
 
+// maxLatency bounds the simulated time per command: with time: real the bench
+// waits it out.
+const maxLatency = 10 * time.Second
+
 // A setter parses the value of one settings key into its field; key names the
 // setting in errors. On error the field may hold a partial value: the caller drops
 // the whole config.
@@ -261,7 +265,10 @@ func (c *config) setters() map[string]setter {
 		},
 		"latency": func(k, val string) error {
 			v, err := nonNegative(k, val, units.Second)
-			c.latency = time.Duration(math.Round(v * 1e9))
+			if err == nil && v > maxLatency.Seconds() {
+				err = settingErr(k, "%q: expected a latency of at most %s", val, maxLatency)
+			}
+			c.latency = time.Duration(math.Round(min(v, maxLatency.Seconds()) * 1e9))
 			return err
 		},
 	}

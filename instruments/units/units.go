@@ -321,11 +321,22 @@ func (v *Frequency) UnmarshalYAML(n ast.Node) error {
 // Duration is a time written with a unit ("250us", "20ms", "2 s").
 type Duration time.Duration
 
-// UnmarshalYAML parses a duration.
+// UnmarshalYAML parses a duration. One that a time.Duration cannot hold (beyond
+// about ±292 years, or NaN) is an error rather than a wrapped-around value.
 func (v *Duration) UnmarshalYAML(n ast.Node) error {
 	f, err := decodeNode(n, Second)
+	if err != nil {
+		return err
+	}
+	if !(math.Abs(f) < float64(math.MaxInt64)/1e9) {
+		line, col := 0, 0
+		if tk := n.GetToken(); tk != nil && tk.Position != nil {
+			line, col = tk.Position.Line, tk.Position.Column
+		}
+		return &NodeError{Line: line, Col: col, Msg: fmt.Sprintf("expected a duration of at most %.0f s (292 years), found %q", float64(math.MaxInt64)/1e9, n.GetToken().Value)}
+	}
 	*v = Duration(time.Duration(math.Round(f * 1e9)))
-	return err
+	return nil
 }
 
 // D returns the value as a time.Duration.

@@ -11,6 +11,8 @@ import (
 	"encoding/hex"
 	"errors"
 	"fmt"
+	"io"
+	"os"
 
 	"trimline/reports/certificate"
 	"trimline/reports/ledger"
@@ -40,6 +42,28 @@ type Verdict struct {
 }
 
 func verdict(kind string, reasons ...string) Verdict { return Verdict{Kind: kind, Reasons: reasons} }
+
+// MaxPDFSize is the largest file ReadPDF reads; a certificate is tens of KB.
+const MaxPDFSize = 16 << 20
+
+// ReadPDF reads the file at path for Certificate. A file of more than MaxPDFSize
+// bytes is refused with an error that says so, without reading past the bound;
+// an os error comes back as it is.
+func ReadPDF(path string) ([]byte, error) {
+	f, err := os.Open(path)
+	if err != nil {
+		return nil, err
+	}
+	defer f.Close()
+	data, err := io.ReadAll(io.LimitReader(f, MaxPDFSize+1))
+	if err != nil {
+		return nil, err
+	}
+	if len(data) > MaxPDFSize {
+		return nil, fmt.Errorf("%s: more than %d MiB: not a certificate this station issued", path, MaxPDFSize>>20)
+	}
+	return data, nil
+}
 
 // Verifier returns a signature check that accepts only the trusted keys.
 func Verifier(keys Keys) func(keyID string, msg, sig []byte) bool {

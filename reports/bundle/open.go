@@ -7,6 +7,7 @@ import (
 	"crypto/ed25519"
 	"crypto/sha256"
 	"crypto/x509"
+	"encoding/binary"
 	"encoding/hex"
 	"encoding/json"
 	"encoding/pem"
@@ -15,16 +16,40 @@ import (
 	"io"
 	"strings"
 
+	"trimline/instruments/files"
 	"trimline/reports/ledger"
 	"trimline/reports/signing"
 	"trimline/sequencer"
 )
 
-// Limits on what Open reads, against archives that inflate without end.
+// Bounds on what Open reads, against archives that inflate without end (a 1.3 MB
+// zip bomb once took 2.3 GB before it was refused) and archives of countless
+// members. A run's record is at most about 20 MB (sequencer.MaxSweepReadings);
+// each bound is well above what Export writes for it. Within them Open holds at
+// most maxTotalSize of members and the record decoded from one of them; a bomb
+// is refused before it inflates (BenchmarkOpenZipBomb measures both).
 const (
-	maxMemberSize = 256 << 20 // bytes of one member, inflated
-	maxTotalSize  = 1 << 30   // bytes of all members, inflated
+	maxArchiveSize   = 128 << 20 // bytes of the archive file
+	maxTotalSize     = 96 << 20  // bytes of all members, inflated
+	maxRecordSize    = 40 << 20  // record.json and readings.csv, each, inflated
+	maxPDFSize       = 16 << 20  // certificate.pdf, inflated
+	maxSmallSize     = 1 << 20   // manifest.json, the seal, a public key, inflated
+	maxMembers       = 64        // members of the archive
+	maxDirectorySize = 32 << 10  // bytes of the zip's central directory
 )
+
+// memberLimit returns the most bytes the member name may inflate to.
+func memberLimit(name string) int64 {
+	switch {
+	case name == recordName || name == readingsName:
+		return maxRecordSize
+	case name == pdfName:
+		return maxPDFSize
+	case strings.HasPrefix(name, filesDir):
+		return files.MaxFileSize // a station, sequence or limit file must load
+	}
+	return maxSmallSize
+}
 
 // Bundle is a bundle read and checked by Open.
 type Bundle struct {
@@ -67,6 +92,12 @@ type Bundle struct {
 // is returned as it is (wrapped). Bundle.Verified and Bundle.Notes say what was
 // and was not checked. The public key checked is the bundle's own: see VerifyWith.
 func Open(r io.ReaderAt, size int64) (*Bundle, error) {
+	if size > maxArchiveSize {
+		return nil, bad("archive of %d bytes, more than the %d MiB a bundle may have", size, maxArchiveSize>>20)
+	}
+	if err := checkDirectory(r, size); err != nil {
+		return nil, bad("%v", err)
+	}
 	h := sha256.New()
 	if _, err := io.Copy(h, io.NewSectionReader(r, 0, size)); err != nil {
 		return nil, fmt.Errorf("bundle: read: %w", err)
@@ -78,6 +109,9 @@ func Open(r io.ReaderAt, size int64) (*Bundle, error) {
 	b := &Bundle{ArchiveSHA256: hex.EncodeToString(h.Sum(nil)), Files: map[string][]byte{}}
 	b.Source = Format + " sha256:" + b.ArchiveSHA256
 
+	if len(zr.File) > maxMembers {
+		return nil, bad("%d members, more than the %d a bundle may have", len(zr.File), maxMembers)
+	}
 	members := map[string][]byte{}
 	var total int64
 	for _, f := range zr.File {
@@ -88,16 +122,20 @@ func Open(r io.ReaderAt, size int64) (*Bundle, error) {
 		if !knownName(name) {
 			return nil, bad("member %q is not one a bundle has", name)
 		}
-		if f.UncompressedSize64 > maxMemberSize {
-			return nil, bad("member %s: %d bytes, more than %d", name, f.UncompressedSize64, maxMemberSize)
+		// The declared size is checked first, the bytes inflated after: a header
+		// may lie, so the read itself stops one byte past the bound.
+		limit := memberLimit(name)
+		if f.UncompressedSize64 > uint64(limit) {
+			return nil, bad("member %s declares %d bytes, more than the %d a bundle's %s may have", name, f.UncompressedSize64, limit, name)
 		}
-		data, err := readMember(f)
+		if left := maxTotalSize - total; f.UncompressedSize64 > uint64(left) {
+			return nil, bad("members of more than %d MiB in all", maxTotalSize>>20)
+		}
+		data, err := readMember(f, min(limit, maxTotalSize-total))
 		if err != nil {
 			return nil, bad("member %s: %v", name, err)
 		}
-		if total += int64(len(data)); total > maxTotalSize {
-			return nil, bad("members of more than %d bytes", maxTotalSize)
-		}
+		total += int64(len(data))
 		members[name] = data
 	}
 
@@ -369,21 +407,73 @@ func knownName(name string) bool {
 	return false
 }
 
-// readMember inflates one member (archive/zip checks its CRC-32 at the end).
-func readMember(f *zip.File) ([]byte, error) {
+// readMember inflates one member, at most limit bytes of it whatever its header
+// says (archive/zip checks the CRC-32 and the declared size at the end). The
+// buffer starts at the declared size, itself at most limit, so that an honest
+// member is read without growing it.
+func readMember(f *zip.File, limit int64) ([]byte, error) {
 	rc, err := f.Open()
 	if err != nil {
 		return nil, err
 	}
 	defer rc.Close()
-	data, err := io.ReadAll(io.LimitReader(rc, maxMemberSize+1))
-	if err != nil {
+	buf := bytes.NewBuffer(make([]byte, 0, min(int64(f.UncompressedSize64), limit)+bytes.MinRead))
+	if _, err := buf.ReadFrom(io.LimitReader(rc, limit+1)); err != nil {
 		return nil, err
 	}
-	if len(data) > maxMemberSize {
-		return nil, fmt.Errorf("more than %d bytes", maxMemberSize)
+	if int64(buf.Len()) > limit {
+		return nil, fmt.Errorf("inflates to more than %d bytes", limit)
 	}
-	return data, nil
+	return buf.Bytes(), nil
+}
+
+// checkDirectory finds the end record of the zip's central directory as
+// archive/zip does and refuses a zip64 archive, more than maxMembers entries, a
+// directory larger than maxDirectorySize and one that does not end where the end
+// record starts. archive/zip reads directory entries up to the end of the file and
+// checks their count only modulo 65536, so without this a small archive could
+// make it build a million entries before Open sees the first. An archive without
+// an end record is left to archive/zip to refuse.
+func checkDirectory(r io.ReaderAt, size int64) error {
+	const endLen = 22 // the end record without its comment
+	for _, n := range []int64{1024, 65 * 1024} {
+		n = min(n, size)
+		buf := make([]byte, n)
+		if _, err := r.ReadAt(buf, size-n); err != nil && err != io.EOF {
+			return err
+		}
+		p := -1
+		for i := len(buf) - endLen; i >= 0; i-- { // as archive/zip's findSignatureInBlock
+			if buf[i] == 'P' && buf[i+1] == 'K' && buf[i+2] == 5 && buf[i+3] == 6 {
+				if comment := int(binary.LittleEndian.Uint16(buf[i+20:])); i+endLen+comment <= len(buf) {
+					p = i
+				}
+				break
+			}
+		}
+		if p < 0 {
+			if n == size {
+				return nil
+			}
+			continue
+		}
+		end := buf[p:]
+		records := binary.LittleEndian.Uint16(end[10:])
+		dirSize := binary.LittleEndian.Uint32(end[12:])
+		dirOffset := binary.LittleEndian.Uint32(end[16:])
+		switch {
+		case records == 0xffff || dirSize >= 0xffff || dirOffset == 0xffffffff:
+			return errors.New("a zip64 archive or a central directory of 64 KiB or more; a bundle needs neither")
+		case records > maxMembers:
+			return fmt.Errorf("%d members, more than the %d a bundle may have", records, maxMembers)
+		case dirSize > maxDirectorySize:
+			return fmt.Errorf("a central directory of %d bytes, more than %d", dirSize, maxDirectorySize)
+		case int64(dirOffset)+int64(dirSize) != size-n+int64(p):
+			return errors.New("the central directory does not end where its end record starts")
+		}
+		return nil
+	}
+	return nil
 }
 
 // decodeStrict decodes one JSON value into v: no unknown fields, nothing after it.

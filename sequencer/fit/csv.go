@@ -32,8 +32,13 @@ func (e *InputError) Error() string {
 	return fmt.Sprintf("%s:%d:%d: %s", e.File, e.Line, e.Col, e.Msg)
 }
 
-// maxLine is the longest line ReadXY accepts, in bytes.
-const maxLine = 1 << 20
+// Bounds on what ReadXY reads, so that no input costs more than a few MB: a
+// characterisation has hundreds of points, a long logged sweep thousands.
+const (
+	maxLine  = 1 << 20  // bytes of one line
+	MaxRows  = 100_000  // data rows
+	MaxBytes = 16 << 20 // bytes of the whole input, comments included
+)
 
 // ReadXY reads a table of two or three numeric columns from r: x, y and
 // optionally the per-point standard uncertainty u of y (in units of y). u is
@@ -53,6 +58,8 @@ const maxLine = 1 << 20
 //   - Every data row must have the same number of columns, 2 or 3. Values
 //     are parsed with strconv.ParseFloat and must be finite; u must be
 //     positive.
+//   - At most MaxRows data rows, lines of at most 1 MiB and MaxBytes in all:
+//     ReadXY never reads more than MaxBytes+1 bytes of r.
 //
 // Errors about the content are of type *InputError and name file, line and
 // column, e.g. `name:7:5: expected a number, found "abc"`. An input with no
@@ -60,7 +67,8 @@ const maxLine = 1 << 20
 // (not as *InputError) with the file name and line number. ReadXY is safe
 // for concurrent use with distinct readers.
 func ReadXY(name string, r io.Reader) (x, y, u []float64, err error) {
-	sc := bufio.NewScanner(r)
+	lr := &io.LimitedReader{R: r, N: MaxBytes + 1}
+	sc := bufio.NewScanner(lr)
 	sc.Buffer(make([]byte, 0, 4096), maxLine)
 	var (
 		lineNo   int
@@ -75,6 +83,9 @@ func ReadXY(name string, r io.Reader) (x, y, u []float64, err error) {
 	}
 	for sc.Scan() {
 		lineNo++
+		if lr.N <= 0 { // this line may be cut short: the input is over the bound
+			return fail(0, "input larger than %d MiB: expected at most %d MiB of data", MaxBytes>>20, MaxBytes>>20)
+		}
 		line := sc.Text()
 		if lineNo == 1 {
 			line = strings.TrimPrefix(line, "\uFEFF")
@@ -132,6 +143,9 @@ func ReadXY(name string, r io.Reader) (x, y, u []float64, err error) {
 			}
 			return fail(col, "expected %d columns as on line %d, found %d", ncol, ncolLine, len(fields))
 		}
+		if len(x) == MaxRows {
+			return fail(1, "expected at most %d data rows", MaxRows)
+		}
 		x = append(x, vals[0])
 		y = append(y, vals[1])
 		if ncol == 3 {
@@ -139,6 +153,10 @@ func ReadXY(name string, r io.Reader) (x, y, u []float64, err error) {
 		}
 	}
 	if serr := sc.Err(); serr != nil {
+		if errors.Is(serr, bufio.ErrTooLong) && lr.N <= 0 {
+			lineNo++
+			return fail(0, "input larger than %d MiB: expected at most %d MiB of data", MaxBytes>>20, MaxBytes>>20)
+		}
 		if errors.Is(serr, bufio.ErrTooLong) {
 			lineNo++
 			return fail(0, "line longer than %d bytes", maxLine)

@@ -42,6 +42,15 @@ var ErrSingular = errors.New("singular design matrix")
 // design matrix overflows.
 var ErrInvalidInput = errors.New("invalid input")
 
+// ErrNotFinite is wrapped by the errors of Poly and Weighted when the fit of
+// finite data overflows: a coefficient, a covariance, a residual or the
+// residual sum of squares comes out NaN or ±Inf (data near the largest
+// float64, about 1.8e308, or spread over too many decades). It is wrapped by
+// Result.Prediction when the predicted value or its uncertainty is not
+// finite. A result that cannot be printed as a number is refused, never
+// returned.
+var ErrNotFinite = errors.New("result not finite")
+
 // Result is a polynomial least-squares fit y = b0 + b1·(x−x0) [+ b2·(x−x0)²].
 // Units are those of x and y: Coef[k] is in units of y per unit of x to the
 // power k, Cov[i][j] in the product of the units of Coef[i] and Coef[j].
@@ -80,7 +89,8 @@ type Result struct {
 //
 // Errors: ErrInvalidInput (wrapped) if order is not 1 or 2, len(x) ≠ len(y),
 // any value or x0 is NaN or ±Inf, or the design matrix overflows;
-// ErrTooFewPoints if len(x) < order+2 (at least one degree of freedom is
+// ErrNotFinite if the fit overflows (a coefficient, covariance, residual or
+// the residual sum of squares would be NaN or ±Inf); ErrTooFewPoints if len(x) < order+2 (at least one degree of freedom is
 // needed to estimate s); ErrSingular if the x values do not determine the
 // polynomial (e.g. all x equal). The inputs are not modified. Poly is safe
 // for concurrent use.
@@ -318,7 +328,47 @@ func solve(fn string, x, y, u []float64, order int, x0 float64, absolute bool) (
 		}
 		res.StdUnc[i] = math.Sqrt(res.Cov[i][i])
 	}
+	if err := res.checkFinite(); err != nil {
+		return Result{}, fmt.Errorf("%s: %w: %v; rescale the data (e.g. to mV or kV) or choose x0 nearer the data", fn, ErrNotFinite, err)
+	}
 	return res, nil
+}
+
+// checkFinite names the first part of r that is NaN or ±Inf. ResidualSD (NaN
+// when DOF is 0) and RSquared (NaN when all y are equal) may be NaN by
+// definition; they are checked only against overflow to ±Inf.
+func (r Result) checkFinite() error {
+	for i, v := range r.Coef {
+		if !isFinite(v) {
+			return fmt.Errorf("coefficient b%d is %v", i, v)
+		}
+	}
+	for i, row := range r.Cov {
+		for j, v := range row {
+			if !isFinite(v) {
+				return fmt.Errorf("covariance of b%d and b%d is %v", i, j, v)
+			}
+		}
+	}
+	for i, v := range r.StdUnc {
+		if !isFinite(v) {
+			return fmt.Errorf("u(b%d) is %v", i, v)
+		}
+	}
+	for i, v := range r.Residuals {
+		if !isFinite(v) {
+			return fmt.Errorf("residual of point %d is %v", i, v)
+		}
+	}
+	switch {
+	case !isFinite(r.RSS):
+		return fmt.Errorf("the residual sum of squares is %v", r.RSS)
+	case math.IsInf(r.ResidualSD, 0):
+		return fmt.Errorf("the residual SD is %v", r.ResidualSD)
+	case math.IsInf(r.RSquared, 0):
+		return fmt.Errorf("R² is %v", r.RSquared)
+	}
+	return nil
 }
 
 // Predict returns the fitted value ŷ(x) = Σ Coef[k]·(x−X0)^k, in units of y,
@@ -351,6 +401,21 @@ func (r Result) PredictU(x float64) (y, u float64) {
 		}
 	}
 	return r.Predict(x), math.Sqrt(math.Max(v, 0))
+}
+
+// Prediction is PredictU that refuses what it cannot give as a number: an x that
+// is NaN or ±Inf is ErrInvalidInput, a predicted value or uncertainty that
+// overflows (x far outside the data, or data near the float64 range) is
+// ErrNotFinite, both wrapped.
+func (r Result) Prediction(x float64) (y, u float64, err error) {
+	if !isFinite(x) {
+		return 0, 0, fmt.Errorf("fit: %w: x is %v", ErrInvalidInput, x)
+	}
+	y, u = r.PredictU(x)
+	if !isFinite(y) || !isFinite(u) {
+		return 0, 0, fmt.Errorf("fit: %w: at x = %g the prediction is y = %v, u(y) = %v", ErrNotFinite, x, y, u)
+	}
+	return y, u, nil
 }
 
 // Corr returns the correlation coefficient Cov[i][j]/(StdUnc[i]·StdUnc[j])
