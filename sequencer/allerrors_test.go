@@ -35,7 +35,7 @@ func TestEveryErrorOfAFileAtOnce(t *testing.T) {
 			"  points: 11\n  settle: 20 ms\n", "  points: many\n  settle: 20 ms\n"),
 			[]struct{ needle, msg string }{
 				{"settle: 20 mV", "expected a time"}, {"fullscale:", `unknown field "fullscale"`},
-				{"nplc: 5000", "between 0 and 1000"}, {"points: many", "expected a whole number"},
+				{"nplc: 5000", "at most 1000 power-line cycles"}, {"points: many", "expected a whole number"},
 			}},
 	} {
 		t.Run(c.file, func(t *testing.T) {
