@@ -14,6 +14,7 @@ import (
 	"time"
 
 	"trimline/instruments/sim/serve"
+	"trimline/reports/issuing"
 	"trimline/reports/ledger"
 	"trimline/reports/release"
 	"trimline/reports/signing"
@@ -92,6 +93,9 @@ unit takes a few seconds, as it would on a real bench.`,
 		}
 		t, err := runBatch(ctx, e, batch{stationPath: station, sequencePath: sequence, serials: serials, out: *out,
 			operator: *operator, ambient: *ambient, retest: *retest})
+		if errors.Is(err, issuing.ErrTestedBefore) {
+			return fmt.Errorf("%w\nThe demo folder %s already holds these units: give --retest to run them again, or --out a new folder", err, *out)
+		}
 		if err != nil {
 			return err
 		}

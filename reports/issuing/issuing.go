@@ -15,6 +15,7 @@ import (
 	"fmt"
 	"os"
 	"path/filepath"
+	"strings"
 
 	"trimline/reports/certificate"
 	"trimline/reports/ledger"
@@ -67,16 +68,52 @@ func (e *TestedBeforeError) Error() string {
 // Unwrap returns ErrTestedBefore.
 func (e *TestedBeforeError) Unwrap() error { return ErrTestedBefore }
 
+// TestedBefore is every serial of a batch that CheckRetests refused, in batch
+// order. Its message names the first few in full and counts the rest, so that a
+// whole batch run again reads as one refusal, not a screen of them.
+type TestedBefore []*TestedBeforeError
+
+// shownInFull is how many refusals TestedBefore's message spells out.
+const shownInFull = 3
+
+func (t TestedBefore) Error() string {
+	var b strings.Builder
+	for i, e := range t {
+		if i == shownInFull {
+			rest := make([]string, 0, len(t)-i)
+			for _, r := range t[i:] {
+				rest = append(rest, r.Serial)
+			}
+			fmt.Fprintf(&b, "\n… and %d more serial(s) tested before: %s", len(rest), strings.Join(rest, ", "))
+			break
+		}
+		if i > 0 {
+			b.WriteString("\n")
+		}
+		b.WriteString(e.Error())
+	}
+	return b.String()
+}
+
+// Unwrap returns each refusal, so errors.Is(err, ErrTestedBefore) holds.
+func (t TestedBefore) Unwrap() []error {
+	errs := make([]error, len(t))
+	for i, e := range t {
+		errs[i] = e
+	}
+	return errs
+}
+
 // CheckRetests refuses, before a batch starts, every serial that already has a
 // measured run (PASS, FAIL or REVIEW; engineering runs counted among engineering
-// runs only) and every serial given twice, unless retest is true. The error joins
-// one *TestedBeforeError per refused serial; nil when all may run. A ledger
+// runs only) and every serial given twice, unless retest is true. The error is a
+// TestedBefore listing every refused serial; nil when all may run. A ledger
 // failure is returned as it is.
 func (is *Issuer) CheckRetests(ctx context.Context, serials []string, retest bool) error {
 	if retest {
 		return nil
 	}
-	var errs []error
+	var errs TestedBefore
 	seen := map[string]bool{}
 	for _, sn := range serials {
 		if seen[sn] {
@@ -92,7 +129,10 @@ func (is *Issuer) CheckRetests(ctx context.Context, serials []string, retest boo
 			errs = append(errs, &TestedBeforeError{Serial: sn, Earlier: run, Engineering: is.Engineering})
 		}
 	}
-	return errors.Join(errs...)
+	if len(errs) == 0 {
+		return nil
+	}
+	return errs
 }
 
 // Record stores rec and, for a certified verdict, publishes its certificate. It

@@ -3,10 +3,12 @@ package issuing_test
 import (
 	"bytes"
 	"context"
+	"errors"
 	"io/fs"
 	"os"
 	"path/filepath"
 	"regexp"
+	"strings"
 	"testing"
 	"time"
 
@@ -120,5 +122,24 @@ func TestRepairRepublishesByteIdentical(t *testing.T) {
 	}
 	if _, err := os.Stat(pdfs[0] + ".seal"); err != nil {
 		t.Error("the seal was not rewritten")
+	}
+}
+
+// A whole batch run again is one refusal: the first few serials in full, the rest
+// counted and named, and every one still an ErrTestedBefore.
+func TestTestedBeforeMessageStaysShort(t *testing.T) {
+	var tb issuing.TestedBefore
+	for _, sn := range []string{"BRX-00001", "BRX-00002", "BRX-00003", "BRX-00004", "BRX-00005"} {
+		tb = append(tb, &issuing.TestedBeforeError{Serial: sn, InBatch: true})
+	}
+	msg := tb.Error()
+	if n := strings.Count(msg, "give --retest"); n != 3 {
+		t.Errorf("%d refusals spelled out, want 3:\n%s", n, msg)
+	}
+	if !strings.Contains(msg, "… and 2 more serial(s) tested before: BRX-00004, BRX-00005") {
+		t.Errorf("the rest are not counted and named:\n%s", msg)
+	}
+	if !errors.Is(tb, issuing.ErrTestedBefore) {
+		t.Error("not an ErrTestedBefore")
 	}
 }
