@@ -66,6 +66,23 @@ output: {folder: out}
 	return st, seq
 }
 
+// wireEngine serves the quiet bench over loopback TCP and opens the engine on it
+// through the generic drivers, with extra added to the station's source entry. The
+// context ends with the test, after at most 30 s.
+func wireEngine(t *testing.T, extra string) (*serve.Server, *sequencer.Engine, context.Context) {
+	t.Helper()
+	srv := simtest.Serve(t, serve.Options{Transport: "tcp"})
+	st, seq := wireFiles(t, srv, extra)
+	ctx, cancel := context.WithTimeout(context.Background(), 30*time.Second)
+	t.Cleanup(cancel)
+	e, err := sequencer.Open(ctx, sequencer.Config{Station: st, Sequence: seq, Operator: "test", Software: "test"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	t.Cleanup(func() { e.Close() })
+	return srv, e, ctx
+}
+
 // TestEngineOverTheWire is a smoke test of the whole chain: the engine opens the
 // served bench through the generic drivers by the addresses Server.Addresses gives,
 // loads the unit over the wire (load_unit), reads the interlock and trims one unit.
@@ -76,15 +93,7 @@ func TestEngineOverTheWire(t *testing.T) {
 	if testing.Short() {
 		t.Skip("real-time run")
 	}
-	srv := simtest.Serve(t, serve.Options{Transport: "tcp"})
-	st, seq := wireFiles(t, srv, "")
-	ctx, cancel := context.WithTimeout(context.Background(), 20*time.Second)
-	defer cancel()
-	e, err := sequencer.Open(ctx, sequencer.Config{Station: st, Sequence: seq, Operator: "test", Software: "test"})
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer e.Close()
+	srv, e, ctx := wireEngine(t, "")
 	rec := e.Run(ctx, "BRX-000123")
 	if rec.Verdict != sequencer.Pass {
 		t.Fatalf("verdict %s: fault %q, reasons %q", rec.Verdict, rec.Fault, rec.Reasons)
@@ -114,15 +123,7 @@ func TestErrorQueuedByAReadingIsAFault(t *testing.T) {
 	if testing.Short() {
 		t.Skip("real-time run")
 	}
-	srv := simtest.Serve(t, serve.Options{Transport: "tcp"})
-	st, seq := wireFiles(t, srv, "")
-	ctx, cancel := context.WithTimeout(context.Background(), 30*time.Second)
-	defer cancel()
-	e, err := sequencer.Open(ctx, sequencer.Config{Station: st, Sequence: seq, Operator: "test", Software: "test"})
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer e.Close()
+	srv, e, ctx := wireEngine(t, "")
 	stale := `-230,"Data corrupt or stale"`
 	for _, c := range []struct {
 		name   string
@@ -167,15 +168,7 @@ func TestWatchdogSwitchesOffAStationThatStoppedTalking(t *testing.T) {
 	if testing.Short() {
 		t.Skip("real-time run")
 	}
-	srv := simtest.Serve(t, serve.Options{Transport: "tcp"})
-	st, seq := wireFiles(t, srv, watchdogEntry)
-	ctx, cancel := context.WithTimeout(context.Background(), 30*time.Second)
-	defer cancel()
-	e, err := sequencer.Open(ctx, sequencer.Config{Station: st, Sequence: seq, Operator: "test", Software: "test"})
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer e.Close()
+	srv, e, ctx := wireEngine(t, watchdogEntry)
 	if _, ok := e.Instrument("source").(instruments.OutputWatchdog); !ok {
 		t.Fatalf("the source is a %T, without an output watchdog", e.Instrument("source"))
 	}
