@@ -178,6 +178,15 @@ func TestNoKeyIsTrustedByDefault(t *testing.T) {
 	if code, out, errOut := runCLI(t, "import", zip, "--ledger", filepath.Join(t.TempDir(), "a.db"), "--keys", filepath.Join(genuine, "keys")); code != exitFail {
 		t.Errorf("import of the forger's bundle against the genuine key: exit %d\n%s%s", code, out, errOut)
 	}
+	code, out, errOut = runCLI(t, "audit", "ledger", "--ledger", led, "--keys", filepath.Join(genuine, "keys"))
+	if code != exitFail || strings.Contains(out, "chain intact") || !strings.Contains(out, "which is not a trusted key of station TL1") {
+		t.Errorf("audit ledger of the forger's ledger against the genuine key: exit %d, want 1 naming the other key\n%s%s", code, out, errOut)
+	}
+	// A folder that binds no key to TL1 leaves its runs unchecked: said, and not intact.
+	code, out, errOut = runCLI(t, "audit", "ledger", "--ledger", led, "--keys", t.TempDir())
+	if code != exitFail || strings.Contains(out, "chain intact") || !strings.Contains(out, "station TL1: no trusted key is bound to it") {
+		t.Errorf("audit ledger with no key for its station: exit %d, want 1 naming the station\n%s%s", code, out, errOut)
+	}
 
 	// A trust file kept by the auditor: by key file, or by full fingerprint, whose
 	// key is then admitted from beside the ledger or from a bundle.
@@ -292,5 +301,40 @@ func TestKeyFoldersWritableByOthersRefused(t *testing.T) {
 
 	if code, out, errOut := runCLI(t, "run", "--station", station, "--sequence", sequence, "--out", dir, "--serial", "BRX-00004"); code != exitPass {
 		t.Errorf("with the folders put right: exit %d\n%s%s", code, out, errOut)
+	}
+}
+
+// Issue 11, item 1, the rule for the whole station: an unsigned run appended to a
+// station's signed chain makes its earlier, signed certificates not genuine too,
+// and audit ledger names the run.
+func TestUnsignedRunInASignedChain(t *testing.T) {
+	dir := t.TempDir()
+	if code, out, errOut := runCLI(t, "demo", "--out", dir, "--units", "1"); code != 0 {
+		t.Fatalf("demo: exit %d\n%s%s", code, out, errOut)
+	}
+	keys := t.TempDir()
+	os.WriteFile(filepath.Join(keys, "TL1.pub"), mustRead(t, filepath.Join(dir, "keys", "TL1.pub")), 0o644)
+	station := filepath.Join(dir, "brx200-station.yaml")
+	data := regexp.MustCompile(`(?m)^signing:\n.*\n.*\n`).ReplaceAll(mustRead(t, station), nil)
+	os.WriteFile(station, data, 0o644)
+	if code, out, errOut := runCLI(t, "run", "--station", station, "--sequence", filepath.Join(dir, "brx200-sequence.yaml"), "--out", dir, "--serial", "BRX-00002"); code != exitPass {
+		t.Fatalf("unsigned run: exit %d\n%s%s", code, out, errOut)
+	}
+	led, err := ledger.Open(context.Background(), filepath.Join(dir, "ledger.db"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	runs, _ := led.Runs(context.Background(), "BRX-00002")
+	led.Close()
+	if len(runs) != 1 {
+		t.Fatalf("%d runs of BRX-00002", len(runs))
+	}
+	code, out, errOut := runCLI(t, "audit", "verify", filepath.Join(dir, "certificates", "TL1-000001_BRX-00001.pdf"), "--keys", keys)
+	if code != exitFail || !strings.HasPrefix(out, "ALTERED") || !strings.Contains(out, runs[0].RunID) {
+		t.Errorf("signed certificate of a chain holding an unsigned run: exit %d, want ALTERED naming run %s\n%s%s", code, runs[0].RunID, out, errOut)
+	}
+	code, out, errOut = runCLI(t, "audit", "ledger", "--ledger", filepath.Join(dir, "ledger.db"), "--keys", keys)
+	if code != exitFail || !strings.Contains(out, runs[0].RunID+" (TL1-000002, serial BRX-00002) of station TL1: unsigned") {
+		t.Errorf("audit ledger: exit %d, want 1 naming run %s\n%s%s", code, runs[0].RunID, out, errOut)
 	}
 }
