@@ -24,12 +24,13 @@ func TestAuditDemo(t *testing.T) {
 		t.Fatalf("demo: exit %d\n%s%s", code, out, errOut)
 	}
 	led := filepath.Join(dir, "ledger.db")
+	keys := filepath.Join(dir, "keys") // the auditor's copy of the station's public key
 	pdfs, _ := filepath.Glob(filepath.Join(dir, "certificates", "*.pdf"))
 	if len(pdfs) != 25 {
 		t.Fatalf("%d certificates", len(pdfs))
 	}
 	for _, p := range pdfs[:3] {
-		if code, out, _ := runCLI(t, "audit", "verify", p); code != 0 || !strings.HasPrefix(out, "GENUINE") {
+		if code, out, _ := runCLI(t, "audit", "verify", p, "--keys", keys); code != 0 || !strings.HasPrefix(out, "GENUINE") {
 			t.Errorf("%s: exit %d\n%s", p, code, out)
 		}
 	}
@@ -38,33 +39,33 @@ func TestAuditDemo(t *testing.T) {
 	bad := filepath.Join(t.TempDir(), "altered.pdf")
 	data[len(data)/2] ^= 0x20
 	os.WriteFile(bad, data, 0o644)
-	if code, out, _ := runCLI(t, "audit", "verify", "--ledger", led, bad); code != exitFail || !strings.HasPrefix(out, "ALTERED") {
+	if code, out, _ := runCLI(t, "audit", "verify", "--ledger", led, "--keys", keys, bad); code != exitFail || !strings.HasPrefix(out, "ALTERED") {
 		t.Errorf("altered: exit %d\n%s", code, out)
 	}
 	seal, _ := os.ReadFile(pdfs[0] + ".seal")
 	os.WriteFile(bad+".seal", seal, 0o644)
-	if code, out, _ := runCLI(t, "audit", "verify", "--no-ledger", "--keys", filepath.Join(dir, "keys"), bad); code != exitFail || !strings.HasPrefix(out, "ALTERED") {
+	if code, out, _ := runCLI(t, "audit", "verify", "--no-ledger", "--keys", keys, bad); code != exitFail || !strings.HasPrefix(out, "ALTERED") {
 		t.Errorf("altered, seal only: exit %d\n%s", code, out)
 	}
-	if code, out, _ := runCLI(t, "audit", "ledger", "--ledger", led); code != 0 || !strings.Contains(out, "chain intact") || !strings.Contains(out, "25 signed, 25 verified") {
+	if code, out, _ := runCLI(t, "audit", "ledger", "--ledger", led, "--keys", keys); code != 0 || !strings.Contains(out, "chain intact") || !strings.Contains(out, "25 signed, 25 verified") {
 		t.Errorf("audit ledger: exit %d\n%s", code, out)
 	}
 	// Replay of every demo unit reproduces its recorded verdicts exactly.
 	for i := 1; i <= 25; i++ {
 		sn := fmt.Sprintf("BRX-%05d", i)
-		if code, out, errOut := runCLI(t, "audit", "replay", "--ledger", led, sn); code != 0 || !strings.Contains(out, "reproduced exactly") {
+		if code, out, errOut := runCLI(t, "audit", "replay", "--ledger", led, "--keys", keys, sn); code != 0 || !strings.Contains(out, "reproduced exactly") {
 			t.Errorf("replay %s: exit %d\n%s%s", sn, code, out, errOut)
 		}
 	}
 	// A ledger named but unreadable is an error, never a fallback to the seal.
-	if code, _, _ := runCLI(t, "audit", "verify", "--ledger", filepath.Join(t.TempDir(), "typo.db"), pdfs[0]); code != exitUsage {
+	if code, _, _ := runCLI(t, "audit", "verify", "--ledger", filepath.Join(t.TempDir(), "typo.db"), "--keys", keys, pdfs[0]); code != exitUsage {
 		t.Errorf("missing --ledger: exit %d, want 2", code)
 	}
 	num := strings.SplitN(filepath.Base(pdfs[0]), "_", 2)[0]
 	if code, _, errOut := runCLI(t, "audit", "void", num, "--ledger", led, "--by", "Q. Engineer", "--reason", "wrong fixture"); code != 0 {
 		t.Fatalf("void: %d %s", code, errOut)
 	}
-	if code, out, _ := runCLI(t, "audit", "verify", pdfs[0]); code != exitFail || !strings.HasPrefix(out, "VOIDED") || !strings.Contains(out, "wrong fixture") {
+	if code, out, _ := runCLI(t, "audit", "verify", pdfs[0], "--keys", keys); code != exitFail || !strings.HasPrefix(out, "VOIDED") || !strings.Contains(out, "wrong fixture") {
 		t.Errorf("voided: exit %d\n%s", code, out)
 	}
 }
@@ -138,7 +139,7 @@ func TestKillNineCrashSafety(t *testing.T) {
 		p := pdfs[rng.IntN(len(pdfs))]
 		// Each kill's next start retests the same serials: earlier certificates are
 		// superseded, still authentic.
-		if code, out, _ := runCLI(t, "audit", "verify", "--ledger", ledgerPath, p); code != 0 && !strings.HasPrefix(out, "SUPERSEDED") {
+		if code, out, _ := runCLI(t, "audit", "verify", "--ledger", ledgerPath, "--keys", filepath.Join(dir, "keys"), p); code != 0 && !strings.HasPrefix(out, "SUPERSEDED") {
 			t.Errorf("%s after crashes: %s", p, out)
 		}
 	}
@@ -189,10 +190,10 @@ func TestExportImportReplay(t *testing.T) {
 	}
 	audit := filepath.Join(t.TempDir(), "audit.db")
 	code, out, errOut := runCLI(t, "import", zip, "--ledger", audit, "--keys", filepath.Join(dir, "keys"))
-	if code != 0 || !strings.Contains(out, "signed by a trusted key") {
+	if code != 0 || !strings.Contains(out, "a trusted key of station TL1") {
 		t.Fatalf("import: %d\n%s%s", code, out, errOut)
 	}
-	if code, out, errOut := runCLI(t, "audit", "replay", "TL1-000002", "--ledger", audit); code != 0 || !strings.Contains(out, "reproduced exactly") {
+	if code, out, errOut := runCLI(t, "audit", "replay", "TL1-000002", "--ledger", audit, "--keys", filepath.Join(dir, "keys")); code != 0 || !strings.Contains(out, "reproduced exactly") {
 		t.Fatalf("replay of the imported run: %d\n%s%s", code, out, errOut)
 	}
 	// A bundle with one byte changed does not import.
@@ -200,7 +201,7 @@ func TestExportImportReplay(t *testing.T) {
 	data[len(data)/3] ^= 1
 	bad := filepath.Join(t.TempDir(), "bad.zip")
 	os.WriteFile(bad, data, 0o644)
-	if code, _, _ := runCLI(t, "import", bad, "--ledger", audit); code == 0 {
+	if code, _, _ := runCLI(t, "import", bad, "--ledger", audit, "--keys", filepath.Join(dir, "keys")); code == 0 {
 		t.Error("an altered bundle was imported")
 	}
 }

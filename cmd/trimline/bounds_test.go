@@ -94,7 +94,7 @@ func TestAuditVerifyRefusesHugeFile(t *testing.T) {
 	}
 	f.Truncate(17 << 20) // sparse: 17 MiB of zeros
 	f.Close()
-	code, out, errOut := runCLI(t, "audit", "verify", path, "--no-ledger")
+	code, out, errOut := runCLI(t, "audit", "verify", path, "--no-ledger", "--keys", t.TempDir())
 	if code != exitUsage || !strings.Contains(errOut, "more than 16 MiB") {
 		t.Errorf("exit %d, want %d\nstdout: %s\nstderr: %s", code, exitUsage, out, errOut)
 	}

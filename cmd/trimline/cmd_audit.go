@@ -4,6 +4,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"io"
 	"os"
 	"path/filepath"
 	"sort"
@@ -25,14 +26,25 @@ func newAuditCmd() *command {
 
 func newAuditVerifyCmd() *command {
 	c := &command{
-		UsageLine: "trimline audit verify FILE.pdf [--ledger DB] [--keys DIR] [--no-ledger]",
+		UsageLine: "trimline audit verify FILE.pdf --keys DIR|--trust FILE [--ledger DB] [--no-ledger]",
 		Short:     "tell whether a certificate PDF is genuine, altered or unknown",
 		Long: `Says genuine, altered, unknown, voided or superseded, with the reason: the PDF's
-hash against the ledger's document and its signature, the record's signature and
-the ledger's hash chain, or, without a ledger, the seal beside the PDF
-(FILE.pdf.seal). Superseded is an authentic certificate that is no longer current:
-a certified retest of the same serial replaced it ("superseded by NUMBER"). Exit 0
-only for genuine (current); 1 for altered, unknown, voided and superseded.`,
+hash against the ledger's document and its signature, the record's signature by a
+trusted key of the run's station, the ledger's hash chain and that every run of
+that station is signed by its trusted key. Superseded is an authentic certificate
+that is no longer current: a certified retest of the same serial replaced it
+("superseded by NUMBER").
+
+No key is trusted by default: give --keys DIR (STATION.pub binds a key to a
+station) or --trust FILE, your own copy, kept away from the station. Without
+either the command cannot decide and exits 2.
+
+The ledger is --ledger, else ledger.db in the folder above the certificate's own
+(the station's output folder, which holds certificates/ and ledger.db); when there
+is none the command refuses (exit 2). --no-ledger checks the seal beside the PDF
+(FILE.pdf.seal) alone, and says that voids, supersedes and the chain were not
+checked. Exit 0 only for genuine (current); 1 for altered, unknown, voided and
+superseded.`,
 	}
 	a := newAuditor(c)
 	c.Flag.BoolVar(&a.noLedger, "no-ledger", false, "verify from the seal beside the PDF and the trusted keys alone")
@@ -47,11 +59,15 @@ only for genuine (current); 1 for altered, unknown, voided and superseded.`,
 
 func newAuditLedgerCmd() *command {
 	c := &command{
-		UsageLine: "trimline audit ledger [--ledger DB] [--keys DIR]",
+		UsageLine: "trimline audit ledger --keys DIR|--trust FILE [--ledger DB]",
 		Short:     "verify every station's hash chain and the audit trail",
 		Long: `Walks every station's hash chain and the audit trail and reports the first broken
-link; signatures are checked with the public keys in --keys. Prints the chain heads
-to keep elsewhere. Exit 1 when the chain is broken.`,
+link; signatures are checked with the trusted keys (--keys DIR or --trust FILE; no
+key is trusted by default, exit 2 without). Every run of a station must be signed
+by a key bound to that station: the runs that are not (unsigned, or signed by
+another key) are listed, as is a station with no trusted key. Prints the chain
+heads to keep elsewhere. Exit 1 when the chain is broken or a run is not signed by
+its station's trusted key.`,
 	}
 	a := newAuditor(c)
 	c.Run = func(ctx context.Context, e *env, args []string) error {
@@ -65,11 +81,13 @@ to keep elsewhere. Exit 1 when the chain is broken.`,
 
 func newAuditReplayCmd() *command {
 	c := &command{
-		UsageLine: "trimline audit replay CERT-NUMBER|SERIAL [--ledger DB]",
+		UsageLine: "trimline audit replay CERT-NUMBER|SERIAL --keys DIR|--trust FILE [--ledger DB]",
 		Short:     "recompute recorded runs from their raw readings",
 		Long: `Recomputes fits, trim codes, uncertainties and verdicts from the stored raw
 readings with the stored files, and lists every difference from what was recorded.
-Exit 1 when any.`,
+A run not signed by a trusted key of its station (--keys DIR or --trust FILE; no
+key is trusted by default, exit 2 without) is not replayed: anyone could have
+written its readings. Exit 1 when any run differs or is not signed.`,
 	}
 	a := newAuditor(c)
 	c.Run = func(ctx context.Context, e *env, args []string) error {
@@ -111,28 +129,38 @@ func newAuditVoidCmd() *command {
 // auditor holds what the audit subcommands share: where the ledger and the
 // trusted keys are.
 type auditor struct {
-	ledgerPath, keysDir string
-	noLedger            bool   // verify from the seal alone
-	keysFrom            string // where the trusted keys came from, said with every verdict
+	ledgerPath, keysDir, trustFile string
+	noLedger                       bool           // verify from the seal alone
+	trusted                        *signing.Trust // loaded by trust
 }
 
-// newAuditor adds the --ledger and --keys flags every audit subcommand takes.
+// newAuditor adds the --ledger, --keys and --trust flags every audit subcommand
+// takes.
 func newAuditor(c *command) *auditor {
 	a := &auditor{}
-	c.Flag.StringVar(&a.ledgerPath, "ledger", "", "ledger `file` (default ledger.db beside the PDF's certificates folder, or ./trimline-demo/ledger.db)")
-	c.Flag.StringVar(&a.keysDir, "keys", "", "`folder` of trusted public keys (*.pub; default: keys beside the ledger — give your own copy when the files came from elsewhere)")
+	c.Flag.StringVar(&a.ledgerPath, "ledger", "", "ledger `file` (default ledger.db above the PDF's certificates folder, or ./trimline-demo/ledger.db)")
+	c.Flag.StringVar(&a.keysDir, "keys", "", "`folder` of trusted public keys: STATION.pub binds a key to a station (no key is trusted by default)")
+	c.Flag.StringVar(&a.trustFile, "trust", "", "trust `file` binding station ids to keys or fingerprints (instead of --keys)")
 	return a
 }
 
-// open opens the ledger named by --ledger, or the one beside near (a PDF in a
-// certificates folder), or the demo's.
+// open opens the ledger named by --ledger, or the one beside near's certificates
+// folder (a PDF's), or without near the demo's. Near a PDF without --ledger, it
+// never guesses further: no ledger there is bad input.
 func (a *auditor) open(ctx context.Context, near string) (*ledger.Ledger, error) {
 	p := a.ledgerPath
 	if p == "" && near != "" {
-		cand := filepath.Join(filepath.Dir(filepath.Dir(near)), "ledger.db")
-		if _, err := os.Stat(cand); err == nil {
-			p = cand
+		// The station writes OUT/certificates/NAME.pdf and OUT/ledger.db; the
+		// absolute path finds it from inside certificates/ too.
+		abs, err := filepath.Abs(near)
+		if err != nil {
+			return nil, badInput(err)
 		}
+		cand := filepath.Join(filepath.Dir(filepath.Dir(abs)), "ledger.db")
+		if _, err := os.Stat(cand); err != nil {
+			return nil, badInput(fmt.Errorf("no ledger for %s: none at %s, in the folder above the certificate's own; give --ledger DB, or --no-ledger to check the seal alone (whether it was voided or superseded, and the chain, are then not checked)", near, cand))
+		}
+		p = cand
 	}
 	if p == "" {
 		p = filepath.Join("trimline-demo", "ledger.db")
@@ -144,26 +172,63 @@ func (a *auditor) open(ctx context.Context, near string) (*ledger.Ledger, error)
 	return ledger.Open(ctx, p)
 }
 
-func (a *auditor) keys() (audit.Keys, error) {
-	d := a.keysDir
-	if d == "" && a.ledgerPath != "" {
-		d = filepath.Join(filepath.Dir(a.ledgerPath), "keys")
+// needTrust refuses to go on without --keys or --trust: no key is trusted by
+// default, not even one beside the ledger.
+func (a *auditor) needTrust(what string) error {
+	switch {
+	case a.keysDir != "" && a.trustFile != "":
+		return usagef("give --keys DIR or --trust FILE, not both")
+	case a.keysDir == "" && a.trustFile == "":
+		return fmt.Errorf("cannot decide %s: %w", what, signing.ErrNoTrust)
 	}
-	if d == "" {
-		return audit.Keys{}, nil
+	return nil
+}
+
+// trust loads the trusted keys (--keys or --trust) and offers the public keys
+// found beside the ledger, which count only when a trust file bound their full
+// fingerprint (signing.Trust.Admit).
+func (a *auditor) trust() (*signing.Trust, error) {
+	if err := a.needTrust("anything"); err != nil {
+		return nil, err
 	}
-	if _, err := os.Stat(d); err != nil {
-		return audit.Keys{}, nil
+	var t *signing.Trust
+	var err error
+	if a.keysDir != "" {
+		t, err = signing.TrustDir(a.keysDir)
+	} else {
+		t, err = signing.LoadTrust(a.trustFile)
 	}
-	ks, err := signing.LoadPublicDir(d)
 	if err != nil {
 		return nil, badInput(err)
 	}
-	a.keysFrom = fmt.Sprintf("trusted keys: %s (%d)", d, len(ks))
-	if a.keysDir == "" {
-		a.keysFrom += " — the keys beside the ledger; for files that came from elsewhere pass --keys with your own copy of the station's public key"
+	if a.ledgerPath != "" {
+		admitDir(t, filepath.Join(filepath.Dir(a.ledgerPath), "keys"))
 	}
-	return ks, nil
+	a.trusted = t
+	return t, nil
+}
+
+// admitDir offers every *.pub in dir to t.Admit; a file that is not a key is
+// skipped (nothing there is trusted on its own).
+func admitDir(t *signing.Trust, dir string) {
+	matches, _ := filepath.Glob(filepath.Join(dir, "*.pub"))
+	for _, p := range matches {
+		if pub, err := signing.LoadPublic(p); err == nil {
+			t.Admit(pub)
+		}
+	}
+}
+
+// trustedLine says which keys were trusted, printed with every verdict.
+func trustedLine(t *signing.Trust) string {
+	if t == nil {
+		return ""
+	}
+	st := t.Stations()
+	if len(st) == 0 {
+		return fmt.Sprintf("trusted keys: %s, binding no station", t.Source)
+	}
+	return fmt.Sprintf("trusted keys: %s, for station(s) %s", t.Source, strings.Join(st, ", "))
 }
 
 // errNotGenuine is a certificate that did not verify as genuine.
@@ -171,12 +236,16 @@ var errNotGenuine = errors.New("not genuine")
 
 // verdictOut prints the verification outcome; only genuine succeeds.
 func (a *auditor) verdictOut(e *env, file string, v audit.Verdict) error {
-	fmt.Fprintf(e.stdout, "%s: %s\n", strings.ToUpper(v.Kind), file)
+	head := strings.ToUpper(v.Kind)
+	if a.noLedger {
+		head += " (by its seal alone; voids, supersedes and the chain not checked)"
+	}
+	fmt.Fprintf(e.stdout, "%s: %s\n", head, file)
 	for _, r := range v.Reasons {
 		fmt.Fprintf(e.stdout, "  %s\n", r)
 	}
-	if a.keysFrom != "" {
-		fmt.Fprintf(e.stdout, "  (%s)\n", a.keysFrom)
+	if l := trustedLine(a.trusted); l != "" {
+		fmt.Fprintf(e.stdout, "  (%s)\n", l)
 	}
 	if v.Kind == audit.Genuine {
 		return nil
@@ -185,29 +254,29 @@ func (a *auditor) verdictOut(e *env, file string, v audit.Verdict) error {
 }
 
 func (a *auditor) verify(ctx context.Context, e *env, file string) error {
+	if err := a.needTrust("whether " + file + " is genuine"); err != nil {
+		return err
+	}
 	pdf, err := audit.ReadPDF(file)
 	if err != nil {
 		return badInput(err)
 	}
-	explicit := a.ledgerPath != ""
 	var led *ledger.Ledger
-	lerr := errors.New("no ledger: verifying from the seal alone")
 	if !a.noLedger {
-		led, lerr = a.open(ctx, file)
-	}
-	if lerr != nil && explicit && !a.noLedger {
-		// A ledger the auditor named must be read; falling back to the seal would
-		// hide a voided certificate.
-		return lerr
-	}
-	if led != nil {
+		// Never a silent fall back to the seal: that would hide a voided or
+		// superseded certificate.
+		if led, err = a.open(ctx, file); err != nil {
+			return err
+		}
 		defer led.Close()
+	} else if a.ledgerPath != "" {
+		return usagef("give --ledger DB or --no-ledger, not both")
 	}
-	keys, err := a.keys()
+	t, err := a.trust()
 	if err != nil {
 		return err
 	}
-	v, err := audit.Certificate(ctx, led, a.ledgerPath, file, pdf, keys)
+	v, err := audit.Certificate(ctx, led, a.ledgerPath, file, pdf, t)
 	if err != nil {
 		return err
 	}
@@ -215,16 +284,23 @@ func (a *auditor) verify(ctx context.Context, e *env, file string) error {
 }
 
 func (a *auditor) ledger(ctx context.Context, e *env) error {
+	if err := a.needTrust("whether the ledger's runs are the station's"); err != nil {
+		return err
+	}
 	led, err := a.open(ctx, "")
 	if err != nil {
 		return err
 	}
 	defer led.Close()
-	keys, err := a.keys()
+	t, err := a.trust()
 	if err != nil {
 		return err
 	}
-	rep, err := led.VerifyChain(ctx, "", ledger.ChainOptions{Verify: audit.Verifier(keys)})
+	rep, err := led.VerifyChain(ctx, "", ledger.ChainOptions{Verify: audit.Verifier(t.Keys())})
+	if err != nil {
+		return err
+	}
+	unsigned, err := audit.CheckSigners(ctx, led, t, "")
 	if err != nil {
 		return err
 	}
@@ -237,9 +313,14 @@ func (a *auditor) ledger(ctx context.Context, e *env) error {
 			at = fmt.Sprintf("audit entry %d", rep.BrokenAuditSeq)
 		}
 		fmt.Fprintf(w, "BROKEN at %s: %s\n", at, rep.Reason)
+		printUnsigned(w, t, unsigned)
 		return report(rejected(fmt.Errorf("chain broken at %s: %s", at, rep.Reason)))
 	}
-	fmt.Fprintln(w, "chain intact. Heads (keep a copy outside the ledger):")
+	if len(unsigned) > 0 {
+		printUnsigned(w, t, unsigned)
+		return report(rejected(fmt.Errorf("%d run(s) or station(s) not signed by a trusted station key", len(unsigned))))
+	}
+	fmt.Fprintf(w, "chain intact; every run signed by its station's trusted key (%s). Heads (keep a copy outside the ledger):\n", trustedLine(t))
 	stations := make([]string, 0, len(rep.Heads))
 	for s := range rep.Heads {
 		stations = append(stations, s)
@@ -252,37 +333,59 @@ func (a *auditor) ledger(ctx context.Context, e *env) error {
 	return nil
 }
 
-// replay recomputes one certificate's run, or every run of a serial number.
+// replayed is a stored run with what its signature covers.
+type replayed struct {
+	rec                      *sequencer.Record
+	number, recordSHA, keyID string
+	sig                      []byte
+}
+
+// replay recomputes one certificate's run, or every run of a serial number,
+// after holding each to the trust rule.
 func (a *auditor) replay(ctx context.Context, e *env, what string) error {
+	if err := a.needTrust("whether the stored runs are the station's"); err != nil {
+		return err
+	}
 	led, err := a.open(ctx, "")
 	if err != nil {
 		return err
 	}
 	defer led.Close()
-	var recs []*sequencer.Record
-	if rec, _, err := led.RunByCertificate(ctx, what); err == nil {
-		recs = append(recs, rec)
-	} else if rec, _, err := led.ImportedRunByCertificate(ctx, what); err == nil {
-		recs = append(recs, rec) // a run imported from another station's bundle
+	t, err := a.trust()
+	if err != nil {
+		return err
+	}
+	var runs []replayed
+	if rec, m, err := led.RunByCertificate(ctx, what); err == nil {
+		runs = append(runs, replayed{rec, m.Certificate, m.RecordSHA256, m.KeyID, m.Signature})
+	} else if rec, ir, err := led.ImportedRunByCertificate(ctx, what); err == nil {
+		// a run imported from another station's bundle
+		runs = append(runs, replayed{rec, ir.Number, ir.RecordSHA256, ir.KeyID, ir.Signature})
 	} else {
-		runs, err := led.Runs(ctx, what)
+		list, err := led.Runs(ctx, what)
 		if err != nil {
 			return err
 		}
-		for i := len(runs) - 1; i >= 0; i-- {
-			rec, err := led.Run(ctx, runs[i].RunID)
+		for i := len(list) - 1; i >= 0; i-- {
+			rec, m, err := led.RunByID(ctx, list[i].RunID)
 			if err != nil {
 				return err
 			}
-			recs = append(recs, rec)
+			runs = append(runs, replayed{rec, m.Certificate, m.RecordSHA256, m.KeyID, m.Signature})
 		}
 	}
-	if len(recs) == 0 {
+	if len(runs) == 0 {
 		return badInput(fmt.Errorf("%s is neither a certificate number nor a serial number in %s", what, a.ledgerPath))
 	}
 	w := e.stdout
-	differ := 0
-	for _, rec := range recs {
+	differ, untrusted := 0, 0
+	for _, r := range runs {
+		rec := r.rec
+		if bad := audit.SignedRun(t, rec.Station, r.number, rec.RunID, r.recordSHA, r.keyID, r.sig); bad != "" {
+			untrusted++
+			fmt.Fprintf(w, "%s %s %s: NOT REPLAYED, not signed by its station's trusted key: %s\n", rec.RunID, rec.Serial, rec.Verdict, bad)
+			continue
+		}
 		diffs, err := audit.Replay(ctx, led, rec)
 		switch {
 		case errors.Is(err, sequencer.ErrNotReplayable):
@@ -301,8 +404,23 @@ func (a *auditor) replay(ctx context.Context, e *env, what string) error {
 			fmt.Fprintf(w, "  %s\n", d)
 		}
 	}
-	if differ > 0 {
+	fmt.Fprintf(w, "(%s)\n", trustedLine(t))
+	switch {
+	case untrusted > 0:
+		return report(rejected(fmt.Errorf("%d run(s) not signed by their station's trusted key, %d differ from what was recorded", untrusted, differ)))
+	case differ > 0:
 		return report(rejected(fmt.Errorf("%d run(s) differ from what was recorded", differ)))
 	}
 	return nil
+}
+
+// printUnsigned lists the runs the trust rule refuses, one a line.
+func printUnsigned(w io.Writer, t *signing.Trust, unsigned []audit.Unsigned) {
+	if len(unsigned) == 0 {
+		return
+	}
+	fmt.Fprintf(w, "NOT SIGNED by the station's trusted key (%s): %d\n", trustedLine(t), len(unsigned))
+	for _, u := range unsigned {
+		fmt.Fprintf(w, "  %s\n", u)
+	}
 }

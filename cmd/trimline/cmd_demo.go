@@ -102,6 +102,15 @@ unit takes a few seconds, as it would on a real bench.`,
 		printSummary(e.stdout, t.Summary())
 		fmt.Fprintf(e.stdout, "\ncertificates: %s\nledger:       %s\nlog:          %s\n",
 			filepath.Join(*out, "certificates"), filepath.Join(*out, "ledger.db"), filepath.Join(*out, "trimline.log"))
+		// No key is trusted by default: an auditor names the station's public key.
+		keys := filepath.Join(*out, "keys")
+		cert := filepath.Join(*out, "certificates", "CERTIFICATE.pdf")
+		if pdfs, _ := filepath.Glob(filepath.Join(*out, "certificates", "*.pdf")); len(pdfs) > 0 {
+			cert = pdfs[0]
+		}
+		fmt.Fprintf(e.stdout, "\nan auditor checks them with the station's public key (%s), kept apart from the station:\n"+
+			"  trimline audit verify %s --keys %s\n  trimline audit ledger --ledger %s --keys %s\n",
+			filepath.Join(keys, "TL1.pub"), cert, keys, filepath.Join(*out, "ledger.db"), keys)
 		// The demo succeeds when it ran; failed units are part of the show.
 		if err := t.Err(); !errors.Is(err, sequencer.ErrUnitsFailed) {
 			return report(err)

@@ -8,6 +8,7 @@ import (
 	"path/filepath"
 	"strings"
 
+	"trimline/reports/audit"
 	"trimline/reports/bundle"
 	"trimline/reports/ledger"
 	"trimline/reports/signing"
@@ -81,20 +82,32 @@ func findPub(dir, id string) string {
 
 func newImportCmd() *command {
 	c := &command{
-		UsageLine: "trimline import FILE.zip --ledger DB [--keys DIR]",
+		UsageLine: "trimline import FILE.zip --ledger DB --keys DIR|--trust FILE",
 		Short:     "check a bundle and import it into a ledger for audit",
-		Long: `Opens the bundle, checks every member against its hash and the record's
-signature, and — with --keys — that the signing key is one you trust. It then
-stores the run in the ledger as an imported run: outside the ledger's own chain
-and numbering, ready for 'trimline audit replay'.`,
+		Long: `Opens the bundle, checks every member against its hash, and that the record is
+signed by a trusted key of its station: --keys DIR (STATION.pub binds a key to a
+station) or --trust FILE. No key is trusted by default (exit 2 without either);
+the public key inside the bundle counts only when a trust file bound its full
+fingerprint to the station. An unsigned run, or one signed by another key, is
+refused (exit 1). It then stores the run in the ledger as an imported run: outside
+the ledger's own chain and numbering, ready for 'trimline audit replay'.`,
 	}
 	ledgerPath := c.Flag.String("ledger", "", "ledger `file` to import into (created if missing)")
-	keysDir := c.Flag.String("keys", "", "`folder` of trusted public keys")
+	keysDir := c.Flag.String("keys", "", "`folder` of trusted public keys: STATION.pub binds a key to a station")
+	trustFile := c.Flag.String("trust", "", "trust `file` binding station ids to keys or fingerprints (instead of --keys)")
 	actor := c.Flag.String("by", defaultOperator(), "`name` recorded in the audit trail")
 	c.Run = func(ctx context.Context, e *env, args []string) error {
 		pos := args
 		if len(pos) != 1 || *ledgerPath == "" {
-			return usagef("usage: trimline import FILE.zip --ledger DB [--keys DIR]")
+			return usagef("usage: trimline import FILE.zip --ledger DB --keys DIR|--trust FILE")
+		}
+		a := &auditor{keysDir: *keysDir, trustFile: *trustFile}
+		if err := a.needTrust("whether the bundle is the station's"); err != nil {
+			return err
+		}
+		t, err := a.trust()
+		if err != nil {
+			return err
 		}
 		f, err := os.Open(pos[0])
 		if err != nil {
@@ -109,20 +122,20 @@ and numbering, ready for 'trimline audit replay'.`,
 		if err != nil {
 			return rejected(err)
 		}
-		if *keysDir != "" && b.Manifest.KeyID != "" {
-			keys, err := signing.LoadPublicDir(*keysDir)
-			if err != nil {
-				return badInput(err)
-			}
-			pub, ok := keys[b.Manifest.KeyID]
-			if !ok {
-				return rejected(fmt.Errorf("signed by %s, which is not among the trusted keys in %s", b.Manifest.KeyID, *keysDir))
-			}
-			if err := b.VerifyWith(pub); err != nil {
-				return rejected(err)
-			}
-			b.Verified = append(b.Verified, "signed by a trusted key: "+b.Manifest.KeyID)
+		// The key inside the bundle is the sender's word; it counts only when a
+		// trust file bound its full fingerprint to the station.
+		if b.PublicKey != nil {
+			t.Admit(b.PublicKey)
 		}
+		m := b.Manifest
+		if bad := audit.SignedRun(t, m.Station, m.Number, m.RunID, m.RecordSHA256, m.KeyID, m.RecordSignature); bad != "" {
+			return rejected(fmt.Errorf("%s: run %s (serial %s) of station %s: %s", pos[0], m.RunID, m.Serial, m.Station, bad))
+		}
+		pub, _ := t.Key(m.KeyID)
+		if err := b.VerifyWith(pub); err != nil {
+			return rejected(err)
+		}
+		b.Verified = append(b.Verified, fmt.Sprintf("signed by %s, a trusted key of station %s (%s)", m.KeyID, m.Station, t.Source))
 		led, err := ledger.Open(ctx, *ledgerPath)
 		if err != nil {
 			return err

@@ -46,7 +46,8 @@ beside it. Give auditors the .pub file.`,
 			return err
 		}
 		pem, _ := os.ReadFile(pub)
-		fmt.Fprintf(e.stdout, "private key: %s (keep it on the station; mode 0600)\npublic key:  %s\nkey id:      %s\n\n%s", priv, pub, k.ID(), pem)
+		fmt.Fprintf(e.stdout, "private key: %s (keep it on the station; mode 0600)\npublic key:  %s\nkey id:      %s\nfingerprint: %s (for an auditor's trust file)\n\n%s",
+			priv, pub, k.ID(), signing.Fingerprint(k.Public), pem)
 		return nil
 	}
 	return c

@@ -23,6 +23,7 @@ import (
 	_ "trimline/instruments/sim"     // the simulated bench, scheme sim://
 	"trimline/reports/issuing"
 	"trimline/reports/release"
+	"trimline/reports/signing"
 	"trimline/sequencer"
 	"trimline/sequencer/fit"
 )
@@ -103,6 +104,7 @@ func exitCode(err error) int {
 		errors.Is(err, release.ErrNotReleased), errors.Is(err, release.ErrNotReleasable), errors.Is(err, release.ErrReleaseKeys),
 		errors.Is(err, sequencer.ErrSafety), errors.Is(err, sequencer.ErrUnboundRole), errors.Is(err, sequencer.ErrTUR),
 		errors.Is(err, sequencer.ErrBadSerial), errors.Is(err, issuing.ErrTestedBefore),
+		errors.Is(err, signing.ErrNoTrust), errors.Is(err, signing.ErrUnsafeKeyFolder),
 		errors.Is(err, fit.ErrTooFewPoints), errors.Is(err, fit.ErrSingular), errors.Is(err, fit.ErrInvalidInput),
 		errors.Is(err, fit.ErrNotFinite):
 		return exitUsage

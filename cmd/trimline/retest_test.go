@@ -90,13 +90,13 @@ func TestRetestRefusedUnlessAsked(t *testing.T) {
 	}
 	led.Close()
 	cert := func(n string) string { return filepath.Join(dir, "certificates", n+"_BRX-00001.pdf") }
-	if code, out, _ := runCLI(t, "audit", "verify", cert("TL1-000001")); code != exitFail || !strings.HasPrefix(out, "SUPERSEDED") || !strings.Contains(out, "superseded by TL1-000002") {
+	if code, out, _ := runCLI(t, "audit", "verify", "--keys", filepath.Join(dir, "keys"), cert("TL1-000001")); code != exitFail || !strings.HasPrefix(out, "SUPERSEDED") || !strings.Contains(out, "superseded by TL1-000002") {
 		t.Errorf("first certificate: exit %d\n%s", code, out)
 	}
-	if code, out, _ := runCLI(t, "audit", "verify", cert("TL1-000003")); code != exitPass || !strings.HasPrefix(out, "GENUINE") {
+	if code, out, _ := runCLI(t, "audit", "verify", "--keys", filepath.Join(dir, "keys"), cert("TL1-000003")); code != exitPass || !strings.HasPrefix(out, "GENUINE") {
 		t.Errorf("current certificate: exit %d\n%s", code, out)
 	}
-	if code, out, _ := runCLI(t, "audit", "ledger", "--ledger", ledgerPath); code != exitPass || !strings.Contains(out, "chain intact") {
+	if code, out, _ := runCLI(t, "audit", "ledger", "--ledger", ledgerPath, "--keys", filepath.Join(dir, "keys")); code != exitPass || !strings.Contains(out, "chain intact") {
 		t.Errorf("audit ledger: exit %d\n%s", code, out)
 	}
 	// Engineering runs: the production tests do not count, an earlier engineering run does.
@@ -106,7 +106,7 @@ func TestRetestRefusedUnlessAsked(t *testing.T) {
 	if code, _, errOut := runCLI(t, runArgs("--engineering", "--serial", "BRX-00001")...); code != exitUsage || !strings.Contains(errOut, "already has a recorded engineering run") {
 		t.Errorf("second engineering run: exit %d\n%s", code, errOut)
 	}
-	if code, out, _ := runCLI(t, "audit", "verify", cert("TL1-000003")); code != exitPass {
+	if code, out, _ := runCLI(t, "audit", "verify", "--keys", filepath.Join(dir, "keys"), cert("TL1-000003")); code != exitPass {
 		t.Errorf("an engineering run superseded the production certificate: exit %d\n%s", code, out)
 	}
 }

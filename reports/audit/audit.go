@@ -20,9 +20,6 @@ import (
 	"trimline/sequencer"
 )
 
-// Keys are the trusted public keys by key ID, as signing.LoadPublicDir reads them.
-type Keys = map[string]ed25519.PublicKey
-
 // Verdict kinds of a verified certificate.
 const (
 	Genuine = "genuine"
@@ -33,6 +30,10 @@ const (
 	// certified retest of the same serial replaced it.
 	Superseded = "superseded"
 )
+
+// NotChecked is the reason every verdict from a seal alone carries: without the
+// ledger nothing says whether the certificate was voided or superseded since.
+const NotChecked = "NOT CHECKED without the ledger: whether it was voided or superseded, the run's record and the station's chain (give --ledger DB)"
 
 // Verdict is the outcome of verifying a certificate: its kind and the reasons,
 // in the order they were checked.
@@ -65,21 +66,26 @@ func ReadPDF(path string) ([]byte, error) {
 	return data, nil
 }
 
-// Verifier returns a signature check that accepts only the trusted keys.
-func Verifier(keys Keys) func(keyID string, msg, sig []byte) bool {
+// Verifier returns a signature check that accepts only the trusted keys
+// (signing.Trust.Keys).
+func Verifier(keys map[string]ed25519.PublicKey) func(keyID string, msg, sig []byte) bool {
 	return func(keyID string, msg, sig []byte) bool {
 		pub, ok := keys[keyID]
 		return ok && signing.Verify(pub, msg, sig)
 	}
 }
 
-// Certificate verifies pdf, the contents of the file at path. With a ledger (led,
+// Certificate verifies pdf, the contents of the file at path, with the keys t
+// trusts (no key is trusted by default: t must not be nil). With a ledger (led,
 // named ledgerName in the reasons) it checks the PDF's hash against the ledger's
-// document and its signature, the record's signature, the station's hash chain
-// and whether the certificate was voided or superseded by a retest; with led nil it checks the seal beside
-// the file (path + ".seal") with the trusted keys alone. The error is the
-// ledger's, when it could not be read.
-func Certificate(ctx context.Context, led *ledger.Ledger, ledgerName, path string, pdf []byte, keys Keys) (Verdict, error) {
+// document and its signature, the record's signature by a key bound to the run's
+// station, the station's hash chain, that every run of the station is signed by
+// its trusted key (CheckSigners), and whether the certificate was voided or
+// superseded by a retest; with led nil it checks the seal beside the file (path +
+// ".seal") with a trusted station key alone, and says that voids, supersedes and
+// the chain were not checked. The error is the ledger's, when it could not be
+// read.
+func Certificate(ctx context.Context, led *ledger.Ledger, ledgerName, path string, pdf []byte, t *signing.Trust) (Verdict, error) {
 	sum := sha256.Sum256(pdf)
 	pdfSHA := hex.EncodeToString(sum[:])
 	number, runID, _ := certificate.Metadata(pdf)
@@ -91,7 +97,7 @@ func Certificate(ctx context.Context, led *ledger.Ledger, ledgerName, path strin
 		}
 	}
 	if led == nil {
-		return sealOnly(path, pdf, seal, keys), nil
+		return sealOnly(path, pdf, seal, t), nil
 	}
 	doc, err := led.DocumentBySHA(ctx, pdfSHA)
 	if errors.Is(err, ledger.ErrNotFound) {
@@ -113,29 +119,35 @@ func Certificate(ctx context.Context, led *ledger.Ledger, ledgerName, path strin
 		return verdict(Altered, "the PDF names run "+runID+" but certificate "+doc.Number+" belongs to run "+meta.RunID), nil
 	}
 	why := []string{fmt.Sprintf("document %s of run %s (serial %s, verdict %s): SHA-256 matches the ledger", doc.Number, meta.RunID, rec.Serial, rec.Verdict)}
-	if meta.KeyID != "" {
-		pub, ok := keys[meta.KeyID]
-		if !ok {
-			return verdict(Unknown, append(why, "signed by "+meta.KeyID+", which is not among the trusted keys (--keys)")...), nil
+	// The trust rule: a record of a station is genuine only when signed by a key
+	// bound to that station, whatever the ledger says.
+	if bad := SignedRun(t, rec.Station, doc.Number, meta.RunID, meta.RecordSHA256, meta.KeyID, meta.Signature); bad != "" {
+		kind := Unknown
+		if meta.KeyID != "" && t.SignedByStation(rec.Station, meta.KeyID) {
+			kind = Altered // the station's own key, but the signature does not verify
 		}
-		if !signing.Verify(pub, signing.RecordMessage(doc.Number, meta.RunID, meta.RecordSHA256), meta.Signature) {
-			return verdict(Altered, append(why, "the record signature does not verify")...), nil
-		}
-		if !signing.Verify(pub, signing.PDFMessage(doc.Number, pdf), doc.Signature) {
-			return verdict(Altered, append(why, "the PDF signature does not verify")...), nil
-		}
-		why = append(why, "record and PDF signatures verify with "+meta.KeyID)
-	} else {
-		why = append(why, "unsigned: the station had no key when it was issued")
+		return verdict(kind, append(why, bad)...), nil
 	}
-	rep, err := led.VerifyChain(ctx, rec.Station, ledger.ChainOptions{Verify: Verifier(keys)})
+	pub, _ := t.Key(meta.KeyID)
+	if !signing.Verify(pub, signing.PDFMessage(doc.Number, pdf), doc.Signature) {
+		return verdict(Altered, append(why, "the PDF signature does not verify")...), nil
+	}
+	why = append(why, fmt.Sprintf("record and PDF signatures verify with %s, a trusted key of station %s (%s)", meta.KeyID, rec.Station, t.Source))
+	rep, err := led.VerifyChain(ctx, rec.Station, ledger.ChainOptions{Verify: Verifier(t.Keys())})
 	if err != nil {
 		return Verdict{}, err
 	}
 	if !rep.OK {
 		return verdict(Altered, append(why, "the ledger's chain is broken: "+rep.Reason)...), nil
 	}
-	why = append(why, fmt.Sprintf("station %s chain verifies (%d runs)", rec.Station, rep.Runs))
+	unsigned, err := CheckSigners(ctx, led, t, rec.Station)
+	if err != nil {
+		return Verdict{}, err
+	}
+	if len(unsigned) > 0 {
+		return verdict(Altered, append(why, fmt.Sprintf("the ledger holds %d run(s) of station %s not signed by its trusted key: %s", len(unsigned), rec.Station, listUnsigned(unsigned)))...), nil
+	}
+	why = append(why, fmt.Sprintf("station %s chain verifies (%d runs, every one signed by its trusted key)", rec.Station, rep.Runs))
 	st, err := led.CertificateStatus(ctx, doc.Number)
 	if err != nil {
 		return Verdict{}, err
@@ -150,14 +162,16 @@ func Certificate(ctx context.Context, led *ledger.Ledger, ledgerName, path strin
 	return verdict(Genuine, why...), nil
 }
 
-// sealOnly verifies a PDF against its seal and the trusted keys, without a ledger.
-func sealOnly(path string, pdf []byte, seal *signing.Seal, keys Keys) Verdict {
+// sealOnly verifies a PDF against its seal and the trusted station keys, without
+// a ledger.
+func sealOnly(path string, pdf []byte, seal *signing.Seal, t *signing.Trust) Verdict {
 	if seal == nil {
 		return verdict(Unknown, "no ledger and no seal ("+path+".seal) to check it against")
 	}
-	pub, ok := keys[seal.KeyID]
-	if !ok {
-		return verdict(Unknown, "sealed with key "+seal.KeyID+", which is not among the trusted keys")
+	station := stationOf(t, seal.KeyID)
+	pub, ok := t.Key(seal.KeyID)
+	if !ok || station == "" {
+		return verdict(Unknown, "sealed with key "+seal.KeyID+", which is not a trusted station key ("+t.Source+")")
 	}
 	if err := seal.VerifyPDF(pub, pdf); err != nil {
 		kind := Altered
@@ -166,7 +180,8 @@ func sealOnly(path string, pdf []byte, seal *signing.Seal, keys Keys) Verdict {
 		}
 		return verdict(kind, err.Error())
 	}
-	return verdict(Genuine, "certificate "+seal.Number+" matches its seal, signed by "+seal.KeyID, "(no ledger checked: the run and the chain were not verified)")
+	return verdict(Genuine, "certificate "+seal.Number+" matches its seal, signed by "+seal.KeyID+", a trusted key of station "+station,
+		NotChecked)
 }
 
 // Replay loads the station, sequence and limit files that were in force for rec

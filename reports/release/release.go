@@ -121,13 +121,15 @@ func By(ctx context.Context, led *ledger.Ledger, trusted map[string]ed25519.Publ
 	return out, nil
 }
 
-// ByDir is By with the trusted keys read from the *.pub files in dir.
+// ByDir is By with the trusted keys read from the *.pub files in dir, as
+// signing.TrustDir reads them: a folder that group or others may write is refused
+// (an error matching ErrReleaseKeys and signing.ErrUnsafeKeyFolder).
 func ByDir(ctx context.Context, led *ledger.Ledger, dir string) (map[string]Release, error) {
-	trusted, err := signing.LoadPublicDir(dir)
+	trust, err := signing.TrustDir(dir)
 	if err != nil {
 		return nil, &keysError{err}
 	}
-	return By(ctx, led, trusted)
+	return By(ctx, led, trust.Keys())
 }
 
 // NotReleasedError lists the files of a production run that no trusted approver

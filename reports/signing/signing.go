@@ -157,7 +157,8 @@ func syncDir(dir string) {
 
 // Load reads a private key written by Init. On Unix it refuses a key file that
 // group or others may read or write (any of the bits 0077 set), naming the mode
-// and the fix, "chmod 600 FILE". The check is skipped on Windows, whose file modes
+// and the fix, "chmod 600 FILE", and a key whose folder group or others may write
+// (ErrUnsafeKeyFolder). The check is skipped on Windows, whose file modes
 // do not express who may read a file (ACLs do). It refuses anything but exactly one
 // well-formed "TRIMLINE ED25519 PRIVATE KEY" PEM block holding a 32-byte seed (or
 // a 64-byte private key whose public half matches its seed).
@@ -178,6 +179,15 @@ func Load(privPath string) (*Key, error) {
 		if perm := fi.Mode().Perm(); perm&0o077 != 0 {
 			return nil, fmt.Errorf("signing: private key %s has mode %#o: group or others may read or write it; fix with: chmod 600 %s",
 				privPath, perm, privPath)
+		}
+		// Whoever may write the key's folder may swap the key (and its .pub) for
+		// one of their own.
+		dir := filepath.Dir(privPath)
+		if di, err := os.Stat(dir); err != nil {
+			return nil, fmt.Errorf("signing: %w", err)
+		} else if perm := di.Mode().Perm(); perm&0o022 != 0 {
+			return nil, fmt.Errorf("signing: the folder %s of private key %s has mode %#o: group or others may write it, so anyone could swap the key; fix with: chmod go-w %s: %w",
+				dir, privPath, perm, dir, ErrUnsafeKeyFolder)
 		}
 	}
 	data, err := io.ReadAll(io.LimitReader(f, 64<<10))
@@ -255,7 +265,8 @@ func parsePublic(data []byte) (ed25519.PublicKey, error) {
 // LoadPublicDir reads every *.pub file in dir (not its subdirectories) and returns
 // the keys by ID. Any file that is not a valid public key is an error, so that a
 // trust directory is never used half read. A directory without keys gives an empty
-// map.
+// map. It checks nothing of who may write dir: keys to trust are read with TrustDir
+// or LoadTrust, which do.
 func LoadPublicDir(dir string) (map[string]ed25519.PublicKey, error) {
 	entries, err := os.ReadDir(dir)
 	if err != nil {
