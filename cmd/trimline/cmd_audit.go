@@ -83,26 +83,47 @@ Exit 1 when any.`,
 
 func newAuditVoidCmd() *command {
 	c := &command{
-		UsageLine: "trimline audit void CERT-NUMBER --by NAME --reason TEXT [--ledger DB]",
-		Short:     "void a certificate",
-		Long:      `Voids a certificate with --by and --reason; it stays in the ledger and the audit trail.`,
+		UsageLine: "trimline audit void CERT-NUMBER --key APPROVER.key --reason TEXT (--trust FILE | --keys DIR) [--ledger DB]",
+		Short:     "void a certificate, signed by a trusted approver",
+		Long: `Voids a certificate for --reason, signed with the approver's private key (--key).
+The key must be that of an approver trusted to void: named with may: [void] in the
+trust file (--trust), or in the approvers/ folder of --keys. A key no trust names
+is refused. The name recorded is the approver's, as the trust names them; --by, if
+given, must agree with it. The certificate stays in the ledger and the audit trail;
+'trimline audit verify' says VOIDED and who signed the void.`,
 	}
 	a := newAuditor(c)
-	by := c.Flag.String("by", "", "`name` of the person voiding")
+	by := c.Flag.String("by", "", "printed `name` of the approver; must agree with their trust entry (the name recorded comes from there)")
 	reason := c.Flag.String("reason", "", "`reason` for voiding")
+	keyPath := c.Flag.String("key", "", "the approver's private key `file` that signs the void")
 	c.Run = func(ctx context.Context, e *env, args []string) error {
-		if len(args) != 1 || *by == "" || *reason == "" {
-			return usagef("usage: trimline audit void CERT-NUMBER --by NAME --reason TEXT")
+		if len(args) != 1 || *reason == "" || *keyPath == "" {
+			return usagef("usage: %s", c.UsageLine)
+		}
+		approvers, err := a.approvers()
+		if err != nil {
+			return err
+		}
+		if approvers == nil {
+			return usagef("who may void? %v", signing.ErrNoTrust)
+		}
+		key, err := signing.Load(*keyPath)
+		if err != nil {
+			return badInput(err)
+		}
+		if ap, ok := approvers.Approver(key.ID()); ok && *by != "" && *by != ap.Name {
+			return usagef("--by %q: the key %s is %s's (%s); the name recorded is the trust entry's", *by, key.ID(), ap.Name, approvers.Source)
 		}
 		led, err := a.open(ctx, "")
 		if err != nil {
 			return err
 		}
 		defer led.Close()
-		if err := led.VoidCertificate(ctx, args[0], *by, *reason); err != nil {
+		ap, err := audit.Void(ctx, led, args[0], *reason, key, approvers)
+		if err != nil {
 			return badInput(err)
 		}
-		fmt.Fprintf(e.stdout, "%s voided by %s: %s\n", args[0], *by, *reason)
+		fmt.Fprintf(e.stdout, "%s voided by %s (signed %s): %s\n", args[0], ap.Name, key.ID(), *reason)
 		return nil
 	}
 	return c
@@ -112,6 +133,7 @@ func newAuditVoidCmd() *command {
 // trusted keys are.
 type auditor struct {
 	ledgerPath, keysDir string
+	trustFile           string // --trust: a trust file (its approvers sign voids)
 	noLedger            bool   // verify from the seal alone
 	keysFrom            string // where the trusted keys came from, said with every verdict
 }
@@ -120,6 +142,7 @@ type auditor struct {
 func newAuditor(c *command) *auditor {
 	a := &auditor{}
 	c.Flag.StringVar(&a.ledgerPath, "ledger", "", "ledger `file` (default ledger.db beside the PDF's certificates folder, or ./trimline-demo/ledger.db)")
+	c.Flag.StringVar(&a.trustFile, "trust", "", "trust `file` naming the trusted station keys and approvers (see signing.LoadTrust)")
 	c.Flag.StringVar(&a.keysDir, "keys", "", "`folder` of trusted public keys (*.pub; default: keys beside the ledger — give your own copy when the files came from elsewhere)")
 	return a
 }
@@ -144,7 +167,34 @@ func (a *auditor) open(ctx context.Context, near string) (*ledger.Ledger, error)
 	return ledger.Open(ctx, p)
 }
 
+// approvers returns the approvers the auditor trusts to sign voids: those of
+// --trust, else of --keys (its approvers/ folder); nil when neither was given.
+func (a *auditor) approvers() (*signing.Trust, error) {
+	var t *signing.Trust
+	var err error
+	switch {
+	case a.trustFile != "":
+		t, err = signing.LoadTrust(a.trustFile)
+	case a.keysDir != "":
+		t, err = signing.TrustDir(a.keysDir)
+	default:
+		return nil, nil
+	}
+	if err != nil {
+		return nil, badInput(err)
+	}
+	return t, nil
+}
+
 func (a *auditor) keys() (audit.Keys, error) {
+	if a.trustFile != "" {
+		t, err := signing.LoadTrust(a.trustFile)
+		if err != nil {
+			return nil, badInput(err)
+		}
+		a.keysFrom = fmt.Sprintf("trusted keys: %s (%d)", a.trustFile, len(t.Keys()))
+		return t.Keys(), nil
+	}
 	d := a.keysDir
 	if d == "" && a.ledgerPath != "" {
 		d = filepath.Join(filepath.Dir(a.ledgerPath), "keys")
@@ -207,7 +257,11 @@ func (a *auditor) verify(ctx context.Context, e *env, file string) error {
 	if err != nil {
 		return err
 	}
-	v, err := audit.Certificate(ctx, led, a.ledgerPath, file, pdf, keys)
+	approvers, err := a.approvers()
+	if err != nil {
+		return err
+	}
+	v, err := audit.Certificate(ctx, led, a.ledgerPath, file, pdf, keys, approvers)
 	if err != nil {
 		return err
 	}

@@ -8,11 +8,13 @@ import (
 	"context"
 	"crypto/ed25519"
 	"crypto/sha256"
+	"encoding/base64"
 	"encoding/hex"
 	"errors"
 	"fmt"
 	"io"
 	"os"
+	"time"
 
 	"trimline/reports/certificate"
 	"trimline/reports/ledger"
@@ -77,9 +79,13 @@ func Verifier(keys Keys) func(keyID string, msg, sig []byte) bool {
 // named ledgerName in the reasons) it checks the PDF's hash against the ledger's
 // document and its signature, the record's signature, the station's hash chain
 // and whether the certificate was voided or superseded by a retest; with led nil it checks the seal beside
-// the file (path + ".seal") with the trusted keys alone. The error is the
-// ledger's, when it could not be read.
-func Certificate(ctx context.Context, led *ledger.Ledger, ledgerName, path string, pdf []byte, keys Keys) (Verdict, error) {
+// the file (path + ".seal") with the trusted keys alone, and says that a seal
+// cannot tell whether the certificate was voided. A voided certificate is Voided
+// whoever voided it; the reasons name the approver (from approvers, nil for none)
+// when the void is signed by one trusted to void, and flag it "unsigned void" or
+// "not signed by a trusted approver" otherwise (see VoidApprover). The error is
+// the ledger's, when it could not be read.
+func Certificate(ctx context.Context, led *ledger.Ledger, ledgerName, path string, pdf []byte, keys Keys, approvers *signing.Trust) (Verdict, error) {
 	sum := sha256.Sum256(pdf)
 	pdfSHA := hex.EncodeToString(sum[:])
 	number, runID, _ := certificate.Metadata(pdf)
@@ -141,13 +147,77 @@ func Certificate(ctx context.Context, led *ledger.Ledger, ledgerName, path strin
 		return Verdict{}, err
 	}
 	if st.Voided {
-		return verdict(Voided, append(why, fmt.Sprintf("VOIDED by %s on %s: %s", st.VoidedBy, st.VoidedAt.UTC().Format("2006-01-02 15:04 UTC"), st.VoidReason))...), nil
+		return verdict(Voided, append(why, voidReason(st, approvers))...), nil
 	}
 	if st.Superseded {
 		return verdict(Superseded, append(why, fmt.Sprintf("superseded by %s: serial %s was retested on %s (run %s); this certificate is no longer current",
 			st.SupersededBy, rec.Serial, st.SupersededAt.UTC().Format("2006-01-02 15:04 UTC"), st.SupersededByRun))...), nil
 	}
 	return verdict(Genuine, why...), nil
+}
+
+// VoidApprover returns the approver of approvers who signed st's void, when its
+// signature (over signing.VoidMessage) verifies with the key of an approver who
+// may void. The name the void was recorded under must be that approver's.
+func VoidApprover(st ledger.Status, approvers *signing.Trust) (signing.Approver, bool) {
+	sig := st.VoidSignature
+	if !st.Voided || sig.KeyID == "" || approvers == nil {
+		return signing.Approver{}, false
+	}
+	a, ok := approvers.Approver(sig.KeyID)
+	if !ok || !a.Can(signing.MayVoid) || a.Name != st.VoidedBy {
+		return signing.Approver{}, false
+	}
+	raw, err := base64.StdEncoding.DecodeString(sig.Signature)
+	if err != nil || !signing.Verify(a.Key, signing.VoidMessage(st.Number, st.VoidedBy, st.VoidReason, sig.At), raw) {
+		return signing.Approver{}, false
+	}
+	return a, true
+}
+
+// voidReason says who voided a certificate, and whether an auditor can hold them
+// to it.
+func voidReason(st ledger.Status, approvers *signing.Trust) string {
+	when := st.VoidedAt.UTC().Format("2006-01-02 15:04 UTC")
+	if a, ok := VoidApprover(st, approvers); ok {
+		return fmt.Sprintf("VOIDED by %s on %s, signed %s: %s", a.Name, when, st.VoidSignature.KeyID, st.VoidReason)
+	}
+	flag := "unsigned void: recorded without an approver's signature (as every void before voids were signed), so no trusted approver stands behind it"
+	switch {
+	case st.VoidSignature.KeyID != "" && approvers == nil:
+		flag = "signed with key " + st.VoidSignature.KeyID + ", not checked: no approvers given (--keys DIR with approvers/, or --trust FILE)"
+	case st.VoidSignature.KeyID != "":
+		flag = "void not signed by a trusted approver: key " + st.VoidSignature.KeyID + " is not trusted to void, or its signature does not verify"
+	}
+	return fmt.Sprintf("VOIDED on %s, recorded as by %s: %s (%s; the certificate is still not current)", when, st.VoidedBy, st.VoidReason, flag)
+}
+
+// ErrUntrustedVoid is returned by Void when the key is not that of an approver
+// trusted to void certificates.
+var ErrUntrustedVoid = errors.New("not the key of an approver trusted to void")
+
+// Void voids certificate number in led for reason, signed with key, which must be
+// the key of an approver of approvers who may void (else ErrUntrustedVoid, saying
+// so). The void is recorded under the approver's name from their trust entry,
+// with the signature over signing.VoidMessage; it returns that approver. Other
+// errors are the ledger's (ledger.ErrNotFound, ledger.ErrVoided, ledger.ErrInvalid).
+func Void(ctx context.Context, led *ledger.Ledger, number, reason string, key *signing.Key, approvers *signing.Trust) (signing.Approver, error) {
+	if key == nil || approvers == nil {
+		return signing.Approver{}, fmt.Errorf("void %s: a void is signed by a trusted approver's key: %w", number, ErrUntrustedVoid)
+	}
+	a, ok := approvers.Approver(key.ID())
+	if !ok {
+		return signing.Approver{}, fmt.Errorf("void %s: key %s is not an approver's in %s: %w", number, key.ID(), approvers.Source, ErrUntrustedVoid)
+	}
+	if !a.Can(signing.MayVoid) {
+		return signing.Approver{}, fmt.Errorf("void %s: %s (key %s) may not void certificates (%s): %w", number, a.Name, key.ID(), approvers.Source, ErrUntrustedVoid)
+	}
+	at := time.Now().UTC()
+	sig := key.Sign(signing.VoidMessage(number, a.Name, reason, at))
+	if err := led.SignedVoid(ctx, number, a.Name, reason, ledger.VoidSignature{At: at, KeyID: key.ID(), Signature: base64.StdEncoding.EncodeToString(sig)}); err != nil {
+		return signing.Approver{}, err
+	}
+	return a, nil
 }
 
 // sealOnly verifies a PDF against its seal and the trusted keys, without a ledger.
@@ -166,7 +236,7 @@ func sealOnly(path string, pdf []byte, seal *signing.Seal, keys Keys) Verdict {
 		}
 		return verdict(kind, err.Error())
 	}
-	return verdict(Genuine, "certificate "+seal.Number+" matches its seal, signed by "+seal.KeyID, "(no ledger checked: the run and the chain were not verified)")
+	return verdict(Genuine, "certificate "+seal.Number+" matches its seal, signed by "+seal.KeyID, "(no ledger checked: the run and the chain were not verified, and a seal cannot tell whether the certificate was voided or superseded since: only its ledger knows)")
 }
 
 // Replay loads the station, sequence and limit files that were in force for rec
