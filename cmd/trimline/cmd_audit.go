@@ -192,8 +192,18 @@ func (a *auditor) keys() (audit.Keys, error) {
 		if err != nil {
 			return nil, badInput(err)
 		}
-		a.keysFrom = fmt.Sprintf("trusted keys: %s (%d)", a.trustFile, len(t.Keys()))
-		return t.Keys(), nil
+		// Only station keys verify runs and documents; an approver's key signs
+		// releases and voids, never a certificate.
+		ks := audit.Keys{}
+		for id, pub := range t.Keys() {
+			for _, st := range t.Stations() {
+				if t.SignedByStation(st, id) {
+					ks[id] = pub
+				}
+			}
+		}
+		a.keysFrom = fmt.Sprintf("trusted keys: %s (%d station key(s))", a.trustFile, len(ks))
+		return ks, nil
 	}
 	d := a.keysDir
 	if d == "" && a.ledgerPath != "" {

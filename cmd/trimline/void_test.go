@@ -69,11 +69,19 @@ func TestVoidNeedsTrustedApprover(t *testing.T) {
 	if code != exitFail || !strings.Contains(out, "VOIDED by demo-qe on ") || !strings.Contains(out, "signed ed25519:") || strings.Contains(out, "unsigned") {
 		t.Errorf("verify a signed void: exit %d\n%s", code, out)
 	}
-	// The trust file names the same key Demo Quality Engineer: the void was
-	// signed under another name, so it is not theirs.
+	// The auditor's trust file names the same key Demo Quality Engineer: the
+	// name shown is the auditor's trust entry's, beside the one recorded.
 	code, out, _ = runCLI(t, "audit", "verify", pdf, "--trust", trust)
+	if code != exitFail || !strings.Contains(out, "VOIDED by Demo Quality Engineer (recorded as demo-qe) on ") {
+		t.Errorf("verify with the trust file: exit %d\n%s", code, out)
+	}
+	// A key the auditor does not trust to void: still voided, flagged.
+	releaseOnlyVerify := filepath.Join(dir, "keys", "release-only-verify.yaml")
+	os.WriteFile(releaseOnlyVerify, []byte("trust:\n  stations:\n    - {id: TL1, public_key: TL1.pub}\n"+
+		"  approvers:\n    - {name: Rel Only, public_key: approvers/demo-qe.pub, may: [release]}\n"), 0o600)
+	code, out, _ = runCLI(t, "audit", "verify", pdf, "--trust", releaseOnlyVerify)
 	if code != exitFail || !strings.HasPrefix(out, "VOIDED") || !strings.Contains(out, "not signed by a trusted approver") {
-		t.Errorf("verify under another name: exit %d\n%s", code, out)
+		t.Errorf("verify with an approver who may not void: exit %d\n%s", code, out)
 	}
 }
 

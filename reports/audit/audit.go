@@ -157,15 +157,15 @@ func Certificate(ctx context.Context, led *ledger.Ledger, ledgerName, path strin
 }
 
 // VoidApprover returns the approver of approvers who signed st's void, when its
-// signature (over signing.VoidMessage) verifies with the key of an approver who
-// may void. The name the void was recorded under must be that approver's.
+// signature (over signing.VoidMessage, with the name the void was recorded under)
+// verifies with the key of an approver who may void.
 func VoidApprover(st ledger.Status, approvers *signing.Trust) (signing.Approver, bool) {
 	sig := st.VoidSignature
 	if !st.Voided || sig.KeyID == "" || approvers == nil {
 		return signing.Approver{}, false
 	}
 	a, ok := approvers.Approver(sig.KeyID)
-	if !ok || !a.Can(signing.MayVoid) || a.Name != st.VoidedBy {
+	if !ok || !a.Can(signing.MayVoid) {
 		return signing.Approver{}, false
 	}
 	raw, err := base64.StdEncoding.DecodeString(sig.Signature)
@@ -180,7 +180,11 @@ func VoidApprover(st ledger.Status, approvers *signing.Trust) (signing.Approver,
 func voidReason(st ledger.Status, approvers *signing.Trust) string {
 	when := st.VoidedAt.UTC().Format("2006-01-02 15:04 UTC")
 	if a, ok := VoidApprover(st, approvers); ok {
-		return fmt.Sprintf("VOIDED by %s on %s, signed %s: %s", a.Name, when, st.VoidSignature.KeyID, st.VoidReason)
+		as := ""
+		if a.Name != st.VoidedBy {
+			as = fmt.Sprintf(" (recorded as %s)", st.VoidedBy)
+		}
+		return fmt.Sprintf("VOIDED by %s%s on %s, signed %s: %s", a.Name, as, when, st.VoidSignature.KeyID, st.VoidReason)
 	}
 	flag := "unsigned void: recorded without an approver's signature (as every void before voids were signed), so no trusted approver stands behind it"
 	switch {
