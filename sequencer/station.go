@@ -39,8 +39,9 @@ type Station struct {
 	// RequireRelease makes production runs refuse sequence and limit files whose
 	// hash was never released in the ledger's audit trail.
 	RequireRelease bool
-	// ReleaseKeys is the folder of the approvers' public keys (*.pub) whose signed
-	// releases count; required with RequireRelease.
+	// ReleaseKeys names the approvers whose signed release decisions count: a
+	// folder of their public keys (NAME.pub) or a trust file naming them
+	// (resolved relative to the station file); required with RequireRelease.
 	ReleaseKeys string
 	// SigningKey is the station's Ed25519 private key file (resolved relative to
 	// the station file); "" issues unsigned certificates.
@@ -328,7 +329,7 @@ func parseStation(name string, data []byte, recorded bool) (*Station, error) {
 		}
 	}
 	if st.RequireRelease && st.ReleaseKeys == "" {
-		errs = append(errs, doc.Errorf("$.require_release", "require_release needs release_keys: the folder of the approvers' public keys whose signed releases count"))
+		errs = append(errs, doc.Errorf("$.require_release", "require_release needs release_keys: the folder of the approvers' public keys, or a trust file naming them, whose signed releases count"))
 	}
 	if k := f.Signing.Key; k != "" {
 		st.SigningKey = k

@@ -62,10 +62,12 @@ func TestAuditDemo(t *testing.T) {
 		t.Errorf("missing --ledger: exit %d, want 2", code)
 	}
 	num := strings.SplitN(filepath.Base(pdfs[0]), "_", 2)[0]
-	if code, _, errOut := runCLI(t, "audit", "void", num, "--ledger", led, "--by", "Q. Engineer", "--reason", "wrong fixture"); code != 0 {
+	if code, _, errOut := runCLI(t, "audit", "void", num, "--ledger", led, "--key", filepath.Join(dir, "keys", "approvers", "demo-qe.key"),
+		"--trust", filepath.Join(dir, "keys", "trust.yaml"), "--reason", "wrong fixture"); code != 0 {
 		t.Fatalf("void: %d %s", code, errOut)
 	}
-	if code, out, _ := runCLI(t, "audit", "verify", pdfs[0], "--keys", keys); code != exitFail || !strings.HasPrefix(out, "VOIDED") || !strings.Contains(out, "wrong fixture") {
+	if code, out, _ := runCLI(t, "audit", "verify", pdfs[0], "--trust", filepath.Join(dir, "keys", "trust.yaml")); code != exitFail || !strings.HasPrefix(out, "VOIDED") ||
+		!strings.Contains(out, "wrong fixture") || !strings.Contains(out, "VOIDED by Demo Quality Engineer") {
 		t.Errorf("voided: exit %d\n%s", code, out)
 	}
 }

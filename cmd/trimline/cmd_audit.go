@@ -101,26 +101,44 @@ written its readings. Exit 1 when any run differs or is not signed.`,
 
 func newAuditVoidCmd() *command {
 	c := &command{
-		UsageLine: "trimline audit void CERT-NUMBER --by NAME --reason TEXT [--ledger DB]",
-		Short:     "void a certificate",
-		Long:      `Voids a certificate with --by and --reason; it stays in the ledger and the audit trail.`,
+		UsageLine: "trimline audit void CERT-NUMBER --key APPROVER.key --reason TEXT (--trust FILE | --keys DIR) [--ledger DB]",
+		Short:     "void a certificate, signed by a trusted approver",
+		Long: `Voids a certificate for --reason, signed with the approver's private key (--key).
+The key must be that of an approver trusted to void: named with may: [void] in the
+trust file (--trust), or in the approvers/ folder of --keys. A key no trust names
+is refused. The name recorded is the approver's, as the trust names them; --by, if
+given, must agree with it. The certificate stays in the ledger and the audit trail;
+'trimline audit verify' says VOIDED and who signed the void.`,
 	}
 	a := newAuditor(c)
-	by := c.Flag.String("by", "", "`name` of the person voiding")
+	by := c.Flag.String("by", "", "printed `name` of the approver; must agree with their trust entry (the name recorded comes from there)")
 	reason := c.Flag.String("reason", "", "`reason` for voiding")
+	keyPath := c.Flag.String("key", "", "the approver's private key `file` that signs the void")
 	c.Run = func(ctx context.Context, e *env, args []string) error {
-		if len(args) != 1 || *by == "" || *reason == "" {
-			return usagef("usage: trimline audit void CERT-NUMBER --by NAME --reason TEXT")
+		if len(args) != 1 || *reason == "" || *keyPath == "" {
+			return usagef("usage: %s", c.UsageLine)
+		}
+		approvers, err := a.trust()
+		if err != nil {
+			return err
+		}
+		key, err := signing.Load(*keyPath)
+		if err != nil {
+			return badInput(err)
+		}
+		if ap, ok := approvers.Approver(key.ID()); ok && *by != "" && *by != ap.Name {
+			return usagef("--by %q: the key %s is %s's (%s); the name recorded is the trust entry's", *by, key.ID(), ap.Name, approvers.Source)
 		}
 		led, err := a.open(ctx, "")
 		if err != nil {
 			return err
 		}
 		defer led.Close()
-		if err := led.VoidCertificate(ctx, args[0], *by, *reason); err != nil {
+		ap, err := audit.Void(ctx, led, args[0], *reason, key, approvers)
+		if err != nil {
 			return badInput(err)
 		}
-		fmt.Fprintf(e.stdout, "%s voided by %s: %s\n", args[0], *by, *reason)
+		fmt.Fprintf(e.stdout, "%s voided by %s (signed %s): %s\n", args[0], ap.Name, key.ID(), *reason)
 		return nil
 	}
 	return c

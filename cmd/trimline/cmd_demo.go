@@ -146,6 +146,9 @@ func writeDemoFiles(dir string, seed uint64, now time.Time) (station, sequence s
 			}
 		}
 	}
+	if err := os.WriteFile(filepath.Join(dir, "keys", "trust.yaml"), []byte(demoTrust), 0o600); err != nil {
+		return "", "", err
+	}
 	for _, e := range entries {
 		data, err := fs.ReadFile(sequences.Demo, e.Name())
 		if err != nil {
@@ -162,15 +165,39 @@ func writeDemoFiles(dir string, seed uint64, now time.Time) (station, sequence s
 	return filepath.Join(dir, "brx200-station.yaml"), filepath.Join(dir, "brx200-sequence.yaml"), nil
 }
 
-// releaseDemo releases the demo's sequence and limit files in DIR's ledger unless
-// they already are.
+// demoTrust is the demo's trust file: the station's key bound to its id, and its
+// quality engineer, named as the trust names them, who may release and void.
+const demoTrust = `# Whose keys the demo trusts: the station TL1's, and its quality engineer's,
+# who may release files and void certificates. The demo station's release_keys
+# names this file; an auditor passes their own copy with --trust.
+trust:
+  stations:
+    - {id: TL1, public_key: TL1.pub}
+  approvers:
+    - {name: Demo Quality Engineer, public_key: approvers/demo-qe.pub, may: [release, void]}
+`
+
+// releaseDemo approves the demo's sequence and limit files in DIR's ledger unless
+// they are in force already.
 func releaseDemo(ctx context.Context, e *env, dir string) error {
+	trust, err := release.Approvers(filepath.Join(dir, "keys", "trust.yaml"))
+	if err != nil {
+		return err
+	}
 	led, err := ledger.Open(ctx, filepath.Join(dir, "ledger.db"))
 	if err != nil {
 		return err
 	}
-	rel, err := release.ByDir(ctx, led, filepath.Join(dir, "keys", "approvers"))
+	rel, err := release.By(ctx, led, trust)
 	led.Close()
+	if err != nil {
+		return err
+	}
+	seq, err := sequencer.LoadSequence(filepath.Join(dir, "brx200-sequence.yaml"))
+	if err != nil {
+		return badInput(err)
+	}
+	key, err := signing.Load(filepath.Join(dir, "keys", "approvers", "demo-qe.key"))
 	if err != nil {
 		return err
 	}
@@ -183,8 +210,8 @@ func releaseDemo(ctx context.Context, e *env, dir string) error {
 		if _, ok := rel[hex.EncodeToString(sum[:])]; ok {
 			continue
 		}
-		kind := sequencer.FileKind(data)
-		r, err := recordRelease(ctx, filepath.Join(dir, "ledger.db"), filepath.Join(dir, "keys", "approvers", "demo-qe.key"), f, kind, data, "Demo Quality Engineer", "approved")
+		req := release.Request{Key: key, Trust: trust, Decision: release.Approve, Ranges: sequencer.PhysicalRanges(seq)}
+		r, err := recordRelease(ctx, filepath.Join(dir, "ledger.db"), f, sequencer.FileKind(data), data, req)
 		if err != nil {
 			return err
 		}

@@ -21,6 +21,7 @@ import (
 
 	_ "trimline/instruments/generic" // SCPI and trim-port drivers, schemes serial:// tcp:// usbtmc://
 	_ "trimline/instruments/sim"     // the simulated bench, scheme sim://
+	"trimline/reports/audit"
 	"trimline/reports/issuing"
 	"trimline/reports/release"
 	"trimline/reports/signing"
@@ -102,6 +103,8 @@ func exitCode(err error) int {
 		return exitFail
 	case errors.As(err, &ue), errors.Is(err, errBadInput),
 		errors.Is(err, release.ErrNotReleased), errors.Is(err, release.ErrNotReleasable), errors.Is(err, release.ErrReleaseKeys),
+		errors.Is(err, release.ErrUntrusted), errors.Is(err, release.ErrLint), errors.Is(err, release.ErrDecision),
+		errors.Is(err, audit.ErrUntrustedVoid),
 		errors.Is(err, sequencer.ErrSafety), errors.Is(err, sequencer.ErrUnboundRole), errors.Is(err, sequencer.ErrTUR),
 		errors.Is(err, sequencer.ErrBadSerial), errors.Is(err, issuing.ErrTestedBefore),
 		errors.Is(err, signing.ErrNoTrust), errors.Is(err, signing.ErrUnsafeKeyFolder),

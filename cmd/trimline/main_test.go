@@ -234,16 +234,13 @@ func TestReleaseAndEngineeringRuns(t *testing.T) {
 		}
 	}
 	for _, f := range []string{sequence, filepath.Join(dir, "brx200-limits.yaml")} {
-		// Anyone can write an unsigned release; it does not count.
-		if code, out, _ := runCLI(t, "limits", "release", f, "--by", "anyone", "--meaning", "approved", "--station", station); code != 0 || !strings.Contains(out, "unsigned") {
-			t.Fatalf("unsigned release: exit %d\n%s", code, out)
+		// A release is signed by a trusted approver's key; there is no unsigned one.
+		if code, _, _ := runCLI(t, "limits", "release", f, "--decision", "approve", "--station", station); code != exitUsage {
+			t.Fatalf("unsigned release: exit %d", code)
 		}
-		if code, _, errOut := runCLI(t, "run", "--station", station, "--sequence", sequence, "--serial", "BRX-00019"); code != exitUsage || !strings.Contains(errOut, "trusted approver") {
-			t.Fatalf("an unsigned release let production run: exit %d %s", code, errOut)
-		}
-		code, out, errOut := runCLI(t, "limits", "release", f, "--by", "A. Quality", "--meaning", "approved", "--station", station,
+		code, out, errOut := runCLI(t, "limits", "release", f, "--decision", "approve", "--station", station,
 			"--key", filepath.Join(dir, "keys", "approvers", "demo-qe.key"))
-		if code != 0 || !strings.Contains(out, "A. Quality — approved") || !strings.Contains(out, "signed with ed25519:") {
+		if code != 0 || !strings.Contains(out, "Demo Quality Engineer — approved") || !strings.Contains(out, "signed with ed25519:") {
 			t.Fatalf("release %s: exit %d\n%s%s", f, code, out, errOut)
 		}
 	}

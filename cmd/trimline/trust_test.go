@@ -236,7 +236,8 @@ func TestVoidedCertificateVerifiedByBareNameInsideCertificates(t *testing.T) {
 	if code, out, errOut := runCLI(t, "demo", "--out", dir, "--units", "2"); code != 0 {
 		t.Fatalf("demo: exit %d\n%s%s", code, out, errOut)
 	}
-	if code, _, errOut := runCLI(t, "audit", "void", "TL1-000001", "--ledger", filepath.Join(dir, "ledger.db"), "--by", "Q. Engineer", "--reason", "wrong fixture"); code != 0 {
+	if code, _, errOut := runCLI(t, "audit", "void", "TL1-000001", "--ledger", filepath.Join(dir, "ledger.db"), "--key", filepath.Join(dir, "keys", "approvers", "demo-qe.key"),
+		"--trust", filepath.Join(dir, "keys", "trust.yaml"), "--reason", "wrong fixture"); code != 0 {
 		t.Fatalf("void: exit %d %s", code, errOut)
 	}
 	t.Chdir(filepath.Join(dir, "certificates"))

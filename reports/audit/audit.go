@@ -8,11 +8,13 @@ import (
 	"context"
 	"crypto/ed25519"
 	"crypto/sha256"
+	"encoding/base64"
 	"encoding/hex"
 	"errors"
 	"fmt"
 	"io"
 	"os"
+	"time"
 
 	"trimline/reports/certificate"
 	"trimline/reports/ledger"
@@ -33,7 +35,7 @@ const (
 
 // NotChecked is the reason every verdict from a seal alone carries: without the
 // ledger nothing says whether the certificate was voided or superseded since.
-const NotChecked = "NOT CHECKED without the ledger: whether it was voided or superseded, the run's record and the station's chain (give --ledger DB)"
+const NotChecked = "NOT CHECKED without the ledger: a seal cannot tell whether the certificate was voided or superseded since (only its ledger knows), nor check the run's record and the station's chain (give --ledger DB)"
 
 // Verdict is the outcome of verifying a certificate: its kind and the reasons,
 // in the order they were checked.
@@ -81,7 +83,8 @@ func Verifier(keys map[string]ed25519.PublicKey) func(keyID string, msg, sig []b
 // document and its signature, the record's signature by a key bound to the run's
 // station, the station's hash chain, that every run of the station is signed by
 // its trusted key (CheckSigners), and whether the certificate was voided or
-// superseded by a retest; with led nil it checks the seal beside the file (path +
+// superseded by a retest (a void names its approver when signed by one t trusts to
+// void, and is flagged otherwise: see VoidApprover); with led nil it checks the seal beside the file (path +
 // ".seal") with a trusted station key alone, and says that voids, supersedes and
 // the chain were not checked. The error is the ledger's, when it could not be
 // read.
@@ -153,13 +156,81 @@ func Certificate(ctx context.Context, led *ledger.Ledger, ledgerName, path strin
 		return Verdict{}, err
 	}
 	if st.Voided {
-		return verdict(Voided, append(why, fmt.Sprintf("VOIDED by %s on %s: %s", st.VoidedBy, st.VoidedAt.UTC().Format("2006-01-02 15:04 UTC"), st.VoidReason))...), nil
+		return verdict(Voided, append(why, voidReason(st, t))...), nil
 	}
 	if st.Superseded {
 		return verdict(Superseded, append(why, fmt.Sprintf("superseded by %s: serial %s was retested on %s (run %s); this certificate is no longer current",
 			st.SupersededBy, rec.Serial, st.SupersededAt.UTC().Format("2006-01-02 15:04 UTC"), st.SupersededByRun))...), nil
 	}
 	return verdict(Genuine, why...), nil
+}
+
+// VoidApprover returns the approver of approvers who signed st's void, when its
+// signature (over signing.VoidMessage, with the name the void was recorded under)
+// verifies with the key of an approver who may void.
+func VoidApprover(st ledger.Status, approvers *signing.Trust) (signing.Approver, bool) {
+	sig := st.VoidSignature
+	if !st.Voided || sig.KeyID == "" || approvers == nil {
+		return signing.Approver{}, false
+	}
+	a, ok := approvers.Approver(sig.KeyID)
+	if !ok || !a.Can(signing.MayVoid) {
+		return signing.Approver{}, false
+	}
+	raw, err := base64.StdEncoding.DecodeString(sig.Signature)
+	if err != nil || !signing.Verify(a.Key, signing.VoidMessage(st.Number, st.VoidedBy, st.VoidReason, sig.At), raw) {
+		return signing.Approver{}, false
+	}
+	return a, true
+}
+
+// voidReason says who voided a certificate, and whether an auditor can hold them
+// to it.
+func voidReason(st ledger.Status, approvers *signing.Trust) string {
+	when := st.VoidedAt.UTC().Format("2006-01-02 15:04 UTC")
+	if a, ok := VoidApprover(st, approvers); ok {
+		as := ""
+		if a.Name != st.VoidedBy {
+			as = fmt.Sprintf(" (recorded as %s)", st.VoidedBy)
+		}
+		return fmt.Sprintf("VOIDED by %s%s on %s, signed %s: %s", a.Name, as, when, st.VoidSignature.KeyID, st.VoidReason)
+	}
+	flag := "unsigned void: recorded without an approver's signature (as every void before voids were signed), so no trusted approver stands behind it"
+	switch {
+	case st.VoidSignature.KeyID != "" && approvers == nil:
+		flag = "signed with key " + st.VoidSignature.KeyID + ", not checked: no approvers given (--keys DIR with approvers/, or --trust FILE)"
+	case st.VoidSignature.KeyID != "":
+		flag = "void not signed by a trusted approver: key " + st.VoidSignature.KeyID + " is not trusted to void, or its signature does not verify"
+	}
+	return fmt.Sprintf("VOIDED on %s, recorded as by %s: %s (%s; the certificate is still not current)", when, st.VoidedBy, st.VoidReason, flag)
+}
+
+// ErrUntrustedVoid is returned by Void when the key is not that of an approver
+// trusted to void certificates.
+var ErrUntrustedVoid = errors.New("not the key of an approver trusted to void")
+
+// Void voids certificate number in led for reason, signed with key, which must be
+// the key of an approver of approvers who may void (else ErrUntrustedVoid, saying
+// so). The void is recorded under the approver's name from their trust entry,
+// with the signature over signing.VoidMessage; it returns that approver. Other
+// errors are the ledger's (ledger.ErrNotFound, ledger.ErrVoided, ledger.ErrInvalid).
+func Void(ctx context.Context, led *ledger.Ledger, number, reason string, key *signing.Key, approvers *signing.Trust) (signing.Approver, error) {
+	if key == nil || approvers == nil {
+		return signing.Approver{}, fmt.Errorf("void %s: a void is signed by a trusted approver's key: %w", number, ErrUntrustedVoid)
+	}
+	a, ok := approvers.Approver(key.ID())
+	if !ok {
+		return signing.Approver{}, fmt.Errorf("void %s: key %s is not an approver's in %s: %w", number, key.ID(), approvers.Source, ErrUntrustedVoid)
+	}
+	if !a.Can(signing.MayVoid) {
+		return signing.Approver{}, fmt.Errorf("void %s: %s (key %s) may not void certificates (%s): %w", number, a.Name, key.ID(), approvers.Source, ErrUntrustedVoid)
+	}
+	at := time.Now().UTC()
+	sig := key.Sign(signing.VoidMessage(number, a.Name, reason, at))
+	if err := led.SignedVoid(ctx, number, a.Name, reason, ledger.VoidSignature{At: at, KeyID: key.ID(), Signature: base64.StdEncoding.EncodeToString(sig)}); err != nil {
+		return signing.Approver{}, err
+	}
+	return a, nil
 }
 
 // sealOnly verifies a PDF against its seal and the trusted station keys, without

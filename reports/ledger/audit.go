@@ -88,10 +88,24 @@ type supersedeDetail struct {
 	ByCertificate string `json:"by_certificate"`
 }
 
-// voidDetail is the detail of a "void" entry.
+// voidDetail is the detail of a "void" entry. A signed void also carries the time
+// it was signed at (as signed, RFC 3339 with nanoseconds, UTC), the signing key's
+// id and the base64 signature; a void recorded before voids were signed has none.
 type voidDetail struct {
-	RunID  string `json:"run_id"`
-	Reason string `json:"reason"`
+	RunID     string `json:"run_id"`
+	Reason    string `json:"reason"`
+	SignedAt  string `json:"signed_at,omitempty"`
+	KeyID     string `json:"key_id,omitempty"`
+	Signature string `json:"signature,omitempty"`
+}
+
+// VoidSignature is an approver's signature over a void (signing.VoidMessage of
+// the certificate number, the actor, the reason and At). KeyID "" is an unsigned
+// void.
+type VoidSignature struct {
+	At        time.Time // when it was signed; UTC, to the nanosecond
+	KeyID     string
+	Signature string // base64 (standard encoding) Ed25519 signature
 }
 
 // auditHash is an entry's hash, as described at the top of this file.
@@ -193,7 +207,21 @@ func (l *Ledger) AuditTrail(ctx context.Context) ([]AuditEntry, error) {
 //
 // Errors (wrapped): ErrInvalid for an empty actor or reason; ErrNotFound for a
 // number no run has; ErrVoided if it is voided already.
+//
+// The void is unsigned: it names nobody an auditor can hold to it. SignedVoid
+// records one signed by an approver.
 func (l *Ledger) VoidCertificate(ctx context.Context, number, actor, reason string) error {
+	return l.SignedVoid(ctx, number, actor, reason, VoidSignature{})
+}
+
+// SignedVoid is VoidCertificate with the approver's signature sig, which is
+// stored with the entry as given (the caller checked it; CertificateStatus
+// returns it for an auditor to check again). Errors as for VoidCertificate, and
+// ErrInvalid for a signature without its time.
+func (l *Ledger) SignedVoid(ctx context.Context, number, actor, reason string, sig VoidSignature) error {
+	if sig.KeyID != "" && sig.At.IsZero() {
+		return fmt.Errorf("ledger: void %s: a signature without its time: %w", number, ErrInvalid)
+	}
 	if actor == "" {
 		return fmt.Errorf("ledger: void %s: empty actor: %w", number, ErrInvalid)
 	}
@@ -211,7 +239,11 @@ func (l *Ledger) VoidCertificate(ctx context.Context, number, actor, reason stri
 		} else if voided {
 			return ErrVoided
 		}
-		detail, err := json.Marshal(voidDetail{RunID: runID, Reason: reason})
+		d := voidDetail{RunID: runID, Reason: reason}
+		if sig.KeyID != "" {
+			d.SignedAt, d.KeyID, d.Signature = sig.At.UTC().Format(time.RFC3339Nano), sig.KeyID, sig.Signature
+		}
+		detail, err := json.Marshal(d)
 		if err != nil {
 			return err
 		}
@@ -232,6 +264,9 @@ type Status struct {
 	VoidReason    string    // "" unless Voided
 	VoidedBy      string    // the actor of the void entry
 	VoidedAt      time.Time // UTC; zero unless Voided
+	// VoidSignature is the approver's signature of the void; KeyID "" for an
+	// unsigned void (one recorded before voids were signed).
+	VoidSignature VoidSignature
 	// Superseded: a certified retest of the same serial replaced the certificate;
 	// SupersededBy is the retest's certificate number, SupersededByRun its run id.
 	Superseded      bool
@@ -271,6 +306,10 @@ func (l *Ledger) CertificateStatus(ctx context.Context, number string) (Status, 
 			return fmt.Errorf("audit trail entry %d: detail: %v: %w", e.Seq, err, ErrCorrupt)
 		}
 		st.Voided, st.VoidReason, st.VoidedBy, st.VoidedAt = true, d.Reason, e.Actor, e.At
+		if d.KeyID != "" {
+			at, _ := time.Parse(time.RFC3339Nano, d.SignedAt) // a time that does not parse: the signature does not verify
+			st.VoidSignature = VoidSignature{At: at.UTC(), KeyID: d.KeyID, Signature: d.Signature}
+		}
 		return nil
 	})
 	if err != nil {

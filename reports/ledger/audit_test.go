@@ -153,3 +153,30 @@ func TestAuditTrailVoid(t *testing.T) {
 		t.Errorf("after deleting entry 2: %+v, %v", rep, err)
 	}
 }
+
+// A signed void keeps its signature, key and signing time with the entry, and
+// CertificateStatus returns them for an auditor to check; the chain still
+// verifies.
+func TestSignedVoid(t *testing.T) {
+	l, _ := openLedger(t)
+	rec := makeRecord("run-s", "SN-S", sequencer.Pass, smallShape)
+	cert, err := l.RecordRunWith(ctx, rec, ledger.RecordOptions{Prefix: "TL1", Actor: "op17"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	at := time.Date(2026, 3, 14, 9, 41, 55, 120000000, time.UTC)
+	sig := ledger.VoidSignature{At: at, KeyID: "ed25519:0123456789abcdef", Signature: "c2lnbmF0dXJl"}
+	if err := l.SignedVoid(ctx, cert, "Dana Whitfield", "wrong limit file", ledger.VoidSignature{KeyID: "ed25519:x"}); !errors.Is(err, ledger.ErrInvalid) {
+		t.Errorf("a signature without its time: %v", err)
+	}
+	if err := l.SignedVoid(ctx, cert, "Dana Whitfield", "wrong limit file", sig); err != nil {
+		t.Fatal(err)
+	}
+	st, err := l.CertificateStatus(ctx, cert)
+	if err != nil || !st.Voided || st.VoidedBy != "Dana Whitfield" || st.VoidSignature != sig {
+		t.Errorf("status %+v, %v", st, err)
+	}
+	if rep, err := l.VerifyChain(ctx, ""); err != nil || !rep.OK {
+		t.Errorf("chain after a signed void: %+v %v", rep, err)
+	}
+}

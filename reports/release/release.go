@@ -11,17 +11,18 @@ package release
 
 import (
 	"context"
-	"crypto/ed25519"
 	"crypto/sha256"
 	"encoding/base64"
 	"encoding/hex"
 	"encoding/json"
 	"errors"
 	"fmt"
+	"os"
 	"path/filepath"
 	"strings"
 	"time"
 
+	"trimline/limits"
 	"trimline/reports/ledger"
 	"trimline/reports/signing"
 	"trimline/sequencer"
@@ -48,12 +49,40 @@ var ErrNotReleasable = errors.New("only limit and sequence files are released")
 // cannot be read; the message says why.
 var ErrReleaseKeys = errors.New("release keys unreadable")
 
+// Decisions an approver signs about a file. Only the last decision signed by a
+// trusted approver counts: approve puts the file in force, reject and withdraw
+// take it out (reject: it was never fit for production; withdraw: it was, and is
+// no longer).
+const (
+	Approve  = "approve"
+	Reject   = "reject"
+	Withdraw = "withdraw"
+)
+
+// Decisions lists the decision words, in the order help text names them.
+var Decisions = []string{Approve, Reject, Withdraw}
+
+// ErrUntrusted is returned by Record when the signing key is not trusted to
+// release: it is not an approver's of the trust given, or the approver may not
+// release.
+var ErrUntrusted = errors.New("not a trusted approver's key")
+
+// ErrLint is returned by Record when a limit file to approve has lint errors; the
+// error is a *LintError.
+var ErrLint = errors.New("lint found errors")
+
+// ErrDecision is returned by Record for a decision that is not one of Decisions.
+var ErrDecision = errors.New("unknown decision")
+
 // Release is the detail of a release entry: a 21 CFR 11.50 manifestation (printed
-// name, date and time, meaning) signed with the releasing key.
+// name, date and time, meaning) signed with the approver's key. Decision is one of
+// Approve, Reject and Withdraw; a release recorded before decisions existed has
+// none, and then its meaning decides (see DecisionOf).
 type Release struct {
 	File      string    `json:"file"`
 	Kind      string    `json:"kind"`
 	SHA256    string    `json:"sha256"`
+	Decision  string    `json:"decision,omitempty"`
 	By        string    `json:"by"`
 	Meaning   string    `json:"meaning"`
 	At        time.Time `json:"at"`
@@ -61,22 +90,123 @@ type Release struct {
 	Signature string    `json:"signature,omitempty"` // base64 Ed25519 over Message
 }
 
-// Message is the signed message of a release; its layout is owned by
-// signing.ReleaseMessage.
-func Message(r Release) []byte { return signing.ReleaseMessage(r.SHA256, r.By, r.Meaning, r.At) }
+// Message is the signed message of a release: signing.DecisionMessage when it
+// carries a decision, else (a release recorded before decisions) the original
+// signing.ReleaseMessage, whose bytes are kept so its signature still verifies.
+func Message(r Release) []byte {
+	if r.Decision != "" {
+		return signing.DecisionMessage(r.SHA256, r.Decision, r.By, r.Meaning, r.At)
+	}
+	return signing.ReleaseMessage(r.SHA256, r.By, r.Meaning, r.At)
+}
 
-// Record writes a release entry for data (the contents of the file at path, of
-// kind KindLimits or KindSequence) into led's audit trail, signed with key when key
-// is not nil, and returns it. Its time is now, in UTC.
-func Record(ctx context.Context, led *ledger.Ledger, key *signing.Key, path, kind string, data []byte, by, meaning string) (Release, error) {
+// DecisionOf returns what r decides: its Decision; for a release recorded before
+// decisions, the decision its meaning states in plain words ("approved" or
+// "released": Approve; "rejected": Reject; "withdrawn": Withdraw; any case), and ""
+// for any other meaning, which decides nothing.
+func DecisionOf(r Release) string {
+	if r.Decision != "" {
+		for _, d := range Decisions {
+			if d == r.Decision {
+				return d
+			}
+		}
+		return ""
+	}
+	switch strings.ToLower(strings.TrimSpace(r.Meaning)) {
+	case "approved", "approve", "released", "release":
+		return Approve
+	case "rejected", "reject":
+		return Reject
+	case "withdrawn", "withdraw":
+		return Withdraw
+	}
+	return ""
+}
+
+// DefaultMeaning is the meaning recorded with a decision when none is given.
+func DefaultMeaning(decision string) string {
+	switch decision {
+	case Approve:
+		return "approved"
+	case Reject:
+		return "rejected"
+	case Withdraw:
+		return "withdrawn"
+	}
+	return ""
+}
+
+// Request is what an approver decides about a file.
+type Request struct {
+	Key      *signing.Key          // the approver's private key; required
+	Trust    *signing.Trust        // whose approvers may release; the name comes from here
+	Decision string                // Approve, Reject or Withdraw
+	Meaning  string                // the words of the signature's meaning; "" for DefaultMeaning
+	Ranges   map[string][2]float64 // physical ranges for lint (sequencer.PhysicalRanges)
+}
+
+// LintError lists the lint errors that stop a limit file's approval; it matches
+// ErrLint.
+type LintError struct{ Findings []limits.Finding }
+
+func (e *LintError) Error() string {
+	lines := make([]string, len(e.Findings))
+	for i, f := range e.Findings {
+		lines[i] = f.Error()
+	}
+	return fmt.Sprintf("not released: trimline limits lint finds %d error(s):\n%s", len(e.Findings), strings.Join(lines, "\n"))
+}
+
+func (e *LintError) Is(target error) bool { return target == ErrLint }
+
+// Record writes a release decision on data (the contents of the file at path, of
+// kind KindLimits or KindSequence) into led's audit trail, signed with req.Key,
+// and returns it; its time is now, in UTC. The key must be that of an approver of
+// req.Trust who may release (else ErrUntrusted, saying so), and the printed name
+// recorded is the approver's trust entry's. A limit file is approved only when
+// limits.Lint, with req.Ranges, finds no error (else a *LintError); rejecting or
+// withdrawing needs no lint. Other errors: ErrNotReleasable, ErrDecision (also for
+// a meaning whose words state another decision), the ledger's.
+func Record(ctx context.Context, led *ledger.Ledger, path, kind string, data []byte, req Request) (Release, error) {
 	if kind != KindLimits && kind != KindSequence {
 		return Release{}, fmt.Errorf("%s: %w", path, ErrNotReleasable)
 	}
-	sum := sha256.Sum256(data)
-	r := Release{File: filepath.Base(path), Kind: kind, SHA256: hex.EncodeToString(sum[:]), By: by, Meaning: meaning, At: time.Now().UTC()}
-	if key != nil {
-		r.KeyID, r.Signature = key.ID(), base64.StdEncoding.EncodeToString(key.Sign(Message(r)))
+	if DecisionOf(Release{Decision: req.Decision}) == "" {
+		return Release{}, fmt.Errorf("%q: %w: expected %s", req.Decision, ErrDecision, strings.Join(Decisions, ", "))
 	}
+	if req.Key == nil || req.Trust == nil {
+		return Release{}, fmt.Errorf("%s: a release is signed by a trusted approver's key: %w", path, ErrUntrusted)
+	}
+	a, ok := req.Trust.Approver(req.Key.ID())
+	if !ok {
+		return Release{}, fmt.Errorf("%s: key %s is not an approver's in %s: %w", path, req.Key.ID(), req.Trust.Source, ErrUntrusted)
+	}
+	if !a.Can(signing.MayRelease) {
+		return Release{}, fmt.Errorf("%s: %s (key %s) may not release files (%s): %w", path, a.Name, req.Key.ID(), req.Trust.Source, ErrUntrusted)
+	}
+	if kind == KindLimits && req.Decision == Approve {
+		var errs []limits.Finding
+		for _, f := range limits.Lint(path, data, sequencer.ResultCatalog, limits.LintOptions{Ranges: req.Ranges}) {
+			if f.Severity == limits.SeverityError {
+				errs = append(errs, f)
+			}
+		}
+		if len(errs) > 0 {
+			return Release{}, &LintError{Findings: errs}
+		}
+	}
+	meaning := req.Meaning
+	if meaning == "" {
+		meaning = DefaultMeaning(req.Decision)
+	}
+	if d := DecisionOf(Release{Meaning: meaning}); d != "" && d != req.Decision {
+		return Release{}, fmt.Errorf("meaning %q says %s, but the decision is %s: %w", meaning, d, req.Decision, ErrDecision)
+	}
+	sum := sha256.Sum256(data)
+	r := Release{File: filepath.Base(path), Kind: kind, SHA256: hex.EncodeToString(sum[:]), Decision: req.Decision,
+		By: a.Name, Meaning: meaning, At: time.Now().UTC(), KeyID: req.Key.ID()}
+	r.Signature = base64.StdEncoding.EncodeToString(req.Key.Sign(Message(r)))
 	detail, _ := json.Marshal(r)
 	if err := led.Audit(ctx, r.By, Action, r.SHA256, string(detail)); err != nil {
 		return Release{}, err
@@ -84,52 +214,90 @@ func Record(ctx context.Context, led *ledger.Ledger, key *signing.Key, path, kin
 	return r, nil
 }
 
-// All returns every release in the ledger's audit trail by file hash, signed or not.
-func All(ctx context.Context, led *ledger.Ledger) (map[string]Release, error) {
+// All returns every release entry in the ledger's audit trail, signed or not, in
+// the trail's order.
+func All(ctx context.Context, led *ledger.Ledger) ([]Release, error) {
 	trail, err := led.AuditTrail(ctx)
 	if err != nil {
 		return nil, err
 	}
-	out := map[string]Release{}
+	var out []Release
 	for _, e := range trail {
 		if e.Action != Action {
 			continue
 		}
 		var r Release
 		if json.Unmarshal([]byte(e.Detail), &r) == nil && r.SHA256 == e.Subject {
-			out[r.SHA256] = r
+			out = append(out, r)
 		}
 	}
 	return out, nil
 }
 
-// By returns the releases whose signature verifies with one of the trusted keys,
-// by file hash.
-func By(ctx context.Context, led *ledger.Ledger, trusted map[string]ed25519.PublicKey) (map[string]Release, error) {
+// Approved reports whether r is a decision signed by an approver of trust who may
+// release, and returns that approver.
+func Approved(r Release, trust *signing.Trust) (signing.Approver, bool) {
+	a, ok := trust.Approver(r.KeyID)
+	if !ok || !a.Can(signing.MayRelease) || DecisionOf(r) == "" {
+		return signing.Approver{}, false
+	}
+	sig, err := base64.StdEncoding.DecodeString(r.Signature)
+	return a, err == nil && signing.Verify(a.Key, Message(r), sig)
+}
+
+// By returns the files in force, by hash: those whose last decision signed by an
+// approver of trust who may release (in the audit trail's order) approves them.
+// Unsigned entries, entries signed by other keys and meanings that state no
+// decision change nothing. Each Release's By is the approver's name as the trust
+// names them.
+func By(ctx context.Context, led *ledger.Ledger, trust *signing.Trust) (map[string]Release, error) {
 	all, err := All(ctx, led)
 	if err != nil {
 		return nil, err
 	}
 	out := map[string]Release{}
-	for sha, r := range all {
-		pub, ok := trusted[r.KeyID]
-		sig, err := base64.StdEncoding.DecodeString(r.Signature)
-		if ok && err == nil && signing.Verify(pub, Message(r), sig) {
-			out[sha] = r
+	for _, r := range all {
+		a, ok := Approved(r, trust)
+		if !ok {
+			continue
+		}
+		if DecisionOf(r) == Approve {
+			r.By = a.Name
+			out[r.SHA256] = r
+		} else {
+			delete(out, r.SHA256)
 		}
 	}
 	return out, nil
 }
 
-// ByDir is By with the trusted keys read from the *.pub files in dir, as
-// signing.TrustDir reads them: a folder that group or others may write is refused
-// (an error matching ErrReleaseKeys and signing.ErrUnsafeKeyFolder).
-func ByDir(ctx context.Context, led *ledger.Ledger, dir string) (map[string]Release, error) {
-	trust, err := signing.TrustDir(dir)
+// Approvers reads the approvers a station trusts from its release_keys: a folder
+// of NAME.pub files (signing.ApproverDir) or a trust file (signing.LoadTrust).
+// An error matches ErrReleaseKeys.
+func Approvers(path string) (*signing.Trust, error) {
+	var t *signing.Trust
+	fi, err := os.Stat(path)
+	switch {
+	case err != nil:
+		return nil, &keysError{fmt.Errorf("signing: %w", err)}
+	case fi.IsDir():
+		t, err = signing.ApproverDir(path)
+	default:
+		t, err = signing.LoadTrust(path)
+	}
 	if err != nil {
 		return nil, &keysError{err}
 	}
-	return By(ctx, led, trust.Keys())
+	return t, nil
+}
+
+// ByDir is By with the approvers of release_keys (see Approvers).
+func ByDir(ctx context.Context, led *ledger.Ledger, releaseKeys string) (map[string]Release, error) {
+	trust, err := Approvers(releaseKeys)
+	if err != nil {
+		return nil, err
+	}
+	return By(ctx, led, trust)
 }
 
 // NotReleasedError lists the files of a production run that no trusted approver
@@ -141,15 +309,15 @@ type NotReleasedError struct {
 
 func (e *NotReleasedError) Error() string {
 	return fmt.Sprintf("production runs need released files; not released by a trusted approver (%s): %s. An approver releases them with "+
-		"'trimline limits release FILE --by NAME --meaning approved --key THEIR.key', or run with --engineering (certificates then say ENGINEERING RUN — NOT FOR SHIPMENT)",
+		"'trimline limits release FILE --decision approve --key THEIR.key --station STATION', or run with --engineering (certificates then say ENGINEERING RUN — NOT FOR SHIPMENT)",
 		e.Keys, strings.Join(e.Missing, "; "))
 }
 
 func (e *NotReleasedError) Is(target error) bool { return target == ErrNotReleased }
 
 // Check refuses a production run on a sequence or limit file that no trusted
-// approver released: a release counts only when its signature verifies with one of
-// the public keys in the station's release_keys folder. It returns nil, a
+// approver released: a file is in force when the last decision on it signed by an
+// approver of the station's release_keys (Approvers) approves it (see By). It returns nil, a
 // *NotReleasedError, an error matching ErrReleaseKeys, or the ledger's error.
 func Check(ctx context.Context, led *ledger.Ledger, st *sequencer.Station, seq *sequencer.Sequence) error {
 	rel, err := ByDir(ctx, led, st.ReleaseKeys)

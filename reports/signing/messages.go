@@ -16,14 +16,17 @@ import (
 // must go on verifying, so a layout is never changed, only a new one (tag v2)
 // added beside it.
 //
-// A certificate's void is not signed: it is an entry in the ledger's hash-chained
-// audit trail (ledger.VoidCertificate), with no layout of its own here.
+// A certificate's void is signed by the approver voiding it (VoidMessage); voids
+// recorded before voids were signed are unsigned entries in the ledger's audit
+// trail and count as no approver's void.
 
 // Tags: the first line of each signed layout.
 const (
-	RecordTag  = "trimline-record-v1"  // RecordMessage
-	PDFTag     = "trimline-pdf-v1"     // PDFMessage
-	ReleaseTag = "trimline-release-v1" // ReleaseMessage
+	RecordTag   = "trimline-record-v1"  // RecordMessage
+	PDFTag      = "trimline-pdf-v1"     // PDFMessage
+	ReleaseTag  = "trimline-release-v1" // ReleaseMessage
+	DecisionTag = "trimline-release-v2" // DecisionMessage
+	VoidTag     = "trimline-void-v1"    // VoidMessage
 )
 
 // RecordMessage is the exact message a run's record signature covers, the one
@@ -64,4 +67,28 @@ func PDFMessage(number string, pdf []byte) []byte {
 // ("2026-03-14T09:41:55.123Z"; trailing zeros of the fraction dropped).
 func ReleaseMessage(fileSHA256, by, meaning string, at time.Time) []byte {
 	return []byte(ReleaseTag + "\n" + fileSHA256 + "\n" + by + "\n" + meaning + "\n" + at.UTC().Format(time.RFC3339Nano))
+}
+
+// DecisionMessage is the exact message a release decision's signature covers: an
+// approver's decision on a limit or sequence file (approve, reject or withdraw)
+// with the words of its meaning, the printed name from the approver's trust entry
+// and the time, bound to the file's hash:
+//
+//	"trimline-release-v2\n" + fileSHA256 + "\n" + decision + "\n" + by + "\n" + meaning + "\n" + at
+//
+// with the fields as for ReleaseMessage. It stands beside ReleaseMessage, whose
+// releases (which carry no decision word) keep verifying as they were signed.
+func DecisionMessage(fileSHA256, decision, by, meaning string, at time.Time) []byte {
+	return []byte(DecisionTag + "\n" + fileSHA256 + "\n" + decision + "\n" + by + "\n" + meaning + "\n" + at.UTC().Format(time.RFC3339Nano))
+}
+
+// VoidMessage is the exact message a void's signature covers: an approver voids
+// certificate number for a reason, under the printed name from their trust entry,
+// at a time:
+//
+//	"trimline-void-v1\n" + number + "\n" + by + "\n" + reason + "\n" + at
+//
+// with at in UTC as time.RFC3339Nano, as for ReleaseMessage.
+func VoidMessage(number, by, reason string, at time.Time) []byte {
+	return []byte(VoidTag + "\n" + number + "\n" + by + "\n" + reason + "\n" + at.UTC().Format(time.RFC3339Nano))
 }

@@ -341,6 +341,14 @@ func TestMessages(t *testing.T) {
 	if got != "trimline-release-v1\n\n\n\n2026-01-02T03:04:05Z" {
 		t.Errorf("ReleaseMessage of empty fields = %q", got)
 	}
+	got = string(signing.DecisionMessage("00ff", "reject", "Dana Whitfield", "rejected", at))
+	if got != "trimline-release-v2\n00ff\nreject\nDana Whitfield\nrejected\n2026-03-14T09:41:55.12Z" {
+		t.Errorf("DecisionMessage = %q", got)
+	}
+	got = string(signing.VoidMessage("TL1-000007", "Dana Whitfield", "wrong limit file", at))
+	if got != "trimline-void-v1\nTL1-000007\nDana Whitfield\nwrong limit file\n2026-03-14T09:41:55.12Z" {
+		t.Errorf("VoidMessage = %q", got)
+	}
 }
 
 func sealFor(k *signing.Key, pdf []byte) signing.Seal {

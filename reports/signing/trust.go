@@ -137,8 +137,8 @@ type trustFile struct {
 //	  approvers:
 //	    - {name: Demo Quality Engineer, public_key: keys/approvers/demo-qe.pub, may: [release, void]}
 //
-// The file and the folder holding it must not be writable by group or others
-// (ErrUnsafeKeyFolder).
+// The file, the folder holding it, and every key file it names and that file's
+// folder must not be writable by group or others (ErrUnsafeKeyFolder).
 func LoadTrust(path string) (*Trust, error) {
 	if err := checkFolder(filepath.Dir(path)); err != nil {
 		return nil, err
@@ -164,6 +164,15 @@ func LoadTrust(path string) (*Trust, error) {
 	load := func(at, p string) ed25519.PublicKey {
 		if !filepath.IsAbs(p) {
 			p = filepath.Join(base, p)
+		}
+		// A key file anyone may replace is no more trusted than its folder.
+		if err := checkFolder(filepath.Dir(p)); err != nil {
+			errs = append(errs, doc.Errorf(at, "%v", err))
+			return nil
+		}
+		if err := checkWritable(p, "public key"); err != nil {
+			errs = append(errs, doc.Errorf(at, "%v", err))
+			return nil
 		}
 		pub, err := LoadPublic(p)
 		if err != nil {
