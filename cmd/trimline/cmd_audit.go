@@ -232,10 +232,7 @@ func (a *auditor) ledger(ctx context.Context, e *env) error {
 	fmt.Fprintf(w, "ledger %s: %d station chain(s), %d runs (%d signed, %d verified, %d unsigned), %d certificates, %d documents, %d stored files, %d audit entries\n",
 		a.ledgerPath, rep.Stations, rep.Runs, rep.Signed, rep.Verified, rep.Unsigned, rep.Certificates, rep.Documents, rep.Blobs, rep.AuditEntries)
 	if !rep.OK {
-		at := rep.BrokenAt
-		if at == "" && rep.BrokenAuditSeq > 0 {
-			at = fmt.Sprintf("audit entry %d", rep.BrokenAuditSeq)
-		}
+		at := brokenAt(rep)
 		fmt.Fprintf(w, "BROKEN at %s: %s\n", at, rep.Reason)
 		return report(rejected(fmt.Errorf("chain broken at %s: %s", at, rep.Reason)))
 	}
@@ -250,6 +247,25 @@ func (a *auditor) ledger(ctx context.Context, e *env) error {
 	}
 	fmt.Fprintf(w, "  audit trail      %s\n", rep.AuditHead)
 	return nil
+}
+
+// brokenAt says where a chain broke: the table, the run and the audit trail
+// entry, those that are known, or "the ledger".
+func brokenAt(rep ledger.ChainReport) string {
+	var at []string
+	if rep.BrokenTable != "" {
+		at = append(at, "table "+rep.BrokenTable)
+	}
+	if rep.BrokenAt != "" {
+		at = append(at, "run "+rep.BrokenAt)
+	}
+	if rep.BrokenAuditSeq > 0 {
+		at = append(at, fmt.Sprintf("audit entry %d", rep.BrokenAuditSeq))
+	}
+	if len(at) == 0 {
+		return "the ledger"
+	}
+	return strings.Join(at, ", ")
 }
 
 // replay recomputes one certificate's run, or every run of a serial number.
