@@ -2,6 +2,7 @@ package main
 
 import (
 	"context"
+	"os"
 	"path/filepath"
 	"strings"
 	"testing"
@@ -68,4 +69,52 @@ func TestAuditLedgerFindsAChangedRow(t *testing.T) {
 			t.Fatalf("audit ledger without a trigger: exit %d\n%s", code, out)
 		}
 	})
+}
+
+// runUnits runs the released demo files of dir on serials, into dir's ledger.
+func runUnits(t *testing.T, dir, station, sequence string, serials ...string) {
+	t.Helper()
+	args := []string{"run", "--station", station, "--sequence", sequence, "--out", dir}
+	for _, sn := range serials {
+		args = append(args, "--serial", sn)
+	}
+	if code, out, errOut := runCLI(t, args...); code != 0 && code != exitFail {
+		t.Fatalf("run %v: exit %d\n%s%s", serials, code, out, errOut)
+	}
+}
+
+// Heads saved with --save-heads are found again with --heads after the ledger
+// grew; a ledger rebuilt from scratch (same station, same serials, new chains)
+// fails --heads, exit 1, naming each chain whose head is gone.
+func TestAuditLedgerSavedHeads(t *testing.T) {
+	dir := t.TempDir()
+	station, sequence := writeReleasedDemo(t, dir, 1)
+	runUnits(t, dir, station, sequence, "BRX-10001", "BRX-10002")
+	led := filepath.Join(dir, "ledger.db")
+	heads := filepath.Join(t.TempDir(), "heads.txt")
+	if code, out, errOut := runCLI(t, "audit", "ledger", "--ledger", led, "--save-heads", heads); code != 0 || !strings.Contains(out, "heads saved to "+heads) {
+		t.Fatalf("--save-heads: exit %d\n%s%s", code, out, errOut)
+	}
+	saved, err := os.ReadFile(heads)
+	if err != nil || !strings.HasPrefix(string(saved), ledger.HeadsFormat+"\n") || !strings.Contains(string(saved), " 2 station ") ||
+		!strings.Contains(string(saved), " audit trail\n") {
+		t.Fatalf("heads file:\n%s%v", saved, err)
+	}
+
+	runUnits(t, dir, station, sequence, "BRX-10003")
+	if code, out, errOut := runCLI(t, "audit", "ledger", "--ledger", led, "--heads", heads); code != 0 || !strings.Contains(out, "all 2 found; the chains have only grown") {
+		t.Fatalf("--heads after the ledger grew: exit %d\n%s%s", code, out, errOut)
+	}
+
+	again := t.TempDir()
+	station2, sequence2 := writeReleasedDemo(t, again, 1)
+	runUnits(t, again, station2, sequence2, "BRX-10001", "BRX-10002", "BRX-10003")
+	code, out, errOut := runCLI(t, "audit", "ledger", "--ledger", filepath.Join(again, "ledger.db"), "--heads", heads)
+	if code != exitFail || !strings.Contains(out, "chain intact") || !strings.Contains(out, "SAVED HEAD NOT FOUND: station ") ||
+		!strings.Contains(out, "SAVED HEAD NOT FOUND: audit trail: ") || !strings.Contains(out, "HEADS NOT FOUND in ") {
+		t.Fatalf("--heads on a rebuilt ledger: exit %d, want %d\n%s%s", code, exitFail, out, errOut)
+	}
+	if code, _, _ := runCLI(t, "audit", "ledger", "--ledger", led, "--heads", filepath.Join(t.TempDir(), "none.txt")); code != exitUsage {
+		t.Errorf("--heads with no such file: exit %d, want %d", code, exitUsage)
+	}
 }

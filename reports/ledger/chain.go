@@ -94,6 +94,10 @@ type ChainReport struct {
 	// mailed, signed), they make a rewrite of the whole ledger evident too.
 	Heads     map[string]string
 	AuditHead string
+	// HeadSeqs is the chain_seq of each station's head: its number of runs. The
+	// audit trail's head is entry AuditEntries. HeadList gives all heads as Heads,
+	// to save (FormatHeads) and check later (CheckHeads).
+	HeadSeqs map[string]int64
 }
 
 // appendOnlyTrigger is a trigger VerifyChain requires and the table it guards.
@@ -158,7 +162,7 @@ func (l *Ledger) VerifyChain(ctx context.Context, station string, opts ...ChainO
 		return ChainReport{}, err
 	}
 	c := &chainCheck{ctx: ctx, opt: opt, station: station,
-		rep: ChainReport{Station: station, OK: true, Heads: map[string]string{}}}
+		rep: ChainReport{Station: station, OK: true, Heads: map[string]string{}, HeadSeqs: map[string]int64{}}}
 	err = l.readTx(ctx, func(tx *sql.Tx) error {
 		c.tx = tx
 		for _, step := range []func() error{c.triggers, c.auditTrail, c.blobs, c.runs, c.orphanCreates, c.certificates, c.documents, c.rows} {
@@ -406,6 +410,7 @@ func (c *chainCheck) runs() error {
 		}
 		c.rep.Runs++
 		c.rep.Heads[r.station] = r.hash.String
+		c.rep.HeadSeqs[r.station] = r.seq.Int64
 		curSeq, prev = r.seq.Int64, r.hash.String
 	}
 	return rows.Err()
