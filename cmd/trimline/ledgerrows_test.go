@@ -7,8 +7,10 @@ import (
 	"strings"
 	"testing"
 
+	"trimline/reports/certificate"
 	"trimline/reports/ledger"
 	"trimline/reports/ledger/ledgertest"
+	"trimline/reports/signing"
 )
 
 // demoLedger runs the demo with n units in a fresh folder and returns it and the
@@ -116,5 +118,77 @@ func TestAuditLedgerSavedHeads(t *testing.T) {
 	}
 	if code, _, _ := runCLI(t, "audit", "ledger", "--ledger", led, "--heads", filepath.Join(t.TempDir(), "none.txt")); code != exitUsage {
 		t.Errorf("--heads with no such file: exit %d, want %d", code, exitUsage)
+	}
+}
+
+// Every certificate carries its run's chain link, in the PDF and in its seal, and
+// audit verify compares it with the ledger's. A forger with the station (and its
+// key) who rebuilds the ledger from scratch, the same record signed again and the
+// same PDF recorded again, but in a new chain (here a run recorded before it), gets
+// a ledger that verifies on its own; the certificate's link is not on its chain,
+// so the certificate is reported ALTERED.
+func TestAuditVerifyComparesTheChainLink(t *testing.T) {
+	dir, id := demoLedger(t, "1")
+	ctx := context.Background()
+	orig, err := ledger.Open(ctx, filepath.Join(dir, "ledger.db"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	rec, meta, err := orig.RunByCertificate(ctx, "TL1-000001")
+	orig.Close()
+	if err != nil || meta.RunID != id || meta.ChainSeq != 1 || len(meta.ChainHash) != 64 {
+		t.Fatalf("the demo's run: %+v %v", meta, err)
+	}
+	pdfPath := mustGlob(t, filepath.Join(dir, "certificates", "TL1-000001_*.pdf"))[0]
+	pdf, err := os.ReadFile(pdfPath)
+	if err != nil {
+		t.Fatal(err)
+	}
+	seal, err := signing.ReadSeal(pdfPath + ".seal")
+	if err != nil {
+		t.Fatal(err)
+	}
+	if got := certificate.ChainLink(pdf); got != meta.ChainHash || seal.ChainHash != meta.ChainHash || seal.ChainSeq != 1 {
+		t.Fatalf("chain link: PDF %q, seal %q %d, ledger %q", got, seal.ChainHash, seal.ChainSeq, meta.ChainHash)
+	}
+	if code, out, _ := runCLI(t, "audit", "verify", pdfPath); code != 0 || !strings.Contains(out, "chain link "+meta.ChainHash+" (run 1 of its chain) matches the ledger's") {
+		t.Fatalf("audit verify of the genuine certificate: exit %d\n%s", code, out)
+	}
+
+	key, err := signing.Load(filepath.Join(dir, "keys", "TL1.key"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	forgedDir := t.TempDir()
+	forged := filepath.Join(forgedDir, "ledger.db")
+	fl, err := ledger.Open(ctx, forged)
+	if err != nil {
+		t.Fatal(err)
+	}
+	sign := ledger.RecordOptions{Prefix: "TL1", Sign: func(number, runID, sum string) (string, []byte, error) {
+		return key.ID(), key.Sign(signing.RecordMessage(number, runID, sum)), nil
+	}}
+	before := *rec
+	before.RunID, before.Serial, before.Verdict, before.Fault = "forged-first", "BRX-99999", "FAULT", "meter: timeout"
+	if _, err := fl.RecordRunWith(ctx, &before, sign); err != nil {
+		t.Fatal(err)
+	}
+	if cert, err := fl.RecordRunWith(ctx, rec, sign); err != nil || cert != "TL1-000001" {
+		t.Fatalf("the record again: %q %v", cert, err)
+	}
+	if err := fl.AddSignedDocument(ctx, ledger.Document{RunID: id, Number: "TL1-000001", Path: pdfPath, SHA256: seal.PDFSHA256,
+		Size: int64(len(pdf)), KeyID: key.ID(), Signature: seal.PDFSignature}); err != nil {
+		t.Fatal(err)
+	}
+	fl.Close()
+	keys := filepath.Join(dir, "keys")
+	if code, out, _ := runCLI(t, "audit", "ledger", "--ledger", forged, "--keys", keys); code != 0 {
+		t.Fatalf("the rebuilt ledger verifies on its own: exit %d\n%s", code, out)
+	}
+	code, out, _ := runCLI(t, "audit", "verify", "--ledger", forged, "--keys", keys, pdfPath)
+	if code != exitFail || !strings.HasPrefix(out, "ALTERED") ||
+		!strings.Contains(out, "the certificate carries chain link "+meta.ChainHash+", but the ledger's run "+id+" has link ") ||
+		!strings.Contains(out, "(run 2 of its chain): the ledger was rebuilt or rewritten after the certificate was issued") {
+		t.Fatalf("audit verify against the rebuilt ledger: exit %d, want %d ALTERED\n%s", code, exitFail, out)
 	}
 }
