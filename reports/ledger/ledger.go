@@ -17,8 +17,9 @@
 //
 // A hash chain has no secret: someone who can write the file can recompute every
 // chain from the changed row on. Such a rewrite shows only against something kept
-// elsewhere: the signatures (if the key is not on the station), or the chain heads
-// (ChainReport.Heads, AuditHead) recorded outside the ledger.
+// elsewhere: the signatures (if the key is not on the station), the chain heads
+// saved outside the ledger (ChainReport.HeadList, FormatHeads; checked later by
+// CheckHeads), or the chain link every certificate carries (RunMeta.ChainHash).
 //
 // One ledger file may be shared by several processes and goroutines: writes take
 // SQLite's write lock at BEGIN (BEGIN IMMEDIATE) and wait up to 5 s for it, WAL lets
@@ -27,7 +28,8 @@
 //
 // Each run is stored twice: as rows for queries, and as the canonical JSON of the
 // whole sequencer.Record with its SHA-256, which is what Run returns, so a stored run
-// is re-read exactly. The canonical JSON is json.Marshal's output; only where a float
+// is re-read exactly. The rows are derived from the record by one function
+// (rows.go), and VerifyChain checks every row against the signed record. The canonical JSON is json.Marshal's output; only where a float
 // is NaN or ±Inf, which json.Marshal refuses, it holds the string "NaN", "Infinity"
 // or "-Infinity" instead. In the rows, a REAL column is NULL where the value is not a
 // finite number. In particular results.dof is NULL for an infinite number of degrees
