@@ -51,7 +51,7 @@ func newAuditLedgerCmd() *command {
 		Short:     "verify every station's hash chain, the audit trail and every query row",
 		Long: `Walks every station's hash chain and the audit trail, compares every row of the
 tables people query (readings, results, limit outcomes, fits, trims, files,
-instruments) with the signed record it came from, and reports the first broken link
+instruments, units) with the signed record it came from, and reports the first broken link
 or difference with its table, run and column; signatures are checked with the
 public keys in --keys. Prints the chain heads to keep elsewhere.
 

@@ -145,8 +145,10 @@ var appendOnlyTriggers = []appendOnlyTrigger{
 //     results, limit_outcomes, fits, trims, files and instruments, is the row the
 //     ledger derives from the signed record_json (recordRows, the code that wrote
 //     it), value for value, floats exactly; no row is missing, extra, or of a run
-//     that is not in the ledger. The first difference names its table, run, row
-//     and column (ChainReport.BrokenTable, BrokenColumn).
+//     that is not in the ledger; and (for the whole ledger) each units row is the
+//     one its serial's runs give, in the order they were stored (nextUnit). The
+//     first difference names its table, run, row and column
+//     (ChainReport.BrokenTable, BrokenColumn).
 //
 // A broken ledger is not an error: VerifyChain returns the report with OK false and
 // a nil error. Errors are reserved for failures to read (and ErrInvalid for more
@@ -154,8 +156,7 @@ var appendOnlyTriggers = []appendOnlyTrigger{
 //
 // What the chains cannot show: a change that rewrites every hash after it (there is
 // no secret in a hash), unless the signatures or heads kept elsewhere contradict it
-// (CheckHeads). The units table is a summary updated by every run and is not
-// checked.
+// (CheckHeads).
 func (l *Ledger) VerifyChain(ctx context.Context, station string, opts ...ChainOptions) (ChainReport, error) {
 	opt, err := chainOption("verify chain", opts)
 	if err != nil {

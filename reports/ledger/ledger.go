@@ -553,18 +553,8 @@ func storeRun(ctx context.Context, tx *sql.Tx, in runInput) (string, error) {
 		earlierCert = cert.String
 	}
 
-	first, last := formatTime(rec.Started), formatTime(rec.Finished)
-	if last < first {
-		last = first
-	}
-	if _, err := tx.ExecContext(ctx, `
-		INSERT INTO units (serial, product, first_seen, last_seen) VALUES (?, ?, ?, ?)
-		ON CONFLICT (serial) DO UPDATE SET
-			product    = CASE WHEN excluded.last_seen >= units.last_seen THEN excluded.product ELSE units.product END,
-			first_seen = min(units.first_seen, excluded.first_seen),
-			last_seen  = max(units.last_seen, excluded.last_seen)`,
-		rec.Serial, rec.Product, first, last); err != nil {
-		return "", fmt.Errorf("unit %s: %w", rec.Serial, err)
+	if err := storeUnit(ctx, tx, rec); err != nil {
+		return "", err
 	}
 
 	var cert string

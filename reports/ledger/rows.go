@@ -3,6 +3,7 @@ package ledger
 import (
 	"context"
 	"database/sql"
+	"errors"
 	"fmt"
 	"math"
 	"strconv"
@@ -113,6 +114,108 @@ func reasonsJSON(rec *sequencer.Record) (string, error) {
 	}
 	b, err := canonicalJSON(reasons)
 	return string(b), err
+}
+
+// unitRow is a units row: the unit as its runs so far describe it.
+type unitRow struct{ serial, product, firstSeen, lastSeen string }
+
+// nextUnit is the units row after a run of rec, given the row before it (ok
+// false: the serial's first run). first_seen and last_seen span the Started and
+// Finished times of all its runs; product is that of the run with the latest
+// last_seen, the later-stored on a tie. RecordRunWith stores it and VerifyChain
+// recomputes every unit with it from the runs in the order they were stored.
+func nextUnit(before unitRow, ok bool, rec *sequencer.Record) unitRow {
+	first, last := formatTime(rec.Started), formatTime(rec.Finished)
+	if last < first {
+		last = first
+	}
+	u := unitRow{rec.Serial, rec.Product, first, last}
+	if !ok {
+		return u
+	}
+	if last < before.lastSeen {
+		u.product = before.product
+	}
+	u.firstSeen, u.lastSeen = min(before.firstSeen, first), max(before.lastSeen, last)
+	return u
+}
+
+// storeUnit inserts or updates the units row of rec.Serial (nextUnit).
+func storeUnit(ctx context.Context, tx *sql.Tx, rec *sequencer.Record) error {
+	var before unitRow
+	err := tx.QueryRowContext(ctx, `SELECT serial, product, first_seen, last_seen FROM units WHERE serial = ?`, rec.Serial).
+		Scan(&before.serial, &before.product, &before.firstSeen, &before.lastSeen)
+	if err != nil && !errors.Is(err, sql.ErrNoRows) {
+		return fmt.Errorf("unit %s: %w", rec.Serial, err)
+	}
+	u := nextUnit(before, err == nil, rec)
+	if _, err := tx.ExecContext(ctx, `
+		INSERT INTO units (serial, product, first_seen, last_seen) VALUES (?, ?, ?, ?)
+		ON CONFLICT (serial) DO UPDATE SET product = excluded.product, first_seen = excluded.first_seen, last_seen = excluded.last_seen`,
+		u.serial, u.product, u.firstSeen, u.lastSeen); err != nil {
+		return fmt.Errorf("unit %s: %w", rec.Serial, err)
+	}
+	return nil
+}
+
+// units is VerifyChain's check of the units table (whole ledger only): each row
+// is the one nextUnit gives from the runs of its serial in the order they were
+// stored (rowid), and every serial with a run has one.
+func (c *chainCheck) units() error {
+	want := map[string]unitRow{}
+	var order []string
+	err := eachRow(c.ctx, c.tx, `SELECT serial, product, started, finished FROM runs ORDER BY rowid`, nil, func(rows *sql.Rows) error {
+		var serial, product, started, finished string
+		if err := rows.Scan(&serial, &product, &started, &finished); err != nil {
+			return err
+		}
+		s, err := parseTime(started)
+		if err != nil {
+			return err
+		}
+		f, err := parseTime(finished)
+		if err != nil {
+			return err
+		}
+		before, ok := want[serial]
+		if !ok {
+			order = append(order, serial)
+		}
+		want[serial] = nextUnit(before, ok, &sequencer.Record{Serial: serial, Product: product, Started: s, Finished: f})
+		return nil
+	})
+	if err != nil {
+		return err
+	}
+	seen := map[string]bool{}
+	err = eachRow(c.ctx, c.tx, `SELECT serial, product, first_seen, last_seen FROM units ORDER BY serial`, nil, func(rows *sql.Rows) error {
+		var got unitRow
+		if err := rows.Scan(&got.serial, &got.product, &got.firstSeen, &got.lastSeen); err != nil {
+			return err
+		}
+		w, ok := want[got.serial]
+		if !ok {
+			return c.brokenRow("units", "", "", "unit %s has no run in the ledger", got.serial)
+		}
+		seen[got.serial] = true
+		for _, f := range []struct{ col, got, want string }{
+			{"product", got.product, w.product}, {"first_seen", got.firstSeen, w.firstSeen}, {"last_seen", got.lastSeen, w.lastSeen},
+		} {
+			if f.got != f.want {
+				return c.brokenRow("units", f.col, "", "unit %s: %s is %q in the table, %q from its signed runs", got.serial, f.col, f.got, f.want)
+			}
+		}
+		return nil
+	})
+	if err != nil {
+		return err
+	}
+	for _, sn := range order {
+		if !seen[sn] {
+			return c.brokenRow("units", "", "", "unit %s, which has runs, has no row", sn)
+		}
+	}
+	return nil
 }
 
 // storeRows inserts the rows of every derivedTable for rec.
@@ -289,7 +392,10 @@ func (c *chainCheck) rows() error {
 			return c.brokenRow(cur.t.name, "", cur.runID, "row %d belongs to run %s, which is not in the ledger", cur.rowid, cur.runID)
 		}
 	}
-	return nil
+	if c.station != "" {
+		return nil // a unit's runs may be of several stations
+	}
+	return c.units()
 }
 
 // runRows checks the runs row and the derived rows of one run.

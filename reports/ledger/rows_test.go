@@ -139,3 +139,30 @@ func TestVerifyChainNamesTheTableOfAMissingTrigger(t *testing.T) {
 		t.Fatalf("VerifyChain without readings_no_update: %+v %v", rep, err)
 	}
 }
+
+// The units table, which every run updates, is what the runs of each serial
+// give, in the order they were stored: a changed product or date is found, a
+// unit without runs too.
+func TestVerifyChainChecksUnits(t *testing.T) {
+	for _, tc := range []struct{ q, want string }{
+		{`UPDATE units SET product = 'AMP-20' WHERE serial = 'SN-1'`, `units: unit SN-1: product is "AMP-20" in the table, "AMP-10" from its signed runs`},
+		{`UPDATE units SET last_seen = '2030-01-01T00:00:00.000000000Z' WHERE serial = 'SN-2'`, `units: unit SN-2: last_seen is "2030-01-01T00:00:00.000000000Z"`},
+		{`INSERT INTO units VALUES ('SN-X', 'AMP-10', '', '')`, "units: unit SN-X has no run in the ledger"},
+	} {
+		path := rowsLedger(t)
+		db := rawDB(t, path)
+		if _, err := db.Exec(tc.q); err != nil {
+			t.Fatal(err)
+		}
+		db.Close()
+		l, err := ledger.Open(ctx, path)
+		if err != nil {
+			t.Fatal(err)
+		}
+		rep, err := l.VerifyChain(ctx, "")
+		l.Close()
+		if err != nil || rep.OK || rep.BrokenTable != "units" || !strings.Contains(rep.Reason, tc.want) {
+			t.Errorf("after %s: %+v %v\nwant %q", tc.q, rep, err, tc.want)
+		}
+	}
+}
