@@ -1,13 +1,13 @@
 package main
 
 import (
+	"bytes"
 	"context"
 	"errors"
 	"fmt"
 	"io"
 	"os"
 	"path/filepath"
-	"sort"
 	"strings"
 
 	"trimline/reports/audit"
@@ -59,22 +59,32 @@ superseded.`,
 
 func newAuditLedgerCmd() *command {
 	c := &command{
-		UsageLine: "trimline audit ledger --keys DIR|--trust FILE [--ledger DB]",
-		Short:     "verify every station's hash chain and the audit trail",
-		Long: `Walks every station's hash chain and the audit trail and reports the first broken
-link; signatures are checked with the trusted keys (--keys DIR or --trust FILE; no
-key is trusted by default, exit 2 without). Every run of a station must be signed
-by a key bound to that station: the runs that are not (unsigned, or signed by
-another key) are listed, as is a station with no trusted key. Prints the chain
-heads to keep elsewhere. Exit 1 when the chain is broken or a run is not signed by
-its station's trusted key.`,
+		UsageLine: "trimline audit ledger --keys DIR|--trust FILE [--ledger DB] [--save-heads FILE] [--heads FILE]",
+		Short:     "verify every station's hash chain, the audit trail and every query row",
+		Long: `Walks every station's hash chain and the audit trail, compares every row of the
+tables people query (readings, results, limit outcomes, fits, trims, files,
+instruments, units) with the signed record it came from, and reports the first
+broken link or difference with its table, run and column. Signatures are checked
+with the trusted keys (--keys DIR or --trust FILE; no key is trusted by default,
+exit 2 without). Every run of a station must be signed by a key bound to that
+station: the runs that are not (unsigned, or signed by another key) are listed, as
+is a station with no trusted key. Prints the chain heads to keep elsewhere.
+
+--save-heads FILE writes the heads to FILE (one line per chain: HASH SEQ CHAIN);
+keep it outside the station. --heads FILE checks heads saved earlier: each must
+still be on its chain at its position, i.e. the chain has only grown since; a
+ledger rebuilt or rewritten since fails and the chain is named. Exit 1 when the
+chain is broken, a run is not signed by its station's trusted key, or a saved head
+is not found.`,
 	}
 	a := newAuditor(c)
+	saveHeads := c.Flag.String("save-heads", "", "write the chain heads to `file`, to keep outside the ledger")
+	heads := c.Flag.String("heads", "", "check the chain heads saved earlier in `file` (by --save-heads)")
 	c.Run = func(ctx context.Context, e *env, args []string) error {
 		if len(args) != 0 {
 			return usagef("usage: %s", c.UsageLine)
 		}
-		return a.ledger(ctx, e)
+		return a.ledger(ctx, e, *heads, *saveHeads)
 	}
 	return c
 }
@@ -301,9 +311,21 @@ func (a *auditor) verify(ctx context.Context, e *env, file string) error {
 	return a.verdictOut(e, file, v)
 }
 
-func (a *auditor) ledger(ctx context.Context, e *env) error {
+func (a *auditor) ledger(ctx context.Context, e *env, headsFile, saveHeads string) error {
 	if err := a.needTrust("whether the ledger's runs are the station's"); err != nil {
 		return err
+	}
+	var saved []ledger.Head
+	if headsFile != "" {
+		f, err := os.Open(headsFile)
+		if err != nil {
+			return badInput(err)
+		}
+		saved, err = ledger.ParseHeads(f)
+		f.Close()
+		if err != nil {
+			return badInput(fmt.Errorf("%s: %w", headsFile, err))
+		}
 	}
 	led, err := a.open(ctx, "")
 	if err != nil {
@@ -326,10 +348,7 @@ func (a *auditor) ledger(ctx context.Context, e *env) error {
 	fmt.Fprintf(w, "ledger %s: %d station chain(s), %d runs (%d signed, %d verified, %d unsigned), %d certificates, %d documents, %d stored files, %d audit entries\n",
 		a.ledgerPath, rep.Stations, rep.Runs, rep.Signed, rep.Verified, rep.Unsigned, rep.Certificates, rep.Documents, rep.Blobs, rep.AuditEntries)
 	if !rep.OK {
-		at := rep.BrokenAt
-		if at == "" && rep.BrokenAuditSeq > 0 {
-			at = fmt.Sprintf("audit entry %d", rep.BrokenAuditSeq)
-		}
+		at := brokenAt(rep)
 		fmt.Fprintf(w, "BROKEN at %s: %s\n", at, rep.Reason)
 		printUnsigned(w, t, unsigned)
 		return report(rejected(fmt.Errorf("chain broken at %s: %s", at, rep.Reason)))
@@ -338,17 +357,61 @@ func (a *auditor) ledger(ctx context.Context, e *env) error {
 		printUnsigned(w, t, unsigned)
 		return report(rejected(fmt.Errorf("%d run(s) or station(s) not signed by a trusted station key", len(unsigned))))
 	}
-	fmt.Fprintf(w, "chain intact; every run signed by its station's trusted key (%s). Heads (keep a copy outside the ledger):\n", trustedLine(t))
-	stations := make([]string, 0, len(rep.Heads))
-	for s := range rep.Heads {
-		stations = append(stations, s)
+	fmt.Fprintf(w, "chain intact; every query row matches its signed record; every run signed by its station's trusted key (%s). Heads (keep a copy outside the ledger, e.g. with --save-heads):\n", trustedLine(t))
+	for _, h := range rep.HeadList() {
+		fmt.Fprintf(w, "  %-20s %s (%d)\n", h.Chain(), h.Hash, h.Seq)
 	}
-	sort.Strings(stations)
-	for _, s := range stations {
-		fmt.Fprintf(w, "  station %-8s %s\n", s, rep.Heads[s])
+	if saveHeads != "" {
+		var buf bytes.Buffer
+		if err := ledger.FormatHeads(&buf, rep.HeadList()); err != nil {
+			return err
+		}
+		if err := os.WriteFile(saveHeads, buf.Bytes(), 0o644); err != nil {
+			return err
+		}
+		fmt.Fprintf(w, "heads saved to %s\n", saveHeads)
 	}
-	fmt.Fprintf(w, "  audit trail      %s\n", rep.AuditHead)
+	if saved == nil {
+		return nil
+	}
+	checks, err := led.CheckHeads(ctx, saved)
+	if err != nil {
+		return err
+	}
+	var lost []string
+	for _, c := range checks {
+		if c.Found {
+			fmt.Fprintf(w, "  saved head found: %s at %d (now %d)\n", c.Chain(), c.Seq, c.Now)
+			continue
+		}
+		fmt.Fprintf(w, "  SAVED HEAD NOT FOUND: %s\n", c.Why)
+		lost = append(lost, c.Chain())
+	}
+	if len(lost) > 0 {
+		fmt.Fprintf(w, "HEADS NOT FOUND in %s: %s; the ledger was rebuilt or rewritten since %s was saved\n", a.ledgerPath, strings.Join(lost, ", "), headsFile)
+		return report(rejected(fmt.Errorf("saved heads of %s not found: the ledger was rebuilt or rewritten", strings.Join(lost, ", "))))
+	}
+	fmt.Fprintf(w, "saved heads %s: all %d found; the chains have only grown since\n", headsFile, len(checks))
 	return nil
+}
+
+// brokenAt says where a chain broke: the table, the run and the audit trail
+// entry, those that are known, or "the ledger".
+func brokenAt(rep ledger.ChainReport) string {
+	var at []string
+	if rep.BrokenTable != "" {
+		at = append(at, "table "+rep.BrokenTable)
+	}
+	if rep.BrokenAt != "" {
+		at = append(at, "run "+rep.BrokenAt)
+	}
+	if rep.BrokenAuditSeq > 0 {
+		at = append(at, fmt.Sprintf("audit entry %d", rep.BrokenAuditSeq))
+	}
+	if len(at) == 0 {
+		return "the ledger"
+	}
+	return strings.Join(at, ", ")
 }
 
 // replayed is a stored run with what its signature covers.

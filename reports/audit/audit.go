@@ -122,6 +122,11 @@ func Certificate(ctx context.Context, led *ledger.Ledger, ledgerName, path strin
 		return verdict(Altered, "the PDF names run "+runID+" but certificate "+doc.Number+" belongs to run "+meta.RunID), nil
 	}
 	why := []string{fmt.Sprintf("document %s of run %s (serial %s, verdict %s): SHA-256 matches the ledger", doc.Number, meta.RunID, rec.Serial, rec.Verdict)}
+	kind, reason := chainLink(pdf, seal, meta)
+	why = append(why, reason)
+	if kind != "" {
+		return verdict(kind, why...), nil
+	}
 	// The trust rule: a record of a station is genuine only when signed by a key
 	// bound to that station, whatever the ledger says.
 	if bad := SignedRun(t, rec.Station, doc.Number, meta.RunID, meta.RecordSHA256, meta.KeyID, meta.Signature); bad != "" {
@@ -233,6 +238,32 @@ func Void(ctx context.Context, led *ledger.Ledger, number, reason string, key *s
 	return a, nil
 }
 
+// chainLink compares the chain link the certificate carries (in the PDF, or in
+// its seal for a PDF without one) with the ledger's link of its run. A ledger
+// rebuilt or rewritten after the certificate was issued has another link there:
+// the verdict is Altered. kind is "" when they agree (or the certificate carries
+// no link, being older than that); reason says which.
+func chainLink(pdf []byte, seal *signing.Seal, meta ledger.RunMeta) (kind, reason string) {
+	type carried struct{ where, link string }
+	var links []carried
+	if l := certificate.ChainLink(pdf); l != "" {
+		links = append(links, carried{"the certificate", l})
+	}
+	if seal != nil && seal.ChainHash != "" && seal.Number == meta.Certificate {
+		links = append(links, carried{"its seal", seal.ChainHash})
+	}
+	if len(links) == 0 {
+		return "", "the certificate carries no chain link (issued before certificates carried one): not compared with the ledger's"
+	}
+	for _, c := range links {
+		if c.link != meta.ChainHash {
+			return Altered, fmt.Sprintf("%s carries chain link %s, but the ledger's run %s has link %s (run %d of its chain): the ledger was rebuilt or rewritten after the certificate was issued",
+				c.where, c.link, meta.RunID, meta.ChainHash, meta.ChainSeq)
+		}
+	}
+	return "", fmt.Sprintf("chain link %s (run %d of its chain) matches the ledger's", meta.ChainHash, meta.ChainSeq)
+}
+
 // sealOnly verifies a PDF against its seal and the trusted station keys, without
 // a ledger.
 func sealOnly(path string, pdf []byte, seal *signing.Seal, t *signing.Trust) Verdict {
@@ -251,8 +282,11 @@ func sealOnly(path string, pdf []byte, seal *signing.Seal, t *signing.Trust) Ver
 		}
 		return verdict(kind, err.Error())
 	}
-	return verdict(Genuine, "certificate "+seal.Number+" matches its seal, signed by "+seal.KeyID+", a trusted key of station "+station,
-		NotChecked)
+	why := []string{"certificate " + seal.Number + " matches its seal, signed by " + seal.KeyID + ", a trusted key of station " + station, NotChecked}
+	if l := certificate.ChainLink(pdf); l != "" {
+		why = append(why, "its chain link "+l+" must be on the station's chain in the ledger (trimline audit verify with the ledger checks it)")
+	}
+	return verdict(Genuine, why...)
 }
 
 // Replay loads the station, sequence and limit files that were in force for rec

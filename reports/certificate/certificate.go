@@ -58,6 +58,14 @@ type Options struct {
 	VerificationCode string         // signing.VerificationCode of the record signature, e.g. "K7QF-2M9D-XA4P"
 	KeyID            string         // ID of the station key that sealed it, e.g. "ed25519:3f9a0c1d2e4b5a69"
 	Signer           *Manifestation // the person's signature manifestation; printed only when set
+
+	// The run's link in its station's hash chain in the ledger (its chain_hash,
+	// lowercase hex, and its position chain_seq), printed in the seal block and
+	// carried in the document keywords, so that the certificate anchors the chain
+	// outside the ledger: a ledger rebuilt later no longer has this link. Empty
+	// (and 0) print nothing.
+	ChainLink string
+	ChainSeq  int64
 }
 
 // Manifestation is what a certificate shows of a person's electronic signature
@@ -163,7 +171,7 @@ func render(rec *sequencer.Record, opt Options) (*gofpdf.Fpdf, error) {
 	}
 	pdf.SetCreator(strings.TrimSpace("trimline "+rec.Software), true)
 	pdf.SetProducer("trimline/reports/certificate", true)
-	pdf.SetKeywords(keywords(opt.Number, rec.RunID), false)
+	pdf.SetKeywords(keywords(opt.Number, rec.RunID, opt.ChainLink), false)
 
 	d := &doc{Doc: pdfdoc.Doc{PDF: pdf, Left: marginL, Width: contentW}, rec: rec, opt: opt}
 	d.Need = d.need

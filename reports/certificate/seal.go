@@ -2,6 +2,7 @@ package certificate
 
 import (
 	"bytes"
+	"fmt"
 	"strings"
 
 	"trimline/reports/internal/pdfdoc"
@@ -64,6 +65,10 @@ func (d *doc) sealLines() []sealLine {
 	}
 	if o.RecordSHA256 != "" || d.sealed() {
 		ls = append(ls, sealLine{"Record SHA-256", []pdfdoc.Span{{Text: dash(o.RecordSHA256), St: stSealMono}}})
+	}
+	if o.ChainLink != "" {
+		ls = append(ls, sealLine{"Chain link", []pdfdoc.Span{{Text: o.ChainLink, St: stSealMono},
+			{Text: fmt.Sprintf("  run %d of station %s's chain in the ledger", o.ChainSeq, d.rec.Station), St: stSealNote}}})
 	}
 	if d.sealed() {
 		ls = append(ls, sealLine{"To verify", []pdfdoc.Span{{Text: "trimline audit verify FILE.pdf", St: stSealMono},
@@ -158,13 +163,18 @@ func (d *doc) seal() {
 }
 
 // keywordsTag starts the document's keywords. The full keywords are
-// "trimline-certificate NUMBER run RUNID", each field percent-escaped (see
-// escapeField), so that the number and the run can be read back from the raw PDF
-// bytes: the document information dictionary is not compressed.
+// "trimline-certificate NUMBER run RUNID", followed by " chain HASH" when the
+// certificate carries its chain link, each field percent-escaped (see
+// escapeField), so that the number, the run and the link can be read back from the
+// raw PDF bytes: the document information dictionary is not compressed.
 const keywordsTag = "trimline-certificate"
 
-func keywords(number, runID string) string {
-	return keywordsTag + " " + escapeField(number) + " run " + escapeField(runID)
+func keywords(number, runID, chainLink string) string {
+	k := keywordsTag + " " + escapeField(number) + " run " + escapeField(runID)
+	if chainLink != "" {
+		k += " chain " + escapeField(chainLink)
+	}
+	return k
 }
 
 // escapeField writes s with only ASCII letters, digits and - . _ + : left as they
@@ -234,25 +244,44 @@ func unhex(c byte) (byte, bool) {
 // When the entry occurs more than once (an incremental update appends a new one)
 // the last is taken, as PDF readers do. ok is false when there is no such entry.
 func Metadata(pdf []byte) (number, runID string, ok bool) {
+	f, ok := metadataFields(pdf)
+	return f[0], f[1], ok
+}
+
+// ChainLink is the chain link the certificate carries in the same entry as
+// Metadata's (" chain HASH" after the run id), "" when it carries none
+// (certificates made before they carried it, or without a ledger link).
+func ChainLink(pdf []byte) string {
+	f, _ := metadataFields(pdf)
+	return f[2]
+}
+
+// metadataFields reads the last well-formed keywords entry: number, run id and
+// chain link ("" when absent).
+func metadataFields(pdf []byte) (out [3]string, ok bool) {
 	marker := []byte("/Keywords (" + keywordsTag + " ")
 	for rest := pdf; ; {
 		i := bytes.Index(rest, marker)
 		if i < 0 {
-			return number, runID, ok
+			return out, ok
 		}
 		rest = rest[i+len(marker):]
 		end := bytes.IndexByte(rest, ')')
 		if end < 0 {
-			return number, runID, ok
+			return out, ok
 		}
 		f := strings.Split(string(rest[:end]), " ")
-		if len(f) != 3 || f[1] != "run" {
+		if !(len(f) == 3 || len(f) == 5 && f[3] == "chain") || f[1] != "run" {
 			continue
 		}
 		n, ok1 := unescapeField(f[0])
 		r, ok2 := unescapeField(f[2])
-		if ok1 && ok2 {
-			number, runID, ok = n, r, true
+		c, ok3 := "", true
+		if len(f) == 5 {
+			c, ok3 = unescapeField(f[4])
+		}
+		if ok1 && ok2 && ok3 {
+			out, ok = [3]string{n, r, c}, true
 		}
 	}
 }

@@ -186,6 +186,34 @@ func TestMetadata(t *testing.T) {
 	}
 }
 
+// A certificate with its chain link prints it in the seal block, with the run's
+// position in its station's chain, and carries it in the keywords, where
+// ChainLink reads it back; Metadata reads the number and run as before. Identical
+// options give identical bytes; without a link there is none to read.
+func TestChainLink(t *testing.T) {
+	rec := sampleRecord()
+	o, _ := signedOptions(t, rec, testKey())
+	o.ChainLink, o.ChainSeq = strings.Repeat("c0ffee", 10)+"abcd", 17
+	pdf := render(t, rec, o)
+	if got := certificate.ChainLink(pdf); got != o.ChainLink {
+		t.Errorf("ChainLink = %q, want %q", got, o.ChainLink)
+	}
+	if n, r, ok := certificate.Metadata(pdf); !ok || n != o.Number || r != rec.RunID {
+		t.Errorf("Metadata with a chain link = %q, %q, %v", n, r, ok)
+	}
+	if !bytes.Equal(pdf, render(t, rec, o)) {
+		t.Error("the same record and options give different bytes")
+	}
+	o.ChainLink, o.ChainSeq = "", 0
+	if got := certificate.ChainLink(render(t, rec, o)); got != "" {
+		t.Errorf("ChainLink of a certificate without one = %q", got)
+	}
+	if text := pdfText(t, pdf); !strings.Contains(text, "Chain link") || !strings.Contains(text, o.ChainLink) ||
+		!strings.Contains(text, "run 17 of station "+rec.Station+"'s chain in the ledger") {
+		t.Errorf("the seal block does not show the chain link:\n%s", text)
+	}
+}
+
 // Issue requirement: any one-byte change to a sealed PDF makes its signature fail.
 func TestPDFTamper(t *testing.T) {
 	k := testKey()

@@ -180,13 +180,22 @@ func (is *Issuer) Record(ctx context.Context, rec *sequencer.Record) (string, er
 	if err != nil || cert == "" {
 		return cert, err
 	}
-	return cert, is.publish(ctx, rec, ledger.RunMeta{RunID: rec.RunID, Certificate: cert, RecordSHA256: recSHA, KeyID: keyID, Signature: sig})
+	// The run's chain link, as the ledger stored it, goes on the certificate.
+	_, meta, err := is.Ledger.RunByCertificate(ctx, cert)
+	if err != nil {
+		return cert, err
+	}
+	if meta.RecordSHA256 != recSHA || meta.KeyID != keyID {
+		return cert, fmt.Errorf("%s: the ledger's run %s is not the one just recorded", cert, meta.RunID)
+	}
+	return cert, is.publish(ctx, rec, meta)
 }
 
 // certOptions are the certificate options of a recorded run; they depend only on
 // the record and its ledger entry, so a regenerated PDF is byte-identical.
 func certOptions(rec *sequencer.Record, meta ledger.RunMeta) certificate.Options {
-	opt := certificate.Options{Number: meta.Certificate, RecordSHA256: meta.RecordSHA256, KeyID: meta.KeyID}
+	opt := certificate.Options{Number: meta.Certificate, RecordSHA256: meta.RecordSHA256, KeyID: meta.KeyID,
+		ChainLink: meta.ChainHash, ChainSeq: meta.ChainSeq}
 	for _, in := range rec.Instruments {
 		if in.Role == "dut" && in.Identity.Maker != "0" {
 			opt.Maker = in.Identity.Maker
@@ -222,7 +231,8 @@ func (is *Issuer) publish(ctx context.Context, rec *sequencer.Record, meta ledge
 	}
 	seal := signing.Seal{Format: signing.SealFormat, Number: meta.Certificate, RunID: rec.RunID, Serial: rec.Serial,
 		RecordSHA256: meta.RecordSHA256, PDFSHA256: doc.SHA256, KeyID: meta.KeyID, RecordSignature: meta.Signature,
-		PDFSignature: doc.Signature, VerificationCode: opt.VerificationCode, Signed: rec.Finished}
+		PDFSignature: doc.Signature, VerificationCode: opt.VerificationCode, Signed: rec.Finished,
+		ChainHash: meta.ChainHash, ChainSeq: meta.ChainSeq}
 	return signing.WriteSeal(path+".seal", seal)
 }
 

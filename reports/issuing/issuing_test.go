@@ -13,6 +13,7 @@ import (
 	"time"
 
 	_ "trimline/instruments/sim" // the simulated bench, scheme sim://
+	"trimline/reports/certificate"
 	"trimline/reports/issuing"
 	"trimline/reports/ledger"
 	"trimline/reports/signing"
@@ -100,6 +101,25 @@ func TestRepairRepublishesByteIdentical(t *testing.T) {
 	}
 	if !bytes.Equal(issue("normal", false), issue("crashed", true)) {
 		t.Fatal("the republished certificate differs from the one the station would have issued")
+	}
+	// The certificate and its seal carry the run's chain link, as the ledger has it.
+	{
+		pdfs, _ := filepath.Glob(filepath.Join(dir, "normal", "certificates", "*.pdf"))
+		pdf, _ := os.ReadFile(pdfs[0])
+		seal, err := signing.ReadSeal(pdfs[0] + ".seal")
+		if err != nil {
+			t.Fatal(err)
+		}
+		led, err := ledger.Open(context.Background(), filepath.Join(dir, "normal", "ledger.db"))
+		if err != nil {
+			t.Fatal(err)
+		}
+		_, meta, err := led.RunByCertificate(context.Background(), seal.Number)
+		led.Close()
+		if err != nil || len(meta.ChainHash) != 64 || meta.ChainSeq != 1 || certificate.ChainLink(pdf) != meta.ChainHash ||
+			seal.ChainHash != meta.ChainHash || seal.ChainSeq != meta.ChainSeq {
+			t.Fatalf("chain link: ledger %+v (%v), PDF %q, seal %q %d", meta, err, certificate.ChainLink(pdf), seal.ChainHash, seal.ChainSeq)
+		}
 	}
 	// A PDF and seal lost after the document was recorded are written again at the
 	// next start, identical.

@@ -70,7 +70,13 @@ type ChainReport struct {
 	// not in a run; BrokenAuditSeq the audit trail entry at the break, 0 if none.
 	BrokenAt       string
 	BrokenAuditSeq int64
-	Reason         string // what is wrong, "" if OK
+	// BrokenTable is the table at the break when it is in a table's rows or its
+	// append-only trigger ("readings", "runs", ...), "" otherwise; BrokenColumn the
+	// column whose value differs from the signed record, "" when the break is not
+	// one value (a missing or extra row, a missing trigger).
+	BrokenTable  string
+	BrokenColumn string
+	Reason       string // what is wrong, "" if OK
 
 	// What was checked before the break (all of it when OK).
 	Stations     int // station chains walked
@@ -88,23 +94,34 @@ type ChainReport struct {
 	// mailed, signed), they make a rewrite of the whole ledger evident too.
 	Heads     map[string]string
 	AuditHead string
+	// HeadSeqs is the chain_seq of each station's head: its number of runs. The
+	// audit trail's head is entry AuditEntries. HeadList gives all heads as Heads,
+	// to save (FormatHeads) and check later (CheckHeads).
+	HeadSeqs map[string]int64
 }
+
+// appendOnlyTrigger is a trigger VerifyChain requires and the table it guards.
+type appendOnlyTrigger struct{ name, table string }
 
 // appendOnlyTriggers are the triggers VerifyChain requires; their absence means
 // someone took the guard rails off.
-var appendOnlyTriggers = []string{
-	"runs_no_update", "runs_no_delete", "runs_chain_required",
-	"readings_no_update", "readings_no_delete", "results_no_update", "results_no_delete",
-	"limit_outcomes_no_update", "limit_outcomes_no_delete", "fits_no_update", "fits_no_delete",
-	"trims_no_update", "trims_no_delete", "files_no_update", "files_no_delete",
-	"instruments_no_update", "instruments_no_delete", "documents_no_update", "documents_no_delete",
-	"cert_sequences_no_delete", "cert_sequences_no_decrease",
-	"blobs_no_update", "blobs_no_delete", "audit_trail_no_update", "audit_trail_no_delete",
+var appendOnlyTriggers = []appendOnlyTrigger{
+	{"runs_no_update", "runs"}, {"runs_no_delete", "runs"}, {"runs_chain_required", "runs"},
+	{"readings_no_update", "readings"}, {"readings_no_delete", "readings"},
+	{"results_no_update", "results"}, {"results_no_delete", "results"},
+	{"limit_outcomes_no_update", "limit_outcomes"}, {"limit_outcomes_no_delete", "limit_outcomes"},
+	{"fits_no_update", "fits"}, {"fits_no_delete", "fits"}, {"trims_no_update", "trims"}, {"trims_no_delete", "trims"},
+	{"files_no_update", "files"}, {"files_no_delete", "files"},
+	{"instruments_no_update", "instruments"}, {"instruments_no_delete", "instruments"},
+	{"documents_no_update", "documents"}, {"documents_no_delete", "documents"},
+	{"cert_sequences_no_delete", "cert_sequences"}, {"cert_sequences_no_decrease", "cert_sequences"},
+	{"blobs_no_update", "blobs"}, {"blobs_no_delete", "blobs"},
+	{"audit_trail_no_update", "audit_trail"}, {"audit_trail_no_delete", "audit_trail"},
 }
 
 // VerifyChain re-checks the ledger and reports the first broken link, in this order:
 //
-//  1. the append-only triggers are all there;
+//  1. the append-only triggers are all there, each on its table;
 //  2. the audit trail: entries numbered 1, 2, 3, ... without gaps, each prev_hash the
 //     previous entry's hash and each hash its content's (audit.go); at most one
 //     create entry per run and one void entry per certificate;
@@ -122,27 +139,34 @@ var appendOnlyTriggers = []string{
 //     entry names an existing certificate; every supersede entry (at most one per
 //     certificate) names the certificate of its run and the certificate of a
 //     retest of that run;
-//  7. documents: each row has its issue entry, in order, and each issue entry its row.
+//  7. documents: each row has its issue entry, in order, and each issue entry its row;
+//  8. the query rows (rows.go): every column of a runs row that repeats its record
+//     (coverage and ambient conditions included), and every row of readings,
+//     results, limit_outcomes, fits, trims, files and instruments, is the row the
+//     ledger derives from the signed record_json (recordRows, the code that wrote
+//     it), value for value, floats exactly; no row is missing, extra, or of a run
+//     that is not in the ledger; and (for the whole ledger) each units row is the
+//     one its serial's runs give, in the order they were stored (nextUnit). The
+//     first difference names its table, run, row and column
+//     (ChainReport.BrokenTable, BrokenColumn).
 //
 // A broken ledger is not an error: VerifyChain returns the report with OK false and
 // a nil error. Errors are reserved for failures to read (and ErrInvalid for more
 // than one ChainOptions). It reads one consistent snapshot; writers may go on.
 //
 // What the chains cannot show: a change that rewrites every hash after it (there is
-// no secret in a hash), unless the signatures or heads kept elsewhere contradict it;
-// and the query rows of readings, results, limit outcomes, fits, trims, files and
-// instruments, which are copies of record_json (Run reads record_json) that
-// VerifyChain does not compare.
+// no secret in a hash), unless the signatures or heads kept elsewhere contradict it
+// (CheckHeads).
 func (l *Ledger) VerifyChain(ctx context.Context, station string, opts ...ChainOptions) (ChainReport, error) {
 	opt, err := chainOption("verify chain", opts)
 	if err != nil {
 		return ChainReport{}, err
 	}
 	c := &chainCheck{ctx: ctx, opt: opt, station: station,
-		rep: ChainReport{Station: station, OK: true, Heads: map[string]string{}}}
+		rep: ChainReport{Station: station, OK: true, Heads: map[string]string{}, HeadSeqs: map[string]int64{}}}
 	err = l.readTx(ctx, func(tx *sql.Tx) error {
 		c.tx = tx
-		for _, step := range []func() error{c.triggers, c.auditTrail, c.blobs, c.runs, c.orphanCreates, c.certificates, c.documents} {
+		for _, step := range []func() error{c.triggers, c.auditTrail, c.blobs, c.runs, c.orphanCreates, c.certificates, c.documents, c.rows} {
 			if err := step(); err != nil {
 				return err
 			}
@@ -202,11 +226,29 @@ func (c *chainCheck) broken(station, runID string, seq int64, format string, arg
 }
 
 func (c *chainCheck) triggers() error {
-	t, err := missingTrigger(c.ctx, c.tx, appendOnlyTriggers)
-	if err != nil || t == "" {
+	on := map[string]string{} // trigger -> its table
+	err := eachRow(c.ctx, c.tx, `SELECT name, tbl_name FROM sqlite_schema WHERE type = 'trigger'`, nil, func(rows *sql.Rows) error {
+		var name, table string
+		err := rows.Scan(&name, &table)
+		on[name] = table
+		return err
+	})
+	if err != nil {
 		return err
 	}
-	return c.broken("", "", 0, "the append-only trigger %s is missing", t)
+	for _, t := range appendOnlyTriggers {
+		table, ok := on[t.name]
+		if ok && table == t.table {
+			continue
+		}
+		err := c.broken("", "", 0, "the append-only trigger %s of table %s is missing", t.name, t.table)
+		if ok {
+			err = c.broken("", "", 0, "the append-only trigger %s of table %s is on table %s instead", t.name, t.table, table)
+		}
+		c.rep.BrokenTable = t.table
+		return err
+	}
+	return nil
 }
 
 func (c *chainCheck) auditTrail() error {
@@ -369,6 +411,7 @@ func (c *chainCheck) runs() error {
 		}
 		c.rep.Runs++
 		c.rep.Heads[r.station] = r.hash.String
+		c.rep.HeadSeqs[r.station] = r.seq.Int64
 		curSeq, prev = r.seq.Int64, r.hash.String
 	}
 	return rows.Err()

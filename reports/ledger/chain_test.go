@@ -467,9 +467,10 @@ func ledger0002(t *testing.T) string {
 			fault = rec.Fault
 		}
 		exec(`INSERT INTO runs (run_id, serial, product, revision, station, operator, software, started, finished,
-			verdict, fault, reasons, certificate, record_json, record_sha256, coverage) VALUES (?, 'SN-OLD', 'AMP-10', 'C', ?, 'op17', 'trimline 0.1.0',
-			'2025-06-03T07:14:27.123456789Z', '2025-06-03T07:15:08.123456796Z', ?, ?, ?, ?, ?, ?, 0.9545)`,
+			verdict, fault, reasons, certificate, record_json, record_sha256, coverage, ambient_c, ambient_source) VALUES (?, 'SN-OLD', 'AMP-10', 'C', ?, 'op17', 'trimline 0.1.0',
+			'2025-06-03T07:14:27.123456789Z', '2025-06-03T07:15:08.123456796Z', ?, ?, ?, ?, ?, ?, 0.9545, 23.1, 'entered')`,
 			r.id, r.station, string(r.verdict), fault, string(reasons), r.cert, string(doc), sha(doc))
+		insertRecordRows(t, db, exec, rec)
 	}
 	exec(`INSERT INTO documents VALUES ('a1', 'OLD-000001', '/c/OLD-000001.pdf', ?, 10, '2025-06-03T07:16:00.000000000Z')`, strings.Repeat("1", 64))
 	exec(`INSERT INTO documents VALUES ('b1', 'OLD-000002', '/c/OLD-000002.pdf', ?, 11, '2025-06-03T07:17:00.000000000Z')`, strings.Repeat("2", 64))

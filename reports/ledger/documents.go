@@ -158,13 +158,14 @@ type RunMeta struct {
 	RunID, Certificate, RecordSHA256, KeyID string
 	Signature                               []byte // nil when unsigned
 	ChainHash                               string
+	ChainSeq                                int64 // position in the station's chain, from 1
 }
 
-const runMetaColumns = `run_id, coalesce(certificate, ''), record_sha256, key_id, signature, chain_hash`
+const runMetaColumns = `run_id, coalesce(certificate, ''), record_sha256, key_id, signature, chain_hash, chain_seq`
 
 func scanRunMeta(s scanner, extra ...any) (RunMeta, error) {
 	var m RunMeta
-	if err := s.Scan(append([]any{&m.RunID, &m.Certificate, &m.RecordSHA256, &m.KeyID, &m.Signature, &m.ChainHash}, extra...)...); err != nil {
+	if err := s.Scan(append([]any{&m.RunID, &m.Certificate, &m.RecordSHA256, &m.KeyID, &m.Signature, &m.ChainHash, &m.ChainSeq}, extra...)...); err != nil {
 		return RunMeta{}, err
 	}
 	if len(m.Signature) == 0 {

@@ -309,3 +309,37 @@ func mustRecord(t testing.TB, l *ledger.Ledger, rec *sequencer.Record, prefix st
 	}
 	return cert
 }
+
+// insertRecordRows inserts rec's query rows as the ledger has always written them,
+// into the columns the file's tables have (an old schema has fewer; the columns
+// added later are NULL for the records of its time). exec is oldFile's.
+func insertRecordRows(t *testing.T, db *sql.DB, exec func(q string, args ...any), rec *sequencer.Record) {
+	t.Helper()
+	tables, columns, rows := ledger.RecordRows(rec)
+	for _, table := range tables {
+		have := map[string]bool{}
+		info, err := db.Query(`SELECT name FROM pragma_table_info(?)`, table)
+		if err != nil {
+			t.Fatal(err)
+		}
+		for info.Next() {
+			var c string
+			info.Scan(&c)
+			have[c] = true
+		}
+		info.Close()
+		for _, r := range rows[table] {
+			var cols []string
+			var args []any
+			for i, c := range columns[table] {
+				if have[c] {
+					cols = append(cols, c)
+					args = append(args, r[i])
+				} else if r[i] != nil {
+					t.Fatalf("%s.%s: the old schema has no such column, but the record gives it %v", table, c, r[i])
+				}
+			}
+			exec(`INSERT INTO `+table+` (`+strings.Join(cols, ", ")+`) VALUES (?`+strings.Repeat(", ?", len(cols)-1)+`)`, args...)
+		}
+	}
+}

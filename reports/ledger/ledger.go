@@ -17,8 +17,9 @@
 //
 // A hash chain has no secret: someone who can write the file can recompute every
 // chain from the changed row on. Such a rewrite shows only against something kept
-// elsewhere: the signatures (if the key is not on the station), or the chain heads
-// (ChainReport.Heads, AuditHead) recorded outside the ledger.
+// elsewhere: the signatures (if the key is not on the station), the chain heads
+// saved outside the ledger (ChainReport.HeadList, FormatHeads; checked later by
+// CheckHeads), or the chain link every certificate carries (RunMeta.ChainHash).
 //
 // One ledger file may be shared by several processes and goroutines: writes take
 // SQLite's write lock at BEGIN (BEGIN IMMEDIATE) and wait up to 5 s for it, WAL lets
@@ -27,7 +28,8 @@
 //
 // Each run is stored twice: as rows for queries, and as the canonical JSON of the
 // whole sequencer.Record with its SHA-256, which is what Run returns, so a stored run
-// is re-read exactly. The canonical JSON is json.Marshal's output; only where a float
+// is re-read exactly. The rows are derived from the record by one function
+// (rows.go), and VerifyChain checks every row against the signed record. The canonical JSON is json.Marshal's output; only where a float
 // is NaN or ±Inf, which json.Marshal refuses, it holds the string "NaN", "Infinity"
 // or "-Infinity" instead. In the rows, a REAL column is NULL where the value is not a
 // finite number. In particular results.dof is NULL for an infinite number of degrees
@@ -50,6 +52,7 @@ import (
 	"math"
 	"math/rand/v2"
 	"path/filepath"
+	"slices"
 	"strings"
 	"time"
 	"unicode"
@@ -371,11 +374,7 @@ func (l *Ledger) RecordRunWith(ctx context.Context, rec *sequencer.Record, opt R
 	if err != nil {
 		return "", fmt.Errorf("ledger: run %s: encode record: %w", rec.RunID, err)
 	}
-	reasons := rec.Reasons
-	if reasons == nil {
-		reasons = []string{}
-	}
-	reasonsJSON, err := canonicalJSON(reasons)
+	reasons, err := reasonsJSON(rec)
 	if err != nil {
 		return "", fmt.Errorf("ledger: run %s: encode reasons: %w", rec.RunID, err)
 	}
@@ -386,7 +385,7 @@ func (l *Ledger) RecordRunWith(ctx context.Context, rec *sequencer.Record, opt R
 	if actor == "" {
 		actor = systemActor
 	}
-	in := runInput{rec: rec, doc: doc, recordSHA: sha256Hex(doc), reasonsJSON: string(reasonsJSON),
+	in := runInput{rec: rec, doc: doc, recordSHA: sha256Hex(doc), reasonsJSON: reasons,
 		wantCert: wantCert, prefix: opt.Prefix, sign: opt.Sign, actor: actor, blobs: blobs}
 
 	tx, err := l.db.BeginTx(ctx, nil)
@@ -554,18 +553,8 @@ func storeRun(ctx context.Context, tx *sql.Tx, in runInput) (string, error) {
 		earlierCert = cert.String
 	}
 
-	first, last := formatTime(rec.Started), formatTime(rec.Finished)
-	if last < first {
-		last = first
-	}
-	if _, err := tx.ExecContext(ctx, `
-		INSERT INTO units (serial, product, first_seen, last_seen) VALUES (?, ?, ?, ?)
-		ON CONFLICT (serial) DO UPDATE SET
-			product    = CASE WHEN excluded.last_seen >= units.last_seen THEN excluded.product ELSE units.product END,
-			first_seen = min(units.first_seen, excluded.first_seen),
-			last_seen  = max(units.last_seen, excluded.last_seen)`,
-		rec.Serial, rec.Product, first, last); err != nil {
-		return "", fmt.Errorf("unit %s: %w", rec.Serial, err)
+	if err := storeUnit(ctx, tx, rec); err != nil {
+		return "", err
 	}
 
 	var cert string
@@ -604,23 +593,16 @@ func storeRun(ctx context.Context, tx *sql.Tx, in runInput) (string, error) {
 	}
 	link := chainHash(prev, rec.RunID, cert, in.recordSHA, string(rec.Verdict), keyID, sig)
 
-	if _, err := tx.ExecContext(ctx, `
-		INSERT INTO runs (run_id, serial, product, revision, station, operator, software, started, finished,
-			verdict, fault, reasons, certificate, record_json, record_sha256, coverage, ambient_c, ambient_source,
-			key_id, signature, chain_seq, chain_prev, chain_hash, retest_of)
-		VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)`,
-		rec.RunID, rec.Serial, rec.Product, rec.Revision, rec.Station, rec.Operator, rec.Software,
-		formatTime(rec.Started), formatTime(rec.Finished), string(rec.Verdict), nullText(rec.Fault),
-		in.reasonsJSON, nullText(cert), string(in.doc), in.recordSHA,
-		positiveOrNull(rec.Coverage), ambientC(rec.Conditions), nullText(rec.Conditions.AmbientSource),
-		keyID, sig, seq+1, prev, link, nullText(rec.RetestOf)); err != nil {
+	// The columns that repeat the record come from runColumnValues, which
+	// VerifyChain checks them against.
+	cols := append(slices.Clone(runColumns), "certificate", "record_json", "record_sha256", "key_id", "signature", "chain_seq", "chain_prev", "chain_hash")
+	args := append(runColumnValues(rec, in.reasonsJSON), nullText(cert), string(in.doc), in.recordSHA, keyID, sig, seq+1, prev, link)
+	if _, err := tx.ExecContext(ctx, `INSERT INTO runs (`+strings.Join(cols, ", ")+`) VALUES (?`+strings.Repeat(", ?", len(cols)-1)+`)`,
+		args...); err != nil {
 		return "", fmt.Errorf("run row: %w", err)
 	}
 
-	if err := storeReadings(ctx, tx, rec); err != nil {
-		return "", err
-	}
-	if err := storeDetails(ctx, tx, rec); err != nil {
+	if err := storeRows(ctx, tx, rec); err != nil {
 		return "", err
 	}
 	var blobSHAs []string
@@ -685,104 +667,6 @@ func nonNilBytes(b []byte) []byte {
 		return []byte{}
 	}
 	return b
-}
-
-func storeReadings(ctx context.Context, tx *sql.Tx, rec *sequencer.Record) error {
-	st, err := tx.PrepareContext(ctx, `
-		INSERT INTO readings (run_id, sweep, point_index, reading_index, stimulus_v, value_v, flag, taken_at)
-		VALUES (?, ?, ?, ?, ?, ?, ?, ?)`)
-	if err != nil {
-		return fmt.Errorf("readings: %w", err)
-	}
-	defer st.Close()
-	for _, sw := range rec.Sweeps {
-		for pi, pt := range sw.Points {
-			for ri, r := range pt.Readings {
-				if _, err := st.ExecContext(ctx, rec.RunID, sw.Name, pi, ri, realOrNull(pt.Stimulus), realOrNull(r.Value),
-					r.Flag.String(), formatTime(r.Time)); err != nil {
-					return fmt.Errorf("reading %s[%d][%d]: %w", sw.Name, pi, ri, err)
-				}
-			}
-		}
-	}
-	return nil
-}
-
-// storeDetails writes the results, limit outcomes, fits, trims, files and instruments.
-func storeDetails(ctx context.Context, tx *sql.Tx, rec *sequencer.Record) error {
-	type table struct {
-		name, sql string
-		n         int
-		args      func(i int) ([]any, error)
-	}
-	tables := []table{
-		{"results", `INSERT INTO results (run_id, name, value, unit, valid, note, u, dof, k, expanded_u, method)
-			VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)`,
-			len(rec.Results), func(i int) ([]any, error) {
-				r := rec.Results[i]
-				return append([]any{rec.RunID, r.Name, realOrNull(r.Value), r.Unit, r.Valid, r.Note}, uncertaintyArgs(r.Unc)...), nil
-			}},
-		{"limit_outcomes", `INSERT INTO limit_outcomes (run_id, name, expr, unit, pass, reason, values_json,
-			rule, guard_factor, guard, lower, upper, accept_lower, accept_upper, zone, p_outside, tur, tur_low, binary, statement)
-			VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)`,
-			len(rec.Outcomes), func(i int) ([]any, error) {
-				o := rec.Outcomes[i]
-				vals := o.Values
-				if vals == nil {
-					vals = map[string]float64{}
-				}
-				vj, err := canonicalJSON(vals)
-				if err != nil {
-					return nil, err
-				}
-				return append([]any{rec.RunID, o.Name, o.Expr, o.Unit, o.Pass, o.Reason, string(vj)}, decisionArgs(o.Decision)...), nil
-			}},
-		{"fits", `INSERT INTO fits (run_id, sweep, slope, intercept_v, residual_sd_v, dof, nonlinearity, cov_json) VALUES (?, ?, ?, ?, ?, ?, ?, ?)`,
-			len(rec.Fits), func(i int) ([]any, error) {
-				f := rec.Fits[i]
-				cj, err := canonicalJSON(f.Cov)
-				if err != nil {
-					return nil, err
-				}
-				return []any{rec.RunID, f.Sweep, realOrNull(f.Slope), realOrNull(f.Intercept), realOrNull(f.ResidualSD), f.DOF, realOrNull(f.Nonlinearity), string(cj)}, nil
-			}},
-		{"trims", `INSERT INTO trims (run_id, dac, before_code, code, ideal, readback, saturated, stored) VALUES (?, ?, ?, ?, ?, ?, ?, ?)`,
-			len(rec.Trims), func(i int) ([]any, error) {
-				t := rec.Trims[i]
-				return []any{rec.RunID, t.DAC, t.Before, t.Code, realOrNull(t.Ideal), t.Readback, t.Saturated, t.Stored}, nil
-			}},
-		{"files", `INSERT INTO files (run_id, kind, name, title, sha256) VALUES (?, ?, ?, ?, ?)`,
-			len(rec.Files), func(i int) ([]any, error) {
-				f := rec.Files[i]
-				return []any{rec.RunID, f.Kind, f.Name, f.Title, f.SHA256}, nil
-			}},
-		{"instruments", `INSERT INTO instruments (run_id, role, address, asset, cal_due, identity) VALUES (?, ?, ?, ?, ?, ?)`,
-			len(rec.Instruments), func(i int) ([]any, error) {
-				in := rec.Instruments[i]
-				return []any{rec.RunID, in.Role, in.Address, in.Asset, in.CalDue, in.Identity.String()}, nil
-			}},
-	}
-	for _, t := range tables {
-		if t.n == 0 {
-			continue
-		}
-		st, err := tx.PrepareContext(ctx, t.sql)
-		if err != nil {
-			return fmt.Errorf("%s: %w", t.name, err)
-		}
-		for i := range t.n {
-			args, err := t.args(i)
-			if err == nil {
-				_, err = st.ExecContext(ctx, args...)
-			}
-			if err != nil {
-				st.Close()
-				return fmt.Errorf("%s[%d]: %w", t.name, i, err)
-			}
-		}
-		st.Close()
-	}
-	return nil
 }
 
 // AddDocument records an unsigned document issued for a run; it is

@@ -67,9 +67,7 @@ func oldLedger(t *testing.T) (string, *sequencer.Record, *sequencer.Record) {
 			?, ?, ?, ?, ?, ?, ?, ?)`,
 			rec.RunID, rec.Started.UTC().Format("2006-01-02T15:04:05.000000000Z"), rec.Finished.UTC().Format("2006-01-02T15:04:05.000000000Z"),
 			string(rec.Verdict), fault, string(reasons), cert, string(doc), sha(doc))
-		exec(`INSERT INTO readings VALUES (?, 'pre-trim', 0, 0, -2, -3.5, 'ok', '2025-06-03T07:14:28.000000000Z')`, rec.RunID)
-		exec(`INSERT INTO results VALUES (?, 'post_offset', 3.1e-6, 'V', 1, '')`, rec.RunID)
-		exec(`INSERT INTO limit_outcomes VALUES (?, 'offset', 'abs(post_offset) <= 50', 'uV', 1, '', '{"post_offset":3.1}')`, rec.RunID)
+		insertRecordRows(t, db, exec, rec)
 	}
 	exec(`INSERT INTO documents VALUES ('old-pass', 'OLD-000001', '/c/OLD-000001.pdf', ?, 10, '2025-06-03T07:16:00.000000000Z')`, strings.Repeat("0", 64))
 	return path, pass, fault
@@ -106,7 +104,7 @@ func TestMigrateFrom0001(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if counts["runs"] != 2 || counts["readings"] != 2 || counts["results"] != 2 || counts["limit_outcomes"] != 2 || counts["documents"] != 1 {
+	if counts["runs"] != 2 || counts["readings"] != 8 || counts["results"] != 8 || counts["limit_outcomes"] != 6 || counts["documents"] != 1 {
 		t.Errorf("counts after upgrade %v", counts)
 	}
 

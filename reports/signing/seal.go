@@ -98,6 +98,12 @@ type Seal struct {
 	PDFSignature     []byte    `json:"pdf_signature"`
 	VerificationCode string    `json:"verification_code"` // VerificationCode(RecordSignature)
 	Signed           time.Time `json:"signed"`
+	// ChainHash and ChainSeq are the run's link in its station's hash chain in
+	// the ledger (chain_hash, chain_seq), as the PDF prints them; covered by the
+	// PDF signature through the PDF, not signed on their own. Absent from seals
+	// made before certificates carried their chain link.
+	ChainHash string `json:"chain_hash,omitempty"`
+	ChainSeq  int64  `json:"chain_seq,omitempty"`
 }
 
 // Errors of Seal.VerifyPDF, for errors.Is.

@@ -1,0 +1,464 @@
+package ledger
+
+import (
+	"context"
+	"database/sql"
+	"errors"
+	"fmt"
+	"math"
+	"strconv"
+	"strings"
+
+	"trimline/sequencer"
+)
+
+// The query rows of a run (readings, results, limit outcomes, fits, trims, files,
+// instruments) are copies of its record. recordRows is the one place that turns a
+// record into them: RecordRunWith inserts what it returns, and VerifyChain compares
+// every stored row with what it returns for the signed record_json, so the writer
+// and the check cannot drift apart.
+
+// derivedTable is one table whose rows are derived from a record.
+type derivedTable struct {
+	name    string
+	columns []string // after run_id, in the order of derivedRow.vals
+}
+
+// derivedRow is one row of a derivedTable: what it is, in words for a person
+// ("sweep pre-trim point 3 reading 2"), and its values after run_id.
+type derivedRow struct {
+	what string
+	vals []any
+}
+
+// derivedTables are the tables recordRows fills, in the order it fills them.
+var derivedTables = []derivedTable{
+	{"readings", []string{"sweep", "point_index", "reading_index", "stimulus_v", "value_v", "flag", "taken_at"}},
+	{"results", []string{"name", "value", "unit", "valid", "note", "u", "dof", "k", "expanded_u", "method"}},
+	{"limit_outcomes", []string{"name", "expr", "unit", "pass", "reason", "values_json",
+		"rule", "guard_factor", "guard", "lower", "upper", "accept_lower", "accept_upper", "zone", "p_outside", "tur", "tur_low", "binary", "statement"}},
+	{"fits", []string{"sweep", "slope", "intercept_v", "residual_sd_v", "dof", "nonlinearity", "cov_json"}},
+	{"trims", []string{"dac", "before_code", "code", "ideal", "readback", "saturated", "stored"}},
+	{"files", []string{"kind", "name", "title", "sha256"}},
+	{"instruments", []string{"role", "address", "asset", "cal_due", "identity"}},
+}
+
+// recordRows returns the rows of every derivedTable for rec, indexed like
+// derivedTables.
+func recordRows(rec *sequencer.Record) ([][]derivedRow, error) {
+	out := make([][]derivedRow, len(derivedTables))
+	var rs []derivedRow
+	for _, sw := range rec.Sweeps {
+		for pi, pt := range sw.Points {
+			for ri, r := range pt.Readings {
+				rs = append(rs, derivedRow{"sweep " + sw.Name + " point " + strconv.Itoa(pi) + " reading " + strconv.Itoa(ri),
+					[]any{sw.Name, pi, ri, realOrNull(pt.Stimulus), realOrNull(r.Value), r.Flag.String(), formatTime(r.Time)}})
+			}
+		}
+	}
+	out[0] = rs
+	for _, r := range rec.Results {
+		out[1] = append(out[1], derivedRow{"result " + r.Name,
+			append([]any{r.Name, realOrNull(r.Value), r.Unit, r.Valid, r.Note}, uncertaintyArgs(r.Unc)...)})
+	}
+	for _, o := range rec.Outcomes {
+		vals := o.Values
+		if vals == nil {
+			vals = map[string]float64{}
+		}
+		vj, err := canonicalJSON(vals)
+		if err != nil {
+			return nil, fmt.Errorf("limit %s: values: %w", o.Name, err)
+		}
+		out[2] = append(out[2], derivedRow{"limit " + o.Name,
+			append([]any{o.Name, o.Expr, o.Unit, o.Pass, o.Reason, string(vj)}, decisionArgs(o.Decision)...)})
+	}
+	for _, f := range rec.Fits {
+		cj, err := canonicalJSON(f.Cov)
+		if err != nil {
+			return nil, fmt.Errorf("fit of %s: covariance: %w", f.Sweep, err)
+		}
+		out[3] = append(out[3], derivedRow{"fit of sweep " + f.Sweep,
+			[]any{f.Sweep, realOrNull(f.Slope), realOrNull(f.Intercept), realOrNull(f.ResidualSD), f.DOF, realOrNull(f.Nonlinearity), string(cj)}})
+	}
+	for _, t := range rec.Trims {
+		out[4] = append(out[4], derivedRow{"trim DAC " + t.DAC,
+			[]any{t.DAC, t.Before, t.Code, realOrNull(t.Ideal), t.Readback, t.Saturated, t.Stored}})
+	}
+	for _, f := range rec.Files {
+		out[5] = append(out[5], derivedRow{f.Kind + " file " + f.Name, []any{f.Kind, f.Name, f.Title, f.SHA256}})
+	}
+	for _, in := range rec.Instruments {
+		out[6] = append(out[6], derivedRow{"instrument " + in.Role, []any{in.Role, in.Address, in.Asset, in.CalDue, in.Identity.String()}})
+	}
+	return out, nil
+}
+
+// runColumns are the columns of a runs row that repeat its record, and
+// runColumnValues their values for rec (reasonsJSON is the canonical JSON of its
+// reasons, an empty array for none).
+var runColumns = []string{"run_id", "serial", "product", "revision", "station", "operator", "software", "started", "finished",
+	"verdict", "fault", "reasons", "coverage", "ambient_c", "ambient_source", "retest_of"}
+
+func runColumnValues(rec *sequencer.Record, reasonsJSON string) []any {
+	return []any{rec.RunID, rec.Serial, rec.Product, rec.Revision, rec.Station, rec.Operator, rec.Software,
+		formatTime(rec.Started), formatTime(rec.Finished), string(rec.Verdict), nullText(rec.Fault), reasonsJSON,
+		positiveOrNull(rec.Coverage), ambientC(rec.Conditions), nullText(rec.Conditions.AmbientSource), nullText(rec.RetestOf)}
+}
+
+// reasonsJSON is runs.reasons for rec: the canonical JSON of its reasons, [] for none.
+func reasonsJSON(rec *sequencer.Record) (string, error) {
+	reasons := rec.Reasons
+	if reasons == nil {
+		reasons = []string{}
+	}
+	b, err := canonicalJSON(reasons)
+	return string(b), err
+}
+
+// unitRow is a units row: the unit as its runs so far describe it.
+type unitRow struct{ serial, product, firstSeen, lastSeen string }
+
+// nextUnit is the units row after a run of rec, given the row before it (ok
+// false: the serial's first run). first_seen and last_seen span the Started and
+// Finished times of all its runs; product is that of the run with the latest
+// last_seen, the later-stored on a tie. RecordRunWith stores it and VerifyChain
+// recomputes every unit with it from the runs in the order they were stored.
+func nextUnit(before unitRow, ok bool, rec *sequencer.Record) unitRow {
+	first, last := formatTime(rec.Started), formatTime(rec.Finished)
+	if last < first {
+		last = first
+	}
+	u := unitRow{rec.Serial, rec.Product, first, last}
+	if !ok {
+		return u
+	}
+	if last < before.lastSeen {
+		u.product = before.product
+	}
+	u.firstSeen, u.lastSeen = min(before.firstSeen, first), max(before.lastSeen, last)
+	return u
+}
+
+// storeUnit inserts or updates the units row of rec.Serial (nextUnit).
+func storeUnit(ctx context.Context, tx *sql.Tx, rec *sequencer.Record) error {
+	var before unitRow
+	err := tx.QueryRowContext(ctx, `SELECT serial, product, first_seen, last_seen FROM units WHERE serial = ?`, rec.Serial).
+		Scan(&before.serial, &before.product, &before.firstSeen, &before.lastSeen)
+	if err != nil && !errors.Is(err, sql.ErrNoRows) {
+		return fmt.Errorf("unit %s: %w", rec.Serial, err)
+	}
+	u := nextUnit(before, err == nil, rec)
+	if _, err := tx.ExecContext(ctx, `
+		INSERT INTO units (serial, product, first_seen, last_seen) VALUES (?, ?, ?, ?)
+		ON CONFLICT (serial) DO UPDATE SET product = excluded.product, first_seen = excluded.first_seen, last_seen = excluded.last_seen`,
+		u.serial, u.product, u.firstSeen, u.lastSeen); err != nil {
+		return fmt.Errorf("unit %s: %w", rec.Serial, err)
+	}
+	return nil
+}
+
+// units is VerifyChain's check of the units table (whole ledger only): each row
+// is the one nextUnit gives from the runs of its serial in the order they were
+// stored (rowid), and every serial with a run has one.
+func (c *chainCheck) units() error {
+	want := map[string]unitRow{}
+	var order []string
+	err := eachRow(c.ctx, c.tx, `SELECT serial, product, started, finished FROM runs ORDER BY rowid`, nil, func(rows *sql.Rows) error {
+		var serial, product, started, finished string
+		if err := rows.Scan(&serial, &product, &started, &finished); err != nil {
+			return err
+		}
+		s, err := parseTime(started)
+		if err != nil {
+			return err
+		}
+		f, err := parseTime(finished)
+		if err != nil {
+			return err
+		}
+		before, ok := want[serial]
+		if !ok {
+			order = append(order, serial)
+		}
+		want[serial] = nextUnit(before, ok, &sequencer.Record{Serial: serial, Product: product, Started: s, Finished: f})
+		return nil
+	})
+	if err != nil {
+		return err
+	}
+	seen := map[string]bool{}
+	err = eachRow(c.ctx, c.tx, `SELECT serial, product, first_seen, last_seen FROM units ORDER BY serial`, nil, func(rows *sql.Rows) error {
+		var got unitRow
+		if err := rows.Scan(&got.serial, &got.product, &got.firstSeen, &got.lastSeen); err != nil {
+			return err
+		}
+		w, ok := want[got.serial]
+		if !ok {
+			return c.brokenRow("units", "", "", "unit %s has no run in the ledger", got.serial)
+		}
+		seen[got.serial] = true
+		for _, f := range []struct{ col, got, want string }{
+			{"product", got.product, w.product}, {"first_seen", got.firstSeen, w.firstSeen}, {"last_seen", got.lastSeen, w.lastSeen},
+		} {
+			if f.got != f.want {
+				return c.brokenRow("units", f.col, "", "unit %s: %s is %q in the table, %q from its signed runs", got.serial, f.col, f.got, f.want)
+			}
+		}
+		return nil
+	})
+	if err != nil {
+		return err
+	}
+	for _, sn := range order {
+		if !seen[sn] {
+			return c.brokenRow("units", "", "", "unit %s, which has runs, has no row", sn)
+		}
+	}
+	return nil
+}
+
+// storeRows inserts the rows of every derivedTable for rec.
+func storeRows(ctx context.Context, tx *sql.Tx, rec *sequencer.Record) error {
+	all, err := recordRows(rec)
+	if err != nil {
+		return err
+	}
+	for i, t := range derivedTables {
+		rows := all[i]
+		if len(rows) == 0 {
+			continue
+		}
+		q := "INSERT INTO " + t.name + " (run_id, " + strings.Join(t.columns, ", ") + ") VALUES (?" + strings.Repeat(", ?", len(t.columns)) + ")"
+		st, err := tx.PrepareContext(ctx, q)
+		if err != nil {
+			return fmt.Errorf("%s: %w", t.name, err)
+		}
+		for _, r := range rows {
+			if _, err := st.ExecContext(ctx, append([]any{rec.RunID}, r.vals...)...); err != nil {
+				st.Close()
+				return fmt.Errorf("%s: %s: %w", t.name, r.what, err)
+			}
+		}
+		st.Close()
+	}
+	return nil
+}
+
+// sqlValue is v as SQLite gives it back: INTEGER as int64 (bools 0 or 1), REAL as
+// float64, TEXT as string, NULL as nil.
+func sqlValue(v any) any {
+	switch x := v.(type) {
+	case bool:
+		if x {
+			return int64(1)
+		}
+		return int64(0)
+	case int:
+		return int64(x)
+	case int32:
+		return int64(x)
+	case []byte:
+		return string(x)
+	}
+	return v
+}
+
+// sameValue reports whether the stored value got is the value want the record
+// gives: floats compare exactly (==; SQLite keeps a REAL's 64 bits, and gives a
+// whole number it stored as an integer back as the same float).
+func sameValue(got, want any) bool {
+	got, want = sqlValue(got), sqlValue(want)
+	switch w := want.(type) {
+	case nil:
+		return got == nil
+	case float64:
+		g, ok := got.(float64)
+		return ok && g == w
+	case int64:
+		g, ok := got.(int64)
+		return ok && g == w
+	case string:
+		g, ok := got.(string)
+		return ok && g == w
+	}
+	return false
+}
+
+// showValue writes a stored or derived value for a person: floats in full
+// (the shortest text that reads back as the same float), text quoted, NULL.
+func showValue(v any) string {
+	switch x := sqlValue(v).(type) {
+	case nil:
+		return "NULL"
+	case float64:
+		if math.IsInf(x, 0) || math.IsNaN(x) {
+			return fmt.Sprint(x)
+		}
+		return strconv.FormatFloat(x, 'g', -1, 64)
+	case int64:
+		return strconv.FormatInt(x, 10)
+	case string:
+		return strconv.Quote(x)
+	default:
+		return fmt.Sprintf("%v (%T)", x, x)
+	}
+}
+
+// tableCursor reads one derived table's rows in run_id order.
+type tableCursor struct {
+	t      derivedTable
+	rows   *sql.Rows
+	rowid  int64
+	runID  string
+	vals   []any
+	ok     bool // a row is held
+	closed bool
+}
+
+func (c *tableCursor) next() error {
+	c.ok = false
+	if c.closed {
+		return nil
+	}
+	if !c.rows.Next() {
+		c.closed = true
+		return c.rows.Err()
+	}
+	c.vals = make([]any, len(c.t.columns))
+	dest := make([]any, 0, len(c.vals)+2)
+	dest = append(dest, &c.rowid, &c.runID)
+	for i := range c.vals {
+		dest = append(dest, &c.vals[i])
+	}
+	if err := c.rows.Scan(dest...); err != nil {
+		return err
+	}
+	c.ok = true
+	return nil
+}
+
+// rows is VerifyChain's check of the query rows: every runs row's columns that
+// repeat its record, and every row of every derivedTable, against recordRows of
+// the signed record_json, run by run in run id order; then rows whose run is not
+// in the ledger. It reports the first difference with its table, run and column.
+func (c *chainCheck) rows() error {
+	where, args := "", []any(nil)
+	if c.station != "" {
+		where, args = " WHERE run_id IN (SELECT run_id FROM runs WHERE station = ?)", []any{c.station}
+	}
+	curs := make([]*tableCursor, len(derivedTables))
+	for i, t := range derivedTables {
+		rows, err := c.tx.QueryContext(c.ctx, "SELECT rowid, run_id, "+strings.Join(t.columns, ", ")+" FROM "+t.name+where+" ORDER BY run_id, rowid", args...)
+		if err != nil {
+			return err
+		}
+		defer rows.Close()
+		curs[i] = &tableCursor{t: t, rows: rows}
+		if err := curs[i].next(); err != nil {
+			return err
+		}
+	}
+	q := "SELECT station, record_json, " + strings.Join(runColumns, ", ") + " FROM runs"
+	if c.station != "" {
+		q += " WHERE station = ?"
+	}
+	runs, err := c.tx.QueryContext(c.ctx, q+" ORDER BY run_id", args...)
+	if err != nil {
+		return err
+	}
+	defer runs.Close()
+	for runs.Next() {
+		var st string
+		var doc []byte
+		got := make([]any, len(runColumns))
+		dest := []any{&st, &doc}
+		for i := range got {
+			dest = append(dest, &got[i])
+		}
+		if err := runs.Scan(dest...); err != nil {
+			return err
+		}
+		id, _ := sqlValue(got[0]).(string)
+		if err := c.runRows(st, id, doc, got, curs); err != nil {
+			return err
+		}
+	}
+	if err := runs.Err(); err != nil {
+		return err
+	}
+	for _, cur := range curs {
+		if cur.ok {
+			return c.brokenRow(cur.t.name, "", cur.runID, "row %d belongs to run %s, which is not in the ledger", cur.rowid, cur.runID)
+		}
+	}
+	if c.station != "" {
+		return nil // a unit's runs may be of several stations
+	}
+	return c.units()
+}
+
+// runRows checks the runs row and the derived rows of one run.
+func (c *chainCheck) runRows(st, id string, doc []byte, got []any, curs []*tableCursor) error {
+	rec := new(sequencer.Record)
+	if err := decodeCanonical(doc, rec); err != nil {
+		return c.broken(st, id, 0, "station %q, run %s: record_json does not decode: %v", st, id, err)
+	}
+	rj, err := reasonsJSON(rec)
+	if err != nil {
+		return err
+	}
+	for i, want := range runColumnValues(rec, rj) {
+		if !sameValue(got[i], want) {
+			return c.brokenRow("runs", runColumns[i], id, "run %s: %s is %s in the table, %s in the signed record",
+				id, runColumns[i], showValue(got[i]), showValue(want))
+		}
+	}
+	all, err := recordRows(rec)
+	if err != nil {
+		return c.broken(st, id, 0, "station %q, run %s: %v", st, id, err)
+	}
+	for ti, cur := range curs {
+		name := cur.t.name
+		// Rows of a run id before this one: that run is not in the ledger.
+		if cur.ok && cur.runID < id {
+			return c.brokenRow(name, "", cur.runID, "row %d belongs to run %s, which is not in the ledger", cur.rowid, cur.runID)
+		}
+		want := all[ti]
+		n := 0
+		for ; cur.ok && cur.runID == id; n++ {
+			if n >= len(want) {
+				return c.brokenRow(name, "", id, "run %s: row %d is one more than the signed record's %d", id, cur.rowid, len(want))
+			}
+			w := want[n]
+			for k, col := range cur.t.columns {
+				if !sameValue(cur.vals[k], w.vals[k]) {
+					return c.brokenRow(name, col, id, "run %s, %s: %s is %s in the table, %s in the signed record",
+						id, w.what, col, showValue(cur.vals[k]), showValue(w.vals[k]))
+				}
+			}
+			if err := cur.next(); err != nil {
+				return err
+			}
+		}
+		if n < len(want) {
+			return c.brokenRow(name, "", id, "run %s, %s: no row; the signed record has %d, the table %d", id, want[n].what, len(want), n)
+		}
+	}
+	return nil
+}
+
+// brokenRow records a difference between a query row and its signed record.
+func (c *chainCheck) brokenRow(table, column, runID, format string, args ...any) error {
+	err := c.broken(c.stationOf(runID), runID, 0, "%s: %s", table, fmt.Sprintf(format, args...))
+	c.rep.BrokenTable, c.rep.BrokenColumn = table, column
+	return err
+}
+
+// stationOf is the station of a run the walk has seen, "" otherwise.
+func (c *chainCheck) stationOf(runID string) string {
+	if ref := c.creates[runID]; ref != nil {
+		return ref.create.Station
+	}
+	return ""
+}
