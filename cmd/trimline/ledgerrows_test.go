@@ -52,7 +52,7 @@ func TestAuditLedgerFindsAChangedRow(t *testing.T) {
 			if err := ledgertest.EditRow(led, tc.table, tc.set, strings.ReplaceAll(tc.where, "%s", id)); err != nil {
 				t.Fatal(err)
 			}
-			code, out, errOut := runCLI(t, "audit", "ledger", "--ledger", led)
+			code, out, errOut := runCLI(t, "audit", "ledger", "--ledger", led, "--keys", filepath.Join(dir, "keys"))
 			want := "BROKEN at table " + tc.table + ", run " + id + ": " + tc.table + ": run " + id + ", "
 			if code != exitFail || !strings.Contains(out, want) || !strings.Contains(out, ": "+tc.column+" is ") ||
 				!strings.Contains(out, "in the signed record") {
@@ -66,7 +66,7 @@ func TestAuditLedgerFindsAChangedRow(t *testing.T) {
 		if err := ledgertest.DropTrigger(led, "limit_outcomes_no_delete"); err != nil {
 			t.Fatal(err)
 		}
-		code, out, _ := runCLI(t, "audit", "ledger", "--ledger", led)
+		code, out, _ := runCLI(t, "audit", "ledger", "--ledger", led, "--keys", filepath.Join(dir, "keys"))
 		if code != exitFail || !strings.Contains(out, "BROKEN at table limit_outcomes: the append-only trigger limit_outcomes_no_delete of table limit_outcomes is missing") {
 			t.Fatalf("audit ledger without a trigger: exit %d\n%s", code, out)
 		}
@@ -94,7 +94,7 @@ func TestAuditLedgerSavedHeads(t *testing.T) {
 	runUnits(t, dir, station, sequence, "BRX-10001", "BRX-10002")
 	led := filepath.Join(dir, "ledger.db")
 	heads := filepath.Join(t.TempDir(), "heads.txt")
-	if code, out, errOut := runCLI(t, "audit", "ledger", "--ledger", led, "--save-heads", heads); code != 0 || !strings.Contains(out, "heads saved to "+heads) {
+	if code, out, errOut := runCLI(t, "audit", "ledger", "--ledger", led, "--keys", filepath.Join(dir, "keys"), "--save-heads", heads); code != 0 || !strings.Contains(out, "heads saved to "+heads) {
 		t.Fatalf("--save-heads: exit %d\n%s%s", code, out, errOut)
 	}
 	saved, err := os.ReadFile(heads)
@@ -104,19 +104,21 @@ func TestAuditLedgerSavedHeads(t *testing.T) {
 	}
 
 	runUnits(t, dir, station, sequence, "BRX-10003")
-	if code, out, errOut := runCLI(t, "audit", "ledger", "--ledger", led, "--heads", heads); code != 0 || !strings.Contains(out, "all 2 found; the chains have only grown") {
+	if code, out, errOut := runCLI(t, "audit", "ledger", "--ledger", led, "--keys", filepath.Join(dir, "keys"), "--heads", heads); code != 0 || !strings.Contains(out, "all 2 found; the chains have only grown") {
 		t.Fatalf("--heads after the ledger grew: exit %d\n%s%s", code, out, errOut)
 	}
 
 	again := t.TempDir()
 	station2, sequence2 := writeReleasedDemo(t, again, 1)
 	runUnits(t, again, station2, sequence2, "BRX-10001", "BRX-10002", "BRX-10003")
-	code, out, errOut := runCLI(t, "audit", "ledger", "--ledger", filepath.Join(again, "ledger.db"), "--heads", heads)
+	// The rebuild is signed with a station key the auditor trusts (the key lives
+	// on the station): only the saved heads tell it from the original.
+	code, out, errOut := runCLI(t, "audit", "ledger", "--ledger", filepath.Join(again, "ledger.db"), "--keys", filepath.Join(again, "keys"), "--heads", heads)
 	if code != exitFail || !strings.Contains(out, "chain intact") || !strings.Contains(out, "SAVED HEAD NOT FOUND: station ") ||
 		!strings.Contains(out, "SAVED HEAD NOT FOUND: audit trail: ") || !strings.Contains(out, "HEADS NOT FOUND in ") {
 		t.Fatalf("--heads on a rebuilt ledger: exit %d, want %d\n%s%s", code, exitFail, out, errOut)
 	}
-	if code, _, _ := runCLI(t, "audit", "ledger", "--ledger", led, "--heads", filepath.Join(t.TempDir(), "none.txt")); code != exitUsage {
+	if code, _, _ := runCLI(t, "audit", "ledger", "--ledger", led, "--keys", filepath.Join(dir, "keys"), "--heads", filepath.Join(t.TempDir(), "none.txt")); code != exitUsage {
 		t.Errorf("--heads with no such file: exit %d, want %d", code, exitUsage)
 	}
 }
@@ -151,7 +153,7 @@ func TestAuditVerifyComparesTheChainLink(t *testing.T) {
 	if got := certificate.ChainLink(pdf); got != meta.ChainHash || seal.ChainHash != meta.ChainHash || seal.ChainSeq != 1 {
 		t.Fatalf("chain link: PDF %q, seal %q %d, ledger %q", got, seal.ChainHash, seal.ChainSeq, meta.ChainHash)
 	}
-	if code, out, _ := runCLI(t, "audit", "verify", pdfPath); code != 0 || !strings.Contains(out, "chain link "+meta.ChainHash+" (run 1 of its chain) matches the ledger's") {
+	if code, out, _ := runCLI(t, "audit", "verify", pdfPath, "--keys", filepath.Join(dir, "keys")); code != 0 || !strings.Contains(out, "chain link "+meta.ChainHash+" (run 1 of its chain) matches the ledger's") {
 		t.Fatalf("audit verify of the genuine certificate: exit %d\n%s", code, out)
 	}
 
