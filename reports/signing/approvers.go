@@ -7,15 +7,8 @@ package signing
 // file (LoadTrust) names approvers with their full names and what each may sign.
 func ApproverDir(dir string) (*Trust, error) {
 	t := newTrust("release keys " + dir)
-	if err := checkFolder(dir); err != nil {
+	if err := t.addApproverDir(dir); err != nil {
 		return nil, err
-	}
-	keys, names, err := readPubs(dir)
-	if err != nil {
-		return nil, err
-	}
-	for i, pub := range keys {
-		t.addApprover(Approver{Name: names[i][:len(names[i])-len(".pub")], Key: pub, May: []string{MayRelease, MayVoid}})
 	}
 	return t, nil
 }

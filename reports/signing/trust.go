@@ -98,18 +98,27 @@ func TrustDir(dir string) (*Trust, error) {
 	}
 	adir := filepath.Join(dir, "approvers")
 	if fi, err := os.Stat(adir); err == nil && fi.IsDir() {
-		if err := checkFolder(adir); err != nil {
+		if err := t.addApproverDir(adir); err != nil {
 			return nil, err
-		}
-		keys, names, err := readPubs(adir)
-		if err != nil {
-			return nil, err
-		}
-		for i, pub := range keys {
-			t.addApprover(Approver{Name: strings.TrimSuffix(names[i], ".pub"), Key: pub, May: []string{MayRelease, MayVoid}})
 		}
 	}
 	return t, nil
+}
+
+// addApproverDir adds every NAME.pub in dir as the approver NAME, who may
+// release files and void certificates; dir must not be writable by others.
+func (t *Trust) addApproverDir(dir string) error {
+	if err := checkFolder(dir); err != nil {
+		return err
+	}
+	keys, names, err := readPubs(dir)
+	if err != nil {
+		return err
+	}
+	for i, pub := range keys {
+		t.addApprover(Approver{Name: strings.TrimSuffix(names[i], ".pub"), Key: pub, May: []string{MayRelease, MayVoid}})
+	}
+	return nil
 }
 
 // trustFile is the trust file's layout.
