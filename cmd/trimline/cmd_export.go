@@ -43,10 +43,11 @@ its seal, and the station's public key. Every member's hash is in the manifest;
 				opt.SealPath = d.Path + ".seal"
 			}
 			if d.KeyID != "" {
-				// The station's public key lives beside the ledger's keys folder.
-				if keys, err := signing.LoadPublicDir(filepath.Join(filepath.Dir(*ledgerPath), "keys")); err == nil {
+				// The station's public key lives in the keys folder beside the ledger.
+				dir := filepath.Join(led.Dir(), "keys")
+				if keys, err := signing.LoadPublicDir(dir); err == nil {
 					if _, ok := keys[d.KeyID]; ok {
-						opt.PublicKeyPath = findPub(filepath.Join(filepath.Dir(*ledgerPath), "keys"), d.KeyID)
+						opt.PublicKeyPath = findPub(dir, d.KeyID)
 					}
 				}
 			}

@@ -17,7 +17,11 @@ import (
 type Document struct {
 	RunID  string
 	Number string // the run's certificate number, which the document carries
-	Path   string // where it was written
+	// Path is where it was written. AddSignedDocument stores it relative to the
+	// ledger's folder (Dir) when it lies inside it, absolute otherwise;
+	// DocumentsFor and DocumentBySHA return it resolved (Locate): a path on this
+	// machine, whatever the working folder.
+	Path   string
 	SHA256 string // lowercase hex SHA-256 of its exact bytes
 	Size   int64  // bytes
 	// KeyID and Signature are the document's signature as its issuer made it (the
@@ -31,7 +35,8 @@ type Document struct {
 }
 
 // AddSignedDocument records a document issued for a run: the certificate number it
-// carries, the path it was written to, the SHA-256 of its exact bytes (64 hex digits,
+// carries, the path it was written to (absolute or relative to the working folder;
+// stored relative to the ledger's folder when it lies inside it), the SHA-256 of its exact bytes (64 hex digits,
 // stored in lower case), its size in bytes and its signature (key id and signature
 // bytes, or both empty), stamped with l.Now() as created_at, and an audit trail entry
 // "issue" (actor: the run's operator, or "trimline") with all of it, in one
@@ -58,6 +63,7 @@ func (l *Ledger) AddSignedDocument(ctx context.Context, d Document) error {
 	if err := validateSignature(d.KeyID, d.Signature); err != nil {
 		return fmt.Errorf("ledger: document for run %s: %w", runID, err)
 	}
+	d.Path = l.storedPath(d.Path)
 	err := l.inTx(ctx, func(tx *sql.Tx) error {
 		created := formatTime(l.now()) // with the write lock held: the trail's times follow its order
 		var cert sql.NullString
@@ -117,7 +123,8 @@ func scanDocument(s scanner) (Document, error) {
 }
 
 // DocumentBySHA returns the document whose bytes have SHA-256 sha (hex, either
-// case): the first recorded, if a re-issue had identical bytes. ErrNotFound
+// case): the first recorded, if a re-issue had identical bytes, with its Path
+// resolved (Locate). ErrNotFound
 // (wrapped) if there is none, ErrInvalid for a malformed hash.
 func (l *Ledger) DocumentBySHA(ctx context.Context, sha string) (*Document, error) {
 	sum := strings.ToLower(sha)
@@ -131,11 +138,12 @@ func (l *Ledger) DocumentBySHA(ctx context.Context, sha string) (*Document, erro
 	if err != nil {
 		return nil, fmt.Errorf("ledger: document %s: %w", sum, err)
 	}
+	d.Path = l.Locate(d.Path)
 	return &d, nil
 }
 
-// DocumentsFor returns the documents of certificate number in the order recorded;
-// an empty slice if it has none yet. ErrNotFound (wrapped) for a number no run has.
+// DocumentsFor returns the documents of certificate number in the order recorded,
+// their Paths resolved (Locate); an empty slice if it has none yet. ErrNotFound (wrapped) for a number no run has.
 func (l *Ledger) DocumentsFor(ctx context.Context, number string) ([]Document, error) {
 	var out []Document
 	err := l.readTx(ctx, func(tx *sql.Tx) error {
@@ -148,6 +156,9 @@ func (l *Ledger) DocumentsFor(ctx context.Context, number string) ([]Document, e
 	})
 	if err != nil {
 		return nil, fmt.Errorf("ledger: documents of %s: %w", number, err)
+	}
+	for i := range out {
+		out[i].Path = l.Locate(out[i].Path)
 	}
 	return out, nil
 }

@@ -103,7 +103,8 @@ type Ledger struct {
 	// audit entries migration 0003 backfills) are stamped with time.Now.
 	Now func() time.Time
 
-	db *sql.DB
+	db  *sql.DB
+	dir string // the absolute folder of the ledger file: stored paths are relative to it
 }
 
 // Open opens the ledger at path (a file name; it is created if missing, but its
@@ -128,7 +129,7 @@ func Open(ctx context.Context, path string) (*Ledger, error) {
 	if err != nil {
 		return nil, fmt.Errorf("ledger: open %s: %w", path, err)
 	}
-	l := &Ledger{Now: time.Now, db: db}
+	l := &Ledger{Now: time.Now, db: db, dir: filepath.Dir(abs)}
 	if err := l.initRetrying(ctx); err != nil {
 		db.Close()
 		return nil, fmt.Errorf("ledger: open %s: %w", path, err)
