@@ -287,6 +287,11 @@ func (is *Issuer) Repair(ctx context.Context) (int, error) {
 			n++
 		}
 	}
+	// What killed processes left held is repaired now (or was never stored):
+	// their leases go, so that they do not pile up.
+	if _, err := led.DropAbandonedLeases(ctx, held); err != nil {
+		return n, err
+	}
 	return n, nil
 }
 

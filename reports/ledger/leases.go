@@ -115,3 +115,62 @@ func (l *Ledger) RunIDOfCertificate(ctx context.Context, number string) (string,
 	}
 	return id, nil
 }
+
+// Leases returns every lease in the ledger, by run id.
+func (l *Ledger) Leases(ctx context.Context) ([]Lease, error) {
+	rows, err := l.db.QueryContext(ctx, `SELECT run_id FROM leases ORDER BY run_id`)
+	ids, err := collect(rows, err, func(r scanner) (string, error) {
+		var id string
+		return id, r.Scan(&id)
+	})
+	if err != nil {
+		return nil, fmt.Errorf("ledger: leases: %w", err)
+	}
+	out := make([]Lease, 0, len(ids))
+	for _, id := range ids {
+		le, ok, err := l.LeaseOf(ctx, id)
+		if err != nil {
+			return nil, err
+		}
+		if ok {
+			out = append(out, le)
+		}
+	}
+	return out, nil
+}
+
+// DropAbandonedLeases deletes the leases nobody holds any more: expired at
+// l.Now(), or, when held is not nil, whose holder held reports gone. A killed
+// process leaves its lease behind; this keeps such leases from piling up. It
+// reports how many it deleted.
+func (l *Ledger) DropAbandonedLeases(ctx context.Context, held func(Lease) bool) (int, error) {
+	n := 0
+	err := l.inTx(ctx, func(tx *sql.Tx) error {
+		rows, err := tx.QueryContext(ctx, `SELECT run_id FROM leases ORDER BY run_id`)
+		ids, err := collect(rows, err, func(r scanner) (string, error) {
+			var id string
+			return id, r.Scan(&id)
+		})
+		if err != nil {
+			return err
+		}
+		for _, id := range ids {
+			le, ok, err := leaseOf(ctx, tx, id)
+			if err != nil || !ok {
+				return err
+			}
+			if le.Expires.After(l.now()) && (held == nil || held(le)) {
+				continue
+			}
+			if _, err := tx.ExecContext(ctx, `DELETE FROM leases WHERE run_id = ?`, id); err != nil {
+				return err
+			}
+			n++
+		}
+		return nil
+	})
+	if err != nil {
+		return 0, fmt.Errorf("ledger: drop abandoned leases: %w", err)
+	}
+	return n, nil
+}

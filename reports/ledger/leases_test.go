@@ -82,4 +82,20 @@ func TestClaimLease(t *testing.T) {
 	if _, ok, _ := led.LeaseOf(ctx, "r1"); ok {
 		t.Errorf("lease still there after release")
 	}
+
+	// Leases left behind go: an expired one and one whose holder is gone.
+	for i, le := range []ledger.Lease{
+		{RunID: "held", Host: "h", PID: 1, Started: now, Expires: now.Add(time.Minute)},
+		{RunID: "expired", Host: "h", PID: 1, Started: now, Expires: now.Add(-time.Second)},
+		{RunID: "gone", Host: "h", PID: 2, Started: now, Expires: now.Add(time.Minute)},
+	} {
+		if ok, err := led.ClaimLease(ctx, le, nil); err != nil || !ok {
+			t.Fatalf("lease %d: %v %v", i, ok, err)
+		}
+	}
+	n, err := led.DropAbandonedLeases(ctx, func(le ledger.Lease) bool { return le.PID == 1 })
+	leases, lerr := led.Leases(ctx)
+	if err != nil || lerr != nil || n != 2 || len(leases) != 1 || leases[0].RunID != "held" {
+		t.Errorf("dropped %d (%v), left %+v (%v); want 2 dropped, only held left", n, err, leases, lerr)
+	}
 }
