@@ -5,6 +5,11 @@
 // detached seal is written. A crash between the commit and the document leaves a
 // certified run without a document, which Repair finds and publishes again,
 // byte-identical, at the next start.
+//
+// Several stations, and several processes of one station, may share a ledger.
+// From before a run is stored until its seal is written, the process holds the
+// run's lease in the ledger (lease.go), so a start-up's Repair tells a run in
+// flight from one a crash abandoned, and only ever repairs its own station's.
 package issuing
 
 import (
