@@ -136,6 +136,13 @@ func TestKillNineCrashSafety(t *testing.T) {
 		t.Fatalf("chain after restart: %+v %v", rep, err)
 	}
 	t.Logf("%d runs, %d certificates, %d documents after 50 kills", rep.Runs, rep.Certificates, rep.Documents)
+	// Nor does it leave the temporary files of a certificate or seal being written.
+	if tmps, _ := filepath.Glob(filepath.Join(dir, "certificates", ".*.tmp-*")); len(tmps) > 0 {
+		t.Errorf("after restart, temporary files are left: %v", tmps)
+	}
+	if leases, err := led.Leases(context.Background()); err != nil || len(leases) != 0 {
+		t.Errorf("after restart, leases are left: %+v %v", leases, err)
+	}
 	pdfs := mustGlob(t, filepath.Join(dir, "certificates", "*.pdf"))
 	for i := 0; i < 10 && len(pdfs) > 0; i++ {
 		p := pdfs[rng.IntN(len(pdfs))]

@@ -47,7 +47,9 @@ func TestSignalDuringSweep(t *testing.T) {
 			if err := cmd.Start(); err != nil {
 				t.Fatal(err)
 			}
-			time.Sleep(700 * time.Millisecond)
+			// The signal goes when the sweep has started: the log has its first
+			// point. A fixed sleep let it land during start-up on a loaded machine.
+			waitForLog(t, filepath.Join(dir, "trimline.log"), `"message":"point"`, 30*time.Second)
 			sent := time.Now()
 			cmd.Process.Signal(sig)
 			err := cmd.Wait()
@@ -73,5 +75,20 @@ func TestSignalDuringSweep(t *testing.T) {
 				t.Errorf("no record of the output going off in the log")
 			}
 		})
+	}
+}
+
+// waitForLog waits until the log file at path holds want, for up to limit.
+func waitForLog(t *testing.T, path, want string, limit time.Duration) {
+	t.Helper()
+	deadline := time.Now().Add(limit)
+	for {
+		if b, _ := os.ReadFile(path); bytes.Contains(b, []byte(want)) {
+			return
+		}
+		if time.Now().After(deadline) {
+			t.Fatalf("no %s in %s after %v", want, path, limit)
+		}
+		time.Sleep(10 * time.Millisecond)
 	}
 }

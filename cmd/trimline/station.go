@@ -136,6 +136,11 @@ func runBatch(ctx context.Context, e *env, b batch) (*sequencer.Tally, error) {
 			return nil, badInput(fmt.Errorf("%s signing.key: %w", st.File.Name, err))
 		}
 	}
+	if n, err := is.RemoveStaleTemps(ctx); err != nil {
+		return nil, err
+	} else if n > 0 {
+		log.Info().Int("files", n).Msg("removed temporary files an interrupted run left in the certificates folder")
+	}
 	if n, err := is.Repair(ctx); err != nil {
 		return nil, err
 	} else if n > 0 {

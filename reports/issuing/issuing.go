@@ -5,6 +5,11 @@
 // detached seal is written. A crash between the commit and the document leaves a
 // certified run without a document, which Repair finds and publishes again,
 // byte-identical, at the next start.
+//
+// Several stations, and several processes of one station, may share a ledger.
+// From before a run is stored until its seal is written, the process holds the
+// run's lease in the ledger (lease.go), so a start-up's Repair tells a run in
+// flight from one a crash abandoned, and only ever repairs its own station's.
 package issuing
 
 import (
@@ -15,6 +20,7 @@ import (
 	"fmt"
 	"os"
 	"path/filepath"
+	"slices"
 	"strings"
 
 	"trimline/reports/certificate"
@@ -176,6 +182,13 @@ func (is *Issuer) Record(ctx context.Context, rec *sequencer.Record) (string, er
 			return keyID, sig, nil
 		}
 	}
+	// The run is held from before it is stored until its seal is written, so that
+	// no other process's Repair takes it for abandoned meanwhile.
+	lease, err := is.hold(ctx, rec.RunID)
+	if err != nil {
+		return "", err
+	}
+	defer lease.release()
 	cert, err := is.Ledger.RecordRunWith(ctx, rec, opt)
 	if err != nil || cert == "" {
 		return cert, err
@@ -241,54 +254,104 @@ func (is *Issuer) publish(ctx context.Context, rec *sequencer.Record, meta ledge
 // cover it without a scan of the whole ledger at every start.
 const recentChecked = 20
 
-// Repair publishes every certified run whose document is missing (a crash between
-// the ledger commit and the document), and the newest runs whose PDF or seal file
-// is gone (a crash after the document row), and reports how many it published. A
-// voided certificate is never published again; a run sealed with a key the Issuer
-// does not hold is an error.
+// Repair publishes again the certificates of this station's abandoned runs: every
+// certified run of the station (Station.ID) whose document is missing (a crash
+// between the ledger commit and the document), and the newest runs whose PDF or
+// seal file is gone (a crash after the document row). A run is abandoned when no
+// live process holds its lease (see hold): runs another process is publishing,
+// of this station or another sharing the ledger, are left to it, and another
+// station's runs are never touched. Repair reports how many certificates it
+// published. A voided certificate is never published again; an abandoned run of
+// this station sealed with a key the Issuer does not hold is an error.
 func (is *Issuer) Repair(ctx context.Context) (int, error) {
 	led := is.Ledger
 	missing, err := led.MissingDocuments(ctx)
 	if err != nil {
 		return 0, err
 	}
+	var certs []string
+	for _, m := range missing {
+		certs = append(certs, m.Certificate)
+	}
 	runs, err := led.RecentRuns(ctx, recentChecked)
 	if err != nil {
 		return 0, err
 	}
 	for _, r := range runs {
-		if r.Certificate == "" {
-			continue
-		}
-		if st, err := led.CertificateStatus(ctx, r.Certificate); err != nil || st.Voided {
-			continue // a voided certificate is not published again
-		}
-		docs, err := led.DocumentsFor(ctx, r.Certificate)
-		if err != nil || len(docs) == 0 {
-			continue // already in missing
-		}
-		d := docs[len(docs)-1]
-		_, perr := os.Stat(d.Path)
-		_, serr := os.Stat(d.Path + ".seal")
-		if perr != nil || (d.KeyID != "" && serr != nil) {
-			_, meta, err := led.RunByCertificate(ctx, r.Certificate)
-			if err != nil {
-				return 0, err
-			}
-			missing = append(missing, meta)
+		if r.Certificate != "" && r.Station == is.Station.ID && !slices.Contains(certs, r.Certificate) {
+			certs = append(certs, r.Certificate)
 		}
 	}
-	for _, m := range missing {
-		rec, meta, err := led.RunByCertificate(ctx, m.Certificate)
+	n := 0
+	for _, cert := range certs {
+		done, err := is.repair(ctx, cert)
 		if err != nil {
-			return 0, fmt.Errorf("repair %s: %w", m.Certificate, err)
+			return n, fmt.Errorf("repair %s: %w", cert, err)
 		}
-		if meta.KeyID != "" && (is.Key == nil || is.Key.ID() != meta.KeyID) {
-			return 0, fmt.Errorf("repair %s: it was sealed with key %s, which this station does not hold", m.Certificate, meta.KeyID)
-		}
-		if err := is.publish(ctx, rec, meta); err != nil {
-			return 0, fmt.Errorf("repair %s: %w", m.Certificate, err)
+		if done {
+			n++
 		}
 	}
-	return len(missing), nil
+	// What killed processes left held is repaired now (or was never stored):
+	// their leases go, so that they do not pile up.
+	if _, err := led.DropAbandonedLeases(ctx, held); err != nil {
+		return n, err
+	}
+	return n, nil
+}
+
+// repair publishes certificate cert again if it is this station's, abandoned and
+// still lacks its document, PDF or seal, and reports whether it did.
+func (is *Issuer) repair(ctx context.Context, cert string) (bool, error) {
+	if need, err := is.unpublished(ctx, cert); err != nil || !need {
+		return false, err
+	}
+	rec, meta, err := is.Ledger.RunByCertificate(ctx, cert)
+	if err != nil {
+		return false, err
+	}
+	if rec.Station != is.Station.ID {
+		return false, nil // another station's run: its own station repairs it
+	}
+	lease, err := is.claim(ctx, rec.RunID)
+	if err != nil || lease == nil {
+		return false, err // held by a live process, which publishes it
+	}
+	defer lease.release()
+	// Looked at again with the lease held: the holder may have finished between
+	// the first look and the claim.
+	if need, err := is.unpublished(ctx, cert); err != nil || !need {
+		return false, err
+	}
+	if meta.KeyID != "" && (is.Key == nil || is.Key.ID() != meta.KeyID) {
+		return false, fmt.Errorf("it was sealed with key %s, which this station does not hold", meta.KeyID)
+	}
+	return true, is.publish(ctx, rec, meta)
+}
+
+// unpublished reports whether certificate cert, not voided, lacks its document,
+// or its newest document's PDF, or (for a signed one) its seal.
+func (is *Issuer) unpublished(ctx context.Context, cert string) (bool, error) {
+	st, err := is.Ledger.CertificateStatus(ctx, cert)
+	if err != nil {
+		return false, err
+	}
+	if st.Voided {
+		return false, nil // a voided certificate is not published again
+	}
+	docs, err := is.Ledger.DocumentsFor(ctx, cert)
+	if err != nil {
+		return false, err
+	}
+	if len(docs) == 0 {
+		return true, nil
+	}
+	d := docs[len(docs)-1]
+	if _, err := os.Stat(d.Path); err != nil {
+		return true, nil
+	}
+	if _, err := os.Stat(d.Path + ".seal"); d.KeyID != "" && err != nil {
+		return true, nil
+	}
+	return false, nil
 }

@@ -10,6 +10,13 @@ var (
 	AuditHash      = auditHash
 )
 
+// SetAfterMigration sets the hook migrate calls after each migration, until the
+// test ends.
+func SetAfterMigration(t interface{ Cleanup(func()) }, f func(version int)) {
+	afterMigration = f
+	t.Cleanup(func() { afterMigration = nil })
+}
+
 // LatestMigration is the version of the newest embedded migration.
 func LatestMigration() int {
 	m, err := embeddedMigrations()

@@ -116,7 +116,9 @@ type Ledger struct {
 //
 // It fails with ErrSchemaTooNew if the file has a migration newer than this program
 // knows, with ErrCorrupt if an applied migration's name differs from the embedded
-// one, and if the file system does not allow WAL mode. ctx bounds Open's own work.
+// one, and if the file system does not allow WAL mode. ctx bounds Open's own work,
+// except the migrations: once they begin, they all run to the end even if ctx is
+// cancelled, so a ledger is never left between two versions by a cancel.
 func Open(ctx context.Context, path string) (*Ledger, error) {
 	if path == "" {
 		return nil, fmt.Errorf("ledger: open: empty path: %w", ErrInvalid)
@@ -185,7 +187,9 @@ func (l *Ledger) init(ctx context.Context) error {
 	if !strings.EqualFold(mode, "wal") {
 		return fmt.Errorf("journal mode is %q, want wal (does the file system support WAL?)", mode)
 	}
-	return l.migrate(ctx)
+	// A migration once begun is finished: a cancelled ctx (Ctrl-C during start-up)
+	// stops Open before or after the migrations, never between two of them.
+	return l.migrate(context.WithoutCancel(ctx))
 }
 
 // Close closes the ledger's connections. Calls in progress finish first; the Ledger

@@ -167,9 +167,16 @@ func (l *Ledger) migrate(ctx context.Context) (err error) {
 		if err != nil {
 			return fmt.Errorf("migration %04d_%s: %w", m.version, m.name, err)
 		}
+		if afterMigration != nil {
+			afterMigration(m.version)
+		}
 	}
 	return nil
 }
+
+// afterMigration, when not nil, is called after each migration migrate applies or
+// finds applied; tests use it to act between two migrations.
+var afterMigration func(version int)
 
 // foreignKeyCheck fails with ErrCorrupt if any row refers to a missing parent.
 func foreignKeyCheck(ctx context.Context, tx *sql.Tx) error {
