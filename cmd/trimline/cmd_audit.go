@@ -95,7 +95,8 @@ func newAuditReplayCmd() *command {
 		Short:     "recompute recorded runs from their raw readings",
 		Long: `Recomputes fits, trim codes, uncertainties and verdicts from the stored raw
 readings with the stored files, and lists every difference from what was recorded.
-A run not signed by a trusted key of its station (--keys DIR or --trust FILE; no
+A serial number replays every run of it, the ledger's own and those imported from
+bundles. A run not signed by a trusted key of its station (--keys DIR or --trust FILE; no
 key is trusted by default, exit 2 without) is not replayed: anyone could have
 written its readings. Exit 1 when any run differs or is not signed.`,
 	}
@@ -453,6 +454,18 @@ func (a *auditor) replay(ctx context.Context, e *env, what string) error {
 				return err
 			}
 			runs = append(runs, replayed{rec, m.Certificate, m.RecordSHA256, m.KeyID, m.Signature})
+		}
+		// and the serial's runs imported from other stations' bundles
+		imported, err := led.ImportedRunsOf(ctx, what)
+		if err != nil {
+			return err
+		}
+		for i := len(imported) - 1; i >= 0; i-- {
+			rec, ir, err := led.ImportedRunByID(ctx, imported[i].RunID)
+			if err != nil {
+				return err
+			}
+			runs = append(runs, replayed{rec, ir.Number, ir.RecordSHA256, ir.KeyID, ir.Signature})
 		}
 	}
 	if len(runs) == 0 {

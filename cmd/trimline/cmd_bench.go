@@ -53,7 +53,11 @@ elapse, as on a real bench.`,
 			fmt.Fprintf(e.stdout, "  %-6s %s\n", r, addrs[r])
 		}
 		if *write != "" {
-			if err := os.WriteFile(*write, st.Rewired(addrs, sequencer.Served{Settings: serve.Settings, Templates: serve.Templates}), 0o644); err != nil {
+			data, err := st.Rewired(addrs, sequencer.Served{Settings: serve.Settings, Templates: serve.Templates})
+			if err != nil {
+				return err
+			}
+			if err := os.WriteFile(*write, data, 0o644); err != nil {
 				return err
 			}
 			fmt.Fprintf(e.stdout, "station file for these addresses: %s\n", *write)

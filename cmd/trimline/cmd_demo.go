@@ -79,7 +79,11 @@ unit takes a few seconds, as it would on a real bench.`,
 			}
 			defer srv.Close()
 			station = filepath.Join(*out, "brx200-station-"+*transport+".yaml")
-			if err := os.WriteFile(station, st.Rewired(srv.Addresses(), sequencer.Served{Settings: serve.Settings, Templates: serve.Templates}), 0o644); err != nil {
+			data, err := st.Rewired(srv.Addresses(), sequencer.Served{Settings: serve.Settings, Templates: serve.Templates})
+			if err != nil {
+				return err
+			}
+			if err := os.WriteFile(station, data, 0o644); err != nil {
 				return err
 			}
 			fmt.Fprintf(e.stdout, "serving the simulated bench over %s; station file %s\n", *transport, station)

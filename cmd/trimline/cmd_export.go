@@ -3,6 +3,7 @@ package main
 import (
 	"bytes"
 	"context"
+	"errors"
 	"fmt"
 	"os"
 	"path/filepath"
@@ -91,7 +92,9 @@ station) or --trust FILE. No key is trusted by default (exit 2 without either);
 the public key inside the bundle counts only when a trust file bound its full
 fingerprint to the station. An unsigned run, or one signed by another key, is
 refused (exit 1). It then stores the run in the ledger as an imported run: outside
-the ledger's own chain and numbering, ready for 'trimline audit replay'.`,
+the ledger's own chain and numbering, ready for 'trimline audit replay' (by
+certificate number or serial). A bundle imported already, with the same contents,
+is reported as "already imported: …" and changes nothing (exit 0).`,
 	}
 	ledgerPath := c.Flag.String("ledger", "", "ledger `file` to import into (created if missing)")
 	keysDir := c.Flag.String("keys", "", "`folder` of trusted public keys: STATION.pub binds a key to a station")
@@ -142,7 +145,18 @@ the ledger's own chain and numbering, ready for 'trimline audit replay'.`,
 			return err
 		}
 		defer led.Close()
-		if err := bundle.Import(ctx, led, b, *actor); err != nil {
+		err = bundle.Import(ctx, led, b, *actor)
+		if errors.Is(err, ledger.ErrAlreadyImported) {
+			// Not a failure: the ledger holds the run as the import would leave it.
+			when := ""
+			if _, ir, err := led.ImportedRunByID(ctx, m.RunID); err == nil {
+				when = fmt.Sprintf(" on %s by %s", ir.ImportedAt.Format("2006-01-02 15:04 UTC"), ir.ImportedBy)
+			}
+			fmt.Fprintf(e.stdout, "already imported: %s (run %s, serial %s) is in %s, imported%s with the same contents; nothing changed\n",
+				m.Number, m.RunID, m.Serial, *ledgerPath, when)
+			return nil
+		}
+		if err != nil {
 			return err
 		}
 		fmt.Fprintf(e.stdout, "imported %s (run %s, serial %s) into %s\n", b.Manifest.Number, b.Manifest.RunID, b.Manifest.Serial, *ledgerPath)

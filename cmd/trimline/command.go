@@ -52,7 +52,7 @@ func trimline() *command {
 		Short:     "end-of-line gain and offset trim station",
 		Commands: []*command{
 			newAuditCmd(), newBenchCmd(), newCheckCmd(), newDemoCmd(), newExportCmd(),
-			newFitCmd(), newImportCmd(), newKeysCmd(), newLimitsCmd(), newRunCmd(),
+			newFitCmd(), newImportCmd(), newKeysCmd(), newLimitsCmd(), newReprintCmd(), newRunCmd(),
 		},
 	}
 	root.walk(func(c *command) {

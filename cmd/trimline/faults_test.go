@@ -27,6 +27,11 @@ func wire(t *testing.T, transport string, faults map[string]serve.Fault) (dir, s
 	seq, _ := os.ReadFile(sequence)
 	quick := strings.NewReplacer("settle: 20 ms", "settle: 12 ms", "readings: 8", "readings: 2", "nplc: 1 ", "nplc: 0.1 ").Replace(string(seq))
 	os.WriteFile(sequence, []byte(quick), 0o644)
+	// The served station keeps the demo's require_release: release the quick files.
+	var rel strings.Builder
+	if err := releaseDemo(context.Background(), &env{stdout: &rel, stderr: &rel}, dir); err != nil {
+		t.Fatal(err)
+	}
 	st, err := sequencer.LoadStation(simStation)
 	if err != nil {
 		t.Fatal(err)
@@ -36,7 +41,10 @@ func wire(t *testing.T, transport string, faults map[string]serve.Fault) (dir, s
 		t.Fatal(err)
 	}
 	t.Cleanup(func() { srv.Close() })
-	yaml := st.Rewired(srv.Addresses(), sequencer.Served{Settings: serve.Settings, Templates: serve.Templates})
+	yaml, err := st.Rewired(srv.Addresses(), sequencer.Served{Settings: serve.Settings, Templates: serve.Templates})
+	if err != nil {
+		t.Fatal(err)
+	}
 	// Short per-command timeouts so silent instruments are found quickly.
 	yaml = []byte(strings.ReplaceAll(string(yaml), "    asset: ", "    timeout: 300 ms\n    asset: "))
 	station = filepath.Join(dir, "served.yaml")

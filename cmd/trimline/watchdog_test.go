@@ -4,9 +4,11 @@ import (
 	"bytes"
 	"os"
 	"os/exec"
-	"strings"
+	"regexp"
 	"testing"
 	"time"
+
+	"trimline/sequencer"
 )
 
 // kill -9 of a station in the middle of a sweep leaves the source driving the unit,
@@ -25,10 +27,17 @@ func TestKillNineLeavesTheOutputToTheWatchdog(t *testing.T) {
 	}
 	// The served station file arms the watchdog (serve.Templates, serve.Settings);
 	// a shorter time keeps the test short.
-	if !strings.Contains(string(data), `arm_watchdog: "OUTP:WATC {seconds}"`) || !strings.Contains(string(data), `watchdog: "5 s"`) {
+	st, err := sequencer.LoadStation(station)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if src := st.Instruments["source"]; src.Templates["arm_watchdog"] != "OUTP:WATC {seconds}" || src.Settings["watchdog"] != "5 s" {
 		t.Fatalf("the served station file does not arm the watchdog:\n%s", data)
 	}
-	armed := strings.Replace(string(data), `watchdog: "5 s"`, `watchdog: "1 s"`, 1)
+	armed := regexp.MustCompile(`(?m)^(\s+watchdog: )"?5 s"?$`).ReplaceAllString(string(data), `${1}"1 s"`)
+	if armed == string(data) {
+		t.Fatalf("no watchdog time to shorten:\n%s", data)
+	}
 	if err := os.WriteFile(station, []byte(armed), 0o644); err != nil {
 		t.Fatal(err)
 	}

@@ -631,8 +631,8 @@ func TestImport(t *testing.T) {
 		t.Fatal(err)
 	}
 	for _, bb := range []*bundle.Bundle{b, b2} {
-		if err := bundle.Import(ctx, audit, bb, "auditor-ben"); err != nil {
-			t.Fatalf("import again: %v", err)
+		if err := bundle.Import(ctx, audit, bb, "auditor-ben"); !errors.Is(err, ledger.ErrAlreadyImported) {
+			t.Fatalf("import again: %v, want ErrAlreadyImported", err)
 		}
 	}
 	if after := counts(); !mapsEqual(before, after) {

@@ -269,7 +269,7 @@ func Open(r io.ReaderAt, size int64) (*Bundle, error) {
 		}
 		b.verified("the record signature verifies with key %s (the bundle's own) over certificate %q, run %s, record SHA-256 %s",
 			m.KeyID, m.Number, m.RunID, m.RecordSHA256)
-		b.note("the public key is the bundle's own: compare key id %s with a key you trust (VerifyWith)", m.KeyID)
+		b.note("the public key is the bundle's own, so this proves nothing by itself: check that key id %s is one you trust", m.KeyID)
 	case m.KeyID != "":
 		b.note("the record is signed by key %s, but the bundle carries no public key: the signature is not verified", m.KeyID)
 	default:
@@ -341,11 +341,13 @@ func (b *Bundle) VerifyWith(pub ed25519.PublicKey) error {
 // the seal and the public key (in the ledger's blobs), with b.Source as its source
 // and an audit trail entry "import" by actor. It re-checks what it stores (the
 // record's SHA-256, and the record signature when b has a public key; ErrBadBundle
-// otherwise). Importing the same bundle again is a no-op. The run enters neither
-// a hash chain of led nor its certificate sequence.
+// otherwise). Importing the same bundle again writes nothing and returns
+// ledger.ErrAlreadyImported (wrapped). The run enters neither a hash chain of led
+// nor its certificate sequence.
 //
 // Errors: ErrBadBundle (wrapped) for a nil or inconsistent b; ledger.ErrInvalid for
 // an empty actor; ledger.ErrDuplicateRun for a run that is led's own;
+// ledger.ErrAlreadyImported for a run imported already with the same contents;
 // ledger.ErrImportConflict for a run imported with other contents.
 func Import(ctx context.Context, led *ledger.Ledger, b *Bundle, actor string) error {
 	if b == nil || b.Record == nil {

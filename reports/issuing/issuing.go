@@ -13,6 +13,7 @@
 package issuing
 
 import (
+	"bytes"
 	"context"
 	"crypto/sha256"
 	"encoding/hex"
@@ -24,6 +25,7 @@ import (
 	"strings"
 
 	"trimline/reports/certificate"
+	"trimline/reports/internal/atomicfile"
 	"trimline/reports/ledger"
 	"trimline/reports/signing"
 	"trimline/sequencer"
@@ -220,16 +222,35 @@ func certOptions(rec *sequencer.Record, meta ledger.RunMeta) certificate.Options
 	return opt
 }
 
+// render renders the certificate of a recorded run from the record and its ledger
+// entry alone: its options and its exact bytes. Issue, Repair and Reprint all
+// render through it, so a certificate rendered again is byte-identical.
+func render(rec *sequencer.Record, meta ledger.RunMeta) (certificate.Options, []byte, error) {
+	opt := certOptions(rec, meta)
+	var buf bytes.Buffer
+	if err := certificate.Write(&buf, rec, opt); err != nil {
+		return opt, nil, err
+	}
+	return opt, buf.Bytes(), nil
+}
+
+// sealOf is the seal of document doc of a recorded run rendered with opt.
+func sealOf(rec *sequencer.Record, meta ledger.RunMeta, opt certificate.Options, doc ledger.Document) signing.Seal {
+	return signing.Seal{Format: signing.SealFormat, Number: meta.Certificate, RunID: rec.RunID, Serial: rec.Serial,
+		RecordSHA256: meta.RecordSHA256, PDFSHA256: doc.SHA256, KeyID: meta.KeyID, RecordSignature: meta.Signature,
+		PDFSignature: doc.Signature, VerificationCode: opt.VerificationCode, Signed: rec.Finished,
+		ChainHash: meta.ChainHash, ChainSeq: meta.ChainSeq}
+}
+
 // publish writes the certificate, records it as a document and writes its seal.
 func (is *Issuer) publish(ctx context.Context, rec *sequencer.Record, meta ledger.RunMeta) error {
-	opt := certOptions(rec, meta)
-	path := filepath.Join(is.CertDir, certificate.FileName(rec, opt))
-	if err := certificate.WriteFile(path, rec, opt); err != nil {
+	opt, pdf, err := render(rec, meta)
+	if err != nil {
 		return fmt.Errorf("%s: write certificate: %w", rec.Serial, err)
 	}
-	pdf, err := os.ReadFile(path)
-	if err != nil {
-		return err
+	path := filepath.Join(is.CertDir, certificate.FileName(rec, opt))
+	if err := atomicfile.Write(path, pdf, 0o644); err != nil {
+		return fmt.Errorf("%s: write certificate: %w", rec.Serial, err)
 	}
 	sum := sha256.Sum256(pdf)
 	doc := ledger.Document{RunID: rec.RunID, Number: meta.Certificate, Path: path, SHA256: hex.EncodeToString(sum[:]), Size: int64(len(pdf))}
@@ -242,11 +263,7 @@ func (is *Issuer) publish(ctx context.Context, rec *sequencer.Record, meta ledge
 	if is.Key == nil {
 		return nil
 	}
-	seal := signing.Seal{Format: signing.SealFormat, Number: meta.Certificate, RunID: rec.RunID, Serial: rec.Serial,
-		RecordSHA256: meta.RecordSHA256, PDFSHA256: doc.SHA256, KeyID: meta.KeyID, RecordSignature: meta.Signature,
-		PDFSignature: doc.Signature, VerificationCode: opt.VerificationCode, Signed: rec.Finished,
-		ChainHash: meta.ChainHash, ChainSeq: meta.ChainSeq}
-	return signing.WriteSeal(path+".seal", seal)
+	return signing.WriteSeal(path+".seal", sealOf(rec, meta, opt, doc))
 }
 
 // recentChecked is how many of the newest certified runs Repair checks for a lost

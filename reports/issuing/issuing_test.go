@@ -163,3 +163,47 @@ func TestTestedBeforeMessageStaysShort(t *testing.T) {
 		t.Error("not an ErrTestedBefore")
 	}
 }
+
+// Reprint writes nothing when the certificate rendered again is not the document
+// the ledger recorded, and refuses a number no run has.
+func TestReprintRefusesOtherBytes(t *testing.T) {
+	ctx := context.Background()
+	dir := t.TempDir()
+	st, seq := demoFiles(t, dir)
+	eng, err := sequencer.Open(ctx, sequencer.Config{Station: st, Sequence: seq, Operator: "test", Software: "test"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer eng.Close()
+	rec := eng.Run(ctx, "BRX-00001")
+	led, err := ledger.Open(ctx, filepath.Join(dir, "ledger.db"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer led.Close()
+	is := &issuing.Issuer{Ledger: led, Station: st, Sequence: seq, CertDir: dir}
+	cert, err := is.Record(ctx, rec)
+	if err != nil || cert == "" {
+		t.Fatalf("record: %q, %v", cert, err)
+	}
+	out := filepath.Join(dir, "copy.pdf")
+	r, err := issuing.Reprint(ctx, led, cert, out)
+	if err != nil || r.Seal != "" {
+		t.Fatalf("reprint of an unsigned certificate: %+v, %v", r, err)
+	}
+	// A later document with other bytes: the reprint no longer matches it.
+	other := strings.Repeat("ab", 32)
+	if err := led.AddSignedDocument(ctx, ledger.Document{RunID: rec.RunID, Number: cert, Path: out, SHA256: other, Size: r.Size}); err != nil {
+		t.Fatal(err)
+	}
+	os.Remove(out)
+	if _, err := issuing.Reprint(ctx, led, cert, out); !errors.Is(err, issuing.ErrNotIdentical) {
+		t.Errorf("reprint against another document hash: %v, want ErrNotIdentical", err)
+	}
+	if _, err := os.Stat(out); !errors.Is(err, fs.ErrNotExist) {
+		t.Errorf("a refused reprint wrote %s", out)
+	}
+	if _, err := issuing.Reprint(ctx, led, "TL1-999999", out); !errors.Is(err, ledger.ErrNotFound) {
+		t.Errorf("unknown number: %v, want ErrNotFound", err)
+	}
+}

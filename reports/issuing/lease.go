@@ -60,14 +60,20 @@ func (is *Issuer) hold(ctx context.Context, runID string) (*runLease, error) {
 // claim takes the lease on runID unless a live holder has it (nil, nil then), and
 // renews it in the background until release.
 func (is *Issuer) claim(ctx context.Context, runID string) (*runLease, error) {
+	return claimLease(ctx, is.Ledger, runID)
+}
+
+// claimLease is claim for any writer of a run's files (the issue flow, the
+// repair, a reprint).
+func claimLease(ctx context.Context, led *ledger.Ledger, runID string) (*runLease, error) {
 	le := holder()
 	le.RunID = runID
 	le.Expires = time.Now().Add(leaseFor)
-	ok, err := is.Ledger.ClaimLease(ctx, le, held)
+	ok, err := led.ClaimLease(ctx, le, held)
 	if err != nil || !ok {
 		return nil, err
 	}
-	rl := &runLease{led: is.Ledger, lease: le, stop: make(chan struct{}), done: make(chan struct{})}
+	rl := &runLease{led: led, lease: le, stop: make(chan struct{}), done: make(chan struct{})}
 	go rl.renew(context.WithoutCancel(ctx))
 	return rl, nil
 }

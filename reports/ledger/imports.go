@@ -42,6 +42,12 @@ const ActionImport = "import"
 // certificate number that another imported run has.
 var ErrImportConflict = errors.New("ledger: conflicts with an imported run")
 
+// ErrAlreadyImported (wrapped) is ImportRun's answer when the run is imported
+// already with the same contents: nothing was written, and the ledger holds the
+// run as it would after the import. It is not a failure; callers that import a
+// bundle twice tell the person so.
+var ErrAlreadyImported = errors.New("ledger: imported already")
+
 // importFormat marks the detail of an audit trail entry written by ImportRun.
 const importFormat = "trimline-import-v1"
 
@@ -133,13 +139,13 @@ func (l *Ledger) RunByID(ctx context.Context, runID string) (*sequencer.Record, 
 // the key id / signature pair, the content hashes, and that ImportedBy is given.
 // It does not verify the signature (it holds no keys): the importer does.
 //
-// Importing the same run again is a no-op (nil, nothing written) when the number,
-// station, serial, record SHA-256, key id, signature and PDF, seal and key hashes
-// are the ones stored, whatever the source or importer; otherwise it fails with
-// ErrImportConflict, as it does for a number another imported run has.
+// Importing the same run again writes nothing and returns ErrAlreadyImported when
+// the number, station, serial, record SHA-256, key id, signature and PDF, seal and
+// key hashes are the ones stored, whatever the source or importer; otherwise it
+// fails with ErrImportConflict, as it does for a number another imported run has.
 //
 // Errors (wrapped): ErrInvalid for a failed check; ErrDuplicateRun for a run id
-// that is one of the ledger's own runs; ErrImportConflict.
+// that is one of the ledger's own runs; ErrAlreadyImported; ErrImportConflict.
 func (l *Ledger) ImportRun(ctx context.Context, ir ImportedRun) error {
 	blobs, nFiles, err := prepareImport(&ir)
 	if err != nil {
@@ -158,7 +164,7 @@ func (l *Ledger) ImportRun(ctx context.Context, ir ImportedRun) error {
 		switch {
 		case err == nil:
 			if sameImport(old, ir) {
-				return nil
+				return fmt.Errorf("%s by %s, with the same contents; nothing written: %w", formatTime(old.ImportedAt), old.ImportedBy, ErrAlreadyImported)
 			}
 			return fmt.Errorf("imported already (%s by %s) with other contents: record SHA-256 %s, certificate %q, key %q, PDF %q, seal %q, public key %q: %w",
 				formatTime(old.ImportedAt), old.ImportedBy, old.RecordSHA256, old.Number, old.KeyID, old.PDFSHA256, old.SealSHA256, old.PublicKeySHA256, ErrImportConflict)
@@ -353,6 +359,18 @@ func (l *Ledger) ImportedRuns(ctx context.Context) ([]ImportedRun, error) {
 	out, err := collect(rows, err, func(r scanner) (ImportedRun, error) { return scanImported(r) })
 	if err != nil {
 		return nil, fmt.Errorf("ledger: imported runs: %w", err)
+	}
+	return out, nil
+}
+
+// ImportedRunsOf lists the imported runs of serial number serial in the order
+// imported, without their record JSON (ImportedRunByID reads it), as Runs does for
+// the ledger's own runs. It returns an empty slice when there are none.
+func (l *Ledger) ImportedRunsOf(ctx context.Context, serial string) ([]ImportedRun, error) {
+	rows, err := l.db.QueryContext(ctx, `SELECT `+importedColumns+` FROM imported_runs WHERE serial = ? ORDER BY rowid`, serial)
+	out, err := collect(rows, err, func(r scanner) (ImportedRun, error) { return scanImported(r) })
+	if err != nil {
+		return nil, fmt.Errorf("ledger: imported runs of %s: %w", serial, err)
 	}
 	return out, nil
 }

@@ -83,8 +83,8 @@ func TestImportRun(t *testing.T) {
 	}
 	again := ir
 	again.Source, again.ImportedBy = "another copy", "someone else"
-	if err := dst.ImportRun(ctx, again); err != nil {
-		t.Errorf("the same import again: %v", err)
+	if err := dst.ImportRun(ctx, again); !errors.Is(err, ledger.ErrAlreadyImported) {
+		t.Errorf("the same import again: %v, want ErrAlreadyImported", err)
 	}
 	clash := importOf(t, src, "src-2", nil)
 	clash.PDF = []byte("%PDF other")
