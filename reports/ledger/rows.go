@@ -369,9 +369,25 @@ func (c *tableCursor) next() error {
 // the signed record_json, run by run in run id order; then rows whose run is not
 // in the ledger. It reports the first difference with its table, run and column.
 func (c *chainCheck) rows() error {
-	where, args := "", []any(nil)
+	// The runs checked: those of c.station (all when ""), but for those trusted
+	// through a saved head (sinceFilter). A row whose run is not in the ledger is
+	// read either way.
+	var conds []string
+	var args []any
 	if c.station != "" {
-		where, args = " WHERE run_id IN (SELECT run_id FROM runs WHERE station = ?)", []any{c.station}
+		conds, args = append(conds, "station = ?"), append(args, c.station)
+	}
+	if cond, a := c.sinceFilter(); cond != "" {
+		conds, args = append(conds, "NOT ("+cond+")"), append(args, a...)
+	}
+	where := ""
+	switch {
+	case c.station != "":
+		where = " WHERE run_id IN (SELECT run_id FROM runs WHERE " + strings.Join(conds, " AND ") + ")"
+	case len(conds) > 0:
+		// Not "IN the runs checked": that would skip a row whose run is not in
+		// the ledger.
+		where = " WHERE run_id NOT IN (SELECT run_id FROM runs WHERE NOT (" + conds[0] + "))"
 	}
 	curs := make([]*tableCursor, len(derivedTables))
 	for i, t := range derivedTables {
@@ -386,8 +402,8 @@ func (c *chainCheck) rows() error {
 		}
 	}
 	q := "SELECT station, record_sha256, record_json, " + strings.Join(runColumns, ", ") + " FROM runs"
-	if c.station != "" {
-		q += " WHERE station = ?"
+	if len(conds) > 0 {
+		q += " WHERE " + strings.Join(conds, " AND ")
 	}
 	runs, err := c.tx.QueryContext(c.ctx, q+" ORDER BY run_id", args...)
 	if err != nil {
