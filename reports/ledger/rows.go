@@ -378,16 +378,20 @@ func (c *chainCheck) rows() error {
 		conds, args = append(conds, "station = ?"), append(args, c.station)
 	}
 	if cond, a := c.sinceFilter(); cond != "" {
-		conds, args = append(conds, "NOT ("+cond+")"), append(args, a...)
+		// station >= '' lets SQLite find the runs by the index on (station,
+		// chain_seq), without reading the rows of those it skips.
+		conds, args = append(conds, "station >= '' AND NOT ("+cond+")"), append(args, a...)
 	}
 	where := ""
-	switch {
-	case c.station != "":
+	if len(conds) > 0 {
 		where = " WHERE run_id IN (SELECT run_id FROM runs WHERE " + strings.Join(conds, " AND ") + ")"
-	case len(conds) > 0:
-		// Not "IN the runs checked": that would skip a row whose run is not in
-		// the ledger.
-		where = " WHERE run_id NOT IN (SELECT run_id FROM runs WHERE NOT (" + conds[0] + "))"
+	}
+	if c.station == "" && where != "" {
+		// The cursors read only the rows of the runs checked: look for rows
+		// whose run is not in the ledger apart.
+		if err := c.orphanRows(); err != nil {
+			return err
+		}
 	}
 	curs := make([]*tableCursor, len(derivedTables))
 	for i, t := range derivedTables {
@@ -438,6 +442,24 @@ func (c *chainCheck) rows() error {
 		return nil // a unit's runs may be of several stations
 	}
 	return c.units()
+}
+
+// orphanRows reports the first row of a derivedTable whose run is not in the
+// ledger, for a check whose cursors read only some runs' rows.
+func (c *chainCheck) orphanRows() error {
+	for _, t := range derivedTables {
+		var rowid int64
+		var runID string
+		err := c.tx.QueryRowContext(c.ctx, "SELECT rowid, run_id FROM "+t.name+" WHERE run_id NOT IN (SELECT run_id FROM runs) LIMIT 1").Scan(&rowid, &runID)
+		if errors.Is(err, sql.ErrNoRows) {
+			continue
+		}
+		if err != nil {
+			return err
+		}
+		return c.brokenRow(t.name, "", runID, "row %d belongs to run %s, which is not in the ledger", rowid, runID)
+	}
+	return nil
 }
 
 // runRows checks one run's signed record and rows, decoding its record_json
