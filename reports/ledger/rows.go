@@ -6,6 +6,7 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"runtime"
 	"slices"
 	"strconv"
 	"strings"
@@ -414,19 +415,32 @@ func (c *chainCheck) rows() error {
 		return err
 	}
 	defer runs.Close()
-	var st, sum string
-	var doc []byte
-	got := make([]any, len(runColumns))
-	dest := []any{&st, &sum, &doc}
-	for i := range got {
-		dest = append(dest, &got[i])
-	}
-	for runs.Next() {
-		if err := runs.Scan(dest...); err != nil {
-			return err
+	// Each run's record is decoded (decodeRun) in a goroutine of its own, a few
+	// runs ahead of the one whose rows are compared, in run id order.
+	ahead := 2 * runtime.GOMAXPROCS(0)
+	var queue []*decodedRun
+	for {
+		for len(queue) < ahead && runs.Next() {
+			d := &decodedRun{got: make([]any, len(runColumns)), done: make(chan struct{})}
+			var doc []byte
+			dest := []any{&d.station, &d.sum, &doc}
+			for i := range d.got {
+				dest = append(dest, &d.got[i])
+			}
+			if err := runs.Scan(dest...); err != nil {
+				return err
+			}
+			d.id, _ = sqlValue(d.got[0]).(string)
+			go d.decode(doc)
+			queue = append(queue, d)
 		}
-		id, _ := sqlValue(got[0]).(string)
-		if err := c.runRows(st, id, sum, doc, got, curs); err != nil {
+		if len(queue) == 0 {
+			break
+		}
+		d := queue[0]
+		queue = queue[1:]
+		<-d.done
+		if err := c.runRows(d, curs); err != nil {
 			return err
 		}
 	}
@@ -462,23 +476,59 @@ func (c *chainCheck) orphanRows() error {
 	return nil
 }
 
-// runRows checks one run's signed record and rows, decoding its record_json
-// (doc) once: doc hashes to its record_sha256 (sum); the runs row's columns are
-// the record's (got, in runColumns order); and the derived rows are recordRows'.
-func (c *chainCheck) runRows(st, id, sum string, doc []byte, got []any, curs []*tableCursor) error {
+// decodedRun is a run of the rows check: its runs row (station, id, its
+// record_sha256 sum, and got, the columns of runColumns) and what decode made of
+// its record_json, ready when done is closed.
+type decodedRun struct {
+	station, id, sum string
+	got              []any
+	done             chan struct{}
+
+	docSum       string // SHA-256 of record_json
+	rec          *sequencer.Record
+	decodeErr    error
+	reasons      string
+	reasonsErr   error
+	all          [][]derivedRow
+	recordRowErr error
+}
+
+// decode decodes doc, the run's record_json, and derives its rows, then closes
+// d.done. It touches nothing but d.
+func (d *decodedRun) decode(doc []byte) {
+	defer close(d.done)
+	d.docSum = sha256Hex(doc)
+	if d.docSum != d.sum {
+		return
+	}
+	rec := new(sequencer.Record)
+	if d.decodeErr = decodeCanonical(doc, rec); d.decodeErr != nil {
+		return
+	}
+	d.rec = rec
+	if d.reasons, d.reasonsErr = reasonsJSON(rec); d.reasonsErr != nil {
+		return
+	}
+	d.all, d.recordRowErr = recordRows(rec)
+}
+
+// runRows checks one run's signed record and rows, its record_json decoded
+// once (decodedRun): the record hashes to its record_sha256; the runs row's
+// columns are the record's; and the derived rows are recordRows'.
+func (c *chainCheck) runRows(d *decodedRun, curs []*tableCursor) error {
+	st, id, got := d.station, d.id, d.got
 	fail := func(format string, args ...any) error {
 		return c.broken(st, id, 0, "station %q, run %s: %s", st, id, fmt.Sprintf(format, args...))
 	}
-	if h := sha256Hex(doc); h != sum {
-		return fail("record_json has SHA-256 %s, record_sha256 is %s", h, sum)
+	if d.docSum != d.sum {
+		return fail("record_json has SHA-256 %s, record_sha256 is %s", d.docSum, d.sum)
 	}
-	rec := new(sequencer.Record)
-	if err := decodeCanonical(doc, rec); err != nil {
-		return fail("record_json does not decode: %v", err)
+	if d.decodeErr != nil {
+		return fail("record_json does not decode: %v", d.decodeErr)
 	}
-	rj, err := reasonsJSON(rec)
-	if err != nil {
-		return err
+	rec, rj := d.rec, d.reasons
+	if d.reasonsErr != nil {
+		return d.reasonsErr
 	}
 	if err := c.header(fail, rec, rj, got); err != nil {
 		return err
@@ -489,7 +539,7 @@ func (c *chainCheck) runRows(st, id, sum string, doc []byte, got []any, curs []*
 				id, runColumns[i], showValue(got[i]), showValue(want))
 		}
 	}
-	all, err := recordRows(rec)
+	all, err := d.all, d.recordRowErr
 	if err != nil {
 		return c.broken(st, id, 0, "station %q, run %s: %v", st, id, err)
 	}
