@@ -59,7 +59,7 @@ superseded.`,
 
 func newAuditLedgerCmd() *command {
 	c := &command{
-		UsageLine: "trimline audit ledger --keys DIR|--trust FILE [--ledger DB] [--save-heads FILE] [--heads FILE]",
+		UsageLine: "trimline audit ledger --keys DIR|--trust FILE [--ledger DB] [--save-heads FILE] [--heads FILE] [--since CHECKPOINT]",
 		Short:     "verify every station's hash chain, the audit trail and every query row",
 		Long: `Walks every station's hash chain and the audit trail, compares every row of the
 tables people query (readings, results, limit outcomes, fits, trims, files,
@@ -75,16 +75,25 @@ keep it outside the station. --heads FILE checks heads saved earlier: each must
 still be on its chain at its position, i.e. the chain has only grown since; a
 ledger rebuilt or rewritten since fails and the chain is named. Exit 1 when the
 chain is broken, a run is not signed by its station's trusted key, or a saved head
-is not found.`,
+is not found.
+
+--since CHECKPOINT verifies from heads saved earlier onward: CHECKPOINT is a
+heads file written by --save-heads, or one head's hash. Each saved head must be on
+its chain at its position; the runs after it are verified fully (links,
+signatures, records and rows, the trust rule), the runs up to it are trusted
+through it and not read again ("runs 1…N trusted through saved head H"). The audit
+trail, stored files, certificate numbers, documents and units are checked in full.
+A saved head not on its chain fails (exit 1).`,
 	}
 	a := newAuditor(c)
 	saveHeads := c.Flag.String("save-heads", "", "write the chain heads to `file`, to keep outside the ledger")
 	heads := c.Flag.String("heads", "", "check the chain heads saved earlier in `file` (by --save-heads)")
+	since := c.Flag.String("since", "", "verify from the heads saved in `checkpoint` (a --save-heads file, or one head's hash) onward")
 	c.Run = func(ctx context.Context, e *env, args []string) error {
 		if len(args) != 0 {
 			return usagef("usage: %s", c.UsageLine)
 		}
-		return a.ledger(ctx, e, *heads, *saveHeads)
+		return a.ledger(ctx, e, *heads, *saveHeads, *since)
 	}
 	return c
 }
@@ -312,20 +321,15 @@ func (a *auditor) verify(ctx context.Context, e *env, file string) error {
 	return a.verdictOut(e, file, v)
 }
 
-func (a *auditor) ledger(ctx context.Context, e *env, headsFile, saveHeads string) error {
+func (a *auditor) ledger(ctx context.Context, e *env, headsFile, saveHeads, sinceArg string) error {
 	if err := a.needTrust("whether the ledger's runs are the station's"); err != nil {
 		return err
 	}
 	var saved []ledger.Head
 	if headsFile != "" {
-		f, err := os.Open(headsFile)
-		if err != nil {
-			return badInput(err)
-		}
-		saved, err = ledger.ParseHeads(f)
-		f.Close()
-		if err != nil {
-			return badInput(fmt.Errorf("%s: %w", headsFile, err))
+		var err error
+		if saved, err = readHeads(headsFile); err != nil {
+			return err
 		}
 	}
 	led, err := a.open(ctx, "")
@@ -337,17 +341,36 @@ func (a *auditor) ledger(ctx context.Context, e *env, headsFile, saveHeads strin
 	if err != nil {
 		return err
 	}
-	rep, err := led.VerifyChain(ctx, "", ledger.ChainOptions{Verify: audit.Verifier(t.Keys())})
-	if err != nil {
-		return err
-	}
-	unsigned, err := audit.CheckSigners(ctx, led, t, "")
-	if err != nil {
-		return err
-	}
 	w := e.stdout
-	fmt.Fprintf(w, "ledger %s: %d station chain(s), %d runs (%d signed, %d verified, %d unsigned), %d certificates, %d documents, %d stored files, %d audit entries\n",
-		a.ledgerPath, rep.Stations, rep.Runs, rep.Signed, rep.Verified, rep.Unsigned, rep.Certificates, rep.Documents, rep.Blobs, rep.AuditEntries)
+	var since []ledger.Head
+	if sinceArg != "" {
+		if since, err = a.checkpoint(ctx, w, led, sinceArg); err != nil {
+			return err
+		}
+	}
+	rep, err := led.VerifyChain(ctx, "", ledger.ChainOptions{Verify: audit.Verifier(t.Keys()), Since: since})
+	if err != nil {
+		return err
+	}
+	unsigned, err := audit.CheckSignersSince(ctx, led, t, "", since)
+	if err != nil {
+		return err
+	}
+	runs := fmt.Sprintf("%d runs", rep.Runs)
+	if since != nil {
+		runs = fmt.Sprintf("%d runs verified after the saved heads, %d trusted through them", rep.Runs, rep.TrustedRuns)
+	}
+	fmt.Fprintf(w, "ledger %s: %d station chain(s), %s (%d signed, %d verified, %d unsigned), %d certificates, %d documents, %d stored files, %d audit entries\n",
+		a.ledgerPath, rep.Stations, runs, rep.Signed, rep.Verified, rep.Unsigned, rep.Certificates, rep.Documents, rep.Blobs, rep.AuditEntries)
+	if rep.OK {
+		for _, h := range since {
+			if h.Station != "" {
+				fmt.Fprintf(w, "  station %s: runs 1…%d trusted through saved head %s; runs %d…%d verified\n", h.Station, h.Seq, h.Hash, h.Seq+1, rep.HeadSeqs[h.Station])
+			} else {
+				fmt.Fprintf(w, "  audit trail: saved head %s found at entry %d; the whole trail verified\n", h.Hash, h.Seq)
+			}
+		}
+	}
 	if !rep.OK {
 		at := brokenAt(rep)
 		fmt.Fprintf(w, "BROKEN at %s: %s\n", at, rep.Reason)
@@ -394,6 +417,37 @@ func (a *auditor) ledger(ctx context.Context, e *env, headsFile, saveHeads strin
 	}
 	fmt.Fprintf(w, "saved heads %s: all %d found; the chains have only grown since\n", headsFile, len(checks))
 	return nil
+}
+
+// readHeads reads a heads file written by --save-heads.
+func readHeads(path string) ([]ledger.Head, error) {
+	f, err := os.Open(path)
+	if err != nil {
+		return nil, badInput(err)
+	}
+	defer f.Close()
+	heads, err := ledger.ParseHeads(f)
+	if err != nil {
+		return nil, badInput(fmt.Errorf("%s: %w", path, err))
+	}
+	return heads, nil
+}
+
+// checkpoint reads --since: a heads file, or else one head's hash, looked up in
+// led. A hash on no chain of led fails as a saved head not found (exit 1).
+func (a *auditor) checkpoint(ctx context.Context, w io.Writer, led *ledger.Ledger, arg string) ([]ledger.Head, error) {
+	if _, err := os.Stat(arg); err == nil || !ledger.IsHeadHash(arg) {
+		return readHeads(arg)
+	}
+	h, err := led.FindHead(ctx, arg)
+	if errors.Is(err, ledger.ErrNotFound) {
+		fmt.Fprintf(w, "SAVED HEAD NOT FOUND: %s is on no chain of %s; the ledger was rebuilt or rewritten, or the head is another ledger's\n", arg, a.ledgerPath)
+		return nil, report(rejected(fmt.Errorf("saved head %s not found: the ledger was rebuilt or rewritten", arg)))
+	}
+	if err != nil {
+		return nil, err
+	}
+	return []ledger.Head{h}, nil
 }
 
 // brokenAt says where a chain broke: the table, the run and the audit trail

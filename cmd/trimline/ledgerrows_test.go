@@ -194,3 +194,66 @@ func TestAuditVerifyComparesTheChainLink(t *testing.T) {
 		t.Fatalf("audit verify against the rebuilt ledger: exit %d, want %d ALTERED\n%s", code, exitFail, out)
 	}
 }
+
+// audit ledger --since verifies from saved heads onward: the runs recorded after
+// the heads were saved are verified (and counted), those before are trusted
+// through the heads; a changed row of a new run is still found; a saved head
+// that is not on the chain (a rebuilt ledger, an unknown hash) is refused.
+func TestAuditLedgerSince(t *testing.T) {
+	dir := t.TempDir()
+	station, sequence := writeReleasedDemo(t, dir, 1)
+	runUnits(t, dir, station, sequence, "BRX-10001", "BRX-10002")
+	led := filepath.Join(dir, "ledger.db")
+	keys := filepath.Join(dir, "keys")
+	heads := filepath.Join(t.TempDir(), "heads.txt")
+	if code, out, errOut := runCLI(t, "audit", "ledger", "--ledger", led, "--keys", keys, "--save-heads", heads); code != 0 {
+		t.Fatalf("--save-heads: exit %d\n%s%s", code, out, errOut)
+	}
+	saved, err := os.ReadFile(heads)
+	if err != nil {
+		t.Fatal(err)
+	}
+	stationHash, _, _ := strings.Cut(string(saved[len(ledger.HeadsFormat)+1:]), " ")
+	runUnits(t, dir, station, sequence, "BRX-10003", "BRX-10004")
+
+	for _, checkpoint := range []string{heads, stationHash} {
+		code, out, errOut := runCLI(t, "audit", "ledger", "--ledger", led, "--keys", keys, "--since", checkpoint)
+		if code != 0 || !strings.Contains(out, "2 runs verified after the saved heads, 2 trusted through them (2 signed, 2 verified, 0 unsigned)") ||
+			!strings.Contains(out, "runs 1…2 trusted through saved head "+stationHash+"; runs 3…4 verified") || !strings.Contains(out, "chain intact") {
+			t.Fatalf("--since %s after two more runs: exit %d\n%s%s", checkpoint, code, out, errOut)
+		}
+	}
+
+	// A reading of a new run changed through SQL is found.
+	l, err := ledger.Open(context.Background(), led)
+	if err != nil {
+		t.Fatal(err)
+	}
+	runs, err := l.Runs(context.Background(), "BRX-10004")
+	l.Close()
+	if err != nil || len(runs) != 1 {
+		t.Fatalf("runs of BRX-10004: %v %v", runs, err)
+	}
+	id := runs[0].RunID
+	if err := ledgertest.EditRow(led, "readings", "value_v = value_v + 0.01",
+		"rowid = (SELECT rowid FROM readings WHERE run_id = '"+id+"' ORDER BY rowid LIMIT 1 OFFSET 3)"); err != nil {
+		t.Fatal(err)
+	}
+	code, out, errOut := runCLI(t, "audit", "ledger", "--ledger", led, "--keys", keys, "--since", heads)
+	if code != exitFail || !strings.Contains(out, "BROKEN at table readings, run "+id+": readings: run "+id+", ") {
+		t.Fatalf("--since after a changed reading of a new run: exit %d, want %d\n%s%s", code, exitFail, out, errOut)
+	}
+
+	// A ledger rebuilt from scratch does not have the saved heads: refused.
+	again := t.TempDir()
+	station2, sequence2 := writeReleasedDemo(t, again, 1)
+	runUnits(t, again, station2, sequence2, "BRX-10001", "BRX-10002", "BRX-10003")
+	code, out, errOut = runCLI(t, "audit", "ledger", "--ledger", filepath.Join(again, "ledger.db"), "--keys", filepath.Join(again, "keys"), "--since", heads)
+	if code != exitFail || !strings.Contains(out, "is not on its chain") || strings.Contains(out, "chain intact") {
+		t.Fatalf("--since on a rebuilt ledger: exit %d, want %d\n%s%s", code, exitFail, out, errOut)
+	}
+	code, out, errOut = runCLI(t, "audit", "ledger", "--ledger", filepath.Join(again, "ledger.db"), "--keys", filepath.Join(again, "keys"), "--since", stationHash)
+	if code != exitFail || !strings.Contains(out, "SAVED HEAD NOT FOUND: "+stationHash+" is on no chain of ") {
+		t.Fatalf("--since HASH on a rebuilt ledger: exit %d, want %d\n%s%s", code, exitFail, out, errOut)
+	}
+}

@@ -42,14 +42,31 @@ func (u Unsigned) String() string {
 // that is not, in chain order, and once each station with no bound key. That the
 // signatures verify is VerifyChain's part (with Verifier(t.Keys())).
 func CheckSigners(ctx context.Context, led *ledger.Ledger, t *signing.Trust, station string) ([]Unsigned, error) {
+	return CheckSignersSince(ctx, led, t, station, nil)
+}
+
+// CheckSignersSince is CheckSigners for the runs after the saved heads since
+// (ledger.ChainOptions.Since): a run of a station with a saved head, up to that
+// head, is trusted through it and not held to the rule again. A station with no
+// trusted key is listed with its runs after its head, if it has any.
+func CheckSignersSince(ctx context.Context, led *ledger.Ledger, t *signing.Trust, station string, since []ledger.Head) ([]Unsigned, error) {
 	runs, err := led.RunSigners(ctx, station)
 	if err != nil {
 		return nil, err
+	}
+	upTo := map[string]int64{}
+	for _, h := range since {
+		if h.Station != "" {
+			upTo[h.Station] = h.Seq
+		}
 	}
 	var out []Unsigned
 	unbound := map[string]int{}
 	var order []string
 	for _, r := range runs {
+		if r.Seq > 0 && r.Seq <= upTo[r.Station] {
+			continue
+		}
 		if !t.Bound(r.Station) {
 			if unbound[r.Station] == 0 {
 				order = append(order, r.Station)

@@ -7,6 +7,8 @@ import (
 	"encoding/json"
 	"errors"
 	"fmt"
+	"maps"
+	"slices"
 	"strconv"
 	"strings"
 	"time"
@@ -58,6 +60,15 @@ type ChainOptions struct {
 	// RequireSignatures makes an unsigned run a broken link. Runs recorded without a
 	// Sign callback (by RecordRun, or before migration 0003) are unsigned.
 	RequireSignatures bool
+	// Since, if not empty, are heads saved by an earlier check (FormatHeads,
+	// ParseHeads) to verify from: each must be on its chain at its position, and
+	// the runs of its station up to it are trusted through it, not checked again
+	// (not their links, signatures, records nor rows; ChainReport.TrustedRuns). The
+	// runs after it are checked fully, the first linking to it. A station without a
+	// saved head is checked fully. An audit trail head is checked for on the trail,
+	// which is walked fully, as are the blobs, certificate numbers, documents and
+	// units. Two heads of one chain are ErrInvalid.
+	Since []Head
 }
 
 // ChainReport is VerifyChain's result.
@@ -94,6 +105,10 @@ type ChainReport struct {
 	// mailed, signed), they make a rewrite of the whole ledger evident too.
 	Heads     map[string]string
 	AuditHead string
+	// TrustedRuns counts the runs trusted through a saved head (ChainOptions.Since),
+	// not checked again and not in Runs, Signed, Verified or Unsigned.
+	TrustedRuns int
+
 	// HeadSeqs is the chain_seq of each station's head: its number of runs. The
 	// audit trail's head is entry AuditEntries. HeadList gives all heads as Heads,
 	// to save (FormatHeads) and check later (CheckHeads).
@@ -162,8 +177,17 @@ func (l *Ledger) VerifyChain(ctx context.Context, station string, opts ...ChainO
 	if err != nil {
 		return ChainReport{}, err
 	}
-	c := &chainCheck{ctx: ctx, opt: opt, station: station,
+	c := &chainCheck{ctx: ctx, opt: opt, station: station, since: map[string]Head{},
 		rep: ChainReport{Station: station, OK: true, Heads: map[string]string{}, HeadSeqs: map[string]int64{}}}
+	for _, h := range opt.Since {
+		if _, twice := c.since[h.Chain()]; twice {
+			return ChainReport{}, fmt.Errorf("ledger: verify chain: two saved heads of %s: %w", h.Chain(), ErrInvalid)
+		}
+		if h.Seq < 1 || !isSHA256Hex(h.Hash) {
+			return ChainReport{}, fmt.Errorf("ledger: verify chain: saved head %d %s of %s: %w", h.Seq, h.Hash, h.Chain(), ErrInvalid)
+		}
+		c.since[h.Chain()] = h
+	}
 	err = l.readTx(ctx, func(tx *sql.Tx) error {
 		c.tx = tx
 		for _, step := range []func() error{c.triggers, c.auditTrail, c.blobs, c.runs, c.orphanCreates, c.certificates, c.documents, c.rows} {
@@ -202,6 +226,7 @@ type chainCheck struct {
 	opt     ChainOptions
 	station string
 	rep     ChainReport
+	since   map[string]Head // ChainOptions.Since by Head.Chain()
 
 	creates    map[string]*auditRef   // run id -> create entry
 	createList []*auditRef            // create entries in trail order
@@ -309,12 +334,18 @@ func (c *chainCheck) auditTrail() error {
 		if derr != nil {
 			return c.broken("", "", e.Seq, "audit trail entry %d: %s detail is not its JSON object: %v", e.Seq, e.Action, derr)
 		}
+		if h, ok := c.since[auditTrailChain]; ok && h.Seq == e.Seq && h.Hash != e.Hash {
+			return c.broken("", "", e.Seq, "the saved head of the audit trail is not on its chain: entry %d has hash %s, the saved head %s: the trail was rebuilt or rewritten", e.Seq, e.Hash, h.Hash)
+		}
 		prev = e.Hash
 		want++
 		c.rep.AuditEntries++
 	}
 	if err := rows.Err(); err != nil {
 		return err
+	}
+	if h, ok := c.since[auditTrailChain]; ok && h.Seq > int64(c.rep.AuditEntries) {
+		return c.broken("", "", 0, "the saved head of the audit trail is not on its chain: the trail has %d entries, the saved head is entry %d (%s): it was cut back or rebuilt", c.rep.AuditEntries, h.Seq, h.Hash)
 	}
 	c.rep.AuditHead = prev
 	return nil
@@ -346,40 +377,23 @@ func (c *chainCheck) blobs() error {
 	return rows.Err()
 }
 
-// recordHeader is the part of a record that the runs row repeats.
-type recordHeader struct {
-	RunID    string    `json:"run_id"`
-	Serial   string    `json:"serial"`
-	Product  string    `json:"product"`
-	Revision string    `json:"revision"`
-	Station  string    `json:"station"`
-	Operator string    `json:"operator"`
-	Software string    `json:"software"`
-	Started  time.Time `json:"started"`
-	Finished time.Time `json:"finished"`
-	Verdict  string    `json:"verdict"`
-	Reasons  []string  `json:"reasons"`
-	Fault    string    `json:"fault"`
-	RetestOf string    `json:"retest_of"`
-}
-
 type runRow struct {
-	station                                 string
-	seq                                     sql.NullInt64
-	runID, cert, recordSHA, verdict, keyID  string
-	sig                                     []byte
-	prev, hash                              sql.NullString
-	doc                                     []byte
-	serial, product, revision, operator, sw string
-	started, finished                       string
-	fault                                   sql.NullString
-	reasons                                 string
-	retestOf                                sql.NullString
+	station                                string
+	seq                                    sql.NullInt64
+	runID, cert, recordSHA, verdict, keyID string
+	sig                                    []byte
+	prev, hash                             sql.NullString
+	serial, operator                       string
+	retestOf                               sql.NullString
 }
 
+// runs walks the chain of every station (of c.station, if set) in chain order:
+// the links, the signatures and the create entries. It reads no record_json:
+// the record of each run is decoded once, by rows, which checks it against
+// record_sha256 and the runs row.
 func (c *chainCheck) runs() error {
 	q := `SELECT station, chain_seq, run_id, coalesce(certificate, ''), record_sha256, verdict, key_id, signature,
-		chain_prev, chain_hash, record_json, serial, product, revision, operator, software, started, finished, fault, reasons, retest_of
+		chain_prev, chain_hash, serial, operator, retest_of
 		FROM runs`
 	var args []any
 	if c.station != "" {
@@ -399,25 +413,96 @@ func (c *chainCheck) runs() error {
 	for rows.Next() {
 		var r runRow
 		if err := rows.Scan(&r.station, &r.seq, &r.runID, &r.cert, &r.recordSHA, &r.verdict, &r.keyID, &r.sig,
-			&r.prev, &r.hash, &r.doc, &r.serial, &r.product, &r.revision, &r.operator, &r.sw, &r.started, &r.finished, &r.fault, &r.reasons, &r.retestOf); err != nil {
+			&r.prev, &r.hash, &r.serial, &r.operator, &r.retestOf); err != nil {
 			return err
 		}
 		if first || r.station != cur {
+			if err := c.sinceReached(cur, first, curSeq); err != nil {
+				return err
+			}
 			cur, curSeq, prev, first = r.station, 0, "", false
 			c.rep.Stations++
 		}
-		if err := c.run(&r, curSeq, prev); err != nil {
+		if trusted, err := c.trusted(&r); err != nil {
 			return err
+		} else if !trusted {
+			if err := c.run(&r, curSeq, prev); err != nil {
+				return err
+			}
+			c.rep.Runs++
 		}
-		c.rep.Runs++
 		c.rep.Heads[r.station] = r.hash.String
 		c.rep.HeadSeqs[r.station] = r.seq.Int64
 		curSeq, prev = r.seq.Int64, r.hash.String
 	}
-	return rows.Err()
+	if err := rows.Err(); err != nil {
+		return err
+	}
+	if err := c.sinceReached(cur, first, curSeq); err != nil {
+		return err
+	}
+	for _, k := range slices.Sorted(maps.Keys(c.since)) {
+		h := c.since[k]
+		_, walked := c.rep.Heads[h.Station]
+		if h.Station != "" && !walked && (c.station == "" || c.station == h.Station) {
+			return c.broken(h.Station, "", 0, "the saved head of station %q is not on its chain: the ledger has no runs of it, the saved head is run %d (%s)", h.Station, h.Seq, h.Hash)
+		}
+	}
+	return nil
 }
 
-// run checks one run, the link after (prevSeq, prev) of its station.
+// trusted reports whether r is a run trusted through its station's saved head
+// (ChainOptions.Since): one up to the head, whose own run must have its hash.
+// A trusted run's create entry counts as seen.
+func (c *chainCheck) trusted(r *runRow) (bool, error) {
+	h, ok := c.since["station "+r.station]
+	if !ok || !r.seq.Valid || r.seq.Int64 > h.Seq {
+		return false, nil
+	}
+	if r.seq.Int64 == h.Seq && r.hash.String != h.Hash {
+		return false, c.broken(r.station, r.runID, 0, "the saved head of station %q is not on its chain: run %d (%s) has hash %s, the saved head %s: the chain was rebuilt or rewritten",
+			r.station, h.Seq, r.runID, r.hash.String, h.Hash)
+	}
+	if ref := c.creates[r.runID]; ref != nil {
+		ref.seen = true
+	}
+	c.rep.TrustedRuns++
+	return true, nil
+}
+
+// sinceReached checks, after the runs of station (none yet when first), the last
+// at chain position last, that its saved head, if any, was among them.
+func (c *chainCheck) sinceReached(station string, first bool, last int64) error {
+	if first {
+		return nil
+	}
+	if h, ok := c.since["station "+station]; ok && last < h.Seq {
+		return c.broken(station, "", 0, "the saved head of station %q is not on its chain: the chain has %d runs, the saved head is run %d (%s): it was cut back or rebuilt", station, last, h.Seq, h.Hash)
+	}
+	return nil
+}
+
+// sinceFilter is the SQL condition (on a runs row) and its arguments that
+// select the runs trusted through a saved head (ChainOptions.Since); "" when
+// none are.
+func (c *chainCheck) sinceFilter() (string, []any) {
+	var when strings.Builder
+	var args []any
+	for _, k := range slices.Sorted(maps.Keys(c.since)) {
+		h := c.since[k]
+		if h.Station == "" {
+			continue
+		}
+		when.WriteString(" WHEN ? THEN ?")
+		args = append(args, h.Station, h.Seq)
+	}
+	if len(args) == 0 {
+		return "", nil
+	}
+	return "ifnull(chain_seq <= CASE station" + when.String() + " END, 0)", args
+}
+
+// run checks one run's link, the one after (prevSeq, prev) of its station.
 func (c *chainCheck) run(r *runRow, prevSeq int64, prev string) error {
 	st, id := r.station, r.runID
 	fail := func(format string, args ...any) error {
@@ -425,35 +510,6 @@ func (c *chainCheck) run(r *runRow, prevSeq int64, prev string) error {
 	}
 	if !r.seq.Valid || !r.prev.Valid || !r.hash.Valid {
 		return fail("no chain link")
-	}
-	if got := sha256Hex(r.doc); got != r.recordSHA {
-		return fail("record_json has SHA-256 %s, record_sha256 is %s", got, r.recordSHA)
-	}
-	var h recordHeader
-	if err := json.Unmarshal(r.doc, &h); err != nil {
-		return fail("record_json does not decode: %v", err)
-	}
-	reasons := h.Reasons
-	if reasons == nil {
-		reasons = []string{}
-	}
-	rj, err := canonicalJSON(reasons)
-	if err != nil {
-		return err
-	}
-	for _, f := range []struct{ name, row, rec string }{
-		{"run_id", r.runID, h.RunID}, {"serial", r.serial, h.Serial}, {"product", r.product, h.Product},
-		{"revision", r.revision, h.Revision}, {"station", r.station, h.Station}, {"operator", r.operator, h.Operator},
-		{"software", r.sw, h.Software}, {"started", r.started, formatTime(h.Started)}, {"finished", r.finished, formatTime(h.Finished)},
-		{"verdict", r.verdict, h.Verdict}, {"reasons", r.reasons, string(rj)}, {"fault", r.fault.String, h.Fault},
-		{"retest_of", r.retestOf.String, h.RetestOf},
-	} {
-		if f.row != f.rec {
-			return fail("column %s is %q, the record has %q", f.name, f.row, f.rec)
-		}
-	}
-	if r.fault.Valid && r.fault.String == "" {
-		return fail("column fault is empty instead of NULL")
 	}
 	if r.seq.Int64 != prevSeq+1 {
 		return fail("chain position %d follows %d: runs are missing or renumbered", r.seq.Int64, prevSeq)

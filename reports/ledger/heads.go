@@ -185,3 +185,30 @@ func (l *Ledger) CheckHeads(ctx context.Context, saved []Head) ([]HeadCheck, err
 	}
 	return out, nil
 }
+
+// FindHead returns the head whose hash is hash (lowercase hex): the run whose
+// chain_hash it is (its station and chain_seq), or else the audit trail entry
+// whose hash it is. ErrNotFound (wrapped) when neither has it; ErrInvalid when
+// hash is not a SHA-256 in lowercase hex.
+func (l *Ledger) FindHead(ctx context.Context, hash string) (Head, error) {
+	if !isSHA256Hex(hash) {
+		return Head{}, fmt.Errorf("ledger: find head: %q is not a SHA-256 in lowercase hex: %w", hash, ErrInvalid)
+	}
+	h := Head{Hash: hash}
+	err := l.db.QueryRowContext(ctx, `SELECT station, chain_seq FROM runs WHERE chain_hash = ?`, hash).Scan(&h.Station, &h.Seq)
+	if errors.Is(err, sql.ErrNoRows) {
+		h.Station = ""
+		err = l.db.QueryRowContext(ctx, `SELECT seq FROM audit_trail WHERE hash = ?`, hash).Scan(&h.Seq)
+	}
+	if errors.Is(err, sql.ErrNoRows) {
+		return Head{}, fmt.Errorf("ledger: find head: no run and no audit trail entry has hash %s: %w", hash, ErrNotFound)
+	}
+	if err != nil {
+		return Head{}, fmt.Errorf("ledger: find head: %w", err)
+	}
+	return h, nil
+}
+
+// IsHeadHash reports whether s has the form of a head's hash: a SHA-256 in
+// lowercase hex.
+func IsHeadHash(s string) bool { return isSHA256Hex(s) }

@@ -2,11 +2,13 @@ package ledger_test
 
 import (
 	"bytes"
+	"errors"
 	"fmt"
 	"strings"
 	"testing"
 
 	"trimline/reports/ledger"
+	"trimline/reports/ledger/ledgertest"
 	"trimline/sequencer"
 )
 
@@ -108,5 +110,69 @@ func TestParseHeadsRefusesWhatItCannotRead(t *testing.T) {
 	heads, err := ledger.ParseHeads(strings.NewReader("\r\n# c\r\n" + h + " 3 station EOL 2\r\n" + h + " 9 audit trail\r\n"))
 	if err != nil || len(heads) != 2 || heads[0].Station != "EOL 2" || heads[0].Seq != 3 || heads[1].Station != "" || heads[1].Seq != 9 {
 		t.Errorf("CRLF heads file: %+v %v", heads, err)
+	}
+}
+
+// VerifyChain with Since checks only the runs after the saved heads and trusts
+// the ones before; a changed row of a later run is found, one of an earlier run
+// is not looked at; a head that is not on its chain breaks it; two heads of one
+// chain are ErrInvalid.
+func TestVerifyChainSince(t *testing.T) {
+	l, path := openLedger(t)
+	recordRuns(t, l, 0, 4, "a") // two runs of each station
+	heads := savedHeads(t, l)
+	recordRuns(t, l, 4, 3, "a") // two more of EOL-A, one of EOL B
+
+	rep, err := l.VerifyChain(ctx, "", ledger.ChainOptions{Since: heads})
+	if err != nil || !rep.OK || rep.Runs != 3 || rep.TrustedRuns != 4 || rep.Stations != 2 ||
+		rep.HeadSeqs["EOL-A"] != 4 || rep.HeadSeqs["EOL B"] != 3 {
+		t.Fatalf("since the saved heads: %+v %v", rep, err)
+	}
+	one, err := l.FindHead(ctx, heads[1].Hash)
+	if err != nil || one != heads[1] {
+		t.Fatalf("FindHead(%s) = %+v %v, want %+v", heads[1].Hash, one, err, heads[1])
+	}
+	if rep, err := l.VerifyChain(ctx, "", ledger.ChainOptions{Since: []ledger.Head{one}}); err != nil || !rep.OK || rep.Runs != 5 || rep.TrustedRuns != 2 {
+		t.Fatalf("since the head of EOL-A alone: %+v %v", rep, err)
+	}
+	if _, err := l.FindHead(ctx, strings.Repeat("0", 64)); !errors.Is(err, ledger.ErrNotFound) {
+		t.Errorf("FindHead of no head: %v, want ErrNotFound", err)
+	}
+	if _, err := l.VerifyChain(ctx, "", ledger.ChainOptions{Since: []ledger.Head{heads[0], heads[0]}}); !errors.Is(err, ledger.ErrInvalid) {
+		t.Errorf("two heads of one chain: %v, want ErrInvalid", err)
+	}
+
+	for _, h := range []ledger.Head{
+		{Station: "EOL-A", Seq: heads[1].Seq, Hash: heads[0].Hash}, // another chain's hash
+		{Station: "EOL-A", Seq: 9, Hash: heads[1].Hash},            // beyond the chain
+		{Station: "EOL-C", Seq: 1, Hash: heads[1].Hash},            // no such station
+		{Seq: heads[2].Seq, Hash: heads[1].Hash},                   // not the trail's
+	} {
+		rep, err := l.VerifyChain(ctx, "", ledger.ChainOptions{Since: []ledger.Head{h}})
+		if err != nil || rep.OK || !strings.Contains(rep.Reason, "is not on its chain") {
+			t.Errorf("since %+v: %+v %v", h, rep, err)
+		}
+	}
+
+	// A reading changed through SQL (the trigger dropped and put back): of a run
+	// before the heads, it is not read with Since (the run is trusted through
+	// them), but found without; of a run after them, it is found.
+	edit := func(runID string) {
+		t.Helper()
+		if err := ledgertest.EditRow(path, "readings", "value_v = value_v + 1",
+			"rowid = (SELECT min(rowid) FROM readings WHERE run_id = '"+runID+"')"); err != nil {
+			t.Fatal(err)
+		}
+	}
+	edit("a-1")
+	if rep, err := l.VerifyChain(ctx, "", ledger.ChainOptions{Since: heads}); err != nil || !rep.OK {
+		t.Fatalf("a changed reading of a trusted run, with Since: %+v %v", rep, err)
+	}
+	if rep, err := l.VerifyChain(ctx, ""); err != nil || rep.OK || rep.BrokenTable != "readings" || rep.BrokenAt != "a-1" {
+		t.Fatalf("a changed reading of run a-1, without Since: %+v %v", rep, err)
+	}
+	edit("a-5")
+	if rep, err := l.VerifyChain(ctx, "", ledger.ChainOptions{Since: heads}); err != nil || rep.OK || rep.BrokenTable != "readings" || rep.BrokenAt != "a-5" {
+		t.Fatalf("a changed reading of run a-5, with Since: %+v %v", rep, err)
 	}
 }

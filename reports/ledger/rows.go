@@ -6,6 +6,8 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"runtime"
+	"slices"
 	"strconv"
 	"strings"
 
@@ -24,11 +26,28 @@ type derivedTable struct {
 	columns []string // after run_id, in the order of derivedRow.vals
 }
 
-// derivedRow is one row of a derivedTable: what it is, in words for a person
-// ("sweep pre-trim point 3 reading 2"), and its values after run_id.
+// derivedRow is one row of a derivedTable: its values after run_id, and what it
+// is (what), in words for a person ("sweep pre-trim point 3 reading 2"). The
+// words are put together only when needed, from a prefix, a name and, for a
+// reading, its point and reading index: a ledger check reads every row and
+// names at most one.
 type derivedRow struct {
-	what string
-	vals []any
+	prefix, name string
+	point, index int // a reading's; -1 for other rows
+	vals         []any
+}
+
+// what is the row in words.
+func (r derivedRow) what() string {
+	if r.point < 0 {
+		return r.prefix + r.name
+	}
+	return "sweep " + r.name + " point " + strconv.Itoa(r.point) + " reading " + strconv.Itoa(r.index)
+}
+
+// namedRow is a derivedRow other than a reading: prefix + name in words.
+func namedRow(prefix, name string, vals []any) derivedRow {
+	return derivedRow{prefix: prefix, name: name, point: -1, vals: vals}
 }
 
 // derivedTables are the tables recordRows fills, in the order it fills them.
@@ -47,19 +66,25 @@ var derivedTables = []derivedTable{
 // derivedTables.
 func recordRows(rec *sequencer.Record) ([][]derivedRow, error) {
 	out := make([][]derivedRow, len(derivedTables))
-	var rs []derivedRow
+	n := 0
+	for _, sw := range rec.Sweeps {
+		for _, pt := range sw.Points {
+			n += len(pt.Readings)
+		}
+	}
+	rs := make([]derivedRow, 0, n)
 	for _, sw := range rec.Sweeps {
 		for pi, pt := range sw.Points {
 			for ri, r := range pt.Readings {
-				rs = append(rs, derivedRow{"sweep " + sw.Name + " point " + strconv.Itoa(pi) + " reading " + strconv.Itoa(ri),
-					[]any{sw.Name, pi, ri, realOrNull(pt.Stimulus), realOrNull(r.Value), r.Flag.String(), formatTime(r.Time)}})
+				rs = append(rs, derivedRow{name: sw.Name, point: pi, index: ri,
+					vals: []any{sw.Name, pi, ri, realOrNull(pt.Stimulus), realOrNull(r.Value), r.Flag.String(), formatTime(r.Time)}})
 			}
 		}
 	}
 	out[0] = rs
 	for _, r := range rec.Results {
-		out[1] = append(out[1], derivedRow{"result " + r.Name,
-			append([]any{r.Name, realOrNull(r.Value), r.Unit, r.Valid, r.Note}, uncertaintyArgs(r.Unc)...)})
+		out[1] = append(out[1], namedRow("result ", r.Name,
+			append([]any{r.Name, realOrNull(r.Value), r.Unit, r.Valid, r.Note}, uncertaintyArgs(r.Unc)...)))
 	}
 	for _, o := range rec.Outcomes {
 		vals := o.Values
@@ -70,26 +95,26 @@ func recordRows(rec *sequencer.Record) ([][]derivedRow, error) {
 		if err != nil {
 			return nil, fmt.Errorf("limit %s: values: %w", o.Name, err)
 		}
-		out[2] = append(out[2], derivedRow{"limit " + o.Name,
-			append([]any{o.Name, o.Expr, o.Unit, o.Pass, o.Reason, string(vj)}, decisionArgs(o.Decision)...)})
+		out[2] = append(out[2], namedRow("limit ", o.Name,
+			append([]any{o.Name, o.Expr, o.Unit, o.Pass, o.Reason, string(vj)}, decisionArgs(o.Decision)...)))
 	}
 	for _, f := range rec.Fits {
 		cj, err := canonicalJSON(f.Cov)
 		if err != nil {
 			return nil, fmt.Errorf("fit of %s: covariance: %w", f.Sweep, err)
 		}
-		out[3] = append(out[3], derivedRow{"fit of sweep " + f.Sweep,
-			[]any{f.Sweep, realOrNull(f.Slope), realOrNull(f.Intercept), realOrNull(f.ResidualSD), f.DOF, realOrNull(f.Nonlinearity), string(cj)}})
+		out[3] = append(out[3], namedRow("fit of sweep ", f.Sweep,
+			[]any{f.Sweep, realOrNull(f.Slope), realOrNull(f.Intercept), realOrNull(f.ResidualSD), f.DOF, realOrNull(f.Nonlinearity), string(cj)}))
 	}
 	for _, t := range rec.Trims {
-		out[4] = append(out[4], derivedRow{"trim DAC " + t.DAC,
-			[]any{t.DAC, t.Before, t.Code, realOrNull(t.Ideal), t.Readback, t.Saturated, t.Stored}})
+		out[4] = append(out[4], namedRow("trim DAC ", t.DAC,
+			[]any{t.DAC, t.Before, t.Code, realOrNull(t.Ideal), t.Readback, t.Saturated, t.Stored}))
 	}
 	for _, f := range rec.Files {
-		out[5] = append(out[5], derivedRow{f.Kind + " file " + f.Name, []any{f.Kind, f.Name, f.Title, f.SHA256}})
+		out[5] = append(out[5], namedRow(f.Kind+" file ", f.Name, []any{f.Kind, f.Name, f.Title, f.SHA256}))
 	}
 	for _, in := range rec.Instruments {
-		out[6] = append(out[6], derivedRow{"instrument " + in.Role, []any{in.Role, in.Address, in.Asset, in.CalDue, in.Identity.String()}})
+		out[6] = append(out[6], namedRow("instrument ", in.Role, []any{in.Role, in.Address, in.Asset, in.CalDue, in.Identity.String()}))
 	}
 	return out, nil
 }
@@ -237,7 +262,7 @@ func storeRows(ctx context.Context, tx *sql.Tx, rec *sequencer.Record) error {
 		for _, r := range rows {
 			if _, err := st.ExecContext(ctx, append([]any{rec.RunID}, r.vals...)...); err != nil {
 				st.Close()
-				return fmt.Errorf("%s: %s: %w", t.name, r.what, err)
+				return fmt.Errorf("%s: %s: %w", t.name, r.what(), err)
 			}
 		}
 		st.Close()
@@ -312,7 +337,8 @@ type tableCursor struct {
 	rowid  int64
 	runID  string
 	vals   []any
-	ok     bool // a row is held
+	dest   []any // Scan's destinations: rowid, runID, then vals
+	ok     bool  // a row is held
 	closed bool
 }
 
@@ -325,13 +351,14 @@ func (c *tableCursor) next() error {
 		c.closed = true
 		return c.rows.Err()
 	}
-	c.vals = make([]any, len(c.t.columns))
-	dest := make([]any, 0, len(c.vals)+2)
-	dest = append(dest, &c.rowid, &c.runID)
-	for i := range c.vals {
-		dest = append(dest, &c.vals[i])
+	if c.dest == nil { // the same destinations for every row: a row is compared before the next is read
+		c.vals = make([]any, len(c.t.columns))
+		c.dest = append(make([]any, 0, len(c.vals)+2), &c.rowid, &c.runID)
+		for i := range c.vals {
+			c.dest = append(c.dest, &c.vals[i])
+		}
 	}
-	if err := c.rows.Scan(dest...); err != nil {
+	if err := c.rows.Scan(c.dest...); err != nil {
 		return err
 	}
 	c.ok = true
@@ -343,9 +370,29 @@ func (c *tableCursor) next() error {
 // the signed record_json, run by run in run id order; then rows whose run is not
 // in the ledger. It reports the first difference with its table, run and column.
 func (c *chainCheck) rows() error {
-	where, args := "", []any(nil)
+	// The runs checked: those of c.station (all when ""), but for those trusted
+	// through a saved head (sinceFilter). A row whose run is not in the ledger is
+	// read either way.
+	var conds []string
+	var args []any
 	if c.station != "" {
-		where, args = " WHERE run_id IN (SELECT run_id FROM runs WHERE station = ?)", []any{c.station}
+		conds, args = append(conds, "station = ?"), append(args, c.station)
+	}
+	if cond, a := c.sinceFilter(); cond != "" {
+		// station >= '' lets SQLite find the runs by the index on (station,
+		// chain_seq), without reading the rows of those it skips.
+		conds, args = append(conds, "station >= '' AND NOT ("+cond+")"), append(args, a...)
+	}
+	where := ""
+	if len(conds) > 0 {
+		where = " WHERE run_id IN (SELECT run_id FROM runs WHERE " + strings.Join(conds, " AND ") + ")"
+	}
+	if c.station == "" && where != "" {
+		// The cursors read only the rows of the runs checked: look for rows
+		// whose run is not in the ledger apart.
+		if err := c.orphanRows(); err != nil {
+			return err
+		}
 	}
 	curs := make([]*tableCursor, len(derivedTables))
 	for i, t := range derivedTables {
@@ -359,28 +406,41 @@ func (c *chainCheck) rows() error {
 			return err
 		}
 	}
-	q := "SELECT station, record_json, " + strings.Join(runColumns, ", ") + " FROM runs"
-	if c.station != "" {
-		q += " WHERE station = ?"
+	q := "SELECT station, record_sha256, record_json, " + strings.Join(runColumns, ", ") + " FROM runs"
+	if len(conds) > 0 {
+		q += " WHERE " + strings.Join(conds, " AND ")
 	}
 	runs, err := c.tx.QueryContext(c.ctx, q+" ORDER BY run_id", args...)
 	if err != nil {
 		return err
 	}
 	defer runs.Close()
-	for runs.Next() {
-		var st string
-		var doc []byte
-		got := make([]any, len(runColumns))
-		dest := []any{&st, &doc}
-		for i := range got {
-			dest = append(dest, &got[i])
+	// Each run's record is decoded (decodeRun) in a goroutine of its own, a few
+	// runs ahead of the one whose rows are compared, in run id order.
+	ahead := 2 * runtime.GOMAXPROCS(0)
+	var queue []*decodedRun
+	for {
+		for len(queue) < ahead && runs.Next() {
+			d := &decodedRun{got: make([]any, len(runColumns)), done: make(chan struct{})}
+			var doc []byte
+			dest := []any{&d.station, &d.sum, &doc}
+			for i := range d.got {
+				dest = append(dest, &d.got[i])
+			}
+			if err := runs.Scan(dest...); err != nil {
+				return err
+			}
+			d.id, _ = sqlValue(d.got[0]).(string)
+			go d.decode(doc)
+			queue = append(queue, d)
 		}
-		if err := runs.Scan(dest...); err != nil {
-			return err
+		if len(queue) == 0 {
+			break
 		}
-		id, _ := sqlValue(got[0]).(string)
-		if err := c.runRows(st, id, doc, got, curs); err != nil {
+		d := queue[0]
+		queue = queue[1:]
+		<-d.done
+		if err := c.runRows(d, curs); err != nil {
 			return err
 		}
 	}
@@ -398,14 +458,79 @@ func (c *chainCheck) rows() error {
 	return c.units()
 }
 
-// runRows checks the runs row and the derived rows of one run.
-func (c *chainCheck) runRows(st, id string, doc []byte, got []any, curs []*tableCursor) error {
-	rec := new(sequencer.Record)
-	if err := decodeCanonical(doc, rec); err != nil {
-		return c.broken(st, id, 0, "station %q, run %s: record_json does not decode: %v", st, id, err)
+// orphanRows reports the first row of a derivedTable whose run is not in the
+// ledger, for a check whose cursors read only some runs' rows.
+func (c *chainCheck) orphanRows() error {
+	for _, t := range derivedTables {
+		var rowid int64
+		var runID string
+		err := c.tx.QueryRowContext(c.ctx, "SELECT rowid, run_id FROM "+t.name+" WHERE run_id NOT IN (SELECT run_id FROM runs) LIMIT 1").Scan(&rowid, &runID)
+		if errors.Is(err, sql.ErrNoRows) {
+			continue
+		}
+		if err != nil {
+			return err
+		}
+		return c.brokenRow(t.name, "", runID, "row %d belongs to run %s, which is not in the ledger", rowid, runID)
 	}
-	rj, err := reasonsJSON(rec)
-	if err != nil {
+	return nil
+}
+
+// decodedRun is a run of the rows check: its runs row (station, id, its
+// record_sha256 sum, and got, the columns of runColumns) and what decode made of
+// its record_json, ready when done is closed.
+type decodedRun struct {
+	station, id, sum string
+	got              []any
+	done             chan struct{}
+
+	docSum       string // SHA-256 of record_json
+	rec          *sequencer.Record
+	decodeErr    error
+	reasons      string
+	reasonsErr   error
+	all          [][]derivedRow
+	recordRowErr error
+}
+
+// decode decodes doc, the run's record_json, and derives its rows, then closes
+// d.done. It touches nothing but d.
+func (d *decodedRun) decode(doc []byte) {
+	defer close(d.done)
+	d.docSum = sha256Hex(doc)
+	if d.docSum != d.sum {
+		return
+	}
+	rec := new(sequencer.Record)
+	if d.decodeErr = decodeCanonical(doc, rec); d.decodeErr != nil {
+		return
+	}
+	d.rec = rec
+	if d.reasons, d.reasonsErr = reasonsJSON(rec); d.reasonsErr != nil {
+		return
+	}
+	d.all, d.recordRowErr = recordRows(rec)
+}
+
+// runRows checks one run's signed record and rows, its record_json decoded
+// once (decodedRun): the record hashes to its record_sha256; the runs row's
+// columns are the record's; and the derived rows are recordRows'.
+func (c *chainCheck) runRows(d *decodedRun, curs []*tableCursor) error {
+	st, id, got := d.station, d.id, d.got
+	fail := func(format string, args ...any) error {
+		return c.broken(st, id, 0, "station %q, run %s: %s", st, id, fmt.Sprintf(format, args...))
+	}
+	if d.docSum != d.sum {
+		return fail("record_json has SHA-256 %s, record_sha256 is %s", d.docSum, d.sum)
+	}
+	if d.decodeErr != nil {
+		return fail("record_json does not decode: %v", d.decodeErr)
+	}
+	rec, rj := d.rec, d.reasons
+	if d.reasonsErr != nil {
+		return d.reasonsErr
+	}
+	if err := c.header(fail, rec, rj, got); err != nil {
 		return err
 	}
 	for i, want := range runColumnValues(rec, rj) {
@@ -414,7 +539,7 @@ func (c *chainCheck) runRows(st, id string, doc []byte, got []any, curs []*table
 				id, runColumns[i], showValue(got[i]), showValue(want))
 		}
 	}
-	all, err := recordRows(rec)
+	all, err := d.all, d.recordRowErr
 	if err != nil {
 		return c.broken(st, id, 0, "station %q, run %s: %v", st, id, err)
 	}
@@ -434,7 +559,7 @@ func (c *chainCheck) runRows(st, id string, doc []byte, got []any, curs []*table
 			for k, col := range cur.t.columns {
 				if !sameValue(cur.vals[k], w.vals[k]) {
 					return c.brokenRow(name, col, id, "run %s, %s: %s is %s in the table, %s in the signed record",
-						id, w.what, col, showValue(cur.vals[k]), showValue(w.vals[k]))
+						id, w.what(), col, showValue(cur.vals[k]), showValue(w.vals[k]))
 				}
 			}
 			if err := cur.next(); err != nil {
@@ -442,8 +567,31 @@ func (c *chainCheck) runRows(st, id string, doc []byte, got []any, curs []*table
 			}
 		}
 		if n < len(want) {
-			return c.brokenRow(name, "", id, "run %s, %s: no row; the signed record has %d, the table %d", id, want[n].what, len(want), n)
+			return c.brokenRow(name, "", id, "run %s, %s: no row; the signed record has %d, the table %d", id, want[n].what(), len(want), n)
 		}
+	}
+	return nil
+}
+
+// headerColumns are the runs columns that name the run, as the chain has always
+// checked them first (before the other columns of runColumns), with their words.
+var headerColumns = []string{"run_id", "serial", "product", "revision", "station", "operator", "software",
+	"started", "finished", "verdict", "reasons", "fault", "retest_of"}
+
+// header checks the runs row's columns that name the run (got, in runColumns
+// order) against rec: each is the record's, and fault is NULL rather than empty.
+func (c *chainCheck) header(fail func(string, ...any) error, rec *sequencer.Record, reasons string, got []any) error {
+	want := runColumnValues(rec, reasons)
+	for _, name := range headerColumns {
+		i := slices.Index(runColumns, name)
+		row, _ := sqlValue(got[i]).(string) // NULL is ""
+		rec, _ := sqlValue(want[i]).(string)
+		if row != rec {
+			return fail("column %s is %q, the record has %q", name, row, rec)
+		}
+	}
+	if f := sqlValue(got[slices.Index(runColumns, "fault")]); f == "" {
+		return fail("column fault is empty instead of NULL")
 	}
 	return nil
 }

@@ -8,6 +8,7 @@ import (
 // RunSigner is who signed a run, as RunSigners lists it.
 type RunSigner struct {
 	Station, RunID, Serial string
+	Seq                    int64  // its chain_seq: its position on the station's chain
 	Certificate            string // "" for a run without one
 	KeyID                  string // "" for an unsigned run
 }
@@ -19,7 +20,7 @@ type RunSigner struct {
 // chain's and that the signatures verify. It returns an empty slice when there
 // are no runs.
 func (l *Ledger) RunSigners(ctx context.Context, station string) ([]RunSigner, error) {
-	q := `SELECT station, run_id, serial, coalesce(certificate, ''), key_id FROM runs`
+	q := `SELECT station, run_id, serial, coalesce(chain_seq, 0), coalesce(certificate, ''), key_id FROM runs`
 	var args []any
 	if station != "" {
 		q += ` WHERE station = ?`
@@ -29,7 +30,7 @@ func (l *Ledger) RunSigners(ctx context.Context, station string) ([]RunSigner, e
 	rows, err := l.db.QueryContext(ctx, q, args...)
 	out, err := collect(rows, err, func(r scanner) (RunSigner, error) {
 		var s RunSigner
-		err := r.Scan(&s.Station, &s.RunID, &s.Serial, &s.Certificate, &s.KeyID)
+		err := r.Scan(&s.Station, &s.RunID, &s.Serial, &s.Seq, &s.Certificate, &s.KeyID)
 		return s, err
 	})
 	if err != nil {
