@@ -226,7 +226,19 @@ func certOptions(rec *sequencer.Record, meta ledger.RunMeta) certificate.Options
 // entry alone: its options and its exact bytes. Issue, Repair and Reprint all
 // render through it, so a certificate rendered again is byte-identical.
 func render(rec *sequencer.Record, meta ledger.RunMeta) (certificate.Options, []byte, error) {
-	opt := certOptions(rec, meta)
+	return renderWith(rec, certOptions(rec, meta))
+}
+
+// earlierLayouts turn the options of the current layout into those of a layout
+// certificates were issued in before, newest first, so that a certificate issued
+// then is rendered again exactly as it was: before certificates printed their run's
+// chain link, they carried none.
+var earlierLayouts = []func(certificate.Options) certificate.Options{
+	func(o certificate.Options) certificate.Options { o.ChainLink, o.ChainSeq = "", 0; return o },
+}
+
+// renderWith renders the certificate of rec with opt.
+func renderWith(rec *sequencer.Record, opt certificate.Options) (certificate.Options, []byte, error) {
 	var buf bytes.Buffer
 	if err := certificate.Write(&buf, rec, opt); err != nil {
 		return opt, nil, err

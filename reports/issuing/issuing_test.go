@@ -3,6 +3,8 @@ package issuing_test
 import (
 	"bytes"
 	"context"
+	"crypto/sha256"
+	"encoding/hex"
 	"errors"
 	"io/fs"
 	"os"
@@ -205,5 +207,56 @@ func TestReprintRefusesOtherBytes(t *testing.T) {
 	}
 	if _, err := issuing.Reprint(ctx, led, "TL1-999999", out); !errors.Is(err, ledger.ErrNotFound) {
 		t.Errorf("unknown number: %v, want ErrNotFound", err)
+	}
+}
+
+// A certificate issued before certificates printed their run's chain link is
+// rendered again in that earlier layout, byte for byte.
+func TestReprintEarlierLayout(t *testing.T) {
+	ctx := context.Background()
+	dir := t.TempDir()
+	st, seq := demoFiles(t, dir)
+	eng, err := sequencer.Open(ctx, sequencer.Config{Station: st, Sequence: seq, Operator: "test", Software: "test"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer eng.Close()
+	rec := eng.Run(ctx, "BRX-00001")
+	led, err := ledger.Open(ctx, filepath.Join(dir, "ledger.db"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer led.Close()
+	is := &issuing.Issuer{Ledger: led, Station: st, Sequence: seq, CertDir: dir}
+	cert, err := is.Record(ctx, rec)
+	if err != nil || cert == "" {
+		t.Fatalf("record: %q, %v", cert, err)
+	}
+	stored, meta, err := led.RunByCertificate(ctx, cert)
+	if err != nil || meta.ChainHash == "" {
+		t.Fatalf("run: %+v %v", meta, err)
+	}
+	// The same certificate as a station issued it before chain links were printed.
+	opt := certificate.Options{Number: cert, RecordSHA256: meta.RecordSHA256}
+	for _, in := range stored.Instruments {
+		if in.Role == "dut" && in.Identity.Maker != "0" {
+			opt.Maker = in.Identity.Maker
+		}
+	}
+	var old bytes.Buffer
+	if err := certificate.Write(&old, stored, opt); err != nil {
+		t.Fatal(err)
+	}
+	sum := sha256.Sum256(old.Bytes())
+	out := filepath.Join(dir, "earlier.pdf")
+	if err := led.AddSignedDocument(ctx, ledger.Document{RunID: rec.RunID, Number: cert, Path: out, SHA256: hex.EncodeToString(sum[:]), Size: int64(old.Len())}); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := issuing.Reprint(ctx, led, cert, out); err != nil {
+		t.Fatalf("reprint in the earlier layout: %v", err)
+	}
+	got, err := os.ReadFile(out)
+	if err != nil || !bytes.Equal(got, old.Bytes()) {
+		t.Errorf("the reprint is not the certificate issued in the earlier layout (%d bytes, want %d): %v", len(got), old.Len(), err)
 	}
 }
