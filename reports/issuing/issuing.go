@@ -352,6 +352,16 @@ func (is *Issuer) repair(ctx context.Context, cert string) (bool, error) {
 	if need, err := is.unpublished(ctx, cert); err != nil || !need {
 		return false, err
 	}
+	// A certificate whose document is recorded but whose file or seal was lost
+	// is written back as it was issued (in whatever layout it was issued in), with
+	// no new document; only one never published is published now.
+	if docs, err := is.Ledger.DocumentsFor(ctx, cert); err != nil {
+		return false, err
+	} else if len(docs) > 0 {
+		if _, err := reprint(ctx, is.Ledger, cert, "", false); !errors.Is(err, ErrNotIdentical) {
+			return err == nil, err
+		}
+	}
 	if meta.KeyID != "" && (is.Key == nil || is.Key.ID() != meta.KeyID) {
 		return false, fmt.Errorf("it was sealed with key %s, which this station does not hold", meta.KeyID)
 	}

@@ -259,4 +259,16 @@ func TestReprintEarlierLayout(t *testing.T) {
 	if err != nil || !bytes.Equal(got, old.Bytes()) {
 		t.Errorf("the reprint is not the certificate issued in the earlier layout (%d bytes, want %d): %v", len(got), old.Len(), err)
 	}
+
+	// Lost again, the start-up repair writes it back the same way, and records no
+	// new document.
+	os.Remove(out)
+	before, _ := led.DocumentsFor(ctx, cert)
+	if n, err := is.Repair(ctx); err != nil || n != 1 {
+		t.Fatalf("repair: %d, %v; want 1 certificate written back", n, err)
+	}
+	after, _ := led.DocumentsFor(ctx, cert)
+	if got, err := os.ReadFile(out); err != nil || !bytes.Equal(got, old.Bytes()) || len(after) != len(before) {
+		t.Errorf("repair of a lost earlier-layout certificate: %d bytes (want %d), documents %d → %d: %v", len(got), old.Len(), len(before), len(after), err)
+	}
 }

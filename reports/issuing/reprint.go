@@ -50,6 +50,12 @@ type Reprinted struct {
 // ErrNotPublished; ErrNotIdentical; ledger.ErrCorrupt for a stored record that
 // does not match its hash; file system errors as they are.
 func Reprint(ctx context.Context, led *ledger.Ledger, number, path string) (Reprinted, error) {
+	return reprint(ctx, led, number, path, true)
+}
+
+// reprint is Reprint; with lease false the caller already holds the run's lease
+// (the start-up repair).
+func reprint(ctx context.Context, led *ledger.Ledger, number, path string, lease bool) (Reprinted, error) {
 	fail := func(err error) (Reprinted, error) { return Reprinted{}, fmt.Errorf("reprint %s: %w", number, err) }
 	rec, meta, err := led.RunByCertificate(ctx, number)
 	if err != nil {
@@ -98,14 +104,16 @@ func Reprint(ctx context.Context, led *ledger.Ledger, number, path string) (Repr
 	}
 	// Hold the run while its files are written, so that a station starting up
 	// meanwhile neither repairs it nor removes the temporary files as stale.
-	rl, err := claimLease(ctx, led, meta.RunID)
-	if err != nil {
-		return fail(err)
+	if lease {
+		rl, err := claimLease(ctx, led, meta.RunID)
+		if err != nil {
+			return fail(err)
+		}
+		if rl == nil {
+			return fail(fmt.Errorf("run %s is being published by another process right now; try again when it is done", meta.RunID))
+		}
+		defer rl.release()
 	}
-	if rl == nil {
-		return fail(fmt.Errorf("run %s is being published by another process right now; try again when it is done", meta.RunID))
-	}
-	defer rl.release()
 	if err := atomicfile.Write(path, pdf, 0o644); err != nil {
 		return fail(err)
 	}
