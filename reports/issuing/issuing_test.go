@@ -166,28 +166,36 @@ func TestTestedBeforeMessageStaysShort(t *testing.T) {
 	}
 }
 
-// Reprint writes nothing when the certificate rendered again is not the document
-// the ledger recorded, and refuses a number no run has.
-func TestReprintRefusesOtherBytes(t *testing.T) {
+// issuedUnit runs one demo unit in a fresh folder and issues its certificate
+// through an Issuer without a key, on a ledger closed when the test ends.
+func issuedUnit(t *testing.T) (dir string, led *ledger.Ledger, is *issuing.Issuer, rec *sequencer.Record, cert string) {
+	t.Helper()
 	ctx := context.Background()
-	dir := t.TempDir()
+	dir = t.TempDir()
 	st, seq := demoFiles(t, dir)
 	eng, err := sequencer.Open(ctx, sequencer.Config{Station: st, Sequence: seq, Operator: "test", Software: "test"})
 	if err != nil {
 		t.Fatal(err)
 	}
 	defer eng.Close()
-	rec := eng.Run(ctx, "BRX-00001")
-	led, err := ledger.Open(ctx, filepath.Join(dir, "ledger.db"))
+	rec = eng.Run(ctx, "BRX-00001")
+	led, err = ledger.Open(ctx, filepath.Join(dir, "ledger.db"))
 	if err != nil {
 		t.Fatal(err)
 	}
-	defer led.Close()
-	is := &issuing.Issuer{Ledger: led, Station: st, Sequence: seq, CertDir: dir}
-	cert, err := is.Record(ctx, rec)
-	if err != nil || cert == "" {
+	t.Cleanup(func() { led.Close() })
+	is = &issuing.Issuer{Ledger: led, Station: st, Sequence: seq, CertDir: dir}
+	if cert, err = is.Record(ctx, rec); err != nil || cert == "" {
 		t.Fatalf("record: %q, %v", cert, err)
 	}
+	return dir, led, is, rec, cert
+}
+
+// Reprint writes nothing when the certificate rendered again is not the document
+// the ledger recorded, and refuses a number no run has.
+func TestReprintRefusesOtherBytes(t *testing.T) {
+	ctx := context.Background()
+	dir, led, _, rec, cert := issuedUnit(t)
 	out := filepath.Join(dir, "copy.pdf")
 	r, err := issuing.Reprint(ctx, led, cert, out)
 	if err != nil || r.Seal != "" {
@@ -214,24 +222,7 @@ func TestReprintRefusesOtherBytes(t *testing.T) {
 // rendered again in that earlier layout, byte for byte.
 func TestReprintEarlierLayout(t *testing.T) {
 	ctx := context.Background()
-	dir := t.TempDir()
-	st, seq := demoFiles(t, dir)
-	eng, err := sequencer.Open(ctx, sequencer.Config{Station: st, Sequence: seq, Operator: "test", Software: "test"})
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer eng.Close()
-	rec := eng.Run(ctx, "BRX-00001")
-	led, err := ledger.Open(ctx, filepath.Join(dir, "ledger.db"))
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer led.Close()
-	is := &issuing.Issuer{Ledger: led, Station: st, Sequence: seq, CertDir: dir}
-	cert, err := is.Record(ctx, rec)
-	if err != nil || cert == "" {
-		t.Fatalf("record: %q, %v", cert, err)
-	}
+	dir, led, is, rec, cert := issuedUnit(t)
 	stored, meta, err := led.RunByCertificate(ctx, cert)
 	if err != nil || meta.ChainHash == "" {
 		t.Fatalf("run: %+v %v", meta, err)
