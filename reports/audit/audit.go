@@ -105,7 +105,7 @@ func Certificate(ctx context.Context, led *ledger.Ledger, ledgerName, path strin
 	doc, err := led.DocumentBySHA(ctx, pdfSHA)
 	if errors.Is(err, ledger.ErrNotFound) {
 		if number != "" {
-			if _, _, err := led.RunByCertificate(ctx, number); err == nil {
+			if _, err := led.RunIDOfCertificate(ctx, number); err == nil {
 				return verdict(Altered, fmt.Sprintf("the ledger issued %s, but no document of it has this file's SHA-256 %s", number, pdfSHA[:16])), nil
 			}
 			return verdict(Unknown, fmt.Sprintf("%s is not a certificate of the ledger %s", number, ledgerName)), nil

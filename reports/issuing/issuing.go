@@ -353,8 +353,9 @@ func (is *Issuer) repair(ctx context.Context, cert string) (bool, error) {
 		return false, err
 	}
 	// A certificate whose document is recorded but whose file or seal was lost
-	// is written back as it was issued (in whatever layout it was issued in), with
-	// no new document; only one never published is published now.
+	// is written back as it was issued (in a layout Reprint knows), with no new
+	// document. One never published, or one whose issued bytes cannot be rendered
+	// again (a layout Reprint does not know), is published now as a new document.
 	if docs, err := is.Ledger.DocumentsFor(ctx, cert); err != nil {
 		return false, err
 	} else if len(docs) > 0 {

@@ -68,7 +68,8 @@ func (is *Issuer) claim(ctx context.Context, runID string) (*runLease, error) {
 func claimLease(ctx context.Context, led *ledger.Ledger, runID string) (*runLease, error) {
 	le := holder()
 	le.RunID = runID
-	le.Expires = time.Now().Add(leaseFor)
+	le.Started = time.Now().UTC() // holder's Started is the process's; a lease's is its own
+	le.Expires = le.Started.Add(leaseFor)
 	ok, err := led.ClaimLease(ctx, le, held)
 	if err != nil || !ok {
 		return nil, err

@@ -69,7 +69,10 @@ func (l *Ledger) Locate(stored string) string {
 		}
 	}
 	for _, c := range cands {
-		if fi, err := os.Stat(filepath.Dir(c.path)); c.folder && err == nil && fi.IsDir() {
+		if !c.folder {
+			continue
+		}
+		if fi, err := os.Stat(filepath.Dir(c.path)); err == nil && fi.IsDir() {
 			return c.path
 		}
 	}

@@ -371,8 +371,8 @@ func (c *tableCursor) next() error {
 // in the ledger. It reports the first difference with its table, run and column.
 func (c *chainCheck) rows() error {
 	// The runs checked: those of c.station (all when ""), but for those trusted
-	// through a saved head (sinceFilter). A row whose run is not in the ledger is
-	// read either way.
+	// through a saved head (sinceFilter). Rows whose run is not in the ledger are
+	// looked for only when every station is checked.
 	var conds []string
 	var args []any
 	if c.station != "" {
