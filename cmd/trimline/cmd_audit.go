@@ -138,6 +138,9 @@ given, must agree with it. The certificate stays in the ledger and the audit tra
 		if len(args) != 1 || *reason == "" || *keyPath == "" {
 			return usagef("usage: %s", c.UsageLine)
 		}
+		if err := a.needTrust("who may void " + args[0]); err != nil {
+			return err
+		}
 		approvers, err := a.trust()
 		if err != nil {
 			return err
@@ -249,11 +252,8 @@ func (a *auditor) trust() (*signing.Trust, error) {
 // admitDir offers every *.pub in dir to t.Admit; a file that is not a key is
 // skipped (nothing there is trusted on its own).
 func admitDir(t *signing.Trust, dir string) {
-	matches, _ := filepath.Glob(filepath.Join(dir, "*.pub"))
-	for _, p := range matches {
-		if pub, err := signing.LoadPublic(p); err == nil {
-			t.Admit(pub)
-		}
+	for _, f := range signing.PublicKeysIn(dir) {
+		t.Admit(f.Key)
 	}
 }
 

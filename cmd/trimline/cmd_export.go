@@ -45,12 +45,7 @@ its seal, and the station's public key. Every member's hash is in the manifest;
 			}
 			if d.KeyID != "" {
 				// The station's public key lives in the keys folder beside the ledger.
-				dir := filepath.Join(led.Dir(), "keys")
-				if keys, err := signing.LoadPublicDir(dir); err == nil {
-					if _, ok := keys[d.KeyID]; ok {
-						opt.PublicKeyPath = findPub(dir, d.KeyID)
-					}
-				}
+				opt.PublicKeyPath = findPub(filepath.Join(led.Dir(), "keys"), d.KeyID)
 			}
 		}
 		var buf bytes.Buffer
@@ -73,10 +68,9 @@ its seal, and the station's public key. Every member's hash is in the manifest;
 
 // findPub returns the .pub file in dir whose key has the given id.
 func findPub(dir, id string) string {
-	matches, _ := filepath.Glob(filepath.Join(dir, "*.pub"))
-	for _, p := range matches {
-		if k, err := signing.LoadPublic(p); err == nil && signing.KeyID(k) == id {
-			return p
+	for _, f := range signing.PublicKeysIn(dir) {
+		if signing.KeyID(f.Key) == id {
+			return f.Path
 		}
 	}
 	return ""

@@ -8,6 +8,7 @@ import (
 	"strings"
 
 	"trimline/instruments/files"
+	"trimline/limits"
 	"trimline/reports/ledger"
 	"trimline/reports/release"
 	"trimline/reports/signing"
@@ -56,17 +57,21 @@ with the physical ranges of the product's sequence when --sequence names it.`,
 				return badInput(err)
 			}
 		}
+		// The bytes checked are the bytes hashed and signed: data, read once.
+		var cerr error
 		switch kind {
 		case release.KindLimits:
-			if _, err := loadLimitSet(pos[0]); err != nil && *decision == release.Approve {
-				return err
-			}
+			_, cerr = limits.Load(pos[0], data, sequencer.ResultCatalog)
 		case release.KindSequence:
-			if _, err := sequencer.LoadSequence(pos[0]); err != nil && *decision == release.Approve {
-				return badInput(err)
-			}
+			_, cerr = sequencer.ParseSequence(pos[0], data, files.ReadFile)
 		default:
 			return fmt.Errorf("%s: %w", pos[0], release.ErrNotReleasable)
+		}
+		if cerr != nil && *decision == release.Approve {
+			if fe := files.Errs(cerr); fe != nil {
+				return badInput(detailed(fe))
+			}
+			return badInput(cerr)
 		}
 		lp, keys := *ledgerPath, *trustPath
 		if *stationPath != "" {

@@ -377,3 +377,24 @@ func checkWritable(path, what string) error {
 	}
 	return nil
 }
+
+// PublicKeyFile is a public key found in a folder, with its file.
+type PublicKeyFile struct {
+	Path string
+	Key  ed25519.PublicKey
+}
+
+// PublicKeysIn lists the readable public keys (*.pub) in dir, sorted by file
+// name; files that are not keys are skipped. Nothing it finds is trusted: a caller
+// offers them to Trust.Admit, or looks one up by KeyID.
+func PublicKeysIn(dir string) []PublicKeyFile {
+	matches, _ := filepath.Glob(filepath.Join(dir, "*.pub"))
+	sort.Strings(matches)
+	var out []PublicKeyFile
+	for _, p := range matches {
+		if k, err := LoadPublic(p); err == nil {
+			out = append(out, PublicKeyFile{Path: p, Key: k})
+		}
+	}
+	return out
+}
