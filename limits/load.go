@@ -47,7 +47,8 @@ type limitForm struct {
 }
 
 // LoadFile reads the limit file at path and loads it with Load, naming it path in
-// the Set and in messages. A read error is returned as it came from os.ReadFile.
+// the Set and in messages. The file is read with files.ReadFile: one larger than its
+// bound is a positioned *files.Error, a read error comes back wrapped with the path.
 func LoadFile(path string, cat Catalog) (*Set, error) {
 	data, err := files.ReadFile(path)
 	if err != nil {

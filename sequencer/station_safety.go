@@ -71,7 +71,7 @@ func caps(doc *files.Doc, v *units.Voltage, a *units.Current, r Rating, errs *fi
 	return volts, amps
 }
 
-func positiveFinite(v float64) bool { return v > 0 && !math.IsInf(v, 0) && !math.IsNaN(v) }
+func positiveFinite(v float64) bool { return v > 0 && finite(v) }
 
 // fmtA writes a current with its unit, e.g. "10 mA".
 func fmtA(a float64) string {

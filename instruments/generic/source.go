@@ -191,6 +191,3 @@ func (w *WatchdogSource) DisarmWatchdog(ctx context.Context) error {
 	}
 	return w.exec(ctx, "disarm_watchdog")
 }
-
-// Watchdog returns the output watchdog's time (the watchdog setting).
-func (w *WatchdogSource) Watchdog() time.Duration { return w.timeout }

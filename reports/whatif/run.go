@@ -83,15 +83,8 @@ func Units(ctx context.Context, led *ledger.Ledger, req Request) (units []Stored
 		if req.Product != "" && !strings.EqualFold(r.Product, req.Product) {
 			continue
 		}
-		var verdict string
-		switch r.Verdict {
-		case sequencer.Pass:
-			verdict = limits.VerdictPass
-		case sequencer.Review:
-			verdict = limits.VerdictReview
-		case sequencer.Fail:
-			verdict = limits.VerdictFail
-		default:
+		verdict, judged := r.Verdict.Judged()
+		if !judged {
 			continue // faulted and aborted runs were never judged
 		}
 		rec, err := led.Run(ctx, r.RunID)
