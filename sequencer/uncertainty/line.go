@@ -9,9 +9,10 @@ import (
 	"trimline/sequencer/fit"
 )
 
-// ErrInvalidInput is wrapped by the errors of FitLine, FitLineLS and
-// MonteCarlo for arguments outside their contracts (mismatched lengths,
-// negative or non-finite uncertainties or specs, missing degrees of freedom).
+// ErrInvalidInput is wrapped by the errors of FitLine, FitLineLS,
+// FitQuadratic, LackOfFit and MonteCarlo for arguments outside their
+// contracts (mismatched lengths, negative or non-finite uncertainties or
+// specs, missing degrees of freedom).
 // Errors from the underlying fit (fit.ErrTooFewPoints, fit.ErrSingular,
 // fit.ErrInvalidInput) are wrapped too and can be tested with errors.Is.
 var ErrInvalidInput = errors.New("invalid input")
