@@ -161,3 +161,17 @@ func groupMeans(y []float64, group []int, levels int) []float64 {
 	}
 	return mean
 }
+
+// PointU returns the standard uncertainty u_i (V) of each point's random
+// part that FitLine and FitQuadratic weight with, URandom_i and the meter
+// resolution's q/(2√3) in quadrature: the u to give LackOfFit for a fitted
+// Sweep. It returns nil when every u_i is 0 (LackOfFit then needs repeated
+// levels). Errors: those of FitLine for the Sweep's contract, wrapping
+// ErrInvalidInput. The Sweep is not modified.
+func (s Sweep) PointU() ([]float64, error) {
+	u, _, noRandom, err := s.pointU("uncertainty.Sweep.PointU")
+	if err != nil || noRandom {
+		return nil, err
+	}
+	return u, nil
+}

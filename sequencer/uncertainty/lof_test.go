@@ -224,3 +224,34 @@ func FuzzLackOfFit(f *testing.F) {
 		}
 	})
 }
+
+// TestLackOfFitOfSweep: with the sweep's own point uncertainties and no
+// repeated level, LackOfFit is the fit's Chi2/ResidualDOF (the way the fit
+// step uses it).
+func TestLackOfFitOfSweep(t *testing.T) {
+	s := realisticSweep()
+	f, err := uncertainty.FitQuadratic(s)
+	if err != nil {
+		t.Fatal(err)
+	}
+	u, err := s.PointU()
+	if err != nil {
+		t.Fatal(err)
+	}
+	yhat := make([]float64, len(s.X))
+	for i := range yhat {
+		yhat[i] = s.Y[i] - f.Residuals[i]
+	}
+	lof, err := uncertainty.LackOfFit(s.X, s.Y, u, yhat, 3)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if lof.Method != uncertainty.LOFChi2 || lof.DOF1 != f.ResidualDOF {
+		t.Errorf("got %+v; want chi2 with ν = %d", lof, f.ResidualDOF)
+	}
+	checkRel(t, "χ²/ν", lof.Statistic, f.Chi2/float64(f.ResidualDOF), 1e-9)
+	s.URandom, s.DOFRandom, s.MeterResolution = nil, nil, 0
+	if u, err := s.PointU(); u != nil || err != nil {
+		t.Errorf("no random part: PointU = %v, %v; want nil, nil", u, err)
+	}
+}
