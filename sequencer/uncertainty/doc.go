@@ -2,7 +2,7 @@
 // following JCGM 100:2008 (GUM, the law of propagation of uncertainty) and
 // JCGM 101:2008 (propagation of distributions by Monte Carlo).
 //
-// It has three layers:
+// It has four layers:
 //
 //   - Budget arithmetic: Component, TypeA, Rectangular, Resolution, Combine
 //     (root-sum-square with the Welch–Satterthwaite effective degrees of
@@ -12,14 +12,21 @@
 //     includes the systematic errors of the meter and the source that every
 //     point of a sweep shares, and FitLineLS, the textbook fit whose
 //     uncertainty comes from the residual scatter alone (JCGM 100 H.3).
+//   - The quadratic fit of a sweep, FitQuadratic: the same model with a
+//     transfer η = β0 + β1·(ξ − X0) + β2·(ξ − X0)², the same weights and the
+//     same four systematic errors (their sensitivities to β2 are derived at
+//     FitQuadratic), and LackOfFit, which says whether a fitted line or
+//     quadratic describes a sweep: the F test against pure error where
+//     stimulus levels repeat (NIST/SEMATECH e-Handbook §4.4.4), the reduced
+//     chi-square otherwise.
 //   - MonteCarlo, the JCGM 101 counterpart of FitLine, used to validate it.
 //
 // # Units
 //
 // Stimulus x and output y are in volts, gains and accuracy terms are plain
 // fractions (30 ppm = 30e-6), offsets are in volts. b0 is in volts, b1 in
-// V/V. A standard uncertainty is always in the unit of the quantity it
-// belongs to.
+// V/V, the quadratic's b2 in 1/V (V per V²). A standard uncertainty is
+// always in the unit of the quantity it belongs to.
 //
 // # Measurement model of FitLine
 //

@@ -9,9 +9,10 @@ import (
 	"trimline/sequencer/fit"
 )
 
-// ErrInvalidInput is wrapped by the errors of FitLine, FitLineLS and
-// MonteCarlo for arguments outside their contracts (mismatched lengths,
-// negative or non-finite uncertainties or specs, missing degrees of freedom).
+// ErrInvalidInput is wrapped by the errors of FitLine, FitLineLS,
+// FitQuadratic, LackOfFit and MonteCarlo for arguments outside their
+// contracts (mismatched lengths, negative or non-finite uncertainties or
+// specs, missing degrees of freedom).
 // Errors from the underlying fit (fit.ErrTooFewPoints, fit.ErrSingular,
 // fit.ErrInvalidInput) are wrapped too and can be tested with errors.Is.
 var ErrInvalidInput = errors.New("invalid input")
@@ -121,27 +122,9 @@ type LineFit struct {
 // modified. FitLine is safe for concurrent use.
 func FitLine(s Sweep) (LineFit, error) {
 	const fn = "uncertainty.FitLine"
-	n := len(s.X)
-	if err := s.validate(fn); err != nil {
+	u, uRes, noRandom, err := s.pointU(fn)
+	if err != nil {
 		return LineFit{}, err
-	}
-	uRes := s.MeterResolution / (2 * math.Sqrt(3))
-	u := make([]float64, n)
-	zeros := 0
-	for i := range n {
-		u[i] = math.Hypot(s.uRandom(i), uRes)
-		if u[i] == 0 {
-			zeros++
-		}
-	}
-	noRandom := zeros == n
-	if zeros > 0 && !noRandom {
-		return LineFit{}, fmt.Errorf("%s: %w: %d of %d points have zero random uncertainty (URandom 0 and no MeterResolution); give every point an uncertainty or none", fn, ErrInvalidInput, zeros, n)
-	}
-	if noRandom {
-		for i := range u {
-			u[i] = 1
-		}
 	}
 	r, err := fit.Weighted(s.X, s.Y, u, 1, s.X0, true)
 	if err != nil {
@@ -158,33 +141,18 @@ func FitLine(s Sweep) (LineFit, error) {
 	}
 
 	a0, a1 := lsWeights(s.X, u, s.X0)
-	f.Inputs = make([]Input, 0, 2*n+4)
-	for i := range n {
-		if ur := s.uRandom(i); ur > 0 {
-			f.Inputs = append(f.Inputs, Input{Name: NameRepeatability, Point: i, Kind: KindA,
-				U: ur, DOF: s.DOFRandom[i], C: [2]float64{-a0[i], -a1[i]}})
-		}
+	f.Inputs = make([]Input, 0, 2*len(s.X)+4)
+	for _, in := range s.pointInputs(uRes) {
+		i := in.point
+		f.Inputs = append(f.Inputs, Input{Name: in.name, Point: i, Kind: in.kind,
+			U: in.u, DOF: in.dof, C: [2]float64{-a0[i], -a1[i]}})
 	}
-	if uRes > 0 {
-		for i := range n {
-			f.Inputs = append(f.Inputs, Input{Name: NameResolution, Point: i, Kind: KindB,
-				U: uRes, DOF: math.Inf(1), C: [2]float64{-a0[i], -a1[i]}})
-		}
-	}
-	sq3 := math.Sqrt(3)
-	b0, b1 := f.B0, f.B1
-	sys := []Input{
-		{Name: NameMeterGain, U: s.Meter.OfReading / sq3, C: [2]float64{-b0, -b1}},
-		{Name: NameMeterOffset, U: s.Meter.OfRange * s.Meter.Range / sq3, C: [2]float64{-1, 0}},
-		{Name: NameSourceGain, U: s.Source.OfReading / sq3, C: [2]float64{-b1 * s.X0, -b1}},
-		{Name: NameSourceOffset, U: s.Source.OfRange * s.Source.Range / sq3, C: [2]float64{-b1, 0}},
-	}
-	for _, in := range sys {
-		in.Point, in.Kind, in.DOF = -1, KindB, math.Inf(1)
-		f.Inputs = append(f.Inputs, in)
+	for _, in := range s.sysInputs([3]float64{f.B0, f.B1, 0}) {
+		f.Inputs = append(f.Inputs, Input{Name: in.name, Point: -1, Kind: KindB,
+			U: in.u, DOF: math.Inf(1), C: [2]float64{in.c[0], in.c[1]}})
 		for j := range 2 {
 			for k := range 2 {
-				f.CovSys[j][k] += in.C[j] * in.C[k] * in.U * in.U
+				f.CovSys[j][k] += in.c[j] * in.c[k] * in.u * in.u
 			}
 		}
 	}
@@ -295,6 +263,95 @@ func (s Sweep) validate(fn string) error {
 	return nil
 }
 
+// pointU validates the Sweep and returns the standard uncertainty u_i of
+// each point's random part (URandom_i and the resolution's uRes in
+// quadrature), the weights' scale for the fit. When every u_i is 0
+// (noRandom) it returns u_i = 1, which gives the ordinary least-squares fit.
+// Some but not all u_i zero is an error wrapping ErrInvalidInput.
+func (s Sweep) pointU(fn string) (u []float64, uRes float64, noRandom bool, err error) {
+	n := len(s.X)
+	if err := s.validate(fn); err != nil {
+		return nil, 0, false, err
+	}
+	uRes = s.MeterResolution / (2 * math.Sqrt(3))
+	u = make([]float64, n)
+	zeros := 0
+	for i := range n {
+		u[i] = math.Hypot(s.uRandom(i), uRes)
+		if u[i] == 0 {
+			zeros++
+		}
+	}
+	noRandom = zeros == n
+	if zeros > 0 && !noRandom {
+		return nil, 0, false, fmt.Errorf("%s: %w: %d of %d points have zero random uncertainty (URandom 0 and no MeterResolution); give every point an uncertainty or none", fn, ErrInvalidInput, zeros, n)
+	}
+	if noRandom {
+		for i := range u {
+			u[i] = 1
+		}
+	}
+	return u, uRes, noRandom, nil
+}
+
+// errorInput is one input quantity of the package doc's model before its
+// sensitivity to the coefficients of a particular fit is attached: the
+// per-point ones (point ≥ 0) from pointInputs, the shared systematic ones
+// with their sensitivities c to (β0, β1, β2) from sysInputs.
+type errorInput struct {
+	name, kind string
+	point      int
+	u, dof     float64
+	c          [3]float64
+}
+
+// pointInputs lists the per-point random inputs of the Sweep: the Type A
+// scatter of each point with a positive URandom, then the resolution of
+// every point when uRes > 0.
+func (s Sweep) pointInputs(uRes float64) []errorInput {
+	n := len(s.X)
+	out := make([]errorInput, 0, 2*n)
+	for i := range n {
+		if ur := s.uRandom(i); ur > 0 {
+			out = append(out, errorInput{name: NameRepeatability, kind: KindA, point: i, u: ur, dof: s.DOFRandom[i]})
+		}
+	}
+	if uRes > 0 {
+		for i := range n {
+			out = append(out, errorInput{name: NameResolution, kind: KindB, point: i, u: uRes, dof: math.Inf(1)})
+		}
+	}
+	return out
+}
+
+// sysInputs returns the four shared systematic errors of the Sweep's specs
+// (rectangular, u = a/√3, dof ∞) with their sensitivities c_k = ∂β_k/∂error
+// for the model η = β0 + β1·(ξ − X0) + β2·(ξ − X0)², evaluated at the
+// estimates b (b[2] = 0 for the straight line; see the package doc):
+//
+//   - meter gain g_m scales every y: c = −b;
+//   - meter offset o_m shifts every y: c = (−1, 0, 0);
+//   - source gain g_s: ξ − X0 = (x − X0)(1 + g_s) + X0·g_s, so to first
+//     order c = (−b1·X0, −(b1 + 2·b2·X0), −2·b2);
+//   - source offset o_s: ξ − X0 = (x − X0) + o_s, so c = (−b1, −2·b2, 0).
+//
+// The straight line's sensitivities are these with b2 = 0, bit for bit
+// (0 − 2·b2 rather than −2·b2 keeps a +0 there).
+func (s Sweep) sysInputs(b [3]float64) [4]errorInput {
+	sq3 := math.Sqrt(3)
+	x0 := s.X0
+	in := [4]errorInput{
+		{name: NameMeterGain, u: s.Meter.OfReading / sq3, c: [3]float64{-b[0], -b[1], -b[2]}},
+		{name: NameMeterOffset, u: s.Meter.OfRange * s.Meter.Range / sq3, c: [3]float64{-1, 0, 0}},
+		{name: NameSourceGain, u: s.Source.OfReading / sq3, c: [3]float64{-b[1] * x0, -(b[1] + 2*b[2]*x0), 0 - 2*b[2]}},
+		{name: NameSourceOffset, u: s.Source.OfRange * s.Source.Range / sq3, c: [3]float64{-b[1], 0 - 2*b[2], 0}},
+	}
+	for i := range in {
+		in[i].kind, in[i].point, in[i].dof = KindB, -1, math.Inf(1)
+	}
+	return in
+}
+
 func (s Sweep) uRandom(i int) float64 {
 	if s.URandom == nil {
 		return 0
@@ -389,6 +446,18 @@ func (f LineFit) LinearBudget(g [2]float64) []Component {
 }
 
 func (f LineFit) budget(g [2]float64, rows []string) []Component {
+	return rowBudget(rows, len(f.Inputs), func(i int) (Input, float64) {
+		in := f.Inputs[i]
+		return in, (g[0]*in.C[0] + g[1]*in.C[1]) * in.U
+	})
+}
+
+// rowBudget returns one Component per name in rows over the n inputs that
+// input(i) gives with their contribution uq (unit of the quantity): U =
+// sqrt(Σ uq²) over the inputs of that name, DOF by Welch–Satterthwaite among
+// them (the common DOF for Pooled inputs; ∞ for a row whose U is 0 unless
+// pooled). Only Name, Kind, Pooled and DOF of the Input are read.
+func rowBudget(rows []string, n int, input func(i int) (in Input, uq float64)) []Component {
 	out := make([]Component, 0, len(rows))
 	for _, name := range rows {
 		var cs []Component
@@ -396,7 +465,8 @@ func (f LineFit) budget(g [2]float64, rows []string) []Component {
 		if name == NameRepeatability || name == NameResidualScatter {
 			kind = KindA
 		}
-		for _, in := range f.Inputs {
+		for i := range n {
+			in, uq := input(i)
 			if in.Name != name {
 				continue
 			}
@@ -404,7 +474,7 @@ func (f LineFit) budget(g [2]float64, rows []string) []Component {
 			if in.Pooled {
 				pooled, pooledDOF = true, in.DOF
 			}
-			cs = append(cs, Component{U: (g[0]*in.C[0] + g[1]*in.C[1]) * in.U, DOF: in.DOF})
+			cs = append(cs, Component{U: uq, DOF: in.DOF})
 		}
 		u, dof := Combine(cs)
 		if pooled {
