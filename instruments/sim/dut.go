@@ -13,9 +13,11 @@ import (
 	"trimline/instruments"
 )
 
-// DUT is the simulated fixture at sim://dut holding one BRX-200 bridge amplifier card
-// at a time. Its trim port speaks the line protocol in the package doc; until
-// LoadUnit places a unit, every command answers "ERR no unit in fixture".
+// DUT is the simulated fixture at sim://dut holding one card at a time, the card its
+// settings describe (the BRX-200 bridge amplifier card by default). Its trim port
+// speaks the line protocol in the package doc with the card's command templates;
+// until LoadUnit places a unit, every command but LID? answers "ERR no unit in
+// fixture".
 type DUT struct {
 	wiring
 	settings DUTSettings
