@@ -4,6 +4,7 @@ import (
 	"context"
 	"errors"
 	"reflect"
+	"strings"
 	"testing"
 	"time"
 
@@ -251,4 +252,37 @@ func TestCardSettingErrors(t *testing.T) {
 	if !errors.As(err, &se) || se.Key != "offset_coding" {
 		t.Errorf("CheckSettings: %v", err)
 	}
+}
+
+// FuzzPort sends arbitrary lines to a hex two's-complement card with a lock: no line
+// may panic, every reply is one non-empty line, and the register always reads back
+// as a code of its width.
+func FuzzPort(f *testing.F) {
+	for _, s := range []string{"TRIM OFS 0x7FF", "TRIM OFS ffff", "UNLOCK 5A17", "TRIM GAIN -1",
+		"TRIM OFS 0x", "NV STORE", "TRIM OFS  0X1 ", "LID?", "TRIM GAIN 0x800"} {
+		f.Add(s)
+	}
+	b, err := sim.NewBench([]instruments.Spec{{Role: "dut", Address: "sim://dut", Settings: map[string]string{
+		"offset_bits": "13", "offset_coding": "twos_complement", "code_format": "hex", "cmd_unlock": "UNLOCK 5A17"}}})
+	if err != nil {
+		f.Fatal(err)
+	}
+	d := b.DUT()
+	ctx := context.Background()
+	if err := d.LoadUnit(ctx, "FZ-1"); err != nil {
+		f.Fatal(err)
+	}
+	f.Fuzz(func(t *testing.T, line string) {
+		r, err := d.Query(ctx, line)
+		var re *sim.ReplyError
+		if errors.As(err, &re) {
+			r, err = re.Reply, nil
+		}
+		if err != nil || r == "" || strings.ContainsAny(r, "\r\n") {
+			t.Fatalf("%q → %q, %v", line, r, err)
+		}
+		if got, err := d.Query(ctx, "TRIM OFS?"); err != nil || len(got) != 4 || strings.Trim(got, "0123456789ABCDEF") != "" || got > "1FFF" {
+			t.Fatalf("after %q the offset register reads %q, %v", line, got, err)
+		}
+	})
 }
