@@ -147,8 +147,12 @@ func NewBench(specs []instruments.Spec) (*Bench, error) {
 		case modelMeter:
 			b.meter = newMeter(b, c)
 		case modelDUT:
-			b.dut = &DUT{wiring: wiring{bench: b, latency: c.latency, name: "sim dut", errClosed: errDUTClosed},
-				settings: c.dut, lidOpen: c.lidOpen}
+			d, err := newDUT(wiring{bench: b, latency: c.latency, name: "sim dut", errClosed: errDUTClosed},
+				c.dut, c.lidOpen)
+			if err != nil {
+				return nil, err
+			}
+			b.dut = d
 		}
 	}
 	return b, nil

@@ -52,33 +52,44 @@
 //
 // # DUT analog model
 //
-// The engine's trim arithmetic assumes exactly this topology. For DUT input x (V):
+// The DUT settings describe the card; every default is the demo card, the BRX-200
+// (gain 200, 2.5 V at zero input, rails 0..5 V, two 12-bit binary-offset trim DACs,
+// the protocol below). The engine's trim arithmetic assumes exactly this topology.
+// For DUT input x (V), with Gnom = gain, Vz = output_at_zero, Vp = gain_pivot:
 //
-//	core(x) = G·(x + vin_os + step(x))        G = ClosedLoopGain(A, 1/200)·(1 + ge)
+//	core(x) = G·(x + vin_os + step(x))        G = ±ClosedLoopGain(A, 1/|Gnom|)·(1 + ge)
 //	step(x) = s if x > crossover_at, else 0   (input-pair hand-over, s = ±crossover_step)
-//	y0 = Vmid + core(x) + vout_os             Vmid = 2.5 V
-//	y1 = Vmid + (1 + gtrim)·(y0 − Vmid)       gtrim = (Dg(cg) − 2048)·gain_lsb
-//	y2 = y1 + (Do(co) − 2048)·offset_lsb      (offset_trim: after, the default)
+//	y0 = Vz + core(x) + vout_os               Vz = 2.5 V
+//	y1 = Vp + (1 + gtrim)·(y0 − Vp)           gtrim = Cg(cg)·gain_lsb, Vp = Vz
+//	y2 = y1 + Co(co)·offset_lsb               (offset_trim: after, the default)
 //	y  = rail(y2 + noise)                     the meter sees y, ≈ noise alone if open
 //
-// With offset_trim: before, the offset DAC adds (Do(co) − 2048)·offset_lsb to the
-// input of the gain stage instead (inside core, next to vin_os), so one code moves the
-// output by offset_lsb·G·(1 + gtrim); offset_lsb is then input-referred and defaults
-// to 12.2 µV/200 = 61 nV, the same nominal output step.
+// With offset_trim: before, the offset DAC adds Co(co)·offset_lsb to the input of the
+// gain stage instead (inside core, next to vin_os), so one code moves the output by
+// offset_lsb·G·(1 + gtrim); offset_lsb is then input-referred and defaults to
+// 12.2 µV/|Gnom| (61 nV on the demo card), the same nominal output step. A card with
+// trim: offset has no y1 step (y1 = y0); one with trim: gain has no y2 step.
 //
-// A is the amplifier's open-loop gain (1e7 = 140 dB): G = A/(1 + A·β), β = 1/Gnom, so
-// the gain error due to A is ≈ −Gnom/A (−20 ppm at Gnom = 200). ge (σ 0.4 %) is the
-// per-unit gain error. The total output-referred offset Gnom·vin_os + vout_os has
-// σ 3 mV, 30 % of its variance input-referred and 70 % output-referred.
+// A is the amplifier's open-loop gain (1e7 = 140 dB): |G| = A/(1 + A·β), β = 1/|Gnom|,
+// so the gain error due to A is ≈ −|Gnom|/A (−20 ppm at Gnom = 200), for an inverting
+// card (negative gain) too. ge (σ 0.4 %) is the per-unit gain error. The total
+// output-referred offset |Gnom|·vin_os + vout_os has σ 3 mV, 30 % of its variance
+// input-referred and 70 % output-referred.
 //
-// D(c) is the analog value in LSB of a 12-bit R-2R trim DAC for register code c:
-// Σ bit_i·(2^i + e_i) with e_i ~ N(0, dnl) per unit (dnl = 0.05 LSB); mid-scale 2048
-// is no correction. A stuck bit is forced in the analog path only; the register reads
-// back what was written. Nominal LSBs: 12.2 µV at the output per offset code, 10 ppm
-// per gain code.
+// D(c) is the analog value in LSB of an n-bit R-2R trim DAC (offset_bits, gain_bits;
+// 12) for the code c at its input: Σ bit_i·(2^i + e_i) with e_i ~ N(0, dnl) per unit
+// (dnl = 0.05 LSB). C(r) = D(c) − 2^(n−1) is the correction for register r: with
+// binary_offset coding (the default) c = r, registers 0..2^n−1 and mid-scale
+// 2^(n−1) (2048) is no correction; with twos_complement coding the register holds the
+// n-bit pattern of a signed value −2^(n−1)..2^(n−1)−1, the card inverts its top bit
+// (c = r XOR 2^(n−1)) and 0 is no correction. A stuck bit is forced in the analog
+// path only; the register reads back what was written. Nominal LSBs: 12.2 µV at the
+// output per offset code, 10 ppm per gain code.
 //
-// rail() is the identity inside 0.2..4.8 V and a tanh knee of width 0.2 V beyond, so
-// the output never leaves 0..5 V and inside 0.5..4.5 V the compression is exactly 0.
+// rail() is the identity inside rail_low + rail_knee .. rail_high − rail_knee and a
+// tanh knee of width rail_knee beyond, so the output never leaves rail_low..rail_high
+// (0.2..4.8 V and 0..5 V on the demo card; inside 0.5..4.5 V the compression is
+// exactly 0).
 //
 // Settling: after each step of the DUT input at time t0 the linear output (before
 // rail) approaches its new value as exp(−(t − t0)/τ) on the bench clock. Trim writes
@@ -87,33 +98,55 @@
 //
 // Units are derived by Params(serial, seed, settings): FNV-1a 64 of the serial and
 // the seed key a math/rand/v2 PCG, so the same serial and seed give the same unit.
-// About defect_rate (2 %) of the units carry one defect: a stuck high trim-DAC bit
-// (bit 8..11 of the offset or gain DAC, stuck at 0 or 1), excess noise (×40) or an
+// The draws come in a fixed order whatever the settings; the bit errors of DAC bits
+// beyond the twelfth are drawn after all others, so a wider DAC leaves the rest of a
+// unit as the 12-bit card has it. About defect_rate (2 %) of the units carry one
+// defect: a stuck high trim-DAC bit (one of the top four bits, 8..11 of a 12-bit DAC,
+// of the offset or gain DAC the card has, stuck at 0 or 1), excess noise (×40) or an
 // open output (the meter sees ≈ 0 V + noise whatever the input).
 //
 // # Trim port protocol
 //
 // One line per command, terminated by "\n" (a trailing "\r\n" and surrounding spaces
-// are ignored; tokens are separated by spaces and are case-sensitive). Every command
-// gets one reply line:
+// are ignored; tokens are separated by spaces, runs of spaces count as one, and are
+// case-sensitive). Every command gets one reply line. The commands are templates
+// from the settings (cmd_*); the demo card's are:
 //
-//	SN?              → the unit's serial number
-//	FW?              → the firmware id, "BRX200-FW 2.3.1"
-//	TRIM OFS <code>  → OK; code is decimal 0..4095, else "ERR code out of range"
-//	TRIM GAIN <code> → OK; likewise
-//	TRIM OFS?        → the offset register as decimal
-//	TRIM GAIN?       → the gain register as decimal
-//	NV STORE         → OK; stores both registers in the unit's non-volatile memory
+//	SN?              → the unit's serial number                      (cmd_serial)
+//	FW?              → the firmware id, "BRX200-FW 2.3.1"            (cmd_firmware, firmware)
+//	TRIM OFS <code>  → OK; "ERR code out of range" if the code is     (cmd_offset_write)
+//	                   malformed or outside the register
+//	TRIM GAIN <code> → OK; likewise                                  (cmd_gain_write)
+//	TRIM OFS?        → the offset register                           (cmd_offset_read)
+//	TRIM GAIN?       → the gain register                             (cmd_gain_read)
+//	NV STORE         → OK; stores both registers in the unit's       (cmd_store)
+//	                   non-volatile memory
 //	LID?             → CLOSED or OPEN: the fixture's lid (interlock) input
 //	anything else    → ERR unknown command "<line>"
 //
-// LID? belongs to the fixture, so it answers with or without a unit; the lid starts
-// as the lid setting says (closed by default) and DUT.SetLid moves it. With no unit
-// in the fixture every other command answers "ERR no unit in fixture".
-// LoadUnit(serial) places a unit; its registers start from the codes it last stored
-// on this bench (the bench remembers them per serial for its lifetime), mid-scale
-// 2048 for a fresh unit. DUT.Command returns nil on OK and a *ReplyError on ERR;
-// DUT.Query returns the reply, or a *ReplyError on ERR.
+// A write template holds the placeholder {code} once, anywhere ("CAL:OFFS={code}"
+// works); it matches one token. Codes are decimal with code_format: decimal (the
+// default): 0..2^n−1 for binary_offset, the signed value −2^(n−1)..2^(n−1)−1 for
+// twos_complement. With code_format: hex the port writes the register pattern in
+// hex with or without 0x ("TRIM OFS 0x7FF" or "TRIM OFS 7ff") and answers in upper
+// case without 0x, padded to ceil(n/4) digits ("7FF"; "0000" for 0 on a 16-bit DAC).
+// The commands of a DAC the card does not have (trim: offset or gain) answer ERR
+// unknown command.
+//
+// With cmd_unlock set (say "UNLOCK 5A17"; empty by default: no lock) the card is
+// locked whenever a unit is loaded: trim writes and the store command answer
+// "ERR locked" until the unlock command (answered OK) has been received; reads work
+// locked.
+//
+// LID? belongs to the fixture, so it answers with or without a unit, whatever the
+// templates; the lid starts as the lid setting says (closed by default) and
+// DUT.SetLid moves it. With no unit in the fixture every other command answers
+// "ERR no unit in fixture". LoadUnit(serial) places a unit; its registers start from
+// the codes it last stored on this bench (the bench remembers them per serial for its
+// lifetime), the no-correction codes (2048 on the demo card) for a fresh unit.
+// DUT.Command returns nil on OK and a *ReplyError on ERR; DUT.Query returns the
+// reply, or a *ReplyError on ERR. DUT.Identify asks the serial and firmware
+// commands.
 //
 // # Settings
 //
@@ -143,6 +176,23 @@
 //	             gain_lsb (10 ppm), offset_trim (after|before, after),
 //	             defect (none|stuck_bit|noisy|open, drawn), defect_rate (2 %),
 //	             lid (closed|open: the fixture lid at open, closed)
+//	dut, card    gain (nominal closed-loop gain in V/V, finite and non-zero,
+//	             negative for an inverting card; 200),
+//	             output_at_zero (output at zero input with no correction; 2.5 V),
+//	             gain_pivot (output the gain trim scales about; output_at_zero),
+//	             rail_low (0 V), rail_high (5 V): the output stays inside them,
+//	             rail_knee (width of the soft compression at each rail; 0.2 V;
+//	             rail_high − rail_low must exceed two knees),
+//	             trim (both|offset|gain: the trim DACs the card has, both),
+//	             offset_bits, gain_bits (width of each DAC, 1..24 bits; 12),
+//	             offset_coding, gain_coding (binary_offset|twos_complement,
+//	             binary_offset), code_format (decimal|hex, decimal)
+//	dut, port    cmd_serial (SN?), cmd_firmware (FW?), cmd_offset_write
+//	             (TRIM OFS {code}), cmd_offset_read (TRIM OFS?), cmd_gain_write
+//	             (TRIM GAIN {code}), cmd_gain_read (TRIM GAIN?), cmd_store (NV STORE),
+//	             cmd_unlock (empty: no lock), firmware (the firmware reply;
+//	             BRX200-FW 2.3.1). Write templates need {code} once, the others none;
+//	             no two commands of the card may be the same, nor LID?
 //
 // # Concurrency
 //

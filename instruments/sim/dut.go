@@ -13,20 +13,25 @@ import (
 	"trimline/instruments"
 )
 
-// DUT is the simulated fixture at sim://dut holding one BRX-200 bridge amplifier card
-// at a time. Its trim port speaks the line protocol in the package doc; until
-// LoadUnit places a unit, every command answers "ERR no unit in fixture".
+// DUT is the simulated fixture at sim://dut holding one card at a time, the card its
+// settings describe (the BRX-200 bridge amplifier card by default). Its trim port
+// speaks the line protocol in the package doc with the card's command templates;
+// until LoadUnit places a unit, every command but LID? answers "ERR no unit in
+// fixture".
 type DUT struct {
 	wiring
 	settings DUTSettings
+	card     card // settings resolved
+	port     port // the card's command set, compiled once
 	lidOpen  bool // the fixture lid (interlock input) is open
 
-	loaded bool
-	unit   UnitParams
-	ofs    int       // offset trim register
-	gain   int       // gain trim register
-	resid  float64   // V, settling residual of the linear output at tStep
-	tStep  time.Time // time of the last source step
+	loaded   bool
+	unit     UnitParams
+	unlocked bool      // the unlock command was received since the unit was loaded
+	ofs      int       // offset trim register
+	gain     int       // gain trim register
+	resid    float64   // V, settling residual of the linear output at tStep
+	tStep    time.Time // time of the last source step
 }
 
 var (
@@ -36,7 +41,18 @@ var (
 	_ instruments.ClockSource   = (*DUT)(nil)
 )
 
-// Firmware is the firmware id every simulated unit reports to FW?.
+// newDUT returns the fixture for settings s, compiling its command set.
+func newDUT(w wiring, s DUTSettings, lidOpen bool) (*DUT, error) {
+	c := s.card()
+	p, err := compilePort(c)
+	if err != nil {
+		return nil, err
+	}
+	return &DUT{wiring: w, settings: s, card: c, port: p, lidOpen: lidOpen}, nil
+}
+
+// Firmware is the firmware id every simulated unit reports to FW? unless the
+// firmware setting says otherwise.
 const Firmware = "BRX200-FW 2.3.1"
 
 // ReplyError is an "ERR …" reply of the trim port.
@@ -66,7 +82,8 @@ func (d *DUT) Unit() (p UnitParams, ok bool) {
 
 // LoadUnit places unit serial in the fixture: its parameters come from
 // Params(serial, bench seed, settings) and its trim registers from the codes last
-// stored with NV STORE on this bench, mid-scale (2048) for a fresh unit. The serial
+// stored on this bench, the no-correction codes for a fresh unit (mid-scale 2048 on
+// the demo card); a lock is locked again. The serial
 // must be non-empty and free of spaces and control characters.
 func (d *DUT) LoadUnit(ctx context.Context, serial string) error {
 	var invalid error
@@ -81,7 +98,8 @@ func (d *DUT) LoadUnit(ctx context.Context, serial string) error {
 	}
 	d.unit = Params(serial, b.seed, d.settings)
 	d.loaded = true
-	d.ofs, d.gain = MidScale, MidScale
+	d.unlocked = false
+	d.ofs, d.gain = d.card.offsetDAC.NoCorrection(), d.card.gainDAC.NoCorrection()
 	if c, ok := b.stored[serial]; ok {
 		d.ofs, d.gain = c[0], c[1]
 	}
@@ -118,7 +136,7 @@ func (d *DUT) output(t time.Time, x, z float64) float64 {
 	if d.unit.Defect == DefectOpen {
 		return n
 	}
-	return rail(d.unit.linear(x, d.ofs, d.gain) + d.decay(t) + n)
+	return d.unit.rail(d.unit.linear(x, d.ofs, d.gain) + d.decay(t) + n)
 }
 
 // SetLid opens or closes the fixture lid, the interlock input that LID? reports.
@@ -137,7 +155,8 @@ func (d *DUT) LidOpen() bool {
 
 // reply answers one line of the trim port protocol. Called with the bench lock held.
 func (d *DUT) reply(line string) string {
-	if f := strings.Fields(line); len(f) == 1 && f[0] == "LID?" {
+	norm := normLine(line)
+	if norm == "LID?" {
 		if d.lidOpen {
 			return "OPEN"
 		}
@@ -146,38 +165,70 @@ func (d *DUT) reply(line string) string {
 	if !d.loaded {
 		return "ERR no unit in fixture"
 	}
-	f := strings.Fields(line)
-	unknown := fmt.Sprintf("ERR unknown command %q", line)
+	p, c := &d.port, &d.card
+	locked := p.unlock.prefix != "" && !d.unlocked
 	switch {
-	case len(f) == 1 && f[0] == "SN?":
+	case p.serial.is(norm):
 		return d.unit.Serial
-	case len(f) == 1 && f[0] == "FW?":
-		return Firmware
-	case len(f) == 2 && f[0] == "NV" && f[1] == "STORE":
+	case p.firmware.is(norm):
+		return c.firmware
+	case p.unlock.is(norm):
+		d.unlocked = true
+		return "OK"
+	case p.store.is(norm):
+		if locked {
+			return "ERR locked"
+		}
 		d.bench.stored[d.unit.Serial] = [2]int{d.ofs, d.gain}
 		return "OK"
-	case len(f) >= 2 && f[0] == "TRIM" && (f[1] == "OFS" || f[1] == "GAIN" || f[1] == "OFS?" || f[1] == "GAIN?"):
-		reg := &d.ofs
-		if strings.HasPrefix(f[1], "GAIN") {
-			reg = &d.gain
+	case p.offsetRead.is(norm):
+		return formatCode(c.offsetDAC, c.format, d.ofs)
+	case p.gainRead.is(norm):
+		return formatCode(c.gainDAC, c.format, d.gain)
+	}
+	for _, w := range []struct {
+		t   template
+		dac DAC
+		reg *int
+	}{{p.offsetWrite, c.offsetDAC, &d.ofs}, {p.gainWrite, c.gainDAC, &d.gain}} {
+		text, ok := w.t.match(norm)
+		if !ok {
+			continue
 		}
-		if strings.HasSuffix(f[1], "?") {
-			if len(f) != 2 {
-				return unknown
-			}
-			return strconv.Itoa(*reg)
+		if locked {
+			return "ERR locked"
 		}
-		if len(f) != 3 {
-			return unknown
-		}
-		c, err := strconv.Atoi(f[2])
-		if err != nil || c < 0 || c > MaxCode {
+		reg, ok := parseCode(w.dac, c.format, text)
+		if !ok {
 			return "ERR code out of range"
 		}
-		*reg = c
+		*w.reg = reg
 		return "OK"
 	}
-	return unknown
+	return fmt.Sprintf("ERR unknown command %q", line)
+}
+
+// MisreadCode returns reply, the port's answer to line, with its code one higher
+// (wrapping at the register's width) when line is a register read: the served
+// simulator's read-back fault. ok is false for any other line or a reply that is no
+// code. It reads the fixture's settings only, so it is safe beside any call.
+func (d *DUT) MisreadCode(line, reply string) (misread string, ok bool) {
+	norm := normLine(line)
+	c := &d.card
+	for _, r := range []struct {
+		t   template
+		dac DAC
+	}{{d.port.offsetRead, c.offsetDAC}, {d.port.gainRead, c.gainDAC}} {
+		if !r.t.is(norm) {
+			continue
+		}
+		reg, ok := parseCode(r.dac, c.format, reply)
+		if !ok {
+			return "", false
+		}
+		return formatCode(r.dac, c.format, (reg+1)&r.dac.MaxRegister()), true
+	}
+	return "", false
 }
 
 // exchange sends one line and returns the reply.
@@ -222,14 +273,15 @@ func (d *DUT) Query(ctx context.Context, line string) (string, error) {
 	return r, nil
 }
 
-// Identify returns the identity of the unit in the fixture (serial from SN?,
-// firmware from FW?); an empty fixture is an error.
+// Identify returns the identity of the unit in the fixture (serial and firmware from
+// the card's serial and firmware commands, SN? and FW? on the demo card); an empty
+// fixture is an error.
 func (d *DUT) Identify(ctx context.Context) (instruments.Identity, error) {
-	sn, err := d.Query(ctx, "SN?")
+	sn, err := d.Query(ctx, d.card.proto.Serial)
 	if err != nil {
 		return instruments.Identity{}, err
 	}
-	fw, err := d.Query(ctx, "FW?")
+	fw, err := d.Query(ctx, d.card.proto.Firmware)
 	if err != nil {
 		return instruments.Identity{}, err
 	}

@@ -8,6 +8,7 @@ import (
 	"strconv"
 	"strings"
 	"time"
+	"unicode"
 
 	"trimline/instruments"
 	"trimline/instruments/units"
@@ -34,6 +35,73 @@ type DUTSettings struct {
 
 	Offset    *float64 // V, override: total output-referred offset, all output-referred; nil = drawn
 	GainError *float64 // fraction, override: per-unit gain error; nil = drawn
+
+	// The card's design and trim port. Every zero value means the demo card's, so a
+	// DUTSettings that leaves these out describes the BRX-200.
+	Gain         float64    // V/V, nominal closed-loop gain, non-zero, negative if inverting; 0 = NominalGain (200)
+	OutputAtZero *float64   // V, output at zero input with no trim correction; nil = Vmid (2.5 V)
+	GainPivot    *float64   // V, output the gain trim scales about; nil = the output at zero input
+	RailLow      *float64   // V, lowest output; nil = 0 V
+	RailHigh     *float64   // V, highest output; nil = Supply (5 V)
+	RailKnee     float64    // V, width of the soft compression next to each rail; 0 = RailKnee (0.2 V)
+	Trim         Trim       // which trim DACs the card has; "" = TrimBoth
+	OffsetBits   int        // bits of the offset DAC, 1..MaxDACBits; 0 = DACBits (12)
+	GainBits     int        // bits of the gain DAC, 1..MaxDACBits; 0 = DACBits (12)
+	OffsetCoding Coding     // "" = CodingBinaryOffset
+	GainCoding   Coding     // "" = CodingBinaryOffset
+	CodeFormat   CodeFormat // how the port writes and reads codes; "" = CodeDecimal
+	Protocol     Protocol   // the port's command templates; empty fields = the demo card's
+	Firmware     string     // the reply to Protocol.Firmware; "" = Firmware
+}
+
+// card is the resolved design of DUTSettings: every default filled in.
+type card struct {
+	gain, outputAtZero, gainPivot, railLow, railHigh, railKnee float64 // V/V, V
+	trim                                                       Trim
+	offsetDAC, gainDAC                                         DAC // widths and codings, ideal
+	format                                                     CodeFormat
+	proto                                                      Protocol
+	firmware                                                   string
+}
+
+// card resolves the design settings to the values the model uses.
+func (s DUTSettings) card() card {
+	orDefault := func(p *float64, def float64) float64 {
+		if p == nil {
+			return def
+		}
+		return *p
+	}
+	c := card{
+		gain:         s.Gain,
+		outputAtZero: orDefault(s.OutputAtZero, Vmid),
+		railLow:      orDefault(s.RailLow, 0),
+		railHigh:     orDefault(s.RailHigh, Supply),
+		railKnee:     s.RailKnee,
+		trim:         s.Trim,
+		offsetDAC:    DAC{Bits: s.OffsetBits, TwosComplement: s.OffsetCoding == CodingTwosComplement},
+		gainDAC:      DAC{Bits: s.GainBits, TwosComplement: s.GainCoding == CodingTwosComplement},
+		format:       s.CodeFormat,
+		proto:        s.Protocol.withDefaults(),
+		firmware:     s.Firmware,
+	}
+	c.gainPivot = orDefault(s.GainPivot, c.outputAtZero)
+	if c.gain == 0 {
+		c.gain = NominalGain
+	}
+	if c.railKnee == 0 {
+		c.railKnee = RailKnee
+	}
+	if c.trim == "" {
+		c.trim = TrimBoth
+	}
+	if c.format == "" {
+		c.format = CodeDecimal
+	}
+	if c.firmware == "" {
+		c.firmware = Firmware
+	}
+	return c
 }
 
 // DefaultDUTSettings returns the DUT settings used when a spec sets nothing.
@@ -303,10 +371,37 @@ func parseSettings(model string, settings map[string]string) (config, error) {
 	if c.bench.startSet && c.bench.timeSet && c.bench.real {
 		return c, settingErr("start", "applies only to time: simulated")
 	}
-	if model == modelDUT && c.dut.OffsetTrimBefore && !c.offsetLSBSet {
-		c.dut.OffsetLSB = DefaultOffsetLSB / NominalGain
+	if model == modelDUT {
+		if c.dut.OffsetTrimBefore && !c.offsetLSBSet {
+			c.dut.OffsetLSB = DefaultOffsetLSB / NominalGain
+			if g := c.dut.card().gain; g != NominalGain {
+				c.dut.OffsetLSB = DefaultOffsetLSB / math.Abs(g)
+			}
+		}
+		if err := checkCard(c.dut, settings); err != nil {
+			return c, err
+		}
 	}
 	return c, nil
+}
+
+// checkCard checks what no single key can: the rails leave room for both knees, and
+// the command set compiles. given is the settings map, to name a key that was set.
+func checkCard(s DUTSettings, given map[string]string) error {
+	c := s.card()
+	if c.railHigh-c.railLow <= 2*c.railKnee {
+		key := "rail_high"
+		for _, k := range []string{"rail_high", "rail_low", "rail_knee"} {
+			if _, ok := given[k]; ok {
+				key = k
+				break
+			}
+		}
+		return settingErr(key, "rails %s..%s leave no room inside two knees of %s",
+			units.Format(c.railLow, "V", 4), units.Format(c.railHigh, "V", 4), units.Format(c.railKnee, "V", 4))
+	}
+	_, err := compilePort(c)
+	return err
 }
 
 func unknownKey(model, key string) error {
@@ -363,6 +458,41 @@ func (c *meterConfig) setters() map[string]setter {
 	}
 }
 
+// bitsOf sets a trim DAC's width: an integer 1..MaxDACBits.
+func bitsOf(p *int) setter {
+	return func(k, val string) (err error) {
+		*p, err = strconv.Atoi(strings.TrimSpace(val))
+		if err != nil || *p < 1 || *p > MaxDACBits {
+			err = settingErr(k, "%q: expected a whole number of bits, 1 to %d", val, MaxDACBits)
+		}
+		return err
+	}
+}
+
+// codingOf sets a trim DAC's register coding.
+func codingOf(p *Coding) setter {
+	return func(k, val string) error {
+		v, err := choice(k, val, string(CodingBinaryOffset), string(CodingTwosComplement))
+		*p = Coding(v)
+		return err
+	}
+}
+
+// commandOf sets a command template; its shape is checked with the whole command set
+// (checkCard), since which placeholder it needs depends on the key.
+func commandOf(p *string) setter {
+	return func(k, val string) error {
+		if strings.IndexFunc(val, unicode.IsControl) >= 0 {
+			return settingErr(k, "%q: a command is one line without control characters", val)
+		}
+		*p = normLine(val)
+		if *p == "" {
+			return settingErr(k, "%q: expected a command", val)
+		}
+		return nil
+	}
+}
+
 // setters returns the setters of the DUT's own keys; offset_lsb also sets
 // *offsetLSBSet.
 func (s *DUTSettings) setters(offsetLSBSet *bool) map[string]setter {
@@ -404,6 +534,53 @@ func (s *DUTSettings) setters(offsetLSBSet *bool) map[string]setter {
 			v, err := choice(k, val, string(DefectNone), string(DefectStuckBit), string(DefectNoisy), string(DefectOpen))
 			s.Defect = Defect(v)
 			return err
+		},
+		"gain": func(k, val string) (err error) {
+			if s.Gain, err = plain(k, val); err == nil && (s.Gain == 0 || math.IsInf(s.Gain, 0) || math.IsNaN(s.Gain)) {
+				err = settingErr(k, "%q: expected a finite, non-zero gain in V/V", val)
+			}
+			return err
+		},
+		"output_at_zero": overrideOf(&s.OutputAtZero, units.Volt),
+		"gain_pivot":     overrideOf(&s.GainPivot, units.Volt),
+		"rail_low":       overrideOf(&s.RailLow, units.Volt),
+		"rail_high":      overrideOf(&s.RailHigh, units.Volt),
+		"rail_knee":      positiveOf(&s.RailKnee, units.Volt),
+		"trim": func(k, val string) error {
+			v, err := choice(k, val, string(TrimBoth), string(TrimOffset), string(TrimGain))
+			s.Trim = Trim(v)
+			return err
+		},
+		"offset_bits":   bitsOf(&s.OffsetBits),
+		"gain_bits":     bitsOf(&s.GainBits),
+		"offset_coding": codingOf(&s.OffsetCoding),
+		"gain_coding":   codingOf(&s.GainCoding),
+		"code_format": func(k, val string) error {
+			v, err := choice(k, val, string(CodeDecimal), string(CodeHex))
+			s.CodeFormat = CodeFormat(v)
+			return err
+		},
+		"cmd_serial":       commandOf(&s.Protocol.Serial),
+		"cmd_firmware":     commandOf(&s.Protocol.Firmware),
+		"cmd_offset_write": commandOf(&s.Protocol.OffsetWrite),
+		"cmd_offset_read":  commandOf(&s.Protocol.OffsetRead),
+		"cmd_gain_write":   commandOf(&s.Protocol.GainWrite),
+		"cmd_gain_read":    commandOf(&s.Protocol.GainRead),
+		"cmd_store":        commandOf(&s.Protocol.Store),
+		"cmd_unlock": func(k, val string) error {
+			if strings.TrimSpace(val) == "" {
+				s.Protocol.Unlock = ""
+				return nil
+			}
+			return commandOf(&s.Protocol.Unlock)(k, val)
+		},
+		"firmware": func(k, val string) error {
+			v := strings.TrimSpace(val)
+			if v == "" || strings.IndexFunc(v, unicode.IsControl) >= 0 || strings.HasPrefix(v, "ERR") {
+				return settingErr(k, "%q: expected a non-empty one-line reply not starting ERR", val)
+			}
+			s.Firmware = v
+			return nil
 		},
 		"defect_rate": func(k, val string) error {
 			err := nonNegativeOf(&s.DefectRate, units.Ratio)(k, val)

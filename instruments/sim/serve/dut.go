@@ -3,7 +3,6 @@ package serve
 import (
 	"context"
 	"errors"
-	"strconv"
 	"strings"
 
 	"trimline/instruments/sim"
@@ -39,9 +38,9 @@ func (d *dutHandler) handle(ctx context.Context, line string, f Fault, n int) (s
 	case err != nil:
 		return "ERR " + err.Error(), true
 	}
-	if f.ReadbackMismatch && len(fields) == 2 && fields[0] == "TRIM" && (fields[1] == "OFS?" || fields[1] == "GAIN?") {
-		if c, err := strconv.Atoi(r); err == nil {
-			r = strconv.Itoa((c + 1) % (sim.MaxCode + 1))
+	if f.ReadbackMismatch {
+		if m, ok := d.dut.MisreadCode(line, r); ok {
+			r = m
 		}
 	}
 	return r, true

@@ -186,6 +186,33 @@ func TestDUTPort(t *testing.T) {
 	w.want("SN?", "BRX-0")
 }
 
+func TestConfiguredDUTPort(t *testing.T) {
+	sp := specs()
+	sp[2].Settings = map[string]string{"seed": "3", "offset_bits": "16", "offset_coding": "twos_complement",
+		"code_format": "hex", "trim": "offset", "cmd_offset_write": "CAL:OFFS {code}",
+		"cmd_offset_read": "CAL:OFFS?", "cmd_store": "CAL:SAVE", "cmd_unlock": "UNLOCK 5A17"}
+	srv, err := serve.Start(context.Background(), sp, serve.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	t.Cleanup(func() { srv.Close() })
+	w := connect(t, srv, "dut")
+	w.want("FIXTURE LOAD XA-000001", "OK")
+	w.want("CAL:OFFS?", "0000")
+	w.want("CAL:OFFS 0xFF9C", "ERR locked")
+	w.want("UNLOCK 5A17", "OK")
+	w.want("CAL:OFFS 0xFF9C", "OK")
+	w.want("CAL:OFFS?", "FF9C")
+	w.want("TRIM GAIN?", `ERR unknown command "TRIM GAIN?"`)
+	w.want("CAL:SAVE", "OK")
+	// The read-back fault follows the card's read command and code format, wrapping
+	// at 16 bits (hand-worked: FFFF + 1 = 0000).
+	srv.SetFault("dut", serve.Fault{ReadbackMismatch: true})
+	w.want("CAL:OFFS?", "FF9D")
+	w.want("CAL:OFFS FFFF", "OK")
+	w.want("CAL:OFFS?", "0000")
+}
+
 func TestDelayAndSilence(t *testing.T) {
 	srv := start(t, serve.Options{})
 	w := connect(t, srv, "meter")

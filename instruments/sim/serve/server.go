@@ -139,8 +139,9 @@ type Fault struct {
 	ErrorEntry string
 	// Overload makes every meter reading +9.9E37.
 	Overload bool
-	// ReadbackMismatch makes the DUT answer TRIM OFS? and TRIM GAIN? with the
-	// register's code plus one (modulo 4096).
+	// ReadbackMismatch makes the DUT answer its register reads (TRIM OFS? and TRIM
+	// GAIN? on the demo card) with the register's code plus one, wrapping at the
+	// DAC's width (modulo 4096 on the demo card).
 	ReadbackMismatch bool
 }
 
