@@ -29,10 +29,10 @@ func TestEveryErrorOfAFileAtOnce(t *testing.T) {
 				{"of_reading: 30\n", "has no unit"}, {"colour: grey", `unknown field "colour"`},
 			}},
 		{"brx200-sequence.yaml", strings.NewReplacer(
-			"  settle: 20 ms                  # wait", "  settle: 20 mV                  # wait",
+			"    settle: 20 ms                # wait", "    settle: 20 mV                # wait",
 			"  full_scale: 4 V", "  full_scale: 4 V\n  fullscale: 4 V",
 			"  nplc: 1 ", "  nplc: 5000 ",
-			"  points: 11\n  settle: 20 ms\n", "  points: many\n  settle: 20 ms\n"),
+			"    points: 11\n    settle: 20 ms\n", "    points: many\n    settle: 20 ms\n"),
 			[]struct{ needle, msg string }{
 				{"settle: 20 mV", "expected a time"}, {"fullscale:", `unknown field "fullscale"`},
 				{"nplc: 5000", "at most 1000 power-line cycles"}, {"points: many", "expected a whole number"},

@@ -57,17 +57,17 @@ func TestSequenceCountsAndDurationsBounded(t *testing.T) {
 		{"nplc", "nplc: 1 ", "nplc: 1e6 ", "1e6", "at most 1000 power-line cycles"},
 		{"sweep time", "points: 11", "points: 1001", "-10 mV", "expected a sweep of at most 1h0m0s"},
 		{"readings in a sweep", "", "", "", "expected at most 100000 readings in a sweep: 1001 points × 1000 readings"},
-		{"Monte Carlo trials", "dut:\n", "uncertainty: {method: monte_carlo, trials: 100000000}\ndut:\n", "100000000", "expected at most 1000000 Monte Carlo trials"},
+		{"Monte Carlo trials", "steps:\n", "uncertainty: {method: monte_carlo, trials: 100000000}\nsteps:\n", "100000000", "expected at most 1000000 Monte Carlo trials"},
 	} {
 		switch c.name {
 		case "sweep time":
-			c.old = "points: 11\n  settle: 20 ms\n  readings: 8"
-			c.new = "points: 101\n  settle: 60 s\n  readings: 990"
-			c.mark = ": -10 mV" // the verify sweep: the parser places its mapping at the first ":"
+			c.old = "points: 11\n    settle: 20 ms\n    readings: 8"
+			c.new = "points: 101\n    settle: 60 s\n    readings: 990"
+			c.mark = ": sweep                  # the unit as left" // a problem of the whole step: the parser places its mapping at the first ":"
 		case "readings in a sweep":
-			c.old = "points: 11\n  settle: 20 ms\n  readings: 8"
-			c.new = "points: 1001\n  settle: 20 ms\n  readings: 1000"
-			c.mark = ": -10 mV"
+			c.old = "points: 11\n    settle: 20 ms\n    readings: 8"
+			c.new = "points: 1001\n    settle: 20 ms\n    readings: 1000"
+			c.mark = ": sweep                  # the unit as left"
 		}
 		c.check(t, "brx200-sequence.yaml", parse)
 	}

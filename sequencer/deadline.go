@@ -13,11 +13,13 @@ import (
 // watchdog, the step first arms it again (every sweep point is a step), so the
 // output stays on only while the engine keeps stepping.
 func (e *Engine) step(ctx context.Context, f func(ctx context.Context) error) error {
-	if e.watchdog != nil {
+	if len(e.watchdogs) > 0 {
 		g := f
 		f = func(ctx context.Context) error {
-			if err := e.watchdog.ArmWatchdog(ctx); err != nil {
-				return fmt.Errorf("source: arm output watchdog: %w", err)
+			for _, w := range e.watchdogs {
+				if err := w.ArmWatchdog(ctx); err != nil {
+					return fmt.Errorf("source: arm output watchdog: %w", err)
+				}
 			}
 			return g(ctx)
 		}

@@ -48,20 +48,22 @@ type Config struct {
 // Engine runs units on one opened bench. It is not safe for concurrent use: one
 // fixture, one unit at a time.
 type Engine struct {
-	cfg    Config
-	all    map[string]instruments.Instrument
-	source instruments.Source
-	meter  instruments.Meter
-	dut    instruments.TrimPort
-	clock  instruments.Clock
-	refs   []InstrumentRef
-	log    zerolog.Logger // the current run's logger
-	closed bool
+	cfg     Config
+	all     map[string]instruments.Instrument
+	roles   []string // opened roles, sources first
+	sources map[string]instruments.Source
+	meters  map[string]instruments.Meter
+	ports   map[string]instruments.TrimPort
+	meterAt map[string]MeterPlan // how each meter is configured now
+	clock   instruments.Clock
+	refs    []InstrumentRef
+	log     zerolog.Logger // the current run's logger
+	closed  bool
 
-	// watchdog is the source's output watchdog, nil when it has none: armed at
-	// every step, disarmed once the output is off.
-	watchdog instruments.OutputWatchdog
-	queues   []roleQueue // instruments with an error queue, in role order
+	// watchdogs are the sources' output watchdogs (those that have one): armed
+	// at every step, disarmed once the output is off.
+	watchdogs []instruments.OutputWatchdog
+	queues    []roleQueue // instruments with an error queue, in role order
 }
 
 // Open checks the station against the sequence (caps, roles, predicted TUR), opens
@@ -87,25 +89,51 @@ func Open(ctx context.Context, cfg Config) (*Engine, error) {
 	if err != nil {
 		return nil, err
 	}
-	e := &Engine{cfg: cfg, all: all, clock: instruments.RealClock{}}
+	e := &Engine{cfg: cfg, all: all, clock: instruments.RealClock{}, sources: map[string]instruments.Source{},
+		meters: map[string]instruments.Meter{}, ports: map[string]instruments.TrimPort{}, meterAt: map[string]MeterPlan{}}
 	fail := func(err error) (*Engine, error) {
 		e.Close()
 		return nil, err
 	}
-	var ok bool
-	if e.source, ok = all["source"].(instruments.Source); !ok {
-		return fail(fmt.Errorf("source at %s is not a voltage source", st.Instruments["source"].Address))
+	for _, r := range st.Roles() {
+		if _, opened := all[r]; opened {
+			e.roles = append(e.roles, r)
+		}
 	}
-	e.watchdog, _ = e.source.(instruments.OutputWatchdog)
-	if e.meter, ok = all["meter"].(instruments.Meter); !ok {
-		return fail(fmt.Errorf("meter at %s is not a voltmeter", st.Instruments["meter"].Address))
-	}
-	if e.dut, ok = all["dut"].(instruments.TrimPort); !ok {
-		return fail(fmt.Errorf("dut at %s is not a trim port", st.Instruments["dut"].Address))
-	}
-	for _, r := range Roles {
-		if q, ok := all[r].(instruments.ErrorQueue); ok {
+	for _, r := range e.roles {
+		si, in := st.Instruments[r], all[r]
+		switch si.Kind {
+		case VoltageSource:
+			src, ok := in.(instruments.Source)
+			if !ok {
+				return fail(fmt.Errorf("%s at %s is not a voltage source", r, si.Address))
+			}
+			e.sources[r] = src
+			if w, ok := src.(instruments.OutputWatchdog); ok {
+				e.watchdogs = append(e.watchdogs, w)
+			}
+		case VoltMeter:
+			m, ok := in.(instruments.Meter)
+			if !ok {
+				return fail(fmt.Errorf("%s at %s is not a voltmeter", r, si.Address))
+			}
+			e.meters[r] = m
+		case DUTPort:
+			p, ok := in.(instruments.TrimPort)
+			if !ok {
+				return fail(fmt.Errorf("%s at %s is not a trim port", r, si.Address))
+			}
+			e.ports[r] = p
+		}
+		if q, ok := in.(instruments.ErrorQueue); ok {
 			e.queues = append(e.queues, roleQueue{r, q})
+		}
+	}
+	for _, d := range seq.Steps {
+		for _, ru := range d.Roles {
+			if k := st.Instruments[ru.Role].Kind; k != ru.Kind {
+				return fail(fmt.Errorf("step %q (%s) uses the %s role as a %s, but station %s binds it as a %s", d.Name, d.Where, ru.Role, ru.Kind, st.ID, k))
+			}
 		}
 	}
 	for _, r := range seq.Requires {
@@ -125,8 +153,8 @@ func Open(ctx context.Context, cfg Config) (*Engine, error) {
 				return fail(fmt.Errorf("%s %s: calibration expired on %s; recalibrate it or fix cal_due in %s", r, si.Asset, ref.CalDue, st.File.Name))
 			}
 		}
-		// The DUT's identity belongs to the unit in the fixture, read per run.
-		if id, ok := all[r].(instruments.Identifier); ok && r != "dut" {
+		// A DUT port's identity belongs to the unit in the fixture, read per run.
+		if id, ok := all[r].(instruments.Identifier); ok && si.Kind != DUTPort {
 			got, err := id.Identify(ctx)
 			if err != nil {
 				return fail(fmt.Errorf("%s: identify: %w", r, err))
@@ -144,18 +172,41 @@ func Open(ctx context.Context, cfg Config) (*Engine, error) {
 			return fail(fmt.Errorf("interlock: the %s at %s cannot be queried", il.Role, st.Instruments[il.Role].Address))
 		}
 	}
-	if err := e.safeState(ctx); err != nil {
-		return fail(fmt.Errorf("put source in a safe state: %w", err))
+	for _, r := range e.roles {
+		src, ok := e.sources[r]
+		if !ok {
+			continue
+		}
+		if err := e.safeState(ctx, src); err != nil {
+			return fail(fmt.Errorf("put %s in a safe state: %w", r, err))
+		}
+		if err := src.SetCompliance(ctx, st.MaxSourceAmps); err != nil {
+			return fail(fmt.Errorf("%s: set compliance: %w", r, err))
+		}
 	}
-	if err := e.source.SetCompliance(ctx, st.MaxSourceAmps); err != nil {
-		return fail(fmt.Errorf("source: set compliance: %w", err))
-	}
-	if mc, ok := e.meter.(instruments.MeterConfigurer); ok {
-		if err := mc.Configure(ctx, seq.Meter.Range, seq.Meter.NPLC); err != nil {
-			return fail(fmt.Errorf("meter: configure: %w", err))
+	for _, r := range e.roles {
+		if _, ok := e.meters[r]; ok {
+			if err := e.configureMeter(ctx, r, seq.Meter); err != nil {
+				return fail(err)
+			}
 		}
 	}
 	return e, nil
+}
+
+// configureMeter sets the meter's range and integration time unless it is so
+// set already.
+func (e *Engine) configureMeter(ctx context.Context, role string, p MeterPlan) error {
+	if at, ok := e.meterAt[role]; ok && at == p {
+		return nil
+	}
+	if mc, ok := e.meters[role].(instruments.MeterConfigurer); ok {
+		if err := mc.Configure(ctx, p.Range, p.NPLC); err != nil {
+			return fmt.Errorf("%s: configure: %w", role, err)
+		}
+	}
+	e.meterAt[role] = p
+	return nil
 }
 
 // Instrument returns the opened instrument for role, or nil.
@@ -168,11 +219,8 @@ func (e *Engine) Close() error {
 		return nil
 	}
 	e.closed = true
-	var first error
-	if e.source != nil {
-		first = e.safeOff()
-	}
-	for _, r := range Roles {
+	first := e.safeOff()
+	for _, r := range e.roles {
 		if in, ok := e.all[r]; ok {
 			if err := in.Close(); err != nil && first == nil {
 				first = err
@@ -202,7 +250,7 @@ func (e *Engine) Run(ctx context.Context, serial string) (rec *Record) {
 		Files:       []FileRef{st.File, seq.File, seq.LimitsFile},
 		Instruments: append([]InstrumentRef(nil), e.refs...),
 		IdealGain:   seq.IdealGain, IdealOffset: seq.IdealOffset, FullScale: seq.FullScale,
-		Conditions: e.cfg.Conditions, Coverage: e.coverage(), Engineering: e.cfg.Engineering,
+		Conditions: e.cfg.Conditions, Coverage: coverage(seq), Engineering: e.cfg.Engineering,
 	}
 	if e.cfg.NewID != nil {
 		rec.RunID = e.cfg.NewID(now)
@@ -211,6 +259,8 @@ func (e *Engine) Run(ctx context.Context, serial string) (rec *Record) {
 	}
 	log := e.cfg.Log.With().Str("serial", serial).Str("run", rec.RunID).Logger()
 	e.log = log
+	u := newUnit(e.cfg, rec, live)
+	u.e, u.log = e, log
 	defer func() {
 		if p := recover(); p != nil {
 			log.Error().Str("stack", string(debug.Stack())).Msgf("panic: %v", p)
@@ -227,7 +277,7 @@ func (e *Engine) Run(ctx context.Context, serial string) (rec *Record) {
 		}
 		rec.Finished = e.clock.Now().UTC()
 	}()
-	err := e.run(ctx, rec)
+	err := e.run(ctx, u)
 	var s *stop
 	switch {
 	case err == nil:
@@ -249,8 +299,8 @@ func (e *Engine) Run(ctx context.Context, serial string) (rec *Record) {
 	return rec
 }
 
-func (e *Engine) run(ctx context.Context, rec *Record) error {
-	seq := e.cfg.Sequence
+func (e *Engine) run(ctx context.Context, u *Unit) error {
+	seq, rec := e.cfg.Sequence, u.Rec
 	// A long batch can outlive a calibration: check every unit, not just at open.
 	for _, r := range seq.Requires {
 		si := e.cfg.Station.Instruments[r]
@@ -259,112 +309,54 @@ func (e *Engine) run(ctx context.Context, rec *Record) error {
 				r, si.Asset, si.CalDue.Format("2006-01-02"), e.cfg.Station.File.Name)}
 		}
 	}
-	if err := e.step(ctx, func(ctx context.Context) error { return e.identifyUnit(ctx, rec) }); err != nil {
-		return err
-	}
-
-	// Known starting state: record what the unit holds, then apply no correction.
-	// trims[i] is the record of seq.Trim.DACs()[i].
-	dacs := seq.Trim.DACs()
-	trims := make([]TrimCode, len(dacs))
-	for i, d := range dacs {
-		trims[i].DAC = d.Name
-		err := e.step(ctx, func(ctx context.Context) error {
-			c, err := e.readCode(ctx, d)
-			trims[i].Before = c
-			return err
-		})
-		if err != nil {
-			return err
-		}
-		if err := e.writeCode(ctx, d, d.NoCorrection); err != nil {
-			return err
-		}
-	}
-	return e.measure(ctx, rec, trims)
-}
-
-// identifyUnit tells a simulated fixture which unit it holds (FixtureLoader),
-// checks the unit reports the scanned serial and records its firmware.
-func (e *Engine) identifyUnit(ctx context.Context, rec *Record) error {
-	seq := e.cfg.Sequence
-	if fl, ok := e.dut.(instruments.FixtureLoader); ok {
-		if err := fl.LoadUnit(ctx, rec.Serial); err != nil {
-			return fmt.Errorf("load unit into fixture: %w", err)
-		}
-	}
-	if q := seq.DUT.SerialQuery; q != "" {
-		got, err := e.dut.Query(ctx, q)
-		if err != nil {
-			return fmt.Errorf("dut: read serial number: %w", err)
-		}
-		if strings.TrimSpace(got) != rec.Serial {
-			return &stop{Fault, fmt.Sprintf("the unit in the fixture reports serial %q but %q was scanned: wrong unit in the fixture", strings.TrimSpace(got), rec.Serial)}
-		}
-	}
-	if q := seq.DUT.FirmwareQuery; q != "" {
-		fw, err := e.dut.Query(ctx, q)
-		if err != nil {
-			return fmt.Errorf("dut: read firmware id: %w", err)
-		}
-		for i := range rec.Instruments {
-			if rec.Instruments[i].Role == "dut" {
-				rec.Instruments[i].Identity = instruments.Identity{Maker: orZero(seq.Maker), Model: orZero(seq.Product), Serial: rec.Serial, Firmware: strings.TrimSpace(fw)}
+	// A simulated fixture is told which unit it holds.
+	for _, r := range e.roles {
+		if fl, ok := e.ports[r].(instruments.FixtureLoader); ok {
+			err := e.step(ctx, func(ctx context.Context) error { return fl.LoadUnit(ctx, rec.Serial) })
+			if err != nil {
+				return fmt.Errorf("load unit into fixture: %w", err)
 			}
 		}
 	}
-	return nil
-}
-
-// measure runs the sweeps, the trim and the verification for a unit whose trim
-// DACs hold no correction.
-func (e *Engine) measure(ctx context.Context, rec *Record, trims []TrimCode) error {
-	seq := e.cfg.Sequence
-
-	pre, err := e.sweep(ctx, SweepPreTrim, seq.PreTrim)
-	e.annotate(&pre)
-	rec.Sweeps = append(rec.Sweeps, pre)
-	if err != nil {
+	if err := runSteps(ctx, u); err != nil {
 		return err
 	}
-	res := newResults()
-	if !e.evalPre(rec, res, pre, trims) {
-		if err := e.checkErrorsBeforeVerdict(ctx); err != nil {
-			return err
-		}
-		e.finish(rec, res)
-		return nil
-	}
-	trims = rec.Trims
-
-	for i, d := range seq.Trim.DACs() {
-		if err := e.writeCode(ctx, d, trims[i].Code); err != nil {
-			return err
-		}
-		trims[i].Readback, trims[i].Written = trims[i].Code, true
-	}
-	if seq.Trim.Store != "" {
-		err := e.step(ctx, func(ctx context.Context) error { return e.dut.Command(ctx, seq.Trim.Store) })
-		if err != nil {
-			return fmt.Errorf("dut: store trim codes: %w", err)
-		}
-		for i := range trims {
-			trims[i].Stored = true
-		}
-	}
-	rec.Trims = trims
-
-	post, err := e.sweep(ctx, SweepVerify, seq.Verify)
-	e.annotate(&post)
-	rec.Sweeps = append(rec.Sweeps, post)
-	if err != nil {
-		return err
-	}
-	e.evalPost(rec, res, post)
 	if err := e.checkErrorsBeforeVerdict(ctx); err != nil {
 		return err
 	}
-	e.finish(rec, res)
+	finish(u)
+	return nil
+}
+
+// runSteps runs the sequence's steps for the unit, in order: a step whose skip_if
+// holds is skipped, and once a step ends the run the rest are not reached.
+func runSteps(ctx context.Context, u *Unit) error {
+	for _, d := range u.seq.Steps {
+		sr := StepRun{Name: d.Name, Kind: d.Kind, Stage: d.Stage, Status: StepDone}
+		switch {
+		case u.ended:
+			sr.Status, sr.Note = StepNotReached, u.endNote
+		case d.skip != nil:
+			skip, note, err := d.skip.eval(u)
+			if err != nil {
+				return fmt.Errorf("step %q: skip_if: %w", d.Name, err)
+			}
+			if skip {
+				sr.Status, sr.Note = StepSkipped, "skip_if "+d.SkipIf
+			} else {
+				sr.Note = note
+			}
+		}
+		if sr.Status == StepDone {
+			u.step = d
+			if err := d.Step.Run(ctx, u); err != nil {
+				return err
+			}
+		}
+		if u.mode != predicting {
+			u.Rec.Steps = append(u.Rec.Steps, sr)
+		}
+	}
 	return nil
 }
 

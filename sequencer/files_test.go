@@ -67,11 +67,24 @@ func TestDemoFilesLoad(t *testing.T) {
 	near(t, "max source voltage", st.MaxSourceVolts, 0.05, 1e-15)
 	near(t, "max source current", st.MaxSourceAmps, 0.01, 1e-15)
 	near(t, "meter of_reading", st.Instruments["meter"].Accuracy.OfReading, 30e-6, 1e-18)
-	near(t, "offset LSB", seq.Trim.Offset.LSB, 12.2e-6, 1e-18)
-	near(t, "gain LSB", seq.Trim.Gain.LSB, 10e-6, 1e-18)
-	near(t, "from", seq.PreTrim.From, -0.01, 1e-15)
-	if seq.PreTrim.Settle.Milliseconds() != 20 || seq.PreTrim.Points != 11 || seq.Limits == nil || len(seq.Limits.Limits) != 8 {
-		t.Errorf("sequence parsed wrong: %+v", seq.PreTrim)
+	ofs, _ := seq.DAC("offset")
+	gain, _ := seq.DAC("gain")
+	pre, _ := seq.Sweep(sequencer.SweepPreTrim)
+	near(t, "offset LSB", ofs.LSB, 12.2e-6, 1e-18)
+	near(t, "gain LSB", gain.LSB, 10e-6, 1e-18)
+	near(t, "from", pre.From, -0.01, 1e-15)
+	if pre.Settle.Milliseconds() != 20 || pre.Points != 11 || seq.Limits == nil || len(seq.Limits.Limits) != 8 {
+		t.Errorf("sequence parsed wrong: %+v", pre)
+	}
+	var kinds []string
+	for _, d := range seq.Steps {
+		kinds = append(kinds, d.Kind)
+	}
+	if got := strings.Join(kinds, " "); got != "identify clear_trim sweep fit trim store sweep fit" {
+		t.Errorf("steps %s", got)
+	}
+	if got := strings.Join(seq.Requires, " "); got != "source meter dut" {
+		t.Errorf("requires %s", got)
 	}
 	if len(st.File.SHA256) != 64 || len(seq.File.SHA256) != 64 {
 		t.Error("file hashes missing")
@@ -92,13 +105,18 @@ func TestFileErrorsArePositioned(t *testing.T) {
 		msgContain string
 	}{
 		{"unknown key", "station", "  name: Demo line", "  nmae: Demo line", "nmae:", 3, "unknown field \"nmae\""},
-		{"wrong type", "sequence", "  points: 11\n  settle: 20 ms                  # wait", "  points: eleven\n  settle: 20 ms                  # wait", "points: eleven", 11, "expected a whole number"},
+		{"wrong type", "sequence", "    points: 11\n    settle: 20 ms                # wait", "    points: eleven\n    settle: 20 ms                # wait", "points: eleven", 13, "expected a whole number"},
 		{"missing required key", "station", "    asset: DMM-0203\n", "", "  meter:", 0, "missing required key \"asset\""},
 		{"duplicate key", "station", "    asset: STD-0117 ", "    asset: STD-0118\n    asset: STD-0117 ", "asset: STD-0117 ", 5, "duplicate key"},
 		{"bad unit", "station", "max_source_voltage: 50 mV", "max_source_voltage: 50 mX", "50 mX", 23, "unknown unit \"mX\""},
-		{"wrong dimension", "sequence", "  settle: 20 ms                  # wait", "  settle: 20 mV                  # wait", "settle: 20 mV", 11, "expected a time"},
-		{"unknown role", "station", "  dut:", "  fixture_dut:", "fixture_dut:", 3, "unknown role \"fixture_dut\""},
-		{"unknown role in requires", "sequence", "requires: [source, meter, dut]", "requires: [source, meter, dvm]", "requires:", 27, "unknown role \"dvm\""},
+		{"wrong dimension", "sequence", "    settle: 20 ms                # wait", "    settle: 20 mV                # wait", "settle: 20 mV", 13, "expected a time"},
+		{"role without a kind", "station", "  dut:", "  fixture_dut:", "fixture_dut:", 3, "missing required key \"kind\" for role \"fixture_dut\""},
+		{"unknown instrument kind", "station", "  dut:", "  dut:\n    kind: dut_socket", "kind: dut_socket", 11, "unknown instrument kind \"dut_socket\""},
+		{"role the steps use but requires omits", "sequence", "requires: [source, meter, dut]", "requires: [source, meter, dvm]", "requires:", 11, "the steps use the \"dut\" role, which requires does not list"},
+		{"unknown step kind", "sequence", "  - kind: store", "  - kind: save", "kind: save", 11, "unknown step kind \"save\" (expected one of clear_trim, command, fit, identify, store, sweep, trim)"},
+		{"fit of a sweep that comes later", "sequence", "    sweep: pre-trim\n", "    sweep: verify\n", "sweep: verify", 12, "no earlier sweep step called \"verify\""},
+		{"unknown DAC in a trim", "sequence", "      gain: gain_code", "      gian: gain_code", "gian: gain_code", 13, "no trim DAC \"gian\""},
+		{"skip_if over a later result", "sequence", "    command: \"NV STORE\"\n", "    command: \"NV STORE\"\n    skip_if: post_offset > 0\n", "skip_if: post_offset", 14, "unknown name post_offset"},
 		{"bad DAC template", "sequence", `write: "TRIM OFS {code}"`, `write: "TRIM OFS"`, `write: "TRIM OFS"`, 12, "{code}"},
 		{"bad date", "station", "cal_due: 2027-12-31         # last", "cal_due: 31.12.2027         # last", "31.12.2027", 14, "YYYY-MM-DD"},
 	}

@@ -48,8 +48,10 @@ func TestSweepAtTheCapRuns(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if seq.PreTrim.Points != 7 || seq.Verify.Points != 7 {
-		t.Fatalf("sequence not edited: %+v", seq.PreTrim)
+	pre, _ := seq.Sweep(sequencer.SweepPreTrim)
+	post, _ := seq.Sweep(sequencer.SweepVerify)
+	if pre.Points != 7 || post.Points != 7 {
+		t.Fatalf("sequence not edited: %+v", pre)
 	}
 	st, err := sequencer.ParseStation("brx200-station.yaml", []byte(strings.Replace(demoFile(t, "brx200-station.yaml"),
 		"max_source_voltage: 50 mV", "max_source_voltage: 12 mV", 1)))
@@ -73,7 +75,7 @@ func TestSweepAtTheCapRuns(t *testing.T) {
 		t.Fatalf("verdict %s: %s", rec.Verdict, rec.Fault)
 	}
 	last := rec.Sweeps[0].Points[len(rec.Sweeps[0].Points)-1].Stimulus
-	if last != seq.PreTrim.To {
-		t.Errorf("last level programmed %.17g, want exactly %.17g", last, seq.PreTrim.To)
+	if last != pre.To {
+		t.Errorf("last level programmed %.17g, want exactly %.17g", last, pre.To)
 	}
 }

@@ -17,9 +17,10 @@ type analysis struct {
 	poolDOF float64 // degrees of freedom of the pooled standard deviation, Σ(n_i − 1)
 }
 
-func (e *Engine) specs() (meter, source uncertainty.Spec, resolution float64) {
-	m := e.cfg.Station.Instruments["meter"].Accuracy
-	s := e.cfg.Station.Instruments["source"].Accuracy
+// specs are the accuracy specifications of the sweep's meter and source.
+func specs(st *Station, p SweepPlan) (meter, source uncertainty.Spec, resolution float64) {
+	m := st.Instruments[p.Meter].Accuracy
+	s := st.Instruments[p.Source].Accuracy
 	return uncertainty.Spec{OfReading: m.OfReading, OfRange: m.OfRange, Range: m.Range},
 		uncertainty.Spec{OfReading: s.OfReading, OfRange: s.OfRange, Range: s.Range}, m.Resolution
 }
@@ -30,9 +31,9 @@ func (e *Engine) specs() (meter, source uncertainty.Spec, resolution float64) {
 // Σ(n_i − 1) degrees of freedom is far better than eleven estimates from 8 readings
 // each); weights then differ only where the number of readings does, and a chance
 // small SD at one point cannot tilt the line.
-func (e *Engine) annotate(sw *Sweep) {
-	meter, source, res := e.specs()
-	g := e.cfg.Sequence.IdealGain
+func annotate(cfg Config, plan SweepPlan, sw *Sweep) {
+	meter, source, res := specs(cfg.Station, plan)
+	g := cfg.Sequence.IdealGain
 	sp, _ := pooledSD(sw.Points)
 	for i := range sw.Points {
 		p := &sw.Points[i]
@@ -56,7 +57,7 @@ func (e *Engine) annotate(sw *Sweep) {
 // including the correlated parts of the source and meter errors. Any point with an
 // invalid reading (NaN, infinite, overload) makes the fit unusable, because a
 // flagged reading must never contribute to a passing result.
-func (e *Engine) analyse(sw Sweep, seed string) (analysis, error) {
+func analyse(cfg Config, plan SweepPlan, sw Sweep, seed string) (analysis, error) {
 	x := make([]float64, len(sw.Points))
 	y := make([]float64, len(sw.Points))
 	ur := make([]float64, len(sw.Points))
@@ -75,7 +76,7 @@ func (e *Engine) analyse(sw Sweep, seed string) (analysis, error) {
 		}
 		x[i], y[i], ur[i], dof[i] = p.Stimulus, p.Mean, p.URandom, pdof
 	}
-	meter, source, res := e.specs()
+	meter, source, res := specs(cfg.Station, plan)
 	us := uncertainty.Sweep{X: x, Y: y, URandom: ur, DOFRandom: dof, Meter: meter, MeterResolution: res, Source: source}
 	lf, err := uncertainty.FitLine(us)
 	if err != nil {
@@ -94,11 +95,11 @@ func (e *Engine) analyse(sw Sweep, seed string) (analysis, error) {
 		maxAbs = math.Max(maxAbs, math.Abs(r))
 	}
 	s.ResidualSD = math.Sqrt(rss / float64(s.DOF))
-	s.Nonlinearity = maxAbs / e.cfg.Sequence.FullScale
-	if e.cfg.Sequence.Uncertainty == "monte_carlo" {
+	s.Nonlinearity = maxAbs / cfg.Sequence.FullScale
+	if cfg.Sequence.Uncertainty == "monte_carlo" {
 		h := fnv.New64a()
 		h.Write([]byte(seed + "/" + sw.Name))
-		mc, err := uncertainty.MonteCarlo(us, e.cfg.Sequence.MCTrials, h.Sum64())
+		mc, err := uncertainty.MonteCarlo(us, cfg.Sequence.MCTrials, h.Sum64())
 		if err != nil {
 			return analysis{}, fmt.Errorf("monte carlo: %w", err)
 		}
@@ -134,63 +135,6 @@ func firstBad(rs []instruments.Reading) string {
 		}
 	}
 	return "no reading"
-}
-
-// method names the evaluation recorded with every uncertainty.
-func (e *Engine) method() string {
-	if e.cfg.Sequence.Uncertainty == "monte_carlo" {
-		return "MC"
-	}
-	return "GUM"
-}
-
-// unc expands a standard uncertainty at the limit set's coverage probability.
-func (e *Engine) unc(u, dof float64) Uncertainty {
-	if !(u >= 0) || math.IsInf(u, 0) {
-		return Uncertainty{}
-	}
-	if dof <= 0 || math.IsNaN(dof) {
-		dof = math.Inf(1)
-	}
-	p := e.coverage()
-	k, U := uncertainty.Expand(u, dof, p)
-	return Uncertainty{Std: u, DOF: dof, K: k, Expanded: U, Method: e.method()}
-}
-
-func (e *Engine) coverage() float64 {
-	if s := e.cfg.Sequence.Limits; s != nil {
-		if p := s.Policy().Coverage; p > 0 && p < 1 {
-			return p
-		}
-	}
-	return 0.9545
-}
-
-// fitResults sets the offset, gain error and nonlinearity of one analysed sweep,
-// with their uncertainties.
-func (e *Engine) fitResults(res *results, a analysis, offset, gainErr, nonlin string) {
-	seq := e.cfg.Sequence
-	uo, do := a.lf.Linear([2]float64{1, 0})
-	res.setU(offset, a.sum.Intercept-seq.IdealOffset, e.unc(uo, do))
-	ug, dg := a.lf.Linear([2]float64{0, 1 / seq.IdealGain})
-	res.setU(gainErr, a.sum.Slope/seq.IdealGain-1, e.unc(math.Abs(ug), dg))
-	// Nonlinearity: the largest residual; its uncertainty is that residual's own
-	// (random part only: shared gain and offset errors do not bend the line).
-	ru := make([]float64, len(a.sw.X))
-	for i := range ru {
-		ru[i] = math.Hypot(a.sw.URandom[i], a.sw.MeterResolution/(2*math.Sqrt(3)))
-	}
-	imax := 0
-	for i, r := range a.sum.Residuals {
-		if math.Abs(r) > math.Abs(a.sum.Residuals[imax]) {
-			imax = i
-		}
-	}
-	var un, dn float64
-	if ur := uncertainty.ResidualU(a.sw.X, ru); len(ur) > imax && !math.IsNaN(ur[imax]) {
-		un, dn = ur[imax]/seq.FullScale, a.poolDOF
-	}
-	res.setU(nonlin, a.sum.Nonlinearity, e.unc(un, dn))
 }
 
 // pointErrorU is the standard uncertainty of one point's deviation from the ideal

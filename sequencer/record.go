@@ -9,7 +9,7 @@ import (
 
 // RecordSchema is the version of the Record layout. Bump it when a field changes
 // meaning; readers of old ledgers switch on it.
-const RecordSchema = 1
+const RecordSchema = 2
 
 // Verdict is the outcome of one unit's run. PASS, REVIEW and FAIL are the limit
 // file's overall verdicts (limits.VerdictPass, VerdictReview, VerdictFail) as the
@@ -91,6 +91,8 @@ type Record struct {
 	Conditions Conditions `json:"conditions"`
 	Coverage   float64    `json:"coverage"` // coverage probability of every expanded uncertainty, e.g. 0.9545
 
+	// Steps says, step by step, what the run did (records of schema 2).
+	Steps    []StepRun        `json:"steps,omitempty"`
 	Results  []Result         `json:"results"`
 	Outcomes []limits.Outcome `json:"limits"`
 
@@ -105,6 +107,22 @@ type Record struct {
 	Reasons  []string `json:"reasons,omitempty"` // why the verdict is not PASS, in order
 	Fault    string   `json:"fault,omitempty"`   // the station fault message, for FAULT and ABORTED
 }
+
+// StepRun is what one step of the sequence did in a run.
+type StepRun struct {
+	Name   string `json:"name"`
+	Kind   string `json:"kind"`
+	Stage  Stage  `json:"stage,omitempty"`
+	Status string `json:"status"`         // StepDone, StepSkipped or StepNotReached
+	Note   string `json:"note,omitempty"` // why it was skipped or not reached
+}
+
+// What a step did.
+const (
+	StepDone       = "done"
+	StepSkipped    = "skipped"     // its skip_if held
+	StepNotReached = "not reached" // an earlier step ended the run
+)
 
 // FileRef names one input file and the SHA-256 of its exact bytes.
 type FileRef struct {
@@ -127,7 +145,10 @@ type InstrumentRef struct {
 
 // Sweep is one pass across the stimulus range.
 type Sweep struct {
-	Name   string  `json:"name"` // SweepPreTrim or SweepVerify
+	Name string `json:"name"` // the sweep step's name (SweepPreTrim or SweepVerify in records of schema 1)
+	// Stage is what the sweep measures: the unit as found or as left (0 in
+	// records of schema 1: SweepStage tells it from the name).
+	Stage  Stage   `json:"stage,omitempty"`
 	Points []Point `json:"points"`
 }
 
@@ -137,8 +158,17 @@ const (
 	SweepVerify  = "verify"   // the unit as left, after trim
 )
 
-// SweepStage is the stage a sweep of that name measures: AsFound for the
-// pre-trim sweep, AsLeft for the verify sweep, 0 for any other name.
+// StageOf is the stage sw measures: its own, or in a record of schema 1 the one
+// its name says (AsFound for the pre-trim sweep, AsLeft for the verify sweep).
+func (sw Sweep) StageOf() Stage {
+	if sw.Stage != 0 {
+		return sw.Stage
+	}
+	return SweepStage(sw.Name)
+}
+
+// SweepStage is the stage a sweep of a schema-1 record measures by its name:
+// AsFound for the pre-trim sweep, AsLeft for the verify sweep, 0 for any other.
 func SweepStage(name string) Stage {
 	switch name {
 	case SweepPreTrim:
@@ -167,9 +197,12 @@ type Point struct {
 // the stimulus in volts and y the mean output in volts.
 type FitSummary struct {
 	Sweep        string        `json:"sweep"`
-	Slope        float64       `json:"slope"`       // V/V
-	Intercept    float64       `json:"intercept_v"` // V at x = 0
-	Cov          [2][2]float64 `json:"cov"`         // covariance of (intercept, slope)
+	Step         string        `json:"step,omitempty"`  // the fit step's name ("" in records of schema 1)
+	Order        int           `json:"order,omitempty"` // 1 (a line) or 2; 0 in records of schema 1, which are lines
+	Coef         []float64     `json:"coef,omitempty"`  // order 2: b0, b1, b2 of y = b0 + b1·x + b2·x², V, V/V, 1/V
+	Slope        float64       `json:"slope"`           // V/V
+	Intercept    float64       `json:"intercept_v"`     // V at x = 0
+	Cov          [2][2]float64 `json:"cov"`             // covariance of (intercept, slope)
 	ResidualSD   float64       `json:"residual_sd_v"`
 	DOF          int           `json:"dof"`
 	Residuals    []float64     `json:"residuals_v"`
@@ -179,6 +212,20 @@ type FitSummary struct {
 	// covariance misses; uncertainties of results come from CovTotal.
 	CovTotal [2][2]float64 `json:"cov_total"`
 	DOFEff   float64       `json:"dof_eff"` // effective dof of the intercept's uncertainty
+	// LackOfFit says how well the model fits the points beyond their own scatter.
+	LackOfFit *LackOfFit `json:"lack_of_fit,omitempty"`
+}
+
+// LackOfFit is a fit's lack-of-fit statistic: χ²/ν of the residuals against the
+// points' random uncertainties, or, where stimulus levels repeat, the F ratio of
+// the lack-of-fit mean square to the pure-error mean square (NIST/SEMATECH
+// e-Handbook §4.4.4), with its degrees of freedom and upper-tail probability.
+type LackOfFit struct {
+	Method    string  `json:"method"` // "chi2/dof" or "F"
+	Statistic float64 `json:"statistic"`
+	DOF1      float64 `json:"dof1"`
+	DOF2      float64 `json:"dof2,omitempty"` // F only
+	P         float64 `json:"p"`              // probability of a statistic this large from a model that fits
 }
 
 // TrimCode is one trim DAC's computed, written and read-back code.
@@ -198,6 +245,8 @@ type TrimCode struct {
 // plain fractions for ppm and %, counts for codes); Unit names the dimension.
 type Result struct {
 	Name  string      `json:"name"`
+	Stage Stage       `json:"stage,omitempty"` // as found, adjustment or as left (0 in records of schema 1: see ResultStageOf)
+	Step  string      `json:"step,omitempty"`  // the step that computed it
 	Value float64     `json:"value"`
 	Unit  string      `json:"unit"` // "V", "ratio" or "code"
 	Valid bool        `json:"valid"`

@@ -1,6 +1,7 @@
 package sequencer
 
 import (
+	"context"
 	"errors"
 	"fmt"
 	"math"
@@ -20,50 +21,22 @@ func Replay(cfg Config, stored *Record) (*Record, error) {
 	if stored.Verdict == Fault || stored.Verdict == Aborted || len(stored.Sweeps) == 0 {
 		return nil, fmt.Errorf("%s (%s): %w", stored.RunID, stored.Verdict, ErrNotReplayable)
 	}
-	e := &Engine{cfg: cfg}
 	seq := cfg.Sequence
 	rec := &Record{
 		Schema: stored.Schema, RunID: stored.RunID, Serial: stored.Serial, Product: stored.Product, Revision: stored.Revision,
 		Station: stored.Station, Operator: stored.Operator, Software: stored.Software,
 		Started: stored.Started, Finished: stored.Finished, Files: stored.Files, Instruments: stored.Instruments,
 		IdealGain: seq.IdealGain, IdealOffset: seq.IdealOffset, FullScale: seq.FullScale,
-		Conditions: stored.Conditions, Coverage: e.coverage(), Engineering: stored.Engineering, RetestOf: stored.RetestOf,
+		Conditions: stored.Conditions, Coverage: coverage(seq), Engineering: stored.Engineering, RetestOf: stored.RetestOf,
 	}
-	resweep := func(s Sweep) Sweep {
-		out := Sweep{Name: s.Name}
-		for _, p := range s.Points {
-			out.Points = append(out.Points, point(p.Stimulus, p.Readings))
-		}
-		e.annotate(&out)
-		return out
+	u := newUnit(cfg, rec, replaying)
+	u.stored = stored
+	// The steps take the facts of the run (readings, read-backs, what was stored)
+	// from the stored record and compute everything else.
+	if err := runSteps(context.Background(), u); err != nil {
+		return nil, fmt.Errorf("%s: replay: %w", stored.RunID, err)
 	}
-	var trims []TrimCode
-	for _, d := range seq.Trim.DACs() {
-		t := TrimCode{DAC: d.Name, Before: d.NoCorrection}
-		for _, s := range stored.Trims {
-			if s.DAC == d.Name {
-				t.Before = s.Before
-			}
-		}
-		trims = append(trims, t)
-	}
-	res := newResults()
-	pre := resweep(stored.Sweeps[0])
-	rec.Sweeps = append(rec.Sweeps, pre)
-	if e.evalPre(rec, res, pre, trims) && len(stored.Sweeps) > 1 {
-		// What the unit did with the codes is a fact of the run, not a computation.
-		for i := range rec.Trims {
-			for _, t := range stored.Trims {
-				if t.DAC == rec.Trims[i].DAC {
-					rec.Trims[i].Readback, rec.Trims[i].Stored, rec.Trims[i].Written = t.Readback, t.Stored, t.Written
-				}
-			}
-		}
-		post := resweep(stored.Sweeps[1])
-		rec.Sweeps = append(rec.Sweeps, post)
-		e.evalPost(rec, res, post)
-	}
-	e.finish(rec, res)
+	finish(u)
 	return rec, nil
 }
 

@@ -2,16 +2,13 @@ package sequencer
 
 import (
 	"fmt"
-	"math"
-	"slices"
 
 	"trimline/instruments/units"
 	"trimline/limits"
 )
 
-// Result names the engine computes for every unit. Limit files may judge these and
-// only these. Each is declared once, with everything else about it, in the results
-// table below.
+// Result names of the first sequence layout (records of schema 1): its fixed
+// flow computed these and only these.
 const (
 	ResPreOffset        = "pre_offset"
 	ResPreGainError     = "pre_gain_error"
@@ -25,27 +22,32 @@ const (
 	ResPostNoise        = "post_noise"
 )
 
-// The results table: one row per result, in the order results appear in the record.
-// Values are SI: volts, plain fractions (a limit written in ppm or % sees them
-// scaled), counts. Everything else about results is derived from these rows: the
-// catalogue limits.Load checks names against (ResultCatalog), the record's order,
-// lint's physical ranges (PhysicalRanges), the certificate's as-found/as-left
-// grouping and the as-found reasons first (ResultStage).
-func init() {
-	for _, d := range []ResultDef{
-		{Name: ResPreOffset, Dim: units.Volt, Stage: AsFound, About: "output error at zero input before trim, V", Range: outputError},
-		{Name: ResPreGainError, Dim: units.Ratio, Stage: AsFound, About: "slope/ideal − 1 before trim, fraction", Range: fixedRange(-1, 1)},
-		{Name: ResPreNonlinearity, Dim: units.Ratio, Stage: AsFound, About: "max |residual| / full scale before trim, fraction", Range: fixedRange(0, 1)},
-		{Name: ResOffsetCode, Dim: units.Count, Stage: Adjustment, About: "offset trim code written", Range: codeRange(func(t TrimPlan) DAC { return t.Offset })},
-		{Name: ResGainCode, Dim: units.Count, Stage: Adjustment, About: "gain trim code written", Range: codeRange(func(t TrimPlan) DAC { return t.Gain })},
-		{Name: ResPostOffset, Dim: units.Volt, Stage: AsLeft, About: "output error at zero input after trim, V", Range: outputError},
-		{Name: ResPostGainError, Dim: units.Ratio, Stage: AsLeft, About: "slope/ideal − 1 after trim, fraction", Range: fixedRange(-1, 1)},
-		{Name: ResPostNonlinearity, Dim: units.Ratio, Stage: AsLeft, About: "max |residual| / full scale after trim, fraction", Range: fixedRange(0, 1)},
-		{Name: ResPostMaxError, Dim: units.Volt, Stage: AsLeft, About: "max |mean − ideal| over the verification points, V", Range: maxError},
-		{Name: ResPostNoise, Dim: units.Volt, Stage: AsLeft, About: "pooled standard deviation of the verification readings, V rms", Range: noiseRange},
-	} {
-		RegisterResult(d)
+// firstLayoutStages are the stages of the first layout's results, for records
+// of schema 1, which do not carry them.
+var firstLayoutStages = map[string]Stage{
+	ResPreOffset: AsFound, ResPreGainError: AsFound, ResPreNonlinearity: AsFound,
+	ResOffsetCode: Adjustment, ResGainCode: Adjustment,
+	ResPostOffset: AsLeft, ResPostGainError: AsLeft, ResPostNonlinearity: AsLeft, ResPostMaxError: AsLeft, ResPostNoise: AsLeft,
+}
+
+// StageOf is the stage of r: its own, or in a record of schema 1 the stage of
+// the first layout's result of that name (0 for any other).
+func (r Result) StageOf() Stage {
+	if r.Stage != 0 {
+		return r.Stage
 	}
+	return firstLayoutStages[r.Name]
+}
+
+// ResultStage is the stage of the named result of the record, 0 when the record
+// has no such result.
+func (rec *Record) ResultStage(name string) Stage {
+	for _, r := range rec.Results {
+		if r.Name == name {
+			return r.StageOf()
+		}
+	}
+	return firstLayoutStages[name]
 }
 
 // Stage is when in a run a result is measured.
@@ -56,6 +58,35 @@ const (
 	Adjustment                  // the adjustment itself: the trim codes
 	AsLeft                      // after adjustment: the unit as it ships, from the verify sweep
 )
+
+// MarshalText writes the stage as the record spells it: as_found, adjustment,
+// as_left.
+func (s Stage) MarshalText() ([]byte, error) {
+	switch s {
+	case AsFound:
+		return []byte("as_found"), nil
+	case Adjustment:
+		return []byte("adjustment"), nil
+	case AsLeft:
+		return []byte("as_left"), nil
+	}
+	return nil, fmt.Errorf("sequencer: no stage %d", int(s))
+}
+
+// UnmarshalText reads a stage as MarshalText writes it.
+func (s *Stage) UnmarshalText(b []byte) error {
+	switch string(b) {
+	case "as_found":
+		*s = AsFound
+	case "adjustment":
+		*s = Adjustment
+	case "as_left":
+		*s = AsLeft
+	default:
+		return fmt.Errorf("sequencer: unknown stage %q", b)
+	}
+	return nil
+}
 
 func (s Stage) String() string {
 	switch s {
@@ -69,9 +100,10 @@ func (s Stage) String() string {
 	return fmt.Sprintf("Stage(%d)", int(s))
 }
 
-// ResultDef declares one result: one row of the results table.
+// ResultDef declares one result a step computes.
 type ResultDef struct {
 	Name  string    // what limit files write in uses:
+	Step  string    // the step that declares it
 	Dim   units.Dim // units.Volt, units.Ratio or units.Count; the value is in SI
 	Stage Stage
 	About string // what it is, with its unit, in a few words
@@ -94,57 +126,16 @@ func (d ResultDef) Unit() string {
 	return "ratio"
 }
 
-var (
-	resultDefs  []ResultDef // in registration order, which is the record's order
-	resultIndex = map[string]int{}
-)
-
-// ResultCatalog is every result name with its dimension, for limits.Load. It is
-// filled by RegisterResult; read it only after package initialisation.
-var ResultCatalog = limits.Catalog{}
-
-// RegisterResult adds a result to the table. Results appear in the record in the
-// order they are registered. It panics on an empty name, a duplicate name or a
-// missing stage, so a mistake stops the program at start-up. Call it from init.
-func RegisterResult(d ResultDef) {
-	switch _, dup := resultIndex[d.Name]; {
-	case d.Name == "":
-		panic("sequencer: RegisterResult with an empty name")
-	case dup:
-		panic("sequencer: RegisterResult called twice for " + d.Name)
-	case d.Stage < AsFound || d.Stage > AsLeft:
-		panic("sequencer: RegisterResult " + d.Name + " without a stage")
-	}
-	resultIndex[d.Name] = len(resultDefs)
-	resultDefs = append(resultDefs, d)
-	ResultCatalog[d.Name] = d.Dim
-}
-
-// Results returns the results table in the record's order.
-func Results() []ResultDef { return append([]ResultDef(nil), resultDefs...) }
-
-// LookupResult returns the row of the named result.
-func LookupResult(name string) (ResultDef, bool) {
-	i, ok := resultIndex[name]
-	if !ok {
-		return ResultDef{}, false
-	}
-	return resultDefs[i], true
-}
-
-// ResultStage is the stage of the named result, or 0 for a name not in the table.
-func ResultStage(name string) Stage {
-	d, _ := LookupResult(name)
-	return d.Stage
-}
-
 // PhysicalRanges returns the physical range of every result whose range is known,
 // for limits.LintOptions. seq supplies the product's facts (trim DAC sizes, the
 // meter range, the ideal transfer); with seq nil only the ranges that do not
 // depend on the product are returned.
 func PhysicalRanges(seq *Sequence) map[string][2]float64 {
 	out := map[string][2]float64{}
-	for _, d := range resultDefs {
+	if seq == nil {
+		return out
+	}
+	for _, d := range seq.Results() {
 		if d.Range == nil {
 			continue
 		}
@@ -159,14 +150,9 @@ func fixedRange(lo, hi float64) func(*Sequence) (float64, float64, bool) {
 	return func(*Sequence) (float64, float64, bool) { return lo, hi, true }
 }
 
-// codeRange is 0 … 2^bits − 1 of the DAC the sequence declares.
-func codeRange(dac func(TrimPlan) DAC) func(*Sequence) (float64, float64, bool) {
-	return func(seq *Sequence) (float64, float64, bool) {
-		if seq == nil {
-			return 0, 0, false
-		}
-		return 0, float64(dac(seq.Trim).MaxCode()), true
-	}
+// codeRange is the code range of the DAC.
+func codeRange(d DAC) func(*Sequence) (float64, float64, bool) {
+	return func(*Sequence) (float64, float64, bool) { return float64(d.MinCode()), float64(d.MaxCode()), true }
 }
 
 // outputSpan is the output the station can read at all: within ± the meter range
@@ -189,21 +175,6 @@ func outputError(seq *Sequence) (lo, hi float64, ok bool) {
 	return lo - seq.IdealOffset, hi - seq.IdealOffset, true
 }
 
-// maxError is the range of the largest deviation of a verification point from the
-// ideal transfer: from 0 to the readable output's distance from the farthest ideal
-// output of the verify sweep.
-func maxError(seq *Sequence) (lo, hi float64, ok bool) {
-	olo, ohi, ok := outputSpan(seq)
-	if !ok {
-		return 0, 0, false
-	}
-	for _, x := range seq.Verify.Levels() {
-		y := seq.IdealGain*x + seq.IdealOffset
-		hi = math.Max(hi, math.Max(math.Abs(ohi-y), math.Abs(y-olo)))
-	}
-	return 0, hi, true
-}
-
 // noiseRange is 0 to the readable output's half-span: the standard deviation of
 // readings confined to an interval cannot exceed its half-width.
 func noiseRange(seq *Sequence) (lo, hi float64, ok bool) {
@@ -216,49 +187,60 @@ func noiseRange(seq *Sequence) (lo, hi float64, ok bool) {
 
 // results collects the named results of one run.
 type results struct {
+	defs   []ResultDef
 	values map[string]limits.Value
 	unc    map[string]Uncertainty
+	set_   map[string]bool // computed (valid or not) by a step
 }
 
-func newResults() *results {
-	r := &results{values: map[string]limits.Value{}, unc: map[string]Uncertainty{}}
-	for _, d := range resultDefs {
+func newResults(seq *Sequence) *results {
+	r := &results{defs: seq.Results(), values: map[string]limits.Value{}, unc: map[string]Uncertainty{}, set_: map[string]bool{}}
+	for _, d := range r.defs {
 		r.values[d.Name] = limits.Value{Why: "not measured"}
 	}
 	return r
 }
 
+// unset marks every result no step computed invalid with why.
+func (r *results) unset(why string) {
+	for _, d := range r.defs {
+		if !r.set_[d.Name] {
+			r.values[d.Name] = limits.Value{Why: why}
+		}
+	}
+}
+
 func (r *results) set(name string, v float64) {
+	r.set_[name] = true
 	r.values[name] = limits.Value{V: v, Valid: finite(v), Why: "not a finite number"}
 }
 
 // setU sets a result with its uncertainty.
 func (r *results) setU(name string, v float64, u Uncertainty) {
+	r.set_[name] = true
 	r.values[name] = limits.Value{V: v, Valid: finite(v), Why: "not a finite number",
 		Std: u.Std, U: u.Expanded, K: u.K, DOF: u.DOF}
 	r.unc[name] = u
 }
 
+// flagged records a value that is known but must not pass: a saturated code.
+func (r *results) flagged(name string, v float64, why string) {
+	r.set_[name] = true
+	r.values[name] = limits.Value{V: v, Why: why}
+	delete(r.unc, name)
+}
+
 func (r *results) invalid(name, why string) {
+	r.set_[name] = true
 	r.values[name] = limits.Value{Why: why}
 	delete(r.unc, name)
 }
 
-// invalidStages marks every result of the given stages invalid; no stages means
-// every result.
-func (r *results) invalidStages(why string, stages ...Stage) {
-	for _, d := range resultDefs {
-		if len(stages) == 0 || slices.Contains(stages, d.Stage) {
-			r.invalid(d.Name, why)
-		}
-	}
-}
-
 func (r *results) list() []Result {
-	out := make([]Result, 0, len(resultDefs))
-	for _, d := range resultDefs {
+	out := make([]Result, 0, len(r.defs))
+	for _, d := range r.defs {
 		v := r.values[d.Name]
-		res := Result{Name: d.Name, Value: v.V, Unit: d.Unit(), Valid: v.Valid, Unc: r.unc[d.Name]}
+		res := Result{Name: d.Name, Stage: d.Stage, Step: d.Step, Value: v.V, Unit: d.Unit(), Valid: v.Valid, Unc: r.unc[d.Name]}
 		if !v.Valid {
 			res.Value, res.Note = 0, v.Why
 		}

@@ -1,64 +1,80 @@
 package sequencer_test
 
 import (
+	"os"
 	"reflect"
+	"strings"
 	"testing"
 
 	"trimline/sequencer"
 )
 
-// The results table is the one place a result is declared: its stage, order and
-// physical range come from there and nowhere else.
-func TestResultsTable(t *testing.T) {
-	var names []string
-	for _, d := range sequencer.Results() {
-		names = append(names, d.Name)
-		if d.About == "" {
-			t.Errorf("%s: no description", d.Name)
-		}
-		if dim, ok := sequencer.ResultCatalog[d.Name]; !ok || dim != d.Dim {
-			t.Errorf("%s: catalogue has %v (%v), table %v", d.Name, dim, ok, d.Dim)
-		}
+// The steps declare the results: the demo's step list declares the ten results of
+// the first layout, in the same order, with the same stages and dimensions, and
+// the first-layout file it replaced declares exactly the same.
+func TestStepsDeclareTheResults(t *testing.T) {
+	_, seq := demoFiles(t, nil)
+	data, err := os.ReadFile("testdata/brx200-sequence-first.yaml") // the demo's file before it became a step list
+	if err != nil {
+		t.Fatal(err)
+	}
+	first, err := sequencer.ParseSequence("brx200-sequence.yaml", data, demoReader(t, nil))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !first.FirstLayout || seq.FirstLayout {
+		t.Fatalf("FirstLayout: first-layout file %v, step list %v", first.FirstLayout, seq.FirstLayout)
 	}
 	want := []string{"pre_offset", "pre_gain_error", "pre_nonlinearity", "offset_code", "gain_code",
 		"post_offset", "post_gain_error", "post_nonlinearity", "post_max_error", "post_noise"}
-	if !reflect.DeepEqual(names, want) {
-		t.Errorf("order = %v, want %v", names, want)
-	}
-	if len(sequencer.ResultCatalog) != len(want) {
-		t.Errorf("catalogue has %d names, table %d", len(sequencer.ResultCatalog), len(want))
-	}
-	for name, st := range map[string]sequencer.Stage{
-		sequencer.ResPreOffset: sequencer.AsFound, sequencer.ResPreNonlinearity: sequencer.AsFound,
-		sequencer.ResGainCode: sequencer.Adjustment, sequencer.ResOffsetCode: sequencer.Adjustment,
-		sequencer.ResPostOffset: sequencer.AsLeft, sequencer.ResPostNoise: sequencer.AsLeft,
-		"no_such_result": 0,
-	} {
-		if got := sequencer.ResultStage(name); got != st {
-			t.Errorf("ResultStage(%s) = %v, want %v", name, got, st)
+	for _, s := range []*sequencer.Sequence{seq, first} {
+		var names []string
+		for _, d := range s.Results() {
+			names = append(names, d.Name)
+			if d.About == "" || d.Step == "" {
+				t.Errorf("%s: no description or step", d.Name)
+			}
+			if dim, ok := s.Catalog()[d.Name]; !ok || dim != d.Dim {
+				t.Errorf("%s: catalogue has %v (%v), declaration %v", d.Name, dim, ok, d.Dim)
+			}
+			if dim := sequencer.FirstLayoutCatalog()[d.Name]; dim != d.Dim {
+				t.Errorf("%s: first-layout catalogue %v, step %v", d.Name, dim, d.Dim)
+			}
+		}
+		if !reflect.DeepEqual(names, want) {
+			t.Errorf("order = %v, want %v", names, want)
+		}
+		for name, st := range map[string]sequencer.Stage{
+			sequencer.ResPreOffset: sequencer.AsFound, sequencer.ResPreNonlinearity: sequencer.AsFound,
+			sequencer.ResGainCode: sequencer.Adjustment, sequencer.ResOffsetCode: sequencer.Adjustment,
+			sequencer.ResPostOffset: sequencer.AsLeft, sequencer.ResPostNoise: sequencer.AsLeft,
+		} {
+			if d, _ := s.LookupResult(name); d.Stage != st {
+				t.Errorf("stage of %s = %v, want %v", name, d.Stage, st)
+			}
 		}
 	}
 }
 
-func TestRegisterResultRefusesDuplicates(t *testing.T) {
-	defer func() {
-		if recover() == nil {
-			t.Error("registering pre_offset twice did not panic")
+// A record of schema 1 carries no stages: they come from the first layout's names.
+func TestSchema1Stages(t *testing.T) {
+	rec := &sequencer.Record{Schema: 1, Results: []sequencer.Result{{Name: "pre_offset"}, {Name: "gain_code"}, {Name: "post_noise"}}}
+	for name, want := range map[string]sequencer.Stage{"pre_offset": sequencer.AsFound, "gain_code": sequencer.Adjustment, "post_noise": sequencer.AsLeft, "other": 0} {
+		if got := rec.ResultStage(name); got != want {
+			t.Errorf("%s: %v, want %v", name, got, want)
 		}
-	}()
-	sequencer.RegisterResult(sequencer.ResultDef{Name: sequencer.ResPreOffset, Stage: sequencer.AsFound})
+	}
+	if got := (sequencer.Sweep{Name: "verify"}).StageOf(); got != sequencer.AsLeft {
+		t.Errorf("verify sweep of schema 1: %v", got)
+	}
 }
 
 // Physical ranges that depend on the product come from its sequence: the codes
 // from the DACs' bits, outputs from the meter range (the demo's 10 V) less the
-// ideal output (2.5 V); without a sequence only the product-free ranges are known.
+// ideal output (2.5 V); without a sequence nothing is known.
 func TestPhysicalRanges(t *testing.T) {
-	free := sequencer.PhysicalRanges(nil)
-	wantFree := map[string][2]float64{
-		"pre_gain_error": {-1, 1}, "post_gain_error": {-1, 1}, "pre_nonlinearity": {0, 1}, "post_nonlinearity": {0, 1},
-	}
-	if !reflect.DeepEqual(free, wantFree) {
-		t.Errorf("PhysicalRanges(nil) = %v, want %v", free, wantFree)
+	if free := sequencer.PhysicalRanges(nil); len(free) != 0 {
+		t.Errorf("PhysicalRanges(nil) = %v, want none", free)
 	}
 	_, seq := demoFiles(t, nil)
 	got := sequencer.PhysicalRanges(seq)
@@ -66,10 +82,20 @@ func TestPhysicalRanges(t *testing.T) {
 		"offset_code": {0, 4095}, "gain_code": {0, 4095},
 		"pre_offset": {-12.5, 7.5}, "post_offset": {-12.5, 7.5},
 		"post_max_error": {0, 14.5}, "post_noise": {0, 10},
-		"pre_gain_error": {-1, 1},
+		"pre_gain_error": {-1, 1}, "pre_nonlinearity": {0, 1},
 	} {
 		if r := got[name]; r != want {
 			t.Errorf("%s: range %v, want %v", name, r, want)
 		}
+	}
+	// A two's-complement DAC's codes are signed.
+	text := strings.Replace(demoFile(t, "brx200-sequence.yaml"), "    lsb: 12.2 uV                 # per code, at the output\n    no_correction: 2048",
+		"    lsb: 12.2 uV\n    coding: twos_complement", 1)
+	s2, err := sequencer.ParseSequence("brx200-sequence.yaml", []byte(text), demoReader(t, nil))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if r := sequencer.PhysicalRanges(s2)["offset_code"]; r != [2]float64{-2048, 2047} {
+		t.Errorf("two's-complement offset_code range %v", r)
 	}
 }

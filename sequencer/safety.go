@@ -28,28 +28,33 @@ var ErrUnboundRole = errors.New("unbound role")
 // is run at load (trimline check) and again when an Engine opens.
 func CheckCaps(st *Station, seq *Sequence) error {
 	var errs, unbound []string
-	for _, sw := range []struct {
-		name string
-		p    SweepPlan
-	}{{"pre_trim", seq.PreTrim}, {"verify", seq.Verify}} {
-		// Every level the sweep will program, as the engine computes them, through
-		// the engine's own test: the two cannot disagree at the edge of the cap.
-		for _, v := range sw.p.Levels() {
-			if r := st.SourceRating.Volts; r > 0 && !withinCap(v, r) {
-				errs = append(errs, fmt.Sprintf("%s: %s sweep reaches %s, outside the source's own rating of ±%s (%s safety.source_rating.voltage): this source cannot make it",
-					sw.p.Where, sw.name, fmtV(v), fmtV(r), st.File.Name))
-				break
-			}
-			if !withinCap(v, st.MaxSourceVolts) {
-				errs = append(errs, fmt.Sprintf("%s: %s sweep reaches %s, above the station cap of %s (%s safety.max_source_voltage)",
-					sw.p.Where, sw.name, fmtV(v), fmtV(st.MaxSourceVolts), st.File.Name))
-				break
-			}
+	// Every level every step will program, as the engine computes them, through the
+	// engine's own test: the two cannot disagree at the edge of the cap. One
+	// message per step and cap.
+	said := map[string]bool{}
+	for _, x := range seq.Stimuli() {
+		if r := st.SourceRating.Volts; r > 0 && !withinCap(x.Level, r) && !said[x.Step+"/rating"] {
+			said[x.Step+"/rating"] = true
+			errs = append(errs, fmt.Sprintf("%s: step %q reaches %s on the %s, outside the source's own rating of ±%s (%s safety.source_rating.voltage): this source cannot make it",
+				x.Where, x.Step, fmtV(x.Level), x.Role, fmtV(r), st.File.Name))
+			continue
+		}
+		if !withinCap(x.Level, st.MaxSourceVolts) && !said[x.Step+"/cap"] {
+			said[x.Step+"/cap"] = true
+			errs = append(errs, fmt.Sprintf("%s: step %q reaches %s on the %s, above the station cap of %s (%s safety.max_source_voltage)",
+				x.Where, x.Step, fmtV(x.Level), x.Role, fmtV(st.MaxSourceVolts), st.File.Name))
 		}
 	}
 	for _, r := range seq.Requires {
 		if _, ok := st.Instruments[r]; !ok {
 			unbound = append(unbound, fmt.Sprintf("%s: the sequence requires the %q role, which station %s does not bind", seq.File.Name, r, st.ID))
+		}
+	}
+	for _, d := range seq.Steps {
+		for _, ru := range d.Roles {
+			if si, ok := st.Instruments[ru.Role]; ok && si.Kind != ru.Kind {
+				unbound = append(unbound, fmt.Sprintf("%s: step %q uses the %q role as a %s, but station %s binds it as a %s", d.Where, d.Name, ru.Role, ru.Kind, st.ID, si.Kind))
+			}
 		}
 	}
 	switch {
@@ -69,13 +74,13 @@ func withinCap(volts, capVolts float64) bool {
 	return finite(volts) && math.Abs(volts) <= capVolts
 }
 
-// setLevel programs the source after checking the station cap once more.
-func (e *Engine) setLevel(ctx context.Context, volts float64) error {
+// setLevel programs the source of role after checking the station cap once more.
+func (e *Engine) setLevel(ctx context.Context, role string, volts float64) error {
 	if !withinCap(volts, e.cfg.Station.MaxSourceVolts) {
 		return &stop{Fault, fmt.Sprintf("%v: refusing to program %s, above the station cap of %s", ErrSafety, fmtV(volts), fmtV(e.cfg.Station.MaxSourceVolts))}
 	}
-	if err := e.source.SetLevel(ctx, volts); err != nil {
-		return fmt.Errorf("source: set level %s: %w", fmtV(volts), err)
+	if err := e.sources[role].SetLevel(ctx, volts); err != nil {
+		return fmt.Errorf("%s: set level %s: %w", role, fmtV(volts), err)
 	}
 	return nil
 }
@@ -83,41 +88,55 @@ func (e *Engine) setLevel(ctx context.Context, volts float64) error {
 // safeState programs level 0 with the output off and disarms the output watchdog,
 // whatever a previous program left (after a kill -9 the output may still be on, or
 // the watchdog may have switched it off already).
-func (e *Engine) safeState(ctx context.Context) error {
-	if r, ok := e.source.(instruments.Resetter); ok {
+func (e *Engine) safeState(ctx context.Context, src instruments.Source) error {
+	if r, ok := src.(instruments.Resetter); ok {
 		if err := r.Reset(ctx); err != nil {
 			return err
 		}
 	}
-	if err := e.source.SetOutput(ctx, false); err != nil {
+	if err := src.SetOutput(ctx, false); err != nil {
 		return err
 	}
-	if err := e.source.SetLevel(ctx, 0); err != nil {
+	if err := src.SetLevel(ctx, 0); err != nil {
 		return err
 	}
-	if e.watchdog != nil {
-		if err := e.watchdog.DisarmWatchdog(ctx); err != nil {
+	if w, ok := src.(instruments.OutputWatchdog); ok {
+		if err := w.DisarmWatchdog(ctx); err != nil {
 			return fmt.Errorf("disarm output watchdog: %w", err)
 		}
 	}
 	return nil
 }
 
-// safeOff switches the output off with a context of its own, so it works after the
-// run's context was cancelled, then disarms the output watchdog. Only the switch-off
-// and the level count: a watchdog that cannot be disarmed runs out with the output
-// already off, which is logged, not a fault.
+// safeOff switches every source's output off with a context of its own, so it
+// works after the run's context was cancelled, then disarms the output watchdogs.
+// Only the switch-off and the level count: a watchdog that cannot be disarmed
+// runs out with the output already off, which is logged, not a fault. Every
+// source is tried even when an earlier one fails; the first error is returned.
 func (e *Engine) safeOff() error {
 	ctx, cancel := context.WithTimeout(context.Background(), 2*time.Second)
 	defer cancel()
-	err := e.source.SetOutput(ctx, false)
-	if err2 := e.source.SetLevel(ctx, 0); err == nil {
-		err = err2
-	}
-	if e.watchdog != nil && err == nil {
-		if werr := e.watchdog.DisarmWatchdog(ctx); werr != nil {
-			e.log.Error().Err(werr).Msg("output off, but the output watchdog could not be disarmed")
+	var first error
+	for _, r := range e.roles {
+		src, ok := e.sources[r]
+		if !ok {
+			continue
+		}
+		err := src.SetOutput(ctx, false)
+		if err2 := src.SetLevel(ctx, 0); err == nil {
+			err = err2
+		}
+		if w, ok := src.(instruments.OutputWatchdog); ok && err == nil {
+			if werr := w.DisarmWatchdog(ctx); werr != nil {
+				e.log.Error().Err(werr).Str("role", r).Msg("output off, but the output watchdog could not be disarmed")
+			}
+		}
+		if err != nil && first == nil {
+			first = fmt.Errorf("%s: %w", r, err)
+			if len(e.sources) == 1 {
+				first = err
+			}
 		}
 	}
-	return err
+	return first
 }

@@ -2,9 +2,12 @@ package sequencer
 
 import (
 	"fmt"
+	"maps"
 	"math"
+	"os"
 	"path/filepath"
 	"regexp"
+	"slices"
 	"strings"
 	"time"
 
@@ -13,23 +16,25 @@ import (
 	"trimline/limits"
 )
 
-// Sequence is a loaded sequence file: how one product is trimmed.
+// Sequence is a loaded sequence file: how one product is trimmed, as an ordered
+// list of steps.
 type Sequence struct {
 	Product     string
 	Revision    string
 	Maker       string
 	Description string
-	Requires    []string // roles the sequence needs on the station
+	// Requires lists the instrument roles the steps use (and any more the file
+	// names under requires:), sources first, then meters, then DUT ports.
+	Requires []string
 
 	IdealGain   float64 // V/V
 	IdealOffset float64 // output at zero input, V
 	FullScale   float64 // output span for "% of full scale", V
 
-	PreTrim SweepPlan
-	Verify  SweepPlan
-	Meter   MeterPlan
-	Trim    TrimPlan
-	DUT     DUTPlan
+	Meter MeterPlan // the meter settings every sweep uses unless it sets its own
+	// DACs are the unit's trim DACs as the file declares them, in file order.
+	DACs  []DAC
+	Steps []*StepDecl
 
 	// SerialPattern is the sequence file's serial_pattern as written, matched
 	// against the whole serial ("" = DefaultSerialPattern); CheckSerial applies it.
@@ -41,6 +46,11 @@ type Sequence struct {
 	Uncertainty string
 	MCTrials    int
 
+	// FirstLayout marks a file of the first sequence layout (one fixed flow:
+	// pre_trim, trim, verify), read as the step list it stands for so that the
+	// records made with it still replay.
+	FirstLayout bool
+
 	Limits *limits.Set
 	File   FileRef
 	// LimitsFile names the limit file in force, with the variant that applies.
@@ -48,112 +58,93 @@ type Sequence struct {
 	// Raw and LimitsRaw are the exact bytes of the sequence and limit files, for
 	// the ledger's content-addressed store.
 	Raw, LimitsRaw []byte
+
+	limitsName string // the limit file as the sequence names it
 }
 
-// SweepPlan is one pass across the input range.
-type SweepPlan struct {
-	From, To float64 // stimulus, volts
-	// Points is the number of levels, evenly spaced, From first: at least 3 (the
-	// loader refuses fewer; a line through 2 points has no residual to judge).
-	Points   int
-	Settle   time.Duration // wait after each level change before reading
-	Readings int           // readings per level
-	Where    string        // "file:line:col" of the sweep in the sequence file, for messages
-}
-
-// Levels returns the stimulus levels in volts, From to To inclusive: the first is
-// exactly From and the last exactly To, and none lies outside them, so a cap that
-// holds at both ends holds at every level. It is the one computation of the levels:
-// the sweep programs them, and CheckCaps, the TUR prediction and the physical
-// ranges read them.
-func (p SweepPlan) Levels() []float64 {
-	if p.Points < 1 {
-		return nil
-	}
-	out := make([]float64, p.Points)
-	lo, hi := min(p.From, p.To), max(p.From, p.To)
-	for i := range out {
-		// (1−t)·From + t·To is From at t = 0 and To at t = 1 exactly, and
-		// symmetric sweeps land on 0 exactly; the clamp keeps a rounding of the
-		// products from stepping a hair past either end.
-		t := float64(i) / float64(p.Points-1)
-		out[i] = min(max((1-t)*p.From+t*p.To, lo), hi)
-	}
-	if p.Points == 1 {
-		out[0] = p.From
+// Results returns every result the steps declare, in the record's order.
+func (s *Sequence) Results() []ResultDef {
+	var out []ResultDef
+	for _, d := range s.Steps {
+		out = append(out, d.Results...)
 	}
 	return out
 }
 
-// MeterPlan configures the meter for the sweeps.
+// Catalog is every result name the steps declare with its dimension: what the
+// limit file may judge.
+func (s *Sequence) Catalog() limits.Catalog {
+	c := limits.Catalog{}
+	for _, d := range s.Results() {
+		c[d.Name] = d.Dim
+	}
+	return c
+}
+
+// LookupResult returns the declaration of the named result.
+func (s *Sequence) LookupResult(name string) (ResultDef, bool) {
+	for _, d := range s.Steps {
+		for _, r := range d.Results {
+			if r.Name == name {
+				return r, true
+			}
+		}
+	}
+	return ResultDef{}, false
+}
+
+// Step returns the step called name, or nil.
+func (s *Sequence) Step(name string) *StepDecl {
+	for _, d := range s.Steps {
+		if d.Name == name {
+			return d
+		}
+	}
+	return nil
+}
+
+// DAC returns the trim DAC called name.
+func (s *Sequence) DAC(name string) (DAC, bool) {
+	for _, d := range s.DACs {
+		if d.Name == name {
+			return d, true
+		}
+	}
+	return DAC{}, false
+}
+
+// Stimuli lists every level every step will program, in step order.
+func (s *Sequence) Stimuli() []Stimulus {
+	var out []Stimulus
+	for _, d := range s.Steps {
+		if st, ok := d.Step.(Stimulator); ok {
+			for _, x := range st.Stimuli() {
+				x.Where, x.Step = d.Where, d.Name
+				out = append(out, x)
+			}
+		}
+	}
+	return out
+}
+
+// MeterPlan configures a meter for a sweep.
 type MeterPlan struct {
 	Range float64 // volts; 0 = auto
 	NPLC  float64 // integration time in power-line cycles
 }
 
-// TrimPlan says how the unit's trim DACs work and how to program them.
-type TrimPlan struct {
-	Offset DAC
-	Gain   DAC
-	// OffsetBeforeGain is true when the offset DAC adds its voltage at the input of
-	// the gain stage (its LSB is then input-referred and its output effect scales
-	// with the gain); false when it adds at the output.
-	OffsetBeforeGain bool
-	// GainPivot is the output voltage about which the gain trim scales the signal.
-	GainPivot float64
-	Store     string // command that commits the codes to non-volatile memory; "" = none
+type stepHead struct {
+	Kind   string `yaml:"kind"`
+	Name   string `yaml:"name"`
+	SkipIf string `yaml:"skip_if"`
 }
 
-// Trim DAC names, as the record and messages call them.
-const (
-	DACGain   = "gain"
-	DACOffset = "offset"
-)
+var headKeys = map[string]bool{"kind": true, "name": true, "skip_if": true}
 
-// DACs lists the plan's trim DACs, each with its Name, in the order the engine
-// programs them and the record lists them: gain first, then offset.
-func (p TrimPlan) DACs() []DAC {
-	g, o := p.Gain, p.Offset
-	g.Name, o.Name = DACGain, DACOffset
-	return []DAC{g, o}
-}
+// anyNode takes any YAML value: the steps list, decoded step by step.
+type anyNode struct{ set bool }
 
-// DAC is one trim DAC: codes 0..2^Bits−1, LSB per code (volts for offset, a
-// fraction for gain), and the code that applies no correction.
-type DAC struct {
-	Name         string // DACGain or DACOffset, as TrimPlan.DACs sets it
-	Bits         int
-	LSB          float64
-	NoCorrection int
-	Write        string // command template; {code} is replaced by the decimal code
-	Read         string // query that returns the code
-}
-
-// MaxCode is the largest code the DAC accepts.
-func (d DAC) MaxCode() int { return 1<<d.Bits - 1 }
-
-// DUTPlan holds the DUT queries that identify the unit.
-type DUTPlan struct {
-	SerialQuery   string // returns the unit's own serial number; "" = not checked
-	FirmwareQuery string // returns the firmware id; "" = not recorded
-}
-
-type sweepDecl struct {
-	From     *units.Voltage  `yaml:"from"`
-	To       *units.Voltage  `yaml:"to"`
-	Points   int             `yaml:"points"`
-	Settle   *units.Duration `yaml:"settle"`
-	Readings int             `yaml:"readings"`
-}
-
-type dacDecl struct {
-	Bits         int    `yaml:"bits"`
-	LSB          string `yaml:"lsb"`
-	NoCorrection *int   `yaml:"no_correction"`
-	Placement    string `yaml:"placement"`
-	Write        string `yaml:"write"`
-	Read         string `yaml:"read"`
-}
+func (a *anyNode) UnmarshalYAML([]byte) error { a.set = true; return nil }
 
 type sequenceFile struct {
 	Sequence struct {
@@ -175,22 +166,29 @@ type sequenceFile struct {
 		Range *units.Voltage `yaml:"range"`
 		NPLC  *float64       `yaml:"nplc"`
 	} `yaml:"meter"`
-	PreTrim *sweepDecl `yaml:"pre_trim"`
-	Verify  *sweepDecl `yaml:"verify"`
-	Trim    struct {
-		Offset    *dacDecl       `yaml:"offset"`
-		Gain      *dacDecl       `yaml:"gain"`
-		GainPivot *units.Voltage `yaml:"gain_pivot"`
-		Store     string         `yaml:"store"`
-	} `yaml:"trim"`
-	DUT struct {
-		SerialQuery   string `yaml:"serial_query"`
-		FirmwareQuery string `yaml:"firmware_query"`
-	} `yaml:"dut"`
+	DACs        []*dacDecl `yaml:"dacs"`
+	Steps       anyNode    `yaml:"steps"`
 	Uncertainty struct {
 		Method string `yaml:"method"`
 		Trials int    `yaml:"trials"`
 	} `yaml:"uncertainty"`
+
+	// The first layout: one fixed flow.
+	PreTrim *sweepStep     `yaml:"pre_trim"`
+	Verify  *sweepStep     `yaml:"verify"`
+	Trim    *firstTrimDecl `yaml:"trim"`
+	DUT     *struct {
+		SerialQuery   string `yaml:"serial_query"`
+		FirmwareQuery string `yaml:"firmware_query"`
+	} `yaml:"dut"`
+}
+
+// firstTrimDecl is the trim: section of the first layout.
+type firstTrimDecl struct {
+	Offset    *dacDecl       `yaml:"offset"`
+	Gain      *dacDecl       `yaml:"gain"`
+	GainPivot *units.Voltage `yaml:"gain_pivot"`
+	Store     string         `yaml:"store"`
 }
 
 // LoadSequence reads and checks a sequence file and the limit file it names
@@ -204,7 +202,14 @@ func LoadSequence(path string) (*Sequence, error) {
 }
 
 // ParseSequence is LoadSequence on bytes already read; read loads the limit file.
+// Every problem of the file (in any step) comes back in one files.List, sorted by
+// position.
 func ParseSequence(name string, data []byte, read func(path string) ([]byte, error)) (*Sequence, error) {
+	return parseSequence(name, data, read)
+}
+
+// parseSequence is ParseSequence; a nil read leaves the limit file unread.
+func parseSequence(name string, data []byte, read func(path string) ([]byte, error)) (*Sequence, error) {
 	doc, err := files.Parse(name, data)
 	if err != nil {
 		return nil, err
@@ -226,21 +231,8 @@ func ParseSequence(name string, data []byte, read func(path string) ([]byte, err
 	req("$.limits", f.Limits)
 	s := &Sequence{
 		Product: f.Sequence.Product, Revision: f.Sequence.Revision, Maker: f.Sequence.Maker,
-		Description: f.Sequence.Description, Requires: f.Requires, Raw: data,
+		Description: f.Sequence.Description, Raw: data,
 		File: FileRef{Kind: FileSequence, Name: filepath.Base(name), Title: strings.TrimSpace(f.Sequence.Product + " rev " + f.Sequence.Revision), SHA256: hashHex(data)},
-	}
-	if len(s.Requires) == 0 {
-		s.Requires = append([]string(nil), Roles...)
-	}
-	for i, r := range s.Requires {
-		if !isRole(r) {
-			bad(fmt.Sprintf("$.requires[%d]", i), "unknown role %q (expected one of %s)", r, strings.Join(Roles, ", "))
-		}
-	}
-	for _, r := range []string{"source", "meter", "dut"} {
-		if !contains(s.Requires, r) {
-			bad("$.requires", "a trim sequence needs the %q role", r)
-		}
 	}
 
 	if f.Ideal.Gain == nil {
@@ -264,54 +256,6 @@ func ParseSequence(name string, data []byte, read func(path string) ([]byte, err
 			bad("$.meter.nplc", "expected an integration time above 0 and at most %d power-line cycles, found %g", MaxNPLC, s.Meter.NPLC)
 		}
 	}
-
-	s.PreTrim = sweepPlan(doc, "$.pre_trim", f.PreTrim, &errs)
-	s.Verify = sweepPlan(doc, "$.verify", f.Verify, &errs)
-	for _, sw := range []struct {
-		path string
-		p    SweepPlan
-	}{{"$.pre_trim", s.PreTrim}, {"$.verify", s.Verify}} {
-		p := sw.p
-		if p.Points < MinPoints || p.Points > MaxPoints || p.Readings < 1 || p.Readings > MaxReadings ||
-			p.Settle < 0 || p.Settle > MaxSettle || !(s.Meter.NPLC > 0 && s.Meter.NPLC <= MaxNPLC) {
-			continue // already refused
-		}
-		if n := p.Points * p.Readings; n > MaxSweepReadings {
-			bad(sw.path, "expected at most %d readings in a sweep: %d points × %d readings is %d", MaxSweepReadings, p.Points, p.Readings, n)
-		} else if t := sweepTime(p, s.Meter.NPLC); t > MaxSweepTime {
-			bad(sw.path, "expected a sweep of at most %s: %d points × (settle %s + %d readings × %g PLC at 50 Hz) is %s",
-				MaxSweepTime, p.Points, p.Settle, p.Readings, s.Meter.NPLC, t.Round(time.Second))
-		}
-	}
-	if f.Ideal.FullScale != nil {
-		s.FullScale = float64(*f.Ideal.FullScale)
-		if s.FullScale <= 0 {
-			bad("$.ideal.full_scale", "expected a positive full-scale output span")
-		}
-	} else {
-		s.FullScale = math.Abs(s.IdealGain * (s.PreTrim.To - s.PreTrim.From))
-	}
-
-	s.Trim.Offset = dac(doc, "$.trim.offset", f.Trim.Offset, units.Volt, &errs)
-	s.Trim.Gain = dac(doc, "$.trim.gain", f.Trim.Gain, units.Ratio, &errs)
-	if f.Trim.Offset != nil {
-		switch f.Trim.Offset.Placement {
-		case "", "after_gain":
-		case "before_gain":
-			s.Trim.OffsetBeforeGain = true
-		default:
-			bad("$.trim.offset.placement", "expected before_gain or after_gain, found %q", f.Trim.Offset.Placement)
-		}
-	}
-	if f.Trim.Gain != nil && f.Trim.Gain.Placement != "" {
-		bad("$.trim.gain.placement", "placement applies to the offset DAC only")
-	}
-	s.Trim.GainPivot = s.IdealOffset
-	if f.Trim.GainPivot != nil {
-		s.Trim.GainPivot = float64(*f.Trim.GainPivot)
-	}
-	s.Trim.Store = f.Trim.Store
-	s.DUT = DUTPlan{SerialQuery: f.DUT.SerialQuery, FirmwareQuery: f.DUT.FirmwareQuery}
 	serialPattern(doc, s, f.SerialPattern, &errs)
 	switch s.Uncertainty, s.MCTrials = f.Uncertainty.Method, f.Uncertainty.Trials; s.Uncertainty {
 	case "":
@@ -330,7 +274,42 @@ func ParseSequence(name string, data []byte, read func(path string) ([]byte, err
 		bad("$.uncertainty.method", "expected gum or monte_carlo, found %q", s.Uncertainty)
 	}
 
-	if f.Limits != "" {
+	first := f.PreTrim != nil || f.Verify != nil || f.Trim != nil || f.DUT != nil
+	var paths []string // YAML path of each step
+	switch {
+	case first && (f.Steps.set || f.DACs != nil):
+		for _, k := range []string{"pre_trim", "verify", "trim", "dut"} {
+			if doc.Has("$." + k) {
+				errs = append(errs, doc.KeyErrorf("$."+k, "%s belongs to the first sequence layout, which has no steps: list the sweeps, the trim and the DUT commands under steps: (see README, Writing a sequence)", k))
+			}
+		}
+	case first:
+		s.FirstLayout = true
+		paths = firstLayout(doc, s, &f, &errs)
+	default:
+		s.DACs = dacList(doc, f.DACs, &errs)
+		paths = stepList(doc, s, &errs, &decodeErrs)
+	}
+	checkSteps(doc, s, paths, &errs)
+	requires(doc, s, f.Requires, &errs)
+	if f.Ideal.FullScale != nil {
+		s.FullScale = float64(*f.Ideal.FullScale)
+		if s.FullScale <= 0 {
+			bad("$.ideal.full_scale", "expected a positive full-scale output span")
+		}
+	} else if st := s.Stimuli(); len(st) > 0 {
+		lo, hi := st[0].Level, st[0].Level
+		for _, x := range st {
+			if x.Step != st[0].Step {
+				break
+			}
+			lo, hi = min(lo, x.Level), max(hi, x.Level)
+		}
+		s.FullScale = math.Abs(s.IdealGain * (hi - lo))
+	}
+
+	s.limitsName = f.Limits
+	if f.Limits != "" && read != nil {
 		lp := f.Limits
 		if !filepath.IsAbs(lp) {
 			lp = filepath.Join(filepath.Dir(name), lp)
@@ -338,7 +317,7 @@ func ParseSequence(name string, data []byte, read func(path string) ([]byte, err
 		ldata, err := read(lp)
 		if err != nil {
 			bad("$.limits", "cannot read limit file: %v", err)
-		} else if set, err := limits.Load(lp, ldata, ResultCatalog); err != nil {
+		} else if set, err := limits.Load(lp, ldata, s.Catalog()); err != nil {
 			if fe := files.Errs(err); fe != nil {
 				errs = append(errs, fe...)
 			} else {
@@ -369,6 +348,127 @@ func ParseSequence(name string, data []byte, read func(path string) ([]byte, err
 	}
 	s.LimitsFile = limitsFileRef(s.Limits)
 	return s, nil
+}
+
+// stepList decodes the steps: list, each step's own keys into the value its kind
+// makes. It returns each step's YAML path.
+// Problems of decoding go to decodeErrs, so that the checks' follow-on complaints
+// about values that did not decode are left out.
+func stepList(doc *files.Doc, s *Sequence, errs, decodeErrs *files.List) []string {
+	n := doc.Len("$.steps")
+	if n == 0 {
+		*errs = append(*errs, doc.Errorf("$.steps", "missing required key \"steps\": the list of steps the unit goes through (kinds: %s)", kindNamesText()))
+		return nil
+	}
+	var paths []string
+	for i := range n {
+		path := fmt.Sprintf("$.steps[%d]", i)
+		var h stepHead
+		if err := doc.DecodeAt(path, &h, func(k string) bool { return !headKeys[k] }); err != nil {
+			*decodeErrs = append(*decodeErrs, files.Errs(err)...)
+		}
+		line, col := doc.Pos(path)
+		d := &StepDecl{Name: strings.TrimSpace(h.Name), Kind: h.Kind, SkipIf: h.SkipIf, Where: fmt.Sprintf("%s:%d:%d", doc.Name, line, col)}
+		k, ok := lookupKind(h.Kind)
+		switch {
+		case h.Kind == "":
+			*errs = append(*errs, doc.Errorf(path, "missing required key \"kind\" (one of %s)", kindNamesText()))
+			continue
+		case !ok:
+			*errs = append(*errs, doc.Errorf(path+".kind", "unknown step kind %q (expected one of %s)", h.Kind, kindNamesText()))
+			continue
+		}
+		d.Step = k.New()
+		if err := doc.DecodeAt(path, d.Step, func(k string) bool { return headKeys[k] }); err != nil {
+			*decodeErrs = append(*decodeErrs, files.Errs(err)...)
+		}
+		s.Steps = append(s.Steps, d)
+		paths = append(paths, path)
+	}
+	return paths
+}
+
+// MaxStepName is the longest step name.
+const MaxStepName = 40
+
+// checkSteps names, checks and compiles every step in order.
+func checkSteps(doc *files.Doc, s *Sequence, paths []string, errs *files.List) {
+	names := map[string]string{}
+	declared := map[string]string{} // result → step
+	for i, d := range s.Steps {
+		path := paths[i]
+		switch {
+		case d.Name == "" && !doc.Has(path+".name"):
+			d.Name = d.Kind
+			if _, dup := names[d.Name]; dup {
+				d.Name = fmt.Sprintf("%s %d", d.Kind, i+1)
+			}
+		case d.Name == "":
+			*errs = append(*errs, doc.Errorf(path+".name", "expected a step name"))
+		case len(d.Name) > MaxStepName || strings.IndexFunc(d.Name, func(r rune) bool { return r < ' ' || r == 0x7f }) >= 0:
+			*errs = append(*errs, doc.Errorf(path+".name", "expected a name of at most %d characters without control characters", MaxStepName))
+		}
+		if where, dup := names[d.Name]; dup {
+			*errs = append(*errs, doc.Errorf(path+".name", "step name %q is already used by the step at %s: every step needs its own name", d.Name, where))
+		}
+		names[d.Name] = d.Where
+		d.Stage = AsFound
+		for _, e := range s.Steps[:i] {
+			if e.Stage == Adjustment {
+				d.Stage = AsLeft
+			}
+		}
+		c := &Checker{doc: doc, path: path, seq: s, decl: d, earlier: s.Steps[:i], errs: errs, names: declared}
+		d.Step.Check(c)
+		if d.SkipIf != "" {
+			var earlier []ResultDef
+			for _, e := range s.Steps[:i] {
+				earlier = append(earlier, e.Results...)
+			}
+			cond, err := compileCondition(d.SkipIf, earlier)
+			if err != nil {
+				*errs = append(*errs, doc.Errorf(path+".skip_if", "%v", err))
+			}
+			d.skip = cond
+		}
+	}
+}
+
+// requires sets s.Requires: the roles the steps use, checked against the file's
+// own requires list when it has one (which may add roles, and sets their order).
+func requires(doc *files.Doc, s *Sequence, listed []string, errs *files.List) {
+	used := map[string]RoleKind{}
+	var order []RoleUse
+	for _, d := range s.Steps {
+		for _, r := range d.Roles {
+			if k, seen := used[r.Role]; seen {
+				if k != r.Kind {
+					*errs = append(*errs, doc.Errorf("$.steps", "role %q is used as a %s by one step and as a %s by another", r.Role, k, r.Kind))
+				}
+				continue
+			}
+			used[r.Role] = r.Kind
+			order = append(order, r)
+		}
+	}
+	if len(listed) > 0 {
+		for i, r := range listed {
+			if !validRoleName(r) {
+				*errs = append(*errs, doc.Errorf(fmt.Sprintf("$.requires[%d]", i), "role %q: expected a name of lowercase letters, digits and _", r))
+			}
+		}
+		for _, r := range order {
+			if !slices.Contains(listed, r.Role) {
+				*errs = append(*errs, doc.Errorf("$.requires", "the steps use the %q role, which requires does not list", r.Role))
+			}
+		}
+		s.Requires = append([]string(nil), listed...)
+		return
+	}
+	slices.SortStableFunc(order, func(a, b RoleUse) int { return int(a.Kind.order()) - int(b.Kind.order()) })
+	for _, r := range order {
+		s.Requires = append(s.Requires, r.Role)
+	}
 }
 
 func limitsFileRef(s *limits.Set) FileRef {
@@ -418,85 +518,6 @@ func sweepTime(p SweepPlan, nplc float64) time.Duration {
 	return time.Duration(p.Points) * (p.Settle + time.Duration(p.Readings)*perReading)
 }
 
-func sweepPlan(doc *files.Doc, path string, d *sweepDecl, errs *files.List) SweepPlan {
-	bad := func(p, format string, args ...any) { *errs = append(*errs, doc.Errorf(p, format, args...)) }
-	if d == nil {
-		bad(path, "missing required key %q (from, to, points, settle, readings)", lastPart(path))
-		return SweepPlan{}
-	}
-	var p SweepPlan
-	line, col := doc.Pos(path)
-	p.Where = fmt.Sprintf("%s:%d:%d", doc.Name, line, col)
-	if d.From == nil {
-		bad(path, "missing required key \"from\"")
-	} else {
-		p.From = float64(*d.From)
-	}
-	if d.To == nil {
-		bad(path, "missing required key \"to\"")
-	} else {
-		p.To = float64(*d.To)
-	}
-	if d.From != nil && d.To != nil && p.From == p.To {
-		bad(path+".to", "expected \"to\" to differ from \"from\"")
-	}
-	p.Points = d.Points
-	if p.Points < MinPoints {
-		bad(path+".points", "expected at least %d points, found %d (a line through 2 points has no residual to judge)", MinPoints, d.Points)
-	} else if p.Points > MaxPoints {
-		bad(path+".points", "expected at most %d points, found %d", MaxPoints, d.Points)
-	}
-	if d.Settle == nil {
-		bad(path, "missing required key \"settle\" (e.g. 20ms)")
-	} else if p.Settle = d.Settle.D(); p.Settle < 0 {
-		bad(path+".settle", "expected a settle time ≥ 0")
-	} else if p.Settle > MaxSettle {
-		bad(path+".settle", "expected a settle time of at most %s, found %s", MaxSettle, p.Settle)
-	}
-	p.Readings = d.Readings
-	if p.Readings < 1 {
-		bad(path+".readings", "expected at least 1 reading per point, found %d", d.Readings)
-	} else if p.Readings > MaxReadings {
-		bad(path+".readings", "expected at most %d readings per point, found %d", MaxReadings, d.Readings)
-	}
-	return p
-}
-
-func dac(doc *files.Doc, path string, d *dacDecl, dim units.Dim, errs *files.List) DAC {
-	bad := func(p, format string, args ...any) { *errs = append(*errs, doc.Errorf(p, format, args...)) }
-	if d == nil {
-		bad(parentPath(path), "missing required key %q", lastPart(path))
-		return DAC{}
-	}
-	out := DAC{Bits: d.Bits, Write: d.Write, Read: d.Read}
-	if d.Bits < 1 || d.Bits > MaxDACBits {
-		bad(path+".bits", "expected 1 to %d bits, found %d", MaxDACBits, d.Bits)
-		out.Bits = 1
-	}
-	if d.LSB == "" {
-		bad(path, "missing required key \"lsb\"")
-	} else if v, err := parseLSB(d.LSB, dim); err != nil {
-		bad(path+".lsb", "%v", err)
-	} else if out.LSB = v; v <= 0 {
-		bad(path+".lsb", "expected a positive LSB size")
-	}
-	if d.NoCorrection == nil {
-		bad(path, "missing required key \"no_correction\" (the code that applies no correction, often mid-scale)")
-	} else {
-		out.NoCorrection = *d.NoCorrection
-		if out.NoCorrection < 0 || out.NoCorrection > out.MaxCode() {
-			bad(path+".no_correction", "expected a code in 0..%d", out.MaxCode())
-		}
-	}
-	if !strings.Contains(d.Write, "{code}") {
-		bad(path+".write", "expected a command template containing {code}, e.g. \"TRIM OFS {code}\"")
-	}
-	if d.Read == "" {
-		bad(path, "missing required key \"read\" (the query that reads the code back)")
-	}
-	return out
-}
-
 // parseLSB reads a DAC's LSB: a voltage, or for a gain DAC a ratio with its unit
 // (a bare "10" could be 10 ppm or 10 %).
 func parseLSB(s string, dim units.Dim) (float64, error) {
@@ -515,4 +536,98 @@ func contains(list []string, s string) bool {
 		}
 	}
 	return false
+}
+
+// LoadSequenceSteps reads a sequence file without the limit file it names: for
+// tools that judge a limit file against the product's results (lint, release)
+// even while that limit file does not load. The returned sequence has no Limits.
+func LoadSequenceSteps(path string) (*Sequence, error) {
+	data, err := files.ReadFile(path)
+	if err != nil {
+		return nil, err
+	}
+	return parseSequence(path, data, nil)
+}
+
+// FirstLayoutCatalog is the catalogue of every first-layout sequence: the ten
+// results of its fixed flow. A limit file that no sequence names is checked
+// against it.
+func FirstLayoutCatalog() limits.Catalog {
+	c := limits.Catalog{}
+	for n, st := range firstLayoutStages {
+		c[n] = units.Volt
+		switch {
+		case st == Adjustment:
+			c[n] = units.Count
+		case n == ResPreGainError || n == ResPostGainError || n == ResPreNonlinearity || n == ResPostNonlinearity:
+			c[n] = units.Ratio
+		}
+	}
+	return c
+}
+
+// CatalogFor returns the results a limit file may judge: those of the sequence
+// files beside it that name it under limits: (their union, with the first one
+// found), or, when none does, FirstLayoutCatalog with seq nil and a note saying
+// so. Sequence files that do not load are passed over.
+func CatalogFor(limitsPath string) (cat limits.Catalog, seq *Sequence, note string) {
+	dir := filepath.Dir(limitsPath)
+	want, _ := filepath.Abs(limitsPath)
+	entries, _ := os.ReadDir(dir)
+	for _, en := range entries {
+		if en.IsDir() || !(strings.HasSuffix(en.Name(), ".yaml") || strings.HasSuffix(en.Name(), ".yml")) {
+			continue
+		}
+		p := filepath.Join(dir, en.Name())
+		data, err := files.ReadFile(p)
+		if err != nil || FileKind(data) != FileSequence {
+			continue
+		}
+		s, err := parseSequence(p, data, nil)
+		if err != nil {
+			continue
+		}
+		lp := s.limitsName
+		if !filepath.IsAbs(lp) {
+			lp = filepath.Join(dir, lp)
+		}
+		if abs, _ := filepath.Abs(lp); abs != want {
+			continue
+		}
+		if cat == nil {
+			cat, seq = limits.Catalog{}, s
+		}
+		maps.Copy(cat, s.Catalog())
+	}
+	if cat == nil {
+		return FirstLayoutCatalog(), nil, fmt.Sprintf("no sequence file beside %s names it: its result names are checked against the first layout's (give --sequence to check them against a product's steps)", filepath.Base(limitsPath))
+	}
+	return cat, seq, ""
+}
+
+// RecordCatalog is the catalogue of the results a record holds, with the
+// dimension each was recorded in: what the limit file in force at the time judged.
+func RecordCatalog(rec *Record) limits.Catalog {
+	c := limits.Catalog{}
+	for _, r := range rec.Results {
+		switch r.Unit {
+		case "V":
+			c[r.Name] = units.Volt
+		case "code":
+			c[r.Name] = units.Count
+		default:
+			c[r.Name] = units.Ratio
+		}
+	}
+	return c
+}
+
+// Sweep returns the plan of the sweep step called name.
+func (s *Sequence) Sweep(name string) (SweepPlan, bool) {
+	if d := s.Step(name); d != nil {
+		if sw, ok := d.Step.(*sweepStep); ok {
+			return sw.Plan, true
+		}
+	}
+	return SweepPlan{}, false
 }

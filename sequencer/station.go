@@ -15,8 +15,86 @@ import (
 	"trimline/instruments/units"
 )
 
-// Roles are the instrument roles a station file may bind.
-var Roles = []string{"source", "meter", "dut"}
+// RoleKind is what kind of instrument a role binds.
+type RoleKind string
+
+const (
+	VoltageSource RoleKind = "voltage_source" // a programmable DC voltage source (instruments.Source)
+	VoltMeter     RoleKind = "meter"          // a DC voltmeter (instruments.Meter)
+	DUTPort       RoleKind = "dut_port"       // the unit's command port (instruments.TrimPort)
+)
+
+// The roles a station binds when its file does not say otherwise, each of the
+// kind of the same name.
+const (
+	RoleSource = "source"
+	RoleMeter  = "meter"
+	RoleDUT    = "dut"
+)
+
+// roleKinds are the kinds in the order roles are listed: sources, meters, ports.
+var roleKinds = []RoleKind{VoltageSource, VoltMeter, DUTPort}
+
+func (k RoleKind) order() int {
+	for i, x := range roleKinds {
+		if x == k {
+			return i
+		}
+	}
+	return len(roleKinds)
+}
+
+// defaultKind is the kind of a role the station file names without kind:.
+func defaultKind(role string) (RoleKind, bool) {
+	switch role {
+	case RoleSource:
+		return VoltageSource, true
+	case RoleMeter:
+		return VoltMeter, true
+	case RoleDUT:
+		return DUTPort, true
+	}
+	return "", false
+}
+
+func kindsText() string {
+	var out []string
+	for _, k := range roleKinds {
+		out = append(out, string(k))
+	}
+	return strings.Join(out, ", ")
+}
+
+// validRoleName reports whether s can name a role: lowercase letters, digits and
+// _, beginning with a letter, at most 32 characters.
+func validRoleName(s string) bool {
+	if s == "" || len(s) > 32 || !(s[0] >= 'a' && s[0] <= 'z') {
+		return false
+	}
+	for _, r := range s {
+		if !(r >= 'a' && r <= 'z' || r >= '0' && r <= '9' || r == '_') {
+			return false
+		}
+	}
+	return true
+}
+
+// Roles returns the roles the station binds: sources first, then meters, then
+// DUT ports, each group by name.
+func (s *Station) Roles() []string {
+	out := make([]string, 0, len(s.Instruments))
+	for r := range s.Instruments {
+		out = append(out, r)
+	}
+	sort.Slice(out, func(i, j int) bool {
+		a, b := s.Instruments[out[i]].Kind.order(), s.Instruments[out[j]].Kind.order()
+		if a != b {
+			return a < b
+		}
+		return out[i] < out[j]
+	})
+	return out
+}
 
 // Station is a loaded station file: what is on this bench.
 type Station struct {
@@ -62,6 +140,7 @@ type Interlock struct {
 // StationInstrument is one role's binding on the station.
 type StationInstrument struct {
 	Role      string
+	Kind      RoleKind
 	Address   string
 	Asset     string
 	CalDue    time.Time // the last day the calibration is valid, UTC midnight
@@ -109,6 +188,7 @@ type stationFile struct {
 		CertificatePrefix string `yaml:"certificate_prefix"`
 	} `yaml:"station"`
 	Instruments map[string]struct {
+		Kind     string `yaml:"kind"`
 		Address  string `yaml:"address"`
 		Asset    string `yaml:"asset"`
 		CalDue   string `yaml:"cal_due"`
@@ -229,7 +309,7 @@ func parseStation(name string, data []byte, recorded bool) (*Station, error) {
 		st.CertificatePrefix = st.ID
 	}
 	if !doc.Has("$.instruments") {
-		errs = append(errs, doc.Errorf("$", "missing required key \"instruments\" (roles: %s)", strings.Join(Roles, ", ")))
+		errs = append(errs, doc.Errorf("$", "missing required key \"instruments\" (each role with its kind: %s)", kindsText()))
 	}
 	roles := make([]string, 0, len(f.Instruments))
 	for r := range f.Instruments {
@@ -239,13 +319,24 @@ func parseStation(name string, data []byte, recorded bool) (*Station, error) {
 	for _, role := range roles {
 		in := f.Instruments[role]
 		base := "$.instruments." + role
-		if !isRole(role) {
-			errs = append(errs, doc.KeyErrorf(base, "unknown role %q (expected one of %s)", role, strings.Join(Roles, ", ")))
+		if !validRoleName(role) {
+			errs = append(errs, doc.KeyErrorf(base, "role %q: expected a name of lowercase letters, digits and _ beginning with a letter", role))
 			continue
+		}
+		kind, known := defaultKind(role)
+		switch k := RoleKind(in.Kind); {
+		case in.Kind == "" && !known:
+			errs = append(errs, doc.KeyErrorf(base, "missing required key \"kind\" for role %q (one of %s)", role, kindsText()))
+		case in.Kind == "":
+		case k.order() == len(roleKinds):
+			errs = append(errs, doc.Errorf(base+".kind", "unknown instrument kind %q (expected one of %s)", in.Kind, kindsText()))
+			kind, known = "", false
+		default:
+			kind, known = k, true
 		}
 		req(base+".address", in.Address)
 		req(base+".asset", in.Asset)
-		si := StationInstrument{Role: role, Address: in.Address, Asset: in.Asset, Model: in.Model, Serial: in.Serial,
+		si := StationInstrument{Role: role, Kind: kind, Address: in.Address, Asset: in.Asset, Model: in.Model, Serial: in.Serial,
 			Settings: in.Settings, Templates: in.Templates}
 		if in.Timeout != nil {
 			if si.Timeout = in.Timeout.D(); si.Timeout <= 0 {
@@ -254,7 +345,7 @@ func parseStation(name string, data []byte, recorded bool) (*Station, error) {
 				errs = append(errs, doc.Errorf(base+".timeout", "expected a timeout of at most %s, found %s", MaxTimeout, si.Timeout))
 			}
 		}
-		if role != "dut" {
+		if known && kind != DUTPort { // an instrument of no known kind has no checks to make
 			req(base+".cal_due", in.CalDue)
 			if in.CalDue != "" {
 				d, err := time.Parse("2006-01-02", in.CalDue)
@@ -306,9 +397,7 @@ func parseStation(name string, data []byte, recorded bool) (*Station, error) {
 	}
 	if il := f.Interlock; il != nil {
 		st.Interlock = &Interlock{Role: il.Role, Query: il.Query, Closed: il.Closed}
-		if !isRole(il.Role) {
-			errs = append(errs, doc.Errorf("$.interlock.role", "unknown role %q (expected one of %s)", il.Role, strings.Join(Roles, ", ")))
-		} else if _, ok := f.Instruments[il.Role]; !ok {
+		if _, ok := f.Instruments[il.Role]; !ok {
 			errs = append(errs, doc.Errorf("$.interlock.role", "the interlock is read through the %q role, which this station does not bind", il.Role))
 		}
 		if il.Query == "" {
@@ -363,15 +452,6 @@ func (s *Station) Specs(roles []string) []instruments.Spec {
 
 func (si StationInstrument) spec() instruments.Spec {
 	return instruments.Spec{Role: si.Role, Address: si.Address, Settings: si.Settings, Templates: si.Templates, Timeout: si.Timeout}
-}
-
-func isRole(r string) bool {
-	for _, k := range Roles {
-		if k == r {
-			return true
-		}
-	}
-	return false
 }
 
 func lastPart(path string) string {

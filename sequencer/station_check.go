@@ -31,7 +31,7 @@ func (s *Station) Errorf(path, format string, args ...any) *files.Error {
 func (s *Station) CheckCalibration(now time.Time) files.List {
 	var out files.List
 	today := now.UTC().Truncate(24 * time.Hour)
-	for _, r := range Roles {
+	for _, r := range s.Roles() {
 		si, ok := s.Instruments[r]
 		if !ok || si.CalDue.IsZero() {
 			continue

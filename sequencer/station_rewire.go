@@ -50,7 +50,7 @@ func (st *Station) Rewired(addrs map[string]string, sv Served) ([]byte, error) {
 		return nil, err
 	}
 	tree, err = editMap(tree, "instruments", func(ins yaml.MapSlice) (yaml.MapSlice, error) {
-		for _, r := range Roles {
+		for _, r := range st.Roles() {
 			if _, ok := st.Instruments[r]; !ok {
 				continue
 			}

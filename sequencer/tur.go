@@ -1,12 +1,12 @@
 package sequencer
 
 import (
+	"context"
 	"errors"
 	"fmt"
 	"math"
 	"strings"
 
-	"trimline/instruments"
 	"trimline/limits"
 )
 
@@ -19,35 +19,20 @@ var ErrTUR = errors.New("test uncertainty ratio below the limit file's minimum")
 // (Type B: meter and source specs and resolution, on a unit with exactly the ideal
 // transfer). A unit's own noise only adds to it, so the TURs computed from these
 // are upper bounds.
+//
+// It runs the sequence's steps on paper: every sweep sees a unit with exactly the
+// ideal transfer and no noise, every fit and trim computes as on the bench, and
+// the results' uncertainties are returned by name.
 func PredictUncertainty(st *Station, seq *Sequence) map[string]limits.Value {
-	e := &Engine{cfg: Config{Station: st, Sequence: seq}}
+	rec := &Record{Serial: "predict", RunID: "predict"}
+	u := newUnit(Config{Station: st, Sequence: seq}, rec, predicting)
 	out := map[string]limits.Value{}
-	for _, sw := range []struct {
-		plan                 SweepPlan
-		offset, gain, nonlin string
-	}{
-		{seq.PreTrim, ResPreOffset, ResPreGainError, ResPreNonlinearity},
-		{seq.Verify, ResPostOffset, ResPostGainError, ResPostNonlinearity},
-	} {
-		var ideal Sweep
-		for _, x := range sw.plan.Levels() {
-			y := seq.IdealGain*x + seq.IdealOffset
-			ideal.Points = append(ideal.Points, Point{Stimulus: x, Mean: y, Valid: 1, Readings: make([]instruments.Reading, 1)})
-		}
-		e.annotate(&ideal)
-		a, err := e.analyse(ideal, "predict")
-		if err != nil {
-			continue
-		}
-		res := newResults()
-		e.fitResults(res, a, sw.offset, sw.gain, sw.nonlin)
-		for _, n := range []string{sw.offset, sw.gain, sw.nonlin} {
-			out[n] = res.values[n]
-		}
-		if sw.plan == seq.Verify && len(ideal.Points) > 0 {
-			u, dof := pointErrorU(ideal.Points[len(ideal.Points)-1], math.Inf(1))
-			un := e.unc(u, dof)
-			out[ResPostMaxError] = limits.Value{Valid: true, Std: un.Std, U: un.Expanded, K: un.K, DOF: un.DOF}
+	if err := runSteps(context.Background(), u); err != nil {
+		return out
+	}
+	for _, d := range seq.Results() {
+		if _, evaluated := u.res.unc[d.Name]; evaluated && u.res.values[d.Name].Valid {
+			out[d.Name] = u.res.values[d.Name]
 		}
 	}
 	return out

@@ -189,7 +189,7 @@ func TestWatchdogSwitchesOffAStationThatStoppedTalking(t *testing.T) {
 	for on := false; !on; on, _ = srv.Bench().Source().State() {
 		time.Sleep(time.Millisecond)
 	}
-	for _, r := range sequencer.Roles {
+	for _, r := range []string{sequencer.RoleSource, sequencer.RoleMeter, sequencer.RoleDUT} {
 		if s, ok := e.Instrument(r).(interface{ Session() *scpi.Session }); ok {
 			s.Session().Close()
 		}

@@ -65,7 +65,7 @@ func TestCheckFindsEverythingInOnePass(t *testing.T) {
 		`bad-brx200-station.yaml:26:14: warning: the calibration of the meter DMM-0203 runs out in 10 days`,
 		`bad-brx200-station.yaml:42:23: unknown unit "mX"`,
 		`bad-brx200-station.yaml:50:8: cannot use the signing key`,
-		`bad-brx200-sequence.yaml:10:9: the limit file bad-brx200-limits.yaml is for product "BRX-300"`,
+		`bad-brx200-sequence.yaml:11:9: the limit file bad-brx200-limits.yaml is for product "BRX-300"`,
 		"1 warning(s)", "6 problem(s)",
 	} {
 		if !strings.Contains(out, want) {
@@ -93,7 +93,7 @@ func TestRunSaysWhichKindOfFileWasGiven(t *testing.T) {
 		t.Fatal(err)
 	}
 	code, _, errOut := runCLI(t, "run", "--station", sequence, "--sequence", station, "--serial", "BRX-00001", "--out", dir)
-	if code != exitUsage || !strings.Contains(errOut, "brx200-sequence.yaml:2:1: this is a sequence file (top-level key sequence:), but a station file") ||
+	if code != exitUsage || !strings.Contains(errOut, "brx200-sequence.yaml:3:1: this is a sequence file (top-level key sequence:), but a station file") ||
 		!strings.Contains(errOut, "brx200-station.yaml:9:1: this is a station file (top-level key station:), but a sequence file") {
 		t.Fatalf("exit %d, want 2 naming both kinds:\n%s", code, errOut)
 	}

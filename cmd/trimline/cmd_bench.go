@@ -72,7 +72,7 @@ elapse, as on a real bench.`,
 // serveStation serves the station's sim:// instruments.
 func serveStation(ctx context.Context, st *sequencer.Station, transport string, faults map[string]serve.Fault) (*serve.Server, error) {
 	var specs []instruments.Spec
-	for _, s := range st.Specs(sequencer.Roles) {
+	for _, s := range st.Specs(st.Roles()) {
 		if !strings.HasPrefix(s.Address, "sim://") {
 			return nil, usagef("%s: the %s is at %s; only sim:// instruments can be served", st.File.Name, s.Role, s.Address)
 		}

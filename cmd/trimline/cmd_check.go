@@ -68,7 +68,8 @@ otherwise.`,
 					seqs = append(seqs, s)
 				}
 			case sequencer.FileLimits:
-				_, lerr = limits.Load(path, data, sequencer.ResultCatalog)
+				cat, _, _ := sequencer.CatalogFor(path)
+				_, lerr = limits.Load(path, data, cat)
 			default:
 				problems = append(problems, &files.Error{File: path, Line: 1, Col: 1,
 					Msg: "cannot tell the kind of file: expected a top-level key station:, sequence: or limit_set:"})

@@ -214,7 +214,7 @@ func releaseDemo(ctx context.Context, e *env, dir string) error {
 		if _, ok := rel[hex.EncodeToString(sum[:])]; ok {
 			continue
 		}
-		req := release.Request{Key: key, Trust: trust, Decision: release.Approve, Ranges: sequencer.PhysicalRanges(seq)}
+		req := release.Request{Key: key, Trust: trust, Decision: release.Approve, Ranges: sequencer.PhysicalRanges(seq), Catalog: seq.Catalog()}
 		r, err := recordRelease(ctx, filepath.Join(dir, "ledger.db"), f, sequencer.FileKind(data), data, req)
 		if err != nil {
 			return err

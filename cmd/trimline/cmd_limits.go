@@ -63,7 +63,18 @@ missing descriptions. Exit 2 when any error is found.`,
 			if err != nil {
 				return badInput(err)
 			}
-			fds := limits.Lint(path, data, sequencer.ResultCatalog, opt)
+			var cat limits.Catalog
+			if seq != nil {
+				cat = seq.Catalog()
+			} else {
+				var s *sequencer.Sequence
+				var note string
+				if cat, s, note = sequencer.CatalogFor(path); note != "" {
+					fmt.Fprintln(e.stderr, "note:", note)
+				}
+				opt.Ranges = sequencer.PhysicalRanges(s)
+			}
+			fds := limits.Lint(path, data, cat, opt)
 			for _, f := range fds {
 				fmt.Fprintln(e.stdout, f.Error())
 				if f.Severity == limits.SeverityError {
@@ -83,7 +94,8 @@ missing descriptions. Exit 2 when any error is found.`,
 }
 
 func loadLimitSet(path string) (*limits.Set, error) {
-	set, err := limits.LoadFile(path, sequencer.ResultCatalog)
+	cat, _, _ := sequencer.CatalogFor(path)
+	set, err := limits.LoadFile(path, cat)
 	if err != nil {
 		if fe := files.Errs(err); fe != nil {
 			return nil, badInput(detailed(fe))

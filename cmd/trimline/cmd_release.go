@@ -52,16 +52,23 @@ with the physical ranges of the product's sequence when --sequence names it.`,
 		}
 		kind := sequencer.FileKind(data)
 		var seq *sequencer.Sequence // nil: lint knows only the ranges no product sets
+		var cat limits.Catalog      // the results the limit file may judge
 		if *sequencePath != "" {
-			if seq, err = sequencer.LoadSequence(*sequencePath); err != nil {
+			if seq, err = sequencer.LoadSequenceSteps(*sequencePath); err != nil {
 				return badInput(err)
+			}
+			cat = seq.Catalog()
+		} else if kind == release.KindLimits {
+			var note string
+			if cat, seq, note = sequencer.CatalogFor(pos[0]); note != "" {
+				fmt.Fprintln(e.stderr, "note:", note)
 			}
 		}
 		// The bytes checked are the bytes hashed and signed: data, read once.
 		var cerr error
 		switch kind {
 		case release.KindLimits:
-			_, cerr = limits.Load(pos[0], data, sequencer.ResultCatalog)
+			_, cerr = limits.Load(pos[0], data, cat)
 		case release.KindSequence:
 			_, cerr = sequencer.ParseSequence(pos[0], data, files.ReadFile)
 		default:
@@ -103,7 +110,7 @@ with the physical ranges of the product's sequence when --sequence names it.`,
 		if a, ok := trust.Approver(key.ID()); ok && *by != "" && *by != a.Name {
 			return usagef("--by %q: the key %s is %s's (%s); the name recorded is the trust entry's", *by, key.ID(), a.Name, trust.Source)
 		}
-		req := release.Request{Key: key, Trust: trust, Decision: *decision, Meaning: *meaning, Ranges: sequencer.PhysicalRanges(seq)}
+		req := release.Request{Key: key, Trust: trust, Decision: *decision, Meaning: *meaning, Ranges: sequencer.PhysicalRanges(seq), Catalog: cat}
 		r, err := recordRelease(ctx, lp, pos[0], kind, data, req)
 		if err != nil {
 			return err

@@ -231,3 +231,90 @@ func implementsAny(t reflect.Type) bool {
 	}
 	return false
 }
+
+// DecodeAt decodes the mapping at path (a YAML path such as "$.steps[2]") into v
+// (a pointer to a struct) as DecodeAll does, with every problem positioned, but
+// leaves out the keys for which skip reports true: a caller that decodes one
+// mapping in two parts (the keys every step has, then the keys of its kind) gives
+// each part the other's keys to skip, so that neither reports them as unknown. A
+// nil skip leaves out nothing. Nothing at path decodes nothing and is no error.
+func (d *Doc) DecodeAt(path string, v any, skip func(key string) bool) (err error) {
+	defer recoverYAML(d.Name, &err)
+	n := d.node(path)
+	if n == nil {
+		return nil
+	}
+	if mv, ok := n.(*ast.MappingValueNode); ok && path != "$" && !strings.HasSuffix(path, "]") {
+		n = mv.Value
+	}
+	rv := reflect.ValueOf(v)
+	if rv.Kind() != reflect.Pointer || rv.IsNil() || rv.Elem().Kind() != reflect.Struct {
+		return &Error{File: d.Name, Msg: "files: DecodeAt needs a pointer to a struct"}
+	}
+	if !plainTree(n) {
+		line, col := tokPos(n.GetToken())
+		return List{d.At(line, col, "anchors, aliases, merge keys and tags are not allowed here")}
+	}
+	entries, ok := mappingEntries(n)
+	if !ok {
+		if _, null := n.(*ast.NullNode); null {
+			return nil
+		}
+		line, col := tokPos(n.GetToken())
+		return List{d.At(line, col, "expected a mapping of keys")}
+	}
+	fields, _ := yamlFields(rv.Elem().Type())
+	var errs List
+	seen := map[string]*ast.MappingValueNode{}
+	for _, mv := range entries {
+		key, dup := d.key(mv, seen, &errs)
+		if dup || skip != nil && skip(key) {
+			continue
+		}
+		i, known := fields[key]
+		if !known {
+			line, col := tokPos(mv.Key.GetToken())
+			errs = append(errs, d.At(line, col, "unknown field %q", key))
+			continue
+		}
+		d.decodeInto(mv.Value, rv.Elem().Field(i), &errs)
+	}
+	if len(errs) > 0 {
+		errs.Sort()
+		return errs
+	}
+	return nil
+}
+
+// Keys returns the keys of the mapping at path in file order, nil when nothing or
+// no mapping is there.
+func (d *Doc) Keys(path string) []string {
+	n := d.node(path)
+	if mv, ok := n.(*ast.MappingValueNode); ok && path != "$" && !strings.HasSuffix(path, "]") {
+		n = mv.Value
+	}
+	entries, ok := mappingEntries(n)
+	if !ok {
+		return nil
+	}
+	out := make([]string, 0, len(entries))
+	for _, mv := range entries {
+		if tk := mv.Key.GetToken(); tk != nil {
+			out = append(out, tk.Value)
+		}
+	}
+	return out
+}
+
+// Len returns the number of items of the sequence at path, 0 when nothing or no
+// sequence is there.
+func (d *Doc) Len(path string) int {
+	n := d.node(path)
+	if mv, ok := n.(*ast.MappingValueNode); ok {
+		n = mv.Value
+	}
+	if s, ok := n.(*ast.SequenceNode); ok {
+		return len(s.Values)
+	}
+	return 0
+}

@@ -69,7 +69,7 @@ func (d *doc) statements() ([]pdfdoc.Column, []pdfdoc.Row) {
 		if dd == nil || strings.TrimSpace(dd.Statement) == "" {
 			continue
 		}
-		name := pdfdoc.Cell{{Text: o.Name, St: pdfdoc.Bold}, {Text: stageWord(outcomeStage(o)), St: pdfdoc.Small}}
+		name := pdfdoc.Cell{{Text: o.Name, St: pdfdoc.Bold}, {Text: stageWord(outcomeStage(d.rec, o)), St: pdfdoc.Small}}
 		rows = append(rows, pdfdoc.Row{name, c1(dd.Statement, pdfdoc.Body), d.zoneCell(o)})
 	}
 	return []pdfdoc.Column{{Title: "Limit", W: 40, Align: "L"}, {Title: "Statement", W: 116, Align: "L"}, {Title: "Decision", W: 24, Align: "C"}}, rows
@@ -99,7 +99,7 @@ func (d *doc) otherResults() ([]pdfdoc.Column, []pdfdoc.Row) {
 		if r.Valid && finite(r.Value) && r.Unit != "code" {
 			note = strings.TrimSpace(uncLine(r.Unc.Expanded, r.Unc.K, r.Unc.DOF, r.Unc.Method) + "   " + note)
 		}
-		rows = append(rows, pdfdoc.Row{c1(r.Name, pdfdoc.Bold), c1(stageWord(stageOf(r.Name)), pdfdoc.Body), c1(fmtResultU(r), st), c1(note, pdfdoc.Small)})
+		rows = append(rows, pdfdoc.Row{c1(r.Name, pdfdoc.Bold), c1(stageWord(stageOf(d.rec, r.Name)), pdfdoc.Body), c1(fmtResultU(r), st), c1(note, pdfdoc.Small)})
 	}
 	return []pdfdoc.Column{
 		{Title: "Result", W: 48, Align: "L"},

@@ -424,13 +424,13 @@ const (
 // stageOf is the stage of a set of result names, as the results table declares
 // them: as found when every name is an as-found result, as left when every one is
 // an as-left result, else other.
-func stageOf(names ...string) stage {
+func stageOf(rec *sequencer.Record, names ...string) stage {
 	if len(names) == 0 {
 		return stageOther
 	}
 	all := func(s sequencer.Stage) bool {
 		for _, n := range names {
-			if sequencer.ResultStage(n) != s {
+			if rec.ResultStage(n) != s {
 				return false
 			}
 		}
@@ -446,9 +446,9 @@ func stageOf(names ...string) stage {
 }
 
 // outcomeStage is the stage of the results a limit judges.
-func outcomeStage(o limits.Outcome) stage {
+func outcomeStage(rec *sequencer.Record, o limits.Outcome) stage {
 	if o.Decision != nil && o.Decision.Result != "" {
-		return stageOf(o.Decision.Result)
+		return stageOf(rec, o.Decision.Result)
 	}
 	names := append([]string(nil), o.Uses...)
 	if len(names) == 0 {
@@ -456,7 +456,7 @@ func outcomeStage(o limits.Outcome) stage {
 			names = append(names, k)
 		}
 	}
-	return stageOf(names...)
+	return stageOf(rec, names...)
 }
 
 // stageWord is the short label of a stage.

@@ -132,7 +132,7 @@ func TestStagesAndAmbient(t *testing.T) {
 		{[]string{"pre_offset", "post_offset"}, stageOther},
 		{nil, stageOther},
 	} {
-		if got := stageOf(c.names...); got != c.want {
+		if got := stageOf(&sequencer.Record{Schema: 1}, c.names...); got != c.want { // schema 1: stages by the first layout's names
 			t.Errorf("stageOf(%v) = %v, want %v", c.names, got, c.want)
 		}
 	}

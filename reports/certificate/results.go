@@ -89,7 +89,7 @@ func (d *doc) result(name string) (sequencer.Result, bool) {
 // each group in file order.
 func (d *doc) outcomesByStage() []limits.Outcome {
 	out := append([]limits.Outcome(nil), d.rec.Outcomes...)
-	sort.SliceStable(out, func(i, j int) bool { return outcomeStage(out[i]) < outcomeStage(out[j]) })
+	sort.SliceStable(out, func(i, j int) bool { return outcomeStage(d.rec, out[i]) < outcomeStage(d.rec, out[j]) })
 	return out
 }
 
@@ -178,7 +178,7 @@ func (d *doc) results() {
 	last := stage(-1)
 	turLow, exprs := false, false
 	for _, o := range outs {
-		if st := outcomeStage(o); st != last {
+		if st := outcomeStage(d.rec, o); st != last {
 			bands = append(bands, pdfdoc.Band{At: len(rows), Title: stageTitle(st)})
 			last = st
 		}

@@ -144,6 +144,7 @@ type Request struct {
 	Decision string                // Approve, Reject or Withdraw
 	Meaning  string                // the words of the signature's meaning; "" for DefaultMeaning
 	Ranges   map[string][2]float64 // physical ranges for lint (sequencer.PhysicalRanges)
+	Catalog  limits.Catalog        // the results a limit file may judge (Sequence.Catalog); nil: the first layout's
 }
 
 // LintError lists the lint errors that stop a limit file's approval; it matches
@@ -187,7 +188,7 @@ func Record(ctx context.Context, led *ledger.Ledger, path, kind string, data []b
 	}
 	if kind == KindLimits && req.Decision == Approve {
 		var errs []limits.Finding
-		for _, f := range limits.Lint(path, data, sequencer.ResultCatalog, limits.LintOptions{Ranges: req.Ranges}) {
+		for _, f := range limits.Lint(path, data, catalogOr(req.Catalog), limits.LintOptions{Ranges: req.Ranges}) {
 			if f.Severity == limits.SeverityError {
 				errs = append(errs, f)
 			}
@@ -346,3 +347,11 @@ type keysError struct{ err error }
 func (e *keysError) Error() string        { return e.err.Error() }
 func (e *keysError) Unwrap() error        { return e.err }
 func (e *keysError) Is(target error) bool { return target == ErrReleaseKeys }
+
+// catalogOr is cat, or the first layout's catalogue when cat is nil.
+func catalogOr(cat limits.Catalog) limits.Catalog {
+	if cat == nil {
+		return sequencer.FirstLayoutCatalog()
+	}
+	return cat
+}

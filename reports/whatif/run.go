@@ -101,7 +101,7 @@ func Units(ctx context.Context, led *ledger.Ledger, req Request) (units []Stored
 					continue
 				}
 				if b, err := led.Blob(ctx, f.SHA256); err == nil {
-					inForce, _ = limits.Load(f.Name, b, sequencer.ResultCatalog)
+					inForce, _ = limits.Load(f.Name, b, sequencer.RecordCatalog(rec))
 				}
 			}
 		}

@@ -24,11 +24,11 @@ var generated = time.Date(2025, 3, 14, 9, 30, 0, 0, time.UTC)
 
 func loadPair(t testing.TB) (old, new *limits.Set) {
 	t.Helper()
-	old, err := limits.LoadFile("../../sequences/brx200-limits.yaml", sequencer.ResultCatalog)
+	old, err := limits.LoadFile("../../sequences/brx200-limits.yaml", sequencer.FirstLayoutCatalog())
 	if err != nil {
 		t.Fatal(err)
 	}
-	new, err = limits.LoadFile("../../testdata/limits/brx200-rev7.yaml", sequencer.ResultCatalog)
+	new, err = limits.LoadFile("../../testdata/limits/brx200-rev7.yaml", sequencer.FirstLayoutCatalog())
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -1,0 +1,242 @@
+package sequencer
+
+// The fit step: a straight line (or a quadratic) through an earlier sweep's
+// points, with its uncertainty, and the results the file names from it.
+
+import (
+	"context"
+	"fmt"
+	"math"
+	"sort"
+
+	"trimline/instruments/units"
+	"trimline/sequencer/uncertainty"
+)
+
+func init() {
+	RegisterStep(StepKind{Name: "fit", About: "fits a line (order 1) or a quadratic (order 2) through an earlier sweep, optionally over a window of its levels, and names the results",
+		New: func() Step { return new(fitStep) }})
+}
+
+// The results a fit can give, as a fit step's results: map names them.
+var fitOutputs = map[string]struct {
+	dim   units.Dim
+	about string
+	rng   func(f *fitStep) func(*Sequence) (float64, float64, bool)
+}{
+	"offset":       {units.Volt, "output error at zero input, V", func(*fitStep) func(*Sequence) (float64, float64, bool) { return outputError }},
+	"gain_error":   {units.Ratio, "slope/ideal − 1, fraction", func(*fitStep) func(*Sequence) (float64, float64, bool) { return fixedRange(-1, 1) }},
+	"nonlinearity": {units.Ratio, "max |residual| / full scale, fraction", func(*fitStep) func(*Sequence) (float64, float64, bool) { return fixedRange(0, 1) }},
+	"max_error":    {units.Volt, "max |mean − ideal| over the fitted levels, V", func(f *fitStep) func(*Sequence) (float64, float64, bool) { return f.maxErrorRange }},
+	"noise":        {units.Volt, "pooled standard deviation of the readings, V rms", func(*fitStep) func(*Sequence) (float64, float64, bool) { return noiseRange }},
+	"lack_of_fit":  {units.Ratio, "χ²/ν of the residuals against the points' uncertainties, or F against pure error where levels repeat", func(*fitStep) func(*Sequence) (float64, float64, bool) { return nil }},
+}
+
+// fitStep is a fit as the sequence file writes it.
+type fitStep struct {
+	Sweep  string `yaml:"sweep"`
+	Order  int    `yaml:"order"`
+	Window *struct {
+		From *units.Voltage `yaml:"from"`
+		To   *units.Voltage `yaml:"to"`
+	} `yaml:"window"`
+	Results map[string]string `yaml:"results"`
+
+	order  []string // the order of Results' keys when not read from a file
+	sweep  *sweepStep
+	lo, hi float64     // window, volts of stimulus (±Inf = none)
+	outs   [][2]string // (what, result name), in the file's order
+}
+
+// fitKept is what a fit leaves for later steps.
+type fitKept struct {
+	a analysis
+}
+
+func (f *fitStep) Check(c *Checker) {
+	if f.Sweep == "" {
+		c.Errorf("", "missing required key \"sweep\" (the name of an earlier sweep step)")
+	} else if d := c.Earlier("sweep", f.Sweep, "sweep"); d != nil {
+		f.sweep = d.Step.(*sweepStep)
+		c.SetStage(d.Stage)
+	}
+	switch f.Order {
+	case 0:
+		f.Order = 1
+	case 1, 2:
+	default:
+		c.Errorf("order", "expected order 1 (a straight line) or 2 (a quadratic), found %d", f.Order)
+	}
+	f.lo, f.hi = math.Inf(-1), math.Inf(1)
+	if w := f.Window; w != nil {
+		if w.From == nil || w.To == nil {
+			c.Errorf("window", "expected from and to: the stimulus levels the fit uses, inclusive")
+		} else {
+			f.lo, f.hi = min(float64(*w.From), float64(*w.To)), max(float64(*w.From), float64(*w.To))
+		}
+		if f.sweep != nil && w.From != nil && w.To != nil {
+			n := 0
+			for _, x := range f.sweep.Plan.Levels() {
+				if x >= f.lo && x <= f.hi {
+					n++
+				}
+			}
+			if n < f.Order+2 {
+				c.Errorf("window", "the window holds %d of the sweep's levels: an order-%d fit needs at least %d to leave a residual", n, f.Order, f.Order+2)
+			}
+		}
+	}
+	if len(f.Results) == 0 {
+		c.Errorf("", "missing required key \"results\": name what the fit gives (%s), e.g. results: {offset: pre_offset}", fitOutputsText())
+	}
+	for _, what := range orderedKeys(c, "results", f.Results, f.order) {
+		name := f.Results[what]
+		o, ok := fitOutputs[what]
+		if !ok {
+			c.Errorf("results."+what, "unknown fit result %q (expected one of %s)", what, fitOutputsText())
+			continue
+		}
+		c.Declare("results."+what, ResultDef{Name: name, Dim: o.dim, About: o.about, Range: o.rng(f)})
+		f.outs = append(f.outs, [2]string{what, name})
+	}
+}
+
+func fitOutputsText() string {
+	var out []string
+	for k := range fitOutputs {
+		out = append(out, k)
+	}
+	sort.Strings(out)
+	return fmt.Sprint(out)
+}
+
+// orderedKeys returns the keys of m in the order the file writes them under key,
+// or, for a step not read from a file, in the order given (the first layout
+// builds its steps in Go).
+func orderedKeys(c *Checker, key string, m map[string]string, given []string) []string {
+	if given != nil {
+		return given
+	}
+	var out []string
+	for _, k := range c.doc.Keys(c.path + "." + key) {
+		if _, ok := m[k]; ok {
+			out = append(out, k)
+		}
+	}
+	return out
+}
+
+func (f *fitStep) Run(_ context.Context, u *Unit) error {
+	kept, ok := u.Kept(f.Sweep).(sweepKept)
+	if !ok {
+		for _, o := range f.outs {
+			u.Invalid(o[1], fmt.Sprintf("sweep %q was not run", f.Sweep))
+		}
+		return nil
+	}
+	sw := kept.sweep
+	if !math.IsInf(f.lo, -1) || !math.IsInf(f.hi, 1) {
+		var in []Point
+		for _, p := range sw.Points {
+			if p.Stimulus >= f.lo && p.Stimulus <= f.hi {
+				in = append(in, p)
+			}
+		}
+		sw.Points = in
+	}
+	a, err := analyse(u.cfg, kept.plan, sw, u.Rec.RunID)
+	if err != nil {
+		note := fmt.Sprintf("%s sweep: %v", f.Sweep, err)
+		for _, o := range f.outs {
+			u.Invalid(o[1], note)
+		}
+		u.End(note)
+		return nil
+	}
+	a.sum.Step = u.step.Name
+	u.Rec.Fits = append(u.Rec.Fits, a.sum)
+	u.Keep(fitKept{a: a})
+	seq := u.seq
+	for _, o := range f.outs {
+		switch name := o[1]; o[0] {
+		case "offset":
+			uo, do := a.lf.Linear([2]float64{1, 0})
+			u.SetU(name, a.sum.Intercept-seq.IdealOffset, u.Unc(uo, do))
+		case "gain_error":
+			ug, dg := a.lf.Linear([2]float64{0, 1 / seq.IdealGain})
+			u.SetU(name, a.sum.Slope/seq.IdealGain-1, u.Unc(math.Abs(ug), dg))
+		case "nonlinearity":
+			// The largest residual; its uncertainty is that residual's own (random
+			// part only: shared gain and offset errors do not bend the line).
+			ru := make([]float64, len(a.sw.X))
+			for i := range ru {
+				ru[i] = math.Hypot(a.sw.URandom[i], a.sw.MeterResolution/(2*math.Sqrt(3)))
+			}
+			imax := 0
+			for i, r := range a.sum.Residuals {
+				if math.Abs(r) > math.Abs(a.sum.Residuals[imax]) {
+					imax = i
+				}
+			}
+			var un, dn float64
+			if ur := uncertainty.ResidualU(a.sw.X, ru); len(ur) > imax && !math.IsNaN(ur[imax]) {
+				un, dn = ur[imax]/seq.FullScale, a.poolDOF
+			}
+			u.SetU(name, a.sum.Nonlinearity, u.Unc(un, dn))
+		case "max_error":
+			// The largest deviation from the ideal transfer, with that point's own
+			// uncertainty (on paper, where every deviation is 0, the largest
+			// uncertainty).
+			dev := func(p Point) float64 { return math.Abs(p.Mean - (seq.IdealGain*p.Stimulus + seq.IdealOffset)) }
+			imax := 0
+			for i, p := range sw.Points {
+				if dev(p) > dev(sw.Points[imax]) {
+					imax = i
+				}
+			}
+			if u.Predicting() {
+				best := -1.0
+				for i, p := range sw.Points {
+					if pu, _ := pointErrorU(p, math.Inf(1)); pu > best {
+						best, imax = pu, i
+					}
+				}
+			}
+			pu, dof := pointErrorU(sw.Points[imax], a.poolDOF)
+			u.SetU(name, dev(sw.Points[imax]), u.Unc(pu, dof))
+		case "noise":
+			// The pooled standard deviation of the readings, with u(s) ≈ s/√(2ν)
+			// (JCGM 100 E.4.3).
+			if sp, nu := pooledSD(sw.Points); nu > 0 {
+				u.SetU(name, sp, u.Unc(sp/math.Sqrt(2*nu), nu))
+			} else {
+				u.Invalid(name, "one reading per point: no noise estimate")
+			}
+		case "lack_of_fit":
+			if lof := a.sum.LackOfFit; lof != nil && finite(lof.Statistic) {
+				u.Set(name, lof.Statistic)
+			} else {
+				u.Invalid(name, "no lack-of-fit statistic: the points carry no random uncertainty")
+			}
+		}
+	}
+	return nil
+}
+
+// maxErrorRange is the range of the largest deviation of a fitted point from the
+// ideal transfer: from 0 to the readable output's distance from the farthest
+// ideal output of the sweep.
+func (f *fitStep) maxErrorRange(seq *Sequence) (lo, hi float64, ok bool) {
+	olo, ohi, ok := outputSpan(seq)
+	if !ok || f.sweep == nil {
+		return 0, 0, false
+	}
+	for _, x := range f.sweep.Plan.Levels() {
+		if x < f.lo || x > f.hi {
+			continue
+		}
+		y := seq.IdealGain*x + seq.IdealOffset
+		hi = math.Max(hi, math.Max(math.Abs(ohi-y), math.Abs(y-olo)))
+	}
+	return 0, hi, true
+}

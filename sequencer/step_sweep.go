@@ -1,0 +1,322 @@
+package sequencer
+
+// The sweep step: stepping a source across a range (or a list of levels) and
+// reading a meter at each level.
+
+import (
+	"context"
+	"fmt"
+	"math"
+	"time"
+
+	"trimline/instruments"
+	"trimline/instruments/units"
+)
+
+func init() {
+	RegisterStep(StepKind{Name: "sweep", About: "steps a source across a range or a list of levels, settles, and takes readings at each",
+		New: func() Step { return new(sweepStep) }})
+}
+
+// SweepPlan is one pass across the input range.
+type SweepPlan struct {
+	From, To float64 // stimulus, volts
+	// Points is the number of levels, evenly spaced, From first: at least 3 (the
+	// loader refuses fewer; a line through 2 points has no residual to judge).
+	Points int
+	// List, when not nil, is the levels in the order they are programmed, volts;
+	// From, To and Points then describe it (first, last, count).
+	List     []float64
+	Settle   time.Duration // wait after each level change before reading
+	Readings int           // readings per level
+	Source   string        // the source role that programs the levels
+	Meter    string        // the meter role that reads the output
+	MeterSet MeterPlan     // the meter's range and integration time for this sweep
+	Where    string        // "file:line:col" of the sweep in the sequence file, for messages
+}
+
+// Levels returns the stimulus levels in volts. For an even sweep, From to To
+// inclusive: the first is exactly From and the last exactly To, and none lies
+// outside them, so a cap that holds at both ends holds at every level. It is the
+// one computation of the levels: the sweep programs them, and the caps check, the
+// TUR prediction and the physical ranges read them.
+func (p SweepPlan) Levels() []float64 {
+	if p.List != nil {
+		return append([]float64(nil), p.List...)
+	}
+	if p.Points < 1 {
+		return nil
+	}
+	out := make([]float64, p.Points)
+	lo, hi := min(p.From, p.To), max(p.From, p.To)
+	for i := range out {
+		// (1−t)·From + t·To is From at t = 0 and To at t = 1 exactly, and
+		// symmetric sweeps land on 0 exactly; the clamp keeps a rounding of the
+		// products from stepping a hair past either end.
+		t := float64(i) / float64(p.Points-1)
+		out[i] = min(max((1-t)*p.From+t*p.To, lo), hi)
+	}
+	if p.Points == 1 {
+		out[0] = p.From
+	}
+	return out
+}
+
+// sweepStep is a sweep as the sequence file writes it.
+type sweepStep struct {
+	From      *units.Voltage  `yaml:"from"`
+	To        *units.Voltage  `yaml:"to"`
+	Points    int             `yaml:"points"`
+	Levels    []units.Voltage `yaml:"levels"`
+	Settle    *units.Duration `yaml:"settle"`
+	Readings  int             `yaml:"readings"`
+	Source    string          `yaml:"source"`
+	Meter     string          `yaml:"meter"`
+	Stage     string          `yaml:"stage"`
+	MeterSet  *units.Voltage  `yaml:"meter_range"`
+	NPLC      *float64        `yaml:"nplc"`
+	Plan      SweepPlan       `yaml:"-"`
+	legacyKey string          // the first layout's key (pre_trim, verify), for messages
+}
+
+var _ Stimulator = (*sweepStep)(nil)
+
+// sweepKept is what a sweep leaves for later steps.
+type sweepKept struct {
+	sweep Sweep
+	plan  SweepPlan
+}
+
+func (s *sweepStep) Check(c *Checker) {
+	seq := c.Sequence()
+	p := SweepPlan{Source: orDefault(s.Source, RoleSource), Meter: orDefault(s.Meter, RoleMeter), Settle: -1, MeterSet: seq.Meter, Where: c.Where()}
+	c.Use(p.Source, VoltageSource)
+	c.Use(p.Meter, VoltMeter)
+	switch s.Stage {
+	case "":
+	case "as_found":
+		c.SetStage(AsFound)
+	case "as_left":
+		c.SetStage(AsLeft)
+	default:
+		c.Errorf("stage", "expected as_found or as_left, found %q", s.Stage)
+	}
+	if s.MeterSet != nil {
+		p.MeterSet.Range = float64(*s.MeterSet)
+	}
+	if s.NPLC != nil {
+		if p.MeterSet.NPLC = *s.NPLC; !(p.MeterSet.NPLC > 0 && p.MeterSet.NPLC <= MaxNPLC) {
+			c.Errorf("nplc", "expected an integration time above 0 and at most %d power-line cycles, found %g", MaxNPLC, p.MeterSet.NPLC)
+		}
+	}
+	if s.Levels != nil {
+		if s.From != nil || s.To != nil || s.Points != 0 {
+			c.Errorf("levels", "give either levels or from, to and points, not both")
+		}
+		for _, v := range s.Levels {
+			p.List = append(p.List, float64(v))
+		}
+		if len(p.List) > 0 {
+			p.From, p.To = p.List[0], p.List[len(p.List)-1]
+		}
+		if p.Points = len(p.List); p.Points < MinPoints {
+			c.Errorf("levels", "expected at least %d levels, found %d (a line through 2 points has no residual to judge)", MinPoints, p.Points)
+		} else if p.Points > MaxPoints {
+			c.Errorf("levels", "expected at most %d levels, found %d", MaxPoints, p.Points)
+		}
+		for i, v := range p.List {
+			if !finite(v) {
+				c.Errorf(fmt.Sprintf("levels[%d]", i), "expected a finite level")
+			}
+		}
+	} else {
+		if s.From == nil {
+			c.Errorf("", "missing required key \"from\"")
+		} else {
+			p.From = float64(*s.From)
+		}
+		if s.To == nil {
+			c.Errorf("", "missing required key \"to\"")
+		} else {
+			p.To = float64(*s.To)
+		}
+		if s.From != nil && s.To != nil && p.From == p.To {
+			c.Errorf("to", "expected \"to\" to differ from \"from\"")
+		}
+		p.Points = s.Points
+		if p.Points < MinPoints {
+			c.Errorf("points", "expected at least %d points, found %d (a line through 2 points has no residual to judge)", MinPoints, s.Points)
+		} else if p.Points > MaxPoints {
+			c.Errorf("points", "expected at most %d points, found %d", MaxPoints, s.Points)
+		}
+	}
+	if s.Settle == nil {
+		c.Errorf("", "missing required key \"settle\" (e.g. 20ms)")
+	} else if p.Settle = s.Settle.D(); p.Settle < 0 {
+		c.Errorf("settle", "expected a settle time ≥ 0")
+	} else if p.Settle > MaxSettle {
+		c.Errorf("settle", "expected a settle time of at most %s, found %s", MaxSettle, p.Settle)
+	}
+	p.Readings = s.Readings
+	if p.Readings < 1 {
+		c.Errorf("readings", "expected at least 1 reading per point, found %d", s.Readings)
+	} else if p.Readings > MaxReadings {
+		c.Errorf("readings", "expected at most %d readings per point, found %d", MaxReadings, s.Readings)
+	}
+	if p.Points >= MinPoints && p.Points <= MaxPoints && p.Readings >= 1 && p.Readings <= MaxReadings &&
+		p.Settle >= 0 && p.Settle <= MaxSettle && p.MeterSet.NPLC > 0 && p.MeterSet.NPLC <= MaxNPLC {
+		if n := p.Points * p.Readings; n > MaxSweepReadings {
+			c.Errorf("", "expected at most %d readings in a sweep: %d points × %d readings is %d", MaxSweepReadings, p.Points, p.Readings, n)
+		} else if t := sweepTime(p, p.MeterSet.NPLC); t > MaxSweepTime {
+			c.Errorf("", "expected a sweep of at most %s: %d points × (settle %s + %d readings × %g PLC at 50 Hz) is %s",
+				MaxSweepTime, p.Points, p.Settle, p.Readings, p.MeterSet.NPLC, t.Round(time.Second))
+		}
+	}
+	s.Plan = p
+}
+
+// Stimuli are the sweep's levels on its source.
+func (s *sweepStep) Stimuli() []Stimulus {
+	var out []Stimulus
+	for _, v := range s.Plan.Levels() {
+		out = append(out, Stimulus{Role: s.Plan.Source, Level: v, Dim: units.Volt})
+	}
+	return out
+}
+
+func (s *sweepStep) Run(ctx context.Context, u *Unit) error {
+	name := u.step.Name
+	var sw Sweep
+	switch {
+	case u.Live():
+		var err error
+		sw, err = u.e.sweep(ctx, u, name, s.Plan)
+		sw.Stage = u.step.Stage
+		annotate(u.cfg, s.Plan, &sw)
+		u.Rec.Sweeps = append(u.Rec.Sweeps, sw)
+		if err != nil {
+			return err
+		}
+	case u.Replaying():
+		stored, ok := storedSweep(u.stored, name)
+		if !ok {
+			u.End("") // the recorded run ended before this sweep
+			return nil
+		}
+		sw = Sweep{Name: name, Stage: u.step.Stage}
+		for _, p := range stored.Points {
+			sw.Points = append(sw.Points, point(p.Stimulus, p.Readings))
+		}
+		annotate(u.cfg, s.Plan, &sw)
+		u.Rec.Sweeps = append(u.Rec.Sweeps, sw)
+	default: // predicting: a unit with exactly the ideal transfer, one noiseless reading a level
+		seq := u.seq
+		sw = Sweep{Name: name, Stage: u.step.Stage}
+		for _, x := range s.Plan.Levels() {
+			y := seq.IdealGain*x + seq.IdealOffset
+			sw.Points = append(sw.Points, Point{Stimulus: x, Mean: y, Valid: 1, Readings: make([]instruments.Reading, 1)})
+		}
+		annotate(u.cfg, s.Plan, &sw)
+		u.Rec.Sweeps = append(u.Rec.Sweeps, sw)
+	}
+	u.Keep(sweepKept{sweep: sw, plan: s.Plan})
+	return nil
+}
+
+// storedSweep finds the sweep called name in a stored record.
+func storedSweep(rec *Record, name string) (Sweep, bool) {
+	for _, s := range rec.Sweeps {
+		if s.Name == name {
+			return s, true
+		}
+	}
+	return Sweep{}, false
+}
+
+// sweep steps the source across p and reads the meter at each level. The output is
+// switched on after the first level is programmed and off again at the end. After
+// each point's readings every instrument's error queue is read: an entry (say, a
+// meter that flags its reading as stale) stops the run as a station fault.
+func (e *Engine) sweep(ctx context.Context, u *Unit, name string, p SweepPlan) (Sweep, error) {
+	sw := Sweep{Name: name}
+	src, meter := e.sources[p.Source], e.meters[p.Meter]
+	if err := e.configureMeter(ctx, p.Meter, p.MeterSet); err != nil {
+		return sw, err
+	}
+	for i, x := range p.Levels() {
+		err := e.step(ctx, func(ctx context.Context) error {
+			if err := e.checkInterlock(ctx); err != nil {
+				return err
+			}
+			if err := e.setLevel(ctx, p.Source, x); err != nil {
+				return err
+			}
+			if i == 0 {
+				if err := src.SetOutput(ctx, true); err != nil {
+					return fmt.Errorf("%s sweep: source output on: %w", name, err)
+				}
+			}
+			if err := e.clock.Sleep(ctx, p.Settle); err != nil {
+				return err
+			}
+			rs, err := meter.Read(ctx, p.Readings)
+			if err != nil {
+				return fmt.Errorf("%s sweep at %s: read meter: %w", name, fmtV(x), err)
+			}
+			sw.Points = append(sw.Points, point(x, rs))
+			// The unit's output cannot leave its supply rails, so an overload or
+			// not-a-number on the meter's range is the station's problem (range,
+			// wiring, a failing meter), not a measurement of the unit.
+			for j, r := range rs {
+				if !r.Valid() {
+					return &stop{Fault, fmt.Sprintf("%s sweep at %s: meter reported %s (reading %d of %d): check the meter range and the wiring",
+						name, fmtV(x), firstBad(rs[j:j+1]), j+1, len(rs))}
+				}
+			}
+			return e.checkErrors(ctx, func() string { return fmt.Sprintf("%s sweep at %s", name, fmtV(x)) })
+		})
+		if err != nil {
+			return sw, err
+		}
+		u.log.Debug().Str("sweep", name).Float64("x", x).Float64("y", sw.Points[i].Mean).Msg("point")
+	}
+	if err := e.step(ctx, func(ctx context.Context) error { return src.SetOutput(ctx, false) }); err != nil {
+		return sw, fmt.Errorf("%s sweep: source output off: %w", name, err)
+	}
+	return sw, nil
+}
+
+// point summarises the readings at one level. Mean and SD are over the valid
+// readings; a point with any invalid reading cannot be fitted.
+func point(x float64, rs []instruments.Reading) Point {
+	p := Point{Stimulus: x, Readings: rs}
+	var sum float64
+	for _, r := range rs {
+		if r.Valid() {
+			p.Valid++
+			sum += r.Value
+		}
+	}
+	if p.Valid == 0 {
+		p.Mean, p.SD = math.NaN(), math.NaN()
+		return p
+	}
+	p.Mean = sum / float64(p.Valid)
+	if p.Valid > 1 {
+		var ss float64
+		for _, r := range rs {
+			if r.Valid() {
+				ss += (r.Value - p.Mean) * (r.Value - p.Mean)
+			}
+		}
+		p.SD = math.Sqrt(ss / float64(p.Valid-1))
+	}
+	return p
+}
+
+func orDefault(s, def string) string {
+	if s == "" {
+		return def
+	}
+	return s
+}

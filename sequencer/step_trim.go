@@ -1,0 +1,352 @@
+package sequencer
+
+// The trim steps: clear_trim (record what the trim DACs hold, then write their
+// no-correction codes), trim (compute the codes from a fit, write them and read
+// them back) and store (commit them to non-volatile memory).
+
+import (
+	"context"
+	"fmt"
+	"math"
+	"strings"
+
+	"trimline/instruments/units"
+)
+
+func init() {
+	RegisterStep(StepKind{Name: "clear_trim", About: "reads the code each trim DAC holds (recorded as found) and writes its no-correction code",
+		New: func() Step { return new(clearTrimStep) }})
+	RegisterStep(StepKind{Name: "trim", About: "computes trim codes from an earlier fit, writes them and reads them back; a code outside a DAC's range fails the unit",
+		New: func() Step { return new(trimStep) }})
+	RegisterStep(StepKind{Name: "store", About: "sends the command that commits the written trim codes to the unit's non-volatile memory",
+		New: func() Step { return new(storeStep) }})
+}
+
+// dacsOf resolves the DAC names a step lists (all of the sequence's when none),
+// reporting unknown ones at key.
+func dacsOf(c *Checker, key string, names []string) []DAC {
+	seq := c.Sequence()
+	if len(names) == 0 {
+		if len(seq.DACs) == 0 {
+			c.Errorf("", "the sequence declares no trim DACs (dacs:)")
+		}
+		return append([]DAC(nil), seq.DACs...)
+	}
+	var out []DAC
+	for i, n := range names {
+		d, ok := seq.DAC(n)
+		if !ok {
+			var known []string
+			for _, d := range seq.DACs {
+				known = append(known, d.Name)
+			}
+			c.Errorf(fmt.Sprintf("%s[%d]", key, i), "no trim DAC called %q (dacs: declares %s)", n, strings.Join(known, ", "))
+			continue
+		}
+		out = append(out, d)
+	}
+	return out
+}
+
+// trimEntry returns the record's trim entry of DAC name, adding it when new.
+func trimEntry(rec *Record, name string) *TrimCode {
+	for i := range rec.Trims {
+		if rec.Trims[i].DAC == name {
+			return &rec.Trims[i]
+		}
+	}
+	rec.Trims = append(rec.Trims, TrimCode{DAC: name})
+	return &rec.Trims[len(rec.Trims)-1]
+}
+
+// storedTrim returns the stored record's entry of DAC name.
+func storedTrim(rec *Record, name string) (TrimCode, bool) {
+	for _, t := range rec.Trims {
+		if t.DAC == name {
+			return t, true
+		}
+	}
+	return TrimCode{}, false
+}
+
+// clearTrimStep is clear_trim as the file writes it.
+type clearTrimStep struct {
+	DACs []string `yaml:"dacs"`
+	dacs []DAC
+}
+
+func (s *clearTrimStep) Check(c *Checker) {
+	s.dacs = dacsOf(c, "dacs", s.DACs)
+	for _, d := range s.dacs {
+		c.Use(d.Port, DUTPort)
+	}
+}
+
+func (s *clearTrimStep) Run(ctx context.Context, u *Unit) error {
+	for _, d := range s.dacs {
+		t := trimEntry(u.Rec, d.Name)
+		switch {
+		case u.Live():
+			err := u.Do(ctx, func(ctx context.Context) error {
+				c, err := u.e.readCode(ctx, d)
+				t.Before = c
+				return err
+			})
+			if err != nil {
+				return err
+			}
+			if err := u.e.writeCode(ctx, d, d.NoCorrection); err != nil {
+				return err
+			}
+		case u.Replaying():
+			t.Before = d.NoCorrection
+			if st, ok := storedTrim(u.stored, d.Name); ok {
+				t.Before = st.Before
+			}
+		default:
+			t.Before = d.NoCorrection
+		}
+		u.SetCode(d.Name, d.NoCorrection)
+	}
+	return nil
+}
+
+// trimStep is trim as the file writes it.
+type trimStep struct {
+	Fit     string            `yaml:"fit"`
+	DACs    []string          `yaml:"dacs"`
+	Pivot   *units.Voltage    `yaml:"pivot"`
+	Results map[string]string `yaml:"results"`
+
+	order []string // the order of Results' keys when not read from a file
+	plan  TrimPlan
+	names []string // result name of each plan DAC
+}
+
+func (s *trimStep) Check(c *Checker) {
+	c.SetStage(Adjustment)
+	if s.Fit == "" {
+		c.Errorf("", "missing required key \"fit\" (the name of an earlier fit step whose line the codes correct)")
+	} else {
+		c.Earlier("fit", s.Fit, "fit")
+	}
+	s.plan = TrimPlan{DACs: dacsOf(c, "dacs", s.DACs), Pivot: c.Sequence().IdealOffset}
+	if s.Pivot != nil {
+		s.plan.Pivot = float64(*s.Pivot)
+	}
+	s.names = make([]string, len(s.plan.DACs))
+	for i, d := range s.plan.DACs {
+		c.Use(d.Port, DUTPort)
+		s.names[i] = d.Name + "_code"
+		if n, ok := s.Results[d.Name]; ok {
+			s.names[i] = n
+		}
+	}
+	for k := range s.Results {
+		if !slicesContainsDAC(s.plan.DACs, k) {
+			c.Errorf("results."+k, "no trim DAC %q in this trim: results maps a DAC's name to its code's result name", k)
+		}
+	}
+	// Declared in the file's order of results:, then the DACs it does not name.
+	order := orderedKeys(c, "results", s.Results, s.order)
+	for _, d := range s.plan.DACs {
+		if _, ok := s.Results[d.Name]; !ok {
+			order = append(order, d.Name)
+		}
+	}
+	for _, name := range order {
+		for i, d := range s.plan.DACs {
+			if d.Name == name {
+				c.Declare("results."+name, ResultDef{Name: s.names[i], Dim: units.Count, Stage: Adjustment,
+					About: d.Name + " trim code written", Range: codeRange(d)})
+			}
+		}
+	}
+}
+
+func slicesContainsDAC(ds []DAC, name string) bool {
+	for _, d := range ds {
+		if d.Name == name {
+			return true
+		}
+	}
+	return false
+}
+
+func (s *trimStep) Run(ctx context.Context, u *Unit) error {
+	fk, ok := u.Kept(s.Fit).(fitKept)
+	if !ok {
+		u.End(fmt.Sprintf("not measured: fit %q was not made", s.Fit))
+		return nil
+	}
+	seq := u.seq
+	dacs := s.plan.DACs
+	before := make([]int, len(dacs))
+	for i, d := range dacs {
+		t := trimEntry(u.Rec, d.Name)
+		c, known := u.Code(d.Name)
+		switch {
+		case known:
+		case u.Live():
+			err := u.Do(ctx, func(ctx context.Context) error {
+				var err error
+				c, err = u.e.readCode(ctx, d)
+				return err
+			})
+			if err != nil {
+				return err
+			}
+			t.Before = c
+		case u.Replaying():
+			c = d.NoCorrection
+			if st, ok := storedTrim(u.stored, d.Name); ok {
+				c = st.Before
+			}
+			t.Before = c
+		default:
+			c = d.NoCorrection
+			t.Before = c
+		}
+		before[i] = c
+	}
+	sol, err := ComputeTrim(s.plan, fk.a.sum.Slope, fk.a.sum.Intercept, before, seq.IdealGain, seq.IdealOffset)
+	if err != nil {
+		u.Fail("cannot compute trim codes: " + err.Error())
+		u.End("cannot compute trim: " + err.Error())
+		return nil
+	}
+	idealU := idealCodeU(s.plan, fk.a, sol, before)
+	var sat []string
+	for i, d := range dacs {
+		t, c := trimEntry(u.Rec, d.Name), sol.Codes[i]
+		t.Ideal, t.Code, t.Saturated, t.IdealU = c.Ideal, c.Code, c.Saturated, idealU[i]
+		if c.Saturated {
+			sat = append(sat, fmt.Sprintf("%s trim needs code %.1f, outside the DAC's range %d..%d", d.Name, c.Ideal, d.MinCode(), d.MaxCode()))
+			u.res.flagged(s.names[i], float64(c.Code), d.Name+" trim saturated")
+		} else {
+			u.Set(s.names[i], float64(c.Code))
+		}
+	}
+	if len(sat) > 0 {
+		for _, r := range sat {
+			u.Fail(r)
+		}
+		u.End("not measured: trim saturated")
+		return nil
+	}
+	for i, d := range dacs {
+		t := trimEntry(u.Rec, d.Name)
+		switch {
+		case u.Live():
+			if err := u.e.writeCode(ctx, d, t.Code); err != nil {
+				return err
+			}
+			t.Readback, t.Written = t.Code, true
+		case u.Replaying():
+			// What the unit did with the codes is a fact of the run, not a computation.
+			if st, ok := storedTrim(u.stored, d.Name); ok {
+				t.Readback, t.Stored, t.Written = st.Readback, st.Stored, st.Written
+			}
+		}
+		u.SetCode(d.Name, sol.Codes[i].Code)
+	}
+	return nil
+}
+
+// idealCodeU propagates the fit's uncertainty to the exact codes, to first order:
+// a gain code depends on the slope, an offset code on the intercept. The result is
+// in codes, one per plan DAC.
+func idealCodeU(t TrimPlan, a analysis, sol TrimSolution, before []int) []float64 {
+	u0, u1 := math.Sqrt(a.lf.Cov[0][0]), math.Sqrt(a.lf.Cov[1][1])
+	slope := a.sum.Slope
+	gains, _ := t.byStep()
+	g0, g1 := 1.0, 1.0
+	for k, i := range gains {
+		if k == 0 {
+			g0, g1 = gainFactor(t.DACs[i], float64(before[i])), gainFactor(t.DACs[i], float64(sol.Codes[i].Code))
+		} else {
+			g0 *= gainFactor(t.DACs[i], float64(before[i]))
+			g1 *= gainFactor(t.DACs[i], float64(sol.Codes[i].Code))
+		}
+	}
+	out := make([]float64, len(t.DACs))
+	for i, d := range t.DACs {
+		switch {
+		case d.Adjusts == AdjustGain:
+			// ∂(gain code)/∂a = −G·g0/(a²·LSB); with G·g0/a ≈ 1 after trim: ≈ 1/(a·LSB).
+			out[i] = u1 * (slope * g1 / g0) / (slope * slope * d.LSB)
+		case d.BeforeGain:
+			out[i] = u0 / (g0 * (slope / g0) * d.LSB)
+		default:
+			out[i] = u0 * g1 / (g0 * d.LSB)
+		}
+		out[i] = math.Abs(out[i])
+	}
+	return out
+}
+
+// storeStep is store as the file writes it.
+type storeStep struct {
+	Command string `yaml:"command"`
+	Port    string `yaml:"port"`
+}
+
+func (s *storeStep) Check(c *Checker) {
+	if s.Command == "" {
+		c.Errorf("", "missing required key \"command\" (what commits the trim codes to non-volatile memory, e.g. \"NV STORE\")")
+	}
+	s.Port = orDefault(s.Port, RoleDUT)
+	c.Use(s.Port, DUTPort)
+}
+
+func (s *storeStep) Run(ctx context.Context, u *Unit) error {
+	if !u.Live() {
+		return nil // replay takes Stored from the record with the codes
+	}
+	port, err := u.Port(s.Port)
+	if err != nil {
+		return err
+	}
+	if err := u.Do(ctx, func(ctx context.Context) error { return port.Command(ctx, s.Command) }); err != nil {
+		return fmt.Errorf("%s: store trim codes: %w", s.Port, err)
+	}
+	for i := range u.Rec.Trims {
+		if u.Rec.Trims[i].Written {
+			u.Rec.Trims[i].Stored = true
+		}
+	}
+	return nil
+}
+
+// writeCode writes code to the DAC d under the step deadline and reads it back; a
+// read-back that differs stops the run as a station fault.
+func (e *Engine) writeCode(ctx context.Context, d DAC, code int) error {
+	return e.step(ctx, func(ctx context.Context) error {
+		port := e.ports[d.Port]
+		if err := port.Command(ctx, d.Line(code)); err != nil {
+			return fmt.Errorf("%s: write %s trim code %d: %w", d.Port, d.Name, code, err)
+		}
+		got, err := e.readCode(ctx, d)
+		if err != nil {
+			return err
+		}
+		if got != code {
+			return &stop{Fault, fmt.Sprintf("%s: %s trim read back %d after writing %d", d.Port, d.Name, got, code)}
+		}
+		return nil
+	})
+}
+
+// readCode reads the code the DAC d holds; a reply that is not a code stops the run
+// as a station fault.
+func (e *Engine) readCode(ctx context.Context, d DAC) (int, error) {
+	reply, err := e.ports[d.Port].Query(ctx, d.Read)
+	if err != nil {
+		return 0, fmt.Errorf("%s: read %s trim code: %w", d.Port, d.Name, err)
+	}
+	c, err := d.ParseWord(reply)
+	if err != nil {
+		return 0, &stop{Fault, fmt.Sprintf("%s: %s trim read-back %q is not a code", d.Port, d.Name, reply)}
+	}
+	return c, nil
+}

@@ -1,0 +1,171 @@
+package sequencer
+
+// The per-unit context every step runs against.
+
+import (
+	"context"
+	"fmt"
+	"math"
+
+	"github.com/rs/zerolog"
+
+	"trimline/instruments"
+	"trimline/sequencer/uncertainty"
+)
+
+// How a step list runs for a unit.
+type mode int
+
+const (
+	live       mode = iota // on the bench: steps do I/O through the engine's instruments
+	replaying              // from a stored record: steps take the facts of the run from it
+	predicting             // on paper: sweeps see the ideal transfer, nothing is judged
+)
+
+// Unit is the state of one unit's run: its record, the results so far, what each
+// step kept for later steps (a sweep's points, a fit), the codes its trim DACs
+// hold. Steps read and write it; nothing of a unit lives in a step, an instrument
+// or a global, so several units' step lists can run at once on their own Units.
+// A Unit is used by one goroutine at a time.
+type Unit struct {
+	Serial string
+	Rec    *Record
+
+	cfg    Config
+	seq    *Sequence
+	e      *Engine // nil unless live
+	mode   mode
+	stored *Record // replaying: the record being recomputed
+	log    zerolog.Logger
+
+	res   *results
+	kept  map[string]any // by step name
+	codes map[string]int // trim DAC name → code it holds now, where known
+
+	ended   bool
+	endNote string
+	step    *StepDecl // the step running
+}
+
+func newUnit(cfg Config, rec *Record, m mode) *Unit {
+	return &Unit{Serial: rec.Serial, Rec: rec, cfg: cfg, seq: cfg.Sequence, mode: m, log: cfg.Log,
+		res: newResults(cfg.Sequence), kept: map[string]any{}, codes: map[string]int{}}
+}
+
+// Live reports whether the unit is on the bench (not a replay or a prediction):
+// only then may a step do I/O.
+func (u *Unit) Live() bool { return u.mode == live }
+
+// Replaying reports whether the run is recomputed from a stored record; Stored
+// is then that record.
+func (u *Unit) Replaying() bool { return u.mode == replaying }
+
+// Predicting reports whether the run is the TUR prediction: sweeps see a unit
+// with exactly the ideal transfer and no noise.
+func (u *Unit) Predicting() bool { return u.mode == predicting }
+
+// Stored is the record being replayed, nil otherwise.
+func (u *Unit) Stored() *Record { return u.stored }
+
+// Sequence is the sequence in force.
+func (u *Unit) Sequence() *Sequence { return u.seq }
+
+// Station is the station in force.
+func (u *Unit) Station() *Station { return u.cfg.Station }
+
+// Log is the run's logger.
+func (u *Unit) Log() *zerolog.Logger { return &u.log }
+
+// Keep stores what the running step leaves for later steps, under its name.
+func (u *Unit) Keep(v any) { u.kept[u.step.Name] = v }
+
+// Kept returns what the step called name kept, nil when it did not run.
+func (u *Unit) Kept(name string) any { return u.kept[name] }
+
+// Code returns the code trim DAC name holds, as far as the run knows.
+func (u *Unit) Code(name string) (int, bool) {
+	c, ok := u.codes[name]
+	return c, ok
+}
+
+// SetCode records that trim DAC name now holds code.
+func (u *Unit) SetCode(name string, code int) { u.codes[name] = code }
+
+// End stops the unit's run after the running step: the later steps are not run,
+// and every result not yet computed is invalid with note as the reason.
+func (u *Unit) End(note string) {
+	u.ended, u.endNote = true, note
+}
+
+// Fail adds a reason the unit fails, whatever its limits say.
+func (u *Unit) Fail(reason string) { u.Rec.Reasons = append(u.Rec.Reasons, reason) }
+
+// Fault returns the error that stops the run as a station fault with msg: the
+// station could not measure, so nothing is judged.
+func (u *Unit) Fault(format string, args ...any) error {
+	return &stop{verdict: Fault, msg: fmt.Sprintf(format, args...)}
+}
+
+// Set records result name with value v (an exact number: no uncertainty).
+func (u *Unit) Set(name string, v float64) { u.res.set(name, v) }
+
+// SetU records result name with value v and its uncertainty.
+func (u *Unit) SetU(name string, v float64, unc Uncertainty) { u.res.setU(name, v, unc) }
+
+// Invalid records that result name could not be computed, and why.
+func (u *Unit) Invalid(name, why string) { u.res.invalid(name, why) }
+
+// Result returns the value of a result computed so far.
+func (u *Unit) Result(name string) (v float64, valid bool) {
+	r, ok := u.res.values[name]
+	return r.V, ok && r.Valid
+}
+
+// Unc expands a standard uncertainty u (in the unit of its value) with dof
+// degrees of freedom at the limit file's coverage probability, with the
+// sequence's evaluation method.
+func (u *Unit) Unc(std, dof float64) Uncertainty {
+	if !(std >= 0) || math.IsInf(std, 0) {
+		return Uncertainty{}
+	}
+	if dof <= 0 || math.IsNaN(dof) {
+		dof = math.Inf(1)
+	}
+	k, U := uncertainty.Expand(std, dof, coverage(u.seq))
+	return Uncertainty{Std: std, DOF: dof, K: k, Expanded: U, Method: method(u.seq)}
+}
+
+// Do runs f as one engine step under the station's step deadline (re-arming the
+// source's output watchdog first). Only live steps do I/O; Do refuses otherwise.
+func (u *Unit) Do(ctx context.Context, f func(ctx context.Context) error) error {
+	if u.e == nil {
+		return fmt.Errorf("step %q: instrument I/O outside a live run", u.step.Name)
+	}
+	return u.e.step(ctx, f)
+}
+
+// Port returns the DUT port bound to role.
+func (u *Unit) Port(role string) (instruments.TrimPort, error) {
+	p, ok := u.e.all[role].(instruments.TrimPort)
+	if !ok {
+		return nil, fmt.Errorf("%s is not a DUT port", role)
+	}
+	return p, nil
+}
+
+func method(seq *Sequence) string {
+	if seq.Uncertainty == "monte_carlo" {
+		return "MC"
+	}
+	return "GUM"
+}
+
+// coverage is the limit file's coverage probability, 0.9545 when it sets none.
+func coverage(seq *Sequence) float64 {
+	if s := seq.Limits; s != nil {
+		if p := s.Policy().Coverage; p > 0 && p < 1 {
+			return p
+		}
+	}
+	return 0.9545
+}
