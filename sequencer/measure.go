@@ -12,7 +12,8 @@ import (
 // analysis is one sweep's fit with its uncertainty.
 type analysis struct {
 	sum     FitSummary
-	lf      uncertainty.LineFit
+	lf      uncertainty.LineFit  // order 1
+	quad    *uncertainty.QuadFit // order 2, else nil
 	sw      uncertainty.Sweep
 	poolDOF float64 // degrees of freedom of the pooled standard deviation, Σ(n_i − 1)
 }
@@ -57,7 +58,11 @@ func annotate(cfg Config, plan SweepPlan, sw *Sweep) {
 // including the correlated parts of the source and meter errors. Any point with an
 // invalid reading (NaN, infinite, overload) makes the fit unusable, because a
 // flagged reading must never contribute to a passing result.
-func analyse(cfg Config, plan SweepPlan, sw Sweep, seed string) (analysis, error) {
+//
+// order 2 fits a quadratic instead (its slope and intercept are those at zero
+// stimulus); its uncertainty is always evaluated by the law of propagation.
+// Every fit carries a lack-of-fit statistic where one can be made.
+func analyse(cfg Config, plan SweepPlan, sw Sweep, order int, seed string) (analysis, error) {
 	x := make([]float64, len(sw.Points))
 	y := make([]float64, len(sw.Points))
 	ur := make([]float64, len(sw.Points))
@@ -78,25 +83,38 @@ func analyse(cfg Config, plan SweepPlan, sw Sweep, seed string) (analysis, error
 	}
 	meter, source, res := specs(cfg.Station, plan)
 	us := uncertainty.Sweep{X: x, Y: y, URandom: ur, DOFRandom: dof, Meter: meter, MeterResolution: res, Source: source}
-	lf, err := uncertainty.FitLine(us)
-	if err != nil {
-		return analysis{}, err
-	}
-	a := analysis{lf: lf, sw: us, poolDOF: pooled}
+	a := analysis{sw: us, poolDOF: pooled}
 	s := &a.sum
-	s.Sweep, s.Intercept, s.Slope = sw.Name, lf.B0, lf.B1
-	s.Cov, s.CovTotal = lf.CovRandom, lf.Cov
-	s.DOFEff = lf.DOFB0
-	s.Residuals = lf.Residuals
-	s.DOF = len(x) - 2
+	if order == 2 {
+		qf, err := uncertainty.FitQuadratic(us)
+		if err != nil {
+			return analysis{}, err
+		}
+		a.quad = &qf
+		s.Order, s.Coef = 2, qf.B[:]
+		s.Intercept, s.Slope = qf.B[0], qf.B[1]
+		s.Cov, s.CovTotal = block2(qf.CovRandom), block2(qf.Cov)
+		s.DOFEff, s.Residuals, s.DOF = qf.DOFB0, qf.Residuals, len(x)-3
+	} else {
+		lf, err := uncertainty.FitLine(us)
+		if err != nil {
+			return analysis{}, err
+		}
+		a.lf = lf
+		s.Intercept, s.Slope = lf.B0, lf.B1
+		s.Cov, s.CovTotal = lf.CovRandom, lf.Cov
+		s.DOFEff, s.Residuals, s.DOF = lf.DOFB0, lf.Residuals, len(x)-2
+	}
+	s.Sweep, s.Order = sw.Name, order
+	s.LackOfFit = lackOfFit(us, s.Residuals, order+1)
 	var rss, maxAbs float64
-	for _, r := range lf.Residuals {
+	for _, r := range s.Residuals {
 		rss += r * r
 		maxAbs = math.Max(maxAbs, math.Abs(r))
 	}
 	s.ResidualSD = math.Sqrt(rss / float64(s.DOF))
 	s.Nonlinearity = maxAbs / cfg.Sequence.FullScale
-	if cfg.Sequence.Uncertainty == "monte_carlo" {
+	if cfg.Sequence.Uncertainty == "monte_carlo" && order != 2 {
 		h := fnv.New64a()
 		h.Write([]byte(seed + "/" + sw.Name))
 		mc, err := uncertainty.MonteCarlo(us, cfg.Sequence.MCTrials, h.Sum64())
@@ -107,6 +125,51 @@ func analyse(cfg Config, plan SweepPlan, sw Sweep, seed string) (analysis, error
 		a.lf.Cov = mc.Cov
 	}
 	return a, nil
+}
+
+// block2 is the (b0, b1) block of a quadratic's covariance.
+func block2(c [3][3]float64) [2][2]float64 {
+	return [2][2]float64{{c[0][0], c[0][1]}, {c[1][0], c[1][1]}}
+}
+
+// linear is the standard uncertainty and effective dof of g[0]·b0 + g[1]·b1 of the
+// fit, b0 and b1 being the output and the slope at zero stimulus.
+func (a analysis) linear(g [2]float64) (u, dof float64) {
+	if a.quad != nil {
+		return a.quad.Linear([3]float64{g[0], g[1], 0})
+	}
+	return a.lf.Linear(g)
+}
+
+// cov is the covariance of (b0, b1) with every contribution.
+func (a analysis) cov() [2][2]float64 {
+	if a.quad != nil {
+		return block2(a.quad.Cov)
+	}
+	return a.lf.Cov
+}
+
+// lackOfFit tests the fit against its points (uncertainty.LackOfFit): the F test
+// against pure error where stimulus levels repeat, else χ²/ν against the points'
+// own uncertainties; nil when neither can be made.
+func lackOfFit(s uncertainty.Sweep, resid []float64, params int) *LackOfFit {
+	u, err := s.PointU()
+	if err != nil {
+		return nil
+	}
+	fitted := make([]float64, len(s.Y))
+	for i := range fitted {
+		fitted[i] = s.Y[i] - resid[i]
+	}
+	lof, err := uncertainty.LackOfFit(s.X, s.Y, u, fitted, params)
+	if err != nil {
+		return nil
+	}
+	out := &LackOfFit{Method: "chi2/dof", Statistic: lof.Statistic, DOF1: float64(lof.DOF1), P: lof.P}
+	if lof.Method == uncertainty.LOFF {
+		out.Method, out.DOF2 = "F", float64(lof.DOF2)
+	}
+	return out
 }
 
 // pooledSD returns the pooled standard deviation of the points' readings and its

@@ -63,7 +63,11 @@ func (f *fitStep) Check(c *Checker) {
 	switch f.Order {
 	case 0:
 		f.Order = 1
-	case 1, 2:
+	case 1:
+	case 2:
+		if c.Sequence().Uncertainty == "monte_carlo" {
+			c.Errorf("order", "an order-2 fit's uncertainty is evaluated by the law of propagation (JCGM 100) only: use order 1 or uncertainty method gum")
+		}
 	default:
 		c.Errorf("order", "expected order 1 (a straight line) or 2 (a quadratic), found %d", f.Order)
 	}
@@ -144,7 +148,7 @@ func (f *fitStep) Run(_ context.Context, u *Unit) error {
 		}
 		sw.Points = in
 	}
-	a, err := analyse(u.cfg, kept.plan, sw, u.Rec.RunID)
+	a, err := analyse(u.cfg, kept.plan, sw, f.Order, u.Rec.RunID)
 	if err != nil {
 		note := fmt.Sprintf("%s sweep: %v", f.Sweep, err)
 		for _, o := range f.outs {
@@ -160,10 +164,10 @@ func (f *fitStep) Run(_ context.Context, u *Unit) error {
 	for _, o := range f.outs {
 		switch name := o[1]; o[0] {
 		case "offset":
-			uo, do := a.lf.Linear([2]float64{1, 0})
+			uo, do := a.linear([2]float64{1, 0})
 			u.SetU(name, a.sum.Intercept-seq.IdealOffset, u.Unc(uo, do))
 		case "gain_error":
-			ug, dg := a.lf.Linear([2]float64{0, 1 / seq.IdealGain})
+			ug, dg := a.linear([2]float64{0, 1 / seq.IdealGain})
 			u.SetU(name, a.sum.Slope/seq.IdealGain-1, u.Unc(math.Abs(ug), dg))
 		case "nonlinearity":
 			// The largest residual; its uncertainty is that residual's own (random

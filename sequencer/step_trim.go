@@ -257,7 +257,8 @@ func (s *trimStep) Run(ctx context.Context, u *Unit) error {
 // a gain code depends on the slope, an offset code on the intercept. The result is
 // in codes, one per plan DAC.
 func idealCodeU(t TrimPlan, a analysis, sol TrimSolution, before []int) []float64 {
-	u0, u1 := math.Sqrt(a.lf.Cov[0][0]), math.Sqrt(a.lf.Cov[1][1])
+	cov := a.cov()
+	u0, u1 := math.Sqrt(cov[0][0]), math.Sqrt(cov[1][1])
 	slope := a.sum.Slope
 	gains, _ := t.byStep()
 	g0, g1 := 1.0, 1.0
