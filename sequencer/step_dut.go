@@ -125,6 +125,19 @@ func (l *commandLine) text(u *Unit, s string) string {
 }
 
 func (s *commandStep) Run(ctx context.Context, u *Unit) error {
+	if u.Replaying() {
+		// A reply is a fact of the run: a mismatch recorded then fails the
+		// replay the same way.
+		prefix := fmt.Sprintf("step %q: ", u.step.Name)
+		for _, r := range u.stored.Reasons {
+			if strings.HasPrefix(r, prefix) {
+				u.Fail(r)
+				u.End(fmt.Sprintf("not measured: step %q failed", u.step.Name))
+				break
+			}
+		}
+		return nil
+	}
 	if !u.Live() {
 		return nil
 	}
