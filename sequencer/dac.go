@@ -150,20 +150,17 @@ func dacFrom(doc *files.Doc, path string, d *dacDecl, adjusts string, errs *file
 		bad(path+".bits", "expected 1 to %d bits, found %d", MaxDACBits, d.Bits)
 		out.Bits = 1
 	}
-	switch d.Coding {
-	case "", "binary_offset":
-	case "twos_complement":
-		out.TwosComplement = true
-	default:
-		bad(path+".coding", "expected binary_offset or twos_complement, found %q", d.Coding)
+	// either reads a key with two values, the first the default: it reports
+	// whether the second is set.
+	either := func(key, v, first, second string) bool {
+		if v != "" && v != first && v != second {
+			bad(path+"."+key, "expected %s or %s, found %q", first, second, v)
+		}
+		return v == second
 	}
-	switch d.Format {
-	case "", "decimal":
-	case "hex":
-		out.Hex = true
-	default:
-		bad(path+".format", "expected decimal or hex, found %q", d.Format)
-	}
+	out.TwosComplement = either("coding", d.Coding, "binary_offset", "twos_complement")
+	out.Hex = either("format", d.Format, "decimal", "hex")
+	out.BeforeGain = either("placement", d.Placement, "after_gain", "before_gain")
 	dim := units.Volt
 	if adjusts == AdjustGain {
 		dim = units.Ratio
@@ -185,13 +182,6 @@ func dacFrom(doc *files.Doc, path string, d *dacDecl, adjusts string, errs *file
 		out.NoCorrection = 0
 	default:
 		bad(path, "missing required key \"no_correction\" (the code that applies no correction, often mid-scale)")
-	}
-	switch d.Placement {
-	case "", "after_gain":
-	case "before_gain":
-		out.BeforeGain = true
-	default:
-		bad(path+".placement", "expected before_gain or after_gain, found %q", d.Placement)
 	}
 	if d.Placement != "" && adjusts == AdjustGain {
 		bad(path+".placement", "placement applies to offset DACs only")
