@@ -111,6 +111,13 @@ type station struct {
 
 func newStation(t *testing.T) *station {
 	t.Helper()
+	return newStationWith(t, nil)
+}
+
+// newStationWith is newStation whose run is changed by change (when not nil)
+// before it is recorded.
+func newStationWith(t *testing.T, change func(*sequencer.Record)) *station {
+	t.Helper()
 	dir := t.TempDir()
 	privPath, pubPath, err := signing.Init(filepath.Join(dir, "keys"), "station")
 	if err != nil {
@@ -127,6 +134,9 @@ func newStation(t *testing.T) *station {
 	t.Cleanup(func() { led.Close() })
 	contents, refs := files("a")
 	rec := record("run-0001", "SN-17", sequencer.Pass, refs)
+	if change != nil {
+		change(rec)
+	}
 	number, err := led.RecordRunWith(ctx, rec, ledger.RecordOptions{Prefix: "TL1", Files: contents,
 		Sign: func(number, runID, recordSHA string) (string, []byte, error) {
 			return key.ID(), key.Sign(signing.RecordMessage(number, runID, recordSHA)), nil

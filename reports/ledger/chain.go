@@ -132,6 +132,7 @@ var appendOnlyTriggers = []appendOnlyTrigger{
 	{"cert_sequences_no_delete", "cert_sequences"}, {"cert_sequences_no_decrease", "cert_sequences"},
 	{"blobs_no_update", "blobs"}, {"blobs_no_delete", "blobs"},
 	{"audit_trail_no_update", "audit_trail"}, {"audit_trail_no_delete", "audit_trail"},
+	{"sweeps_no_update", "sweeps"}, {"sweeps_no_delete", "sweeps"}, {"steps_no_update", "steps"}, {"steps_no_delete", "steps"},
 }
 
 // VerifyChain re-checks the ledger and reports the first broken link, in this order:

@@ -42,6 +42,7 @@ const backfillMarker = "-- trimline:backfill"
 // backfills are the Go steps of the migrations that have a backfill marker, by version.
 var backfills = map[int]func(ctx context.Context, tx *sql.Tx) error{
 	3: backfill0003,
+	7: backfill0007,
 }
 
 var migrationName = regexp.MustCompile(`^([0-9]{4})_([a-z0-9_]+)\.sql$`)

@@ -53,13 +53,16 @@ func namedRow(prefix, name string, vals []any) derivedRow {
 // derivedTables are the tables recordRows fills, in the order it fills them.
 var derivedTables = []derivedTable{
 	{"readings", []string{"sweep", "point_index", "reading_index", "stimulus_v", "value_v", "flag", "taken_at"}},
-	{"results", []string{"name", "value", "unit", "valid", "note", "u", "dof", "k", "expanded_u", "method"}},
+	{"results", []string{"name", "value", "unit", "valid", "note", "u", "dof", "k", "expanded_u", "method", "stage", "step"}},
 	{"limit_outcomes", []string{"name", "expr", "unit", "pass", "reason", "values_json",
 		"rule", "guard_factor", "guard", "lower", "upper", "accept_lower", "accept_upper", "zone", "p_outside", "tur", "tur_low", "binary", "statement"}},
-	{"fits", []string{"sweep", "slope", "intercept_v", "residual_sd_v", "dof", "nonlinearity", "cov_json"}},
+	{"fits", []string{"sweep", "slope", "intercept_v", "residual_sd_v", "dof", "nonlinearity", "cov_json",
+		"step", "fit_order", "coef_json", "lack_of_fit_method", "lack_of_fit", "lack_of_fit_p"}},
 	{"trims", []string{"dac", "before_code", "code", "ideal", "readback", "saturated", "stored"}},
 	{"files", []string{"kind", "name", "title", "sha256"}},
 	{"instruments", []string{"role", "address", "asset", "cal_due", "identity"}},
+	{"sweeps", []string{"sweep", "stage", "points"}},
+	{"steps", []string{"step_index", "name", "kind", "stage", "status", "note"}},
 }
 
 // recordRows returns the rows of every derivedTable for rec, indexed like
@@ -84,7 +87,8 @@ func recordRows(rec *sequencer.Record) ([][]derivedRow, error) {
 	out[0] = rs
 	for _, r := range rec.Results {
 		out[1] = append(out[1], namedRow("result ", r.Name,
-			append([]any{r.Name, realOrNull(r.Value), r.Unit, r.Valid, r.Note}, uncertaintyArgs(r.Unc)...)))
+			append(append([]any{r.Name, realOrNull(r.Value), r.Unit, r.Valid, r.Note}, uncertaintyArgs(r.Unc)...),
+				stageOrNull(r.StageOf()), nullText(r.Step))))
 	}
 	for _, o := range rec.Outcomes {
 		vals := o.Values
@@ -103,8 +107,25 @@ func recordRows(rec *sequencer.Record) ([][]derivedRow, error) {
 		if err != nil {
 			return nil, fmt.Errorf("fit of %s: covariance: %w", f.Sweep, err)
 		}
+		var coef any
+		if f.Coef != nil {
+			b, err := canonicalJSON(f.Coef)
+			if err != nil {
+				return nil, fmt.Errorf("fit of %s: coefficients: %w", f.Sweep, err)
+			}
+			coef = string(b)
+		}
+		order := f.Order
+		if order == 0 {
+			order = 1 // a record of schema 1: every fit a line
+		}
+		lof := []any{nil, nil, nil}
+		if f.LackOfFit != nil {
+			lof = []any{f.LackOfFit.Method, realOrNull(f.LackOfFit.Statistic), realOrNull(f.LackOfFit.P)}
+		}
 		out[3] = append(out[3], namedRow("fit of sweep ", f.Sweep,
-			[]any{f.Sweep, realOrNull(f.Slope), realOrNull(f.Intercept), realOrNull(f.ResidualSD), f.DOF, realOrNull(f.Nonlinearity), string(cj)}))
+			append([]any{f.Sweep, realOrNull(f.Slope), realOrNull(f.Intercept), realOrNull(f.ResidualSD), f.DOF, realOrNull(f.Nonlinearity), string(cj),
+				nullText(f.Step), order, coef}, lof...)))
 	}
 	for _, t := range rec.Trims {
 		out[4] = append(out[4], namedRow("trim DAC ", t.DAC,
@@ -116,7 +137,24 @@ func recordRows(rec *sequencer.Record) ([][]derivedRow, error) {
 	for _, in := range rec.Instruments {
 		out[6] = append(out[6], namedRow("instrument ", in.Role, []any{in.Role, in.Address, in.Asset, in.CalDue, in.Identity.String()}))
 	}
+	for _, sw := range rec.Sweeps {
+		out[7] = append(out[7], namedRow("sweep ", sw.Name, []any{sw.Name, stageOrNull(sw.StageOf()), len(sw.Points)}))
+	}
+	for i, st := range rec.Steps {
+		out[8] = append(out[8], namedRow("step ", st.Name, []any{i, st.Name, st.Kind, stageOrNull(st.Stage), st.Status, nullText(st.Note)}))
+	}
 	return out, nil
+}
+
+// stageOrNull is a stage as the record spells it ("as_found", "adjustment",
+// "as_left"), NULL for none (0: a result or sweep of schema 1 the first layout
+// did not name, or a step with no stage).
+func stageOrNull(s sequencer.Stage) any {
+	b, err := s.MarshalText()
+	if err != nil {
+		return nil
+	}
+	return string(b)
 }
 
 // runColumns are the columns of a runs row that repeat its record, and
@@ -250,22 +288,117 @@ func storeRows(ctx context.Context, tx *sql.Tx, rec *sequencer.Record) error {
 		return err
 	}
 	for i, t := range derivedTables {
-		rows := all[i]
-		if len(rows) == 0 {
+		if err := insertRows(ctx, tx, t, rec.RunID, all[i]); err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+// insertRows inserts rows, the rows of table t of run runID.
+func insertRows(ctx context.Context, tx *sql.Tx, t derivedTable, runID string, rows []derivedRow) error {
+	if len(rows) == 0 {
+		return nil
+	}
+	q := "INSERT INTO " + t.name + " (run_id, " + strings.Join(t.columns, ", ") + ") VALUES (?" + strings.Repeat(", ?", len(t.columns)) + ")"
+	st, err := tx.PrepareContext(ctx, q)
+	if err != nil {
+		return fmt.Errorf("%s: %w", t.name, err)
+	}
+	defer st.Close()
+	for _, r := range rows {
+		if _, err := st.ExecContext(ctx, append([]any{runID}, r.vals...)...); err != nil {
+			return fmt.Errorf("%s: %s: %w", t.name, r.what(), err)
+		}
+	}
+	return nil
+}
+
+// backfill0007 is the Go step of migration 0007: for every stored run, in the
+// order stored, it decodes the signed record and gives its results and fits
+// rows the columns 0007 adds, and inserts its sweeps and steps rows, all as
+// recordRows derives them (for a record of schema 1, the first layout's stages
+// by name; see the migration). A run whose record does not decode, or whose
+// rows are not as many as its record's, is left as it is: VerifyChain reports
+// it, as it did before the migration.
+func backfill0007(ctx context.Context, tx *sql.Tx) error {
+	added := map[string][]string{
+		"results": {"stage", "step"},
+		"fits":    {"step", "fit_order", "coef_json", "lack_of_fit_method", "lack_of_fit", "lack_of_fit_p"},
+	}
+	created := []string{"sweeps", "steps"}
+	var ids []string
+	err := eachRow(ctx, tx, `SELECT run_id FROM runs ORDER BY rowid`, nil, func(rows *sql.Rows) error {
+		var id string
+		err := rows.Scan(&id)
+		ids = append(ids, id)
+		return err
+	})
+	if err != nil {
+		return err
+	}
+	for _, id := range ids {
+		var doc []byte
+		if err := tx.QueryRowContext(ctx, `SELECT record_json FROM runs WHERE run_id = ?`, id).Scan(&doc); err != nil {
+			return fmt.Errorf("run %s: %w", id, err)
+		}
+		rec := new(sequencer.Record)
+		if decodeCanonical(doc, rec) != nil {
 			continue
 		}
-		q := "INSERT INTO " + t.name + " (run_id, " + strings.Join(t.columns, ", ") + ") VALUES (?" + strings.Repeat(", ?", len(t.columns)) + ")"
-		st, err := tx.PrepareContext(ctx, q)
+		all, err := recordRows(rec)
 		if err != nil {
-			return fmt.Errorf("%s: %w", t.name, err)
+			continue
 		}
-		for _, r := range rows {
-			if _, err := st.ExecContext(ctx, append([]any{rec.RunID}, r.vals...)...); err != nil {
-				st.Close()
-				return fmt.Errorf("%s: %s: %w", t.name, r.what(), err)
+		for ti, t := range derivedTables {
+			if cols, ok := added[t.name]; ok {
+				if err := backfillColumns(ctx, tx, t, id, cols, all[ti]); err != nil {
+					return fmt.Errorf("run %s: %w", id, err)
+				}
+			}
+			if slices.Contains(created, t.name) {
+				if err := insertRows(ctx, tx, t, id, all[ti]); err != nil {
+					return fmt.Errorf("run %s: %w", id, err)
+				}
 			}
 		}
-		st.Close()
+	}
+	return nil
+}
+
+// backfillColumns sets the columns cols of run id's rows of table t, in rowid
+// order, to those of want; it changes nothing when the run has not exactly
+// len(want) rows.
+func backfillColumns(ctx context.Context, tx *sql.Tx, t derivedTable, id string, cols []string, want []derivedRow) error {
+	var rowids []int64
+	err := eachRow(ctx, tx, `SELECT rowid FROM `+t.name+` WHERE run_id = ? ORDER BY rowid`, []any{id}, func(rows *sql.Rows) error {
+		var r int64
+		err := rows.Scan(&r)
+		rowids = append(rowids, r)
+		return err
+	})
+	if err != nil || len(rowids) != len(want) {
+		return err
+	}
+	idx := make([]int, len(cols))
+	set := make([]string, len(cols))
+	for i, c := range cols {
+		idx[i] = slices.Index(t.columns, c)
+		set[i] = c + " = ?"
+	}
+	st, err := tx.PrepareContext(ctx, `UPDATE `+t.name+` SET `+strings.Join(set, ", ")+` WHERE rowid = ?`)
+	if err != nil {
+		return fmt.Errorf("%s: %w", t.name, err)
+	}
+	defer st.Close()
+	for n, rowid := range rowids {
+		args := make([]any, 0, len(cols)+1)
+		for _, i := range idx {
+			args = append(args, want[n].vals[i])
+		}
+		if _, err := st.ExecContext(ctx, append(args, rowid)...); err != nil {
+			return fmt.Errorf("%s: %s: %w", t.name, want[n].what(), err)
+		}
 	}
 	return nil
 }
