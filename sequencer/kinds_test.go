@@ -1,0 +1,320 @@
+package sequencer_test
+
+// End-to-end checks of the step kinds on the simulated bench: every feature of a
+// kind runs a unit through sequencer.Open and Run, and every measured record
+// replays to the same numbers (sequencer.Replay, sequencer.Differences).
+
+import (
+	"context"
+	"fmt"
+	"math"
+	"strings"
+	"testing"
+
+	"trimline/sequencer"
+)
+
+// kindsBench is a bench for one case: a sequence (and optionally a limit file) as
+// text, and the simulated instruments' settings laid over the demo station's.
+type kindsBench struct {
+	seq string
+	lim string // "" = the demo's limit file
+	set map[string]map[string]string
+}
+
+// open loads the files and opens an engine on a fresh simulated bench.
+func (b kindsBench) open(t *testing.T) (*sequencer.Engine, sequencer.Config) {
+	t.Helper()
+	cfg := b.config(t)
+	e, err := sequencer.Open(context.Background(), cfg)
+	if err != nil {
+		t.Fatal(err)
+	}
+	t.Cleanup(func() { e.Close() })
+	return e, cfg
+}
+
+func (b kindsBench) config(t *testing.T) sequencer.Config {
+	t.Helper()
+	st, err := sequencer.ParseStation("brx200-station.yaml", []byte(demoFile(t, "brx200-station.yaml")))
+	if err != nil {
+		t.Fatal(err)
+	}
+	for role, in := range st.Instruments {
+		s := map[string]string{}
+		for k, v := range in.Settings {
+			s[k] = v
+		}
+		for k, v := range b.set[role] {
+			s[k] = v
+		}
+		in.Settings = s
+		st.Instruments[role] = in
+	}
+	over := map[string]string{}
+	if b.lim != "" {
+		over["brx200-limits.yaml"] = b.lim
+	}
+	seq, err := sequencer.ParseSequence("brx200-sequence.yaml", []byte(b.seq), demoReader(t, over))
+	if err != nil {
+		t.Fatal(err)
+	}
+	return sequencer.Config{Station: st, Sequence: seq, Operator: "test", Software: "test"}
+}
+
+// runReplayed runs serial and, when the record holds a measurement, replays it and
+// requires the replay to agree with it in every computed quantity.
+func runReplayed(t *testing.T, e *sequencer.Engine, cfg sequencer.Config, serial string) *sequencer.Record {
+	t.Helper()
+	rec := e.Run(context.Background(), serial)
+	if rec.Verdict == sequencer.Fault || rec.Verdict == sequencer.Aborted {
+		return rec
+	}
+	again, err := sequencer.Replay(cfg, rec)
+	if err != nil {
+		t.Fatalf("%s: replay: %v", serial, err)
+	}
+	if d := sequencer.Differences(rec, again); len(d) > 0 {
+		t.Errorf("%s: replay disagrees with the run:\n  %s", serial, strings.Join(d, "\n  "))
+	}
+	if len(again.Steps) != len(rec.Steps) {
+		t.Errorf("%s: replay ran %d steps, the run %d", serial, len(again.Steps), len(rec.Steps))
+	}
+	for i := range min(len(again.Steps), len(rec.Steps)) {
+		if a, b := rec.Steps[i], again.Steps[i]; a.Status != b.Status {
+			t.Errorf("%s: step %q: run %s, replay %s", serial, a.Name, a.Status, b.Status)
+		}
+	}
+	return rec
+}
+
+func stepStatus(t *testing.T, rec *sequencer.Record, name string) sequencer.StepRun {
+	t.Helper()
+	for _, s := range rec.Steps {
+		if s.Name == name {
+			return s
+		}
+	}
+	t.Fatalf("no step %q in the record (steps %+v)", name, rec.Steps)
+	return sequencer.StepRun{}
+}
+
+func trimOf(t *testing.T, rec *sequencer.Record, dac string) sequencer.TrimCode {
+	t.Helper()
+	for _, tc := range rec.Trims {
+		if tc.DAC == dac {
+			return tc
+		}
+	}
+	t.Fatalf("no %s trim in the record", dac)
+	return sequencer.TrimCode{}
+}
+
+// withLimits is the demo limit file with its limits: list replaced.
+func withLimits(t *testing.T, list string) string {
+	t.Helper()
+	demo := demoFile(t, "brx200-limits.yaml")
+	i := strings.Index(demo, "\nlimits:\n")
+	if i < 0 {
+		t.Fatal("demo limit file has no limits: section")
+	}
+	return demo[:i] + "\nlimits:\n" + list
+}
+
+// replaceAll applies old/new pairs to s, each of which must occur.
+func replaceAll(t *testing.T, s string, pairs ...string) string {
+	t.Helper()
+	for i := 0; i < len(pairs); i += 2 {
+		if !strings.Contains(s, pairs[i]) {
+			t.Fatalf("%q not in the text", pairs[i])
+		}
+		s = strings.ReplaceAll(s, pairs[i], pairs[i+1])
+	}
+	return s
+}
+
+// offsetOnlySeq is a card with one 10-bit two's-complement offset DAC written in
+// hex, locked until it hears an unlock command.
+func offsetOnlySeq(unlock bool) string {
+	s := `sequence:
+  product: BRX-200
+  revision: C
+  maker: Fenwright Labs
+requires: [source, meter, dut]
+limits: brx200-limits.yaml
+serial_pattern: "BRX-[0-9]{5}"
+ideal: {gain: 200, offset: 2.5 V, full_scale: 4 V}
+meter: {range: 10 V, nplc: 1}
+dacs:
+  - name: offset
+    adjusts: offset
+    bits: 10
+    lsb: 30 uV
+    coding: twos_complement
+    format: hex
+    write: "TRIM OFS {code}"
+    read: "TRIM OFS?"
+steps:
+  - kind: identify
+    serial_query: "SN?"
+`
+	if unlock {
+		s += `  - kind: command
+    name: unlock
+    send:
+      - command: "UNLOCK 5A17"
+`
+	}
+	return s + `  - kind: clear_trim
+  - kind: sweep
+    name: pre-trim
+    from: -10 mV
+    to: 10 mV
+    points: 11
+    settle: 20 ms
+    readings: 8
+  - kind: fit
+    name: pre-trim fit
+    sweep: pre-trim
+    results: {offset: pre_offset}
+  - kind: trim
+    fit: pre-trim fit
+    dacs: [offset]
+    results: {offset: offset_code}
+  - kind: store
+    command: "NV STORE"
+  - kind: sweep
+    name: verify
+    from: -10 mV
+    to: 10 mV
+    points: 11
+    settle: 20 ms
+    readings: 8
+  - kind: fit
+    name: verify fit
+    sweep: verify
+    results: {offset: post_offset, noise: post_noise}
+`
+}
+
+const offsetOnlyLimits = `  - name: untrimmed offset in range
+    description: Output error at zero input before trim.
+    unit: mV
+    uses: [pre_offset]
+    tolerance: {lower: -15, upper: 15}
+  - name: offset after trim
+    description: Output error at zero input after trim.
+    unit: uV
+    uses: [post_offset]
+    tolerance: {lower: -800, upper: 800}
+  - name: offset code in range
+    description: The signed code keeps a dozen codes of headroom.
+    unit: code
+    uses: [offset_code]
+    expr: within(offset_code, -500, 499)
+`
+
+var offsetOnlyCard = map[string]string{"trim": "offset", "offset_bits": "10", "offset_coding": "twos_complement",
+	"code_format": "hex", "offset_lsb": "30 uV", "cmd_unlock": "UNLOCK 5A17", "defect_rate": "0"}
+
+func merged(a, b map[string]string) map[string]string {
+	out := map[string]string{}
+	for k, v := range a {
+		out[k] = v
+	}
+	for k, v := range b {
+		out[k] = v
+	}
+	return out
+}
+
+// 1. An offset-only card: one signed 10-bit offset DAC in hex behind a lock.
+func TestOffsetOnlyCard(t *testing.T) {
+	lim := withLimits(t, offsetOnlyLimits)
+	t.Run("population", func(t *testing.T) {
+		e, cfg := kindsBench{seq: offsetOnlySeq(true), lim: lim, set: map[string]map[string]string{"dut": offsetOnlyCard}}.open(t)
+		signs := map[bool]int{}
+		for i := range 8 {
+			rec := runReplayed(t, e, cfg, fmt.Sprintf("BRX-%05d", 100+i))
+			if rec.Verdict != sequencer.Pass {
+				t.Fatalf("%s: verdict %s: %v %s", rec.Serial, rec.Verdict, rec.Reasons, rec.Fault)
+			}
+			if len(rec.Trims) != 1 {
+				t.Fatalf("%s: trims %+v, want the offset DAC only", rec.Serial, rec.Trims)
+			}
+			tc := rec.Trims[0]
+			if tc.DAC != "offset" || tc.Before != 0 || !tc.Written || !tc.Stored || tc.Readback != tc.Code || tc.Code < -512 || tc.Code > 511 {
+				t.Errorf("%s: trim %+v", rec.Serial, tc)
+			}
+			if r := resultOf(t, rec, "offset_code"); !r.Valid || r.Value != float64(tc.Code) {
+				t.Errorf("%s: offset_code %+v, code %d", rec.Serial, r, tc.Code)
+			}
+			// No gain DAC: ComputeTrim on the pre-trim fit alone must give the code.
+			d, _ := cfg.Sequence.DAC("offset")
+			f := rec.Fits[0]
+			sol, err := sequencer.ComputeTrim(sequencer.TrimPlan{DACs: []sequencer.DAC{d}, Pivot: 2.5}, f.Slope, f.Intercept, []int{0}, 200, 2.5)
+			if err != nil || sol.Codes[0].Code != tc.Code {
+				t.Errorf("%s: ComputeTrim from the pre-trim fit gives %+v (%v), record %d", rec.Serial, sol.Codes, err, tc.Code)
+			}
+			signs[tc.Code < 0]++
+		}
+		if signs[true] == 0 || signs[false] == 0 {
+			t.Errorf("codes of one sign only (%v): the population does not exercise signed codes", signs)
+		}
+	})
+	t.Run("hand-worked unit", func(t *testing.T) {
+		// Hand-worked: 3.1 mV of offset at the output, no noise or instrument error;
+		// 30 µV per code, no gain DAC, so ideal = −3.1 mV / 30 µV = −103.33 and the
+		// code is −103 (the 10-bit pattern 0x399); as left the output keeps
+		// 3.1 mV − 103·30 µV = +10 µV.
+		e, cfg := kindsBench{seq: offsetOnlySeq(true), lim: lim,
+			set: ideal(merged(offsetOnlyCard, map[string]string{"offset": "3.1 mV"}))}.open(t)
+		rec := runReplayed(t, e, cfg, "BRX-00042")
+		if rec.Verdict != sequencer.Pass {
+			t.Fatalf("verdict %s: %v %s", rec.Verdict, rec.Reasons, rec.Fault)
+		}
+		tc := trimOf(t, rec, "offset")
+		near(t, "ideal code", tc.Ideal, -103.333, 0.05)
+		if tc.Code != -103 || tc.Readback != -103 {
+			t.Errorf("code %d read back %d, want -103", tc.Code, tc.Readback)
+		}
+		d, _ := cfg.Sequence.DAC("offset")
+		if w := d.Word(tc.Code); w != "399" {
+			t.Errorf("code -103 written as %q, want 399", w)
+		}
+		near(t, "pre offset", resultOf(t, rec, "pre_offset").Value, 3.1e-3, 2e-6)
+		near(t, "post offset", resultOf(t, rec, "post_offset").Value, 10e-6, 2e-6)
+	})
+	t.Run("no unlock", func(t *testing.T) {
+		e, _ := kindsBench{seq: offsetOnlySeq(false), lim: lim, set: map[string]map[string]string{"dut": offsetOnlyCard}}.open(t)
+		rec := e.Run(context.Background(), "BRX-00100")
+		if rec.Verdict != sequencer.Fault && rec.Verdict != sequencer.Fail {
+			t.Fatalf("a locked card ran to %s", rec.Verdict)
+		}
+		msg := rec.Fault + strings.Join(rec.Reasons, "; ")
+		t.Logf("%s: %s", rec.Verdict, msg)
+		if !strings.Contains(msg, "locked") || !strings.Contains(msg, "offset") {
+			t.Errorf("message does not say the card is locked: %q", msg)
+		}
+	})
+}
+
+// 2. An offset DAC before the gain stage (input-referred LSB).
+func TestOffsetDACBeforeGain(t *testing.T) {
+	seq := replaceAll(t, demoFile(t, "brx200-sequence.yaml"),
+		"lsb: 12.2 uV                 # per code, at the output", "lsb: 61 nV",
+		"placement: after_gain", "placement: before_gain")
+	e, cfg := kindsBench{seq: seq, set: map[string]map[string]string{"dut": {"offset_trim": "before", "defect_rate": "0"}}}.open(t)
+	for i := range 5 {
+		rec := runReplayed(t, e, cfg, fmt.Sprintf("BRX-%05d", 200+i))
+		if rec.Verdict != sequencer.Pass {
+			t.Fatalf("%s: verdict %s: %v %s", rec.Serial, rec.Verdict, rec.Reasons, rec.Fault)
+		}
+		// One input-referred code moves the output by 61 nV · 200 = 12.2 µV; the
+		// trimmed offset is within half of that plus the fits' noise (3u).
+		u := math.Sqrt(rec.Fits[0].Cov[0][0] + rec.Fits[1].Cov[0][0])
+		if po := resultOf(t, rec, sequencer.ResPostOffset).Value; math.Abs(po) > 6.1e-6+3*u {
+			t.Errorf("%s: post offset %.2f µV", rec.Serial, po*1e6)
+		}
+	}
+}
