@@ -318,3 +318,143 @@ func TestOffsetDACBeforeGain(t *testing.T) {
 		}
 	}
 }
+
+// demoSteps is the demo sequence with edits.
+func demoSteps(t *testing.T, pairs ...string) string {
+	t.Helper()
+	return replaceAll(t, demoFile(t, "brx200-sequence.yaml"), pairs...)
+}
+
+const preSweep = `  - kind: sweep                  # the unit as found
+    name: pre-trim
+    from: -10 mV
+    to: 10 mV
+    points: 11
+`
+
+const verifyFit = `      max_error: post_max_error
+      noise: post_noise
+`
+
+// 3. An explicit list of levels with repeats (the lack of fit is then the F test
+// against pure error), a window on a fit, and an order-2 fit.
+func TestLevelsWindowAndOrder2(t *testing.T) {
+	seq := demoSteps(t, preSweep, `  - kind: sweep
+    name: pre-trim
+    levels: [-10 mV, -6 mV, 0 V, 0 V, 3 mV, 10 mV, 0 V]
+`,
+		"      nonlinearity: pre_nonlinearity\n", "      nonlinearity: pre_nonlinearity\n      lack_of_fit: pre_lack_of_fit\n",
+		verifyFit, verifyFit+`
+  - kind: fit
+    name: verify window
+    sweep: verify
+    window: {from: -4 mV, to: 4 mV}
+    results: {offset: window_offset, lack_of_fit: window_lack_of_fit}
+
+  - kind: fit
+    name: verify quadratic
+    sweep: verify
+    order: 2
+    results: {offset: quad_offset, lack_of_fit: quad_lack_of_fit}
+`)
+	e, cfg := kindsBench{seq: seq, set: map[string]map[string]string{"dut": {"defect_rate": "0"}}}.open(t)
+	for i := range 4 {
+		rec := runReplayed(t, e, cfg, fmt.Sprintf("BRX-%05d", 300+i))
+		if rec.Verdict != sequencer.Pass {
+			t.Fatalf("%s: verdict %s: %v %s", rec.Serial, rec.Verdict, rec.Reasons, rec.Fault)
+		}
+		if n := len(rec.Sweeps[0].Points); n != 7 || rec.Sweeps[0].Points[6].Stimulus != 0 || rec.Sweeps[0].Points[1].Stimulus != -6e-3 {
+			t.Fatalf("pre-trim sweep not run at the listed levels: %+v", rec.Sweeps[0].Points)
+		}
+		fits := map[string]sequencer.FitSummary{}
+		for _, f := range rec.Fits {
+			fits[f.Step] = f
+		}
+		if lof := fits["pre-trim fit"].LackOfFit; lof == nil || lof.Method != "F" {
+			t.Errorf("pre-trim fit over repeated levels: lack of fit %+v, want the F test", lof)
+		} else if r := resultOf(t, rec, "pre_lack_of_fit"); !r.Valid || r.Value != lof.Statistic {
+			t.Errorf("pre_lack_of_fit %+v, fit says %g", r, lof.Statistic)
+		}
+		// The verify sweep's levels are −10..10 mV in 2 mV steps: −4, −2, 0, 2 and
+		// 4 mV lie in the window (hand-counted).
+		if w := fits["verify window"]; len(w.Residuals) != 5 {
+			t.Errorf("window fit has %d residuals, want 5", len(w.Residuals))
+		}
+		if lof := fits["verify window"].LackOfFit; lof == nil || lof.Method != "chi2/dof" {
+			t.Errorf("window fit lack of fit %+v, want chi2/dof (no repeated levels)", lof)
+		}
+		q := fits["verify quadratic"]
+		if q.Order != 2 || len(q.Coef) != 3 || len(q.Residuals) != 11 {
+			t.Errorf("quadratic fit %+v", q)
+		}
+		if r := resultOf(t, rec, "quad_lack_of_fit"); !r.Valid || q.LackOfFit == nil || r.Value != q.LackOfFit.Statistic {
+			t.Errorf("quad_lack_of_fit %+v", r)
+		}
+	}
+}
+
+// An order-2 fit follows the bend of rail compression that a line cannot: a
+// sweep that drives the output into the knee below the 5 V rail.
+func TestOrder2FollowsRailCompression(t *testing.T) {
+	seq := `sequence: {product: BRX-200, revision: C}
+requires: [source, meter, dut]   # the card must be in the fixture to drive the output
+limits: brx200-limits.yaml
+ideal: {gain: 200, offset: 2.5 V, full_scale: 4 V}
+meter: {range: 10 V, nplc: 1}
+steps:
+  - kind: sweep
+    name: near rail
+    from: 11 mV
+    to: 12.4 mV
+    points: 13
+    settle: 20 ms
+    readings: 4
+  - kind: fit
+    name: line
+    sweep: near rail
+    results: {nonlinearity: line_nonlinearity}
+  - kind: fit
+    name: quadratic
+    sweep: near rail
+    order: 2
+    results: {nonlinearity: quad_nonlinearity}
+`
+	lim := withLimits(t, `  - name: line straight
+    description: Nonlinearity of the line.
+    unit: "%"
+    uses: [line_nonlinearity]
+    tolerance: {upper: 100}
+`)
+	e, cfg := kindsBench{seq: seq, lim: lim, set: ideal(map[string]string{"offset": "0 V", "gain_error": "0 ppm"})}.open(t)
+	rec := runReplayed(t, e, cfg, "BRX-00400")
+	if rec.Verdict != sequencer.Pass || len(rec.Fits) != 2 {
+		t.Fatalf("verdict %s: %v %s", rec.Verdict, rec.Reasons, rec.Fault)
+	}
+	maxAbs := func(r []float64) (m float64) {
+		for _, v := range r {
+			m = math.Max(m, math.Abs(v))
+		}
+		return m
+	}
+	rms := func(r []float64) float64 {
+		var ss float64
+		for _, v := range r {
+			ss += v * v
+		}
+		return math.Sqrt(ss / float64(len(r)))
+	}
+	line, quad := rec.Fits[0].Residuals, rec.Fits[1].Residuals
+	t.Logf("residuals: line largest %.1f µV rms %.1f µV, quadratic largest %.1f µV rms %.1f µV",
+		maxAbs(line)*1e6, rms(line)*1e6, maxAbs(quad)*1e6, rms(quad)*1e6)
+	// 11 mV … 12.4 mV · 200 + 2.5 V = 4.7 … 4.98 V: mostly inside the 0.2 V knee
+	// below the 5 V rail.
+	if maxAbs(line) < 1e-3 {
+		t.Fatalf("the sweep does not reach the rail's knee: line residual %.1f µV", maxAbs(line)*1e6)
+	}
+	// The knee is a tanh that starts at 4.8 V, not a parabola: a quadratic follows
+	// it better, not exactly. Least squares guarantees the rms (equal weights); the
+	// margins are common practice for "clearly smaller".
+	if !(rms(quad) < rms(line)/1.5 && maxAbs(quad) < maxAbs(line)) {
+		t.Errorf("the quadratic's residuals are not clearly smaller than the line's")
+	}
+}
