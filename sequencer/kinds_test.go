@@ -6,6 +6,7 @@ package sequencer_test
 
 import (
 	"context"
+	"errors"
 	"fmt"
 	"math"
 	"strings"
@@ -71,6 +72,9 @@ func runReplayed(t *testing.T, e *sequencer.Engine, cfg sequencer.Config, serial
 		return rec
 	}
 	again, err := sequencer.Replay(cfg, rec)
+	if errors.Is(err, sequencer.ErrNotReplayable) && len(rec.Sweeps) == 0 {
+		return rec // nothing measured: audit says so and replays nothing
+	}
 	if err != nil {
 		t.Fatalf("%s: replay: %v", serial, err)
 	}
@@ -456,5 +460,111 @@ steps:
 	// margins are common practice for "clearly smaller".
 	if !(rms(quad) < rms(line)/1.5 && maxAbs(quad) < maxAbs(line)) {
 		t.Errorf("the quadratic's residuals are not clearly smaller than the line's")
+	}
+}
+
+// 4. skip_if: a unit already inside ±0.5 mV as found is not trimmed.
+func TestSkipIf(t *testing.T) {
+	skipTrim := demoSteps(t,
+		"    pivot: 2.5 V                 # the output the gain trim scales about\n",
+		"    pivot: 2.5 V\n    skip_if: abs(pre_offset) < 0.5e-3\n",
+		"    command: \"NV STORE\"\n", "    command: \"NV STORE\"\n    skip_if: abs(pre_offset) < 0.5e-3\n")
+	noCodeLimit := demoFile(t, "brx200-limits.yaml")
+	noCodeLimit = noCodeLimit[:strings.Index(noCodeLimit, "  - name: trim headroom")]
+	for _, c := range []struct {
+		name, lim, offset string
+		skipped           bool
+		verdict           sequencer.Verdict
+	}{
+		// Hand-worked: 0.1 mV as found is inside 0.5 mV, so neither trim nor store
+		// runs; the unit keeps its 0.1 mV (inside ±800 µV less U ≈ 150 µV).
+		{"inside, limits without code limits", noCodeLimit, "0.1 mV", true, sequencer.Pass},
+		// The demo's headroom limit uses the codes, which were not measured: an
+		// invalid result fails every limit that uses it.
+		{"inside, demo limits", "", "0.1 mV", true, sequencer.Fail},
+		{"outside", "", "3.1 mV", false, sequencer.Pass},
+	} {
+		t.Run(c.name, func(t *testing.T) {
+			e, cfg := kindsBench{seq: skipTrim, lim: c.lim, set: ideal(map[string]string{"offset": c.offset, "gain_error": "0 ppm"})}.open(t)
+			rec := runReplayed(t, e, cfg, "BRX-00500")
+			if rec.Verdict != c.verdict {
+				t.Errorf("verdict %s, want %s: %v %s", rec.Verdict, c.verdict, rec.Reasons, rec.Fault)
+			}
+			for _, step := range []string{"trim", "store"} {
+				want := sequencer.StepDone
+				if c.skipped {
+					want = sequencer.StepSkipped
+				}
+				if s := stepStatus(t, rec, step); s.Status != want {
+					t.Errorf("step %s: %+v, want %s", step, s, want)
+				}
+			}
+			if s := stepStatus(t, rec, "verify"); s.Status != sequencer.StepDone {
+				t.Errorf("verify after a skipped trim: %+v", s)
+			}
+			for _, code := range []string{sequencer.ResOffsetCode, sequencer.ResGainCode} {
+				r := resultOf(t, rec, code)
+				if c.skipped && (r.Valid || !strings.Contains(r.Note, "not measured")) {
+					t.Errorf("%s of an untrimmed unit: %+v", code, r)
+				}
+				if !c.skipped && !r.Valid {
+					t.Errorf("%s of a trimmed unit: %+v", code, r)
+				}
+			}
+			if c.skipped {
+				near(t, "post offset", resultOf(t, rec, sequencer.ResPostOffset).Value, 0.1e-3, 2e-6)
+				if c.verdict == sequencer.Fail && !strings.Contains(strings.Join(rec.Reasons, "; "), "trim headroom") {
+					t.Errorf("reasons %v do not name the headroom limit", rec.Reasons)
+				}
+			}
+		})
+	}
+	t.Run("over an invalid result the step runs", func(t *testing.T) {
+		// One reading a point: the pre-trim noise has no estimate, so a condition
+		// over it (which would hold at its value 0) must not skip the step.
+		seq := demoSteps(t,
+			"    readings: 8                  # readings per point (mean and SD kept)\n", "    readings: 1\n",
+			"      nonlinearity: pre_nonlinearity\n", "      nonlinearity: pre_nonlinearity\n      noise: pre_noise\n",
+			"    command: \"NV STORE\"\n", "    command: \"NV STORE\"\n    skip_if: pre_noise < 1\n")
+		e, cfg := kindsBench{seq: seq, set: ideal(map[string]string{"offset": "3.1 mV", "gain_error": "0 ppm"})}.open(t)
+		rec := runReplayed(t, e, cfg, "BRX-00501")
+		if r := resultOf(t, rec, "pre_noise"); r.Valid {
+			t.Fatalf("pre_noise valid from one reading a point: %+v", r)
+		}
+		s := stepStatus(t, rec, "store")
+		if s.Status != sequencer.StepDone || !strings.Contains(s.Note, "pre_noise") {
+			t.Errorf("store: %+v, want done with a note on pre_noise", s)
+		}
+		if !trimOf(t, rec, "offset").Stored {
+			t.Error("codes not stored")
+		}
+	})
+}
+
+// 6. A trim that needs a code outside the DAC's range fails the unit.
+func TestSaturatedTrim(t *testing.T) {
+	// 40 mV of offset needs −40 mV / 12.2 µV = −3278.7 codes from mid-scale 2048:
+	// code −1230.7, outside 0..4095 (hand-worked).
+	e, cfg := kindsBench{seq: demoFile(t, "brx200-sequence.yaml"), set: ideal(map[string]string{"offset": "40 mV", "gain_error": "0 ppm"})}.open(t)
+	rec := runReplayed(t, e, cfg, "BRX-00700")
+	if rec.Verdict != sequencer.Fail {
+		t.Fatalf("verdict %s: %v %s", rec.Verdict, rec.Reasons, rec.Fault)
+	}
+	if r := strings.Join(rec.Reasons, "; "); !strings.Contains(r, "offset trim needs code -1230.7") || !strings.Contains(r, "outside the DAC's range 0..4095") {
+		t.Errorf("reasons %q", r)
+	}
+	tc := trimOf(t, rec, "offset")
+	if !tc.Saturated || tc.Written || tc.Code != 0 {
+		t.Errorf("offset trim %+v, want saturated at 0 and not written", tc)
+	}
+	for _, name := range []string{sequencer.ResPostOffset, sequencer.ResPostGainError, sequencer.ResPostNoise} {
+		if r := resultOf(t, rec, name); r.Valid || r.Note != "not measured: trim saturated" {
+			t.Errorf("%s: %+v", name, r)
+		}
+	}
+	for _, step := range []string{"store", "verify", "verify fit"} {
+		if s := stepStatus(t, rec, step); s.Status != sequencer.StepNotReached {
+			t.Errorf("step %s: %+v", step, s)
+		}
 	}
 }
