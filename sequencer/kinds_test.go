@@ -541,6 +541,49 @@ func TestSkipIf(t *testing.T) {
 	})
 }
 
+// 5. A command step whose reply does not match.
+func TestCommandReplyMismatch(t *testing.T) {
+	check := "  - kind: command\n    name: firmware check\n    send:\n      - query: \"FW?\"\n        expect: \"BRX200-FW 9.9.9\"\n"
+	for _, c := range []struct {
+		name, after, onMismatch string
+		verdict                 sequencer.Verdict
+	}{
+		{"before any sweep", "  - kind: clear_trim", "", sequencer.Fail},
+		{"after the pre-trim fit", "  - kind: trim", "", sequencer.Fail},
+		{"as a fault", "  - kind: trim", "    on_mismatch: fault\n", sequencer.Fault},
+	} {
+		t.Run(c.name, func(t *testing.T) {
+			seq := demoSteps(t, c.after, check+c.onMismatch+"\n"+c.after)
+			e, cfg := kindsBench{seq: seq}.open(t)
+			rec := runReplayed(t, e, cfg, "BRX-00600")
+			if rec.Verdict != c.verdict {
+				t.Fatalf("verdict %s, want %s: %v %s", rec.Verdict, c.verdict, rec.Reasons, rec.Fault)
+			}
+			msg := rec.Fault + strings.Join(rec.Reasons, "; ")
+			for _, want := range []string{`"firmware check"`, `"BRX200-FW 2.3.1"`, `"BRX200-FW 9.9.9"`, `"FW?"`} {
+				if !strings.Contains(msg, want) {
+					t.Errorf("message %q does not name %s", msg, want)
+				}
+			}
+			if c.verdict != sequencer.Fail {
+				return
+			}
+			after := false
+			for _, s := range rec.Steps {
+				switch {
+				case s.Name == "firmware check":
+					after = true
+				case after && s.Status != sequencer.StepNotReached:
+					t.Errorf("step %q after the mismatch: %+v", s.Name, s)
+				}
+			}
+			if !after {
+				t.Fatal("the command step is not in the record")
+			}
+		})
+	}
+}
+
 // 6. A trim that needs a code outside the DAC's range fails the unit.
 func TestSaturatedTrim(t *testing.T) {
 	// 40 mV of offset needs −40 mV / 12.2 µV = −3278.7 codes from mid-scale 2048:
