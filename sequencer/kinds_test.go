@@ -6,12 +6,15 @@ package sequencer_test
 
 import (
 	"context"
+	"encoding/json"
 	"errors"
 	"fmt"
 	"math"
+	"os"
 	"strings"
 	"testing"
 
+	"trimline/limits"
 	"trimline/sequencer"
 )
 
@@ -608,6 +611,167 @@ func TestSaturatedTrim(t *testing.T) {
 	for _, step := range []string{"store", "verify", "verify fit"} {
 		if s := stepStatus(t, rec, step); s.Status != sequencer.StepNotReached {
 			t.Errorf("step %s: %+v", step, s)
+		}
+	}
+}
+
+// 7. A second verify sweep after the trim, with results of its own.
+func TestSecondVerifySweep(t *testing.T) {
+	second := func(to string) string {
+		return verifyFit + `
+  - kind: sweep
+    name: recheck
+    from: -10 mV
+    to: ` + to + `
+    points: 6
+    settle: 20 ms
+    readings: 4
+
+  - kind: fit
+    name: recheck fit
+    sweep: recheck
+    results:
+      offset: recheck_offset
+      gain_error: recheck_gain_error
+      nonlinearity: recheck_nonlinearity
+      max_error: recheck_max_error
+`
+	}
+	seq := demoSteps(t, verifyFit, second("10 mV"))
+	b := kindsBench{seq: seq, set: map[string]map[string]string{"dut": {"defect_rate": "0"}}}
+	e, cfg := b.open(t)
+	rec := runReplayed(t, e, cfg, "BRX-00800")
+	if rec.Verdict != sequencer.Pass {
+		t.Fatalf("verdict %s: %v %s", rec.Verdict, rec.Reasons, rec.Fault)
+	}
+	var got []string
+	for _, sw := range rec.Sweeps {
+		got = append(got, sw.Name+"/"+sw.Stage.String())
+	}
+	want := []string{"pre-trim/" + sequencer.AsFound.String(), "verify/" + sequencer.AsLeft.String(), "recheck/" + sequencer.AsLeft.String()}
+	if strings.Join(got, " ") != strings.Join(want, " ") {
+		t.Errorf("sweeps %v, want %v", got, want)
+	}
+	for _, name := range []string{"recheck_offset", "recheck_gain_error"} {
+		if r := resultOf(t, rec, name); !r.Valid || r.Step != "recheck fit" || r.Stage != sequencer.AsLeft {
+			t.Errorf("%s: %+v", name, r)
+		}
+	}
+	// Every fit result with an uncertainty is predicted, for every sweep's fit.
+	// (Noise needs repeated readings and lack of fit has no uncertainty; the
+	// prediction takes one noiseless reading a level.)
+	pred := sequencer.PredictUncertainty(cfg.Station, cfg.Sequence)
+	for _, name := range []string{sequencer.ResPreOffset, sequencer.ResPreGainError, sequencer.ResPreNonlinearity,
+		sequencer.ResPostOffset, sequencer.ResPostGainError, sequencer.ResPostNonlinearity, sequencer.ResPostMaxError,
+		"recheck_offset", "recheck_gain_error", "recheck_nonlinearity", "recheck_max_error"} {
+		if v, ok := pred[name]; !ok || !(v.U > 0) {
+			t.Errorf("no predicted U for %s: %+v", name, v)
+		}
+	}
+	// The recheck's own U follows its own sweep: 6 levels, not the verify's 11.
+	if pred["recheck_offset"].U == pred[sequencer.ResPostOffset].U {
+		t.Errorf("recheck U(offset) equals verify's (%g): predicted from the wrong sweep?", pred["recheck_offset"].U)
+	}
+
+	// A recheck beyond the station's 50 mV cap is refused at load, naming the step.
+	over := kindsBench{seq: demoSteps(t, verifyFit, second("60 mV"))}.config(t)
+	err := sequencer.CheckCaps(over.Station, over.Sequence)
+	if !errors.Is(err, sequencer.ErrSafety) || !strings.Contains(err.Error(), `step "recheck"`) || strings.Contains(err.Error(), `step "verify"`) {
+		t.Errorf("CheckCaps: %v", err)
+	}
+	if _, err := sequencer.Open(context.Background(), over); !errors.Is(err, sequencer.ErrSafety) {
+		t.Errorf("Open of a sequence beyond the cap: %v", err)
+	}
+}
+
+// 8. The first layout and the step list are the same flow: for the same serials
+// and seed they give identical records.
+func TestFirstLayoutMatchesStepList(t *testing.T) {
+	first, err := os.ReadFile("testdata/brx200-sequence-first.yaml")
+	if err != nil {
+		t.Fatal(err)
+	}
+	// Many defective units, so that failing records are compared too.
+	defects := map[string]map[string]string{"dut": {"defect_rate": "40 %"}}
+	eFirst, cfgFirst := kindsBench{seq: string(first), set: defects}.open(t)
+	eList, cfgList := kindsBench{seq: demoFile(t, "brx200-sequence.yaml"), set: defects}.open(t)
+	verdicts := map[sequencer.Verdict]int{}
+	for i := range 12 {
+		serial := fmt.Sprintf("BRX-%05d", 900+i)
+		a := runReplayed(t, eFirst, cfgFirst, serial)
+		b := runReplayed(t, eList, cfgList, serial)
+		verdicts[a.Verdict]++
+		if d := sequencer.Differences(a, b); len(d) > 0 {
+			t.Errorf("%s: first layout and step list differ:\n  %s", serial, strings.Join(d, "\n  "))
+		}
+		if len(a.Results) != len(b.Results) || len(a.Outcomes) != len(b.Outcomes) || len(a.Trims) != len(b.Trims) {
+			t.Fatalf("%s: %d/%d results, %d/%d outcomes, %d/%d trims", serial, len(a.Results), len(b.Results),
+				len(a.Outcomes), len(b.Outcomes), len(a.Trims), len(b.Trims))
+		}
+		for j := range a.Results {
+			ra, rb := a.Results[j], b.Results[j]
+			if ra.Name != rb.Name || ra.Value != rb.Value || ra.Valid != rb.Valid || ra.Unc != rb.Unc || ra.Stage != rb.Stage {
+				t.Errorf("%s: result %d: first %+v, list %+v", serial, j, ra, rb)
+			}
+		}
+		for j := range a.Trims {
+			if a.Trims[j] != b.Trims[j] {
+				t.Errorf("%s: trim %d: first %+v, list %+v", serial, j, a.Trims[j], b.Trims[j])
+			}
+		}
+		for j := range a.Outcomes {
+			if oa, ob := a.Outcomes[j], b.Outcomes[j]; outcomeText(oa) != outcomeText(ob) {
+				t.Errorf("%s: outcome %q:\n first %s\n list  %s", serial, oa.Name, outcomeText(oa), outcomeText(ob))
+			}
+		}
+		if strings.Join(a.Reasons, "\n") != strings.Join(b.Reasons, "\n") {
+			t.Errorf("%s: reasons differ:\n first %v\n list  %v", serial, a.Reasons, b.Reasons)
+		}
+	}
+	t.Logf("verdicts %v", verdicts)
+	pa, pb := sequencer.PredictUncertainty(cfgFirst.Station, cfgFirst.Sequence), sequencer.PredictUncertainty(cfgList.Station, cfgList.Sequence)
+	if fmt.Sprint(pa) != fmt.Sprint(pb) {
+		t.Errorf("predicted uncertainties differ:\n first %v\n list  %v", pa, pb)
+	}
+}
+
+// outcomeText is an outcome in full, as the record stores it.
+func outcomeText(o limits.Outcome) string {
+	b, err := json.Marshal(o)
+	if err != nil {
+		return err.Error()
+	}
+	return string(b)
+}
+
+// 9. The bench remembers what a unit stored: a retest's clear_trim records the
+// codes the first run stored as the codes the unit held as found.
+func TestRetestSeesStoredCodes(t *testing.T) {
+	e, cfg := kindsBench{seq: demoFile(t, "brx200-sequence.yaml"), set: map[string]map[string]string{"dut": {"defect_rate": "0"}}}.open(t)
+	first := runReplayed(t, e, cfg, "BRX-00950")
+	if first.Verdict != sequencer.Pass {
+		t.Fatalf("first run %s: %v %s", first.Verdict, first.Reasons, first.Fault)
+	}
+	other := runReplayed(t, e, cfg, "BRX-00951") // another unit in between
+	retest := runReplayed(t, e, cfg, "BRX-00950")
+	for _, dac := range []string{"gain", "offset"} {
+		was, now := trimOf(t, first, dac), trimOf(t, retest, dac)
+		if was.Before != 2048 || !was.Stored {
+			t.Errorf("first run %s: %+v", dac, was)
+		}
+		if now.Before != was.Code {
+			t.Errorf("retest %s: held %d as found, the first run stored %d", dac, now.Before, was.Code)
+		}
+		if o := trimOf(t, other, dac); o.Before != 2048 {
+			t.Errorf("a fresh unit after a stored one holds %d as found", o.Before)
+		}
+	}
+	// Cleared before the sweep, the retest measures the unit as found afresh: the
+	// same codes again (the pre-trim fit sees the same unit; noise differs by at
+	// most a code).
+	for _, dac := range []string{"gain", "offset"} {
+		if d := trimOf(t, retest, dac).Code - trimOf(t, first, dac).Code; d < -1 || d > 1 {
+			t.Errorf("retest %s code differs by %d", dac, d)
 		}
 	}
 }
