@@ -126,14 +126,13 @@ func (l *commandLine) text(u *Unit, s string) string {
 
 func (s *commandStep) Run(ctx context.Context, u *Unit) error {
 	if u.Replaying() {
-		// A reply is a fact of the run: a mismatch recorded then fails the
-		// replay the same way.
+		// A reply is a fact of the run: the stored record holds a mismatch as the
+		// reason it gave, and the run ended there.
 		prefix := fmt.Sprintf("step %q: ", u.step.Name)
 		for _, r := range u.stored.Reasons {
 			if strings.HasPrefix(r, prefix) {
-				u.Fail(r)
-				u.End(fmt.Sprintf("not measured: step %q failed", u.step.Name))
-				break
+				s.mismatch(u, r)
+				return nil
 			}
 		}
 		return nil
@@ -176,10 +175,15 @@ func (s *commandStep) Run(ctx context.Context, u *Unit) error {
 			if s.OnMismatch == "fault" {
 				return u.Fault("%s", mismatch)
 			}
-			u.Fail(mismatch)
-			u.End(fmt.Sprintf("not measured: step %q failed", u.step.Name))
+			s.mismatch(u, mismatch)
 			return nil
 		}
 	}
 	return nil
+}
+
+// mismatch fails the unit with reason and ends its run.
+func (s *commandStep) mismatch(u *Unit, reason string) {
+	u.Fail(reason)
+	u.End(fmt.Sprintf("not measured: step %q failed", u.step.Name))
 }
