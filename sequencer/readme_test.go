@@ -13,16 +13,17 @@ import (
 	"trimline/sequencer"
 )
 
-// readmeBlock is one fenced yaml block of the README's "Writing a sequence".
+// readmeBlock is one fenced block of a section of README.md or DEVELOPERS.md.
 type readmeBlock struct {
-	line int    // 1-based line of its first line in README.md
+	line int    // 1-based line of its first line in the file
 	text string // the block's lines, without the fences
 }
 
-// sequenceBlocks returns the yaml blocks of the README section heading.
-func sequenceBlocks(t *testing.T, heading string) []readmeBlock {
+// fencedBlocks returns the blocks with info string info of the section heading
+// of the file name in the repository's root.
+func fencedBlocks(t *testing.T, name, heading, info string) []readmeBlock {
 	t.Helper()
-	readme, err := os.ReadFile(filepath.Join("..", "README.md"))
+	readme, err := os.ReadFile(filepath.Join("..", name))
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -40,7 +41,7 @@ func sequenceBlocks(t *testing.T, heading string) []readmeBlock {
 			continue
 		}
 		if strings.HasPrefix(line, "```") {
-			if fence = !fence; fence && strings.TrimSpace(strings.TrimPrefix(line, "```")) == "yaml" {
+			if fence = !fence; fence && strings.TrimSpace(strings.TrimPrefix(line, "```")) == info {
 				cur = &readmeBlock{line: n + 1}
 			} else if !fence && cur != nil {
 				out = append(out, *cur)
@@ -53,7 +54,7 @@ func sequenceBlocks(t *testing.T, heading string) []readmeBlock {
 		}
 	}
 	if len(out) == 0 {
-		t.Fatalf("README.md has no yaml blocks under %q", heading)
+		t.Fatalf("%s has no %s blocks under %q", name, info, heading)
 	}
 	return out
 }
@@ -117,7 +118,7 @@ func TestReadmeSequenceExamplesLoad(t *testing.T) {
 	demo := demoFile(t, "brx200-sequence.yaml")
 	shown := map[string]bool{}
 	named := 0
-	for _, b := range sequenceBlocks(t, "## Writing a sequence") {
+	for _, b := range fencedBlocks(t, "README.md", "## Writing a sequence", "yaml") {
 		first, _, _ := strings.Cut(b.text, "\n")
 		var doc string
 		switch {
@@ -160,4 +161,23 @@ func TestReadmeSequenceExamplesLoad(t *testing.T) {
 }
 
 // testKinds are step kinds registered by this package's tests, not by the engine.
-var testKinds = []string{"supply_check"}
+var testKinds = []string{"port_reading"} // example_kind_test.go, shown in DEVELOPERS.md
+
+// DEVELOPERS.md's example step kind is the code the tests compile and run: its
+// two go blocks are example_kind_test.go and example_kind_run_test.go.
+func TestDevelopersStepKindExample(t *testing.T) {
+	blocks := fencedBlocks(t, "DEVELOPERS.md", "## How to add a step kind", "go")
+	files := []string{"example_kind_test.go", "example_kind_run_test.go"}
+	if len(blocks) != len(files) {
+		t.Fatalf("DEVELOPERS.md, How to add a step kind, has %d go blocks, want %d: %v", len(blocks), len(files), files)
+	}
+	for i, b := range blocks {
+		want, err := os.ReadFile(files[i])
+		if err != nil {
+			t.Fatal(err)
+		}
+		if b.text != string(want) {
+			t.Errorf("DEVELOPERS.md:%d: the block differs from sequencer/%s: copy the file into DEVELOPERS.md again", b.line, files[i])
+		}
+	}
+}
