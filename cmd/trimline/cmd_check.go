@@ -18,7 +18,14 @@ func newCheckCmd() *command {
 		Long: `Loads each file as production would and prints every problem of every file,
 in one pass, as file:line:col with an excerpt. The kind of each file is told by its
 top-level key: station:, sequence: or limit_set:. A sequence file also loads the
-limit file it names, which must be for the sequence's product.
+limit file it names, which must be for the sequence's product. A folder stands for
+every file under it.
+
+The other files a station's folder holds are recognised too. Trust files, key
+files, seals and saved chain heads are loaded as the commands that use them would
+load them ("ok" when they can be used); certificates, the ledger, export bundles and
+the run log are not inputs, and check says which command checks them (a line
+starting "--"); they count as no problem.
 
 A station file is also checked for what production would refuse later: a
 calibration that has run out (an error) or runs out within 14 days (a warning), and
@@ -37,9 +44,26 @@ otherwise.`,
 		var other []error
 		var stations []*sequencer.Station
 		var seqs []*sequencer.Sequence
+		args, err := expandFolders(args)
+		if err != nil {
+			return badInput(err)
+		}
 		for _, path := range args {
 			if err := ctx.Err(); err != nil {
 				return err // one file's parse is bounded (files.Check); stop between files
+			}
+			if o := recogniseOther(path); o != nil {
+				if o.elsewhere != nil {
+					fmt.Fprintf(e.stdout, "--  %s (%s): %s\n", path, o.kind, o.elsewhere(path))
+					continue
+				}
+				what, err := o.check(path)
+				if err != nil {
+					other = append(other, fmt.Errorf("%s: %s: %w", path, o.kind, err))
+					continue
+				}
+				fmt.Fprintf(e.stdout, "ok  %s (%s: %s)\n", path, o.kind, what)
+				continue
 			}
 			data, err := files.ReadFile(path)
 			if err != nil {
