@@ -4,6 +4,8 @@ import (
 	"context"
 	"fmt"
 	"io"
+	"strings"
+	"text/tabwriter"
 
 	"trimline/instruments/files"
 	"trimline/limits"
@@ -13,7 +15,7 @@ import (
 
 func newCheckCmd() *command {
 	c := &command{
-		UsageLine: "trimline check FILE...",
+		UsageLine: "trimline check [--steps] FILE|FOLDER...",
 		Short:     "validate station, sequence and limit files",
 		Long: `Loads each file as production would and prints every problem of every file,
 in one pass, as file:line:col with an excerpt. The kind of each file is told by its
@@ -33,9 +35,14 @@ a signing key that is missing or cannot be read. When a station and a sequence a
 both given, every sweep level is checked against the station's caps and the
 source's rating, and the roles against the station's instruments.
 
+With --steps, each sequence that loads is followed by the list of steps it read:
+name, kind, stage, the roles each uses and the results each declares (what a limit
+file may judge).
+
 Exit code 0 when no file has an error (warnings are printed but do not count), 2
 otherwise.`,
 	}
+	showSteps := c.Flag.Bool("steps", false, "after each sequence, list the steps it read (name, kind, stage, roles, results)")
 	c.Run = func(ctx context.Context, e *env, args []string) error {
 		if len(args) == 0 {
 			return usagef("name at least one file")
@@ -108,6 +115,9 @@ otherwise.`,
 				continue
 			}
 			fmt.Fprintf(e.stdout, "ok  %s (%s)\n", path, kind)
+			if *showSteps && kind == sequencer.FileSequence {
+				printSteps(e.stdout, seqs[len(seqs)-1])
+			}
 		}
 		for _, st := range stations {
 			for _, s := range seqs {
@@ -155,6 +165,35 @@ func stationProblems(e *env, st *sequencer.Station) files.List {
 		}
 	}
 	return out
+}
+
+// printSteps lists the steps seq read, one a line, indented under its "ok" line.
+func printSteps(w io.Writer, seq *sequencer.Sequence) {
+	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', 0)
+	fmt.Fprintf(tw, "    #\tstep\tkind\tstage\troles\tresults\n")
+	for i, d := range seq.Steps {
+		roles := make([]string, len(d.Roles))
+		for j, r := range d.Roles {
+			roles[j] = fmt.Sprintf("%s (%s)", r.Role, r.Kind)
+		}
+		results := make([]string, len(d.Results))
+		for j, r := range d.Results {
+			results[j] = r.Name
+		}
+		last := orDash(strings.Join(results, ", "))
+		if d.SkipIf != "" {
+			last += "; skipped if " + d.SkipIf
+		}
+		fmt.Fprintf(tw, "    %d\t%s\t%s\t%s\t%s\t%s\n", i+1, d.Name, d.Kind, d.Stage, orDash(strings.Join(roles, ", ")), last)
+	}
+	tw.Flush()
+}
+
+func orDash(s string) string {
+	if s == "" {
+		return "—"
+	}
+	return s
 }
 
 // printTUR shows the test uncertainty ratio each toleranced limit can reach on
