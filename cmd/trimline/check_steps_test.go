@@ -95,3 +95,19 @@ func TestCheckStepsListsTheSequence(t *testing.T) {
 		t.Fatalf("exit %d:\n%s", code, out)
 	}
 }
+
+// A second sweep above the station's cap is named by the caps check: the step,
+// where it starts in the file, the level and the cap; the first sweep is not.
+func TestCheckCapsNamesTheStep(t *testing.T) {
+	dir := t.TempDir()
+	station, _, err := writeDemoFiles(dir, 1, time.Now())
+	if err != nil {
+		t.Fatal(err)
+	}
+	bad := editDemo(t, dir, "brx200-sequence.yaml", "    name: verify\n    from: -10 mV\n    to: 10 mV", "    name: verify\n    from: -10 mV\n    to: 60 mV")
+	code, out, _ := runCLI(t, "check", station, bad)
+	want := `safety cap: ` + bad + `:74:5: step "verify" reaches 53 mV on the source, above the station cap of 50 mV (` + filepath.Base(station) + ` safety.max_source_voltage)`
+	if code != exitUsage || !strings.Contains(out, want+"\n1 problem(s)\n") || strings.Contains(out, `"pre-trim"`) {
+		t.Fatalf("exit %d, want 2 and\n%s\ngot:\n%s", code, want, out)
+	}
+}
