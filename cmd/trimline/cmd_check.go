@@ -99,7 +99,10 @@ otherwise.`,
 					seqs = append(seqs, s)
 				}
 			case sequencer.FileLimits:
-				cat, _, _ := sequencer.CatalogFor(path)
+				cat, _, note := sequencer.CatalogFor(path)
+				if note != "" {
+					fmt.Fprintln(e.stderr, "note:", note)
+				}
 				_, lerr = limits.Load(path, data, cat)
 			default:
 				problems = append(problems, &files.Error{File: path, Line: 1, Col: 1,

@@ -91,3 +91,21 @@ func TestLintCatalogueComesFromTheSteps(t *testing.T) {
 		t.Fatalf("TUR from the steps: exit %d\nstdout:\n%s\nstderr:\n%s", code, out, errOut)
 	}
 }
+
+// check says, as lint does, when a limit file's names are checked against the
+// first layout's because no sequence beside it names it.
+func TestCheckNotesALimitFileAlone(t *testing.T) {
+	dir := t.TempDir()
+	if _, _, err := writeDemoFiles(filepath.Join(dir, "demo"), 1, time.Now()); err != nil {
+		t.Fatal(err)
+	}
+	demoLimits := filepath.Join(dir, "demo", "brx200-limits.yaml")
+	if code, out, errOut := runCLI(t, "check", demoLimits); code != 0 || errOut != "" {
+		t.Fatalf("beside its sequence: exit %d\n%s\n%s", code, out, errOut)
+	}
+	alone := copyWith(t, demoLimits, filepath.Join(dir, "alone", "brx200-limits.yaml"))
+	code, out, errOut := runCLI(t, "check", alone)
+	if code != 0 || out != "ok  "+alone+" (limits)\n" || !strings.HasPrefix(errOut, "note: no sequence file beside brx200-limits.yaml names it") {
+		t.Fatalf("alone: exit %d\nstdout:\n%s\nstderr:\n%s", code, out, errOut)
+	}
+}
