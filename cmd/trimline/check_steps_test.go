@@ -1,7 +1,6 @@
 package main
 
 import (
-	"os"
 	"path/filepath"
 	"strings"
 	"testing"
@@ -12,22 +11,17 @@ import (
 // old string of pairs replaced by the new one, and returns its path.
 func editDemo(t *testing.T, dir, name string, pairs ...string) string {
 	t.Helper()
-	data, err := os.ReadFile(filepath.Join(dir, name))
-	if err != nil {
-		t.Fatal(err)
-	}
-	text := string(data)
-	for i := 0; i < len(pairs); i += 2 {
-		if !strings.Contains(text, pairs[i]) {
-			t.Fatalf("%s lacks %q", name, pairs[i])
+	return copyWith(t, filepath.Join(dir, name), filepath.Join(dir, "bad-"+name), pairs...)
+}
+
+// expectAll reports each of wants that out lacks.
+func expectAll(t *testing.T, out string, wants ...string) {
+	t.Helper()
+	for _, want := range wants {
+		if !strings.Contains(out, want) {
+			t.Errorf("missing %q", want)
 		}
-		text = strings.Replace(text, pairs[i], pairs[i+1], 1)
 	}
-	bad := filepath.Join(dir, "bad-"+name)
-	if err := os.WriteFile(bad, []byte(text), 0o644); err != nil {
-		t.Fatal(err)
-	}
-	return bad
 }
 
 // A sequence with mistakes in five different steps gets all five reported in one
@@ -44,7 +38,7 @@ func TestCheckReportsEveryStepErrorInOnePass(t *testing.T) {
 		"  - kind: store ", "  - kind: stash ", // an unknown kind
 		"    name: verify fit\n", "    name: verify fit\n    skip_if: no_such_result > 3\n") // a skip_if over no result
 	code, out, _ := runCLI(t, "check", bad)
-	for _, want := range []string{
+	expectAll(t, out,
 		"bad-brx200-sequence.yaml:50:11: unknown unit \"mX\" in \"-10 mX\"",
 		"   50 |     from: -10 mX\n      |           ^",
 		"bad-brx200-sequence.yaml:58:12: no earlier sweep step called \"verify\" (earlier ones: \"pre-trim\")",
@@ -56,11 +50,7 @@ func TestCheckReportsEveryStepErrorInOnePass(t *testing.T) {
 		"bad-brx200-sequence.yaml:84:14: skip_if \"no_such_result > 3\": unknown name no_such_result",
 		"   84 |     skip_if: no_such_result > 3\n      |              ^",
 		"5 problem(s)",
-	} {
-		if !strings.Contains(out, want) {
-			t.Errorf("missing %q", want)
-		}
-	}
+	)
 	if code != exitUsage || t.Failed() {
 		t.Fatalf("exit %d, want 2:\n%s", code, out)
 	}
@@ -79,18 +69,14 @@ func TestCheckStepsListsTheSequence(t *testing.T) {
 		t.Fatalf("check without --steps: exit %d\n%s", code, out)
 	}
 	code, out, _ = runCLI(t, "check", "--steps", sequence)
-	for _, want := range []string{
+	expectAll(t, out,
 		"    #  step          kind        stage       roles                                   results\n",
 		"    1  identify      identify    as found    dut (dut_port)                          —\n",
 		"    3  pre-trim      sweep       as found    source (voltage_source), meter (meter)  —\n",
 		"    4  pre-trim fit  fit         as found    —                                       pre_offset, pre_gain_error, pre_nonlinearity\n",
 		"    5  trim          trim        adjustment  dut (dut_port)                          offset_code, gain_code\n",
 		"    8  verify fit    fit         as left     —                                       post_offset, post_gain_error, post_nonlinearity, post_max_error, post_noise\n",
-	} {
-		if !strings.Contains(out, want) {
-			t.Errorf("missing %q", want)
-		}
-	}
+	)
 	if code != 0 || t.Failed() {
 		t.Fatalf("exit %d:\n%s", code, out)
 	}
