@@ -367,7 +367,7 @@ func stepList(doc *files.Doc, s *Sequence, errs, decodeErrs *files.List) []strin
 		if err := doc.DecodeAt(path, &h, func(k string) bool { return !headKeys[k] }); err != nil {
 			*decodeErrs = append(*decodeErrs, files.Errs(err)...)
 		}
-		line, col := doc.Pos(path)
+		line, col := doc.StartPos(path)
 		d := &StepDecl{Name: strings.TrimSpace(h.Name), Kind: h.Kind, SkipIf: h.SkipIf, Where: fmt.Sprintf("%s:%d:%d", doc.Name, line, col)}
 		k, ok := lookupKind(h.Kind)
 		switch {

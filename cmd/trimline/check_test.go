@@ -3,7 +3,6 @@ package main
 import (
 	"bytes"
 	"context"
-	"os"
 	"path/filepath"
 	"strings"
 	"testing"
@@ -36,18 +35,7 @@ func TestCheckFindsEverythingInOnePass(t *testing.T) {
 
 	edit := func(name string, pairs ...string) string {
 		t.Helper()
-		path := filepath.Join(dir, name)
-		data, _ := os.ReadFile(path)
-		text := string(data)
-		for i := 0; i < len(pairs); i += 2 {
-			if !strings.Contains(text, pairs[i]) {
-				t.Fatalf("%s lacks %q", name, pairs[i])
-			}
-			text = strings.Replace(text, pairs[i], pairs[i+1], 1)
-		}
-		bad := filepath.Join(dir, "bad-"+name)
-		os.WriteFile(bad, []byte(text), 0o644)
-		return bad
+		return editDemo(t, dir, name, pairs...)
 	}
 	badStation := edit("brx200-station.yaml",
 		"  id: TL1 ", "  id: TL 3 ",

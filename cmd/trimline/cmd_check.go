@@ -4,6 +4,8 @@ import (
 	"context"
 	"fmt"
 	"io"
+	"strings"
+	"text/tabwriter"
 
 	"trimline/instruments/files"
 	"trimline/limits"
@@ -13,12 +15,19 @@ import (
 
 func newCheckCmd() *command {
 	c := &command{
-		UsageLine: "trimline check FILE...",
+		UsageLine: "trimline check [--steps] FILE|FOLDER...",
 		Short:     "validate station, sequence and limit files",
 		Long: `Loads each file as production would and prints every problem of every file,
 in one pass, as file:line:col with an excerpt. The kind of each file is told by its
 top-level key: station:, sequence: or limit_set:. A sequence file also loads the
-limit file it names, which must be for the sequence's product.
+limit file it names, which must be for the sequence's product. A folder stands for
+every file under it.
+
+The other files a station's folder holds are recognised too. Trust files, key
+files, seals and saved chain heads are loaded as the commands that use them would
+load them ("ok" when they can be used); certificates, the ledger, export bundles and
+the run log are not inputs, and check says which command checks them (a line
+starting "--"); they count as no problem.
 
 A station file is also checked for what production would refuse later: a
 calibration that has run out (an error) or runs out within 14 days (a warning), and
@@ -26,9 +35,14 @@ a signing key that is missing or cannot be read. When a station and a sequence a
 both given, every sweep level is checked against the station's caps and the
 source's rating, and the roles against the station's instruments.
 
+With --steps, each sequence that loads is followed by the list of steps it read:
+name, kind, stage, the roles each uses and the results each declares (what a limit
+file may judge).
+
 Exit code 0 when no file has an error (warnings are printed but do not count), 2
 otherwise.`,
 	}
+	showSteps := c.Flag.Bool("steps", false, "after each sequence, list the steps it read (name, kind, stage, roles, results)")
 	c.Run = func(ctx context.Context, e *env, args []string) error {
 		if len(args) == 0 {
 			return usagef("name at least one file")
@@ -37,9 +51,26 @@ otherwise.`,
 		var other []error
 		var stations []*sequencer.Station
 		var seqs []*sequencer.Sequence
+		args, err := expandFolders(args)
+		if err != nil {
+			return badInput(err)
+		}
 		for _, path := range args {
 			if err := ctx.Err(); err != nil {
 				return err // one file's parse is bounded (files.Check); stop between files
+			}
+			if o := recogniseOther(path); o != nil {
+				if o.elsewhere != nil {
+					fmt.Fprintf(e.stdout, "--  %s (%s): %s\n", path, o.kind, o.elsewhere(path))
+					continue
+				}
+				what, err := o.check(path)
+				if err != nil {
+					other = append(other, fmt.Errorf("%s: %s: %w", path, o.kind, err))
+					continue
+				}
+				fmt.Fprintf(e.stdout, "ok  %s (%s: %s)\n", path, o.kind, what)
+				continue
 			}
 			data, err := files.ReadFile(path)
 			if err != nil {
@@ -68,7 +99,10 @@ otherwise.`,
 					seqs = append(seqs, s)
 				}
 			case sequencer.FileLimits:
-				cat, _, _ := sequencer.CatalogFor(path)
+				cat, _, note := sequencer.CatalogFor(path)
+				if note != "" {
+					fmt.Fprintln(e.stderr, "note:", note)
+				}
 				_, lerr = limits.Load(path, data, cat)
 			default:
 				problems = append(problems, &files.Error{File: path, Line: 1, Col: 1,
@@ -84,6 +118,9 @@ otherwise.`,
 				continue
 			}
 			fmt.Fprintf(e.stdout, "ok  %s (%s)\n", path, kind)
+			if *showSteps && kind == sequencer.FileSequence {
+				printSteps(e.stdout, seqs[len(seqs)-1])
+			}
 		}
 		for _, st := range stations {
 			for _, s := range seqs {
@@ -131,6 +168,35 @@ func stationProblems(e *env, st *sequencer.Station) files.List {
 		}
 	}
 	return out
+}
+
+// printSteps lists the steps seq read, one a line, indented under its "ok" line.
+func printSteps(w io.Writer, seq *sequencer.Sequence) {
+	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', 0)
+	fmt.Fprintf(tw, "    #\tstep\tkind\tstage\troles\tresults\n")
+	for i, d := range seq.Steps {
+		roles := make([]string, len(d.Roles))
+		for j, r := range d.Roles {
+			roles[j] = fmt.Sprintf("%s (%s)", r.Role, r.Kind)
+		}
+		results := make([]string, len(d.Results))
+		for j, r := range d.Results {
+			results[j] = r.Name
+		}
+		last := orDash(strings.Join(results, ", "))
+		if d.SkipIf != "" {
+			last += "; skipped if " + d.SkipIf
+		}
+		fmt.Fprintf(tw, "    %d\t%s\t%s\t%s\t%s\t%s\n", i+1, d.Name, d.Kind, d.Stage, orDash(strings.Join(roles, ", ")), last)
+	}
+	tw.Flush()
+}
+
+func orDash(s string) string {
+	if s == "" {
+		return "—"
+	}
+	return s
 }
 
 // printTUR shows the test uncertainty ratio each toleranced limit can reach on

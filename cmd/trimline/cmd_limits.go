@@ -23,10 +23,15 @@ func newLimitsLintCmd() *command {
 		Short:     "print every problem of each limit file",
 		Long: `Prints every problem of each limit file as file:line:col: unknown result names,
 type errors, limits that can never pass or never fail over the result's physical
-range (the trim codes' and the output's ranges come from the product, so they are
-checked with --sequence), contradictory or redundant limits on one result,
+range (the trim codes' and the output's ranges come from the product's steps), contradictory or redundant limits on one result,
 tolerances tighter than the station can measure (with --sequence and --station),
-missing descriptions. Exit 2 when any error is found.`,
+missing descriptions. Exit 2 when any error is found.
+
+The result names a limit file may use are those the product's steps declare: with
+--sequence, that sequence's (read without its own limit file, so a broken limit
+file can still be linted); without it, those of the sequence files beside the
+limit file that name it, or, when none does, the first layout's, with a note on
+stderr.`,
 	}
 	station := c.Flag.String("station", "", "station `file`: also check each tolerance against the TUR the station can reach")
 	sequence := c.Flag.String("sequence", "", "sequence `file`: the product's physical ranges (trim codes, output), and with --station the TUR check")
@@ -39,22 +44,34 @@ missing descriptions. Exit 2 when any error is found.`,
 		}
 		var opt limits.LintOptions
 		var seq *sequencer.Sequence // nil: lint knows only the ranges no product sets
-		switch {
-		case *station != "" && *sequence != "":
-			st, s, err := loadFiles(ctx, *station, *sequence)
-			if err != nil {
-				return err
-			}
-			seq, opt.TUR = s, sequencer.PredictUncertainty(st, s)
-		case *sequence != "":
-			s, err := sequencer.LoadSequence(*sequence)
-			if err != nil {
-				if fe := files.Errs(err); fe != nil {
-					return badInput(detailed(fe))
+		if *sequence != "" {
+			// The sequence's steps alone: the limit file it names may be the very
+			// file being linted, and lint must speak even while that file is broken.
+			var errs files.List
+			var st *sequencer.Station
+			if *station != "" {
+				var err error
+				if st, err = sequencer.LoadStation(*station); err != nil {
+					if errs = files.Errs(err); errs == nil {
+						return badInput(err)
+					}
 				}
-				return badInput(err)
+			}
+			s, err := sequencer.LoadSequenceSteps(*sequence)
+			if err != nil {
+				fe := files.Errs(err)
+				if fe == nil {
+					return badInput(err)
+				}
+				errs = append(errs, fe...)
+			}
+			if len(errs) > 0 {
+				return badInput(detailed(errs))
 			}
 			seq = s
+			if st != nil {
+				opt.TUR = sequencer.PredictUncertainty(st, s)
+			}
 		}
 		opt.Ranges = sequencer.PhysicalRanges(seq)
 		errorsFound := 0

@@ -55,6 +55,9 @@ with the physical ranges of the product's sequence when --sequence names it.`,
 		var cat limits.Catalog      // the results the limit file may judge
 		if *sequencePath != "" {
 			if seq, err = sequencer.LoadSequenceSteps(*sequencePath); err != nil {
+				if fe := files.Errs(err); fe != nil {
+					return badInput(detailed(fe))
+				}
 				return badInput(err)
 			}
 			cat = seq.Catalog()

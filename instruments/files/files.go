@@ -228,6 +228,15 @@ func (d *Doc) Pos(path string) (line, col int) {
 	return 1, 1
 }
 
+// StartPos is where the node at path begins as a person reads it: for a mapping,
+// its first key (the parser places a mapping at its first colon), else Pos.
+func (d *Doc) StartPos(path string) (line, col int) {
+	if m, ok := d.node(path).(*ast.MappingNode); ok && len(m.Values) > 0 && m.Values[0].Key != nil {
+		return tokPos(m.Values[0].Key.GetToken())
+	}
+	return d.Pos(path)
+}
+
 func (d *Doc) keyPos(path string) (int, int) {
 	n := d.node(path)
 	if n == nil {

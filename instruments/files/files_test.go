@@ -179,3 +179,25 @@ func TestDecodeAllReportsEveryProblem(t *testing.T) {
 		t.Errorf("a bad value leaves a zero value behind a set pointer; the rest decodes: %+v", w)
 	}
 }
+
+// StartPos places a list's mapping item at its first key, where a person reads
+// the item begin, not at the parser's first colon.
+func TestStartPosOfAMappingIsItsFirstKey(t *testing.T) {
+	src := "steps:\n  - kind: sweep\n    name: verify\n  - {kind: fit, name: f}\n  - plain\n"
+	d, err := files.Parse("f.yaml", []byte(src))
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, c := range []struct {
+		path      string
+		line, col int
+	}{
+		{"$.steps[0]", 2, 5},
+		{"$.steps[1]", 4, 6},
+		{"$.steps[2]", 5, 5},
+	} {
+		if line, col := d.StartPos(c.path); line != c.line || col != c.col {
+			t.Errorf("StartPos(%s) = %d:%d, want %d:%d", c.path, line, col, c.line, c.col)
+		}
+	}
+}
