@@ -221,7 +221,7 @@ func (d *doc) sweepNames(st stage) string {
 	case 1:
 		return names[0] + " sweep"
 	}
-	return strings.Join(names[:len(names)-1], ", ") + " and " + names[len(names)-1] + " sweeps"
+	return andList(names) + " sweeps"
 }
 
 // errPoints turns a sweep's valid points into (stimulus, error, s) in volts.

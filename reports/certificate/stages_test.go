@@ -43,6 +43,7 @@ func stagedRecord() *sequencer.Record {
 func TestStagedRecordGroupsSweepsByStage(t *testing.T) {
 	text := pdfText(t, render(t, stagedRecord(), opt))
 	requireText(t, text,
+		"End-of-line trim by the coarse DAC, verified by 2 further sweeps",
 		"As found: before adjustment (incoming sweep)",
 		"As left: after adjustment (warm check and final sweeps)",
 		"Before trim, as found", "sweep “incoming”, 11 valid points",
@@ -55,7 +56,7 @@ func TestStagedRecordGroupsSweepsByStage(t *testing.T) {
 		"not reached", "not measured: trim saturated",
 	)
 	ft := flat(text)
-	for _, bad := range []string{"pre-trim", "“verify”", "no data"} {
+	for _, bad := range []string{"pre-trim", "“verify”", "no data", "trim of gain and offset", "second sweep"} {
 		if strings.Contains(ft, bad) {
 			t.Errorf("text holds %q", bad)
 		}
