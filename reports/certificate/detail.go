@@ -49,7 +49,7 @@ func (d *doc) detail() {
 		d.tableSection("Other results (not judged by a limit)", oCols, oRows, nil)
 	}
 	if len(fRows) > 0 {
-		d.tableSection("Straight-line fits", fCols, fRows, nil)
+		d.tableSection(d.fitsTitle(), fCols, fRows, nil)
 	}
 	d.plots(plotted, plotH)
 	d.sweepPoints(pts)
@@ -154,6 +154,17 @@ func (d *doc) fits() ([]pdfdoc.Column, []pdfdoc.Row) {
 		})
 	}
 	return cols, rows
+}
+
+// fitsTitle is the heading of the fits table: "Straight-line fits" unless a fit
+// is a quadratic, whose gain and output at 0 V are its b1 and b0.
+func (d *doc) fitsTitle() string {
+	for _, f := range d.rec.Fits {
+		if f.Order == 2 {
+			return "Fits of the sweeps (gain and output at 0 V in: the slope and value at 0 V)"
+		}
+	}
+	return "Straight-line fits"
 }
 
 func finite(v float64) bool { return !math.IsNaN(v) && !math.IsInf(v, 0) }

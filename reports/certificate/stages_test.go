@@ -25,7 +25,9 @@ func stagedRecord() *sequencer.Record {
 	r.Sweeps = []sequencer.Sweep{warm, found, final}
 	fw, ff, fl := fitSweep(warm), fitSweep(found), fitSweep(final)
 	fw.Step, ff.Step, fl.Step = "warm fit", "incoming fit", "final fit"
-	r.Fits = []sequencer.FitSummary{fw, ff, fl}
+	fq := fitSweep(final) // a second fit of the same sweep, a quadratic
+	fq.Step, fq.Order = "final curve", 2
+	r.Fits = []sequencer.FitSummary{fw, ff, fl, fq}
 	r.Trims = []sequencer.TrimCode{{DAC: "coarse", Before: 128, Ideal: 97.25, Code: 97, Readback: 97, Written: true, Stored: true}}
 	r.Steps = []sequencer.StepRun{
 		{Name: "identify", Kind: "identify", Status: sequencer.StepDone},
@@ -51,6 +53,7 @@ func TestStagedRecordGroupsSweepsByStage(t *testing.T) {
 		"before trim (sweep “incoming”)", "after trim (sweep “warm check”)", "after trim (sweep “final”)",
 		"Sweep “incoming” (as found)", "Sweep “warm check” (as left)", "Sweep “final” (as left)",
 		"coarse", "97.250",
+		"Fits of the sweeps", "as left · final fit", "as left · final curve · quadratic",
 		"Steps of the sequence: not every step was done",
 		"bake", "skipped", "skip_if: pre_offset < 1 mV",
 		"not reached", "not measured: trim saturated",
