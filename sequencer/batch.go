@@ -4,6 +4,8 @@ import (
 	"context"
 	"errors"
 	"math"
+
+	"trimline/instruments/units"
 )
 
 // A batch is one production session: the units of a list of serial numbers run one
@@ -24,6 +26,9 @@ var (
 type Tally struct {
 	Records []*Record // every unit run, in order
 	Skipped []string  // serials not run because the batch was stopped
+	// Results are the results the batch's sequence declares, in declaration
+	// order; Summary spreads those of them it can.
+	Results []ResultDef
 }
 
 // RunBatch runs the units of serials in order. First it checks every serial
@@ -34,7 +39,7 @@ type Tally struct {
 // (to store, publish and show it); an error from done ends the batch with that
 // error, and that unit is not counted.
 func (e *Engine) RunBatch(ctx context.Context, serials []string, done func(i int, rec *Record) error) (*Tally, error) {
-	t := &Tally{}
+	t := &Tally{Results: e.cfg.Sequence.Results()}
 	if err := e.cfg.Sequence.CheckSerials(serials); err != nil {
 		return t, err
 	}
@@ -81,28 +86,26 @@ type Summary struct {
 }
 
 // Spread is the mean and sample standard deviation of one result over the units
-// it is taken over; N is how many had a valid value.
+// it is taken over; N is how many had a valid value. Mean and SD are in SI
+// units of Dim (volts, or a plain fraction for a ratio).
 type Spread struct {
 	Result     string
-	PassedOnly bool // over the units that passed (what ships), else every measured unit (the process)
+	Stage      Stage     // AsFound or AsLeft
+	Dim        units.Dim // units.Volt or units.Ratio
+	PassedOnly bool      // over the units that passed (what ships), else every measured unit (the process)
 	Mean, SD   float64
 	N          int
 }
 
-// summaryResults are the results a summary spreads: pre-trim over every measured
-// unit (the process), post-trim residuals over the units that passed (what ships).
-var summaryResults = []struct {
-	name       string
-	passedOnly bool
-}{
-	{ResPreOffset, false},
-	{ResPreGainError, false},
-	{ResPostOffset, true},
-	{ResPostGainError, true},
-	{ResPostNonlinearity, true},
+// spreadable reports whether a summary spreads the declared result d: voltages
+// and ratios measured as found (over every measured unit: the process) or as
+// left (over the units that passed: what ships). Trim codes are not spread.
+func spreadable(d ResultDef) bool {
+	return (d.Dim == units.Volt || d.Dim == units.Ratio) && (d.Stage == AsFound || d.Stage == AsLeft)
 }
 
-// Summary counts the verdicts, the yield and the spread of the summary results.
+// Summary counts the verdicts, the yield and the spread of every voltage and
+// ratio result the tally's Results declare as found or as left, in their order.
 func (t *Tally) Summary() Summary {
 	s := Summary{Units: len(t.Records)}
 	for _, r := range t.Records {
@@ -121,18 +124,22 @@ func (t *Tally) Summary() Summary {
 	if judged := s.Passed + s.Failed + s.Review; judged > 0 {
 		s.Yield = float64(s.Passed) / float64(judged)
 	}
-	for _, sr := range summaryResults {
+	for _, d := range t.Results {
+		if !spreadable(d) {
+			continue
+		}
+		passedOnly := d.Stage == AsLeft
 		var xs []float64
 		for _, r := range t.Records {
-			if sr.passedOnly && r.Verdict != Pass {
+			if passedOnly && r.Verdict != Pass {
 				continue
 			}
-			if v, ok := r.Result(sr.name); ok {
+			if v, ok := r.Result(d.Name); ok {
 				xs = append(xs, v)
 			}
 		}
 		m, sd, n := MeanSD(xs)
-		s.Spreads = append(s.Spreads, Spread{Result: sr.name, PassedOnly: sr.passedOnly, Mean: m, SD: sd, N: n})
+		s.Spreads = append(s.Spreads, Spread{Result: d.Name, Stage: d.Stage, Dim: d.Dim, PassedOnly: passedOnly, Mean: m, SD: sd, N: n})
 	}
 	return s
 }

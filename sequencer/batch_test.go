@@ -3,7 +3,10 @@ package sequencer
 import (
 	"errors"
 	"math"
+	"reflect"
 	"testing"
+
+	"trimline/instruments/units"
 )
 
 // A batch ends with the worst that happened: stopped, then a station fault, then a
@@ -37,8 +40,12 @@ func TestTallySummary(t *testing.T) {
 	rec := func(v Verdict, preOffset, postOffset float64) *Record {
 		return &Record{Verdict: v, Results: []Result{{Name: ResPreOffset, Value: preOffset, Valid: true}, {Name: ResPostOffset, Value: postOffset, Valid: true}}}
 	}
-	tl := Tally{Records: []*Record{rec(Pass, 1, 10), rec(Pass, 3, 20), rec(Fail, 5, 99), {Verdict: Fault}}}
+	defs := []ResultDef{{Name: ResPreOffset, Dim: units.Volt, Stage: AsFound}, {Name: ResPostOffset, Dim: units.Volt, Stage: AsLeft}}
+	tl := Tally{Records: []*Record{rec(Pass, 1, 10), rec(Pass, 3, 20), rec(Fail, 5, 99), {Verdict: Fault}}, Results: defs}
 	s := tl.Summary()
+	if len(s.Spreads) != 2 {
+		t.Fatalf("%d spreads, want 2: %+v", len(s.Spreads), s.Spreads)
+	}
 	if s.Units != 4 || s.Passed != 2 || s.Failed != 1 || s.Faulted != 1 || math.Abs(s.Yield-2.0/3) > 1e-15 {
 		t.Errorf("summary %+v", s)
 	}
@@ -56,5 +63,45 @@ func TestTallySummary(t *testing.T) {
 	}
 	if s := (&Tally{}).Summary(); !math.IsNaN(s.Yield) {
 		t.Errorf("empty batch yield %v, want NaN", s.Yield)
+	}
+}
+
+// The spreads follow the sequence's declared results, whatever their names: every
+// voltage and ratio as found or as left, in declaration order; no trim codes.
+func TestSummarySpreadsDeclaredResults(t *testing.T) {
+	defs := []ResultDef{
+		{Name: "zero_in", Dim: units.Volt, Stage: AsFound},
+		{Name: "coarse_code", Dim: units.Count, Stage: Adjustment},
+		{Name: "span_out", Dim: units.Ratio, Stage: AsLeft},
+		{Name: "zero_out", Dim: units.Volt, Stage: AsLeft},
+		{Name: "codes_used", Dim: units.Count, Stage: AsLeft},
+	}
+	rec := func(v Verdict, zeroIn, spanOut, zeroOut float64) *Record {
+		return &Record{Verdict: v, Results: []Result{
+			{Name: "zero_in", Value: zeroIn, Valid: true}, {Name: "coarse_code", Value: 7, Valid: true},
+			{Name: "span_out", Value: spanOut, Valid: true}, {Name: "zero_out", Value: zeroOut, Valid: true},
+			{Name: "codes_used", Value: 3, Valid: true}}}
+	}
+	tl := Tally{Records: []*Record{rec(Pass, 2, 1e-6, 4), rec(Fail, 4, 9, 9), rec(Pass, 6, 3e-6, 8)}, Results: defs}
+	got := tl.Summary().Spreads
+	want := []Spread{
+		{Result: "zero_in", Stage: AsFound, Dim: units.Volt, Mean: 4, SD: 2, N: 3},
+		{Result: "span_out", Stage: AsLeft, Dim: units.Ratio, PassedOnly: true, Mean: 2e-6, SD: math.Sqrt(2) * 1e-6, N: 2},
+		{Result: "zero_out", Stage: AsLeft, Dim: units.Volt, PassedOnly: true, Mean: 6, SD: math.Sqrt(8), N: 2},
+	}
+	if len(got) != len(want) {
+		t.Fatalf("spreads %+v, want %+v", got, want)
+	}
+	for i := range want {
+		g := got[i]
+		if math.Abs(g.SD-want[i].SD) < 1e-12*math.Max(1, want[i].SD) {
+			g.SD = want[i].SD
+		}
+		if math.Abs(g.Mean-want[i].Mean) < 1e-18 {
+			g.Mean = want[i].Mean
+		}
+		if !reflect.DeepEqual(g, want[i]) {
+			t.Errorf("spread %d: %+v, want %+v", i, got[i], want[i])
+		}
 	}
 }

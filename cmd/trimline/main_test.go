@@ -44,7 +44,7 @@ func TestDemoEndToEnd(t *testing.T) {
 	if counts["runs"] != 6 || counts["documents"] != 6 || counts["readings"] != 6*2*11*8 {
 		t.Fatalf("ledger counts %v", counts)
 	}
-	if !strings.Contains(out, "yield") || !strings.Contains(out, "pre-trim offset") {
+	if !strings.Contains(out, "yield") || !strings.Contains(out, "pre_offset ") {
 		t.Errorf("no summary:\n%s", out)
 	}
 	if _, err := os.Stat(filepath.Join(dir, "trimline.log")); err != nil {

@@ -212,19 +212,13 @@ func liveLine(i, n int, rec *sequencer.Record, cert string) string {
 	if rec.Verdict == sequencer.Fault || rec.Verdict == sequencer.Aborted {
 		return head + "  " + rec.Fault
 	}
-	show := func(name, unit string, scale float64, digits int) string {
-		v, ok := rec.Result(name)
-		if !ok {
-			return "—"
+	var pairs []string
+	for _, dim := range []string{"V", "ratio"} {
+		if pair := livePair(rec, dim); pair != "" {
+			pairs = append(pairs, pair)
 		}
-		if unit == "V" {
-			return units.Format(v, "V", digits)
-		}
-		return fmt.Sprintf("%+.*f %s", digits, v*scale, unit)
 	}
-	line := fmt.Sprintf("%s  offset %9s → %9s   gain %8s → %7s",
-		head, show(sequencer.ResPreOffset, "V", 0, 3), show(sequencer.ResPostOffset, "V", 0, 2),
-		show(sequencer.ResPreGainError, "%", 100, 3), show(sequencer.ResPostGainError, "ppm", 1e6, 1))
+	line := head + "  " + strings.Join(pairs, "   ")
 	if cert != "" {
 		line += "   " + cert
 	}
@@ -268,31 +262,122 @@ func writeJSONLine(w io.Writer, rec *sequencer.Record, cert string) {
 	json.NewEncoder(w).Encode(u)
 }
 
-// summaryRows say how printSummary shows each spread the batch summarises.
-var summaryRows = map[string]struct {
-	label, unit string
-	scale       float64
-}{
-	sequencer.ResPreOffset:        {"pre-trim offset", "mV", 1e3},
-	sequencer.ResPreGainError:     {"pre-trim gain error", "%", 1e2},
-	sequencer.ResPostOffset:       {"post-trim offset", "µV", 1e6},
-	sequencer.ResPostGainError:    {"post-trim gain error", "ppm", 1e6},
-	sequencer.ResPostNonlinearity: {"post-trim nonlinearity", "% FS", 1e2},
+// livePair shows a unit's first result of one dimension ("V" or "ratio") as
+// found and its first as left: "offset -448 µV → -12 µV"; "" when it has
+// neither. Voltages have three significant digits as found and two as left,
+// where they sit near the noise.
+func livePair(rec *sequencer.Record, dim string) string {
+	var found, left *sequencer.Result
+	for i, r := range rec.Results {
+		switch {
+		case r.Unit != dim:
+		case found == nil && r.StageOf() == sequencer.AsFound:
+			found = &rec.Results[i]
+		case left == nil && r.StageOf() == sequencer.AsLeft:
+			left = &rec.Results[i]
+		}
+	}
+	show := func(r *sequencer.Result, digits, width int) string {
+		v := "—"
+		switch {
+		case r == nil || !r.Valid:
+		case dim == "V":
+			v = units.Format(r.Value, "V", digits)
+		default:
+			v = fmtRatio(r.Value)
+		}
+		return fmt.Sprintf("%*s", width, v)
+	}
+	widths := [2]int{9, 9}
+	if dim == "ratio" {
+		widths = [2]int{8, 7}
+	}
+	switch {
+	case found == nil && left == nil:
+		return ""
+	case found == nil:
+		return fmt.Sprintf("%s %s", label(left.Name), show(left, 2, widths[1]))
+	case left == nil:
+		return fmt.Sprintf("%s %s", label(found.Name), show(found, 3, widths[0]))
+	}
+	return fmt.Sprintf("%s %s → %s", pairLabel(found.Name, left.Name), show(found, 3, widths[0]), show(left, 2, widths[1]))
 }
 
-// printSummary prints yield and the spread of the pre- and post-trim results.
+// pairLabel names a before → after pair by what its result names share, word by
+// word (words joined by "_"): the end ("pre_offset", "post_offset": "offset"),
+// else the start ("zero_in", "zero_out": "zero"), else both names.
+func pairLabel(found, left string) string {
+	a, b := strings.Split(found, "_"), strings.Split(left, "_")
+	n := 0
+	for n < min(len(a), len(b)) && a[len(a)-1-n] == b[len(b)-1-n] {
+		n++
+	}
+	if n > 0 {
+		return label(strings.Join(a[len(a)-n:], "_"))
+	}
+	for n < min(len(a), len(b)) && a[n] == b[n] {
+		n++
+	}
+	if n > 0 {
+		return label(strings.Join(a[:n], "_"))
+	}
+	return label(found) + "/" + label(left)
+}
+
+// label is a result name as a line of text shows it: "gain_error" is "gain error".
+func label(name string) string { return strings.ReplaceAll(name, "_", " ") }
+
+// fmtRatio writes a ratio in % with three decimals from 0.01 % up, else in ppm
+// with one: "+0.958 %", "-11.4 ppm".
+func fmtRatio(v float64) string {
+	scale, unit := ratioUnit(math.Abs(v))
+	dec := 1
+	if unit == "%" {
+		dec = 3
+	}
+	return fmt.Sprintf("%+.*f %s", dec, v*scale, unit)
+}
+
+// ratioUnit is how a ratio of magnitude mag reads: in % from 0.01 % up, else in
+// ppm; the factor to multiply by and the unit.
+func ratioUnit(mag float64) (float64, string) {
+	if mag >= 1e-4 {
+		return 1e2, "%"
+	}
+	return 1e6, "ppm"
+}
+
+// spreadUnit is how a spread of magnitude mag (the larger of |mean| and σ) of
+// a result of dimension dim reads: volts with the SI prefix that suits it, a
+// ratio as ratioUnit says; the factor to multiply by and the unit.
+func spreadUnit(dim units.Dim, mag float64) (float64, string) {
+	if dim != units.Volt {
+		return ratioUnit(mag)
+	}
+	switch {
+	case mag >= 1:
+		return 1, "V"
+	case mag >= 1e-3:
+		return 1e3, "mV"
+	case mag >= 1e-6:
+		return 1e6, "µV"
+	}
+	return 1e9, "nV"
+}
+
+// printSummary prints yield and the spread of the results as found and as left.
 func printSummary(w io.Writer, s sequencer.Summary) {
 	fmt.Fprintf(w, "\n%d unit(s): %d passed, %d failed, %d held for review, %d station fault/aborted", s.Units, s.Passed, s.Failed, s.Review, s.Faulted)
 	if !math.IsNaN(s.Yield) {
 		fmt.Fprintf(w, "; yield %.1f %%", 100*s.Yield)
 	}
 	fmt.Fprintln(w)
-	fmt.Fprintln(w, "  pre-trim over every measured unit, post-trim over the units that passed:")
+	fmt.Fprintln(w, "  as found over every measured unit, as left over the units that passed:")
 	for _, sp := range s.Spreads {
-		r, ok := summaryRows[sp.Result]
-		if sp.N == 0 || !ok {
+		if sp.N == 0 {
 			continue
 		}
-		fmt.Fprintf(w, "  %-24s mean %+10.4f %-4s  σ %9.4f %-4s  (n = %d)\n", r.label, sp.Mean*r.scale, r.unit, sp.SD*r.scale, r.unit, sp.N)
+		scale, unit := spreadUnit(sp.Dim, math.Max(math.Abs(sp.Mean), sp.SD))
+		fmt.Fprintf(w, "  %-24s mean %+10.4f %-4s  σ %9.4f %-4s  (n = %d)\n", sp.Result, sp.Mean*scale, unit, sp.SD*scale, unit, sp.N)
 	}
 }

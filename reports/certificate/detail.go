@@ -3,17 +3,12 @@ package certificate
 import (
 	"fmt"
 	"math"
+	"sort"
 	"strconv"
 	"strings"
 
 	"trimline/reports/internal/pdfdoc"
 	"trimline/sequencer"
-)
-
-// Sweep names the plot looks for.
-const (
-	sweepPre    = sequencer.SweepPreTrim
-	sweepVerify = sequencer.SweepVerify
 )
 
 // detail is the measurement detail: the decision statements of the toleranced
@@ -25,7 +20,7 @@ func (d *doc) detail() {
 	sCols, sRows := d.statements()
 	oCols, oRows := d.otherResults()
 	fCols, fRows := d.fits()
-	pre, post, plotH := d.plotSeries()
+	plotted, plotH := d.plotSeries()
 	pts := d.pointTables()
 
 	total := 0.0
@@ -54,9 +49,9 @@ func (d *doc) detail() {
 		d.tableSection("Other results (not judged by a limit)", oCols, oRows, nil)
 	}
 	if len(fRows) > 0 {
-		d.tableSection("Straight-line fits", fCols, fRows, nil)
+		d.tableSection(d.fitsTitle(), fCols, fRows, nil)
 	}
-	d.plots(pre, post, plotH)
+	d.plots(plotted, plotH)
 	d.sweepPoints(pts)
 }
 
@@ -122,8 +117,12 @@ func (d *doc) fits() ([]pdfdoc.Column, []pdfdoc.Row) {
 		{Title: "Residual s", W: 24, Align: "R"},
 		{Title: "Nonlinearity", W: 24, Align: "R"},
 	}
-	var rows []pdfdoc.Row
+	perSweep := map[string]int{}
 	for _, f := range r.Fits {
+		perSweep[f.Sweep]++
+	}
+	var rows []pdfdoc.Row
+	for _, f := range d.fitsByStage() {
 		gainErr := "—"
 		if r.IdealGain != 0 {
 			gainErr = fmtResult(sequencer.Result{Value: f.Slope/r.IdealGain - 1, Unit: "ratio", Valid: finite(f.Slope)})
@@ -136,8 +135,15 @@ func (d *doc) fits() ([]pdfdoc.Column, []pdfdoc.Row) {
 		if finite(f.Slope) {
 			slope = strconv.FormatFloat(f.Slope, 'g', 7, 64) + " V/V"
 		}
+		about := stageWord(d.fitStage(f))
+		if perSweep[f.Sweep] > 1 && f.Step != "" {
+			about += " · " + f.Step
+		}
+		if f.Order == 2 {
+			about += " · quadratic"
+		}
 		rows = append(rows, pdfdoc.Row{
-			pdfdoc.Cell{{Text: dash(f.Sweep), St: pdfdoc.Bold}, {Text: stageWord(sweepStage(f.Sweep)), St: pdfdoc.Small}},
+			pdfdoc.Cell{{Text: dash(f.Sweep), St: pdfdoc.Bold}, {Text: about, St: pdfdoc.Small}},
 			c1(strconv.Itoa(f.DOF), pdfdoc.Body),
 			c1(slope, pdfdoc.Body),
 			c1(gainErr, pdfdoc.Body),
@@ -150,12 +156,22 @@ func (d *doc) fits() ([]pdfdoc.Column, []pdfdoc.Row) {
 	return cols, rows
 }
 
+// fitsTitle is the heading of the fits table: "Straight-line fits" unless a fit
+// is a quadratic, whose gain and output at 0 V are its b1 and b0.
+func (d *doc) fitsTitle() string {
+	for _, f := range d.rec.Fits {
+		if f.Order == 2 {
+			return "Fits of the sweeps (gain and output at 0 V in: the slope and value at 0 V)"
+		}
+	}
+	return "Straight-line fits"
+}
+
 func finite(v float64) bool { return !math.IsNaN(v) && !math.IsInf(v, 0) }
 
-// sweepStage is the stage of a sweep, as the sequencer declares it: the pre-trim
-// sweep finds the unit as it came, the verify sweep leaves it as it ships.
-func sweepStage(name string) stage {
-	switch sequencer.SweepStage(name) {
+// certStage is the certificate's grouping of a stage the record declares.
+func certStage(s sequencer.Stage) stage {
+	switch s {
 	case sequencer.AsFound:
 		return stageFound
 	case sequencer.AsLeft:
@@ -164,23 +180,59 @@ func sweepStage(name string) stage {
 	return stageOther
 }
 
-// sweepTitle names a sweep with its stage: "Sweep “pre-trim” (as found)".
-func sweepTitle(name string) string {
-	t := "Sweep “" + name + "”"
-	if st := sweepStage(name); st != stageOther {
+// sweepTitle names a sweep with its recorded stage: "Sweep “pre-trim” (as found)".
+func sweepTitle(sw sequencer.Sweep) string {
+	t := "Sweep “" + sw.Name + "”"
+	if st := certStage(sw.StageOf()); st != stageOther {
 		t += " (" + stageWord(st) + ")"
 	}
 	return t
 }
 
-// sweepByName returns the first sweep with the given name, or nil.
-func (d *doc) sweepByName(name string) *sequencer.Sweep {
-	for i := range d.rec.Sweeps {
-		if d.rec.Sweeps[i].Name == name {
-			return &d.rec.Sweeps[i]
+// sweepsByStage returns the record's sweeps as found, then as left, then the
+// others, each group in record order.
+func (d *doc) sweepsByStage() []sequencer.Sweep {
+	out := append([]sequencer.Sweep(nil), d.rec.Sweeps...)
+	sort.SliceStable(out, func(i, j int) bool { return certStage(out[i].StageOf()) < certStage(out[j].StageOf()) })
+	return out
+}
+
+// fitStage is the stage of the sweep a fit was made over, as the record gives
+// it; a fit of a sweep the record does not hold takes the stage its name says
+// in a record of schema 1.
+func (d *doc) fitStage(f sequencer.FitSummary) stage {
+	for _, sw := range d.rec.Sweeps {
+		if sw.Name == f.Sweep {
+			return certStage(sw.StageOf())
 		}
 	}
-	return nil
+	return certStage(sequencer.Sweep{Name: f.Sweep}.StageOf())
+}
+
+// fitsByStage returns the record's fits grouped by the stage of their sweeps,
+// as sweepsByStage orders the sweeps.
+func (d *doc) fitsByStage() []sequencer.FitSummary {
+	out := append([]sequencer.FitSummary(nil), d.rec.Fits...)
+	sort.SliceStable(out, func(i, j int) bool { return d.fitStage(out[i]) < d.fitStage(out[j]) })
+	return out
+}
+
+// sweepNames joins the names of the sweeps of a stage for a band title:
+// "pre-trim sweep", "verify and check sweeps"; "" when there is none.
+func (d *doc) sweepNames(st stage) string {
+	var names []string
+	for _, sw := range d.rec.Sweeps {
+		if certStage(sw.StageOf()) == st {
+			names = append(names, sw.Name)
+		}
+	}
+	switch len(names) {
+	case 0:
+		return ""
+	case 1:
+		return names[0] + " sweep"
+	}
+	return andList(names) + " sweeps"
 }
 
 // errPoints turns a sweep's valid points into (stimulus, error, s) in volts.
@@ -206,51 +258,115 @@ func (d *doc) errPoints(s *sequencer.Sweep) []xy {
 	return out
 }
 
-// plots draws the error before and after trim side by side, each on its own
-// scale (millivolts before, microvolts after).
-func (d *doc) plotSeries() (pre, post series, h float64) {
-	ps, vs := d.sweepByName(sweepPre), d.sweepByName(sweepVerify)
-	pre = series{label: "before trim", sweep: sweepPre, pts: d.errPoints(ps), color: colPre, marker: markerCircle, missing: ps == nil}
-	post = series{label: "after trim", sweep: sweepVerify, pts: d.errPoints(vs), color: colPost, marker: markerSquare, missing: vs == nil}
-	if len(pre.pts) == 0 && len(post.pts) == 0 {
-		return pre, post, 2 * (pdfdoc.Small.LineH() + 0.8)
+// plotLook is how the plots draw the sweeps of a stage: title, legend label,
+// colour and marker.
+func plotLook(st stage) (title, label string, c pdfdoc.Color, marker int) {
+	switch st {
+	case stageFound:
+		return "Before trim, as found", "before trim", colPre, markerCircle
+	case stageLeft:
+		return "After trim, as left", "after trim", colPost, markerSquare
 	}
-	return pre, post, plotH + 1.5 + 4 + 2*(pdfdoc.Small.LineH()+0.8)
+	return "Sweep, stage not declared", "sweep", pdfdoc.Ink, markerCircle
 }
 
-// plotH is the height of one plot.
-const plotH = 64.0
+// plotSeries is one series per sweep, as found first, then as left, then the
+// others, and the height of the plots section.
+func (d *doc) plotSeries() (ss []series, h float64) {
+	data := false
+	for _, sw := range d.sweepsByStage() {
+		title, label, c, m := plotLook(certStage(sw.StageOf()))
+		s := series{title: title, label: label, sweep: sw.Name, pts: d.errPoints(&sw), color: c, marker: m}
+		data = data || len(s.pts) > 0
+		ss = append(ss, s)
+	}
+	if !data {
+		return nil, 2 * (pdfdoc.Small.LineH() + 0.8)
+	}
+	rows := (len(ss) + 1) / 2
+	return ss, float64(rows)*(plotH+1.5) + float64(len(d.legendLines(ss)))*legendH + 2*(pdfdoc.Small.LineH()+0.8)
+}
 
-// plots draws the error before and after trim side by side, each on its own
-// scale (millivolts before, microvolts after). h is the height of the section
-// from plotSeries.
-func (d *doc) plots(sPre, sPost series, h float64) {
-	const gap = 8.0
-	d.heading("Error from the ideal transfer", h)
-	if len(sPre.pts) == 0 && len(sPost.pts) == 0 {
-		d.note("No data: neither the “" + sweepPre + "” nor the “" + sweepVerify + "” sweep has a valid point to plot.")
+// plotH is the height of one plot; legendH of one line of the legend.
+const (
+	plotH   = 64.0
+	legendH = 4.0
+	plotGap = 8.0
+)
+
+// legendEntry is one series' entry in the legend: its text, where it starts on
+// its line, and its series.
+type legendEntry struct {
+	s     series
+	x     float64
+	label string
+	bar   bool // the error bar's entry, not a series'
+}
+
+// legendLines lays out the legend: one entry per series, then the error bar's,
+// wrapped to the width of the page.
+func (d *doc) legendLines(ss []series) [][]legendEntry {
+	var lines [][]legendEntry
+	var line []legendEntry
+	x := marginL
+	add := func(e legendEntry, w float64) {
+		if len(line) > 0 && x+w > marginL+contentW {
+			lines, line, x = append(lines, line), nil, marginL
+		}
+		e.x = x
+		line = append(line, e)
+		x += w + 8
+	}
+	st := pdfdoc.Body.Sized(7.5)
+	for _, s := range ss {
+		label := fmt.Sprintf("%s (sweep “%s”)", s.label, s.sweep)
+		add(legendEntry{s: s, label: label}, 4.5+d.TextWidth(label, st))
+	}
+	const bar = "±1 s of the readings"
+	add(legendEntry{label: bar, bar: true}, 4.5+d.TextWidth(bar, st))
+	return append(lines, line)
+}
+
+// plots draws the error of every sweep from the ideal transfer, two side by
+// side, each on its own scale. h is the height of the section from plotSeries.
+func (d *doc) plots(ss []series, h float64) {
+	follow := h
+	if follow > bottom-marginT-headingH {
+		follow = plotH + 1.5
+	}
+	d.heading("Error from the ideal transfer", follow)
+	if len(ss) == 0 {
+		d.note("No data: no sweep has a valid point to plot.")
 		return
 	}
-	w := (contentW - gap) / 2
-	d.plot(marginL, d.Y, w, plotH, "Before trim, as found", sPre)
-	d.plot(marginL+w+gap, d.Y, w, plotH, "After trim, as left", sPost)
-	d.Y += plotH + 1.5
-
-	// Legend, shared by the two plots.
-	x := marginL
-	lh := 4.0
-	for _, s := range []series{sPre, sPost} {
-		d.marker(x+1.5, d.Y+lh/2, s.marker, s.color)
-		d.Stroke(s.color)
-		d.PDF.SetLineWidth(0.35)
-		d.PDF.Line(x, d.Y+lh/2, x+3, d.Y+lh/2)
-		label := fmt.Sprintf("%s (sweep “%s”)", s.label, s.sweep)
-		d.Cell(x+4.5, d.Y, 60, lh, label, pdfdoc.Body.Sized(7.5), "L")
-		x += 4.5 + d.TextWidth(label, pdfdoc.Body.Sized(7.5)) + 8
+	w := (contentW - plotGap) / 2
+	for k := 0; k < len(ss); k += 2 {
+		if k > 0 {
+			d.need(plotH + 1.5)
+		}
+		for j, s := range ss[k:min(k+2, len(ss))] {
+			d.plot(marginL+float64(j)*(w+plotGap), d.Y, w, plotH, s)
+		}
+		d.Y += plotH + 1.5
 	}
-	d.errorBarGlyph(x+1.5, d.Y+lh/2)
-	d.Cell(x+4.5, d.Y, 60, lh, "±1 s of the readings", pdfdoc.Body.Sized(7.5), "L")
-	d.Y += lh
+
+	// Legend, shared by the plots.
+	st := pdfdoc.Body.Sized(7.5)
+	for _, line := range d.legendLines(ss) {
+		d.need(legendH)
+		for _, e := range line {
+			if e.bar {
+				d.errorBarGlyph(e.x+1.5, d.Y+legendH/2)
+			} else {
+				d.marker(e.x+1.5, d.Y+legendH/2, e.s.marker, e.s.color)
+				d.Stroke(e.s.color)
+				d.PDF.SetLineWidth(0.35)
+				d.PDF.Line(e.x, d.Y+legendH/2, e.x+3, d.Y+legendH/2)
+			}
+			d.Cell(e.x+4.5, d.Y, 60, legendH, e.label, st, "L")
+		}
+		d.Y += legendH
+	}
 	d.note("Error = mean output − (G · stimulus + b), with G and b the ideal transfer above. Each plot has its own vertical scale.")
 }
 
@@ -261,9 +377,8 @@ type pointTable struct {
 	groups []pdfdoc.Group
 }
 
-// pointTables lays the sweeps out in pairs.
+// pointTables lays the sweeps out in pairs, as found first, then as left.
 func (d *doc) pointTables() []pointTable {
-	r := d.rec
 	half := func(sep bool) []pdfdoc.Column {
 		return []pdfdoc.Column{
 			{Title: "#", W: 8, Align: "R", Sep: sep},
@@ -276,14 +391,15 @@ func (d *doc) pointTables() []pointTable {
 	}
 	cols := append(half(false), half(true)...)
 	var out []pointTable
-	for k := 0; k < len(r.Sweeps); k += 2 {
-		pair := r.Sweeps[k:min(k+2, len(r.Sweeps))]
+	sweeps := d.sweepsByStage()
+	for k := 0; k < len(sweeps); k += 2 {
+		pair := sweeps[k:min(k+2, len(sweeps))]
 		if len(pair[0].Points) == 0 && (len(pair) == 1 || len(pair[1].Points) == 0) {
 			continue
 		}
-		groups := []pdfdoc.Group{{Title: sweepTitle(pair[0].Name), N: 6}}
+		groups := []pdfdoc.Group{{Title: sweepTitle(pair[0]), N: 6}}
 		if len(pair) == 2 {
-			groups = append(groups, pdfdoc.Group{Title: sweepTitle(pair[1].Name), N: 6})
+			groups = append(groups, pdfdoc.Group{Title: sweepTitle(pair[1]), N: 6})
 		}
 		var rows []pdfdoc.Row
 		for i := 0; i < len(pair[0].Points) || len(pair) == 2 && i < len(pair[1].Points); i++ {

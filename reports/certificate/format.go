@@ -416,8 +416,8 @@ func fmtCoverage(p float64) string {
 type stage int
 
 const (
-	stageFound stage = iota // before adjustment: as-found results, the pre-trim sweep
-	stageLeft               // after adjustment: as-left results, the verify sweep
+	stageFound stage = iota // before adjustment: as-found results and sweeps
+	stageLeft               // after adjustment: as-left results and sweeps
 	stageOther              // trim codes, or results of both stages
 )
 
@@ -428,21 +428,13 @@ func stageOf(rec *sequencer.Record, names ...string) stage {
 	if len(names) == 0 {
 		return stageOther
 	}
-	all := func(s sequencer.Stage) bool {
-		for _, n := range names {
-			if rec.ResultStage(n) != s {
-				return false
-			}
+	first := rec.ResultStage(names[0])
+	for _, n := range names[1:] {
+		if rec.ResultStage(n) != first {
+			return stageOther
 		}
-		return true
 	}
-	switch {
-	case all(sequencer.AsFound):
-		return stageFound
-	case all(sequencer.AsLeft):
-		return stageLeft
-	}
-	return stageOther
+	return certStage(first)
 }
 
 // outcomeStage is the stage of the results a limit judges.

@@ -13,6 +13,54 @@ import (
 	"trimline/sequencer"
 )
 
+// subtitle says what the run did, from the record: the trim DACs it wrote and the
+// sweeps that verified the trim: "End-of-line trim of gain and offset, verified by
+// a second sweep". DACs named for what they adjust (gain, offset) read as that;
+// others by name: "End-of-line trim by the coarse DAC, verified by 2 further sweeps".
+func (d *doc) subtitle() string {
+	var names []string
+	quantities := true
+	for _, t := range d.rec.Trims {
+		names = append(names, t.DAC)
+		quantities = quantities && (t.DAC == sequencer.AdjustGain || t.DAC == sequencer.AdjustOffset)
+	}
+	sub := "End-of-line test"
+	switch {
+	case len(names) > 0 && quantities:
+		sub = "End-of-line trim of " + andList(names)
+	case len(names) > 0:
+		sub = "End-of-line trim by the " + andList(names) + " " + map[bool]string{true: "DAC", false: "DACs"}[len(names) == 1]
+	}
+	found, left := 0, 0
+	for _, sw := range d.rec.Sweeps {
+		switch certStage(sw.StageOf()) {
+		case stageFound:
+			found++
+		case stageLeft:
+			left++
+		}
+	}
+	switch {
+	case left == 1 && found > 0:
+		sub += ", verified by a second sweep"
+	case left == 1:
+		sub += ", verified by a sweep"
+	case left > 1 && found > 0:
+		sub += fmt.Sprintf(", verified by %d further sweeps", left)
+	case left > 1:
+		sub += fmt.Sprintf(", verified by %d sweeps", left)
+	}
+	return sub
+}
+
+// andList joins words as a sentence lists them: "a", "a and b", "a, b and c".
+func andList(words []string) string {
+	if len(words) < 2 {
+		return strings.Join(words, "")
+	}
+	return strings.Join(words[:len(words)-1], ", ") + " and " + words[len(words)-1]
+}
+
 // header is the title block of page 1.
 func (d *doc) header() {
 	top := d.Y
@@ -23,7 +71,7 @@ func (d *doc) header() {
 	title := "Trim and calibration certificate"
 	d.Cell(marginL, d.Y, 125, 8, title, pdfdoc.Bold.Sized(17), "L")
 	d.Y += 8.5
-	sub, subSt := "End-of-line trim of gain and offset, verified by a second sweep", stLabel
+	sub, subSt := d.subtitle(), stLabel
 	if !d.certified() {
 		sub = fmt.Sprintf("Not a certificate: the run did not complete (%s). Issued as a record only.", dash(string(d.rec.Verdict)))
 		subSt = pdfdoc.Bold.With(pdfdoc.Fail)

@@ -15,13 +15,15 @@ const (
 	markerSquare
 )
 
+// series is one sweep's plot: its title, its label in the legend, its sweep's
+// name, its points and how they are drawn.
 type series struct {
-	label   string
-	sweep   string
-	pts     []xy
-	color   pdfdoc.Color
-	marker  int
-	missing bool // the record has no sweep of this name
+	title  string
+	label  string
+	sweep  string
+	pts    []xy
+	color  pdfdoc.Color
+	marker int
 }
 
 // siScale picks a unit prefix for values up to maxAbs volts: the factor to divide
@@ -39,12 +41,9 @@ func siScale(maxAbs float64) (float64, string) {
 }
 
 // plot draws one error-versus-stimulus chart in the box (x, y, w, h).
-func (d *doc) plot(x, y, w, h float64, title string, s series) {
-	d.Cell(x, y, w, 4.5, title, pdfdoc.Bold.Sized(8.5), "L")
-	sub := "sweep “" + s.sweep + "”"
-	if !s.missing {
-		sub += ", " + plural(len(s.pts), "valid point", "valid points")
-	}
+func (d *doc) plot(x, y, w, h float64, s series) {
+	d.Cell(x, y, w, 4.5, s.title, pdfdoc.Bold.Sized(8.5), "L")
+	sub := "sweep “" + s.sweep + "”, " + plural(len(s.pts), "valid point", "valid points")
 	d.Cell(x, y, w, 4.5, sub, pdfdoc.Small, "R")
 
 	// Plot area.
@@ -57,9 +56,6 @@ func (d *doc) plot(x, y, w, h float64, title string, s series) {
 	if len(s.pts) == 0 {
 		msg := "no data"
 		detail := "the sweep has no valid points"
-		if s.missing {
-			detail = "the record has no sweep “" + s.sweep + "”"
-		}
 		d.Cell(px, py+ph/2-5, pw, 6, msg, pdfdoc.Bold.Sized(10).With(pdfdoc.Muted), "C")
 		d.Cell(px, py+ph/2+1, pw, 4, detail, pdfdoc.Small, "C")
 		return

@@ -64,15 +64,22 @@ func accepted(d *limits.Decision) bool {
 	return d.Zone == limits.ZonePass || d.Zone == limits.ZoneConditionalPass && !d.Binary
 }
 
-// stageTitle is the band title over the limits of a stage.
-func stageTitle(s stage) string {
+// stageTitle is the band title over the limits of a stage, naming the sweeps
+// the record holds of that stage: "As found: before adjustment (pre-trim sweep)".
+func (d *doc) stageTitle(s stage) string {
+	t := "Adjustment and other checks"
 	switch s {
 	case stageFound:
-		return "As found: before adjustment (pre-trim sweep)"
+		t = "As found: before adjustment"
 	case stageLeft:
-		return "As left: after adjustment (verify sweep)"
+		t = "As left: after adjustment"
+	default:
+		return t
 	}
-	return "Adjustment and other checks"
+	if names := d.sweepNames(s); names != "" {
+		t += " (" + names + ")"
+	}
+	return t
 }
 
 // result returns the record's result of that name.
@@ -179,7 +186,7 @@ func (d *doc) results() {
 	turLow, exprs := false, false
 	for _, o := range outs {
 		if st := outcomeStage(d.rec, o); st != last {
-			bands = append(bands, pdfdoc.Band{At: len(rows), Title: stageTitle(st)})
+			bands = append(bands, pdfdoc.Band{At: len(rows), Title: d.stageTitle(st)})
 			last = st
 		}
 		name := pdfdoc.Cell{{Text: o.Name, St: pdfdoc.Bold}}

@@ -8,15 +8,17 @@ import (
 )
 
 // build lays out every section in order. Page 1 holds what a reader of the
-// certificate needs (identification, conditions, verdict, results as found and as
-// left with their uncertainty, the decision rule, traceability, codes, files); the
-// measurement detail follows on the same page when it fits, else on the next.
+// certificate needs (identification, conditions, verdict, the steps not done,
+// results as found and as left with their uncertainty, the decision rule,
+// traceability, codes, files); the measurement detail follows on the same page
+// when it fits, else on the next.
 func (d *doc) build() {
 	d.newPage()
 	d.sealH = d.sealHeight()
 	d.header()
 	d.identification()
 	d.reasons()
+	d.steps()
 	d.results()
 	d.decisionRule()
 	d.instrumentsUsed()
