@@ -93,6 +93,10 @@ const timeLayout = "2006-01-02T15:04:05.000000000Z"
 // busyTimeout is how long a connection waits for another's lock before SQLITE_BUSY.
 const busyTimeout = 5 * time.Second
 
+// initRetryWindow is how long Open keeps trying while other processes hold the
+// file's lock to create or migrate it.
+const initRetryWindow = 30 * time.Second
+
 // Ledger is an open ledger file. Make one with Open. Its methods are safe for
 // concurrent use by several goroutines, and several processes (or several Ledgers in
 // one process) may have the same file open.
@@ -140,12 +144,14 @@ func Open(ctx context.Context, path string) (*Ledger, error) {
 }
 
 // initRetrying runs init, again and again while it fails with SQLITE_BUSY, for up to
-// the busy timeout. When several processes create a new file at the same moment, the
+// initRetryWindow. When several processes create a new file at the same moment, the
 // switch to WAL can fail with SQLITE_BUSY at once, without waiting in SQLite's busy
 // handler (SQLite does so when waiting could deadlock); a new attempt a moment later,
-// on a new connection, succeeds.
+// on a new connection, succeeds. The window is longer than one busy timeout because
+// a process that opens a ledger while others migrate it waits for every one of
+// their migrations in turn, which on a loaded machine can take more than 5 s.
 func (l *Ledger) initRetrying(ctx context.Context) error {
-	deadline := time.Now().Add(busyTimeout)
+	deadline := time.Now().Add(initRetryWindow)
 	wait := 2 * time.Millisecond
 	for {
 		err := l.init(ctx)
