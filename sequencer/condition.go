@@ -7,6 +7,7 @@ import (
 	"strings"
 
 	"github.com/expr-lang/expr"
+	"github.com/expr-lang/expr/ast"
 	"github.com/expr-lang/expr/vm"
 )
 
@@ -40,12 +41,25 @@ func compileCondition(text string, scope []ResultDef) (*condition, error) {
 		return nil, fmt.Errorf("skip_if %q: %s (%s)", text, msg, known)
 	}
 	c := &condition{prog: prog}
-	for _, n := range names {
-		if strings.Contains(text, n) {
-			c.uses = append(c.uses, n)
+	root := prog.Node()
+	seen := map[string]bool{}
+	ast.Walk(&root, identifiers(func(name string) {
+		if _, ok := env[name]; ok && !seen[name] {
+			seen[name] = true
+			c.uses = append(c.uses, name)
 		}
-	}
+	}))
 	return c, nil
+}
+
+// identifiers calls its function with the name of every identifier of an
+// expression: the results a condition reads.
+type identifiers func(name string)
+
+func (f identifiers) Visit(n *ast.Node) {
+	if id, ok := (*n).(*ast.IdentifierNode); ok {
+		f(id.Value)
+	}
 }
 
 func compileExpr(text string, opts ...expr.Option) (p *vm.Program, err error) {

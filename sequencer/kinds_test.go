@@ -775,3 +775,4 @@ func TestRetestSeesStoredCodes(t *testing.T) {
 		}
 	}
 }
+
