@@ -161,7 +161,7 @@ func TestReadmeSequenceExamplesLoad(t *testing.T) {
 }
 
 // testKinds are step kinds registered by this package's tests, not by the engine.
-var testKinds = []string{"port_reading"} // example_kind_test.go, shown in DEVELOPERS.md
+var testKinds = []string{"port_reading", "zero_check_test"} // example_kind_test.go (shown in DEVELOPERS.md), unit_io_test.go
 
 // DEVELOPERS.md's example step kind is the code the tests compile and run: its
 // two go blocks are example_kind_test.go and example_kind_run_test.go.

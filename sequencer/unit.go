@@ -6,6 +6,7 @@ import (
 	"context"
 	"fmt"
 	"math"
+	"time"
 
 	"github.com/rs/zerolog"
 
@@ -143,6 +144,58 @@ func (u *Unit) Do(ctx context.Context, f func(ctx context.Context) error) error 
 	}
 	return u.e.step(ctx, f)
 }
+
+// Level programs the source bound to role to volts, after the fixture interlock
+// and the station's cap are checked once more (a level beyond the cap stops the
+// run as a station fault, ErrSafety). The output is not switched; every source's
+// output is switched off and its level set to 0 when the run ends, whatever
+// happens. Call it inside Do. A step that calls it must list the level in its
+// Stimuli, so that the caps are checked at load too.
+func (u *Unit) Level(ctx context.Context, role string, volts float64) error {
+	if _, ok := u.e.sources[role]; !ok {
+		return fmt.Errorf("%s is not a voltage source", role)
+	}
+	if err := u.e.checkInterlock(ctx); err != nil {
+		return err
+	}
+	return u.e.setLevel(ctx, role, volts)
+}
+
+// Output switches the output of the source bound to role on or off; on checks
+// the fixture interlock first. Call it inside Do.
+func (u *Unit) Output(ctx context.Context, role string, on bool) error {
+	src, ok := u.e.sources[role]
+	if !ok {
+		return fmt.Errorf("%s is not a voltage source", role)
+	}
+	if on {
+		if err := u.e.checkInterlock(ctx); err != nil {
+			return err
+		}
+	}
+	return src.SetOutput(ctx, on)
+}
+
+// Read takes n readings in a row from the meter bound to role, set to p (its
+// range and integration time; the sequence's meter: settings when p is zero).
+// Call it inside Do.
+func (u *Unit) Read(ctx context.Context, role string, n int, p MeterPlan) ([]instruments.Reading, error) {
+	m, ok := u.e.meters[role]
+	if !ok {
+		return nil, fmt.Errorf("%s is not a meter", role)
+	}
+	if p == (MeterPlan{}) {
+		p = u.seq.Meter
+	}
+	if err := u.e.configureMeter(ctx, role, p); err != nil {
+		return nil, err
+	}
+	return m.Read(ctx, n)
+}
+
+// Wait waits d on the bench's clock (the simulated bench's own clock on the
+// simulator), or until ctx ends.
+func (u *Unit) Wait(ctx context.Context, d time.Duration) error { return u.e.clock.Sleep(ctx, d) }
 
 // Port returns the DUT port bound to role.
 func (u *Unit) Port(role string) (instruments.TrimPort, error) {
