@@ -298,6 +298,7 @@ func (s *storeStep) Check(c *Checker) {
 	}
 	s.Port = orDefault(s.Port, RoleDUT)
 	c.Use(s.Port, DUTPort)
+	c.SetStage(Adjustment) // committing the codes is part of the adjustment
 }
 
 func (s *storeStep) Run(ctx context.Context, u *Unit) error {
