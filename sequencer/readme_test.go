@@ -181,3 +181,39 @@ func TestDevelopersStepKindExample(t *testing.T) {
 		}
 	}
 }
+
+// The short demo sequence in README's "The three files" is the demo's file written
+// compactly: it loads and declares the same steps and results.
+func TestReadmeShortDemoIsTheDemo(t *testing.T) {
+	var short string
+	for _, b := range fencedBlocks(t, "README.md", "## The three files", "yaml") {
+		if strings.Contains(b.text, "\nsteps:\n") {
+			short = b.text
+		}
+	}
+	if short == "" {
+		t.Fatal("no sequence file with steps: under The three files")
+	}
+	got, err := sequencer.ParseSequence("brx200-sequence.yaml", []byte(short), demoReader(t, nil))
+	if err != nil {
+		t.Fatal(err)
+	}
+	_, want := demoFiles(t, nil)
+	summary := func(s *sequencer.Sequence) string {
+		var b strings.Builder
+		for _, d := range s.Steps {
+			b.WriteString(d.Name + "/" + d.Kind + "/" + d.Stage.String() + ":")
+			for _, r := range d.Results {
+				b.WriteString(" " + r.Name)
+			}
+			b.WriteString("\n")
+		}
+		for _, d := range s.DACs {
+			b.WriteString(strings.Join([]string{d.Name, d.Adjusts, d.Write, d.Read}, " ") + "\n")
+		}
+		return b.String()
+	}
+	if g, w := summary(got), summary(want); g != w {
+		t.Errorf("README's short demo:\n%s\nthe demo file:\n%s", g, w)
+	}
+}
