@@ -184,6 +184,14 @@ func setupWith(t testing.TB, scheme string, set map[string]map[string]string, li
 
 // ideal makes every instrument error and noise zero, so outcomes are exactly
 // predictable from the DUT model.
+// onIdealBench gives every instrument of st the ideal bench's settings.
+func onIdealBench(st *sequencer.Station) {
+	for role, in := range st.Instruments {
+		in.Settings = ideal(nil)[role]
+		st.Instruments[role] = in
+	}
+}
+
 func ideal(dut map[string]string) map[string]map[string]string {
 	d := map[string]string{"noise": "0 V", "crossover_step": "0 V", "dnl": "0", "defect": "none", "open_loop_gain": "0"}
 	for k, v := range dut {

@@ -61,10 +61,7 @@ func TestSweepAtTheCapRuns(t *testing.T) {
 	if err := sequencer.CheckCaps(st, seq); err != nil {
 		t.Fatalf("a sweep ending at the cap is refused: %v", err)
 	}
-	for role, in := range st.Instruments {
-		in.Settings = ideal(nil)[role]
-		st.Instruments[role] = in
-	}
+	onIdealBench(st)
 	e, err := sequencer.Open(context.Background(), sequencer.Config{Station: st, Sequence: seq, Operator: "test", Software: "test"})
 	if err != nil {
 		t.Fatal(err)

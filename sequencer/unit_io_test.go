@@ -70,10 +70,7 @@ func TestKindMeasuresThroughTheUnit(t *testing.T) {
 		t.Fatal(err)
 	}
 	st, _ := demoFiles(t, nil)
-	for role, in := range st.Instruments {
-		in.Settings = ideal(nil)[role]
-		st.Instruments[role] = in
-	}
+	onIdealBench(st)
 	e, err := sequencer.Open(context.Background(), sequencer.Config{Station: st, Sequence: seq, Operator: "test", Software: "test"})
 	if err != nil {
 		t.Fatal(err)
