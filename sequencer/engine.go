@@ -76,6 +76,9 @@ func Open(ctx context.Context, cfg Config) (*Engine, error) {
 	if err := CheckCaps(st, seq); err != nil {
 		return nil, err
 	}
+	if err := CheckTiming(st, seq); err != nil {
+		return nil, err
+	}
 	checks, err := CheckTUR(st, seq)
 	if err != nil {
 		return nil, err

@@ -127,6 +127,9 @@ otherwise.`,
 				if err := sequencer.CheckCaps(st, s); err != nil {
 					other = append(other, err)
 				}
+				if err := sequencer.CheckTiming(st, s); err != nil {
+					other = append(other, err)
+				}
 				checks, err := sequencer.CheckTUR(st, s)
 				if err != nil {
 					other = append(other, err)

@@ -88,6 +88,7 @@ func TestExitCode(t *testing.T) {
 		{badInput(errors.New("no such file")), exitUsage},
 		{&release.NotReleasedError{}, exitUsage},
 		{fmt.Errorf("open: %w", sequencer.ErrSafety), exitUsage},
+		{fmt.Errorf("open: %w", sequencer.ErrStepTiming), exitUsage},
 		{fmt.Errorf("f.csv: %w", fit.ErrTooFewPoints), exitUsage},
 		{errors.New("meter timeout"), exitStation},
 	} {

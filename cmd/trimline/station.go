@@ -65,6 +65,9 @@ func loadFiles(ctx context.Context, stationPath, sequencePath string) (*sequence
 	if err := sequencer.CheckCaps(st, seq); err != nil {
 		return nil, nil, badInput(err)
 	}
+	if err := sequencer.CheckTiming(st, seq); err != nil {
+		return nil, nil, badInput(err)
+	}
 	return st, seq, nil
 }
 

@@ -1,0 +1,50 @@
+package sequencer
+
+// The station's step deadline against the steps' own durations.
+
+import (
+	"errors"
+	"fmt"
+	"strings"
+	"time"
+)
+
+// ErrStepTiming is wrapped when a step of the sequence cannot finish one engine
+// step within the station's step_deadline: every unit would fault there. It is a
+// misfit of the two files, not a safety matter.
+var ErrStepTiming = errors.New("step longer than the station's step deadline")
+
+// Timed is a step whose engine steps take a known least time: Least is the
+// shortest time one of them can take (a sweep point: its settle plus its readings
+// at the meter's integration time), for the check against step_deadline.
+type Timed interface {
+	Least() time.Duration
+}
+
+// Least is one sweep point's shortest time: the settle and the readings at the
+// sweep's integration time on the slower, 50 Hz, line.
+func (s *sweepStep) Least() time.Duration {
+	return s.Plan.Settle + time.Duration(s.Plan.Readings)*time.Duration(s.Plan.MeterSet.NPLC/50*float64(time.Second))
+}
+
+// CheckTiming reports, in an error wrapping ErrStepTiming, every step whose engine
+// step takes at least the station's step_deadline, so that the files are refused
+// at load (trimline check, and when an Engine opens) instead of faulting every
+// unit. With no step deadline it reports nothing.
+func CheckTiming(st *Station, seq *Sequence) error {
+	d := st.StepDeadline
+	if d <= 0 {
+		return nil
+	}
+	var errs []string
+	for _, s := range seq.Steps {
+		if t, ok := s.Step.(Timed); ok && t.Least() >= d {
+			errs = append(errs, fmt.Sprintf("%s: step %q needs at least %s for one point, which the station's step_deadline of %s (%s) cuts short: shorten its settle or readings, lower nplc, or raise step_deadline",
+				s.Where, s.Name, t.Least().Round(time.Millisecond), d, st.File.Name))
+		}
+	}
+	if len(errs) > 0 {
+		return fmt.Errorf("%w: %s", ErrStepTiming, strings.Join(errs, "; "))
+	}
+	return nil
+}
