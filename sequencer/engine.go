@@ -57,7 +57,6 @@ type Engine struct {
 	meterAt map[string]MeterPlan // how each meter is configured now
 	clock   instruments.Clock
 	refs    []InstrumentRef
-	log     zerolog.Logger // the current run's logger
 	closed  bool
 
 	// watchdogs are the sources' output watchdogs (those that have one): armed
@@ -222,7 +221,7 @@ func (e *Engine) Close() error {
 		return nil
 	}
 	e.closed = true
-	first := e.safeOff()
+	first := e.safeOff(e.cfg.Log)
 	for _, r := range e.roles {
 		if in, ok := e.all[r]; ok {
 			if err := in.Close(); err != nil && first == nil {
@@ -237,9 +236,11 @@ func (e *Engine) Close() error {
 type stop struct {
 	verdict Verdict
 	msg     string
+	cause   error // a sentinel the stop is an instance of (ErrSafety), or nil
 }
 
 func (s *stop) Error() string { return s.msg }
+func (s *stop) Unwrap() error { return s.cause }
 
 // Run trims one serial number and returns its record. Run never returns a nil
 // record: a station fault, a cancelled context or a panic are recorded in it with
@@ -261,7 +262,6 @@ func (e *Engine) Run(ctx context.Context, serial string) (rec *Record) {
 		rec.RunID = newID(now)
 	}
 	log := e.cfg.Log.With().Str("serial", serial).Str("run", rec.RunID).Logger()
-	e.log = log
 	u := newUnit(e.cfg, rec, live)
 	u.e, u.log = e, log
 	defer func() {
@@ -269,7 +269,7 @@ func (e *Engine) Run(ctx context.Context, serial string) (rec *Record) {
 			log.Error().Str("stack", string(debug.Stack())).Msgf("panic: %v", p)
 			rec.Verdict, rec.Fault = Fault, fmt.Sprintf("internal error: %v", p)
 		}
-		if err := e.safeOff(); err == nil {
+		if err := e.safeOff(log); err == nil {
 			log.Debug().Msg("source output off, level 0")
 		} else {
 			log.Error().Err(err).Msg("could not switch the source output off")
@@ -308,7 +308,7 @@ func (e *Engine) run(ctx context.Context, u *Unit) error {
 	for _, r := range seq.Requires {
 		si := e.cfg.Station.Instruments[r]
 		if !si.CalDue.IsZero() && rec.Started.After(si.CalDue.AddDate(0, 0, 1)) {
-			return &stop{Fault, fmt.Sprintf("%s %s: calibration expired on %s; recalibrate it or fix cal_due in %s",
+			return &stop{verdict: Fault, msg: fmt.Sprintf("%s %s: calibration expired on %s; recalibrate it or fix cal_due in %s",
 				r, si.Asset, si.CalDue.Format("2006-01-02"), e.cfg.Station.File.Name)}
 		}
 	}
@@ -339,7 +339,10 @@ func runSteps(ctx context.Context, u *Unit) error {
 		switch {
 		case u.ended:
 			sr.Status, sr.Note = StepNotReached, u.endNote
-		case d.skip != nil:
+		case d.skip != nil && u.mode != predicting:
+			// On paper every result is ideal and any "skip when already good"
+			// would hold; the prediction bounds what any unit may need, so it
+			// runs every step.
 			skip, note, err := d.skip.eval(u)
 			if err != nil {
 				return fmt.Errorf("step %q: skip_if: %w", d.Name, err)

@@ -467,11 +467,12 @@ func TestInterlockOpenStopsTheRun(t *testing.T) {
 }
 
 func TestStepDeadline(t *testing.T) {
-	// A step that takes longer than the station's step deadline is a fault. The
-	// simulated clock makes the 20 ms settle "take" 20 ms; a 5 ms deadline on the real
-	// clock cannot be overrun by simulated time, so use latency on the real clock.
-	e := setupWith(t, "sim", map[string]map[string]string{"meter": {"time": "real", "latency": "50ms"}}, "", func(st *sequencer.Station) {
-		st.StepDeadline = 20 * time.Millisecond
+	// A step that takes longer than the station's step deadline is a fault. A sweep
+	// point needs at least 180 ms (20 ms settle + 8 readings at 1 PLC), which a
+	// 200 ms deadline allows at load (CheckTiming); the meter's real-clock latency
+	// of 300 ms then overruns it.
+	e := setupWith(t, "sim", map[string]map[string]string{"meter": {"time": "real", "latency": "300ms"}}, "", func(st *sequencer.Station) {
+		st.StepDeadline = 200 * time.Millisecond
 	})
 	rec := e.Run(context.Background(), "BRX-00013")
 	if rec.Verdict != sequencer.Fault || !strings.Contains(rec.Fault, "step deadline") {

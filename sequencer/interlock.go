@@ -25,7 +25,7 @@ func (e *Engine) checkInterlock(ctx context.Context) error {
 		return fmt.Errorf("interlock: %s %q: %w", il.Role, il.Query, err)
 	}
 	if strings.TrimSpace(got) != il.Closed {
-		return &stop{Fault, fmt.Sprintf("interlock open: %s answered %q to %q, expected %q; close the fixture lid", il.Role, strings.TrimSpace(got), il.Query, il.Closed)}
+		return &stop{verdict: Fault, msg: fmt.Sprintf("interlock open: %s answered %q to %q, expected %q; close the fixture lid", il.Role, strings.TrimSpace(got), il.Query, il.Closed)}
 	}
 	return nil
 }

@@ -9,9 +9,12 @@ import (
 	"fmt"
 	"math"
 	"strings"
+	"sync"
 	"time"
 
 	"trimline/instruments"
+
+	"github.com/rs/zerolog"
 )
 
 // ErrSafety is wrapped by every refusal to program the source outside the
@@ -77,7 +80,7 @@ func withinCap(volts, capVolts float64) bool {
 // setLevel programs the source of role after checking the station cap once more.
 func (e *Engine) setLevel(ctx context.Context, role string, volts float64) error {
 	if !withinCap(volts, e.cfg.Station.MaxSourceVolts) {
-		return &stop{Fault, fmt.Sprintf("%v: refusing to program %s, above the station cap of %s", ErrSafety, fmtV(volts), fmtV(e.cfg.Station.MaxSourceVolts))}
+		return &stop{verdict: Fault, msg: fmt.Sprintf("%v: refusing to program %s, above the station cap of %s", ErrSafety, fmtV(volts), fmtV(e.cfg.Station.MaxSourceVolts)), cause: ErrSafety}
 	}
 	if err := e.sources[role].SetLevel(ctx, volts); err != nil {
 		return fmt.Errorf("%s: set level %s: %w", role, fmtV(volts), err)
@@ -108,35 +111,47 @@ func (e *Engine) safeState(ctx context.Context, src instruments.Source) error {
 	return nil
 }
 
-// safeOff switches every source's output off with a context of its own, so it
-// works after the run's context was cancelled, then disarms the output watchdogs.
-// Only the switch-off and the level count: a watchdog that cannot be disarmed
-// runs out with the output already off, which is logged, not a fault. Every
-// source is tried even when an earlier one fails; the first error is returned.
-func (e *Engine) safeOff() error {
-	ctx, cancel := context.WithTimeout(context.Background(), 2*time.Second)
-	defer cancel()
-	var first error
+// safeOff switches every source's output off, then programs its level to 0 and
+// disarms its output watchdog. Each source gets a context of its own, so it works
+// after the run's context was cancelled, and the sources are switched in parallel,
+// so one that hangs (a link that stopped answering) cannot use up another's time.
+// Only the switch-off and the level count: a watchdog that cannot be disarmed runs
+// out with the output already off, which is logged, not a fault. The first error,
+// in role order, is returned.
+func (e *Engine) safeOff(log zerolog.Logger) error {
+	var roles []string
 	for _, r := range e.roles {
-		src, ok := e.sources[r]
-		if !ok {
-			continue
-		}
-		err := src.SetOutput(ctx, false)
-		if err2 := src.SetLevel(ctx, 0); err == nil {
-			err = err2
-		}
-		if w, ok := src.(instruments.OutputWatchdog); ok && err == nil {
-			if werr := w.DisarmWatchdog(ctx); werr != nil {
-				e.log.Error().Err(werr).Str("role", r).Msg("output off, but the output watchdog could not be disarmed")
-			}
-		}
-		if err != nil && first == nil {
-			first = fmt.Errorf("%s: %w", r, err)
-			if len(e.sources) == 1 {
-				first = err
-			}
+		if _, ok := e.sources[r]; ok {
+			roles = append(roles, r)
 		}
 	}
-	return first
+	errs := make([]error, len(roles))
+	var wg sync.WaitGroup
+	for i, r := range roles {
+		wg.Go(func() {
+			src := e.sources[r]
+			ctx, cancel := context.WithTimeout(context.Background(), 2*time.Second)
+			defer cancel()
+			err := src.SetOutput(ctx, false)
+			if err2 := src.SetLevel(ctx, 0); err == nil {
+				err = err2
+			}
+			if w, ok := src.(instruments.OutputWatchdog); ok && err == nil {
+				if werr := w.DisarmWatchdog(ctx); werr != nil {
+					log.Error().Err(werr).Str("role", r).Msg("output off, but the output watchdog could not be disarmed")
+				}
+			}
+			if err != nil && len(roles) > 1 {
+				err = fmt.Errorf("%s: %w", r, err)
+			}
+			errs[i] = err
+		})
+	}
+	wg.Wait()
+	for _, err := range errs {
+		if err != nil {
+			return err
+		}
+	}
+	return nil
 }

@@ -291,6 +291,7 @@ func parseSequence(name string, data []byte, read func(path string) ([]byte, err
 		paths = stepList(doc, s, &errs, &decodeErrs)
 	}
 	checkSteps(doc, s, paths, &errs)
+	runBounds(doc, s, &errs)
 	requires(doc, s, f.Requires, &errs)
 	if f.Ideal.FullScale != nil {
 		s.FullScale = float64(*f.Ideal.FullScale)
@@ -386,6 +387,31 @@ func stepList(doc *files.Doc, s *Sequence, errs, decodeErrs *files.List) []strin
 		paths = append(paths, path)
 	}
 	return paths
+}
+
+// runBounds refuses a sequence whose steps together would make a run that never
+// ends, though each is within its own bounds: too many steps, too long an estimated
+// run, too many readings for one record.
+func runBounds(doc *files.Doc, s *Sequence, errs *files.List) {
+	if n := len(s.Steps); n > MaxSteps {
+		*errs = append(*errs, doc.Errorf("$.steps", "expected at most %d steps, found %d", MaxSteps, n))
+		return
+	}
+	var total time.Duration
+	readings := 0
+	for _, d := range s.Steps {
+		if t, ok := d.Step.(Timed); ok {
+			dt, n := t.Budget()
+			total += dt
+			readings += n
+		}
+	}
+	if total > MaxRunTime {
+		*errs = append(*errs, doc.Errorf("$.steps", "expected a run of at most %s: the steps' estimated time adds up to %s", MaxRunTime, total.Round(time.Minute)))
+	}
+	if readings > MaxRunReadings {
+		*errs = append(*errs, doc.Errorf("$.steps", "expected at most %d meter readings in a run (the record keeps every one): the steps take %d", MaxRunReadings, readings))
+	}
 }
 
 // MaxStepName is the longest step name.
@@ -508,6 +534,12 @@ const (
 	// §7.2.1 suggests 10⁶ for a 95 % interval good to two significant digits.
 	MinMCTrials = 1000
 	MaxMCTrials = 1_000_000
+	// MaxSteps is the most steps of a sequence.
+	MaxSteps = 200
+	// MaxRunTime bounds the estimated time of all a sequence's steps together.
+	MaxRunTime = 4 * time.Hour
+	// MaxRunReadings bounds the meter readings of one run: about 40 MB of record.
+	MaxRunReadings = 400_000
 	// MaxDACBits is the widest trim DAC.
 	MaxDACBits = 24
 )

@@ -78,16 +78,22 @@ func (f *fitStep) Check(c *Checker) {
 		} else {
 			f.lo, f.hi = min(float64(*w.From), float64(*w.To)), max(float64(*w.From), float64(*w.To))
 		}
-		if f.sweep != nil && w.From != nil && w.To != nil {
-			n := 0
-			for _, x := range f.sweep.Plan.Levels() {
-				if x >= f.lo && x <= f.hi {
-					n++
-				}
+	}
+	if f.sweep != nil && f.Order >= 1 && f.Order <= 2 {
+		// A curve through as many distinct levels as it has coefficients fits them
+		// exactly: its residuals, nonlinearity and lack of fit would mean nothing.
+		distinct := map[float64]bool{}
+		for _, x := range f.sweep.Plan.Levels() {
+			if x >= f.lo && x <= f.hi {
+				distinct[x] = true
 			}
-			if n < f.Order+2 {
-				c.Errorf("window", "the window holds %d of the sweep's levels: an order-%d fit needs at least %d to leave a residual", n, f.Order, f.Order+2)
+		}
+		if n := len(distinct); n < f.Order+2 {
+			key, where := "order", "the sweep has"
+			if f.Window != nil {
+				key, where = "window", "the window holds"
 			}
+			c.Errorf(key, "%s %d distinct levels: an order-%d fit needs at least %d to leave a residual to judge", where, n, f.Order, f.Order+2)
 		}
 	}
 	if len(f.Results) == 0 {

@@ -269,7 +269,7 @@ func (e *Engine) sweep(ctx context.Context, u *Unit, name string, p SweepPlan) (
 			// wiring, a failing meter), not a measurement of the unit.
 			for j, r := range rs {
 				if !r.Valid() {
-					return &stop{Fault, fmt.Sprintf("%s sweep at %s: meter reported %s (reading %d of %d): check the meter range and the wiring",
+					return &stop{verdict: Fault, msg: fmt.Sprintf("%s sweep at %s: meter reported %s (reading %d of %d): check the meter range and the wiring",
 						name, fmtV(x), firstBad(rs[j:j+1]), j+1, len(rs))}
 				}
 			}

@@ -333,7 +333,7 @@ func (e *Engine) writeCode(ctx context.Context, d DAC, code int) error {
 			return err
 		}
 		if got != code {
-			return &stop{Fault, fmt.Sprintf("%s: %s trim read back %d after writing %d", d.Port, d.Name, got, code)}
+			return &stop{verdict: Fault, msg: fmt.Sprintf("%s: %s trim read back %d after writing %d", d.Port, d.Name, got, code)}
 		}
 		return nil
 	})
@@ -348,7 +348,7 @@ func (e *Engine) readCode(ctx context.Context, d DAC) (int, error) {
 	}
 	c, err := d.ParseWord(reply)
 	if err != nil {
-		return 0, &stop{Fault, fmt.Sprintf("%s: %s trim read-back %q is not a code", d.Port, d.Name, reply)}
+		return 0, &stop{verdict: Fault, msg: fmt.Sprintf("%s: %s trim read-back %q is not a code", d.Port, d.Name, reply)}
 	}
 	return c, nil
 }

@@ -14,11 +14,18 @@ import (
 // misfit of the two files, not a safety matter.
 var ErrStepTiming = errors.New("step longer than the station's step deadline")
 
-// Timed is a step whose engine steps take a known least time: Least is the
-// shortest time one of them can take (a sweep point: its settle plus its readings
-// at the meter's integration time), for the check against step_deadline.
+// Timed is a step whose duration is known at load: Least is the shortest time one
+// of its engine steps can take (a sweep point: its settle plus its readings at the
+// meter's integration time), for the check against step_deadline; Budget is the
+// whole step's estimated time and meter readings, for the sequence's bounds.
 type Timed interface {
 	Least() time.Duration
+	Budget() (d time.Duration, readings int)
+}
+
+// Budget is the sweep's estimated time and its readings.
+func (s *sweepStep) Budget() (time.Duration, int) {
+	return sweepTime(s.Plan, s.Plan.MeterSet.NPLC), s.Plan.Points * s.Plan.Readings
 }
 
 // Least is one sweep point's shortest time: the settle and the readings at the

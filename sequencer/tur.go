@@ -22,7 +22,8 @@ var ErrTUR = errors.New("test uncertainty ratio below the limit file's minimum")
 //
 // It runs the sequence's steps on paper: every sweep sees a unit with exactly the
 // ideal transfer and no noise, every fit and trim computes as on the bench, and
-// the results' uncertainties are returned by name.
+// the results' uncertainties are returned by name. skip_if is not applied: the
+// prediction covers every step a unit may go through.
 func PredictUncertainty(st *Station, seq *Sequence) map[string]limits.Value {
 	rec := &Record{Serial: "predict", RunID: "predict"}
 	u := newUnit(Config{Station: st, Sequence: seq}, rec, predicting)

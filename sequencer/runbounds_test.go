@@ -1,0 +1,60 @@
+package sequencer_test
+
+import (
+	"strings"
+	"testing"
+
+	"trimline/instruments/files"
+	"trimline/sequencer"
+)
+
+// Steps each within their own bounds cannot add up to a run that never ends: the
+// count of steps, the run's estimated time and its readings are bounded too,
+// reported at the steps list. Before, 1400 sweeps of 1000 points loaded (about
+// 1400 h and 140 million readings).
+func TestRunBounds(t *testing.T) {
+	demo := demoFile(t, "brx200-sequence.yaml")
+	for _, c := range []struct {
+		name, add, want string
+	}{
+		{"steps", strings.Repeat("  - {kind: sweep, from: -10 mV, to: 10 mV, points: 3, settle: 1 ms, readings: 1}\n", 201),
+			"expected at most 200 steps, found 209"},
+		{"time", strings.Repeat("  - {kind: sweep, from: -10 mV, to: 10 mV, points: 100, settle: 30 s, readings: 1}\n", 5),
+			"expected a run of at most 4h0m0s"},
+		{"readings", strings.Repeat("  - {kind: sweep, from: -10 mV, to: 10 mV, points: 1000, settle: 0 s, readings: 100}\n", 5),
+			"expected at most 400000 meter readings in a run"},
+	} {
+		_, err := sequencer.ParseSequence("brx200-sequence.yaml", []byte(demo+"\n"+c.add), demoReader(t, nil))
+		fe := files.Errs(err)
+		if len(fe) == 0 || !strings.Contains(err.Error(), c.want) || !strings.HasPrefix(fe[0].Error(), "brx200-sequence.yaml:") {
+			t.Errorf("%s: %v, want a positioned %q", c.name, err, c.want)
+		}
+	}
+}
+
+// An order-2 fit through as few distinct levels as it has coefficients would fit
+// them exactly and pass any nonlinearity limit: refused at load.
+func TestFitNeedsLevelsToSpare(t *testing.T) {
+	src := strings.NewReplacer(
+		"    points: 11\n    settle: 20 ms                # wait after every source step\n", "    points: 3\n    settle: 20 ms\n",
+		"    sweep: pre-trim\n", "    sweep: pre-trim\n    order: 2\n").Replace(demoFile(t, "brx200-sequence.yaml"))
+	_, err := sequencer.ParseSequence("brx200-sequence.yaml", []byte(src), demoReader(t, nil))
+	if err == nil || !strings.Contains(err.Error(), "the sweep has 3 distinct levels: an order-2 fit needs at least 4") {
+		t.Errorf("order 2 on 3 levels: %v", err)
+	}
+}
+
+// The TUR prediction runs every step, skip_if or not: on paper every result is
+// ideal, and a "skip when already good" would leave its limits without a TUR.
+func TestPredictionRunsSkippableSteps(t *testing.T) {
+	src := strings.Replace(demoFile(t, "brx200-sequence.yaml"), "  - kind: fit\n    name: verify fit\n",
+		"  - kind: fit\n    name: extra fit\n    sweep: verify\n    skip_if: abs(pre_offset) < 1\n    results: {offset: extra_offset}\n\n  - kind: fit\n    name: verify fit\n", 1)
+	seq, err := sequencer.ParseSequence("brx200-sequence.yaml", []byte(src), demoReader(t, nil))
+	if err != nil {
+		t.Fatal(err)
+	}
+	st, _ := demoFiles(t, nil)
+	if v, ok := sequencer.PredictUncertainty(st, seq)["extra_offset"]; !ok || !(v.U > 0) {
+		t.Errorf("extra_offset predicted %+v (%v), want a U", v, ok)
+	}
+}
