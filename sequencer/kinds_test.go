@@ -775,4 +775,3 @@ func TestRetestSeesStoredCodes(t *testing.T) {
 		}
 	}
 }
-
