@@ -262,7 +262,9 @@ func idealCodeU(t TrimPlan, a analysis, sol TrimSolution, before []int) []float6
 	slope := a.sum.Slope
 	gains, _ := t.byStep()
 	g0, g1 := 1.0, 1.0
+	coarser := make([]float64, len(t.DACs)) // the rounded factor of the gain DACs solved before each
 	for k, i := range gains {
+		coarser[i] = g1
 		if k == 0 {
 			g0, g1 = gainFactor(t.DACs[i], float64(before[i])), gainFactor(t.DACs[i], float64(sol.Codes[i].Code))
 		} else {
@@ -274,8 +276,10 @@ func idealCodeU(t TrimPlan, a analysis, sol TrimSolution, before []int) []float6
 	for i, d := range t.DACs {
 		switch {
 		case d.Adjusts == AdjustGain:
-			// ∂(gain code)/∂a = −G·g0/(a²·LSB); with G·g0/a ≈ 1 after trim: ≈ 1/(a·LSB).
-			out[i] = u1 * (slope * g1 / g0) / (slope * slope * d.LSB)
+			// code = N + (G·g0/(a·c) − 1)/LSB with c the coarser DACs' factor, so
+			// ∂code/∂a = −G·g0/(a²·c·LSB); G·g0/a is the factor the trim asks for,
+			// ≈ g1 after trim: |∂code/∂a| ≈ g1/(a·c·LSB).
+			out[i] = u1 * (slope * g1 / coarser[i]) / (slope * slope * d.LSB)
 		case d.BeforeGain:
 			out[i] = u0 / (g0 * (slope / g0) * d.LSB)
 		default:
