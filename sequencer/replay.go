@@ -7,8 +7,10 @@ import (
 	"math"
 )
 
-// ErrNotReplayable is returned for records with no complete measurement (FAULT,
-// ABORTED): there is nothing to recompute.
+// ErrNotReplayable is returned for records the station could not judge (FAULT,
+// ABORTED), and for schema-1 records without a sweep: there is nothing to
+// recompute. A schema-2 record judged before any sweep (a DUT reply that failed
+// the unit) replays: its steps say why it ended.
 var ErrNotReplayable = errors.New("record has no measurement to replay")
 
 // Replay recomputes a stored record from its raw readings with the files that were
@@ -18,7 +20,7 @@ var ErrNotReplayable = errors.New("record has no measurement to replay")
 // The returned record differs from the stored one only where this release computes
 // differently; Differences lists where.
 func Replay(cfg Config, stored *Record) (*Record, error) {
-	if stored.Verdict == Fault || stored.Verdict == Aborted || len(stored.Sweeps) == 0 {
+	if stored.Verdict == Fault || stored.Verdict == Aborted || len(stored.Sweeps) == 0 && stored.Schema < 2 {
 		return nil, fmt.Errorf("%s (%s): %w", stored.RunID, stored.Verdict, ErrNotReplayable)
 	}
 	seq := cfg.Sequence

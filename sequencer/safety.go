@@ -13,6 +13,7 @@ import (
 	"time"
 
 	"trimline/instruments"
+	"trimline/instruments/units"
 
 	"github.com/rs/zerolog"
 )
@@ -36,6 +37,15 @@ func CheckCaps(st *Station, seq *Sequence) error {
 	// message per step and cap.
 	said := map[string]bool{}
 	for _, x := range seq.Stimuli() {
+		if x.Dim != units.Volt {
+			// The station's caps are on voltage levels; a stimulus of another
+			// quantity has no cap here and is refused, not waved through.
+			if !said[x.Step+"/dim"] {
+				said[x.Step+"/dim"] = true
+				errs = append(errs, fmt.Sprintf("%s: step %q programs a %s on the %s: this release caps voltage levels only, so it cannot run it", x.Where, x.Step, x.Dim, x.Role))
+			}
+			continue
+		}
 		if r := st.SourceRating.Volts; r > 0 && !withinCap(x.Level, r) && !said[x.Step+"/rating"] {
 			said[x.Step+"/rating"] = true
 			errs = append(errs, fmt.Sprintf("%s: step %q reaches %s on the %s, outside the source's own rating of ±%s (%s safety.source_rating.voltage): this source cannot make it",

@@ -79,7 +79,7 @@ func (f *fitStep) Check(c *Checker) {
 			f.lo, f.hi = min(float64(*w.From), float64(*w.To)), max(float64(*w.From), float64(*w.To))
 		}
 	}
-	if f.sweep != nil && f.Order >= 1 && f.Order <= 2 {
+	if f.sweep != nil && f.Order >= 1 && f.Order <= 2 && f.sweep.Plan.Points >= MinPoints { // a sweep refused already is not counted again
 		// A curve through as many distinct levels as it has coefficients fits them
 		// exactly: its residuals, nonlinearity and lack of fit would mean nothing.
 		distinct := map[float64]bool{}

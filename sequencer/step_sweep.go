@@ -148,6 +148,7 @@ func (s *sweepStep) Check(c *Checker) {
 			c.Errorf("points", "expected at least %d points, found %d (a line through 2 points has no residual to judge)", MinPoints, s.Points)
 		} else if p.Points > MaxPoints {
 			c.Errorf("points", "expected at most %d points, found %d", MaxPoints, s.Points)
+			p.Points = 0 // refused: no later check may make its levels
 		}
 	}
 	if s.Settle == nil {

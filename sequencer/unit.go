@@ -11,6 +11,7 @@ import (
 	"github.com/rs/zerolog"
 
 	"trimline/instruments"
+	"trimline/instruments/units"
 	"trimline/sequencer/uncertainty"
 )
 
@@ -139,8 +140,8 @@ func (u *Unit) Unc(std, dof float64) Uncertainty {
 // Do runs f as one engine step under the station's step deadline (re-arming the
 // source's output watchdog first). Only live steps do I/O; Do refuses otherwise.
 func (u *Unit) Do(ctx context.Context, f func(ctx context.Context) error) error {
-	if u.e == nil {
-		return fmt.Errorf("step %q: instrument I/O outside a live run", u.step.Name)
+	if err := u.liveOnly(); err != nil {
+		return err
 	}
 	return u.e.step(ctx, f)
 }
@@ -152,8 +153,15 @@ func (u *Unit) Do(ctx context.Context, f func(ctx context.Context) error) error 
 // happens. Call it inside Do. A step that calls it must list the level in its
 // Stimuli, so that the caps are checked at load too.
 func (u *Unit) Level(ctx context.Context, role string, volts float64) error {
+	if err := u.liveOnly(); err != nil {
+		return err
+	}
 	if _, ok := u.e.sources[role]; !ok {
 		return fmt.Errorf("%s is not a voltage source", role)
+	}
+	if !u.declared(role, volts) {
+		return &stop{verdict: Fault, cause: ErrSafety, msg: fmt.Sprintf("%v: step %q programs %s on the %s, a level its Stimuli did not declare (so the caps were not checked on it at load)",
+			ErrSafety, u.step.Name, fmtV(volts), role)}
 	}
 	if err := u.e.checkInterlock(ctx); err != nil {
 		return err
@@ -161,9 +169,26 @@ func (u *Unit) Level(ctx context.Context, role string, volts float64) error {
 	return u.e.setLevel(ctx, role, volts)
 }
 
+// declared reports whether the running step lists volts on role in its Stimuli.
+func (u *Unit) declared(role string, volts float64) bool {
+	st, ok := u.step.Step.(Stimulator)
+	if !ok {
+		return false
+	}
+	for _, x := range st.Stimuli() {
+		if x.Role == role && x.Dim == units.Volt && x.Level == volts {
+			return true
+		}
+	}
+	return false
+}
+
 // Output switches the output of the source bound to role on or off; on checks
 // the fixture interlock first. Call it inside Do.
 func (u *Unit) Output(ctx context.Context, role string, on bool) error {
+	if err := u.liveOnly(); err != nil {
+		return err
+	}
 	src, ok := u.e.sources[role]
 	if !ok {
 		return fmt.Errorf("%s is not a voltage source", role)
@@ -180,6 +205,9 @@ func (u *Unit) Output(ctx context.Context, role string, on bool) error {
 // range and integration time; the sequence's meter: settings when p is zero).
 // Call it inside Do.
 func (u *Unit) Read(ctx context.Context, role string, n int, p MeterPlan) ([]instruments.Reading, error) {
+	if err := u.liveOnly(); err != nil {
+		return nil, err
+	}
 	m, ok := u.e.meters[role]
 	if !ok {
 		return nil, fmt.Errorf("%s is not a meter", role)
@@ -195,10 +223,27 @@ func (u *Unit) Read(ctx context.Context, role string, n int, p MeterPlan) ([]ins
 
 // Wait waits d on the bench's clock (the simulated bench's own clock on the
 // simulator), or until ctx ends.
-func (u *Unit) Wait(ctx context.Context, d time.Duration) error { return u.e.clock.Sleep(ctx, d) }
+func (u *Unit) Wait(ctx context.Context, d time.Duration) error {
+	if err := u.liveOnly(); err != nil {
+		return err
+	}
+	return u.e.clock.Sleep(ctx, d)
+}
+
+// liveOnly is the error of instrument I/O outside a live run (a step that forgot
+// its u.Live() test, replayed or predicted).
+func (u *Unit) liveOnly() error {
+	if u.e == nil {
+		return fmt.Errorf("step %q: instrument I/O outside a live run", u.step.Name)
+	}
+	return nil
+}
 
 // Port returns the DUT port bound to role.
 func (u *Unit) Port(role string) (instruments.TrimPort, error) {
+	if err := u.liveOnly(); err != nil {
+		return nil, err
+	}
 	p, ok := u.e.all[role].(instruments.TrimPort)
 	if !ok {
 		return nil, fmt.Errorf("%s is not a DUT port", role)

@@ -15,7 +15,8 @@ import (
 // one level on the source, reads the meter and records the output as a result,
 // through the Unit alone.
 type zeroCheck struct {
-	Level units.Voltage `yaml:"level"`
+	Level   units.Voltage  `yaml:"level"`
+	Program *units.Voltage `yaml:"program"` // test: program this instead of the declared level
 }
 
 func init() {
@@ -39,7 +40,11 @@ func (z *zeroCheck) Run(ctx context.Context, u *sequencer.Unit) error {
 		return nil
 	}
 	return u.Do(ctx, func(ctx context.Context) error {
-		if err := u.Level(ctx, sequencer.RoleSource, float64(z.Level)); err != nil {
+		level := float64(z.Level)
+		if z.Program != nil {
+			level = float64(*z.Program)
+		}
+		if err := u.Level(ctx, sequencer.RoleSource, level); err != nil {
 			return err
 		}
 		if err := u.Output(ctx, sequencer.RoleSource, true); err != nil {
@@ -94,5 +99,28 @@ func TestKindMeasuresThroughTheUnit(t *testing.T) {
 	}
 	if err := sequencer.CheckCaps(st, over); !errors.Is(err, sequencer.ErrSafety) || !strings.Contains(err.Error(), "zero_check_test") {
 		t.Errorf("CheckCaps = %v, want a safety error naming the step", err)
+	}
+}
+
+// A kind that programs a level it did not declare is stopped at the write, as a
+// safety fault, even when the level is under the cap: the caps were checked at load
+// on the declared levels only.
+func TestUndeclaredLevelIsRefused(t *testing.T) {
+	text := strings.Replace(demoFile(t, "brx200-sequence.yaml"), "\n  - kind: clear_trim",
+		"\n  - kind: zero_check_test\n    level: 0 V\n    program: 5 mV\n\n  - kind: clear_trim", 1)
+	seq, err := sequencer.ParseSequence("brx200-sequence.yaml", []byte(text), demoReader(t, nil))
+	if err != nil {
+		t.Fatal(err)
+	}
+	st, _ := demoFiles(t, nil)
+	onIdealBench(st)
+	e, err := sequencer.Open(context.Background(), sequencer.Config{Station: st, Sequence: seq, Operator: "test", Software: "test"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer e.Close()
+	rec := e.Run(context.Background(), "BRX-00012")
+	if rec.Verdict != sequencer.Fault || !strings.Contains(rec.Fault, "a level its Stimuli did not declare") {
+		t.Errorf("verdict %s, fault %q", rec.Verdict, rec.Fault)
 	}
 }
