@@ -120,6 +120,8 @@ func dacList(doc *files.Doc, ds []*dacDecl, errs *files.List) []DAC {
 		}
 		if d.Name == "" {
 			*errs = append(*errs, doc.Errorf(path, "missing required key \"name\""))
+		} else if !validName(d.Name) {
+			*errs = append(*errs, doc.Errorf(path+".name", "DAC name %q: expected letters, digits and _ beginning with a letter (its code's result is NAME_code)", d.Name))
 		} else if j, dup := seen[d.Name]; dup {
 			*errs = append(*errs, doc.Errorf(path+".name", "DAC name %q is already used by dacs[%d]", d.Name, j))
 		}

@@ -17,24 +17,25 @@ func decodeAll(doc *files.Doc, v any) files.List {
 }
 
 // withDecodeErrs returns the decoding problems dec and the loader's own problems,
-// leaving out those on a line a decoding problem already points at: a value that
-// did not decode is zero, and the loader's complaint about that zero would only
-// repeat it.
+// leaving out those at the very place (line and column) a decoding problem points
+// at: a value that did not decode is zero, and the loader's complaint about that
+// zero would only repeat it. Another problem on the same line (a flow mapping
+// holds a whole step) is kept.
 func withDecodeErrs(dec, own files.List) files.List {
 	if len(dec) == 0 {
 		return own
 	}
 	type at struct {
-		file string
-		line int
+		file      string
+		line, col int
 	}
 	bad := map[at]bool{}
 	for _, e := range dec {
-		bad[at{e.File, e.Line}] = true
+		bad[at{e.File, e.Line, e.Col}] = true
 	}
 	out := append(files.List(nil), dec...)
 	for _, e := range own {
-		if e.Line == 0 || !bad[at{e.File, e.Line}] {
+		if e.Line == 0 || !bad[at{e.File, e.Line, e.Col}] {
 			out = append(out, e)
 		}
 	}

@@ -58,3 +58,21 @@ func TestPredictionRunsSkippableSteps(t *testing.T) {
 		t.Errorf("extra_offset predicted %+v (%v), want a U", v, ok)
 	}
 }
+
+// A whole step written on one line reports each of its problems: a decoding
+// problem hides only the loader's complaint at its own place, not another on the
+// same line.
+func TestOneLineStepReportsEveryProblem(t *testing.T) {
+	src := strings.Replace(demoFile(t, "brx200-sequence.yaml"), "  - kind: store                  # commits both codes to non-volatile memory\n    command: \"NV STORE\"\n",
+		"  - {kind: store, comand: \"NV STORE\", port: Bad-Port}\n", 1)
+	_, err := sequencer.ParseSequence("brx200-sequence.yaml", []byte(src), demoReader(t, nil))
+	for _, want := range []string{`unknown field "comand"`, `missing required key "command"`, `role "Bad-Port": expected a name of lowercase letters`} {
+		if err == nil || !strings.Contains(err.Error(), want) {
+			t.Errorf("missing %q in:\n%v", want, err)
+		}
+	}
+	steps := strings.Replace(demoFile(t, "brx200-sequence.yaml"), "\nsteps:\n", "\nsteps: 3\nunused:\n", 1)
+	if _, err := sequencer.ParseSequence("brx200-sequence.yaml", []byte(steps), demoReader(t, nil)); err == nil || !strings.Contains(err.Error(), "expected a list of steps") {
+		t.Errorf("steps: 3 gives %v", err)
+	}
+}

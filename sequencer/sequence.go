@@ -358,7 +358,11 @@ func parseSequence(name string, data []byte, read func(path string) ([]byte, err
 func stepList(doc *files.Doc, s *Sequence, errs, decodeErrs *files.List) []string {
 	n := doc.Len("$.steps")
 	if n == 0 {
-		*errs = append(*errs, doc.Errorf("$.steps", "missing required key \"steps\": the list of steps the unit goes through (kinds: %s)", kindNamesText()))
+		if doc.Has("$.steps") {
+			*errs = append(*errs, doc.Errorf("$.steps", "expected a list of steps, each a mapping with kind: (one of %s)", kindNamesText()))
+		} else {
+			*errs = append(*errs, doc.Errorf("$.steps", "missing required key \"steps\": the list of steps the unit goes through (kinds: %s)", kindNamesText()))
+		}
 		return nil
 	}
 	var paths []string

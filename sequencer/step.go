@@ -221,8 +221,12 @@ func (c *Checker) Declare(key string, d ResultDef) {
 }
 
 // Use records that the step uses role, which must be bound to an instrument of
-// kind k.
+// kind k. A role that is no valid role name is reported at the step.
 func (c *Checker) Use(role string, k RoleKind) {
+	if !validRoleName(role) {
+		c.Errorf("", "role %q: expected a name of lowercase letters, digits and _ beginning with a letter, as the station file binds it", role)
+		return
+	}
 	for _, r := range c.decl.Roles {
 		if r.Role == role {
 			return

@@ -7,6 +7,7 @@ import (
 
 	"trimline/sequencer/uncertainty"
 )
+
 // ComputeTrim against the transfer model it documents, y = P + g·(core(x) + a·Din − P) + Dout,
 // over 2000 random units with coarse and fine DACs of both codings and both
 // placements, away from no correction before the sweep: the predicted transfer is
