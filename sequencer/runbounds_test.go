@@ -76,3 +76,15 @@ func TestOneLineStepReportsEveryProblem(t *testing.T) {
 		t.Errorf("steps: 3 gives %v", err)
 	}
 }
+
+// An anchor is refused at its place, instead of the whole file falling back to a
+// decoder that stops at its first problem (and reports keys that are there as
+// missing).
+func TestAnchorRefused(t *testing.T) {
+	src := strings.Replace(demoFile(t, "brx200-sequence.yaml"), "    bits: 12\n    lsb: 10 ppm\n", "    bits: &b 12\n    lsb: 10 ppm\n", 1)
+	_, err := sequencer.ParseSequence("brx200-sequence.yaml", []byte(src), demoReader(t, nil))
+	fe := files.Errs(err)
+	if len(fe) != 1 || !strings.Contains(fe[0].Msg, "anchors, aliases, merge keys and tags are not allowed") || fe[0].Line != lineOf(t, src, "&b 12") {
+		t.Errorf("got %v", err)
+	}
+}

@@ -217,6 +217,11 @@ func parseSequence(name string, data []byte, read func(path string) ([]byte, err
 	if err := wrongKind(doc, data, FileSequence); err != nil {
 		return nil, err
 	}
+	if line, col, shared := doc.Shared(); shared {
+		// One value standing in several places would be decoded by the YAML
+		// library alone, first problem only; a step list reads better written out.
+		return nil, files.List{doc.At(line, col, "anchors, aliases, merge keys and tags are not allowed in a sequence file: write each value where it is used")}
+	}
 	var f sequenceFile
 	decodeErrs := decodeAll(doc, &f)
 	var errs files.List

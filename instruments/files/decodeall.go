@@ -318,3 +318,24 @@ func (d *Doc) Len(path string) int {
 	}
 	return 0
 }
+
+// Shared returns the position of the first anchor, alias, merge key or tag of the
+// document (whose meaning spans more than one value), ok false when it has none.
+func (d *Doc) Shared() (line, col int, ok bool) {
+	if d.ast == nil {
+		return 0, 0, false
+	}
+	for _, doc := range d.ast.Docs {
+		ast.Walk(visitor(func(x ast.Node) bool {
+			switch x.(type) {
+			case *ast.AnchorNode, *ast.AliasNode, *ast.TagNode, *ast.MergeKeyNode:
+				if !ok {
+					line, col = tokPos(x.GetToken())
+					ok = true
+				}
+			}
+			return !ok
+		}), doc)
+	}
+	return line, col, ok
+}
