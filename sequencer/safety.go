@@ -136,28 +136,33 @@ func (e *Engine) safeOff(log zerolog.Logger) error {
 		}
 	}
 	errs := make([]error, len(roles))
-	var wg sync.WaitGroup
-	for i, r := range roles {
-		wg.Go(func() {
-			src := e.sources[r]
-			ctx, cancel := context.WithTimeout(context.Background(), 2*time.Second)
-			defer cancel()
-			err := src.SetOutput(ctx, false)
-			if err2 := src.SetLevel(ctx, 0); err == nil {
-				err = err2
+	off := func(i int, r string) {
+		src := e.sources[r]
+		ctx, cancel := context.WithTimeout(context.Background(), 2*time.Second)
+		defer cancel()
+		err := src.SetOutput(ctx, false)
+		if err2 := src.SetLevel(ctx, 0); err == nil {
+			err = err2
+		}
+		if w, ok := src.(instruments.OutputWatchdog); ok && err == nil {
+			if werr := w.DisarmWatchdog(ctx); werr != nil {
+				log.Error().Err(werr).Str("role", r).Msg("output off, but the output watchdog could not be disarmed")
 			}
-			if w, ok := src.(instruments.OutputWatchdog); ok && err == nil {
-				if werr := w.DisarmWatchdog(ctx); werr != nil {
-					log.Error().Err(werr).Str("role", r).Msg("output off, but the output watchdog could not be disarmed")
-				}
-			}
-			if err != nil && len(roles) > 1 {
-				err = fmt.Errorf("%s: %w", r, err)
-			}
-			errs[i] = err
-		})
+		}
+		if err != nil && len(roles) > 1 {
+			err = fmt.Errorf("%s: %w", r, err)
+		}
+		errs[i] = err
 	}
-	wg.Wait()
+	if len(roles) == 1 {
+		off(0, roles[0]) // one source: no other to wait for
+	} else {
+		var wg sync.WaitGroup
+		for i, r := range roles {
+			wg.Go(func() { off(i, r) })
+		}
+		wg.Wait()
+	}
 	for _, err := range errs {
 		if err != nil {
 			return err
