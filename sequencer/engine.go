@@ -147,7 +147,7 @@ func Open(ctx context.Context, cfg Config) (*Engine, error) {
 	now := e.clock.Now()
 	for _, r := range seq.Requires {
 		si := st.Instruments[r]
-		ref := InstrumentRef{Role: r, Address: si.Address, Asset: si.Asset, Accuracy: si.Accuracy.String(),
+		ref := InstrumentRef{Role: r, Kind: si.Kind, Address: si.Address, Asset: si.Asset, Accuracy: si.Accuracy.String(),
 			Identity: instruments.Identity{Maker: "0", Model: "0", Serial: "0", Firmware: "0"}}
 		if !si.CalDue.IsZero() {
 			ref.CalDue = si.CalDue.Format("2006-01-02")

@@ -135,12 +135,27 @@ type FileRef struct {
 // InstrumentRef is one instrument used, as the station file declares it and as it
 // identified itself.
 type InstrumentRef struct {
-	Role     string               `json:"role"`
+	Role string `json:"role"`
+	// Kind is what the role binds (VoltageSource, VoltMeter or DUTPort); empty
+	// in records made before roles had kinds, when the role's name said it: read
+	// it with RoleKind.
+	Kind     RoleKind             `json:"kind,omitempty"`
 	Address  string               `json:"address"`
 	Asset    string               `json:"asset"`
 	CalDue   string               `json:"cal_due"` // YYYY-MM-DD
 	Accuracy string               `json:"accuracy,omitempty"`
 	Identity instruments.Identity `json:"identity"`
+}
+
+// RoleKind is the kind of instrument r's role binds: r.Kind, or for a record
+// made before roles had kinds, the kind of the same name as the role (source,
+// meter, dut); "" when neither says.
+func (r InstrumentRef) RoleKind() RoleKind {
+	if r.Kind != "" {
+		return r.Kind
+	}
+	k, _ := defaultKind(r.Role)
+	return k
 }
 
 // Sweep is one pass across the stimulus range.
@@ -267,7 +282,7 @@ func FaultRecord(cfg Config, serial string, now time.Time, err error) *Record {
 		Conditions: cfg.Conditions, Engineering: cfg.Engineering, Verdict: Fault, Fault: "station could not start the unit: " + err.Error()}
 	for _, r := range seq.Requires {
 		si := st.Instruments[r]
-		ref := InstrumentRef{Role: r, Address: si.Address, Asset: si.Asset, Accuracy: si.Accuracy.String(),
+		ref := InstrumentRef{Role: r, Kind: si.Kind, Address: si.Address, Asset: si.Asset, Accuracy: si.Accuracy.String(),
 			Identity: instruments.Identity{Maker: "0", Model: "0", Serial: "0", Firmware: "0"}}
 		if !si.CalDue.IsZero() {
 			ref.CalDue = si.CalDue.Format("2006-01-02")

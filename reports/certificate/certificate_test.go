@@ -510,3 +510,27 @@ func TestWriteSamples(t *testing.T) {
 		}
 	}
 }
+
+// A station names its roles as it likes: the reference instruments are the roles
+// whose recorded kind is a source or a meter (input and dmm here), and a record
+// made before kinds were recorded is read by the role names source and meter.
+func TestTraceabilityByKind(t *testing.T) {
+	const statement = "The results are traceable to the SI through the reference instruments " +
+		"EQ-0142 (input, Fictive Metrology DCV-20 s/n FM20-55831, cal. due 2026-09-30) and " +
+		"EQ-0097 (dmm, Fictive Metrology DMM-75 s/n FM75-10292, cal. due 2026-06-15)"
+	rec := sampleRecord()
+	for i, rk := range []struct {
+		role string
+		kind sequencer.RoleKind
+	}{{"input", sequencer.VoltageSource}, {"dmm", sequencer.VoltMeter}, {"card", sequencer.DUTPort}} {
+		rec.Instruments[i].Role, rec.Instruments[i].Kind = rk.role, rk.kind
+	}
+	text := pdfText(t, render(t, rec, opt))
+	requireText(t, text, statement)
+	if strings.Contains(flat(text), "No reference instrument") {
+		t.Error("the certificate says no reference instrument is recorded")
+	}
+
+	old := sampleRecord() // no kinds: the roles are named source, meter and dut
+	requireText(t, pdfText(t, render(t, old, opt)), "through the reference instruments EQ-0142 (source, Fictive Metrology DCV-20")
+}

@@ -70,11 +70,12 @@ func (d *doc) overdue(in sequencer.InstrumentRef) bool {
 }
 
 // traceability is the statement of metrological traceability through the reference
-// instruments (the source and the meter).
+// instruments: the roles that bind a source or a meter, whatever the station
+// names them.
 func (d *doc) traceability() string {
 	var refs, gaps []string
 	for _, in := range d.rec.Instruments {
-		if in.Role != "source" && in.Role != "meter" {
+		if k := in.RoleKind(); k != sequencer.VoltageSource && k != sequencer.VoltMeter {
 			continue
 		}
 		desc := in.Role

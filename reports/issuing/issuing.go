@@ -212,7 +212,7 @@ func certOptions(rec *sequencer.Record, meta ledger.RunMeta) certificate.Options
 	opt := certificate.Options{Number: meta.Certificate, RecordSHA256: meta.RecordSHA256, KeyID: meta.KeyID,
 		ChainLink: meta.ChainHash, ChainSeq: meta.ChainSeq}
 	for _, in := range rec.Instruments {
-		if in.Role == "dut" && in.Identity.Maker != "0" {
+		if in.RoleKind() == sequencer.DUTPort && in.Identity.Maker != "0" {
 			opt.Maker = in.Identity.Maker
 		}
 	}
