@@ -168,10 +168,21 @@ type FixtureLoader interface {
 	LoadUnit(ctx context.Context, serial string) error
 }
 
-// Spec says how to open one instrument: its role on the station, its address and
-// driver settings from the station file.
+// The kinds of instrument a Spec opens (Spec.Kind), spelled as station files
+// write them after kind:.
+const (
+	KindSource = "voltage_source" // a Source
+	KindMeter  = "meter"          // a Meter
+	KindPort   = "dut_port"       // a TrimPort
+)
+
+// Spec says how to open one instrument: its role on the station, what kind of
+// instrument the role binds, its address and driver settings from the station file.
 type Spec struct {
-	Role     string            // "source", "meter" or "dut"
+	Role string // the station's name for it: "source", "meter", "dut" or any other
+	// Kind is KindSource, KindMeter or KindPort. Empty means the kind of the
+	// same name as Role (source, meter, dut): callers that predate kinds.
+	Kind     string
 	Address  string            // e.g. "sim://meter", "tcp://192.0.2.7:5025", "serial:///dev/ttyUSB0?baud=9600"
 	Settings map[string]string // driver-specific settings, values still as written
 	// Templates overrides a driver's command templates by name (e.g. "set_level":

@@ -19,9 +19,9 @@ import (
 type RoleKind string
 
 const (
-	VoltageSource RoleKind = "voltage_source" // a programmable DC voltage source (instruments.Source)
-	VoltMeter     RoleKind = "meter"          // a DC voltmeter (instruments.Meter)
-	DUTPort       RoleKind = "dut_port"       // the unit's command port (instruments.TrimPort)
+	VoltageSource RoleKind = instruments.KindSource // a programmable DC voltage source (instruments.Source)
+	VoltMeter     RoleKind = instruments.KindMeter  // a DC voltmeter (instruments.Meter)
+	DUTPort       RoleKind = instruments.KindPort   // the unit's command port (instruments.TrimPort)
 )
 
 // The roles a station binds when its file does not say otherwise, each of the
@@ -451,7 +451,7 @@ func (s *Station) Specs(roles []string) []instruments.Spec {
 }
 
 func (si StationInstrument) spec() instruments.Spec {
-	return instruments.Spec{Role: si.Role, Address: si.Address, Settings: si.Settings, Templates: si.Templates, Timeout: si.Timeout}
+	return instruments.Spec{Role: si.Role, Kind: string(si.Kind), Address: si.Address, Settings: si.Settings, Templates: si.Templates, Timeout: si.Timeout}
 }
 
 func lastPart(path string) string {

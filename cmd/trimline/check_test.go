@@ -3,6 +3,7 @@ package main
 import (
 	"bytes"
 	"context"
+	"os"
 	"path/filepath"
 	"strings"
 	"testing"
@@ -84,5 +85,32 @@ func TestRunSaysWhichKindOfFileWasGiven(t *testing.T) {
 	if code != exitUsage || !strings.Contains(errOut, "brx200-sequence.yaml:3:1: this is a sequence file (top-level key sequence:), but a station file") ||
 		!strings.Contains(errOut, "brx200-station.yaml:9:1: this is a station file (top-level key station:), but a sequence file") {
 		t.Fatalf("exit %d, want 2 naming both kinds:\n%s", code, errOut)
+	}
+}
+
+// The OFX-10 station (roles input, dmm, card) with its meter moved to a real
+// address checks clean: the generic driver takes the dmm by its kind, meter.
+func TestCheckNamedRolesOnGenericDrivers(t *testing.T) {
+	dir := t.TempDir()
+	src := filepath.Join("..", "..", "sequencer", "testdata", "ofx10")
+	for _, name := range []string{"ofx10-station.yaml", "ofx10-sequence.yaml", "ofx10-limits.yaml"} {
+		data, err := os.ReadFile(filepath.Join(src, name))
+		if err != nil {
+			t.Fatal(err)
+		}
+		if name == "ofx10-station.yaml" {
+			if !bytes.Contains(data, []byte("sim://meter")) {
+				t.Fatal("the OFX-10 station has no sim://meter to move")
+			}
+			data = bytes.Replace(data, []byte("sim://meter"), []byte("tcp://127.0.0.1:5025"), 1)
+		}
+		if err := os.WriteFile(filepath.Join(dir, name), data, 0o644); err != nil {
+			t.Fatal(err)
+		}
+	}
+	now := time.Date(2027, 1, 4, 9, 0, 0, 0, time.UTC)
+	code, out, errOut := runCLIAt(t, now, "check", filepath.Join(dir, "ofx10-station.yaml"), filepath.Join(dir, "ofx10-sequence.yaml"))
+	if code != 0 || strings.Contains(out+errOut, "generic driver") {
+		t.Fatalf("exit %d\n%s\n%s", code, out, errOut)
 	}
 }

@@ -193,14 +193,37 @@ const (
 	maxLineFreq = 1000.0 // Hz
 )
 
+// kindRole is which of this driver's instruments spec opens (RoleSource,
+// RoleMeter or RoleDUT), decided by spec.Kind: a station names its roles as it
+// likes. A spec without a kind (a caller that predates kinds) is taken by its
+// role's name.
+func kindRole(spec instruments.Spec) (string, error) {
+	switch spec.Kind {
+	case instruments.KindSource:
+		return RoleSource, nil
+	case instruments.KindMeter:
+		return RoleMeter, nil
+	case instruments.KindPort:
+		return RoleDUT, nil
+	case "":
+		if _, ok := defaults[spec.Role]; ok {
+			return spec.Role, nil
+		}
+		return "", fmt.Errorf("role %q: the generic driver opens a source, a meter or a dut", spec.Role)
+	}
+	return "", fmt.Errorf("role %q: kind %q: the generic driver opens a %s, a %s or a %s", spec.Role, spec.Kind,
+		instruments.KindSource, instruments.KindMeter, instruments.KindPort)
+}
+
 // parseConfig validates spec and returns its configuration.
 func parseConfig(spec instruments.Spec) (config, error) {
-	c := config{role: spec.Role, retries: 2, reset: true, lineFreq: 50}
-	def, ok := defaults[spec.Role]
-	if !ok {
-		return c, fmt.Errorf("role %q: the generic driver opens a source, a meter or a dut", spec.Role)
+	role, err := kindRole(spec)
+	if err != nil {
+		return config{}, err
 	}
-	c.tpl = DefaultTemplates(spec.Role)
+	c := config{role: role, retries: 2, reset: true, lineFreq: 50}
+	def := defaults[role]
+	c.tpl = DefaultTemplates(role)
 	names := make([]string, 0, len(spec.Templates))
 	for k := range spec.Templates {
 		names = append(names, k)
@@ -209,7 +232,7 @@ func parseConfig(spec instruments.Spec) (config, error) {
 	for _, k := range names {
 		v := strings.TrimSpace(spec.Templates[k])
 		if _, known := def[k]; !known {
-			return c, settingErr("templates."+k, "unknown template for a %s (known: %s)", spec.Role, strings.Join(sortedKeys(def), ", "))
+			return c, settingErr("templates."+k, "unknown template for a %s (known: %s)", role, strings.Join(sortedKeys(def), ", "))
 		}
 		if v == "" && !optional[k] {
 			return c, settingErr("templates."+k, "must not be empty")
@@ -235,8 +258,8 @@ func parseConfig(spec instruments.Spec) (config, error) {
 	sort.Strings(keys)
 	for _, k := range keys {
 		v := spec.Settings[k]
-		if !contains(settingKeys[spec.Role], k) {
-			return c, settingErr(k, "unknown setting for a %s on the generic driver (known: %s)", spec.Role, strings.Join(settingKeys[spec.Role], ", "))
+		if !contains(settingKeys[role], k) {
+			return c, settingErr(k, "unknown setting for a %s on the generic driver (known: %s)", role, strings.Join(settingKeys[role], ", "))
 		}
 		var err error
 		switch k {
@@ -362,7 +385,8 @@ func (Driver) CheckSettings(spec instruments.Spec) error {
 	return err
 }
 
-// Open dials addr and opens the instrument spec.Role names: a *Source (a
+// Open dials addr and opens the instrument spec.Kind names (or, without a kind,
+// spec.Role): a *Source (a
 // *WatchdogSource when the arm_watchdog template is set), a *Meter or a *Port (a
 // *LoaderPort when the load_unit template is set). A source or meter is
 // cleared and reset at open unless the reset setting is false; its error queue is

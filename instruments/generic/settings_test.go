@@ -164,3 +164,36 @@ func contains(list []string, s string) bool {
 	}
 	return false
 }
+
+// A station names its roles as it likes: the kind says which instrument the
+// generic driver opens, and a spec without one (an older caller) is taken by its
+// role's name.
+func TestCheckSettingsByKind(t *testing.T) {
+	drv := generic.Driver{}
+	addr := "tcp://127.0.0.1:5025"
+	for _, s := range []instruments.Spec{
+		{Role: "input", Kind: instruments.KindSource, Settings: map[string]string{"range": "100 mV"}},
+		{Role: "dmm", Kind: instruments.KindMeter, Settings: map[string]string{"line_frequency": "60 Hz"}},
+		{Role: "card", Kind: instruments.KindPort, Templates: map[string]string{"load_unit": "FIXTURE LOAD {serial}"}},
+		{Role: "meter", Settings: map[string]string{"line_frequency": "60 Hz"}},
+	} {
+		s.Address = addr
+		if err := drv.CheckSettings(s); err != nil {
+			t.Errorf("%+v: %v", s, err)
+		}
+	}
+	for _, c := range []struct {
+		spec instruments.Spec
+		want string
+	}{
+		// The kind decides, not the name: a meter named source takes no range.
+		{instruments.Spec{Role: "source", Kind: instruments.KindMeter, Settings: map[string]string{"range": "1 V"}}, "unknown setting for a meter"},
+		{instruments.Spec{Role: "dmm", Settings: map[string]string{}}, `role "dmm": the generic driver opens a source, a meter or a dut`},
+		{instruments.Spec{Role: "scope", Kind: "scope"}, `kind "scope"`},
+	} {
+		c.spec.Address = addr
+		if err := drv.CheckSettings(c.spec); err == nil || !strings.Contains(err.Error(), c.want) {
+			t.Errorf("%+v: err = %v, want %q", c.spec, err, c.want)
+		}
+	}
+}
