@@ -6,7 +6,10 @@ import (
 	"path/filepath"
 	"strings"
 	"testing"
+	"time"
 
+	_ "trimline/instruments/generic"
+	"trimline/instruments/sim/serve"
 	"trimline/sequencer"
 )
 
@@ -73,5 +76,69 @@ func TestSecondProductLockedWithoutUnlock(t *testing.T) {
 	rec := e.Run(context.Background(), "OFX-0001")
 	if rec.Verdict != sequencer.Fault || !strings.Contains(rec.Fault, "locked") {
 		t.Errorf("verdict %s, fault %q: want FAULT naming the lock", rec.Verdict, rec.Fault)
+	}
+}
+
+// The OFX-10 station names its roles input, dmm and card; served over loopback
+// TCP, the generic drivers open each by the kind the station file gives it (not
+// by its name), and a unit trims to PASS with every instrument's kind recorded.
+func TestSecondProductRunsOverTheWire(t *testing.T) {
+	if testing.Short() {
+		t.Skip("real-time run")
+	}
+	dir := filepath.Join("testdata", "ofx10")
+	sim, err := sequencer.LoadStation(filepath.Join(dir, "ofx10-station.yaml"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	ctx, cancel := context.WithTimeout(context.Background(), 60*time.Second)
+	defer cancel()
+	srv, err := serve.Start(ctx, sim.Specs(sim.Roles()), serve.Options{Transport: "tcp"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer srv.Close()
+	settings, templates := srv.Wiring()
+	if templates["card"]["load_unit"] == "" || settings["input"]["watchdog"] == "" {
+		t.Fatalf("served wiring by role: settings %v, templates %v", settings, templates)
+	}
+	data, err := sim.Rewired(srv.Addresses(), sequencer.Served{Settings: settings, Templates: templates})
+	if err != nil {
+		t.Fatal(err)
+	}
+	st, err := sequencer.ParseStation(filepath.Join(dir, "ofx10-station-tcp.yaml"), data)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, r := range []string{"input", "dmm", "card"} {
+		if a := st.Instruments[r].Address; !strings.HasPrefix(a, "tcp://") {
+			t.Fatalf("%s at %s, want a served tcp:// address", r, a)
+		}
+	}
+	seq, err := sequencer.LoadSequence(filepath.Join(dir, "ofx10-sequence.yaml"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	e, err := sequencer.Open(ctx, sequencer.Config{Station: st, Sequence: seq, Operator: "test", Software: "test"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer e.Close()
+	rec := e.Run(ctx, "OFX-0001")
+	if rec.Verdict != sequencer.Pass {
+		t.Fatalf("verdict %s, want PASS; fault %q, reasons %q", rec.Verdict, rec.Fault, rec.Reasons)
+	}
+	kinds := map[string]sequencer.RoleKind{}
+	for _, in := range rec.Instruments {
+		kinds[in.Role] = in.Kind
+	}
+	want := map[string]sequencer.RoleKind{"input": sequencer.VoltageSource, "dmm": sequencer.VoltMeter, "card": sequencer.DUTPort}
+	for r, k := range want {
+		if kinds[r] != k {
+			t.Errorf("record: %s has kind %q, want %q", r, kinds[r], k)
+		}
+	}
+	if on, _ := srv.Bench().Source().State(); on {
+		t.Error("the source output is on after the run")
 	}
 }

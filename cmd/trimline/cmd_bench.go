@@ -53,7 +53,7 @@ elapse, as on a real bench.`,
 			fmt.Fprintf(e.stdout, "  %-6s %s\n", r, addrs[r])
 		}
 		if *write != "" {
-			data, err := st.Rewired(addrs, sequencer.Served{Settings: serve.Settings, Templates: serve.Templates})
+			data, err := st.Rewired(addrs, served(srv))
 			if err != nil {
 				return err
 			}
@@ -83,4 +83,11 @@ func serveStation(ctx context.Context, st *sequencer.Station, transport string, 
 		return nil, fmt.Errorf("serve the simulated bench: %w", err)
 	}
 	return srv, nil
+}
+
+// served is what srv's instruments ask of the station file that reaches them,
+// per role (whatever the station names its roles).
+func served(srv *serve.Server) sequencer.Served {
+	settings, templates := srv.Wiring()
+	return sequencer.Served{Settings: settings, Templates: templates}
 }

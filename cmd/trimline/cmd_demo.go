@@ -13,7 +13,6 @@ import (
 	"strconv"
 	"time"
 
-	"trimline/instruments/sim/serve"
 	"trimline/reports/issuing"
 	"trimline/reports/ledger"
 	"trimline/reports/release"
@@ -79,7 +78,7 @@ unit takes a few seconds, as it would on a real bench.`,
 			}
 			defer srv.Close()
 			station = filepath.Join(*out, "brx200-station-"+*transport+".yaml")
-			data, err := st.Rewired(srv.Addresses(), sequencer.Served{Settings: serve.Settings, Templates: serve.Templates})
+			data, err := st.Rewired(srv.Addresses(), served(srv))
 			if err != nil {
 				return err
 			}

@@ -41,7 +41,7 @@ func wire(t *testing.T, transport string, faults map[string]serve.Fault) (dir, s
 		t.Fatal(err)
 	}
 	t.Cleanup(func() { srv.Close() })
-	yaml, err := st.Rewired(srv.Addresses(), sequencer.Served{Settings: serve.Settings, Templates: serve.Templates})
+	yaml, err := st.Rewired(srv.Addresses(), served(srv))
 	if err != nil {
 		t.Fatal(err)
 	}

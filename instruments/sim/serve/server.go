@@ -75,17 +75,18 @@ import (
 	"trimline/instruments/sim"
 )
 
-// Templates are the generic drivers' templates, per role, that reach what the
-// served bench offers beyond the standard commands: the fixture's load_unit places a
-// unit (as Server.LoadUnit does from Go), and the source's output watchdog switches
-// the output off when the station stops talking.
+// Templates are the generic drivers' templates, per simulated model (what a
+// sim:// address names: source, meter, dut), that reach what the served bench
+// offers beyond the standard commands: the fixture's load_unit places a unit (as
+// Server.LoadUnit does from Go), and the source's output watchdog switches the
+// output off when the station stops talking. Server.Wiring gives them per role.
 var Templates = map[string]map[string]string{
 	"dut":    {"load_unit": "FIXTURE LOAD {serial}"},
 	"source": {"arm_watchdog": "OUTP:WATC {seconds}", "disarm_watchdog": "OUTP:WATC OFF"},
 }
 
-// Settings are the generic drivers' settings, per role, that go with Templates: the
-// source's watchdog time, longer than any step of the demo sequence.
+// Settings are the generic drivers' settings, per simulated model, that go with
+// Templates: the source's watchdog time, longer than any step of the demo sequence.
 var Settings = map[string]map[string]string{
 	"source": {"watchdog": "5 s"},
 }
@@ -153,6 +154,7 @@ type Server struct {
 	cancel    context.CancelFunc
 	endpoints map[string]*endpoint // by role
 	addrs     map[string]string
+	models    map[string]string // by role: source, meter or dut
 	wg        sync.WaitGroup
 	closeOnce sync.Once
 	stopCtx   func() bool
@@ -204,11 +206,13 @@ func Start(ctx context.Context, specs []instruments.Spec, opt Options) (*Server,
 		return nil, fmt.Errorf("serve: %w", err)
 	}
 	sctx, cancel := context.WithCancel(context.WithoutCancel(ctx))
-	s := &Server{bench: b, opt: opt, ctx: sctx, cancel: cancel, endpoints: map[string]*endpoint{}, addrs: map[string]string{}}
+	s := &Server{bench: b, opt: opt, ctx: sctx, cancel: cancel, endpoints: map[string]*endpoint{}, addrs: map[string]string{}, models: map[string]string{}}
 	for _, sp := range local {
 		u, _ := url.Parse(sp.Address)
 		var h handler
-		switch strings.ToLower(u.Hostname()) {
+		model := strings.ToLower(u.Hostname())
+		s.models[sp.Role] = model
+		switch model {
 		case "source":
 			h = newSourceHandler(b.Source())
 		case "meter":
@@ -243,6 +247,22 @@ func (s *Server) listen(ep *endpoint) (string, error) {
 // Addresses returns the address of each role's endpoint, ready for a station file:
 // "tcp://127.0.0.1:40123", "serial:///dev/pts/5?baud=115200", "usbtmc:///dev/pts/6".
 func (s *Server) Addresses() map[string]string { return maps.Clone(s.addrs) }
+
+// Wiring returns Settings and Templates keyed by the roles this server serves,
+// each role getting those of the model its address names, so a station whose
+// roles have names of its own (input, dmm, card) is rewired as the demo's is.
+func (s *Server) Wiring() (settings, templates map[string]map[string]string) {
+	settings, templates = map[string]map[string]string{}, map[string]map[string]string{}
+	for role, model := range s.models {
+		if m, ok := Settings[model]; ok {
+			settings[role] = maps.Clone(m)
+		}
+		if m, ok := Templates[model]; ok {
+			templates[role] = maps.Clone(m)
+		}
+	}
+	return settings, templates
+}
 
 // Bench returns the served bench, for tests that look at its state.
 func (s *Server) Bench() *sim.Bench { return s.bench }
