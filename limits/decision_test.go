@@ -528,6 +528,16 @@ func TestTolerancedNeverPassesBadNumbers(t *testing.T) {
 			if o.Pass || o.Decision != nil || o.Reason != tc.reason {
 				t.Errorf("%s, %s: pass %v decision %v reason %q, want fail without a decision: %q (contract)", tc.name, o.Name, o.Pass, o.Decision, o.Reason, tc.reason)
 			}
+			// The tolerance as written stays on the outcome, for reports to show.
+			var l *limits.Limit
+			for _, x := range set.Limits {
+				if x.Name == o.Name {
+					l = x
+				}
+			}
+			if tol := o.Tolerance; tol == nil || !samePtr(tol.Lower, l.Tolerance.Lower) || !samePtr(tol.Upper, l.Tolerance.Upper) || tol.Rule != l.Tolerance.Rule {
+				t.Errorf("%s, %s: tolerance %+v, want the limit's %+v", tc.name, o.Name, tol, l.Tolerance)
+			}
 		}
 		if set.Overall(outs) != limits.VerdictFail {
 			t.Errorf("%s: Overall %q, want fail", tc.name, set.Overall(outs))

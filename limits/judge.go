@@ -20,7 +20,8 @@ import (
 // expression runs, every result the limit uses must be present, Valid, and a finite
 // number (also once scaled to the limit's unit); otherwise the limit fails with the
 // reason "result NAME is not a valid number: WHY" and the expression is not run, so
-// no form of expression can pass a NaN. Such a failure has no Decision.
+// no form of expression can pass a NaN. Such a failure has no Decision; for a
+// toleranced limit its Tolerance says what the limit file wrote.
 //
 // A toleranced limit's result passes the same guard, and then its uncertainty
 // (Value.U, K, Std, DOF, converted to the limit's unit) must be finite numbers ≥ 0,
@@ -76,10 +77,14 @@ func (l *Limit) judge(results map[string]Value, pol Policy) Outcome {
 	}
 	if len(bad) > 0 {
 		o.Reason = strings.Join(bad, "; ")
+		o.Tolerance = l.unjudged()
 		return o
 	}
 	if l.toleranced() {
 		l.decide(&o, o.Values[l.Uses[0]], results[l.Uses[0]], pol)
+		if o.Decision == nil {
+			o.Tolerance = l.unjudged()
+		}
 		return o
 	}
 	if l.prog == nil { // a Limit not made by Load
@@ -114,6 +119,23 @@ func (l *Limit) judge(results map[string]Value, pol Policy) Outcome {
 	}
 	o.Reason = fmt.Sprintf("%s is false with %s", oneLine(l.Expr), strings.Join(parts, ", "))
 	return o
+}
+
+// unjudged is l's tolerance for an Outcome without a Decision, nil for an
+// expression limit.
+func (l *Limit) unjudged() *Unjudged {
+	if !l.toleranced() {
+		return nil
+	}
+	t := l.Tolerance
+	cp := func(p *float64) *float64 { // the Outcome shares nothing with the Set
+		if p == nil {
+			return nil
+		}
+		v := *p
+		return &v
+	}
+	return &Unjudged{Lower: cp(t.Lower), Upper: cp(t.Upper), Rule: t.Rule, GuardFactor: t.GuardFactor, Binary: t.Binary}
 }
 
 // toleranced reports whether l is judged under the decision rule (a tolerance on

@@ -55,6 +55,21 @@ type Outcome struct {
 	Pass        bool               `json:"pass"`
 	Reason      string             `json:"reason,omitempty"`   // why it failed, in words
 	Decision    *Decision          `json:"decision,omitempty"` // for toleranced limits
+	// Tolerance is set for a toleranced limit that could not be judged under its
+	// rule (a result it uses is missing or invalid, or its uncertainty is no
+	// number), so no Decision was made: the tolerance as the limit file wrote it,
+	// for reports to show as such. nil for expression limits and beside a Decision.
+	Tolerance *Unjudged `json:"tolerance,omitempty"`
+}
+
+// Unjudged is the tolerance of a toleranced limit that has no Decision, in the
+// limit's unit, with the rule it would have been judged by.
+type Unjudged struct {
+	Lower       *float64 `json:"lower,omitempty"` // tolerance limits TL; nil = unbounded on that side
+	Upper       *float64 `json:"upper,omitempty"`
+	Rule        string   `json:"rule"`         // RuleSimple or RuleGuarded
+	GuardFactor float64  `json:"guard_factor"` // r
+	Binary      bool     `json:"binary"`
 }
 
 // Zones of a toleranced result (ILAC-G8:09/2019 §4.2.3).

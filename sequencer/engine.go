@@ -334,11 +334,12 @@ func (e *Engine) run(ctx context.Context, u *Unit) error {
 // runSteps runs the sequence's steps for the unit, in order: a step whose skip_if
 // holds is skipped, and once a step ends the run the rest are not reached.
 func runSteps(ctx context.Context, u *Unit) error {
+	endedAt := "" // the step whose Run ended the run
 	for _, d := range u.seq.Steps {
 		sr := StepRun{Name: d.Name, Kind: d.Kind, Stage: d.Stage, Status: StepDone}
 		switch {
 		case u.ended:
-			sr.Status, sr.Note = StepNotReached, u.endNote
+			sr.Status, sr.Note = StepNotReached, notReachedNote(endedAt, u.endNote)
 		case d.skip != nil && u.mode != predicting:
 			// On paper every result is ideal and any "skip when already good"
 			// would hold; the prediction bounds what any unit may need, so it
@@ -355,8 +356,13 @@ func runSteps(ctx context.Context, u *Unit) error {
 		}
 		if sr.Status == StepDone {
 			u.step = d
+			wasEnded := u.ended
 			if err := d.Step.Run(ctx, u); err != nil {
 				return err
+			}
+			if u.ended && !wasEnded {
+				endedAt = d.Name
+				sr.Note = strings.TrimPrefix(strings.TrimSpace(sr.Note+"; "+endedNote(u.endNote)), "; ")
 			}
 		}
 		if u.mode != predicting {
@@ -364,6 +370,34 @@ func runSteps(ctx context.Context, u *Unit) error {
 		}
 	}
 	return nil
+}
+
+// endWhy is why a run ended, from the note Unit.End was given, which is worded
+// for the results left unmeasured ("not measured: trim saturated"): the cause
+// alone ("trim saturated"), or "" when the note gives none.
+func endWhy(note string) string {
+	return strings.TrimSpace(strings.TrimPrefix(strings.TrimSpace(note), "not measured:"))
+}
+
+// endedNote is the note of the step whose Run ended the run.
+func endedNote(note string) string {
+	if why := endWhy(note); why != "" {
+		return "ended the run: " + why
+	}
+	return "ended the run"
+}
+
+// notReachedNote is the note of a step not reached because the step at (a
+// name, "" when unknown) ended the run with note.
+func notReachedNote(at, note string) string {
+	s := "the run ended"
+	if at != "" {
+		s += fmt.Sprintf(" at step %q", at)
+	}
+	if why := endWhy(note); why != "" {
+		s += ": " + why
+	}
+	return s
 }
 
 // checkErrorsBeforeVerdict reads every error queue once more, under the step

@@ -2,6 +2,7 @@ package sequencer
 
 import (
 	"bytes"
+	"strings"
 
 	"github.com/goccy/go-yaml"
 
@@ -58,4 +59,20 @@ func wrongKind(doc *files.Doc, data []byte, want string) error {
 	}
 	return files.List{doc.KeyErrorf("$."+topKeys[got], "this is a %s (top-level key %s:), but a %s (top-level key %s:) was expected here: were the files given in each other's place?",
 		kindNames[got], topKeys[got], kindNames[want], topKeys[want])}
+}
+
+// LimitsProduct returns the product a limit file names under limit_set.product,
+// trimmed, or "" when data is no limit file or names none. It reads only that
+// key: tools use it to find the product's steps before the file is loaded.
+func LimitsProduct(data []byte) string {
+	var top struct {
+		LimitSet struct {
+			Product any `yaml:"product"`
+		} `yaml:"limit_set"`
+	}
+	if files.Check("", data) != nil || yaml.Unmarshal(data, &top) != nil {
+		return ""
+	}
+	p, _ := top.LimitSet.Product.(string)
+	return strings.TrimSpace(p)
 }

@@ -609,12 +609,16 @@ func FirstLayoutCatalog() limits.Catalog {
 
 // CatalogFor returns the results a limit file may judge: those of the sequence
 // files beside it that name it under limits: (their union, with the first one
-// found), or, when none does, FirstLayoutCatalog with seq nil and a note saying
-// so. Sequence files that do not load are passed over.
+// found); when none does, those of the sequence files beside it for the product
+// the limit file names (limit_set.product): a draft revision of a product's
+// limits is judged against that product's steps, with a note saying so; when
+// none is for that product either, FirstLayoutCatalog with seq nil and a note
+// saying so. Sequence files that do not load are passed over.
 func CatalogFor(limitsPath string) (cat limits.Catalog, seq *Sequence, note string) {
 	dir := filepath.Dir(limitsPath)
 	want, _ := filepath.Abs(limitsPath)
 	entries, _ := os.ReadDir(dir)
+	var others []*Sequence // sequences beside it that name another limit file
 	for _, en := range entries {
 		if en.IsDir() || !(strings.HasSuffix(en.Name(), ".yaml") || strings.HasSuffix(en.Name(), ".yml")) {
 			continue
@@ -633,6 +637,7 @@ func CatalogFor(limitsPath string) (cat limits.Catalog, seq *Sequence, note stri
 			lp = filepath.Join(dir, lp)
 		}
 		if abs, _ := filepath.Abs(lp); abs != want {
+			others = append(others, s)
 			continue
 		}
 		if cat == nil {
@@ -640,10 +645,26 @@ func CatalogFor(limitsPath string) (cat limits.Catalog, seq *Sequence, note stri
 		}
 		maps.Copy(cat, s.Catalog())
 	}
-	if cat == nil {
-		return FirstLayoutCatalog(), nil, fmt.Sprintf("no sequence file beside %s names it: its result names are checked against the first layout's (give --sequence to check them against a product's steps)", filepath.Base(limitsPath))
+	if cat != nil {
+		return cat, seq, ""
 	}
-	return cat, seq, ""
+	if data, err := files.ReadFile(limitsPath); err == nil {
+		if product := LimitsProduct(data); product != "" {
+			for _, s := range others {
+				if strings.TrimSpace(s.Product) != product {
+					continue
+				}
+				if cat == nil {
+					cat, seq = limits.Catalog{}, s
+				}
+				maps.Copy(cat, s.Catalog())
+			}
+			if cat != nil {
+				return cat, seq, fmt.Sprintf("no sequence file beside %s names it: its result names are checked against the steps of %s, a sequence for its product %s", filepath.Base(limitsPath), seq.File.Name, product)
+			}
+		}
+	}
+	return FirstLayoutCatalog(), nil, fmt.Sprintf("no sequence file beside %s names it or is for its product: its result names are checked against the first layout's (give --sequence to check them against a product's steps)", filepath.Base(limitsPath))
 }
 
 // RecordCatalog is the catalogue of the results a record holds, with the

@@ -4,6 +4,7 @@ import (
 	"context"
 	"fmt"
 	"io"
+	"maps"
 	"strings"
 	"text/tabwriter"
 
@@ -55,6 +56,22 @@ otherwise.`,
 		if err != nil {
 			return badInput(err)
 		}
+		// The steps of each product a sequence given here is for: a limit file
+		// beside no sequence naming it is read against its product's steps.
+		productCats := map[string]limits.Catalog{}
+		for _, path := range args {
+			data, err := files.ReadFile(path)
+			if err != nil || sequencer.FileKind(data) != sequencer.FileSequence {
+				continue
+			}
+			if s, err := sequencer.LoadSequenceSteps(path); err == nil && s.Product != "" {
+				p := strings.TrimSpace(s.Product)
+				if productCats[p] == nil {
+					productCats[p] = limits.Catalog{}
+				}
+				maps.Copy(productCats[p], s.Catalog())
+			}
+		}
 		for _, path := range args {
 			if err := ctx.Err(); err != nil {
 				return err // one file's parse is bounded (files.Check); stop between files
@@ -99,7 +116,10 @@ otherwise.`,
 					seqs = append(seqs, s)
 				}
 			case sequencer.FileLimits:
-				cat, _, note := sequencer.CatalogFor(path)
+				cat, seq, note := sequencer.CatalogFor(path)
+				if given := productCats[sequencer.LimitsProduct(data)]; given != nil && (seq == nil || note != "") {
+					cat, note = given, ""
+				}
 				if note != "" {
 					fmt.Fprintln(e.stderr, "note:", note)
 				}

@@ -110,8 +110,21 @@ stderr.`,
 	return c
 }
 
-func loadLimitSet(path string) (*limits.Set, error) {
+// loadLimitSet loads the limit file at path. Its result names are checked
+// against the steps of the sequence file sequencePath when one is given (read
+// without its own limit file), else against those sequencer.CatalogFor finds.
+func loadLimitSet(path, sequencePath string) (*limits.Set, error) {
 	cat, _, _ := sequencer.CatalogFor(path)
+	if sequencePath != "" {
+		s, err := sequencer.LoadSequenceSteps(sequencePath)
+		if err != nil {
+			if fe := files.Errs(err); fe != nil {
+				return nil, badInput(detailed(fe))
+			}
+			return nil, badInput(err)
+		}
+		cat = s.Catalog()
+	}
 	set, err := limits.LoadFile(path, cat)
 	if err != nil {
 		if fe := files.Errs(err); fe != nil {
@@ -124,20 +137,27 @@ func loadLimitSet(path string) (*limits.Set, error) {
 
 func newLimitsDiffCmd() *command {
 	c := &command{
-		UsageLine: "trimline limits diff OLD NEW",
+		UsageLine: "trimline limits diff [--sequence FILE] OLD NEW",
 		Short:     "a semantic diff of two limit files",
 		Long: `Lists each limit added, removed, tightened, loosened, shifted or changed in shape,
-with the bounds side by side, and the decision-rule changes.`,
+with the bounds side by side, and the decision-rule changes.
+
+The result names each file may use are those of the product's steps: with
+--sequence, that sequence's; without it, those of the sequence files beside each
+file that name it or, when none does, that are for the product the file names
+(limit_set.product), so a draft revision beside the released one is read against
+its product's steps.`,
 	}
+	sequence := c.Flag.String("sequence", "", "sequence `file` whose steps declare the result names both files may use")
 	c.Run = func(ctx context.Context, e *env, args []string) error {
 		if len(args) != 2 {
 			return usagef("usage: %s", c.UsageLine)
 		}
-		old, err := loadLimitSet(args[0])
+		old, err := loadLimitSet(args[0], *sequence)
 		if err != nil {
 			return err
 		}
-		nw, err := loadLimitSet(args[1])
+		nw, err := loadLimitSet(args[1], *sequence)
 		if err != nil {
 			return err
 		}

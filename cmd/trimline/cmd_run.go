@@ -9,8 +9,9 @@ func newRunCmd() *command {
 	c := &command{
 		UsageLine: "trimline run --station FILE --sequence FILE --serial SN [--serial SN ...] [--retest] [--out DIR] [--operator NAME] [--json]",
 		Short:     "trim and certify units on a station (the production command)",
-		Long: `Runs the sequence once per serial number, in order: pre-trim sweep, fit, trim
-codes written, read back and stored, verification sweep, limits judged. Each run is
+		Long: `Runs the sequence once per serial number: its steps in the order the sequence
+file lists them (sweeps, fits, trim codes written, read back and stored, commands
+to the card, as that product needs), then its limits judged. Each run is
 recorded in the ledger (DIR/ledger.db); a PASS, FAIL or REVIEW run gets a
 certificate number and a PDF in DIR/certificates. With sim:// addresses in the
 station file the units run on the simulated bench.

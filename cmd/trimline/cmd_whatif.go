@@ -11,25 +11,30 @@ import (
 
 func newLimitsWhatIfCmd() *command {
 	c := &command{
-		UsageLine: "trimline limits whatif NEW --ledger DB [--product P] [--since DATE] [--until DATE] [--old FILE] [--pdf FILE]",
+		UsageLine: "trimline limits whatif NEW --ledger DB [--product P] [--since DATE] [--until DATE] [--old FILE] [--sequence FILE] [--pdf FILE]",
 		Short:     "re-judge every stored result in the ledger against a new limit file",
 		Long: `Re-judges the stored results of every judged production run in the ledger against
 the limit file NEW and reports, against the old file (the one in force on the newest
 run, or --old), the yield before and after and every unit whose verdict would flip.
 Engineering runs, faulted and aborted runs are left out. With --pdf the report is
-also written as a PDF with histograms.`,
+also written as a PDF with histograms.
+
+The result names the limit files may use are those of the product's steps: with
+--sequence, that sequence's; without it, those of the sequence files beside each
+limit file that name it or are for the product it names (limit_set.product).`,
 	}
 	ledgerPath := c.Flag.String("ledger", "", "ledger `file` to re-judge")
 	product := c.Flag.String("product", "", "only units of this `product` (default: the new file's)")
 	since := c.Flag.String("since", "", "only runs finished on or after this `date` (YYYY-MM-DD)")
 	until := c.Flag.String("until", "", "only runs finished before the end of this `date` (YYYY-MM-DD)")
 	oldPath := c.Flag.String("old", "", "the old limit `file` to compare with (default: the one in force on the newest run)")
+	sequence := c.Flag.String("sequence", "", "sequence `file` whose steps declare the result names the limit files may use")
 	pdfPath := c.Flag.String("pdf", "", "also write the report with histograms to this PDF `file`")
 	c.Run = func(ctx context.Context, e *env, pos []string) error {
 		if len(pos) != 1 || *ledgerPath == "" {
 			return usagef("usage: %s", c.UsageLine)
 		}
-		nw, err := loadLimitSet(pos[0])
+		nw, err := loadLimitSet(pos[0], *sequence)
 		if err != nil {
 			return err
 		}
@@ -51,7 +56,7 @@ also written as a PDF with histograms.`,
 		req := whatif.Request{Ledger: *ledgerPath, New: nw, Product: *product, Since: from, Until: to,
 			PDF: *pdfPath, Generated: time.Now()}
 		if *oldPath != "" {
-			if req.Old, err = loadLimitSet(*oldPath); err != nil {
+			if req.Old, err = loadLimitSet(*oldPath, *sequence); err != nil {
 				return err
 			}
 		}

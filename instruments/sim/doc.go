@@ -1,6 +1,9 @@
 // Package sim is a simulated bench that behaves like hardware: a DC voltage source,
-// a 6½-digit voltmeter and a fixture holding the demo product, the BRX-200 bridge
-// (load-cell) amplifier card. It registers the address scheme "sim".
+// a 6½-digit voltmeter and a fixture holding an amplifier card with trim DACs. The
+// card is configurable (gain, output at zero, rails, which trim DACs it has, their
+// widths and codings, how the port writes codes, the port's commands and lock);
+// every setting defaults to the demo product, the BRX-200 bridge (load-cell)
+// amplifier card. It registers the address scheme "sim".
 //
 // All names here (the maker "Trimline Sim", the VS-100M source, the DV-65 meter, the
 // BRX-200 card) are invented; no value is taken from a real datasheet.
@@ -54,7 +57,11 @@
 //
 // The DUT settings describe the card; every default is the demo card, the BRX-200
 // (gain 200, 2.5 V at zero input, rails 0..5 V, two 12-bit binary-offset trim DACs,
-// the protocol below). The engine's trim arithmetic assumes exactly this topology.
+// the protocol below). Another card is the same topology with other settings (see
+// Settings: dut, card and dut, port): an inverting or other gain, other rails, an
+// offset or a gain DAC alone, wider or narrower DACs, two's-complement coding, hex
+// codes, other commands, a locked port; the sequence file's dacs: section tells the
+// engine that card's codes.
 // For DUT input x (V), with Gnom = gain, Vz = output_at_zero, Vp = gain_pivot:
 //
 //	core(x) = G·(x + vin_os + step(x))        G = ±ClosedLoopGain(A, 1/|Gnom|)·(1 + ge)

@@ -29,18 +29,26 @@ func (d *doc) decisionRule() {
 	methods := map[string]bool{}
 	for _, o := range d.outcomesByStage() {
 		dd := o.Decision
-		if dd == nil {
+		var k ruleKey
+		switch {
+		case dd != nil:
+			k = ruleKey{dd.Rule, dd.GuardFactor, dd.Binary}
+		case o.Tolerance != nil: // a toleranced limit not measured: the rule it is under
+			k = ruleKey{o.Tolerance.Rule, o.Tolerance.GuardFactor, o.Tolerance.Binary}
+		default:
 			exprs = append(exprs, o.Name)
 			continue
 		}
-		k := ruleKey{dd.Rule, dd.GuardFactor, dd.Binary}
-		if dd.Rule != "guarded" {
+		if k.rule != "guarded" {
 			k.r = 0
 		}
 		if _, ok := names[k]; !ok {
 			keys = append(keys, k)
 		}
 		names[k] = append(names[k], o.Name)
+		if dd == nil {
+			continue
+		}
 		anyCond = anyCond || conditional(dd)
 		statements = statements || dd.Statement != ""
 	}

@@ -13,7 +13,8 @@ import (
 	"trimline/sequencer"
 )
 
-// subtitle says what the run did, from the record: the trim DACs it wrote and the
+// subtitle says what the run did, from the record: the trim DACs it wrote (not
+// those it computed but did not write, a saturated trim's, say) and the
 // sweeps that verified the trim: "End-of-line trim of gain and offset, verified by
 // a second sweep". DACs named for what they adjust (gain, offset) read as that;
 // others by name: "End-of-line trim by the coarse DAC, verified by 2 further sweeps".
@@ -21,6 +22,9 @@ func (d *doc) subtitle() string {
 	var names []string
 	quantities := true
 	for _, t := range d.rec.Trims {
+		if !t.Written { // saturated, or the run stopped first: not trimmed
+			continue
+		}
 		names = append(names, t.DAC)
 		quantities = quantities && (t.DAC == sequencer.AdjustGain || t.DAC == sequencer.AdjustOffset)
 	}

@@ -162,7 +162,7 @@ func (d *doc) results() {
 	outs := d.outcomesByStage()
 	decided := false
 	for _, o := range outs {
-		decided = decided || o.Decision != nil
+		decided = decided || o.Decision != nil || o.Tolerance != nil
 	}
 	cols := []pdfdoc.Column{
 		{Title: "Limit", W: 50, Align: "L"},
@@ -205,6 +205,20 @@ func (d *doc) results() {
 		}
 		dd := o.Decision
 		switch {
+		case dd == nil && o.Tolerance != nil:
+			// A toleranced limit whose result could not be judged: its tolerance as
+			// the file wrote it, and why there is no decision.
+			// Not measured: the reasons above say why; otherwise (an uncertainty
+			// that is no number) the reason says it here.
+			t := o.Tolerance
+			tol := pdfdoc.Cell{{Text: fmtInterval(t.Lower, t.Upper, o.Unit, func(v float64, _ bool) string { return fmtLimitNum(v) }), St: pdfdoc.Body}}
+			if len(o.Values) == 0 {
+				tol = append(tol, pdfdoc.Span{Text: "not measured: no decision", St: pdfdoc.Small})
+			} else {
+				tol = reason(append(tol, pdfdoc.Span{Text: "no decision", St: pdfdoc.Small}))
+			}
+			na := c1("—", pdfdoc.Small)
+			rows = append(rows, pdfdoc.Row{name, meas, tol, verdictCell(o.Pass), na, na})
 		case dd == nil:
 			exprs = true
 			mono := stMono

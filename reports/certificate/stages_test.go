@@ -56,7 +56,7 @@ func TestStagedRecordGroupsSweepsByStage(t *testing.T) {
 		"Fits of the sweeps", "as left · final fit", "as left · final curve · quadratic",
 		"Steps of the sequence: not every step was done",
 		"bake", "skipped", "skip_if: pre_offset < 1 mV",
-		"not reached", "not measured: trim saturated",
+		"not reached", "the run ended earlier: trim saturated",
 	)
 	ft := flat(text)
 	for _, bad := range []string{"pre-trim", "“verify”", "no data", "trim of gain and offset", "second sweep"} {

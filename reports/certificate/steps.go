@@ -1,6 +1,8 @@
 package certificate
 
 import (
+	"strings"
+
 	"trimline/reports/internal/pdfdoc"
 	"trimline/sequencer"
 )
@@ -34,7 +36,23 @@ func (d *doc) steps() {
 		if s.Status != sequencer.StepDone {
 			status = c1(s.Status, pdfdoc.Bold.With(colCondFail))
 		}
-		rows = append(rows, pdfdoc.Row{c1(s.Name, pdfdoc.Bold), c1(s.Kind, pdfdoc.Body), c1(st, pdfdoc.Body), status, c1(s.Note, pdfdoc.Small)})
+		rows = append(rows, pdfdoc.Row{c1(s.Name, pdfdoc.Bold), c1(s.Kind, pdfdoc.Body), c1(st, pdfdoc.Body), status, c1(stepNote(s), pdfdoc.Small)})
 	}
 	d.tableSection("Steps of the sequence: not every step was done", cols, rows, nil)
+}
+
+// stepNote is why a step was skipped, not reached or ended the run. Records
+// made before the engine named the step that ended the run gave a step not
+// reached the note left on the results ("not measured: trim saturated"), which
+// says nothing of the step: it reads as the run having ended earlier.
+func stepNote(s sequencer.StepRun) string {
+	if s.Status == sequencer.StepNotReached {
+		if why, ok := strings.CutPrefix(s.Note, "not measured:"); ok {
+			if why = strings.TrimSpace(why); why != "" {
+				return "the run ended earlier: " + why
+			}
+			return "the run ended earlier"
+		}
+	}
+	return s.Note
 }
