@@ -248,7 +248,7 @@ type Result struct {
 	Stage Stage       `json:"stage,omitempty"` // as found, adjustment or as left (0 in records of schema 1: see ResultStageOf)
 	Step  string      `json:"step,omitempty"`  // the step that computed it
 	Value float64     `json:"value"`
-	Unit  string      `json:"unit"` // "V", "ratio" or "code"
+	Unit  string      `json:"unit"` // "V", "ratio", "code" or "number"
 	Valid bool        `json:"valid"`
 	Note  string      `json:"note,omitempty"` // why the value is not valid
 	Unc   Uncertainty `json:"uncertainty"`    // zero for codes (exact integers)

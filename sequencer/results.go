@@ -104,7 +104,7 @@ func (s Stage) String() string {
 type ResultDef struct {
 	Name  string    // what limit files write in uses:
 	Step  string    // the step that declares it
-	Dim   units.Dim // units.Volt, units.Ratio or units.Count; the value is in SI
+	Dim   units.Dim // units.Volt, units.Ratio, units.Count or units.Number; the value is in SI (a Number unscaled)
 	Stage Stage
 	About string // what it is, with its unit, in a few words
 	// Range is where the value can physically be, {low, high} in SI units, for
@@ -115,13 +115,15 @@ type ResultDef struct {
 }
 
 // Unit is the name of the result's dimension as the record writes it: "V",
-// "ratio" or "code".
+// "ratio", "code" or "number" (a plain statistic, shown unscaled).
 func (d ResultDef) Unit() string {
 	switch d.Dim {
 	case units.Volt:
 		return "V"
 	case units.Count:
 		return "code"
+	case units.Number:
+		return "number"
 	}
 	return "ratio"
 }

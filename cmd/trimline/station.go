@@ -216,7 +216,7 @@ func liveLine(i, n int, rec *sequencer.Record, cert string) string {
 		return head + "  " + rec.Fault
 	}
 	var pairs []string
-	for _, dim := range []string{"V", "ratio"} {
+	for _, dim := range []string{"V", "ratio", "number"} {
 		if pair := livePair(rec, dim); pair != "" {
 			pairs = append(pairs, pair)
 		}
@@ -265,7 +265,7 @@ func writeJSONLine(w io.Writer, rec *sequencer.Record, cert string) {
 	json.NewEncoder(w).Encode(u)
 }
 
-// livePair shows a unit's first result of one dimension ("V" or "ratio") as
+// livePair shows a unit's first result of one dimension ("V", "ratio" or "number") as
 // found and its first as left: "offset -448 µV → -12 µV"; "" when it has
 // neither. Voltages have three significant digits as found and two as left,
 // where they sit near the noise.
@@ -286,14 +286,19 @@ func livePair(rec *sequencer.Record, dim string) string {
 		case r == nil || !r.Valid:
 		case dim == "V":
 			v = units.Format(r.Value, "V", digits)
+		case dim == "number":
+			v = units.FormatNumber(r.Value, 3)
 		default:
 			v = fmtRatio(r.Value)
 		}
 		return fmt.Sprintf("%*s", width, v)
 	}
 	widths := [2]int{9, 9}
-	if dim == "ratio" {
+	switch dim {
+	case "ratio":
 		widths = [2]int{8, 7}
+	case "number":
+		widths = [2]int{5, 5}
 	}
 	switch {
 	case found == nil && left == nil:
@@ -352,9 +357,13 @@ func ratioUnit(mag float64) (float64, string) {
 
 // spreadUnit is how a spread of magnitude mag (the larger of |mean| and σ) of
 // a result of dimension dim reads: volts with the SI prefix that suits it, a
-// ratio as ratioUnit says; the factor to multiply by and the unit.
+// plain number as it is, a ratio as ratioUnit says; the factor to multiply by
+// and the unit.
 func spreadUnit(dim units.Dim, mag float64) (float64, string) {
-	if dim != units.Volt {
+	switch dim {
+	case units.Number:
+		return 1, ""
+	case units.Ratio:
 		return ratioUnit(mag)
 	}
 	switch {
