@@ -106,7 +106,7 @@ func (f *fitStep) Check(c *Checker) {
 			c.Errorf("results."+what, "unknown fit result %q (expected one of %s)", what, fitOutputsText())
 			continue
 		}
-		c.Declare("results."+what, ResultDef{Name: name, Dim: o.dim, About: o.about, Range: o.rng(f)})
+		c.Declare("results."+what, ResultDef{Name: name, Dim: o.dim, Quantity: what, About: o.about, Range: o.rng(f)})
 		f.outs = append(f.outs, [2]string{what, name})
 	}
 }

@@ -6,6 +6,7 @@ import (
 	"os"
 	"os/exec"
 	"path/filepath"
+	"regexp"
 	"strings"
 	"testing"
 
@@ -148,4 +149,41 @@ func lineWith(text, s string) string {
 		}
 	}
 	return ""
+}
+
+// The OFX-10 worked example fits offset and gain error as found, and offset,
+// nonlinearity and noise as left: its live line shows the offset before → after
+// and nothing for gain error, which has no as-left partner (it used to be paired
+// with the nonlinearity, as if one quantity had improved).
+func TestLiveLineOFX10PairsOnlyTheSameQuantity(t *testing.T) {
+	rec, _ := runOFX10(t, ofx10Files(t, nil), "OFX-0001")
+	if rec.Verdict != sequencer.Pass {
+		t.Fatalf("verdict %s, fault %q, reasons %q", rec.Verdict, rec.Fault, rec.Reasons)
+	}
+	for _, c := range []struct{ name, quantity string }{
+		{"pre_offset", "offset"}, {"pre_gain_error", "gain_error"}, {"offset_code", "code"},
+		{"post_offset", "offset"}, {"post_nonlinearity", "nonlinearity"}, {"post_noise", "noise"},
+	} {
+		found := false
+		for _, r := range rec.Results {
+			if r.Name == c.name {
+				found = true
+				if r.Quantity != c.quantity {
+					t.Errorf("%s: quantity %q, want %q", c.name, r.Quantity, c.quantity)
+				}
+			}
+		}
+		if !found {
+			t.Errorf("no result %s", c.name)
+		}
+	}
+	line := liveLine(1, 1, rec, "")
+	if !regexp.MustCompile(`offset +\S+ [mµ]?V → +\S+ [mµn]?V`).MatchString(line) {
+		t.Errorf("live line %q: want the offset before → after", line)
+	}
+	for _, bad := range []string{"gain", "nonlinearity", "noise", "%", "ppm"} {
+		if strings.Contains(line, bad) {
+			t.Errorf("live line %q holds %q: a result paired with another quantity", line, bad)
+		}
+	}
 }
