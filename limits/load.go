@@ -543,7 +543,7 @@ func (l *loader) limit(s *entrySrc, f *limitForm) *Limit {
 					unitOK = false
 					what := fmt.Sprintf("is a %s", dim)
 					if bare {
-						what = "is empty (a plain number, for counts and ratios)"
+						what = "is empty (a plain number, for counts, ratios and plain-number results)"
 					}
 					// A variant that changes only the uses is pointed at there.
 					where := s.path("unit")
@@ -595,7 +595,7 @@ func (l *loader) limit(s *entrySrc, f *limitForm) *Limit {
 }
 
 // unit parses a limit's unit. bare is true for the empty unit, which is a plain
-// number and fits counts and ratios.
+// number and fits counts, ratios (as fractions) and plain-number results.
 func (l *loader) unit(path, u string) (scale float64, dim units.Dim, bare, ok bool) {
 	if u == "" {
 		return 1, units.Ratio, true, true
@@ -611,10 +611,11 @@ func (l *loader) unit(path, u string) (scale float64, dim units.Dim, bare, ok bo
 }
 
 // fits reports whether a result of dimension res can be shown in a unit of
-// dimension unit (bare: the empty unit).
+// dimension unit (bare: the empty unit). A plain-number result fits only the
+// empty unit: ppm or % would scale a statistic that is no fraction.
 func fits(res, unit units.Dim, bare bool) bool {
 	if bare {
-		return res == units.Count || res == units.Ratio
+		return res == units.Count || res == units.Ratio || res == units.Number
 	}
 	return res == unit
 }

@@ -28,7 +28,7 @@ import (
 )
 
 // Catalog lists the result names the engine produces and the dimension of each
-// (units.Volt, units.Ratio, units.Count). A limit may only use names in the catalog.
+// (units.Volt, units.Ratio, units.Count, units.Number). A limit may only use names in the catalog.
 type Catalog map[string]units.Dim
 
 // Value is one result handed to Judge: V in SI base units, Valid false when the

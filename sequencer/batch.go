@@ -87,25 +87,26 @@ type Summary struct {
 
 // Spread is the mean and sample standard deviation of one result over the units
 // it is taken over; N is how many had a valid value. Mean and SD are in SI
-// units of Dim (volts, or a plain fraction for a ratio).
+// units of Dim (volts, a plain fraction for a ratio, a plain number for a
+// Number).
 type Spread struct {
 	Result     string
 	Stage      Stage     // AsFound or AsLeft
-	Dim        units.Dim // units.Volt or units.Ratio
+	Dim        units.Dim // units.Volt, units.Ratio or units.Number
 	PassedOnly bool      // over the units that passed (what ships), else every measured unit (the process)
 	Mean, SD   float64
 	N          int
 }
 
-// spreadable reports whether a summary spreads the declared result d: voltages
-// and ratios measured as found (over every measured unit: the process) or as
+// spreadable reports whether a summary spreads the declared result d: voltages,
+// ratios and plain numbers measured as found (over every measured unit: the process) or as
 // left (over the units that passed: what ships). Trim codes are not spread.
 func spreadable(d ResultDef) bool {
-	return (d.Dim == units.Volt || d.Dim == units.Ratio) && (d.Stage == AsFound || d.Stage == AsLeft)
+	return (d.Dim == units.Volt || d.Dim == units.Ratio || d.Dim == units.Number) && (d.Stage == AsFound || d.Stage == AsLeft)
 }
 
-// Summary counts the verdicts, the yield and the spread of every voltage and
-// ratio result the tally's Results declare as found or as left, in their order.
+// Summary counts the verdicts, the yield and the spread of every voltage, ratio
+// and plain-number result the tally's Results declare as found or as left, in their order.
 func (t *Tally) Summary() Summary {
 	s := Summary{Units: len(t.Records)}
 	for _, r := range t.Records {

@@ -257,16 +257,18 @@ type TrimCode struct {
 }
 
 // Result is one named number a limit may judge. Value is in SI base units (volts,
-// plain fractions for ppm and %, counts for codes); Unit names the dimension.
+// plain fractions for ppm and %, counts for codes, plain numbers as they are);
+// Unit names the dimension.
 type Result struct {
-	Name  string      `json:"name"`
-	Stage Stage       `json:"stage,omitempty"` // as found, adjustment or as left (0 in records of schema 1: see ResultStageOf)
-	Step  string      `json:"step,omitempty"`  // the step that computed it
-	Value float64     `json:"value"`
-	Unit  string      `json:"unit"` // "V", "ratio" or "code"
-	Valid bool        `json:"valid"`
-	Note  string      `json:"note,omitempty"` // why the value is not valid
-	Unc   Uncertainty `json:"uncertainty"`    // zero for codes (exact integers)
+	Name     string      `json:"name"`
+	Stage    Stage       `json:"stage,omitempty"`    // as found, adjustment or as left (0 in records of schema 1: see ResultStageOf)
+	Step     string      `json:"step,omitempty"`     // the step that computed it
+	Quantity string      `json:"quantity,omitempty"` // what it measures (ResultDef.Quantity); "" in older records: see QuantityOf
+	Value    float64     `json:"value"`
+	Unit     string      `json:"unit"` // "V", "ratio", "code" or "number"
+	Valid    bool        `json:"valid"`
+	Note     string      `json:"note,omitempty"` // why the value is not valid
+	Unc      Uncertainty `json:"uncertainty"`    // zero for codes (exact integers)
 }
 
 // FaultRecord is the record of a unit that could not be run at all because the

@@ -30,6 +30,25 @@ var firstLayoutStages = map[string]Stage{
 	ResPostOffset: AsLeft, ResPostGainError: AsLeft, ResPostNonlinearity: AsLeft, ResPostMaxError: AsLeft, ResPostNoise: AsLeft,
 }
 
+// firstLayoutQuantities say what each first-layout result measures, for records
+// without Quantity (schema 1, and schema-2 records made before results carried
+// it): the fit output or "code".
+var firstLayoutQuantities = map[string]string{
+	ResPreOffset: "offset", ResPreGainError: "gain_error", ResPreNonlinearity: "nonlinearity",
+	ResOffsetCode: "code", ResGainCode: "code",
+	ResPostOffset: "offset", ResPostGainError: "gain_error", ResPostNonlinearity: "nonlinearity",
+	ResPostMaxError: "max_error", ResPostNoise: "noise",
+}
+
+// QuantityOf is what r measures: its own Quantity, or in a record without it the
+// quantity of the first layout's result of that name ("" for any other).
+func (r Result) QuantityOf() string {
+	if r.Quantity != "" {
+		return r.Quantity
+	}
+	return firstLayoutQuantities[r.Name]
+}
+
 // StageOf is the stage of r: its own, or in a record of schema 1 the stage of
 // the first layout's result of that name (0 for any other).
 func (r Result) StageOf() Stage {
@@ -104,9 +123,14 @@ func (s Stage) String() string {
 type ResultDef struct {
 	Name  string    // what limit files write in uses:
 	Step  string    // the step that declares it
-	Dim   units.Dim // units.Volt, units.Ratio or units.Count; the value is in SI
+	Dim   units.Dim // units.Volt, units.Ratio, units.Count or units.Number; the value is in SI (a Number unscaled)
 	Stage Stage
-	About string // what it is, with its unit, in a few words
+	// Quantity is what the result measures, the same word for the same thing at
+	// every stage: a fit output (offset, gain_error, nonlinearity, max_error,
+	// noise, lack_of_fit), "code" for a trim code, "" when a kind does not say.
+	// An as-found and an as-left result of one Quantity are a before and after.
+	Quantity string
+	About    string // what it is, with its unit, in a few words
 	// Range is where the value can physically be, {low, high} in SI units, for
 	// lint's never-passes and never-fails checks. It may depend on the product:
 	// seq is the sequence in force, or nil when none is known, and ok is false when
@@ -115,13 +139,15 @@ type ResultDef struct {
 }
 
 // Unit is the name of the result's dimension as the record writes it: "V",
-// "ratio" or "code".
+// "ratio", "code" or "number" (a plain statistic, shown unscaled).
 func (d ResultDef) Unit() string {
 	switch d.Dim {
 	case units.Volt:
 		return "V"
 	case units.Count:
 		return "code"
+	case units.Number:
+		return "number"
 	}
 	return "ratio"
 }
@@ -240,7 +266,7 @@ func (r *results) list() []Result {
 	out := make([]Result, 0, len(r.defs))
 	for _, d := range r.defs {
 		v := r.values[d.Name]
-		res := Result{Name: d.Name, Stage: d.Stage, Step: d.Step, Value: v.V, Unit: d.Unit(), Valid: v.Valid, Unc: r.unc[d.Name]}
+		res := Result{Name: d.Name, Stage: d.Stage, Step: d.Step, Quantity: d.Quantity, Value: v.V, Unit: d.Unit(), Valid: v.Valid, Unc: r.unc[d.Name]}
 		if !v.Valid {
 			res.Value, res.Note = 0, v.Why
 		}

@@ -69,6 +69,46 @@ func TestSchema1Stages(t *testing.T) {
 	}
 }
 
+// Every declared result says what it measures: the demo's step list and the
+// first-layout file declare the same quantities, and a record without them (schema
+// 1) reads the same ones from the first layout's names; a name of another
+// product's record without a quantity measures nothing known.
+func TestResultQuantities(t *testing.T) {
+	want := map[string]string{
+		"pre_offset": "offset", "pre_gain_error": "gain_error", "pre_nonlinearity": "nonlinearity",
+		"offset_code": "code", "gain_code": "code",
+		"post_offset": "offset", "post_gain_error": "gain_error", "post_nonlinearity": "nonlinearity",
+		"post_max_error": "max_error", "post_noise": "noise",
+	}
+	_, seq := demoFiles(t, nil)
+	data, err := os.ReadFile("testdata/brx200-sequence-first.yaml")
+	if err != nil {
+		t.Fatal(err)
+	}
+	first, err := sequencer.ParseSequence("brx200-sequence.yaml", data, demoReader(t, nil))
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, s := range []*sequencer.Sequence{seq, first} {
+		for _, d := range s.Results() {
+			if d.Quantity != want[d.Name] {
+				t.Errorf("%s declares quantity %q, want %q", d.Name, d.Quantity, want[d.Name])
+			}
+		}
+	}
+	for name, q := range want {
+		if got := (sequencer.Result{Name: name}).QuantityOf(); got != q {
+			t.Errorf("schema-1 %s: quantity %q, want %q", name, got, q)
+		}
+	}
+	if got := (sequencer.Result{Name: "zero_in"}).QuantityOf(); got != "" {
+		t.Errorf("zero_in without a quantity: %q, want none", got)
+	}
+	if got := (sequencer.Result{Name: "pre_offset", Quantity: "max_error"}).QuantityOf(); got != "max_error" {
+		t.Errorf("a recorded quantity is overridden by the name: %q", got)
+	}
+}
+
 // Physical ranges that depend on the product come from its sequence: the codes
 // from the DACs' bits, outputs from the meter range (the demo's 10 V) less the
 // ideal output (2.5 V); without a sequence nothing is known.

@@ -677,6 +677,8 @@ func RecordCatalog(rec *Record) limits.Catalog {
 			c[r.Name] = units.Volt
 		case "code":
 			c[r.Name] = units.Count
+		case "number":
+			c[r.Name] = units.Number
 		default:
 			c[r.Name] = units.Ratio
 		}

@@ -29,7 +29,7 @@ var fitOutputs = map[string]struct {
 	"nonlinearity": {units.Ratio, "max |residual| / full scale, fraction", func(*fitStep) func(*Sequence) (float64, float64, bool) { return fixedRange(0, 1) }},
 	"max_error":    {units.Volt, "max |mean − ideal| over the fitted levels, V", func(f *fitStep) func(*Sequence) (float64, float64, bool) { return f.maxErrorRange }},
 	"noise":        {units.Volt, "pooled standard deviation of the readings, V rms", func(*fitStep) func(*Sequence) (float64, float64, bool) { return noiseRange }},
-	"lack_of_fit":  {units.Ratio, "χ²/ν of the residuals against the points' uncertainties, or F against pure error where levels repeat", func(*fitStep) func(*Sequence) (float64, float64, bool) { return nil }},
+	"lack_of_fit":  {units.Number, "χ²/ν of the residuals against the points' uncertainties, or F against pure error where levels repeat", func(*fitStep) func(*Sequence) (float64, float64, bool) { return nil }},
 }
 
 // fitStep is a fit as the sequence file writes it.
@@ -106,7 +106,7 @@ func (f *fitStep) Check(c *Checker) {
 			c.Errorf("results."+what, "unknown fit result %q (expected one of %s)", what, fitOutputsText())
 			continue
 		}
-		c.Declare("results."+what, ResultDef{Name: name, Dim: o.dim, About: o.about, Range: o.rng(f)})
+		c.Declare("results."+what, ResultDef{Name: name, Dim: o.dim, Quantity: what, About: o.about, Range: o.rng(f)})
 		f.outs = append(f.outs, [2]string{what, name})
 	}
 }

@@ -157,7 +157,7 @@ func (s *trimStep) Check(c *Checker) {
 	for _, name := range order {
 		for i, d := range s.plan.DACs {
 			if d.Name == name {
-				c.Declare("results."+name, ResultDef{Name: s.names[i], Dim: units.Count, Stage: Adjustment,
+				c.Declare("results."+name, ResultDef{Name: s.names[i], Dim: units.Count, Stage: Adjustment, Quantity: "code",
 					About: d.Name + " trim code written", Range: codeRange(d)})
 			}
 		}

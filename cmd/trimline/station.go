@@ -216,7 +216,7 @@ func liveLine(i, n int, rec *sequencer.Record, cert string) string {
 		return head + "  " + rec.Fault
 	}
 	var pairs []string
-	for _, dim := range []string{"V", "ratio"} {
+	for _, dim := range []string{"V", "ratio", "number"} {
 		if pair := livePair(rec, dim); pair != "" {
 			pairs = append(pairs, pair)
 		}
@@ -265,66 +265,54 @@ func writeJSONLine(w io.Writer, rec *sequencer.Record, cert string) {
 	json.NewEncoder(w).Encode(u)
 }
 
-// livePair shows a unit's first result of one dimension ("V" or "ratio") as
-// found and its first as left: "offset -448 µV → -12 µV"; "" when it has
-// neither. Voltages have three significant digits as found and two as left,
-// where they sit near the noise.
+// livePair shows, for one dimension ("V", "ratio" or "number"), the first
+// quantity the unit measured both as found and as left, before → after:
+// "offset -448 µV → -12 µV". Only results of the same quantity pair (what they
+// measure, Result.QuantityOf: offset with offset, never gain error with
+// nonlinearity); "" when no quantity of the dimension has both. Voltages have
+// three significant digits as found and two as left, where they sit near the
+// noise.
 func livePair(rec *sequencer.Record, dim string) string {
 	var found, left *sequencer.Result
 	for i, r := range rec.Results {
-		switch {
-		case r.Unit != dim:
-		case found == nil && r.StageOf() == sequencer.AsFound:
-			found = &rec.Results[i]
-		case left == nil && r.StageOf() == sequencer.AsLeft:
-			left = &rec.Results[i]
+		q := r.QuantityOf()
+		if r.Unit != dim || q == "" || r.StageOf() != sequencer.AsFound {
+			continue
 		}
+		for j, l := range rec.Results {
+			if l.Unit == dim && l.QuantityOf() == q && l.StageOf() == sequencer.AsLeft {
+				found, left = &rec.Results[i], &rec.Results[j]
+				break
+			}
+		}
+		if found != nil {
+			break
+		}
+	}
+	if found == nil {
+		return ""
 	}
 	show := func(r *sequencer.Result, digits, width int) string {
 		v := "—"
 		switch {
-		case r == nil || !r.Valid:
+		case !r.Valid:
 		case dim == "V":
 			v = units.Format(r.Value, "V", digits)
+		case dim == "number":
+			v = units.FormatNumber(r.Value, 3)
 		default:
 			v = fmtRatio(r.Value)
 		}
 		return fmt.Sprintf("%*s", width, v)
 	}
 	widths := [2]int{9, 9}
-	if dim == "ratio" {
+	switch dim {
+	case "ratio":
 		widths = [2]int{8, 7}
+	case "number":
+		widths = [2]int{5, 5}
 	}
-	switch {
-	case found == nil && left == nil:
-		return ""
-	case found == nil:
-		return fmt.Sprintf("%s %s", label(left.Name), show(left, 2, widths[1]))
-	case left == nil:
-		return fmt.Sprintf("%s %s", label(found.Name), show(found, 3, widths[0]))
-	}
-	return fmt.Sprintf("%s %s → %s", pairLabel(found.Name, left.Name), show(found, 3, widths[0]), show(left, 2, widths[1]))
-}
-
-// pairLabel names a before → after pair by what its result names share, word by
-// word (words joined by "_"): the end ("pre_offset", "post_offset": "offset"),
-// else the start ("zero_in", "zero_out": "zero"), else both names.
-func pairLabel(found, left string) string {
-	a, b := strings.Split(found, "_"), strings.Split(left, "_")
-	n := 0
-	for n < min(len(a), len(b)) && a[len(a)-1-n] == b[len(b)-1-n] {
-		n++
-	}
-	if n > 0 {
-		return label(strings.Join(a[len(a)-n:], "_"))
-	}
-	for n < min(len(a), len(b)) && a[n] == b[n] {
-		n++
-	}
-	if n > 0 {
-		return label(strings.Join(a[:n], "_"))
-	}
-	return label(found) + "/" + label(left)
+	return fmt.Sprintf("%s %s → %s", label(found.QuantityOf()), show(found, 3, widths[0]), show(left, 2, widths[1]))
 }
 
 // label is a result name as a line of text shows it: "gain_error" is "gain error".
@@ -352,9 +340,13 @@ func ratioUnit(mag float64) (float64, string) {
 
 // spreadUnit is how a spread of magnitude mag (the larger of |mean| and σ) of
 // a result of dimension dim reads: volts with the SI prefix that suits it, a
-// ratio as ratioUnit says; the factor to multiply by and the unit.
+// plain number as it is, a ratio as ratioUnit says; the factor to multiply by
+// and the unit.
 func spreadUnit(dim units.Dim, mag float64) (float64, string) {
-	if dim != units.Volt {
+	switch dim {
+	case units.Number:
+		return 1, ""
+	case units.Ratio:
 		return ratioUnit(mag)
 	}
 	switch {

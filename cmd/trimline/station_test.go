@@ -9,27 +9,41 @@ import (
 	"trimline/sequencer"
 )
 
-// A product whose results have other names than the demo's prints them by
-// stage and dimension: a voltage pair before → after, a ratio measured only as
-// left, no trim codes.
+// A product whose results have other names than the demo's pairs them by what
+// they measure, not by name: a voltage before → after labelled by its quantity;
+// a ratio measured only as left, and ratios of different quantities as found
+// and as left, show nothing; no trim codes.
 func TestLiveLineReadsResultsByStage(t *testing.T) {
 	rec := &sequencer.Record{Serial: "ZX-1", Verdict: sequencer.Pass, Results: []sequencer.Result{
-		{Name: "coarse_code", Unit: "code", Stage: sequencer.Adjustment, Value: 97, Valid: true},
-		{Name: "zero_in", Unit: "V", Stage: sequencer.AsFound, Value: -1.234e-3, Valid: true},
-		{Name: "zero_out", Unit: "V", Stage: sequencer.AsLeft, Value: 3.1e-6, Valid: true},
-		{Name: "span_out", Unit: "ratio", Stage: sequencer.AsLeft, Value: 12e-6, Valid: true},
-		{Name: "span_late", Unit: "ratio", Stage: sequencer.AsLeft, Value: 99, Valid: true},
+		{Name: "coarse_code", Unit: "code", Stage: sequencer.Adjustment, Quantity: "code", Value: 97, Valid: true},
+		{Name: "zero_in", Unit: "V", Stage: sequencer.AsFound, Quantity: "offset", Value: -1.234e-3, Valid: true},
+		{Name: "span_in", Unit: "ratio", Stage: sequencer.AsFound, Quantity: "gain_error", Value: -2.72e-3, Valid: true},
+		{Name: "bow_in", Unit: "ratio", Stage: sequencer.AsFound, Value: 7e-6, Valid: true}, // no quantity: never paired
+		{Name: "zero_out", Unit: "V", Stage: sequencer.AsLeft, Quantity: "offset", Value: 3.1e-6, Valid: true},
+		{Name: "span_out", Unit: "ratio", Stage: sequencer.AsLeft, Quantity: "nonlinearity", Value: 5.5e-6, Valid: true},
+		{Name: "bow_out", Unit: "ratio", Stage: sequencer.AsLeft, Value: 99, Valid: true},
 	}}
 	got := liveLine(1, 1, rec, "TL1-000001")
-	for _, want := range []string{"zero  -1.23 mV →    3.1 µV", "span out +12.0 ppm", "TL1-000001"} {
+	for _, want := range []string{"offset  -1.23 mV →    3.1 µV", "TL1-000001"} {
 		if !strings.Contains(got, want) {
 			t.Errorf("live line %q lacks %q", got, want)
 		}
 	}
-	for _, bad := range []string{"offset", "gain", "—", "97", "span late"} {
+	for _, bad := range []string{"zero", "span", "bow", "gain", "nonlinearity", "ppm", "%", "—", "97"} {
 		if strings.Contains(got, bad) {
 			t.Errorf("live line %q holds %q", got, bad)
 		}
+	}
+}
+
+// A plain number pairs like any other quantity, and is shown bare.
+func TestLiveLinePlainNumber(t *testing.T) {
+	rec := &sequencer.Record{Serial: "ZX-2", Verdict: sequencer.Pass, Results: []sequencer.Result{
+		{Name: "pre_lof", Unit: "number", Stage: sequencer.AsFound, Quantity: "lack_of_fit", Value: 1.3002, Valid: true},
+		{Name: "post_lof", Unit: "number", Stage: sequencer.AsLeft, Quantity: "lack_of_fit", Value: 0.871, Valid: true},
+	}}
+	if got, want := liveLine(1, 1, rec, ""), "lack of fit  1.30 → 0.871"; !strings.HasSuffix(got, want) {
+		t.Errorf("live line %q, want it to end %q", got, want)
 	}
 }
 

@@ -30,6 +30,35 @@ func FormatSig(v float64, sig int) string {
 	return strings.Replace(s, "-", "−", 1)
 }
 
+// FormatNumber writes a plain number (a Number: no unit, no scaling) with sig
+// significant digits, keeping trailing zeros because they are significant, no
+// exponent for ordinary sizes (1e-4 ≤ |v| < 1e9) and an ASCII minus:
+// FormatNumber(1.30023, 3) = "1.30", FormatNumber(0.01234, 3) = "0.0123".
+func FormatNumber(v float64, sig int) string {
+	if math.IsNaN(v) || math.IsInf(v, 0) {
+		return strconv.FormatFloat(v, 'g', -1, 64)
+	}
+	sig = max(sig, 1)
+	a := math.Abs(v)
+	if a != 0 && (a < 1e-4 || a >= 1e9) {
+		return strconv.FormatFloat(v, 'g', sig, 64)
+	}
+	dec := sig - 1
+	if a != 0 {
+		// Round first: 9.996 to three digits is 10.0, not 10.00.
+		e := int(math.Floor(math.Log10(a)))
+		if r, _ := strconv.ParseFloat(strconv.FormatFloat(v, 'e', sig-1, 64), 64); math.Abs(r) >= math.Pow(10, float64(e+1)) {
+			e++
+		}
+		dec = max(0, sig-1-e)
+	}
+	s := strconv.FormatFloat(v, 'f', dec, 64)
+	if s == "-0" || strings.Trim(s, "-0.") == "" {
+		s = strings.TrimPrefix(s, "-")
+	}
+	return s
+}
+
 // FormatPercent writes a fraction p (a probability, a yield) as a percentage with
 // three significant digits: FormatPercent(0.92) = "92 %"; below 0.0001 % it is
 // "< 0.0001 %".

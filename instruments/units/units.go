@@ -26,10 +26,12 @@ const (
 	Ohm                // Ω (also written ohm)
 	Celsius            // °C (also written degC)
 	Count              // a count of codes or LSBs ("code", "LSB")
+	Number             // a plain number with no unit and no scaling: a statistic such as χ²/ν
 )
 
 var dimNames = map[Dim]string{Ratio: "ratio (ppm or %)", Volt: "voltage (V)", Ampere: "current (A)",
-	Second: "time (s)", Hertz: "frequency (Hz)", Ohm: "resistance (Ω)", Celsius: "temperature (°C)", Count: "count (code)"}
+	Second: "time (s)", Hertz: "frequency (Hz)", Ohm: "resistance (Ω)", Celsius: "temperature (°C)", Count: "count (code)",
+	Number: "plain number (no unit)"}
 
 func (d Dim) String() string {
 	if s, ok := dimNames[d]; ok {
@@ -156,11 +158,19 @@ func ParseRatio(s string) (float64, error) {
 	return q.Value, nil
 }
 
-// ParseAs parses s and checks that it has dimension want.
+// ParseAs parses s and checks that it has dimension want. A Number is written
+// bare ("1.3"): any unit, ppm and % included, is refused, because a statistic
+// such as χ²/ν is no fraction of anything.
 func ParseAs(s string, want Dim) (float64, error) {
 	q, err := Parse(s)
 	if err != nil {
 		return 0, err
+	}
+	if want == Number {
+		if t := strings.TrimSpace(s); strings.TrimSpace(t[numberEnd(t):]) != "" {
+			return 0, fmt.Errorf("%q has a unit: expected a plain number with no unit, e.g. %s", s, example(Number))
+		}
+		return q.Value, nil
 	}
 	if q.Dim != want {
 		if q.Dim == Ratio && want != Ratio && !strings.ContainsAny(s, "%pm") {
@@ -185,6 +195,8 @@ func example(d Dim) string {
 		return "350Ω"
 	case Celsius:
 		return "23°C"
+	case Number:
+		return "1.3"
 	}
 	return "10ppm"
 }

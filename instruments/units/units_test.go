@@ -116,3 +116,65 @@ func TestParseRatioNeedsAUnit(t *testing.T) {
 		}
 	}
 }
+
+// A Number is a plain number: written bare, read unscaled, any unit refused
+// (ppm and % included: χ²/ν of 1.3 is not 130 %).
+func TestNumber(t *testing.T) {
+	cases := []struct {
+		in   string
+		v    float64
+		fail string
+	}{
+		{in: "1.3", v: 1.3},
+		{in: " 5 ", v: 5},
+		{in: "-2e-3", v: -2e-3},
+		{in: "0", v: 0},
+		{in: "130 %", fail: "has a unit: expected a plain number"},
+		{in: "5 ppm", fail: "has a unit"},
+		{in: "5 code", fail: "has a unit"},
+		{in: "1.3V", fail: "has a unit"},
+		{in: "x", fail: "expected a number"},
+	}
+	for _, c := range cases {
+		v, err := units.ParseAs(c.in, units.Number)
+		if c.fail != "" {
+			if err == nil || !strings.Contains(err.Error(), c.fail) {
+				t.Errorf("ParseAs(%q, Number) error %v, want one containing %q", c.in, err, c.fail)
+			}
+			continue
+		}
+		if err != nil || v != c.v {
+			t.Errorf("ParseAs(%q, Number) = %g, %v; want %g", c.in, v, err, c.v)
+		}
+	}
+	// A plain number is refused where a unit is needed, and named as such.
+	if _, err := units.ParseAs("1.3 %", units.Volt); err == nil {
+		t.Error("ParseAs(1.3 %, Volt) accepted a ratio")
+	}
+	if got := units.Number.String(); got != "plain number (no unit)" {
+		t.Errorf("Number.String() = %q", got)
+	}
+
+	// Significant digits, hand-worked; trailing zeros kept because they count.
+	for _, c := range []struct {
+		v    float64
+		sig  int
+		want string
+	}{
+		{1.30023, 3, "1.30"},
+		{1.3, 3, "1.30"},
+		{0.01234, 3, "0.0123"},
+		{123.456, 3, "123"},
+		{9.996, 3, "10.0"},
+		{-2.5, 2, "-2.5"},
+		{0, 3, "0.00"},
+		{-0.0001, 1, "-0.0001"},
+		{1.5e-7, 2, "1.5e-07"},
+		{2e12, 3, "2e+12"},
+		{math.Inf(1), 3, "+Inf"},
+	} {
+		if got := units.FormatNumber(c.v, c.sig); got != c.want {
+			t.Errorf("FormatNumber(%g, %d) = %q, want %q", c.v, c.sig, got, c.want)
+		}
+	}
+}

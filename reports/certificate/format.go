@@ -135,7 +135,8 @@ func outcomeKeys(o limits.Outcome) []string {
 }
 
 // fmtResult writes a result's value in its dimension: volts with an SI prefix,
-// ratios in ppm (or % when large), codes as integers.
+// ratios in ppm (or % when large), codes as integers, plain numbers (a
+// lack-of-fit statistic) bare with three significant digits: "1.30".
 func fmtResult(r sequencer.Result) string {
 	if !r.Valid || math.IsNaN(r.Value) || math.IsInf(r.Value, 0) {
 		return "not valid"
@@ -150,6 +151,8 @@ func fmtResult(r sequencer.Result) string {
 		return pdfdoc.Minus(units.Format(r.Value*1e6, "ppm", 4))
 	case "code":
 		return pdfdoc.Minus(strconv.FormatFloat(math.Round(r.Value), 'f', 0, 64))
+	case "number":
+		return pdfdoc.Minus(units.FormatNumber(r.Value, 3))
 	}
 	return strings.TrimSpace(fmtNum(r.Value) + " " + r.Unit)
 }
@@ -301,6 +304,8 @@ func resultUnit(r sequencer.Result) (string, float64) {
 		return "ppm", 1e-6
 	case "code":
 		return "code", 1
+	case "number":
+		return "", 1
 	}
 	return r.Unit, 1
 }

@@ -119,6 +119,15 @@ func TestUnitScaleAndResultUnit(t *testing.T) {
 	if got := fmtResultU(r); got != "63.13 ppm ± 0.49 ppm" {
 		t.Errorf("fmtResultU = %q", got)
 	}
+	// A plain number (χ²/ν) is written bare, never scaled to % (hand-worked).
+	r = sequencer.Result{Value: 1.3002250281376555, Unit: "number", Valid: true}
+	if got := fmtResultU(r); got != "1.30" {
+		t.Errorf("fmtResultU(χ²/ν) = %q, want 1.30", got)
+	}
+	r.Unc.Expanded = 0.0412
+	if got := fmtResultU(r); got != "1.300 ± 0.042" {
+		t.Errorf("fmtResultU(χ²/ν with U) = %q, want 1.300 ± 0.042", got)
+	}
 }
 
 func TestStagesAndAmbient(t *testing.T) {
