@@ -184,6 +184,32 @@ func setupWith(t testing.TB, scheme string, set map[string]map[string]string, li
 
 // ideal makes every instrument error and noise zero, so outcomes are exactly
 // predictable from the DUT model.
+// openEngine opens st and seq on the bench with a test operator; the engine is
+// closed when the test ends.
+func openEngine(t testing.TB, st *sequencer.Station, seq *sequencer.Sequence) *sequencer.Engine {
+	t.Helper()
+	e, err := sequencer.Open(context.Background(), sequencer.Config{Station: st, Sequence: seq, Operator: "test", Software: "test"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	t.Cleanup(func() { e.Close() })
+	return e
+}
+
+// loadFiles loads a station and a sequence file (and the limit file it names).
+func loadFiles(t testing.TB, station, sequence string) (*sequencer.Station, *sequencer.Sequence) {
+	t.Helper()
+	st, err := sequencer.LoadStation(station)
+	if err != nil {
+		t.Fatal(err)
+	}
+	seq, err := sequencer.LoadSequence(sequence)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return st, seq
+}
+
 // onIdealBench gives every instrument of st the ideal bench's settings.
 func onIdealBench(st *sequencer.Station) {
 	for role, in := range st.Instruments {

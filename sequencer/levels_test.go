@@ -62,11 +62,7 @@ func TestSweepAtTheCapRuns(t *testing.T) {
 		t.Fatalf("a sweep ending at the cap is refused: %v", err)
 	}
 	onIdealBench(st)
-	e, err := sequencer.Open(context.Background(), sequencer.Config{Station: st, Sequence: seq, Operator: "test", Software: "test"})
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer e.Close()
+	e := openEngine(t, st, seq)
 	rec := e.Run(context.Background(), "BRX-00012")
 	if rec.Verdict == sequencer.Fault || rec.Verdict == sequencer.Aborted {
 		t.Fatalf("verdict %s: %s", rec.Verdict, rec.Fault)

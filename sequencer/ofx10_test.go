@@ -20,19 +20,8 @@ import (
 // TestReadmeSequenceExamplesLoad), and they trim simulated units to PASS.
 func TestSecondProductRunsOnTheSimulator(t *testing.T) {
 	dir := filepath.Join("testdata", "ofx10")
-	st, err := sequencer.LoadStation(filepath.Join(dir, "ofx10-station.yaml"))
-	if err != nil {
-		t.Fatal(err)
-	}
-	seq, err := sequencer.LoadSequence(filepath.Join(dir, "ofx10-sequence.yaml"))
-	if err != nil {
-		t.Fatal(err)
-	}
-	e, err := sequencer.Open(context.Background(), sequencer.Config{Station: st, Sequence: seq, Operator: "test", Software: "test"})
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer e.Close()
+	st, seq := loadFiles(t, filepath.Join(dir, "ofx10-station.yaml"), filepath.Join(dir, "ofx10-sequence.yaml"))
+	e := openEngine(t, st, seq)
 	for _, serial := range []string{"OFX-0001", "OFX-0002", "OFX-0003", "OFX-0004", "OFX-0005"} {
 		rec := e.Run(context.Background(), serial)
 		if rec.Verdict != sequencer.Pass {
@@ -68,11 +57,7 @@ func TestSecondProductLockedWithoutUnlock(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	e, err := sequencer.Open(context.Background(), sequencer.Config{Station: st, Sequence: seq, Operator: "test", Software: "test"})
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer e.Close()
+	e := openEngine(t, st, seq)
 	rec := e.Run(context.Background(), "OFX-0001")
 	if rec.Verdict != sequencer.Fault || !strings.Contains(rec.Fault, "locked") {
 		t.Errorf("verdict %s, fault %q: want FAULT naming the lock", rec.Verdict, rec.Fault)

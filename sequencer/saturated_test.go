@@ -27,19 +27,8 @@ func saturatedOFX10(t *testing.T) *sequencer.Record {
 	if err := os.WriteFile(path, []byte(strings.Replace(string(data), lsb, lsb+"      offset: 12 mV\n", 1)), 0o644); err != nil {
 		t.Fatal(err)
 	}
-	st, err := sequencer.LoadStation(path)
-	if err != nil {
-		t.Fatal(err)
-	}
-	seq, err := sequencer.LoadSequence(filepath.Join(src, "ofx10-sequence.yaml"))
-	if err != nil {
-		t.Fatal(err)
-	}
-	e, err := sequencer.Open(context.Background(), sequencer.Config{Station: st, Sequence: seq, Operator: "test", Software: "test"})
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer e.Close()
+	st, seq := loadFiles(t, path, filepath.Join(src, "ofx10-sequence.yaml"))
+	e := openEngine(t, st, seq)
 	rec := e.Run(context.Background(), "OFX-0001")
 	if rec.Verdict != sequencer.Fail || len(rec.Trims) != 1 || !rec.Trims[0].Saturated || rec.Trims[0].Written {
 		t.Fatalf("verdict %s, trims %+v: want FAIL with the offset trim saturated and not written", rec.Verdict, rec.Trims)

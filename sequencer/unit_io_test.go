@@ -76,11 +76,7 @@ func TestKindMeasuresThroughTheUnit(t *testing.T) {
 	}
 	st, _ := demoFiles(t, nil)
 	onIdealBench(st)
-	e, err := sequencer.Open(context.Background(), sequencer.Config{Station: st, Sequence: seq, Operator: "test", Software: "test"})
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer e.Close()
+	e := openEngine(t, st, seq)
 	rec := e.Run(context.Background(), "BRX-00012")
 	var got *sequencer.Result
 	for i := range rec.Results {
@@ -114,11 +110,7 @@ func TestUndeclaredLevelIsRefused(t *testing.T) {
 	}
 	st, _ := demoFiles(t, nil)
 	onIdealBench(st)
-	e, err := sequencer.Open(context.Background(), sequencer.Config{Station: st, Sequence: seq, Operator: "test", Software: "test"})
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer e.Close()
+	e := openEngine(t, st, seq)
 	rec := e.Run(context.Background(), "BRX-00012")
 	if rec.Verdict != sequencer.Fault || !strings.Contains(rec.Fault, "a level its Stimuli did not declare") {
 		t.Errorf("verdict %s, fault %q", rec.Verdict, rec.Fault)
