@@ -568,16 +568,6 @@ func parseLSB(s string, dim units.Dim) (float64, error) {
 	return units.ParseAs(s, dim)
 }
 
-func parentPath(p string) string { return p[:strings.LastIndex(p, ".")] }
-
-func contains(list []string, s string) bool {
-	for _, x := range list {
-		if x == s {
-			return true
-		}
-	}
-	return false
-}
 
 // LoadSequenceSteps reads a sequence file without the limit file it names: for
 // tools that judge a limit file against the product's results (lint, release)
