@@ -568,7 +568,6 @@ func parseLSB(s string, dim units.Dim) (float64, error) {
 	return units.ParseAs(s, dim)
 }
 
-
 // LoadSequenceSteps reads a sequence file without the limit file it names: for
 // tools that judge a limit file against the product's results (lint, release)
 // even while that limit file does not load. The returned sequence has no Limits.
