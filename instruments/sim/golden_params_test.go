@@ -13,7 +13,6 @@ import (
 // (a golden test of the whole station depends on them). Serials cover good units and
 // each defect kind under the bench seeds 1 and 8 (the demo station's).
 var (
-	pinSerials = []string{"BRX-000001", "BRX-000417", "BRX-123456", "BRX-000032", "BRX-000121", "BRX-000175", "BRX-000012"}
 	pinInputs  = []float64{-10e-3, 0, 3.5e-3, 12e-3}
 	pinCodes   = [][2]int{{2048, 2048}, {100, 4000}, {4095, 0}, {2731, 1365}}
 )
