@@ -13,8 +13,8 @@ import (
 // (a golden test of the whole station depends on them). Serials cover good units and
 // each defect kind under the bench seeds 1 and 8 (the demo station's).
 var (
-	pinInputs  = []float64{-10e-3, 0, 3.5e-3, 12e-3}
-	pinCodes   = [][2]int{{2048, 2048}, {100, 4000}, {4095, 0}, {2731, 1365}}
+	pinInputs = []float64{-10e-3, 0, 3.5e-3, 12e-3}
+	pinCodes  = [][2]int{{2048, 2048}, {100, 4000}, {4095, 0}, {2731, 1365}}
 )
 
 // stuckOf describes the stuck bit of a unit, "" when none.
