@@ -313,7 +313,7 @@ func mustRecord(t testing.TB, l *ledger.Ledger, rec *sequencer.Record, prefix st
 // insertRecordRows inserts rec's query rows as the ledger has always written them,
 // into the columns the file's tables have (an old schema has fewer; the columns
 // added later are NULL for the records of its time, but for those migration
-// 0007 fills from the record, and its tables, which it fills). exec is oldFile's.
+// 0007 and 0008 fill from the record, and the tables 0007 adds, which it fills). exec is oldFile's.
 func insertRecordRows(t *testing.T, db *sql.DB, exec func(q string, args ...any), rec *sequencer.Record) {
 	t.Helper()
 	tables, columns, rows := ledger.RecordRows(rec)
@@ -339,7 +339,7 @@ func insertRecordRows(t *testing.T, db *sql.DB, exec func(q string, args ...any)
 				if have[c] {
 					cols = append(cols, c)
 					args = append(args, r[i])
-				} else if r[i] != nil && !filledBy0007[table+"."+c] {
+				} else if r[i] != nil && !filledByMigration[table+"."+c] {
 					t.Fatalf("%s.%s: the old schema has no such column, but the record gives it %v", table, c, r[i])
 				}
 			}
@@ -348,9 +348,11 @@ func insertRecordRows(t *testing.T, db *sql.DB, exec func(q string, args ...any)
 	}
 }
 
-// filledBy0007 are the columns migration 0007 adds and fills from the record.
-var filledBy0007 = map[string]bool{
+// filledByMigration are the columns migrations 0007 and 0008 add and fill
+// from the record.
+var filledByMigration = map[string]bool{
 	"results.stage": true, "results.step": true,
 	"fits.step": true, "fits.fit_order": true, "fits.coef_json": true,
 	"fits.lack_of_fit_method": true, "fits.lack_of_fit": true, "fits.lack_of_fit_p": true,
+	"instruments.kind": true,
 }

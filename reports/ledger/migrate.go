@@ -43,6 +43,7 @@ const backfillMarker = "-- trimline:backfill"
 var backfills = map[int]func(ctx context.Context, tx *sql.Tx) error{
 	3: backfill0003,
 	7: backfill0007,
+	8: backfill0008,
 }
 
 var migrationName = regexp.MustCompile(`^([0-9]{4})_([a-z0-9_]+)\.sql$`)

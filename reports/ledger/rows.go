@@ -60,7 +60,7 @@ var derivedTables = []derivedTable{
 		"step", "fit_order", "coef_json", "lack_of_fit_method", "lack_of_fit", "lack_of_fit_p"}},
 	{"trims", []string{"dac", "before_code", "code", "ideal", "readback", "saturated", "stored"}},
 	{"files", []string{"kind", "name", "title", "sha256"}},
-	{"instruments", []string{"role", "address", "asset", "cal_due", "identity"}},
+	{"instruments", []string{"role", "address", "asset", "cal_due", "identity", "kind"}},
 	{"sweeps", []string{"sweep", "stage", "points"}},
 	{"steps", []string{"step_index", "name", "kind", "stage", "status", "note"}},
 }
@@ -135,7 +135,8 @@ func recordRows(rec *sequencer.Record) ([][]derivedRow, error) {
 		out[5] = append(out[5], namedRow(f.Kind+" file ", f.Name, []any{f.Kind, f.Name, f.Title, f.SHA256}))
 	}
 	for _, in := range rec.Instruments {
-		out[6] = append(out[6], namedRow("instrument ", in.Role, []any{in.Role, in.Address, in.Asset, in.CalDue, in.Identity.String()}))
+		out[6] = append(out[6], namedRow("instrument ", in.Role, []any{in.Role, in.Address, in.Asset, in.CalDue, in.Identity.String(),
+			nullText(string(in.RoleKind()))}))
 	}
 	for _, sw := range rec.Sweeps {
 		out[7] = append(out[7], namedRow("sweep ", sw.Name, []any{sw.Name, stageOrNull(sw.StageOf()), len(sw.Points)}))
@@ -314,19 +315,31 @@ func insertRows(ctx context.Context, tx *sql.Tx, t derivedTable, runID string, r
 	return nil
 }
 
-// backfill0007 is the Go step of migration 0007: for every stored run, in the
-// order stored, it decodes the signed record and gives its results and fits
-// rows the columns 0007 adds, and inserts its sweeps and steps rows, all as
-// recordRows derives them (for a record of schema 1, the first layout's stages
-// by name; see the migration). A run whose record does not decode, or whose
-// rows are not as many as its record's, is left as it is: VerifyChain reports
-// it, as it did before the migration.
+// backfill0007 is the Go step of migration 0007: it gives every stored run's
+// results and fits rows the columns 0007 adds, and inserts its sweeps and steps
+// rows (for a record of schema 1, the first layout's stages by name; see the
+// migration).
 func backfill0007(ctx context.Context, tx *sql.Tx) error {
-	added := map[string][]string{
+	return backfillRuns(ctx, tx, map[string][]string{
 		"results": {"stage", "step"},
 		"fits":    {"step", "fit_order", "coef_json", "lack_of_fit_method", "lack_of_fit", "lack_of_fit_p"},
-	}
-	created := []string{"sweeps", "steps"}
+	}, []string{"sweeps", "steps"})
+}
+
+// backfill0008 is the Go step of migration 0008: it gives every stored run's
+// instruments rows their kind (for a record of schema 1, the kind of the
+// role's name; see the migration).
+func backfill0008(ctx context.Context, tx *sql.Tx) error {
+	return backfillRuns(ctx, tx, map[string][]string{"instruments": {"kind"}}, nil)
+}
+
+// backfillRuns is a migration's Go step: for every stored run, in the order
+// stored, it decodes the signed record and sets the columns added[table] of
+// its rows of each table, and inserts its rows of each table in created, all
+// as recordRows derives them. A run whose record does not decode, or whose
+// rows are not as many as its record's, is left as it is: VerifyChain reports
+// it, as it did before the migration.
+func backfillRuns(ctx context.Context, tx *sql.Tx, added map[string][]string, created []string) error {
 	var ids []string
 	err := eachRow(ctx, tx, `SELECT run_id FROM runs ORDER BY rowid`, nil, func(rows *sql.Rows) error {
 		var id string

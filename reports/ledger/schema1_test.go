@@ -9,6 +9,7 @@ import (
 	"testing"
 
 	"trimline/reports/ledger"
+	"trimline/reports/ledger/ledgertest"
 	"trimline/sequencer"
 )
 
@@ -42,7 +43,8 @@ func schema1Demo(t testing.TB) string {
 
 // A ledger made before migration 0007 opens (the migration runs), its chain
 // and every query row still check, and the rows of its schema-1 run carry the
-// stages the first layout stands for: old rows query like new ones.
+// stages the first layout stands for and (0008) the kinds its role names
+// stand for: old rows query like new ones.
 func TestSchema1LedgerMigrates(t *testing.T) {
 	dir := schema1Demo(t)
 	path := filepath.Join(dir, "ledger.db")
@@ -72,6 +74,9 @@ func TestSchema1LedgerMigrates(t *testing.T) {
 		{`SELECT group_concat(sweep || '=' || fit_order || '/' || coalesce(step, 'NULL'), ' ') FROM (SELECT * FROM fits ORDER BY rowid)`, "pre-trim=1/NULL verify=1/NULL"},
 		{`SELECT count(*) FROM steps`, "0"},
 		{`SELECT count(*) FROM readings r JOIN sweeps s USING (run_id, sweep) WHERE s.stage = 'as_left'`, "88"},
+		// 0008: the kind of each role, by its name in a record of schema 1.
+		{`SELECT group_concat(role || '=' || coalesce(kind, 'NULL'), ' ') FROM (SELECT * FROM instruments ORDER BY rowid)`,
+			"source=voltage_source meter=meter dut=dut_port"},
 	} {
 		var got string
 		if err := db.QueryRow(c.query).Scan(&got); err != nil || got != c.want {
@@ -91,6 +96,48 @@ func TestSchema1LedgerMigrates(t *testing.T) {
 	rep, err = l.VerifyChain(ctx, "")
 	if err != nil || rep.OK || rep.BrokenTable != "results" || rep.BrokenColumn != "stage" {
 		t.Fatalf("VerifyChain with a stage changed: %+v, %v; want results.stage broken", rep, err)
+	}
+}
+
+// A run of schema 2 whose roles have names of the station's choosing stores
+// each role's kind from the record; a changed kind breaks the row check.
+func TestInstrumentKindsOfSchema2(t *testing.T) {
+	dir := schema1Demo(t)
+	path := filepath.Join(dir, "ledger.db")
+	l, err := ledger.Open(ctx, path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer l.Close()
+	rec := makeRecord("run-kinds", "SN-KINDS", sequencer.Pass, recordShape{sweeps: 2, points: 2, readings: 2})
+	for i, k := range []struct {
+		role string
+		kind sequencer.RoleKind
+	}{{"input", sequencer.VoltageSource}, {"dmm", sequencer.VoltMeter}, {"card", sequencer.DUTPort}} {
+		rec.Instruments[i].Role, rec.Instruments[i].Kind = k.role, k.kind
+	}
+	mustRecord(t, l, rec, "S2")
+	if rep, err := l.VerifyChain(ctx, ""); err != nil || !rep.OK || rep.Runs != 2 {
+		t.Fatalf("VerifyChain: %+v, %v", rep, err)
+	}
+	db := rawDB(t, path)
+	var got string
+	err = db.QueryRow(`SELECT group_concat(role || '=' || coalesce(kind, 'NULL'), ' ') FROM (SELECT * FROM instruments WHERE run_id = 'run-kinds' ORDER BY rowid)`).Scan(&got)
+	if want := "input=voltage_source dmm=meter card=dut_port"; err != nil || got != want {
+		t.Fatalf("instrument kinds: %q (%v), want %q", got, err, want)
+	}
+	if _, err := db.Exec(`UPDATE instruments SET kind = 'meter' WHERE role = 'input'`); err == nil {
+		t.Fatal("an instruments row was updated with its append-only trigger in place")
+	}
+	if _, err := db.Exec(`INSERT INTO instruments (run_id, role, address, asset, cal_due, identity, kind) VALUES ('run-kinds', 'x', '', '', '', '', 'scope')`); err == nil {
+		t.Fatal("an instruments row took kind 'scope'")
+	}
+	if err := ledgertest.EditRow(path, "instruments", "kind = 'meter'", "run_id = 'run-kinds' AND role = 'input'"); err != nil {
+		t.Fatal(err)
+	}
+	rep, err := l.VerifyChain(ctx, "")
+	if err != nil || rep.OK || rep.BrokenTable != "instruments" || rep.BrokenColumn != "kind" || rep.BrokenAt != "run-kinds" {
+		t.Fatalf("VerifyChain with a kind changed: %+v, %v; want instruments.kind of run-kinds broken", rep, err)
 	}
 }
 
