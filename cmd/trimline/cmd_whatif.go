@@ -6,6 +6,7 @@ import (
 	"fmt"
 	"time"
 
+	"trimline/instruments/files"
 	"trimline/reports/whatif"
 )
 
@@ -21,7 +22,8 @@ also written as a PDF with histograms.
 
 The result names the limit files may use are those of the product's steps: with
 --sequence, that sequence's; without it, those of the sequence files beside each
-limit file that name it or are for the product it names (limit_set.product).`,
+limit file that name it or are for the product it names (limit_set.product), and
+when there are none, those the ledger's runs of that product recorded.`,
 	}
 	ledgerPath := c.Flag.String("ledger", "", "ledger `file` to re-judge")
 	product := c.Flag.String("product", "", "only units of this `product` (default: the new file's)")
@@ -33,10 +35,6 @@ limit file that name it or are for the product it names (limit_set.product).`,
 	c.Run = func(ctx context.Context, e *env, pos []string) error {
 		if len(pos) != 1 || *ledgerPath == "" {
 			return usagef("usage: %s", c.UsageLine)
-		}
-		nw, err := loadLimitSet(pos[0], *sequence)
-		if err != nil {
-			return err
 		}
 		var from, to time.Time
 		for _, d := range []struct {
@@ -53,14 +51,26 @@ limit file that name it or are for the product it names (limit_set.product).`,
 			}
 			*d.t = v.AddDate(0, 0, d.add)
 		}
-		req := whatif.Request{Ledger: *ledgerPath, New: nw, Product: *product, Since: from, Until: to,
-			PDF: *pdfPath, Generated: time.Now()}
-		if *oldPath != "" {
-			if req.Old, err = loadLimitSet(*oldPath, *sequence); err != nil {
+		req := whatif.Request{Ledger: *ledgerPath, NewFile: pos[0], OldFile: *oldPath, Product: *product,
+			Since: from, Until: to, PDF: *pdfPath, Generated: time.Now()}
+		if *sequence != "" { // the sequence's steps name the results; without it, Run reads the files
+			var err error
+			if req.New, err = loadLimitSet(pos[0], *sequence); err != nil {
 				return err
 			}
+			if *oldPath != "" {
+				if req.Old, err = loadLimitSet(*oldPath, *sequence); err != nil {
+					return err
+				}
+			}
 		}
+		var loadErr *whatif.LoadError
 		if _, err := whatif.Run(ctx, req, e.stdout); errors.Is(err, whatif.ErrNoRuns) {
+			return badInput(err)
+		} else if errors.As(err, &loadErr) {
+			if fe := files.Errs(err); fe != nil {
+				return badInput(detailed(fe))
+			}
 			return badInput(err)
 		} else if err != nil {
 			return err

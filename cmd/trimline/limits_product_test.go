@@ -77,3 +77,23 @@ func TestCheckReadsADraftAgainstItsProduct(t *testing.T) {
 		t.Fatalf("check of a draft with its product's sequence: exit %d\nstdout:\n%s\nstderr:\n%s", code, out, errOut)
 	}
 }
+
+// What-if of a draft alone in an empty folder, no --sequence: its result names
+// are those the ledger's runs of its product recorded, so it loads and the
+// tightened tolerance flips the stored units.
+func TestLimitsWhatIfTakesResultNamesFromTheLedger(t *testing.T) {
+	dir, _, draft, sequence := ofx10Draft(t)
+	args := []string{"run", "--station", filepath.Join(dir, "ofx10-station.yaml"), "--sequence", sequence, "--out", dir}
+	for _, sn := range []string{"OFX-0001", "OFX-0002", "OFX-0003"} {
+		args = append(args, "--serial", sn)
+	}
+	if code, out, errOut := runCLI(t, args...); code != 0 {
+		t.Fatalf("run: exit %d\n%s%s", code, out, errOut)
+	}
+	alone := copyWith(t, draft, filepath.Join(t.TempDir(), "draft.yaml"),
+		"tolerance: {lower: -1000, upper: 1000}", "tolerance: {lower: -1, upper: 1}")
+	code, out, errOut := runCLI(t, "limits", "whatif", alone, "--ledger", filepath.Join(dir, "ledger.db"))
+	if code != 0 || !strings.Contains(out, "Units re-judged: 3") || !strings.Contains(out, "pass → review/fail: 3") {
+		t.Fatalf("whatif of a draft alone: exit %d\nstdout:\n%s\nstderr:\n%s", code, out, errOut)
+	}
+}

@@ -29,6 +29,9 @@ type StoredUnit struct {
 	Product       string
 	Values        map[string]limits.Value // the results as stored (V, U, K, DOF, Valid), SI units
 	OldVerdict    string                  // "pass", "review" or "fail" as recorded
+	// Catalog is the results the record holds with the dimension each was
+	// recorded in (sequencer.RecordCatalog); nil when not read from a ledger.
+	Catalog limits.Catalog
 }
 
 // HistBins is the number of bins of a distribution.

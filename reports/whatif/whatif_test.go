@@ -14,6 +14,7 @@ import (
 	"testing"
 	"time"
 
+	"trimline/instruments/units"
 	"trimline/limits"
 	"trimline/limits/limitstest"
 	"trimline/reports/whatif"
@@ -377,4 +378,26 @@ func BenchmarkWhatIf100k(b *testing.B) {
 
 func within(got, want, rel float64) bool {
 	return math.Abs(got-want) <= rel*math.Abs(want)
+}
+
+// Catalog is the union of what the stored runs of one product recorded; a
+// result recorded in two units is an error naming both runs.
+func TestCatalogFromStoredRuns(t *testing.T) {
+	stored := []whatif.StoredUnit{
+		{Serial: "OFX-0002", RunID: "run-2", Product: "OFX-10", Catalog: limits.Catalog{"zero_found": units.Volt}},
+		{Serial: "OFX-0001", RunID: "run-1", Product: "ofx-10", Catalog: limits.Catalog{"post_noise": units.Volt}},
+		{Serial: "BRX-0001", RunID: "run-0", Product: "BRX-200", Catalog: sequencer.FirstLayoutCatalog()},
+	}
+	cat, err := whatif.Catalog(stored, "OFX-10")
+	if err != nil || len(cat) != 2 || cat["zero_found"] != units.Volt || cat["post_noise"] != units.Volt {
+		t.Fatalf("Catalog = %v, %v; want zero_found and post_noise, both volts", cat, err)
+	}
+	if cat, err := whatif.Catalog(stored, "XYZ-1"); cat != nil || err != nil {
+		t.Errorf("no runs of the product: %v, %v; want nil, nil", cat, err)
+	}
+	stored[1].Catalog["zero_found"] = units.Count
+	_, err = whatif.Catalog(stored, "OFX-10")
+	if err == nil || !strings.Contains(err.Error(), `"zero_found"`) || !strings.Contains(err.Error(), "run-2") || !strings.Contains(err.Error(), "run-1") {
+		t.Errorf("a result recorded in two units: %v; want an error naming it and both runs", err)
+	}
 }
