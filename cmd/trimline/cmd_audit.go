@@ -26,7 +26,7 @@ func newAuditCmd() *command {
 
 func newAuditVerifyCmd() *command {
 	c := &command{
-		UsageLine: "trimline audit verify FILE.pdf --keys DIR|--trust FILE [--ledger DB] [--no-ledger]",
+		UsageLine: "trimline audit verify FILE.pdf --keys DIR|--trust FILE [--ledger DB] [--no-ledger] [--json]",
 		Short:     "tell whether a certificate PDF is genuine, altered or unknown",
 		Long: `Says genuine, altered, unknown, voided or superseded, with the reason: the PDF's
 hash against the ledger's document and its signature, the record's signature by a
@@ -48,6 +48,7 @@ superseded.`,
 	}
 	a := newAuditor(c)
 	c.Flag.BoolVar(&a.noLedger, "no-ledger", false, "verify from the seal beside the PDF and the trusted keys alone")
+	a.json = jsonFlag(c, "the verdict")
 	c.Run = func(ctx context.Context, e *env, args []string) error {
 		if len(args) != 1 {
 			return usagef("usage: trimline audit verify FILE.pdf")
@@ -172,6 +173,7 @@ given, must agree with it. The certificate stays in the ledger and the audit tra
 type auditor struct {
 	ledgerPath, keysDir, trustFile string
 	noLedger                       bool           // verify from the seal alone
+	json                           *bool          // verify: the verdict as JSON (nil: no such flag)
 	trusted                        *signing.Trust // loaded by trust
 }
 
@@ -274,6 +276,24 @@ var errNotGenuine = errors.New("not genuine")
 
 // verdictOut prints the verification outcome; only genuine succeeds.
 func (a *auditor) verdictOut(e *env, file string, v audit.Verdict) error {
+	if a.json != nil && *a.json {
+		var source string
+		var stations []string
+		if a.trusted != nil {
+			source, stations = a.trusted.Source, a.trusted.Stations()
+		}
+		writeJSON(e.stdout, newVerificationOut(file, v, a.noLedger, a.ledgerPath, source, stations))
+	} else {
+		a.verdictText(e, file, v)
+	}
+	if v.Kind == audit.Genuine {
+		return nil
+	}
+	return report(rejected(fmt.Errorf("%s: %w", v.Kind, errNotGenuine)))
+}
+
+// verdictText prints the verification outcome for a person.
+func (a *auditor) verdictText(e *env, file string, v audit.Verdict) {
 	head := strings.ToUpper(v.Kind)
 	if a.noLedger {
 		head += " (by its seal alone; voids, supersedes and the chain not checked)"
@@ -285,10 +305,6 @@ func (a *auditor) verdictOut(e *env, file string, v audit.Verdict) error {
 	if l := trustedLine(a.trusted); l != "" {
 		fmt.Fprintf(e.stdout, "  (%s)\n", l)
 	}
-	if v.Kind == audit.Genuine {
-		return nil
-	}
-	return report(rejected(fmt.Errorf("%s: %w", v.Kind, errNotGenuine)))
 }
 
 func (a *auditor) verify(ctx context.Context, e *env, file string) error {

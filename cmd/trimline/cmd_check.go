@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"io"
 	"maps"
+	"slices"
 	"strings"
 	"text/tabwriter"
 
@@ -16,7 +17,7 @@ import (
 
 func newCheckCmd() *command {
 	c := &command{
-		UsageLine: "trimline check [--steps] FILE|FOLDER...",
+		UsageLine: "trimline check [--steps] [--json] FILE|FOLDER...",
 		Short:     "validate station, sequence and limit files",
 		Long: `Loads each file as production would and prints every problem of every file,
 in one pass, as file:line:col with an excerpt. The kind of each file is told by its
@@ -44,6 +45,7 @@ Exit code 0 when no file has an error (warnings are printed but do not count), 2
 otherwise.`,
 	}
 	showSteps := c.Flag.Bool("steps", false, "after each sequence, list the steps it read (name, kind, stage, roles, results)")
+	asJSON := jsonFlag(c, "one object with every file, problem and TUR line")
 	c.Run = func(ctx context.Context, e *env, args []string) error {
 		if len(args) == 0 {
 			return usagef("name at least one file")
@@ -52,6 +54,12 @@ otherwise.`,
 		var other []error
 		var stations []*sequencer.Station
 		var seqs []*sequencer.Sequence
+		// With --json the text goes nowhere and out collects the same.
+		stdout, stderr := e.stdout, e.stderr
+		if *asJSON {
+			stdout, stderr = io.Discard, io.Discard
+		}
+		out := checkOut{Kind: kindCheck, Version: jsonVersion, Files: []fileOut{}, Problems: []problem{}, TUR: []turOut{}, Notes: []string{}}
 		args, err := expandFolders(args)
 		if err != nil {
 			return badInput(err)
@@ -78,15 +86,18 @@ otherwise.`,
 			}
 			if o := recogniseOther(path); o != nil {
 				if o.elsewhere != nil {
-					fmt.Fprintf(e.stdout, "--  %s (%s): %s\n", path, o.kind, o.elsewhere(path))
+					fmt.Fprintf(stdout, "--  %s (%s): %s\n", path, o.kind, o.elsewhere(path))
+					out.Files = append(out.Files, fileOut{Path: path, What: o.kind, OK: true, Says: o.elsewhere(path)})
 					continue
 				}
 				what, err := o.check(path)
 				if err != nil {
 					other = append(other, fmt.Errorf("%s: %s: %w", path, o.kind, err))
+					out.Files = append(out.Files, fileOut{Path: path, What: o.kind, Says: err.Error()})
 					continue
 				}
-				fmt.Fprintf(e.stdout, "ok  %s (%s: %s)\n", path, o.kind, what)
+				fmt.Fprintf(stdout, "ok  %s (%s: %s)\n", path, o.kind, what)
+				out.Files = append(out.Files, fileOut{Path: path, What: o.kind, OK: true, Says: what})
 				continue
 			}
 			data, err := files.ReadFile(path)
@@ -96,6 +107,7 @@ otherwise.`,
 				} else {
 					other = append(other, err)
 				}
+				out.Files = append(out.Files, fileOut{Path: path, What: "unreadable"})
 				continue
 			}
 			kind := sequencer.FileKind(data)
@@ -121,12 +133,14 @@ otherwise.`,
 					cat, note = given, ""
 				}
 				if note != "" {
-					fmt.Fprintln(e.stderr, "note:", note)
+					fmt.Fprintln(stderr, "note:", note)
+					out.Notes = append(out.Notes, note)
 				}
 				_, lerr = limits.Load(path, data, cat)
 			default:
 				problems = append(problems, &files.Error{File: path, Line: 1, Col: 1,
 					Msg: "cannot tell the kind of file: expected a top-level key station:, sequence: or limit_set:"})
+				out.Files = append(out.Files, fileOut{Path: path, What: "unknown"})
 				continue
 			}
 			if lerr != nil {
@@ -135,11 +149,13 @@ otherwise.`,
 				} else {
 					other = append(other, fmt.Errorf("%s: %w", path, lerr))
 				}
+				out.Files = append(out.Files, fileOut{Path: path, What: kind})
 				continue
 			}
-			fmt.Fprintf(e.stdout, "ok  %s (%s)\n", path, kind)
+			fmt.Fprintf(stdout, "ok  %s (%s)\n", path, kind)
+			out.Files = append(out.Files, fileOut{Path: path, What: kind, OK: true})
 			if *showSteps && kind == sequencer.FileSequence {
-				printSteps(e.stdout, seqs[len(seqs)-1])
+				printSteps(stdout, seqs[len(seqs)-1])
 			}
 		}
 		for _, st := range stations {
@@ -154,25 +170,48 @@ otherwise.`,
 				if err != nil {
 					other = append(other, err)
 				}
-				printTUR(e.stdout, st, s, checks)
+				printTUR(stdout, st, s, checks)
+				for _, c := range checks {
+					tur := num(c.TUR)
+					if !(c.TUR > 0) {
+						tur = nil
+					}
+					out.TUR = append(out.TUR, turOut{Station: st.ID, Limits: s.Limits.File, Limit: c.Limit, Result: c.Result,
+						TUR: tur, Minimum: c.Min, Low: c.Low, OneSided: c.OneSided, Note: c.Note})
+				}
 			}
 		}
 		problems.Sort()
 		warnings := 0
 		for _, p := range problems {
-			fmt.Fprintln(e.stdout, p.Detail())
+			fmt.Fprintln(stdout, p.Detail())
+			out.Problems = append(out.Problems, newProblem(p))
 			if p.Warning {
 				warnings++
 			}
 		}
 		for _, err := range other {
-			fmt.Fprintln(e.stdout, err)
+			fmt.Fprintln(stdout, err)
+			// Not positioned: the message names the file where it knows it.
+			out.Problems = append(out.Problems, problem{Message: err.Error()})
 		}
 		if warnings > 0 {
-			fmt.Fprintf(e.stdout, "%d warning(s)\n", warnings)
+			fmt.Fprintf(stdout, "%d warning(s)\n", warnings)
 		}
-		if n := len(problems) - warnings + len(other); n > 0 {
-			fmt.Fprintf(e.stdout, "%d problem(s)\n", n)
+		n := len(problems) - warnings + len(other)
+		for i, f := range out.Files {
+			// A file that loads may still have an error production would
+			// meet (a calibration run out).
+			if slices.ContainsFunc(problems, func(p *files.Error) bool { return !p.Warning && p.File == f.Path }) {
+				out.Files[i].OK = false
+			}
+		}
+		out.OK, out.Errors, out.Warnings = n == 0, n, warnings
+		if *asJSON {
+			writeJSON(e.stdout, out)
+		}
+		if n > 0 {
+			fmt.Fprintf(stdout, "%d problem(s)\n", n)
 			return report(badInput(fmt.Errorf("%d problem(s)", n)))
 		}
 		return nil

@@ -30,7 +30,7 @@ with its standard uncertainty, propagated through the coefficient covariance
 	}
 	order := c.Flag.Int("order", 1, "polynomial `order`: 1 (line) or 2 (quadratic)")
 	x0 := c.Flag.Float64("x0", 0, "centre `X` of the model")
-	asJSON := c.Flag.Bool("json", false, "print a JSON object")
+	asJSON := jsonFlag(c, "the fit (one object)")
 	var at optFloat
 	c.Flag.Var(&at, "at", "predict y and its standard uncertainty at `X`")
 	var uy optFloat

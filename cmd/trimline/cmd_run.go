@@ -33,7 +33,7 @@ before without --retest), 3 station fault or a stopped batch.`,
 	out := c.Flag.String("out", "", "output `folder` (default: the station file's output.folder)")
 	operator := c.Flag.String("operator", defaultOperator(), "operator `name` printed on certificates")
 	ambient := c.Flag.String("ambient", "", "ambient `temperature` to record on every run, e.g. \"23.1 °C\" or 23.1degC")
-	asJSON := c.Flag.Bool("json", false, "print one JSON object per unit instead of a live line")
+	asJSON := jsonFlag(c, "an object per unit (instead of a live line), then a summary object,")
 	retest := c.Flag.Bool("retest", false, "run serials that already have a measured run again; each retest links to the earlier run and supersedes its certificate")
 	engineering := c.Flag.Bool("engineering", false, "run files that were never released; certificates are marked ENGINEERING RUN — NOT FOR SHIPMENT and numbered apart")
 	c.Run = func(ctx context.Context, e *env, args []string) error {
@@ -48,7 +48,9 @@ before without --retest), 3 station fault or a stopped batch.`,
 		if err != nil {
 			return err
 		}
-		if !*asJSON {
+		if *asJSON {
+			writeJSON(e.stdout, newSummaryOut(t))
+		} else {
 			printSummary(e.stdout, t.Summary())
 		}
 		return report(t.Err())

@@ -81,6 +81,10 @@ func runEnv(ctx context.Context, args []string, e *env) int {
 	code := exitCode(err)
 	var r *reported
 	if err != nil && !errors.As(err, &r) {
+		if wantsJSON(c, rest) {
+			writeJSON(stderr, newErrorOut(c.LongName(), err, code))
+			return code
+		}
 		fmt.Fprintf(stderr, "trimline %s: %v\n", c.LongName(), err)
 		var ue *usageError
 		if errors.As(err, &ue) && ue.showUsage {

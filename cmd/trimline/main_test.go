@@ -82,8 +82,8 @@ func TestRunExitCodes(t *testing.T) {
 	if code != 0 {
 		t.Fatalf("exit %d\n%s\n%s", code, out, errOut)
 	}
-	var u unitJSON
-	if err := json.Unmarshal([]byte(out), &u); err != nil || u.Verdict != "PASS" || u.Certificate == "" {
+	var u unitOut
+	if err := json.NewDecoder(strings.NewReader(out)).Decode(&u); err != nil || u.Verdict != "PASS" || u.Certificate == "" {
 		t.Fatalf("json %q: %v", out, err)
 	}
 	// A unit that fails its limits: force an open output through the station file.

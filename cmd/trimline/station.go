@@ -2,7 +2,6 @@ package main
 
 import (
 	"context"
-	"encoding/json"
 	"errors"
 	"fmt"
 	"io"
@@ -111,7 +110,13 @@ func runBatch(ctx context.Context, e *env, b batch) (*sequencer.Tally, error) {
 		return nil, err
 	}
 	defer logFile.Close()
-	console := zerolog.ConsoleWriter{Out: e.stderr, TimeFormat: "15:04:05", NoColor: true}
+	// With --json, stderr holds nothing but an error object; the log's
+	// warnings are in the log file, and a stopped batch's skipped serials in the
+	// summary.
+	var console io.Writer = zerolog.ConsoleWriter{Out: e.stderr, TimeFormat: "15:04:05", NoColor: true}
+	if b.json {
+		console = io.Discard
+	}
 	log := zerolog.New(zerolog.MultiLevelWriter(levelWriter{console, zerolog.WarnLevel}, logFile)).With().Timestamp().Str("station", st.ID).Logger()
 
 	led, err := ledger.Open(ctx, filepath.Join(out, "ledger.db"))
@@ -182,7 +187,7 @@ func runBatch(ctx context.Context, e *env, b batch) (*sequencer.Tally, error) {
 		}
 		log.Info().Str("serial", rec.Serial).Str("verdict", string(rec.Verdict)).Str("certificate", cert).Msg("unit done")
 		if b.json {
-			writeJSONLine(e.stdout, rec, cert)
+			writeJSON(e.stdout, newUnitOut(rec, cert, is.CertDir))
 		} else {
 			fmt.Fprintln(e.stdout, liveLine(i+1, len(b.serials), rec, cert))
 		}
@@ -190,7 +195,9 @@ func runBatch(ctx context.Context, e *env, b batch) (*sequencer.Tally, error) {
 	})
 	if len(t.Skipped) > 0 {
 		log.Warn().Strs("serials", t.Skipped).Msg("batch stopped: these units were not run")
-		fmt.Fprintf(e.stderr, "stopped: %d unit(s) not run: %s\n", len(t.Skipped), strings.Join(t.Skipped, " "))
+		if !b.json {
+			fmt.Fprintf(e.stderr, "stopped: %d unit(s) not run: %s\n", len(t.Skipped), strings.Join(t.Skipped, " "))
+		}
 	}
 	return t, err
 }
@@ -232,37 +239,6 @@ func liveLine(i, n int, rec *sequencer.Record, cert string) string {
 		}
 	}
 	return line
-}
-
-// unitJSON is the --json form of one unit.
-type unitJSON struct {
-	Serial      string             `json:"serial"`
-	RunID       string             `json:"run_id"`
-	Verdict     string             `json:"verdict"`
-	Certificate string             `json:"certificate,omitempty"`
-	Reasons     []string           `json:"reasons,omitempty"`
-	Fault       string             `json:"fault,omitempty"`
-	Results     map[string]float64 `json:"results"`
-	Codes       map[string]int     `json:"codes,omitempty"`
-	Started     time.Time          `json:"started"`
-	Finished    time.Time          `json:"finished"`
-}
-
-func writeJSONLine(w io.Writer, rec *sequencer.Record, cert string) {
-	u := unitJSON{Serial: rec.Serial, RunID: rec.RunID, Verdict: string(rec.Verdict), Certificate: cert,
-		Reasons: rec.Reasons, Fault: rec.Fault, Results: map[string]float64{}, Started: rec.Started, Finished: rec.Finished}
-	for _, r := range rec.Results {
-		if r.Valid {
-			u.Results[r.Name] = r.Value
-		}
-	}
-	if len(rec.Trims) > 0 {
-		u.Codes = map[string]int{}
-		for _, t := range rec.Trims {
-			u.Codes[t.DAC] = t.Code
-		}
-	}
-	json.NewEncoder(w).Encode(u)
 }
 
 // livePair shows, for one dimension ("V", "ratio" or "number"), the first

@@ -1,0 +1,375 @@
+package main
+
+// The output of --json: what scripts and line controllers read instead of the
+// text a person reads. Every type of the schema is in this file; README's
+// "Output for scripts" shows an example of each, and a test decodes those
+// examples, and what the commands write, into these types with unknown fields
+// disallowed, so that the documentation and the code cannot drift apart.
+//
+// The rules, the same for every command:
+//   - stdout carries JSON Lines: one object a line, each with "kind" (what the
+//     object is) and "version" (jsonVersion; a change that removes or renames a
+//     field, or changes its meaning, raises it; new fields may appear within a
+//     version);
+//   - when the command cannot do its work (bad input, a refused file, a station
+//     fault) stderr carries one errorOut object and nothing else; the exit code
+//     is the same as without --json;
+//   - numbers are in SI units (volts, a plain fraction for a ratio, counts for a
+//     code) and the unit is named beside them; a number that does not exist is
+//     null, never NaN.
+
+import (
+	"encoding/json"
+	"errors"
+	"flag"
+	"io"
+	"math"
+	"path/filepath"
+	"slices"
+	"strings"
+	"time"
+
+	"trimline/instruments/files"
+	"trimline/limits"
+	"trimline/reports/audit"
+	"trimline/reports/certificate"
+	"trimline/sequencer"
+)
+
+// jsonVersion is the version of every object below.
+const jsonVersion = 1
+
+// Kinds of JSON object, the value of each object's "kind".
+const (
+	kindUnit         = "unit"         // unitOut: one unit run (run)
+	kindSummary      = "summary"      // summaryOut: the batch, after its units (run)
+	kindCheck        = "check"        // checkOut: the files checked (check)
+	kindVerification = "verification" // verificationOut: one certificate (audit verify)
+	kindError        = "error"        // errorOut: why the command could not do its work (stderr)
+)
+
+// jsonFlag adds the --json flag every command that has it takes, with words
+// that say the same thing everywhere; what decides the objects is the command's.
+func jsonFlag(c *command, what string) *bool {
+	return c.Flag.Bool("json", false, "write "+what+" as JSON Lines on stdout, and an error as one JSON object on stderr (README: Output for scripts)")
+}
+
+// wantsJSON reports whether c was asked for JSON: its --json flag is set, or
+// stands among args that did not parse (so that a usage error is JSON too).
+func wantsJSON(c *command, args []string) bool {
+	f := c.Flag.Lookup("json")
+	if f == nil {
+		return false
+	}
+	if g, ok := f.Value.(flag.Getter); ok {
+		if b, _ := g.Get().(bool); b {
+			return true
+		}
+	}
+	return slices.ContainsFunc(args, func(a string) bool {
+		return a == "--json" || a == "-json" || a == "--json=true" || a == "-json=true"
+	})
+}
+
+// unitOut is one unit a run ran, written as soon as it is recorded.
+type unitOut struct {
+	Kind        string `json:"kind"` // "unit"
+	Version     int    `json:"version"`
+	Serial      string `json:"serial"`
+	Product     string `json:"product"`
+	Revision    string `json:"revision"`
+	Station     string `json:"station"`
+	Operator    string `json:"operator"`
+	RunID       string `json:"run_id"`
+	Verdict     string `json:"verdict"` // PASS, FAIL, REVIEW, FAULT or ABORTED
+	Engineering bool   `json:"engineering"`
+	RetestOf    string `json:"retest_of"`   // run id of the earlier run this one retests; "" for a first test
+	Certificate string `json:"certificate"` // certificate number; "" when the run gets none (FAULT, ABORTED)
+	// CertificatePDF is the certificate's file, as the station wrote it (under
+	// the output folder); "" with Certificate.
+	CertificatePDF string      `json:"certificate_pdf"`
+	Started        time.Time   `json:"started"` // RFC 3339, UTC
+	Finished       time.Time   `json:"finished"`
+	Reasons        []string    `json:"reasons"` // why the verdict is not PASS, in words, in order; empty for PASS
+	Fault          string      `json:"fault"`   // the station fault, for FAULT and ABORTED
+	Results        []resultOut `json:"results"`
+	Limits         []limitOut  `json:"limits"`
+	TrimCodes      []trimOut   `json:"trim_codes"`
+}
+
+// resultOut is one result of a unit: a named number with its uncertainty and the
+// limits that judged it.
+type resultOut struct {
+	Name     string `json:"name"`     // as limit files name it
+	Stage    string `json:"stage"`    // as_found, adjustment or as_left
+	Step     string `json:"step"`     // the step that computed it
+	Quantity string `json:"quantity"` // what it measures (offset, gain_error, …); results of one quantity pair as found and as left
+	Valid    bool   `json:"valid"`
+	Note     string `json:"note"` // why it is not valid
+	// Value is in SI units of Unit: "V" volts, "ratio" a plain fraction (0.001 is
+	// 0.1 % or 1000 ppm), "code" counts, "number" a plain number; null when not
+	// valid.
+	Value *float64 `json:"value"`
+	Unit  string   `json:"unit"`
+	// StandardUncertainty, ExpandedUncertainty (U) and CoverageFactor (k, U =
+	// k·u) are in the value's unit; null when not evaluated (codes are exact).
+	StandardUncertainty *float64 `json:"standard_uncertainty"`
+	ExpandedUncertainty *float64 `json:"expanded_uncertainty"`
+	CoverageFactor      *float64 `json:"coverage_factor"`
+	JudgedBy            []judged `json:"judged_by"` // the limits that use the result; empty when none does
+}
+
+// judged is one limit's outcome, seen from a result it uses.
+type judged struct {
+	Limit string `json:"limit"`
+	Pass  bool   `json:"pass"`
+	// Zone is the decision rule's zone for a toleranced limit that judged this
+	// result: pass, conditional pass, conditional fail or fail; "" for an
+	// expression limit or a tolerance that could not be judged.
+	Zone string `json:"zone"`
+}
+
+// limitOut is one limit of the unit's limit file and its outcome. Its numbers are
+// in the limit's own unit, named in Unit (as the limit file writes it: "mV",
+// "ppm", …).
+type limitOut struct {
+	Name        string   `json:"name"`
+	Description string   `json:"description"`
+	Uses        []string `json:"uses"` // the results it reads
+	Pass        bool     `json:"pass"`
+	Zone        string   `json:"zone"`   // as in judged
+	Reason      string   `json:"reason"` // why it failed, in words; "" when it passed
+	Unit        string   `json:"unit"`
+	// Value, Lower and Upper are the judged value and the tolerance, for a
+	// toleranced limit; null when unbounded on that side or not judged.
+	Value *float64 `json:"value"`
+	Lower *float64 `json:"lower"`
+	Upper *float64 `json:"upper"`
+	// ExpandedUncertainty and CoverageFactor are the value's U and k, in Unit;
+	// null when not evaluated.
+	ExpandedUncertainty *float64 `json:"expanded_uncertainty"`
+	CoverageFactor      *float64 `json:"coverage_factor"`
+	Rule                string   `json:"rule"` // "simple", "guarded", or "" for an expression limit
+	TUR                 *float64 `json:"tur"`  // test uncertainty ratio; null when not defined (one-sided, U unknown)
+}
+
+// trimOut is one trim DAC's code.
+type trimOut struct {
+	DAC       string `json:"dac"`
+	Before    int    `json:"before"` // code in the DAC before trimming
+	Code      int    `json:"code"`   // code written
+	Readback  int    `json:"readback"`
+	Written   bool   `json:"written"`
+	Saturated bool   `json:"saturated"`
+	Stored    bool   `json:"stored"` // committed to non-volatile memory
+}
+
+// summaryOut ends a run's output: the batch's counts. It is written when the
+// batch ran (every unit, or until it was stopped); not after a setup error.
+type summaryOut struct {
+	Kind    string   `json:"kind"` // "summary"
+	Version int      `json:"version"`
+	Units   int      `json:"units"` // units run
+	Passed  int      `json:"passed"`
+	Failed  int      `json:"failed"`
+	Review  int      `json:"review"`  // held for review
+	Faulted int      `json:"faulted"` // station faults and aborted runs
+	Yield   *float64 `json:"yield"`   // passed / judged, a plain fraction; null when none was judged
+	Skipped []string `json:"skipped"` // serials not run because the batch was stopped
+}
+
+// checkOut is what check found, one object for every file named.
+type checkOut struct {
+	Kind     string    `json:"kind"` // "check"
+	Version  int       `json:"version"`
+	OK       bool      `json:"ok"` // no file has an error (warnings do not count)
+	Files    []fileOut `json:"files"`
+	Problems []problem `json:"problems"` // every problem, positioned where the file says
+	TUR      []turOut  `json:"tur"`      // per station and sequence given together
+	Errors   int       `json:"errors"`
+	Warnings int       `json:"warnings"`
+	Notes    []string  `json:"notes"` // what a person should know that is no problem
+}
+
+// fileOut is one file check looked at.
+type fileOut struct {
+	Path string `json:"path"`
+	// What is the file's kind: station, sequence or limits; or what else it is
+	// (seal, trust file, certificate or report (PDF), …); "unreadable" or
+	// "unknown" for a file that could not be read or told.
+	What string `json:"what"`
+	// OK: the file loads as the command that uses it would load it. A file that
+	// is no input (a PDF, the ledger) is OK; Says names the command that checks
+	// it.
+	OK   bool   `json:"ok"`
+	Says string `json:"says"`
+}
+
+// problem is one problem with a file; Line and Col are 1-based, 0 when unknown.
+type problem struct {
+	File    string `json:"file"`
+	Line    int    `json:"line"`
+	Col     int    `json:"col"`
+	Message string `json:"message"`
+	Warning bool   `json:"warning"` // does not make the file unusable
+}
+
+// turOut is the TUR a toleranced limit can reach on a station, from the
+// instruments' specifications alone.
+type turOut struct {
+	Station  string   `json:"station"`
+	Limits   string   `json:"limits"` // the limit file
+	Limit    string   `json:"limit"`
+	Result   string   `json:"result"`
+	TUR      *float64 `json:"tur"` // null when not defined (one-sided) or unknown
+	Minimum  float64  `json:"minimum"`
+	Low      bool     `json:"low"`
+	OneSided bool     `json:"one_sided"`
+	Note     string   `json:"note"`
+}
+
+// verificationOut is audit verify's verdict on one certificate.
+type verificationOut struct {
+	Kind    string `json:"kind"` // "verification"
+	Version int    `json:"version"`
+	File    string `json:"file"`
+	// Verdict is GENUINE, ALTERED, UNKNOWN, VOIDED or SUPERSEDED; only GENUINE
+	// exits 0.
+	Verdict string   `json:"verdict"`
+	Reasons []string `json:"reasons"` // the reasons, in words, in order
+	// SealOnly: checked against the seal beside the PDF alone (--no-ledger):
+	// voids, supersedes and the chain were not checked.
+	SealOnly        bool     `json:"seal_only"`
+	Ledger          string   `json:"ledger"`           // the ledger consulted; "" with SealOnly
+	TrustedKeys     string   `json:"trusted_keys"`     // where the trusted keys came from
+	TrustedStations []string `json:"trusted_stations"` // the stations they bind
+}
+
+// errorOut is why a command could not do its work, on stderr.
+type errorOut struct {
+	Kind     string    `json:"kind"` // "error"
+	Version  int       `json:"version"`
+	Command  string    `json:"command"` // "run", "audit verify", …
+	Error    string    `json:"error"`   // the message a person reads
+	ExitCode int       `json:"exit_code"`
+	Problems []problem `json:"problems"` // positioned problems in files, when the error has them
+}
+
+// writeJSON writes v as one line.
+func writeJSON(w io.Writer, v any) {
+	json.NewEncoder(w).Encode(v)
+}
+
+// num is v, or nil when v is no number JSON can hold.
+func num(v float64) *float64 {
+	if math.IsNaN(v) || math.IsInf(v, 0) {
+		return nil
+	}
+	return &v
+}
+
+// newUnitOut is rec as a unitOut; cert is its certificate number and certDir
+// the folder its PDF is in.
+func newUnitOut(rec *sequencer.Record, cert, certDir string) unitOut {
+	u := unitOut{Kind: kindUnit, Version: jsonVersion, Serial: rec.Serial, Product: rec.Product, Revision: rec.Revision,
+		Station: rec.Station, Operator: rec.Operator, RunID: rec.RunID, Verdict: string(rec.Verdict),
+		Engineering: rec.Engineering, RetestOf: rec.RetestOf, Certificate: cert,
+		Started: rec.Started, Finished: rec.Finished, Reasons: nonNil(rec.Reasons), Fault: rec.Fault,
+		Results: []resultOut{}, Limits: []limitOut{}, TrimCodes: []trimOut{}}
+	if cert != "" {
+		u.CertificatePDF = filepath.Join(certDir, certificate.FileName(rec, certificate.Options{Number: cert}))
+	}
+	for _, r := range rec.Results {
+		ro := resultOut{Name: r.Name, Step: r.Step, Quantity: r.QuantityOf(), Valid: r.Valid, Note: r.Note, Unit: r.Unit, JudgedBy: []judged{}}
+		if st, err := r.StageOf().MarshalText(); err == nil {
+			ro.Stage = string(st)
+		}
+		if r.Valid {
+			ro.Value = num(r.Value)
+			if r.Unc.Expanded > 0 || r.Unc.Std > 0 {
+				ro.StandardUncertainty, ro.ExpandedUncertainty, ro.CoverageFactor = num(r.Unc.Std), num(r.Unc.Expanded), num(r.Unc.K)
+			}
+		}
+		for _, o := range rec.Outcomes {
+			if !slices.Contains(o.Uses, r.Name) {
+				continue
+			}
+			j := judged{Limit: o.Name, Pass: o.Pass}
+			if o.Decision != nil && o.Decision.Result == r.Name {
+				j.Zone = o.Decision.Zone
+			}
+			ro.JudgedBy = append(ro.JudgedBy, j)
+		}
+		u.Results = append(u.Results, ro)
+	}
+	for _, o := range rec.Outcomes {
+		u.Limits = append(u.Limits, newLimitOut(o))
+	}
+	for _, t := range rec.Trims {
+		u.TrimCodes = append(u.TrimCodes, trimOut{DAC: t.DAC, Before: t.Before, Code: t.Code, Readback: t.Readback,
+			Written: t.Written, Saturated: t.Saturated, Stored: t.Stored})
+	}
+	return u
+}
+
+func newLimitOut(o limits.Outcome) limitOut {
+	l := limitOut{Name: o.Name, Description: o.Description, Uses: nonNil(o.Uses), Pass: o.Pass, Reason: o.Reason, Unit: o.Unit}
+	if d := o.Decision; d != nil {
+		l.Zone, l.Rule, l.Value, l.Lower, l.Upper = d.Zone, d.Rule, num(d.Value), d.Lower, d.Upper
+		if d.U > 0 {
+			l.ExpandedUncertainty, l.CoverageFactor = num(d.U), num(d.K)
+		}
+		if d.TUR > 0 {
+			l.TUR = num(d.TUR)
+		}
+	} else if t := o.Tolerance; t != nil {
+		l.Rule, l.Lower, l.Upper = t.Rule, t.Lower, t.Upper
+	}
+	return l
+}
+
+func newSummaryOut(t *sequencer.Tally) summaryOut {
+	s := t.Summary()
+	return summaryOut{Kind: kindSummary, Version: jsonVersion, Units: s.Units, Passed: s.Passed, Failed: s.Failed,
+		Review: s.Review, Faulted: s.Faulted, Yield: num(s.Yield), Skipped: nonNil(t.Skipped)}
+}
+
+func newVerificationOut(file string, v audit.Verdict, sealOnly bool, ledgerPath string, trustSource string, stations []string) verificationOut {
+	out := verificationOut{Kind: kindVerification, Version: jsonVersion, File: file, Verdict: strings.ToUpper(v.Kind),
+		Reasons: nonNil(v.Reasons), SealOnly: sealOnly, TrustedKeys: trustSource, TrustedStations: nonNil(stations)}
+	if !sealOnly {
+		out.Ledger = ledgerPath
+	}
+	return out
+}
+
+// newErrorOut is err, which command c ended with, as an errorOut with its exit
+// code and the positioned problems it carries.
+func newErrorOut(command string, err error, code int) errorOut {
+	out := errorOut{Kind: kindError, Version: jsonVersion, Command: command, Error: err.Error(), ExitCode: code, Problems: []problem{}}
+	fe := files.Errs(err)
+	var d detailed
+	if fe == nil && errors.As(err, &d) {
+		fe = d
+		// The message a person reads holds every problem with its excerpt;
+		// here they are fields, so its first line is enough.
+		first, _, _ := strings.Cut(out.Error, "\n")
+		out.Error = strings.TrimSuffix(first, ":")
+	}
+	for _, p := range fe {
+		out.Problems = append(out.Problems, newProblem(p))
+	}
+	return out
+}
+
+func newProblem(p *files.Error) problem {
+	return problem{File: p.File, Line: p.Line, Col: p.Col, Message: p.Msg, Warning: p.Warning}
+}
+
+// nonNil is s, or an empty slice for nil: a list in the JSON is [], never null.
+func nonNil[T any](s []T) []T {
+	if s == nil {
+		return []T{}
+	}
+	return s
+}

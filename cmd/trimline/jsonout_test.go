@@ -1,0 +1,157 @@
+package main
+
+import (
+	"bufio"
+	"bytes"
+	"encoding/json"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+)
+
+// decodeStrict decodes one JSON object of line into v, refusing a field v does
+// not have: the documented types are the whole schema.
+func decodeStrict(t *testing.T, line string, v any) {
+	t.Helper()
+	d := json.NewDecoder(strings.NewReader(line))
+	d.DisallowUnknownFields()
+	if err := d.Decode(v); err != nil {
+		t.Fatalf("%T: %v\n%s", v, err, line)
+	}
+}
+
+// jsonLines splits out into its lines, each of which must be one JSON object.
+func jsonLines(t *testing.T, out string) []string {
+	t.Helper()
+	var lines []string
+	sc := bufio.NewScanner(strings.NewReader(out))
+	sc.Buffer(nil, 1<<20)
+	for sc.Scan() {
+		if !json.Valid(sc.Bytes()) {
+			t.Fatalf("not a JSON line: %s", sc.Text())
+		}
+		lines = append(lines, sc.Text())
+	}
+	return lines
+}
+
+func TestRunCheckVerifyJSON(t *testing.T) {
+	dir := t.TempDir()
+	station, sequence := writeReleasedDemo(t, dir, 1)
+	serials := []string{"BRX-00001", "BRX-00002", "BRX-00003"}
+	args := []string{"run", "--station", station, "--sequence", sequence, "--out", dir, "--operator", "J. Doe", "--json"}
+	for _, s := range serials {
+		args = append(args, "--serial", s)
+	}
+	code, out, errOut := runCLI(t, args...)
+	if code != exitPass || errOut != "" {
+		t.Fatalf("run: exit %d, stderr %q\n%s", code, errOut, out)
+	}
+	lines := jsonLines(t, out)
+	if len(lines) != len(serials)+1 {
+		t.Fatalf("%d lines, want a unit per serial and a summary:\n%s", len(lines), out)
+	}
+	var pdf string
+	for i, s := range serials {
+		var u unitOut
+		decodeStrict(t, lines[i], &u)
+		if u.Kind != kindUnit || u.Version != jsonVersion || u.Serial != s || u.Verdict != "PASS" || u.Product != "BRX-200" ||
+			u.Revision == "" || u.Operator != "J. Doe" || u.Certificate == "" {
+			t.Errorf("unit %d: %+v", i, u)
+		}
+		if _, err := os.Stat(u.CertificatePDF); err != nil || !strings.Contains(u.CertificatePDF, u.Certificate) {
+			t.Errorf("unit %s: certificate_pdf %q: %v", s, u.CertificatePDF, err)
+		}
+		pdf = u.CertificatePDF
+		var found bool
+		for _, r := range u.Results {
+			if r.Name != "post_offset" {
+				continue
+			}
+			found = true
+			if r.Unit != "V" || r.Stage != "as_left" || r.Value == nil || r.ExpandedUncertainty == nil || r.CoverageFactor == nil ||
+				!(*r.ExpandedUncertainty > 0) || !(*r.CoverageFactor >= 1) || len(r.JudgedBy) != 1 ||
+				!r.JudgedBy[0].Pass || r.JudgedBy[0].Zone == "" {
+				t.Errorf("unit %s post_offset: %+v", s, r)
+			}
+		}
+		if !found || len(u.Limits) == 0 || len(u.TrimCodes) == 0 {
+			t.Errorf("unit %s: post_offset %v, %d limits, %d trim codes", s, found, len(u.Limits), len(u.TrimCodes))
+		}
+	}
+	var sum summaryOut
+	decodeStrict(t, lines[len(lines)-1], &sum)
+	if sum.Kind != kindSummary || sum.Units != 3 || sum.Passed != 3 || sum.Yield == nil || *sum.Yield != 1 {
+		t.Errorf("summary %+v", sum)
+	}
+
+	code, out, errOut = runCLI(t, "check", "--json", station, sequence)
+	if code != exitPass || errOut != "" {
+		t.Fatalf("check: exit %d, stderr %q\n%s", code, errOut, out)
+	}
+	var chk checkOut
+	decodeStrict(t, out, &chk)
+	if !chk.OK || len(chk.Files) != 2 || !chk.Files[0].OK || len(chk.TUR) == 0 || chk.Errors != 0 {
+		t.Errorf("check %+v", chk)
+	}
+
+	code, out, errOut = runCLI(t, "audit", "verify", "--json", pdf, "--keys", filepath.Join(dir, "keys"))
+	if code != exitPass || errOut != "" {
+		t.Fatalf("audit verify: exit %d, stderr %q\n%s", code, errOut, out)
+	}
+	var v verificationOut
+	decodeStrict(t, out, &v)
+	if v.Kind != kindVerification || v.Verdict != "GENUINE" || len(v.Reasons) == 0 || v.SealOnly || v.Ledger == "" {
+		t.Errorf("verify %+v", v)
+	}
+}
+
+func TestJSONBadInput(t *testing.T) {
+	dir := t.TempDir()
+	station, sequence := writeReleasedDemo(t, dir, 1)
+	// A sequence file with a problem in a known place: a run refuses it with
+	// exit 2 and the problem, positioned, on stderr; check reports it on stdout.
+	data, err := os.ReadFile(sequence)
+	if err != nil {
+		t.Fatal(err)
+	}
+	bad := filepath.Join(dir, "bad-sequence.yaml")
+	os.WriteFile(bad, append(data, []byte("\nno_such_key: 1\n")...), 0o644)
+	code, out, errOut := runCLI(t, "run", "--json", "--station", station, "--sequence", bad, "--serial", "BRX-00001", "--out", dir)
+	if code != exitUsage || out != "" {
+		t.Fatalf("run: exit %d, stdout %q", code, out)
+	}
+	lines := jsonLines(t, errOut)
+	if len(lines) != 1 {
+		t.Fatalf("stderr is not one object:\n%s", errOut)
+	}
+	var e errorOut
+	decodeStrict(t, lines[0], &e)
+	if e.Kind != kindError || e.ExitCode != exitUsage || e.Command != "run" || len(e.Problems) == 0 ||
+		e.Problems[0].File != bad || e.Problems[0].Line == 0 || e.Error != "1 problem(s)" {
+		t.Errorf("error %+v", e)
+	}
+	code, out, _ = runCLI(t, "check", "--json", bad)
+	var chk checkOut
+	decodeStrict(t, out, &chk)
+	if code != exitUsage || chk.OK || chk.Errors == 0 || chk.Files[0].OK || chk.Problems[0].Line == 0 {
+		t.Errorf("check: exit %d %+v", code, chk)
+	}
+	// A usage error is JSON too, with --json anywhere on the line.
+	code, _, errOut = runCLI(t, "run", "--json", "--no-such-flag")
+	decodeStrict(t, errOut, &e)
+	if code != exitUsage || e.ExitCode != exitUsage {
+		t.Errorf("usage: exit %d %+v", code, e)
+	}
+}
+
+func TestHelpShowsJSON(t *testing.T) {
+	for _, c := range [][]string{{"help", "run"}, {"help", "check"}, {"help", "audit", "verify"}, {"help", "fit"}} {
+		_, out, _ := runCLI(t, c...)
+		if !strings.Contains(out, "-json") || !bytes.Contains([]byte(out), []byte("Output for scripts")) {
+			t.Errorf("%v does not show --json:\n%s", c, out)
+		}
+	}
+}
+
