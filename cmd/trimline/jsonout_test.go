@@ -155,3 +155,51 @@ func TestHelpShowsJSON(t *testing.T) {
 	}
 }
 
+// TestReadmeJSONExamples decodes every json block of README's "Output for
+// scripts" into the type its kind names, with unknown fields refused, and
+// checks that every kind has an example: the documentation and jsonout.go
+// cannot drift apart.
+func TestReadmeJSONExamples(t *testing.T) {
+	readme, err := os.ReadFile(filepath.Join("..", "..", "README.md"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	_, section, ok := bytes.Cut(readme, []byte("\n## Output for scripts\n"))
+	if !ok {
+		t.Fatal(`README has no section "Output for scripts"`)
+	}
+	if i := bytes.Index(section, []byte("\n## ")); i >= 0 {
+		section = section[:i]
+	}
+	types := map[string]func() any{
+		kindUnit:         func() any { return new(unitOut) },
+		kindSummary:      func() any { return new(summaryOut) },
+		kindCheck:        func() any { return new(checkOut) },
+		kindVerification: func() any { return new(verificationOut) },
+		kindError:        func() any { return new(errorOut) },
+	}
+	seen := map[string]bool{}
+	blocks := strings.Split(string(section), "```json\n")
+	for _, b := range blocks[1:] {
+		block, _, _ := strings.Cut(b, "```")
+		var head struct {
+			Kind    string `json:"kind"`
+			Version int    `json:"version"`
+		}
+		if err := json.Unmarshal([]byte(block), &head); err != nil {
+			t.Fatalf("README example: %v\n%s", err, block)
+		}
+		newT, ok := types[head.Kind]
+		if !ok || head.Version != jsonVersion {
+			t.Errorf("README example of kind %q version %d: no such kind or version", head.Kind, head.Version)
+			continue
+		}
+		decodeStrict(t, block, newT())
+		seen[head.Kind] = true
+	}
+	for k := range types {
+		if !seen[k] {
+			t.Errorf("README's Output for scripts has no example of a %q object", k)
+		}
+	}
+}
