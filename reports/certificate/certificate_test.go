@@ -11,6 +11,7 @@ import (
 	"testing"
 	"time"
 
+	"trimline/instruments"
 	"trimline/limits"
 	"trimline/reports/certificate"
 	"trimline/sequencer"
@@ -533,4 +534,26 @@ func TestTraceabilityByKind(t *testing.T) {
 
 	old := sampleRecord() // no kinds: the roles are named source, meter and dut
 	requireText(t, pdfText(t, render(t, old, opt)), "through the reference instruments EQ-0142 (source, Fictive Metrology DCV-20")
+}
+
+// A single measurement (a measure step's one-point sweep) shows as a row of the
+// point tables: it draws no plot and names no band, and the header's count of
+// verifying sweeps leaves it out.
+func TestOnePointSweepIsARowNotAPlot(t *testing.T) {
+	rec := passRecord()
+	before := pdfText(t, render(t, passRecord(), opt))
+	rec.Sweeps = append(rec.Sweeps, sequencer.Sweep{Name: "zero check", Stage: sequencer.AsLeft,
+		Points: []sequencer.Point{{Stimulus: 0, Mean: 2.5031, Valid: 2, Readings: make([]instruments.Reading, 2)}}})
+	text := pdfText(t, render(t, rec, opt))
+	if !strings.Contains(text, "Sweep “zero check” (as left)") {
+		t.Error("the measurement has no row in the point tables")
+	}
+	if strings.Contains(text, "zero check sweep") || strings.Contains(text, "zero check and") {
+		t.Error("a band or plot names the single measurement as a sweep")
+	}
+	for _, s := range []string{"verified by a second sweep", "verified by a sweep"} {
+		if strings.Contains(before, s) != strings.Contains(text, s) {
+			t.Errorf("the header's %q changed with a single measurement", s)
+		}
+	}
 }

@@ -197,6 +197,11 @@ func (d *doc) sweepsByStage() []sequencer.Sweep {
 	return out
 }
 
+// curve reports whether a sweep has a curve to draw: more than one point. A
+// single point (a measure step's, recorded as a sweep of one point) has none; it
+// shows as a row of the point tables only, and names no band or plot.
+func curve(sw sequencer.Sweep) bool { return len(sw.Points) > 1 }
+
 // fitStage is the stage of the sweep a fit was made over, as the record gives
 // it; a fit of a sweep the record does not hold takes the stage its name says
 // in a record of schema 1.
@@ -222,7 +227,7 @@ func (d *doc) fitsByStage() []sequencer.FitSummary {
 func (d *doc) sweepNames(st stage) string {
 	var names []string
 	for _, sw := range d.rec.Sweeps {
-		if certStage(sw.StageOf()) == st {
+		if curve(sw) && certStage(sw.StageOf()) == st {
 			names = append(names, sw.Name)
 		}
 	}
@@ -275,6 +280,9 @@ func plotLook(st stage) (title, label string, c pdfdoc.Color, marker int) {
 func (d *doc) plotSeries() (ss []series, h float64) {
 	data := false
 	for _, sw := range d.sweepsByStage() {
+		if !curve(sw) {
+			continue
+		}
 		title, label, c, m := plotLook(certStage(sw.StageOf()))
 		s := series{title: title, label: label, sweep: sw.Name, pts: d.errPoints(&sw), color: c, marker: m}
 		data = data || len(s.pts) > 0

@@ -37,6 +37,9 @@ func (d *doc) subtitle() string {
 	}
 	found, left := 0, 0
 	for _, sw := range d.rec.Sweeps {
+		if !curve(sw) { // a single measurement verifies no transfer
+			continue
+		}
 		switch certStage(sw.StageOf()) {
 		case stageFound:
 			found++
