@@ -56,19 +56,9 @@ var (
 )
 
 func (s *measureStep) Check(c *Checker) {
-	seq := c.Sequence()
-	p := SweepPlan{Source: orDefault(s.Source, RoleSource), Meter: orDefault(s.Meter, RoleMeter), Points: 1, Settle: -1, MeterSet: seq.Meter, Where: c.Where()}
-	c.Use(p.Source, VoltageSource)
-	c.Use(p.Meter, VoltMeter)
-	switch s.Stage {
-	case "":
-	case "as_found":
-		c.SetStage(AsFound)
-	case "as_left":
-		c.SetStage(AsLeft)
-	default:
-		c.Errorf("stage", "expected as_found or as_left, found %q", s.Stage)
-	}
+	p := SweepPlan{Points: 1}
+	inBounds := checkReadings(c, readingKeys{source: s.Source, meter: s.Meter, stage: s.Stage, meterRange: s.MeterSet, nplc: s.NPLC,
+		settle: s.Settle, readings: s.Readings}, 2, "2 readings (one gives no noise estimate)", &p)
 	if s.Level != nil {
 		if v := float64(*s.Level); finite(v) {
 			p.List, p.From, p.To, s.driven = []float64{v}, v, v, true
@@ -76,29 +66,7 @@ func (s *measureStep) Check(c *Checker) {
 			c.Errorf("level", "expected a finite level")
 		}
 	}
-	if s.MeterSet != nil {
-		p.MeterSet.Range = float64(*s.MeterSet)
-	}
-	if s.NPLC != nil {
-		if p.MeterSet.NPLC = *s.NPLC; !(p.MeterSet.NPLC > 0 && p.MeterSet.NPLC <= MaxNPLC) {
-			c.Errorf("nplc", "expected an integration time above 0 and at most %d power-line cycles, found %g", MaxNPLC, p.MeterSet.NPLC)
-		}
-	}
-	if s.Settle == nil {
-		c.Errorf("", "missing required key \"settle\" (e.g. 20ms)")
-	} else if p.Settle = s.Settle.D(); p.Settle < 0 {
-		c.Errorf("settle", "expected a settle time ≥ 0")
-	} else if p.Settle > MaxSettle {
-		c.Errorf("settle", "expected a settle time of at most %s, found %s", MaxSettle, p.Settle)
-	}
-	p.Readings = s.Readings
-	if p.Readings < 2 {
-		c.Errorf("readings", "expected at least 2 readings (one gives no noise estimate), found %d", s.Readings)
-	} else if p.Readings > MaxReadings {
-		c.Errorf("readings", "expected at most %d readings, found %d", MaxReadings, s.Readings)
-	}
-	if p.Readings >= 2 && p.Readings <= MaxReadings && p.Settle >= 0 && p.Settle <= MaxSettle &&
-		p.MeterSet.NPLC > 0 && p.MeterSet.NPLC <= MaxNPLC {
+	if inBounds {
 		if t := sweepTime(p, p.MeterSet.NPLC); t > MaxSweepTime {
 			c.Errorf("", "expected a measurement of at most %s: settle %s + %d readings × %g PLC at 50 Hz is %s",
 				MaxSweepTime, p.Settle, p.Readings, p.MeterSet.NPLC, t.Round(time.Second))

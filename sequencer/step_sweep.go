@@ -88,27 +88,9 @@ type sweepKept struct {
 }
 
 func (s *sweepStep) Check(c *Checker) {
-	seq := c.Sequence()
-	p := SweepPlan{Source: orDefault(s.Source, RoleSource), Meter: orDefault(s.Meter, RoleMeter), Settle: -1, MeterSet: seq.Meter, Where: c.Where()}
-	c.Use(p.Source, VoltageSource)
-	c.Use(p.Meter, VoltMeter)
-	switch s.Stage {
-	case "":
-	case "as_found":
-		c.SetStage(AsFound)
-	case "as_left":
-		c.SetStage(AsLeft)
-	default:
-		c.Errorf("stage", "expected as_found or as_left, found %q", s.Stage)
-	}
-	if s.MeterSet != nil {
-		p.MeterSet.Range = float64(*s.MeterSet)
-	}
-	if s.NPLC != nil {
-		if p.MeterSet.NPLC = *s.NPLC; !(p.MeterSet.NPLC > 0 && p.MeterSet.NPLC <= MaxNPLC) {
-			c.Errorf("nplc", "expected an integration time above 0 and at most %d power-line cycles, found %g", MaxNPLC, p.MeterSet.NPLC)
-		}
-	}
+	var p SweepPlan
+	inBounds := checkReadings(c, readingKeys{source: s.Source, meter: s.Meter, stage: s.Stage, meterRange: s.MeterSet, nplc: s.NPLC,
+		settle: s.Settle, readings: s.Readings}, 1, "1 reading per point", &p)
 	if s.Levels != nil {
 		if s.From != nil || s.To != nil || s.Points != 0 {
 			c.Errorf("levels", "give either levels or from, to and points, not both")
@@ -151,21 +133,7 @@ func (s *sweepStep) Check(c *Checker) {
 			p.Points = 0 // refused: no later check may make its levels
 		}
 	}
-	if s.Settle == nil {
-		c.Errorf("", "missing required key \"settle\" (e.g. 20ms)")
-	} else if p.Settle = s.Settle.D(); p.Settle < 0 {
-		c.Errorf("settle", "expected a settle time ≥ 0")
-	} else if p.Settle > MaxSettle {
-		c.Errorf("settle", "expected a settle time of at most %s, found %s", MaxSettle, p.Settle)
-	}
-	p.Readings = s.Readings
-	if p.Readings < 1 {
-		c.Errorf("readings", "expected at least 1 reading per point, found %d", s.Readings)
-	} else if p.Readings > MaxReadings {
-		c.Errorf("readings", "expected at most %d readings per point, found %d", MaxReadings, s.Readings)
-	}
-	if p.Points >= MinPoints && p.Points <= MaxPoints && p.Readings >= 1 && p.Readings <= MaxReadings &&
-		p.Settle >= 0 && p.Settle <= MaxSettle && p.MeterSet.NPLC > 0 && p.MeterSet.NPLC <= MaxNPLC {
+	if inBounds && p.Points >= MinPoints && p.Points <= MaxPoints {
 		if n := p.Points * p.Readings; n > MaxSweepReadings {
 			c.Errorf("", "expected at most %d readings in a sweep: %d points × %d readings is %d", MaxSweepReadings, p.Points, p.Readings, n)
 		} else if t := sweepTime(p, p.MeterSet.NPLC); t > MaxSweepTime {
@@ -222,6 +190,57 @@ func (s *sweepStep) Run(ctx context.Context, u *Unit) error {
 	}
 	u.Keep(sweepKept{sweep: sw, plan: s.Plan})
 	return nil
+}
+
+// readingKeys are the keys a sweep and a measure step share, as written.
+type readingKeys struct {
+	source, meter, stage string
+	meterRange           *units.Voltage
+	nplc                 *float64
+	settle               *units.Duration
+	readings             int
+}
+
+// checkReadings checks the shared keys into p: the roles, the stage, the meter's
+// settings, the settle time and the readings at each level, at least minReadings
+// (fewer is refused with why). It reports whether every value checked is in
+// bounds, so that the caller's own bounds on the whole step may be computed.
+func checkReadings(c *Checker, k readingKeys, minReadings int, why string, p *SweepPlan) bool {
+	p.Source, p.Meter, p.Settle, p.MeterSet, p.Where = orDefault(k.source, RoleSource), orDefault(k.meter, RoleMeter), -1, c.Sequence().Meter, c.Where()
+	c.Use(p.Source, VoltageSource)
+	c.Use(p.Meter, VoltMeter)
+	switch k.stage {
+	case "":
+	case "as_found":
+		c.SetStage(AsFound)
+	case "as_left":
+		c.SetStage(AsLeft)
+	default:
+		c.Errorf("stage", "expected as_found or as_left, found %q", k.stage)
+	}
+	if k.meterRange != nil {
+		p.MeterSet.Range = float64(*k.meterRange)
+	}
+	if k.nplc != nil {
+		if p.MeterSet.NPLC = *k.nplc; !(p.MeterSet.NPLC > 0 && p.MeterSet.NPLC <= MaxNPLC) {
+			c.Errorf("nplc", "expected an integration time above 0 and at most %d power-line cycles, found %g", MaxNPLC, p.MeterSet.NPLC)
+		}
+	}
+	if k.settle == nil {
+		c.Errorf("", "missing required key \"settle\" (e.g. 20ms)")
+	} else if p.Settle = k.settle.D(); p.Settle < 0 {
+		c.Errorf("settle", "expected a settle time ≥ 0")
+	} else if p.Settle > MaxSettle {
+		c.Errorf("settle", "expected a settle time of at most %s, found %s", MaxSettle, p.Settle)
+	}
+	p.Readings = k.readings
+	if p.Readings < minReadings {
+		c.Errorf("readings", "expected at least %s, found %d", why, k.readings)
+	} else if p.Readings > MaxReadings {
+		c.Errorf("readings", "expected at most %d readings per point, found %d", MaxReadings, k.readings)
+	}
+	return p.Readings >= minReadings && p.Readings <= MaxReadings && p.Settle >= 0 && p.Settle <= MaxSettle &&
+		p.MeterSet.NPLC > 0 && p.MeterSet.NPLC <= MaxNPLC
 }
 
 // storedSweep finds the sweep called name in a stored record.
