@@ -13,6 +13,19 @@ import (
 	"trimline/sequencer"
 )
 
+// openSchema1Demo opens (and so migrates) a copy of the schema-1 demo's ledger,
+// closed when the test ends; it returns the ledger's path too.
+func openSchema1Demo(t testing.TB) (string, *ledger.Ledger) {
+	t.Helper()
+	path := filepath.Join(schema1Demo(t), "ledger.db")
+	l, err := ledger.Open(ctx, path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	t.Cleanup(func() { l.Close() })
+	return path, l
+}
+
 // schema1Demo copies testdata/schema1-demo, a one-unit demo folder made by
 // `trimline demo --units 1` before sequences were step lists (its ledger has
 // migrations up to 0006 and one signed run of schema 1), into a new folder and
@@ -102,13 +115,7 @@ func TestSchema1LedgerMigrates(t *testing.T) {
 // A run of schema 2 whose roles have names of the station's choosing stores
 // each role's kind from the record; a changed kind breaks the row check.
 func TestInstrumentKindsOfSchema2(t *testing.T) {
-	dir := schema1Demo(t)
-	path := filepath.Join(dir, "ledger.db")
-	l, err := ledger.Open(ctx, path)
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer l.Close()
+	path, l := openSchema1Demo(t)
 	rec := makeRecord("run-kinds", "SN-KINDS", sequencer.Pass, recordShape{sweeps: 2, points: 2, readings: 2})
 	for i, k := range []struct {
 		role string
@@ -122,7 +129,7 @@ func TestInstrumentKindsOfSchema2(t *testing.T) {
 	}
 	db := rawDB(t, path)
 	var got string
-	err = db.QueryRow(`SELECT group_concat(role || '=' || coalesce(kind, 'NULL'), ' ') FROM (SELECT * FROM instruments WHERE run_id = 'run-kinds' ORDER BY rowid)`).Scan(&got)
+	err := db.QueryRow(`SELECT group_concat(role || '=' || coalesce(kind, 'NULL'), ' ') FROM (SELECT * FROM instruments WHERE run_id = 'run-kinds' ORDER BY rowid)`).Scan(&got)
 	if want := "input=voltage_source dmm=meter card=dut_port"; err != nil || got != want {
 		t.Fatalf("instrument kinds: %q (%v), want %q", got, err, want)
 	}
@@ -145,13 +152,7 @@ func TestInstrumentKindsOfSchema2(t *testing.T) {
 // beside the migrated schema-1 run, and the log answers "which units had step
 // X skipped"; a changed step row breaks the check.
 func TestStepRowsOfSchema2(t *testing.T) {
-	dir := schema1Demo(t)
-	path := filepath.Join(dir, "ledger.db")
-	l, err := ledger.Open(ctx, path)
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer l.Close()
+	path, l := openSchema1Demo(t)
 	rec := makeRecord("run-steps", "SN-STEPS", sequencer.Pass, recordShape{sweeps: 2, points: 2, readings: 2})
 	rec.Sweeps[0].Stage, rec.Sweeps[1].Stage = sequencer.AsFound, sequencer.AsLeft
 	for i := range rec.Results {
@@ -173,7 +174,7 @@ func TestStepRowsOfSchema2(t *testing.T) {
 	}
 	db := rawDB(t, path)
 	var got string
-	err = db.QueryRow(`SELECT group_concat(r.serial || ':' || s.note, ';') FROM steps s JOIN runs r USING (run_id)
+	err := db.QueryRow(`SELECT group_concat(r.serial || ':' || s.note, ';') FROM steps s JOIN runs r USING (run_id)
 		WHERE s.name = 'store' AND s.status = 'skipped'`).Scan(&got)
 	if err != nil || got != "SN-STEPS:skip_if held: offset_code == 0" {
 		t.Fatalf("units where store was skipped: %q, %v", got, err)
