@@ -153,14 +153,8 @@ func (c *Checker) Errorf(key, format string, args ...any) {
 	*c.errs = append(*c.errs, c.doc.Errorf(p, format, args...))
 }
 
-// Has reports whether the step's file sets key (relative to the step).
-func (c *Checker) Has(key string) bool { return c.doc.Has(c.path + "." + key) }
-
 // Where is the step's "file:line:col".
 func (c *Checker) Where() string { return c.decl.Where }
-
-// Name is the step's name.
-func (c *Checker) Name() string { return c.decl.Name }
 
 // Sequence is the sequence being loaded: its product-level facts (ideal transfer,
 // meter defaults, trim DACs) are set before any step is checked.

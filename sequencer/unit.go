@@ -72,12 +72,6 @@ func (u *Unit) Stored() *Record { return u.stored }
 // Sequence is the sequence in force.
 func (u *Unit) Sequence() *Sequence { return u.seq }
 
-// Station is the station in force.
-func (u *Unit) Station() *Station { return u.cfg.Station }
-
-// Log is the run's logger.
-func (u *Unit) Log() *zerolog.Logger { return &u.log }
-
 // Keep stores what the running step leaves for later steps, under its name.
 func (u *Unit) Keep(v any) { u.kept[u.step.Name] = v }
 
