@@ -87,6 +87,17 @@ type Record struct {
 	Sweeps []Sweep      `json:"sweeps"`
 	Fits   []FitSummary `json:"fits"`
 	Trims  []TrimCode   `json:"trims"`
+	// Coefficients are the firmware correction coefficients written, one per
+	// coefficient (and channel), in write order. Empty for products without them.
+	Coefficients []CoefficientWrite `json:"coefficients,omitempty"`
+	// Retrims are the passes of every closed-loop re-trim, in order.
+	Retrims []RetrimPass `json:"retrims,omitempty"`
+	// StimulusUnit and ResponseUnit are the units of every sweep's stimulus and
+	// response (Point.Stimulus, Point.Mean, the readings) and of the ideal
+	// offset and full scale: "V", "A" or "count" (a number the unit reports).
+	// Empty means "V" (records made before other quantities).
+	StimulusUnit string `json:"stimulus_unit,omitempty"`
+	ResponseUnit string `json:"response_unit,omitempty"`
 
 	Conditions Conditions `json:"conditions"`
 	Coverage   float64    `json:"coverage"` // coverage probability of every expanded uncertainty, e.g. 0.9545
@@ -160,7 +171,9 @@ func (r InstrumentRef) RoleKind() RoleKind {
 
 // Sweep is one pass across the stimulus range.
 type Sweep struct {
-	Name string `json:"name"` // the sweep step's name (SweepPreTrim or SweepVerify in records of schema 1)
+	// Channel is the unit's channel the sweep measured ("" for a one-channel unit).
+	Channel string `json:"channel,omitempty"`
+	Name    string `json:"name"` // the sweep step's name (SweepPreTrim or SweepVerify in records of schema 1)
 	// Stage is what the sweep measures: the unit as found or as left (0 in
 	// records of schema 1: SweepStage tells it from the name).
 	Stage  Stage   `json:"stage,omitempty"`
@@ -211,6 +224,7 @@ type Point struct {
 // FitSummary is the straight-line fit of one sweep: y = Intercept + Slope·x, with x
 // the stimulus in volts and y the mean output in volts.
 type FitSummary struct {
+	Channel      string        `json:"channel,omitempty"` // the channel fitted ("" for a one-channel unit)
 	Sweep        string        `json:"sweep"`
 	Step         string        `json:"step,omitempty"`  // the fit step's name ("" in records of schema 1)
 	Order        int           `json:"order,omitempty"` // 1 (a line) or 2; 0 in records of schema 1, which are lines
@@ -245,12 +259,13 @@ type LackOfFit struct {
 
 // TrimCode is one trim DAC's computed, written and read-back code.
 type TrimCode struct {
-	DAC       string  `json:"dac"`     // "offset" or "gain"
-	Before    int     `json:"before"`  // code in the DAC before trimming (no correction)
-	Code      int     `json:"code"`    // code written
-	Ideal     float64 `json:"ideal"`   // exact (unrounded) code the fit asked for
-	IdealU    float64 `json:"ideal_u"` // standard uncertainty of Ideal, in codes
-	Written   bool    `json:"written"` // Code was written to the unit (false when the run stopped first)
+	Channel   string  `json:"channel,omitempty"` // the channel trimmed ("" for a one-channel unit)
+	DAC       string  `json:"dac"`               // "offset" or "gain"
+	Before    int     `json:"before"`            // code in the DAC before trimming (no correction)
+	Code      int     `json:"code"`              // code written
+	Ideal     float64 `json:"ideal"`             // exact (unrounded) code the fit asked for
+	IdealU    float64 `json:"ideal_u"`           // standard uncertainty of Ideal, in codes
+	Written   bool    `json:"written"`           // Code was written to the unit (false when the run stopped first)
 	Readback  int     `json:"readback"`
 	Saturated bool    `json:"saturated"`
 	Stored    bool    `json:"stored"` // committed to non-volatile memory
@@ -260,7 +275,10 @@ type TrimCode struct {
 // plain fractions for ppm and %, counts for codes, plain numbers as they are);
 // Unit names the dimension.
 type Result struct {
-	Name     string      `json:"name"`
+	Name string `json:"name"`
+	// Channel is the unit's channel the result belongs to, "" for a result of the
+	// whole unit. Name and Channel together are unique in a record.
+	Channel  string      `json:"channel,omitempty"`
 	Stage    Stage       `json:"stage,omitempty"`    // as found, adjustment or as left (0 in records of schema 1: see ResultStageOf)
 	Step     string      `json:"step,omitempty"`     // the step that computed it
 	Quantity string      `json:"quantity,omitempty"` // what it measures (ResultDef.Quantity); "" in older records: see QuantityOf
@@ -297,4 +315,52 @@ func FaultRecord(cfg Config, serial string, now time.Time, err error) *Record {
 		rec.RunID = newID(now)
 	}
 	return rec
+}
+
+// CoefficientWrite is one firmware correction coefficient: what the fit asked for,
+// the word written in the coefficient's number format, and what the unit gave back.
+type CoefficientWrite struct {
+	Step    string `json:"step"`              // the coefficients step that wrote it
+	Name    string `json:"name"`              // the coefficient's name in the sequence
+	Channel string `json:"channel,omitempty"` // "" for a one-channel unit
+	Adjusts string `json:"adjusts"`           // "gain" or "offset"
+	Format  string `json:"format"`            // e.g. "Q2.14 hex", "float32 decimal"
+	Unit    string `json:"unit,omitempty"`    // unit of the value ("" for a gain factor)
+	// Ideal is the exact (unrounded) value the fit asked for, IdealU its standard
+	// uncertainty from the fit.
+	Ideal  float64 `json:"ideal"`
+	IdealU float64 `json:"ideal_u"`
+	// Value is the value the written word stands for (Ideal rounded to the format),
+	// Text the word as sent, Resolution the format's spacing at Value.
+	Value      float64 `json:"value"`
+	Text       string  `json:"text"`
+	Resolution float64 `json:"resolution"`
+	Written    bool    `json:"written"`
+	// Readback is the unit's reply to the read command and ReadbackValue what it
+	// decodes to; Match is true when it is the written word at the format's
+	// resolution.
+	Readback      string  `json:"readback,omitempty"`
+	ReadbackValue float64 `json:"readback_value"`
+	Match         bool    `json:"match"`
+}
+
+// RetrimPass is one pass of a closed-loop re-trim: the code in the DAC, the
+// output error measured with it, the trim's sensitivity measured so far and the
+// code the pass chose next.
+type RetrimPass struct {
+	Step    string `json:"step"`              // the re-trim step
+	DAC     string `json:"dac"`               // the DAC re-trimmed
+	Channel string `json:"channel,omitempty"` // "" for a one-channel unit
+	Pass    int    `json:"pass"`              // 1, 2, …
+	Code    int    `json:"code"`              // code in the DAC during this pass's measurement
+	// Error is the measured output error at the re-trim's points (mean of the
+	// points, response unit), ErrorU its standard uncertainty.
+	Error  float64 `json:"error"`
+	ErrorU float64 `json:"error_u"`
+	// Sensitivity is the trim's measured response per code (response unit per
+	// code) used to choose Next; Measured is false while it is still the nominal LSB.
+	Sensitivity float64 `json:"sensitivity"`
+	Measured    bool    `json:"measured"`
+	Within      bool    `json:"within"` // |Error| was within the step's bound
+	Next        int     `json:"next"`   // code written for the next pass (= Code on the last)
 }
