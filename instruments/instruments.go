@@ -60,6 +60,35 @@ type TrimPort interface {
 	Query(ctx context.Context, line string) (string, error)
 }
 
+// Switch routes the stimulus to one channel of a multi-channel unit and that
+// channel's response back to the station (a relay multiplexer). Route closes the
+// path of the named channel and opens every other; Release opens every path.
+// Implementations must accept Release at any time, also after an earlier error,
+// because the engine calls it on every exit path.
+type Switch interface {
+	Instrument
+	Route(ctx context.Context, channel string) error
+	Release(ctx context.Context) error
+}
+
+// Function is what a meter measures: FuncVoltage (readings in volts, the default)
+// or FuncCurrent (readings in amperes).
+type Function string
+
+const (
+	FuncVoltage Function = "voltage" // DC voltage, readings in V
+	FuncCurrent Function = "current" // DC current, readings in A
+)
+
+// FunctionSetter is an optional capability of a Meter that measures more than DC
+// voltage: SetFunction selects what later Reads measure, and Configure's range is
+// then in that function's unit (amperes for FuncCurrent). Fallback when absent:
+// the meter measures DC voltage only, and a sequence that reads a current through
+// it is refused before the output is switched on.
+type FunctionSetter interface {
+	SetFunction(ctx context.Context, f Function) error
+}
+
 // Flag qualifies a reading. Only FlagNone readings are numbers that may be used.
 type Flag int
 
@@ -81,9 +110,10 @@ func (f Flag) String() string {
 	return fmt.Sprintf("flag(%d)", int(f))
 }
 
-// Reading is one meter reading in volts.
+// Reading is one meter reading, in volts (or amperes when the meter measures
+// current, or the number a unit reports about itself).
 type Reading struct {
-	Value float64   // volts; meaningless unless Flag == FlagNone
+	Value float64   // SI units; meaningless unless Flag == FlagNone
 	Flag  Flag      // FlagNone for a valid number
 	Time  time.Time // when the reading was taken (the driver's clock)
 }
@@ -174,13 +204,14 @@ const (
 	KindSource = "voltage_source" // a Source
 	KindMeter  = "meter"          // a Meter
 	KindPort   = "dut_port"       // a TrimPort
+	KindSwitch = "switch"         // a Switch
 )
 
 // Spec says how to open one instrument: its role on the station, what kind of
 // instrument the role binds, its address and driver settings from the station file.
 type Spec struct {
 	Role string // the station's name for it: "source", "meter", "dut" or any other
-	// Kind is KindSource, KindMeter or KindPort. Empty means the kind of the
+	// Kind is KindSource, KindMeter, KindPort or KindSwitch. Empty means the kind of the
 	// same name as Role (source, meter, dut): callers that predate kinds.
 	Kind     string
 	Address  string            // e.g. "sim://meter", "tcp://192.0.2.7:5025", "serial:///dev/ttyUSB0?baud=9600"
