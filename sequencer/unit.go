@@ -6,6 +6,7 @@ import (
 	"context"
 	"fmt"
 	"math"
+	"strings"
 	"time"
 
 	"github.com/rs/zerolog"
@@ -47,6 +48,16 @@ type Unit struct {
 	ended   bool
 	endNote string
 	step    *StepDecl // the step running
+	channel string    // the unit's channel the running step works on, "" for a one-channel unit
+}
+
+// Channel is the unit's channel the running step works on: one of the sequence's
+// channel names, or "" for a one-channel unit.
+func (u *Unit) Channel() string { return u.channel }
+
+// Fill returns template with every {channel} replaced by the running step's channel.
+func (u *Unit) Fill(template string) string {
+	return strings.ReplaceAll(template, "{channel}", u.channel)
 }
 
 func newUnit(cfg Config, rec *Record, m mode) *Unit {
