@@ -10,7 +10,9 @@ import (
 	"os"
 	"path/filepath"
 	"regexp"
+	"sort"
 	"strconv"
+	"strings"
 	"time"
 
 	"trimline/reports/issuing"
@@ -23,25 +25,33 @@ import (
 
 func newDemoCmd() *command {
 	c := &command{
-		UsageLine: "trimline demo [--out DIR] [--units N] [--seed S] [--transport sim|tcp|serial] [--retest]",
-		Short:     "write the demo files and trim N simulated units end to end",
-		Long: `Writes the demo station, sequence and limit files for the BRX-200 bridge amplifier
-card (an invented product) into DIR, then runs N simulated units through the whole
-job on the simulated bench: pre-trim sweep, fit, trim, read-back, store, verification
-sweep, limits, ledger and one PDF certificate per unit. About 2 % of simulated units
-carry a real defect (a stuck trim-DAC bit, excess noise, an open output); the default
-seed's first 25 units include two, so the demo shows how failures look.
+		UsageLine: "trimline demo [--list] [--product NAME] [--out DIR] [--units N] [--seed S] [--transport sim|tcp|serial] [--retest]",
+		Short:     "write a demo product's files and trim N simulated units end to end",
+		Long: `Writes the station, sequence and limit files of a demo product (all invented) into
+DIR, then runs N simulated units through the whole job on the simulated bench. The
+default product is the BRX-200 bridge amplifier card: pre-trim sweep, fit, trim,
+read-back, store, verification sweep, limits, ledger and one PDF certificate per
+unit. About 2 % of simulated units carry a real defect (a stuck trim-DAC bit, excess
+noise, an open output); the default seed's first 25 BRX-200 units include two, so
+the demo shows how failures look.
+
+--list prints the demo products' names, one per line, and nothing else; --product
+NAME runs that one (its files, its station, its keys). Every product is files only:
+see the sequences folder.
 
 Afterwards DIR holds the three files, certificates/*.pdf, ledger.db (SQLite) and
 trimline.log (JSON lines). Rerun with the same --seed for the same units. The units
-are BRX-00001 onwards; into a folder whose ledger has them already, run again with
---retest (each retest supersedes the unit's earlier certificate) or use a new --out.
+are numbered from 1 after the product's serial pattern (BRX-00001 onwards); into a
+folder whose ledger has them already, run again with --retest (each retest
+supersedes the unit's earlier certificate) or use a new --out.
 
 With --transport tcp or serial the same units run through the real SCPI and
 trim-port drivers against the simulator served on loopback TCP ports or
 pseudo-terminals (see trimline bench). The served bench runs on real time, so each
 unit takes a few seconds, as it would on a real bench.`,
 	}
+	list := c.Flag.Bool("list", false, "print the demo products' names, one per line, and stop")
+	productName := c.Flag.String("product", sequences.Default, "the demo product to run (see --list)")
 	out := c.Flag.String("out", "trimline-demo", "output `folder`")
 	n := c.Flag.Int("units", 25, "number of simulated `units`")
 	seed := c.Flag.Uint64("seed", 8, "`seed` of the simulated unit population")
@@ -53,16 +63,34 @@ unit takes a few seconds, as it would on a real bench.`,
 		if len(args) > 0 {
 			return usagef("unexpected argument %q", args[0])
 		}
+		if *list {
+			ps, err := sequences.Products()
+			if err != nil {
+				return err
+			}
+			for _, p := range ps {
+				fmt.Fprintln(e.stdout, p.Name)
+			}
+			return nil
+		}
 		if *n < 1 {
 			return usagef("--units must be at least 1")
 		}
-		station, sequence, err := writeDemoFiles(*out, *seed, time.Now())
+		prod, err := sequences.Find(*productName)
+		if err != nil {
+			return usagef("--product: %v", err)
+		}
+		station, sequence, err := writeProductFiles(*out, prod, *seed, time.Now())
 		if err != nil {
 			return err
 		}
 		// The demo plays its own quality engineer: it releases the demo sequence and
 		// limit files in its ledger, as production requires.
-		if err := releaseDemo(ctx, e, *out); err != nil {
+		if err := releaseProduct(ctx, e, *out, prod); err != nil {
+			return err
+		}
+		stationID, err := stationIDOf(station)
+		if err != nil {
 			return err
 		}
 		switch *transport {
@@ -77,7 +105,7 @@ unit takes a few seconds, as it would on a real bench.`,
 				return err
 			}
 			defer srv.Close()
-			station = filepath.Join(*out, "brx200-station-"+*transport+".yaml")
+			station = filepath.Join(*out, strings.TrimSuffix(prod.Station, ".yaml")+"-"+*transport+".yaml")
 			data, err := st.Rewired(srv.Addresses(), served(srv))
 			if err != nil {
 				return err
@@ -89,10 +117,10 @@ unit takes a few seconds, as it would on a real bench.`,
 		default:
 			return usagef("--transport must be sim, tcp or serial")
 		}
-		fmt.Fprintf(e.stdout, "trimline demo: %d simulated BRX-200 units, seed %d, files in %s\n\n", *n, *seed, *out)
+		fmt.Fprintf(e.stdout, "trimline demo: %d simulated %s units, seed %d, files in %s\n\n", *n, prod.Name, *seed, *out)
 		serials := make([]string, *n)
 		for i := range serials {
-			serials[i] = fmt.Sprintf("BRX-%05d", i+1)
+			serials[i] = prod.Serial(i + 1)
 		}
 		t, err := runBatch(ctx, e, batch{stationPath: station, sequencePath: sequence, serials: serials, out: *out,
 			operator: *operator, ambient: *ambient, retest: *retest})
@@ -113,7 +141,7 @@ unit takes a few seconds, as it would on a real bench.`,
 		}
 		fmt.Fprintf(e.stdout, "\nan auditor checks them with the station's public key (%s), kept apart from the station:\n"+
 			"  trimline audit verify %s --keys %s\n  trimline audit ledger --ledger %s --keys %s\n",
-			filepath.Join(keys, "TL1.pub"), cert, keys, filepath.Join(*out, "ledger.db"), keys)
+			filepath.Join(keys, stationID+".pub"), cert, keys, filepath.Join(*out, "ledger.db"), keys)
 		// The demo succeeds when it ran; failed units are part of the show.
 		if err := t.Err(); !errors.Is(err, sequencer.ErrUnitsFailed) {
 			return report(err)
@@ -128,61 +156,100 @@ var (
 	seedLine   = regexp.MustCompile(`(?m)^(\s*seed:\s*)"\d+"`)
 )
 
-// writeDemoFiles copies the embedded demo files into dir. The simulated
-// instruments' calibration due dates are set a year after now so the demo never
-// trips the expired-calibration check, and the seed is written into the station
-// file, where the simulated bench reads it.
+// writeDemoFiles writes the default product's files into dir; see writeProductFiles.
 func writeDemoFiles(dir string, seed uint64, now time.Time) (station, sequence string, err error) {
-	if err := os.MkdirAll(dir, 0o755); err != nil {
-		return "", "", err
-	}
-	entries, err := fs.ReadDir(sequences.Demo, ".")
+	p, err := sequences.Find(sequences.Default)
 	if err != nil {
 		return "", "", err
 	}
-	// The demo station seals its certificates with a key of its own, and its
-	// quality engineer releases files with another.
-	for _, k := range []struct{ dir, name string }{{filepath.Join(dir, "keys"), "TL1"}, {filepath.Join(dir, "keys", "approvers"), "demo-qe"}} {
+	return writeProductFiles(dir, p, seed, now)
+}
+
+// writeProductFiles copies a demo product's embedded files into dir. The simulated
+// instruments' calibration due dates are set a year after now so the demo never
+// trips the expired-calibration check, and the seed is written into the station
+// file, where the simulated bench reads it. The station gets a signing key named
+// after its id, and the demo's quality engineer a release key; keys/trust.yaml
+// trusts both.
+func writeProductFiles(dir string, p sequences.Product, seed uint64, now time.Time) (station, sequence string, err error) {
+	if err := os.MkdirAll(dir, 0o755); err != nil {
+		return "", "", err
+	}
+	for _, name := range []string{p.Station, p.Sequence, p.Limits} {
+		data, err := fs.ReadFile(sequences.Demo, name)
+		if err != nil {
+			return "", "", err
+		}
+		if name == p.Station {
+			data = calDueLine.ReplaceAll(data, []byte("${1}"+now.AddDate(1, 0, 0).Format("2006-01-02")))
+			data = seedLine.ReplaceAll(data, []byte(`${1}"`+strconv.FormatUint(seed, 10)+`"`))
+		}
+		if err := os.WriteFile(filepath.Join(dir, name), data, 0o644); err != nil {
+			return "", "", err
+		}
+	}
+	station = filepath.Join(dir, p.Station)
+	id, err := stationIDOf(station)
+	if err != nil {
+		return "", "", err
+	}
+	for _, k := range []struct{ dir, name string }{{filepath.Join(dir, "keys"), id}, {filepath.Join(dir, "keys", "approvers"), "demo-qe"}} {
 		if _, err := os.Stat(filepath.Join(k.dir, k.name+".key")); os.IsNotExist(err) {
 			if _, _, err := signing.Init(k.dir, k.name); err != nil {
 				return "", "", err
 			}
 		}
 	}
-	if err := os.WriteFile(filepath.Join(dir, "keys", "trust.yaml"), []byte(demoTrust), 0o600); err != nil {
+	if err := os.WriteFile(filepath.Join(dir, "keys", "trust.yaml"), []byte(demoTrust(dir)), 0o600); err != nil {
 		return "", "", err
 	}
-	for _, e := range entries {
-		data, err := fs.ReadFile(sequences.Demo, e.Name())
-		if err != nil {
-			return "", "", err
-		}
-		if e.Name() == "brx200-station.yaml" {
-			data = calDueLine.ReplaceAll(data, []byte("${1}"+now.AddDate(1, 0, 0).Format("2006-01-02")))
-			data = seedLine.ReplaceAll(data, []byte(`${1}"`+strconv.FormatUint(seed, 10)+`"`))
-		}
-		if err := os.WriteFile(filepath.Join(dir, e.Name()), data, 0o644); err != nil {
-			return "", "", err
-		}
-	}
-	return filepath.Join(dir, "brx200-station.yaml"), filepath.Join(dir, "brx200-sequence.yaml"), nil
+	return station, filepath.Join(dir, p.Sequence), nil
 }
 
-// demoTrust is the demo's trust file: the station's key bound to its id, and its
-// quality engineer, named as the trust names them, who may release and void.
-const demoTrust = `# Whose keys the demo trusts: the station TL1's, and its quality engineer's,
-# who may release files and void certificates. The demo station's release_keys
-# names this file; an auditor passes their own copy with --trust.
+// stationIDOf reads the id of the station file at path.
+func stationIDOf(path string) (string, error) {
+	st, err := sequencer.LoadStation(path)
+	if err != nil {
+		return "", badInput(err)
+	}
+	return st.ID, nil
+}
+
+// demoTrust is the demo folder's trust file: the key of every station that has
+// one in dir/keys, bound to its id, and its quality engineer, named as the trust
+// names them, who may release and void.
+func demoTrust(dir string) string {
+	var b strings.Builder
+	b.WriteString(`# Whose keys the demo trusts: its stations', and its quality engineer's,
+# who may release files and void certificates. The demo station files'
+# release_keys names this file; an auditor passes their own copy with --trust.
 trust:
   stations:
-    - {id: TL1, public_key: TL1.pub}
-  approvers:
+`)
+	pubs, _ := filepath.Glob(filepath.Join(dir, "keys", "*.pub"))
+	sort.Strings(pubs)
+	for _, p := range pubs {
+		id := strings.TrimSuffix(filepath.Base(p), ".pub")
+		fmt.Fprintf(&b, "    - {id: %s, public_key: %s.pub}\n", id, id)
+	}
+	b.WriteString(`  approvers:
     - {name: Demo Quality Engineer, public_key: approvers/demo-qe.pub, may: [release, void]}
-`
+`)
+	return b.String()
+}
 
-// releaseDemo approves the demo's sequence and limit files in DIR's ledger unless
-// they are in force already.
+// releaseDemo releases the default product's files; see releaseProduct.
 func releaseDemo(ctx context.Context, e *env, dir string) error {
+	p, err := sequences.Find(sequences.Default)
+	if err != nil {
+		return err
+	}
+	return releaseProduct(ctx, e, dir, p)
+}
+
+// releaseProduct approves a demo product's sequence and limit files in DIR's
+// ledger unless they are in force already.
+func releaseProduct(ctx context.Context, e *env, dir string, p sequences.Product) error {
 	trust, err := release.Approvers(filepath.Join(dir, "keys", "trust.yaml"))
 	if err != nil {
 		return err
@@ -196,7 +263,7 @@ func releaseDemo(ctx context.Context, e *env, dir string) error {
 	if err != nil {
 		return err
 	}
-	seq, err := sequencer.LoadSequence(filepath.Join(dir, "brx200-sequence.yaml"))
+	seq, err := sequencer.LoadSequence(filepath.Join(dir, p.Sequence))
 	if err != nil {
 		return badInput(err)
 	}
@@ -204,7 +271,7 @@ func releaseDemo(ctx context.Context, e *env, dir string) error {
 	if err != nil {
 		return err
 	}
-	for _, f := range []string{"brx200-sequence.yaml", "brx200-limits.yaml"} {
+	for _, f := range []string{p.Sequence, p.Limits} {
 		data, err := os.ReadFile(filepath.Join(dir, f))
 		if err != nil {
 			return err
