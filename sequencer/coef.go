@@ -188,7 +188,7 @@ func coefFormat(doc *files.Doc, s *Sequence, path string, d *coefDecl, c *Coeffi
 		if d.Scale != "" {
 			bad(path+".scale", "scale applies to int<bits> formats only: %s has a resolution of its own", d.Format)
 		}
-		return f
+		return holdsNoCorrection(doc, path+".format", d, f, errs)
 	}
 	if d.Scale == "" {
 		example := "1e-6"
@@ -214,7 +214,27 @@ func coefFormat(doc *files.Doc, s *Sequence, path string, d *coefDecl, c *Coeffi
 		bad(path+".scale", "%v", err)
 		return numfmt.Format{}
 	}
-	return f
+	return holdsNoCorrection(doc, path+".scale", d, f, errs)
+}
+
+// holdsNoCorrection returns f when it stores the no-correction value of the
+// coefficient d exactly (1 for a gain, 0 for an offset), which clear_trim writes;
+// else it reports at key and returns the zero Format.
+func holdsNoCorrection(doc *files.Doc, key string, d *coefDecl, f numfmt.Format, errs *files.List) numfmt.Format {
+	if d.Adjusts != AdjustGain {
+		return f // every format holds 0 exactly
+	}
+	_, v, err := f.Encode(1)
+	if err == nil && v == 1 {
+		return f
+	}
+	lo, hi := f.Range()
+	why := fmt.Sprintf("its range is %s … %s", units.FormatSig(lo, 6), units.FormatSig(hi, 6))
+	if err == nil {
+		why = fmt.Sprintf("1 rounds to %g", v)
+	}
+	*errs = append(*errs, doc.Errorf(key, "%s cannot hold 1, a gain's no correction (%s): expected a format with a wider range or a scale that divides 1", f, why))
+	return numfmt.Format{}
 }
 
 // coefWrite writes the word text (standing for value) to coefficient c through
