@@ -511,6 +511,7 @@ func TestCoefficientLoadErrors(t *testing.T) {
 		{"format: Q2.14", "format: Q1.15", "format: Q1.15", "cannot hold 1"},
 		{"format: Q2.14", "format: int16\n    scale: 3e-4", "scale: 3e-4", "1 rounds to"},
 		{"  - name: offset", "  - name: gain", "  - name: gain\n    adjusts: offset", `coefficient name "gain" is already used`},
+		{"    text: hex\n", "    text: hex\n    scaling: 2\n", "scaling: 2", "unknown"},
 		{"fit: raw fit", "fit: nothing", "fit: nothing", `no earlier fit step called "nothing"`},
 		{"results: {gain: coef_gain, offset: coef_offset}", "results: {gain: coef_gain, drift: x}", "results: {gain: coef_gain, drift: x}", `unknown coefficients result "drift"`},
 		{"  - kind: clear_trim\n    name: clear trim\n", "", "fit: raw fit", "no clear_trim step precedes"},
@@ -528,5 +529,29 @@ func TestNoCoefficientsNoRecord(t *testing.T) {
 	rec := runReplayed(t, e, cfg, "BRX-00005")
 	if rec.Coefficients != nil {
 		t.Errorf("a product without coefficients recorded %+v", rec.Coefficients)
+	}
+}
+
+// With an offset coefficient only, k = 1: m = Y0 − c, and only the offset is
+// written (after clear_trim's one write).
+func TestOffsetCoefficientOnly(t *testing.T) {
+	seq := replaceAll(t, coefSeq,
+		"  - name: gain\n    adjusts: gain\n    format: Q2.14\n    text: hex\n    write: \"CAL GAIN {value}\"\n    read: \"CAL GAIN?\"\n", "",
+		"results: {gain: coef_gain, offset: coef_offset}", "results: {offset: coef_offset}")
+	e, cfg := coefBench(t, seq)
+	rec := runReplayed(t, e, cfg, "BRX-00006")
+	if rec.Verdict != sequencer.Pass {
+		t.Fatalf("verdict %s %v %s", rec.Verdict, rec.Reasons, rec.Fault)
+	}
+	ws := coefWrites(rec, "correct")
+	want := (cfg.Sequence.IdealOffset - rec.Fits[0].Intercept) * 1e3 // mV
+	if len(ws) != 1 || ws[0].Name != "offset" || math.Abs(ws[0].Ideal-want) > 1e-12*math.Abs(want) || !ws[0].Match {
+		t.Errorf("wrote %+v; want the offset alone, ideal %.12g mV", ws, want)
+	}
+	coefPort.Lock()
+	writes := coefPort.writes
+	coefPort.Unlock()
+	if len(writes) != 2 || writes[0] != "CAL OFS 0" {
+		t.Errorf("writes %q, want CAL OFS 0 then the offset", writes)
 	}
 }

@@ -218,7 +218,7 @@ func (s *coefStep) Run(ctx context.Context, u *Unit) error {
 			// §4.3.7, u = resolution/√12). The rounding stays in the corrected unit's
 			// output as part of its residual error, so it is counted here once.
 			std, dof := uncertainty.Combine([]uncertainty.Component{
-				{Name: "fit", U: fitU[i], DOF: fitDOF[i], Kind: uncertainty.KindB},
+				{Name: "fit", U: fitU[i], DOF: fitDOF[i]}, // Type A and B together, as the fit evaluated them
 				uncertainty.Resolution("rounding", w.Resolution),
 			})
 			u.SetU(r, w.Value*k.UnitSI, u.Unc(std*k.UnitSI, dof))
