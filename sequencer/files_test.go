@@ -113,7 +113,7 @@ func TestFileErrorsArePositioned(t *testing.T) {
 		{"role without a kind", "station", "  dut:", "  fixture_dut:", "fixture_dut:", 3, "missing required key \"kind\" for role \"fixture_dut\""},
 		{"unknown instrument kind", "station", "  dut:", "  dut:\n    kind: dut_socket", "kind: dut_socket", 11, "unknown instrument kind \"dut_socket\""},
 		{"role the steps use but requires omits", "sequence", "requires: [source, meter, dut]", "requires: [source, meter, dvm]", "requires:", 11, "the steps use the \"dut\" role, which requires does not list"},
-		{"unknown step kind", "sequence", "  - kind: store", "  - kind: save", "kind: save", 11, "unknown step kind \"save\" (expected one of clear_trim, command, fit, identify, "},
+		{"unknown step kind", "sequence", "  - kind: store", "  - kind: save", "kind: save", 11, "unknown step kind \"save\" (expected one of clear_trim, coefficients, command, fit, identify, "},
 		{"fit of a sweep that comes later", "sequence", "    sweep: pre-trim\n", "    sweep: verify\n", "sweep: verify", 12, "no earlier sweep step called \"verify\""},
 		{"unknown DAC in a trim", "sequence", "      gain: gain_code", "      gian: gain_code", "gian: gain_code", 13, "no trim DAC \"gian\""},
 		{"skip_if over a later result", "sequence", "    command: \"NV STORE\"\n", "    command: \"NV STORE\"\n    skip_if: post_offset > 0\n", "skip_if: post_offset", 14, "unknown name post_offset"},

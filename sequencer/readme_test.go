@@ -17,6 +17,7 @@ import (
 type readmeBlock struct {
 	line int    // 1-based line of its first line in the file
 	text string // the block's lines, without the fences
+	sub  string // the "### " heading it is under, "" for none
 }
 
 // fencedBlocks returns the blocks with info string info of the section heading
@@ -30,19 +31,23 @@ func fencedBlocks(t *testing.T, name, heading, info string) []readmeBlock {
 	var out []readmeBlock
 	in, fence := false, false
 	var cur *readmeBlock
+	sub := ""
 	sc := bufio.NewScanner(bytes.NewReader(readme))
 	for n := 1; sc.Scan(); n++ {
 		line := sc.Text()
 		if !fence && strings.HasPrefix(line, "## ") {
-			in = line == heading
+			in, sub = line == heading, ""
 			continue
+		}
+		if !fence && strings.HasPrefix(line, "### ") {
+			sub = line
 		}
 		if !in {
 			continue
 		}
 		if strings.HasPrefix(line, "```") {
 			if fence = !fence; fence && strings.TrimSpace(strings.TrimPrefix(line, "```")) == info {
-				cur = &readmeBlock{line: n + 1}
+				cur = &readmeBlock{line: n + 1, sub: sub}
 			} else if !fence && cur != nil {
 				out = append(out, *cur)
 				cur = nil
@@ -112,13 +117,19 @@ func withSteps(t *testing.T, doc, block string) string {
 // A block that starts with "- kind:" is appended to the demo sequence's steps, a
 // block that starts with a top-level key replaces that key of the demo sequence,
 // and a block headed "# ofx10-….yaml:" is that file of testdata/ofx10 byte for
-// byte (TestSecondProductRunsOnTheSimulator runs them). Every registered step
-// kind has an example.
+// byte (TestSecondProductRunsOnTheSimulator runs them). A "- kind:" block loads
+// with the top-level blocks shown before it under the same "###" heading (a step
+// that needs a section the demo has not, such as coefficients:). Every registered
+// step kind has an example.
 func TestReadmeSequenceExamplesLoad(t *testing.T) {
 	demo := demoFile(t, "brx200-sequence.yaml")
 	shown := map[string]bool{}
 	named := 0
+	var tops []readmeBlock // top-level blocks of the current ### section
 	for _, b := range fencedBlocks(t, "README.md", "## Writing a sequence", "yaml") {
+		if len(tops) > 0 && tops[0].sub != b.sub {
+			tops = nil
+		}
 		first, _, _ := strings.Cut(b.text, "\n")
 		var doc string
 		switch {
@@ -137,8 +148,13 @@ func TestReadmeSequenceExamplesLoad(t *testing.T) {
 			continue
 		case strings.HasPrefix(first, "- kind:"):
 			doc = withSteps(t, demo, b.text)
+			for _, tb := range tops {
+				tfirst, _, _ := strings.Cut(tb.text, "\n")
+				doc = withTopKey(doc, topKey.FindStringSubmatch(tfirst)[1], tb.text)
+			}
 		case topKey.MatchString(first):
 			doc = withTopKey(demo, topKey.FindStringSubmatch(first)[1], b.text)
+			tops = append(tops, b)
 		default:
 			t.Errorf("README.md:%d: a yaml block that is neither steps, a top-level key of a sequence file nor a named example file: %q", b.line, first)
 			continue

@@ -342,6 +342,14 @@ type CoefficientWrite struct {
 	Readback      string  `json:"readback,omitempty"`
 	ReadbackValue float64 `json:"readback_value"`
 	Match         bool    `json:"match"`
+	// Found is the unit's reply to the read command before clear_trim wrote the
+	// no-correction value (clear_trim's entries only), FoundValue what it decodes
+	// to (0 when it does not decode): the coefficient as found.
+	Found      string  `json:"found,omitempty"`
+	FoundValue float64 `json:"found_value,omitempty"`
+	// Stored is true when a store step committed this word to non-volatile
+	// memory: the last word written to the coefficient before the store.
+	Stored bool `json:"stored,omitempty"`
 }
 
 // RetrimPass is one pass of a closed-loop re-trim: the code in the DAC, the

@@ -64,6 +64,7 @@ func Differences(recorded, replayed *Record) []string {
 			add("%s trim ideal code: recorded %.9g, recomputed %.9g", a.DAC, a.Ideal, b.Ideal)
 		}
 	}
+	coefDifferences(recorded.Coefficients, replayed.Coefficients, add)
 	got := map[string]Result{}
 	for _, r := range replayed.Results {
 		got[r.Name] = r

@@ -33,8 +33,12 @@ type Sequence struct {
 
 	Meter MeterPlan // the meter settings every sweep uses unless it sets its own
 	// DACs are the unit's trim DACs as the file declares them, in file order.
-	DACs  []DAC
-	Steps []*StepDecl
+	DACs []DAC
+	// Coefficients are the unit's firmware correction coefficients as the file
+	// declares them (coefficients:), in file order; at most one adjusts gain and
+	// one offset.
+	Coefficients []Coefficient
+	Steps        []*StepDecl
 
 	// SerialPattern is the sequence file's serial_pattern as written, matched
 	// against the whole serial ("" = DefaultSerialPattern); CheckSerial applies it.
@@ -166,9 +170,10 @@ type sequenceFile struct {
 		Range *units.Voltage `yaml:"range"`
 		NPLC  *float64       `yaml:"nplc"`
 	} `yaml:"meter"`
-	DACs        []*dacDecl `yaml:"dacs"`
-	Steps       anyNode    `yaml:"steps"`
-	Uncertainty struct {
+	DACs         []*dacDecl  `yaml:"dacs"`
+	Coefficients []*coefDecl `yaml:"coefficients"`
+	Steps        anyNode     `yaml:"steps"`
+	Uncertainty  struct {
 		Method string `yaml:"method"`
 		Trials int    `yaml:"trials"`
 	} `yaml:"uncertainty"`
@@ -291,8 +296,12 @@ func parseSequence(name string, data []byte, read func(path string) ([]byte, err
 	case first:
 		s.FirstLayout = true
 		paths = firstLayout(doc, s, &f, &errs)
+		if doc.Has("$.coefficients") {
+			errs = append(errs, doc.KeyErrorf("$.coefficients", "coefficients: needs a step list (steps:) with a coefficients step: the first sequence layout has none"))
+		}
 	default:
 		s.DACs = dacList(doc, f.DACs, &errs)
+		s.Coefficients = coefList(doc, s, f.Coefficients, &errs)
 		paths = stepList(doc, s, &errs, &decodeErrs)
 	}
 	checkSteps(doc, s, paths, &errs)

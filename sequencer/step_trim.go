@@ -14,7 +14,7 @@ import (
 )
 
 func init() {
-	RegisterStep(StepKind{Name: "clear_trim", About: "reads the code each trim DAC holds (recorded as found) and writes its no-correction code",
+	RegisterStep(StepKind{Name: "clear_trim", About: "reads the code each trim DAC and the value each firmware coefficient holds (recorded as found) and writes their no-correction values",
 		New: func() Step { return new(clearTrimStep) }})
 	RegisterStep(StepKind{Name: "trim", About: "computes trim codes from an earlier fit, writes them and reads them back; a code outside a DAC's range fails the unit",
 		New: func() Step { return new(trimStep) }})
@@ -76,9 +76,15 @@ type clearTrimStep struct {
 }
 
 func (s *clearTrimStep) Check(c *Checker) {
-	s.dacs = dacsOf(c, "dacs", s.DACs)
+	seq := c.Sequence()
+	if len(s.DACs) > 0 || len(seq.DACs) > 0 || len(seq.Coefficients) == 0 {
+		s.dacs = dacsOf(c, "dacs", s.DACs)
+	}
 	for _, d := range s.dacs {
 		c.Use(d.Port, DUTPort)
+	}
+	for _, k := range seq.Coefficients {
+		c.Use(k.Port, DUTPort)
 	}
 }
 
@@ -108,7 +114,8 @@ func (s *clearTrimStep) Run(ctx context.Context, u *Unit) error {
 		}
 		u.SetCode(d.Name, d.NoCorrection)
 	}
-	return nil
+	// Every firmware coefficient too: the unit measured next is the uncorrected one.
+	return clearCoefficients(ctx, u)
 }
 
 // trimStep is trim as the file writes it.
@@ -321,6 +328,7 @@ func (s *storeStep) Run(ctx context.Context, u *Unit) error {
 			u.Rec.Trims[i].Stored = true
 		}
 	}
+	storeCoefficients(u.Rec)
 	return nil
 }
 

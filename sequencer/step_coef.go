@@ -1,0 +1,333 @@
+package sequencer
+
+// The coefficients step: the firmware correction coefficients that bring an
+// earlier fit's line (of the unit with no correction) to the ideal transfer,
+// encoded in their number formats, written, read back and recorded.
+
+import (
+	"context"
+	"fmt"
+	"math"
+	"strings"
+
+	"trimline/instruments/units"
+	"trimline/sequencer/uncertainty"
+)
+
+func init() {
+	RegisterStep(StepKind{Name: "coefficients", About: "computes the firmware gain and offset correction from an earlier fit of the uncorrected unit, writes each coefficient in its number format and reads it back",
+		New: func() Step { return new(coefStep) }})
+}
+
+// coefStep is coefficients as the file writes it.
+type coefStep struct {
+	Fit     string            `yaml:"fit"`
+	Results map[string]string `yaml:"results"`
+
+	order []string      // the order of Results' keys when not read from a file
+	coefs []Coefficient // the sequence's, gain first
+}
+
+func (s *coefStep) Check(c *Checker) {
+	c.SetStage(Adjustment)
+	seq := c.Sequence()
+	if len(seq.Coefficients) == 0 {
+		c.Errorf("", "the sequence declares no firmware coefficients (coefficients:)")
+	}
+	s.coefs = nil
+	for _, what := range []string{AdjustGain, AdjustOffset} {
+		if k, ok := seq.Coefficient(what); ok {
+			s.coefs = append(s.coefs, k)
+			c.Use(k.Port, DUTPort)
+		}
+	}
+	if s.Fit == "" {
+		c.Errorf("", "missing required key \"fit\" (the name of an earlier fit step of the unit with no correction)")
+	} else if d := c.Earlier("fit", s.Fit, "fit"); d != nil {
+		s.checkUncorrected(c, d)
+	}
+	for _, what := range orderedKeys(c, "results", s.Results, s.order) {
+		k, ok := seq.Coefficient(what)
+		switch {
+		case what != AdjustGain && what != AdjustOffset:
+			c.Errorf("results."+what, "unknown coefficients result %q (expected gain or offset: the value written to that coefficient)", what)
+			continue
+		case !ok:
+			c.Errorf("results."+what, "no coefficient adjusts %s (coefficients: declares none)", what)
+			continue
+		}
+		def := ResultDef{Name: s.Results[what], Dim: coefDim(seq, k), Stage: Adjustment, Quantity: what + "_coefficient",
+			About: coefAbout(seq, k), Range: coefRange(k)}
+		c.Declare("results."+what, def)
+	}
+}
+
+// checkUncorrected reports a fit that is not of the unit with no correction: its
+// sweep must come after a clear_trim step, with no coefficients step between.
+func (s *coefStep) checkUncorrected(c *Checker, fit *StepDecl) {
+	fs, ok := fit.Step.(*fitStep)
+	if !ok || fs.Sweep == "" {
+		return
+	}
+	sweep := -1
+	for i, d := range c.earlier {
+		if d.Name == fs.Sweep {
+			sweep = i
+		}
+	}
+	if sweep < 0 {
+		return // the fit step reports it
+	}
+	for i := sweep - 1; i >= 0; i-- {
+		switch d := c.earlier[i]; d.Kind {
+		case "clear_trim":
+			return
+		case "coefficients":
+			c.Errorf("fit", "fit %q is of sweep %q, made after step %q wrote coefficients: the coefficients are computed from the unit with no correction (put a clear_trim step before the sweep)", s.Fit, fs.Sweep, d.Name)
+			return
+		}
+	}
+	c.Errorf("fit", "fit %q is of sweep %q, which no clear_trim step precedes: the coefficients are computed from the unit with no correction (put a clear_trim step before the sweep)", s.Fit, fs.Sweep)
+}
+
+// coefDim is the dimension of coefficient k's result: a plain number for a gain
+// factor, the response's for an offset.
+func coefDim(seq *Sequence, k Coefficient) units.Dim {
+	if k.Adjusts == AdjustGain {
+		return units.Number
+	}
+	return responseDim(seq)
+}
+
+func coefAbout(seq *Sequence, k Coefficient) string {
+	if k.Adjusts == AdjustGain {
+		return k.Name + " gain coefficient written, a factor"
+	}
+	return k.Name + " offset coefficient written, " + responseUnitName(responseDim(seq))
+}
+
+// coefRange is the format's range of coefficient k, in the unit of its result.
+func coefRange(k Coefficient) func(*Sequence) (float64, float64, bool) {
+	return func(*Sequence) (float64, float64, bool) {
+		if k.Format.Kind == 0 {
+			return 0, 0, false
+		}
+		lo, hi := k.Format.Range()
+		return lo * k.UnitSI, hi * k.UnitSI, true
+	}
+}
+
+// CoefficientPlan is the arithmetic of the coefficients step, apart from I/O: the
+// unit computes corrected = k·raw + m.
+type CoefficientPlan struct {
+	Gain, Offset bool // which coefficients the unit has
+}
+
+// CoefficientValues are the exact coefficients one fit asks for and their
+// sensitivities to the fit's (intercept, slope), for the law of propagation.
+type CoefficientValues struct {
+	K, M   float64    // gain factor; offset in the response unit (SI)
+	DK, DM [2]float64 // ∂k and ∂m by (intercept, slope)
+}
+
+// Values returns the coefficients that bring a unit measured with no correction,
+// slope s and intercept c (response at zero stimulus), to the ideal gain G and
+// offset Y0: k = G/s and m = Y0 − k·c. With no gain coefficient k = 1 (m = Y0 − c);
+// with no offset coefficient m is still returned but not written. It is pure
+// arithmetic; a non-finite fit, or with a gain coefficient a zero or wrong-sign
+// slope, is an error.
+func (p CoefficientPlan) Values(s, c, G, Y0 float64) (CoefficientValues, error) {
+	if !finite(s) || !finite(c) {
+		return CoefficientValues{}, fmt.Errorf("fit is not finite (slope %g, intercept %g)", s, c)
+	}
+	if !p.Gain {
+		return CoefficientValues{K: 1, M: Y0 - c, DM: [2]float64{-1, 0}}, nil
+	}
+	if s == 0 || math.Signbit(s) != math.Signbit(G) {
+		return CoefficientValues{}, fmt.Errorf("measured gain %.6g has the wrong sign or is zero: the output does not follow the input", s)
+	}
+	k := G / s
+	return CoefficientValues{K: k, M: Y0 - k*c,
+		DK: [2]float64{0, -G / (s * s)},
+		DM: [2]float64{-k, G * c / (s * s)}}, nil
+}
+
+func (s *coefStep) Run(ctx context.Context, u *Unit) error {
+	fk, ok := u.Kept(s.Fit).(fitKept)
+	if !ok {
+		u.End(fmt.Sprintf("not measured: fit %q was not made", s.Fit))
+		return nil
+	}
+	seq := u.seq
+	_, hasGain := seq.Coefficient(AdjustGain)
+	_, hasOffset := seq.Coefficient(AdjustOffset)
+	plan := CoefficientPlan{Gain: hasGain, Offset: hasOffset}
+	vals, err := plan.Values(fk.a.sum.Slope, fk.a.sum.Intercept, seq.IdealGain, seq.IdealOffset)
+	if err != nil {
+		u.Fail("cannot compute coefficients: " + err.Error())
+		u.End("cannot compute coefficients: " + err.Error())
+		return nil
+	}
+	name := u.step.Name
+	writes := make([]CoefficientWrite, len(s.coefs))
+	fitU := make([]float64, len(s.coefs))
+	fitDOF := make([]float64, len(s.coefs))
+	var outside []string
+	for i, k := range s.coefs {
+		w := CoefficientWrite{Step: name, Name: k.Name, Channel: u.Channel(), Adjusts: k.Adjusts, Format: k.Format.String(), Unit: k.Unit}
+		grad := vals.DK
+		w.Ideal = vals.K
+		if k.Adjusts == AdjustOffset {
+			grad = [2]float64{vals.DM[0] / k.UnitSI, vals.DM[1] / k.UnitSI}
+			w.Ideal = vals.M / k.UnitSI
+		}
+		fitU[i], fitDOF[i] = fk.a.linear(grad)
+		w.IdealU = fitU[i]
+		text, stored, err := k.Format.Encode(w.Ideal)
+		if err != nil {
+			lo, hi := k.Format.Range()
+			unit := ""
+			if k.Unit != "" {
+				unit = " " + k.Unit
+			}
+			outside = append(outside, fmt.Sprintf("coefficient %s %s%s outside %s's range %s … %s%s", k.Name,
+				units.FormatSig(w.Ideal, 6), unit, k.FormatName, units.FormatSig(lo, 6), units.FormatSig(hi, 6), unit))
+			if r, ok := s.Results[k.Adjusts]; ok {
+				u.res.flagged(r, w.Ideal*k.UnitSI, "coefficient outside its format's range")
+			}
+		} else {
+			w.Text, w.Value, w.Resolution = text, stored, k.Format.Resolution(stored)
+		}
+		writes[i] = w
+	}
+	if len(outside) > 0 {
+		// Nothing is written: a unit whose correction does not fit its firmware's
+		// numbers is not half corrected.
+		u.Rec.Coefficients = append(u.Rec.Coefficients, writes...)
+		for _, r := range outside {
+			u.Fail(r)
+		}
+		u.End("not measured: coefficient outside its format's range")
+		return nil
+	}
+	for i, k := range s.coefs {
+		w := &writes[i]
+		if r, ok := s.Results[k.Adjusts]; ok {
+			// The written value's uncertainty: the fit's, propagated, and the
+			// rounding to the format, rectangular within half a resolution (JCGM 100
+			// §4.3.7, u = resolution/√12). The rounding stays in the corrected unit's
+			// output as part of its residual error, so it is counted here once.
+			std, dof := uncertainty.Combine([]uncertainty.Component{
+				{Name: "fit", U: fitU[i], DOF: fitDOF[i]}, // Type A and B together, as the fit evaluated them
+				uncertainty.Resolution("rounding", w.Resolution),
+			})
+			u.SetU(r, w.Value*k.UnitSI, u.Unc(std*k.UnitSI, dof))
+		}
+		switch {
+		case u.Live():
+			if err := coefWrite(ctx, u, k, w, false); err != nil {
+				u.Rec.Coefficients = append(u.Rec.Coefficients, writes[:i+1]...)
+				return err
+			}
+		case u.Replaying():
+			if st, ok := storedCoef(u.stored, name, k.Name, u.Channel()); ok {
+				w.fromStored(k, st)
+			}
+		}
+	}
+	u.Rec.Coefficients = append(u.Rec.Coefficients, writes...)
+	if !u.Predicting() {
+		if reasons := mismatches(writes); len(reasons) > 0 {
+			for _, r := range reasons {
+				u.Fail(r)
+			}
+			u.End("not measured: a coefficient did not read back as written")
+		}
+	}
+	return nil
+}
+
+// mismatches are the reasons the unit fails for the words of ws that were
+// written and did not read back.
+func mismatches(ws []CoefficientWrite) []string {
+	var out []string
+	for _, w := range ws {
+		if w.Written && !w.Match {
+			out = append(out, w.mismatch())
+		}
+	}
+	return out
+}
+
+// clearCoefficients writes every coefficient's no-correction value (gain 1,
+// offset 0) after reading what the unit held, for clear_trim: each is recorded
+// as a CoefficientWrite of the clear_trim step with Found set. A word that does not
+// read back fails the unit and ends the run, as in the coefficients step.
+func clearCoefficients(ctx context.Context, u *Unit) error {
+	var ws []CoefficientWrite
+	for _, k := range u.seq.Coefficients {
+		w := CoefficientWrite{Step: u.step.Name, Name: k.Name, Channel: u.Channel(), Adjusts: k.Adjusts, Format: k.Format.String(), Unit: k.Unit,
+			Ideal: k.NoCorrection()}
+		text, stored, err := k.Format.Encode(w.Ideal)
+		if err != nil { // a format that cannot hold 1 (Q1.n, a coarse int): refused at load, so a bug here
+			return fmt.Errorf("coefficient %s: no correction: %w", k.Name, err)
+		}
+		w.Text, w.Value, w.Resolution = text, stored, k.Format.Resolution(stored)
+		switch {
+		case u.Live():
+			err := coefWrite(ctx, u, k, &w, true)
+			ws = append(ws, w)
+			if err != nil {
+				u.Rec.Coefficients = append(u.Rec.Coefficients, ws...)
+				return err
+			}
+			continue
+		case u.Replaying():
+			if st, ok := storedCoef(u.stored, w.Step, k.Name, u.Channel()); ok {
+				w.fromStored(k, st)
+			}
+		}
+		ws = append(ws, w)
+	}
+	u.Rec.Coefficients = append(u.Rec.Coefficients, ws...)
+	if reasons := mismatches(ws); len(reasons) > 0 {
+		for _, r := range reasons {
+			u.Fail(r)
+		}
+		u.End("not measured: a coefficient did not read back as written")
+	}
+	return nil
+}
+
+// storeCoefficients marks, for a store step, the last word written to each
+// coefficient (on each channel) as committed to non-volatile memory.
+func storeCoefficients(rec *Record) {
+	last := map[string]int{}
+	for i, w := range rec.Coefficients {
+		if w.Written {
+			last[w.Channel+"\x00"+w.Name] = i
+		}
+	}
+	for _, i := range last {
+		rec.Coefficients[i].Stored = true
+	}
+}
+
+// coefDifferences lists where two records' coefficients disagree, for Differences.
+func coefDifferences(recorded, replayed []CoefficientWrite, add func(format string, args ...any)) {
+	if len(recorded) != len(replayed) {
+		add("coefficients: recorded %d writes, recomputed %d", len(recorded), len(replayed))
+	}
+	for i := range min(len(recorded), len(replayed)) {
+		a, b := recorded[i], replayed[i]
+		who := strings.TrimSpace(a.Name + " " + a.Channel)
+		switch {
+		case a.Text != b.Text:
+			add("coefficient %s (step %q): recorded %q, recomputed %q", who, a.Step, a.Text, b.Text)
+		case !same(a.Ideal, b.Ideal):
+			add("coefficient %s (step %q) ideal value: recorded %.9g, recomputed %.9g", who, a.Step, a.Ideal, b.Ideal)
+		case a.Match != b.Match:
+			add("coefficient %s (step %q) read-back match: recorded %v, recomputed %v", who, a.Step, a.Match, b.Match)
+		}
+	}
+}
