@@ -108,9 +108,15 @@ func (s *retrimStep) Check(c *Checker) {
 	dacOK := false
 	if s.DAC == "" {
 		c.Errorf("", "missing required key \"dac\" (the trim DAC to re-trim, one of dacs:)")
-	} else if ds := dacsOf(c, "dac", []string{s.DAC}); len(ds) == 1 {
-		s.dac, dacOK = ds[0], true
+	} else if d, ok := seq.DAC(s.DAC); ok {
+		s.dac, dacOK = d, true
 		c.Use(s.dac.Port, DUTPort)
+	} else {
+		var known []string
+		for _, d := range seq.DACs {
+			known = append(known, d.Name)
+		}
+		c.Errorf("dac", "no trim DAC called %q (dacs: declares %s)", s.DAC, strings.Join(known, ", "))
 	}
 	if dacOK {
 		if pivot, ok := s.earlierTrim(c); ok {
@@ -345,7 +351,7 @@ func (l *retrimLoop) best() retrimTry {
 // retrimPass is one measured pass: the recorded sweep and the error with its
 // standard uncertainty and degrees of freedom.
 type retrimPass struct {
-	sw        Sweep
+	sw          Sweep
 	err, u, dof float64
 }
 
