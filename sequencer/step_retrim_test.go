@@ -167,8 +167,18 @@ func replayed(t *testing.T, st *sequencer.Station, seq *sequencer.Sequence, rec 
 //	pass 1: code 1794, error 25.4 µV; nominal 12.2 µV/code: next 1794 − round(2.082) = 1792
 //	pass 2: code 1792, error −23.2 µV (read −23) + 24.4 = 1.4 µV ≤ 6.1 µV: within.
 //	        secant (1.4 − 25.4)/(1792 − 1794) = 12.0 µV/code, 0.98 × nominal: measured.
+//
+// A measure step at the same level after it reads the same readings: its error
+// and uncertainty are the re-trim's final error's.
 func TestRetrimConvergesOnUnevenDAC(t *testing.T) {
-	st, seq, e := retrimBench(t, retrimStep)
+	st, seq, e := retrimBench(t, retrimStep+`  - kind: measure
+    name: zero after retrim
+    level: 0 V
+    settle: 50 ms
+    readings: 4
+    results: {error: zero_error_after}
+
+`)
 	rec := e.Run(context.Background(), "BRX-00014")
 	if rec.Verdict != sequencer.Pass {
 		t.Fatalf("verdict %s, fault %q, reasons %q", rec.Verdict, rec.Fault, rec.Reasons)
@@ -196,6 +206,10 @@ func TestRetrimConvergesOnUnevenDAC(t *testing.T) {
 	if r := resultOf(t, rec, "offset_error_final"); !(r.Unc.Expanded > 0) || r.Stage != sequencer.Adjustment {
 		t.Errorf("final error: U = %g, stage %v; want U > 0 at adjustment", r.Unc.Expanded, r.Stage)
 	}
+	a, b := resultOf(t, rec, "offset_error_final"), resultOf(t, rec, "zero_error_after")
+	near(t, "measure's error", b.Value, a.Value, 1e-15)
+	near(t, "measure's u(error)", b.Unc.Std, a.Unc.Std, 1e-15)
+	near(t, "pass 2 u(error)", p2.ErrorU, a.Unc.Std, 1e-15)
 	// Every write went through the trim's path and was read back: the DAC holds
 	// the final code, and the record's trim says so (and that it was stored).
 	unevenState.Lock()
