@@ -144,6 +144,7 @@ func (s *retrimStep) Check(c *Checker) {
 			}
 		case "error":
 			d.Dim = units.Volt
+			d.Range = s.errorRange
 		case "passes":
 			d.Dim, d.Stage = units.Number, Adjustment
 			hi := float64(s.maxPasses)
@@ -155,6 +156,20 @@ func (s *retrimStep) Check(c *Checker) {
 		}
 		s.outs[what] = name
 	}
+}
+
+// errorRange is where the error can physically be, for lint: the readable
+// output less the mean ideal output at the levels.
+func (s *retrimStep) errorRange(seq *Sequence) (lo, hi float64, ok bool) {
+	if lo, hi, ok = outputSpan(seq); !ok || len(s.plan.List) == 0 {
+		return 0, 0, false
+	}
+	var y float64
+	for _, x := range s.plan.List {
+		y += seq.IdealGain*x + seq.IdealOffset
+	}
+	y /= float64(len(s.plan.List))
+	return lo - y, hi - y, true
 }
 
 // earlierTrim finds the earlier trim (or retrim) of the step's DAC: a re-trim

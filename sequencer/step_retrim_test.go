@@ -4,6 +4,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"math"
 	"net/url"
 	"strconv"
 	"strings"
@@ -401,5 +402,58 @@ func TestRetrimLoadErrors(t *testing.T) {
 			}
 			t.Errorf("%v\nwant at line %d col %d: …%s…", err, line, col, c.want)
 		})
+	}
+}
+
+// On the simulator's population with uneven DAC steps (dnl 0.5 LSB σ per bit),
+// every re-trim ends within its bound or leaves the best code it tried, the DAC
+// holds the code the last pass names, and each record replays unchanged.
+func TestRetrimOnSimulatedPopulation(t *testing.T) {
+	st, err := sequencer.ParseStation("brx200-station.yaml", []byte(demoFile(t, "brx200-station.yaml")))
+	if err != nil {
+		t.Fatal(err)
+	}
+	for role, in := range st.Instruments {
+		in.Settings = map[string]string{}
+		if role == "dut" {
+			in.Settings = map[string]string{"dnl": "0.5", "defect": "none"}
+		}
+		st.Instruments[role] = in
+	}
+	seq, err := sequencer.ParseSequence("brx200-sequence.yaml", []byte(retrimText(t, retrimStep, storeAnchor)), demoReader(t, nil))
+	if err != nil {
+		t.Fatal(err)
+	}
+	e := openEngine(t, st, seq)
+	lsb := 12.2e-6
+	for i := range 12 {
+		rec := e.Run(context.Background(), fmt.Sprintf("BRX-%05d", 100+i))
+		if rec.Verdict == sequencer.Fault || len(rec.Retrims) == 0 {
+			t.Fatalf("%s: verdict %s, fault %q, %d passes", rec.Serial, rec.Verdict, rec.Fault, len(rec.Retrims))
+		}
+		last := rec.Retrims[len(rec.Retrims)-1]
+		best := rec.Retrims[0]
+		for _, p := range rec.Retrims {
+			if math.Abs(p.Error) < math.Abs(best.Error) {
+				best = p
+			}
+		}
+		switch {
+		case last.Within && (math.Abs(last.Error) > 0.5*lsb || last.Next != last.Code):
+			t.Errorf("%s: last pass %+v within but not left there or not within 0.5 LSB", rec.Serial, last)
+		case !last.Within && last.Next != best.Code:
+			t.Errorf("%s: bound not met, left %d, best tried %d", rec.Serial, last.Next, best.Code)
+		}
+		if code := resultOf(t, rec, "offset_code_final").Value; int(code) != last.Next {
+			t.Errorf("%s: final code %g, last pass leaves %d", rec.Serial, code, last.Next)
+		}
+		var codes []int
+		for _, p := range rec.Retrims {
+			codes = append(codes, p.Code)
+		}
+		t.Logf("%s: codes %v, left %d with %.3g V (within %v)", rec.Serial, codes, last.Next, best.Error, last.Within)
+		if d := replayed(t, st, seq, rec); len(d) > 0 {
+			t.Errorf("%s: replay differs: %s", rec.Serial, strings.Join(d, "; "))
+		}
 	}
 }
