@@ -427,17 +427,16 @@ func (s *retrimStep) Run(ctx context.Context, u *Unit) error {
 		last = loop.add(code, m.err)
 		rp := RetrimPass{Step: name, DAC: d.Name, Channel: u.Channel(), Pass: pass, Code: code, Error: m.err, ErrorU: m.u,
 			Sensitivity: last.sens, Measured: last.measured, Within: last.within, Next: last.next}
+		u.Rec.Retrims = append(u.Rec.Retrims, rp)
 		if last.within || last.stuck || pass == s.maxPasses {
-			u.Rec.Retrims = append(u.Rec.Retrims, rp)
 			break
 		}
-		u.Rec.Retrims = append(u.Rec.Retrims, rp)
 		if err := s.write(ctx, u, last.next); err != nil {
 			return err
 		}
 		wrote, code = true, last.next
 	}
-	pass = min(pass, s.maxPasses) // the passes measured
+	// pass is now the number of passes measured.
 
 	final := retrimTry{code: code, err: measured[code].err}
 	if !last.within { // the passes ran out, or no untried code was left: the best code tried
@@ -449,7 +448,8 @@ func (s *retrimStep) Run(ctx context.Context, u *Unit) error {
 		}
 		u.Rec.Retrims[len(u.Rec.Retrims)-1].Next = final.code
 		if _, judged := s.outs["error"]; !judged {
-			u.Fail(fmt.Sprintf("re-trim of %s: best error %s after %d passes, bound %s", d.Name, fmtV(final.err), pass, fmtV(s.bound)))
+			u.Fail(fmt.Sprintf("re-trim of %s: best error %s after %d %s, bound %s", d.Name, fmtV(final.err), pass,
+				map[bool]string{true: "pass", false: "passes"}[pass == 1], fmtV(s.bound)))
 		}
 	}
 	if wrote {

@@ -457,3 +457,22 @@ func TestRetrimOnSimulatedPopulation(t *testing.T) {
 		}
 	}
 }
+
+// With a bound of 30 µV the open-loop code's 25.4 µV is within it: one pass, no
+// write, the trim's code stands.
+func TestRetrimWithinAtOnce(t *testing.T) {
+	_, _, e := retrimBench(t, strings.Replace(retrimStep, "within: 0.5 LSB", "within: 30 uV", 1))
+	rec := e.Run(context.Background(), "BRX-00014")
+	if rec.Verdict != sequencer.Pass || len(rec.Retrims) != 1 {
+		t.Fatalf("verdict %s, reasons %q, passes %+v", rec.Verdict, rec.Reasons, rec.Retrims)
+	}
+	if p := rec.Retrims[0]; p.Code != 1794 || p.Next != 1794 || !p.Within || p.Measured {
+		t.Errorf("pass %+v, want 1794 within, left there, nominal", p)
+	}
+	unevenState.Lock()
+	writes := fmt.Sprint(unevenState.writes)
+	unevenState.Unlock()
+	if writes != "[2048 1794]" {
+		t.Errorf("offset writes %s, want the clear and the trim's only", writes)
+	}
+}
