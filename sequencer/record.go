@@ -370,5 +370,8 @@ type RetrimPass struct {
 	Sensitivity float64 `json:"sensitivity"`
 	Measured    bool    `json:"measured"`
 	Within      bool    `json:"within"` // |Error| was within the step's bound
-	Next        int     `json:"next"`   // code written for the next pass (= Code on the last)
+	// Next is the code written for the next pass; on the last pass, the code the
+	// re-trim leaves in the DAC: Code, or the best code tried when the bound was
+	// not met and it was written back.
+	Next int `json:"next"`
 }

@@ -43,7 +43,7 @@ func Replay(cfg Config, stored *Record) (*Record, error) {
 }
 
 // Differences lists, in words, every computed quantity where two records of the
-// same run disagree: verdict, trim codes, results (value, validity, expanded
+// same run disagree: verdict, trim codes, re-trim passes, results (value, validity, expanded
 // uncertainty) and limit outcomes. Numbers agree when they match to 1e-9 relative
 // (or 1e-15 absolute); anything else is reported.
 func Differences(recorded, replayed *Record) []string {
@@ -65,6 +65,23 @@ func Differences(recorded, replayed *Record) []string {
 		}
 	}
 	coefDifferences(recorded.Coefficients, replayed.Coefficients, add)
+	if len(recorded.Retrims) != len(replayed.Retrims) {
+		add("re-trim passes: recorded %d, recomputed %d", len(recorded.Retrims), len(replayed.Retrims))
+	}
+	for i := range min(len(recorded.Retrims), len(replayed.Retrims)) {
+		a, b := recorded.Retrims[i], replayed.Retrims[i]
+		what := fmt.Sprintf("%s pass %d (%s)", a.Step, a.Pass, a.DAC)
+		switch {
+		case a.Step != b.Step || a.DAC != b.DAC || a.Channel != b.Channel || a.Pass != b.Pass || a.Code != b.Code:
+			add("%s: recorded code %d, recomputed %s pass %d (%s) code %d", what, a.Code, b.Step, b.Pass, b.DAC, b.Code)
+		case !same(a.Error, b.Error) || !same(a.ErrorU, b.ErrorU):
+			add("%s error: recorded %.9g (u %.6g), recomputed %.9g (u %.6g)", what, a.Error, a.ErrorU, b.Error, b.ErrorU)
+		case !same(a.Sensitivity, b.Sensitivity) || a.Measured != b.Measured:
+			add("%s sensitivity: recorded %.9g (measured %v), recomputed %.9g (measured %v)", what, a.Sensitivity, a.Measured, b.Sensitivity, b.Measured)
+		case a.Within != b.Within || a.Next != b.Next:
+			add("%s: recorded within=%v next code %d, recomputed within=%v next code %d", what, a.Within, a.Next, b.Within, b.Next)
+		}
+	}
 	got := map[string]Result{}
 	for _, r := range replayed.Results {
 		got[r.Name] = r
