@@ -147,7 +147,7 @@ func Open(ctx context.Context, cfg Config) (*Engine, error) {
 	now := e.clock.Now()
 	for _, r := range seq.Requires {
 		si := st.Instruments[r]
-		ref := InstrumentRef{Role: r, Kind: si.Kind, Address: si.Address, Asset: si.Asset, Accuracy: si.Accuracy.String(),
+		ref := InstrumentRef{Role: r, Kind: si.Kind, Address: si.Address, Asset: si.Asset, Accuracy: si.AccuracyText(),
 			Identity: instruments.Identity{Maker: "0", Model: "0", Serial: "0", Firmware: "0"}}
 		if !si.CalDue.IsZero() {
 			ref.CalDue = si.CalDue.Format("2006-01-02")
@@ -253,7 +253,7 @@ func (e *Engine) Run(ctx context.Context, serial string) (rec *Record) {
 		Station: st.ID, Operator: e.cfg.Operator, Software: e.cfg.Software, Started: now,
 		Files:       []FileRef{st.File, seq.File, seq.LimitsFile},
 		Instruments: append([]InstrumentRef(nil), e.refs...),
-		IdealGain:   seq.IdealGain, IdealOffset: seq.IdealOffset, FullScale: seq.FullScale,
+		IdealGain:   seq.IdealGain, IdealOffset: seq.IdealOffset, FullScale: seq.FullScale, ResponseUnit: seq.recordResponseUnit(),
 		Conditions: e.cfg.Conditions, Coverage: coverage(seq), Engineering: e.cfg.Engineering,
 	}
 	if e.cfg.NewID != nil {
