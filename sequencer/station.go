@@ -139,11 +139,11 @@ type Interlock struct {
 
 // StationInstrument is one role's binding on the station.
 type StationInstrument struct {
-	Role      string
-	Kind      RoleKind
-	Address   string
-	Asset     string
-	CalDue    time.Time // the last day the calibration is valid, UTC midnight
+	Role    string
+	Kind    RoleKind
+	Address string
+	Asset   string
+	CalDue  time.Time // the last day the calibration is valid, UTC midnight
 	// Accuracy is the instrument's one spec, or the first of its list.
 	Accuracy Accuracy
 	// Specs are every spec the file gives, one per dimension of range (a
@@ -296,12 +296,12 @@ type stationFile struct {
 		CertificatePrefix string `yaml:"certificate_prefix"`
 	} `yaml:"station"`
 	Instruments map[string]struct {
-		Kind     string `yaml:"kind"`
-		Address  string `yaml:"address"`
-		Asset    string `yaml:"asset"`
-		CalDue   string `yaml:"cal_due"`
-		Model    string `yaml:"model"`
-		Serial   string `yaml:"serial"`
+		Kind      string            `yaml:"kind"`
+		Address   string            `yaml:"address"`
+		Asset     string            `yaml:"asset"`
+		CalDue    string            `yaml:"cal_due"`
+		Model     string            `yaml:"model"`
+		Serial    string            `yaml:"serial"`
 		Accuracy  *anyNode          `yaml:"accuracy"`
 		Settings  map[string]string `yaml:"settings"`
 		Templates map[string]string `yaml:"templates"`
