@@ -378,7 +378,7 @@ func parseSequence(name string, data []byte, read func(path string) ([]byte, err
 		s.FirstLayout = true
 		paths = firstLayout(doc, s, &f, &errs)
 	default:
-		s.DACs = dacList(doc, f.DACs, &errs)
+		s.DACs = dacList(doc, f.DACs, s.ResponseDim, &errs)
 		paths = stepList(doc, s, &errs, &decodeErrs)
 	}
 	checkSteps(doc, s, paths, &errs)
