@@ -582,3 +582,45 @@ func TestQuantityLoadErrorsArePositioned(t *testing.T) {
 		}
 	}
 }
+
+// A measure reads another quantity than the response through a second meter
+// role, which the engine sets to each step's function in turn.
+func TestMeasureAnotherQuantity(t *testing.T) {
+	steps := countSequence + `  - kind: measure
+    name: supply current
+    meter: supply
+    quantity: current
+    meter_range: 100 mA
+    settle: 1 ms
+    readings: 2
+    results: {mean: supply_current}
+  - kind: measure
+    name: supply voltage
+    meter: supply
+    quantity: voltage
+    settle: 1 ms
+    readings: 2
+    results: {mean: supply_volts}
+`
+	st, seq := qFiles(t, qStation(`{gain: "3200", offset: "103", supply: "0.0125"}`, `{}`, twoSpecs), steps, countLimits)
+	e := openEngine(t, st, seq)
+	rec := e.Run(context.Background(), "RD-0003")
+	if rec.Verdict != sequencer.Pass {
+		t.Fatalf("verdict %s, fault %q, reasons %q", rec.Verdict, rec.Fault, rec.Reasons)
+	}
+	lastQBench.Lock()
+	b := lastQBench.b
+	lastQBench.Unlock()
+	// The supply meter is the only meter the run opens.
+	if len(b.functions) != 1 || strings.Join(b.functions[0], ",") != "current,voltage" {
+		t.Errorf("the supply meter was set to %v, want current then voltage", b.functions)
+	}
+	// The fake meter reads 12.5 mA ± 1 µA in its current function, ±1 µV about
+	// 0 in its voltage function: the means of two readings are exact.
+	cur, volts := resultOf(t, rec, "supply_current"), resultOf(t, rec, "supply_volts")
+	near(t, "supply current", cur.Value, 12.5e-3, 1e-12)
+	near(t, "supply volts", volts.Value, 0, 1e-12)
+	if cur.Unit != "A" || volts.Unit != "V" {
+		t.Errorf("units %q and %q, want A and V", cur.Unit, volts.Unit)
+	}
+}
