@@ -224,3 +224,23 @@ func TestCountUnit(t *testing.T) {
 		t.Errorf("Format(12, count) = %q", got)
 	}
 }
+
+// ParseRatioUnit never panics, and what it accepts is a finite value whose
+// dimensions are both plain ratios only for a bare number.
+func FuzzParseRatioUnit(f *testing.F) {
+	for _, s := range []string{"200", "200 V/V", "800 mA/V", "0.8 mA/mV", "3200 count/V", "1e308 GV/pV", "/", "1 /", "1 V/"} {
+		f.Add(s)
+	}
+	f.Fuzz(func(t *testing.T, s string) {
+		p, err := units.ParseRatioUnit(s)
+		if err != nil {
+			return
+		}
+		if math.IsNaN(p.Value) || math.IsInf(p.Value, 0) {
+			t.Errorf("%q = %v: not finite", s, p.Value)
+		}
+		if (p.Num == units.Ratio) != (p.Den == units.Ratio) && !strings.Contains(s, "/") {
+			t.Errorf("%q = %+v: one side bare without a ratio unit", s, p)
+		}
+	})
+}
