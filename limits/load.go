@@ -604,7 +604,7 @@ func (l *loader) unit(path, u string) (scale float64, dim units.Dim, bare, ok bo
 	// in the unit ("0mV", "e3V") as part of the number.
 	q, err := units.Parse("1 " + u)
 	if err != nil || u != strings.TrimSpace(u) || !(q.Value > 0) || math.IsInf(q.Value, 0) {
-		l.errs = append(l.errs, l.doc.Errorf(path, "unknown unit %q: expected a unit such as uV, mV, V, ppm, %%, code or LSB, with no number", u))
+		l.errs = append(l.errs, l.doc.Errorf(path, "unknown unit %q: expected a unit such as uV, mV, V, uA, mA, ppm, %%, code, LSB or count, with no number", u))
 		return 0, 0, false, false
 	}
 	return q.Value, q.Dim, false, true

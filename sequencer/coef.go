@@ -63,7 +63,7 @@ func (s *Sequence) Coefficient(what string) (Coefficient, bool) {
 // coefficient corrects and its results are in. Every product's response is a
 // voltage for now; when a sequence may declare a response in amperes or counts,
 // this is the one place that follows it.
-func responseDim(*Sequence) units.Dim { return units.Volt }
+func responseDim(seq *Sequence) units.Dim { return seq.ResponseDim }
 
 // responseUnitName is the SI unit of dim as a coefficient's default unit.
 func responseUnitName(dim units.Dim) string {

@@ -21,8 +21,8 @@ const (
 // DAC is one trim DAC of the unit. Its code runs MinCode..MaxCode: 0..2^Bits−1
 // for binary-offset coding, −2^(Bits−1)..2^(Bits−1)−1 for two's complement; each
 // code away from NoCorrection moves the transfer by LSB (a fraction of the gain
-// for a gain DAC, volts for an offset DAC: at the output, or input-referred when
-// BeforeGain).
+// for a gain DAC; for an offset DAC, in the response's unit (V, A or count) at the
+// output, or input-referred volts when BeforeGain).
 type DAC struct {
 	Name           string
 	Adjusts        string // AdjustGain or AdjustOffset
@@ -108,8 +108,9 @@ type dacDecl struct {
 	Read         string `yaml:"read"`
 }
 
-// dacList checks the dacs: section.
-func dacList(doc *files.Doc, ds []*dacDecl, errs *files.List) []DAC {
+// dacList checks the dacs: section; response is the dimension of the unit's
+// response, in which an offset DAC after the gain writes its LSB.
+func dacList(doc *files.Doc, ds []*dacDecl, response units.Dim, errs *files.List) []DAC {
 	var out []DAC
 	seen := map[string]int{}
 	for i, d := range ds {
@@ -126,14 +127,15 @@ func dacList(doc *files.Doc, ds []*dacDecl, errs *files.List) []DAC {
 			*errs = append(*errs, doc.Errorf(path+".name", "DAC name %q is already used by dacs[%d]", d.Name, j))
 		}
 		seen[d.Name] = i
-		out = append(out, dacFrom(doc, path, d, d.Adjusts, errs))
+		out = append(out, dacFrom(doc, path, d, d.Adjusts, response, errs))
 	}
 	return out
 }
 
 // dacFrom checks one DAC declared at path; adjusts is what it trims (the first
-// layout knows it from the key, gain: or offset:).
-func dacFrom(doc *files.Doc, path string, d *dacDecl, adjusts string, errs *files.List) DAC {
+// layout knows it from the key, gain: or offset:). An offset DAC's LSB is in the
+// response's dimension after the gain, in volts of input before it.
+func dacFrom(doc *files.Doc, path string, d *dacDecl, adjusts string, response units.Dim, errs *files.List) DAC {
 	bad := func(p, format string, args ...any) { *errs = append(*errs, doc.Errorf(p, format, args...)) }
 	line, col := doc.Pos(path)
 	out := DAC{Name: d.Name, Adjusts: adjusts, Bits: d.Bits, Write: d.Write, Read: d.Read, Port: d.Port,
@@ -163,9 +165,12 @@ func dacFrom(doc *files.Doc, path string, d *dacDecl, adjusts string, errs *file
 	out.TwosComplement = either("coding", d.Coding, "binary_offset", "twos_complement")
 	out.Hex = either("format", d.Format, "decimal", "hex")
 	out.BeforeGain = either("placement", d.Placement, "after_gain", "before_gain")
-	dim := units.Volt
-	if adjusts == AdjustGain {
+	dim := response
+	switch {
+	case adjusts == AdjustGain:
 		dim = units.Ratio
+	case out.BeforeGain:
+		dim = units.Volt
 	}
 	if d.LSB == "" {
 		bad(path, "missing required key \"lsb\"")

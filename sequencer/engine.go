@@ -147,7 +147,7 @@ func Open(ctx context.Context, cfg Config) (*Engine, error) {
 	now := e.clock.Now()
 	for _, r := range seq.Requires {
 		si := st.Instruments[r]
-		ref := InstrumentRef{Role: r, Kind: si.Kind, Address: si.Address, Asset: si.Asset, Accuracy: si.Accuracy.String(),
+		ref := InstrumentRef{Role: r, Kind: si.Kind, Address: si.Address, Asset: si.Asset, Accuracy: si.AccuracyText(),
 			Identity: instruments.Identity{Maker: "0", Model: "0", Serial: "0", Firmware: "0"}}
 		if !si.CalDue.IsZero() {
 			ref.CalDue = si.CalDue.Format("2006-01-02")
@@ -186,21 +186,76 @@ func Open(ctx context.Context, cfg Config) (*Engine, error) {
 			return fail(fmt.Errorf("%s: set compliance: %w", r, err))
 		}
 	}
+	// A meter asked to read a current must be able to: refused here, before any
+	// output is switched on. Each meter starts as its first step reads.
+	uses := meterUses(seq)
 	for _, r := range e.roles {
-		if _, ok := e.meters[r]; ok {
-			if err := e.configureMeter(ctx, r, seq.Meter); err != nil {
-				return fail(err)
+		m, ok := e.meters[r]
+		if !ok {
+			continue
+		}
+		first := seq.Meter
+		for _, u := range uses {
+			if u.role != r {
+				continue
 			}
+			if _, ok := m.(instruments.FunctionSetter); !ok && u.plan.Function == instruments.FuncCurrent {
+				return fail(fmt.Errorf("step %q (%s) reads a current through the %s at %s, which measures DC voltage only (it cannot be set to a current function)",
+					u.step, u.where, r, st.Instruments[r].Address))
+			}
+		}
+		for _, u := range uses {
+			if u.role == r {
+				first = u.plan
+				break
+			}
+		}
+		if err := e.configureMeter(ctx, r, first); err != nil {
+			return fail(err)
 		}
 	}
 	return e, nil
 }
 
-// configureMeter sets the meter's range and integration time unless it is so
-// set already.
+// meterUse is one step's reading through a meter role.
+type meterUse struct {
+	role, step, where string
+	plan              MeterPlan
+}
+
+// meterUses lists the steps' readings through meters, in step order.
+func meterUses(seq *Sequence) []meterUse {
+	var out []meterUse
+	for _, d := range seq.Steps {
+		var p SweepPlan
+		switch s := d.Step.(type) {
+		case *sweepStep:
+			p = s.Plan
+		case *measureStep:
+			p = s.plan
+		default:
+			continue
+		}
+		if p.Response == nil && p.Meter != "" {
+			out = append(out, meterUse{role: p.Meter, step: d.Name, where: d.Where, plan: p.MeterSet})
+		}
+	}
+	return out
+}
+
+// configureMeter sets the meter's function, range and integration time unless
+// it is so set already. A meter without instruments.FunctionSetter measures DC
+// voltage only: asked for a current it is a station fault.
 func (e *Engine) configureMeter(ctx context.Context, role string, p MeterPlan) error {
 	if at, ok := e.meterAt[role]; ok && at == p {
 		return nil
+	}
+	if fs, ok := e.meters[role].(instruments.FunctionSetter); ok && p.Function != "" {
+		if err := fs.SetFunction(ctx, p.Function); err != nil {
+			return fmt.Errorf("%s: set function %s: %w", role, p.Function, err)
+		}
+	} else if p.Function == instruments.FuncCurrent {
+		return &stop{verdict: Fault, msg: fmt.Sprintf("%s: asked to read a current, but it measures DC voltage only (no function setting)", role)}
 	}
 	if mc, ok := e.meters[role].(instruments.MeterConfigurer); ok {
 		if err := mc.Configure(ctx, p.Range, p.NPLC); err != nil {
@@ -253,7 +308,7 @@ func (e *Engine) Run(ctx context.Context, serial string) (rec *Record) {
 		Station: st.ID, Operator: e.cfg.Operator, Software: e.cfg.Software, Started: now,
 		Files:       []FileRef{st.File, seq.File, seq.LimitsFile},
 		Instruments: append([]InstrumentRef(nil), e.refs...),
-		IdealGain:   seq.IdealGain, IdealOffset: seq.IdealOffset, FullScale: seq.FullScale,
+		IdealGain:   seq.IdealGain, IdealOffset: seq.IdealOffset, FullScale: seq.FullScale, ResponseUnit: seq.recordResponseUnit(),
 		Conditions: e.cfg.Conditions, Coverage: coverage(seq), Engineering: e.cfg.Engineering,
 	}
 	if e.cfg.NewID != nil {
@@ -430,3 +485,15 @@ func orZero(s string) string {
 }
 
 func fmtV(v float64) string { return units.Format(v, "V", 4) }
+
+// fmtResponse formats v, a value of the sequence's response (V, A or a count the
+// unit reports), for messages.
+func fmtResponse(seq *Sequence, v float64) string {
+	switch seq.ResponseDim {
+	case units.Ampere:
+		return units.Format(v, "A", 4)
+	case units.Count:
+		return units.FormatNumber(v, 6) + " count"
+	}
+	return fmtV(v)
+}

@@ -48,7 +48,7 @@ func firstLayout(doc *files.Doc, s *Sequence, f *sequenceFile, errs *files.List)
 			continue
 		}
 		d.decl.Name = d.key
-		s.DACs = append(s.DACs, dacFrom(doc, path, d.decl, d.adjusts, errs))
+		s.DACs = append(s.DACs, dacFrom(doc, path, d.decl, d.adjusts, units.Volt, errs))
 	}
 	if dut := f.DUT; dut != nil && (dut.SerialQuery != "" || dut.FirmwareQuery != "") {
 		add("$.dut", firstIdentify, "identify", &identifyStep{SerialQuery: dut.SerialQuery, FirmwareQuery: dut.FirmwareQuery})
@@ -68,9 +68,9 @@ func firstLayout(doc *files.Doc, s *Sequence, f *sequenceFile, errs *files.List)
 			add("$.pre_trim", firstPreFit, "fit", &fitStep{Sweep: SweepPreTrim, Order: 1,
 				Results: map[string]string{"offset": ResPreOffset, "gain_error": ResPreGainError, "nonlinearity": ResPreNonlinearity},
 				order:   []string{"offset", "gain_error", "nonlinearity"}})
-			var pivot *units.Voltage
+			var pivot *units.Quantity
 			if trim.GainPivot != nil {
-				pivot = trim.GainPivot
+				pivot = &units.Quantity{Value: float64(*trim.GainPivot), Dim: units.Volt}
 			}
 			add("$.trim", firstTrim, "trim", &trimStep{Fit: firstPreFit, Pivot: pivot,
 				Results: map[string]string{"offset": ResOffsetCode, "gain": ResGainCode}, order: []string{"offset", "gain"}})

@@ -6,6 +6,7 @@ import (
 	"math"
 
 	"trimline/instruments"
+	"trimline/instruments/units"
 	"trimline/sequencer/uncertainty"
 )
 
@@ -18,12 +19,22 @@ type analysis struct {
 	poolDOF float64 // degrees of freedom of the pooled standard deviation, Σ(n_i − 1)
 }
 
-// specs are the accuracy specifications of the sweep's meter and source.
+// specs are the accuracy specifications of the sweep's meter (its spec for the
+// quantity read) and source, and the resolution of the readings. A unit that
+// reports its own response has no meter spec: the resolution is the one its
+// response: declares.
 func specs(st *Station, p SweepPlan) (meter, source uncertainty.Spec, resolution float64) {
-	m := st.Instruments[p.Meter].Accuracy
-	s := st.Instruments[p.Source].Accuracy
-	return uncertainty.Spec{OfReading: m.OfReading, OfRange: m.OfRange, Range: m.Range},
-		uncertainty.Spec{OfReading: s.OfReading, OfRange: s.OfRange, Range: s.Range}, m.Resolution
+	s := st.Instruments[p.Source].SpecFor(units.Volt)
+	source = uncertainty.Spec{OfReading: s.OfReading, OfRange: s.OfRange, Range: s.Range}
+	if p.Response != nil {
+		return uncertainty.Spec{}, source, p.Response.Resolution
+	}
+	q := p.Quantity
+	if q == units.Ratio { // a plan made before plans said their quantity
+		q = units.Volt
+	}
+	m := st.Instruments[p.Meter].SpecFor(q)
+	return uncertainty.Spec{OfReading: m.OfReading, OfRange: m.OfRange, Range: m.Range}, source, m.Resolution
 }
 
 // annotate fills each point's Type A and Type B standard uncertainties. The Type A
@@ -45,11 +56,15 @@ func annotate(cfg Config, plan SweepPlan, sw *Sweep) {
 			// Meter spec at the reading, half a count of resolution, and the
 			// source spec at the stimulus seen through the ideal gain; each
 			// rectangular (JCGM 100 §4.3.7).
-			p.USys, _ = uncertainty.Combine([]uncertainty.Component{
-				uncertainty.Rectangular("meter", meter.HalfWidth(p.Mean)),
+			// A unit that reports its own response has no meter spec.
+			var cs []uncertainty.Component
+			if plan.Response == nil {
+				cs = append(cs, uncertainty.Rectangular("meter", meter.HalfWidth(p.Mean)))
+			}
+			p.USys, _ = uncertainty.Combine(append(cs,
 				uncertainty.Resolution("resolution", res),
 				uncertainty.Rectangular("source", math.Abs(g)*source.HalfWidth(p.Stimulus)),
-			})
+			))
 		}
 	}
 }

@@ -298,11 +298,11 @@ func FaultRecord(cfg Config, serial string, now time.Time, err error) *Record {
 	rec := &Record{Schema: RecordSchema, Serial: serial, Product: seq.Product, Revision: seq.Revision,
 		Station: st.ID, Operator: cfg.Operator, Software: cfg.Software, Started: now.UTC(), Finished: now.UTC(),
 		Files:     []FileRef{st.File, seq.File, seq.LimitsFile},
-		IdealGain: seq.IdealGain, IdealOffset: seq.IdealOffset, FullScale: seq.FullScale,
+		IdealGain: seq.IdealGain, IdealOffset: seq.IdealOffset, FullScale: seq.FullScale, ResponseUnit: seq.recordResponseUnit(),
 		Conditions: cfg.Conditions, Engineering: cfg.Engineering, Verdict: Fault, Fault: "station could not start the unit: " + err.Error()}
 	for _, r := range seq.Requires {
 		si := st.Instruments[r]
-		ref := InstrumentRef{Role: r, Kind: si.Kind, Address: si.Address, Asset: si.Asset, Accuracy: si.Accuracy.String(),
+		ref := InstrumentRef{Role: r, Kind: si.Kind, Address: si.Address, Asset: si.Asset, Accuracy: si.AccuracyText(),
 			Identity: instruments.Identity{Maker: "0", Model: "0", Serial: "0", Firmware: "0"}}
 		if !si.CalDue.IsZero() {
 			ref.CalDue = si.CalDue.Format("2006-01-02")

@@ -28,7 +28,7 @@ func Replay(cfg Config, stored *Record) (*Record, error) {
 		Schema: stored.Schema, RunID: stored.RunID, Serial: stored.Serial, Product: stored.Product, Revision: stored.Revision,
 		Station: stored.Station, Operator: stored.Operator, Software: stored.Software,
 		Started: stored.Started, Finished: stored.Finished, Files: stored.Files, Instruments: stored.Instruments,
-		IdealGain: seq.IdealGain, IdealOffset: seq.IdealOffset, FullScale: seq.FullScale,
+		IdealGain: seq.IdealGain, IdealOffset: seq.IdealOffset, FullScale: seq.FullScale, ResponseUnit: seq.recordResponseUnit(),
 		Conditions: stored.Conditions, Coverage: coverage(seq), Engineering: stored.Engineering, RetestOf: stored.RetestOf,
 	}
 	u := newUnit(cfg, rec, replaying)

@@ -139,18 +139,30 @@ type ResultDef struct {
 }
 
 // Unit is the name of the result's dimension as the record writes it: "V",
-// "ratio", "code" or "number" (a plain statistic, shown unscaled).
+// "A", "ratio", "code" (a trim code, or any other count a kind declares),
+// "count" (a number the unit reports about itself: a measured quantity such as
+// an offset of a unit whose response is in counts) or "number" (a plain
+// statistic, shown unscaled).
 func (d ResultDef) Unit() string {
 	switch d.Dim {
 	case units.Volt:
 		return "V"
+	case units.Ampere:
+		return "A"
 	case units.Count:
+		if measuredQuantities[d.Quantity] {
+			return "count"
+		}
 		return "code"
 	case units.Number:
 		return "number"
 	}
 	return "ratio"
 }
+
+// measuredQuantities are the quantities that are in the response's dimension:
+// a Count result of one of them is a count the unit reported, not a trim code.
+var measuredQuantities = map[string]bool{"offset": true, "max_error": true, "noise": true, "error": true, "mean": true}
 
 // PhysicalRanges returns the physical range of every result whose range is known,
 // for limits.LintOptions. seq supplies the product's facts (trim DAC sizes, the
@@ -185,7 +197,7 @@ func codeRange(d DAC) func(*Sequence) (float64, float64, bool) {
 // the sequence sets (beyond it the meter overloads and the run is a fault, with no
 // results). Unknown with no sequence or an auto-ranging meter.
 func outputSpan(seq *Sequence) (lo, hi float64, ok bool) {
-	if seq == nil || !(seq.Meter.Range > 0) {
+	if seq == nil || !(seq.Meter.Range > 0) || seq.ResponseDim != seq.Meter.dim() {
 		return 0, 0, false
 	}
 	return -seq.Meter.Range, seq.Meter.Range, true

@@ -28,7 +28,9 @@ var ErrUnboundRole = errors.New("unbound role")
 
 // CheckCaps reports whether the sequence stays inside the station's safety caps
 // (an error wrapping ErrSafety) and whether the station binds every role the
-// sequence requires (an error wrapping ErrUnboundRole); both when both fail. It
+// sequence requires, as the kind the steps use it as, each meter with a spec for
+// the quantity (voltage or current) its steps read (an error wrapping
+// ErrUnboundRole); both when both fail. It
 // is run at load (trimline check) and again when an Engine opens.
 func CheckCaps(st *Station, seq *Sequence) error {
 	var errs, unbound []string
@@ -68,6 +70,18 @@ func CheckCaps(st *Station, seq *Sequence) error {
 			if si, ok := st.Instruments[ru.Role]; ok && si.Kind != ru.Kind {
 				unbound = append(unbound, fmt.Sprintf("%s: step %q uses the %q role as a %s, but station %s binds it as a %s", d.Where, d.Name, ru.Role, ru.Kind, st.ID, si.Kind))
 			}
+		}
+	}
+	// A meter that reads a quantity must have a spec for it, or the budget would
+	// leave its error out.
+	for _, u := range meterUses(seq) {
+		si, ok := st.Instruments[u.role]
+		if !ok || si.Kind != VoltMeter || len(si.Specs) == 0 {
+			continue
+		}
+		if d := u.plan.dim(); si.SpecFor(d) == (Accuracy{}) {
+			unbound = append(unbound, fmt.Sprintf("%s: step %q reads a %s through the %q role, but station %s gives it no accuracy spec with a range in %s: add one to its accuracy: list",
+				u.where, u.step, d, u.role, st.ID, unitOf(d)))
 		}
 	}
 	switch {

@@ -11,6 +11,7 @@ import (
 	"strings"
 	"time"
 
+	"trimline/instruments"
 	"trimline/instruments/files"
 	"trimline/instruments/units"
 	"trimline/limits"
@@ -27,9 +28,16 @@ type Sequence struct {
 	// names under requires:), sources first, then meters, then DUT ports.
 	Requires []string
 
-	IdealGain   float64 // V/V
-	IdealOffset float64 // output at zero input, V
-	FullScale   float64 // output span for "% of full scale", V
+	IdealGain   float64 // response per stimulus: V/V, A/V or count/V (ResponseDim per volt)
+	IdealOffset float64 // response at zero input, in the response's SI unit
+	FullScale   float64 // response span for "% of full scale", in the response's SI unit
+	// ResponseDim is what the unit's response is, as the ideal gain's unit pair
+	// says: units.Volt (the default, and a bare gain), units.Ampere (a current
+	// output a meter reads in FuncCurrent) or units.Count (a number the unit
+	// reports about itself). ResponseUnit is its unit as the record writes it:
+	// "V", "A" or "count". The stimulus is always a voltage for now.
+	ResponseDim  units.Dim
+	ResponseUnit string
 
 	Meter MeterPlan // the meter settings every sweep uses unless it sets its own
 	// DACs are the unit's trim DACs as the file declares them, in file order.
@@ -133,8 +141,77 @@ func (s *Sequence) Stimuli() []Stimulus {
 
 // MeterPlan configures a meter for a sweep.
 type MeterPlan struct {
-	Range float64 // volts; 0 = auto
-	NPLC  float64 // integration time in power-line cycles
+	// Function is what the meter measures; "" is FuncVoltage (a meter without
+	// instruments.FunctionSetter measures nothing else).
+	Function instruments.Function
+	Range    float64 // in the function's unit: volts or amperes; 0 = auto
+	NPLC     float64 // integration time in power-line cycles
+}
+
+// dim is the dimension of the readings under p: units.Volt or units.Ampere.
+func (p MeterPlan) dim() units.Dim {
+	if p.Function == instruments.FuncCurrent {
+		return units.Ampere
+	}
+	return units.Volt
+}
+
+// recordResponseUnit is the response unit as the record writes it: "" for
+// volts, so that records of voltage products stay as they were.
+func (s *Sequence) recordResponseUnit() string {
+	if s.ResponseDim == units.Volt {
+		return ""
+	}
+	return s.ResponseUnit
+}
+
+// idealGain sets the sequence's ideal gain and response from the gain's unit
+// pair: the numerator says the response (V, A or count; a bare number is V/V),
+// the denominator the stimulus, which must be a voltage for now.
+func idealGain(doc *files.Doc, s *Sequence, g units.Per, errs *files.List) {
+	bad := func(format string, args ...any) { *errs = append(*errs, doc.Errorf("$.ideal.gain", format, args...)) }
+	switch g.Den {
+	case units.Ratio, units.Volt:
+	case units.Ampere:
+		bad("a current stimulus (a gain per ampere) is not supported yet: current sources are not supported, the stimulus is a voltage; write the gain per volt, e.g. 800 mA/V")
+		return
+	default:
+		bad("expected a gain per volt of stimulus (e.g. 200 V/V, 800 mA/V, 3200 count/V), found one per %s", g.Den)
+		return
+	}
+	switch g.Num {
+	case units.Ratio, units.Volt:
+	case units.Ampere:
+		s.ResponseDim, s.ResponseUnit = units.Ampere, "A"
+	case units.Count:
+		s.ResponseDim, s.ResponseUnit = units.Count, "count"
+	default:
+		bad("expected a response in V, A or count per volt (e.g. 200 V/V, 800 mA/V, 3200 count/V), found a %s", g.Num)
+		return
+	}
+	if s.IdealGain = g.Value; s.IdealGain == 0 || !finite(s.IdealGain) {
+		bad("expected a finite non-zero gain, e.g. 200 V/V")
+	}
+}
+
+// inResponse checks that q is in the response's dimension and returns its value.
+func inResponse(doc *files.Doc, s *Sequence, path string, q units.Quantity, errs *files.List) (float64, bool) {
+	if q.Dim != s.ResponseDim {
+		*errs = append(*errs, doc.Errorf(path, "expected a %s, as the ideal gain's unit makes the response (e.g. %s), found a %s",
+			s.ResponseDim, responseExample(s.ResponseDim), q.Dim))
+		return 0, false
+	}
+	return q.Value, true
+}
+
+func responseExample(d units.Dim) string {
+	switch d {
+	case units.Ampere:
+		return "4 mA"
+	case units.Count:
+		return "100 count"
+	}
+	return "2.5 V"
 }
 
 type stepHead struct {
@@ -162,13 +239,13 @@ type sequenceFile struct {
 	LimitsVariant string   `yaml:"limits_variant"`
 	SerialPattern *string  `yaml:"serial_pattern"`
 	Ideal         struct {
-		Gain      *float64       `yaml:"gain"`
-		Offset    *units.Voltage `yaml:"offset"`
-		FullScale *units.Voltage `yaml:"full_scale"`
+		Gain      *units.Per      `yaml:"gain"`
+		Offset    *units.Quantity `yaml:"offset"`
+		FullScale *units.Quantity `yaml:"full_scale"`
 	} `yaml:"ideal"`
 	Meter struct {
-		Range *units.Voltage `yaml:"range"`
-		NPLC  *float64       `yaml:"nplc"`
+		Range *units.Quantity `yaml:"range"`
+		NPLC  *float64        `yaml:"nplc"`
 	} `yaml:"meter"`
 	DACs         []*dacDecl  `yaml:"dacs"`
 	Coefficients []*coefDecl `yaml:"coefficients"`
@@ -245,19 +322,28 @@ func parseSequence(name string, data []byte, read func(path string) ([]byte, err
 		File: FileRef{Kind: FileSequence, Name: filepath.Base(name), Title: strings.TrimSpace(f.Sequence.Product + " rev " + f.Sequence.Revision), SHA256: hashHex(data)},
 	}
 
+	s.ResponseDim, s.ResponseUnit = units.Volt, "V"
 	if f.Ideal.Gain == nil {
-		bad("$.ideal", "missing required key \"gain\" (V/V)")
-	} else if s.IdealGain = *f.Ideal.Gain; s.IdealGain == 0 || math.IsNaN(s.IdealGain) || math.IsInf(s.IdealGain, 0) {
-		bad("$.ideal.gain", "expected a finite non-zero gain in V/V")
+		bad("$.ideal", "missing required key \"gain\" (response per volt of input: 200 or 200 V/V, 800 mA/V, 3200 count/V)")
+	} else {
+		idealGain(doc, s, *f.Ideal.Gain, &errs)
 	}
 	if f.Ideal.Offset == nil {
 		bad("$.ideal", "missing required key \"offset\" (the output at zero input, e.g. 2.5V)")
-	} else {
-		s.IdealOffset = float64(*f.Ideal.Offset)
+	} else if v, ok := inResponse(doc, s, "$.ideal.offset", *f.Ideal.Offset, &errs); ok {
+		s.IdealOffset = v
 	}
 
-	if f.Meter.Range != nil {
-		s.Meter.Range = float64(*f.Meter.Range)
+	if q := f.Meter.Range; q != nil {
+		switch q.Dim {
+		case units.Volt:
+			s.Meter.Function = instruments.FuncVoltage
+		case units.Ampere:
+			s.Meter.Function = instruments.FuncCurrent
+		default:
+			bad("$.meter.range", "expected a meter range in volts or amperes, e.g. 10 V or 100 mA, found a %s", q.Dim)
+		}
+		s.Meter.Range = q.Value
 	}
 	s.Meter.NPLC = 1
 	if f.Meter.NPLC != nil {
@@ -300,7 +386,7 @@ func parseSequence(name string, data []byte, read func(path string) ([]byte, err
 			errs = append(errs, doc.KeyErrorf("$.coefficients", "coefficients: needs a step list (steps:) with a coefficients step: the first sequence layout has none"))
 		}
 	default:
-		s.DACs = dacList(doc, f.DACs, &errs)
+		s.DACs = dacList(doc, f.DACs, s.ResponseDim, &errs)
 		s.Coefficients = coefList(doc, s, f.Coefficients, &errs)
 		paths = stepList(doc, s, &errs, &decodeErrs)
 	}
@@ -308,7 +394,7 @@ func parseSequence(name string, data []byte, read func(path string) ([]byte, err
 	runBounds(doc, s, &errs)
 	requires(doc, s, f.Requires, &errs)
 	if f.Ideal.FullScale != nil {
-		s.FullScale = float64(*f.Ideal.FullScale)
+		s.FullScale, _ = inResponse(doc, s, "$.ideal.full_scale", *f.Ideal.FullScale, &errs)
 		if s.FullScale <= 0 {
 			bad("$.ideal.full_scale", "expected a positive full-scale output span")
 		}
@@ -673,7 +759,9 @@ func RecordCatalog(rec *Record) limits.Catalog {
 		switch r.Unit {
 		case "V":
 			c[r.Name] = units.Volt
-		case "code":
+		case "A":
+			c[r.Name] = units.Ampere
+		case "code", "count":
 			c[r.Name] = units.Count
 		case "number":
 			c[r.Name] = units.Number

@@ -139,12 +139,16 @@ type Interlock struct {
 
 // StationInstrument is one role's binding on the station.
 type StationInstrument struct {
-	Role      string
-	Kind      RoleKind
-	Address   string
-	Asset     string
-	CalDue    time.Time // the last day the calibration is valid, UTC midnight
-	Accuracy  Accuracy
+	Role    string
+	Kind    RoleKind
+	Address string
+	Asset   string
+	CalDue  time.Time // the last day the calibration is valid, UTC midnight
+	// Accuracy is the instrument's one spec, or the first of its list.
+	Accuracy Accuracy
+	// Specs are every spec the file gives, one per dimension of range (a
+	// meter that reads volts and amperes has one of each); SpecFor picks one.
+	Specs     []Accuracy
 	Model     string // expected model from *IDN?, empty = not pinned
 	Serial    string // expected serial from *IDN?, empty = not pinned
 	Settings  map[string]string
@@ -153,12 +157,21 @@ type StationInstrument struct {
 }
 
 // Accuracy is a ±(of reading + of range) specification, both as fractions, with the
-// range in volts it applies to.
+// range it applies to, in volts or amperes as Dim says.
 type Accuracy struct {
 	OfReading  float64
 	OfRange    float64
 	Range      float64
-	Resolution float64 // one count on that range, volts; 0 = not stated
+	Resolution float64   // one count on that range, in the range's unit; 0 = not stated
+	Dim        units.Dim // of Range and Resolution: units.Volt (0 is read as volts too) or units.Ampere
+}
+
+// unit is the spec's unit: "A" for a current range, else "V".
+func (a Accuracy) unit() string {
+	if a.Dim == units.Ampere {
+		return "A"
+	}
+	return "V"
 }
 
 // String gives the spec in the usual written form.
@@ -167,11 +180,106 @@ func (a Accuracy) String() string {
 		return ""
 	}
 	s := fmt.Sprintf("±(%g ppm of reading + %g ppm of range), range %s",
-		round6(a.OfReading*1e6), round6(a.OfRange*1e6), units.Format(a.Range, "V", 4))
+		round6(a.OfReading*1e6), round6(a.OfRange*1e6), units.Format(a.Range, a.unit(), 4))
 	if a.Resolution > 0 {
-		s += ", resolution " + units.Format(a.Resolution, "V", 3)
+		s += ", resolution " + units.Format(a.Resolution, a.unit(), 3)
 	}
 	return s
+}
+
+// SpecFor is the instrument's spec for readings of dimension d (units.Volt or
+// units.Ampere): the one whose range is of d, or the zero Accuracy when none
+// is. A spec of no stated dimension counts as volts.
+func (si StationInstrument) SpecFor(d units.Dim) Accuracy {
+	specs := si.Specs
+	if len(specs) == 0 {
+		specs = []Accuracy{si.Accuracy}
+	}
+	for _, a := range specs {
+		if a.Dim == d || a.Dim == 0 && d == units.Volt {
+			return a
+		}
+	}
+	return Accuracy{}
+}
+
+// AccuracyText is every spec of the instrument in the written form, "; "
+// between them: what the record keeps.
+func (si StationInstrument) AccuracyText() string {
+	if len(si.Specs) <= 1 {
+		return si.Accuracy.String()
+	}
+	var out []string
+	for _, a := range si.Specs {
+		out = append(out, a.String())
+	}
+	return strings.Join(out, "; ")
+}
+
+// accuracyDecl is one spec as the station file writes it.
+type accuracyDecl struct {
+	OfReading  units.Fraction `yaml:"of_reading"`
+	OfRange    units.Fraction `yaml:"of_range"`
+	Range      units.Quantity `yaml:"range"`
+	Resolution units.Quantity `yaml:"resolution"`
+}
+
+// specsOf checks the instrument's accuracy specs: every range of V or A (a
+// source's of V), positive, at most one spec of each dimension.
+func specsOf(doc *files.Doc, base string, kind RoleKind, errs *files.List) []Accuracy {
+	var out []Accuracy
+	seen := map[units.Dim]int{}
+	n, isList := doc.Len(base+".accuracy"), true
+	if n == 0 {
+		n, isList = 1, false
+	}
+	for i := range n {
+		path := base + ".accuracy"
+		if isList {
+			path = fmt.Sprintf("%s[%d]", path, i)
+		}
+		var d accuracyDecl
+		if err := doc.DecodeAt(path, &d, nil); err != nil {
+			if fe := files.Errs(err); fe != nil {
+				*errs = append(*errs, fe...)
+			} else {
+				*errs = append(*errs, doc.Errorf(path, "%v", err))
+			}
+			continue
+		}
+		bad := func(key, format string, args ...any) {
+			p := path
+			if key != "" {
+				p += "." + key
+			}
+			*errs = append(*errs, doc.Errorf(p, format, args...))
+		}
+		spec := Accuracy{OfReading: float64(d.OfReading), OfRange: float64(d.OfRange), Range: d.Range.Value, Resolution: d.Resolution.Value, Dim: d.Range.Dim}
+		if spec.OfReading < 0 || spec.OfRange < 0 || spec.Resolution < 0 {
+			bad("", "accuracy terms must not be negative")
+		}
+		switch {
+		case d.Range.Dim != units.Volt && d.Range.Dim != units.Ampere || kind == VoltageSource && d.Range.Dim != units.Volt:
+			want := "voltage or current"
+			if kind == VoltageSource {
+				want = "voltage"
+			}
+			bad("range", "expected a positive %s range such as 10V or 100 mA, found a %s", want, d.Range.Dim)
+			continue
+		case spec.Range <= 0:
+			bad("range", "expected a positive range such as 10V")
+		}
+		if d.Resolution != (units.Quantity{}) && d.Resolution.Dim != d.Range.Dim {
+			bad("resolution", "expected a resolution in the range's unit (a %s), found a %s", d.Range.Dim, d.Resolution.Dim)
+		}
+		if j, dup := seen[spec.Dim]; dup {
+			bad("range", "a second spec for a %s range (accuracy[%d] is one already): give one spec per function, each with its range", spec.Dim, j)
+			continue
+		}
+		seen[spec.Dim] = i
+		out = append(out, spec)
+	}
+	return out
 }
 
 func round6(v float64) float64 {
@@ -188,18 +296,13 @@ type stationFile struct {
 		CertificatePrefix string `yaml:"certificate_prefix"`
 	} `yaml:"station"`
 	Instruments map[string]struct {
-		Kind     string `yaml:"kind"`
-		Address  string `yaml:"address"`
-		Asset    string `yaml:"asset"`
-		CalDue   string `yaml:"cal_due"`
-		Model    string `yaml:"model"`
-		Serial   string `yaml:"serial"`
-		Accuracy *struct {
-			OfReading  units.Fraction `yaml:"of_reading"`
-			OfRange    units.Fraction `yaml:"of_range"`
-			Range      units.Voltage  `yaml:"range"`
-			Resolution units.Voltage  `yaml:"resolution"`
-		} `yaml:"accuracy"`
+		Kind      string            `yaml:"kind"`
+		Address   string            `yaml:"address"`
+		Asset     string            `yaml:"asset"`
+		CalDue    string            `yaml:"cal_due"`
+		Model     string            `yaml:"model"`
+		Serial    string            `yaml:"serial"`
+		Accuracy  *anyNode          `yaml:"accuracy"`
 		Settings  map[string]string `yaml:"settings"`
 		Templates map[string]string `yaml:"templates"`
 		Timeout   *units.Duration   `yaml:"timeout"`
@@ -357,13 +460,9 @@ func parseStation(name string, data []byte, recorded bool) (*Station, error) {
 			if in.Accuracy == nil {
 				errs = append(errs, doc.Errorf(base, "missing required key \"accuracy\" (of_reading, of_range, range)"))
 			} else {
-				si.Accuracy = Accuracy{OfReading: float64(in.Accuracy.OfReading), OfRange: float64(in.Accuracy.OfRange),
-					Range: float64(in.Accuracy.Range), Resolution: float64(in.Accuracy.Resolution)}
-				if si.Accuracy.OfReading < 0 || si.Accuracy.OfRange < 0 || si.Accuracy.Resolution < 0 {
-					errs = append(errs, doc.Errorf(base+".accuracy", "accuracy terms must not be negative"))
-				}
-				if si.Accuracy.Range <= 0 {
-					errs = append(errs, doc.Errorf(base+".accuracy.range", "expected a positive range such as 10V"))
+				si.Specs = specsOf(doc, base, kind, &errs)
+				if len(si.Specs) > 0 {
+					si.Accuracy = si.Specs[0]
 				}
 			}
 		}

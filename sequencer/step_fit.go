@@ -8,6 +8,7 @@ import (
 	"fmt"
 	"math"
 	"sort"
+	"strings"
 
 	"trimline/instruments/units"
 	"trimline/sequencer/uncertainty"
@@ -106,7 +107,12 @@ func (f *fitStep) Check(c *Checker) {
 			c.Errorf("results."+what, "unknown fit result %q (expected one of %s)", what, fitOutputsText())
 			continue
 		}
-		c.Declare("results."+what, ResultDef{Name: name, Dim: o.dim, Quantity: what, About: o.about, Range: o.rng(f)})
+		dim, about := o.dim, o.about
+		if dim == units.Volt { // in the response's unit: V, A or count
+			dim = c.Sequence().ResponseDim
+			about = strings.Replace(about, ", V", ", "+unitOf(dim), 1)
+		}
+		c.Declare("results."+what, ResultDef{Name: name, Dim: dim, Quantity: what, About: about, Range: o.rng(f)})
 		f.outs = append(f.outs, [2]string{what, name})
 	}
 }

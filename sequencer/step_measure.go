@@ -21,14 +21,28 @@ func init() {
 		New: func() Step { return new(measureStep) }})
 }
 
-// The results a measure step can give, as its results: map names them.
+// The results a measure step can give, as its results: map names them; each is
+// in the unit of the quantity the step reads.
 var measureOutputs = map[string]struct {
-	dim   units.Dim
 	about string
 }{
-	"mean":  {units.Volt, "mean of the readings, V"},
-	"error": {units.Volt, "mean − ideal output at the level, V"},
-	"noise": {units.Volt, "standard deviation of the readings, V rms"},
+	"mean":  {"mean of the readings"},
+	"error": {"mean − ideal output at the level"},
+	"noise": {"standard deviation of the readings, rms"},
+}
+
+// quantities are the words of a measure step's quantity: key.
+var quantities = map[string]units.Dim{"voltage": units.Volt, "current": units.Ampere, "count": units.Count}
+
+// unitOf is the unit of readings of dimension d as results write it.
+func unitOf(d units.Dim) string {
+	switch d {
+	case units.Ampere:
+		return "A"
+	case units.Count:
+		return "count"
+	}
+	return "V"
 }
 
 // measureStep is a measure step as the sequence file writes it.
@@ -38,8 +52,10 @@ type measureStep struct {
 	Readings int               `yaml:"readings"`
 	Source   string            `yaml:"source"`
 	Meter    string            `yaml:"meter"`
+	Response *responseDecl     `yaml:"response"`
+	Quantity string            `yaml:"quantity"`
 	Stage    string            `yaml:"stage"`
-	MeterSet *units.Voltage    `yaml:"meter_range"`
+	MeterSet *units.Quantity   `yaml:"meter_range"`
 	NPLC     *float64          `yaml:"nplc"`
 	Results  map[string]string `yaml:"results"`
 
@@ -57,8 +73,16 @@ var (
 
 func (s *measureStep) Check(c *Checker) {
 	p := SweepPlan{Points: 1}
-	inBounds := checkReadings(c, readingKeys{source: s.Source, meter: s.Meter, stage: s.Stage, meterRange: s.MeterSet, nplc: s.NPLC,
-		settle: s.Settle, readings: s.Readings}, 2, "2 readings (one gives no noise estimate)", &p)
+	k := readingKeys{source: s.Source, meter: s.Meter, response: s.Response, quantity: c.Sequence().ResponseDim,
+		stage: s.Stage, meterRange: s.MeterSet, nplc: s.NPLC, settle: s.Settle, readings: s.Readings}
+	if s.Quantity != "" {
+		if d, ok := quantities[s.Quantity]; ok {
+			k.quantity, k.quantityKey = d, "quantity"
+		} else {
+			c.Errorf("quantity", "expected voltage, current or count, found %q", s.Quantity)
+		}
+	}
+	inBounds := checkReadings(c, k, 2, "2 readings (one gives no noise estimate)", &p)
 	if s.Level != nil {
 		if v := float64(*s.Level); finite(v) {
 			p.List, p.From, p.To, s.driven = []float64{v}, v, v, true
@@ -82,8 +106,12 @@ func (s *measureStep) Check(c *Checker) {
 			c.Errorf("results."+what, "unknown measure result %q (expected one of %s)", what, measureOutputsText())
 			continue
 		}
+		if what == "error" && p.Quantity != c.Sequence().ResponseDim {
+			c.Errorf("results.error", "the step reads a %s, not the unit's response (a %s): it has no ideal to give an error against; name its mean or noise", p.Quantity, c.Sequence().ResponseDim)
+			continue
+		}
 		name := s.Results[what]
-		c.Declare("results."+what, ResultDef{Name: name, Dim: o.dim, Quantity: what, About: o.about, Range: s.rangeOf(what)})
+		c.Declare("results."+what, ResultDef{Name: name, Dim: p.Quantity, Quantity: what, About: o.about + ", " + unitOf(p.Quantity), Range: s.rangeOf(what, p.Quantity == c.Sequence().ResponseDim)})
 		s.outs = append(s.outs, [2]string{what, name})
 	}
 }
@@ -108,7 +136,11 @@ func (s *measureStep) ideal(seq *Sequence) float64 {
 
 // rangeOf is the physical range of a result, for lint: the readable output, that
 // less the ideal output, and 0 to its half-span.
-func (s *measureStep) rangeOf(what string) func(*Sequence) (float64, float64, bool) {
+// The range is unknown for a quantity other than the response.
+func (s *measureStep) rangeOf(what string, response bool) func(*Sequence) (float64, float64, bool) {
+	if !response {
+		return nil
+	}
 	switch what {
 	case "mean":
 		return outputSpan
@@ -204,9 +236,9 @@ func (s *measureStep) measure(ctx context.Context, u *Unit) ([]instruments.Readi
 			return err
 		}
 		var err error
-		if rs, err = u.Read(ctx, p.Meter, p.Readings, p.MeterSet); err != nil {
+		if rs, err = u.e.readings(ctx, u, p, where); err != nil {
 			rs = nil
-			return fmt.Errorf("%s: read meter: %w", where(), err)
+			return err
 		}
 		// As in a sweep: the unit's output cannot leave its rails, so an
 		// invalid reading is the station's problem, not a measurement.
@@ -244,10 +276,11 @@ func (s *measureStep) annotate(cfg Config, p *Point) {
 // source's, when the step drives the input.
 func (s *measureStep) specs(cfg Config, p Point, withSource bool) []uncertainty.Component {
 	meter, source, res := specs(cfg.Station, s.plan)
-	cs := []uncertainty.Component{
-		uncertainty.Rectangular("meter", meter.HalfWidth(p.Mean)),
-		uncertainty.Resolution("resolution", res),
+	var cs []uncertainty.Component
+	if s.plan.Response == nil { // the unit reporting itself has no meter spec
+		cs = append(cs, uncertainty.Rectangular("meter", meter.HalfWidth(p.Mean)))
 	}
+	cs = append(cs, uncertainty.Resolution("resolution", res))
 	if withSource && s.driven {
 		cs = append(cs, uncertainty.Rectangular("source", math.Abs(cfg.Sequence.IdealGain)*source.HalfWidth(p.Stimulus)))
 	}

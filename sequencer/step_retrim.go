@@ -45,8 +45,9 @@ type retrimStep struct {
 	Readings  int               `yaml:"readings"`
 	Source    string            `yaml:"source"`
 	Meter     string            `yaml:"meter"`
+	Response  *responseDecl     `yaml:"response"`
 	Stage     string            `yaml:"stage"`
-	MeterSet  *units.Voltage    `yaml:"meter_range"`
+	MeterSet  *units.Quantity   `yaml:"meter_range"`
 	NPLC      *float64          `yaml:"nplc"`
 	Within    string            `yaml:"within"`
 	MaxPasses *int              `yaml:"max_passes"`
@@ -70,7 +71,7 @@ func (s *retrimStep) Check(c *Checker) {
 	c.SetStage(Adjustment) // the stage key may set another for the error result
 	seq := c.Sequence()
 	p := SweepPlan{}
-	inBounds := checkReadings(c, readingKeys{source: s.Source, meter: s.Meter, stage: s.Stage, meterRange: s.MeterSet, nplc: s.NPLC,
+	inBounds := checkReadings(c, readingKeys{source: s.Source, meter: s.Meter, response: s.Response, quantity: seq.ResponseDim, stage: s.Stage, meterRange: s.MeterSet, nplc: s.NPLC,
 		settle: s.Settle, readings: s.Readings}, 2, "2 readings (one gives no noise estimate for the error's uncertainty)", &p)
 	for i, v := range s.Levels {
 		if !finite(float64(v)) {
@@ -143,7 +144,7 @@ func (s *retrimStep) Check(c *Checker) {
 				d.Range = codeRange(s.dac)
 			}
 		case "error":
-			d.Dim = units.Volt
+			d.Dim = seq.ResponseDim
 			d.Range = s.errorRange
 		case "passes":
 			d.Dim, d.Stage = units.Number, Adjustment
@@ -195,6 +196,7 @@ func (s *retrimStep) earlierTrim(c *Checker) (pivot float64, ok bool) {
 // checkWithin reads the bound: "0.5 LSB" (of the DAC's nominal output step) or
 // a voltage such as "6 uV".
 func (s *retrimStep) checkWithin(c *Checker) {
+	seq := c.Sequence()
 	if s.Within == "" {
 		c.Errorf("", "missing required key \"within\" (the output error the re-trim stops at: in LSB of the DAC, e.g. 0.5 LSB, or a voltage, e.g. 6 uV)")
 		return
@@ -206,10 +208,10 @@ func (s *retrimStep) checkWithin(c *Checker) {
 		return
 	case q.Dim == units.Count && strings.Contains(s.Within, "LSB"):
 		s.bound = q.Value * math.Abs(s.nominal)
-	case q.Dim == units.Volt:
+	case q.Dim == seq.ResponseDim:
 		s.bound = q.Value
 	default:
-		c.Errorf("within", "%q: expected a bound in LSB of the DAC's output step (e.g. 0.5 LSB) or a voltage (e.g. 6 uV)", s.Within)
+		c.Errorf("within", "%q: expected a bound in LSB of the DAC's output step (e.g. 0.5 LSB) or a %s, the response's unit (e.g. %s)", s.Within, seq.ResponseDim, oneStep(seq.ResponseDim))
 		return
 	}
 	if !(q.Value > 0) {
@@ -448,8 +450,8 @@ func (s *retrimStep) Run(ctx context.Context, u *Unit) error {
 		}
 		u.Rec.Retrims[len(u.Rec.Retrims)-1].Next = final.code
 		if _, judged := s.outs["error"]; !judged {
-			u.Fail(fmt.Sprintf("re-trim of %s: best error %s after %d %s, bound %s", d.Name, fmtV(final.err), pass,
-				map[bool]string{true: "pass", false: "passes"}[pass == 1], fmtV(s.bound)))
+			u.Fail(fmt.Sprintf("re-trim of %s: best error %s after %d %s, bound %s", d.Name, fmtResponse(u.seq, final.err), pass,
+				map[bool]string{true: "pass", false: "passes"}[pass == 1], fmtResponse(u.seq, s.bound)))
 		}
 	}
 	if wrote {

@@ -7,6 +7,8 @@ import (
 	"context"
 	"fmt"
 	"math"
+	"strconv"
+	"strings"
 	"time"
 
 	"trimline/instruments"
@@ -30,9 +32,30 @@ type SweepPlan struct {
 	Settle   time.Duration // wait after each level change before reading
 	Readings int           // readings per level
 	Source   string        // the source role that programs the levels
-	Meter    string        // the meter role that reads the output
-	MeterSet MeterPlan     // the meter's range and integration time for this sweep
-	Where    string        // "file:line:col" of the sweep in the sequence file, for messages
+	Meter    string        // the meter role that reads the output; "" when Response is set
+	MeterSet MeterPlan     // the meter's function, range and integration time for this sweep
+	// Response, when set, is the unit reporting its own response (the DUT as the
+	// meter): each reading is its reply to a query.
+	Response *ResponsePlan
+	// Quantity is what the readings are: units.Volt, units.Ampere or units.Count.
+	Quantity units.Dim
+	Where    string // "file:line:col" of the sweep in the sequence file, for messages
+}
+
+// ResponsePlan is a unit that reports its own response: each reading is the
+// reply of the DUT port Port to Query ({channel} filled) read as a number in
+// the response's SI unit.
+type ResponsePlan struct {
+	Port       string
+	Query      string
+	Resolution float64 // one step of the reported number, in the response's unit
+}
+
+// responseDecl is response: as a sequence file writes it.
+type responseDecl struct {
+	Port       string          `yaml:"port"`
+	Query      string          `yaml:"query"`
+	Resolution *units.Quantity `yaml:"resolution"`
 }
 
 // Levels returns the stimulus levels in volts. For an even sweep, From to To
@@ -72,8 +95,9 @@ type sweepStep struct {
 	Readings  int             `yaml:"readings"`
 	Source    string          `yaml:"source"`
 	Meter     string          `yaml:"meter"`
+	Response  *responseDecl   `yaml:"response"`
 	Stage     string          `yaml:"stage"`
-	MeterSet  *units.Voltage  `yaml:"meter_range"`
+	MeterSet  *units.Quantity `yaml:"meter_range"`
 	NPLC      *float64        `yaml:"nplc"`
 	Plan      SweepPlan       `yaml:"-"`
 	legacyKey string          // the first layout's key (pre_trim, verify), for messages
@@ -89,8 +113,8 @@ type sweepKept struct {
 
 func (s *sweepStep) Check(c *Checker) {
 	var p SweepPlan
-	inBounds := checkReadings(c, readingKeys{source: s.Source, meter: s.Meter, stage: s.Stage, meterRange: s.MeterSet, nplc: s.NPLC,
-		settle: s.Settle, readings: s.Readings}, 1, "1 reading per point", &p)
+	inBounds := checkReadings(c, readingKeys{source: s.Source, meter: s.Meter, response: s.Response, quantity: c.Sequence().ResponseDim,
+		stage: s.Stage, meterRange: s.MeterSet, nplc: s.NPLC, settle: s.Settle, readings: s.Readings}, 1, "1 reading per point", &p)
 	if s.Levels != nil {
 		if s.From != nil || s.To != nil || s.Points != 0 {
 			c.Errorf("levels", "give either levels or from, to and points, not both")
@@ -192,10 +216,14 @@ func (s *sweepStep) Run(ctx context.Context, u *Unit) error {
 	return nil
 }
 
-// readingKeys are the keys a sweep and a measure step share, as written.
+// readingKeys are the keys a sweep and a measure step share, as written, and
+// the quantity the step reads.
 type readingKeys struct {
 	source, meter, stage string
-	meterRange           *units.Voltage
+	response             *responseDecl
+	quantity             units.Dim
+	quantityKey          string // the key that set quantity, "" for the response's
+	meterRange           *units.Quantity
 	nplc                 *float64
 	settle               *units.Duration
 	readings             int
@@ -206,9 +234,10 @@ type readingKeys struct {
 // (fewer is refused with why). It reports whether every value checked is in
 // bounds, so that the caller's own bounds on the whole step may be computed.
 func checkReadings(c *Checker, k readingKeys, minReadings int, why string, p *SweepPlan) bool {
-	p.Source, p.Meter, p.Settle, p.MeterSet, p.Where = orDefault(k.source, RoleSource), orDefault(k.meter, RoleMeter), -1, c.Sequence().Meter, c.Where()
+	seq := c.Sequence()
+	p.Source, p.Settle, p.MeterSet, p.Where, p.Quantity = orDefault(k.source, RoleSource), -1, seq.Meter, c.Where(), k.quantity
 	c.Use(p.Source, VoltageSource)
-	c.Use(p.Meter, VoltMeter)
+	checkReader(c, k, p)
 	switch k.stage {
 	case "":
 	case "as_found":
@@ -217,9 +246,6 @@ func checkReadings(c *Checker, k readingKeys, minReadings int, why string, p *Sw
 		c.SetStage(AsLeft)
 	default:
 		c.Errorf("stage", "expected as_found or as_left, found %q", k.stage)
-	}
-	if k.meterRange != nil {
-		p.MeterSet.Range = float64(*k.meterRange)
 	}
 	if k.nplc != nil {
 		if p.MeterSet.NPLC = *k.nplc; !(p.MeterSet.NPLC > 0 && p.MeterSet.NPLC <= MaxNPLC) {
@@ -243,6 +269,75 @@ func checkReadings(c *Checker, k readingKeys, minReadings int, why string, p *Sw
 		p.MeterSet.NPLC > 0 && p.MeterSet.NPLC <= MaxNPLC
 }
 
+// checkReader checks what reads the step's quantity into p: a meter role set to
+// the quantity's function, or the unit itself (response:).
+func checkReader(c *Checker, k readingKeys, p *SweepPlan) {
+	seq := c.Sequence()
+	if r := k.response; r != nil {
+		if k.meter != "" {
+			c.Errorf("response", "give either meter or response (the unit reporting its own response), not both")
+		}
+		if k.meterRange != nil {
+			c.Errorf("meter_range", "meter_range sets a meter: this step reads the unit's own reports (response:)")
+		}
+		if k.quantity != seq.ResponseDim {
+			c.Errorf("response", "the unit reports its response, a %s; a %s is read through a meter role (meter:)", seq.ResponseDim, k.quantity)
+		}
+		rp := &ResponsePlan{Port: orDefault(r.Port, RoleDUT), Query: r.Query}
+		c.Use(rp.Port, DUTPort)
+		if strings.TrimSpace(r.Query) == "" {
+			c.Errorf("response", "missing required key \"query\" (what the unit answers with its reading, e.g. \"MEAS?\")")
+		}
+		switch q := r.Resolution; {
+		case q == nil:
+			c.Errorf("response", "missing required key \"resolution\" (one step of the number the unit reports, e.g. %s)", oneStep(seq.ResponseDim))
+		case q.Dim != seq.ResponseDim:
+			c.Errorf("response.resolution", "expected a %s, the response's unit (e.g. %s), found a %s", seq.ResponseDim, oneStep(seq.ResponseDim), q.Dim)
+		case !(q.Value > 0):
+			c.Errorf("response.resolution", "expected a positive resolution, e.g. %s", oneStep(seq.ResponseDim))
+		default:
+			rp.Resolution = q.Value
+		}
+		p.Response = rp
+		return
+	}
+	p.Meter = orDefault(k.meter, RoleMeter)
+	c.Use(p.Meter, VoltMeter)
+	switch k.quantity {
+	case units.Volt:
+		p.MeterSet.Function = instruments.FuncVoltage
+	case units.Ampere:
+		p.MeterSet.Function = instruments.FuncCurrent
+	default:
+		key := k.quantityKey
+		if key == "" {
+			key = "meter"
+		}
+		c.Errorf(key, "a meter reads volts or amperes: the unit's response is a %s it reports itself; read it with response: {port: dut, query: \"MEAS?\", resolution: 1 count}", k.quantity)
+		return
+	}
+	if seq.Meter.dim() != k.quantity {
+		p.MeterSet.Range = 0 // the file's meter range is for the other function
+	}
+	if q := k.meterRange; q != nil {
+		if q.Dim != k.quantity {
+			c.Errorf("meter_range", "expected a range in the unit of the %s the step reads (e.g. %s), found a %s", k.quantity, oneStep(k.quantity), q.Dim)
+		}
+		p.MeterSet.Range = q.Value
+	}
+}
+
+// oneStep is an example quantity of dimension d for messages.
+func oneStep(d units.Dim) string {
+	switch d {
+	case units.Ampere:
+		return "100 mA"
+	case units.Count:
+		return "1 count"
+	}
+	return "10 V"
+}
+
 // storedSweep finds the sweep called name in a stored record.
 func storedSweep(rec *Record, name string) (Sweep, bool) {
 	for _, s := range rec.Sweeps {
@@ -259,9 +354,11 @@ func storedSweep(rec *Record, name string) (Sweep, bool) {
 // meter that flags its reading as stale) stops the run as a station fault.
 func (e *Engine) sweep(ctx context.Context, u *Unit, name string, p SweepPlan) (Sweep, error) {
 	sw := Sweep{Name: name}
-	src, meter := e.sources[p.Source], e.meters[p.Meter]
-	if err := e.configureMeter(ctx, p.Meter, p.MeterSet); err != nil {
-		return sw, err
+	src := e.sources[p.Source]
+	if p.Response == nil {
+		if err := e.configureMeter(ctx, p.Meter, p.MeterSet); err != nil {
+			return sw, err
+		}
 	}
 	for i, x := range p.Levels() {
 		err := e.step(ctx, func(ctx context.Context) error {
@@ -279,9 +376,9 @@ func (e *Engine) sweep(ctx context.Context, u *Unit, name string, p SweepPlan) (
 			if err := e.clock.Sleep(ctx, p.Settle); err != nil {
 				return err
 			}
-			rs, err := meter.Read(ctx, p.Readings)
+			rs, err := e.readings(ctx, u, p, func() string { return fmt.Sprintf("%s sweep at %s", name, fmtV(x)) })
 			if err != nil {
-				return fmt.Errorf("%s sweep at %s: read meter: %w", name, fmtV(x), err)
+				return err
 			}
 			sw.Points = append(sw.Points, point(x, rs))
 			// The unit's output cannot leave its supply rails, so an overload or
@@ -304,6 +401,43 @@ func (e *Engine) sweep(ctx context.Context, u *Unit, name string, p SweepPlan) (
 		return sw, fmt.Errorf("%s sweep: source output off: %w", name, err)
 	}
 	return sw, nil
+}
+
+// readings takes p.Readings readings of the step's quantity: from its meter
+// (configured to p.MeterSet), or with p.Response the unit's replies to its query,
+// each stamped with the engine's clock. A reply that is no number stops the run
+// as a station fault naming where (the step and level) and the reply.
+func (e *Engine) readings(ctx context.Context, u *Unit, p SweepPlan, where func() string) ([]instruments.Reading, error) {
+	r := p.Response
+	if r == nil {
+		if err := e.configureMeter(ctx, p.Meter, p.MeterSet); err != nil {
+			return nil, err
+		}
+		rs, err := e.meters[p.Meter].Read(ctx, p.Readings)
+		if err != nil {
+			return nil, fmt.Errorf("%s: read meter: %w", where(), err)
+		}
+		return rs, nil
+	}
+	port, ok := e.ports[r.Port]
+	if !ok {
+		return nil, fmt.Errorf("%s: %s is not a DUT port", where(), r.Port)
+	}
+	q := u.Fill(r.Query)
+	rs := make([]instruments.Reading, 0, p.Readings)
+	for i := range p.Readings {
+		reply, err := port.Query(ctx, q)
+		if err != nil {
+			return nil, fmt.Errorf("%s: read the unit (%q on %s): %w", where(), q, r.Port, err)
+		}
+		v, err := strconv.ParseFloat(strings.TrimSpace(reply), 64)
+		if err != nil || !finite(v) {
+			return nil, &stop{verdict: Fault, msg: fmt.Sprintf("%s: the unit answered %q to %q (reading %d of %d), which is no number: check the unit's protocol and the query",
+				where(), reply, q, i+1, p.Readings)}
+		}
+		rs = append(rs, instruments.Reading{Value: v, Time: e.clock.Now()})
+	}
+	return rs, nil
 }
 
 // point summarises the readings at one level. Mean and SD are over the valid

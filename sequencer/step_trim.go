@@ -122,7 +122,7 @@ func (s *clearTrimStep) Run(ctx context.Context, u *Unit) error {
 type trimStep struct {
 	Fit     string            `yaml:"fit"`
 	DACs    []string          `yaml:"dacs"`
-	Pivot   *units.Voltage    `yaml:"pivot"`
+	Pivot   *units.Quantity   `yaml:"pivot"`
 	Results map[string]string `yaml:"results"`
 
 	order []string // the order of Results' keys when not read from a file
@@ -138,8 +138,11 @@ func (s *trimStep) Check(c *Checker) {
 		c.Earlier("fit", s.Fit, "fit")
 	}
 	s.plan = TrimPlan{DACs: dacsOf(c, "dacs", s.DACs), Pivot: c.Sequence().IdealOffset}
-	if s.Pivot != nil {
-		s.plan.Pivot = float64(*s.Pivot)
+	if q := s.Pivot; q != nil {
+		if d := c.Sequence().ResponseDim; q.Dim != d {
+			c.Errorf("pivot", "expected an output in the response's unit (a %s, e.g. %s), found a %s", d, responseExample(d), q.Dim)
+		}
+		s.plan.Pivot = q.Value
 	}
 	s.names = make([]string, len(s.plan.DACs))
 	for i, d := range s.plan.DACs {

@@ -60,6 +60,7 @@ var unitTable = map[string]unitDef{
 	"ppm": {Ratio, 1e-6, false}, "%": {Ratio, 1e-2, false}, "ppb": {Ratio, 1e-9, false},
 	"°C": {Celsius, 1, false}, "degC": {Celsius, 1, false},
 	"code": {Count, 1, false}, "codes": {Count, 1, false}, "LSB": {Count, 1, false},
+	"count": {Count, 1, false}, "counts": {Count, 1, false},
 	"min": {Second, 60, false}, "h": {Second, 3600, false},
 }
 
@@ -84,17 +85,100 @@ func Parse(s string) (Quantity, error) {
 	if unit == "" {
 		return Quantity{Value: num, Dim: Ratio}, nil
 	}
+	if f, d, ok := lookupUnit(unit); ok {
+		return scaled(s, num*f, d)
+	}
+	return Quantity{}, fmt.Errorf("unknown unit %q in %q (expected V, A, s, Hz, Ω with an optional prefix p n u µ m k M G, or ppm, %%, °C, count)", unit, s)
+}
+
+// lookupUnit returns the SI scale and dimension of a unit written with an
+// optional prefix ("mA" is 1e-3 A).
+func lookupUnit(unit string) (scale float64, d Dim, ok bool) {
 	if u, ok := unitTable[unit]; ok {
-		return scaled(s, num*u.scale, u.dim)
+		return u.scale, u.dim, true
 	}
 	for p, f := range prefixes {
 		if rest, ok := strings.CutPrefix(unit, p); ok {
 			if u, ok := unitTable[rest]; ok && u.prefixed {
-				return scaled(s, num*f*u.scale, u.dim)
+				return f * u.scale, u.dim, true
 			}
 		}
 	}
-	return Quantity{}, fmt.Errorf("unknown unit %q in %q (expected V, A, s, Hz, Ω with an optional prefix p n u µ m k M G, or ppm, %%, °C)", unit, s)
+	return 0, 0, false
+}
+
+// Per is a ratio of two quantities written with a compound unit such as
+// "800 mA/V" or "3200 count/V": Value in SI units of Num per SI unit of Den
+// (0.8 for "800 mA/V"). A bare number has Num and Den both Ratio.
+type Per struct {
+	Value    float64
+	Num, Den Dim
+}
+
+// ParseRatioUnit reads a number followed by a compound unit NUM/DEN, each an
+// optional SI prefix and a unit (V, A, count, …): "200 V/V" is 200, "800 mA/V"
+// and "0.8 mA/mV" are both 0.8 A/V, "3200 count/V" is 3200 count/V. A bare
+// number ("200") is a plain ratio with Num and Den Ratio; a unit that is no ratio
+// ("200 mV") is refused.
+func ParseRatioUnit(s string) (Per, error) {
+	t := strings.TrimSpace(s)
+	end := numberEnd(t)
+	if end == 0 {
+		return Per{}, fmt.Errorf("expected a number before the unit in %q, e.g. 200 V/V or 800 mA/V", s)
+	}
+	num, err := strconv.ParseFloat(t[:end], 64)
+	if err != nil || math.IsNaN(num) || math.IsInf(num, 0) {
+		return Per{}, fmt.Errorf("expected a finite number in %q", s)
+	}
+	unit := strings.TrimSpace(t[end:])
+	if unit == "" {
+		return Per{Value: num, Num: Ratio, Den: Ratio}, nil
+	}
+	top, bottom, ok := strings.Cut(unit, "/")
+	if !ok {
+		return Per{}, fmt.Errorf("%q has no ratio unit: expected a unit such as V/V, mA/V or count/V", s)
+	}
+	top, bottom = strings.TrimSpace(top), strings.TrimSpace(bottom)
+	fn, dn, okn := lookupUnit(top)
+	fd, dd, okd := lookupUnit(bottom)
+	switch {
+	case !okn:
+		return Per{}, fmt.Errorf("unknown unit %q in %q (expected V, A or count with an optional prefix, over V or A)", top, s)
+	case !okd:
+		return Per{}, fmt.Errorf("unknown unit %q in %q (expected V, A or count with an optional prefix, over V or A)", bottom, s)
+	}
+	v := num * (fn / fd)
+	if math.IsInf(v, 0) || math.IsNaN(v) || v == 0 && num != 0 {
+		return Per{}, fmt.Errorf("%q is out of range", s)
+	}
+	return Per{Value: v, Num: dn, Den: dd}, nil
+}
+
+// UnmarshalYAML parses a compound ratio (ParseRatioUnit); the error is positioned
+// at the value.
+func (p *Per) UnmarshalYAML(n ast.Node) error {
+	var out Per
+	_, err := decodeWith(n, func(s string) (float64, error) {
+		var err error
+		out, err = ParseRatioUnit(s)
+		return out.Value, err
+	})
+	*p = out
+	return err
+}
+
+// UnmarshalYAML parses a quantity of any dimension (Parse), so that the caller
+// can check the dimension against one known only later; the error is positioned
+// at the value.
+func (q *Quantity) UnmarshalYAML(n ast.Node) error {
+	var out Quantity
+	_, err := decodeWith(n, func(s string) (float64, error) {
+		var err error
+		out, err = Parse(s)
+		return out.Value, err
+	})
+	*q = out
+	return err
 }
 
 // scaled returns the quantity v of dimension d, refusing a value that the unit's
@@ -197,6 +281,8 @@ func example(d Dim) string {
 		return "23°C"
 	case Number:
 		return "1.3"
+	case Count:
+		return "12 count"
 	}
 	return "10ppm"
 }
@@ -207,7 +293,7 @@ func Format(v float64, unit string, digits int) string {
 	if math.IsNaN(v) || math.IsInf(v, 0) {
 		return fmt.Sprint(v)
 	}
-	if unit == "ppm" || unit == "%" || unit == "" || unit == "code" || unit == "°C" {
+	if unit == "ppm" || unit == "%" || unit == "" || unit == "code" || unit == "count" || unit == "°C" {
 		return strings.TrimSpace(fixedOrSci(v, digits) + " " + unit)
 	}
 	a := math.Abs(v)

@@ -178,3 +178,69 @@ func TestNumber(t *testing.T) {
 		}
 	}
 }
+
+// A gain's unit pair fixes the response and the stimulus; the value is in SI
+// units of each (hand-worked: 800 mA/V = 0.8 A/V; 0.8 mA/mV = 0.8e-3 A / 1e-3 V
+// = 0.8 A/V).
+func TestParseRatioUnit(t *testing.T) {
+	for _, c := range []struct {
+		in       string
+		v        float64
+		num, den units.Dim
+	}{
+		{"200", 200, units.Ratio, units.Ratio},
+		{"200 V/V", 200, units.Volt, units.Volt},
+		{"-1.5 mV/mV", -1.5, units.Volt, units.Volt},
+		{"800 mA/V", 0.8, units.Ampere, units.Volt},
+		{"0.8 mA/mV", 0.8, units.Ampere, units.Volt},
+		{"3200 count/V", 3200, units.Count, units.Volt},
+		{"3.2 counts/mV", 3200, units.Count, units.Volt},
+		{"2 V/mA", 2000, units.Volt, units.Ampere},
+	} {
+		got, err := units.ParseRatioUnit(c.in)
+		if err != nil {
+			t.Errorf("%q: %v", c.in, err)
+			continue
+		}
+		if math.Abs(got.Value-c.v) > 1e-12*math.Abs(c.v) || got.Num != c.num || got.Den != c.den {
+			t.Errorf("%q = %+v, want %g %v/%v", c.in, got, c.v, c.num, c.den)
+		}
+	}
+	for _, bad := range []string{"", "V/V", "200 mV", "200 furlong/V", "200 V/fortnight", "NaN V/V"} {
+		if _, err := units.ParseRatioUnit(bad); err == nil {
+			t.Errorf("%q: no error", bad)
+		}
+	}
+}
+
+func TestCountUnit(t *testing.T) {
+	for _, s := range []string{"12 count", "12 counts", "12count"} {
+		q, err := units.Parse(s)
+		if err != nil || q.Dim != units.Count || q.Value != 12 {
+			t.Errorf("%q = %+v, %v; want 12 count", s, q, err)
+		}
+	}
+	if got := units.Format(12, "count", 3); got != "12 count" {
+		t.Errorf("Format(12, count) = %q", got)
+	}
+}
+
+// ParseRatioUnit never panics, and what it accepts is a finite value whose
+// dimensions are both plain ratios only for a bare number.
+func FuzzParseRatioUnit(f *testing.F) {
+	for _, s := range []string{"200", "200 V/V", "800 mA/V", "0.8 mA/mV", "3200 count/V", "1e308 GV/pV", "/", "1 /", "1 V/"} {
+		f.Add(s)
+	}
+	f.Fuzz(func(t *testing.T, s string) {
+		p, err := units.ParseRatioUnit(s)
+		if err != nil {
+			return
+		}
+		if math.IsNaN(p.Value) || math.IsInf(p.Value, 0) {
+			t.Errorf("%q = %v: not finite", s, p.Value)
+		}
+		if (p.Num == units.Ratio) != (p.Den == units.Ratio) && !strings.Contains(s, "/") {
+			t.Errorf("%q = %+v: one side bare without a ratio unit", s, p)
+		}
+	})
+}
