@@ -7,7 +7,6 @@ import (
 	"strings"
 	"time"
 
-	"trimline/instruments/units"
 	"trimline/limits"
 	"trimline/reports/internal/pdfdoc"
 	"trimline/sequencer"
@@ -120,14 +119,15 @@ func (d *doc) identification() {
 		value string
 		st    pdfdoc.Style
 	}
-	transfer := strconv.FormatFloat(r.IdealGain, 'g', 7, 64) + " V/V × input "
+	resp := d.resp()
+	transfer := gain(r.IdealGain, resp, d.stim()) + " × input "
 	if r.IdealOffset < 0 {
-		transfer += "− " + units.Format(-r.IdealOffset, "V", 6)
+		transfer += "− " + resp.magnitude(-r.IdealOffset)
 	} else {
-		transfer += "+ " + units.Format(r.IdealOffset, "V", 6)
+		transfer += "+ " + resp.magnitude(r.IdealOffset)
 	}
 	if r.FullScale != 0 && !math.IsNaN(r.FullScale) {
-		transfer += ";  full scale " + units.Format(r.FullScale, "V", 6)
+		transfer += ";  full scale " + resp.magnitude(r.FullScale)
 	}
 	product := dash(r.Product)
 	if r.Revision != "" {

@@ -39,8 +39,12 @@ func (d *doc) trims() {
 		if t.Saturated {
 			sat = c1("yes", pdfdoc.Bold.With(pdfdoc.Fail))
 		}
+		dac := c1(dash(t.DAC), pdfdoc.Bold)
+		if t.Channel != "" {
+			dac = append(dac, pdfdoc.Span{Text: chanWord(t.Channel), St: pdfdoc.Small})
+		}
 		rows = append(rows, pdfdoc.Row{
-			c1(dash(t.DAC), pdfdoc.Bold),
+			dac,
 			c1(strconv.Itoa(t.Before), pdfdoc.Body),
 			c1(ideal, pdfdoc.Body),
 			written,
