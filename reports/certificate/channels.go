@@ -4,6 +4,7 @@ import (
 	"slices"
 
 	"trimline/limits"
+	"trimline/reports/internal/pdfdoc"
 	"trimline/sequencer"
 )
 
@@ -83,4 +84,47 @@ func (d *doc) resultIn(name, ch string) (sequencer.Result, bool) {
 		}
 	}
 	return d.result(name)
+}
+
+// channelBands labels the rows of a per-channel table: a band "Channel 2"
+// before each run of rows of one channel ("Whole unit" for ""), none when no
+// row names a channel. It is fed each row's channel in order.
+type channelBands struct {
+	bands []pdfdoc.Band
+	last  *string
+	named bool
+}
+
+// row notes that row at (its index) is of channel ch.
+func (b *channelBands) row(at int, ch string) {
+	b.named = b.named || ch != ""
+	if b.last != nil && *b.last == ch {
+		return
+	}
+	b.last = &ch
+	title := "Whole unit"
+	if ch != "" {
+		title = "Channel " + ch
+	}
+	b.bands = append(b.bands, pdfdoc.Band{At: at, Title: title})
+}
+
+// get is the bands, nil when no row named a channel.
+func (b *channelBands) get() []pdfdoc.Band {
+	if !b.named {
+		return nil
+	}
+	return b.bands
+}
+
+// byChannel returns xs ordered by the record's channels, each channel's in
+// record order; xs as it is when no channel is named.
+func byChannel[T any](d *doc, xs []T, ch func(T) string) []T {
+	chans := d.channels()
+	if chans == nil {
+		return xs
+	}
+	out := slices.Clone(xs)
+	slices.SortStableFunc(out, func(a, b T) int { return chanIndex(chans, ch(a)) - chanIndex(chans, ch(b)) })
+	return out
 }

@@ -3,7 +3,8 @@ package certificate
 import (
 	"math"
 	"strconv"
-	"strings"
+
+	"trimline/instruments/units"
 
 	"trimline/reports/internal/pdfdoc"
 	"trimline/sequencer"
@@ -15,11 +16,11 @@ import (
 // coefficient's number format and the value it stands for, the format's
 // resolution, and what the unit read back.
 func (d *doc) coefficients() {
-	cols, rows := d.coefficientTable()
+	cols, rows, bands := d.coefficientTable()
 	if len(rows) == 0 {
 		return
 	}
-	d.tableSection("Correction coefficients written", cols, rows, nil)
+	d.tableSection("Correction coefficients written", cols, rows, bands)
 	d.note(coefficientNote)
 }
 
@@ -30,7 +31,7 @@ const coefficientNote = "Asked for: the exact value the fit gave, with its stand
 	"Read back: the unit's reply, which matches when it is the written word at the format's resolution."
 
 // coefficientTable is the columns and rows of the coefficients table.
-func (d *doc) coefficientTable() ([]pdfdoc.Column, []pdfdoc.Row) {
+func (d *doc) coefficientTable() ([]pdfdoc.Column, []pdfdoc.Row, []pdfdoc.Band) {
 	cols := []pdfdoc.Column{
 		{Title: "Coefficient", W: 27, Align: "L"},
 		{Title: "Format", W: 20, Align: "L"},
@@ -42,16 +43,17 @@ func (d *doc) coefficientTable() ([]pdfdoc.Column, []pdfdoc.Row) {
 		{Title: "Match", W: 17, Align: "C"},
 	}
 	var rows []pdfdoc.Row
-	for _, c := range d.rec.Coefficients {
-		name := pdfdoc.Cell{{Text: dash(c.Name), St: pdfdoc.Bold}}
+	var bands channelBands
+	for _, c := range byChannel(d, d.rec.Coefficients, func(c sequencer.CoefficientWrite) string { return c.Channel }) {
+		bands.row(len(rows), c.Channel)
 		about := "adjusts " + dash(c.Adjusts)
-		if c.Channel != "" {
-			about += " · " + chanWord(c.Channel)
+		if u := dispUnit(c.Unit); u != "" {
+			about += ", in " + u
 		}
-		name = append(name, pdfdoc.Span{Text: about, St: pdfdoc.Small})
+		name := pdfdoc.Cell{{Text: dash(c.Name), St: pdfdoc.Bold}, {Text: about, St: pdfdoc.Small}}
 
 		word := c1(dash(c.Text), stMono)
-		stands := c1(fmtCoef(c.Value, c.Resolution, c.Unit), pdfdoc.Body)
+		stands := c1(fmtCoef(c.Value, c.Resolution), pdfdoc.Body)
 		rb := c1(dash(c.Readback), stMono)
 		match := c1("yes", pdfdoc.Bold.With(pdfdoc.Pass))
 		switch {
@@ -60,12 +62,12 @@ func (d *doc) coefficientTable() ([]pdfdoc.Column, []pdfdoc.Row) {
 			stands = c1("—", pdfdoc.Body)
 			rb, match = c1("—", pdfdoc.Body), c1("—", pdfdoc.Body)
 		case !c.Match:
-			rb = append(rb, pdfdoc.Span{Text: "= " + fmtCoef(c.ReadbackValue, c.Resolution, c.Unit), St: pdfdoc.Small.With(pdfdoc.Fail)})
+			rb = append(rb, pdfdoc.Span{Text: "= " + fmtCoef(c.ReadbackValue, c.Resolution), St: pdfdoc.Small.With(pdfdoc.Fail)})
 			match = pdfdoc.Cell{{Text: "NO", St: pdfdoc.Bold.With(pdfdoc.Fail)}, {Text: "differs from written", St: pdfdoc.Small.With(pdfdoc.Fail)}}
 		}
 		res := "—"
 		if c.Resolution > 0 && finite(c.Resolution) {
-			res = strings.TrimSpace(fmtNum(c.Resolution) + " " + dispUnit(c.Unit))
+			res = units.FormatSig(c.Resolution, 4)
 		}
 		rows = append(rows, pdfdoc.Row{
 			name,
@@ -78,7 +80,7 @@ func (d *doc) coefficientTable() ([]pdfdoc.Column, []pdfdoc.Row) {
 			match,
 		})
 	}
-	return cols, rows
+	return cols, rows, bands.get()
 }
 
 // fmtAsked writes what the fit asked of a coefficient: "1.002346 ± 0.000012"
@@ -89,16 +91,16 @@ func fmtAsked(c sequencer.CoefficientWrite) string {
 		return "not valid"
 	}
 	if hasU(c.IdealU) {
-		return fmtWithU(c.Ideal, c.IdealU, c.Unit)
+		return fmtWithU(c.Ideal, c.IdealU, "")
 	}
-	return fmtCoef(c.Ideal, c.Resolution, c.Unit)
+	return fmtCoef(c.Ideal, c.Resolution)
 }
 
 // fmtCoef writes a coefficient's value to one decimal finer than the format's
 // resolution, so that the rounding to the format shows: 1.0023499 with a
 // resolution of 6.1e-5 is "1.002350"; with no resolution, seven significant
 // digits.
-func fmtCoef(v, res float64, unit string) string {
+func fmtCoef(v, res float64) string {
 	if !finite(v) {
 		return "not valid"
 	}
@@ -108,9 +110,6 @@ func fmtCoef(v, res float64, unit string) string {
 		s = fmtDec(v, max(0, min(dec, 15)))
 	} else {
 		s = pdfdoc.Minus(strconv.FormatFloat(v, 'g', 7, 64))
-	}
-	if u := dispUnit(unit); u != "" {
-		s += " " + u
 	}
 	return s
 }

@@ -19,8 +19,8 @@ import (
 // already overflowed) it flows on, each heading kept with its first rows.
 func (d *doc) detail() {
 	sCols, sRows := d.statements()
-	oCols, oRows := d.otherResults()
-	fCols, fRows := d.fits()
+	oCols, oRows, oBands := d.otherResults()
+	fCols, fRows, fBands := d.fits()
 	plotted, plotH := d.plotSeries()
 	pts := d.pointTables()
 
@@ -29,10 +29,10 @@ func (d *doc) detail() {
 		total += headingH + d.TableHeight(sCols, sRows, nil)
 	}
 	if len(oRows) > 0 {
-		total += headingH + d.TableHeight(oCols, oRows, nil)
+		total += headingH + d.TableHeight(oCols, oRows, oBands)
 	}
 	if len(fRows) > 0 {
-		total += headingH + d.TableHeight(fCols, fRows, nil)
+		total += headingH + d.TableHeight(fCols, fRows, fBands)
 	}
 	total += headingH + plotH
 	total += headingH + 4
@@ -47,10 +47,10 @@ func (d *doc) detail() {
 		d.tableSection("Decision statements", sCols, sRows, nil)
 	}
 	if len(oRows) > 0 {
-		d.tableSection("Other results (not judged by a limit)", oCols, oRows, nil)
+		d.tableSection("Other results (not judged by a limit)", oCols, oRows, oBands)
 	}
 	if len(fRows) > 0 {
-		d.tableSection(d.fitsTitle(), fCols, fRows, nil)
+		d.tableSection(d.fitsTitle(), fCols, fRows, fBands)
 	}
 	d.plots(plotted, plotH)
 	d.sweepPoints(pts)
@@ -76,7 +76,7 @@ func (d *doc) statements() ([]pdfdoc.Column, []pdfdoc.Row) {
 }
 
 // otherResults lists the results that no limit uses.
-func (d *doc) otherResults() ([]pdfdoc.Column, []pdfdoc.Row) {
+func (d *doc) otherResults() ([]pdfdoc.Column, []pdfdoc.Row, []pdfdoc.Band) {
 	// An outcome of a channel uses the results of that channel; one of the
 	// whole unit (or made before outcomes named their channel) those of its
 	// names on every channel.
@@ -91,10 +91,12 @@ func (d *doc) otherResults() ([]pdfdoc.Column, []pdfdoc.Row) {
 		}
 	}
 	var rows []pdfdoc.Row
-	for _, r := range d.rec.Results {
+	var bands channelBands
+	for _, r := range byChannel(d, d.rec.Results, func(r sequencer.Result) string { return r.Channel }) {
 		if used[key{r.Name, r.Channel}] || used[key{r.Name, ""}] {
 			continue
 		}
+		bands.row(len(rows), r.Channel)
 		st := pdfdoc.Body
 		if !r.Valid {
 			st = pdfdoc.Body.With(pdfdoc.Muted)
@@ -103,22 +105,18 @@ func (d *doc) otherResults() ([]pdfdoc.Column, []pdfdoc.Row) {
 		if r.Valid && finite(r.Value) && r.Unit != "code" {
 			note = strings.TrimSpace(uncLine(r.Unc.Expanded, r.Unc.K, r.Unc.DOF, r.Unc.Method) + "   " + note)
 		}
-		stageCell := c1(stageWord(stageOf(d.rec, r.Name)), pdfdoc.Body)
-		if r.Channel != "" {
-			stageCell = append(stageCell, pdfdoc.Span{Text: chanWord(r.Channel), St: pdfdoc.Small})
-		}
-		rows = append(rows, pdfdoc.Row{c1(r.Name, pdfdoc.Bold), stageCell, c1(fmtResultU(r), st), c1(note, pdfdoc.Small)})
+		rows = append(rows, pdfdoc.Row{c1(r.Name, pdfdoc.Bold), c1(stageWord(stageOf(d.rec, r.Name)), pdfdoc.Body), c1(fmtResultU(r), st), c1(note, pdfdoc.Small)})
 	}
 	return []pdfdoc.Column{
 		{Title: "Result", W: 48, Align: "L"},
 		{Title: "Stage", W: 20, Align: "L"},
 		{Title: "Value ± U", W: 46, Align: "R"},
 		{Title: "Uncertainty · note", W: 66, Align: "L", Gap: 4},
-	}, rows
+	}, rows, bands.get()
 }
 
 // fits is the table of straight-line fits of the sweeps.
-func (d *doc) fits() ([]pdfdoc.Column, []pdfdoc.Row) {
+func (d *doc) fits() ([]pdfdoc.Column, []pdfdoc.Row, []pdfdoc.Band) {
 	r := d.rec
 	cols := []pdfdoc.Column{
 		{Title: "Sweep", W: 22, Align: "L"},
@@ -136,7 +134,9 @@ func (d *doc) fits() ([]pdfdoc.Column, []pdfdoc.Row) {
 	}
 	resp := d.resp()
 	var rows []pdfdoc.Row
+	var bands channelBands
 	for _, f := range d.fitsByStage() {
+		bands.row(len(rows), f.Channel)
 		gainErr := "—"
 		if r.IdealGain != 0 {
 			gainErr = fmtResult(sequencer.Result{Value: f.Slope/r.IdealGain - 1, Unit: "ratio", Valid: finite(f.Slope)})
@@ -150,9 +150,6 @@ func (d *doc) fits() ([]pdfdoc.Column, []pdfdoc.Row) {
 			slope = gain(f.Slope, resp, d.stim())
 		}
 		about := stageWord(d.fitStage(f))
-		if f.Channel != "" {
-			about += " · " + chanWord(f.Channel)
-		}
 		if perSweep[[2]string{f.Sweep, f.Channel}] > 1 && f.Step != "" {
 			about += " · " + f.Step
 		}
@@ -170,7 +167,7 @@ func (d *doc) fits() ([]pdfdoc.Column, []pdfdoc.Row) {
 			c1(nl, pdfdoc.Body),
 		})
 	}
-	return cols, rows
+	return cols, rows, bands.get()
 }
 
 // fitsTitle is the heading of the fits table: "Straight-line fits" unless a fit

@@ -3,6 +3,7 @@ package certificate
 import (
 	"fmt"
 	"math"
+	"slices"
 	"strconv"
 	"strings"
 	"time"
@@ -21,24 +22,36 @@ func (d *doc) subtitle() string {
 	var names []string
 	quantities := true
 	for _, t := range d.rec.Trims {
-		if !t.Written { // saturated, or the run stopped first: not trimmed
+		if !t.Written || slices.Contains(names, t.DAC) { // saturated, or the run stopped first: not trimmed; or another channel's
 			continue
 		}
 		names = append(names, t.DAC)
 		quantities = quantities && (t.DAC == sequencer.AdjustGain || t.DAC == sequencer.AdjustOffset)
 	}
+	coefs := slices.ContainsFunc(d.rec.Coefficients, func(c sequencer.CoefficientWrite) bool { return c.Written })
 	sub := "End-of-line test"
 	switch {
 	case len(names) > 0 && quantities:
 		sub = "End-of-line trim of " + andList(names)
 	case len(names) > 0:
 		sub = "End-of-line trim by the " + andList(names) + " " + map[bool]string{true: "DAC", false: "DACs"}[len(names) == 1]
+	case coefs:
+		sub = "End-of-line correction by firmware coefficients"
 	}
+	if coefs && len(names) > 0 {
+		sub += " and firmware coefficients"
+	}
+	if n := len(d.channels()); n > 1 && sub != "End-of-line test" {
+		sub += fmt.Sprintf(" on %d channels", n)
+	}
+	// Sweeps are counted by name: the same sweep on several channels is one.
 	found, left := 0, 0
+	var seen []string
 	for _, sw := range d.rec.Sweeps {
-		if !curve(sw) { // a single measurement verifies no transfer
+		if !curve(sw) || slices.Contains(seen, sw.Name) { // a single measurement verifies no transfer
 			continue
 		}
+		seen = append(seen, sw.Name)
 		switch certStage(sw.StageOf()) {
 		case stageFound:
 			found++

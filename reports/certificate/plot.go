@@ -45,6 +45,9 @@ func siScale(maxAbs float64) (float64, string) {
 func (d *doc) plot(x, y, w, h float64, s series) {
 	d.Cell(x, y, w, 4.5, s.title, pdfdoc.Bold.Sized(8.5), "L")
 	sub := "sweep “" + s.sweep + "”, " + plural(len(s.pts), "valid point", "valid points")
+	if d.TextWidth(s.title, pdfdoc.Bold.Sized(8.5))+d.TextWidth(sub, pdfdoc.Small)+3 > w {
+		sub = plural(len(s.pts), "valid point", "valid points") // a long title (a channel's): the legend names the sweep
+	}
 	d.Cell(x, y, w, 4.5, sub, pdfdoc.Small, "R")
 
 	// Plot area.

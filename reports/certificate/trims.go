@@ -5,6 +5,7 @@ import (
 	"strconv"
 
 	"trimline/reports/internal/pdfdoc"
+	"trimline/sequencer"
 )
 
 // trims is the table of trim codes written to the unit.
@@ -19,7 +20,8 @@ func (d *doc) trims() {
 		{Title: "Saturated", W: 26, Align: "C"},
 	}
 	var rows []pdfdoc.Row
-	for _, t := range d.rec.Trims {
+	var bands channelBands
+	for _, t := range byChannel(d, d.rec.Trims, func(t sequencer.TrimCode) string { return t.Channel }) {
 		ideal := "—"
 		if !math.IsNaN(t.Ideal) && !math.IsInf(t.Ideal, 0) {
 			ideal = strconv.FormatFloat(t.Ideal, 'f', 3, 64)
@@ -39,12 +41,9 @@ func (d *doc) trims() {
 		if t.Saturated {
 			sat = c1("yes", pdfdoc.Bold.With(pdfdoc.Fail))
 		}
-		dac := c1(dash(t.DAC), pdfdoc.Bold)
-		if t.Channel != "" {
-			dac = append(dac, pdfdoc.Span{Text: chanWord(t.Channel), St: pdfdoc.Small})
-		}
+		bands.row(len(rows), t.Channel)
 		rows = append(rows, pdfdoc.Row{
-			dac,
+			c1(dash(t.DAC), pdfdoc.Bold),
 			c1(strconv.Itoa(t.Before), pdfdoc.Body),
 			c1(ideal, pdfdoc.Body),
 			written,
@@ -53,5 +52,5 @@ func (d *doc) trims() {
 			sat,
 		})
 	}
-	d.tableSection("Trim codes written", cols, rows, nil)
+	d.tableSection("Trim codes written", cols, rows, bands.get())
 }
