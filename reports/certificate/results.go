@@ -162,10 +162,39 @@ func (d *doc) measuredCell(o limits.Outcome) pdfdoc.Cell {
 }
 
 // results is the table of every limit's outcome, as found before adjustment and
-// as left after it. Toleranced limits (with a decision) show the tolerance, the
-// acceptance interval, the zone, the TUR and the false-accept probability; limits
-// written as expressions show the expression.
+// as left after it, by stage and channel. Toleranced limits (with a decision)
+// show the tolerance, the acceptance interval, the zone, the TUR and the
+// false-accept probability; limits written as expressions show the expression.
 func (d *doc) results() {
+	t := d.resultsTable()
+	d.tableSection("Results against limits", t.cols, t.rows, t.bands)
+	if len(t.rows) == 0 {
+		return
+	}
+	if t.decided {
+		d.note("U: expanded uncertainty, k: coverage factor, νeff: effective degrees of freedom. TUR = tolerance width / 2U (“—” when one-sided or without U). " +
+			"PFA: probability that the true value lies outside the tolerance although the result was accepted.")
+	}
+	if t.turLow {
+		d.note("¹ Test uncertainty ratio below the minimum the limit file requires: the uncertainty is large against the tolerance.")
+	}
+	if t.exprs && !t.decided {
+		d.note("Each limit expression is written in the unit of its measured value.")
+	}
+}
+
+// resultsTable is the results table and what its notes must explain: whether a
+// limit is toleranced (decided), a TUR is low, a limit is an expression.
+type resultsTable struct {
+	cols                   []pdfdoc.Column
+	rows                   []pdfdoc.Row
+	bands                  []pdfdoc.Band
+	decided, turLow, exprs bool
+}
+
+// resultsTable lays out the rows of the results table: a band per stage, and
+// per channel within it when outcomes name their channel.
+func (d *doc) resultsTable() resultsTable {
 	outs := d.outcomesByStage()
 	decided := false
 	for _, o := range outs {
@@ -272,18 +301,5 @@ func (d *doc) results() {
 			rows = append(rows, pdfdoc.Row{name, meas, tol, d.zoneCell(o), tur, pfa})
 		}
 	}
-	d.tableSection("Results against limits", cols, rows, bands)
-	if len(rows) == 0 {
-		return
-	}
-	if decided {
-		d.note("U: expanded uncertainty, k: coverage factor, νeff: effective degrees of freedom. TUR = tolerance width / 2U (“—” when one-sided or without U). " +
-			"PFA: probability that the true value lies outside the tolerance although the result was accepted.")
-	}
-	if turLow {
-		d.note("¹ Test uncertainty ratio below the minimum the limit file requires: the uncertainty is large against the tolerance.")
-	}
-	if exprs && !decided {
-		d.note("Each limit expression is written in the unit of its measured value.")
-	}
+	return resultsTable{cols, rows, bands, decided, turLow, exprs}
 }

@@ -51,13 +51,14 @@ func (d *doc) retrimGroups() []retrimGroup {
 
 // retrimK is the coverage factor of a pass's expanded uncertainty: that of the
 // record's coverage probability for a normal distribution (a pass's degrees of
-// freedom are not recorded), or 2 when the record states no coverage.
+// freedom are not recorded), to three decimals as JCGM 100 Table G.2 gives it
+// (2.000 for 95.45 %, 1.960 for 95 %), or 2 when the record states no coverage.
 func (d *doc) retrimK() float64 {
 	k := uncertainty.CoverageFactor(d.rec.Coverage, math.Inf(1))
 	if !finite(k) || k <= 0 {
 		return 2
 	}
-	return k
+	return math.Round(k*1000) / 1000
 }
 
 // retrimNote is the small print under the re-trim table.
