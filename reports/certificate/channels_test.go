@@ -169,3 +169,38 @@ func TestChannelCertificateText(t *testing.T) {
 		t.Error("a gain of a current output is printed in V/V")
 	}
 }
+
+// countRecord is a one-channel unit that reports its output as counts of its
+// own converter: 0 to 10 V in, 2048 + 300 counts/V out, 0.6 count noise.
+func countRecord() *sequencer.Record {
+	rng := rand.New(rand.NewPCG(3, 200))
+	rec := passRecord()
+	rec.StimulusUnit, rec.ResponseUnit = "V", "count"
+	rec.IdealGain, rec.IdealOffset, rec.FullScale = 300, 2048, 3000
+	pre := loopSweep("pre-trim", "", sequencer.AsFound, rng, t0, 301.2, 2051.4, 0.6, 8)
+	post := loopSweep("verify", "", sequencer.AsLeft, rng, t0.Add(time.Minute), 300.02, 2048.1, 0.6, 8)
+	rec.Sweeps = []sequencer.Sweep{pre, post}
+	rec.Fits = []sequencer.FitSummary{fitSweep(pre), fitSweep(post)}
+	rec.Fits[0].Nonlinearity, rec.Fits[1].Nonlinearity = 0.4/3000, 0.3/3000
+	inf := math.Inf(1)
+	rec.Results = []sequencer.Result{
+		{Name: "post_offset", Stage: sequencer.AsLeft, Value: rec.Fits[1].Intercept - 2048, Unit: "count", Valid: true, Unc: unc(0.21, inf, 2, "GUM")},
+		{Name: "post_noise", Stage: sequencer.AsLeft, Value: rec.Fits[1].ResidualSD, Unit: "count", Valid: true, Unc: unc(0.05, 9, 2.32, "GUM")},
+	}
+	v := rec.Results[0].Value
+	rec.Outcomes = []limits.Outcome{{Name: "post_offset", Unit: "count", Uses: []string{"post_offset"}, Values: map[string]float64{"post_offset": v},
+		Decision: decide("post_offset", v, ptr(-2), ptr(2), "guarded", 1, false, 0.21, 2, inf), Pass: true}}
+	return rec
+}
+
+// A unit that reports counts: counts wherever the response is printed, the gain
+// in count/V.
+func TestCountCertificateText(t *testing.T) {
+	text := pdfText(t, render(t, countRecord(), opt))
+	requireText(t, text, "output = 300 count/V × input + 2048 counts; full scale 3000 counts",
+		"−2 … 2 counts", "error (counts)", "count/V", "accept −1.580 … 1.580 counts",
+		"Mean output, error and s are in counts")
+	if strings.Contains(text, "V/V") {
+		t.Error("a count output is printed in volts")
+	}
+}

@@ -481,7 +481,11 @@ func (d *doc) sweepPoints(ts []pointTable) {
 		}
 		d.Table(t.cols, t.rows, nil, t.groups...)
 	}
-	d.note("Error = mean output − ideal output; s is the standard deviation of the valid readings at the point.")
+	note := "Error = mean output − ideal output; s is the standard deviation of the valid readings at the point."
+	if d.resp() == qCount {
+		note += " Mean output, error and s are in counts, the numbers the unit reports."
+	}
+	d.note(note)
 }
 
 // pointCells are the six cells of one sweep point.
@@ -490,10 +494,10 @@ func (d *doc) pointCells(i int, p sequencer.Point) []pdfdoc.Cell {
 	ideal := r.IdealGain*p.Stimulus + r.IdealOffset
 	mean, errS, sd := "—", "—", "—"
 	if p.Valid > 0 {
-		mean = d.resp().format(p.Mean, 7)
-		errS = d.resp().format(p.Mean-ideal, 3)
+		mean = d.resp().cell(p.Mean, 7)
+		errS = d.resp().cell(p.Mean-ideal, 3)
 		if p.Valid > 1 {
-			sd = d.resp().format(p.SD, 2)
+			sd = d.resp().cell(p.SD, 2)
 		}
 	}
 	valid := c1(fmt.Sprintf("%d/%d", p.Valid, len(p.Readings)), pdfdoc.Body)

@@ -225,6 +225,9 @@ func fmtWithU(v, U float64, unit string) string {
 	if u == "" {
 		return fmtDec(v, dec) + " ± " + fmtDec(ur, dec)
 	}
+	if u == "counts" { // a long unit, written once
+		return fmtDec(v, dec) + " ± " + fmtDec(ur, dec) + " " + u
+	}
 	return fmtDec(v, dec) + " " + u + " ± " + fmtDec(ur, dec) + " " + u
 }
 

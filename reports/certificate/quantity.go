@@ -53,6 +53,15 @@ func (q quantity) format(v float64, digits int) string {
 	return pdfdoc.Minus(units.Format(v, string(q), digits))
 }
 
+// cell is format for a narrow table cell: counts bare (the table says they are
+// counts), the others as format writes them.
+func (q quantity) cell(v float64, digits int) string {
+	if q == qCount && finite(v) {
+		return units.FormatSig(v, digits)
+	}
+	return q.format(v, digits)
+}
+
 // countText is a number of counts with its word: "1 count", "−0.37 counts".
 func countText(n string) string {
 	if n == "1" || n == "−1" {

@@ -95,7 +95,7 @@ func TestResultUnitsAmpsAndCounts(t *testing.T) {
 		// to the same place.
 		{sequencer.Result{Value: 21.7e-3, Unit: "A", Valid: true, Unc: sequencer.Uncertainty{Expanded: 4e-6}}, "21.7000 mA ± 0.0040 mA"},
 		{sequencer.Result{Value: -0.3e-6, Unit: "A", Valid: true, Unc: sequencer.Uncertainty{Expanded: 1.1e-6}}, "−0.3 µA ± 1.1 µA"},
-		{sequencer.Result{Value: -0.37, Unit: "count", Valid: true, Unc: sequencer.Uncertainty{Expanded: 0.2}}, "−0.37 counts ± 0.20 counts"},
+		{sequencer.Result{Value: -0.37, Unit: "count", Valid: true, Unc: sequencer.Uncertainty{Expanded: 0.2}}, "−0.37 ± 0.20 counts"},
 		{sequencer.Result{Value: 12.5, Unit: "count", Valid: true}, "12.5 counts"},
 		{sequencer.Result{Value: 2101, Unit: "code", Valid: true}, "2101"},
 	} {
@@ -103,7 +103,7 @@ func TestResultUnitsAmpsAndCounts(t *testing.T) {
 			t.Errorf("fmtResultU(%v %s) = %q, want %q", c.r.Value, c.r.Unit, got, c.want)
 		}
 	}
-	if got := fmtWithU(-1.5, 0.6, "count"); got != "−1.50 counts ± 0.60 counts" { // U to two digits
+	if got := fmtWithU(-1.5, 0.6, "count"); got != "−1.50 ± 0.60 counts" { // U to two digits
 		t.Errorf("a limit in counts: %q", got)
 	}
 	if got := fmtValue(2101.4, "code"); got != "2101" {
