@@ -164,6 +164,7 @@ func TestChannelCertificateText(t *testing.T) {
 		"Before trim, as found · channel 4",
 		"Sweep “verify” (as left) · channel 2",
 		"error (µA)",
+		"Applies to limits post_offset and post_gain on 4 channels.",
 	)
 	if strings.Contains(text, " V/V") {
 		t.Error("a gain of a current output is printed in V/V")
