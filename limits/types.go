@@ -47,6 +47,7 @@ type Value struct {
 // Outcome is one limit's verdict on one unit, as stored in the run record.
 type Outcome struct {
 	Name        string             `json:"name"`
+	Channel     string             `json:"channel,omitempty"` // the channel of the results it judged; "" for the whole unit
 	Description string             `json:"description"`
 	Expr        string             `json:"expr"`
 	Unit        string             `json:"unit"`

@@ -95,20 +95,26 @@ type unitOut struct {
 	Results        []resultOut `json:"results"`
 	Limits         []limitOut  `json:"limits"`
 	TrimCodes      []trimOut   `json:"trim_codes"`
+	// Coefficients are the firmware correction coefficients written, in write
+	// order, and Retrims the passes of every closed-loop re-trim; both are left
+	// out for a product that has none.
+	Coefficients []coefficientOut `json:"coefficients,omitempty"`
+	Retrims      []retrimOut      `json:"retrims,omitempty"`
 }
 
 // resultOut is one result of a unit: a named number with its uncertainty and the
 // limits that judged it.
 type resultOut struct {
-	Name     string `json:"name"`     // as limit files name it
-	Stage    string `json:"stage"`    // as_found, adjustment or as_left
-	Step     string `json:"step"`     // the step that computed it
-	Quantity string `json:"quantity"` // what it measures (offset, gain_error, …); results of one quantity pair as found and as left
+	Name     string `json:"name"`              // as limit files name it
+	Channel  string `json:"channel,omitempty"` // the unit's channel it belongs to; left out for the whole unit (or a one-channel unit)
+	Stage    string `json:"stage"`             // as_found, adjustment or as_left
+	Step     string `json:"step"`              // the step that computed it
+	Quantity string `json:"quantity"`          // what it measures (offset, gain_error, …); results of one quantity pair as found and as left
 	Valid    bool   `json:"valid"`
 	Note     string `json:"note"` // why it is not valid
-	// Value is in SI units of Unit: "V" volts, "ratio" a plain fraction (0.001 is
-	// 0.1 % or 1000 ppm), "code" counts, "number" a plain number; null when not
-	// valid.
+	// Value is in SI units of Unit: "V" volts, "A" amperes, "count" a number the
+	// unit reports, "ratio" a plain fraction (0.001 is 0.1 % or 1000 ppm), "code"
+	// counts of a DAC, "number" a plain number; null when not valid.
 	Value *float64 `json:"value"`
 	Unit  string   `json:"unit"`
 	// StandardUncertainty, ExpandedUncertainty (U) and CoverageFactor (k, U =
@@ -134,6 +140,7 @@ type judged struct {
 // "ppm", …).
 type limitOut struct {
 	Name        string   `json:"name"`
+	Channel     string   `json:"channel,omitempty"` // the channel of the results it judged; left out for the whole unit
 	Description string   `json:"description"`
 	Uses        []string `json:"uses"` // the results it reads
 	Pass        bool     `json:"pass"`
@@ -156,12 +163,54 @@ type limitOut struct {
 // trimOut is one trim DAC's code.
 type trimOut struct {
 	DAC       string `json:"dac"`
-	Before    int    `json:"before"` // code in the DAC before trimming
-	Code      int    `json:"code"`   // code written
+	Channel   string `json:"channel,omitempty"` // left out for a one-channel unit
+	Before    int    `json:"before"`            // code in the DAC before trimming
+	Code      int    `json:"code"`              // code written
 	Readback  int    `json:"readback"`
 	Written   bool   `json:"written"`
 	Saturated bool   `json:"saturated"`
 	Stored    bool   `json:"stored"` // committed to non-volatile memory
+}
+
+// coefficientOut is one firmware correction coefficient written to a unit.
+type coefficientOut struct {
+	Name    string `json:"name"`              // as the sequence names it
+	Channel string `json:"channel,omitempty"` // left out for a one-channel unit
+	Adjusts string `json:"adjusts"`           // "gain" or "offset"
+	Format  string `json:"format"`            // the number format and text, e.g. "Q2.14 hex"
+	// Value is what the word written stands for (the fit's value rounded to the
+	// format), in Unit: the unit the firmware holds it in ("mA", "V", …), ""
+	// for a gain, a plain factor. Ideal is the fit's value before rounding and
+	// StandardUncertainty its u from the fit, in the same unit.
+	Value               *float64 `json:"value"`
+	Unit                string   `json:"unit"`
+	Ideal               *float64 `json:"ideal"`
+	StandardUncertainty *float64 `json:"standard_uncertainty"`
+	Text                string   `json:"text"`     // the word as sent to the unit
+	Written             bool     `json:"written"`  // false when the run stopped before writing it
+	Readback            string   `json:"readback"` // the unit's reply to the read command; "" when not read
+	// Match: the read-back is the written word at the format's resolution.
+	Match bool `json:"match"`
+}
+
+// retrimOut is one pass of a closed-loop re-trim of one DAC.
+type retrimOut struct {
+	Step    string `json:"step"` // the re-trim step
+	DAC     string `json:"dac"`
+	Channel string `json:"channel,omitempty"` // left out for a one-channel unit
+	Pass    int    `json:"pass"`              // 1, 2, …
+	Code    int    `json:"code"`              // code in the DAC during the pass
+	// Error is the output error measured with Code (mean over the re-trim's
+	// points) and StandardUncertainty its u, in SI units of Unit (the unit's
+	// response: "V", "A" or "count"). Sensitivity is the output change per code
+	// used to choose Next, Measured false while it is the DAC's nominal LSB.
+	Error               *float64 `json:"error"`
+	StandardUncertainty *float64 `json:"standard_uncertainty"`
+	Unit                string   `json:"unit"`
+	Sensitivity         *float64 `json:"sensitivity"`
+	Measured            bool     `json:"measured"`
+	Within              bool     `json:"within"` // the error was within the step's bound
+	Next                int      `json:"next"`   // the code written for the next pass; the code left in the DAC on the last
 }
 
 // summaryOut ends a run's output: the batch's counts. It is written when the
@@ -237,6 +286,15 @@ type verificationOut struct {
 	// exits 0.
 	Verdict string   `json:"verdict"`
 	Reasons []string `json:"reasons"` // the reasons, in words, in order
+	// Certificate, RunID and Serial are what the certificate was found to be
+	// (its number, its run and the unit's serial), "" where the check did not
+	// find it (a file that is no certificate of the ledger, a seal without a
+	// serial); SupersededBy is the number of the retest's certificate that
+	// replaced a SUPERSEDED one, else "".
+	Certificate  string `json:"certificate"`
+	RunID        string `json:"run_id"`
+	Serial       string `json:"serial"`
+	SupersededBy string `json:"superseded_by"`
 	// SealOnly: checked against the seal beside the PDF alone (--no-ledger):
 	// voids, supersedes and the chain were not checked.
 	SealOnly        bool     `json:"seal_only"`
@@ -280,7 +338,7 @@ func newUnitOut(rec *sequencer.Record, cert, certDir string) unitOut {
 		u.CertificatePDF = filepath.Join(certDir, certificate.FileName(rec, certificate.Options{Number: cert}))
 	}
 	for _, r := range rec.Results {
-		ro := resultOut{Name: r.Name, Step: r.Step, Quantity: r.QuantityOf(), Valid: r.Valid, Note: r.Note, Unit: r.Unit, JudgedBy: []judged{}}
+		ro := resultOut{Name: r.Name, Channel: r.Channel, Step: r.Step, Quantity: r.QuantityOf(), Valid: r.Valid, Note: r.Note, Unit: r.Unit, JudgedBy: []judged{}}
 		if st, err := r.StageOf().MarshalText(); err == nil {
 			ro.Stage = string(st)
 		}
@@ -291,7 +349,10 @@ func newUnitOut(rec *sequencer.Record, cert, certDir string) unitOut {
 			}
 		}
 		for _, o := range rec.Outcomes {
-			if !slices.Contains(o.Uses, r.Name) {
+			// An outcome of a channel judges that channel's results; one of the
+			// whole unit (or made before outcomes named channels) those of its
+			// names.
+			if !slices.Contains(o.Uses, r.Name) || o.Channel != "" && o.Channel != r.Channel {
 				continue
 			}
 			j := judged{Limit: o.Name, Pass: o.Pass}
@@ -306,14 +367,37 @@ func newUnitOut(rec *sequencer.Record, cert, certDir string) unitOut {
 		u.Limits = append(u.Limits, newLimitOut(o))
 	}
 	for _, t := range rec.Trims {
-		u.TrimCodes = append(u.TrimCodes, trimOut{DAC: t.DAC, Before: t.Before, Code: t.Code, Readback: t.Readback,
+		u.TrimCodes = append(u.TrimCodes, trimOut{DAC: t.DAC, Channel: t.Channel, Before: t.Before, Code: t.Code, Readback: t.Readback,
 			Written: t.Written, Saturated: t.Saturated, Stored: t.Stored})
+	}
+	for _, c := range rec.Coefficients {
+		co := coefficientOut{Name: c.Name, Channel: c.Channel, Adjusts: c.Adjusts, Format: c.Format, Unit: c.Unit,
+			Ideal: num(c.Ideal), Text: c.Text, Written: c.Written, Readback: c.Readback, Match: c.Match}
+		if c.Written {
+			co.Value = num(c.Value)
+		}
+		if c.IdealU > 0 {
+			co.StandardUncertainty = num(c.IdealU)
+		}
+		u.Coefficients = append(u.Coefficients, co)
+	}
+	resp := rec.ResponseUnit
+	if resp == "" {
+		resp = "V"
+	}
+	for _, p := range rec.Retrims {
+		ro := retrimOut{Step: p.Step, DAC: p.DAC, Channel: p.Channel, Pass: p.Pass, Code: p.Code, Error: num(p.Error), Unit: resp,
+			Sensitivity: num(p.Sensitivity), Measured: p.Measured, Within: p.Within, Next: p.Next}
+		if p.ErrorU > 0 {
+			ro.StandardUncertainty = num(p.ErrorU)
+		}
+		u.Retrims = append(u.Retrims, ro)
 	}
 	return u
 }
 
 func newLimitOut(o limits.Outcome) limitOut {
-	l := limitOut{Name: o.Name, Description: o.Description, Uses: nonNil(o.Uses), Pass: o.Pass, Reason: o.Reason, Unit: o.Unit}
+	l := limitOut{Name: o.Name, Channel: o.Channel, Description: o.Description, Uses: nonNil(o.Uses), Pass: o.Pass, Reason: o.Reason, Unit: o.Unit}
 	if d := o.Decision; d != nil {
 		l.Zone, l.Rule, l.Value, l.Lower, l.Upper = d.Zone, d.Rule, num(d.Value), d.Lower, d.Upper
 		if d.U > 0 {
@@ -336,7 +420,7 @@ func newSummaryOut(t *sequencer.Tally) summaryOut {
 
 func newVerificationOut(file string, v audit.Verdict, sealOnly bool, ledgerPath string, trustSource string, stations []string) verificationOut {
 	out := verificationOut{Kind: kindVerification, Version: jsonVersion, File: file, Verdict: strings.ToUpper(v.Kind),
-		Reasons: nonNil(v.Reasons), SealOnly: sealOnly, TrustedKeys: trustSource, TrustedStations: nonNil(stations)}
+		Reasons: nonNil(v.Reasons), Certificate: v.Number, RunID: v.RunID, Serial: v.Serial, SupersededBy: v.SupersededBy, SealOnly: sealOnly, TrustedKeys: trustSource, TrustedStations: nonNil(stations)}
 	if !sealOnly {
 		out.Ledger = ledgerPath
 	}

@@ -8,6 +8,9 @@ import (
 	"path/filepath"
 	"strings"
 	"testing"
+
+	"trimline/limits"
+	"trimline/sequencer"
 )
 
 // decodeStrict decodes one JSON object of line into v, refusing a field v does
@@ -102,7 +105,8 @@ func TestRunCheckVerifyJSON(t *testing.T) {
 	}
 	var v verificationOut
 	decodeStrict(t, out, &v)
-	if v.Kind != kindVerification || v.Verdict != "GENUINE" || len(v.Reasons) == 0 || v.SealOnly || v.Ledger == "" {
+	if v.Kind != kindVerification || v.Verdict != "GENUINE" || len(v.Reasons) == 0 || v.SealOnly || v.Ledger == "" ||
+		v.Serial != serials[len(serials)-1] || !strings.Contains(pdf, v.Certificate+"_") || v.RunID == "" || v.SupersededBy != "" {
 		t.Errorf("verify %+v", v)
 	}
 }
@@ -200,6 +204,61 @@ func TestReadmeJSONExamples(t *testing.T) {
 	for k := range types {
 		if !seen[k] {
 			t.Errorf("README's Output for scripts has no example of a %q object", k)
+		}
+	}
+}
+
+// A unit of two channels: each result and limit names its channel, a limit of
+// a channel judges only that channel's result, and the coefficients and
+// re-trim passes are listed; a record without them leaves both keys out.
+func TestUnitJSONChannelsCoefficientsRetrims(t *testing.T) {
+	rec := &sequencer.Record{Serial: "LT4-1", ResponseUnit: "A", Verdict: sequencer.Pass,
+		Results: []sequencer.Result{
+			{Name: "post_offset", Channel: "1", Stage: sequencer.AsLeft, Value: 0.5e-6, Unit: "A", Valid: true},
+			{Name: "post_offset", Channel: "2", Stage: sequencer.AsLeft, Value: 0.7e-6, Unit: "A", Valid: true},
+		},
+		Outcomes: []limits.Outcome{
+			{Name: "offset after", Channel: "1", Uses: []string{"post_offset"}, Pass: true},
+			{Name: "offset after", Channel: "2", Uses: []string{"post_offset"}, Pass: false, Reason: "too large"},
+		},
+		Trims: []sequencer.TrimCode{{Channel: "2", DAC: "offset", Code: 2110, Written: true}},
+		Coefficients: []sequencer.CoefficientWrite{{Name: "offset", Channel: "2", Adjusts: "offset", Format: "int16 decimal", Unit: "mA",
+			Ideal: -0.01304, IdealU: 0.6e-3, Value: -0.0130, Text: "-130", Resolution: 1e-4, Written: true, Readback: "0", Match: false}},
+		Retrims: []sequencer.RetrimPass{{Step: "fine offset", DAC: "offset", Channel: "2", Pass: 1, Code: 2110, Error: 2.4e-6, ErrorU: 0.2e-6,
+			Sensitivity: 1.2e-6, Next: 2108}},
+	}
+	var buf bytes.Buffer
+	writeJSON(&buf, newUnitOut(rec, "", ""))
+	var u unitOut
+	decodeStrict(t, buf.String(), &u)
+	if len(u.Results) != 2 || u.Results[1].Channel != "2" || len(u.Results[1].JudgedBy) != 1 || u.Results[1].JudgedBy[0].Pass {
+		t.Errorf("results: %+v", u.Results)
+	}
+	if len(u.Limits) != 2 || u.Limits[0].Channel != "1" || u.TrimCodes[0].Channel != "2" {
+		t.Errorf("limits %+v, trims %+v", u.Limits, u.TrimCodes)
+	}
+	c := u.Coefficients
+	if len(c) != 1 || c[0].Channel != "2" || c[0].Text != "-130" || c[0].Readback != "0" || c[0].Match || c[0].Unit != "mA" ||
+		c[0].Value == nil || *c[0].Value != -0.0130 || c[0].StandardUncertainty == nil || *c[0].StandardUncertainty != 0.6e-3 {
+		t.Errorf("coefficients: %+v", c)
+	}
+	p := u.Retrims
+	if len(p) != 1 || p[0].Unit != "A" || p[0].Error == nil || *p[0].Error != 2.4e-6 || p[0].Next != 2108 || p[0].Within {
+		t.Errorf("retrims: %+v", p)
+	}
+	line := buf.String()
+	for _, k := range []string{`"channel":"2"`, `"coefficients":[`, `"retrims":[`} {
+		if !strings.Contains(line, k) {
+			t.Errorf("the line lacks %s:\n%s", k, line)
+		}
+	}
+
+	// One channel, no coefficients, no re-trim: none of the new keys.
+	buf.Reset()
+	writeJSON(&buf, newUnitOut(&sequencer.Record{Results: []sequencer.Result{{Name: "post_offset", Unit: "V", Valid: true}}}, "", ""))
+	for _, k := range []string{`"channel"`, `"coefficients"`, `"retrims"`} {
+		if strings.Contains(buf.String(), k) {
+			t.Errorf("a one-channel unit has %s:\n%s", k, buf.String())
 		}
 	}
 }

@@ -93,6 +93,16 @@ func TestRetestRefusedUnlessAsked(t *testing.T) {
 	if code, out, _ := runCLI(t, "audit", "verify", "--keys", filepath.Join(dir, "keys"), cert("TL1-000001")); code != exitFail || !strings.HasPrefix(out, "SUPERSEDED") || !strings.Contains(out, "superseded by TL1-000002") {
 		t.Errorf("first certificate: exit %d\n%s", code, out)
 	}
+	// The same as JSON: the certificate, its serial and the one that replaced it.
+	if code, out, _ := runCLI(t, "audit", "verify", "--json", "--keys", filepath.Join(dir, "keys"), cert("TL1-000001")); code != exitFail {
+		t.Errorf("first certificate, JSON: exit %d\n%s", code, out)
+	} else {
+		var v verificationOut
+		decodeStrict(t, out, &v)
+		if v.Verdict != "SUPERSEDED" || v.Certificate != "TL1-000001" || v.Serial != "BRX-00001" || v.SupersededBy != "TL1-000002" || v.RunID != rs[2].RunID {
+			t.Errorf("first certificate, JSON: %+v (run %s)", v, rs[2].RunID)
+		}
+	}
 	if code, out, _ := runCLI(t, "audit", "verify", "--keys", filepath.Join(dir, "keys"), cert("TL1-000003")); code != exitPass || !strings.HasPrefix(out, "GENUINE") {
 		t.Errorf("current certificate: exit %d\n%s", code, out)
 	}

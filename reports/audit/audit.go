@@ -42,6 +42,12 @@ const NotChecked = "NOT CHECKED without the ledger: a seal cannot tell whether t
 type Verdict struct {
 	Kind    string
 	Reasons []string
+	// What the check found the certificate to be, as far as it got: its number,
+	// run id and serial ("" when not found, e.g. a file that is no certificate
+	// of the ledger), and for a superseded certificate the number of the
+	// certificate of the retest that replaced it.
+	Number, RunID, Serial string
+	SupersededBy          string
 }
 
 func verdict(kind string, reasons ...string) Verdict { return Verdict{Kind: kind, Reasons: reasons} }
@@ -89,6 +95,15 @@ func Verifier(keys map[string]ed25519.PublicKey) func(keyID string, msg, sig []b
 // the chain were not checked. The error is the ledger's, when it could not be
 // read.
 func Certificate(ctx context.Context, led *ledger.Ledger, ledgerName, path string, pdf []byte, t *signing.Trust) (Verdict, error) {
+	var id Verdict
+	v, err := certificateCheck(ctx, led, ledgerName, path, pdf, t, &id)
+	v.Number, v.RunID, v.Serial, v.SupersededBy = id.Number, id.RunID, id.Serial, id.SupersededBy
+	return v, err
+}
+
+// certificateCheck is Certificate; it notes in id the certificate's number, run
+// id, serial and replacement as it finds them.
+func certificateCheck(ctx context.Context, led *ledger.Ledger, ledgerName, path string, pdf []byte, t *signing.Trust, id *Verdict) (Verdict, error) {
 	sum := sha256.Sum256(pdf)
 	pdfSHA := hex.EncodeToString(sum[:])
 	number, runID, _ := certificate.Metadata(pdf)
@@ -98,7 +113,11 @@ func Certificate(ctx context.Context, led *ledger.Ledger, ledgerName, path strin
 		if number == "" {
 			number = s.Number
 		}
+		if s.Number == number {
+			id.Serial = s.Serial
+		}
 	}
+	id.Number, id.RunID = number, runID
 	if led == nil {
 		return sealOnly(path, pdf, seal, t), nil
 	}
@@ -114,10 +133,12 @@ func Certificate(ctx context.Context, led *ledger.Ledger, ledgerName, path strin
 	} else if err != nil {
 		return Verdict{}, err
 	}
+	id.Number = doc.Number
 	rec, meta, err := led.RunByCertificate(ctx, doc.Number)
 	if err != nil {
 		return verdict(Altered, "document "+doc.Number+" has no run in the ledger: "+err.Error()), nil
 	}
+	id.RunID, id.Serial = meta.RunID, rec.Serial
 	if runID != "" && runID != meta.RunID {
 		return verdict(Altered, "the PDF names run "+runID+" but certificate "+doc.Number+" belongs to run "+meta.RunID), nil
 	}
@@ -164,6 +185,7 @@ func Certificate(ctx context.Context, led *ledger.Ledger, ledgerName, path strin
 		return verdict(Voided, append(why, voidReason(st, t))...), nil
 	}
 	if st.Superseded {
+		id.SupersededBy = st.SupersededBy
 		return verdict(Superseded, append(why, fmt.Sprintf("superseded by %s: serial %s was retested on %s (run %s); this certificate is no longer current",
 			st.SupersededBy, rec.Serial, st.SupersededAt.UTC().Format("2006-01-02 15:04 UTC"), st.SupersededByRun))...), nil
 	}

@@ -14,6 +14,15 @@
 // point. Records without uncertainties (made before they were evaluated) render
 // with "U not evaluated".
 //
+// Stimuli and responses print in the record's units (Record.StimulusUnit and
+// ResponseUnit: volts, amperes with an SI prefix, or counts the unit reports),
+// gains with their unit pair (V/V, mA/V, count/V); a record in volts reads as it
+// always did. A unit of several channels has its limits banded by stage and
+// channel and its fits, plots, sweep points, codes and coefficients labelled
+// with their channel. Firmware correction coefficients (word written, value it
+// stands for, resolution, read-back) and the passes of a closed-loop re-trim
+// have a table each, shown only when the record has them.
+//
 // The document is made from the Record and the Options alone: identical inputs give
 // byte-identical files. The creation date is the record's finish time, resource
 // catalogues are sorted and no map is iterated in output order, so a certificate

@@ -505,7 +505,7 @@ func TestWriteSamples(t *testing.T) {
 		t.Skip("set CERTIFICATE_SAMPLES to a directory to write sample certificates")
 	}
 	for name, rec := range map[string]*sequencer.Record{"fail": sampleRecord(), "pass": passRecord(), "fault": faultRecord(),
-		"review": reviewRecord(), "old": oldRecord()} {
+		"review": reviewRecord(), "old": oldRecord(), "channels": channelRecord(), "counts": countRecord()} {
 		if err := certificate.WriteFile(filepath.Join(dir, "cert-"+name+".pdf"), rec, opt); err != nil {
 			t.Fatal(err)
 		}

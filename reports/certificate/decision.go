@@ -2,6 +2,7 @@ package certificate
 
 import (
 	"fmt"
+	"slices"
 	"strings"
 
 	"trimline/reports/internal/pdfdoc"
@@ -25,6 +26,16 @@ func (d *doc) decisionRule() {
 	var keys []ruleKey
 	names := map[ruleKey][]string{}
 	var exprs []string
+	// A limit of several channels is named once, and the channels it was
+	// judged on counted.
+	chans := map[ruleKey][]string{}
+	var exprChans []string
+	addChan := func(cs []string, c string) []string {
+		if c == "" || slices.Contains(cs, c) {
+			return cs
+		}
+		return append(cs, c)
+	}
 	anyCond, statements, anyU := false, false, false
 	methods := map[string]bool{}
 	for _, o := range d.outcomesByStage() {
@@ -36,7 +47,10 @@ func (d *doc) decisionRule() {
 		case o.Tolerance != nil: // a toleranced limit not measured: the rule it is under
 			k = ruleKey{o.Tolerance.Rule, o.Tolerance.GuardFactor, o.Tolerance.Binary}
 		default:
-			exprs = append(exprs, o.Name)
+			if !slices.Contains(exprs, o.Name) {
+				exprs = append(exprs, o.Name)
+			}
+			exprChans = addChan(exprChans, outcomeChannel(o))
 			continue
 		}
 		if k.rule != "guarded" {
@@ -45,7 +59,10 @@ func (d *doc) decisionRule() {
 		if _, ok := names[k]; !ok {
 			keys = append(keys, k)
 		}
-		names[k] = append(names[k], o.Name)
+		if !slices.Contains(names[k], o.Name) {
+			names[k] = append(names[k], o.Name)
+		}
+		chans[k] = addChan(chans[k], outcomeChannel(o))
 		if dd == nil {
 			continue
 		}
@@ -60,14 +77,18 @@ func (d *doc) decisionRule() {
 			}
 		}
 	}
-	list := func(ns []string) string {
+	list := func(ns, cs []string) string {
+		on := ""
+		if len(cs) > 1 {
+			on = fmt.Sprintf(" on %d channels", len(cs))
+		}
 		switch {
 		case len(ns) > 4:
-			return fmt.Sprintf("%d limits", len(ns))
+			return fmt.Sprintf("%d limits", len(ns)) + on
 		case len(ns) == 1:
-			return "limit " + ns[0]
+			return "limit " + ns[0] + on
 		}
-		return "limits " + joinAnd(ns)
+		return "limits " + joinAnd(ns) + on
 	}
 	var fs []para
 	for _, k := range keys {
@@ -86,12 +107,12 @@ func (d *doc) decisionRule() {
 		default:
 			text = fmt.Sprintf("Rule “%s” as the limit file states it (r = %s).", k.rule, fmtLimitNum(k.r))
 		}
-		fs = append(fs, para{"Rule in force", text + " Applies to " + list(names[k]) + "."})
+		fs = append(fs, para{"Rule in force", text + " Applies to " + list(names[k], chans[k]) + "."})
 	}
 	if len(exprs) > 0 {
-		text := capital(list(exprs)) + ": written as expressions, judged on the measured value alone"
+		text := capital(list(exprs, exprChans)) + ": written as expressions, judged on the measured value alone"
 		if len(exprs) == 1 {
-			text = capital(list(exprs)) + ": written as an expression, judged on the measured value alone"
+			text = capital(list(exprs, exprChans)) + ": written as an expression, judged on the measured value alone"
 		}
 		if len(keys) == 0 {
 			text += ", without regard to its uncertainty."

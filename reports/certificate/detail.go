@@ -3,6 +3,7 @@ package certificate
 import (
 	"fmt"
 	"math"
+	"slices"
 	"sort"
 	"strconv"
 	"strings"
@@ -18,8 +19,8 @@ import (
 // already overflowed) it flows on, each heading kept with its first rows.
 func (d *doc) detail() {
 	sCols, sRows := d.statements()
-	oCols, oRows := d.otherResults()
-	fCols, fRows := d.fits()
+	oCols, oRows, oBands := d.otherResults()
+	fCols, fRows, fBands := d.fits()
 	plotted, plotH := d.plotSeries()
 	pts := d.pointTables()
 
@@ -28,10 +29,10 @@ func (d *doc) detail() {
 		total += headingH + d.TableHeight(sCols, sRows, nil)
 	}
 	if len(oRows) > 0 {
-		total += headingH + d.TableHeight(oCols, oRows, nil)
+		total += headingH + d.TableHeight(oCols, oRows, oBands)
 	}
 	if len(fRows) > 0 {
-		total += headingH + d.TableHeight(fCols, fRows, nil)
+		total += headingH + d.TableHeight(fCols, fRows, fBands)
 	}
 	total += headingH + plotH
 	total += headingH + 4
@@ -46,10 +47,10 @@ func (d *doc) detail() {
 		d.tableSection("Decision statements", sCols, sRows, nil)
 	}
 	if len(oRows) > 0 {
-		d.tableSection("Other results (not judged by a limit)", oCols, oRows, nil)
+		d.tableSection("Other results (not judged by a limit)", oCols, oRows, oBands)
 	}
 	if len(fRows) > 0 {
-		d.tableSection(d.fitsTitle(), fCols, fRows, nil)
+		d.tableSection(d.fitsTitle(), fCols, fRows, fBands)
 	}
 	d.plots(plotted, plotH)
 	d.sweepPoints(pts)
@@ -64,28 +65,38 @@ func (d *doc) statements() ([]pdfdoc.Column, []pdfdoc.Row) {
 		if dd == nil || strings.TrimSpace(dd.Statement) == "" {
 			continue
 		}
-		name := pdfdoc.Cell{{Text: o.Name, St: pdfdoc.Bold}, {Text: stageWord(outcomeStage(d.rec, o)), St: pdfdoc.Small}}
+		about := stageWord(outcomeStage(d.rec, o))
+		if ch := outcomeChannel(o); ch != "" {
+			about += " · " + chanWord(ch)
+		}
+		name := pdfdoc.Cell{{Text: o.Name, St: pdfdoc.Bold}, {Text: about, St: pdfdoc.Small}}
 		rows = append(rows, pdfdoc.Row{name, c1(dd.Statement, pdfdoc.Body), d.zoneCell(o)})
 	}
 	return []pdfdoc.Column{{Title: "Limit", W: 40, Align: "L"}, {Title: "Statement", W: 116, Align: "L"}, {Title: "Decision", W: 24, Align: "C"}}, rows
 }
 
 // otherResults lists the results that no limit uses.
-func (d *doc) otherResults() ([]pdfdoc.Column, []pdfdoc.Row) {
-	used := map[string]bool{}
+func (d *doc) otherResults() ([]pdfdoc.Column, []pdfdoc.Row, []pdfdoc.Band) {
+	// An outcome of a channel uses the results of that channel; one of the
+	// whole unit (or made before outcomes named their channel) those of its
+	// names on every channel.
+	type key struct{ name, ch string }
+	used := map[key]bool{}
 	for _, o := range d.rec.Outcomes {
 		for _, u := range o.Uses {
-			used[u] = true
+			used[key{u, outcomeChannel(o)}] = true
 		}
 		for k := range o.Values {
-			used[k] = true
+			used[key{k, outcomeChannel(o)}] = true
 		}
 	}
 	var rows []pdfdoc.Row
-	for _, r := range d.rec.Results {
-		if used[r.Name] {
+	var bands channelBands
+	for _, r := range byChannel(d, d.rec.Results, func(r sequencer.Result) string { return r.Channel }) {
+		if used[key{r.Name, r.Channel}] || used[key{r.Name, ""}] {
 			continue
 		}
+		bands.row(len(rows), r.Channel)
 		st := pdfdoc.Body
 		if !r.Valid {
 			st = pdfdoc.Body.With(pdfdoc.Muted)
@@ -101,11 +112,11 @@ func (d *doc) otherResults() ([]pdfdoc.Column, []pdfdoc.Row) {
 		{Title: "Stage", W: 20, Align: "L"},
 		{Title: "Value ± U", W: 46, Align: "R"},
 		{Title: "Uncertainty · note", W: 66, Align: "L", Gap: 4},
-	}, rows
+	}, rows, bands.get()
 }
 
 // fits is the table of straight-line fits of the sweeps.
-func (d *doc) fits() ([]pdfdoc.Column, []pdfdoc.Row) {
+func (d *doc) fits() ([]pdfdoc.Column, []pdfdoc.Row, []pdfdoc.Band) {
 	r := d.rec
 	cols := []pdfdoc.Column{
 		{Title: "Sweep", W: 22, Align: "L"},
@@ -117,12 +128,15 @@ func (d *doc) fits() ([]pdfdoc.Column, []pdfdoc.Row) {
 		{Title: "Residual s", W: 24, Align: "R"},
 		{Title: "Nonlinearity", W: 24, Align: "R"},
 	}
-	perSweep := map[string]int{}
+	perSweep := map[[2]string]int{}
 	for _, f := range r.Fits {
-		perSweep[f.Sweep]++
+		perSweep[[2]string{f.Sweep, f.Channel}]++
 	}
+	resp := d.resp()
 	var rows []pdfdoc.Row
+	var bands channelBands
 	for _, f := range d.fitsByStage() {
+		bands.row(len(rows), f.Channel)
 		gainErr := "—"
 		if r.IdealGain != 0 {
 			gainErr = fmtResult(sequencer.Result{Value: f.Slope/r.IdealGain - 1, Unit: "ratio", Valid: finite(f.Slope)})
@@ -133,10 +147,10 @@ func (d *doc) fits() ([]pdfdoc.Column, []pdfdoc.Row) {
 		}
 		slope := "—"
 		if finite(f.Slope) {
-			slope = strconv.FormatFloat(f.Slope, 'g', 7, 64) + " V/V"
+			slope = gain(f.Slope, resp, d.stim())
 		}
 		about := stageWord(d.fitStage(f))
-		if perSweep[f.Sweep] > 1 && f.Step != "" {
+		if perSweep[[2]string{f.Sweep, f.Channel}] > 1 && f.Step != "" {
 			about += " · " + f.Step
 		}
 		if f.Order == 2 {
@@ -147,13 +161,13 @@ func (d *doc) fits() ([]pdfdoc.Column, []pdfdoc.Row) {
 			c1(strconv.Itoa(f.DOF), pdfdoc.Body),
 			c1(slope, pdfdoc.Body),
 			c1(gainErr, pdfdoc.Body),
-			c1(fmtVolts(f.Intercept, 7), pdfdoc.Body),
-			c1(fmtVolts(f.Intercept-r.IdealOffset, 3), pdfdoc.Body),
-			c1(fmtVolts(f.ResidualSD, 3), pdfdoc.Body),
+			c1(resp.format(f.Intercept, 7), pdfdoc.Body),
+			c1(resp.format(f.Intercept-r.IdealOffset, 3), pdfdoc.Body),
+			c1(resp.format(f.ResidualSD, 3), pdfdoc.Body),
 			c1(nl, pdfdoc.Body),
 		})
 	}
-	return cols, rows
+	return cols, rows, bands.get()
 }
 
 // fitsTitle is the heading of the fits table: "Straight-line fits" unless a fit
@@ -186,14 +200,25 @@ func sweepTitle(sw sequencer.Sweep) string {
 	if st := certStage(sw.StageOf()); st != stageOther {
 		t += " (" + stageWord(st) + ")"
 	}
+	if sw.Channel != "" {
+		t += " · " + chanWord(sw.Channel)
+	}
 	return t
 }
 
 // sweepsByStage returns the record's sweeps as found, then as left, then the
-// others, each group in record order.
+// others, each group in record order; with channels, channel by channel, so
+// that a channel's sweeps before and after trim stand side by side.
 func (d *doc) sweepsByStage() []sequencer.Sweep {
 	out := append([]sequencer.Sweep(nil), d.rec.Sweeps...)
-	sort.SliceStable(out, func(i, j int) bool { return certStage(out[i].StageOf()) < certStage(out[j].StageOf()) })
+	chans := d.channels()
+	sort.SliceStable(out, func(i, j int) bool {
+		ci, cj := chanIndex(chans, out[i].Channel), chanIndex(chans, out[j].Channel)
+		if ci != cj {
+			return ci < cj
+		}
+		return certStage(out[i].StageOf()) < certStage(out[j].StageOf())
+	})
 	return out
 }
 
@@ -207,7 +232,7 @@ func curve(sw sequencer.Sweep) bool { return len(sw.Points) > 1 }
 // in a record of schema 1.
 func (d *doc) fitStage(f sequencer.FitSummary) stage {
 	for _, sw := range d.rec.Sweeps {
-		if sw.Name == f.Sweep {
+		if sw.Name == f.Sweep && sw.Channel == f.Channel {
 			return certStage(sw.StageOf())
 		}
 	}
@@ -218,7 +243,14 @@ func (d *doc) fitStage(f sequencer.FitSummary) stage {
 // as sweepsByStage orders the sweeps.
 func (d *doc) fitsByStage() []sequencer.FitSummary {
 	out := append([]sequencer.FitSummary(nil), d.rec.Fits...)
-	sort.SliceStable(out, func(i, j int) bool { return d.fitStage(out[i]) < d.fitStage(out[j]) })
+	chans := d.channels()
+	sort.SliceStable(out, func(i, j int) bool {
+		ci, cj := chanIndex(chans, out[i].Channel), chanIndex(chans, out[j].Channel)
+		if ci != cj {
+			return ci < cj
+		}
+		return d.fitStage(out[i]) < d.fitStage(out[j])
+	})
 	return out
 }
 
@@ -227,7 +259,7 @@ func (d *doc) fitsByStage() []sequencer.FitSummary {
 func (d *doc) sweepNames(st stage) string {
 	var names []string
 	for _, sw := range d.rec.Sweeps {
-		if curve(sw) && certStage(sw.StageOf()) == st {
+		if curve(sw) && certStage(sw.StageOf()) == st && !slices.Contains(names, sw.Name) {
 			names = append(names, sw.Name)
 		}
 	}
@@ -284,6 +316,9 @@ func (d *doc) plotSeries() (ss []series, h float64) {
 			continue
 		}
 		title, label, c, m := plotLook(certStage(sw.StageOf()))
+		if sw.Channel != "" {
+			title += " · " + chanWord(sw.Channel)
+		}
 		s := series{title: title, label: label, sweep: sw.Name, pts: d.errPoints(&sw), color: c, marker: m}
 		data = data || len(s.pts) > 0
 		ss = append(ss, s)
@@ -326,8 +361,13 @@ func (d *doc) legendLines(ss []series) [][]legendEntry {
 		x += w + 8
 	}
 	st := pdfdoc.Body.Sized(7.5)
+	var seen []string
 	for _, s := range ss {
 		label := fmt.Sprintf("%s (sweep “%s”)", s.label, s.sweep)
+		if slices.Contains(seen, label) { // the same sweep of another channel
+			continue
+		}
+		seen = append(seen, label)
 		add(legendEntry{s: s, label: label}, 4.5+d.TextWidth(label, st))
 	}
 	const bar = "±1 s of the readings"
@@ -441,7 +481,11 @@ func (d *doc) sweepPoints(ts []pointTable) {
 		}
 		d.Table(t.cols, t.rows, nil, t.groups...)
 	}
-	d.note("Error = mean output − ideal output; s is the standard deviation of the valid readings at the point.")
+	note := "Error = mean output − ideal output; s is the standard deviation of the valid readings at the point."
+	if d.resp() == qCount {
+		note += " Mean output, error and s are in counts, the numbers the unit reports."
+	}
+	d.note(note)
 }
 
 // pointCells are the six cells of one sweep point.
@@ -450,10 +494,10 @@ func (d *doc) pointCells(i int, p sequencer.Point) []pdfdoc.Cell {
 	ideal := r.IdealGain*p.Stimulus + r.IdealOffset
 	mean, errS, sd := "—", "—", "—"
 	if p.Valid > 0 {
-		mean = fmtVolts(p.Mean, 7)
-		errS = fmtVolts(p.Mean-ideal, 3)
+		mean = d.resp().cell(p.Mean, 7)
+		errS = d.resp().cell(p.Mean-ideal, 3)
 		if p.Valid > 1 {
-			sd = fmtVolts(p.SD, 2)
+			sd = d.resp().cell(p.SD, 2)
 		}
 	}
 	valid := c1(fmt.Sprintf("%d/%d", p.Valid, len(p.Readings)), pdfdoc.Body)
@@ -462,7 +506,7 @@ func (d *doc) pointCells(i int, p sequencer.Point) []pdfdoc.Cell {
 	}
 	return []pdfdoc.Cell{
 		c1(strconv.Itoa(i+1), pdfdoc.Small),
-		c1(fmtVolts(p.Stimulus, 5), pdfdoc.Body),
+		c1(d.stim().format(p.Stimulus, 5), pdfdoc.Body),
 		c1(mean, pdfdoc.Body),
 		c1(errS, pdfdoc.Bold),
 		c1(sd, pdfdoc.Body),

@@ -34,6 +34,8 @@ func dispUnit(u string) string {
 		return "°C"
 	case "codes", "LSB":
 		return "code"
+	case "count", "counts":
+		return "counts"
 	}
 	for _, suffix := range []string{"ohm", "Ohm"} {
 		if p, ok := strings.CutSuffix(u, suffix); ok && len(p) == 1 {
@@ -46,10 +48,12 @@ func dispUnit(u string) string {
 	return u
 }
 
-// isCount reports whether a unit counts codes, which print as integers.
+// isCount reports whether a unit counts codes, which print as integers. (A
+// "count", a number the unit reports, is no code: a mean of counts has
+// decimals and an uncertainty.)
 func isCount(u string) bool {
 	switch strings.TrimSpace(u) {
-	case "code", "codes", "LSB", "count":
+	case "code", "codes", "LSB":
 		return true
 	}
 	return false
@@ -142,8 +146,10 @@ func fmtResult(r sequencer.Result) string {
 		return "not valid"
 	}
 	switch r.Unit {
-	case "V":
-		return pdfdoc.Minus(units.Format(r.Value, "V", 4))
+	case "V", "A":
+		return pdfdoc.Minus(units.Format(r.Value, r.Unit, 4))
+	case "count":
+		return countText(units.FormatSig(r.Value, 4))
 	case "ratio":
 		if math.Abs(r.Value) >= 0.01 {
 			return pdfdoc.Minus(strconv.FormatFloat(r.Value*100, 'f', 3, 64)) + " %"
@@ -219,6 +225,9 @@ func fmtWithU(v, U float64, unit string) string {
 	if u == "" {
 		return fmtDec(v, dec) + " ± " + fmtDec(ur, dec)
 	}
+	if u == "counts" { // a long unit, written once
+		return fmtDec(v, dec) + " ± " + fmtDec(ur, dec) + " " + u
+	}
 	return fmtDec(v, dec) + " " + u + " ± " + fmtDec(ur, dec) + " " + u
 }
 
@@ -283,20 +292,20 @@ func unitScale(unit string) float64 {
 // codes as codes.
 func resultUnit(r sequencer.Result) (string, float64) {
 	switch r.Unit {
-	case "V":
+	case "V", "A":
 		m := math.Abs(r.Value)
 		if hasU(r.Unc.Expanded) {
 			m = math.Max(m, r.Unc.Expanded)
 		}
 		switch {
 		case m >= 1 || !finite(m):
-			return "V", 1
+			return r.Unit, 1
 		case m >= 1e-3:
-			return "mV", 1e-3
+			return "m" + r.Unit, 1e-3
 		case m >= 1e-6 || m == 0:
-			return "uV", 1e-6
+			return "u" + r.Unit, 1e-6
 		}
-		return "nV", 1e-9
+		return "n" + r.Unit, 1e-9
 	case "ratio":
 		if math.Abs(r.Value) >= 0.01 {
 			return "%", 0.01

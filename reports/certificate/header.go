@@ -3,11 +3,11 @@ package certificate
 import (
 	"fmt"
 	"math"
+	"slices"
 	"strconv"
 	"strings"
 	"time"
 
-	"trimline/instruments/units"
 	"trimline/limits"
 	"trimline/reports/internal/pdfdoc"
 	"trimline/sequencer"
@@ -22,24 +22,36 @@ func (d *doc) subtitle() string {
 	var names []string
 	quantities := true
 	for _, t := range d.rec.Trims {
-		if !t.Written { // saturated, or the run stopped first: not trimmed
+		if !t.Written || slices.Contains(names, t.DAC) { // saturated, or the run stopped first: not trimmed; or another channel's
 			continue
 		}
 		names = append(names, t.DAC)
 		quantities = quantities && (t.DAC == sequencer.AdjustGain || t.DAC == sequencer.AdjustOffset)
 	}
+	coefs := slices.ContainsFunc(d.rec.Coefficients, func(c sequencer.CoefficientWrite) bool { return c.Written })
 	sub := "End-of-line test"
 	switch {
 	case len(names) > 0 && quantities:
 		sub = "End-of-line trim of " + andList(names)
 	case len(names) > 0:
 		sub = "End-of-line trim by the " + andList(names) + " " + map[bool]string{true: "DAC", false: "DACs"}[len(names) == 1]
+	case coefs:
+		sub = "End-of-line correction by firmware coefficients"
 	}
+	if coefs && len(names) > 0 {
+		sub += " and firmware coefficients"
+	}
+	if n := len(d.channels()); n > 1 && sub != "End-of-line test" {
+		sub += fmt.Sprintf(" on %d channels", n)
+	}
+	// Sweeps are counted by name: the same sweep on several channels is one.
 	found, left := 0, 0
+	var seen []string
 	for _, sw := range d.rec.Sweeps {
-		if !curve(sw) { // a single measurement verifies no transfer
+		if !curve(sw) || slices.Contains(seen, sw.Name) { // a single measurement verifies no transfer
 			continue
 		}
+		seen = append(seen, sw.Name)
 		switch certStage(sw.StageOf()) {
 		case stageFound:
 			found++
@@ -120,14 +132,15 @@ func (d *doc) identification() {
 		value string
 		st    pdfdoc.Style
 	}
-	transfer := strconv.FormatFloat(r.IdealGain, 'g', 7, 64) + " V/V × input "
+	resp := d.resp()
+	transfer := gain(r.IdealGain, resp, d.stim()) + " × input "
 	if r.IdealOffset < 0 {
-		transfer += "− " + units.Format(-r.IdealOffset, "V", 6)
+		transfer += "− " + resp.magnitude(-r.IdealOffset)
 	} else {
-		transfer += "+ " + units.Format(r.IdealOffset, "V", 6)
+		transfer += "+ " + resp.magnitude(r.IdealOffset)
 	}
 	if r.FullScale != 0 && !math.IsNaN(r.FullScale) {
-		transfer += ";  full scale " + units.Format(r.FullScale, "V", 6)
+		transfer += ";  full scale " + resp.magnitude(r.FullScale)
 	}
 	product := dash(r.Product)
 	if r.Revision != "" {

@@ -6,8 +6,9 @@ import (
 	"trimline/reports/internal/pdfdoc"
 )
 
-// xy is one plotted point: stimulus and error in volts, s the standard deviation
-// of the readings (drawn as a ±1 s bar).
+// xy is one plotted point: stimulus and error in the record's units (volts,
+// amperes or counts), s the standard deviation of the readings (drawn as a ±1 s
+// bar).
 type xy struct{ x, y, s float64 }
 
 const (
@@ -44,6 +45,9 @@ func siScale(maxAbs float64) (float64, string) {
 func (d *doc) plot(x, y, w, h float64, s series) {
 	d.Cell(x, y, w, 4.5, s.title, pdfdoc.Bold.Sized(8.5), "L")
 	sub := "sweep “" + s.sweep + "”, " + plural(len(s.pts), "valid point", "valid points")
+	if d.TextWidth(s.title, pdfdoc.Bold.Sized(8.5))+d.TextWidth(sub, pdfdoc.Small)+3 > w {
+		sub = plural(len(s.pts), "valid point", "valid points") // a long title (a channel's): the legend names the sweep
+	}
 	d.Cell(x, y, w, 4.5, sub, pdfdoc.Small, "R")
 
 	// Plot area.
@@ -67,8 +71,8 @@ func (d *doc) plot(x, y, w, h float64, s series) {
 		maxX = math.Max(maxX, math.Abs(p.x))
 		maxY = math.Max(maxY, math.Abs(p.y)+p.s)
 	}
-	fx, ux := siScale(maxX)
-	fy, uy := siScale(maxY)
+	fx, ux := d.stim().scale(maxX)
+	fy, uy := d.resp().scale(maxY)
 	xlo, xhi := math.Inf(1), math.Inf(-1)
 	ylo, yhi := 0.0, 0.0 // the zero line is always in view
 	for _, p := range s.pts {

@@ -93,10 +93,17 @@ func (d *doc) result(name string) (sequencer.Result, bool) {
 }
 
 // outcomesByStage returns the outcomes as found, then as left, then the others,
-// each group in file order.
+// each group by channel in the record's order of channels, then in file order.
 func (d *doc) outcomesByStage() []limits.Outcome {
 	out := append([]limits.Outcome(nil), d.rec.Outcomes...)
-	sort.SliceStable(out, func(i, j int) bool { return outcomeStage(d.rec, out[i]) < outcomeStage(d.rec, out[j]) })
+	chans := d.channels()
+	sort.SliceStable(out, func(i, j int) bool {
+		si, sj := outcomeStage(d.rec, out[i]), outcomeStage(d.rec, out[j])
+		if si != sj {
+			return si < sj
+		}
+		return chanIndex(chans, outcomeChannel(out[i])) < chanIndex(chans, outcomeChannel(out[j]))
+	})
 	return out
 }
 
@@ -115,7 +122,7 @@ func (d *doc) measuredCell(o limits.Outcome) pdfdoc.Cell {
 		}
 		// The decision's dof is +Inf for "infinite or unknown"; the result's own
 		// uncertainty tells them apart (math.Inf(1) for infinite).
-		r, _ := d.result(dd.Result)
+		r, _ := d.resultIn(dd.Result, outcomeChannel(o))
 		dof := float64(dd.DOF)
 		if hasU(r.Unc.Expanded) && (dof == 0 || !finite(dof)) {
 			dof = r.Unc.DOF
@@ -133,7 +140,7 @@ func (d *doc) measuredCell(o limits.Outcome) pdfdoc.Cell {
 	anyU := false
 	for _, k := range keys {
 		v := o.Values[k]
-		r, _ := d.result(k)
+		r, _ := d.resultIn(k, outcomeChannel(o))
 		U := 0.0
 		if scale > 0 && hasU(r.Unc.Expanded) {
 			U = r.Unc.Expanded / scale
@@ -155,10 +162,39 @@ func (d *doc) measuredCell(o limits.Outcome) pdfdoc.Cell {
 }
 
 // results is the table of every limit's outcome, as found before adjustment and
-// as left after it. Toleranced limits (with a decision) show the tolerance, the
-// acceptance interval, the zone, the TUR and the false-accept probability; limits
-// written as expressions show the expression.
+// as left after it, by stage and channel. Toleranced limits (with a decision)
+// show the tolerance, the acceptance interval, the zone, the TUR and the
+// false-accept probability; limits written as expressions show the expression.
 func (d *doc) results() {
+	t := d.resultsTable()
+	d.tableSection("Results against limits", t.cols, t.rows, t.bands)
+	if len(t.rows) == 0 {
+		return
+	}
+	if t.decided {
+		d.note("U: expanded uncertainty, k: coverage factor, νeff: effective degrees of freedom. TUR = tolerance width / 2U (“—” when one-sided or without U). " +
+			"PFA: probability that the true value lies outside the tolerance although the result was accepted.")
+	}
+	if t.turLow {
+		d.note("¹ Test uncertainty ratio below the minimum the limit file requires: the uncertainty is large against the tolerance.")
+	}
+	if t.exprs && !t.decided {
+		d.note("Each limit expression is written in the unit of its measured value.")
+	}
+}
+
+// resultsTable is the results table and what its notes must explain: whether a
+// limit is toleranced (decided), a TUR is low, a limit is an expression.
+type resultsTable struct {
+	cols                   []pdfdoc.Column
+	rows                   []pdfdoc.Row
+	bands                  []pdfdoc.Band
+	decided, turLow, exprs bool
+}
+
+// resultsTable lays out the rows of the results table: a band per stage, and
+// per channel within it when outcomes name their channel.
+func (d *doc) resultsTable() resultsTable {
 	outs := d.outcomesByStage()
 	decided := false
 	for _, o := range outs {
@@ -182,12 +218,20 @@ func (d *doc) results() {
 	}
 	var rows []pdfdoc.Row
 	var bands []pdfdoc.Band
-	last := stage(-1)
+	type group struct {
+		st stage
+		ch string
+	}
+	last := group{st: -1}
 	turLow, exprs := false, false
 	for _, o := range outs {
-		if st := outcomeStage(d.rec, o); st != last {
-			bands = append(bands, pdfdoc.Band{At: len(rows), Title: d.stageTitle(st)})
-			last = st
+		if g := (group{outcomeStage(d.rec, o), outcomeChannel(o)}); g != last {
+			title := d.stageTitle(g.st)
+			if g.ch != "" {
+				title += " — " + chanWord(g.ch)
+			}
+			bands = append(bands, pdfdoc.Band{At: len(rows), Title: title})
+			last = g
 		}
 		name := pdfdoc.Cell{{Text: o.Name, St: pdfdoc.Bold}}
 		if o.Description != "" {
@@ -257,18 +301,5 @@ func (d *doc) results() {
 			rows = append(rows, pdfdoc.Row{name, meas, tol, d.zoneCell(o), tur, pfa})
 		}
 	}
-	d.tableSection("Results against limits", cols, rows, bands)
-	if len(rows) == 0 {
-		return
-	}
-	if decided {
-		d.note("U: expanded uncertainty, k: coverage factor, νeff: effective degrees of freedom. TUR = tolerance width / 2U (“—” when one-sided or without U). " +
-			"PFA: probability that the true value lies outside the tolerance although the result was accepted.")
-	}
-	if turLow {
-		d.note("¹ Test uncertainty ratio below the minimum the limit file requires: the uncertainty is large against the tolerance.")
-	}
-	if exprs && !decided {
-		d.note("Each limit expression is written in the unit of its measured value.")
-	}
+	return resultsTable{cols, rows, bands, decided, turLow, exprs}
 }

@@ -23,6 +23,8 @@ func (d *doc) build() {
 	d.decisionRule()
 	d.instrumentsUsed()
 	d.trims()
+	d.coefficients()
+	d.retrims()
 	d.filesInForce()
 	d.detail()
 	d.seal()

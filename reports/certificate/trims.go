@@ -2,12 +2,16 @@ package certificate
 
 import (
 	"math"
+	"slices"
 	"strconv"
 
 	"trimline/reports/internal/pdfdoc"
+	"trimline/sequencer"
 )
 
-// trims is the table of trim codes written to the unit.
+// trims is the table of trim codes written to the unit; with channels, a first
+// column names each code's channel (a unit of four channels with one or two
+// DACs each reads better so than in bands of a row or two).
 func (d *doc) trims() {
 	cols := []pdfdoc.Column{
 		{Title: "Trim DAC", W: 30, Align: "L"},
@@ -18,8 +22,21 @@ func (d *doc) trims() {
 		{Title: "Stored", W: 24, Align: "C"},
 		{Title: "Saturated", W: 26, Align: "C"},
 	}
+	perChannel := slices.ContainsFunc(d.rec.Trims, func(t sequencer.TrimCode) bool { return t.Channel != "" })
+	if perChannel {
+		cols = []pdfdoc.Column{
+			{Title: "Channel", W: 16, Align: "L"},
+			{Title: "Trim DAC", W: 24, Align: "L"},
+			{Title: "Code before", W: 22, Align: "R"},
+			{Title: "Ideal (unrounded)", W: 28, Align: "R"},
+			{Title: "Written", W: 20, Align: "R"},
+			{Title: "Read back", W: 22, Align: "R"},
+			{Title: "Stored", W: 22, Align: "C"},
+			{Title: "Saturated", W: 26, Align: "C"},
+		}
+	}
 	var rows []pdfdoc.Row
-	for _, t := range d.rec.Trims {
+	for _, t := range byChannel(d, d.rec.Trims, func(t sequencer.TrimCode) string { return t.Channel }) {
 		ideal := "—"
 		if !math.IsNaN(t.Ideal) && !math.IsInf(t.Ideal, 0) {
 			ideal = strconv.FormatFloat(t.Ideal, 'f', 3, 64)
@@ -39,7 +56,7 @@ func (d *doc) trims() {
 		if t.Saturated {
 			sat = c1("yes", pdfdoc.Bold.With(pdfdoc.Fail))
 		}
-		rows = append(rows, pdfdoc.Row{
+		row := pdfdoc.Row{
 			c1(dash(t.DAC), pdfdoc.Bold),
 			c1(strconv.Itoa(t.Before), pdfdoc.Body),
 			c1(ideal, pdfdoc.Body),
@@ -47,7 +64,11 @@ func (d *doc) trims() {
 			rb,
 			c1(yesNo(t.Stored), pdfdoc.Body),
 			sat,
-		})
+		}
+		if perChannel {
+			row = append(pdfdoc.Row{c1(dash(t.Channel), pdfdoc.Body)}, row...)
+		}
+		rows = append(rows, row)
 	}
 	d.tableSection("Trim codes written", cols, rows, nil)
 }
