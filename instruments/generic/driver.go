@@ -116,6 +116,7 @@ const (
 	RoleSource = "source"
 	RoleMeter  = "meter"
 	RoleDUT    = "dut"
+	RoleSwitch = "switch"
 )
 
 var defaults = map[string]map[string]string{
@@ -129,20 +130,27 @@ var defaults = map[string]map[string]string{
 		"identify": "*IDN?", "reset": "*RST", "clear": "*CLS", "sync": "*OPC?", "error_query": "SYST:ERR?",
 		"configure": "CONF:VOLT:DC {range}", "set_nplc": "VOLT:DC:NPLC {nplc}", "autozero": "ZERO:AUTO ON",
 		"set_count": "SAMP:COUN {n}", "read": "READ?",
+		"function_voltage": "CONF:VOLT:DC", "function_current": "CONF:CURR:DC",
+		"configure_current": "CONF:CURR:DC {range}", "set_nplc_current": "CURR:DC:NPLC {nplc}",
 	},
 	RoleDUT: {"load_unit": ""},
+	RoleSwitch: {
+		"identify": "*IDN?", "reset": "*RST", "clear": "*CLS", "sync": "*OPC?", "error_query": "SYST:ERR?",
+		"route": "ROUT:CLOS (@{channel})", "release": "ROUT:OPEN:ALL",
+	},
 }
 
 // placeholders lists the placeholders each template may use (none if absent).
 var placeholders = map[string][]string{
 	"set_range": {"{volts}"}, "set_level": {"{volts}"}, "set_compliance": {"{amps}"},
 	"configure": {"{range}"}, "set_nplc": {"{nplc}"}, "set_count": {"{n}"}, "load_unit": {"{serial}"},
-	"arm_watchdog": {"{seconds}"},
+	"arm_watchdog": {"{seconds}"}, "configure_current": {"{range}"}, "set_nplc_current": {"{nplc}"},
+	"route": {"{channel}"},
 }
 
 // optional templates may be "" to leave the step out.
 var optional = map[string]bool{"clear": true, "sync": true, "set_range": true, "autozero": true, "load_unit": true,
-	"arm_watchdog": true, "disarm_watchdog": true}
+	"arm_watchdog": true, "disarm_watchdog": true, "function_current": true}
 
 // maxWatchdog bounds the watchdog setting.
 const maxWatchdog = time.Hour
@@ -181,6 +189,7 @@ var settingKeys = map[string][]string{
 	RoleSource: {"read_term", "write_term", "timeout", "retries", "reset", "range", "watchdog"},
 	RoleMeter:  {"read_term", "write_term", "timeout", "retries", "reset", "line_frequency"},
 	RoleDUT:    {"read_term", "write_term", "timeout", "retries"},
+	RoleSwitch: {"read_term", "write_term", "timeout", "retries", "reset"},
 }
 
 var placeholderRE = regexp.MustCompile(`\{[^{}]*\}`)
@@ -205,14 +214,16 @@ func kindRole(spec instruments.Spec) (string, error) {
 		return RoleMeter, nil
 	case instruments.KindPort:
 		return RoleDUT, nil
+	case instruments.KindSwitch:
+		return RoleSwitch, nil
 	case "":
 		if _, ok := defaults[spec.Role]; ok {
 			return spec.Role, nil
 		}
-		return "", fmt.Errorf("role %q: the generic driver opens a source, a meter or a dut", spec.Role)
+		return "", fmt.Errorf("role %q: the generic driver opens a source, a meter, a dut or a switch", spec.Role)
 	}
-	return "", fmt.Errorf("role %q: kind %q: the generic driver opens a %s, a %s or a %s", spec.Role, spec.Kind,
-		instruments.KindSource, instruments.KindMeter, instruments.KindPort)
+	return "", fmt.Errorf("role %q: kind %q: the generic driver opens a %s, a %s, a %s or a %s", spec.Role, spec.Kind,
+		instruments.KindSource, instruments.KindMeter, instruments.KindPort, instruments.KindSwitch)
 }
 
 // parseConfig validates spec and returns its configuration.
@@ -419,6 +430,10 @@ func (Driver) Open(ctx context.Context, addr *url.URL, spec instruments.Spec) (i
 		m := &Meter{base: b, lineFreq: c.lineFreq}
 		err = m.open(ctx, c.reset)
 		in = m
+	case RoleSwitch:
+		w := &Switch{base: b}
+		err = w.prepare(ctx, c.reset)
+		in = w
 	default:
 		p := &Port{base: b}
 		in = p

@@ -219,6 +219,8 @@ func Start(ctx context.Context, specs []instruments.Spec, opt Options) (*Server,
 			h = newMeterHandler(b.Meter())
 		case "dut":
 			h = &dutHandler{dut: b.DUT(), lidOpenAfter: opt.LidOpenAfter}
+		case "switch":
+			h = newSwitchHandler(b.Switch())
 		}
 		ep := &endpoint{srv: s, role: sp.Role, h: h, fault: opt.Faults[sp.Role]}
 		s.endpoints[sp.Role] = ep
