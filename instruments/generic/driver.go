@@ -1,7 +1,7 @@
 // Package generic is trimline's template-driven driver for real instruments. It
 // registers the address schemes serial, tcp and usbtmc (package transport) and opens,
-// by the spec's role, a DC source, a DC voltmeter or a DUT trim port whose command
-// text comes from templates, so that a new instrument model needs a station file
+// by the spec's kind, a DC source, a DC multimeter (voltage and current), a DUT trim
+// port or a switch (relay multiplexer) whose command text comes from templates, so that a new instrument model needs a station file
 // entry, not Go code.
 //
 // # Templates
@@ -23,12 +23,27 @@
 //	get_level       SOUR:VOLT?                 autozero    ZERO:AUTO ON
 //	set_compliance  SOUR:CURR:PROT {amps}      set_count   SAMP:COUN {n}
 //	output_on       OUTP ON                    read        READ?
-//	output_off      OUTP OFF
-//	get_output      OUTP?
-//	arm_watchdog    (none)
-//	disarm_watchdog (none)
+//	output_off      OUTP OFF                   function_voltage  CONF:VOLT:DC
+//	get_output      OUTP?                      function_current  CONF:CURR:DC
+//	arm_watchdog    (none)                     configure_current CONF:CURR:DC {range}
+//	disarm_watchdog (none)                     set_nplc_current  CURR:DC:NPLC {nplc}
 //
-// clear, sync, set_range and autozero may be set to "" to leave that step out. A
+//	switch
+//	identify, reset, clear, sync, error_query  as the meter's
+//	route           ROUT:CLOS (@{channel})
+//	release         ROUT:OPEN:ALL
+//
+// The meter implements instruments.FunctionSetter: SetFunction sends
+// function_voltage or function_current, after which Configure's range is in that
+// function's unit and a current meter is configured with configure_current and
+// set_nplc_current. function_current may be "" for a meter without a current
+// function; SetFunction(FuncCurrent) is then an error. The switch
+// (instruments.Switch) sends route with {channel} (the channel's name as the station
+// writes it) and release, each followed by a drain of the error queue; Release is
+// tried also after ctx is done.
+//
+// clear, sync, set_range, autozero and function_current may be set to "" to leave
+// that step out. A
 // source whose output can switch itself off when not kept alive gets
 // arm_watchdog, e.g. "OUTP:WATC {seconds}" ({seconds}: the watchdog setting), and
 // optionally disarm_watchdog, e.g. "OUTP:WATC OFF"; the source then also implements
@@ -44,7 +59,7 @@
 //	timeout                per exchange (e.g. "500ms", "2 s"), at most 1 min; default 2 s, or spec.Timeout
 //	retries                extra tries of an idempotent query after a timeout or a
 //	                       dropped link (0..10); default 2
-//	reset                  source and meter: true|false, clear and reset at open; true
+//	reset                  source, meter and switch: true|false, clear and reset at open; true
 //	range                  source: volts programmed with set_range at open and after Reset
 //	watchdog               source: the output watchdog's time (e.g. "5 s", at most 1 h),
 //	                       required with arm_watchdog and only with it; choose it
@@ -156,7 +171,7 @@ var optional = map[string]bool{"clear": true, "sync": true, "set_range": true, "
 const maxWatchdog = time.Hour
 
 // DefaultTemplates returns a copy of the default templates of role ("source",
-// "meter" or "dut"), nil for another role.
+// "meter", "dut" or "switch"), nil for another role.
 func DefaultTemplates(role string) map[string]string {
 	d, ok := defaults[role]
 	if !ok {

@@ -265,8 +265,9 @@ func (m *Meter) Identify(ctx context.Context) (instruments.Identity, error) {
 	return m.identify(ctx, "DV-65", "DV")
 }
 
-// Read takes n ≥ 1 readings. Each samples the DUT output at the instant it starts
-// (its Time); the clock then advances by the aperture. A reading above 1.2× the
+// Read takes n ≥ 1 readings in the present function. Each samples the meter's input
+// (the wired channel's output or the unit's supply current, see the package doc) at
+// the instant it starts (its Time); the clock then advances by the aperture. A reading above 1.2× the
 // range is FlagOverload (±OverloadValue); force_flag flags every reading. A done ctx
 // stops the readings and returns its error, wrapped.
 func (m *Meter) Read(ctx context.Context, n int) ([]instruments.Reading, error) {
