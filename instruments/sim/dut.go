@@ -56,6 +56,9 @@ var (
 // newDUT returns the fixture for settings s, compiling its command set.
 func newDUT(w wiring, s DUTSettings, lidOpen bool) (*DUT, error) {
 	c := s.card()
+	if _, err := s.Coef.resolve(c.output); err != nil {
+		return nil, err
+	}
 	p, err := compilePort(c)
 	if err != nil {
 		return nil, err

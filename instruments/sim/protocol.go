@@ -6,6 +6,7 @@ import (
 	"slices"
 	"strconv"
 	"strings"
+	"unicode/utf8"
 )
 
 // Coding is how a trim DAC's register code maps to its correction.
@@ -122,6 +123,9 @@ func compileTemplate(key, text, value string, channel bool) (template, error) {
 	if t == "LID?" {
 		return template{}, settingErr(key, "%q is the fixture's own command", text)
 	}
+	if !utf8.ValidString(t) {
+		return template{}, settingErr(key, "%q: expected UTF-8 text", text)
+	}
 	allowed := []string{}
 	if value != "" {
 		allowed = append(allowed, value)
@@ -163,7 +167,11 @@ func compileTemplate(key, text, value string, channel bool) (template, error) {
 		last = m[1]
 	}
 	b.WriteString(regexp.QuoteMeta(t[last:]) + "$")
-	tp.re = regexp.MustCompile(b.String())
+	re, err := regexp.Compile(b.String())
+	if err != nil {
+		return template{}, settingErr(key, "%q: %v", text, err)
+	}
+	tp.re = re
 	return tp, nil
 }
 
