@@ -20,13 +20,11 @@ type coefs struct {
 func (c coefs) hasGain() bool   { return c.use != "" && c.use.HasGain() }
 func (c coefs) hasOffset() bool { return c.use != "" && c.use.HasOffset() }
 
-// resolve checks the coefficient settings of a card with output kind out and
+// resolve checks the coefficient settings of a card with output kind out (also when
+// Use is "": a coefficient setting is checked even where the card has none) and
 // returns what the model uses; an error names the settings key.
 func (s Coefficients) resolve(out Output) (coefs, error) {
-	if s.Use == "" {
-		return coefs{}, nil
-	}
-	c := coefs{use: s.Use}
+	c := coefs{use: s.Use} // the settings are checked whether the card uses them or not
 	text := "decimal"
 	if s.Hex {
 		text = "hex"
@@ -36,6 +34,9 @@ func (s Coefficients) resolve(out Output) (coefs, error) {
 			name = def
 		}
 		f, err := numfmt.Parse(name, text)
+		if err == nil && f.Kind != numfmt.Scaled && scale != 0 {
+			return f, settingErr(strings.Replace(key, "_format", "_scale", 1), "a scale of one count applies only to int<bits> formats, not %s", name)
+		}
 		if err == nil && f.Kind == numfmt.Scaled {
 			if scale == 0 {
 				scale = defScale
@@ -51,7 +52,7 @@ func (s Coefficients) resolve(out Output) (coefs, error) {
 	if c.gain, err = format("coef_gain_format", s.GainFormat, s.GainScale, "Q2.14", 1e-4); err != nil {
 		return c, err
 	}
-	if lo, hi := c.gain.Range(); c.hasGain() && (1 < lo || 1 > hi) {
+	if lo, hi := c.gain.Range(); 1 < lo || 1 > hi {
 		return c, settingErr("coef_gain_format", "%s cannot hold the no-correction gain 1", c.gain)
 	}
 	unit := strings.TrimSpace(s.OffsetUnit)

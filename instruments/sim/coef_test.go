@@ -136,6 +136,9 @@ func TestCoefficientSettings(t *testing.T) {
 		{"cmd_read", "MEAS? {value}", "output", "reported"},
 		{"channels", "17", "output", "voltage"},
 		{"adc_bits", "40", "output", "reported"},
+		{"coef_offset_scale", "1 uV", "coef_offset_format", "float32"}, // a scale needs int<bits>
+		{"coef_offset_scale", "1 uV", "output", "reported"},            // counts take a plain scale
+		{"coef_offset_unit", "furlong", "coef", "offset"},
 	} {
 		_, err := sim.ParseDUTSettings(map[string]string{c.key: c.val, c.extra: c.extraVal})
 		if err == nil || !strings.Contains(err.Error(), c.key) {

@@ -221,11 +221,12 @@ func (m *Meter) Clock() instruments.Clock { return m.bench.clock }
 // and the integration time (0.001..100 PLC).
 func (m *Meter) Configure(ctx context.Context, rangeVolts, nplc float64) error {
 	m.bench.mu.Lock()
+	defer m.bench.mu.Unlock()
+	current := m.fn == instruments.FuncCurrent
 	pick := meterRange
-	if m.fn == instruments.FuncCurrent {
+	if current {
 		pick = currentRange
 	}
-	m.bench.mu.Unlock()
 	r, invalid := pick(rangeVolts)
 	if invalid == nil {
 		invalid = checkNPLC(nplc)
@@ -233,12 +234,10 @@ func (m *Meter) Configure(ctx context.Context, rangeVolts, nplc float64) error {
 	if invalid != nil {
 		invalid = fmt.Errorf("sim meter: %w", invalid)
 	}
-	m.bench.mu.Lock()
-	defer m.bench.mu.Unlock()
 	if err := m.start(ctx, "configure", invalid); err != nil {
 		return err
 	}
-	if m.fn == instruments.FuncCurrent {
+	if current {
 		m.iRng = r
 	} else {
 		m.rng = r

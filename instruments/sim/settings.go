@@ -37,7 +37,11 @@ type DUTSettings struct {
 	GainError *float64 // fraction, override: per-unit gain error; nil = drawn
 
 	// The card's design and trim port. Every zero value means the demo card's, so a
-	// DUTSettings that leaves these out describes the BRX-200.
+	// DUTSettings that leaves these out describes the BRX-200. With Output
+	// OutputCurrent the output-referred values (Gain per volt, OutputAtZero,
+	// GainPivot, the rails, and above Offset, OffsetSigma, Noise and OffsetLSB after
+	// the gain stage) are in A and the zero values mean the Current* constants;
+	// ParseDUTSettings also sets OffsetSigma, Noise and OffsetLSB to those.
 	Gain         float64    // V/V, nominal closed-loop gain, non-zero, negative if inverting; 0 = NominalGain (200)
 	OutputAtZero *float64   // V, output at zero input with no trim correction; nil = Vmid (2.5 V)
 	GainPivot    *float64   // V, output the gain trim scales about; nil = the output at zero input
@@ -710,7 +714,7 @@ func (s *DUTSettings) setters(offsetLSBSet *bool) map[string]setter {
 		},
 		"gain": func(k, val string) (err error) {
 			if s.Gain, err = plain(k, val); err == nil && (s.Gain == 0 || math.IsInf(s.Gain, 0) || math.IsNaN(s.Gain)) {
-				err = settingErr(k, "%q: expected a finite, non-zero gain in V/V", val)
+				err = settingErr(k, "%q: expected a finite, non-zero gain in V/V (A/V for a current output)", val)
 			}
 			return err
 		},
