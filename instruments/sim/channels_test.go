@@ -216,3 +216,30 @@ func TestReportedCountsClampToConverter(t *testing.T) {
 	// y = −2 V − 3.1 mV = −2.0031 V, counts = round(−2003.1) = −2003.
 	ask(t, b2.DUT(), "MEAS?", "-2003")
 }
+
+// Trim templates with {channel} address each channel's own registers, and NV STORE
+// keeps every channel's codes.
+func TestTrimTemplatesWithChannel(t *testing.T) {
+	b := bench(t, quietSource, quietMeter, with(quietDUT, "channels", "3",
+		"cmd_offset_write", "TRIM OFS {channel} {code}", "cmd_offset_read", "TRIM OFS? {channel}",
+		"cmd_gain_write", "TRIM:GAIN{channel}={code}", "cmd_gain_read", "TRIM:GAIN{channel}?"))
+	load(t, b, "TC-3")
+	d := b.DUT()
+	ask(t, d, "TRIM OFS 3 100", "OK")
+	ask(t, d, "TRIM:GAIN2=4000", "OK")
+	ask(t, d, "TRIM OFS? 3", "100")
+	ask(t, d, "TRIM OFS? 1", "2048")
+	ask(t, d, "TRIM:GAIN2?", "4000")
+	ask(t, d, "TRIM:GAIN3?", "2048")
+	ask(t, d, "TRIM OFS 4 100", "ERR channel out of range")
+	ask(t, d, "TRIM OFS? 0", "ERR channel out of range")
+	ask(t, d, "TRIM OFS 3 4096", "ERR code out of range")
+	// Only channel 1 is wired without a switch: channel 3's −1948 codes do not show
+	// (2.5031 V at zero input).
+	drive(t, b, 0, 50*time.Millisecond)
+	near(t, "channel 1 with channel 3 trimmed", read1(t, b), 2.5031, 1e-6)
+	ask(t, d, "NV STORE", "OK")
+	load(t, b, "TC-3")
+	ask(t, d, "TRIM OFS? 3", "100")
+	ask(t, d, "TRIM:GAIN2?", "4000")
+}
