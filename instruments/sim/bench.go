@@ -14,9 +14,10 @@ import (
 	"trimline/instruments"
 )
 
-// Bench is one simulated bench: up to one source, one meter, one DUT fixture and
-// one switch, wired together (the source drives the DUT input, the meter reads the
-// DUT output; with a switch, of the channel it routes), on one clock. All its instruments share one mutex, so each call is atomic; the
+// Bench is one simulated bench: up to one source, one DUT fixture and one switch and
+// any number of meters, wired together (the source drives the DUT input, a meter
+// reads the DUT output, or with probe: supply the unit's supply current; with a
+// switch, of the channel it routes), on one clock. All its instruments share one mutex, so each call is atomic; the
 // bench is meant to be driven from one goroutine at a time.
 type Bench struct {
 	mu     sync.Mutex
@@ -24,7 +25,9 @@ type Bench struct {
 	seed   uint64
 	noise  *rand.Rand // reading noise, one stream per bench
 	source *Source
-	meter  *Meter
+	meter  *Meter                   // the first meter
+	meters []*Meter                 // every meter, in the order of the specs
+	insts  []instruments.Instrument // the instrument of each spec, in order
 	dut    *DUT
 	sw     *Switch
 	route  int               // 0-based channel wired to source and meter; −1 = none (switch released)
@@ -81,9 +84,9 @@ func specModel(s instruments.Spec) (string, error) {
 }
 
 // NewBench opens a bench with one instrument per spec (at most one of each of
-// sim://source, sim://meter, sim://dut, sim://switch), wired together. Bench-wide settings (seed,
-// time, start) may appear in any spec; conflicting values give a
-// *instruments.SettingError.
+// sim://source, sim://dut and sim://switch, any number of sim://meter), wired
+// together. Bench-wide settings (seed, time, start) may appear in any spec;
+// conflicting values give a *instruments.SettingError.
 func NewBench(specs []instruments.Spec) (*Bench, error) {
 	if len(specs) == 0 {
 		return nil, errors.New("sim: a bench needs at least one instrument")
@@ -101,7 +104,7 @@ func NewBench(specs []instruments.Spec) (*Bench, error) {
 			return nil, fmt.Errorf("%s: %w", s.Address, err)
 		}
 		for j := range i {
-			if cfgs[j].model == m {
+			if cfgs[j].model == m && m != modelMeter {
 				return nil, fmt.Errorf("sim: two instruments at sim://%s on one bench", m)
 			}
 		}
@@ -147,7 +150,11 @@ func NewBench(specs []instruments.Spec) (*Bench, error) {
 		case modelSource:
 			b.source = newSource(b, c)
 		case modelMeter:
-			b.meter = newMeter(b, c)
+			m := newMeter(b, c, len(b.meters))
+			if b.meter == nil {
+				b.meter = m
+			}
+			b.meters = append(b.meters, m)
 		case modelDUT:
 			d, err := newDUT(wiring{bench: b, latency: c.latency, name: "sim dut", errClosed: errDUTClosed},
 				c.dut, c.lidOpen)
@@ -161,6 +168,20 @@ func NewBench(specs []instruments.Spec) (*Bench, error) {
 	}
 	if b.sw != nil {
 		b.route = -1 // a multiplexer powers up with every path open
+	}
+	nm := 0
+	for _, c := range cfgs {
+		switch c.model {
+		case modelSource:
+			b.insts = append(b.insts, b.source)
+		case modelMeter:
+			b.insts = append(b.insts, b.meters[nm])
+			nm++
+		case modelDUT:
+			b.insts = append(b.insts, b.dut)
+		case modelSwitch:
+			b.insts = append(b.insts, b.sw)
+		}
 	}
 	return b, nil
 }
@@ -191,8 +212,14 @@ func (b *Bench) Switch() *Switch { return b.sw }
 // Source returns the bench's source, nil if it has none.
 func (b *Bench) Source() *Source { return b.source }
 
-// Meter returns the bench's meter, nil if it has none.
+// Meter returns the bench's (first) meter, nil if it has none.
 func (b *Bench) Meter() *Meter { return b.meter }
+
+// Meters returns every meter of the bench in the order of the specs.
+func (b *Bench) Meters() []*Meter { return append([]*Meter(nil), b.meters...) }
+
+// Instrument returns the instrument opened for specs[i] of NewBench.
+func (b *Bench) Instrument(i int) instruments.Instrument { return b.insts[i] }
 
 // DUT returns the bench's DUT fixture, nil if it has none.
 func (b *Bench) DUT() *DUT { return b.dut }
@@ -209,8 +236,8 @@ func (b *Bench) Close() error {
 	if b.source != nil {
 		b.source.Close()
 	}
-	if b.meter != nil {
-		b.meter.Close()
+	for _, m := range b.meters {
+		m.Close()
 	}
 	if b.dut != nil {
 		b.dut.Close()

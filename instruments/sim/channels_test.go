@@ -243,3 +243,42 @@ func TestTrimTemplatesWithChannel(t *testing.T) {
 	ask(t, d, "TRIM OFS? 3", "100")
 	ask(t, d, "TRIM:GAIN2?", "4000")
 }
+
+// Two meters on one bench: one reads the output, the other (probe: supply) the
+// unit's supply current, each with settings and errors of its own.
+func TestTwoMeters(t *testing.T) {
+	ctx := context.Background()
+	b, err := sim.NewBench([]instruments.Spec{
+		{Role: "source", Address: "sim://source", Settings: quietSource},
+		{Role: "dmm", Address: "sim://meter", Settings: quietMeter},
+		{Role: "dut", Address: "sim://dut", Settings: quietDUT},
+		{Role: "supply", Address: "sim://meter", Settings: with(quietCurrentMeter, "probe", "supply")},
+	})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer b.Close()
+	ms := b.Meters()
+	if len(ms) != 2 || b.Instrument(1) != ms[0] || b.Instrument(3) != ms[1] || b.Meter() != ms[0] {
+		t.Fatalf("meters %v, instruments %v %v", ms, b.Instrument(1), b.Instrument(3))
+	}
+	load(t, b, "TM-1")
+	drive(t, b, 0, 50*time.Millisecond)
+	near(t, "output meter", read1(t, b), 2.5031, 1e-6)
+	ms[1].SetFunction(ctx, instruments.FuncCurrent)
+	rs, err := ms[1].Read(ctx, 1)
+	if err != nil {
+		t.Fatal(err)
+	}
+	u, _ := b.DUT().Unit()
+	near(t, "supply meter", rs[0].Value, u.SupplyCurrent, 5e-9)
+	// The second meter's errors are its own stream's: not the first meter's.
+	b2 := bench(t, nil, map[string]string{}, nil)
+	two, _ := sim.NewBench([]instruments.Spec{{Address: "sim://meter"}, {Role: "m2", Address: "sim://meter"}})
+	defer two.Close()
+	g1, _ := b2.Meter().Errors()
+	g2, _ := two.Meters()[1].Errors()
+	if g0, _ := two.Meters()[0].Errors(); g0 != g1 || g2 == g1 {
+		t.Errorf("meter gain errors: first %g (lone %g), second %g; want the first as the lone meter's, the second different", g0, g1, g2)
+	}
+}

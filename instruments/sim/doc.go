@@ -20,7 +20,11 @@
 // together (instruments.OpenAll, Driver.OpenGroup or NewBench) they form one Bench:
 // the source drives the DUT input and the meter reads the DUT output. Opened alone
 // with Driver.Open an instrument is unwired: the meter reads 0 (plus its own errors
-// and noise) and the DUT input is 0 V.
+// and noise) and the DUT input is 0 V. A bench holds at most one source, one DUT and
+// one switch but any number of meters (each spec with a role of its own), all on the
+// same wiring: one may read the output and another, with probe: supply, the unit's
+// supply current. The first meter draws its errors as a lone meter does; meter n
+// draws its own from a stream of its own.
 //
 // A card has channels: N (1 by default) channels, each its own analog chain. On a
 // bench without a switch the source and meter are wired to channel 1 (the others'

@@ -127,8 +127,11 @@ func TestAddresses(t *testing.T) {
 			t.Errorf("%s: err = %v, want one naming the four addresses", addr, err)
 		}
 	}
-	if _, err := sim.NewBench([]instruments.Spec{{Address: "sim://meter"}, {Address: "sim://meter"}}); err == nil {
-		t.Error("two meters on one bench accepted")
+	if _, err := sim.NewBench([]instruments.Spec{{Address: "sim://source"}, {Address: "sim://source"}}); err == nil {
+		t.Error("two sources on one bench accepted")
+	}
+	if _, err := sim.NewBench([]instruments.Spec{{Address: "sim://switch"}, {Address: "sim://switch"}}); err == nil {
+		t.Error("two switches on one bench accepted")
 	}
 	if _, err := sim.NewBench(nil); err == nil {
 		t.Error("empty bench accepted")

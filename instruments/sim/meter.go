@@ -5,6 +5,7 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"strconv"
 	"time"
 
 	"trimline/instruments"
@@ -94,8 +95,14 @@ func checkNPLC(n float64) error {
 	return nil
 }
 
-func newMeter(b *Bench, c config) *Meter {
-	r := streamRand("meter", b.seed)
+// newMeter returns the bench's meter number i (0-based): the first draws its errors
+// from the stream "meter", later ones from "meter#2", "meter#3", ….
+func newMeter(b *Bench, c config, i int) *Meter {
+	name := "meter"
+	if i > 0 {
+		name = "meter#" + strconv.Itoa(i+1)
+	}
+	r := streamRand(name, b.seed)
 	m := &Meter{
 		wiring: wiring{bench: b, latency: c.latency, name: "sim meter", errClosed: errMeterClosed},
 		cfg:    c.meter, uGain: uniform(r), uOffset: uniform(r), rng: c.meter.rng, nplc: c.meter.nplc,

@@ -169,8 +169,8 @@ type Server struct {
 }
 
 // Start builds one sim.Bench from specs (sim://source, sim://meter, sim://dut,
-// sim://switch addresses with their settings; at most one of each; each spec's Role names its
-// endpoint) with time: real, and serves every instrument. A spec asking for time:
+// sim://switch addresses with their settings; at most one of each but meters; each
+// spec's Role names its endpoint) with time: real, and serves every instrument. A spec asking for time:
 // simulated is an error, as is an unknown transport or a serial/usbtmc transport on
 // a system without pseudo-terminals. When ctx is done the server closes; ctx
 // cancellation does not interrupt Start itself, which does not block.
@@ -215,7 +215,7 @@ func Start(ctx context.Context, specs []instruments.Spec, opt Options) (*Server,
 	}
 	sctx, cancel := context.WithCancel(context.WithoutCancel(ctx))
 	s := &Server{bench: b, opt: opt, ctx: sctx, cancel: cancel, endpoints: map[string]*endpoint{}, addrs: map[string]string{}, models: map[string]string{}}
-	for _, sp := range local {
+	for i, sp := range local {
 		u, _ := url.Parse(sp.Address)
 		var h handler
 		model := strings.ToLower(u.Hostname())
@@ -224,7 +224,7 @@ func Start(ctx context.Context, specs []instruments.Spec, opt Options) (*Server,
 		case "source":
 			h = newSourceHandler(b.Source())
 		case "meter":
-			h = newMeterHandler(b.Meter())
+			h = newMeterHandler(b.Instrument(i).(*sim.Meter))
 		case "dut":
 			h = &dutHandler{dut: b.DUT(), lidOpenAfter: opt.LidOpenAfter}
 		case "switch":
