@@ -132,6 +132,22 @@
 // (0.2..4.8 V and 0..5 V on the demo card; inside 0.5..4.5 V the compression is
 // exactly 0).
 //
+// Settling: after each step of the DUT input at time t0 the linear output (before
+// rail) approaches its new value as exp(−(t − t0)/τ) on the bench clock. Trim writes
+// take effect at once. Noise is white, noise V rms per meter reading (not reduced by
+// NPLC).
+//
+// Units are derived by Params(serial, seed, settings): FNV-1a 64 of the serial and
+// the seed key a math/rand/v2 PCG, so the same serial and seed give the same unit.
+// The draws come in a fixed order whatever the settings; the bit errors of DAC bits
+// beyond the twelfth are drawn after all others, so a wider DAC leaves the rest of a
+// unit as the 12-bit card has it, and the supply current (supply_current, 1.2 mA,
+// times 1 + supply_current_sigma·z, σ 3 %) is drawn after those, so it changes no
+// older draw. About defect_rate (2 %) of the units carry one
+// defect: a stuck high trim-DAC bit (one of the top four bits, 8..11 of a 12-bit DAC,
+// of the offset or gain DAC the card has, stuck at 0 or 1), excess noise (×40) or an
+// open output (the meter sees ≈ 0 V + noise whatever the input).
+//
 // # Output kinds
 //
 // output: voltage (the default) is the model above. output: current is the same
@@ -185,22 +201,6 @@
 // So on Q2.14 hex "4000" is 1.0 and "4800" is 1.125. A write that is malformed or
 // outside the format answers "ERR value out of range" and leaves the register;
 // reads answer the register in the same format and text.
-//
-// Settling: after each step of the DUT input at time t0 the linear output (before
-// rail) approaches its new value as exp(−(t − t0)/τ) on the bench clock. Trim writes
-// take effect at once. Noise is white, noise V rms per meter reading (not reduced by
-// NPLC).
-//
-// Units are derived by Params(serial, seed, settings): FNV-1a 64 of the serial and
-// the seed key a math/rand/v2 PCG, so the same serial and seed give the same unit.
-// The draws come in a fixed order whatever the settings; the bit errors of DAC bits
-// beyond the twelfth are drawn after all others, so a wider DAC leaves the rest of a
-// unit as the 12-bit card has it, and the supply current (supply_current, 1.2 mA,
-// times 1 + supply_current_sigma·z, σ 3 %) is drawn after those, so it changes no
-// older draw. About defect_rate (2 %) of the units carry one
-// defect: a stuck high trim-DAC bit (one of the top four bits, 8..11 of a 12-bit DAC,
-// of the offset or gain DAC the card has, stuck at 0 or 1), excess noise (×40) or an
-// open output (the meter sees ≈ 0 V + noise whatever the input).
 //
 // # Trim port protocol
 //
