@@ -133,9 +133,9 @@
 // exactly 0).
 //
 // Settling: after each step of the DUT input at time t0 the linear output (before
-// rail) approaches its new value as exp(−(t − t0)/τ) on the bench clock. Trim writes
-// take effect at once. Noise is white, noise V rms per meter reading (not reduced by
-// NPLC).
+// rail) approaches its new value as exp(−(t − t0)/τ) on the bench clock. Trim and
+// coefficient writes take effect at once. Noise is white, noise V (A on a current
+// card) rms per reading, meter or cmd_read (not reduced by NPLC).
 //
 // Units are derived by Params(serial, seed, settings): FNV-1a 64 of the serial and
 // the seed key a math/rand/v2 PCG, so the same serial and seed give the same unit.
