@@ -1,5 +1,5 @@
-// Package conformance is a test suite every trimline driver must pass. Source, Meter
-// and TrimPort run subtests against instruments a test opens with its own open
+// Package conformance is a test suite every trimline driver must pass. Source, Meter,
+// TrimPort and Switch run subtests against instruments a test opens with its own open
 // function (called once per subtest; register cleanup with t.Cleanup there):
 // identification (if the instrument is an Identifier), set and read, rejected
 // requests and the error queue, timeouts and cancellation while blocked (when Hooks
@@ -51,6 +51,9 @@ type Hooks struct {
 	// LongRead is how many readings the cancellation subtest asks for without a
 	// Silence hook; 0 means 200.
 	LongRead int
+	// Channel is a channel a switch must route (default "1"); BadChannel one it must
+	// refuse (default "99").
+	Channel, BadChannel string
 }
 
 func hooksOf(h []Hooks) Hooks {
@@ -297,6 +300,31 @@ func Meter(t *testing.T, open func(t *testing.T) instruments.Meter, hooks ...Hoo
 			t.Fatalf("Configure after a refused request: %v", err)
 		}
 	})
+	t.Run("function", func(t *testing.T) {
+		m := open(t)
+		fs, ok := m.(instruments.FunctionSetter)
+		if !ok {
+			t.Skip("not a FunctionSetter")
+		}
+		mc, _ := m.(instruments.MeterConfigurer)
+		ctx := bgCtx(t)
+		for _, f := range []instruments.Function{instruments.FuncCurrent, instruments.FuncVoltage} {
+			if err := fs.SetFunction(ctx, f); err != nil {
+				t.Fatalf("SetFunction(%s): %v", f, err)
+			}
+			if mc != nil {
+				if err := mc.Configure(ctx, 0, 1); err != nil {
+					t.Fatalf("Configure(auto, 1 PLC) in %s: %v", f, err)
+				}
+			}
+			if rs, err := m.Read(ctx, 2); err != nil || len(rs) != 2 {
+				t.Fatalf("Read(2) in %s: %d readings, %v", f, len(rs), err)
+			}
+		}
+		if err := fs.SetFunction(ctx, "resistance"); err == nil {
+			t.Fatal("SetFunction(resistance) accepted")
+		}
+	})
 	t.Run("read", func(t *testing.T) {
 		m, ctx := open(t), bgCtx(t)
 		for _, n := range []int{1, 5, 1} {
@@ -386,6 +414,51 @@ func TrimPort(t *testing.T, open func(t *testing.T) instruments.TrimPort, hooks 
 		h.Silence(t)
 		timed(t, h, "Query", func(ctx context.Context) error { _, err := p.Query(ctx, h.Probe); return err })
 		timed(t, h, "Command", func(ctx context.Context) error { return p.Command(ctx, h.Command) })
+	})
+	t.Run("close twice", func(t *testing.T) { closeTwice(t, open(t)) })
+}
+
+// Switch runs the suite on a switch (a relay multiplexer).
+func Switch(t *testing.T, open func(t *testing.T) instruments.Switch, hooks ...Hooks) {
+	h := hooksOf(hooks)
+	if h.Channel == "" {
+		h.Channel = "1"
+	}
+	if h.BadChannel == "" {
+		h.BadChannel = "99"
+	}
+	t.Run("identify", func(t *testing.T) { identify(t, open(t)) })
+	t.Run("reset", func(t *testing.T) { reset(t, open(t)) })
+	t.Run("route", func(t *testing.T) {
+		s, ctx := open(t), bgCtx(t)
+		if err := s.Route(ctx, h.Channel); err != nil {
+			t.Fatalf("Route(%q): %v", h.Channel, err)
+		}
+		if err := s.Route(ctx, h.Channel); err != nil {
+			t.Fatalf("Route(%q) again: %v", h.Channel, err)
+		}
+		wantInstrumentError(t, h, "Route(bad channel)", s.Route(ctx, h.BadChannel))
+		if err := s.Release(ctx); err != nil {
+			t.Fatalf("Release after a refused route: %v", err)
+		}
+		if err := s.Release(ctx); err != nil {
+			t.Fatalf("Release twice: %v", err)
+		}
+		if err := s.Route(ctx, ""); err == nil {
+			t.Fatal("Route(\"\") accepted")
+		}
+	})
+	t.Run("cancel", func(t *testing.T) {
+		s := open(t)
+		preCancelled(t, "Route", func(ctx context.Context) error { return s.Route(ctx, h.Channel) })
+	})
+	t.Run("timeout", func(t *testing.T) {
+		if h.Silence == nil {
+			t.Skip("no Silence hook")
+		}
+		s := open(t)
+		h.Silence(t)
+		timed(t, h, "Route", func(ctx context.Context) error { return s.Route(ctx, h.Channel) })
 	})
 	t.Run("close twice", func(t *testing.T) { closeTwice(t, open(t)) })
 }

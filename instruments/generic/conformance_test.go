@@ -6,6 +6,7 @@ import (
 	"trimline/instruments"
 	"trimline/instruments/conformance"
 	"trimline/instruments/sim/serve"
+	"trimline/instruments/sim/simtest"
 )
 
 // TestConformance runs the conformance suite on the generic drivers against the
@@ -43,6 +44,12 @@ func TestConformance(t *testing.T) {
 					last = start(t, tr, serve.Options{})
 					return open(t, last, "dut", nil, nil).(instruments.TrimPort)
 				}, hooks("dut"))
+			})
+			t.Run("switch", func(t *testing.T) {
+				conformance.Switch(t, func(t *testing.T) instruments.Switch {
+					last = simtest.ServeSpecs(t, append(simtest.QuietSpecs(), simtest.SwitchSpec()), serve.Options{Transport: tr})
+					return open(t, last, "mux", nil, nil).(instruments.Switch)
+				}, hooks("mux"))
 			})
 		})
 	}

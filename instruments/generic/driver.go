@@ -1,7 +1,7 @@
 // Package generic is trimline's template-driven driver for real instruments. It
 // registers the address schemes serial, tcp and usbtmc (package transport) and opens,
-// by the spec's role, a DC source, a DC voltmeter or a DUT trim port whose command
-// text comes from templates, so that a new instrument model needs a station file
+// by the spec's kind, a DC source, a DC multimeter (voltage and current), a DUT trim
+// port or a switch (relay multiplexer) whose command text comes from templates, so that a new instrument model needs a station file
 // entry, not Go code.
 //
 // # Templates
@@ -23,12 +23,27 @@
 //	get_level       SOUR:VOLT?                 autozero    ZERO:AUTO ON
 //	set_compliance  SOUR:CURR:PROT {amps}      set_count   SAMP:COUN {n}
 //	output_on       OUTP ON                    read        READ?
-//	output_off      OUTP OFF
-//	get_output      OUTP?
-//	arm_watchdog    (none)
-//	disarm_watchdog (none)
+//	output_off      OUTP OFF                   function_voltage  CONF:VOLT:DC
+//	get_output      OUTP?                      function_current  CONF:CURR:DC
+//	arm_watchdog    (none)                     configure_current CONF:CURR:DC {range}
+//	disarm_watchdog (none)                     set_nplc_current  CURR:DC:NPLC {nplc}
 //
-// clear, sync, set_range and autozero may be set to "" to leave that step out. A
+//	switch
+//	identify, reset, clear, sync, error_query  as the meter's
+//	route           ROUT:CLOS (@{channel})
+//	release         ROUT:OPEN:ALL
+//
+// The meter implements instruments.FunctionSetter: SetFunction sends
+// function_voltage or function_current, after which Configure's range is in that
+// function's unit and a current meter is configured with configure_current and
+// set_nplc_current. function_current may be "" for a meter without a current
+// function; SetFunction(FuncCurrent) is then an error. The switch
+// (instruments.Switch) sends route with {channel} (the channel's name as the station
+// writes it) and release, each followed by a drain of the error queue; Release is
+// tried also after ctx is done.
+//
+// clear, sync, set_range, autozero and function_current may be set to "" to leave
+// that step out. A
 // source whose output can switch itself off when not kept alive gets
 // arm_watchdog, e.g. "OUTP:WATC {seconds}" ({seconds}: the watchdog setting), and
 // optionally disarm_watchdog, e.g. "OUTP:WATC OFF"; the source then also implements
@@ -44,7 +59,7 @@
 //	timeout                per exchange (e.g. "500ms", "2 s"), at most 1 min; default 2 s, or spec.Timeout
 //	retries                extra tries of an idempotent query after a timeout or a
 //	                       dropped link (0..10); default 2
-//	reset                  source and meter: true|false, clear and reset at open; true
+//	reset                  source, meter and switch: true|false, clear and reset at open; true
 //	range                  source: volts programmed with set_range at open and after Reset
 //	watchdog               source: the output watchdog's time (e.g. "5 s", at most 1 h),
 //	                       required with arm_watchdog and only with it; choose it
@@ -116,6 +131,7 @@ const (
 	RoleSource = "source"
 	RoleMeter  = "meter"
 	RoleDUT    = "dut"
+	RoleSwitch = "switch"
 )
 
 var defaults = map[string]map[string]string{
@@ -129,26 +145,33 @@ var defaults = map[string]map[string]string{
 		"identify": "*IDN?", "reset": "*RST", "clear": "*CLS", "sync": "*OPC?", "error_query": "SYST:ERR?",
 		"configure": "CONF:VOLT:DC {range}", "set_nplc": "VOLT:DC:NPLC {nplc}", "autozero": "ZERO:AUTO ON",
 		"set_count": "SAMP:COUN {n}", "read": "READ?",
+		"function_voltage": "CONF:VOLT:DC", "function_current": "CONF:CURR:DC",
+		"configure_current": "CONF:CURR:DC {range}", "set_nplc_current": "CURR:DC:NPLC {nplc}",
 	},
 	RoleDUT: {"load_unit": ""},
+	RoleSwitch: {
+		"identify": "*IDN?", "reset": "*RST", "clear": "*CLS", "sync": "*OPC?", "error_query": "SYST:ERR?",
+		"route": "ROUT:CLOS (@{channel})", "release": "ROUT:OPEN:ALL",
+	},
 }
 
 // placeholders lists the placeholders each template may use (none if absent).
 var placeholders = map[string][]string{
 	"set_range": {"{volts}"}, "set_level": {"{volts}"}, "set_compliance": {"{amps}"},
 	"configure": {"{range}"}, "set_nplc": {"{nplc}"}, "set_count": {"{n}"}, "load_unit": {"{serial}"},
-	"arm_watchdog": {"{seconds}"},
+	"arm_watchdog": {"{seconds}"}, "configure_current": {"{range}"}, "set_nplc_current": {"{nplc}"},
+	"route": {"{channel}"},
 }
 
 // optional templates may be "" to leave the step out.
 var optional = map[string]bool{"clear": true, "sync": true, "set_range": true, "autozero": true, "load_unit": true,
-	"arm_watchdog": true, "disarm_watchdog": true}
+	"arm_watchdog": true, "disarm_watchdog": true, "function_current": true}
 
 // maxWatchdog bounds the watchdog setting.
 const maxWatchdog = time.Hour
 
 // DefaultTemplates returns a copy of the default templates of role ("source",
-// "meter" or "dut"), nil for another role.
+// "meter", "dut" or "switch"), nil for another role.
 func DefaultTemplates(role string) map[string]string {
 	d, ok := defaults[role]
 	if !ok {
@@ -181,6 +204,7 @@ var settingKeys = map[string][]string{
 	RoleSource: {"read_term", "write_term", "timeout", "retries", "reset", "range", "watchdog"},
 	RoleMeter:  {"read_term", "write_term", "timeout", "retries", "reset", "line_frequency"},
 	RoleDUT:    {"read_term", "write_term", "timeout", "retries"},
+	RoleSwitch: {"read_term", "write_term", "timeout", "retries", "reset"},
 }
 
 var placeholderRE = regexp.MustCompile(`\{[^{}]*\}`)
@@ -205,14 +229,16 @@ func kindRole(spec instruments.Spec) (string, error) {
 		return RoleMeter, nil
 	case instruments.KindPort:
 		return RoleDUT, nil
+	case instruments.KindSwitch:
+		return RoleSwitch, nil
 	case "":
 		if _, ok := defaults[spec.Role]; ok {
 			return spec.Role, nil
 		}
-		return "", fmt.Errorf("role %q: the generic driver opens a source, a meter or a dut", spec.Role)
+		return "", fmt.Errorf("role %q: the generic driver opens a source, a meter, a dut or a switch", spec.Role)
 	}
-	return "", fmt.Errorf("role %q: kind %q: the generic driver opens a %s, a %s or a %s", spec.Role, spec.Kind,
-		instruments.KindSource, instruments.KindMeter, instruments.KindPort)
+	return "", fmt.Errorf("role %q: kind %q: the generic driver opens a %s, a %s, a %s or a %s", spec.Role, spec.Kind,
+		instruments.KindSource, instruments.KindMeter, instruments.KindPort, instruments.KindSwitch)
 }
 
 // parseConfig validates spec and returns its configuration.
@@ -419,6 +445,10 @@ func (Driver) Open(ctx context.Context, addr *url.URL, spec instruments.Spec) (i
 		m := &Meter{base: b, lineFreq: c.lineFreq}
 		err = m.open(ctx, c.reset)
 		in = m
+	case RoleSwitch:
+		w := &Switch{base: b}
+		err = w.prepare(ctx, c.reset)
+		in = w
 	default:
 		p := &Port{base: b}
 		in = p

@@ -37,6 +37,9 @@ func open(t *testing.T, srv *serve.Server, role string, settings, templates map[
 		s[k] = v
 	}
 	spec := instruments.Spec{Role: role, Address: addr, Settings: s, Templates: templates, Timeout: testTimeout}
+	if role == "mux" { // simtest.SwitchSpec's role
+		spec.Kind = instruments.KindSwitch
+	}
 	if err := drv.(instruments.SettingsChecker).CheckSettings(spec); err != nil {
 		t.Fatal(err)
 	}

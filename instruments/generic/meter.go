@@ -21,8 +21,9 @@ type Meter struct {
 	lineFreq float64 // Hz, sizes the read timeout
 
 	mu     sync.Mutex
-	nplc   float64 // last programmed; 0 = unknown
-	count  int     // last programmed sample count; 0 = unknown
+	nplc   float64              // last programmed; 0 = unknown
+	count  int                  // last programmed sample count; 0 = unknown
+	fn     instruments.Function // last selected; "" = voltage (the power-on function)
 	closed bool
 	clock  instruments.Clock
 }
@@ -33,6 +34,7 @@ var (
 	_ instruments.Resetter        = (*Meter)(nil)
 	_ instruments.MeterConfigurer = (*Meter)(nil)
 	_ instruments.ErrorQueue      = (*Meter)(nil)
+	_ instruments.FunctionSetter  = (*Meter)(nil)
 	_ Querier                     = (*Meter)(nil)
 )
 
@@ -55,17 +57,49 @@ func (m *Meter) CheckErrors(ctx context.Context) error { return m.checkErrors(ct
 // and programmed again when needed.
 func (m *Meter) Reset(ctx context.Context) error {
 	m.mu.Lock()
-	m.count, m.nplc = 0, 0
+	m.count, m.nplc, m.fn = 0, 0, ""
 	m.mu.Unlock()
 	return m.prepare(ctx, true)
 }
 
+// SetFunction selects what later reads measure: FuncVoltage sends function_voltage
+// (CONF:VOLT:DC), FuncCurrent function_current (CONF:CURR:DC), then drains the error
+// queue. The SCPI CONFigure commands also set autorange and may reset the trigger
+// system, so call Configure after. Configure's range is then in the function's unit
+// (volts or amperes) and it uses configure_current and set_nplc_current for current.
+// A meter without a current function has function_current set to "": FuncCurrent is
+// then an error.
+func (m *Meter) SetFunction(ctx context.Context, f instruments.Function) error {
+	name := map[instruments.Function]string{instruments.FuncVoltage: "function_voltage", instruments.FuncCurrent: "function_current"}[f]
+	switch {
+	case name == "":
+		return fmt.Errorf("%s: function %q: expected %s or %s", m.addr, f, instruments.FuncVoltage, instruments.FuncCurrent)
+	case m.tpl[name] == "":
+		return fmt.Errorf("%s: function %s: the meter has none (templates.%s is empty)", m.addr, f, name)
+	}
+	if err := m.exec(ctx, name); err != nil {
+		return err
+	}
+	m.mu.Lock()
+	m.fn, m.count = f, 0
+	m.mu.Unlock()
+	return nil
+}
+
 // Configure sends configure with the range in volts ("AUTO" for 0), set_nplc with
 // the integration time in power-line cycles, and autozero (unless ""), draining the
-// error queue after each.
+// error queue after each. After SetFunction(FuncCurrent) the range is in amperes and
+// configure_current and set_nplc_current are sent instead.
 func (m *Meter) Configure(ctx context.Context, rangeVolts, nplc float64) error {
+	m.mu.Lock()
+	current := m.fn == instruments.FuncCurrent
+	m.mu.Unlock()
+	configure, setNPLC, unit := "configure", "set_nplc", "V"
+	if current {
+		configure, setNPLC, unit = "configure_current", "set_nplc_current", "A"
+	}
 	if !finite(rangeVolts) || rangeVolts < 0 {
-		return fmt.Errorf("%s: range %g V: expected 0 (auto) or a positive voltage", m.addr, rangeVolts)
+		return fmt.Errorf("%s: range %g %s: expected 0 (auto) or a positive range", m.addr, rangeVolts, unit)
 	}
 	if !finite(nplc) || nplc <= 0 {
 		return fmt.Errorf("%s: nplc %g: expected a positive number of power-line cycles", m.addr, nplc)
@@ -74,13 +108,13 @@ func (m *Meter) Configure(ctx context.Context, rangeVolts, nplc float64) error {
 	if rangeVolts > 0 {
 		r = num(rangeVolts)
 	}
-	if err := m.exec(ctx, "configure", "{range}", r); err != nil {
+	if err := m.exec(ctx, configure, "{range}", r); err != nil {
 		return err
 	}
 	m.mu.Lock()
 	m.count = 0 // a configure may reset the trigger system
 	m.mu.Unlock()
-	if err := m.exec(ctx, "set_nplc", "{nplc}", num(nplc)); err != nil {
+	if err := m.exec(ctx, setNPLC, "{nplc}", num(nplc)); err != nil {
 		return err
 	}
 	m.mu.Lock()

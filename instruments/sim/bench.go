@@ -14,9 +14,10 @@ import (
 	"trimline/instruments"
 )
 
-// Bench is one simulated bench: up to one source, one meter and one DUT fixture,
-// wired together (the source drives the DUT input, the meter reads the DUT output),
-// on one clock. All its instruments share one mutex, so each call is atomic; the
+// Bench is one simulated bench: up to one source, one DUT fixture and one switch and
+// any number of meters, wired together (the source drives the DUT input, a meter
+// reads the DUT output, or with probe: supply the unit's supply current; with a
+// switch, of the channel it routes), on one clock. All its instruments share one mutex, so each call is atomic; the
 // bench is meant to be driven from one goroutine at a time.
 type Bench struct {
 	mu     sync.Mutex
@@ -24,9 +25,13 @@ type Bench struct {
 	seed   uint64
 	noise  *rand.Rand // reading noise, one stream per bench
 	source *Source
-	meter  *Meter
+	meter  *Meter                   // the first meter
+	meters []*Meter                 // every meter, in the order of the specs
+	insts  []instruments.Instrument // the instrument of each spec, in order
 	dut    *DUT
-	stored map[string][2]int // serial → NV-stored {offset, gain} codes
+	sw     *Switch
+	route  int               // 0-based channel wired to source and meter; −1 = none (switch released)
+	stored map[string]stored // serial → what the unit stored in non-volatile memory
 }
 
 // virtualClock is simulated time: Sleep advances it at once.
@@ -58,13 +63,13 @@ func (c *virtualClock) Sleep(ctx context.Context, d time.Duration) error {
 
 // model returns the instrument model an address names: "source", "meter" or "dut".
 func model(addr *url.URL) (string, error) {
-	bad := fmt.Errorf("address %q: expected sim://source, sim://meter or sim://dut", addr.String())
+	bad := fmt.Errorf("address %q: expected sim://source, sim://meter, sim://dut or sim://switch", addr.String())
 	if addr.Scheme != "sim" || addr.Opaque != "" || addr.User != nil || addr.Port() != "" ||
 		(addr.Path != "" && addr.Path != "/") || addr.RawQuery != "" || addr.Fragment != "" {
 		return "", bad
 	}
 	switch h := strings.ToLower(addr.Hostname()); h {
-	case modelSource, modelMeter, modelDUT:
+	case modelSource, modelMeter, modelDUT, modelSwitch:
 		return h, nil
 	}
 	return "", bad
@@ -79,9 +84,9 @@ func specModel(s instruments.Spec) (string, error) {
 }
 
 // NewBench opens a bench with one instrument per spec (at most one of each of
-// sim://source, sim://meter, sim://dut), wired together. Bench-wide settings (seed,
-// time, start) may appear in any spec; conflicting values give a
-// *instruments.SettingError.
+// sim://source, sim://dut and sim://switch, any number of sim://meter), wired
+// together. Bench-wide settings (seed, time, start) may appear in any spec;
+// conflicting values give a *instruments.SettingError.
 func NewBench(specs []instruments.Spec) (*Bench, error) {
 	if len(specs) == 0 {
 		return nil, errors.New("sim: a bench needs at least one instrument")
@@ -99,7 +104,7 @@ func NewBench(specs []instruments.Spec) (*Bench, error) {
 			return nil, fmt.Errorf("%s: %w", s.Address, err)
 		}
 		for j := range i {
-			if cfgs[j].model == m {
+			if cfgs[j].model == m && m != modelMeter {
 				return nil, fmt.Errorf("sim: two instruments at sim://%s on one bench", m)
 			}
 		}
@@ -131,7 +136,7 @@ func NewBench(specs []instruments.Spec) (*Bench, error) {
 	if bk.seedSet {
 		seed = bk.seed
 	}
-	b := &Bench{seed: seed, noise: streamRand("noise", seed), stored: map[string][2]int{}}
+	b := &Bench{seed: seed, noise: streamRand("noise", seed), stored: map[string]stored{}}
 	switch {
 	case bk.real:
 		b.clock = instruments.RealClock{}
@@ -145,7 +150,11 @@ func NewBench(specs []instruments.Spec) (*Bench, error) {
 		case modelSource:
 			b.source = newSource(b, c)
 		case modelMeter:
-			b.meter = newMeter(b, c)
+			m := newMeter(b, c, len(b.meters))
+			if b.meter == nil {
+				b.meter = m
+			}
+			b.meters = append(b.meters, m)
 		case modelDUT:
 			d, err := newDUT(wiring{bench: b, latency: c.latency, name: "sim dut", errClosed: errDUTClosed},
 				c.dut, c.lidOpen)
@@ -153,6 +162,25 @@ func NewBench(specs []instruments.Spec) (*Bench, error) {
 				return nil, err
 			}
 			b.dut = d
+		case modelSwitch:
+			b.sw = &Switch{wiring: wiring{bench: b, latency: c.latency, name: "sim switch", errClosed: errSwitchClosed}}
+		}
+	}
+	if b.sw != nil {
+		b.route = -1 // a multiplexer powers up with every path open
+	}
+	nm := 0
+	for _, c := range cfgs {
+		switch c.model {
+		case modelSource:
+			b.insts = append(b.insts, b.source)
+		case modelMeter:
+			b.insts = append(b.insts, b.meters[nm])
+			nm++
+		case modelDUT:
+			b.insts = append(b.insts, b.dut)
+		case modelSwitch:
+			b.insts = append(b.insts, b.sw)
 		}
 	}
 	return b, nil
@@ -172,15 +200,26 @@ func (b *Bench) instrument(s instruments.Spec) instruments.Instrument {
 		return b.source
 	case modelMeter:
 		return b.meter
+	case modelSwitch:
+		return b.sw
 	}
 	return b.dut
 }
 
+// Switch returns the bench's switch, nil if it has none.
+func (b *Bench) Switch() *Switch { return b.sw }
+
 // Source returns the bench's source, nil if it has none.
 func (b *Bench) Source() *Source { return b.source }
 
-// Meter returns the bench's meter, nil if it has none.
+// Meter returns the bench's (first) meter, nil if it has none.
 func (b *Bench) Meter() *Meter { return b.meter }
+
+// Meters returns every meter of the bench in the order of the specs.
+func (b *Bench) Meters() []*Meter { return append([]*Meter(nil), b.meters...) }
+
+// Instrument returns the instrument opened for specs[i] of NewBench.
+func (b *Bench) Instrument(i int) instruments.Instrument { return b.insts[i] }
 
 // DUT returns the bench's DUT fixture, nil if it has none.
 func (b *Bench) DUT() *DUT { return b.dut }
@@ -197,11 +236,14 @@ func (b *Bench) Close() error {
 	if b.source != nil {
 		b.source.Close()
 	}
-	if b.meter != nil {
-		b.meter.Close()
+	for _, m := range b.meters {
+		m.Close()
 	}
 	if b.dut != nil {
 		b.dut.Close()
+	}
+	if b.sw != nil {
+		b.sw.Close()
 	}
 	return nil
 }
@@ -266,8 +308,9 @@ func (b *Bench) watchdog() {
 	}
 }
 
-// dutInput returns the noiseless voltage in V at the DUT input: the source's actual
-// output when it is on, else 0 V (the fixture relay shorts the input).
+// dutInput returns the noiseless voltage in V the source puts on the DUT input it
+// is wired to: its actual output when it is on, else 0 V (the fixture relay shorts
+// the input).
 func (b *Bench) dutInput() float64 {
 	if b.source == nil {
 		return 0
@@ -275,25 +318,71 @@ func (b *Bench) dutInput() float64 {
 	return b.source.actual()
 }
 
-// inputChanged tells the DUT that its input went from old to the present value at
-// the present time, so it settles towards the new value.
-func (b *Bench) inputChanged(old float64) {
+// wired reports whether channel k (0-based) is wired to the source and the meter:
+// channel 1 on a bench without a switch, else the channel the switch routes.
+func (b *Bench) wired(k int) bool {
+	if b.sw == nil {
+		return k == 0
+	}
+	return b.route == k
+}
+
+// inputs returns the noiseless input of every channel of the card in V: the source's
+// on the wired channel, 0 V (shorted) on the others. Nil without a DUT.
+func (b *Bench) inputs() []float64 {
+	if b.dut == nil {
+		return nil
+	}
+	in := make([]float64, b.dut.card.channels)
+	for k := range in {
+		if b.wired(k) {
+			in[k] = b.dutInput()
+		}
+	}
+	return in
+}
+
+// inputsChanged tells the DUT that its channels' inputs went from old (inputs()
+// before the change) to the present values at time t, so they settle.
+func (b *Bench) inputsChanged(t time.Time, old []float64) {
 	if b.dut != nil {
-		b.dut.step(b.clock.Now(), old, b.dutInput())
+		b.dut.step(t, old, b.inputs())
 	}
 }
 
-// output returns the DUT output in V as the meter sees it at time t, with source and
-// DUT noise: 0 V when the bench has no DUT or the fixture is empty.
-func (b *Bench) output(t time.Time) float64 {
+// sample returns channel k's (0-based) output at time t, with source noise on a
+// wired channel and DUT noise. The fixture must hold a unit.
+func (b *Bench) sample(t time.Time, k int) float64 {
+	x := 0.0
+	if b.wired(k) {
+		x = b.dutInput()
+		if b.source != nil && b.source.on {
+			x += b.source.noise * b.noise.NormFloat64()
+		}
+	}
+	return b.dut.output(t, k, x, b.noise.NormFloat64())
+}
+
+// probe returns what the meter's input sees at time t when it measures f: with
+// probe: output the wired channel's output if the card's output is of f's kind
+// (a voltage card in FuncVoltage, a current card in FuncCurrent), else 0; with
+// probe: supply the unit's supply current in FuncCurrent and 0 V in FuncVoltage.
+// 0 when the bench has no DUT, the fixture is empty or no channel is routed.
+func (b *Bench) probe(t time.Time, f instruments.Function, supply bool) float64 {
 	if b.dut == nil || !b.dut.loaded {
 		return 0
 	}
-	x := b.dutInput()
-	if b.source != nil && b.source.on {
-		x += b.source.noise * b.noise.NormFloat64()
+	if supply {
+		if f == instruments.FuncCurrent {
+			return b.dut.chans[0].unit.SupplyCurrent
+		}
+		return 0
 	}
-	return b.dut.output(t, x, b.noise.NormFloat64())
+	out := b.dut.card.output
+	if b.route < 0 || (out == OutputVoltage) != (f == instruments.FuncVoltage) || out == OutputReported {
+		return 0
+	}
+	return b.sample(t, b.route)
 }
 
 // uniform returns a value drawn uniformly in ±0.6 (the share of a spec inside which

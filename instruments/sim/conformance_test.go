@@ -29,6 +29,11 @@ func TestConformanceSimulatedTime(t *testing.T) {
 	t.Run("dut", func(t *testing.T) {
 		conformance.TrimPort(t, func(t *testing.T) instruments.TrimPort { return openBench(t).DUT() }, simHooks)
 	})
+	t.Run("switch", func(t *testing.T) {
+		conformance.Switch(t, func(t *testing.T) instruments.Switch {
+			return switchBench(t, quietMeter, with(quietDUT, "channels", "4")).Switch()
+		}, simHooks)
+	})
 }
 
 // TestConformanceRealTime runs the meter suite with time: real, where a long read

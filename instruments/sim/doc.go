@@ -1,23 +1,40 @@
 // Package sim is a simulated bench that behaves like hardware: a DC voltage source,
-// a 6½-digit voltmeter and a fixture holding an amplifier card with trim DACs. The
-// card is configurable (gain, output at zero, rails, which trim DACs it has, their
-// widths and codings, how the port writes codes, the port's commands and lock);
+// a 6½-digit multimeter (DC voltage and current), a fixture holding an amplifier
+// card with trim DACs, and a relay multiplexer. The card is configurable (gain,
+// output at zero, rails, a voltage, 4–20 mA current or digitised output, one to 16
+// channels, which trim DACs it has, their widths and codings, firmware correction
+// coefficients, how the port writes codes, the port's commands and lock);
 // every setting defaults to the demo product, the BRX-200 bridge (load-cell)
 // amplifier card. It registers the address scheme "sim".
 //
 // All names here (the maker "Trimline Sim", the VS-100M source, the DV-65 meter, the
-// BRX-200 card) are invented; no value is taken from a real datasheet.
+// RM-16 multiplexer, the BRX-200 card) are invented; no value is taken from a real
+// datasheet.
 //
 // Package sim/serve puts a bench on a real wire (loopback TCP, pseudo-terminals) for
 // the serial, tcp and usbtmc drivers.
 //
 // # Addresses and wiring
 //
-// sim://source, sim://meter and sim://dut name the three models. Opened together
-// (instruments.OpenAll, Driver.OpenGroup or NewBench) they form one Bench: the source
-// drives the DUT input and the meter reads the DUT output. Opened alone with
-// Driver.Open an instrument is unwired: the meter reads 0 V (plus its own errors and
-// noise) and the DUT input is 0 V.
+// sim://source, sim://meter, sim://dut and sim://switch name the four models. Opened
+// together (instruments.OpenAll, Driver.OpenGroup or NewBench) they form one Bench:
+// the source drives the DUT input and the meter reads the DUT output. Opened alone
+// with Driver.Open an instrument is unwired: the meter reads 0 (plus its own errors
+// and noise) and the DUT input is 0 V. A bench holds at most one source, one DUT and
+// one switch but any number of meters (each spec with a role of its own), all on the
+// same wiring: one may read the output and another, with probe: supply, the unit's
+// supply current. The first meter draws its errors as a lone meter does; meter n
+// draws its own from a stream of its own.
+//
+// A card has channels: N (1 by default) channels, each its own analog chain. On a
+// bench without a switch the source and meter are wired to channel 1 (the others'
+// inputs are shorted to 0 V). With sim://switch on the bench (a relay multiplexer,
+// instruments.Switch) Route("k") connects the source to channel k's input and
+// channel k's output to the meter and shorts every other input to 0 V; Release
+// opens every path: every input is shorted and the meter reads ≈ 0 (its own offset
+// and noise). The switch powers up released. Channels are named "1".."N"; another
+// name is an error (1..16 without a DUT on the bench). A routing change is a step
+// of the inputs it moves, which the channels settle after as after a source step.
 //
 // # Time
 //
@@ -46,18 +63,35 @@
 //
 // # Meter
 //
-// A reading samples the DUT output at the instant the reading starts (its Time), then
-// the clock advances by the aperture. reading = y·(1 + g) + o + n, quantised to the
-// resolution (range·1e-7 by default: 1 µV on the 10 V range). g and o (o in ppm of the
-// present range) are drawn like the source's; n is white noise of rms noise/√NPLC.
-// |reading| > 1.2·range gives FlagOverload with ±9.9e37; force_flag flags every
-// reading. Ranges are 0.1, 1, 10, 100 and 1000 V; 0 = auto = 10 V.
+// The meter measures DC voltage (FuncVoltage, the power-on function) or DC current
+// (FuncCurrent, readings in A; instruments.FunctionSetter). A reading samples its
+// input at the instant the reading starts (its Time), then the clock advances by the
+// aperture. reading = y·(1 + g) + o + n, quantised to the resolution. In FuncVoltage
+// the resolution is range·1e-7 by default (1 µV on the 10 V range), g and o (o in ppm
+// of the present range) are drawn like the source's, n is white noise of rms
+// noise/√NPLC, and the ranges are 0.1, 1, 10, 100 and 1000 V; 0 = auto = 10 V. In
+// FuncCurrent the current_* settings play those parts: resolution 10 nA on the
+// 100 mA range (scaling with range), spec 200 ppm of reading + 20 ppm of range,
+// noise 5 nA rms at 1 PLC, ranges 1 mA, 10 mA, 100 mA and 1 A; 0 = auto = 100 mA.
+// The current errors are drawn after the voltage ones, which stay as they were. Each
+// function keeps its own range; Configure sets the present function's. Reset
+// returns to FuncVoltage and the power-on ranges. |reading| > 1.2·range gives
+// FlagOverload with ±9.9e37; force_flag flags every reading.
+//
+// What y is depends on the probe setting. With probe: output (the default) y is the
+// output of the wired channel when the card's output is of the function's kind: a
+// voltage card's output in FuncVoltage, a current card's loop current in
+// FuncCurrent; otherwise (a voltage card in FuncCurrent, a current card in
+// FuncVoltage, a reported card in either) y = 0, so the meter reads ≈ 0 plus its own
+// offset and noise. With probe: supply the meter sits in the unit's supply line: y is
+// the unit's supply current in FuncCurrent and 0 V in FuncVoltage (the voltage input
+// is not connected). With the fixture empty y = 0.
 //
 // # DUT analog model
 //
 // The DUT settings describe the card; every default is the demo card, the BRX-200
 // (gain 200, 2.5 V at zero input, rails 0..5 V, two 12-bit binary-offset trim DACs,
-// the protocol below). Another card is the same topology with other settings (see
+// one channel, a voltage output, no coefficients, the protocol below). Another card is the same topology with other settings (see
 // Settings: dut, card and dut, port): an inverting or other gain, other rails, an
 // offset or a gain DAC alone, wider or narrower DACs, two's-complement coding, hex
 // codes, other commands, a locked port; the sequence file's dacs: section tells the
@@ -99,18 +133,74 @@
 // exactly 0).
 //
 // Settling: after each step of the DUT input at time t0 the linear output (before
-// rail) approaches its new value as exp(−(t − t0)/τ) on the bench clock. Trim writes
-// take effect at once. Noise is white, noise V rms per meter reading (not reduced by
-// NPLC).
+// rail) approaches its new value as exp(−(t − t0)/τ) on the bench clock. Trim and
+// coefficient writes take effect at once. Noise is white, noise V (A on a current
+// card) rms per reading, meter or cmd_read (not reduced by NPLC).
 //
 // Units are derived by Params(serial, seed, settings): FNV-1a 64 of the serial and
 // the seed key a math/rand/v2 PCG, so the same serial and seed give the same unit.
 // The draws come in a fixed order whatever the settings; the bit errors of DAC bits
 // beyond the twelfth are drawn after all others, so a wider DAC leaves the rest of a
-// unit as the 12-bit card has it. About defect_rate (2 %) of the units carry one
+// unit as the 12-bit card has it, and the supply current (supply_current, 1.2 mA,
+// times 1 + supply_current_sigma·z, σ 3 %) is drawn after those, so it changes no
+// older draw. About defect_rate (2 %) of the units carry one
 // defect: a stuck high trim-DAC bit (one of the top four bits, 8..11 of a 12-bit DAC,
 // of the offset or gain DAC the card has, stuck at 0 or 1), excess noise (×40) or an
 // open output (the meter sees ≈ 0 V + noise whatever the input).
+//
+// # Output kinds
+//
+// output: voltage (the default) is the model above. output: current is the same
+// chain with a loop current for y (a 4–20 mA transmitter): gain is in A/V,
+// output_at_zero, gain_pivot, the rails, rail_knee, offset, offset_sigma, noise and
+// offset_lsb (after) are currents, and their defaults are gain 0.8 A/V, 4 mA at zero
+// input, rails 3.8..21 mA with a 0.1 mA knee, offset_sigma 12 µA, noise 80 nA and
+// offset_lsb 48.8 nA (the voltage card's values scaled by 4 mA/V); input-referred
+// settings (crossover_*, offset_lsb before, default 48.8 nA/|gain|) stay in V. The
+// meter reads it in FuncCurrent.
+//
+// output: reported is a voltage card whose output the card digitises and answers on
+// its port: cmd_read (MEAS?) answers the count
+//
+//	count = clamp(round(y'/adc_lsb), −2^(adc_bits−1), 2^(adc_bits−1) − 1)
+//
+// as a decimal integer, where y' is y (sampled with its noise when the command
+// arrives) after the firmware correction below; adc_lsb is V per count at the
+// converter (312.5 µV) and adc_bits its signed width (16). Example: y = 2.5031 V is
+// round(8009.92) = 8010 counts. The meter reads ≈ 0 on a reported card's output.
+//
+// # Channels
+//
+// Channel 1 of any card is exactly the one-channel unit: its parameters are
+// Params(serial, seed, settings), so every population and golden result stays as it
+// was. Channel k > 1 is Params(serial+"/"+k, seed, settings) (ChannelParams), an
+// independent chain with its own offset, gain error, DAC errors and defect draw. Each
+// channel has its own trim registers and coefficient registers; the supply current
+// belongs to the unit (channel 1's draw). NV STORE stores every channel's registers
+// and coefficients.
+//
+// # Firmware coefficients
+//
+// With coef: gain, offset or both (none by default) the card's firmware corrects
+// each channel's output: y' = gain·raw + offset, where raw is the output the chain
+// above produces. For voltage and current outputs the correction acts before the
+// rails (y = rail(gain·(linear + settling) + offset + noise)), for a reported card
+// before digitisation (count = round((gain·y + offset)/adc_lsb)). The registers of a
+// fresh unit hold gain 1 and offset 0 (no correction); a card without the gain
+// (offset) coefficient has gain 1 (offset 0).
+//
+// The gain is a plain factor in coef_gain_format (Q2.14 by default; float32,
+// Q<m>.<n> with m integer bits including the sign, or int<bits>, a signed integer
+// times coef_gain_scale, 1e-4 by default), which must hold 1. The offset is a number
+// in coef_offset_unit (the output's SI unit by default: V, A, or count for a
+// reported card; e.g. mV, uA, count) in coef_offset_format (float32 by default);
+// for int<bits> one count is coef_offset_scale, a plain number in the offset unit or
+// a voltage or current ("0.1 uA"). coef_text (decimal|hex) spells both as package
+// numfmt does: decimal — the float32's shortest text or the integer word; hex — the
+// word's bit pattern, upper case, ceil(bits/4) digits, written with or without 0x.
+// So on Q2.14 hex "4000" is 1.0 and "4800" is 1.125. A write that is malformed or
+// outside the format answers "ERR value out of range" and leaves the register;
+// reads answer the register in the same format and text.
 //
 // # Trim port protocol
 //
@@ -126,8 +216,15 @@
 //	TRIM GAIN <code> → OK; likewise                                  (cmd_gain_write)
 //	TRIM OFS?        → the offset register                           (cmd_offset_read)
 //	TRIM GAIN?       → the gain register                             (cmd_gain_read)
-//	NV STORE         → OK; stores both registers in the unit's       (cmd_store)
+//	NV STORE         → OK; stores both registers (and the           (cmd_store)
+//	                   coefficients) of every channel in the unit's
 //	                   non-volatile memory
+//	MEAS?            → a reported card's output in counts            (cmd_read)
+//	CAL GAIN <value> → OK; "ERR value out of range" if malformed     (cmd_coef_gain_write)
+//	                   or outside the format
+//	CAL GAIN?        → the gain coefficient                          (cmd_coef_gain_read)
+//	CAL OFS <value>  → OK; likewise                                  (cmd_coef_offset_write)
+//	CAL OFS?         → the offset coefficient                        (cmd_coef_offset_read)
 //	LID?             → CLOSED or OPEN: the fixture's lid (interlock) input
 //	anything else    → ERR unknown command "<line>"
 //
@@ -137,8 +234,16 @@
 // twos_complement. With code_format: hex the port writes the register pattern in
 // hex with or without 0x ("TRIM OFS 0x7FF" or "TRIM OFS 7ff") and answers in upper
 // case without 0x, padded to ceil(n/4) digits ("7FF"; "0000" for 0 on a 16-bit DAC).
-// The commands of a DAC the card does not have (trim: offset or gain) answer ERR
-// unknown command.
+// The commands of a DAC the card does not have (trim: offset or gain), of a
+// coefficient it does not have and MEAS? on a card that reports nothing answer ERR
+// unknown command. Coefficient write templates hold {value} once, like {code}.
+//
+// The per-channel commands (trim and coefficient writes and reads, cmd_read) may
+// hold {channel} once ("TRIM OFS {channel} {code}", "CAL:GAIN {channel},{value}",
+// "MEAS? {channel}"); it matches a decimal channel number, and a channel the card
+// does not have answers "ERR channel out of range". A per-channel command without
+// {channel} acts on the channel the switch routes (channel 1 when none is, or without
+// a switch).
 //
 // With cmd_unlock set (say "UNLOCK 5A17"; empty by default: no lock) the card is
 // locked whenever a unit is loaded: trim writes and the store command answer
@@ -149,8 +254,9 @@
 // templates; the lid starts as the lid setting says (closed by default) and
 // DUT.SetLid moves it. With no unit in the fixture every other command answers
 // "ERR no unit in fixture". LoadUnit(serial) places a unit; its registers start from
-// the codes it last stored on this bench (the bench remembers them per serial for its
-// lifetime), the no-correction codes (2048 on the demo card) for a fresh unit.
+// the codes and coefficients it last stored on this bench (the bench remembers them
+// per serial for its lifetime), the no-correction codes (2048 on the demo card),
+// gain 1 and offset 0 for a fresh unit.
 // DUT.Command returns nil on OK and a *ReplyError on ERR; DUT.Query returns the
 // reply, or a *ReplyError on ERR. DUT.Identify asks the serial and firmware
 // commands.
@@ -172,7 +278,12 @@
 //	             nplc (power-on, 1), line_frequency (50 Hz),
 //	             resolution (on the 10 V range, scales with range; 1 µV; 0 = none),
 //	             noise (at 1 PLC, 1.5 µV rms), gain_error (drawn), offset (drawn),
-//	             force_flag (none|overload|nan, none)
+//	             force_flag (none|overload|nan, none), probe (output|supply, output),
+//	             current_spec_ppm_reading (200), current_spec_ppm_range (20),
+//	             current_range (power-on, 0 = auto = 100 mA), current_resolution
+//	             (on the 100 mA range, scales with range; 10 nA), current_noise (at
+//	             1 PLC, 5 nA rms), current_gain_error (drawn), current_offset (drawn)
+//	switch       none of its own
 //	dut          offset (drawn; total output-referred offset at zero input, all of it
 //	             output-referred; dnl's mid-scale DAC error comes on top),
 //	             gain_error (drawn), offset_sigma (3 mV),
@@ -182,7 +293,8 @@
 //	             offset_lsb (12.2 µV; 61 nV with offset_trim: before),
 //	             gain_lsb (10 ppm), offset_trim (after|before, after),
 //	             defect (none|stuck_bit|noisy|open, drawn), defect_rate (2 %),
-//	             lid (closed|open: the fixture lid at open, closed)
+//	             lid (closed|open: the fixture lid at open, closed),
+//	             supply_current (1.2 mA), supply_current_sigma (3 %)
 //	dut, card    gain (nominal closed-loop gain in V/V, finite and non-zero,
 //	             negative for an inverting card; 200),
 //	             output_at_zero (output at zero input with no correction; 2.5 V),
@@ -193,13 +305,24 @@
 //	             trim (both|offset|gain: the trim DACs the card has, both),
 //	             offset_bits, gain_bits (width of each DAC, 1..24 bits; 12),
 //	             offset_coding, gain_coding (binary_offset|twos_complement,
-//	             binary_offset), code_format (decimal|hex, decimal)
+//	             binary_offset), code_format (decimal|hex, decimal),
+//	             output (voltage|current|reported, voltage; current makes the
+//	             output-referred settings currents, see Output kinds),
+//	             adc_lsb (312.5 µV), adc_bits (2..32; 16), channels (1..16; 1),
+//	             coef (none|gain|offset|both, none), coef_gain_format (Q2.14),
+//	             coef_gain_scale (int<bits>: 1e-4), coef_offset_format (float32),
+//	             coef_offset_scale (int<bits>: 1), coef_offset_unit (the output's SI
+//	             unit), coef_text (decimal|hex, decimal)
 //	dut, port    cmd_serial (SN?), cmd_firmware (FW?), cmd_offset_write
 //	             (TRIM OFS {code}), cmd_offset_read (TRIM OFS?), cmd_gain_write
 //	             (TRIM GAIN {code}), cmd_gain_read (TRIM GAIN?), cmd_store (NV STORE),
 //	             cmd_unlock (empty: no lock), firmware (the firmware reply;
-//	             BRX200-FW 2.3.1). Write templates need {code} once, the others none;
-//	             no two commands of the card may be the same, nor LID?
+//	             BRX200-FW 2.3.1), cmd_read (MEAS?), cmd_coef_gain_write
+//	             (CAL GAIN {value}), cmd_coef_gain_read (CAL GAIN?),
+//	             cmd_coef_offset_write (CAL OFS {value}), cmd_coef_offset_read
+//	             (CAL OFS?). Trim write templates need {code} once, coefficient
+//	             writes {value} once; per-channel commands may hold {channel}; no
+//	             two commands of the card may be the same, nor LID?
 //
 // # Concurrency
 //

@@ -50,8 +50,8 @@ func (Driver) OpenGroup(ctx context.Context, specs []instruments.Spec) ([]instru
 		return nil, err
 	}
 	out := make([]instruments.Instrument, len(specs))
-	for i, s := range specs {
-		out[i] = b.instrument(s)
+	for i := range specs {
+		out[i] = b.Instrument(i)
 	}
 	return out, nil
 }

@@ -123,12 +123,15 @@ func TestConflictingBenchKeys(t *testing.T) {
 func TestAddresses(t *testing.T) {
 	for _, addr := range []string{"sim://psu", "sim://meter:5025", "sim://meter/x", "sim://meter?x=1", "sim:meter"} {
 		_, err := sim.NewBench([]instruments.Spec{{Address: addr}})
-		if err == nil || !strings.Contains(err.Error(), "sim://source, sim://meter or sim://dut") {
-			t.Errorf("%s: err = %v, want one naming the three addresses", addr, err)
+		if err == nil || !strings.Contains(err.Error(), "sim://source, sim://meter, sim://dut or sim://switch") {
+			t.Errorf("%s: err = %v, want one naming the four addresses", addr, err)
 		}
 	}
-	if _, err := sim.NewBench([]instruments.Spec{{Address: "sim://meter"}, {Address: "sim://meter"}}); err == nil {
-		t.Error("two meters on one bench accepted")
+	if _, err := sim.NewBench([]instruments.Spec{{Address: "sim://source"}, {Address: "sim://source"}}); err == nil {
+		t.Error("two sources on one bench accepted")
+	}
+	if _, err := sim.NewBench([]instruments.Spec{{Address: "sim://switch"}, {Address: "sim://switch"}}); err == nil {
+		t.Error("two switches on one bench accepted")
 	}
 	if _, err := sim.NewBench(nil); err == nil {
 		t.Error("empty bench accepted")

@@ -26,12 +26,24 @@ type DUT struct {
 	lidOpen  bool // the fixture lid (interlock input) is open
 
 	loaded   bool
-	unit     UnitParams
+	serial   string
+	chans    []channel // one per channel of the card; [0] is channel 1
 	unlocked bool      // the unlock command was received since the unit was loaded
-	ofs      int       // offset trim register
-	gain     int       // gain trim register
-	resid    float64   // V, settling residual of the linear output at tStep
-	tStep    time.Time // time of the last source step
+}
+
+// channel is one analog chain of the unit in the fixture, with its own registers.
+type channel struct {
+	unit        UnitParams
+	ofs, gain   int       // trim registers
+	cGain, cOfs float64   // coefficient registers, as the firmware holds them (offset in its unit)
+	resid       float64   // settling residual of the linear output at tStep (V or A)
+	tStep       time.Time // time of the last step of this channel's input
+}
+
+// stored is what a unit keeps in non-volatile memory, per channel.
+type stored struct {
+	regs  [][2]int     // {offset, gain} trim codes
+	coefs [][2]float64 // {gain, offset} coefficients
 }
 
 var (
@@ -44,6 +56,9 @@ var (
 // newDUT returns the fixture for settings s, compiling its command set.
 func newDUT(w wiring, s DUTSettings, lidOpen bool) (*DUT, error) {
 	c := s.card()
+	if _, err := s.Coef.resolve(c.output); err != nil {
+		return nil, err
+	}
 	p, err := compilePort(c)
 	if err != nil {
 		return nil, err
@@ -72,19 +87,32 @@ func (d *DUT) Clock() instruments.Clock { return d.bench.clock }
 // Settings returns the parsed DUT settings the fixture derives units with.
 func (d *DUT) Settings() DUTSettings { return d.settings }
 
-// Unit returns the parameters of the unit in the fixture; ok is false when the
-// fixture is empty.
+// Unit returns the parameters of the unit in the fixture (of its channel 1); ok is
+// false when the fixture is empty.
 func (d *DUT) Unit() (p UnitParams, ok bool) {
-	d.bench.mu.Lock()
-	defer d.bench.mu.Unlock()
-	return d.unit, d.loaded
+	return d.Channel(1)
 }
 
-// LoadUnit places unit serial in the fixture: its parameters come from
-// Params(serial, bench seed, settings) and its trim registers from the codes last
-// stored on this bench, the no-correction codes for a fresh unit (mid-scale 2048 on
-// the demo card); a lock is locked again. The serial
-// must be non-empty and free of spaces and control characters.
+// Channel returns the parameters of channel k (1-based) of the unit in the fixture;
+// ok is false when the fixture is empty or the card has no channel k.
+func (d *DUT) Channel(k int) (p UnitParams, ok bool) {
+	d.bench.mu.Lock()
+	defer d.bench.mu.Unlock()
+	if !d.loaded || k < 1 || k > len(d.chans) {
+		return UnitParams{}, false
+	}
+	return d.chans[k-1].unit, true
+}
+
+// Channels returns the number of channels of the card (the channels setting, 1).
+func (d *DUT) Channels() int { return d.card.channels }
+
+// LoadUnit places unit serial in the fixture: the parameters of its channel k come
+// from ChannelParams(serial, k, bench seed, settings) and its trim registers and
+// coefficients from what it last stored on this bench; a fresh unit starts with the
+// no-correction codes (mid-scale 2048 on the demo card), gain coefficient 1 and
+// offset coefficient 0. A lock is locked again. The serial must be non-empty and free
+// of spaces and control characters.
 func (d *DUT) LoadUnit(ctx context.Context, serial string) error {
 	var invalid error
 	if serial == "" || strings.IndexFunc(serial, func(r rune) bool { return unicode.IsSpace(r) || unicode.IsControl(r) }) >= 0 {
@@ -96,47 +124,80 @@ func (d *DUT) LoadUnit(ctx context.Context, serial string) error {
 	if err := d.start(ctx, "load unit", invalid); err != nil {
 		return err
 	}
-	d.unit = Params(serial, b.seed, d.settings)
-	d.loaded = true
-	d.unlocked = false
-	d.ofs, d.gain = d.card.offsetDAC.NoCorrection(), d.card.gainDAC.NoCorrection()
-	if c, ok := b.stored[serial]; ok {
-		d.ofs, d.gain = c[0], c[1]
+	d.loaded, d.serial, d.unlocked = true, serial, false
+	d.chans = make([]channel, d.card.channels)
+	st, ok := b.stored[serial]
+	for i := range d.chans {
+		c := &d.chans[i]
+		c.unit = ChannelParams(serial, i+1, b.seed, d.settings)
+		c.ofs, c.gain = d.card.offsetDAC.NoCorrection(), d.card.gainDAC.NoCorrection()
+		c.cGain, c.cOfs = 1, 0
+		if ok && i < len(st.regs) {
+			c.ofs, c.gain = st.regs[i][0], st.regs[i][1]
+			c.cGain, c.cOfs = st.coefs[i][0], st.coefs[i][1]
+		}
+		c.resid, c.tStep = 0, b.clock.Now()
 	}
-	d.resid, d.tStep = 0, b.clock.Now()
 	return nil
 }
 
-// decay returns the settling residual in V at time t.
-func (d *DUT) decay(t time.Time) float64 {
-	if d.resid == 0 || d.unit.Tau <= 0 {
+// decay returns the settling residual at time t.
+func (c *channel) decay(t time.Time) float64 {
+	if c.resid == 0 || c.unit.Tau <= 0 {
 		return 0
 	}
-	dt := max(t.Sub(d.tStep).Seconds(), 0)
-	return d.resid * math.Exp(-dt/d.unit.Tau)
+	dt := max(t.Sub(c.tStep).Seconds(), 0)
+	return c.resid * math.Exp(-dt/c.unit.Tau)
 }
 
-// step records that the DUT input went from old to new volts at time t: the linear
-// output then approaches its new value as exp(−(t'−t)/τ).
-func (d *DUT) step(t time.Time, old, new float64) {
-	if !d.loaded || old == new {
+// step records that the input of every channel went from old[k] to new[k] volts
+// at time t: the linear output of a channel whose input moved then approaches its
+// new value as exp(−(t'−t)/τ).
+func (d *DUT) step(t time.Time, old, new []float64) {
+	if !d.loaded {
 		return
 	}
-	cur := d.unit.linear(old, d.ofs, d.gain) + d.decay(t)
-	d.resid, d.tStep = 0, t
-	if d.unit.Tau > 0 {
-		d.resid = cur - d.unit.linear(new, d.ofs, d.gain)
+	for i := range d.chans {
+		c := &d.chans[i]
+		if old[i] == new[i] {
+			continue
+		}
+		cur := c.unit.linear(old[i], c.ofs, c.gain) + c.decay(t)
+		c.resid, c.tStep = 0, t
+		if c.unit.Tau > 0 {
+			c.resid = cur - c.unit.linear(new[i], c.ofs, c.gain)
+		}
 	}
 }
 
-// output returns the output in V at time t for input x (V, with source noise) and a
-// standard normal draw z for the output noise.
-func (d *DUT) output(t time.Time, x, z float64) float64 {
-	n := d.unit.Noise * z
-	if d.unit.Defect == DefectOpen {
+// output returns channel k's (0-based) output at time t for input x (V, with
+// source noise) and a standard normal draw z for the output noise: in V or A as the
+// card's output is (a reported card: V at its converter, without the firmware
+// correction, which digitise applies). The coefficients act before the rails.
+func (d *DUT) output(t time.Time, k int, x, z float64) float64 {
+	c := &d.chans[k]
+	n := c.unit.Noise * z
+	if c.unit.Defect == DefectOpen {
 		return n
 	}
-	return d.unit.rail(d.unit.linear(x, d.ofs, d.gain) + d.decay(t) + n)
+	y := c.unit.linear(x, c.ofs, c.gain) + c.decay(t)
+	if cf := d.card.coef; cf.use != "" && d.card.output != OutputReported {
+		return c.unit.rail(c.cGain*y + cf.offsetSI(c.cOfs, d.card.adcLSB) + n)
+	}
+	return c.unit.rail(y + n)
+}
+
+// digitise returns the count a reported card answers for channel k's (0-based)
+// output y (V at its converter): round((gain·y + offset)/adc_lsb), clamped to the
+// converter's signed range.
+func (d *DUT) digitise(k int, y float64) int64 {
+	c := &d.chans[k]
+	if d.card.coef.use != "" {
+		y = c.cGain*y + d.card.coef.offsetSI(c.cOfs, d.card.adcLSB)
+	}
+	n := math.Round(y / d.card.adcLSB)
+	lo, hi := -math.Ldexp(1, d.card.adcBits-1), math.Ldexp(1, d.card.adcBits-1)-1
+	return int64(max(lo, min(hi, n)))
 }
 
 // SetLid opens or closes the fixture lid, the interlock input that LID? reports.
@@ -166,46 +227,116 @@ func (d *DUT) reply(line string) string {
 		return "ERR no unit in fixture"
 	}
 	p, c := &d.port, &d.card
-	locked := p.unlock.prefix != "" && !d.unlocked
+	locked := p.unlock.re != nil && !d.unlocked
+	is := func(t template) bool { _, _, ok := t.match(norm); return ok }
 	switch {
-	case p.serial.is(norm):
-		return d.unit.Serial
-	case p.firmware.is(norm):
+	case is(p.serial):
+		return d.serial
+	case is(p.firmware):
 		return c.firmware
-	case p.unlock.is(norm):
+	case is(p.unlock):
 		d.unlocked = true
 		return "OK"
-	case p.store.is(norm):
+	case is(p.store):
 		if locked {
 			return "ERR locked"
 		}
-		d.bench.stored[d.unit.Serial] = [2]int{d.ofs, d.gain}
+		st := stored{regs: make([][2]int, len(d.chans)), coefs: make([][2]float64, len(d.chans))}
+		for i, ch := range d.chans {
+			st.regs[i] = [2]int{ch.ofs, ch.gain}
+			st.coefs[i] = [2]float64{ch.cGain, ch.cOfs}
+		}
+		d.bench.stored[d.serial] = st
 		return "OK"
-	case p.offsetRead.is(norm):
-		return formatCode(c.offsetDAC, c.format, d.ofs)
-	case p.gainRead.is(norm):
-		return formatCode(c.gainDAC, c.format, d.gain)
 	}
+	// Per-channel reads.
+	for _, r := range []struct {
+		t      template
+		answer func(k int) string
+	}{
+		{p.offsetRead, func(k int) string { return formatCode(c.offsetDAC, c.format, d.chans[k].ofs) }},
+		{p.gainRead, func(k int) string { return formatCode(c.gainDAC, c.format, d.chans[k].gain) }},
+		{p.coefGainRead, func(k int) string { t, _, _ := c.coef.gain.Encode(d.chans[k].cGain); return t }},
+		{p.coefOffsetRead, func(k int) string { t, _, _ := c.coef.offset.Encode(d.chans[k].cOfs); return t }},
+		{p.read, func(k int) string {
+			t := d.bench.clock.Now()
+			return strconv.FormatInt(d.digitise(k, d.bench.sample(t, k)), 10)
+		}},
+	} {
+		if _, ch, ok := r.t.match(norm); ok {
+			k, errReply := d.channelOf(ch)
+			if errReply != "" {
+				return errReply
+			}
+			return r.answer(k)
+		}
+	}
+	// Per-channel writes.
 	for _, w := range []struct {
 		t   template
-		dac DAC
-		reg *int
-	}{{p.offsetWrite, c.offsetDAC, &d.ofs}, {p.gainWrite, c.gainDAC, &d.gain}} {
-		text, ok := w.t.match(norm)
+		set func(k int, text string) bool // false: malformed or out of range
+		bad string
+	}{
+		{p.offsetWrite, func(k int, text string) bool {
+			reg, ok := parseCode(c.offsetDAC, c.format, text)
+			if ok {
+				d.chans[k].ofs = reg
+			}
+			return ok
+		}, "ERR code out of range"},
+		{p.gainWrite, func(k int, text string) bool {
+			reg, ok := parseCode(c.gainDAC, c.format, text)
+			if ok {
+				d.chans[k].gain = reg
+			}
+			return ok
+		}, "ERR code out of range"},
+		{p.coefGainWrite, func(k int, text string) bool {
+			v, err := c.coef.gain.Decode(text)
+			if err == nil {
+				d.chans[k].cGain = v
+			}
+			return err == nil
+		}, "ERR value out of range"},
+		{p.coefOffsetWrite, func(k int, text string) bool {
+			v, err := c.coef.offset.Decode(text)
+			if err == nil {
+				d.chans[k].cOfs = v
+			}
+			return err == nil
+		}, "ERR value out of range"},
+	} {
+		text, ch, ok := w.t.match(norm)
 		if !ok {
 			continue
 		}
 		if locked {
 			return "ERR locked"
 		}
-		reg, ok := parseCode(w.dac, c.format, text)
-		if !ok {
-			return "ERR code out of range"
+		k, errReply := d.channelOf(ch)
+		if errReply != "" {
+			return errReply
 		}
-		*w.reg = reg
+		if !w.set(k, text) {
+			return w.bad
+		}
 		return "OK"
 	}
 	return fmt.Sprintf("ERR unknown command %q", line)
+}
+
+// channelOf returns the 0-based channel a command names ("" when its template has
+// no {channel}: the channel the switch routes, channel 1 when none is routed), or
+// the reply to a channel the card does not have.
+func (d *DUT) channelOf(text string) (int, string) {
+	if text == "" {
+		return max(d.bench.route, 0), ""
+	}
+	k, err := strconv.Atoi(text)
+	if err != nil || k < 1 || k > len(d.chans) {
+		return 0, "ERR channel out of range"
+	}
+	return k - 1, ""
 }
 
 // MisreadCode returns reply, the port's answer to line, with its code one higher
@@ -219,7 +350,7 @@ func (d *DUT) MisreadCode(line, reply string) (misread string, ok bool) {
 		t   template
 		dac DAC
 	}{{d.port.offsetRead, c.offsetDAC}, {d.port.gainRead, c.gainDAC}} {
-		if !r.t.is(norm) {
+		if _, _, ok := r.t.match(norm); !ok {
 			continue
 		}
 		reg, ok := parseCode(r.dac, c.format, reply)

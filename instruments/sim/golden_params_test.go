@@ -98,3 +98,26 @@ func TestDefaultsKeepPinnedPopulation(t *testing.T) {
 		}
 	}
 }
+
+// Channel 1 of a multi-channel card is the one-channel population: the pinned units
+// loaded into a four-channel card give the pinned numbers on channel 1, and another
+// channel is another chain (its gain differs).
+func TestChannelOneKeepsPinnedPopulation(t *testing.T) {
+	g17 := func(v float64) string { return strconv.FormatFloat(v, 'g', 17, 64) }
+	for _, pin := range pins {
+		if pin.offsetTrim != "" {
+			continue
+		}
+		b := bench(t, nil, nil, map[string]string{"channels": "4", "seed": strconv.FormatUint(pin.seed, 10)})
+		load(t, b, pin.serial)
+		p, ok := b.DUT().Channel(1)
+		if !ok || g17(p.Gain()) != pin.gain || g17(p.TotalOffset()) != pin.offset || string(p.Defect) != pin.defect {
+			t.Errorf("%s seed %d channel 1: gain %s offset %s defect %s, pinned %s %s %s", pin.serial, pin.seed,
+				g17(p.Gain()), g17(p.TotalOffset()), p.Defect, pin.gain, pin.offset, pin.defect)
+		}
+		q, ok := b.DUT().Channel(3)
+		if !ok || q.Gain() == p.Gain() || q.Serial != pin.serial+"/3" {
+			t.Errorf("%s channel 3: %+v is channel 1's chain again", pin.serial, q)
+		}
+	}
+}

@@ -4,6 +4,7 @@ import (
 	"hash/fnv"
 	"math"
 	"math/rand/v2"
+	"strconv"
 )
 
 // Design values of the demo product, the BRX-200 bridge amplifier card: the defaults
@@ -164,6 +165,8 @@ type UnitParams struct {
 	Tau   float64 // s, first-order settling time constant after a source step; 0 = instant
 
 	Defect Defect // DefectNone, or the one defect this unit carries
+
+	SupplyCurrent float64 // A, the unit's supply current (drawn per unit, 3 % σ by default)
 }
 
 // Gain returns the closed-loop gain before trim in V/V:
@@ -287,6 +290,7 @@ func Params(serial string, seed uint64, s DUTSettings) UnitParams {
 	for i := DACBits; i < c.gainDAC.Width(); i++ {
 		gainErr[i] = r.NormFloat64()
 	}
+	zSupply := r.NormFloat64() // after every older draw, so those stay as they were
 
 	share := s.InputOffsetShare
 	p := UnitParams{
@@ -313,6 +317,11 @@ func Params(serial string, seed uint64, s DUTSettings) UnitParams {
 		Tau:              s.Tau,
 		Defect:           DefectNone,
 	}
+	supply, sigma := s.SupplyCurrent, s.SupplyCurrentSigma
+	if supply == 0 {
+		supply = DefaultSupplyCurrent
+	}
+	p.SupplyCurrent = supply * (1 + sigma*zSupply)
 	if stepNeg {
 		p.CrossoverStep = -p.CrossoverStep
 	}
@@ -348,4 +357,19 @@ func Params(serial string, seed uint64, s DUTSettings) UnitParams {
 		p.Noise *= NoisyFactor
 	}
 	return p
+}
+
+// ChannelParams derives the parameters of channel k (1-based) of unit serial: channel
+// 1 is Params(serial, seed, s) itself, so a one-channel card and channel 1 of a
+// multi-channel card are the same population; channel k > 1 is drawn as
+// Params(serial+"/"+k, seed, s), an independent analog chain. Serial is then
+// serial+"/"+k; SupplyCurrent belongs to the unit and is that of channel 1.
+func ChannelParams(serial string, k int, seed uint64, s DUTSettings) UnitParams {
+	p := Params(serial, seed, s)
+	if k <= 1 {
+		return p
+	}
+	q := Params(serial+"/"+strconv.Itoa(k), seed, s)
+	q.SupplyCurrent = p.SupplyCurrent
+	return q
 }

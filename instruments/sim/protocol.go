@@ -2,8 +2,11 @@ package sim
 
 import (
 	"fmt"
+	"regexp"
+	"slices"
 	"strconv"
 	"strings"
+	"unicode/utf8"
 )
 
 // Coding is how a trim DAC's register code maps to its correction.
@@ -28,13 +31,21 @@ const (
 	CodeHex CodeFormat = "hex"
 )
 
-// CodePlaceholder stands for the code in a write template.
-const CodePlaceholder = "{code}"
+// Placeholders of the command templates: CodePlaceholder stands for a trim code in
+// a trim write, ValuePlaceholder for a coefficient in a coefficient write, and
+// ChannelPlaceholder for the channel (1..channels) in any per-channel command.
+const (
+	CodePlaceholder    = "{code}"
+	ValuePlaceholder   = "{value}"
+	ChannelPlaceholder = "{channel}"
+)
 
 // Protocol is the trim port's command set as templates: each is the command line the
-// port answers (tokens separated by single spaces, case-sensitive); the two write
-// templates hold CodePlaceholder where the code goes. An empty field is the demo
-// card's command, except Unlock, where empty means the card has no lock.
+// port answers (tokens separated by single spaces, case-sensitive); the write
+// templates hold CodePlaceholder or ValuePlaceholder where the number goes, and the
+// per-channel commands (trim and coefficient reads and writes, Read) may hold
+// ChannelPlaceholder. An empty field is the demo card's command, except Unlock, where
+// empty means the card has no lock.
 type Protocol struct {
 	Serial      string // answered with the unit's serial; "SN?"
 	Firmware    string // answered with the firmware id; "FW?"
@@ -44,18 +55,29 @@ type Protocol struct {
 	GainRead    string // answered with the gain register; "TRIM GAIN?"
 	Store       string // stores the registers in non-volatile memory; "NV STORE"
 	Unlock      string // unlocks trim writes and store until the unit is reloaded; "" = no lock
+
+	Read            string // a reported card: answered with the output in counts; "MEAS?"
+	CoefGainWrite   string // writes the gain coefficient; "CAL GAIN {value}"
+	CoefGainRead    string // answered with the gain coefficient; "CAL GAIN?"
+	CoefOffsetWrite string // writes the offset coefficient; "CAL OFS {value}"
+	CoefOffsetRead  string // answered with the offset coefficient; "CAL OFS?"
 }
 
 // DefaultProtocol returns the demo card's command set.
 func DefaultProtocol() Protocol {
 	return Protocol{
-		Serial:      "SN?",
-		Firmware:    "FW?",
-		OffsetWrite: "TRIM OFS " + CodePlaceholder,
-		OffsetRead:  "TRIM OFS?",
-		GainWrite:   "TRIM GAIN " + CodePlaceholder,
-		GainRead:    "TRIM GAIN?",
-		Store:       "NV STORE",
+		Serial:          "SN?",
+		Firmware:        "FW?",
+		OffsetWrite:     "TRIM OFS " + CodePlaceholder,
+		OffsetRead:      "TRIM OFS?",
+		GainWrite:       "TRIM GAIN " + CodePlaceholder,
+		GainRead:        "TRIM GAIN?",
+		Store:           "NV STORE",
+		Read:            "MEAS?",
+		CoefGainWrite:   "CAL GAIN " + ValuePlaceholder,
+		CoefGainRead:    "CAL GAIN?",
+		CoefOffsetWrite: "CAL OFS " + ValuePlaceholder,
+		CoefOffsetRead:  "CAL OFS?",
 	}
 }
 
@@ -65,7 +87,9 @@ func (p Protocol) withDefaults() Protocol {
 	for _, f := range []struct{ got, def *string }{
 		{&p.Serial, &d.Serial}, {&p.Firmware, &d.Firmware}, {&p.OffsetWrite, &d.OffsetWrite},
 		{&p.OffsetRead, &d.OffsetRead}, {&p.GainWrite, &d.GainWrite}, {&p.GainRead, &d.GainRead},
-		{&p.Store, &d.Store},
+		{&p.Store, &d.Store}, {&p.Read, &d.Read}, {&p.CoefGainWrite, &d.CoefGainWrite},
+		{&p.CoefGainRead, &d.CoefGainRead}, {&p.CoefOffsetWrite, &d.CoefOffsetWrite},
+		{&p.CoefOffsetRead, &d.CoefOffsetRead},
 	} {
 		if *f.got == "" {
 			*f.got = *f.def
@@ -77,16 +101,21 @@ func (p Protocol) withDefaults() Protocol {
 // normLine returns line's tokens joined by single spaces.
 func normLine(line string) string { return strings.Join(strings.Fields(line), " ") }
 
-// template is one parsed command template: the text before and after the code, or
-// the whole command when it takes no code. The zero template matches nothing.
+// template is one parsed command template. A line fits it when it is the template
+// with each placeholder replaced by one token part (no spaces; a channel is
+// digits). The zero template matches nothing.
 type template struct {
-	prefix, suffix string
-	code           bool
+	re         *regexp.Regexp
+	valueGroup int // submatch index of the code or value, 0 = none
+	chanGroup  int // submatch index of the channel, 0 = none
 }
 
-// compileTemplate parses text as the template of settings key key; withCode says
-// whether it must hold CodePlaceholder once (a write) or not at all.
-func compileTemplate(key, text string, withCode bool) (template, error) {
+var placeholderRE = regexp.MustCompile(`\{[^{}]*\}`)
+
+// compileTemplate parses text as the template of settings key key; value is the
+// placeholder it must hold once (CodePlaceholder or ValuePlaceholder; "" for none),
+// and channel says whether it may hold ChannelPlaceholder once.
+func compileTemplate(key, text, value string, channel bool) (template, error) {
 	t := normLine(text)
 	if t == "" {
 		return template{}, settingErr(key, "%q: expected a command", text)
@@ -94,73 +123,119 @@ func compileTemplate(key, text string, withCode bool) (template, error) {
 	if t == "LID?" {
 		return template{}, settingErr(key, "%q is the fixture's own command", text)
 	}
-	n := strings.Count(t, CodePlaceholder)
-	if rest := strings.ReplaceAll(t, CodePlaceholder, ""); strings.ContainsAny(rest, "{}") {
-		return template{}, settingErr(key, "%q: the only placeholder is %s", text, CodePlaceholder)
+	if !utf8.ValidString(t) {
+		return template{}, settingErr(key, "%q: expected UTF-8 text", text)
 	}
-	switch {
-	case withCode && n != 1:
-		return template{}, settingErr(key, "%q: expected %s once", text, CodePlaceholder)
-	case !withCode && n != 0:
-		return template{}, settingErr(key, "%q: this command takes no %s", text, CodePlaceholder)
+	allowed := []string{}
+	if value != "" {
+		allowed = append(allowed, value)
 	}
-	if !withCode {
-		return template{prefix: t}, nil
+	if channel {
+		allowed = append(allowed, ChannelPlaceholder)
 	}
-	i := strings.Index(t, CodePlaceholder)
-	return template{prefix: t[:i], suffix: t[i+len(CodePlaceholder):], code: true}, nil
+	for _, ph := range placeholderRE.FindAllString(t, -1) {
+		if !slices.Contains(allowed, ph) {
+			if len(allowed) == 0 {
+				return template{}, settingErr(key, "%q: this command takes no placeholder", text)
+			}
+			return template{}, settingErr(key, "%q: the only placeholders here are %s", text, strings.Join(allowed, " and "))
+		}
+	}
+	if rest := placeholderRE.ReplaceAllString(t, ""); strings.ContainsAny(rest, "{}") {
+		return template{}, settingErr(key, "%q: a brace that is no placeholder", text)
+	}
+	if value != "" && strings.Count(t, value) != 1 {
+		return template{}, settingErr(key, "%q: expected %s once", text, value)
+	}
+	if strings.Count(t, ChannelPlaceholder) > 1 {
+		return template{}, settingErr(key, "%q: expected %s at most once", text, ChannelPlaceholder)
+	}
+	var tp template
+	var b strings.Builder
+	b.WriteString("^")
+	last, group := 0, 0
+	for _, m := range placeholderRE.FindAllStringIndex(t, -1) {
+		b.WriteString(regexp.QuoteMeta(t[last:m[0]]))
+		group++
+		if t[m[0]:m[1]] == ChannelPlaceholder {
+			b.WriteString("([0-9]+)")
+			tp.chanGroup = group
+		} else {
+			b.WriteString("([^ ]+)")
+			tp.valueGroup = group
+		}
+		last = m[1]
+	}
+	b.WriteString(regexp.QuoteMeta(t[last:]) + "$")
+	re, err := regexp.Compile(b.String())
+	if err != nil {
+		return template{}, settingErr(key, "%q: %v", text, err)
+	}
+	tp.re = re
+	return tp, nil
 }
 
-// is reports whether the normalised line is the template's command (no code).
-func (t template) is(line string) bool { return t.prefix != "" && !t.code && line == t.prefix }
-
-// match returns the code text of a normalised line that fits the write template: a
-// single token (no spaces) between the prefix and the suffix.
-func (t template) match(line string) (string, bool) {
-	if !t.code || len(line) <= len(t.prefix)+len(t.suffix) ||
-		!strings.HasPrefix(line, t.prefix) || !strings.HasSuffix(line, t.suffix) {
-		return "", false
+// match reports whether the normalised line fits the template and returns the
+// text of its value and channel ("" where the template has none).
+func (t template) match(line string) (value, channel string, ok bool) {
+	if t.re == nil {
+		return "", "", false
 	}
-	c := line[len(t.prefix) : len(line)-len(t.suffix)]
-	if strings.Contains(c, " ") {
-		return "", false
+	m := t.re.FindStringSubmatch(line)
+	if m == nil {
+		return "", "", false
 	}
-	return c, true
+	if t.valueGroup > 0 {
+		value = m[t.valueGroup]
+	}
+	if t.chanGroup > 0 {
+		channel = m[t.chanGroup]
+	}
+	return value, channel, true
 }
 
 // port is the compiled protocol of one card.
 type port struct {
-	serial, firmware, offsetRead, gainRead, store, unlock template
-	offsetWrite, gainWrite                                template
+	serial, firmware, store, unlock                        template
+	offsetRead, gainRead, coefGainRead, coefOffsetRead     template
+	read                                                   template
+	offsetWrite, gainWrite, coefGainWrite, coefOffsetWrite template
 }
 
 // compilePort compiles the card's command set; an error names the settings key. Only
-// the commands of DACs the card has count, and no two may be the same command.
+// the commands of what the card has count, and no two may be the same command.
 func compilePort(c card) (port, error) {
 	var p port
 	seen := map[string]string{}
 	for _, f := range []struct {
 		key, text string
 		dst       *template
-		code, use bool
+		value     string
+		channel   bool
+		use       bool
 	}{
-		{"cmd_serial", c.proto.Serial, &p.serial, false, true},
-		{"cmd_firmware", c.proto.Firmware, &p.firmware, false, true},
-		{"cmd_offset_write", c.proto.OffsetWrite, &p.offsetWrite, true, c.trim.HasOffset()},
-		{"cmd_offset_read", c.proto.OffsetRead, &p.offsetRead, false, c.trim.HasOffset()},
-		{"cmd_gain_write", c.proto.GainWrite, &p.gainWrite, true, c.trim.HasGain()},
-		{"cmd_gain_read", c.proto.GainRead, &p.gainRead, false, c.trim.HasGain()},
-		{"cmd_store", c.proto.Store, &p.store, false, true},
-		{"cmd_unlock", c.proto.Unlock, &p.unlock, false, c.proto.Unlock != ""},
+		{"cmd_serial", c.proto.Serial, &p.serial, "", false, true},
+		{"cmd_firmware", c.proto.Firmware, &p.firmware, "", false, true},
+		{"cmd_offset_write", c.proto.OffsetWrite, &p.offsetWrite, CodePlaceholder, true, c.trim.HasOffset()},
+		{"cmd_offset_read", c.proto.OffsetRead, &p.offsetRead, "", true, c.trim.HasOffset()},
+		{"cmd_gain_write", c.proto.GainWrite, &p.gainWrite, CodePlaceholder, true, c.trim.HasGain()},
+		{"cmd_gain_read", c.proto.GainRead, &p.gainRead, "", true, c.trim.HasGain()},
+		{"cmd_store", c.proto.Store, &p.store, "", false, true},
+		{"cmd_unlock", c.proto.Unlock, &p.unlock, "", false, c.proto.Unlock != ""},
+		{"cmd_read", c.proto.Read, &p.read, "", true, c.output == OutputReported},
+		{"cmd_coef_gain_write", c.proto.CoefGainWrite, &p.coefGainWrite, ValuePlaceholder, true, c.coef.hasGain()},
+		{"cmd_coef_gain_read", c.proto.CoefGainRead, &p.coefGainRead, "", true, c.coef.hasGain()},
+		{"cmd_coef_offset_write", c.proto.CoefOffsetWrite, &p.coefOffsetWrite, ValuePlaceholder, true, c.coef.hasOffset()},
+		{"cmd_coef_offset_read", c.proto.CoefOffsetRead, &p.coefOffsetRead, "", true, c.coef.hasOffset()},
 	} {
 		if !f.use {
 			continue
 		}
-		t, err := compileTemplate(f.key, f.text, f.code)
+		t, err := compileTemplate(f.key, f.text, f.value, f.channel)
 		if err != nil {
 			return port{}, err
 		}
-		id := t.prefix + "\x00" + t.suffix + "\x00" + strconv.FormatBool(t.code)
+		id := strings.NewReplacer(CodePlaceholder, "{v}", ValuePlaceholder, "{v}").Replace(normLine(f.text))
 		if other, ok := seen[id]; ok {
 			return port{}, settingErr(f.key, "%q is also %s", f.text, other)
 		}

@@ -37,7 +37,11 @@ type DUTSettings struct {
 	GainError *float64 // fraction, override: per-unit gain error; nil = drawn
 
 	// The card's design and trim port. Every zero value means the demo card's, so a
-	// DUTSettings that leaves these out describes the BRX-200.
+	// DUTSettings that leaves these out describes the BRX-200. With Output
+	// OutputCurrent the output-referred values (Gain per volt, OutputAtZero,
+	// GainPivot, the rails, and above Offset, OffsetSigma, Noise and OffsetLSB after
+	// the gain stage) are in A and the zero values mean the Current* constants;
+	// ParseDUTSettings also sets OffsetSigma, Noise and OffsetLSB to those.
 	Gain         float64    // V/V, nominal closed-loop gain, non-zero, negative if inverting; 0 = NominalGain (200)
 	OutputAtZero *float64   // V, output at zero input with no trim correction; nil = Vmid (2.5 V)
 	GainPivot    *float64   // V, output the gain trim scales about; nil = the output at zero input
@@ -52,6 +56,68 @@ type DUTSettings struct {
 	CodeFormat   CodeFormat // how the port writes and reads codes; "" = CodeDecimal
 	Protocol     Protocol   // the port's command templates; empty fields = the demo card's
 	Firmware     string     // the reply to Protocol.Firmware; "" = Firmware
+
+	// Output is what the card's output is: OutputVoltage ("" too), OutputCurrent (a
+	// loop current: gain in A/V, output_at_zero, rails, offsets and noise in A) or
+	// OutputReported (a voltage digitised and answered on the port).
+	Output   Output
+	ADCLSB   float64 // V per count at the converter of a reported card; 0 = DefaultADCLSB (312.5 µV)
+	ADCBits  int     // bits of the converter (signed counts); 0 = DefaultADCBits (16)
+	Channels int     // channels of the card, 1..MaxChannels; 0 = 1
+
+	SupplyCurrent      float64 // A, nominal supply current of a unit; 0 = DefaultSupplyCurrent (1.2 mA)
+	SupplyCurrentSigma float64 // fraction, σ of a unit's supply current; 3 %
+
+	Coef Coefficients // firmware correction coefficients; zero = none
+}
+
+// Output is the kind of a card's output.
+type Output string
+
+const (
+	OutputVoltage  Output = "voltage"  // a voltage the meter reads (the demo card)
+	OutputCurrent  Output = "current"  // a loop current (4–20 mA) the meter reads in FuncCurrent
+	OutputReported Output = "reported" // digitised by the card and answered by cmd_read in counts
+)
+
+// Defaults of a reported card's converter and of a unit's supply.
+const (
+	DefaultADCLSB        = 312.5e-6 // V per count
+	DefaultADCBits       = 16
+	DefaultSupplyCurrent = 1.2e-3 // A
+	DefaultSupplySigma   = 0.03   // fraction
+	MaxChannels          = 16
+)
+
+// Defaults of a current-output card (output: current), where a voltage card's
+// defaults make no sense: a 4–20 mA loop for 0..20 mV in, output-referred values
+// scaled by 4 mA/V (the 16 mA span over the voltage card's 4 V).
+const (
+	CurrentGain         = 0.8     // A/V
+	CurrentAtZero       = 4e-3    // A
+	CurrentRailLow      = 3.8e-3  // A
+	CurrentRailHigh     = 21e-3   // A
+	CurrentRailKnee     = 0.1e-3  // A
+	CurrentOffsetSigma  = 12e-6   // A
+	CurrentNoise        = 80e-9   // A rms
+	CurrentOffsetLSB    = 48.8e-9 // A per offset code (after the gain stage)
+	currentPerVoltShare = 4e-3    // A/V: how the voltage defaults scale
+)
+
+// Coefficients describe a card's firmware correction: corrected = Gain·raw + Offset,
+// applied to each channel's output before the rails (voltage, current) or before
+// digitisation (reported).
+type Coefficients struct {
+	Use          Trim    // which coefficients the card has; "" = none
+	GainFormat   string  // numfmt name of the gain; "" = Q2.14
+	OffsetFormat string  // numfmt name of the offset; "" = float32
+	GainScale    float64 // int<bits> gain: value of one count; 0 = 1e-4
+	OffsetScale  float64 // int<bits> offset: value of one count in OffsetUnit's numbers; 0 = 1
+	// OffsetUnit is the unit the offset number is in ("mA", "count", "V"); "" = the
+	// output's SI unit (V, A, or count for a reported card).
+	OffsetUnit    string
+	OffsetScaleSI bool // OffsetScale was written as a voltage or current
+	Hex           bool // coef_text: hex; decimal otherwise
 }
 
 // card is the resolved design of DUTSettings: every default filled in.
@@ -62,6 +128,11 @@ type card struct {
 	format                                                     CodeFormat
 	proto                                                      Protocol
 	firmware                                                   string
+	output                                                     Output
+	adcLSB                                                     float64 // V per count
+	adcBits                                                    int
+	channels                                                   int
+	coef                                                       coefs // resolved correction; coef.use "" = none
 }
 
 // card resolves the design settings to the values the model uses.
@@ -72,11 +143,18 @@ func (s DUTSettings) card() card {
 		}
 		return *p
 	}
+	cur := s.Output == OutputCurrent
+	pick := func(v, i float64) float64 {
+		if cur {
+			return i
+		}
+		return v
+	}
 	c := card{
 		gain:         s.Gain,
-		outputAtZero: orDefault(s.OutputAtZero, Vmid),
-		railLow:      orDefault(s.RailLow, 0),
-		railHigh:     orDefault(s.RailHigh, Supply),
+		outputAtZero: orDefault(s.OutputAtZero, pick(Vmid, CurrentAtZero)),
+		railLow:      orDefault(s.RailLow, pick(0, CurrentRailLow)),
+		railHigh:     orDefault(s.RailHigh, pick(Supply, CurrentRailHigh)),
 		railKnee:     s.RailKnee,
 		trim:         s.Trim,
 		offsetDAC:    DAC{Bits: s.OffsetBits, TwosComplement: s.OffsetCoding == CodingTwosComplement},
@@ -87,11 +165,26 @@ func (s DUTSettings) card() card {
 	}
 	c.gainPivot = orDefault(s.GainPivot, c.outputAtZero)
 	if c.gain == 0 {
-		c.gain = NominalGain
+		c.gain = pick(NominalGain, CurrentGain)
 	}
 	if c.railKnee == 0 {
-		c.railKnee = RailKnee
+		c.railKnee = pick(RailKnee, CurrentRailKnee)
 	}
+	c.output = s.Output
+	if c.output == "" {
+		c.output = OutputVoltage
+	}
+	c.adcLSB, c.adcBits, c.channels = s.ADCLSB, s.ADCBits, s.Channels
+	if c.adcLSB == 0 {
+		c.adcLSB = DefaultADCLSB
+	}
+	if c.adcBits == 0 {
+		c.adcBits = DefaultADCBits
+	}
+	if c.channels == 0 {
+		c.channels = 1
+	}
+	c.coef, _ = s.Coef.resolve(c.output) // checked by checkCard
 	if c.trim == "" {
 		c.trim = TrimBoth
 	}
@@ -119,6 +212,9 @@ func DefaultDUTSettings() DUTSettings {
 		Noise:            20e-6,
 		Tau:              1e-3,
 		DefectRate:       0.02,
+
+		SupplyCurrent:      DefaultSupplyCurrent,
+		SupplyCurrentSigma: DefaultSupplySigma,
 	}
 }
 
@@ -138,6 +234,7 @@ const (
 	modelSource = "source"
 	modelMeter  = "meter"
 	modelDUT    = "dut"
+	modelSwitch = "switch"
 )
 
 // benchKeys are the bench-wide settings, allowed in any spec of a group.
@@ -170,6 +267,16 @@ type meterConfig struct {
 	gainError   *float64 // fraction
 	offset      *float64 // V
 	force       instruments.Flag
+	supply      bool // probe: supply (the unit's supply current) rather than output
+
+	// The current function (FuncCurrent), like the voltage one.
+	iSpecReading float64  // fraction of reading; 200 ppm
+	iSpecRange   float64  // fraction of range; 20 ppm
+	iRng         float64  // A, power-on current range; 100 mA
+	iResolution  float64  // A on the 100 mA range; scales with range; 10 nA
+	iNoise       float64  // A rms at 1 PLC; 5 nA
+	iGainError   *float64 // fraction
+	iOffset      *float64 // A
 }
 
 // config is one spec's parsed settings.
@@ -193,6 +300,7 @@ func defaultConfig(model string) config {
 		meter: meterConfig{
 			specReading: 30e-6, specRange: 4e-6, rng: 10, nplc: 1, lineFreq: 50,
 			resolution: 1e-6, noise: 1.5e-6,
+			iSpecReading: 200e-6, iSpecRange: 20e-6, iRng: 0.1, iResolution: 10e-9, iNoise: 5e-9,
 		},
 		dut: DefaultDUTSettings(),
 	}
@@ -359,7 +467,23 @@ func (c *config) setters() map[string]setter {
 func parseSettings(model string, settings map[string]string) (config, error) {
 	c := defaultConfig(model)
 	set := c.setters()
+	// The output kind and offset_trim decide the dimension of other keys: parse
+	// them first.
+	first := []string{"output", "offset_trim"}
+	for _, k := range first {
+		if v, ok := settings[k]; ok && model == modelDUT {
+			if err := set[k](k, v); err != nil {
+				return c, err
+			}
+		}
+	}
+	if model == modelDUT && c.dut.Output == OutputCurrent {
+		c.dut.OffsetSigma, c.dut.Noise, c.dut.OffsetLSB = CurrentOffsetSigma, CurrentNoise, CurrentOffsetLSB
+	}
 	for _, k := range slices.Sorted(maps.Keys(settings)) {
+		if model == modelDUT && slices.Contains(first, k) {
+			continue
+		}
 		f, ok := set[k]
 		if !ok {
 			return c, unknownKey(model, k)
@@ -376,6 +500,9 @@ func parseSettings(model string, settings map[string]string) (config, error) {
 			c.dut.OffsetLSB = DefaultOffsetLSB / NominalGain
 			if g := c.dut.card().gain; g != NominalGain {
 				c.dut.OffsetLSB = DefaultOffsetLSB / math.Abs(g)
+			}
+			if c.dut.Output == OutputCurrent {
+				c.dut.OffsetLSB = CurrentOffsetLSB / math.Abs(c.dut.card().gain)
 			}
 		}
 		if err := checkCard(c.dut, settings); err != nil {
@@ -397,11 +524,29 @@ func checkCard(s DUTSettings, given map[string]string) error {
 				break
 			}
 		}
+		u := "V"
+		if c.output == OutputCurrent {
+			u = "A"
+		}
 		return settingErr(key, "rails %s..%s leave no room inside two knees of %s",
-			units.Format(c.railLow, "V", 4), units.Format(c.railHigh, "V", 4), units.Format(c.railKnee, "V", 4))
+			units.Format(c.railLow, u, 4), units.Format(c.railHigh, u, 4), units.Format(c.railKnee, u, 4))
+	}
+	if _, err := s.Coef.resolve(c.output); err != nil {
+		return err
 	}
 	_, err := compilePort(c)
 	return err
+}
+
+// wordOf sets a one-word setting (a format or unit name).
+func wordOf(p *string) setter {
+	return func(k, val string) error {
+		*p = strings.TrimSpace(val)
+		if *p == "" || strings.ContainsAny(*p, " \t") {
+			return settingErr(k, "%q: expected one word", val)
+		}
+		return nil
+	}
 }
 
 func unknownKey(model, key string) error {
@@ -444,11 +589,27 @@ func (c *meterConfig) setters() map[string]setter {
 			}
 			return err
 		},
-		"line_frequency": positiveOf(&c.lineFreq, units.Hertz),
-		"resolution":     nonNegativeOf(&c.resolution, units.Volt),
-		"noise":          nonNegativeOf(&c.noise, units.Volt),
-		"gain_error":     overrideOf(&c.gainError, units.Ratio),
-		"offset":         overrideOf(&c.offset, units.Volt),
+		"line_frequency":           positiveOf(&c.lineFreq, units.Hertz),
+		"resolution":               nonNegativeOf(&c.resolution, units.Volt),
+		"noise":                    nonNegativeOf(&c.noise, units.Volt),
+		"gain_error":               overrideOf(&c.gainError, units.Ratio),
+		"offset":                   overrideOf(&c.offset, units.Volt),
+		"probe":                    choiceOf(&c.supply, "output", "supply"),
+		"current_spec_ppm_reading": ppmOf(&c.iSpecReading),
+		"current_spec_ppm_range":   ppmOf(&c.iSpecRange),
+		"current_range": func(k, val string) error {
+			v, err := nonNegative(k, val, units.Ampere)
+			if err == nil {
+				if c.iRng, err = currentRange(v); err != nil {
+					err = settingErr(k, "%v", err)
+				}
+			}
+			return err
+		},
+		"current_resolution": nonNegativeOf(&c.iResolution, units.Ampere),
+		"current_noise":      nonNegativeOf(&c.iNoise, units.Ampere),
+		"current_gain_error": overrideOf(&c.iGainError, units.Ratio),
+		"current_offset":     overrideOf(&c.iOffset, units.Ampere),
 		"force_flag": func(k, val string) error {
 			v, err := choice(k, val, "none", "overload", "nan")
 			c.force = map[string]instruments.Flag{"none": instruments.FlagNone,
@@ -496,12 +657,24 @@ func commandOf(p *string) setter {
 // setters returns the setters of the DUT's own keys; offset_lsb also sets
 // *offsetLSBSet.
 func (s *DUTSettings) setters(offsetLSBSet *bool) map[string]setter {
+	// out is the dimension of the card's output-referred values: A for a current
+	// output, V otherwise. parseSettings sets output (and offset_trim) before the
+	// other keys, so it is known when they are parsed.
+	out := func() units.Dim {
+		if s.Output == OutputCurrent {
+			return units.Ampere
+		}
+		return units.Volt
+	}
+	outSetter := func(mk func(units.Dim) setter) setter {
+		return func(k, val string) error { return mk(out())(k, val) }
+	}
 	return map[string]setter{
-		"offset":         overrideOf(&s.Offset, units.Volt),
+		"offset":         outSetter(func(d units.Dim) setter { return overrideOf(&s.Offset, d) }),
 		"gain_error":     overrideOf(&s.GainError, units.Ratio),
-		"offset_sigma":   nonNegativeOf(&s.OffsetSigma, units.Volt),
+		"offset_sigma":   outSetter(func(d units.Dim) setter { return nonNegativeOf(&s.OffsetSigma, d) }),
 		"gain_sigma":     nonNegativeOf(&s.GainSigma, units.Ratio),
-		"noise":          nonNegativeOf(&s.Noise, units.Volt),
+		"noise":          outSetter(func(d units.Dim) setter { return nonNegativeOf(&s.Noise, d) }),
 		"tau":            nonNegativeOf(&s.Tau, units.Second),
 		"crossover_step": nonNegativeOf(&s.CrossoverStep, units.Volt),
 		"crossover_at":   quantityOf(&s.CrossoverAt, units.Volt),
@@ -526,7 +699,11 @@ func (s *DUTSettings) setters(offsetLSBSet *bool) map[string]setter {
 		},
 		"offset_lsb": func(k, val string) error {
 			*offsetLSBSet = true
-			return positiveOf(&s.OffsetLSB, units.Volt)(k, val)
+			d := out()
+			if s.OffsetTrimBefore {
+				d = units.Volt
+			}
+			return positiveOf(&s.OffsetLSB, d)(k, val)
 		},
 		"gain_lsb":    positiveOf(&s.GainLSB, units.Ratio),
 		"offset_trim": choiceOf(&s.OffsetTrimBefore, "after", "before"),
@@ -537,15 +714,56 @@ func (s *DUTSettings) setters(offsetLSBSet *bool) map[string]setter {
 		},
 		"gain": func(k, val string) (err error) {
 			if s.Gain, err = plain(k, val); err == nil && (s.Gain == 0 || math.IsInf(s.Gain, 0) || math.IsNaN(s.Gain)) {
-				err = settingErr(k, "%q: expected a finite, non-zero gain in V/V", val)
+				err = settingErr(k, "%q: expected a finite, non-zero gain in V/V (A/V for a current output)", val)
 			}
 			return err
 		},
-		"output_at_zero": overrideOf(&s.OutputAtZero, units.Volt),
-		"gain_pivot":     overrideOf(&s.GainPivot, units.Volt),
-		"rail_low":       overrideOf(&s.RailLow, units.Volt),
-		"rail_high":      overrideOf(&s.RailHigh, units.Volt),
-		"rail_knee":      positiveOf(&s.RailKnee, units.Volt),
+		"output_at_zero": outSetter(func(d units.Dim) setter { return overrideOf(&s.OutputAtZero, d) }),
+		"gain_pivot":     outSetter(func(d units.Dim) setter { return overrideOf(&s.GainPivot, d) }),
+		"rail_low":       outSetter(func(d units.Dim) setter { return overrideOf(&s.RailLow, d) }),
+		"rail_high":      outSetter(func(d units.Dim) setter { return overrideOf(&s.RailHigh, d) }),
+		"rail_knee":      outSetter(func(d units.Dim) setter { return positiveOf(&s.RailKnee, d) }),
+		"output": func(k, val string) error {
+			v, err := choice(k, val, string(OutputVoltage), string(OutputCurrent), string(OutputReported))
+			s.Output = Output(v)
+			return err
+		},
+		"adc_lsb": positiveOf(&s.ADCLSB, units.Volt),
+		"adc_bits": func(k, val string) (err error) {
+			s.ADCBits, err = strconv.Atoi(strings.TrimSpace(val))
+			if err != nil || s.ADCBits < 2 || s.ADCBits > 32 {
+				err = settingErr(k, "%q: expected a whole number of bits, 2 to 32", val)
+			}
+			return err
+		},
+		"channels": func(k, val string) (err error) {
+			s.Channels, err = strconv.Atoi(strings.TrimSpace(val))
+			if err != nil || s.Channels < 1 || s.Channels > MaxChannels {
+				err = settingErr(k, "%q: expected a whole number of channels, 1 to %d", val, MaxChannels)
+			}
+			return err
+		},
+		"supply_current":       positiveOf(&s.SupplyCurrent, units.Ampere),
+		"supply_current_sigma": nonNegativeOf(&s.SupplyCurrentSigma, units.Ratio),
+		"coef": func(k, val string) error {
+			v, err := choice(k, val, "none", string(TrimGain), string(TrimOffset), string(TrimBoth))
+			s.Coef.Use = Trim(v)
+			if v == "none" {
+				s.Coef.Use = ""
+			}
+			return err
+		},
+		"coef_gain_format":      wordOf(&s.Coef.GainFormat),
+		"coef_offset_format":    wordOf(&s.Coef.OffsetFormat),
+		"coef_gain_scale":       coefScaleOf(&s.Coef.GainScale, nil),
+		"coef_offset_scale":     coefScaleOf(&s.Coef.OffsetScale, &s.Coef.OffsetScaleSI),
+		"coef_offset_unit":      wordOf(&s.Coef.OffsetUnit),
+		"coef_text":             choiceOf(&s.Coef.Hex, "decimal", "hex"),
+		"cmd_read":              commandOf(&s.Protocol.Read),
+		"cmd_coef_gain_write":   commandOf(&s.Protocol.CoefGainWrite),
+		"cmd_coef_gain_read":    commandOf(&s.Protocol.CoefGainRead),
+		"cmd_coef_offset_write": commandOf(&s.Protocol.CoefOffsetWrite),
+		"cmd_coef_offset_read":  commandOf(&s.Protocol.CoefOffsetRead),
 		"trim": func(k, val string) error {
 			v, err := choice(k, val, string(TrimBoth), string(TrimOffset), string(TrimGain))
 			s.Trim = Trim(v)

@@ -88,9 +88,9 @@ func (s *Source) Clock() instruments.Clock { return s.bench.clock }
 // drive sets the output state and level; when that moves the DUT input, the DUT
 // starts settling towards the new input now. Called with the bench lock held.
 func (s *Source) drive(on bool, level float64) {
-	old := s.bench.dutInput()
+	old := s.bench.inputs()
 	s.on, s.level = on, level
-	s.bench.inputChanged(old)
+	s.bench.inputsChanged(s.bench.clock.Now(), old)
 }
 
 // SetLevel programs the output level in volts (|volts| ≤ the source range, 100 mV by
@@ -219,11 +219,9 @@ func (s *Source) expire(now time.Time) {
 	if s.on {
 		s.wdTrips++
 	}
-	old := s.bench.dutInput()
+	old := s.bench.inputs()
 	s.on, s.level = false, 0
-	if d := s.bench.dut; d != nil {
-		d.step(s.wdDeadline, old, s.bench.dutInput())
-	}
+	s.bench.inputsChanged(s.wdDeadline, old)
 }
 
 // Identify returns the source's invented identity.

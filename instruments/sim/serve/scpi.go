@@ -363,28 +363,38 @@ func newMeterHandler(m *sim.Meter) *scpiInstrument {
 		count, autozero = 1, true
 		return m.Reset(ctx)
 	}
-	s.add("CONFigure [VOLTage] [DC]", func(ctx context.Context, a []string) string {
-		r := 0.0
-		switch {
-		case len(a) > 1:
-			return errParamNotAllw
-		case len(a) == 0 || strings.EqualFold(a[0], "AUTO") || strings.EqualFold(a[0], "DEF"):
-		default:
-			v, e := number(a)
-			if e != "" {
-				return e
+	configure := func(f instruments.Function) func(ctx context.Context, a []string) string {
+		return func(ctx context.Context, a []string) string {
+			r := 0.0
+			switch {
+			case len(a) > 1:
+				return errParamNotAllw
+			case len(a) == 0 || strings.EqualFold(a[0], "AUTO") || strings.EqualFold(a[0], "DEF"):
+			default:
+				v, e := number(a)
+				if e != "" {
+					return e
+				}
+				if !(v > 0) {
+					return errOutOfRange
+				}
+				r = v
 			}
-			if !(v > 0) {
+			prev := m.Function()
+			if err := m.SetFunction(ctx, f); err != nil {
+				return `-200,"Execution error"`
+			}
+			if err := m.Configure(ctx, r, m.NPLC()); err != nil {
+				// A refused range leaves the meter as it was.
+				m.SetFunction(ctx, prev)
 				return errOutOfRange
 			}
-			r = v
+			return ""
 		}
-		if err := m.Configure(ctx, r, m.NPLC()); err != nil {
-			return errOutOfRange
-		}
-		return ""
-	}, nil)
-	s.add("[SENSe] VOLTage [DC] NPLCycles", func(ctx context.Context, a []string) string {
+	}
+	// nplc sets the integration time (shared by both functions, as on the model);
+	// the function's own header is accepted whatever the function.
+	nplc := func(ctx context.Context, a []string) string {
 		v, e := number(a)
 		if e != "" {
 			return e
@@ -393,9 +403,14 @@ func newMeterHandler(m *sim.Meter) *scpiInstrument {
 			return errOutOfRange
 		}
 		return ""
-	}, func(ctx context.Context, a []string) (string, string) {
+	}
+	nplcQuery := func(ctx context.Context, a []string) (string, string) {
 		return formatNumber(m.NPLC()), noArgs(a)
-	})
+	}
+	s.add("CONFigure [VOLTage] [DC]", configure(instruments.FuncVoltage), nil)
+	s.add("CONFigure CURRent [DC]", configure(instruments.FuncCurrent), nil)
+	s.add("[SENSe] VOLTage [DC] NPLCycles", nplc, nplcQuery)
+	s.add("[SENSe] CURRent [DC] NPLCycles", nplc, nplcQuery)
 	s.add("[SENSe] ZERO AUTO", func(ctx context.Context, a []string) string {
 		if len(a) == 1 && strings.EqualFold(a[0], "ONCE") {
 			return ""
@@ -440,5 +455,38 @@ func newMeterHandler(m *sim.Meter) *scpiInstrument {
 		}
 		return strings.Join(out, ","), ""
 	})
+	return s
+}
+
+// newSwitchHandler serves a sim.Switch: ROUTe:CLOSe (@<channel>) routes one
+// channel, ROUTe:OPEN:ALL releases every path, ROUTe:CLOSe? answers (@<channel>),
+// or (@) when released. A channel the switch refuses pushes -222.
+func newSwitchHandler(sw *sim.Switch) *scpiInstrument {
+	s := &scpiInstrument{identify: sw.Identify, reset: sw.Reset}
+	s.add("ROUTe CLOSe", func(ctx context.Context, a []string) string {
+		switch {
+		case len(a) == 0 || a[0] == "":
+			return errMissingParam
+		case len(a) > 1:
+			return errParamNotAllw
+		}
+		ch, ok := strings.CutPrefix(a[0], "(@")
+		if ch, ok = strings.CutSuffix(ch, ")"); !ok || ch == "" {
+			return errDataType
+		}
+		if err := sw.Route(ctx, ch); err != nil {
+			return errOutOfRange
+		}
+		return ""
+	}, func(ctx context.Context, a []string) (string, string) {
+		return "(@" + sw.Routed() + ")", noArgs(a)
+	})
+	s.add("ROUTe OPEN ALL", func(ctx context.Context, a []string) string {
+		if e := noArgs(a); e != "" {
+			return e
+		}
+		sw.Release(ctx)
+		return ""
+	}, nil)
 	return s
 }

@@ -343,3 +343,43 @@ func TestSourceWatchdogCommands(t *testing.T) {
 		w.want("SYST:ERR?", `0,"No error"`)
 	}
 }
+
+// The served switch and the meter's current function, line by line, on a two-channel
+// current card (quiet: 4 mA + 0 offset at zero input, the seed's offset overridden).
+func TestSwitchAndCurrentCommands(t *testing.T) {
+	sp := specs()
+	sp[1].Settings = map[string]string{"noise": "0V", "gain_error": "0", "offset": "0V", "nplc": "0.01",
+		"current_noise": "0A", "current_gain_error": "0", "current_offset": "0A"}
+	sp[2].Settings = map[string]string{"seed": "3", "output": "current", "channels": "2", "offset": "0A", "noise": "0A"}
+	sp = append(sp, instruments.Spec{Role: "mux", Kind: instruments.KindSwitch, Address: "sim://switch"})
+	srv, err := serve.Start(context.Background(), sp, serve.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	t.Cleanup(func() { srv.Close() })
+	if err := srv.LoadUnit(context.Background(), "LP-000001"); err != nil {
+		t.Fatal(err)
+	}
+	sw, m := connect(t, srv, "mux"), connect(t, srv, "meter")
+	sw.want("*IDN?", "Trimline Sim,RM-16,RM000003,1.0")
+	sw.want("ROUT:CLOS?", "(@)")
+	m.send("CONF:CURR:DC")
+	m.want("READ?", "+0.000000000E+00") // released: nothing on the meter
+	sw.send("ROUT:CLOS (@2)")
+	sw.want("ROUTE:CLOSE?", "(@2)")
+	time.Sleep(20 * time.Millisecond)   // real time: τ = 1 ms
+	m.want("READ?", "+4.000000000E-03") // 4 mA at zero input, offset 0
+	m.send("CURR:DC:NPLC 0.02")
+	m.want("SENS:CURR:DC:NPLC?", "+2.000000000E-02")
+	m.noReply("CONF:CURR:DC 5", `-222,"Data out of range"`)
+	m.send("CONF:VOLT:DC")
+	m.want("READ?", "+0.000000000E+00") // a current card shows no voltage
+	sw.noReply("ROUT:CLOS (@3)", `-222,"Data out of range"`)
+	sw.noReply("ROUT:CLOS 2", `-104,"Data type error"`)
+	sw.want("ROUT:CLOS?", "(@2)")
+	sw.send("ROUT:OPEN:ALL")
+	sw.want("ROUT:CLOS?", "(@)")
+	sw.send("ROUT:CLOS (@1)")
+	sw.send("*RST")
+	sw.want("ROUT:CLOS?", "(@)")
+}

@@ -1,5 +1,6 @@
-// Package serve puts a simulated bench (package sim) on a real wire: the source and
-// the meter answer as SCPI instruments and the DUT fixture as its line trim port,
+// Package serve puts a simulated bench (package sim) on a real wire: the source, the
+// meter and the switch answer as SCPI instruments and the DUT fixture as its line
+// trim port,
 // each on an endpoint of its own, over loopback TCP, pseudo-terminals that stand in
 // for serial ports, or (Linux) pseudo-terminals in canonical mode that stand in for
 // the USBTMC class driver's character device (one response per read). Tests and
@@ -34,11 +35,18 @@
 // +301,"Output watchdog ran out: output off, 0 V". *RST: output off, 0 V, 10 mA,
 // full range, watchdog disarmed.
 //
-// Meter (sim.Meter): CONFigure[:VOLTage][:DC] [<range V>|AUTO|DEF] (no value, AUTO or
-// DEF: autorange, which is the 10 V range); [SENSe:]VOLTage[:DC]:NPLCycles <n> and ?
-// (0.001..100); [SENSe:]ZERO:AUTO ON|OFF|ONCE|1|0 and ?; SAMPle:COUNt <n> and ?
-// (1..1000); READ? (n comma-separated readings; an overload is ±9.9E37).
-// *RST: the meter's power-on range and NPLC, count 1, autozero on.
+// Meter (sim.Meter): CONFigure[:VOLTage][:DC] [<range V>|AUTO|DEF] (selects DC
+// voltage; no value, AUTO or DEF: autorange, which is the 10 V range);
+// CONFigure:CURRent[:DC] [<range A>|AUTO|DEF] (selects DC current; autorange is the
+// 100 mA range); [SENSe:]VOLTage[:DC]:NPLCycles and [SENSe:]CURRent[:DC]:NPLCycles
+// <n> and ? (0.001..100, one integration time for both); [SENSe:]ZERO:AUTO
+// ON|OFF|ONCE|1|0 and ?; SAMPle:COUNt <n> and ? (1..1000); READ? (n comma-separated
+// readings in the selected function; an overload is ±9.9E37). *RST: DC voltage, the
+// meter's power-on ranges and NPLC, count 1, autozero on.
+//
+// Switch (sim.Switch): ROUTe:CLOSe (@<channel>) routes one channel (a channel the
+// card does not have pushes -222); ROUTe:CLOSe? answers (@<channel>), or (@) when
+// released; ROUTe:OPEN:ALL releases every path. *RST releases.
 //
 // # DUT
 //
@@ -160,9 +168,9 @@ type Server struct {
 	stopCtx   func() bool
 }
 
-// Start builds one sim.Bench from specs (sim://source, sim://meter, sim://dut
-// addresses with their settings; at most one of each; each spec's Role names its
-// endpoint) with time: real, and serves every instrument. A spec asking for time:
+// Start builds one sim.Bench from specs (sim://source, sim://meter, sim://dut,
+// sim://switch addresses with their settings; at most one of each but meters; each
+// spec's Role names its endpoint) with time: real, and serves every instrument. A spec asking for time:
 // simulated is an error, as is an unknown transport or a serial/usbtmc transport on
 // a system without pseudo-terminals. When ctx is done the server closes; ctx
 // cancellation does not interrupt Start itself, which does not block.
@@ -207,7 +215,7 @@ func Start(ctx context.Context, specs []instruments.Spec, opt Options) (*Server,
 	}
 	sctx, cancel := context.WithCancel(context.WithoutCancel(ctx))
 	s := &Server{bench: b, opt: opt, ctx: sctx, cancel: cancel, endpoints: map[string]*endpoint{}, addrs: map[string]string{}, models: map[string]string{}}
-	for _, sp := range local {
+	for i, sp := range local {
 		u, _ := url.Parse(sp.Address)
 		var h handler
 		model := strings.ToLower(u.Hostname())
@@ -216,9 +224,11 @@ func Start(ctx context.Context, specs []instruments.Spec, opt Options) (*Server,
 		case "source":
 			h = newSourceHandler(b.Source())
 		case "meter":
-			h = newMeterHandler(b.Meter())
+			h = newMeterHandler(b.Instrument(i).(*sim.Meter))
 		case "dut":
 			h = &dutHandler{dut: b.DUT(), lidOpenAfter: opt.LidOpenAfter}
+		case "switch":
+			h = newSwitchHandler(b.Switch())
 		}
 		ep := &endpoint{srv: s, role: sp.Role, h: h, fault: opt.Faults[sp.Role]}
 		s.endpoints[sp.Role] = ep

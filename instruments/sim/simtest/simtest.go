@@ -27,10 +27,23 @@ func QuietSpecs() []instruments.Spec {
 // "serial" where there are no pseudo-terminals.
 func Serve(t testing.TB, opt serve.Options) *serve.Server {
 	t.Helper()
+	return ServeSpecs(t, QuietSpecs(), opt)
+}
+
+// SwitchSpec is a relay multiplexer (sim://switch) to add to QuietSpecs; with it the
+// bench starts with every path open, so the meter reads ≈ 0 until a channel is
+// routed.
+func SwitchSpec() instruments.Spec {
+	return instruments.Spec{Role: "mux", Kind: instruments.KindSwitch, Address: "sim://switch"}
+}
+
+// ServeSpecs is Serve with specs of the caller's (e.g. QuietSpecs plus SwitchSpec).
+func ServeSpecs(t testing.TB, specs []instruments.Spec, opt serve.Options) *serve.Server {
+	t.Helper()
 	if opt.Transport == "serial" && runtime.GOOS != "linux" && runtime.GOOS != "darwin" {
 		t.Skip("no pseudo-terminals here")
 	}
-	srv, err := serve.Start(context.Background(), QuietSpecs(), opt)
+	srv, err := serve.Start(context.Background(), specs, opt)
 	if err != nil {
 		t.Fatal(err)
 	}
