@@ -6,7 +6,6 @@ import (
 	"errors"
 	"fmt"
 	"math"
-	"sort"
 	"strconv"
 	"strings"
 
@@ -44,6 +43,7 @@ type limitForm struct {
 	Rule        *string        `yaml:"rule"`
 	GuardFactor *float64       `yaml:"guard_factor"`
 	Statements  *string        `yaml:"statements"`
+	Channel     *string        `yaml:"channel"`
 }
 
 // LoadFile reads the limit file at path and loads it with Load, naming it path in
@@ -137,6 +137,7 @@ func load(name string, data []byte, cat Catalog) (*Set, files.List, *files.Doc) 
 	}
 	hdr, dec, entries, vars := l.decode()
 	set := &Set{File: name, SHA256: hex.EncodeToString(sum[:])}
+	set.setChannels(cat)
 	if hdr.ok {
 		l.header(hdr.form, set)
 	}
@@ -556,6 +557,7 @@ func (l *loader) limit(s *entrySrc, f *limitForm) *Limit {
 			}
 		}
 	}
+	l.checkChannel(s, lim, f)
 	usesOK := false
 	if f.Uses == nil {
 		l.requiredAt(s.of("uses"), "uses", nil, false, missing("uses"))
@@ -630,7 +632,7 @@ func (l *loader) uses(path string, names []string) bool {
 	seen := map[string]int{}
 	for j, n := range names {
 		p := fmt.Sprintf("%s[%d]", path, j)
-		if _, known := l.cat[n]; !known {
+		if _, known := l.cat[n]; !known || strings.Contains(n, "@") {
 			l.errs = append(l.errs, l.doc.Errorf(p, "unknown result name %q (known: %s)", n, strings.Join(l.known(), ", ")))
 			ok = false
 		} else if k, dup := seen[n]; dup {
@@ -642,14 +644,7 @@ func (l *loader) uses(path string, names []string) bool {
 	return ok
 }
 
-func (l *loader) known() []string {
-	names := make([]string, 0, len(l.cat))
-	for n := range l.cat {
-		names = append(names, n)
-	}
-	sort.Strings(names)
-	return names
-}
+func (l *loader) known() []string { return l.cat.names() }
 
 // compile compiles the expression of the limit at s with only its uses in scope,
 // as float64. Errors are positioned at the offending character of the expression

@@ -1,0 +1,118 @@
+package limits_test
+
+import (
+	"strings"
+	"testing"
+
+	"trimline/instruments/files"
+	"trimline/instruments/units"
+	"trimline/limits"
+)
+
+// chanCatalog is a three-channel unit: out_offset per channel, supply_current
+// of the whole unit.
+var chanCatalog = limits.Catalog{
+	"out_offset": units.Volt, "out_offset@1": units.Volt, "out_offset@2": units.Volt, "out_offset@3": units.Volt,
+	"supply": units.Volt,
+}
+
+const chanLimits = `limit_set: {name: three, revision: "1", product: TRI-3}
+limits:
+  - name: offset
+    description: offset of every channel
+    unit: uV
+    uses: [out_offset]
+    tolerance: {lower: -50, upper: 50}
+  - name: offset 2 tight
+    description: channel 2 feeds the reference
+    unit: uV
+    uses: [out_offset]
+    channel: "2"
+    expr: abs(out_offset) <= 10
+  - name: supply
+    description: the whole unit
+    unit: V
+    uses: [supply]
+    expr: supply < 2
+`
+
+// TestJudgePerChannel: a limit without a channel judges each channel, one with
+// channel "2" judges only channel 2, a limit over a unit-wide result judges once.
+// Hand-worked: channel offsets 20, 30, 60 µV against ±50 µV pass, pass, fail;
+// channel 2's 30 µV against |x| ≤ 10 µV fails; supply 1 V < 2 V passes.
+func TestJudgePerChannel(t *testing.T) {
+	set, err := limits.Load("chan.yaml", []byte(chanLimits), chanCatalog)
+	if err != nil {
+		t.Fatal(detail(err))
+	}
+	if got := strings.Join(set.Channels(), ","); got != "1,2,3" {
+		t.Fatalf("Channels = %s", got)
+	}
+	v := func(x float64) limits.Value { return limits.Value{V: x, Valid: true} }
+	res := map[string]limits.Value{
+		"out_offset@1": v(20e-6), "out_offset@2": v(30e-6), "out_offset@3": v(60e-6), "supply": v(1),
+	}
+	outs := set.Judge(res)
+	type want struct {
+		name, ch string
+		pass     bool
+		value    float64
+	}
+	wants := []want{{"offset", "1", true, 20}, {"offset", "2", true, 30}, {"offset", "3", false, 60},
+		{"offset 2 tight", "2", false, 30}, {"supply", "", true, 1}}
+	if len(outs) != len(wants) {
+		t.Fatalf("%d outcomes, want %d: %+v", len(outs), len(wants), outs)
+	}
+	for i, w := range wants {
+		o := outs[i]
+		if o.Name != w.name || o.Channel != w.ch || o.Pass != w.pass || o.Values[o.Uses[0]] != w.value {
+			t.Errorf("outcome %d = %s/%s pass=%v values=%v, want %s/%s pass=%v value %g", i, o.Name, o.Channel, o.Pass, o.Values, w.name, w.ch, w.pass, w.value)
+		}
+	}
+	if got := set.Overall(outs); got != limits.VerdictFail {
+		t.Errorf("Overall = %s, want fail", got)
+	}
+	per := make([]string, len(set.Limits))
+	if got := set.Verdicts(res, per); got != limits.VerdictFail || per[0] != limits.VerdictFail || per[1] != limits.VerdictFail || per[2] != limits.VerdictPass {
+		t.Errorf("Verdicts = %s %v, want fail [fail fail pass]", got, per)
+	}
+	// Channel 3 in tolerance: only the channel-2 limit fails.
+	res["out_offset@3"] = v(-5e-6)
+	if set.Verdicts(res, per); per[0] != limits.VerdictPass || per[1] != limits.VerdictFail {
+		t.Errorf("Verdicts per limit = %v, want [pass fail pass]", per)
+	}
+	// A channel whose result is missing fails that channel's outcome only.
+	delete(res, "out_offset@1")
+	outs = set.Judge(res)
+	if outs[0].Pass || !strings.Contains(outs[0].Reason, "no such result") || !outs[1].Pass {
+		t.Errorf("missing channel 1: %+v / %+v", outs[0], outs[1])
+	}
+}
+
+// TestChannelKeyErrors: a channel the sequence does not have, a channel on a
+// limit of the whole unit and a channel for a product without channels are each
+// a positioned error at the channel key.
+func TestChannelKeyErrors(t *testing.T) {
+	for _, tc := range []struct {
+		name, ch, uses string
+		cat            limits.Catalog
+		line, col      int
+		msg            string
+	}{
+		{"unknown", `"5"`, "out_offset", chanCatalog, 7, 14, `no channel "5": the sequence's channels are "1", "2", "3"`},
+		{"unit-wide", `"2"`, "supply", chanCatalog, 7, 14, `uses no per-channel result`},
+		{"no channels", `"2"`, "post_offset", catalog, 7, 14, `declares no channels`},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			data := "limit_set: {name: x, revision: \"1\", product: P}\nlimits:\n  - name: l\n    description: d\n    unit: uV\n    uses: [" + tc.uses + "]\n    channel: " + tc.ch + "\n    expr: " + tc.uses + " < 5\n"
+			if tc.uses == "supply" {
+				data = strings.Replace(data, "unit: uV", "unit: V", 1)
+			}
+			_, err := limits.Load("l.yaml", []byte(data), tc.cat)
+			es := files.Errs(err)
+			if len(es) != 1 || es[0].Line != tc.line || es[0].Col != tc.col || !strings.Contains(es[0].Msg, tc.msg) {
+				t.Fatalf("got %v, want one error at %d:%d containing %q", detail(err), tc.line, tc.col, tc.msg)
+			}
+		})
+	}
+}
