@@ -54,10 +54,14 @@ type Engine struct {
 	sources map[string]instruments.Source
 	meters  map[string]instruments.Meter
 	ports   map[string]instruments.TrimPort
-	meterAt map[string]MeterPlan // how each meter is configured now
-	clock   instruments.Clock
-	refs    []InstrumentRef
-	closed  bool
+	// switches are the switches by role; routed is the channel the sequence's
+	// switch is routed to ("" = released, or not known).
+	switches map[string]instruments.Switch
+	routed   string
+	meterAt  map[string]MeterPlan // how each meter is configured now
+	clock    instruments.Clock
+	refs     []InstrumentRef
+	closed   bool
 
 	// watchdogs are the sources' output watchdogs (those that have one): armed
 	// at every step, disarmed once the output is off.
@@ -92,7 +96,7 @@ func Open(ctx context.Context, cfg Config) (*Engine, error) {
 		return nil, err
 	}
 	e := &Engine{cfg: cfg, all: all, clock: instruments.RealClock{}, sources: map[string]instruments.Source{},
-		meters: map[string]instruments.Meter{}, ports: map[string]instruments.TrimPort{}, meterAt: map[string]MeterPlan{}}
+		meters: map[string]instruments.Meter{}, ports: map[string]instruments.TrimPort{}, switches: map[string]instruments.Switch{}, meterAt: map[string]MeterPlan{}}
 	fail := func(err error) (*Engine, error) {
 		e.Close()
 		return nil, err
@@ -126,6 +130,12 @@ func Open(ctx context.Context, cfg Config) (*Engine, error) {
 				return fail(fmt.Errorf("%s at %s is not a trim port", r, si.Address))
 			}
 			e.ports[r] = p
+		case SwitchRole:
+			sw, ok := in.(instruments.Switch)
+			if !ok {
+				return fail(fmt.Errorf("%s at %s is not a switch", r, si.Address))
+			}
+			e.switches[r] = sw
 		}
 		if q, ok := in.(instruments.ErrorQueue); ok {
 			e.queues = append(e.queues, roleQueue{r, q})
@@ -136,6 +146,11 @@ func Open(ctx context.Context, cfg Config) (*Engine, error) {
 			if k := st.Instruments[ru.Role].Kind; k != ru.Kind {
 				return fail(fmt.Errorf("step %q (%s) uses the %s role as a %s, but station %s binds it as a %s", d.Name, d.Where, ru.Role, ru.Kind, st.ID, k))
 			}
+		}
+	}
+	if r := seq.Switch; r != "" {
+		if k := st.Instruments[r].Kind; k != SwitchRole {
+			return fail(fmt.Errorf("%s: channels.switch names the %s role, but station %s binds it as a %s: bind a switch (kind: switch) to route the channels", seq.SwitchWhere, r, st.ID, k))
 		}
 	}
 	for _, r := range seq.Requires {
@@ -193,6 +208,9 @@ func Open(ctx context.Context, cfg Config) (*Engine, error) {
 			}
 		}
 	}
+	if err := e.release(cfg.Log); err != nil {
+		return fail(fmt.Errorf("put the switch in a safe state: %w", err))
+	}
 	return e, nil
 }
 
@@ -222,6 +240,9 @@ func (e *Engine) Close() error {
 	}
 	e.closed = true
 	first := e.safeOff(e.cfg.Log)
+	if err := e.release(e.cfg.Log); err != nil && first == nil {
+		first = err
+	}
 	for _, r := range e.roles {
 		if in, ok := e.all[r]; ok {
 			if err := in.Close(); err != nil && first == nil {
@@ -277,6 +298,13 @@ func (e *Engine) Run(ctx context.Context, serial string) (rec *Record) {
 				rec.Verdict = Fault
 			}
 			rec.Fault = strings.TrimPrefix(rec.Fault+"; source output off failed: "+err.Error(), "; ")
+		}
+		// The switch opens every path once the outputs are off, whatever happened.
+		if err := e.release(log); err != nil {
+			if rec.Verdict != Aborted {
+				rec.Verdict = Fault
+			}
+			rec.Fault = strings.TrimPrefix(rec.Fault+"; switch release failed: "+err.Error(), "; ")
 		}
 		rec.Finished = e.clock.Now().UTC()
 	}()
@@ -336,7 +364,8 @@ func (e *Engine) run(ctx context.Context, u *Unit) error {
 func runSteps(ctx context.Context, u *Unit) error {
 	endedAt := "" // the step whose Run ended the run
 	for _, d := range u.seq.Steps {
-		sr := StepRun{Name: d.Name, Kind: d.Kind, Stage: d.Stage, Status: StepDone}
+		sr := StepRun{Name: d.Name, Channel: d.Channel, Kind: d.Kind, Stage: d.Stage, Status: StepDone}
+		u.step, u.channel = d, d.Channel
 		switch {
 		case u.ended:
 			sr.Status, sr.Note = StepNotReached, notReachedNote(endedAt, u.endNote)
@@ -355,7 +384,11 @@ func runSteps(ctx context.Context, u *Unit) error {
 			}
 		}
 		if sr.Status == StepDone {
-			u.step = d
+			if d.Channel != "" && u.Live() {
+				if err := u.e.route(ctx, d.Channel); err != nil {
+					return err
+				}
+			}
 			wasEnded := u.ended
 			if err := d.Step.Run(ctx, u); err != nil {
 				return err

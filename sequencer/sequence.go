@@ -33,8 +33,18 @@ type Sequence struct {
 
 	Meter MeterPlan // the meter settings every sweep uses unless it sets its own
 	// DACs are the unit's trim DACs as the file declares them, in file order.
-	DACs  []DAC
+	DACs []DAC
+	// Steps are the file's steps in order, a step that runs per channel once
+	// per channel (StepDecl.Channel).
 	Steps []*StepDecl
+
+	// Channels are the unit's channel names in the file's order (channels:),
+	// nil for a one-channel unit. Switch is the role of the switch that routes
+	// the bench to one channel ("" when the fixture needs none), SwitchWhere
+	// "file:line:col" of its key.
+	Channels    []string
+	Switch      string
+	SwitchWhere string
 
 	// SerialPattern is the sequence file's serial_pattern as written, matched
 	// against the whole serial ("" = DefaultSerialPattern); CheckSerial applies it.
@@ -72,12 +82,14 @@ func (s *Sequence) Results() []ResultDef {
 }
 
 // Catalog is every result name the steps declare with its dimension: what the
-// limit file may judge.
+// limit file may judge. A per-channel result is listed also once per channel,
+// as name@channel (limits.ChannelKey), so that a limit file knows the channels.
 func (s *Sequence) Catalog() limits.Catalog {
 	c := limits.Catalog{}
 	for _, d := range s.Results() {
 		c[d.Name] = d.Dim
 	}
+	channelKeys(c, s.Results())
 	return c
 }
 
@@ -134,12 +146,13 @@ type MeterPlan struct {
 }
 
 type stepHead struct {
-	Kind   string `yaml:"kind"`
-	Name   string `yaml:"name"`
-	SkipIf string `yaml:"skip_if"`
+	Kind     string      `yaml:"kind"`
+	Name     string      `yaml:"name"`
+	SkipIf   string      `yaml:"skip_if"`
+	Channels *channelSel `yaml:"channels"`
 }
 
-var headKeys = map[string]bool{"kind": true, "name": true, "skip_if": true}
+var headKeys = map[string]bool{"kind": true, "name": true, "skip_if": true, "channels": true}
 
 // anyNode takes any YAML value: the steps list, decoded step by step.
 type anyNode struct{ set bool }
@@ -166,8 +179,9 @@ type sequenceFile struct {
 		Range *units.Voltage `yaml:"range"`
 		NPLC  *float64       `yaml:"nplc"`
 	} `yaml:"meter"`
-	DACs        []*dacDecl `yaml:"dacs"`
-	Steps       anyNode    `yaml:"steps"`
+	DACs        []*dacDecl    `yaml:"dacs"`
+	Channels    *channelsDecl `yaml:"channels"`
+	Steps       anyNode       `yaml:"steps"`
 	Uncertainty struct {
 		Method string `yaml:"method"`
 		Trials int    `yaml:"trials"`
@@ -293,10 +307,13 @@ func parseSequence(name string, data []byte, read func(path string) ([]byte, err
 		paths = firstLayout(doc, s, &f, &errs)
 	default:
 		s.DACs = dacList(doc, f.DACs, &errs)
+		parseChannels(doc, s, f.Channels, &errs)
 		paths = stepList(doc, s, &errs, &decodeErrs)
 	}
 	checkSteps(doc, s, paths, &errs)
-	runBounds(doc, s, &errs)
+	checkSwitch(doc, s, &errs)
+	expandChannels(s)
+	runBounds(doc, s, len(paths), &errs)
 	requires(doc, s, f.Requires, &errs)
 	if f.Ideal.FullScale != nil {
 		s.FullScale = float64(*f.Ideal.FullScale)
@@ -388,6 +405,7 @@ func stepList(doc *files.Doc, s *Sequence, errs, decodeErrs *files.List) []strin
 			*errs = append(*errs, doc.Errorf(path+".kind", "unknown step kind %q (expected one of %s)", h.Kind, kindNamesText()))
 			continue
 		}
+		d.chans = stepChannels(doc, s, d, path, h.Channels, errs)
 		d.Step = k.New()
 		if err := doc.DecodeAt(path, d.Step, func(k string) bool { return headKeys[k] }); err != nil {
 			*decodeErrs = append(*decodeErrs, files.Errs(err)...)
@@ -401,8 +419,8 @@ func stepList(doc *files.Doc, s *Sequence, errs, decodeErrs *files.List) []strin
 // runBounds refuses a sequence whose steps together would make a run that never
 // ends, though each is within its own bounds: too many steps, too long an estimated
 // run, too many readings for one record.
-func runBounds(doc *files.Doc, s *Sequence, errs *files.List) {
-	if n := len(s.Steps); n > MaxSteps {
+func runBounds(doc *files.Doc, s *Sequence, fileSteps int, errs *files.List) {
+	if n := fileSteps; n > MaxSteps {
 		*errs = append(*errs, doc.Errorf("$.steps", "expected at most %d steps, found %d", MaxSteps, n))
 		return
 	}
@@ -456,9 +474,13 @@ func checkSteps(doc *files.Doc, s *Sequence, paths []string, errs *files.List) {
 		c := &Checker{doc: doc, path: path, seq: s, decl: d, earlier: s.Steps[:i], errs: errs, names: declared}
 		d.Step.Check(c)
 		if d.SkipIf != "" {
+			// A step of the whole unit reads results of the whole unit; a step
+			// that runs per channel reads its own channel's by their plain names.
 			var earlier []ResultDef
 			for _, e := range s.Steps[:i] {
-				earlier = append(earlier, e.Results...)
+				if d.chans != nil || e.chans == nil {
+					earlier = append(earlier, e.Results...)
+				}
 			}
 			cond, err := compileCondition(d.SkipIf, earlier)
 			if err != nil {
@@ -484,6 +506,12 @@ func requires(doc *files.Doc, s *Sequence, listed []string, errs *files.List) {
 			}
 			used[r.Role] = r.Kind
 			order = append(order, r)
+		}
+	}
+	if s.Switch != "" {
+		if _, seen := used[s.Switch]; !seen {
+			used[s.Switch] = SwitchRole
+			order = append(order, RoleUse{Role: s.Switch, Kind: SwitchRole})
 		}
 	}
 	if len(listed) > 0 {
@@ -661,15 +689,18 @@ func CatalogFor(limitsPath string) (cat limits.Catalog, seq *Sequence, note stri
 func RecordCatalog(rec *Record) limits.Catalog {
 	c := limits.Catalog{}
 	for _, r := range rec.Results {
+		dim := units.Ratio
 		switch r.Unit {
 		case "V":
-			c[r.Name] = units.Volt
+			dim = units.Volt
 		case "code":
-			c[r.Name] = units.Count
+			dim = units.Count
 		case "number":
-			c[r.Name] = units.Number
-		default:
-			c[r.Name] = units.Ratio
+			dim = units.Number
+		}
+		c[r.Name] = dim
+		if r.Channel != "" {
+			c[limits.ChannelKey(r.Name, r.Channel)] = dim
 		}
 	}
 	return c
