@@ -48,13 +48,20 @@ func (c Catalog) Channels() []string {
 }
 
 // PerChannel reports whether the catalog lists result name once per channel.
-func (c Catalog) PerChannel(name string) bool {
+func (c Catalog) PerChannel(name string) bool { return len(c.ChannelsOf(name)) > 0 }
+
+// ChannelsOf returns the channels the catalog lists result name on, in channel
+// order; nil for a result of the whole unit. A step may run on some channels
+// only, so a result may have fewer channels than the unit.
+func (c Catalog) ChannelsOf(name string) []string {
+	var out []string
 	for k := range c {
 		if n, ch := SplitChannelKey(k); ch != "" && n == name {
-			return true
+			out = append(out, ch)
 		}
 	}
-	return false
+	slices.SortFunc(out, CompareChannels)
+	return out
 }
 
 // CompareChannels orders channel names: as numbers when both are all digits
@@ -83,19 +90,30 @@ func (c Catalog) names() []string {
 	return out
 }
 
-// channelsOf are the channels limit l judges with the set's per-channel results:
-// the one its channel key names, or every channel when it uses a per-channel
-// result; nil for a limit of the whole unit.
+// channelsOf are the channels limit l judges: the one its channel key names, or
+// every channel on which each per-channel result it uses is measured; nil for a
+// limit of the whole unit.
 func (s *Set) channelsOf(l *Limit) []string {
 	if l.Channel != "" {
 		return []string{l.Channel}
 	}
+	var out []string
+	per := false
 	for _, n := range l.Uses {
-		if s.perChannel[n] {
-			return s.channels
+		chans, ok := s.perChannel[n]
+		if !ok {
+			continue
 		}
+		if !per {
+			per, out = true, chans
+			continue
+		}
+		out = slices.DeleteFunc(slices.Clone(out), func(ch string) bool { return !slices.Contains(chans, ch) })
 	}
-	return nil
+	if per && out == nil {
+		out = []string{} // per-channel results with no channel in common: nothing to judge
+	}
+	return out
 }
 
 // view is results as limit l sees them on channel ch: each per-channel result it
@@ -104,7 +122,7 @@ func (s *Set) view(l *Limit, results map[string]Value, ch string) map[string]Val
 	v := make(map[string]Value, len(l.Uses))
 	for _, n := range l.Uses {
 		key := n
-		if s.perChannel[n] {
+		if _, per := s.perChannel[n]; per {
 			key = ChannelKey(n, ch)
 		}
 		if r, ok := results[key]; ok {
@@ -132,7 +150,12 @@ func (l *loader) checkChannel(s *entrySrc, lim *Limit, f *limitForm) {
 	case f.Uses != nil:
 		per := false
 		for _, n := range *f.Uses {
-			per = per || l.cat.PerChannel(n)
+			chans := l.cat.ChannelsOf(n)
+			if len(chans) > 0 && !slices.Contains(chans, lim.Channel) {
+				l.errs = append(l.errs, l.doc.Errorf(path, "channel %q: result %q is measured on channels %s only", lim.Channel, n, quoteAll(chans)))
+				return
+			}
+			per = per || len(chans) > 0
 		}
 		if !per {
 			l.errs = append(l.errs, l.doc.Errorf(path, "channel %q: the limit uses no per-channel result (%s are of the whole unit): remove the channel key",

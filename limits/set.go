@@ -22,7 +22,7 @@ type Set struct {
 	// channels are the unit's channels and perChannel the results measured
 	// once per channel, from the catalog Load was given (Catalog.Channels).
 	channels   []string
-	perChannel map[string]bool
+	perChannel map[string][]string // result → its channels
 
 	policy   Policy        // the decision section with defaults filled in (a variant's merged in); zero when not made by Load
 	variants *variantTable // the file's variants, shared by all its sets; nil when it has none
@@ -108,10 +108,10 @@ func (s *Set) setChannels(cat Catalog) {
 	if len(s.channels) == 0 {
 		return
 	}
-	s.perChannel = map[string]bool{}
+	s.perChannel = map[string][]string{}
 	for k := range cat {
-		if n, ch := SplitChannelKey(k); ch != "" {
-			s.perChannel[n] = true
+		if n, ch := SplitChannelKey(k); ch != "" && s.perChannel[n] == nil {
+			s.perChannel[n] = cat.ChannelsOf(n)
 		}
 	}
 }

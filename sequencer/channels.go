@@ -89,24 +89,26 @@ func parseChannels(doc *files.Doc, s *Sequence, c *channelsDecl, errs *files.Lis
 	case c.Count != nil && c.Names != nil:
 		bad("$.channels.count", "give either names or count, not both")
 	case c.Count != nil:
-		if n := *c.Count; n < 1 || n > MaxChannels {
+		n := *c.Count
+		if n < 1 || n > MaxChannels {
 			bad("$.channels.count", "expected 1 to %d channels, found %d", MaxChannels, n)
-		} else {
-			for i := 1; i <= n; i++ {
-				s.Channels = append(s.Channels, strconv.Itoa(i))
-			}
+		}
+		// Refused or not, the channels stand as written for the other checks,
+		// so that one mistake is reported once.
+		for i := 1; i <= min(n, 10*MaxChannels); i++ {
+			s.Channels = append(s.Channels, strconv.Itoa(i))
 		}
 	case len(c.Names) == 0:
 		bad("$.channels", "missing required key \"names\" (the channel names, e.g. [\"1\", \"2\"]) or \"count\"")
-	case len(c.Names) > MaxChannels:
-		bad("$.channels.names", "expected at most %d channels, found %d", MaxChannels, len(c.Names))
 	default:
+		if len(c.Names) > MaxChannels {
+			bad("$.channels.names", "expected at most %d channels, found %d", MaxChannels, len(c.Names))
+		}
 		seen := map[string]int{}
 		for i, n := range c.Names {
 			path := fmt.Sprintf("$.channels.names[%d]", i)
 			if !validChannelName(n) {
 				bad(path, "channel name %q: expected 1 to %d letters and digits", n, maxChannelName)
-				continue
 			}
 			if j, dup := seen[n]; dup {
 				bad(path, "channel %q is already named (item %d): every channel needs its own name", n, j+1)
@@ -262,4 +264,20 @@ func (e *Engine) release(log zerolog.Logger) error {
 	}
 	e.routed = ""
 	return first
+}
+
+// routed reports whether step d needs the switch routed to its channel: it runs
+// per channel and drives a source or reads a meter. A step that only talks to
+// the unit's port (a trim, whose commands name the channel) or computes (a fit)
+// leaves the switch as it is.
+func routed(d *StepDecl) bool {
+	if d.Channel == "" {
+		return false
+	}
+	for _, r := range d.Roles {
+		if r.Kind == VoltageSource || r.Kind == VoltMeter {
+			return true
+		}
+	}
+	return false
 }

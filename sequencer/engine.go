@@ -384,7 +384,7 @@ func runSteps(ctx context.Context, u *Unit) error {
 			}
 		}
 		if sr.Status == StepDone {
-			if d.Channel != "" && u.Live() {
+			if d.Channel != "" && u.Live() && routed(d) {
 				if err := u.e.route(ctx, d.Channel); err != nil {
 					return err
 				}
