@@ -10,7 +10,7 @@ import (
 
 // A run of a two-channel unit, stored in a migrated schema-1 ledger beside its
 // old run: it comes back unchanged, its rows carry their channels (the old run's
-// ''), a switch is an instrument kind the rows take, and a changed channel
+// ”), a switch is an instrument kind the rows take, and a changed channel
 // breaks the check.
 func TestChannelRowsRoundTrip(t *testing.T) {
 	path, l := openSchema1Demo(t)
