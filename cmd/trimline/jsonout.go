@@ -100,7 +100,10 @@ type unitOut struct {
 // resultOut is one result of a unit: a named number with its uncertainty and the
 // limits that judged it.
 type resultOut struct {
-	Name     string `json:"name"`     // as limit files name it
+	Name string `json:"name"` // as limit files name it
+	// Channel is the unit's channel of a result measured per channel; absent for
+	// a result of the whole unit (every result of a one-channel unit).
+	Channel  string `json:"channel,omitempty"`
 	Stage    string `json:"stage"`    // as_found, adjustment or as_left
 	Step     string `json:"step"`     // the step that computed it
 	Quantity string `json:"quantity"` // what it measures (offset, gain_error, …); results of one quantity pair as found and as left
@@ -121,8 +124,9 @@ type resultOut struct {
 
 // judged is one limit's outcome, seen from a result it uses.
 type judged struct {
-	Limit string `json:"limit"`
-	Pass  bool   `json:"pass"`
+	Limit   string `json:"limit"`
+	Channel string `json:"channel,omitempty"` // the outcome's channel, as in limitOut
+	Pass    bool   `json:"pass"`
 	// Zone is the decision rule's zone for a toleranced limit that judged this
 	// result: pass, conditional pass, conditional fail or fail; "" for an
 	// expression limit or a tolerance that could not be judged.
@@ -133,7 +137,11 @@ type judged struct {
 // in the limit's own unit, named in Unit (as the limit file writes it: "mV",
 // "ppm", …).
 type limitOut struct {
-	Name        string   `json:"name"`
+	Name string `json:"name"`
+	// Channel is the channel this outcome judges: a limit over per-channel
+	// results has one outcome per channel (or one for the channel it names);
+	// absent for a limit of the whole unit.
+	Channel     string   `json:"channel,omitempty"`
 	Description string   `json:"description"`
 	Uses        []string `json:"uses"` // the results it reads
 	Pass        bool     `json:"pass"`
@@ -156,8 +164,9 @@ type limitOut struct {
 // trimOut is one trim DAC's code.
 type trimOut struct {
 	DAC       string `json:"dac"`
-	Before    int    `json:"before"` // code in the DAC before trimming
-	Code      int    `json:"code"`   // code written
+	Channel   string `json:"channel,omitempty"` // the channel trimmed; absent for a one-channel unit
+	Before    int    `json:"before"`            // code in the DAC before trimming
+	Code      int    `json:"code"`              // code written
 	Readback  int    `json:"readback"`
 	Written   bool   `json:"written"`
 	Saturated bool   `json:"saturated"`
@@ -280,7 +289,7 @@ func newUnitOut(rec *sequencer.Record, cert, certDir string) unitOut {
 		u.CertificatePDF = filepath.Join(certDir, certificate.FileName(rec, certificate.Options{Number: cert}))
 	}
 	for _, r := range rec.Results {
-		ro := resultOut{Name: r.Name, Step: r.Step, Quantity: r.QuantityOf(), Valid: r.Valid, Note: r.Note, Unit: r.Unit, JudgedBy: []judged{}}
+		ro := resultOut{Name: r.Name, Channel: r.Channel, Step: r.Step, Quantity: r.QuantityOf(), Valid: r.Valid, Note: r.Note, Unit: r.Unit, JudgedBy: []judged{}}
 		if st, err := r.StageOf().MarshalText(); err == nil {
 			ro.Stage = string(st)
 		}
@@ -291,10 +300,10 @@ func newUnitOut(rec *sequencer.Record, cert, certDir string) unitOut {
 			}
 		}
 		for _, o := range rec.Outcomes {
-			if !slices.Contains(o.Uses, r.Name) {
+			if !slices.Contains(o.Uses, r.Name) || r.Channel != "" && o.Channel != r.Channel {
 				continue
 			}
-			j := judged{Limit: o.Name, Pass: o.Pass}
+			j := judged{Limit: o.Name, Channel: o.Channel, Pass: o.Pass}
 			if o.Decision != nil && o.Decision.Result == r.Name {
 				j.Zone = o.Decision.Zone
 			}
@@ -306,14 +315,14 @@ func newUnitOut(rec *sequencer.Record, cert, certDir string) unitOut {
 		u.Limits = append(u.Limits, newLimitOut(o))
 	}
 	for _, t := range rec.Trims {
-		u.TrimCodes = append(u.TrimCodes, trimOut{DAC: t.DAC, Before: t.Before, Code: t.Code, Readback: t.Readback,
+		u.TrimCodes = append(u.TrimCodes, trimOut{DAC: t.DAC, Channel: t.Channel, Before: t.Before, Code: t.Code, Readback: t.Readback,
 			Written: t.Written, Saturated: t.Saturated, Stored: t.Stored})
 	}
 	return u
 }
 
 func newLimitOut(o limits.Outcome) limitOut {
-	l := limitOut{Name: o.Name, Description: o.Description, Uses: nonNil(o.Uses), Pass: o.Pass, Reason: o.Reason, Unit: o.Unit}
+	l := limitOut{Name: o.Name, Channel: o.Channel, Description: o.Description, Uses: nonNil(o.Uses), Pass: o.Pass, Reason: o.Reason, Unit: o.Unit}
 	if d := o.Decision; d != nil {
 		l.Zone, l.Rule, l.Value, l.Lower, l.Upper = d.Zone, d.Rule, num(d.Value), d.Lower, d.Upper
 		if d.U > 0 {
