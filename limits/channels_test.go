@@ -116,3 +116,29 @@ func TestChannelKeyErrors(t *testing.T) {
 		})
 	}
 }
+
+// TestLintKnowsChannels: lint reports a channel the catalog does not have as an
+// error at its line, and passes the file otherwise.
+func TestLintKnowsChannels(t *testing.T) {
+	if fs := limits.Lint("chan.yaml", []byte(chanLimits), chanCatalog, limits.LintOptions{}); hasError(fs) {
+		t.Fatalf("lint of a sound file: %v", fs)
+	}
+	bad := strings.Replace(chanLimits, `channel: "2"`, `channel: "7"`, 1)
+	fs := limits.Lint("chan.yaml", []byte(bad), chanCatalog, limits.LintOptions{})
+	found := false
+	for _, f := range fs {
+		found = found || f.Line == 12 && strings.Contains(f.Error(), `no channel "7"`)
+	}
+	if !found {
+		t.Fatalf("lint with channel 7: %v, want an error at line 12", fs)
+	}
+}
+
+func hasError(fs []limits.Finding) bool {
+	for _, f := range fs {
+		if f.Severity == limits.SeverityError {
+			return true
+		}
+	}
+	return false
+}

@@ -72,6 +72,11 @@ func LoadFile(path string, cat Catalog) (*Set, error) {
 // must also appear in the expression, and a constant within/outside range must
 // have lo ≤ hi. An expression limit cannot set rule, guard_factor or statements.
 //
+// A limit may name one channel of a multi-channel unit (channel: "2"): one of
+// the channels the catalog lists (Catalog.Channels), on which every per-channel
+// result it uses is measured; a limit of results of the whole unit takes none.
+// See Set.Judge for how a limit over per-channel results is judged.
+//
 // A toleranced limit uses exactly one result; its tolerance has lower, upper or
 // both, plain finite numbers in the limit's unit with lower < upper. It may set
 // its own rule (simple, guarded), guard_factor (> 0, only with rule guarded) and

@@ -18,6 +18,7 @@ import (
 
 	"trimline/instruments"
 	"trimline/instruments/files"
+	"trimline/limits"
 	"trimline/sequencer"
 )
 
@@ -534,5 +535,50 @@ func TestSwitchBoundAsMeter(t *testing.T) {
 	cfg.Station = st
 	if _, err := sequencer.Open(context.Background(), cfg); err == nil {
 		t.Fatal("Open with the switch bound as a meter succeeded")
+	}
+}
+
+// TestReadmeChannelExamples: README's Channels section's limit example (a block
+// marked "yaml limits") loads against the demo sequence with the section's
+// channels, and its channel-B limit judges channel B only.
+func TestReadmeChannelExamples(t *testing.T) {
+	var chans, lims string
+	for _, b := range fencedBlocks(t, "README.md", "## Writing a sequence", "yaml") {
+		if strings.Contains(b.text, "\nchannels:\n") {
+			chans = b.text
+		}
+	}
+	for _, b := range fencedBlocks(t, "README.md", "## Writing a sequence", "yaml limits") {
+		lims = b.text
+	}
+	if chans == "" || lims == "" {
+		t.Fatal("README's Channels section has no channels: example or no limits example")
+	}
+	demo := withTopKey(demoFile(t, "brx200-sequence.yaml"), "requires", chans)
+	seq, err := sequencer.ParseSequence("brx200-sequence.yaml", []byte(demo), demoReader(t, nil))
+	if err != nil {
+		t.Fatal(allErrs(err))
+	}
+	if !slices.Equal(seq.Channels, []string{"A", "B", "C", "D"}) || seq.Switch != "mux" {
+		t.Fatalf("channels %v, switch %q", seq.Channels, seq.Switch)
+	}
+	set, err := limits.Load("limits.yaml", []byte("limit_set: {name: x, revision: \"1\", product: BRX-200}\n"+lims), seq.Catalog())
+	if err != nil {
+		t.Fatal(allErrs(err))
+	}
+	v := func(x float64) limits.Value { return limits.Value{V: x, Valid: true} }
+	// 300 µV on every channel: inside ±800 µV, outside channel B's ±200 µV.
+	res := map[string]limits.Value{}
+	for _, ch := range seq.Channels {
+		res[limits.ChannelKey("post_offset", ch)] = v(300e-6)
+	}
+	var got []string
+	for _, o := range set.Judge(res) {
+		got = append(got, fmt.Sprintf("%s/%s/%v", o.Name, o.Channel, o.Pass))
+	}
+	want := []string{"offset after trim/A/true", "offset after trim/B/true", "offset after trim/C/true", "offset after trim/D/true",
+		"reference channel offset/B/false"}
+	if !slices.Equal(got, want) {
+		t.Errorf("outcomes %q, want %q", got, want)
 	}
 }
