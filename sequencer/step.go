@@ -191,6 +191,7 @@ func (c *Checker) Earlier(key, name string, kinds ...string) *StepDecl {
 			c.Errorf(key, "step %q is a %s step: expected a %s step", name, d.Kind, strings.Join(kinds, " or "))
 			return nil
 		}
+		c.sameChannels(key, d)
 		return d
 	}
 	var cand []string
@@ -253,4 +254,23 @@ func validName(s string) bool {
 		}
 	}
 	return true
+}
+
+// sameChannels reports at key a reference to the earlier step d that some channel
+// of this step cannot follow: a step of the whole unit cannot use what a step
+// kept per channel, and a step on a channel needs d on that channel (or d of the
+// whole unit).
+func (c *Checker) sameChannels(key string, d *StepDecl) {
+	switch {
+	case d.chans == nil:
+	case c.decl.chans == nil:
+		c.Errorf(key, "step %q runs per channel (%s), but this step runs once for the whole unit: give it channels: all, or the same channels", d.Name, strings.Join(d.chans, ", "))
+	default:
+		for _, ch := range c.decl.chans {
+			if !slices.Contains(d.chans, ch) {
+				c.Errorf(key, "this step runs on channel %q, where step %q does not run (it runs on %s)", ch, d.Name, strings.Join(d.chans, ", "))
+				return
+			}
+		}
+	}
 }
