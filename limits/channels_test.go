@@ -142,3 +142,21 @@ func hasError(fs []limits.Finding) bool {
 	}
 	return false
 }
+
+// TestDiffChannel: a limit moved to one channel has changed shape, whatever its
+// bounds.
+func TestDiffChannel(t *testing.T) {
+	old, err := limits.Load("a.yaml", []byte(chanLimits), chanCatalog)
+	if err != nil {
+		t.Fatal(detail(err))
+	}
+	moved := strings.Replace(chanLimits, "    uses: [out_offset]\n    tolerance", "    uses: [out_offset]\n    channel: \"3\"\n    tolerance", 1)
+	new, err := limits.Load("b.yaml", []byte(moved), chanCatalog)
+	if err != nil {
+		t.Fatal(detail(err))
+	}
+	cs := limits.Diff(old, new)
+	if len(cs) != 1 || cs[0].Limit != "offset" || cs[0].Kind != limits.ChangeShape || !strings.Contains(cs[0].Detail, "judges every channel → channel 3") {
+		t.Fatalf("Diff = %+v", cs)
+	}
+}
