@@ -304,6 +304,9 @@ func parseSequence(name string, data []byte, read func(path string) ([]byte, err
 		}
 	case first:
 		s.FirstLayout = true
+		if doc.Has("$.channels") {
+			errs = append(errs, doc.KeyErrorf("$.channels", "channels need a step list: the first sequence layout (pre_trim, trim, verify) trims one channel"))
+		}
 		paths = firstLayout(doc, s, &f, &errs)
 	default:
 		s.DACs = dacList(doc, f.DACs, &errs)
