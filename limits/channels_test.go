@@ -160,3 +160,30 @@ func TestDiffChannel(t *testing.T) {
 		t.Fatalf("Diff = %+v", cs)
 	}
 }
+
+// FuzzLoadChannels: a limit file loaded against a multi-channel catalog never
+// panics; every outcome's channel is one of the catalog's (or "" for the whole
+// unit), and Verdicts agrees with Overall of Judge.
+func FuzzLoadChannels(f *testing.F) {
+	f.Add([]byte(chanLimits))
+	f.Add([]byte(strings.Replace(chanLimits, `channel: "2"`, `channel: "9"`, 1)))
+	f.Add([]byte(strings.Replace(chanLimits, `channel: "2"`, `channel: [1]`, 1)))
+	f.Add([]byte(strings.Replace(chanLimits, "uses: [supply]", "uses: [supply]\n    channel: \"1\"", 1)))
+	v := func(x float64) limits.Value { return limits.Value{V: x, Valid: true} }
+	res := map[string]limits.Value{"out_offset@1": v(20e-6), "out_offset@2": v(-70e-6), "supply": v(1)} // channel 3 missing
+	f.Fuzz(func(t *testing.T, data []byte) {
+		set, err := limits.Load("fuzz.yaml", data, chanCatalog)
+		if err != nil {
+			return
+		}
+		outs := set.Judge(res)
+		for _, o := range outs {
+			if o.Channel != "" && o.Channel != "1" && o.Channel != "2" && o.Channel != "3" {
+				t.Fatalf("outcome %q on channel %q", o.Name, o.Channel)
+			}
+		}
+		if a, b := set.Overall(outs), set.Verdicts(res, nil); a != b {
+			t.Fatalf("Overall %s, Verdicts %s", a, b)
+		}
+	})
+}
