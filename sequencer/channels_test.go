@@ -34,6 +34,9 @@ type triBench struct {
 	commands []string
 	reads    int
 	failRead int // the Nth meter read fails (1-based); 0 = never
+	// cancel is called at the cancelRead-th meter read (1-based; 0 = never).
+	cancelRead int
+	cancel     func()
 }
 
 var tri = &triBench{}
@@ -47,6 +50,7 @@ func (b *triBench) reset() {
 	defer b.mu.Unlock()
 	b.routed, b.routes, b.releases, b.level, b.on = "", nil, 0, 0, false
 	b.codes, b.commands, b.reads, b.failRead = map[string]int{"1": 0, "2": 0, "3": 0}, nil, 0, 0
+	b.cancelRead, b.cancel = 0, nil
 }
 
 type triDriver struct{}
@@ -96,6 +100,10 @@ func (triMeter) Read(ctx context.Context, n int) ([]instruments.Reading, error) 
 	tri.reads++
 	if tri.reads == tri.failRead {
 		return nil, errors.New("injected: meter stopped answering")
+	}
+	if tri.reads == tri.cancelRead {
+		tri.cancel()
+		return nil, ctx.Err()
 	}
 	out := make([]instruments.Reading, n)
 	ch := tri.routed
@@ -163,6 +171,9 @@ func (triSwitch) Route(ctx context.Context, ch string) error {
 	return nil
 }
 func (triSwitch) Release(ctx context.Context) error {
+	if err := ctx.Err(); err != nil {
+		return err // a real driver refuses to write on an expired context
+	}
 	tri.mu.Lock()
 	defer tri.mu.Unlock()
 	tri.routed = ""
@@ -457,6 +468,31 @@ func TestThreeChannelsFault(t *testing.T) {
 	}
 	if last := tri.routes[len(tri.routes)-1]; last != "3" {
 		t.Errorf("last route %q, want 3", last)
+	}
+}
+
+// TestThreeChannelsAbort: an operator's stop on channel 2 of the pre-trim sweep
+// (read 8: channel 1 takes reads 1–5) aborts the run, and the switch is released
+// with a context of its own after the run's was cancelled.
+func TestThreeChannelsAbort(t *testing.T) {
+	tri.reset()
+	ctx, cancel := context.WithCancel(context.Background())
+	defer cancel()
+	tri.cancelRead, tri.cancel = 8, cancel
+	cfg := triConfig(t)
+	e, err := sequencer.Open(context.Background(), cfg)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer e.Close()
+	rec := e.Run(ctx, "TRI-00001")
+	if rec.Verdict != sequencer.Aborted {
+		t.Fatalf("verdict %s, fault %q", rec.Verdict, rec.Fault)
+	}
+	tri.mu.Lock()
+	defer tri.mu.Unlock()
+	if tri.routed != "" || tri.releases != 2 || tri.on || !slices.Equal(tri.routes, []string{"1", "2"}) {
+		t.Errorf("after the abort: routed %q, %d releases (want 2), output on %v, routes %v", tri.routed, tri.releases, tri.on, tri.routes)
 	}
 }
 
