@@ -7,7 +7,9 @@
 // trim codes, reads them back, stores them, sweeps again to verify, judges every
 // limit and decides the verdict. Every instrument's error queue is read after each
 // sweep point and before the verdict; an entry is a station fault. Every exit path
-// leaves the source output off.
+// leaves the source output off and the channel switch (if any) released. A unit
+// with several channels runs its per-channel steps once per channel, the switch
+// routed to each in turn.
 //
 // The engine imports only the instruments contract and the limits judge; it never
 // imports a concrete driver, the PDF writer or the ledger.
@@ -232,8 +234,8 @@ func (e *Engine) configureMeter(ctx context.Context, role string, p MeterPlan) e
 // Instrument returns the opened instrument for role, or nil.
 func (e *Engine) Instrument(role string) instruments.Instrument { return e.all[role] }
 
-// Close switches the source output off and closes every instrument. Safe to call
-// twice.
+// Close switches the source output off, releases the channel switch and closes
+// every instrument. Safe to call twice.
 func (e *Engine) Close() error {
 	if e.closed {
 		return nil
@@ -265,7 +267,8 @@ func (s *stop) Unwrap() error { return s.cause }
 
 // Run trims one serial number and returns its record. Run never returns a nil
 // record: a station fault, a cancelled context or a panic are recorded in it with
-// verdict FAULT or ABORTED. The source output is off when Run returns.
+// verdict FAULT or ABORTED. The source output is off and the channel switch
+// released when Run returns.
 func (e *Engine) Run(ctx context.Context, serial string) (rec *Record) {
 	st, seq := e.cfg.Station, e.cfg.Sequence
 	now := e.clock.Now().UTC()
