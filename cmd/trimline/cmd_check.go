@@ -251,7 +251,11 @@ func printSteps(w io.Writer, seq *sequencer.Sequence) {
 				}
 				chans = append(chans, e.Channel)
 			}
-			name += " (channels " + strings.Join(chans, ", ") + ")"
+			word := "channels "
+			if len(chans) == 1 {
+				word = "channel "
+			}
+			name += " (" + word + strings.Join(chans, ", ") + ")"
 		}
 		roles := make([]string, len(d.Roles))
 		for j, r := range d.Roles {
