@@ -134,6 +134,12 @@ func ruleText(t *Tolerance) string {
 
 func limitChanges(o, n *Limit) []Change {
 	c := Change{Limit: n.Name, Result: strings.Join(n.Uses, ", "), Unit: n.Unit}
+	if o.Channel != n.Channel {
+		// Another channel is other units' results: not a bound to compare.
+		c.Kind = ChangeShape
+		c.Detail = fmt.Sprintf("judges %s → %s: %s → %s", channelText(o.Channel), channelText(n.Channel), describe(o), describe(n))
+		return []Change{c}
+	}
 	var notes []string
 	if o.Unit != n.Unit {
 		notes = append(notes, fmt.Sprintf("unit %s → %s", orNone(o.Unit), orNone(n.Unit)))
@@ -381,4 +387,12 @@ func orDash(s string) string {
 		return "—"
 	}
 	return s
+}
+
+// channelText names the channels a limit judges: its channel, or every one.
+func channelText(ch string) string {
+	if ch == "" {
+		return "every channel"
+	}
+	return "channel " + ch
 }

@@ -16,6 +16,13 @@ import (
 // Outcome per limit, in file order. results maps result names to values in SI base
 // units (volts; ratios as plain fractions; counts).
 //
+// For a unit with several channels (a Set loaded with a Catalog that lists
+// per-channel results), a per-channel result is found under ChannelKey(name, ch).
+// A limit that uses a per-channel result gives one Outcome per channel, in
+// channel order, with Outcome.Channel set; inside it each per-channel result is
+// that channel's value under its plain name. A limit with a channel key gives the
+// one Outcome of that channel.
+//
 // An expression limit passes only when its expression gives true. Before the
 // expression runs, every result the limit uses must be present, Valid, and a finite
 // number (also once scaled to the limit's unit); otherwise the limit fails with the
@@ -43,9 +50,18 @@ func (s *Set) Judge(results map[string]Value) []Outcome {
 		return nil
 	}
 	pol := s.Policy()
-	outs := make([]Outcome, len(s.Limits))
-	for i, l := range s.Limits {
-		outs[i] = l.judge(results, pol)
+	outs := make([]Outcome, 0, len(s.Limits))
+	for _, l := range s.Limits {
+		chans := s.channelsOf(l)
+		if chans == nil {
+			outs = append(outs, l.judge(results, pol))
+			continue
+		}
+		for _, ch := range chans {
+			o := l.judge(s.view(l, results, ch), pol)
+			o.Channel = ch
+			outs = append(outs, o)
+		}
 	}
 	return outs
 }

@@ -442,7 +442,7 @@ func (lt *linter) tur(policyKnown bool) {
 	if len(lt.opt.TUR) == 0 {
 		return
 	}
-	sound := &Set{policy: lt.set.policy}
+	sound := &Set{policy: lt.set.policy, channels: lt.set.channels, perChannel: lt.set.perChannel}
 	byName := map[string]*Limit{}
 	all := true
 	if lt.base != nil {

@@ -6,7 +6,6 @@ import (
 	"errors"
 	"fmt"
 	"math"
-	"sort"
 	"strconv"
 	"strings"
 
@@ -44,6 +43,7 @@ type limitForm struct {
 	Rule        *string        `yaml:"rule"`
 	GuardFactor *float64       `yaml:"guard_factor"`
 	Statements  *string        `yaml:"statements"`
+	Channel     *string        `yaml:"channel"`
 }
 
 // LoadFile reads the limit file at path and loads it with Load, naming it path in
@@ -71,6 +71,11 @@ func LoadFile(path string, cat Catalog) (*Set, error) {
 // added with RegisterFunc (within and outside come built in). Every name in uses
 // must also appear in the expression, and a constant within/outside range must
 // have lo ≤ hi. An expression limit cannot set rule, guard_factor or statements.
+//
+// A limit may name one channel of a multi-channel unit (channel: "2"): one of
+// the channels the catalog lists (Catalog.Channels), on which every per-channel
+// result it uses is measured; a limit of results of the whole unit takes none.
+// See Set.Judge for how a limit over per-channel results is judged.
 //
 // A toleranced limit uses exactly one result; its tolerance has lower, upper or
 // both, plain finite numbers in the limit's unit with lower < upper. It may set
@@ -137,6 +142,7 @@ func load(name string, data []byte, cat Catalog) (*Set, files.List, *files.Doc) 
 	}
 	hdr, dec, entries, vars := l.decode()
 	set := &Set{File: name, SHA256: hex.EncodeToString(sum[:])}
+	set.setChannels(cat)
 	if hdr.ok {
 		l.header(hdr.form, set)
 	}
@@ -556,6 +562,7 @@ func (l *loader) limit(s *entrySrc, f *limitForm) *Limit {
 			}
 		}
 	}
+	l.checkChannel(s, lim, f)
 	usesOK := false
 	if f.Uses == nil {
 		l.requiredAt(s.of("uses"), "uses", nil, false, missing("uses"))
@@ -630,7 +637,7 @@ func (l *loader) uses(path string, names []string) bool {
 	seen := map[string]int{}
 	for j, n := range names {
 		p := fmt.Sprintf("%s[%d]", path, j)
-		if _, known := l.cat[n]; !known {
+		if _, known := l.cat[n]; !known || strings.Contains(n, "@") {
 			l.errs = append(l.errs, l.doc.Errorf(p, "unknown result name %q (known: %s)", n, strings.Join(l.known(), ", ")))
 			ok = false
 		} else if k, dup := seen[n]; dup {
@@ -642,14 +649,7 @@ func (l *loader) uses(path string, names []string) bool {
 	return ok
 }
 
-func (l *loader) known() []string {
-	names := make([]string, 0, len(l.cat))
-	for n := range l.cat {
-		names = append(names, n)
-	}
-	sort.Strings(names)
-	return names
-}
+func (l *loader) known() []string { return l.cat.names() }
 
 // compile compiles the expression of the limit at s with only its uses in scope,
 // as float64. Errors are positioned at the offending character of the expression

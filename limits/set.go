@@ -19,6 +19,11 @@ type Set struct {
 	// (Set.Variant); "" for the base set, the file's limits list.
 	VariantName string
 
+	// channels are the unit's channels and perChannel the results measured
+	// once per channel, from the catalog Load was given (Catalog.Channels).
+	channels   []string
+	perChannel map[string][]string // result → its channels
+
 	policy   Policy        // the decision section with defaults filled in (a variant's merged in); zero when not made by Load
 	variants *variantTable // the file's variants, shared by all its sets; nil when it has none
 }
@@ -37,6 +42,10 @@ type Limit struct {
 	Uses      []string   // the result names Expr uses, as listed (Load checks each appears in Expr); one for a toleranced limit
 	Line      int        // line of the limit's entry ("- name: ...") in the file; for a limit a variant overrides, its entry in the limits list
 	Tolerance *Tolerance // nil for an expression limit
+	// Channel is the one channel of a multi-channel unit the limit judges (the
+	// file's channel key); "" judges every channel when the limit uses a
+	// per-channel result, and the whole unit otherwise.
+	Channel string
 
 	prog  *vm.Program
 	src   *entrySrc // where the limit's keys are in the file
@@ -91,4 +100,27 @@ func (s *Set) Label() string {
 		l += " (" + s.File + ")"
 	}
 	return l
+}
+
+// setChannels records the channels and per-channel results of cat.
+func (s *Set) setChannels(cat Catalog) {
+	s.channels = cat.Channels()
+	if len(s.channels) == 0 {
+		return
+	}
+	s.perChannel = map[string][]string{}
+	for k := range cat {
+		if n, ch := SplitChannelKey(k); ch != "" && s.perChannel[n] == nil {
+			s.perChannel[n] = cat.ChannelsOf(n)
+		}
+	}
+}
+
+// Channels returns the unit's channels the set was loaded with, nil for a
+// one-channel product.
+func (s *Set) Channels() []string {
+	if s == nil {
+		return nil
+	}
+	return append([]string(nil), s.channels...)
 }

@@ -46,8 +46,12 @@ type Value struct {
 
 // Outcome is one limit's verdict on one unit, as stored in the run record.
 type Outcome struct {
-	Name        string             `json:"name"`
-	Channel     string             `json:"channel,omitempty"` // the channel of the results it judged; "" for the whole unit
+	Name string `json:"name"`
+	// Channel is the unit's channel the outcome judges: a limit over
+	// per-channel results gives one outcome per channel (or one for the channel
+	// it names); "" for a limit of the whole unit. Name and Channel together are
+	// unique among a unit's outcomes.
+	Channel     string             `json:"channel,omitempty"`
 	Description string             `json:"description"`
 	Expr        string             `json:"expr"`
 	Unit        string             `json:"unit"`

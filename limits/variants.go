@@ -52,7 +52,7 @@ type decodedVariants struct {
 
 // overrideKeys are the keys an override may give besides the name, in the order
 // messages list them.
-var overrideKeys = []string{"description", "unit", "uses", "expr", "tolerance", "rule", "guard_factor", "statements"}
+var overrideKeys = []string{"description", "unit", "uses", "expr", "tolerance", "rule", "guard_factor", "statements", "channel"}
 
 // VariantInfo describes one variant of a limit file (Set.Variants).
 type VariantInfo struct {
@@ -249,7 +249,7 @@ func (l *variantLoader) variant(i int, f *variantForm) (variantEntry, bool) {
 	removed := l.removals(path, label, f.Remove, over)
 
 	set := &Set{Name: l.base.Name, Revision: l.base.Revision, Product: l.base.Product, File: l.base.File,
-		SHA256: l.base.SHA256, VariantName: info.Name, policy: pol}
+		SHA256: l.base.SHA256, VariantName: info.Name, policy: pol, channels: l.base.channels, perChannel: l.base.perChannel}
 	basePol, baseOK := l.policy, l.policyOK
 	l.policy, l.policyOK = pol, polOK
 	defaults := pol.Rule != basePol.Rule || pol.GuardFactor != basePol.GuardFactor || pol.Binary != basePol.Binary
@@ -444,6 +444,7 @@ func (l *variantLoader) merge(bf, of *limitForm, s *entrySrc) *limitForm {
 		"rule":         func(f *limitForm) { m.Rule = f.Rule },
 		"guard_factor": func(f *limitForm) { m.GuardFactor = f.GuardFactor },
 		"statements":   func(f *limitForm) { m.Statements = f.Statements },
+		"channel":      func(f *limitForm) { m.Channel = f.Channel },
 	}
 	for _, key := range overrideKeys {
 		if s.gave[key] {

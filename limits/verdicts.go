@@ -7,7 +7,7 @@ package limits
 // costs a fraction of Judge.
 //
 // When perLimit is at least len(s.Limits) long, perLimit[i] is set to the verdict
-// of s.Limits[i] (VerdictPass, VerdictReview or VerdictFail, as Overall would rank
+// of s.Limits[i], the worst over its channels for a limit judged per channel (VerdictPass, VerdictReview or VerdictFail, as Overall would rank
 // that limit's outcome); a shorter slice (nil) is left alone. The overall verdict
 // is returned, and is always the one Overall gives for Judge's outcomes (VerdictFail
 // for a nil Set or one without limits). Verdicts does not change the Set or
@@ -20,7 +20,17 @@ func (s *Set) Verdicts(results map[string]Value, perLimit []string) string {
 	fill := len(perLimit) >= len(s.Limits)
 	worst := VerdictPass
 	for i, l := range s.Limits {
-		v := l.verdictOnly(results, pol)
+		var v string
+		if chans := s.channelsOf(l); chans == nil {
+			v = l.verdictOnly(results, pol)
+		} else {
+			v = VerdictPass
+			for _, ch := range chans {
+				if w := l.verdictOnly(s.view(l, results, ch), pol); rank(w) > rank(v) {
+					v = w
+				}
+			}
+		}
 		if fill {
 			perLimit[i] = v
 		}

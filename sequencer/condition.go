@@ -76,15 +76,11 @@ func compileExpr(text string, opts ...expr.Option) (p *vm.Program, err error) {
 // was not measured.
 func (c *condition) eval(u *Unit) (skip bool, note string, err error) {
 	env := map[string]any{}
-	for name := range u.res.values {
-		v, valid := u.Result(name)
+	for _, name := range c.uses {
+		v, valid := u.Result(name) // a per-channel step's own channel's
 		env[name] = v
 		if !valid {
-			for _, n := range c.uses {
-				if n == name {
-					return false, fmt.Sprintf("skip_if reads %s, which is not valid: the step runs", name), nil
-				}
-			}
+			return false, fmt.Sprintf("skip_if reads %s, which is not valid: the step runs", name), nil
 		}
 	}
 	out, err := expr.Run(c.prog, env)

@@ -7,7 +7,9 @@
 // trim codes, reads them back, stores them, sweeps again to verify, judges every
 // limit and decides the verdict. Every instrument's error queue is read after each
 // sweep point and before the verdict; an entry is a station fault. Every exit path
-// leaves the source output off.
+// leaves the source output off and the channel switch (if any) released. A unit
+// with several channels runs its per-channel steps once per channel, the switch
+// routed to each in turn.
 //
 // The engine imports only the instruments contract and the limits judge; it never
 // imports a concrete driver, the PDF writer or the ledger.
@@ -54,10 +56,14 @@ type Engine struct {
 	sources map[string]instruments.Source
 	meters  map[string]instruments.Meter
 	ports   map[string]instruments.TrimPort
-	meterAt map[string]MeterPlan // how each meter is configured now
-	clock   instruments.Clock
-	refs    []InstrumentRef
-	closed  bool
+	// switches are the switches by role; routed is the channel the sequence's
+	// switch is routed to ("" = released, or not known).
+	switches map[string]instruments.Switch
+	routed   string
+	meterAt  map[string]MeterPlan // how each meter is configured now
+	clock    instruments.Clock
+	refs     []InstrumentRef
+	closed   bool
 
 	// watchdogs are the sources' output watchdogs (those that have one): armed
 	// at every step, disarmed once the output is off.
@@ -92,7 +98,7 @@ func Open(ctx context.Context, cfg Config) (*Engine, error) {
 		return nil, err
 	}
 	e := &Engine{cfg: cfg, all: all, clock: instruments.RealClock{}, sources: map[string]instruments.Source{},
-		meters: map[string]instruments.Meter{}, ports: map[string]instruments.TrimPort{}, meterAt: map[string]MeterPlan{}}
+		meters: map[string]instruments.Meter{}, ports: map[string]instruments.TrimPort{}, switches: map[string]instruments.Switch{}, meterAt: map[string]MeterPlan{}}
 	fail := func(err error) (*Engine, error) {
 		e.Close()
 		return nil, err
@@ -126,6 +132,12 @@ func Open(ctx context.Context, cfg Config) (*Engine, error) {
 				return fail(fmt.Errorf("%s at %s is not a trim port", r, si.Address))
 			}
 			e.ports[r] = p
+		case SwitchRole:
+			sw, ok := in.(instruments.Switch)
+			if !ok {
+				return fail(fmt.Errorf("%s at %s is not a switch", r, si.Address))
+			}
+			e.switches[r] = sw
 		}
 		if q, ok := in.(instruments.ErrorQueue); ok {
 			e.queues = append(e.queues, roleQueue{r, q})
@@ -136,6 +148,11 @@ func Open(ctx context.Context, cfg Config) (*Engine, error) {
 			if k := st.Instruments[ru.Role].Kind; k != ru.Kind {
 				return fail(fmt.Errorf("step %q (%s) uses the %s role as a %s, but station %s binds it as a %s", d.Name, d.Where, ru.Role, ru.Kind, st.ID, k))
 			}
+		}
+	}
+	if r := seq.Switch; r != "" {
+		if k := st.Instruments[r].Kind; k != SwitchRole {
+			return fail(fmt.Errorf("%s: channels.switch names the %s role, but station %s binds it as a %s: bind a switch (kind: switch) to route the channels", seq.SwitchWhere, r, st.ID, k))
 		}
 	}
 	for _, r := range seq.Requires {
@@ -214,6 +231,9 @@ func Open(ctx context.Context, cfg Config) (*Engine, error) {
 			return fail(err)
 		}
 	}
+	if err := e.release(cfg.Log); err != nil {
+		return fail(fmt.Errorf("put the switch in a safe state: %w", err))
+	}
 	return e, nil
 }
 
@@ -269,14 +289,17 @@ func (e *Engine) configureMeter(ctx context.Context, role string, p MeterPlan) e
 // Instrument returns the opened instrument for role, or nil.
 func (e *Engine) Instrument(role string) instruments.Instrument { return e.all[role] }
 
-// Close switches the source output off and closes every instrument. Safe to call
-// twice.
+// Close switches the source output off, releases the channel switch and closes
+// every instrument. Safe to call twice.
 func (e *Engine) Close() error {
 	if e.closed {
 		return nil
 	}
 	e.closed = true
 	first := e.safeOff(e.cfg.Log)
+	if err := e.release(e.cfg.Log); err != nil && first == nil {
+		first = err
+	}
 	for _, r := range e.roles {
 		if in, ok := e.all[r]; ok {
 			if err := in.Close(); err != nil && first == nil {
@@ -299,7 +322,8 @@ func (s *stop) Unwrap() error { return s.cause }
 
 // Run trims one serial number and returns its record. Run never returns a nil
 // record: a station fault, a cancelled context or a panic are recorded in it with
-// verdict FAULT or ABORTED. The source output is off when Run returns.
+// verdict FAULT or ABORTED. The source output is off and the channel switch
+// released when Run returns.
 func (e *Engine) Run(ctx context.Context, serial string) (rec *Record) {
 	st, seq := e.cfg.Station, e.cfg.Sequence
 	now := e.clock.Now().UTC()
@@ -332,6 +356,13 @@ func (e *Engine) Run(ctx context.Context, serial string) (rec *Record) {
 				rec.Verdict = Fault
 			}
 			rec.Fault = strings.TrimPrefix(rec.Fault+"; source output off failed: "+err.Error(), "; ")
+		}
+		// The switch opens every path once the outputs are off, whatever happened.
+		if err := e.release(log); err != nil {
+			if rec.Verdict != Aborted {
+				rec.Verdict = Fault
+			}
+			rec.Fault = strings.TrimPrefix(rec.Fault+"; switch release failed: "+err.Error(), "; ")
 		}
 		rec.Finished = e.clock.Now().UTC()
 	}()
@@ -391,7 +422,8 @@ func (e *Engine) run(ctx context.Context, u *Unit) error {
 func runSteps(ctx context.Context, u *Unit) error {
 	endedAt := "" // the step whose Run ended the run
 	for _, d := range u.seq.Steps {
-		sr := StepRun{Name: d.Name, Kind: d.Kind, Stage: d.Stage, Status: StepDone}
+		sr := StepRun{Name: d.Name, Channel: d.Channel, Kind: d.Kind, Stage: d.Stage, Status: StepDone}
+		u.step, u.channel = d, d.Channel
 		switch {
 		case u.ended:
 			sr.Status, sr.Note = StepNotReached, notReachedNote(endedAt, u.endNote)
@@ -410,7 +442,11 @@ func runSteps(ctx context.Context, u *Unit) error {
 			}
 		}
 		if sr.Status == StepDone {
-			u.step = d
+			if d.Channel != "" && u.Live() && routed(d) {
+				if err := u.e.route(ctx, d.Channel); err != nil {
+					return err
+				}
+			}
 			wasEnded := u.ended
 			if err := d.Step.Run(ctx, u); err != nil {
 				return err

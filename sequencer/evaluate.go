@@ -36,6 +36,9 @@ func judge(u *Unit) {
 			continue
 		}
 		r := fmt.Sprintf("limit %q: %s", o.Name, o.Reason)
+		if o.Channel != "" {
+			r = fmt.Sprintf("limit %q, channel %s: %s", o.Name, o.Channel, o.Reason)
+		}
 		if usesStage(u.seq, o.Uses, AsFound) {
 			asFound = append(asFound, r)
 		} else {

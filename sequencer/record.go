@@ -121,11 +121,14 @@ type Record struct {
 
 // StepRun is what one step of the sequence did in a run.
 type StepRun struct {
-	Name   string `json:"name"`
-	Kind   string `json:"kind"`
-	Stage  Stage  `json:"stage,omitempty"`
-	Status string `json:"status"`         // StepDone, StepSkipped or StepNotReached
-	Note   string `json:"note,omitempty"` // why it was skipped or not reached
+	Name string `json:"name"`
+	// Channel is the channel this run of a per-channel step worked on ("" for
+	// a step of the whole unit).
+	Channel string `json:"channel,omitempty"`
+	Kind    string `json:"kind"`
+	Stage   Stage  `json:"stage,omitempty"`
+	Status  string `json:"status"`         // StepDone, StepSkipped or StepNotReached
+	Note    string `json:"note,omitempty"` // why it was skipped or not reached
 }
 
 // What a step did.

@@ -5,6 +5,8 @@ import (
 	"errors"
 	"fmt"
 	"math"
+
+	"trimline/limits"
 )
 
 // ErrNotReplayable is returned for records the station could not judge (FAULT,
@@ -57,11 +59,12 @@ func Differences(recorded, replayed *Record) []string {
 	}
 	for i := range min(len(recorded.Trims), len(replayed.Trims)) {
 		a, b := recorded.Trims[i], replayed.Trims[i]
+		dac := limits.ChannelKey(a.DAC, a.Channel)
 		if a.Code != b.Code || a.Saturated != b.Saturated {
-			add("%s trim code: recorded %d, recomputed %d", a.DAC, a.Code, b.Code)
+			add("%s trim code: recorded %d, recomputed %d", dac, a.Code, b.Code)
 		}
 		if !same(a.Ideal, b.Ideal) {
-			add("%s trim ideal code: recorded %.9g, recomputed %.9g", a.DAC, a.Ideal, b.Ideal)
+			add("%s trim ideal code: recorded %.9g, recomputed %.9g", dac, a.Ideal, b.Ideal)
 		}
 	}
 	coefDifferences(recorded.Coefficients, replayed.Coefficients, add)
@@ -82,34 +85,37 @@ func Differences(recorded, replayed *Record) []string {
 			add("%s: recorded within=%v next code %d, recomputed within=%v next code %d", what, a.Within, a.Next, b.Within, b.Next)
 		}
 	}
+	// A per-channel result or outcome is named name@channel.
 	got := map[string]Result{}
 	for _, r := range replayed.Results {
-		got[r.Name] = r
+		got[limits.ChannelKey(r.Name, r.Channel)] = r
 	}
 	for _, a := range recorded.Results {
-		b, ok := got[a.Name]
+		name := limits.ChannelKey(a.Name, a.Channel)
+		b, ok := got[name]
 		switch {
 		case !ok:
-			add("result %s: not computed by this release", a.Name)
+			add("result %s: not computed by this release", name)
 		case a.Valid != b.Valid:
-			add("result %s: recorded valid=%v, recomputed valid=%v", a.Name, a.Valid, b.Valid)
+			add("result %s: recorded valid=%v, recomputed valid=%v", name, a.Valid, b.Valid)
 		case !same(a.Value, b.Value):
-			add("result %s: recorded %.9g, recomputed %.9g", a.Name, a.Value, b.Value)
+			add("result %s: recorded %.9g, recomputed %.9g", name, a.Value, b.Value)
 		case !same(a.Unc.Expanded, b.Unc.Expanded):
-			add("result %s: recorded U = %.6g, recomputed U = %.6g", a.Name, a.Unc.Expanded, b.Unc.Expanded)
+			add("result %s: recorded U = %.6g, recomputed U = %.6g", name, a.Unc.Expanded, b.Unc.Expanded)
 		}
 	}
 	outs := map[string]bool{}
 	for _, o := range replayed.Outcomes {
-		outs[o.Name] = o.Pass
+		outs[limits.ChannelKey(o.Name, o.Channel)] = o.Pass
 	}
 	for _, o := range recorded.Outcomes {
-		p, ok := outs[o.Name]
+		name := limits.ChannelKey(o.Name, o.Channel)
+		p, ok := outs[name]
 		switch {
 		case !ok:
-			add("limit %q: not judged by this release", o.Name)
+			add("limit %q: not judged by this release", name)
 		case p != o.Pass:
-			add("limit %q: recorded pass=%v, recomputed pass=%v", o.Name, o.Pass, p)
+			add("limit %q: recorded pass=%v, recomputed pass=%v", name, o.Pass, p)
 		}
 	}
 	return d

@@ -121,10 +121,13 @@ func (s Stage) String() string {
 
 // ResultDef declares one result a step computes.
 type ResultDef struct {
-	Name  string    // what limit files write in uses:
-	Step  string    // the step that declares it
-	Dim   units.Dim // units.Volt, units.Ratio, units.Count or units.Number; the value is in SI (a Number unscaled)
-	Stage Stage
+	Name string // what limit files write in uses:
+	// Channel is the channel of a result a per-channel step declares once and
+	// computes on every channel ("" for a result of the whole unit).
+	Channel string
+	Step    string    // the step that declares it
+	Dim     units.Dim // units.Volt, units.Ratio, units.Count or units.Number; the value is in SI (a Number unscaled)
+	Stage   Stage
 	// Quantity is what the result measures, the same word for the same thing at
 	// every stage: a fit output (offset, gain_error, nonlinearity, max_error,
 	// noise, lack_of_fit), "code" for a trim code, "" when a kind does not say.
@@ -137,6 +140,10 @@ type ResultDef struct {
 	// the range cannot be known without it. A nil Range means no range.
 	Range func(seq *Sequence) (lo, hi float64, ok bool)
 }
+
+// Key is the result's key among a run's values: its name, name@channel for a
+// per-channel result (limits.ChannelKey).
+func (d ResultDef) Key() string { return limits.ChannelKey(d.Name, d.Channel) }
 
 // Unit is the name of the result's dimension as the record writes it: "V",
 // "A", "ratio", "code" (a trim code, or any other count a kind declares),
@@ -223,7 +230,7 @@ func noiseRange(seq *Sequence) (lo, hi float64, ok bool) {
 	return 0, (ohi - olo) / 2, true
 }
 
-// results collects the named results of one run.
+// results collects the named results of one run, keyed by ResultDef.Key.
 type results struct {
 	defs   []ResultDef
 	values map[string]limits.Value
@@ -234,7 +241,7 @@ type results struct {
 func newResults(seq *Sequence) *results {
 	r := &results{defs: seq.Results(), values: map[string]limits.Value{}, unc: map[string]Uncertainty{}, set_: map[string]bool{}}
 	for _, d := range r.defs {
-		r.values[d.Name] = limits.Value{Why: "not measured"}
+		r.values[d.Key()] = limits.Value{Why: "not measured"}
 	}
 	return r
 }
@@ -242,8 +249,8 @@ func newResults(seq *Sequence) *results {
 // unset marks every result no step computed invalid with why.
 func (r *results) unset(why string) {
 	for _, d := range r.defs {
-		if !r.set_[d.Name] {
-			r.values[d.Name] = limits.Value{Why: why}
+		if !r.set_[d.Key()] {
+			r.values[d.Key()] = limits.Value{Why: why}
 		}
 	}
 }
@@ -277,8 +284,8 @@ func (r *results) invalid(name, why string) {
 func (r *results) list() []Result {
 	out := make([]Result, 0, len(r.defs))
 	for _, d := range r.defs {
-		v := r.values[d.Name]
-		res := Result{Name: d.Name, Stage: d.Stage, Step: d.Step, Quantity: d.Quantity, Value: v.V, Unit: d.Unit(), Valid: v.Valid, Unc: r.unc[d.Name]}
+		v := r.values[d.Key()]
+		res := Result{Name: d.Name, Channel: d.Channel, Stage: d.Stage, Step: d.Step, Quantity: d.Quantity, Value: v.V, Unit: d.Unit(), Valid: v.Valid, Unc: r.unc[d.Key()]}
 		if !v.Valid {
 			res.Value, res.Note = 0, v.Why
 		}

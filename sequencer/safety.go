@@ -65,7 +65,15 @@ func CheckCaps(st *Station, seq *Sequence) error {
 			unbound = append(unbound, fmt.Sprintf("%s: the sequence requires the %q role, which station %s does not bind", seq.File.Name, r, st.ID))
 		}
 	}
-	for _, d := range seq.Steps {
+	if r := seq.Switch; r != "" {
+		if si, ok := st.Instruments[r]; ok && si.Kind != SwitchRole {
+			unbound = append(unbound, fmt.Sprintf("%s: channels.switch names the %q role to route the channels, but station %s binds it as a %s: bind a switch (kind: switch)", seq.SwitchWhere, r, st.ID, si.Kind))
+		}
+	}
+	for i, d := range seq.Steps {
+		if i > 0 && seq.Steps[i-1].Name == d.Name {
+			continue // the same step on another channel
+		}
 		for _, ru := range d.Roles {
 			if si, ok := st.Instruments[ru.Role]; ok && si.Kind != ru.Kind {
 				unbound = append(unbound, fmt.Sprintf("%s: step %q uses the %q role as a %s, but station %s binds it as a %s", d.Where, d.Name, ru.Role, ru.Kind, st.ID, si.Kind))

@@ -46,7 +46,17 @@ type Sequence struct {
 	// declares them (coefficients:), in file order; at most one adjusts gain and
 	// one offset.
 	Coefficients []Coefficient
-	Steps        []*StepDecl
+	// Steps are the file's steps in order, a step that runs per channel once
+	// per channel (StepDecl.Channel).
+	Steps []*StepDecl
+
+	// Channels are the unit's channel names in the file's order (channels:),
+	// nil for a one-channel unit. Switch is the role of the switch that routes
+	// the bench to one channel ("" when the fixture needs none), SwitchWhere
+	// "file:line:col" of its key.
+	Channels    []string
+	Switch      string
+	SwitchWhere string
 
 	// SerialPattern is the sequence file's serial_pattern as written, matched
 	// against the whole serial ("" = DefaultSerialPattern); CheckSerial applies it.
@@ -84,12 +94,14 @@ func (s *Sequence) Results() []ResultDef {
 }
 
 // Catalog is every result name the steps declare with its dimension: what the
-// limit file may judge.
+// limit file may judge. A per-channel result is listed also once per channel,
+// as name@channel (limits.ChannelKey), so that a limit file knows the channels.
 func (s *Sequence) Catalog() limits.Catalog {
 	c := limits.Catalog{}
 	for _, d := range s.Results() {
 		c[d.Name] = d.Dim
 	}
+	channelKeys(c, s.Results())
 	return c
 }
 
@@ -215,12 +227,13 @@ func responseExample(d units.Dim) string {
 }
 
 type stepHead struct {
-	Kind   string `yaml:"kind"`
-	Name   string `yaml:"name"`
-	SkipIf string `yaml:"skip_if"`
+	Kind     string      `yaml:"kind"`
+	Name     string      `yaml:"name"`
+	SkipIf   string      `yaml:"skip_if"`
+	Channels *channelSel `yaml:"channels"`
 }
 
-var headKeys = map[string]bool{"kind": true, "name": true, "skip_if": true}
+var headKeys = map[string]bool{"kind": true, "name": true, "skip_if": true, "channels": true}
 
 // anyNode takes any YAML value: the steps list, decoded step by step.
 type anyNode struct{ set bool }
@@ -247,9 +260,10 @@ type sequenceFile struct {
 		Range *units.Quantity `yaml:"range"`
 		NPLC  *float64        `yaml:"nplc"`
 	} `yaml:"meter"`
-	DACs         []*dacDecl  `yaml:"dacs"`
-	Coefficients []*coefDecl `yaml:"coefficients"`
-	Steps        anyNode     `yaml:"steps"`
+	DACs         []*dacDecl    `yaml:"dacs"`
+	Coefficients []*coefDecl   `yaml:"coefficients"`
+	Channels     *channelsDecl `yaml:"channels"`
+	Steps        anyNode       `yaml:"steps"`
 	Uncertainty  struct {
 		Method string `yaml:"method"`
 		Trials int    `yaml:"trials"`
@@ -381,6 +395,9 @@ func parseSequence(name string, data []byte, read func(path string) ([]byte, err
 		}
 	case first:
 		s.FirstLayout = true
+		if doc.Has("$.channels") {
+			errs = append(errs, doc.KeyErrorf("$.channels", "channels need a step list: the first sequence layout (pre_trim, trim, verify) trims one channel"))
+		}
 		paths = firstLayout(doc, s, &f, &errs)
 		if doc.Has("$.coefficients") {
 			errs = append(errs, doc.KeyErrorf("$.coefficients", "coefficients: needs a step list (steps:) with a coefficients step: the first sequence layout has none"))
@@ -388,10 +405,13 @@ func parseSequence(name string, data []byte, read func(path string) ([]byte, err
 	default:
 		s.DACs = dacList(doc, f.DACs, s.ResponseDim, &errs)
 		s.Coefficients = coefList(doc, s, f.Coefficients, &errs)
+		parseChannels(doc, s, f.Channels, &errs)
 		paths = stepList(doc, s, &errs, &decodeErrs)
 	}
 	checkSteps(doc, s, paths, &errs)
-	runBounds(doc, s, &errs)
+	checkSwitch(doc, s, &errs)
+	expandChannels(s)
+	runBounds(doc, s, len(paths), &errs)
 	requires(doc, s, f.Requires, &errs)
 	if f.Ideal.FullScale != nil {
 		s.FullScale, _ = inResponse(doc, s, "$.ideal.full_scale", *f.Ideal.FullScale, &errs)
@@ -483,6 +503,7 @@ func stepList(doc *files.Doc, s *Sequence, errs, decodeErrs *files.List) []strin
 			*errs = append(*errs, doc.Errorf(path+".kind", "unknown step kind %q (expected one of %s)", h.Kind, kindNamesText()))
 			continue
 		}
+		d.chans = stepChannels(doc, s, d, path, h.Channels, errs)
 		d.Step = k.New()
 		if err := doc.DecodeAt(path, d.Step, func(k string) bool { return headKeys[k] }); err != nil {
 			*decodeErrs = append(*decodeErrs, files.Errs(err)...)
@@ -496,8 +517,8 @@ func stepList(doc *files.Doc, s *Sequence, errs, decodeErrs *files.List) []strin
 // runBounds refuses a sequence whose steps together would make a run that never
 // ends, though each is within its own bounds: too many steps, too long an estimated
 // run, too many readings for one record.
-func runBounds(doc *files.Doc, s *Sequence, errs *files.List) {
-	if n := len(s.Steps); n > MaxSteps {
+func runBounds(doc *files.Doc, s *Sequence, fileSteps int, errs *files.List) {
+	if n := fileSteps; n > MaxSteps {
 		*errs = append(*errs, doc.Errorf("$.steps", "expected at most %d steps, found %d", MaxSteps, n))
 		return
 	}
@@ -551,9 +572,13 @@ func checkSteps(doc *files.Doc, s *Sequence, paths []string, errs *files.List) {
 		c := &Checker{doc: doc, path: path, seq: s, decl: d, earlier: s.Steps[:i], errs: errs, names: declared}
 		d.Step.Check(c)
 		if d.SkipIf != "" {
+			// A step of the whole unit reads results of the whole unit; a step
+			// that runs per channel reads its own channel's by their plain names.
 			var earlier []ResultDef
 			for _, e := range s.Steps[:i] {
-				earlier = append(earlier, e.Results...)
+				if d.chans != nil || e.chans == nil {
+					earlier = append(earlier, e.Results...)
+				}
 			}
 			cond, err := compileCondition(d.SkipIf, earlier)
 			if err != nil {
@@ -579,6 +604,12 @@ func requires(doc *files.Doc, s *Sequence, listed []string, errs *files.List) {
 			}
 			used[r.Role] = r.Kind
 			order = append(order, r)
+		}
+	}
+	if s.Switch != "" {
+		if _, seen := used[s.Switch]; !seen {
+			used[s.Switch] = SwitchRole
+			order = append(order, RoleUse{Role: s.Switch, Kind: SwitchRole})
 		}
 	}
 	if len(listed) > 0 {
@@ -756,17 +787,20 @@ func CatalogFor(limitsPath string) (cat limits.Catalog, seq *Sequence, note stri
 func RecordCatalog(rec *Record) limits.Catalog {
 	c := limits.Catalog{}
 	for _, r := range rec.Results {
+		dim := units.Ratio
 		switch r.Unit {
 		case "V":
-			c[r.Name] = units.Volt
+			dim = units.Volt
 		case "A":
-			c[r.Name] = units.Ampere
+			dim = units.Ampere
 		case "code", "count":
-			c[r.Name] = units.Count
+			dim = units.Count
 		case "number":
-			c[r.Name] = units.Number
-		default:
-			c[r.Name] = units.Ratio
+			dim = units.Number
+		}
+		c[r.Name] = dim
+		if r.Channel != "" {
+			c[limits.ChannelKey(r.Name, r.Channel)] = dim
 		}
 	}
 	return c

@@ -22,6 +22,9 @@ const (
 	VoltageSource RoleKind = instruments.KindSource // a programmable DC voltage source (instruments.Source)
 	VoltMeter     RoleKind = instruments.KindMeter  // a DC voltmeter (instruments.Meter)
 	DUTPort       RoleKind = instruments.KindPort   // the unit's command port (instruments.TrimPort)
+	// SwitchRole routes the bench to one channel of a multi-channel unit
+	// (instruments.Switch): the sequence's channels.switch.
+	SwitchRole RoleKind = instruments.KindSwitch
 )
 
 // The roles a station binds when its file does not say otherwise, each of the
@@ -32,8 +35,9 @@ const (
 	RoleDUT    = "dut"
 )
 
-// roleKinds are the kinds in the order roles are listed: sources, meters, ports.
-var roleKinds = []RoleKind{VoltageSource, VoltMeter, DUTPort}
+// roleKinds are the kinds in the order roles are listed: sources, meters, ports,
+// switches.
+var roleKinds = []RoleKind{VoltageSource, VoltMeter, DUTPort, SwitchRole}
 
 func (k RoleKind) order() int {
 	for i, x := range roleKinds {
@@ -448,7 +452,9 @@ func parseStation(name string, data []byte, recorded bool) (*Station, error) {
 				errs = append(errs, doc.Errorf(base+".timeout", "expected a timeout of at most %s, found %s", MaxTimeout, si.Timeout))
 			}
 		}
-		if known && kind != DUTPort { // an instrument of no known kind has no checks to make
+		// An instrument of no known kind has no checks to make; a DUT port and a
+		// switch measure nothing, so they have no calibration or accuracy.
+		if known && kind != DUTPort && kind != SwitchRole {
 			req(base+".cal_due", in.CalDue)
 			if in.CalDue != "" {
 				d, err := time.Parse("2006-01-02", in.CalDue)

@@ -20,10 +20,16 @@ import (
 // StepKind is one kind of step a sequence file may list: its name (what a file
 // writes after kind:), a line saying what it does, and New, which returns a zero
 // step whose YAML-tagged fields the loader decodes the step's own keys into.
+//
+// PerChannel marks a kind that works on one channel of a multi-channel unit
+// (sweep, measure, fit, trim): a step of it runs once per channel unless its
+// channels: key says otherwise. A kind without it (identify, command, store)
+// runs once for the whole unit.
 type StepKind struct {
-	Name  string
-	About string
-	New   func() Step
+	Name       string
+	About      string
+	New        func() Step
+	PerChannel bool
 }
 
 // Step is one decoded step of a sequence. After decoding, the loader calls Check
@@ -120,6 +126,12 @@ type StepDecl struct {
 	Stage   Stage
 	Roles   []RoleUse   // roles the step uses
 	Results []ResultDef // results the step declares, in record order
+	// Channel is the unit's channel this entry of the step works on: a step
+	// that runs per channel is one entry per channel, each with the same Name,
+	// Step and Where; "" for a step of the whole unit (and every step of a
+	// one-channel unit).
+	Channel string
+	chans   []string // the channels the step runs on, before expansion; nil = once
 }
 
 // RoleUse is one role a step uses and what kind of instrument it must be.
@@ -179,6 +191,7 @@ func (c *Checker) Earlier(key, name string, kinds ...string) *StepDecl {
 			c.Errorf(key, "step %q is a %s step: expected a %s step", name, d.Kind, strings.Join(kinds, " or "))
 			return nil
 		}
+		c.sameChannels(key, d)
 		return d
 	}
 	var cand []string
@@ -241,4 +254,23 @@ func validName(s string) bool {
 		}
 	}
 	return true
+}
+
+// sameChannels reports at key a reference to the earlier step d that some channel
+// of this step cannot follow: a step of the whole unit cannot use what a step
+// kept per channel, and a step on a channel needs d on that channel (or d of the
+// whole unit).
+func (c *Checker) sameChannels(key string, d *StepDecl) {
+	switch {
+	case d.chans == nil:
+	case c.decl.chans == nil:
+		c.Errorf(key, "step %q runs per channel (%s), but this step runs once for the whole unit: give it channels: all, or the same channels", d.Name, strings.Join(d.chans, ", "))
+	default:
+		for _, ch := range c.decl.chans {
+			if !slices.Contains(d.chans, ch) {
+				c.Errorf(key, "this step runs on channel %q, where step %q does not run (it runs on %s)", ch, d.Name, strings.Join(d.chans, ", "))
+				return
+			}
+		}
+	}
 }

@@ -15,7 +15,7 @@ import (
 )
 
 func init() {
-	RegisterStep(StepKind{Name: "coefficients", About: "computes the firmware gain and offset correction from an earlier fit of the uncorrected unit, writes each coefficient in its number format and reads it back",
+	RegisterStep(StepKind{Name: "coefficients", PerChannel: true, About: "computes the firmware gain and offset correction from an earlier fit of the uncorrected unit, writes each coefficient in its number format and reads it back",
 		New: func() Step { return new(coefStep) }})
 }
 

@@ -119,9 +119,10 @@ func (s *commandStep) Check(c *Checker) {
 	}
 }
 
-// text is the line with {serial} replaced by the unit's serial.
+// text is the line with {serial} replaced by the unit's serial and {channel} by
+// the running step's channel.
 func (l *commandLine) text(u *Unit, s string) string {
-	return strings.ReplaceAll(s, "{serial}", u.Serial)
+	return u.Fill(strings.ReplaceAll(s, "{serial}", u.Serial))
 }
 
 func (s *commandStep) Run(ctx context.Context, u *Unit) error {

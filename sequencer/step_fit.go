@@ -15,7 +15,7 @@ import (
 )
 
 func init() {
-	RegisterStep(StepKind{Name: "fit", About: "fits a line (order 1) or a quadratic (order 2) through an earlier sweep, optionally over a window of its levels, and names the results",
+	RegisterStep(StepKind{Name: "fit", PerChannel: true, About: "fits a line (order 1) or a quadratic (order 2) through an earlier sweep, optionally over a window of its levels, and names the results",
 		New: func() Step { return new(fitStep) }})
 }
 
@@ -169,7 +169,7 @@ func (f *fitStep) Run(_ context.Context, u *Unit) error {
 		u.End(note)
 		return nil
 	}
-	a.sum.Step = u.step.Name
+	a.sum.Step, a.sum.Channel = u.step.Name, u.channel
 	u.Rec.Fits = append(u.Rec.Fits, a.sum)
 	u.Keep(fitKept{a: a})
 	seq := u.seq

@@ -17,7 +17,7 @@ import (
 )
 
 func init() {
-	RegisterStep(StepKind{Name: "measure", About: "programs one level (or leaves the source off), settles, takes readings and names their mean, error and noise",
+	RegisterStep(StepKind{Name: "measure", PerChannel: true, About: "programs one level (or leaves the source off), settles, takes readings and names their mean, error and noise",
 		New: func() Step { return new(measureStep) }})
 }
 
@@ -177,7 +177,7 @@ func (s *measureStep) Budget() (time.Duration, int) {
 
 func (s *measureStep) Run(ctx context.Context, u *Unit) error {
 	name := u.step.Name
-	sw := Sweep{Name: name, Stage: u.step.Stage}
+	sw := Sweep{Name: name, Channel: u.channel, Stage: u.step.Stage}
 	switch {
 	case u.Live():
 		rs, err := s.measure(ctx, u)
@@ -190,7 +190,7 @@ func (s *measureStep) Run(ctx context.Context, u *Unit) error {
 			return err
 		}
 	case u.Replaying():
-		stored, ok := storedSweep(u.stored, name)
+		stored, ok := storedSweep(u.stored, name, u.channel)
 		if !ok || len(stored.Points) != 1 {
 			u.End("") // the recorded run ended before this step
 			return nil

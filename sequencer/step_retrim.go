@@ -20,7 +20,7 @@ import (
 )
 
 func init() {
-	RegisterStep(StepKind{Name: "retrim", About: "re-trims one DAC in closed loop: measures the output error at its levels, moves the code by the error over the measured sensitivity, until the error is within a bound",
+	RegisterStep(StepKind{Name: "retrim", PerChannel: true, About: "re-trims one DAC in closed loop: measures the output error at its levels, moves the code by the error over the measured sensitivity, until the error is within a bound",
 		New: func() Step { return new(retrimStep) }})
 }
 
@@ -377,7 +377,7 @@ func (s *retrimStep) Run(ctx context.Context, u *Unit) error {
 		s.predict(u)
 		return nil
 	}
-	name, d := u.step.Name, s.dac
+	name, d := u.step.Name, u.onChannel(s.dac)
 	var stored []RetrimPass
 	if u.Replaying() {
 		for _, p := range u.stored.Retrims {
@@ -455,13 +455,13 @@ func (s *retrimStep) Run(ctx context.Context, u *Unit) error {
 		}
 	}
 	if wrote {
-		t := trimEntry(u.Rec, d.Name)
+		t := trimEntry(u, d.Name)
 		t.Code = final.code
 		switch {
 		case u.Live():
 			t.Readback, t.Written = final.code, true
 		case u.Replaying():
-			if st, ok := storedTrim(u.stored, d.Name); ok {
+			if st, ok := storedTrim(u, d.Name); ok {
 				t.Readback, t.Written = st.Readback, st.Written
 			}
 		}
@@ -485,7 +485,7 @@ func (s *retrimStep) Run(ctx context.Context, u *Unit) error {
 // is only noted.
 func (s *retrimStep) write(ctx context.Context, u *Unit, code int) error {
 	if u.Live() {
-		if err := u.e.writeCode(ctx, s.dac, code); err != nil {
+		if err := u.e.writeCode(ctx, u.onChannel(s.dac), code); err != nil {
 			return err
 		}
 	}

@@ -16,7 +16,7 @@ import (
 )
 
 func init() {
-	RegisterStep(StepKind{Name: "sweep", About: "steps a source across a range or a list of levels, settles, and takes readings at each",
+	RegisterStep(StepKind{Name: "sweep", PerChannel: true, About: "steps a source across a range or a list of levels, settles, and takes readings at each",
 		New: func() Step { return new(sweepStep) }})
 }
 
@@ -184,19 +184,19 @@ func (s *sweepStep) Run(ctx context.Context, u *Unit) error {
 	case u.Live():
 		var err error
 		sw, err = u.e.sweep(ctx, u, name, s.Plan)
-		sw.Stage = u.step.Stage
+		sw.Stage, sw.Channel = u.step.Stage, u.channel
 		annotate(u.cfg, s.Plan, &sw)
 		u.Rec.Sweeps = append(u.Rec.Sweeps, sw)
 		if err != nil {
 			return err
 		}
 	case u.Replaying():
-		stored, ok := storedSweep(u.stored, name)
+		stored, ok := storedSweep(u.stored, name, u.channel)
 		if !ok {
 			u.End("") // the recorded run ended before this sweep
 			return nil
 		}
-		sw = Sweep{Name: name, Stage: u.step.Stage}
+		sw = Sweep{Name: name, Channel: u.channel, Stage: u.step.Stage}
 		for _, p := range stored.Points {
 			sw.Points = append(sw.Points, point(p.Stimulus, p.Readings))
 		}
@@ -204,7 +204,7 @@ func (s *sweepStep) Run(ctx context.Context, u *Unit) error {
 		u.Rec.Sweeps = append(u.Rec.Sweeps, sw)
 	default: // predicting: a unit with exactly the ideal transfer, one noiseless reading a level
 		seq := u.seq
-		sw = Sweep{Name: name, Stage: u.step.Stage}
+		sw = Sweep{Name: name, Channel: u.channel, Stage: u.step.Stage}
 		for _, x := range s.Plan.Levels() {
 			y := seq.IdealGain*x + seq.IdealOffset
 			sw.Points = append(sw.Points, Point{Stimulus: x, Mean: y, Valid: 1, Readings: make([]instruments.Reading, 1)})
@@ -338,10 +338,11 @@ func oneStep(d units.Dim) string {
 	return "10 V"
 }
 
-// storedSweep finds the sweep called name in a stored record.
-func storedSweep(rec *Record, name string) (Sweep, bool) {
+// storedSweep finds the sweep called name of channel ch ("" for the whole unit)
+// in a stored record.
+func storedSweep(rec *Record, name, ch string) (Sweep, bool) {
 	for _, s := range rec.Sweeps {
-		if s.Name == name {
+		if s.Name == name && s.Channel == ch {
 			return s, true
 		}
 	}

@@ -14,9 +14,9 @@ import (
 )
 
 func init() {
-	RegisterStep(StepKind{Name: "clear_trim", About: "reads the code each trim DAC and the value each firmware coefficient holds (recorded as found) and writes their no-correction values",
+	RegisterStep(StepKind{Name: "clear_trim", PerChannel: true, About: "reads the code each trim DAC and the value each firmware coefficient holds (recorded as found) and writes their no-correction values",
 		New: func() Step { return new(clearTrimStep) }})
-	RegisterStep(StepKind{Name: "trim", About: "computes trim codes from an earlier fit, writes them and reads them back; a code outside a DAC's range fails the unit",
+	RegisterStep(StepKind{Name: "trim", PerChannel: true, About: "computes trim codes from an earlier fit, writes them and reads them back; a code outside a DAC's range fails the unit",
 		New: func() Step { return new(trimStep) }})
 	RegisterStep(StepKind{Name: "store", About: "sends the command that commits the written trim codes to the unit's non-volatile memory",
 		New: func() Step { return new(storeStep) }})
@@ -48,21 +48,24 @@ func dacsOf(c *Checker, key string, names []string) []DAC {
 	return out
 }
 
-// trimEntry returns the record's trim entry of DAC name, adding it when new.
-func trimEntry(rec *Record, name string) *TrimCode {
+// trimEntry returns the record's trim entry of DAC name on the running step's
+// channel, adding it when new.
+func trimEntry(u *Unit, name string) *TrimCode {
+	rec := u.Rec
 	for i := range rec.Trims {
-		if rec.Trims[i].DAC == name {
+		if rec.Trims[i].DAC == name && rec.Trims[i].Channel == u.channel {
 			return &rec.Trims[i]
 		}
 	}
-	rec.Trims = append(rec.Trims, TrimCode{DAC: name})
+	rec.Trims = append(rec.Trims, TrimCode{DAC: name, Channel: u.channel})
 	return &rec.Trims[len(rec.Trims)-1]
 }
 
-// storedTrim returns the stored record's entry of DAC name.
-func storedTrim(rec *Record, name string) (TrimCode, bool) {
-	for _, t := range rec.Trims {
-		if t.DAC == name {
+// storedTrim returns the stored record's entry of DAC name on the running step's
+// channel.
+func storedTrim(u *Unit, name string) (TrimCode, bool) {
+	for _, t := range u.stored.Trims {
+		if t.DAC == name && t.Channel == u.channel {
 			return t, true
 		}
 	}
@@ -90,7 +93,8 @@ func (s *clearTrimStep) Check(c *Checker) {
 
 func (s *clearTrimStep) Run(ctx context.Context, u *Unit) error {
 	for _, d := range s.dacs {
-		t := trimEntry(u.Rec, d.Name)
+		d := u.onChannel(d)
+		t := trimEntry(u, d.Name)
 		switch {
 		case u.Live():
 			err := u.Do(ctx, func(ctx context.Context) error {
@@ -106,7 +110,7 @@ func (s *clearTrimStep) Run(ctx context.Context, u *Unit) error {
 			}
 		case u.Replaying():
 			t.Before = d.NoCorrection
-			if st, ok := storedTrim(u.stored, d.Name); ok {
+			if st, ok := storedTrim(u, d.Name); ok {
 				t.Before = st.Before
 			}
 		default:
@@ -190,10 +194,13 @@ func (s *trimStep) Run(ctx context.Context, u *Unit) error {
 		return nil
 	}
 	seq := u.seq
-	dacs := s.plan.DACs
+	dacs := make([]DAC, len(s.plan.DACs))
+	for i, d := range s.plan.DACs {
+		dacs[i] = u.onChannel(d)
+	}
 	before := make([]int, len(dacs))
 	for i, d := range dacs {
-		t := trimEntry(u.Rec, d.Name)
+		t := trimEntry(u, d.Name)
 		c, known := u.Code(d.Name)
 		switch {
 		case known:
@@ -209,7 +216,7 @@ func (s *trimStep) Run(ctx context.Context, u *Unit) error {
 			t.Before = c
 		case u.Replaying():
 			c = d.NoCorrection
-			if st, ok := storedTrim(u.stored, d.Name); ok {
+			if st, ok := storedTrim(u, d.Name); ok {
 				c = st.Before
 			}
 			t.Before = c
@@ -228,11 +235,11 @@ func (s *trimStep) Run(ctx context.Context, u *Unit) error {
 	idealU := idealCodeU(s.plan, fk.a, sol, before)
 	var sat []string
 	for i, d := range dacs {
-		t, c := trimEntry(u.Rec, d.Name), sol.Codes[i]
+		t, c := trimEntry(u, d.Name), sol.Codes[i]
 		t.Ideal, t.Code, t.Saturated, t.IdealU = c.Ideal, c.Code, c.Saturated, idealU[i]
 		if c.Saturated {
-			sat = append(sat, fmt.Sprintf("%s trim needs code %.1f, outside the DAC's range %d..%d", d.Name, c.Ideal, d.MinCode(), d.MaxCode()))
-			u.res.flagged(s.names[i], float64(c.Code), d.Name+" trim saturated")
+			sat = append(sat, fmt.Sprintf("%s%s trim needs code %.1f, outside the DAC's range %d..%d", onChannelText(u), d.Name, c.Ideal, d.MinCode(), d.MaxCode()))
+			u.res.flagged(u.key(s.names[i]), float64(c.Code), d.Name+" trim saturated")
 		} else {
 			u.Set(s.names[i], float64(c.Code))
 		}
@@ -245,7 +252,7 @@ func (s *trimStep) Run(ctx context.Context, u *Unit) error {
 		return nil
 	}
 	for i, d := range dacs {
-		t := trimEntry(u.Rec, d.Name)
+		t := trimEntry(u, d.Name)
 		switch {
 		case u.Live():
 			if err := u.e.writeCode(ctx, d, t.Code); err != nil {
@@ -254,7 +261,7 @@ func (s *trimStep) Run(ctx context.Context, u *Unit) error {
 			t.Readback, t.Written = t.Code, true
 		case u.Replaying():
 			// What the unit did with the codes is a fact of the run, not a computation.
-			if st, ok := storedTrim(u.stored, d.Name); ok {
+			if st, ok := storedTrim(u, d.Name); ok {
 				t.Readback, t.Stored, t.Written = st.Readback, st.Stored, st.Written
 			}
 		}
@@ -366,4 +373,12 @@ func (e *Engine) readCode(ctx context.Context, d DAC) (int, error) {
 		return 0, &stop{verdict: Fault, msg: fmt.Sprintf("%s: %s trim read-back %q is not a code", d.Port, d.Name, reply)}
 	}
 	return c, nil
+}
+
+// onChannelText is "channel 2: " in a step that runs per channel, else "".
+func onChannelText(u *Unit) string {
+	if u.channel == "" {
+		return ""
+	}
+	return "channel " + u.channel + ": "
 }

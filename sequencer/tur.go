@@ -31,9 +31,14 @@ func PredictUncertainty(st *Station, seq *Sequence) map[string]limits.Value {
 	if err := runSteps(context.Background(), u); err != nil {
 		return out
 	}
+	// On paper every channel is the same ideal unit: a per-channel result's
+	// uncertainty is its first channel's.
 	for _, d := range seq.Results() {
-		if _, evaluated := u.res.unc[d.Name]; evaluated && u.res.values[d.Name].Valid {
-			out[d.Name] = u.res.values[d.Name]
+		if _, done := out[d.Name]; done {
+			continue
+		}
+		if _, evaluated := u.res.unc[d.Key()]; evaluated && u.res.values[d.Key()].Valid {
+			out[d.Name] = u.res.values[d.Key()]
 		}
 	}
 	return out

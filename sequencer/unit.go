@@ -13,6 +13,7 @@ import (
 
 	"trimline/instruments"
 	"trimline/instruments/units"
+	"trimline/limits"
 	"trimline/sequencer/uncertainty"
 )
 
@@ -83,20 +84,34 @@ func (u *Unit) Stored() *Record { return u.stored }
 // Sequence is the sequence in force.
 func (u *Unit) Sequence() *Sequence { return u.seq }
 
-// Keep stores what the running step leaves for later steps, under its name.
-func (u *Unit) Keep(v any) { u.kept[u.step.Name] = v }
+// key is name on the running step's channel (limits.ChannelKey): what a step of
+// a multi-channel unit keeps, sets and reads is its channel's.
+func (u *Unit) key(name string) string { return limits.ChannelKey(name, u.channel) }
 
-// Kept returns what the step called name kept, nil when it did not run.
-func (u *Unit) Kept(name string) any { return u.kept[name] }
+// Keep stores what the running step leaves for later steps, under its name (and
+// channel).
+func (u *Unit) Keep(v any) { u.kept[u.key(u.step.Name)] = v }
 
-// Code returns the code trim DAC name holds, as far as the run knows.
+// Kept returns what the step called name kept, nil when it did not run: on the
+// running step's channel when that step ran per channel, else what it kept for
+// the whole unit.
+func (u *Unit) Kept(name string) any {
+	if v, ok := u.kept[u.key(name)]; ok {
+		return v
+	}
+	return u.kept[name]
+}
+
+// Code returns the code trim DAC name holds on the running step's channel, as
+// far as the run knows.
 func (u *Unit) Code(name string) (int, bool) {
-	c, ok := u.codes[name]
+	c, ok := u.codes[u.key(name)]
 	return c, ok
 }
 
-// SetCode records that trim DAC name now holds code.
-func (u *Unit) SetCode(name string, code int) { u.codes[name] = code }
+// SetCode records that trim DAC name (on the running step's channel) now holds
+// code.
+func (u *Unit) SetCode(name string, code int) { u.codes[u.key(name)] = code }
 
 // End stops the unit's run after the running step: the later steps are not run,
 // and every result not yet computed is invalid with note as the reason.
@@ -113,19 +128,33 @@ func (u *Unit) Fault(format string, args ...any) error {
 	return &stop{verdict: Fault, msg: fmt.Sprintf(format, args...)}
 }
 
-// Set records result name with value v (an exact number: no uncertainty).
-func (u *Unit) Set(name string, v float64) { u.res.set(name, v) }
+// Set records result name with value v (an exact number: no uncertainty). In a
+// step that runs per channel, the result is the running channel's.
+func (u *Unit) Set(name string, v float64) { u.res.set(u.key(name), v) }
 
-// SetU records result name with value v and its uncertainty.
-func (u *Unit) SetU(name string, v float64, unc Uncertainty) { u.res.setU(name, v, unc) }
+// SetU records result name with value v and its uncertainty (the running
+// channel's, as Set).
+func (u *Unit) SetU(name string, v float64, unc Uncertainty) { u.res.setU(u.key(name), v, unc) }
 
-// Invalid records that result name could not be computed, and why.
-func (u *Unit) Invalid(name, why string) { u.res.invalid(name, why) }
+// Invalid records that result name could not be computed, and why (the running
+// channel's, as Set).
+func (u *Unit) Invalid(name, why string) { u.res.invalid(u.key(name), why) }
 
-// Result returns the value of a result computed so far.
+// Result returns the value of a result computed so far: in a step that runs per
+// channel, a per-channel result is the running channel's.
 func (u *Unit) Result(name string) (v float64, valid bool) {
-	r, ok := u.res.values[name]
+	r, ok := u.res.values[u.key(name)]
+	if !ok {
+		r, ok = u.res.values[name]
+	}
 	return r.V, ok && r.Valid
+}
+
+// onChannel is d with {channel} in its command templates filled for the
+// running step's channel.
+func (u *Unit) onChannel(d DAC) DAC {
+	d.Write, d.Read = u.Fill(d.Write), u.Fill(d.Read)
+	return d
 }
 
 // Unc expands a standard uncertainty u (in the unit of its value) with dof

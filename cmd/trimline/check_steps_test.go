@@ -97,3 +97,27 @@ func TestCheckCapsNamesTheStep(t *testing.T) {
 		t.Fatalf("exit %d, want 2 and\n%s\ngot:\n%s", code, want, out)
 	}
 }
+
+// check --steps shows a step repeated per channel once, naming its channels; a
+// step of the whole unit, or on one channel, says so.
+func TestCheckStepsNamesChannels(t *testing.T) {
+	dir := t.TempDir()
+	if _, _, err := writeDemoFiles(dir, 1, time.Now()); err != nil {
+		t.Fatal(err)
+	}
+	seq := editDemo(t, dir, "brx200-sequence.yaml",
+		"\ndacs:", "\nchannels: {names: [\"A\", \"B\"]}\ndacs:",
+		"    name: verify fit\n", "    name: verify fit\n    channels: [\"B\"]\n")
+	seq = editDemo(t, dir, "bad-brx200-sequence.yaml", "    name: verify\n", "    name: verify\n    channels: [\"B\"]\n")
+	code, out, _ := runCLI(t, "check", "--steps", seq)
+	expectAll(t, out,
+		"    1  identify                      identify    as found",
+		"    3  pre-trim (channels A, B)      sweep       as found",
+		"    6  store                         store       adjustment",
+		"    7  verify (channel B)            sweep       as left",
+		"    8  verify fit (channel B)        fit         as left",
+	)
+	if code != 0 || t.Failed() {
+		t.Fatalf("exit %d:\n%s", code, out)
+	}
+}

@@ -236,7 +236,27 @@ func stationProblems(e *env, st *sequencer.Station) files.List {
 func printSteps(w io.Writer, seq *sequencer.Sequence) {
 	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', 0)
 	fmt.Fprintf(tw, "    #\tstep\tkind\tstage\troles\tresults\n")
+	n := 0
 	for i, d := range seq.Steps {
+		if i > 0 && d.Channel != "" && seq.Steps[i-1].Name == d.Name {
+			continue // the same step on the next channel: one line says them all
+		}
+		n++
+		name := d.Name
+		if d.Channel != "" {
+			var chans []string
+			for _, e := range seq.Steps[i:] {
+				if e.Name != d.Name {
+					break
+				}
+				chans = append(chans, e.Channel)
+			}
+			word := "channels "
+			if len(chans) == 1 {
+				word = "channel "
+			}
+			name += " (" + word + strings.Join(chans, ", ") + ")"
+		}
 		roles := make([]string, len(d.Roles))
 		for j, r := range d.Roles {
 			roles[j] = fmt.Sprintf("%s (%s)", r.Role, r.Kind)
@@ -249,7 +269,7 @@ func printSteps(w io.Writer, seq *sequencer.Sequence) {
 		if d.SkipIf != "" {
 			last += "; skipped if " + d.SkipIf
 		}
-		fmt.Fprintf(tw, "    %d\t%s\t%s\t%s\t%s\t%s\n", i+1, d.Name, d.Kind, d.Stage, orDash(strings.Join(roles, ", ")), last)
+		fmt.Fprintf(tw, "    %d\t%s\t%s\t%s\t%s\t%s\n", n, name, d.Kind, d.Stage, orDash(strings.Join(roles, ", ")), last)
 	}
 	tw.Flush()
 }

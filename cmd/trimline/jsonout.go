@@ -105,11 +105,13 @@ type unitOut struct {
 // resultOut is one result of a unit: a named number with its uncertainty and the
 // limits that judged it.
 type resultOut struct {
-	Name     string `json:"name"`              // as limit files name it
-	Channel  string `json:"channel,omitempty"` // the unit's channel it belongs to; left out for the whole unit (or a one-channel unit)
-	Stage    string `json:"stage"`             // as_found, adjustment or as_left
-	Step     string `json:"step"`              // the step that computed it
-	Quantity string `json:"quantity"`          // what it measures (offset, gain_error, …); results of one quantity pair as found and as left
+	Name string `json:"name"` // as limit files name it
+	// Channel is the unit's channel of a result measured per channel; absent for
+	// a result of the whole unit (every result of a one-channel unit).
+	Channel  string `json:"channel,omitempty"`
+	Stage    string `json:"stage"`    // as_found, adjustment or as_left
+	Step     string `json:"step"`     // the step that computed it
+	Quantity string `json:"quantity"` // what it measures (offset, gain_error, …); results of one quantity pair as found and as left
 	Valid    bool   `json:"valid"`
 	Note     string `json:"note"` // why it is not valid
 	// Value is in SI units of Unit: "V" volts, "A" amperes, "count" a number the
@@ -127,8 +129,9 @@ type resultOut struct {
 
 // judged is one limit's outcome, seen from a result it uses.
 type judged struct {
-	Limit string `json:"limit"`
-	Pass  bool   `json:"pass"`
+	Limit   string `json:"limit"`
+	Channel string `json:"channel,omitempty"` // the outcome's channel, as in limitOut
+	Pass    bool   `json:"pass"`
 	// Zone is the decision rule's zone for a toleranced limit that judged this
 	// result: pass, conditional pass, conditional fail or fail; "" for an
 	// expression limit or a tolerance that could not be judged.
@@ -139,8 +142,11 @@ type judged struct {
 // in the limit's own unit, named in Unit (as the limit file writes it: "mV",
 // "ppm", …).
 type limitOut struct {
-	Name        string   `json:"name"`
-	Channel     string   `json:"channel,omitempty"` // the channel of the results it judged; left out for the whole unit
+	Name string `json:"name"`
+	// Channel is the channel this outcome judges: a limit over per-channel
+	// results has one outcome per channel (or one for the channel it names);
+	// absent for a limit of the whole unit.
+	Channel     string   `json:"channel,omitempty"`
 	Description string   `json:"description"`
 	Uses        []string `json:"uses"` // the results it reads
 	Pass        bool     `json:"pass"`
@@ -163,7 +169,7 @@ type limitOut struct {
 // trimOut is one trim DAC's code.
 type trimOut struct {
 	DAC       string `json:"dac"`
-	Channel   string `json:"channel,omitempty"` // left out for a one-channel unit
+	Channel   string `json:"channel,omitempty"` // the channel trimmed; absent for a one-channel unit
 	Before    int    `json:"before"`            // code in the DAC before trimming
 	Code      int    `json:"code"`              // code written
 	Readback  int    `json:"readback"`
@@ -355,7 +361,7 @@ func newUnitOut(rec *sequencer.Record, cert, certDir string) unitOut {
 			if !slices.Contains(o.Uses, r.Name) || o.Channel != "" && o.Channel != r.Channel {
 				continue
 			}
-			j := judged{Limit: o.Name, Pass: o.Pass}
+			j := judged{Limit: o.Name, Channel: o.Channel, Pass: o.Pass}
 			if o.Decision != nil && o.Decision.Result == r.Name {
 				j.Zone = o.Decision.Zone
 			}

@@ -262,3 +262,42 @@ func TestUnitJSONChannelsCoefficientsRetrims(t *testing.T) {
 		}
 	}
 }
+
+// TestUnitJSONChannels: a per-channel result, outcome and trim code carry their
+// channel, judged_by names only the outcomes of the result's own channel, and a
+// one-channel unit's objects have no channel key at all (so scripts written for
+// them read the same bytes).
+func TestUnitJSONChannels(t *testing.T) {
+	rec := &sequencer.Record{Serial: "TRI-00001", Verdict: sequencer.Fail,
+		Results: []sequencer.Result{
+			{Name: "pre_offset", Channel: "1", Unit: "V", Valid: true, Value: 1e-3},
+			{Name: "pre_offset", Channel: "2", Unit: "V", Valid: true, Value: -2e-3},
+			{Name: "supply", Unit: "V", Valid: true, Value: 1},
+		},
+		Outcomes: []limits.Outcome{
+			{Name: "untrimmed", Channel: "1", Uses: []string{"pre_offset"}, Pass: true},
+			{Name: "untrimmed", Channel: "2", Uses: []string{"pre_offset"}, Pass: false},
+			{Name: "supply", Uses: []string{"supply"}, Pass: true},
+		},
+		Trims: []sequencer.TrimCode{{DAC: "offset", Channel: "2", Code: 200}},
+	}
+	b, err := json.Marshal(newUnitOut(rec, "", ""))
+	if err != nil {
+		t.Fatal(err)
+	}
+	var u unitOut
+	decodeStrict(t, string(b), &u)
+	if u.Results[1].Channel != "2" || len(u.Results[1].JudgedBy) != 1 || u.Results[1].JudgedBy[0].Channel != "2" || u.Results[1].JudgedBy[0].Pass {
+		t.Errorf("channel 2's result: %+v", u.Results[1])
+	}
+	if u.Limits[1].Channel != "2" || u.TrimCodes[0].Channel != "2" {
+		t.Errorf("limits %+v, trims %+v", u.Limits, u.TrimCodes)
+	}
+	one := &sequencer.Record{Serial: "BRX-00001", Verdict: sequencer.Pass,
+		Results:  []sequencer.Result{{Name: "post_offset", Unit: "V", Valid: true}},
+		Outcomes: []limits.Outcome{{Name: "offset", Uses: []string{"post_offset"}, Pass: true}},
+		Trims:    []sequencer.TrimCode{{DAC: "offset"}}}
+	if b, _ := json.Marshal(newUnitOut(one, "", "")); bytes.Contains(b, []byte(`"channel"`)) {
+		t.Errorf("a one-channel unit's JSON has a channel key: %s", b)
+	}
+}

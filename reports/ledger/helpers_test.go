@@ -339,7 +339,8 @@ func insertRecordRows(t *testing.T, db *sql.DB, exec func(q string, args ...any)
 				if have[c] {
 					cols = append(cols, c)
 					args = append(args, r[i])
-				} else if r[i] != nil && !filledByMigration[table+"."+c] {
+				} else if r[i] != nil && !filledByMigration[table+"."+c] && !(c == "channel" && r[i] == "") {
+					// (0009's channel is '' by default: a record of before channels.)
 					t.Fatalf("%s.%s: the old schema has no such column, but the record gives it %v", table, c, r[i])
 				}
 			}

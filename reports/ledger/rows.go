@@ -52,17 +52,18 @@ func namedRow(prefix, name string, vals []any) derivedRow {
 
 // derivedTables are the tables recordRows fills, in the order it fills them.
 var derivedTables = []derivedTable{
-	{"readings", []string{"sweep", "point_index", "reading_index", "stimulus_v", "value_v", "flag", "taken_at"}},
-	{"results", []string{"name", "value", "unit", "valid", "note", "u", "dof", "k", "expanded_u", "method", "stage", "step"}},
+	{"readings", []string{"sweep", "point_index", "reading_index", "stimulus_v", "value_v", "flag", "taken_at", "channel"}},
+	{"results", []string{"name", "value", "unit", "valid", "note", "u", "dof", "k", "expanded_u", "method", "stage", "step", "channel"}},
 	{"limit_outcomes", []string{"name", "expr", "unit", "pass", "reason", "values_json",
-		"rule", "guard_factor", "guard", "lower", "upper", "accept_lower", "accept_upper", "zone", "p_outside", "tur", "tur_low", "binary", "statement"}},
+		"rule", "guard_factor", "guard", "lower", "upper", "accept_lower", "accept_upper", "zone", "p_outside", "tur", "tur_low", "binary", "statement",
+		"channel"}},
 	{"fits", []string{"sweep", "slope", "intercept_v", "residual_sd_v", "dof", "nonlinearity", "cov_json",
-		"step", "fit_order", "coef_json", "lack_of_fit_method", "lack_of_fit", "lack_of_fit_p"}},
-	{"trims", []string{"dac", "before_code", "code", "ideal", "readback", "saturated", "stored"}},
+		"step", "fit_order", "coef_json", "lack_of_fit_method", "lack_of_fit", "lack_of_fit_p", "channel"}},
+	{"trims", []string{"dac", "before_code", "code", "ideal", "readback", "saturated", "stored", "channel"}},
 	{"files", []string{"kind", "name", "title", "sha256"}},
 	{"instruments", []string{"role", "address", "asset", "cal_due", "identity", "kind"}},
-	{"sweeps", []string{"sweep", "stage", "points"}},
-	{"steps", []string{"step_index", "name", "kind", "stage", "status", "note"}},
+	{"sweeps", []string{"sweep", "stage", "points", "channel"}},
+	{"steps", []string{"step_index", "name", "kind", "stage", "status", "note", "channel"}},
 }
 
 // recordRows returns the rows of every derivedTable for rec, indexed like
@@ -80,7 +81,7 @@ func recordRows(rec *sequencer.Record) ([][]derivedRow, error) {
 		for pi, pt := range sw.Points {
 			for ri, r := range pt.Readings {
 				rs = append(rs, derivedRow{name: sw.Name, point: pi, index: ri,
-					vals: []any{sw.Name, pi, ri, realOrNull(pt.Stimulus), realOrNull(r.Value), r.Flag.String(), formatTime(r.Time)}})
+					vals: []any{sw.Name, pi, ri, realOrNull(pt.Stimulus), realOrNull(r.Value), r.Flag.String(), formatTime(r.Time), sw.Channel}})
 			}
 		}
 	}
@@ -88,7 +89,7 @@ func recordRows(rec *sequencer.Record) ([][]derivedRow, error) {
 	for _, r := range rec.Results {
 		out[1] = append(out[1], namedRow("result ", r.Name,
 			append(append([]any{r.Name, realOrNull(r.Value), r.Unit, r.Valid, r.Note}, uncertaintyArgs(r.Unc)...),
-				stageOrNull(r.StageOf()), nullText(r.Step))))
+				stageOrNull(r.StageOf()), nullText(r.Step), r.Channel)))
 	}
 	for _, o := range rec.Outcomes {
 		vals := o.Values
@@ -100,7 +101,7 @@ func recordRows(rec *sequencer.Record) ([][]derivedRow, error) {
 			return nil, fmt.Errorf("limit %s: values: %w", o.Name, err)
 		}
 		out[2] = append(out[2], namedRow("limit ", o.Name,
-			append([]any{o.Name, o.Expr, o.Unit, o.Pass, o.Reason, string(vj)}, decisionArgs(o.Decision)...)))
+			append(append([]any{o.Name, o.Expr, o.Unit, o.Pass, o.Reason, string(vj)}, decisionArgs(o.Decision)...), o.Channel)))
 	}
 	for _, f := range rec.Fits {
 		cj, err := canonicalJSON(f.Cov)
@@ -125,11 +126,11 @@ func recordRows(rec *sequencer.Record) ([][]derivedRow, error) {
 		}
 		out[3] = append(out[3], namedRow("fit of sweep ", f.Sweep,
 			append([]any{f.Sweep, realOrNull(f.Slope), realOrNull(f.Intercept), realOrNull(f.ResidualSD), f.DOF, realOrNull(f.Nonlinearity), string(cj),
-				nullText(f.Step), order, coef}, lof...)))
+				nullText(f.Step), order, coef}, append(lof, f.Channel)...)))
 	}
 	for _, t := range rec.Trims {
 		out[4] = append(out[4], namedRow("trim DAC ", t.DAC,
-			[]any{t.DAC, t.Before, t.Code, realOrNull(t.Ideal), t.Readback, t.Saturated, t.Stored}))
+			[]any{t.DAC, t.Before, t.Code, realOrNull(t.Ideal), t.Readback, t.Saturated, t.Stored, t.Channel}))
 	}
 	for _, f := range rec.Files {
 		out[5] = append(out[5], namedRow(f.Kind+" file ", f.Name, []any{f.Kind, f.Name, f.Title, f.SHA256}))
@@ -139,10 +140,10 @@ func recordRows(rec *sequencer.Record) ([][]derivedRow, error) {
 			nullText(string(in.RoleKind()))}))
 	}
 	for _, sw := range rec.Sweeps {
-		out[7] = append(out[7], namedRow("sweep ", sw.Name, []any{sw.Name, stageOrNull(sw.StageOf()), len(sw.Points)}))
+		out[7] = append(out[7], namedRow("sweep ", sw.Name, []any{sw.Name, stageOrNull(sw.StageOf()), len(sw.Points), sw.Channel}))
 	}
 	for i, st := range rec.Steps {
-		out[8] = append(out[8], namedRow("step ", st.Name, []any{i, st.Name, st.Kind, stageOrNull(st.Stage), st.Status, nullText(st.Note)}))
+		out[8] = append(out[8], namedRow("step ", st.Name, []any{i, st.Name, st.Kind, stageOrNull(st.Stage), st.Status, nullText(st.Note), st.Channel}))
 	}
 	return out, nil
 }
@@ -370,13 +371,49 @@ func backfillRuns(ctx context.Context, tx *sql.Tx, added map[string][]string, cr
 				}
 			}
 			if slices.Contains(created, t.name) {
-				if err := insertRows(ctx, tx, t, id, all[ti]); err != nil {
+				if err := insertExisting(ctx, tx, t, id, all[ti]); err != nil {
 					return fmt.Errorf("run %s: %w", id, err)
 				}
 			}
 		}
 	}
 	return nil
+}
+
+// insertExisting inserts rows into the columns of table t the file has now: a
+// migration's backfill runs before the later migrations add their columns, whose
+// defaults then stand for the records of its time.
+func insertExisting(ctx context.Context, tx *sql.Tx, t derivedTable, runID string, rows []derivedRow) error {
+	have := map[string]bool{}
+	err := eachRow(ctx, tx, `SELECT name FROM pragma_table_info(?)`, []any{t.name}, func(r *sql.Rows) error {
+		var c string
+		err := r.Scan(&c)
+		have[c] = true
+		return err
+	})
+	if err != nil {
+		return fmt.Errorf("%s: %w", t.name, err)
+	}
+	sub := derivedTable{name: t.name}
+	var idx []int
+	for i, c := range t.columns {
+		if have[c] {
+			sub.columns = append(sub.columns, c)
+			idx = append(idx, i)
+		}
+	}
+	if len(idx) == len(t.columns) {
+		return insertRows(ctx, tx, t, runID, rows)
+	}
+	subRows := make([]derivedRow, len(rows))
+	for n, r := range rows {
+		subRows[n] = r
+		subRows[n].vals = make([]any, len(idx))
+		for k, i := range idx {
+			subRows[n].vals[k] = r.vals[i]
+		}
+	}
+	return insertRows(ctx, tx, sub, runID, subRows)
 }
 
 // backfillColumns sets the columns cols of run id's rows of table t, in rowid

@@ -171,10 +171,12 @@ func Rejudge(old, new *limits.Set, units []StoredUnit) Report {
 				}
 			}
 			for k := range dists {
-				if x, ok := usable(u.Values, dists[k].Result); ok {
-					p.min[k] = math.Min(p.min[k], x)
-					p.max[k] = math.Max(p.max[k], x)
-				}
+				samples(u, dists[k].Result, func(x float64, ok bool) {
+					if ok {
+						p.min[k] = math.Min(p.min[k], x)
+						p.max[k] = math.Max(p.max[k], x)
+					}
+				})
 			}
 		}
 		parts[w] = p
@@ -201,12 +203,13 @@ func Rejudge(old, new *limits.Set, units []StoredUnit) Report {
 				continue
 			}
 			for k := range dists {
-				x, ok := usable(units[i].Values, dists[k].Result)
-				if !ok {
-					inv[k]++
-					continue
-				}
-				b[k][binOf(x, dists[k].Min, dists[k].Max)]++
+				samples(&units[i], dists[k].Result, func(x float64, ok bool) {
+					if !ok {
+						inv[k]++
+						return
+					}
+					b[k][binOf(x, dists[k].Min, dists[k].Max)]++
+				})
 			}
 		}
 		bins[w], invalid[w] = b, inv
@@ -272,6 +275,25 @@ func Rejudge(old, new *limits.Set, units []StoredUnit) Report {
 		rep.Flips = append(rep.Flips, f)
 	}
 	return rep
+}
+
+// samples calls f with each value of result name in u (ok false when it is not
+// valid and finite): the one value of a result of the whole unit, or one per
+// channel of a result a multi-channel unit measured per channel
+// (limits.ChannelKey, the channels its Catalog lists).
+func samples(u *StoredUnit, name string, f func(x float64, ok bool)) {
+	if _, whole := u.Values[name]; whole || u.Catalog == nil {
+		f(usable(u.Values, name))
+		return
+	}
+	chans := u.Catalog.ChannelsOf(name)
+	if len(chans) == 0 {
+		f(usable(u.Values, name))
+		return
+	}
+	for _, ch := range chans {
+		f(usable(u.Values, limits.ChannelKey(name, ch)))
+	}
 }
 
 // usable returns the result's value when it is valid and finite.

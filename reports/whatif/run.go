@@ -194,7 +194,8 @@ func Units(ctx context.Context, led *ledger.Ledger, req Request) (units []Stored
 		u := StoredUnit{Serial: rec.Serial, RunID: rec.RunID, Finished: rec.Finished, Product: rec.Product,
 			OldVerdict: verdict, Values: map[string]limits.Value{}, Catalog: sequencer.RecordCatalog(rec)}
 		for _, res := range rec.Results {
-			u.Values[res.Name] = limits.Value{V: res.Value, Valid: res.Valid, Why: res.Note,
+			// A per-channel result under name@channel, as the limits judge it.
+			u.Values[limits.ChannelKey(res.Name, res.Channel)] = limits.Value{V: res.Value, Valid: res.Valid, Why: res.Note,
 				Std: res.Unc.Std, U: res.Unc.Expanded, K: res.Unc.K, DOF: res.Unc.DOF}
 		}
 		units = append(units, u)
