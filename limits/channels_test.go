@@ -187,3 +187,43 @@ func FuzzLoadChannels(f *testing.F) {
 		}
 	})
 }
+
+// TestLintChannelLimitBesideAllChannels: a limit that holds one channel tighter
+// than the limit of every channel is a design choice, not a redundancy, and
+// limits of two different channels never meet; a channel limit wider than the
+// all-channel one is still redundant, and a contradiction on the channel both
+// judge is still an error.
+func TestLintChannelLimitBesideAllChannels(t *testing.T) {
+	cat := limits.Catalog{"post_offset": units.Volt, "post_offset@1": units.Volt, "post_offset@2": units.Volt}
+	cases := []struct {
+		name, limits string
+		want         string // "" = no finding
+	}{
+		{"tighter on one channel", `
+  - {name: all, description: d, unit: uV, uses: [post_offset], tolerance: {lower: -20, upper: 20}}
+  - {name: one, description: d, channel: "1", unit: uV, uses: [post_offset], tolerance: {lower: -10, upper: 10}}`, ""},
+		{"two channels", `
+  - {name: one, description: d, channel: "1", unit: uV, uses: [post_offset], tolerance: {lower: -10, upper: 10}}
+  - {name: two, description: d, channel: "2", unit: uV, uses: [post_offset], tolerance: {lower: 30, upper: 40}}`, ""},
+		{"wider on one channel", `
+  - {name: all, description: d, unit: uV, uses: [post_offset], tolerance: {lower: -20, upper: 20}}
+  - {name: one, description: d, channel: "1", unit: uV, uses: [post_offset], tolerance: {lower: -30, upper: 30}}`, limits.CodeRedundant},
+		{"contradiction on channel 1", `
+  - {name: all, description: d, unit: uV, uses: [post_offset], tolerance: {lower: -20, upper: 20}}
+  - {name: one, description: d, channel: "1", unit: uV, uses: [post_offset], tolerance: {lower: 30, upper: 40}}`, limits.CodeContradictory},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			src := "limit_set: {name: x, revision: \"1\", product: P}\nlimits:" + c.limits + "\n"
+			var codes []string
+			for _, f := range limits.Lint("l.yaml", []byte(src), cat, limits.LintOptions{}) {
+				if f.Code == limits.CodeRedundant || f.Code == limits.CodeContradictory || f.Code == limits.CodeOverlap {
+					codes = append(codes, f.Code)
+				}
+			}
+			if got := strings.Join(codes, ","); got != c.want {
+				t.Errorf("findings %q, want %q", got, c.want)
+			}
+		})
+	}
+}

@@ -405,6 +405,9 @@ func (lt *linter) pairs() {
 // pair compares two limits a (earlier in the file) and b on result r; findings
 // point at b's entry.
 func (lt *linter) pair(r string, a, b bounded) {
+	if a.l.Channel != "" && b.l.Channel != "" && a.l.Channel != b.l.Channel {
+		return // they judge different channels
+	}
 	at := lt.at(b.l, "")
 	if !lt.own(b.l) { // in a variant, at the limit the variant changed
 		at = lt.at(a.l, "")
@@ -416,10 +419,16 @@ func (lt *linter) pair(r string, a, b bounded) {
 	if a.l.Tolerance != nil && b.l.Tolerance != nil && ruleText(a.l.Tolerance) != ruleText(b.l.Tolerance) {
 		rules = fmt.Sprintf("; their decision rules differ (%s, %s): check which verdict is meant", ruleText(a.l.Tolerance), ruleText(b.l.Tolerance))
 	}
+	// A limit of one channel beside a limit of every channel: the narrower one
+	// on that channel does not make the wider one redundant, for the wider
+	// still judges the other channels.
+	partial := func(wider, narrower bounded) bool { return wider.l.Channel == "" && narrower.l.Channel != "" }
 	switch {
 	case a.s.intersect(b.s).empty():
 		lt.add(at, SeverityError, CodeContradictory,
 			"limits %s and %s on %s contradict each other: no value passes both, so every unit fails", q(a), q(b), r)
+	case a.l.Channel != b.l.Channel && (a.s.same(b.s) || b.s.within(a.s) && partial(a, b) || a.s.within(b.s) && partial(b, a)):
+		// a channel held to the same or tighter bounds than every channel is: by design
 	case a.s.same(b.s):
 		lt.add(at, SeverityWarning, CodeRedundant,
 			"limit %q repeats the bounds of %s on %s: one of them is redundant%s", b.l.Name, q(a), r, rules)
