@@ -4,6 +4,7 @@ import (
 	"context"
 	"errors"
 	"math"
+	"slices"
 
 	"trimline/instruments/units"
 )
@@ -85,28 +86,39 @@ type Summary struct {
 	Spreads                []Spread
 }
 
-// Spread is the mean and sample standard deviation of one result over the units
-// it is taken over; N is how many had a valid value. Mean and SD are in SI
-// units of Dim (volts, a plain fraction for a ratio, a plain number for a
-// Number).
+// Spread is the mean and sample standard deviation of one result, on one
+// channel, over the units it is taken over; N is how many had a valid value.
+// Mean and SD are in SI units of Dim (volts, amperes, counts the unit
+// reported, a plain fraction for a ratio, a plain number for a Number).
 type Spread struct {
-	Result     string
+	Result string
+	// Channel is the unit's channel of a per-channel result ("" for a result of
+	// the whole unit): each channel is spread on its own, over that channel's
+	// values only.
+	Channel    string
 	Stage      Stage     // AsFound or AsLeft
-	Dim        units.Dim // units.Volt, units.Ratio or units.Number
+	Dim        units.Dim // units.Volt, units.Ampere, units.Count, units.Ratio or units.Number
 	PassedOnly bool      // over the units that passed (what ships), else every measured unit (the process)
 	Mean, SD   float64
 	N          int
 }
 
 // spreadable reports whether a summary spreads the declared result d: voltages,
-// ratios and plain numbers measured as found (over every measured unit: the process) or as
-// left (over the units that passed: what ships). Trim codes are not spread.
+// currents, counts the unit reported (a measured quantity: ResultDef.Unit
+// "count"), ratios and plain numbers measured as found (over every measured
+// unit: the process) or as left (over the units that passed: what ships). Trim
+// codes are not spread.
 func spreadable(d ResultDef) bool {
-	return (d.Dim == units.Volt || d.Dim == units.Ratio || d.Dim == units.Number) && (d.Stage == AsFound || d.Stage == AsLeft)
+	measured := d.Dim == units.Volt || d.Dim == units.Ampere || d.Dim == units.Ratio || d.Dim == units.Number ||
+		d.Unit() == "count"
+	return measured && (d.Stage == AsFound || d.Stage == AsLeft)
 }
 
-// Summary counts the verdicts, the yield and the spread of every voltage, ratio
-// and plain-number result the tally's Results declare as found or as left, in their order.
+// Summary counts the verdicts, the yield and the spread of every voltage,
+// current, reported count, ratio and plain-number result the tally's Results
+// declare as found or as left, one Spread per result and channel. The spreads
+// follow the order in which the results are first declared; the channels of a
+// per-channel result follow one another, in declaration order.
 func (t *Tally) Summary() Summary {
 	s := Summary{Units: len(t.Records)}
 	for _, r := range t.Records {
@@ -125,7 +137,7 @@ func (t *Tally) Summary() Summary {
 	if judged := s.Passed + s.Failed + s.Review; judged > 0 {
 		s.Yield = float64(s.Passed) / float64(judged)
 	}
-	for _, d := range t.Results {
+	for _, d := range byResult(t.Results) {
 		if !spreadable(d) {
 			continue
 		}
@@ -135,12 +147,12 @@ func (t *Tally) Summary() Summary {
 			if passedOnly && r.Verdict != Pass {
 				continue
 			}
-			if v, ok := r.Result(d.Name); ok {
+			if v, ok := r.ResultOn(d.Name, d.Channel); ok {
 				xs = append(xs, v)
 			}
 		}
 		m, sd, n := MeanSD(xs)
-		s.Spreads = append(s.Spreads, Spread{Result: d.Name, Stage: d.Stage, Dim: d.Dim, PassedOnly: passedOnly, Mean: m, SD: sd, N: n})
+		s.Spreads = append(s.Spreads, Spread{Result: d.Name, Channel: d.Channel, Stage: d.Stage, Dim: d.Dim, PassedOnly: passedOnly, Mean: m, SD: sd, N: n})
 	}
 	return s
 }
@@ -154,6 +166,34 @@ func (r *Record) Result(name string) (float64, bool) {
 		}
 	}
 	return math.NaN(), false
+}
+
+// ResultOn returns the value of the named result on channel ch ("" for a
+// result of the whole unit) and whether it is valid; NaN and false when the
+// record has no such result or it could not be computed.
+func (r *Record) ResultOn(name, ch string) (float64, bool) {
+	for _, res := range r.Results {
+		if res.Name == name && res.Channel == ch {
+			return res.Value, res.Valid
+		}
+	}
+	return math.NaN(), false
+}
+
+// byResult is defs with every declaration of one name brought together at
+// the place of its first, keeping their order otherwise: a per-channel step
+// declares its results channel after channel, and a summary reads better
+// result after result.
+func byResult(defs []ResultDef) []ResultDef {
+	first := map[string]int{}
+	for i, d := range defs {
+		if _, ok := first[d.Name]; !ok {
+			first[d.Name] = i
+		}
+	}
+	out := slices.Clone(defs)
+	slices.SortStableFunc(out, func(a, b ResultDef) int { return first[a.Name] - first[b.Name] })
+	return out
 }
 
 // MeanSD returns the mean and the sample standard deviation (n − 1) of xs, and

@@ -105,3 +105,52 @@ func TestSummarySpreadsDeclaredResults(t *testing.T) {
 		}
 	}
 }
+
+// A per-channel result is spread channel by channel, each over its own
+// channel's values, and the channels of one result follow one another although
+// the step declares them channel after channel. Currents and counts the unit
+// reported are spread; an offset coefficient in counts that is an adjustment,
+// and a trim code, are not.
+func TestSummarySpreadsEachChannel(t *testing.T) {
+	var defs []ResultDef
+	for _, ch := range []string{"1", "2"} {
+		defs = append(defs,
+			ResultDef{Name: "pre_offset", Channel: ch, Dim: units.Count, Stage: AsFound, Quantity: "offset"},
+			ResultDef{Name: "pre_gain_error", Channel: ch, Dim: units.Ratio, Stage: AsFound, Quantity: "gain_error"},
+			ResultDef{Name: "offset_coefficient", Channel: ch, Dim: units.Count, Stage: Adjustment, Quantity: "offset_coefficient"})
+	}
+	defs = append(defs,
+		ResultDef{Name: "supply_current", Dim: units.Ampere, Stage: AsFound, Quantity: "mean"},
+		ResultDef{Name: "offset_code", Dim: units.Count, Stage: Adjustment, Quantity: "code"})
+	rec := func(off1, off2, g1, g2, supply float64) *Record {
+		return &Record{Verdict: Pass, Results: []Result{
+			{Name: "pre_offset", Channel: "1", Value: off1, Valid: true}, {Name: "pre_gain_error", Channel: "1", Value: g1, Valid: true},
+			{Name: "offset_coefficient", Channel: "1", Value: -off1, Valid: true},
+			{Name: "pre_offset", Channel: "2", Value: off2, Valid: true}, {Name: "pre_gain_error", Channel: "2", Value: g2, Valid: true},
+			{Name: "offset_coefficient", Channel: "2", Value: -off2, Valid: true},
+			{Name: "supply_current", Value: supply, Valid: true}, {Name: "offset_code", Value: 7, Valid: true}}}
+	}
+	tl := Tally{Records: []*Record{rec(1, 10, 1e-3, -2e-3, 1e-3), rec(3, 30, 3e-3, -4e-3, 3e-3)}, Results: defs}
+	// Hand-worked: two values a and b have mean (a+b)/2 and sample SD |a−b|/√2.
+	want := []Spread{
+		{Result: "pre_offset", Channel: "1", Stage: AsFound, Dim: units.Count, Mean: 2, SD: math.Sqrt2, N: 2},
+		{Result: "pre_offset", Channel: "2", Stage: AsFound, Dim: units.Count, Mean: 20, SD: 20 / math.Sqrt2, N: 2},
+		{Result: "pre_gain_error", Channel: "1", Stage: AsFound, Dim: units.Ratio, Mean: 2e-3, SD: 2e-3 / math.Sqrt2, N: 2},
+		{Result: "pre_gain_error", Channel: "2", Stage: AsFound, Dim: units.Ratio, Mean: -3e-3, SD: 2e-3 / math.Sqrt2, N: 2},
+		{Result: "supply_current", Stage: AsFound, Dim: units.Ampere, Mean: 2e-3, SD: 2e-3 / math.Sqrt2, N: 2},
+	}
+	got := tl.Summary().Spreads
+	if len(got) != len(want) {
+		t.Fatalf("spreads %+v, want %+v", got, want)
+	}
+	for i, w := range want {
+		g := got[i]
+		if math.Abs(g.Mean-w.Mean) > 1e-12*math.Abs(w.Mean) || math.Abs(g.SD-w.SD) > 1e-12*w.SD {
+			t.Errorf("spread %d: %+v, want %+v", i, g, w)
+		}
+		g.Mean, g.SD = w.Mean, w.SD
+		if !reflect.DeepEqual(g, w) {
+			t.Errorf("spread %d: %+v, want %+v", i, got[i], w)
+		}
+	}
+}

@@ -8,8 +8,10 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"strconv"
 	"strings"
 	"time"
+	"unicode/utf8"
 
 	"github.com/rs/zerolog"
 
@@ -223,7 +225,7 @@ func liveLine(i, n int, rec *sequencer.Record, cert string) string {
 		return head + "  " + rec.Fault
 	}
 	var pairs []string
-	for _, dim := range []string{"V", "ratio", "number"} {
+	for _, dim := range liveDims {
 		if pair := livePair(rec, dim); pair != "" {
 			pairs = append(pairs, pair)
 		}
@@ -241,39 +243,44 @@ func liveLine(i, n int, rec *sequencer.Record, cert string) string {
 	return line
 }
 
-// livePair shows, for one dimension ("V", "ratio" or "number"), the first
-// quantity the unit measured both as found and as left, before → after:
-// "offset -448 µV → -12 µV". Only results of the same quantity pair (what they
+// liveDims are the dimensions the live line pairs as found → as left, in the
+// order it shows them: the response's own quantities (V, A or counts) first.
+var liveDims = []string{"V", "A", "count", "ratio", "number"}
+
+// livePair shows, for one dimension ("V", "A", "count", "ratio" or "number"),
+// the first quantity the unit measured both as found and as left, before →
+// after: "offset -448 µV → -12 µV", "offset 31.6 µA → 74 nA", "offset -67.9 →
+// 0.3 counts". Only results of the same quantity and channel pair (what they
 // measure, Result.QuantityOf: offset with offset, never gain error with
-// nonlinearity); "" when no quantity of the dimension has both. Voltages have
-// three significant digits as found and two as left, where they sit near the
-// noise.
+// nonlinearity); "" when no quantity of the dimension has both. Voltages and
+// currents have three significant digits as found and two as left, where they
+// sit near the noise; counts one decimal (a mean of readings of a 1-count
+// resolution).
+//
+// A unit with several channels shows, of that quantity, the channel whose as
+// left value is furthest from zero (an invalid one first): the one nearest its
+// limit, which is what an operator looks for on one line. The label says which
+// and of how many: "offset ch 3 (worst of 4)".
 func livePair(rec *sequencer.Record, dim string) string {
-	var found, left *sequencer.Result
-	for i, r := range rec.Results {
-		q := r.QuantityOf()
-		if r.Unit != dim || q == "" || r.StageOf() != sequencer.AsFound {
-			continue
-		}
-		for j, l := range rec.Results {
-			if l.Unit == dim && l.QuantityOf() == q && l.StageOf() == sequencer.AsLeft {
-				found, left = &rec.Results[i], &rec.Results[j]
-				break
-			}
-		}
-		if found != nil {
-			break
-		}
-	}
-	if found == nil {
+	pairs := quantityPairs(rec, dim)
+	if len(pairs) == 0 {
 		return ""
 	}
+	worst := pairs[0]
+	for _, p := range pairs[1:] {
+		if leftBadness(p[1]) > leftBadness(worst[1]) {
+			worst = p
+		}
+	}
+	found, left := worst[0], worst[1]
 	show := func(r *sequencer.Result, digits, width int) string {
 		v := "—"
 		switch {
 		case !r.Valid:
-		case dim == "V":
-			v = units.Format(r.Value, "V", digits)
+		case dim == "V" || dim == "A":
+			v = units.Format(r.Value, dim, digits)
+		case dim == "count":
+			v = fmtCounts(r.Value)
 		case dim == "number":
 			v = units.FormatNumber(r.Value, 3)
 		default:
@@ -287,8 +294,78 @@ func livePair(rec *sequencer.Record, dim string) string {
 		widths = [2]int{8, 7}
 	case "number":
 		widths = [2]int{5, 5}
+	case "count":
+		widths = [2]int{6, 5}
 	}
-	return fmt.Sprintf("%s %s → %s", label(found.QuantityOf()), show(found, 3, widths[0]), show(left, 2, widths[1]))
+	name := label(found.QuantityOf())
+	if len(pairs) > 1 {
+		name += fmt.Sprintf(" ch %s (worst of %d)", found.Channel, len(pairs))
+	}
+	pair := fmt.Sprintf("%s %s → %s", name, show(found, 3, widths[0]), show(left, 2, widths[1]))
+	if dim == "count" {
+		pair += " counts"
+	}
+	return pair
+}
+
+// quantityPairs returns, for the first quantity of dimension dim the record has
+// both as found and as left, every channel's pair {as found, as left} of it, in
+// the record's order ("" is the channel of a one-channel unit). Nil when no
+// quantity of dim has both.
+func quantityPairs(rec *sequencer.Record, dim string) [][2]*sequencer.Result {
+	q := ""
+	for _, r := range rec.Results {
+		if r.Unit != dim || r.QuantityOf() == "" || r.StageOf() != sequencer.AsFound {
+			continue
+		}
+		if asLeft(rec, dim, r.QuantityOf(), r.Channel) != nil {
+			q = r.QuantityOf()
+			break
+		}
+	}
+	if q == "" {
+		return nil
+	}
+	var pairs [][2]*sequencer.Result
+	for i, r := range rec.Results {
+		if r.Unit != dim || r.QuantityOf() != q || r.StageOf() != sequencer.AsFound {
+			continue
+		}
+		if l := asLeft(rec, dim, q, r.Channel); l != nil {
+			pairs = append(pairs, [2]*sequencer.Result{&rec.Results[i], l})
+		}
+	}
+	return pairs
+}
+
+// asLeft is the record's first as-left result of quantity q in dimension dim
+// on channel ch, nil when there is none.
+func asLeft(rec *sequencer.Record, dim, q, ch string) *sequencer.Result {
+	for j, l := range rec.Results {
+		if l.Unit == dim && l.QuantityOf() == q && l.Channel == ch && l.StageOf() == sequencer.AsLeft {
+			return &rec.Results[j]
+		}
+	}
+	return nil
+}
+
+// leftBadness orders as-left results from best to worst: by distance from
+// zero, an invalid value worst of all.
+func leftBadness(r *sequencer.Result) float64 {
+	if !r.Valid || math.IsNaN(r.Value) {
+		return math.Inf(1)
+	}
+	return math.Abs(r.Value)
+}
+
+// fmtCounts writes a number of counts the unit reported with one decimal and
+// an ASCII minus, never "-0.0": "-67.9", "0.3".
+func fmtCounts(v float64) string {
+	s := strconv.FormatFloat(v, 'f', 1, 64)
+	if s == "-0.0" {
+		s = "0.0"
+	}
+	return s
 }
 
 // label is a result name as a line of text shows it: "gain_error" is "gain error".
@@ -315,28 +392,35 @@ func ratioUnit(mag float64) (float64, string) {
 }
 
 // spreadUnit is how a spread of magnitude mag (the larger of |mean| and σ) of
-// a result of dimension dim reads: volts with the SI prefix that suits it, a
-// plain number as it is, a ratio as ratioUnit says; the factor to multiply by
-// and the unit.
+// a result of dimension dim reads: volts and amperes with the SI prefix that
+// suits it, counts the unit reported as they are, a plain number as it is, a
+// ratio as ratioUnit says; the factor to multiply by and the unit.
 func spreadUnit(dim units.Dim, mag float64) (float64, string) {
 	switch dim {
 	case units.Number:
 		return 1, ""
+	case units.Count:
+		return 1, "counts"
 	case units.Ratio:
 		return ratioUnit(mag)
 	}
+	unit := "V"
+	if dim == units.Ampere {
+		unit = "A"
+	}
 	switch {
 	case mag >= 1:
-		return 1, "V"
+		return 1, unit
 	case mag >= 1e-3:
-		return 1e3, "mV"
+		return 1e3, "m" + unit
 	case mag >= 1e-6:
-		return 1e6, "µV"
+		return 1e6, "µ" + unit
 	}
-	return 1e9, "nV"
+	return 1e9, "n" + unit
 }
 
-// printSummary prints yield and the spread of the results as found and as left.
+// printSummary prints yield and the spread of the results as found and as
+// left, a line per result and channel: "pre_gain_error ch 2".
 func printSummary(w io.Writer, s sequencer.Summary) {
 	fmt.Fprintf(w, "\n%d unit(s): %d passed, %d failed, %d held for review, %d station fault/aborted", s.Units, s.Passed, s.Failed, s.Review, s.Faulted)
 	if !math.IsNaN(s.Yield) {
@@ -344,11 +428,26 @@ func printSummary(w io.Writer, s sequencer.Summary) {
 	}
 	fmt.Fprintln(w)
 	fmt.Fprintln(w, "  as found over every measured unit, as left over the units that passed:")
+	type line struct {
+		name, unit string
+		mean, sd   float64
+		n          int
+	}
+	var lines []line
+	unitWidth := 4 // "ppm", "mV", "µV": the columns line up as they always have
 	for _, sp := range s.Spreads {
 		if sp.N == 0 {
 			continue
 		}
 		scale, unit := spreadUnit(sp.Dim, math.Max(math.Abs(sp.Mean), sp.SD))
-		fmt.Fprintf(w, "  %-24s mean %+10.4f %-4s  σ %9.4f %-4s  (n = %d)\n", sp.Result, sp.Mean*scale, unit, sp.SD*scale, unit, sp.N)
+		name := sp.Result
+		if sp.Channel != "" {
+			name += " ch " + sp.Channel
+		}
+		lines = append(lines, line{name, unit, sp.Mean * scale, sp.SD * scale, sp.N})
+		unitWidth = max(unitWidth, utf8.RuneCountInString(unit))
+	}
+	for _, l := range lines {
+		fmt.Fprintf(w, "  %-24s mean %+10.4f %-*s  σ %9.4f %-*s  (n = %d)\n", l.name, l.mean, unitWidth, l.unit, l.sd, unitWidth, l.unit, l.n)
 	}
 }

@@ -84,3 +84,74 @@ func TestPrintSummaryUnitsByDimension(t *testing.T) {
 		t.Errorf("summary shows a result no unit had:\n%s", out)
 	}
 }
+
+// A current response pairs in amperes with the SI prefix each value suits
+// (units.Format, three digits as found, two as left), and counts the unit
+// reported with one decimal and the word once at the end.
+func TestLiveLineCurrentAndCounts(t *testing.T) {
+	amps := &sequencer.Record{Serial: "LX-1", Verdict: sequencer.Pass, Results: []sequencer.Result{
+		{Name: "pre_offset", Unit: "A", Stage: sequencer.AsFound, Quantity: "offset", Value: -34.31e-6, Valid: true},
+		{Name: "offset_coefficient", Unit: "A", Stage: sequencer.Adjustment, Quantity: "offset_coefficient", Value: 34e-6, Valid: true},
+		{Name: "post_offset", Unit: "A", Stage: sequencer.AsLeft, Quantity: "offset", Value: 0.1e-6, Valid: true},
+	}}
+	// -34.31 µA to three digits is -34.3 µA; 0.1 µA to two is 100 nA.
+	if got, want := liveLine(1, 1, amps, ""), "offset  -34.3 µA →    100 nA"; !strings.HasSuffix(got, want) {
+		t.Errorf("live line %q, want it to end %q", got, want)
+	}
+	counts := &sequencer.Record{Serial: "CX-1", Verdict: sequencer.Pass, Results: []sequencer.Result{
+		{Name: "pre_offset", Unit: "count", Stage: sequencer.AsFound, Quantity: "offset", Value: -67.94, Valid: true},
+		{Name: "post_offset", Unit: "count", Stage: sequencer.AsLeft, Quantity: "offset", Value: 0.27, Valid: true},
+	}}
+	if got, want := liveLine(1, 1, counts, ""), "offset  -67.9 →   0.3 counts"; !strings.HasSuffix(got, want) {
+		t.Errorf("live line %q, want it to end %q", got, want)
+	}
+}
+
+// A unit with several channels shows, per quantity, the channel whose as-left
+// value is furthest from zero, paired with that channel's own as-found value,
+// and says which channel of how many. An invalid as-left value is the worst.
+func TestLiveLineWorstChannel(t *testing.T) {
+	res := func(name, ch string, stage sequencer.Stage, q, unit string, v float64) sequencer.Result {
+		return sequencer.Result{Name: name, Channel: ch, Stage: stage, Quantity: q, Unit: unit, Value: v, Valid: true}
+	}
+	rec := &sequencer.Record{Serial: "QX-1", Verdict: sequencer.Pass, Results: []sequencer.Result{
+		res("pre_offset", "1", sequencer.AsFound, "offset", "count", -67.9),
+		res("pre_gain_error", "1", sequencer.AsFound, "gain_error", "ratio", 5e-3),
+		res("pre_offset", "2", sequencer.AsFound, "offset", "count", 3.2),
+		res("pre_gain_error", "2", sequencer.AsFound, "gain_error", "ratio", -1e-3),
+		res("pre_offset", "3", sequencer.AsFound, "offset", "count", 12.5),
+		res("pre_gain_error", "3", sequencer.AsFound, "gain_error", "ratio", 2e-3),
+		res("post_offset", "1", sequencer.AsLeft, "offset", "count", 0.1),
+		res("post_gain_error", "1", sequencer.AsLeft, "gain_error", "ratio", 1e-6),
+		res("post_offset", "2", sequencer.AsLeft, "offset", "count", -0.4), // worst offset: |−0.4| is the largest
+		res("post_gain_error", "2", sequencer.AsLeft, "gain_error", "ratio", -2e-6),
+		res("post_offset", "3", sequencer.AsLeft, "offset", "count", 0.2),
+		{Name: "post_gain_error", Channel: "3", Stage: sequencer.AsLeft, Quantity: "gain_error", Unit: "ratio", Note: "fit failed"}, // invalid: worst gain
+	}}
+	want := "1/1  QX-1         PASS     offset ch 2 (worst of 3)    3.2 →  -0.4 counts   gain error ch 3 (worst of 3) +0.200 % →       —"
+	if got := liveLine(1, 1, rec, ""); got != want {
+		t.Errorf("live line\n%q, want\n%q", got, want)
+	}
+}
+
+// Per-channel spreads are labelled with their channel; currents take the SI
+// prefix their size suits, reported counts read "counts", and the unit
+// column widens to the longest unit so the σ column still lines up.
+func TestPrintSummaryChannelsCurrentsCounts(t *testing.T) {
+	var b bytes.Buffer
+	printSummary(&b, sequencer.Summary{Units: 2, Passed: 2, Yield: 1, Spreads: []sequencer.Spread{
+		{Result: "pre_offset", Channel: "2", Stage: sequencer.AsFound, Dim: units.Count, Mean: -3.5, SD: 11.25, N: 2},
+		{Result: "post_offset", Stage: sequencer.AsLeft, Dim: units.Ampere, PassedOnly: true, Mean: -15.129e-9, SD: 63.8454e-9, N: 2},
+		{Result: "supply_current", Stage: sequencer.AsFound, Dim: units.Ampere, Mean: 1.191e-3, SD: 31.9e-6, N: 2},
+	}})
+	out := b.String()
+	for _, want := range []string{
+		"pre_offset ch 2          mean    -3.5000 counts  σ   11.2500 counts  (n = 2)",
+		"post_offset              mean   -15.1290 nA      σ   63.8454 nA      (n = 2)",
+		"supply_current           mean    +1.1910 mA      σ    0.0319 mA      (n = 2)",
+	} {
+		if !strings.Contains(out, want) {
+			t.Errorf("summary lacks %q:\n%s", want, out)
+		}
+	}
+}
