@@ -6,6 +6,7 @@ import (
 	"strings"
 	"testing"
 
+	"trimline/instruments/units"
 	"trimline/sequencer"
 )
 
@@ -137,5 +138,16 @@ func TestPhysicalRanges(t *testing.T) {
 	}
 	if r := sequencer.PhysicalRanges(s2)["offset_code"]; r != [2]float64{-2048, 2047} {
 		t.Errorf("two's-complement offset_code range %v", r)
+	}
+}
+
+// TestCountUnits: a count the unit reports (an offset in counts, and the offset
+// coefficient that adds counts) is a "count"; a trim code, a number of passes or
+// anything else counted is a "code".
+func TestCountUnits(t *testing.T) {
+	for q, want := range map[string]string{"offset": "count", "noise": "count", "offset_coefficient": "count", "code": "code", "": "code"} {
+		if got := (sequencer.ResultDef{Dim: units.Count, Quantity: q}).Unit(); got != want {
+			t.Errorf("a Count result of quantity %q is a %q, want %q", q, got, want)
+		}
 	}
 }
