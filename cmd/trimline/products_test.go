@@ -304,7 +304,10 @@ func pza8Gap(t *testing.T, dir, station, sequence, serial string) {
 		}
 	}
 	if rec == nil || rec.Verdict != sequencer.Fail || len(rec.Reasons) != 1 || !strings.HasPrefix(rec.Reasons[0], `limit "offset after re-trim"`) {
-		t.Fatalf("%s: %+v, want FAIL for the offset after re-trim alone", serial, rec)
+		if rec == nil {
+			t.Fatalf("%s: no record", serial)
+		}
+		t.Fatalf("%s: %s %q, want FAIL for the offset after re-trim alone", serial, rec.Verdict, rec.Reasons)
 	}
 	const bound = 250e-6 // V: the step's within, half of the 500 µV nominal step
 	tried := map[int]float64{}
