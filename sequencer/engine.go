@@ -243,20 +243,32 @@ type meterUse struct {
 	plan              MeterPlan
 }
 
+// reader is a step that takes readings: its plan says through which meter (or
+// the unit itself), in which function, range and integration time. Every kind
+// that reads implements it, so the meter checks at load and at Open see it.
+type reader interface {
+	readingPlan() SweepPlan
+}
+
+var (
+	_ reader = (*sweepStep)(nil)
+	_ reader = (*measureStep)(nil)
+	_ reader = (*retrimStep)(nil)
+)
+
+func (s *sweepStep) readingPlan() SweepPlan   { return s.Plan }
+func (s *measureStep) readingPlan() SweepPlan { return s.plan }
+func (s *retrimStep) readingPlan() SweepPlan  { return s.plan }
+
 // meterUses lists the steps' readings through meters, in step order.
 func meterUses(seq *Sequence) []meterUse {
 	var out []meterUse
 	for _, d := range seq.Steps {
-		var p SweepPlan
-		switch s := d.Step.(type) {
-		case *sweepStep:
-			p = s.Plan
-		case *measureStep:
-			p = s.plan
-		default:
+		r, ok := d.Step.(reader)
+		if !ok {
 			continue
 		}
-		if p.Response == nil && p.Meter != "" {
+		if p := r.readingPlan(); p.Response == nil && p.Meter != "" {
 			out = append(out, meterUse{role: p.Meter, step: d.Name, where: d.Where, plan: p.MeterSet})
 		}
 	}

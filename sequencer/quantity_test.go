@@ -624,3 +624,71 @@ func TestMeasureAnotherQuantity(t *testing.T) {
 		t.Errorf("units %q and %q, want A and V", cur.Unit, volts.Unit)
 	}
 }
+
+const loopRetrimSeq = `sequence:
+  product: LT-420
+  revision: A
+limits: limits.yaml
+ideal:
+  gain: 0.8 mA/mV
+  offset: 4 mA
+  full_scale: 16 mA
+meter:
+  range: 100 mA
+dacs:
+  - name: zero
+    adjusts: offset
+    bits: 8
+    lsb: 1 uA
+    coding: twos_complement
+    write: "TRIM Z {code}"
+    read: "TRIM Z?"
+steps:
+  - kind: clear_trim
+  - kind: sweep
+    name: loop
+    meter: supply
+    from: 0 V
+    to: 20 mV
+    points: 5
+    settle: 1 ms
+    readings: 4
+  - kind: fit
+    sweep: loop
+    results: {offset: loop_offset, gain_error: loop_gain_error, noise: loop_noise}
+  - kind: measure
+    name: supply
+    meter: supply
+    quantity: current
+    settle: 1 ms
+    readings: 4
+    results: {mean: supply_current}
+  - kind: trim
+    fit: fit
+    results: {zero: zero_code}
+  - kind: retrim
+    name: zero retrim
+    dac: zero
+    levels: [0 V]
+    settle: 1 ms
+    readings: 4
+    within: 0.5 LSB
+    results: {error: retrim_error}
+`
+
+// TestRetrimMeterNeedsASpecForItsQuantity: a re-trim of a current-output unit
+// reads the loop current through its meter, so a meter with a volt spec alone
+// cannot give its error an uncertainty: the station is refused before it runs,
+// naming the re-trim, as it is for a sweep or a measure.
+func TestRetrimMeterNeedsASpecForItsQuantity(t *testing.T) {
+	volts := `{of_reading: 30 ppm, of_range: 4 ppm, range: 10 V, resolution: 1 uV}`
+	st, seq := qFiles(t, qStation(`{}`, `{}`, volts), loopRetrimSeq, loopLimits)
+	err := sequencer.CheckCaps(st, seq)
+	if err == nil || !strings.Contains(err.Error(), "retrim") {
+		t.Errorf("CheckCaps: %v, want the re-trim's current reading through a meter with no current spec refused", err)
+	}
+	st, seq = qFiles(t, qStation(`{}`, `{}`, twoSpecs), loopRetrimSeq, loopLimits)
+	if err := sequencer.CheckCaps(st, seq); err != nil {
+		t.Errorf("CheckCaps with a current spec: %v", err)
+	}
+}
