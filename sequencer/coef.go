@@ -144,6 +144,16 @@ func coefList(doc *files.Doc, s *Sequence, cs []*coefDecl, errs *files.List) []C
 	return out
 }
 
+// unitExamples names units an offset coefficient of dimension dim may be held
+// in, for messages: "V, mV or uV"; a count has no prefixes.
+func unitExamples(dim units.Dim) string {
+	u := responseUnitName(dim)
+	if dim == units.Count {
+		return u
+	}
+	return u + ", m" + u + " or u" + u
+}
+
 // coefFormat checks format:, text:, scale: and unit: of the coefficient d at path
 // and sets c's unit; it returns the number format.
 func coefFormat(doc *files.Doc, s *Sequence, path string, d *coefDecl, c *Coefficient, errs *files.List) numfmt.Format {
@@ -163,11 +173,11 @@ func coefFormat(doc *files.Doc, s *Sequence, path string, d *coefDecl, c *Coeffi
 		case d.Adjusts == AdjustGain:
 			bad(path+".unit", "unit applies to offset coefficients only: a gain is a plain factor (no correction = 1)")
 		case strings.IndexFunc(d.Unit, func(r rune) bool { return unicode.IsDigit(r) || unicode.IsSpace(r) }) >= 0:
-			bad(path+".unit", "expected a unit of the response such as %s, m%s or u%s, found %q", responseUnitName(dim), responseUnitName(dim), responseUnitName(dim), d.Unit)
+			bad(path+".unit", "expected a unit of the response such as %s, found %q", unitExamples(dim), d.Unit)
 		default:
 			q, err := units.Parse("1 " + d.Unit)
 			if err != nil || q.Dim != dim || !(q.Value > 0) {
-				bad(path+".unit", "expected a unit of the response (%s) such as %s, m%s or u%s, found %q", dim, responseUnitName(dim), responseUnitName(dim), responseUnitName(dim), d.Unit)
+				bad(path+".unit", "expected a unit of the response (%s) such as %s, found %q", dim, unitExamples(dim), d.Unit)
 			} else {
 				c.Unit, c.UnitSI = d.Unit, q.Value
 			}
