@@ -57,8 +57,8 @@ type Engine struct {
 	// currents are the sources bound as current sources (also in sources),
 	// by role: programmed in amperes, their compliance a voltage.
 	currents map[string]instruments.CurrentSource
-	meters  map[string]instruments.Meter
-	ports   map[string]instruments.TrimPort
+	meters   map[string]instruments.Meter
+	ports    map[string]instruments.TrimPort
 	// switches are the switches by role; routed is the channel the sequence's
 	// switch is routed to ("" = released, or not known).
 	switches map[string]instruments.Switch

@@ -24,8 +24,8 @@ const (
 	// that is also an instruments.CurrentSource, driven in current mode. Steps
 	// use it when the ideal gain is per ampere (Sequence.StimulusDim).
 	CurrentSource RoleKind = instruments.KindCurrentSource
-	VoltMeter     RoleKind = instruments.KindMeter  // a DC voltmeter (instruments.Meter)
-	DUTPort       RoleKind = instruments.KindPort   // the unit's command port (instruments.TrimPort)
+	VoltMeter     RoleKind = instruments.KindMeter // a DC voltmeter (instruments.Meter)
+	DUTPort       RoleKind = instruments.KindPort  // the unit's command port (instruments.TrimPort)
 	// SwitchRole routes the bench to one channel of a multi-channel unit
 	// (instruments.Switch): the sequence's channels.switch.
 	SwitchRole RoleKind = instruments.KindSwitch
