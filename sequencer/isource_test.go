@@ -425,3 +425,31 @@ func TestCurrentStimulusRefusals(t *testing.T) {
 		t.Errorf("got %v, want a source without current mode refused at open", err)
 	}
 }
+
+// The README's current-stimulus example ("What the unit's response is", a text
+// block since it is no edit of the demo sequence) loads as the body of a
+// sequence file and runs on the fake loop-receiver bench.
+func TestReadmeCurrentStimulusExample(t *testing.T) {
+	var found []string
+	for _, b := range fencedBlocks(t, "README.md", "## Writing a sequence", "text") {
+		if strings.Contains(b.text, "gain: 250 V/A") {
+			found = append(found, b.text)
+		}
+	}
+	if len(found) != 1 {
+		t.Fatalf("found %d text blocks with gain: 250 V/A under Writing a sequence, want 1", len(found))
+	}
+	text := "sequence:\n  product: LR-250\n  revision: A\nlimits: limits.yaml\n" + found[0]
+	seq, err := sequencer.ParseSequence("seq.yaml", []byte(text), func(string) ([]byte, error) { return []byte(receiverLimits), nil })
+	if err != nil {
+		t.Fatal(err)
+	}
+	st, err := sequencer.ParseStation("station.yaml", []byte(iStation("{gain: 250}")))
+	if err != nil {
+		t.Fatal(err)
+	}
+	rec := openEngine(t, st, seq).Run(context.Background(), "LR0003")
+	if rec.Verdict != sequencer.Pass || rec.StimulusUnit != "A" {
+		t.Errorf("verdict %s (fault %q), stimulus unit %q; want PASS in A", rec.Verdict, rec.Fault, rec.StimulusUnit)
+	}
+}
