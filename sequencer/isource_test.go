@@ -453,3 +453,13 @@ func TestReadmeCurrentStimulusExample(t *testing.T) {
 		t.Errorf("verdict %s (fault %q), stimulus unit %q; want PASS in A", rec.Verdict, rec.Fault, rec.StimulusUnit)
 	}
 }
+
+// A current source's accuracy is a spec of a current range: a voltage range is
+// refused at its line.
+func TestCurrentSourceAccuracyInAmperes(t *testing.T) {
+	text := strings.Replace(iStation("{}"), "range: 24 mA}", "range: 10 V}", 1)
+	_, err := sequencer.ParseStation("station.yaml", []byte(text))
+	if err == nil || !strings.Contains(err.Error(), "station.yaml:11:62:") || !strings.Contains(err.Error(), "expected a positive current range such as 10V or 100 mA, found a voltage") {
+		t.Errorf("got %v, want the voltage range refused at station.yaml:11:62", err)
+	}
+}
