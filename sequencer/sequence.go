@@ -439,7 +439,7 @@ func parseSequence(name string, data []byte, read func(path string) ([]byte, err
 			errs = append(errs, doc.KeyErrorf("$.coefficients", "coefficients: needs a step list (steps:) with a coefficients step: the first sequence layout has none"))
 		}
 	default:
-		s.DACs = dacList(doc, f.DACs, s.ResponseDim, &errs)
+		s.DACs = dacList(doc, f.DACs, s.ResponseDim, s.stimDim(), &errs)
 		s.Coefficients = coefList(doc, s, f.Coefficients, &errs)
 		parseChannels(doc, s, f.Channels, &errs)
 		paths = stepList(doc, s, &errs, &decodeErrs)
