@@ -463,3 +463,19 @@ func TestCurrentSourceAccuracyInAmperes(t *testing.T) {
 		t.Errorf("got %v, want the voltage range refused at station.yaml:11:62", err)
 	}
 }
+
+// An offset DAC before the gain is input-referred: with a current stimulus its
+// LSB is a current.
+func TestCurrentStimulusBeforeGainDAC(t *testing.T) {
+	dac := func(lsb string) string {
+		return "meter:\n  range: 10 V\ndacs:\n  - {name: offset, adjusts: offset, bits: 12, lsb: " + lsb +
+			`, no_correction: 2048, placement: before_gain, write: "TRIM OFS {code}", read: "TRIM OFS?"}` + "\n"
+	}
+	if _, _, err := iLoad(t, "{}", "meter:\n  range: 10 V\n", dac("40 nA")); err != nil {
+		t.Errorf("an LSB of 40 nA: %v", err)
+	}
+	_, _, err := iLoad(t, "{}", "meter:\n  range: 10 V\n", dac("10 uV"))
+	if err == nil || !strings.Contains(err.Error(), "seq.yaml:11:52:") || !strings.Contains(err.Error(), "expected a current (A)") {
+		t.Errorf("got %v, want an LSB in volts refused at seq.yaml:11:52", err)
+	}
+}
