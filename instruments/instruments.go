@@ -43,6 +43,28 @@ type Source interface {
 	SetCompliance(ctx context.Context, amps float64) error
 }
 
+// CurrentSource is an optional capability of a Source that can drive a DC
+// current instead of a voltage (a loop calibrator, an SMU in current mode). A
+// station binds such a source as kind current_source (KindCurrentSource).
+//
+// SetCurrent programs the output current in amperes and puts the source in
+// current mode; like SetLevel it does not switch the output on. SetVoltageLimit
+// sets the compliance voltage in volts (finite, > 0): the largest |voltage| the
+// source may put across the load to drive its current, and refuses a limit the
+// source cannot enforce. Safety duty, the same as a voltage source's: the engine
+// programs the station's voltage cap (safety.max_source_voltage) as the
+// compliance voltage before the output is ever switched on, checks every current
+// against the current cap (safety.max_source_current) before SetCurrent, and on
+// every exit path switches the output off (SetOutput(ctx, false), which must
+// work at any time) and programs 0 A. The engine never calls SetLevel or
+// SetCompliance on a source it drives as a current source. Fallback when absent:
+// a current_source role bound to a source without it is refused at open, before
+// any output is switched on.
+type CurrentSource interface {
+	SetCurrent(ctx context.Context, amps float64) error
+	SetVoltageLimit(ctx context.Context, volts float64) error
+}
+
 // Meter is a DC voltmeter that reads the DUT output. Read takes n readings in a row
 // and returns them in order; each carries its own time and flag.
 type Meter interface {
@@ -202,16 +224,19 @@ type FixtureLoader interface {
 // write them after kind:.
 const (
 	KindSource = "voltage_source" // a Source
-	KindMeter  = "meter"          // a Meter
-	KindPort   = "dut_port"       // a TrimPort
-	KindSwitch = "switch"         // a Switch
+	// KindCurrentSource is a Source driven in current mode: it also implements
+	// CurrentSource.
+	KindCurrentSource = "current_source"
+	KindMeter         = "meter"    // a Meter
+	KindPort          = "dut_port" // a TrimPort
+	KindSwitch        = "switch"   // a Switch
 )
 
 // Spec says how to open one instrument: its role on the station, what kind of
 // instrument the role binds, its address and driver settings from the station file.
 type Spec struct {
 	Role string // the station's name for it: "source", "meter", "dut" or any other
-	// Kind is KindSource, KindMeter, KindPort or KindSwitch. Empty means the kind of the
+	// Kind is KindSource, KindCurrentSource, KindMeter, KindPort or KindSwitch. Empty means the kind of the
 	// same name as Role (source, meter, dut): callers that predate kinds.
 	Kind     string
 	Address  string            // e.g. "sim://meter", "tcp://192.0.2.7:5025", "serial:///dev/ttyUSB0?baud=9600"

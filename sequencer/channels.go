@@ -275,7 +275,7 @@ func routed(d *StepDecl) bool {
 		return false
 	}
 	for _, r := range d.Roles {
-		if r.Kind == VoltageSource || r.Kind == VoltMeter {
+		if r.Kind == VoltageSource || r.Kind == CurrentSource || r.Kind == VoltMeter {
 			return true
 		}
 	}

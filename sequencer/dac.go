@@ -22,7 +22,8 @@ const (
 // for binary-offset coding, −2^(Bits−1)..2^(Bits−1)−1 for two's complement; each
 // code away from NoCorrection moves the transfer by LSB (a fraction of the gain
 // for a gain DAC; for an offset DAC, in the response's unit (V, A or count) at the
-// output, or input-referred volts when BeforeGain).
+// output, or input-referred in the stimulus's unit (V, or A for a current
+// stimulus) when BeforeGain).
 type DAC struct {
 	Name           string
 	Adjusts        string // AdjustGain or AdjustOffset
@@ -109,8 +110,9 @@ type dacDecl struct {
 }
 
 // dacList checks the dacs: section; response is the dimension of the unit's
-// response, in which an offset DAC after the gain writes its LSB.
-func dacList(doc *files.Doc, ds []*dacDecl, response units.Dim, errs *files.List) []DAC {
+// response, in which an offset DAC after the gain writes its LSB, stimulus that
+// of its stimulus, in which one before the gain writes it.
+func dacList(doc *files.Doc, ds []*dacDecl, response, stimulus units.Dim, errs *files.List) []DAC {
 	var out []DAC
 	seen := map[string]int{}
 	for i, d := range ds {
@@ -127,15 +129,16 @@ func dacList(doc *files.Doc, ds []*dacDecl, response units.Dim, errs *files.List
 			*errs = append(*errs, doc.Errorf(path+".name", "DAC name %q is already used by dacs[%d]", d.Name, j))
 		}
 		seen[d.Name] = i
-		out = append(out, dacFrom(doc, path, d, d.Adjusts, response, errs))
+		out = append(out, dacFrom(doc, path, d, d.Adjusts, response, stimulus, errs))
 	}
 	return out
 }
 
 // dacFrom checks one DAC declared at path; adjusts is what it trims (the first
 // layout knows it from the key, gain: or offset:). An offset DAC's LSB is in the
-// response's dimension after the gain, in volts of input before it.
-func dacFrom(doc *files.Doc, path string, d *dacDecl, adjusts string, response units.Dim, errs *files.List) DAC {
+// response's dimension after the gain, in the stimulus's (volts or amperes of
+// input) before it.
+func dacFrom(doc *files.Doc, path string, d *dacDecl, adjusts string, response, stimulus units.Dim, errs *files.List) DAC {
 	bad := func(p, format string, args ...any) { *errs = append(*errs, doc.Errorf(p, format, args...)) }
 	line, col := doc.Pos(path)
 	out := DAC{Name: d.Name, Adjusts: adjusts, Bits: d.Bits, Write: d.Write, Read: d.Read, Port: d.Port,
@@ -170,7 +173,7 @@ func dacFrom(doc *files.Doc, path string, d *dacDecl, adjusts string, response u
 	case adjusts == AdjustGain:
 		dim = units.Ratio
 	case out.BeforeGain:
-		dim = units.Volt
+		dim = stimulus
 	}
 	if d.LSB == "" {
 		bad(path, "missing required key \"lsb\"")

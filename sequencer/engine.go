@@ -54,8 +54,11 @@ type Engine struct {
 	all     map[string]instruments.Instrument
 	roles   []string // opened roles, sources first
 	sources map[string]instruments.Source
-	meters  map[string]instruments.Meter
-	ports   map[string]instruments.TrimPort
+	// currents are the sources bound as current sources (also in sources),
+	// by role: programmed in amperes, their compliance a voltage.
+	currents map[string]instruments.CurrentSource
+	meters   map[string]instruments.Meter
+	ports    map[string]instruments.TrimPort
 	// switches are the switches by role; routed is the channel the sequence's
 	// switch is routed to ("" = released, or not known).
 	switches map[string]instruments.Switch
@@ -74,7 +77,8 @@ type Engine struct {
 // Open checks the station against the sequence (caps, roles, predicted TUR), opens
 // every required instrument, checks calibration due dates and pinned identities,
 // puts the source in a safe state (level 0, output off), sets its compliance to
-// the station's current cap and configures the meter. One Engine serves a whole
+// the station's current cap (a current source's compliance voltage to the
+// voltage cap) and configures the meter. One Engine serves a whole
 // batch: Run it once per unit, then Close it. On error nothing stays open.
 func Open(ctx context.Context, cfg Config) (*Engine, error) {
 	st, seq := cfg.Station, cfg.Sequence
@@ -97,7 +101,7 @@ func Open(ctx context.Context, cfg Config) (*Engine, error) {
 	if err != nil {
 		return nil, err
 	}
-	e := &Engine{cfg: cfg, all: all, clock: instruments.RealClock{}, sources: map[string]instruments.Source{},
+	e := &Engine{cfg: cfg, all: all, clock: instruments.RealClock{}, sources: map[string]instruments.Source{}, currents: map[string]instruments.CurrentSource{},
 		meters: map[string]instruments.Meter{}, ports: map[string]instruments.TrimPort{}, switches: map[string]instruments.Switch{}, meterAt: map[string]MeterPlan{}}
 	fail := func(err error) (*Engine, error) {
 		e.Close()
@@ -117,6 +121,16 @@ func Open(ctx context.Context, cfg Config) (*Engine, error) {
 				return fail(fmt.Errorf("%s at %s is not a voltage source", r, si.Address))
 			}
 			e.sources[r] = src
+			if w, ok := src.(instruments.OutputWatchdog); ok {
+				e.watchdogs = append(e.watchdogs, w)
+			}
+		case CurrentSource:
+			src, ok := in.(instruments.Source)
+			cs, isCurrent := in.(instruments.CurrentSource)
+			if !ok || !isCurrent {
+				return fail(fmt.Errorf("%s at %s is not a current source (it cannot be programmed in amperes)", r, si.Address))
+			}
+			e.sources[r], e.currents[r] = src, cs
 			if w, ok := src.(instruments.OutputWatchdog); ok {
 				e.watchdogs = append(e.watchdogs, w)
 			}
@@ -196,8 +210,18 @@ func Open(ctx context.Context, cfg Config) (*Engine, error) {
 		if !ok {
 			continue
 		}
-		if err := e.safeState(ctx, src); err != nil {
+		cs := e.currents[r]
+		if err := e.safeState(ctx, src, cs); err != nil {
 			return fail(fmt.Errorf("put %s in a safe state: %w", r, err))
+		}
+		// The compliance, before any output is switched on: a voltage source
+		// limits its current to the current cap, a current source its voltage
+		// to the voltage cap.
+		if cs != nil {
+			if err := cs.SetVoltageLimit(ctx, st.MaxSourceVolts); err != nil {
+				return fail(fmt.Errorf("%s: set compliance voltage: %w", r, err))
+			}
+			continue
 		}
 		if err := src.SetCompliance(ctx, st.MaxSourceAmps); err != nil {
 			return fail(fmt.Errorf("%s: set compliance: %w", r, err))
@@ -344,7 +368,7 @@ func (e *Engine) Run(ctx context.Context, serial string) (rec *Record) {
 		Station: st.ID, Operator: e.cfg.Operator, Software: e.cfg.Software, Started: now,
 		Files:       []FileRef{st.File, seq.File, seq.LimitsFile},
 		Instruments: append([]InstrumentRef(nil), e.refs...),
-		IdealGain:   seq.IdealGain, IdealOffset: seq.IdealOffset, FullScale: seq.FullScale, ResponseUnit: seq.recordResponseUnit(),
+		IdealGain:   seq.IdealGain, IdealOffset: seq.IdealOffset, FullScale: seq.FullScale, ResponseUnit: seq.recordResponseUnit(), StimulusUnit: seq.recordStimulusUnit(),
 		Conditions: e.cfg.Conditions, Coverage: coverage(seq), Engineering: e.cfg.Engineering,
 	}
 	if e.cfg.NewID != nil {

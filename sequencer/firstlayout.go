@@ -48,7 +48,7 @@ func firstLayout(doc *files.Doc, s *Sequence, f *sequenceFile, errs *files.List)
 			continue
 		}
 		d.decl.Name = d.key
-		s.DACs = append(s.DACs, dacFrom(doc, path, d.decl, d.adjusts, units.Volt, errs))
+		s.DACs = append(s.DACs, dacFrom(doc, path, d.decl, d.adjusts, units.Volt, units.Volt, errs))
 	}
 	if dut := f.DUT; dut != nil && (dut.SerialQuery != "" || dut.FirmwareQuery != "") {
 		add("$.dut", firstIdentify, "identify", &identifyStep{SerialQuery: dut.SerialQuery, FirmwareQuery: dut.FirmwareQuery})

@@ -20,11 +20,12 @@ type analysis struct {
 }
 
 // specs are the accuracy specifications of the sweep's meter (its spec for the
-// quantity read) and source, and the resolution of the readings. A unit that
+// quantity read) and source (its spec for the stimulus: a voltage, or a current
+// with its range in A), and the resolution of the readings. A unit that
 // reports its own response has no meter spec: the resolution is the one its
 // response: declares.
 func specs(st *Station, p SweepPlan) (meter, source uncertainty.Spec, resolution float64) {
-	s := st.Instruments[p.Source].SpecFor(units.Volt)
+	s := st.Instruments[p.Source].SpecFor(p.stimDim())
 	source = uncertainty.Spec{OfReading: s.OfReading, OfRange: s.OfRange, Range: s.Range}
 	if p.Response != nil {
 		return uncertainty.Spec{}, source, p.Response.Resolution
@@ -92,7 +93,7 @@ func analyse(cfg Config, plan SweepPlan, sw Sweep, order int, seed string) (anal
 	pdof := pooled / float64(len(sw.Points))
 	for i, p := range sw.Points {
 		if p.Valid != len(p.Readings) || len(p.Readings) == 0 {
-			return analysis{}, fmt.Errorf("invalid reading (%s) at %s", firstBad(p.Readings), fmtV(p.Stimulus))
+			return analysis{}, fmt.Errorf("invalid reading (%s) at %s", firstBad(p.Readings), fmtStim(plan.Stimulus, p.Stimulus))
 		}
 		x[i], y[i], ur[i], dof[i] = p.Stimulus, p.Mean, p.URandom, pdof
 	}

@@ -532,7 +532,7 @@ func TestQuantityLoadErrorsArePositioned(t *testing.T) {
 	for _, c := range []struct {
 		name, from, to, want string
 	}{
-		{"current stimulus", "gain: 0.8 mA/mV", "gain: 0.8 mA/mA", "current sources are not supported"},
+		{"stimulus neither volts nor amperes", "gain: 0.8 mA/mV", "gain: 0.8 mA/ohm", "expected a gain per volt or per ampere of stimulus"},
 		{"offset in volts", "offset: 4 mA", "offset: 4 V", "expected a current (A)"},
 		{"full scale in counts", "full_scale: 16 mA", "full_scale: 16 count", "expected a current (A)"},
 		{"meter and response", "    name: loop\n", "    name: loop\n    meter: meter\n    response: {port: dut, query: \"X?\", resolution: 1 uA}\n", "either meter or response"},

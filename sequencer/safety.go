@@ -39,12 +39,29 @@ func CheckCaps(st *Station, seq *Sequence) error {
 	// message per step and cap.
 	said := map[string]bool{}
 	for _, x := range seq.Stimuli() {
+		if x.Dim == units.Ampere {
+			// A current source: its level is capped by the station's current
+			// cap (its compliance voltage is the voltage cap, programmed at open).
+			if r := st.SourceRating.Amps; r > 0 && !withinCap(x.Level, r) && !said[x.Step+"/rating"] {
+				said[x.Step+"/rating"] = true
+				errs = append(errs, fmt.Sprintf("%s: step %q reaches %s on the %s, outside the source's own rating of ±%s (%s safety.source_rating.current): this source cannot make it",
+					x.Where, x.Step, fmtA(x.Level), x.Role, fmtA(r), st.File.Name))
+				continue
+			}
+			if !withinCap(x.Level, st.MaxSourceAmps) && !said[x.Step+"/cap"] {
+				said[x.Step+"/cap"] = true
+				errs = append(errs, fmt.Sprintf("%s: step %q reaches %s on the %s, above the station cap of %s (%s safety.max_source_current)",
+					x.Where, x.Step, fmtA(x.Level), x.Role, fmtA(st.MaxSourceAmps), st.File.Name))
+			}
+			continue
+		}
 		if x.Dim != units.Volt {
-			// The station's caps are on voltage levels; a stimulus of another
-			// quantity has no cap here and is refused, not waved through.
+			// The station's caps are on voltage and current levels; a stimulus
+			// of another quantity has no cap here and is refused, not waved
+			// through.
 			if !said[x.Step+"/dim"] {
 				said[x.Step+"/dim"] = true
-				errs = append(errs, fmt.Sprintf("%s: step %q programs a %s on the %s: this release caps voltage levels only, so it cannot run it", x.Where, x.Step, x.Dim, x.Role))
+				errs = append(errs, fmt.Sprintf("%s: step %q programs a %s on the %s: this release caps voltage and current levels only, so it cannot run it", x.Where, x.Step, x.Dim, x.Role))
 			}
 			continue
 		}
@@ -109,21 +126,43 @@ func withinCap(volts, capVolts float64) bool {
 	return finite(volts) && math.Abs(volts) <= capVolts
 }
 
-// setLevel programs the source of role after checking the station cap once more.
-func (e *Engine) setLevel(ctx context.Context, role string, volts float64) error {
-	if !withinCap(volts, e.cfg.Station.MaxSourceVolts) {
-		return &stop{verdict: Fault, msg: fmt.Sprintf("%v: refusing to program %s, above the station cap of %s", ErrSafety, fmtV(volts), fmtV(e.cfg.Station.MaxSourceVolts)), cause: ErrSafety}
+// setLevel programs the source of role after checking the station cap once more:
+// a voltage source to level volts under safety.max_source_voltage, a current
+// source to level amperes under safety.max_source_current.
+func (e *Engine) setLevel(ctx context.Context, role string, level float64) error {
+	st := e.cfg.Station
+	if cs, ok := e.currents[role]; ok {
+		if !withinCap(level, st.MaxSourceAmps) {
+			return &stop{verdict: Fault, msg: fmt.Sprintf("%v: refusing to program %s, above the station cap of %s", ErrSafety, fmtA(level), fmtA(st.MaxSourceAmps)), cause: ErrSafety}
+		}
+		if err := cs.SetCurrent(ctx, level); err != nil {
+			return fmt.Errorf("%s: set current %s: %w", role, fmtA(level), err)
+		}
+		return nil
 	}
-	if err := e.sources[role].SetLevel(ctx, volts); err != nil {
-		return fmt.Errorf("%s: set level %s: %w", role, fmtV(volts), err)
+	if !withinCap(level, st.MaxSourceVolts) {
+		return &stop{verdict: Fault, msg: fmt.Sprintf("%v: refusing to program %s, above the station cap of %s", ErrSafety, fmtV(level), fmtV(st.MaxSourceVolts)), cause: ErrSafety}
+	}
+	if err := e.sources[role].SetLevel(ctx, level); err != nil {
+		return fmt.Errorf("%s: set level %s: %w", role, fmtV(level), err)
 	}
 	return nil
 }
 
-// safeState programs level 0 with the output off and disarms the output watchdog,
-// whatever a previous program left (after a kill -9 the output may still be on, or
-// the watchdog may have switched it off already).
-func (e *Engine) safeState(ctx context.Context, src instruments.Source) error {
+// zero programs a source's level to zero: 0 A on a current source (cs not nil),
+// else 0 V.
+func zero(ctx context.Context, src instruments.Source, cs instruments.CurrentSource) error {
+	if cs != nil {
+		return cs.SetCurrent(ctx, 0)
+	}
+	return src.SetLevel(ctx, 0)
+}
+
+// safeState programs level 0 (0 V, or 0 A on a current source, cs not nil) with
+// the output off and disarms the output watchdog, whatever a previous program
+// left (after a kill -9 the output may still be on, or the watchdog may have
+// switched it off already).
+func (e *Engine) safeState(ctx context.Context, src instruments.Source, cs instruments.CurrentSource) error {
 	if r, ok := src.(instruments.Resetter); ok {
 		if err := r.Reset(ctx); err != nil {
 			return err
@@ -132,7 +171,7 @@ func (e *Engine) safeState(ctx context.Context, src instruments.Source) error {
 	if err := src.SetOutput(ctx, false); err != nil {
 		return err
 	}
-	if err := src.SetLevel(ctx, 0); err != nil {
+	if err := zero(ctx, src, cs); err != nil {
 		return err
 	}
 	if w, ok := src.(instruments.OutputWatchdog); ok {
@@ -143,7 +182,8 @@ func (e *Engine) safeState(ctx context.Context, src instruments.Source) error {
 	return nil
 }
 
-// safeOff switches every source's output off, then programs its level to 0 and
+// safeOff switches every source's output off, then programs its level to 0 (0 A
+// on a current source) and
 // disarms its output watchdog. Each source gets a context of its own, so it works
 // after the run's context was cancelled, and the sources are switched in parallel,
 // so one that hangs (a link that stopped answering) cannot use up another's time.
@@ -163,7 +203,7 @@ func (e *Engine) safeOff(log zerolog.Logger) error {
 		ctx, cancel := context.WithTimeout(context.Background(), 2*time.Second)
 		defer cancel()
 		err := src.SetOutput(ctx, false)
-		if err2 := src.SetLevel(ctx, 0); err == nil {
+		if err2 := zero(ctx, src, e.currents[r]); err == nil {
 			err = err2
 		}
 		if w, ok := src.(instruments.OutputWatchdog); ok && err == nil {

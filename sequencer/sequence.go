@@ -28,16 +28,22 @@ type Sequence struct {
 	// names under requires:), sources first, then meters, then DUT ports.
 	Requires []string
 
-	IdealGain   float64 // response per stimulus: V/V, A/V or count/V (ResponseDim per volt)
+	IdealGain   float64 // response per stimulus: ResponseDim per StimulusDim (V/V, A/V, count/V, V/A, A/A, count/A)
 	IdealOffset float64 // response at zero input, in the response's SI unit
 	FullScale   float64 // response span for "% of full scale", in the response's SI unit
 	// ResponseDim is what the unit's response is, as the ideal gain's unit pair
 	// says: units.Volt (the default, and a bare gain), units.Ampere (a current
 	// output a meter reads in FuncCurrent) or units.Count (a number the unit
 	// reports about itself). ResponseUnit is its unit as the record writes it:
-	// "V", "A" or "count". The stimulus is always a voltage for now.
+	// "V", "A" or "count".
 	ResponseDim  units.Dim
 	ResponseUnit string
+	// StimulusDim is what the stimulus is, as the ideal gain's denominator says:
+	// units.Volt (the default, and a bare gain), programmed on a voltage_source
+	// role, or units.Ampere (a gain per ampere, e.g. 250 V/A or 1600 count/mA),
+	// programmed on a current_source role. Every level a step writes (from, to,
+	// levels, level) is in it.
+	StimulusDim units.Dim
 
 	Meter MeterPlan // the meter settings every sweep uses unless it sets its own
 	// DACs are the unit's trim DACs as the file declares them, in file order.
@@ -177,28 +183,58 @@ func (s *Sequence) recordResponseUnit() string {
 	return s.ResponseUnit
 }
 
-// idealGain sets the sequence's ideal gain and response from the gain's unit
-// pair: the numerator says the response (V, A or count; a bare number is V/V),
-// the denominator the stimulus, which must be a voltage for now.
+// recordStimulusUnit is the stimulus unit as the record writes it: "" for
+// volts, so that records of voltage-driven products stay as they were.
+func (s *Sequence) recordStimulusUnit() string {
+	if s.StimulusDim == units.Ampere {
+		return "A"
+	}
+	return ""
+}
+
+// sourceKind is the kind of source role the steps program the stimulus on.
+func (s *Sequence) sourceKind() RoleKind {
+	if s.StimulusDim == units.Ampere {
+		return CurrentSource
+	}
+	return VoltageSource
+}
+
+// stimDim is the stimulus dimension, units.Volt unless the sequence says
+// units.Ampere (a zero Sequence is voltage-driven).
+func (s *Sequence) stimDim() units.Dim {
+	if s.StimulusDim == units.Ampere {
+		return units.Ampere
+	}
+	return units.Volt
+}
+
+// idealGain sets the sequence's ideal gain, response and stimulus from the
+// gain's unit pair: the numerator says the response (V, A or count; a bare
+// number is V/V), the denominator the stimulus (V, or A for a current source).
 func idealGain(doc *files.Doc, s *Sequence, g units.Per, errs *files.List) {
 	bad := func(format string, args ...any) { *errs = append(*errs, doc.Errorf("$.ideal.gain", format, args...)) }
+	per := "volt"
 	switch g.Den {
 	case units.Ratio, units.Volt:
 	case units.Ampere:
-		bad("a current stimulus (a gain per ampere) is not supported yet: current sources are not supported, the stimulus is a voltage; write the gain per volt, e.g. 800 mA/V")
-		return
+		s.StimulusDim, per = units.Ampere, "ampere"
 	default:
-		bad("expected a gain per volt of stimulus (e.g. 200 V/V, 800 mA/V, 3200 count/V), found one per %s", g.Den)
+		bad("expected a gain per volt or per ampere of stimulus (e.g. 200 V/V, 800 mA/V, 3200 count/V, 250 V/A), found one per %s", g.Den)
 		return
 	}
 	switch g.Num {
 	case units.Ratio, units.Volt:
+		if g.Num == units.Ratio && s.StimulusDim == units.Ampere {
+			bad("a gain per ampere needs the response's unit, e.g. 250 V/A, 1 A/A or 1600 count/mA")
+			return
+		}
 	case units.Ampere:
 		s.ResponseDim, s.ResponseUnit = units.Ampere, "A"
 	case units.Count:
 		s.ResponseDim, s.ResponseUnit = units.Count, "count"
 	default:
-		bad("expected a response in V, A or count per volt (e.g. 200 V/V, 800 mA/V, 3200 count/V), found a %s", g.Num)
+		bad("expected a response in V, A or count per %s (e.g. 200 V/V, 800 mA/V, 3200 count/V, 250 V/A), found a %s", per, g.Num)
 		return
 	}
 	if s.IdealGain = g.Value; s.IdealGain == 0 || !finite(s.IdealGain) {
@@ -336,7 +372,7 @@ func parseSequence(name string, data []byte, read func(path string) ([]byte, err
 		File: FileRef{Kind: FileSequence, Name: filepath.Base(name), Title: strings.TrimSpace(f.Sequence.Product + " rev " + f.Sequence.Revision), SHA256: hashHex(data)},
 	}
 
-	s.ResponseDim, s.ResponseUnit = units.Volt, "V"
+	s.ResponseDim, s.ResponseUnit, s.StimulusDim = units.Volt, "V", units.Volt
 	if f.Ideal.Gain == nil {
 		bad("$.ideal", "missing required key \"gain\" (response per volt of input: 200 or 200 V/V, 800 mA/V, 3200 count/V)")
 	} else {
@@ -403,7 +439,7 @@ func parseSequence(name string, data []byte, read func(path string) ([]byte, err
 			errs = append(errs, doc.KeyErrorf("$.coefficients", "coefficients: needs a step list (steps:) with a coefficients step: the first sequence layout has none"))
 		}
 	default:
-		s.DACs = dacList(doc, f.DACs, s.ResponseDim, &errs)
+		s.DACs = dacList(doc, f.DACs, s.ResponseDim, s.stimDim(), &errs)
 		s.Coefficients = coefList(doc, s, f.Coefficients, &errs)
 		parseChannels(doc, s, f.Channels, &errs)
 		paths = stepList(doc, s, &errs, &decodeErrs)

@@ -20,8 +20,12 @@ type RoleKind string
 
 const (
 	VoltageSource RoleKind = instruments.KindSource // a programmable DC voltage source (instruments.Source)
-	VoltMeter     RoleKind = instruments.KindMeter  // a DC voltmeter (instruments.Meter)
-	DUTPort       RoleKind = instruments.KindPort   // the unit's command port (instruments.TrimPort)
+	// CurrentSource is a programmable DC current source: an instruments.Source
+	// that is also an instruments.CurrentSource, driven in current mode. Steps
+	// use it when the ideal gain is per ampere (Sequence.StimulusDim).
+	CurrentSource RoleKind = instruments.KindCurrentSource
+	VoltMeter     RoleKind = instruments.KindMeter // a DC voltmeter (instruments.Meter)
+	DUTPort       RoleKind = instruments.KindPort  // the unit's command port (instruments.TrimPort)
 	// SwitchRole routes the bench to one channel of a multi-channel unit
 	// (instruments.Switch): the sequence's channels.switch.
 	SwitchRole RoleKind = instruments.KindSwitch
@@ -37,7 +41,7 @@ const (
 
 // roleKinds are the kinds in the order roles are listed: sources, meters, ports,
 // switches.
-var roleKinds = []RoleKind{VoltageSource, VoltMeter, DUTPort, SwitchRole}
+var roleKinds = []RoleKind{VoltageSource, CurrentSource, VoltMeter, DUTPort, SwitchRole}
 
 func (k RoleKind) order() int {
 	for i, x := range roleKinds {
@@ -229,7 +233,7 @@ type accuracyDecl struct {
 }
 
 // specsOf checks the instrument's accuracy specs: every range of V or A (a
-// source's of V), positive, at most one spec of each dimension.
+// voltage source's of V, a current source's of A), positive, at most one spec of each dimension.
 func specsOf(doc *files.Doc, base string, kind RoleKind, errs *files.List) []Accuracy {
 	var out []Accuracy
 	seen := map[units.Dim]int{}
@@ -263,10 +267,14 @@ func specsOf(doc *files.Doc, base string, kind RoleKind, errs *files.List) []Acc
 			bad("", "accuracy terms must not be negative")
 		}
 		switch {
-		case d.Range.Dim != units.Volt && d.Range.Dim != units.Ampere || kind == VoltageSource && d.Range.Dim != units.Volt:
+		case d.Range.Dim != units.Volt && d.Range.Dim != units.Ampere || kind == VoltageSource && d.Range.Dim != units.Volt ||
+			kind == CurrentSource && d.Range.Dim != units.Ampere:
 			want := "voltage or current"
-			if kind == VoltageSource {
+			switch kind {
+			case VoltageSource:
 				want = "voltage"
+			case CurrentSource:
+				want = "current"
 			}
 			bad("range", "expected a positive %s range such as 10V or 100 mA, found a %s", want, d.Range.Dim)
 			continue

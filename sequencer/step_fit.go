@@ -38,14 +38,14 @@ type fitStep struct {
 	Sweep  string `yaml:"sweep"`
 	Order  int    `yaml:"order"`
 	Window *struct {
-		From *units.Voltage `yaml:"from"`
-		To   *units.Voltage `yaml:"to"`
+		From *level `yaml:"from"`
+		To   *level `yaml:"to"`
 	} `yaml:"window"`
 	Results map[string]string `yaml:"results"`
 
 	order  []string // the order of Results' keys when not read from a file
 	sweep  *sweepStep
-	lo, hi float64     // window, volts of stimulus (±Inf = none)
+	lo, hi float64     // window, stimulus in SI units (±Inf = none)
 	outs   [][2]string // (what, result name), in the file's order
 }
 
@@ -77,7 +77,11 @@ func (f *fitStep) Check(c *Checker) {
 		if w.From == nil || w.To == nil {
 			c.Errorf("window", "expected from and to: the stimulus levels the fit uses, inclusive")
 		} else {
-			f.lo, f.hi = min(float64(*w.From), float64(*w.To)), max(float64(*w.From), float64(*w.To))
+			from, ok1 := c.level("window.from", *w.From)
+			to, ok2 := c.level("window.to", *w.To)
+			if ok1 && ok2 {
+				f.lo, f.hi = min(from, to), max(from, to)
+			}
 		}
 	}
 	if f.sweep != nil && f.Order >= 1 && f.Order <= 2 && f.sweep.Plan.Points >= MinPoints { // a sweep refused already is not counted again

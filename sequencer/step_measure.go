@@ -47,7 +47,7 @@ func unitOf(d units.Dim) string {
 
 // measureStep is a measure step as the sequence file writes it.
 type measureStep struct {
-	Level    *units.Voltage    `yaml:"level"`
+	Level    *level            `yaml:"level"`
 	Settle   *units.Duration   `yaml:"settle"`
 	Readings int               `yaml:"readings"`
 	Source   string            `yaml:"source"`
@@ -84,10 +84,8 @@ func (s *measureStep) Check(c *Checker) {
 	}
 	inBounds := checkReadings(c, k, 2, "2 readings (one gives no noise estimate)", &p)
 	if s.Level != nil {
-		if v := float64(*s.Level); finite(v) {
+		if v, ok := c.level("level", *s.Level); ok {
 			p.List, p.From, p.To, s.driven = []float64{v}, v, v, true
-		} else {
-			c.Errorf("level", "expected a finite level")
 		}
 	}
 	if inBounds {
@@ -161,7 +159,7 @@ func (s *measureStep) Stimuli() []Stimulus {
 	if !s.driven {
 		return nil
 	}
-	return []Stimulus{{Role: s.plan.Source, Level: s.plan.From, Dim: units.Volt}}
+	return []Stimulus{{Role: s.plan.Source, Level: s.plan.From, Dim: s.plan.stimDim()}}
 }
 
 // Least is the step's one engine step: its settle and its readings at the
@@ -215,7 +213,7 @@ func (s *measureStep) measure(ctx context.Context, u *Unit) ([]instruments.Readi
 	name, p := u.step.Name, s.plan
 	where := func() string {
 		if s.driven {
-			return fmt.Sprintf("%s at %s", name, fmtV(p.From))
+			return fmt.Sprintf("%s at %s", name, fmtStim(p.Stimulus, p.From))
 		}
 		return name + " with the input not driven"
 	}

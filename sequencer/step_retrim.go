@@ -40,7 +40,7 @@ var retrimOutputs = map[string]string{
 // retrimStep is a retrim step as the sequence file writes it.
 type retrimStep struct {
 	DAC       string            `yaml:"dac"`
-	Levels    []units.Voltage   `yaml:"levels"`
+	Levels    []level           `yaml:"levels"`
 	Settle    *units.Duration   `yaml:"settle"`
 	Readings  int               `yaml:"readings"`
 	Source    string            `yaml:"source"`
@@ -73,11 +73,9 @@ func (s *retrimStep) Check(c *Checker) {
 	p := SweepPlan{}
 	inBounds := checkReadings(c, readingKeys{source: s.Source, meter: s.Meter, response: s.Response, quantity: seq.ResponseDim, stage: s.Stage, meterRange: s.MeterSet, nplc: s.NPLC,
 		settle: s.Settle, readings: s.Readings}, 2, "2 readings (one gives no noise estimate for the error's uncertainty)", &p)
-	for i, v := range s.Levels {
-		if !finite(float64(v)) {
-			c.Errorf(fmt.Sprintf("levels[%d]", i), "expected a finite level")
-		}
-		p.List = append(p.List, float64(v))
+	for i, l := range s.Levels {
+		v, _ := c.level(fmt.Sprintf("levels[%d]", i), l)
+		p.List = append(p.List, v)
 	}
 	switch p.Points = len(p.List); {
 	case s.Levels == nil:
@@ -253,7 +251,7 @@ func nominalStep(d DAC, seq *Sequence, levels []float64, pivot float64) float64 
 func (s *retrimStep) Stimuli() []Stimulus {
 	var out []Stimulus
 	for _, v := range s.plan.List {
-		out = append(out, Stimulus{Role: s.plan.Source, Level: v, Dim: units.Volt})
+		out = append(out, Stimulus{Role: s.plan.Source, Level: v, Dim: s.plan.stimDim()})
 	}
 	return out
 }
@@ -533,7 +531,7 @@ func (s *retrimStep) measurePass(ctx context.Context, u *Unit, i int) (retrimPas
 		if p.Valid != len(p.Readings) || p.Valid == 0 {
 			// The bench faults on an invalid reading before this; a record that
 			// holds one cannot be re-trimmed from.
-			return retrimPass{}, false, u.Fault("%s: invalid reading (%s) at %s", name, firstBad(p.Readings), fmtV(p.Stimulus))
+			return retrimPass{}, false, u.Fault("%s: invalid reading (%s) at %s", name, firstBad(p.Readings), fmtStim(s.plan.Stimulus, p.Stimulus))
 		}
 	}
 	m := retrimPass{sw: sw}

@@ -22,11 +22,14 @@ func init() {
 
 // SweepPlan is one pass across the input range.
 type SweepPlan struct {
-	From, To float64 // stimulus, volts
+	From, To float64 // stimulus, volts (amperes when Stimulus is units.Ampere)
+	// Stimulus is what the levels are: units.Volt (0 too) programmed on a
+	// voltage source, or units.Ampere on a current source.
+	Stimulus units.Dim
 	// Points is the number of levels, evenly spaced, From first: at least 3 (the
 	// loader refuses fewer; a line through 2 points has no residual to judge).
 	Points int
-	// List, when not nil, is the levels in the order they are programmed, volts;
+	// List, when not nil, is the levels in the order they are programmed, in Stimulus;
 	// From, To and Points then describe it (first, last, count).
 	List     []float64
 	Settle   time.Duration // wait after each level change before reading
@@ -58,7 +61,16 @@ type responseDecl struct {
 	Resolution *units.Quantity `yaml:"resolution"`
 }
 
-// Levels returns the stimulus levels in volts. For an even sweep, From to To
+// stimDim is the dimension of the plan's levels: units.Volt unless they are
+// currents.
+func (p SweepPlan) stimDim() units.Dim {
+	if p.Stimulus == units.Ampere {
+		return units.Ampere
+	}
+	return units.Volt
+}
+
+// Levels returns the stimulus levels in SI units (volts, or amperes). For an even sweep, From to To
 // inclusive: the first is exactly From and the last exactly To, and none lies
 // outside them, so a cap that holds at both ends holds at every level. It is the
 // one computation of the levels: the sweep programs them, and the caps check, the
@@ -87,10 +99,10 @@ func (p SweepPlan) Levels() []float64 {
 
 // sweepStep is a sweep as the sequence file writes it.
 type sweepStep struct {
-	From      *units.Voltage  `yaml:"from"`
-	To        *units.Voltage  `yaml:"to"`
+	From      *level          `yaml:"from"`
+	To        *level          `yaml:"to"`
 	Points    int             `yaml:"points"`
-	Levels    []units.Voltage `yaml:"levels"`
+	Levels    []level         `yaml:"levels"`
 	Settle    *units.Duration `yaml:"settle"`
 	Readings  int             `yaml:"readings"`
 	Source    string          `yaml:"source"`
@@ -119,8 +131,11 @@ func (s *sweepStep) Check(c *Checker) {
 		if s.From != nil || s.To != nil || s.Points != 0 {
 			c.Errorf("levels", "give either levels or from, to and points, not both")
 		}
-		for _, v := range s.Levels {
-			p.List = append(p.List, float64(v))
+		levelsOK := true
+		for i, l := range s.Levels {
+			v, ok := c.level(fmt.Sprintf("levels[%d]", i), l)
+			p.List = append(p.List, v)
+			levelsOK = levelsOK && ok
 		}
 		if len(p.List) > 0 {
 			p.From, p.To = p.List[0], p.List[len(p.List)-1]
@@ -130,23 +145,22 @@ func (s *sweepStep) Check(c *Checker) {
 		} else if p.Points > MaxPoints {
 			c.Errorf("levels", "expected at most %d levels, found %d", MaxPoints, p.Points)
 		}
-		for i, v := range p.List {
-			if !finite(v) {
-				c.Errorf(fmt.Sprintf("levels[%d]", i), "expected a finite level")
-			}
+		if !levelsOK {
+			p.List, p.Points = nil, 0 // refused: no later check may use its levels
 		}
 	} else {
+		fromOK, toOK := false, false
 		if s.From == nil {
 			c.Errorf("", "missing required key \"from\"")
 		} else {
-			p.From = float64(*s.From)
+			p.From, fromOK = c.level("from", *s.From)
 		}
 		if s.To == nil {
 			c.Errorf("", "missing required key \"to\"")
 		} else {
-			p.To = float64(*s.To)
+			p.To, toOK = c.level("to", *s.To)
 		}
-		if s.From != nil && s.To != nil && p.From == p.To {
+		if fromOK && toOK && p.From == p.To {
 			c.Errorf("to", "expected \"to\" to differ from \"from\"")
 		}
 		p.Points = s.Points
@@ -154,6 +168,9 @@ func (s *sweepStep) Check(c *Checker) {
 			c.Errorf("points", "expected at least %d points, found %d (a line through 2 points has no residual to judge)", MinPoints, s.Points)
 		} else if p.Points > MaxPoints {
 			c.Errorf("points", "expected at most %d points, found %d", MaxPoints, s.Points)
+			p.Points = 0 // refused: no later check may make its levels
+		}
+		if !fromOK || !toOK {
 			p.Points = 0 // refused: no later check may make its levels
 		}
 	}
@@ -172,7 +189,7 @@ func (s *sweepStep) Check(c *Checker) {
 func (s *sweepStep) Stimuli() []Stimulus {
 	var out []Stimulus
 	for _, v := range s.Plan.Levels() {
-		out = append(out, Stimulus{Role: s.Plan.Source, Level: v, Dim: units.Volt})
+		out = append(out, Stimulus{Role: s.Plan.Source, Level: v, Dim: s.Plan.stimDim()})
 	}
 	return out
 }
@@ -236,7 +253,8 @@ type readingKeys struct {
 func checkReadings(c *Checker, k readingKeys, minReadings int, why string, p *SweepPlan) bool {
 	seq := c.Sequence()
 	p.Source, p.Settle, p.MeterSet, p.Where, p.Quantity = orDefault(k.source, RoleSource), -1, seq.Meter, c.Where(), k.quantity
-	c.Use(p.Source, VoltageSource)
+	p.Stimulus = seq.stimDim()
+	c.Use(p.Source, seq.sourceKind())
 	checkReader(c, k, p)
 	switch k.stage {
 	case "":
@@ -377,7 +395,7 @@ func (e *Engine) sweep(ctx context.Context, u *Unit, name string, p SweepPlan) (
 			if err := e.clock.Sleep(ctx, p.Settle); err != nil {
 				return err
 			}
-			rs, err := e.readings(ctx, u, p, func() string { return fmt.Sprintf("%s sweep at %s", name, fmtV(x)) })
+			rs, err := e.readings(ctx, u, p, func() string { return fmt.Sprintf("%s sweep at %s", name, fmtStim(p.Stimulus, x)) })
 			if err != nil {
 				return err
 			}
@@ -388,10 +406,10 @@ func (e *Engine) sweep(ctx context.Context, u *Unit, name string, p SweepPlan) (
 			for j, r := range rs {
 				if !r.Valid() {
 					return &stop{verdict: Fault, msg: fmt.Sprintf("%s sweep at %s: meter reported %s (reading %d of %d): check the meter range and the wiring",
-						name, fmtV(x), firstBad(rs[j:j+1]), j+1, len(rs))}
+						name, fmtStim(p.Stimulus, x), firstBad(rs[j:j+1]), j+1, len(rs))}
 				}
 			}
-			return e.checkErrors(ctx, func() string { return fmt.Sprintf("%s sweep at %s", name, fmtV(x)) })
+			return e.checkErrors(ctx, func() string { return fmt.Sprintf("%s sweep at %s", name, fmtStim(p.Stimulus, x)) })
 		})
 		if err != nil {
 			return sw, err

@@ -180,37 +180,43 @@ func (u *Unit) Do(ctx context.Context, f func(ctx context.Context) error) error 
 	return u.e.step(ctx, f)
 }
 
-// Level programs the source bound to role to volts, after the fixture interlock
-// and the station's cap are checked once more (a level beyond the cap stops the
-// run as a station fault, ErrSafety). The output is not switched; every source's
+// Level programs the source bound to role to level, in volts (amperes on a
+// current source), after the fixture interlock and the station's cap are
+// checked once more (a level beyond the cap stops the run as a station fault,
+// ErrSafety). The output is not switched; every source's
 // output is switched off and its level set to 0 when the run ends, whatever
 // happens. Call it inside Do. A step that calls it must list the level in its
 // Stimuli, so that the caps are checked at load too.
-func (u *Unit) Level(ctx context.Context, role string, volts float64) error {
+func (u *Unit) Level(ctx context.Context, role string, level float64) error {
 	if err := u.liveOnly(); err != nil {
 		return err
 	}
 	if _, ok := u.e.sources[role]; !ok {
-		return fmt.Errorf("%s is not a voltage source", role)
+		return fmt.Errorf("%s is not a source", role)
 	}
-	if !u.declared(role, volts) {
+	d := units.Volt
+	if _, ok := u.e.currents[role]; ok {
+		d = units.Ampere
+	}
+	if !u.declared(role, level, d) {
 		return &stop{verdict: Fault, cause: ErrSafety, msg: fmt.Sprintf("%v: step %q programs %s on the %s, a level its Stimuli did not declare (so the caps were not checked on it at load)",
-			ErrSafety, u.step.Name, fmtV(volts), role)}
+			ErrSafety, u.step.Name, fmtStim(d, level), role)}
 	}
 	if err := u.e.checkInterlock(ctx); err != nil {
 		return err
 	}
-	return u.e.setLevel(ctx, role, volts)
+	return u.e.setLevel(ctx, role, level)
 }
 
-// declared reports whether the running step lists volts on role in its Stimuli.
-func (u *Unit) declared(role string, volts float64) bool {
+// declared reports whether the running step lists level (of dimension d) on
+// role in its Stimuli.
+func (u *Unit) declared(role string, level float64, d units.Dim) bool {
 	st, ok := u.step.Step.(Stimulator)
 	if !ok {
 		return false
 	}
 	for _, x := range st.Stimuli() {
-		if x.Role == role && x.Dim == units.Volt && x.Level == volts {
+		if x.Role == role && x.Dim == d && x.Level == level {
 			return true
 		}
 	}

@@ -1,5 +1,5 @@
-// Package conformance is a test suite every trimline driver must pass. Source, Meter,
-// TrimPort and Switch run subtests against instruments a test opens with its own open
+// Package conformance is a test suite every trimline driver must pass. Source,
+// CurrentSource, Meter, TrimPort and Switch run subtests against instruments a test opens with its own open
 // function (called once per subtest; register cleanup with t.Cleanup there):
 // identification (if the instrument is an Identifier), set and read, rejected
 // requests and the error queue, timeouts and cancellation while blocked (when Hooks
@@ -265,6 +265,85 @@ func Source(t *testing.T, open func(t *testing.T) instruments.Source, hooks ...H
 	})
 	t.Run("close twice", func(t *testing.T) {
 		s := open(t)
+		closeTwice(t, s)
+		if err := s.SetOutput(context.Background(), false); err != nil {
+			t.Fatalf("SetOutput(off) after Close: %v, want nil", err)
+		}
+	})
+}
+
+// CurrentSource runs the suite on a source opened to drive a current: it must
+// be an instruments.CurrentSource; the compliance voltage and currents are set
+// and refused as a voltage source's level is, the output switches off at any
+// time (also after a refused request and with a done context) and Close works
+// twice. Level (volts) is read as milliamperes here: 10 mV means 10 mA.
+func CurrentSource(t *testing.T, open func(t *testing.T) instruments.Source, hooks ...Hooks) {
+	h := hooksOf(hooks)
+	amps := h.Level // volts read as mA: 10 mV is 10 mA
+	cur := func(t *testing.T) (instruments.Source, instruments.CurrentSource) {
+		s := open(t)
+		cs, ok := s.(instruments.CurrentSource)
+		if !ok {
+			t.Fatalf("%T is not an instruments.CurrentSource", s)
+		}
+		return s, cs
+	}
+	t.Run("reset", func(t *testing.T) { s, _ := cur(t); reset(t, s) })
+	t.Run("set current and output", func(t *testing.T) {
+		s, cs := cur(t)
+		ctx := bgCtx(t)
+		for _, step := range []struct {
+			what string
+			f    func() error
+		}{
+			{"SetVoltageLimit(5 V)", func() error { return cs.SetVoltageLimit(ctx, 5) }},
+			{"SetCurrent(+level)", func() error { return cs.SetCurrent(ctx, amps) }},
+			{"SetOutput(on)", func() error { return s.SetOutput(ctx, true) }},
+			{"SetCurrent(-level)", func() error { return cs.SetCurrent(ctx, -amps) }},
+			{"SetOutput(off)", func() error { return s.SetOutput(ctx, false) }},
+			{"SetCurrent(0)", func() error { return cs.SetCurrent(ctx, 0) }},
+			{"SetOutput(off) again", func() error { return s.SetOutput(ctx, false) }},
+		} {
+			if err := step.f(); err != nil {
+				t.Fatalf("%s: %v", step.what, err)
+			}
+		}
+	})
+	t.Run("rejects", func(t *testing.T) {
+		s, cs := cur(t)
+		ctx := bgCtx(t)
+		if err := cs.SetCurrent(ctx, math.NaN()); err == nil {
+			t.Fatal("SetCurrent(NaN) accepted")
+		}
+		if err := cs.SetVoltageLimit(ctx, -1); err == nil {
+			t.Fatal("SetVoltageLimit(-1 V) accepted")
+		}
+		if err := cs.SetVoltageLimit(ctx, math.Inf(1)); err == nil {
+			t.Fatal("SetVoltageLimit(+Inf) accepted")
+		}
+		if err := s.SetOutput(ctx, false); err != nil {
+			t.Fatalf("SetOutput(off) after a refused request: %v", err)
+		}
+		if err := cs.SetCurrent(ctx, amps); err != nil {
+			t.Fatalf("SetCurrent after a refused request: %v", err)
+		}
+	})
+	t.Run("off after cancel", func(t *testing.T) {
+		s, cs := cur(t)
+		if err := cs.SetCurrent(bgCtx(t), amps); err != nil {
+			t.Fatalf("SetCurrent: %v", err)
+		}
+		if err := s.SetOutput(bgCtx(t), true); err != nil {
+			t.Fatalf("SetOutput(on): %v", err)
+		}
+		ctx, cancel := context.WithCancel(context.Background())
+		cancel()
+		if err := s.SetOutput(ctx, false); err != nil {
+			t.Fatalf("SetOutput(off) with a done context: %v, want nil (it must still switch off)", err)
+		}
+	})
+	t.Run("close twice", func(t *testing.T) {
+		s, _ := cur(t)
 		closeTwice(t, s)
 		if err := s.SetOutput(context.Background(), false); err != nil {
 			t.Fatalf("SetOutput(off) after Close: %v, want nil", err)

@@ -33,6 +33,12 @@ func TestConformance(t *testing.T) {
 					return open(t, last, "source", nil, nil).(instruments.Source)
 				}, hooks("source"))
 			})
+			t.Run("current source", func(t *testing.T) {
+				conformance.CurrentSource(t, func(t *testing.T) instruments.Source {
+					last = start(t, tr, serve.Options{})
+					return openKind(t, last, "source", instruments.KindCurrentSource).(instruments.Source)
+				}, hooks("source"))
+			})
 			t.Run("meter", func(t *testing.T) {
 				conformance.Meter(t, func(t *testing.T) instruments.Meter {
 					last = start(t, tr, serve.Options{})

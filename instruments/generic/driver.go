@@ -27,6 +27,17 @@
 //	get_output      OUTP?                      function_current  CONF:CURR:DC
 //	arm_watchdog    (none)                     configure_current CONF:CURR:DC {range}
 //	disarm_watchdog (none)                     set_nplc_current  CURR:DC:NPLC {nplc}
+//	current_mode    SOUR:FUNC CURR
+//	set_current     SOUR:CURR {amps}
+//	get_current     SOUR:CURR?
+//	set_voltage_limit SOUR:VOLT:PROT {volts}
+//
+// A source opened as kind current_source (a *CurrentSource) also implements
+// instruments.CurrentSource: SetCurrent sends current_mode once after open or
+// Reset (the function a *RST leaves is voltage), then set_current, drains the
+// error queue and reads the current back with get_current (within 1e-9 relative
+// or 1 pA, else ErrReadback); SetVoltageLimit sends set_voltage_limit, the
+// compliance voltage. A source opened as a voltage_source never sends them.
 //
 //	switch
 //	identify, reset, clear, sync, error_query  as the meter's
@@ -140,6 +151,8 @@ var defaults = map[string]map[string]string{
 		"set_range": "SOUR:VOLT:RANG {volts}", "set_level": "SOUR:VOLT {volts}", "get_level": "SOUR:VOLT?",
 		"set_compliance": "SOUR:CURR:PROT {amps}", "output_on": "OUTP ON", "output_off": "OUTP OFF", "get_output": "OUTP?",
 		"arm_watchdog": "", "disarm_watchdog": "",
+		"current_mode": "SOUR:FUNC CURR", "set_current": "SOUR:CURR {amps}", "get_current": "SOUR:CURR?",
+		"set_voltage_limit": "SOUR:VOLT:PROT {volts}",
 	},
 	RoleMeter: {
 		"identify": "*IDN?", "reset": "*RST", "clear": "*CLS", "sync": "*OPC?", "error_query": "SYST:ERR?",
@@ -158,6 +171,7 @@ var defaults = map[string]map[string]string{
 // placeholders lists the placeholders each template may use (none if absent).
 var placeholders = map[string][]string{
 	"set_range": {"{volts}"}, "set_level": {"{volts}"}, "set_compliance": {"{amps}"},
+	"set_current": {"{amps}"}, "set_voltage_limit": {"{volts}"},
 	"configure": {"{range}"}, "set_nplc": {"{nplc}"}, "set_count": {"{n}"}, "load_unit": {"{serial}"},
 	"arm_watchdog": {"{seconds}"}, "configure_current": {"{range}"}, "set_nplc_current": {"{nplc}"},
 	"route": {"{channel}"},
@@ -223,7 +237,7 @@ const (
 // role's name.
 func kindRole(spec instruments.Spec) (string, error) {
 	switch spec.Kind {
-	case instruments.KindSource:
+	case instruments.KindSource, instruments.KindCurrentSource:
 		return RoleSource, nil
 	case instruments.KindMeter:
 		return RoleMeter, nil
@@ -237,8 +251,8 @@ func kindRole(spec instruments.Spec) (string, error) {
 		}
 		return "", fmt.Errorf("role %q: the generic driver opens a source, a meter, a dut or a switch", spec.Role)
 	}
-	return "", fmt.Errorf("role %q: kind %q: the generic driver opens a %s, a %s, a %s or a %s", spec.Role, spec.Kind,
-		instruments.KindSource, instruments.KindMeter, instruments.KindPort, instruments.KindSwitch)
+	return "", fmt.Errorf("role %q: kind %q: the generic driver opens a %s, a %s, a %s, a %s or a %s", spec.Role, spec.Kind,
+		instruments.KindSource, instruments.KindCurrentSource, instruments.KindMeter, instruments.KindPort, instruments.KindSwitch)
 }
 
 // parseConfig validates spec and returns its configuration.
@@ -413,7 +427,8 @@ func (Driver) CheckSettings(spec instruments.Spec) error {
 
 // Open dials addr and opens the instrument spec.Kind names (or, without a kind,
 // spec.Role): a *Source (a
-// *WatchdogSource when the arm_watchdog template is set), a *Meter or a *Port (a
+// *WatchdogSource when the arm_watchdog template is set; for the kind
+// current_source a *CurrentSource or *WatchdogCurrentSource), a *Meter or a *Port (a
 // *LoaderPort when the load_unit template is set). A source or meter is
 // cleared and reset at open unless the reset setting is false; its error queue is
 // then drained. ctx bounds the opening only.
@@ -438,7 +453,12 @@ func (Driver) Open(ctx context.Context, addr *url.URL, spec instruments.Spec) (i
 		s := &Source{base: b, rangeV: c.rangeV}
 		err = s.open(ctx, c.reset)
 		in = s
-		if c.watchdog > 0 {
+		switch current := spec.Kind == instruments.KindCurrentSource; {
+		case current && c.watchdog > 0:
+			in = &WatchdogCurrentSource{CurrentSource: &CurrentSource{Source: s}, timeout: c.watchdog}
+		case current:
+			in = &CurrentSource{Source: s}
+		case c.watchdog > 0:
 			in = &WatchdogSource{Source: s, timeout: c.watchdog}
 		}
 	case RoleMeter:

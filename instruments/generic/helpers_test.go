@@ -21,8 +21,24 @@ func start(t *testing.T, transport string, opt serve.Options) *serve.Server {
 	return simtest.Serve(t, opt)
 }
 
+// openKind opens role on srv as an instrument of kind, with no settings or
+// templates of the test's own.
+func openKind(t *testing.T, srv *serve.Server, role, kind string) instruments.Instrument {
+	t.Helper()
+	return openSpec(t, srv, role, kind, nil, nil)
+}
+
 // open opens role on srv with the generic driver: 200 ms timeout, one retry.
 func open(t *testing.T, srv *serve.Server, role string, settings, templates map[string]string) instruments.Instrument {
+	t.Helper()
+	kind := ""
+	if role == "mux" { // simtest.SwitchSpec's role
+		kind = instruments.KindSwitch
+	}
+	return openSpec(t, srv, role, kind, settings, templates)
+}
+
+func openSpec(t *testing.T, srv *serve.Server, role, kind string, settings, templates map[string]string) instruments.Instrument {
 	t.Helper()
 	addr := srv.Addresses()[role]
 	drv, u, err := instruments.Lookup(addr)
@@ -36,10 +52,7 @@ func open(t *testing.T, srv *serve.Server, role string, settings, templates map[
 	for k, v := range settings {
 		s[k] = v
 	}
-	spec := instruments.Spec{Role: role, Address: addr, Settings: s, Templates: templates, Timeout: testTimeout}
-	if role == "mux" { // simtest.SwitchSpec's role
-		spec.Kind = instruments.KindSwitch
-	}
+	spec := instruments.Spec{Role: role, Kind: kind, Address: addr, Settings: s, Templates: templates, Timeout: testTimeout}
 	if err := drv.(instruments.SettingsChecker).CheckSettings(spec); err != nil {
 		t.Fatal(err)
 	}

@@ -191,3 +191,81 @@ func (w *WatchdogSource) DisarmWatchdog(ctx context.Context) error {
 	}
 	return w.exec(ctx, "disarm_watchdog")
 }
+
+// CurrentSource is a Source opened as kind current_source: it drives a current
+// (instruments.CurrentSource) with the templates current_mode, set_current,
+// get_current and set_voltage_limit.
+type CurrentSource struct {
+	*Source
+
+	modeMu    sync.Mutex
+	inCurrent bool // current_mode was sent since open or the last Reset
+}
+
+var _ instruments.CurrentSource = (*CurrentSource)(nil)
+
+// Reset resets the source as Source.Reset does; the next SetCurrent selects
+// current mode again.
+func (s *CurrentSource) Reset(ctx context.Context) error {
+	s.modeMu.Lock()
+	s.inCurrent = false
+	s.modeMu.Unlock()
+	return s.Source.Reset(ctx)
+}
+
+// SetCurrent selects current mode (current_mode, once after open or Reset),
+// programs amps (finite) with set_current, drains the error queue and reads the
+// current back with get_current; a difference of more than 1e-9 relative or
+// 1 pA is an error wrapping ErrReadback. It does not switch the output on.
+func (s *CurrentSource) SetCurrent(ctx context.Context, amps float64) error {
+	if !finite(amps) {
+		return fmt.Errorf("%s: set current %g A: not a finite current", s.addr, amps)
+	}
+	s.modeMu.Lock()
+	defer s.modeMu.Unlock()
+	if !s.inCurrent {
+		if err := s.exec(ctx, "current_mode"); err != nil {
+			return err
+		}
+		s.inCurrent = true
+	}
+	if err := s.exec(ctx, "set_current", "{amps}", num(amps)); err != nil {
+		return err
+	}
+	got, err := s.sess.QueryFloat(ctx, s.tpl["get_current"])
+	if err != nil {
+		return fmt.Errorf("%s: read back current: %w", s.addr, err)
+	}
+	if d := math.Abs(got - amps); d > 1e-12 && d > 1e-9*math.Abs(amps) {
+		return fmt.Errorf("%s: current set to %s A reads back %s A: %w", s.addr, num(amps), num(got), ErrReadback)
+	}
+	return nil
+}
+
+// SetVoltageLimit programs the compliance voltage in volts (finite, > 0) with
+// set_voltage_limit and drains the error queue.
+func (s *CurrentSource) SetVoltageLimit(ctx context.Context, volts float64) error {
+	if !finite(volts) || volts <= 0 {
+		return fmt.Errorf("%s: compliance voltage %g V: expected a positive voltage", s.addr, volts)
+	}
+	return s.exec(ctx, "set_voltage_limit", "{volts}", num(volts))
+}
+
+// WatchdogCurrentSource is a CurrentSource with an output watchdog, as
+// WatchdogSource is for a voltage source.
+type WatchdogCurrentSource struct {
+	*CurrentSource
+	timeout time.Duration
+}
+
+var _ instruments.OutputWatchdog = (*WatchdogCurrentSource)(nil)
+
+// ArmWatchdog is WatchdogSource.ArmWatchdog.
+func (w *WatchdogCurrentSource) ArmWatchdog(ctx context.Context) error {
+	return (&WatchdogSource{Source: w.Source, timeout: w.timeout}).ArmWatchdog(ctx)
+}
+
+// DisarmWatchdog is WatchdogSource.DisarmWatchdog.
+func (w *WatchdogCurrentSource) DisarmWatchdog(ctx context.Context) error {
+	return (&WatchdogSource{Source: w.Source, timeout: w.timeout}).DisarmWatchdog(ctx)
+}

@@ -308,14 +308,24 @@ func (b *Bench) watchdog() {
 	}
 }
 
-// dutInput returns the noiseless voltage in V the source puts on the DUT input it
-// is wired to: its actual output when it is on, else 0 V (the fixture relay shorts
-// the input).
+// dutInput returns the noiseless voltage in V the source puts on the DUT
+// amplifier's input it is wired to: its actual output when it is on (into a
+// current-input card, the current through the card's shunt times the shunt),
+// else 0 V (the fixture relay shorts the input).
 func (b *Bench) dutInput() float64 {
 	if b.source == nil {
 		return 0
 	}
-	return b.source.actual()
+	return b.source.into(b.inputOhms())
+}
+
+// inputOhms is the resistance of the DUT's input: the shunt of a current-input
+// card, 0 (high impedance) for a voltage input or without a DUT.
+func (b *Bench) inputOhms() float64 {
+	if b.dut == nil {
+		return 0
+	}
+	return b.dut.card.inputOhms
 }
 
 // wired reports whether channel k (0-based) is wired to the source and the meter:
@@ -357,7 +367,7 @@ func (b *Bench) sample(t time.Time, k int) float64 {
 	if b.wired(k) {
 		x = b.dutInput()
 		if b.source != nil && b.source.on {
-			x += b.source.noise * b.noise.NormFloat64()
+			x += b.source.noiseInto(b.inputOhms()) * b.noise.NormFloat64()
 		}
 	}
 	return b.dut.output(t, k, x, b.noise.NormFloat64())

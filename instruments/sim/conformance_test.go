@@ -23,6 +23,9 @@ func TestConformanceSimulatedTime(t *testing.T) {
 	t.Run("source", func(t *testing.T) {
 		conformance.Source(t, func(t *testing.T) instruments.Source { return openBench(t).Source() }, simHooks)
 	})
+	t.Run("current source", func(t *testing.T) {
+		conformance.CurrentSource(t, func(t *testing.T) instruments.Source { return openBench(t).Source() }, simHooks)
+	})
 	t.Run("meter", func(t *testing.T) {
 		conformance.Meter(t, func(t *testing.T) instruments.Meter { return openBench(t).Meter() }, simHooks)
 	})

@@ -1,4 +1,5 @@
-// Package sim is a simulated bench that behaves like hardware: a DC voltage source,
+// Package sim is a simulated bench that behaves like hardware: a DC voltage (or
+// current) source,
 // a 6½-digit multimeter (DC voltage and current), a fixture holding an amplifier
 // card with trim DACs, and a relay multiplexer. The card is configurable (gain,
 // output at zero, rails, a voltage, 4–20 mA current or digitised output, one to 16
@@ -60,6 +61,19 @@
 // DUT input steps then). Like the DUT's settling it is worked out on the bench
 // clock whenever the bench is next read or driven, so it behaves the same on
 // simulated and on real time. Reset disarms it.
+//
+// Current mode (instruments.CurrentSource): SetCurrent(amps) puts the source in
+// current mode (|amps| ≤ current_range, 25 mA) and SetVoltageLimit(volts) sets
+// its compliance voltage (0 < volts ≤ 30 V; 10 V after reset); SetLevel returns it
+// to voltage mode, as Reset does (0 V, 0 A). When on in current mode it drives
+// i = amps·(1 + g) + o_i, g the same gain error as in voltage mode and o_i drawn
+// with the same draw as o, inside ±60 % of spec_ppm_range of current_range
+// (current_offset sets it), plus white noise current_noise (A rms) per reading.
+// Into a current-input card (input: current, below) the DUT amplifier's input is
+// i·input_resistance held within ±the compliance voltage; into a voltage-input
+// card (high impedance) it runs to the compliance voltage, of i's sign. A voltage
+// source into a current-input card is held to compliance·input_resistance. The
+// watchdog, when it runs out, programs 0 A as well as 0 V.
 //
 // # Meter
 //
@@ -169,6 +183,16 @@
 // converter (312.5 µV) and adc_bits its signed width (16). Example: y = 2.5031 V is
 // round(8009.92) = 8010 counts. The meter reads ≈ 0 on a reported card's output.
 //
+// # Input kinds
+//
+// input: voltage (the default) is a high-impedance input: the amplifier's input x
+// is the source's voltage. input: current is a current-loop receiver: the loop
+// current flows through a shunt of input_resistance (250 Ω) and x = I·R, the
+// rest of the card as above (gain per volt of x, input-referred settings in V of
+// x). Example: a 4–20 mA receiver reporting 1–5 V is input: current, gain: 1,
+// output_at_zero: 0 V; its ideal transfer is 250 V/A. With output: reported and
+// adc_lsb: 156.25 µV it reports 1600 count/mA.
+//
 // # Channels
 //
 // Channel 1 of any card is exactly the one-channel unit: its parameters are
@@ -273,7 +297,9 @@
 //	             start (RFC 3339, time.Now() at open)
 //	every model  latency (time per command, at most 10 s; 0 s)
 //	source       spec_ppm_reading (20), spec_ppm_range (5), range (100 mV),
-//	             noise (50 nV rms), gain_error (drawn), offset (drawn)
+//	             noise (50 nV rms), gain_error (drawn), offset (drawn),
+//	             current_range (25 mA), current_noise (2 nA rms),
+//	             current_offset (drawn)
 //	meter        spec_ppm_reading (30), spec_ppm_range (4), range (power-on range, 0 = auto = 10 V),
 //	             nplc (power-on, 1), line_frequency (50 Hz),
 //	             resolution (on the 10 V range, scales with range; 1 µV; 0 = none),
@@ -308,6 +334,8 @@
 //	             binary_offset), code_format (decimal|hex, decimal),
 //	             output (voltage|current|reported, voltage; current makes the
 //	             output-referred settings currents, see Output kinds),
+//	             input (voltage|current, voltage; see Input kinds),
+//	             input_resistance (the shunt of a current input; 250 Ω),
 //	             adc_lsb (312.5 µV), adc_bits (2..32; 16), channels (1..16; 1),
 //	             coef (none|gain|offset|both, none), coef_gain_format (Q2.14),
 //	             coef_gain_scale (int<bits>: 1e-4), coef_offset_format (float32),

@@ -65,6 +65,13 @@ type DUTSettings struct {
 	ADCBits  int     // bits of the converter (signed counts); 0 = DefaultADCBits (16)
 	Channels int     // channels of the card, 1..MaxChannels; 0 = 1
 
+	// Input is what the card's input takes: InputVoltage ("" too: a
+	// high-impedance voltage input) or InputCurrent (a loop current sensed
+	// across a shunt of InputResistance ohms, so the amplifier's input is I·R;
+	// every input-referred value and the gain per volt apply to that voltage).
+	Input           Input
+	InputResistance float64 // Ω, the shunt of a current input; 0 = DefaultInputResistance (250 Ω)
+
 	SupplyCurrent      float64 // A, nominal supply current of a unit; 0 = DefaultSupplyCurrent (1.2 mA)
 	SupplyCurrentSigma float64 // fraction, σ of a unit's supply current; 3 %
 
@@ -79,6 +86,18 @@ const (
 	OutputCurrent  Output = "current"  // a loop current (4–20 mA) the meter reads in FuncCurrent
 	OutputReported Output = "reported" // digitised by the card and answered by cmd_read in counts
 )
+
+// Input is the kind of a card's input.
+type Input string
+
+const (
+	InputVoltage Input = "voltage" // a high-impedance voltage input (the demo card)
+	InputCurrent Input = "current" // a loop current into a shunt: the amplifier sees I·R
+)
+
+// DefaultInputResistance is the shunt of a current-input card, in ohms: 4–20 mA
+// across it is 1–5 V.
+const DefaultInputResistance = 250.0
 
 // Defaults of a reported card's converter and of a unit's supply.
 const (
@@ -133,6 +152,8 @@ type card struct {
 	adcBits                                                    int
 	channels                                                   int
 	coef                                                       coefs // resolved correction; coef.use "" = none
+	input                                                      Input
+	inputOhms                                                  float64 // Ω, the shunt of a current input; 0 for a voltage input
 }
 
 // card resolves the design settings to the values the model uses.
@@ -185,6 +206,16 @@ func (s DUTSettings) card() card {
 		c.channels = 1
 	}
 	c.coef, _ = s.Coef.resolve(c.output) // checked by checkCard
+	c.input = s.Input
+	if c.input == "" {
+		c.input = InputVoltage
+	}
+	if c.input == InputCurrent {
+		c.inputOhms = s.InputResistance
+		if c.inputOhms == 0 {
+			c.inputOhms = DefaultInputResistance
+		}
+	}
 	if c.trim == "" {
 		c.trim = TrimBoth
 	}
@@ -254,6 +285,11 @@ type sourceConfig struct {
 	noise       float64  // V rms
 	gainError   *float64 // fraction
 	offset      *float64 // V
+
+	// Current mode (instruments.CurrentSource).
+	iRng    float64  // A, current range; 25 mA
+	iNoise  float64  // A rms; 2 nA
+	iOffset *float64 // A
 }
 
 type meterConfig struct {
@@ -296,6 +332,7 @@ func defaultConfig(model string) config {
 		model: model,
 		source: sourceConfig{
 			specReading: 20e-6, specRange: 5e-6, rng: 0.1, noise: 50e-9,
+			iRng: 25e-3, iNoise: 2e-9,
 		},
 		meter: meterConfig{
 			specReading: 30e-6, specRange: 4e-6, rng: 10, nplc: 1, lineFreq: 50,
@@ -563,6 +600,9 @@ func (c *sourceConfig) setters() map[string]setter {
 		"noise":            nonNegativeOf(&c.noise, units.Volt),
 		"gain_error":       overrideOf(&c.gainError, units.Ratio),
 		"offset":           overrideOf(&c.offset, units.Volt),
+		"current_range":    positiveOf(&c.iRng, units.Ampere),
+		"current_noise":    nonNegativeOf(&c.iNoise, units.Ampere),
+		"current_offset":   overrideOf(&c.iOffset, units.Ampere),
 	}
 }
 
@@ -743,6 +783,12 @@ func (s *DUTSettings) setters(offsetLSBSet *bool) map[string]setter {
 			}
 			return err
 		},
+		"input": func(k, val string) error {
+			v, err := choice(k, val, string(InputVoltage), string(InputCurrent))
+			s.Input = Input(v)
+			return err
+		},
+		"input_resistance":     positiveOf(&s.InputResistance, units.Ohm),
 		"supply_current":       positiveOf(&s.SupplyCurrent, units.Ampere),
 		"supply_current_sigma": nonNegativeOf(&s.SupplyCurrentSigma, units.Ratio),
 		"coef": func(k, val string) error {

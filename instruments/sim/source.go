@@ -10,9 +10,12 @@ import (
 	"trimline/instruments"
 )
 
-// Source is the simulated DC voltage source at sim://source. Its actual output is
-// level·(1 + GainError) + OffsetError when on, plus white noise per meter reading;
-// off, the DUT input is shorted to 0 V.
+// Source is the simulated DC source at sim://source. In voltage mode (after
+// reset, and after SetLevel) its actual output is level·(1 + GainError) +
+// OffsetError when on, plus white noise per meter reading; off, the DUT input is
+// shorted to 0 V. In current mode (after SetCurrent, instruments.CurrentSource)
+// it drives amps·(1 + GainError) + its current offset into the DUT input, the
+// voltage across it held within the compliance voltage (SetVoltageLimit).
 type Source struct {
 	wiring
 	rng        float64 // V, full-scale range; |level| must not exceed it
@@ -22,6 +25,14 @@ type Source struct {
 	level      float64 // V, programmed
 	on         bool
 	compliance float64 // A
+
+	// Current mode.
+	current    bool    // SetCurrent put the source in current mode
+	amps       float64 // A, programmed
+	iRng       float64 // A, current range; |amps| must not exceed it
+	iOffsetErr float64 // A
+	iNoise     float64 // A rms per reading
+	vLimit     float64 // V, compliance voltage
 
 	// The output watchdog: while armed, the output switches off and the level goes
 	// to 0 V at wdDeadline unless it is armed again before.
@@ -36,7 +47,15 @@ var (
 	_ instruments.Identifier  = (*Source)(nil)
 	_ instruments.Resetter    = (*Source)(nil)
 	_ instruments.ClockSource = (*Source)(nil)
+
+	_ instruments.CurrentSource = (*Source)(nil)
 )
+
+// defaultVoltageLimit is the source's compliance voltage after reset, in volts.
+const defaultVoltageLimit = 10.0
+
+// maxVoltageLimit is the largest compliance voltage the source accepts, in volts.
+const maxVoltageLimit = 30.0
 
 // defaultCompliance is the source's current limit after reset, in amperes.
 const defaultCompliance = 10e-3
@@ -54,6 +73,10 @@ func newSource(b *Bench, c config) *Source {
 		offsetErr:  uOfs * c.source.specRange * c.source.rng,
 		noise:      c.source.noise,
 		compliance: defaultCompliance,
+		iRng:       c.source.iRng,
+		iOffsetErr: uOfs * c.source.specRange * c.source.iRng, // the same draw: voltage benches are unchanged
+		iNoise:     c.source.iNoise,
+		vLimit:     defaultVoltageLimit,
 	}
 	if c.source.gainError != nil {
 		s.gainErr = *c.source.gainError
@@ -61,17 +84,56 @@ func newSource(b *Bench, c config) *Source {
 	if c.source.offset != nil {
 		s.offsetErr = *c.source.offset
 	}
+	if c.source.iOffset != nil {
+		s.iOffsetErr = *c.source.iOffset
+	}
 	return s
 }
 
 var errSourceClosed = errors.New("sim source: closed")
 
-// actual returns the noiseless voltage at the output terminals in V (0 when off).
+// actual returns the noiseless voltage at the output terminals in V (0 when off)
+// in voltage mode.
 func (s *Source) actual() float64 {
 	if !s.on {
 		return 0
 	}
 	return s.level*(1+s.gainErr) + s.offsetErr
+}
+
+// into returns the noiseless voltage the source puts across a DUT input of
+// resistance ohms (0: a high-impedance voltage input), 0 when off. In voltage
+// mode it is the output voltage, held down so that the current stays within the
+// compliance; in current mode the current times the resistance, held within the
+// compliance voltage (into a high-impedance input the voltage runs to it).
+func (s *Source) into(ohms float64) float64 {
+	if !s.on {
+		return 0
+	}
+	if !s.current {
+		v := s.actual()
+		if ohms > 0 && math.Abs(v) > s.compliance*ohms {
+			v = math.Copysign(s.compliance*ohms, v)
+		}
+		return v
+	}
+	i := s.amps*(1+s.gainErr) + s.iOffsetErr
+	if ohms == 0 {
+		if i == 0 {
+			return 0
+		}
+		return math.Copysign(s.vLimit, i)
+	}
+	return max(-s.vLimit, min(s.vLimit, i*ohms))
+}
+
+// noiseInto is the rms noise in V per reading the source adds across a DUT
+// input of resistance ohms (0: high impedance), as into.
+func (s *Source) noiseInto(ohms float64) float64 {
+	if !s.current {
+		return s.noise
+	}
+	return s.iNoise * ohms
 }
 
 // Errors returns the source's gain error (fraction) and offset error (V): actual =
@@ -105,9 +167,64 @@ func (s *Source) SetLevel(ctx context.Context, volts float64) error {
 	if err := s.start(ctx, "set level", invalid); err != nil {
 		return err
 	}
+	s.current = false
 	s.drive(s.on, volts)
 	return nil
 }
+
+// SetCurrent programs the output current in amperes (|amps| ≤ the current
+// range, 25 mA by default) and puts the source in current mode. When the
+// output is on, the DUT input steps at this instant.
+func (s *Source) SetCurrent(ctx context.Context, amps float64) error {
+	var invalid error
+	if math.IsNaN(amps) || math.IsInf(amps, 0) || math.Abs(amps) > s.iRng {
+		invalid = fmt.Errorf("sim source: current %g A outside the ±%g A range", amps, s.iRng)
+	}
+	s.bench.mu.Lock()
+	defer s.bench.mu.Unlock()
+	if err := s.start(ctx, "set current", invalid); err != nil {
+		return err
+	}
+	old := s.bench.inputs()
+	s.current, s.amps = true, amps
+	s.bench.inputsChanged(s.bench.clock.Now(), old)
+	return nil
+}
+
+// SetVoltageLimit sets the compliance voltage of current mode in volts
+// (0 < volts ≤ 30 V).
+func (s *Source) SetVoltageLimit(ctx context.Context, volts float64) error {
+	var invalid error
+	if !(volts > 0 && volts <= maxVoltageLimit) {
+		invalid = fmt.Errorf("sim source: compliance voltage %g V outside 0 < V ≤ %g V", volts, maxVoltageLimit)
+	}
+	s.bench.mu.Lock()
+	defer s.bench.mu.Unlock()
+	if err := s.start(ctx, "set voltage limit", invalid); err != nil {
+		return err
+	}
+	old := s.bench.inputs()
+	s.vLimit = volts
+	s.bench.inputsChanged(s.bench.clock.Now(), old)
+	return nil
+}
+
+// CurrentState returns whether the source is in current mode, the programmed
+// current in amperes and the compliance voltage in volts, for tests.
+func (s *Source) CurrentState() (current bool, amps, voltageLimit float64) {
+	s.bench.mu.Lock()
+	defer s.bench.mu.Unlock()
+	s.bench.watchdog()
+	return s.current, s.amps, s.vLimit
+}
+
+// CurrentErrors returns the source's current offset in amperes (the gain error
+// is Errors' gain): actual = programmed·(1 + gain) + offset.
+func (s *Source) CurrentErrors() (offset float64) { return s.iOffsetErr }
+
+// CurrentRange returns the source's current range in amperes (25 mA by
+// default); SetCurrent refuses a current beyond it.
+func (s *Source) CurrentRange() float64 { return s.iRng }
 
 // SetOutput switches the output on or off. Switching off always succeeds, also on a
 // closed source or a done ctx.
@@ -150,8 +267,8 @@ func (s *Source) Compliance() float64 {
 	return s.compliance
 }
 
-// Reset puts the source in its safe state: output off, level 0 V, compliance 10 mA,
-// output watchdog disarmed.
+// Reset puts the source in its safe state: output off, voltage mode, level 0 V
+// and 0 A, compliance 10 mA and 10 V, output watchdog disarmed.
 func (s *Source) Reset(ctx context.Context) error {
 	s.bench.mu.Lock()
 	defer s.bench.mu.Unlock()
@@ -159,6 +276,7 @@ func (s *Source) Reset(ctx context.Context) error {
 		return err
 	}
 	s.drive(false, 0)
+	s.current, s.amps, s.vLimit = false, 0, defaultVoltageLimit
 	s.compliance = defaultCompliance
 	s.wdArmed = false
 	return nil
@@ -220,7 +338,7 @@ func (s *Source) expire(now time.Time) {
 		s.wdTrips++
 	}
 	old := s.bench.inputs()
-	s.on, s.level = false, 0
+	s.on, s.level, s.amps = false, 0, 0
 	s.bench.inputsChanged(s.wdDeadline, old)
 }
 

@@ -532,6 +532,10 @@ func TestTraceabilityByKind(t *testing.T) {
 		t.Error("the certificate says no reference instrument is recorded")
 	}
 
+	// A current source is a reference instrument too.
+	rec.Instruments[0].Kind = sequencer.CurrentSource
+	requireText(t, pdfText(t, render(t, rec, opt)), statement)
+
 	old := sampleRecord() // no kinds: the roles are named source, meter and dut
 	requireText(t, pdfText(t, render(t, old, opt)), "through the reference instruments EQ-0142 (source, Fictive Metrology DCV-20")
 }

@@ -75,7 +75,7 @@ func (d *doc) overdue(in sequencer.InstrumentRef) bool {
 func (d *doc) traceability() string {
 	var refs, gaps []string
 	for _, in := range d.rec.Instruments {
-		if k := in.RoleKind(); k != sequencer.VoltageSource && k != sequencer.VoltMeter {
+		if k := in.RoleKind(); k != sequencer.VoltageSource && k != sequencer.CurrentSource && k != sequencer.VoltMeter {
 			continue
 		}
 		desc := in.Role

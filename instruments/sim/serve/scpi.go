@@ -263,10 +263,71 @@ func onOff(b bool) string {
 func newSourceHandler(src *sim.Source) *scpiInstrument {
 	s := &scpiInstrument{identify: src.Identify, trips: func() int { _, _, n := src.Watchdog(); return n }}
 	rng := src.Range()
+	// The function (SOUR:FUNC VOLT|CURR; VOLT after reset) and the current
+	// programmed with SOUR:CURR, which drives the output only in CURR.
+	fnCurrent, amps := false, 0.0
 	s.reset = func(ctx context.Context) error {
 		rng = src.Range()
+		fnCurrent, amps = false, 0
 		return src.Reset(ctx)
 	}
+	s.add("[SOURce] FUNCtion [MODE]", func(ctx context.Context, a []string) string {
+		if len(a) != 1 {
+			return errMissingParam
+		}
+		switch strings.ToUpper(a[0]) {
+		case "CURR", "CURRENT":
+			if err := src.SetCurrent(ctx, amps); err != nil {
+				return errOutOfRange
+			}
+			fnCurrent = true
+		case "VOLT", "VOLTAGE":
+			_, level := src.State()
+			if err := src.SetLevel(ctx, level); err != nil {
+				return errOutOfRange
+			}
+			fnCurrent = false
+		default:
+			return errIllegalValue
+		}
+		return ""
+	}, func(ctx context.Context, a []string) (string, string) {
+		if fnCurrent {
+			return "CURR", noArgs(a)
+		}
+		return "VOLT", noArgs(a)
+	})
+	s.add("[SOURce] CURRent [LEVel] [IMMediate] [AMPLitude]", func(ctx context.Context, a []string) string {
+		v, e := number(a)
+		if e != "" {
+			return e
+		}
+		if math.Abs(v) > src.CurrentRange()*(1+1e-9) {
+			return errOutOfRange
+		}
+		if fnCurrent {
+			if err := src.SetCurrent(ctx, v); err != nil {
+				return errOutOfRange
+			}
+		}
+		amps = v
+		return ""
+	}, func(ctx context.Context, a []string) (string, string) {
+		return formatNumber(amps), noArgs(a)
+	})
+	s.add("[SOURce] VOLTage PROTection [LEVel]", func(ctx context.Context, a []string) string {
+		v, e := number(a)
+		if e != "" {
+			return e
+		}
+		if err := src.SetVoltageLimit(ctx, v); err != nil {
+			return errOutOfRange
+		}
+		return ""
+	}, func(ctx context.Context, a []string) (string, string) {
+		_, _, limit := src.CurrentState()
+		return formatNumber(limit), noArgs(a)
+	})
 	s.add("[SOURce] VOLTage RANGe", func(ctx context.Context, a []string) string {
 		v, e := number(a)
 		if e != "" {

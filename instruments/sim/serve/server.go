@@ -27,13 +27,19 @@
 // 100 mV by default; the level must stay within it);
 // [SOURce:]VOLTage[:LEVel][:IMMediate][:AMPLitude] <V> and ?;
 // [SOURce:]CURRent:PROTection[:LEVel] <A> and ? (0 < A ≤ 100 mA);
+// [SOURce:]FUNCtion[:MODE] VOLTage|CURRent and ? (VOLT or CURR: what the output
+// drives; CURR puts the sim source in current mode at the programmed current);
+// [SOURce:]CURRent[:LEVel][:IMMediate][:AMPLitude] <A> and ? (|A| ≤ the sim
+// current range, 25 mA by default; it drives the output only in CURR);
+// [SOURce:]VOLTage:PROTection[:LEVel] <V> and ? (the compliance voltage of
+// current mode, 0 < V ≤ 30 V);
 // OUTPut[:STATe] ON|OFF|1|0 and ? (1 or 0);
 // OUTPut:WATChdog[:TIMe] <s>|0|OFF and ? (the output watchdog, sim.Source.ArmWatchdog:
 // a time arms it or restarts it, 0 < s ≤ 3600; 0 or OFF disarms it; the query
 // answers the armed time, 0 when disarmed). When the watchdog runs out with the
 // output on, the source switches it off, programs 0 V and queues
-// +301,"Output watchdog ran out: output off, 0 V". *RST: output off, 0 V, 10 mA,
-// full range, watchdog disarmed.
+// +301,"Output watchdog ran out: output off, 0 V". *RST: output off, FUNC VOLT,
+// 0 V and 0 A, 10 mA and 10 V, full range, watchdog disarmed.
 //
 // Meter (sim.Meter): CONFigure[:VOLTage][:DC] [<range V>|AUTO|DEF] (selects DC
 // voltage; no value, AUTO or DEF: autorange, which is the 10 V range);
