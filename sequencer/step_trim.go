@@ -226,13 +226,22 @@ func (s *trimStep) Run(ctx context.Context, u *Unit) error {
 		}
 		before[i] = c
 	}
-	sol, err := ComputeTrim(s.plan, fk.a.sum.Slope, fk.a.sum.Intercept, before, seq.IdealGain, seq.IdealOffset)
+	// A fit made after a coefficients step is of the corrected output, k·raw + m,
+	// and a DAC moves the raw output: the trim solves on the raw line, where a
+	// code's step is the DAC's own (with k ≠ 1 the corrected step is k·LSB).
+	k, m := coefInEffect(u)
+	sol, err := ComputeTrim(s.plan, fk.a.sum.Slope/k, (fk.a.sum.Intercept-m)/k, before, seq.IdealGain/k, (seq.IdealOffset-m)/k)
 	if err != nil {
 		u.Fail("cannot compute trim codes: " + err.Error())
 		u.End("cannot compute trim: " + err.Error())
 		return nil
 	}
 	idealU := idealCodeU(s.plan, fk.a, sol, before)
+	for i, d := range s.plan.DACs {
+		if d.Adjusts != AdjustGain {
+			idealU[i] /= math.Abs(k) // the intercept's uncertainty, on the raw line
+		}
+	}
 	var sat []string
 	for i, d := range dacs {
 		t, c := trimEntry(u, d.Name), sol.Codes[i]
@@ -268,6 +277,29 @@ func (s *trimStep) Run(ctx context.Context, u *Unit) error {
 		u.SetCode(d.Name, sol.Codes[i].Code)
 	}
 	return nil
+}
+
+// coefInEffect is the firmware correction the unit applies on the running
+// step's channel, corrected = k·raw + m (m in the response's SI unit): the last
+// value encoded for each coefficient by clear_trim or a coefficients step (a
+// failed encoding or write ends the run first), else no correction (k = 1, m = 0).
+func coefInEffect(u *Unit) (k, m float64) {
+	k = 1
+	for _, w := range u.Rec.Coefficients {
+		if w.Channel != u.Channel() || w.Text == "" {
+			continue
+		}
+		c, ok := u.seq.Coefficient(w.Adjusts)
+		if !ok || c.Name != w.Name {
+			continue
+		}
+		if w.Adjusts == AdjustGain {
+			k = w.Value
+		} else {
+			m = w.Value * c.UnitSI
+		}
+	}
+	return k, m
 }
 
 // idealCodeU propagates the fit's uncertainty to the exact codes, to first order:
