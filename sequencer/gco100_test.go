@@ -4,7 +4,9 @@ import (
 	"context"
 	"fmt"
 	"math"
+	"os"
 	"path/filepath"
+	"strings"
 	"testing"
 
 	"trimline/sequencer"
@@ -104,5 +106,58 @@ func TestGainCoefficientWithOffsetDAC(t *testing.T) {
 	// miss by ≈ (k − 1)·(k·c − Y0): GCO-0009, k = 1.0081 and 19.3 mV, by ≈ 150 µV.
 	if steep == 0 {
 		t.Error("no unit's coefficient moves the DAC's step by more than 2 LSB over its trim: the test no longer shows the trim takes k into account")
+	}
+}
+
+// The trim may also take its code from the as-found fit, made before the
+// coefficient: it then brings the raw line (k = 1 when it was measured) to the
+// ideal under the coefficient written since, (Y0 − m)/k at zero input, and the
+// corrected output lands as close as from a fit of the corrected unit: within
+// 2 LSB at 0 V open loop (the bound of TestGainCoefficientWithOffsetDAC, with the
+// as-found intercept in place of the corrected one). Read with the coefficient
+// now, the raw intercept would be off by Y0·(1/k − 1), 2.5 V·0.8 % = 20 mV on
+// GCO-0009; left out, the corrected output would be off by Y0·(k − 1) as much.
+func TestTrimFromFitBeforeCoefficient(t *testing.T) {
+	const lsb = 25e-6
+	dir := filepath.Join("testdata", "gco100")
+	data, err := os.ReadFile(filepath.Join(dir, "gco100-sequence.yaml"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	text := string(data)
+	second := text[strings.Index(text, "  - kind: sweep                  # the coefficient scales"):strings.Index(text, "  - kind: trim")]
+	if !strings.Contains(second, "name: corrected fit") {
+		t.Fatalf("the second sweep and fit are not where the test expects them: %q", second)
+	}
+	text = strings.Replace(text, second, "", 1)
+	text = strings.Replace(text, "fit: corrected fit", "fit: as found fit", 1)
+	seq, err := sequencer.ParseSequence(filepath.Join(dir, "gco100-sequence.yaml"), []byte(text), os.ReadFile)
+	if err != nil {
+		t.Fatal(err)
+	}
+	st, err := sequencer.LoadStation(filepath.Join(dir, "gco100-station.yaml"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	cfg := sequencer.Config{Station: st, Sequence: seq, Operator: "test", Software: "test"}
+	e := openEngine(t, st, seq)
+	for _, serial := range []string{"GCO-0001", "GCO-0002", "GCO-0009"} {
+		rec := e.Run(context.Background(), serial)
+		if rec.Verdict != sequencer.Pass {
+			t.Errorf("%s: verdict %s, want PASS; fault %q, reasons %q", serial, rec.Verdict, rec.Fault, rec.Reasons)
+			continue
+		}
+		if len(rec.Retrims) == 0 {
+			t.Errorf("%s: no re-trim pass recorded", serial)
+		} else if e1 := rec.Retrims[0].Error; math.Abs(e1) > 2*lsb {
+			t.Errorf("%s: the trim from the as-found fit left %.1f µV at 0 V, want within 2 LSB (50 µV)", serial, e1*1e6)
+		}
+		again, err := sequencer.Replay(cfg, rec)
+		if err != nil {
+			t.Fatalf("%s: replay: %v", serial, err)
+		}
+		if d := sequencer.Differences(rec, again); len(d) > 0 {
+			t.Errorf("%s: replay differs: %v", serial, d)
+		}
 	}
 }
