@@ -132,14 +132,18 @@ type trimStep struct {
 	order []string // the order of Results' keys when not read from a file
 	plan  TrimPlan
 	names []string // result name of each plan DAC
+	// atFit names the steps before the fit's sweep that write coefficients
+	// (clear_trim, coefficients): their last words are the correction the fit
+	// was measured under. Empty when none; nil when the sweep is not found.
+	atFit map[string]bool
 }
 
 func (s *trimStep) Check(c *Checker) {
 	c.SetStage(Adjustment)
 	if s.Fit == "" {
 		c.Errorf("", "missing required key \"fit\" (the name of an earlier fit step whose line the codes correct)")
-	} else {
-		c.Earlier("fit", s.Fit, "fit")
+	} else if d := c.Earlier("fit", s.Fit, "fit"); d != nil {
+		s.atFit = coefStepsBefore(c, d)
 	}
 	s.plan = TrimPlan{DACs: dacsOf(c, "dacs", s.DACs), Pivot: c.Sequence().IdealOffset}
 	if q := s.Pivot; q != nil {
@@ -176,6 +180,25 @@ func (s *trimStep) Check(c *Checker) {
 			}
 		}
 	}
+}
+
+// coefStepsBefore names the steps that write coefficients before the sweep of
+// fit, or returns nil when that sweep is not an earlier step (the fit reports it).
+func coefStepsBefore(c *Checker, fit *StepDecl) map[string]bool {
+	fs, ok := fit.Step.(*fitStep)
+	if !ok {
+		return nil
+	}
+	out := map[string]bool{}
+	for _, d := range c.earlier {
+		if d.Name == fs.Sweep {
+			return out
+		}
+		if d.Kind == "clear_trim" || d.Kind == "coefficients" {
+			out[d.Name] = true
+		}
+	}
+	return nil
 }
 
 func slicesContainsDAC(ds []DAC, name string) bool {
@@ -226,13 +249,24 @@ func (s *trimStep) Run(ctx context.Context, u *Unit) error {
 		}
 		before[i] = c
 	}
-	sol, err := ComputeTrim(s.plan, fk.a.sum.Slope, fk.a.sum.Intercept, before, seq.IdealGain, seq.IdealOffset)
+	// The unit's firmware corrects the output, corrected = k·raw + m, and a DAC
+	// moves the raw output (its corrected step is k·LSB). The trim solves on the
+	// raw line: the fit's line under the correction its sweep was measured with,
+	// brought to the ideal under the correction the unit holds now.
+	kf, mf := coefInEffect(u, s.atFit)
+	k, m := coefInEffect(u, nil)
+	sol, err := ComputeTrim(s.plan, fk.a.sum.Slope/kf, (fk.a.sum.Intercept-mf)/kf, before, seq.IdealGain/k, (seq.IdealOffset-m)/k)
 	if err != nil {
 		u.Fail("cannot compute trim codes: " + err.Error())
 		u.End("cannot compute trim: " + err.Error())
 		return nil
 	}
 	idealU := idealCodeU(s.plan, fk.a, sol, before)
+	for i, d := range s.plan.DACs {
+		if d.Adjusts != AdjustGain {
+			idealU[i] /= math.Abs(kf) // the intercept's uncertainty, on the raw line
+		}
+	}
 	var sat []string
 	for i, d := range dacs {
 		t, c := trimEntry(u, d.Name), sol.Codes[i]
@@ -268,6 +302,31 @@ func (s *trimStep) Run(ctx context.Context, u *Unit) error {
 		u.SetCode(d.Name, sol.Codes[i].Code)
 	}
 	return nil
+}
+
+// coefInEffect is the firmware correction the unit applies on the running
+// step's channel, corrected = k·raw + m (m in the response's SI unit): the last
+// value encoded for each coefficient by clear_trim or a coefficients step (a
+// failed encoding or write ends the run first), else no correction (k = 1, m = 0).
+// With only non-nil, just the writes of the steps it names count: the correction
+// in effect at an earlier point of the run.
+func coefInEffect(u *Unit, only map[string]bool) (k, m float64) {
+	k = 1
+	for _, w := range u.Rec.Coefficients {
+		if w.Channel != u.Channel() || w.Text == "" || (only != nil && !only[w.Step]) {
+			continue
+		}
+		c, ok := u.seq.Coefficient(w.Adjusts)
+		if !ok || c.Name != w.Name {
+			continue
+		}
+		if w.Adjusts == AdjustGain {
+			k = w.Value
+		} else {
+			m = w.Value * c.UnitSI
+		}
+	}
+	return k, m
 }
 
 // idealCodeU propagates the fit's uncertainty to the exact codes, to first order:

@@ -114,3 +114,20 @@ func TestCheckNamedRolesOnGenericDrivers(t *testing.T) {
 		t.Fatalf("exit %d\n%s\n%s", code, out, errOut)
 	}
 }
+
+// The GCO-100 (sequencer/testdata/gco100: a gain coefficient and an offset trim
+// DAC on one card) checks clean as a folder: its three files load, its roles and
+// levels meet the station, and each judged result's TUR is at least 4:1.
+func TestCheckCoefficientWithTrimDAC(t *testing.T) {
+	dir := filepath.Join("..", "..", "sequencer", "testdata", "gco100")
+	now := time.Date(2027, 1, 4, 9, 0, 0, 0, time.UTC)
+	code, out, errOut := runCLIAt(t, now, "check", dir)
+	if code != 0 || strings.Contains(out, "below the minimum") {
+		t.Fatalf("exit %d\n%s\n%s", code, out, errOut)
+	}
+	for _, want := range []string{"gco100-sequence.yaml (sequence)", "gco100-station.yaml (station)", "gco100-limits.yaml (limits)", "offset after trim", "gain after correction"} {
+		if !strings.Contains(out, want) {
+			t.Errorf("check's output lacks %q:\n%s", want, out)
+		}
+	}
+}
