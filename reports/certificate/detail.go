@@ -296,13 +296,13 @@ func (d *doc) errPoints(s *sequencer.Sweep) []xy {
 }
 
 // plotLook is how the plots draw the sweeps of a stage: title, legend label,
-// colour and marker.
-func plotLook(st stage) (title, label string, c pdfdoc.Color, marker int) {
+// colour and marker. adjust names the adjustment: "trim" or "correction".
+func plotLook(st stage, adjust string) (title, label string, c pdfdoc.Color, marker int) {
 	switch st {
 	case stageFound:
-		return "Before trim, as found", "before trim", colPre, markerCircle
+		return "Before " + adjust + ", as found", "before " + adjust, colPre, markerCircle
 	case stageLeft:
-		return "After trim, as left", "after trim", colPost, markerSquare
+		return "After " + adjust + ", as left", "after " + adjust, colPost, markerSquare
 	}
 	return "Sweep, stage not declared", "sweep", pdfdoc.Ink, markerCircle
 }
@@ -315,7 +315,7 @@ func (d *doc) plotSeries() (ss []series, h float64) {
 		if !curve(sw) {
 			continue
 		}
-		title, label, c, m := plotLook(certStage(sw.StageOf()))
+		title, label, c, m := plotLook(certStage(sw.StageOf()), d.adjustNoun())
 		if sw.Channel != "" {
 			title += " · " + chanWord(sw.Channel)
 		}

@@ -11,8 +11,13 @@ import (
 
 // trims is the table of trim codes written to the unit; with channels, a first
 // column names each code's channel (a unit of four channels with one or two
-// DACs each reads better so than in bands of a row or two).
+// DACs each reads better so than in bands of a row or two). A unit corrected by
+// firmware coefficients alone has no trim DAC: the section is left out rather
+// than saying "none recorded" of codes it could never have.
 func (d *doc) trims() {
+	if d.byCoefficients() {
+		return
+	}
 	cols := []pdfdoc.Column{
 		{Title: "Trim DAC", W: 30, Align: "L"},
 		{Title: "Code before", W: 24, Align: "R"},

@@ -1,0 +1,186 @@
+package certificate
+
+import (
+	"bytes"
+	"os"
+	"os/exec"
+	"path/filepath"
+	"strconv"
+	"strings"
+	"testing"
+
+	"trimline/sequencer"
+)
+
+// These tests hold the certificate to what a quality engineer reads on the
+// products that are adjusted by other means than trim DACs, or measure other
+// quantities than volts (issue 14).
+
+// loopCoefRecord is a 4–20 mA loop transmitter corrected by firmware
+// coefficients alone: a clear step that found the factory words (gain 4000 in
+// Q2.14, offset 0000 in Q4.12 mA) and wrote no correction, then a correction
+// step that wrote the fit's values. Hand-worked: 0.9945032 in Q2.14 is
+// round(0.9945032 × 16384) = 16294 = 0x3FA6, which stands for
+// 16294/16384 = 0.99450684; 0.0561252 mA in Q4.12 is round(0.0561252 × 4096)
+// = 230 = 0x00E6, standing for 230/4096 = 0.05615234 mA.
+func loopCoefRecord() *sequencer.Record {
+	return &sequencer.Record{
+		ResponseUnit: "A", IdealGain: 0.32, IdealOffset: 4e-3, FullScale: 16e-3,
+		Steps: []sequencer.StepRun{
+			{Name: "clear correction", Kind: "clear_trim", Stage: sequencer.AsFound, Status: sequencer.StepDone},
+			{Name: "correction", Kind: "coefficients", Stage: sequencer.Adjustment, Status: sequencer.StepDone},
+		},
+		Coefficients: []sequencer.CoefficientWrite{
+			{Step: "clear correction", Name: "gain", Adjusts: "gain", Format: "Q2.14 hex", Ideal: 1, Value: 1, Text: "4000",
+				Resolution: 1.0 / 16384, Written: true, Readback: "4000", ReadbackValue: 1, Match: true, Found: "4000", FoundValue: 1},
+			{Step: "clear correction", Name: "offset", Adjusts: "offset", Format: "Q4.12 hex", Unit: "mA", Ideal: 0, Value: 0, Text: "0000",
+				Resolution: 1.0 / 4096, Written: true, Readback: "0000", Match: true, Found: "0000"},
+			{Step: "correction", Name: "gain", Adjusts: "gain", Format: "Q2.14 hex", Ideal: 0.9945032, IdealU: 0.000115, Value: 16294.0 / 16384,
+				Text: "3FA6", Resolution: 1.0 / 16384, Written: true, Readback: "3FA6", ReadbackValue: 16294.0 / 16384, Match: true},
+			{Step: "correction", Name: "offset", Adjusts: "offset", Format: "Q4.12 hex", Unit: "mA", Ideal: 0.0561252, IdealU: 0.00115, Value: 230.0 / 4096,
+				Text: "00E6", Resolution: 1.0 / 4096, Written: true, Readback: "00E6", ReadbackValue: 230.0 / 4096, Match: true},
+		},
+	}
+}
+
+// A unit with coefficients and no trim DAC has no trim codes to list: the
+// section is left out, and the transfer it meets is what it was corrected to.
+// A unit with trim codes keeps both.
+func TestTrimSectionOnlyWithTrimDACs(t *testing.T) {
+	d := &doc{rec: loopCoefRecord()}
+	if !d.byCoefficients() || d.adjustedWord() != "Corrected to" || d.adjustNoun() != "correction" {
+		t.Errorf("coefficients alone: byCoefficients %v, %q, %q", d.byCoefficients(), d.adjustedWord(), d.adjustNoun())
+	}
+	withTrim := loopCoefRecord()
+	withTrim.Trims = []sequencer.TrimCode{{DAC: "offset", Code: 2100, Written: true}}
+	d = &doc{rec: withTrim}
+	if d.byCoefficients() || d.adjustedWord() != "Trimmed to" || d.adjustNoun() != "trim" {
+		t.Errorf("with a trim DAC: byCoefficients %v, %q, %q", d.byCoefficients(), d.adjustedWord(), d.adjustNoun())
+	}
+	d = &doc{rec: &sequencer.Record{}}
+	if d.byCoefficients() || d.adjustedWord() != "Trimmed to" {
+		t.Error("a record with neither reads as it always did")
+	}
+
+	text := flatText(t, loopCoefRecord())
+	if text == "" {
+		return
+	}
+	if strings.Contains(text, "Trim codes written") {
+		t.Error("the certificate lists trim codes for a unit without trim DACs")
+	}
+	if !strings.Contains(text, "Corrected to output = 320 mA/V × input + 4 mA") {
+		t.Error("the ideal transfer is not labelled \"Corrected to\"")
+	}
+	if got := flatText(t, withTrim); got != "" && !strings.Contains(got, "Trim codes written") {
+		t.Error("a unit with a trim DAC lost its trim codes")
+	}
+}
+
+// The clear step's rows and the correction step's stand in bands of their
+// own, the clear step's saying what the unit held as found.
+func TestCoefficientsBandedByStep(t *testing.T) {
+	d := &doc{rec: loopCoefRecord()}
+	_, rows, bands := d.coefficientTable()
+	wantBands := "0: Step “clear correction”: as found, then no correction written; 2: Step “correction”: correction from the fit"
+	var got []string
+	for _, b := range bands {
+		got = append(got, strings.Join([]string{itoa(b.At), b.Title}, ": "))
+	}
+	if strings.Join(got, "; ") != wantBands {
+		t.Errorf("bands:\n got %s\nwant %s", strings.Join(got, "; "), wantBands)
+	}
+	want := []string{
+		// Found 4000 = 16384/16384 = 1, to one decimal finer than 6.1e-5: 1.000000.
+		"gain | adjusts gain ‖ Q2.14 hex ‖ found 1.000000 (4000) | then no correction ‖ 4000 ‖ 1.000000 ‖ 6.104e−05 ‖ 4000 ‖ yes",
+		// Zero is exact: "0", whatever the format's spacing; the word "0000" reads
+		// as that number, so it is not repeated.
+		"offset | adjusts offset, in mA ‖ Q4.12 hex ‖ found 0 | then no correction ‖ 0000 ‖ 0 ‖ 0.0002441 ‖ 0000 ‖ yes",
+		"gain | adjusts gain ‖ Q2.14 hex ‖ 0.99450 ± 0.00012 ‖ 3FA6 ‖ 0.994507 ‖ 6.104e−05 ‖ 3FA6 ‖ yes",
+		"offset | adjusts offset, in mA ‖ Q4.12 hex ‖ 0.0561 ± 0.0012 ‖ 00E6 ‖ 0.05615 ‖ 0.0002441 ‖ 00E6 ‖ yes",
+	}
+	for i, r := range rows {
+		if got := rowText(r); i >= len(want) || got != want[i] {
+			t.Errorf("row %d:\n got %s\nwant %s", i, got, want[min(i, len(want)-1)])
+		}
+	}
+
+	// On four channels, a band per channel and step.
+	rec := loopCoefRecord()
+	var cs []sequencer.CoefficientWrite
+	for _, ch := range []string{"1", "2"} {
+		for _, c := range rec.Coefficients {
+			c.Channel = ch
+			cs = append(cs, c)
+		}
+	}
+	rec.Coefficients = cs
+	_, _, bands = (&doc{rec: rec}).coefficientTable()
+	if got := strings.Join(bandTitles(bands), "; "); got != "Channel 1 · step “clear correction”: as found, then no correction written; "+
+		"Channel 1 · step “correction”: correction from the fit; "+
+		"Channel 2 · step “clear correction”: as found, then no correction written; "+
+		"Channel 2 · step “correction”: correction from the fit" {
+		t.Errorf("channel bands: %s", got)
+	}
+}
+
+// A float32 zero has a spacing of 1.4e-45 there; it prints "0", not fifteen
+// zeros.
+func TestFmtCoefZero(t *testing.T) {
+	for _, c := range []struct {
+		v, res float64
+		want   string
+	}{
+		{0, 1.401298464324817e-45, "0"},
+		{0, 1.0 / 4096, "0"},
+		{13.530056953430176, 9.5367431640625e-07, "13.53005695"}, // ceil(6.02) + 1 = 8 decimals
+		{-0.013, 1e-4, "−0.01300"},
+	} {
+		if got := fmtCoef(c.v, c.res); got != c.want {
+			t.Errorf("fmtCoef(%g, %g) = %q, want %q", c.v, c.res, got, c.want)
+		}
+	}
+	for _, c := range []struct {
+		w    string
+		v    float64
+		want string
+	}{
+		{"4000", 1, "1.000000 (4000)"},
+		{"1", 1, "1.000000"},
+		{"0", 0, "0"},
+		{"", 0, "not read"},
+		{"ERR", 0, "ERR"},
+	} {
+		cw := sequencer.CoefficientWrite{Found: c.w, FoundValue: c.v, Resolution: 1.0 / 16384}
+		if got := fmtFound(cw); got != c.want {
+			t.Errorf("fmtFound(%q, %g) = %q, want %q", c.w, c.v, got, c.want)
+		}
+	}
+}
+
+func itoa(n int) string { return strconv.Itoa(n) }
+
+// flatText renders rec and returns its text (pdftotext, reading order) with
+// white space collapsed, or "" when pdftotext is not installed, so that a
+// test checks its rows without a PDF tool and its page text with one.
+func flatText(t *testing.T, rec *sequencer.Record) string {
+	t.Helper()
+	bin, err := exec.LookPath("pdftotext")
+	if err != nil {
+		t.Log("pdftotext not installed: page text not checked")
+		return ""
+	}
+	var buf bytes.Buffer
+	if err := Write(&buf, rec, Options{Number: "TL9-000001"}); err != nil {
+		t.Fatal(err)
+	}
+	in := filepath.Join(t.TempDir(), "c.pdf")
+	if err := os.WriteFile(in, buf.Bytes(), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	out, err := exec.Command(bin, "-enc", "UTF-8", in, "-").Output()
+	if err != nil {
+		t.Fatalf("pdftotext: %v", err)
+	}
+	return strings.Join(strings.Fields(string(out)), " ")
+}
