@@ -66,6 +66,9 @@ func (d *doc) statements() ([]pdfdoc.Column, []pdfdoc.Row) {
 			continue
 		}
 		about := stageWord(outcomeStage(d.rec, o))
+		if dd.Result != "" && about == "—" && d.rec.ResultStage(dd.Result) == sequencer.Adjustment {
+			about = "adjustment"
+		}
 		if ch := outcomeChannel(o); ch != "" {
 			about += " · " + chanWord(ch)
 		}
@@ -102,10 +105,14 @@ func (d *doc) otherResults() ([]pdfdoc.Column, []pdfdoc.Row, []pdfdoc.Band) {
 			st = pdfdoc.Body.With(pdfdoc.Muted)
 		}
 		note := r.Note
-		if r.Valid && finite(r.Value) && r.Unit != "code" {
+		if r.Valid && finite(r.Value) && !exact(r) {
 			note = strings.TrimSpace(uncLine(r.Unc.Expanded, r.Unc.K, r.Unc.DOF, r.Unc.Method) + "   " + note)
 		}
-		rows = append(rows, pdfdoc.Row{c1(r.Name, pdfdoc.Bold), c1(stageWord(stageOf(d.rec, r.Name)), pdfdoc.Body), c1(fmtResultU(r), st), c1(note, pdfdoc.Small)})
+		when := stageWord(stageOf(d.rec, r.Name))
+		if when == "—" && r.StageOf() == sequencer.Adjustment {
+			when = "adjustment" // a code or coefficient the adjustment wrote
+		}
+		rows = append(rows, pdfdoc.Row{c1(r.Name, pdfdoc.Bold), c1(when, pdfdoc.Body), c1(fmtResultU(r), st), c1(note, pdfdoc.Small)})
 	}
 	return []pdfdoc.Column{
 		{Title: "Result", W: 48, Align: "L"},

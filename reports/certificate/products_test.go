@@ -184,3 +184,54 @@ func flatText(t *testing.T, rec *sequencer.Record) string {
 	}
 	return strings.Join(strings.Fields(string(out)), " ")
 }
+
+// A gain coefficient near 1 is written with six significant digits, so that
+// the correction shows: 0.9945068 is "0.994507", where three digits gave
+// "0.995". A count of re-trim passes is a whole number with no uncertainty to
+// evaluate. An offset coefficient recorded in codes but with an uncertainty
+// (a unit that reports counts) is a measured number of counts.
+func TestNumbersThatAreFactorsOrCounts(t *testing.T) {
+	for _, c := range []struct {
+		r    sequencer.Result
+		want string
+	}{
+		{sequencer.Result{Quantity: "gain_coefficient", Unit: "number", Value: 0.9945068359375, Valid: true}, "0.994507"},
+		{sequencer.Result{Unit: "number", Value: 1.0015366, Valid: true}, "1.00154"},                                // no quantity, near 1
+		{sequencer.Result{Quantity: "lack_of_fit", Unit: "number", Value: 1.2987, Valid: true}, "1.30"},             // a statistic keeps three digits
+		{sequencer.Result{Quantity: "passes", Unit: "number", Value: 3, Valid: true}, "3"},                          // was "3.00"
+		{sequencer.Result{Quantity: "code", Unit: "code", Value: -14, Valid: true}, "−14"},                          // a trim code
+		{sequencer.Result{Quantity: "offset_coefficient", Unit: "code", Value: 13.53, Valid: true}, "13.53 counts"}, // a fraction: no code
+	} {
+		if got := fmtResult(c.r); got != c.want {
+			t.Errorf("fmtResult(%s %g %s) = %q, want %q", c.r.Quantity, c.r.Value, c.r.Unit, got, c.want)
+		}
+	}
+	// 13.530057 ± 0.22128 (k = 2): U rounds up to 0.23, the value to 13.53.
+	off := sequencer.Result{Quantity: "offset_coefficient", Unit: "code", Value: 13.530056953430176, Valid: true,
+		Unc: sequencer.Uncertainty{Std: 0.1106, K: 2, Expanded: 0.22127519250349173, DOF: 7125}}
+	if got := fmtResultU(off); got != "13.53 ± 0.23 counts" {
+		t.Errorf("offset coefficient in counts: %q", got)
+	}
+	// A limit on a factor, in no unit: six digits too.
+	if got := fmtValue(0.9945068, ""); got != "0.994507" {
+		t.Errorf("fmtValue(0.9945068) = %q", got)
+	}
+
+	rec := &sequencer.Record{Results: []sequencer.Result{
+		{Name: "retrim_passes", Stage: sequencer.Adjustment, Quantity: "passes", Unit: "number", Value: 3, Valid: true},
+		off,
+	}}
+	rec.Results[1].Name, rec.Results[1].Stage = "offset_coefficient", sequencer.Adjustment
+	_, rows, _ := (&doc{rec: rec}).otherResults()
+	want := []string{
+		// No "U not evaluated" for a count; the stage the results table
+		// declares is the adjustment.
+		"retrim_passes ‖ adjustment ‖ 3 ‖ ",
+		"offset_coefficient ‖ adjustment ‖ 13.53 ± 0.23 counts ‖ k = 2.00 · νeff ≥ 1000",
+	}
+	for i, r := range rows {
+		if got := rowText(r); i >= len(want) || got != want[i] {
+			t.Errorf("other results row %d:\n got %s\nwant %s", i, got, want[min(i, len(want)-1)])
+		}
+	}
+}
