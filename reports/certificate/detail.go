@@ -432,8 +432,10 @@ type pointTable struct {
 	groups []pdfdoc.Group
 }
 
-// pointTables lays the sweeps out in pairs, as found first, then as left.
-func (d *doc) pointTables() []pointTable {
+// pointTables lays the sweeps out in pairs, as found first, then as left;
+// the measurements at one level (a measure step's, a re-trim pass's) follow in
+// one table of their own, a row each.
+func (d *doc) pointTables() (out []pointTable) {
 	half := func(sep bool) []pdfdoc.Column {
 		return []pdfdoc.Column{
 			{Title: "#", W: 8, Align: "R", Sep: sep},
@@ -445,8 +447,19 @@ func (d *doc) pointTables() []pointTable {
 		}
 	}
 	cols := append(half(false), half(true)...)
-	var out []pointTable
-	sweeps := d.sweepsByStage()
+	var sweeps, singles []sequencer.Sweep
+	for _, sw := range d.sweepsByStage() {
+		if len(sw.Points) == 1 {
+			singles = append(singles, sw)
+		} else {
+			sweeps = append(sweeps, sw)
+		}
+	}
+	defer func() {
+		if t, ok := d.singlesTable(singles); ok {
+			out = append(out, t)
+		}
+	}()
 	for k := 0; k < len(sweeps); k += 2 {
 		pair := sweeps[k:min(k+2, len(sweeps))]
 		if len(pair[0].Points) == 0 && (len(pair) == 1 || len(pair[1].Points) == 0) {
@@ -489,6 +502,9 @@ func (d *doc) sweepPoints(ts []pointTable) {
 		d.Table(t.cols, t.rows, nil, t.groups...)
 	}
 	note := "Error = mean output − ideal output; s is the standard deviation of the valid readings at the point."
+	if d.otherQuantity() {
+		note += " A measurement of another quantity than the unit's output (a supply current) has no ideal and no error."
+	}
 	if d.resp() == qCount {
 		note += " Mean output, error and s are in counts, the numbers the unit reports."
 	}
@@ -520,3 +536,99 @@ func (d *doc) pointCells(i int, p sequencer.Point) []pdfdoc.Cell {
 		valid,
 	}
 }
+
+// singlesTable is the table of the measurements at one level: one row each,
+// named by its step (a re-trim pass with the code in the DAC), in the unit of
+// the quantity it read. ok is false when there are none.
+func (d *doc) singlesTable(sws []sequencer.Sweep) (pointTable, bool) {
+	if len(sws) == 0 {
+		return pointTable{}, false
+	}
+	cols := []pdfdoc.Column{
+		{Title: "Measurement", W: 56, Align: "L"},
+		{Title: "Stage", W: 20, Align: "L"},
+		{Title: "Stimulus", W: 20, Align: "R"},
+		{Title: "Mean", W: 28, Align: "R"},
+		{Title: "Error", W: 22, Align: "R"},
+		{Title: "s", W: 20, Align: "R"},
+		{Title: "Valid", W: 14, Align: "R"},
+	}
+	var rows []pdfdoc.Row
+	for _, sw := range sws {
+		p := sw.Points[0]
+		name := pdfdoc.Cell{{Text: sw.Name, St: pdfdoc.Bold}}
+		var about []string
+		if sw.Channel != "" {
+			about = append(about, chanWord(sw.Channel))
+		}
+		if rp, ok := d.retrimPassOf(sw); ok {
+			about = append(about, "re-trim pass "+strconv.Itoa(rp.Pass)+", code "+fmtCode(rp.Code)+" in the "+dash(rp.DAC)+" DAC")
+		}
+		if len(about) > 0 {
+			name = append(name, pdfdoc.Span{Text: strings.Join(about, " · "), St: pdfdoc.Small})
+		}
+		when := stageWord(certStage(sw.StageOf()))
+		if sw.StageOf() == sequencer.Adjustment {
+			when = "adjustment"
+		}
+		q := d.sweepUnit(sw)
+		mean, errS, sd := "—", "—", "—"
+		if p.Valid > 0 {
+			mean = q.format(p.Mean, 7)
+			if q == d.resp() {
+				errS = q.format(p.Mean-(d.rec.IdealGain*p.Stimulus+d.rec.IdealOffset), 3)
+			}
+			if p.Valid > 1 {
+				sd = q.format(p.SD, 2)
+			}
+		}
+		valid := c1(fmt.Sprintf("%d/%d", p.Valid, len(p.Readings)), pdfdoc.Body)
+		if p.Valid < len(p.Readings) || p.Valid == 0 {
+			valid = c1(fmt.Sprintf("%d/%d", p.Valid, len(p.Readings)), pdfdoc.Bold.With(pdfdoc.Fail))
+		}
+		rows = append(rows, pdfdoc.Row{name, c1(when, pdfdoc.Body), c1(d.stim().format(p.Stimulus, 5), pdfdoc.Body),
+			c1(mean, pdfdoc.Body), c1(errS, pdfdoc.Bold), c1(sd, pdfdoc.Body), valid})
+	}
+	return pointTable{cols, rows, []pdfdoc.Group{{Title: "Measurements at one level", N: len(cols)}}}, true
+}
+
+// retrimPassOf is the re-trim pass whose measurement sw is: the sweep the
+// re-trim step records as "<step> pass N" on the pass's channel.
+func (d *doc) retrimPassOf(sw sequencer.Sweep) (sequencer.RetrimPass, bool) {
+	for _, p := range d.rec.Retrims {
+		if p.Channel == sw.Channel && sw.Name == p.Step+" pass "+strconv.Itoa(p.Pass) {
+			return p, true
+		}
+	}
+	return sequencer.RetrimPass{}, false
+}
+
+// sweepUnit is the quantity a sweep read: the record's response, or for a
+// measure step of another quantity (a supply current read by a second meter)
+// the unit of the results its step gave on its channel.
+func (d *doc) sweepUnit(sw sequencer.Sweep) quantity {
+	for _, r := range d.rec.Results {
+		if r.Step != sw.Name || r.Channel != sw.Channel {
+			continue
+		}
+		switch r.Unit {
+		case "V", "A", "count":
+			return quantityOf(r.Unit)
+		}
+	}
+	return d.resp()
+}
+
+// otherQuantity reports whether a sweep of the record read another quantity
+// than the unit's response.
+func (d *doc) otherQuantity() bool {
+	for _, sw := range d.rec.Sweeps {
+		if d.sweepUnit(sw) != d.resp() {
+			return true
+		}
+	}
+	return false
+}
+
+// fmtCode writes a DAC code, a negative one with a minus sign: "−14".
+func fmtCode(c int) string { return pdfdoc.Minus(strconv.Itoa(c)) }
