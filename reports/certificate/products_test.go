@@ -9,6 +9,7 @@ import (
 	"strings"
 	"testing"
 
+	"trimline/instruments"
 	"trimline/sequencer"
 )
 
@@ -232,6 +233,108 @@ func TestNumbersThatAreFactorsOrCounts(t *testing.T) {
 	for i, r := range rows {
 		if got := rowText(r); i >= len(want) || got != want[i] {
 			t.Errorf("other results row %d:\n got %s\nwant %s", i, got, want[min(i, len(want)-1)])
+		}
+	}
+}
+
+// offsetRetrimRecord is an amplifier in volts with an 8-bit offset DAC in two's
+// complement: the trim wrote −11 (the fit asked −11.229); a closed-loop
+// re-trim moved it to −13, then −14, within its bound on pass 3. A second
+// meter read the supply current, 1.211317 mA, at 0 V in.
+func offsetRetrimRecord() *sequencer.Record {
+	pt := func(mean, sd float64) []sequencer.Point {
+		return []sequencer.Point{{Stimulus: 0, Mean: mean, SD: sd, Valid: 8, Readings: make([]instruments.Reading, 8)}}
+	}
+	pass := func(n, code int, e float64, sens float64, measured, within bool, next int) sequencer.RetrimPass {
+		return sequencer.RetrimPass{Step: "offset re-trim", DAC: "offset", Pass: n, Code: code, Error: e, ErrorU: 25e-6,
+			Sensitivity: sens, Measured: measured, Within: within, Next: next}
+	}
+	return &sequencer.Record{
+		IdealGain: 100, IdealOffset: 0, FullScale: 20, Coverage: 0.9545,
+		Sweeps: []sequencer.Sweep{
+			{Name: "supply current", Stage: sequencer.AsFound, Points: pt(1.211317e-3, 4.1e-9)},
+			{Name: "offset re-trim pass 1", Stage: sequencer.Adjustment, Points: pt(975.9375e-6, 17e-6)},
+			{Name: "offset re-trim pass 2", Stage: sequencer.Adjustment, Points: pt(177.8875e-6, 25e-6)},
+			{Name: "offset re-trim pass 3", Stage: sequencer.Adjustment, Points: pt(-96.9125e-6, 14e-6)},
+			{Name: "zero check", Stage: sequencer.AsLeft, Points: pt(-96.675e-6, 22e-6)},
+		},
+		Trims: []sequencer.TrimCode{{DAC: "offset", Before: 0, Ideal: -11.229, Code: -14, Written: true, Readback: -14, Stored: true}},
+		Retrims: []sequencer.RetrimPass{
+			pass(1, -11, 975.9375e-6, 500e-6, false, false, -13),
+			pass(2, -13, 177.8875e-6, 399e-6, true, false, -14),
+			pass(3, -14, -96.9125e-6, 274.8e-6, true, true, -14),
+		},
+		Results: []sequencer.Result{
+			{Name: "supply_current", Stage: sequencer.AsFound, Step: "supply current", Quantity: "mean", Value: 1.211317e-3, Unit: "A", Valid: true},
+			{Name: "zero_output", Stage: sequencer.AsLeft, Step: "zero check", Quantity: "mean", Value: -96.675e-6, Unit: "V", Valid: true},
+		},
+	}
+}
+
+// The measurements at one level are rows of one table, not a table (or a
+// plot) each: the supply current in amperes with no error against the
+// amplifier's voltage ideal, each re-trim pass with the code it measured.
+func TestMeasurementsAtOneLevel(t *testing.T) {
+	d := &doc{rec: offsetRetrimRecord()}
+	ts := d.pointTables()
+	if len(ts) != 1 {
+		t.Fatalf("%d point tables, want the one of measurements at one level", len(ts))
+	}
+	if ss, _ := d.plotSeries(); len(ss) != 0 {
+		t.Errorf("%d plots of one-point measurements", len(ss))
+	}
+	want := []string{
+		// A current: 1.211317 mA to 7 digits; s 4.1 nA; no error (the ideal is a voltage).
+		"supply current ‖ as found ‖ 0 V ‖ 1.211317 mA ‖ — ‖ 4.1 nA ‖ 8/8",
+		// Error = mean − (100 × 0 + 0): the mean itself, to 3 digits.
+		"offset re-trim pass 1 | re-trim pass 1, code −11 in the offset DAC ‖ adjustment ‖ 0 V ‖ 975.9375 µV ‖ 976 µV ‖ 17 µV ‖ 8/8",
+		"offset re-trim pass 2 | re-trim pass 2, code −13 in the offset DAC ‖ adjustment ‖ 0 V ‖ 177.8875 µV ‖ 178 µV ‖ 25 µV ‖ 8/8",
+		"offset re-trim pass 3 | re-trim pass 3, code −14 in the offset DAC ‖ adjustment ‖ 0 V ‖ −96.9125 µV ‖ −96.9 µV ‖ 14 µV ‖ 8/8",
+		"zero check ‖ as left ‖ 0 V ‖ −96.675 µV ‖ −96.7 µV ‖ 22 µV ‖ 8/8",
+	}
+	// The table is ordered by stage (as found, then as left, then the others):
+	// sweepsByStage puts the adjustment's passes last.
+	order := []int{0, 4, 1, 2, 3}
+	for i, r := range ts[0].rows {
+		if i >= len(order) {
+			t.Errorf("extra row %s", rowText(r))
+			continue
+		}
+		if got := rowText(r); got != want[order[i]] {
+			t.Errorf("row %d:\n got %s\nwant %s", i, got, want[order[i]])
+		}
+	}
+	if !d.otherQuantity() {
+		t.Error("the supply current is not seen as another quantity")
+	}
+}
+
+// The trim table says a re-trim moved the code the fit asked for; the re-trim
+// table writes its codes with a minus sign, as the results do.
+func TestRetrimmedCodeAndSignedCodes(t *testing.T) {
+	d := &doc{rec: offsetRetrimRecord()}
+	if first, ok := d.retrimmedFrom(d.rec.Trims[0]); !ok || first != -11 {
+		t.Errorf("retrimmedFrom = %d, %v; want −11, true", first, ok)
+	}
+	_, rows, _, ends := d.retrimTable()
+	if got := rowText(rows[0]); got != "1 ‖ −11 ‖ 976 µV ± 50 µV ‖ 500 µV/code | nominal LSB ‖ no ‖ −13" {
+		t.Errorf("pass 1: %s", got)
+	}
+	if ends[0] != "Re-trim “offset re-trim” of the offset DAC: within the bound on pass 3 with code −14 (error −96.9 µV); code −14 left in the DAC." {
+		t.Errorf("ending: %s", ends[0])
+	}
+	text := flatText(t, offsetRetrimRecord())
+	if text == "" {
+		return
+	}
+	for _, s := range []string{"re-trimmed from −11", "a closed-loop re-trim then moved the code", "Measurements at one level", "1.211317 mA"} {
+		if !strings.Contains(text, s) {
+			t.Errorf("page text lacks %q", s)
+		}
+	}
+	for _, s := range []string{"offset re-trim pass 1”", "1.211317 mV"} {
+		if strings.Contains(text, s) {
+			t.Errorf("page text has %q", s)
 		}
 	}
 }

@@ -51,7 +51,7 @@ func (d *doc) trims() {
 		if first, ok := d.retrimmedFrom(t); ok {
 			// The trim wrote the code the fit asked for; a closed-loop re-trim
 			// then moved it: the ideal beside it is the first code's.
-			written = append(written, pdfdoc.Span{Text: "re-trimmed from " + fmtCode(first), St: pdfdoc.Small})
+			written = append(written, pdfdoc.Span{Text: "re-trimmed", St: pdfdoc.Small}, pdfdoc.Span{Text: "from " + fmtCode(first), St: pdfdoc.Small})
 			retrimmed = true
 		}
 		rb := c1(fmtCode(t.Readback), pdfdoc.Body)
