@@ -123,10 +123,7 @@ func (d *doc) coefficientTable() ([]pdfdoc.Column, []pdfdoc.Row, []pdfdoc.Band) 
 			rb = append(rb, pdfdoc.Span{Text: "= " + fmtCoef(c.ReadbackValue, c.Resolution), St: pdfdoc.Small.With(pdfdoc.Fail)})
 			match = pdfdoc.Cell{{Text: "NO", St: pdfdoc.Bold.With(pdfdoc.Fail)}, {Text: "differs from written", St: pdfdoc.Small.With(pdfdoc.Fail)}}
 		}
-		res := "—"
-		if c.Resolution > 0 && finite(c.Resolution) {
-			res = units.FormatSig(c.Resolution, 4)
-		}
+		res := fmtResolution(c)
 		rows = append(rows, pdfdoc.Row{
 			name,
 			c1(dash(c.Format), pdfdoc.Body),
@@ -200,4 +197,18 @@ func fmtCoef(v, res float64) string {
 		s = pdfdoc.Minus(strconv.FormatFloat(v, 'g', 7, 64))
 	}
 	return s
+}
+
+// fmtResolution writes a coefficient's resolution, the format's spacing at
+// its value, with four significant digits; "exact" for a zero in a floating
+// format, whose spacing there (1.4e-45 for float32) says nothing a reader
+// needs; "—" when not recorded.
+func fmtResolution(c sequencer.CoefficientWrite) string {
+	switch {
+	case !(c.Resolution > 0) || !finite(c.Resolution):
+		return "—"
+	case c.Value == 0 && c.Resolution < 1e-30:
+		return "exact"
+	}
+	return units.FormatSig(c.Resolution, 4)
 }

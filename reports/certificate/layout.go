@@ -145,13 +145,26 @@ func (d *doc) fields(fs []para) {
 		d.Cell(marginL, d.Y+0.4, labelW, lh, f.label, stLabel, "L")
 		for i, l := range lines {
 			if i > 0 && d.need(lh) {
-				d.Cell(marginL, d.Y+0.4, labelW, lh, f.label+" (continued)", stLabel, "L")
+				d.Cell(marginL, d.Y+0.4, labelW, lh, d.continued(f.label, labelW-1), stLabel, "L")
 			}
 			d.Cell(marginL+labelW, d.Y+0.4, contentW-labelW, lh, l, st, "L")
 			d.Y += lh
 		}
 		d.Y += 1
 	}
+}
+
+// continued is a label repeated where its paragraph goes on after a page
+// break, as wide as w at most: "Station (continued)", or for a longer label
+// "Traceability (cont.)", or the label alone, so that it never runs into the
+// text beside it.
+func (d *doc) continued(label string, w float64) string {
+	for _, s := range []string{label + " (continued)", label + " (cont.)"} {
+		if d.TextWidth(s, stLabel) <= w {
+			return s
+		}
+	}
+	return label
 }
 
 // note is a line of small print under a table.

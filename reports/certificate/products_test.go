@@ -8,8 +8,10 @@ import (
 	"strconv"
 	"strings"
 	"testing"
+	"time"
 
 	"trimline/instruments"
+	"trimline/reports/internal/pdfdoc"
 	"trimline/sequencer"
 )
 
@@ -336,5 +338,44 @@ func TestRetrimmedCodeAndSignedCodes(t *testing.T) {
 		if strings.Contains(text, s) {
 			t.Errorf("page text has %q", s)
 		}
+	}
+}
+
+// A float32 zero (the clear step's offset) has no resolution worth printing.
+func TestFmtResolution(t *testing.T) {
+	for _, c := range []struct {
+		c    sequencer.CoefficientWrite
+		want string
+	}{
+		{sequencer.CoefficientWrite{Value: 0, Resolution: 1.401298464324817e-45}, "exact"},
+		{sequencer.CoefficientWrite{Value: 0, Resolution: 1.0 / 4096}, "0.0002441"}, // a Q format's zero: its LSB
+		{sequencer.CoefficientWrite{Value: 13.53, Resolution: 9.5367431640625e-07}, "9.537e−07"},
+		{sequencer.CoefficientWrite{Value: 1}, "—"},
+	} {
+		if got := fmtResolution(c.c); got != c.want {
+			t.Errorf("fmtResolution(%g, %g) = %q, want %q", c.c.Value, c.c.Resolution, got, c.want)
+		}
+	}
+}
+
+// A paragraph continued on the next page repeats its label only as wide as
+// the label column: "Traceability (continued)" ran into the text beside it.
+func TestContinuedLabelFits(t *testing.T) {
+	d := &doc{Doc: pdfdoc.Doc{PDF: pdfdoc.New(time.Time{}, marginL, marginT, marginR), Left: marginL, Width: contentW}}
+	const labelW = 27.0 // fields' label column
+	for _, c := range []struct{ label, want string }{
+		{"Station", "Station (continued)"},
+		{"Traceability", "Traceability (cont.)"},
+	} {
+		got := d.continued(c.label, labelW-1)
+		if got != c.want {
+			t.Errorf("continued(%q) = %q, want %q", c.label, got, c.want)
+		}
+		if w := d.TextWidth(got, stLabel); w > labelW-1 {
+			t.Errorf("%q is %.1f mm wide, the column %g mm", got, w, labelW)
+		}
+	}
+	if w := d.TextWidth("Traceability (continued)", stLabel); w <= labelW-1 {
+		t.Errorf("the long form fits (%.1f mm): the test no longer shows the overflow", w)
 	}
 }
