@@ -168,13 +168,34 @@ func (d *doc) fits() ([]pdfdoc.Column, []pdfdoc.Row, []pdfdoc.Band) {
 			c1(strconv.Itoa(f.DOF), pdfdoc.Body),
 			c1(slope, pdfdoc.Body),
 			c1(gainErr, pdfdoc.Body),
-			c1(resp.format(f.Intercept, 7), pdfdoc.Body),
-			c1(resp.format(f.Intercept-r.IdealOffset, 3), pdfdoc.Body),
+			c1(fitOutput(resp, f.Intercept, 7), pdfdoc.Body),
+			c1(fitOutput(resp, f.Intercept-r.IdealOffset, 3), pdfdoc.Body),
 			c1(resp.format(f.ResidualSD, 3), pdfdoc.Body),
 			c1(nl, pdfdoc.Body),
 		})
 	}
 	return cols, rows, bands.get()
+}
+
+// fitOutput writes a fit's output (at 0 V, or its offset error) with digits
+// significant digits; in counts to three decimals at most, a thousandth of
+// the unit's step being below anything a fit of counts can tell (a fit that
+// met its ideal to 1.6e-12 counts reads "0.000 counts", not "1.552874e−12").
+func fitOutput(q quantity, v float64, digits int) string {
+	if q != qCount || !finite(v) {
+		return q.format(v, digits)
+	}
+	dec := 0
+	if a := math.Abs(v); a > 0 {
+		dec = digits - 1 - int(math.Floor(math.Log10(a)))
+	}
+	dec = max(0, min(dec, 3))
+	p := math.Pow(10, float64(dec))
+	r := math.Round(v*p) / p
+	if r == 0 {
+		r = 0 // no "−0.000"
+	}
+	return countText(pdfdoc.Minus(strconv.FormatFloat(r, 'f', dec, 64)))
 }
 
 // fitsTitle is the heading of the fits table: "Straight-line fits" unless a fit

@@ -379,3 +379,25 @@ func TestContinuedLabelFits(t *testing.T) {
 		t.Errorf("the long form fits (%.1f mm): the test no longer shows the overflow", w)
 	}
 }
+
+// A fit of counts writes its output at 0 V to three decimals at most.
+func TestFitOutputInCounts(t *testing.T) {
+	for _, c := range []struct {
+		q      quantity
+		v      float64
+		digits int
+		want   string
+	}{
+		{qCount, -0.09027777777845, 7, "−0.090 counts"}, // 7 digits would be −0.09027778
+		{qCount, 1.552874e-12, 7, "0.000 counts"},       // was "1.552874e−12 counts"
+		{qCount, -1.552874e-12, 3, "0.000 counts"},      // no −0.000
+		{qCount, -13.583333, 7, "−13.583 counts"},
+		{qCount, -13.583333, 3, "−13.6 counts"},
+		{qCount, 31999.75, 7, "31999.75 counts"}, // seven digits: two decimals
+		{qVolt, 2.499552, 7, "2.499552 V"},       // volts as before
+	} {
+		if got := fitOutput(c.q, c.v, c.digits); got != c.want {
+			t.Errorf("fitOutput(%s, %g, %d) = %q, want %q", c.q, c.v, c.digits, got, c.want)
+		}
+	}
+}
