@@ -83,7 +83,7 @@ func (d *doc) coefficientTable() ([]pdfdoc.Column, []pdfdoc.Row, []pdfdoc.Band) 
 	cols := []pdfdoc.Column{
 		{Title: "Coefficient", W: 27, Align: "L"},
 		{Title: "Format", W: 20, Align: "L"},
-		{Title: "Found · asked for", W: 33, Align: "R"},
+		{Title: "Found · asked for ± u", W: 33, Align: "R"},
 		{Title: "Word written", W: 21, Align: "L", Gap: 3},
 		{Title: "Stands for", W: 23, Align: "R"},
 		{Title: "Resolution", W: 18, Align: "R"},

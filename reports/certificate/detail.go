@@ -355,15 +355,29 @@ func (d *doc) plotSeries() (ss []series, h float64) {
 		return nil, 2 * (pdfdoc.Small.LineH() + 0.8)
 	}
 	rows := (len(ss) + 1) / 2
-	return ss, float64(rows)*(plotH+1.5) + float64(len(d.legendLines(ss)))*legendH + 2*(pdfdoc.Small.LineH()+0.8)
+	return ss, float64(rows)*(plotHeight(len(ss))+1.5) + float64(len(d.legendLines(ss)))*legendH + 2*(pdfdoc.Small.LineH()+0.8)
 }
 
-// plotH is the height of one plot; legendH of one line of the legend.
+// plotH is the height of one plot (plotHeight: of a short one); legendH of one
+// line of the legend.
 const (
 	plotH   = 64.0
 	legendH = 4.0
 	plotGap = 8.0
+	// plotShortH is the height of a plot when there are four rows of them (a
+	// unit of four channels, before and after): four rows of it fit one page
+	// below a heading, where four of plotH take two pages.
+	plotShortH = 54.0
 )
+
+// plotHeight is the height of each of n plots, two to a row: plotH for up to
+// three rows, plotShortH for more.
+func plotHeight(n int) float64 {
+	if (n+1)/2 > 3 {
+		return plotShortH
+	}
+	return plotH
+}
 
 // legendEntry is one series' entry in the legend: its text, where it starts on
 // its line, and its series.
@@ -407,8 +421,9 @@ func (d *doc) legendLines(ss []series) [][]legendEntry {
 // side, each on its own scale. h is the height of the section from plotSeries.
 func (d *doc) plots(ss []series, h float64) {
 	follow := h
+	ph := plotHeight(len(ss))
 	if follow > bottom-marginT-headingH {
-		follow = plotH + 1.5
+		follow = ph + 1.5
 	}
 	d.heading("Error from the ideal transfer", follow)
 	if len(ss) == 0 {
@@ -418,12 +433,12 @@ func (d *doc) plots(ss []series, h float64) {
 	w := (contentW - plotGap) / 2
 	for k := 0; k < len(ss); k += 2 {
 		if k > 0 {
-			d.need(plotH + 1.5)
+			d.need(ph + 1.5)
 		}
 		for j, s := range ss[k:min(k+2, len(ss))] {
-			d.plot(marginL+float64(j)*(w+plotGap), d.Y, w, plotH, s)
+			d.plot(marginL+float64(j)*(w+plotGap), d.Y, w, ph, s)
 		}
-		d.Y += plotH + 1.5
+		d.Y += ph + 1.5
 	}
 
 	// Legend, shared by the plots.

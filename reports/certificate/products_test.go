@@ -401,3 +401,37 @@ func TestFitOutputInCounts(t *testing.T) {
 		}
 	}
 }
+
+// The plots of a unit of four channels (eight: before and after, on each)
+// fit one page below the running header and their heading; two or three rows
+// keep the full height, so a one-channel certificate is unchanged.
+func TestFourChannelPlotsFitAPage(t *testing.T) {
+	if plotHeight(2) != plotH || plotHeight(6) != plotH || plotHeight(8) != plotShortH {
+		t.Errorf("plotHeight: 2 → %g, 6 → %g, 8 → %g", plotHeight(2), plotHeight(6), plotHeight(8))
+	}
+	d := &doc{Doc: pdfdoc.Doc{PDF: pdfdoc.New(time.Time{}, marginL, marginT, marginR), Left: marginL, Width: contentW}, rec: channelRecordInternal()}
+	ss, h := d.plotSeries()
+	if len(ss) != 8 {
+		t.Fatalf("%d plots, want 8", len(ss))
+	}
+	// A later page's body starts 10.5 mm below the top margin (running header).
+	if free := bottom - (marginT + 10.5) - headingH; h > free {
+		t.Errorf("the plots take %.1f mm, a page has %.1f", h, free)
+	}
+}
+
+// channelRecordInternal is a record of four channels, each with a sweep before
+// and after correction of 5 points.
+func channelRecordInternal() *sequencer.Record {
+	rec := &sequencer.Record{ResponseUnit: "count", IdealGain: 3200, FullScale: 64000}
+	for _, ch := range []string{"1", "2", "3", "4"} {
+		for _, st := range []sequencer.Stage{sequencer.AsFound, sequencer.AsLeft} {
+			sw := sequencer.Sweep{Name: map[sequencer.Stage]string{sequencer.AsFound: "as found", sequencer.AsLeft: "as left"}[st], Channel: ch, Stage: st}
+			for x := -10.0; x <= 10; x += 5 {
+				sw.Points = append(sw.Points, sequencer.Point{Stimulus: x, Mean: 3200*x + 3, SD: 0.5, Valid: 16, Readings: make([]instruments.Reading, 16)})
+			}
+			rec.Sweeps = append(rec.Sweeps, sw)
+		}
+	}
+	return rec
+}
