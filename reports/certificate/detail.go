@@ -105,6 +105,9 @@ func (d *doc) otherResults() ([]pdfdoc.Column, []pdfdoc.Row, []pdfdoc.Band) {
 			st = pdfdoc.Body.With(pdfdoc.Muted)
 		}
 		note := r.Note
+		if n := d.retrimNote(r); n != "" {
+			note = strings.TrimSpace(n + "   " + note)
+		}
 		if r.Valid && finite(r.Value) && !exact(r) {
 			note = strings.TrimSpace(uncLine(r.Unc.Expanded, r.Unc.K, r.Unc.DOF, r.Unc.Method) + "   " + note)
 		}
@@ -668,3 +671,31 @@ func (d *doc) otherQuantity() bool {
 
 // fmtCode writes a DAC code, a negative one with a minus sign: "−14".
 func fmtCode(c int) string { return pdfdoc.Minus(strconv.Itoa(c)) }
+
+// retrimNote says of a trim step's code that a closed-loop re-trim later
+// moved it: "written by the trim; re-trimmed to −14 by “offset re-trim”", so
+// that the code beside the final one in the trim table does not read as a
+// contradiction. "" for any other result.
+func (d *doc) retrimNote(r sequencer.Result) string {
+	if r.Unit != "code" || !r.Valid || !d.stepKindIs(r.Step, r.Channel, "trim") {
+		return ""
+	}
+	for _, g := range d.retrimGroups() {
+		first, last := g.passes[0], g.passes[len(g.passes)-1]
+		if g.channel == r.Channel && float64(first.Code) == r.Value && last.Next != first.Code {
+			return "written by the trim; re-trimmed to " + fmtCode(last.Next) + " by “" + g.step + "”"
+		}
+	}
+	return ""
+}
+
+// stepKindIs reports whether the record's step of that name (on channel ch,
+// or of the whole unit) is of kind.
+func (d *doc) stepKindIs(name, ch, kind string) bool {
+	for _, s := range d.rec.Steps {
+		if s.Name == name && (s.Channel == "" || s.Channel == ch) {
+			return s.Kind == kind
+		}
+	}
+	return false
+}

@@ -435,3 +435,25 @@ func channelRecordInternal() *sequencer.Record {
 	}
 	return rec
 }
+
+// The trim step's code, −11, shows among the other results with a word that
+// a re-trim moved it to −14, the code the trim table gives.
+func TestTrimCodeResultSaysItWasRetrimmed(t *testing.T) {
+	rec := offsetRetrimRecord()
+	rec.Steps = []sequencer.StepRun{{Name: "trim", Kind: "trim", Stage: sequencer.Adjustment, Status: sequencer.StepDone},
+		{Name: "offset re-trim", Kind: "retrim", Stage: sequencer.Adjustment, Status: sequencer.StepDone}}
+	rec.Results = []sequencer.Result{
+		{Name: "offset_code", Stage: sequencer.Adjustment, Step: "trim", Quantity: "code", Value: -11, Unit: "code", Valid: true},
+		{Name: "offset_code_final", Stage: sequencer.Adjustment, Step: "offset re-trim", Quantity: "code", Value: -14, Unit: "code", Valid: true},
+	}
+	_, rows, _ := (&doc{rec: rec}).otherResults()
+	want := []string{
+		"offset_code ‖ adjustment ‖ −11 ‖ written by the trim; re-trimmed to −14 by “offset re-trim”",
+		"offset_code_final ‖ adjustment ‖ −14 ‖ ",
+	}
+	for i, r := range rows {
+		if got := rowText(r); i >= len(want) || got != want[i] {
+			t.Errorf("row %d:\n got %s\nwant %s", i, got, want[min(i, len(want)-1)])
+		}
+	}
+}
