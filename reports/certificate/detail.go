@@ -3,6 +3,7 @@ package certificate
 import (
 	"fmt"
 	"math"
+	"regexp"
 	"slices"
 	"sort"
 	"strconv"
@@ -73,7 +74,7 @@ func (d *doc) statements() ([]pdfdoc.Column, []pdfdoc.Row) {
 			about += " · " + chanWord(ch)
 		}
 		name := pdfdoc.Cell{{Text: o.Name, St: pdfdoc.Bold}, {Text: about, St: pdfdoc.Small}}
-		rows = append(rows, pdfdoc.Row{name, c1(dd.Statement, pdfdoc.Body), d.zoneCell(o)})
+		rows = append(rows, pdfdoc.Row{name, c1(statementText(dd.Statement, o.Unit), pdfdoc.Body), d.zoneCell(o)})
 	}
 	return []pdfdoc.Column{{Title: "Limit", W: 40, Align: "L"}, {Title: "Statement", W: 116, Align: "L"}, {Title: "Decision", W: 24, Align: "C"}}, rows
 }
@@ -698,4 +699,25 @@ func (d *doc) stepKindIs(name, ch, kind string) bool {
 		}
 	}
 	return false
+}
+
+// countsWord matches a number followed by the word "count" in a decision
+// statement (the limits package writes the limit file's unit as it is):
+// group 1 is the number.
+var countsWord = regexp.MustCompile(`([−-]?[0-9][0-9.]*(?:e[−+-]?[0-9]+)?) count\b`)
+
+// statementText is a decision statement as the certificate prints it: in a
+// limit whose unit is "count", a number of counts reads "0.222 counts", as
+// the tables write it; "1 count" stays one.
+func statementText(s, unit string) string {
+	if strings.TrimSpace(unit) != "count" {
+		return s
+	}
+	return countsWord.ReplaceAllStringFunc(s, func(m string) string {
+		n := countsWord.FindStringSubmatch(m)[1]
+		if n == "1" || n == "−1" || n == "-1" {
+			return m
+		}
+		return m + "s"
+	})
 }

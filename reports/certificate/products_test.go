@@ -457,3 +457,17 @@ func TestTrimCodeResultSaysItWasRetrimmed(t *testing.T) {
 		}
 	}
 }
+
+// A limit in "count" has its decision statement in counts, as the tables.
+func TestStatementInCounts(t *testing.T) {
+	in := "Guarded acceptance, w = 1·U = 0.222 count (ILAC-G8:09/2019 §4.2.3): measured −13.5833 count with U = 0.222 count " +
+		"(k = 2.00, ν = 7125.72) lies within the acceptance interval −99.7779 … 99.7779 count: pass; 1 count; 1.55287e−12 count."
+	want := "Guarded acceptance, w = 1·U = 0.222 counts (ILAC-G8:09/2019 §4.2.3): measured −13.5833 counts with U = 0.222 counts " +
+		"(k = 2.00, ν = 7125.72) lies within the acceptance interval −99.7779 … 99.7779 counts: pass; 1 count; 1.55287e−12 counts."
+	if got := statementText(in, "count"); got != want {
+		t.Errorf("got\n%s\nwant\n%s", got, want)
+	}
+	if got := statementText("measured 3 count", "mV"); got != "measured 3 count" {
+		t.Errorf("another unit changed: %q", got)
+	}
+}
