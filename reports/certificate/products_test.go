@@ -11,6 +11,7 @@ import (
 	"time"
 
 	"trimline/instruments"
+	"trimline/limits"
 	"trimline/reports/internal/pdfdoc"
 	"trimline/sequencer"
 )
@@ -469,5 +470,22 @@ func TestStatementInCounts(t *testing.T) {
 	}
 	if got := statementText("measured 3 count", "mV"); got != "measured 3 count" {
 		t.Errorf("another unit changed: %q", got)
+	}
+}
+
+// A TUR of five digits or more (a unit whose gain is dead, −100 % against
+// ±1.5 %) fits its column in the small size instead of wrapping "20144:" and
+// "1" on two lines.
+func TestLargeTURFitsItsColumn(t *testing.T) {
+	d := &doc{Doc: pdfdoc.Doc{PDF: pdfdoc.New(time.Time{}, marginL, marginT, marginR), Left: marginL, Width: contentW}}
+	for _, tur := range []float64{435.4, 1066, 20144, 3.2e6} {
+		rec := &sequencer.Record{Outcomes: []limits.Outcome{{Name: "gain", Unit: "%", Uses: []string{"g"}, Values: map[string]float64{"g": 1},
+			Decision: &limits.Decision{Result: "g", Value: 1, U: 0.01, K: 2, TUR: tur, Zone: limits.ZonePass, Rule: "guarded"}, Pass: true}}}
+		d.rec = rec
+		tb := d.resultsTable()
+		c := tb.rows[0][4]
+		if w := d.TextWidth(c[0].Text, c[0].St); w > tb.cols[4].W-2*pdfdoc.PadX {
+			t.Errorf("TUR %g: %q is %.1f mm wide, the column holds %.1f", tur, c[0].Text, w, tb.cols[4].W-2*pdfdoc.PadX)
+		}
 	}
 }

@@ -300,8 +300,13 @@ func (d *doc) resultsTable() resultsTable {
 				tol = append(tol, pdfdoc.Span{Text: "rule " + dd.Rule, St: pdfdoc.Small})
 			}
 			tur := c1(fmtTUR(dd.TUR), pdfdoc.Body)
-			if fmtTUR(dd.TUR) == "—" {
+			switch {
+			case fmtTUR(dd.TUR) == "—":
 				tur = c1("—", pdfdoc.Small)
+			case dd.TUR >= 1e5:
+				tur = c1("≥ 1e5:1", pdfdoc.Small) // a tolerance that dwarfs U: the digits say nothing more
+			case dd.TUR >= 1e4:
+				tur = c1(fmtTUR(dd.TUR), pdfdoc.Small) // five digits: the small size fits the column
 			}
 			if dd.TURLow {
 				tur = c1(fmtTUR(dd.TUR)+" ¹", pdfdoc.Bold.With(colCondPass))
