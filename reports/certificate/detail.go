@@ -521,7 +521,15 @@ func (d *doc) pointTables() (out []pointTable) {
 			}
 			rows = append(rows, rw)
 		}
-		out = append(out, pointTable{cols, rows, groups})
+		tcols := cols
+		if len(pair) == 1 {
+			// A sweep without a partner: no column titles over the empty half.
+			tcols = append(half(false), make([]pdfdoc.Column, 6)...)
+			for j, c := range half(false) {
+				tcols[6+j] = pdfdoc.Column{W: c.W, Align: c.Align}
+			}
+		}
+		out = append(out, pointTable{tcols, rows, groups})
 	}
 	return out
 }

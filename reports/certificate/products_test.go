@@ -489,3 +489,23 @@ func TestLargeTURFitsItsColumn(t *testing.T) {
 		}
 	}
 }
+
+// A sweep with no partner beside it has no column titles over the empty
+// half; a gain in exponent notation has a true minus sign.
+func TestLoneSweepAndGainExponent(t *testing.T) {
+	rec := channelRecordInternal()
+	rec.Sweeps = rec.Sweeps[:1] // channel 1 as found only
+	ts := (&doc{rec: rec}).pointTables()
+	if len(ts) != 1 || len(ts[0].cols) != 12 {
+		t.Fatalf("%d tables", len(ts))
+	}
+	for j, c := range ts[0].cols {
+		if (j < 6) != (c.Title != "") {
+			t.Errorf("column %d titled %q", j, c.Title)
+		}
+	}
+	// 100 V/V × (1 − 0.99999956): 4.366667e-05 V/V, as 'g' with 7 digits writes it.
+	if got := gain(4.366667e-05, qVolt, qVolt); got != "4.366667e−05 V/V" {
+		t.Errorf("gain %q", got)
+	}
+}
