@@ -141,7 +141,13 @@ func (d *doc) fields(fs []para) {
 	lh := st.LineH() + 0.3
 	for _, f := range fs {
 		lines := d.Wrap(f.text, contentW-labelW, st)
-		d.need(lh * float64(min(len(lines), 2)))
+		// A paragraph of up to four lines is kept whole, so that no page
+		// starts with its last word alone; a longer one starts with two.
+		if len(lines) <= 4 {
+			d.need(lh * float64(len(lines)))
+		} else {
+			d.need(lh * 2)
+		}
 		d.Cell(marginL, d.Y+0.4, labelW, lh, f.label, stLabel, "L")
 		for i, l := range lines {
 			if i > 0 && d.need(lh) {

@@ -509,3 +509,27 @@ func TestLoneSweepAndGainExponent(t *testing.T) {
 		t.Errorf("gain %q", got)
 	}
 }
+
+// A short paragraph that does not fit the rest of a page moves whole to the
+// next: the traceability statement left "standards." alone on a new page.
+func TestShortParagraphKeptWhole(t *testing.T) {
+	d := &doc{Doc: pdfdoc.Doc{PDF: pdfdoc.New(time.Time{}, marginL, marginT, marginR), Left: marginL, Width: contentW},
+		rec: &sequencer.Record{Serial: "X-1"}}
+	d.Need = d.need
+	d.newPage()
+	text := strings.Repeat("The results are traceable to the SI through the reference instruments. ", 4) // three lines
+	n := len(d.Wrap(text, contentW-27, pdfdoc.Body.Sized(7.6)))
+	if n < 3 || n > 4 {
+		t.Fatalf("the paragraph wraps to %d lines, want 3 or 4", n)
+	}
+	lh := pdfdoc.Body.Sized(7.6).LineH() + 0.3
+	d.Y = d.bottom() - (float64(n)-0.5)*lh // room for all lines but the last
+	d.fields([]para{{"Traceability", text}})
+	if d.PDF.PageNo() != 2 {
+		t.Fatalf("page %d, want the paragraph on page 2", d.PDF.PageNo())
+	}
+	// Page 2's body starts 10.5 mm below the top margin; all n lines are there.
+	if top := marginT + 10.5; d.Y < top+float64(n)*lh {
+		t.Errorf("page 2 holds less than the paragraph's %d lines: y %.1f", n, d.Y)
+	}
+}
