@@ -533,3 +533,36 @@ func TestShortParagraphKeptWhole(t *testing.T) {
 		t.Errorf("page 2 holds less than the paragraph's %d lines: y %.1f", n, d.Y)
 	}
 }
+
+// A value ± U or an acceptance interval too wide for its column breaks before
+// the "±" and after "accept", never between a number and its unit:
+// "1.21132 mA ± 0.00052" / "mA" and "accept 0.900511 … 1.499489" / "mA" were
+// how the supply current read.
+func TestWideValuesBreakBetweenParts(t *testing.T) {
+	d := &doc{Doc: pdfdoc.Doc{PDF: pdfdoc.New(time.Time{}, marginL, marginT, marginR), Left: marginL, Width: contentW}}
+	lo, hi, alo, ahi := 0.9, 1.5, 0.900511, 1.499489
+	d.rec = &sequencer.Record{Outcomes: []limits.Outcome{{Name: "supply current", Unit: "mA", Uses: []string{"i"}, Values: map[string]float64{"i": 1.21132},
+		Decision: &limits.Decision{Result: "i", Value: 1.2113174, U: 0.000511, K: 2, TUR: 599, Zone: limits.ZonePass, Rule: "guarded",
+			Lower: &lo, Upper: &hi, AcceptLower: &alo, AcceptUpper: &ahi}, Pass: true}}}
+	tb := d.resultsTable()
+	// U = 0.000511 rounds up to 0.00052 (two digits); the value to its place.
+	if got := cellText(tb.rows[0][1]); got != "1.21132 mA | ± 0.00052 mA | k = 2.00" {
+		t.Errorf("measured: %q", got)
+	}
+	// One digit finer than U, rounded inward.
+	if got := cellText(tb.rows[0][2]); got != "0.9 … 1.5 mA | accept | 0.900511 … 1.499489 mA" {
+		t.Errorf("tolerance: %q", got)
+	}
+	for _, c := range []pdfdoc.Cell{tb.rows[0][1], tb.rows[0][2]} {
+		for _, sp := range c {
+			if n := len(d.Wrap(sp.Text, tb.cols[1].W-2*pdfdoc.PadX, sp.St)); n != 1 && sp.St == pdfdoc.Body {
+				t.Errorf("%q wraps to %d lines", sp.Text, n)
+			}
+		}
+	}
+	// A value that fits stays on one line.
+	d.rec.Outcomes[0].Decision.Value, d.rec.Outcomes[0].Decision.U = 1.2, 0.05
+	if got := cellText(d.resultsTable().rows[0][1]); got != "1.200 mA ± 0.050 mA | k = 2.00" {
+		t.Errorf("short value: %q", got)
+	}
+}

@@ -174,6 +174,18 @@ func (d *doc) valueSpans(text string, w float64) pdfdoc.Cell {
 	return pdfdoc.Cell{{Text: v, St: pdfdoc.Body}, {Text: "± " + u, St: pdfdoc.Body}}
 }
 
+// acceptSpans is the acceptance interval under a tolerance, "accept −9.5 …
+// 9.5 µA", on one line of a cell w mm wide, or when it does not fit, the
+// word on one line and the interval whole on the next, so that the unit is
+// never left alone on a line. (Without a page to measure on, one line.)
+func (d *doc) acceptSpans(interval string, w float64) pdfdoc.Cell {
+	text := "accept " + interval
+	if d.PDF == nil || d.TextWidth(text, pdfdoc.Small) <= w-2*pdfdoc.PadX {
+		return c1(text, pdfdoc.Small)
+	}
+	return pdfdoc.Cell{{Text: "accept", St: pdfdoc.Small}, {Text: interval, St: pdfdoc.Small}}
+}
+
 // results is the table of every limit's outcome, as found before adjustment and
 // as left after it, by stage and channel. Toleranced limits (with a decision)
 // show the tolerance, the acceptance interval, the zone, the TUR and the
@@ -293,7 +305,7 @@ func (d *doc) resultsTable() resultsTable {
 			tol := pdfdoc.Cell{{Text: fmtTolerance(dd, o.Unit), St: pdfdoc.Body}}
 			switch {
 			case dd.Rule == "guarded" && (dd.AcceptLower != nil || dd.AcceptUpper != nil):
-				tol = append(tol, pdfdoc.Span{Text: "accept " + fmtAcceptance(dd, o.Unit), St: pdfdoc.Small})
+				tol = append(tol, d.acceptSpans(fmtAcceptance(dd, o.Unit), cols[2].W-cols[2].Gap)...)
 			case dd.Rule == "simple":
 				tol = append(tol, pdfdoc.Span{Text: "simple acceptance, w = 0", St: pdfdoc.Small})
 			case dd.Rule != "":
