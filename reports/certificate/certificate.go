@@ -25,8 +25,8 @@
 // are banded by the step that wrote them, the clear step's rows saying what
 // the unit held as found. A unit corrected by coefficients alone has no trim
 // code table and reads "corrected", not "trimmed". Measurements at one level
-// (a measure step's, a re-trim pass's) are rows of one table, each in the
-// unit of the quantity it read (a supply current in amperes beside a
+// (a measure step's) and re-trim passes are rows of one table, never plots,
+// each in the unit of the quantity it read (a supply current in amperes beside a
 // voltage output, with no error against the output's ideal).
 //
 // The document is made from the Record and the Options alone: identical inputs give

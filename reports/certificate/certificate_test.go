@@ -546,7 +546,7 @@ func TestOnePointSweepIsARowNotAPlot(t *testing.T) {
 		Points: []sequencer.Point{{Stimulus: 0, Mean: 2.5031, SD: 12e-6, Valid: 2, Readings: make([]instruments.Reading, 2)}}})
 	text := pdfText(t, render(t, rec, opt))
 	// 2.5031 V − 2.5 V (the ideal at 0 V) = 3.1 mV.
-	requireText(t, text, "Measurements at one level", "zero check as left", "2.5031 V 3.1 mV 12 µV 2/2")
+	requireText(t, text, "Measurements at fixed levels", "zero check as left", "2.5031 V 3.1 mV 12 µV 2/2")
 	if strings.Contains(text, "Sweep “zero check”") {
 		t.Error("the measurement has a point table of its own")
 	}

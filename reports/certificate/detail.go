@@ -344,7 +344,7 @@ func plotLook(st stage, adjust string) (title, label string, c pdfdoc.Color, mar
 func (d *doc) plotSeries() (ss []series, h float64) {
 	data := false
 	for _, sw := range d.sweepsByStage() {
-		if !curve(sw) {
+		if !curve(sw) || d.isRetrimPass(sw) { // a pass is a row of its table, not a plot
 			continue
 		}
 		title, label, c, m := plotLook(certStage(sw.StageOf()), d.adjustNoun())
@@ -473,8 +473,8 @@ type pointTable struct {
 }
 
 // pointTables lays the sweeps out in pairs, as found first, then as left;
-// the measurements at one level (a measure step's, a re-trim pass's) follow in
-// one table of their own, a row each.
+// the measurements at one level (a measure step's) and the re-trim passes
+// follow in one table of their own, a row a level.
 func (d *doc) pointTables() (out []pointTable) {
 	half := func(sep bool) []pdfdoc.Column {
 		return []pdfdoc.Column{
@@ -489,7 +489,7 @@ func (d *doc) pointTables() (out []pointTable) {
 	cols := append(half(false), half(true)...)
 	var sweeps, singles []sequencer.Sweep
 	for _, sw := range d.sweepsByStage() {
-		if len(sw.Points) == 1 {
+		if len(sw.Points) == 1 || d.isRetrimPass(sw) {
 			singles = append(singles, sw)
 		} else {
 			sweeps = append(sweeps, sw)
@@ -585,9 +585,10 @@ func (d *doc) pointCells(i int, p sequencer.Point) []pdfdoc.Cell {
 	}
 }
 
-// singlesTable is the table of the measurements at one level: one row each,
-// named by its step (a re-trim pass with the code in the DAC), in the unit of
-// the quantity it read. ok is false when there are none.
+// singlesTable is the table of the measurements at one level and of the
+// re-trim passes: a row each (a pass at several levels, a row a level), named
+// by its step (a re-trim pass with the code in the DAC), in the unit of the
+// quantity it read. ok is false when there are none.
 func (d *doc) singlesTable(sws []sequencer.Sweep) (pointTable, bool) {
 	if len(sws) == 0 {
 		return pointTable{}, false
@@ -603,7 +604,6 @@ func (d *doc) singlesTable(sws []sequencer.Sweep) (pointTable, bool) {
 	}
 	var rows []pdfdoc.Row
 	for _, sw := range sws {
-		p := sw.Points[0]
 		name := pdfdoc.Cell{{Text: sw.Name, St: pdfdoc.Bold}}
 		var about []string
 		if sw.Channel != "" {
@@ -620,24 +620,30 @@ func (d *doc) singlesTable(sws []sequencer.Sweep) (pointTable, bool) {
 			when = "adjustment"
 		}
 		q := d.sweepUnit(sw)
-		mean, errS, sd := "—", "—", "—"
-		if p.Valid > 0 {
-			mean = q.format(p.Mean, 7)
-			if q == d.resp() {
-				errS = q.format(p.Mean-(d.rec.IdealGain*p.Stimulus+d.rec.IdealOffset), 3)
+		for i, p := range sw.Points {
+			mean, errS, sd := "—", "—", "—"
+			if p.Valid > 0 {
+				mean = q.format(p.Mean, 7)
+				if q == d.resp() {
+					errS = q.format(p.Mean-(d.rec.IdealGain*p.Stimulus+d.rec.IdealOffset), 3)
+				}
+				if p.Valid > 1 {
+					sd = q.format(p.SD, 2)
+				}
 			}
-			if p.Valid > 1 {
-				sd = q.format(p.SD, 2)
+			valid := c1(fmt.Sprintf("%d/%d", p.Valid, len(p.Readings)), pdfdoc.Body)
+			if p.Valid < len(p.Readings) || p.Valid == 0 {
+				valid = c1(fmt.Sprintf("%d/%d", p.Valid, len(p.Readings)), pdfdoc.Bold.With(pdfdoc.Fail))
 			}
+			first, stage := name, c1(when, pdfdoc.Body)
+			if i > 0 { // the same measurement at its next level
+				first, stage = pdfdoc.Cell{}, pdfdoc.Cell{}
+			}
+			rows = append(rows, pdfdoc.Row{first, stage, c1(d.stim().format(p.Stimulus, 5), pdfdoc.Body),
+				c1(mean, pdfdoc.Body), c1(errS, pdfdoc.Bold), c1(sd, pdfdoc.Body), valid})
 		}
-		valid := c1(fmt.Sprintf("%d/%d", p.Valid, len(p.Readings)), pdfdoc.Body)
-		if p.Valid < len(p.Readings) || p.Valid == 0 {
-			valid = c1(fmt.Sprintf("%d/%d", p.Valid, len(p.Readings)), pdfdoc.Bold.With(pdfdoc.Fail))
-		}
-		rows = append(rows, pdfdoc.Row{name, c1(when, pdfdoc.Body), c1(d.stim().format(p.Stimulus, 5), pdfdoc.Body),
-			c1(mean, pdfdoc.Body), c1(errS, pdfdoc.Bold), c1(sd, pdfdoc.Body), valid})
 	}
-	return pointTable{cols, rows, []pdfdoc.Group{{Title: "Measurements at one level", N: len(cols)}}}, true
+	return pointTable{cols, rows, []pdfdoc.Group{{Title: "Measurements at fixed levels", N: len(cols)}}}, true
 }
 
 // retrimPassOf is the re-trim pass whose measurement sw is: the sweep the
@@ -649,6 +655,12 @@ func (d *doc) retrimPassOf(sw sequencer.Sweep) (sequencer.RetrimPass, bool) {
 		}
 	}
 	return sequencer.RetrimPass{}, false
+}
+
+// isRetrimPass reports whether sw is the measurement of a re-trim pass.
+func (d *doc) isRetrimPass(sw sequencer.Sweep) bool {
+	_, ok := d.retrimPassOf(sw)
+	return ok
 }
 
 // sweepUnit is the quantity a sweep read: the record's response, or for a

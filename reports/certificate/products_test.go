@@ -330,7 +330,7 @@ func TestRetrimmedCodeAndSignedCodes(t *testing.T) {
 	if text == "" {
 		return
 	}
-	for _, s := range []string{"re-trimmed from −11", "a closed-loop re-trim then moved the code", "Measurements at one level", "1.211317 mA"} {
+	for _, s := range []string{"re-trimmed from −11", "a closed-loop re-trim then moved the code", "Measurements at fixed levels", "1.211317 mA"} {
 		if !strings.Contains(text, s) {
 			t.Errorf("page text lacks %q", s)
 		}
@@ -564,5 +564,36 @@ func TestWideValuesBreakBetweenParts(t *testing.T) {
 	d.rec.Outcomes[0].Decision.Value, d.rec.Outcomes[0].Decision.U = 1.2, 0.05
 	if got := cellText(d.resultsTable().rows[0][1]); got != "1.200 mA ± 0.050 mA | k = 2.00" {
 		t.Errorf("short value: %q", got)
+	}
+}
+
+// A re-trim at two levels records each pass as a sweep of two points: still
+// rows of the table of fixed levels (a row a level), never a plot or a point
+// table of its own.
+func TestTwoLevelRetrimPassesAreRows(t *testing.T) {
+	rec := offsetRetrimRecord()
+	for i := range rec.Sweeps {
+		if strings.Contains(rec.Sweeps[i].Name, "pass") {
+			p := rec.Sweeps[i].Points[0]
+			p2 := p
+			p2.Stimulus, p2.Mean = 0.05, 100*0.05+p.Mean // 50 mV in: 5 V plus the same error
+			rec.Sweeps[i].Points = append(rec.Sweeps[i].Points, p2)
+		}
+	}
+	d := &doc{rec: rec}
+	if ss, _ := d.plotSeries(); len(ss) != 0 {
+		t.Errorf("%d plots drawn of re-trim passes", len(ss))
+	}
+	ts := d.pointTables()
+	if len(ts) != 1 {
+		t.Fatalf("%d point tables, want only the table of fixed levels", len(ts))
+	}
+	// supply current, zero check, then three passes of two rows each.
+	if n := len(ts[0].rows); n != 2+3*2 {
+		t.Fatalf("%d rows, want 8", n)
+	}
+	// The second level of pass 1: no name again; error = (5 V + 975.9375 µV) − 100 × 50 mV.
+	if got := rowText(ts[0].rows[3]); got != " ‖  ‖ 50 mV ‖ 5.000976 V ‖ 976 µV ‖ 17 µV ‖ 8/8" {
+		t.Errorf("pass 1, second level: %s", got)
 	}
 }
