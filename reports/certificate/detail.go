@@ -160,15 +160,23 @@ func (d *doc) fits() ([]pdfdoc.Column, []pdfdoc.Row, []pdfdoc.Band) {
 		if finite(f.Slope) {
 			slope = gain(f.Slope, resp, d.stim())
 		}
-		about := stageWord(d.fitStage(f))
+		var parts []string
+		if w := stageWord(d.fitStage(f)); w != f.Sweep { // a sweep named "as found" says it once
+			parts = append(parts, w)
+		}
 		if perSweep[[2]string{f.Sweep, f.Channel}] > 1 && f.Step != "" {
-			about += " · " + f.Step
+			parts = append(parts, f.Step)
 		}
 		if f.Order == 2 {
-			about += " · quadratic"
+			parts = append(parts, "quadratic")
+		}
+		about := strings.Join(parts, " · ")
+		sweep := pdfdoc.Cell{{Text: dash(f.Sweep), St: pdfdoc.Bold}}
+		if about != "" {
+			sweep = append(sweep, pdfdoc.Span{Text: about, St: pdfdoc.Small})
 		}
 		rows = append(rows, pdfdoc.Row{
-			pdfdoc.Cell{{Text: dash(f.Sweep), St: pdfdoc.Bold}, {Text: about, St: pdfdoc.Small}},
+			sweep,
 			c1(strconv.Itoa(f.DOF), pdfdoc.Body),
 			c1(slope, pdfdoc.Body),
 			c1(gainErr, pdfdoc.Body),
@@ -229,7 +237,7 @@ func certStage(s sequencer.Stage) stage {
 // sweepTitle names a sweep with its recorded stage: "Sweep “pre-trim” (as found)".
 func sweepTitle(sw sequencer.Sweep) string {
 	t := "Sweep “" + sw.Name + "”"
-	if st := certStage(sw.StageOf()); st != stageOther {
+	if st := certStage(sw.StageOf()); st != stageOther && stageWord(st) != sw.Name { // a sweep named "as found" says it once
 		t += " (" + stageWord(st) + ")"
 	}
 	if sw.Channel != "" {

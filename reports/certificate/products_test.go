@@ -597,3 +597,29 @@ func TestTwoLevelRetrimPassesAreRows(t *testing.T) {
 		t.Errorf("pass 1, second level: %s", got)
 	}
 }
+
+// A sweep named for its stage ("as found") is not labelled with the stage a
+// second time; "pre-trim" still says it is the as-found sweep.
+func TestStageNamedSweepSaysItOnce(t *testing.T) {
+	for _, c := range []struct {
+		name string
+		want string
+	}{
+		{"as found", "Sweep “as found”"},
+		{"pre-trim", "Sweep “pre-trim” (as found)"},
+	} {
+		if got := sweepTitle(sequencer.Sweep{Name: c.name, Stage: sequencer.AsFound}); got != c.want {
+			t.Errorf("sweepTitle(%q) = %q, want %q", c.name, got, c.want)
+		}
+	}
+	rec := &sequencer.Record{IdealGain: 100,
+		Sweeps: []sequencer.Sweep{{Name: "as found", Stage: sequencer.AsFound}, {Name: "pre-trim", Stage: sequencer.AsFound}},
+		Fits:   []sequencer.FitSummary{{Sweep: "as found", Slope: 100, DOF: 7}, {Sweep: "pre-trim", Slope: 100, DOF: 7}}}
+	_, rows, _ := (&doc{rec: rec}).fits()
+	if got := cellText(rows[0][0]); got != "as found" {
+		t.Errorf("fit of \"as found\": %q", got)
+	}
+	if got := cellText(rows[1][0]); got != "pre-trim | as found" {
+		t.Errorf("fit of \"pre-trim\": %q", got)
+	}
+}
