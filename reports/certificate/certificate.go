@@ -21,7 +21,13 @@
 // channel and its fits, plots, sweep points, codes and coefficients labelled
 // with their channel. Firmware correction coefficients (word written, value it
 // stands for, resolution, read-back) and the passes of a closed-loop re-trim
-// have a table each, shown only when the record has them.
+// have a table each, shown only when the record has them; the coefficients
+// are banded by the step that wrote them, the clear step's rows saying what
+// the unit held as found. A unit corrected by coefficients alone has no trim
+// code table and reads "corrected", not "trimmed". Measurements at one level
+// (a measure step's) and re-trim passes are rows of one table, never plots,
+// each in the unit of the quantity it read (a supply current in amperes beside a
+// voltage output, with no error against the output's ideal).
 //
 // The document is made from the Record and the Options alone: identical inputs give
 // byte-identical files. The creation date is the record's finish time, resource

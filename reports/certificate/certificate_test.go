@@ -541,16 +541,18 @@ func TestTraceabilityByKind(t *testing.T) {
 }
 
 // A single measurement (a measure step's one-point sweep) shows as a row of the
-// point tables: it draws no plot and names no band, and the header's count of
-// verifying sweeps leaves it out.
+// table of measurements at one level after the point tables: it draws no plot
+// and names no band, and the header's count of verifying sweeps leaves it out.
 func TestOnePointSweepIsARowNotAPlot(t *testing.T) {
 	rec := passRecord()
 	before := pdfText(t, render(t, passRecord(), opt))
 	rec.Sweeps = append(rec.Sweeps, sequencer.Sweep{Name: "zero check", Stage: sequencer.AsLeft,
-		Points: []sequencer.Point{{Stimulus: 0, Mean: 2.5031, Valid: 2, Readings: make([]instruments.Reading, 2)}}})
+		Points: []sequencer.Point{{Stimulus: 0, Mean: 2.5031, SD: 12e-6, Valid: 2, Readings: make([]instruments.Reading, 2)}}})
 	text := pdfText(t, render(t, rec, opt))
-	if !strings.Contains(text, "Sweep “zero check” (as left)") {
-		t.Error("the measurement has no row in the point tables")
+	// 2.5031 V − 2.5 V (the ideal at 0 V) = 3.1 mV.
+	requireText(t, text, "Measurements at fixed levels", "zero check as left", "2.5031 V 3.1 mV 12 µV 2/2")
+	if strings.Contains(text, "Sweep “zero check”") {
+		t.Error("the measurement has a point table of its own")
 	}
 	if strings.Contains(text, "zero check sweep") || strings.Contains(text, "zero check and") {
 		t.Error("a band or plot names the single measurement as a sweep")

@@ -3,6 +3,7 @@ package certificate
 import (
 	"fmt"
 	"math"
+	"regexp"
 	"slices"
 	"sort"
 	"strconv"
@@ -66,11 +67,14 @@ func (d *doc) statements() ([]pdfdoc.Column, []pdfdoc.Row) {
 			continue
 		}
 		about := stageWord(outcomeStage(d.rec, o))
+		if dd.Result != "" && about == "—" && d.rec.ResultStage(dd.Result) == sequencer.Adjustment {
+			about = "adjustment"
+		}
 		if ch := outcomeChannel(o); ch != "" {
 			about += " · " + chanWord(ch)
 		}
 		name := pdfdoc.Cell{{Text: o.Name, St: pdfdoc.Bold}, {Text: about, St: pdfdoc.Small}}
-		rows = append(rows, pdfdoc.Row{name, c1(dd.Statement, pdfdoc.Body), d.zoneCell(o)})
+		rows = append(rows, pdfdoc.Row{name, c1(statementText(dd.Statement, o.Unit), pdfdoc.Body), d.zoneCell(o)})
 	}
 	return []pdfdoc.Column{{Title: "Limit", W: 40, Align: "L"}, {Title: "Statement", W: 116, Align: "L"}, {Title: "Decision", W: 24, Align: "C"}}, rows
 }
@@ -102,10 +106,17 @@ func (d *doc) otherResults() ([]pdfdoc.Column, []pdfdoc.Row, []pdfdoc.Band) {
 			st = pdfdoc.Body.With(pdfdoc.Muted)
 		}
 		note := r.Note
-		if r.Valid && finite(r.Value) && r.Unit != "code" {
+		if n := d.retrimNote(r); n != "" {
+			note = strings.TrimSpace(n + "   " + note)
+		}
+		if r.Valid && finite(r.Value) && !exact(r) {
 			note = strings.TrimSpace(uncLine(r.Unc.Expanded, r.Unc.K, r.Unc.DOF, r.Unc.Method) + "   " + note)
 		}
-		rows = append(rows, pdfdoc.Row{c1(r.Name, pdfdoc.Bold), c1(stageWord(stageOf(d.rec, r.Name)), pdfdoc.Body), c1(fmtResultU(r), st), c1(note, pdfdoc.Small)})
+		when := stageWord(stageOf(d.rec, r.Name))
+		if when == "—" && r.StageOf() == sequencer.Adjustment {
+			when = "adjustment" // a code or coefficient the adjustment wrote
+		}
+		rows = append(rows, pdfdoc.Row{c1(r.Name, pdfdoc.Bold), c1(when, pdfdoc.Body), c1(fmtResultU(r), st), c1(note, pdfdoc.Small)})
 	}
 	return []pdfdoc.Column{
 		{Title: "Result", W: 48, Align: "L"},
@@ -149,25 +160,54 @@ func (d *doc) fits() ([]pdfdoc.Column, []pdfdoc.Row, []pdfdoc.Band) {
 		if finite(f.Slope) {
 			slope = gain(f.Slope, resp, d.stim())
 		}
-		about := stageWord(d.fitStage(f))
+		var parts []string
+		if w := stageWord(d.fitStage(f)); w != f.Sweep { // a sweep named "as found" says it once
+			parts = append(parts, w)
+		}
 		if perSweep[[2]string{f.Sweep, f.Channel}] > 1 && f.Step != "" {
-			about += " · " + f.Step
+			parts = append(parts, f.Step)
 		}
 		if f.Order == 2 {
-			about += " · quadratic"
+			parts = append(parts, "quadratic")
+		}
+		about := strings.Join(parts, " · ")
+		sweep := pdfdoc.Cell{{Text: dash(f.Sweep), St: pdfdoc.Bold}}
+		if about != "" {
+			sweep = append(sweep, pdfdoc.Span{Text: about, St: pdfdoc.Small})
 		}
 		rows = append(rows, pdfdoc.Row{
-			pdfdoc.Cell{{Text: dash(f.Sweep), St: pdfdoc.Bold}, {Text: about, St: pdfdoc.Small}},
+			sweep,
 			c1(strconv.Itoa(f.DOF), pdfdoc.Body),
 			c1(slope, pdfdoc.Body),
 			c1(gainErr, pdfdoc.Body),
-			c1(resp.format(f.Intercept, 7), pdfdoc.Body),
-			c1(resp.format(f.Intercept-r.IdealOffset, 3), pdfdoc.Body),
+			c1(fitOutput(resp, f.Intercept, 7), pdfdoc.Body),
+			c1(fitOutput(resp, f.Intercept-r.IdealOffset, 3), pdfdoc.Body),
 			c1(resp.format(f.ResidualSD, 3), pdfdoc.Body),
 			c1(nl, pdfdoc.Body),
 		})
 	}
 	return cols, rows, bands.get()
+}
+
+// fitOutput writes a fit's output (at 0 V, or its offset error) with digits
+// significant digits; in counts to three decimals at most, a thousandth of
+// the unit's step being below anything a fit of counts can tell (a fit that
+// met its ideal to 1.6e-12 counts reads "0.000 counts", not "1.552874e−12").
+func fitOutput(q quantity, v float64, digits int) string {
+	if q != qCount || !finite(v) {
+		return q.format(v, digits)
+	}
+	dec := 0
+	if a := math.Abs(v); a > 0 {
+		dec = digits - 1 - int(math.Floor(math.Log10(a)))
+	}
+	dec = max(0, min(dec, 3))
+	p := math.Pow(10, float64(dec))
+	r := math.Round(v*p) / p
+	if r == 0 {
+		r = 0 // no "−0.000"
+	}
+	return countText(pdfdoc.Minus(strconv.FormatFloat(r, 'f', dec, 64)))
 }
 
 // fitsTitle is the heading of the fits table: "Straight-line fits" unless a fit
@@ -197,7 +237,7 @@ func certStage(s sequencer.Stage) stage {
 // sweepTitle names a sweep with its recorded stage: "Sweep “pre-trim” (as found)".
 func sweepTitle(sw sequencer.Sweep) string {
 	t := "Sweep “" + sw.Name + "”"
-	if st := certStage(sw.StageOf()); st != stageOther {
+	if st := certStage(sw.StageOf()); st != stageOther && stageWord(st) != sw.Name { // a sweep named "as found" says it once
 		t += " (" + stageWord(st) + ")"
 	}
 	if sw.Channel != "" {
@@ -296,13 +336,13 @@ func (d *doc) errPoints(s *sequencer.Sweep) []xy {
 }
 
 // plotLook is how the plots draw the sweeps of a stage: title, legend label,
-// colour and marker.
-func plotLook(st stage) (title, label string, c pdfdoc.Color, marker int) {
+// colour and marker. adjust names the adjustment: "trim" or "correction".
+func plotLook(st stage, adjust string) (title, label string, c pdfdoc.Color, marker int) {
 	switch st {
 	case stageFound:
-		return "Before trim, as found", "before trim", colPre, markerCircle
+		return "Before " + adjust + ", as found", "before " + adjust, colPre, markerCircle
 	case stageLeft:
-		return "After trim, as left", "after trim", colPost, markerSquare
+		return "After " + adjust + ", as left", "after " + adjust, colPost, markerSquare
 	}
 	return "Sweep, stage not declared", "sweep", pdfdoc.Ink, markerCircle
 }
@@ -312,10 +352,10 @@ func plotLook(st stage) (title, label string, c pdfdoc.Color, marker int) {
 func (d *doc) plotSeries() (ss []series, h float64) {
 	data := false
 	for _, sw := range d.sweepsByStage() {
-		if !curve(sw) {
+		if !curve(sw) || d.isRetrimPass(sw) { // a pass is a row of its table, not a plot
 			continue
 		}
-		title, label, c, m := plotLook(certStage(sw.StageOf()))
+		title, label, c, m := plotLook(certStage(sw.StageOf()), d.adjustNoun())
 		if sw.Channel != "" {
 			title += " · " + chanWord(sw.Channel)
 		}
@@ -327,15 +367,29 @@ func (d *doc) plotSeries() (ss []series, h float64) {
 		return nil, 2 * (pdfdoc.Small.LineH() + 0.8)
 	}
 	rows := (len(ss) + 1) / 2
-	return ss, float64(rows)*(plotH+1.5) + float64(len(d.legendLines(ss)))*legendH + 2*(pdfdoc.Small.LineH()+0.8)
+	return ss, float64(rows)*(plotHeight(len(ss))+1.5) + float64(len(d.legendLines(ss)))*legendH + 2*(pdfdoc.Small.LineH()+0.8)
 }
 
-// plotH is the height of one plot; legendH of one line of the legend.
+// plotH is the height of one plot (plotHeight: of a short one); legendH of one
+// line of the legend.
 const (
 	plotH   = 64.0
 	legendH = 4.0
 	plotGap = 8.0
+	// plotShortH is the height of a plot when there are four rows of them (a
+	// unit of four channels, before and after): four rows of it fit one page
+	// below a heading, where four of plotH take two pages.
+	plotShortH = 54.0
 )
+
+// plotHeight is the height of each of n plots, two to a row: plotH for up to
+// three rows, plotShortH for more.
+func plotHeight(n int) float64 {
+	if (n+1)/2 > 3 {
+		return plotShortH
+	}
+	return plotH
+}
 
 // legendEntry is one series' entry in the legend: its text, where it starts on
 // its line, and its series.
@@ -379,8 +433,9 @@ func (d *doc) legendLines(ss []series) [][]legendEntry {
 // side, each on its own scale. h is the height of the section from plotSeries.
 func (d *doc) plots(ss []series, h float64) {
 	follow := h
+	ph := plotHeight(len(ss))
 	if follow > bottom-marginT-headingH {
-		follow = plotH + 1.5
+		follow = ph + 1.5
 	}
 	d.heading("Error from the ideal transfer", follow)
 	if len(ss) == 0 {
@@ -390,12 +445,12 @@ func (d *doc) plots(ss []series, h float64) {
 	w := (contentW - plotGap) / 2
 	for k := 0; k < len(ss); k += 2 {
 		if k > 0 {
-			d.need(plotH + 1.5)
+			d.need(ph + 1.5)
 		}
 		for j, s := range ss[k:min(k+2, len(ss))] {
-			d.plot(marginL+float64(j)*(w+plotGap), d.Y, w, plotH, s)
+			d.plot(marginL+float64(j)*(w+plotGap), d.Y, w, ph, s)
 		}
-		d.Y += plotH + 1.5
+		d.Y += ph + 1.5
 	}
 
 	// Legend, shared by the plots.
@@ -425,8 +480,10 @@ type pointTable struct {
 	groups []pdfdoc.Group
 }
 
-// pointTables lays the sweeps out in pairs, as found first, then as left.
-func (d *doc) pointTables() []pointTable {
+// pointTables lays the sweeps out in pairs, as found first, then as left;
+// the measurements at one level (a measure step's) and the re-trim passes
+// follow in one table of their own, a row a level.
+func (d *doc) pointTables() (out []pointTable) {
 	half := func(sep bool) []pdfdoc.Column {
 		return []pdfdoc.Column{
 			{Title: "#", W: 8, Align: "R", Sep: sep},
@@ -438,8 +495,19 @@ func (d *doc) pointTables() []pointTable {
 		}
 	}
 	cols := append(half(false), half(true)...)
-	var out []pointTable
-	sweeps := d.sweepsByStage()
+	var sweeps, singles []sequencer.Sweep
+	for _, sw := range d.sweepsByStage() {
+		if len(sw.Points) == 1 || d.isRetrimPass(sw) {
+			singles = append(singles, sw)
+		} else {
+			sweeps = append(sweeps, sw)
+		}
+	}
+	defer func() {
+		if t, ok := d.singlesTable(singles); ok {
+			out = append(out, t)
+		}
+	}()
 	for k := 0; k < len(sweeps); k += 2 {
 		pair := sweeps[k:min(k+2, len(sweeps))]
 		if len(pair[0].Points) == 0 && (len(pair) == 1 || len(pair[1].Points) == 0) {
@@ -461,7 +529,15 @@ func (d *doc) pointTables() []pointTable {
 			}
 			rows = append(rows, rw)
 		}
-		out = append(out, pointTable{cols, rows, groups})
+		tcols := cols
+		if len(pair) == 1 {
+			// A sweep without a partner: no column titles over the empty half.
+			tcols = append(half(false), make([]pdfdoc.Column, 6)...)
+			for j, c := range half(false) {
+				tcols[6+j] = pdfdoc.Column{W: c.W, Align: c.Align}
+			}
+		}
+		out = append(out, pointTable{tcols, rows, groups})
 	}
 	return out
 }
@@ -482,6 +558,9 @@ func (d *doc) sweepPoints(ts []pointTable) {
 		d.Table(t.cols, t.rows, nil, t.groups...)
 	}
 	note := "Error = mean output − ideal output; s is the standard deviation of the valid readings at the point."
+	if d.otherQuantity() {
+		note += " A measurement of another quantity than the unit's output (a supply current) has no ideal and no error."
+	}
 	if d.resp() == qCount {
 		note += " Mean output, error and s are in counts, the numbers the unit reports."
 	}
@@ -512,4 +591,161 @@ func (d *doc) pointCells(i int, p sequencer.Point) []pdfdoc.Cell {
 		c1(sd, pdfdoc.Body),
 		valid,
 	}
+}
+
+// singlesTable is the table of the measurements at one level and of the
+// re-trim passes: a row each (a pass at several levels, a row a level), named
+// by its step (a re-trim pass with the code in the DAC), in the unit of the
+// quantity it read. ok is false when there are none.
+func (d *doc) singlesTable(sws []sequencer.Sweep) (pointTable, bool) {
+	if len(sws) == 0 {
+		return pointTable{}, false
+	}
+	cols := []pdfdoc.Column{
+		{Title: "Measurement", W: 56, Align: "L"},
+		{Title: "Stage", W: 20, Align: "L"},
+		{Title: "Stimulus", W: 20, Align: "R"},
+		{Title: "Mean", W: 28, Align: "R"},
+		{Title: "Error", W: 22, Align: "R"},
+		{Title: "s", W: 20, Align: "R"},
+		{Title: "Valid", W: 14, Align: "R"},
+	}
+	var rows []pdfdoc.Row
+	for _, sw := range sws {
+		name := pdfdoc.Cell{{Text: sw.Name, St: pdfdoc.Bold}}
+		var about []string
+		if sw.Channel != "" {
+			about = append(about, chanWord(sw.Channel))
+		}
+		if rp, ok := d.retrimPassOf(sw); ok {
+			about = append(about, "re-trim pass "+strconv.Itoa(rp.Pass)+", code "+fmtCode(rp.Code)+" in the "+dash(rp.DAC)+" DAC")
+		}
+		if len(about) > 0 {
+			name = append(name, pdfdoc.Span{Text: strings.Join(about, " · "), St: pdfdoc.Small})
+		}
+		when := stageWord(certStage(sw.StageOf()))
+		if sw.StageOf() == sequencer.Adjustment {
+			when = "adjustment"
+		}
+		q := d.sweepUnit(sw)
+		for i, p := range sw.Points {
+			mean, errS, sd := "—", "—", "—"
+			if p.Valid > 0 {
+				mean = q.format(p.Mean, 7)
+				if q == d.resp() {
+					errS = q.format(p.Mean-(d.rec.IdealGain*p.Stimulus+d.rec.IdealOffset), 3)
+				}
+				if p.Valid > 1 {
+					sd = q.format(p.SD, 2)
+				}
+			}
+			valid := c1(fmt.Sprintf("%d/%d", p.Valid, len(p.Readings)), pdfdoc.Body)
+			if p.Valid < len(p.Readings) || p.Valid == 0 {
+				valid = c1(fmt.Sprintf("%d/%d", p.Valid, len(p.Readings)), pdfdoc.Bold.With(pdfdoc.Fail))
+			}
+			first, stage := name, c1(when, pdfdoc.Body)
+			if i > 0 { // the same measurement at its next level
+				first, stage = pdfdoc.Cell{}, pdfdoc.Cell{}
+			}
+			rows = append(rows, pdfdoc.Row{first, stage, c1(d.stim().format(p.Stimulus, 5), pdfdoc.Body),
+				c1(mean, pdfdoc.Body), c1(errS, pdfdoc.Bold), c1(sd, pdfdoc.Body), valid})
+		}
+	}
+	return pointTable{cols, rows, []pdfdoc.Group{{Title: "Measurements at fixed levels", N: len(cols)}}}, true
+}
+
+// retrimPassOf is the re-trim pass whose measurement sw is: the sweep the
+// re-trim step records as "<step> pass N" on the pass's channel.
+func (d *doc) retrimPassOf(sw sequencer.Sweep) (sequencer.RetrimPass, bool) {
+	for _, p := range d.rec.Retrims {
+		if p.Channel == sw.Channel && sw.Name == p.Step+" pass "+strconv.Itoa(p.Pass) {
+			return p, true
+		}
+	}
+	return sequencer.RetrimPass{}, false
+}
+
+// isRetrimPass reports whether sw is the measurement of a re-trim pass.
+func (d *doc) isRetrimPass(sw sequencer.Sweep) bool {
+	_, ok := d.retrimPassOf(sw)
+	return ok
+}
+
+// sweepUnit is the quantity a sweep read: the record's response, or for a
+// measure step of another quantity (a supply current read by a second meter)
+// the unit of the results its step gave on its channel.
+func (d *doc) sweepUnit(sw sequencer.Sweep) quantity {
+	for _, r := range d.rec.Results {
+		if r.Step != sw.Name || r.Channel != sw.Channel {
+			continue
+		}
+		switch r.Unit {
+		case "V", "A", "count":
+			return quantityOf(r.Unit)
+		}
+	}
+	return d.resp()
+}
+
+// otherQuantity reports whether a sweep of the record read another quantity
+// than the unit's response.
+func (d *doc) otherQuantity() bool {
+	for _, sw := range d.rec.Sweeps {
+		if d.sweepUnit(sw) != d.resp() {
+			return true
+		}
+	}
+	return false
+}
+
+// fmtCode writes a DAC code, a negative one with a minus sign: "−14".
+func fmtCode(c int) string { return pdfdoc.Minus(strconv.Itoa(c)) }
+
+// retrimNote says of a trim step's code that a closed-loop re-trim later
+// moved it: "written by the trim; re-trimmed to −14 by “offset re-trim”", so
+// that the code beside the final one in the trim table does not read as a
+// contradiction. "" for any other result.
+func (d *doc) retrimNote(r sequencer.Result) string {
+	if r.Unit != "code" || !r.Valid || !d.stepKindIs(r.Step, r.Channel, "trim") {
+		return ""
+	}
+	for _, g := range d.retrimGroups() {
+		first, last := g.passes[0], g.passes[len(g.passes)-1]
+		if g.channel == r.Channel && float64(first.Code) == r.Value && last.Next != first.Code {
+			return "written by the trim; re-trimmed to " + fmtCode(last.Next) + " by “" + g.step + "”"
+		}
+	}
+	return ""
+}
+
+// stepKindIs reports whether the record's step of that name (on channel ch,
+// or of the whole unit) is of kind.
+func (d *doc) stepKindIs(name, ch, kind string) bool {
+	for _, s := range d.rec.Steps {
+		if s.Name == name && (s.Channel == "" || s.Channel == ch) {
+			return s.Kind == kind
+		}
+	}
+	return false
+}
+
+// countsWord matches a number followed by the word "count" in a decision
+// statement (the limits package writes the limit file's unit as it is):
+// group 1 is the number.
+var countsWord = regexp.MustCompile(`([−-]?[0-9][0-9.]*(?:e[−+-]?[0-9]+)?) count\b`)
+
+// statementText is a decision statement as the certificate prints it: in a
+// limit whose unit is "count", a number of counts reads "0.222 counts", as
+// the tables write it; "1 count" stays one.
+func statementText(s, unit string) string {
+	if strings.TrimSpace(unit) != "count" {
+		return s
+	}
+	return countsWord.ReplaceAllStringFunc(s, func(m string) string {
+		n := countsWord.FindStringSubmatch(m)[1]
+		if n == "1" || n == "−1" || n == "-1" {
+			return m
+		}
+		return m + "s"
+	})
 }

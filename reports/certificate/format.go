@@ -95,6 +95,9 @@ func fmtValue(v float64, unit string) string {
 	}
 	u := dispUnit(unit)
 	if u == "" {
+		if math.Abs(v-1) < 0.1 { // a correction factor: its difference from 1 shows
+			return pdfdoc.Minus(units.FormatSig(v, 6))
+		}
 		return fmtNum(v)
 	}
 	return fmtNum(v) + " " + u
@@ -145,6 +148,15 @@ func fmtResult(r sequencer.Result) string {
 	if !r.Valid || math.IsNaN(r.Value) || math.IsInf(r.Value, 0) {
 		return "not valid"
 	}
+	r = shownResult(r)
+	if r.Unit == "number" {
+		if exact(r) {
+			return pdfdoc.Minus(strconv.FormatFloat(math.Round(r.Value), 'f', 0, 64))
+		}
+		if factor(r) {
+			return pdfdoc.Minus(units.FormatSig(r.Value, 6))
+		}
+	}
 	switch r.Unit {
 	case "V", "A":
 		return pdfdoc.Minus(units.Format(r.Value, r.Unit, 4))
@@ -161,6 +173,46 @@ func fmtResult(r sequencer.Result) string {
 		return pdfdoc.Minus(units.FormatNumber(r.Value, 3))
 	}
 	return strings.TrimSpace(fmtNum(r.Value) + " " + r.Unit)
+}
+
+// shownResult is r as the certificate writes it: a result recorded in codes
+// that has an evaluated uncertainty or a fraction is no trim code but a
+// measured number of counts (an offset coefficient of a unit that reports
+// counts), and is written as counts, with its U.
+func shownResult(r sequencer.Result) sequencer.Result {
+	if r.Unit == "code" && (hasU(r.Unc.Expanded) || r.Value != math.Round(r.Value)) {
+		r.Unit = "count"
+	}
+	return r
+}
+
+// exact reports whether a result is an exact whole number that has no
+// uncertainty: a trim code, or a count of passes.
+func exact(r sequencer.Result) bool {
+	switch {
+	case r.Unit == "code":
+		return !hasU(r.Unc.Expanded) && r.Value == math.Round(r.Value)
+	case r.Unit == "number" && r.Quantity == "passes":
+		return r.Value == math.Round(r.Value)
+	}
+	return false
+}
+
+// factor reports whether a plain number is a correction factor, written with
+// six significant digits so that its difference from 1 shows (0.994507, not
+// 0.995): a gain coefficient, or, in a result that does not say its quantity,
+// a plain number within 10 % of 1.
+func factor(r sequencer.Result) bool {
+	if r.Unit != "number" {
+		return false
+	}
+	switch r.Quantity {
+	case "gain_coefficient":
+		return true
+	case "":
+		return math.Abs(r.Value-1) < 0.1
+	}
+	return false
 }
 
 // fmtVolts writes a voltage with an SI prefix, or "—" when it is not a number.
@@ -324,6 +376,7 @@ func fmtResultU(r sequencer.Result) string {
 	if !r.Valid || !finite(r.Value) {
 		return "not valid"
 	}
+	r = shownResult(r)
 	if !hasU(r.Unc.Expanded) {
 		return fmtResult(r)
 	}

@@ -156,7 +156,7 @@ func (d *doc) identification() {
 	lines := [][]field{
 		{{"Serial number", dash(r.Serial), big}},
 		{{"Product", product, val}},
-		{{"Trimmed to", "output = " + transfer, val}},
+		{{d.adjustedWord(), "output = " + transfer, val}},
 		{{"Tested", tested, val}},
 		{{"Conditions", ambient(r.Conditions), val}},
 		{{"Station", dash(r.Station), val}, {"Operator", dash(r.Operator), val}},

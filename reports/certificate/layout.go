@@ -141,17 +141,36 @@ func (d *doc) fields(fs []para) {
 	lh := st.LineH() + 0.3
 	for _, f := range fs {
 		lines := d.Wrap(f.text, contentW-labelW, st)
-		d.need(lh * float64(min(len(lines), 2)))
+		// A paragraph of up to four lines is kept whole, so that no page
+		// starts with its last word alone; a longer one starts with two.
+		if len(lines) <= 4 {
+			d.need(lh * float64(len(lines)))
+		} else {
+			d.need(lh * 2)
+		}
 		d.Cell(marginL, d.Y+0.4, labelW, lh, f.label, stLabel, "L")
 		for i, l := range lines {
 			if i > 0 && d.need(lh) {
-				d.Cell(marginL, d.Y+0.4, labelW, lh, f.label+" (continued)", stLabel, "L")
+				d.Cell(marginL, d.Y+0.4, labelW, lh, d.continued(f.label, labelW-1), stLabel, "L")
 			}
 			d.Cell(marginL+labelW, d.Y+0.4, contentW-labelW, lh, l, st, "L")
 			d.Y += lh
 		}
 		d.Y += 1
 	}
+}
+
+// continued is a label repeated where its paragraph goes on after a page
+// break, as wide as w at most: "Station (continued)", or for a longer label
+// "Traceability (cont.)", or the label alone, so that it never runs into the
+// text beside it.
+func (d *doc) continued(label string, w float64) string {
+	for _, s := range []string{label + " (continued)", label + " (cont.)"} {
+		if d.TextWidth(s, stLabel) <= w {
+			return s
+		}
+	}
+	return label
 }
 
 // note is a line of small print under a table.

@@ -3,6 +3,7 @@ package certificate
 import (
 	"math"
 	"strconv"
+	"strings"
 
 	"trimline/instruments/units"
 	"trimline/reports/internal/pdfdoc"
@@ -114,7 +115,7 @@ func gainUnit(q, s quantity) string { return string(q) + "/" + string(s) }
 // amperes per unit of stimulus takes the SI prefix that suits it.
 func gain(g float64, q, s quantity) string {
 	if q != qAmp || g == 0 || !finite(g) {
-		return strconv.FormatFloat(g, 'g', 7, 64) + " " + gainUnit(q, s)
+		return strings.ReplaceAll(pdfdoc.Minus(strconv.FormatFloat(g, 'g', 7, 64)), "e-", "e−") + " " + gainUnit(q, s)
 	}
 	f, p := 1e-9, "n"
 	for _, c := range prefixes {

@@ -145,8 +145,9 @@ func TestCoefficientRows(t *testing.T) {
 		// place. Stands for 16483/16384 = 1.00604248…, written to one decimal
 		// finer than the resolution 6.1035e-5 (ceil(4.21) + 1 = 6 decimals).
 		"gain | adjusts gain ‖ Q2.14 hex ‖ 1.006036 ± 0.000031 ‖ 0x4063 ‖ 1.006042 ‖ 6.104e−05 ‖ 0x4063 ‖ yes",
-		// Resolution 1e-4 mA: 5 decimals. The read-back 0 decodes to 0.
-		"offset | adjusts offset, in mA ‖ int16 decimal ‖ −0.01300 ± 0.00060 ‖ -130 ‖ −0.01300 ‖ 0.0001 ‖ 0 | = 0.00000 ‖ NO | differs from written",
+		// Resolution 1e-4 mA: 5 decimals. The read-back 0 decodes to 0, exact
+		// in every format.
+		"offset | adjusts offset, in mA ‖ int16 decimal ‖ −0.01300 ± 0.00060 ‖ -130 ‖ −0.01300 ‖ 0.0001 ‖ 0 | = 0 ‖ NO | differs from written",
 		"gain | adjusts gain ‖ float32 decimal ‖ 0.99 ‖ — | not written ‖ — ‖ — ‖ — ‖ —",
 	}
 	for i, r := range rows {

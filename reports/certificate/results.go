@@ -2,6 +2,7 @@ package certificate
 
 import (
 	"sort"
+	"strings"
 
 	"trimline/limits"
 	"trimline/reports/internal/pdfdoc"
@@ -109,9 +110,9 @@ func (d *doc) outcomesByStage() []limits.Outcome {
 
 // measuredCell is the measured value of a limit with its expanded uncertainty and,
 // below it, the coverage factor, degrees of freedom and method (or "U not
-// evaluated"). A toleranced limit shows its decision's numbers; an expression limit
+// evaluated"), in a column w mm wide. A toleranced limit shows its decision's numbers; an expression limit
 // shows each result it uses, its U converted to the limit's unit.
-func (d *doc) measuredCell(o limits.Outcome) pdfdoc.Cell {
+func (d *doc) measuredCell(o limits.Outcome, w float64) pdfdoc.Cell {
 	if dd := o.Decision; dd != nil {
 		v, ok := o.Values[dd.Result]
 		switch {
@@ -128,7 +129,7 @@ func (d *doc) measuredCell(o limits.Outcome) pdfdoc.Cell {
 			dof = r.Unc.DOF
 		}
 		sub := uncLine(dd.U, dd.K, dof, r.Unc.Method)
-		return pdfdoc.Cell{{Text: fmtWithU(dd.Value, dd.U, o.Unit), St: pdfdoc.Body}, {Text: sub, St: pdfdoc.Small}}
+		return append(d.valueSpans(fmtWithU(dd.Value, dd.U, o.Unit), w), pdfdoc.Span{Text: sub, St: pdfdoc.Small})
 	}
 	vals := outcomeValues(o) // the keys in order, for the "not measured" case
 	keys := outcomeKeys(o)
@@ -149,7 +150,7 @@ func (d *doc) measuredCell(o limits.Outcome) pdfdoc.Cell {
 		if len(keys) > 1 {
 			text = k + " = " + text
 		}
-		c = append(c, pdfdoc.Span{Text: text, St: pdfdoc.Body})
+		c = append(c, d.valueSpans(text, w)...)
 		if hasU(U) && finite(v) {
 			anyU = true
 			c = append(c, pdfdoc.Span{Text: uncLine(U, r.Unc.K, r.Unc.DOF, r.Unc.Method), St: pdfdoc.Small})
@@ -159,6 +160,30 @@ func (d *doc) measuredCell(o limits.Outcome) pdfdoc.Cell {
 		c = append(c, pdfdoc.Span{Text: "U not evaluated", St: pdfdoc.Small})
 	}
 	return c
+}
+
+// valueSpans is a value with its uncertainty, "v ± U", as one line of a cell w
+// mm wide, or when it does not fit, as two: the value, then "± U", so that
+// the page never breaks a number from its unit. (Without a page to measure
+// on, one line.)
+func (d *doc) valueSpans(text string, w float64) pdfdoc.Cell {
+	v, u, ok := strings.Cut(text, " ± ")
+	if !ok || d.PDF == nil || d.TextWidth(text, pdfdoc.Body) <= w-2*pdfdoc.PadX {
+		return c1(text, pdfdoc.Body)
+	}
+	return pdfdoc.Cell{{Text: v, St: pdfdoc.Body}, {Text: "± " + u, St: pdfdoc.Body}}
+}
+
+// acceptSpans is the acceptance interval under a tolerance, "accept −9.5 …
+// 9.5 µA", on one line of a cell w mm wide, or when it does not fit, the
+// word on one line and the interval whole on the next, so that the unit is
+// never left alone on a line. (Without a page to measure on, one line.)
+func (d *doc) acceptSpans(interval string, w float64) pdfdoc.Cell {
+	text := "accept " + interval
+	if d.PDF == nil || d.TextWidth(text, pdfdoc.Small) <= w-2*pdfdoc.PadX {
+		return c1(text, pdfdoc.Small)
+	}
+	return pdfdoc.Cell{{Text: "accept", St: pdfdoc.Small}, {Text: interval, St: pdfdoc.Small}}
 }
 
 // results is the table of every limit's outcome, as found before adjustment and
@@ -237,7 +262,7 @@ func (d *doc) resultsTable() resultsTable {
 		if o.Description != "" {
 			name = append(name, pdfdoc.Span{Text: o.Description, St: pdfdoc.Small})
 		}
-		meas := d.measuredCell(o)
+		meas := d.measuredCell(o, cols[1].W)
 		// An expression limit's reason says what was false; a toleranced limit's
 		// is in the reasons above and in its decision statement, and its zone is
 		// in the row, so it is not repeated here.
@@ -280,15 +305,20 @@ func (d *doc) resultsTable() resultsTable {
 			tol := pdfdoc.Cell{{Text: fmtTolerance(dd, o.Unit), St: pdfdoc.Body}}
 			switch {
 			case dd.Rule == "guarded" && (dd.AcceptLower != nil || dd.AcceptUpper != nil):
-				tol = append(tol, pdfdoc.Span{Text: "accept " + fmtAcceptance(dd, o.Unit), St: pdfdoc.Small})
+				tol = append(tol, d.acceptSpans(fmtAcceptance(dd, o.Unit), cols[2].W-cols[2].Gap)...)
 			case dd.Rule == "simple":
 				tol = append(tol, pdfdoc.Span{Text: "simple acceptance, w = 0", St: pdfdoc.Small})
 			case dd.Rule != "":
 				tol = append(tol, pdfdoc.Span{Text: "rule " + dd.Rule, St: pdfdoc.Small})
 			}
 			tur := c1(fmtTUR(dd.TUR), pdfdoc.Body)
-			if fmtTUR(dd.TUR) == "—" {
+			switch {
+			case fmtTUR(dd.TUR) == "—":
 				tur = c1("—", pdfdoc.Small)
+			case dd.TUR >= 1e5:
+				tur = c1("≥ 1e5:1", pdfdoc.Small) // a tolerance that dwarfs U: the digits say nothing more
+			case dd.TUR >= 1e4:
+				tur = c1(fmtTUR(dd.TUR), pdfdoc.Small) // five digits: the small size fits the column
 			}
 			if dd.TURLow {
 				tur = c1(fmtTUR(dd.TUR)+" ¹", pdfdoc.Bold.With(colCondPass))

@@ -104,13 +104,13 @@ func (d *doc) retrimTable() ([]pdfdoc.Column, []pdfdoc.Row, []pdfdoc.Band, []str
 			if p.Within {
 				within = c1("yes", pdfdoc.Bold.With(pdfdoc.Pass))
 			}
-			next := c1(strconv.Itoa(p.Next), pdfdoc.Body)
+			next := c1(fmtCode(p.Next), pdfdoc.Body)
 			if i == len(g.passes)-1 {
-				next = pdfdoc.Cell{{Text: strconv.Itoa(p.Next), St: pdfdoc.Bold}, {Text: "left in the DAC", St: pdfdoc.Small}}
+				next = pdfdoc.Cell{{Text: fmtCode(p.Next), St: pdfdoc.Bold}, {Text: "left in the DAC", St: pdfdoc.Small}}
 			}
 			rows = append(rows, pdfdoc.Row{
 				c1(strconv.Itoa(p.Pass), pdfdoc.Body),
-				c1(strconv.Itoa(p.Code), pdfdoc.Body),
+				c1(fmtCode(p.Code), pdfdoc.Body),
 				c1(errU, pdfdoc.Body),
 				sens,
 				within,
@@ -131,8 +131,8 @@ func retrimEnd(g retrimGroup, resp quantity) string {
 	}
 	last := g.passes[len(g.passes)-1]
 	if last.Within {
-		return fmt.Sprintf("%s: within the bound on pass %d with code %d (error %s); code %d left in the DAC.",
-			who, last.Pass, last.Code, resp.format(last.Error, 3), last.Next)
+		return fmt.Sprintf("%s: within the bound on pass %d with code %s (error %s); code %s left in the DAC.",
+			who, last.Pass, fmtCode(last.Code), resp.format(last.Error, 3), fmtCode(last.Next))
 	}
 	best := g.passes[0]
 	for _, p := range g.passes[1:] {
@@ -141,9 +141,9 @@ func retrimEnd(g retrimGroup, resp quantity) string {
 		}
 	}
 	if best.Code == last.Next {
-		return fmt.Sprintf("%s: not within the bound after %s; the best code tried, %d (error %s), was left in the DAC.",
-			who, plural(len(g.passes), "pass", "passes"), best.Code, resp.format(best.Error, 3))
+		return fmt.Sprintf("%s: not within the bound after %s; the best code tried, %s (error %s), was left in the DAC.",
+			who, plural(len(g.passes), "pass", "passes"), fmtCode(best.Code), resp.format(best.Error, 3))
 	}
-	return fmt.Sprintf("%s: not within the bound after %s; the best code tried was %d (error %s); code %d left in the DAC.",
-		who, plural(len(g.passes), "pass", "passes"), best.Code, resp.format(best.Error, 3), last.Next)
+	return fmt.Sprintf("%s: not within the bound after %s; the best code tried was %s (error %s); code %s left in the DAC.",
+		who, plural(len(g.passes), "pass", "passes"), fmtCode(best.Code), resp.format(best.Error, 3), fmtCode(last.Next))
 }
