@@ -272,6 +272,13 @@ func TestTwoMeters(t *testing.T) {
 	}
 	u, _ := b.DUT().Unit()
 	near(t, "supply meter", rs[0].Value, u.SupplyCurrent, 5e-9)
+	// Two meters are two instruments: the certificate's traceability names each
+	// by its own serial.
+	id1, _ := ms[0].Identify(ctx)
+	id2, _ := ms[1].Identify(ctx)
+	if id1.Serial == id2.Serial || id2.Serial != id1.Serial+"-2" {
+		t.Errorf("meter serials %q and %q: want the second to be the first's with -2", id1.Serial, id2.Serial)
+	}
 	// The second meter's errors are its own stream's: not the first meter's.
 	b2 := bench(t, nil, map[string]string{}, nil)
 	two, _ := sim.NewBench([]instruments.Spec{{Address: "sim://meter"}, {Role: "m2", Address: "sim://meter"}})

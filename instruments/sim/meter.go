@@ -268,7 +268,14 @@ func (m *Meter) Reset(ctx context.Context) error {
 
 // Identify returns the meter's invented identity.
 func (m *Meter) Identify(ctx context.Context) (instruments.Identity, error) {
-	return m.identify(ctx, "DV-65", "DV")
+	id, err := m.identify(ctx, "DV-65", "DV")
+	// A second meter on the bench is another instrument: its serial says which.
+	for i, o := range m.bench.meters {
+		if o == m && i > 0 && err == nil {
+			id.Serial += fmt.Sprintf("-%d", i+1)
+		}
+	}
+	return id, err
 }
 
 // Read takes n ≥ 1 readings in the present function. Each samples the meter's input
