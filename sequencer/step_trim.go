@@ -263,9 +263,7 @@ func (s *trimStep) Run(ctx context.Context, u *Unit) error {
 	}
 	idealU := idealCodeU(s.plan, fk.a, sol, before)
 	for i, d := range s.plan.DACs {
-		if d.Adjusts != AdjustGain {
-			idealU[i] /= math.Abs(kf) // the intercept's uncertainty, on the raw line
-		}
+		idealU[i] = codeUOnRawLine(d, idealU[i], kf)
 	}
 	var sat []string
 	for i, d := range dacs {
@@ -302,6 +300,19 @@ func (s *trimStep) Run(ctx context.Context, u *Unit) error {
 		u.SetCode(d.Name, sol.Codes[i].Code)
 	}
 	return nil
+}
+
+// codeUOnRawLine is the standard uncertainty of DAC d's ideal code, u in codes as
+// idealCodeU gives it from the corrected line, when the fit was measured under a
+// firmware gain kf. An offset DAC at the output follows the raw intercept,
+// (b − m)/kf: its code's uncertainty is u/|kf|. For a gain DAC and an offset DAC
+// before the gain, the code is a ratio of the corrected line's parameters, in
+// which kf cancels: u as it is.
+func codeUOnRawLine(d DAC, u, kf float64) float64 {
+	if d.Adjusts != AdjustGain && !d.BeforeGain {
+		return u / math.Abs(kf)
+	}
+	return u
 }
 
 // coefInEffect is the firmware correction the unit applies on the running

@@ -205,3 +205,20 @@ func TestCountCertificateText(t *testing.T) {
 		t.Error("a count output is printed in volts")
 	}
 }
+
+// A unit driven by a current: its fits read "output at 0 A in", not 0 V, and
+// its gain is per ampere (a loop receiver: 4–20 mA in, 250 V/A out).
+func TestCurrentStimulusCertificateText(t *testing.T) {
+	rec := countRecord()
+	rec.StimulusUnit, rec.ResponseUnit = "A", "V"
+	rec.IdealGain, rec.IdealOffset, rec.FullScale = 250, 0, 5
+	for i := range rec.Results {
+		rec.Results[i].Unit = "V"
+	}
+	rec.Outcomes[0].Unit = "V"
+	text := pdfText(t, render(t, rec, opt))
+	requireText(t, text, "Output at 0 A in", "250 V/A")
+	if strings.Contains(text, "Output at 0 V in") {
+		t.Error("the fits of a current-driven unit say 0 V in")
+	}
+}

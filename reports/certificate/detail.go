@@ -134,7 +134,7 @@ func (d *doc) fits() ([]pdfdoc.Column, []pdfdoc.Row, []pdfdoc.Band) {
 		{Title: "DOF", W: 12, Align: "R"},
 		{Title: "Gain", W: 26, Align: "R"},
 		{Title: "Gain error", W: 22, Align: "R"},
-		{Title: "Output at 0 V in", W: 26, Align: "R"},
+		{Title: "Output at 0 " + d.stim().zeroName() + " in", W: 26, Align: "R"},
 		{Title: "Offset error", W: 24, Align: "R"},
 		{Title: "Residual s", W: 24, Align: "R"},
 		{Title: "Nonlinearity", W: 24, Align: "R"},
@@ -215,7 +215,8 @@ func fitOutput(q quantity, v float64, digits int) string {
 func (d *doc) fitsTitle() string {
 	for _, f := range d.rec.Fits {
 		if f.Order == 2 {
-			return "Fits of the sweeps (gain and output at 0 V in: the slope and value at 0 V)"
+			z := "0 " + d.stim().zeroName()
+			return "Fits of the sweeps (gain and output at " + z + " in: the slope and value at " + z + ")"
 		}
 	}
 	return "Straight-line fits"

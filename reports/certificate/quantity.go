@@ -31,6 +31,14 @@ func quantityOf(u string) quantity {
 	return quantity(u)
 }
 
+// zeroName is the unit a stimulus of zero is written in: "0 V in", "0 A in".
+func (q quantity) zeroName() string {
+	if q == qAmp {
+		return "A"
+	}
+	return "V"
+}
+
 // resp is the unit of the record's responses (means, errors, offsets, noise,
 // residuals); stim that of its stimuli.
 func (d *doc) resp() quantity { return quantityOf(d.rec.ResponseUnit) }
