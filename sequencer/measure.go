@@ -21,11 +21,14 @@ type analysis struct {
 
 // specs are the accuracy specifications of the sweep's meter (its spec for the
 // quantity read) and source (its spec for the stimulus: a voltage, or a current
-// with its range in A), and the resolution of the readings. A unit that
-// reports its own response has no meter spec: the resolution is the one its
-// response: declares.
-func specs(st *Station, p SweepPlan) (meter, source uncertainty.Spec, resolution float64) {
-	s := st.Instruments[p.Source].SpecFor(p.stimDim())
+// with its range in A), and the resolution of the readings, for a reading of
+// value y and a level x (volts or amperes). Where an instrument has several
+// specs of that dimension, the meter's is the one of the range the plan sets
+// (or the smallest that holds |y| on auto range) and the source's the smallest
+// range that holds |x| (StationInstrument.SpecAt). A unit that reports its own
+// response has no meter spec: the resolution is the one its response: declares.
+func specs(st *Station, p SweepPlan, y, x float64) (meter, source uncertainty.Spec, resolution float64) {
+	s := st.Instruments[p.Source].SpecAt(p.stimDim(), 0, x)
 	source = uncertainty.Spec{OfReading: s.OfReading, OfRange: s.OfRange, Range: s.Range}
 	if p.Response != nil {
 		return uncertainty.Spec{}, source, p.Response.Resolution
@@ -34,8 +37,20 @@ func specs(st *Station, p SweepPlan) (meter, source uncertainty.Spec, resolution
 	if q == units.Ratio { // a plan made before plans said their quantity
 		q = units.Volt
 	}
-	m := st.Instruments[p.Meter].SpecFor(q)
+	m := st.Instruments[p.Meter].SpecAt(q, p.MeterSet.Range, y)
 	return uncertainty.Spec{OfReading: m.OfReading, OfRange: m.OfRange, Range: m.Range}, source, m.Resolution
+}
+
+// sweepSpecs are specs for the whole sweep, as its fit takes them (one meter
+// and one source whose errors are shared by every point): those for the
+// largest |mean| and the largest |level|, so on auto range the range that
+// holds every point.
+func sweepSpecs(st *Station, p SweepPlan, ps []Point) (meter, source uncertainty.Spec, resolution float64) {
+	var y, x float64
+	for _, pt := range ps {
+		y, x = math.Max(y, math.Abs(pt.Mean)), math.Max(x, math.Abs(pt.Stimulus))
+	}
+	return specs(st, p, y, x)
 }
 
 // annotate fills each point's Type A and Type B standard uncertainties. The Type A
@@ -45,7 +60,6 @@ func specs(st *Station, p SweepPlan) (meter, source uncertainty.Spec, resolution
 // each); weights then differ only where the number of readings does, and a chance
 // small SD at one point cannot tilt the line.
 func annotate(cfg Config, plan SweepPlan, sw *Sweep) {
-	meter, source, res := specs(cfg.Station, plan)
 	g := cfg.Sequence.IdealGain
 	sp, _ := pooledSD(sw.Points)
 	for i := range sw.Points {
@@ -54,6 +68,7 @@ func annotate(cfg Config, plan SweepPlan, sw *Sweep) {
 			p.URandom = sp / math.Sqrt(float64(p.Valid))
 		}
 		if p.Valid > 0 {
+			meter, source, res := specs(cfg.Station, plan, p.Mean, p.Stimulus)
 			// Meter spec at the reading, half a count of resolution, and the
 			// source spec at the stimulus seen through the ideal gain; each
 			// rectangular (JCGM 100 §4.3.7).
@@ -97,7 +112,7 @@ func analyse(cfg Config, plan SweepPlan, sw Sweep, order int, seed string) (anal
 		}
 		x[i], y[i], ur[i], dof[i] = p.Stimulus, p.Mean, p.URandom, pdof
 	}
-	meter, source, res := specs(cfg.Station, plan)
+	meter, source, res := sweepSpecs(cfg.Station, plan, sw.Points)
 	us := uncertainty.Sweep{X: x, Y: y, URandom: ur, DOFRandom: dof, Meter: meter, MeterResolution: res, Source: source}
 	a := analysis{sw: us, poolDOF: pooled}
 	s := &a.sum

@@ -569,9 +569,10 @@ func TestQuantityLoadErrorsArePositioned(t *testing.T) {
 	if want := fmt.Sprintf("seq.yaml:%d:", qLineOf(text, "1 mV")); err == nil || !strings.Contains(err.Error(), "expected a count") || !strings.Contains(err.Error(), want) {
 		t.Errorf("resolution in volts: %v", err)
 	}
-	// Station: two specs of one dimension; a range of another dimension.
+	// Station: two specs of one dimension and one range (10 V written twice,
+	// once as 10000 mV); a range of another dimension.
 	for _, c := range []struct{ acc, want string }{
-		{"\n      - {of_reading: 30 ppm, of_range: 4 ppm, range: 10 V}\n      - {of_reading: 30 ppm, of_range: 4 ppm, range: 100 V}", "a second spec for a voltage (V) range"},
+		{"\n      - {of_reading: 30 ppm, of_range: 4 ppm, range: 10 V}\n      - {of_reading: 35 ppm, of_range: 5 ppm, range: 10000 mV}", "a second spec for the 10 V range (accuracy[0] is one already)"},
 		{"{of_reading: 30 ppm, of_range: 4 ppm, range: 10 ppm}", "expected a positive voltage or current range"},
 	} {
 		text := qStation(`{}`, `{}`, c.acc)

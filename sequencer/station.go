@@ -5,7 +5,9 @@ import (
 	"encoding/hex"
 	"errors"
 	"fmt"
+	"math"
 	"path/filepath"
+	"slices"
 	"sort"
 	"strings"
 	"time"
@@ -154,8 +156,10 @@ type StationInstrument struct {
 	CalDue  time.Time // the last day the calibration is valid, UTC midnight
 	// Accuracy is the instrument's one spec, or the first of its list.
 	Accuracy Accuracy
-	// Specs are every spec the file gives, one per dimension of range (a
-	// meter that reads volts and amperes has one of each); SpecFor picks one.
+	// Specs are every spec the file gives: one or more per dimension of range
+	// (a meter that reads volts and amperes has at least one of each; a meter
+	// with a spec per range has one per range), never two of the same range;
+	// SpecAt picks the one a reading was taken with.
 	Specs     []Accuracy
 	Model     string // expected model from *IDN?, empty = not pinned
 	Serial    string // expected serial from *IDN?, empty = not pinned
@@ -196,19 +200,77 @@ func (a Accuracy) String() string {
 }
 
 // SpecFor is the instrument's spec for readings of dimension d (units.Volt or
-// units.Ampere): the one whose range is of d, or the zero Accuracy when none
-// is. A spec of no stated dimension counts as volts.
+// units.Ampere): the first whose range is of d, or the zero Accuracy when none
+// is. A spec of no stated dimension counts as volts. SpecAt picks among
+// several of one dimension.
 func (si StationInstrument) SpecFor(d units.Dim) Accuracy {
+	for _, a := range si.specsOf(d) {
+		return a
+	}
+	return Accuracy{}
+}
+
+// OverRange is how far above its nominal range a range still reads: 1.2 ×
+// (20 % over-range), common practice for bench DMMs and calibrators. A reading
+// taken on auto range is held by the smallest range r with |value| ≤ OverRange·r.
+const OverRange = 1.2
+
+// SpecAt is the instrument's spec for one reading (or one programmed level) of
+// dimension d and value v (volts or amperes), taken with the range set to rng
+// (in d's unit; 0 = auto range):
+//   - the spec whose range equals rng, when one does;
+//   - else (auto range, or no spec for that range) the spec of the smallest
+//     range that holds |v| with OverRange, as the instrument's auto range picks;
+//   - else, |v| beyond every range, the spec of the largest range.
+//
+// An instrument with one spec of d always gives that spec, whatever rng and v.
+// The zero Accuracy comes back when no spec is of d.
+func (si StationInstrument) SpecAt(d units.Dim, rng, v float64) Accuracy {
+	specs := si.specsOf(d)
+	if len(specs) <= 1 {
+		return si.SpecFor(d)
+	}
+	if rng > 0 {
+		for _, a := range specs {
+			if sameRange(a.Range, rng) {
+				return a
+			}
+		}
+	}
+	var best, largest Accuracy
+	for _, a := range specs {
+		if math.Abs(v) <= OverRange*a.Range && (best == (Accuracy{}) || a.Range < best.Range) {
+			best = a
+		}
+		if a.Range > largest.Range {
+			largest = a
+		}
+	}
+	if best != (Accuracy{}) {
+		return best
+	}
+	return largest
+}
+
+// specsOf are the instrument's specs of dimension d, in file order.
+func (si StationInstrument) specsOf(d units.Dim) []Accuracy {
 	specs := si.Specs
 	if len(specs) == 0 {
 		specs = []Accuracy{si.Accuracy}
 	}
+	var out []Accuracy
 	for _, a := range specs {
 		if a.Dim == d || a.Dim == 0 && d == units.Volt {
-			return a
+			out = append(out, a)
 		}
 	}
-	return Accuracy{}
+	return out
+}
+
+// sameRange reports whether two ranges are the same one, as written in files
+// ("1 V" and "1000 mV" parse to values that may differ in the last bit).
+func sameRange(a, b float64) bool {
+	return math.Abs(a-b) <= 1e-9*math.Max(math.Abs(a), math.Abs(b))
 }
 
 // AccuracyText is every spec of the instrument in the written form, "; "
@@ -233,10 +295,16 @@ type accuracyDecl struct {
 }
 
 // specsOf checks the instrument's accuracy specs: every range of V or A (a
-// voltage source's of V, a current source's of A), positive, at most one spec of each dimension.
+// voltage source's of V, a current source's of A), positive, no two of the
+// same dimension and range.
 func specsOf(doc *files.Doc, base string, kind RoleKind, errs *files.List) []Accuracy {
 	var out []Accuracy
-	seen := map[units.Dim]int{}
+	type key struct {
+		dim units.Dim
+		rng float64
+		at  int // index in the list
+	}
+	var seen []key
 	n, isList := doc.Len(base+".accuracy"), true
 	if n == 0 {
 		n, isList = 1, false
@@ -284,11 +352,11 @@ func specsOf(doc *files.Doc, base string, kind RoleKind, errs *files.List) []Acc
 		if d.Resolution != (units.Quantity{}) && d.Resolution.Dim != d.Range.Dim {
 			bad("resolution", "expected a resolution in the range's unit (a %s), found a %s", d.Range.Dim, d.Resolution.Dim)
 		}
-		if j, dup := seen[spec.Dim]; dup {
-			bad("range", "a second spec for a %s range (accuracy[%d] is one already): give one spec per function, each with its range", spec.Dim, j)
+		if j := slices.IndexFunc(seen, func(k key) bool { return k.dim == spec.Dim && sameRange(k.rng, spec.Range) }); j >= 0 {
+			bad("range", "a second spec for the %s range (accuracy[%d] is one already): give one spec per range", units.Format(spec.Range, spec.unit(), 4), seen[j].at)
 			continue
 		}
-		seen[spec.Dim] = i
+		seen = append(seen, key{spec.Dim, spec.Range, i})
 		out = append(out, spec)
 	}
 	return out

@@ -273,7 +273,7 @@ func (s *measureStep) annotate(cfg Config, p *Point) {
 // specs are the Type B components of the point's mean; withSource adds the
 // source's, when the step drives the input.
 func (s *measureStep) specs(cfg Config, p Point, withSource bool) []uncertainty.Component {
-	meter, source, res := specs(cfg.Station, s.plan)
+	meter, source, res := specs(cfg.Station, s.plan, p.Mean, p.Stimulus)
 	var cs []uncertainty.Component
 	if s.plan.Response == nil { // the unit reporting itself has no meter spec
 		cs = append(cs, uncertainty.Rectangular("meter", meter.HalfWidth(p.Mean)))

@@ -546,13 +546,15 @@ func (s *retrimStep) measurePass(ctx context.Context, u *Unit, i int) (retrimPas
 // the source's at each level through the ideal gain, and half a count of the
 // meter's resolution, each rectangular (JCGM 100 §4.3.7). The specs are the same
 // instruments' at every level, so they are taken as fully correlated: averaged,
-// not combined in quadrature.
+// not combined in quadrature. Each level's specs are those of the range its
+// reading and level were taken on (specs).
 func passError(cfg Config, plan SweepPlan, sw Sweep) (e, std, dof float64) {
 	seq := cfg.Sequence
-	meter, source, res := specs(cfg.Station, plan)
 	L := float64(len(sw.Points))
-	var sumE, ua2, mw, sw2 float64
+	var sumE, ua2, mw, sw2, res float64
 	for _, p := range sw.Points {
+		meter, source, r := specs(cfg.Station, plan, p.Mean, p.Stimulus)
+		res = math.Max(res, r) // the coarsest count of the ranges used
 		sumE += p.Mean - (seq.IdealGain*p.Stimulus + seq.IdealOffset)
 		ua2 += p.URandom * p.URandom
 		mw += meter.HalfWidth(p.Mean)

@@ -47,12 +47,22 @@ func (d *doc) instrumentsUsed() {
 			ident,
 			c1(dash(in.Address), stMono.Sized(6.5)),
 			due,
-			c1(dash(in.Accuracy), pdfdoc.Body),
+			accuracyCell(in.Accuracy),
 		})
 	}
 	d.tableSection("Instruments used and traceability", cols, rows, nil)
 	d.Y += 1.2
 	d.fields([]para{{"Traceability", d.traceability()}})
+}
+
+// accuracyCell is the instrument's specs, one paragraph each (the record
+// joins them with "; "), so a meter with a spec per range reads as a list.
+func accuracyCell(text string) pdfdoc.Cell {
+	var c pdfdoc.Cell
+	for _, s := range strings.Split(dash(text), "; ") {
+		c = append(c, pdfdoc.Span{Text: s, St: pdfdoc.Body})
+	}
+	return c
 }
 
 // said is an *IDN? field, or "" for "0", which is what *IDN? gives for "not told".
