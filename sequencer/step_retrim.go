@@ -14,7 +14,6 @@ import (
 	"strings"
 	"time"
 
-	"trimline/instruments"
 	"trimline/instruments/units"
 	"trimline/sequencer/uncertainty"
 )
@@ -498,34 +497,9 @@ func passName(step string, i int) string { return fmt.Sprintf("%s pass %d", step
 // when a replayed record has no such pass.
 func (s *retrimStep) measurePass(ctx context.Context, u *Unit, i int) (retrimPass, bool, error) {
 	name := passName(u.step.Name, i)
-	var sw Sweep
-	if u.Live() {
-		var err error
-		sw, err = u.e.sweep(ctx, u, name, s.plan)
-		sw.Stage, sw.Channel = Adjustment, u.Channel()
-		annotate(u.cfg, s.plan, &sw)
-		u.Rec.Sweeps = append(u.Rec.Sweeps, sw)
-		if err != nil {
-			return retrimPass{}, false, err
-		}
-	} else {
-		var stored Sweep
-		ok := false
-		for _, x := range u.stored.Sweeps {
-			if x.Name == name && x.Channel == u.Channel() {
-				stored, ok = x, true
-				break
-			}
-		}
-		if !ok {
-			return retrimPass{}, false, nil
-		}
-		sw = Sweep{Name: name, Stage: Adjustment, Channel: u.Channel()}
-		for _, p := range stored.Points {
-			sw.Points = append(sw.Points, point(p.Stimulus, p.Readings))
-		}
-		annotate(u.cfg, s.plan, &sw)
-		u.Rec.Sweeps = append(u.Rec.Sweeps, sw)
+	sw, ok, err := takeSweep(ctx, u, name, s.plan, Adjustment)
+	if !ok {
+		return retrimPass{}, false, err
 	}
 	for _, p := range sw.Points {
 		if p.Valid != len(p.Readings) || p.Valid == 0 {
@@ -577,11 +551,8 @@ func passError(cfg Config, plan SweepPlan, sw Sweep) (e, std, dof float64) {
 // transfer and one noiseless reading a level, so the error is 0 and its
 // uncertainty the instruments' specs alone. No pass is recorded.
 func (s *retrimStep) predict(u *Unit) {
-	seq := u.seq
-	sw := Sweep{Name: passName(u.step.Name, 1), Stage: Adjustment}
-	for _, x := range s.plan.List {
-		sw.Points = append(sw.Points, Point{Stimulus: x, Mean: seq.IdealGain*x + seq.IdealOffset, Valid: 1, Readings: make([]instruments.Reading, 1)})
-	}
+	sw := idealSweep(u.seq, passName(u.step.Name, 1), s.plan.List)
+	sw.Stage = Adjustment
 	annotate(u.cfg, s.plan, &sw)
 	e, std, dof := passError(u.cfg, s.plan, sw)
 	code, ok := u.Code(s.dac.Name)
