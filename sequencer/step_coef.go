@@ -96,14 +96,14 @@ func coefDim(seq *Sequence, k Coefficient) units.Dim {
 	if k.Adjusts == AdjustGain {
 		return units.Number
 	}
-	return responseDim(seq)
+	return seq.ResponseDim
 }
 
 func coefAbout(seq *Sequence, k Coefficient) string {
 	if k.Adjusts == AdjustGain {
 		return k.Name + " gain coefficient written, a factor"
 	}
-	return k.Name + " offset coefficient written, " + responseUnitName(responseDim(seq))
+	return k.Name + " offset coefficient written, " + unitOf(seq.ResponseDim)
 }
 
 // coefRange is the format's range of coefficient k, in the unit of its result.

@@ -34,7 +34,8 @@ var measureOutputs = map[string]struct {
 // quantities are the words of a measure step's quantity: key.
 var quantities = map[string]units.Dim{"voltage": units.Volt, "current": units.Ampere, "count": units.Count}
 
-// unitOf is the unit of readings of dimension d as results write it.
+// unitOf is the unit of a reading or response of dimension d as results, and
+// an offset coefficient by default, write it: V, A or count.
 func unitOf(d units.Dim) string {
 	switch d {
 	case units.Ampere:
