@@ -15,7 +15,7 @@ import (
 // What a trim DAC adjusts.
 const (
 	AdjustGain   = "gain"   // scales the signal about the trim's pivot
-	AdjustOffset = "offset" // adds a voltage
+	AdjustOffset = "offset" // adds to the output (or, before the gain, to the input)
 )
 
 // DAC is one trim DAC of the unit. Its code runs MinCode..MaxCode: 0..2^Bits−1

@@ -124,8 +124,8 @@ func measureOutputsText() string {
 	return fmt.Sprint(out)
 }
 
-// ideal is the ideal output at the step's level, volts (the ideal offset when the
-// input is not driven).
+// ideal is the ideal output at the step's level, in the response's unit (the
+// ideal offset when the input is not driven).
 func (s *measureStep) ideal(seq *Sequence) float64 {
 	if s.driven {
 		return seq.IdealGain*s.plan.From + seq.IdealOffset

@@ -54,9 +54,9 @@ type retrimStep struct {
 
 	dac       DAC
 	plan      SweepPlan // one pass: the levels, settle, readings, roles and meter settings
-	nominal   float64   // the DAC's nominal response per code at the levels, V/code, signed
-	pivot     float64   // the earlier trim's pivot, V (a gain DAC scales about it)
-	bound     float64   // |error| within which the re-trim stops, V
+	nominal   float64   // the DAC's nominal response per code at the levels, response's unit per code, signed
+	pivot     float64   // the earlier trim's pivot, in the response's unit (a gain DAC scales about it)
+	bound     float64   // |error| within which the re-trim stops, in the response's unit
 	maxPasses int
 	outs      map[string]string // what → result name
 }
@@ -191,7 +191,7 @@ func (s *retrimStep) earlierTrim(c *Checker) (pivot float64, ok bool) {
 }
 
 // checkWithin reads the bound: "0.5 LSB" (of the DAC's nominal output step) or
-// a voltage such as "6 uV".
+// a value in the response's unit such as "6 uV".
 func (s *retrimStep) checkWithin(c *Checker) {
 	seq := c.Sequence()
 	if s.Within == "" {
@@ -225,9 +225,9 @@ func retrimOutputsText() string {
 	return fmt.Sprint(out)
 }
 
-// nominalStep is the output change per code of d at levels (V per code, signed):
-// its LSB at the output; an input-referred LSB times the ideal gain, as the trim
-// model has it; for a gain DAC the fraction per code of the ideal output's
+// nominalStep is the output change per code of d at levels (the response's unit
+// per code, signed): its LSB at the output; an input-referred LSB times the ideal
+// gain, as the trim model has it; for a gain DAC the fraction per code of the ideal output's
 // distance from the pivot, averaged over the levels.
 func nominalStep(d DAC, seq *Sequence, levels []float64, pivot float64) float64 {
 	switch {
@@ -268,7 +268,8 @@ func (s *retrimStep) Budget() (time.Duration, int) {
 	return time.Duration(n) * s.Least(), n * s.plan.Readings
 }
 
-// retrimTry is one code tried and the output error measured with it, V.
+// retrimTry is one code tried and the output error measured with it, in the
+// response's unit.
 type retrimTry struct {
 	code int
 	err  float64
@@ -277,15 +278,15 @@ type retrimTry struct {
 // retrimLoop chooses a re-trim's codes. It is pure arithmetic over the codes
 // tried and their errors: the bench, the replay and the tests drive it alike.
 type retrimLoop struct {
-	nominal float64 // nominal output change per code, V, signed
-	bound   float64 // |error| within which the loop stops, V
+	nominal float64 // nominal output change per code, response's unit, signed
+	bound   float64 // |error| within which the loop stops, response's unit
 	lo, hi  int     // the DAC's code range
 	tried   []retrimTry
 }
 
 // retrimChoice is what the loop makes of one pass.
 type retrimChoice struct {
-	sens     float64 // V per code used (or that would be used) to choose the next code
+	sens     float64 // response's unit per code used (or that would be used) to choose the next code
 	measured bool    // sens is the measured secant, not the nominal step
 	within   bool    // |error| ≤ bound
 	next     int     // the code to try next (= the code when within or stuck)
@@ -514,8 +515,8 @@ func (s *retrimStep) measurePass(ctx context.Context, u *Unit, i int) (retrimPas
 }
 
 // passError is the mean output error of a pass, mean over its levels of (mean
-// reading − ideal output), V, with its standard uncertainty and degrees of
-// freedom. As for a measure step's error: the readings' scatter (the pooled SD
+// reading − ideal output), in the response's unit, with its standard uncertainty
+// and degrees of freedom. As for a measure step's error: the readings' scatter (the pooled SD
 // over √(n·L), Σ(n − 1) degrees of freedom), the meter's spec at each reading and
 // the source's at each level through the ideal gain, and half a count of the
 // meter's resolution, each rectangular (JCGM 100 §4.3.7). The specs are the same
