@@ -8,7 +8,6 @@ import (
 	"context"
 	"fmt"
 	"math"
-	"sort"
 	"time"
 
 	"trimline/instruments"
@@ -97,12 +96,12 @@ func (s *measureStep) Check(c *Checker) {
 	}
 	s.plan = p
 	if len(s.Results) == 0 {
-		c.Errorf("", "missing required key \"results\": name what the step gives (%s), e.g. results: {mean: zero_output}", measureOutputsText())
+		c.Errorf("", "missing required key \"results\": name what the step gives (%s), e.g. results: {mean: zero_output}", keysText(measureOutputs))
 	}
 	for _, what := range orderedKeys(c, "results", s.Results, nil) {
 		o, ok := measureOutputs[what]
 		if !ok {
-			c.Errorf("results."+what, "unknown measure result %q (expected one of %s)", what, measureOutputsText())
+			c.Errorf("results."+what, "unknown measure result %q (expected one of %s)", what, keysText(measureOutputs))
 			continue
 		}
 		if what == "error" && p.Quantity != c.Sequence().ResponseDim {
@@ -113,15 +112,6 @@ func (s *measureStep) Check(c *Checker) {
 		c.Declare("results."+what, ResultDef{Name: name, Dim: p.Quantity, Quantity: what, About: o.about + ", " + unitOf(p.Quantity), Range: s.rangeOf(what, p.Quantity == c.Sequence().ResponseDim)})
 		s.outs = append(s.outs, [2]string{what, name})
 	}
-}
-
-func measureOutputsText() string {
-	var out []string
-	for k := range measureOutputs {
-		out = append(out, k)
-	}
-	sort.Strings(out)
-	return fmt.Sprint(out)
 }
 
 // ideal is the ideal output at the step's level, in the response's unit (the

@@ -10,7 +10,6 @@ import (
 	"context"
 	"fmt"
 	"math"
-	"sort"
 	"strings"
 	"time"
 
@@ -129,7 +128,7 @@ func (s *retrimStep) Check(c *Checker) {
 
 	for _, what := range orderedKeys(c, "results", s.Results, nil) {
 		if _, ok := retrimOutputs[what]; !ok {
-			c.Errorf("results."+what, "unknown retrim result %q (expected one of %s)", what, retrimOutputsText())
+			c.Errorf("results."+what, "unknown retrim result %q (expected one of %s)", what, keysText(retrimOutputs))
 			continue
 		}
 		name := s.Results[what]
@@ -214,15 +213,6 @@ func (s *retrimStep) checkWithin(c *Checker) {
 	if !(q.Value > 0) {
 		c.Errorf("within", "expected a positive bound, found %q", s.Within)
 	}
-}
-
-func retrimOutputsText() string {
-	var out []string
-	for k := range retrimOutputs {
-		out = append(out, k)
-	}
-	sort.Strings(out)
-	return fmt.Sprint(out)
 }
 
 // nominalStep is the output change per code of d at levels (the response's unit
