@@ -237,26 +237,24 @@ func (s *coefStep) Run(ctx context.Context, u *Unit) error {
 	}
 	u.Rec.Coefficients = append(u.Rec.Coefficients, writes...)
 	if !u.Predicting() {
-		if reasons := mismatches(writes); len(reasons) > 0 {
-			for _, r := range reasons {
-				u.Fail(r)
-			}
-			u.End("not measured: a coefficient did not read back as written")
-		}
+		failMismatches(u, writes)
 	}
 	return nil
 }
 
-// mismatches are the reasons the unit fails for the words of ws that were
-// written and did not read back.
-func mismatches(ws []CoefficientWrite) []string {
-	var out []string
+// failMismatches fails the unit for each word of ws that was written and did
+// not read back, and then ends the run.
+func failMismatches(u *Unit, ws []CoefficientWrite) {
+	failed := false
 	for _, w := range ws {
 		if w.Written && !w.Match {
-			out = append(out, w.mismatch())
+			u.Fail(w.mismatch())
+			failed = true
 		}
 	}
-	return out
+	if failed {
+		u.End("not measured: a coefficient did not read back as written")
+	}
 }
 
 // clearCoefficients writes every coefficient's no-correction value (gain 1,
@@ -290,12 +288,7 @@ func clearCoefficients(ctx context.Context, u *Unit) error {
 		ws = append(ws, w)
 	}
 	u.Rec.Coefficients = append(u.Rec.Coefficients, ws...)
-	if reasons := mismatches(ws); len(reasons) > 0 {
-		for _, r := range reasons {
-			u.Fail(r)
-		}
-		u.End("not measured: a coefficient did not read back as written")
-	}
+	failMismatches(u, ws)
 	return nil
 }
 
