@@ -105,15 +105,9 @@ func (s *retrimStep) Check(c *Checker) {
 	dacOK := false
 	if s.DAC == "" {
 		c.Errorf("", "missing required key \"dac\" (the trim DAC to re-trim, one of dacs:)")
-	} else if d, ok := seq.DAC(s.DAC); ok {
+	} else if d, ok := dacNamed(c, "dac", s.DAC); ok {
 		s.dac, dacOK = d, true
 		c.Use(s.dac.Port, DUTPort)
-	} else {
-		var known []string
-		for _, d := range seq.DACs {
-			known = append(known, d.Name)
-		}
-		c.Errorf("dac", "no trim DAC called %q (dacs: declares %s)", s.DAC, strings.Join(known, ", "))
 	}
 	if dacOK {
 		if pivot, ok := s.earlierTrim(c); ok {
