@@ -715,10 +715,17 @@ const (
 	MaxDACBits = 24
 )
 
-// sweepTime estimates how long a sweep of p takes with the meter at nplc.
-func sweepTime(p SweepPlan, nplc float64) time.Duration {
-	perReading := time.Duration(nplc / 50 * float64(time.Second))
-	return time.Duration(p.Points) * (p.Settle + time.Duration(p.Readings)*perReading)
+// sweepTime estimates how long a sweep of p takes: its points, each pointTime.
+func sweepTime(p SweepPlan) time.Duration {
+	return time.Duration(p.Points) * p.pointTime()
+}
+
+// pointTime is one level's shortest time: the settle and the readings at the
+// meter's integration time on the slower, 50 Hz, line. A sweep, a measure step
+// and one level of a re-trim pass take it.
+func (p SweepPlan) pointTime() time.Duration {
+	perReading := time.Duration(p.MeterSet.NPLC / 50 * float64(time.Second))
+	return p.Settle + time.Duration(p.Readings)*perReading
 }
 
 // parseLSB reads a DAC's LSB: a voltage, or for a gain DAC a ratio with its unit

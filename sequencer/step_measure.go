@@ -89,7 +89,7 @@ func (s *measureStep) Check(c *Checker) {
 		}
 	}
 	if inBounds {
-		if t := sweepTime(p, p.MeterSet.NPLC); t > MaxSweepTime {
+		if t := sweepTime(p); t > MaxSweepTime {
 			c.Errorf("", "expected a measurement of at most %s: settle %s + %d readings × %g PLC at 50 Hz is %s",
 				MaxSweepTime, p.Settle, p.Readings, p.MeterSet.NPLC, t.Round(time.Second))
 		}
@@ -156,7 +156,7 @@ func (s *measureStep) Stimuli() []Stimulus {
 // Least is the step's one engine step: its settle and its readings at the
 // step's integration time on the slower, 50 Hz, line.
 func (s *measureStep) Least() time.Duration {
-	return s.plan.Settle + time.Duration(s.plan.Readings)*time.Duration(s.plan.MeterSet.NPLC/50*float64(time.Second))
+	return s.plan.pointTime()
 }
 
 // Budget is the step's estimated time and its readings.

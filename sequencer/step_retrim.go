@@ -95,7 +95,7 @@ func (s *retrimStep) Check(c *Checker) {
 	if inBounds && p.Points >= 1 && p.Points <= MaxPoints && s.maxPasses >= 1 && s.maxPasses <= MaxRetrimPasses {
 		if n := s.maxPasses * p.Points * p.Readings; n > MaxSweepReadings {
 			c.Errorf("", "expected at most %d readings in a re-trim: %d passes × %d levels × %d readings is %d", MaxSweepReadings, s.maxPasses, p.Points, p.Readings, n)
-		} else if t := time.Duration(s.maxPasses) * sweepTime(p, p.MeterSet.NPLC); t > MaxSweepTime {
+		} else if t := time.Duration(s.maxPasses) * sweepTime(p); t > MaxSweepTime {
 			c.Errorf("", "expected a re-trim of at most %s: %d passes × %d levels × (settle %s + %d readings × %g PLC at 50 Hz) is %s",
 				MaxSweepTime, s.maxPasses, p.Points, p.Settle, p.Readings, p.MeterSet.NPLC, t.Round(time.Second))
 		}
@@ -242,7 +242,7 @@ func (s *retrimStep) Stimuli() []Stimulus {
 // Least is one level of one pass: its settle and its readings at the step's
 // integration time on the slower, 50 Hz, line.
 func (s *retrimStep) Least() time.Duration {
-	return s.plan.Settle + time.Duration(s.plan.Readings)*time.Duration(s.plan.MeterSet.NPLC/50*float64(time.Second))
+	return s.plan.pointTime()
 }
 
 // Budget is the longest the re-trim can take: every pass measured, each at every

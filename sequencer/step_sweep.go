@@ -177,7 +177,7 @@ func (s *sweepStep) Check(c *Checker) {
 	if inBounds && p.Points >= MinPoints && p.Points <= MaxPoints {
 		if n := p.Points * p.Readings; n > MaxSweepReadings {
 			c.Errorf("", "expected at most %d readings in a sweep: %d points × %d readings is %d", MaxSweepReadings, p.Points, p.Readings, n)
-		} else if t := sweepTime(p, p.MeterSet.NPLC); t > MaxSweepTime {
+		} else if t := sweepTime(p); t > MaxSweepTime {
 			c.Errorf("", "expected a sweep of at most %s: %d points × (settle %s + %d readings × %g PLC at 50 Hz) is %s",
 				MaxSweepTime, p.Points, p.Settle, p.Readings, p.MeterSet.NPLC, t.Round(time.Second))
 		}
