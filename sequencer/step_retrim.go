@@ -231,13 +231,7 @@ func nominalStep(d DAC, seq *Sequence, levels []float64, pivot float64) float64 
 }
 
 // Stimuli are the step's levels on its source.
-func (s *retrimStep) Stimuli() []Stimulus {
-	var out []Stimulus
-	for _, v := range s.plan.List {
-		out = append(out, Stimulus{Role: s.plan.Source, Level: v, Dim: s.plan.stimDim()})
-	}
-	return out
-}
+func (s *retrimStep) Stimuli() []Stimulus { return s.plan.stimuli() }
 
 // Least is one level of one pass: its settle and its readings at the step's
 // integration time on the slower, 50 Hz, line.

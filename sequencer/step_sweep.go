@@ -186,10 +186,13 @@ func (s *sweepStep) Check(c *Checker) {
 }
 
 // Stimuli are the sweep's levels on its source.
-func (s *sweepStep) Stimuli() []Stimulus {
+func (s *sweepStep) Stimuli() []Stimulus { return s.Plan.stimuli() }
+
+// stimuli are the plan's levels on its source, for the caps check.
+func (p SweepPlan) stimuli() []Stimulus {
 	var out []Stimulus
-	for _, v := range s.Plan.Levels() {
-		out = append(out, Stimulus{Role: s.Plan.Source, Level: v, Dim: s.Plan.stimDim()})
+	for _, v := range p.Levels() {
+		out = append(out, Stimulus{Role: p.Source, Level: v, Dim: p.stimDim()})
 	}
 	return out
 }
