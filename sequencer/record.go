@@ -379,3 +379,7 @@ type RetrimPass struct {
 	// not met and it was written back.
 	Next int `json:"next"`
 }
+
+// SweepName is the name of the sweep in the same record that keeps the pass's
+// readings: "<step> pass <n>".
+func (p RetrimPass) SweepName() string { return passName(p.Step, p.Pass) }
