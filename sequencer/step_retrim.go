@@ -341,10 +341,9 @@ func (l *retrimLoop) best() retrimTry {
 	return b
 }
 
-// retrimPass is one measured pass: the recorded sweep and the error with its
-// standard uncertainty and degrees of freedom.
+// retrimPass is what one measured pass gives: the error with its standard
+// uncertainty and degrees of freedom (the pass's sweep is in the record).
 type retrimPass struct {
-	sw          Sweep
 	err, u, dof float64
 }
 
@@ -487,7 +486,7 @@ func (s *retrimStep) measurePass(ctx context.Context, u *Unit, i int) (retrimPas
 			return retrimPass{}, false, u.Fault("%s: invalid reading (%s) at %s", name, firstBad(p.Readings), fmtStim(s.plan.Stimulus, p.Stimulus))
 		}
 	}
-	m := retrimPass{sw: sw}
+	var m retrimPass
 	m.err, m.u, m.dof = passError(u.cfg, s.plan, sw)
 	return m, true, nil
 }
