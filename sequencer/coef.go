@@ -83,9 +83,8 @@ func coefList(doc *files.Doc, s *Sequence, cs []*coefDecl, errs *files.List) []C
 			bad(path, "expected a coefficient: name, adjusts, format, write, read")
 			continue
 		}
-		line, col := doc.Pos(path)
 		c := Coefficient{Name: d.Name, Adjusts: d.Adjusts, FormatName: d.Format, Port: orDefault(d.Port, RoleDUT),
-			Write: d.Write, Read: d.Read, UnitSI: 1, Where: fmt.Sprintf("%s:%d:%d", doc.Name, line, col)}
+			Write: d.Write, Read: d.Read, UnitSI: 1, Where: whereIn(doc, path)}
 		switch j, dup := names[d.Name]; {
 		case d.Name == "":
 			bad(path, "missing required key \"name\"")

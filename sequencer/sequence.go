@@ -251,6 +251,13 @@ func inResponse(doc *files.Doc, s *Sequence, path string, q units.Quantity, errs
 	return q.Value, true
 }
 
+// whereIn is "file:line:col" of the value at path in doc, as a Where field
+// keeps it for messages.
+func whereIn(doc *files.Doc, path string) string {
+	line, col := doc.Pos(path)
+	return fmt.Sprintf("%s:%d:%d", doc.Name, line, col)
+}
+
 func responseExample(d units.Dim) string {
 	switch d {
 	case units.Ampere:
