@@ -174,7 +174,7 @@ func (s *coefStep) Run(ctx context.Context, u *Unit) error {
 	fitDOF := make([]float64, len(s.coefs))
 	var outside []string
 	for i, k := range s.coefs {
-		w := CoefficientWrite{Step: name, Name: k.Name, Channel: u.Channel(), Adjusts: k.Adjusts, Format: k.Format.String(), Unit: k.Unit}
+		w := newCoefWrite(u, k)
 		grad := vals.DK
 		w.Ideal = vals.K
 		if k.Adjusts == AdjustOffset {
@@ -242,6 +242,12 @@ func (s *coefStep) Run(ctx context.Context, u *Unit) error {
 	return nil
 }
 
+// newCoefWrite is the record entry of the running step's write of k on the
+// unit's channel, before any value is chosen.
+func newCoefWrite(u *Unit, k Coefficient) CoefficientWrite {
+	return CoefficientWrite{Step: u.step.Name, Name: k.Name, Channel: u.Channel(), Adjusts: k.Adjusts, Format: k.Format.String(), Unit: k.Unit}
+}
+
 // failMismatches fails the unit for each word of ws that was written and did
 // not read back, and then ends the run.
 func failMismatches(u *Unit, ws []CoefficientWrite) {
@@ -264,8 +270,8 @@ func failMismatches(u *Unit, ws []CoefficientWrite) {
 func clearCoefficients(ctx context.Context, u *Unit) error {
 	var ws []CoefficientWrite
 	for _, k := range u.seq.Coefficients {
-		w := CoefficientWrite{Step: u.step.Name, Name: k.Name, Channel: u.Channel(), Adjusts: k.Adjusts, Format: k.Format.String(), Unit: k.Unit,
-			Ideal: k.NoCorrection()}
+		w := newCoefWrite(u, k)
+		w.Ideal = k.NoCorrection()
 		text, stored, err := k.Format.Encode(w.Ideal)
 		if err != nil { // a format that cannot hold 1 (Q1.n, a coarse int): refused at load, so a bug here
 			return fmt.Errorf("coefficient %s: no correction: %w", k.Name, err)
