@@ -206,11 +206,12 @@ type OutputWatchdog interface {
 	DisarmWatchdog(ctx context.Context) error
 }
 
-// MeterConfigurer is an optional capability of a Meter: set range (volts, 0 = auto)
-// and integration time in power-line cycles. Fallback when absent: the meter's own
-// configuration is used and recorded as unknown.
+// MeterConfigurer is an optional capability of a Meter: set range (in the unit of
+// what the meter measures: volts, or amperes after FunctionSetter's FuncCurrent;
+// 0 = auto) and integration time in power-line cycles. Fallback when absent: the
+// meter's own configuration is used and recorded as unknown.
 type MeterConfigurer interface {
-	Configure(ctx context.Context, rangeVolts, nplc float64) error
+	Configure(ctx context.Context, rng, nplc float64) error
 }
 
 // FixtureLoader is an optional capability of a TrimPort used by simulated benches:

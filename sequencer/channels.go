@@ -123,8 +123,7 @@ func parseChannels(doc *files.Doc, s *Sequence, c *channelsDecl, errs *files.Lis
 			bad("$.channels.switch", "role %q: expected a name of lowercase letters, digits and _ beginning with a letter, as the station file binds it", c.Switch)
 		} else {
 			s.Switch = c.Switch
-			line, col := doc.Pos("$.channels.switch")
-			s.SwitchWhere = fmt.Sprintf("%s:%d:%d", doc.Name, line, col)
+			s.SwitchWhere = whereIn(doc, "$.channels.switch")
 		}
 	}
 }

@@ -59,23 +59,6 @@ func (s *Sequence) Coefficient(what string) (Coefficient, bool) {
 	return Coefficient{}, false
 }
 
-// responseDim is the dimension of the unit's response, the quantity an offset
-// coefficient corrects and its results are in. Every product's response is a
-// voltage for now; when a sequence may declare a response in amperes or counts,
-// this is the one place that follows it.
-func responseDim(seq *Sequence) units.Dim { return seq.ResponseDim }
-
-// responseUnitName is the SI unit of dim as a coefficient's default unit.
-func responseUnitName(dim units.Dim) string {
-	switch dim {
-	case units.Ampere:
-		return "A"
-	case units.Count:
-		return "count"
-	}
-	return "V"
-}
-
 type coefDecl struct {
 	Name    string `yaml:"name"`
 	Adjusts string `yaml:"adjusts"`
@@ -100,9 +83,8 @@ func coefList(doc *files.Doc, s *Sequence, cs []*coefDecl, errs *files.List) []C
 			bad(path, "expected a coefficient: name, adjusts, format, write, read")
 			continue
 		}
-		line, col := doc.Pos(path)
 		c := Coefficient{Name: d.Name, Adjusts: d.Adjusts, FormatName: d.Format, Port: orDefault(d.Port, RoleDUT),
-			Write: d.Write, Read: d.Read, UnitSI: 1, Where: fmt.Sprintf("%s:%d:%d", doc.Name, line, col)}
+			Write: d.Write, Read: d.Read, UnitSI: 1, Where: whereIn(doc, path)}
 		switch j, dup := names[d.Name]; {
 		case d.Name == "":
 			bad(path, "missing required key \"name\"")
@@ -147,7 +129,7 @@ func coefList(doc *files.Doc, s *Sequence, cs []*coefDecl, errs *files.List) []C
 // unitExamples names units an offset coefficient of dimension dim may be held
 // in, for messages: "V, mV or uV"; a count has no prefixes.
 func unitExamples(dim units.Dim) string {
-	u := responseUnitName(dim)
+	u := unitOf(dim)
 	if dim == units.Count {
 		return u
 	}
@@ -167,7 +149,7 @@ func coefFormat(doc *files.Doc, s *Sequence, path string, d *coefDecl, c *Coeffi
 		bad(path+".text", "expected decimal or hex, found %q", d.Text)
 		text = "decimal"
 	}
-	dim := responseDim(s)
+	dim := s.ResponseDim
 	if d.Unit != "" {
 		switch {
 		case d.Adjusts == AdjustGain:
@@ -183,7 +165,7 @@ func coefFormat(doc *files.Doc, s *Sequence, path string, d *coefDecl, c *Coeffi
 			}
 		}
 	} else if d.Adjusts == AdjustOffset {
-		c.Unit = responseUnitName(dim)
+		c.Unit = unitOf(dim)
 	}
 	if d.Format == "" {
 		bad(path, "missing required key \"format\" (float32, Q<m>.<n> such as Q2.14, or int<bits> such as int16 with scale)")
@@ -203,7 +185,7 @@ func coefFormat(doc *files.Doc, s *Sequence, path string, d *coefDecl, c *Coeffi
 	if d.Scale == "" {
 		example := "1e-6"
 		if d.Adjusts != AdjustGain {
-			example = "1 u" + responseUnitName(dim)
+			example = "1 u" + unitOf(dim)
 		}
 		bad(path, "missing required key \"scale\": an int<bits> format needs the value of one count, e.g. scale: %s", example)
 		return numfmt.Format{}

@@ -15,7 +15,7 @@ import (
 // What a trim DAC adjusts.
 const (
 	AdjustGain   = "gain"   // scales the signal about the trim's pivot
-	AdjustOffset = "offset" // adds a voltage
+	AdjustOffset = "offset" // adds to the output (or, before the gain, to the input)
 )
 
 // DAC is one trim DAC of the unit. Its code runs MinCode..MaxCode: 0..2^Bits−1
@@ -140,9 +140,8 @@ func dacList(doc *files.Doc, ds []*dacDecl, response, stimulus units.Dim, errs *
 // input) before it.
 func dacFrom(doc *files.Doc, path string, d *dacDecl, adjusts string, response, stimulus units.Dim, errs *files.List) DAC {
 	bad := func(p, format string, args ...any) { *errs = append(*errs, doc.Errorf(p, format, args...)) }
-	line, col := doc.Pos(path)
 	out := DAC{Name: d.Name, Adjusts: adjusts, Bits: d.Bits, Write: d.Write, Read: d.Read, Port: d.Port,
-		Where: fmt.Sprintf("%s:%d:%d", doc.Name, line, col)}
+		Where: whereIn(doc, path)}
 	if out.Port == "" {
 		out.Port = RoleDUT
 	}

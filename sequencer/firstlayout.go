@@ -6,8 +6,6 @@ package sequencer
 // stands for, so those records still replay, and so are files not yet rewritten.
 
 import (
-	"fmt"
-
 	"trimline/instruments/files"
 	"trimline/instruments/units"
 )
@@ -29,8 +27,7 @@ func firstLayout(doc *files.Doc, s *Sequence, f *sequenceFile, errs *files.List)
 	bad := func(path, format string, args ...any) { *errs = append(*errs, doc.Errorf(path, format, args...)) }
 	var paths []string
 	add := func(path, name, kind string, st Step) {
-		line, col := doc.Pos(path)
-		s.Steps = append(s.Steps, &StepDecl{Name: name, Kind: kind, Step: st, Where: fmt.Sprintf("%s:%d:%d", doc.Name, line, col)})
+		s.Steps = append(s.Steps, &StepDecl{Name: name, Kind: kind, Step: st, Where: whereIn(doc, path)})
 		paths = append(paths, path)
 	}
 	trim := f.Trim

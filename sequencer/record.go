@@ -212,20 +212,21 @@ func SweepStage(name string) Stage {
 
 // Point is one stimulus level and the readings taken there.
 type Point struct {
-	Stimulus float64               `json:"stimulus_v"` // programmed source level, volts
+	Stimulus float64               `json:"stimulus_v"` // programmed source level, in the stimulus's unit (V, or A on a current source; the key keeps its first name)
 	Readings []instruments.Reading `json:"readings"`
-	Mean     float64               `json:"mean_v"` // mean of the valid readings, volts
-	SD       float64               `json:"sd_v"`   // sample standard deviation of the valid readings, volts
+	Mean     float64               `json:"mean_v"` // mean of the valid readings, in the unit read (V, A or count)
+	SD       float64               `json:"sd_v"`   // sample standard deviation of the valid readings, in the unit read
 	Valid    int                   `json:"valid"`  // number of valid readings
 	// URandom is the Type A standard uncertainty of Mean (SD/√n, n − 1 dof);
 	// USys the Type B standard uncertainty from the meter and source specs and
-	// the meter resolution at this point, volts referred to the output.
+	// the meter resolution at this point, in the unit read, referred to the output.
 	URandom float64 `json:"u_random_v"`
 	USys    float64 `json:"u_sys_v"`
 }
 
 // FitSummary is the straight-line fit of one sweep: y = Intercept + Slope·x, with x
-// the stimulus in volts and y the mean output in volts.
+// the stimulus in its unit (V or A) and y the mean output in the response's (V, A
+// or count); the V and V/V below stand for those units.
 type FitSummary struct {
 	Channel      string        `json:"channel,omitempty"` // the channel fitted ("" for a one-channel unit)
 	Sweep        string        `json:"sweep"`
@@ -275,7 +276,7 @@ type TrimCode struct {
 }
 
 // Result is one named number a limit may judge. Value is in SI base units (volts,
-// plain fractions for ppm and %, counts for codes, plain numbers as they are);
+// amperes, plain fractions for ppm and %, counts for codes, plain numbers as they are);
 // Unit names the dimension.
 type Result struct {
 	Name string `json:"name"`
@@ -286,7 +287,7 @@ type Result struct {
 	Step     string      `json:"step,omitempty"`     // the step that computed it
 	Quantity string      `json:"quantity,omitempty"` // what it measures (ResultDef.Quantity); "" in older records: see QuantityOf
 	Value    float64     `json:"value"`
-	Unit     string      `json:"unit"` // "V", "ratio", "code" or "number"
+	Unit     string      `json:"unit"` // as ResultDef.Unit names it: "V", "A", "ratio", "code", "count" or "number"
 	Valid    bool        `json:"valid"`
 	Note     string      `json:"note,omitempty"` // why the value is not valid
 	Unc      Uncertainty `json:"uncertainty"`    // zero for codes (exact integers)
@@ -378,3 +379,7 @@ type RetrimPass struct {
 	// not met and it was written back.
 	Next int `json:"next"`
 }
+
+// SweepName is the name of the sweep in the same record that keeps the pass's
+// readings: "<step> pass <n>".
+func (p RetrimPass) SweepName() string { return passName(p.Step, p.Pass) }

@@ -39,23 +39,18 @@ func CheckCaps(st *Station, seq *Sequence) error {
 	// message per step and cap.
 	said := map[string]bool{}
 	for _, x := range seq.Stimuli() {
-		if x.Dim == units.Ampere {
-			// A current source: its level is capped by the station's current
-			// cap (its compliance voltage is the voltage cap, programmed at open).
-			if r := st.SourceRating.Amps; r > 0 && !withinCap(x.Level, r) && !said[x.Step+"/rating"] {
-				said[x.Step+"/rating"] = true
-				errs = append(errs, fmt.Sprintf("%s: step %q reaches %s on the %s, outside the source's own rating of ±%s (%s safety.source_rating.current): this source cannot make it",
-					x.Where, x.Step, fmtA(x.Level), x.Role, fmtA(r), st.File.Name))
-				continue
-			}
-			if !withinCap(x.Level, st.MaxSourceAmps) && !said[x.Step+"/cap"] {
-				said[x.Step+"/cap"] = true
-				errs = append(errs, fmt.Sprintf("%s: step %q reaches %s on the %s, above the station cap of %s (%s safety.max_source_current)",
-					x.Where, x.Step, fmtA(x.Level), x.Role, fmtA(st.MaxSourceAmps), st.File.Name))
-			}
-			continue
-		}
-		if x.Dim != units.Volt {
+		// A voltage source's level is capped by the voltage cap; a current
+		// source's by the current cap (its compliance voltage is the voltage
+		// cap, programmed at open).
+		var rating, limit float64
+		var format func(float64) string
+		var key string // the station file's word for the quantity
+		switch x.Dim {
+		case units.Volt:
+			rating, limit, format, key = st.SourceRating.Volts, st.MaxSourceVolts, fmtV, "voltage"
+		case units.Ampere:
+			rating, limit, format, key = st.SourceRating.Amps, st.MaxSourceAmps, fmtA, "current"
+		default:
 			// The station's caps are on voltage and current levels; a stimulus
 			// of another quantity has no cap here and is refused, not waved
 			// through.
@@ -65,16 +60,16 @@ func CheckCaps(st *Station, seq *Sequence) error {
 			}
 			continue
 		}
-		if r := st.SourceRating.Volts; r > 0 && !withinCap(x.Level, r) && !said[x.Step+"/rating"] {
+		if rating > 0 && !withinCap(x.Level, rating) && !said[x.Step+"/rating"] {
 			said[x.Step+"/rating"] = true
-			errs = append(errs, fmt.Sprintf("%s: step %q reaches %s on the %s, outside the source's own rating of ±%s (%s safety.source_rating.voltage): this source cannot make it",
-				x.Where, x.Step, fmtV(x.Level), x.Role, fmtV(r), st.File.Name))
+			errs = append(errs, fmt.Sprintf("%s: step %q reaches %s on the %s, outside the source's own rating of ±%s (%s safety.source_rating.%s): this source cannot make it",
+				x.Where, x.Step, format(x.Level), x.Role, format(rating), st.File.Name, key))
 			continue
 		}
-		if !withinCap(x.Level, st.MaxSourceVolts) && !said[x.Step+"/cap"] {
+		if !withinCap(x.Level, limit) && !said[x.Step+"/cap"] {
 			said[x.Step+"/cap"] = true
-			errs = append(errs, fmt.Sprintf("%s: step %q reaches %s on the %s, above the station cap of %s (%s safety.max_source_voltage)",
-				x.Where, x.Step, fmtV(x.Level), x.Role, fmtV(st.MaxSourceVolts), st.File.Name))
+			errs = append(errs, fmt.Sprintf("%s: step %q reaches %s on the %s, above the station cap of %s (%s safety.max_source_%s)",
+				x.Where, x.Step, format(x.Level), x.Role, format(limit), st.File.Name, key))
 		}
 	}
 	for _, r := range seq.Requires {
@@ -120,10 +115,11 @@ func CheckCaps(st *Station, seq *Sequence) error {
 	return nil
 }
 
-// withinCap reports whether the source may be programmed to volts under a cap of
-// capVolts on |level|: the one test CheckCaps and the engine share.
-func withinCap(volts, capVolts float64) bool {
-	return finite(volts) && math.Abs(volts) <= capVolts
+// withinCap reports whether the source may be programmed to level (V, or A on a
+// current source) under a cap of limit, in the same unit, on |level|: the one
+// test CheckCaps and the engine share.
+func withinCap(level, limit float64) bool {
+	return finite(level) && math.Abs(level) <= limit
 }
 
 // setLevel programs the source of role after checking the station cap once more:

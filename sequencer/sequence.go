@@ -34,10 +34,8 @@ type Sequence struct {
 	// ResponseDim is what the unit's response is, as the ideal gain's unit pair
 	// says: units.Volt (the default, and a bare gain), units.Ampere (a current
 	// output a meter reads in FuncCurrent) or units.Count (a number the unit
-	// reports about itself). ResponseUnit is its unit as the record writes it:
-	// "V", "A" or "count".
-	ResponseDim  units.Dim
-	ResponseUnit string
+	// reports about itself).
+	ResponseDim units.Dim
 	// StimulusDim is what the stimulus is, as the ideal gain's denominator says:
 	// units.Volt (the default, and a bare gain), programmed on a voltage_source
 	// role, or units.Ampere (a gain per ampere, e.g. 250 V/A or 1600 count/mA),
@@ -174,13 +172,14 @@ func (p MeterPlan) dim() units.Dim {
 	return units.Volt
 }
 
-// recordResponseUnit is the response unit as the record writes it: "" for
-// volts, so that records of voltage products stay as they were.
+// recordResponseUnit is the response unit as the record writes it: "A" or
+// "count"; "" for volts, so that records of voltage products stay as they were.
 func (s *Sequence) recordResponseUnit() string {
-	if s.ResponseDim == units.Volt {
-		return ""
+	switch s.ResponseDim {
+	case units.Ampere, units.Count:
+		return unitOf(s.ResponseDim)
 	}
-	return s.ResponseUnit
+	return ""
 }
 
 // recordStimulusUnit is the stimulus unit as the record writes it: "" for
@@ -230,9 +229,9 @@ func idealGain(doc *files.Doc, s *Sequence, g units.Per, errs *files.List) {
 			return
 		}
 	case units.Ampere:
-		s.ResponseDim, s.ResponseUnit = units.Ampere, "A"
+		s.ResponseDim = units.Ampere
 	case units.Count:
-		s.ResponseDim, s.ResponseUnit = units.Count, "count"
+		s.ResponseDim = units.Count
 	default:
 		bad("expected a response in V, A or count per %s (e.g. 200 V/V, 800 mA/V, 3200 count/V, 250 V/A), found a %s", per, g.Num)
 		return
@@ -250,6 +249,13 @@ func inResponse(doc *files.Doc, s *Sequence, path string, q units.Quantity, errs
 		return 0, false
 	}
 	return q.Value, true
+}
+
+// whereIn is "file:line:col" of the value at path in doc, as a Where field
+// keeps it for messages.
+func whereIn(doc *files.Doc, path string) string {
+	line, col := doc.Pos(path)
+	return fmt.Sprintf("%s:%d:%d", doc.Name, line, col)
 }
 
 func responseExample(d units.Dim) string {
@@ -372,7 +378,7 @@ func parseSequence(name string, data []byte, read func(path string) ([]byte, err
 		File: FileRef{Kind: FileSequence, Name: filepath.Base(name), Title: strings.TrimSpace(f.Sequence.Product + " rev " + f.Sequence.Revision), SHA256: hashHex(data)},
 	}
 
-	s.ResponseDim, s.ResponseUnit, s.StimulusDim = units.Volt, "V", units.Volt
+	s.ResponseDim, s.StimulusDim = units.Volt, units.Volt
 	if f.Ideal.Gain == nil {
 		bad("$.ideal", "missing required key \"gain\" (response per volt of input: 200 or 200 V/V, 800 mA/V, 3200 count/V)")
 	} else {
@@ -715,10 +721,17 @@ const (
 	MaxDACBits = 24
 )
 
-// sweepTime estimates how long a sweep of p takes with the meter at nplc.
-func sweepTime(p SweepPlan, nplc float64) time.Duration {
-	perReading := time.Duration(nplc / 50 * float64(time.Second))
-	return time.Duration(p.Points) * (p.Settle + time.Duration(p.Readings)*perReading)
+// sweepTime estimates how long a sweep of p takes: its points, each pointTime.
+func sweepTime(p SweepPlan) time.Duration {
+	return time.Duration(p.Points) * p.pointTime()
+}
+
+// pointTime is one level's shortest time: the settle and the readings at the
+// meter's integration time on the slower, 50 Hz, line. A sweep, a measure step
+// and one level of a re-trim pass take it.
+func (p SweepPlan) pointTime() time.Duration {
+	perReading := time.Duration(p.MeterSet.NPLC / 50 * float64(time.Second))
+	return p.Settle + time.Duration(p.Readings)*perReading
 }
 
 // parseLSB reads a DAC's LSB: a voltage, or for a gain DAC a ratio with its unit

@@ -114,8 +114,10 @@ type Station struct {
 	Instruments       map[string]StationInstrument // keyed by role
 	// SourceRating is the source's own output rating, from its data sheet.
 	SourceRating Rating
-	// MaxSourceVolts caps |source level| and MaxSourceAmps the source compliance,
-	// volts and amperes: finite, positive and no larger than SourceRating.
+	// MaxSourceVolts caps a voltage source's |level| and a current source's
+	// compliance voltage, volts; MaxSourceAmps a current source's |level| and a
+	// voltage source's compliance, amperes. Both finite, positive and no larger
+	// than SourceRating.
 	MaxSourceVolts float64
 	MaxSourceAmps  float64
 	OutputFolder   string // resolved relative to the station file

@@ -56,7 +56,7 @@ type Stimulator interface {
 type Stimulus struct {
 	Role  string
 	Level float64   // in the SI unit of Dim
-	Dim   units.Dim // units.Volt for a voltage source
+	Dim   units.Dim // units.Volt for a voltage source, units.Ampere for a current source
 	Where string    // "file:line:col" of the step, for messages
 	Step  string    // the step's name
 }

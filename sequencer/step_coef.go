@@ -96,14 +96,14 @@ func coefDim(seq *Sequence, k Coefficient) units.Dim {
 	if k.Adjusts == AdjustGain {
 		return units.Number
 	}
-	return responseDim(seq)
+	return seq.ResponseDim
 }
 
 func coefAbout(seq *Sequence, k Coefficient) string {
 	if k.Adjusts == AdjustGain {
 		return k.Name + " gain coefficient written, a factor"
 	}
-	return k.Name + " offset coefficient written, " + responseUnitName(responseDim(seq))
+	return k.Name + " offset coefficient written, " + unitOf(seq.ResponseDim)
 }
 
 // coefRange is the format's range of coefficient k, in the unit of its result.
@@ -174,7 +174,7 @@ func (s *coefStep) Run(ctx context.Context, u *Unit) error {
 	fitDOF := make([]float64, len(s.coefs))
 	var outside []string
 	for i, k := range s.coefs {
-		w := CoefficientWrite{Step: name, Name: k.Name, Channel: u.Channel(), Adjusts: k.Adjusts, Format: k.Format.String(), Unit: k.Unit}
+		w := newCoefWrite(u, k)
 		grad := vals.DK
 		w.Ideal = vals.K
 		if k.Adjusts == AdjustOffset {
@@ -237,26 +237,30 @@ func (s *coefStep) Run(ctx context.Context, u *Unit) error {
 	}
 	u.Rec.Coefficients = append(u.Rec.Coefficients, writes...)
 	if !u.Predicting() {
-		if reasons := mismatches(writes); len(reasons) > 0 {
-			for _, r := range reasons {
-				u.Fail(r)
-			}
-			u.End("not measured: a coefficient did not read back as written")
-		}
+		failMismatches(u, writes)
 	}
 	return nil
 }
 
-// mismatches are the reasons the unit fails for the words of ws that were
-// written and did not read back.
-func mismatches(ws []CoefficientWrite) []string {
-	var out []string
+// newCoefWrite is the record entry of the running step's write of k on the
+// unit's channel, before any value is chosen.
+func newCoefWrite(u *Unit, k Coefficient) CoefficientWrite {
+	return CoefficientWrite{Step: u.step.Name, Name: k.Name, Channel: u.Channel(), Adjusts: k.Adjusts, Format: k.Format.String(), Unit: k.Unit}
+}
+
+// failMismatches fails the unit for each word of ws that was written and did
+// not read back, and then ends the run.
+func failMismatches(u *Unit, ws []CoefficientWrite) {
+	failed := false
 	for _, w := range ws {
 		if w.Written && !w.Match {
-			out = append(out, w.mismatch())
+			u.Fail(w.mismatch())
+			failed = true
 		}
 	}
-	return out
+	if failed {
+		u.End("not measured: a coefficient did not read back as written")
+	}
 }
 
 // clearCoefficients writes every coefficient's no-correction value (gain 1,
@@ -266,8 +270,8 @@ func mismatches(ws []CoefficientWrite) []string {
 func clearCoefficients(ctx context.Context, u *Unit) error {
 	var ws []CoefficientWrite
 	for _, k := range u.seq.Coefficients {
-		w := CoefficientWrite{Step: u.step.Name, Name: k.Name, Channel: u.Channel(), Adjusts: k.Adjusts, Format: k.Format.String(), Unit: k.Unit,
-			Ideal: k.NoCorrection()}
+		w := newCoefWrite(u, k)
+		w.Ideal = k.NoCorrection()
 		text, stored, err := k.Format.Encode(w.Ideal)
 		if err != nil { // a format that cannot hold 1 (Q1.n, a coarse int): refused at load, so a bug here
 			return fmt.Errorf("coefficient %s: no correction: %w", k.Name, err)
@@ -290,12 +294,7 @@ func clearCoefficients(ctx context.Context, u *Unit) error {
 		ws = append(ws, w)
 	}
 	u.Rec.Coefficients = append(u.Rec.Coefficients, ws...)
-	if reasons := mismatches(ws); len(reasons) > 0 {
-		for _, r := range reasons {
-			u.Fail(r)
-		}
-		u.End("not measured: a coefficient did not read back as written")
-	}
+	failMismatches(u, ws)
 	return nil
 }
 

@@ -102,13 +102,13 @@ func (f *fitStep) Check(c *Checker) {
 		}
 	}
 	if len(f.Results) == 0 {
-		c.Errorf("", "missing required key \"results\": name what the fit gives (%s), e.g. results: {offset: pre_offset}", fitOutputsText())
+		c.Errorf("", "missing required key \"results\": name what the fit gives (%s), e.g. results: {offset: pre_offset}", keysText(fitOutputs))
 	}
 	for _, what := range orderedKeys(c, "results", f.Results, f.order) {
 		name := f.Results[what]
 		o, ok := fitOutputs[what]
 		if !ok {
-			c.Errorf("results."+what, "unknown fit result %q (expected one of %s)", what, fitOutputsText())
+			c.Errorf("results."+what, "unknown fit result %q (expected one of %s)", what, keysText(fitOutputs))
 			continue
 		}
 		dim, about := o.dim, o.about
@@ -119,15 +119,6 @@ func (f *fitStep) Check(c *Checker) {
 		c.Declare("results."+what, ResultDef{Name: name, Dim: dim, Quantity: what, About: about, Range: o.rng(f)})
 		f.outs = append(f.outs, [2]string{what, name})
 	}
-}
-
-func fitOutputsText() string {
-	var out []string
-	for k := range fitOutputs {
-		out = append(out, k)
-	}
-	sort.Strings(out)
-	return fmt.Sprint(out)
 }
 
 // orderedKeys returns the keys of m in the order the file writes them under key,
@@ -259,4 +250,15 @@ func (f *fitStep) maxErrorRange(seq *Sequence) (lo, hi float64, ok bool) {
 		hi = math.Max(hi, math.Max(math.Abs(ohi-y), math.Abs(y-olo)))
 	}
 	return 0, hi, true
+}
+
+// keysText is the keys of a step kind's results table, sorted, as messages list
+// them: "[error mean noise]".
+func keysText[V any](m map[string]V) string {
+	out := make([]string, 0, len(m))
+	for k := range m {
+		out = append(out, k)
+	}
+	sort.Strings(out)
+	return fmt.Sprint(out)
 }

@@ -8,7 +8,6 @@ import (
 	"context"
 	"fmt"
 	"math"
-	"sort"
 	"time"
 
 	"trimline/instruments"
@@ -34,7 +33,8 @@ var measureOutputs = map[string]struct {
 // quantities are the words of a measure step's quantity: key.
 var quantities = map[string]units.Dim{"voltage": units.Volt, "current": units.Ampere, "count": units.Count}
 
-// unitOf is the unit of readings of dimension d as results write it.
+// unitOf is the unit of a reading or response of dimension d as results, and
+// an offset coefficient by default, write it: V, A or count.
 func unitOf(d units.Dim) string {
 	switch d {
 	case units.Ampere:
@@ -89,19 +89,19 @@ func (s *measureStep) Check(c *Checker) {
 		}
 	}
 	if inBounds {
-		if t := sweepTime(p, p.MeterSet.NPLC); t > MaxSweepTime {
+		if t := sweepTime(p); t > MaxSweepTime {
 			c.Errorf("", "expected a measurement of at most %s: settle %s + %d readings × %g PLC at 50 Hz is %s",
 				MaxSweepTime, p.Settle, p.Readings, p.MeterSet.NPLC, t.Round(time.Second))
 		}
 	}
 	s.plan = p
 	if len(s.Results) == 0 {
-		c.Errorf("", "missing required key \"results\": name what the step gives (%s), e.g. results: {mean: zero_output}", measureOutputsText())
+		c.Errorf("", "missing required key \"results\": name what the step gives (%s), e.g. results: {mean: zero_output}", keysText(measureOutputs))
 	}
 	for _, what := range orderedKeys(c, "results", s.Results, nil) {
 		o, ok := measureOutputs[what]
 		if !ok {
-			c.Errorf("results."+what, "unknown measure result %q (expected one of %s)", what, measureOutputsText())
+			c.Errorf("results."+what, "unknown measure result %q (expected one of %s)", what, keysText(measureOutputs))
 			continue
 		}
 		if what == "error" && p.Quantity != c.Sequence().ResponseDim {
@@ -114,17 +114,8 @@ func (s *measureStep) Check(c *Checker) {
 	}
 }
 
-func measureOutputsText() string {
-	var out []string
-	for k := range measureOutputs {
-		out = append(out, k)
-	}
-	sort.Strings(out)
-	return fmt.Sprint(out)
-}
-
-// ideal is the ideal output at the step's level, volts (the ideal offset when the
-// input is not driven).
+// ideal is the ideal output at the step's level, in the response's unit (the
+// ideal offset when the input is not driven).
 func (s *measureStep) ideal(seq *Sequence) float64 {
 	if s.driven {
 		return seq.IdealGain*s.plan.From + seq.IdealOffset
@@ -165,7 +156,7 @@ func (s *measureStep) Stimuli() []Stimulus {
 // Least is the step's one engine step: its settle and its readings at the
 // step's integration time on the slower, 50 Hz, line.
 func (s *measureStep) Least() time.Duration {
-	return s.plan.Settle + time.Duration(s.plan.Readings)*time.Duration(s.plan.MeterSet.NPLC/50*float64(time.Second))
+	return s.plan.pointTime()
 }
 
 // Budget is the step's estimated time and its readings.

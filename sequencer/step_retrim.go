@@ -10,11 +10,9 @@ import (
 	"context"
 	"fmt"
 	"math"
-	"sort"
 	"strings"
 	"time"
 
-	"trimline/instruments"
 	"trimline/instruments/units"
 	"trimline/sequencer/uncertainty"
 )
@@ -55,9 +53,9 @@ type retrimStep struct {
 
 	dac       DAC
 	plan      SweepPlan // one pass: the levels, settle, readings, roles and meter settings
-	nominal   float64   // the DAC's nominal response per code at the levels, V/code, signed
-	pivot     float64   // the earlier trim's pivot, V (a gain DAC scales about it)
-	bound     float64   // |error| within which the re-trim stops, V
+	nominal   float64   // the DAC's nominal response per code at the levels, response's unit per code, signed
+	pivot     float64   // the earlier trim's pivot, in the response's unit (a gain DAC scales about it)
+	bound     float64   // |error| within which the re-trim stops, in the response's unit
 	maxPasses int
 	outs      map[string]string // what → result name
 }
@@ -97,7 +95,7 @@ func (s *retrimStep) Check(c *Checker) {
 	if inBounds && p.Points >= 1 && p.Points <= MaxPoints && s.maxPasses >= 1 && s.maxPasses <= MaxRetrimPasses {
 		if n := s.maxPasses * p.Points * p.Readings; n > MaxSweepReadings {
 			c.Errorf("", "expected at most %d readings in a re-trim: %d passes × %d levels × %d readings is %d", MaxSweepReadings, s.maxPasses, p.Points, p.Readings, n)
-		} else if t := time.Duration(s.maxPasses) * sweepTime(p, p.MeterSet.NPLC); t > MaxSweepTime {
+		} else if t := time.Duration(s.maxPasses) * sweepTime(p); t > MaxSweepTime {
 			c.Errorf("", "expected a re-trim of at most %s: %d passes × %d levels × (settle %s + %d readings × %g PLC at 50 Hz) is %s",
 				MaxSweepTime, s.maxPasses, p.Points, p.Settle, p.Readings, p.MeterSet.NPLC, t.Round(time.Second))
 		}
@@ -107,15 +105,9 @@ func (s *retrimStep) Check(c *Checker) {
 	dacOK := false
 	if s.DAC == "" {
 		c.Errorf("", "missing required key \"dac\" (the trim DAC to re-trim, one of dacs:)")
-	} else if d, ok := seq.DAC(s.DAC); ok {
+	} else if d, ok := dacNamed(c, "dac", s.DAC); ok {
 		s.dac, dacOK = d, true
 		c.Use(s.dac.Port, DUTPort)
-	} else {
-		var known []string
-		for _, d := range seq.DACs {
-			known = append(known, d.Name)
-		}
-		c.Errorf("dac", "no trim DAC called %q (dacs: declares %s)", s.DAC, strings.Join(known, ", "))
 	}
 	if dacOK {
 		if pivot, ok := s.earlierTrim(c); ok {
@@ -130,7 +122,7 @@ func (s *retrimStep) Check(c *Checker) {
 
 	for _, what := range orderedKeys(c, "results", s.Results, nil) {
 		if _, ok := retrimOutputs[what]; !ok {
-			c.Errorf("results."+what, "unknown retrim result %q (expected one of %s)", what, retrimOutputsText())
+			c.Errorf("results."+what, "unknown retrim result %q (expected one of %s)", what, keysText(retrimOutputs))
 			continue
 		}
 		name := s.Results[what]
@@ -192,7 +184,7 @@ func (s *retrimStep) earlierTrim(c *Checker) (pivot float64, ok bool) {
 }
 
 // checkWithin reads the bound: "0.5 LSB" (of the DAC's nominal output step) or
-// a voltage such as "6 uV".
+// a value in the response's unit such as "6 uV".
 func (s *retrimStep) checkWithin(c *Checker) {
 	seq := c.Sequence()
 	if s.Within == "" {
@@ -217,18 +209,9 @@ func (s *retrimStep) checkWithin(c *Checker) {
 	}
 }
 
-func retrimOutputsText() string {
-	var out []string
-	for k := range retrimOutputs {
-		out = append(out, k)
-	}
-	sort.Strings(out)
-	return fmt.Sprint(out)
-}
-
-// nominalStep is the output change per code of d at levels (V per code, signed):
-// its LSB at the output; an input-referred LSB times the ideal gain, as the trim
-// model has it; for a gain DAC the fraction per code of the ideal output's
+// nominalStep is the output change per code of d at levels (the response's unit
+// per code, signed): its LSB at the output; an input-referred LSB times the ideal
+// gain, as the trim model has it; for a gain DAC the fraction per code of the ideal output's
 // distance from the pivot, averaged over the levels.
 func nominalStep(d DAC, seq *Sequence, levels []float64, pivot float64) float64 {
 	switch {
@@ -248,18 +231,12 @@ func nominalStep(d DAC, seq *Sequence, levels []float64, pivot float64) float64 
 }
 
 // Stimuli are the step's levels on its source.
-func (s *retrimStep) Stimuli() []Stimulus {
-	var out []Stimulus
-	for _, v := range s.plan.List {
-		out = append(out, Stimulus{Role: s.plan.Source, Level: v, Dim: s.plan.stimDim()})
-	}
-	return out
-}
+func (s *retrimStep) Stimuli() []Stimulus { return s.plan.stimuli() }
 
 // Least is one level of one pass: its settle and its readings at the step's
 // integration time on the slower, 50 Hz, line.
 func (s *retrimStep) Least() time.Duration {
-	return s.plan.Settle + time.Duration(s.plan.Readings)*time.Duration(s.plan.MeterSet.NPLC/50*float64(time.Second))
+	return s.plan.pointTime()
 }
 
 // Budget is the longest the re-trim can take: every pass measured, each at every
@@ -269,7 +246,8 @@ func (s *retrimStep) Budget() (time.Duration, int) {
 	return time.Duration(n) * s.Least(), n * s.plan.Readings
 }
 
-// retrimTry is one code tried and the output error measured with it, V.
+// retrimTry is one code tried and the output error measured with it, in the
+// response's unit.
 type retrimTry struct {
 	code int
 	err  float64
@@ -278,15 +256,15 @@ type retrimTry struct {
 // retrimLoop chooses a re-trim's codes. It is pure arithmetic over the codes
 // tried and their errors: the bench, the replay and the tests drive it alike.
 type retrimLoop struct {
-	nominal float64 // nominal output change per code, V, signed
-	bound   float64 // |error| within which the loop stops, V
+	nominal float64 // nominal output change per code, response's unit, signed
+	bound   float64 // |error| within which the loop stops, response's unit
 	lo, hi  int     // the DAC's code range
 	tried   []retrimTry
 }
 
 // retrimChoice is what the loop makes of one pass.
 type retrimChoice struct {
-	sens     float64 // V per code used (or that would be used) to choose the next code
+	sens     float64 // response's unit per code used (or that would be used) to choose the next code
 	measured bool    // sens is the measured secant, not the nominal step
 	within   bool    // |error| ≤ bound
 	next     int     // the code to try next (= the code when within or stuck)
@@ -363,10 +341,9 @@ func (l *retrimLoop) best() retrimTry {
 	return b
 }
 
-// retrimPass is one measured pass: the recorded sweep and the error with its
-// standard uncertainty and degrees of freedom.
+// retrimPass is what one measured pass gives: the error with its standard
+// uncertainty and degrees of freedom (the pass's sweep is in the record).
 type retrimPass struct {
-	sw          Sweep
 	err, u, dof float64
 }
 
@@ -498,34 +475,9 @@ func passName(step string, i int) string { return fmt.Sprintf("%s pass %d", step
 // when a replayed record has no such pass.
 func (s *retrimStep) measurePass(ctx context.Context, u *Unit, i int) (retrimPass, bool, error) {
 	name := passName(u.step.Name, i)
-	var sw Sweep
-	if u.Live() {
-		var err error
-		sw, err = u.e.sweep(ctx, u, name, s.plan)
-		sw.Stage, sw.Channel = Adjustment, u.Channel()
-		annotate(u.cfg, s.plan, &sw)
-		u.Rec.Sweeps = append(u.Rec.Sweeps, sw)
-		if err != nil {
-			return retrimPass{}, false, err
-		}
-	} else {
-		var stored Sweep
-		ok := false
-		for _, x := range u.stored.Sweeps {
-			if x.Name == name && x.Channel == u.Channel() {
-				stored, ok = x, true
-				break
-			}
-		}
-		if !ok {
-			return retrimPass{}, false, nil
-		}
-		sw = Sweep{Name: name, Stage: Adjustment, Channel: u.Channel()}
-		for _, p := range stored.Points {
-			sw.Points = append(sw.Points, point(p.Stimulus, p.Readings))
-		}
-		annotate(u.cfg, s.plan, &sw)
-		u.Rec.Sweeps = append(u.Rec.Sweeps, sw)
+	sw, ok, err := takeSweep(ctx, u, name, s.plan, Adjustment)
+	if !ok {
+		return retrimPass{}, false, err
 	}
 	for _, p := range sw.Points {
 		if p.Valid != len(p.Readings) || p.Valid == 0 {
@@ -534,14 +486,14 @@ func (s *retrimStep) measurePass(ctx context.Context, u *Unit, i int) (retrimPas
 			return retrimPass{}, false, u.Fault("%s: invalid reading (%s) at %s", name, firstBad(p.Readings), fmtStim(s.plan.Stimulus, p.Stimulus))
 		}
 	}
-	m := retrimPass{sw: sw}
+	var m retrimPass
 	m.err, m.u, m.dof = passError(u.cfg, s.plan, sw)
 	return m, true, nil
 }
 
 // passError is the mean output error of a pass, mean over its levels of (mean
-// reading − ideal output), V, with its standard uncertainty and degrees of
-// freedom. As for a measure step's error: the readings' scatter (the pooled SD
+// reading − ideal output), in the response's unit, with its standard uncertainty
+// and degrees of freedom. As for a measure step's error: the readings' scatter (the pooled SD
 // over √(n·L), Σ(n − 1) degrees of freedom), the meter's spec at each reading and
 // the source's at each level through the ideal gain, and half a count of the
 // meter's resolution, each rectangular (JCGM 100 §4.3.7). The specs are the same
@@ -577,11 +529,8 @@ func passError(cfg Config, plan SweepPlan, sw Sweep) (e, std, dof float64) {
 // transfer and one noiseless reading a level, so the error is 0 and its
 // uncertainty the instruments' specs alone. No pass is recorded.
 func (s *retrimStep) predict(u *Unit) {
-	seq := u.seq
-	sw := Sweep{Name: passName(u.step.Name, 1), Stage: Adjustment}
-	for _, x := range s.plan.List {
-		sw.Points = append(sw.Points, Point{Stimulus: x, Mean: seq.IdealGain*x + seq.IdealOffset, Valid: 1, Readings: make([]instruments.Reading, 1)})
-	}
+	sw := idealSweep(u.seq, passName(u.step.Name, 1), s.plan.List)
+	sw.Stage = Adjustment
 	annotate(u.cfg, s.plan, &sw)
 	e, std, dof := passError(u.cfg, s.plan, sw)
 	code, ok := u.Code(s.dac.Name)

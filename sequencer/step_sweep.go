@@ -177,7 +177,7 @@ func (s *sweepStep) Check(c *Checker) {
 	if inBounds && p.Points >= MinPoints && p.Points <= MaxPoints {
 		if n := p.Points * p.Readings; n > MaxSweepReadings {
 			c.Errorf("", "expected at most %d readings in a sweep: %d points × %d readings is %d", MaxSweepReadings, p.Points, p.Readings, n)
-		} else if t := sweepTime(p, p.MeterSet.NPLC); t > MaxSweepTime {
+		} else if t := sweepTime(p); t > MaxSweepTime {
 			c.Errorf("", "expected a sweep of at most %s: %d points × (settle %s + %d readings × %g PLC at 50 Hz) is %s",
 				MaxSweepTime, p.Points, p.Settle, p.Readings, p.MeterSet.NPLC, t.Round(time.Second))
 		}
@@ -186,10 +186,13 @@ func (s *sweepStep) Check(c *Checker) {
 }
 
 // Stimuli are the sweep's levels on its source.
-func (s *sweepStep) Stimuli() []Stimulus {
+func (s *sweepStep) Stimuli() []Stimulus { return s.Plan.stimuli() }
+
+// stimuli are the plan's levels on its source, for the caps check.
+func (p SweepPlan) stimuli() []Stimulus {
 	var out []Stimulus
-	for _, v := range s.Plan.Levels() {
-		out = append(out, Stimulus{Role: s.Plan.Source, Level: v, Dim: s.Plan.stimDim()})
+	for _, v := range p.Levels() {
+		out = append(out, Stimulus{Role: p.Source, Level: v, Dim: p.stimDim()})
 	}
 	return out
 }
@@ -197,37 +200,21 @@ func (s *sweepStep) Stimuli() []Stimulus {
 func (s *sweepStep) Run(ctx context.Context, u *Unit) error {
 	name := u.step.Name
 	var sw Sweep
-	switch {
-	case u.Live():
-		var err error
-		sw, err = u.e.sweep(ctx, u, name, s.Plan)
-		sw.Stage, sw.Channel = u.step.Stage, u.channel
+	if u.Predicting() { // a unit with exactly the ideal transfer, one noiseless reading a level
+		sw = idealSweep(u.seq, name, s.Plan.Levels())
+		sw.Channel, sw.Stage = u.channel, u.step.Stage
 		annotate(u.cfg, s.Plan, &sw)
 		u.Rec.Sweeps = append(u.Rec.Sweeps, sw)
-		if err != nil {
+	} else {
+		var ok bool
+		var err error
+		if sw, ok, err = takeSweep(ctx, u, name, s.Plan, u.step.Stage); err != nil {
 			return err
 		}
-	case u.Replaying():
-		stored, ok := storedSweep(u.stored, name, u.channel)
 		if !ok {
 			u.End("") // the recorded run ended before this sweep
 			return nil
 		}
-		sw = Sweep{Name: name, Channel: u.channel, Stage: u.step.Stage}
-		for _, p := range stored.Points {
-			sw.Points = append(sw.Points, point(p.Stimulus, p.Readings))
-		}
-		annotate(u.cfg, s.Plan, &sw)
-		u.Rec.Sweeps = append(u.Rec.Sweeps, sw)
-	default: // predicting: a unit with exactly the ideal transfer, one noiseless reading a level
-		seq := u.seq
-		sw = Sweep{Name: name, Channel: u.channel, Stage: u.step.Stage}
-		for _, x := range s.Plan.Levels() {
-			y := seq.IdealGain*x + seq.IdealOffset
-			sw.Points = append(sw.Points, Point{Stimulus: x, Mean: y, Valid: 1, Readings: make([]instruments.Reading, 1)})
-		}
-		annotate(u.cfg, s.Plan, &sw)
-		u.Rec.Sweeps = append(u.Rec.Sweeps, sw)
 	}
 	u.Keep(sweepKept{sweep: sw, plan: s.Plan})
 	return nil
@@ -365,6 +352,43 @@ func storedSweep(rec *Record, name, ch string) (Sweep, bool) {
 		}
 	}
 	return Sweep{}, false
+}
+
+// takeSweep takes the sweep name of plan on the unit's channel, marked with
+// stage: on the bench, or rebuilt from the stored record's readings in a replay.
+// It annotates the sweep and adds it to the record. ok is false when a replayed
+// record has no such sweep (nothing is added); a bench error comes back after
+// the readings taken before it are recorded. A sweep step and each pass of a
+// re-trim take their readings through it.
+func takeSweep(ctx context.Context, u *Unit, name string, plan SweepPlan, stage Stage) (sw Sweep, ok bool, err error) {
+	if u.Live() {
+		sw, err = u.e.sweep(ctx, u, name, plan)
+		sw.Stage, sw.Channel = stage, u.channel
+		annotate(u.cfg, plan, &sw)
+		u.Rec.Sweeps = append(u.Rec.Sweeps, sw)
+		return sw, err == nil, err
+	}
+	stored, ok := storedSweep(u.stored, name, u.channel)
+	if !ok {
+		return Sweep{}, false, nil
+	}
+	sw = Sweep{Name: name, Channel: u.channel, Stage: stage}
+	for _, p := range stored.Points {
+		sw.Points = append(sw.Points, point(p.Stimulus, p.Readings))
+	}
+	annotate(u.cfg, plan, &sw)
+	u.Rec.Sweeps = append(u.Rec.Sweeps, sw)
+	return sw, true, nil
+}
+
+// idealSweep is a sweep on paper: a unit with exactly the ideal transfer and
+// one noiseless reading at each level.
+func idealSweep(seq *Sequence, name string, levels []float64) Sweep {
+	sw := Sweep{Name: name}
+	for _, x := range levels {
+		sw.Points = append(sw.Points, Point{Stimulus: x, Mean: seq.IdealGain*x + seq.IdealOffset, Valid: 1, Readings: make([]instruments.Reading, 1)})
+	}
+	return sw
 }
 
 // sweep steps the source across p and reads the meter at each level. The output is

@@ -34,18 +34,26 @@ func dacsOf(c *Checker, key string, names []string) []DAC {
 	}
 	var out []DAC
 	for i, n := range names {
-		d, ok := seq.DAC(n)
-		if !ok {
-			var known []string
-			for _, d := range seq.DACs {
-				known = append(known, d.Name)
-			}
-			c.Errorf(fmt.Sprintf("%s[%d]", key, i), "no trim DAC called %q (dacs: declares %s)", n, strings.Join(known, ", "))
-			continue
+		if d, ok := dacNamed(c, fmt.Sprintf("%s[%d]", key, i), n); ok {
+			out = append(out, d)
 		}
-		out = append(out, d)
 	}
 	return out
+}
+
+// dacNamed is the sequence's trim DAC called name, or reports at key that
+// there is none, naming those the sequence declares.
+func dacNamed(c *Checker, key, name string) (DAC, bool) {
+	seq := c.Sequence()
+	d, ok := seq.DAC(name)
+	if !ok {
+		var known []string
+		for _, d := range seq.DACs {
+			known = append(known, d.Name)
+		}
+		c.Errorf(key, "no trim DAC called %q (dacs: declares %s)", name, strings.Join(known, ", "))
+	}
+	return d, ok
 }
 
 // trimEntry returns the record's trim entry of DAC name on the running step's

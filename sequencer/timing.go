@@ -25,13 +25,13 @@ type Timed interface {
 
 // Budget is the sweep's estimated time and its readings.
 func (s *sweepStep) Budget() (time.Duration, int) {
-	return sweepTime(s.Plan, s.Plan.MeterSet.NPLC), s.Plan.Points * s.Plan.Readings
+	return sweepTime(s.Plan), s.Plan.Points * s.Plan.Readings
 }
 
 // Least is one sweep point's shortest time: the settle and the readings at the
 // sweep's integration time on the slower, 50 Hz, line.
 func (s *sweepStep) Least() time.Duration {
-	return s.Plan.Settle + time.Duration(s.Plan.Readings)*time.Duration(s.Plan.MeterSet.NPLC/50*float64(time.Second))
+	return s.Plan.pointTime()
 }
 
 // CheckTiming reports, in an error wrapping ErrStepTiming, every step whose engine

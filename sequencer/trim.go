@@ -28,7 +28,7 @@ func gainFactor(d DAC, code float64) float64 {
 // TrimPlan is the DACs one trim adjusts, about which pivot the gain DACs scale.
 type TrimPlan struct {
 	DACs  []DAC
-	Pivot float64 // output voltage about which the gain trim scales the signal, V
+	Pivot float64 // output about which the gain trim scales the signal, in the response's unit (V, A or count)
 }
 
 // DACCode is what ComputeTrim asks of one DAC.
@@ -47,7 +47,8 @@ type TrimSolution struct {
 
 // ComputeTrim returns the codes that bring a unit measured with slope (V/V) and
 // intercept (V at x = 0), while its DACs held before (one code per plan DAC, in
-// plan order), to the ideal gain (V/V) and offset (V). A quantity no DAC adjusts
+// plan order), to the ideal gain (V/V) and offset (V); V stands for the
+// stimulus's and the response's units (A or count where the product says so). A quantity no DAC adjusts
 // is left as it is. It is pure arithmetic; a non-finite or non-positive-gain input
 // gives an error.
 func ComputeTrim(t TrimPlan, slope, intercept float64, before []int, idealGain, idealOffset float64) (TrimSolution, error) {

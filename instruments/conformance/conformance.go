@@ -186,6 +186,43 @@ func wantInstrumentError(t *testing.T, h Hooks, what string, err error) {
 	}
 }
 
+// call is one request of a sequence that must succeed: what names it in the
+// failure.
+type call struct {
+	what string
+	f    func() error
+}
+
+// inOrder makes the calls in order and stops the test at the first that fails.
+func inOrder(t *testing.T, calls []call) {
+	t.Helper()
+	for _, c := range calls {
+		if err := c.f(); err != nil {
+			t.Fatalf("%s: %v", c.what, err)
+		}
+	}
+}
+
+// offWhenDone checks that s still switches its output off with a done context.
+func offWhenDone(t *testing.T, s instruments.Source) {
+	t.Helper()
+	ctx, cancel := context.WithCancel(context.Background())
+	cancel()
+	if err := s.SetOutput(ctx, false); err != nil {
+		t.Fatalf("SetOutput(off) with a done context: %v, want nil (it must still switch off)", err)
+	}
+}
+
+// closeTwiceOff closes s twice, then checks that switching its output off
+// still succeeds.
+func closeTwiceOff(t *testing.T, s instruments.Source) {
+	t.Helper()
+	closeTwice(t, s)
+	if err := s.SetOutput(context.Background(), false); err != nil {
+		t.Fatalf("SetOutput(off) after Close: %v, want nil", err)
+	}
+}
+
 // Source runs the suite on a voltage source.
 func Source(t *testing.T, open func(t *testing.T) instruments.Source, hooks ...Hooks) {
 	h := hooksOf(hooks)
@@ -193,21 +230,14 @@ func Source(t *testing.T, open func(t *testing.T) instruments.Source, hooks ...H
 	t.Run("reset", func(t *testing.T) { reset(t, open(t)) })
 	t.Run("set level and output", func(t *testing.T) {
 		s, ctx := open(t), bgCtx(t)
-		for _, step := range []struct {
-			what string
-			f    func() error
-		}{
+		inOrder(t, []call{
 			{"SetLevel(+level)", func() error { return s.SetLevel(ctx, h.Level) }},
 			{"SetOutput(on)", func() error { return s.SetOutput(ctx, true) }},
 			{"SetLevel(-level)", func() error { return s.SetLevel(ctx, -h.Level) }},
 			{"SetOutput(off)", func() error { return s.SetOutput(ctx, false) }},
 			{"SetLevel(0)", func() error { return s.SetLevel(ctx, 0) }},
 			{"SetOutput(off) again", func() error { return s.SetOutput(ctx, false) }},
-		} {
-			if err := step.f(); err != nil {
-				t.Fatalf("%s: %v", step.what, err)
-			}
-		}
+		})
 	})
 	t.Run("rejects", func(t *testing.T) {
 		s, ctx := open(t), bgCtx(t)
@@ -241,11 +271,7 @@ func Source(t *testing.T, open func(t *testing.T) instruments.Source, hooks ...H
 		if err := s.SetOutput(bgCtx(t), true); err != nil {
 			t.Fatalf("SetOutput(on): %v", err)
 		}
-		ctx, cancel := context.WithCancel(context.Background())
-		cancel()
-		if err := s.SetOutput(ctx, false); err != nil {
-			t.Fatalf("SetOutput(off) with a done context: %v, want nil (it must still switch off)", err)
-		}
+		offWhenDone(t, s)
 	})
 	t.Run("cancel", func(t *testing.T) {
 		s := open(t)
@@ -265,10 +291,7 @@ func Source(t *testing.T, open func(t *testing.T) instruments.Source, hooks ...H
 	})
 	t.Run("close twice", func(t *testing.T) {
 		s := open(t)
-		closeTwice(t, s)
-		if err := s.SetOutput(context.Background(), false); err != nil {
-			t.Fatalf("SetOutput(off) after Close: %v, want nil", err)
-		}
+		closeTwiceOff(t, s)
 	})
 }
 
@@ -292,10 +315,7 @@ func CurrentSource(t *testing.T, open func(t *testing.T) instruments.Source, hoo
 	t.Run("set current and output", func(t *testing.T) {
 		s, cs := cur(t)
 		ctx := bgCtx(t)
-		for _, step := range []struct {
-			what string
-			f    func() error
-		}{
+		inOrder(t, []call{
 			{"SetVoltageLimit(5 V)", func() error { return cs.SetVoltageLimit(ctx, 5) }},
 			{"SetCurrent(+level)", func() error { return cs.SetCurrent(ctx, amps) }},
 			{"SetOutput(on)", func() error { return s.SetOutput(ctx, true) }},
@@ -303,11 +323,7 @@ func CurrentSource(t *testing.T, open func(t *testing.T) instruments.Source, hoo
 			{"SetOutput(off)", func() error { return s.SetOutput(ctx, false) }},
 			{"SetCurrent(0)", func() error { return cs.SetCurrent(ctx, 0) }},
 			{"SetOutput(off) again", func() error { return s.SetOutput(ctx, false) }},
-		} {
-			if err := step.f(); err != nil {
-				t.Fatalf("%s: %v", step.what, err)
-			}
-		}
+		})
 	})
 	t.Run("rejects", func(t *testing.T) {
 		s, cs := cur(t)
@@ -336,18 +352,11 @@ func CurrentSource(t *testing.T, open func(t *testing.T) instruments.Source, hoo
 		if err := s.SetOutput(bgCtx(t), true); err != nil {
 			t.Fatalf("SetOutput(on): %v", err)
 		}
-		ctx, cancel := context.WithCancel(context.Background())
-		cancel()
-		if err := s.SetOutput(ctx, false); err != nil {
-			t.Fatalf("SetOutput(off) with a done context: %v, want nil (it must still switch off)", err)
-		}
+		offWhenDone(t, s)
 	})
 	t.Run("close twice", func(t *testing.T) {
 		s, _ := cur(t)
-		closeTwice(t, s)
-		if err := s.SetOutput(context.Background(), false); err != nil {
-			t.Fatalf("SetOutput(off) after Close: %v, want nil", err)
-		}
+		closeTwiceOff(t, s)
 	})
 }
 

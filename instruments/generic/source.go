@@ -69,15 +69,23 @@ func (s *Source) SetLevel(ctx context.Context, volts float64) error {
 	if !finite(volts) {
 		return fmt.Errorf("%s: set level %g V: not a finite voltage", s.addr, volts)
 	}
-	if err := s.exec(ctx, "set_level", "{volts}", num(volts)); err != nil {
+	return s.program(ctx, "set_level", "{volts}", "get_level", "level", "V", volts, 1e-9)
+}
+
+// program writes v with the set command (its value in place of key), drains the
+// error queue and reads v back with the get query: a difference of more than
+// 1e-9 relative and absTol is an error wrapping ErrReadback. what ("level",
+// "current") and unit ("V", "A") word the errors.
+func (s *Source) program(ctx context.Context, set, key, get, what, unit string, v, absTol float64) error {
+	if err := s.exec(ctx, set, key, num(v)); err != nil {
 		return err
 	}
-	got, err := s.sess.QueryFloat(ctx, s.tpl["get_level"])
+	got, err := s.sess.QueryFloat(ctx, s.tpl[get])
 	if err != nil {
-		return fmt.Errorf("%s: read back level: %w", s.addr, err)
+		return fmt.Errorf("%s: read back %s: %w", s.addr, what, err)
 	}
-	if d := math.Abs(got - volts); d > 1e-9 && d > 1e-9*math.Abs(volts) {
-		return fmt.Errorf("%s: level set to %s V reads back %s V: %w", s.addr, num(volts), num(got), ErrReadback)
+	if d := math.Abs(got - v); d > absTol && d > 1e-9*math.Abs(v) {
+		return fmt.Errorf("%s: %s set to %s %s reads back %s %s: %w", s.addr, what, num(v), unit, num(got), unit, ErrReadback)
 	}
 	return nil
 }
@@ -229,17 +237,7 @@ func (s *CurrentSource) SetCurrent(ctx context.Context, amps float64) error {
 		}
 		s.inCurrent = true
 	}
-	if err := s.exec(ctx, "set_current", "{amps}", num(amps)); err != nil {
-		return err
-	}
-	got, err := s.sess.QueryFloat(ctx, s.tpl["get_current"])
-	if err != nil {
-		return fmt.Errorf("%s: read back current: %w", s.addr, err)
-	}
-	if d := math.Abs(got - amps); d > 1e-12 && d > 1e-9*math.Abs(amps) {
-		return fmt.Errorf("%s: current set to %s A reads back %s A: %w", s.addr, num(amps), num(got), ErrReadback)
-	}
-	return nil
+	return s.program(ctx, "set_current", "{amps}", "get_current", "current", "A", amps, 1e-12)
 }
 
 // SetVoltageLimit programs the compliance voltage in volts (finite, > 0) with

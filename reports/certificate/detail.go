@@ -659,7 +659,7 @@ func (d *doc) singlesTable(sws []sequencer.Sweep) (pointTable, bool) {
 // re-trim step records as "<step> pass N" on the pass's channel.
 func (d *doc) retrimPassOf(sw sequencer.Sweep) (sequencer.RetrimPass, bool) {
 	for _, p := range d.rec.Retrims {
-		if p.Channel == sw.Channel && sw.Name == p.Step+" pass "+strconv.Itoa(p.Pass) {
+		if p.Channel == sw.Channel && sw.Name == p.SweepName() {
 			return p, true
 		}
 	}

@@ -54,12 +54,10 @@ func (q quantity) format(v float64, digits int) string {
 	switch q {
 	case qVolt:
 		return fmtVolts(v, digits)
-	case qAmp:
-		return pdfdoc.Minus(units.Format(v, "A", digits))
 	case qCount:
 		return countText(units.FormatSig(v, digits))
 	}
-	return pdfdoc.Minus(units.Format(v, string(q), digits))
+	return pdfdoc.Minus(units.Format(v, string(q), digits)) // amperes, or a unit the record names
 }
 
 // cell is format for a narrow table cell: counts bare (the table says they are
@@ -82,10 +80,7 @@ func countText(n string) string {
 // magnitude is the magnitude of a positive v (an offset, a full scale) as the
 // ideal transfer states it, with six significant digits.
 func (q quantity) magnitude(v float64) string {
-	switch q {
-	case qVolt, qAmp:
-		return units.Format(v, string(q), 6)
-	case qCount:
+	if q == qCount {
 		return countText(units.FormatSig(v, 6))
 	}
 	return units.Format(v, string(q), 6)

@@ -280,19 +280,25 @@ func Rejudge(old, new *limits.Set, units []StoredUnit) Report {
 // samples calls f with each value of result name in u (ok false when it is not
 // valid and finite): the one value of a result of the whole unit, or one per
 // channel of a result a multi-channel unit measured per channel
-// (limits.ChannelKey, the channels its Catalog lists).
+// (limits.ChannelKey, the keys its Catalog lists), in no set order: its callers
+// take minima, maxima and counts. It runs for every unit and distribution in
+// both passes of Rejudge, so it walks the catalog's keys once and uses the key
+// it finds, rather than collecting and sorting the channels (ChannelsOf) and
+// joining each key again.
 func samples(u *StoredUnit, name string, f func(x float64, ok bool)) {
 	if _, whole := u.Values[name]; whole || u.Catalog == nil {
 		f(usable(u.Values, name))
 		return
 	}
-	chans := u.Catalog.ChannelsOf(name)
-	if len(chans) == 0 {
-		f(usable(u.Values, name))
-		return
+	found := false
+	for k := range u.Catalog {
+		if n, ch := limits.SplitChannelKey(k); ch != "" && n == name {
+			f(usable(u.Values, k))
+			found = true
+		}
 	}
-	for _, ch := range chans {
-		f(usable(u.Values, limits.ChannelKey(name, ch)))
+	if !found {
+		f(usable(u.Values, name))
 	}
 }
 
