@@ -31,7 +31,7 @@ const (
 // The results a retrim step can give, as its results: map names them.
 var retrimOutputs = map[string]string{
 	"code":   "code the DAC holds after the re-trim",
-	"error":  "output error with that code: mean over the levels of mean − ideal, V",
+	"error":  "output error with that code: mean over the levels of mean − ideal, in the response's unit",
 	"passes": "passes the re-trim measured",
 }
 
@@ -424,8 +424,12 @@ func (s *retrimStep) Run(ctx context.Context, u *Unit) error {
 		}
 		u.Rec.Retrims[len(u.Rec.Retrims)-1].Next = final.code
 		if _, judged := s.outs["error"]; !judged {
+			passes := "passes"
+			if pass == 1 {
+				passes = "pass"
+			}
 			u.Fail(fmt.Sprintf("re-trim of %s: best error %s after %d %s, bound %s", d.Name, fmtResponse(u.seq, final.err), pass,
-				map[bool]string{true: "pass", false: "passes"}[pass == 1], fmtResponse(u.seq, s.bound)))
+				passes, fmtResponse(u.seq, s.bound)))
 		}
 	}
 	if wrote {

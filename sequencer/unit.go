@@ -231,7 +231,7 @@ func (u *Unit) Output(ctx context.Context, role string, on bool) error {
 	}
 	src, ok := u.e.sources[role]
 	if !ok {
-		return fmt.Errorf("%s is not a voltage source", role)
+		return fmt.Errorf("%s is not a source", role)
 	}
 	if on {
 		if err := u.e.checkInterlock(ctx); err != nil {
