@@ -93,6 +93,25 @@ type Switch interface {
 	Release(ctx context.Context) error
 }
 
+// Thermal is a temperature chamber or hot plate that holds the unit at a set
+// point. SetTemperature programs the set point in °C; Temperature reads the
+// chamber's own (controlled) temperature in °C. Implementations must accept
+// SetTemperature to the station's safe temperature at any time, also after an
+// earlier error, because the engine returns the chamber there on every exit
+// path.
+type Thermal interface {
+	Instrument
+	SetTemperature(ctx context.Context, celsius float64) error
+	Temperature(ctx context.Context) (float64, error)
+}
+
+// StableReporter is an optional capability of a Thermal that judges its own
+// stability (a chamber's "stable" flag). Fallback when absent: the engine judges
+// stability from the temperatures it reads (within a band for a dwell time).
+type StableReporter interface {
+	Stable(ctx context.Context) (bool, error)
+}
+
 // Function is what a meter measures: FuncVoltage (readings in volts, the default)
 // or FuncCurrent (readings in amperes).
 type Function string

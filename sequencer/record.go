@@ -90,6 +90,8 @@ type Record struct {
 	// Coefficients are the firmware correction coefficients written, one per
 	// coefficient (and channel), in write order. Empty for products without them.
 	Coefficients []CoefficientWrite `json:"coefficients,omitempty"`
+	// Soaks are the temperature soaks of the run, in order.
+	Soaks []Soak `json:"soaks,omitempty"`
 	// Retrims are the passes of every closed-loop re-trim, in order.
 	Retrims []RetrimPass `json:"retrims,omitempty"`
 	// StimulusUnit and ResponseUnit are the units of every sweep's stimulus and
@@ -174,6 +176,11 @@ func (r InstrumentRef) RoleKind() RoleKind {
 
 // Sweep is one pass across the stimulus range.
 type Sweep struct {
+	// TempC is the unit's temperature during the sweep, °C, as the last soak
+	// before it left it (the mean of the chamber's readings over its dwell);
+	// 0 with TempKnown false when no soak preceded it.
+	TempC     float64 `json:"temp_c,omitempty"`
+	TempKnown bool    `json:"temp_known,omitempty"`
 	// Channel is the unit's channel the sweep measured ("" for a one-channel unit).
 	Channel string `json:"channel,omitempty"`
 	Name    string `json:"name"` // the sweep step's name (SweepPreTrim or SweepVerify in records of schema 1)
@@ -383,3 +390,32 @@ type RetrimPass struct {
 // SweepName is the name of the sweep in the same record that keeps the pass's
 // readings: "<step> pass <n>".
 func (p RetrimPass) SweepName() string { return passName(p.Step, p.Pass) }
+
+// Soak is one temperature soak: the set point, when the chamber got there and was
+// stable, and every temperature read while waiting.
+type Soak struct {
+	Step     string  `json:"step"`
+	Role     string  `json:"role"`      // the thermal role
+	SetPoint float64 `json:"set_point"` // °C
+	Band     float64 `json:"band"`      // ± °C of the set point that counts as there
+	Dwell    float64 `json:"dwell_s"`   // s the temperature must stay in the band
+	// Started is when the set point was programmed, Stable when the dwell began
+	// (the last entry into the band), Ended when the dwell was complete or the
+	// soak gave up.
+	Started time.Time `json:"started"`
+	Stable  time.Time `json:"stable,omitzero"`
+	Ended   time.Time `json:"ended"`
+	// MeanC and SDC are the mean and standard deviation of the temperatures read
+	// over the dwell: the unit's temperature for the sweeps that follow.
+	MeanC    float64       `json:"mean_c"`
+	SDC      float64       `json:"sd_c"`
+	Readings []TempReading `json:"readings"`
+	TimedOut bool          `json:"timed_out,omitempty"`
+}
+
+// TempReading is one temperature the soak read.
+type TempReading struct {
+	Time  time.Time `json:"time"`
+	C     float64   `json:"c"`
+	UnitC *float64  `json:"unit_c,omitempty"` // the unit's own sensor, when the soak reads it
+}
