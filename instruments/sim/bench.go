@@ -30,6 +30,8 @@ type Bench struct {
 	insts  []instruments.Instrument // the instrument of each spec, in order
 	dut    *DUT
 	sw     *Switch
+	ch     *Chamber
+	therm  thermal           // the chamber's and the unit's temperatures
 	route  int               // 0-based channel wired to source and meter; −1 = none (switch released)
 	stored map[string]stored // serial → what the unit stored in non-volatile memory
 }
@@ -63,13 +65,13 @@ func (c *virtualClock) Sleep(ctx context.Context, d time.Duration) error {
 
 // model returns the instrument model an address names: "source", "meter" or "dut".
 func model(addr *url.URL) (string, error) {
-	bad := fmt.Errorf("address %q: expected sim://source, sim://meter, sim://dut or sim://switch", addr.String())
+	bad := fmt.Errorf("address %q: expected sim://source, sim://meter, sim://dut, sim://switch or sim://chamber", addr.String())
 	if addr.Scheme != "sim" || addr.Opaque != "" || addr.User != nil || addr.Port() != "" ||
 		(addr.Path != "" && addr.Path != "/") || addr.RawQuery != "" || addr.Fragment != "" {
 		return "", bad
 	}
 	switch h := strings.ToLower(addr.Hostname()); h {
-	case modelSource, modelMeter, modelDUT, modelSwitch:
+	case modelSource, modelMeter, modelDUT, modelSwitch, modelChamber:
 		return h, nil
 	}
 	return "", bad
@@ -84,7 +86,8 @@ func specModel(s instruments.Spec) (string, error) {
 }
 
 // NewBench opens a bench with one instrument per spec (at most one of each of
-// sim://source, sim://dut and sim://switch, any number of sim://meter), wired
+// sim://source, sim://dut, sim://switch and sim://chamber, any number of
+// sim://meter), wired
 // together. Bench-wide settings (seed, time, start) may appear in any spec;
 // conflicting values give a *instruments.SettingError.
 func NewBench(specs []instruments.Spec) (*Bench, error) {
@@ -164,8 +167,19 @@ func NewBench(specs []instruments.Spec) (*Bench, error) {
 			b.dut = d
 		case modelSwitch:
 			b.sw = &Switch{wiring: wiring{bench: b, latency: c.latency, name: "sim switch", errClosed: errSwitchClosed}}
+		case modelChamber:
+			b.ch = newChamber(b, c)
 		}
 	}
+	dut := DefaultDUTSettings()
+	if b.dut != nil {
+		dut = b.dut.settings
+	}
+	var chc *chamberConfig
+	if b.ch != nil {
+		chc = &b.ch.cfg
+	}
+	b.therm = newThermal(b.clock.Now(), chc, dut.Ambient, dut.ThermalTau)
 	if b.sw != nil {
 		b.route = -1 // a multiplexer powers up with every path open
 	}
@@ -181,6 +195,8 @@ func NewBench(specs []instruments.Spec) (*Bench, error) {
 			b.insts = append(b.insts, b.dut)
 		case modelSwitch:
 			b.insts = append(b.insts, b.sw)
+		case modelChamber:
+			b.insts = append(b.insts, b.ch)
 		}
 	}
 	return b, nil
@@ -202,12 +218,17 @@ func (b *Bench) instrument(s instruments.Spec) instruments.Instrument {
 		return b.meter
 	case modelSwitch:
 		return b.sw
+	case modelChamber:
+		return b.ch
 	}
 	return b.dut
 }
 
 // Switch returns the bench's switch, nil if it has none.
 func (b *Bench) Switch() *Switch { return b.sw }
+
+// Chamber returns the bench's chamber, nil if it has none.
+func (b *Bench) Chamber() *Chamber { return b.ch }
 
 // Source returns the bench's source, nil if it has none.
 func (b *Bench) Source() *Source { return b.source }
@@ -244,6 +265,9 @@ func (b *Bench) Close() error {
 	}
 	if b.sw != nil {
 		b.sw.Close()
+	}
+	if b.ch != nil {
+		b.ch.Close()
 	}
 	return nil
 }

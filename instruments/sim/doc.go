@@ -17,7 +17,8 @@
 //
 // # Addresses and wiring
 //
-// sim://source, sim://meter, sim://dut and sim://switch name the four models. Opened
+// sim://source, sim://meter, sim://dut, sim://switch and sim://chamber name the five
+// models (the chamber is described under Temperature). Opened
 // together (instruments.OpenAll, Driver.OpenGroup or NewBench) they form one Bench:
 // the source drives the DUT input and the meter reads the DUT output. Opened alone
 // with Driver.Open an instrument is unwired: the meter reads 0 (plus its own errors
@@ -226,6 +227,31 @@
 // outside the format answers "ERR value out of range" and leaves the register;
 // reads answer the register in the same format and text.
 //
+// # Temperature
+//
+// sim://chamber (model TC-150) is an instruments.Thermal and StableReporter that
+// holds the fixture. It powers up resting at ambient (25 °C) with that set point.
+// After SetTemperature its temperature follows a damped second-order response on the
+// bench clock (a one-hour soak takes no wall time on simulated time): with the
+// deviation e = T − set point,
+//
+//	e'' + 2ζωn·e' + ωn²·e = 0    ζ = −ln mp/√(π² + ln² mp), ζ·ωn = 1/tau
+//
+// mp the overshoot setting (0.08: a 60 °C step peaks 4.8 °C beyond the set point)
+// and tau (90 s) the time constant of the decaying envelope, so a 60 °C step is
+// within 0.5 °C after 6·tau. A new set point takes over from the temperature and
+// rate the chamber has at that instant. Temperature reads it with white noise
+// (noise, 0.05 °C rms per read); Stable answers true once the envelope of the
+// remaining response, |e| ≤ e^{−t/tau}·|A|, is inside band (0.3 °C): it will not
+// leave the band again. A set point outside min..max (−40 °C … 150 °C) is refused
+// and the set point stays. SetTemperature works after Close, so the engine can
+// always return the chamber to a safe temperature.
+//
+// The unit in the fixture has a temperature of its own, which follows the chamber's
+// through a first-order lag (the DUT's dut_tau, 60 s): T' = (T_chamber − T)/dut_tau,
+// worked out in closed form. On a bench without a chamber it sits at the DUT's
+// ambient setting (25 °C).
+//
 // # Trim port protocol
 //
 // One line per command, terminated by "\n" (a trailing "\r\n" and surrounding spaces
@@ -310,6 +336,10 @@
 //	             (on the 100 mA range, scales with range; 10 nA), current_noise (at
 //	             1 PLC, 5 nA rms), current_gain_error (drawn), current_offset (drawn)
 //	switch       none of its own
+//	chamber      ambient (°C at power-on; 25 °C), tau (envelope time constant; 90 s),
+//	             overshoot (peak overshoot of a step, a fraction 0 < mp < 1 or with %;
+//	             0.08), noise (0.05 °C rms per read), min (−40 °C), max (150 °C),
+//	             band (what Stable judges; 0.3 °C)
 //	dut          offset (drawn; total output-referred offset at zero input, all of it
 //	             output-referred; dnl's mid-scale DAC error comes on top),
 //	             gain_error (drawn), offset_sigma (3 mV),
@@ -320,7 +350,9 @@
 //	             gain_lsb (10 ppm), offset_trim (after|before, after),
 //	             defect (none|stuck_bit|noisy|open, drawn), defect_rate (2 %),
 //	             lid (closed|open: the fixture lid at open, closed),
-//	             supply_current (1.2 mA), supply_current_sigma (3 %)
+//	             supply_current (1.2 mA), supply_current_sigma (3 %),
+//	             ambient (the unit's temperature without a chamber; 25 °C),
+//	             dut_tau (the unit's lag behind the chamber; 60 s)
 //	dut, card    gain (nominal closed-loop gain in V/V, finite and non-zero,
 //	             negative for an inverting card; 200),
 //	             output_at_zero (output at zero input with no correction; 2.5 V),

@@ -123,8 +123,8 @@ func TestConflictingBenchKeys(t *testing.T) {
 func TestAddresses(t *testing.T) {
 	for _, addr := range []string{"sim://psu", "sim://meter:5025", "sim://meter/x", "sim://meter?x=1", "sim:meter"} {
 		_, err := sim.NewBench([]instruments.Spec{{Address: addr}})
-		if err == nil || !strings.Contains(err.Error(), "sim://source, sim://meter, sim://dut or sim://switch") {
-			t.Errorf("%s: err = %v, want one naming the four addresses", addr, err)
+		if err == nil || !strings.Contains(err.Error(), "sim://source, sim://meter, sim://dut, sim://switch or sim://chamber") {
+			t.Errorf("%s: err = %v, want one naming the five addresses", addr, err)
 		}
 	}
 	if _, err := sim.NewBench([]instruments.Spec{{Address: "sim://source"}, {Address: "sim://source"}}); err == nil {

@@ -76,6 +76,12 @@ type DUTSettings struct {
 	SupplyCurrentSigma float64 // fraction, σ of a unit's supply current; 3 %
 
 	Coef Coefficients // firmware correction coefficients; zero = none
+
+	// Temperature (see Chamber): the unit's temperature follows the chamber's
+	// through a first-order lag ThermalTau, or sits at Ambient on a bench without
+	// a chamber.
+	Ambient    float64 // °C, the unit's temperature without a chamber; 25 °C
+	ThermalTau float64 // s, the unit's lag behind the chamber (dut_tau); 60 s
 }
 
 // Output is the kind of a card's output.
@@ -246,6 +252,9 @@ func DefaultDUTSettings() DUTSettings {
 
 		SupplyCurrent:      DefaultSupplyCurrent,
 		SupplyCurrentSigma: DefaultSupplySigma,
+
+		Ambient:    25,
+		ThermalTau: 60,
 	}
 }
 
@@ -262,10 +271,11 @@ func ParseDUTSettings(settings map[string]string) (DUTSettings, error) {
 
 // Instrument models, named by the host of the address.
 const (
-	modelSource = "source"
-	modelMeter  = "meter"
-	modelDUT    = "dut"
-	modelSwitch = "switch"
+	modelSource  = "source"
+	modelMeter   = "meter"
+	modelDUT     = "dut"
+	modelSwitch  = "switch"
+	modelChamber = "chamber"
 )
 
 // benchKeys are the bench-wide settings, allowed in any spec of a group.
@@ -323,6 +333,7 @@ type config struct {
 	source       sourceConfig
 	meter        meterConfig
 	dut          DUTSettings
+	chamber      chamberConfig
 	lidOpen      bool // dut: the fixture lid starts open
 	offsetLSBSet bool // dut: offset_lsb was given, so offset_trim does not change it
 }
@@ -339,7 +350,8 @@ func defaultConfig(model string) config {
 			resolution: 1e-6, noise: 1.5e-6,
 			iSpecReading: 200e-6, iSpecRange: 20e-6, iRng: 0.1, iResolution: 10e-9, iNoise: 5e-9,
 		},
-		dut: DefaultDUTSettings(),
+		dut:     DefaultDUTSettings(),
+		chamber: defaultChamber(),
 	}
 }
 
@@ -494,6 +506,8 @@ func (c *config) setters() map[string]setter {
 	case modelDUT:
 		own = c.dut.setters(&c.offsetLSBSet)
 		own["lid"] = choiceOf(&c.lidOpen, "closed", "open")
+	case modelChamber:
+		own = c.chamber.setters()
 	}
 	maps.Copy(s, own)
 	return s
@@ -531,6 +545,11 @@ func parseSettings(model string, settings map[string]string) (config, error) {
 	}
 	if c.bench.startSet && c.bench.timeSet && c.bench.real {
 		return c, settingErr("start", "applies only to time: simulated")
+	}
+	if model == modelChamber {
+		if err := c.chamber.check(); err != nil {
+			return c, err
+		}
 	}
 	if model == modelDUT {
 		if c.dut.OffsetTrimBefore && !c.offsetLSBSet {
@@ -791,6 +810,8 @@ func (s *DUTSettings) setters(offsetLSBSet *bool) map[string]setter {
 		"input_resistance":     positiveOf(&s.InputResistance, units.Ohm),
 		"supply_current":       positiveOf(&s.SupplyCurrent, units.Ampere),
 		"supply_current_sigma": nonNegativeOf(&s.SupplyCurrentSigma, units.Ratio),
+		"ambient":              quantityOf(&s.Ambient, units.Celsius),
+		"dut_tau":              nonNegativeOf(&s.ThermalTau, units.Second),
 		"coef": func(k, val string) error {
 			v, err := choice(k, val, "none", string(TrimGain), string(TrimOffset), string(TrimBoth))
 			s.Coef.Use = Trim(v)
