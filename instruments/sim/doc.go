@@ -252,6 +252,18 @@
 // worked out in closed form. On a bench without a chamber it sits at the DUT's
 // ambient setting (25 °C).
 //
+// The unit drifts with its temperature T: with ΔT = T − 25 °C (TCRef) the analog
+// model's core becomes
+//
+//	core(x) = G·(1 + tcg·ΔT)·(x + vin_os + tco·ΔT + step(x))
+//
+// tco (V/°C, input-referred, σ tc_offset_sigma 2 µV/°C) and tcg (per °C, σ
+// tc_gain_sigma 25 ppm/°C) drawn per channel; tc_offset and tc_gain set them. At
+// 25 °C the model is exactly the one above. The unit's own temperature sensor
+// answers cmd_temp (TEMP?) with T plus a sensor offset (σ temp_sensor_sigma 0.3 °C,
+// temp_sensor_offset sets it; the unit's, channel 1's draw) to 0.01 °C, e.g. "85.12".
+// The three are drawn after the supply current, so no older draw changes.
+//
 // # Trim port protocol
 //
 // One line per command, terminated by "\n" (a trailing "\r\n" and surrounding spaces
@@ -275,6 +287,8 @@
 //	CAL GAIN?        → the gain coefficient                          (cmd_coef_gain_read)
 //	CAL OFS <value>  → OK; likewise                                  (cmd_coef_offset_write)
 //	CAL OFS?         → the offset coefficient                        (cmd_coef_offset_read)
+//	TEMP?            → the unit's own temperature sensor in °C,       (cmd_temp)
+//	                   0.01 °C resolution
 //	LID?             → CLOSED or OPEN: the fixture's lid (interlock) input
 //	anything else    → ERR unknown command "<line>"
 //
@@ -352,7 +366,10 @@
 //	             lid (closed|open: the fixture lid at open, closed),
 //	             supply_current (1.2 mA), supply_current_sigma (3 %),
 //	             ambient (the unit's temperature without a chamber; 25 °C),
-//	             dut_tau (the unit's lag behind the chamber; 60 s)
+//	             dut_tau (the unit's lag behind the chamber; 60 s),
+//	             tc_offset_sigma (input-referred, per °C; 2 µV), tc_gain_sigma (per °C;
+//	             25 ppm), temp_sensor_sigma (0.3 °C), tc_offset, tc_gain,
+//	             temp_sensor_offset (drawn)
 //	dut, card    gain (nominal closed-loop gain in V/V, finite and non-zero,
 //	             negative for an inverting card; 200),
 //	             output_at_zero (output at zero input with no correction; 2.5 V),
@@ -380,7 +397,7 @@
 //	             BRX200-FW 2.3.1), cmd_read (MEAS?), cmd_coef_gain_write
 //	             (CAL GAIN {value}), cmd_coef_gain_read (CAL GAIN?),
 //	             cmd_coef_offset_write (CAL OFS {value}), cmd_coef_offset_read
-//	             (CAL OFS?). Trim write templates need {code} once, coefficient
+//	             (CAL OFS?), cmd_temp (TEMP?). Trim write templates need {code} once, coefficient
 //	             writes {value} once; per-channel commands may hold {channel}; no
 //	             two commands of the card may be the same, nor LID?
 //

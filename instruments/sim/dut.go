@@ -162,10 +162,11 @@ func (d *DUT) step(t time.Time, old, new []float64) {
 		if old[i] == new[i] {
 			continue
 		}
-		cur := c.unit.linear(old[i], c.ofs, c.gain) + c.decay(t)
+		dT := d.dT(t)
+		cur := c.unit.linearAt(old[i], c.ofs, c.gain, dT) + c.decay(t)
 		c.resid, c.tStep = 0, t
 		if c.unit.Tau > 0 {
-			c.resid = cur - c.unit.linear(new[i], c.ofs, c.gain)
+			c.resid = cur - c.unit.linearAt(new[i], c.ofs, c.gain, dT)
 		}
 	}
 }
@@ -180,11 +181,34 @@ func (d *DUT) output(t time.Time, k int, x, z float64) float64 {
 	if c.unit.Defect == DefectOpen {
 		return n
 	}
-	y := c.unit.linear(x, c.ofs, c.gain) + c.decay(t)
+	y := c.unit.linearAt(x, c.ofs, c.gain, d.dT(t)) + c.decay(t)
 	if cf := d.card.coef; cf.use != "" && d.card.output != OutputReported {
 		return c.unit.rail(c.cGain*y + cf.offsetSI(c.cOfs, d.card.adcLSB) + n)
 	}
 	return c.unit.rail(y + n)
+}
+
+// Temperature returns the true temperature of the unit in the fixture in °C (the
+// fixture's when empty): it lags the chamber's, or is the ambient setting without
+// a chamber.
+func (d *DUT) Temperature() float64 {
+	d.bench.mu.Lock()
+	defer d.bench.mu.Unlock()
+	_, _, td := d.bench.therm.at(d.bench.clock.Now())
+	return td
+}
+
+// dT returns the unit's temperature at t minus TCRef. Called with the bench lock
+// held.
+func (d *DUT) dT(t time.Time) float64 {
+	_, _, td := d.bench.therm.at(t)
+	return td - TCRef
+}
+
+// sensor returns the reading of the unit's own temperature sensor at t: its
+// temperature plus its sensor offset, to 0.01 °C.
+func (d *DUT) sensor(t time.Time) float64 {
+	return math.Round((d.dT(t)+TCRef+d.chans[0].unit.SensorOffset)*100) / 100
 }
 
 // digitise returns the count a reported card answers for channel k's (0-based)
@@ -232,6 +256,8 @@ func (d *DUT) reply(line string) string {
 	switch {
 	case is(p.serial):
 		return d.serial
+	case is(p.temp):
+		return strconv.FormatFloat(d.sensor(d.bench.clock.Now()), 'f', 2, 64)
 	case is(p.firmware):
 		return c.firmware
 	case is(p.unlock):

@@ -167,7 +167,15 @@ type UnitParams struct {
 	Defect Defect // DefectNone, or the one defect this unit carries
 
 	SupplyCurrent float64 // A, the unit's supply current (drawn per unit, 3 % σ by default)
+
+	OffsetTC     float64 // V/°C, input-referred offset drift about TCRef
+	GainTC       float64 // 1/°C, gain drift about TCRef
+	SensorOffset float64 // °C, error of the unit's own temperature sensor (the unit's: channel 1's draw)
 }
+
+// TCRef is the temperature in °C at which a unit's drift is zero: its parameters
+// are those at 25 °C.
+const TCRef = 25.0
 
 // Gain returns the closed-loop gain before trim in V/V:
 // ±ClosedLoopGain(OpenLoopGain, 1/|NominalGain|)·(1 + GainError), negative for an
@@ -193,7 +201,13 @@ func (p UnitParams) TotalOffset() float64 {
 // linear is the transfer in V before the rail compression, settled and noiseless,
 // for input x (V) and trim register codes (a code of a DAC the card lacks is ignored).
 func (p UnitParams) linear(x float64, offsetCode, gainCode int) float64 {
-	xin := x + p.InputOffset
+	return p.linearAt(x, offsetCode, gainCode, 0)
+}
+
+// linearAt is linear at dT °C from TCRef: the input-referred offset drifts by
+// OffsetTC·dT and the gain by the factor 1 + GainTC·dT.
+func (p UnitParams) linearAt(x float64, offsetCode, gainCode int, dT float64) float64 {
+	xin := x + p.InputOffset + p.OffsetTC*dT
 	if x > p.CrossoverAt {
 		xin += p.CrossoverStep
 	}
@@ -204,7 +218,7 @@ func (p UnitParams) linear(x float64, offsetCode, gainCode int) float64 {
 			xin += ofs
 		}
 	}
-	y := p.OutputAtZero + p.Gain()*xin + p.OutputOffset
+	y := p.OutputAtZero + p.Gain()*(1+p.GainTC*dT)*xin + p.OutputOffset
 	if p.Trim.HasGain() {
 		gtrim := p.GainDAC.Correction(gainCode) * p.GainLSB
 		y = p.GainPivot + (1+gtrim)*(y-p.GainPivot)
@@ -290,7 +304,8 @@ func Params(serial string, seed uint64, s DUTSettings) UnitParams {
 	for i := DACBits; i < c.gainDAC.Width(); i++ {
 		gainErr[i] = r.NormFloat64()
 	}
-	zSupply := r.NormFloat64() // after every older draw, so those stay as they were
+	zSupply := r.NormFloat64()                                               // after every older draw, so those stay as they were
+	zTCO, zTCG, zSensor := r.NormFloat64(), r.NormFloat64(), r.NormFloat64() // after the supply's
 
 	share := s.InputOffsetShare
 	p := UnitParams{
@@ -322,6 +337,12 @@ func Params(serial string, seed uint64, s DUTSettings) UnitParams {
 		supply = DefaultSupplyCurrent
 	}
 	p.SupplyCurrent = supply * (1 + sigma*zSupply)
+	p.OffsetTC, p.GainTC, p.SensorOffset = zTCO*s.TCOffsetSigma, zTCG*s.TCGainSigma, zSensor*s.SensorSigma
+	for _, o := range []struct{ dst, src *float64 }{{&p.OffsetTC, s.TCOffset}, {&p.GainTC, s.TCGain}, {&p.SensorOffset, s.SensorOffset}} {
+		if o.src != nil {
+			*o.dst = *o.src
+		}
+	}
 	if stepNeg {
 		p.CrossoverStep = -p.CrossoverStep
 	}
@@ -370,6 +391,6 @@ func ChannelParams(serial string, k int, seed uint64, s DUTSettings) UnitParams 
 		return p
 	}
 	q := Params(serial+"/"+strconv.Itoa(k), seed, s)
-	q.SupplyCurrent = p.SupplyCurrent
+	q.SupplyCurrent, q.SensorOffset = p.SupplyCurrent, p.SensorOffset
 	return q
 }

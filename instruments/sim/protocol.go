@@ -61,6 +61,8 @@ type Protocol struct {
 	CoefGainRead    string // answered with the gain coefficient; "CAL GAIN?"
 	CoefOffsetWrite string // writes the offset coefficient; "CAL OFS {value}"
 	CoefOffsetRead  string // answered with the offset coefficient; "CAL OFS?"
+
+	Temp string // answered with the unit's own temperature sensor in °C; "TEMP?"
 }
 
 // DefaultProtocol returns the demo card's command set.
@@ -78,6 +80,7 @@ func DefaultProtocol() Protocol {
 		CoefGainRead:    "CAL GAIN?",
 		CoefOffsetWrite: "CAL OFS " + ValuePlaceholder,
 		CoefOffsetRead:  "CAL OFS?",
+		Temp:            "TEMP?",
 	}
 }
 
@@ -89,7 +92,7 @@ func (p Protocol) withDefaults() Protocol {
 		{&p.OffsetRead, &d.OffsetRead}, {&p.GainWrite, &d.GainWrite}, {&p.GainRead, &d.GainRead},
 		{&p.Store, &d.Store}, {&p.Read, &d.Read}, {&p.CoefGainWrite, &d.CoefGainWrite},
 		{&p.CoefGainRead, &d.CoefGainRead}, {&p.CoefOffsetWrite, &d.CoefOffsetWrite},
-		{&p.CoefOffsetRead, &d.CoefOffsetRead},
+		{&p.CoefOffsetRead, &d.CoefOffsetRead}, {&p.Temp, &d.Temp},
 	} {
 		if *f.got == "" {
 			*f.got = *f.def
@@ -199,6 +202,7 @@ type port struct {
 	serial, firmware, store, unlock                        template
 	offsetRead, gainRead, coefGainRead, coefOffsetRead     template
 	read                                                   template
+	temp                                                   template
 	offsetWrite, gainWrite, coefGainWrite, coefOffsetWrite template
 }
 
@@ -227,6 +231,7 @@ func compilePort(c card) (port, error) {
 		{"cmd_coef_gain_read", c.proto.CoefGainRead, &p.coefGainRead, "", true, c.coef.hasGain()},
 		{"cmd_coef_offset_write", c.proto.CoefOffsetWrite, &p.coefOffsetWrite, ValuePlaceholder, true, c.coef.hasOffset()},
 		{"cmd_coef_offset_read", c.proto.CoefOffsetRead, &p.coefOffsetRead, "", true, c.coef.hasOffset()},
+		{"cmd_temp", c.proto.Temp, &p.temp, "", false, true},
 	} {
 		if !f.use {
 			continue

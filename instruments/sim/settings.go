@@ -82,6 +82,16 @@ type DUTSettings struct {
 	// a chamber.
 	Ambient    float64 // °C, the unit's temperature without a chamber; 25 °C
 	ThermalTau float64 // s, the unit's lag behind the chamber (dut_tau); 60 s
+
+	// Temperature coefficients about TCRef (25 °C), drawn per unit (per channel)
+	// after every older draw: the input-referred offset drifts by OffsetTC V/°C and
+	// the gain by GainTC per °C.
+	TCOffsetSigma float64  // V/°C, σ of the input-referred offset TC; 2 µV/°C
+	TCGainSigma   float64  // 1/°C, σ of the gain TC; 25 ppm/°C
+	SensorSigma   float64  // °C, σ of the offset of the unit's own temperature sensor; 0.3 °C
+	TCOffset      *float64 // V/°C, override of the offset TC; nil = drawn
+	TCGain        *float64 // 1/°C, override of the gain TC; nil = drawn
+	SensorOffset  *float64 // °C, override of the sensor offset; nil = drawn
 }
 
 // Output is the kind of a card's output.
@@ -255,6 +265,10 @@ func DefaultDUTSettings() DUTSettings {
 
 		Ambient:    25,
 		ThermalTau: 60,
+
+		TCOffsetSigma: 2e-6,
+		TCGainSigma:   25e-6,
+		SensorSigma:   0.3,
 	}
 }
 
@@ -812,6 +826,13 @@ func (s *DUTSettings) setters(offsetLSBSet *bool) map[string]setter {
 		"supply_current_sigma": nonNegativeOf(&s.SupplyCurrentSigma, units.Ratio),
 		"ambient":              quantityOf(&s.Ambient, units.Celsius),
 		"dut_tau":              nonNegativeOf(&s.ThermalTau, units.Second),
+		"tc_offset_sigma":      nonNegativeOf(&s.TCOffsetSigma, units.Volt),
+		"tc_gain_sigma":        nonNegativeOf(&s.TCGainSigma, units.Ratio),
+		"temp_sensor_sigma":    nonNegativeOf(&s.SensorSigma, units.Celsius),
+		"tc_offset":            overrideOf(&s.TCOffset, units.Volt),
+		"tc_gain":              overrideOf(&s.TCGain, units.Ratio),
+		"temp_sensor_offset":   overrideOf(&s.SensorOffset, units.Celsius),
+		"cmd_temp":             commandOf(&s.Protocol.Temp),
 		"coef": func(k, val string) error {
 			v, err := choice(k, val, "none", string(TrimGain), string(TrimOffset), string(TrimBoth))
 			s.Coef.Use = Trim(v)

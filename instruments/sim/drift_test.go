@@ -1,0 +1,128 @@
+package sim_test
+
+import (
+	"context"
+	"fmt"
+	"math"
+	"testing"
+	"time"
+
+	"trimline/instruments"
+	"trimline/instruments/sim"
+)
+
+// hotBench opens a quiet source, meter, DUT (settings dut, dut_tau 0 s so the unit
+// is at the chamber's temperature) and a chamber fast enough (tau 1 ms) to be a
+// step, on simulated time.
+func hotBench(t *testing.T, dut map[string]string) *sim.Bench {
+	t.Helper()
+	specs := []instruments.Spec{
+		{Role: "source", Address: "sim://source", Settings: quietSource},
+		{Role: "meter", Address: "sim://meter", Settings: quietMeter},
+		{Role: "dut", Address: "sim://dut", Settings: with(dut, "dut_tau", "0 s")},
+		{Role: "chamber", Address: "sim://chamber", Settings: map[string]string{"tau": "1 ms", "noise": "0 °C"}},
+	}
+	b, err := sim.NewBench(specs)
+	if err != nil {
+		t.Fatal(err)
+	}
+	t.Cleanup(func() { b.Close() })
+	return b
+}
+
+// driftAt85 returns the unit's output at 25 °C and at 85 °C for input x.
+func driftAt85(t *testing.T, b *sim.Bench, x float64) (cold, hot float64) {
+	t.Helper()
+	drive(t, b, x, 100*time.Millisecond) // 100 τ: settled
+	cold = read1(t, b)
+	if err := b.Chamber().SetTemperature(context.Background(), 85); err != nil {
+		t.Fatal(err)
+	}
+	sleep(t, b, 10*time.Second)
+	if td := b.DUT().Temperature(); math.Abs(td-85) > 1e-9 {
+		t.Fatalf("unit at %.6f °C, want 85", td)
+	}
+	return cold, read1(t, b)
+}
+
+// TestDriftHandWorked: offset 3.1 mV all output-referred, gain error −2500 ppm,
+// tc_offset 2 µV/°C, tc_gain 25 ppm/°C, x = 10 mV, ΔT = 60 °C:
+// G = 200/(1 + 200/1e7)·0.9975 = 199.49601; the drift is
+// G·((1 + 60·25e-6)·(0.01 + 60·2e-6) − 0.01) = G·(1.0015·0.01012 − 0.01)
+// = 199.49601·135.18e-6 = 26.968 mV.
+func TestDriftHandWorked(t *testing.T) {
+	b := hotBench(t, with(quietDUT, "tc_offset", "2 uV", "tc_gain", "25 ppm"))
+	load(t, b, "BRX-000001")
+	cold, hot := driftAt85(t, b, 0.01)
+	near(t, "drift at 85 °C", hot-cold, 0.0269679, 2e-6)
+}
+
+// TestDriftDrawn: a drawn unit drifts by its own TCs times 60 °C:
+// G·((1 + 60·tcg)·(x + 60·tco) − x), the offset override putting none of the
+// offset at the input.
+func TestDriftDrawn(t *testing.T) {
+	b := hotBench(t, quietDUT)
+	load(t, b, "BRX-000007")
+	p, _ := b.DUT().Unit()
+	if p.OffsetTC == 0 || p.GainTC == 0 {
+		t.Fatalf("TCs not drawn: %+v", p)
+	}
+	const x = 0.01
+	cold, hot := driftAt85(t, b, x)
+	want := p.Gain() * ((1+60*p.GainTC)*(x+60*p.OffsetTC) - x)
+	near(t, "drift at 85 °C", hot-cold, want, 2e-6)
+	if math.Abs(want) < 1e-4 {
+		t.Fatalf("drift %g V too small to tell from the resolution", want)
+	}
+}
+
+// TestTCPopulation: over 4000 units the σ of each drawn TC is its setting within
+// 5 % (the relative standard error of a sample SD of n is 1/√(2n) = 1.1 %), and
+// channel 2 draws TCs of its own but shares the unit's sensor.
+func TestTCPopulation(t *testing.T) {
+	s := sim.DefaultDUTSettings()
+	var o, g, sn []float64
+	for i := range 4000 {
+		p := sim.Params(fmt.Sprintf("BRX-%06d", i), 1, s)
+		o, g, sn = append(o, p.OffsetTC), append(g, p.GainTC), append(sn, p.SensorOffset)
+	}
+	near(t, "σ offset TC", stddev(o), 2e-6, 0.1e-6)
+	near(t, "σ gain TC", stddev(g), 25e-6, 1.25e-6)
+	near(t, "σ sensor offset", stddev(sn), 0.3, 0.015)
+	p1 := sim.ChannelParams("BRX-000001", 1, 1, s)
+	p2 := sim.ChannelParams("BRX-000001", 2, 1, s)
+	if p1.OffsetTC == p2.OffsetTC || p1.SensorOffset != p2.SensorOffset {
+		t.Fatalf("channel 2: offset TC %g (channel 1 %g), sensor %g (channel 1 %g)", p2.OffsetTC, p1.OffsetTC, p2.SensorOffset, p1.SensorOffset)
+	}
+}
+
+// TestTempSensor: TEMP? answers the unit's temperature plus its sensor offset to
+// 0.01 °C: 25 + 0.123 → "25.12" at ambient, 85 + 0.123 → "85.12" hot; without a
+// chamber the unit sits at its ambient setting (40 + 0.123 → "40.12").
+func TestTempSensor(t *testing.T) {
+	ctx := context.Background()
+	b := hotBench(t, with(quietDUT, "temp_sensor_offset", "0.123 °C"))
+	load(t, b, "BRX-000001")
+	d := b.DUT()
+	if got, err := d.Query(ctx, "TEMP?"); err != nil || got != "25.12" {
+		t.Fatalf("TEMP? = %q, %v; want 25.12", got, err)
+	}
+	b.Chamber().SetTemperature(ctx, 85)
+	sleep(t, b, 10*time.Second)
+	if got, _ := d.Query(ctx, "TEMP?"); got != "85.12" {
+		t.Fatalf("hot: TEMP? = %q, want 85.12", got)
+	}
+	alone := bench(t, nil, nil, with(quietDUT, "temp_sensor_offset", "0.123 °C", "ambient", "40 °C", "cmd_temp", "MEAS:TEMP?"))
+	load(t, alone, "BRX-000001")
+	if got, _ := alone.DUT().Query(ctx, "MEAS:TEMP?"); got != "40.12" {
+		t.Fatalf("no chamber: MEAS:TEMP? = %q, want 40.12", got)
+	}
+	// A drawn sensor offset: round(25 + offset, 0.01).
+	drawn := bench(t, nil, nil, quietDUT)
+	load(t, drawn, "BRX-000003")
+	p, _ := drawn.DUT().Unit()
+	want := fmt.Sprintf("%.2f", math.Round((25+p.SensorOffset)*100)/100)
+	if got, _ := drawn.DUT().Query(ctx, "TEMP?"); got != want || p.SensorOffset == 0 {
+		t.Fatalf("drawn: TEMP? = %q, want %s (offset %g)", got, want, p.SensorOffset)
+	}
+}
