@@ -14,6 +14,26 @@ type coefs struct {
 	gain, offset numfmt.Format // how the port writes and reads each
 	offsetUnit   float64       // SI value (V or A) of one offset number; 0 for counts of a reported card
 	offsetCounts bool          // the offset number is in counts of the converter
+
+	tcUse          Trim          // "" = no temperature coefficients
+	tcOffset       numfmt.Format // how the port writes and reads TCO
+	tcGain         numfmt.Format // and TCG
+	tcOffsetUnit   float64       // SI value per °C of one TCO number; 0 for counts
+	tcOffsetCounts bool          // TCO is in counts of the converter per °C
+	tcGainUnit     float64       // value per °C of one TCG number (1e-6 for ppm)
+	tcRef          float64       // °C
+}
+
+// hasTCO and hasTCG report which temperature coefficients the card holds.
+func (c coefs) hasTCO() bool { return c.tcUse != "" && c.tcUse.HasOffset() }
+func (c coefs) hasTCG() bool { return c.tcUse != "" && c.tcUse.HasGain() }
+
+// tcOffsetSI returns the TCO number v in V (A) per °C, lsb V per count.
+func (c coefs) tcOffsetSI(v, lsb float64) float64 {
+	if c.tcOffsetCounts {
+		return v * lsb
+	}
+	return v * c.tcOffsetUnit
 }
 
 // hasGain and hasOffset report which coefficients the card holds.
@@ -87,7 +107,62 @@ func (s Coefficients) resolve(out Output) (coefs, error) {
 	if c.offset, err = format("coef_offset_format", s.OffsetFormat, scale, "float32", 1); err != nil {
 		return c, err
 	}
-	return c, nil
+	return c, s.resolveTC(&c, out, format)
+}
+
+// resolveTC resolves the temperature coefficients' formats and units into c.
+func (s Coefficients) resolveTC(c *coefs, out Output, format func(key, name string, scale float64, def string, defScale float64) (numfmt.Format, error)) error {
+	c.tcUse, c.tcRef = s.TC, TCRef
+	if s.TCRef != nil {
+		c.tcRef = *s.TCRef
+	}
+	var err error
+	if c.tcOffset, err = format("coef_tc_offset_format", s.TCOffsetFormat, 0, "float32", 1); err != nil {
+		return err
+	}
+	if c.tcGain, err = format("coef_tc_gain_format", s.TCGainFormat, 0, "float32", 1); err != nil {
+		return err
+	}
+	unit := strings.TrimSpace(s.TCOffsetUnit)
+	want := units.Volt
+	if out == OutputCurrent {
+		want = units.Ampere
+	}
+	switch {
+	case out == OutputReported && (unit == "" || unit == "count"):
+		c.tcOffsetCounts = true
+	case unit == "":
+		c.tcOffsetUnit = 1
+	default:
+		q, err := units.Parse("1 " + unit)
+		if err != nil || q.Dim != want {
+			return settingErr("coef_tc_offset_unit", "%q: expected a unit of %s (per °C) such as u%s",
+				s.TCOffsetUnit, want, map[units.Dim]string{units.Volt: "V", units.Ampere: "A"}[want])
+		}
+		c.tcOffsetUnit = q.Value
+	}
+	switch strings.TrimSpace(s.TCGainUnit) {
+	case "", "ppm":
+		c.tcGainUnit = 1e-6
+	case "%":
+		c.tcGainUnit = 1e-2
+	case "1":
+		c.tcGainUnit = 1
+	default:
+		return settingErr("coef_tc_gain_unit", "%q: expected ppm, %% or 1 (per °C)", s.TCGainUnit)
+	}
+	return nil
+}
+
+// tcCorrect applies the firmware's temperature correction to y (V or A, after
+// the gain and offset coefficients) with sensor reading temp: y − tco·ΔT −
+// tcg·ΔT·(y − vz), ΔT = temp − the reference; tco and tcg are the register numbers.
+func (c coefs) tcCorrect(y, temp, tco, tcg, vz, lsb float64) float64 {
+	if c.tcUse == "" {
+		return y
+	}
+	dT := temp - c.tcRef
+	return y - c.tcOffsetSI(tco, lsb)*dT - tcg*c.tcGainUnit*dT*(y-vz)
 }
 
 // offsetSI returns the offset coefficient v (a number in the offset unit) as the

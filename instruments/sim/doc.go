@@ -264,6 +264,24 @@
 // temp_sensor_offset sets it; the unit's, channel 1's draw) to 0.01 °C, e.g. "85.12".
 // The three are drawn after the supply current, so no older draw changes.
 //
+// # Firmware temperature coefficients
+//
+// With coef_tc: offset, gain or both (none by default) the firmware also corrects
+// each channel for temperature with T, its own sensor's reading (as TEMP? answers
+// it), and the reference coef_tc_ref (25 °C):
+//
+//	y' = y_corr − tco·(T − Tref) − tcg·(T − Tref)·(y_corr − output_at_zero)
+//
+// y_corr the output after the gain and offset coefficients (the output itself on a
+// card without them), before the rails or the converter as those are. tco is in
+// coef_tc_offset_unit per °C (the output's SI unit by default; e.g. uV, or count on
+// a reported card) in coef_tc_offset_format (float32); tcg is in coef_tc_gain_unit
+// per °C (ppm by default; % or 1) in coef_tc_gain_format (float32). Both start at 0,
+// are written and read like the coefficients (CAL TCO {value}, CAL TCO?, CAL TCG
+// {value}, CAL TCG?; {channel} allowed) and NV STORE stores them. For the right
+// values, tco = the output TC G·tco_in and tcg = the gain TC, the drift is
+// cancelled but for second-order terms (−G·tcg²·ΔT²·x − tcg·ΔT·vout_os).
+//
 // # Trim port protocol
 //
 // One line per command, terminated by "\n" (a trailing "\r\n" and surrounding spaces
@@ -289,6 +307,10 @@
 //	CAL OFS?         → the offset coefficient                        (cmd_coef_offset_read)
 //	TEMP?            → the unit's own temperature sensor in °C,       (cmd_temp)
 //	                   0.01 °C resolution
+//	CAL TCO <value>  → OK; the offset temperature coefficient         (cmd_tc_offset_write)
+//	CAL TCO?         → it                                             (cmd_tc_offset_read)
+//	CAL TCG <value>  → OK; the gain temperature coefficient           (cmd_tc_gain_write)
+//	CAL TCG?         → it                                             (cmd_tc_gain_read)
 //	LID?             → CLOSED or OPEN: the fixture's lid (interlock) input
 //	anything else    → ERR unknown command "<line>"
 //
@@ -389,7 +411,10 @@
 //	             coef (none|gain|offset|both, none), coef_gain_format (Q2.14),
 //	             coef_gain_scale (int<bits>: 1e-4), coef_offset_format (float32),
 //	             coef_offset_scale (int<bits>: 1), coef_offset_unit (the output's SI
-//	             unit), coef_text (decimal|hex, decimal)
+//	             unit), coef_text (decimal|hex, decimal), coef_tc
+//	             (none|offset|gain|both, none), coef_tc_offset_format (float32),
+//	             coef_tc_offset_unit (the output's SI unit), coef_tc_gain_format
+//	             (float32), coef_tc_gain_unit (ppm|%|1, ppm), coef_tc_ref (25 °C)
 //	dut, port    cmd_serial (SN?), cmd_firmware (FW?), cmd_offset_write
 //	             (TRIM OFS {code}), cmd_offset_read (TRIM OFS?), cmd_gain_write
 //	             (TRIM GAIN {code}), cmd_gain_read (TRIM GAIN?), cmd_store (NV STORE),
@@ -397,7 +422,9 @@
 //	             BRX200-FW 2.3.1), cmd_read (MEAS?), cmd_coef_gain_write
 //	             (CAL GAIN {value}), cmd_coef_gain_read (CAL GAIN?),
 //	             cmd_coef_offset_write (CAL OFS {value}), cmd_coef_offset_read
-//	             (CAL OFS?), cmd_temp (TEMP?). Trim write templates need {code} once, coefficient
+//	             (CAL OFS?), cmd_temp (TEMP?), cmd_tc_offset_write (CAL TCO
+//	             {value}), cmd_tc_offset_read (CAL TCO?), cmd_tc_gain_write (CAL TCG
+//	             {value}), cmd_tc_gain_read (CAL TCG?). Trim write templates need {code} once, coefficient
 //	             writes {value} once; per-channel commands may hold {channel}; no
 //	             two commands of the card may be the same, nor LID?
 //

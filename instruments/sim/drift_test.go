@@ -126,3 +126,66 @@ func TestTempSensor(t *testing.T) {
 		t.Fatalf("drawn: TEMP? = %q, want %s (offset %g)", got, want, p.SensorOffset)
 	}
 }
+
+// tcDUT is the hand-worked unit of TestDriftHandWorked with firmware temperature
+// coefficients (TCO in µV/°C, TCG in ppm/°C) and a perfect sensor.
+var tcDUT = with(quietDUT, "tc_offset", "2 uV", "tc_gain", "25 ppm", "temp_sensor_offset", "0 °C",
+	"coef_tc", "both", "coef_tc_offset_unit", "uV")
+
+// TestTCCorrection: the unit's output TC is G·tco = 199.49601·2 µV = 398.992 µV/°C
+// and its gain TC 25 ppm/°C. With those written the firmware takes off
+// tco_out·ΔT + tcg·ΔT·(y − Vz), which leaves (expanding the model, vin_os = 0,
+// vout_os = 3.1 mV) −G·tcg²·ΔT²·x − tcg·ΔT·vout_os − G·tcg²·tco·ΔT³
+// = −199.49601·(1.5e-3)²·0.01 − 1.5e-3·3.1e-3 = −4.489 µV − 4.650 µV = −9.14 µV of the
+// 26.97 mV drift at 85 °C. With no coefficients written it drifts in full.
+func TestTCCorrection(t *testing.T) {
+	b := hotBench(t, tcDUT)
+	load(t, b, "BRX-000001")
+	d := b.DUT()
+	command(t, d, "CAL TCO 398.992")
+	command(t, d, "CAL TCG 25")
+	cold, hot := driftAt85(t, b, 0.01)
+	near(t, "corrected drift at 85 °C", hot-cold, -9.14e-6, 1.5e-6)
+
+	plain := hotBench(t, tcDUT)
+	load(t, plain, "BRX-000001")
+	cold, hot = driftAt85(t, plain, 0.01)
+	near(t, "uncorrected drift at 85 °C", hot-cold, 0.0269679, 2e-6)
+}
+
+// TestTCRegisters: the TC registers read back in their format (float32's shortest
+// text), refuse malformed values, and NV STORE keeps them for the next load.
+func TestTCRegisters(t *testing.T) {
+	ctx := context.Background()
+	b := bench(t, nil, nil, with(tcDUT, "cmd_tc_gain_write", "CAL:TCG {channel},{value}", "channels", "2",
+		"cmd_tc_gain_read", "CAL:TCG? {channel}"))
+	load(t, b, "BRX-000001")
+	d := b.DUT()
+	for _, c := range []struct{ line, want string }{{"CAL TCO?", "0"}, {"CAL:TCG? 2", "0"}} {
+		if got, err := d.Query(ctx, c.line); err != nil || got != c.want {
+			t.Fatalf("fresh %s = %q, %v; want %q", c.line, got, err, c.want)
+		}
+	}
+	command(t, d, "CAL TCO -12.5")
+	command(t, d, "CAL:TCG 2,3.3")
+	if err := d.Command(ctx, "CAL TCO twelve"); err == nil {
+		t.Fatal("CAL TCO twelve accepted")
+	}
+	command(t, d, "NV STORE")
+	command(t, d, "CAL TCO 1")
+	load(t, b, "BRX-000001")
+	for _, c := range []struct{ line, want string }{{"CAL TCO?", "-12.5"}, {"CAL:TCG? 2", "3.3"}, {"CAL:TCG? 1", "0"}} {
+		if got, err := d.Query(ctx, c.line); err != nil || got != c.want {
+			t.Fatalf("stored %s = %q, %v; want %q", c.line, got, err, c.want)
+		}
+	}
+	// A card without TCs does not know the commands.
+	none := bench(t, nil, nil, quietDUT)
+	load(t, none, "BRX-000001")
+	if err := none.DUT().Command(ctx, "CAL TCO 1"); err == nil {
+		t.Fatal("CAL TCO accepted by a card with coef_tc: none")
+	}
+	if _, err := sim.ParseDUTSettings(map[string]string{"coef_tc": "both", "coef_tc_offset_unit": "mA"}); err == nil {
+		t.Fatal("coef_tc_offset_unit mA accepted on a voltage card")
+	}
+}

@@ -36,6 +36,7 @@ type channel struct {
 	unit        UnitParams
 	ofs, gain   int       // trim registers
 	cGain, cOfs float64   // coefficient registers, as the firmware holds them (offset in its unit)
+	cTCO, cTCG  float64   // temperature coefficient registers, in their units per °C
 	resid       float64   // settling residual of the linear output at tStep (V or A)
 	tStep       time.Time // time of the last step of this channel's input
 }
@@ -44,6 +45,7 @@ type channel struct {
 type stored struct {
 	regs  [][2]int     // {offset, gain} trim codes
 	coefs [][2]float64 // {gain, offset} coefficients
+	tcs   [][2]float64 // {TCO, TCG} temperature coefficients
 }
 
 var (
@@ -132,9 +134,11 @@ func (d *DUT) LoadUnit(ctx context.Context, serial string) error {
 		c.unit = ChannelParams(serial, i+1, b.seed, d.settings)
 		c.ofs, c.gain = d.card.offsetDAC.NoCorrection(), d.card.gainDAC.NoCorrection()
 		c.cGain, c.cOfs = 1, 0
+		c.cTCO, c.cTCG = 0, 0
 		if ok && i < len(st.regs) {
 			c.ofs, c.gain = st.regs[i][0], st.regs[i][1]
 			c.cGain, c.cOfs = st.coefs[i][0], st.coefs[i][1]
+			c.cTCO, c.cTCG = st.tcs[i][0], st.tcs[i][1]
 		}
 		c.resid, c.tStep = 0, b.clock.Now()
 	}
@@ -182,8 +186,15 @@ func (d *DUT) output(t time.Time, k int, x, z float64) float64 {
 		return n
 	}
 	y := c.unit.linearAt(x, c.ofs, c.gain, d.dT(t)) + c.decay(t)
-	if cf := d.card.coef; cf.use != "" && d.card.output != OutputReported {
-		return c.unit.rail(c.cGain*y + cf.offsetSI(c.cOfs, d.card.adcLSB) + n)
+	if d.card.output == OutputReported {
+		return c.unit.rail(y + n)
+	}
+	cf := d.card.coef
+	if cf.use != "" {
+		y = c.cGain*y + cf.offsetSI(c.cOfs, d.card.adcLSB)
+	}
+	if cf.tcUse != "" {
+		y = cf.tcCorrect(y, d.sensor(t), c.cTCO, c.cTCG, d.card.outputAtZero, d.card.adcLSB)
 	}
 	return c.unit.rail(y + n)
 }
@@ -218,6 +229,9 @@ func (d *DUT) digitise(k int, y float64) int64 {
 	c := &d.chans[k]
 	if d.card.coef.use != "" {
 		y = c.cGain*y + d.card.coef.offsetSI(c.cOfs, d.card.adcLSB)
+	}
+	if cf := d.card.coef; cf.tcUse != "" {
+		y = cf.tcCorrect(y, d.sensor(d.bench.clock.Now()), c.cTCO, c.cTCG, d.card.outputAtZero, d.card.adcLSB)
 	}
 	n := math.Round(y / d.card.adcLSB)
 	lo, hi := -math.Ldexp(1, d.card.adcBits-1), math.Ldexp(1, d.card.adcBits-1)-1
@@ -267,10 +281,12 @@ func (d *DUT) reply(line string) string {
 		if locked {
 			return "ERR locked"
 		}
-		st := stored{regs: make([][2]int, len(d.chans)), coefs: make([][2]float64, len(d.chans))}
+		st := stored{regs: make([][2]int, len(d.chans)), coefs: make([][2]float64, len(d.chans)),
+			tcs: make([][2]float64, len(d.chans))}
 		for i, ch := range d.chans {
 			st.regs[i] = [2]int{ch.ofs, ch.gain}
 			st.coefs[i] = [2]float64{ch.cGain, ch.cOfs}
+			st.tcs[i] = [2]float64{ch.cTCO, ch.cTCG}
 		}
 		d.bench.stored[d.serial] = st
 		return "OK"
@@ -284,6 +300,8 @@ func (d *DUT) reply(line string) string {
 		{p.gainRead, func(k int) string { return formatCode(c.gainDAC, c.format, d.chans[k].gain) }},
 		{p.coefGainRead, func(k int) string { t, _, _ := c.coef.gain.Encode(d.chans[k].cGain); return t }},
 		{p.coefOffsetRead, func(k int) string { t, _, _ := c.coef.offset.Encode(d.chans[k].cOfs); return t }},
+		{p.tcoRead, func(k int) string { t, _, _ := c.coef.tcOffset.Encode(d.chans[k].cTCO); return t }},
+		{p.tcgRead, func(k int) string { t, _, _ := c.coef.tcGain.Encode(d.chans[k].cTCG); return t }},
 		{p.read, func(k int) string {
 			t := d.bench.clock.Now()
 			return strconv.FormatInt(d.digitise(k, d.bench.sample(t, k)), 10)
@@ -328,6 +346,20 @@ func (d *DUT) reply(line string) string {
 			v, err := c.coef.offset.Decode(text)
 			if err == nil {
 				d.chans[k].cOfs = v
+			}
+			return err == nil
+		}, "ERR value out of range"},
+		{p.tcoWrite, func(k int, text string) bool {
+			v, err := c.coef.tcOffset.Decode(text)
+			if err == nil {
+				d.chans[k].cTCO = v
+			}
+			return err == nil
+		}, "ERR value out of range"},
+		{p.tcgWrite, func(k int, text string) bool {
+			v, err := c.coef.tcGain.Decode(text)
+			if err == nil {
+				d.chans[k].cTCG = v
 			}
 			return err == nil
 		}, "ERR value out of range"},

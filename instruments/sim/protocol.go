@@ -63,6 +63,11 @@ type Protocol struct {
 	CoefOffsetRead  string // answered with the offset coefficient; "CAL OFS?"
 
 	Temp string // answered with the unit's own temperature sensor in °C; "TEMP?"
+
+	TCOffsetWrite string // writes the offset temperature coefficient; "CAL TCO {value}"
+	TCOffsetRead  string // answered with it; "CAL TCO?"
+	TCGainWrite   string // writes the gain temperature coefficient; "CAL TCG {value}"
+	TCGainRead    string // answered with it; "CAL TCG?"
 }
 
 // DefaultProtocol returns the demo card's command set.
@@ -81,6 +86,10 @@ func DefaultProtocol() Protocol {
 		CoefOffsetWrite: "CAL OFS " + ValuePlaceholder,
 		CoefOffsetRead:  "CAL OFS?",
 		Temp:            "TEMP?",
+		TCOffsetWrite:   "CAL TCO " + ValuePlaceholder,
+		TCOffsetRead:    "CAL TCO?",
+		TCGainWrite:     "CAL TCG " + ValuePlaceholder,
+		TCGainRead:      "CAL TCG?",
 	}
 }
 
@@ -93,6 +102,8 @@ func (p Protocol) withDefaults() Protocol {
 		{&p.Store, &d.Store}, {&p.Read, &d.Read}, {&p.CoefGainWrite, &d.CoefGainWrite},
 		{&p.CoefGainRead, &d.CoefGainRead}, {&p.CoefOffsetWrite, &d.CoefOffsetWrite},
 		{&p.CoefOffsetRead, &d.CoefOffsetRead}, {&p.Temp, &d.Temp},
+		{&p.TCOffsetWrite, &d.TCOffsetWrite}, {&p.TCOffsetRead, &d.TCOffsetRead},
+		{&p.TCGainWrite, &d.TCGainWrite}, {&p.TCGainRead, &d.TCGainRead},
 	} {
 		if *f.got == "" {
 			*f.got = *f.def
@@ -203,6 +214,7 @@ type port struct {
 	offsetRead, gainRead, coefGainRead, coefOffsetRead     template
 	read                                                   template
 	temp                                                   template
+	tcoWrite, tcoRead, tcgWrite, tcgRead                   template
 	offsetWrite, gainWrite, coefGainWrite, coefOffsetWrite template
 }
 
@@ -232,6 +244,10 @@ func compilePort(c card) (port, error) {
 		{"cmd_coef_offset_write", c.proto.CoefOffsetWrite, &p.coefOffsetWrite, ValuePlaceholder, true, c.coef.hasOffset()},
 		{"cmd_coef_offset_read", c.proto.CoefOffsetRead, &p.coefOffsetRead, "", true, c.coef.hasOffset()},
 		{"cmd_temp", c.proto.Temp, &p.temp, "", false, true},
+		{"cmd_tc_offset_write", c.proto.TCOffsetWrite, &p.tcoWrite, ValuePlaceholder, true, c.coef.hasTCO()},
+		{"cmd_tc_offset_read", c.proto.TCOffsetRead, &p.tcoRead, "", true, c.coef.hasTCO()},
+		{"cmd_tc_gain_write", c.proto.TCGainWrite, &p.tcgWrite, ValuePlaceholder, true, c.coef.hasTCG()},
+		{"cmd_tc_gain_read", c.proto.TCGainRead, &p.tcgRead, "", true, c.coef.hasTCG()},
 	} {
 		if !f.use {
 			continue

@@ -153,6 +153,15 @@ type Coefficients struct {
 	OffsetUnit    string
 	OffsetScaleSI bool // OffsetScale was written as a voltage or current
 	Hex           bool // coef_text: hex; decimal otherwise
+
+	// Temperature coefficients the firmware corrects with, T its own sensor's
+	// reading: y' = y − TCO·(T − TCRef) − TCG·(T − TCRef)·(y − output_at_zero).
+	TC             Trim     // which TCs the card has (offset: TCO, gain: TCG); "" = none
+	TCOffsetFormat string   // numfmt name of TCO; "" = float32
+	TCOffsetUnit   string   // TCO's unit per °C ("uV", "count"); "" = the output's SI unit
+	TCGainFormat   string   // numfmt name of TCG; "" = float32
+	TCGainUnit     string   // TCG's unit per °C: "ppm", "%" or "1"; "" = ppm
+	TCRef          *float64 // °C, the reference temperature; nil = 25 °C
 }
 
 // card is the resolved design of DUTSettings: every default filled in.
@@ -852,6 +861,23 @@ func (s *DUTSettings) setters(offsetLSBSet *bool) map[string]setter {
 		"cmd_coef_gain_read":    commandOf(&s.Protocol.CoefGainRead),
 		"cmd_coef_offset_write": commandOf(&s.Protocol.CoefOffsetWrite),
 		"cmd_coef_offset_read":  commandOf(&s.Protocol.CoefOffsetRead),
+		"coef_tc": func(k, val string) error {
+			v, err := choice(k, val, "none", string(TrimGain), string(TrimOffset), string(TrimBoth))
+			s.Coef.TC = Trim(v)
+			if v == "none" {
+				s.Coef.TC = ""
+			}
+			return err
+		},
+		"coef_tc_offset_format": wordOf(&s.Coef.TCOffsetFormat),
+		"coef_tc_offset_unit":   wordOf(&s.Coef.TCOffsetUnit),
+		"coef_tc_gain_format":   wordOf(&s.Coef.TCGainFormat),
+		"coef_tc_gain_unit":     wordOf(&s.Coef.TCGainUnit),
+		"coef_tc_ref":           overrideOf(&s.Coef.TCRef, units.Celsius),
+		"cmd_tc_offset_write":   commandOf(&s.Protocol.TCOffsetWrite),
+		"cmd_tc_offset_read":    commandOf(&s.Protocol.TCOffsetRead),
+		"cmd_tc_gain_write":     commandOf(&s.Protocol.TCGainWrite),
+		"cmd_tc_gain_read":      commandOf(&s.Protocol.TCGainRead),
 		"trim": func(k, val string) error {
 			v, err := choice(k, val, string(TrimBoth), string(TrimOffset), string(TrimGain))
 			s.Trim = Trim(v)
