@@ -1,5 +1,5 @@
 // Package conformance is a test suite every trimline driver must pass. Source,
-// CurrentSource, Meter, TrimPort and Switch run subtests against instruments a test opens with its own open
+// CurrentSource, Meter, TrimPort, Switch and Thermal run subtests against instruments a test opens with its own open
 // function (called once per subtest; register cleanup with t.Cleanup there):
 // identification (if the instrument is an Identifier), set and read, rejected
 // requests and the error queue, timeouts and cancellation while blocked (when Hooks
@@ -54,6 +54,9 @@ type Hooks struct {
 	// Channel is a channel a switch must route (default "1"); BadChannel one it must
 	// refuse (default "99").
 	Channel, BadChannel string
+	// SetPoint is a set point in °C a thermal must take (0 means 30 °C);
+	// BadSetPoint one it must refuse (0 skips that check).
+	SetPoint, BadSetPoint float64
 }
 
 func hooksOf(h []Hooks) Hooks {
@@ -547,6 +550,65 @@ func Switch(t *testing.T, open func(t *testing.T) instruments.Switch, hooks ...H
 		s := open(t)
 		h.Silence(t)
 		timed(t, h, "Route", func(ctx context.Context) error { return s.Route(ctx, h.Channel) })
+	})
+	t.Run("close twice", func(t *testing.T) { closeTwice(t, open(t)) })
+}
+
+// Thermal runs the suite on a thermal (a chamber or hot plate): set a point and
+// read a finite temperature, a refused set point (with the instrument's own error
+// when Hooks.ErrorQueue) leaves the thermal working, NaN is refused, a
+// StableReporter answers, cancellation and timeout of a read, and Close twice.
+func Thermal(t *testing.T, open func(t *testing.T) instruments.Thermal, hooks ...Hooks) {
+	h := hooksOf(hooks)
+	if h.SetPoint == 0 {
+		h.SetPoint = 30
+	}
+	t.Run("identify", func(t *testing.T) { identify(t, open(t)) })
+	t.Run("reset", func(t *testing.T) { reset(t, open(t)) })
+	t.Run("set and read", func(t *testing.T) {
+		th, ctx := open(t), bgCtx(t)
+		if err := th.SetTemperature(ctx, h.SetPoint); err != nil {
+			t.Fatalf("SetTemperature(%g): %v", h.SetPoint, err)
+		}
+		for range 3 {
+			v, err := th.Temperature(ctx)
+			if err != nil {
+				t.Fatalf("Temperature: %v", err)
+			}
+			if math.IsNaN(v) || v < -273.15 || v > 2000 {
+				t.Fatalf("Temperature = %g °C, want a finite temperature above absolute zero", v)
+			}
+		}
+		if sr, ok := th.(instruments.StableReporter); ok {
+			if _, err := sr.Stable(ctx); err != nil {
+				t.Fatalf("Stable: %v", err)
+			}
+		}
+	})
+	t.Run("refused", func(t *testing.T) {
+		th, ctx := open(t), bgCtx(t)
+		if err := th.SetTemperature(ctx, math.NaN()); err == nil {
+			t.Fatal("SetTemperature(NaN) accepted")
+		}
+		if h.BadSetPoint != 0 {
+			wantInstrumentError(t, h, "SetTemperature(bad set point)", th.SetTemperature(ctx, h.BadSetPoint))
+		}
+		// The engine returns the thermal to its safe temperature after any error.
+		if err := th.SetTemperature(ctx, h.SetPoint); err != nil {
+			t.Fatalf("SetTemperature after a refusal: %v", err)
+		}
+	})
+	t.Run("cancel", func(t *testing.T) {
+		th := open(t)
+		preCancelled(t, "Temperature", func(ctx context.Context) error { _, err := th.Temperature(ctx); return err })
+	})
+	t.Run("timeout", func(t *testing.T) {
+		if h.Silence == nil {
+			t.Skip("no Silence hook")
+		}
+		th := open(t)
+		h.Silence(t)
+		timed(t, h, "Temperature", func(ctx context.Context) error { _, err := th.Temperature(ctx); return err })
 	})
 	t.Run("close twice", func(t *testing.T) { closeTwice(t, open(t)) })
 }

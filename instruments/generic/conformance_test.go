@@ -57,6 +57,15 @@ func TestConformance(t *testing.T) {
 					return open(t, last, "mux", nil, nil).(instruments.Switch)
 				}, hooks("mux"))
 			})
+			t.Run("chamber", func(t *testing.T) {
+				h := hooks("chamber")
+				h.BadSetPoint = 200 // above the chamber's 150 °C
+				conformance.Thermal(t, func(t *testing.T) instruments.Thermal {
+					last = simtest.ServeSpecs(t, append(simtest.QuietSpecs(), simtest.ChamberSpec()), serve.Options{Transport: tr})
+					return openSpec(t, last, "chamber", instruments.KindThermal, nil,
+						map[string]string{"stable": "TEMP:STAB?"}).(instruments.Thermal)
+				}, h)
+			})
 		})
 	}
 }

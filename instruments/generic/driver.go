@@ -44,6 +44,18 @@
 //	route           ROUT:CLOS (@{channel})
 //	release         ROUT:OPEN:ALL
 //
+//	thermal (a chamber or hot plate, kind thermal)
+//	identify, reset, clear, sync, error_query  as the meter's
+//	set_temperature TEMP:SETP {celsius}
+//	temperature     TEMP?
+//	stable          (none)
+//
+// The thermal (instruments.Thermal, a *Thermal) sends set_temperature with
+// {celsius}, the set point in °C, then drains the error queue (SetTemperature is
+// tried also after ctx is done, like a switch-off), and reads temperature as a
+// number in °C. With stable set (e.g. "TEMP:STAB?", answered 1/0, ON/OFF or
+// TRUE/FALSE) it is a *StableThermal, also an instruments.StableReporter.
+//
 // The meter implements instruments.FunctionSetter: SetFunction sends
 // function_voltage or function_current, after which Configure's range is in that
 // function's unit and a current meter is configured with configure_current and
@@ -70,7 +82,7 @@
 //	timeout                per exchange (e.g. "500ms", "2 s"), at most 1 min; default 2 s, or spec.Timeout
 //	retries                extra tries of an idempotent query after a timeout or a
 //	                       dropped link (0..10); default 2
-//	reset                  source, meter and switch: true|false, clear and reset at open; true
+//	reset                  source, meter, switch and thermal: true|false, clear and reset at open; true
 //	range                  source: volts programmed with set_range at open and after Reset
 //	watchdog               source: the output watchdog's time (e.g. "5 s", at most 1 h),
 //	                       required with arm_watchdog and only with it; choose it
@@ -139,10 +151,11 @@ var ErrReadback = errors.New("read-back mismatch")
 
 // Roles this driver opens.
 const (
-	RoleSource = "source"
-	RoleMeter  = "meter"
-	RoleDUT    = "dut"
-	RoleSwitch = "switch"
+	RoleSource  = "source"
+	RoleMeter   = "meter"
+	RoleDUT     = "dut"
+	RoleSwitch  = "switch"
+	RoleThermal = "thermal"
 )
 
 var defaults = map[string]map[string]string{
@@ -166,6 +179,10 @@ var defaults = map[string]map[string]string{
 		"identify": "*IDN?", "reset": "*RST", "clear": "*CLS", "sync": "*OPC?", "error_query": "SYST:ERR?",
 		"route": "ROUT:CLOS (@{channel})", "release": "ROUT:OPEN:ALL",
 	},
+	RoleThermal: {
+		"identify": "*IDN?", "reset": "*RST", "clear": "*CLS", "sync": "*OPC?", "error_query": "SYST:ERR?",
+		"set_temperature": "TEMP:SETP {celsius}", "temperature": "TEMP?", "stable": "",
+	},
 }
 
 // placeholders lists the placeholders each template may use (none if absent).
@@ -174,12 +191,12 @@ var placeholders = map[string][]string{
 	"set_current": {"{amps}"}, "set_voltage_limit": {"{volts}"},
 	"configure": {"{range}"}, "set_nplc": {"{nplc}"}, "set_count": {"{n}"}, "load_unit": {"{serial}"},
 	"arm_watchdog": {"{seconds}"}, "configure_current": {"{range}"}, "set_nplc_current": {"{nplc}"},
-	"route": {"{channel}"},
+	"route": {"{channel}"}, "set_temperature": {"{celsius}"},
 }
 
 // optional templates may be "" to leave the step out.
 var optional = map[string]bool{"clear": true, "sync": true, "set_range": true, "autozero": true, "load_unit": true,
-	"arm_watchdog": true, "disarm_watchdog": true, "function_current": true}
+	"arm_watchdog": true, "disarm_watchdog": true, "function_current": true, "stable": true}
 
 // maxWatchdog bounds the watchdog setting.
 const maxWatchdog = time.Hour
@@ -215,10 +232,11 @@ func settingErr(key, format string, args ...any) error {
 }
 
 var settingKeys = map[string][]string{
-	RoleSource: {"read_term", "write_term", "timeout", "retries", "reset", "range", "watchdog"},
-	RoleMeter:  {"read_term", "write_term", "timeout", "retries", "reset", "line_frequency"},
-	RoleDUT:    {"read_term", "write_term", "timeout", "retries"},
-	RoleSwitch: {"read_term", "write_term", "timeout", "retries", "reset"},
+	RoleSource:  {"read_term", "write_term", "timeout", "retries", "reset", "range", "watchdog"},
+	RoleMeter:   {"read_term", "write_term", "timeout", "retries", "reset", "line_frequency"},
+	RoleDUT:     {"read_term", "write_term", "timeout", "retries"},
+	RoleSwitch:  {"read_term", "write_term", "timeout", "retries", "reset"},
+	RoleThermal: {"read_term", "write_term", "timeout", "retries", "reset"},
 }
 
 var placeholderRE = regexp.MustCompile(`\{[^{}]*\}`)
@@ -245,14 +263,17 @@ func kindRole(spec instruments.Spec) (string, error) {
 		return RoleDUT, nil
 	case instruments.KindSwitch:
 		return RoleSwitch, nil
+	case instruments.KindThermal:
+		return RoleThermal, nil
 	case "":
 		if _, ok := defaults[spec.Role]; ok {
 			return spec.Role, nil
 		}
-		return "", fmt.Errorf("role %q: the generic driver opens a source, a meter, a dut or a switch", spec.Role)
+		return "", fmt.Errorf("role %q: the generic driver opens a source, a meter, a dut, a switch or a thermal", spec.Role)
 	}
-	return "", fmt.Errorf("role %q: kind %q: the generic driver opens a %s, a %s, a %s, a %s or a %s", spec.Role, spec.Kind,
-		instruments.KindSource, instruments.KindCurrentSource, instruments.KindMeter, instruments.KindPort, instruments.KindSwitch)
+	return "", fmt.Errorf("role %q: kind %q: the generic driver opens a %s, a %s, a %s, a %s, a %s or a %s", spec.Role, spec.Kind,
+		instruments.KindSource, instruments.KindCurrentSource, instruments.KindMeter, instruments.KindPort, instruments.KindSwitch,
+		instruments.KindThermal)
 }
 
 // parseConfig validates spec and returns its configuration.
@@ -469,6 +490,13 @@ func (Driver) Open(ctx context.Context, addr *url.URL, spec instruments.Spec) (i
 		w := &Switch{base: b}
 		err = w.prepare(ctx, c.reset)
 		in = w
+	case RoleThermal:
+		th := &Thermal{base: b}
+		err = th.prepare(ctx, c.reset)
+		in = th
+		if c.tpl["stable"] != "" {
+			in = &StableThermal{Thermal: th}
+		}
 	default:
 		p := &Port{base: b}
 		in = p

@@ -188,7 +188,7 @@ func TestCheckSettingsByKind(t *testing.T) {
 	}{
 		// The kind decides, not the name: a meter named source takes no range.
 		{instruments.Spec{Role: "source", Kind: instruments.KindMeter, Settings: map[string]string{"range": "1 V"}}, "unknown setting for a meter"},
-		{instruments.Spec{Role: "dmm", Settings: map[string]string{}}, `role "dmm": the generic driver opens a source, a meter, a dut or a switch`},
+		{instruments.Spec{Role: "dmm", Settings: map[string]string{}}, `role "dmm": the generic driver opens a source, a meter, a dut, a switch or a thermal`},
 		{instruments.Spec{Role: "scope", Kind: "scope"}, `kind "scope"`},
 	} {
 		c.spec.Address = addr

@@ -98,6 +98,7 @@ var (
 	_ instruments.StableReporter = (*Chamber)(nil)
 	_ instruments.Identifier     = (*Chamber)(nil)
 	_ instruments.ClockSource    = (*Chamber)(nil)
+	_ instruments.Resetter       = (*Chamber)(nil)
 )
 
 var errChamberClosed = errors.New("sim chamber: closed")
@@ -178,6 +179,9 @@ func (c *Chamber) Stable(ctx context.Context) (bool, error) {
 	}
 	return b.therm.envelope(b.clock.Now()) <= c.cfg.band, nil
 }
+
+// Reset programs the set point to ambient.
+func (c *Chamber) Reset(ctx context.Context) error { return c.SetTemperature(ctx, c.cfg.ambient) }
 
 // Identify returns the chamber's invented identity.
 func (c *Chamber) Identify(ctx context.Context) (instruments.Identity, error) {

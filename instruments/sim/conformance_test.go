@@ -37,6 +37,13 @@ func TestConformanceSimulatedTime(t *testing.T) {
 			return switchBench(t, quietMeter, with(quietDUT, "channels", "4")).Switch()
 		}, simHooks)
 	})
+	t.Run("chamber", func(t *testing.T) {
+		h := simHooks
+		h.BadSetPoint = 200
+		conformance.Thermal(t, func(t *testing.T) instruments.Thermal {
+			return chamberBench(t, nil, quietDUT).Chamber()
+		}, h)
+	})
 }
 
 // TestConformanceRealTime runs the meter suite with time: real, where a long read

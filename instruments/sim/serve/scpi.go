@@ -551,3 +551,38 @@ func newSwitchHandler(sw *sim.Switch) *scpiInstrument {
 	}, nil)
 	return s
 }
+
+// newChamberHandler serves a sim.Chamber: TEMPerature:SETPoint <°C> programs the
+// set point (one outside the chamber's min..max pushes -222) and ? answers it;
+// TEMPerature? reads the chamber's temperature; TEMPerature:STABle? answers 1 once
+// the chamber is stable, else 0.
+func newChamberHandler(c *sim.Chamber) *scpiInstrument {
+	s := &scpiInstrument{identify: c.Identify, reset: c.Reset}
+	s.add("TEMPerature SETPoint", func(ctx context.Context, a []string) string {
+		v, e := number(a)
+		if e != "" {
+			return e
+		}
+		if err := c.SetTemperature(ctx, v); err != nil {
+			return errOutOfRange
+		}
+		return ""
+	}, func(ctx context.Context, a []string) (string, string) {
+		return formatNumber(c.SetPoint()), noArgs(a)
+	})
+	s.add("TEMPerature STABle", nil, func(ctx context.Context, a []string) (string, string) {
+		ok, err := c.Stable(ctx)
+		if err != nil {
+			return "", errIllegalValue
+		}
+		return onOff(ok), noArgs(a)
+	})
+	s.add("TEMPerature", nil, func(ctx context.Context, a []string) (string, string) {
+		v, err := c.Temperature(ctx)
+		if err != nil {
+			return "", errIllegalValue
+		}
+		return formatNumber(v), noArgs(a)
+	})
+	return s
+}

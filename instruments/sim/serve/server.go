@@ -54,6 +54,10 @@
 // card does not have pushes -222); ROUTe:CLOSe? answers (@<channel>), or (@) when
 // released; ROUTe:OPEN:ALL releases every path. *RST releases.
 //
+// Chamber (sim.Chamber): TEMPerature:SETPoint <°C> and ? (a set point outside the
+// chamber's min..max pushes -222); TEMPerature? reads its temperature;
+// TEMPerature:STABle? answers 1 or 0. *RST sets the set point to ambient.
+//
 // # DUT
 //
 // The trim port protocol of package sim, one reply line per line, plus one line of
@@ -95,8 +99,9 @@ import (
 // Server.LoadUnit does from Go), and the source's output watchdog switches the
 // output off when the station stops talking. Server.Wiring gives them per role.
 var Templates = map[string]map[string]string{
-	"dut":    {"load_unit": "FIXTURE LOAD {serial}"},
-	"source": {"arm_watchdog": "OUTP:WATC {seconds}", "disarm_watchdog": "OUTP:WATC OFF"},
+	"dut":     {"load_unit": "FIXTURE LOAD {serial}"},
+	"source":  {"arm_watchdog": "OUTP:WATC {seconds}", "disarm_watchdog": "OUTP:WATC OFF"},
+	"chamber": {"stable": "TEMP:STAB?"},
 }
 
 // Settings are the generic drivers' settings, per simulated model, that go with
@@ -175,7 +180,7 @@ type Server struct {
 }
 
 // Start builds one sim.Bench from specs (sim://source, sim://meter, sim://dut,
-// sim://switch addresses with their settings; at most one of each but meters; each
+// sim://switch and sim://chamber addresses with their settings; at most one of each but meters; each
 // spec's Role names its endpoint) with time: real, and serves every instrument. A spec asking for time:
 // simulated is an error, as is an unknown transport or a serial/usbtmc transport on
 // a system without pseudo-terminals. When ctx is done the server closes; ctx
@@ -235,6 +240,8 @@ func Start(ctx context.Context, specs []instruments.Spec, opt Options) (*Server,
 			h = &dutHandler{dut: b.DUT(), lidOpenAfter: opt.LidOpenAfter}
 		case "switch":
 			h = newSwitchHandler(b.Switch())
+		case "chamber":
+			h = newChamberHandler(b.Chamber())
 		}
 		ep := &endpoint{srv: s, role: sp.Role, h: h, fault: opt.Faults[sp.Role]}
 		s.endpoints[sp.Role] = ep

@@ -37,6 +37,11 @@ func SwitchSpec() instruments.Spec {
 	return instruments.Spec{Role: "mux", Kind: instruments.KindSwitch, Address: "sim://switch"}
 }
 
+// ChamberSpec is a sim://chamber spec with role "chamber" and kind thermal.
+func ChamberSpec() instruments.Spec {
+	return instruments.Spec{Role: "chamber", Kind: instruments.KindThermal, Address: "sim://chamber"}
+}
+
 // ServeSpecs is Serve with specs of the caller's (e.g. QuietSpecs plus SwitchSpec).
 func ServeSpecs(t testing.TB, specs []instruments.Spec, opt serve.Options) *serve.Server {
 	t.Helper()
