@@ -19,7 +19,7 @@ func TestThermal(t *testing.T) {
 	ctx := context.Background()
 	spec := simtest.ChamberSpec()
 	spec.Settings = map[string]string{"noise": "0 °C"}
-	srv := simtest.ServeSpecs(t, []instruments.Spec{spec}, serve.Options{})
+	srv := simtest.ServeSpecs(t, append(simtest.QuietSpecs(), spec), serve.Options{})
 	th := openSpec(t, srv, "chamber", instruments.KindThermal, nil, map[string]string{"stable": "TEMP:STAB?"})
 	st, ok := th.(*generic.StableThermal)
 	if !ok {
