@@ -250,6 +250,7 @@ const (
 	KindMeter         = "meter"    // a Meter
 	KindPort          = "dut_port" // a TrimPort
 	KindSwitch        = "switch"   // a Switch
+	KindThermal       = "thermal"  // a Thermal
 )
 
 // Spec says how to open one instrument: its role on the station, what kind of
