@@ -217,6 +217,46 @@ func TestSoakStableAfterOvershoot(t *testing.T) {
 	}
 }
 
+// A soak that reads the unit's own sensor keeps its reply (" 84.93\r\n", white
+// space trimmed) beside every chamber read; the TUR prediction runs the soak
+// on paper, touching no instrument.
+func TestSoakUnitSensorAndPrediction(t *testing.T) {
+	tri.reset()
+	chamber.reset(85)
+	soak := hotSoak + "    unit_sensor: {port: dut, query: \"TEMP?\"}\n"
+	cfg := soakConfig(t, withChamber(soakStation), withSoak(soak))
+	e, err := sequencer.Open(context.Background(), cfg)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer e.Close()
+	rec := e.Run(context.Background(), "TRI-00001")
+	if len(rec.Soaks) != 1 {
+		t.Fatalf("verdict %s (%s), %d soaks", rec.Verdict, rec.Fault, len(rec.Soaks))
+	}
+	// In the band from the first read at 0 s: stable at the read at 30 s, 4 reads.
+	if rs := rec.Soaks[0].Readings; len(rs) != 4 {
+		t.Errorf("%d reads, want 4", len(rs))
+	}
+	for i, r := range rec.Soaks[0].Readings {
+		if r.UnitC == nil || *r.UnitC != 84.93 {
+			t.Errorf("read %d: unit sensor %v, want 84.93", i, r.UnitC)
+		}
+	}
+	chamber.mu.Lock()
+	reads := chamber.reads
+	chamber.mu.Unlock()
+	if p := sequencer.PredictUncertainty(cfg.Station, cfg.Sequence); len(p) == 0 {
+		t.Error("no prediction")
+	}
+	chamber.mu.Lock()
+	after := chamber.reads
+	chamber.mu.Unlock()
+	if after != reads {
+		t.Errorf("the prediction read the chamber %d times", after-reads)
+	}
+}
+
 // TestSoakTimeoutFaults: a chamber swinging 84 °C / 86 °C never enters the
 // ±0.5 °C band. Read every 10 s, the read at 120 s is the first at the 2 min
 // timeout: FAULT naming the step, the set point and the last read (the 13th,
