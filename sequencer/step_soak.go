@@ -192,7 +192,8 @@ func (s *soakStep) Run(ctx context.Context, u *Unit) error {
 // has been within the band for the dwell, or the timeout has passed since the
 // set point was programmed. Stable is the time of the first read of the last
 // run of reads within the band; the dwell is complete at the first read at
-// least s.dwell after it. MeanC and SDC are over that run of reads.
+// least s.dwell after it. MeanC and SDC are over that run of reads. Every
+// instrument's error queue is read after each read.
 func (s *soakStep) soak(ctx context.Context, u *Unit) (Soak, error) {
 	k := Soak{Step: u.step.Name, Role: s.Thermal, SetPoint: s.setPoint, Band: s.band, Dwell: s.dwell.Seconds()}
 	th, ok := u.e.thermals[s.Thermal]
@@ -239,7 +240,11 @@ func (s *soakStep) soak(ctx context.Context, u *Unit) (Soak, error) {
 				}
 				r.UnitC = &v
 			}
-			return nil
+			// As after a sweep point: an entry in any error queue (a chamber
+			// that tripped on over-temperature) is a station fault.
+			return u.e.checkErrors(ctx, func() string {
+				return fmt.Sprintf("step %q, temperature read %d", u.step.Name, len(k.Readings)+1)
+			})
 		})
 		if err != nil {
 			k.Ended = clock.Now().UTC()
