@@ -7,7 +7,8 @@
 // trim codes, reads them back, stores them, sweeps again to verify, judges every
 // limit and decides the verdict. Every instrument's error queue is read after each
 // sweep point and before the verdict; an entry is a station fault. Every exit path
-// leaves the source output off and the channel switch (if any) released. A unit
+// leaves the source output off, the channel switch (if any) released and every
+// temperature chamber at the station's safe temperature. A unit
 // with several channels runs its per-channel steps once per channel, the switch
 // routed to each in turn.
 //
