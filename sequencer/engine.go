@@ -7,7 +7,8 @@
 // trim codes, reads them back, stores them, sweeps again to verify, judges every
 // limit and decides the verdict. Every instrument's error queue is read after each
 // sweep point and before the verdict; an entry is a station fault. Every exit path
-// leaves the source output off and the channel switch (if any) released. A unit
+// leaves the source output off, the channel switch (if any) released and every
+// temperature chamber at the station's safe temperature. A unit
 // with several channels runs its per-channel steps once per channel, the switch
 // routed to each in turn.
 //
@@ -63,6 +64,9 @@ type Engine struct {
 	// switch is routed to ("" = released, or not known).
 	switches map[string]instruments.Switch
 	routed   string
+	// thermals are the chambers by role: set to the station's safe temperature
+	// on every exit path.
+	thermals map[string]instruments.Thermal
 	meterAt  map[string]MeterPlan // how each meter is configured now
 	clock    instruments.Clock
 	refs     []InstrumentRef
@@ -102,7 +106,7 @@ func Open(ctx context.Context, cfg Config) (*Engine, error) {
 		return nil, err
 	}
 	e := &Engine{cfg: cfg, all: all, clock: instruments.RealClock{}, sources: map[string]instruments.Source{}, currents: map[string]instruments.CurrentSource{},
-		meters: map[string]instruments.Meter{}, ports: map[string]instruments.TrimPort{}, switches: map[string]instruments.Switch{}, meterAt: map[string]MeterPlan{}}
+		meters: map[string]instruments.Meter{}, ports: map[string]instruments.TrimPort{}, switches: map[string]instruments.Switch{}, thermals: map[string]instruments.Thermal{}, meterAt: map[string]MeterPlan{}}
 	fail := func(err error) (*Engine, error) {
 		e.Close()
 		return nil, err
@@ -152,6 +156,12 @@ func Open(ctx context.Context, cfg Config) (*Engine, error) {
 				return fail(fmt.Errorf("%s at %s is not a switch", r, si.Address))
 			}
 			e.switches[r] = sw
+		case ThermalRole:
+			th, ok := in.(instruments.Thermal)
+			if !ok {
+				return fail(fmt.Errorf("%s at %s is not a temperature chamber (thermal)", r, si.Address))
+			}
+			e.thermals[r] = th
 		}
 		if q, ok := in.(instruments.ErrorQueue); ok {
 			e.queues = append(e.queues, roleQueue{r, q})
@@ -325,8 +335,8 @@ func (e *Engine) configureMeter(ctx context.Context, role string, p MeterPlan) e
 // Instrument returns the opened instrument for role, or nil.
 func (e *Engine) Instrument(role string) instruments.Instrument { return e.all[role] }
 
-// Close switches the source output off, releases the channel switch and closes
-// every instrument. Safe to call twice.
+// Close switches the source output off, releases the channel switch, sets every
+// thermal role to the station's safe temperature and closes every instrument. Safe to call twice.
 func (e *Engine) Close() error {
 	if e.closed {
 		return nil
@@ -334,6 +344,9 @@ func (e *Engine) Close() error {
 	e.closed = true
 	first := e.safeOff(e.cfg.Log)
 	if err := e.release(e.cfg.Log); err != nil && first == nil {
+		first = err
+	}
+	if err := e.safeTemperature(e.cfg.Log); err != nil && first == nil {
 		first = err
 	}
 	for _, r := range e.roles {
@@ -358,8 +371,8 @@ func (s *stop) Unwrap() error { return s.cause }
 
 // Run trims one serial number and returns its record. Run never returns a nil
 // record: a station fault, a cancelled context or a panic are recorded in it with
-// verdict FAULT or ABORTED. The source output is off and the channel switch
-// released when Run returns.
+// verdict FAULT or ABORTED. The source output is off, the channel switch
+// released and every thermal role set to the safe temperature when Run returns.
 func (e *Engine) Run(ctx context.Context, serial string) (rec *Record) {
 	st, seq := e.cfg.Station, e.cfg.Sequence
 	now := e.clock.Now().UTC()
@@ -399,6 +412,13 @@ func (e *Engine) Run(ctx context.Context, serial string) (rec *Record) {
 				rec.Verdict = Fault
 			}
 			rec.Fault = strings.TrimPrefix(rec.Fault+"; switch release failed: "+err.Error(), "; ")
+		}
+		// Every chamber goes back to the safe temperature, whatever happened.
+		if err := e.safeTemperature(log); err != nil {
+			if rec.Verdict != Aborted {
+				rec.Verdict = Fault
+			}
+			rec.Fault = strings.TrimPrefix(rec.Fault+"; return to the safe temperature failed: "+err.Error(), "; ")
 		}
 		rec.Finished = e.clock.Now().UTC()
 	}()

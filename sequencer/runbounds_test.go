@@ -19,8 +19,12 @@ func TestRunBounds(t *testing.T) {
 	}{
 		{"steps", strings.Repeat("  - {kind: sweep, from: -10 mV, to: 10 mV, points: 3, settle: 1 ms, readings: 1}\n", 201),
 			"expected at most 200 steps, found 209"},
-		{"time", strings.Repeat("  - {kind: sweep, from: -10 mV, to: 10 mV, points: 100, settle: 30 s, readings: 1}\n", 5),
-			"expected a run of at most 4h0m0s"},
+		// 30 sweeps of 100 × 30 s = 25 h.
+		{"time", strings.Repeat("  - {kind: sweep, from: -10 mV, to: 10 mV, points: 100, settle: 30 s, readings: 1}\n", 30),
+			"expected a run of at most 24h0m0s"},
+		// Soaks count at their timeouts: 4 × 8 h = 32 h.
+		{"soaks", strings.Repeat("  - {kind: soak, thermal: chamber, set_point: 85 °C, band: 0.5 °C, dwell: 5 min, timeout: 8 h}\n", 4),
+			"expected a run of at most 24h0m0s"},
 		{"readings", strings.Repeat("  - {kind: sweep, from: -10 mV, to: 10 mV, points: 1000, settle: 0 s, readings: 100}\n", 5),
 			"expected at most 400000 meter readings in a run"},
 	} {

@@ -72,6 +72,22 @@ func CheckCaps(st *Station, seq *Sequence) error {
 				x.Where, x.Step, format(x.Level), x.Role, format(limit), st.File.Name, key))
 		}
 	}
+	// Every temperature a step sets, against the station's temperature caps.
+	for i, d := range seq.Steps {
+		if i > 0 && seq.Steps[i-1].Name == d.Name {
+			continue // the same step on another channel
+		}
+		ts, ok := d.Step.(Thermostat)
+		if !ok {
+			continue
+		}
+		for _, p := range ts.SetPoints() {
+			if !st.TemperatureAllowed(p.Celsius) {
+				errs = append(errs, fmt.Sprintf("%s: step %q sets the %s to %s, outside the station's temperature caps of %s (%s safety.min_temperature, max_temperature)",
+					p.Where, d.Name, p.Role, fmtC(p.Celsius), st.temperatureCapsText(), st.File.Name))
+			}
+		}
+	}
 	for _, r := range seq.Requires {
 		if _, ok := st.Instruments[r]; !ok {
 			unbound = append(unbound, fmt.Sprintf("%s: the sequence requires the %q role, which station %s does not bind", seq.File.Name, r, st.ID))
@@ -227,4 +243,31 @@ func (e *Engine) safeOff(log zerolog.Logger) error {
 		}
 	}
 	return nil
+}
+
+// safeTemperature sets every thermal role to the station's safe temperature,
+// each with a context of its own (so it works after the run's context was
+// cancelled), in role order. The first error is returned; the other chambers are
+// still set.
+func (e *Engine) safeTemperature(log zerolog.Logger) error {
+	var first error
+	c := e.cfg.Station.SafeTemperature
+	for _, r := range e.roles {
+		th, ok := e.thermals[r]
+		if !ok {
+			continue
+		}
+		ctx, cancel := context.WithTimeout(context.Background(), 5*time.Second)
+		err := th.SetTemperature(ctx, c)
+		cancel()
+		if err != nil {
+			log.Error().Err(err).Str("role", r).Msg("could not set the safe temperature")
+			if first == nil {
+				first = fmt.Errorf("%s: set %s: %w", r, fmtC(c), err)
+			}
+			continue
+		}
+		log.Debug().Str("role", r).Float64("celsius", c).Msg("safe temperature set")
+	}
+	return first
 }

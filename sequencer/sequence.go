@@ -713,8 +713,10 @@ const (
 	MaxMCTrials = 1_000_000
 	// MaxSteps is the most steps of a sequence.
 	MaxSteps = 200
-	// MaxRunTime bounds the estimated time of all a sequence's steps together.
-	MaxRunTime = 4 * time.Hour
+	// MaxRunTime bounds the estimated time of all a sequence's steps together,
+	// soaks counted at their timeouts: three soaks of MaxSoakTimeout (cold,
+	// room, hot) fill it.
+	MaxRunTime = 24 * time.Hour
 	// MaxRunReadings bounds the meter readings of one run: about 40 MB of record.
 	MaxRunReadings = 400_000
 	// MaxDACBits is the widest trim DAC.

@@ -31,6 +31,9 @@ const (
 	// SwitchRole routes the bench to one channel of a multi-channel unit
 	// (instruments.Switch): the sequence's channels.switch.
 	SwitchRole RoleKind = instruments.KindSwitch
+	// ThermalRole holds the unit at a temperature (instruments.Thermal): a
+	// chamber or hot plate a soak step sets.
+	ThermalRole RoleKind = instruments.KindThermal
 )
 
 // The roles a station binds when its file does not say otherwise, each of the
@@ -42,8 +45,8 @@ const (
 )
 
 // roleKinds are the kinds in the order roles are listed: sources, meters, ports,
-// switches.
-var roleKinds = []RoleKind{VoltageSource, CurrentSource, VoltMeter, DUTPort, SwitchRole}
+// switches, thermal.
+var roleKinds = []RoleKind{VoltageSource, CurrentSource, VoltMeter, DUTPort, SwitchRole, ThermalRole}
 
 func (k RoleKind) order() int {
 	for i, x := range roleKinds {
@@ -120,7 +123,15 @@ type Station struct {
 	// than SourceRating.
 	MaxSourceVolts float64
 	MaxSourceAmps  float64
-	OutputFolder   string // resolved relative to the station file
+	// SafeTemperature is where the engine leaves every thermal role on every
+	// exit path, °C (safety.safe_temperature, default DefaultSafeTemperature).
+	// MinTemperature and MaxTemperature cap a soak's set point, °C, when
+	// HasMinTemperature and HasMaxTemperature (safety.min_temperature and
+	// max_temperature, optional).
+	SafeTemperature                      float64
+	MinTemperature, MaxTemperature       float64
+	HasMinTemperature, HasMaxTemperature bool
+	OutputFolder                         string // resolved relative to the station file
 	// StepDeadline bounds one engine step (a sweep point, a trim write); 0 = none.
 	StepDeadline time.Duration
 	// Interlock, when set, must give its Closed reply before every sweep point,
@@ -401,9 +412,12 @@ type stationFile struct {
 	RequireRelease bool   `yaml:"require_release"`
 	ReleaseKeys    string `yaml:"release_keys"`
 	Safety         struct {
-		SourceRating     *ratingDecl    `yaml:"source_rating"`
-		MaxSourceVoltage *units.Voltage `yaml:"max_source_voltage"`
-		MaxSourceCurrent *units.Current `yaml:"max_source_current"`
+		SourceRating     *ratingDecl     `yaml:"source_rating"`
+		MaxSourceVoltage *units.Voltage  `yaml:"max_source_voltage"`
+		MaxSourceCurrent *units.Current  `yaml:"max_source_current"`
+		SafeTemperature  *units.Quantity `yaml:"safe_temperature"`
+		MinTemperature   *units.Quantity `yaml:"min_temperature"`
+		MaxTemperature   *units.Quantity `yaml:"max_temperature"`
 	} `yaml:"safety"`
 	Output struct {
 		Folder string `yaml:"folder"`
@@ -531,8 +545,9 @@ func parseStation(name string, data []byte, recorded bool) (*Station, error) {
 			}
 		}
 		// An instrument of no known kind has no checks to make; a DUT port and a
-		// switch measure nothing, so they have no calibration or accuracy.
-		if known && kind != DUTPort && kind != SwitchRole {
+		// switch measure nothing, so they have no calibration or accuracy; a
+		// thermal role's readings decide when a soak is stable, not a result.
+		if known && kind != DUTPort && kind != SwitchRole && kind != ThermalRole {
 			req(base+".cal_due", in.CalDue)
 			if in.CalDue != "" {
 				d, err := time.Parse("2006-01-02", in.CalDue)
@@ -571,6 +586,7 @@ func parseStation(name string, data []byte, recorded bool) (*Station, error) {
 		st.SourceRating = rating(doc, f.Safety.SourceRating, &errs)
 	}
 	st.MaxSourceVolts, st.MaxSourceAmps = caps(doc, f.Safety.MaxSourceVoltage, f.Safety.MaxSourceCurrent, st.SourceRating, &errs)
+	temperatures(doc, st, f.Safety.SafeTemperature, f.Safety.MinTemperature, f.Safety.MaxTemperature, &errs)
 	if f.StepDeadline != nil {
 		if st.StepDeadline = f.StepDeadline.D(); st.StepDeadline <= 0 {
 			errs = append(errs, doc.Errorf("$.step_deadline", "expected a positive duration such as 30 s"))

@@ -5,6 +5,7 @@ package sequencer
 import (
 	"fmt"
 	"math"
+	"strconv"
 	"strings"
 
 	"trimline/instruments/files"
@@ -153,3 +154,62 @@ func suggestID(s string) string {
 	}
 	return out
 }
+
+// DefaultSafeTemperature is the safe temperature of a station file that names
+// none, °C: room temperature, where a unit can be taken out by hand.
+const DefaultSafeTemperature = 25.0
+
+// temperatures checks safety.safe_temperature, min_temperature and
+// max_temperature: each a temperature in °C, min below max, the safe
+// temperature between them.
+func temperatures(doc *files.Doc, st *Station, safe, lo, hi *units.Quantity, errs *files.List) {
+	bad := func(path, format string, args ...any) { *errs = append(*errs, doc.Errorf(path, format, args...)) }
+	get := func(key string, q *units.Quantity) (float64, bool) {
+		if q == nil {
+			return 0, false
+		}
+		if q.Dim != units.Celsius || !finite(q.Value) {
+			bad("$.safety."+key, "expected a temperature such as 25 °C")
+			return 0, false
+		}
+		return q.Value, true
+	}
+	st.SafeTemperature = DefaultSafeTemperature
+	if v, ok := get("safe_temperature", safe); ok {
+		st.SafeTemperature = v
+	}
+	st.MinTemperature, st.HasMinTemperature = get("min_temperature", lo)
+	st.MaxTemperature, st.HasMaxTemperature = get("max_temperature", hi)
+	switch {
+	case st.HasMinTemperature && st.HasMaxTemperature && st.MinTemperature >= st.MaxTemperature:
+		bad("$.safety.max_temperature", "expected max_temperature above min_temperature (%s), found %s", fmtC(st.MinTemperature), fmtC(st.MaxTemperature))
+	case !st.TemperatureAllowed(st.SafeTemperature):
+		path := "$.safety.safe_temperature"
+		if safe == nil {
+			path = "$.safety"
+		}
+		bad(path, "the safe temperature %s is outside the station's temperature caps (%s): the engine could not return the chamber there", fmtC(st.SafeTemperature), st.temperatureCapsText())
+	}
+}
+
+// TemperatureAllowed reports whether a set point of c °C is within the
+// station's temperature caps.
+func (s *Station) TemperatureAllowed(c float64) bool {
+	return !(s.HasMinTemperature && c < s.MinTemperature) && !(s.HasMaxTemperature && c > s.MaxTemperature)
+}
+
+// temperatureCapsText says the station's temperature caps in words.
+func (s *Station) temperatureCapsText() string {
+	switch {
+	case s.HasMinTemperature && s.HasMaxTemperature:
+		return fmt.Sprintf("%s to %s", fmtC(s.MinTemperature), fmtC(s.MaxTemperature))
+	case s.HasMinTemperature:
+		return "at least " + fmtC(s.MinTemperature)
+	case s.HasMaxTemperature:
+		return "at most " + fmtC(s.MaxTemperature)
+	}
+	return "none"
+}
+
+// fmtC writes a temperature, e.g. "85 °C".
+func fmtC(c float64) string { return strconv.FormatFloat(c, 'g', 6, 64) + " °C" }

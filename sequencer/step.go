@@ -165,6 +165,20 @@ func (c *Checker) Errorf(key, format string, args ...any) {
 	*c.errs = append(*c.errs, c.doc.Errorf(p, format, args...))
 }
 
+// Pos is the "file:line:col" of key of the step (a path relative to the step,
+// as Errorf takes it).
+func (c *Checker) Pos(key string) string {
+	p := c.path
+	if key != "" {
+		if !strings.HasPrefix(key, "[") {
+			p += "."
+		}
+		p += key
+	}
+	line, col := c.doc.Pos(p)
+	return fmt.Sprintf("%s:%d:%d", c.doc.Name, line, col)
+}
+
 // Where is the step's "file:line:col".
 func (c *Checker) Where() string { return c.decl.Where }
 

@@ -48,8 +48,12 @@ type Unit struct {
 
 	ended   bool
 	endNote string
-	step    *StepDecl // the step running
-	channel string    // the unit's channel the running step works on, "" for a one-channel unit
+	// tempC is the unit's temperature as the last soak left it, °C, when
+	// tempKnown: every later sweep records it.
+	tempC     float64
+	tempKnown bool
+	step      *StepDecl // the step running
+	channel   string    // the unit's channel the running step works on, "" for a one-channel unit
 }
 
 // Channel is the unit's channel the running step works on: one of the sequence's
@@ -64,6 +68,13 @@ func (u *Unit) Fill(template string) string {
 func newUnit(cfg Config, rec *Record, m mode) *Unit {
 	return &Unit{Serial: rec.Serial, Rec: rec, cfg: cfg, seq: cfg.Sequence, mode: m, log: cfg.Log,
 		res: newResults(cfg.Sequence), kept: map[string]any{}, codes: map[string]int{}}
+}
+
+// addSweep adds sw to the record, marked with the temperature the last soak
+// left the unit at.
+func (u *Unit) addSweep(sw Sweep) {
+	sw.TempC, sw.TempKnown = u.tempC, u.tempKnown
+	u.Rec.Sweeps = append(u.Rec.Sweeps, sw)
 }
 
 // Live reports whether the unit is on the bench (not a replay or a prediction):

@@ -170,6 +170,9 @@ func (d *doc) fits() ([]pdfdoc.Column, []pdfdoc.Row, []pdfdoc.Band) {
 		if f.Order == 2 {
 			parts = append(parts, "quadratic")
 		}
+		if c, ok := d.sweepTemp(f.Sweep, f.Channel); ok {
+			parts = append(parts, fmtCelsius(c))
+		}
 		about := strings.Join(parts, " · ")
 		sweep := pdfdoc.Cell{{Text: dash(f.Sweep), St: pdfdoc.Bold}}
 		if about != "" {
@@ -244,7 +247,21 @@ func sweepTitle(sw sequencer.Sweep) string {
 	if sw.Channel != "" {
 		t += " · " + chanWord(sw.Channel)
 	}
+	if sw.TempKnown {
+		t += " · " + fmtCelsius(sw.TempC)
+	}
 	return t
+}
+
+// sweepTemp is the temperature a soak left the unit at for the record's sweep
+// name on channel ch, and whether one did.
+func (d *doc) sweepTemp(name, ch string) (float64, bool) {
+	for _, sw := range d.rec.Sweeps {
+		if sw.Name == name && sw.Channel == ch {
+			return sw.TempC, sw.TempKnown
+		}
+	}
+	return 0, false
 }
 
 // sweepsByStage returns the record's sweeps as found, then as left, then the
@@ -620,6 +637,9 @@ func (d *doc) singlesTable(sws []sequencer.Sweep) (pointTable, bool) {
 		}
 		if rp, ok := d.retrimPassOf(sw); ok {
 			about = append(about, "re-trim pass "+strconv.Itoa(rp.Pass)+", code "+fmtCode(rp.Code)+" in the "+dash(rp.DAC)+" DAC")
+		}
+		if sw.TempKnown {
+			about = append(about, fmtCelsius(sw.TempC))
 		}
 		if len(about) > 0 {
 			name = append(name, pdfdoc.Span{Text: strings.Join(about, " · "), St: pdfdoc.Small})

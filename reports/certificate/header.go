@@ -148,7 +148,13 @@ func (d *doc) identification() {
 	}
 	tested := fmtTime(r.Finished)
 	if !r.Started.IsZero() && !r.Finished.IsZero() && r.Finished.After(r.Started) {
-		tested += "   (run time " + r.Finished.Sub(r.Started).Round(time.Second).String() + ")"
+		run := r.Finished.Sub(r.Started)
+		if soak := soakTime(r.Soaks); len(r.Soaks) > 0 && soak <= run {
+			// A soak waits for a chamber: the time the unit was tested is apart.
+			tested += "   (run time " + fmtDur(run) + ": soak time " + fmtDur(soak) + ", test time " + fmtDur(run-soak) + ")"
+		} else {
+			tested += "   (run time " + run.Round(time.Second).String() + ")"
+		}
 	}
 	big := pdfdoc.Bold.Sized(11)
 	val := pdfdoc.Body.Sized(8.5)

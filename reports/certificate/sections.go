@@ -25,6 +25,7 @@ func (d *doc) build() {
 	d.trims()
 	d.coefficients()
 	d.retrims()
+	d.soaks()
 	d.filesInForce()
 	d.detail()
 	d.seal()
