@@ -60,6 +60,19 @@ func (c Coefficient) NoCorrection() float64 {
 	return 0
 }
 
+// UnitText is the unit of the firmware's number as the record and messages
+// write it: Unit, with "/°C" after it for a temperature coefficient ("uV/°C",
+// "ppm/°C", "1/°C" for a plain fraction per °C).
+func (c Coefficient) UnitText() string {
+	if c.Adjusts != AdjustOffsetTC && c.Adjusts != AdjustGainTC {
+		return c.Unit
+	}
+	if c.Unit == "" {
+		return "1/°C"
+	}
+	return c.Unit + "/°C"
+}
+
 // Line is the write command for text (before {channel} is filled).
 func (c Coefficient) Line(text string) string { return strings.Replace(c.Write, "{value}", text, 1) }
 

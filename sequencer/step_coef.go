@@ -201,8 +201,8 @@ func writeCoefficients(ctx context.Context, u *Unit, coefs []Coefficient, result
 		if err != nil {
 			lo, hi := k.Format.Range()
 			unit := ""
-			if k.Unit != "" {
-				unit = " " + k.Unit
+			if k.UnitText() != "" {
+				unit = " " + k.UnitText()
 			}
 			outside = append(outside, fmt.Sprintf("coefficient %s %s%s outside %s's range %s … %s%s", k.Name,
 				units.FormatSig(w.Ideal, 6), unit, k.FormatName, units.FormatSig(lo, 6), units.FormatSig(hi, 6), unit))
@@ -259,7 +259,7 @@ func writeCoefficients(ctx context.Context, u *Unit, coefs []Coefficient, result
 // newCoefWrite is the record entry of the running step's write of k on the
 // unit's channel, before any value is chosen.
 func newCoefWrite(u *Unit, k Coefficient) CoefficientWrite {
-	return CoefficientWrite{Step: u.step.Name, Name: k.Name, Channel: u.Channel(), Adjusts: k.Adjusts, Format: k.Format.String(), Unit: k.Unit}
+	return CoefficientWrite{Step: u.step.Name, Name: k.Name, Channel: u.Channel(), Adjusts: k.Adjusts, Format: k.Format.String(), Unit: k.UnitText()}
 }
 
 // failMismatches fails the unit for each word of ws that was written and did

@@ -267,6 +267,9 @@ func TestTempcoOnTheBench(t *testing.T) {
 	if regs["TCO"] != ws[0].Text || regs["TCG"] != ws[1].Text {
 		t.Errorf("the unit holds %v, the record says %q and %q", regs, ws[0].Text, ws[1].Text)
 	}
+	if ws[0].Unit != "uV/°C" || ws[1].Unit != "ppm/°C" {
+		t.Errorf("units %q and %q, want uV/°C and ppm/°C", ws[0].Unit, ws[1].Unit)
+	}
 	if r := resultOf(t, rec, "tc_offset"); !r.Valid || r.Value != float64(ws[0].Value)*1e-6 {
 		t.Errorf("tc_offset %+v, want the written %g µV/°C", r, ws[0].Value)
 	}
@@ -320,4 +323,15 @@ func TestTempcoLoadErrors(t *testing.T) {
 	seq := replaceAll(t, tcSeq, "  - kind: test_soak\n    name: room soak\n    mean_c: 25\n    sd_c: 0.2\n    n: 4\n", "")
 	_, err := sequencer.ParseSequence("tc.yaml", []byte(seq), demoReader(t, map[string]string{"brx200-limits.yaml": withLimits(t, coefLimits)}))
 	wantErrorAt(t, err, "tc.yaml", seq, "fits: [room fit, hot fit]", "which no soak step precedes")
+}
+
+// On paper every fit is the ideal line at its stamped temperature: both
+// coefficients are 0, with the fits' uncertainty propagated (not zero).
+func TestTempcoPredicted(t *testing.T) {
+	_, cfg := coefBench(t, tcSeq)
+	got := sequencer.PredictUncertainty(cfg.Station, cfg.Sequence)
+	o, g := got["tc_offset"], got["tc_gain"]
+	if o.V != 0 || g.V != 0 || !(o.Std > 0) || !(g.Std > 0) {
+		t.Errorf("predicted tc_offset %+v, tc_gain %+v: want 0 with an uncertainty", o, g)
+	}
 }
