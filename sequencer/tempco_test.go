@@ -335,3 +335,20 @@ func TestTempcoPredicted(t *testing.T) {
 		t.Errorf("predicted tc_offset %+v, tc_gain %+v: want 0 with an uncertainty", o, g)
 	}
 }
+
+// Replay takes each sweep's temperature from the record (no stamping step):
+// the hand-worked 10 µV/°C of TestTempcoTwoFitsHandWorked again.
+func TestTempcoReplayTakesRecordedTemperatures(t *testing.T) {
+	seq := replaceAll(t, tcSeq, "  - kind: test_temp\n    name: stamp hot\n    sweep: hot\n    temp_c: 85\n", "")
+	seq = replaceAll(t, seq, "  - kind: test_temp\n    name: stamp room\n    sweep: room\n    temp_c: 25\n", "")
+	room, hot := tcSweep("room", 2.5001, 200, 2e-6), tcSweep("hot", 2.5007, 200.2, 2e-6)
+	room.TempC, room.TempKnown = 25, true
+	hot.TempC, hot.TempKnown = 85, true
+	rec := tcReplay(t, seq, room, hot)
+	if r := resultOf(t, rec, "tc_offset"); !r.Valid || math.Abs(r.Value-10e-6) > 1e-11 {
+		t.Errorf("tc_offset %+v (reasons %v), want 10 µV/°C", r, rec.Reasons)
+	}
+	if len(rec.Sweeps) != 2 || rec.Sweeps[1].TempC != 85 || !rec.Sweeps[1].TempKnown {
+		t.Errorf("replayed sweeps %+v, want the recorded temperatures kept", rec.Sweeps)
+	}
+}
