@@ -8,6 +8,7 @@ package sequencer
 import (
 	"context"
 	"fmt"
+	"slices"
 	"strings"
 	"unicode"
 
@@ -19,7 +20,7 @@ import (
 // Coefficient is one firmware correction coefficient of the unit.
 type Coefficient struct {
 	Name    string
-	Adjusts string // AdjustGain or AdjustOffset
+	Adjusts string // AdjustGain, AdjustOffset, AdjustOffsetTC or AdjustGainTC
 	// FormatName is the format as the file writes it ("Q2.14", "float32",
 	// "int16"), for messages; Format encodes and decodes the number the
 	// firmware holds, in Unit.
@@ -27,7 +28,10 @@ type Coefficient struct {
 	Format     numfmt.Format
 	// Unit is the unit of the firmware's number for an offset ("mA", "V"), ""
 	// for a gain (a plain factor); UnitSI is the SI value of one Unit (1e-3 for
-	// mA), 1 for a gain.
+	// mA), 1 for a gain. For a temperature coefficient the unit is per °C,
+	// which the file does not write: "uV" for offset_tc is µV/°C (UnitSI 1e-6),
+	// "ppm" for gain_tc is ppm/°C (UnitSI 1e-6), "" for gain_tc a plain
+	// fraction per °C.
 	Unit   string
 	UnitSI float64
 	Port   string // the DUT port role it is written through
@@ -36,13 +40,37 @@ type Coefficient struct {
 	Where  string // "file:line:col" of its declaration
 }
 
+// The temperature coefficients a coefficient may adjust: the firmware corrects
+// y' = y − offset_tc·(T − Tref) − gain_tc·(T − Tref)·(y − Y0) with T its own
+// sensor's temperature.
+const (
+	AdjustOffsetTC = "offset_tc" // output unit per °C
+	AdjustGainTC   = "gain_tc"   // fraction of the gain per °C
+)
+
+// adjustsKnown are what a coefficient may adjust, as messages list them.
+var adjustsKnown = []string{AdjustGain, AdjustOffset, AdjustOffsetTC, AdjustGainTC}
+
 // NoCorrection is the value that leaves the unit's output as it is: 1 for a
-// gain, 0 for an offset.
+// gain, 0 for an offset or a temperature coefficient.
 func (c Coefficient) NoCorrection() float64 {
 	if c.Adjusts == AdjustGain {
 		return 1
 	}
 	return 0
+}
+
+// UnitText is the unit of the firmware's number as the record and messages
+// write it: Unit, with "/°C" after it for a temperature coefficient ("uV/°C",
+// "ppm/°C", "1/°C" for a plain fraction per °C).
+func (c Coefficient) UnitText() string {
+	if c.Adjusts != AdjustOffsetTC && c.Adjusts != AdjustGainTC {
+		return c.Unit
+	}
+	if c.Unit == "" {
+		return "1/°C"
+	}
+	return c.Unit + "/°C"
 }
 
 // Line is the write command for text (before {channel} is filled).
@@ -97,9 +125,9 @@ func coefList(doc *files.Doc, s *Sequence, cs []*coefDecl, errs *files.List) []C
 		}
 		switch j, dup := adjusts[d.Adjusts]; {
 		case d.Adjusts == "":
-			bad(path, "missing required key \"adjusts\" (gain or offset)")
-		case d.Adjusts != AdjustGain && d.Adjusts != AdjustOffset:
-			bad(path+".adjusts", "expected gain or offset, found %q", d.Adjusts)
+			bad(path, "missing required key \"adjusts\" (gain, offset, offset_tc or gain_tc)")
+		case !slices.Contains(adjustsKnown, d.Adjusts):
+			bad(path+".adjusts", "expected gain, offset, offset_tc or gain_tc, found %q", d.Adjusts)
 		case dup:
 			bad(path+".adjusts", "coefficients[%d] adjusts %s already: the unit has one %s coefficient (corrected = gain·raw + offset)", j, d.Adjusts, d.Adjusts)
 		default:
@@ -150,8 +178,17 @@ func coefFormat(doc *files.Doc, s *Sequence, path string, d *coefDecl, c *Coeffi
 		text = "decimal"
 	}
 	dim := s.ResponseDim
+	if d.Adjusts == AdjustGainTC {
+		dim = units.Ratio // ppm (per °C), or a plain fraction per °C without a unit
+	}
 	if d.Unit != "" {
 		switch {
+		case d.Adjusts == AdjustGainTC:
+			if q, err := units.Parse("1 " + d.Unit); err != nil || q.Dim != units.Ratio || !(q.Value > 0) || strings.ContainsAny(d.Unit, "/ ") {
+				bad(path+".unit", "expected ppm, ppb or %% (meaning per °C: the file does not write the /°C), found %q", d.Unit)
+			} else {
+				c.Unit, c.UnitSI = d.Unit, q.Value
+			}
 		case d.Adjusts == AdjustGain:
 			bad(path+".unit", "unit applies to offset coefficients only: a gain is a plain factor (no correction = 1)")
 		case strings.IndexFunc(d.Unit, func(r rune) bool { return unicode.IsDigit(r) || unicode.IsSpace(r) }) >= 0:
@@ -159,12 +196,16 @@ func coefFormat(doc *files.Doc, s *Sequence, path string, d *coefDecl, c *Coeffi
 		default:
 			q, err := units.Parse("1 " + d.Unit)
 			if err != nil || q.Dim != dim || !(q.Value > 0) {
-				bad(path+".unit", "expected a unit of the response (%s) such as %s, found %q", dim, unitExamples(dim), d.Unit)
+				perC := ""
+				if d.Adjusts == AdjustOffsetTC {
+					perC = " (meaning per °C: the file does not write the /°C)"
+				}
+				bad(path+".unit", "expected a unit of the response (%s) such as %s%s, found %q", dim, unitExamples(dim), perC, d.Unit)
 			} else {
 				c.Unit, c.UnitSI = d.Unit, q.Value
 			}
 		}
-	} else if d.Adjusts == AdjustOffset {
+	} else if d.Adjusts == AdjustOffset || d.Adjusts == AdjustOffsetTC {
 		c.Unit = unitOf(dim)
 	}
 	if d.Format == "" {
@@ -184,16 +225,22 @@ func coefFormat(doc *files.Doc, s *Sequence, path string, d *coefDecl, c *Coeffi
 	}
 	if d.Scale == "" {
 		example := "1e-6"
-		if d.Adjusts != AdjustGain {
+		if d.Adjusts == AdjustGainTC {
+			example = "0.01 ppm"
+		} else if d.Adjusts != AdjustGain {
 			example = "1 u" + unitOf(dim)
 		}
 		bad(path, "missing required key \"scale\": an int<bits> format needs the value of one count, e.g. scale: %s", example)
 		return numfmt.Format{}
 	}
 	var scale float64
-	if d.Adjusts == AdjustGain {
+	switch d.Adjusts {
+	case AdjustGain:
 		scale, err = units.ParseAs(d.Scale, units.Number)
-	} else {
+	case AdjustGainTC:
+		scale, err = units.ParseRatio(d.Scale)
+		scale /= c.UnitSI
+	default:
 		scale, err = units.ParseAs(d.Scale, dim)
 		scale /= c.UnitSI // in the coefficient's unit
 	}

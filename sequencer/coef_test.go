@@ -502,7 +502,7 @@ func TestCoefficientLoadErrors(t *testing.T) {
 		{"format: Q2.14", "format: Q2.14\n    scale: 1e-4", "scale: 1e-4", "scale applies to int<bits> formats only"},
 		{"scale: 10 uV", "scale: 1 mA", "scale: 1 mA", "expected a voltage"},
 		{"adjusts: offset", "adjusts: gain", "adjusts: gain\n    format: int16", "adjusts gain already"},
-		{"adjusts: offset", "adjusts: drift", "adjusts: drift", "expected gain or offset"},
+		{"adjusts: offset", "adjusts: drift", "adjusts: drift", "expected gain, offset, offset_tc or gain_tc"},
 		{`write: "CAL GAIN {value}"`, `write: "CAL GAIN"`, `write: "CAL GAIN"`, "containing {value} once"},
 		{`write: "CAL GAIN {value}"`, `write: "CAL GAIN {value} {value}"`, `write: "CAL GAIN {value} {value}"`, "found it 2 times"},
 		{`    read: "CAL GAIN?"` + "\n", "", "  - name: gain", `missing required key "read"`},

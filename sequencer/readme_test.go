@@ -162,6 +162,9 @@ func TestReadmeSequenceExamplesLoad(t *testing.T) {
 		for _, m := range stepKind.FindAllStringSubmatch(b.text, -1) {
 			shown[m[1]] = true
 		}
+		if strings.Contains(b.text, "- kind: soak\n") && !soakKnown() {
+			continue // the tempco example needs the soak kind, written on another branch (#15): loads once both are in
+		}
 		if _, err := sequencer.ParseSequence("brx200-sequence.yaml", []byte(doc), demoReader(t, nil)); err != nil {
 			t.Errorf("README.md:%d: the example does not load in the demo sequence:\n%v", b.line, err)
 		}
@@ -176,8 +179,18 @@ func TestReadmeSequenceExamplesLoad(t *testing.T) {
 	}
 }
 
+// soakKnown reports whether the soak step kind is registered.
+func soakKnown() bool {
+	for _, k := range sequencer.StepKinds() {
+		if k.Name == "soak" {
+			return true
+		}
+	}
+	return false
+}
+
 // testKinds are step kinds registered by this package's tests, not by the engine.
-var testKinds = []string{"port_reading", "zero_check_test"} // example_kind_test.go (shown in DEVELOPERS.md), unit_io_test.go
+var testKinds = []string{"port_reading", "zero_check_test", "test_soak", "test_temp"} // example_kind_test.go (shown in DEVELOPERS.md), unit_io_test.go, tempco_hooks_test.go
 
 // DEVELOPERS.md's example step kind is the code the tests compile and run: its
 // two go blocks are example_kind_test.go and example_kind_run_test.go.

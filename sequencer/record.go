@@ -331,12 +331,12 @@ func FaultRecord(cfg Config, serial string, now time.Time, err error) *Record {
 // CoefficientWrite is one firmware correction coefficient: what the fit asked for,
 // the word written in the coefficient's number format, and what the unit gave back.
 type CoefficientWrite struct {
-	Step    string `json:"step"`              // the coefficients step that wrote it
+	Step    string `json:"step"`              // the coefficients, tempco or clear_trim step that wrote it
 	Name    string `json:"name"`              // the coefficient's name in the sequence
 	Channel string `json:"channel,omitempty"` // "" for a one-channel unit
-	Adjusts string `json:"adjusts"`           // "gain" or "offset"
+	Adjusts string `json:"adjusts"`           // "gain", "offset", "offset_tc" or "gain_tc"
 	Format  string `json:"format"`            // e.g. "Q2.14 hex", "float32 decimal"
-	Unit    string `json:"unit,omitempty"`    // unit of the value ("" for a gain factor)
+	Unit    string `json:"unit,omitempty"`    // unit of the value ("" for a gain factor; "uV/°C", "ppm/°C" for a tc)
 	// Ideal is the exact (unrounded) value the fit asked for, IdealU its standard
 	// uncertainty from the fit.
 	Ideal  float64 `json:"ideal"`

@@ -168,31 +168,45 @@ func (s *coefStep) Run(ctx context.Context, u *Unit) error {
 		u.End("cannot compute coefficients: " + err.Error())
 		return nil
 	}
-	name := u.step.Name
-	writes := make([]CoefficientWrite, len(s.coefs))
+	ideal := make([]float64, len(s.coefs))
 	fitU := make([]float64, len(s.coefs))
 	fitDOF := make([]float64, len(s.coefs))
-	var outside []string
 	for i, k := range s.coefs {
-		w := newCoefWrite(u, k)
 		grad := vals.DK
-		w.Ideal = vals.K
+		ideal[i] = vals.K
 		if k.Adjusts == AdjustOffset {
 			grad = [2]float64{vals.DM[0] / k.UnitSI, vals.DM[1] / k.UnitSI}
-			w.Ideal = vals.M / k.UnitSI
+			ideal[i] = vals.M / k.UnitSI
 		}
 		fitU[i], fitDOF[i] = fk.a.linear(grad)
-		w.IdealU = fitU[i]
+	}
+	return writeCoefficients(ctx, u, s.coefs, s.Results, ideal, fitU, fitDOF)
+}
+
+// writeCoefficients encodes ideal[i] (in coefficient i's unit, with standard
+// uncertainty idealU[i] and idealDOF[i] degrees of freedom) in each coefficient's
+// format, writes and reads it back on a live unit (takes the read-back from the
+// stored record in a replay), records every CoefficientWrite, and sets the result
+// results names for what each adjusts to the value written with its uncertainty.
+// A value outside its format's range fails the unit and nothing is written; a
+// read-back that is not the word written fails it too, and either ends the run.
+func writeCoefficients(ctx context.Context, u *Unit, coefs []Coefficient, results map[string]string, ideal, idealU, idealDOF []float64) error {
+	name := u.step.Name
+	writes := make([]CoefficientWrite, len(coefs))
+	var outside []string
+	for i, k := range coefs {
+		w := newCoefWrite(u, k)
+		w.Ideal, w.IdealU = ideal[i], idealU[i]
 		text, stored, err := k.Format.Encode(w.Ideal)
 		if err != nil {
 			lo, hi := k.Format.Range()
 			unit := ""
-			if k.Unit != "" {
-				unit = " " + k.Unit
+			if k.UnitText() != "" {
+				unit = " " + k.UnitText()
 			}
 			outside = append(outside, fmt.Sprintf("coefficient %s %s%s outside %s's range %s … %s%s", k.Name,
 				units.FormatSig(w.Ideal, 6), unit, k.FormatName, units.FormatSig(lo, 6), units.FormatSig(hi, 6), unit))
-			if r, ok := s.Results[k.Adjusts]; ok {
+			if r, ok := results[k.Adjusts]; ok {
 				u.res.flagged(r, w.Ideal*k.UnitSI, "coefficient outside its format's range")
 			}
 		} else {
@@ -210,15 +224,15 @@ func (s *coefStep) Run(ctx context.Context, u *Unit) error {
 		u.End("not measured: coefficient outside its format's range")
 		return nil
 	}
-	for i, k := range s.coefs {
+	for i, k := range coefs {
 		w := &writes[i]
-		if r, ok := s.Results[k.Adjusts]; ok {
-			// The written value's uncertainty: the fit's, propagated, and the
+		if r, ok := results[k.Adjusts]; ok {
+			// The written value's uncertainty: the computed value's, and the
 			// rounding to the format, rectangular within half a resolution (JCGM 100
 			// §4.3.7, u = resolution/√12). The rounding stays in the corrected unit's
 			// output as part of its residual error, so it is counted here once.
 			std, dof := uncertainty.Combine([]uncertainty.Component{
-				{Name: "fit", U: fitU[i], DOF: fitDOF[i]}, // Type A and B together, as the fit evaluated them
+				{Name: "computed", U: idealU[i], DOF: idealDOF[i]}, // Type A and B together, as evaluated
 				uncertainty.Resolution("rounding", w.Resolution),
 			})
 			u.SetU(r, w.Value*k.UnitSI, u.Unc(std*k.UnitSI, dof))
@@ -245,7 +259,7 @@ func (s *coefStep) Run(ctx context.Context, u *Unit) error {
 // newCoefWrite is the record entry of the running step's write of k on the
 // unit's channel, before any value is chosen.
 func newCoefWrite(u *Unit, k Coefficient) CoefficientWrite {
-	return CoefficientWrite{Step: u.step.Name, Name: k.Name, Channel: u.Channel(), Adjusts: k.Adjusts, Format: k.Format.String(), Unit: k.Unit}
+	return CoefficientWrite{Step: u.step.Name, Name: k.Name, Channel: u.Channel(), Adjusts: k.Adjusts, Format: k.Format.String(), Unit: k.UnitText()}
 }
 
 // failMismatches fails the unit for each word of ws that was written and did

@@ -372,7 +372,7 @@ func takeSweep(ctx context.Context, u *Unit, name string, plan SweepPlan, stage 
 	if !ok {
 		return Sweep{}, false, nil
 	}
-	sw = Sweep{Name: name, Channel: u.channel, Stage: stage}
+	sw = Sweep{Name: name, Channel: u.channel, Stage: stage, TempC: stored.TempC, TempKnown: stored.TempKnown}
 	for _, p := range stored.Points {
 		sw.Points = append(sw.Points, point(p.Stimulus, p.Readings))
 	}

@@ -339,9 +339,10 @@ func coefInEffect(u *Unit, only map[string]bool) (k, m float64) {
 		if !ok || c.Name != w.Name {
 			continue
 		}
-		if w.Adjusts == AdjustGain {
+		switch w.Adjusts {
+		case AdjustGain:
 			k = w.Value
-		} else {
+		case AdjustOffset:
 			m = w.Value * c.UnitSI
 		}
 	}

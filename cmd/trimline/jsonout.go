@@ -182,7 +182,7 @@ type trimOut struct {
 type coefficientOut struct {
 	Name    string `json:"name"`              // as the sequence names it
 	Channel string `json:"channel,omitempty"` // left out for a one-channel unit
-	Adjusts string `json:"adjusts"`           // "gain" or "offset"
+	Adjusts string `json:"adjusts"`           // "gain", "offset", "offset_tc" or "gain_tc"
 	Format  string `json:"format"`            // the number format and text, e.g. "Q2.14 hex"
 	// Value is what the word written stands for (the fit's value rounded to the
 	// format), in Unit: the unit the firmware holds it in ("mA", "V", …), ""
