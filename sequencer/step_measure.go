@@ -173,7 +173,7 @@ func (s *measureStep) Run(ctx context.Context, u *Unit) error {
 		if rs != nil {
 			sw.Points = []Point{point(s.plan.From, rs)}
 			s.annotate(u.cfg, &sw.Points[0])
-			u.addSweep(sw)
+			sw = u.addSweep(sw)
 		}
 		if err != nil {
 			return err
@@ -186,11 +186,11 @@ func (s *measureStep) Run(ctx context.Context, u *Unit) error {
 		}
 		sw.Points = []Point{point(stored.Points[0].Stimulus, stored.Points[0].Readings)}
 		s.annotate(u.cfg, &sw.Points[0])
-		u.addSweep(sw)
+		sw = u.addSweep(sw)
 	default: // predicting: the ideal output, one noiseless reading
 		sw.Points = []Point{{Stimulus: s.plan.From, Mean: s.ideal(u.seq), Valid: 1, Readings: make([]instruments.Reading, 1)}}
 		s.annotate(u.cfg, &sw.Points[0])
-		u.addSweep(sw)
+		sw = u.addSweep(sw)
 	}
 	s.results(u, sw.Points[0])
 	return nil

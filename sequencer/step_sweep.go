@@ -204,7 +204,7 @@ func (s *sweepStep) Run(ctx context.Context, u *Unit) error {
 		sw = idealSweep(u.seq, name, s.Plan.Levels())
 		sw.Channel, sw.Stage = u.channel, u.step.Stage
 		annotate(u.cfg, s.Plan, &sw)
-		u.addSweep(sw)
+		sw = u.addSweep(sw)
 	} else {
 		var ok bool
 		var err error
@@ -365,7 +365,7 @@ func takeSweep(ctx context.Context, u *Unit, name string, plan SweepPlan, stage 
 		sw, err = u.e.sweep(ctx, u, name, plan)
 		sw.Stage, sw.Channel = stage, u.channel
 		annotate(u.cfg, plan, &sw)
-		u.addSweep(sw)
+		sw = u.addSweep(sw)
 		return sw, err == nil, err
 	}
 	stored, ok := storedSweep(u.stored, name, u.channel)
@@ -377,7 +377,7 @@ func takeSweep(ctx context.Context, u *Unit, name string, plan SweepPlan, stage 
 		sw.Points = append(sw.Points, point(p.Stimulus, p.Readings))
 	}
 	annotate(u.cfg, plan, &sw)
-	u.addSweep(sw)
+	sw = u.addSweep(sw)
 	return sw, true, nil
 }
 

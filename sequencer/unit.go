@@ -72,13 +72,14 @@ func newUnit(cfg Config, rec *Record, m mode) *Unit {
 
 // addSweep adds sw to the record, marked with the temperature the last soak
 // left the unit at.
-func (u *Unit) addSweep(sw Sweep) {
+func (u *Unit) addSweep(sw Sweep) Sweep {
 	// The last soak's temperature; a replayed sweep no soak of the replay
 	// precedes keeps the temperature its record gave it.
 	if u.tempKnown || !sw.TempKnown {
 		sw.TempC, sw.TempKnown = u.tempC, u.tempKnown
 	}
 	u.Rec.Sweeps = append(u.Rec.Sweeps, sw)
+	return sw
 }
 
 // Live reports whether the unit is on the bench (not a replay or a prediction):
