@@ -326,12 +326,17 @@ func quantityPairs(rec *sequencer.Record, dim string) [][2]*sequencer.Result {
 	if q == "" {
 		return nil
 	}
+	// One pair per channel: the first as-found result of the quantity on each
+	// (a unit may measure a quantity as found more than once, e.g. at two
+	// temperatures before a drift correction).
 	var pairs [][2]*sequencer.Result
+	seen := map[string]bool{}
 	for i, r := range rec.Results {
-		if r.Unit != dim || r.QuantityOf() != q || r.StageOf() != sequencer.AsFound {
+		if r.Unit != dim || r.QuantityOf() != q || r.StageOf() != sequencer.AsFound || seen[r.Channel] {
 			continue
 		}
 		if l := asLeft(rec, dim, q, r.Channel); l != nil {
+			seen[r.Channel] = true
 			pairs = append(pairs, [2]*sequencer.Result{&rec.Results[i], l})
 		}
 	}

@@ -134,6 +134,21 @@ func TestLiveLineWorstChannel(t *testing.T) {
 	}
 }
 
+// A one-channel unit that measures a quantity as found twice (at two
+// temperatures, before its drift correction) still pairs one as-found value
+// with its as-left one: no "worst of", which is for several channels.
+func TestLiveLineQuantityAsFoundTwice(t *testing.T) {
+	rec := &sequencer.Record{Serial: "BXT-1", Verdict: sequencer.Pass, Results: []sequencer.Result{
+		{Name: "room_drift_offset", Stage: sequencer.AsFound, Quantity: "offset", Unit: "V", Value: 5.89e-3, Valid: true},
+		{Name: "hot_drift_offset", Stage: sequencer.AsFound, Quantity: "offset", Unit: "V", Value: 30e-3, Valid: true},
+		{Name: "post_offset", Stage: sequencer.AsLeft, Quantity: "offset", Unit: "V", Value: -1.6e-6, Valid: true},
+	}}
+	got := liveLine(1, 1, rec, "")
+	if strings.Contains(got, "worst of") || !strings.Contains(got, "offset   5.89 mV →   -1.6 µV") {
+		t.Errorf("live line %q: want the first as-found offset paired with the as-left one, no channel", got)
+	}
+}
+
 // Per-channel spreads are labelled with their channel; currents take the SI
 // prefix their size suits, reported counts read "counts", and the unit
 // column widens to the longest unit so the σ column still lines up.
