@@ -3,14 +3,17 @@ package main
 import (
 	"context"
 	"encoding/json"
+	"math"
 	"os"
 	"os/exec"
 	"path/filepath"
 	"regexp"
 	"sort"
+	"strconv"
 	"strings"
 	"testing"
 
+	"trimline/instruments/sim"
 	"trimline/reports/ledger"
 	"trimline/sequencer"
 	"trimline/sequences"
@@ -92,6 +95,15 @@ var demoProducts = map[string]demoProduct{
 			`(?m)^  pre_gain_error ch 1 +mean `, `(?m)^  pre_gain_error ch 2 +mean `,
 			`(?m)^  pre_gain_error ch 3 +mean `, `(?m)^  pre_gain_error ch 4 +mean `,
 			`(?m)^  post_noise ch 4 +mean +[-+][\d.]+ counts `,
+		},
+	},
+	"BRX-200T": {
+		// Trimmed at 25 °C after its drift coefficients are written, verified hot.
+		verdicts: [6]sequencer.Verdict{sequencer.Pass, sequencer.Pass, sequencer.Pass, sequencer.Pass, sequencer.Pass, sequencer.Pass},
+		tables:   []string{"Temperature soaks", "hot verify soak (chamber)", "soak time", "µV/°C", "ppm/°C", "Step “temperature coefficients”"},
+		lines: []string{
+			`(?m)^1/6  BXT-00001    PASS     offset +-?[\d.]+ [mµn]?V → +-?[\d.]+ [mµn]?V   gain error `,
+			`(?m)^  post_hot_offset +mean `,
 		},
 	},
 	"PZA-8": {
@@ -186,6 +198,8 @@ func TestDemoProducts(t *testing.T) {
 				acq4JSON(t, dir, station, sequence, p.Serial(7))
 			case "PZA-8":
 				pza8Gap(t, dir, station, sequence, p.Serial(22))
+			case "BRX-200T":
+				tempcoKnown(t, dir, station)
 			}
 		})
 	}
@@ -328,5 +342,59 @@ func pza8Gap(t *testing.T, dir, station, sequence, serial string) {
 	}
 	if code, out, errOut := runCLI(t, "audit", "replay", serial, "--ledger", filepath.Join(dir, "ledger.db"), "--keys", filepath.Join(dir, "keys")); code != 0 || !strings.Contains(out, "reproduced exactly") {
 		t.Errorf("audit replay %s: exit %d\n%s%s", serial, code, out, errOut)
+	}
+}
+
+// tempcoKnown: the temperature coefficients the BRX-200T's tempco step computed
+// for each demo unit match the drift the simulator drew for that unit, within
+// the expanded uncertainty the record states. The simulated card drifts as
+// core = G·(1 + tcg·ΔT)·(x + vin_os + tco·ΔT) (instruments/sim doc), so at zero
+// input its output moves by G·tco per °C, and its gain by the fraction tcg per
+// °C; the cross terms (G·tcg·vin_os, G·tcg·tco·ΔT) are below 10⁻⁷ V/°C, far under
+// the stated U of a few µV/°C.
+func tempcoKnown(t *testing.T, dir, station string) {
+	t.Helper()
+	st, err := sequencer.LoadStation(station)
+	if err != nil {
+		t.Fatal(err)
+	}
+	settings := st.Instruments["dut"].Settings
+	ds, err := sim.ParseDUTSettings(settings)
+	if err != nil {
+		t.Fatal(err)
+	}
+	seed, err := strconv.ParseUint(settings["seed"], 10, 64)
+	if err != nil {
+		t.Fatal(err)
+	}
+	checked := 0
+	for _, r := range demoRuns(t, dir) {
+		p := sim.Params(r.rec.Serial, seed, ds)
+		if p.Defect != sim.DefectNone {
+			continue
+		}
+		for _, c := range []struct {
+			name string
+			want float64
+		}{{"offset_tc", p.Gain() * p.OffsetTC}, {"gain_tc", p.GainTC}} {
+			var res sequencer.Result
+			for _, x := range r.rec.Results {
+				if x.Name == c.name {
+					res = x
+				}
+			}
+			if !res.Valid {
+				t.Errorf("%s: no valid %s", r.rec.Serial, c.name)
+				continue
+			}
+			if d := math.Abs(res.Value - c.want); d > res.Unc.Expanded {
+				t.Errorf("%s: %s = %.6g ± %.3g (k = %.2f), the simulated unit's is %.6g: off by %.3g, more than U",
+					r.rec.Serial, c.name, res.Value, res.Unc.Expanded, res.Unc.K, c.want, d)
+			}
+			checked++
+		}
+	}
+	if checked < 10 {
+		t.Errorf("checked %d temperature coefficients, want both of at least five units", checked)
 	}
 }
