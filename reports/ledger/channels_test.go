@@ -66,3 +66,26 @@ func TestChannelRowsRoundTrip(t *testing.T) {
 		t.Fatalf("VerifyChain with a channel changed: %+v, %v; want limit_outcomes.channel of run-chan broken", rep, err)
 	}
 }
+
+// TestCurrentSourceAndChamberStored: a run on a station with a current source and
+// a temperature chamber is committed with its instruments' kinds (migration 0010;
+// before it the instruments table's CHECK refused both and the run could not be
+// stored), on a ledger migrated from schema 1.
+func TestCurrentSourceAndChamberStored(t *testing.T) {
+	path, l := openSchema1Demo(t)
+	rec := makeRecord("run-kinds", "SN-KINDS", sequencer.Pass, recordShape{sweeps: 1, points: 2, readings: 2})
+	rec.Instruments[0].Kind = sequencer.CurrentSource
+	rec.Instruments = append(rec.Instruments, sequencer.InstrumentRef{Role: "chamber", Kind: sequencer.ThermalRole, Address: "sim://chamber", Asset: "CH-1",
+		Identity: instruments.Identity{Maker: "SIM", Model: "TC-150", Serial: "0004", Firmware: "1.0"}})
+	mustRecord(t, l, rec, "S2")
+	got, err := l.Run(ctx, "run-kinds")
+	if err != nil {
+		t.Fatal(err)
+	}
+	requireSameRecord(t, rec, got)
+	var kinds string
+	if err := rawDB(t, path).QueryRow(`SELECT group_concat(role || '=' || kind, ' ') FROM (SELECT * FROM instruments WHERE run_id = 'run-kinds' ORDER BY rowid)`).Scan(&kinds); err != nil ||
+		kinds != "source=current_source meter=meter dut=dut_port chamber=thermal" {
+		t.Errorf("instruments %q (%v)", kinds, err)
+	}
+}
