@@ -407,10 +407,13 @@ type Soak struct {
 	Ended   time.Time `json:"ended"`
 	// MeanC and SDC are the mean and standard deviation of the temperatures read
 	// over the dwell: the unit's temperature for the sweeps that follow.
-	MeanC    float64       `json:"mean_c"`
-	SDC      float64       `json:"sd_c"`
-	Readings []TempReading `json:"readings"`
-	TimedOut bool          `json:"timed_out,omitempty"`
+	MeanC float64 `json:"mean_c"`
+	// UnitMeanC is the mean of the unit's own sensor over the dwell, when the
+	// soak read it: the temperature of the sweeps that follow.
+	UnitMeanC *float64      `json:"unit_mean_c,omitempty"`
+	SDC       float64       `json:"sd_c"`
+	Readings  []TempReading `json:"readings"`
+	TimedOut  bool          `json:"timed_out,omitempty"`
 }
 
 // TempReading is one temperature the soak read.

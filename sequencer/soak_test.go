@@ -243,6 +243,16 @@ func TestSoakUnitSensorAndPrediction(t *testing.T) {
 			t.Errorf("read %d: unit sensor %v, want 84.93", i, r.UnitC)
 		}
 	}
+	// The sweeps after it are at the unit's own temperature (what its firmware
+	// corrects by), not the chamber's.
+	if m := rec.Soaks[0].UnitMeanC; m == nil || math.Abs(*m-84.93) > 1e-9 {
+		t.Errorf("unit mean %v, want 84.93", m)
+	}
+	for _, sw := range rec.Sweeps {
+		if !sw.TempKnown || math.Abs(sw.TempC-84.93) > 1e-9 {
+			t.Errorf("sweep %q at %v °C (known %v), want the unit's 84.93 °C", sw.Name, sw.TempC, sw.TempKnown)
+		}
+	}
 	chamber.mu.Lock()
 	reads := chamber.reads
 	chamber.mu.Unlock()

@@ -161,7 +161,7 @@ func (s *soakStep) Run(ctx context.Context, u *Unit) error {
 		for _, k := range u.stored.Soaks {
 			if k.Step == u.step.Name {
 				u.Rec.Soaks = append(u.Rec.Soaks, k)
-				u.tempC, u.tempKnown = k.MeanC, true
+				u.tempC, u.tempKnown = soakTemperature(k), true
 				return nil
 			}
 		}
@@ -184,8 +184,18 @@ func (s *soakStep) Run(ctx context.Context, u *Unit) error {
 		return u.Fault("step %q: the %s did not hold %s ± %s for %s within the timeout of %s (last read %s)",
 			u.step.Name, s.Thermal, fmtC(s.setPoint), fmtC(s.band), s.dwell, s.timeout, last)
 	}
-	u.tempC, u.tempKnown = k.MeanC, true
+	u.tempC, u.tempKnown = soakTemperature(k), true
 	return nil
+}
+
+// soakTemperature is the unit's temperature a soak leaves for the sweeps after
+// it: its own sensor's mean over the dwell when the soak read it (the reading
+// its firmware corrects by), else the chamber's.
+func soakTemperature(k Soak) float64 {
+	if k.UnitMeanC != nil {
+		return *k.UnitMeanC
+	}
+	return k.MeanC
 }
 
 // soak sets the chamber and reads it every s.every on the bench clock until it
@@ -251,14 +261,20 @@ func (s *soakStep) soak(ctx context.Context, u *Unit) (Soak, error) {
 			return k, err
 		}
 		k.Readings = append(k.Readings, r)
-		if !finite(r.C) || math.Abs(r.C-s.setPoint) > s.band {
+		switch {
+		case !finite(r.C) || math.Abs(r.C-s.setPoint) > s.band:
 			in = -1
-		} else if in < 0 {
+		case in < 0:
+			in = len(k.Readings) - 1
+		case r.UnitC != nil && k.Readings[in].UnitC != nil && math.Abs(*r.UnitC-*k.Readings[in].UnitC) > s.band:
+			// The chamber holds, but the unit, which lags it, is still moving:
+			// its dwell starts again from here.
 			in = len(k.Readings) - 1
 		}
 		if in >= 0 && r.Time.Sub(k.Readings[in].Time) >= s.dwell {
 			k.Stable, k.Ended = k.Readings[in].Time, r.Time
 			k.MeanC, k.SDC = meanSD(k.Readings[in:])
+			k.UnitMeanC = unitMean(k.Readings[in:])
 			return k, nil
 		}
 		if r.Time.Sub(k.Started) >= s.timeout {
@@ -270,6 +286,20 @@ func (s *soakStep) soak(ctx context.Context, u *Unit) (Soak, error) {
 			return k, err
 		}
 	}
+}
+
+// unitMean is the mean of the unit's own sensor over rs, nil when the soak did
+// not read it.
+func unitMean(rs []TempReading) *float64 {
+	var sum float64
+	for _, r := range rs {
+		if r.UnitC == nil {
+			return nil
+		}
+		sum += *r.UnitC
+	}
+	m := sum / float64(len(rs))
+	return &m
 }
 
 // meanSD is the mean and the sample standard deviation (n − 1) of the
