@@ -133,19 +133,22 @@ var tcDUT = with(quietDUT, "tc_offset", "2 uV", "tc_gain", "25 ppm", "temp_senso
 	"coef_tc", "both", "coef_tc_offset_unit", "uV")
 
 // TestTCCorrection: the unit's output TC is G·tco = 199.49601·2 µV = 398.992 µV/°C
-// and its gain TC 25 ppm/°C. With those written the firmware takes off
-// tco_out·ΔT + tcg·ΔT·(y − Vz), which leaves (expanding the model, vin_os = 0,
-// vout_os = 3.1 mV) −G·tcg²·ΔT²·x − tcg·ΔT·vout_os − G·tcg²·tco·ΔT³
-// = −199.49601·(1.5e-3)²·0.01 − 1.5e-3·3.1e-3 = −4.489 µV − 4.650 µV = −9.14 µV of the
-// 26.97 mV drift at 85 °C. With no coefficients written it drifts in full.
+// and its gain TC 25 ppm/°C (tcg·ΔT = 1.5e-3 at 85 °C). Its offset drift at zero
+// input, as tempco measures it between 25 and 85 °C, is G·(1 + tcg·ΔT)·tco =
+// 398.992·1.0015 = 399.5905 µV/°C. With those written the firmware's
+// Vz + (y − Vz − tco_out·ΔT)/(1 + tcg·ΔT) takes off the drift of G·x and of tco
+// exactly (vin_os = 0) and leaves only this untrimmed unit's output offset's share,
+// −tcg·ΔT·vout_os/(1 + tcg·ΔT) = −1.5e-3·3.1e-3/1.0015 = −4.643 µV of the 26.97 mV
+// drift at 85 °C (an offset-trimmed unit has no vout_os left). With no
+// coefficients written it drifts in full.
 func TestTCCorrection(t *testing.T) {
 	b := hotBench(t, tcDUT)
 	load(t, b, "BRX-000001")
 	d := b.DUT()
-	command(t, d, "CAL TCO 398.992")
+	command(t, d, "CAL TCO 399.5905")
 	command(t, d, "CAL TCG 25")
 	cold, hot := driftAt85(t, b, 0.01)
-	near(t, "corrected drift at 85 °C", hot-cold, -9.14e-6, 1.5e-6)
+	near(t, "corrected drift at 85 °C", hot-cold, -4.643e-6, 1.5e-6)
 
 	plain := hotBench(t, tcDUT)
 	load(t, plain, "BRX-000001")
