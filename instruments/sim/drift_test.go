@@ -194,21 +194,32 @@ func TestTCRegisters(t *testing.T) {
 }
 
 // TestTCCorrectionExtremeUnit: the BRX-200T limit file's extreme unit, its drift
-// measured untrimmed as the sequence does (tempco before trim) and a 1.8 % gain
+// measured untrimmed as the sequence does (tempco before trim) and a ±1.8 % gain
 // trim after. tc_offset 7.5 µV/°C input-referred is 1500 µV/°C at the output of
-// the trimmed unit (G = 200), tc_gain 120 ppm/°C, gain_error 1/1.018 − 1 so that
-// the gain DAC's +1.8 % (1800 codes of 10 ppm above mid-scale 2048: code 3848)
-// brings it to G; no offset, a perfect sensor. The coefficients are computed as
-// tempco does: tco = Δintercept·(200/slope_25)/60 °C, tcg = (slope_85/slope_25 − 1)/60 °C.
-// The drift at 85 °C is 1500 µV·60 = 90 mV. The old correction (y − tco·ΔT −
-// tcg·ΔT·(y − Vz), drift referred to the untrimmed slope and gain TC to G) left
-// −tco·ΔT·(gtrim + tcg·ΔT) ≈ −90 mV·(0.018 + 0.0072) ≈ −2.3 mV, beyond the ±2000 µV
-// "offset hot" limit. Now the correction is the model's inverse and only the
-// trimmed slope's difference from 200 remains (the open-loop −20 ppm: 90 mV·20e-6
-// = 1.8 µV), so hot offset and gain match room within 5 µV and 2 ppm.
+// the trimmed unit (G = 200), tc_gain 120 ppm/°C, gain_error 1/(1 + gtrim) − 1 so
+// that the gain DAC's gtrim (±1800 codes of 10 ppm about mid-scale 2048: code 3848
+// or 248) brings it to G; no offset, a perfect sensor. The coefficients are
+// computed as tempco does: tco = Δintercept·(200/slope_25)/60 °C, tcg =
+// (slope_85/slope_25 − 1)/60 °C. The drift at 85 °C is 1500 µV·60 = 90 mV. The
+// old correction (y − tco·ΔT − tcg·ΔT·(y − Vz), the drift referred to the
+// untrimmed slope and the gain TC to G) left, by the reviewer's expansion,
+// −tco·ΔT·(gtrim + tcg·ΔT) ≈ −90 mV·(±0.018 + 0.0072): up to −2.3 mV with the
+// trim down, beyond the ±2000 µV "offset hot" limit (run against the old code:
+// +962 µV with the trim up, −2.3 mV down). Now the correction is the model's
+// inverse and only the trimmed slope's difference from 200 remains (the open-loop
+// −20 ppm: 90 mV·20e-6 = 1.8 µV), so hot offset and gain match room within 5 µV
+// and 2 ppm.
 func TestTCCorrectionExtremeUnit(t *testing.T) {
+	for _, gtrim := range []float64{0.018, -0.018} {
+		t.Run(fmt.Sprintf("trim %+.1f %%", gtrim*100), func(t *testing.T) {
+			extremeUnit(t, gtrim)
+		})
+	}
+}
+
+func extremeUnit(t *testing.T, gtrim float64) {
 	b := hotBench(t, with(tcDUT, "offset", "0 V", "tc_offset", "7.5 uV", "tc_gain", "120 ppm",
-		"gain_error", fmt.Sprintf("%.6f ppm", (1/1.018-1)*1e6)))
+		"gain_error", fmt.Sprintf("%.6f ppm", (1/(1+gtrim)-1)*1e6)))
 	load(t, b, "BRX-000001")
 	d := b.DUT()
 	ctx := context.Background()
@@ -229,13 +240,14 @@ func TestTCCorrectionExtremeUnit(t *testing.T) {
 	c85, s85 := line()
 	tco := (c85 - c25) * (200 / s25) / 60
 	tcg := (s85/s25 - 1) / 60
-	command(t, d, "TRIM GAIN 3848")
+	command(t, d, fmt.Sprintf("TRIM GAIN %d", 2048+int(math.Round(gtrim/10e-6))))
 	command(t, d, fmt.Sprintf("CAL TCO %.6f", tco*1e6))
 	command(t, d, fmt.Sprintf("CAL TCG %.6f", tcg*1e6))
 	hc, hs := line()
 	at(25)
 	rc, rs := line()
-	if off := hc - rc; math.Abs(off) > 5e-6 || math.Abs(off) > 2000e-6 {
+	t.Logf("hot − room: offset %.2f µV, gain %.3f ppm", (hc-rc)*1e6, (hs/rs-1)*1e6)
+	if off := hc - rc; math.Abs(off) > 5e-6 {
 		t.Errorf("hot offset %.2f µV from room's (tco %.1f µV/°C, tcg %.2f ppm/°C), want within 5 µV", off*1e6, tco*1e6, tcg*1e6)
 	}
 	if ge := hs/rs - 1; math.Abs(ge) > 2e-6 {
