@@ -227,6 +227,26 @@ func (s *tempcoStep) Run(ctx context.Context, u *Unit) error {
 	off := make([]TempcoPoint, len(s.Fits))
 	gain := make([]TempcoPoint, len(s.Fits))
 	var missing []string
+	// The unit's own slope at the reference: the fit whose temperature is
+	// nearest TempcoRef. The gain TC is the relative change of the unit's slope
+	// (the firmware divides by 1 + gain_tc·ΔT), and the offset drift is referred
+	// to the trimmed unit, whose slope is the ideal gain: a gain trim after these
+	// sweeps scales the drift by G/slope_ref.
+	ref, refT := 0.0, math.Inf(1)
+	for i, name := range s.Fits {
+		fk, ok := u.Kept(name).(fitKept)
+		sk, ok2 := u.Kept(s.sweeps[i]).(sweepKept)
+		if !ok || !ok2 || !sk.sweep.TempKnown || fk.a.sum.Slope == 0 {
+			continue
+		}
+		if d := math.Abs(sk.sweep.TempC - TempcoRef); d < refT {
+			ref, refT = fk.a.sum.Slope, d
+		}
+	}
+	if ref == 0 {
+		ref = seq.IdealGain
+	}
+	scale := seq.IdealGain / ref
 	for i, name := range s.Fits {
 		fk, ok := u.Kept(name).(fitKept)
 		if !ok {
@@ -240,10 +260,10 @@ func (s *tempcoStep) Run(ctx context.Context, u *Unit) error {
 			continue
 		}
 		t, ut := sk.sweep.TempC, soakTempU(u.Rec, s.soaks[i])
-		uo, do := fk.a.linear([2]float64{1, 0})
-		ug, dg := fk.a.linear([2]float64{0, 1 / seq.IdealGain})
-		off[i] = TempcoPoint{T: t, UT: ut, Y: fk.a.sum.Intercept - seq.IdealOffset, UY: uo, DOF: do, Source: name}
-		gain[i] = TempcoPoint{T: t, UT: ut, Y: fk.a.sum.Slope/seq.IdealGain - 1, UY: math.Abs(ug), DOF: dg, Source: name}
+		uo, do := fk.a.linear([2]float64{scale, 0})
+		ug, dg := fk.a.linear([2]float64{0, 1 / ref})
+		off[i] = TempcoPoint{T: t, UT: ut, Y: (fk.a.sum.Intercept - seq.IdealOffset) * scale, UY: math.Abs(uo), DOF: do, Source: name}
+		gain[i] = TempcoPoint{T: t, UT: ut, Y: fk.a.sum.Slope/ref - 1, UY: math.Abs(ug), DOF: dg, Source: name}
 	}
 	fail := func(why string) error {
 		s.invalid(u, why)
@@ -285,6 +305,12 @@ func (s *tempcoStep) Run(ctx context.Context, u *Unit) error {
 	}
 	return writeCoefficients(ctx, u, s.coefs, s.Results, ideal, idealU, idealDOF)
 }
+
+// TempcoRef (°C) is the temperature tempco refers the unit's slope to: the
+// fit made nearest it gives slope_ref. A firmware's reference is commonly 25 °C;
+// at another temperature the gain TC changes by a factor 1 + gain_tc·ΔT, a
+// second-order difference.
+const TempcoRef = 25.0
 
 // invalid marks every result of the step not computed, for why.
 func (s *tempcoStep) invalid(u *Unit, why string) {

@@ -352,3 +352,26 @@ func TestTempcoReplayTakesRecordedTemperatures(t *testing.T) {
 		t.Errorf("replayed sweeps %+v, want the recorded temperatures kept", rec.Sweeps)
 	}
 }
+
+// A unit with a gain error: room (25 °C) slope 201 (+0.5 %), hot (85 °C) slope
+// 201·1.001 = 201.201, intercepts 2.5001 and 2.5007 V as above. The gain TC is
+// relative to the unit's own slope at the reference, the room fit's:
+//
+//	gain_tc   = (201.201/201 − 1)/60 °C = 0.001/60 = 16.6667 ppm/°C
+//
+// (dividing by G = 200 would give 0.001005/60 = 16.75 ppm/°C), and the offset
+// drift is referred to the trimmed unit, whose slope is G:
+//
+//	offset_tc = (0.7 − 0.1) mV·(200/201)/60 °C = 9.950249 µV/°C
+func TestTempcoRelativeToOwnSlope(t *testing.T) {
+	rec := tcReplay(t, tcSeq, tcSweep("room", 2.5001, 201, 2e-6), tcSweep("hot", 2.5007, 201.201, 2e-6))
+	ws := coefWrites(rec, "tempco")
+	if len(ws) != 2 {
+		t.Fatalf("tempco wrote %+v, reasons %v", ws, rec.Reasons)
+	}
+	for i, want := range []float64{9.950248756, 16.666666667} {
+		if math.Abs(ws[i].Ideal-want) > 1e-6*want {
+			t.Errorf("%s ideal %.9g, want %.9g", ws[i].Name, ws[i].Ideal, want)
+		}
+	}
+}

@@ -350,8 +350,10 @@ func pza8Gap(t *testing.T, dir, station, sequence, serial string) {
 // the expanded uncertainty the record states. The simulated card drifts as
 // core = G·(1 + tcg·ΔT)·(x + vin_os + tco·ΔT) (instruments/sim doc), so at zero
 // input its output moves by G·tco per °C, and its gain by the fraction tcg per
-// °C; the cross terms (G·tcg·vin_os, G·tcg·tco·ΔT) are below 10⁻⁷ V/°C, far under
-// the stated U of a few µV/°C.
+// °C; tempco refers the offset drift to the trimmed unit, whose slope is the
+// sequence's ideal gain 200, so offset_tc is 200·tco; the cross terms
+// (G·tcg·vin_os, G·tcg·tco·ΔT) are below 10⁻⁷ V/°C, far under the stated U of a
+// few µV/°C.
 func tempcoKnown(t *testing.T, dir, station string) {
 	t.Helper()
 	st, err := sequencer.LoadStation(station)
@@ -376,7 +378,7 @@ func tempcoKnown(t *testing.T, dir, station string) {
 		for _, c := range []struct {
 			name string
 			want float64
-		}{{"offset_tc", p.Gain() * p.OffsetTC}, {"gain_tc", p.GainTC}} {
+		}{{"offset_tc", 200 * p.OffsetTC}, {"gain_tc", p.GainTC}} {
 			var res sequencer.Result
 			for _, x := range r.rec.Results {
 				if x.Name == c.name {

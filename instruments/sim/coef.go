@@ -155,14 +155,16 @@ func (s Coefficients) resolveTC(c *coefs, out Output, format func(key, name stri
 }
 
 // tcCorrect applies the firmware's temperature correction to y (V or A, after
-// the gain and offset coefficients) with sensor reading temp: y − tco·ΔT −
-// tcg·ΔT·(y − vz), ΔT = temp − the reference; tco and tcg are the register numbers.
+// the gain and offset coefficients) with sensor reading temp: vz + (y − vz −
+// tco·ΔT)/(1 + tcg·ΔT), ΔT = temp − the reference; tco and tcg are the register
+// numbers. It is the inverse of the drift model (doc.go) for a trimmed unit: the
+// offset drift measured at zero input, gain drift relative to the unit's slope.
 func (c coefs) tcCorrect(y, temp, tco, tcg, vz, lsb float64) float64 {
 	if c.tcUse == "" {
 		return y
 	}
 	dT := temp - c.tcRef
-	return y - c.tcOffsetSI(tco, lsb)*dT - tcg*c.tcGainUnit*dT*(y-vz)
+	return vz + (y-vz-c.tcOffsetSI(tco, lsb)*dT)/(1+tcg*c.tcGainUnit*dT)
 }
 
 // offsetSI returns the offset coefficient v (a number in the offset unit) as the

@@ -270,7 +270,7 @@
 // each channel for temperature with T, its own sensor's reading (as TEMP? answers
 // it), and the reference coef_tc_ref (25 °C):
 //
-//	y' = y_corr − tco·(T − Tref) − tcg·(T − Tref)·(y_corr − output_at_zero)
+//	y' = Vz + (y_corr − Vz − tco·(T − Tref))/(1 + tcg·(T − Tref))    Vz = output_at_zero
 //
 // y_corr the output after the gain and offset coefficients (the output itself on a
 // card without them), before the rails or the converter as those are. tco is in
@@ -278,9 +278,18 @@
 // a reported card) in coef_tc_offset_format (float32); tcg is in coef_tc_gain_unit
 // per °C (ppm by default; % or 1) in coef_tc_gain_format (float32). Both start at 0,
 // are written and read like the coefficients (CAL TCO {value}, CAL TCO?, CAL TCG
-// {value}, CAL TCG?; {channel} allowed) and NV STORE stores them. For the right
-// values, tco = the output TC G·tco_in and tcg = the gain TC, the drift is
-// cancelled but for second-order terms (−G·tcg²·ΔT²·x − tcg·ΔT·vout_os).
+// {value}, CAL TCG?; {channel} allowed) and NV STORE stores them. It is the
+// inverse of the drift model: with a = the gain the trims and coefficients apply
+// after the core (1 + gtrim, times the gain coefficient) and A = a·G the unit's
+// slope at Tref, the output is y = K + (1 + tcg·ΔT)·(y_Tref − K + A·tco_in·ΔT),
+// K the output at x = −vin_os. For a trimmed unit (K = Vz − A·vin_os) and
+// tco = the offset drift at x = 0 per °C, A·((1 + tcg·ΔT)·tco_in + tcg·vin_os),
+// and tcg = the relative change of the unit's own slope, the correction gives
+// back y_Tref exactly at the temperature tco was measured at; elsewhere the
+// remainder is A·tcg·tco_in·ΔT·(ΔT_meas − ΔT)/(1 + tcg·ΔT), of the second order.
+// An untrimmed unit keeps −tcg·ΔT·(K − Vz)/(1 + tcg·ΔT), its output offset's drift.
+// A gain trim after the drift was measured scales A, so tco must be referred to
+// the trimmed slope (tempco does: drift·G/slope_ref).
 //
 // # Trim port protocol
 //

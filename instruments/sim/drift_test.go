@@ -133,19 +133,22 @@ var tcDUT = with(quietDUT, "tc_offset", "2 uV", "tc_gain", "25 ppm", "temp_senso
 	"coef_tc", "both", "coef_tc_offset_unit", "uV")
 
 // TestTCCorrection: the unit's output TC is G·tco = 199.49601·2 µV = 398.992 µV/°C
-// and its gain TC 25 ppm/°C. With those written the firmware takes off
-// tco_out·ΔT + tcg·ΔT·(y − Vz), which leaves (expanding the model, vin_os = 0,
-// vout_os = 3.1 mV) −G·tcg²·ΔT²·x − tcg·ΔT·vout_os − G·tcg²·tco·ΔT³
-// = −199.49601·(1.5e-3)²·0.01 − 1.5e-3·3.1e-3 = −4.489 µV − 4.650 µV = −9.14 µV of the
-// 26.97 mV drift at 85 °C. With no coefficients written it drifts in full.
+// and its gain TC 25 ppm/°C (tcg·ΔT = 1.5e-3 at 85 °C). Its offset drift at zero
+// input, as tempco measures it between 25 and 85 °C, is G·(1 + tcg·ΔT)·tco =
+// 398.992·1.0015 = 399.5905 µV/°C. With those written the firmware's
+// Vz + (y − Vz − tco_out·ΔT)/(1 + tcg·ΔT) takes off the drift of G·x and of tco
+// exactly (vin_os = 0) and leaves only this untrimmed unit's output offset's share,
+// −tcg·ΔT·vout_os/(1 + tcg·ΔT) = −1.5e-3·3.1e-3/1.0015 = −4.643 µV of the 26.97 mV
+// drift at 85 °C (an offset-trimmed unit has no vout_os left). With no
+// coefficients written it drifts in full.
 func TestTCCorrection(t *testing.T) {
 	b := hotBench(t, tcDUT)
 	load(t, b, "BRX-000001")
 	d := b.DUT()
-	command(t, d, "CAL TCO 398.992")
+	command(t, d, "CAL TCO 399.5905")
 	command(t, d, "CAL TCG 25")
 	cold, hot := driftAt85(t, b, 0.01)
-	near(t, "corrected drift at 85 °C", hot-cold, -9.14e-6, 1.5e-6)
+	near(t, "corrected drift at 85 °C", hot-cold, -4.643e-6, 1.5e-6)
 
 	plain := hotBench(t, tcDUT)
 	load(t, plain, "BRX-000001")
@@ -188,4 +191,67 @@ func TestTCRegisters(t *testing.T) {
 	if _, err := sim.ParseDUTSettings(map[string]string{"coef_tc": "both", "coef_tc_offset_unit": "mA"}); err == nil {
 		t.Fatal("coef_tc_offset_unit mA accepted on a voltage card")
 	}
+}
+
+// TestTCCorrectionExtremeUnit: the BRX-200T limit file's extreme unit, its drift
+// measured untrimmed as the sequence does (tempco before trim) and a ±1.8 % gain
+// trim after. tc_offset 7.5 µV/°C input-referred is 1500 µV/°C at the output of
+// the trimmed unit (G = 200), tc_gain 120 ppm/°C, gain_error 1/(1 + gtrim) − 1 so
+// that the gain DAC's gtrim (±1800 codes of 10 ppm about mid-scale 2048: code 3848
+// or 248) brings it to G; no offset, a perfect sensor. The coefficients are
+// computed as tempco does: tco = Δintercept·(200/slope_25)/60 °C, tcg =
+// (slope_85/slope_25 − 1)/60 °C. The drift at 85 °C is 1500 µV·60 = 90 mV. The
+// old correction (y − tco·ΔT − tcg·ΔT·(y − Vz), the drift referred to the
+// untrimmed slope and the gain TC to G) left, by the reviewer's expansion,
+// −tco·ΔT·(gtrim + tcg·ΔT) ≈ −90 mV·(±0.018 + 0.0072): up to −2.3 mV with the
+// trim down, beyond the ±2000 µV "offset hot" limit (run against the old code:
+// +962 µV with the trim up, −2.3 mV down). Now the correction is the model's
+// inverse and only the trimmed slope's difference from 200 remains (the open-loop
+// −20 ppm: 90 mV·20e-6 = 1.8 µV), so hot offset and gain match room within 5 µV
+// and 2 ppm.
+func TestTCCorrectionExtremeUnit(t *testing.T) {
+	for _, gtrim := range []float64{0.018, -0.018} {
+		t.Run(fmt.Sprintf("trim %+.1f %%", gtrim*100), func(t *testing.T) {
+			extremeUnit(t, gtrim)
+		})
+	}
+}
+
+func extremeUnit(t *testing.T, gtrim float64) {
+	b := hotBench(t, with(tcDUT, "offset", "0 V", "tc_offset", "7.5 uV", "tc_gain", "120 ppm",
+		"gain_error", fmt.Sprintf("%.6f ppm", (1/(1+gtrim)-1)*1e6)))
+	load(t, b, "BRX-000001")
+	d := b.DUT()
+	ctx := context.Background()
+	line := func() (c, s float64) { // intercept and slope from x = 0 and 10 mV
+		drive(t, b, 0, 100*time.Millisecond)
+		c = read1(t, b)
+		drive(t, b, 0.01, 100*time.Millisecond)
+		return c, (read1(t, b) - c) / 0.01
+	}
+	at := func(temp float64) {
+		if err := b.Chamber().SetTemperature(ctx, temp); err != nil {
+			t.Fatal(err)
+		}
+		sleep(t, b, 10*time.Second)
+	}
+	c25, s25 := line()
+	at(85)
+	c85, s85 := line()
+	tco := (c85 - c25) * (200 / s25) / 60
+	tcg := (s85/s25 - 1) / 60
+	command(t, d, fmt.Sprintf("TRIM GAIN %d", 2048+int(math.Round(gtrim/10e-6))))
+	command(t, d, fmt.Sprintf("CAL TCO %.6f", tco*1e6))
+	command(t, d, fmt.Sprintf("CAL TCG %.6f", tcg*1e6))
+	hc, hs := line()
+	at(25)
+	rc, rs := line()
+	t.Logf("hot − room: offset %.2f µV, gain %.3f ppm", (hc-rc)*1e6, (hs/rs-1)*1e6)
+	if off := hc - rc; math.Abs(off) > 5e-6 {
+		t.Errorf("hot offset %.2f µV from room's (tco %.1f µV/°C, tcg %.2f ppm/°C), want within 5 µV", off*1e6, tco*1e6, tcg*1e6)
+	}
+	if ge := hs/rs - 1; math.Abs(ge) > 2e-6 {
+		t.Errorf("hot gain %.2f ppm from room's, want within 2 ppm", ge*1e6)
+	}
+	near(t, "trimmed slope", rs, 200, 200*100e-6)
 }
