@@ -123,8 +123,8 @@ type Station struct {
 	// than SourceRating.
 	MaxSourceVolts float64
 	MaxSourceAmps  float64
-	// SafeTemperature is where the engine leaves every thermal role on every
-	// exit path, °C (safety.safe_temperature, default DefaultSafeTemperature).
+	// SafeTemperature is the set point the engine commands every thermal role
+	// to on every exit path, °C (safety.safe_temperature, default DefaultSafeTemperature).
 	// MinTemperature and MaxTemperature cap a soak's set point, °C, when
 	// HasMinTemperature and HasMaxTemperature (safety.min_temperature and
 	// max_temperature, optional).
