@@ -564,7 +564,7 @@ func tempcoQuantity(q string) bool {
 // coefficient judges in its file's unit per °C ("unit: uV" on offset_tc is
 // µV/°C), and prints so.
 func (d *doc) shownOutcome(o limits.Outcome) limits.Outcome {
-	if strings.HasSuffix(o.Unit, perDegree) || isCount(o.Unit) {
+	if strings.TrimSpace(o.Unit) == "" || strings.HasSuffix(o.Unit, perDegree) || isCount(o.Unit) {
 		return o
 	}
 	names := append([]string(nil), o.Uses...)
