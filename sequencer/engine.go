@@ -420,6 +420,11 @@ func (e *Engine) Run(ctx context.Context, serial string) (rec *Record) {
 			}
 			rec.Fault = strings.TrimPrefix(rec.Fault+"; return to the safe temperature failed: "+err.Error(), "; ")
 		}
+		// At the normal end of a run the chamber is read: the safe temperature is
+		// a set point, and a unit in a chamber still hot or cold is not handled.
+		if rec.Verdict != Fault && rec.Verdict != Aborted {
+			rec.Notes = append(rec.Notes, e.handlingNotes(log)...)
+		}
 		rec.Finished = e.clock.Now().UTC()
 	}()
 	err := e.run(ctx, u)

@@ -119,6 +119,10 @@ type Record struct {
 	RetestOf string   `json:"retest_of,omitempty"`
 	Reasons  []string `json:"reasons,omitempty"` // why the verdict is not PASS, in order
 	Fault    string   `json:"fault,omitempty"`   // the station fault message, for FAULT and ABORTED
+	// Notes are what the operator must know once the run is over, whatever its
+	// verdict: a chamber still beyond the handling band of the safe temperature
+	// ("chamber at 84.9 °C: wait before opening the fixture").
+	Notes []string `json:"notes,omitempty"`
 }
 
 // StepRun is what one step of the sequence did in a run.

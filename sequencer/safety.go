@@ -271,3 +271,30 @@ func (e *Engine) safeTemperature(log zerolog.Logger) error {
 	}
 	return first
 }
+
+// handlingNotes reads every thermal role once the safe temperature is set and
+// returns a note for each that reads more than the station's handling band
+// away from it, or that could not be read: the set point is commanded, not
+// reached, and the operator waits before opening the fixture.
+func (e *Engine) handlingNotes(log zerolog.Logger) []string {
+	var notes []string
+	safe, band := e.cfg.Station.SafeTemperature, e.cfg.Station.HandlingBand
+	for _, r := range e.roles {
+		th, ok := e.thermals[r]
+		if !ok {
+			continue
+		}
+		ctx, cancel := context.WithTimeout(context.Background(), 5*time.Second)
+		c, err := th.Temperature(ctx)
+		cancel()
+		switch {
+		case err != nil:
+			log.Warn().Err(err).Str("role", r).Msg("could not read the chamber after setting the safe temperature")
+			notes = append(notes, fmt.Sprintf("%s: temperature not read (%v): wait before opening the fixture", r, err))
+		case !finite(c) || math.Abs(c-safe) > band:
+			log.Warn().Str("role", r).Float64("celsius", c).Msg("chamber beyond the handling band of the safe temperature")
+			notes = append(notes, fmt.Sprintf("%s at %.1f °C: wait before opening the fixture (safe temperature %s, handling band ±%s)", r, c, fmtC(safe), fmtC(band)))
+		}
+	}
+	return notes
+}

@@ -394,3 +394,65 @@ func TestStationTemperatures(t *testing.T) {
 		}
 	}
 }
+
+// At the normal end of a run the engine sets the safe temperature (22 °C here)
+// and reads the chamber once more: the script's last read repeats, so a
+// chamber still at 85 °C is 63 °C from 22 °C, beyond the 5 °C handling band,
+// and the record notes it; one at 24.5 °C (2.5 °C away) or 17 °C (exactly 5 °C
+// away, on the band's edge) gives no note.
+func TestHandlingBandAtTheEnd(t *testing.T) {
+	for _, c := range []struct {
+		last float64
+		note string
+	}{
+		{85, "chamber at 85.0 °C: wait before opening the fixture (safe temperature 22 °C, handling band ±5 °C)"},
+		{24.5, ""},
+		{17, ""},
+	} {
+		tri.reset()
+		chamber.reset(25, 60, 84.8, 86.0, 85.3, 84.9, 85.1, 85.0, c.last)
+		cfg := soakConfig(t, withChamber(soakStation), withSoak(hotSoak))
+		e, err := sequencer.Open(context.Background(), cfg)
+		if err != nil {
+			t.Fatal(err)
+		}
+		rec := e.Run(context.Background(), "TRI-00001")
+		e.Close()
+		if rec.Verdict == sequencer.Fault || rec.Verdict == sequencer.Aborted {
+			t.Fatalf("verdict %s: %s", rec.Verdict, rec.Fault)
+		}
+		var want []string
+		if c.note != "" {
+			want = []string{c.note}
+		}
+		if !slices.Equal(rec.Notes, want) {
+			t.Errorf("chamber at %v °C at the end: notes %q, want %q", c.last, rec.Notes, want)
+		}
+	}
+}
+
+// safety.handling_band: 5 °C by default, a number of its own, refused at its
+// key when it is no positive temperature (line 12, value at column 18 after
+// "  handling_band: ").
+func TestStationHandlingBand(t *testing.T) {
+	st, err := sequencer.ParseStation("s.yaml", []byte(withChamber(triStation)))
+	if err != nil {
+		t.Fatal(allErrs(err))
+	}
+	if st.HandlingBand != 5 {
+		t.Errorf("default handling band %v, want 5", st.HandlingBand)
+	}
+	st, err = sequencer.ParseStation("s.yaml", []byte(withChamber(triStation)+"  handling_band: 3 °C\n"))
+	if err != nil {
+		t.Fatal(allErrs(err))
+	}
+	if st.HandlingBand != 3 {
+		t.Errorf("handling band %v, want 3", st.HandlingBand)
+	}
+	for _, add := range []string{"  handling_band: 0 °C\n", "  handling_band: 5 V\n"} {
+		_, err := sequencer.ParseStation("s.yaml", []byte(withChamber(triStation)+add))
+		if want := "s.yaml:12:18: expected a positive temperature difference such as 5 °C"; err == nil || !strings.Contains(allErrs(err), want) {
+			t.Errorf("%q: %v, want %q", add, err, want)
+		}
+	}
+}

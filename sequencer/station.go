@@ -123,12 +123,17 @@ type Station struct {
 	// than SourceRating.
 	MaxSourceVolts float64
 	MaxSourceAmps  float64
-	// SafeTemperature is where the engine leaves every thermal role on every
-	// exit path, °C (safety.safe_temperature, default DefaultSafeTemperature).
+	// SafeTemperature is the set point the engine commands every thermal role
+	// to on every exit path, °C (safety.safe_temperature, default DefaultSafeTemperature).
 	// MinTemperature and MaxTemperature cap a soak's set point, °C, when
 	// HasMinTemperature and HasMaxTemperature (safety.min_temperature and
 	// max_temperature, optional).
-	SafeTemperature                      float64
+	SafeTemperature float64
+	// HandlingBand is how far from the safe temperature a chamber may read at
+	// the end of a run for the unit to be taken out by hand, °C
+	// (safety.handling_band, default DefaultHandlingBand). Beyond it the record
+	// notes the chamber's temperature and the operator waits.
+	HandlingBand                         float64
 	MinTemperature, MaxTemperature       float64
 	HasMinTemperature, HasMaxTemperature bool
 	OutputFolder                         string // resolved relative to the station file
@@ -416,6 +421,7 @@ type stationFile struct {
 		MaxSourceVoltage *units.Voltage  `yaml:"max_source_voltage"`
 		MaxSourceCurrent *units.Current  `yaml:"max_source_current"`
 		SafeTemperature  *units.Quantity `yaml:"safe_temperature"`
+		HandlingBand     *units.Quantity `yaml:"handling_band"`
 		MinTemperature   *units.Quantity `yaml:"min_temperature"`
 		MaxTemperature   *units.Quantity `yaml:"max_temperature"`
 	} `yaml:"safety"`
@@ -587,6 +593,7 @@ func parseStation(name string, data []byte, recorded bool) (*Station, error) {
 	}
 	st.MaxSourceVolts, st.MaxSourceAmps = caps(doc, f.Safety.MaxSourceVoltage, f.Safety.MaxSourceCurrent, st.SourceRating, &errs)
 	temperatures(doc, st, f.Safety.SafeTemperature, f.Safety.MinTemperature, f.Safety.MaxTemperature, &errs)
+	handlingBand(doc, st, f.Safety.HandlingBand, &errs)
 	if f.StepDeadline != nil {
 		if st.StepDeadline = f.StepDeadline.D(); st.StepDeadline <= 0 {
 			errs = append(errs, doc.Errorf("$.step_deadline", "expected a positive duration such as 30 s"))

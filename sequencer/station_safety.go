@@ -156,8 +156,29 @@ func suggestID(s string) string {
 }
 
 // DefaultSafeTemperature is the safe temperature of a station file that names
-// none, °C: room temperature, where a unit can be taken out by hand.
+// none, °C: room temperature. It is a set point: the engine commands every
+// chamber there when a run ends, and the chamber takes its time to get there; a
+// unit can be taken out by hand once the chamber reads within the handling band
+// of it (see HandlingBand), which the engine checks at the end of a run.
 const DefaultSafeTemperature = 25.0
+
+// DefaultHandlingBand is the handling band of a station file that names none,
+// °C: a chamber within 5 °C of the safe temperature can be opened by hand.
+const DefaultHandlingBand = 5.0
+
+// handlingBand checks safety.handling_band: a temperature difference in °C,
+// positive and finite.
+func handlingBand(doc *files.Doc, st *Station, q *units.Quantity, errs *files.List) {
+	st.HandlingBand = DefaultHandlingBand
+	if q == nil {
+		return
+	}
+	if q.Dim != units.Celsius || !finite(q.Value) || q.Value <= 0 {
+		*errs = append(*errs, doc.Errorf("$.safety.handling_band", "expected a positive temperature difference such as 5 °C"))
+		return
+	}
+	st.HandlingBand = q.Value
+}
 
 // temperatures checks safety.safe_temperature, min_temperature and
 // max_temperature: each a temperature in °C, min below max, the safe

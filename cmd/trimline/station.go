@@ -240,6 +240,11 @@ func liveLine(i, n int, rec *sequencer.Record, cert string) string {
 			line += fmt.Sprintf(" (+%d more)", len(rec.Reasons)-1)
 		}
 	}
+	// A chamber still beyond the handling band of the safe temperature: the
+	// operator waits before taking the unit out.
+	for _, n := range rec.Notes {
+		line += "\n" + strings.Repeat(" ", 2*w+3) + "! " + n
+	}
 	return line
 }
 

@@ -170,3 +170,18 @@ func TestPrintSummaryChannelsCurrentsCounts(t *testing.T) {
 		}
 	}
 }
+
+// A record with a note of a chamber still hot: the live line warns the
+// operator under the unit's line; a record without notes has no warning.
+func TestLiveLineWarnsOfAHotChamber(t *testing.T) {
+	rec := &sequencer.Record{Serial: "ZX-2", Verdict: sequencer.Pass,
+		Notes: []string{"chamber at 84.9 °C: wait before opening the fixture (safe temperature 25 °C, handling band ±5 °C)"}}
+	got := liveLine(1, 1, rec, "")
+	if want := "\n     ! chamber at 84.9 °C: wait before opening the fixture"; !strings.Contains(got, want) {
+		t.Errorf("live line %q lacks %q", got, want)
+	}
+	rec.Notes = nil
+	if got := liveLine(1, 1, rec, ""); strings.Contains(got, "wait") {
+		t.Errorf("live line %q warns with no note", got)
+	}
+}

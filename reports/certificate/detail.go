@@ -74,7 +74,11 @@ func (d *doc) statements() ([]pdfdoc.Column, []pdfdoc.Row) {
 			about += " · " + chanWord(ch)
 		}
 		name := pdfdoc.Cell{{Text: o.Name, St: pdfdoc.Bold}, {Text: about, St: pdfdoc.Small}}
-		rows = append(rows, pdfdoc.Row{name, c1(statementText(dd.Statement, o.Unit), pdfdoc.Body), d.zoneCell(o)})
+		text := statementText(dd.Statement, o.Unit)
+		if so := d.shownOutcome(o); so.Unit != o.Unit {
+			text = perDegreeText(text, so.Unit)
+		}
+		rows = append(rows, pdfdoc.Row{name, c1(text, pdfdoc.Body), d.zoneCell(o)})
 	}
 	return []pdfdoc.Column{{Title: "Limit", W: 40, Align: "L"}, {Title: "Statement", W: 116, Align: "L"}, {Title: "Decision", W: 24, Align: "C"}}, rows
 }

@@ -3,6 +3,7 @@ package certificate
 import (
 	"fmt"
 	"math"
+	"regexp"
 	"sort"
 	"strconv"
 	"strings"
@@ -378,9 +379,15 @@ func fmtResultU(r sequencer.Result) string {
 	}
 	r = shownResult(r)
 	if !hasU(r.Unc.Expanded) {
+		if tempcoQuantity(r.Quantity) {
+			return fmtResult(r) + perDegree
+		}
 		return fmtResult(r)
 	}
 	unit, scale := resultUnit(r)
+	if tempcoQuantity(r.Quantity) && unit != "" && !isCount(unit) {
+		unit += perDegree
+	}
 	return fmtWithU(r.Value/scale, r.Unc.Expanded/scale, unit)
 }
 
@@ -541,4 +548,60 @@ func plural(n int, one, many string) string {
 		return fmt.Sprintf("%d %s", n, one)
 	}
 	return fmt.Sprintf("%d %s", n, many)
+}
+
+// perDegree is the suffix of a temperature coefficient's unit.
+const perDegree = "/°C"
+
+// tempcoQuantity reports whether a result quantity is a temperature
+// coefficient (sequencer.AdjustOffsetTC, AdjustGainTC): a value per °C,
+// whose record unit (V, ratio) and limit unit (uV, ppm) leave out the "per °C".
+func tempcoQuantity(q string) bool {
+	return q == sequencer.AdjustOffsetTC || q == sequencer.AdjustGainTC
+}
+
+// shownOutcome is o as the certificate writes it: a limit on a temperature
+// coefficient judges in its file's unit per °C ("unit: uV" on offset_tc is
+// µV/°C), and prints so.
+func (d *doc) shownOutcome(o limits.Outcome) limits.Outcome {
+	if strings.TrimSpace(o.Unit) == "" || strings.HasSuffix(o.Unit, perDegree) || isCount(o.Unit) {
+		return o
+	}
+	names := append([]string(nil), o.Uses...)
+	for k := range o.Values {
+		names = append(names, k)
+	}
+	if o.Decision != nil {
+		names = append(names, o.Decision.Result)
+	}
+	for _, n := range names {
+		if r, ok := d.resultIn(n, outcomeChannel(o)); ok && tempcoQuantity(r.Quantity) {
+			o.Unit = strings.TrimSpace(o.Unit) + perDegree
+			return o
+		}
+	}
+	return o
+}
+
+// baseUnit is a shown outcome's unit without its "per °C", for scaling.
+func baseUnit(unit string) string {
+	return strings.TrimSuffix(unit, perDegree)
+}
+
+// perDegreeText writes each unit word of a statement made in unit (the limit
+// file's, which limits writes as it is or in its printed form) per °C.
+func perDegreeText(s, unit string) string {
+	base := strings.TrimSpace(baseUnit(unit))
+	words := []string{dispUnit(base)}
+	if base != dispUnit(base) {
+		words = append(words, base)
+	}
+	for _, w := range words {
+		if w == "" {
+			continue
+		}
+		re := regexp.MustCompile(` ` + regexp.QuoteMeta(w) + `([^\p{L}/]|$)`)
+		s = re.ReplaceAllString(s, " "+w+perDegree+"$1")
+	}
+	return s
 }

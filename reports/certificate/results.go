@@ -136,7 +136,7 @@ func (d *doc) measuredCell(o limits.Outcome, w float64) pdfdoc.Cell {
 	if len(keys) == 0 {
 		return c1(vals[0], pdfdoc.Body)
 	}
-	scale := unitScale(o.Unit)
+	scale := unitScale(baseUnit(o.Unit))
 	var c pdfdoc.Cell
 	anyU := false
 	for _, k := range keys {
@@ -250,6 +250,7 @@ func (d *doc) resultsTable() resultsTable {
 	last := group{st: -1}
 	turLow, exprs := false, false
 	for _, o := range outs {
+		o = d.shownOutcome(o)
 		if g := (group{outcomeStage(d.rec, o), outcomeChannel(o)}); g != last {
 			title := d.stageTitle(g.st)
 			if g.ch != "" {
