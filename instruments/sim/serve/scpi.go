@@ -531,8 +531,10 @@ func newSwitchHandler(sw *sim.Switch) *scpiInstrument {
 		case len(a) > 1:
 			return errParamNotAllw
 		}
-		ch, ok := strings.CutPrefix(a[0], "(@")
-		if ch, ok = strings.CutSuffix(ch, ")"); !ok || ch == "" {
+		// A channel list is "(@k)": anything else is the wrong data type.
+		ch, open := strings.CutPrefix(a[0], "(@")
+		ch, closed := strings.CutSuffix(ch, ")")
+		if !open || !closed || ch == "" {
 			return errDataType
 		}
 		if err := sw.Route(ctx, ch); err != nil {

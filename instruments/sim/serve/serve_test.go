@@ -376,6 +376,7 @@ func TestSwitchAndCurrentCommands(t *testing.T) {
 	m.want("READ?", "+0.000000000E+00") // a current card shows no voltage
 	sw.noReply("ROUT:CLOS (@3)", `-222,"Data out of range"`)
 	sw.noReply("ROUT:CLOS 2", `-104,"Data type error"`)
+	sw.noReply("ROUT:CLOS 2)", `-104,"Data type error"`) // a closing bracket alone is no channel list
 	sw.want("ROUT:CLOS?", "(@2)")
 	sw.send("ROUT:OPEN:ALL")
 	sw.want("ROUT:CLOS?", "(@)")
