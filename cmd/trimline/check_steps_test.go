@@ -105,10 +105,10 @@ func TestCheckStepsNamesChannels(t *testing.T) {
 	if _, _, err := writeDemoFiles(dir, 1, time.Now()); err != nil {
 		t.Fatal(err)
 	}
-	seq := editDemo(t, dir, "brx200-sequence.yaml",
+	editDemo(t, dir, "brx200-sequence.yaml",
 		"\ndacs:", "\nchannels: {names: [\"A\", \"B\"]}\ndacs:",
 		"    name: verify fit\n", "    name: verify fit\n    channels: [\"B\"]\n")
-	seq = editDemo(t, dir, "bad-brx200-sequence.yaml", "    name: verify\n", "    name: verify\n    channels: [\"B\"]\n")
+	seq := editDemo(t, dir, "bad-brx200-sequence.yaml", "    name: verify\n", "    name: verify\n    channels: [\"B\"]\n")
 	code, out, _ := runCLI(t, "check", "--steps", seq)
 	expectAll(t, out,
 		"    1  identify                      identify    as found",
