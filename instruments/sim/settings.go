@@ -618,6 +618,19 @@ func checkCard(s DUTSettings, given map[string]string) error {
 }
 
 // wordOf sets a one-word setting (a format or unit name).
+// coefUseOf sets which coefficients of a kind the card has: none (""), gain,
+// offset or both.
+func coefUseOf(p *Trim) setter {
+	return func(k, val string) error {
+		v, err := choice(k, val, "none", string(TrimGain), string(TrimOffset), string(TrimBoth))
+		*p = Trim(v)
+		if v == "none" {
+			*p = ""
+		}
+		return err
+	}
+}
+
 func wordOf(p *string) setter {
 	return func(k, val string) error {
 		*p = strings.TrimSpace(val)
@@ -830,26 +843,19 @@ func (s *DUTSettings) setters(offsetLSBSet *bool) map[string]setter {
 			s.Input = Input(v)
 			return err
 		},
-		"input_resistance":     positiveOf(&s.InputResistance, units.Ohm),
-		"supply_current":       positiveOf(&s.SupplyCurrent, units.Ampere),
-		"supply_current_sigma": nonNegativeOf(&s.SupplyCurrentSigma, units.Ratio),
-		"ambient":              quantityOf(&s.Ambient, units.Celsius),
-		"dut_tau":              nonNegativeOf(&s.ThermalTau, units.Second),
-		"tc_offset_sigma":      nonNegativeOf(&s.TCOffsetSigma, units.Volt),
-		"tc_gain_sigma":        nonNegativeOf(&s.TCGainSigma, units.Ratio),
-		"temp_sensor_sigma":    nonNegativeOf(&s.SensorSigma, units.Celsius),
-		"tc_offset":            overrideOf(&s.TCOffset, units.Volt),
-		"tc_gain":              overrideOf(&s.TCGain, units.Ratio),
-		"temp_sensor_offset":   overrideOf(&s.SensorOffset, units.Celsius),
-		"cmd_temp":             commandOf(&s.Protocol.Temp),
-		"coef": func(k, val string) error {
-			v, err := choice(k, val, "none", string(TrimGain), string(TrimOffset), string(TrimBoth))
-			s.Coef.Use = Trim(v)
-			if v == "none" {
-				s.Coef.Use = ""
-			}
-			return err
-		},
+		"input_resistance":      positiveOf(&s.InputResistance, units.Ohm),
+		"supply_current":        positiveOf(&s.SupplyCurrent, units.Ampere),
+		"supply_current_sigma":  nonNegativeOf(&s.SupplyCurrentSigma, units.Ratio),
+		"ambient":               quantityOf(&s.Ambient, units.Celsius),
+		"dut_tau":               nonNegativeOf(&s.ThermalTau, units.Second),
+		"tc_offset_sigma":       nonNegativeOf(&s.TCOffsetSigma, units.Volt),
+		"tc_gain_sigma":         nonNegativeOf(&s.TCGainSigma, units.Ratio),
+		"temp_sensor_sigma":     nonNegativeOf(&s.SensorSigma, units.Celsius),
+		"tc_offset":             overrideOf(&s.TCOffset, units.Volt),
+		"tc_gain":               overrideOf(&s.TCGain, units.Ratio),
+		"temp_sensor_offset":    overrideOf(&s.SensorOffset, units.Celsius),
+		"cmd_temp":              commandOf(&s.Protocol.Temp),
+		"coef":                  coefUseOf(&s.Coef.Use),
 		"coef_gain_format":      wordOf(&s.Coef.GainFormat),
 		"coef_offset_format":    wordOf(&s.Coef.OffsetFormat),
 		"coef_gain_scale":       coefScaleOf(&s.Coef.GainScale, nil),
@@ -861,14 +867,7 @@ func (s *DUTSettings) setters(offsetLSBSet *bool) map[string]setter {
 		"cmd_coef_gain_read":    commandOf(&s.Protocol.CoefGainRead),
 		"cmd_coef_offset_write": commandOf(&s.Protocol.CoefOffsetWrite),
 		"cmd_coef_offset_read":  commandOf(&s.Protocol.CoefOffsetRead),
-		"coef_tc": func(k, val string) error {
-			v, err := choice(k, val, "none", string(TrimGain), string(TrimOffset), string(TrimBoth))
-			s.Coef.TC = Trim(v)
-			if v == "none" {
-				s.Coef.TC = ""
-			}
-			return err
-		},
+		"coef_tc":               coefUseOf(&s.Coef.TC),
 		"coef_tc_offset_format": wordOf(&s.Coef.TCOffsetFormat),
 		"coef_tc_offset_unit":   wordOf(&s.Coef.TCOffsetUnit),
 		"coef_tc_gain_format":   wordOf(&s.Coef.TCGainFormat),
