@@ -661,19 +661,25 @@ func (c *sourceConfig) setters() map[string]setter {
 	}
 }
 
+// rangeOf sets a meter's power-on range of dimension d to the range pick
+// chooses for the value written (0 = auto).
+func rangeOf(p *float64, d units.Dim, pick func(float64) (float64, error)) setter {
+	return func(k, val string) error {
+		v, err := nonNegative(k, val, d)
+		if err == nil {
+			if *p, err = pick(v); err != nil {
+				err = settingErr(k, "%v", err)
+			}
+		}
+		return err
+	}
+}
+
 func (c *meterConfig) setters() map[string]setter {
 	return map[string]setter{
 		"spec_ppm_reading": ppmOf(&c.specReading),
 		"spec_ppm_range":   ppmOf(&c.specRange),
-		"range": func(k, val string) error {
-			v, err := nonNegative(k, val, units.Volt)
-			if err == nil {
-				if c.rng, err = meterRange(v); err != nil {
-					err = settingErr(k, "%v", err)
-				}
-			}
-			return err
-		},
+		"range":            rangeOf(&c.rng, units.Volt, meterRange),
 		"nplc": func(k, val string) error {
 			v, err := plain(k, val)
 			if err == nil {
@@ -692,19 +698,11 @@ func (c *meterConfig) setters() map[string]setter {
 		"probe":                    choiceOf(&c.supply, "output", "supply"),
 		"current_spec_ppm_reading": ppmOf(&c.iSpecReading),
 		"current_spec_ppm_range":   ppmOf(&c.iSpecRange),
-		"current_range": func(k, val string) error {
-			v, err := nonNegative(k, val, units.Ampere)
-			if err == nil {
-				if c.iRng, err = currentRange(v); err != nil {
-					err = settingErr(k, "%v", err)
-				}
-			}
-			return err
-		},
-		"current_resolution": nonNegativeOf(&c.iResolution, units.Ampere),
-		"current_noise":      nonNegativeOf(&c.iNoise, units.Ampere),
-		"current_gain_error": overrideOf(&c.iGainError, units.Ratio),
-		"current_offset":     overrideOf(&c.iOffset, units.Ampere),
+		"current_range":            rangeOf(&c.iRng, units.Ampere, currentRange),
+		"current_resolution":       nonNegativeOf(&c.iResolution, units.Ampere),
+		"current_noise":            nonNegativeOf(&c.iNoise, units.Ampere),
+		"current_gain_error":       overrideOf(&c.iGainError, units.Ratio),
+		"current_offset":           overrideOf(&c.iOffset, units.Ampere),
 		"force_flag": func(k, val string) error {
 			v, err := choice(k, val, "none", "overload", "nan")
 			c.force = map[string]instruments.Flag{"none": instruments.FlagNone,
