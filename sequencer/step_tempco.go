@@ -30,9 +30,13 @@ func init() {
 // the same at every set point.
 const ChamberUniformity = 0.5
 
-// tempSetters are the step kinds that give the sweeps after them a known
-// temperature (Sweep.TempC, Sweep.TempKnown).
-var tempSetters = map[string]bool{"soak": true}
+// temperatureSetter is a step that gives the sweeps after it a known
+// temperature (Sweep.TempC, Sweep.TempKnown): a soak.
+type temperatureSetter interface {
+	setsTemperature()
+}
+
+func (*soakStep) setsTemperature() {}
 
 // tempcoStep is tempco as the file writes it.
 type tempcoStep struct {
@@ -131,7 +135,7 @@ func soakBefore(c *Checker, sweep string) (soak string, found bool) {
 		return "", false
 	}
 	for i := at - 1; i >= 0; i-- {
-		if tempSetters[c.earlier[i].Kind] {
+		if _, ok := c.earlier[i].Step.(temperatureSetter); ok {
 			return c.earlier[i].Name, true
 		}
 	}

@@ -11,7 +11,6 @@ import (
 )
 
 func init() {
-	tempSetters["test_soak"] = true
 	RegisterStep(StepKind{Name: "test_soak", About: "test stand-in for soak: records a Soak", New: func() Step { return new(testSoak) }})
 	RegisterStep(StepKind{Name: "test_temp", About: "test stand-in: stamps an earlier sweep with a temperature", New: func() Step { return new(testTemp) }})
 }
@@ -23,6 +22,8 @@ type testSoak struct {
 }
 
 func (*testSoak) Check(*Checker) {}
+
+func (*testSoak) setsTemperature() {}
 
 func (s *testSoak) Run(_ context.Context, u *Unit) error {
 	t0 := time.Date(2026, 1, 1, 0, 0, 0, 0, time.UTC)
