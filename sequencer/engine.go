@@ -377,7 +377,7 @@ func (e *Engine) Run(ctx context.Context, serial string) (rec *Record) {
 	st, seq := e.cfg.Station, e.cfg.Sequence
 	now := e.clock.Now().UTC()
 	rec = &Record{
-		Schema: RecordSchema, Serial: serial, Product: seq.Product, Revision: seq.Revision,
+		Schema: RecordSchema, Metrology: CurrentMetrology, Serial: serial, Product: seq.Product, Revision: seq.Revision,
 		Station: st.ID, Operator: e.cfg.Operator, Software: e.cfg.Software, Started: now,
 		Files:       []FileRef{st.File, seq.File, seq.LimitsFile},
 		Instruments: append([]InstrumentRef(nil), e.refs...),

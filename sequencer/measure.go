@@ -93,19 +93,25 @@ func annotate(cfg Config, plan SweepPlan, sw *Sweep) {
 // order 2 fits a quadratic instead (its slope and intercept are those at zero
 // stimulus); its uncertainty is always evaluated by the law of propagation.
 // Every fit carries a lack-of-fit statistic where one can be made.
-func analyse(cfg Config, plan SweepPlan, sw Sweep, order int, seed string) (analysis, error) {
+func analyse(cfg Config, plan SweepPlan, sw Sweep, order int, seed string, rules int) (analysis, error) {
 	x := make([]float64, len(sw.Points))
 	y := make([]float64, len(sw.Points))
 	ur := make([]float64, len(sw.Points))
 	dof := make([]float64, len(sw.Points))
 	// One pooled estimate serves every point, so its Σ(n_i − 1) degrees of freedom
-	// must be counted once: handing each of the N points ν/N makes the
-	// Welch–Satterthwaite sum over equal contributions come back to ν.
+	// are counted once: the points' Type A inputs are one input with ν = Σ(n_i − 1)
+	// (uncertainty.Sweep.PooledRandom). Handing each point ν/N instead would make
+	// Welch–Satterthwaite treat N independent variance estimates, which they are
+	// not, and understate ν_eff wherever the weights differ. Records of metrology
+	// revision 0 were computed with ν/N per point and replay so.
 	_, pooled := pooledSD(sw.Points)
 	if pooled == 0 {
 		pooled = math.Inf(1)
 	}
-	pdof := pooled / float64(len(sw.Points))
+	pdof, poolOnce := pooled, rules >= 1
+	if !poolOnce {
+		pdof = pooled / float64(len(sw.Points))
+	}
 	for i, p := range sw.Points {
 		if p.Valid != len(p.Readings) || len(p.Readings) == 0 {
 			return analysis{}, fmt.Errorf("invalid reading (%s) at %s", firstBad(p.Readings), fmtStim(plan.Stimulus, p.Stimulus))
@@ -113,7 +119,7 @@ func analyse(cfg Config, plan SweepPlan, sw Sweep, order int, seed string) (anal
 		x[i], y[i], ur[i], dof[i] = p.Stimulus, p.Mean, p.URandom, pdof
 	}
 	meter, source, res := sweepSpecs(cfg.Station, plan, sw.Points)
-	us := uncertainty.Sweep{X: x, Y: y, URandom: ur, DOFRandom: dof, Meter: meter, MeterResolution: res, Source: source}
+	us := uncertainty.Sweep{X: x, Y: y, URandom: ur, DOFRandom: dof, PooledRandom: poolOnce, Meter: meter, MeterResolution: res, Source: source}
 	a := analysis{sw: us, poolDOF: pooled}
 	s := &a.sum
 	if order == 2 {

@@ -11,6 +11,17 @@ import (
 // meaning; readers of old ledgers switch on it.
 const RecordSchema = 2
 
+// Metrology is the revision of the measurement rules a record was computed by
+// (degrees of freedom, Monte Carlo, rounding, measurands). A replay computes a
+// record by the revision it was made with, so a certificate issued years ago
+// re-derives exactly; a new run uses CurrentMetrology.
+//
+//   - 0: records made before revisions were kept.
+//   - 1: a pooled standard deviation is one Type A input (its Σ(n_i − 1)
+//     degrees of freedom counted once), and the rest of the rules that came
+//     with it (see DEVELOPERS.md, "Metrology revisions").
+const CurrentMetrology = 1
+
 // Verdict is the outcome of one unit's run. PASS, REVIEW and FAIL are the limit
 // file's overall verdicts (limits.VerdictPass, VerdictReview, VerdictFail) as the
 // record spells them; FAULT and ABORTED are the station's, when nothing was judged.
@@ -65,16 +76,19 @@ type Uncertainty struct {
 // identities and the hashes of the files in force. Reports are made from a Record
 // alone; identical Records give identical documents.
 type Record struct {
-	Schema   int       `json:"schema"`
-	RunID    string    `json:"run_id"`
-	Serial   string    `json:"serial"`
-	Product  string    `json:"product"`
-	Revision string    `json:"revision"`
-	Station  string    `json:"station"`
-	Operator string    `json:"operator"`
-	Software string    `json:"software"` // trimline version that ran
-	Started  time.Time `json:"started"`
-	Finished time.Time `json:"finished"`
+	Schema   int    `json:"schema"`
+	RunID    string `json:"run_id"`
+	Serial   string `json:"serial"`
+	Product  string `json:"product"`
+	Revision string `json:"revision"`
+	Station  string `json:"station"`
+	Operator string `json:"operator"`
+	Software string `json:"software"` // trimline version that ran
+	// Metrology is the revision of the measurement rules the record was
+	// computed by (CurrentMetrology for a new run; 0 in older records).
+	Metrology int       `json:"metrology,omitempty"`
+	Started   time.Time `json:"started"`
+	Finished  time.Time `json:"finished"`
 
 	Files       []FileRef       `json:"files"`
 	Instruments []InstrumentRef `json:"instruments"`
@@ -310,7 +324,7 @@ type Result struct {
 // ledger shows the attempt.
 func FaultRecord(cfg Config, serial string, now time.Time, err error) *Record {
 	st, seq := cfg.Station, cfg.Sequence
-	rec := &Record{Schema: RecordSchema, Serial: serial, Product: seq.Product, Revision: seq.Revision,
+	rec := &Record{Schema: RecordSchema, Metrology: CurrentMetrology, Serial: serial, Product: seq.Product, Revision: seq.Revision,
 		Station: st.ID, Operator: cfg.Operator, Software: cfg.Software, Started: now.UTC(), Finished: now.UTC(),
 		Files:     []FileRef{st.File, seq.File, seq.LimitsFile},
 		IdealGain: seq.IdealGain, IdealOffset: seq.IdealOffset, FullScale: seq.FullScale, ResponseUnit: seq.recordResponseUnit(),

@@ -27,7 +27,7 @@ func Replay(cfg Config, stored *Record) (*Record, error) {
 	}
 	seq := cfg.Sequence
 	rec := &Record{
-		Schema: stored.Schema, RunID: stored.RunID, Serial: stored.Serial, Product: stored.Product, Revision: stored.Revision,
+		Schema: stored.Schema, Metrology: stored.Metrology, RunID: stored.RunID, Serial: stored.Serial, Product: stored.Product, Revision: stored.Revision,
 		Station: stored.Station, Operator: stored.Operator, Software: stored.Software,
 		Started: stored.Started, Finished: stored.Finished, Files: stored.Files, Instruments: stored.Instruments,
 		IdealGain: seq.IdealGain, IdealOffset: seq.IdealOffset, FullScale: seq.FullScale, ResponseUnit: seq.recordResponseUnit(),

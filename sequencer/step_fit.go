@@ -155,7 +155,7 @@ func (f *fitStep) Run(_ context.Context, u *Unit) error {
 		}
 		sw.Points = in
 	}
-	a, err := analyse(u.cfg, kept.plan, sw, f.Order, u.Rec.RunID)
+	a, err := analyse(u.cfg, kept.plan, sw, f.Order, u.Rec.RunID, u.Metrology())
 	if err != nil {
 		note := fmt.Sprintf("%s sweep: %v", f.Sweep, err)
 		for _, o := range f.outs {

@@ -25,7 +25,7 @@ var ErrTUR = errors.New("test uncertainty ratio below the limit file's minimum")
 // the results' uncertainties are returned by name. skip_if is not applied: the
 // prediction covers every step a unit may go through.
 func PredictUncertainty(st *Station, seq *Sequence) map[string]limits.Value {
-	rec := &Record{Serial: "predict", RunID: "predict"}
+	rec := &Record{Serial: "predict", RunID: "predict", Metrology: CurrentMetrology}
 	u := newUnit(Config{Station: st, Sequence: seq}, rec, predicting)
 	out := map[string]limits.Value{}
 	if err := runSteps(context.Background(), u); err != nil {

@@ -94,6 +94,12 @@ func (u *Unit) Replaying() bool { return u.mode == replaying }
 // with exactly the ideal transfer and no noise.
 func (u *Unit) Predicting() bool { return u.mode == predicting }
 
+// Metrology is the revision of the measurement rules the unit is computed by:
+// CurrentMetrology for a run on the bench or on paper, the stored record's for a
+// replay (Record.Metrology). A step whose computation changed between revisions
+// asks it, so an old record re-derives as it was certified.
+func (u *Unit) Metrology() int { return u.Rec.Metrology }
+
 // Stored is the record being replayed, nil otherwise.
 func (u *Unit) Stored() *Record { return u.stored }
 

@@ -42,7 +42,14 @@ type Sweep struct {
 	// DOFRandom is n − 1 of each point (any value > 0, +Inf allowed). It
 	// must have the length of X when any URandom is positive; it may be nil
 	// otherwise.
-	DOFRandom       []float64
+	DOFRandom []float64
+	// PooledRandom says the URandom_i come from one pooled standard deviation
+	// s_p (URandom_i = s_p/√n_i) whose degrees of freedom Σ(n_i − 1) every
+	// DOFRandom_i gives: the per-point Type A inputs are then one input with
+	// those degrees of freedom (they are not independent estimates of
+	// variance), and Welch–Satterthwaite counts them once (JCGM 100 G.4.1).
+	// The errors of the means stay independent from point to point.
+	PooledRandom    bool
 	Meter           Spec    // on the output readings
 	MeterResolution float64 // V per count on the range in use; 0 = none
 	Source          Spec    // on the programmed stimulus
@@ -145,7 +152,7 @@ func FitLine(s Sweep) (LineFit, error) {
 	for _, in := range s.pointInputs(uRes) {
 		i := in.point
 		f.Inputs = append(f.Inputs, Input{Name: in.name, Point: i, Kind: in.kind,
-			U: in.u, DOF: in.dof, C: [2]float64{-a0[i], -a1[i]}})
+			U: in.u, DOF: in.dof, Pooled: in.pooled, C: [2]float64{-a0[i], -a1[i]}})
 	}
 	for _, in := range s.sysInputs([3]float64{f.B0, f.B1, 0}) {
 		f.Inputs = append(f.Inputs, Input{Name: in.name, Point: -1, Kind: KindB,
@@ -302,6 +309,7 @@ type errorInput struct {
 	name, kind string
 	point      int
 	u, dof     float64
+	pooled     bool
 	c          [3]float64
 }
 
@@ -313,7 +321,7 @@ func (s Sweep) pointInputs(uRes float64) []errorInput {
 	out := make([]errorInput, 0, 2*n)
 	for i := range n {
 		if ur := s.uRandom(i); ur > 0 {
-			out = append(out, errorInput{name: NameRepeatability, kind: KindA, point: i, u: ur, dof: s.DOFRandom[i]})
+			out = append(out, errorInput{name: NameRepeatability, kind: KindA, point: i, u: ur, dof: s.DOFRandom[i], pooled: s.PooledRandom})
 		}
 	}
 	if uRes > 0 {

@@ -18,7 +18,9 @@ type QuadInput struct {
 	Kind  string // KindA or KindB
 	U     float64
 	DOF   float64 // math.Inf(1) = infinite
-	C     [3]float64
+	// Pooled: as Input.Pooled (one pooled standard deviation behind every point).
+	Pooled bool
+	C      [3]float64
 }
 
 // QuadFit is the quadratic y = B[0] + B[1]·(x − X0) + B[2]·(x − X0)² fitted
@@ -107,7 +109,7 @@ func FitQuadratic(s Sweep) (QuadFit, error) {
 		for k := range 3 {
 			c[k] = -(r.Cov[k][0] + r.Cov[k][1]*t + r.Cov[k][2]*t*t) * w
 		}
-		f.Inputs = append(f.Inputs, QuadInput{Name: in.name, Point: i, Kind: in.kind, U: in.u, DOF: in.dof, C: c})
+		f.Inputs = append(f.Inputs, QuadInput{Name: in.name, Point: i, Kind: in.kind, U: in.u, DOF: in.dof, Pooled: in.pooled, C: c})
 	}
 	for _, in := range sys {
 		f.Inputs = append(f.Inputs, QuadInput{Name: in.name, Point: -1, Kind: in.kind, U: in.u, DOF: in.dof, C: in.c})
@@ -153,7 +155,7 @@ func (f QuadFit) LinearBudget(g [3]float64) []Component {
 	rows := []string{NameRepeatability, NameResolution, NameMeterGain, NameMeterOffset, NameSourceGain, NameSourceOffset}
 	return rowBudget(rows, len(f.Inputs), func(i int) (Input, float64) {
 		in := f.Inputs[i]
-		return Input{Name: in.Name, Kind: in.Kind, DOF: in.DOF}, (g[0]*in.C[0] + g[1]*in.C[1] + g[2]*in.C[2]) * in.U
+		return Input{Name: in.Name, Kind: in.Kind, DOF: in.DOF, Pooled: in.Pooled}, (g[0]*in.C[0] + g[1]*in.C[1] + g[2]*in.C[2]) * in.U
 	})
 }
 
