@@ -53,6 +53,21 @@ type Sweep struct {
 	Meter           Spec    // on the output readings
 	MeterResolution float64 // V per count on the range in use; 0 = none
 	Source          Spec    // on the programmed stimulus
+	// SourceZero, when not nil, replaces the source's offset spec
+	// (Source.OfRange·Source.Range, rectangular) by a measured offset: a zero
+	// check found the stimulus the station delivers at a programmed 0 (the
+	// source's offset and the thermal EMFs of the wiring), the caller has
+	// already applied that estimate to X, and what remains is the estimate's
+	// own uncertainty. The input keeps the name NameSourceOffset.
+	SourceZero *Measured
+}
+
+// Measured is an input known from a measurement rather than a specification:
+// standard uncertainty U (in the input's unit) with DOF degrees of freedom
+// (math.Inf(1) = infinite), Type A, normally distributed (a scaled and shifted
+// t for finite DOF in a Monte Carlo draw, JCGM 101 §6.4.9).
+type Measured struct {
+	U, DOF float64
 }
 
 // Input is one input quantity of a fit's uncertainty model with its
@@ -155,8 +170,8 @@ func FitLine(s Sweep) (LineFit, error) {
 			U: in.u, DOF: in.dof, Pooled: in.pooled, C: [2]float64{-a0[i], -a1[i]}})
 	}
 	for _, in := range s.sysInputs([3]float64{f.B0, f.B1, 0}) {
-		f.Inputs = append(f.Inputs, Input{Name: in.name, Point: -1, Kind: KindB,
-			U: in.u, DOF: math.Inf(1), C: [2]float64{in.c[0], in.c[1]}})
+		f.Inputs = append(f.Inputs, Input{Name: in.name, Point: -1, Kind: in.kind,
+			U: in.u, DOF: in.dof, C: [2]float64{in.c[0], in.c[1]}})
 		for j := range 2 {
 			for k := range 2 {
 				f.CovSys[j][k] += in.c[j] * in.c[k] * in.u * in.u
@@ -267,6 +282,14 @@ func (s Sweep) validate(fn string) error {
 	if math.IsNaN(s.X0) || math.IsInf(s.X0, 0) {
 		return bad("X0 is %v", s.X0)
 	}
+	if z := s.SourceZero; z != nil {
+		if err := finiteNonNeg("SourceZero.U", z.U); err != nil {
+			return err
+		}
+		if !(z.DOF > 0) {
+			return bad("SourceZero.DOF is %v; it must be > 0", z.DOF)
+		}
+	}
 	return nil
 }
 
@@ -356,6 +379,9 @@ func (s Sweep) sysInputs(b [3]float64) [4]errorInput {
 	}
 	for i := range in {
 		in[i].kind, in[i].point, in[i].dof = KindB, -1, math.Inf(1)
+	}
+	if z := s.SourceZero; z != nil {
+		in[3].u, in[3].dof, in[3].kind = z.U, z.DOF, KindA
 	}
 	return in
 }

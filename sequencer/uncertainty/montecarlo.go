@@ -97,6 +97,13 @@ func MonteCarloCoverage(s Sweep, trials int, seed uint64, p float64) (MCResult, 
 	v0, v1 := make([]float64, trials), make([]float64, trials)
 	for t := range trials {
 		egm, eom, egs, eos := rect(aGm), rect(aOm), rect(aGs), rect(aOs)
+		if z := s.SourceZero; z != nil { // measured: t or normal about the applied estimate
+			if math.IsInf(z.DOF, 1) {
+				eos = z.U * rng.NormFloat64()
+			} else {
+				eos = z.U * studentT(rng, z.DOF)
+			}
+		}
 		for i := range n {
 			e := 0.0
 			if ur := s.uRandom(i); ur > 0 {

@@ -63,3 +63,24 @@ func TestPooledRandomIsOneInput(t *testing.T) {
 		t.Errorf("split ν/N gives ν_eff(b1) = %g, pooled %g: expected the split to be lower with unequal weights", g.DOFB1, f.DOFB1)
 	}
 }
+
+// A measured source offset (a zero check) replaces the rectangular spec term:
+// the source-offset row carries the measured u through the sensitivity −b1 and
+// the measurement's degrees of freedom (JCGM 100 §5.1.3, G.2b).
+func TestSourceZeroReplacesOffsetSpec(t *testing.T) {
+	s := Sweep{X: []float64{-1, 0, 1}, Y: []float64{-2, 0, 2},
+		Source: Spec{OfReading: 20e-6, OfRange: 5e-6, Range: 0.1}, SourceZero: &Measured{U: 1e-7, DOF: 15}}
+	f, err := FitLine(s)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, c := range f.Budget {
+		if c.Name == NameSourceOffset {
+			if want := 2 * 1e-7; math.Abs(c.U-want) > 1e-18 || c.DOF != 15 || c.Kind != KindA {
+				t.Errorf("source offset row %+v, want U %g (|b1|·u), DOF 15, Type A", c, want)
+			}
+			return
+		}
+	}
+	t.Fatal("no source offset row")
+}
