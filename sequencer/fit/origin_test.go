@@ -199,3 +199,13 @@ func TestOriginErrors(t *testing.T) {
 		t.Errorf("all y zero: %+v, %v", r, err)
 	}
 }
+
+// Finite data whose fit through the origin overflows is refused, as for Poly
+// (source: the ErrNotFinite contract in the doc of fit.Origin).
+func TestOriginNotFiniteRefused(t *testing.T) {
+	big := 1e308
+	r, err := fit.Origin([]float64{1, 2, 3, 4}, []float64{big, -big, big, -big})
+	if !errors.Is(err, fit.ErrNotFinite) {
+		t.Errorf("alternating 1e308: %+v, %v; want ErrNotFinite", r, err)
+	}
+}
