@@ -115,10 +115,9 @@ tests the scatter there), no F test is made and the output says why.`,
 			return e.Encode(out)
 		}
 		w := e.stdout
-		switch {
-		case r.ThroughOrigin:
+		if r.ThroughOrigin {
 			fmt.Fprint(w, "model: y = b1·x (through the origin)")
-		default:
+		} else {
 			fmt.Fprintf(w, "model: y = b0 + b1·(x − %g)", r.X0)
 			if r.Order == 2 {
 				fmt.Fprintf(w, " + b2·(x − %g)²", r.X0)
