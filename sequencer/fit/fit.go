@@ -8,7 +8,8 @@
 // and y: b0 is in units of y, b1 in y per x, b2 in y per x². Choosing x0
 // near the middle of the data keeps the problem well conditioned and makes
 // b0 and b1 nearly uncorrelated; x0 = 0 gives the plain textbook
-// coefficients.
+// coefficients. Origin and WeightedOrigin fit the line through the origin,
+// y = b1·x, which has no constant term.
 //
 // The fits are solved by Householder QR factorisation of the (row-weighted)
 // design matrix, never by forming the normal equations, so the condition
@@ -51,13 +52,18 @@ var ErrInvalidInput = errors.New("invalid input")
 // returned.
 var ErrNotFinite = errors.New("result not finite")
 
-// Result is a polynomial least-squares fit y = b0 + b1·(x−x0) [+ b2·(x−x0)²].
-// Units are those of x and y: Coef[k] is in units of y per unit of x to the
-// power k, Cov[i][j] in the product of the units of Coef[i] and Coef[j].
+// Result is a polynomial least-squares fit y = b0 + b1·(x−x0) [+ b2·(x−x0)²],
+// or with ThroughOrigin the line y = b1·x. Units are those of x and y:
+// Coef[k] is in units of y per unit of x to the power k (for ThroughOrigin,
+// Coef[0] is b1, in y per x), Cov[i][j] in the product of the units of
+// Coef[i] and Coef[j].
 type Result struct {
-	Order int       // 1 = straight line, 2 = quadratic
-	X0    float64   // centring point used in the model, units of x
-	Coef  []float64 // b0, b1[, b2]
+	Order int     // 1 = straight line, 2 = quadratic
+	X0    float64 // centring point used in the model, units of x; 0 for ThroughOrigin
+	// ThroughOrigin marks the model y = b1·x (Origin, WeightedOrigin): no
+	// constant term, Coef, StdUnc and Cov hold b1 alone, Order is 1.
+	ThroughOrigin bool
+	Coef          []float64 // b0, b1[, b2]; b1 alone for ThroughOrigin
 	// Cov is the covariance of the coefficients: s²·(XᵀWX)⁻¹ for Poly and
 	// for Weighted with absolute=false, where s² = RSS/DOF; (XᵀWX)⁻¹ with
 	// W = diag(1/u²) for Weighted with absolute=true.
@@ -72,10 +78,16 @@ type Result struct {
 	// Weighted. It is NaN when DOF is 0 (only possible for Weighted with
 	// absolute=true).
 	ResidualSD float64
-	DOF        int // degrees of freedom, N − (Order+1)
+	DOF        int // degrees of freedom, N − len(Coef)
 	// RSquared is the coefficient of determination 1 − RSS/TSS, where TSS
 	// is the (weighted, for Weighted) total sum of squares of y about its
 	// (weighted) mean. It is NaN when all y are equal (TSS = 0).
+	//
+	// For ThroughOrigin it is the uncentred R² = 1 − RSS/Σy² (weighted:
+	// Σw·y²), the one NIST StRD certifies for its no-intercept datasets
+	// NoInt1 and NoInt2: a model without a constant term is compared with
+	// y = 0, not with y = ȳ. It is NaN when all y are 0, and it is not
+	// comparable with the centred R² of a model with an intercept.
 	RSquared float64
 	N        int // number of points fitted
 }
@@ -95,7 +107,35 @@ type Result struct {
 // polynomial (e.g. all x equal). The inputs are not modified. Poly is safe
 // for concurrent use.
 func Poly(x, y []float64, order int, x0 float64) (Result, error) {
-	return solve("fit.Poly", x, y, nil, order, x0, false)
+	return solve("fit.Poly", x, y, nil, order, x0, false, false)
+}
+
+// Origin fits the line through the origin y = b1·x to the points (x[i],
+// y[i]) by ordinary least squares: b1 = Σxy/Σx², computed by the same QR
+// solver as Poly. The Result has ThroughOrigin set, one coefficient (b1 in
+// Coef[0]), DOF = N − 1, covariance s²/Σx² with s² = RSS/DOF, and the
+// uncentred R² (see Result.RSquared) that NIST StRD certifies for NoInt1
+// and NoInt2.
+//
+// Errors: ErrInvalidInput (wrapped) if len(x) ≠ len(y) or a value is NaN or
+// ±Inf; ErrTooFewPoints if len(x) < 2; ErrSingular if every x is 0;
+// ErrNotFinite if the fit overflows. The inputs are not modified. Origin is
+// safe for concurrent use.
+func Origin(x, y []float64) (Result, error) {
+	return solve("fit.Origin", x, y, nil, 1, 0, false, true)
+}
+
+// WeightedOrigin is Origin by weighted least squares with the standard
+// uncertainties u[i] of y[i], weights 1/u_i², and absolute as for Weighted:
+// the covariance is 1/Σ(x²/u²) with absolute=true, scaled by the reduced
+// chi-square with absolute=false. RSquared is the uncentred weighted
+// 1 − χ²/Σ(y/u)². With absolute=true one point is enough (DOF = 0,
+// ResidualSD NaN); otherwise two. Errors: as for Origin and Weighted.
+func WeightedOrigin(x, y, u []float64, absolute bool) (Result, error) {
+	if u == nil {
+		u = []float64{}
+	}
+	return solve("fit.WeightedOrigin", x, y, u, 1, 0, absolute, true)
 }
 
 // Weighted fits the same model as Poly by weighted least squares, with the
@@ -118,15 +158,22 @@ func Weighted(x, y, u []float64, order int, x0 float64, absolute bool) (Result, 
 		// Distinguish "forgot u" from Poly: a nil u is a length mismatch.
 		u = []float64{}
 	}
-	return solve("fit.Weighted", x, y, u, order, x0, absolute)
+	return solve("fit.Weighted", x, y, u, order, x0, absolute, false)
 }
 
 // solve validates the input and runs the QR fit. u == nil means unweighted.
-func solve(fn string, x, y, u []float64, order int, x0 float64, absolute bool) (Result, error) {
+// origin drops the constant term: the one column of the design matrix is
+// x − x0 (x0 is 0 then) and y is fitted as it is, not about its mean.
+func solve(fn string, x, y, u []float64, order int, x0 float64, absolute, origin bool) (Result, error) {
 	if order != 1 && order != 2 {
 		return Result{}, fmt.Errorf("%s: %w: order must be 1 or 2, got %d", fn, ErrInvalidInput, order)
 	}
-	n, p := len(x), order+1
+	// pow[k] is the power of (x − x0) in column k of the design matrix.
+	pow := []int{0, 1, 2}[:order+1]
+	if origin {
+		pow = []int{1}
+	}
+	n, p := len(x), len(pow)
 	if len(y) != n {
 		return Result{}, fmt.Errorf("%s: %w: len(x) = %d but len(y) = %d", fn, ErrInvalidInput, n, len(y))
 	}
@@ -138,7 +185,11 @@ func solve(fn string, x, y, u []float64, order int, x0 float64, absolute bool) (
 		minN = p
 	}
 	if n < minN {
-		return Result{}, fmt.Errorf("%s: %w: order %d needs at least %d points, got %d", fn, ErrTooFewPoints, order, minN, n)
+		model := fmt.Sprintf("order %d", order)
+		if origin {
+			model = "a line through the origin"
+		}
+		return Result{}, fmt.Errorf("%s: %w: %s needs at least %d points, got %d", fn, ErrTooFewPoints, model, minN, n)
 	}
 	if !isFinite(x0) {
 		return Result{}, fmt.Errorf("%s: %w: x0 is %v", fn, ErrInvalidInput, x0)
@@ -178,12 +229,17 @@ func solve(fn string, x, y, u []float64, order int, x0 float64, absolute bool) (
 		swy += w2 * y[i]
 	}
 	ybar := swy / sw
+	if origin {
+		// No constant term: y is fitted as it is and R² is uncentred.
+		ybar = 0
+	}
 
 	// Build the row-weighted design matrix, stored by column: a[k*n+i] is
-	// w_i·(x_i−x0)^k, and the right-hand side b[i] = w_i·(y_i − ȳ), w_i =
-	// 1/u_i. Fitting y − ȳ (and adding ȳ to b0 afterwards, which is exact
-	// in the model because it contains a constant term) keeps the rounding
-	// in Qᵀb proportional to the spread of y rather than to its offset.
+	// w_i·(x_i−x0)^pow[k], and the right-hand side b[i] = w_i·(y_i − ȳ),
+	// w_i = 1/u_i. Fitting y − ȳ (and adding ȳ to b0 afterwards, which is
+	// exact in the model because it contains a constant term) keeps the
+	// rounding in Qᵀb proportional to the spread of y rather than to its
+	// offset. Through the origin there is no constant term and ȳ is 0.
 	work := make([]float64, (p+1)*n)
 	a, b := work[:p*n], work[p*n:]
 	for i := range n {
@@ -192,10 +248,8 @@ func solve(fn string, x, y, u []float64, order int, x0 float64, absolute bool) (
 			w = 1 / u[i]
 		}
 		t := x[i] - x0
-		a[i] = w
-		a[n+i] = w * t
-		if p == 3 {
-			a[2*n+i] = w * t * t
+		for k, e := range pow {
+			a[k*n+i] = w * [3]float64{1, t, t * t}[e]
 		}
 		b[i] = w * (y[i] - ybar)
 	}
@@ -246,6 +300,9 @@ func solve(fn string, x, y, u []float64, order int, x0 float64, absolute bool) (
 		// A diagonal this small relative to the column norm means column k
 		// is a combination of the earlier ones to working precision.
 		if !(math.Abs(rkk) > float64(n)*eps*colNorm) {
+			if origin {
+				return Result{}, fmt.Errorf("%s: %w: every x is 0, so no line through the origin is determined", fn, ErrSingular)
+			}
 			return Result{}, fmt.Errorf("%s: %w: the x values do not determine an order-%d polynomial (column %d is dependent to working precision; are there at least %d distinct x?)", fn, ErrSingular, order, k, p)
 		}
 		r[k][k] = rkk
@@ -263,7 +320,9 @@ func solve(fn string, x, y, u []float64, order int, x0 float64, absolute bool) (
 		}
 		coef[k] = s / r[k][k]
 	}
-	coef[0] += ybar
+	if !origin {
+		coef[0] += ybar
+	}
 
 	// Rinv = R⁻¹ (upper triangular), then (XᵀWX)⁻¹ = R⁻¹R⁻ᵀ.
 	var ri [3][3]float64
@@ -278,7 +337,7 @@ func solve(fn string, x, y, u []float64, order int, x0 float64, absolute bool) (
 		}
 	}
 
-	res := Result{Order: order, X0: x0, Coef: coef, N: n, DOF: n - p}
+	res := Result{Order: order, X0: x0, ThroughOrigin: origin, Coef: coef, N: n, DOF: n - p}
 	out := make([]float64, n+p*p+p)
 	res.Residuals = out[:n:n]
 	covBack := out[n : n+p*p : n+p*p]
@@ -371,10 +430,17 @@ func (r Result) checkFinite() error {
 	return nil
 }
 
-// Predict returns the fitted value ŷ(x) = Σ Coef[k]·(x−X0)^k, in units of y,
-// for x in units of x. Predict on the zero Result returns 0.
+// Predict returns the fitted value ŷ(x) = Σ Coef[k]·(x−X0)^k, or Coef[0]·x
+// for ThroughOrigin, in units of y, for x in units of x. Predict on the zero
+// Result returns 0.
 func (r Result) Predict(x float64) float64 {
 	t := x - r.X0
+	if r.ThroughOrigin {
+		if len(r.Coef) == 0 {
+			return 0
+		}
+		return r.Coef[0] * t
+	}
 	y := 0.0
 	for k := len(r.Coef) - 1; k >= 0; k-- {
 		y = y*t + r.Coef[k]
@@ -384,14 +450,18 @@ func (r Result) Predict(x float64) float64 {
 
 // PredictU returns the fitted value y = ŷ(x) and its standard uncertainty u
 // (both in units of y) at x, propagated from the coefficient covariance as
-// u² = gᵀ·Cov·g with gradient g = (1, x−X0[, (x−X0)²]). Correlations between
-// the coefficients are included. The uncertainty is that of the fitted
-// curve, not of a new single observation.
+// u² = gᵀ·Cov·g with gradient g = (1, x−X0[, (x−X0)²]), or g = (x) for
+// ThroughOrigin. Correlations between the coefficients are included. The
+// uncertainty is that of the fitted curve, not of a new single observation.
 func (r Result) PredictU(x float64) (y, u float64) {
 	t := x - r.X0
 	var g [3]float64
 	p := min(len(r.Coef), len(r.Cov), len(g))
-	for k, gk := 0, 1.0; k < p; k, gk = k+1, gk*t {
+	gk := 1.0
+	if r.ThroughOrigin {
+		gk = t
+	}
+	for k := 0; k < p; k, gk = k+1, gk*t {
 		g[k] = gk
 	}
 	v := 0.0

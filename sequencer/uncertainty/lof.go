@@ -38,6 +38,10 @@ type LOF struct {
 	P float64
 	// Levels is the number of distinct stimulus values x.
 	Levels int
+	// SSLOF and SSPE are, for LOFF, the lack-of-fit and pure-error sums of
+	// squares Σ(ȳ_g − ŷ_i)² and Σ(y_i − ȳ_g)² (units of y squared), whose
+	// mean squares make Statistic; both 0 for LOFChi2.
+	SSLOF, SSPE float64
 }
 
 // LackOfFit tests whether a fitted curve with params coefficients (2 for a
@@ -110,6 +114,7 @@ func LackOfFit(x, y, u, fitted []float64, params int) (LOF, error) {
 		}
 		if ssPE > 0 {
 			out.Method, out.DOF1, out.DOF2 = LOFF, dof1, dof2
+			out.SSLOF, out.SSPE = ssLOF, ssPE
 			out.Statistic = (ssLOF / float64(dof1)) / (ssPE / float64(dof2))
 			if math.IsInf(out.Statistic, 0) {
 				return LOF{}, bad("F overflows (pure error %g against lack of fit %g)", ssPE, ssLOF)

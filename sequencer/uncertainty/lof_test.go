@@ -88,6 +88,8 @@ func TestLackOfFitLoadCellQuadratic(t *testing.T) {
 		t.Errorf("got %+v; want method F with dof 17, 20", lof)
 	}
 	checkRel(t, "F", lof.Statistic, want, 1e-6)
+	checkRel(t, "SS_PE", lof.SSPE, ssPE, 1e-6)                   // source: hand-worked pair identity above
+	checkRel(t, "SS_LOF", lof.SSLOF, rss-ssPE, 1e-6)             // source: e-Handbook §4.4.4, SS_resid = SS_LOF + SS_PE
 	checkRel(t, "P", lof.P, fUpper(lof.Statistic, 17, 20), 1e-9) // cross-check: gonum mathext.RegIncBeta
 	if !(lof.P > 0.05) {
 		t.Errorf("P = %g; the quadratic should pass at 0.05 (e-Handbook §4.6.1)", lof.P)
