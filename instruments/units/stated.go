@@ -226,3 +226,20 @@ func FormatProbability(p float64) string {
 	}
 	return s + " %"
 }
+
+// FormatDOF writes effective degrees of freedom as "νeff = 336": a fractional
+// Welch–Satterthwaite νeff is truncated to the next lower integer (JCGM
+// 100:2008 G.4.1, as for a table of t-factors); from 1000 on the coverage
+// factor no longer depends on it and it is "νeff ≥ 1000"; infinite is "νeff =
+// ∞"; unknown (≤ 0, NaN) is "".
+func FormatDOF(dof float64) string {
+	switch {
+	case math.IsInf(dof, 1):
+		return "νeff = ∞"
+	case math.IsNaN(dof) || dof <= 0:
+		return ""
+	case dof >= 1000:
+		return "νeff ≥ 1000"
+	}
+	return "νeff = " + strconv.FormatFloat(math.Floor(dof), 'f', 0, 64)
+}
