@@ -429,10 +429,10 @@ func (d *Decision) AcceptText(upper bool) string {
 	switch {
 	case al == nil:
 		return ""
-	case !(d.U > 0) || d.Guard == 0:
+	case !(d.U > 0) || tl == nil:
 		return fmtNum(*al)
 	}
-	return units.FormatLimit(*al, *tl, d.Guard, d.U, upper)
+	return units.FormatLimit(*al, *tl, math.Abs(*tl-*al), d.U, upper)
 }
 
 // TURText is the test uncertainty ratio "3.88:1" (units.FormatTUR: three
