@@ -213,7 +213,7 @@ func (d *doc) results() {
 // §5.3 with U95 obtained from the stated U, and the PFA.
 const resultsNote = "U: expanded uncertainty, k: coverage factor, νeff: effective degrees of freedom (truncated, JCGM 100:2008 G.4.1). " +
 	"U is stated with two significant digits, rounded up (JCGM 100:2008 §7.2.6), and the value to the same decimal place; " +
-	"the guard band w = r·U and the acceptance limits = tolerance limits ∓ w are computed from the stated U (ILAC-G8:09/2019 §4.1). " +
+	"the guard band w = r·U, and the acceptance limits (the tolerance limits moved inward by w), are computed from the stated U (ILAC-G8:09/2019 §4.1). " +
 	"TUR = (upper − lower tolerance limit) / (2·U95) (ANSI/NCSL Z540.3-2006 §5.3), U95 = U·k95/k the stated U re-expanded to 95 % coverage " +
 	"with k95 the Student-t factor for νeff; three significant digits (“—” when one-sided or without U). " +
 	"PFA: probability that the true value lies outside the tolerance although the result was accepted, from the stated U and νeff."
@@ -243,11 +243,11 @@ func (d *doc) resultsTable() resultsTable {
 	}
 	if decided {
 		cols = []pdfdoc.Column{
-			{Title: "Limit", W: 51, Align: "L"},
+			{Title: "Limit", W: 48, Align: "L"},
 			{Title: "Measured value ± U", W: 36, Align: "R"},
 			{Title: "Tolerance · acceptance", W: 40, Align: "L", Gap: 3},
 			{Title: "Decision", W: 22, Align: "C"},
-			{Title: "TUR", W: 12, Align: "R"},
+			{Title: "TUR", W: 15, Align: "R"}, // "3.71:1 ¹" on one line
 			{Title: "PFA", W: 19, Align: "R"},
 		}
 	}
