@@ -211,12 +211,12 @@ func (d *doc) results() {
 // computed: U as the record states it (JCGM 100:2008 §7.2.6), the acceptance
 // limits from that U (ILAC-G8:09/2019 §4.1), the TUR of ANSI/NCSL Z540.3-2006
 // §5.3 with U95 obtained from the stated U, and the PFA.
-const resultsNote = "U: expanded uncertainty, k: coverage factor, νeff: effective degrees of freedom (truncated, JCGM 100:2008 G.4.1). " +
-	"U is stated with two significant digits, rounded up (JCGM 100:2008 §7.2.6), and the value to the same decimal place; " +
-	"the guard band w = r·U, and the acceptance limits (the tolerance limits moved inward by w), are computed from the stated U (ILAC-G8:09/2019 §4.1). " +
-	"TUR = (upper − lower tolerance limit) / (2·U95) (ANSI/NCSL Z540.3-2006 §5.3), U95 = U·k95/k the stated U re-expanded to 95 % coverage " +
-	"with k95 the Student-t factor for νeff; three significant digits (“—” when one-sided or without U). " +
-	"PFA: probability that the true value lies outside the tolerance although the result was accepted, from the stated U and νeff."
+const resultsNote = "U: expanded uncertainty, two significant digits rounded up (JCGM 100:2008 §7.2.6), the value to its decimal place; " +
+	"k: coverage factor; νeff: effective degrees of freedom, truncated (JCGM 100:2008 G.4.1). " +
+	"Acceptance limits: the tolerance limits moved inward by w = r·U, from the stated U (ILAC-G8:09/2019 §4.1). " +
+	"TUR = (upper − lower tolerance limit) / (2·U95), U95 = U·k95/k with k95 the Student-t factor for 95 % at νeff " +
+	"(ANSI/NCSL Z540.3-2006 §5.3), three significant digits; “—” when one-sided or without U. " +
+	"PFA: probability that the true value lies outside the tolerance although the result was accepted (u = U/k)."
 
 // resultsTable is the results table and what its notes must explain: whether a
 // limit is toleranced (decided), a TUR is low, a limit is an expression.
