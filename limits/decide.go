@@ -231,11 +231,13 @@ func section(d *Decision) string {
 }
 
 // statement says, in words, the decision rule, where the result lies and the
-// verdict, the probability of being outside the tolerance, and the TUR.
+// verdict, the probability of being outside the tolerance, and the TUR. Every
+// number in it is written by the Decision's own text methods (ValueText, UText,
+// AcceptText, TURText, PFAText), which the certificate's table uses too: one
+// quantity, one number.
 func (l *Limit) statement(d *Decision, un unc, pol Policy, v string) string {
 	u := dispUnit(l.Unit)
-	q := func(x float64) string { return strings.TrimSpace(fmtNum(x) + " " + u) }
-	qu := func(x float64) string { return strings.TrimSpace(fmtSig(x, 3) + " " + u) }
+	with := func(s string) string { return strings.TrimSpace(s + " " + u) }
 	var b strings.Builder
 	switch {
 	case !un.evaluated:
@@ -243,16 +245,16 @@ func (l *Limit) statement(d *Decision, un unc, pol Policy, v string) string {
 		if l.Tolerance.Rule == RuleGuarded {
 			b.WriteString(" instead of the guarded rule")
 		}
-		fmt.Fprintf(&b, ": measured %s", q(d.Value))
+		fmt.Fprintf(&b, ": measured %s", with(l.valueText(d)))
 	case d.Rule == RuleSimple:
 		fmt.Fprintf(&b, "Simple acceptance, w = 0 (ILAC-G8:09/2019 §4.2.1): measured %s with U = %s (k = %.2f%s)",
-			q(d.Value), qu(d.U), d.K, dofText(float64(d.DOF)))
+			with(l.valueText(d)), with(d.UText()), d.K, dofText(float64(d.DOF)))
 	default:
 		fmt.Fprintf(&b, "Guarded acceptance, w = %s·U = %s (ILAC-G8:09/2019 %s): measured %s with U = %s (k = %.2f%s)",
-			fmtNum(d.GuardFactor), qu(d.Guard), section(d), q(d.Value), qu(d.U), d.K, dofText(float64(d.DOF)))
+			fmtNum(d.GuardFactor), with(d.GuardText()), section(d), with(l.valueText(d)), with(d.UText()), d.K, dofText(float64(d.DOF)))
 	}
 	b.WriteString(" lies ")
-	b.WriteString(l.where(d, q))
+	b.WriteString(l.where(d))
 	b.WriteString(": ")
 	b.WriteString(d.Zone)
 	switch {
@@ -267,7 +269,7 @@ func (l *Limit) statement(d *Decision, un unc, pol Policy, v string) string {
 	}
 	b.WriteString(".")
 	if un.evaluated {
-		fmt.Fprintf(&b, " Probability the true value is outside the tolerance: %s.", fmtPct(d.POutside))
+		fmt.Fprintf(&b, " Probability the true value is outside the tolerance: %s.", d.PFAText())
 	}
 	switch {
 	case d.Lower == nil || d.Upper == nil:
@@ -275,7 +277,7 @@ func (l *Limit) statement(d *Decision, un unc, pol Policy, v string) string {
 	case !un.evaluated:
 		b.WriteString(" TUR not known.")
 	default:
-		fmt.Fprintf(&b, " TUR %s:1 (ANSI/NCSL Z540.3-2006 §5.3, U95 = %s)", fmtRatio(d.TUR), qu(un.u*un.k95))
+		fmt.Fprintf(&b, " TUR %s (ANSI/NCSL Z540.3-2006 §5.3, U95 = %s)", d.TURText(), with(fmtSig(un.u*un.k95, 3)))
 		if d.TURLow {
 			fmt.Fprintf(&b, ", below the minimum %s:1", fmtNum(pol.MinTUR))
 			if pol.TURPolicy == TURRefuse {
@@ -287,23 +289,29 @@ func (l *Limit) statement(d *Decision, un unc, pol Policy, v string) string {
 	return b.String()
 }
 
+// dofText is the effective degrees of freedom as the certificate's table writes
+// them (units.FormatDOF), or nothing when infinite.
 func dofText(dof float64) string {
-	if math.IsInf(dof, 1) {
-		return ""
+	if s := units.FormatDOF(dof); s != "" && !math.IsInf(dof, 1) {
+		return ", " + s
 	}
-	return ", ν = " + fmtNum(dof)
+	return ""
 }
 
-// where says where x lies relative to the acceptance interval and the tolerance.
-func (l *Limit) where(d *Decision, q func(float64) string) string {
-	interval := func(lo, hi *float64, what string) string {
+// where says where the decision's value lies relative to the acceptance
+// interval and the tolerance.
+func (l *Limit) where(d *Decision) string {
+	u := dispUnit(l.Unit)
+	with := func(s string) string { return strings.TrimSpace(s + " " + u) }
+	tolNum := func(v float64, _ bool) string { return fmtNum(v) }
+	interval := func(lo, hi *float64, what string, num func(float64, bool) string) string {
 		switch {
 		case lo != nil && hi != nil:
-			return fmt.Sprintf("the %s interval %s … %s", what, fmtNum(*lo), q(*hi))
+			return fmt.Sprintf("the %s interval %s … %s", what, num(*lo, false), with(num(*hi, true)))
 		case lo != nil:
-			return fmt.Sprintf("the lower %s limit %s", what, q(*lo))
+			return fmt.Sprintf("the lower %s limit %s", what, with(num(*lo, false)))
 		}
-		return fmt.Sprintf("the upper %s limit %s", what, q(*hi))
+		return fmt.Sprintf("the upper %s limit %s", what, with(num(*hi, true)))
 	}
 	side := func(lo, hi *float64) string {
 		if lo != nil && hi != nil {
@@ -314,8 +322,8 @@ func (l *Limit) where(d *Decision, q func(float64) string) string {
 		}
 		return "at or below"
 	}
-	tol := interval(d.Lower, d.Upper, "tolerance")
-	acc := interval(d.AcceptLower, d.AcceptUpper, "acceptance")
+	tol := interval(d.Lower, d.Upper, "tolerance", tolNum)
+	acc := interval(d.AcceptLower, d.AcceptUpper, "acceptance", func(_ float64, upper bool) string { return d.AcceptText(upper) })
 	empty := d.AcceptLower != nil && d.AcceptUpper != nil && *d.AcceptLower > *d.AcceptUpper
 	switch d.Zone {
 	case ZonePass:
@@ -326,23 +334,22 @@ func (l *Limit) where(d *Decision, q func(float64) string) string {
 	case ZoneConditionalPass:
 		if empty {
 			return fmt.Sprintf("%s %s, but the acceptance interval is empty (2w = %s exceeds the tolerance width)",
-				side(d.Lower, d.Upper), tol, fmtSig(2*d.Guard, 3)+" "+dispUnit(l.Unit))
+				side(d.Lower, d.Upper), tol, with(d.guardText(2*d.Guard)))
 		}
 		return fmt.Sprintf("%s %s but outside %s", side(d.Lower, d.Upper), tol, acc)
 	case ZoneConditionalFail:
-		return fmt.Sprintf("outside %s by no more than w = %s", tol, strings.TrimSpace(fmtSig(d.Guard, 3)+" "+dispUnit(l.Unit)))
+		return fmt.Sprintf("outside %s by no more than w = %s", tol, with(d.GuardText()))
 	}
 	if d.Guard == 0 {
 		return "outside " + tol
 	}
-	return fmt.Sprintf("outside %s by more than w = %s", tol, strings.TrimSpace(fmtSig(d.Guard, 3)+" "+dispUnit(l.Unit)))
+	return fmt.Sprintf("outside %s by more than w = %s", tol, with(d.GuardText()))
 }
 
 // reason says why a toleranced limit did not pass.
 func (l *Limit) reason(d *Decision, pol Policy, v string) string {
-	u := dispUnit(l.Unit)
-	q := func(x float64) string { return strings.TrimSpace(fmtNum(x) + " " + u) }
-	r := fmt.Sprintf("%s = %s lies %s", d.Result, q(d.Value), l.where(d, q))
+	q := strings.TrimSpace(l.valueText(d) + " " + dispUnit(l.Unit))
+	r := fmt.Sprintf("%s = %s lies %s", d.Result, q, l.where(d))
 	switch {
 	case d.Zone == ZoneFail:
 		r += ": fail"
@@ -353,11 +360,89 @@ func (l *Limit) reason(d *Decision, pol Policy, v string) string {
 	case d.Zone == ZoneConditionalFail:
 		r += fmt.Sprintf(": conditional fail, so %s (conditional_fail: %s)", v, pol.ConditionalFail)
 	default: // a pass held back by a low TUR
-		r = fmt.Sprintf("%s = %s passes, but the TUR %s:1 is below the minimum %s:1 and tur_policy is refuse: review",
-			d.Result, q(d.Value), fmtRatio(d.TUR), fmtNum(pol.MinTUR))
+		r = fmt.Sprintf("%s = %s passes, but the TUR %s is below the minimum %s:1 and tur_policy is refuse: review",
+			d.Result, q, d.TURText(), fmtNum(pol.MinTUR))
 	}
 	return r
 }
+
+// The numbers of a decision as every document writes them. The statement and
+// the reason above, the certificate's results table and the terminal all call
+// these, so that a quantity has one number wherever it appears. The rule is
+// JCGM 100:2008 §7.2.6: U with two significant digits, rounded up (a stated U,
+// metrology revision 1 on, already is), the value to the same decimal place.
+
+// ValueText is the measured value to the decimal place of its stated U
+// (units.FormatValue), with the digits it takes to show on which side of each
+// tolerance and acceptance limit it lies; without an uncertainty, up to six
+// significant digits.
+func (d *Decision) ValueText() string {
+	var bounds []float64
+	for _, p := range []*float64{d.Lower, d.Upper, d.AcceptLower, d.AcceptUpper} {
+		if p != nil {
+			bounds = append(bounds, *p)
+		}
+	}
+	return units.FormatValue(d.Value, d.U, bounds...)
+}
+
+// valueText is d.ValueText, but a whole number of codes in a limit on codes
+// (the certificate writes codes as whole numbers too).
+func (l *Limit) valueText(d *Decision) string {
+	switch strings.TrimSpace(l.Unit) {
+	case "code", "codes", "LSB":
+		if d.Value == math.Round(d.Value) {
+			return fmtNum(d.Value)
+		}
+	}
+	return d.ValueText()
+}
+
+// UText is the expanded uncertainty as stated: two significant digits, rounded
+// up (units.FormatU); "" when not evaluated.
+func (d *Decision) UText() string {
+	if !(d.U > 0) {
+		return ""
+	}
+	return units.FormatU(d.U)
+}
+
+// GuardText is the guard band w = r·U: computed from a stated U it is a short
+// decimal and is written in full.
+func (d *Decision) GuardText() string { return d.guardText(d.Guard) }
+
+func (d *Decision) guardText(w float64) string {
+	if units.IsStated(d.U) {
+		return fmtSig(w, 9)
+	}
+	return fmtSig(w, 3)
+}
+
+// AcceptText is the upper (or lower) acceptance limit AL = TL ∓ w
+// (units.FormatLimit): in full when computed from a stated U, else rounded
+// inward one decimal finer than U. "" when that side is open.
+func (d *Decision) AcceptText(upper bool) string {
+	al, tl := d.AcceptLower, d.Lower
+	if upper {
+		al, tl = d.AcceptUpper, d.Upper
+	}
+	switch {
+	case al == nil:
+		return ""
+	case !(d.U > 0) || tl == nil:
+		return fmtNum(*al)
+	}
+	return units.FormatLimit(*al, *tl, math.Abs(*tl-*al), d.U, upper)
+}
+
+// TURText is the test uncertainty ratio "3.88:1" (units.FormatTUR: three
+// significant digits, a TUR below the minimum rounded down), or "—" when it
+// is not defined.
+func (d *Decision) TURText() string { return units.FormatTUR(d.TUR, d.TURLow) }
+
+// PFAText is the probability that the true value lies outside the tolerance
+// (units.FormatProbability: two significant digits, "< 0.0001 %" below).
+func (d *Decision) PFAText() string { return units.FormatProbability(d.POutside) }
 
 // dispUnit writes the micro prefix as µ for statements ("uV" → "µV").
 func dispUnit(u string) string { return units.Display(u) }
@@ -368,6 +453,3 @@ func fmtNum(v float64) string { return units.FormatSig(v, 6) }
 
 // fmtSig writes v with up to sig significant digits (trailing zeros dropped).
 func fmtSig(v float64, sig int) string { return units.FormatSig(v, sig) }
-
-// fmtPct writes a probability as a percentage with three significant digits.
-func fmtPct(p float64) string { return units.FormatPercent(p) }

@@ -151,15 +151,15 @@ func TestDecisionNumbers(t *testing.T) {
 		statementParts []string
 	}{
 		{"offset two-sided", limits.RuleGuarded, 8, -42.0, 42.0, -50.0, 50.0, false, "hand-worked: w = 1·8, AL = ±(50 − 8)",
-			[]string{"Guarded acceptance, w = 1·U = 8 µV (ILAC-G8:09/2019 §4.2.3)", "acceptance interval −42 … 42 µV: pass"}},
+			[]string{"Guarded acceptance, w = 1·U = 8 µV (ILAC-G8:09/2019 §4.2.3)", "U = 8.0 µV", "acceptance interval −42.0 … 42.0 µV: pass"}},
 		{"offset two-sided binary", limits.RuleGuarded, 8, -42.0, 42.0, -50.0, 50.0, true, "hand-worked",
 			[]string{"(ILAC-G8:09/2019 §4.2.2)"}},
 		{"offset simple", limits.RuleSimple, 0, -50.0, 50.0, -50.0, 50.0, false, "hand-worked: w = 0, AL = TL",
 			[]string{"Simple acceptance, w = 0 (ILAC-G8:09/2019 §4.2.1)", "within the tolerance interval −50 … 50 µV: pass"}},
 		{"noise upper only", limits.RuleGuarded, 8, nil, 52.0, nil, 60.0, false, "hand-worked: AL = 60 − 8",
-			[]string{"at or below the upper acceptance limit 52 µV: pass", "TUR not defined for a one-sided tolerance."}},
+			[]string{"at or below the upper acceptance limit 52.0 µV: pass", "TUR not defined for a one-sided tolerance."}},
 		{"gain code lower only", limits.RuleGuarded, 8, 108.0, nil, 100.0, nil, false, "hand-worked: w = 2·4, AL = 100 + 8",
-			[]string{"w = 2·U = 8 code", "measured 2048 code with U = 4 code (k = 2.00)"}},
+			[]string{"w = 2·U = 8 code", "measured 2048 code with U = 4.0 code (k = 2.00)"}},
 	}
 	for _, tc := range tests {
 		o := find(t, outs, tc.limit)
@@ -212,8 +212,10 @@ func TestStatement(t *testing.T) {
 	}
 	r["post_offset"] = limits.Value{V: 45e-6, Valid: true, U: 8e-6, K: 2}
 	o := find(t, set.Judge(r), "offset two-sided")
-	wantReason := "post_offset = 45 µV lies within the tolerance interval −50 … 50 µV but outside the acceptance interval " +
-		"−42 … 42 µV: conditional pass, so review (conditional_pass: review)"
+	// JCGM 100:2008 §7.2.6: U = 8 µV has two significant digits as 8.0 µV; the
+	// value and the acceptance limits are written to its decimal place.
+	wantReason := "post_offset = 45.0 µV lies within the tolerance interval −50 … 50 µV but outside the acceptance interval " +
+		"−42.0 … 42.0 µV: conditional pass, so review (conditional_pass: review)"
 	if o.Reason != wantReason {
 		t.Errorf("reason\n  %s\nwant\n  %s", o.Reason, wantReason)
 	}
@@ -243,8 +245,8 @@ func TestFalseAcceptProbability(t *testing.T) {
 	if d.Zone != limits.ZonePass || !within(d.POutside, want, 1e-9) {
 		t.Errorf("one-sided at AL: zone %s POutside %v, want pass %v (1 − Φ(2))", d.Zone, d.POutside, want)
 	}
-	if !strings.Contains(d.Statement, "outside the tolerance: 2.28 %") {
-		t.Errorf("statement %q, want 2.28 %%", d.Statement)
+	if !strings.Contains(d.Statement, "outside the tolerance: 2.3 %") {
+		t.Errorf("statement %q, want 2.3 %% (two significant digits)", d.Statement)
 	}
 	// Two-sided: the far tail adds Φ((−50 − 42)/4) = Φ(−23), nothing in float64 terms.
 	d = judge("offset two-sided", tolResults(42, 0, 2048))

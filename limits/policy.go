@@ -3,8 +3,9 @@ package limits
 import (
 	"fmt"
 	"math"
-	"strconv"
 	"strings"
+
+	"trimline/instruments/units"
 )
 
 // Policy is a limit file's decision section: the file-wide decision rule for its
@@ -218,7 +219,7 @@ func (s *Set) PredictTUR(unc map[string]Value) []TURCheck {
 		}
 		c.TUR = tur(*t.Lower, *t.Upper, un)
 		c.Low = turLow(c.TUR, pol.MinTUR)
-		c.Note = strings.TrimSpace(fmt.Sprintf("TUR %s:1 with U95 = %s %s", fmtRatio(c.TUR), fmtSig(un.u*un.k95, 3), dispUnit(l.Unit)))
+		c.Note = strings.TrimSpace(fmt.Sprintf("TUR %s with U95 = %s %s", units.FormatTUR(c.TUR, c.Low), fmtSig(un.u*un.k95, 3), dispUnit(l.Unit)))
 		if c.Low {
 			c.Note += fmt.Sprintf(", below the minimum %s:1", fmtNum(pol.MinTUR))
 		}
@@ -307,5 +308,3 @@ func turLow(t, min float64) bool {
 }
 
 func finitePos(v float64) bool { return v > 0 && !math.IsInf(v, 0) }
-
-func fmtRatio(v float64) string { return strconv.FormatFloat(v, 'f', 2, 64) }

@@ -274,7 +274,12 @@ func TestKnownDUTGivesPredictableCodes(t *testing.T) {
 	po := resultOf(t, rec, sequencer.ResPostOffset).Unc
 	near(t, "u(post offset)", po.Std, 75.77e-6, 0.1e-6)
 	near(t, "k", po.K, 2.000, 0.001)
-	near(t, "U(post offset)", po.Expanded, 151.5e-6, 0.3e-6)
+	near(t, "k·u(post offset)", po.K*po.Std, 151.5e-6, 0.3e-6)
+	// The stated U is k·u rounded up to two significant digits (JCGM 100:2008
+	// §7.2.6 allows rounding up): 151.5 µV → 160 µV.
+	if po.Expanded != 160e-6 {
+		t.Errorf("U(post offset) = %v, want 160 µV: k·u = 151.5 µV rounded up (JCGM 100:2008 §7.2.6)", po.Expanded)
+	}
 	near(t, "u(post gain error)", resultOf(t, rec, sequencer.ResPostGainError).Unc.Std, 20.82e-6, 0.02e-6)
 	if rec.Coverage != 0.9545 {
 		t.Errorf("coverage %g", rec.Coverage)

@@ -7,6 +7,7 @@ import (
 	"math"
 	"strings"
 
+	"trimline/instruments/units"
 	"trimline/limits"
 )
 
@@ -58,7 +59,7 @@ func CheckTUR(st *Station, seq *Sequence) ([]limits.TURCheck, error) {
 	var low []string
 	for _, c := range checks {
 		if c.Low && !c.OneSided {
-			low = append(low, fmt.Sprintf("%q reaches %s, needs %s", c.Limit, turText(c.TUR), turText(c.Min)))
+			low = append(low, fmt.Sprintf("%q reaches %s, needs %s", c.Limit, turText(c.TUR, true), turText(c.Min, false)))
 		}
 	}
 	if len(low) > 0 {
@@ -67,9 +68,11 @@ func CheckTUR(st *Station, seq *Sequence) ([]limits.TURCheck, error) {
 	return checks, nil
 }
 
-func turText(v float64) string {
+// turText writes a TUR as the certificate does (units.FormatTUR); a TUR
+// below the minimum (low) is rounded down.
+func turText(v float64, low bool) string {
 	if v <= 0 || math.IsNaN(v) {
 		return "unknown"
 	}
-	return fmt.Sprintf("%.2f:1", v)
+	return units.FormatTUR(v, low)
 }

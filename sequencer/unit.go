@@ -182,6 +182,13 @@ func (u *Unit) onChannel(d DAC) DAC {
 // Unc expands a standard uncertainty u (in the unit of its value) with dof
 // degrees of freedom at the limit file's coverage probability, with the
 // sequence's evaluation method.
+//
+// From metrology revision 1 on, Expanded is the stated U: k·u rounded up to two
+// significant digits (StatedU), rounded here once. The record stores it, the
+// limits judge with it (guard band and acceptance limits, TUR, PFA) and every
+// document prints it. Std and K stay as evaluated, so U ≥ K·Std. Revision 0
+// stores k·u unrounded, as it did; so does a prediction (PredictUncertainty),
+// which states nothing.
 func (u *Unit) Unc(std, dof float64) Uncertainty {
 	if !(std >= 0) || math.IsInf(std, 0) {
 		return Uncertainty{}
@@ -190,7 +197,20 @@ func (u *Unit) Unc(std, dof float64) Uncertainty {
 		dof = math.Inf(1)
 	}
 	k, U := uncertainty.Expand(std, dof, coverage(u.seq))
+	if u.Metrology() >= 1 && !u.Predicting() { // a prediction on paper states no result
+		U = StatedU(U)
+	}
 	return Uncertainty{Std: std, DOF: dof, K: k, Expanded: U, Method: method(u.seq)}
+}
+
+// StatedU is an evaluated expanded uncertainty as a result states it: rounded
+// up to two significant digits (JCGM 100:2008 §7.2.6 allows rounding up; up is
+// the conservative choice for a guard band w = r·U, which is then never
+// narrower than the evaluation supports). A step that builds an Uncertainty
+// without Unit.Unc states its U with this function (metrology revision ≥ 1).
+func StatedU(U float64) float64 {
+	r, _ := units.RoundU(U)
+	return r
 }
 
 // Do runs f as one engine step under the station's step deadline (re-arming the

@@ -10,6 +10,7 @@ import (
 	"text/tabwriter"
 
 	"trimline/instruments/files"
+	"trimline/instruments/units"
 	"trimline/limits"
 	"trimline/reports/signing"
 	"trimline/sequencer"
@@ -293,16 +294,17 @@ func printTUR(w io.Writer, st *sequencer.Station, seq *sequencer.Sequence, check
 		case c.OneSided:
 			fmt.Fprintf(w, "  %-28s  —       one-sided tolerance\n", c.Limit)
 		case c.Low:
-			fmt.Fprintf(w, "  %-28s  %-7s below the minimum: %s\n", c.Limit, turRatio(c.TUR), c.Note)
+			fmt.Fprintf(w, "  %-28s  %-7s below the minimum: %s\n", c.Limit, turRatio(c.TUR, c.Low), c.Note)
 		default:
-			fmt.Fprintf(w, "  %-28s  %-7s ok\n", c.Limit, turRatio(c.TUR))
+			fmt.Fprintf(w, "  %-28s  %-7s ok\n", c.Limit, turRatio(c.TUR, c.Low))
 		}
 	}
 }
 
-func turRatio(v float64) string {
+// turRatio writes a TUR as the certificate does (units.FormatTUR).
+func turRatio(v float64, low bool) string {
 	if !(v > 0) {
 		return "?"
 	}
-	return fmt.Sprintf("%.1f:1", v)
+	return units.FormatTUR(v, low)
 }

@@ -162,8 +162,8 @@ func TestTextContent(t *testing.T) {
 		"−3 µV ± 13 µV", "17.9 ppm ± 2.8 ppm", "3.242 mV ± 0.014 mV", "63.13 ppm ± 0.49 ppm",
 		"k = 2.00", "k = 2.11", "νeff = ∞", "νeff = 24", "MC",
 		// tolerance, acceptance, zone, TUR, false-accept probability
-		"−50 … 50 µV", "accept −37.0 … 37.0 µV", "−20 … 20 ppm", "accept −17.25 … 17.25 ppm", "≤ 10 µV",
-		"conditional pass", "3.8:1 ¹", "7.3:1", "5.2 %", "< 0.0001 %",
+		"−50 … 50 µV", "accept −37 … 37 µV", "−20 … 20 ppm", "accept −17.25 … 17.25 ppm", "≤ 10 µV",
+		"conditional pass", "3.84:1 ¹", "7.29:1", "5.2 %", "< 0.0001 %",
 		"¹ Test uncertainty ratio below the minimum the limit file requires",
 		// decision rule, coverage, statements
 		"Decision rule", "Guarded acceptance, non-binary statement (ILAC-G8:09/2019 §4.2.3), guard band w = r·U, r = 1",

@@ -199,7 +199,7 @@ func countRecord() *sequencer.Record {
 func TestCountCertificateText(t *testing.T) {
 	text := pdfText(t, render(t, countRecord(), opt))
 	requireText(t, text, "output = 300 count/V × input + 2048 counts; full scale 3000 counts",
-		"−2 … 2 counts", "error (counts)", "count/V", "accept −1.580 … 1.580 counts",
+		"−2 … 2 counts", "error (counts)", "count/V", "accept −1.58 … 1.58 counts",
 		"Mean output, error and s are in counts")
 	if strings.Contains(text, "V/V") {
 		t.Error("a count output is printed in volts")

@@ -192,7 +192,7 @@ func fmtCoef(v, res float64) string {
 		s = "0"
 	case res > 0 && finite(res):
 		dec := int(math.Ceil(-math.Log10(res))) + 1
-		s = fmtDec(v, max(0, min(dec, 15)))
+		s = units.FormatAt(v, max(0, min(dec, 15)))
 	default:
 		s = pdfdoc.Minus(strconv.FormatFloat(v, 'g', 7, 64))
 	}

@@ -226,40 +226,16 @@ func fmtVolts(v float64, digits int) string {
 
 // Measurement uncertainty.
 //
-// A value and its expanded uncertainty U are written in one unit, U with two
-// significant digits, rounded up (JCGM 100:2008 §7.2.6 allows rounding up; it never
-// makes the stated uncertainty smaller than the evaluated one), and the value
-// rounded to the same decimal place: "−3.2 µV ± 8.4 µV".
+// A value and its expanded uncertainty U are written in one unit by the one
+// rule of units.RoundU (JCGM 100:2008 §7.2.6): U with two significant digits,
+// rounded up (it never makes the stated uncertainty smaller than the evaluated
+// one; from metrology revision 1 on the record stores U already so rounded), and
+// the value rounded to the same decimal place: "−3.2 µV ± 8.4 µV". A toleranced
+// limit's numbers are written by its Decision's text methods, which its
+// statement uses too.
 
 // hasU reports whether U is an evaluated expanded uncertainty.
 func hasU(U float64) bool { return U > 0 && finite(U) }
-
-// roundU rounds U up to two significant digits and returns it with the number of
-// decimals to write it (negative: U is rounded to tens, hundreds, ...).
-func roundU(U float64) (float64, int) {
-	dec := 1 - int(math.Floor(math.Log10(U)))
-	for range 2 {
-		p := math.Pow(10, float64(dec))
-		x := U * p
-		r := math.Ceil(x - 1e-9*x)
-		if r >= 100 { // 9.96 → 10.0: three digits, one decimal fewer
-			dec--
-			continue
-		}
-		return r / p, dec
-	}
-	p := math.Pow(10, float64(dec))
-	return math.Ceil(U*p-1e-9*U*p) / p, dec
-}
-
-// fmtDec writes v with dec decimals; a negative dec rounds v to 10^-dec first.
-func fmtDec(v float64, dec int) string {
-	if dec < 0 {
-		p := math.Pow(10, float64(-dec))
-		return pdfdoc.Minus(strconv.FormatFloat(math.Round(v/p)*p, 'f', 0, 64))
-	}
-	return pdfdoc.Minus(strconv.FormatFloat(v, 'f', min(dec, 15), 64))
-}
 
 // fmtWithU writes "value ± U unit" with v and U in unit (a limit-file unit such as
 // "uV" or "ppm"). Without an evaluated U, or for a count, it is fmtValue(v, unit).
@@ -270,18 +246,34 @@ func fmtWithU(v, U float64, unit string) string {
 	if !hasU(U) || isCount(unit) {
 		return fmtValue(v, unit)
 	}
-	ur, dec := roundU(U)
+	ur, dec := units.RoundU(U)
 	if dec > 15 || dec < -15 { // no sensible fixed notation
 		return strings.TrimSpace(fmtNum(v) + " ± " + fmtNum(U) + " " + dispUnit(unit))
 	}
-	u := dispUnit(unit)
-	if u == "" {
-		return fmtDec(v, dec) + " ± " + fmtDec(ur, dec)
+	return joinWithU(units.FormatAt(v, dec), units.FormatAt(ur, max(dec, 0)), unit)
+}
+
+// fmtDecisionWithU writes a toleranced limit's value with its U, in unit, as
+// its decision statement writes them (Decision.ValueText, UText).
+func fmtDecisionWithU(d *limits.Decision, unit string) string {
+	if _, dec := units.RoundU(d.U); !finite(d.Value) || !hasU(d.U) || isCount(unit) || dec > 15 || dec < -15 {
+		return fmtWithU(d.Value, d.U, unit)
 	}
-	if u == "counts" { // a long unit, written once
-		return fmtDec(v, dec) + " ± " + fmtDec(ur, dec) + " " + u
+	return joinWithU(d.ValueText(), d.UText(), unit)
+}
+
+// joinWithU writes "v unit ± U unit", the unit once when it is long
+// ("counts") and not at all when there is none.
+func joinWithU(v, U, unit string) string {
+	v, U = pdfdoc.Minus(v), pdfdoc.Minus(U)
+	switch u := dispUnit(unit); u {
+	case "":
+		return v + " ± " + U
+	case "counts": // a long unit, written once
+		return v + " ± " + U + " " + u
+	default:
+		return v + " " + u + " ± " + U + " " + u
 	}
-	return fmtDec(v, dec) + " " + u + " ± " + fmtDec(ur, dec) + " " + u
 }
 
 // fmtK writes a coverage factor: "k = 2.00".
@@ -292,21 +284,10 @@ func fmtK(k float64) string {
 	return "k = " + strconv.FormatFloat(k, 'f', 2, 64)
 }
 
-// fmtDOF writes effective degrees of freedom: "νeff = 37", "νeff = ∞", or "" when
-// not stated. A fractional dof (Welch–Satterthwaite) is truncated, as for a table
-// of t-factors; from 1000 on the coverage factor no longer depends on it and it is
-// written "νeff ≥ 1000".
-func fmtDOF(dof float64) string {
-	switch {
-	case math.IsInf(dof, 1):
-		return "νeff = ∞"
-	case math.IsNaN(dof) || dof <= 0:
-		return ""
-	case dof >= 1000:
-		return "νeff ≥ 1000"
-	}
-	return "νeff = " + strconv.FormatFloat(math.Floor(dof), 'f', 0, 64)
-}
+// fmtDOF writes effective degrees of freedom as the decision statements do
+// (units.FormatDOF): "νeff = 37", "νeff ≥ 1000", "νeff = ∞", or "" when not
+// stated.
+func fmtDOF(dof float64) string { return units.FormatDOF(dof) }
 
 // uncLine is the small print under a value with its uncertainty: coverage factor,
 // degrees of freedom and, when stated, the method. It is "U not evaluated" without
@@ -428,55 +409,13 @@ func fmtTolerance(d *limits.Decision, unit string) string {
 	return fmtInterval(d.Lower, d.Upper, unit, func(v float64, _ bool) string { return fmtLimitNum(v) })
 }
 
-// fmtAcceptance writes a decision's acceptance interval to the decimals of its U,
-// rounded inward (the lower limit up, the upper down), so that the printed interval
-// never claims more than the evaluated one.
+// fmtAcceptance writes a decision's acceptance interval as its statement does
+// (Decision.AcceptText): exactly as computed from a stated U; from a U that was
+// not stated (older records), one digit finer than U, rounded inward (the lower
+// limit up, the upper down), so that the printed interval never claims more
+// than the evaluated one.
 func fmtAcceptance(d *limits.Decision, unit string) string {
-	if !hasU(d.U) {
-		return fmtInterval(d.AcceptLower, d.AcceptUpper, unit, func(v float64, _ bool) string { return fmtLimitNum(v) })
-	}
-	_, dec := roundU(d.U)
-	dec = max(dec, 0) + 1 // one digit finer than U
-	p := math.Pow(10, float64(dec))
-	return fmtInterval(d.AcceptLower, d.AcceptUpper, unit, func(v float64, upper bool) string {
-		x := v * p
-		if upper {
-			x = math.Floor(x + 1e-9*math.Abs(x))
-		} else {
-			x = math.Ceil(x - 1e-9*math.Abs(x))
-		}
-		return fmtDec(x/p, dec)
-	})
-}
-
-// fmtTUR writes a test uncertainty ratio "4.2:1", or "—" when it is not defined
-// (one-sided tolerance, U not evaluated).
-func fmtTUR(t float64) string {
-	if !finite(t) || t <= 0 {
-		return "—"
-	}
-	if t >= 10 {
-		return strconv.FormatFloat(t, 'f', 0, 64) + ":1"
-	}
-	return strconv.FormatFloat(t, 'f', 1, 64) + ":1"
-}
-
-// fmtPercent writes a probability in percent with two significant digits:
-// "0.73 %", "12 %", "< 0.0001 %". Zero is written "< 0.0001 %" too: a tail
-// probability that underflowed is small, not impossible.
-func fmtPercent(p float64) string {
-	if !finite(p) || p < 0 {
-		return "—"
-	}
-	pct := p * 100
-	switch {
-	case pct < 1e-4:
-		return "< 0.0001 %"
-	case pct >= 99.5:
-		return strconv.FormatFloat(pct, 'f', 0, 64) + " %"
-	}
-	dec := max(0, 1-int(math.Floor(math.Log10(pct))))
-	return strconv.FormatFloat(pct, 'f', dec, 64) + " %"
+	return fmtInterval(d.AcceptLower, d.AcceptUpper, unit, func(_ float64, upper bool) string { return pdfdoc.Minus(d.AcceptText(upper)) })
 }
 
 // fmtCoverage writes a coverage probability as a percentage: 0.9545 is "95.45 %".

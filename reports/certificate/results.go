@@ -129,7 +129,7 @@ func (d *doc) measuredCell(o limits.Outcome, w float64) pdfdoc.Cell {
 			dof = r.Unc.DOF
 		}
 		sub := uncLine(dd.U, dd.K, dof, r.Unc.Method)
-		return append(d.valueSpans(fmtWithU(dd.Value, dd.U, o.Unit), w), pdfdoc.Span{Text: sub, St: pdfdoc.Small})
+		return append(d.valueSpans(fmtDecisionWithU(dd, o.Unit), w), pdfdoc.Span{Text: sub, St: pdfdoc.Small})
 	}
 	vals := outcomeValues(o) // the keys in order, for the "not measured" case
 	keys := outcomeKeys(o)
@@ -197,8 +197,7 @@ func (d *doc) results() {
 		return
 	}
 	if t.decided {
-		d.note("U: expanded uncertainty, k: coverage factor, νeff: effective degrees of freedom. TUR = tolerance width / 2U (“—” when one-sided or without U). " +
-			"PFA: probability that the true value lies outside the tolerance although the result was accepted.")
+		d.note(resultsNote)
 	}
 	if t.turLow {
 		d.note("¹ Test uncertainty ratio below the minimum the limit file requires: the uncertainty is large against the tolerance.")
@@ -207,6 +206,17 @@ func (d *doc) results() {
 		d.note("Each limit expression is written in the unit of its measured value.")
 	}
 }
+
+// resultsNote explains the columns of the results table, each number as it is
+// computed: U as the record states it (JCGM 100:2008 §7.2.6), the acceptance
+// limits from that U (ILAC-G8:09/2019 §4.1), the TUR of ANSI/NCSL Z540.3-2006
+// §5.3 with U95 obtained from the stated U, and the PFA.
+const resultsNote = "U: expanded uncertainty, two significant digits rounded up (JCGM 100:2008 §7.2.6), the value to its decimal place; " +
+	"k: coverage factor; νeff: effective degrees of freedom, truncated (JCGM 100:2008 G.4.1). " +
+	"Acceptance limits: the tolerance limits moved inward by w = r·U, from the stated U (ILAC-G8:09/2019 §4.1). " +
+	"TUR = (upper − lower tolerance limit) / (2·U95), U95 = U·k95/k with k95 the Student-t factor for 95 % at νeff " +
+	"(ANSI/NCSL Z540.3-2006 §5.3), three significant digits; “—” when one-sided or without U. " +
+	"PFA: probability that the true value lies outside the tolerance although the result was accepted (u = U/k)."
 
 // resultsTable is the results table and what its notes must explain: whether a
 // limit is toleranced (decided), a TUR is low, a limit is an expression.
@@ -233,11 +243,11 @@ func (d *doc) resultsTable() resultsTable {
 	}
 	if decided {
 		cols = []pdfdoc.Column{
-			{Title: "Limit", W: 51, Align: "L"},
+			{Title: "Limit", W: 48, Align: "L"},
 			{Title: "Measured value ± U", W: 36, Align: "R"},
 			{Title: "Tolerance · acceptance", W: 40, Align: "L", Gap: 3},
 			{Title: "Decision", W: 22, Align: "C"},
-			{Title: "TUR", W: 12, Align: "R"},
+			{Title: "TUR", W: 15, Align: "R"}, // "3.71:1 ¹" on one line
 			{Title: "PFA", W: 19, Align: "R"},
 		}
 	}
@@ -312,22 +322,21 @@ func (d *doc) resultsTable() resultsTable {
 			case dd.Rule != "":
 				tol = append(tol, pdfdoc.Span{Text: "rule " + dd.Rule, St: pdfdoc.Small})
 			}
-			tur := c1(fmtTUR(dd.TUR), pdfdoc.Body)
+			// TUR and PFA as the decision statement writes them.
+			tur := c1(dd.TURText(), pdfdoc.Body)
 			switch {
-			case fmtTUR(dd.TUR) == "—":
+			case dd.TURText() == "—":
 				tur = c1("—", pdfdoc.Small)
-			case dd.TUR >= 1e5:
-				tur = c1("≥ 1e5:1", pdfdoc.Small) // a tolerance that dwarfs U: the digits say nothing more
-			case dd.TUR >= 1e4:
-				tur = c1(fmtTUR(dd.TUR), pdfdoc.Small) // five digits: the small size fits the column
+			case dd.TUR >= 1e3:
+				tur = c1(dd.TURText(), pdfdoc.Small) // four or more digits: the small size fits the column
 			}
 			if dd.TURLow {
-				tur = c1(fmtTUR(dd.TUR)+" ¹", pdfdoc.Bold.With(colCondPass))
+				tur = c1(dd.TURText()+" ¹", pdfdoc.Bold.With(colCondPass))
 				turLow = true
 			}
 			pfa := c1("—", pdfdoc.Small)
 			if accepted(dd) && hasU(dd.U) && finite(dd.POutside) {
-				pfa = c1(fmtPercent(dd.POutside), pdfdoc.Body)
+				pfa = c1(dd.PFAText(), pdfdoc.Body)
 			}
 			rows = append(rows, pdfdoc.Row{name, meas, tol, d.zoneCell(o), tur, pfa})
 		}
