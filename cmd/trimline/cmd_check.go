@@ -8,9 +8,11 @@ import (
 	"slices"
 	"strings"
 	"text/tabwriter"
+	"unicode/utf8"
 
 	"trimline/instruments/files"
 	"trimline/limits"
+	"trimline/reports/certificate"
 	"trimline/reports/signing"
 	"trimline/sequencer"
 )
@@ -171,6 +173,7 @@ otherwise.`,
 					other = append(other, err)
 				}
 				printTUR(stdout, st, s, checks)
+				printBudgets(stdout, checks, sequencer.PredictResults(st, s))
 				for _, c := range checks {
 					tur := num(c.TUR)
 					if !(c.TUR > 0) {
@@ -305,4 +308,83 @@ func turRatio(v float64) string {
 		return "?"
 	}
 	return fmt.Sprintf("%.1f:1", v)
+}
+
+// printBudgets shows, under the TUR lines, the uncertainty budget on paper of
+// each toleranced result: every input from the instruments' specifications with
+// its u, sensitivity, contribution and share (certificate.BudgetText, as the
+// certificate prints a unit's), so that one sees which instrument term limits
+// the TUR. A unit's own noise adds a Type A row on the bench. The columns line
+// up across all budgets, under one header.
+func printBudgets(w io.Writer, checks []limits.TURCheck, results []sequencer.Result) {
+	byName := map[string]sequencer.Result{}
+	for _, r := range results {
+		byName[r.Name] = r
+	}
+	type block struct {
+		title string
+		rows  [][]string
+	}
+	var blocks []block
+	done := map[string]bool{}
+	all := [][]string{certificate.BudgetColumns}
+	for _, c := range checks {
+		r, ok := byName[c.Result]
+		if c.OneSided || !ok || done[c.Result] {
+			continue
+		}
+		rows, _ := certificate.BudgetText(r)
+		if len(rows) == 0 {
+			continue
+		}
+		done[c.Result] = true
+		blocks = append(blocks, block{fmt.Sprintf("  %s (%s): %s", c.Limit, c.Result, certificate.BudgetFoot(r)), rows})
+		all = append(all, rows...)
+	}
+	if len(blocks) == 0 {
+		return
+	}
+	width := columnWidths(all)
+	fmt.Fprintf(w, "\nUncertainty budgets on paper (instrument specs only; a unit's noise adds to them):\n")
+	printRow(w, "    ", certificate.BudgetColumns, width, 2)
+	for _, b := range blocks {
+		fmt.Fprintln(w, b.title)
+		for _, r := range b.rows {
+			printRow(w, "    ", r, width, 2)
+		}
+	}
+}
+
+// columnWidths is the widest cell of each column of rows, in runes (µ, −, ∞
+// are one each).
+func columnWidths(rows [][]string) []int {
+	var width []int
+	for _, r := range rows {
+		for i, c := range r {
+			if i == len(width) {
+				width = append(width, 0)
+			}
+			width[i] = max(width[i], utf8.RuneCountInString(c))
+		}
+	}
+	return width
+}
+
+// printRow writes one row indented by indent, its first left cells aligned
+// left in their widths, the rest right, two spaces apart.
+func printRow(w io.Writer, indent string, r []string, width []int, left int) {
+	var b strings.Builder
+	b.WriteString(indent)
+	for i, c := range r {
+		pad := strings.Repeat(" ", width[i]-utf8.RuneCountInString(c))
+		if i > 0 {
+			b.WriteString("  ")
+		}
+		if i < left {
+			b.WriteString(c + pad)
+		} else {
+			b.WriteString(pad + c)
+		}
+	}
+	fmt.Fprintln(w, strings.TrimRight(b.String(), " "))
 }
