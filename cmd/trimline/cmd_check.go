@@ -173,14 +173,15 @@ otherwise.`,
 					other = append(other, err)
 				}
 				printTUR(stdout, st, s, checks)
-				printBudgets(stdout, checks, sequencer.PredictResults(st, s))
+				paper := sequencer.PredictResults(st, s)
+				printBudgets(stdout, checks, paper)
 				for _, c := range checks {
 					tur := num(c.TUR)
 					if !(c.TUR > 0) {
 						tur = nil
 					}
 					out.TUR = append(out.TUR, turOut{Station: st.ID, Limits: s.Limits.File, Limit: c.Limit, Result: c.Result,
-						TUR: tur, Minimum: c.Min, Low: c.Low, OneSided: c.OneSided, Note: c.Note})
+						TUR: tur, Minimum: c.Min, Low: c.Low, OneSided: c.OneSided, Note: c.Note, Budget: budgetJSON(paper, c)})
 				}
 			}
 		}
@@ -387,4 +388,43 @@ func printRow(w io.Writer, indent string, r []string, width []int, left int) {
 		}
 	}
 	fmt.Fprintln(w, strings.TrimRight(b.String(), " "))
+}
+
+// budgetOut is one row of a result's budget in check --json: SI units (input_u
+// in input_unit, "1" for a relative quantity; u in the result's unit), the
+// sensitivity null for a per-point row (points says how many), dof null for
+// infinite degrees of freedom, share a fraction of u².
+type budgetOut struct {
+	Name        string   `json:"name"`
+	Kind        string   `json:"kind"`
+	InputU      float64  `json:"input_u"`
+	InputUnit   string   `json:"input_unit"`
+	Sensitivity *float64 `json:"sensitivity"`
+	Points      int      `json:"points"`
+	U           float64  `json:"u"`
+	DOF         *float64 `json:"dof"`
+	Share       float64  `json:"share"`
+}
+
+// budgetJSON is the budget on paper of c's result, for a two-sided limit.
+func budgetJSON(paper []sequencer.Result, c limits.TURCheck) []budgetOut {
+	if c.OneSided {
+		return nil
+	}
+	for _, r := range paper {
+		if r.Name != c.Result {
+			continue
+		}
+		var out []budgetOut
+		for _, b := range r.Budget {
+			o := budgetOut{Name: b.Name, Kind: b.Kind, InputU: b.InputU, InputUnit: b.InputUnit,
+				Points: b.Points, U: b.U, DOF: num(b.DOF), Share: b.Share}
+			if b.Points == 0 {
+				o.Sensitivity = num(b.Sensitivity)
+			}
+			out = append(out, o)
+		}
+		return out
+	}
+	return nil
 }
