@@ -26,9 +26,9 @@ var BudgetColumns = []string{"Input quantity", "Type", "u(x)", "Sensitivity c", 
 // sensitivity of 0, such as the source's gain for an offset at zero stimulus)
 // is left out; zero is how many. Per-point inputs (repeatability, resolution)
 // say "per point (n)" for their sensitivity: each point has its own weight in
-// the fit. It returns no rows when r has no budget.
+// the fit. It returns no rows when r has no budget or no evaluated uncertainty.
 func BudgetText(r sequencer.Result) (rows [][]string, zero int) {
-	if len(r.Budget) == 0 {
+	if len(r.Budget) == 0 || !r.Valid || !hasU(r.Unc.Expanded) {
 		return nil, 0
 	}
 	for _, b := range r.Budget {
