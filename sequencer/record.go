@@ -316,6 +316,35 @@ type Result struct {
 	Valid    bool        `json:"valid"`
 	Note     string      `json:"note,omitempty"` // why the value is not valid
 	Unc      Uncertainty `json:"uncertainty"`    // zero for codes (exact integers)
+	// Budget is the uncertainty budget behind Unc, one row per input quantity
+	// (JCGM 100 §5.1.3, eq. (10)), for results whose step evaluates one (a
+	// fit's offset and gain error, a measure step's mean and error); nil for
+	// the others and in records made before budgets were kept.
+	Budget []BudgetRow `json:"budget,omitempty"`
+}
+
+// BudgetRow is one input quantity of a result's uncertainty budget: its
+// standard uncertainty u(x_i) in its own unit, the sensitivity coefficient
+// c_i = ∂result/∂x_i, and its contribution u_i = |c_i|·u(x_i) to the result's
+// standard uncertainty (JCGM 100 §5.1.3). Inputs of one name that a sweep has
+// once per point (repeatability, resolution) are one row: each point has its own
+// sensitivity (its weight in the fit), so Sensitivity is 0 and Points says how
+// many; U is then the root-sum-square of the points' contributions.
+type BudgetRow struct {
+	Name string `json:"name"` // the input, e.g. "source offset" (uncertainty.Name… constants)
+	Kind string `json:"kind"` // "A" or "B" (JCGM 100 §4.2, §4.3)
+	// InputU is u(x_i), in InputUnit; for a per-point row the points' common
+	// value, or the largest where they differ.
+	InputU    float64 `json:"input_u"`
+	InputUnit string  `json:"input_unit"` // "V", "A", "count", or "1" for a relative quantity (a gain error)
+	// Sensitivity is c_i in the result's unit per InputUnit; 0 for a per-point row.
+	Sensitivity float64 `json:"sensitivity,omitempty"`
+	Points      int     `json:"points,omitempty"` // number of per-point inputs the row holds; 0 for one shared input
+	U           float64 `json:"u"`                // contribution |c_i|·u(x_i), in the result's unit
+	DOF         float64 `json:"dof"`              // degrees of freedom of the contribution (+Inf for limits taken as exact)
+	// Share is u_i²/Σu_j², the row's fraction of the combined variance of the
+	// budget (the rows sum to 1).
+	Share float64 `json:"share"`
 }
 
 // FaultRecord is the record of a unit that could not be run at all because the

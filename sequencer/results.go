@@ -237,6 +237,7 @@ type results struct {
 	values map[string]limits.Value
 	unc    map[string]Uncertainty
 	set_   map[string]bool // computed (valid or not) by a step
+	budget map[string][]BudgetRow
 }
 
 func newResults(seq *Sequence) *results {
@@ -267,6 +268,7 @@ func (r *results) setU(name string, v float64, u Uncertainty) {
 	r.values[name] = limits.Value{V: v, Valid: finite(v), Why: "not a finite number",
 		Std: u.Std, U: u.Expanded, K: u.K, DOF: u.DOF}
 	r.unc[name] = u
+	delete(r.budget, name) // a step's SetBudget follows its SetU
 }
 
 // flagged records a value that is known but must not pass: a saturated code.
@@ -274,19 +276,21 @@ func (r *results) flagged(name string, v float64, why string) {
 	r.set_[name] = true
 	r.values[name] = limits.Value{V: v, Why: why}
 	delete(r.unc, name)
+	delete(r.budget, name)
 }
 
 func (r *results) invalid(name, why string) {
 	r.set_[name] = true
 	r.values[name] = limits.Value{Why: why}
 	delete(r.unc, name)
+	delete(r.budget, name)
 }
 
 func (r *results) list() []Result {
 	out := make([]Result, 0, len(r.defs))
 	for _, d := range r.defs {
 		v := r.values[d.Key()]
-		res := Result{Name: d.Name, Channel: d.Channel, Stage: d.Stage, Step: d.Step, Quantity: d.Quantity, Value: v.V, Unit: d.Unit(), Valid: v.Valid, Unc: r.unc[d.Key()]}
+		res := Result{Name: d.Name, Channel: d.Channel, Stage: d.Stage, Step: d.Step, Quantity: d.Quantity, Value: v.V, Unit: d.Unit(), Valid: v.Valid, Unc: r.unc[d.Key()], Budget: r.budget[d.Key()]}
 		if !v.Valid {
 			res.Value, res.Note = 0, v.Why
 		}

@@ -173,9 +173,11 @@ func (f *fitStep) Run(_ context.Context, u *Unit) error {
 		case "offset":
 			uo, do := a.linear([2]float64{1, 0})
 			u.SetU(name, a.sum.Intercept-seq.IdealOffset, u.Unc(uo, do))
+			u.SetBudget(name, a.budget([2]float64{1, 0}, kept.plan, seq))
 		case "gain_error":
 			ug, dg := a.linear([2]float64{0, 1 / seq.IdealGain})
 			u.SetU(name, a.sum.Slope/seq.IdealGain-1, u.Unc(math.Abs(ug), dg))
+			u.SetBudget(name, a.budget([2]float64{0, 1 / seq.IdealGain}, kept.plan, seq))
 		case "nonlinearity":
 			// The largest residual; its uncertainty is that residual's own (random
 			// part only: shared gain and offset errors do not bend the line).

@@ -297,8 +297,10 @@ func (s *measureStep) results(u *Unit, p Point) {
 		switch name := o[1]; o[0] {
 		case "mean":
 			u.SetU(name, p.Mean, with(false))
+			u.SetBudget(name, s.budget(u.cfg, p, false))
 		case "error":
 			u.SetU(name, p.Mean-s.ideal(u.seq), with(true))
+			u.SetBudget(name, s.budget(u.cfg, p, true))
 		case "noise":
 			// u(s) ≈ s/√(2ν) (JCGM 100 E.4.3), as a fit's noise.
 			if nu > 0 {

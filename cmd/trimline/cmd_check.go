@@ -8,10 +8,12 @@ import (
 	"slices"
 	"strings"
 	"text/tabwriter"
+	"unicode/utf8"
 
 	"trimline/instruments/files"
 	"trimline/instruments/units"
 	"trimline/limits"
+	"trimline/reports/certificate"
 	"trimline/reports/signing"
 	"trimline/sequencer"
 )
@@ -172,13 +174,15 @@ otherwise.`,
 					other = append(other, err)
 				}
 				printTUR(stdout, st, s, checks)
+				paper := sequencer.PredictResults(st, s)
+				printBudgets(stdout, checks, paper)
 				for _, c := range checks {
 					tur := num(c.TUR)
 					if !(c.TUR > 0) {
 						tur = nil
 					}
 					out.TUR = append(out.TUR, turOut{Station: st.ID, Limits: s.Limits.File, Limit: c.Limit, Result: c.Result,
-						TUR: tur, Minimum: c.Min, Low: c.Low, OneSided: c.OneSided, Note: c.Note})
+						TUR: tur, Minimum: c.Min, Low: c.Low, OneSided: c.OneSided, Note: c.Note, Budget: budgetJSON(paper, c)})
 				}
 			}
 		}
@@ -307,4 +311,122 @@ func turRatio(v float64, low bool) string {
 		return "?"
 	}
 	return units.FormatTUR(v, low)
+}
+
+// printBudgets shows, under the TUR lines, the uncertainty budget on paper of
+// each toleranced result: every input from the instruments' specifications with
+// its u, sensitivity, contribution and share (certificate.BudgetText, as the
+// certificate prints a unit's), so that one sees which instrument term limits
+// the TUR. A unit's own noise adds a Type A row on the bench. The columns line
+// up across all budgets, under one header.
+func printBudgets(w io.Writer, checks []limits.TURCheck, results []sequencer.Result) {
+	byName := map[string]sequencer.Result{}
+	for _, r := range results {
+		byName[r.Name] = r
+	}
+	type block struct {
+		title string
+		rows  [][]string
+	}
+	var blocks []block
+	done := map[string]bool{}
+	all := [][]string{certificate.BudgetColumns}
+	for _, c := range checks {
+		r, ok := byName[c.Result]
+		if c.OneSided || !ok || done[c.Result] {
+			continue
+		}
+		rows, _ := certificate.BudgetText(r)
+		if len(rows) == 0 {
+			continue
+		}
+		done[c.Result] = true
+		blocks = append(blocks, block{fmt.Sprintf("  %s (%s): %s", c.Limit, c.Result, certificate.BudgetFoot(r)), rows})
+		all = append(all, rows...)
+	}
+	if len(blocks) == 0 {
+		return
+	}
+	width := columnWidths(all)
+	fmt.Fprintf(w, "\nUncertainty budgets on paper (instrument specs only; a unit's noise adds to them):\n")
+	printRow(w, "    ", certificate.BudgetColumns, width, 2)
+	for _, b := range blocks {
+		fmt.Fprintln(w, b.title)
+		for _, r := range b.rows {
+			printRow(w, "    ", r, width, 2)
+		}
+	}
+}
+
+// columnWidths is the widest cell of each column of rows, in runes (µ, −, ∞
+// are one each).
+func columnWidths(rows [][]string) []int {
+	var width []int
+	for _, r := range rows {
+		for i, c := range r {
+			if i == len(width) {
+				width = append(width, 0)
+			}
+			width[i] = max(width[i], utf8.RuneCountInString(c))
+		}
+	}
+	return width
+}
+
+// printRow writes one row indented by indent, its first left cells aligned
+// left in their widths, the rest right, two spaces apart.
+func printRow(w io.Writer, indent string, r []string, width []int, left int) {
+	var b strings.Builder
+	b.WriteString(indent)
+	for i, c := range r {
+		pad := strings.Repeat(" ", width[i]-utf8.RuneCountInString(c))
+		if i > 0 {
+			b.WriteString("  ")
+		}
+		if i < left {
+			b.WriteString(c + pad)
+		} else {
+			b.WriteString(pad + c)
+		}
+	}
+	fmt.Fprintln(w, strings.TrimRight(b.String(), " "))
+}
+
+// budgetOut is one row of a result's budget in check --json: SI units (input_u
+// in input_unit, "1" for a relative quantity; u in the result's unit), the
+// sensitivity null for a per-point row (points says how many), dof null for
+// infinite degrees of freedom, share a fraction of u².
+type budgetOut struct {
+	Name        string   `json:"name"`
+	Kind        string   `json:"kind"`
+	InputU      float64  `json:"input_u"`
+	InputUnit   string   `json:"input_unit"`
+	Sensitivity *float64 `json:"sensitivity"`
+	Points      int      `json:"points"`
+	U           float64  `json:"u"`
+	DOF         *float64 `json:"dof"`
+	Share       float64  `json:"share"`
+}
+
+// budgetJSON is the budget on paper of c's result, for a two-sided limit.
+func budgetJSON(paper []sequencer.Result, c limits.TURCheck) []budgetOut {
+	if c.OneSided {
+		return nil
+	}
+	for _, r := range paper {
+		if r.Name != c.Result {
+			continue
+		}
+		var out []budgetOut
+		for _, b := range r.Budget {
+			o := budgetOut{Name: b.Name, Kind: b.Kind, InputU: b.InputU, InputUnit: b.InputUnit,
+				Points: b.Points, U: b.U, DOF: num(b.DOF), Share: b.Share}
+			if b.Points == 0 {
+				o.Sensitivity = num(b.Sensitivity)
+			}
+			out = append(out, o)
+		}
+		return out
+	}
+	return nil
 }

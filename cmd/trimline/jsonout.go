@@ -281,6 +281,9 @@ type turOut struct {
 	Low      bool     `json:"low"`
 	OneSided bool     `json:"one_sided"`
 	Note     string   `json:"note"`
+	// Budget is the result's uncertainty budget on paper (none for a result
+	// without one).
+	Budget []budgetOut `json:"budget,omitempty"`
 }
 
 // verificationOut is audit verify's verdict on one certificate.

@@ -22,6 +22,7 @@ func (d *doc) detail() {
 	sCols, sRows := d.statements()
 	oCols, oRows, oBands := d.otherResults()
 	fCols, fRows, fBands := d.fits()
+	bCols, bRows, bBands, bNote := d.budgets()
 	plotted, plotH := d.plotSeries()
 	pts := d.pointTables()
 
@@ -34,6 +35,9 @@ func (d *doc) detail() {
 	}
 	if len(fRows) > 0 {
 		total += headingH + d.TableHeight(fCols, fRows, fBands)
+	}
+	if len(bRows) > 0 {
+		total += headingH + d.TableHeight(bCols, bRows, bBands) + 3*pdfdoc.Small.LineH()
 	}
 	total += headingH + plotH
 	total += headingH + 4
@@ -52,6 +56,10 @@ func (d *doc) detail() {
 	}
 	if len(fRows) > 0 {
 		d.tableSection(d.fitsTitle(), fCols, fRows, fBands)
+	}
+	if len(bRows) > 0 {
+		d.tableSection("Uncertainty budget", bCols, bRows, bBands)
+		d.note(bNote)
 	}
 	d.plots(plotted, plotH)
 	d.sweepPoints(pts)
