@@ -167,3 +167,19 @@ func TestAmbientOutsideTheBandWidensThePointUncertainty(t *testing.T) {
 		t.Errorf("U(post_offset) at 31 °C %g V, at 23 °C %g V: want the first larger", a, b)
 	}
 }
+
+// A run with any simulated instrument says so in its record, with the roles
+// and whether its times are the bench's own clock: by address (sim://), and by
+// the *IDN? maker of a simulator reached under another scheme (faulty:// here
+// wraps the simulator, as a served one is reached over tcp://).
+func TestSimulatedRunIsMarked(t *testing.T) {
+	rec := setup(t, "sim", ideal(nil), "").Run(context.Background(), "BRX-00001")
+	s := rec.Simulated
+	if s == nil || s.Mark != "SIMULATED BENCH — NOT A MEASUREMENT" || strings.Join(s.Roles, ",") != "source,meter,dut" || !s.BenchClock {
+		t.Fatalf("sim:// run: simulated %+v", s)
+	}
+	rec = setup(t, "faulty", ideal(nil), "").Run(context.Background(), "BRX-00001")
+	if s := rec.Simulated; s == nil || strings.Join(s.Roles, ",") != "source,meter" || !s.BenchClock {
+		t.Fatalf("faulty:// run (the simulator under another scheme): simulated %+v", s)
+	}
+}
