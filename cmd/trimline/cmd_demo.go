@@ -156,7 +156,7 @@ var (
 	// calDateLine is a calibration: block's date (the only date: key of the
 	// demo station files).
 	calDateLine = regexp.MustCompile(`(?m)^(\s*date:\s*)\d{4}-\d{2}-\d{2}`)
-	seedLine   = regexp.MustCompile(`(?m)^(\s*seed:\s*)"\d+"`)
+	seedLine    = regexp.MustCompile(`(?m)^(\s*seed:\s*)"\d+"`)
 )
 
 // writeDemoFiles writes the default product's files into dir; see writeProductFiles.
