@@ -7,6 +7,7 @@ import (
 	"strings"
 	"testing"
 
+	"trimline/instruments"
 	"trimline/instruments/files"
 	"trimline/sequencer"
 )
@@ -181,5 +182,28 @@ func TestSimulatedRunIsMarked(t *testing.T) {
 	rec = setup(t, "faulty", ideal(nil), "").Run(context.Background(), "BRX-00001")
 	if s := rec.Simulated; s == nil || strings.Join(s.Roles, ",") != "source,meter" || !s.BenchClock {
 		t.Fatalf("faulty:// run (the simulator under another scheme): simulated %+v", s)
+	}
+}
+
+// A record made before records said so is judged from the instruments it
+// lists: a sim:// address (its times the bench's clock), or the simulator's
+// *IDN? maker over a real transport (the wall clock's); real ones are not.
+func TestSimulationOfOlderRecords(t *testing.T) {
+	rec := &sequencer.Record{Instruments: []sequencer.InstrumentRef{
+		{Role: "source", Address: "sim://source"}, {Role: "meter", Address: "sim://meter"}}}
+	if s := sequencer.SimulationOf(rec); s == nil || strings.Join(s.Roles, ",") != "source,meter" || !s.BenchClock || s.Mark != sequencer.SimulatedMark {
+		t.Errorf("sim:// record: %+v", s)
+	}
+	rec.Instruments = []sequencer.InstrumentRef{{Role: "meter", Address: "tcp://127.0.0.1:5025", Identity: instruments.Identity{Maker: "Trimline Sim"}}}
+	if s := sequencer.SimulationOf(rec); s == nil || s.BenchClock {
+		t.Errorf("served simulator: %+v", s)
+	}
+	rec.Instruments[0].Identity.Maker = "Quillmere Instruments"
+	if s := sequencer.SimulationOf(rec); s != nil {
+		t.Errorf("real meter: %+v", s)
+	}
+	rec.Simulated = &sequencer.Simulation{Mark: sequencer.SimulatedMark, Roles: []string{"dut"}}
+	if s := sequencer.SimulationOf(rec); s != rec.Simulated {
+		t.Errorf("a record that says so: %+v", s)
 	}
 }

@@ -42,7 +42,7 @@ func (d *doc) instrumentsUsed() {
 			ident = append(ident, pdfdoc.Span{Text: strings.Join(sub, " · "), St: pdfdoc.Small})
 		}
 		ident = append(ident, pdfdoc.Span{Text: dash(in.Address), St: stMono.Sized(6.5)})
-		if d.simulated() && slices.Contains(d.rec.Simulated.Roles, in.Role) {
+		if d.simulated() && slices.Contains(d.sim.Roles, in.Role) {
 			ident = append(ident, pdfdoc.Span{Text: "SIMULATED", St: pdfdoc.Bold.Sized(7).With(colSimulated)})
 		}
 		rows = append(rows, pdfdoc.Row{
@@ -143,8 +143,8 @@ func (d *doc) overdue(in sequencer.InstrumentRef) bool {
 // names them.
 func (d *doc) traceability() string {
 	if d.simulated() {
-		return "Nothing on this certificate is traceable to the SI: the " + joinAnd(d.rec.Simulated.Roles) + " " +
-			map[bool]string{true: "role was", false: "roles were"}[len(d.rec.Simulated.Roles) == 1] +
+		return "Nothing on this certificate is traceable to the SI: the " + joinAnd(d.sim.Roles) + " " +
+			map[bool]string{true: "role was", false: "roles were"}[len(d.sim.Roles) == 1] +
 			" bound to simulated instruments, whose readings the simulator computes. The calibrations listed are those the station file declares; no reading of this run was taken through them."
 	}
 	var refs, gaps []string

@@ -11,12 +11,12 @@ import (
 var colSimulated = pdfdoc.Color{R: 118, G: 32, B: 150}
 
 // simulated reports whether the record is of a run on a simulated bench.
-func (d *doc) simulated() bool { return d.rec.Simulated != nil }
+func (d *doc) simulated() bool { return d.sim != nil }
 
 // simulatedMark is the record's mark, or sequencer.SimulatedMark when the
 // record gives none.
 func (d *doc) simulatedMark() string {
-	if m := strings.TrimSpace(d.rec.Simulated.Mark); m != "" {
+	if m := strings.TrimSpace(d.sim.Mark); m != "" {
 		return m
 	}
 	return sequencer.SimulatedMark
@@ -31,7 +31,7 @@ func (d *doc) simulatedBanner() {
 	d.Stripe(d.Y, 11, colSimulated)
 	d.Cell(marginL, d.Y, contentW, 11, d.simulatedMark(), pdfdoc.Bold.Sized(18).With(pdfdoc.White), "C")
 	d.Y += 11
-	s := d.rec.Simulated
+	s := d.sim
 	text := "This run was made on a simulated bench (" + joinAnd(s.Roles) + " " + map[bool]string{true: "is", false: "are"}[len(s.Roles) == 1] +
 		" a simulation): every reading was computed by the simulator, so no value on this certificate is a measurement of a unit and nothing is traceable to the SI."
 	if s.BenchClock {
@@ -66,5 +66,5 @@ func (d *doc) simulatedPage() {
 // benchTime reports whether the record's times are the simulated bench's own
 // clock, which the certificate then labels "simulated-bench time".
 func (d *doc) benchTime() bool {
-	return d.simulated() && d.rec.Simulated.BenchClock
+	return d.simulated() && d.sim.BenchClock
 }
