@@ -221,6 +221,6 @@ func (d *doc) specsApplied() string {
 		return "The ambient temperature " + fmtC(amb) + " lay within the temperature band of every specification (" + joinAnd(bands) +
 			"): the specifications were applied as written."
 	}
-	return "The ambient temperature " + fmtC(amb) + " lay outside the temperature band of a specification, so the uncertainties use it widened by its temperature coefficient: " +
+	return "The ambient temperature " + fmtC(amb) + " lay outside the temperature band of a specification, so the uncertainties use that specification widened by its temperature coefficient for each degree outside the band: " +
 		strings.Join(widened, "; ") + "."
 }
