@@ -17,9 +17,9 @@ import (
 func (d *doc) instrumentsUsed() {
 	cols := []pdfdoc.Column{
 		{Title: "Role", W: 15, Align: "L"},
-		{Title: "Asset", W: 21, Align: "L"},
-		{Title: "Identity · address", W: 43, Align: "L"},
-		{Title: "Calibration", W: 42, Align: "L"},
+		{Title: "Asset", W: 25, Align: "L"},
+		{Title: "Identity · address", W: 41, Align: "L"},
+		{Title: "Calibration", W: 40, Align: "L"},
 		{Title: "Accuracy · when it holds", W: 59, Align: "L"},
 	}
 	var rows []pdfdoc.Row
