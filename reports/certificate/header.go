@@ -201,6 +201,9 @@ func (d *doc) identification() {
 	const boxW, boxH = 54.0, 34.0
 	bx := marginL + contentW - boxW
 	c, note := d.verdictLook()
+	if d.simulated() {
+		note += " on a simulated bench"
+	}
 	d.FillRect(bx, top, boxW, boxH, c)
 	word := string(r.Verdict)
 	if word == "" {

@@ -212,15 +212,16 @@ func (d *doc) specsApplied() string {
 	if len(bands) == 0 {
 		return ""
 	}
-	amb, ok := d.rec.Conditions.Ambient()
+	c, ok := d.rec.Conditions.Ambient()
+	amb := pdfdoc.Minus(strconv.FormatFloat(c, 'f', 1, 64)) + " °C" // as the conditions line prints it
 	switch {
 	case !ok:
 		return "The ambient temperature was not recorded, so the specifications were assumed to hold: they hold only within their temperature bands (" +
 			joinAnd(bands) + "). Enter the ambient (--ambient) to have them checked and widened outside the band."
 	case len(widened) == 0:
-		return "The ambient temperature " + fmtC(amb) + " lay within the temperature band of every specification (" + joinAnd(bands) +
+		return "The ambient temperature " + amb + " lay within the temperature band of every specification (" + joinAnd(bands) +
 			"): the specifications were applied as written."
 	}
-	return "The ambient temperature " + fmtC(amb) + " lay outside the temperature band of a specification, so the uncertainties use that specification widened by its temperature coefficient for each degree outside the band: " +
+	return "The ambient temperature " + amb + " lay outside the temperature band of a specification, so the uncertainties use that specification widened by its temperature coefficient for each degree outside the band: " +
 		strings.Join(widened, "; ") + "."
 }

@@ -58,7 +58,7 @@ func TestSpecsAppliedAtTheAmbient(t *testing.T) {
 	rec.Instruments[1].OutsideBandC = 3
 	rec.Instruments[1].AccuracyAtAmbient = "±(39 ppm of reading + 5.5 ppm of range), range 10 V"
 	requireText(t, pdfText(t, render(t, rec, opt)),
-		"The ambient temperature 31 °C lay outside the temperature band of a specification, so the uncertainties use that specification widened by its temperature coefficient for each degree outside the band: the meter's (band 18 °C to 28 °C, 3 °C outside it) by ±(3 ppm of reading + 0.5 ppm of range) per °C × 3 °C, to ±(39 ppm of reading + 5.5 ppm of range), range 10 V.",
+		"The ambient temperature 31.0 °C lay outside the temperature band of a specification, so the uncertainties use that specification widened by its temperature coefficient for each degree outside the band: the meter's (band 18 °C to 28 °C, 3 °C outside it) by ±(3 ppm of reading + 0.5 ppm of range) per °C × 3 °C, to ±(39 ppm of reading + 5.5 ppm of range), range 10 V.",
 		"used at 3 °C outside the band:")
 }
 
