@@ -167,6 +167,27 @@ func TestAmbientOutsideTheBandWidensThePointUncertainty(t *testing.T) {
 	if a, b := resultOf(t, hot, "post_offset").Unc.Expanded, resultOf(t, inBand, "post_offset").Unc.Expanded; !(a > b) {
 		t.Errorf("U(post_offset) at 31 °C %g V, at 23 °C %g V: want the first larger", a, b)
 	}
+	// Replay takes the ambient from the record and reproduces it; a record of
+	// revision 0 (made before the widening) replays with the specs as written.
+	st, seq := demoFiles(t, nil)
+	onIdealBench(st)
+	cfg := sequencer.Config{Station: st, Sequence: seq}
+	again, err := sequencer.Replay(cfg, hot)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if d := sequencer.Differences(hot, again); len(d) > 0 {
+		t.Errorf("replay of the 31 °C run differs: %v", d)
+	}
+	old := *hot
+	old.Metrology = 0
+	again, err = sequencer.Replay(cfg, &old)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if a, b := resultOf(t, again, "post_offset").Unc.Expanded, resultOf(t, hot, "post_offset").Unc.Expanded; !(a < b) {
+		t.Errorf("revision 0 replay of the 31 °C run: U(post_offset) %g V, want below the widened %g V", a, b)
+	}
 }
 
 // A run with any simulated instrument says so in its record, with the roles
