@@ -6,6 +6,7 @@ import (
 	"math"
 	"strings"
 	"testing"
+	"time"
 
 	"trimline/instruments"
 	"trimline/instruments/files"
@@ -226,5 +227,23 @@ func TestSimulationOfOlderRecords(t *testing.T) {
 	rec.Simulated = &sequencer.Simulation{Mark: sequencer.SimulatedMark, Roles: []string{"dut"}}
 	if s := sequencer.SimulationOf(rec); s != rec.Simulated {
 		t.Errorf("a record that says so: %+v", s)
+	}
+}
+
+// check refuses a calibration dated after today, at its line: it traces nothing.
+func TestCheckRefusesACalibrationInTheFuture(t *testing.T) {
+	text := demoFile(t, "brx200-station.yaml")
+	st, err := sequencer.ParseStation("s.yaml", []byte(text))
+	if err != nil {
+		t.Fatal(err)
+	}
+	now := time.Date(2026, 1, 10, 12, 0, 0, 0, time.UTC) // the source's calibration day, the day before the meter's
+	probs := st.CheckCalibration(now)
+	if len(probs) != 1 || !strings.HasPrefix(probs[0].Error(), fmt.Sprintf("s.yaml:%d:", lineOf(t, text, "date: 2026-01-11"))) ||
+		!strings.Contains(probs[0].Error(), "the meter DMM-0203 is calibrated on 2026-01-11, after today (2026-01-10)") || probs[0].Warning {
+		t.Errorf("got %v", probs)
+	}
+	if probs := st.CheckCalibration(now.AddDate(0, 0, 1)); len(probs) != 0 {
+		t.Errorf("on the meter's calibration day: %v", probs)
 	}
 }
