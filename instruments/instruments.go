@@ -185,6 +185,28 @@ func (id Identity) String() string {
 	return strings.Join([]string{id.Maker, id.Model, id.Serial, id.Firmware}, ",")
 }
 
+// SimulatedMaker is the maker field of the *IDN? reply of every simulated
+// instrument (the sim:// drivers, and the simulator served over TCP or a serial
+// line by trimline bench): "Trimline Sim,DMM-6.5,…". The name is reserved for
+// simulators; no real instrument may report it.
+const SimulatedMaker = "Trimline Sim"
+
+// SimulatedScheme is the address scheme of the simulated bench (sim://meter).
+const SimulatedScheme = "sim"
+
+// Simulated reports whether the instrument at address, which identified itself
+// as id, is a simulation rather than a measuring instrument: its address is of
+// the sim scheme, or its *IDN? maker is SimulatedMaker (the simulator reached
+// through a real transport). This is the one test of simulation: a record
+// measured through any such instrument claims no traceability.
+func Simulated(address string, id Identity) bool {
+	scheme, _, ok := strings.Cut(strings.TrimSpace(address), "://")
+	if ok && strings.EqualFold(scheme, SimulatedScheme) {
+		return true
+	}
+	return strings.EqualFold(strings.TrimSpace(id.Maker), SimulatedMaker)
+}
+
 // Identifier is an optional capability: an instrument that can say what it is.
 // Fallback when absent: the engine records the identity as unknown.
 type Identifier interface {

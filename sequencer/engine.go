@@ -69,8 +69,11 @@ type Engine struct {
 	thermals map[string]instruments.Thermal
 	meterAt  map[string]MeterPlan // how each meter is configured now
 	clock    instruments.Clock
-	refs     []InstrumentRef
-	closed   bool
+	// benchClock is true when clock is an instrument's own (a simulated
+	// bench's), not the wall clock.
+	benchClock bool
+	refs       []InstrumentRef
+	closed     bool
 
 	// watchdogs are the sources' output watchdogs (those that have one): armed
 	// at every step, disarmed once the output is off.
@@ -92,7 +95,8 @@ func Open(ctx context.Context, cfg Config) (*Engine, error) {
 	if err := CheckTiming(st, seq); err != nil {
 		return nil, err
 	}
-	checks, err := CheckTUR(st, seq)
+	// The TURs a run can reach at its ambient: specs widened outside their band.
+	checks, err := CheckTUR(st.atAmbient(cfg.Conditions), seq)
 	if err != nil {
 		return nil, err
 	}
@@ -181,20 +185,17 @@ func Open(ctx context.Context, cfg Config) (*Engine, error) {
 	}
 	for _, r := range seq.Requires {
 		if cs, ok := all[r].(instruments.ClockSource); ok {
-			e.clock = cs.Clock()
+			e.clock, e.benchClock = cs.Clock(), true
 			break
 		}
 	}
 	now := e.clock.Now()
 	for _, r := range seq.Requires {
 		si := st.Instruments[r]
-		ref := InstrumentRef{Role: r, Kind: si.Kind, Address: si.Address, Asset: si.Asset, Accuracy: si.AccuracyText(),
-			Identity: instruments.Identity{Maker: "0", Model: "0", Serial: "0", Firmware: "0"}}
-		if !si.CalDue.IsZero() {
-			ref.CalDue = si.CalDue.Format("2006-01-02")
-			if now.After(si.CalDue.AddDate(0, 0, 1)) {
-				return fail(fmt.Errorf("%s %s: calibration expired on %s; recalibrate it or fix cal_due in %s", r, si.Asset, ref.CalDue, st.File.Name))
-			}
+		ref := instrumentRef(r, si, e.cfg.Conditions)
+		ref.Identity = instruments.Identity{Maker: "0", Model: "0", Serial: "0", Firmware: "0"}
+		if !si.CalDue.IsZero() && now.After(si.CalDue.AddDate(0, 0, 1)) {
+			return fail(fmt.Errorf("%s %s: calibration expired on %s; recalibrate it or fix cal_due in %s", r, si.Asset, ref.CalDue, st.File.Name))
 		}
 		// A DUT port's identity belongs to the unit in the fixture, read per run.
 		if id, ok := all[r].(instruments.Identifier); ok && si.Kind != DUTPort {
@@ -383,6 +384,7 @@ func (e *Engine) Run(ctx context.Context, serial string) (rec *Record) {
 		Instruments: append([]InstrumentRef(nil), e.refs...),
 		IdealGain:   seq.IdealGain, IdealOffset: seq.IdealOffset, FullScale: seq.FullScale, ResponseUnit: seq.recordResponseUnit(), StimulusUnit: seq.recordStimulusUnit(),
 		Conditions: e.cfg.Conditions, Coverage: coverage(seq), Engineering: e.cfg.Engineering,
+		Simulated: simulation(e.refs, e.benchClock),
 	}
 	if e.cfg.NewID != nil {
 		rec.RunID = e.cfg.NewID(now)

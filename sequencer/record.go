@@ -123,6 +123,10 @@ type Record struct {
 	Results  []Result         `json:"results"`
 	Outcomes []limits.Outcome `json:"limits"`
 
+	// Simulated is set when any instrument of the run was simulated: the
+	// record and its certificate carry SimulatedMark and claim no traceability.
+	Simulated *Simulation `json:"simulated,omitempty"`
+
 	Verdict Verdict `json:"verdict"` // PASS, FAIL, REVIEW, FAULT or ABORTED
 	// Engineering marks a run made with files that were never released: its
 	// certificate says so in large letters and comes from a number series of its own.
@@ -179,6 +183,45 @@ type InstrumentRef struct {
 	CalDue   string               `json:"cal_due"` // YYYY-MM-DD
 	Accuracy string               `json:"accuracy,omitempty"`
 	Identity instruments.Identity `json:"identity"`
+
+	// What the station file says of the instrument's calibration and of when
+	// its specs hold; empty where it says nothing (and in older records).
+	CalDate        string `json:"cal_date,omitempty"`        // YYYY-MM-DD, the day it was calibrated
+	CalCertificate string `json:"cal_certificate,omitempty"` // the number of that calibration's certificate
+	CalLab         string `json:"cal_lab,omitempty"`         // the laboratory that issued it
+	SpecPeriod     string `json:"spec_period,omitempty"`     // the data sheet's column: "90 days", "1 year"
+	// SpecBand is the ambient band in which Accuracy holds, Tempco what each
+	// degree outside it adds ("±(3 ppm of reading + 0.5 ppm of range) per °C").
+	SpecBand *TempBand `json:"spec_band,omitempty"`
+	Tempco   string    `json:"tempco,omitempty"`
+	// OutsideBandC is how far the run's ambient lay outside SpecBand, °C, and
+	// AccuracyAtAmbient the specs widened by Tempco for it: what the
+	// uncertainty evaluation used. Both empty when the ambient was within the
+	// band or not recorded (the specs were then applied as written).
+	OutsideBandC      float64 `json:"outside_band_c,omitempty"`
+	AccuracyAtAmbient string  `json:"accuracy_at_ambient,omitempty"`
+}
+
+// TempBand is a band of ambient temperature, °C.
+type TempBand struct {
+	LowC  float64 `json:"low_c"`
+	HighC float64 `json:"high_c"`
+}
+
+// SimulatedMark is what a record of a run on a simulated bench says of itself,
+// and what every page of its certificate shows.
+const SimulatedMark = "SIMULATED BENCH — NOT A MEASUREMENT"
+
+// Simulation says that a run was made with simulated instruments
+// (instruments.Simulated): nothing it read is a measurement and nothing is
+// traceable.
+type Simulation struct {
+	Mark  string   `json:"mark"`  // SimulatedMark
+	Roles []string `json:"roles"` // the roles bound to simulated instruments, in role order
+	// BenchClock is true when the record's times (Started, Finished, every
+	// reading's and soak's) are the simulated bench's own clock, which runs
+	// ahead of the wall clock by the simulated waits, not the time of day.
+	BenchClock bool `json:"bench_clock,omitempty"`
 }
 
 // RoleKind is the kind of instrument r's role binds: r.Kind, or for a record
@@ -359,14 +402,11 @@ func FaultRecord(cfg Config, serial string, now time.Time, err error) *Record {
 		IdealGain: seq.IdealGain, IdealOffset: seq.IdealOffset, FullScale: seq.FullScale, ResponseUnit: seq.recordResponseUnit(),
 		Conditions: cfg.Conditions, Engineering: cfg.Engineering, Verdict: Fault, Fault: "station could not start the unit: " + err.Error()}
 	for _, r := range seq.Requires {
-		si := st.Instruments[r]
-		ref := InstrumentRef{Role: r, Kind: si.Kind, Address: si.Address, Asset: si.Asset, Accuracy: si.AccuracyText(),
-			Identity: instruments.Identity{Maker: "0", Model: "0", Serial: "0", Firmware: "0"}}
-		if !si.CalDue.IsZero() {
-			ref.CalDue = si.CalDue.Format("2006-01-02")
-		}
+		ref := instrumentRef(r, st.Instruments[r], cfg.Conditions)
+		ref.Identity = instruments.Identity{Maker: "0", Model: "0", Serial: "0", Firmware: "0"}
 		rec.Instruments = append(rec.Instruments, ref)
 	}
+	rec.Simulated = simulation(rec.Instruments, false)
 	if cfg.NewID != nil {
 		rec.RunID = cfg.NewID(now)
 	} else {

@@ -32,6 +32,7 @@ func Replay(cfg Config, stored *Record) (*Record, error) {
 		Started: stored.Started, Finished: stored.Finished, Files: stored.Files, Instruments: stored.Instruments,
 		IdealGain: seq.IdealGain, IdealOffset: seq.IdealOffset, FullScale: seq.FullScale, ResponseUnit: seq.recordResponseUnit(),
 		Conditions: stored.Conditions, Coverage: coverage(seq), Engineering: stored.Engineering, RetestOf: stored.RetestOf,
+		Simulated: stored.Simulated,
 	}
 	u := newUnit(cfg, rec, replaying)
 	u.stored = stored

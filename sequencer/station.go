@@ -178,12 +178,79 @@ type StationInstrument struct {
 	// (a meter that reads volts and amperes has at least one of each; a meter
 	// with a spec per range has one per range), never two of the same range;
 	// SpecAt picks the one a reading was taken with.
-	Specs     []Accuracy
+	Specs []Accuracy
+	// CalDate is the day the instrument was last calibrated (UTC midnight;
+	// zero = not stated), CalCertificate the number of that calibration's
+	// certificate and CalLab the laboratory that issued it (calibration.date,
+	// certificate and laboratory in the file).
+	CalDate        time.Time
+	CalCertificate string
+	CalLab         string
+	// Validity is when and where the accuracy specs hold (the file's spec:
+	// block); the zero value says nothing, and the specs are then applied as
+	// written.
+	Validity  SpecValidity
 	Model     string // expected model from *IDN?, empty = not pinned
 	Serial    string // expected serial from *IDN?, empty = not pinned
 	Settings  map[string]string
 	Templates map[string]string // command template overrides for this model
 	Timeout   time.Duration     // per command; 0 = the driver's default
+}
+
+// SpecValidity is when and where an instrument's accuracy specs hold, as its
+// data sheet states them: for Period after calibration (the data sheet's
+// column: "24 hours", "90 days", "1 year"), within LowC to HighC °C of ambient
+// when HasBand, and outside that band worse by TempcoOfReading and
+// TempcoOfRange (fractions, per °C) for every degree outside it.
+type SpecValidity struct {
+	Period                         string
+	HasBand                        bool
+	LowC, HighC                    float64
+	TempcoOfReading, TempcoOfRange float64
+}
+
+// BandText is the band in words, "18 °C to 28 °C"; "" without one.
+func (v SpecValidity) BandText() string {
+	if !v.HasBand {
+		return ""
+	}
+	return fmtC(v.LowC) + " to " + fmtC(v.HighC)
+}
+
+// TempcoText is the temperature coefficient in the usual written form,
+// "±(3 ppm of reading + 0.5 ppm of range) per °C"; "" without a band.
+func (v SpecValidity) TempcoText() string {
+	if !v.HasBand {
+		return ""
+	}
+	return fmt.Sprintf("±(%g ppm of reading + %g ppm of range) per °C", round6(v.TempcoOfReading*1e6), round6(v.TempcoOfRange*1e6))
+}
+
+// Outside is how far an ambient of c °C lies outside the band, °C (0 within
+// it, and without a band).
+func (v SpecValidity) Outside(c float64) float64 {
+	switch {
+	case !v.HasBand:
+		return 0
+	case c < v.LowC:
+		return v.LowC - c
+	case c > v.HighC:
+		return c - v.HighC
+	}
+	return 0
+}
+
+// Widen is the spec a at an ambient outside the band by outside °C: each term
+// grows by its temperature coefficient times the distance (the usual data-sheet
+// rule, common practice; the widened spec is still a rectangular bound,
+// JCGM 100 §4.3.7). The range, resolution and dimension are a's.
+func (v SpecValidity) Widen(a Accuracy, outside float64) Accuracy {
+	if outside <= 0 || a == (Accuracy{}) {
+		return a
+	}
+	a.OfReading += v.TempcoOfReading * outside
+	a.OfRange += v.TempcoOfRange * outside
+	return a
 }
 
 // Accuracy is a ±(of reading + of range) specification, both as fractions, with the
@@ -394,16 +461,19 @@ type stationFile struct {
 		CertificatePrefix string `yaml:"certificate_prefix"`
 	} `yaml:"station"`
 	Instruments map[string]struct {
-		Kind      string            `yaml:"kind"`
-		Address   string            `yaml:"address"`
-		Asset     string            `yaml:"asset"`
-		CalDue    string            `yaml:"cal_due"`
-		Model     string            `yaml:"model"`
-		Serial    string            `yaml:"serial"`
-		Accuracy  *anyNode          `yaml:"accuracy"`
-		Settings  map[string]string `yaml:"settings"`
-		Templates map[string]string `yaml:"templates"`
-		Timeout   *units.Duration   `yaml:"timeout"`
+		Kind     string   `yaml:"kind"`
+		Address  string   `yaml:"address"`
+		Asset    string   `yaml:"asset"`
+		CalDue   string   `yaml:"cal_due"`
+		Model    string   `yaml:"model"`
+		Serial   string   `yaml:"serial"`
+		Accuracy *anyNode `yaml:"accuracy"`
+		// Calibration is who calibrated the instrument, when, under which certificate.
+		Calibration *calibrationDecl  `yaml:"calibration"`
+		Spec        *specDecl         `yaml:"spec"`
+		Settings    map[string]string `yaml:"settings"`
+		Templates   map[string]string `yaml:"templates"`
+		Timeout     *units.Duration   `yaml:"timeout"`
 	} `yaml:"instruments"`
 	Interlock *struct {
 		Role   string `yaml:"role"`
@@ -562,12 +632,23 @@ func parseStation(name string, data []byte, recorded bool) (*Station, error) {
 				}
 				si.CalDue = d
 			}
+			calibration(doc, base, &si, in.Calibration, &errs)
+			if in.Spec != nil {
+				si.Validity = validity(doc, base+".spec", *in.Spec, si, &errs)
+			}
 			if in.Accuracy == nil {
 				errs = append(errs, doc.Errorf(base, "missing required key \"accuracy\" (of_reading, of_range, range)"))
 			} else {
 				si.Specs = specsOf(doc, base, kind, &errs)
 				if len(si.Specs) > 0 {
 					si.Accuracy = si.Specs[0]
+				}
+			}
+		}
+		if known && (kind == DUTPort || kind == SwitchRole || kind == ThermalRole) {
+			for _, k := range []string{"calibration", "spec"} {
+				if doc.Has(base + "." + k) {
+					errs = append(errs, doc.KeyErrorf(base+"."+k, "a %s measures nothing the results are traced through: it has no %s (remove the key)", kind, k))
 				}
 			}
 		}

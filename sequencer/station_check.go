@@ -26,13 +26,18 @@ func (s *Station) Errorf(path, format string, args ...any) *files.Error {
 // CheckCalibration reports, positioned at each cal_due in the station file and in
 // role order, every instrument whose calibration has run out at now (an error: the
 // engine refuses to run past the last day of cal_due) or runs out within
-// CalWarnDays days (a warning, Warning set). Days are UTC calendar days, as cal_due
+// CalWarnDays days (a warning, Warning set), and, at its calibration.date, every
+// instrument said to be calibrated after today (an error). Days are UTC calendar days, as cal_due
 // is read.
 func (s *Station) CheckCalibration(now time.Time) files.List {
 	var out files.List
 	today := now.UTC().Truncate(24 * time.Hour)
 	for _, r := range s.Roles() {
 		si, ok := s.Instruments[r]
+		if ok && si.CalDate.After(today) {
+			out = append(out, s.Errorf("$.instruments."+r+".calibration.date", "the %s %s is calibrated on %s, after today (%s): a calibration not yet made traces nothing; give the date of its last calibration",
+				r, si.Asset, si.CalDate.Format("2006-01-02"), today.Format("2006-01-02")))
+		}
 		if !ok || si.CalDue.IsZero() {
 			continue
 		}

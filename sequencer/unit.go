@@ -66,6 +66,11 @@ func (u *Unit) Fill(template string) string {
 }
 
 func newUnit(cfg Config, rec *Record, m mode) *Unit {
+	// Revision 1 applies each spec as it holds at the recorded ambient:
+	// widened by its tempco outside its band (Station.atAmbient).
+	if rec.Metrology >= 1 {
+		cfg.Station = cfg.Station.atAmbient(rec.Conditions)
+	}
 	return &Unit{Serial: rec.Serial, Rec: rec, cfg: cfg, seq: cfg.Sequence, mode: m, log: cfg.Log,
 		res: newResults(cfg.Sequence), kept: map[string]any{}, codes: map[string]int{}}
 }

@@ -51,9 +51,9 @@ func TestCheckFindsEverythingInOnePass(t *testing.T) {
 		`bad-brx200-station.yaml:10:7: id "TL 3" cannot stand in certificate numbers and file names`,
 		`bad-brx200-station.yaml:11:3: unknown field "nmae"`,
 		`bad-brx200-station.yaml:18:14: the calibration of the source STD-0117 ran out on 2030-05-31`,
-		`bad-brx200-station.yaml:26:14: warning: the calibration of the meter DMM-0203 runs out in 10 days`,
-		`bad-brx200-station.yaml:42:23: unknown unit "mX"`,
-		`bad-brx200-station.yaml:50:8: cannot use the signing key`,
+		`bad-brx200-station.yaml:34:14: warning: the calibration of the meter DMM-0203 runs out in 10 days`,
+		`bad-brx200-station.yaml:58:23: unknown unit "mX"`,
+		`bad-brx200-station.yaml:66:8: cannot use the signing key`,
 		`bad-brx200-sequence.yaml:11:9: the limit file bad-brx200-limits.yaml is for product "BRX-300"`,
 		"1 warning(s)", "6 problem(s)",
 	} {

@@ -153,7 +153,10 @@ unit takes a few seconds, as it would on a real bench.`,
 
 var (
 	calDueLine = regexp.MustCompile(`(?m)^(\s*cal_due:\s*)\d{4}-\d{2}-\d{2}`)
-	seedLine   = regexp.MustCompile(`(?m)^(\s*seed:\s*)"\d+"`)
+	// calDateLine is a calibration: block's date (the only date: key of the
+	// demo station files).
+	calDateLine = regexp.MustCompile(`(?m)^(\s*date:\s*)\d{4}-\d{2}-\d{2}`)
+	seedLine    = regexp.MustCompile(`(?m)^(\s*seed:\s*)"\d+"`)
 )
 
 // writeDemoFiles writes the default product's files into dir; see writeProductFiles.
@@ -167,7 +170,8 @@ func writeDemoFiles(dir string, seed uint64, now time.Time) (station, sequence s
 
 // writeProductFiles copies a demo product's embedded files into dir. The simulated
 // instruments' calibration due dates are set a year after now so the demo never
-// trips the expired-calibration check, and the seed is written into the station
+// trips the expired-calibration check (and their calibration dates two months
+// before now, within their 2-year specs), and the seed is written into the station
 // file, where the simulated bench reads it. The station gets a signing key named
 // after its id, and the demo's quality engineer a release key; keys/trust.yaml
 // trusts both.
@@ -182,6 +186,7 @@ func writeProductFiles(dir string, p sequences.Product, seed uint64, now time.Ti
 		}
 		if name == p.Station {
 			data = calDueLine.ReplaceAll(data, []byte("${1}"+now.AddDate(1, 0, 0).Format("2006-01-02")))
+			data = calDateLine.ReplaceAll(data, []byte("${1}"+now.AddDate(0, -2, 0).Format("2006-01-02")))
 			data = seedLine.ReplaceAll(data, []byte(`${1}"`+strconv.FormatUint(seed, 10)+`"`))
 		}
 		if err := os.WriteFile(filepath.Join(dir, name), data, 0o644); err != nil {

@@ -47,7 +47,8 @@ func TestCertificateCoversISO17025Items(t *testing.T) {
 		{"o", "who authorised the certificate", []string{"Signed by station key ed25519:"}, ""},
 		{"p", "results from external providers", nil, "all results are measured on this station; nothing comes from an external provider"},
 		// §7.8.4.1 / §7.8.6 additions for calibration certificates.
-		{"7.8.4.1", "uncertainty, conditions, traceability, before and after adjustment", []string{"k = 2", "Ambient 22.5 °C", "traceable", "As found", "As left"}, ""},
+		{"7.8.4.1", "uncertainty, conditions, traceability, before and after adjustment", []string{"k = 2", "Ambient 22.5 °C", "traceable", "As found", "As left",
+			"certificate KML-26-04439", "Kestrel Metrology Laboratory", "2 years spec, holds 18 °C to 28 °C"}, ""},
 		{"7.8.6", "conformity statement with the decision rule", []string{"Guarded acceptance", "ILAC-G8"}, ""},
 	}
 	for _, it := range items {

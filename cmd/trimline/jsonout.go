@@ -83,6 +83,9 @@ type unitOut struct {
 	RunID       string `json:"run_id"`
 	Verdict     string `json:"verdict"` // PASS, FAIL, REVIEW, FAULT or ABORTED
 	Engineering bool   `json:"engineering"`
+	// Simulated is the record's mark, "SIMULATED BENCH — NOT A MEASUREMENT",
+	// when any instrument of the run was simulated; left out otherwise.
+	Simulated   string `json:"simulated,omitempty"`
 	RetestOf    string `json:"retest_of"`   // run id of the earlier run this one retests; "" for a first test
 	Certificate string `json:"certificate"` // certificate number; "" when the run gets none (FAULT, ABORTED)
 	// CertificatePDF is the certificate's file, as the station wrote it (under
@@ -343,6 +346,9 @@ func newUnitOut(rec *sequencer.Record, cert, certDir string) unitOut {
 		Engineering: rec.Engineering, RetestOf: rec.RetestOf, Certificate: cert,
 		Started: rec.Started, Finished: rec.Finished, Reasons: nonNil(rec.Reasons), Fault: rec.Fault,
 		Results: []resultOut{}, Limits: []limitOut{}, TrimCodes: []trimOut{}}
+	if rec.Simulated != nil {
+		u.Simulated = rec.Simulated.Mark
+	}
 	if cert != "" {
 		u.CertificatePDF = filepath.Join(certDir, certificate.FileName(rec, certificate.Options{Number: cert}))
 	}

@@ -106,7 +106,7 @@ func TestRunExitCodes(t *testing.T) {
 	// Bad input caught at load: an address no driver serves.
 	os.WriteFile(broken, bytes.Replace(data, []byte("address: sim://meter"), []byte("address: sim://voltmeter"), 1), 0o644)
 	if code, _, errOut := runCLI(t, "run", "--station", broken, "--sequence", sequence, "--serial", "X", "--out", dir); code != exitUsage ||
-		!strings.Contains(errOut, "open.yaml:24:14:") {
+		!strings.Contains(errOut, "open.yaml:32:14:") {
 		t.Errorf("bad address: exit %d, want 2: %s", code, errOut)
 	}
 	// Station fault: the source refuses a level mid-sweep (its range is too small).

@@ -165,6 +165,14 @@ func runBatch(ctx context.Context, e *env, b batch) (*sequencer.Tally, error) {
 		}
 		cond = sequencer.Conditions{AmbientC: c, AmbientSource: "entered"}
 	}
+	if _, ok := cond.Ambient(); !ok {
+		for _, r := range st.Roles() {
+			if v := st.Instruments[r].Validity; v.HasBand {
+				log.Warn().Str("role", r).Str("band", v.BandText()).Msg("no ambient temperature entered (--ambient): the certificates will say the specifications were assumed to hold")
+				break
+			}
+		}
+	}
 	cfg := sequencer.Config{Station: st, Sequence: seq, Operator: b.operator,
 		Software: "trimline " + version(), Log: log, Conditions: cond, Engineering: b.engineering}
 	eng, err := sequencer.Open(ctx, cfg)

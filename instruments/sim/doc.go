@@ -10,7 +10,10 @@
 //
 // All names here (the maker "Trimline Sim", the VS-100M source, the DV-65 meter, the
 // RM-16 multiplexer, the BRX-200 card) are invented; no value is taken from a real
-// datasheet.
+// datasheet. The maker is instruments.SimulatedMaker: every simulated
+// instrument's *IDN? reply starts with it, served or not, which is how a record
+// tells the simulator reached over a real transport from a real instrument
+// (instruments.Simulated) and never claims traceability through it.
 //
 // Package sim/serve puts a bench on a real wire (loopback TCP, pseudo-terminals) for
 // the serial, tcp and usbtmc drivers.

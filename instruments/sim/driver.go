@@ -7,8 +7,10 @@ import (
 	"trimline/instruments"
 )
 
-// Maker is the invented maker every simulated instrument reports in its identity.
-const Maker = "Trimline Sim"
+// Maker is the invented maker every simulated instrument reports in its
+// identity: instruments.SimulatedMaker, by which a record tells a simulated
+// instrument reached over TCP or a serial line from a real one.
+const Maker = instruments.SimulatedMaker
 
 // Driver is the "sim" scheme driver, registered by this package's init.
 type Driver struct{}

@@ -188,7 +188,7 @@ func render(rec *sequencer.Record, opt Options) (*gofpdf.Fpdf, error) {
 	pdf.SetProducer("trimline/reports/certificate", true)
 	pdf.SetKeywords(keywords(opt.Number, rec.RunID, opt.ChainLink), false)
 
-	d := &doc{Doc: pdfdoc.Doc{PDF: pdf, Left: marginL, Width: contentW}, rec: rec, opt: opt}
+	d := &doc{Doc: pdfdoc.Doc{PDF: pdf, Left: marginL, Width: contentW}, rec: rec, opt: opt, sim: sequencer.SimulationOf(rec)}
 	d.Need = d.need
 	d.build()
 	if err := pdf.Error(); err != nil {

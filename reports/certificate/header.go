@@ -107,6 +107,9 @@ func (d *doc) header() {
 		when = "Run ended "
 	}
 	d.Cell(right-60, top+11.5, 60, 4, when+fmtTime(d.rec.Finished), pdfdoc.Small, "R")
+	if d.benchTime() {
+		d.Cell(right-60, top+14.8, 60, 4, "simulated-bench time, not the time of day", pdfdoc.Bold.Sized(6.8).With(colSimulated), "R")
+	}
 
 	d.Rule(d.Y, pdfdoc.Ink, 0.6)
 	d.Y += 4
@@ -117,6 +120,7 @@ func (d *doc) header() {
 		d.Cell(marginL, d.Y, contentW, 11, engineeringBanner, pdfdoc.Bold.Sized(18).With(pdfdoc.White), "C")
 		d.Y += 14
 	}
+	d.simulatedBanner()
 }
 
 // engineeringBanner marks every page of a certificate from an engineering run.
@@ -147,6 +151,9 @@ func (d *doc) identification() {
 		product += ",  revision " + r.Revision
 	}
 	tested := fmtTime(r.Finished)
+	if d.benchTime() {
+		tested += ", simulated-bench time"
+	}
 	if !r.Started.IsZero() && !r.Finished.IsZero() && r.Finished.After(r.Started) {
 		run := r.Finished.Sub(r.Started)
 		if soak := soakTime(r.Soaks); len(r.Soaks) > 0 && soak <= run {
@@ -194,6 +201,9 @@ func (d *doc) identification() {
 	const boxW, boxH = 54.0, 34.0
 	bx := marginL + contentW - boxW
 	c, note := d.verdictLook()
+	if d.simulated() {
+		note += " on a simulated bench"
+	}
 	d.FillRect(bx, top, boxW, boxH, c)
 	word := string(r.Verdict)
 	if word == "" {

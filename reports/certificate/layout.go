@@ -45,6 +45,9 @@ type doc struct {
 	opt Options
 	// sealH is the height the seal block takes at the foot of page 1.
 	sealH float64
+	// sim is what the record says of simulation (sequencer.SimulationOf):
+	// nil for a run on real instruments.
+	sim *sequencer.Simulation
 }
 
 // bottom is the lowest y the body may reach on the current page: above the

@@ -51,6 +51,7 @@ func (d *doc) footers() {
 		"This certificate shall not be reproduced except in full."
 	for p := 1; p <= n; p++ {
 		d.PDF.SetPage(p)
+		d.simulatedPage()
 		y := pdfdoc.PageH - 21
 		d.Rule(y, pdfdoc.Rule, 0.3)
 		ly := y + 1.8
