@@ -5,6 +5,7 @@ package sequencer
 // the sequence asks for it.
 
 import (
+	"fmt"
 	"math"
 
 	"trimline/sequencer/uncertainty"
@@ -60,4 +61,46 @@ func (a *analysis) fromResiduals(fullScale float64) error {
 	s.ResidualSD = math.Sqrt(rss / float64(s.DOF))
 	s.Nonlinearity = maxAbs / fullScale
 	return nil
+}
+
+// The offsets a trim or a coefficients step can bring to the ideal (their
+// offset: key).
+const (
+	OffsetLine     = "line"     // the best-fit line's output at zero input (the intercept)
+	OffsetTerminal = "terminal" // the output measured at zero input
+)
+
+// checkOffsetChoice checks a step's offset: key (defaulting it to the line)
+// and, for the terminal offset, that the fit it names has a level at zero
+// input; fit is nil when the step names no earlier fit (reported already).
+func checkOffsetChoice(c *Checker, offset *string, fit *StepDecl) {
+	switch *offset {
+	case "":
+		*offset = OffsetLine
+	case OffsetLine:
+	case OffsetTerminal:
+		if fit == nil {
+			return
+		}
+		if fs, ok := fit.Step.(*fitStep); ok && fs.sweep != nil && !fs.hasZero {
+			c.Errorf("offset", "offset: terminal trims the output measured at zero input: expected a level of 0 %s in %s (fit %q)", unitOf(c.Sequence().stimDim()), fs.levelsText(), fit.Name)
+		}
+	default:
+		c.Errorf("offset", "expected line (the best-fit line's output at zero input) or terminal (the output measured at zero input), found %q", *offset)
+	}
+}
+
+// offsetAt is the output at zero input a trim solves its offset for, with
+// its standard uncertainty: the fit's intercept (OffsetLine) or the mean
+// output measured at zero input (OffsetTerminal, that point's own
+// uncertainty, pointErrorU).
+func (fk fitKept) offsetAt(which string) (y0, u0 float64, err error) {
+	if which == OffsetTerminal {
+		if fk.zero == nil {
+			return 0, 0, fmt.Errorf("the fit has no point at zero input")
+		}
+		u0, _ = pointErrorU(*fk.zero, fk.a.poolDOF)
+		return fk.zero.Mean, u0, nil
+	}
+	return fk.a.sum.Intercept, math.Sqrt(fk.a.cov()[0][0]), nil
 }

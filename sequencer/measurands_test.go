@@ -215,3 +215,80 @@ func TestFitRandomRefused(t *testing.T) {
 		}
 	}
 }
+
+// offset: terminal trims the output measured at zero input to the ideal: on
+// the crossover unit the verify sweep's output at 0 V lands within the offset
+// DAC's half LSB (6.1 µV) and the noise of two means of 8 readings (20 µV
+// rms each: 3·√2·20/√8 ≈ 30 µV) of 2.5 V, where the default trim leaves it
+// about 114 µV off (the step's share of the line's intercept). DNL off: the
+// DAC's own code errors are not what this checks.
+func TestTrimToTerminalOffset(t *testing.T) {
+	set := map[string]map[string]string{"dut": {"defect_rate": "0", "dnl": "0"}}
+	run := func(seq string) *sequencer.Record {
+		e, cfg := kindsBench{seq: seq, set: set}.open(t)
+		return runReplayed(t, e, cfg, "BRX-00001")
+	}
+	line := run(demoSteps(t, verifyFit, verifyFitMore))
+	term := run(demoSteps(t, verifyFit, verifyFitMore, "    pivot: 2.5 V", "    pivot: 2.5 V\n    offset: terminal"))
+	for _, rec := range []*sequencer.Record{line, term} {
+		if rec.Verdict != sequencer.Pass {
+			t.Fatalf("verdict %s %v", rec.Verdict, rec.Reasons)
+		}
+	}
+	lt, tt := resultOf(t, line, "post_terminal_offset").Value, resultOf(t, term, "post_terminal_offset").Value
+	ll, tl := resultOf(t, line, "post_offset").Value, resultOf(t, term, "post_offset").Value
+	t.Logf("trim to the line: line %.1f µV, terminal %.1f µV; trim to the terminal: line %.1f µV, terminal %.1f µV", ll*1e6, lt*1e6, tl*1e6, tt*1e6)
+	if math.Abs(tt) > 36e-6 || math.Abs(ll) > 36e-6 {
+		t.Errorf("the offset each trim aims at is %.1f µV (terminal) and %.1f µV (line) off, want within 36 µV", tt*1e6, ll*1e6)
+	}
+	if math.Abs(lt) < 60e-6 || math.Abs(tl) < 60e-6 {
+		t.Errorf("the offset each trim does not aim at is %.1f µV and %.1f µV: the crossover should keep them apart", lt*1e6, tl*1e6)
+	}
+	if tc := trimOf(t, term, "offset"); tc.Offset != "terminal" || trimOf(t, line, "offset").Offset != "" || trimOf(t, term, "gain").Offset != "" {
+		t.Errorf("the record should say the offset DAC was trimmed to the terminal offset: %+v", tc)
+	}
+	if trimOf(t, term, "gain").Code != trimOf(t, line, "gain").Code {
+		t.Errorf("the gain code should not depend on the offset chosen")
+	}
+}
+
+// The choice is refused where it cannot be made, at its key.
+func TestTrimOffsetChoiceRefused(t *testing.T) {
+	for _, c := range []struct{ seq, want string }{
+		{demoSteps(t, "    pivot: 2.5 V", "    pivot: 2.5 V\n    offset: middle"), `expected line (the best-fit line's output at zero input) or terminal (the output measured at zero input), found "middle"`},
+		{demoSteps(t, preSweep, `  - kind: sweep
+    name: pre-trim
+    levels: [-10 mV, -5 mV, 5 mV, 10 mV]
+`, "    pivot: 2.5 V", "    pivot: 2.5 V\n    offset: terminal"), `offset: terminal trims the output measured at zero input: expected a level of 0 V in sweep "pre-trim" (-10 mV … 10 mV, 4 levels) (fit "pre-trim fit")`},
+	} {
+		_, err := sequencer.ParseSequence("brx200-sequence.yaml", []byte(c.seq), demoReader(t, nil))
+		if err == nil || !strings.Contains(err.Error(), c.want) || !strings.Contains(err.Error(), "brx200-sequence.yaml:") {
+			t.Errorf("error %v\nwant file:line:col and %q", err, c.want)
+		}
+	}
+}
+
+// The coefficients step solves its offset on the output measured at zero input
+// when told to: m = Y0 − k·y0 with k = G/s (hand-derived from corrected =
+// k·raw + m at raw = y0), against the record's own point and fit.
+func TestCoefficientsToTerminalOffset(t *testing.T) {
+	seq := strings.Replace(coefSeq, "    fit: raw fit\n", "    fit: raw fit\n    offset: terminal\n", 1)
+	e, cfg := coefBench(t, seq)
+	rec := runReplayed(t, e, cfg, "BRX-00001")
+	if rec.Verdict != sequencer.Pass {
+		t.Fatalf("verdict %s %v %s", rec.Verdict, rec.Reasons, rec.Fault)
+	}
+	fit := rec.Fits[0]
+	y0 := pointAt(t, rec, "raw", 0).Mean
+	k := cfg.Sequence.IdealGain / fit.Slope
+	ws := coefWrites(rec, "correct")
+	if len(ws) != 2 {
+		t.Fatalf("writes %+v", ws)
+	}
+	if want := (cfg.Sequence.IdealOffset - k*y0) * 1e3; math.Abs(ws[1].Ideal-want) > 1e-12*math.Abs(want) {
+		t.Errorf("offset coefficient %.9g mV, want %.9g mV (on the output at 0 V, not the intercept's %.9g mV)", ws[1].Ideal, want, (cfg.Sequence.IdealOffset-k*fit.Intercept)*1e3)
+	}
+	if ws[1].IdealU <= 0 {
+		t.Errorf("offset coefficient without uncertainty: %+v", ws[1])
+	}
+}

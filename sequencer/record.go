@@ -307,6 +307,10 @@ type TrimCode struct {
 	Readback  int     `json:"readback"`
 	Saturated bool    `json:"saturated"`
 	Stored    bool    `json:"stored"` // committed to non-volatile memory
+	// Offset is "terminal" for an offset DAC whose code brings the output
+	// measured at zero input to the ideal offset (the trim's offset:
+	// terminal); "" when it brings the best-fit line's output there.
+	Offset string `json:"offset,omitempty"`
 }
 
 // Result is one named number a limit may judge. Value is in SI base units (volts,
