@@ -45,9 +45,9 @@ func measurandRecord(judged bool) *sequencer.Record {
 func TestCertificateNamesMeasurands(t *testing.T) {
 	text := pdfText(t, render(t, measurandRecord(true), opt))
 	requireText(t, text,
-		"best-fit-line offset (fit “verify fit”)",          // the post_offset limit's measurand line
-		"Best-fit-line offset",                              // the fits table's column
-		"Line at 0 V in",                                    // not "output at 0 V in": the line's value there
+		"best-fit-line offset (fit “verify fit”)",                            // the post_offset limit's measurand line
+		"Best-fit-line offset",                                               // the fits table's column
+		"Line at 0 V in",                                                     // not "output at 0 V in": the line's value there
 		"post_terminal_offset", "terminal offset at 0 V in (sweep “verify”)", // listed with the other results, saying what it is
 		"Lack of fit", "χ²/ν 131", "ν 9 · p < 0.0001", "not adequate",
 		"p < 0.01 (a 1 % significance level, common practice)", "JCGM 100:2008 §4.1.2",
