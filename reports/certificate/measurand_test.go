@@ -34,6 +34,11 @@ func measurandRecord(judged bool) *sequencer.Record {
 			res.Step = "verify fit"
 		}
 	}
+	for i := range r.Trims {
+		if r.Trims[i].DAC == "offset" && judged {
+			r.Trims[i].Offset = sequencer.OffsetTerminal // the trim's offset: terminal
+		}
+	}
 	r.Results = append(r.Results, sequencer.Result{Name: "post_terminal_offset", Step: "verify fit", Quantity: "terminal_offset",
 		Value: -126e-6, Unit: "V", Valid: true, Unc: unc(88e-6, 1e4, 2, "GUM")})
 	return r
@@ -53,7 +58,7 @@ func TestCertificateNamesMeasurands(t *testing.T) {
 		"p < 0.01 (a 1 % significance level, common practice)", "JCGM 100:2008 §4.1.2",
 		"The straight-line model is not adequate for fit “verify fit”",
 		"the straight-line model is not adequate for fit “verify fit” (JCGM 100:2008 §4.1.2)", // page 1
-		"†")
+		"†", "to the terminal offset")
 	if strings.Contains(flat(text), "not adequate for fits “pre-trim fit”") {
 		t.Error("the pre-trim fit (p = 0.58) is called not adequate")
 	}
@@ -64,7 +69,7 @@ func TestCertificateNamesMeasurands(t *testing.T) {
 func TestCertificateOldRecordNoAdequacy(t *testing.T) {
 	text := flat(pdfText(t, render(t, measurandRecord(false), opt)))
 	requireText(t, text, "Lack of fit", "χ²/ν 131")
-	for _, no := range []string{"not adequate", "Criterion:"} {
+	for _, no := range []string{"not adequate", "Criterion:", "to the terminal offset"} {
 		if strings.Contains(text, no) {
 			t.Errorf("a record that did not judge its model says %q", no)
 		}
