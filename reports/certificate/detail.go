@@ -232,7 +232,7 @@ func (d *doc) fitsTitle() string {
 	for _, f := range d.rec.Fits {
 		if f.Order == 2 {
 			z := "0 " + d.stim().zeroName()
-			return "Fits of the sweeps (gain and output at " + z + " in: the slope and value at " + z + ")"
+			return "Fits of the sweeps (a quadratic's gain and line at " + z + " in: its slope and value at " + z + ")"
 		}
 	}
 	return "Straight-line fits"

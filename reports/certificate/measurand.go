@@ -52,6 +52,10 @@ func (d *doc) measurand(r sequencer.Result) string {
 		text = fmt.Sprintf(text, d.stim().zeroName())
 	}
 	f, found := d.fitOf(r)
+	if found && f.Order == 2 {
+		text = strings.Replace(text, "best-fit line", "best-fit quadratic", 1)
+		text = strings.Replace(text, "best-fit-line", "best-fit-quadratic", 1)
+	}
 	switch {
 	case !found && r.Step != "":
 		text += " (step “" + r.Step + "”)"

@@ -75,3 +75,17 @@ func TestCertificateOldRecordNoAdequacy(t *testing.T) {
 		}
 	}
 }
+
+// A quadratic's offset is the curve's value at 0 V in, and the certificate
+// says so rather than calling it a line's.
+func TestCertificateQuadraticMeasurand(t *testing.T) {
+	r := measurandRecord(true)
+	for i := range r.Fits {
+		if r.Fits[i].Sweep == "verify" {
+			r.Fits[i].Order = 2
+		}
+	}
+	text := pdfText(t, render(t, r, opt))
+	requireText(t, text, "best-fit-quadratic offset (fit “verify fit”)", "best-fit-line offset (fit “pre-trim fit”)",
+		"a quadratic's gain and line at 0 V in: its slope and value at 0 V")
+}
