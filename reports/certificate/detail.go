@@ -589,6 +589,10 @@ func (d *doc) sweepPoints(ts []pointTable) {
 		d.Table(t.cols, t.rows, nil, t.groups...)
 	}
 	note := "Error = mean output − ideal output; s is the standard deviation of the valid readings at the point."
+	if d.hasFits() && d.hasZeroPoint() {
+		z := "0 " + d.stim().zeroName()
+		note += " † At " + z + " in the error is the terminal offset (the output measured at zero input less the ideal offset), not the best-fit-line offset of the fits table."
+	}
 	if d.otherQuantity() {
 		note += " A measurement of another quantity than the unit's output (a supply current) has no ideal and no error."
 	}

@@ -239,3 +239,16 @@ func (d *doc) fitsNoteTexts() []string {
 // hasFits reports whether the record holds a fit, whose notes explain the † at
 // the error at zero input.
 func (d *doc) hasFits() bool { return len(d.rec.Fits) > 0 }
+
+// hasZeroPoint reports whether a sweep of the record has a valid point at
+// zero input, which the sweep points mark with †.
+func (d *doc) hasZeroPoint() bool {
+	for _, sw := range d.rec.Sweeps {
+		for _, p := range sw.Points {
+			if p.Stimulus == 0 && p.Valid > 0 {
+				return true
+			}
+		}
+	}
+	return false
+}

@@ -58,7 +58,7 @@ func TestCertificateNamesMeasurands(t *testing.T) {
 		"p < 0.01 (a 1 % significance level, common practice)", "JCGM 100:2008 §4.1.2",
 		"The straight-line model is not adequate for fit “verify fit”",
 		"the straight-line model is not adequate for fit “verify fit” (JCGM 100:2008 §4.1.2)", // page 1
-		"†", "to the terminal offset")
+		"†", "to the terminal offset", "† At 0 V in the error is the terminal offset")
 	if strings.Contains(flat(text), "not adequate for fits “pre-trim fit”") {
 		t.Error("the pre-trim fit (p = 0.58) is called not adequate")
 	}
