@@ -82,7 +82,7 @@ func checkOffsetChoice(c *Checker, offset *string, fit *StepDecl) {
 		if fit == nil {
 			return
 		}
-		if fs, ok := fit.Step.(*fitStep); ok && fs.sweep != nil && !fs.hasZero {
+		if fs, ok := fit.Step.(*fitStep); ok && !fs.hasZero {
 			c.Errorf("offset", "offset: terminal trims the output measured at zero input: expected a level of 0 %s in %s (fit %q)", unitOf(c.Sequence().stimDim()), fs.levelsText(), fit.Name)
 		}
 	default:

@@ -122,6 +122,14 @@ func (f *fitStep) Check(c *Checker) {
 			}
 		}
 	}
+	// A sweep refused already (too few points) is not reported again: its
+	// levels count as holding zero.
+	f.hasZero = f.sweep == nil || f.sweep.Plan.Points < MinPoints
+	if f.sweep != nil {
+		for _, x := range f.sweep.Plan.Levels() {
+			f.hasZero = f.hasZero || x == 0 && x >= f.lo && x <= f.hi
+		}
+	}
 	if f.sweep != nil && f.Order >= 1 && f.Order <= 2 && f.sweep.Plan.Points >= MinPoints { // a sweep refused already is not counted again
 		// A curve through as many distinct levels as it has coefficients fits them
 		// exactly: its residuals, nonlinearity and lack of fit would mean nothing.
@@ -131,7 +139,6 @@ func (f *fitStep) Check(c *Checker) {
 				distinct[x] = true
 			}
 		}
-		f.hasZero = distinct[0]
 		if n := len(distinct); n < f.Order+2 {
 			key, where := "order", "the sweep has"
 			if f.Window != nil {
@@ -150,7 +157,7 @@ func (f *fitStep) Check(c *Checker) {
 			c.Errorf("results."+what, "unknown fit result %q (expected one of %s)", what, keysText(fitOutputs))
 			continue
 		}
-		if what == "terminal_offset" && f.sweep != nil && !f.hasZero {
+		if what == "terminal_offset" && !f.hasZero {
 			c.Errorf("results."+what, "the terminal offset is the output measured at zero input: expected a level of 0 %s in %s", unitOf(c.Sequence().stimDim()), f.levelsText())
 		}
 		dim, about := o.dim, o.about
