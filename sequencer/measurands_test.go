@@ -9,6 +9,7 @@ import (
 	"strings"
 	"testing"
 
+	"trimline/instruments/units"
 	"trimline/sequencer"
 	"trimline/sequencer/uncertainty"
 )
@@ -290,5 +291,13 @@ func TestCoefficientsToTerminalOffset(t *testing.T) {
 	}
 	if ws[1].IdealU <= 0 {
 		t.Errorf("offset coefficient without uncertainty: %+v", ws[1])
+	}
+}
+
+// A terminal offset of a unit that reports counts is a count it reported, not
+// a trim code.
+func TestTerminalOffsetInCounts(t *testing.T) {
+	if u := (sequencer.ResultDef{Dim: units.Count, Quantity: "terminal_offset"}).Unit(); u != "count" {
+		t.Errorf("unit %q, want count", u)
 	}
 }
