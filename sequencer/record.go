@@ -315,6 +315,10 @@ type FitSummary struct {
 	DOFEff   float64       `json:"dof_eff"` // effective dof of the intercept's uncertainty
 	// LackOfFit says how well the model fits the points beyond their own scatter.
 	LackOfFit *LackOfFit `json:"lack_of_fit,omitempty"`
+	// Random is "residuals" when the random part of the line's uncertainty is
+	// the residual scatter (JCGM 100 H.3, the fit step's random: residuals);
+	// "" when it is the readings' pooled standard deviation.
+	Random string `json:"random,omitempty"`
 }
 
 // LackOfFit is a fit's lack-of-fit statistic: χ²/ν of the residuals against the
@@ -327,6 +331,11 @@ type LackOfFit struct {
 	DOF1      float64 `json:"dof1"`
 	DOF2      float64 `json:"dof2,omitempty"` // F only
 	P         float64 `json:"p"`              // probability of a statistic this large from a model that fits
+	// Alpha is the significance level the model was judged at (LackOfFitAlpha;
+	// 0 in records of metrology revision 0, which did not judge it), Adequate
+	// whether P ≥ Alpha: the model describes the points (JCGM 100 §4.1.2).
+	Alpha    float64 `json:"alpha,omitempty"`
+	Adequate bool    `json:"adequate,omitempty"`
 }
 
 // TrimCode is one trim DAC's computed, written and read-back code.
@@ -341,6 +350,10 @@ type TrimCode struct {
 	Readback  int     `json:"readback"`
 	Saturated bool    `json:"saturated"`
 	Stored    bool    `json:"stored"` // committed to non-volatile memory
+	// Offset is "terminal" for an offset DAC whose code brings the output
+	// measured at zero input to the ideal offset (the trim's offset:
+	// terminal); "" when it brings the best-fit line's output there.
+	Offset string `json:"offset,omitempty"`
 }
 
 // Result is one named number a limit may judge. Value is in SI base units (volts,

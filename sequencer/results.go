@@ -169,7 +169,7 @@ func (d ResultDef) Unit() string {
 
 // measuredQuantities are the quantities that are in the response's dimension:
 // a Count result of one of them is a count the unit reported, not a trim code.
-var measuredQuantities = map[string]bool{"offset": true, "max_error": true, "noise": true, "error": true, "mean": true,
+var measuredQuantities = map[string]bool{"offset": true, "terminal_offset": true, "max_error": true, "noise": true, "error": true, "mean": true,
 	"offset_coefficient": true} // an offset coefficient in counts is a number of counts the unit adds
 
 // PhysicalRanges returns the physical range of every result whose range is known,

@@ -23,6 +23,10 @@ func init() {
 type coefStep struct {
 	Fit     string            `yaml:"fit"`
 	Results map[string]string `yaml:"results"`
+	// Offset is the offset the offset coefficient brings to the ideal: "line"
+	// (the default: the best-fit line's output at zero input) or "terminal"
+	// (the output measured at zero input).
+	Offset string `yaml:"offset"`
 
 	order []string      // the order of Results' keys when not read from a file
 	coefs []Coefficient // the sequence's, gain first
@@ -45,6 +49,9 @@ func (s *coefStep) Check(c *Checker) {
 		c.Errorf("", "missing required key \"fit\" (the name of an earlier fit step of the unit with no correction)")
 	} else if d := c.Earlier("fit", s.Fit, "fit"); d != nil {
 		s.checkUncorrected(c, d)
+		checkOffsetChoice(c, &s.Offset, d)
+	} else {
+		checkOffsetChoice(c, &s.Offset, nil)
 	}
 	for _, what := range orderedKeys(c, "results", s.Results, s.order) {
 		k, ok := seq.Coefficient(what)
@@ -162,7 +169,13 @@ func (s *coefStep) Run(ctx context.Context, u *Unit) error {
 	_, hasGain := seq.Coefficient(AdjustGain)
 	_, hasOffset := seq.Coefficient(AdjustOffset)
 	plan := CoefficientPlan{Gain: hasGain, Offset: hasOffset}
-	vals, err := plan.Values(fk.a.sum.Slope, fk.a.sum.Intercept, seq.IdealGain, seq.IdealOffset)
+	// With offset: terminal, c is the output measured at zero input: the
+	// corrected output there is then the ideal offset.
+	y0, u0, err := fk.offsetAt(s.Offset)
+	var vals CoefficientValues
+	if err == nil {
+		vals, err = plan.Values(fk.a.sum.Slope, y0, seq.IdealGain, seq.IdealOffset)
+	}
 	if err != nil {
 		u.Fail("cannot compute coefficients: " + err.Error())
 		u.End("cannot compute coefficients: " + err.Error())
@@ -179,8 +192,27 @@ func (s *coefStep) Run(ctx context.Context, u *Unit) error {
 			ideal[i] = vals.M / k.UnitSI
 		}
 		fitU[i], fitDOF[i] = fk.a.linear(grad)
+		if k.Adjusts == AdjustOffset && s.Offset == OffsetTerminal {
+			fitU[i], fitDOF[i] = terminalCoefU(fk, vals, u0, k.UnitSI)
+		}
 	}
 	return writeCoefficients(ctx, u, s.coefs, s.Results, ideal, fitU, fitDOF)
+}
+
+// terminalCoefU is the standard uncertainty and dof of the offset coefficient
+// m = Y0 − k·y0 solved on the output y0 measured at zero input (u0 its
+// standard uncertainty), in the coefficient's unit (unitSI per unit): to first
+// order (JCGM 100 §5.1.2) u²(m) = k²·u0² + (∂m/∂s)²·u²(s), with u(s) the
+// slope's from the fit. The covariance of y0 and the slope (the meter's gain
+// error they share) is left out: its term is of the order of y0·u(s)/s, the
+// offset times the slope's relative uncertainty, far below k·u0.
+func terminalCoefU(fk fitKept, v CoefficientValues, u0, unitSI float64) (u, dof float64) {
+	us, ds := fk.a.linear([2]float64{0, 1})
+	_, d0 := pointErrorU(*fk.zero, fk.a.poolDOF)
+	return uncertainty.Combine([]uncertainty.Component{
+		{Name: "output at zero input", U: v.DM[0] * u0 / unitSI, DOF: d0},
+		{Name: "slope", U: v.DM[1] * us / unitSI, DOF: ds},
+	})
 }
 
 // writeCoefficients encodes ideal[i] (in coefficient i's unit, with standard

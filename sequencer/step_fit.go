@@ -7,6 +7,7 @@ import (
 	"context"
 	"fmt"
 	"math"
+	"slices"
 	"sort"
 	"strings"
 
@@ -25,12 +26,19 @@ var fitOutputs = map[string]struct {
 	about string
 	rng   func(f *fitStep) func(*Sequence) (float64, float64, bool)
 }{
-	"offset":       {units.Volt, "output error at zero input, V", func(*fitStep) func(*Sequence) (float64, float64, bool) { return outputError }},
-	"gain_error":   {units.Ratio, "slope/ideal − 1, fraction", func(*fitStep) func(*Sequence) (float64, float64, bool) { return fixedRange(-1, 1) }},
-	"nonlinearity": {units.Ratio, "max |residual| / full scale, fraction", func(*fitStep) func(*Sequence) (float64, float64, bool) { return fixedRange(0, 1) }},
-	"max_error":    {units.Volt, "max |mean − ideal| over the fitted levels, V", func(f *fitStep) func(*Sequence) (float64, float64, bool) { return f.maxErrorRange }},
-	"noise":        {units.Volt, "pooled standard deviation of the readings, V rms", func(*fitStep) func(*Sequence) (float64, float64, bool) { return noiseRange }},
-	"lack_of_fit":  {units.Number, "χ²/ν of the residuals against the points' uncertainties, or F against pure error where levels repeat", func(*fitStep) func(*Sequence) (float64, float64, bool) { return nil }},
+	// Two offsets, two measurands: the best-fit line's output at zero input (the
+	// intercept, what offset meant from the start) and the output measured at
+	// the zero-input level (the terminal offset). They differ wherever the
+	// transfer is not a straight line.
+	"offset":          {units.Volt, "best-fit-line offset: the fitted line's output at zero input − ideal offset, V", func(*fitStep) func(*Sequence) (float64, float64, bool) { return outputError }},
+	"line_offset":     {units.Volt, "best-fit-line offset (the same as offset), V", func(*fitStep) func(*Sequence) (float64, float64, bool) { return outputError }},
+	"terminal_offset": {units.Volt, "terminal offset: mean output measured at the zero-input level − ideal offset, V", func(*fitStep) func(*Sequence) (float64, float64, bool) { return outputError }},
+	"gain_error":      {units.Ratio, "slope/ideal − 1, fraction", func(*fitStep) func(*Sequence) (float64, float64, bool) { return fixedRange(-1, 1) }},
+	"nonlinearity":    {units.Ratio, "max |residual| / full scale, fraction", func(*fitStep) func(*Sequence) (float64, float64, bool) { return fixedRange(0, 1) }},
+	"max_error":       {units.Volt, "max |mean − ideal| over the fitted levels, V", func(f *fitStep) func(*Sequence) (float64, float64, bool) { return f.maxErrorRange }},
+	"noise":           {units.Volt, "pooled standard deviation of the readings, V rms", func(*fitStep) func(*Sequence) (float64, float64, bool) { return noiseRange }},
+	"lack_of_fit":     {units.Number, "χ²/ν of the residuals against the points' uncertainties, or F against pure error where levels repeat", func(*fitStep) func(*Sequence) (float64, float64, bool) { return nil }},
+	"lack_of_fit_p":   {units.Ratio, "probability of a lack-of-fit statistic this large from a model that fits, fraction", func(*fitStep) func(*Sequence) (float64, float64, bool) { return fixedRange(0, 1) }},
 }
 
 // fitStep is a fit as the sequence file writes it.
@@ -42,17 +50,33 @@ type fitStep struct {
 		To   *level `yaml:"to"`
 	} `yaml:"window"`
 	Results map[string]string `yaml:"results"`
+	// Random is where the random part of the line's uncertainty comes from:
+	// "readings" (the default: the readings' pooled standard deviation) or
+	// "residuals" (the residual scatter about the line, JCGM 100 H.3).
+	Random string `yaml:"random"`
 
 	order  []string // the order of Results' keys when not read from a file
 	sweep  *sweepStep
 	lo, hi float64     // window, stimulus in SI units (±Inf = none)
 	outs   [][2]string // (what, result name), in the file's order
+	// hasZero says the fitted levels include zero input (a terminal offset
+	// can be measured).
+	hasZero bool
 }
 
 // fitKept is what a fit leaves for later steps.
 type fitKept struct {
 	a analysis
+	// zero is the fitted sweep's point at zero input (the readings of every
+	// zero level pooled), nil when the fitted levels have none.
+	zero *Point
 }
+
+// Where a fit's random uncertainty comes from (fitStep.Random).
+const (
+	RandomReadings  = "readings"
+	RandomResiduals = "residuals"
+)
 
 func (f *fitStep) Check(c *Checker) {
 	if f.Sweep == "" {
@@ -72,6 +96,20 @@ func (f *fitStep) Check(c *Checker) {
 	default:
 		c.Errorf("order", "expected order 1 (a straight line) or 2 (a quadratic), found %d", f.Order)
 	}
+	switch f.Random {
+	case "":
+		f.Random = RandomReadings
+	case RandomReadings:
+	case RandomResiduals:
+		if f.Order == 2 {
+			c.Errorf("random", "random: residuals takes a straight line's uncertainty from its residuals (JCGM 100 H.3): use order 1")
+		}
+		if c.Sequence().Uncertainty == "monte_carlo" {
+			c.Errorf("random", "random: residuals is evaluated by the law of propagation (JCGM 100 H.3) only: use uncertainty method gum or random: readings")
+		}
+	default:
+		c.Errorf("random", "expected readings (the readings' pooled standard deviation) or residuals (the scatter about the line, JCGM 100 H.3), found %q", f.Random)
+	}
 	f.lo, f.hi = math.Inf(-1), math.Inf(1)
 	if w := f.Window; w != nil {
 		if w.From == nil || w.To == nil {
@@ -82,6 +120,14 @@ func (f *fitStep) Check(c *Checker) {
 			if ok1 && ok2 {
 				f.lo, f.hi = min(from, to), max(from, to)
 			}
+		}
+	}
+	// A sweep refused already (too few points) is not reported again: its
+	// levels count as holding zero.
+	f.hasZero = f.sweep == nil || f.sweep.Plan.Points < MinPoints
+	if f.sweep != nil {
+		for _, x := range f.sweep.Plan.Levels() {
+			f.hasZero = f.hasZero || x == 0 && x >= f.lo && x <= f.hi
 		}
 	}
 	if f.sweep != nil && f.Order >= 1 && f.Order <= 2 && f.sweep.Plan.Points >= MinPoints { // a sweep refused already is not counted again
@@ -111,12 +157,19 @@ func (f *fitStep) Check(c *Checker) {
 			c.Errorf("results."+what, "unknown fit result %q (expected one of %s)", what, keysText(fitOutputs))
 			continue
 		}
+		if what == "terminal_offset" && !f.hasZero {
+			c.Errorf("results."+what, "the terminal offset is the output measured at zero input: expected a level of 0 %s in %s", unitOf(c.Sequence().stimDim()), f.levelsText())
+		}
 		dim, about := o.dim, o.about
 		if dim == units.Volt { // in the response's unit: V, A or count
 			dim = c.Sequence().ResponseDim
 			about = strings.Replace(about, ", V", ", "+unitOf(dim), 1)
 		}
-		c.Declare("results."+what, ResultDef{Name: name, Dim: dim, Quantity: what, About: about, Range: o.rng(f)})
+		quantity := what
+		if what == "line_offset" {
+			quantity = "offset" // one measurand, two names
+		}
+		c.Declare("results."+what, ResultDef{Name: name, Dim: dim, Quantity: quantity, About: about, Range: o.rng(f)})
 		f.outs = append(f.outs, [2]string{what, name})
 	}
 }
@@ -164,16 +217,44 @@ func (f *fitStep) Run(_ context.Context, u *Unit) error {
 		u.End(note)
 		return nil
 	}
+	if f.Random == RandomResiduals {
+		if err := a.fromResiduals(u.seq.FullScale); err != nil {
+			note := fmt.Sprintf("%s sweep: residual uncertainty: %v", f.Sweep, err)
+			for _, o := range f.outs {
+				u.Invalid(o[1], note)
+			}
+			u.End(note)
+			return nil
+		}
+	}
 	a.sum.Step, a.sum.Channel = u.step.Name, u.channel
+	if lof := a.sum.LackOfFit; lof != nil && u.Metrology() >= 1 {
+		lof.judge()
+	}
 	u.Rec.Fits = append(u.Rec.Fits, a.sum)
-	u.Keep(fitKept{a: a})
+	zero, hasZero := zeroPoint(sw.Points)
+	fk := fitKept{a: a}
+	if hasZero {
+		fk.zero = &zero
+	}
+	u.Keep(fk)
 	seq := u.seq
 	for _, o := range f.outs {
 		switch name := o[1]; o[0] {
-		case "offset":
+		case "offset", "line_offset":
 			uo, do := a.linear([2]float64{1, 0})
 			u.SetU(name, a.sum.Intercept-seq.IdealOffset, u.Unc(uo, do))
 			u.SetBudget(name, a.budget([2]float64{1, 0}, kept.plan, seq))
+		case "terminal_offset":
+			// The output measured at zero input, with that point's own
+			// uncertainty: its Type A part from the pooled standard deviation
+			// (poolDOF degrees of freedom) and the meter and source specs there.
+			if !hasZero {
+				u.Invalid(name, "no point at zero input")
+				continue
+			}
+			tu, dof := pointErrorU(zero, a.poolDOF)
+			u.SetU(name, zero.Mean-seq.IdealOffset, u.Unc(tu, dof))
 		case "gain_error":
 			ug, dg := a.linear([2]float64{0, 1 / seq.IdealGain})
 			u.SetU(name, a.sum.Slope/seq.IdealGain-1, u.Unc(math.Abs(ug), dg))
@@ -231,9 +312,66 @@ func (f *fitStep) Run(_ context.Context, u *Unit) error {
 			} else {
 				u.Invalid(name, "no lack-of-fit statistic: the points carry no random uncertainty")
 			}
+		case "lack_of_fit_p":
+			if lof := a.sum.LackOfFit; lof != nil && finite(lof.P) {
+				u.Set(name, lof.P)
+			} else {
+				u.Invalid(name, "no lack-of-fit statistic: the points carry no random uncertainty")
+			}
 		}
 	}
 	return nil
+}
+
+// levelsText names the levels a fit uses, for a message: "sweep "pre" (-10 mV …
+// 10 mV, 11 points)" or "the window 1 mV … 10 mV of sweep "pre"".
+func (f *fitStep) levelsText() string {
+	ls := f.sweep.Plan.Levels()
+	if len(ls) == 0 {
+		return fmt.Sprintf("sweep %q", f.Sweep)
+	}
+	lo, hi := slices.Min(ls), slices.Max(ls)
+	text := func(v float64) string { return fmtStim(f.sweep.Plan.stimDim(), v) }
+	if f.Window != nil {
+		return fmt.Sprintf("the window %s … %s of sweep %q", text(f.lo), text(f.hi), f.Sweep)
+	}
+	return fmt.Sprintf("sweep %q (%s … %s, %d levels)", f.Sweep, text(lo), text(hi), len(ls))
+}
+
+// zeroPoint is the sweep's point at zero input: the readings of every point at
+// a programmed 0 taken together (their mean weighted by the number of valid
+// readings, the Type A uncertainty of that mean from the pooled standard
+// deviation, the systematic part of the first: the same instruments at the same
+// level), or false when no point is at 0.
+func zeroPoint(ps []Point) (Point, bool) {
+	var out Point
+	var n int
+	var sum, invVar float64
+	for _, p := range ps {
+		if p.Stimulus != 0 || p.Valid == 0 {
+			continue
+		}
+		if n == 0 {
+			out = p
+		}
+		n += p.Valid
+		sum += p.Mean * float64(p.Valid)
+		if p.URandom > 0 {
+			invVar += 1 / (p.URandom * p.URandom)
+		}
+		out.USys = math.Max(out.USys, p.USys)
+	}
+	if n == 0 {
+		return Point{}, false
+	}
+	if n != out.Valid { // more than one zero level
+		out.Mean, out.Valid, out.Readings = sum/float64(n), n, nil
+		out.URandom = 0
+		if invVar > 0 {
+			out.URandom = 1 / math.Sqrt(invVar)
+		}
+	}
+	return out, true
 }
 
 // maxErrorRange is the range of the largest deviation of a fitted point from the

@@ -136,6 +136,10 @@ type trimStep struct {
 	DACs    []string          `yaml:"dacs"`
 	Pivot   *units.Quantity   `yaml:"pivot"`
 	Results map[string]string `yaml:"results"`
+	// Offset is the offset the trim brings to the ideal: "line" (the default:
+	// the best-fit line's output at zero input) or "terminal" (the output
+	// measured at zero input).
+	Offset string `yaml:"offset"`
 
 	order []string // the order of Results' keys when not read from a file
 	plan  TrimPlan
@@ -152,6 +156,9 @@ func (s *trimStep) Check(c *Checker) {
 		c.Errorf("", "missing required key \"fit\" (the name of an earlier fit step whose line the codes correct)")
 	} else if d := c.Earlier("fit", s.Fit, "fit"); d != nil {
 		s.atFit = coefStepsBefore(c, d)
+		checkOffsetChoice(c, &s.Offset, d)
+	} else {
+		checkOffsetChoice(c, &s.Offset, nil)
 	}
 	s.plan = TrimPlan{DACs: dacsOf(c, "dacs", s.DACs), Pivot: c.Sequence().IdealOffset}
 	if q := s.Pivot; q != nil {
@@ -261,15 +268,23 @@ func (s *trimStep) Run(ctx context.Context, u *Unit) error {
 	// moves the raw output (its corrected step is k·LSB). The trim solves on the
 	// raw line: the fit's line under the correction its sweep was measured with,
 	// brought to the ideal under the correction the unit holds now.
+	//
+	// With offset: terminal the line is moved to pass through the output
+	// measured at zero input, with the fit's slope: the offset codes then
+	// bring that output, not the line's intercept, to the ideal offset.
 	kf, mf := coefInEffect(u, s.atFit)
 	k, m := coefInEffect(u, nil)
-	sol, err := ComputeTrim(s.plan, fk.a.sum.Slope/kf, (fk.a.sum.Intercept-mf)/kf, before, seq.IdealGain/k, (seq.IdealOffset-m)/k)
+	y0, u0, err := fk.offsetAt(s.Offset)
+	var sol TrimSolution
+	if err == nil {
+		sol, err = ComputeTrim(s.plan, fk.a.sum.Slope/kf, (y0-mf)/kf, before, seq.IdealGain/k, (seq.IdealOffset-m)/k)
+	}
 	if err != nil {
 		u.Fail("cannot compute trim codes: " + err.Error())
 		u.End("cannot compute trim: " + err.Error())
 		return nil
 	}
-	idealU := idealCodeU(s.plan, fk.a, sol, before)
+	idealU := idealCodeU(s.plan, fk.a, sol, before, u0)
 	for i, d := range s.plan.DACs {
 		idealU[i] = codeUOnRawLine(d, idealU[i], kf)
 	}
@@ -277,6 +292,9 @@ func (s *trimStep) Run(ctx context.Context, u *Unit) error {
 	for i, d := range dacs {
 		t, c := trimEntry(u, d.Name), sol.Codes[i]
 		t.Ideal, t.Code, t.Saturated, t.IdealU = c.Ideal, c.Code, c.Saturated, idealU[i]
+		if d.Adjusts == AdjustOffset && s.Offset == OffsetTerminal {
+			t.Offset = OffsetTerminal
+		}
 		if c.Saturated {
 			sat = append(sat, fmt.Sprintf("%s%s trim needs code %.1f, outside the DAC's range %d..%d", onChannelText(u), d.Name, c.Ideal, d.MinCode(), d.MaxCode()))
 			u.res.flagged(u.key(s.names[i]), float64(c.Code), d.Name+" trim saturated")
@@ -352,9 +370,12 @@ func coefInEffect(u *Unit, only map[string]bool) (k, m float64) {
 // idealCodeU propagates the fit's uncertainty to the exact codes, to first order:
 // a gain code depends on the slope, an offset code on the intercept. The result is
 // in codes, one per plan DAC.
-func idealCodeU(t TrimPlan, a analysis, sol TrimSolution, before []int) []float64 {
+//
+// u0 is the standard uncertainty of the output at zero input the offset codes
+// were solved for (the fit's intercept's, or the terminal point's).
+func idealCodeU(t TrimPlan, a analysis, sol TrimSolution, before []int, u0 float64) []float64 {
 	cov := a.cov()
-	u0, u1 := math.Sqrt(cov[0][0]), math.Sqrt(cov[1][1])
+	u1 := math.Sqrt(cov[1][1])
 	slope := a.sum.Slope
 	gains, _ := t.byStep()
 	g0, g1 := 1.0, 1.0

@@ -84,7 +84,7 @@ func TestIdealCodeUAgainstADifference(t *testing.T) {
 			t.Fatal(err)
 		}
 		a := analysis{sum: FitSummary{Slope: slope, Intercept: icpt}, lf: uncertainty.LineFit{Cov: [2][2]float64{{u0 * u0, 0}, {0, u1 * u1}}}}
-		got := idealCodeU(plan, a, sol, before)
+		got := idealCodeU(plan, a, sol, before, u0)
 		h := 1e-6
 		p, _ := ComputeTrim(plan, slope+h, icpt, before, 200, 2.5)
 		m, _ := ComputeTrim(plan, slope-h, icpt, before, 200, 2.5)

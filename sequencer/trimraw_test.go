@@ -22,7 +22,7 @@ func TestCodeUncertaintyOnTheRawLine(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		return codeUOnRawLine(before, idealCodeU(plan, a, sol, []int{2048})[0], kf)
+		return codeUOnRawLine(before, idealCodeU(plan, a, sol, []int{2048}, math.Sqrt(a.cov()[0][0]))[0], kf)
 	}
 	if u1, u2 := codeU(1), codeU(2); math.Abs(u1-0.2) > 1e-9 || math.Abs(u2-u1) > 1e-12 {
 		t.Errorf("before-gain code u: %.6f codes under kf = 1, %.6f under kf = 2; want 0.2 both", u1, u2)

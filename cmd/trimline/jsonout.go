@@ -179,6 +179,10 @@ type trimOut struct {
 	Written   bool   `json:"written"`
 	Saturated bool   `json:"saturated"`
 	Stored    bool   `json:"stored"` // committed to non-volatile memory
+	// Offset is "terminal" for an offset DAC trimmed so that the output
+	// measured at zero input is the ideal offset (the trim's offset: terminal);
+	// absent when trimmed to the best-fit line's offset.
+	Offset string `json:"offset,omitempty"`
 }
 
 // coefficientOut is one firmware correction coefficient written to a unit.
@@ -382,7 +386,7 @@ func newUnitOut(rec *sequencer.Record, cert, certDir string) unitOut {
 		u.Limits = append(u.Limits, newLimitOut(o))
 	}
 	for _, t := range rec.Trims {
-		u.TrimCodes = append(u.TrimCodes, trimOut{DAC: t.DAC, Channel: t.Channel, Before: t.Before, Code: t.Code, Readback: t.Readback,
+		u.TrimCodes = append(u.TrimCodes, trimOut{DAC: t.DAC, Channel: t.Channel, Before: t.Before, Code: t.Code, Readback: t.Readback, Offset: t.Offset,
 			Written: t.Written, Saturated: t.Saturated, Stored: t.Stored})
 	}
 	for _, c := range rec.Coefficients {

@@ -206,7 +206,7 @@ func TestCountCertificateText(t *testing.T) {
 	}
 }
 
-// A unit driven by a current: its fits read "output at 0 A in", not 0 V, and
+// A unit driven by a current: its fits read "line at 0 A in", not 0 V, and
 // its gain is per ampere (a loop receiver: 4–20 mA in, 250 V/A out).
 func TestCurrentStimulusCertificateText(t *testing.T) {
 	rec := countRecord()
@@ -217,8 +217,8 @@ func TestCurrentStimulusCertificateText(t *testing.T) {
 	}
 	rec.Outcomes[0].Unit = "V"
 	text := pdfText(t, render(t, rec, opt))
-	requireText(t, text, "Output at 0 A in", "250 V/A")
-	if strings.Contains(text, "Output at 0 V in") {
+	requireText(t, text, "Line at 0 A in", "250 V/A")
+	if strings.Contains(text, "at 0 V in") {
 		t.Error("the fits of a current-driven unit say 0 V in")
 	}
 }

@@ -34,7 +34,7 @@ func (d *doc) detail() {
 		total += headingH + d.TableHeight(oCols, oRows, oBands)
 	}
 	if len(fRows) > 0 {
-		total += headingH + d.TableHeight(fCols, fRows, fBands)
+		total += headingH + d.TableHeight(fCols, fRows, fBands) + d.fitsNotesH()
 	}
 	if len(bRows) > 0 {
 		total += headingH + d.TableHeight(bCols, bRows, bBands) + 3*pdfdoc.Small.LineH()
@@ -56,6 +56,7 @@ func (d *doc) detail() {
 	}
 	if len(fRows) > 0 {
 		d.tableSection(d.fitsTitle(), fCols, fRows, fBands)
+		d.fitsNotes()
 	}
 	if len(bRows) > 0 {
 		d.tableSection("Uncertainty budget", bCols, bRows, bBands)
@@ -124,6 +125,9 @@ func (d *doc) otherResults() ([]pdfdoc.Column, []pdfdoc.Row, []pdfdoc.Band) {
 		if r.Valid && finite(r.Value) && !exact(r) {
 			note = strings.TrimSpace(uncLine(r.Unc.Expanded, r.Unc.K, r.Unc.DOF, r.Unc.Method) + "   " + note)
 		}
+		if m := d.measurand(r); m != "" {
+			note = strings.TrimSpace(m + "   " + note)
+		}
 		when := stageWord(stageOf(d.rec, r.Name))
 		if when == "—" && r.StageOf() == sequencer.Adjustment {
 			when = "adjustment" // a code or coefficient the adjustment wrote
@@ -141,15 +145,19 @@ func (d *doc) otherResults() ([]pdfdoc.Column, []pdfdoc.Row, []pdfdoc.Band) {
 // fits is the table of straight-line fits of the sweeps.
 func (d *doc) fits() ([]pdfdoc.Column, []pdfdoc.Row, []pdfdoc.Band) {
 	r := d.rec
+	// The line's value at 0 in and its offset are the best-fit line's, not the
+	// output measured there (the terminal offset, in the sweep points): the
+	// titles say so.
 	cols := []pdfdoc.Column{
-		{Title: "Sweep", W: 22, Align: "L"},
-		{Title: "DOF", W: 12, Align: "R"},
-		{Title: "Gain", W: 26, Align: "R"},
-		{Title: "Gain error", W: 22, Align: "R"},
-		{Title: "Output at 0 " + d.stim().zeroName() + " in", W: 26, Align: "R"},
-		{Title: "Offset error", W: 24, Align: "R"},
-		{Title: "Residual s", W: 24, Align: "R"},
-		{Title: "Nonlinearity", W: 24, Align: "R"},
+		{Title: "Sweep", W: 20, Align: "L"},
+		{Title: "DOF", W: 8, Align: "R"},
+		{Title: "Gain", W: 24, Align: "R"},
+		{Title: "Gain error", W: 18, Align: "R"},
+		{Title: "Line at 0 " + d.stim().zeroName() + " in", W: 22, Align: "R"},
+		{Title: "Best-fit-line offset", W: 26, Align: "R"},
+		{Title: "Residual s", W: 17, Align: "R"},
+		{Title: "Nonlinearity", W: 23, Align: "R"},
+		{Title: "Lack of fit", W: 22, Align: "R"},
 	}
 	perSweep := map[[2]string]int{}
 	for _, f := range r.Fits {
@@ -199,6 +207,7 @@ func (d *doc) fits() ([]pdfdoc.Column, []pdfdoc.Row, []pdfdoc.Band) {
 			c1(fitOutput(resp, f.Intercept-r.IdealOffset, 3), pdfdoc.Body),
 			c1(resp.format(f.ResidualSD, 3), pdfdoc.Body),
 			c1(nl, pdfdoc.Body),
+			lackOfFitCell(f.LackOfFit),
 		})
 	}
 	return cols, rows, bands.get()
@@ -231,7 +240,7 @@ func (d *doc) fitsTitle() string {
 	for _, f := range d.rec.Fits {
 		if f.Order == 2 {
 			z := "0 " + d.stim().zeroName()
-			return "Fits of the sweeps (gain and output at " + z + " in: the slope and value at " + z + ")"
+			return "Fits of the sweeps (a quadratic's gain and line at " + z + " in: its slope and value at " + z + ")"
 		}
 	}
 	return "Straight-line fits"
@@ -588,6 +597,10 @@ func (d *doc) sweepPoints(ts []pointTable) {
 		d.Table(t.cols, t.rows, nil, t.groups...)
 	}
 	note := "Error = mean output − ideal output; s is the standard deviation of the valid readings at the point."
+	if d.hasFits() && d.hasZeroPoint() {
+		z := "0 " + d.stim().zeroName()
+		note += " † At " + z + " in the error is the terminal offset (the output measured at zero input less the ideal offset), not the best-fit-line offset of the fits table."
+	}
 	if d.otherQuantity() {
 		note += " A measurement of another quantity than the unit's output (a supply current) has no ideal and no error."
 	}
@@ -605,6 +618,9 @@ func (d *doc) pointCells(i int, p sequencer.Point) []pdfdoc.Cell {
 	if p.Valid > 0 {
 		mean = d.resp().cell(p.Mean, 7)
 		errS = d.resp().cell(p.Mean-ideal, 3)
+		if p.Stimulus == 0 && d.hasFits() {
+			errS += " †" // the terminal offset (fitsNotes)
+		}
 		if p.Valid > 1 {
 			sd = d.resp().cell(p.SD, 2)
 		}

@@ -196,6 +196,16 @@ func (d *doc) results() {
 	if len(t.rows) == 0 {
 		return
 	}
+	d.note("Under each limit, in grey: the measurand its result is, and the fit or sweep it comes from (best-fit-line offset: the fitted line at 0 " + d.stim().zeroName() +
+		" in; terminal offset: the output measured at 0 " + d.stim().zeroName() + " in).")
+	if bad := d.inadequateFits(); len(bad) > 0 {
+		fits := "fit " + bad[0]
+		if len(bad) > 1 {
+			fits = "fits " + andList(bad)
+		}
+		d.note("Lack of fit: the straight-line model is not adequate for " + fits + " (JCGM 100:2008 §4.1.2): the unit's transfer is not a straight line, " +
+			"so the best-fit-line results describe the line that fits best, not the output at one input. See “Straight-line fits”.")
+	}
 	if t.decided {
 		d.note(resultsNote)
 	}
@@ -272,6 +282,9 @@ func (d *doc) resultsTable() resultsTable {
 		name := pdfdoc.Cell{{Text: o.Name, St: pdfdoc.Bold}}
 		if o.Description != "" {
 			name = append(name, pdfdoc.Span{Text: o.Description, St: pdfdoc.Small})
+		}
+		for _, m := range d.measurandLines(o) {
+			name = append(name, pdfdoc.Span{Text: m, St: pdfdoc.Small.With(pdfdoc.Muted)})
 		}
 		meas := d.measuredCell(o, cols[1].W)
 		// An expression limit's reason says what was false; a toleranced limit's

@@ -68,8 +68,12 @@ func (d *doc) trims() {
 		if t.Saturated {
 			sat = c1("yes", pdfdoc.Bold.With(pdfdoc.Fail))
 		}
+		dac := c1(dash(t.DAC), pdfdoc.Bold)
+		if t.Offset == sequencer.OffsetTerminal {
+			dac = append(dac, pdfdoc.Span{Text: "to the terminal offset", St: pdfdoc.Small})
+		}
 		row := pdfdoc.Row{
-			c1(dash(t.DAC), pdfdoc.Bold),
+			dac,
 			c1(fmtCode(t.Before), pdfdoc.Body),
 			c1(ideal, pdfdoc.Body),
 			written,
