@@ -172,10 +172,10 @@ func (f *fitStep) Run(_ context.Context, u *Unit) error {
 		switch name := o[1]; o[0] {
 		case "offset":
 			uo, do := a.linear([2]float64{1, 0})
-			u.SetU(name, a.sum.Intercept-seq.IdealOffset, u.Unc(uo, do))
+			u.SetU(name, a.sum.Intercept-seq.IdealOffset, a.unc(u, [2]float64{1, 0}, -seq.IdealOffset, uo, do))
 		case "gain_error":
 			ug, dg := a.linear([2]float64{0, 1 / seq.IdealGain})
-			u.SetU(name, a.sum.Slope/seq.IdealGain-1, u.Unc(math.Abs(ug), dg))
+			u.SetU(name, a.sum.Slope/seq.IdealGain-1, a.unc(u, [2]float64{0, 1 / seq.IdealGain}, -1, math.Abs(ug), dg))
 		case "nonlinearity":
 			// The largest residual; its uncertainty is that residual's own (random
 			// part only: shared gain and offset errors do not bend the line).

@@ -31,9 +31,14 @@ import (
 // independent t per point whatever PooledRandom says) for records made
 // with it.
 //
+// Each of watch is a linear combination g·(b0, b1) that is reported, kept
+// as a further output (2, 3, …) so that the adaptive procedure stabilises it
+// to its own δ too: δ follows the digits of each quantity's u, and a scaled
+// b1 (a gain error b1/G − 1) can need more trials than b1 itself.
+//
 // Errors: those of FitLine for an invalid Sweep; those of MonteCarloModel
 // for invalid options.
-func MonteCarloLine(s Sweep, opt MCOptions) (*MCRun, error) {
+func MonteCarloLine(s Sweep, opt MCOptions, watch ...[2]float64) (*MCRun, error) {
 	if _, err := FitLine(s); err != nil {
 		return nil, err
 	}
@@ -83,6 +88,9 @@ func MonteCarloLine(s Sweep, opt MCOptions) (*MCRun, error) {
 			yc[i] = (s.Y[i] - e - eom) / (1 + egm)
 		}
 		out[0], out[1] = lineLS(xc, yc, w, s.X0)
+		for j, g := range watch {
+			out[2+j] = g[0]*out[0] + g[1]*out[1]
+		}
 	}
-	return MonteCarloModel(2, model, opt)
+	return MonteCarloModel(2+len(watch), model, opt)
 }
