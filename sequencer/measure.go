@@ -19,8 +19,8 @@ type analysis struct {
 	poolDOF float64 // degrees of freedom of the pooled standard deviation, Σ(n_i − 1)
 	// mc is the Monte Carlo run of a sequence with uncertainty method
 	// monte_carlo (metrology revision ≥ 1), nil otherwise; gum is the line fit
-	// with its law-of-propagation covariance, which lf.Cov no longer holds
-	// once a Monte Carlo run replaced it.
+	// with its law-of-propagation covariance (lf.Cov holds the Monte Carlo
+	// covariance in records of revision 0).
 	mc  *uncertainty.MCRun
 	gum uncertainty.LineFit
 }
@@ -187,13 +187,16 @@ func analyse(cfg Config, plan SweepPlan, sw Sweep, order int, seed string, rules
 		if err != nil {
 			return analysis{}, fmt.Errorf("monte carlo: %w", err)
 		}
+		// The record's covariance is the Monte Carlo one; the analysis keeps
+		// the law of propagation's for the results that are not evaluated
+		// from the model values (temperature coefficients, coefficients, the
+		// trim's prediction), which say "GUM".
 		a.mc = run
 		for j := range 2 {
 			for k := range 2 {
 				s.CovTotal[j][k] = run.Cov(j, k)
 			}
 		}
-		a.lf.Cov = s.CovTotal
 	}
 	return a, nil
 }
@@ -226,7 +229,7 @@ func (a analysis) unc(u *Unit, g [2]float64, c, std, dof float64) Uncertainty {
 		return gum
 	}
 	v := uncertainty.Validate(value, gum.Std, gum.Expanded, m.Low, m.High, mcDigits)
-	return Uncertainty{Std: m.Std, DOF: gum.DOF, K: U / m.Std, Expanded: U, Method: method(u.seq),
+	return Uncertainty{Std: m.Std, DOF: gum.DOF, K: U / m.Std, Expanded: U, Method: "MC",
 		MC: &MCInterval{Low: m.Low, High: m.High, Interval: a.mc.Interval, Trials: a.mc.Trials,
 			Adaptive: a.mc.Adaptive, Capped: a.mc.Adaptive && !a.mc.Converged,
 			Delta:  uncertainty.NumericalTolerance(m.Std, mcDigits),
