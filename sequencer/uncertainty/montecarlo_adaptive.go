@@ -149,7 +149,7 @@ func MonteCarloModel(outputs int, model func(rng *rand.Rand, y []float64), opt M
 		}
 		run.Trials = opt.Trials
 		for k := range run.Values {
-			run.Tolerance[k] = NumericalTolerance(run.Summary(k).Std, run.Digits)
+			run.Tolerance[k] = NumericalTolerance(stdOf(run.Values[k]), run.Digits)
 		}
 		return run, nil
 	}
@@ -166,15 +166,12 @@ func MonteCarloModel(outputs int, model func(rng *rand.Rand, y []float64), opt M
 			s := summarise(append(buf[:0], v[(h-1)*m0:]...), run.P, run.Interval)
 			seq[k] = append(seq[k], [4]float64{s.Mean, s.Std, s.Low, s.High})
 		}
-		if h < 2 {
-			continue
-		}
-		stable := true
+		stable := h >= 2
 		for k := range run.Values {
 			delta := NumericalTolerance(pooledStd(seq[k], m0), run.Digits)
 			run.Tolerance[k] = delta
 			for j := range 4 {
-				if 2*seqStd(seq[k], j) > delta {
+				if h >= 2 && 2*seqStd(seq[k], j) > delta {
 					stable = false
 				}
 			}

@@ -1,6 +1,7 @@
 package uncertainty_test
 
 import (
+	"errors"
 	"math"
 	"math/rand/v2"
 	"testing"
@@ -237,5 +238,35 @@ func TestNumericalTolerance(t *testing.T) {
 		if got := uncertainty.NumericalTolerance(c.u, c.digits); math.Abs(got-c.want) > 1e-12*c.want {
 			t.Errorf("NumericalTolerance(%g, %d) = %g, want %g", c.u, c.digits, got, c.want)
 		}
+	}
+}
+
+// The adaptive procedure (JCGM 101:2008 §7.9.4) stops at the trial cap when
+// its results have not stabilised, and says so; a fixed number of trials is
+// not adaptive. Bad options are refused.
+func TestMonteCarloModelCapAndOptions(t *testing.T) {
+	heavy := func(rng *rand.Rand, y []float64) { y[0] = rng.NormFloat64() / (rng.Float64() + 1e-3) } // heavy-tailed: slow to stabilise
+	run, err := uncertainty.MonteCarloModel(1, heavy, uncertainty.MCOptions{P: 0.95, Seed: 1, MaxTrials: 30_000, Digits: 3})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !run.Adaptive || run.Converged || run.Trials != 30_000 {
+		t.Errorf("capped run: adaptive %v converged %v M %d", run.Adaptive, run.Converged, run.Trials)
+	}
+	fixed, err := uncertainty.MonteCarloModel(1, heavy, uncertainty.MCOptions{P: 0.95, Seed: 1, Trials: 5000})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if fixed.Adaptive || fixed.Converged || fixed.Trials != 5000 || len(fixed.Values[0]) != 5000 {
+		t.Errorf("fixed run: adaptive %v converged %v M %d", fixed.Adaptive, fixed.Converged, fixed.Trials)
+	}
+	for _, o := range []uncertainty.MCOptions{{P: 1}, {P: 0.95, Interval: "widest"}, {P: 0.95, Trials: 10}, {P: 0.95, MaxTrials: 100}} {
+		if _, err := uncertainty.MonteCarloModel(1, heavy, o); !errors.Is(err, uncertainty.ErrInvalidInput) {
+			t.Errorf("%+v: %v", o, err)
+		}
+	}
+	nan := func(_ *rand.Rand, y []float64) { y[0] = math.NaN() }
+	if _, err := uncertainty.MonteCarloModel(1, nan, uncertainty.MCOptions{P: 0.95, Trials: 1000}); !errors.Is(err, uncertainty.ErrInvalidInput) {
+		t.Errorf("NaN model: %v", err)
 	}
 }
