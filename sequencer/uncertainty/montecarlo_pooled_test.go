@@ -82,8 +82,8 @@ func TestMonteCarloPooledScale(t *testing.T) {
 // u_GUM(b0) times a Student t with 5 degrees of freedom when the points
 // share the scale, so its 95 % interval is ±t_0.975,5·u = ±2.5706·u (JCGM 101
 // §6.4.9 with JCGM 100 G.3: here the GUM's k from ν_eff is exact). Drawing
-// an independent t per point instead gives a nearly normal sum whose
-// interval is ±1.96·√(5/3)·u = ±2.530·u.
+// an independent t per point instead gives a nearly normal sum with the same
+// variance, whose tails are too light.
 func TestMonteCarloPooledInterval(t *testing.T) {
 	s := noisySweep(8)
 	s.Meter, s.Source, s.MeterResolution = uncertainty.Spec{}, uncertainty.Spec{}, 0
@@ -105,4 +105,24 @@ func TestMonteCarloPooledInterval(t *testing.T) {
 	t.Logf("ν = 5: half-width/u = %.4f, t_0.975,5 = %.4f, u ratio %.4f (√(5/3) = %.4f)", half, k, sum.Std/u0, math.Sqrt(5.0/3))
 	checkRel(t, "half-width / u_GUM", half, k, 0.01)
 	checkRel(t, "u_MC / u_GUM", sum.Std/u0, math.Sqrt(5.0/3), 0.02)
+	// The tails tell the draws apart: at p = 99 % the shared scale gives
+	// ±t_0.995,5·u = ±4.032·u, while the earlier draw (MonteCarlo: an
+	// independent t_5 per point, same variance) gives a nearly normal b0,
+	// about ±2.576·√(5/3)·u = ±3.33·u.
+	run99, err := uncertainty.MonteCarloLine(s, uncertainty.MCOptions{P: 0.99, Seed: 5, Trials: 400_000})
+	if err != nil {
+		t.Fatal(err)
+	}
+	s99 := run99.Summary(0)
+	k99 := uncertainty.CoverageFactor(0.99, 5)
+	checkRel(t, "99 % half-width / u_GUM", (s99.High-s99.Low)/2/u0, k99, 0.02)
+	old, err := uncertainty.MonteCarloCoverage(s, 400_000, 5, 0.99)
+	if err != nil {
+		t.Fatal(err)
+	}
+	oldHalf := (old.High[0] - old.Low[0]) / 2 / u0
+	t.Logf("p = 99 %%: shared scale %.4f·u, independent t per point %.4f·u, t_0.995,5 = %.4f", (s99.High-s99.Low)/2/u0, oldHalf, k99)
+	if relErr(oldHalf, k99) <= 0.05 {
+		t.Errorf("the per-point draw's 99 %% half-width %.4f·u is within 5 %% of t·u = %.4f·u: the test cannot tell the draws apart", oldHalf, k99)
+	}
 }
