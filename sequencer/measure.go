@@ -201,6 +201,14 @@ func analyse(cfg Config, plan SweepPlan, sw Sweep, order int, seed string, rules
 	return a, nil
 }
 
+// lean is a without its Monte Carlo model values (up to 10⁶ trials of three
+// outputs, 24 MB), for what later steps keep: only the fit step's own results
+// are evaluated from them.
+func (a analysis) lean() analysis {
+	a.mc = nil
+	return a
+}
+
 // mcDigits is n_dig, the significant digits of a standard uncertainty that the
 // Monte Carlo results are made good to (JCGM 101 §7.9.2) and that the GUM
 // result is validated at (§8.2): two, as U is stated (JCGM 100 §7.2.6).

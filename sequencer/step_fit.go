@@ -166,7 +166,7 @@ func (f *fitStep) Run(_ context.Context, u *Unit) error {
 	}
 	a.sum.Step, a.sum.Channel = u.step.Name, u.channel
 	u.Rec.Fits = append(u.Rec.Fits, a.sum)
-	u.Keep(fitKept{a: a})
+	u.Keep(fitKept{a: a.lean()})
 	seq := u.seq
 	for _, o := range f.outs {
 		switch name := o[1]; o[0] {
