@@ -17,6 +17,12 @@ type analysis struct {
 	quad    *uncertainty.QuadFit // order 2, else nil
 	sw      uncertainty.Sweep
 	poolDOF float64 // degrees of freedom of the pooled standard deviation, Σ(n_i − 1)
+	// mc is the Monte Carlo run of a sequence with uncertainty method
+	// monte_carlo (metrology revision ≥ 1), nil otherwise; gum is the line fit
+	// with its law-of-propagation covariance (lf.Cov holds the Monte Carlo
+	// covariance in records of revision 0).
+	mc  *uncertainty.MCRun
+	gum uncertainty.LineFit
 }
 
 // specs are the accuracy specifications of the sweep's meter (its spec for the
@@ -154,14 +160,94 @@ func analyse(cfg Config, plan SweepPlan, sw Sweep, order int, seed string, rules
 	if cfg.Sequence.Uncertainty == "monte_carlo" && order != 2 {
 		h := fnv.New64a()
 		h.Write([]byte(seed + "/" + sw.Name))
-		mc, err := uncertainty.MonteCarlo(us, cfg.Sequence.MCTrials, h.Sum64())
+		a.gum = a.lf
+		if rules < 1 {
+			// Records of metrology revision 0: an independent t per point, a
+			// fixed number of trials, and only the covariance kept (U = k·u
+			// with k from νeff).
+			trials := cfg.Sequence.MCTrials
+			if trials == 0 {
+				trials = LegacyMCTrials
+			}
+			mc, err := uncertainty.MonteCarlo(us, trials, h.Sum64())
+			if err != nil {
+				return analysis{}, fmt.Errorf("monte carlo: %w", err)
+			}
+			s.CovTotal = mc.Cov
+			a.lf.Cov = mc.Cov
+			return a, nil
+		}
+		// JCGM 101: the pooled Type A scale drawn once per trial, the adaptive
+		// procedure (§7.9) unless the file fixes the trials, and coverage
+		// intervals from the model values (resultUnc).
+		run, err := uncertainty.MonteCarloLine(us, uncertainty.MCOptions{
+			P: coverage(cfg.Sequence), Interval: cfg.Sequence.MCInterval, Trials: cfg.Sequence.MCTrials,
+			MaxTrials: MaxMCTrials, Digits: mcDigits, Seed: h.Sum64(),
+		}, [2]float64{0, 1 / cfg.Sequence.IdealGain}) // the gain error, b1/G − 1, is reported too
 		if err != nil {
 			return analysis{}, fmt.Errorf("monte carlo: %w", err)
 		}
-		s.CovTotal = mc.Cov
-		a.lf.Cov = mc.Cov
+		// The record's covariance is the Monte Carlo one; the analysis keeps
+		// the law of propagation's for the results that are not evaluated
+		// from the model values (temperature coefficients, coefficients, the
+		// trim's prediction), which say "GUM".
+		a.mc = run
+		for j := range 2 {
+			for k := range 2 {
+				s.CovTotal[j][k] = run.Cov(j, k)
+			}
+		}
 	}
 	return a, nil
+}
+
+// lean is a without its Monte Carlo model values (up to 10⁶ trials of three
+// outputs, 24 MB), for what later steps keep: only the fit step's own results
+// are evaluated from them.
+func (a analysis) lean() analysis {
+	a.mc = nil
+	return a
+}
+
+// mcDigits is n_dig, the significant digits of a standard uncertainty that the
+// Monte Carlo results are made good to (JCGM 101 §7.9.2) and that the GUM
+// result is validated at (§8.2): two, as U is stated (JCGM 100 §7.2.6).
+const mcDigits = 2
+
+// unc is the uncertainty of the fit result c + g·(b0, b1), whose standard
+// uncertainty and dof by a.linear(g) are std and dof: u.Unc(std, dof) (U = k·u,
+// k from νeff), unless the sequence's method is monte_carlo at metrology
+// revision ≥ 1. Then it is the Monte Carlo coverage interval of that
+// combination, evaluated trial by trial: u its standard deviation, U the larger
+// distance from the value (the fit's estimate) to an end of the interval, so
+// that value ± U holds the interval and a limit that judges with a symmetric U
+// is at least as cautious as the interval; k = U/u; νeff the GUM's, for
+// reference. The GUM interval (value ± k·u, k from νeff) is validated against
+// it (JCGM 101 §8.2) and the result is recorded in Uncertainty.MC.
+func (a analysis) unc(u *Unit, g [2]float64, c, std, dof float64) Uncertainty {
+	if a.mc == nil {
+		return u.Unc(std, dof)
+	}
+	value := c + g[0]*a.sum.Intercept + g[1]*a.sum.Slope
+	gstd, gdof := a.gum.Linear(g)
+	gum := u.Unc(math.Abs(gstd), gdof)
+	m := a.mc.Linear(g[:], c)
+	U := math.Max(value-m.Low, m.High-value)
+	if !(m.Std > 0) || !(U > 0) {
+		return gum
+	}
+	// The GUM interval is validated as computed, y ± k·u: the stated (rounded up)
+	// U would move its end points by up to a tenth of U, far beyond δ.
+	v := uncertainty.Validate(value, gum.Std, gum.K*gum.Std, m.Low, m.High, mcDigits)
+	if u.Metrology() >= 1 && !u.Predicting() {
+		// Stated once, rounded up: value ± U still contains the whole interval.
+		U = StatedU(U)
+	}
+	return Uncertainty{Std: m.Std, DOF: gum.DOF, K: U / m.Std, Expanded: U, Method: "MC",
+		MC: &MCInterval{Low: m.Low, High: m.High, Interval: a.mc.Interval, Trials: a.mc.Trials,
+			Adaptive: a.mc.Adaptive, Capped: a.mc.Adaptive && !a.mc.Converged,
+			Delta:  uncertainty.NumericalTolerance(m.Std, mcDigits),
+			GUMStd: gum.Std, GUMExpanded: gum.Expanded, DLow: v.DLow, DHigh: v.DHigh, GUMDelta: v.Tolerance, Validated: v.Validated}}
 }
 
 // block2 is the (b0, b1) block of a quadratic's covariance.

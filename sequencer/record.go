@@ -69,6 +69,42 @@ type Uncertainty struct {
 	K        float64 `json:"k"`
 	Expanded float64 `json:"U"`
 	Method   string  `json:"method,omitempty"` // "GUM" (law of propagation) or "MC" (JCGM 101 Monte Carlo)
+	// MC is the Monte Carlo coverage interval behind Std and Expanded (Method
+	// "MC", metrology revision ≥ 1; nil otherwise). Std is then the standard
+	// deviation of the model values, Expanded the larger distance from the
+	// value to an end of the interval (so that value ± Expanded holds the
+	// whole interval, and a limit judging with a symmetric U is never less
+	// cautious than the interval), K = Expanded/Std, and DOF the GUM's
+	// Welch–Satterthwaite νeff, for reference only: k does not come from it.
+	MC *MCInterval `json:"mc,omitempty"`
+}
+
+// MCInterval is a Monte Carlo coverage interval (JCGM 101:2008) at the record's
+// coverage probability, with the check of the GUM interval against it (§8).
+// Numbers are in the unit of the value.
+type MCInterval struct {
+	Low  float64 `json:"low"`  // lower end point, absolute
+	High float64 `json:"high"` // upper end point, absolute
+	// Interval is "symmetric" (probabilistically symmetric, JCGM 101 §7.7) or
+	// "shortest" (§7.8).
+	Interval string `json:"interval"`
+	Trials   int    `json:"trials"`             // M, the trials made
+	Adaptive bool   `json:"adaptive,omitempty"` // the adaptive procedure of §7.9 chose M
+	// Capped: the adaptive procedure reached the trial cap before its results
+	// stabilised to Delta (they may be good to fewer digits).
+	Capped bool    `json:"capped,omitempty"`
+	Delta  float64 `json:"delta"` // numerical tolerance δ of Std at two significant digits (§7.9.2)
+	// GUMStd and GUMExpanded are the law of propagation's u and U = k·u (k
+	// from νeff) for the same quantity; DLow = |y − U − low| and DHigh = |y +
+	// U − high| compare its interval y ± U with [Low, High], and Validated is
+	// true when both are at most GUMDelta, δ of GUMStd at two significant
+	// digits (JCGM 101 §8.2).
+	GUMStd      float64 `json:"gum_u"`
+	GUMExpanded float64 `json:"gum_U"`
+	DLow        float64 `json:"d_low"`
+	DHigh       float64 `json:"d_high"`
+	GUMDelta    float64 `json:"gum_delta"`
+	Validated   bool    `json:"validated"`
 }
 
 // Record is everything one run of one serial number produced: the raw readings with

@@ -15,6 +15,7 @@ import (
 	"trimline/instruments/files"
 	"trimline/instruments/units"
 	"trimline/limits"
+	"trimline/sequencer/uncertainty"
 )
 
 // Sequence is a loaded sequence file: how one product is trimmed, as an ordered
@@ -68,9 +69,18 @@ type Sequence struct {
 	serialRE      *regexp.Regexp
 
 	// Uncertainty selects how the fits' uncertainties are evaluated: "gum" (the law
-	// of propagation, JCGM 100) or "monte_carlo" (JCGM 101, MCTrials trials).
+	// of propagation, JCGM 100) or "monte_carlo" (JCGM 101). MCTrials is the
+	// file's trials: 0 means the adaptive procedure of JCGM 101 §7.9 (records of
+	// metrology revision 0 made 20 000, LegacyMCTrials); MCInterval is the
+	// coverage interval, "symmetric" (JCGM 101 §7.7, the default) or "shortest"
+	// (§7.8).
 	Uncertainty string
 	MCTrials    int
+	MCInterval  string
+	// Warnings are problems of the file that do not stop it loading (trimline
+	// check prints them): a fixed number of Monte Carlo trials below
+	// 10⁴/(1 − p) (JCGM 101 §7.2.2).
+	Warnings files.List
 
 	// FirstLayout marks a file of the first sequence layout (one fixed flow:
 	// pre_trim, trim, verify), read as the step list it stands for so that the
@@ -307,8 +317,9 @@ type sequenceFile struct {
 	Channels     *channelsDecl `yaml:"channels"`
 	Steps        anyNode       `yaml:"steps"`
 	Uncertainty  struct {
-		Method string `yaml:"method"`
-		Trials int    `yaml:"trials"`
+		Method   string `yaml:"method"`
+		Trials   int    `yaml:"trials"`
+		Interval string `yaml:"interval"`
 	} `yaml:"uncertainty"`
 
 	// The first layout: one fixed flow.
@@ -409,21 +420,34 @@ func parseSequence(name string, data []byte, read func(path string) ([]byte, err
 		}
 	}
 	serialPattern(doc, s, f.SerialPattern, &errs)
-	switch s.Uncertainty, s.MCTrials = f.Uncertainty.Method, f.Uncertainty.Trials; s.Uncertainty {
+	switch s.Uncertainty, s.MCTrials, s.MCInterval = f.Uncertainty.Method, f.Uncertainty.Trials, f.Uncertainty.Interval; s.Uncertainty {
 	case "":
 		s.Uncertainty = "gum"
 	case "gum":
 	case "monte_carlo":
-		if s.MCTrials == 0 {
-			s.MCTrials = 20000
-		}
-		if s.MCTrials < MinMCTrials {
-			bad("$.uncertainty.trials", "expected at least %d Monte Carlo trials, found %d", MinMCTrials, s.MCTrials)
-		} else if s.MCTrials > MaxMCTrials {
+		switch {
+		case !doc.Has("$.uncertainty.trials"): // adaptive (JCGM 101 §7.9)
+		case s.MCTrials < MinMCTrials:
+			bad("$.uncertainty.trials", "expected at least %d Monte Carlo trials, found %d (leave trials out for the adaptive procedure of JCGM 101 §7.9)", MinMCTrials, s.MCTrials)
+		case s.MCTrials > MaxMCTrials:
 			bad("$.uncertainty.trials", "expected at most %d Monte Carlo trials, found %d", MaxMCTrials, s.MCTrials)
+		}
+		switch s.MCInterval {
+		case "":
+			s.MCInterval = uncertainty.IntervalSymmetric
+		case uncertainty.IntervalSymmetric, uncertainty.IntervalShortest:
+		default:
+			bad("$.uncertainty.interval", "expected %s or %s, found %q", uncertainty.IntervalSymmetric, uncertainty.IntervalShortest, s.MCInterval)
 		}
 	default:
 		bad("$.uncertainty.method", "expected gum or monte_carlo, found %q", s.Uncertainty)
+	}
+	if s.Uncertainty != "monte_carlo" {
+		for _, k := range []string{"trials", "interval"} {
+			if doc.Has("$.uncertainty." + k) {
+				bad("$.uncertainty."+k, "%s applies to method monte_carlo only", k)
+			}
+		}
 	}
 
 	first := f.PreTrim != nil || f.Verify != nil || f.Trim != nil || f.DUT != nil
@@ -510,6 +534,15 @@ func parseSequence(name string, data []byte, read func(path string) ([]byte, err
 		return nil, errs
 	}
 	s.LimitsFile = limitsFileRef(s.Limits)
+	if s.Uncertainty == "monte_carlo" && s.MCTrials > 0 {
+		// JCGM 101 §7.2.2: without the adaptive procedure, M ≥ 10⁴/(1 − p).
+		if p := coverage(s); float64(s.MCTrials) < 1e4/(1-p) {
+			w := doc.Errorf("$.uncertainty.trials", "%d Monte Carlo trials are fewer than 10⁴/(1 − p) = %.0f for the coverage probability %g (JCGM 101 §7.2.2); leave trials out for the adaptive procedure (§7.9)",
+				s.MCTrials, math.Ceil(1e4/(1-p)), p)
+			w.Warning = true
+			s.Warnings = append(s.Warnings, w)
+		}
+	}
 	return s, nil
 }
 
@@ -707,10 +740,14 @@ const (
 	// MaxNPLC is the longest meter integration time, in power-line cycles (the
 	// longest of common DMMs).
 	MaxNPLC = 1000
-	// MinMCTrials and MaxMCTrials bound the Monte Carlo trials; JCGM 101:2008
-	// §7.2.1 suggests 10⁶ for a 95 % interval good to two significant digits.
+	// MinMCTrials and MaxMCTrials bound a fixed number of Monte Carlo trials;
+	// JCGM 101:2008 §7.2.1 suggests 10⁶ for a 95 % interval good to two
+	// significant digits. MaxMCTrials also caps the adaptive procedure.
 	MinMCTrials = 1000
 	MaxMCTrials = 1_000_000
+	// LegacyMCTrials is the number of trials records of metrology revision 0
+	// made when the sequence file set none.
+	LegacyMCTrials = 20000
 	// MaxSteps is the most steps of a sequence.
 	MaxSteps = 200
 	// MaxRunTime bounds the estimated time of all a sequence's steps together,

@@ -233,7 +233,7 @@ func (f *fitStep) Run(_ context.Context, u *Unit) error {
 	}
 	u.Rec.Fits = append(u.Rec.Fits, a.sum)
 	zero, hasZero := zeroPoint(sw.Points)
-	fk := fitKept{a: a}
+	fk := fitKept{a: a.lean()}
 	if hasZero {
 		fk.zero = &zero
 	}
@@ -243,7 +243,7 @@ func (f *fitStep) Run(_ context.Context, u *Unit) error {
 		switch name := o[1]; o[0] {
 		case "offset", "line_offset":
 			uo, do := a.linear([2]float64{1, 0})
-			u.SetU(name, a.sum.Intercept-seq.IdealOffset, u.Unc(uo, do))
+			u.SetU(name, a.sum.Intercept-seq.IdealOffset, a.unc(u, [2]float64{1, 0}, -seq.IdealOffset, uo, do))
 			u.SetBudget(name, a.budget([2]float64{1, 0}, kept.plan, seq))
 		case "terminal_offset":
 			// The output measured at zero input, with that point's own
@@ -257,7 +257,7 @@ func (f *fitStep) Run(_ context.Context, u *Unit) error {
 			u.SetU(name, zero.Mean-seq.IdealOffset, u.Unc(tu, dof))
 		case "gain_error":
 			ug, dg := a.linear([2]float64{0, 1 / seq.IdealGain})
-			u.SetU(name, a.sum.Slope/seq.IdealGain-1, u.Unc(math.Abs(ug), dg))
+			u.SetU(name, a.sum.Slope/seq.IdealGain-1, a.unc(u, [2]float64{0, 1 / seq.IdealGain}, -1, math.Abs(ug), dg))
 			u.SetBudget(name, a.budget([2]float64{0, 1 / seq.IdealGain}, kept.plan, seq))
 		case "nonlinearity":
 			// The largest residual; its uncertainty is that residual's own (random

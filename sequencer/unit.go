@@ -205,7 +205,7 @@ func (u *Unit) Unc(std, dof float64) Uncertainty {
 	if u.Metrology() >= 1 && !u.Predicting() { // a prediction on paper states no result
 		U = StatedU(U)
 	}
-	return Uncertainty{Std: std, DOF: dof, K: k, Expanded: U, Method: method(u.seq)}
+	return Uncertainty{Std: std, DOF: dof, K: k, Expanded: U, Method: method(u.seq, u.Metrology())}
 }
 
 // StatedU is an evaluated expanded uncertainty as a result states it: rounded
@@ -338,8 +338,13 @@ func (u *Unit) Port(role string) (instruments.TrimPort, error) {
 	return p, nil
 }
 
-func method(seq *Sequence) string {
-	if seq.Uncertainty == "monte_carlo" {
+// method is the evaluation method Unc states. From metrology revision 1 on,
+// only a result evaluated from a Monte Carlo coverage interval (analysis.unc)
+// says "MC"; the rest of a monte_carlo sequence's results are the law of
+// propagation's and say so. Revision 0 labelled every result of such a
+// sequence "MC".
+func method(seq *Sequence, rules int) string {
+	if seq.Uncertainty == "monte_carlo" && rules < 1 {
 		return "MC"
 	}
 	return "GUM"

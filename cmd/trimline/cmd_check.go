@@ -129,6 +129,7 @@ otherwise.`,
 				s, lerr = sequencer.LoadSequence(path)
 				if s != nil {
 					seqs = append(seqs, s)
+					problems = append(problems, s.Warnings...)
 				}
 			case sequencer.FileLimits:
 				cat, seq, note := sequencer.CatalogFor(path)

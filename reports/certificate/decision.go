@@ -132,7 +132,17 @@ func (d *doc) decisionRule() {
 			text += "for a coverage probability the record does not state, "
 		}
 		text += "k from the effective degrees of freedom νeff (Welch–Satterthwaite)."
-		switch {
+		switch mc := mcCoverage(r); {
+		case mc != "":
+			// Monte Carlo coverage intervals: GUM and MC each say how U comes about.
+			text = "Coverage probability not stated."
+			if r.Coverage > 0 && r.Coverage < 1 {
+				text = "Coverage probability " + fmtCoverage(r.Coverage) + "."
+			}
+			if methods["GUM"] {
+				text += " GUM: law of propagation (JCGM 100:2008), U = k·u, k from the effective degrees of freedom νeff (Welch–Satterthwaite)."
+			}
+			text += mc
 		case methods["GUM"] && methods["MC"]:
 			text += " Evaluated by the law of propagation (JCGM 100:2008, GUM) or by Monte Carlo (JCGM 101:2008, MC)."
 		case methods["MC"]:

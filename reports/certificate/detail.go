@@ -123,7 +123,7 @@ func (d *doc) otherResults() ([]pdfdoc.Column, []pdfdoc.Row, []pdfdoc.Band) {
 			note = strings.TrimSpace(n + "   " + note)
 		}
 		if r.Valid && finite(r.Value) && !exact(r) {
-			note = strings.TrimSpace(uncLine(r.Unc.Expanded, r.Unc.K, r.Unc.DOF, r.Unc.Method) + "   " + note)
+			note = strings.TrimSpace(uncNote(r.Unc.Expanded, r.Unc.K, r.Unc.DOF, r.Unc) + "   " + note)
 		}
 		if m := d.measurand(r); m != "" {
 			note = strings.TrimSpace(m + "   " + note)

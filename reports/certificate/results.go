@@ -128,7 +128,7 @@ func (d *doc) measuredCell(o limits.Outcome, w float64) pdfdoc.Cell {
 		if hasU(r.Unc.Expanded) && (dof == 0 || !finite(dof)) {
 			dof = r.Unc.DOF
 		}
-		sub := uncLine(dd.U, dd.K, dof, r.Unc.Method)
+		sub := uncNote(dd.U, dd.K, dof, r.Unc)
 		return append(d.valueSpans(fmtDecisionWithU(dd, o.Unit), w), pdfdoc.Span{Text: sub, St: pdfdoc.Small})
 	}
 	vals := outcomeValues(o) // the keys in order, for the "not measured" case
@@ -153,7 +153,7 @@ func (d *doc) measuredCell(o limits.Outcome, w float64) pdfdoc.Cell {
 		c = append(c, d.valueSpans(text, w)...)
 		if hasU(U) && finite(v) {
 			anyU = true
-			c = append(c, pdfdoc.Span{Text: uncLine(U, r.Unc.K, r.Unc.DOF, r.Unc.Method), St: pdfdoc.Small})
+			c = append(c, pdfdoc.Span{Text: uncNote(U, r.Unc.K, r.Unc.DOF, r.Unc), St: pdfdoc.Small})
 		}
 	}
 	if !anyU && !isCount(o.Unit) {

@@ -58,3 +58,33 @@ func BenchmarkLackOfFit(b *testing.B) {
 		}
 	}
 }
+
+// BenchmarkMonteCarloAdaptive is one line fit of the noisy 11-point sweep by
+// the adaptive procedure of JCGM 101 §7.9 (n_dig = 2, p = 95.45 %), watching
+// b0, b1 and the gain error b1/200 as the sequencer does; it reports the
+// trials M it took.
+func BenchmarkMonteCarloAdaptive(b *testing.B) {
+	s := noisySweep(8)
+	b.ReportAllocs()
+	var m int
+	for b.Loop() {
+		run, err := uncertainty.MonteCarloLine(s, uncertainty.MCOptions{P: 0.9545, Seed: 22}, [2]float64{0, 1.0 / 200})
+		if err != nil {
+			b.Fatal(err)
+		}
+		m = run.Trials
+	}
+	b.ReportMetric(float64(m), "trials")
+}
+
+// BenchmarkMonteCarloLine10k is 10⁴ trials of the pooled draw, to compare
+// with BenchmarkMonteCarlo10k (the revision-0 draw).
+func BenchmarkMonteCarloLine10k(b *testing.B) {
+	s := realisticSweep()
+	b.ReportAllocs()
+	for b.Loop() {
+		if _, err := uncertainty.MonteCarloLine(s, uncertainty.MCOptions{P: 0.95, Seed: 1, Trials: 10_000}); err != nil {
+			b.Fatal(err)
+		}
+	}
+}

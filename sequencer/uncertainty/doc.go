@@ -19,7 +19,14 @@
 //     quadratic describes a sweep: the F test against pure error where
 //     stimulus levels repeat (NIST/SEMATECH e-Handbook §4.4.4), the reduced
 //     chi-square otherwise.
-//   - MonteCarlo, the JCGM 101 counterpart of FitLine, used to validate it.
+//   - Monte Carlo (JCGM 101): MonteCarloModel propagates distributions
+//     through any model with a fixed number of trials or the adaptive
+//     procedure of §7.9, keeping the model values so that MCRun gives the
+//     probabilistically symmetric (§7.7) or shortest (§7.8) coverage
+//     interval of each output or of any linear combination of them;
+//     Validate checks a GUM interval against it (§8). MonteCarloLine is the
+//     sweep's line fit on it, with the pooled Type A scale drawn once per
+//     trial; MonteCarlo keeps the earlier draw for old records.
 //
 // # Units
 //

@@ -72,21 +72,7 @@ func MonteCarloCoverage(s Sweep, trials int, seed uint64, p float64) (MCResult, 
 		return MCResult{}, err
 	}
 	n := len(s.X)
-	uRes := s.MeterResolution / (2 * math.Sqrt(3))
-	w := make([]float64, n)
-	for i := range n {
-		w[i] = 1
-	}
-	if uRes > 0 || slices.ContainsFunc(s.URandom, func(v float64) bool { return v > 0 }) {
-		umin := math.Inf(1)
-		for i := range n {
-			umin = math.Min(umin, math.Hypot(s.uRandom(i), uRes))
-		}
-		for i := range n {
-			r := umin / math.Hypot(s.uRandom(i), uRes)
-			w[i] = r * r
-		}
-	}
+	w := s.mcWeights()
 	halfRes := s.MeterResolution / 2
 	aGm, aOm := s.Meter.OfReading, s.Meter.OfRange*s.Meter.Range // half-widths
 	aGs, aOs := s.Source.OfReading, s.Source.OfRange*s.Source.Range
@@ -203,4 +189,26 @@ func studentT(rng *rand.Rand, nu float64) float64 {
 		}
 		return u * math.Sqrt(nu*(math.Pow(w, -2/nu)-1)/w)
 	}
+}
+
+// mcWeights are the weights of FitLine's line, normalised to 1 at the
+// smallest u_i (all 1 when no point has a random uncertainty).
+func (s Sweep) mcWeights() []float64 {
+	n := len(s.X)
+	uRes := s.MeterResolution / (2 * math.Sqrt(3))
+	w := make([]float64, n)
+	for i := range n {
+		w[i] = 1
+	}
+	if uRes > 0 || slices.ContainsFunc(s.URandom, func(v float64) bool { return v > 0 }) {
+		umin := math.Inf(1)
+		for i := range n {
+			umin = math.Min(umin, math.Hypot(s.uRandom(i), uRes))
+		}
+		for i := range n {
+			r := umin / math.Hypot(s.uRandom(i), uRes)
+			w[i] = r * r
+		}
+	}
+	return w
 }

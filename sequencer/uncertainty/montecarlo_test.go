@@ -140,3 +140,20 @@ func TestMonteCarloContract(t *testing.T) {
 		t.Errorf("systematics only: %v", err)
 	}
 }
+
+// TestMonteCarloRevisionZeroDraw pins the draw that records of metrology
+// revision 0 were computed with (an independent t per point, 2 000 trials,
+// seed 42 here): those records must replay exactly, so MonteCarlo may not
+// change by a bit. The values were produced by the code as it stood before
+// the JCGM 101 adaptive engine was added.
+func TestMonteCarloRevisionZeroDraw(t *testing.T) {
+	mc, err := uncertainty.MonteCarlo(realisticSweep(), 2000, 42)
+	if err != nil {
+		t.Fatal(err)
+	}
+	want := [5]float64{5.758664162043484e-09, 1.4218439585879008e-07, 1.680476706706178e-05, 2.499852011434596, 2.5001400476650044}
+	got := [5]float64{mc.Cov[0][0], mc.Cov[0][1], mc.Cov[1][1], mc.Low[0], mc.High[0]}
+	if got != want || mc.Low[1] != 199.99214541278633 || mc.High[1] != 200.00745350195984 {
+		t.Errorf("revision-0 draw changed:\n got %v %v %v\nwant %v", got, mc.Low[1], mc.High[1], want)
+	}
+}
