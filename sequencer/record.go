@@ -108,6 +108,8 @@ type Record struct {
 	Soaks []Soak `json:"soaks,omitempty"`
 	// Retrims are the passes of every closed-loop re-trim, in order.
 	Retrims []RetrimPass `json:"retrims,omitempty"`
+	// Zeros are the run's zero checks (zero_check steps), in order.
+	Zeros []ZeroCheck `json:"zeros,omitempty"`
 	// StimulusUnit and ResponseUnit are the units of every sweep's stimulus and
 	// response (Point.Stimulus, Point.Mean, the readings) and of the ideal
 	// offset and full scale: "V", "A" or "count" (a number the unit reports).
@@ -272,6 +274,10 @@ type FitSummary struct {
 	DOFEff   float64       `json:"dof_eff"` // effective dof of the intercept's uncertainty
 	// LackOfFit says how well the model fits the points beyond their own scatter.
 	LackOfFit *LackOfFit `json:"lack_of_fit,omitempty"`
+	// SourceZero names the zero check (Record.Zeros) whose measured source
+	// offset the fit applied: the levels corrected by it and its Type A
+	// uncertainty in place of the source's offset spec; "" = none.
+	SourceZero string `json:"source_zero,omitempty"`
 }
 
 // LackOfFit is a fit's lack-of-fit statistic: χ²/ν of the residuals against the

@@ -1,0 +1,177 @@
+package sequencer_test
+
+import (
+	"context"
+	"fmt"
+	"math"
+	"strings"
+	"testing"
+
+	"trimline/instruments"
+	"trimline/instruments/sim"
+	"trimline/sequencer"
+)
+
+// zeroStep is the demo sequence's zero check, as the tests find it.
+const zeroStep = `  - kind: zero_check             # the station's own zero`
+
+// withoutZero is the demo sequence with its zero check taken out.
+func withoutZero(t *testing.T) string {
+	t.Helper()
+	text := demoFile(t, "brx200-sequence.yaml")
+	i := strings.Index(text, zeroStep)
+	j := strings.Index(text, "  - kind: sweep                  # the unit as found")
+	if i < 0 || j < i {
+		t.Fatal("the demo sequence has no zero check before its pre-trim sweep")
+	}
+	return text[:i] + text[j:]
+}
+
+// demoWithoutZero is the demo sequence less its zero check, parsed.
+func demoWithoutZero(t *testing.T) *sequencer.Sequence {
+	t.Helper()
+	seq, err := sequencer.ParseSequence("brx200-sequence.yaml", []byte(withoutZero(t)), demoReader(t, nil))
+	if err != nil {
+		t.Fatal(err)
+	}
+	return seq
+}
+
+// runDemo runs serial on the demo station with sequence text seqText.
+func runDemo(t *testing.T, seqText, serial string) (sequencer.Config, *sequencer.Record) {
+	t.Helper()
+	return runOn(t, demoFile(t, "brx200-station.yaml"), seqText, serial)
+}
+
+// runOn runs serial on the station stText with sequence seqText.
+func runOn(t *testing.T, stText, seqText, serial string) (sequencer.Config, *sequencer.Record) {
+	t.Helper()
+	st, err := sequencer.ParseStation("brx200-station.yaml", []byte(stText))
+	if err != nil {
+		t.Fatal(err)
+	}
+	seq, err := sequencer.ParseSequence("brx200-sequence.yaml", []byte(seqText), demoReader(t, nil))
+	if err != nil {
+		t.Fatal(err)
+	}
+	cfg := sequencer.Config{Station: st, Sequence: seq, Operator: "test", Software: "test"}
+	e, err := sequencer.Open(context.Background(), cfg)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer e.Close()
+	rec := e.Run(context.Background(), serial)
+	if rec.Verdict == sequencer.Fault || rec.Verdict == sequencer.Aborted {
+		t.Fatalf("verdict %s: %s", rec.Verdict, rec.Fault)
+	}
+	return cfg, rec
+}
+
+// simZero is what the demo bench's source really delivers at a programmed 0:
+// its offset plus the wiring's thermal EMF, from a bench of the demo's seed.
+func simZero(t *testing.T) float64 {
+	t.Helper()
+	b, err := sim.NewBench([]instruments.Spec{{Address: "sim://source", Settings: map[string]string{"seed": "8"}}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer b.Close()
+	_, o := b.Source().Errors()
+	return o + b.Source().ThermalEMF()
+}
+
+// pinnedSource is the demo station with the simulated source's offset and the
+// wiring's thermal EMF set: 0.4 µV + 0.25 µV at a programmed 0.
+func pinnedSource(t *testing.T) string {
+	t.Helper()
+	st := demoFile(t, "brx200-station.yaml")
+	const addr = "    address: sim://source       # sim:// now; serial://, tcp://, usbtmc:// for real benches\n"
+	if !strings.Contains(st, addr) {
+		t.Fatal("the demo station's source address line moved")
+	}
+	return strings.Replace(st, addr, addr+"    settings: {offset: 0.4uV, thermal_emf: 0.25uV}\n", 1)
+}
+
+// The zero check measures the offset the simulated source and wiring were given
+// (0.65 µV at the input), within its uncertainty (|ô_s − o_s| ≤ 3u, common
+// practice for a single comparison), and its result and record agree. Replaying
+// the record reproduces it and every result exactly.
+func TestZeroCheckMeasuresTheSimulatedOffset(t *testing.T) {
+	cfg, rec := runOn(t, pinnedSource(t), demoFile(t, "brx200-sequence.yaml"), "BRX-00001")
+	if len(rec.Zeros) != 1 {
+		t.Fatalf("%d zero checks in the record, want 1", len(rec.Zeros))
+	}
+	z := rec.Zeros[0]
+	truth := 0.65e-6
+	t.Logf("ô_s = %.4g V (u %.3g V, ν %.0f), simulated %.4g V", z.Offset, z.Unc.Std, z.Unc.DOF, truth)
+	if !z.Valid || len(z.Shorted) != 8 || len(z.AtZero) != 8 || z.Gain != 200 {
+		t.Fatalf("zero check %+v: want 8 + 8 valid readings referred through the ideal gain 200", z)
+	}
+	if 5*z.Unc.Std > truth {
+		t.Errorf("u(ô_s) = %g V: too large for the check to see 0.65 µV", z.Unc.Std)
+	}
+	if d := math.Abs(z.Offset - truth); d > 3*z.Unc.Std {
+		t.Errorf("ô_s = %g V, simulated %g V: off by %g V, more than 3u = %g V", z.Offset, truth, d, 3*z.Unc.Std)
+	}
+	if r := resultOf(t, rec, "station_zero"); r.Value != z.Offset || r.Unc != z.Unc {
+		t.Errorf("station_zero = %g ± %+v, the record's check says %g ± %+v", r.Value, r.Unc, z.Offset, z.Unc)
+	}
+	for _, f := range rec.Fits {
+		if f.SourceZero != "station zero" {
+			t.Errorf("fit %q applied zero check %q, want \"station zero\"", f.Step, f.SourceZero)
+		}
+	}
+	again, err := sequencer.Replay(cfg, rec)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if d := sequencer.Differences(rec, again); len(d) > 0 {
+		t.Errorf("replay differs: %s", strings.Join(d, "; "))
+	}
+	if len(again.Zeros) != 1 || again.Zeros[0].Offset != z.Offset || again.Zeros[0].Unc != z.Unc {
+		t.Errorf("replayed zero check %+v, recorded %+v", again.Zeros, rec.Zeros)
+	}
+}
+
+// With the zero check the post-trim offset's uncertainty loses the source's
+// rectangular offset spec (5 ppm of 100 mV through the gain of 200: 57.7 µV
+// standard, JCGM 100 §4.3.7) and gains the check's own Type A term (a few µV,
+// JCGM 100 §4.2.3): u must fall by most of what that spec term contributes.
+func TestZeroCheckShrinksThePostOffsetUncertainty(t *testing.T) {
+	_, with := runDemo(t, demoFile(t, "brx200-sequence.yaml"), "BRX-00001")
+	_, without := runDemo(t, withoutZero(t), "BRX-00001")
+	a, b := resultOf(t, without, "post_offset").Unc, resultOf(t, with, "post_offset").Unc
+	t.Logf("U(post_offset): %.4g V without the zero check, %.4g V with it (u %.4g → %.4g V)", a.Expanded, b.Expanded, a.Std, b.Std)
+	spec := 200 * 5e-6 * 0.1 / math.Sqrt(3)
+	z := with.Zeros[0].Unc.Std * 200
+	want := math.Sqrt(a.Std*a.Std - spec*spec + z*z) // the other rows unchanged
+	if math.Abs(b.Std-want) > 0.02*want {
+		t.Errorf("u(post_offset) with the check = %.4g V, want √(u² − spec² + u_zero²) = %.4g V", b.Std, want)
+	}
+	for _, f := range without.Fits {
+		if f.SourceZero != "" {
+			t.Errorf("without a zero check fit %q says it applied %q", f.Step, f.SourceZero)
+		}
+	}
+}
+
+// A mistake in a zero check's keys is reported at its place, with the file's
+// line and column: an unknown key, an unknown result, too few readings.
+func TestZeroCheckKeysReportedAtTheirPlace(t *testing.T) {
+	text := demoFile(t, "brx200-sequence.yaml")
+	for _, c := range []struct {
+		from, to, at, want string
+		col                int
+	}{
+		{"    readings: 8                  # in each", "    readngs: 8\n    readings: 8                  # in each", "readngs", `unknown field "readngs"`, 5},
+		{"      source_zero: station_zero", "      source_zero: station_zero\n      offset: zz", "offset: zz", `unknown zero_check result "offset"`, 15},
+		{"    readings: 8                  # in each", "    readings: 1                  # in each", "readings: 1 ", "expected at least 2 readings in each state", 15},
+	} {
+		bad := strings.Replace(text, c.from, c.to, 1)
+		_, err := sequencer.ParseSequence("brx200-sequence.yaml", []byte(bad), demoReader(t, nil))
+		at := fmt.Sprintf("brx200-sequence.yaml:%d:%d: ", lineOf(t, bad, c.at), c.col)
+		if err == nil || !strings.Contains(err.Error(), at+c.want) {
+			t.Errorf("%s: want %q, got %v", c.at, at+c.want, err)
+		}
+	}
+}
