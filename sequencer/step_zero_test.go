@@ -6,9 +6,12 @@ import (
 	"math"
 	"strings"
 	"testing"
+	"time"
 
 	"trimline/instruments"
 	"trimline/instruments/sim"
+	"trimline/instruments/sim/serve"
+	"trimline/instruments/sim/simtest"
 	"trimline/sequencer"
 )
 
@@ -133,6 +136,53 @@ func TestZeroCheckMeasuresTheSimulatedOffset(t *testing.T) {
 	}
 }
 
+// On the demo bench as drawn (seed 8), the zero checks of twelve units agree with
+// the source's drawn offset plus the wiring's drawn thermal EMF: their mean lies
+// within 3 standard errors of it (the standard error from the twelve values' own
+// scatter, JCGM 100 §4.2.3), and that scatter agrees with the checks' stated u
+// (ratio within 0.5 … 2, common practice for twelve values).
+func TestZeroCheckFindsTheDemoBenchZero(t *testing.T) {
+	st, err := sequencer.ParseStation("brx200-station.yaml", []byte(demoFile(t, "brx200-station.yaml")))
+	if err != nil {
+		t.Fatal(err)
+	}
+	seq, err := sequencer.ParseSequence("brx200-sequence.yaml", []byte(demoFile(t, "brx200-sequence.yaml")), demoReader(t, nil))
+	if err != nil {
+		t.Fatal(err)
+	}
+	e, err := sequencer.Open(context.Background(), sequencer.Config{Station: st, Sequence: seq, Operator: "test", Software: "test"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer e.Close()
+	var v []float64
+	var su float64
+	for i := range 12 {
+		rec := e.Run(context.Background(), fmt.Sprintf("BRX-%05d", 101+i))
+		if len(rec.Zeros) != 1 || !rec.Zeros[0].Valid {
+			t.Fatalf("%s: zero checks %+v", rec.Serial, rec.Zeros)
+		}
+		v = append(v, rec.Zeros[0].Offset)
+		su += rec.Zeros[0].Unc.Std / 12
+	}
+	var m, ss float64
+	for _, x := range v {
+		m += x / float64(len(v))
+	}
+	for _, x := range v {
+		ss += (x - m) * (x - m)
+	}
+	sd := math.Sqrt(ss / float64(len(v)-1))
+	truth := simZero(t)
+	t.Logf("mean ô_s %.4g V (sd %.3g V, mean u %.3g V), drawn %.4g V", m, sd, su, truth)
+	if se := sd / math.Sqrt(float64(len(v))); math.Abs(m-truth) > 3*se {
+		t.Errorf("mean ô_s = %g V, the bench's zero %g V: off by %g V, more than 3 standard errors (%g V)", m, truth, m-truth, 3*se)
+	}
+	if r := sd / su; r < 0.5 || r > 2 {
+		t.Errorf("scatter of ô_s %g V against its stated u %g V: ratio %.2f", sd, su, r)
+	}
+}
+
 // With the zero check the post-trim offset's uncertainty loses the source's
 // rectangular offset spec (5 ppm of 100 mV through the gain of 200: 57.7 µV
 // standard, JCGM 100 §4.3.7) and gains the check's own Type A term (a few µV,
@@ -173,5 +223,38 @@ func TestZeroCheckKeysReportedAtTheirPlace(t *testing.T) {
 		if err == nil || !strings.Contains(err.Error(), at+c.want) {
 			t.Errorf("%s: want %q, got %v", c.at, at+c.want, err)
 		}
+	}
+}
+
+// Over the wire the zero check behaves as on the in-process bench: the generic
+// SCPI source driver's output off (OUTP OFF) leaves the served DUT's input at a
+// true zero, and at a programmed 0 with the output on the input is the source's
+// offset plus the wiring's thermal EMF (0.4 µV + 0.25 µV). Hand-worked on the
+// quiet bench (no noise): the card's gain 200·(1 − 2500 ppm) = 199.5 V/V makes
+// the output differ by 129.675 µV, read to the meter's 1 µV, so ô_s =
+// 129.675 µV/200 = 0.648 µV within 1 µV/200 = 5 nV; the source is left off at 0.
+func TestZeroCheckOverTheWire(t *testing.T) {
+	if testing.Short() {
+		t.Skip("real-time run")
+	}
+	specs := simtest.QuietSpecs()
+	specs[0].Settings["offset"], specs[0].Settings["thermal_emf"] = "0.4uV", "0.25uV"
+	srv := simtest.ServeSpecs(t, specs, serve.Options{Transport: "tcp"})
+	st, seq := wireFiles(t, srv, "")
+	ctx, cancel := context.WithTimeout(context.Background(), 30*time.Second)
+	defer cancel()
+	e, err := sequencer.Open(ctx, sequencer.Config{Station: st, Sequence: seq, Operator: "test", Software: "test"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer e.Close()
+	rec := e.Run(ctx, "BRX-000126")
+	if rec.Verdict == sequencer.Fault || len(rec.Zeros) != 1 {
+		t.Fatalf("verdict %s (%s), %d zero checks", rec.Verdict, rec.Fault, len(rec.Zeros))
+	}
+	z := rec.Zeros[0]
+	near(t, "ô_s over the wire", z.Offset, 129.675e-6/200, 5.1e-9)
+	if on, lvl := srv.Bench().Source().State(); on || lvl != 0 {
+		t.Errorf("source left on=%v at %g V", on, lvl)
 	}
 }
