@@ -195,8 +195,15 @@ func (s *zeroStep) finish(u *Unit, z *ZeroCheck) {
 		case "source_zero":
 			u.SetU(name, z.Offset, z.Unc)
 		case "shorted_output":
-			nu := float64(off.Valid - 1)
-			u.SetU(name, off.Mean, u.Unc(off.SD/math.Sqrt(float64(off.Valid)), nu))
+			// A reading of the unit's output: the scatter and, as a measure
+			// step's mean, the meter's spec there and its resolution.
+			meter, _, res := specs(u.cfg.Station, s.plan, off.Mean, 0)
+			cs := []uncertainty.Component{{Name: "repeatability", U: off.SD / math.Sqrt(float64(off.Valid)), DOF: float64(off.Valid - 1), Kind: uncertainty.KindA}}
+			if s.plan.Response == nil {
+				cs = append(cs, uncertainty.Rectangular("meter", meter.HalfWidth(off.Mean)))
+			}
+			std, dof := uncertainty.Combine(append(cs, uncertainty.Resolution("resolution", res)))
+			u.SetU(name, off.Mean, u.Unc(std, dof))
 		}
 	}
 }

@@ -258,3 +258,66 @@ func TestZeroCheckOverTheWire(t *testing.T) {
 		t.Errorf("source left on=%v at %g V", on, lvl)
 	}
 }
+
+// A limit file may judge the station's zero like any result: a toleranced limit
+// on station_zero (in µV at the input, ±1 µV: the source's 5 ppm of 100 mV plus
+// a few hundred nV of thermal EMF) passes on the demo bench, with the check's
+// own uncertainty, and fails on a bench whose wiring has 3 µV of thermal EMF.
+func TestStationZeroJudgedByALimit(t *testing.T) {
+	limitText := demoFile(t, "brx200-limits.yaml") + `
+  - name: station zero
+    description: What the station delivers at a programmed 0, at the input.
+    unit: uV
+    uses: [station_zero]
+    tolerance: {lower: -1, upper: 1}
+`
+	for _, c := range []struct {
+		station string
+		pass    bool
+	}{
+		{demoFile(t, "brx200-station.yaml"), true},
+		{strings.Replace(pinnedSource(t), "thermal_emf: 0.25uV", "thermal_emf: 3uV", 1), false},
+	} {
+		st, err := sequencer.ParseStation("brx200-station.yaml", []byte(c.station))
+		if err != nil {
+			t.Fatal(err)
+		}
+		seq, err := sequencer.ParseSequence("brx200-sequence.yaml", []byte(demoFile(t, "brx200-sequence.yaml")),
+			demoReader(t, map[string]string{"brx200-limits.yaml": limitText}))
+		if err != nil {
+			t.Fatal(err)
+		}
+		e, err := sequencer.Open(context.Background(), sequencer.Config{Station: st, Sequence: seq, Operator: "test", Software: "test"})
+		if err != nil {
+			t.Fatal(err)
+		}
+		rec := e.Run(context.Background(), "BRX-00001")
+		e.Close()
+		found := false
+		for _, o := range rec.Outcomes {
+			if o.Name == "station zero" {
+				found = true
+				if o.Pass != c.pass {
+					t.Errorf("station zero %g V judged pass=%v, want %v (%s)", resultOf(t, rec, "station_zero").Value, o.Pass, c.pass, o.Reason)
+				}
+			}
+		}
+		if !found {
+			t.Error("no outcome for the station-zero limit")
+		}
+	}
+}
+
+// shorted_output is a reading of the unit's output, so its uncertainty carries
+// the meter's spec at that reading (30 ppm of 2.5 V + 4 ppm of 10 V, rectangular:
+// ≥ 45 µV standard, JCGM 100 §4.3.7), not the scatter alone.
+func TestShortedOutputCarriesTheMeterSpec(t *testing.T) {
+	text := strings.Replace(demoFile(t, "brx200-sequence.yaml"), "      source_zero: station_zero",
+		"      source_zero: station_zero\n      shorted_output: shorted_output", 1)
+	_, rec := runDemo(t, text, "BRX-00001")
+	r := resultOf(t, rec, "shorted_output")
+	spec := (30e-6*math.Abs(r.Value) + 4e-6*10) / math.Sqrt(3)
+	if !r.Valid || r.Unc.Std < spec || r.Unc.Std > 1.2*spec {
+		t.Errorf("shorted_output %g V, u %g V: want u just above the meter spec's %g V", r.Value, r.Unc.Std, spec)
+	}
+}
