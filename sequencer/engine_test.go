@@ -268,10 +268,11 @@ func TestKnownDUTGivesPredictableCodes(t *testing.T) {
 	// Uncertainty, hand-worked from the demo station's specs (JCGM 100 §4.3.7,
 	// rectangular a/√3; sensitivities of the intercept: meter gain −b0 ≈ −2.5 V,
 	// meter offset −1, source offset −b1 = −200). The demo's zero check measured
-	// the source offset on this noiseless bench with u = 0 (JCGM 100 §4.2.3), so
-	// its row replaces the spec term (200·5 ppm·100 mV/√3 = 57.74 µV) by 0:
-	//   u(b0)² = (2.5·30 ppm/√3)² + (4 ppm·10 V/√3)² + (1 µV/(2√3))²/11
-	//   u(b0) = 49.07 µV (75.77 µV with the spec term); dof ∞ (no noise) so
+	// the source offset on this noiseless bench with no scatter (JCGM 100
+	// §4.2.3), only the meter's resolution in its two means, so its row replaces
+	// the spec term (200·5 ppm·100 mV/√3 = 57.74 µV) by √2·1 µV/(2√3) = 0.41 µV:
+	//   u(b0)² = (2.5·30 ppm/√3)² + (4 ppm·10 V/√3)² + (1 µV/(2√3))²/11 + (0.41 µV)²
+	//   u(b0) = 49.08 µV (75.77 µV with the spec term); dof ∞ (no noise) so
 	//   k = 2.000 at 95.45 %.
 	//   u(b1)/b1 = √((30 ppm/√3)² + (20 ppm/√3)²) = 20.82 ppm.
 	po := resultOf(t, rec, sequencer.ResPostOffset).Unc
@@ -514,8 +515,10 @@ func TestStepDeadline(t *testing.T) {
 }
 
 // A limit file that refuses to run where the station cannot reach its minimum TUR
-// stops the station before any unit (ANSI/NCSL Z540.3-2006 §5.3 ratio; the station
-// reaches about 5.4:1 on ±800 µV, so ±50 µV gives about 0.33:1).
+// stops the station before any unit (ANSI/NCSL Z540.3-2006 §5.3 ratio; with the
+// demo's zero check in place of the source's offset spec, u(post offset) is
+// 49.1 µV on paper, so the station reaches about 8.2:1 on ±800 µV and ±50 µV
+// gives about 0.52:1).
 func TestTURRefuseStopsTheStation(t *testing.T) {
 	lim := strings.Replace(demoFile(t, "brx200-limits.yaml"), "tur_policy: warn", "tur_policy: refuse", 1)
 	lim = strings.Replace(lim, "tolerance: {lower: -800, upper: 800}", "tolerance: {lower: -50, upper: 50}", 1)
@@ -525,8 +528,8 @@ func TestTURRefuseStopsTheStation(t *testing.T) {
 		t.Fatalf("want ErrTUR naming the limit, got %v", err)
 	}
 	for _, c := range checks {
-		if c.Limit == "offset after trim" && (c.TUR < 0.3 || c.TUR > 0.36) {
-			t.Errorf("predicted TUR %.3f, want ≈ 0.33 (100 µV / (2·1.96·75.8 µV))", c.TUR)
+		if c.Limit == "offset after trim" && (c.TUR < 0.49 || c.TUR > 0.55) {
+			t.Errorf("predicted TUR %.3f, want ≈ 0.52 (100 µV / (2·1.96·49.1 µV))", c.TUR)
 		}
 	}
 	if _, err := sequencer.Open(context.Background(), sequencer.Config{Station: st, Sequence: seq}); !errors.Is(err, sequencer.ErrTUR) {

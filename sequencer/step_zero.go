@@ -49,8 +49,9 @@ type ZeroCheck struct {
 	Gain float64 `json:"gain"`
 	// Offset is ô_s, the stimulus the station delivers at a programmed 0,
 	// (mean(AtZero) − mean(Shorted))/Gain, in the stimulus's unit; Unc its
-	// uncertainty (Type A, Welch–Satterthwaite degrees of freedom). Valid is
-	// false when a reading was invalid (Note says which).
+	// uncertainty (the readings' scatter and resolution, Welch–Satterthwaite
+	// degrees of freedom). Valid is false when a reading was invalid (Note
+	// says which).
 	Offset float64     `json:"offset_v"`
 	Unc    Uncertainty `json:"uncertainty"`
 	Valid  bool        `json:"valid"`
@@ -161,11 +162,16 @@ func (s *zeroStep) Run(ctx context.Context, u *Unit) error {
 		z.Shorted, z.AtZero = stored.Shorted, stored.AtZero
 		s.finish(u, &z)
 	default:
-		// On paper the check has no readings: the sweeps keep the source's
-		// offset spec, and its results are not evaluated.
-		for _, o := range s.outs {
-			u.Invalid(o[1], "on paper: a zero check has no readings")
+		// On paper the check reads the ideal unit without noise, as a sweep
+		// does: the same output in both states, so ô_s = 0 with only the
+		// resolution's uncertainty; the scatter of a real check only adds to
+		// it, as the sweeps' noise does to theirs.
+		ideal := make([]instruments.Reading, s.plan.Readings)
+		for i := range ideal {
+			ideal[i].Value = u.seq.IdealOffset
 		}
+		z.Shorted, z.AtZero = ideal, ideal
+		s.finish(u, &z)
 	}
 	return nil
 }
@@ -184,7 +190,8 @@ func (s *zeroStep) finish(u *Unit, z *ZeroCheck) {
 		u.End(z.Note)
 		return
 	}
-	std, dof := zeroU(off, on, z.Gain)
+	_, _, res := specs(u.cfg.Station, s.plan, off.Mean, 0)
+	std, dof := zeroU(off, on, z.Gain, res)
 	if !(dof > 0) { // noiseless readings (0/0): an exact difference
 		dof = math.Inf(1)
 	}
@@ -210,15 +217,20 @@ func (s *zeroStep) finish(u *Unit, z *ZeroCheck) {
 
 // zeroU is the standard uncertainty of (mean(on) − mean(off))/gain and its
 // degrees of freedom: each mean's Type A standard uncertainty s/√n (JCGM 100
-// §4.2.3) with n − 1 degrees of freedom, combined in quadrature (the two sets of
-// readings are independent, JCGM 100 §5.1.2) with Welch–Satterthwaite degrees of
-// freedom (JCGM 100 §G.4.1). The two are not pooled: with the output on the
-// source's own noise adds to the readings, so their variances differ.
-func zeroU(off, on Point, gain float64) (std, dof float64) {
+// §4.2.3) with n − 1 degrees of freedom and half a count of the reading's
+// resolution res (rectangular, JCGM 100 F.2.2.1), combined in quadrature (the two
+// sets of readings are independent, JCGM 100 §5.1.2) with Welch–Satterthwaite
+// degrees of freedom (JCGM 100 §G.4.1). The two scatters are not pooled: with the
+// output on the source's own noise adds to the readings, so their variances
+// differ. The meter's offset and gain errors are the same in both means and
+// cancel (to its gain error times the difference, negligible).
+func zeroU(off, on Point, gain, res float64) (std, dof float64) {
 	g := math.Abs(gain)
 	return uncertainty.Combine([]uncertainty.Component{
 		{Name: "shorted", U: off.SD / math.Sqrt(float64(off.Valid)) / g, DOF: float64(off.Valid - 1), Kind: uncertainty.KindA},
 		{Name: "at zero", U: on.SD / math.Sqrt(float64(on.Valid)) / g, DOF: float64(on.Valid - 1), Kind: uncertainty.KindA},
+		uncertainty.Resolution("shorted resolution", res/g),
+		uncertainty.Resolution("at zero resolution", res/g),
 	})
 }
 

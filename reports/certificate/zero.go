@@ -21,8 +21,8 @@ func (d *doc) zeros() {
 	d.tableSection("Station zero", cols, rows, nil)
 	d.note("ô_s: the stimulus the station delivers at a programmed 0 (the source's own offset and the thermal EMFs " +
 		"of its wiring), from the unit's output at 0 V programmed less its output with the input shorted (source output " +
-		"off), divided by the ideal gain G; the unit's and the meter's offsets cancel in the difference. Type A (JCGM 100 " +
-		"§4.2), Welch–Satterthwaite degrees of freedom. In the fits listed the levels were corrected by ô_s and its " +
+		"off), divided by the ideal gain G; the unit's and the meter's offsets cancel in the difference. Its uncertainty: the " +
+		"readings' scatter (Type A, JCGM 100 §4.2) and the meter's resolution, Welch–Satterthwaite degrees of freedom. In the fits listed the levels were corrected by ô_s and its " +
 		"uncertainty replaced the source's offset specification (rectangular, JCGM 100 §4.3.7) in the budget; the meter's " +
 		"offset and both instruments' gains are not covered by the check and stay in it.")
 }
