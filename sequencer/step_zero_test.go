@@ -321,3 +321,24 @@ func TestShortedOutputCarriesTheMeterSpec(t *testing.T) {
 		t.Errorf("shorted_output %g V, u %g V: want u just above the meter spec's %g V", r.Value, r.Unc.Std, spec)
 	}
 }
+
+// An error the meter queues while the check reads at a programmed 0 (its second
+// READ?) stops the run as a station fault that names the check's state, with the
+// source output off and at 0 V, and nothing judged.
+func TestZeroCheckFaultLeavesTheSourceOff(t *testing.T) {
+	if testing.Short() {
+		t.Skip("real-time run")
+	}
+	srv, e, ctx := wireEngine(t, "")
+	srv.SetFault("meter", serve.Fault{ErrorAfter: "READ?", ErrorAt: 2, ErrorEntry: `-230,"Data corrupt or stale"`})
+	rec := e.Run(ctx, "BRX-000127")
+	if rec.Verdict != sequencer.Fault || !strings.Contains(rec.Fault, "station zero at a programmed 0 (source output on)") {
+		t.Fatalf("verdict %s, fault %q: want a FAULT naming the check's state", rec.Verdict, rec.Fault)
+	}
+	if len(rec.Outcomes) != 0 || len(rec.Sweeps) != 0 {
+		t.Errorf("after a fault in the zero check: %d outcomes, %d sweeps", len(rec.Outcomes), len(rec.Sweeps))
+	}
+	if on, lvl := srv.Bench().Source().State(); on || lvl != 0 {
+		t.Errorf("source left on=%v at %g V", on, lvl)
+	}
+}
