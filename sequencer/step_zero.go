@@ -56,6 +56,13 @@ type ZeroCheck struct {
 	Unc    Uncertainty `json:"uncertainty"`
 	Valid  bool        `json:"valid"`
 	Note   string      `json:"note,omitempty"`
+	// SpecU is the standard uncertainty of the source's offset spec on Range
+	// (of_range·range/√3, rectangular), the term the check replaces; 0 when the
+	// station states none. Applied says whether later sweeps use the check: only
+	// when its Unc.Std is below SpecU (or no spec is stated). A check read
+	// through a unit too noisy to resolve the zero is recorded, not applied.
+	SpecU   float64 `json:"spec_u_v,omitempty"`
+	Applied bool    `json:"applied,omitempty"`
 }
 
 // The results a zero check can give, as its results: map names them.
@@ -196,7 +203,11 @@ func (s *zeroStep) finish(u *Unit, z *ZeroCheck) {
 		dof = math.Inf(1)
 	}
 	z.Offset, z.Unc, z.Valid = (on.Mean-off.Mean)/z.Gain, u.Unc(std, dof), true
-	u.keepZero(zeroKept{name: z.Name, role: z.Source, rng: z.Range, offset: z.Offset, u: std, dof: dof})
+	spec := u.cfg.Station.Instruments[z.Source].SpecAt(s.plan.stimDim(), 0, 0)
+	z.SpecU = spec.OfRange * spec.Range / math.Sqrt(3)
+	if z.Applied = z.SpecU == 0 || std < z.SpecU; z.Applied {
+		u.keepZero(zeroKept{name: z.Name, role: z.Source, rng: z.Range, offset: z.Offset, u: std, dof: dof})
+	}
 	for _, o := range s.outs {
 		switch name := o[1]; o[0] {
 		case "source_zero":
@@ -363,9 +374,9 @@ func zeroDifferences(recorded, replayed []ZeroCheck, add func(string, ...any)) {
 	}
 	for i := range min(len(recorded), len(replayed)) {
 		a, b := recorded[i], replayed[i]
-		if a.Valid != b.Valid || !same(a.Offset, b.Offset) || !same(a.Unc.Expanded, b.Unc.Expanded) {
-			add("zero check %s: recorded %.9g (U %.6g, valid=%v), recomputed %.9g (U %.6g, valid=%v)",
-				a.Name, a.Offset, a.Unc.Expanded, a.Valid, b.Offset, b.Unc.Expanded, b.Valid)
+		if a.Valid != b.Valid || a.Applied != b.Applied || !same(a.Offset, b.Offset) || !same(a.Unc.Expanded, b.Unc.Expanded) {
+			add("zero check %s: recorded %.9g (U %.6g, valid=%v, applied=%v), recomputed %.9g (U %.6g, valid=%v, applied=%v)",
+				a.Name, a.Offset, a.Unc.Expanded, a.Valid, a.Applied, b.Offset, b.Unc.Expanded, b.Valid, b.Applied)
 		}
 	}
 }

@@ -342,3 +342,25 @@ func TestZeroCheckFaultLeavesTheSourceOff(t *testing.T) {
 		t.Errorf("source left on=%v at %g V", on, lvl)
 	}
 }
+
+// A check read through a unit too noisy to resolve the zero (the demo bench's
+// excess-noise unit, BRX-00022: ×40 noise) knows the source offset worse than
+// its spec does (u above 5 ppm · 100 mV/√3 = 0.289 µV): it is recorded, not
+// applied, and the fits keep the spec term.
+func TestNoisyZeroCheckIsNotApplied(t *testing.T) {
+	_, rec := runDemo(t, demoFile(t, "brx200-sequence.yaml"), "BRX-00022")
+	z := rec.Zeros[0]
+	if want := 5e-6 * 0.1 / math.Sqrt(3); math.Abs(z.SpecU-want) > 1e-15 || z.Unc.Std <= want || z.Applied {
+		t.Fatalf("zero check u %g V against the spec's %g V (want %g), applied=%v: want a check worse than the spec, not applied",
+			z.Unc.Std, z.SpecU, want, z.Applied)
+	}
+	for _, f := range rec.Fits {
+		if f.SourceZero != "" {
+			t.Errorf("fit %q applied the noisy zero check", f.Step)
+		}
+	}
+	_, ok := runDemo(t, demoFile(t, "brx200-sequence.yaml"), "BRX-00001")
+	if !ok.Zeros[0].Applied {
+		t.Errorf("BRX-00001's check (u %g V) was not applied", ok.Zeros[0].Unc.Std)
+	}
+}

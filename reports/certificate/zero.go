@@ -57,6 +57,11 @@ func zeroTable(zs []sequencer.ZeroCheck, fits []sequencer.FitSummary) ([]pdfdoc.
 				used = append(used, dash(f.Step))
 			}
 		}
+		applied := c1(dash(strings.Join(used, ", ")), pdfdoc.Body)
+		if !z.Applied {
+			applied = pdfdoc.Cell{{Text: "not applied", St: pdfdoc.Body},
+				{Text: "its u is not below the spec's " + fmtWithU(z.SpecU/1e-6, 0, "uV") + ": the fits keep the spec", St: pdfdoc.Small}}
+		}
 		in := fmtWithU(z.Offset/1e-6, z.Unc.Expanded/1e-6, "uV")
 		out := fmtWithU(z.Offset*z.Gain/1e-6, z.Unc.Expanded*abs(z.Gain)/1e-6, "uV")
 		rows = append(rows, pdfdoc.Row{
@@ -64,7 +69,7 @@ func zeroTable(zs []sequencer.ZeroCheck, fits []sequencer.FitSummary) ([]pdfdoc.
 			c1(reads, pdfdoc.Body),
 			pdfdoc.Cell{{Text: in, St: pdfdoc.Body}, {Text: uncLine(z.Unc.Expanded, z.Unc.K, z.Unc.DOF, ""), St: pdfdoc.Small}},
 			c1(out, pdfdoc.Body),
-			c1(dash(strings.Join(used, ", ")), pdfdoc.Body),
+			applied,
 		})
 	}
 	return cols, rows

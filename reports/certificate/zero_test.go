@@ -21,7 +21,8 @@ func TestZeroCheckOnTheCertificate(t *testing.T) {
 	}
 	rs := make([]instruments.Reading, 8)
 	rec.Zeros = []sequencer.ZeroCheck{{Name: "station zero", Source: "source", Range: 0.1, Shorted: rs, AtZero: rs, Gain: 200,
-		Offset: 0.3104e-6, Unc: sequencer.Uncertainty{Std: 0.0413e-6, DOF: 12.4, K: 2.208, Expanded: 0.0912e-6, Method: "GUM"}, Valid: true}}
+		Offset: 0.3104e-6, Unc: sequencer.Uncertainty{Std: 0.0413e-6, DOF: 12.4, K: 2.208, Expanded: 0.0912e-6, Method: "GUM"}, Valid: true,
+		SpecU: 0.2887e-6, Applied: true}}
 	for i := range rec.Fits {
 		rec.Fits[i].SourceZero = "station zero"
 	}
@@ -38,4 +39,12 @@ func TestZeroCheckOnTheCertificate(t *testing.T) {
 		strings.Join(steps, ", "),
 		"replaced the source's offset specification",
 	)
+
+	// A check too noisy to beat the spec is shown, and said not to be applied.
+	rec.Zeros[0].Unc, rec.Zeros[0].Applied = sequencer.Uncertainty{Std: 1.9e-6, DOF: 14, K: 2.2, Expanded: 4.2e-6}, false
+	for i := range rec.Fits {
+		rec.Fits[i].SourceZero = ""
+	}
+	text = pdfText(t, render(t, rec, opt))
+	requireText(t, text, "not applied", "its u is not below the spec's 0.2887 µV: the fits keep the spec")
 }
