@@ -19,9 +19,14 @@ import (
 //	meter offset   4 ppm × 10 V = 40 µV half-width:                        23.1 µV
 //
 // so the source's range term, not the meter's 30 ppm of reading, dominates
-// (58 % of the variance); u = 75.8 µV, U = 151.6 µV at k = 2.
+// (58 % of the variance); u = 75.8 µV, k·u = 151.6 µV at k = 2. That is the demo
+// without its zero check, which replaces the source-offset term by a measurement.
 func TestBRX200BudgetOnPaper(t *testing.T) {
-	st, seq := demoFiles(t, nil)
+	st, _ := demoFiles(t, nil)
+	seq, err := sequencer.ParseSequence("brx200-sequence.yaml", []byte(withoutZero(t)), demoReader(t, nil))
+	if err != nil {
+		t.Fatal(err)
+	}
 	var post *sequencer.Result
 	results := sequencer.PredictResults(st, seq)
 	for i, r := range results {

@@ -224,7 +224,7 @@ func ideal(dut map[string]string) map[string]map[string]string {
 		d[k] = v
 	}
 	return map[string]map[string]string{
-		"source": {"noise": "0 V", "gain_error": "0 ppm", "offset": "0 V"},
+		"source": {"noise": "0 V", "gain_error": "0 ppm", "offset": "0 V", "thermal_emf": "0 V"},
 		"meter":  {"noise": "0 V", "gain_error": "0 ppm", "offset": "0 V"},
 		"dut":    d,
 	}
@@ -267,18 +267,22 @@ func TestKnownDUTGivesPredictableCodes(t *testing.T) {
 	near(t, "pre gain error", resultOf(t, rec, sequencer.ResPreGainError).Value, -2500e-6, 0.1e-6)
 	// Uncertainty, hand-worked from the demo station's specs (JCGM 100 §4.3.7,
 	// rectangular a/√3; sensitivities of the intercept: meter gain −b0 ≈ −2.5 V,
-	// meter offset −1, source offset −b1 = −200):
-	//   u(b0)² = (2.5·30 ppm/√3)² + (4 ppm·10 V/√3)² + (200·5 ppm·100 mV/√3)² + (1 µV/(2√3))²/11
-	//   u(b0) = 75.77 µV; dof ∞ (no noise) so k = 2.000 at 95.45 %.
+	// meter offset −1, source offset −b1 = −200). The demo's zero check measured
+	// the source offset on this noiseless bench with no scatter (JCGM 100
+	// §4.2.3), only the meter's resolution in its two means, so its row replaces
+	// the spec term (200·5 ppm·100 mV/√3 = 57.74 µV) by √2·1 µV/(2√3) = 0.41 µV:
+	//   u(b0)² = (2.5·30 ppm/√3)² + (4 ppm·10 V/√3)² + (1 µV/(2√3))²/11 + (0.41 µV)²
+	//   u(b0) = 49.08 µV (75.77 µV with the spec term); dof ∞ (no noise) so
+	//   k = 2.000 at 95.45 %.
 	//   u(b1)/b1 = √((30 ppm/√3)² + (20 ppm/√3)²) = 20.82 ppm.
 	po := resultOf(t, rec, sequencer.ResPostOffset).Unc
-	near(t, "u(post offset)", po.Std, 75.77e-6, 0.1e-6)
+	near(t, "u(post offset)", po.Std, 49.07e-6, 0.1e-6)
 	near(t, "k", po.K, 2.000, 0.001)
-	near(t, "k·u(post offset)", po.K*po.Std, 151.5e-6, 0.3e-6)
+	near(t, "k·u(post offset)", po.K*po.Std, 98.15e-6, 0.3e-6)
 	// The stated U is k·u rounded up to two significant digits (JCGM 100:2008
-	// §7.2.6 allows rounding up): 151.5 µV → 160 µV.
-	if po.Expanded != 160e-6 {
-		t.Errorf("U(post offset) = %v, want 160 µV: k·u = 151.5 µV rounded up (JCGM 100:2008 §7.2.6)", po.Expanded)
+	// §7.2.6 allows rounding up): 98.15 µV → 99 µV.
+	if po.Expanded != 99e-6 {
+		t.Errorf("U(post offset) = %v, want 99 µV: k·u = 98.15 µV rounded up (JCGM 100:2008 §7.2.6)", po.Expanded)
 	}
 	near(t, "u(post gain error)", resultOf(t, rec, sequencer.ResPostGainError).Unc.Std, 20.82e-6, 0.02e-6)
 	if rec.Coverage != 0.9545 {
@@ -438,9 +442,10 @@ func TestSourceOffOnEveryExitPath(t *testing.T) {
 	}
 }
 
-// Every instrument's error queue is read after each of the 22 points and once more
-// before the verdict: an entry there, after the last reading, still makes the unit
-// a station fault that is never judged.
+// Every instrument's error queue is read after each of the 22 points, after each
+// of the zero check's two states and once more before the verdict: an entry
+// there, after the last reading, still makes the unit a station fault that is
+// never judged.
 func TestErrorQueueReadBeforeTheVerdict(t *testing.T) {
 	inject.set(plan{})
 	e := setup(t, "faulty", ideal(nil), "")
@@ -454,10 +459,10 @@ func TestErrorQueueReadBeforeTheVerdict(t *testing.T) {
 	inject.mu.Lock()
 	n := inject.checks
 	inject.mu.Unlock()
-	if n != 23 {
-		t.Fatalf("the meter's error queue was read %d times in a run of 22 points, want 23 (each point and before the verdict)", n)
+	if n != 25 {
+		t.Fatalf("the meter's error queue was read %d times in a run of 22 points and a zero check, want 25 (each point, each state and before the verdict)", n)
 	}
-	inject.set(plan{bench: bench, entryAtCheck: 23})
+	inject.set(plan{bench: bench, entryAtCheck: 25})
 	rec := e.Run(context.Background(), "BRX-00015")
 	if rec.Verdict != sequencer.Fault || !strings.Contains(rec.Fault, "before the verdict") || !strings.Contains(rec.Fault, "-230") {
 		t.Fatalf("entry before the verdict: %s %q", rec.Verdict, rec.Fault)
@@ -484,13 +489,16 @@ func TestInterlockOpenStopsTheRun(t *testing.T) {
 	inject.mu.Lock()
 	bench := inject.bench
 	inject.mu.Unlock()
-	inject.set(plan{bench: bench, lidOpenAt: 4})
+	// The demo's zero check reads the lid twice (before it programs 0 and
+	// before the output goes on), the sweep once a point: the 6th read is the
+	// sweep's 5th point.
+	inject.set(plan{bench: bench, lidOpenAt: 6})
 	rec := e.Run(context.Background(), "BRX-00012")
 	if rec.Verdict != sequencer.Fault || !strings.Contains(rec.Fault, "interlock open") {
 		t.Fatalf("open lid: %s %q", rec.Verdict, rec.Fault)
 	}
 	if got := len(rec.Sweeps[0].Points); got != 4 {
-		t.Errorf("run went on for %d points after the lid opened at the 4th read", got)
+		t.Errorf("run went on for %d points after the lid opened at the 6th read", got)
 	}
 	if on, _ := bench.Source().State(); on {
 		t.Error("source left on with the lid open")
@@ -512,8 +520,10 @@ func TestStepDeadline(t *testing.T) {
 }
 
 // A limit file that refuses to run where the station cannot reach its minimum TUR
-// stops the station before any unit (ANSI/NCSL Z540.3-2006 §5.3 ratio; the station
-// reaches about 5.4:1 on ±800 µV, so ±50 µV gives about 0.33:1).
+// stops the station before any unit (ANSI/NCSL Z540.3-2006 §5.3 ratio; with the
+// demo's zero check in place of the source's offset spec, u(post offset) is
+// 49.1 µV on paper, so the station reaches about 8.2:1 on ±800 µV and ±50 µV
+// gives about 0.52:1).
 func TestTURRefuseStopsTheStation(t *testing.T) {
 	lim := strings.Replace(demoFile(t, "brx200-limits.yaml"), "tur_policy: warn", "tur_policy: refuse", 1)
 	lim = strings.Replace(lim, "tolerance: {lower: -800, upper: 800}", "tolerance: {lower: -50, upper: 50}", 1)
@@ -523,8 +533,8 @@ func TestTURRefuseStopsTheStation(t *testing.T) {
 		t.Fatalf("want ErrTUR naming the limit, got %v", err)
 	}
 	for _, c := range checks {
-		if c.Limit == "offset after trim" && (c.TUR < 0.3 || c.TUR > 0.36) {
-			t.Errorf("predicted TUR %.3f, want ≈ 0.33 (100 µV / (2·1.96·75.8 µV))", c.TUR)
+		if c.Limit == "offset after trim" && (c.TUR < 0.49 || c.TUR > 0.55) {
+			t.Errorf("predicted TUR %.3f, want ≈ 0.52 (100 µV / (2·1.96·49.1 µV))", c.TUR)
 		}
 	}
 	if _, err := sequencer.Open(context.Background(), sequencer.Config{Station: st, Sequence: seq}); !errors.Is(err, sequencer.ErrTUR) {

@@ -80,7 +80,7 @@ func TestDemoFilesLoad(t *testing.T) {
 	for _, d := range seq.Steps {
 		kinds = append(kinds, d.Kind)
 	}
-	if got := strings.Join(kinds, " "); got != "identify clear_trim sweep fit trim store sweep fit" {
+	if got := strings.Join(kinds, " "); got != "identify clear_trim zero_check sweep fit trim store sweep fit" {
 		t.Errorf("steps %s", got)
 	}
 	if got := strings.Join(seq.Requires, " "); got != "source meter dut" {

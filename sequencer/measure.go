@@ -126,6 +126,7 @@ func analyse(cfg Config, plan SweepPlan, sw Sweep, order int, seed string, rules
 	}
 	meter, source, res := sweepSpecs(cfg.Station, plan, sw.Points)
 	us := uncertainty.Sweep{X: x, Y: y, URandom: ur, DOFRandom: dof, PooledRandom: poolOnce, Meter: meter, MeterResolution: res, Source: source}
+	zero := plan.zero.apply(&us) // a zero check's measured source offset (step_zero.go)
 	a := analysis{sw: us, poolDOF: pooled}
 	s := &a.sum
 	if order == 2 {
@@ -148,7 +149,7 @@ func analyse(cfg Config, plan SweepPlan, sw Sweep, order int, seed string, rules
 		s.Cov, s.CovTotal = lf.CovRandom, lf.Cov
 		s.DOFEff, s.Residuals, s.DOF = lf.DOFB0, lf.Residuals, len(x)-2
 	}
-	s.Sweep, s.Order = sw.Name, order
+	s.Sweep, s.Order, s.SourceZero = sw.Name, order, zero
 	s.LackOfFit = lackOfFit(us, s.Residuals, order+1)
 	var rss, maxAbs float64
 	for _, r := range s.Residuals {

@@ -144,6 +144,8 @@ type Record struct {
 	Soaks []Soak `json:"soaks,omitempty"`
 	// Retrims are the passes of every closed-loop re-trim, in order.
 	Retrims []RetrimPass `json:"retrims,omitempty"`
+	// Zeros are the run's zero checks (zero_check steps), in order.
+	Zeros []ZeroCheck `json:"zeros,omitempty"`
 	// StimulusUnit and ResponseUnit are the units of every sweep's stimulus and
 	// response (Point.Stimulus, Point.Mean, the readings) and of the ideal
 	// offset and full scale: "V", "A" or "count" (a number the unit reports).
@@ -355,6 +357,10 @@ type FitSummary struct {
 	// the residual scatter (JCGM 100 H.3, the fit step's random: residuals);
 	// "" when it is the readings' pooled standard deviation.
 	Random string `json:"random,omitempty"`
+	// SourceZero names the zero check (Record.Zeros) whose measured source
+	// offset the fit applied: the levels corrected by it and its Type A
+	// uncertainty in place of the source's offset spec; "" = none.
+	SourceZero string `json:"source_zero,omitempty"`
 }
 
 // LackOfFit is a fit's lack-of-fit statistic: χ²/ν of the residuals against the

@@ -69,6 +69,7 @@ func Differences(recorded, replayed *Record) []string {
 		}
 	}
 	coefDifferences(recorded.Coefficients, replayed.Coefficients, add)
+	zeroDifferences(recorded.Zeros, replayed.Zeros, add)
 	if len(recorded.Retrims) != len(replayed.Retrims) {
 		add("re-trim passes: recorded %d, recomputed %d", len(recorded.Retrims), len(replayed.Retrims))
 	}

@@ -18,7 +18,7 @@ func TestRunBounds(t *testing.T) {
 		name, add, want string
 	}{
 		{"steps", strings.Repeat("  - {kind: sweep, from: -10 mV, to: 10 mV, points: 3, settle: 1 ms, readings: 1}\n", 201),
-			"expected at most 200 steps, found 209"},
+			"expected at most 200 steps, found 210"},
 		// 30 sweeps of 100 × 30 s = 25 h.
 		{"time", strings.Repeat("  - {kind: sweep, from: -10 mV, to: 10 mV, points: 100, settle: 30 s, readings: 1}\n", 30),
 			"expected a run of at most 24h0m0s"},

@@ -43,6 +43,9 @@ type SweepPlan struct {
 	// Quantity is what the readings are: units.Volt, units.Ampere or units.Count.
 	Quantity units.Dim
 	Where    string // "file:line:col" of the sweep in the sequence file, for messages
+	// zero is the zero check a run applies to the sweep's fits: set on the
+	// plan a sweep keeps (Unit.withZero), nil in the file's plan.
+	zero *zeroKept
 }
 
 // ResponsePlan is a unit that reports its own response: each reading is the
@@ -216,7 +219,7 @@ func (s *sweepStep) Run(ctx context.Context, u *Unit) error {
 			return nil
 		}
 	}
-	u.Keep(sweepKept{sweep: sw, plan: s.Plan})
+	u.Keep(sweepKept{sweep: sw, plan: u.withZero(s.Plan)})
 	return nil
 }
 

@@ -52,8 +52,11 @@ type Unit struct {
 	// tempKnown: every later sweep records it.
 	tempC     float64
 	tempKnown bool
-	step      *StepDecl // the step running
-	channel   string    // the unit's channel the running step works on, "" for a one-channel unit
+	// zeros are the latest zero check of each source role (and channel), for
+	// the sweeps after it (step_zero.go).
+	zeros   map[string]zeroKept
+	step    *StepDecl // the step running
+	channel string    // the unit's channel the running step works on, "" for a one-channel unit
 }
 
 // Channel is the unit's channel the running step works on: one of the sequence's

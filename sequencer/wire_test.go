@@ -117,8 +117,8 @@ func TestEngineOverTheWire(t *testing.T) {
 // -230 "Data corrupt or stale" after READ?) is a station fault: the engine reads
 // every instrument's error queue after each point's readings, so the unit ends as
 // FAULT with the output off and is never judged. The entry is injected after the
-// first READ? of the pre-trim sweep and after the last READ? of the verify sweep
-// (the last reading before the verdict).
+// first READ? of the pre-trim sweep (the zero check before it reads twice) and
+// after the last READ? of the verify sweep (the last reading before the verdict).
 func TestErrorQueuedByAReadingIsAFault(t *testing.T) {
 	if testing.Short() {
 		t.Skip("real-time run")
@@ -130,9 +130,10 @@ func TestErrorQueuedByAReadingIsAFault(t *testing.T) {
 		fault  serve.Fault
 		points int // points recorded when the fault stops the run
 	}{
-		{"first reading", serve.Fault{ErrorAfter: "READ?", ErrorEntry: stale}, 1},
-		// 5 pre-trim points, then the trim; the verify sweep's 5th READ? is the 10th.
-		{"last reading", serve.Fault{ErrorAfter: "READ?", ErrorAt: 10, ErrorEntry: stale}, 5},
+		{"first reading", serve.Fault{ErrorAfter: "READ?", ErrorAt: 3, ErrorEntry: stale}, 1},
+		// The zero check's 2, 5 pre-trim points, then the trim; the verify
+		// sweep's 5th READ? is the 12th.
+		{"last reading", serve.Fault{ErrorAfter: "READ?", ErrorAt: 12, ErrorEntry: stale}, 5},
 	} {
 		t.Run(c.name, func(t *testing.T) {
 			srv.SetFault("meter", c.fault)

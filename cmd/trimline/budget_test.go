@@ -7,11 +7,15 @@ import (
 )
 
 // trimline check prints, under the TUR lines, the budget on paper of each
-// toleranced result. On the demo station the offset after trim is dominated by
-// the source's range term: 5 ppm of 100 mV = 0.5 µV half-width at the input,
-// u = a/√3 = 0.289 µV (JCGM 100 §4.3.7), ×200 V/V = 57.7 µV, 58.1 % of u² =
-// (57.7² + 43.3² + 23.1²) µV² (JCGM 100 §5.1.3, eq. (10)); the meter's 30 ppm
-// of the 2.5 V reading gives 43.3 µV. The columns line up: every row of the
+// toleranced result. Without a zero check the demo's offset after trim would be
+// dominated by the source's range term (57.7 µV of 75.8 µV, see
+// sequencer.TestBRX200BudgetOnPaper); the demo's zero check measures the source's
+// offset, so on paper its row is Type A and holds only half a count of the meter's
+// 1 µV resolution in each of its two states, referred to the input: √2 ·
+// 1 µV/(2√3)/200 = 2.04 nV (JCGM 100 F.2.2.1); the meter's 30 ppm of the 2.5 V
+// reading, u =
+// 75 µV/√3 = 43.3 µV (JCGM 100 §4.3.7), leads with 43.3²/(43.3² + 23.1²) = 77.8 %
+// of u² (JCGM 100 §5.1.3, eq. (10)). The columns line up: every row of the
 // budgets ends at the same column.
 func TestCheckPrintsBudgets(t *testing.T) {
 	dir := t.TempDir()
@@ -35,10 +39,10 @@ func TestCheckPrintsBudgets(t *testing.T) {
 	lines := strings.Split(post, "\n")
 	want := [][]string{
 		{"meter resolution", "B", "289 nV", "per point (11)", "87 nV", "∞", "< 0.1 %"},
-		{"meter gain", "B", "17.3 ppm", "−2.5 µV/ppm", "43.3 µV", "∞", "32.7 %"},
-		{"meter offset", "B", "23.1 µV", "−1 V/V", "23.1 µV", "∞", "9.3 %"},
-		{"source offset", "B", "289 nV", "−200 V/V", "57.7 µV", "∞", "58.1 %"},
-		{"combined u", "75.8 µV", "∞", "100 %"},
+		{"meter gain", "B", "17.3 ppm", "−2.5 µV/ppm", "43.3 µV", "∞", "77.8 %"},
+		{"meter offset", "B", "23.1 µV", "−1 V/V", "23.1 µV", "∞", "22.1 %"},
+		{"source offset", "A", "2.04 nV", "−200 V/V", "408 nV", "∞", "< 0.1 %"},
+		{"combined u", "49.1 µV", "∞", "100 %"},
 	}
 	width := utf8.RuneCountInString(lines[0])
 	for i, w := range want {

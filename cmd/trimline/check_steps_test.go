@@ -39,16 +39,16 @@ func TestCheckReportsEveryStepErrorInOnePass(t *testing.T) {
 		"    name: verify fit\n", "    name: verify fit\n    skip_if: no_such_result > 3\n") // a skip_if over no result
 	code, out, _ := runCLI(t, "check", bad)
 	expectAll(t, out,
-		"bad-brx200-sequence.yaml:50:11: unknown unit \"mX\" in \"-10 mX\"",
-		"   50 |     from: -10 mX\n      |           ^",
-		"bad-brx200-sequence.yaml:58:12: no earlier sweep step called \"verify\" (earlier ones: \"pre-trim\")",
-		"   58 |     sweep: verify\n      |            ^",
-		"bad-brx200-sequence.yaml:69:13: no trim DAC \"gian\" in this trim",
-		"   69 |       gian: gain_code\n      |             ^",
-		"bad-brx200-sequence.yaml:71:11: unknown step kind \"stash\" (expected one of ",
-		"   71 |   - kind: stash ",
-		"bad-brx200-sequence.yaml:84:14: skip_if \"no_such_result > 3\": unknown name no_such_result",
-		"   84 |     skip_if: no_such_result > 3\n      |              ^",
+		"bad-brx200-sequence.yaml:57:11: unknown unit \"mX\" in \"-10 mX\"",
+		"   57 |     from: -10 mX\n      |           ^",
+		"bad-brx200-sequence.yaml:65:12: no earlier sweep step called \"verify\" (earlier ones: \"pre-trim\")",
+		"   65 |     sweep: verify\n      |            ^",
+		"bad-brx200-sequence.yaml:76:13: no trim DAC \"gian\" in this trim",
+		"   76 |       gian: gain_code\n      |             ^",
+		"bad-brx200-sequence.yaml:78:11: unknown step kind \"stash\" (expected one of ",
+		"   78 |   - kind: stash ",
+		"bad-brx200-sequence.yaml:91:14: skip_if \"no_such_result > 3\": unknown name no_such_result",
+		"   91 |     skip_if: no_such_result > 3\n      |              ^",
 		"5 problem(s)",
 	)
 	if code != exitUsage || t.Failed() {
@@ -72,10 +72,11 @@ func TestCheckStepsListsTheSequence(t *testing.T) {
 	expectAll(t, out,
 		"    #  step          kind        stage       roles                                   results\n",
 		"    1  identify      identify    as found    dut (dut_port)                          —\n",
-		"    3  pre-trim      sweep       as found    source (voltage_source), meter (meter)  —\n",
-		"    4  pre-trim fit  fit         as found    —                                       pre_offset, pre_gain_error, pre_nonlinearity\n",
-		"    5  trim          trim        adjustment  dut (dut_port)                          offset_code, gain_code\n",
-		"    8  verify fit    fit         as left     —                                       post_offset, post_gain_error, post_nonlinearity, post_max_error, post_noise\n",
+		"    3  station zero  zero_check  as found    source (voltage_source), meter (meter)  station_zero\n",
+		"    4  pre-trim      sweep       as found    source (voltage_source), meter (meter)  —\n",
+		"    5  pre-trim fit  fit         as found    —                                       pre_offset, pre_gain_error, pre_nonlinearity\n",
+		"    6  trim          trim        adjustment  dut (dut_port)                          offset_code, gain_code\n",
+		"    9  verify fit    fit         as left     —                                       post_offset, post_gain_error, post_nonlinearity, post_max_error, post_noise\n",
 	)
 	if code != 0 || t.Failed() {
 		t.Fatalf("exit %d:\n%s", code, out)
@@ -92,7 +93,7 @@ func TestCheckCapsNamesTheStep(t *testing.T) {
 	}
 	bad := editDemo(t, dir, "brx200-sequence.yaml", "    name: verify\n    from: -10 mV\n    to: 10 mV", "    name: verify\n    from: -10 mV\n    to: 60 mV")
 	code, out, _ := runCLI(t, "check", station, bad)
-	want := `safety cap: ` + bad + `:74:5: step "verify" reaches 53 mV on the source, above the station cap of 50 mV (` + filepath.Base(station) + ` safety.max_source_voltage)`
+	want := `safety cap: ` + bad + `:81:5: step "verify" reaches 53 mV on the source, above the station cap of 50 mV (` + filepath.Base(station) + ` safety.max_source_voltage)`
 	if code != exitUsage || !strings.Contains(out, want+"\n1 problem(s)\n") || strings.Contains(out, `"pre-trim"`) {
 		t.Fatalf("exit %d, want 2 and\n%s\ngot:\n%s", code, want, out)
 	}
@@ -112,10 +113,11 @@ func TestCheckStepsNamesChannels(t *testing.T) {
 	code, out, _ := runCLI(t, "check", "--steps", seq)
 	expectAll(t, out,
 		"    1  identify                      identify    as found",
-		"    3  pre-trim (channels A, B)      sweep       as found",
-		"    6  store                         store       adjustment",
-		"    7  verify (channel B)            sweep       as left",
-		"    8  verify fit (channel B)        fit         as left",
+		"    3  station zero (channels A, B)  zero_check  as found",
+		"    4  pre-trim (channels A, B)      sweep       as found",
+		"    7  store                         store       adjustment",
+		"    8  verify (channel B)            sweep       as left",
+		"    9  verify fit (channel B)        fit         as left",
 	)
 	if code != 0 || t.Failed() {
 		t.Fatalf("exit %d:\n%s", code, out)

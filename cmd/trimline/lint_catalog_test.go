@@ -83,12 +83,13 @@ func TestLintCatalogueComesFromTheSteps(t *testing.T) {
 		t.Fatalf("lint of the sequence's own broken limit file: exit %d\nstdout:\n%s\nstderr:\n%s", code, out, errOut)
 	}
 
-	// The TUR the station reaches is predicted from the steps.
+	// The TUR the station reaches is predicted from the steps (with the demo's
+	// zero check in place of the source's offset spec: 20 µV / (2 · 96.2 µV)).
 	tight := copyWith(t, demoLimits, filepath.Join(dir, "tight", "brx200-limits.yaml"),
 		"tolerance: {lower: -800, upper: 800}", "tolerance: {lower: -10, upper: 10}")
 	// The TUR three significant digits, rounded down below the minimum (units.FormatTUR).
 	code, out, errOut = runCLI(t, "limits", "lint", "--sequence", sequence, "--station", station, tight)
-	if code != 0 || !strings.Contains(out, `brx200-limits.yaml:59:16: warning: limit "offset after trim": tolerance −10 … 10 µV is tighter than the station can verify: TUR 0.0673:1`) {
+	if code != 0 || !strings.Contains(out, `brx200-limits.yaml:59:16: warning: limit "offset after trim": tolerance −10 … 10 µV is tighter than the station can verify: TUR 0.103:1`) {
 		t.Fatalf("TUR from the steps: exit %d\nstdout:\n%s\nstderr:\n%s", code, out, errOut)
 	}
 }

@@ -55,8 +55,11 @@
 // When on, the source's actual output is level·(1 + g) + o. g and o are drawn once
 // per bench from the seed, uniformly inside ±60 % of the stated spec
 // (spec_ppm_reading of reading, spec_ppm_range of range) unless gain_error / offset
-// set them. Each meter reading adds white noise (noise, V rms) to the DUT input. Off,
-// the fixture relay shorts the DUT input to 0 V. A change of the DUT input (level
+// set them. The wiring to the DUT adds its thermal EMF e in series while the
+// output is on: the DUT input is level·(1 + g) + o + e, e drawn once per bench
+// inside ±60 % of 500 nV unless thermal_emf sets it (what a zero check measures as
+// o + e). Each meter reading adds white noise (noise, V rms) to the DUT input. Off,
+// the fixture relay shorts the DUT input to a true 0 V (no o, no e). A change of the DUT input (level
 // change while on, switching on or off) is a step the DUT settles after.
 //
 // The source has an output watchdog (Source.ArmWatchdog): once armed with a time, it
@@ -372,6 +375,7 @@
 //	every model  latency (time per command, at most 10 s; 0 s)
 //	source       spec_ppm_reading (20), spec_ppm_range (5), range (100 mV),
 //	             noise (50 nV rms), gain_error (drawn), offset (drawn),
+//	             thermal_emf (drawn, wiring to the DUT input),
 //	             current_range (25 mA), current_noise (2 nA rms),
 //	             current_offset (drawn)
 //	meter        spec_ppm_reading (30), spec_ppm_range (4), range (power-on range, 0 = auto = 10 V),

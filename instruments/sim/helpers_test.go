@@ -14,7 +14,7 @@ import (
 // quietSource, quietMeter and quietDUT are settings with every error and noise off,
 // so a test can hand-compute each reading.
 var (
-	quietSource = map[string]string{"noise": "0V", "gain_error": "0", "offset": "0V"}
+	quietSource = map[string]string{"noise": "0V", "gain_error": "0", "offset": "0V", "thermal_emf": "0V"}
 	quietMeter  = map[string]string{"noise": "0V", "gain_error": "0", "offset": "0V"}
 	quietDUT    = map[string]string{"offset": "3.1mV", "gain_error": "-2500 ppm", "noise": "0V",
 		"crossover_step": "0uV", "dnl": "0", "defect": "none"}

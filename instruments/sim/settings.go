@@ -318,6 +318,11 @@ type sourceConfig struct {
 	noise       float64  // V rms
 	gainError   *float64 // fraction
 	offset      *float64 // V
+	// Thermal EMF of the wiring to the DUT input: drawn inside ±60 % of
+	// emfSpan (500 nV, a few hundred nV as copper–brass junctions at a few
+	// kelvin give, common practice), unless emf sets it.
+	emfSpan float64  // V
+	emf     *float64 // V
 
 	// Current mode (instruments.CurrentSource).
 	iRng    float64  // A, current range; 25 mA
@@ -365,7 +370,7 @@ func defaultConfig(model string) config {
 	return config{
 		model: model,
 		source: sourceConfig{
-			specReading: 20e-6, specRange: 5e-6, rng: 0.1, noise: 50e-9,
+			specReading: 20e-6, specRange: 5e-6, rng: 0.1, noise: 50e-9, emfSpan: 500e-9,
 			iRng: 25e-3, iNoise: 2e-9,
 		},
 		meter: meterConfig{
@@ -655,6 +660,7 @@ func (c *sourceConfig) setters() map[string]setter {
 		"noise":            nonNegativeOf(&c.noise, units.Volt),
 		"gain_error":       overrideOf(&c.gainError, units.Ratio),
 		"offset":           overrideOf(&c.offset, units.Volt),
+		"thermal_emf":      overrideOf(&c.emf, units.Volt),
 		"current_range":    positiveOf(&c.iRng, units.Ampere),
 		"current_noise":    nonNegativeOf(&c.iNoise, units.Ampere),
 		"current_offset":   overrideOf(&c.iOffset, units.Ampere),

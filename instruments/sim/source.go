@@ -12,15 +12,20 @@ import (
 
 // Source is the simulated DC source at sim://source. In voltage mode (after
 // reset, and after SetLevel) its actual output is level·(1 + GainError) +
-// OffsetError when on, plus white noise per meter reading; off, the DUT input is
-// shorted to 0 V. In current mode (after SetCurrent, instruments.CurrentSource)
+// OffsetError when on, and the DUT input sees that plus the thermal EMF of the
+// wiring between them, plus white noise per meter reading; off, the fixture
+// relay shorts the DUT input to a true 0 V. In current mode (after SetCurrent, instruments.CurrentSource)
 // it drives amps·(1 + GainError) + its current offset into the DUT input, the
 // voltage across it held within the compliance voltage (SetVoltageLimit).
 type Source struct {
 	wiring
-	rng        float64 // V, full-scale range; |level| must not exceed it
-	gainErr    float64 // fraction
-	offsetErr  float64 // V
+	rng       float64 // V, full-scale range; |level| must not exceed it
+	gainErr   float64 // fraction
+	offsetErr float64 // V
+	// emf is the thermal EMF of the wiring from the source to the DUT input, V:
+	// in series with the output while it is on, absent when off (the fixture
+	// relay shorts the DUT input at the DUT).
+	emf        float64
 	noise      float64 // V rms per reading
 	level      float64 // V, programmed
 	on         bool
@@ -66,11 +71,13 @@ const maxCompliance = 0.1
 func newSource(b *Bench, c config) *Source {
 	r := streamRand("source", b.seed)
 	uGain, uOfs := uniform(r), uniform(r)
+	uEMF := uniform(r) // after the older draws, so they are unchanged
 	s := &Source{
 		wiring:     wiring{bench: b, latency: c.latency, name: "sim source", errClosed: errSourceClosed},
 		rng:        c.source.rng,
 		gainErr:    uGain * c.source.specReading,
 		offsetErr:  uOfs * c.source.specRange * c.source.rng,
+		emf:        uEMF * c.source.emfSpan,
 		noise:      c.source.noise,
 		compliance: defaultCompliance,
 		iRng:       c.source.iRng,
@@ -86,6 +93,9 @@ func newSource(b *Bench, c config) *Source {
 	}
 	if c.source.iOffset != nil {
 		s.iOffsetErr = *c.source.iOffset
+	}
+	if c.source.emf != nil {
+		s.emf = *c.source.emf
 	}
 	return s
 }
@@ -111,7 +121,7 @@ func (s *Source) into(ohms float64) float64 {
 		return 0
 	}
 	if !s.current {
-		v := s.actual()
+		v := s.actual() + s.emf
 		if ohms > 0 && math.Abs(v) > s.compliance*ohms {
 			v = math.Copysign(s.compliance*ohms, v)
 		}
@@ -139,6 +149,11 @@ func (s *Source) noiseInto(ohms float64) float64 {
 // Errors returns the source's gain error (fraction) and offset error (V): actual =
 // programmed·(1 + gain) + offset.
 func (s *Source) Errors() (gain, offset float64) { return s.gainErr, s.offsetErr }
+
+// ThermalEMF returns the thermal EMF of the wiring from the source to the DUT
+// input in V: in voltage mode with the output on, the DUT input is the actual
+// output plus it (a current source drives through it).
+func (s *Source) ThermalEMF() float64 { return s.emf }
 
 // Range returns the source's full-scale range in volts (the range setting, 100 mV by
 // default); SetLevel refuses a level beyond it.

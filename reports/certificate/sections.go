@@ -26,6 +26,7 @@ func (d *doc) build() {
 	d.coefficients()
 	d.retrims()
 	d.soaks()
+	d.zeros()
 	d.filesInForce()
 	d.detail()
 	d.seal()

@@ -15,7 +15,7 @@ import (
 // QuietSpecs are the source, meter and DUT of the quiet bench, at sim:// addresses.
 func QuietSpecs() []instruments.Spec {
 	return []instruments.Spec{
-		{Role: "source", Address: "sim://source", Settings: map[string]string{"noise": "0V", "gain_error": "0", "offset": "0V"}},
+		{Role: "source", Address: "sim://source", Settings: map[string]string{"noise": "0V", "gain_error": "0", "offset": "0V", "thermal_emf": "0V"}},
 		{Role: "meter", Address: "sim://meter", Settings: map[string]string{"noise": "0V", "gain_error": "0", "offset": "0V", "nplc": "0.01"}},
 		{Role: "dut", Address: "sim://dut", Settings: map[string]string{"offset": "3.1mV", "gain_error": "-2500 ppm", "noise": "0V",
 			"crossover_step": "0uV", "dnl": "0", "defect": "none"}},
