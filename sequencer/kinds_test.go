@@ -666,8 +666,9 @@ func TestSecondVerifySweep(t *testing.T) {
 		}
 	}
 	// The recheck's own U follows its own sweep: 6 levels, not the verify's 11.
-	if pred["recheck_offset"].U == pred[sequencer.ResPostOffset].U {
-		t.Errorf("recheck U(offset) equals verify's (%g): predicted from the wrong sweep?", pred["recheck_offset"].U)
+	// (Compared by u: two stated U can round to the same two digits.)
+	if pred["recheck_offset"].Std == pred[sequencer.ResPostOffset].Std {
+		t.Errorf("recheck u(offset) equals verify's (%g): predicted from the wrong sweep?", pred["recheck_offset"].Std)
 	}
 
 	// A recheck beyond the station's 50 mV cap is refused at load, naming the step.

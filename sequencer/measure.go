@@ -240,7 +240,7 @@ func (a analysis) unc(u *Unit, g [2]float64, c, std, dof float64) Uncertainty {
 	// The GUM interval is validated as computed, y ± k·u: the stated (rounded up)
 	// U would move its end points by up to a tenth of U, far beyond δ.
 	v := uncertainty.Validate(value, gum.Std, gum.K*gum.Std, m.Low, m.High, mcDigits)
-	if u.Metrology() >= 1 && !u.Predicting() {
+	if u.Metrology() >= 1 {
 		// Stated once, rounded up: value ± U still contains the whole interval.
 		U = StatedU(U)
 	}

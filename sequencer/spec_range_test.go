@@ -159,8 +159,9 @@ func pza8Files(t *testing.T, meterSpecs string) (*sequencer.Station, *sequencer.
 //	                                10 V: √(23.094011² + 0.288675² + 5.773503²) = 23.806512 µV
 //
 // The TUR of "offset after re-trim" (±250 µV) is (upper − lower)/(2·U95), so
-// the two stations' TURs stand as the inverse of their u: 23.806512/6.455037 =
-// 3.688052.
+// the two stations' TURs stand as the inverse of their stated U (k = 2, U rounded
+// up to two significant digits, JCGM 100 §7.2.6): 2·23.806512 = 47.61 → 48 µV,
+// 2·6.455037 = 12.91 → 13 µV, 48/13 = 3.692308.
 func TestSpecPerRangeBudget(t *testing.T) {
 	for _, c := range []struct {
 		name            string
@@ -193,7 +194,7 @@ func TestSpecPerRangeBudget(t *testing.T) {
 		return 0
 	}
 	both, alone := tur(""), tur("    accuracy: {of_reading: 30 ppm, of_range: 4 ppm, range: 10 V, resolution: 1 uV}\n")
-	if r := both / alone; math.Abs(r-3.688052) > 2e-6 {
-		t.Errorf("TUR with the 1 V spec %.4g, with the 10 V spec alone %.4g: ratio %.7g, want 3.688052", both, alone, r)
+	if r := both / alone; math.Abs(r-48.0/13) > 2e-6 {
+		t.Errorf("TUR with the 1 V spec %.4g, with the 10 V spec alone %.4g: ratio %.7g, want 48/13 = 3.692308", both, alone, r)
 	}
 }

@@ -195,8 +195,9 @@ func (u *Unit) onChannel(d DAC) DAC {
 // significant digits (StatedU), rounded here once. The record stores it, the
 // limits judge with it (guard band and acceptance limits, TUR, PFA) and every
 // document prints it. Std and K stay as evaluated, so U ≥ K·Std. Revision 0
-// stores k·u unrounded, as it did; so does a prediction (PredictUncertainty),
-// which states nothing.
+// stores k·u unrounded, as it did. A prediction on paper (PredictUncertainty)
+// states U the same way, so the TUR that check and the start-of-run TUR check
+// promise is the TUR the bench's certificates will show.
 func (u *Unit) Unc(std, dof float64) Uncertainty {
 	if !(std >= 0) || math.IsInf(std, 0) {
 		return Uncertainty{}
@@ -205,7 +206,7 @@ func (u *Unit) Unc(std, dof float64) Uncertainty {
 		dof = math.Inf(1)
 	}
 	k, U := uncertainty.Expand(std, dof, coverage(u.seq))
-	if u.Metrology() >= 1 && !u.Predicting() { // a prediction on paper states no result
+	if u.Metrology() >= 1 {
 		U = StatedU(U)
 	}
 	return Uncertainty{Std: std, DOF: dof, K: k, Expanded: U, Method: method(u.seq, u.Metrology())}
