@@ -68,7 +68,11 @@ type Uncertainty struct {
 	DOF      float64 `json:"dof"` // math.Inf(1) when every contribution has infinite dof
 	K        float64 `json:"k"`
 	Expanded float64 `json:"U"`
-	Method   string  `json:"method,omitempty"` // "GUM" (law of propagation) or "MC" (JCGM 101 Monte Carlo)
+	Method   string  `json:"method,omitempty"` // "GUM" (law of propagation) or "MC" (JCGM 101 Monte Carlo); MethodMaxMC for a maximum
+	// Max says how the uncertainty of a maximum-type result (nonlinearity,
+	// max_error) was evaluated from metrology revision 1: Monte Carlo of the
+	// maximum (maxunc.go). Zero for every other result.
+	Max MaxUnc `json:"max,omitzero"`
 }
 
 // Record is everything one run of one serial number produced: the raw readings with

@@ -177,8 +177,15 @@ func (f *fitStep) Run(_ context.Context, u *Unit) error {
 			ug, dg := a.linear([2]float64{0, 1 / seq.IdealGain})
 			u.SetU(name, a.sum.Slope/seq.IdealGain-1, u.Unc(math.Abs(ug), dg))
 		case "nonlinearity":
-			// The largest residual; its uncertainty is that residual's own (random
-			// part only: shared gain and offset errors do not bend the line).
+			if u.Metrology() >= 1 {
+				setMaxU(u, name, a.poolDOF, func(seed string) (float64, float64, float64, MaxUnc, error) {
+					return nonlinearityMC(a, f.Order, seq.FullScale, coverage(seq), seed)
+				})
+				continue
+			}
+			// Revision 0: the largest residual, with that residual's own
+			// uncertainty (random part only: shared gain and offset errors do not
+			// bend the line).
 			ru := make([]float64, len(a.sw.X))
 			for i := range ru {
 				ru[i] = math.Hypot(a.sw.URandom[i], a.sw.MeterResolution/(2*math.Sqrt(3)))
@@ -195,9 +202,15 @@ func (f *fitStep) Run(_ context.Context, u *Unit) error {
 			}
 			u.SetU(name, a.sum.Nonlinearity, u.Unc(un, dn))
 		case "max_error":
-			// The largest deviation from the ideal transfer, with that point's own
-			// uncertainty (on paper, where every deviation is 0, the largest
-			// uncertainty).
+			if u.Metrology() >= 1 {
+				v, su, U, mu, imax := maxErrorMC(a, seq.IdealGain, seq.IdealOffset, coverage(seq), maxSeed(u, name))
+				_, dof := pointErrorU(sw.Points[imax], a.poolDOF)
+				setMaxU(u, name, dof, func(string) (float64, float64, float64, MaxUnc, error) { return v, su, U, mu, nil })
+				continue
+			}
+			// Revision 0: the largest deviation from the ideal transfer, with that
+			// point's own uncertainty (on paper, where every deviation is 0, the
+			// largest uncertainty).
 			dev := func(p Point) float64 { return math.Abs(p.Mean - (seq.IdealGain*p.Stimulus + seq.IdealOffset)) }
 			imax := 0
 			for i, p := range sw.Points {
