@@ -112,6 +112,10 @@ type Record struct {
 	Soaks []Soak `json:"soaks,omitempty"`
 	// Retrims are the passes of every closed-loop re-trim, in order.
 	Retrims []RetrimPass `json:"retrims,omitempty"`
+	// TrimEffects say how the uncertainty of each trim-effect result (a fit's
+	// offset_change, gain_change) was evaluated: which instrument errors the
+	// two sweeps shared (trimeffect.go). In the order computed.
+	TrimEffects []TrimEffect `json:"trim_effects,omitempty"`
 	// StimulusUnit and ResponseUnit are the units of every sweep's stimulus and
 	// response (Point.Stimulus, Point.Mean, the readings) and of the ideal
 	// offset and full scale: "V", "A" or "count" (a number the unit reports).

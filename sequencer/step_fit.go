@@ -30,7 +30,10 @@ var fitOutputs = map[string]struct {
 	"nonlinearity": {units.Ratio, "max |residual| / full scale, fraction", func(*fitStep) func(*Sequence) (float64, float64, bool) { return fixedRange(0, 1) }},
 	"max_error":    {units.Volt, "max |mean − ideal| over the fitted levels, V", func(f *fitStep) func(*Sequence) (float64, float64, bool) { return f.maxErrorRange }},
 	"noise":        {units.Volt, "pooled standard deviation of the readings, V rms", func(*fitStep) func(*Sequence) (float64, float64, bool) { return noiseRange }},
-	"lack_of_fit":  {units.Number, "χ²/ν of the residuals against the points' uncertainties, or F against pure error where levels repeat", func(*fitStep) func(*Sequence) (float64, float64, bool) { return nil }},
+	// The trim's effect: the change from the fit named by baseline (trimeffect.go).
+	"offset_change": {units.Volt, "offset now − offset at the baseline fit (the trim's effect on the fitted line's offset), V", func(*fitStep) func(*Sequence) (float64, float64, bool) { return nil }},
+	"gain_change":   {units.Ratio, "gain error now − gain error at the baseline fit (the trim's effect on the slope), fraction", func(*fitStep) func(*Sequence) (float64, float64, bool) { return nil }},
+	"lack_of_fit":   {units.Number, "χ²/ν of the residuals against the points' uncertainties, or F against pure error where levels repeat", func(*fitStep) func(*Sequence) (float64, float64, bool) { return nil }},
 }
 
 // fitStep is a fit as the sequence file writes it.
@@ -42,7 +45,11 @@ type fitStep struct {
 		To   *level `yaml:"to"`
 	} `yaml:"window"`
 	Results map[string]string `yaml:"results"`
+	// Baseline names an earlier fit step whose line the results offset_change
+	// and gain_change are the change from (trimeffect.go).
+	Baseline string `yaml:"baseline"`
 
+	base   *fitStep // the baseline fit, when Baseline names one
 	order  []string // the order of Results' keys when not read from a file
 	sweep  *sweepStep
 	lo, hi float64     // window, stimulus in SI units (±Inf = none)
@@ -101,6 +108,11 @@ func (f *fitStep) Check(c *Checker) {
 			c.Errorf(key, "%s %d distinct levels: an order-%d fit needs at least %d to leave a residual to judge", where, n, f.Order, f.Order+2)
 		}
 	}
+	if f.Baseline != "" {
+		if d := c.Earlier("baseline", f.Baseline, "fit"); d != nil {
+			f.base = d.Step.(*fitStep)
+		}
+	}
 	if len(f.Results) == 0 {
 		c.Errorf("", "missing required key \"results\": name what the fit gives (%s), e.g. results: {offset: pre_offset}", keysText(fitOutputs))
 	}
@@ -110,6 +122,9 @@ func (f *fitStep) Check(c *Checker) {
 		if !ok {
 			c.Errorf("results."+what, "unknown fit result %q (expected one of %s)", what, keysText(fitOutputs))
 			continue
+		}
+		if _, change := trimEffectGradient(what, 1); change && f.Baseline == "" {
+			c.Errorf("results."+what, "%s is the change from an earlier fit: name it with baseline: <fit step>", what)
 		}
 		dim, about := o.dim, o.about
 		if dim == units.Volt { // in the response's unit: V, A or count
@@ -228,6 +243,8 @@ func (f *fitStep) Run(_ context.Context, u *Unit) error {
 			}
 			pu, dof := pointErrorU(sw.Points[imax], a.poolDOF)
 			u.SetU(name, dev(sw.Points[imax]), u.Unc(pu, dof))
+		case "offset_change", "gain_change":
+			f.setTrimEffect(u, o[0], name, a)
 		case "noise":
 			// The pooled standard deviation of the readings, with u(s) ≈ s/√(2ν)
 			// (JCGM 100 E.4.3).
