@@ -38,18 +38,19 @@ import (
 
 // MaxTrials is the number of Monte Carlo trials of the maximum of a sweep's
 // deviations (nonlinearity, max_error), fixed so that the result is a
-// deterministic function of the seed. It is chosen for U stated to two
-// significant digits: the standard error of an end point of the 95.45 %
-// coverage interval of a near-normal output is sqrt(p(1 − p)/M)/f(y_p) ≈
-// 2.8·u/√M (the asymptotic variance of a sample quantile, from memory), about
-// 0.44 % of U at M = 10⁵, and that of u is u/√(2M) ≈ 0.22 %; twice the first is
-// within the numerical tolerance of JCGM 101 §7.9.2 (half a unit of U's second
-// digit, 0.5 % to 5 % of U) whenever U's first two digits are at most 55, and
-// within one unit of the second digit otherwise. JCGM 101 §7.2.2's
-// M = 10⁴/(1 − p) (2.2·10⁵ at 95.45 %) would cut the first figure by a third
-// at 2.2 times the time; the seed-to-seed spread measured on the demo units is in
-// DEVELOPERS.md ("Maximum-type results").
-const MaxTrials = 100_000
+// deterministic function of the seed, and small enough to run on every unit
+// (and on every unit a test or a replay runs). The standard error of an end
+// point of the 95.45 % coverage interval of a near-normal output is
+// sqrt(p(1 − p)/M)/f(y_p) ≈ 2.8·u/√M (the asymptotic variance of a sample
+// quantile, from memory): about 1 % of U at M = 2·10⁴, and that of u is
+// u/√(2M) = 0.5 %. Over 20 seeds, U of demo-like nonlinearities varied by
+// 0.6 % to 1.1 % (sd). So U is stated to two significant digits within one
+// unit of the second digit; JCGM 101 §7.9.2's numerical tolerance (half a unit
+// of the second digit, twice the standard error inside it) holds where U's
+// first two digits are at most about 25. JCGM 101 §7.2.2's M = 10⁴/(1 − p)
+// (2.2·10⁵ at 95.45 %) would meet it for every leading digit at eleven times
+// the time on every unit.
+const MaxTrials = 20_000
 
 // MaxUnc is how the uncertainty of a maximum-type result was evaluated: by
 // Monte Carlo of the maximum of Points deviations with Trials trials (JCGM
@@ -221,7 +222,7 @@ func setMaxU(u *Unit, name string, dof float64, mc func(seed string) (v, std, U 
 
 // selectKth returns the k-th smallest of vs (0-based), reordering vs so that
 // vs[:k] hold values ≤ it and vs[k+1:] values ≥ it (Hoare's selection with a
-// median-of-three pivot; expected linear time, where a sort of 10⁵ trials
+// median-of-three pivot; expected linear time, where a sort of the trials
 // would take much of the Monte Carlo's time).
 func selectKth(vs []float64, k int) float64 {
 	lo, hi := 0, len(vs)-1

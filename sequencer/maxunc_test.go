@@ -101,14 +101,15 @@ func TestMaxErrorMCMatchesOrderStatistics(t *testing.T) {
 	if v != 0 || mu.Points != n || mu.Trials != MaxTrials {
 		t.Fatalf("value %g, points %d, trials %d; want 0, %d, %d", v, mu.Points, mu.Trials, n, MaxTrials)
 	}
-	// Tolerances: a few standard errors of each Monte Carlo estimate at 10⁵ trials.
+	// Tolerances: about three standard errors of each estimate at MaxTrials trials
+	// (an end point of the interval ≈ 1 %, the mean ≈ 0.3 %).
 	for _, c := range []struct {
 		what      string
 		got, want float64
 		rel       float64
 	}{
-		{"low", mu.Low, lo, 0.01}, {"high", mu.High, hi, 0.01}, {"mean (bias)", mu.Bias, mean, 0.005},
-		{"U = high − value", U, hi, 0.01},
+		{"low", mu.Low, lo, 0.04}, {"high", mu.High, hi, 0.03}, {"mean (bias)", mu.Bias, mean, 0.01},
+		{"U = high − value", U, hi, 0.03},
 	} {
 		if math.Abs(c.got-c.want) > c.rel*c.want {
 			t.Errorf("%s = %.5g, want %.5g (±%.1f %%)", c.what, c.got, c.want, 100*c.rel)
@@ -130,7 +131,7 @@ func TestMaxErrorMCPooledScaleGivesT(t *testing.T) {
 	_, _, _, mu, _ := maxErrorMC(a, 200, 2.5, p, "t")
 	lo := sigma * uncertainty.CoverageFactor((1-p)/2, nu) // |t| quantile q is t's (1+q)/2
 	hi := sigma * uncertainty.CoverageFactor((1+p)/2, nu)
-	if math.Abs(mu.Low-lo) > 0.03*lo || math.Abs(mu.High-hi) > 0.02*hi {
+	if math.Abs(mu.Low-lo) > 0.05*lo || math.Abs(mu.High-hi) > 0.04*hi {
 		t.Errorf("interval [%.4g, %.4g], want [%.4g, %.4g] (|t₄| quantiles)", mu.Low, mu.High, lo, hi)
 	}
 }
@@ -149,7 +150,7 @@ func TestMaxErrorMCDominantPointIsGUM(t *testing.T) {
 	if imax != 4 || math.Abs(v-1e-3) > 1e-12 {
 		t.Fatalf("maximum %g at %d, want 1e-3 at 4", v, imax)
 	}
-	if math.Abs(u-sigma) > 0.01*sigma || math.Abs(U-2*sigma) > 0.015*2*sigma || math.Abs(mu.Bias) > 0.02*sigma {
+	if math.Abs(u-sigma) > 0.02*sigma || math.Abs(U-2*sigma) > 0.03*2*sigma || math.Abs(mu.Bias) > 0.03*sigma {
 		t.Errorf("u = %.4g, U = %.4g, bias = %.3g; want %.4g, %.4g, 0", u, U, mu.Bias, sigma, 2*sigma)
 	}
 }
@@ -208,9 +209,11 @@ func TestNonlinearityMCMatchesPlainPropagation(t *testing.T) {
 			}
 			ref := bruteNonlinearity(t, c.a, 40_000)
 			ru, _, rmu := maxOutcome(v, ref, 0.9545)
-			// Standard errors at 4·10⁴ plain trials dominate: mean ±3·u/200, u ±1.5 %,
-			// the interval's ends ±3 %.
-			if math.Abs(mu.Mean-rmu.Mean) > 3*ru/200 || math.Abs(u-ru) > 0.015*ru ||
+			// About three standard errors of the difference of the two estimates
+			// (4·10⁴ plain trials, MaxTrials fast ones): mean ±4·u/115, u ±1.5 %
+			// (2.5 of them: leaving out part of the refit moves u by 4 %), the
+			// interval's ends ±3 % of its width.
+			if math.Abs(mu.Mean-rmu.Mean) > 4*ru/115 || math.Abs(u-ru) > 0.015*ru ||
 				math.Abs(mu.High-rmu.High) > 0.03*(rmu.High-rmu.Low) || math.Abs(mu.Low-rmu.Low) > 0.03*(rmu.High-rmu.Low) {
 				t.Errorf("fast: mean %.5g u %.4g [%.5g, %.5g]; plain: mean %.5g u %.4g [%.5g, %.5g]",
 					mu.Mean, u, mu.Low, mu.High, rmu.Mean, ru, rmu.Low, rmu.High)
