@@ -29,6 +29,8 @@ package sequencer
 //     which is the side a limit on a maximum judges.
 
 import (
+	"encoding/binary"
+	"fmt"
 	"hash/fnv"
 	"math"
 	"math/rand/v2"
@@ -193,11 +195,22 @@ func maxOutcome(v float64, vs []float64, p float64) (u, U float64, mu MaxUnc) {
 	return u, U, mu
 }
 
-// maxSeed is the seed of the Monte Carlo of result name: the run id, the
-// step and the result (on its channel), so that a replay draws the same trials
-// and no two results share a stream.
-func maxSeed(u *Unit, name string) string {
-	return u.Rec.RunID + "/" + u.step.Name + "/" + u.key(name)
+// maxSeed is the seed of the Monte Carlo of result name: the step, the result
+// (on its channel) and the bits of every point the fit used, so that the
+// trials are a function of the record's own numbers: a replay draws the same
+// ones, as does any run with the same readings (two descriptions of one flow
+// give identical records), and no two results share a stream. The run id is
+// left out for that reason: it differs between runs of identical readings.
+func maxSeed(u *Unit, name string, a analysis) string {
+	h := fnv.New64a()
+	var b [8]byte
+	for _, vs := range [][]float64{a.sw.X, a.sw.Y} {
+		for _, v := range vs {
+			binary.LittleEndian.PutUint64(b[:], math.Float64bits(v))
+			h.Write(b[:])
+		}
+	}
+	return fmt.Sprintf("%s/%s/%016x", u.step.Name, u.key(name), h.Sum64())
 }
 
 // setMaxU sets result name from the Monte Carlo of its maximum that mc
@@ -206,8 +219,8 @@ func maxSeed(u *Unit, name string) string {
 // coverage interval, k = U/u, and dof for the decision's use of a t
 // distribution (the Welch–Satterthwaite ν of the GUM uncertainty of the point
 // where the maximum fell; k does not come from it).
-func setMaxU(u *Unit, name string, dof float64, mc func(seed string) (v, std, U float64, mu MaxUnc, err error)) {
-	v, std, U, mu, err := mc(maxSeed(u, name))
+func setMaxU(u *Unit, name string, a analysis, dof float64, mc func(seed string) (v, std, U float64, mu MaxUnc, err error)) {
+	v, std, U, mu, err := mc(maxSeed(u, name, a))
 	if err != nil {
 		u.Invalid(name, "uncertainty of the maximum: "+err.Error())
 		return

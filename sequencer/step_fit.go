@@ -193,7 +193,7 @@ func (f *fitStep) Run(_ context.Context, u *Unit) error {
 			u.SetU(name, a.sum.Slope/seq.IdealGain-1, u.Unc(math.Abs(ug), dg))
 		case "nonlinearity":
 			if u.Metrology() >= 1 {
-				setMaxU(u, name, a.poolDOF, func(seed string) (float64, float64, float64, MaxUnc, error) {
+				setMaxU(u, name, a, a.poolDOF, func(seed string) (float64, float64, float64, MaxUnc, error) {
 					return nonlinearityMC(a, f.Order, seq.FullScale, coverage(seq), seed)
 				})
 				continue
@@ -218,9 +218,9 @@ func (f *fitStep) Run(_ context.Context, u *Unit) error {
 			u.SetU(name, a.sum.Nonlinearity, u.Unc(un, dn))
 		case "max_error":
 			if u.Metrology() >= 1 {
-				v, su, U, mu, imax := maxErrorMC(a, seq.IdealGain, seq.IdealOffset, coverage(seq), maxSeed(u, name))
+				v, su, U, mu, imax := maxErrorMC(a, seq.IdealGain, seq.IdealOffset, coverage(seq), maxSeed(u, name, a))
 				_, dof := pointErrorU(sw.Points[imax], a.poolDOF)
-				setMaxU(u, name, dof, func(string) (float64, float64, float64, MaxUnc, error) { return v, su, U, mu, nil })
+				setMaxU(u, name, a, dof, func(string) (float64, float64, float64, MaxUnc, error) { return v, su, U, mu, nil })
 				continue
 			}
 			// Revision 0: the largest deviation from the ideal transfer, with that

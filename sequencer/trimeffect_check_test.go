@@ -26,3 +26,25 @@ func TestTrimEffectNeedsBaseline(t *testing.T) {
 		}
 	}
 }
+
+// trimEffectLines are the demo's lines that ask the verify fit for the trim's
+// effect: results added to the demo after the first layout, which has none.
+var trimEffectLines = []string{
+	"    baseline: pre-trim fit         # the trim's effect is the change from this fit\n",
+	"      offset_change: trim_offset_change  # shared instrument errors cancel: u ≈ 3 µV\n",
+	"      gain_change: trim_gain_change\n",
+}
+
+// demoAsFirstLayout is the demo sequence without the results added since the
+// first layout (the trim's effect): the step list that flow was written as.
+func demoAsFirstLayout(t testing.TB) string {
+	t.Helper()
+	s := demoFile(t, "brx200-sequence.yaml")
+	for _, l := range trimEffectLines {
+		if !strings.Contains(s, l) {
+			t.Fatalf("the demo sequence has no line %q", l)
+		}
+		s = strings.Replace(s, l, "", 1)
+	}
+	return s
+}
