@@ -75,7 +75,7 @@ func TestCheckStepsListsTheSequence(t *testing.T) {
 		"    3  pre-trim      sweep       as found    source (voltage_source), meter (meter)  —\n",
 		"    4  pre-trim fit  fit         as found    —                                       pre_offset, pre_gain_error, pre_nonlinearity\n",
 		"    5  trim          trim        adjustment  dut (dut_port)                          offset_code, gain_code\n",
-		"    8  verify fit    fit         as left     —                                       post_offset, post_gain_error, post_nonlinearity, post_max_error, post_noise\n",
+		"    8  verify fit    fit         as left     —                                       post_offset, post_gain_error, post_nonlinearity, post_max_error, post_noise, trim_offset_change, trim_gain_change\n",
 	)
 	if code != 0 || t.Failed() {
 		t.Fatalf("exit %d:\n%s", code, out)
