@@ -2,6 +2,7 @@ package certificate
 
 import (
 	"fmt"
+	"slices"
 	"strings"
 
 	"trimline/reports/internal/pdfdoc"
@@ -96,13 +97,12 @@ func fmtSig(v float64, unit string) string {
 // and each such result's coverage interval and estimated bias.
 func (d *doc) maximumNote() {
 	var per []string
-	points, trials := 0, 0
+	var counts [][2]int // points and trials of each result, in order
 	for _, r := range byChannel(d, d.rec.Results, func(r sequencer.Result) string { return r.Channel }) {
 		m := r.Unc.Max
 		if r.Unc.Method != sequencer.MethodMaxMC || !r.Valid || m.Trials == 0 {
 			continue
 		}
-		points, trials = m.Points, m.Trials
 		unit, scale := resultUnit(r)
 		_, dec := roundU(r.Unc.Expanded / scale)
 		if dec > 15 || dec < -15 {
@@ -115,15 +115,26 @@ func (d *doc) maximumNote() {
 		u := dispUnit(unit)
 		per = append(per, fmt.Sprintf("%s: interval %s to %s %s, bias %s %s", name,
 			fmtDec(m.Low/scale, dec), fmtDec(m.High/scale, dec), u, signed(fmtDec(m.Bias/scale, dec)), u))
+		counts = append(counts, [2]int{m.Points, m.Trials})
 	}
 	if len(per) == 0 {
 		return
 	}
-	d.note(fmt.Sprintf("MC-max — uncertainty of a maximum: Monte Carlo of the maximum of %d points, JCGM 101 (%d trials; every point's random error, "+
-		"the pooled Type A scale drawn once a trial, and for a largest error the instruments' shared errors). "+
-		"The value is the observed maximum, not corrected for its upward bias (the trials' mean less the value, stated); "+
-		"± U is the smallest interval about it that holds the %s probabilistically symmetric coverage interval of the trials (JCGM 101 §7.7). ",
-		points, trials, fmtCoverage(d.rec.Coverage)) + strings.Join(per, "; ") + ".")
+	// One count of points and trials when every maximum shares it, else each
+	// result says its own.
+	head := "of N points, JCGM 101 (N and the trials for each result below; "
+	if !slices.ContainsFunc(counts, func(c [2]int) bool { return c != counts[0] }) {
+		head = fmt.Sprintf("of %d points, JCGM 101 (%d trials; ", counts[0][0], counts[0][1])
+	} else {
+		for i, c := range counts {
+			per[i] += fmt.Sprintf(" (%d points, %d trials)", c[0], c[1])
+		}
+	}
+	d.note("MC-max — uncertainty of a maximum: Monte Carlo of the maximum " + head + "every point's random error, " +
+		"the pooled Type A scale drawn once a trial, and for a largest error the instruments' shared errors). " +
+		"The value is the observed maximum, not corrected for its upward bias (the trials' mean less the value, stated); " +
+		"± U is the smallest interval about it that holds the " + fmtCoverage(d.rec.Coverage) +
+		" probabilistically symmetric coverage interval of the trials (JCGM 101 §7.7). " + strings.Join(per, "; ") + ".")
 }
 
 // signed writes a number with its sign, "+0.02" or "−0.02".
