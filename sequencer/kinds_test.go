@@ -338,6 +338,8 @@ const preSweep = `  - kind: sweep                  # the unit as found
 
 const verifyFit = `      max_error: post_max_error
       noise: post_noise
+      offset_change: trim_offset_change  # shared instrument errors cancel: u ≈ 3 µV
+      gain_change: trim_gain_change
 `
 
 // 3. An explicit list of levels with repeats (the lack of fit is then the F test
@@ -693,7 +695,7 @@ func TestFirstLayoutMatchesStepList(t *testing.T) {
 	// Many defective units, so that failing records are compared too.
 	defects := map[string]map[string]string{"dut": {"defect_rate": "40 %"}}
 	eFirst, cfgFirst := kindsBench{seq: string(first), set: defects}.open(t)
-	eList, cfgList := kindsBench{seq: withoutZero(t), set: defects}.open(t)
+	eList, cfgList := kindsBench{seq: demoAsFirstLayout(t), set: defects}.open(t)
 	verdicts := map[sequencer.Verdict]int{}
 	for i := range 12 {
 		serial := fmt.Sprintf("BRX-%05d", 900+i)

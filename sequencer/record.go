@@ -68,7 +68,11 @@ type Uncertainty struct {
 	DOF      float64 `json:"dof"` // math.Inf(1) when every contribution has infinite dof
 	K        float64 `json:"k"`
 	Expanded float64 `json:"U"`
-	Method   string  `json:"method,omitempty"` // "GUM" (law of propagation) or "MC" (JCGM 101 Monte Carlo)
+	Method   string  `json:"method,omitempty"` // "GUM" (law of propagation) or "MC" (JCGM 101 Monte Carlo); MethodMaxMC for a maximum
+	// Max says how the uncertainty of a maximum-type result (nonlinearity,
+	// max_error) was evaluated from metrology revision 1: Monte Carlo of the
+	// maximum (maxunc.go). Zero for every other result.
+	Max MaxUnc `json:"max,omitzero"`
 	// MC is the Monte Carlo coverage interval behind Std and Expanded (Method
 	// "MC", metrology revision ≥ 1; nil otherwise). Std is then the standard
 	// deviation of the model values, Expanded the larger distance from the
@@ -146,6 +150,10 @@ type Record struct {
 	Retrims []RetrimPass `json:"retrims,omitempty"`
 	// Zeros are the run's zero checks (zero_check steps), in order.
 	Zeros []ZeroCheck `json:"zeros,omitempty"`
+	// TrimEffects say how the uncertainty of each trim-effect result (a fit's
+	// offset_change, gain_change) was evaluated: which instrument errors the
+	// two sweeps shared (trimeffect.go). In the order computed.
+	TrimEffects []TrimEffect `json:"trim_effects,omitempty"`
 	// StimulusUnit and ResponseUnit are the units of every sweep's stimulus and
 	// response (Point.Stimulus, Point.Mean, the readings) and of the ideal
 	// offset and full scale: "V", "A" or "count" (a number the unit reports).

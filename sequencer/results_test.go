@@ -10,12 +10,15 @@ import (
 	"trimline/sequencer"
 )
 
-// The steps declare the results: the demo's step list (less its zero check, a kind
-// the first layout never had) declares the ten results of the first layout, in
-// the same order, with the same stages and dimensions, and the first-layout file
-// it replaced declares exactly the same.
+// The steps declare the results: the demo's step list (less its zero check and
+// the trim's effect, kinds and results the first layout never had) declares the
+// ten results of the first layout, in the same order, with the same stages and
+// dimensions, and the first-layout file it replaced declares exactly the same.
 func TestStepsDeclareTheResults(t *testing.T) {
-	seq := demoWithoutZero(t)
+	seq, err := sequencer.ParseSequence("brx200-sequence.yaml", []byte(demoAsFirstLayout(t)), demoReader(t, nil))
+	if err != nil {
+		t.Fatal(err)
+	}
 	data, err := os.ReadFile("testdata/brx200-sequence-first.yaml") // the demo's file before it became a step list
 	if err != nil {
 		t.Fatal(err)
@@ -91,8 +94,17 @@ func TestResultQuantities(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
+	// Results the demo added after the first layout, which schema-1 records
+	// cannot hold.
+	later := map[string]string{"trim_offset_change": "offset_change", "trim_gain_change": "gain_change"}
 	for _, s := range []*sequencer.Sequence{seq, first} {
 		for _, d := range s.Results() {
+			if q, ok := later[d.Name]; ok && s == seq {
+				if d.Quantity != q {
+					t.Errorf("%s declares quantity %q, want %q", d.Name, d.Quantity, q)
+				}
+				continue
+			}
 			if d.Quantity != want[d.Name] {
 				t.Errorf("%s declares quantity %q, want %q", d.Name, d.Quantity, want[d.Name])
 			}

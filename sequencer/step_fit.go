@@ -39,6 +39,9 @@ var fitOutputs = map[string]struct {
 	"noise":           {units.Volt, "pooled standard deviation of the readings, V rms", func(*fitStep) func(*Sequence) (float64, float64, bool) { return noiseRange }},
 	"lack_of_fit":     {units.Number, "χ²/ν of the residuals against the points' uncertainties, or F against pure error where levels repeat", func(*fitStep) func(*Sequence) (float64, float64, bool) { return nil }},
 	"lack_of_fit_p":   {units.Ratio, "probability of a lack-of-fit statistic this large from a model that fits, fraction", func(*fitStep) func(*Sequence) (float64, float64, bool) { return fixedRange(0, 1) }},
+	// The trim's effect: the change from the fit named by baseline (trimeffect.go).
+	"offset_change": {units.Volt, "offset now − offset at the baseline fit (the trim's effect on the fitted line's offset), V", func(*fitStep) func(*Sequence) (float64, float64, bool) { return nil }},
+	"gain_change":   {units.Ratio, "gain error now − gain error at the baseline fit (the trim's effect on the slope), fraction", func(*fitStep) func(*Sequence) (float64, float64, bool) { return nil }},
 }
 
 // fitStep is a fit as the sequence file writes it.
@@ -54,7 +57,11 @@ type fitStep struct {
 	// "readings" (the default: the readings' pooled standard deviation) or
 	// "residuals" (the residual scatter about the line, JCGM 100 H.3).
 	Random string `yaml:"random"`
+	// Baseline names an earlier fit step whose line the results offset_change
+	// and gain_change are the change from (trimeffect.go).
+	Baseline string `yaml:"baseline"`
 
+	base   *fitStep // the baseline fit, when Baseline names one
 	order  []string // the order of Results' keys when not read from a file
 	sweep  *sweepStep
 	lo, hi float64     // window, stimulus in SI units (±Inf = none)
@@ -147,6 +154,11 @@ func (f *fitStep) Check(c *Checker) {
 			c.Errorf(key, "%s %d distinct levels: an order-%d fit needs at least %d to leave a residual to judge", where, n, f.Order, f.Order+2)
 		}
 	}
+	if f.Baseline != "" {
+		if d := c.Earlier("baseline", f.Baseline, "fit"); d != nil {
+			f.base = d.Step.(*fitStep)
+		}
+	}
 	if len(f.Results) == 0 {
 		c.Errorf("", "missing required key \"results\": name what the fit gives (%s), e.g. results: {offset: pre_offset}", keysText(fitOutputs))
 	}
@@ -159,6 +171,9 @@ func (f *fitStep) Check(c *Checker) {
 		}
 		if what == "terminal_offset" && !f.hasZero {
 			c.Errorf("results."+what, "the terminal offset is the output measured at zero input: expected a level of 0 %s in %s", unitOf(c.Sequence().stimDim()), f.levelsText())
+		}
+		if _, change := trimEffectGradient(what, 1); change && f.Baseline == "" {
+			c.Errorf("results."+what, "%s is the change from an earlier fit: name it with baseline: <fit step>", what)
 		}
 		dim, about := o.dim, o.about
 		if dim == units.Volt { // in the response's unit: V, A or count
@@ -260,8 +275,15 @@ func (f *fitStep) Run(_ context.Context, u *Unit) error {
 			u.SetU(name, a.sum.Slope/seq.IdealGain-1, a.unc(u, [2]float64{0, 1 / seq.IdealGain}, -1, math.Abs(ug), dg))
 			u.SetBudget(name, a.budget([2]float64{0, 1 / seq.IdealGain}, kept.plan, seq))
 		case "nonlinearity":
-			// The largest residual; its uncertainty is that residual's own (random
-			// part only: shared gain and offset errors do not bend the line).
+			if u.Metrology() >= 1 {
+				setMaxU(u, name, a, a.poolDOF, func(seed string) (float64, float64, float64, MaxUnc, error) {
+					return nonlinearityMC(a, f.Order, seq.FullScale, coverage(seq), seed)
+				})
+				continue
+			}
+			// Revision 0: the largest residual, with that residual's own
+			// uncertainty (random part only: shared gain and offset errors do not
+			// bend the line).
 			ru := make([]float64, len(a.sw.X))
 			for i := range ru {
 				ru[i] = math.Hypot(a.sw.URandom[i], a.sw.MeterResolution/(2*math.Sqrt(3)))
@@ -278,9 +300,15 @@ func (f *fitStep) Run(_ context.Context, u *Unit) error {
 			}
 			u.SetU(name, a.sum.Nonlinearity, u.Unc(un, dn))
 		case "max_error":
-			// The largest deviation from the ideal transfer, with that point's own
-			// uncertainty (on paper, where every deviation is 0, the largest
-			// uncertainty).
+			if u.Metrology() >= 1 {
+				v, su, U, mu, imax := maxErrorMC(a, seq.IdealGain, seq.IdealOffset, coverage(seq), maxSeed(u, name, a))
+				_, dof := pointErrorU(sw.Points[imax], a.poolDOF)
+				setMaxU(u, name, a, dof, func(string) (float64, float64, float64, MaxUnc, error) { return v, su, U, mu, nil })
+				continue
+			}
+			// Revision 0: the largest deviation from the ideal transfer, with that
+			// point's own uncertainty (on paper, where every deviation is 0, the
+			// largest uncertainty).
 			dev := func(p Point) float64 { return math.Abs(p.Mean - (seq.IdealGain*p.Stimulus + seq.IdealOffset)) }
 			imax := 0
 			for i, p := range sw.Points {
@@ -298,6 +326,8 @@ func (f *fitStep) Run(_ context.Context, u *Unit) error {
 			}
 			pu, dof := pointErrorU(sw.Points[imax], a.poolDOF)
 			u.SetU(name, dev(sw.Points[imax]), u.Unc(pu, dof))
+		case "offset_change", "gain_change":
+			f.setTrimEffect(u, o[0], name, a)
 		case "noise":
 			// The pooled standard deviation of the readings, with u(s) ≈ s/√(2ν)
 			// (JCGM 100 E.4.3).

@@ -19,7 +19,7 @@ import (
 const zeroStep = `  - kind: zero_check             # the station's own zero`
 
 // withoutZero is the demo sequence with its zero check taken out.
-func withoutZero(t *testing.T) string {
+func withoutZero(t testing.TB) string {
 	t.Helper()
 	text := demoFile(t, "brx200-sequence.yaml")
 	i := strings.Index(text, zeroStep)

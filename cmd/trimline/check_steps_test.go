@@ -76,7 +76,7 @@ func TestCheckStepsListsTheSequence(t *testing.T) {
 		"    4  pre-trim      sweep       as found    source (voltage_source), meter (meter)  —\n",
 		"    5  pre-trim fit  fit         as found    —                                       pre_offset, pre_gain_error, pre_nonlinearity\n",
 		"    6  trim          trim        adjustment  dut (dut_port)                          offset_code, gain_code\n",
-		"    9  verify fit    fit         as left     —                                       post_offset, post_gain_error, post_nonlinearity, post_max_error, post_noise\n",
+		"    9  verify fit    fit         as left     —                                       post_offset, post_gain_error, post_nonlinearity, post_max_error, post_noise, trim_offset_change, trim_gain_change\n",
 	)
 	if code != 0 || t.Failed() {
 		t.Fatalf("exit %d:\n%s", code, out)

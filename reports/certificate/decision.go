@@ -150,6 +150,9 @@ func (d *doc) decisionRule() {
 		case methods["GUM"]:
 			text += " Evaluated by the law of propagation of uncertainty (JCGM 100:2008)."
 		}
+		if methods[sequencer.MethodMaxMC] {
+			text += " Results marked MC-max are maxima: their U comes from a Monte Carlo of the maximum (JCGM 101:2008; see the note under the results) and k = U/u."
+		}
 		fs = append(fs, para{"Coverage", text})
 	}
 	if anyCond {

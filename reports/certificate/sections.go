@@ -20,6 +20,8 @@ func (d *doc) build() {
 	d.reasons()
 	d.steps()
 	d.results()
+	d.maximumNote()
+	d.trimEffects()
 	d.decisionRule()
 	d.instrumentsUsed()
 	d.trims()
