@@ -96,8 +96,13 @@ func reprint(ctx context.Context, led *ledger.Ledger, number, path string, lease
 		}
 	}
 	if got != doc.SHA256 || int64(len(pdf)) != doc.Size {
-		return fail(fmt.Errorf("rendered again it has SHA-256 %s (%d bytes), the issued document %s (%d bytes); nothing written: %w",
-			got, len(pdf), doc.SHA256, doc.Size, ErrNotIdentical))
+		// The ledger keeps the record and the document's hash, not its bytes: a
+		// release whose certificate layout changed cannot render an older
+		// certificate again. Say so, and what still proves the issued one.
+		return fail(fmt.Errorf("rendered again it has SHA-256 %s (%d bytes), the issued document %s (%d bytes); nothing written. "+
+			"The run was recorded by trimline %s (metrology revision %d): a release whose certificate layout differs cannot render it byte for byte; "+
+			"reprint it with that release. The issued PDF still verifies with audit verify, and audit replay re-derives its numbers: %w",
+			got, len(pdf), doc.SHA256, doc.Size, rec.Software, rec.Metrology, ErrNotIdentical))
 	}
 	if path == "" {
 		path = doc.Path
