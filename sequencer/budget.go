@@ -131,19 +131,28 @@ const (
 // corrected for these errors, so each has sensitivity −1 (−ideal gain for the
 // source), as a fit's inputs do.
 func (s *measureStep) budget(cfg Config, p Point, withSource bool) []BudgetRow {
-	meter, source, res := specs(cfg.Station, s.plan, p.Mean, p.Stimulus)
-	resp := unitOf(s.plan.Quantity)
+	return pointBudget(cfg, s.plan, p, float64(p.Valid-1), withSource && s.driven)
+}
+
+// pointBudget is the budget of one point's mean (withSource false) or of its error
+// against the ideal output (withSource true), its Type A part with dof degrees of
+// freedom (n − 1 of its own readings, or the sweep's pooled Σ(n_i − 1)). It is the
+// budget of pointErrorU's u for a fit's terminal offset, and of a measure step's
+// results.
+func pointBudget(cfg Config, plan SweepPlan, p Point, dof float64, withSource bool) []BudgetRow {
+	meter, source, res := specs(cfg.Station, plan, p.Mean, p.Stimulus)
+	resp := unitOf(plan.Quantity)
 	sq3 := math.Sqrt(3)
 	ins := []budgetInput{{name: uncertainty.NameRepeatability, kind: uncertainty.KindA, unit: resp, point: -1,
-		u: p.URandom, dof: float64(p.Valid - 1), c: -1}}
-	if s.plan.Response == nil {
+		u: p.URandom, dof: dof, c: -1}}
+	if plan.Response == nil {
 		ins = append(ins, budgetInput{name: nameMeterSpec, kind: uncertainty.KindB, unit: resp, point: -1,
 			u: meter.HalfWidth(p.Mean) / sq3, dof: math.Inf(1), c: -1})
 	}
 	ins = append(ins, budgetInput{name: uncertainty.NameResolution, kind: uncertainty.KindB, unit: resp, point: -1,
 		u: res / (2 * sq3), dof: math.Inf(1), c: -1})
-	if withSource && s.driven {
-		ins = append(ins, budgetInput{name: nameSourceSpec, kind: uncertainty.KindB, unit: unitOf(s.plan.stimDim()), point: -1,
+	if withSource {
+		ins = append(ins, budgetInput{name: nameSourceSpec, kind: uncertainty.KindB, unit: unitOf(plan.stimDim()), point: -1,
 			u: source.HalfWidth(p.Stimulus) / sq3, dof: math.Inf(1), c: -cfg.Sequence.IdealGain})
 	}
 	return budgetRows(ins)

@@ -80,6 +80,16 @@ func TestTwoOffsets(t *testing.T) {
 	if dof := 77 * math.Pow(u/p.URandom, 4); math.Abs(term.Unc.DOF-dof) > 1e-6*dof {
 		t.Errorf("dof = %g, want %g", term.Unc.DOF, dof)
 	}
+	// Its budget lists those parts (repeatability, meter spec, resolution, source
+	// spec through the ideal gain), and their root sum of squares is that u (JCGM
+	// 100 §5.1.3, eq. (10)).
+	var ss float64
+	for _, r := range term.Budget {
+		ss += r.U * r.U
+	}
+	if len(term.Budget) != 4 || math.Abs(math.Sqrt(ss)-u) > 1e-9*u {
+		t.Errorf("terminal offset budget %+v: √Σu² = %g, want %g from 4 rows", term.Budget, math.Sqrt(ss), u)
+	}
 	// The two differ by far more than the trim's resolution: the step at 3 mV
 	// moves the line but not the output at 0 V.
 	f := fitOf(t, rec, "verify fit")

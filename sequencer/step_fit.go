@@ -270,6 +270,7 @@ func (f *fitStep) Run(_ context.Context, u *Unit) error {
 			}
 			tu, dof := pointErrorU(zero, a.poolDOF)
 			u.SetU(name, zero.Mean-seq.IdealOffset, u.Unc(tu, dof))
+			u.SetBudget(name, pointBudget(u.cfg, kept.plan, zero, a.poolDOF, true))
 		case "gain_error":
 			ug, dg := a.linear([2]float64{0, 1 / seq.IdealGain})
 			u.SetU(name, a.sum.Slope/seq.IdealGain-1, a.unc(u, [2]float64{0, 1 / seq.IdealGain}, -1, math.Abs(ug), dg))
