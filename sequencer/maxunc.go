@@ -36,6 +36,7 @@ import (
 	"math/rand/v2"
 
 	"trimline/sequencer/fit"
+	"trimline/sequencer/uncertainty"
 )
 
 // MaxTrials is the number of Monte Carlo trials of the maximum of a sweep's
@@ -128,7 +129,7 @@ func (d *maxDraw) scale() float64 {
 	if math.IsInf(d.nu, 1) || !(d.nu > 0) {
 		return 1
 	}
-	return math.Sqrt(d.nu / (2 * gammaDraw(d.rng, d.nu/2)))
+	return math.Sqrt(d.nu / uncertainty.ChiSquare(d.rng, d.nu))
 }
 
 // tail is the number of standard deviations beyond which a normal error is
@@ -163,7 +164,7 @@ func (d *maxDraw) systematic() (gm, om, gs, os float64) {
 		if math.IsInf(d.zeroNu, 1) {
 			os = d.zeroU * d.rng.NormFloat64()
 		} else {
-			os = d.zeroU * math.Sqrt(d.zeroNu/(2*gammaDraw(d.rng, d.zeroNu/2))) * d.rng.NormFloat64()
+			os = d.zeroU * math.Sqrt(d.zeroNu/uncertainty.ChiSquare(d.rng, d.zeroNu)) * d.rng.NormFloat64()
 		}
 	}
 	return gm, om, gs, os
@@ -521,27 +522,4 @@ func maxErrorMC(a analysis, gain, offset, p float64, seed string) (v, u, U float
 	u, U, mu = maxOutcome(v, vs, p)
 	mu.Points = n
 	return v, u, U, mu, imax
-}
-
-// gammaDraw draws from the gamma distribution of shape α > 0 and scale 1 by
-// Marsaglia and Tsang's method (ACM TOMS 26 (2000) 363–372), with the boost
-// Gamma(α) = Gamma(α + 1)·U^(1/α) for α < 1. 2·Gamma(ν/2) is χ²_ν.
-func gammaDraw(rng *rand.Rand, alpha float64) float64 {
-	if alpha < 1 {
-		return gammaDraw(rng, alpha+1) * math.Pow(rng.Float64(), 1/alpha)
-	}
-	d := alpha - 1.0/3
-	c := 1 / math.Sqrt(9*d)
-	for {
-		x := rng.NormFloat64()
-		v := 1 + c*x
-		if v <= 0 {
-			continue
-		}
-		v = v * v * v
-		u := rng.Float64()
-		if u < 1-0.0331*x*x*x*x || math.Log(u) < 0.5*x*x+d*(1-v+math.Log(v)) {
-			return d * v
-		}
-	}
 }

@@ -169,20 +169,7 @@ func FitLine(s Sweep) (LineFit, error) {
 		f.Inputs = append(f.Inputs, Input{Name: in.name, Point: i, Kind: in.kind,
 			U: in.u, DOF: in.dof, Pooled: in.pooled, C: [2]float64{-a0[i], -a1[i]}})
 	}
-	for _, in := range s.sysInputs([3]float64{f.B0, f.B1, 0}) {
-		f.Inputs = append(f.Inputs, Input{Name: in.name, Point: -1, Kind: in.kind,
-			U: in.u, DOF: in.dof, C: [2]float64{in.c[0], in.c[1]}})
-		for j := range 2 {
-			for k := range 2 {
-				f.CovSys[j][k] += in.c[j] * in.c[k] * in.u * in.u
-			}
-		}
-	}
-	for j := range 2 {
-		for k := range 2 {
-			f.Cov[j][k] = f.CovRandom[j][k] + f.CovSys[j][k]
-		}
-	}
+	f.addShared(s)
 	rows := []string{NameRepeatability, NameResolution, NameMeterGain, NameMeterOffset, NameSourceGain, NameSourceOffset}
 	f.finish(rows)
 	return f, nil
@@ -224,6 +211,26 @@ func FitLineLS(x, y []float64, x0 float64) (LineFit, float64, error) {
 	}
 	f.finish([]string{NameResidualScatter})
 	return f, sd, nil
+}
+
+// addShared adds the Sweep's four shared systematic inputs (sysInputs, with
+// their sensitivities at f's estimates) to f.Inputs and CovSys, and sets Cov =
+// CovRandom + CovSys.
+func (f *LineFit) addShared(s Sweep) {
+	for _, in := range s.sysInputs([3]float64{f.B0, f.B1, 0}) {
+		f.Inputs = append(f.Inputs, Input{Name: in.name, Point: -1, Kind: in.kind,
+			U: in.u, DOF: in.dof, C: [2]float64{in.c[0], in.c[1]}})
+		for j := range 2 {
+			for k := range 2 {
+				f.CovSys[j][k] += in.c[j] * in.c[k] * in.u * in.u
+			}
+		}
+	}
+	for j := range 2 {
+		for k := range 2 {
+			f.Cov[j][k] = f.CovRandom[j][k] + f.CovSys[j][k]
+		}
+	}
 }
 
 // finish fills the budgets and the dof from the inputs.

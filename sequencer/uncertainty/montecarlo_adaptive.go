@@ -353,10 +353,12 @@ func Validate(y, u, U, low, high float64, digits int) Validation {
 	return v
 }
 
-// chiSquare draws from the χ² distribution with nu > 0 degrees of freedom:
+// ChiSquare draws from the χ² distribution with nu > 0 degrees of freedom:
 // 2·Gamma(ν/2), Gamma by Marsaglia and Tsang (ACM TOMS 26 (2000) 363–372),
-// with the boost Gamma(a) = Gamma(a + 1)·U^(1/a) for a < 1.
-func chiSquare(rng *rand.Rand, nu float64) float64 {
+// with the boost Gamma(a) = Gamma(a + 1)·U^(1/a) for a < 1. It is the draw
+// behind a pooled Type A scale sqrt(ν/χ²_ν) (JCGM 101 §6.4.9), for every
+// Monte Carlo that needs one.
+func ChiSquare(rng *rand.Rand, nu float64) float64 {
 	a := nu / 2
 	boost := 1.0
 	if a < 1 {

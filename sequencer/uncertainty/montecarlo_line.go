@@ -69,7 +69,7 @@ func MonteCarloLine(s Sweep, opt MCOptions, watch ...[2]float64) (*MCRun, error)
 		}
 		scale := 1.0
 		if !math.IsInf(pooledNu, 1) {
-			scale = math.Sqrt(pooledNu / chiSquare(rng, pooledNu))
+			scale = math.Sqrt(pooledNu / ChiSquare(rng, pooledNu))
 		}
 		for i := range n {
 			e := 0.0

@@ -31,20 +31,7 @@ func FitLineResiduals(s Sweep) (LineFit, float64, error) {
 	if err != nil {
 		return LineFit{}, 0, fmt.Errorf("%s: %w", fn, err)
 	}
-	for _, in := range s.sysInputs([3]float64{f.B0, f.B1, 0}) {
-		f.Inputs = append(f.Inputs, Input{Name: in.name, Point: -1, Kind: in.kind,
-			U: in.u, DOF: in.dof, C: [2]float64{in.c[0], in.c[1]}})
-		for j := range 2 {
-			for k := range 2 {
-				f.CovSys[j][k] += in.c[j] * in.c[k] * in.u * in.u
-			}
-		}
-	}
-	for j := range 2 {
-		for k := range 2 {
-			f.Cov[j][k] = f.CovRandom[j][k] + f.CovSys[j][k]
-		}
-	}
+	f.addShared(s)
 	f.finish([]string{NameResidualScatter, NameMeterGain, NameMeterOffset, NameSourceGain, NameSourceOffset})
 	return f, sd, nil
 }
