@@ -275,6 +275,27 @@ func (d *differ) unc(what string, a, b Uncertainty) {
 	d.same(what+" GUM validated", m.Validated, n.Validated)
 }
 
+// cov compares two covariance matrices of (intercept, slope) by the
+// standard uncertainties and the correlation coefficients they hold: compared
+// as they are, variances in V² (1e-12 and below) would fall under same's 1e-15
+// absolute floor.
+func (d *differ) cov(what string, a, b [2][2]float64) {
+	d.num(what+" u(intercept)", math.Sqrt(a[0][0]), math.Sqrt(b[0][0]))
+	d.num(what+" u(slope)", math.Sqrt(a[1][1]), math.Sqrt(b[1][1]))
+	for _, ij := range [][2]int{{0, 1}, {1, 0}} {
+		d.num(fmt.Sprintf("%s correlation[%d][%d]", what, ij[0], ij[1]), correlation(a, ij[0], ij[1]), correlation(b, ij[0], ij[1]))
+	}
+}
+
+// correlation is c[i][j]/√(c[i][i]·c[j][j]), or c[i][j] itself where a
+// variance is 0.
+func correlation(c [2][2]float64, i, j int) float64 {
+	if v := c[i][i] * c[j][j]; v != 0 {
+		return c[i][j] / math.Sqrt(v)
+	}
+	return c[i][j]
+}
+
 // budgetDifferences compares two uncertainty budgets row by row.
 func budgetDifferences(d *differ, what string, a, b []BudgetRow) {
 	d.count(what+" budget rows", len(a), len(b))
@@ -348,12 +369,8 @@ func fitDifferences(d *differ, recorded, replayed []FitSummary, lof bool) {
 		d.nums(what+" coefficient", a.Coef, b.Coef)
 		d.num(what+" intercept", a.Intercept, b.Intercept)
 		d.num(what+" slope", a.Slope, b.Slope)
-		for j := range 2 {
-			for k := range 2 {
-				d.num(fmt.Sprintf("%s covariance[%d][%d]", what, j, k), a.Cov[j][k], b.Cov[j][k])
-				d.num(fmt.Sprintf("%s total covariance[%d][%d]", what, j, k), a.CovTotal[j][k], b.CovTotal[j][k])
-			}
-		}
+		d.cov(what+" covariance", a.Cov, b.Cov)
+		d.cov(what+" total covariance", a.CovTotal, b.CovTotal)
 		d.num(what+" residual SD", a.ResidualSD, b.ResidualSD)
 		d.same(what+" dof", a.DOF, b.DOF)
 		d.num(what+" effective dof", a.DOFEff, b.DOFEff)

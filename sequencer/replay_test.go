@@ -244,6 +244,16 @@ func TestDifferencesSeeEveryRecomputedField(t *testing.T) {
 	if len(d) != len(want) || !strings.HasPrefix(d[0], want[0]) || !strings.HasPrefix(d[1], want[1]) || !strings.Contains(d[0], "recomputed") {
 		t.Errorf("u ×1.04 and k ×1.01: %q, want two messages starting %q", d, want)
 	}
+	// A covariance of 2e-14 V (the demo's intercept and slope), changed by 5 %,
+	// is seen although the change is below same's 1e-15 absolute floor.
+	f := &rec.Fits[0]
+	c := f.Cov
+	f.Cov[0][1] *= 1.05
+	d = sequencer.Differences(rec, again)
+	f.Cov = c
+	if len(d) != 1 || !strings.Contains(d[0], "covariance correlation[0][1]: recorded") {
+		t.Errorf("cov[0][1] = %g ×1.05: %q, want the correlation reported", c[0][1], d)
+	}
 }
 
 // quadraticFit is an order-2 fit of the demo's pre-trim sweep.
