@@ -8,7 +8,6 @@ import (
 	"context"
 	"fmt"
 	"math"
-	"strings"
 
 	"trimline/instruments/units"
 	"trimline/sequencer/uncertainty"
@@ -355,24 +354,5 @@ func storeCoefficients(rec *Record) {
 	}
 	for _, i := range last {
 		rec.Coefficients[i].Stored = true
-	}
-}
-
-// coefDifferences lists where two records' coefficients disagree, for Differences.
-func coefDifferences(recorded, replayed []CoefficientWrite, add func(format string, args ...any)) {
-	if len(recorded) != len(replayed) {
-		add("coefficients: recorded %d writes, recomputed %d", len(recorded), len(replayed))
-	}
-	for i := range min(len(recorded), len(replayed)) {
-		a, b := recorded[i], replayed[i]
-		who := strings.TrimSpace(a.Name + " " + a.Channel)
-		switch {
-		case a.Text != b.Text:
-			add("coefficient %s (step %q): recorded %q, recomputed %q", who, a.Step, a.Text, b.Text)
-		case !same(a.Ideal, b.Ideal):
-			add("coefficient %s (step %q) ideal value: recorded %.9g, recomputed %.9g", who, a.Step, a.Ideal, b.Ideal)
-		case a.Match != b.Match:
-			add("coefficient %s (step %q) read-back match: recorded %v, recomputed %v", who, a.Step, a.Match, b.Match)
-		}
 	}
 }

@@ -245,7 +245,7 @@ func TestRetrimConvergesOnUnevenDAC(t *testing.T) {
 	}
 	// A pass whose stored choice the readings do not support is a replay difference.
 	rec.Retrims[0].Next = 1793
-	if d := replayed(t, st, seq, rec); len(d) != 1 || !strings.Contains(d[0], "offset retrim pass 1") || !strings.Contains(d[0], "next code 1793") {
+	if d := replayed(t, st, seq, rec); len(d) != 1 || !strings.Contains(d[0], "offset retrim pass 1") || !strings.Contains(d[0], "next code: recorded 1793") {
 		t.Errorf("replay of a tampered pass: %q, want one difference naming pass 1's next code", d)
 	}
 }

@@ -365,18 +365,3 @@ func (z *zeroKept) apply(s *uncertainty.Sweep) string {
 	s.SourceZero = &uncertainty.Measured{U: z.u, DOF: z.dof}
 	return z.name
 }
-
-// zeroDifferences adds to a replay's differences every zero check whose
-// measured source offset or its uncertainty differs.
-func zeroDifferences(recorded, replayed []ZeroCheck, add func(string, ...any)) {
-	if len(recorded) != len(replayed) {
-		add("zero checks: recorded %d, recomputed %d", len(recorded), len(replayed))
-	}
-	for i := range min(len(recorded), len(replayed)) {
-		a, b := recorded[i], replayed[i]
-		if a.Valid != b.Valid || a.Applied != b.Applied || !same(a.Offset, b.Offset) || !same(a.Unc.Expanded, b.Unc.Expanded) {
-			add("zero check %s: recorded %.9g (U %.6g, valid=%v, applied=%v), recomputed %.9g (U %.6g, valid=%v, applied=%v)",
-				a.Name, a.Offset, a.Unc.Expanded, a.Valid, a.Applied, b.Offset, b.Unc.Expanded, b.Valid, b.Applied)
-		}
-	}
-}
