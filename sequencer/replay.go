@@ -7,6 +7,7 @@ import (
 	"maps"
 	"math"
 	"slices"
+	"strings"
 
 	"trimline/limits"
 )
@@ -88,6 +89,7 @@ func Differences(recorded, replayed *Record) []string {
 	}
 	sweepDifferences(&d, recorded.Sweeps, replayed.Sweeps)
 	fitDifferences(&d, recorded.Fits, replayed.Fits, recorded.Metrology >= 1)
+	trimEffectDifferences(&d, recorded.TrimEffects, replayed.TrimEffects)
 	d.count("trim codes", len(recorded.Trims), len(replayed.Trims))
 	for i := range min(len(recorded.Trims), len(replayed.Trims)) {
 		a, b := recorded.Trims[i], replayed.Trims[i]
@@ -255,6 +257,7 @@ func (d *differ) unc(what string, a, b Uncertainty) {
 	d.num(what+" k", a.K, b.K)
 	d.num(what+" U", a.Expanded, b.Expanded)
 	d.text(what+" uncertainty method", a.Method, b.Method)
+	d.maxUnc(what, a.Max, b.Max)
 	if !d.presence(what+" Monte Carlo interval", a.MC != nil, b.MC != nil) {
 		return
 	}
@@ -273,6 +276,35 @@ func (d *differ) unc(what string, a, b Uncertainty) {
 	d.num(what+" d_high", m.DHigh, n.DHigh)
 	d.num(what+" GUM δ", m.GUMDelta, n.GUMDelta)
 	d.same(what+" GUM validated", m.Validated, n.Validated)
+}
+
+// maxUnc compares how two maximum-type uncertainties were evaluated (Monte
+// Carlo of the maximum); both zero for every other result.
+func (d *differ) maxUnc(what string, a, b MaxUnc) {
+	what += " maximum"
+	d.same(what+" points", a.Points, b.Points)
+	d.same(what+" trials", a.Trials, b.Trials)
+	d.num(what+" mean", a.Mean, b.Mean)
+	d.num(what+" bias", a.Bias, b.Bias)
+	d.num(what+" low end", a.Low, b.Low)
+	d.num(what+" high end", a.High, b.High)
+}
+
+// trimEffectDifferences compares, in order, how each trim-effect result's
+// uncertainty was evaluated: which instrument errors its two fits shared.
+func trimEffectDifferences(d *differ, recorded, replayed []TrimEffect) {
+	d.count("trim effects", len(recorded), len(replayed))
+	for i := range min(len(recorded), len(replayed)) {
+		a, b := recorded[i], replayed[i]
+		what := "trim effect " + limits.ChannelKey(a.Result, a.Channel)
+		d.text(fmt.Sprintf("trim effect %d", i+1), limits.ChannelKey(a.Result, a.Channel), limits.ChannelKey(b.Result, b.Channel))
+		d.text(what+" step", a.Step, b.Step)
+		d.text(what+" baseline", a.Baseline, b.Baseline)
+		d.text(what+" quantity", a.Quantity, b.Quantity)
+		d.text(what+" shared errors", strings.Join(a.Shared, ", "), strings.Join(b.Shared, ", "))
+		d.text(what+" independent errors", strings.Join(a.Separate, ", "), strings.Join(b.Separate, ", "))
+		d.num(what+" u if independent", a.UIndependent, b.UIndependent)
+	}
 }
 
 // cov compares two covariance matrices of (intercept, slope) by the
