@@ -89,6 +89,16 @@ func BudgetFoot(r sequencer.Result) string {
 	return foot
 }
 
+// budgetFoot is BudgetFoot with U as the results table writes it (sh).
+func (d *doc) budgetFoot(r sequencer.Result, sh shown) string {
+	foot := BudgetFoot(r)
+	if _, u, ok := strings.Cut(sh.withU, " ± "); ok {
+		_, rest, _ := strings.Cut(foot, ", ")
+		foot = "U = " + u + ", " + rest
+	}
+	return foot
+}
+
 // mcNote is said under a budget whose result's uncertainty is a Monte Carlo
 // one (sequencer.Uncertainty.Method "MC").
 const mcNote = " Where u is by Monte Carlo (JCGM 101:2008), the rows and the combined u are the law of propagation's account of where it comes from; " +
@@ -204,7 +214,8 @@ func (d *doc) budgets() ([]pdfdoc.Column, []pdfdoc.Row, []pdfdoc.Band, string) {
 		if r.Channel != "" {
 			title += " · " + chanWord(r.Channel)
 		}
-		bands = append(bands, pdfdoc.Band{At: len(rows), Title: title + " · " + fmtResultU(r)})
+		sh := d.shown(r) // the result as the results table writes it
+		bands = append(bands, pdfdoc.Band{At: len(rows), Title: title + " · " + sh.withU})
 		for _, t := range text {
 			row := make(pdfdoc.Row, len(t))
 			for j, s := range t {
@@ -212,10 +223,10 @@ func (d *doc) budgets() ([]pdfdoc.Column, []pdfdoc.Row, []pdfdoc.Band, string) {
 			}
 			switch {
 			case t[0] == "Monte Carlo u": // the result's u, beside no νeff
-				row[0] = pdfdoc.Cell{{Text: t[0], St: pdfdoc.Bold}, {Text: BudgetFoot(r), St: pdfdoc.Small}}
+				row[0] = pdfdoc.Cell{{Text: t[0], St: pdfdoc.Bold}, {Text: d.budgetFoot(r, sh), St: pdfdoc.Small}}
 				row[4], row[5] = c1(t[4], pdfdoc.Bold), c1("", pdfdoc.Body)
 			case t[0] == "combined u":
-				foot := BudgetFoot(r)
+				foot := d.budgetFoot(r, sh)
 				if g := BudgetGUMFoot(r); g != "" {
 					foot = g
 				}
