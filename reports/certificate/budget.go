@@ -59,7 +59,7 @@ func BudgetText(r sequencer.Result) (rows [][]string, zero int) {
 }
 
 // BudgetGUMFoot is the law of propagation's expanded uncertainty under a Monte
-// Carlo result's combined u: "law of propagation: U = 112 µV, k = 2.00", U
+// Carlo result's combined u: "GUM U = 230 µV, k = 2.03" (the law of propagation), U
 // by the one rounding (JCGM 100 §7.2.6), k = U/u with k from νeff. "" for a
 // result without a Monte Carlo interval.
 func BudgetGUMFoot(r sequencer.Result) string {
@@ -69,7 +69,7 @@ func BudgetGUMFoot(r sequencer.Result) string {
 	}
 	res := r
 	res.Unc = sequencer.Uncertainty{Std: mc.GUMStd, Expanded: mc.GUMExpanded, K: mc.GUMExpanded / mc.GUMStd}
-	return "law of propagation: " + BudgetFoot(res)
+	return "GUM " + BudgetFoot(res)
 }
 
 // BudgetFoot is the expanded uncertainty under r's budget, "U = 160 µV,

@@ -80,7 +80,7 @@ func TestBudgetMonteCarloLines(t *testing.T) {
 	if got := certificate.BudgetFoot(r); got != "U = 230 µV, k = 2.06, symmetric interval" {
 		t.Errorf("BudgetFoot = %q", got)
 	}
-	if got := certificate.BudgetGUMFoot(r); !strings.HasPrefix(got, "law of propagation: U = 230 µV, k = 2.03") {
+	if got := certificate.BudgetGUMFoot(r); !strings.HasPrefix(got, "GUM U = 230 µV, k = 2.03") {
 		t.Errorf("BudgetGUMFoot = %q, want the GUM's U = 2.03·110.9 µV = 225.1 µV stated as 230 µV", got)
 	}
 	r.Unc.MC = nil // a GUM result: one combined line, its own u
