@@ -248,10 +248,10 @@ func (l *Limit) statement(d *Decision, un unc, pol Policy, v string) string {
 		fmt.Fprintf(&b, ": measured %s", with(l.valueText(d)))
 	case d.Rule == RuleSimple:
 		fmt.Fprintf(&b, "Simple acceptance, w = 0 (ILAC-G8:09/2019 §4.2.1): measured %s with U = %s (k = %.2f%s)",
-			with(l.valueText(d)), with(d.UText()), d.K, dofText(float64(d.DOF)))
+			with(l.valueText(d)), with(d.UText()), d.K, coverageText(un))
 	default:
 		fmt.Fprintf(&b, "Guarded acceptance, w = %s·U = %s (ILAC-G8:09/2019 %s): measured %s with U = %s (k = %.2f%s)",
-			fmtNum(d.GuardFactor), with(d.GuardText()), section(d), with(l.valueText(d)), with(d.UText()), d.K, dofText(float64(d.DOF)))
+			fmtNum(d.GuardFactor), with(d.GuardText()), section(d), with(l.valueText(d)), with(d.UText()), d.K, coverageText(un))
 	}
 	b.WriteString(" lies ")
 	b.WriteString(l.where(d))
@@ -289,10 +289,24 @@ func (l *Limit) statement(d *Decision, un unc, pol Policy, v string) string {
 	return b.String()
 }
 
-// dofText is the effective degrees of freedom as the certificate's table writes
-// them (units.FormatDOF), or nothing when infinite.
-func dofText(dof float64) string {
-	if s := units.FormatDOF(dof); s != "" && !math.IsInf(dof, 1) {
+// coverageText says where k comes from after "k = 2.00": for a Monte Carlo U
+// the kind of coverage interval (JCGM 101:2008 §7.7 or §7.8; the GUM's νeff,
+// which the record keeps for reference, did not give k); else the effective
+// degrees of freedom as given, written as the certificate's table writes them
+// (units.FormatDOF: "νeff ≥ 1000" for 1.5e6, "νeff = ∞" for infinite), or
+// nothing when unknown. The judge takes a νeff above 1e7 as infinite for k,
+// but the statement writes the νeff the result has, as the table does.
+func coverageText(un unc) string {
+	switch un.interval {
+	case "":
+	case "shortest":
+		return ", shortest Monte Carlo coverage interval, JCGM 101:2008 §7.8"
+	case "symmetric":
+		return ", probabilistically symmetric Monte Carlo coverage interval, JCGM 101:2008 §7.7"
+	default:
+		return ", Monte Carlo coverage interval (" + un.interval + "), JCGM 101:2008"
+	}
+	if s := units.FormatDOF(un.given); s != "" {
 		return ", " + s
 	}
 	return ""
@@ -413,9 +427,22 @@ func (d *Decision) GuardText() string { return d.guardText(d.Guard) }
 
 func (d *Decision) guardText(w float64) string {
 	if units.IsStated(d.U) {
-		return fmtSig(w, 9)
+		// At U's decimal place, or finer where r·U needs it: w = 1·U is
+		// "0.20" as U is, not "0.2"; w = 0.5·U of U = 0.15 is "0.075".
+		_, dec := units.RoundU(d.U)
+		return units.FormatAt(w, max(dec, decimals(w), 0))
 	}
 	return fmtSig(w, 3)
+}
+
+// decimals is the number of decimals of v written with up to nine significant
+// digits: decimals(0.075) = 3, decimals(800) = 0.
+func decimals(v float64) int {
+	s := fmtSig(v, 9)
+	if i := strings.IndexByte(s, '.'); i >= 0 && !strings.ContainsAny(s, "eE") {
+		return len(s) - i - 1
+	}
+	return 0
 }
 
 // AcceptText is the upper (or lower) acceptance limit AL = TL ∓ w
@@ -442,7 +469,16 @@ func (d *Decision) TURText() string { return units.FormatTUR(d.TUR, d.TURLow) }
 
 // PFAText is the probability that the true value lies outside the tolerance
 // (units.FormatProbability: two significant digits, "< 0.0001 %" below).
-func (d *Decision) PFAText() string { return units.FormatProbability(d.POutside) }
+//
+// It is one format wherever a U was evaluated: a tail that rounds to 1 is
+// "> 99.9999 %" as everywhere. Only a value judged without an uncertainty (a
+// probability of 0 or 1 by construction) is "0 %" or "100 %".
+func (d *Decision) PFAText() string {
+	if !(d.U > 0) && (d.POutside == 0 || d.POutside == 1) {
+		return units.FormatSig(d.POutside*100, 3) + " %"
+	}
+	return units.FormatProbability(d.POutside)
+}
 
 // dispUnit writes the micro prefix as µ for statements ("uV" → "µV").
 func dispUnit(u string) string { return units.Display(u) }

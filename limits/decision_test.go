@@ -151,7 +151,7 @@ func TestDecisionNumbers(t *testing.T) {
 		statementParts []string
 	}{
 		{"offset two-sided", limits.RuleGuarded, 8, -42.0, 42.0, -50.0, 50.0, false, "hand-worked: w = 1·8, AL = ±(50 − 8)",
-			[]string{"Guarded acceptance, w = 1·U = 8 µV (ILAC-G8:09/2019 §4.2.3)", "U = 8.0 µV", "acceptance interval −42.0 … 42.0 µV: pass"}},
+			[]string{"Guarded acceptance, w = 1·U = 8.0 µV (ILAC-G8:09/2019 §4.2.3)", "U = 8.0 µV", "acceptance interval −42.0 … 42.0 µV: pass"}},
 		{"offset two-sided binary", limits.RuleGuarded, 8, -42.0, 42.0, -50.0, 50.0, true, "hand-worked",
 			[]string{"(ILAC-G8:09/2019 §4.2.2)"}},
 		{"offset simple", limits.RuleSimple, 0, -50.0, 50.0, -50.0, 50.0, false, "hand-worked: w = 0, AL = TL",
@@ -159,7 +159,7 @@ func TestDecisionNumbers(t *testing.T) {
 		{"noise upper only", limits.RuleGuarded, 8, nil, 52.0, nil, 60.0, false, "hand-worked: AL = 60 − 8",
 			[]string{"at or below the upper acceptance limit 52.0 µV: pass", "TUR not defined for a one-sided tolerance."}},
 		{"gain code lower only", limits.RuleGuarded, 8, 108.0, nil, 100.0, nil, false, "hand-worked: w = 2·4, AL = 100 + 8",
-			[]string{"w = 2·U = 8 code", "measured 2048 code with U = 4.0 code (k = 2.00)"}},
+			[]string{"w = 2·U = 8.0 code", "measured 2048 code with U = 4.0 code (k = 2.00, νeff = ∞)"}},
 	}
 	for _, tc := range tests {
 		o := find(t, outs, tc.limit)
@@ -204,7 +204,7 @@ func TestStatement(t *testing.T) {
 	r["post_offset"] = limits.Value{V: -3.2e-6, Valid: true, U: 8.2e-6, K: 2, DOF: math.Inf(1)}
 	d := find(t, set.Judge(r), "offset two-sided").Decision
 	// TUR 100 / (2 · 4.1 · 1.959964) = 6.22; U95 = 4.1 · 1.959964 = 8.04 µV (hand-worked).
-	want := "Guarded acceptance, w = 1·U = 8.2 µV (ILAC-G8:09/2019 §4.2.3): measured −3.2 µV with U = 8.2 µV (k = 2.00) " +
+	want := "Guarded acceptance, w = 1·U = 8.2 µV (ILAC-G8:09/2019 §4.2.3): measured −3.2 µV with U = 8.2 µV (k = 2.00, νeff = ∞) " +
 		"lies within the acceptance interval −41.8 … 41.8 µV: pass. Probability the true value is outside the tolerance: < 0.0001 %. " +
 		"TUR 6.22:1 (ANSI/NCSL Z540.3-2006 §5.3, U95 = 8.04 µV)."
 	if d.Statement != want {
@@ -593,5 +593,50 @@ func TestHugeUncertainty(t *testing.T) {
 		if o.Pass || o.Decision != nil || !strings.Contains(o.Reason, "has no usable uncertainty") {
 			t.Errorf("%s: pass %v decision %+v reason %q, want a failure without a decision (contract)", name, o.Pass, o.Decision, o.Reason)
 		}
+	}
+}
+
+// The statement's numbers against the table's: w = 1·U is written as U is
+// (JCGM 100:2008 §7.2.6: "0.20", its significant zero kept); a νeff above
+// 1e7, which the judge takes as infinite for k, is written "νeff ≥ 1000" as
+// the certificate's table writes it (units.FormatDOF), and an infinite one
+// "νeff = ∞"; a Monte Carlo U names its coverage interval (JCGM 101:2008
+// §7.7, §7.8) in place of the GUM's νeff, which did not give its k.
+func TestStatementCoverageAndGuard(t *testing.T) {
+	set := loadTol(t)
+	judge := func(v limits.Value) *limits.Decision {
+		t.Helper()
+		r := tolResults(0, 0, 2048)
+		r["post_offset"] = v
+		o := find(t, set.Judge(r), "offset two-sided")
+		if o.Decision == nil {
+			t.Fatalf("no decision: %s", o.Reason)
+		}
+		return o.Decision
+	}
+	d := judge(limits.Value{V: 3e-6, Valid: true, U: 20e-6, K: 2, DOF: 1.5e8})
+	if d.UText() != "20" || d.GuardText() != d.UText() || !strings.Contains(d.Statement, "w = 1·U = 20 µV") {
+		t.Errorf("U = 20 µV: UText %q GuardText %q statement %q, want w written as U", d.UText(), d.GuardText(), d.Statement)
+	}
+	if !strings.Contains(d.Statement, "(k = 2.00, νeff ≥ 1000)") {
+		t.Errorf("νeff = 1.5e8: statement %q lacks \"(k = 2.00, νeff ≥ 1000)\" (the table's words)", d.Statement)
+	}
+	d = judge(limits.Value{V: 3e-6, Valid: true, U: 2e-6, K: 2, DOF: math.Inf(1)})
+	if d.UText() != "2.0" || d.GuardText() != "2.0" || !strings.Contains(d.Statement, "w = 1·U = 2.0 µV") || !strings.Contains(d.Statement, "(k = 2.00, νeff = ∞)") {
+		t.Errorf("U = 2.0 µV, ν = ∞: UText %q GuardText %q statement %q, want w = 1·U = 2.0 µV and νeff = ∞", d.UText(), d.GuardText(), d.Statement)
+	}
+	d = judge(limits.Value{V: 3e-6, Valid: true, U: 10.3e-6, K: 2.06, DOF: 267, Interval: "symmetric"})
+	if !strings.Contains(d.Statement, "(k = 2.06, probabilistically symmetric Monte Carlo coverage interval, JCGM 101:2008 §7.7)") || strings.Contains(d.Statement, "νeff") {
+		t.Errorf("Monte Carlo U: statement %q, want the interval named and no νeff", d.Statement)
+	}
+	// PFA: a U was evaluated, so a tail that rounds to 1 is "> 99.9999 %",
+	// the one format of the near-certain end; "100 %" only without a U.
+	d = judge(limits.Value{V: 500e-6, Valid: true, U: 2e-6, K: 2})
+	if d.PFAText() != "> 99.9999 %" {
+		t.Errorf("far outside with U: PFA %q, want \"> 99.9999 %%\"", d.PFAText())
+	}
+	d = judge(limits.Value{V: 500e-6, Valid: true})
+	if d.PFAText() != "100 %" {
+		t.Errorf("outside without U: PFA %q, want \"100 %%\"", d.PFAText())
 	}
 }

@@ -234,6 +234,8 @@ type unc struct {
 	u, U, k   float64 // standard, expanded at the set's coverage, coverage factor
 	dof       float64 // math.Inf(1) = infinite (normal distribution)
 	k95       float64 // coverage factor for 95 % with dof
+	given     float64 // the dof as given (0 = unknown), for the statement's νeff
+	interval  string  // Value.Interval: a Monte Carlo coverage interval's kind, or ""
 }
 
 // uncertainty reads v's uncertainty, converted to l's unit, for a set whose U is at
@@ -260,7 +262,7 @@ func (l *Limit) uncertainty(v Value, p float64) (unc, string) {
 		dof = math.Inf(1)
 	}
 	var r unc
-	r.dof = dof
+	r.dof, r.given, r.interval = dof, v.DOF, v.Interval
 	if v.U == 0 && v.Std == 0 {
 		return r, ""
 	}

@@ -42,6 +42,11 @@ type Value struct {
 	// for infinite; 0, not given, is read as infinite too). All zero means "not evaluated": a toleranced limit then judges
 	// by simple acceptance and says so in its statement.
 	Std, U, K, DOF float64
+	// Interval is the kind of Monte Carlo coverage interval U comes from
+	// (JCGM 101:2008: "symmetric", §7.7, or "shortest", §7.8); "" for an
+	// uncertainty by the law of propagation (JCGM 100), whose k follows from
+	// DOF. For a Monte Carlo U the statement names the interval, not νeff.
+	Interval string
 }
 
 // Outcome is one limit's verdict on one unit, as stored in the run record.

@@ -265,8 +265,12 @@ func (r *results) set(name string, v float64) {
 // setU sets a result with its uncertainty.
 func (r *results) setU(name string, v float64, u Uncertainty) {
 	r.set_[name] = true
-	r.values[name] = limits.Value{V: v, Valid: finite(v), Why: "not a finite number",
+	val := limits.Value{V: v, Valid: finite(v), Why: "not a finite number",
 		Std: u.Std, U: u.Expanded, K: u.K, DOF: u.DOF}
+	if u.MC != nil { // the statement names the interval, not the GUM's νeff
+		val.Interval = u.MC.Interval
+	}
+	r.values[name] = val
 	r.unc[name] = u
 	delete(r.budget, name) // a step's SetBudget follows its SetU
 }

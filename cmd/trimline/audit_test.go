@@ -32,6 +32,10 @@ func TestAuditDemo(t *testing.T) {
 	for _, p := range pdfs[:3] {
 		if code, out, _ := runCLI(t, "audit", "verify", p, "--keys", keys); code != 0 || !strings.HasPrefix(out, "GENUINE") {
 			t.Errorf("%s: exit %d\n%s", p, code, out)
+		} else if !strings.HasPrefix(out, "GENUINE — SIMULATED BENCH — NOT A MEASUREMENT: ") || !strings.Contains(out, "no measurement") {
+			// A genuine document of a simulated run is not a measurement;
+			// its verdict says so on the first line.
+			t.Errorf("%s: a simulated run verifies without its mark:\n%s", p, out)
 		}
 	}
 	// An altered copy, with and without its seal beside it, and with no ledger.

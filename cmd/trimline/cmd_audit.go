@@ -295,6 +295,9 @@ func (a *auditor) verdictOut(e *env, file string, v audit.Verdict) error {
 // verdictText prints the verification outcome for a person.
 func (a *auditor) verdictText(e *env, file string, v audit.Verdict) {
 	head := strings.ToUpper(v.Kind)
+	if v.Simulated != "" {
+		head += " — " + v.Simulated
+	}
 	if a.noLedger {
 		head += " (by its seal alone; voids, supersedes and the chain not checked)"
 	}

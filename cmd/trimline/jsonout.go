@@ -311,6 +311,12 @@ type verificationOut struct {
 	RunID        string `json:"run_id"`
 	Serial       string `json:"serial"`
 	SupersededBy string `json:"superseded_by"`
+	// Simulated is the record's mark "SIMULATED BENCH — NOT A MEASUREMENT"
+	// when the run was made with simulated instruments (a GENUINE verdict
+	// then says the document is the station's, not that it is a
+	// measurement); "" for real instruments, or with SealOnly, where the
+	// record was not read.
+	Simulated string `json:"simulated"`
 	// SealOnly: checked against the seal beside the PDF alone (--no-ledger):
 	// voids, supersedes and the chain were not checked.
 	SealOnly        bool     `json:"seal_only"`
@@ -439,7 +445,7 @@ func newSummaryOut(t *sequencer.Tally) summaryOut {
 
 func newVerificationOut(file string, v audit.Verdict, sealOnly bool, ledgerPath string, trustSource string, stations []string) verificationOut {
 	out := verificationOut{Kind: kindVerification, Version: jsonVersion, File: file, Verdict: strings.ToUpper(v.Kind),
-		Reasons: nonNil(v.Reasons), Certificate: v.Number, RunID: v.RunID, Serial: v.Serial, SupersededBy: v.SupersededBy, SealOnly: sealOnly, TrustedKeys: trustSource, TrustedStations: nonNil(stations)}
+		Reasons: nonNil(v.Reasons), Certificate: v.Number, RunID: v.RunID, Serial: v.Serial, SupersededBy: v.SupersededBy, Simulated: v.Simulated, SealOnly: sealOnly, TrustedKeys: trustSource, TrustedStations: nonNil(stations)}
 	if !sealOnly {
 		out.Ledger = ledgerPath
 	}

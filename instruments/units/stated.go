@@ -200,8 +200,11 @@ func FormatTUR(t float64, low bool) string {
 // digits: "2.9 %", "72 %". Below 0.0001 % it is "< 0.0001 %", zero included:
 // a tail probability that underflowed is small, not impossible. Near 100 % it
 // keeps two significant digits of what is missing to 100 % ("99.70 %"), and
-// above 99.9999 % it is "> 99.9999 %"; exactly 1 (a value judged without an
-// uncertainty, outside) is "100 %". Not a probability: "—".
+// above 99.9999 % it is "> 99.9999 %", exactly 1 included: a tail that
+// rounded to 1 is near certain, not certain, as the zero end is small, not
+// impossible. (A value judged without an uncertainty has no probability; a
+// caller that wants to say "100 %" for it says so itself.) Not a probability:
+// "—".
 func FormatProbability(p float64) string {
 	if math.IsNaN(p) || p < 0 || p > 1 {
 		return "—"
@@ -210,8 +213,6 @@ func FormatProbability(p float64) string {
 	switch {
 	case pct < 1e-4:
 		return "< 0.0001 %"
-	case p == 1:
-		return "100 %"
 	case 100-pct < 1e-4:
 		return "> 99.9999 %"
 	case pct >= 99:

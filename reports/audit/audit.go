@@ -14,6 +14,7 @@ import (
 	"fmt"
 	"io"
 	"os"
+	"strings"
 	"time"
 
 	"trimline/reports/certificate"
@@ -48,6 +49,12 @@ type Verdict struct {
 	// certificate of the retest that replaced it.
 	Number, RunID, Serial string
 	SupersededBy          string
+	// Simulated is the record's simulated-bench mark (sequencer.SimulatedMark)
+	// when the run was made with simulated instruments, so that a genuine
+	// document of a simulation is never read as a measurement; "" for a run on
+	// real instruments, or where the check did not reach the record (a seal
+	// alone does not carry it).
+	Simulated string
 }
 
 func verdict(kind string, reasons ...string) Verdict { return Verdict{Kind: kind, Reasons: reasons} }
@@ -97,7 +104,7 @@ func Verifier(keys map[string]ed25519.PublicKey) func(keyID string, msg, sig []b
 func Certificate(ctx context.Context, led *ledger.Ledger, ledgerName, path string, pdf []byte, t *signing.Trust) (Verdict, error) {
 	var id Verdict
 	v, err := certificateCheck(ctx, led, ledgerName, path, pdf, t, &id)
-	v.Number, v.RunID, v.Serial, v.SupersededBy = id.Number, id.RunID, id.Serial, id.SupersededBy
+	v.Number, v.RunID, v.Serial, v.SupersededBy, v.Simulated = id.Number, id.RunID, id.Serial, id.SupersededBy, id.Simulated
 	return v, err
 }
 
@@ -143,6 +150,18 @@ func certificateCheck(ctx context.Context, led *ledger.Ledger, ledgerName, path 
 		return verdict(Altered, "the PDF names run "+runID+" but certificate "+doc.Number+" belongs to run "+meta.RunID), nil
 	}
 	why := []string{fmt.Sprintf("document %s of run %s (serial %s, verdict %s): SHA-256 matches the ledger", doc.Number, meta.RunID, rec.Serial, rec.Verdict)}
+	if sim := rec.Simulated; sim != nil {
+		id.Simulated = sim.Mark
+		if id.Simulated == "" {
+			id.Simulated = sequencer.SimulatedMark
+		}
+		roles := ""
+		if len(sim.Roles) > 0 {
+			roles = " (" + strings.Join(sim.Roles, ", ") + ")"
+		}
+		why = append(why, fmt.Sprintf("%s: the run was made with simulated instruments%s; the document may be genuine, its numbers are no measurement and trace to nothing",
+			id.Simulated, roles))
+	}
 	kind, reason := chainLink(pdf, seal, meta)
 	why = append(why, reason)
 	if kind != "" {

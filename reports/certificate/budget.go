@@ -22,7 +22,13 @@ var BudgetColumns = []string{"Input quantity", "Type", "u(x)", "Sensitivity c", 
 
 // BudgetText is r's budget as text, a row per input (columns BudgetColumns) in
 // the record's order, then the line of the combined uncertainty: "combined u",
-// "", "", "", u, νeff, "100 %". An input that does not move the result (a
+// "", "", "", u, νeff, "100 %", u the law of propagation's, the root sum of
+// the rows' squares (JCGM 100 §5.1.3, eq. (10)) with its Welch–Satterthwaite
+// νeff. For a result whose uncertainty is by Monte Carlo (r.Unc.MC) the rows
+// and that line are the GUM's account (MCInterval.GUMStd), and a last line
+// "Monte Carlo u", "", "", "", u of the model values, "—", "" gives the u the
+// result states, beside no νeff: the Monte Carlo k comes from its coverage
+// interval (JCGM 101:2008 §7.7/§7.8), not from ν. An input that does not move the result (a
 // sensitivity of 0, such as the source's gain for an offset at zero stimulus)
 // is left out; zero is how many. Per-point inputs (repeatability, resolution)
 // say "per point (n)" for their sensitivity: each point has its own weight in
@@ -43,24 +49,60 @@ func BudgetText(r sequencer.Result) (rows [][]string, zero int) {
 		rows = append(rows, []string{b.Name, b.Kind, inputText(b.InputU, b.InputUnit), sens,
 			contributionText(b.U, r.Unit), dofText(b.DOF), shareText(b.Share)})
 	}
+	if mc := r.Unc.MC; mc != nil {
+		rows = append(rows, []string{"combined u", "", "", "", contributionText(mc.GUMStd, r.Unit), dofText(r.Unc.DOF), "100 %"},
+			[]string{"Monte Carlo u", "", "", "", contributionText(r.Unc.Std, r.Unit), "—", ""})
+		return rows, zero
+	}
 	rows = append(rows, []string{"combined u", "", "", "", contributionText(r.Unc.Std, r.Unit), dofText(r.Unc.DOF), "100 %"})
 	return rows, zero
 }
 
+// BudgetGUMFoot is the law of propagation's expanded uncertainty under a Monte
+// Carlo result's combined u: "GUM U = 230 µV, k = 2.03" (the law of propagation), U
+// by the one rounding (JCGM 100 §7.2.6), k = U/u with k from νeff. "" for a
+// result without a Monte Carlo interval.
+func BudgetGUMFoot(r sequencer.Result) string {
+	mc := r.Unc.MC
+	if mc == nil || !(mc.GUMStd > 0) || !(mc.GUMExpanded > 0) {
+		return ""
+	}
+	res := r
+	res.Unc = sequencer.Uncertainty{Std: mc.GUMStd, Expanded: mc.GUMExpanded, K: mc.GUMExpanded / mc.GUMStd}
+	return "GUM " + BudgetFoot(res)
+}
+
 // BudgetFoot is the expanded uncertainty under r's budget, "U = 160 µV,
 // k = 2.00", U written as the certificate states it beside the value (the
-// same rounding, JCGM 100 §7.2.6), so that one quantity has one number.
+// same rounding, JCGM 100 §7.2.6), so that one quantity has one number. For
+// a Monte Carlo result it is under the Monte Carlo u and names the interval:
+// "U = 110 µV, k = 2.06, symmetric interval".
 func BudgetFoot(r sequencer.Result) string {
 	u := contributionText(r.Unc.Expanded, r.Unit)
 	if s := fmtResultU(r); strings.Contains(s, " ± ") {
 		_, u, _ = strings.Cut(s, " ± ")
 	}
-	return "U = " + u + ", " + fmtK(r.Unc.K)
+	foot := "U = " + u + ", " + fmtK(r.Unc.K)
+	if mc := r.Unc.MC; mc != nil && mc.Interval != "" {
+		foot += ", " + mc.Interval + " interval"
+	}
+	return foot
+}
+
+// budgetFoot is BudgetFoot with U as the results table writes it (sh).
+func (d *doc) budgetFoot(r sequencer.Result, sh shown) string {
+	foot := BudgetFoot(r)
+	if _, u, ok := strings.Cut(sh.withU, " ± "); ok {
+		_, rest, _ := strings.Cut(foot, ", ")
+		foot = "U = " + u + ", " + rest
+	}
+	return foot
 }
 
 // mcNote is said under a budget whose result's uncertainty is a Monte Carlo
 // one (sequencer.Uncertainty.Method "MC").
-const mcNote = " Where u is by Monte Carlo (JCGM 101), the rows are the law of propagation's account of where it comes from."
+const mcNote = " Where u is by Monte Carlo (JCGM 101:2008), the rows and the combined u are the law of propagation's account of where it comes from; " +
+	"the line “Monte Carlo u” is the standard deviation of the model values, and its U and k come from the coverage interval (JCGM 101:2008 §7.7, §7.8), not from νeff."
 
 // inputText writes an input's standard uncertainty in its unit: volts and
 // amperes with an SI prefix, a relative quantity in ppm, counts bare.
@@ -172,22 +214,37 @@ func (d *doc) budgets() ([]pdfdoc.Column, []pdfdoc.Row, []pdfdoc.Band, string) {
 		if r.Channel != "" {
 			title += " · " + chanWord(r.Channel)
 		}
-		bands = append(bands, pdfdoc.Band{At: len(rows), Title: title + " · " + fmtResultU(r)})
-		for i, t := range text {
+		sh := d.shown(r) // the result as the results table writes it
+		bands = append(bands, pdfdoc.Band{At: len(rows), Title: title + " · " + sh.withU})
+		for _, t := range text {
 			row := make(pdfdoc.Row, len(t))
 			for j, s := range t {
 				row[j] = c1(s, pdfdoc.Body)
 			}
-			if i == len(text)-1 { // the combined uncertainty
-				row[0] = pdfdoc.Cell{{Text: t[0], St: pdfdoc.Bold}, {Text: BudgetFoot(r), St: pdfdoc.Small}}
+			switch {
+			case t[0] == "Monte Carlo u": // the result's u, beside no νeff
+				row[0] = pdfdoc.Cell{{Text: t[0], St: pdfdoc.Bold}, {Text: d.budgetFoot(r, sh), St: pdfdoc.Small}}
+				row[4], row[5] = c1(t[4], pdfdoc.Bold), c1("", pdfdoc.Body)
+			case t[0] == "combined u":
+				foot := d.budgetFoot(r, sh)
+				if g := BudgetGUMFoot(r); g != "" {
+					foot = g
+				}
+				row[0] = pdfdoc.Cell{{Text: t[0], St: pdfdoc.Bold}, {Text: foot, St: pdfdoc.Small}}
 				row[4], row[5] = c1(t[4], pdfdoc.Bold), c1("νeff "+t[5], pdfdoc.Body)
 			}
 			rows = append(rows, row)
 		}
 	}
-	note := "The inputs are independent: each contributes |c|·u(x) and u is the root sum of their squares (JCGM 100 §5.1.3, eq. (10)); " +
-		"a specification ±a is taken as rectangular, u(x) = a/√3 (JCGM 100 §4.3.7); νeff by Welch–Satterthwaite (JCGM 100 G.2b). " +
-		"Repeatability and resolution are one input per sweep point, each with its own weight in the fit; their u(x) is a point's."
+	note := "The rows are independent: each contributes |c|·u(x) and u is the root sum of their squares (JCGM 100 §5.1.3, eq. (10)); " +
+		"a specification ±a is taken as rectangular, u(x) = a/√3 (JCGM 100 §4.3.7); νeff by Welch–Satterthwaite (JCGM 100 G.2b). "
+	if d.rec.Metrology >= 1 {
+		note += "Repeatability is one Type A input, the pooled standard deviation of the readings, with ν = Σ(nᵢ − 1) counted once (JCGM 100 G.4.1); " +
+			"it enters each sweep point's mean with that point's weight in the fit, and its u(x) is a point's. " +
+			"Resolution is an input per sweep point, each with its own weight."
+	} else {
+		note += "Repeatability and resolution are one input per sweep point, each with its own weight in the fit; their u(x) is a point's."
+	}
 	if left > 0 {
 		note += " Inputs with sensitivity 0 (for an offset at zero input the source's gain; for a gain the offsets) are not listed."
 	}

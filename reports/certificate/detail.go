@@ -132,7 +132,7 @@ func (d *doc) otherResults() ([]pdfdoc.Column, []pdfdoc.Row, []pdfdoc.Band) {
 		if when == "—" && r.StageOf() == sequencer.Adjustment {
 			when = "adjustment" // a code or coefficient the adjustment wrote
 		}
-		rows = append(rows, pdfdoc.Row{c1(r.Name, pdfdoc.Bold), c1(when, pdfdoc.Body), c1(fmtResultU(r), st), c1(note, pdfdoc.Small)})
+		rows = append(rows, pdfdoc.Row{c1(r.Name, pdfdoc.Bold), c1(when, pdfdoc.Body), c1(d.shown(r).withU, st), c1(note, pdfdoc.Small)})
 	}
 	return []pdfdoc.Column{
 		{Title: "Result", W: 48, Align: "L"},
@@ -168,13 +168,27 @@ func (d *doc) fits() ([]pdfdoc.Column, []pdfdoc.Row, []pdfdoc.Band) {
 	var bands channelBands
 	for _, f := range d.fitsByStage() {
 		bands.row(len(rows), f.Channel)
+		// The fit's results are written as the results table writes them (one
+		// quantity, one number: shown.go); a fit whose step declared no such
+		// result keeps the fit's own digits.
 		gainErr := "—"
-		if r.IdealGain != 0 {
+		if res, ok := d.fitResult(f, "gain_error"); ok {
+			gainErr = d.shown(res).value
+		} else if r.IdealGain != 0 {
 			gainErr = fmtResult(sequencer.Result{Value: f.Slope/r.IdealGain - 1, Unit: "ratio", Valid: finite(f.Slope)})
 		}
-		nl := fmtResult(sequencer.Result{Value: f.Nonlinearity, Unit: "ratio", Valid: finite(f.Nonlinearity)})
-		if nl != "not valid" {
+		var nl string
+		if res, ok := d.fitResult(f, "nonlinearity"); ok {
+			nl = d.shown(res).value
+		} else if nl = fmtResult(sequencer.Result{Value: f.Nonlinearity, Unit: "ratio", Valid: finite(f.Nonlinearity)}); nl != "not valid" {
 			nl += " FS"
+		}
+		at0, offset := fitOutput(resp, f.Intercept, 7), fitOutput(resp, f.Intercept-r.IdealOffset, 3)
+		if res, ok := d.fitResult(f, "offset"); ok {
+			offset = d.shown(res).value
+			if r.IdealOffset == 0 { // the line at 0 in is the offset itself
+				at0 = offset
+			}
 		}
 		slope := "—"
 		if finite(f.Slope) {
@@ -203,8 +217,8 @@ func (d *doc) fits() ([]pdfdoc.Column, []pdfdoc.Row, []pdfdoc.Band) {
 			c1(strconv.Itoa(f.DOF), pdfdoc.Body),
 			c1(slope, pdfdoc.Body),
 			c1(gainErr, pdfdoc.Body),
-			c1(fitOutput(resp, f.Intercept, 7), pdfdoc.Body),
-			c1(fitOutput(resp, f.Intercept-r.IdealOffset, 3), pdfdoc.Body),
+			c1(at0, pdfdoc.Body),
+			c1(offset, pdfdoc.Body),
 			c1(resp.format(f.ResidualSD, 3), pdfdoc.Body),
 			c1(nl, pdfdoc.Body),
 			lackOfFitCell(f.LackOfFit),

@@ -126,6 +126,23 @@ func TestOneNumberPerQuantity(t *testing.T) {
 					t.Errorf("%s: statement lacks TUR %s:\n  %s", where, tur, st)
 				}
 			}
+			// k and νeff: the table's line under the value and the statement
+			// say the same (JCGM 100:2008 G.4.1, truncated; "νeff ≥ 1000" from
+			// there on), and a Monte Carlo U names no νeff (JCGM 101:2008 §7.7).
+			if _, sub, ok := strings.Cut(cellText(row[1]), " | "); ok {
+				parts := strings.Split(sub, " · ")
+				if !strings.Contains(st, "(k = "+strings.TrimPrefix(parts[0], "k = ")) {
+					t.Errorf("%s: table's %q, statement's k differs:\n  %s", where, parts[0], st)
+				}
+				for _, p := range parts[1:] {
+					if strings.HasPrefix(p, "νeff") && !strings.Contains(st, ", "+p+")") {
+						t.Errorf("%s: table's %q is not the statement's:\n  %s", where, p, st)
+					}
+					if p == "MC" && strings.Contains(st, "νeff") {
+						t.Errorf("%s: a Monte Carlo U, the statement names νeff:\n  %s", where, st)
+					}
+				}
+			}
 			// PFA, one format.
 			pfa := dd.PFAText()
 			if !strings.Contains(st, "outside the tolerance: "+pfa+".") {

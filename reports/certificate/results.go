@@ -226,7 +226,8 @@ const resultsNote = "U: expanded uncertainty, two significant digits rounded up 
 	"Acceptance limits: the tolerance limits moved inward by w = r·U, from the stated U (ILAC-G8:09/2019 §4.1). " +
 	"TUR = (upper − lower tolerance limit) / (2·U95), U95 = U·k95/k with k95 the Student-t factor for 95 % at νeff " +
 	"(ANSI/NCSL Z540.3-2006 §5.3), three significant digits; “—” when one-sided or without U. " +
-	"PFA: probability that the true value lies outside the tolerance although the result was accepted (u = U/k)."
+	"PFA: the specific false-accept probability of this unit, the probability that its true value lies outside the tolerance given the value measured and accepted " +
+	"(the specific risk of JCGM 106:2012 §9.5, u = U/k), not the global PFA of ANSI/NCSL Z540.3-2006 over a population."
 
 // resultsTable is the results table and what its notes must explain: whether a
 // limit is toleranced (decided), a TUR is low, a limit is an expression.

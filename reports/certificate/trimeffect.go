@@ -19,28 +19,35 @@ import (
 // two sweeps were treated as independent, and which instrument errors the
 // sweeps shared; under it, what that means for the verify sweep.
 func (d *doc) trimEffects() {
-	effects := d.rec.TrimEffects
-	if len(effects) == 0 {
+	cols, rows, bands, shared, separate := d.trimEffectTable()
+	if len(rows) == 0 {
 		return
 	}
-	cols := []pdfdoc.Column{
+	d.tableSection("Effect of the trim", cols, rows, bands)
+	d.note(trimEffectNote(shared, separate))
+}
+
+// trimEffectTable is the trim's-effect table and whether any of its rows has
+// instrument errors the two sweeps share, and any that they do not.
+func (d *doc) trimEffectTable() (cols []pdfdoc.Column, rows []pdfdoc.Row, bands []pdfdoc.Band, shared, separate bool) {
+	effects := d.rec.TrimEffects
+	cols = []pdfdoc.Column{
 		{Title: "Result", W: 46, Align: "L"},
 		{Title: "Change ± U", W: 42, Align: "R"},
 		{Title: "u", W: 24, Align: "R"},
 		{Title: "u if independent", W: 26, Align: "R"},
 		{Title: "Instrument errors", W: 42, Align: "L", Gap: 4},
 	}
-	var rows []pdfdoc.Row
-	var bands channelBands
-	shared, separate := false, false
+	var cb channelBands
 	for _, te := range byChannel(d, effects, func(t sequencer.TrimEffect) string { return t.Channel }) {
 		r, ok := d.resultIn(te.Result, te.Channel)
 		if !ok {
 			continue
 		}
-		bands.row(len(rows), te.Channel)
+		cb.row(len(rows), te.Channel)
 		name := pdfdoc.Cell{{Text: te.Result, St: pdfdoc.Bold}, {Text: "from " + te.Baseline + " to " + te.Step, St: pdfdoc.Small}}
-		unit, scale := resultUnit(r)
+		sh := d.shown(r) // as the results table writes it, in its unit
+		unit, scale := sh.unit, sh.scale
 		uText, indep := "—", "—"
 		if r.Valid && hasU(r.Unc.Std) {
 			uText = fmtStdU(r.Unc.Std/scale, unit)
@@ -59,13 +66,9 @@ func (d *doc) trimEffects() {
 		}
 		shared = shared || len(te.Shared) > 0
 		separate = separate || len(te.Separate) > 0
-		rows = append(rows, pdfdoc.Row{name, c1(fmtResultU(r), pdfdoc.Body), c1(uText, pdfdoc.Body), c1(indep, pdfdoc.Body), c1(errs, pdfdoc.Small)})
+		rows = append(rows, pdfdoc.Row{name, c1(sh.withU, pdfdoc.Body), c1(uText, pdfdoc.Body), c1(indep, pdfdoc.Body), c1(errs, pdfdoc.Small)})
 	}
-	if len(rows) == 0 {
-		return
-	}
-	d.tableSection("Effect of the trim", cols, rows, bands.get())
-	d.note(trimEffectNote(shared, separate))
+	return cols, rows, cb.get(), shared, separate
 }
 
 // trimEffectNote is the small print under the trim-effect table.

@@ -14,7 +14,7 @@ import (
 // same at the output, and the fits that used it in place of the source's offset
 // spec. It prints what the record says; it computes nothing but ô_s·G.
 func (d *doc) zeros() {
-	cols, rows := zeroTable(d.rec.Zeros, d.rec.Fits)
+	cols, rows := d.zeroTable()
 	if len(rows) == 0 {
 		return
 	}
@@ -27,8 +27,11 @@ func (d *doc) zeros() {
 		"offset and both instruments' gains are not covered by the check and stay in it.")
 }
 
-// zeroTable is the columns and rows of the station-zero table.
-func zeroTable(zs []sequencer.ZeroCheck, fits []sequencer.FitSummary) ([]pdfdoc.Column, []pdfdoc.Row) {
+// zeroTable is the columns and rows of the station-zero table. ô_s at the
+// input, when the check's step recorded it as a result (source_zero), is
+// written as every table writes that result (shown.go).
+func (d *doc) zeroTable() ([]pdfdoc.Column, []pdfdoc.Row) {
+	zs, fits := d.rec.Zeros, d.rec.Fits
 	cols := []pdfdoc.Column{
 		{Title: "Step", W: 36, Align: "L"},
 		{Title: "Readings (off, at 0)", W: 20, Align: "R"},
@@ -63,6 +66,9 @@ func zeroTable(zs []sequencer.ZeroCheck, fits []sequencer.FitSummary) ([]pdfdoc.
 				{Text: "its u is not below the spec's " + fmtWithU(z.SpecU/1e-6, 0, "uV") + ": the fits keep the spec", St: pdfdoc.Small}}
 		}
 		in := fmtWithU(z.Offset/1e-6, z.Unc.Expanded/1e-6, "uV")
+		if r, ok := d.zeroResult(z); ok {
+			in = d.shown(r).withU
+		}
 		out := fmtWithU(z.Offset*z.Gain/1e-6, z.Unc.Expanded*abs(z.Gain)/1e-6, "uV")
 		rows = append(rows, pdfdoc.Row{
 			c1(step, pdfdoc.Body),
@@ -80,4 +86,15 @@ func abs(v float64) float64 {
 		return -v
 	}
 	return v
+}
+
+// zeroResult is the result of zero check z's ô_s (quantity source_zero) with
+// the check's value; false when its step recorded none.
+func (d *doc) zeroResult(z sequencer.ZeroCheck) (sequencer.Result, bool) {
+	for _, r := range d.rec.Results {
+		if r.Step == z.Name && r.Channel == z.Channel && r.QuantityOf() == "source_zero" && r.Valid && r.Value == z.Offset {
+			return r, true
+		}
+	}
+	return sequencer.Result{}, false
 }
