@@ -131,15 +131,17 @@ const (
 // corrected for these errors, so each has sensitivity −1 (−ideal gain for the
 // source), as a fit's inputs do.
 func (s *measureStep) budget(cfg Config, p Point, withSource bool) []BudgetRow {
-	return pointBudget(cfg, s.plan, p, float64(p.Valid-1), withSource && s.driven)
+	return pointBudget(cfg, s.plan, p, float64(p.Valid-1), withSource && s.driven, nil)
 }
 
 // pointBudget is the budget of one point's mean (withSource false) or of its error
 // against the ideal output (withSource true), its Type A part with dof degrees of
 // freedom (n − 1 of its own readings, or the sweep's pooled Σ(n_i − 1)). It is the
 // budget of pointErrorU's u for a fit's terminal offset, and of a measure step's
-// results.
-func pointBudget(cfg Config, plan SweepPlan, p Point, dof float64, withSource bool) []BudgetRow {
+// results. With zero, a zero check's measurement of what the station delivers at
+// a programmed 0 (Type A) takes the place of the source's spec, which at a 0 level
+// is its offset term alone.
+func pointBudget(cfg Config, plan SweepPlan, p Point, dof float64, withSource bool, zero *uncertainty.Measured) []BudgetRow {
 	meter, source, res := specs(cfg.Station, plan, p.Mean, p.Stimulus)
 	resp := unitOf(plan.Quantity)
 	sq3 := math.Sqrt(3)
@@ -151,7 +153,11 @@ func pointBudget(cfg Config, plan SweepPlan, p Point, dof float64, withSource bo
 	}
 	ins = append(ins, budgetInput{name: uncertainty.NameResolution, kind: uncertainty.KindB, unit: resp, point: -1,
 		u: res / (2 * sq3), dof: math.Inf(1), c: -1})
-	if withSource {
+	switch {
+	case withSource && zero != nil:
+		ins = append(ins, budgetInput{name: uncertainty.NameSourceOffset, kind: uncertainty.KindA, unit: unitOf(plan.stimDim()), point: -1,
+			u: zero.U, dof: zero.DOF, c: -cfg.Sequence.IdealGain})
+	case withSource:
 		ins = append(ins, budgetInput{name: nameSourceSpec, kind: uncertainty.KindB, unit: unitOf(plan.stimDim()), point: -1,
 			u: source.HalfWidth(p.Stimulus) / sq3, dof: math.Inf(1), c: -cfg.Sequence.IdealGain})
 	}

@@ -96,11 +96,10 @@ func checkOffsetChoice(c *Checker, offset *string, fit *StepDecl) {
 // uncertainty, pointErrorU).
 func (fk fitKept) offsetAt(which string) (y0, u0 float64, err error) {
 	if which == OffsetTerminal {
-		if fk.zero == nil {
+		if fk.term == nil {
 			return 0, 0, fmt.Errorf("the fit has no point at zero input")
 		}
-		u0, _ = pointErrorU(*fk.zero, fk.a.poolDOF)
-		return fk.zero.Mean, u0, nil
+		return fk.term.y0, fk.term.std, nil
 	}
 	return fk.a.sum.Intercept, math.Sqrt(fk.a.cov()[0][0]), nil
 }

@@ -65,34 +65,42 @@ func TestTwoOffsets(t *testing.T) {
 	if term.Quantity != "terminal_offset" || term.Step != "verify fit" {
 		t.Errorf("terminal offset says quantity %q, step %q", term.Quantity, term.Step)
 	}
-	// The terminal offset is the point's mean less the ideal 2.5 V, its u that
+	// The terminal offset is the output at a true zero input: the point's mean
+	// less the ideal 2.5 V and less the slope's share of the stimulus the zero
+	// check found the station delivers at a programmed 0 (b1·ô_s). Its u is that
 	// point's Type A and Type B parts in quadrature (JCGM 100 §5.1.2, independent
-	// inputs), its dof by Welch–Satterthwaite with the pooled SD's Σ(n_i − 1) =
-	// 11·7 = 77 and infinite for the specs (JCGM 100 G.4.1).
+	// inputs), with the check's Type A u in place of the source's offset spec;
+	// its budget lists them, and their root sum of squares is that u (JCGM 100
+	// §5.1.3, eq. (10)); its dof is Welch–Satterthwaite over them (JCGM 100
+	// G.4.1), the pooled SD's Σ(n_i − 1) = 11·7 = 77 counted once.
 	p := pointAt(t, rec, "verify", 0)
-	if want := p.Mean - 2.5; term.Value != want {
-		t.Errorf("terminal offset %g, want mean at 0 V − 2.5 V = %g", term.Value, want)
+	f := fitOf(t, rec, "verify fit")
+	if len(rec.Zeros) != 1 || !rec.Zeros[0].Applied || f.SourceZero != rec.Zeros[0].Name {
+		t.Fatalf("the demo's zero check was not applied to the verify fit: %+v, fit's %q", rec.Zeros, f.SourceZero)
 	}
-	u := math.Hypot(p.URandom, p.USys)
-	if math.Abs(term.Unc.Std-u) > 1e-12*u {
-		t.Errorf("u(terminal offset) = %g, want %g", term.Unc.Std, u)
+	z := rec.Zeros[0]
+	if want := p.Mean - f.Slope*z.Offset - 2.5; math.Abs(term.Value-want) > 1e-15 {
+		t.Errorf("terminal offset %g, want mean at 0 V − b1·ô_s − 2.5 V = %g", term.Value, want)
 	}
-	if dof := 77 * math.Pow(u/p.URandom, 4); math.Abs(term.Unc.DOF-dof) > 1e-6*dof {
-		t.Errorf("dof = %g, want %g", term.Unc.DOF, dof)
-	}
-	// Its budget lists those parts (repeatability, meter spec, resolution, source
-	// spec through the ideal gain), and their root sum of squares is that u (JCGM
-	// 100 §5.1.3, eq. (10)).
-	var ss float64
+	var ss, den float64
 	for _, r := range term.Budget {
 		ss += r.U * r.U
+		if !math.IsInf(r.DOF, 1) {
+			den += math.Pow(r.U, 4) / r.DOF
+		}
 	}
-	if len(term.Budget) != 4 || math.Abs(math.Sqrt(ss)-u) > 1e-9*u {
-		t.Errorf("terminal offset budget %+v: √Σu² = %g, want %g from 4 rows", term.Budget, math.Sqrt(ss), u)
+	if len(term.Budget) != 4 || math.Abs(math.Sqrt(ss)-term.Unc.Std) > 1e-9*term.Unc.Std {
+		t.Errorf("terminal offset budget %+v: √Σu² = %g, u = %g, want 4 rows", term.Budget, math.Sqrt(ss), term.Unc.Std)
+	}
+	src := term.Budget[len(term.Budget)-1]
+	if src.Name != uncertainty.NameSourceOffset || src.Kind != uncertainty.KindA || src.InputU != z.Unc.Std {
+		t.Errorf("source row %+v, want the zero check's u %g V, Type A", src, z.Unc.Std)
+	}
+	if dof := ss * ss / den; math.Abs(term.Unc.DOF-dof) > 1e-6*dof {
+		t.Errorf("dof = %g, want %g", term.Unc.DOF, dof)
 	}
 	// The two differ by far more than the trim's resolution: the step at 3 mV
 	// moves the line but not the output at 0 V.
-	f := fitOf(t, rec, "verify fit")
 	if line.Value != f.Intercept-2.5 || math.Abs(term.Value-line.Value) < 50e-6 {
 		t.Errorf("line offset %g µV, terminal %g µV: the crossover unit should show them apart", line.Value*1e6, term.Value*1e6)
 	}

@@ -207,7 +207,7 @@ func (s *coefStep) Run(ctx context.Context, u *Unit) error {
 // offset times the slope's relative uncertainty, far below k·u0.
 func terminalCoefU(fk fitKept, v CoefficientValues, u0, unitSI float64) (u, dof float64) {
 	us, ds := fk.a.linear([2]float64{0, 1})
-	_, d0 := pointErrorU(*fk.zero, fk.a.poolDOF)
+	d0 := fk.term.dof
 	return uncertainty.Combine([]uncertainty.Component{
 		{Name: "output at zero input", U: v.DM[0] * u0 / unitSI, DOF: d0},
 		{Name: "slope", U: v.DM[1] * us / unitSI, DOF: ds},

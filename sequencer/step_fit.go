@@ -75,8 +75,37 @@ type fitStep struct {
 type fitKept struct {
 	a analysis
 	// zero is the fitted sweep's point at zero input (the readings of every
-	// zero level pooled), nil when the fitted levels have none.
+	// zero level pooled), nil when the fitted levels have none; term the output
+	// at a true zero input made from it (terminalAt).
 	zero *Point
+	term *terminal
+}
+
+// terminal is the output at a true zero input, y0 (response unit), with its
+// standard uncertainty, degrees of freedom and budget.
+type terminal struct {
+	y0, std, dof float64
+	rows         []BudgetRow
+}
+
+// terminalAt is the output at a true zero input from the fitted sweep's
+// zero-level point p: its mean, and where a zero check found that the station
+// delivers ô_s at a programmed 0 (and the fit applied it), less the slope's
+// share b1·ô_s; its uncertainty is the point's own (pointErrorU), with the
+// check's Type A u in place of the source's offset spec.
+func terminalAt(cfg Config, plan SweepPlan, a analysis, p Point) terminal {
+	z := plan.zero
+	if a.sum.SourceZero == "" || z == nil {
+		std, dof := pointErrorU(p, a.poolDOF)
+		return terminal{y0: p.Mean, std: std, dof: dof, rows: pointBudget(cfg, plan, p, a.poolDOF, true, nil)}
+	}
+	rows := pointBudget(cfg, plan, p, a.poolDOF, true, &uncertainty.Measured{U: z.u, DOF: z.dof})
+	cs := make([]uncertainty.Component, len(rows))
+	for i, r := range rows {
+		cs[i] = uncertainty.Component{Name: r.Name, U: r.U, DOF: r.DOF, Kind: r.Kind}
+	}
+	std, dof := uncertainty.Combine(cs)
+	return terminal{y0: p.Mean - a.sum.Slope*z.offset, std: std, dof: dof, rows: rows}
 }
 
 // Where a fit's random uncertainty comes from (fitStep.Random).
@@ -250,7 +279,8 @@ func (f *fitStep) Run(_ context.Context, u *Unit) error {
 	zero, hasZero := zeroPoint(sw.Points)
 	fk := fitKept{a: a.lean()}
 	if hasZero {
-		fk.zero = &zero
+		t := terminalAt(u.cfg, kept.plan, a, zero)
+		fk.zero, fk.term = &zero, &t
 	}
 	u.Keep(fk)
 	seq := u.seq
@@ -263,14 +293,15 @@ func (f *fitStep) Run(_ context.Context, u *Unit) error {
 		case "terminal_offset":
 			// The output measured at zero input, with that point's own
 			// uncertainty: its Type A part from the pooled standard deviation
-			// (poolDOF degrees of freedom) and the meter and source specs there.
+			// (poolDOF degrees of freedom) and the meter and source specs there;
+			// after a zero check, at a true zero input (terminalAt).
 			if !hasZero {
 				u.Invalid(name, "no point at zero input")
 				continue
 			}
-			tu, dof := pointErrorU(zero, a.poolDOF)
-			u.SetU(name, zero.Mean-seq.IdealOffset, u.Unc(tu, dof))
-			u.SetBudget(name, pointBudget(u.cfg, kept.plan, zero, a.poolDOF, true))
+			t := fk.term
+			u.SetU(name, t.y0-seq.IdealOffset, u.Unc(t.std, t.dof))
+			u.SetBudget(name, t.rows)
 		case "gain_error":
 			ug, dg := a.linear([2]float64{0, 1 / seq.IdealGain})
 			u.SetU(name, a.sum.Slope/seq.IdealGain-1, a.unc(u, [2]float64{0, 1 / seq.IdealGain}, -1, math.Abs(ug), dg))

@@ -58,9 +58,13 @@ type ZeroCheck struct {
 	Note   string      `json:"note,omitempty"`
 	// SpecU is the standard uncertainty of the source's offset spec on Range
 	// (of_range·range/√3, rectangular), the term the check replaces; 0 when the
-	// station states none. Applied says whether later sweeps use the check: only
-	// when its Unc.Std is below SpecU (or no spec is stated). A check read
-	// through a unit too noisy to resolve the zero is recorded, not applied.
+	// station states none. Applied says whether later fits correct their levels
+	// by ô_s: only when the check's u is below SpecU (or no spec is stated). A
+	// check read through a unit too noisy to resolve the zero does not move the
+	// trim by its noise; the fits then budget what it could not rule out — the
+	// spec, the uncorrected ô_s and the check's u, in quadrature — because the
+	// spec bounds the source's offset but not the wiring's thermal EMFs, which
+	// the check also sees.
 	SpecU   float64 `json:"spec_u_v,omitempty"`
 	Applied bool    `json:"applied,omitempty"`
 }
@@ -205,8 +209,26 @@ func (s *zeroStep) finish(u *Unit, z *ZeroCheck) {
 	z.Offset, z.Unc, z.Valid = (on.Mean-off.Mean)/z.Gain, u.Unc(std, dof), true
 	spec := u.cfg.Station.Instruments[z.Source].SpecAt(s.plan.stimDim(), 0, 0)
 	z.SpecU = spec.OfRange * spec.Range / math.Sqrt(3)
-	if z.Applied = z.SpecU == 0 || std < z.SpecU; z.Applied {
-		u.keepZero(zeroKept{name: z.Name, role: z.Source, rng: z.Range, offset: z.Offset, u: std, dof: dof})
+	kept := zeroKept{name: z.Name, role: z.Source, rng: z.Range, offset: z.Offset, u: std, dof: dof}
+	if z.Applied = z.SpecU == 0 || std < z.SpecU; !z.Applied {
+		// No correction; an uncorrected known offset enters the budget with its
+		// uncertainty (common practice), beside the spec it may exceed.
+		kept.offset = 0
+		kept.u, kept.dof = uncertainty.Combine([]uncertainty.Component{
+			{Name: "source offset spec", U: z.SpecU, DOF: math.Inf(1)},
+			{Name: "uncorrected station zero", U: math.Abs(z.Offset), DOF: math.Inf(1)},
+			{Name: "zero check", U: std, DOF: dof},
+		})
+	}
+	u.keepZero(kept)
+	// A zero beyond the source's offset spec by more than the check's own U is the
+	// station's, not the source's: thermal EMFs in the wiring or a fault. The fits
+	// correct for it; the operator is told to look.
+	if a := spec.OfRange * spec.Range; a > 0 && math.Abs(z.Offset) > a+z.Unc.Expanded {
+		u.Rec.Notes = append(u.Rec.Notes, fmt.Sprintf("station zero %s is beyond the source's offset spec ±%s by more than its U %s: "+
+			"check the fixture's wiring for thermal EMFs (the fits correct for it)",
+			units.Format(z.Offset, unitOf(s.plan.stimDim()), 3), units.Format(a, unitOf(s.plan.stimDim()), 2),
+			units.Format(z.Unc.Expanded, unitOf(s.plan.stimDim()), 2)))
 	}
 	for _, o := range s.outs {
 		switch name := o[1]; o[0] {
@@ -316,8 +338,8 @@ type zeroKept struct {
 	name   string
 	role   string
 	rng    float64 // the source range it covers
-	offset float64 // ô_s, V at the input
-	u, dof float64 // its standard uncertainty and degrees of freedom
+	offset float64 // ô_s, V at the input, that the fits correct their levels by (0 when not applied)
+	u, dof float64 // the standard uncertainty of what remains, and its degrees of freedom
 }
 
 // keepZero keeps z as the latest zero check of its source on the running

@@ -184,8 +184,10 @@ func sameError(name string, pre, post analysis, preRoles, postRoles sweepRoles) 
 		if preRoles.source != postRoles.source || pre.sw.Source != post.sw.Source {
 			return false
 		}
+		// The same measured zero is the same check (by name and channel), not two
+		// checks whose numbers happen to agree.
 		zp, zq := pre.sw.SourceZero, post.sw.SourceZero
-		return (zp == nil) == (zq == nil) && (zp == nil || *zp == *zq)
+		return (zp == nil) == (zq == nil) && pre.sum.SourceZero == post.sum.SourceZero && pre.sum.Channel == post.sum.Channel
 	}
 	return false
 }

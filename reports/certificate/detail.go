@@ -611,9 +611,18 @@ func (d *doc) sweepPoints(ts []pointTable) {
 		d.Table(t.cols, t.rows, nil, t.groups...)
 	}
 	note := "Error = mean output − ideal output; s is the standard deviation of the valid readings at the point."
+	applied := d.appliedZeros()
 	if d.hasFits() && d.hasZeroPoint() {
 		z := "0 " + d.stim().zeroName()
-		note += " † At " + z + " in the error is the terminal offset (the output measured at zero input less the ideal offset), not the best-fit-line offset of the fits table."
+		if applied == "" {
+			note += " † At " + z + " in the error is the terminal offset (the output measured at zero input less the ideal offset), not the best-fit-line offset of the fits table."
+		} else {
+			note += " † At " + z + " in the error is the output at the programmed zero less the ideal offset: the terminal offset result corrects it for the station zero; neither is the best-fit-line offset of the fits table."
+		}
+	}
+	if applied != "" {
+		note += " Stimulus is the level programmed; the fits correct every level by the station zero " + applied +
+			" (the zero check), so the errors here are the uncorrected ones."
 	}
 	if d.otherQuantity() {
 		note += " A measurement of another quantity than the unit's output (a supply current) has no ideal and no error."
@@ -811,4 +820,26 @@ func statementText(s, unit string) string {
 		}
 		return m + "s"
 	})
+}
+
+// appliedZeros lists the station zeros the record's fits applied ("ô_s =
+// −0.12 µV"), "" when none.
+func (d *doc) appliedZeros() string {
+	var out []string
+	for _, z := range d.rec.Zeros {
+		if !z.Applied {
+			continue
+		}
+		for _, f := range d.rec.Fits {
+			if f.SourceZero == z.Name && f.Channel == z.Channel {
+				v := d.stim().format(z.Offset, 3)
+				if r, ok := d.zeroResult(z); ok { // as every table writes the result
+					v = d.shown(r).withU
+				}
+				out = append(out, "ô_s = "+v)
+				break
+			}
+		}
+	}
+	return strings.Join(out, ", ")
 }

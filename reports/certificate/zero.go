@@ -62,8 +62,8 @@ func (d *doc) zeroTable() ([]pdfdoc.Column, []pdfdoc.Row) {
 		}
 		applied := c1(dash(strings.Join(used, ", ")), pdfdoc.Body)
 		if !z.Applied {
-			applied = pdfdoc.Cell{{Text: "not applied", St: pdfdoc.Body},
-				{Text: "its u is not below the spec's " + fmtWithU(z.SpecU/1e-6, 0, "uV") + ": the fits keep the spec", St: pdfdoc.Small}}
+			applied = pdfdoc.Cell{{Text: "not applied: " + dash(strings.Join(used, ", ")), St: pdfdoc.Body},
+				{Text: "its u is not below the spec's " + fmtWithU(z.SpecU/1e-6, 0, "uV") + ": no correction; the fits budget the spec, the uncorrected zero and its u", St: pdfdoc.Small}}
 		}
 		in := fmtWithU(z.Offset/1e-6, z.Unc.Expanded/1e-6, "uV")
 		if r, ok := d.zeroResult(z); ok {

@@ -40,11 +40,12 @@ func TestZeroCheckOnTheCertificate(t *testing.T) {
 		"replaced the source's offset specification",
 	)
 
-	// A check too noisy to beat the spec is shown, and said not to be applied.
+	// A check too noisy to beat the spec is shown, and said not to be applied as a
+	// correction, its zero budgeted instead.
 	rec.Zeros[0].Unc, rec.Zeros[0].Applied = sequencer.Uncertainty{Std: 1.9e-6, DOF: 14, K: 2.2, Expanded: 4.2e-6}, false
 	for i := range rec.Fits {
 		rec.Fits[i].SourceZero = ""
 	}
 	text = pdfText(t, render(t, rec, opt))
-	requireText(t, text, "not applied", "its u is not below the spec's 0.2887 µV: the fits keep the spec")
+	requireText(t, text, "not applied", "its u is not below the spec's 0.2887 µV: no correction; the fits budget the spec, the uncorrected zero and its u")
 }
