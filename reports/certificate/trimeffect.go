@@ -117,7 +117,7 @@ func (d *doc) maximumNote() {
 			name += " (" + chanWord(r.Channel) + ")"
 		}
 		u := dispUnit(unit)
-		per = append(per, fmt.Sprintf("%s: interval %s to %s %s, bias %s %s", name,
+		per = append(per, fmt.Sprintf("%s: interval %s to %s %s, shift %s %s", name,
 			units.FormatAt(m.Low/scale, dec), units.FormatAt(m.High/scale, dec), u, signed(units.FormatAt(m.Bias/scale, dec)), u))
 		counts = append(counts, [2]int{m.Points, m.Trials})
 	}
@@ -136,7 +136,8 @@ func (d *doc) maximumNote() {
 	}
 	d.note("MC-max — uncertainty of a maximum: Monte Carlo of the maximum " + head + "every point's random error, " +
 		"the pooled Type A scale drawn once a trial, and for a largest error the instruments' shared errors). " +
-		"The value is the observed maximum, not corrected for its upward bias (the trials' mean less the value, stated); " +
+		"The value is the observed maximum, uncorrected; the shift stated is the trials' mean less it: from the points' noise it " +
+		"means the observed maximum reads high, from the instruments' shared errors that the true maximum may lie higher; " +
 		"± U is the smallest interval about it that holds the " + fmtCoverage(d.rec.Coverage) +
 		" probabilistically symmetric coverage interval of the trials (JCGM 101 §7.7). " + strings.Join(per, "; ") + ".")
 }
