@@ -415,6 +415,11 @@ func fmtTolerance(d *limits.Decision, unit string) string {
 // limit up, the upper down), so that the printed interval never claims more
 // than the evaluated one.
 func fmtAcceptance(d *limits.Decision, unit string) string {
+	if lo, hi := d.AcceptLower, d.AcceptUpper; lo != nil && hi != nil && *lo > *hi {
+		// A guard band wider than half the tolerance leaves no acceptance
+		// interval, as the statement says: no inverted pair of numbers.
+		return "none (2w > tolerance width)"
+	}
 	return fmtInterval(d.AcceptLower, d.AcceptUpper, unit, func(_ float64, upper bool) string { return pdfdoc.Minus(d.AcceptText(upper)) })
 }
 

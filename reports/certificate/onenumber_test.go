@@ -105,7 +105,11 @@ func TestOneNumberPerQuantity(t *testing.T) {
 					if got, want := parse(t, text), *side.tl+side.sign*w; math.Abs(got-want) > 1e-9*math.Max(1, math.Abs(want)) {
 						t.Errorf("%s: acceptance limit printed %s, want TL ∓ r·U = %v from the printed U %s (ILAC-G8:09/2019 §4.1)", where, text, want, U)
 					}
-					if !strings.Contains(cellText(row[2]), text) {
+					empty := dd.AcceptLower != nil && dd.AcceptUpper != nil && *dd.AcceptLower > *dd.AcceptUpper
+					if empty && !strings.Contains(cellText(row[2]), "accept none") {
+						t.Errorf("%s: table's acceptance %q: want none for a guard band wider than half the tolerance", where, cellText(row[2]))
+					}
+					if !empty && !strings.Contains(cellText(row[2]), text) {
 						t.Errorf("%s: table's acceptance %q lacks %s", where, cellText(row[2]), text)
 					}
 					// (A guard band wider than half the tolerance leaves no acceptance
