@@ -166,11 +166,15 @@ func runBatch(ctx context.Context, e *env, b batch) (*sequencer.Tally, error) {
 		cond = sequencer.Conditions{AmbientC: c, AmbientSource: "entered"}
 	}
 	if _, ok := cond.Ambient(); !ok {
+		// One warning, naming every role whose spec holds only in a band.
+		var banded []string
 		for _, r := range st.Roles() {
 			if v := st.Instruments[r].Validity; v.HasBand {
-				log.Warn().Str("role", r).Str("band", v.BandText()).Msg("no ambient temperature entered (--ambient): the certificates will say the specifications were assumed to hold")
-				break
+				banded = append(banded, r+" "+v.BandText())
 			}
+		}
+		if len(banded) > 0 {
+			log.Warn().Strs("bands", banded).Msg("no ambient temperature entered (--ambient): the certificates will say the specifications were assumed to hold")
 		}
 	}
 	cfg := sequencer.Config{Station: st, Sequence: seq, Operator: b.operator,
