@@ -155,7 +155,7 @@ func pointBudget(cfg Config, plan SweepPlan, p Point, dof float64, withSource bo
 		u: res / (2 * sq3), dof: math.Inf(1), c: -1})
 	switch {
 	case withSource && zero != nil:
-		ins = append(ins, budgetInput{name: uncertainty.NameSourceOffset, kind: uncertainty.KindA, unit: unitOf(plan.stimDim()), point: -1,
+		ins = append(ins, budgetInput{name: uncertainty.NameSourceOffset, kind: zero.Evaluation(), unit: unitOf(plan.stimDim()), point: -1,
 			u: zero.U, dof: zero.DOF, c: -cfg.Sequence.IdealGain})
 	case withSource:
 		ins = append(ins, budgetInput{name: nameSourceSpec, kind: uncertainty.KindB, unit: unitOf(plan.stimDim()), point: -1,

@@ -438,7 +438,7 @@ type Result struct {
 // many; U is then the root-sum-square of the points' contributions.
 type BudgetRow struct {
 	Name string `json:"name"` // the input, e.g. "source offset" (uncertainty.Name… constants)
-	Kind string `json:"kind"` // "A" or "B" (JCGM 100 §4.2, §4.3)
+	Kind string `json:"kind"` // "A" or "B" (JCGM 100 §4.2, §4.3); "A+B" for a measured input budgeted with the spec it could not beat
 	// InputU is u(x_i), in InputUnit; for a per-point row the points' common
 	// value, or the largest where they differ.
 	InputU    float64 `json:"input_u"`

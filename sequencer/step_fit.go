@@ -99,7 +99,7 @@ func terminalAt(cfg Config, plan SweepPlan, a analysis, p Point) terminal {
 		std, dof := pointErrorU(p, a.poolDOF)
 		return terminal{y0: p.Mean, std: std, dof: dof, rows: pointBudget(cfg, plan, p, a.poolDOF, true, nil)}
 	}
-	rows := pointBudget(cfg, plan, p, a.poolDOF, true, &uncertainty.Measured{U: z.u, DOF: z.dof})
+	rows := pointBudget(cfg, plan, p, a.poolDOF, true, &uncertainty.Measured{U: z.u, DOF: z.dof, Kind: z.kind})
 	cs := make([]uncertainty.Component, len(rows))
 	for i, r := range rows {
 		cs[i] = uncertainty.Component{Name: r.Name, U: r.U, DOF: r.DOF, Kind: r.Kind}

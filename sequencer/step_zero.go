@@ -213,7 +213,7 @@ func (s *zeroStep) finish(u *Unit, z *ZeroCheck) {
 	if z.Applied = z.SpecU == 0 || std < z.SpecU; !z.Applied {
 		// No correction; an uncorrected known offset enters the budget with its
 		// uncertainty (common practice), beside the spec it may exceed.
-		kept.offset = 0
+		kept.offset, kept.kind = 0, uncertainty.KindAB
 		kept.u, kept.dof = uncertainty.Combine([]uncertainty.Component{
 			{Name: "source offset spec", U: z.SpecU, DOF: math.Inf(1)},
 			{Name: "uncorrected station zero", U: math.Abs(z.Offset), DOF: math.Inf(1)},
@@ -340,6 +340,7 @@ type zeroKept struct {
 	rng    float64 // the source range it covers
 	offset float64 // ô_s, V at the input, that the fits correct their levels by (0 when not applied)
 	u, dof float64 // the standard uncertainty of what remains, and its degrees of freedom
+	kind   string  // its evaluation: Type A, or A+B when the check is budgeted beside the spec
 }
 
 // keepZero keeps z as the latest zero check of its source on the running
@@ -384,6 +385,6 @@ func (z *zeroKept) apply(s *uncertainty.Sweep) string {
 	for i := range s.X {
 		s.X[i] += z.offset
 	}
-	s.SourceZero = &uncertainty.Measured{U: z.u, DOF: z.dof}
+	s.SourceZero = &uncertainty.Measured{U: z.u, DOF: z.dof, Kind: z.kind}
 	return z.name
 }

@@ -364,8 +364,8 @@ func TestNoisyZeroCheckIsBudgetedNotApplied(t *testing.T) {
 	for _, r := range post.Budget {
 		if r.Name == uncertainty.NameSourceOffset {
 			found = true
-			if math.Abs(r.InputU-wantU) > 1e-12*wantU || math.Abs(r.DOF-wantDOF) > 1e-9*wantDOF {
-				t.Errorf("source offset row %+v, want u %g V with %g dof", r, wantU, wantDOF)
+			if math.Abs(r.InputU-wantU) > 1e-12*wantU || math.Abs(r.DOF-wantDOF) > 1e-9*wantDOF || r.Kind != uncertainty.KindAB {
+				t.Errorf("source offset row %+v, want u %g V with %g dof, Type A+B", r, wantU, wantDOF)
 			}
 		}
 	}

@@ -68,6 +68,22 @@ type Sweep struct {
 // t for finite DOF in a Monte Carlo draw, JCGM 101 §6.4.9).
 type Measured struct {
 	U, DOF float64
+	// Kind is the evaluation the budget names it by: "" is KindA; a measured
+	// quantity budgeted together with a specification it could not beat (a
+	// noisy zero check beside the spec it would have replaced) is KindAB.
+	Kind string
+}
+
+// KindAB names a budget row that combines a Type A evaluation with Type B
+// ones (JCGM 100 §4.2, §4.3) in one input.
+const KindAB = "A+B"
+
+// Evaluation is m's Kind, KindA when not set.
+func (m Measured) Evaluation() string {
+	if m.Kind == "" {
+		return KindA
+	}
+	return m.Kind
 }
 
 // Input is one input quantity of a fit's uncertainty model with its
@@ -388,7 +404,7 @@ func (s Sweep) sysInputs(b [3]float64) [4]errorInput {
 		in[i].kind, in[i].point, in[i].dof = KindB, -1, math.Inf(1)
 	}
 	if z := s.SourceZero; z != nil {
-		in[3].u, in[3].dof, in[3].kind = z.U, z.DOF, KindA
+		in[3].u, in[3].dof, in[3].kind = z.U, z.DOF, z.Evaluation()
 	}
 	return in
 }
