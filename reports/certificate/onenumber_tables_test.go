@@ -34,20 +34,6 @@ func productRecords(t *testing.T, p sequences.Product, n int) []*sequencer.Recor
 	return recs
 }
 
-// splitWithU is the value of "v unit ± U unit" with its unit ("v unit"; of
-// "v ± U counts", "v counts"), as a table that shows the value alone must
-// write it.
-func splitWithU(s string) string {
-	v, rest, ok := strings.Cut(s, " ± ")
-	if !ok {
-		return s
-	}
-	if i := strings.LastIndexByte(rest, ' '); i >= 0 && !strings.Contains(v, " ") {
-		return v + rest[i:]
-	}
-	return v
-}
-
 // One quantity, one number, in every table: a recorded result with a U is
 // written as one string (value to U's decimal place, U rounded up to two
 // significant digits, JCGM 100:2008 §7.2.6, in one unit) wherever the
@@ -127,7 +113,7 @@ func checkOneNumber(t *testing.T, rec *sequencer.Record) int {
 			return
 		}
 		if valueOnly {
-			want = splitWithU(want)
+			want = valueOf(want)
 		}
 		n++
 		if got != want {

@@ -1,7 +1,6 @@
 package certificate
 
 import (
-	"context"
 	"fmt"
 	"math"
 	"strconv"
@@ -11,30 +10,18 @@ import (
 	_ "trimline/instruments/sim" // the simulated bench, scheme sim://
 	"trimline/limits"
 	"trimline/sequencer"
+	"trimline/sequences"
 )
 
 // demoRecords runs the demo's 25 BRX-200 units (seed 8, the files of
 // sequences/) on the simulated bench, as `trimline demo` does.
 func demoRecords(t *testing.T) []*sequencer.Record {
 	t.Helper()
-	st, err := sequencer.LoadStation("../../sequences/brx200-station.yaml")
+	p, err := sequences.Find(sequences.Default)
 	if err != nil {
 		t.Fatal(err)
 	}
-	seq, err := sequencer.LoadSequence("../../sequences/brx200-sequence.yaml")
-	if err != nil {
-		t.Fatal(err)
-	}
-	e, err := sequencer.Open(context.Background(), sequencer.Config{Station: st, Sequence: seq, Operator: "test", Software: "test"})
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer e.Close()
-	var recs []*sequencer.Record
-	for i := 1; i <= 25; i++ {
-		recs = append(recs, e.Run(context.Background(), fmt.Sprintf("BRX-%05d", i)))
-	}
-	return recs
+	return productRecords(t, p, 25)
 }
 
 // parse reads a number as the certificate writes it (real minus sign).
