@@ -173,22 +173,9 @@ func (d *maxDraw) systematic() (gm, om, gs, os float64) {
 // maxOutcome summarises the trials' maxima against the observed value v at
 // coverage probability p: u, U, and MaxUnc.
 func maxOutcome(v float64, vs []float64, p float64) (u, U float64, mu MaxUnc) {
-	m := float64(len(vs))
-	var sum float64
-	for _, x := range vs {
-		sum += x
-	}
-	mean := sum / m
-	var ss float64
-	for _, x := range vs {
-		ss += (x - mean) * (x - mean)
-	}
-	u = math.Sqrt(ss / (m - 1))
-	// JCGM 101 §7.7: q = pM and r = (M − q)/2, each to the nearest integer;
-	// the interval is [y_(r), y_(r+q)] of the sorted trials (1-based).
-	q := math.Round(p * m)
-	r := math.Round((m - q) / 2)
-	lo, hi := max(int(r)-1, 0), min(int(r+q)-1, len(vs)-1)
+	var mean float64
+	mean, u = uncertainty.MeanStd(vs)
+	lo, hi := uncertainty.SymmetricRanks(len(vs), p)
 	low := selectKth(vs, lo)
 	high := selectKth(vs[lo:], hi-lo) // selectKth left every smaller value before lo
 	mu = MaxUnc{Trials: len(vs), Mean: mean, Bias: mean - v, Low: low, High: high}

@@ -305,9 +305,26 @@ func coverageInterval(v []float64, p float64, kind string) (lo, hi float64) {
 		}
 		return v[best-1], v[best+q-1]
 	}
-	r := int(nearestInt(float64(m-q) / 2))
-	r = max(r, 1)
-	return v[r-1], v[min(r+q, m)-1]
+	i, j := SymmetricRanks(m, p)
+	return v[i], v[j]
+}
+
+// SymmetricRanks are the 0-based ranks, among m sorted model values, of the
+// ends of the probabilistically symmetric coverage interval for probability p
+// (JCGM 101 §7.7): y_(r) and y_(r+q) with q = pM and r = (M − q)/2, each
+// rounded to the nearest integer, 1-based as the clause counts them. A caller
+// that needs only the two ends may select them rather than sort every value.
+func SymmetricRanks(m int, p float64) (lo, hi int) {
+	q := int(nearestInt(p * float64(m)))
+	q = min(max(q, 1), m-1)
+	r := max(int(nearestInt(float64(m-q)/2)), 1)
+	return r - 1, min(r+q, m) - 1
+}
+
+// MeanStd are the mean (with a compensating second pass) and the sample
+// standard deviation (divisor len(v) − 1) of model values v.
+func MeanStd(v []float64) (mean, std float64) {
+	return meanOf(v), stdOf(v)
 }
 
 // meanOf is the mean of v with a compensating second pass.
