@@ -6,7 +6,6 @@ package sequencer
 // SetBudget beside SetU; the certificate and `trimline check` print them.
 
 import (
-	"context"
 	"math"
 
 	"trimline/sequencer/uncertainty"
@@ -182,9 +181,8 @@ func (r *results) setBudget(name string, rows []BudgetRow) {
 // instruments' specifications and resolution alone, what `trimline check`
 // prints beside the TUR.
 func PredictResults(st *Station, seq *Sequence) []Result {
-	rec := &Record{Serial: "predict", RunID: "predict", Metrology: CurrentMetrology}
-	u := newUnit(Config{Station: st, Sequence: seq}, rec, predicting)
-	if err := runSteps(context.Background(), u); err != nil {
+	u, ok := onPaper(st, seq)
+	if !ok {
 		return nil
 	}
 	var out []Result

@@ -26,10 +26,9 @@ var ErrTUR = errors.New("test uncertainty ratio below the limit file's minimum")
 // the results' uncertainties are returned by name. skip_if is not applied: the
 // prediction covers every step a unit may go through.
 func PredictUncertainty(st *Station, seq *Sequence) map[string]limits.Value {
-	rec := &Record{Serial: "predict", RunID: "predict", Metrology: CurrentMetrology}
-	u := newUnit(Config{Station: st, Sequence: seq}, rec, predicting)
 	out := map[string]limits.Value{}
-	if err := runSteps(context.Background(), u); err != nil {
+	u, ok := onPaper(st, seq)
+	if !ok {
 		return out
 	}
 	// On paper every channel is the same ideal unit: a per-channel result's
@@ -43,6 +42,14 @@ func PredictUncertainty(st *Station, seq *Sequence) map[string]limits.Value {
 		}
 	}
 	return out
+}
+
+// onPaper runs the sequence's steps on paper (the unit in predicting mode, by
+// the current metrology revision); ok is false when a step could not run.
+func onPaper(st *Station, seq *Sequence) (u *Unit, ok bool) {
+	rec := &Record{Serial: "predict", RunID: "predict", Metrology: CurrentMetrology}
+	u = newUnit(Config{Station: st, Sequence: seq}, rec, predicting)
+	return u, runSteps(context.Background(), u) == nil
 }
 
 // CheckTUR predicts every toleranced limit's TUR on this station. It returns the
