@@ -34,22 +34,31 @@ func covSlice(c [2][2]float64) [][]float64 {
 	return [][]float64{{c[0][0], c[0][1]}, {c[1][0], c[1][1]}}
 }
 
+// checkH3Published checks a line fitted to the GUM H.3 thermometer data, and
+// its residual standard deviation s, against the published results.
+func checkH3Published(t *testing.T, f uncertainty.LineFit, s float64) {
+	t.Helper()
+	u0, u1 := f.StdUnc()
+	b30, u30 := f.Predict(30)
+	checkPublished(t, "y1 / °C", f.B0, -0.1712, 4)        // source: JCGM 100:2008 H.3.3, y1 = −0.1712 °C
+	checkPublished(t, "y2", f.B1, 0.00218, 5)             // source: JCGM 100:2008 H.3.3, y2 = 0.00218
+	checkPublished(t, "s(y1) / °C", u0, 0.0029, 4)        // source: JCGM 100:2008 H.3.3, s(y1) = 0.0029 °C
+	checkPublished(t, "s(y2)", u1, 0.00067, 5)            // source: JCGM 100:2008 H.3.3, s(y2) = 0.00067
+	checkPublished(t, "r(y1, y2)", f.Corr(), -0.930, 3)   // source: JCGM 100:2008 H.3.3, r(y1, y2) = −0.930
+	checkPublished(t, "s / °C", s, 0.0035, 4)             // source: JCGM 100:2008 H.3.3, s = 0.0035 °C
+	checkPublished(t, "b(30 °C) / °C", b30, -0.1494, 4)   // source: JCGM 100:2008 H.3.4, b(30 °C) = −0.1494 °C
+	checkPublished(t, "u(b(30 °C)) / °C", u30, 0.0041, 4) // source: JCGM 100:2008 H.3.4, u[b(30 °C)] = 0.0041 °C
+}
+
 func TestGUMH3(t *testing.T) {
 	x, y := readTable(t, "gum-h3-thermometer.csv")
 	f, s, err := uncertainty.FitLineLS(x, y, 20) // b = y1 + y2·(t − t0), t0 = 20 °C, JCGM 100 H.3 eq. (H.12)
 	if err != nil {
 		t.Fatal(err)
 	}
+	checkH3Published(t, f, s)
 	u0, u1 := f.StdUnc()
 	b30, u30 := f.Predict(30)
-	checkPublished(t, "y1 / °C", f.B0, -0.1712, 4)              // source: JCGM 100:2008 H.3.3, y1 = −0.1712 °C
-	checkPublished(t, "y2", f.B1, 0.00218, 5)                   // source: JCGM 100:2008 H.3.3, y2 = 0.00218
-	checkPublished(t, "s(y1) / °C", u0, 0.0029, 4)              // source: JCGM 100:2008 H.3.3, s(y1) = 0.0029 °C
-	checkPublished(t, "s(y2)", u1, 0.00067, 5)                  // source: JCGM 100:2008 H.3.3, s(y2) = 0.00067
-	checkPublished(t, "r(y1, y2)", f.Corr(), -0.930, 3)         // source: JCGM 100:2008 H.3.3, r(y1, y2) = −0.930
-	checkPublished(t, "s / °C", s, 0.0035, 4)                   // source: JCGM 100:2008 H.3.3, s = 0.0035 °C
-	checkPublished(t, "b(30 °C) / °C", b30, -0.1494, 4)         // source: JCGM 100:2008 H.3.4, b(30 °C) = −0.1494 °C
-	checkPublished(t, "u(b(30 °C)) / °C", u30, 0.0041, 4)       // source: JCGM 100:2008 H.3.4, u[b(30 °C)] = 0.0041 °C
 	checkRel(t, "b(30 °C) recomputed", b30, -0.149377, 1e-4)    // source: recomputed from JCGM 100 Table H.6 data
 	checkRel(t, "u(b(30 °C)) recomputed", u30, 0.0041386, 1e-4) // source: recomputed from JCGM 100 Table H.6 data
 	if f.DOFB0 != 9 || f.DOFB1 != 9 || f.ResidualDOF != 9 {     // source: JCGM 100 H.3.3, ν = n − 2 = 9

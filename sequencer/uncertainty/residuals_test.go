@@ -15,17 +15,8 @@ func TestFitLineResidualsGUMH3(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	u0, u1 := f.StdUnc()
-	b30, u30 := f.Predict(30)
-	checkPublished(t, "y1 / °C", f.B0, -0.1712, 4)        // source: JCGM 100:2008 H.3.3, y1 = −0.1712 °C
-	checkPublished(t, "y2", f.B1, 0.00218, 5)             // source: JCGM 100:2008 H.3.3, y2 = 0.00218
-	checkPublished(t, "s(y1) / °C", u0, 0.0029, 4)        // source: JCGM 100:2008 H.3.3, s(y1) = 0.0029 °C
-	checkPublished(t, "s(y2)", u1, 0.00067, 5)            // source: JCGM 100:2008 H.3.3, s(y2) = 0.00067
-	checkPublished(t, "r(y1, y2)", f.Corr(), -0.930, 3)   // source: JCGM 100:2008 H.3.3, r(y1, y2) = −0.930
-	checkPublished(t, "s / °C", s, 0.0035, 4)             // source: JCGM 100:2008 H.3.3, s = 0.0035 °C
-	checkPublished(t, "b(30 °C) / °C", b30, -0.1494, 4)   // source: JCGM 100:2008 H.3.4, b(30 °C) = −0.1494 °C
-	checkPublished(t, "u(b(30 °C)) / °C", u30, 0.0041, 4) // source: JCGM 100:2008 H.3.4, u[b(30 °C)] = 0.0041 °C
-	if f.DOFB0 != 9 || f.DOFB1 != 9 {                     // source: JCGM 100 H.3.3, ν = n − 2 = 9
+	checkH3Published(t, f, s)
+	if f.DOFB0 != 9 || f.DOFB1 != 9 { // source: JCGM 100 H.3.3, ν = n − 2 = 9
 		t.Errorf("dof b0 %v, b1 %v; want 9", f.DOFB0, f.DOFB1)
 	}
 	if len(f.Budget) != 5 || f.Budget[0].Name != uncertainty.NameResidualScatter {
