@@ -213,13 +213,7 @@ func setMaxU(u *Unit, name string, a analysis, dof float64, mc func(seed string)
 		u.Invalid(name, "uncertainty of the maximum: "+err.Error())
 		return
 	}
-	unc := u.Unc(std, dof)
-	if std > 0 {
-		// Stated once, rounded up (JCGM 100 §7.2.6; setMaxU runs only from
-		// metrology revision 1): value ± U still holds the whole interval.
-		U = StatedU(U)
-		unc.K, unc.Expanded = U/std, U
-	}
+	unc := u.IntervalUnc(std, dof, U)
 	unc.Method, unc.Max = MethodMaxMC, mu
 	u.SetU(name, v, unc)
 }

@@ -240,15 +240,13 @@ func (a analysis) unc(u *Unit, g [2]float64, c, std, dof float64) Uncertainty {
 	// The GUM interval is validated as computed, y ± k·u: the stated (rounded up)
 	// U would move its end points by up to a tenth of U, far beyond δ.
 	v := uncertainty.Validate(value, gum.Std, gum.K*gum.Std, m.Low, m.High, mcDigits)
-	if u.Metrology() >= 1 {
-		// Stated once, rounded up: value ± U still contains the whole interval.
-		U = StatedU(U)
-	}
-	return Uncertainty{Std: m.Std, DOF: gum.DOF, K: U / m.Std, Expanded: U, Method: "MC",
-		MC: &MCInterval{Low: m.Low, High: m.High, Interval: a.mc.Interval, Trials: a.mc.Trials,
-			Adaptive: a.mc.Adaptive, Capped: a.mc.Adaptive && !a.mc.Converged,
-			Delta:  uncertainty.NumericalTolerance(m.Std, mcDigits),
-			GUMStd: gum.Std, GUMExpanded: gum.Expanded, DLow: v.DLow, DHigh: v.DHigh, GUMDelta: v.Tolerance, Validated: v.Validated}}
+	unc := u.IntervalUnc(m.Std, gum.DOF, U)
+	unc.Method = "MC"
+	unc.MC = &MCInterval{Low: m.Low, High: m.High, Interval: a.mc.Interval, Trials: a.mc.Trials,
+		Adaptive: a.mc.Adaptive, Capped: a.mc.Adaptive && !a.mc.Converged,
+		Delta:  uncertainty.NumericalTolerance(m.Std, mcDigits),
+		GUMStd: gum.Std, GUMExpanded: gum.Expanded, DLow: v.DLow, DHigh: v.DHigh, GUMDelta: v.Tolerance, Validated: v.Validated}
+	return unc
 }
 
 // block2 is the (b0, b1) block of a quadratic's covariance.

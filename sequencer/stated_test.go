@@ -41,7 +41,9 @@ func TestRecordStoresTheStatedU(t *testing.T) {
 			// JCGM 100:2008 §7.2.6, rounded up: two significant digits, never
 			// below k·u, and above it by less than one unit of the second digit.
 			_, dec := units.RoundU(U)
-			if !units.IsStated(U) || U < kU || U-kU >= math.Pow(10, -float64(dec))*(1+1e-9) {
+			// (k·u is compared to 1e-12 relative: for a U from an interval, k = U/u
+			// and k·u gives U back only to the last bit.)
+			if !units.IsStated(U) || U < kU*(1-1e-12) || U-kU >= math.Pow(10, -float64(dec))*(1+1e-9) {
 				t.Errorf("%s %s: U = %v, k·u = %v: want k·u rounded up to two significant digits", rec.Serial, r.Name, U, kU)
 			}
 		}

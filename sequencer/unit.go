@@ -212,6 +212,22 @@ func (u *Unit) Unc(std, dof float64) Uncertainty {
 	return Uncertainty{Std: std, DOF: dof, K: k, Expanded: U, Method: method(u.seq, u.Metrology())}
 }
 
+// IntervalUnc is the uncertainty of a result whose expanded uncertainty comes
+// from a coverage interval rather than from k·u: U (the interval's larger
+// half-width about the value), stated as Unc states every U (rounded up from
+// metrology revision 1, so value ± U still holds the whole interval), with
+// standard uncertainty std, k = U/std, and dof for reference.
+func (u *Unit) IntervalUnc(std, dof, U float64) Uncertainty {
+	unc := u.Unc(std, dof)
+	if std > 0 {
+		if u.Metrology() >= 1 {
+			U = StatedU(U)
+		}
+		unc.K, unc.Expanded = U/std, U
+	}
+	return unc
+}
+
 // StatedU is an evaluated expanded uncertainty as a result states it: rounded
 // up to two significant digits (JCGM 100:2008 §7.2.6 allows rounding up; up is
 // the conservative choice for a guard band w = r·U, which is then never
