@@ -46,6 +46,10 @@ type Config struct {
 	Engineering bool
 	// NewID returns a run id; nil uses a time-stamped random id.
 	NewID func(now time.Time) string
+	// Progress, when set, is called with every progress event of a run, on the
+	// engine's goroutine and in order. It must return quickly (copy the event
+	// and hand it on); it never changes what the run records.
+	Progress func(Event)
 }
 
 // Engine runs units on one opened bench. It is not safe for concurrent use: one

@@ -183,11 +183,47 @@ type Record struct {
 	RetestOf string   `json:"retest_of,omitempty"`
 	Reasons  []string `json:"reasons,omitempty"` // why the verdict is not PASS, in order
 	Fault    string   `json:"fault,omitempty"`   // the station fault message, for FAULT and ABORTED
+	// FaultDetail says, for a FAULT, which instrument failed and what it said,
+	// when the engine knows (nil otherwise, and in every record made before it
+	// was kept).
+	FaultDetail *FaultDetail `json:"fault_detail,omitempty"`
+	// Disposition is a reviewer's decision on a run held for REVIEW: set only on
+	// the record that reissues that run's certificate with the final verdict.
+	Disposition *Disposition `json:"disposition,omitempty"`
 	// Notes are what the operator must know once the run is over, whatever its
 	// verdict: a chamber still beyond the handling band of the safe temperature
 	// ("chamber at 84.9 °C: wait before opening the fixture").
 	Notes []string `json:"notes,omitempty"`
 }
+
+// FaultDetail is the instrument a station fault came from.
+type FaultDetail struct {
+	Role    string `json:"role"`              // the station role ("meter")
+	Asset   string `json:"asset,omitempty"`   // its asset tag from the station file
+	Address string `json:"address,omitempty"` // where the station file binds it
+	// Said is what the instrument said or did: an error-queue entry, or what
+	// went wrong talking to it ("no reply within 2 s").
+	Said string `json:"said"`
+}
+
+// Disposition is a reviewer's decision on a unit held for REVIEW.
+type Disposition struct {
+	Of            string    `json:"of"`             // run id of the REVIEW run decided on
+	OfCertificate string    `json:"of_certificate"` // that run's certificate number
+	Decision      string    `json:"decision"`       // DecisionAccept or DecisionReject
+	Reviewer      string    `json:"reviewer"`       // name, as the station file lists the person
+	Reason        string    `json:"reason"`         // the reviewer's reason, in words
+	At            time.Time `json:"at"`
+	// Authenticated says how the reviewer was known: "station sign-in",
+	// "passphrase", or "key ed25519:…".
+	Authenticated string `json:"authenticated,omitempty"`
+}
+
+// The decisions of a Disposition.
+const (
+	DecisionAccept = "accept" // the unit ships: final verdict PASS
+	DecisionReject = "reject" // the unit does not: final verdict FAIL
+)
 
 // StepRun is what one step of the sequence did in a run.
 type StepRun struct {

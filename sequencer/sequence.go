@@ -67,6 +67,9 @@ type Sequence struct {
 	// against the whole serial ("" = DefaultSerialPattern); CheckSerial applies it.
 	SerialPattern string
 	serialRE      *regexp.Regexp
+	// MaxAttempts is how many measured runs (PASS, FAIL or REVIEW) a serial gets
+	// before it must go to rework (retest.max_attempts); 0 = no limit.
+	MaxAttempts int
 
 	// Uncertainty selects how the fits' uncertainties are evaluated: "gum" (the law
 	// of propagation, JCGM 100) or "monte_carlo" (JCGM 101). MCTrials is the

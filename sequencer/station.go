@@ -152,8 +152,12 @@ type Station struct {
 	// SigningKey is the station's Ed25519 private key file (resolved relative to
 	// the station file); "" issues unsigned certificates.
 	SigningKey string
-	File       FileRef
-	Raw        []byte // the file's exact bytes, for the ledger's content-addressed store
+	// People are who may work at the station and what they may do (people:);
+	// nil when the file lists nobody (then anyone signed in may operate on a
+	// loopback console, and nobody may review).
+	People []Person
+	File   FileRef
+	Raw    []byte // the file's exact bytes, for the ledger's content-addressed store
 
 	doc *files.Doc // the parsed file, for positions of checks made after loading
 }
