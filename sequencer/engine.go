@@ -379,11 +379,32 @@ func (s *stop) Unwrap() error { return s.cause }
 // verdict FAULT or ABORTED. The source output is off, the channel switch
 // released and every thermal role set to the safe temperature when Run returns.
 func (e *Engine) Run(ctx context.Context, serial string) (rec *Record) {
+	return e.RunWith(ctx, serial, RunOptions{})
+}
+
+// RunOptions change one run from what the Engine's Config says: a console
+// signs operators in and out over a shift on one opened bench.
+type RunOptions struct {
+	Operator string      // "" = Config.Operator
+	Progress func(Event) // nil = Config.Progress
+}
+
+// RunWith is Run with the operator and the progress hook of this one run.
+func (e *Engine) RunWith(ctx context.Context, serial string, o RunOptions) (rec *Record) {
+	if o.Progress != nil {
+		saved := e.cfg.Progress
+		e.cfg.Progress = o.Progress
+		defer func() { e.cfg.Progress = saved }()
+	}
+	operator := e.cfg.Operator
+	if o.Operator != "" {
+		operator = o.Operator
+	}
 	st, seq := e.cfg.Station, e.cfg.Sequence
 	now := e.clock.Now().UTC()
 	rec = &Record{
 		Schema: RecordSchema, Metrology: CurrentMetrology, Serial: serial, Product: seq.Product, Revision: seq.Revision,
-		Station: st.ID, Operator: e.cfg.Operator, Software: e.cfg.Software, Started: now,
+		Station: st.ID, Operator: operator, Software: e.cfg.Software, Started: now,
 		Files:       []FileRef{st.File, seq.File, seq.LimitsFile},
 		Instruments: append([]InstrumentRef(nil), e.refs...),
 		IdealGain:   seq.IdealGain, IdealOffset: seq.IdealOffset, FullScale: seq.FullScale, ResponseUnit: seq.recordResponseUnit(), StimulusUnit: seq.recordStimulusUnit(),
