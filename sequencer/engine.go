@@ -82,8 +82,9 @@ type Engine struct {
 
 	// watchdogs are the sources' output watchdogs (those that have one): armed
 	// at every step, disarmed once the output is off.
-	watchdogs []instruments.OutputWatchdog
-	queues    []roleQueue // instruments with an error queue, in role order
+	watchdogs     []instruments.OutputWatchdog
+	watchdogRoles []string    // the role of each of watchdogs
+	queues        []roleQueue // instruments with an error queue, in role order
 
 	// The running unit's progress: the sequence's outline (Sequence.Outline),
 	// the step running (index into it) and the points it has reported.
@@ -119,6 +120,9 @@ func Open(ctx context.Context, cfg Config) (*Engine, error) {
 	}
 	all, err := instruments.OpenAll(ctx, st.Specs(seq.Requires))
 	if err != nil {
+		if oe := (*instruments.OpenError)(nil); errors.As(err, &oe) {
+			err = blame(st, oe.Role, oe.Err.Error(), err)
+		}
 		return nil, err
 	}
 	e := &Engine{cfg: cfg, all: all, clock: instruments.RealClock{}, sources: map[string]instruments.Source{}, currents: map[string]instruments.CurrentSource{},
@@ -143,7 +147,7 @@ func Open(ctx context.Context, cfg Config) (*Engine, error) {
 			}
 			e.sources[r] = src
 			if w, ok := src.(instruments.OutputWatchdog); ok {
-				e.watchdogs = append(e.watchdogs, w)
+				e.watchdogs, e.watchdogRoles = append(e.watchdogs, w), append(e.watchdogRoles, r)
 			}
 		case CurrentSource:
 			src, ok := in.(instruments.Source)
@@ -153,7 +157,7 @@ func Open(ctx context.Context, cfg Config) (*Engine, error) {
 			}
 			e.sources[r], e.currents[r] = src, cs
 			if w, ok := src.(instruments.OutputWatchdog); ok {
-				e.watchdogs = append(e.watchdogs, w)
+				e.watchdogs, e.watchdogRoles = append(e.watchdogs, w), append(e.watchdogRoles, r)
 			}
 		case VoltMeter:
 			m, ok := in.(instruments.Meter)
