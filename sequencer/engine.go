@@ -455,6 +455,10 @@ func (e *Engine) runUnit(ctx context.Context, serial, operator string) (rec *Rec
 			log.Error().Err(err).Msg("could not switch the source output off")
 			if rec.Verdict != Aborted {
 				rec.Verdict = Fault
+				if r := e.onlySource(); r != "" && rec.FaultDetail == nil {
+					d, _ := DetailOf(blame(st, r, err.Error(), err))
+					rec.FaultDetail = &d
+				}
 			}
 			rec.Fault = strings.TrimPrefix(rec.Fault+"; source output off failed: "+err.Error(), "; ")
 		}
@@ -533,6 +537,18 @@ func (e *Engine) run(ctx context.Context, u *Unit) error {
 	}
 	finish(u)
 	return nil
+}
+
+// onlySource is the station's one source role, "" when it has several (a
+// failed safe-off then does not say which).
+func (e *Engine) onlySource() string {
+	if len(e.sources) != 1 {
+		return ""
+	}
+	for r := range e.sources {
+		return r
+	}
+	return ""
 }
 
 // runSteps runs the sequence's steps for the unit, in order: a step whose skip_if

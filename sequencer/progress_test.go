@@ -8,6 +8,7 @@ import (
 	"testing"
 	"time"
 
+	"trimline/instruments"
 	"trimline/instruments/sim/serve"
 	"trimline/sequencer"
 )
@@ -259,5 +260,48 @@ func TestBatchStopsAfterAFault(t *testing.T) {
 	}
 	if !errors.Is(tl.Err(), sequencer.ErrUnitFault) {
 		t.Errorf("batch error %v, want ErrUnitFault", tl.Err())
+	}
+}
+
+// failingOff is a source whose output cannot be switched off once fail is set.
+type failingOff struct {
+	instruments.Source
+	fail *bool
+}
+
+func (f failingOff) SetOutput(ctx context.Context, on bool) error {
+	if *f.fail && !on {
+		return errors.New("output relay stuck")
+	}
+	return f.Source.SetOutput(ctx, on)
+}
+
+// A unit whose steps all went well but whose source cannot be switched off at
+// the end is a station fault of that source, the only one of the station; the
+// verdict event says FAULT, after the safe-off.
+func TestFaultDetailWhenSafeOffFails(t *testing.T) {
+	e := setup(t, "sim", nil, "")
+	fail := false
+	sequencer.WrapSources(e, func(role string, s instruments.Source) instruments.Source { return failingOff{s, &fail} })
+	var last sequencer.Event
+	steps := 0
+	rec := e.RunWith(context.Background(), "BRX-00006", sequencer.RunOptions{Progress: func(ev sequencer.Event) {
+		if ev.Kind == sequencer.EventUnitStart {
+			steps = len(ev.Steps)
+		}
+		if ev.Kind == sequencer.EventStepEnd && ev.Step == steps-1 {
+			fail = true // the last step is done: only the safe-off is left
+		}
+		last = ev
+	}})
+	fail = false
+	if rec.Verdict != sequencer.Fault || !strings.Contains(rec.Fault, "source output off failed: output relay stuck") {
+		t.Fatalf("verdict %s, fault %q", rec.Verdict, rec.Fault)
+	}
+	if d := rec.FaultDetail; d == nil || d.Role != "source" || d.Said != "output relay stuck" {
+		t.Errorf("fault detail %+v", d)
+	}
+	if last.Kind != sequencer.EventUnitEnd || last.Verdict != sequencer.Fault {
+		t.Errorf("last event %+v, want unit_end FAULT", last)
 	}
 }
