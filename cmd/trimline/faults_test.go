@@ -165,4 +165,24 @@ func TestBatchStopsAtAStationFault(t *testing.T) {
 	if len(runs) != 1 || runs[0].Serial != "BRX-00001" || runs[0].Verdict != sequencer.Fault {
 		t.Fatalf("ledger %+v, want the one faulted run of BRX-00001", runs)
 	}
+
+	// For scripts: the faulted unit names the meter, the summary the units
+	// the fault kept from running.
+	srv.SetFault("meter", serve.Fault{ErrorAfter: "READ?", ErrorEntry: `-230,"Data corrupt or stale"`})
+	code, out, errOut = runCLI(t, "run", "--station", station, "--sequence", sequence, "--json",
+		"--serial", "BRX-00004", "--serial", "BRX-00005", "--out", dir)
+	lines := jsonLines(t, out)
+	if code != exitStation || len(lines) != 2 {
+		t.Fatalf("exit %d, %d lines, want 3 and a unit and a summary\n%s\n%s", code, len(lines), out, errOut)
+	}
+	var u unitOut
+	var sum summaryOut
+	decodeStrict(t, lines[0], &u)
+	decodeStrict(t, lines[1], &sum)
+	if d := u.FaultDetail; u.Verdict != "FAULT" || d == nil || d.Role != "meter" || d.Address != srv.Addresses()["meter"] || !strings.Contains(d.Said, "Data corrupt or stale") {
+		t.Errorf("unit %s %s: fault detail %+v", u.Serial, u.Verdict, u.FaultDetail)
+	}
+	if strings.Join(sum.Skipped, " ") != "BRX-00005" {
+		t.Errorf("summary skipped %q, want BRX-00005", sum.Skipped)
+	}
 }
