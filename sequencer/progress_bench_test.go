@@ -92,23 +92,38 @@ func BenchmarkScanToFirstSourceWrite(b *testing.B) {
 // loopback TCP in real time, settle 20 ms and 2 readings at 0.01 PLC a point,
 // near the fastest a 20 ms settle allows. events/s and points/s are what the
 // encoding goroutine received per second of wall time; x-of-50/s is points/s
-// over the 50 points a second a 20 ms settle produces at most; max-lag-ms
-// (tcp only, where events carry the wall clock) is the longest an event waited
-// between the engine and the encoder.
+// over the 50 points a second a 20 ms settle produces at most (over the whole
+// run, fits and trim included); max-lag-ms (tcp only, where events carry the
+// wall clock) is the longest an event waited between the engine and the
+// encoder, and ms/sweep-point the mean time between two points of one sweep as
+// the encoder received them (a 20 ms settle allows no less than 20).
 func BenchmarkProgressEvents(b *testing.B) {
 	run := func(b *testing.B, e *sequencer.Engine, serial string, wall bool) {
 		ch := make(chan sequencer.Event, 256)
 		type tally struct {
 			events, points int
 			lag            time.Duration
+			gaps           time.Duration // between points of one step, as received
+			nGaps          int
 		}
 		done := make(chan tally)
 		go func() {
 			var t tally
+			var prev sequencer.Event
+			var prevAt time.Time
 			for ev := range ch {
+				now := time.Now()
 				if wall {
-					t.lag = max(t.lag, time.Since(ev.At))
+					t.lag = max(t.lag, now.Sub(ev.At))
 				}
+				if ev.Kind == sequencer.EventPoint {
+					if prev.Kind == sequencer.EventPoint && prev.Step == ev.Step && prev.RunID == ev.RunID {
+						t.gaps += now.Sub(prevAt)
+						t.nGaps++
+					}
+					prevAt = now
+				}
+				prev = ev
 				if err := json.NewEncoder(io.Discard).Encode(ev); err != nil {
 					panic(err)
 				}
@@ -134,6 +149,7 @@ func BenchmarkProgressEvents(b *testing.B) {
 		b.ReportMetric(float64(got.points)/secs/50, "x-of-50/s")
 		if wall {
 			b.ReportMetric(float64(got.lag.Microseconds())/1e3, "max-lag-ms")
+			b.ReportMetric(float64(got.gaps.Microseconds())/1e3/float64(max(got.nGaps, 1)), "ms/sweep-point")
 		}
 	}
 	b.Run("sim", func(b *testing.B) { run(b, setup(b, "sim", nil, ""), "BRX-00001", false) })
