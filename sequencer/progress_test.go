@@ -425,3 +425,18 @@ func TestProgressOfAStoppedRun(t *testing.T) {
 		t.Errorf("the event before the verdict is %+v, want the stopped step's end", end)
 	}
 }
+
+// A unit in the fixture that is not the one scanned faults the run at the
+// DUT port, which says what it holds.
+func TestFaultDetailOfTheWrongUnit(t *testing.T) {
+	defer inject.set(plan{})
+	e := setup(t, "faulty", nil, "")
+	inject.set(plan{serial: "BRX-99999"})
+	rec := e.Run(context.Background(), "BRX-00008")
+	if rec.Verdict != sequencer.Fault || !strings.Contains(rec.Fault, "wrong unit in the fixture") {
+		t.Fatalf("verdict %s, fault %q", rec.Verdict, rec.Fault)
+	}
+	if d := rec.FaultDetail; d == nil || d.Role != "dut" || d.Said != `the unit in it reports serial "BRX-99999"` {
+		t.Errorf("fault detail %+v", d)
+	}
+}
