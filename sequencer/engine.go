@@ -443,7 +443,6 @@ func (e *Engine) runUnit(ctx context.Context, serial, operator string) (rec *Rec
 	log := e.cfg.Log.With().Str("serial", serial).Str("run", rec.RunID).Logger()
 	u := newUnit(e.cfg, rec, live)
 	u.e, u.log = e, log
-	e.emit(Event{Kind: EventUnitStart, Serial: serial, RunID: rec.RunID, Steps: slices.Clone(e.outline), Expected: e.expected})
 	defer func() {
 		if p := recover(); p != nil {
 			log.Error().Str("stack", string(debug.Stack())).Msgf("panic: %v", p)
@@ -483,6 +482,7 @@ func (e *Engine) runUnit(ctx context.Context, serial, operator string) (rec *Rec
 		}
 		rec.Finished = e.clock.Now().UTC()
 	}()
+	e.emit(Event{Kind: EventUnitStart, Serial: serial, RunID: rec.RunID, Steps: slices.Clone(e.outline), Expected: e.expected})
 	err := e.run(ctx, u)
 	var s *stop
 	switch {
