@@ -49,7 +49,9 @@ type Config struct {
 	NewID func(now time.Time) string
 	// Progress, when set, is called with every progress event of a run, on the
 	// engine's goroutine and in order. It must return quickly (copy the event
-	// and hand it on); it never changes what the run records.
+	// and hand it on: the run waits for it) and must not panic (a panic during
+	// the run faults the unit, as any panic does); it never changes what the
+	// run records.
 	Progress func(Event)
 }
 
