@@ -169,6 +169,12 @@ func TestExplainFault(t *testing.T) {
 			"the unit did not keep what was written to it (FIX-BRX200-01 at sim://dut)", "dut: gain trim read back 2049 after writing 2048", "port cable"},
 		{"calibration expired", "meter DMM-0042: calibration expired on 2026-01-01; recalibrate it or fix cal_due in brx200-station.yaml", nil,
 			"the meter (DMM-0042 at tcp://127.0.0.1:5025) is past its calibration due date", "", "recalibrated"},
+		{"wrong unit, with detail", `the unit in the fixture reports serial "BRX-99999" but "BRX-00008" was scanned: wrong unit in the fixture`,
+			&sequencer.FaultDetail{Role: "dut", Asset: "FIX-BRX200-01", Address: "sim://dut", Said: `the unit in it reports serial "BRX-99999"`},
+			"the unit in the fixture is not the one scanned", `the unit in it reports serial "BRX-99999"`, "put that one in"},
+		{"calibration, with detail", "meter DMM-0042: calibration expired on 2026-01-01; recalibrate it or fix cal_due in brx200-station.yaml",
+			&sequencer.FaultDetail{Role: "meter", Asset: "DMM-0042", Address: "tcp://127.0.0.1:5025", Said: "calibration due 2026-01-01"},
+			"the meter (DMM-0042 at tcp://127.0.0.1:5025) is past its calibration due date", "calibration due 2026-01-01", "recalibrated"},
 		{"interlock", `interlock open: dut answered "OPEN" to "LID?", expected "CLOSED"; close the fixture lid`, nil,
 			"the fixture lid is open", "", "close the fixture lid"},
 	}
