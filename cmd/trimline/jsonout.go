@@ -358,14 +358,14 @@ func newUnitOut(rec *sequencer.Record, cert, certDir string) unitOut {
 		Station: rec.Station, Operator: rec.Operator, RunID: rec.RunID, Verdict: string(rec.Verdict),
 		Engineering: rec.Engineering, RetestOf: rec.RetestOf, Certificate: cert,
 		Started: rec.Started, Finished: rec.Finished, Reasons: nonNil(rec.Reasons), Fault: rec.Fault,
-		OperatorReasons: nonNil(sequencer.ForOperator(rec, 0, 0).Reasons),
-		Results:         []resultOut{}, Limits: []limitOut{}, TrimCodes: []trimOut{}}
+		Results: []resultOut{}, Limits: []limitOut{}, TrimCodes: []trimOut{}}
 	if rec.Simulated != nil {
 		u.Simulated = rec.Simulated.Mark
 	}
 	if cert != "" {
 		u.CertificatePDF = filepath.Join(certDir, certificate.FileName(rec, certificate.Options{Number: cert}))
 	}
+	u.OperatorReasons = nonNil(sequencer.ForOperator(rec, 0, 0).Reasons)
 	for _, r := range rec.Results {
 		ro := resultOut{Name: r.Name, Channel: r.Channel, Step: r.Step, Quantity: r.QuantityOf(), Valid: r.Valid, Note: r.Note, Unit: r.Unit, JudgedBy: []judged{}}
 		if st, err := r.StageOf().MarshalText(); err == nil {
