@@ -170,3 +170,48 @@ func TestRetestKey(t *testing.T) {
 		t.Errorf("max_attempts 1: %v", err)
 	}
 }
+
+// Any people: list either loads with every person findable by name and badge,
+// unique and holding only known rights, or is refused; it never panics.
+func FuzzPeople(f *testing.F) {
+	for _, s := range []string{
+		"  - {name: A, badge: \"7\", may: [operate]}\n",
+		"  - {name: A, may: [operate, review], key: k.pub}\n  - {name: B, badge: A, may: [review]}\n",
+		"  - name: A\n    may: [operate]\n    passphrase: \"pbkdf2-sha256$600000$AAAAAAAAAAAAAAAAAAAAAA$AAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAA\"\n",
+		"  - {name: \"\", may: []}\n",
+		"  - [1, 2]\n",
+	} {
+		f.Add(s)
+	}
+	base := demoFile(f, "brx200-station.yaml")
+	base = base[:strings.Index(base, "\npeople:")] + "\npeople:\n"
+	f.Fuzz(func(t *testing.T, people string) {
+		st, err := sequencer.ParseStation("st.yaml", []byte(base+people))
+		if err != nil {
+			return
+		}
+		names, badges := map[string]bool{}, map[string]bool{}
+		for _, p := range st.People {
+			if p.Name == "" || names[p.Name] || p.Badge != "" && badges[p.Badge] || len(p.May) == 0 {
+				t.Fatalf("loaded %+v among %+v", p, st.People)
+			}
+			names[p.Name] = true
+			if p.Badge != "" {
+				badges[p.Badge] = true
+			}
+			for _, r := range p.May {
+				if r != sequencer.RightOperate && r != sequencer.RightReview {
+					t.Fatalf("right %q loaded", r)
+				}
+			}
+		}
+		for _, p := range st.People {
+			if q, ok := st.Person(p.Name); !ok || q.Name != p.Name {
+				t.Fatalf("Person(%q) = %+v %v", p.Name, q, ok)
+			}
+			if q, ok := st.Person(p.Badge); p.Badge != "" && (!ok || q.Name != p.Name) {
+				t.Fatalf("Person(badge %q) = %+v %v, want %s", p.Badge, q, ok, p.Name)
+			}
+		}
+	})
+}
