@@ -268,7 +268,9 @@ func isCodeUnit(u string) bool {
 
 // FaultText is a station fault in plain words: What failed ("the meter
 // (DMM-0042 at tcp://127.0.0.1:5025) stopped answering"), what it Said (an
-// error-queue entry, or what went wrong talking to it), and what to Check.
+// error-queue entry, or what went wrong talking to it), and what to Check,
+// written to follow "check": "its cable and power; that no one else is
+// connected to it".
 type FaultText struct{ What, Said, Check string }
 
 // ExplainFault says what stopped a FAULT (or ABORTED) run, for the operator:
@@ -282,7 +284,7 @@ func ExplainFault(rec *Record) FaultText {
 	switch rec.Verdict {
 	case Aborted:
 		return FaultText{What: "the run was stopped before the unit was finished (no certificate)", Said: rec.Fault,
-			Check: "nothing to fix: the source was switched off; test the unit again when ready"}
+			Check: "nothing: the source was switched off; test the unit again when ready"}
 	case Fault:
 	default:
 		return FaultText{}
@@ -327,16 +329,16 @@ func classifyFault(rec *Record) faultClass {
 	switch {
 	case has("source output off failed"):
 		c.what = "the station could not switch the source output off"
-		c.check = "switch the source's output off by hand before touching the unit, then call the test engineer"
+		c.check = "that the source's output is off (switch it off by hand) before anyone touches the unit; then call the test engineer"
 	case has("interlock open"):
 		c.what, c.fixable = "the fixture lid is open", true
-		c.check = "close the fixture lid"
+		c.check = "that the fixture lid is closed"
 	case has("interlock"):
 		c.what, c.fixable = "the fixture lid switch could not be read", true
 		c.check = "the lid switch's wiring, and the cable and power of " + inst.short
 	case has("calibration expired"):
 		c.what = inst.long + " is past its calibration due date"
-		c.check = "it must be recalibrated (or replaced by a calibrated one) before the station tests units"
+		c.check = "its calibration: it must be recalibrated (or replaced by a calibrated one) before the station tests units"
 	case has("wrong instrument", "identifies as"):
 		c.what = inst.long + " is not the instrument the station file names"
 		c.check = "that the instrument with asset tag " + inst.asset + " is the one connected at " + inst.address
@@ -363,16 +365,16 @@ func classifyFault(rec *Record) faultClass {
 		c.check = "that the unit sits properly in the fixture and its port cable is connected; if the next unit does the same, call the test engineer"
 	case has("safety cap", "safety"):
 		c.what = "a step asked for a level beyond the station's safety limits"
-		c.check = "the sequence or station file needs correcting: nothing was applied beyond the limits"
+		c.check = "the sequence and station files, with the test engineer: nothing was applied beyond the limits"
 	case has("internal error"):
 		c.what = "the station software failed"
-		c.check = "keep the station's log (trimline.log) for the test engineer"
+		c.check = "the station's log (trimline.log), with the test engineer"
 	default:
 		c.what = "the station could not finish the unit"
 		if inst.role != "" {
 			c.what = "the station could not finish the unit: " + inst.long + " failed"
 		}
-		c.check = "what the message says"
+		c.check = "what the fault message says, with the test engineer"
 	}
 	return c
 }

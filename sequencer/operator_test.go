@@ -176,7 +176,7 @@ func TestExplainFault(t *testing.T) {
 			&sequencer.FaultDetail{Role: "meter", Asset: "DMM-0042", Address: "tcp://127.0.0.1:5025", Said: "calibration due 2026-01-01"},
 			"the meter (DMM-0042 at tcp://127.0.0.1:5025) is past its calibration due date", "calibration due 2026-01-01", "recalibrated"},
 		{"interlock", `interlock open: dut answered "OPEN" to "LID?", expected "CLOSED"; close the fixture lid`, nil,
-			"the fixture lid is open", "", "close the fixture lid"},
+			"the fixture lid is open", "", "that the fixture lid is closed"},
 	}
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {

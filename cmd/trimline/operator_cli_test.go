@@ -1,8 +1,11 @@
 package main
 
 import (
+	"regexp"
 	"strings"
 	"testing"
+
+	"trimline/instruments/sim/serve"
 )
 
 // The live line under a failed unit gives the operator's plain reason, not the
@@ -30,5 +33,19 @@ func TestLiveLineSaysWhyInPlainWords(t *testing.T) {
 	if len(u.OperatorReasons) != 2 || !strings.HasPrefix(u.OperatorReasons[0], "offset after trim is −") || !strings.HasSuffix(u.OperatorReasons[0], ", limit ±800 µV") ||
 		len(u.Reasons) != 2 || !strings.Contains(u.Reasons[0], "by more than w = ") {
 		t.Errorf("reasons %q, operator_reasons %q", u.Reasons, u.OperatorReasons)
+	}
+}
+
+// A station fault's live line says, under the message, which instrument failed
+// and what to check, in the operator's words.
+func TestLiveLineExplainsAFault(t *testing.T) {
+	dir, station, sequence, srv := wire(t, "tcp", nil)
+	if err := srv.SetFault("meter", serve.Fault{ErrorAfter: "READ?", ErrorEntry: `-230,"Data corrupt or stale"`}); err != nil {
+		t.Fatal(err)
+	}
+	code, out, errOut := runCLI(t, "run", "--station", station, "--sequence", sequence, "--serial", "BRX-00001", "--out", dir)
+	if code != exitStation || !strings.Contains(out, "FAULT") ||
+		!regexp.MustCompile(`\n\s+↳ the meter \(DMM-0203 at tcp://[0-9.:]+\) reported an error; check its front panel for a message`).MatchString(out) {
+		t.Errorf("exit %d, want 3 with the fault explained\n%s%s", code, out, errOut)
 	}
 }

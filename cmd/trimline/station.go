@@ -233,7 +233,12 @@ func (l levelWriter) WriteLevel(lv zerolog.Level, p []byte) (int, error) {
 func liveLine(i, n int, rec *sequencer.Record, cert string) string {
 	w := len(fmt.Sprint(n))
 	head := fmt.Sprintf("%*d/%d  %-12s %-7s", w, i, n, rec.Serial, rec.Verdict)
-	if rec.Verdict == sequencer.Fault || rec.Verdict == sequencer.Aborted {
+	if rec.Verdict == sequencer.Fault {
+		// What failed and what to check, in the operator's words.
+		f := sequencer.ExplainFault(rec)
+		return head + "  " + rec.Fault + "\n" + strings.Repeat(" ", 2*w+3) + "↳ " + f.What + "; check " + f.Check
+	}
+	if rec.Verdict == sequencer.Aborted {
 		return head + "  " + rec.Fault
 	}
 	var pairs []string
