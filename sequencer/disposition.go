@@ -1,5 +1,7 @@
 package sequencer
 
+import "time"
+
 // Final is the verdict a reviewer's decision gives the unit: PASS for
 // DecisionAccept, FAIL for DecisionReject; ok is false for any other word.
 func (d *Disposition) Final() (v Verdict, ok bool) {
@@ -24,3 +26,8 @@ func (d *Disposition) OnReview() string {
 	}
 	return ""
 }
+
+// NewRunID returns a new run id as the engine makes them (the time, in UTC to
+// the millisecond, and 8 random hex digits): for a record made from another,
+// such as a review decision's.
+func NewRunID(now time.Time) string { return newID(now) }
