@@ -170,6 +170,31 @@ func TestDispose(t *testing.T) {
 	if diffs, err := audit.Replay(ctx, led, rec); err != nil || len(diffs) != 0 {
 		t.Errorf("replay of the decision: %q %v", diffs, err)
 	}
+	// audit verify: the REVIEW certificate is superseded by the decision's, which
+	// is genuine and says who decided.
+	trust, err := signing.TrustDir(filepath.Join(is.CertDir, "keys")) // demoFiles' keys; certificates go to the same folder
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, c := range []struct{ cert, kind, says string }{
+		{certs[0], audit.Superseded, "superseded by " + acc + ": serial BRX-00001 held for REVIEW, was accepted on review by Ada Quillfeather"},
+		{acc, audit.Genuine, `accepted on review by Ada Quillfeather on 2026-12-02 16:30 UTC (key ` + adaKey.ID() + `), replacing the REVIEW certificate ` + certs[0] +
+			`: "offset rechecked on the bench meter: 4 µV"; the reviewer's signature in audit trail entry`},
+		{acc, audit.Genuine, "verifies with key " + adaKey.ID()},
+	} {
+		docs, err := led.DocumentsFor(ctx, c.cert)
+		if err != nil || len(docs) != 1 {
+			t.Fatalf("%s: %v %v", c.cert, docs, err)
+		}
+		pdf, err := os.ReadFile(docs[0].Path)
+		if err != nil {
+			t.Fatal(err)
+		}
+		v, err := audit.Certificate(ctx, led, "ledger.db", docs[0].Path, pdf, trust)
+		if err != nil || v.Kind != c.kind || !strings.Contains(strings.Join(v.Reasons, "\n"), c.says) {
+			t.Errorf("verify %s: %s %q %v, want %s saying %q", c.cert, v.Kind, v.Reasons, err, c.kind, c.says)
+		}
+	}
 	if q, _ := led.ReviewQueue(ctx, "TL1"); len(q) != 1 || q[0].Certificate != certs[1] {
 		t.Errorf("queue after the decision: %+v", q)
 	}
