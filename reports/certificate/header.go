@@ -154,9 +154,7 @@ func (d *doc) identification() {
 	if d.benchTime() {
 		tested += ", simulated-bench time"
 	}
-	if d.decided() != nil {
-		tested += "   (held for review, decided " + fmtTime(r.Disposition.At) + ")"
-	} else if !r.Started.IsZero() && !r.Finished.IsZero() && r.Finished.After(r.Started) {
+	if d.decided() == nil && !r.Started.IsZero() && !r.Finished.IsZero() && r.Finished.After(r.Started) {
 		run := r.Finished.Sub(r.Started)
 		if soak := soakTime(r.Soaks); len(r.Soaks) > 0 && soak <= run {
 			// A soak waits for a chamber: the time the unit was tested is apart.
@@ -203,7 +201,7 @@ func (d *doc) identification() {
 	const boxW, boxH = 54.0, 34.0
 	bx := marginL + contentW - boxW
 	c, note := d.verdictLook()
-	if d.simulated() {
+	if d.simulated() && d.decided() == nil { // a decision was made on the record, not on the bench
 		note += " on a simulated bench"
 	}
 	d.FillRect(bx, top, boxW, boxH, c)
