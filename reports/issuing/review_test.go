@@ -10,10 +10,12 @@ import (
 	"testing"
 	"time"
 
+	"trimline/limits"
 	"trimline/reports/audit"
 	"trimline/reports/issuing"
 	"trimline/reports/ledger"
 	"trimline/reports/signing"
+	"trimline/reports/whatif"
 	"trimline/sequencer"
 )
 
@@ -218,5 +220,11 @@ func TestDispose(t *testing.T) {
 	}
 	if q, _ := led.ReviewQueue(ctx, ""); len(q) != 0 {
 		t.Errorf("queue after both decisions: %+v", q)
+	}
+	// A what-if re-judges each unit once: the decisions repeat their REVIEW
+	// runs' measurements.
+	units, _, err := whatif.Units(ctx, led, whatif.Request{})
+	if err != nil || len(units) != 2 || units[0].OldVerdict != limits.VerdictReview || units[1].OldVerdict != limits.VerdictReview {
+		t.Errorf("what-if units after the decisions: %d %v", len(units), err)
 	}
 }
