@@ -4,7 +4,6 @@ import (
 	"bytes"
 	"context"
 	"encoding/base64"
-	"encoding/json"
 	"errors"
 	"fmt"
 	"slices"
@@ -61,10 +60,13 @@ func (is *Issuer) Dispose(ctx context.Context, certNumber string, d sequencer.Di
 // OfCertificate and Tested filled in here) and RetestOf the REVIEW run, so that
 // the ledger supersedes the REVIEW certificate as it stores it. It is recorded
 // as Record does (signed by the station key, chained, certificate published),
-// with the reviewer as the audit trail's actor, and then an audit trail entry
-// (ledger.ActionReviewAccept or ActionReviewReject, subject: certNumber, detail:
-// a ledger.ReviewDetail with the reviewer's signature when signed) is appended.
-// A failure after the record was stored returns the new number with the error.
+// with the reviewer as the audit trail's actor and, in the same transaction, an
+// audit trail entry of the decision (ledger.ActionReviewAccept or
+// ActionReviewReject, subject: certNumber, detail: a ledger.ReviewDetail with
+// the reviewer's signature when signed). Two decisions on one unit cannot both
+// be stored: the second is refused (ErrNotHeld) in that transaction. A failure
+// to publish after the record was stored returns the new number with the error
+// (Repair publishes it at the next start).
 func (is *Issuer) DisposeSigned(ctx context.Context, certNumber string, d sequencer.Disposition, key *signing.Key) (newCert string, err error) {
 	final, ok := d.Final()
 	if !ok {
@@ -106,29 +108,16 @@ func (is *Issuer) DisposeSigned(ctx context.Context, certNumber string, d sequen
 	rec.Started, rec.Finished = d.At, d.At
 	rec.Verdict, rec.RetestOf, rec.Disposition = final, held.RunID, &d
 	rec.Notes = nil // what the operator had to know once the test was over
-	cert, err := is.record(ctx, &rec, d.Reviewer)
-	if cert == "" {
-		if err == nil {
-			err = fmt.Errorf("review of %s: the ledger gave the decision no certificate", certNumber)
-		}
-		return "", err
-	}
-	detail := ledger.ReviewDetail{Certificate: cert, RunID: rec.RunID, OfRunID: held.RunID, Reason: d.Reason, Authenticated: d.Authenticated}
+	detail := ledger.ReviewDetail{Reason: d.Reason, Authenticated: d.Authenticated}
 	if key != nil {
 		detail.SignedAt, detail.KeyID = d.At.Format(time.RFC3339Nano), key.ID()
 		detail.PublicKey = base64.StdEncoding.EncodeToString(key.Public)
 		detail.Signature = base64.StdEncoding.EncodeToString(key.Sign(signing.ReviewMessage(certNumber, d.Decision, d.Reviewer, d.Reason, d.At)))
 	}
-	raw, jerr := json.Marshal(detail)
-	if jerr != nil {
-		return cert, errors.Join(err, jerr)
-	}
-	action := ledger.ActionReviewAccept
-	if d.Decision == sequencer.DecisionReject {
-		action = ledger.ActionReviewReject
-	}
-	if aerr := is.Ledger.Audit(ctx, d.Reviewer, action, certNumber, string(raw)); aerr != nil {
-		return cert, errors.Join(err, aerr)
+	cert, err := is.record(ctx, &rec, d.Reviewer, &detail)
+	if errors.Is(err, ledger.ErrDecided) {
+		// Another decision or a retest came first, after held looked.
+		return "", fmt.Errorf("review of %s: %w: %w", certNumber, ErrNotHeld, err)
 	}
 	return cert, err
 }
