@@ -158,7 +158,7 @@ func TestReviewCommands(t *testing.T) {
 	}
 	for _, sn := range []string{"BRX-00001", "BRX-00002"} {
 		code, out, errOut := runCLI(t, "audit", "replay", sn, "--keys", keys, "--ledger", filepath.Join(dir, "ledger.db"))
-		if code != exitPass || strings.Count(out, "reproduced exactly") != 2 {
+		if code != exitPass || strings.Count(out, "reproduced exactly") != 2 || !strings.Contains(out, "on review by Ada Quillfeather, held as TL1-00000") {
 			t.Errorf("replay %s: exit %d\n%s%s", sn, code, out, errOut)
 		}
 	}
