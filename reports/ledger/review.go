@@ -17,7 +17,9 @@ var ErrDecided = errors.New("ledger: certificate no longer current")
 
 // The audit trail's actions of a review decision (issuing.Issuer.Dispose). The
 // entry's actor is the reviewer, its subject the certificate of the REVIEW run
-// decided on, its detail a ReviewDetail.
+// decided on, its detail a ReviewDetail. The ledger writes them itself, with the
+// decision's record (RecordOptions.Review); Audit refuses them, and VerifyChain
+// checks each against the runs and the supersede entry of the decision.
 const (
 	ActionReviewAccept = "review accept"
 	ActionReviewReject = "review reject"

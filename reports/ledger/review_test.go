@@ -3,7 +3,9 @@ package ledger_test
 import (
 	"errors"
 	"slices"
+	"strings"
 	"testing"
+	"time"
 
 	"trimline/reports/ledger"
 	"trimline/sequencer"
@@ -129,5 +131,49 @@ func TestReviewDecisionStoredWithItsRecord(t *testing.T) {
 	}
 	if again, _ := l.Counts(ctx); again["runs"] != after["runs"] || again["audit_trail"] != after["audit_trail"] {
 		t.Errorf("the refused second decision stored something: %v, then %v", after, again)
+	}
+}
+
+// Only the ledger writes review decision entries, and audit ledger checks
+// each: a forged one, naming a decision the ledger never stored, breaks the
+// chain check.
+func TestReviewEntriesAreChecked(t *testing.T) {
+	l, path := openLedger(t)
+	shape := recordShape{sweeps: 1, points: 2, readings: 1}
+	held := makeRecord("r1", "SN-1", sequencer.Review, shape)
+	c1 := mustRecord(t, l, held, "EOL")
+	other := makeRecord("r2", "SN-2", sequencer.Review, shape)
+	c2 := mustRecord(t, l, other, "EOL")
+	d := makeRecord("d1", "SN-1", sequencer.Pass, shape)
+	d.RetestOf = "r1"
+	d.Disposition = &sequencer.Disposition{Of: "r1", OfCertificate: c1, Decision: sequencer.DecisionAccept, Reviewer: "Ada Quillfeather", Reason: "rechecked"}
+	c3, err := l.RecordRunWith(ctx, d, ledger.RecordOptions{Prefix: "EOL", Review: &ledger.ReviewDetail{Reason: "rechecked"}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if rep, err := l.VerifyChain(ctx, "", ledger.ChainOptions{}); err != nil || !rep.OK {
+		t.Fatalf("an honest decision: %+v %v", rep, err)
+	}
+	if err := l.Audit(ctx, "Mallory", ledger.ActionReviewAccept, c2, `{}`); !errors.Is(err, ledger.ErrInvalid) {
+		t.Errorf("Audit(review accept) = %v, want ErrInvalid", err)
+	}
+	// Appended behind the ledger's back, with a hash that chains: a decision on
+	// c2 "by" c3, which superseded c1, not c2.
+	trail, err := l.AuditTrail(ctx)
+	if err != nil {
+		t.Fatal(err)
+	}
+	last := trail[len(trail)-1]
+	seq, at := last.Seq+1, time.Now().UTC().Format("2006-01-02T15:04:05.000000000Z")
+	detail := `{"certificate":"` + c3 + `","run_id":"d1","of_run_id":"r2","reason":"forged"}`
+	db := rawDB(t, path)
+	if _, err := db.Exec(`INSERT INTO audit_trail (seq, at, actor, action, subject, detail, prev_hash, hash) VALUES (?, ?, ?, ?, ?, ?, ?, ?)`,
+		seq, at, "Mallory", ledger.ActionReviewAccept, c2, detail, last.Hash,
+		ledger.AuditHash(last.Hash, seq, at, "Mallory", ledger.ActionReviewAccept, c2, detail)); err != nil {
+		t.Fatal(err)
+	}
+	rep, err := l.VerifyChain(ctx, "", ledger.ChainOptions{})
+	if err != nil || rep.OK || !strings.Contains(rep.Reason, "is not a certified retest of run r2") {
+		t.Errorf("a forged decision: %+v %v", rep, err)
 	}
 }
