@@ -6,7 +6,6 @@ import (
 	"encoding/base64"
 	"errors"
 	"fmt"
-	"slices"
 	"strings"
 	"time"
 	"unicode"
@@ -159,7 +158,7 @@ func (is *Issuer) held(ctx context.Context, number string) (*sequencer.Record, e
 }
 
 // reviewer returns the person of the station's people whose badge, else name,
-// is id exactly, when they hold the review right.
+// is id (sequencer.Station.Person), when they hold the review right.
 func (is *Issuer) reviewer(id string) (sequencer.Person, error) {
 	where := is.Station.File.Name
 	if where == "" {
@@ -168,16 +167,11 @@ func (is *Issuer) reviewer(id string) (sequencer.Person, error) {
 	if strings.TrimSpace(id) == "" {
 		return sequencer.Person{}, fmt.Errorf("no reviewer named: %w", ErrNotReviewer)
 	}
-	people := is.Station.People
-	i := slices.IndexFunc(people, func(p sequencer.Person) bool { return p.Badge != "" && p.Badge == id })
-	if i < 0 {
-		i = slices.IndexFunc(people, func(p sequencer.Person) bool { return p.Name == id })
-	}
-	if i < 0 {
+	p, ok := is.Station.Person(id)
+	if !ok {
 		return sequencer.Person{}, fmt.Errorf("%s lists nobody named %q among its people: %w", where, id, ErrNotReviewer)
 	}
-	p := people[i]
-	if !slices.Contains(p.May, sequencer.RightReview) {
+	if !p.Can(sequencer.RightReview) {
 		return sequencer.Person{}, fmt.Errorf("%s may not decide on units held for REVIEW: %s does not give them %q (may: %s): %w",
 			p.Name, where, sequencer.RightReview, strings.Join(p.May, ", "), ErrNotReviewer)
 	}
