@@ -87,7 +87,7 @@ func ForOperator(rec *Record, attempt, maxAttempts int) OperatorView {
 			}
 		}
 		switch {
-		case !retestable:
+		case !retestable, rec.Disposition != nil: // a reviewer's rejection is final
 		case maxAttempts <= 0:
 			v.Action = fmt.Sprintf("%s (attempt %d)", ActionRetest, attempt+1)
 		case attempt < maxAttempts:

@@ -124,6 +124,9 @@ unit takes a few seconds, as it would on a real bench.`,
 		}
 		t, err := runBatch(ctx, e, batch{stationPath: station, sequencePath: sequence, serials: serials, out: *out,
 			operator: *operator, ambient: *ambient, retest: *retest})
+		if errors.Is(err, issuing.ErrAttemptsUsed) {
+			return fmt.Errorf("%w\nThe demo folder %s has run these units as often as the sequence allows (retest.max_attempts): --out a new folder", err, *out)
+		}
 		if errors.Is(err, issuing.ErrTestedBefore) {
 			return fmt.Errorf("%w\nThe demo folder %s already holds these units: give --retest to run them again, or --out a new folder", err, *out)
 		}
