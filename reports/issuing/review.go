@@ -43,7 +43,8 @@ func (is *Issuer) Dispose(ctx context.Context, certNumber string, d sequencer.Di
 // certificate's number.
 //
 // The certificate must be the current one (not superseded, not voided) of a
-// production run of is.Station held for REVIEW (else ErrNotHeld, saying why).
+// production run of is.Station held for REVIEW, and is a production issuer
+// (not Engineering); else ErrNotHeld, saying why.
 // d.Decision is sequencer.DecisionAccept or DecisionReject and d.Reason a
 // reason in words without control characters (else ErrBadDecision).
 // d.Reviewer is the badge or name of a person of the station's people with the
@@ -143,6 +144,10 @@ func (is *Issuer) held(ctx context.Context, number string) (*sequencer.Record, e
 		return nil, fmt.Errorf("review of %s: serial %s is %s%s, not held for REVIEW: %w", number, rec.Serial, rec.Verdict, how, ErrNotHeld)
 	case rec.Engineering:
 		return nil, fmt.Errorf("review of %s: an engineering run never ships: there is nothing to decide: %w", number, ErrNotHeld)
+	case is.Engineering:
+		// Its certificates come from the engineering series: a production unit's
+		// final certificate must not.
+		return nil, fmt.Errorf("review of %s: an engineering session decides on no production unit: decide from a production session: %w", number, ErrNotHeld)
 	}
 	st, err := is.Ledger.CertificateStatus(ctx, number)
 	if err != nil {

@@ -121,8 +121,11 @@ func TestDispose(t *testing.T) {
 		{"operator", certs[0], with(func(d *sequencer.Disposition) { d.Reviewer = "Otto Benchley" }), nil, issuing.ErrNotReviewer, "may not decide"},
 		{"station's key", certs[0], accept, is.Key, issuing.ErrNotReviewer, "is not Ada Quillfeather's"},
 		{"unknown certificate", "TL1-000099", accept, nil, issuing.ErrNotHeld, "no certificate with that number"},
+		{"engineering session", certs[0], accept, nil, issuing.ErrNotHeld, "an engineering session decides on no production unit"},
 	} {
+		is.Engineering = c.name == "engineering session"
 		_, err := is.DisposeSigned(ctx, c.cert, c.d, c.key)
+		is.Engineering = false
 		if !errors.Is(err, c.want) || !strings.Contains(err.Error(), c.says) {
 			t.Errorf("%s: %v, want %v saying %q", c.name, err, c.want, c.says)
 		}
