@@ -332,7 +332,8 @@ type RecordOptions struct {
 	// transaction with Certificate, RunID and OfRunID filled in. The decision is
 	// refused (ErrInvalid) unless it is a certified retest of a REVIEW run whose
 	// certificate is the one decided, with the decision's verdict; and
-	// (ErrDecided) when that certificate is no longer current.
+	// (ErrDecided) when that certificate is no longer current. A record with a
+	// decision and no Review, or a Review without a decision, is ErrInvalid.
 	Review *ReviewDetail
 }
 
@@ -379,6 +380,9 @@ type RecordOptions struct {
 func (l *Ledger) RecordRunWith(ctx context.Context, rec *sequencer.Record, opt RecordOptions) (certNumber string, err error) {
 	if err := validateRecord(rec); err != nil {
 		return "", err
+	}
+	if (rec.Disposition != nil) != (opt.Review != nil) {
+		return "", fmt.Errorf("ledger: run %s: a review decision is stored with its audit trail entry (RecordOptions.Review), and only one: %w", rec.RunID, ErrInvalid)
 	}
 	wantCert := certified(rec.Verdict)
 	if wantCert {

@@ -64,8 +64,13 @@ func TestReviewQueue(t *testing.T) {
 	}
 	// A review decision on a1 is a certified retest of it: a1 leaves the queue.
 	d := rec("a3", "SN-1", "EOL-1", sequencer.Pass, "a1")
-	d.Disposition = &sequencer.Disposition{Of: "a1", Decision: sequencer.DecisionAccept, Reviewer: "R", Reason: "ok"}
-	mustRecord(t, l, d, "EOL")
+	d.Disposition = &sequencer.Disposition{Of: "a1", OfCertificate: "EOL-000001", Decision: sequencer.DecisionAccept, Reviewer: "R", Reason: "ok"}
+	if _, err := l.RecordRun(ctx, d, "EOL"); !errors.Is(err, ledger.ErrInvalid) {
+		t.Errorf("a decision without its audit entry: %v, want ErrInvalid", err)
+	}
+	if _, err := l.RecordRunWith(ctx, d, ledger.RecordOptions{Prefix: "EOL", Review: &ledger.ReviewDetail{Reason: "ok"}}); err != nil {
+		t.Fatal(err)
+	}
 	if got := queue("EOL-1"); !slices.Equal(got, []string{"g1"}) {
 		t.Errorf("after a decision on a1: %q, want [g1]", got)
 	}
