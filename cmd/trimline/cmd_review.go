@@ -64,7 +64,8 @@ func newReviewListCmd() *command {
 		Short:     "list the units of the station held for REVIEW, oldest first",
 		Long: `Lists the units of the station waiting for a reviewer's decision: the runs held
 for REVIEW whose certificate is still current (not superseded by a retest or a
-decision, not voided), oldest first, with the first reason each was held for.
+decision, not voided), oldest first, with the first reason each was held for in
+plain words (the decision statements are on its certificate).
 Engineering runs are not listed: they never ship.`,
 	}
 	var f reviewFlags
@@ -94,13 +95,17 @@ Engineering runs are not listed: they never ship.`,
 		w := tabwriter.NewWriter(e.stdout, 0, 0, 2, ' ', 0)
 		fmt.Fprintln(w, "  CERTIFICATE\tSERIAL\tPRODUCT\tTESTED\tHELD FOR")
 		for _, r := range queue {
-			why := ""
-			if rec, err := led.Run(ctx, r.RunID); err != nil {
+			// The plain sentence of each held limit, as the operator read it;
+			// the decision statements are on the certificate.
+			rec, err := led.Run(ctx, r.RunID)
+			if err != nil {
 				return err
-			} else if len(rec.Reasons) > 0 {
-				why = rec.Reasons[0]
-				if len(rec.Reasons) > 1 {
-					why += fmt.Sprintf(" (+%d more)", len(rec.Reasons)-1)
+			}
+			why := ""
+			if reasons := sequencer.ForOperator(rec, 0, 0).Reasons; len(reasons) > 0 {
+				why = reasons[0]
+				if len(reasons) > 1 {
+					why += fmt.Sprintf(" (+%d more)", len(reasons)-1)
 				}
 			}
 			fmt.Fprintf(w, "  %s\t%s\t%s\t%s\t%s\n", r.Certificate, r.Serial, r.Product, r.Finished.UTC().Format("2006-01-02 15:04 UTC"), why)

@@ -5,6 +5,7 @@ import (
 	"context"
 	"os"
 	"path/filepath"
+	"regexp"
 	"strings"
 	"testing"
 	"time"
@@ -66,7 +67,7 @@ func TestReviewCommands(t *testing.T) {
 	words := strings.Join(strings.Fields(out), " ")
 	if code != exitPass || !strings.Contains(out, "2 unit(s) of station TL1 held for review") ||
 		!strings.Contains(words, "TL1-000001 BRX-00001 BRX-200") || !strings.Contains(words, "TL1-000002 BRX-00002 BRX-200") ||
-		!strings.Contains(out, `limit "offset after trim"`) {
+		!regexp.MustCompile(`offset after trim is −?\d+ µV, limit −800 … \+20 µV`).MatchString(out) {
 		t.Fatalf("review list: exit %d\n%s%s", code, out, errOut)
 	}
 
