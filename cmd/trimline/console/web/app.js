@@ -68,6 +68,8 @@
   function scanError(msg) {
     text("scan-error", msg);
     show($("scan-error"), !!msg);
+    // A refused scan is not the last unit's verdict: that one fades.
+    document.body.classList.toggle("refused", !!msg);
   }
 
   // --- scan, retest ---
@@ -329,7 +331,7 @@
     show($("verdict"), !running && !!s.verdict);
     if (s.unit) {
       text("prog-serial", s.unit.serial + (s.unit.retest ? " (retest, attempt " + s.unit.attempt + ")" : ""));
-      text("step-name", s.unit.step_name || "opening the bench…");
+      text("step-name", s.unit.step_name || "starting…");
       text("point-text", s.unit.point_text);
       text("expected", s.unit.expected_ms > 0 ? fmtClock(s.unit.expected_ms) : "—");
       renderSteps(s.unit.steps, s.unit.step);
