@@ -153,6 +153,11 @@ func (is *Issuer) CheckRetests(ctx context.Context, serials []string, retest boo
 // retest may run at all; Record links whatever ran, so that a serial never holds
 // two current certificates.
 func (is *Issuer) Record(ctx context.Context, rec *sequencer.Record) (string, error) {
+	return is.record(ctx, rec, rec.Operator)
+}
+
+// record is Record with actor as the audit trail's actor of the run's entries.
+func (is *Issuer) record(ctx context.Context, rec *sequencer.Record, actor string) (string, error) {
 	if rec.RetestOf == "" && rec.Serial != "" {
 		earlier, ok, err := is.Ledger.LastMeasuredRun(ctx, rec.Serial, rec.Engineering)
 		if err != nil {
@@ -165,7 +170,7 @@ func (is *Issuer) Record(ctx context.Context, rec *sequencer.Record) (string, er
 	var keyID string
 	var sig []byte
 	st, seq := is.Station, is.Sequence
-	opt := ledger.RecordOptions{Prefix: st.CertificatePrefix, Actor: rec.Operator, Files: map[string][]byte{}}
+	opt := ledger.RecordOptions{Prefix: st.CertificatePrefix, Actor: actor, Files: map[string][]byte{}}
 	for _, f := range []struct {
 		ref sequencer.FileRef
 		raw []byte
