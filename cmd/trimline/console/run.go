@@ -375,7 +375,7 @@ func (s *Server) review(w http.ResponseWriter, r *http.Request, se *session) {
 		return
 	}
 	d := sequencer.Disposition{Decision: decision, Reviewer: se.name, Reason: reason, At: time.Now().UTC(), Authenticated: se.authenticated}
-	newCert, err := dispose(r.Context(), s.shift.Issuer, cert, d)
+	newCert, err := s.shift.Issuer.Dispose(r.Context(), cert, d)
 	if err != nil {
 		s.reply(w, r, http.StatusConflict, answer{Error: "not recorded: " + err.Error()})
 		return

@@ -11,14 +11,12 @@ import (
 	"crypto/sha256"
 	"crypto/subtle"
 	"encoding/base64"
-	"errors"
 	"fmt"
 	"slices"
 	"strconv"
 	"strings"
 
 	"trimline/reports/issuing"
-	"trimline/reports/ledger"
 	"trimline/sequencer"
 )
 
@@ -133,39 +131,4 @@ func attempts(ctx context.Context, is *issuing.Issuer, serial string) (int, erro
 		}
 	}
 	return n, nil
-}
-
-// reviewQueue is the REVIEW runs of station whose certificate is current,
-// oldest first.
-// pending: helper B (ledger.Ledger.ReviewQueue)
-func reviewQueue(ctx context.Context, l *ledger.Ledger, station string) ([]ledger.RunSummary, error) {
-	runs, err := l.RecentRuns(ctx, 0)
-	if err != nil {
-		return nil, err
-	}
-	var q []ledger.RunSummary
-	for i := len(runs) - 1; i >= 0; i-- {
-		r := runs[i]
-		if r.Verdict != sequencer.Review || r.Certificate == "" || (station != "" && r.Station != station) {
-			continue
-		}
-		s, err := l.CertificateStatus(ctx, r.Certificate)
-		if err != nil {
-			return nil, err
-		}
-		if s.Current() {
-			q = append(q, r)
-		}
-	}
-	return q, nil
-}
-
-// errDisposePending is what dispose answers until review decisions can be
-// recorded.
-var errDisposePending = errors.New("review decisions cannot be recorded by this build yet")
-
-// dispose records a reviewer's decision on a REVIEW certificate.
-// pending: helper B (issuing.Issuer.Dispose)
-func dispose(ctx context.Context, is *issuing.Issuer, cert string, d sequencer.Disposition) (string, error) {
-	return "", errDisposePending
 }

@@ -104,7 +104,7 @@ func (s *Server) refreshStatus(ctx context.Context) {
 
 // refreshReview reads the units held for review at this station.
 func (s *Server) refreshReview(ctx context.Context) {
-	q, err := reviewQueue(ctx, s.shift.Ledger, s.shift.Station.ID)
+	q, err := s.shift.Ledger.ReviewQueue(ctx, s.shift.Station.ID)
 	rows := []reviewRow{}
 	if err == nil {
 		for _, r := range q {
