@@ -286,11 +286,18 @@
       c.setAttribute("r", "6");
       g.append(c);
     }
-    text("plot-top", "+" + fmtNum(ymax));
-    text("plot-bottom", "−" + fmtNum(ymax));
-    text("plot-unit", "error, " + (plotUnit === "count" ? "counts" : plotUnit || "V"));
+    const u = plotUnit === "count" ? "counts" : plotUnit || "V";
+    text("plot-top", "+" + fmtSI(ymax, u));
+    text("plot-bottom", "−" + fmtSI(ymax, u));
+    text("plot-unit", "error at each point");
   }
-  function fmtNum(v) { return v >= 0.1 ? v.toPrecision(3) : v.toExponential(1); }
+  // fmtSI writes a magnitude with the SI prefix that suits it: "12.4 mV".
+  function fmtSI(v, unit) {
+    if (unit === "counts") return v.toPrecision(3) + " counts";
+    const p = [[1, ""], [1e-3, "m"], [1e-6, "µ"], [1e-9, "n"]];
+    for (const [f, s] of p) if (v >= f) return (v / f).toPrecision(3) + " " + s + unit;
+    return (v / 1e-9).toPrecision(3) + " n" + unit;
+  }
 
   function renderVerdict(v) {
     const box = $("verdict");
@@ -298,7 +305,9 @@
     box.className = "panel verdict v-" + (shapeOf[v.verdict] || "aborted");
     text("verdict-word", v.word || v.verdict);
     text("v-serial", v.serial);
-    text("reason", (v.reasons || []).join("\n"));
+    // The worst reasons first; the rest are counted (the statement has all).
+    const rs = v.reasons || [];
+    text("reason", rs.slice(0, 3).join("\n") + (rs.length > 3 ? "\n(+" + (rs.length - 3) + " more)" : ""));
     show($("reason"), (v.reasons || []).length > 0);
     text("action", v.action);
     const notes = $("v-notes");
