@@ -127,10 +127,12 @@
       show($("clear-error"), false);
     }
   });
-  document.querySelector("form[action='/signout']").addEventListener("submit", async (ev) => {
-    ev.preventDefault();
-    await post("/signout", {});
-  });
+  for (const f of document.querySelectorAll("form[action='/signout']")) {
+    f.addEventListener("submit", async (ev) => {
+      ev.preventDefault();
+      await post("/signout", {});
+    });
+  }
 
   // --- review ---
   const reviewBox = $("review");
