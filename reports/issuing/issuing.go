@@ -115,9 +115,14 @@ func (t TestedBefore) Unwrap() []error {
 // CheckRetests refuses, before a batch starts, every serial that already has a
 // measured run (PASS, FAIL or REVIEW; engineering runs counted among engineering
 // runs only) and every serial given twice, unless retest is true. The error is a
-// TestedBefore listing every refused serial; nil when all may run. A ledger
-// failure is returned as it is.
+// TestedBefore listing every refused serial; nil when all may run. Before that,
+// and whatever retest says, a serial whose measured runs have reached the
+// sequence's retest.max_attempts is refused with an *AttemptsUsedError
+// (attempts.go). A ledger failure is returned as it is.
 func (is *Issuer) CheckRetests(ctx context.Context, serials []string, retest bool) error {
+	if err := is.attemptsUsed(ctx, serials); err != nil {
+		return err
+	}
 	if retest {
 		return nil
 	}
