@@ -17,6 +17,8 @@ import (
 	"time"
 
 	"trimline/instruments/sim/serve"
+	"trimline/reports/ledger"
+	releasepkg "trimline/reports/release"
 	"trimline/reports/signing"
 	"trimline/sequencer"
 	"trimline/sequences"
@@ -26,7 +28,7 @@ import (
 // a year from now, the station's signing key made) and returns the station
 // and sequence paths. The files are not released: the tests run engineering
 // shifts.
-func unitDemo(t *testing.T) (dir, station, sequence string) {
+func unitDemo(t *testing.T, edit ...func(string) string) (dir, station, sequence string) {
 	t.Helper()
 	p, err := sequences.Find(sequences.Default)
 	if err != nil {
@@ -41,6 +43,9 @@ func unitDemo(t *testing.T) (dir, station, sequence string) {
 		}
 		if name == p.Station {
 			data = due.ReplaceAll(data, []byte("${1}"+time.Now().AddDate(1, 0, 0).Format("2006-01-02")))
+			for _, e := range edit {
+				data = []byte(e(string(data)))
+			}
 		}
 		if err := os.WriteFile(filepath.Join(dir, name), data, 0o644); err != nil {
 			t.Fatal(err)
@@ -148,9 +153,9 @@ func (c *client) settled(timeout time.Duration) state {
 	}
 }
 
-func (c *client) signIn(name string) {
+func (c *client) signIn(id, name string) {
 	c.t.Helper()
-	if code, a := c.post("/signin", url.Values{"badge": {name}}); code != http.StatusOK || !a.OK {
+	if code, a := c.post("/signin", url.Values{"badge": {id}}); code != http.StatusOK || !a.OK {
 		c.t.Fatalf("sign in: %d %+v", code, a)
 	}
 	if !strings.Contains(c.page(), `id="operator">`+name+`<`) {
@@ -177,7 +182,7 @@ func TestShiftOnTheSimulatedClock(t *testing.T) {
 	if code, _ := c.post("/scan", url.Values{"serial": {"BRX-00002"}}); code != http.StatusForbidden {
 		t.Fatalf("a scan before sign-in answered %d, want 403", code)
 	}
-	c.signIn("Tess Okafor")
+	c.signIn("B-1042", "Ada Quillfeather")
 
 	if code, a := c.post("/scan", url.Values{"serial": {"BRX-00002"}}); code != http.StatusOK || !a.OK {
 		t.Fatalf("scan: %d %+v", code, a)
@@ -243,7 +248,7 @@ func TestShiftOnTheSimulatedClock(t *testing.T) {
 	// Every run records the signed-in person as its operator.
 	runs, _ := led.Runs(ctx, "BRX-00009")
 	rec, err := led.Run(ctx, runs[0].RunID)
-	if err != nil || rec.Operator != "Tess Okafor" {
+	if err != nil || rec.Operator != "Ada Quillfeather" {
 		t.Fatalf("operator %q, %v", rec.Operator, err)
 	}
 }
@@ -264,7 +269,7 @@ func TestFaultLocksUntilCleared(t *testing.T) {
 	}
 	defer srv.Close()
 	c := newClient(t, srv.Handler())
-	c.signIn("Tess Okafor")
+	c.signIn("B-1042", "Ada Quillfeather")
 	if err := srv.Bench().SetFault("meter", serve.Fault{NoReply: true}); err != nil {
 		t.Fatal(err)
 	}
@@ -289,7 +294,7 @@ func TestFaultLocksUntilCleared(t *testing.T) {
 	}
 	found := false
 	for _, e := range trail {
-		found = found || (e.Action == "clear station fault" && e.Actor == "Tess Okafor" && strings.Contains(e.Detail, "meter cable reseated"))
+		found = found || (e.Action == "clear station fault" && e.Actor == "Ada Quillfeather" && strings.Contains(e.Detail, "meter cable reseated"))
 	}
 	if !found {
 		t.Fatal("the clearing note is not in the audit trail")
@@ -301,5 +306,116 @@ func TestFaultLocksUntilCleared(t *testing.T) {
 	}
 	if s.Counters.Faults != 1 || s.Counters.Passed != 1 {
 		t.Fatalf("counters %+v", s.Counters)
+	}
+}
+
+// releaseFiles signs the demo sequence and limit files as released by a demo
+// quality engineer whom the station's release_keys trust, as `trimline demo`
+// does, so that the station runs production (not engineering) units.
+func releaseFiles(t *testing.T, dir, station, sequence string) {
+	t.Helper()
+	ctx := context.Background()
+	st, err := sequencer.LoadStation(station)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if _, _, err := signing.Init(filepath.Join(dir, "keys", "approvers"), "qe"); err != nil {
+		t.Fatal(err)
+	}
+	trustText := "trust:\n  stations:\n    - {id: " + st.ID + ", public_key: " + st.ID + ".pub}\n" +
+		"  approvers:\n    - {name: Demo Quality Engineer, public_key: approvers/qe.pub, may: [release]}\n"
+	if err := os.WriteFile(filepath.Join(dir, "keys", "trust.yaml"), []byte(trustText), 0o600); err != nil {
+		t.Fatal(err)
+	}
+	trust, err := releasepkg.Approvers(filepath.Join(dir, "keys", "trust.yaml"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	key, err := signing.Load(filepath.Join(dir, "keys", "approvers", "qe.key"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	seq, err := sequencer.LoadSequence(sequence)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := os.MkdirAll(filepath.Join(dir, "out"), 0o755); err != nil {
+		t.Fatal(err)
+	}
+	led, err := ledger.Open(ctx, filepath.Join(dir, "out", "ledger.db"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer led.Close()
+	for _, f := range []string{sequence, seq.Limits.File} {
+		data, err := os.ReadFile(f)
+		if err != nil {
+			t.Fatal(err)
+		}
+		req := releasepkg.Request{Key: key, Trust: trust, Decision: releasepkg.Approve, Ranges: sequencer.PhysicalRanges(seq), Catalog: seq.Catalog()}
+		if _, err := releasepkg.Record(ctx, led, filepath.Base(f), sequencer.FileKind(data), data, req); err != nil {
+			t.Fatalf("release %s: %v", f, err)
+		}
+	}
+}
+
+// TestReviewDecision holds a unit for REVIEW (a noisy fixture puts its output
+// noise in the guard band of its limit), shows it in the queue of a reviewer
+// only, and records the reviewer's decision: the certificate is reissued PASS
+// and the REVIEW certificate superseded.
+func TestReviewDecision(t *testing.T) {
+	seed := regexp.MustCompile(`(?m)^(\s*)seed:\s*"\d+"`)
+	dir, station, sequence := unitDemo(t, func(s string) string {
+		return seed.ReplaceAllString(s, "${1}seed: \"8\"\n${1}noise: 50 uV")
+	})
+	releaseFiles(t, dir, station, sequence)
+	ctx := context.Background()
+	srv, err := New(ctx, Options{StationPath: station, SequencePath: sequence, Out: filepath.Join(dir, "out")})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer srv.Close()
+	if s := srv.snapshot(); !strings.Contains(string(s), `"key":"files","state":"ok"`) {
+		t.Fatalf("released files are not ok in the status: %s", s)
+	}
+	op := newClient(t, srv.Handler())
+	op.signIn("B-1042", "Ada Quillfeather")
+	op.post("/scan", url.Values{"serial": {"BRX-00002"}})
+	s := op.settled(30 * time.Second)
+	if s.Verdict == nil || s.Verdict.Verdict != "REVIEW" || s.Verdict.Cert == "" {
+		t.Fatalf("BRX-00002 on a noisy fixture: %+v", s.Verdict)
+	}
+	held := s.Verdict.Cert
+	if len(s.Review) != 1 || s.Review[0].Cert != held {
+		t.Fatalf("review queue %+v, want %s", s.Review, held)
+	}
+	if strings.Contains(op.page(), `id="review"`) {
+		t.Fatal("an operator without the review right sees the review queue")
+	}
+	if code, _ := op.post("/review/"+held, url.Values{"decision": {"accept"}, "reason": {"noise within the datasheet"}}); code != http.StatusForbidden {
+		t.Fatalf("an operator's decision answered %d, want 403", code)
+	}
+	rv := newClient(t, srv.Handler())
+	rv.signIn("B-2077", "Tobias Wrenhollow")
+	if !strings.Contains(rv.page(), `id="review"`) {
+		t.Fatal("a reviewer does not see the review queue")
+	}
+	if code, _ := rv.post("/review/"+held, url.Values{"decision": {"accept"}, "reason": {""}}); code != http.StatusBadRequest {
+		t.Fatalf("a decision without a reason answered %d, want 400", code)
+	}
+	code, a := rv.post("/review/"+held, url.Values{"decision": {"accept"}, "reason": {"noise within the datasheet"}})
+	if code != http.StatusOK || !a.OK {
+		t.Fatalf("accept: %d %+v", code, a)
+	}
+	if s := rv.state(); len(s.Review) != 0 {
+		t.Fatalf("the queue still holds %+v", s.Review)
+	}
+	st, err := srv.shift.Ledger.CertificateStatus(ctx, held)
+	if err != nil || !st.Superseded {
+		t.Fatalf("REVIEW certificate %s after the decision: %+v %v", held, st, err)
+	}
+	rec, meta, err := srv.shift.Ledger.RunByCertificate(ctx, st.SupersededBy)
+	if err != nil || rec.Verdict != "PASS" || rec.Disposition == nil || rec.Disposition.Reviewer != "Tobias Wrenhollow" {
+		t.Fatalf("decision record %s: %+v %+v %v", st.SupersededBy, rec, meta, err)
 	}
 }
