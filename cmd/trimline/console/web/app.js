@@ -305,7 +305,10 @@
     const box = $("verdict");
     box.dataset.verdict = v.verdict;
     box.className = "panel verdict v-" + (shapeOf[v.verdict] || "aborted");
-    text("verdict-word", v.word || v.verdict);
+    const word = v.word || v.verdict;
+    text("verdict-word", word);
+    // A long headline ("STATION FAULT") is set smaller so that it fits.
+    $("verdict-word").dataset.len = word.length > 10 ? "long" : word.length > 5 ? "mid" : "short";
     text("v-serial", v.serial);
     // The worst reasons first; the rest are counted (the statement has all).
     const rs = v.reasons || [];
