@@ -90,7 +90,9 @@
       text("retest-serial", a.retest.serial);
       text("retest-earlier", a.retest.earlier);
       show($("retest"), true);
-      $("retest-yes").focus();
+      // The question holds the focus, not its Yes button: a barcode scan's
+      // Enter must never answer it.
+      $("retest-box").focus();
       return;
     }
     if (!a.ok) scanError(a.error || "refused");
@@ -101,6 +103,9 @@
     const s = pendingRetest;
     pendingRetest = "";
     await startScan(s, true);
+  });
+  $("retest").addEventListener("keydown", (ev) => {
+    if (ev.key === "Escape") $("retest-no").click();
   });
   $("retest-no").addEventListener("click", () => {
     show($("retest"), false);
