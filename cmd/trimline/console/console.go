@@ -136,7 +136,11 @@ func New(ctx context.Context, o Options) (_ *Server, err error) {
 	s.st = newState(s.shift)
 	s.refreshStatus(ctx)
 	if err := s.shift.OpenEngine(ctx, ""); err != nil {
-		s.st.lock(faultView{What: "the instruments did not open", Said: err.Error(), Check: "that every instrument is powered and connected; then clear the station and scan the unit again"}, "")
+		ft := sequencer.ExplainFault(s.shift.FaultRecord("", "", err))
+		if ft.What == "" {
+			ft = sequencer.FaultText{What: "the instruments did not open", Said: err.Error(), Check: "that every instrument is powered and connected"}
+		}
+		s.st.lock(faultView{What: ft.What, Said: ft.Said, Check: ft.Check}, "")
 		s.shift.Log.Error().Err(err).Msg("console: the instruments did not open")
 	}
 	s.refreshReview(ctx)
