@@ -76,6 +76,9 @@ type Server struct {
 	hub      *hub
 	mux      *http.ServeMux
 
+	// observe, when set (benchmarks), sees every progress event first.
+	observe func(sequencer.Event)
+
 	mu      sync.Mutex
 	st      state
 	cancel  context.CancelFunc // the running unit's; nil when none runs

@@ -28,7 +28,7 @@ import (
 // a year from now, the station's signing key made) and returns the station
 // and sequence paths. The files are not released: the tests run engineering
 // shifts.
-func unitDemo(t *testing.T, edit ...func(string) string) (dir, station, sequence string) {
+func unitDemo(t testing.TB, edit ...func(string) string) (dir, station, sequence string) {
 	t.Helper()
 	p, err := sequences.Find(sequences.Default)
 	if err != nil {
@@ -65,13 +65,13 @@ func unitDemo(t *testing.T, edit ...func(string) string) (dir, station, sequence
 // client is a browser stand-in: a cookie jar, the page's CSRF token and the
 // console's own Origin on every POST.
 type client struct {
-	t    *testing.T
+	t    testing.TB
 	base string
 	http *http.Client
 	csrf string
 }
 
-func newClient(t *testing.T, h http.Handler) *client {
+func newClient(t testing.TB, h http.Handler) *client {
 	ts := httptest.NewServer(h)
 	t.Cleanup(ts.Close)
 	jar, _ := cookiejar.New(nil)

@@ -140,6 +140,9 @@ func (s *Server) runUnit(ctx context.Context, serial, operator string, attempt i
 // progress takes one engine event to the state and the pages. It runs on
 // the engine's goroutine and returns quickly.
 func (s *Server) progress(ev sequencer.Event) {
+	if s.observe != nil {
+		s.observe(ev)
+	}
 	s.mu.Lock()
 	u := s.st.Unit
 	if u == nil {
