@@ -103,6 +103,9 @@ type unitOut struct {
 	// out for a product that has none.
 	Coefficients []coefficientOut `json:"coefficients,omitempty"`
 	Retrims      []retrimOut      `json:"retrims,omitempty"`
+	// FaultDetail names the instrument a FAULT came from (role, asset,
+	// address, what it said), when the engine knows it; left out otherwise.
+	FaultDetail *sequencer.FaultDetail `json:"fault_detail,omitempty"`
 }
 
 // resultOut is one result of a unit: a named number with its uncertainty and the
@@ -354,7 +357,7 @@ func newUnitOut(rec *sequencer.Record, cert, certDir string) unitOut {
 	u := unitOut{Kind: kindUnit, Version: jsonVersion, Serial: rec.Serial, Product: rec.Product, Revision: rec.Revision,
 		Station: rec.Station, Operator: rec.Operator, RunID: rec.RunID, Verdict: string(rec.Verdict),
 		Engineering: rec.Engineering, RetestOf: rec.RetestOf, Certificate: cert,
-		Started: rec.Started, Finished: rec.Finished, Reasons: nonNil(rec.Reasons), Fault: rec.Fault,
+		Started: rec.Started, Finished: rec.Finished, Reasons: nonNil(rec.Reasons), Fault: rec.Fault, FaultDetail: rec.FaultDetail,
 		Results: []resultOut{}, Limits: []limitOut{}, TrimCodes: []trimOut{}}
 	if rec.Simulated != nil {
 		u.Simulated = rec.Simulated.Mark
