@@ -90,14 +90,17 @@ type unitOut struct {
 	Certificate string `json:"certificate"` // certificate number; "" when the run gets none (FAULT, ABORTED)
 	// CertificatePDF is the certificate's file, as the station wrote it (under
 	// the output folder); "" with Certificate.
-	CertificatePDF string      `json:"certificate_pdf"`
-	Started        time.Time   `json:"started"` // RFC 3339, UTC
-	Finished       time.Time   `json:"finished"`
-	Reasons        []string    `json:"reasons"` // why the verdict is not PASS, in words, in order; empty for PASS
-	Fault          string      `json:"fault"`   // the station fault, for FAULT and ABORTED
-	Results        []resultOut `json:"results"`
-	Limits         []limitOut  `json:"limits"`
-	TrimCodes      []trimOut   `json:"trim_codes"`
+	CertificatePDF string    `json:"certificate_pdf"`
+	Started        time.Time `json:"started"` // RFC 3339, UTC
+	Finished       time.Time `json:"finished"`
+	Reasons        []string  `json:"reasons"` // why the verdict is not PASS, in words, in order; empty for PASS
+	// OperatorReasons are the same in the operator's plain words, worst first
+	// (sequencer.ForOperator): "offset after trim is −12384 µV, limit ±800 µV".
+	OperatorReasons []string    `json:"operator_reasons"`
+	Fault           string      `json:"fault"` // the station fault, for FAULT and ABORTED
+	Results         []resultOut `json:"results"`
+	Limits          []limitOut  `json:"limits"`
+	TrimCodes       []trimOut   `json:"trim_codes"`
 	// Coefficients are the firmware correction coefficients written, in write
 	// order, and Retrims the passes of every closed-loop re-trim; both are left
 	// out for a product that has none.
@@ -365,6 +368,7 @@ func newUnitOut(rec *sequencer.Record, cert, certDir string) unitOut {
 	if cert != "" {
 		u.CertificatePDF = filepath.Join(certDir, certificate.FileName(rec, certificate.Options{Number: cert}))
 	}
+	u.OperatorReasons = nonNil(sequencer.ForOperator(rec, 0, 0).Reasons)
 	for _, r := range rec.Results {
 		ro := resultOut{Name: r.Name, Channel: r.Channel, Step: r.Step, Quantity: r.QuantityOf(), Valid: r.Valid, Note: r.Note, Unit: r.Unit, JudgedBy: []judged{}}
 		if st, err := r.StageOf().MarshalText(); err == nil {
