@@ -227,7 +227,7 @@ func TestShiftOnTheSimulatedClock(t *testing.T) {
 	}
 
 	code, a := c.post("/scan", url.Values{"serial": {"BRX-00002"}})
-	if code != http.StatusOK || a.Retest == nil || !strings.Contains(a.Retest.Earlier, s.Recent[1].Cert) {
+	if code != http.StatusOK || a.Retest == nil || !strings.Contains(a.Retest.Earlier, s.Recent[1].Cert) || a.Retest.Attempt != "This is attempt 2 of 3." {
 		t.Fatalf("rescan BRX-00002: %d %+v (earlier certificate %s)", code, a, s.Recent[1].Cert)
 	}
 	if c.state().Phase == phaseRunning {
@@ -244,6 +244,17 @@ func TestShiftOnTheSimulatedClock(t *testing.T) {
 	}
 	if n := s.Counters; n.Units != 3 || n.Passed != 2 || n.Failed != 1 || n.FirstIn != 2 || n.FPY != "50.0 %" {
 		t.Fatalf("counters %+v", n)
+	}
+	// The sequence gives a unit 3 measured runs (retest.max_attempts): the
+	// third is the last, a fourth scan is refused before anything runs.
+	c.post("/scan", url.Values{"serial": {"BRX-00002"}, "retest": {"confirm"}})
+	c.settled(30 * time.Second)
+	code, a = c.post("/scan", url.Values{"serial": {"BRX-00002"}, "retest": {"confirm"}})
+	if code != http.StatusConflict || !strings.Contains(a.Error, "rework") {
+		t.Fatalf("a fourth run of BRX-00002: %d %+v", code, a)
+	}
+	if runs, _ := led.Runs(ctx, "BRX-00002"); len(runs) != 3 {
+		t.Fatalf("BRX-00002 has %d runs, want 3", len(runs))
 	}
 	// Every run records the signed-in person as its operator.
 	runs, _ := led.Runs(ctx, "BRX-00009")

@@ -164,6 +164,7 @@ type answer struct {
 type retestAsk struct {
 	Serial  string `json:"serial"`
 	Earlier string `json:"earlier"` // "certificate TL1-000002 (FAIL, 2026-12-02 15:04)", station time
+	Attempt string `json:"attempt"` // "This is attempt 2 of 3.", "" when the sequence sets no limit
 }
 
 func (s *Server) reply(w http.ResponseWriter, r *http.Request, code int, a answer) {

@@ -62,6 +62,9 @@ func (s *Server) scan(w http.ResponseWriter, r *http.Request, se *session) {
 			what = "certificate " + earlier.Certificate
 		}
 		ask := &retestAsk{Serial: serial, Earlier: fmt.Sprintf("%s (%s, %s)", what, earlier.Verdict, earlier.Finished.Local().Format("2006-01-02 15:04"))}
+		if max > 0 {
+			ask.Attempt = fmt.Sprintf("This is attempt %d of %d.", n+1, max)
+		}
 		s.reply(w, r, http.StatusOK, answer{Retest: ask})
 		return
 	}
