@@ -70,7 +70,6 @@ type Server struct {
 	shift    *shift.Shift
 	bench    *serve.Server
 	benchDir string // the rewired station file's folder, removed on Close
-	started  time.Time
 
 	sessions *sessions
 	hub      *hub
@@ -99,7 +98,7 @@ func New(ctx context.Context, o Options) (_ *Server, err error) {
 	if o.Software == "" {
 		o.Software = "trimline"
 	}
-	s := &Server{opt: o, loopback: isLoopback(o.Listen), started: time.Now(), hub: newHub()}
+	s := &Server{opt: o, loopback: isLoopback(o.Listen), hub: newHub()}
 	defer func() {
 		if err != nil {
 			s.Close()

@@ -330,8 +330,13 @@ func (s *Server) clear(w http.ResponseWriter, r *http.Request, se *session) {
 	s.shift.CloseEngine()
 	s.refreshStatus(r.Context())
 	s.mu.Lock()
+	// Cleared: the station is ready (the faulted unit stays in the list of
+	// the last units).
 	s.st.Phase, s.st.Fault = phaseReady, nil
-	if s.st.Verdict != nil && s.st.Verdict.Verdict != string(sequencer.Fault) {
+	if s.st.Verdict != nil && s.st.Verdict.Verdict == string(sequencer.Fault) {
+		s.st.Verdict = nil
+	}
+	if s.st.Verdict != nil {
 		s.st.Phase = phaseVerdict
 	}
 	s.st.Version++
