@@ -44,20 +44,25 @@ func (s *Server) refreshStatus(ctx context.Context) {
 	cal := statusItem{Key: "calibration", State: "ok", Title: "calibration current"}
 	today := time.Now().UTC().Truncate(24 * time.Hour)
 	var soonest time.Time
+	var expired, soon []string // "meter DMM-0203 (2026-12-12)"
 	for _, r := range st.Roles() {
 		in := st.Instruments[r]
 		if in.CalDue.IsZero() {
 			continue
 		}
-		line := fmt.Sprintf("%s %s due %s", r, in.Asset, in.CalDue.Format("2006-01-02"))
+		due := in.CalDue.Format("2006-01-02")
+		line := fmt.Sprintf("%s %s due %s", r, in.Asset, due)
+		who := strings.TrimSpace(r+" "+in.Asset) + " (" + due + ")"
 		switch {
 		case today.After(in.CalDue):
 			cal.State = "block"
+			expired = append(expired, who)
 			line += " — EXPIRED"
 		case in.CalDue.Sub(today) < calWarn:
 			if cal.State == "ok" {
 				cal.State = "warn"
 			}
+			soon = append(soon, who)
 			line += fmt.Sprintf(" — in %d days", int(in.CalDue.Sub(today).Hours()/24))
 		}
 		if soonest.IsZero() || in.CalDue.Before(soonest) {
@@ -65,15 +70,13 @@ func (s *Server) refreshStatus(ctx context.Context) {
 		}
 		cal.Detail = append(cal.Detail, line)
 	}
-	switch cal.State {
-	case "block":
-		cal.Title = "calibration expired"
-	case "warn":
-		cal.Title = "calibration due soon: " + soonest.Format("2006-01-02")
-	default:
-		if !soonest.IsZero() {
-			cal.Title = "calibration current to " + soonest.Format("2006-01-02")
-		}
+	switch {
+	case len(expired) > 0:
+		cal.Title = "calibration expired: " + strings.Join(expired, ", ")
+	case len(soon) > 0:
+		cal.Title = "calibration due soon: " + strings.Join(soon, ", ")
+	case !soonest.IsZero():
+		cal.Title = "calibration current to " + soonest.Format("2006-01-02")
 	}
 	items = append(items, cal)
 
