@@ -23,11 +23,7 @@ func (s *Server) refreshStatus(ctx context.Context) {
 	var items []statusItem
 
 	files := statusItem{Key: "files", State: "ok", Title: "files released"}
-	for _, f := range []struct{ kind, name, sha string }{
-		{"station", st.File.Name, st.File.SHA256}, {"sequence", seq.File.Name, seq.File.SHA256}, {"limits", seq.LimitsFile.Name, seq.LimitsFile.SHA256},
-	} {
-		files.Detail = append(files.Detail, fmt.Sprintf("%s %s (%.12s…)", f.kind, f.name, f.sha))
-	}
+	var rel map[string]release.Release
 	switch {
 	case sh.Issuer.Engineering:
 		files.State, files.Title = "warn", "engineering run: files not released, certificates marked"
@@ -38,6 +34,16 @@ func (s *Server) refreshStatus(ctx context.Context) {
 			files.State, files.Title = "block", "files not released"
 			files.Detail = append(files.Detail, err.Error())
 		}
+	}
+	if st.ReleaseKeys != "" {
+		rel, _ = release.ByDir(ctx, sh.Ledger, st.ReleaseKeys)
+	}
+	for _, f := range []sequencer.FileRef{st.File, seq.File, seq.LimitsFile} {
+		line := fmt.Sprintf("%s file %s (SHA-256 %.12s…)", f.Kind, f.Name, f.SHA256)
+		if r, ok := rel[f.SHA256]; ok {
+			line += fmt.Sprintf(", released by %s on %s", r.By, r.At.Local().Format("2006-01-02"))
+		}
+		files.Detail = append(files.Detail, line)
 	}
 	items = append(items, files)
 
