@@ -213,6 +213,9 @@ func outcomeSentence(rec *Record, o limits.Outcome) (string, int) {
 			value = units.FormatSig(d.Value, 15)
 		}
 		s := fmt.Sprintf("%s is %s, limit %s", name, withUnit(value), withUnit(toleranceText(d.Lower, d.Upper)))
+		if v, tol, u, ok := operatorQuantity(d.Value, d.U, o.Unit, d.Lower, d.Upper); ok {
+			s = fmt.Sprintf("%s is %s %s, limit %s %s", name, v, u, tol, u)
+		}
 		switch d.Zone {
 		case limits.ZoneConditionalPass:
 			return s + ": inside, but too near the limit to be sure", rankHeld

@@ -31,9 +31,10 @@ func TestForOperatorOnTheDemoDefects(t *testing.T) {
 	if v.Headline != "FAIL" || v.Action != "send to rework" {
 		t.Errorf("BRX-00009: %q, action %q", v.Headline, v.Action)
 	}
-	// The same number the metrologist's statement gives, in plain words.
-	if len(v.Reasons) != 2 || v.Reasons[0] != "offset after trim is −12384 µV, limit ±800 µV" ||
-		v.Reasons[1] != "total error after trim is 12510 µV, limit ≤ 1000 µV" {
+	// The number the metrologist's statement gives (−12384 µV), in plain words
+	// and a unit an operator reads at a glance.
+	if len(v.Reasons) != 2 || v.Reasons[0] != "offset after trim is −12.4 mV, limit ±0.8 mV" ||
+		v.Reasons[1] != "total error after trim is 12.5 mV, limit ≤ 1 mV" {
 		t.Errorf("BRX-00009 reasons %q", v.Reasons)
 	}
 	if !strings.Contains(rec.Reasons[0], "post_offset = −12384 µV") {
@@ -51,7 +52,7 @@ func TestForOperatorOnTheDemoDefects(t *testing.T) {
 		"output noise is 810 µV, limit ≤ 60 µV",                                                 // far out: rework
 		"linearity after trim is 0.015 %, limit ≤ 0.01 %",                                       // out within U
 		"offset after trim is 160 µV, limit ±800 µV: inside, but too near the limit to be sure", // held
-		"total error after trim is 800 µV, limit ≤ 1000 µV: inside, but too near the limit to be sure",
+		"total error after trim is 0.8 mV, limit ≤ 1 mV: inside, but too near the limit to be sure",
 	}
 	if strings.Join(v.Reasons, "\n") != strings.Join(want, "\n") {
 		t.Errorf("BRX-00022 reasons\n%s\nwant\n%s", strings.Join(v.Reasons, "\n"), strings.Join(want, "\n"))
