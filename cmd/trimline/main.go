@@ -19,6 +19,7 @@ import (
 	"runtime/debug"
 	"syscall"
 
+	"trimline/cmd/trimline/internal/shift"
 	_ "trimline/instruments/generic" // SCPI and trim-port drivers, schemes serial:// tcp:// usbtmc://
 	_ "trimline/instruments/sim"     // the simulated bench, scheme sim://
 	"trimline/reports/audit"
@@ -108,6 +109,7 @@ func exitCode(err error) int {
 	case errors.As(err, &ue), errors.Is(err, errBadInput),
 		errors.Is(err, release.ErrNotReleased), errors.Is(err, release.ErrNotReleasable), errors.Is(err, release.ErrReleaseKeys),
 		errors.Is(err, release.ErrUntrusted), errors.Is(err, release.ErrLint), errors.Is(err, release.ErrDecision),
+		errors.Is(err, shift.ErrBadInput),
 		errors.Is(err, audit.ErrUntrustedVoid),
 		errors.Is(err, sequencer.ErrSafety), errors.Is(err, sequencer.ErrUnboundRole), errors.Is(err, sequencer.ErrTUR),
 		errors.Is(err, sequencer.ErrStepTiming),

@@ -2,25 +2,15 @@ package main
 
 import (
 	"context"
-	"errors"
 	"fmt"
 	"io"
 	"math"
-	"os"
-	"path/filepath"
 	"strconv"
 	"strings"
-	"time"
 	"unicode/utf8"
 
-	"github.com/rs/zerolog"
-
-	"trimline/instruments/files"
+	"trimline/cmd/trimline/internal/shift"
 	"trimline/instruments/units"
-	"trimline/reports/issuing"
-	"trimline/reports/ledger"
-	"trimline/reports/release"
-	"trimline/reports/signing"
 	"trimline/sequencer"
 )
 
@@ -36,172 +26,45 @@ type batch struct {
 	json                      bool   // one JSON object per unit on stdout instead of live lines
 }
 
-// loadFiles loads the station and sequence files; problems are bad input. One
-// file's parse cannot be interrupted, but files.Check bounds its work to well
-// under a second; a cancelled ctx (Ctrl-C, SIGTERM) stops between the files.
-func loadFiles(ctx context.Context, stationPath, sequencePath string) (*sequencer.Station, *sequencer.Sequence, error) {
-	var errs files.List
-	st, err := sequencer.LoadStation(stationPath)
-	if err != nil {
-		if fe := files.Errs(err); fe != nil {
-			errs = append(errs, fe...)
-		} else {
-			return nil, nil, badInput(err)
-		}
-	}
-	if err := ctx.Err(); err != nil {
-		return nil, nil, err
-	}
-	seq, err := sequencer.LoadSequence(sequencePath)
-	if err != nil {
-		if fe := files.Errs(err); fe != nil {
-			errs = append(errs, fe...)
-		} else {
-			return nil, nil, badInput(err)
-		}
-	}
-	if len(errs) > 0 {
-		return nil, nil, badInput(detailed(errs))
-	}
-	if err := sequencer.CheckCaps(st, seq); err != nil {
-		return nil, nil, badInput(err)
-	}
-	if err := sequencer.CheckTiming(st, seq); err != nil {
-		return nil, nil, badInput(err)
-	}
-	return st, seq, nil
-}
-
 // detailed is a files.List printed with source excerpts.
-type detailed files.List
+type detailed = shift.Detailed
 
-func (d detailed) Error() string {
-	var b strings.Builder
-	fmt.Fprintf(&b, "%d problem(s):", len(d))
-	for _, e := range d {
-		b.WriteString("\n")
-		b.WriteString(e.Detail())
-	}
-	return b.String()
-}
-
-// runBatch wires a batch together: the files, the output folder, the log, the
-// ledger, the release check, the issuer and the engine; then it runs every serial
-// and prints a line (or a JSON object) per unit.
+// runBatch wires a batch together through a shift (the files, the output
+// folder, the log, the ledger, the release check, the issuer and the engine);
+// then it runs every serial and prints a line (or a JSON object) per unit.
 func runBatch(ctx context.Context, e *env, b batch) (*sequencer.Tally, error) {
-	st, seq, err := loadFiles(ctx, b.stationPath, b.sequencePath)
+	cond, err := shift.ParseAmbient(b.ambient)
 	if err != nil {
-		return nil, err
+		return nil, usagef("--ambient: %v", err)
 	}
-	// Every serial is checked before anything is opened, written or recorded.
-	if err := seq.CheckSerials(b.serials); err != nil {
-		return nil, err
-	}
-	out := b.out
-	if out == "" {
-		out = st.OutputFolder
-	}
-	if out == "" {
-		out = "trimline-out"
-	}
-	if err := os.MkdirAll(filepath.Join(out, "certificates"), 0o755); err != nil {
-		return nil, err
-	}
-	logFile, err := os.OpenFile(filepath.Join(out, "trimline.log"), os.O_CREATE|os.O_APPEND|os.O_WRONLY, 0o644)
-	if err != nil {
-		return nil, err
-	}
-	defer logFile.Close()
 	// With --json, stderr holds nothing but an error object; the log's
 	// warnings are in the log file, and a stopped batch's skipped serials in the
 	// summary.
-	var console io.Writer = zerolog.ConsoleWriter{Out: e.stderr, TimeFormat: "15:04:05", NoColor: true}
+	var console io.Writer = e.stderr
 	if b.json {
-		console = io.Discard
+		console = nil
 	}
-	log := zerolog.New(zerolog.MultiLevelWriter(levelWriter{console, zerolog.WarnLevel}, logFile)).With().Timestamp().Str("station", st.ID).Logger()
-
-	led, err := ledger.Open(ctx, filepath.Join(out, "ledger.db"))
+	s, err := shift.Open(ctx, shift.Options{StationPath: b.stationPath, SequencePath: b.sequencePath, Out: b.out,
+		Operator: b.operator, Software: "trimline " + version(), Conditions: cond, Engineering: b.engineering,
+		Serials: b.serials, Retest: b.retest, Console: console})
 	if err != nil {
-		return nil, fmt.Errorf("open ledger: %w", err)
-	}
-	defer led.Close()
-	if st.RequireRelease && !b.engineering {
-		if err := release.Check(ctx, led, st, seq); err != nil {
-			return nil, err
-		}
-	}
-	if b.engineering {
-		// Engineering certificates come from a number series of their own.
-		st.CertificatePrefix += "-ENG"
-	}
-	is := &issuing.Issuer{Ledger: led, Station: st, Sequence: seq, CertDir: filepath.Join(out, "certificates"), Engineering: b.engineering}
-	// A serial tested before runs again only as a retest: refused before anything
-	// is touched or recorded.
-	if err := is.CheckRetests(ctx, b.serials, b.retest); err != nil {
 		return nil, err
 	}
-	if st.SigningKey != "" {
-		if is.Key, err = signing.Load(st.SigningKey); err != nil {
-			return nil, badInput(fmt.Errorf("%s signing.key: %w", st.File.Name, err))
-		}
-	}
-	if n, err := is.RemoveStaleTemps(ctx); err != nil {
+	defer s.Close()
+	if err := s.OpenEngine(ctx, b.serials[0]); err != nil {
 		return nil, err
-	} else if n > 0 {
-		log.Info().Int("files", n).Msg("removed temporary files an interrupted run left in the certificates folder")
 	}
-	if n, err := is.Repair(ctx); err != nil {
-		return nil, err
-	} else if n > 0 {
-		log.Warn().Int("certificates", n).Msg("published certificates whose documents were missing after an interrupted run")
-	}
+	log := s.Log
+	log.Info().Str("sequence", s.Sequence.File.Name).Str("limits", s.Sequence.Limits.File).Int("units", len(b.serials)).Msg("batch start")
 
-	var cond sequencer.Conditions
-	if b.ambient != "" {
-		c, err := units.ParseAs(b.ambient, units.Celsius)
-		if err != nil {
-			return nil, usagef("--ambient: %v", err)
-		}
-		cond = sequencer.Conditions{AmbientC: c, AmbientSource: "entered"}
-	}
-	if _, ok := cond.Ambient(); !ok {
-		// One warning, naming every role whose spec holds only in a band.
-		var banded []string
-		for _, r := range st.Roles() {
-			if v := st.Instruments[r].Validity; v.HasBand {
-				banded = append(banded, r+" "+v.BandText())
-			}
-		}
-		if len(banded) > 0 {
-			log.Warn().Strs("bands", banded).Msg("no ambient temperature entered (--ambient): the certificates will say the specifications were assumed to hold")
-		}
-	}
-	cfg := sequencer.Config{Station: st, Sequence: seq, Operator: b.operator,
-		Software: "trimline " + version(), Log: log, Conditions: cond, Engineering: b.engineering}
-	eng, err := sequencer.Open(ctx, cfg)
-	if err != nil {
-		if !errors.Is(err, sequencer.ErrSafety) && !errors.Is(err, sequencer.ErrUnboundRole) && !errors.Is(err, sequencer.ErrTUR) {
-			// The unit in the fixture was not run: record the attempt and why.
-			rec := sequencer.FaultRecord(cfg, b.serials[0], time.Now(), err)
-			if _, lerr := is.Record(context.WithoutCancel(ctx), rec); lerr != nil {
-				log.Error().Err(lerr).Msg("could not record the failed start in the ledger")
-			}
-			log.Error().Str("serial", rec.Serial).Err(err).Msg("station fault before the unit started")
-		}
-		return nil, err
-	}
-	defer eng.Close()
-	log.Info().Str("sequence", seq.File.Name).Str("limits", seq.Limits.File).Int("units", len(b.serials)).Msg("batch start")
-
-	t, err := eng.RunBatch(ctx, b.serials, func(i int, rec *sequencer.Record) error {
-		cert, err := is.Record(context.WithoutCancel(ctx), rec)
+	t, err := s.Engine.RunBatch(ctx, b.serials, func(i int, rec *sequencer.Record) error {
+		cert, err := s.Issuer.Record(context.WithoutCancel(ctx), rec)
 		if err != nil {
 			return fmt.Errorf("%s: %w", rec.Serial, err)
 		}
 		log.Info().Str("serial", rec.Serial).Str("verdict", string(rec.Verdict)).Str("certificate", cert).Msg("unit done")
 		if b.json {
-			writeJSON(e.stdout, newUnitOut(rec, cert, is.CertDir))
+			writeJSON(e.stdout, newUnitOut(rec, cert, s.Issuer.CertDir))
 		} else {
 			fmt.Fprintln(e.stdout, liveLine(i+1, len(b.serials), rec, cert))
 		}
@@ -214,20 +77,6 @@ func runBatch(ctx context.Context, e *env, b batch) (*sequencer.Tally, error) {
 		}
 	}
 	return t, err
-}
-
-// levelWriter passes only events at or above min to w.
-type levelWriter struct {
-	w   io.Writer
-	min zerolog.Level
-}
-
-func (l levelWriter) Write(p []byte) (int, error) { return l.w.Write(p) }
-func (l levelWriter) WriteLevel(lv zerolog.Level, p []byte) (int, error) {
-	if lv < l.min {
-		return len(p), nil
-	}
-	return l.w.Write(p)
 }
 
 func liveLine(i, n int, rec *sequencer.Record, cert string) string {

@@ -1,0 +1,125 @@
+package console
+
+import (
+	"context"
+	"fmt"
+	"strings"
+	"time"
+
+	"trimline/reports/release"
+)
+
+// calWarn is how long before an instrument's calibration falls due the
+// station warns (common practice: two weeks to book the recalibration).
+const calWarn = 14 * 24 * time.Hour
+
+// refreshStatus checks what a unit needs before it may start: the files in
+// force and their release, the instruments' calibration due dates, the
+// signing key and the ledger.
+func (s *Server) refreshStatus(ctx context.Context) {
+	sh := s.shift
+	st, seq := sh.Station, sh.Sequence
+	var items []statusItem
+
+	files := statusItem{Key: "files", State: "ok", Title: "files released"}
+	for _, f := range []struct{ kind, name, sha string }{
+		{"station", st.File.Name, st.File.SHA256}, {"sequence", seq.File.Name, seq.File.SHA256}, {"limits", seq.LimitsFile.Name, seq.LimitsFile.SHA256},
+	} {
+		files.Detail = append(files.Detail, fmt.Sprintf("%s %s (%.12s…)", f.kind, f.name, f.sha))
+	}
+	switch {
+	case sh.Issuer.Engineering:
+		files.State, files.Title = "warn", "engineering run: files not released, certificates marked"
+	case !st.RequireRelease:
+		files.State, files.Title = "warn", "files in force (the station does not require a release)"
+	default:
+		if err := release.Check(ctx, sh.Ledger, st, seq); err != nil {
+			files.State, files.Title = "block", "files not released"
+			files.Detail = append(files.Detail, err.Error())
+		}
+	}
+	items = append(items, files)
+
+	cal := statusItem{Key: "calibration", State: "ok", Title: "calibration current"}
+	today := time.Now().UTC().Truncate(24 * time.Hour)
+	var soonest time.Time
+	for _, r := range st.Roles() {
+		in := st.Instruments[r]
+		if in.CalDue.IsZero() {
+			continue
+		}
+		line := fmt.Sprintf("%s %s due %s", r, in.Asset, in.CalDue.Format("2006-01-02"))
+		switch {
+		case today.After(in.CalDue):
+			cal.State = "block"
+			line += " — EXPIRED"
+		case in.CalDue.Sub(today) < calWarn:
+			if cal.State == "ok" {
+				cal.State = "warn"
+			}
+			line += fmt.Sprintf(" — in %d days", int(in.CalDue.Sub(today).Hours()/24))
+		}
+		if soonest.IsZero() || in.CalDue.Before(soonest) {
+			soonest = in.CalDue
+		}
+		cal.Detail = append(cal.Detail, line)
+	}
+	switch cal.State {
+	case "block":
+		cal.Title = "calibration expired"
+	case "warn":
+		cal.Title = "calibration due soon: " + soonest.Format("2006-01-02")
+	default:
+		if !soonest.IsZero() {
+			cal.Title = "calibration current to " + soonest.Format("2006-01-02")
+		}
+	}
+	items = append(items, cal)
+
+	key := statusItem{Key: "key", State: "ok", Title: "signing key loaded"}
+	if sh.Issuer.Key == nil {
+		key.State, key.Title = "warn", "no signing key: certificates are not signed"
+	} else {
+		key.Detail = []string{sh.Issuer.Key.ID()}
+	}
+	items = append(items, key)
+
+	led := statusItem{Key: "ledger", State: "ok", Title: "ledger reachable"}
+	if n, err := sh.Ledger.Counts(ctx); err != nil {
+		led.State, led.Title, led.Detail = "block", "ledger unreachable", []string{err.Error()}
+	} else {
+		led.Detail = []string{fmt.Sprintf("%d runs recorded, %d audit entries", n["runs"], n["audit_trail"])}
+	}
+	items = append(items, led)
+
+	blocked := false
+	for _, it := range items {
+		blocked = blocked || it.State == "block"
+	}
+	s.mu.Lock()
+	s.st.Status, s.st.Blocked = items, blocked
+	s.st.Version++
+	s.mu.Unlock()
+}
+
+// refreshReview reads the units held for review at this station.
+func (s *Server) refreshReview(ctx context.Context) {
+	q, err := reviewQueue(ctx, s.shift.Ledger, s.shift.Station.ID)
+	rows := []reviewRow{}
+	if err == nil {
+		for _, r := range q {
+			row := reviewRow{Cert: r.Certificate, Serial: r.Serial, At: r.Finished.Local().Format("2006-01-02 15:04")}
+			if rec, err := s.shift.Ledger.Run(ctx, r.RunID); err == nil && rec != nil {
+				ov := forOperator(rec, 0, 0)
+				row.Reasons = strings.Join(ov.Reasons, "; ")
+			}
+			rows = append(rows, row)
+		}
+	} else {
+		s.shift.Log.Error().Err(err).Msg("console: review queue")
+	}
+	s.mu.Lock()
+	s.st.Review = rows
+	s.st.Version++
+	s.mu.Unlock()
+}
