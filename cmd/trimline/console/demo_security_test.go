@@ -127,8 +127,8 @@ func (d demoFiles) openLedger(t *testing.T) *ledger.Ledger {
 }
 
 // person returns the id (badge, else name) and name of the first of the
-// station's people who holds right; the test fails when nobody does, since the
-// demo station lists an operator and a reviewer.
+// station's people who holds right; the test fails when nobody does (the demo
+// station lists an operator and a reviewer).
 func (d demoFiles) person(t *testing.T, right string) (id, name string) {
 	t.Helper()
 	st, err := sequencer.LoadStation(d.station)
@@ -144,6 +144,11 @@ func (d demoFiles) person(t *testing.T, right string) (id, name string) {
 				return p.Name, p.Name
 			}
 		}
+	}
+	if len(st.People) == 0 && right == sequencer.RightOperate {
+		// A station that lists nobody lets anyone on the station PC run units
+		// under the name they give (as trimline run --operator does).
+		return "Test Operator", "Test Operator"
 	}
 	t.Fatalf("%s lists nobody with the %s right (people:)", d.station, right)
 	return "", ""
