@@ -16,7 +16,8 @@ var (
 	// ErrBatchStopped: the batch was stopped (its context cancelled) before
 	// every unit ran; the rest were never run, and the batch is not a pass.
 	ErrBatchStopped = errors.New("batch stopped before every unit ran")
-	// ErrUnitFault: a unit ended in a station fault or was aborted.
+	// ErrUnitFault: a unit ended in a station fault or was aborted. After a
+	// station fault the batch stops: the rest are listed in Skipped.
 	ErrUnitFault = errors.New("a unit ended in a station fault or was aborted")
 	// ErrUnitsFailed: a unit failed its limits or was held for review (a unit
 	// held for review does not ship either).
@@ -26,7 +27,9 @@ var (
 // Tally is what a batch did.
 type Tally struct {
 	Records []*Record // every unit run, in order
-	Skipped []string  // serials not run because the batch was stopped
+	// Skipped are the serials not run because the batch was stopped, or
+	// because a unit before them ended in a station fault.
+	Skipped []string
 	// Results are the results the batch's sequence declares, in declaration
 	// order; Summary spreads those of them it can.
 	Results []ResultDef
@@ -36,9 +39,11 @@ type Tally struct {
 // against the sequence's serial rule (Sequence.CheckSerials): if any is refused,
 // no unit runs, no instrument is touched and the error wraps ErrBadSerial. Between
 // units it checks ctx: once it is cancelled the rest are not run but listed in the
-// tally's Skipped. After each unit it calls done with the unit's index and record
-// (to store, publish and show it); an error from done ends the batch with that
-// error, and that unit is not counted.
+// tally's Skipped. A unit that ends in a station fault (FAULT) ends the batch
+// too: the station needs a person before the next unit, so the rest are listed in
+// Skipped and the tally's Err is ErrUnitFault. After each unit it calls done with
+// the unit's index and record (to store, publish and show it); an error from done
+// ends the batch with that error, and that unit is not counted.
 func (e *Engine) RunBatch(ctx context.Context, serials []string, done func(i int, rec *Record) error) (*Tally, error) {
 	t := &Tally{Results: e.cfg.Sequence.Results()}
 	if err := e.cfg.Sequence.CheckSerials(serials); err != nil {
@@ -54,15 +59,23 @@ func (e *Engine) RunBatch(ctx context.Context, serials []string, done func(i int
 			return t, err
 		}
 		t.Records = append(t.Records, rec)
+		if rec.Verdict == Fault {
+			t.Skipped = serials[i+1:]
+			break
+		}
 	}
 	return t, nil
 }
 
 // Err says how the batch ended: nil when every unit ran and passed, else
 // ErrBatchStopped, ErrUnitFault or ErrUnitsFailed, the worst that happened (a
-// station fault beats a failed unit).
+// stop beats a station fault, which beats a failed unit). A batch a station
+// fault ended, its last unit FAULT and the rest skipped, is ErrUnitFault.
 func (t *Tally) Err() error {
 	if len(t.Skipped) > 0 {
+		if n := len(t.Records); n > 0 && t.Records[n-1].Verdict == Fault {
+			return ErrUnitFault
+		}
 		return ErrBatchStopped
 	}
 	var err error

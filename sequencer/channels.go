@@ -235,7 +235,7 @@ func (e *Engine) route(ctx context.Context, ch string) error {
 	}
 	e.routed = "" // unknown until Route answers
 	if err := e.step(ctx, func(ctx context.Context) error { return sw.Route(ctx, ch) }); err != nil {
-		return fmt.Errorf("%s: route channel %s: %w", role, ch, err)
+		return e.blame(role, err.Error(), fmt.Errorf("%s: route channel %s: %w", role, ch, err))
 	}
 	e.routed = ch
 	return nil

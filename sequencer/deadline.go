@@ -32,7 +32,11 @@ func (e *Engine) step(ctx context.Context, f func(ctx context.Context) error) er
 	defer cancel()
 	err := f(sctx)
 	if err != nil && ctx.Err() == nil && context.Cause(sctx) == errStepDeadline {
-		return &stop{verdict: Fault, msg: fmt.Sprintf("step deadline of %s exceeded (station file step_deadline): %v", d, err)}
+		s := &stop{verdict: Fault, msg: fmt.Sprintf("step deadline of %s exceeded (station file step_deadline): %v", d, err)}
+		if fd, ok := DetailOf(err); ok {
+			return e.blame(fd.Role, fd.Said, s)
+		}
+		return s
 	}
 	return err
 }

@@ -23,6 +23,7 @@ import (
 	"errors"
 	"fmt"
 	"runtime/debug"
+	"slices"
 	"strings"
 	"time"
 
@@ -83,6 +84,13 @@ type Engine struct {
 	// at every step, disarmed once the output is off.
 	watchdogs []instruments.OutputWatchdog
 	queues    []roleQueue // instruments with an error queue, in role order
+
+	// The running unit's progress: the sequence's outline (Sequence.Outline),
+	// the step running (index into it) and the points it has reported.
+	outline  []StepInfo
+	expected time.Duration
+	stepAt   int
+	points   int
 }
 
 // Open checks the station against the sequence (caps, roles, predicted TUR), opens
@@ -115,6 +123,7 @@ func Open(ctx context.Context, cfg Config) (*Engine, error) {
 	}
 	e := &Engine{cfg: cfg, all: all, clock: instruments.RealClock{}, sources: map[string]instruments.Source{}, currents: map[string]instruments.CurrentSource{},
 		meters: map[string]instruments.Meter{}, ports: map[string]instruments.TrimPort{}, switches: map[string]instruments.Switch{}, thermals: map[string]instruments.Thermal{}, meterAt: map[string]MeterPlan{}}
+	e.outline, e.expected = seq.Outline()
 	fail := func(err error) (*Engine, error) {
 		e.Close()
 		return nil, err
@@ -199,18 +208,18 @@ func Open(ctx context.Context, cfg Config) (*Engine, error) {
 		ref := instrumentRef(r, si, e.cfg.Conditions)
 		ref.Identity = instruments.Identity{Maker: "0", Model: "0", Serial: "0", Firmware: "0"}
 		if !si.CalDue.IsZero() && now.After(si.CalDue.AddDate(0, 0, 1)) {
-			return fail(fmt.Errorf("%s %s: calibration expired on %s; recalibrate it or fix cal_due in %s", r, si.Asset, ref.CalDue, st.File.Name))
+			return fail(e.blame(r, "calibration due "+ref.CalDue, fmt.Errorf("%s %s: calibration expired on %s; recalibrate it or fix cal_due in %s", r, si.Asset, ref.CalDue, st.File.Name)))
 		}
 		// A DUT port's identity belongs to the unit in the fixture, read per run.
 		if id, ok := all[r].(instruments.Identifier); ok && si.Kind != DUTPort {
 			got, err := id.Identify(ctx)
 			if err != nil {
-				return fail(fmt.Errorf("%s: identify: %w", r, err))
+				return fail(e.blame(r, err.Error(), fmt.Errorf("%s: identify: %w", r, err)))
 			}
 			ref.Identity = got
 			if si.Model != "" && got.Model != si.Model || si.Serial != "" && got.Serial != si.Serial {
-				return fail(fmt.Errorf("%s %s: instrument identifies as model %q serial %q, station file pins model %q serial %q: wrong instrument on the bench",
-					r, si.Asset, got.Model, got.Serial, si.Model, si.Serial))
+				return fail(e.blame(r, "identifies as "+got.String(), fmt.Errorf("%s %s: instrument identifies as model %q serial %q, station file pins model %q serial %q: wrong instrument on the bench",
+					r, si.Asset, got.Model, got.Serial, si.Model, si.Serial)))
 			}
 		}
 		e.refs = append(e.refs, ref)
@@ -227,19 +236,19 @@ func Open(ctx context.Context, cfg Config) (*Engine, error) {
 		}
 		cs := e.currents[r]
 		if err := e.safeState(ctx, src, cs); err != nil {
-			return fail(fmt.Errorf("put %s in a safe state: %w", r, err))
+			return fail(e.blame(r, err.Error(), fmt.Errorf("put %s in a safe state: %w", r, err)))
 		}
 		// The compliance, before any output is switched on: a voltage source
 		// limits its current to the current cap, a current source its voltage
 		// to the voltage cap.
 		if cs != nil {
 			if err := cs.SetVoltageLimit(ctx, st.MaxSourceVolts); err != nil {
-				return fail(fmt.Errorf("%s: set compliance voltage: %w", r, err))
+				return fail(e.blame(r, err.Error(), fmt.Errorf("%s: set compliance voltage: %w", r, err)))
 			}
 			continue
 		}
 		if err := src.SetCompliance(ctx, st.MaxSourceAmps); err != nil {
-			return fail(fmt.Errorf("%s: set compliance: %w", r, err))
+			return fail(e.blame(r, err.Error(), fmt.Errorf("%s: set compliance: %w", r, err)))
 		}
 	}
 	// A meter asked to read a current must be able to: refused here, before any
@@ -323,14 +332,14 @@ func (e *Engine) configureMeter(ctx context.Context, role string, p MeterPlan) e
 	}
 	if fs, ok := e.meters[role].(instruments.FunctionSetter); ok && p.Function != "" {
 		if err := fs.SetFunction(ctx, p.Function); err != nil {
-			return fmt.Errorf("%s: set function %s: %w", role, p.Function, err)
+			return e.blame(role, err.Error(), fmt.Errorf("%s: set function %s: %w", role, p.Function, err))
 		}
 	} else if p.Function == instruments.FuncCurrent {
 		return &stop{verdict: Fault, msg: fmt.Sprintf("%s: asked to read a current, but it measures DC voltage only (no function setting)", role)}
 	}
 	if mc, ok := e.meters[role].(instruments.MeterConfigurer); ok {
 		if err := mc.Configure(ctx, p.Range, p.NPLC); err != nil {
-			return fmt.Errorf("%s: configure: %w", role, err)
+			return e.blame(role, err.Error(), fmt.Errorf("%s: configure: %w", role, err))
 		}
 	}
 	e.meterAt[role] = p
@@ -389,8 +398,11 @@ type RunOptions struct {
 	Progress func(Event) // nil = Config.Progress
 }
 
-// RunWith is Run with the operator and the progress hook of this one run.
-func (e *Engine) RunWith(ctx context.Context, serial string, o RunOptions) (rec *Record) {
+// RunWith is Run with the operator and the progress hook of this one run. The
+// hook (o.Progress, else Config.Progress) gets the run's events as progress.go
+// lists them, the last, EventUnitEnd, once the source is off and the record
+// complete.
+func (e *Engine) RunWith(ctx context.Context, serial string, o RunOptions) *Record {
 	if o.Progress != nil {
 		saved := e.cfg.Progress
 		e.cfg.Progress = o.Progress
@@ -400,6 +412,14 @@ func (e *Engine) RunWith(ctx context.Context, serial string, o RunOptions) (rec 
 	if o.Operator != "" {
 		operator = o.Operator
 	}
+	rec := e.runUnit(ctx, serial, operator)
+	e.emit(Event{Kind: EventUnitEnd, Serial: rec.Serial, RunID: rec.RunID, Verdict: rec.Verdict})
+	return rec
+}
+
+// runUnit is RunWith without its hook's last event: the deferred safe-off has
+// run when it returns.
+func (e *Engine) runUnit(ctx context.Context, serial, operator string) (rec *Record) {
 	st, seq := e.cfg.Station, e.cfg.Sequence
 	now := e.clock.Now().UTC()
 	rec = &Record{
@@ -419,6 +439,7 @@ func (e *Engine) RunWith(ctx context.Context, serial string, o RunOptions) (rec 
 	log := e.cfg.Log.With().Str("serial", serial).Str("run", rec.RunID).Logger()
 	u := newUnit(e.cfg, rec, live)
 	u.e, u.log = e, log
+	e.emit(Event{Kind: EventUnitStart, Serial: serial, RunID: rec.RunID, Steps: slices.Clone(e.outline), Expected: e.expected})
 	defer func() {
 		if p := recover(); p != nil {
 			log.Error().Str("stack", string(debug.Stack())).Msgf("panic: %v", p)
@@ -470,6 +491,11 @@ func (e *Engine) RunWith(ctx context.Context, serial string, o RunOptions) (rec 
 	default:
 		rec.Verdict, rec.Fault = Fault, err.Error()
 	}
+	if rec.Verdict == Fault {
+		if d, ok := DetailOf(err); ok {
+			rec.FaultDetail = &d
+		}
+	}
 	if rec.Verdict == Fault || rec.Verdict == Aborted {
 		log.Warn().Str("verdict", string(rec.Verdict)).Msg(rec.Fault)
 	}
@@ -482,8 +508,8 @@ func (e *Engine) run(ctx context.Context, u *Unit) error {
 	for _, r := range seq.Requires {
 		si := e.cfg.Station.Instruments[r]
 		if !si.CalDue.IsZero() && rec.Started.After(si.CalDue.AddDate(0, 0, 1)) {
-			return &stop{verdict: Fault, msg: fmt.Sprintf("%s %s: calibration expired on %s; recalibrate it or fix cal_due in %s",
-				r, si.Asset, si.CalDue.Format("2006-01-02"), e.cfg.Station.File.Name)}
+			return e.blame(r, "calibration due "+si.CalDue.Format("2006-01-02"), &stop{verdict: Fault, msg: fmt.Sprintf("%s %s: calibration expired on %s; recalibrate it or fix cal_due in %s",
+				r, si.Asset, si.CalDue.Format("2006-01-02"), e.cfg.Station.File.Name)})
 		}
 	}
 	// A simulated fixture is told which unit it holds.
@@ -491,7 +517,7 @@ func (e *Engine) run(ctx context.Context, u *Unit) error {
 		if fl, ok := e.ports[r].(instruments.FixtureLoader); ok {
 			err := e.step(ctx, func(ctx context.Context) error { return fl.LoadUnit(ctx, rec.Serial) })
 			if err != nil {
-				return fmt.Errorf("load unit into fixture: %w", err)
+				return e.blame(r, err.Error(), fmt.Errorf("load unit into fixture: %w", err))
 			}
 		}
 	}
@@ -509,9 +535,13 @@ func (e *Engine) run(ctx context.Context, u *Unit) error {
 // holds is skipped, and once a step ends the run the rest are not reached.
 func runSteps(ctx context.Context, u *Unit) error {
 	endedAt := "" // the step whose Run ended the run
-	for _, d := range u.seq.Steps {
+	for i, d := range u.seq.Steps {
 		sr := StepRun{Name: d.Name, Channel: d.Channel, Kind: d.Kind, Stage: d.Stage, Status: StepDone}
 		u.step, u.channel = d, d.Channel
+		if u.progressed() {
+			u.e.stepAt = i
+		}
+		u.emitStep(EventStepStart, i, "")
 		switch {
 		case u.ended:
 			sr.Status, sr.Note = StepNotReached, notReachedNote(endedAt, u.endNote)
@@ -521,6 +551,7 @@ func runSteps(ctx context.Context, u *Unit) error {
 			// runs every step.
 			skip, note, err := d.skip.eval(u)
 			if err != nil {
+				u.emitStep(EventStepEnd, i, StepStopped)
 				return fmt.Errorf("step %q: skip_if: %w", d.Name, err)
 			}
 			if skip {
@@ -532,11 +563,13 @@ func runSteps(ctx context.Context, u *Unit) error {
 		if sr.Status == StepDone {
 			if d.Channel != "" && u.Live() && routed(d) {
 				if err := u.e.route(ctx, d.Channel); err != nil {
+					u.emitStep(EventStepEnd, i, StepStopped)
 					return err
 				}
 			}
 			wasEnded := u.ended
 			if err := d.Step.Run(ctx, u); err != nil {
+				u.emitStep(EventStepEnd, i, StepStopped)
 				return err
 			}
 			if u.ended && !wasEnded {
@@ -547,6 +580,7 @@ func runSteps(ctx context.Context, u *Unit) error {
 		if u.mode != predicting {
 			u.Rec.Steps = append(u.Rec.Steps, sr)
 		}
+		u.emitStep(EventStepEnd, i, sr.Status)
 	}
 	return nil
 }

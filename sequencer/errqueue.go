@@ -22,7 +22,7 @@ type roleQueue struct {
 func (e *Engine) checkErrors(ctx context.Context, where func() string) error {
 	for _, rq := range e.queues {
 		if err := rq.q.CheckErrors(ctx); err != nil {
-			return fmt.Errorf("%s: %s: %w", where(), rq.role, err)
+			return e.blame(rq.role, err.Error(), fmt.Errorf("%s: %s: %w", where(), rq.role, err))
 		}
 	}
 	return nil

@@ -22,10 +22,11 @@ func (e *Engine) checkInterlock(ctx context.Context) error {
 	q := e.all[il.Role].(instruments.Querier)
 	got, err := q.Query(ctx, il.Query)
 	if err != nil {
-		return fmt.Errorf("interlock: %s %q: %w", il.Role, il.Query, err)
+		return e.blame(il.Role, err.Error(), fmt.Errorf("interlock: %s %q: %w", il.Role, il.Query, err))
 	}
 	if strings.TrimSpace(got) != il.Closed {
-		return &stop{verdict: Fault, msg: fmt.Sprintf("interlock open: %s answered %q to %q, expected %q; close the fixture lid", il.Role, strings.TrimSpace(got), il.Query, il.Closed)}
+		return e.blame(il.Role, fmt.Sprintf("%q to %q (closed is %q)", strings.TrimSpace(got), il.Query, il.Closed),
+			&stop{verdict: Fault, msg: fmt.Sprintf("interlock open: %s answered %q to %q, expected %q; close the fixture lid", il.Role, strings.TrimSpace(got), il.Query, il.Closed)})
 	}
 	return nil
 }

@@ -214,6 +214,10 @@ type Disposition struct {
 	Reviewer      string    `json:"reviewer"`       // name, as the station file lists the person
 	Reason        string    `json:"reason"`         // the reviewer's reason, in words
 	At            time.Time `json:"at"`
+	// Tested is when the REVIEW run decided on ended: the time of the test
+	// the certificate states (the disposition record's own Started and
+	// Finished are the time of the decision, when its certificate is issued).
+	Tested time.Time `json:"tested,omitzero"`
 	// Authenticated says how the reviewer was known: "station sign-in",
 	// "passphrase", or "key ed25519:…".
 	Authenticated string `json:"authenticated,omitempty"`

@@ -45,6 +45,15 @@ func Replay(cfg Config, stored *Record) (*Record, error) {
 		return nil, fmt.Errorf("%s: replay: %w", stored.RunID, err)
 	}
 	finish(u)
+	// A review decision applies to a run held for REVIEW: the unit then takes the
+	// decision's verdict. On a run that recomputes to anything else it does not
+	// apply, and Differences says so.
+	if dp := stored.Disposition; dp != nil && rec.Verdict == Review {
+		if v, ok := dp.Final(); ok {
+			copied := *dp
+			rec.Verdict, rec.Disposition = v, &copied
+		}
+	}
 	return rec, nil
 }
 
@@ -61,6 +70,10 @@ func Replay(cfg Config, stored *Record) (*Record, error) {
 // A record of metrology revision 0 that has no budget on any result, or no
 // lack of fit on any fit, was made before they were kept: they are then not
 // compared.
+// A record that carries a review decision (Record.Disposition) recomputes to
+// REVIEW and then takes the decision's verdict (PASS on accept, FAIL on
+// reject); a decision on a run that recomputes to anything but REVIEW is a
+// difference.
 // Facts of the run that a replay takes from the stored record (readings,
 // read-backs, soaks, identities, times) and words (notes, reasons,
 // statements) are not compared. Numbers agree when they match to 1e-9
@@ -70,6 +83,14 @@ func Replay(cfg Config, stored *Record) (*Record, error) {
 func Differences(recorded, replayed *Record) []string {
 	var d differ
 	d.same("verdict", recorded.Verdict, replayed.Verdict)
+	if dp := recorded.Disposition; dp != nil && replayed.Disposition == nil {
+		if _, ok := dp.Final(); !ok {
+			d.add("review decision %q: neither %s nor %s", dp.Decision, DecisionAccept, DecisionReject)
+		} else {
+			d.add("review decision %s of %s: the run recomputes to %s, not REVIEW, so no review decision applies to it",
+				dp.Decision, dp.OfCertificate, replayed.Verdict)
+		}
+	}
 	d.num("ideal gain", recorded.IdealGain, replayed.IdealGain)
 	d.num("ideal offset", recorded.IdealOffset, replayed.IdealOffset)
 	d.num("full scale", recorded.FullScale, replayed.FullScale)

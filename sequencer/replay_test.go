@@ -24,6 +24,7 @@ var notRecomputed = map[string]string{
 	".Software": "copied", ".Started": "copied", ".Finished": "copied", ".Files": "copied",
 	".Instruments": "copied", ".Conditions": "copied", ".Simulated": "copied",
 	".Engineering": "copied", ".RetestOf": "copied",
+	".Disposition":                   "the reviewer's decision, copied; Differences checks that it applies (TestReplayOfReviewDecision)",
 	".Soaks":                         "the temperatures read are facts of the run, copied",
 	".Sweeps[].Points[].Readings":    "facts of the run, copied",
 	".Sweeps[].TempC":                "from the stored sweep",

@@ -148,7 +148,7 @@ func (e *Engine) setLevel(ctx context.Context, role string, level float64) error
 			return &stop{verdict: Fault, msg: fmt.Sprintf("%v: refusing to program %s, above the station cap of %s", ErrSafety, fmtA(level), fmtA(st.MaxSourceAmps)), cause: ErrSafety}
 		}
 		if err := cs.SetCurrent(ctx, level); err != nil {
-			return fmt.Errorf("%s: set current %s: %w", role, fmtA(level), err)
+			return e.blame(role, err.Error(), fmt.Errorf("%s: set current %s: %w", role, fmtA(level), err))
 		}
 		return nil
 	}
@@ -156,7 +156,7 @@ func (e *Engine) setLevel(ctx context.Context, role string, level float64) error
 		return &stop{verdict: Fault, msg: fmt.Sprintf("%v: refusing to program %s, above the station cap of %s", ErrSafety, fmtV(level), fmtV(st.MaxSourceVolts)), cause: ErrSafety}
 	}
 	if err := e.sources[role].SetLevel(ctx, level); err != nil {
-		return fmt.Errorf("%s: set level %s: %w", role, fmtV(level), err)
+		return e.blame(role, err.Error(), fmt.Errorf("%s: set level %s: %w", role, fmtV(level), err))
 	}
 	return nil
 }

@@ -306,7 +306,10 @@ type sequenceFile struct {
 	Limits        string   `yaml:"limits"`
 	LimitsVariant string   `yaml:"limits_variant"`
 	SerialPattern *string  `yaml:"serial_pattern"`
-	Ideal         struct {
+	Retest        *struct {
+		MaxAttempts *int `yaml:"max_attempts"`
+	} `yaml:"retest"`
+	Ideal struct {
 		Gain      *units.Per      `yaml:"gain"`
 		Offset    *units.Quantity `yaml:"offset"`
 		FullScale *units.Quantity `yaml:"full_scale"`
@@ -423,6 +426,16 @@ func parseSequence(name string, data []byte, read func(path string) ([]byte, err
 		}
 	}
 	serialPattern(doc, s, f.SerialPattern, &errs)
+	if f.Retest != nil {
+		switch n := f.Retest.MaxAttempts; {
+		case n == nil:
+			bad("$.retest", "missing required key \"max_attempts\" (how many measured runs a unit gets before it must go to rework, e.g. 3)")
+		case *n < 1 || *n > MaxAttempts:
+			bad("$.retest.max_attempts", "expected 1 to %d measured runs a unit gets before it must go to rework, found %d", MaxAttempts, *n)
+		default:
+			s.MaxAttempts = *n
+		}
+	}
 	switch s.Uncertainty, s.MCTrials, s.MCInterval = f.Uncertainty.Method, f.Uncertainty.Trials, f.Uncertainty.Interval; s.Uncertainty {
 	case "":
 		s.Uncertainty = "gum"
@@ -759,6 +772,9 @@ const (
 	MaxRunTime = 24 * time.Hour
 	// MaxRunReadings bounds the meter readings of one run: about 40 MB of record.
 	MaxRunReadings = 400_000
+	// MaxAttempts bounds retest.max_attempts: a unit measured this often is
+	// being tested into a pass, not tested.
+	MaxAttempts = 20
 	// MaxDACBits is the widest trim DAC.
 	MaxDACBits = 24
 )

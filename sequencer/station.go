@@ -502,6 +502,7 @@ type stationFile struct {
 	Output struct {
 		Folder string `yaml:"folder"`
 	} `yaml:"output"`
+	People []personDecl `yaml:"people"`
 }
 
 // Bounds on the durations a station file sets: a wait longer than these is a
@@ -717,6 +718,7 @@ func parseStation(name string, data []byte, recorded bool) (*Station, error) {
 			st.SigningKey = filepath.Join(filepath.Dir(name), k)
 		}
 	}
+	st.People = people(doc, name, f.People, &errs)
 	st.OutputFolder = f.Output.Folder
 	if st.OutputFolder != "" && !filepath.IsAbs(st.OutputFolder) {
 		st.OutputFolder = filepath.Join(filepath.Dir(name), st.OutputFolder)

@@ -47,7 +47,7 @@ func (s *identifyStep) Run(ctx context.Context, u *Unit) error {
 		if q := s.SerialQuery; q != "" {
 			got, err := port.Query(ctx, q)
 			if err != nil {
-				return fmt.Errorf("%s: read serial number: %w", s.Port, err)
+				return u.e.blame(s.Port, err.Error(), fmt.Errorf("%s: read serial number: %w", s.Port, err))
 			}
 			if strings.TrimSpace(got) != rec.Serial {
 				return u.Fault("the unit in the fixture reports serial %q but %q was scanned: wrong unit in the fixture", strings.TrimSpace(got), rec.Serial)
@@ -56,7 +56,7 @@ func (s *identifyStep) Run(ctx context.Context, u *Unit) error {
 		if q := s.FirmwareQuery; q != "" {
 			fw, err := port.Query(ctx, q)
 			if err != nil {
-				return fmt.Errorf("%s: read firmware id: %w", s.Port, err)
+				return u.e.blame(s.Port, err.Error(), fmt.Errorf("%s: read firmware id: %w", s.Port, err))
 			}
 			for i := range rec.Instruments {
 				if rec.Instruments[i].Role == s.Port {
@@ -151,14 +151,14 @@ func (s *commandStep) Run(ctx context.Context, u *Unit) error {
 			if l.Command != "" {
 				line := l.text(u, l.Command)
 				if err := port.Command(ctx, line); err != nil {
-					return fmt.Errorf("%s: %q: %w", s.Port, line, err)
+					return u.e.blame(s.Port, err.Error(), fmt.Errorf("%s: %q: %w", s.Port, line, err))
 				}
 				return nil
 			}
 			line := l.text(u, l.Query)
 			got, err := port.Query(ctx, line)
 			if err != nil {
-				return fmt.Errorf("%s: %q: %w", s.Port, line, err)
+				return u.e.blame(s.Port, err.Error(), fmt.Errorf("%s: %q: %w", s.Port, line, err))
 			}
 			got = strings.TrimSpace(got)
 			switch {

@@ -178,6 +178,7 @@ func (s *measureStep) Run(ctx context.Context, u *Unit) error {
 		if err != nil {
 			return err
 		}
+		u.emitPoint(s.plan.From, sw.Points[0].Mean, s.ideal(u.seq))
 	case u.Replaying():
 		stored, ok := storedSweep(u.stored, name, u.channel)
 		if !ok || len(stored.Points) != 1 {
@@ -233,8 +234,8 @@ func (s *measureStep) measure(ctx context.Context, u *Unit) ([]instruments.Readi
 		// invalid reading is the station's problem, not a measurement.
 		for j, r := range rs {
 			if !r.Valid() {
-				return u.Fault("%s: meter reported %s (reading %d of %d): check the meter range and the wiring",
-					where(), firstBad(rs[j:j+1]), j+1, len(rs))
+				return u.e.blame(p.readerRole(), "reported "+firstBad(rs[j:j+1]), u.Fault("%s: meter reported %s (reading %d of %d): check the meter range and the wiring",
+					where(), firstBad(rs[j:j+1]), j+1, len(rs)))
 			}
 		}
 		return u.e.checkErrors(ctx, where)

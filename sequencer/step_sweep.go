@@ -416,7 +416,7 @@ func (e *Engine) sweep(ctx context.Context, u *Unit, name string, p SweepPlan) (
 			}
 			if i == 0 {
 				if err := src.SetOutput(ctx, true); err != nil {
-					return fmt.Errorf("%s sweep: source output on: %w", name, err)
+					return e.blame(p.Source, err.Error(), fmt.Errorf("%s sweep: source output on: %w", name, err))
 				}
 			}
 			if err := e.clock.Sleep(ctx, p.Settle); err != nil {
@@ -432,8 +432,8 @@ func (e *Engine) sweep(ctx context.Context, u *Unit, name string, p SweepPlan) (
 			// wiring, a failing meter), not a measurement of the unit.
 			for j, r := range rs {
 				if !r.Valid() {
-					return &stop{verdict: Fault, msg: fmt.Sprintf("%s sweep at %s: meter reported %s (reading %d of %d): check the meter range and the wiring",
-						name, fmtStim(p.Stimulus, x), firstBad(rs[j:j+1]), j+1, len(rs))}
+					return e.blame(p.Meter, "reported "+firstBad(rs[j:j+1]), &stop{verdict: Fault, msg: fmt.Sprintf("%s sweep at %s: meter reported %s (reading %d of %d): check the meter range and the wiring",
+						name, fmtStim(p.Stimulus, x), firstBad(rs[j:j+1]), j+1, len(rs))})
 				}
 			}
 			return e.checkErrors(ctx, func() string { return fmt.Sprintf("%s sweep at %s", name, fmtStim(p.Stimulus, x)) })
@@ -442,9 +442,10 @@ func (e *Engine) sweep(ctx context.Context, u *Unit, name string, p SweepPlan) (
 			return sw, err
 		}
 		u.log.Debug().Str("sweep", name).Float64("x", x).Float64("y", sw.Points[i].Mean).Msg("point")
+		u.emitPoint(x, sw.Points[i].Mean, u.seq.IdealGain*x+u.seq.IdealOffset)
 	}
 	if err := e.step(ctx, func(ctx context.Context) error { return src.SetOutput(ctx, false) }); err != nil {
-		return sw, fmt.Errorf("%s sweep: source output off: %w", name, err)
+		return sw, e.blame(p.Source, "", fmt.Errorf("%s sweep: source output off: %w", name, err))
 	}
 	return sw, nil
 }
@@ -461,7 +462,7 @@ func (e *Engine) readings(ctx context.Context, u *Unit, p SweepPlan, where func(
 		}
 		rs, err := e.meters[p.Meter].Read(ctx, p.Readings)
 		if err != nil {
-			return nil, fmt.Errorf("%s: read meter: %w", where(), err)
+			return nil, e.blame(p.Meter, err.Error(), fmt.Errorf("%s: read meter: %w", where(), err))
 		}
 		return rs, nil
 	}
@@ -474,7 +475,7 @@ func (e *Engine) readings(ctx context.Context, u *Unit, p SweepPlan, where func(
 	for i := range p.Readings {
 		reply, err := port.Query(ctx, q)
 		if err != nil {
-			return nil, fmt.Errorf("%s: read the unit (%q on %s): %w", where(), q, r.Port, err)
+			return nil, e.blame(r.Port, err.Error(), fmt.Errorf("%s: read the unit (%q on %s): %w", where(), q, r.Port, err))
 		}
 		v, err := strconv.ParseFloat(strings.TrimSpace(reply), 64)
 		if err != nil || !finite(v) {

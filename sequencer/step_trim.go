@@ -430,7 +430,7 @@ func (s *storeStep) Run(ctx context.Context, u *Unit) error {
 	if err != nil {
 		return err
 	}
-	if err := u.Do(ctx, func(ctx context.Context) error { return port.Command(ctx, s.Command) }); err != nil {
+	if err := u.Do(ctx, func(ctx context.Context) error { return u.e.blame(s.Port, "", port.Command(ctx, s.Command)) }); err != nil {
 		return fmt.Errorf("%s: store trim codes: %w", s.Port, err)
 	}
 	for i := range u.Rec.Trims {
@@ -448,14 +448,15 @@ func (e *Engine) writeCode(ctx context.Context, d DAC, code int) error {
 	return e.step(ctx, func(ctx context.Context) error {
 		port := e.ports[d.Port]
 		if err := port.Command(ctx, d.Line(code)); err != nil {
-			return fmt.Errorf("%s: write %s trim code %d: %w", d.Port, d.Name, code, err)
+			return e.blame(d.Port, err.Error(), fmt.Errorf("%s: write %s trim code %d: %w", d.Port, d.Name, code, err))
 		}
 		got, err := e.readCode(ctx, d)
 		if err != nil {
 			return err
 		}
 		if got != code {
-			return &stop{verdict: Fault, msg: fmt.Sprintf("%s: %s trim read back %d after writing %d", d.Port, d.Name, got, code)}
+			return e.blame(d.Port, fmt.Sprintf("read back %d after %d was written", got, code),
+				&stop{verdict: Fault, msg: fmt.Sprintf("%s: %s trim read back %d after writing %d", d.Port, d.Name, got, code)})
 		}
 		return nil
 	})
@@ -466,11 +467,12 @@ func (e *Engine) writeCode(ctx context.Context, d DAC, code int) error {
 func (e *Engine) readCode(ctx context.Context, d DAC) (int, error) {
 	reply, err := e.ports[d.Port].Query(ctx, d.Read)
 	if err != nil {
-		return 0, fmt.Errorf("%s: read %s trim code: %w", d.Port, d.Name, err)
+		return 0, e.blame(d.Port, err.Error(), fmt.Errorf("%s: read %s trim code: %w", d.Port, d.Name, err))
 	}
 	c, err := d.ParseWord(reply)
 	if err != nil {
-		return 0, &stop{verdict: Fault, msg: fmt.Sprintf("%s: %s trim read-back %q is not a code", d.Port, d.Name, reply)}
+		return 0, e.blame(d.Port, fmt.Sprintf("%q, which is not a code", reply),
+			&stop{verdict: Fault, msg: fmt.Sprintf("%s: %s trim read-back %q is not a code", d.Port, d.Name, reply)})
 	}
 	return c, nil
 }

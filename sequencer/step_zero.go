@@ -284,8 +284,8 @@ func (s *zeroStep) measure(ctx context.Context, u *Unit) (shorted, atZero []inst
 		}
 		for j, r := range rs { // as in a sweep: an invalid reading is the station's problem
 			if !r.Valid() {
-				return rs, u.Fault("%s: meter reported %s (reading %d of %d): check the meter range and the wiring",
-					where(), firstBad(rs[j:j+1]), j+1, len(rs))
+				return rs, u.e.blame(p.readerRole(), "reported "+firstBad(rs[j:j+1]), u.Fault("%s: meter reported %s (reading %d of %d): check the meter range and the wiring",
+					where(), firstBad(rs[j:j+1]), j+1, len(rs)))
 			}
 		}
 		return rs, nil
@@ -305,6 +305,9 @@ func (s *zeroStep) measure(ctx context.Context, u *Unit) (shorted, atZero []inst
 		return u.e.checkErrors(ctx, where)
 	})
 	if err == nil {
+		u.emitPoint(0, point(0, shorted).Mean, u.seq.IdealOffset)
+	}
+	if err == nil {
 		err = u.Do(ctx, func(ctx context.Context) error {
 			if err := u.Output(ctx, p.Source, true); err != nil {
 				return fmt.Errorf("%s: source output on: %w", name, err)
@@ -316,6 +319,9 @@ func (s *zeroStep) measure(ctx context.Context, u *Unit) (shorted, atZero []inst
 			}
 			return u.e.checkErrors(ctx, where)
 		})
+		if err == nil {
+			u.emitPoint(0, point(0, atZero).Mean, u.seq.IdealOffset)
+		}
 	}
 	if offErr := u.Do(ctx, func(ctx context.Context) error { return u.Output(ctx, p.Source, false) }); offErr != nil && err == nil {
 		err = fmt.Errorf("%s: source output off: %w", name, offErr)

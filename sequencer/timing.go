@@ -55,3 +55,41 @@ func CheckTiming(st *Station, seq *Sequence) error {
 	}
 	return nil
 }
+
+// Outline lists the sequence's steps as a progress screen shows them (one entry
+// per step and channel, in run order, as Sequence.Steps) and the run's expected
+// duration: the sum of the steps' timing estimates (Timed.Budget: the settles and
+// the readings at the meter's integration time on a 50 Hz line; for a re-trim
+// every pass, for a soak its timeout, so an upper bound there). A step without an
+// estimate (a fit, a trim, a command) counts 0; the instruments' exchanges are
+// not counted, so a bench over a wire takes longer.
+func (s *Sequence) Outline() (steps []StepInfo, expected time.Duration) {
+	for _, d := range s.Steps {
+		in := StepInfo{Name: d.Name, Kind: d.Kind, Channel: d.Channel}
+		if t, ok := d.Step.(Timed); ok {
+			in.Expected, _ = t.Budget()
+		}
+		if p, ok := d.Step.(pointed); ok {
+			in.Points = p.points()
+		}
+		expected += in.Expected
+		steps = append(steps, in)
+	}
+	return steps, expected
+}
+
+// pointed is a step that reports reading points as it runs (EventPoint): points
+// is how many a run of it takes at most.
+type pointed interface{ points() int }
+
+var (
+	_ pointed = (*sweepStep)(nil)
+	_ pointed = (*measureStep)(nil)
+	_ pointed = (*zeroStep)(nil)
+	_ pointed = (*retrimStep)(nil)
+)
+
+func (s *sweepStep) points() int   { return s.Plan.Points }
+func (s *measureStep) points() int { return 1 }
+func (s *zeroStep) points() int    { return 2 } // shorted, then at a programmed 0
+func (s *retrimStep) points() int  { return s.maxPasses * len(s.plan.List) }

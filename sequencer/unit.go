@@ -305,7 +305,7 @@ func (u *Unit) Output(ctx context.Context, role string, on bool) error {
 			return err
 		}
 	}
-	return src.SetOutput(ctx, on)
+	return u.e.blame(role, "", src.SetOutput(ctx, on))
 }
 
 // Read takes n readings in a row from the meter bound to role, set to p (its
@@ -325,7 +325,8 @@ func (u *Unit) Read(ctx context.Context, role string, n int, p MeterPlan) ([]ins
 	if err := u.e.configureMeter(ctx, role, p); err != nil {
 		return nil, err
 	}
-	return m.Read(ctx, n)
+	rs, err := m.Read(ctx, n)
+	return rs, u.e.blame(role, "", err)
 }
 
 // Wait waits d on the bench's clock (the simulated bench's own clock on the

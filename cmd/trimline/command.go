@@ -53,6 +53,7 @@ func trimline() *command {
 		Commands: []*command{
 			newAuditCmd(), newBenchCmd(), newCheckCmd(), newConsoleCmd(), newDemoCmd(), newExportCmd(),
 			newFitCmd(), newImportCmd(), newKeysCmd(), newLimitsCmd(), newReprintCmd(), newRunCmd(),
+			newReviewCmd(),
 		},
 	}
 	root.walk(func(c *command) {

@@ -113,7 +113,7 @@ func exitCode(err error) int {
 		errors.Is(err, audit.ErrUntrustedVoid),
 		errors.Is(err, sequencer.ErrSafety), errors.Is(err, sequencer.ErrUnboundRole), errors.Is(err, sequencer.ErrTUR),
 		errors.Is(err, sequencer.ErrStepTiming),
-		errors.Is(err, sequencer.ErrBadSerial), errors.Is(err, issuing.ErrTestedBefore),
+		errors.Is(err, sequencer.ErrBadSerial), errors.Is(err, issuing.ErrTestedBefore), errors.Is(err, issuing.ErrAttemptsUsed),
 		errors.Is(err, signing.ErrNoTrust), errors.Is(err, signing.ErrUnsafeKeyFolder),
 		errors.Is(err, fit.ErrTooFewPoints), errors.Is(err, fit.ErrSingular), errors.Is(err, fit.ErrInvalidInput),
 		errors.Is(err, fit.ErrNotFinite):

@@ -29,6 +29,12 @@ type batch struct {
 // detailed is a files.List printed with source excerpts.
 type detailed = shift.Detailed
 
+// loadFiles loads the station and sequence files (shift.Load); problems are
+// bad input.
+func loadFiles(ctx context.Context, stationPath, sequencePath string) (*sequencer.Station, *sequencer.Sequence, error) {
+	return shift.Load(ctx, stationPath, sequencePath)
+}
+
 // runBatch wires a batch together through a shift (the files, the output
 // folder, the log, the ledger, the release check, the issuer and the engine);
 // then it runs every serial and prints a line (or a JSON object) per unit.

@@ -205,10 +205,50 @@ func certificateCheck(ctx context.Context, led *ledger.Ledger, ledgerName, path 
 	}
 	if st.Superseded {
 		id.SupersededBy = st.SupersededBy
-		return verdict(Superseded, append(why, fmt.Sprintf("superseded by %s: serial %s was retested on %s (run %s); this certificate is no longer current",
-			st.SupersededBy, rec.Serial, st.SupersededAt.UTC().Format("2006-01-02 15:04 UTC"), st.SupersededByRun))...), nil
+		how := "was retested"
+		if by, err := led.Run(ctx, st.SupersededByRun); err == nil && by.Disposition != nil && by.Disposition.Of == meta.RunID {
+			how = "held for REVIEW, was " + by.Disposition.OnReview() + " by " + by.Disposition.Reviewer
+		}
+		return verdict(Superseded, append(why, fmt.Sprintf("superseded by %s: serial %s %s on %s (run %s); this certificate is no longer current",
+			st.SupersededBy, rec.Serial, how, st.SupersededAt.UTC().Format("2006-01-02 15:04 UTC"), st.SupersededByRun))...), nil
+	}
+	if rec.Disposition != nil {
+		r, err := reviewReason(ctx, led, rec.Disposition)
+		if err != nil {
+			return Verdict{}, err
+		}
+		why = append(why, r)
 	}
 	return verdict(Genuine, why...), nil
+}
+
+// reviewReason says how a review decided a unit, as the record signed by the
+// station states it, and what the ledger's audit trail holds of it: the
+// reviewer's signature over the decision (signing.ReviewMessage) checked with
+// the public key recorded beside it. The trail's entry says who decided; the
+// record, signed by the station, is what the verdict rests on.
+func reviewReason(ctx context.Context, led *ledger.Ledger, dp *sequencer.Disposition) (string, error) {
+	s := fmt.Sprintf("%s by %s on %s (%s), replacing the REVIEW certificate %s: %q",
+		dp.OnReview(), dp.Reviewer, dp.At.UTC().Format("2006-01-02 15:04 UTC"), dp.Authenticated, dp.OfCertificate, dp.Reason)
+	e, ok, err := led.ReviewDecision(ctx, dp.OfCertificate)
+	switch {
+	case err != nil:
+		return "", err
+	case !ok:
+		return s + "; the audit trail holds no entry of the decision", nil
+	case e.Reviewer != dp.Reviewer || e.Decision != dp.Decision || e.Reason != dp.Reason:
+		return s + fmt.Sprintf("; the audit trail's entry %d says otherwise: %s by %s: %q", e.Seq, e.Decision, e.Reviewer, e.Reason), nil
+	case e.Signature == "":
+		return s + fmt.Sprintf("; audit trail entry %d records it, unsigned by the reviewer", e.Seq), nil
+	}
+	pub, perr := base64.StdEncoding.DecodeString(e.PublicKey)
+	sig, serr := base64.StdEncoding.DecodeString(e.Signature)
+	at, terr := time.Parse(time.RFC3339Nano, e.SignedAt)
+	if perr != nil || serr != nil || terr != nil || len(pub) != ed25519.PublicKeySize || signing.KeyID(pub) != e.KeyID ||
+		!signing.Verify(pub, signing.ReviewMessage(dp.OfCertificate, e.Decision, e.Reviewer, e.Reason, at), sig) {
+		return s + fmt.Sprintf("; the reviewer's signature in audit trail entry %d does NOT verify", e.Seq), nil
+	}
+	return s + fmt.Sprintf("; the reviewer's signature in audit trail entry %d verifies with key %s", e.Seq, e.KeyID), nil
 }
 
 // VoidApprover returns the approver of approvers who signed st's void, when its

@@ -95,7 +95,9 @@ type Manifestation struct {
 // Write renders the certificate for rec to w. Identical (rec, opt) give
 // byte-identical PDFs. Records of any verdict render; FAULT and ABORTED records are
 // marked as not certified. A REVIEW record is a certificate whose verdict box says
-// the unit is held for review.
+// the unit is held for review. A record that carries a review decision
+// (Record.Disposition) is a certificate of the final verdict with a “Review
+// decision” section (review.go).
 func Write(w io.Writer, rec *sequencer.Record, opt Options) error {
 	if rec == nil {
 		return errors.New("certificate: nil record")

@@ -161,6 +161,8 @@ func (d *doc) decisionRule() {
 	}
 	if r.Verdict == sequencer.Review {
 		fs = append(fs, para{"Review", "This unit is held for review by a person before it ships; the reasons are listed above."})
+	} else if dp := d.decided(); dp != nil {
+		fs = append(fs, para{"Review", "This unit was held for review and " + dp.OnReview() + " by a person; see “Review decision” above."})
 	}
 	if statements {
 		fs = append(fs, para{"Statements", "The statement of each toleranced limit is listed under “Decision statements” in the measurement detail."})

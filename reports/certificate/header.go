@@ -107,7 +107,7 @@ func (d *doc) header() {
 		when = "Run ended "
 	}
 	d.Cell(right-60, top+11.5, 60, 4, when+fmtTime(d.rec.Finished), pdfdoc.Small, "R")
-	if d.benchTime() {
+	if d.benchTime() && d.decided() == nil { // a review decision is issued when it is made
 		d.Cell(right-60, top+14.8, 60, 4, "simulated-bench time, not the time of day", pdfdoc.Bold.Sized(6.8).With(colSimulated), "R")
 	}
 
@@ -150,11 +150,11 @@ func (d *doc) identification() {
 	if r.Revision != "" {
 		product += ",  revision " + r.Revision
 	}
-	tested := fmtTime(r.Finished)
+	tested := fmtTime(d.testedAt())
 	if d.benchTime() {
 		tested += ", simulated-bench time"
 	}
-	if !r.Started.IsZero() && !r.Finished.IsZero() && r.Finished.After(r.Started) {
+	if d.decided() == nil && !r.Started.IsZero() && !r.Finished.IsZero() && r.Finished.After(r.Started) {
 		run := r.Finished.Sub(r.Started)
 		if soak := soakTime(r.Soaks); len(r.Soaks) > 0 && soak <= run {
 			// A soak waits for a chamber: the time the unit was tested is apart.
@@ -201,7 +201,7 @@ func (d *doc) identification() {
 	const boxW, boxH = 54.0, 34.0
 	bx := marginL + contentW - boxW
 	c, note := d.verdictLook()
-	if d.simulated() {
+	if d.simulated() && d.decided() == nil { // a decision was made on the record, not on the bench
 		note += " on a simulated bench"
 	}
 	d.FillRect(bx, top, boxW, boxH, c)
@@ -225,6 +225,9 @@ func (d *doc) identification() {
 // verdictLook is the colour of the verdict box and the line under the word.
 func (d *doc) verdictLook() (pdfdoc.Color, string) {
 	r := d.rec
+	if dp := d.decided(); dp != nil {
+		return reviewLook(dp)
+	}
 	n := len(r.Outcomes)
 	// failed counts the limits that did not pass; cond and turHeld those of them
 	// that did not fail outright (a conditional zone, a pass held for its TUR).
@@ -274,7 +277,7 @@ func (d *doc) verdictLook() (pdfdoc.Color, string) {
 // reasons lists why the verdict is not PASS, in a tinted block.
 func (d *doc) reasons() {
 	r := d.rec
-	if r.Verdict == sequencer.Pass {
+	if r.Verdict == sequencer.Pass && d.decided() == nil {
 		return
 	}
 	items := append([]string(nil), r.Reasons...)
@@ -306,7 +309,12 @@ func (d *doc) reasons() {
 		st     pdfdoc.Style
 		bullet bool
 	}
-	lines := []line{{"Why the verdict is " + dash(string(r.Verdict)), pdfdoc.Bold.Sized(8.5).With(c), false}}
+	title := "Why the verdict is " + dash(string(r.Verdict))
+	if d.decided() != nil {
+		// The reasons are the REVIEW run's; the verdict is the reviewer's.
+		title, c, bg = "Why the unit was held for REVIEW", pdfdoc.Review, colReviewBg
+	}
+	lines := []line{{title, pdfdoc.Bold.Sized(8.5).With(c), false}}
 	for _, it := range items {
 		for i, l := range d.Wrap(it, contentW-12, pdfdoc.Body) {
 			lines = append(lines, line{l, pdfdoc.Body, i == 0})

@@ -135,7 +135,8 @@ func said(s string) string {
 // overdue reports whether an instrument's calibration was due before the test.
 func (d *doc) overdue(in sequencer.InstrumentRef) bool {
 	t, err := time.Parse("2006-01-02", in.CalDue)
-	return err == nil && !d.rec.Finished.IsZero() && d.rec.Finished.UTC().After(t.Add(24*time.Hour))
+	tested := d.testedAt()
+	return err == nil && !tested.IsZero() && tested.UTC().After(t.Add(24*time.Hour))
 }
 
 // traceability is the statement of metrological traceability through the reference

@@ -29,7 +29,7 @@ func conditional(d *limits.Decision) bool {
 // to review. (Outcome.Pass is false for both; the policy that made them review is
 // the limit file's, and the record's REVIEW verdict says it applied.)
 func (d *doc) held(o limits.Outcome) bool {
-	if o.Pass || o.Decision == nil || d.rec.Verdict != sequencer.Review {
+	if o.Pass || o.Decision == nil || d.rec.Verdict != sequencer.Review && d.decided() == nil {
 		return false
 	}
 	return conditional(o.Decision) || o.Decision.Zone == limits.ZonePass

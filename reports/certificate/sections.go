@@ -18,6 +18,7 @@ func (d *doc) build() {
 	d.header()
 	d.identification()
 	d.reasons()
+	d.reviewDecision()
 	d.steps()
 	d.results()
 	d.maximumNote()

@@ -115,9 +115,14 @@ func (t TestedBefore) Unwrap() []error {
 // CheckRetests refuses, before a batch starts, every serial that already has a
 // measured run (PASS, FAIL or REVIEW; engineering runs counted among engineering
 // runs only) and every serial given twice, unless retest is true. The error is a
-// TestedBefore listing every refused serial; nil when all may run. A ledger
-// failure is returned as it is.
+// TestedBefore listing every refused serial; nil when all may run. Before that,
+// and whatever retest says, a serial whose measured runs have reached the
+// sequence's retest.max_attempts is refused with an *AttemptsUsedError
+// (attempts.go). A ledger failure is returned as it is.
 func (is *Issuer) CheckRetests(ctx context.Context, serials []string, retest bool) error {
+	if err := is.attemptsUsed(ctx, serials); err != nil {
+		return err
+	}
 	if retest {
 		return nil
 	}
@@ -153,6 +158,11 @@ func (is *Issuer) CheckRetests(ctx context.Context, serials []string, retest boo
 // retest may run at all; Record links whatever ran, so that a serial never holds
 // two current certificates.
 func (is *Issuer) Record(ctx context.Context, rec *sequencer.Record) (string, error) {
+	return is.record(ctx, rec, rec.Operator)
+}
+
+// record is Record with actor as the audit trail's actor of the run's entries.
+func (is *Issuer) record(ctx context.Context, rec *sequencer.Record, actor string) (string, error) {
 	if rec.RetestOf == "" && rec.Serial != "" {
 		earlier, ok, err := is.Ledger.LastMeasuredRun(ctx, rec.Serial, rec.Engineering)
 		if err != nil {
@@ -165,7 +175,7 @@ func (is *Issuer) Record(ctx context.Context, rec *sequencer.Record) (string, er
 	var keyID string
 	var sig []byte
 	st, seq := is.Station, is.Sequence
-	opt := ledger.RecordOptions{Prefix: st.CertificatePrefix, Actor: rec.Operator, Files: map[string][]byte{}}
+	opt := ledger.RecordOptions{Prefix: st.CertificatePrefix, Actor: actor, Files: map[string][]byte{}}
 	for _, f := range []struct {
 		ref sequencer.FileRef
 		raw []byte

@@ -27,6 +27,7 @@ const (
 	ReleaseTag  = "trimline-release-v1" // ReleaseMessage
 	DecisionTag = "trimline-release-v2" // DecisionMessage
 	VoidTag     = "trimline-void-v1"    // VoidMessage
+	ReviewTag   = "trimline-review-v1"  // ReviewMessage
 )
 
 // RecordMessage is the exact message a run's record signature covers, the one
@@ -91,4 +92,17 @@ func DecisionMessage(fileSHA256, decision, by, meaning string, at time.Time) []b
 // with at in UTC as time.RFC3339Nano, as for ReleaseMessage.
 func VoidMessage(number, by, reason string, at time.Time) []byte {
 	return []byte(VoidTag + "\n" + number + "\n" + by + "\n" + reason + "\n" + at.UTC().Format(time.RFC3339Nano))
+}
+
+// ReviewMessage is the exact message a reviewer's signature of a review
+// decision covers: the reviewer decides on the unit held for REVIEW under
+// certificate number (accept or reject, sequencer.DecisionAccept or
+// DecisionReject), under their name as the station's people list it, for a
+// reason, at a time:
+//
+//	"trimline-review-v1\n" + number + "\n" + decision + "\n" + by + "\n" + reason + "\n" + at
+//
+// with at in UTC as time.RFC3339Nano, as for ReleaseMessage.
+func ReviewMessage(number, decision, by, reason string, at time.Time) []byte {
+	return []byte(ReviewTag + "\n" + number + "\n" + decision + "\n" + by + "\n" + reason + "\n" + at.UTC().Format(time.RFC3339Nano))
 }

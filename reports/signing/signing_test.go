@@ -349,6 +349,10 @@ func TestMessages(t *testing.T) {
 	if got != "trimline-void-v1\nTL1-000007\nDana Whitfield\nwrong limit file\n2026-03-14T09:41:55.12Z" {
 		t.Errorf("VoidMessage = %q", got)
 	}
+	got = string(signing.ReviewMessage("TL1-000022", "accept", "Ada Quillfeather", "offset rechecked", at))
+	if got != "trimline-review-v1\nTL1-000022\naccept\nAda Quillfeather\noffset rechecked\n2026-03-14T09:41:55.12Z" {
+		t.Errorf("ReviewMessage = %q", got)
+	}
 }
 
 func sealFor(k *signing.Key, pdf []byte) signing.Seal {

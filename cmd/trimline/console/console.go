@@ -26,6 +26,7 @@ import (
 
 	"trimline/cmd/trimline/internal/shift"
 	"trimline/instruments"
+	_ "trimline/instruments/generic" // the served bench is reached over tcp://
 	"trimline/instruments/sim/serve"
 	"trimline/sequencer"
 )

@@ -209,11 +209,11 @@ func (s *Server) signin(w http.ResponseWriter, r *http.Request, se *session) {
 	st := s.shift.Station
 	var name, how string
 	var operate, review bool
-	p, known := personOf(st, id)
+	p, known := st.Person(id)
 	switch {
 	case known:
 		if !s.loopback || pass != "" {
-			if p.Passphrase == "" || !checkPassphrase(p, pass) {
+			if p.Passphrase == "" || !p.CheckPassphrase(pass) {
 				// One message for a wrong passphrase and for none set: the
 				// screen does not say which people exist.
 				s.reply(w, r, http.StatusForbidden, answer{Error: "sign-in refused: name or passphrase not right"})
@@ -223,7 +223,7 @@ func (s *Server) signin(w http.ResponseWriter, r *http.Request, se *session) {
 		} else {
 			how = "station sign-in"
 		}
-		name, operate, review = p.Name, can(p, sequencer.RightOperate), can(p, sequencer.RightReview)
+		name, operate, review = p.Name, p.Can(sequencer.RightOperate), p.Can(sequencer.RightReview)
 		if !operate && !review {
 			s.reply(w, r, http.StatusForbidden, answer{Error: "sign-in refused: " + p.Name + " may not work at this station"})
 			return

@@ -41,7 +41,7 @@ func (s *Server) scan(w http.ResponseWriter, r *http.Request, se *session) {
 		return
 	}
 	ctx := r.Context()
-	n, err := attempts(ctx, sh.Issuer, serial)
+	n, err := sh.Issuer.Attempts(ctx, serial)
 	if err != nil {
 		refuse(http.StatusInternalServerError, "the ledger did not answer: "+err.Error())
 		return
@@ -204,7 +204,7 @@ func (s *Server) finish(rec *sequencer.Record, cert string, wall time.Duration, 
 	}
 	switch {
 	case rec.Verdict == sequencer.Fault:
-		ft := explainFault(rec)
+		ft := sequencer.ExplainFault(rec)
 		s.st.lock(faultView{What: ft.What, Said: ft.Said, Check: ft.Check, RunID: rec.RunID}, rec.Serial)
 	case runErr != nil:
 		s.st.lock(faultView{What: "the run could not be recorded in the ledger", Said: runErr.Error(), Check: "the disk and the ledger file; call the test engineer"}, rec.Serial)
@@ -218,7 +218,7 @@ func (s *Server) finish(rec *sequencer.Record, cert string, wall time.Duration, 
 // verdictOf is a record's verdict as the operator reads it, with the
 // metrologist's statement beside it.
 func verdictOf(rec *sequencer.Record, cert, certURL string, attempt, max int) *verdictView {
-	ov := forOperator(rec, attempt, max)
+	ov := sequencer.ForOperator(rec, attempt, max)
 	v := &verdictView{Serial: rec.Serial, Verdict: string(rec.Verdict), Word: ov.Headline, Reasons: ov.Reasons, Action: ov.Action,
 		Cert: cert, CertURL: certURL, Notes: rec.Notes, Statement: []string{}}
 	if v.Reasons == nil {
@@ -375,7 +375,7 @@ func (s *Server) review(w http.ResponseWriter, r *http.Request, se *session) {
 		return
 	}
 	d := sequencer.Disposition{Decision: decision, Reviewer: se.name, Reason: reason, At: time.Now().UTC(), Authenticated: se.authenticated}
-	newCert, err := dispose(r.Context(), s.shift.Issuer, cert, d)
+	newCert, err := s.shift.Issuer.Dispose(r.Context(), cert, d)
 	if err != nil {
 		s.reply(w, r, http.StatusConflict, answer{Error: "not recorded: " + err.Error()})
 		return

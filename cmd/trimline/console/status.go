@@ -7,6 +7,7 @@ import (
 	"time"
 
 	"trimline/reports/release"
+	"trimline/sequencer"
 )
 
 // calWarn is how long before an instrument's calibration falls due the
@@ -104,13 +105,13 @@ func (s *Server) refreshStatus(ctx context.Context) {
 
 // refreshReview reads the units held for review at this station.
 func (s *Server) refreshReview(ctx context.Context) {
-	q, err := reviewQueue(ctx, s.shift.Ledger, s.shift.Station.ID)
+	q, err := s.shift.Ledger.ReviewQueue(ctx, s.shift.Station.ID)
 	rows := []reviewRow{}
 	if err == nil {
 		for _, r := range q {
 			row := reviewRow{Cert: r.Certificate, Serial: r.Serial, At: r.Finished.Local().Format("2006-01-02 15:04")}
 			if rec, err := s.shift.Ledger.Run(ctx, r.RunID); err == nil && rec != nil {
-				ov := forOperator(rec, 0, 0)
+				ov := sequencer.ForOperator(rec, 0, 0)
 				row.Reasons = strings.Join(ov.Reasons, "; ")
 			}
 			rows = append(rows, row)

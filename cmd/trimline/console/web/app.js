@@ -68,6 +68,8 @@
   function scanError(msg) {
     text("scan-error", msg);
     show($("scan-error"), !!msg);
+    // A refused scan is not the last unit's verdict: that one fades.
+    document.body.classList.toggle("refused", !!msg);
   }
 
   // --- scan, retest ---
@@ -125,10 +127,12 @@
       show($("clear-error"), false);
     }
   });
-  document.querySelector("form[action='/signout']").addEventListener("submit", async (ev) => {
-    ev.preventDefault();
-    await post("/signout", {});
-  });
+  for (const f of document.querySelectorAll("form[action='/signout']")) {
+    f.addEventListener("submit", async (ev) => {
+      ev.preventDefault();
+      await post("/signout", {});
+    });
+  }
 
   // --- review ---
   const reviewBox = $("review");
@@ -284,11 +288,18 @@
       c.setAttribute("r", "6");
       g.append(c);
     }
-    text("plot-top", "+" + fmtNum(ymax));
-    text("plot-bottom", "−" + fmtNum(ymax));
-    text("plot-unit", "error, " + (plotUnit === "count" ? "counts" : plotUnit || "V"));
+    const u = plotUnit === "count" ? "counts" : plotUnit || "V";
+    text("plot-top", "+" + fmtSI(ymax, u));
+    text("plot-bottom", "−" + fmtSI(ymax, u));
+    text("plot-unit", "error at each point");
   }
-  function fmtNum(v) { return v >= 0.1 ? v.toPrecision(3) : v.toExponential(1); }
+  // fmtSI writes a magnitude with the SI prefix that suits it: "12.4 mV".
+  function fmtSI(v, unit) {
+    if (unit === "counts") return v.toPrecision(3) + " counts";
+    const p = [[1, ""], [1e-3, "m"], [1e-6, "µ"], [1e-9, "n"]];
+    for (const [f, s] of p) if (v >= f) return (v / f).toPrecision(3) + " " + s + unit;
+    return (v / 1e-9).toPrecision(3) + " n" + unit;
+  }
 
   function renderVerdict(v) {
     const box = $("verdict");
@@ -296,7 +307,9 @@
     box.className = "panel verdict v-" + (shapeOf[v.verdict] || "aborted");
     text("verdict-word", v.word || v.verdict);
     text("v-serial", v.serial);
-    text("reason", (v.reasons || []).join("\n"));
+    // The worst reasons first; the rest are counted (the statement has all).
+    const rs = v.reasons || [];
+    text("reason", rs.slice(0, 3).join("\n") + (rs.length > 3 ? "\n(+" + (rs.length - 3) + " more)" : ""));
     show($("reason"), (v.reasons || []).length > 0);
     text("action", v.action);
     const notes = $("v-notes");
@@ -329,7 +342,7 @@
     show($("verdict"), !running && !!s.verdict);
     if (s.unit) {
       text("prog-serial", s.unit.serial + (s.unit.retest ? " (retest, attempt " + s.unit.attempt + ")" : ""));
-      text("step-name", s.unit.step_name || "opening the bench…");
+      text("step-name", s.unit.step_name || "starting…");
       text("point-text", s.unit.point_text);
       text("expected", s.unit.expected_ms > 0 ? fmtClock(s.unit.expected_ms) : "—");
       renderSteps(s.unit.steps, s.unit.step);

@@ -1,0 +1,421 @@
+package console
+
+import (
+	"context"
+	"encoding/json"
+	"io"
+	"io/fs"
+	"net/http"
+	"net/http/cookiejar"
+	"net/http/httptest"
+	"net/url"
+	"os"
+	"path/filepath"
+	"regexp"
+	"strings"
+	"testing"
+	"time"
+
+	"trimline/instruments/sim/serve"
+	"trimline/reports/ledger"
+	releasepkg "trimline/reports/release"
+	"trimline/reports/signing"
+	"trimline/sequencer"
+	"trimline/sequences"
+)
+
+// unitDemo writes the BRX-200 demo files into a test folder (calibration due
+// a year from now, the station's signing key made) and returns the station
+// and sequence paths. The files are not released: the tests run engineering
+// shifts.
+func unitDemo(t *testing.T, edit ...func(string) string) (dir, station, sequence string) {
+	t.Helper()
+	p, err := sequences.Find(sequences.Default)
+	if err != nil {
+		t.Fatal(err)
+	}
+	dir = t.TempDir()
+	due := regexp.MustCompile(`(?m)^(\s*cal_due:\s*)\d{4}-\d{2}-\d{2}`)
+	for _, name := range []string{p.Station, p.Sequence, p.Limits} {
+		data, err := fs.ReadFile(sequences.Demo, name)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if name == p.Station {
+			data = due.ReplaceAll(data, []byte("${1}"+time.Now().AddDate(1, 0, 0).Format("2006-01-02")))
+			for _, e := range edit {
+				data = []byte(e(string(data)))
+			}
+		}
+		if err := os.WriteFile(filepath.Join(dir, name), data, 0o644); err != nil {
+			t.Fatal(err)
+		}
+	}
+	station, sequence = filepath.Join(dir, p.Station), filepath.Join(dir, p.Sequence)
+	st, err := sequencer.LoadStation(station)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if _, _, err := signing.Init(filepath.Join(dir, "keys"), st.ID); err != nil {
+		t.Fatal(err)
+	}
+	return dir, station, sequence
+}
+
+// client is a browser stand-in: a cookie jar, the page's CSRF token and the
+// console's own Origin on every POST.
+type client struct {
+	t    *testing.T
+	base string
+	http *http.Client
+	csrf string
+}
+
+func newClient(t *testing.T, h http.Handler) *client {
+	ts := httptest.NewServer(h)
+	t.Cleanup(ts.Close)
+	jar, _ := cookiejar.New(nil)
+	c := &client{t: t, base: ts.URL, http: &http.Client{Jar: jar}}
+	c.page()
+	return c
+}
+
+var csrfMeta = regexp.MustCompile(`<meta name="csrf" content="([^"]+)">`)
+
+// page GETs / and keeps its CSRF token.
+func (c *client) page() string {
+	c.t.Helper()
+	res, err := c.http.Get(c.base + "/")
+	if err != nil {
+		c.t.Fatal(err)
+	}
+	defer res.Body.Close()
+	b, _ := io.ReadAll(res.Body)
+	if res.StatusCode != http.StatusOK {
+		c.t.Fatalf("GET /: %s", res.Status)
+	}
+	m := csrfMeta.FindSubmatch(b)
+	if m == nil {
+		c.t.Fatalf("GET /: no CSRF token in the page")
+	}
+	c.csrf = string(m[1])
+	return string(b)
+}
+
+// post sends form as the page's script does and decodes the answer.
+func (c *client) post(path string, form url.Values) (int, answer) {
+	c.t.Helper()
+	req, _ := http.NewRequest("POST", c.base+path, strings.NewReader(form.Encode()))
+	req.Header.Set("Content-Type", "application/x-www-form-urlencoded")
+	req.Header.Set("Accept", "application/json")
+	req.Header.Set("Origin", c.base)
+	req.Header.Set("X-CSRF-Token", c.csrf)
+	res, err := c.http.Do(req)
+	if err != nil {
+		c.t.Fatal(err)
+	}
+	defer res.Body.Close()
+	var a answer
+	b, _ := io.ReadAll(res.Body)
+	if err := json.Unmarshal(b, &a); err != nil {
+		a.Error = string(b)
+	}
+	return res.StatusCode, a
+}
+
+func (c *client) state() state {
+	c.t.Helper()
+	res, err := c.http.Get(c.base + "/state")
+	if err != nil {
+		c.t.Fatal(err)
+	}
+	defer res.Body.Close()
+	var s state
+	if err := json.NewDecoder(res.Body).Decode(&s); err != nil {
+		c.t.Fatalf("GET /state: %s: %v", res.Status, err)
+	}
+	return s
+}
+
+// settled waits until no unit is running and returns the state.
+func (c *client) settled(timeout time.Duration) state {
+	c.t.Helper()
+	end := time.Now().Add(timeout)
+	for {
+		s := c.state()
+		if s.Phase != phaseRunning {
+			return s
+		}
+		if time.Now().After(end) {
+			c.t.Fatalf("the unit still runs after %s", timeout)
+		}
+		time.Sleep(20 * time.Millisecond)
+	}
+}
+
+func (c *client) signIn(id, name string) {
+	c.t.Helper()
+	if code, a := c.post("/signin", url.Values{"badge": {id}}); code != http.StatusOK || !a.OK {
+		c.t.Fatalf("sign in: %d %+v", code, a)
+	}
+	if !strings.Contains(c.page(), `id="operator">`+name+`<`) {
+		c.t.Fatalf("the page does not show %s signed in", name)
+	}
+}
+
+// TestShiftOnTheSimulatedClock runs a small shift through the handler: a good
+// unit (PASS, certificate served), a defective one (FAIL with its reason), a
+// bad scan (refused, nothing recorded), a rescan (asked, then linked to the
+// earlier run as a retest).
+func TestShiftOnTheSimulatedClock(t *testing.T) {
+	dir, station, sequence := unitDemo(t)
+	ctx := context.Background()
+	srv, err := New(ctx, Options{StationPath: station, SequencePath: sequence, Out: filepath.Join(dir, "out"), Engineering: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer srv.Close()
+	if srv.Bench() != nil {
+		t.Fatal("Bench() is not nil without Options.Bench")
+	}
+	c := newClient(t, srv.Handler())
+	if code, _ := c.post("/scan", url.Values{"serial": {"BRX-00002"}}); code != http.StatusForbidden {
+		t.Fatalf("a scan before sign-in answered %d, want 403", code)
+	}
+	c.signIn("B-1042", "Ada Quillfeather")
+
+	if code, a := c.post("/scan", url.Values{"serial": {"BRX-00002"}}); code != http.StatusOK || !a.OK {
+		t.Fatalf("scan: %d %+v", code, a)
+	}
+	s := c.settled(30 * time.Second)
+	if s.Verdict == nil || s.Verdict.Verdict != "PASS" || s.Verdict.Cert == "" || s.Verdict.CertURL == "" {
+		t.Fatalf("BRX-00002: %+v", s.Verdict)
+	}
+	res, err := c.http.Get(c.base + s.Verdict.CertURL)
+	if err != nil {
+		t.Fatal(err)
+	}
+	pdf, _ := io.ReadAll(res.Body)
+	res.Body.Close()
+	if res.StatusCode != http.StatusOK || !strings.HasPrefix(string(pdf), "%PDF-") {
+		t.Fatalf("certificate link: %s, %.8q", res.Status, pdf)
+	}
+
+	c.post("/scan", url.Values{"serial": {"BRX-00009"}})
+	s = c.settled(30 * time.Second)
+	if s.Verdict == nil || s.Verdict.Verdict != "FAIL" || len(s.Verdict.Reasons) == 0 || s.Verdict.Action == "" {
+		t.Fatalf("BRX-00009: %+v", s.Verdict)
+	}
+	if len(s.Verdict.Statement) == 0 {
+		t.Fatal("BRX-00009: no metrologist's statement")
+	}
+
+	led := srv.shift.Ledger
+	before, err := led.RecentRuns(ctx, 0)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, bad := range []string{"BRX-12", "brx-00003", "BRX 00003", "../BRX-00003", ""} {
+		code, a := c.post("/scan", url.Values{"serial": {bad}})
+		if code != http.StatusBadRequest || !strings.Contains(a.Error, "Nothing was run") && bad != "" {
+			t.Errorf("scan %q: %d %q", bad, code, a.Error)
+		}
+	}
+	after, _ := led.RecentRuns(ctx, 0)
+	if len(after) != len(before) {
+		t.Fatalf("bad scans recorded %d runs", len(after)-len(before))
+	}
+
+	code, a := c.post("/scan", url.Values{"serial": {"BRX-00002"}})
+	if code != http.StatusOK || a.Retest == nil || !strings.Contains(a.Retest.Earlier, s.Recent[1].Cert) {
+		t.Fatalf("rescan BRX-00002: %d %+v (earlier certificate %s)", code, a, s.Recent[1].Cert)
+	}
+	if c.state().Phase == phaseRunning {
+		t.Fatal("a rescan ran before the retest was confirmed")
+	}
+	c.post("/scan", url.Values{"serial": {"BRX-00002"}, "retest": {"confirm"}})
+	s = c.settled(30 * time.Second)
+	if s.Verdict == nil || s.Verdict.Verdict != "PASS" || !s.Recent[0].Retest {
+		t.Fatalf("retest: %+v %+v", s.Verdict, s.Recent[0])
+	}
+	st, err := led.CertificateStatus(ctx, s.Recent[2].Cert)
+	if err != nil || !st.Superseded || st.SupersededBy != s.Recent[0].Cert {
+		t.Fatalf("earlier certificate %s: %+v %v", s.Recent[2].Cert, st, err)
+	}
+	if n := s.Counters; n.Units != 3 || n.Passed != 2 || n.Failed != 1 || n.FirstIn != 2 || n.FPY != "50.0 %" {
+		t.Fatalf("counters %+v", n)
+	}
+	// Every run records the signed-in person as its operator.
+	runs, _ := led.Runs(ctx, "BRX-00009")
+	rec, err := led.Run(ctx, runs[0].RunID)
+	if err != nil || rec.Operator != "Ada Quillfeather" {
+		t.Fatalf("operator %q, %v", rec.Operator, err)
+	}
+}
+
+// TestFaultLocksUntilCleared injects a silent meter on the served bench: the
+// unit faults, the station locks naming what failed, a scan is refused until
+// someone clears it with a note (recorded in the audit trail), and the next
+// unit opens the instruments again and passes.
+func TestFaultLocksUntilCleared(t *testing.T) {
+	if testing.Short() {
+		t.Skip("runs units on the served bench in real time")
+	}
+	dir, station, sequence := unitDemo(t)
+	ctx := context.Background()
+	srv, err := New(ctx, Options{StationPath: station, SequencePath: sequence, Out: filepath.Join(dir, "out"), Engineering: true, Bench: "tcp"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer srv.Close()
+	c := newClient(t, srv.Handler())
+	c.signIn("B-1042", "Ada Quillfeather")
+	if err := srv.Bench().SetFault("meter", serve.Fault{NoReply: true}); err != nil {
+		t.Fatal(err)
+	}
+	c.post("/scan", url.Values{"serial": {"BRX-00003"}})
+	s := c.settled(60 * time.Second)
+	if s.Phase != phaseLocked || s.Fault == nil || s.Fault.Said == "" || s.Verdict.Verdict != "FAULT" {
+		t.Fatalf("after a silent meter: phase %s, fault %+v", s.Phase, s.Fault)
+	}
+	if code, a := c.post("/scan", url.Values{"serial": {"BRX-00004"}}); code != http.StatusConflict || !strings.Contains(a.Error, "locked") {
+		t.Fatalf("scan on a locked station: %d %+v", code, a)
+	}
+	if code, _ := c.post("/clear", url.Values{"note": {"  "}}); code != http.StatusBadRequest {
+		t.Fatalf("clear without a note: %d", code)
+	}
+	srv.Bench().SetFault("meter", serve.Fault{})
+	if code, a := c.post("/clear", url.Values{"note": {"meter cable reseated"}}); code != http.StatusOK {
+		t.Fatalf("clear: %d %+v", code, a)
+	}
+	trail, err := srv.shift.Ledger.AuditTrail(ctx)
+	if err != nil {
+		t.Fatal(err)
+	}
+	found := false
+	for _, e := range trail {
+		found = found || (e.Action == "clear station fault" && e.Actor == "Ada Quillfeather" && strings.Contains(e.Detail, "meter cable reseated"))
+	}
+	if !found {
+		t.Fatal("the clearing note is not in the audit trail")
+	}
+	c.post("/scan", url.Values{"serial": {"BRX-00004"}})
+	s = c.settled(60 * time.Second)
+	if s.Verdict == nil || s.Verdict.Verdict != "PASS" {
+		t.Fatalf("after clearing: %+v %+v", s.Verdict, s.Fault)
+	}
+	if s.Counters.Faults != 1 || s.Counters.Passed != 1 {
+		t.Fatalf("counters %+v", s.Counters)
+	}
+}
+
+// releaseFiles signs the demo sequence and limit files as released by a demo
+// quality engineer whom the station's release_keys trust, as `trimline demo`
+// does, so that the station runs production (not engineering) units.
+func releaseFiles(t *testing.T, dir, station, sequence string) {
+	t.Helper()
+	ctx := context.Background()
+	st, err := sequencer.LoadStation(station)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if _, _, err := signing.Init(filepath.Join(dir, "keys", "approvers"), "qe"); err != nil {
+		t.Fatal(err)
+	}
+	trustText := "trust:\n  stations:\n    - {id: " + st.ID + ", public_key: " + st.ID + ".pub}\n" +
+		"  approvers:\n    - {name: Demo Quality Engineer, public_key: approvers/qe.pub, may: [release]}\n"
+	if err := os.WriteFile(filepath.Join(dir, "keys", "trust.yaml"), []byte(trustText), 0o600); err != nil {
+		t.Fatal(err)
+	}
+	trust, err := releasepkg.Approvers(filepath.Join(dir, "keys", "trust.yaml"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	key, err := signing.Load(filepath.Join(dir, "keys", "approvers", "qe.key"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	seq, err := sequencer.LoadSequence(sequence)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := os.MkdirAll(filepath.Join(dir, "out"), 0o755); err != nil {
+		t.Fatal(err)
+	}
+	led, err := ledger.Open(ctx, filepath.Join(dir, "out", "ledger.db"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer led.Close()
+	for _, f := range []string{sequence, seq.Limits.File} {
+		data, err := os.ReadFile(f)
+		if err != nil {
+			t.Fatal(err)
+		}
+		req := releasepkg.Request{Key: key, Trust: trust, Decision: releasepkg.Approve, Ranges: sequencer.PhysicalRanges(seq), Catalog: seq.Catalog()}
+		if _, err := releasepkg.Record(ctx, led, filepath.Base(f), sequencer.FileKind(data), data, req); err != nil {
+			t.Fatalf("release %s: %v", f, err)
+		}
+	}
+}
+
+// TestReviewDecision holds a unit for REVIEW (a noisy fixture puts its output
+// noise in the guard band of its limit), shows it in the queue of a reviewer
+// only, and records the reviewer's decision: the certificate is reissued PASS
+// and the REVIEW certificate superseded.
+func TestReviewDecision(t *testing.T) {
+	seed := regexp.MustCompile(`(?m)^(\s*)seed:\s*"\d+"`)
+	dir, station, sequence := unitDemo(t, func(s string) string {
+		return seed.ReplaceAllString(s, "${1}seed: \"8\"\n${1}noise: 50 uV")
+	})
+	releaseFiles(t, dir, station, sequence)
+	ctx := context.Background()
+	srv, err := New(ctx, Options{StationPath: station, SequencePath: sequence, Out: filepath.Join(dir, "out")})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer srv.Close()
+	if s := srv.snapshot(); !strings.Contains(string(s), `"key":"files","state":"ok"`) {
+		t.Fatalf("released files are not ok in the status: %s", s)
+	}
+	op := newClient(t, srv.Handler())
+	op.signIn("B-1042", "Ada Quillfeather")
+	op.post("/scan", url.Values{"serial": {"BRX-00002"}})
+	s := op.settled(30 * time.Second)
+	if s.Verdict == nil || s.Verdict.Verdict != "REVIEW" || s.Verdict.Cert == "" {
+		t.Fatalf("BRX-00002 on a noisy fixture: %+v", s.Verdict)
+	}
+	held := s.Verdict.Cert
+	if len(s.Review) != 1 || s.Review[0].Cert != held {
+		t.Fatalf("review queue %+v, want %s", s.Review, held)
+	}
+	if strings.Contains(op.page(), `id="review"`) {
+		t.Fatal("an operator without the review right sees the review queue")
+	}
+	if code, _ := op.post("/review/"+held, url.Values{"decision": {"accept"}, "reason": {"noise within the datasheet"}}); code != http.StatusForbidden {
+		t.Fatalf("an operator's decision answered %d, want 403", code)
+	}
+	rv := newClient(t, srv.Handler())
+	rv.signIn("B-2077", "Tobias Wrenhollow")
+	if !strings.Contains(rv.page(), `id="review"`) {
+		t.Fatal("a reviewer does not see the review queue")
+	}
+	if code, _ := rv.post("/review/"+held, url.Values{"decision": {"accept"}, "reason": {""}}); code != http.StatusBadRequest {
+		t.Fatalf("a decision without a reason answered %d, want 400", code)
+	}
+	code, a := rv.post("/review/"+held, url.Values{"decision": {"accept"}, "reason": {"noise within the datasheet"}})
+	if code != http.StatusOK || !a.OK {
+		t.Fatalf("accept: %d %+v", code, a)
+	}
+	if s := rv.state(); len(s.Review) != 0 {
+		t.Fatalf("the queue still holds %+v", s.Review)
+	}
+	st, err := srv.shift.Ledger.CertificateStatus(ctx, held)
+	if err != nil || !st.Superseded {
+		t.Fatalf("REVIEW certificate %s after the decision: %+v %v", held, st, err)
+	}
+	rec, meta, err := srv.shift.Ledger.RunByCertificate(ctx, st.SupersededBy)
+	if err != nil || rec.Verdict != "PASS" || rec.Disposition == nil || rec.Disposition.Reviewer != "Tobias Wrenhollow" {
+		t.Fatalf("decision record %s: %+v %+v %v", st.SupersededBy, rec, meta, err)
+	}
+}
