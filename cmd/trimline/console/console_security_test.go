@@ -2,10 +2,6 @@ package console_test
 
 import (
 	"context"
-	"crypto/pbkdf2"
-	"crypto/rand"
-	"crypto/sha256"
-	"encoding/base64"
 	"io"
 	"net/http"
 	"net/http/cookiejar"
@@ -286,7 +282,7 @@ func TestConsoleRefusesRequestsThatDoNotComeFromASignedInPage(t *testing.T) {
 	}
 }
 
-var peopleBlock = regexp.MustCompile(`(?m)^people:\n(?:[ \t#].*\n|[ \t]*\n)*`)
+var peopleBlock = regexp.MustCompile(`(?m)^people:.*\n(?:[ \t#].*\n|[ \t]*\n)*`)
 
 // withPeople replaces the station file's people: list with people (YAML list
 // items, indented two spaces).
@@ -312,7 +308,10 @@ func TestConsoleBeyondLoopbackNeedsPassphrases(t *testing.T) {
 	}
 
 	const pass = "correct horse 7 battery"
-	hash := hashPassphrase(t, pass)
+	hash, err := sequencer.HashPassphrase(pass)
+	if err != nil {
+		t.Fatal(err)
+	}
 	d := writeDemo(t, withPeople("  - name: Tamsin Orchard\n    badge: \"B-3301\"\n    may: [operate]\n    passphrase: \""+hash+"\"\n"))
 	_, hs := startConsole(t, d, console.Options{Listen: "0.0.0.0:8470", SessionTTL: 2 * time.Second})
 	w := newWebClient(t, hs.URL)
@@ -339,22 +338,4 @@ func TestConsoleBeyondLoopbackNeedsPassphrases(t *testing.T) {
 	if got := w.page(); got != "signin" {
 		t.Errorf("a session older than its SessionTTL still shows the %s screen", got)
 	}
-}
-
-// hashPassphrase makes a station file's passphrase hash the way `trimline keys
-// passphrase` does: "pbkdf2-sha256$ITERATIONS$SALT$HASH", PBKDF2-HMAC-SHA-256
-// (RFC 8018 §5.2) with a 16-byte random salt and a 32-byte hash in unpadded
-// standard base64. The test uses 1000 iterations, not the 600 000 of OWASP's
-// 2023 advice (common practice) that a real hash carries, to stay fast; the
-// count is part of the hash, so checking it needs no other setting.
-func hashPassphrase(t *testing.T, pass string) string {
-	t.Helper()
-	salt := make([]byte, 16)
-	rand.Read(salt)
-	sum, err := pbkdf2.Key(sha256.New, pass, salt, 1000, 32)
-	if err != nil {
-		t.Fatal(err)
-	}
-	enc := base64.RawStdEncoding
-	return "pbkdf2-sha256$1000$" + enc.EncodeToString(salt) + "$" + enc.EncodeToString(sum)
 }
