@@ -60,8 +60,9 @@ func startBrowser(t *testing.T) context.Context {
 		chromedp.Flag("disable-component-update", true),
 		chromedp.Flag("disable-sync", true),
 		chromedp.UserDataDir(t.TempDir()),
-		// A station PC's screen, landscape.
-		chromedp.WindowSize(1366, 768),
+		// A station PC's 1280×1024 monitor; newTab sets the page's viewport to it
+		// (the README's screenshots are this size).
+		chromedp.WindowSize(1280, 1024),
 	)
 	actx, cancelAlloc := chromedp.NewExecAllocator(context.Background(), opts...)
 	t.Cleanup(cancelAlloc)
@@ -80,7 +81,7 @@ func newTab(t *testing.T, browser context.Context, base, shots string) *page {
 	t.Helper()
 	tab, cancel := chromedp.NewContext(browser)
 	t.Cleanup(cancel)
-	if err := chromedp.Do(tab); err != nil {
+	if err := chromedp.Do(tab, chromedp.EmulateViewport(1280, 1024)); err != nil {
 		t.Fatalf("open a tab: %v", err)
 	}
 	return &page{t: t, ctx: tab, base: base, dir: shots}
