@@ -398,6 +398,8 @@ func TestConsoleShiftInBrowser(t *testing.T) {
 		before := runs()
 		p.scan("BRX-00001")
 		p.waitRunning(30*time.Second, func() bool { return runs() > before })
+		// More of the sweep for the README's picture.
+		p.waitFor(10*time.Second, "six points on the plot", `document.querySelectorAll('#plot circle.pt').length >= 6 || attr('#verdict','data-verdict') !== ''`)
 		for _, sel := range []string{"#step-name", "#point-text", "#elapsed", "#expected"} {
 			if p.text(sel) == "" {
 				t.Errorf("%s is empty while the unit runs", sel)
@@ -627,16 +629,19 @@ func TestConsoleShiftInBrowser(t *testing.T) {
 		}
 	})
 
+	// A second station (the simulated clock: units run at once) whose noisier
+	// fixture holds BRX-00002 for REVIEW. Served as localhost, not 127.0.0.1, so
+	// that its session cookie is not the first console's.
+	d2 := writeDemo(t, withNoisyFixture)
+	_, hs2 := startConsole(t, d2, console.Options{})
+	led2 := d2.openLedger(t)
+	rp := newTab(t, bctx, strings.Replace(hs2.URL, "127.0.0.1", "localhost", 1), shotDir)
+	opID2, opName2 := d2.person(t, sequencer.RightOperate)
+	revID, revName := d2.person(t, sequencer.RightReview)
+
 	t.Run("review accepted", func(t *testing.T) {
-		// A second station (the simulated clock: units run at once) whose noisier
-		// fixture holds BRX-00002 for REVIEW. Served as localhost, not 127.0.0.1,
-		// so that its session cookie is not the first console's.
-		d2 := writeDemo(t, withNoisyFixture)
-		_, hs2 := startConsole(t, d2, console.Options{})
-		led2 := d2.openLedger(t)
-		rp := newTab(t, bctx, strings.Replace(hs2.URL, "127.0.0.1", "localhost", 1), shotDir)
-		opID, opName := d2.person(t, sequencer.RightOperate)
-		revID, revName := d2.person(t, sequencer.RightReview)
+		rp.t = t
+		opID, opName := opID2, opName2
 		rp.open()
 		rp.signIn(opID, opName)
 		rp.scan("BRX-00002")
@@ -676,6 +681,57 @@ func TestConsoleShiftInBrowser(t *testing.T) {
 				st.SupersededBy, rec.Verdict, rec.Disposition, revName, reason)
 		}
 	})
+
+	t.Run("attempts used up", func(t *testing.T) {
+		// The demo sequence allows a unit three measured runs (retest:
+		// {max_attempts: 3}); BRX-00009's stuck DAC bit fails it every time.
+		rp.t = t
+		rp.open()
+		rp.waitFor(10*time.Second, "the station screen", `vis('#scan-form')`)
+		rp.scan("BRX-00009")
+		rp.verdict("FAIL", 30*time.Second)
+		for attempt := 2; attempt <= 3; attempt++ {
+			before := len(mustRuns(t, led2, "BRX-00009"))
+			rp.scan("BRX-00009")
+			rp.waitFor(10*time.Second, "the retest question", `vis('#retest')`)
+			rp.do(10*time.Second, "confirm the retest", chromedp.Click(chromedp.ID("retest-yes")))
+			rp.waitFor(30*time.Second, fmt.Sprintf("attempt %d to be recorded", attempt),
+				fmt.Sprintf(`attr('#verdict','data-verdict') === 'FAIL' && (document.querySelector('#recent tbody') || {innerText: ''}).innerText.split('BRX-00009').length > %d`, attempt))
+			if n := len(mustRuns(t, led2, "BRX-00009")); n != before+1 {
+				t.Fatalf("attempt %d: %d runs of BRX-00009, want %d", attempt, n, before+1)
+			}
+		}
+		// Clearly outside its limits, BRX-00009 is sent to rework after each run
+		// (sequencer.ForOperator); the operator who retests it anyway is stopped
+		// after the third.
+		if a := rp.text("#action"); !strings.Contains(strings.ToLower(a), "rework") {
+			t.Errorf("after the third failed run the action reads %q; want rework", a)
+		}
+		before := len(mustRuns(t, led2, "BRX-00009"))
+		rp.scan("BRX-00009")
+		rp.waitFor(10*time.Second, "the refusal of a fourth attempt", `vis('#scan-error') || vis('#retest')`)
+		if rp.visible("#retest") {
+			// Asking is allowed; confirming must still be refused.
+			rp.do(10*time.Second, "confirm the retest", chromedp.Click(chromedp.ID("retest-yes")))
+			rp.waitFor(10*time.Second, "the refusal of a fourth attempt", `vis('#scan-error')`)
+		}
+		if e := rp.text("#scan-error"); !strings.Contains(strings.ToLower(e), "rework") {
+			t.Errorf("a fourth attempt is refused with %q; want it sent to rework", e)
+		}
+		time.Sleep(300 * time.Millisecond)
+		if n := len(mustRuns(t, led2, "BRX-00009")); n != before {
+			t.Errorf("a fourth attempt recorded a run")
+		}
+	})
+}
+
+func mustRuns(t *testing.T, led *ledger.Ledger, serial string) []ledger.RunSummary {
+	t.Helper()
+	runs, err := led.Runs(context.Background(), serial)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return runs
 }
 
 // TestScreenshotsAreCurrent keeps the README's screenshots in step with the list

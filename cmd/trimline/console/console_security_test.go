@@ -164,6 +164,14 @@ func TestConsoleRefusesRequestsThatDoNotComeFromASignedInPage(t *testing.T) {
 		}
 	}
 
+	// Nor does it read the shift: state, live events and certificates need a
+	// signed-in session too.
+	for _, p := range []string{"/state", "/events", "/certificates/TL1-000001_BRX-00001.pdf"} {
+		if code, _ := w.get(p); !refused(code) {
+			t.Errorf("GET %s without a signed-in session: %d, want 403", p, code)
+		}
+	}
+
 	// Sign-in is a state change too: no token, a wrong token or another site's
 	// Origin gets no session.
 	signin := func(form url.Values, hdr map[string]string) int {
