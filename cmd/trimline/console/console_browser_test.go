@@ -10,6 +10,7 @@ import (
 	"regexp"
 	"slices"
 	"strings"
+	"sync"
 	"testing"
 	"time"
 
@@ -84,6 +85,34 @@ func newTab(t *testing.T, browser context.Context, base, shots string) *page {
 	if err := chromedp.Do(tab, chromedp.EmulateViewport(1280, 1024)); err != nil {
 		t.Fatalf("open a tab: %v", err)
 	}
+	// The page's script must run clean: an uncaught exception, a console.error
+	// or a content-security-policy refusal fails the test when the tab closes.
+	messages := chromedp.Console(tab)
+	var mu sync.Mutex
+	var problems []string
+	done := make(chan struct{})
+	go func() {
+		defer close(done)
+		for m, err := range messages {
+			if err != nil {
+				return
+			}
+			if m.IsException() || (m.Type == chromedp.ConsoleError && (m.Source == "" || m.Source == "security")) {
+				mu.Lock()
+				problems = append(problems, m.String())
+				mu.Unlock()
+			}
+		}
+	}()
+	t.Cleanup(func() {
+		cancel()
+		<-done
+		mu.Lock()
+		defer mu.Unlock()
+		for _, m := range problems {
+			t.Errorf("the console page's script reported: %s", m)
+		}
+	})
 	return &page{t: t, ctx: tab, base: base, dir: shots}
 }
 
