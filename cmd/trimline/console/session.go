@@ -15,6 +15,9 @@ import (
 // cookieName is the session cookie.
 const cookieName = "trimline_session"
 
+// maxSessions bounds the sessions kept before signed-out ones are dropped.
+const maxSessions = 1000
+
 // session is one browser's visit: signed out (only a CSRF token, for the
 // sign-in form) or signed in as a person.
 type session struct {
@@ -95,9 +98,12 @@ func (s *sessions) start(w http.ResponseWriter, old *session, fill func(*session
 		delete(s.byID, old.id)
 	}
 	s.byID[se.id] = se
-	// Expired sessions go when new ones come.
+	// Expired sessions go when new ones come; past maxSessions, so do the
+	// signed-out ones not used for a minute (pages loaded and left).
+	crowded := len(s.byID) > maxSessions
 	for id, o := range s.byID {
-		if now.Sub(o.created) > s.ttl || (s.idle > 0 && now.Sub(o.seen) > s.idle) {
+		if now.Sub(o.created) > s.ttl || (s.idle > 0 && now.Sub(o.seen) > s.idle) ||
+			crowded && !o.signedIn() && now.Sub(o.seen) > time.Minute {
 			delete(s.byID, id)
 		}
 	}

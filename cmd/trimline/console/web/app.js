@@ -90,7 +90,9 @@
       text("retest-serial", a.retest.serial);
       text("retest-earlier", a.retest.earlier);
       show($("retest"), true);
-      $("retest-yes").focus();
+      // The question holds the focus, not its Yes button: a barcode scan's
+      // Enter must never answer it.
+      $("retest-box").focus();
       return;
     }
     if (!a.ok) scanError(a.error || "refused");
@@ -101,6 +103,9 @@
     const s = pendingRetest;
     pendingRetest = "";
     await startScan(s, true);
+  });
+  $("retest").addEventListener("keydown", (ev) => {
+    if (ev.key === "Escape") $("retest-no").click();
   });
   $("retest-no").addEventListener("click", () => {
     show($("retest"), false);
@@ -305,7 +310,10 @@
     const box = $("verdict");
     box.dataset.verdict = v.verdict;
     box.className = "panel verdict v-" + (shapeOf[v.verdict] || "aborted");
-    text("verdict-word", v.word || v.verdict);
+    const word = v.word || v.verdict;
+    text("verdict-word", word);
+    // A long headline ("STATION FAULT") is set smaller so that it fits.
+    $("verdict-word").dataset.len = word.length > 10 ? "long" : word.length > 5 ? "mid" : "short";
     text("v-serial", v.serial);
     // The worst reasons first; the rest are counted (the statement has all).
     const rs = v.reasons || [];
