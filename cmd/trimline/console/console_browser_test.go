@@ -273,8 +273,21 @@ func (p *page) open() {
 // (its text, then Enter), and waits for the station screen naming the person.
 func (p *page) signIn(id, name string) {
 	p.t.Helper()
-	p.waitFor(10*time.Second, "the sign-in form", `vis('#signin') && vis('#badge')`)
-	p.do(10*time.Second, "type the badge", chromedp.SendKeys(chromedp.ID("badge"), id+"\n"))
+	// The form may be replaced under the typing (the page reloading after a
+	// sign-out): then the typing is lost with the old page, and is done again.
+	for try := 1; ; try++ {
+		p.waitFor(10*time.Second, "the sign-in form", `document.readyState === 'complete' && vis('#signin') && vis('#badge')`)
+		ctx, cancel := context.WithTimeout(p.ctx, 10*time.Second)
+		err := chromedp.Do(ctx, chromedp.SendKeys(chromedp.ID("badge"), id+"\n"))
+		cancel()
+		if err == nil {
+			break
+		}
+		if try == 3 {
+			p.fatalf("type the badge: %v", err)
+		}
+		time.Sleep(200 * time.Millisecond)
+	}
 	p.waitFor(10*time.Second, "the station screen after signing in as "+id,
 		fmt.Sprintf(`vis('#scan-form') && txt('#operator').includes(%q)`, name))
 }
