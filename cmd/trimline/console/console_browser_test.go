@@ -263,6 +263,26 @@ func (p *page) shot(name string) {
 	}
 }
 
+// keepShots copies the screenshots of a failed test out of its temporary
+// folder, which the test removes, into one that stays, and names it.
+func keepShots(t *testing.T, dir string) {
+	if !t.Failed() {
+		return
+	}
+	keep, err := os.MkdirTemp("", "trimline-console-shots-")
+	if err != nil {
+		t.Log(err)
+		return
+	}
+	pngs, _ := filepath.Glob(filepath.Join(dir, "*.png"))
+	for _, f := range pngs {
+		if data, err := os.ReadFile(f); err == nil {
+			os.WriteFile(filepath.Join(keep, filepath.Base(f)), data, 0o644)
+		}
+	}
+	t.Logf("screenshots kept in %s", keep)
+}
+
 // open loads the console's page in the tab.
 func (p *page) open() {
 	p.t.Helper()
@@ -391,7 +411,7 @@ func withNoisyFixture(station string) string {
 func TestConsoleShiftInBrowser(t *testing.T) {
 	bctx := startBrowser(t)
 	shotDir := t.TempDir()
-	t.Logf("screenshots in %s", shotDir)
+	t.Cleanup(func() { keepShots(t, shotDir) })
 
 	d := writeDemo(t, withTimeouts)
 	srv, hs := startConsole(t, d, console.Options{Bench: "tcp"})
