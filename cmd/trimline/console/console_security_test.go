@@ -57,6 +57,10 @@ func (w *webClient) do(method, path string, form url.Values, header map[string]s
 		req.Header.Set("Content-Type", "application/x-www-form-urlencoded")
 	}
 	for k, v := range header {
+		if k == "Host" {
+			req.Host = v
+			continue
+		}
 		req.Header.Set(k, v)
 	}
 	resp, err := w.c.Do(req)
@@ -254,6 +258,19 @@ func TestConsoleRefusesRequestsThatDoNotComeFromASignedInPage(t *testing.T) {
 	other.csrf()
 	if code, _ := other.post("/scan", url.Values{"serial": {"BRX-00001"}, "csrf": {token}}); !refused(code) {
 		t.Errorf("POST /scan from a client without the session, with the session's token: %d, want 403", code)
+	}
+
+	// A page of another site whose name was made to resolve to 127.0.0.1 (DNS
+	// rebinding) sends its own name as Host, and its own Origin: a console on
+	// loopback answers only to a loopback name.
+	u, _ := url.Parse(hs.URL)
+	rebound := "http://station.evil.example:" + u.Port()
+	if code, _, _ := w.do(http.MethodGet, "/state", nil, map[string]string{"Host": "station.evil.example:" + u.Port()}); !refused(code) {
+		t.Errorf("GET /state addressed to another name: %d, want 403", code)
+	}
+	if code, _, _ := w.do(http.MethodPost, "/scan", url.Values{"serial": {"BRX-00001"}, "csrf": {token}},
+		map[string]string{"Host": "station.evil.example:" + u.Port(), "Origin": rebound}); !refused(code) {
+		t.Errorf("POST /scan addressed to another name, from that name's page: %d, want 403", code)
 	}
 
 	// Unknown paths are 404 and known paths under a wrong method 405, with no
