@@ -9,6 +9,7 @@ import (
 	"time"
 
 	"trimline/cmd/trimline/console"
+	"trimline/cmd/trimline/internal/shift"
 )
 
 func newConsoleCmd() *command {
@@ -45,8 +46,14 @@ Runs until Ctrl-C.`,
 		if *bench != "" && *bench != "tcp" {
 			return usagef("--bench must be tcp")
 		}
+		if _, err := shift.ParseAmbient(*ambient); err != nil {
+			return usagef("--ambient: %v", err)
+		}
 		srv, err := console.New(ctx, console.Options{StationPath: *station, SequencePath: *sequence, Out: *out, Listen: *listen,
 			Bench: *bench, Ambient: *ambient, Engineering: *engineering, Log: e.stderr, Software: "trimline " + version()})
+		if errors.Is(err, console.ErrNoPassphrase) {
+			return badInput(err)
+		}
 		if err != nil {
 			return err
 		}

@@ -129,7 +129,7 @@ func New(ctx context.Context, o Options) (_ *Server, err error) {
 			}
 		}
 		if n == 0 {
-			return nil, fmt.Errorf("%s: the console listens on %s, beyond loopback, where every sign-in needs a passphrase, and the station's people list nobody with a passphrase (add a hash made by `trimline keys passphrase`)", s.shift.Station.File.Name, o.Listen)
+			return nil, fmt.Errorf("%w: %s: the console listens on %s, beyond loopback, where every sign-in needs a passphrase, and the station's people list nobody with a passphrase (add a hash made by `trimline keys passphrase`)", ErrNoPassphrase, s.shift.Station.File.Name, o.Listen)
 		}
 	}
 	s.sessions = newSessions(o.SessionTTL, s.loopback)
@@ -230,6 +230,11 @@ func isLoopback(addr string) bool {
 	ip := net.ParseIP(host)
 	return ip != nil && ip.IsLoopback()
 }
+
+// ErrNoPassphrase is what New's refusal wraps when the console would listen
+// beyond loopback and nobody in the station's people has a passphrase to sign
+// in with.
+var ErrNoPassphrase = errors.New("nobody can sign in beyond loopback")
 
 // errBusy and friends are the refusals of a scan that the operator reads.
 var (

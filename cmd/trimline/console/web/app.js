@@ -346,6 +346,12 @@
     renderReview(s.review);
     const running = s.phase === "running";
     show($("idle"), !running && !s.verdict);
+    // Anything blocking: the idle panel says what, instead of "Ready".
+    const blocks = (s.status || []).filter((it) => it.state === "block").map((it) => it.title);
+    text("idle-big", blocks.length ? "Blocked" : "Ready");
+    text("idle-small", blocks.length ? "No unit can start: " + blocks.join("; ") + ". Call the test engineer."
+      : "Put the unit in the fixture, close the lid, scan its serial.");
+    $("idle").classList.toggle("blocked", blocks.length > 0);
     show($("progress"), running);
     show($("verdict"), !running && !!s.verdict);
     if (s.unit) {
