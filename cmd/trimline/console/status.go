@@ -44,6 +44,7 @@ func (s *Server) refreshStatus(ctx context.Context) {
 	cal := statusItem{Key: "calibration", State: "ok", Title: "calibration current"}
 	today := time.Now().UTC().Truncate(24 * time.Hour)
 	var soonest time.Time
+	var expired, soon []string // "role ASSET (due date)", for the title the operator reads
 	for _, r := range st.Roles() {
 		in := st.Instruments[r]
 		if in.CalDue.IsZero() {
@@ -54,10 +55,12 @@ func (s *Server) refreshStatus(ctx context.Context) {
 		case today.After(in.CalDue):
 			cal.State = "block"
 			line += " — EXPIRED"
+			expired = append(expired, fmt.Sprintf("%s %s (%s)", r, in.Asset, in.CalDue.Format("2006-01-02")))
 		case in.CalDue.Sub(today) < calWarn:
 			if cal.State == "ok" {
 				cal.State = "warn"
 			}
+			soon = append(soon, fmt.Sprintf("%s %s (%s)", r, in.Asset, in.CalDue.Format("2006-01-02")))
 			line += fmt.Sprintf(" — in %d days", int(in.CalDue.Sub(today).Hours()/24))
 		}
 		if soonest.IsZero() || in.CalDue.Before(soonest) {
@@ -67,9 +70,9 @@ func (s *Server) refreshStatus(ctx context.Context) {
 	}
 	switch cal.State {
 	case "block":
-		cal.Title = "calibration expired"
+		cal.Title = "calibration expired: " + strings.Join(expired, ", ")
 	case "warn":
-		cal.Title = "calibration due soon: " + soonest.Format("2006-01-02")
+		cal.Title = "calibration due soon: " + strings.Join(soon, ", ")
 	default:
 		if !soonest.IsZero() {
 			cal.Title = "calibration current to " + soonest.Format("2006-01-02")
