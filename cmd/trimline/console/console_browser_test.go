@@ -787,6 +787,69 @@ func TestConsoleShiftInBrowser(t *testing.T) {
 	})
 }
 
+// TestConsoleCalibrationStatus: the station status panel warns 14 days before
+// an instrument's calibration falls due and blocks after it has (the design's
+// rule), and a blocked station starts no unit while a warned one works on.
+func TestConsoleCalibrationStatus(t *testing.T) {
+	bctx := startBrowser(t)
+	shotDir := t.TempDir()
+	t.Cleanup(func() { keepShots(t, shotDir) })
+	// dues sets the instruments' cal_due dates in the order the station file
+	// lists them (source STD-0117, meter DMM-0203), in days from today.
+	dues := func(days ...int) func(string) string {
+		return func(station string) string {
+			n := 0
+			return calDueLine.ReplaceAllStringFunc(station, func(line string) string {
+				due := time.Now().AddDate(0, 0, days[n])
+				n++
+				return calDueLine.ReplaceAllString(line, "${1}"+due.Format("2006-01-02"))
+			})
+		}
+	}
+	for _, c := range []struct {
+		name  string
+		edit  func(string) string
+		state string // the calibration item's data-state
+		runs  bool   // whether a scanned unit runs
+	}{
+		{"due in 10 days", dues(400, 10), "warn", true},
+		{"expired yesterday", dues(-1, 10), "block", false},
+	} {
+		t.Run(c.name, func(t *testing.T) {
+			d := writeDemo(t, c.edit)
+			_, hs := startConsole(t, d, console.Options{})
+			p := newTab(t, bctx, hs.URL, shotDir)
+			id, name := d.person(t, sequencer.RightOperate)
+			p.open()
+			p.signIn(id, name)
+			cal := `#status li[data-status="calibration"]`
+			p.waitFor(10*time.Second, "the calibration status", fmt.Sprintf(`attr(%q, 'data-state') !== ''`, cal))
+			if st := eval[string](p, fmt.Sprintf("attr(%q, 'data-state')", cal)); st != c.state {
+				t.Errorf("calibration status %q, want %s (%s)", st, c.state, p.text(cal))
+			}
+			want := "DMM-0203"
+			if c.state == "block" {
+				want = "STD-0117"
+			}
+			// On the status item itself, not in a tooltip: a gloved operator has
+			// no mouse to hover with.
+			if !strings.Contains(p.text(cal), want) {
+				t.Errorf("the calibration status does not name %s, whose calibration is the matter: %q", want, p.text(cal))
+			}
+			eval[bool](p, `(() => { const s = document.querySelector('#scan'); if (s && !s.disabled) s.focus(); return true; })()`)
+			p.do(5*time.Second, "scan", chromedp.KeyEvent("BRX-00001\r"))
+			if c.runs {
+				p.verdict("PASS", 30*time.Second)
+			} else {
+				time.Sleep(time.Second)
+				if runs := mustRuns(t, d.openLedger(t), ""); len(runs) != 0 {
+					t.Errorf("a station whose calibration expired ran %d unit(s)", len(runs))
+				}
+			}
+		})
+	}
+}
+
 func mustRuns(t *testing.T, led *ledger.Ledger, serial string) []ledger.RunSummary {
 	t.Helper()
 	runs, err := led.Runs(context.Background(), serial)
