@@ -389,7 +389,18 @@ func Check(specs []Spec) error {
 	return nil
 }
 
-// OpenAll opens every spec and returns the instruments keyed by role. Specs of a
+// OpenError is the error of OpenAll for an instrument that would not open: its
+// role, its address and the driver's error.
+type OpenError struct {
+	Role, Address string
+	Err           error
+}
+
+func (e *OpenError) Error() string { return fmt.Sprintf("open %s at %s: %v", e.Role, e.Address, e.Err) }
+func (e *OpenError) Unwrap() error { return e.Err }
+
+// OpenAll opens every spec and returns the instruments keyed by role. An
+// instrument opened on its own that fails is an *OpenError. Specs of a
 // GroupDriver's scheme are opened together. On error every instrument already opened
 // is closed again.
 func OpenAll(ctx context.Context, specs []Spec) (map[string]Instrument, error) {
@@ -417,7 +428,7 @@ func OpenAll(ctx context.Context, specs []Spec) (map[string]Instrument, error) {
 		in, err := drv.Open(ctx, u, s)
 		if err != nil {
 			closeAll()
-			return nil, fmt.Errorf("open %s at %s: %w", s.Role, s.Address, err)
+			return nil, &OpenError{Role: s.Role, Address: s.Address, Err: err}
 		}
 		out[s.Role] = in
 	}

@@ -290,7 +290,7 @@ func coefWrite(ctx context.Context, u *Unit, c Coefficient, w *CoefficientWrite,
 	query := func(ctx context.Context, what string) (string, error) {
 		reply, err := port.Query(ctx, u.Fill(c.Read))
 		if err != nil {
-			return "", fmt.Errorf("%s: read coefficient %s (%s): %w", c.Port, c.Name, what, err)
+			return "", u.e.blame(c.Port, err.Error(), fmt.Errorf("%s: read coefficient %s (%s): %w", c.Port, c.Name, what, err))
 		}
 		if r := strings.TrimSpace(reply); strings.HasPrefix(r, "ERR") {
 			return "", u.Fault("%s: coefficient %s: the unit answered %q to %q (%s)", c.Port, c.Name, r, u.Fill(c.Read), what)
@@ -310,7 +310,7 @@ func coefWrite(ctx context.Context, u *Unit, c Coefficient, w *CoefficientWrite,
 		}
 		line := u.Fill(c.Line(w.Text))
 		if err := port.Command(ctx, line); err != nil {
-			return fmt.Errorf("%s: write coefficient %s %q: %w", c.Port, c.Name, line, err)
+			return u.e.blame(c.Port, err.Error(), fmt.Errorf("%s: write coefficient %s %q: %w", c.Port, c.Name, line, err))
 		}
 		w.Written = true
 		reply, err := query(ctx, "read back")

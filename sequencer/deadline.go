@@ -16,9 +16,9 @@ func (e *Engine) step(ctx context.Context, f func(ctx context.Context) error) er
 	if len(e.watchdogs) > 0 {
 		g := f
 		f = func(ctx context.Context) error {
-			for _, w := range e.watchdogs {
+			for i, w := range e.watchdogs {
 				if err := w.ArmWatchdog(ctx); err != nil {
-					return fmt.Errorf("source: arm output watchdog: %w", err)
+					return e.blame(e.watchdogRoles[i], err.Error(), fmt.Errorf("source: arm output watchdog: %w", err))
 				}
 			}
 			return g(ctx)

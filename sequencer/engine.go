@@ -49,7 +49,9 @@ type Config struct {
 	NewID func(now time.Time) string
 	// Progress, when set, is called with every progress event of a run, on the
 	// engine's goroutine and in order. It must return quickly (copy the event
-	// and hand it on); it never changes what the run records.
+	// and hand it on: the run waits for it) and must not panic (a panic during
+	// the run faults the unit, as any panic does); it never changes what the
+	// run records.
 	Progress func(Event)
 }
 
@@ -82,8 +84,9 @@ type Engine struct {
 
 	// watchdogs are the sources' output watchdogs (those that have one): armed
 	// at every step, disarmed once the output is off.
-	watchdogs []instruments.OutputWatchdog
-	queues    []roleQueue // instruments with an error queue, in role order
+	watchdogs     []instruments.OutputWatchdog
+	watchdogRoles []string    // the role of each of watchdogs
+	queues        []roleQueue // instruments with an error queue, in role order
 
 	// The running unit's progress: the sequence's outline (Sequence.Outline),
 	// the step running (index into it) and the points it has reported.
@@ -119,6 +122,9 @@ func Open(ctx context.Context, cfg Config) (*Engine, error) {
 	}
 	all, err := instruments.OpenAll(ctx, st.Specs(seq.Requires))
 	if err != nil {
+		if oe := (*instruments.OpenError)(nil); errors.As(err, &oe) {
+			err = blame(st, oe.Role, oe.Err.Error(), err)
+		}
 		return nil, err
 	}
 	e := &Engine{cfg: cfg, all: all, clock: instruments.RealClock{}, sources: map[string]instruments.Source{}, currents: map[string]instruments.CurrentSource{},
@@ -143,7 +149,7 @@ func Open(ctx context.Context, cfg Config) (*Engine, error) {
 			}
 			e.sources[r] = src
 			if w, ok := src.(instruments.OutputWatchdog); ok {
-				e.watchdogs = append(e.watchdogs, w)
+				e.watchdogs, e.watchdogRoles = append(e.watchdogs, w), append(e.watchdogRoles, r)
 			}
 		case CurrentSource:
 			src, ok := in.(instruments.Source)
@@ -153,7 +159,7 @@ func Open(ctx context.Context, cfg Config) (*Engine, error) {
 			}
 			e.sources[r], e.currents[r] = src, cs
 			if w, ok := src.(instruments.OutputWatchdog); ok {
-				e.watchdogs = append(e.watchdogs, w)
+				e.watchdogs, e.watchdogRoles = append(e.watchdogs, w), append(e.watchdogRoles, r)
 			}
 		case VoltMeter:
 			m, ok := in.(instruments.Meter)
@@ -439,7 +445,6 @@ func (e *Engine) runUnit(ctx context.Context, serial, operator string) (rec *Rec
 	log := e.cfg.Log.With().Str("serial", serial).Str("run", rec.RunID).Logger()
 	u := newUnit(e.cfg, rec, live)
 	u.e, u.log = e, log
-	e.emit(Event{Kind: EventUnitStart, Serial: serial, RunID: rec.RunID, Steps: slices.Clone(e.outline), Expected: e.expected})
 	defer func() {
 		if p := recover(); p != nil {
 			log.Error().Str("stack", string(debug.Stack())).Msgf("panic: %v", p)
@@ -451,6 +456,10 @@ func (e *Engine) runUnit(ctx context.Context, serial, operator string) (rec *Rec
 			log.Error().Err(err).Msg("could not switch the source output off")
 			if rec.Verdict != Aborted {
 				rec.Verdict = Fault
+				if r := e.onlySource(); r != "" && rec.FaultDetail == nil {
+					d, _ := DetailOf(blame(st, r, err.Error(), err))
+					rec.FaultDetail = &d
+				}
 			}
 			rec.Fault = strings.TrimPrefix(rec.Fault+"; source output off failed: "+err.Error(), "; ")
 		}
@@ -475,6 +484,7 @@ func (e *Engine) runUnit(ctx context.Context, serial, operator string) (rec *Rec
 		}
 		rec.Finished = e.clock.Now().UTC()
 	}()
+	e.emit(Event{Kind: EventUnitStart, Serial: serial, RunID: rec.RunID, Steps: slices.Clone(e.outline), Expected: e.expected})
 	err := e.run(ctx, u)
 	var s *stop
 	switch {
@@ -529,6 +539,18 @@ func (e *Engine) run(ctx context.Context, u *Unit) error {
 	}
 	finish(u)
 	return nil
+}
+
+// onlySource is the station's one source role, "" when it has several (a
+// failed safe-off then does not say which).
+func (e *Engine) onlySource() string {
+	if len(e.sources) != 1 {
+		return ""
+	}
+	for r := range e.sources {
+		return r
+	}
+	return ""
 }
 
 // runSteps runs the sequence's steps for the unit, in order: a step whose skip_if

@@ -27,6 +27,8 @@ type plan struct {
 	lidOpenAt    int        // the fixture lid reads OPEN from the Nth meter read on; 0 = always closed
 	bench        *sim.Bench // the bench opened last
 
+	serial string // the unit in the fixture answers SN? with it; "" = the loaded unit's serial
+
 	checks       int // reads of the meter's error queue
 	entryAtCheck int // the meter's error queue holds an entry at the Nth read of it (1-based); 0 = never
 }
@@ -124,7 +126,11 @@ func (d *faultyDUT) Query(ctx context.Context, line string) (string, error) {
 	inject.mu.Lock()
 	skew := inject.readbackSkew
 	lidOpen := inject.lidOpenAt > 0 && inject.reads >= inject.lidOpenAt
+	serial := inject.serial
 	inject.mu.Unlock()
+	if line == "SN?" && serial != "" {
+		return serial, nil
+	}
 	if line == "LID?" {
 		if lidOpen {
 			return "OPEN", nil
@@ -500,6 +506,9 @@ func TestInterlockOpenStopsTheRun(t *testing.T) {
 	if got := len(rec.Sweeps[0].Points); got != 4 {
 		t.Errorf("run went on for %d points after the lid opened at the 6th read", got)
 	}
+	if d := rec.FaultDetail; d == nil || d.Role != "dut" || d.Said != `"OPEN" to "LID?" (closed is "CLOSED")` {
+		t.Errorf("fault detail %+v, want the dut port's lid answer", d)
+	}
 	if on, _ := bench.Source().State(); on {
 		t.Error("source left on with the lid open")
 	}
@@ -516,6 +525,10 @@ func TestStepDeadline(t *testing.T) {
 	rec := e.Run(context.Background(), "BRX-00013")
 	if rec.Verdict != sequencer.Fault || !strings.Contains(rec.Fault, "step deadline") {
 		t.Fatalf("%s %q", rec.Verdict, rec.Fault)
+	}
+	// The step overran while the meter was reading: the meter is named.
+	if d := rec.FaultDetail; d == nil || d.Role != "meter" || d.Said == "" {
+		t.Errorf("fault detail %+v, want the meter", d)
 	}
 }
 

@@ -19,6 +19,11 @@ func (r *roleError) Unwrap() error { return r.err }
 // said said ("" = the text of err); nil stays nil. An error already marked keeps
 // its instrument: the nearest cause names it best.
 func (e *Engine) blame(role, said string, err error) error {
+	return blame(e.cfg.Station, role, said, err)
+}
+
+// blame is Engine.blame on station st.
+func blame(st *Station, role, said string, err error) error {
 	if err == nil {
 		return nil
 	}
@@ -30,7 +35,7 @@ func (e *Engine) blame(role, said string, err error) error {
 		said = err.Error()
 	}
 	d := FaultDetail{Role: role, Said: said}
-	if si, ok := e.cfg.Station.Instruments[role]; ok {
+	if si, ok := st.Instruments[role]; ok {
 		d.Asset, d.Address = si.Asset, si.Address
 	}
 	return &roleError{detail: d, err: err}

@@ -87,7 +87,7 @@ func ForOperator(rec *Record, attempt, maxAttempts int) OperatorView {
 			}
 		}
 		switch {
-		case !retestable:
+		case !retestable, rec.Disposition != nil: // a reviewer's rejection is final
 		case maxAttempts <= 0:
 			v.Action = fmt.Sprintf("%s (attempt %d)", ActionRetest, attempt+1)
 		case attempt < maxAttempts:
@@ -340,6 +340,9 @@ func classifyFault(rec *Record) faultClass {
 	case has("wrong instrument", "identifies as"):
 		c.what = inst.long + " is not the instrument the station file names"
 		c.check = "that the instrument with asset tag " + inst.asset + " is the one connected at " + inst.address
+	case has("wrong unit in the fixture"):
+		c.what, c.fixable = "the unit in the fixture is not the one scanned", true
+		c.check = "that the unit in the fixture is the one whose label was scanned: put that one in, or scan the one that is in"
 	case has("timeout", "no reply", "deadline", "stopped answering", "not answering"):
 		c.what, c.fixable = inst.long+" stopped answering", true
 		c.check = "its cable and power; that no one else is connected to it"

@@ -8,6 +8,7 @@ import (
 	"testing"
 	"time"
 
+	"trimline/instruments"
 	"trimline/instruments/sim/serve"
 	"trimline/sequencer"
 )
@@ -259,5 +260,183 @@ func TestBatchStopsAfterAFault(t *testing.T) {
 	}
 	if !errors.Is(tl.Err(), sequencer.ErrUnitFault) {
 		t.Errorf("batch error %v, want ErrUnitFault", tl.Err())
+	}
+}
+
+// failingOff is a source whose output cannot be switched off once fail is set.
+type failingOff struct {
+	instruments.Source
+	fail *bool
+}
+
+func (f failingOff) SetOutput(ctx context.Context, on bool) error {
+	if *f.fail && !on {
+		return errors.New("output relay stuck")
+	}
+	return f.Source.SetOutput(ctx, on)
+}
+
+// A unit whose steps all went well but whose source cannot be switched off at
+// the end is a station fault of that source, the only one of the station; the
+// verdict event says FAULT, after the safe-off.
+func TestFaultDetailWhenSafeOffFails(t *testing.T) {
+	e := setup(t, "sim", nil, "")
+	fail := false
+	sequencer.WrapSources(e, func(role string, s instruments.Source) instruments.Source { return failingOff{s, &fail} })
+	var last sequencer.Event
+	steps := 0
+	rec := e.RunWith(context.Background(), "BRX-00006", sequencer.RunOptions{Progress: func(ev sequencer.Event) {
+		if ev.Kind == sequencer.EventUnitStart {
+			steps = len(ev.Steps)
+		}
+		if ev.Kind == sequencer.EventStepEnd && ev.Step == steps-1 {
+			fail = true // the last step is done: only the safe-off is left
+		}
+		last = ev
+	}})
+	fail = false
+	if rec.Verdict != sequencer.Fault || !strings.Contains(rec.Fault, "source output off failed: output relay stuck") {
+		t.Fatalf("verdict %s, fault %q", rec.Verdict, rec.Fault)
+	}
+	if d := rec.FaultDetail; d == nil || d.Role != "source" || d.Said != "output relay stuck" {
+		t.Errorf("fault detail %+v", d)
+	}
+	if last.Kind != sequencer.EventUnitEnd || last.Verdict != sequencer.Fault {
+		t.Errorf("last event %+v, want unit_end FAULT", last)
+	}
+}
+
+// checkOrder checks what every run's events obey, on any product: the unit's
+// start first with the record's steps, each step's start, points and end in
+// order with the record's status, a done step with as many points as its
+// outline says (a re-trim at most that many: it may stop early), the units the
+// record's, and the verdict last.
+func checkOrder(t *testing.T, evs []sequencer.Event, rec *sequencer.Record) {
+	t.Helper()
+	if len(evs) < 2 || evs[0].Kind != sequencer.EventUnitStart || evs[len(evs)-1].Kind != sequencer.EventUnitEnd {
+		t.Fatalf("%d events, want unit_start … unit_end", len(evs))
+	}
+	outline := evs[0].Steps
+	if last := evs[len(evs)-1]; last.Verdict != rec.Verdict {
+		t.Errorf("unit_end %s, record %s", last.Verdict, rec.Verdict)
+	}
+	stim, resp := orV(rec.StimulusUnit), orV(rec.ResponseUnit)
+	step, points, ended := -1, 0, true
+	for _, ev := range evs[1 : len(evs)-1] {
+		switch ev.Kind {
+		case sequencer.EventStepStart:
+			if !ended || ev.Step != step+1 {
+				t.Fatalf("step_start %d after step %d (ended %v)", ev.Step, step, ended)
+			}
+			step, points, ended = ev.Step, 0, false
+			if o := outline[step]; ev.Name != o.Name || ev.Channel != o.Channel || ev.StepKind != o.Kind {
+				t.Errorf("step_start %q %q (%s), outline %+v", ev.Name, ev.Channel, ev.StepKind, o)
+			}
+		case sequencer.EventPoint:
+			points++
+			if ended || ev.Step != step || ev.Point != points || ev.StimulusUnit != stim || ev.ResponseUnit != resp {
+				t.Errorf("point %+v during step %d (point %d; units %s, %s)", ev, step, points, stim, resp)
+			}
+		case sequencer.EventStepEnd:
+			if ended || ev.Step != step {
+				t.Fatalf("step_end %d during step %d (ended %v)", ev.Step, step, ended)
+			}
+			ended = true
+			if ev.Status == sequencer.StepStopped {
+				continue
+			}
+			if step >= len(rec.Steps) || ev.Status != rec.Steps[step].Status || ev.Name != rec.Steps[step].Name || ev.Channel != rec.Steps[step].Channel {
+				t.Errorf("step_end %d %q %q %s; the record's steps %+v", step, ev.Name, ev.Channel, ev.Status, rec.Steps)
+				continue
+			}
+			want := outline[step].Points
+			switch {
+			case ev.Status != sequencer.StepDone:
+				want = 0
+			case ev.StepKind == "retrim" && points <= want && points > 0:
+				want = points
+			}
+			if points != want {
+				t.Errorf("step %q %q (%s, %s) reported %d points, want %d", ev.Name, ev.Channel, ev.StepKind, ev.Status, points, want)
+			}
+		default:
+			t.Errorf("event %s between the unit's start and end", ev.Kind)
+		}
+	}
+	if !ended || rec.Verdict != sequencer.Fault && rec.Verdict != sequencer.Aborted && step != len(rec.Steps)-1 {
+		t.Errorf("events ended at step %d (ended %v), the record has %d steps", step, ended, len(rec.Steps))
+	}
+}
+
+// orV is a record's unit, "" read as volts.
+func orV(unit string) string {
+	if unit == "" {
+		return "V"
+	}
+	return unit
+}
+
+// Every demo product (several channels, a current loop, a unit that reports
+// counts, a re-trim, a soak in a chamber) reports its run in order.
+func TestProgressEveryDemoProduct(t *testing.T) {
+	for _, c := range []struct{ product, serial string }{
+		{"acq4", "ACQ-0001"}, {"brx200", "BRX-00001"}, {"brx200t", "BXT-00001"}, {"ltx420", "LTX-00001"}, {"pza8", "PZA-00001"},
+	} {
+		t.Run(c.product, func(t *testing.T) {
+			st, seq := loadFiles(t, "../sequences/"+c.product+"-station.yaml", "../sequences/"+c.product+"-sequence.yaml")
+			e := openEngine(t, st, seq)
+			var evs []sequencer.Event
+			rec := e.RunWith(context.Background(), c.serial, sequencer.RunOptions{Progress: collect(&evs)})
+			if rec.Verdict == sequencer.Fault || rec.Verdict == sequencer.Aborted {
+				t.Fatalf("verdict %s: %s", rec.Verdict, rec.Fault)
+			}
+			checkOrder(t, evs, rec)
+			n := 0
+			for _, ev := range evs {
+				if ev.Kind == sequencer.EventPoint {
+					n++
+				}
+			}
+			t.Logf("%s: %d events, %d points, %d steps, expected %s, verdict %s", c.product, len(evs), n, len(evs[0].Steps), evs[0].Expected, rec.Verdict)
+		})
+	}
+}
+
+// The stop button: a run cancelled at its first reading point ends ABORTED;
+// the step it was in ends "stopped", no later step reports, and the verdict
+// event says ABORTED.
+func TestProgressOfAStoppedRun(t *testing.T) {
+	e := setup(t, "sim", nil, "")
+	ctx, cancel := context.WithCancel(context.Background())
+	defer cancel()
+	var evs []sequencer.Event
+	rec := e.RunWith(ctx, "BRX-00007", sequencer.RunOptions{Progress: func(ev sequencer.Event) {
+		evs = append(evs, ev)
+		if ev.Kind == sequencer.EventPoint {
+			cancel()
+		}
+	}})
+	if rec.Verdict != sequencer.Aborted {
+		t.Fatalf("verdict %s, fault %q", rec.Verdict, rec.Fault)
+	}
+	checkOrder(t, evs, rec)
+	end := evs[len(evs)-2]
+	if end.Kind != sequencer.EventStepEnd || end.Status != sequencer.StepStopped {
+		t.Errorf("the event before the verdict is %+v, want the stopped step's end", end)
+	}
+}
+
+// A unit in the fixture that is not the one scanned faults the run at the
+// DUT port, which says what it holds.
+func TestFaultDetailOfTheWrongUnit(t *testing.T) {
+	defer inject.set(plan{})
+	e := setup(t, "faulty", nil, "")
+	inject.set(plan{serial: "BRX-99999"})
+	rec := e.Run(context.Background(), "BRX-00008")
+	if rec.Verdict != sequencer.Fault || !strings.Contains(rec.Fault, "wrong unit in the fixture") {
+		t.Fatalf("verdict %s, fault %q", rec.Verdict, rec.Fault)
+	}
+	if d := rec.FaultDetail; d == nil || d.Role != "dut" || d.Said != `the unit in it reports serial "BRX-99999"` {
+		t.Errorf("fault detail %+v", d)
 	}
 }

@@ -504,6 +504,9 @@ func FaultRecord(cfg Config, serial string, now time.Time, err error) *Record {
 		Files:     []FileRef{st.File, seq.File, seq.LimitsFile},
 		IdealGain: seq.IdealGain, IdealOffset: seq.IdealOffset, FullScale: seq.FullScale, ResponseUnit: seq.recordResponseUnit(),
 		Conditions: cfg.Conditions, Engineering: cfg.Engineering, Verdict: Fault, Fault: "station could not start the unit: " + err.Error()}
+	if d, ok := DetailOf(err); ok {
+		rec.FaultDetail = &d
+	}
 	for _, r := range seq.Requires {
 		ref := instrumentRef(r, st.Instruments[r], cfg.Conditions)
 		ref.Identity = instruments.Identity{Maker: "0", Model: "0", Serial: "0", Firmware: "0"}

@@ -50,7 +50,8 @@ func (s *identifyStep) Run(ctx context.Context, u *Unit) error {
 				return u.e.blame(s.Port, err.Error(), fmt.Errorf("%s: read serial number: %w", s.Port, err))
 			}
 			if strings.TrimSpace(got) != rec.Serial {
-				return u.Fault("the unit in the fixture reports serial %q but %q was scanned: wrong unit in the fixture", strings.TrimSpace(got), rec.Serial)
+				return u.e.blame(s.Port, fmt.Sprintf("the unit in it reports serial %q", strings.TrimSpace(got)),
+					u.Fault("the unit in the fixture reports serial %q but %q was scanned: wrong unit in the fixture", strings.TrimSpace(got), rec.Serial))
 			}
 		}
 		if q := s.FirmwareQuery; q != "" {

@@ -221,7 +221,7 @@ func (s *soakStep) soak(ctx context.Context, u *Unit) (Soak, error) {
 	clock := u.e.clock
 	err := u.Do(ctx, func(ctx context.Context) error {
 		if err := th.SetTemperature(ctx, s.setPoint); err != nil {
-			return fmt.Errorf("%s: set %s: %w", s.Thermal, fmtC(s.setPoint), err)
+			return u.e.blame(s.Thermal, err.Error(), fmt.Errorf("%s: set %s: %w", s.Thermal, fmtC(s.setPoint), err))
 		}
 		return nil
 	})
@@ -235,14 +235,14 @@ func (s *soakStep) soak(ctx context.Context, u *Unit) (Soak, error) {
 		err := u.Do(ctx, func(ctx context.Context) error {
 			c, err := th.Temperature(ctx)
 			if err != nil {
-				return fmt.Errorf("%s: read temperature: %w", s.Thermal, err)
+				return u.e.blame(s.Thermal, err.Error(), fmt.Errorf("%s: read temperature: %w", s.Thermal, err))
 			}
 			r = TempReading{Time: clock.Now().UTC(), C: c}
 			if port != nil {
 				q := s.UnitSensor.Query
 				reply, err := port.Query(ctx, q)
 				if err != nil {
-					return fmt.Errorf("%s: %q: %w", s.UnitSensor.Port, q, err)
+					return u.e.blame(s.UnitSensor.Port, err.Error(), fmt.Errorf("%s: %q: %w", s.UnitSensor.Port, q, err))
 				}
 				v, err := strconv.ParseFloat(strings.TrimSpace(reply), 64)
 				if err != nil || !finite(v) {

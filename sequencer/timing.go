@@ -60,14 +60,18 @@ func CheckTiming(st *Station, seq *Sequence) error {
 // per step and channel, in run order, as Sequence.Steps) and the run's expected
 // duration: the sum of the steps' timing estimates (Timed.Budget: the settles and
 // the readings at the meter's integration time on a 50 Hz line; for a re-trim
-// every pass, for a soak its timeout, so an upper bound there). A step without an
-// estimate (a fit, a trim, a command) counts 0; the instruments' exchanges are
-// not counted, so a bench over a wire takes longer.
+// every pass, an upper bound; for a soak its dwell, the least it takes once the
+// chamber is in its band, since its timeout, the Budget, is hours). A step
+// without an estimate (a fit, a trim, a command) counts 0; the instruments'
+// exchanges are not counted, so a bench over a wire takes a little longer.
 func (s *Sequence) Outline() (steps []StepInfo, expected time.Duration) {
 	for _, d := range s.Steps {
 		in := StepInfo{Name: d.Name, Kind: d.Kind, Channel: d.Channel}
 		if t, ok := d.Step.(Timed); ok {
 			in.Expected, _ = t.Budget()
+		}
+		if s, ok := d.Step.(*soakStep); ok {
+			in.Expected = s.dwell
 		}
 		if p, ok := d.Step.(pointed); ok {
 			in.Points = p.points()

@@ -553,6 +553,10 @@ func (a *auditor) replay(ctx context.Context, e *env, what string) error {
 			fmt.Fprintf(w, "%s %s %s: NOT REPLAYED, not signed by its station's trusted key: %s\n", rec.RunID, rec.Serial, rec.Verdict, bad)
 			continue
 		}
+		verdict := string(rec.Verdict)
+		if dp := rec.Disposition; dp != nil {
+			verdict += " (" + dp.OnReview() + " by " + dp.Reviewer + ", held as " + dp.OfCertificate + ")"
+		}
 		diffs, err := audit.Replay(ctx, led, rec)
 		switch {
 		case errors.Is(err, sequencer.ErrNotReplayable):
@@ -562,11 +566,11 @@ func (a *auditor) replay(ctx context.Context, e *env, what string) error {
 			return err
 		}
 		if len(diffs) == 0 {
-			fmt.Fprintf(w, "%s %s %s: reproduced exactly\n", rec.RunID, rec.Serial, rec.Verdict)
+			fmt.Fprintf(w, "%s %s %s: reproduced exactly\n", rec.RunID, rec.Serial, verdict)
 			continue
 		}
 		differ++
-		fmt.Fprintf(w, "%s %s %s: %d difference(s)\n", rec.RunID, rec.Serial, rec.Verdict, len(diffs))
+		fmt.Fprintf(w, "%s %s %s: %d difference(s)\n", rec.RunID, rec.Serial, verdict, len(diffs))
 		for _, d := range diffs {
 			fmt.Fprintf(w, "  %s\n", d)
 		}

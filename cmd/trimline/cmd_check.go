@@ -226,13 +226,21 @@ otherwise.`,
 }
 
 // stationProblems are what a loaded station file would meet in production beyond
-// the loader's checks: calibrations run out or running out at e's clock, and a
-// signing key that is missing or unreadable.
+// the loader's checks: calibrations run out or running out at e's clock, a
+// signing key that is missing or unreadable, and a person's public key that is.
 func stationProblems(e *env, st *sequencer.Station) files.List {
 	out := st.CheckCalibration(e.clock())
 	if st.SigningKey != "" {
 		if _, err := signing.Load(st.SigningKey); err != nil {
 			out = append(out, st.Errorf("$.signing.key", "cannot use the signing key: %v (make one with: trimline keys init)", err))
+		}
+	}
+	for i, p := range st.People {
+		if p.Key == "" {
+			continue
+		}
+		if _, err := signing.LoadPublic(p.Key); err != nil {
+			out = append(out, st.Errorf(fmt.Sprintf("$.people[%d].key", i), "cannot use %s's public key: %v (trimline keys init makes a key pair; the person keeps the .key)", p.Name, err))
 		}
 	}
 	return out

@@ -124,6 +124,9 @@ unit takes a few seconds, as it would on a real bench.`,
 		}
 		t, err := runBatch(ctx, e, batch{stationPath: station, sequencePath: sequence, serials: serials, out: *out,
 			operator: *operator, ambient: *ambient, retest: *retest})
+		if errors.Is(err, issuing.ErrAttemptsUsed) {
+			return fmt.Errorf("%w\nThe demo folder %s has run these units as often as the sequence allows (retest.max_attempts): --out a new folder", err, *out)
+		}
 		if errors.Is(err, issuing.ErrTestedBefore) {
 			return fmt.Errorf("%w\nThe demo folder %s already holds these units: give --retest to run them again, or --out a new folder", err, *out)
 		}
@@ -208,7 +211,32 @@ func writeProductFiles(dir string, p sequences.Product, seed uint64, now time.Ti
 	if err := os.WriteFile(filepath.Join(dir, "keys", "trust.yaml"), []byte(demoTrust(dir)), 0o600); err != nil {
 		return "", "", err
 	}
+	if err := demoPeopleKeys(station); err != nil {
+		return "", "", err
+	}
 	return station, filepath.Join(dir, p.Sequence), nil
+}
+
+// demoPeopleKeys makes a key pair for every person of the station file whose
+// public key (people: key:, NAME.pub) is not there yet, NAME.key beside it: the
+// demo's reviewer signs review decisions with it.
+func demoPeopleKeys(station string) error {
+	st, err := sequencer.LoadStation(station)
+	if err != nil {
+		return badInput(err)
+	}
+	for _, p := range st.People {
+		name, ok := strings.CutSuffix(filepath.Base(p.Key), ".pub")
+		if p.Key == "" || !ok {
+			continue
+		}
+		if _, err := os.Stat(p.Key); os.IsNotExist(err) {
+			if _, _, err := signing.Init(filepath.Dir(p.Key), name); err != nil {
+				return err
+			}
+		}
+	}
+	return nil
 }
 
 // stationIDOf reads the id of the station file at path.

@@ -75,8 +75,9 @@ func TestServedBenchPasses(t *testing.T) {
 
 // Every injected fault ends the unit as a station fault (exit code 3), never PASS:
 // the source output is off afterwards, no certificate is issued, the ledger
-// records the fault with the instrument's message, and the next unit runs once the
-// fault is cleared.
+// records the fault with the instrument's message and names that instrument
+// (its role, asset and address: the record's fault detail), and the next unit
+// runs once the fault is cleared.
 func TestInjectedFaultsAreStationFaults(t *testing.T) {
 	cases := []struct {
 		name  string
@@ -121,6 +122,11 @@ func TestInjectedFaultsAreStationFaults(t *testing.T) {
 			if err != nil || !strings.Contains(strings.ToLower(rec.Fault), strings.ToLower(c.want)) {
 				t.Errorf("recorded fault %q, want it to mention %q (%v)", rec.Fault, c.want, err)
 			}
+			if d := rec.FaultDetail; d == nil || d.Role != c.role || d.Address != srv.Addresses()[c.role] || d.Asset == "" || d.Said == "" {
+				t.Errorf("recorded fault detail %+v, want the %s at %s (fault %q)", d, c.role, srv.Addresses()[c.role], rec.Fault)
+			} else {
+				t.Logf("%s at %s said %q", d.Role, d.Address, d.Said)
+			}
 			if pdfs, _ := filepath.Glob(filepath.Join(dir, "certificates", "*.pdf")); len(pdfs) != 0 {
 				t.Errorf("a certificate was issued for a faulted run: %v", pdfs)
 			}
@@ -130,5 +136,53 @@ func TestInjectedFaultsAreStationFaults(t *testing.T) {
 				t.Errorf("after clearing: exit %d\n%s%s", code, out, errOut)
 			}
 		})
+	}
+}
+
+// A station fault ends a batch: the units after the faulted one are not run
+// (the one-off error-queue entry of the first unit's first reading would have
+// let them pass: the station waits for a person all the same) but reported as
+// not run, and the exit code is 3.
+func TestBatchStopsAtAStationFault(t *testing.T) {
+	dir, station, sequence, srv := wire(t, "tcp", nil)
+	if err := srv.SetFault("meter", serve.Fault{ErrorAfter: "READ?", ErrorEntry: `-230,"Data corrupt or stale"`}); err != nil {
+		t.Fatal(err)
+	}
+	code, out, errOut := runCLI(t, "run", "--station", station, "--sequence", sequence,
+		"--serial", "BRX-00001", "--serial", "BRX-00002", "--serial", "BRX-00003", "--out", dir)
+	if code != exitStation {
+		t.Fatalf("exit %d, want 3\n%s\n%s", code, out, errOut)
+	}
+	if !strings.Contains(errOut, "2 unit(s) not run: BRX-00002 BRX-00003") {
+		t.Errorf("stderr does not list the units not run:\n%s", errOut)
+	}
+	led, err := ledger.Open(context.Background(), filepath.Join(dir, "ledger.db"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer led.Close()
+	runs, _ := led.Runs(context.Background(), "")
+	if len(runs) != 1 || runs[0].Serial != "BRX-00001" || runs[0].Verdict != sequencer.Fault {
+		t.Fatalf("ledger %+v, want the one faulted run of BRX-00001", runs)
+	}
+
+	// For scripts: the faulted unit names the meter, the summary the units
+	// the fault kept from running.
+	srv.SetFault("meter", serve.Fault{ErrorAfter: "READ?", ErrorEntry: `-230,"Data corrupt or stale"`})
+	code, out, errOut = runCLI(t, "run", "--station", station, "--sequence", sequence, "--json",
+		"--serial", "BRX-00004", "--serial", "BRX-00005", "--out", dir)
+	lines := jsonLines(t, out)
+	if code != exitStation || len(lines) != 2 {
+		t.Fatalf("exit %d, %d lines, want 3 and a unit and a summary\n%s\n%s", code, len(lines), out, errOut)
+	}
+	var u unitOut
+	var sum summaryOut
+	decodeStrict(t, lines[0], &u)
+	decodeStrict(t, lines[1], &sum)
+	if d := u.FaultDetail; u.Verdict != "FAULT" || d == nil || d.Role != "meter" || d.Address != srv.Addresses()["meter"] || !strings.Contains(d.Said, "Data corrupt or stale") {
+		t.Errorf("unit %s %s: fault detail %+v", u.Serial, u.Verdict, u.FaultDetail)
+	}
+	if strings.Join(sum.Skipped, " ") != "BRX-00005" {
+		t.Errorf("summary skipped %q, want BRX-00005", sum.Skipped)
 	}
 }

@@ -90,19 +90,25 @@ type unitOut struct {
 	Certificate string `json:"certificate"` // certificate number; "" when the run gets none (FAULT, ABORTED)
 	// CertificatePDF is the certificate's file, as the station wrote it (under
 	// the output folder); "" with Certificate.
-	CertificatePDF string      `json:"certificate_pdf"`
-	Started        time.Time   `json:"started"` // RFC 3339, UTC
-	Finished       time.Time   `json:"finished"`
-	Reasons        []string    `json:"reasons"` // why the verdict is not PASS, in words, in order; empty for PASS
-	Fault          string      `json:"fault"`   // the station fault, for FAULT and ABORTED
-	Results        []resultOut `json:"results"`
-	Limits         []limitOut  `json:"limits"`
-	TrimCodes      []trimOut   `json:"trim_codes"`
+	CertificatePDF string    `json:"certificate_pdf"`
+	Started        time.Time `json:"started"` // RFC 3339, UTC
+	Finished       time.Time `json:"finished"`
+	Reasons        []string  `json:"reasons"` // why the verdict is not PASS, in words, in order; empty for PASS
+	// OperatorReasons are the same in the operator's plain words, worst first
+	// (sequencer.ForOperator): "offset after trim is −12384 µV, limit ±800 µV".
+	OperatorReasons []string    `json:"operator_reasons"`
+	Fault           string      `json:"fault"` // the station fault, for FAULT and ABORTED
+	Results         []resultOut `json:"results"`
+	Limits          []limitOut  `json:"limits"`
+	TrimCodes       []trimOut   `json:"trim_codes"`
 	// Coefficients are the firmware correction coefficients written, in write
 	// order, and Retrims the passes of every closed-loop re-trim; both are left
 	// out for a product that has none.
 	Coefficients []coefficientOut `json:"coefficients,omitempty"`
 	Retrims      []retrimOut      `json:"retrims,omitempty"`
+	// FaultDetail names the instrument a FAULT came from (role, asset,
+	// address, what it said), when the engine knows it; left out otherwise.
+	FaultDetail *sequencer.FaultDetail `json:"fault_detail,omitempty"`
 }
 
 // resultOut is one result of a unit: a named number with its uncertainty and the
@@ -354,7 +360,7 @@ func newUnitOut(rec *sequencer.Record, cert, certDir string) unitOut {
 	u := unitOut{Kind: kindUnit, Version: jsonVersion, Serial: rec.Serial, Product: rec.Product, Revision: rec.Revision,
 		Station: rec.Station, Operator: rec.Operator, RunID: rec.RunID, Verdict: string(rec.Verdict),
 		Engineering: rec.Engineering, RetestOf: rec.RetestOf, Certificate: cert,
-		Started: rec.Started, Finished: rec.Finished, Reasons: nonNil(rec.Reasons), Fault: rec.Fault,
+		Started: rec.Started, Finished: rec.Finished, Reasons: nonNil(rec.Reasons), Fault: rec.Fault, FaultDetail: rec.FaultDetail,
 		Results: []resultOut{}, Limits: []limitOut{}, TrimCodes: []trimOut{}}
 	if rec.Simulated != nil {
 		u.Simulated = rec.Simulated.Mark
@@ -362,6 +368,7 @@ func newUnitOut(rec *sequencer.Record, cert, certDir string) unitOut {
 	if cert != "" {
 		u.CertificatePDF = filepath.Join(certDir, certificate.FileName(rec, certificate.Options{Number: cert}))
 	}
+	u.OperatorReasons = nonNil(sequencer.ForOperator(rec, 0, 0).Reasons)
 	for _, r := range rec.Results {
 		ro := resultOut{Name: r.Name, Channel: r.Channel, Step: r.Step, Quantity: r.QuantityOf(), Valid: r.Valid, Note: r.Note, Unit: r.Unit, JudgedBy: []judged{}}
 		if st, err := r.StageOf().MarshalText(); err == nil {

@@ -2,6 +2,8 @@ package main
 
 import (
 	"io"
+	"os"
+	"path/filepath"
 	"strings"
 	"testing"
 
@@ -28,5 +30,27 @@ func TestKeysPassphrase(t *testing.T) {
 	passphraseInput = strings.NewReader("")
 	if code, _, errOut := runCLI(t, "keys", "passphrase"); code != exitUsage || !strings.Contains(errOut, "stdin") {
 		t.Errorf("empty stdin: exit %d\n%s", code, errOut)
+	}
+}
+
+// The demo makes the key pair of the reviewer its station file names; check
+// refuses a person's public key it cannot read, at the person's key: line.
+func TestCheckPeopleKeys(t *testing.T) {
+	dir := t.TempDir()
+	station, _, err := writeDemoFiles(dir, 1, testNow())
+	if err != nil {
+		t.Fatal(err)
+	}
+	pub := filepath.Join(dir, "keys", "people", "tobias-wrenhollow.pub")
+	if _, err := os.Stat(strings.TrimSuffix(pub, ".pub") + ".key"); err != nil {
+		t.Fatalf("the demo made no key for its reviewer: %v", err)
+	}
+	if code, out, _ := runCLI(t, "check", station); code != exitPass {
+		t.Fatalf("check of the demo station: exit %d\n%s", code, out)
+	}
+	os.WriteFile(pub, []byte("not a key\n"), 0o644)
+	code, out, _ := runCLI(t, "check", station)
+	if code != exitUsage || !strings.Contains(out, "brx200-station.yaml:") || !strings.Contains(out, "cannot use Tobias Wrenhollow's public key") {
+		t.Errorf("check with an unreadable person's key: exit %d\n%s", code, out)
 	}
 }

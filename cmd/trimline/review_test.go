@@ -70,7 +70,8 @@ func TestReviewCommands(t *testing.T) {
 		t.Fatalf("review list: exit %d\n%s%s", code, out, errOut)
 	}
 
-	// The station file lists nobody: nobody may review.
+	// Refused before anything is recorded: someone the station file does not
+	// list, someone it lists without the review right, no reason.
 	accept := func(extra ...string) []string {
 		return append([]string{"review", "accept", "TL1-000001", "--station", station, "--sequence", sequence, "--out", dir}, extra...)
 	}
@@ -78,15 +79,17 @@ func TestReviewCommands(t *testing.T) {
 		args []string
 		says string
 	}{
-		{accept("--reviewer", "Ada Quillfeather", "--reason", "offset rechecked"), `lists nobody named "Ada Quillfeather"`},
-		{accept("--reviewer", "Ada Quillfeather"), "usage: trimline review accept CERT"},
+		{accept("--reviewer", "Mallory", "--reason", "offset rechecked"), `lists nobody named "Mallory"`},
+		{accept("--reviewer", "B-1042", "--reason", "offset rechecked"), "Ada Quillfeather may not decide on units held for REVIEW"},
+		{accept("--reviewer", "Tobias Wrenhollow"), "usage: trimline review accept CERT"},
 	} {
 		if code, out, errOut := runCLI(t, c.args...); code != exitUsage || !strings.Contains(errOut, c.says) {
 			t.Errorf("%v: exit %d, want 2 saying %q\n%s%s", c.args[1:3], code, c.says, out, errOut)
 		}
 	}
 
-	// With the station's people (the file's people: list, set here directly).
+	// With people set here directly (the demo's people are used as the file
+	// lists them by TestReviewAcceptFromStationPeople).
 	st, seq, err := loadFiles(ctx, station, sequence)
 	if err != nil {
 		t.Fatal(err)
@@ -158,7 +161,7 @@ func TestReviewCommands(t *testing.T) {
 	}
 	for _, sn := range []string{"BRX-00001", "BRX-00002"} {
 		code, out, errOut := runCLI(t, "audit", "replay", sn, "--keys", keys, "--ledger", filepath.Join(dir, "ledger.db"))
-		if code != exitPass || strings.Count(out, "reproduced exactly") != 2 {
+		if code != exitPass || strings.Count(out, "reproduced exactly") != 2 || !strings.Contains(out, "on review by Ada Quillfeather, held as TL1-00000") {
 			t.Errorf("replay %s: exit %d\n%s%s", sn, code, out, errOut)
 		}
 	}
@@ -172,5 +175,54 @@ func TestReviewCommands(t *testing.T) {
 	defer led.Close()
 	if e, ok, err := led.ReviewDecision(ctx, "TL1-000002"); err != nil || !ok || e.Reviewer != "Ada Quillfeather" || e.Certificate != "TL1-000004" {
 		t.Errorf("the reject's audit entry: %+v %v %v", e, ok, err)
+	}
+}
+
+// review accept as a reviewer runs it, with the demo station file's people: a
+// reviewer (Tobias Wrenhollow, badge B-2077, may: [operate, review], key:
+// keys/people/tobias-wrenhollow.pub, which the demo makes) signs the decision
+// with --key; a key that is not theirs and a person without the review right
+// are refused; a unit decided once is not decided again.
+func TestReviewAcceptFromStationPeople(t *testing.T) {
+	dir := t.TempDir()
+	station, sequence := writeHeldDemo(t, dir, "BRX-00001")
+	st, err := sequencer.LoadStation(station)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if p, ok := st.Person("B-2077"); !ok || p.Name != "Tobias Wrenhollow" || !p.Can(sequencer.RightReview) {
+		t.Fatalf("the demo station's reviewer: %+v %v", p, ok)
+	}
+	tobias := filepath.Join(dir, "keys", "people", "tobias-wrenhollow.key")
+	accept := func(extra ...string) []string {
+		return append([]string{"review", "accept", "TL1-000001", "--station", station, "--sequence", sequence, "--out", dir,
+			"--reason", "offset rechecked on the bench meter"}, extra...)
+	}
+	for _, c := range []struct {
+		args []string
+		says string
+	}{
+		{accept("--reviewer", "B-1042", "--key", tobias), "Ada Quillfeather may not decide"},
+		{accept("--reviewer", "B-2077", "--key", filepath.Join(dir, "keys", "TL1.key")), "is not Tobias Wrenhollow's"},
+	} {
+		if code, out, errOut := runCLI(t, c.args...); code != exitUsage || !strings.Contains(errOut, c.says) {
+			t.Errorf("%v: exit %d, want 2 saying %q\n%s%s", c.args[len(c.args)-4:], code, c.says, out, errOut)
+		}
+	}
+	code, out, errOut := runCLI(t, accept("--reviewer", "B-2077", "--key", tobias)...)
+	if code != exitPass || !strings.Contains(out, "accepted on review by Tobias Wrenhollow (key ed25519:") ||
+		!strings.Contains(out, "certificate TL1-000002 (PASS) issued; it supersedes TL1-000001") {
+		t.Fatalf("accept: exit %d\n%s%s", code, out, errOut)
+	}
+	code, out, errOut = runCLI(t, "review", "reject", "TL1-000002", "--station", station, "--sequence", sequence, "--out", dir,
+		"--reason", "second thoughts", "--reviewer", "Tobias Wrenhollow")
+	if code != exitUsage || !strings.Contains(errOut, "PASS (accepted on review by Tobias Wrenhollow), not held for REVIEW") {
+		t.Errorf("a decided unit decided again: exit %d\n%s%s", code, out, errOut)
+	}
+	// A unit retested after the decision is refused without --retest, naming
+	// the decision's certificate.
+	code, out, errOut = runCLI(t, "run", "--station", station, "--sequence", sequence, "--out", dir, "--serial", "BRX-00001")
+	if code != exitUsage || !strings.Contains(errOut, "certificate TL1-000002") {
+		t.Errorf("a run of the decided unit: exit %d\n%s%s", code, out, errOut)
 	}
 }

@@ -101,10 +101,12 @@ func liveLine(i, n int, rec *sequencer.Record, cert string) string {
 	if cert != "" {
 		line += "   " + cert
 	}
-	if (rec.Verdict == sequencer.Fail || rec.Verdict == sequencer.Review) && len(rec.Reasons) > 0 {
-		line += "\n" + strings.Repeat(" ", 2*w+3) + "↳ " + rec.Reasons[0]
-		if len(rec.Reasons) > 1 {
-			line += fmt.Sprintf(" (+%d more)", len(rec.Reasons)-1)
+	// The worst reason in the operator's plain words; the metrologist's
+	// statements are in the record, the log and the certificate.
+	if why := sequencer.ForOperator(rec, 0, 0).Reasons; (rec.Verdict == sequencer.Fail || rec.Verdict == sequencer.Review) && len(why) > 0 {
+		line += "\n" + strings.Repeat(" ", 2*w+3) + "↳ " + why[0]
+		if len(why) > 1 {
+			line += fmt.Sprintf(" (+%d more)", len(why)-1)
 		}
 	}
 	// A chamber still beyond the handling band of the safe temperature: the

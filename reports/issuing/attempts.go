@@ -4,6 +4,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"strings"
 )
 
 // ErrAttemptsUsed is what a refusal of a serial that has had as many measured
@@ -40,16 +41,49 @@ func (is *Issuer) Attempts(ctx context.Context, serial string) (int, error) {
 	return is.Ledger.MeasuredAttempts(ctx, serial, is.Engineering)
 }
 
+// AttemptsUsed is every serial of a batch refused because its attempts are
+// used, in batch order. Its message names the first few in full and counts the
+// rest, as TestedBefore's does.
+type AttemptsUsed []*AttemptsUsedError
+
+func (a AttemptsUsed) Error() string {
+	var b strings.Builder
+	for i, e := range a {
+		if i == shownInFull {
+			rest := make([]string, 0, len(a)-i)
+			for _, r := range a[i:] {
+				rest = append(rest, r.Serial)
+			}
+			fmt.Fprintf(&b, "\n… and %d more serial(s) whose attempts are used: %s", len(rest), strings.Join(rest, ", "))
+			break
+		}
+		if i > 0 {
+			b.WriteString("\n")
+		}
+		b.WriteString(e.Error())
+	}
+	return b.String()
+}
+
+// Unwrap returns each refusal, so errors.Is(err, ErrAttemptsUsed) holds and
+// errors.As finds the first *AttemptsUsedError.
+func (a AttemptsUsed) Unwrap() []error {
+	errs := make([]error, len(a))
+	for i, e := range a {
+		errs[i] = e
+	}
+	return errs
+}
+
 // attemptsUsed refuses every serial of a batch whose measured runs, with its
 // earlier runs in the batch, have reached the sequence's retest.max_attempts:
-// one *AttemptsUsedError, or several joined; nil when all may run or the
-// sequence sets no limit.
+// an AttemptsUsed; nil when all may run or the sequence sets no limit.
 func (is *Issuer) attemptsUsed(ctx context.Context, serials []string) error {
 	if is.Sequence == nil || is.Sequence.MaxAttempts <= 0 {
 		return nil
 	}
 	limit := is.Sequence.MaxAttempts
-	var errs []error
+	var errs AttemptsUsed
 	inBatch := map[string]int{}
 	for _, sn := range serials {
 		n, err := is.Attempts(ctx, sn)
@@ -64,5 +98,8 @@ func (is *Issuer) attemptsUsed(ctx context.Context, serials []string) error {
 			}
 		}
 	}
-	return errors.Join(errs...)
+	if len(errs) == 0 {
+		return nil
+	}
+	return errs
 }

@@ -158,11 +158,13 @@ func (is *Issuer) CheckRetests(ctx context.Context, serials []string, retest boo
 // retest may run at all; Record links whatever ran, so that a serial never holds
 // two current certificates.
 func (is *Issuer) Record(ctx context.Context, rec *sequencer.Record) (string, error) {
-	return is.record(ctx, rec, rec.Operator)
+	return is.record(ctx, rec, rec.Operator, nil)
 }
 
-// record is Record with actor as the audit trail's actor of the run's entries.
-func (is *Issuer) record(ctx context.Context, rec *sequencer.Record, actor string) (string, error) {
+// record is Record with actor as the audit trail's actor of the run's entries
+// and, for a review decision, the detail of its audit trail entry
+// (ledger.RecordOptions.Review).
+func (is *Issuer) record(ctx context.Context, rec *sequencer.Record, actor string, review *ledger.ReviewDetail) (string, error) {
 	if rec.RetestOf == "" && rec.Serial != "" {
 		earlier, ok, err := is.Ledger.LastMeasuredRun(ctx, rec.Serial, rec.Engineering)
 		if err != nil {
@@ -175,7 +177,7 @@ func (is *Issuer) record(ctx context.Context, rec *sequencer.Record, actor strin
 	var keyID string
 	var sig []byte
 	st, seq := is.Station, is.Sequence
-	opt := ledger.RecordOptions{Prefix: st.CertificatePrefix, Actor: actor, Files: map[string][]byte{}}
+	opt := ledger.RecordOptions{Prefix: st.CertificatePrefix, Actor: actor, Review: review, Files: map[string][]byte{}}
 	for _, f := range []struct {
 		ref sequencer.FileRef
 		raw []byte

@@ -4,10 +4,8 @@ import (
 	"bytes"
 	"context"
 	"encoding/base64"
-	"encoding/json"
 	"errors"
 	"fmt"
-	"slices"
 	"strings"
 	"time"
 	"unicode"
@@ -45,7 +43,8 @@ func (is *Issuer) Dispose(ctx context.Context, certNumber string, d sequencer.Di
 // certificate's number.
 //
 // The certificate must be the current one (not superseded, not voided) of a
-// production run of is.Station held for REVIEW (else ErrNotHeld, saying why).
+// production run of is.Station held for REVIEW, and is a production issuer
+// (not Engineering); else ErrNotHeld, saying why.
 // d.Decision is sequencer.DecisionAccept or DecisionReject and d.Reason a
 // reason in words without control characters (else ErrBadDecision).
 // d.Reviewer is the badge or name of a person of the station's people with the
@@ -61,10 +60,13 @@ func (is *Issuer) Dispose(ctx context.Context, certNumber string, d sequencer.Di
 // OfCertificate and Tested filled in here) and RetestOf the REVIEW run, so that
 // the ledger supersedes the REVIEW certificate as it stores it. It is recorded
 // as Record does (signed by the station key, chained, certificate published),
-// with the reviewer as the audit trail's actor, and then an audit trail entry
-// (ledger.ActionReviewAccept or ActionReviewReject, subject: certNumber, detail:
-// a ledger.ReviewDetail with the reviewer's signature when signed) is appended.
-// A failure after the record was stored returns the new number with the error.
+// with the reviewer as the audit trail's actor and, in the same transaction, an
+// audit trail entry of the decision (ledger.ActionReviewAccept or
+// ActionReviewReject, subject: certNumber, detail: a ledger.ReviewDetail with
+// the reviewer's signature when signed). Two decisions on one unit cannot both
+// be stored: the second is refused (ErrNotHeld) in that transaction. A failure
+// to publish after the record was stored returns the new number with the error
+// (Repair publishes it at the next start).
 func (is *Issuer) DisposeSigned(ctx context.Context, certNumber string, d sequencer.Disposition, key *signing.Key) (newCert string, err error) {
 	final, ok := d.Final()
 	if !ok {
@@ -106,29 +108,16 @@ func (is *Issuer) DisposeSigned(ctx context.Context, certNumber string, d sequen
 	rec.Started, rec.Finished = d.At, d.At
 	rec.Verdict, rec.RetestOf, rec.Disposition = final, held.RunID, &d
 	rec.Notes = nil // what the operator had to know once the test was over
-	cert, err := is.record(ctx, &rec, d.Reviewer)
-	if cert == "" {
-		if err == nil {
-			err = fmt.Errorf("review of %s: the ledger gave the decision no certificate", certNumber)
-		}
-		return "", err
-	}
-	detail := ledger.ReviewDetail{Certificate: cert, RunID: rec.RunID, OfRunID: held.RunID, Reason: d.Reason, Authenticated: d.Authenticated}
+	detail := ledger.ReviewDetail{Reason: d.Reason, Authenticated: d.Authenticated}
 	if key != nil {
 		detail.SignedAt, detail.KeyID = d.At.Format(time.RFC3339Nano), key.ID()
 		detail.PublicKey = base64.StdEncoding.EncodeToString(key.Public)
 		detail.Signature = base64.StdEncoding.EncodeToString(key.Sign(signing.ReviewMessage(certNumber, d.Decision, d.Reviewer, d.Reason, d.At)))
 	}
-	raw, jerr := json.Marshal(detail)
-	if jerr != nil {
-		return cert, errors.Join(err, jerr)
-	}
-	action := ledger.ActionReviewAccept
-	if d.Decision == sequencer.DecisionReject {
-		action = ledger.ActionReviewReject
-	}
-	if aerr := is.Ledger.Audit(ctx, d.Reviewer, action, certNumber, string(raw)); aerr != nil {
-		return cert, errors.Join(err, aerr)
+	cert, err := is.record(ctx, &rec, d.Reviewer, &detail)
+	if errors.Is(err, ledger.ErrDecided) {
+		// Another decision or a retest came first, after held looked.
+		return "", fmt.Errorf("review of %s: %w: %w", certNumber, ErrNotHeld, err)
 	}
 	return cert, err
 }
@@ -155,6 +144,10 @@ func (is *Issuer) held(ctx context.Context, number string) (*sequencer.Record, e
 		return nil, fmt.Errorf("review of %s: serial %s is %s%s, not held for REVIEW: %w", number, rec.Serial, rec.Verdict, how, ErrNotHeld)
 	case rec.Engineering:
 		return nil, fmt.Errorf("review of %s: an engineering run never ships: there is nothing to decide: %w", number, ErrNotHeld)
+	case is.Engineering:
+		// Its certificates come from the engineering series: a production unit's
+		// final certificate must not.
+		return nil, fmt.Errorf("review of %s: an engineering session decides on no production unit: decide from a production session: %w", number, ErrNotHeld)
 	}
 	st, err := is.Ledger.CertificateStatus(ctx, number)
 	if err != nil {
@@ -170,7 +163,7 @@ func (is *Issuer) held(ctx context.Context, number string) (*sequencer.Record, e
 }
 
 // reviewer returns the person of the station's people whose badge, else name,
-// is id exactly, when they hold the review right.
+// is id (sequencer.Station.Person), when they hold the review right.
 func (is *Issuer) reviewer(id string) (sequencer.Person, error) {
 	where := is.Station.File.Name
 	if where == "" {
@@ -179,16 +172,11 @@ func (is *Issuer) reviewer(id string) (sequencer.Person, error) {
 	if strings.TrimSpace(id) == "" {
 		return sequencer.Person{}, fmt.Errorf("no reviewer named: %w", ErrNotReviewer)
 	}
-	people := is.Station.People
-	i := slices.IndexFunc(people, func(p sequencer.Person) bool { return p.Badge != "" && p.Badge == id })
-	if i < 0 {
-		i = slices.IndexFunc(people, func(p sequencer.Person) bool { return p.Name == id })
-	}
-	if i < 0 {
+	p, ok := is.Station.Person(id)
+	if !ok {
 		return sequencer.Person{}, fmt.Errorf("%s lists nobody named %q among its people: %w", where, id, ErrNotReviewer)
 	}
-	p := people[i]
-	if !slices.Contains(p.May, sequencer.RightReview) {
+	if !p.Can(sequencer.RightReview) {
 		return sequencer.Person{}, fmt.Errorf("%s may not decide on units held for REVIEW: %s does not give them %q (may: %s): %w",
 			p.Name, where, sequencer.RightReview, strings.Join(p.May, ", "), ErrNotReviewer)
 	}

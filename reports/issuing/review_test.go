@@ -10,10 +10,12 @@ import (
 	"testing"
 	"time"
 
+	"trimline/limits"
 	"trimline/reports/audit"
 	"trimline/reports/issuing"
 	"trimline/reports/ledger"
 	"trimline/reports/signing"
+	"trimline/reports/whatif"
 	"trimline/sequencer"
 )
 
@@ -119,8 +121,11 @@ func TestDispose(t *testing.T) {
 		{"operator", certs[0], with(func(d *sequencer.Disposition) { d.Reviewer = "Otto Benchley" }), nil, issuing.ErrNotReviewer, "may not decide"},
 		{"station's key", certs[0], accept, is.Key, issuing.ErrNotReviewer, "is not Ada Quillfeather's"},
 		{"unknown certificate", "TL1-000099", accept, nil, issuing.ErrNotHeld, "no certificate with that number"},
+		{"engineering session", certs[0], accept, nil, issuing.ErrNotHeld, "an engineering session decides on no production unit"},
 	} {
+		is.Engineering = c.name == "engineering session"
 		_, err := is.DisposeSigned(ctx, c.cert, c.d, c.key)
+		is.Engineering = false
 		if !errors.Is(err, c.want) || !strings.Contains(err.Error(), c.says) {
 			t.Errorf("%s: %v, want %v saying %q", c.name, err, c.want, c.says)
 		}
@@ -218,5 +223,11 @@ func TestDispose(t *testing.T) {
 	}
 	if q, _ := led.ReviewQueue(ctx, ""); len(q) != 0 {
 		t.Errorf("queue after both decisions: %+v", q)
+	}
+	// A what-if re-judges each unit once: the decisions repeat their REVIEW
+	// runs' measurements.
+	units, _, err := whatif.Units(ctx, led, whatif.Request{})
+	if err != nil || len(units) != 2 || units[0].OldVerdict != limits.VerdictReview || units[1].OldVerdict != limits.VerdictReview {
+		t.Errorf("what-if units after the decisions: %d %v", len(units), err)
 	}
 }

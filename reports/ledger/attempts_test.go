@@ -4,6 +4,7 @@ import (
 	"testing"
 	"time"
 
+	"trimline/reports/ledger"
 	"trimline/sequencer"
 )
 
@@ -40,22 +41,29 @@ func TestMeasuredAttempts(t *testing.T) {
 		{"a6", "SN-7", sequencer.Pass, false, true, 2}, // the reviewer's acceptance of a5
 		{"a7", "SN-7", sequencer.Pass, true, false, 2},
 	}
-	prev := ""
+	prev, prevCert := "", ""
 	for _, s := range steps {
 		rec := makeRecord(s.id, s.serial, s.verdict, shape)
 		rec.Engineering = s.eng
-		if s.dispose {
-			rec.RetestOf = prev
-			rec.Disposition = &sequencer.Disposition{Of: prev, Decision: sequencer.DecisionAccept, Reviewer: "Tobias Wrenhollow",
-				Reason: "within the customer's wider spec", At: time.Date(2025, 6, 4, 8, 0, 0, 0, time.UTC)}
-		}
 		prefix := "EOL"
 		if s.eng {
 			prefix = "EOL-ENG"
 		}
-		mustRecord(t, l, rec, prefix)
+		var cert string
+		if s.dispose {
+			// A decision is stored with its audit trail entry.
+			rec.RetestOf = prev
+			rec.Disposition = &sequencer.Disposition{Of: prev, OfCertificate: prevCert, Decision: sequencer.DecisionAccept, Reviewer: "Tobias Wrenhollow",
+				Reason: "within the customer's wider spec", At: time.Date(2025, 6, 4, 8, 0, 0, 0, time.UTC)}
+			var err error
+			if cert, err = l.RecordRunWith(ctx, rec, ledger.RecordOptions{Prefix: prefix, Review: &ledger.ReviewDetail{Reason: rec.Disposition.Reason}}); err != nil {
+				t.Fatal(err)
+			}
+		} else {
+			cert = mustRecord(t, l, rec, prefix)
+		}
 		if s.serial == "SN-7" && !s.eng {
-			prev = s.id
+			prev, prevCert = s.id, cert
 		}
 		if n := count(false); n != s.want {
 			t.Fatalf("after %s (%s %s): %d attempts, want %d", s.id, s.serial, s.verdict, n, s.want)

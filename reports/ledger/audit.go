@@ -152,12 +152,13 @@ func appendAudit(ctx context.Context, tx *sql.Tx, at, actor, action, subject, de
 // file released, a key rotated, a user signed in, ...): who (actor), what (action),
 // on which record (subject) and any detail, stamped with l.Now(). Errors (wrapped):
 // ErrInvalid for an empty actor or action, or one of the ledger's own actions
-// (create, issue, void, supersede), which only its methods write.
+// (create, issue, void, supersede, review accept, review reject), which only its
+// methods write.
 func (l *Ledger) Audit(ctx context.Context, actor, action, subject, detail string) error {
 	switch action {
 	case "":
 		return fmt.Errorf("ledger: audit: empty action: %w", ErrInvalid)
-	case ActionCreate, ActionIssue, ActionVoid, ActionSupersede:
+	case ActionCreate, ActionIssue, ActionVoid, ActionSupersede, ActionReviewAccept, ActionReviewReject:
 		return fmt.Errorf("ledger: audit: action %q is the ledger's own: %w", action, ErrInvalid)
 	}
 	if actor == "" {

@@ -218,6 +218,7 @@ type auditRef struct {
 	issue   issueDetail
 	void    voidDetail
 	super   supersedeDetail
+	review  ReviewDetail
 	seen    bool
 }
 
@@ -237,6 +238,7 @@ type chainCheck struct {
 	voidList   []*auditRef            // void entries in trail order
 	supers     map[string]*auditRef   // certificate -> supersede entry
 	superList  []*auditRef            // supersede entries in trail order
+	reviewList []*auditRef            // review decision entries in trail order
 	blobSet    map[string]bool
 	runCert    map[string]string // run id -> certificate, for certified runs
 }
@@ -331,6 +333,9 @@ func (c *chainCheck) auditTrail() error {
 			}
 			c.supers[e.Subject] = ref
 			c.superList = append(c.superList, ref)
+		case ActionReviewAccept, ActionReviewReject:
+			derr = json.Unmarshal([]byte(e.Detail), &ref.review)
+			c.reviewList = append(c.reviewList, ref)
 		}
 		if derr != nil {
 			return c.broken("", "", e.Seq, "audit trail entry %d: %s detail is not its JSON object: %v", e.Seq, e.Action, derr)
@@ -655,9 +660,11 @@ func (c *chainCheck) certificates() error {
 }
 
 // superseded checks every supersede entry: it names the certificate of the
-// earlier run, and a retest of that run whose certificate supersedes it.
+// earlier run, and a retest of that run whose certificate supersedes it; and
+// every review decision entry: it names a certified retest of the decided run,
+// whose certificate superseded the decided one.
 func (c *chainCheck) superseded() error {
-	if len(c.superList) == 0 {
+	if len(c.superList) == 0 && len(c.reviewList) == 0 {
 		return nil
 	}
 	retestOf := map[string]string{}
@@ -675,6 +682,22 @@ func (c *chainCheck) superseded() error {
 	}
 	if err := rows.Err(); err != nil {
 		return err
+	}
+	for _, ref := range c.reviewList {
+		// A review decision is stored with its record, which supersedes the
+		// decided certificate (storeReview).
+		d, by := ref.review, c.supers[ref.subject]
+		switch {
+		case c.runCert[d.OfRunID] != ref.subject:
+			return c.broken("", d.OfRunID, ref.seq, "audit trail entry %d decides on %s, which is not the certificate of run %s (%q)",
+				ref.seq, ref.subject, d.OfRunID, c.runCert[d.OfRunID])
+		case d.Certificate == "" || c.runCert[d.RunID] != d.Certificate || retestOf[d.RunID] != d.OfRunID:
+			return c.broken("", d.RunID, ref.seq, "audit trail entry %d records a decision on %s by run %s (%s), which is not a certified retest of run %s",
+				ref.seq, ref.subject, d.RunID, d.Certificate, d.OfRunID)
+		case by == nil || by.super.ByCertificate != d.Certificate:
+			return c.broken("", d.RunID, ref.seq, "audit trail entry %d records a decision on %s by %s, which did not supersede it",
+				ref.seq, ref.subject, d.Certificate)
+		}
 	}
 	for _, ref := range c.superList {
 		d := ref.super

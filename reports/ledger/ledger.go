@@ -325,6 +325,16 @@ type RecordOptions struct {
 	// Actor is who recorded the run, for the audit trail; "" means rec.Operator,
 	// and "trimline" if that is empty too.
 	Actor string
+	// Review, for a record that carries a reviewer's decision on the REVIEW run
+	// it retests (rec.Disposition, rec.RetestOf), is the detail of the decision's
+	// audit trail entry (ActionReviewAccept or ActionReviewReject; actor: the
+	// reviewer; subject: the decided certificate), appended in the same
+	// transaction with Certificate, RunID and OfRunID filled in. The decision is
+	// refused (ErrInvalid) unless it is a certified retest of a REVIEW run whose
+	// certificate is the one decided, with the decision's verdict; and
+	// (ErrDecided) when that certificate is no longer current. A record with a
+	// decision and no Review, or a Review without a decision, is ErrInvalid.
+	Review *ReviewDetail
 }
 
 // RecordRunWith stores one complete run in one transaction: the unit (inserted or
@@ -371,6 +381,9 @@ func (l *Ledger) RecordRunWith(ctx context.Context, rec *sequencer.Record, opt R
 	if err := validateRecord(rec); err != nil {
 		return "", err
 	}
+	if (rec.Disposition != nil) != (opt.Review != nil) {
+		return "", fmt.Errorf("ledger: run %s: a review decision is stored with its audit trail entry (RecordOptions.Review), and only one: %w", rec.RunID, ErrInvalid)
+	}
 	wantCert := certified(rec.Verdict)
 	if wantCert {
 		if err := validatePrefix(opt.Prefix); err != nil {
@@ -397,7 +410,7 @@ func (l *Ledger) RecordRunWith(ctx context.Context, rec *sequencer.Record, opt R
 		actor = systemActor
 	}
 	in := runInput{rec: rec, doc: doc, recordSHA: sha256Hex(doc), reasonsJSON: reasons,
-		wantCert: wantCert, prefix: opt.Prefix, sign: opt.Sign, actor: actor, blobs: blobs}
+		wantCert: wantCert, prefix: opt.Prefix, sign: opt.Sign, actor: actor, blobs: blobs, review: opt.Review}
 
 	tx, err := l.db.BeginTx(ctx, nil)
 	if err != nil {
@@ -533,6 +546,7 @@ type runInput struct {
 	prefix      string
 	sign        func(number, runID, recordSHA256 string) (string, []byte, error)
 	actor       string
+	review      *ReviewDetail
 	blobs       []blob
 	at          string // audit trail time
 }
@@ -632,6 +646,11 @@ func storeRun(ctx context.Context, tx *sql.Tx, in runInput) (string, error) {
 	}
 	if _, err := appendAudit(ctx, tx, in.at, in.actor, ActionCreate, rec.RunID, string(detail)); err != nil {
 		return "", err
+	}
+	if in.review != nil {
+		if err := storeReview(ctx, tx, in.at, rec, cert, earlierCert, *in.review); err != nil {
+			return "", err
+		}
 	}
 	if cert != "" && earlierCert != "" {
 		if err := supersede(ctx, tx, in.at, in.actor, earlierCert, rec.RetestOf, rec.RunID, cert); err != nil {

@@ -2,14 +2,24 @@ package ledger
 
 import (
 	"context"
+	"database/sql"
 	"encoding/json"
+	"errors"
 	"fmt"
 	"time"
+
+	"trimline/sequencer"
 )
+
+// ErrDecided: a review decision on a certificate that is no longer current
+// (decided already, retested or voided), refused by RecordRunWith.
+var ErrDecided = errors.New("ledger: certificate no longer current")
 
 // The audit trail's actions of a review decision (issuing.Issuer.Dispose). The
 // entry's actor is the reviewer, its subject the certificate of the REVIEW run
-// decided on, its detail a ReviewDetail.
+// decided on, its detail a ReviewDetail. The ledger writes them itself, with the
+// decision's record (RecordOptions.Review); Audit refuses them, and VerifyChain
+// checks each against the runs and the supersede entry of the decision.
 const (
 	ActionReviewAccept = "review accept"
 	ActionReviewReject = "review reject"
@@ -81,4 +91,55 @@ func (l *Ledger) ReviewQueue(ctx context.Context, station string) ([]RunSummary,
 		return nil, fmt.Errorf("ledger: review queue: %w", err)
 	}
 	return out, nil
+}
+
+// storeReview appends, inside tx, the audit trail entry of the review decision
+// rec carries (rec.Disposition), whose certificate is cert, on the REVIEW run
+// rec.RetestOf of certificate earlierCert; d is the entry's detail, completed
+// here. It refuses (ErrInvalid) a record that carries no decision, a decision
+// that is not the record's verdict or not on the run it retests, and a run
+// decided on that was not held for REVIEW; and (ErrDecided) a certificate that
+// is no longer current. It runs before the supersede entry is written, so that
+// two decisions on one unit cannot both be stored.
+func storeReview(ctx context.Context, tx *sql.Tx, at string, rec *sequencer.Record, cert, earlierCert string, d ReviewDetail) error {
+	dp := rec.Disposition
+	if dp == nil {
+		return fmt.Errorf("review entry for a record that carries no decision: %w", ErrInvalid)
+	}
+	final, ok := dp.Final()
+	switch {
+	case !ok:
+		return fmt.Errorf("review decision %q: %w", dp.Decision, ErrInvalid)
+	case final != rec.Verdict:
+		return fmt.Errorf("review decision %s recorded with verdict %s: %w", dp.Decision, rec.Verdict, ErrInvalid)
+	case dp.Reviewer == "" || hasControl(dp.Reviewer) || hasControl(dp.Reason):
+		return fmt.Errorf("review decision: no reviewer, or control characters in the reviewer or reason: %w", ErrInvalid)
+	case cert == "" || rec.RetestOf == "" || dp.Of != rec.RetestOf || dp.OfCertificate == "" || dp.OfCertificate != earlierCert:
+		return fmt.Errorf("review decision on run %s (%s) recorded as a retest of run %s (%s): %w", dp.Of, dp.OfCertificate, rec.RetestOf, earlierCert, ErrInvalid)
+	}
+	var verdict string
+	if err := tx.QueryRowContext(ctx, `SELECT verdict FROM runs WHERE run_id = ?`, dp.Of).Scan(&verdict); err != nil {
+		return fmt.Errorf("review of run %s: %w", dp.Of, err)
+	}
+	if verdict != string(sequencer.Review) {
+		return fmt.Errorf("review of %s: run %s is %s, not held for REVIEW: %w", earlierCert, dp.Of, verdict, ErrInvalid)
+	}
+	for _, action := range []string{ActionSupersede, ActionVoid} {
+		if _, done, err := firstEntry(ctx, tx, earlierCert, action); err != nil {
+			return err
+		} else if done {
+			return fmt.Errorf("review of %s: %sd already: %w", earlierCert, action, ErrDecided)
+		}
+	}
+	d.Certificate, d.RunID, d.OfRunID = cert, rec.RunID, dp.Of
+	detail, err := json.Marshal(d)
+	if err != nil {
+		return err
+	}
+	action := ActionReviewAccept
+	if dp.Decision == sequencer.DecisionReject {
+		action = ActionReviewReject
+	}
+	_, err = appendAudit(ctx, tx, at, dp.Reviewer, action, earlierCert, string(detail))
+	return err
 }

@@ -153,8 +153,10 @@ func Catalog(units []StoredUnit, product string) (limits.Catalog, error) {
 
 // Units reads the runs of led that req selects (product, finished between Since
 // and Until), newest first, as stored units: only runs that were judged (pass,
-// review or fail; faulted and aborted runs never were) and not engineering runs
-// (they never shipped and say nothing about yield). inForce is the limit set of the
+// review or fail; faulted and aborted runs never were), not engineering runs
+// (they never shipped and say nothing about yield) and not the records of review
+// decisions (each repeats the measurement of its REVIEW run, which is read as it
+// was judged; a unit counts once). inForce is the limit set of the
 // newest such run, as stored in the ledger; it is not read when req.Old is set
 // (nil then, and when it cannot be read).
 func Units(ctx context.Context, led *ledger.Ledger, req Request) (units []StoredUnit, inForce *limits.Set, err error) {
@@ -179,6 +181,9 @@ func Units(ctx context.Context, led *ledger.Ledger, req Request) (units []Stored
 		}
 		if rec.Engineering {
 			continue // engineering runs never shipped; they say nothing about yield
+		}
+		if rec.Disposition != nil {
+			continue // a review decision repeats its REVIEW run's measurement, which is judged as it was
 		}
 		if inForce == nil && req.Old == nil {
 			// Runs are newest first: the first one's limit file is the one in force.

@@ -70,11 +70,13 @@ type Server struct {
 	shift    *shift.Shift
 	bench    *serve.Server
 	benchDir string // the rewired station file's folder, removed on Close
-	started  time.Time
 
 	sessions *sessions
 	hub      *hub
 	mux      *http.ServeMux
+
+	// observe, when set (benchmarks), sees every progress event first.
+	observe func(sequencer.Event)
 
 	mu      sync.Mutex
 	st      state
@@ -96,7 +98,7 @@ func New(ctx context.Context, o Options) (_ *Server, err error) {
 	if o.Software == "" {
 		o.Software = "trimline"
 	}
-	s := &Server{opt: o, loopback: isLoopback(o.Listen), started: time.Now(), hub: newHub()}
+	s := &Server{opt: o, loopback: isLoopback(o.Listen), hub: newHub()}
 	defer func() {
 		if err != nil {
 			s.Close()
@@ -136,7 +138,11 @@ func New(ctx context.Context, o Options) (_ *Server, err error) {
 	s.st = newState(s.shift)
 	s.refreshStatus(ctx)
 	if err := s.shift.OpenEngine(ctx, ""); err != nil {
-		s.st.lock(faultView{What: "the instruments did not open", Said: err.Error(), Check: "that every instrument is powered and connected; then clear the station and scan the unit again"}, "")
+		ft := sequencer.ExplainFault(s.shift.FaultRecord("", "", err))
+		if ft.What == "" {
+			ft = sequencer.FaultText{What: "the instruments did not open", Said: err.Error(), Check: "that every instrument is powered and connected"}
+		}
+		s.st.lock(faultView{What: ft.What, Said: ft.Said, Check: ft.Check}, "")
 		s.shift.Log.Error().Err(err).Msg("console: the instruments did not open")
 	}
 	s.refreshReview(ctx)

@@ -28,7 +28,7 @@ import (
 // a year from now, the station's signing key made) and returns the station
 // and sequence paths. The files are not released: the tests run engineering
 // shifts.
-func unitDemo(t *testing.T, edit ...func(string) string) (dir, station, sequence string) {
+func unitDemo(t testing.TB, edit ...func(string) string) (dir, station, sequence string) {
 	t.Helper()
 	p, err := sequences.Find(sequences.Default)
 	if err != nil {
@@ -65,13 +65,13 @@ func unitDemo(t *testing.T, edit ...func(string) string) (dir, station, sequence
 // client is a browser stand-in: a cookie jar, the page's CSRF token and the
 // console's own Origin on every POST.
 type client struct {
-	t    *testing.T
+	t    testing.TB
 	base string
 	http *http.Client
 	csrf string
 }
 
-func newClient(t *testing.T, h http.Handler) *client {
+func newClient(t testing.TB, h http.Handler) *client {
 	ts := httptest.NewServer(h)
 	t.Cleanup(ts.Close)
 	jar, _ := cookiejar.New(nil)
@@ -227,7 +227,7 @@ func TestShiftOnTheSimulatedClock(t *testing.T) {
 	}
 
 	code, a := c.post("/scan", url.Values{"serial": {"BRX-00002"}})
-	if code != http.StatusOK || a.Retest == nil || !strings.Contains(a.Retest.Earlier, s.Recent[1].Cert) {
+	if code != http.StatusOK || a.Retest == nil || !strings.Contains(a.Retest.Earlier, s.Recent[1].Cert) || a.Retest.Attempt != "This is attempt 2 of 3." {
 		t.Fatalf("rescan BRX-00002: %d %+v (earlier certificate %s)", code, a, s.Recent[1].Cert)
 	}
 	if c.state().Phase == phaseRunning {
@@ -244,6 +244,17 @@ func TestShiftOnTheSimulatedClock(t *testing.T) {
 	}
 	if n := s.Counters; n.Units != 3 || n.Passed != 2 || n.Failed != 1 || n.FirstIn != 2 || n.FPY != "50.0 %" {
 		t.Fatalf("counters %+v", n)
+	}
+	// The sequence gives a unit 3 measured runs (retest.max_attempts): the
+	// third is the last, a fourth scan is refused before anything runs.
+	c.post("/scan", url.Values{"serial": {"BRX-00002"}, "retest": {"confirm"}})
+	c.settled(30 * time.Second)
+	code, a = c.post("/scan", url.Values{"serial": {"BRX-00002"}, "retest": {"confirm"}})
+	if code != http.StatusConflict || !strings.Contains(a.Error, "rework") {
+		t.Fatalf("a fourth run of BRX-00002: %d %+v", code, a)
+	}
+	if runs, _ := led.Runs(ctx, "BRX-00002"); len(runs) != 3 {
+		t.Fatalf("BRX-00002 has %d runs, want 3", len(runs))
 	}
 	// Every run records the signed-in person as its operator.
 	runs, _ := led.Runs(ctx, "BRX-00009")

@@ -153,23 +153,29 @@ func wantsJSON(r *http.Request) bool {
 
 // answer is what a POST answers the page's script.
 type answer struct {
-	OK     bool        `json:"ok"`
-	Error  string      `json:"error,omitempty"`
-	Retest *retestAsk  `json:"retest,omitempty"`
-	Reload bool        `json:"reload,omitempty"`
-	Extra  interface{} `json:"extra,omitempty"`
+	OK     bool       `json:"ok"`
+	Error  string     `json:"error,omitempty"`
+	Retest *retestAsk `json:"retest,omitempty"`
+	Reload bool       `json:"reload,omitempty"`
+	Extra  any        `json:"extra,omitempty"`
 }
 
 // retestAsk asks the operator to confirm a retest.
 type retestAsk struct {
 	Serial  string `json:"serial"`
-	Earlier string `json:"earlier"` // "certificate BRX-… (FAIL, 2026-12-02 15:04 UTC)"
+	Earlier string `json:"earlier"` // "certificate TL1-000002 (FAIL, 2026-12-02 15:04)", station time
+	Attempt string `json:"attempt"` // "This is attempt 2 of 3.", "" when the sequence sets no limit
 }
 
 func (s *Server) reply(w http.ResponseWriter, r *http.Request, code int, a answer) {
 	if !wantsJSON(r) {
-		// A form posted without the script: show the page again (with the
-		// refusal, if any).
+		// A form posted without the script: done, the page again (a sign-in's
+		// new session is in the cookie the answer sets); refused, the page
+		// with the refusal.
+		if a.Error == "" {
+			http.Redirect(w, r, "/", http.StatusSeeOther)
+			return
+		}
 		se := s.sessions.get(r)
 		d := pageData{Error: a.Error, Loopback: s.loopback}
 		s.mu.Lock()

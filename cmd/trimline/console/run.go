@@ -62,6 +62,9 @@ func (s *Server) scan(w http.ResponseWriter, r *http.Request, se *session) {
 			what = "certificate " + earlier.Certificate
 		}
 		ask := &retestAsk{Serial: serial, Earlier: fmt.Sprintf("%s (%s, %s)", what, earlier.Verdict, earlier.Finished.Local().Format("2006-01-02 15:04"))}
+		if max > 0 {
+			ask.Attempt = fmt.Sprintf("This is attempt %d of %d.", n+1, max)
+		}
 		s.reply(w, r, http.StatusOK, answer{Retest: ask})
 		return
 	}
@@ -140,6 +143,9 @@ func (s *Server) runUnit(ctx context.Context, serial, operator string, attempt i
 // progress takes one engine event to the state and the pages. It runs on
 // the engine's goroutine and returns quickly.
 func (s *Server) progress(ev sequencer.Event) {
+	if s.observe != nil {
+		s.observe(ev)
+	}
 	s.mu.Lock()
 	u := s.st.Unit
 	if u == nil {
@@ -324,8 +330,13 @@ func (s *Server) clear(w http.ResponseWriter, r *http.Request, se *session) {
 	s.shift.CloseEngine()
 	s.refreshStatus(r.Context())
 	s.mu.Lock()
+	// Cleared: the station is ready (the faulted unit stays in the list of
+	// the last units).
 	s.st.Phase, s.st.Fault = phaseReady, nil
-	if s.st.Verdict != nil && s.st.Verdict.Verdict != string(sequencer.Fault) {
+	if s.st.Verdict != nil && s.st.Verdict.Verdict == string(sequencer.Fault) {
+		s.st.Verdict = nil
+	}
+	if s.st.Verdict != nil {
 		s.st.Phase = phaseVerdict
 	}
 	s.st.Version++

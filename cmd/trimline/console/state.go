@@ -216,8 +216,7 @@ func (s *state) record(rec *sequencer.Record, cert, certURL string, wall time.Du
 	}
 }
 
-// progress applies one engine event to the unit on test; it returns false for
-// an event that changes nothing shown.
+// progress applies one engine event to the unit on test.
 func (u *unitView) progress(ev sequencer.Event) {
 	switch ev.Kind {
 	case sequencer.EventUnitStart:

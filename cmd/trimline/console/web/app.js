@@ -89,6 +89,7 @@
       pendingRetest = a.retest.serial;
       text("retest-serial", a.retest.serial);
       text("retest-earlier", a.retest.earlier);
+      text("retest-attempt", a.retest.attempt);
       show($("retest"), true);
       // The question holds the focus, not its Yes button: a barcode scan's
       // Enter must never answer it.
