@@ -860,9 +860,17 @@ func mustRuns(t *testing.T, led *ledger.Ledger, serial string) []ledger.RunSumma
 }
 
 // TestScreenshotsAreCurrent keeps the README's screenshots in step with the list
-// the browser test writes: each one exists under testdata/ and is a PNG.
+// the browser test writes: each one exists under testdata/, is a PNG, and the
+// README shows it.
 func TestScreenshotsAreCurrent(t *testing.T) {
+	readme, err := os.ReadFile(filepath.Join("..", "..", "..", "README.md"))
+	if err != nil {
+		t.Fatal(err)
+	}
 	for _, name := range screenshots {
+		if ref := "(cmd/trimline/console/testdata/" + name + ".png)"; !strings.Contains(string(readme), ref) {
+			t.Errorf("README.md does not show %s", ref)
+		}
 		data, err := os.ReadFile(filepath.Join("testdata", name+".png"))
 		if errors.Is(err, os.ErrNotExist) {
 			t.Errorf("testdata/%s.png is missing: go test ./cmd/trimline/console -run TestConsoleShiftInBrowser -update", name)
