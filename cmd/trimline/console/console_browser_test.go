@@ -283,6 +283,22 @@ func keepShots(t *testing.T, dir string) {
 	t.Logf("screenshots kept in %s", keep)
 }
 
+// checkTargets fails the test for a visible control smaller than 44 × 44 CSS
+// px, the enhanced target size of WCAG 2.2 (success criterion 2.5.5), the least
+// a gloved finger needs. The last units list's certificate links are left out:
+// they are for looking things up, not for working the station.
+func (p *page) checkTargets(state string) {
+	p.t.Helper()
+	small := eval[[]string](p, `[...document.querySelectorAll('button, a, summary, input, textarea, select')]
+		.filter(e => !e.closest('#recent') && e.type !== 'hidden')
+		.filter(e => { const r = e.getBoundingClientRect(); return r.width > 0 && r.height > 0 && getComputedStyle(e).visibility !== 'hidden'; })
+		.filter(e => { const r = e.getBoundingClientRect(); return r.width < 44 || r.height < 44; })
+		.map(e => { const r = e.getBoundingClientRect(); return (e.id ? '#' + e.id : e.tagName.toLowerCase() + (e.className ? '.' + e.className : '')) + ' ' + Math.round(r.width) + '×' + Math.round(r.height); })`)
+	for _, s := range small {
+		p.t.Errorf("%s: %s px is smaller than a gloved finger's 44 × 44 px", state, s)
+	}
+}
+
 // open loads the console's page in the tab.
 func (p *page) open() {
 	p.t.Helper()
@@ -438,6 +454,7 @@ func TestConsoleShiftInBrowser(t *testing.T) {
 			t.Fatal("the station screen shows before anyone signed in")
 		}
 		p.shot("signin")
+		p.checkTargets("signin")
 		p.signIn(opID, opName)
 		// Nothing blocks on the demo station: files released, calibration a year
 		// ahead, the key present, the ledger reachable.
@@ -449,6 +466,7 @@ func TestConsoleShiftInBrowser(t *testing.T) {
 			}
 		}
 		p.shot("ready")
+		p.checkTargets("ready")
 	}) {
 		t.FailNow()
 	}
@@ -470,6 +488,7 @@ func TestConsoleShiftInBrowser(t *testing.T) {
 		p.shot("running")
 		firstCert = p.verdict("PASS", 60*time.Second)
 		p.shot("pass")
+		p.checkTargets("pass")
 		if firstCert == "" {
 			t.Fatal("a PASS shows no certificate number")
 		}
@@ -495,6 +514,7 @@ func TestConsoleShiftInBrowser(t *testing.T) {
 		p.scan("BRX-00009")
 		cert := p.verdict("FAIL", 60*time.Second)
 		p.shot("fail")
+		p.checkTargets("fail")
 		reason := p.text("#reason")
 		// BRX-00009 has a stuck trim-DAC bit: its offset cannot be trimmed (the
 		// CLI's reason: post_offset = −12384 µV outside −800 … 800 µV). The
@@ -560,6 +580,7 @@ func TestConsoleShiftInBrowser(t *testing.T) {
 			t.Errorf("the retest question names %q, not the earlier certificate %s", e, firstCert)
 		}
 		p.shot("retest")
+		p.checkTargets("retest")
 		p.do(10*time.Second, "confirm the retest", chromedp.Click(chromedp.ID("retest-yes")))
 		p.waitFor(30*time.Second, "the retest to start", `!vis('#retest') && vis('#progress')`)
 		p.waitFor(60*time.Second, "a new certificate", fmt.Sprintf(`attr('#verdict','data-verdict') === 'PASS' && txt('#cert-number') !== '' && txt('#cert-number') !== %q`, firstCert))
@@ -622,6 +643,7 @@ func TestConsoleShiftInBrowser(t *testing.T) {
 			t.Error("the fault says nothing to check")
 		}
 		p.shot("fault")
+		p.checkTargets("fault")
 		if n := runs(); n != before+1 {
 			t.Errorf("%d runs recorded by a faulted unit, want 1", n-before)
 		}
@@ -724,6 +746,7 @@ func TestConsoleShiftInBrowser(t *testing.T) {
 		const reason = "noise 57 µV re-read on the bench scope: 41 µV, within 60 µV"
 		rp.do(10*time.Second, "write the reason", chromedp.SendKeys(chromedp.CSS(row+" .review-reason"), reason))
 		rp.shot("review")
+		rp.checkTargets("review")
 		rp.do(10*time.Second, "accept", chromedp.Click(chromedp.CSS(row+" .review-accept")))
 		rp.waitFor(20*time.Second, "the row to leave the queue", fmt.Sprintf(`!vis(%q)`, row))
 		st, err := led2.CertificateStatus(context.Background(), cert)
