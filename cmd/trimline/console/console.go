@@ -80,8 +80,8 @@ type Server struct {
 
 	mu      sync.Mutex
 	st      state
-	cancel  context.CancelFunc // the running unit's; nil when none runs
-	running chan struct{}      // closed when the running unit's goroutine ends
+	cancel  context.CancelCauseFunc // the running unit's; nil when none runs
+	running chan struct{}           // closed when the running unit's goroutine ends
 	closed  bool
 }
 
@@ -202,7 +202,7 @@ func (s *Server) Close() error {
 	cancel, running := s.cancel, s.running
 	s.mu.Unlock()
 	if cancel != nil {
-		cancel()
+		cancel(errors.New("the console was stopped"))
 		<-running
 	}
 	s.hub.close()

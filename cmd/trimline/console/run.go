@@ -107,7 +107,7 @@ func (s *Server) start(serial, operator string, retest bool, attempt int) error 
 	}
 	ctx, cancel := context.WithCancelCause(context.Background())
 	done := make(chan struct{})
-	s.cancel = func() { cancel(errors.New("stopped by the operator")) }
+	s.cancel = cancel
 	s.running = done
 	u := &unitView{Serial: serial, Operator: operator, Retest: retest, Attempt: attempt, StartedMs: time.Now().UnixMilli(), Step: -1, Steps: []stepView{}, Points: []plotPt{}}
 	s.st.Phase, s.st.Unit, s.st.Verdict = phaseRunning, u, nil
@@ -292,7 +292,7 @@ func (s *Server) stop(w http.ResponseWriter, r *http.Request, se *session) {
 		return
 	}
 	s.shift.Log.Warn().Str("person", se.name).Msg("console: stop pressed")
-	cancel()
+	cancel(fmt.Errorf("stopped by %s", se.name))
 	s.publishState()
 	s.reply(w, r, http.StatusOK, answer{OK: true})
 }

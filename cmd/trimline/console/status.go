@@ -23,11 +23,7 @@ func (s *Server) refreshStatus(ctx context.Context) {
 	var items []statusItem
 
 	files := statusItem{Key: "files", State: "ok", Title: "files released"}
-	for _, f := range []struct{ kind, name, sha string }{
-		{"station", st.File.Name, st.File.SHA256}, {"sequence", seq.File.Name, seq.File.SHA256}, {"limits", seq.LimitsFile.Name, seq.LimitsFile.SHA256},
-	} {
-		files.Detail = append(files.Detail, fmt.Sprintf("%s %s (%.12s…)", f.kind, f.name, f.sha))
-	}
+	var rel map[string]release.Release
 	switch {
 	case sh.Issuer.Engineering:
 		files.State, files.Title = "warn", "engineering run: files not released, certificates marked"
@@ -39,28 +35,40 @@ func (s *Server) refreshStatus(ctx context.Context) {
 			files.Detail = append(files.Detail, err.Error())
 		}
 	}
+	if st.ReleaseKeys != "" {
+		rel, _ = release.ByDir(ctx, sh.Ledger, st.ReleaseKeys)
+	}
+	for _, f := range []sequencer.FileRef{st.File, seq.File, seq.LimitsFile} {
+		line := fmt.Sprintf("%s file %s (SHA-256 %.12s…)", f.Kind, f.Name, f.SHA256)
+		if r, ok := rel[f.SHA256]; ok {
+			line += fmt.Sprintf(", released by %s on %s", r.By, r.At.Local().Format("2006-01-02"))
+		}
+		files.Detail = append(files.Detail, line)
+	}
 	items = append(items, files)
 
 	cal := statusItem{Key: "calibration", State: "ok", Title: "calibration current"}
 	today := time.Now().UTC().Truncate(24 * time.Hour)
 	var soonest time.Time
-	var expired, soon []string // "role ASSET (due date)", for the title the operator reads
+	var expired, soon []string // "meter DMM-0203 (2026-12-12)"
 	for _, r := range st.Roles() {
 		in := st.Instruments[r]
 		if in.CalDue.IsZero() {
 			continue
 		}
-		line := fmt.Sprintf("%s %s due %s", r, in.Asset, in.CalDue.Format("2006-01-02"))
+		due := in.CalDue.Format("2006-01-02")
+		line := fmt.Sprintf("%s %s due %s", r, in.Asset, due)
+		who := strings.TrimSpace(r+" "+in.Asset) + " (" + due + ")"
 		switch {
 		case today.After(in.CalDue):
 			cal.State = "block"
+			expired = append(expired, who)
 			line += " — EXPIRED"
-			expired = append(expired, fmt.Sprintf("%s %s (%s)", r, in.Asset, in.CalDue.Format("2006-01-02")))
 		case in.CalDue.Sub(today) < calWarn:
 			if cal.State == "ok" {
 				cal.State = "warn"
 			}
-			soon = append(soon, fmt.Sprintf("%s %s (%s)", r, in.Asset, in.CalDue.Format("2006-01-02")))
+			soon = append(soon, who)
 			line += fmt.Sprintf(" — in %d days", int(in.CalDue.Sub(today).Hours()/24))
 		}
 		if soonest.IsZero() || in.CalDue.Before(soonest) {
@@ -68,15 +76,13 @@ func (s *Server) refreshStatus(ctx context.Context) {
 		}
 		cal.Detail = append(cal.Detail, line)
 	}
-	switch cal.State {
-	case "block":
+	switch {
+	case len(expired) > 0:
 		cal.Title = "calibration expired: " + strings.Join(expired, ", ")
-	case "warn":
+	case len(soon) > 0:
 		cal.Title = "calibration due soon: " + strings.Join(soon, ", ")
-	default:
-		if !soonest.IsZero() {
-			cal.Title = "calibration current to " + soonest.Format("2006-01-02")
-		}
+	case !soonest.IsZero():
+		cal.Title = "calibration current to " + soonest.Format("2006-01-02")
 	}
 	items = append(items, cal)
 

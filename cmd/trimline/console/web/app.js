@@ -188,6 +188,18 @@
     }
   }
 
+  function renderStatusDetail(items) {
+    const ul = $("status-detail");
+    ul.replaceChildren();
+    for (const it of items || []) {
+      for (const d of it.detail || []) {
+        const li = document.createElement("li");
+        li.textContent = d;
+        ul.append(li);
+      }
+    }
+  }
+
   function renderCounters(c) {
     const set = (k, v) => { const el = document.querySelector('[data-count="' + k + '"]'); if (el) el.textContent = v; };
     set("units", c.units); set("passed", c.passed); set("failed", c.failed); set("review", c.review);
@@ -342,6 +354,7 @@
   function apply(s) {
     st = s;
     renderStatus(s.status);
+    renderStatusDetail(s.status);
     renderCounters(s.counters);
     renderRecent(s.recent);
     renderReview(s.review);
