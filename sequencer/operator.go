@@ -18,7 +18,7 @@ import (
 // OperatorView is a run's outcome as the operator at the station reads it.
 type OperatorView struct {
 	Headline string   // "PASS", "FAIL", "REVIEW", "STATION FAULT", "STOPPED"
-	Reasons  []string // one plain sentence per failed or held limit, worst first: "offset after trim is −12384 µV, limit ±800 µV"
+	Reasons  []string // one plain sentence per failed or held limit, worst first: "offset after trim is −12.4 mV, limit ±0.8 mV"
 	Action   string   // what to do with the unit: "pack it", "send to rework", "retest it (attempt 2 of 3)", …
 }
 

@@ -95,7 +95,7 @@ type unitOut struct {
 	Finished       time.Time `json:"finished"`
 	Reasons        []string  `json:"reasons"` // why the verdict is not PASS, in words, in order; empty for PASS
 	// OperatorReasons are the same in the operator's plain words, worst first
-	// (sequencer.ForOperator): "offset after trim is −12384 µV, limit ±800 µV".
+	// (sequencer.ForOperator): "offset after trim is −12.4 mV, limit ±0.8 mV".
 	OperatorReasons []string    `json:"operator_reasons"`
 	Fault           string      `json:"fault"` // the station fault, for FAULT and ABORTED
 	Results         []resultOut `json:"results"`

@@ -17,7 +17,7 @@ func TestLiveLineSaysWhyInPlainWords(t *testing.T) {
 	if code != exitPass { // the demo shows failures; it does not fail
 		t.Fatalf("demo of 9 units: exit %d\n%s%s", code, out, errOut)
 	}
-	if !strings.Contains(out, "BRX-00009    FAIL") || !strings.Contains(out, "↳ offset after trim is −12384 µV, limit ±800 µV (+1 more)") {
+	if !strings.Contains(out, "BRX-00009    FAIL") || !strings.Contains(out, "↳ offset after trim is −12.4 mV, limit ±0.8 mV (+1 more)") {
 		t.Errorf("live line of BRX-00009:\n%s", out)
 	}
 	if strings.Contains(out, "w = ") || strings.Contains(out, "conditional") {
@@ -30,7 +30,7 @@ func TestLiveLineSaysWhyInPlainWords(t *testing.T) {
 	}
 	var u unitOut
 	decodeStrict(t, strings.SplitN(out, "\n", 2)[0], &u)
-	if len(u.OperatorReasons) != 2 || !strings.HasPrefix(u.OperatorReasons[0], "offset after trim is −") || !strings.HasSuffix(u.OperatorReasons[0], ", limit ±800 µV") ||
+	if len(u.OperatorReasons) != 2 || !strings.HasPrefix(u.OperatorReasons[0], "offset after trim is −") || !strings.HasSuffix(u.OperatorReasons[0], " mV, limit ±0.8 mV") ||
 		len(u.Reasons) != 2 || !strings.Contains(u.Reasons[0], "by more than w = ") {
 		t.Errorf("reasons %q, operator_reasons %q", u.Reasons, u.OperatorReasons)
 	}

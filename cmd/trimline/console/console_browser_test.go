@@ -517,10 +517,10 @@ func TestConsoleShiftInBrowser(t *testing.T) {
 		p.checkTargets("fail")
 		reason := p.text("#reason")
 		// BRX-00009 has a stuck trim-DAC bit: its offset cannot be trimmed (the
-		// CLI's reason: post_offset = −12384 µV outside −800 … 800 µV). The
-		// operator reads the value and the limit in the limit's unit.
-		if !regexp.MustCompile(`^offset after trim is −1\d{4} µV, limit ±800 µV`).MatchString(reason) {
-			t.Errorf("the reason reads %q; want the offset after trim first, as value and limit (offset after trim is −12… µV, limit ±800 µV)", reason)
+		// certificate's value: post_offset = −12384 µV outside −800 … 800 µV).
+		// The operator reads the value and the limit in a unit read at a glance.
+		if !regexp.MustCompile(`^offset after trim is −1\d\.\d\smV, limit ±0\.8\smV`).MatchString(reason) {
+			t.Errorf("the reason reads %q; want the offset after trim first, as value and limit (offset after trim is −12.… mV, limit ±0.8 mV)", reason)
 		}
 		for _, jargon := range []string{"w =", "zone", "conditional", "acceptance interval", "tolerance interval"} {
 			if strings.Contains(reason, jargon) {
