@@ -50,8 +50,14 @@ func operatorQuantity(value, U float64, unit string, lower, upper *float64) (v, 
 		_, du := units.RoundU(U)
 		dec = min(dec, du)
 	}
+	var bounds []float64
+	for _, b := range []*float64{lower, upper} {
+		if b != nil {
+			bounds = append(bounds, *b)
+		}
+	}
 	r := roundAt(value, dec)
-	for extra := 0; extra < 6 && !sameSideOfBounds(value, r, lower, upper); extra++ {
+	for extra := 0; extra < 6 && !units.SameSides(value, r, bounds); extra++ {
 		dec++
 		r = roundAt(value, dec)
 	}
@@ -94,25 +100,4 @@ func siPrefix(mag float64) (string, float64) {
 		return "", 1
 	}
 	return "n", 1e-9
-}
-
-// sameSideOfBounds reports whether the rounded value r lies on the same side
-// of every tolerance limit as the value v (and on a limit only where v is).
-func sameSideOfBounds(v, r float64, lower, upper *float64) bool {
-	for _, b := range []*float64{lower, upper} {
-		if b != nil && cmpf(v, *b) != cmpf(r, *b) {
-			return false
-		}
-	}
-	return true
-}
-
-func cmpf(a, b float64) int {
-	switch {
-	case a < b:
-		return -1
-	case a > b:
-		return 1
-	}
-	return 0
 }

@@ -97,15 +97,15 @@ func FormatValue(v, U float64, bounds ...float64) string {
 	for extra := 0; ; extra++ {
 		d := dec + extra
 		s := FormatAt(v, d)
-		if extra == 6 || sameSides(v, parseMinus(s), bounds) {
+		if extra == 6 || SameSides(v, parseMinus(s), bounds) {
 			return s
 		}
 	}
 }
 
-// sameSides reports whether a and b lie on the same side of (or both on) every
-// bound.
-func sameSides(a, b float64, bounds []float64) bool {
+// SameSides reports whether a and b lie on the same side of (or both on) every
+// bound: whether a rounded b tells the same as the value a against the limits.
+func SameSides(a, b float64, bounds []float64) bool {
 	for _, x := range bounds {
 		if cmp(a, x) != cmp(b, x) {
 			return false
