@@ -22,6 +22,17 @@ import (
 // station's caps.
 var ErrSafety = errors.New("safety cap")
 
+// ErrCalibrationExpired is what Open's and a run's refusal of an instrument
+// past its calibration due date wrap: a block until the instrument is
+// recalibrated, not a fault a note clears.
+var ErrCalibrationExpired = errors.New("calibration expired")
+
+// expiredError is an instrument past its calibration due date.
+type expiredError struct{ msg string }
+
+func (e *expiredError) Error() string { return e.msg }
+func (e *expiredError) Unwrap() error { return ErrCalibrationExpired }
+
 // ErrUnboundRole is wrapped when a sequence requires an instrument role the
 // station does not bind: the files do not fit together, but nothing was unsafe.
 var ErrUnboundRole = errors.New("unbound role")

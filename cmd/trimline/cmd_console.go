@@ -2,10 +2,12 @@ package main
 
 import (
 	"context"
+	"crypto/tls"
 	"errors"
 	"fmt"
 	"net"
 	"net/http"
+	"os"
 	"time"
 
 	"trimline/cmd/trimline/console"
@@ -14,7 +16,7 @@ import (
 
 func newConsoleCmd() *command {
 	c := &command{
-		UsageLine: "trimline console --station FILE --sequence FILE [--listen ADDR] [--out DIR] [--bench tcp] [--ambient T] [--engineering]",
+		UsageLine: "trimline console --station FILE --sequence FILE [--listen ADDR --tls-cert FILE --tls-key FILE] [--out DIR] [--bench tcp] [--ambient T] [--engineering]",
 		Short:     "serve the operator's station screen for a shift (a local web console)",
 		Long: `Opens the station for a shift and serves its operator screen on
 http://127.0.0.1:8470/ (open it in the station PC's browser). Operators sign in by
@@ -23,9 +25,10 @@ engine, ledger, certificates and signatures), with its progress, its verdict in
 plain words, retests confirmed on screen, a station fault locking the station until
 it is cleared with a note, and the units held for review decided by a reviewer.
 
-The console listens on loopback unless --listen names another address; then every
-sign-in needs the person's passphrase (the station file's people) and sessions end
-after 30 minutes idle. With --bench tcp the station's sim:// instruments are served
+The console listens on loopback unless --listen names another address; then it
+serves HTTPS only (--tls-cert and --tls-key: passphrases and session cookies never
+cross the network in clear text), every sign-in needs the person's passphrase (the
+station file's people) and sessions end after 30 minutes idle. With --bench tcp the station's sim:// instruments are served
 on loopback TCP in this process, on real time, as ` + "`trimline bench`" + ` serves them.
 Runs until Ctrl-C.`,
 	}
@@ -35,6 +38,8 @@ Runs until Ctrl-C.`,
 	out := c.Flag.String("out", "", "output `folder` (default: the station file's output.folder)")
 	bench := c.Flag.String("bench", "", "serve the station's simulated bench over `tcp` in this process")
 	ambient := c.Flag.String("ambient", "", "ambient `temperature` to record on every run, e.g. \"23.1 °C\"")
+	tlsCert := c.Flag.String("tls-cert", "", "TLS certificate `file` (PEM) to serve HTTPS with; required beyond loopback")
+	tlsKey := c.Flag.String("tls-key", "", "TLS private key `file` (PEM) of --tls-cert")
 	engineering := c.Flag.Bool("engineering", false, "run files that were never released; certificates are marked ENGINEERING RUN — NOT FOR SHIPMENT and numbered apart")
 	c.Run = func(ctx context.Context, e *env, args []string) error {
 		if *station == "" || *sequence == "" {
@@ -49,8 +54,29 @@ Runs until Ctrl-C.`,
 		if _, err := shift.ParseAmbient(*ambient); err != nil {
 			return usagef("--ambient: %v", err)
 		}
+		if (*tlsCert == "") != (*tlsKey == "") {
+			return usagef("--tls-cert and --tls-key go together")
+		}
+		useTLS := *tlsCert != ""
+		if !console.IsLoopback(*listen) && !useTLS {
+			return usagef("--listen %s is beyond loopback: give --tls-cert and --tls-key, so that passphrases and session cookies do not cross the network in clear text", *listen)
+		}
+		var certs []tls.Certificate
+		if useTLS {
+			c, err := tls.LoadX509KeyPair(*tlsCert, *tlsKey)
+			if err != nil {
+				return badInput(fmt.Errorf("--tls-cert/--tls-key: %w", err))
+			}
+			certs = []tls.Certificate{c}
+		}
+		// The address first: a port taken fails before any instrument opens.
+		ln, err := net.Listen("tcp", *listen)
+		if err != nil {
+			return err
+		}
+		defer ln.Close()
 		srv, err := console.New(ctx, console.Options{StationPath: *station, SequencePath: *sequence, Out: *out, Listen: *listen,
-			Bench: *bench, Ambient: *ambient, Engineering: *engineering, Log: e.stderr, Software: "trimline " + version()})
+			Bench: *bench, Ambient: *ambient, Engineering: *engineering, Log: e.stderr, Software: "trimline " + version(), TLS: useTLS})
 		if errors.Is(err, console.ErrNoPassphrase) {
 			return badInput(err)
 		}
@@ -58,12 +84,17 @@ Runs until Ctrl-C.`,
 			return err
 		}
 		defer srv.Close()
-		ln, err := net.Listen("tcp", *listen)
-		if err != nil {
-			return err
-		}
 		hs := &http.Server{Handler: srv.Handler(), ReadHeaderTimeout: 10 * time.Second}
-		fmt.Fprintf(e.stdout, "trimline console: http://%s/  (Ctrl-C stops)\n", ln.Addr())
+		scheme := "http"
+		if useTLS {
+			scheme = "https"
+			hs.TLSConfig = &tls.Config{Certificates: certs, MinVersion: tls.VersionTLS12}
+			ln = tls.NewListener(ln, hs.TLSConfig)
+		}
+		for _, u := range consoleURLs(scheme, ln.Addr()) {
+			fmt.Fprintf(e.stdout, "trimline console: %s\n", u)
+		}
+		fmt.Fprintln(e.stdout, "Ctrl-C stops.")
 		errc := make(chan error, 1)
 		go func() { errc <- hs.Serve(ln) }()
 		select {
@@ -83,4 +114,32 @@ Runs until Ctrl-C.`,
 		return nil
 	}
 	return c
+}
+
+// consoleURLs are the addresses to open the console at: the listening
+// address itself, or for an unspecified one (0.0.0.0, ::) this PC's name and
+// each of its non-loopback addresses.
+func consoleURLs(scheme string, addr net.Addr) []string {
+	host, port, err := net.SplitHostPort(addr.String())
+	if err != nil {
+		return []string{scheme + "://" + addr.String() + "/"}
+	}
+	if ip := net.ParseIP(host); ip == nil || !ip.IsUnspecified() {
+		return []string{scheme + "://" + net.JoinHostPort(host, port) + "/"}
+	}
+	var out []string
+	if name, err := os.Hostname(); err == nil && name != "" {
+		out = append(out, scheme+"://"+net.JoinHostPort(name, port)+"/")
+	}
+	if as, err := net.InterfaceAddrs(); err == nil {
+		for _, a := range as {
+			if n, ok := a.(*net.IPNet); ok && !n.IP.IsLoopback() && !n.IP.IsLinkLocalUnicast() {
+				out = append(out, scheme+"://"+net.JoinHostPort(n.IP.String(), port)+"/")
+			}
+		}
+	}
+	if len(out) == 0 {
+		out = append(out, scheme+"://"+net.JoinHostPort(host, port)+"/")
+	}
+	return out
 }

@@ -3,12 +3,20 @@ package main
 import (
 	"bytes"
 	"context"
+	"crypto/ecdsa"
+	"crypto/elliptic"
+	"crypto/rand"
+	"crypto/x509"
+	"crypto/x509/pkix"
 	"encoding/json"
+	"encoding/pem"
 	"io"
+	"math/big"
 	"net/http"
 	"net/http/cookiejar"
 	"net/http/httptest"
 	"net/url"
+	"os"
 	"path/filepath"
 	"regexp"
 	"strings"
@@ -147,13 +155,49 @@ func onlyRecord(t *testing.T, dir, serial string) *sequencer.Record {
 }
 
 // TestConsoleBeyondLoopbackWithoutPassphrases: a console on another address
-// with nobody able to sign in by passphrase does not start (exit 2).
+// serves HTTPS only, and with nobody able to sign in by passphrase it does not
+// start (exit 2 both).
 func TestConsoleBeyondLoopbackWithoutPassphrases(t *testing.T) {
 	dir := t.TempDir()
 	station, sequence := writeReleasedDemo(t, dir, 8)
 	var out bytes.Buffer
 	code := run(context.Background(), []string{"console", "--station", station, "--sequence", sequence, "--out", dir, "--listen", "0.0.0.0:0"}, &out, &out)
-	if code != exitUsage || !strings.Contains(out.String(), "passphrase") {
-		t.Fatalf("exit %d, want %d with a word on passphrases:\n%s", code, exitUsage, out.String())
+	if code != exitUsage || !strings.Contains(out.String(), "--tls-cert") {
+		t.Fatalf("without TLS: exit %d, want %d with a word on --tls-cert:\n%s", code, exitUsage, out.String())
 	}
+	cert, key := selfSignedCert(t, dir)
+	out.Reset()
+	code = run(context.Background(), []string{"console", "--station", station, "--sequence", sequence, "--out", dir, "--listen", "0.0.0.0:0",
+		"--tls-cert", cert, "--tls-key", key}, &out, &out)
+	if code != exitUsage || !strings.Contains(out.String(), "passphrase") {
+		t.Fatalf("with TLS: exit %d, want %d with a word on passphrases:\n%s", code, exitUsage, out.String())
+	}
+}
+
+// selfSignedCert writes a self-signed certificate for localhost and its key
+// (PEM) into dir.
+func selfSignedCert(t *testing.T, dir string) (certFile, keyFile string) {
+	t.Helper()
+	k, err := ecdsa.GenerateKey(elliptic.P256(), rand.Reader)
+	if err != nil {
+		t.Fatal(err)
+	}
+	tmpl := &x509.Certificate{SerialNumber: big.NewInt(1), Subject: pkix.Name{CommonName: "localhost"}, DNSNames: []string{"localhost"},
+		NotBefore: time.Now().Add(-time.Hour), NotAfter: time.Now().Add(time.Hour)}
+	der, err := x509.CreateCertificate(rand.Reader, tmpl, tmpl, &k.PublicKey, k)
+	if err != nil {
+		t.Fatal(err)
+	}
+	kd, err := x509.MarshalECPrivateKey(k)
+	if err != nil {
+		t.Fatal(err)
+	}
+	certFile, keyFile = filepath.Join(dir, "console.crt"), filepath.Join(dir, "console.key")
+	if err := os.WriteFile(certFile, pem.EncodeToMemory(&pem.Block{Type: "CERTIFICATE", Bytes: der}), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	if err := os.WriteFile(keyFile, pem.EncodeToMemory(&pem.Block{Type: "EC PRIVATE KEY", Bytes: kd}), 0o600); err != nil {
+		t.Fatal(err)
+	}
+	return certFile, keyFile
 }

@@ -57,7 +57,7 @@ func runBatch(ctx context.Context, e *env, b batch) (*sequencer.Tally, error) {
 		return nil, err
 	}
 	defer s.Close()
-	if err := s.OpenEngine(ctx, b.serials[0]); err != nil {
+	if _, err := s.OpenEngine(ctx, b.serials[0], ""); err != nil {
 		return nil, err
 	}
 	log := s.Log

@@ -53,6 +53,9 @@ type Options struct {
 	SessionTTL time.Duration
 	// Software is recorded in every run ("trimline v…"); "" = "trimline".
 	Software string
+	// TLS: the console is served over HTTPS (its session cookie is then
+	// marked Secure). The command requires it beyond loopback.
+	TLS bool
 }
 
 // DefaultListen is the console's address unless told otherwise.
@@ -78,11 +81,19 @@ type Server struct {
 	// observe, when set (benchmarks), sees every progress event first.
 	observe func(sequencer.Event)
 
+	// hashing lets one passphrase check run at a time.
+	hashing sync.Mutex
+	// issuing is held while the shift's Issuer records: a unit's run and
+	// record, or a review decision (the Issuer is not safe for concurrent use).
+	issuing sync.Mutex
+
 	mu      sync.Mutex
 	st      state
 	cancel  context.CancelCauseFunc // the running unit's; nil when none runs
 	running chan struct{}           // closed when the running unit's goroutine ends
 	closed  bool
+	// clearing: a clear of the fault lock is being recorded.
+	clearing bool
 }
 
 // New opens the station for a shift: with Bench "tcp" it serves the simulated
@@ -98,7 +109,7 @@ func New(ctx context.Context, o Options) (_ *Server, err error) {
 	if o.Software == "" {
 		o.Software = "trimline"
 	}
-	s := &Server{opt: o, loopback: isLoopback(o.Listen), hub: newHub()}
+	s := &Server{opt: o, loopback: IsLoopback(o.Listen), hub: newHub()}
 	defer func() {
 		if err != nil {
 			s.Close()
@@ -134,10 +145,18 @@ func New(ctx context.Context, o Options) (_ *Server, err error) {
 			return nil, fmt.Errorf("%w: %s: the console listens on %s, beyond loopback, where every sign-in needs a passphrase, and the station's people list nobody with a passphrase (add a hash made by `trimline keys passphrase`)", ErrNoPassphrase, s.shift.Station.File.Name, o.Listen)
 		}
 	}
-	s.sessions = newSessions(o.SessionTTL, s.loopback)
-	s.st = newState(s.shift)
+	s.sessions = newSessions(o.SessionTTL, s.loopback, o.TLS)
+	simulated := o.Bench != ""
+	for _, in := range s.shift.Station.Instruments {
+		simulated = simulated || strings.HasPrefix(in.Address, "sim://")
+	}
+	s.st = newState(s.shift, simulated)
 	s.refreshStatus(ctx)
-	if err := s.shift.OpenEngine(ctx, ""); err != nil {
+	if _, err := s.shift.OpenEngine(ctx, "", ""); errors.Is(err, sequencer.ErrCalibrationExpired) {
+		// Not a fault a note clears: the calibration status blocks every
+		// start until the instrument is recalibrated (refreshStatus).
+		s.shift.Log.Error().Err(err).Msg("console: an instrument's calibration has expired")
+	} else if err != nil {
 		ft := sequencer.ExplainFault(s.shift.FaultRecord("", "", err))
 		if ft.What == "" {
 			ft = sequencer.FaultText{What: "the instruments did not open", Said: err.Error(), Check: "that every instrument is powered and connected"}
@@ -221,8 +240,8 @@ func (s *Server) Close() error {
 	return first
 }
 
-// isLoopback reports whether addr (host:port, or "") listens on loopback only.
-func isLoopback(addr string) bool {
+// IsLoopback reports whether addr (host:port, or "") listens on loopback only.
+func IsLoopback(addr string) bool {
 	if addr == "" {
 		return true
 	}

@@ -733,6 +733,17 @@ func TestConsoleShiftInBrowser(t *testing.T) {
 		if cert == "" {
 			t.Fatal("a REVIEW shows no certificate number")
 		}
+		// Held for review, it is not retested from the scan field: a reviewer
+		// decides it.
+		before := len(mustRuns(t, led2, "BRX-00002"))
+		rp.scan("BRX-00002")
+		rp.waitFor(10*time.Second, "the refusal to retest a held unit", `vis('#scan-error')`)
+		if e := rp.text("#scan-error"); !strings.Contains(e, "held for review") || !strings.Contains(e, cert) {
+			t.Errorf("a rescan of a held unit says %q; want it held for review under %s", e, cert)
+		}
+		if n := len(mustRuns(t, led2, "BRX-00002")); n != before {
+			t.Errorf("a refused rescan recorded a run: %d runs, want %d", n, before)
+		}
 		row := fmt.Sprintf(`#review tr.review-row[data-cert=%q]`, cert)
 		if opName != revName {
 			// The operator may not decide: no accept button for them.

@@ -430,3 +430,97 @@ func TestReviewDecision(t *testing.T) {
 		t.Fatalf("decision record %s: %+v %+v %v", st.SupersededBy, rec, meta, err)
 	}
 }
+
+// TestFaultWhileReopening: the first unit after a cleared fault opens and
+// identifies the instruments again. When that fails, the unit is recorded
+// once, as a FAULT under the signed-in operator, and the lock names that very
+// run; a stop pressed meanwhile records it ABORTED and does not lock.
+func TestFaultWhileReopening(t *testing.T) {
+	if testing.Short() {
+		t.Skip("runs units on the served bench in real time")
+	}
+	dir, station, sequence := unitDemo(t)
+	ctx := context.Background()
+	srv, err := New(ctx, Options{StationPath: station, SequencePath: sequence, Out: filepath.Join(dir, "out"), Engineering: true, Bench: "tcp"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer srv.Close()
+	c := newClient(t, srv.Handler())
+	c.signIn("B-1042", "Ada Quillfeather")
+	srv.Bench().SetFault("meter", serve.Fault{NoReply: true})
+	c.post("/scan", url.Values{"serial": {"BRX-00003"}})
+	if s := c.settled(60 * time.Second); s.Phase != phaseLocked {
+		t.Fatalf("after a silent meter: phase %s", s.Phase)
+	}
+	// Cleared without fixing it: the next unit cannot open the meter.
+	c.post("/clear", url.Values{"note": {"looked, found nothing"}})
+	c.post("/scan", url.Values{"serial": {"BRX-00004"}})
+	s := c.settled(60 * time.Second)
+	if s.Phase != phaseLocked || s.Fault == nil {
+		t.Fatalf("a meter that still does not answer: phase %s, fault %+v", s.Phase, s.Fault)
+	}
+	runs, err := srv.shift.Ledger.Runs(ctx, "BRX-00004")
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(runs) != 1 || runs[0].Verdict != sequencer.Fault || runs[0].RunID != s.Fault.RunID {
+		t.Fatalf("runs of BRX-00004 %+v; want one FAULT, the lock's run %s", runs, s.Fault.RunID)
+	}
+	rec, err := srv.shift.Ledger.Run(ctx, runs[0].RunID)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if rec.Operator != "Ada Quillfeather" {
+		t.Errorf("the FAULT before the unit started is recorded under %q, want the signed-in operator", rec.Operator)
+	}
+
+	// A meter that answers slowly: STOP while the instruments open.
+	srv.Bench().SetFault("meter", serve.Fault{Delay: 1500 * time.Millisecond})
+	c.post("/clear", url.Values{"note": {"meter answers again, slowly"}})
+	c.post("/scan", url.Values{"serial": {"BRX-00005"}})
+	time.Sleep(200 * time.Millisecond)
+	if code, a := c.post("/stop", nil); code != http.StatusOK {
+		t.Fatalf("stop: %d %+v", code, a)
+	}
+	s = c.settled(60 * time.Second)
+	if s.Phase == phaseLocked || s.Verdict == nil || s.Verdict.Verdict != string(sequencer.Aborted) {
+		t.Fatalf("a stop while the instruments open: phase %s, verdict %+v; want ABORTED, not locked", s.Phase, s.Verdict)
+	}
+	if runs, _ := srv.shift.Ledger.Runs(ctx, "BRX-00005"); len(runs) != 1 || runs[0].Verdict != sequencer.Aborted || runs[0].Certificate != "" {
+		t.Fatalf("runs of BRX-00005 %+v; want one ABORTED without a certificate", runs)
+	}
+}
+
+// TestPassphraseOnLoopback: a person whose station entry has a passphrase
+// gives it on a loopback console too (a badge is no secret); a person without
+// one signs in by badge.
+func TestPassphraseOnLoopback(t *testing.T) {
+	hash, err := sequencer.HashPassphrase("amber crane 42")
+	if err != nil {
+		t.Fatal(err)
+	}
+	dir, station, sequence := unitDemo(t, func(s string) string {
+		return strings.Replace(s, "    key: keys/people/tobias-wrenhollow.pub", "    key: keys/people/tobias-wrenhollow.pub\n    passphrase: \""+hash+"\"", 1)
+	})
+	srv, err := New(context.Background(), Options{StationPath: station, SequencePath: sequence, Out: filepath.Join(dir, "out"), Engineering: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer srv.Close()
+	c := newClient(t, srv.Handler())
+	if !strings.Contains(c.page(), `id="passphrase"`) {
+		t.Fatal("the sign-in form has no passphrase field although a person has a passphrase")
+	}
+	if code, a := c.post("/signin", url.Values{"badge": {"B-2077"}}); code != http.StatusForbidden {
+		t.Fatalf("a reviewer's badge without the passphrase: %d %+v; want 403", code, a)
+	}
+	if code, a := c.post("/signin", url.Values{"badge": {"B-2077"}, "passphrase": {"amber crane 41"}}); code != http.StatusForbidden {
+		t.Fatalf("a wrong passphrase: %d %+v; want 403", code, a)
+	}
+	if code, a := c.post("/signin", url.Values{"badge": {"B-2077"}, "passphrase": {"amber crane 42"}}); code != http.StatusOK || !a.OK {
+		t.Fatalf("the right passphrase: %d %+v", code, a)
+	}
+	c2 := newClient(t, srv.Handler())
+	c2.signIn("B-1042", "Ada Quillfeather")
+}

@@ -73,7 +73,7 @@ func (h *hub) close() {
 
 // serveEvents streams events to one page until it goes away or the console
 // closes. The first event is the whole state.
-func (s *Server) serveEvents(w http.ResponseWriter, r *http.Request, first []byte) {
+func (s *Server) serveEvents(w http.ResponseWriter, r *http.Request, se *session, first []byte) {
 	fl, ok := w.(http.Flusher)
 	if !ok {
 		http.Error(w, "streaming unsupported", http.StatusInternalServerError)
@@ -92,7 +92,7 @@ func (s *Server) serveEvents(w http.ResponseWriter, r *http.Request, first []byt
 	w.WriteHeader(http.StatusOK)
 	fmt.Fprintf(w, "retry: 1000\nevent: state\ndata: %s\n\n", first)
 	fl.Flush()
-	keep := time.NewTicker(15 * time.Second)
+	keep := time.NewTicker(5 * time.Second)
 	defer keep.Stop()
 	for {
 		select {
@@ -119,6 +119,11 @@ func (s *Server) serveEvents(w http.ResponseWriter, r *http.Request, first []byt
 			}
 			fl.Flush()
 		case <-keep.C:
+			if !s.sessions.live(se.id) {
+				// Signed out, expired or idle: the page reloads to the
+				// sign-in form (EventSource reconnects and is refused).
+				return
+			}
 			fmt.Fprint(w, ": keep-alive\n\n")
 			fl.Flush()
 		}

@@ -115,14 +115,29 @@ func (s *Server) post(needsPerson bool, h func(http.ResponseWriter, *http.Reques
 
 // pageData is what the page template shows.
 type pageData struct {
-	Station   stationView
-	CSRF      string
-	Person    string
-	Operate   bool
-	Review    bool
-	Loopback  bool
-	Error     string
-	Remaining string // how long the sign-in lasts
+	Station  stationView
+	CSRF     string
+	Person   string
+	Operate  bool
+	Review   bool
+	Loopback bool
+	// AskPassphrase: the sign-in form has a passphrase field (beyond
+	// loopback, or when anyone in the station's people has a passphrase).
+	AskPassphrase bool
+	Error         string
+}
+
+// askPassphrase says whether the sign-in form asks for a passphrase.
+func (s *Server) askPassphrase() bool {
+	if !s.loopback {
+		return true
+	}
+	for _, p := range s.shift.Station.People {
+		if p.Passphrase != "" {
+			return true
+		}
+	}
+	return false
 }
 
 func (s *Server) index(w http.ResponseWriter, r *http.Request) {
@@ -131,7 +146,9 @@ func (s *Server) index(w http.ResponseWriter, r *http.Request) {
 		se = s.sessions.start(w, nil, nil)
 	}
 	s.mu.Lock()
-	d := pageData{Station: s.st.Station, CSRF: se.csrf, Person: se.name, Operate: se.operate, Review: se.review, Loopback: s.loopback}
+	d := pageData{Station: s.st.Station, CSRF: se.csrf, Person: se.name, Operate: se.operate,
+		// An engineering console decides on no production unit.
+		Review: se.review && !s.shift.Issuer.Engineering, Loopback: s.loopback, AskPassphrase: s.askPassphrase()}
 	s.mu.Unlock()
 	s.render(w, http.StatusOK, d)
 }
@@ -177,7 +194,7 @@ func (s *Server) reply(w http.ResponseWriter, r *http.Request, code int, a answe
 			return
 		}
 		se := s.sessions.get(r)
-		d := pageData{Error: a.Error, Loopback: s.loopback}
+		d := pageData{Error: a.Error, Loopback: s.loopback, AskPassphrase: s.askPassphrase()}
 		s.mu.Lock()
 		d.Station = s.st.Station
 		s.mu.Unlock()
@@ -215,13 +232,24 @@ func (s *Server) signin(w http.ResponseWriter, r *http.Request, se *session) {
 	st := s.shift.Station
 	var name, how string
 	var operate, review bool
+	// One passphrase check at a time: at PassphraseIterations a check costs a
+	// core for a fifth of a second, and the station's instruments need the
+	// other one.
+	check := func(p sequencer.Person) bool {
+		s.hashing.Lock()
+		defer s.hashing.Unlock()
+		return p.CheckPassphrase(pass)
+	}
 	p, known := st.Person(id)
 	switch {
 	case known:
-		if !s.loopback || pass != "" {
-			if p.Passphrase == "" || !p.CheckPassphrase(pass) {
-				// One message for a wrong passphrase and for none set: the
-				// screen does not say which people exist.
+		// A person with a passphrase always gives it, on loopback too: a name
+		// or a badge is no secret, and a reviewer's name goes on certificates.
+		// Beyond loopback everyone needs one.
+		if p.Passphrase != "" || !s.loopback {
+			if !check(p) {
+				// One message (and the same work) for a wrong passphrase and
+				// for none set: the screen does not say which people exist.
 				s.reply(w, r, http.StatusForbidden, answer{Error: "sign-in refused: name or passphrase not right"})
 				return
 			}
@@ -240,6 +268,9 @@ func (s *Server) signin(w http.ResponseWriter, r *http.Request, se *session) {
 		// nobody may review.
 		name, operate, how = id, true, "station sign-in"
 	default:
+		if !s.loopback || pass != "" {
+			check(sequencer.Person{}) // the work a real check costs
+		}
 		s.reply(w, r, http.StatusForbidden, answer{Error: "sign-in refused: name or passphrase not right"})
 		return
 	}
@@ -265,7 +296,7 @@ func (s *Server) state(w http.ResponseWriter, r *http.Request, se *session) {
 }
 
 func (s *Server) events(w http.ResponseWriter, r *http.Request, se *session) {
-	s.serveEvents(w, r, s.snapshot())
+	s.serveEvents(w, r, se, s.snapshot())
 }
 
 // snapshot is the state as JSON.

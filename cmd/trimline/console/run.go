@@ -36,11 +36,14 @@ func (s *Server) scan(w http.ResponseWriter, r *http.Request, se *session) {
 		refuse(http.StatusBadRequest, err.Error())
 		return
 	}
+	ctx := r.Context()
+	// The status is read again now: a shift can outlive a calibration, a
+	// release or the ledger's disk.
+	s.refreshStatus(ctx)
 	if msg := s.cannotStart(); msg != "" {
 		refuse(http.StatusConflict, msg)
 		return
 	}
-	ctx := r.Context()
 	n, err := sh.Issuer.Attempts(ctx, serial)
 	if err != nil {
 		refuse(http.StatusInternalServerError, "the ledger did not answer: "+err.Error())
@@ -55,6 +58,20 @@ func (s *Server) scan(w http.ResponseWriter, r *http.Request, se *session) {
 	if err != nil {
 		refuse(http.StatusInternalServerError, "the ledger did not answer: "+err.Error())
 		return
+	}
+	if tested && earlier.Verdict == sequencer.Review && earlier.Certificate != "" {
+		// A unit held for REVIEW waits for a reviewer's decision: a retest
+		// from the scan field would supersede it and take it out of the
+		// queue with nobody deciding.
+		st, err := sh.Ledger.CertificateStatus(ctx, earlier.Certificate)
+		if err != nil {
+			refuse(http.StatusInternalServerError, "the ledger did not answer: "+err.Error())
+			return
+		}
+		if st.Current() {
+			refuse(http.StatusConflict, fmt.Sprintf("%s is held for review (certificate %s): put it on the review shelf; a reviewer accepts or rejects it. Nothing was run.", serial, earlier.Certificate))
+			return
+		}
 	}
 	if tested && r.PostFormValue("retest") != "confirm" {
 		what := "run " + earlier.RunID
@@ -127,12 +144,20 @@ func (s *Server) start(serial, operator string, retest bool, attempt int) error 
 func (s *Server) runUnit(ctx context.Context, serial, operator string, attempt int) {
 	sh := s.shift
 	began := time.Now()
+	s.issuing.Lock()
+	defer s.issuing.Unlock()
 	if sh.Engine == nil {
 		// The first unit after a fault (or a bench that did not open)
 		// re-identifies every instrument.
-		if err := sh.OpenEngine(ctx, serial); err != nil {
-			rec := sh.FaultRecord(serial, operator, err)
-			s.finish(rec, "", time.Since(began), attempt, err)
+		rec, err := sh.OpenEngine(ctx, serial, operator)
+		if err != nil {
+			if rec == nil {
+				// Refused for a reason of the files: nothing was recorded,
+				// and the screen says so (no run id to clear it under).
+				rec = sh.FaultRecord(serial, operator, err)
+				rec.RunID = ""
+			}
+			s.finish(rec, "", time.Since(began), attempt, nil)
 			return
 		}
 	}
@@ -311,13 +336,19 @@ func (s *Server) clear(w http.ResponseWriter, r *http.Request, se *session) {
 		return
 	}
 	s.mu.Lock()
-	if s.st.Phase != phaseLocked || s.st.Fault == nil {
+	if s.st.Phase != phaseLocked || s.st.Fault == nil || s.clearing {
 		s.mu.Unlock()
 		s.reply(w, r, http.StatusConflict, answer{Error: "the station is not locked"})
 		return
 	}
 	f := *s.st.Fault
+	s.clearing = true
 	s.mu.Unlock()
+	defer func() {
+		s.mu.Lock()
+		s.clearing = false
+		s.mu.Unlock()
+	}()
 	subject := f.RunID
 	if subject == "" {
 		subject = "station " + s.shift.Station.ID
@@ -386,7 +417,9 @@ func (s *Server) review(w http.ResponseWriter, r *http.Request, se *session) {
 		return
 	}
 	d := sequencer.Disposition{Decision: decision, Reviewer: se.name, Reason: reason, At: time.Now().UTC(), Authenticated: se.authenticated}
+	s.issuing.Lock()
 	newCert, err := s.shift.Issuer.Dispose(r.Context(), cert, d)
+	s.issuing.Unlock()
 	if err != nil {
 		s.reply(w, r, http.StatusConflict, answer{Error: "not recorded: " + err.Error()})
 		return

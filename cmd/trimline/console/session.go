@@ -41,13 +41,15 @@ func (se *session) signedIn() bool { return se.name != "" }
 type sessions struct {
 	ttl  time.Duration // a sign-in's lifetime
 	idle time.Duration // 0 = no idle limit (loopback)
+	// secure marks the cookie Secure (the console is served over HTTPS).
+	secure bool
 
 	mu   sync.Mutex
 	byID map[string]*session
 }
 
-func newSessions(ttl time.Duration, loopback bool) *sessions {
-	s := &sessions{ttl: ttl, byID: map[string]*session{}}
+func newSessions(ttl time.Duration, loopback, secure bool) *sessions {
+	s := &sessions{ttl: ttl, byID: map[string]*session{}, secure: secure}
 	if !loopback {
 		s.idle = idleBeyondLoopback
 	}
@@ -59,6 +61,20 @@ func token() string {
 	b := make([]byte, 32)
 	rand.Read(b) // never fails (crypto/rand)
 	return base64.RawURLEncoding.EncodeToString(b)
+}
+
+// live reports whether the session id is still signed in, without counting
+// as a use of it: an open event stream keeps no session alive past its idle
+// limit or its lifetime, nor one signed out from another tab.
+func (s *sessions) live(id string) bool {
+	s.mu.Lock()
+	defer s.mu.Unlock()
+	se := s.byID[id]
+	if se == nil || !se.signedIn() {
+		return false
+	}
+	now := time.Now()
+	return now.Sub(se.created) <= s.ttl && (s.idle == 0 || now.Sub(se.seen) <= s.idle)
 }
 
 // get returns the live session of r's cookie, nil when there is none (or it
@@ -107,8 +123,17 @@ func (s *sessions) start(w http.ResponseWriter, old *session, fill func(*session
 			delete(s.byID, id)
 		}
 	}
+	// Still crowded (a page loading the console over and over): every
+	// signed-out session but the new one goes, so the table stays bounded.
+	if len(s.byID) > maxSessions {
+		for id, o := range s.byID {
+			if !o.signedIn() && id != se.id {
+				delete(s.byID, id)
+			}
+		}
+	}
 	s.mu.Unlock()
-	http.SetCookie(w, &http.Cookie{Name: cookieName, Value: se.id, Path: "/", HttpOnly: true,
+	http.SetCookie(w, &http.Cookie{Name: cookieName, Value: se.id, Path: "/", HttpOnly: true, Secure: s.secure,
 		SameSite: http.SameSiteStrictMode, MaxAge: int(s.ttl.Seconds())})
 	cp := *se
 	return &cp

@@ -47,7 +47,7 @@ type state struct {
 type stationView struct {
 	ID, Name, Product, Revision string
 	Engineering                 bool
-	Served                      bool
+	Simulated                   bool // the simulated bench, not a measurement
 	MaxAttempts                 int
 }
 
@@ -141,7 +141,9 @@ type reviewRow struct {
 	Reasons string `json:"reasons"`
 }
 
-func newState(sh *shift.Shift) state {
+// newState is the state of a shift that has not run a unit yet; simulated:
+// the station runs on the simulated bench (served or in process).
+func newState(sh *shift.Shift, simulated bool) state {
 	st, seq := sh.Station, sh.Sequence
 	name := st.Name
 	if name == "" {
@@ -149,7 +151,7 @@ func newState(sh *shift.Shift) state {
 	}
 	return state{
 		Station: stationView{ID: st.ID, Name: name, Product: seq.Product, Revision: seq.Revision,
-			Engineering: sh.Issuer.Engineering, Served: strings.Contains(st.Name, "(served simulator)"), MaxAttempts: seq.MaxAttempts},
+			Engineering: sh.Issuer.Engineering, Simulated: simulated, MaxAttempts: seq.MaxAttempts},
 		Phase:  phaseReady,
 		Recent: []recentRow{},
 		Review: []reviewRow{},

@@ -10,10 +10,6 @@ import (
 	"trimline/sequencer"
 )
 
-// calWarn is how long before an instrument's calibration falls due the
-// station warns (common practice: two weeks to book the recalibration).
-const calWarn = 14 * 24 * time.Hour
-
 // refreshStatus checks what a unit needs before it may start: the files in
 // force and their release, the instruments' calibration due dates, the
 // signing key and the ledger.
@@ -64,7 +60,7 @@ func (s *Server) refreshStatus(ctx context.Context) {
 			cal.State = "block"
 			expired = append(expired, who)
 			line += " — EXPIRED"
-		case in.CalDue.Sub(today) < calWarn:
+		case in.CalDue.Sub(today) <= sequencer.CalWarnDays*24*time.Hour: // as trimline check warns
 			if cal.State == "ok" {
 				cal.State = "warn"
 			}

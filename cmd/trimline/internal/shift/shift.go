@@ -241,27 +241,37 @@ func Open(ctx context.Context, o Options) (_ *Shift, err error) {
 // due dates, safe state). When it fails for a reason of the bench (not of the
 // files: safety caps, an unbound role, a TUR below the minimum) and serial is
 // given, the unit in the fixture was not run: the attempt is recorded in the
-// ledger as a FAULT run of serial. Opening an open engine closes it first, so
-// that the next unit re-identifies every instrument.
-func (s *Shift) OpenEngine(ctx context.Context, serial string) error {
+// ledger as a FAULT run of serial under operator ("" = the Options'), or as
+// ABORTED when ctx was cancelled meanwhile (a stop, not a fault of the bench),
+// and that record is returned with the error (nil when nothing was recorded).
+// Opening an open engine closes it first, so that the next unit re-identifies
+// every instrument.
+func (s *Shift) OpenEngine(ctx context.Context, serial, operator string) (*sequencer.Record, error) {
 	s.CloseEngine()
 	eng, err := sequencer.Open(ctx, s.cfg)
-	if err != nil {
-		if serial != "" && !errors.Is(err, sequencer.ErrSafety) && !errors.Is(err, sequencer.ErrUnboundRole) && !errors.Is(err, sequencer.ErrTUR) {
-			rec := sequencer.FaultRecord(s.cfg, serial, time.Now(), err)
-			if _, lerr := s.Issuer.Record(context.WithoutCancel(ctx), rec); lerr != nil {
-				s.Log.Error().Err(lerr).Msg("could not record the failed start in the ledger")
-			}
-			s.Log.Error().Str("serial", rec.Serial).Err(err).Msg("station fault before the unit started")
-		}
-		return err
+	if err == nil {
+		s.Engine = eng
+		return nil, nil
 	}
-	s.Engine = eng
-	return nil
+	if serial == "" || errors.Is(err, sequencer.ErrSafety) || errors.Is(err, sequencer.ErrUnboundRole) || errors.Is(err, sequencer.ErrTUR) {
+		return nil, err
+	}
+	rec := s.FaultRecord(serial, operator, err)
+	if ctx.Err() != nil {
+		rec.Verdict, rec.FaultDetail = sequencer.Aborted, nil
+		rec.Fault = fmt.Sprintf("aborted while the instruments were being opened: %v", context.Cause(ctx))
+	}
+	if _, lerr := s.Issuer.Record(context.WithoutCancel(ctx), rec); lerr != nil {
+		s.Log.Error().Err(lerr).Msg("could not record the failed start in the ledger")
+		return nil, err
+	}
+	s.Log.Error().Str("serial", rec.Serial).Err(err).Msg("station fault before the unit started")
+	return rec, err
 }
 
 // FaultRecord is the record of a unit that could not start because the
-// engine did not open (err), as OpenEngine records it; the caller records it.
+// engine did not open (err), as OpenEngine records it, under operator ("" =
+// the Options').
 func (s *Shift) FaultRecord(serial, operator string, err error) *sequencer.Record {
 	cfg := s.cfg
 	if operator != "" {
