@@ -747,6 +747,9 @@ func TestConsoleShiftInBrowser(t *testing.T) {
 			rp.signIn(revID, revName)
 		}
 		rp.waitFor(10*time.Second, "the review queue row of "+cert, fmt.Sprintf(`vis(%q)`, row))
+		// Without a reason nothing is decided, and the page says so under the row.
+		rp.do(10*time.Second, "accept without a reason", chromedp.Click(chromedp.CSS(row+" .review-accept")))
+		rp.waitFor(10*time.Second, "the refusal under the row", fmt.Sprintf(`vis(%q) && txt(%q).includes('reason')`, row+" .rv-error", row+" .rv-error"))
 		const reason = "noise 57 µV re-read on the bench scope: 41 µV, within 60 µV"
 		rp.do(10*time.Second, "write the reason", chromedp.SendKeys(chromedp.CSS(row+" .review-reason"), reason))
 		// One tap only arms the button: a decision reissues a certificate, so
