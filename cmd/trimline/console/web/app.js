@@ -405,10 +405,12 @@
     for (const id of ["plot-top", "plot-mid", "plot-bottom", "plot-xmin", "plot-xmax", "plot-unit"]) text(id, "");
     if (!pts.length) return;
     let ymax = 0, xmin = Infinity, xmax = -Infinity;
-    const n = Math.max(...pts.map((p) => p.N || 0), ...pts.map((p) => p.I || 0));
+    let n = 0;
+    for (const p of pts) n = Math.max(n, p.N || 0, p.I || 0);
     for (const p of pts) { ymax = Math.max(ymax, Math.abs(p.Y)); xmin = Math.min(xmin, p.X); xmax = Math.max(xmax, p.X); }
     ymax = ymax > 0 ? niceCeil(ymax * 1.05) : 1e-3;
-    const byIndex = n > 0 && pts.every((p) => p.I > 0);
+    // By index when every point knows its step's count; else by stimulus.
+    const byIndex = n > 0 && pts.every((p) => p.I > 0 && p.N > 0);
     const xOf = (p) => {
       if (byIndex) return n > 1 ? X0 + (X1 - X0) * (p.I - 1) / (n - 1) : (X0 + X1) / 2;
       return xmax > xmin ? X0 + (X1 - X0) * (p.X - xmin) / (xmax - xmin) : (X0 + X1) / 2;
