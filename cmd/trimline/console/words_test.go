@@ -38,3 +38,28 @@ func TestPointTextSignsAndUnits(t *testing.T) {
 		t.Errorf("pointText = %q, want %q", got, want)
 	}
 }
+
+// The plot holds one reading step: a zero check's two points never sit among
+// the following sweep's points, and each point carries its index of the step's
+// count so the page can place it without rescaling sideways.
+func TestPlotOneStepAtATime(t *testing.T) {
+	u := &unitView{Step: -1}
+	point := func(step, i, n int, x float64) {
+		u.progress(sequencer.Event{Kind: sequencer.EventPoint, Step: step, Point: i, Points: n, Stimulus: x, Error: 1e-4,
+			StimulusUnit: "V", ResponseUnit: "V"})
+	}
+	point(2, 1, 2, 0)
+	point(2, 2, 2, 0)
+	if len(u.Points) != 2 {
+		t.Fatalf("zero check: %d points, want 2", len(u.Points))
+	}
+	u.progress(sequencer.Event{Kind: sequencer.EventStepStart, Step: 3})
+	if len(u.Points) != 2 {
+		t.Errorf("a step that has read nothing yet cleared the last step's plot: %d points", len(u.Points))
+	}
+	point(3, 1, 11, -0.01)
+	point(3, 2, 11, -0.008)
+	if len(u.Points) != 2 || u.Points[0].Step != 3 || u.Points[0].I != 1 || u.Points[1].N != 11 || u.Points[0].XUnit != "V" {
+		t.Errorf("sweep after a zero check: points %+v, want only the sweep's 1 and 2 of 11", u.Points)
+	}
+}
