@@ -285,12 +285,11 @@ func keepShots(t *testing.T, dir string) {
 
 // checkTargets fails the test for a visible control smaller than 44 × 44 CSS
 // px, the enhanced target size of WCAG 2.2 (success criterion 2.5.5), the least
-// a gloved finger needs. The last units list's certificate links are left out:
-// they are for looking things up, not for working the station.
+// a gloved finger needs; the last units list's certificate links included.
 func (p *page) checkTargets(state string) {
 	p.t.Helper()
 	small := eval[[]string](p, `[...document.querySelectorAll('button, a, summary, input, textarea, select')]
-		.filter(e => !e.closest('#recent') && e.type !== 'hidden')
+		.filter(e => e.type !== 'hidden')
 		.filter(e => { const r = e.getBoundingClientRect(); return r.width > 0 && r.height > 0 && getComputedStyle(e).visibility !== 'hidden'; })
 		.filter(e => { const r = e.getBoundingClientRect(); return r.width < 44 || r.height < 44; })
 		.map(e => { const r = e.getBoundingClientRect(); return (e.id ? '#' + e.id : e.tagName.toLowerCase() + (e.className ? '.' + e.className : '')) + ' ' + Math.round(r.width) + '×' + Math.round(r.height); })`)
@@ -519,8 +518,13 @@ func TestConsoleShiftInBrowser(t *testing.T) {
 		// BRX-00009 has a stuck trim-DAC bit: its offset cannot be trimmed (the
 		// certificate's value: post_offset = −12384 µV outside −800 … 800 µV).
 		// The operator reads the value and the limit in a unit read at a glance.
-		if !regexp.MustCompile(`^offset after trim is −1\d\.\d\smV, limit ±0\.8\smV`).MatchString(reason) {
-			t.Errorf("the reason reads %q; want the offset after trim first, as value and limit (offset after trim is −12.… mV, limit ±0.8 mV)", reason)
+		// A number and its unit are joined by a no-break space (U+00A0): "mV"
+		// never stands alone at the start of a line.
+		if !regexp.MustCompile(`^offset after trim is −1\d\.\d\x{00a0}mV, limit ±0\.8\x{00a0}mV`).MatchString(reason) {
+			t.Errorf("the reason reads %q; want the offset after trim first, as value and limit (offset after trim is −12.… mV, limit ±0.8 mV, no-break spaces)", reason)
+		}
+		if !strings.Contains(reason, "limit ≤\u00a01\u00a0mV") {
+			t.Errorf("the reason reads %q; want the one-sided limit as \"limit ≤ 1 mV\" held together by no-break spaces", reason)
 		}
 		for _, jargon := range []string{"w =", "zone", "conditional", "acceptance interval", "tolerance interval"} {
 			if strings.Contains(reason, jargon) {
@@ -754,11 +758,22 @@ func TestConsoleShiftInBrowser(t *testing.T) {
 			rp.signIn(revID, revName)
 		}
 		rp.waitFor(10*time.Second, "the review queue row of "+cert, fmt.Sprintf(`vis(%q)`, row))
+		// Without a reason nothing is decided, and the page says so under the row.
+		rp.do(10*time.Second, "accept without a reason", chromedp.Click(chromedp.CSS(row+" .review-accept")))
+		rp.waitFor(10*time.Second, "the refusal under the row", fmt.Sprintf(`vis(%q) && txt(%q).includes('reason')`, row+" .rv-error", row+" .rv-error"))
 		const reason = "noise 57 µV re-read on the bench scope: 41 µV, within 60 µV"
 		rp.do(10*time.Second, "write the reason", chromedp.SendKeys(chromedp.CSS(row+" .review-reason"), reason))
+		// One tap only arms the button: a decision reissues a certificate, so
+		// it takes a second, explicit tap on what the button now says.
+		rp.do(10*time.Second, "accept (first tap)", chromedp.Click(chromedp.CSS(row+" .review-accept")))
+		rp.waitFor(10*time.Second, "the accept button to ask for confirmation",
+			fmt.Sprintf(`vis(%q) && document.querySelector(%q).textContent.startsWith('Confirm accept')`, row+" .review-accept.armed", row+" .review-accept"))
+		if st, err := led2.CertificateStatus(context.Background(), cert); err != nil || st.Superseded {
+			t.Fatalf("%s after one tap on accept: superseded %v (%v); one tap must not decide", cert, st.Superseded, err)
+		}
 		rp.shot("review")
 		rp.checkTargets("review")
-		rp.do(10*time.Second, "accept", chromedp.Click(chromedp.CSS(row+" .review-accept")))
+		rp.do(10*time.Second, "accept (confirm)", chromedp.Click(chromedp.CSS(row+" .review-accept")))
 		rp.waitFor(20*time.Second, "the row to leave the queue", fmt.Sprintf(`!vis(%q)`, row))
 		st, err := led2.CertificateStatus(context.Background(), cert)
 		if err != nil {

@@ -184,11 +184,14 @@ func (s *Server) progress(ev sequencer.Event) {
 	case sequencer.EventPoint:
 		out = struct {
 			Step      int     `json:"step"`
+			Point     int     `json:"point"`  // 1-based
+			Points    int     `json:"points"` // of the step
 			X         float64 `json:"x"`
+			XUnit     string  `json:"x_unit"`
 			Y         float64 `json:"y"`
 			Unit      string  `json:"unit"`
 			PointText string  `json:"point_text"`
-		}{ev.Step, ev.Stimulus, ev.Error, u.Unit, u.PointText}
+		}{ev.Step, ev.Point, ev.Points, ev.Stimulus, ev.StimulusUnit, ev.Error, u.Unit, u.PointText}
 	default:
 		out = struct {
 			Kind     string     `json:"kind"`
@@ -250,7 +253,8 @@ func (s *Server) finish(rec *sequencer.Record, cert string, wall time.Duration, 
 // metrologist's statement beside it.
 func verdictOf(rec *sequencer.Record, cert, certURL string, attempt, max int) *verdictView {
 	ov := sequencer.ForOperator(rec, attempt, max)
-	v := &verdictView{Serial: rec.Serial, Verdict: string(rec.Verdict), Word: ov.Headline, Reasons: ov.Reasons, Action: ov.Action,
+	// What the page shows never splits a number from its unit (keepTogether).
+	v := &verdictView{Serial: rec.Serial, Verdict: string(rec.Verdict), Word: ov.Headline, Reasons: keepAllTogether(ov.Reasons), Action: keepTogether(ov.Action),
 		Cert: cert, CertURL: certURL, Notes: rec.Notes, Statement: []string{}}
 	if v.Reasons == nil {
 		v.Reasons = []string{}
@@ -281,7 +285,7 @@ func verdictOf(rec *sequencer.Record, cert, certURL string, attempt, max int) *v
 		if text != "" {
 			line += " — " + text
 		}
-		v.Statement = append(v.Statement, line)
+		v.Statement = append(v.Statement, keepTogether(line))
 	}
 	if rec.Fault != "" {
 		v.Statement = append(v.Statement, "station: "+rec.Fault)

@@ -81,9 +81,13 @@ type stepView struct {
 	Status string `json:"status"` // "", running, done, skipped, not reached
 }
 
+// plotPt is one point of the error plot: the stimulus X (in XUnit), the
+// error Y (in the unit's Unit), point I of the step's N (1-based).
 type plotPt struct {
-	X, Y float64
-	Step int
+	X, Y  float64
+	Step  int
+	I, N  int
+	XUnit string
 }
 
 // verdictView is the last unit's verdict as the operator reads it.
@@ -244,8 +248,14 @@ func (u *unitView) progress(ev sequencer.Event) {
 		if ev.ResponseUnit != "" {
 			u.Unit = ev.ResponseUnit
 		}
+		// One plot per reading step: the first point of another step
+		// starts a new one (a zero check's two points never sit among a
+		// sweep's eleven).
+		if n := len(u.Points); n > 0 && u.Points[n-1].Step != ev.Step {
+			u.Points = u.Points[:0]
+		}
 		if len(u.Points) < plotMax && finite(ev.Stimulus) && finite(ev.Error) {
-			u.Points = append(u.Points, plotPt{X: ev.Stimulus, Y: ev.Error, Step: ev.Step})
+			u.Points = append(u.Points, plotPt{X: ev.Stimulus, Y: ev.Error, Step: ev.Step, I: ev.Point, N: ev.Points, XUnit: ev.StimulusUnit})
 		}
 	case sequencer.EventStepEnd:
 		if ev.Step >= 0 && ev.Step < len(u.Steps) {
@@ -268,7 +278,8 @@ func stepTitle(ev sequencer.Event, n int) string {
 	return name
 }
 
-// pointText is "point 4 of 11: 2.5 V in, error +1.2 mV".
+// pointText is "point 4 of 11: −2.5 V in, error +1.2 mV", with U+2212 for a
+// minus sign and a no-break space between a number and its unit.
 func pointText(ev sequencer.Event) string {
 	t := fmt.Sprintf("point %d of %d", ev.Point, ev.Points)
 	if finite(ev.Stimulus) {
@@ -277,7 +288,7 @@ func pointText(ev sequencer.Event) string {
 			t += ", error " + quantity(ev.Error, ev.ResponseUnit, true)
 		}
 	}
-	return t
+	return keepTogether(t)
 }
 
 // quantity writes v in unit ("V", "A", "count") as an operator reads it.

@@ -117,7 +117,7 @@ func (s *Server) refreshReview(ctx context.Context) {
 			row := reviewRow{Cert: r.Certificate, Serial: r.Serial, At: r.Finished.Local().Format("2006-01-02 15:04")}
 			if rec, err := s.shift.Ledger.Run(ctx, r.RunID); err == nil && rec != nil {
 				ov := sequencer.ForOperator(rec, 0, 0)
-				row.Reasons = strings.Join(ov.Reasons, "; ")
+				row.Reasons = strings.Join(keepAllTogether(ov.Reasons), "; ")
 			}
 			rows = append(rows, row)
 		}

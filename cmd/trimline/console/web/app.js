@@ -141,19 +141,93 @@
   }
 
   // --- review ---
+  // A decision reissues a certificate: it takes two taps. The first arms the
+  // button ("Confirm accept — …") for a few seconds; the second decides.
   const reviewBox = $("review");
+  const ARM_MS = 6000;
+  let armed = null;        // { cert, decision, until }
+  let armTimer = null;
+  const rowErrors = {};    // cert → the refusal shown under its row
+  const confirmText = {
+    accept: "Confirm accept \u2014 reissue the certificate as PASS",
+    reject: "Confirm reject \u2014 reissue the certificate as FAIL",
+  };
+  function oneLine(v) { return v.replace(/\s*[\r\n]+\s*/g, " ").trim(); }
+  function rowOf(cert) {
+    for (const tr of reviewBox.querySelectorAll("tr.review-row")) if (tr.dataset.cert === cert) return tr;
+    return null;
+  }
+  function showArmed() {
+    if (!reviewBox) return;
+    for (const tr of reviewBox.querySelectorAll("tr.review-row")) {
+      const on = armed && armed.cert === tr.dataset.cert ? armed.decision : "";
+      const acc = tr.querySelector(".review-accept"), rej = tr.querySelector(".review-reject");
+      acc.classList.toggle("armed", on === "accept");
+      rej.classList.toggle("armed", on === "reject");
+      acc.textContent = on === "accept" ? confirmText.accept : "\u2713 Accept";
+      rej.textContent = on === "reject" ? confirmText.reject : "\u2715 Reject";
+      acc.hidden = on === "reject";
+      rej.hidden = on === "accept";
+      tr.querySelector(".rv-cancel").hidden = !on;
+    }
+  }
+  function disarm() {
+    armed = null;
+    clearTimeout(armTimer);
+    showArmed();
+  }
+  function rowError(cert, msg) {
+    if (msg) rowErrors[cert] = msg; else delete rowErrors[cert];
+    const tr = rowOf(cert);
+    const el = tr && tr.querySelector(".rv-error");
+    if (el) {
+      el.textContent = msg || "";
+      el.hidden = !msg;
+      if (msg) el.scrollIntoView({ block: "nearest" });
+    }
+    // A refusal for a row that is gone shows above the queue.
+    text("review-error", el ? "" : msg);
+    show($("review-error"), !el && !!msg);
+  }
   if (reviewBox) {
     reviewBox.addEventListener("click", async (ev) => {
+      const row = ev.target.closest("tr.review-row");
+      if (!row) return;
+      if (ev.target.closest("button.rv-cancel")) { disarm(); return; }
       const b = ev.target.closest("button.review-accept, button.review-reject");
       if (!b) return;
-      const row = b.closest("tr.review-row");
-      const reason = row.querySelector(".review-reason").value.trim();
+      const cert = row.dataset.cert;
+      const field = row.querySelector(".review-reason");
+      const reason = oneLine(field.value);
       const decision = b.classList.contains("review-accept") ? "accept" : "reject";
+      if (!reason) {
+        disarm();
+        rowError(cert, "Write the reason for the decision first.");
+        field.focus();
+        return;
+      }
+      if (!(armed && armed.cert === cert && armed.decision === decision)) {
+        rowError(cert, "");
+        armed = { cert, decision };
+        clearTimeout(armTimer);
+        armTimer = setTimeout(disarm, ARM_MS);
+        showArmed();
+        return;
+      }
+      disarm();
       b.disabled = true;
-      const a = await post("/review/" + encodeURIComponent(row.dataset.cert), { decision, reason });
+      const a = await post("/review/" + encodeURIComponent(cert), { decision, reason });
       b.disabled = false;
-      text("review-error", a.ok ? "" : a.error);
-      show($("review-error"), !a.ok);
+      rowError(cert, a.ok ? "" : a.error || "not recorded");
+    });
+    // The reason is one line (a decision's reason holds no line breaks):
+    // Enter does not break it, a pasted break becomes a space.
+    reviewBox.addEventListener("keydown", (ev) => {
+      if (ev.key === "Enter" && ev.target.classList.contains("review-reason")) ev.preventDefault();
+    });
+    reviewBox.addEventListener("input", (ev) => {
+      const f = ev.target;
+      if (f.classList.contains("review-reason") && /[\r\n]/.test(f.value)) f.value = f.value.replace(/[\r\n]+/g, " ");
     });
   }
 
@@ -245,6 +319,9 @@
     // Keep what a reviewer is typing when the queue is redrawn.
     const typed = {};
     for (const tr of tb.querySelectorAll("tr.review-row")) typed[tr.dataset.cert] = tr.querySelector(".review-reason").value;
+    const fe = document.activeElement;
+    const focused = fe && fe.classList && fe.classList.contains("review-reason")
+      ? { cert: fe.closest("tr.review-row").dataset.cert, at: fe.selectionStart } : null;
     tb.replaceChildren();
     for (const r of rows || []) {
       const tr = document.createElement("tr");
@@ -253,23 +330,45 @@
       const td = document.createElement("td");
       const head = document.createElement("div");
       head.className = "rv-head";
-      head.textContent = r.serial + " · " + r.cert + " · " + r.at;
+      // Each part stays whole ("2026-12-02 17:10" never splits).
+      [r.serial, r.cert, r.at].forEach((t, i) => {
+        if (i) head.append(" · ");
+        const sp = document.createElement("span");
+        sp.textContent = t;
+        head.append(sp);
+      });
       const why = document.createElement("div");
       why.className = "rv-why";
       why.textContent = r.reasons;
-      const inp = document.createElement("input");
-      inp.type = "text"; inp.className = "review-reason"; inp.placeholder = "reason for the decision";
+      const inp = document.createElement("textarea");
+      inp.className = "review-reason"; inp.rows = 2; inp.maxLength = 500; inp.spellcheck = false;
+      inp.placeholder = "reason for the decision (one sentence)";
+      inp.setAttribute("aria-label", "reason for the decision on " + r.serial);
       inp.value = typed[r.cert] || "";
       const acc = document.createElement("button");
-      acc.type = "button"; acc.className = "btn btn-go review-accept"; acc.textContent = "✓ Accept";
+      acc.type = "button"; acc.className = "btn btn-go review-accept";
       const rej = document.createElement("button");
-      rej.type = "button"; rej.className = "btn btn-stop review-reject"; rej.textContent = "✕ Reject";
+      rej.type = "button"; rej.className = "btn btn-stop review-reject";
+      const cancel = document.createElement("button");
+      cancel.type = "button"; cancel.className = "btn btn-quiet rv-cancel"; cancel.textContent = "Cancel";
       const btns = document.createElement("div");
       btns.className = "rv-buttons";
-      btns.append(acc, rej);
-      td.append(head, why, inp, btns);
+      btns.append(acc, rej, cancel);
+      const err = document.createElement("div");
+      err.className = "rv-error"; err.setAttribute("role", "alert");
+      err.textContent = rowErrors[r.cert] || "";
+      err.hidden = !rowErrors[r.cert];
+      td.append(head, why, inp, btns, err);
       tr.append(td);
       tb.append(tr);
+    }
+    if (armed && !(rows || []).some((r) => r.cert === armed.cert)) disarm();
+    showArmed();
+    // A redraw keeps the reviewer's place in the field being typed in.
+    if (focused) {
+      const tr = rowOf(focused.cert);
+      const f = tr && tr.querySelector(".review-reason");
+      if (f) { f.focus(); f.setSelectionRange(focused.at, focused.at); }
     }
     show($("review-empty"), !(rows && rows.length));
   }
@@ -288,35 +387,67 @@
     $("prog-bar").style.width = n ? (100 * done / n).toFixed(1) + "%" : "0%";
   }
 
-  // The plot: error against stimulus, rescaled as points come.
+  // The plot: the error at each point of the reading step on test, one plot
+  // per step. x is the point's index (1 … Points), fixed from the first point
+  // on, so nothing moves sideways as points come; y is symmetric about zero
+  // on a 1-2-5 scale. Labels sit outside the plotted area.
   const svgNS = "http://www.w3.org/2000/svg";
+  const NB = "\u00a0";
+  const X0 = 150, X1 = 770, YMID = 124, YHALF = 104;
+  function niceCeil(v) {
+    const e = Math.pow(10, Math.floor(Math.log10(v)));
+    for (const m of [1, 2, 2.5, 5, 10]) if (m * e >= v) return m * e;
+    return 10 * e;
+  }
   function drawPlot() {
     const g = $("plot-points");
     g.replaceChildren();
-    if (!pts.length) { text("plot-top", ""); text("plot-bottom", ""); text("plot-unit", ""); return; }
-    let xmin = Infinity, xmax = -Infinity, ymax = 0;
-    for (const p of pts) { xmin = Math.min(xmin, p.X); xmax = Math.max(xmax, p.X); ymax = Math.max(ymax, Math.abs(p.Y)); }
-    if (xmax === xmin) { xmax += 1; xmin -= 1; }
-    if (!(ymax > 0)) ymax = 1;
-    for (const p of pts) {
+    for (const id of ["plot-top", "plot-mid", "plot-bottom", "plot-xmin", "plot-xmax", "plot-unit"]) text(id, "");
+    if (!pts.length) return;
+    let ymax = 0, xmin = Infinity, xmax = -Infinity;
+    let n = 0;
+    for (const p of pts) n = Math.max(n, p.N || 0, p.I || 0);
+    for (const p of pts) { ymax = Math.max(ymax, Math.abs(p.Y)); xmin = Math.min(xmin, p.X); xmax = Math.max(xmax, p.X); }
+    ymax = ymax > 0 ? niceCeil(ymax * 1.05) : 1e-3;
+    // By index when every point knows its step's count; else by stimulus.
+    const byIndex = n > 0 && pts.every((p) => p.I > 0 && p.N > 0);
+    const xOf = (p) => {
+      if (byIndex) return n > 1 ? X0 + (X1 - X0) * (p.I - 1) / (n - 1) : (X0 + X1) / 2;
+      return xmax > xmin ? X0 + (X1 - X0) * (p.X - xmin) / (xmax - xmin) : (X0 + X1) / 2;
+    };
+    pts.forEach((p, i) => {
       const c = document.createElementNS(svgNS, "circle");
-      c.setAttribute("class", "pt s" + (p.Step % 6));
-      c.setAttribute("cx", (60 + 720 * (p.X - xmin) / (xmax - xmin)).toFixed(1));
-      c.setAttribute("cy", (130 - 110 * p.Y / ymax).toFixed(1));
-      c.setAttribute("r", "6");
+      c.setAttribute("class", "pt" + (i === pts.length - 1 ? " last" : ""));
+      c.setAttribute("cx", xOf(p).toFixed(1));
+      c.setAttribute("cy", (YMID - YHALF * p.Y / ymax).toFixed(1));
+      c.setAttribute("r", i === pts.length - 1 ? "11" : "8");
       g.append(c);
-    }
+    });
     const u = plotUnit === "count" ? "counts" : plotUnit || "V";
     text("plot-top", "+" + fmtSI(ymax, u));
-    text("plot-bottom", "−" + fmtSI(ymax, u));
-    text("plot-unit", "error at each point");
+    text("plot-mid", "0");
+    text("plot-bottom", "\u2212" + fmtSI(ymax, u));
+    // The stimulus axis: the first and the last point's level, as soon as
+    // each is known; until then the point's number holds its place.
+    const xu = pts[0].XUnit === "count" ? "counts" : pts[0].XUnit || "V";
+    const first = byIndex ? pts.find((p) => p.I === 1) : pts.find((p) => p.X === xmin);
+    const last = byIndex ? pts.find((p) => p.I === n) : (pts.length > 1 ? pts.find((p) => p.X === xmax) : null);
+    text("plot-xmin", first ? fmtSigned(first.X, xu) : "point 1");
+    text("plot-xmax", last ? fmtSigned(last.X, xu) : byIndex ? "point " + n : "");
+    text("plot-unit", byIndex ? "error at each of the " + n + " stimulus levels" : "error against stimulus");
   }
-  // fmtSI writes a magnitude with the SI prefix that suits it: "12.4 mV".
+  // fmtSI writes a magnitude with the SI prefix that suits it: "12.4 mV",
+  // the number and its unit joined by a no-break space.
   function fmtSI(v, unit) {
-    if (unit === "counts") return v.toPrecision(3) + " counts";
-    const p = [[1, ""], [1e-3, "m"], [1e-6, "µ"], [1e-9, "n"]];
-    for (const [f, s] of p) if (v >= f) return (v / f).toPrecision(3) + " " + s + unit;
-    return (v / 1e-9).toPrecision(3) + " n" + unit;
+    if (unit === "counts") return +v.toPrecision(3) + NB + "counts";
+    const p = [[1, ""], [1e-3, "m"], [1e-6, "\u00b5"], [1e-9, "n"]];
+    for (const [f, s] of p) if (v >= f) return +(v / f).toPrecision(3) + NB + s + unit;
+    return +(v / 1e-9).toPrecision(3) + NB + "n" + unit;
+  }
+  // fmtSigned is fmtSI with the sign: "\u22124 mV", "+2.5 V", "0 V".
+  function fmtSigned(v, unit) {
+    if (v === 0) return "0" + NB + (unit === "counts" ? "counts" : unit);
+    return (v < 0 ? "\u2212" : "+") + fmtSI(Math.abs(v), unit);
   }
 
   function renderVerdict(v) {
@@ -411,7 +542,12 @@
     st.unit.point_text = e.point_text;
     text("point-text", e.point_text);
     plotUnit = e.unit;
-    if (isFinite(e.x) && isFinite(e.y)) { pts.push({ X: e.x, Y: e.y, Step: e.step }); drawPlot(); }
+    // A new reading step starts a new plot.
+    if (pts.length && pts[pts.length - 1].Step !== e.step) pts = [];
+    if (isFinite(e.x) && isFinite(e.y)) {
+      pts.push({ X: e.x, Y: e.y, Step: e.step, I: e.point, N: e.points, XUnit: e.x_unit });
+      drawPlot();
+    }
   }
 
   // --- the event stream; on a break the page reads the whole state again ---
