@@ -28,8 +28,10 @@ type Person struct {
 	Badge string   // what the badge scanner types; "" = sign in by name
 	May   []string // rights: RightOperate, RightReview
 	// Passphrase is a hashed passphrase (never plaintext), checked by
-	// CheckPassphrase; Key is the path of an Ed25519 public key file. Either
-	// one lets the person sign in on a console served beyond loopback.
+	// CheckPassphrase: the console asks for it at every sign-in of the person,
+	// and beyond loopback only people with one may sign in. Key is the path
+	// of an Ed25519 public key file whose private key signs the person's
+	// review decisions on the command line (trimline review --key).
 	Passphrase string
 	Key        string
 	Where      string // file:line:col of the entry

@@ -20,21 +20,23 @@ func newConsoleCmd() *command {
 		Short:     "serve the operator's station screen for a shift (a local web console)",
 		Long: `Opens the station for a shift and serves its operator screen on
 http://127.0.0.1:8470/ (open it in the station PC's browser). Operators sign in by
-name or badge and scan serials; each unit runs as ` + "`trimline run`" + ` runs it (same
-engine, ledger, certificates and signatures), with its progress, its verdict in
-plain words, retests confirmed on screen, a station fault locking the station until
-it is cleared with a note, and the units held for review decided by a reviewer.
+name or badge (and their passphrase, where the station file's people give them
+one) and scan serials; each unit runs as ` + "`trimline run`" + ` runs it (same engine,
+ledger, certificates and signatures), with its progress, its verdict in plain
+words, retests confirmed on screen, a station fault locking the station until it
+is cleared with a note, and the units held for review decided by a reviewer.
 
 The console listens on loopback unless --listen names another address; then it
-serves HTTPS only (--tls-cert and --tls-key: passphrases and session cookies never
-cross the network in clear text), every sign-in needs the person's passphrase (the
-station file's people) and sessions end after 30 minutes idle. With --bench tcp the station's sim:// instruments are served
-on loopback TCP in this process, on real time, as ` + "`trimline bench`" + ` serves them.
+serves HTTPS only (--tls-cert and --tls-key; also usable on loopback), every
+sign-in needs the person's passphrase, and sessions end after 30 minutes idle.
+Sessions last 12 hours at most. With --bench tcp the station's sim://
+instruments are served on loopback TCP in this process, on real time, as
+` + "`trimline bench`" + ` serves them.
 Runs until Ctrl-C.`,
 	}
 	station := c.Flag.String("station", "", "station `file` (what is on this bench)")
 	sequence := c.Flag.String("sequence", "", "sequence `file` (how the product is trimmed)")
-	listen := c.Flag.String("listen", console.DefaultListen, "`address` to serve on (beyond loopback: passphrases required)")
+	listen := c.Flag.String("listen", console.DefaultListen, "`address` to serve on (beyond loopback: HTTPS and passphrases required)")
 	out := c.Flag.String("out", "", "output `folder` (default: the station file's output.folder)")
 	bench := c.Flag.String("bench", "", "serve the station's simulated bench over `tcp` in this process")
 	ambient := c.Flag.String("ambient", "", "ambient `temperature` to record on every run, e.g. \"23.1 °C\"")
@@ -84,7 +86,8 @@ Runs until Ctrl-C.`,
 			return err
 		}
 		defer srv.Close()
-		hs := &http.Server{Handler: srv.Handler(), ReadHeaderTimeout: 10 * time.Second}
+		// No WriteTimeout: the event stream is one long response.
+		hs := &http.Server{Handler: srv.Handler(), ReadHeaderTimeout: 10 * time.Second, ReadTimeout: 30 * time.Second, IdleTimeout: 2 * time.Minute}
 		scheme := "http"
 		if useTLS {
 			scheme = "https"

@@ -94,6 +94,11 @@ type Server struct {
 	closed  bool
 	// clearing: a clear of the fault lock is being recorded.
 	clearing bool
+	// stopStatus ends the status refresh; statusDone is closed when it has.
+	stopStatus context.CancelFunc
+	statusDone chan struct{}
+	// signins holds a place per sign-in waiting for its passphrase check.
+	signins chan struct{}
 }
 
 // New opens the station for a shift: with Bench "tcp" it serves the simulated
@@ -146,7 +151,10 @@ func New(ctx context.Context, o Options) (_ *Server, err error) {
 		}
 	}
 	s.sessions = newSessions(o.SessionTTL, s.loopback, o.TLS)
-	simulated := o.Bench != ""
+	// The simulated bench: in process (sim://), served here (--bench) or by
+	// `trimline bench` (whose station file it names so); the first record
+	// says it too (finish).
+	simulated := o.Bench != "" || strings.Contains(s.shift.Station.Name, "(served simulator)")
 	for _, in := range s.shift.Station.Instruments {
 		simulated = simulated || strings.HasPrefix(in.Address, "sim://")
 	}
@@ -166,7 +174,35 @@ func New(ctx context.Context, o Options) (_ *Server, err error) {
 	}
 	s.refreshReview(ctx)
 	s.mux = s.routes()
+	s.signins = make(chan struct{}, maxWaitingSignins)
+	sctx, stop := context.WithCancel(context.WithoutCancel(ctx))
+	s.stopStatus, s.statusDone = stop, make(chan struct{})
+	go s.watchStatus(sctx)
 	return s, nil
+}
+
+// maxWaitingSignins bounds the sign-ins waiting for a passphrase check; more
+// are refused at once (busy), so a flood of them cannot queue without end.
+const maxWaitingSignins = 4
+
+// statusEvery is how often the station status is read again while nobody
+// scans: a calibration falls due at midnight, a release can be withdrawn.
+const statusEvery = time.Minute
+
+// watchStatus reads the station status every statusEvery and tells the pages.
+func (s *Server) watchStatus(ctx context.Context) {
+	defer close(s.statusDone)
+	t := time.NewTicker(statusEvery)
+	defer t.Stop()
+	for {
+		select {
+		case <-ctx.Done():
+			return
+		case <-t.C:
+			s.refreshStatus(ctx)
+			s.publishState()
+		}
+	}
 }
 
 // serveBench serves the station's sim:// instruments on loopback TCP and
@@ -223,6 +259,10 @@ func (s *Server) Close() error {
 	if cancel != nil {
 		cancel(errors.New("the console was stopped"))
 		<-running
+	}
+	if s.stopStatus != nil {
+		s.stopStatus()
+		<-s.statusDone
 	}
 	s.hub.close()
 	var first error

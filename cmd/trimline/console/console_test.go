@@ -379,6 +379,16 @@ func TestReviewDecision(t *testing.T) {
 	dir, station, sequence := unitDemo(t, func(s string) string {
 		return seed.ReplaceAllString(s, "${1}seed: \"8\"\n${1}noise: 50 uV")
 	})
+	// One measured run per unit: a held unit still goes to the reviewer, not
+	// to rework.
+	seqText, err := os.ReadFile(sequence)
+	if err != nil {
+		t.Fatal(err)
+	}
+	one := regexp.MustCompile(`max_attempts: \d+`).ReplaceAll(seqText, []byte("max_attempts: 1"))
+	if err := os.WriteFile(sequence, one, 0o644); err != nil {
+		t.Fatal(err)
+	}
 	releaseFiles(t, dir, station, sequence)
 	ctx := context.Background()
 	srv, err := New(ctx, Options{StationPath: station, SequencePath: sequence, Out: filepath.Join(dir, "out")})
@@ -399,6 +409,12 @@ func TestReviewDecision(t *testing.T) {
 	held := s.Verdict.Cert
 	if len(s.Review) != 1 || s.Review[0].Cert != held {
 		t.Fatalf("review queue %+v, want %s", s.Review, held)
+	}
+	// Scanned again, a held unit is not retested (nor sent to rework on its
+	// last attempt): a reviewer decides it.
+	if code, a := op.post("/scan", url.Values{"serial": {"BRX-00002"}, "retest": {"confirm"}}); code != http.StatusConflict ||
+		!strings.Contains(a.Error, "held for review") || !strings.Contains(a.Error, held) {
+		t.Fatalf("a rescan of the held unit: %d %+v; want 409, held for review under %s", code, a, held)
 	}
 	if strings.Contains(op.page(), `id="review"`) {
 		t.Fatal("an operator without the review right sees the review queue")
@@ -523,4 +539,158 @@ func TestPassphraseOnLoopback(t *testing.T) {
 	}
 	c2 := newClient(t, srv.Handler())
 	c2.signIn("B-1042", "Ada Quillfeather")
+}
+
+// TestCalibrationStatus: an instrument past its calibration due date blocks
+// the station (no unit starts, the status names it) without locking it as a
+// fault a note could clear; one due in exactly 14 days warns, as trimline
+// check does, and units run.
+func TestCalibrationStatus(t *testing.T) {
+	for _, c := range []struct {
+		name  string
+		due   time.Time
+		state string
+	}{
+		{"expired", time.Now().UTC().AddDate(0, 0, -2), "block"},
+		{"due in 14 days", time.Now().UTC().AddDate(0, 0, 14), "warn"},
+	} {
+		t.Run(c.name, func(t *testing.T) {
+			first := regexp.MustCompile(`(?m)^(\s*cal_due:\s*)\d{4}-\d{2}-\d{2}`)
+			dir, station, sequence := unitDemo(t, func(s string) string {
+				done := false
+				return first.ReplaceAllStringFunc(s, func(m string) string {
+					if done {
+						return m
+					}
+					done = true
+					return first.ReplaceAllString(m, "${1}"+c.due.Format("2006-01-02"))
+				})
+			})
+			srv, err := New(context.Background(), Options{StationPath: station, SequencePath: sequence, Out: filepath.Join(dir, "out"), Engineering: true})
+			if err != nil {
+				t.Fatal(err)
+			}
+			defer srv.Close()
+			cl := newClient(t, srv.Handler())
+			cl.signIn("B-1042", "Ada Quillfeather")
+			s := cl.state()
+			var cal *statusItem
+			for i := range s.Status {
+				if s.Status[i].Key == "calibration" {
+					cal = &s.Status[i]
+				}
+			}
+			if cal == nil || cal.State != c.state || !strings.Contains(cal.Title, c.due.Format("2006-01-02")) {
+				t.Fatalf("calibration status %+v; want %s naming %s", cal, c.state, c.due.Format("2006-01-02"))
+			}
+			if s.Phase == phaseLocked || s.Fault != nil {
+				t.Fatalf("phase %s, fault %+v: a calibration is no fault a note clears", s.Phase, s.Fault)
+			}
+			code, a := cl.post("/scan", url.Values{"serial": {"BRX-00001"}})
+			runs, _ := srv.shift.Ledger.Runs(context.Background(), "BRX-00001")
+			if c.state == "block" {
+				if code != http.StatusConflict || !strings.Contains(a.Error, "calibration expired") || len(runs) != 0 {
+					t.Fatalf("scan with an expired calibration: %d %+v, %d run(s); want 409 naming it and nothing run", code, a, len(runs))
+				}
+				return
+			}
+			if s := cl.settled(30 * time.Second); code != http.StatusOK || s.Verdict == nil || s.Verdict.Verdict != "PASS" {
+				t.Fatalf("scan with a calibration due soon: %d %+v, verdict %+v", code, a, s.Verdict)
+			}
+		})
+	}
+}
+
+// TestServedOverTLS: a console served over HTTPS marks its session cookie
+// Secure, and a page of its own (Origin https://…) signs in and runs.
+func TestServedOverTLS(t *testing.T) {
+	dir, station, sequence := unitDemo(t)
+	srv, err := New(context.Background(), Options{StationPath: station, SequencePath: sequence, Out: filepath.Join(dir, "out"), Engineering: true, TLS: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer srv.Close()
+	ts := httptest.NewTLSServer(srv.Handler())
+	defer ts.Close()
+	jar, _ := cookiejar.New(nil)
+	hc := ts.Client()
+	hc.Jar = jar
+	res, err := hc.Get(ts.URL + "/")
+	if err != nil {
+		t.Fatal(err)
+	}
+	res.Body.Close()
+	cookies := res.Cookies()
+	if len(cookies) == 0 || !cookies[0].Secure || !cookies[0].HttpOnly {
+		t.Fatalf("session cookie over HTTPS: %+v; want Secure and HttpOnly", cookies)
+	}
+	c := &client{t: t, base: ts.URL, http: hc}
+	c.page()
+	c.signIn("B-1042", "Ada Quillfeather")
+	if code, a := c.post("/scan", url.Values{"serial": {"BRX-00001"}}); code != http.StatusOK {
+		t.Fatalf("scan over HTTPS: %d %+v", code, a)
+	}
+	if s := c.settled(30 * time.Second); s.Verdict == nil || s.Verdict.Verdict != "PASS" {
+		t.Fatalf("verdict over HTTPS: %+v", s.Verdict)
+	}
+}
+
+// TestEventStreamEndsWithItsSession: an open event stream does not outlive
+// its session's sign-out (the page then reloads to the sign-in form).
+func TestEventStreamEndsWithItsSession(t *testing.T) {
+	dir, station, sequence := unitDemo(t)
+	srv, err := New(context.Background(), Options{StationPath: station, SequencePath: sequence, Out: filepath.Join(dir, "out"), Engineering: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer srv.Close()
+	c := newClient(t, srv.Handler())
+	c.signIn("B-1042", "Ada Quillfeather")
+	res, err := c.http.Get(c.base + "/events")
+	if err != nil || res.StatusCode != http.StatusOK {
+		t.Fatalf("GET /events: %v %v", res, err)
+	}
+	ended := make(chan struct{})
+	go func() {
+		io.Copy(io.Discard, res.Body)
+		res.Body.Close()
+		close(ended)
+	}()
+	if code, a := c.post("/signout", nil); code != http.StatusOK {
+		t.Fatalf("sign out: %d %+v", code, a)
+	}
+	select {
+	case <-ended:
+	case <-time.After(20 * time.Second):
+		t.Fatal("the event stream goes on 20 s after its session signed out")
+	}
+}
+
+// TestSessionTableIsBounded: pages loaded over and over (any page in the
+// station's browser can make it load the console) do not grow the session
+// table without end.
+func TestSessionTableIsBounded(t *testing.T) {
+	dir, station, sequence := unitDemo(t)
+	srv, err := New(context.Background(), Options{StationPath: station, SequencePath: sequence, Out: filepath.Join(dir, "out"), Engineering: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer srv.Close()
+	signed := newClient(t, srv.Handler())
+	signed.signIn("B-1042", "Ada Quillfeather")
+	h := srv.Handler()
+	for range maxSessions + 200 {
+		req := httptest.NewRequest("GET", "/", nil)
+		req.Host = "127.0.0.1"
+		h.ServeHTTP(httptest.NewRecorder(), req)
+	}
+	srv.sessions.mu.Lock()
+	n := len(srv.sessions.byID)
+	srv.sessions.mu.Unlock()
+	if n > maxSessions+1 {
+		t.Fatalf("%d sessions after %d page loads; want at most %d", n, maxSessions+200, maxSessions+1)
+	}
+	if s := signed.state(); s.Phase == "" {
+		t.Fatal("the signed-in session was dropped")
+	}
 }

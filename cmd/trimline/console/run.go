@@ -38,20 +38,12 @@ func (s *Server) scan(w http.ResponseWriter, r *http.Request, se *session) {
 	}
 	ctx := r.Context()
 	// The status is read again now: a shift can outlive a calibration, a
-	// release or the ledger's disk.
-	s.refreshStatus(ctx)
+	// release or the ledger's disk. A scan request that goes away meanwhile
+	// must not leave a false block behind.
+	s.refreshStatus(context.WithoutCancel(ctx))
+	s.publishState()
 	if msg := s.cannotStart(); msg != "" {
 		refuse(http.StatusConflict, msg)
-		return
-	}
-	n, err := sh.Issuer.Attempts(ctx, serial)
-	if err != nil {
-		refuse(http.StatusInternalServerError, "the ledger did not answer: "+err.Error())
-		return
-	}
-	max := sh.Sequence.MaxAttempts
-	if max > 0 && n >= max {
-		refuse(http.StatusConflict, fmt.Sprintf("%s has had %d measured runs, as many as this product allows: send it to rework. Nothing was run.", serial, n))
 		return
 	}
 	earlier, tested, err := sh.Ledger.LastMeasuredRun(ctx, serial, sh.Issuer.Engineering)
@@ -60,9 +52,9 @@ func (s *Server) scan(w http.ResponseWriter, r *http.Request, se *session) {
 		return
 	}
 	if tested && earlier.Verdict == sequencer.Review && earlier.Certificate != "" {
-		// A unit held for REVIEW waits for a reviewer's decision: a retest
-		// from the scan field would supersede it and take it out of the
-		// queue with nobody deciding.
+		// A unit held for REVIEW waits for a reviewer's decision (whatever
+		// its attempts): a retest from the scan field would supersede it and
+		// take it out of the queue with nobody deciding.
 		st, err := sh.Ledger.CertificateStatus(ctx, earlier.Certificate)
 		if err != nil {
 			refuse(http.StatusInternalServerError, "the ledger did not answer: "+err.Error())
@@ -72,6 +64,20 @@ func (s *Server) scan(w http.ResponseWriter, r *http.Request, se *session) {
 			refuse(http.StatusConflict, fmt.Sprintf("%s is held for review (certificate %s): put it on the review shelf; a reviewer accepts or rejects it. Nothing was run.", serial, earlier.Certificate))
 			return
 		}
+	}
+	n, err := sh.Issuer.Attempts(ctx, serial)
+	if err != nil {
+		refuse(http.StatusInternalServerError, "the ledger did not answer: "+err.Error())
+		return
+	}
+	max := sh.Sequence.MaxAttempts
+	if max > 0 && n >= max {
+		runs := "runs"
+		if n == 1 {
+			runs = "run"
+		}
+		refuse(http.StatusConflict, fmt.Sprintf("%s has had %d measured %s, as many as this product allows: send it to rework. Nothing was run.", serial, n, runs))
+		return
 	}
 	if tested && r.PostFormValue("retest") != "confirm" {
 		what := "run " + earlier.RunID
@@ -231,6 +237,9 @@ func (s *Server) finish(rec *sequencer.Record, cert string, wall time.Duration, 
 	s.refreshReview(ctx)
 	s.mu.Lock()
 	s.st.record(rec, cert, certURL, wall)
+	if rec.Simulated != nil {
+		s.st.Station.Simulated = true // the record says so: the screen does too
+	}
 	s.st.Verdict = v
 	s.st.Phase = phaseVerdict
 	if s.st.Unit != nil {

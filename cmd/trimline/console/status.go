@@ -47,9 +47,10 @@ func (s *Server) refreshStatus(ctx context.Context) {
 	today := time.Now().UTC().Truncate(24 * time.Hour)
 	var soonest time.Time
 	var expired, soon []string // "meter DMM-0203 (2026-12-12)"
-	for _, r := range st.Roles() {
-		in := st.Instruments[r]
-		if in.CalDue.IsZero() {
+	// The instruments this sequence uses, as the engine checks them.
+	for _, r := range seq.Requires {
+		in, ok := st.Instruments[r]
+		if !ok || in.CalDue.IsZero() {
 			continue
 		}
 		due := in.CalDue.Format("2006-01-02")
