@@ -272,19 +272,8 @@ func TestFaultLocksUntilCleared(t *testing.T) {
 	if testing.Short() {
 		t.Skip("runs units on the served bench in real time")
 	}
-	dir, station, sequence := unitDemo(t)
 	ctx := context.Background()
-	srv, err := New(ctx, Options{StationPath: station, SequencePath: sequence, Out: filepath.Join(dir, "out"), Engineering: true, Bench: "tcp"})
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer srv.Close()
-	c := newClient(t, srv.Handler())
-	c.signIn("B-1042", "Ada Quillfeather")
-	if err := srv.Bench().SetFault("meter", serve.Fault{NoReply: true}); err != nil {
-		t.Fatal(err)
-	}
-	c.post("/scan", url.Values{"serial": {"BRX-00003"}})
+	srv, c := faultedShift(t)
 	s := c.settled(60 * time.Second)
 	if s.Phase != phaseLocked || s.Fault == nil || s.Fault.Said == "" || s.Verdict.Verdict != "FAULT" {
 		t.Fatalf("after a silent meter: phase %s, fault %+v", s.Phase, s.Fault)
@@ -318,6 +307,25 @@ func TestFaultLocksUntilCleared(t *testing.T) {
 	if s.Counters.Faults != 1 || s.Counters.Passed != 1 {
 		t.Fatalf("counters %+v", s.Counters)
 	}
+}
+
+// faultedShift starts an engineering shift on the served bench, signs Ada
+// in, silences the meter and scans BRX-00003, which faults.
+func faultedShift(t *testing.T) (*Server, *client) {
+	t.Helper()
+	dir, station, sequence := unitDemo(t)
+	srv, err := New(context.Background(), Options{StationPath: station, SequencePath: sequence, Out: filepath.Join(dir, "out"), Engineering: true, Bench: "tcp"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	t.Cleanup(func() { srv.Close() })
+	c := newClient(t, srv.Handler())
+	c.signIn("B-1042", "Ada Quillfeather")
+	if err := srv.Bench().SetFault("meter", serve.Fault{NoReply: true}); err != nil {
+		t.Fatal(err)
+	}
+	c.post("/scan", url.Values{"serial": {"BRX-00003"}})
+	return srv, c
 }
 
 // releaseFiles signs the demo sequence and limit files as released by a demo
@@ -455,17 +463,8 @@ func TestFaultWhileReopening(t *testing.T) {
 	if testing.Short() {
 		t.Skip("runs units on the served bench in real time")
 	}
-	dir, station, sequence := unitDemo(t)
 	ctx := context.Background()
-	srv, err := New(ctx, Options{StationPath: station, SequencePath: sequence, Out: filepath.Join(dir, "out"), Engineering: true, Bench: "tcp"})
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer srv.Close()
-	c := newClient(t, srv.Handler())
-	c.signIn("B-1042", "Ada Quillfeather")
-	srv.Bench().SetFault("meter", serve.Fault{NoReply: true})
-	c.post("/scan", url.Values{"serial": {"BRX-00003"}})
+	srv, c := faultedShift(t)
 	if s := c.settled(60 * time.Second); s.Phase != phaseLocked {
 		t.Fatalf("after a silent meter: phase %s", s.Phase)
 	}
