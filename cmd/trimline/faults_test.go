@@ -153,7 +153,7 @@ func TestBatchStopsAtAStationFault(t *testing.T) {
 	if code != exitStation {
 		t.Fatalf("exit %d, want 3\n%s\n%s", code, out, errOut)
 	}
-	if !strings.Contains(errOut, "2 unit(s) not run: BRX-00002 BRX-00003") {
+	if !strings.Contains(errOut, "stopped at the station fault of BRX-00001 (fix it, then run these): 2 unit(s) not run: BRX-00002 BRX-00003") {
 		t.Errorf("stderr does not list the units not run:\n%s", errOut)
 	}
 	led, err := ledger.Open(context.Background(), filepath.Join(dir, "ledger.db"))

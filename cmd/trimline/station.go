@@ -79,7 +79,11 @@ func runBatch(ctx context.Context, e *env, b batch) (*sequencer.Tally, error) {
 	if len(t.Skipped) > 0 {
 		log.Warn().Strs("serials", t.Skipped).Msg("batch stopped: these units were not run")
 		if !b.json {
-			fmt.Fprintf(e.stderr, "stopped: %d unit(s) not run: %s\n", len(t.Skipped), strings.Join(t.Skipped, " "))
+			why := "stopped"
+			if n := len(t.Records); n > 0 && t.Records[n-1].Verdict == sequencer.Fault {
+				why = "stopped at the station fault of " + t.Records[n-1].Serial + " (fix it, then run these)"
+			}
+			fmt.Fprintf(e.stderr, "%s: %d unit(s) not run: %s\n", why, len(t.Skipped), strings.Join(t.Skipped, " "))
 		}
 	}
 	return t, err
