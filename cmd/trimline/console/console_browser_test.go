@@ -485,6 +485,7 @@ func TestConsoleShiftInBrowser(t *testing.T) {
 			}
 		}
 		p.shot("running")
+		p.checkTargets("running")
 		firstCert = p.verdict("PASS", 60*time.Second)
 		p.shot("pass")
 		p.checkTargets("pass")

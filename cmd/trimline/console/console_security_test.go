@@ -199,7 +199,13 @@ func TestConsoleRefusesRequestsThatDoNotComeFromASignedInPage(t *testing.T) {
 	}
 
 	// The real sign-in: a session cookie that scripts cannot read and other sites
-	// do not send.
+	// do not send, under a new id (a session id planted before sign-in is
+	// worth nothing after it).
+	u, _ := url.Parse(hs.URL)
+	var before string
+	for _, c := range w.c.Jar.Cookies(u) {
+		before = c.Value
+	}
 	code, hdr, body := w.do(http.MethodPost, "/signin", url.Values{"badge": {opID}, "csrf": {token}}, map[string]string{"Origin": hs.URL})
 	if code >= 400 {
 		t.Fatalf("POST /signin as %s with token and Origin: %d\n%.600s", opID, code, body)
@@ -214,6 +220,8 @@ func TestConsoleRefusesRequestsThatDoNotComeFromASignedInPage(t *testing.T) {
 		t.Errorf("sign-in set no HttpOnly, SameSite=Strict cookie: %q", hdr.Values("Set-Cookie"))
 	} else if len(session.Value) < 43 { // 32 random bytes, base64 (or 64 hex digits)
 		t.Errorf("session id %q is shorter than 32 random bytes encoded", session.Value)
+	} else if before == "" || session.Value == before {
+		t.Errorf("the session id before sign-in %q and after it %q: want a new one", before, session.Value)
 	}
 	if got := w.page(); got != "station" {
 		t.Fatalf("after signing in the console shows the %s screen", got)
@@ -263,7 +271,7 @@ func TestConsoleRefusesRequestsThatDoNotComeFromASignedInPage(t *testing.T) {
 	// A page of another site whose name was made to resolve to 127.0.0.1 (DNS
 	// rebinding) sends its own name as Host, and its own Origin: a console on
 	// loopback answers only to a loopback name.
-	u, _ := url.Parse(hs.URL)
+	u, _ = url.Parse(hs.URL)
 	rebound := "http://station.evil.example:" + u.Port()
 	if code, _, _ := w.do(http.MethodGet, "/state", nil, map[string]string{"Host": "station.evil.example:" + u.Port()}); !refused(code) {
 		t.Errorf("GET /state addressed to another name: %d, want 403", code)

@@ -693,3 +693,18 @@ func TestSessionTableIsBounded(t *testing.T) {
 		t.Fatal("the signed-in session was dropped")
 	}
 }
+
+// TestPanicIsAPlain500: a handler that panics answers a plain 500, never a
+// stack trace.
+func TestPanicIsAPlain500(t *testing.T) {
+	s := &Server{loopback: true}
+	h := s.guard(http.HandlerFunc(func(http.ResponseWriter, *http.Request) { panic("boom at handlers.go:1") }))
+	req := httptest.NewRequest("GET", "/", nil)
+	req.Host = "127.0.0.1"
+	rec := httptest.NewRecorder()
+	h.ServeHTTP(rec, req)
+	body := rec.Body.String()
+	if rec.Code != http.StatusInternalServerError || strings.Contains(body, "boom") || strings.Contains(body, "goroutine") || strings.Contains(body, ".go:") {
+		t.Fatalf("a panic answered %d %q; want a plain 500", rec.Code, body)
+	}
+}
