@@ -51,7 +51,7 @@ func trimline() *command {
 		UsageLine: "trimline <command> [flags] [args]",
 		Short:     "end-of-line gain and offset trim station",
 		Commands: []*command{
-			newAuditCmd(), newBenchCmd(), newCheckCmd(), newConsoleCmd(), newDemoCmd(), newExportCmd(),
+			newAuditCmd(), newBenchCmd(), newChartCmd(), newCheckCmd(), newConsoleCmd(), newDemoCmd(), newExportCmd(),
 			newFitCmd(), newImportCmd(), newKeysCmd(), newLimitsCmd(), newReprintCmd(), newRunCmd(),
 			newReviewCmd(),
 		},

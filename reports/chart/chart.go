@@ -1,0 +1,357 @@
+// Package chart draws control charts (sequencer/spc) as a PDF: one A4
+// landscape page with a panel per chart, its centre line and limits drawn and
+// labelled at the right edge (labels pushed apart so they never overlap), the
+// plotted statistic joined point to point, and every point that signals marked
+// in red and listed under its panel with the rule it broke.
+//
+// The drawing goes through reports/internal/pdfdoc, so the same charts and
+// options give the same bytes. WritePDF is safe for concurrent use.
+package chart
+
+import (
+	"bytes"
+	"errors"
+	"fmt"
+	"io"
+	"math"
+	"strconv"
+	"strings"
+	"time"
+
+	"github.com/jung-kurt/gofpdf"
+
+	"trimline/reports/internal/atomicfile"
+	"trimline/reports/internal/pdfdoc"
+	"trimline/sequencer/spc"
+)
+
+// Options say what the page is about.
+type Options struct {
+	Title string    // the page title, e.g. "Individuals and moving-range chart"
+	Lines []string  // short lines under the title: the file, the column, the parameters
+	Stamp time.Time // creation date written into the PDF; zero: the Unix epoch
+}
+
+// Page geometry of A4 landscape, in millimetres.
+const (
+	pageW  = 297.0
+	pageH  = 210.0
+	margin = 14.0
+	labelW = 34.0 // room right of a plot for the limit labels
+	axisW  = 18.0 // room left of a plot for the tick labels
+)
+
+// Colours of the lines.
+var (
+	seriesColor = pdfdoc.Color{R: 31, G: 78, B: 140}
+	lowerColor  = pdfdoc.Color{R: 120, G: 64, B: 150}
+	centreColor = pdfdoc.Color{R: 40, G: 120, B: 70}
+)
+
+// WritePDF draws charts (one panel each, top to bottom, at most 3) on one A4
+// landscape page and writes the PDF to w.
+func WritePDF(w io.Writer, charts []spc.Chart, o Options) error {
+	if len(charts) == 0 || len(charts) > 3 {
+		return fmt.Errorf("chart: expected 1 to 3 charts, got %d", len(charts))
+	}
+	for _, c := range charts {
+		if len(c.Points) == 0 {
+			return errNoPoints
+		}
+	}
+	pdf := pdfdoc.New(o.Stamp, margin, margin, margin)
+	pdf.AddPageFormat("L", gofpdf.SizeType{Wd: pdfdoc.PageW, Ht: pdfdoc.PageH})
+	d := &pdfdoc.Doc{PDF: pdf, Left: margin, Width: pageW - 2*margin, Y: margin}
+
+	title := pdfdoc.Style{Family: pdfdoc.Sans, Weight: "B", Size: 14, Color: pdfdoc.Ink}
+	d.Use(title)
+	pdf.Text(d.Left, d.Y+title.LineH()*0.75, o.Title)
+	d.Y += title.LineH() + 1
+	d.Use(pdfdoc.Body.With(pdfdoc.Muted))
+	for _, l := range o.Lines {
+		for _, wl := range d.Wrap(l, d.Width, pdfdoc.Body) {
+			pdf.Text(d.Left, d.Y+pdfdoc.Body.LineH()*0.75, wl)
+			d.Y += pdfdoc.Body.LineH()
+		}
+	}
+	d.Y += 3
+
+	// Each panel gets an equal share of what is left: a title line, the plot,
+	// the x-axis labels and its list of signals.
+	signalsH := 2*pdfdoc.Small.LineH() + 1
+	share := (pageH - margin - d.Y) / float64(len(charts))
+	for _, c := range charts {
+		top := d.Y
+		plotTop := top + pdfdoc.Bold.LineH() + 1
+		plotH := share - (plotTop - top) - 8 - signalsH
+		drawPanel(d, c, plotTop, plotH)
+		signalText(d, c, plotTop+plotH+7, signalsH)
+		d.Use(pdfdoc.Bold)
+		pdf.Text(d.Left, top+pdfdoc.Bold.LineH()*0.75, panelTitle(c))
+		d.Y = top + share
+	}
+	if err := pdf.Error(); err != nil {
+		return fmt.Errorf("chart: %w", err)
+	}
+	return pdf.Output(w)
+}
+
+// panelTitle names a chart and the sigma its limits use.
+func panelTitle(c spc.Chart) string {
+	name := map[string]string{
+		"individuals":  "Individuals (I)",
+		"moving_range": "Moving range (MR)",
+		"ewma":         "EWMA",
+		"cusum":        "Tabular CUSUM: S_hi above zero, −S_lo below",
+	}[c.Kind]
+	if name == "" {
+		name = c.Kind
+	}
+	if c.Kind == "cusum" { // its limits are h, not a multiple of sigma
+		return fmt.Sprintf("%s   (%d points)", name, len(c.Points))
+	}
+	return fmt.Sprintf("%s   (%d points, sigma %s)", name, len(c.Points), num(c.Sigma))
+}
+
+// series is one line of a panel: a value per point (NaN: none there).
+type series struct {
+	ys    []float64
+	color pdfdoc.Color
+}
+
+// panelSeries are the lines a chart plots: the statistic, and for a CUSUM
+// also −S_lo.
+func panelSeries(c spc.Chart) []series {
+	s := series{ys: make([]float64, len(c.Points)), color: seriesColor}
+	for i, p := range c.Points {
+		s.ys[i] = p.Statistic
+	}
+	out := []series{s}
+	if c.Kind == "cusum" {
+		lo := series{ys: make([]float64, len(c.Points)), color: lowerColor}
+		for i, p := range c.Points {
+			lo.ys[i] = -p.Lower
+		}
+		out = append(out, lo)
+	}
+	return out
+}
+
+// perPointLimits reports whether any point's limits differ from the chart's
+// steady-state ones (the early points of an EWMA).
+func perPointLimits(c spc.Chart) bool {
+	for _, p := range c.Points {
+		if p.UCL != c.UCL || p.LCL != c.LCL {
+			return true
+		}
+	}
+	return false
+}
+
+// drawPanel draws one chart's plot with its top edge at y and height h.
+func drawPanel(d *pdfdoc.Doc, c spc.Chart, y, h float64) {
+	pdf := d.PDF
+	x := d.Left + axisW
+	w := d.Width - axisW - labelW
+	n := len(c.Points)
+	// The moving-range chart's first point is the second observation.
+	first := 1
+	if c.Kind == "moving_range" {
+		first = 2
+	}
+	ser := panelSeries(c)
+	lo, hi := math.Min(c.LCL, c.Center), math.Max(c.UCL, c.Center)
+	for _, s := range ser {
+		for _, v := range s.ys {
+			lo, hi = math.Min(lo, v), math.Max(hi, v)
+		}
+	}
+	for _, p := range c.Points {
+		lo, hi = math.Min(lo, p.LCL), math.Max(hi, p.UCL)
+	}
+	ya := pdfdoc.PaddedAxis(lo, hi, 0.08, 6)
+	py := func(v float64) float64 { return y + h - ya.Pos(v, h) }
+	xlo, xhi := float64(first)-0.5, float64(first+n-1)+0.5
+	px := func(i int) float64 { return x + (float64(first+i)-xlo)/(xhi-xlo)*w }
+
+	// Grid and y tick labels.
+	d.Use(pdfdoc.Small)
+	for _, t := range ya.Ticks {
+		d.HLine(x, py(t), w, pdfdoc.Grid, 0.2)
+		d.TextRight(x-1.5, py(t)+1, ya.Label(t))
+	}
+	// x ticks: whole point numbers, about 20 of them.
+	step := math.Max(1, pdfdoc.NiceStep(xhi-xlo, 20))
+	step = math.Ceil(step)
+	for k := math.Ceil(xlo/step) * step; k <= xhi; k += step {
+		if k < float64(first) {
+			continue
+		}
+		xx := x + (k-xlo)/(xhi-xlo)*w
+		d.Stroke(pdfdoc.Rule)
+		pdf.SetLineWidth(0.2)
+		pdf.Line(xx, y+h, xx, y+h+1.2)
+		d.TextCentre(xx, y+h+4, strconv.Itoa(int(k)))
+	}
+	d.Frame(x, y, w, h, pdfdoc.Rule, 0.25)
+
+	// Centre line and steady-state limits, each labelled at the right edge.
+	type level struct {
+		v     float64
+		name  string
+		color pdfdoc.Color
+		dash  bool
+	}
+	levels := []level{
+		{c.UCL, "UCL", pdfdoc.Fail, true},
+		{c.Center, "CL", centreColor, false},
+		{c.LCL, "LCL", pdfdoc.Fail, true},
+	}
+	for _, l := range levels {
+		d.Stroke(l.color)
+		pdf.SetLineWidth(0.35)
+		if l.dash {
+			pdf.SetDashPattern([]float64{2, 1.2}, 0)
+		}
+		pdf.Line(x, py(l.v), x+w, py(l.v))
+		pdf.SetDashPattern(nil, 0)
+	}
+	want := make([]float64, len(levels))
+	for i, l := range levels {
+		want[i] = py(l.v)
+	}
+	at := spread(want, pdfdoc.Small.LineH()+0.4, y, y+h)
+	d.Use(pdfdoc.Small.With(pdfdoc.Ink))
+	for i, l := range levels {
+		pdf.Text(x+w+2, at[i]+1, l.name+" "+num(l.v))
+	}
+
+	// Exact per-point limits, where they differ from the steady state.
+	if perPointLimits(c) {
+		d.Stroke(pdfdoc.Fail)
+		pdf.SetLineWidth(0.25)
+		for _, lim := range []func(spc.Point) float64{
+			func(p spc.Point) float64 { return p.UCL },
+			func(p spc.Point) float64 { return p.LCL },
+		} {
+			for i := range c.Points {
+				l, r := px(i)-w/(xhi-xlo)/2, px(i)+w/(xhi-xlo)/2
+				pdf.Line(l, py(lim(c.Points[i])), r, py(lim(c.Points[i])))
+				if i > 0 {
+					pdf.Line(l, py(lim(c.Points[i-1])), l, py(lim(c.Points[i])))
+				}
+			}
+		}
+	}
+
+	// The plotted lines, then the points; signalling points in red.
+	signalled := make(map[int]bool, len(c.Signals))
+	for _, s := range c.Signals {
+		signalled[s.Index-1] = true
+	}
+	dot := math.Min(0.7, 0.35*w/float64(max(n, 1)))
+	for si, s := range ser {
+		d.Stroke(s.color)
+		pdf.SetLineWidth(0.3)
+		for i := 1; i < n; i++ {
+			pdf.Line(px(i-1), py(s.ys[i-1]), px(i), py(s.ys[i]))
+		}
+		for i, v := range s.ys {
+			col := s.color
+			r := dot
+			if signalled[i] && (si == 0 || isLowSignal(c, i)) {
+				col, r = pdfdoc.Fail, dot*1.7
+			}
+			d.Fill(col)
+			pdf.Circle(px(i), py(v), r, "F")
+		}
+	}
+}
+
+// isLowSignal reports whether point i (0-based) of a CUSUM signals on S_lo.
+func isLowSignal(c spc.Chart, i int) bool {
+	for _, s := range c.Signals {
+		if s.Index-1 == i && s.Rule == "cusum_low" {
+			return true
+		}
+	}
+	return false
+}
+
+// spread moves label positions want (any order) apart until neighbours are
+// at least gap apart, keeping them within [lo, hi] where there is room, and
+// returns the positions in the order of want.
+func spread(want []float64, gap, lo, hi float64) []float64 {
+	order := make([]int, len(want))
+	for i := range order {
+		order[i] = i
+	}
+	// Insertion sort by position: three labels.
+	for i := 1; i < len(order); i++ {
+		for j := i; j > 0 && want[order[j]] < want[order[j-1]]; j-- {
+			order[j], order[j-1] = order[j-1], order[j]
+		}
+	}
+	at := make([]float64, len(want))
+	for i, k := range order {
+		at[k] = want[k]
+		if i > 0 {
+			at[k] = math.Max(at[k], at[order[i-1]]+gap)
+		}
+	}
+	// Pushed past the bottom: shift the stack up as far as the top allows.
+	if last := at[order[len(order)-1]]; last > hi {
+		shift := math.Min(last-hi, math.Max(0, at[order[0]]-lo))
+		for _, k := range order {
+			at[k] -= shift
+		}
+	}
+	return at
+}
+
+// signalText lists a chart's signals in at most two lines of h mm at y.
+func signalText(d *pdfdoc.Doc, c spc.Chart, y, h float64) {
+	st := pdfdoc.Small
+	var s string
+	if len(c.Signals) == 0 {
+		s = "Signals: none."
+	} else {
+		st = st.With(pdfdoc.Fail)
+		parts := make([]string, len(c.Signals))
+		for i, sg := range c.Signals {
+			parts[i] = fmt.Sprintf("%d %s", sg.Index, sg.Rule)
+		}
+		s = fmt.Sprintf("Signals (%d; point: rule): %s.", len(c.Signals), strings.Join(parts, ", "))
+	}
+	lines := d.Wrap(s, d.Width, st)
+	if len(lines) > 2 {
+		const more = " … (all of them in the text and --json output)"
+		lines = lines[:2]
+		lines[1] = strings.TrimSuffix(d.Fit(lines[1], d.Width-d.TextWidth(more, st)), "…") + more
+	}
+	d.Use(st)
+	for i, l := range lines {
+		d.PDF.Text(d.Left, y+float64(i)*st.LineH()+st.LineH()*0.75, l)
+	}
+}
+
+// num formats a chart number for a label: 5 significant digits, a real minus.
+func num(v float64) string {
+	if math.IsNaN(v) || math.IsInf(v, 0) {
+		return "—"
+	}
+	return pdfdoc.Minus(strconv.FormatFloat(v, 'g', 5, 64))
+}
+
+// errNoPoints is returned for a chart without points.
+var errNoPoints = errors.New("chart: a chart without points")
+
+// WriteFile draws charts as WritePDF does and writes the PDF to path
+// atomically (a reader never sees half a file), mode 0644.
+func WriteFile(path string, charts []spc.Chart, o Options) error {
+	var b bytes.Buffer
+	if err := WritePDF(&b, charts, o); err != nil {
+		return err
+	}
+	return atomicfile.Write(path, b.Bytes(), 0o644)
+}
