@@ -34,8 +34,8 @@ T ± L·σ·√(λ/(2−λ)·[1−(1−λ)^{2t}]) and the steady-state ones (e-H
 T defaults to the mean, σ to MR̄/1.128.
 
 --kind cusum --target T --k K --h H: the tabular CUSUM (e-Handbook §6.3.2.3),
-S_hi and S_lo with k and h in the data's units; a point signals where S_hi or
-S_lo exceeds h.
+S_hi and S_lo (zero or negative) with k and h in the data's units; a point
+signals where S_hi exceeds h or S_lo falls below −h.
 
 Prints a table of the points (value, plotted statistic, its limits, the rules it
 breaks) and a summary. --json writes one object instead: center, ucl, lcl (the
@@ -192,7 +192,8 @@ func chartJSON(c spc.Chart) map[string]any {
 	}
 }
 
-// signalsAt maps a 1-based point index to the rules it breaks, joined.
+// signalsAt maps a signal's 1-based index (the observation's, for a
+// moving-range chart too) to the rules it breaks, joined.
 func signalsAt(c spc.Chart) map[int]string {
 	m := make(map[int]string, len(c.Signals))
 	for _, s := range c.Signals {
@@ -219,13 +220,13 @@ func writeChartText(w io.Writer, kind, header, params string, xs []float64, char
 				mr = fmt.Sprintf("%.6g", charts[1].Points[i-1].Statistic)
 			}
 			s := sig[i+1]
-			if i > 0 && mrSig[i] != "" {
-				s = strings.TrimPrefix(s+", MR "+mrSig[i], ", ")
+			if mrSig[i+1] != "" { // a moving range's signal is at the later value
+				s = strings.TrimPrefix(s+", MR "+mrSig[i+1], ", ")
 			}
 			row(w, "%5d %14.6g %14s %14.6g %14.6g  %s", i+1, p.Value, mr, p.LCL, p.UCL, s)
 		}
 	case "cusum":
-		fmt.Fprintf(w, "%5s %14s %14s %14s %14s %14s  %s\n", "#", "value", "S_hi", "S_lo", "−h", "h", "signal")
+		fmt.Fprintf(w, "%5s %14s %14s %14s %14s %14s  %s\n", "#", "value", "S_hi", "S_lo", "LCL (−h)", "UCL (h)", "signal")
 		for i, p := range c.Points {
 			row(w, "%5d %14.6g %14.6g %14.6g %14.6g %14.6g  %s", i+1, p.Value, p.Statistic, p.Lower, p.LCL, p.UCL, sig[i+1])
 		}
@@ -254,11 +255,7 @@ func writeChartText(w io.Writer, kind, header, params string, xs []float64, char
 	fmt.Fprintf(w, "signals: %d\n", n)
 	for _, ch := range charts {
 		for _, s := range ch.Signals {
-			idx := s.Index
-			if ch.Kind == "moving_range" {
-				idx++ // the moving range of points idx−1 and idx
-			}
-			fmt.Fprintf(w, "  point %d: %s (%s)\n", idx, s.Rule, ch.Kind)
+			fmt.Fprintf(w, "  point %d: %s (%s)\n", s.Index, s.Rule, ch.Kind)
 		}
 	}
 }

@@ -102,7 +102,7 @@ func panelTitle(c spc.Chart) string {
 		"individuals":  "Individuals (I)",
 		"moving_range": "Moving range (MR)",
 		"ewma":         "EWMA",
-		"cusum":        "Tabular CUSUM: S_hi above zero, −S_lo below",
+		"cusum":        "Tabular CUSUM: S_hi above zero, S_lo below",
 	}[c.Kind]
 	if name == "" {
 		name = c.Kind
@@ -120,7 +120,7 @@ type series struct {
 }
 
 // panelSeries are the lines a chart plots: the statistic, and for a CUSUM
-// also −S_lo.
+// also S_lo (zero or negative).
 func panelSeries(c spc.Chart) []series {
 	s := series{ys: make([]float64, len(c.Points)), color: seriesColor}
 	for i, p := range c.Points {
@@ -130,7 +130,7 @@ func panelSeries(c spc.Chart) []series {
 	if c.Kind == "cusum" {
 		lo := series{ys: make([]float64, len(c.Points)), color: lowerColor}
 		for i, p := range c.Points {
-			lo.ys[i] = -p.Lower
+			lo.ys[i] = p.Lower // S_lo, zero or negative
 		}
 		out = append(out, lo)
 	}
@@ -245,9 +245,11 @@ func drawPanel(d *pdfdoc.Doc, c spc.Chart, y, h float64) {
 	}
 
 	// The plotted lines, then the points; signalling points in red.
+	// A signal's Index counts observations from 1; the moving-range chart's
+	// point i is observation i+2 (spc.IMR).
 	signalled := make(map[int]bool, len(c.Signals))
 	for _, s := range c.Signals {
-		signalled[s.Index-1] = true
+		signalled[s.Index-first] = true
 	}
 	dot := math.Min(0.7, 0.35*w/float64(max(n, 1)))
 	for si, s := range ser {
@@ -271,7 +273,7 @@ func drawPanel(d *pdfdoc.Doc, c spc.Chart, y, h float64) {
 // isLowSignal reports whether point i (0-based) of a CUSUM signals on S_lo.
 func isLowSignal(c spc.Chart, i int) bool {
 	for _, s := range c.Signals {
-		if s.Index-1 == i && s.Rule == "cusum_low" {
+		if s.Index-1 == i && s.Rule == spc.RuleCUSUMLow {
 			return true
 		}
 	}
