@@ -16,7 +16,7 @@ import (
 // hundreds of points, a year's log tens of thousands.
 const maxChartRows = 100_000
 
-// readColumn reads one numeric column of a CSV table with a header row from r:
+// readColumn reads one numeric column of a CSV table from r:
 // the column headed column, or, when column is "", the first column whose
 // first data row holds a number. It returns the values and the header of the
 // column read. name is used only in error messages.
@@ -24,6 +24,8 @@ const maxChartRows = 100_000
 // Format: the separator is ';' when the first line that is not blank or a
 // '#' comment holds one, else ',' when it holds one, else a tab; blank lines
 // and '#' comments are skipped; a leading UTF-8 byte-order mark is ignored.
+// The first row is a header when none of its fields is a number (as trimline
+// fit judges it); without one the columns are named "column 1", "column 2", ….
 // Other columns may hold anything (a serial, a date); every cell of the
 // column read must be a finite number.
 //
@@ -63,8 +65,15 @@ func readColumn(name string, r io.Reader, column string) (xs []float64, header s
 		}
 		if names == nil {
 			names = make([]string, len(rec))
+			hasHeader := true // no field of a header is a number, as trimline fit judges
 			for i, s := range rec {
 				names[i] = strings.TrimSpace(s)
+				if _, perr := strconv.ParseFloat(names[i], 64); perr == nil || errors.Is(perr, strconv.ErrRange) {
+					hasHeader = false
+				}
+			}
+			if !hasHeader {
+				clear(names)
 			}
 			if column != "" {
 				for i, s := range names {
@@ -75,10 +84,15 @@ func readColumn(name string, r io.Reader, column string) (xs []float64, header s
 				}
 				if idx < 0 {
 					line, _ := cr.FieldPos(0)
+					if !hasHeader {
+						return fail(line, 1, "no column headed %q: the first row holds numbers, not a header", column)
+					}
 					return fail(line, 1, "no column headed %q: expected one of %s", column, quoteList(names))
 				}
 			}
-			continue
+			if hasHeader {
+				continue
+			}
 		}
 		line, _ := cr.FieldPos(0)
 		if idx < 0 { // the first data row picks the first numeric column
@@ -113,9 +127,6 @@ func readColumn(name string, r io.Reader, column string) (xs []float64, header s
 			return fail(l, 1, "expected at most %d data rows", maxChartRows)
 		}
 		xs = append(xs, v)
-	}
-	if names == nil {
-		return fail(0, 0, "no header row: expected a header row and data rows")
 	}
 	if len(xs) == 0 {
 		return fail(0, 0, "no data rows")

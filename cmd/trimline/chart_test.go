@@ -248,3 +248,25 @@ func TestChartPDF(t *testing.T) {
 // within reports whether got is within tol of want (an absolute tolerance:
 // the published values have a fixed number of decimals).
 func within(got, want, tol float64) bool { return math.Abs(got-want) <= tol }
+
+// The column read: by header with semicolons, or, in a table without a
+// header (judged as trimline fit judges it), the first numeric column.
+func TestChartColumns(t *testing.T) {
+	semi := writeChartCSV(t, "semi.csv", "# a comment\nserial; gain_ppm; offset_uV", "A1; 10; 1", "A2; 12; 3", "A3; 11; 2")
+	code, out, errOut := runCLI(t, "chart", "--column", "offset_uV", "--json", semi)
+	if code != 0 {
+		t.Fatalf("exit %d: %s", code, errOut)
+	}
+	c := decodeChart(t, out)
+	if c.Column != "offset_uV" || len(c.Points) != 3 || c.Points[1].Value != 3 {
+		t.Errorf("--column offset_uV: got %+v", c)
+	}
+	bare := writeChartCSV(t, "bare.csv", "10", "12", "11")
+	code, out, errOut = runCLI(t, "chart", "--json", bare)
+	if code != 0 {
+		t.Fatalf("exit %d: %s", code, errOut)
+	}
+	if c := decodeChart(t, out); c.Column != "column 1" || len(c.Points) != 3 || c.Points[0].Value != 10 {
+		t.Errorf("no header: got %+v, want 3 points from 10", c)
+	}
+}
