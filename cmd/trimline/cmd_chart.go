@@ -50,7 +50,7 @@ index, rule). --pdf FILE also draws the chart on an A4 landscape page.`,
 	c.Flag.Var(&target, "target", "target `T` (EWMA: default the mean; CUSUM: required)")
 	c.Flag.Var(&sigma, "sigma", "EWMA process `S`D (default MR̄/1.128)")
 	c.Flag.Var(&k, "k", "CUSUM reference value `K`, in the data's units")
-	c.Flag.Var(&h, "h", "CUSUM decision interval `H`, in the data's units")
+	c.Flag.Var(&h, "h", "CUSUM decision interval `H`, in the data's units (written --h: -h alone asks for this help)")
 	asJSON := jsonFlag(c, "the chart (one object)")
 	pdfPath := c.Flag.String("pdf", "", "also draw the chart into this PDF `file`")
 	c.Run = func(ctx context.Context, e *env, args []string) error {

@@ -138,6 +138,12 @@ func (c *command) run(ctx context.Context, e *env, args []string) error {
 		}
 		return usagef("unknown subcommand %q (%s)", args[0], strings.Join(names, ", "))
 	}
+	// A command with a flag named h (chart's CUSUM decision interval) still
+	// answers -h with its help: its flag is written --h.
+	if c.Flag.Lookup("h") != nil && slices.Contains(args, "-h") {
+		c.usage(e.stdout)
+		return nil
+	}
 	pos, err := parseInterleaved(&c.Flag, args)
 	if errors.Is(err, flag.ErrHelp) {
 		c.usage(e.stdout)
