@@ -256,7 +256,8 @@ func CUSUM(xs []float64, target, k, h float64) (Chart, error) {
 // on neither side. A signal is reported at a point that lies beyond the
 // rule's line itself and completes the pattern (at the start of the series
 // the first points count as a shorter window, so two points beyond 2σ
-// signal at the second), once per rule and point, in order of Index then
+// signal at the second: a choice of this package, as is "strictly"), once
+// per rule and point, in order of Index then
 // rule number. Every point of a longer run signals rule 4 again. A sigma
 // that is not finite and > 0 gives no signals.
 func WesternElectric(xs []float64, center, sigma float64) []Signal {

@@ -55,7 +55,7 @@ func TestIMRHandbookExample(t *testing.T) {
 	near(t, "MR 4", mr.Points[3].Value, 3.5, 1e-12)
 	near(t, "I 5", ind.Points[4].Statistic, 47.8, 0)
 	near(t, "point UCL", ind.Points[9].UCL, 55.8041, 5e-5)
-	// By hand from the limits above: σ = 1.6647, so the 1σ band is
+	// Hand-worked from the limits above: σ = 1.6647, so the 1σ band is
 	// 49.145 … 52.475 and the 2σ band 47.48 … 54.14; no point is beyond 2σ,
 	// only 52.6 and 53.6 of the last five lie above 1σ, and no run of eight
 	// stays on one side of 50.81: no Western Electric rule fires.
@@ -65,7 +65,7 @@ func TestIMRHandbookExample(t *testing.T) {
 }
 
 func TestIMRMovingRangeSignal(t *testing.T) {
-	// By hand: moving ranges eight times 1, then 9: MR̄ = 17/9 = 1.8889,
+	// Hand-worked: moving ranges eight times 1, then 9: MR̄ = 17/9 = 1.8889,
 	// MR UCL = 3.267·17/9 = 6.171 (e-Handbook §6.3.2.2 formula) < 9; the
 	// individuals chart has x̄ = 2.3, σ = 1.6745, UCL = 7.32 < 10, and
 	// points 1…9 all lie below x̄, so rule 4 fires at 8 and 9.
@@ -97,7 +97,7 @@ func TestCUSUMHandbookExample(t *testing.T) {
 	}
 	near(t, "S_hi(14)", c.Points[13].Statistic, 4.94, 0.005)
 	near(t, "S_hi(20)", c.Points[19].Statistic, 19.04, 0.005)
-	// By hand from the §6.3.2.3 recursion: S_hi(13) = 3.325 − 0.3175 =
+	// Hand-worked from the §6.3.2.3 recursion: S_hi(13) = 3.325 − 0.3175 =
 	// 3.0075 < h, so 13 does not signal; S_hi rises to group 20 and is never
 	// reset, so groups 14…20 all signal high. The e-Handbook's low sum
 	// max(0, S_lo + 325 − k − x) reaches 0.715 at group 8 (0.5575 at 7 plus
@@ -118,7 +118,7 @@ func TestCUSUMHandbookExample(t *testing.T) {
 }
 
 func TestCUSUMLow(t *testing.T) {
-	// By hand, target 10, k = 0.5, h = 2: deviations −1.5 add −1 each to
+	// Hand-worked, target 10, k = 0.5, h = 2: deviations −1.5 add −1 each to
 	// S_lo: −1, −2, −3, so the third value crosses −h.
 	c, err := spc.CUSUM([]float64{8.5, 8.5, 8.5}, 10, 0.5, 2)
 	if err != nil {
@@ -132,7 +132,7 @@ func TestCUSUMLow(t *testing.T) {
 }
 
 func TestEWMAByHand(t *testing.T) {
-	// Series of this test's own, λ = 0.3, L = 3, target 10, σ = 1. By hand
+	// Series of this test's own, λ = 0.3, L = 3, target 10, σ = 1. Hand-worked
 	// from the e-Handbook §6.3.2.4 formulas z_t = λx_t + (1−λ)z_{t−1} and
 	// half-width L·σ·√(λ/(2−λ)·[1−(1−λ)^{2t}]):
 	//   t=1 x=10.5 z = 3.15 + 7       = 10.15     half = 3·√(0.3/1.7·0.51)      = 0.9 (= Lλσ at t = 1)
