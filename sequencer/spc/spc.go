@@ -13,7 +13,13 @@
 // share no state, so they are safe for concurrent use.
 package spc
 
-import "errors"
+import (
+	"errors"
+	"fmt"
+	"math"
+
+	"gonum.org/v1/gonum/stat/distuv"
+)
 
 // ErrTooFewPoints is wrapped by the errors of IMR, EWMA, CUSUM and Capable
 // when the series is shorter than the function needs.
@@ -28,6 +34,14 @@ var ErrInvalidInput = errors.New("invalid input")
 const (
 	D2 = 1.128 // d2 for n = 2: MR̄/d2 estimates sigma
 	D4 = 3.267 // D4 for n = 2: UCL of the moving-range chart is D4·MR̄
+)
+
+// Names of the chart kinds in Chart.Kind.
+const (
+	KindIndividuals = "individuals"
+	KindMovingRange = "moving_range"
+	KindEWMA        = "ewma"
+	KindCUSUM       = "cusum"
 )
 
 // Names of the signal rules in Signal.Rule.
@@ -70,10 +84,46 @@ type Chart struct {
 // IMR returns the individuals chart (x̄ ± 3·MR̄/d2, d2 = 1.128, with Western
 // Electric rules 1–4 as signals) and the moving-range chart (MR̄, UCL = D4·MR̄,
 // D4 = 3.267, LCL 0; its first point has no moving range: Points has n−1
-// entries, and the Index of a moving-range signal is that of the later of
-// the two values). IMR needs at least 2 finite values.
+// entries). A moving range above its UCL is a "beyond_3_sigma" signal whose
+// Index is that of the later of its two values. Both charts' Sigma is
+// MR̄/d2. A series whose values are all equal has Sigma 0 and no signals.
+// IMR needs at least 2 finite values.
 func IMR(xs []float64) (ind, mr Chart, err error) {
-	return Chart{}, Chart{}, errors.New("spc: IMR not yet implemented")
+	if err := checkSeries("IMR", xs, 2); err != nil {
+		return Chart{}, Chart{}, err
+	}
+	center := mean(xs)
+	mrBar := meanMovingRange(xs)
+	sigma := mrBar / D2
+	ind = Chart{
+		Kind:   KindIndividuals,
+		Center: center,
+		UCL:    center + 3*sigma,
+		LCL:    center - 3*sigma,
+		Sigma:  sigma,
+		Points: make([]Point, len(xs)),
+	}
+	for i, x := range xs {
+		ind.Points[i] = Point{Value: x, Statistic: x, UCL: ind.UCL, LCL: ind.LCL}
+	}
+	ind.Signals = WesternElectric(xs, center, sigma)
+
+	mr = Chart{
+		Kind:   KindMovingRange,
+		Center: mrBar,
+		UCL:    D4 * mrBar,
+		LCL:    0,
+		Sigma:  sigma,
+		Points: make([]Point, len(xs)-1),
+	}
+	for i := 1; i < len(xs); i++ {
+		r := math.Abs(xs[i] - xs[i-1])
+		mr.Points[i-1] = Point{Value: r, Statistic: r, UCL: mr.UCL, LCL: 0}
+		if r > mr.UCL {
+			mr.Signals = append(mr.Signals, Signal{Index: i + 1, Rule: RuleBeyond3Sigma})
+		}
+	}
+	return ind, mr, nil
 }
 
 // EWMAOptions configures EWMA.
@@ -88,29 +138,179 @@ type EWMAOptions struct {
 // (e-Handbook §6.3.2.4): z_0 = target, z_t = λ·x_t + (1−λ)·z_{t−1}, with the
 // exact limits target ± L·σ·√(λ/(2−λ)·(1−(1−λ)^{2t})) on each point and the
 // steady-state limits target ± L·σ·√(λ/(2−λ)) in the Chart. A point whose
-// z_t lies outside its exact limits is a "ewma_beyond_limit" signal.
+// z_t lies outside its exact limits is a "ewma_beyond_limit" signal. EWMA
+// needs at least 2 finite values when it estimates sigma (MR̄/1.128, which
+// must not be zero), 1 when Sigma is given.
 func EWMA(xs []float64, o EWMAOptions) (Chart, error) {
-	return Chart{}, errors.New("spc: EWMA not yet implemented")
+	min := 2
+	if o.Sigma != nil {
+		min = 1
+	}
+	if err := checkSeries("EWMA", xs, min); err != nil {
+		return Chart{}, err
+	}
+	lambda := o.Lambda
+	if !(lambda > 0 && lambda <= 1) {
+		return Chart{}, fmt.Errorf("spc: EWMA: lambda %v: %w: want 0 < lambda <= 1", lambda, ErrInvalidInput)
+	}
+	width := o.Width
+	if width == 0 {
+		width = 3
+	}
+	if !(width > 0) || math.IsInf(width, 0) {
+		return Chart{}, fmt.Errorf("spc: EWMA: width %v: %w: want a finite width > 0", width, ErrInvalidInput)
+	}
+	target := 0.0
+	if o.Target != nil {
+		target = *o.Target
+		if math.IsNaN(target) || math.IsInf(target, 0) {
+			return Chart{}, fmt.Errorf("spc: EWMA: target %v: %w: want a finite number", target, ErrInvalidInput)
+		}
+	} else {
+		target = mean(xs)
+	}
+	var sigma float64
+	if o.Sigma != nil {
+		sigma = *o.Sigma
+		if !(sigma > 0) || math.IsInf(sigma, 0) {
+			return Chart{}, fmt.Errorf("spc: EWMA: sigma %v: %w: want a finite sigma > 0", sigma, ErrInvalidInput)
+		}
+	} else {
+		sigma = meanMovingRange(xs) / D2
+		if sigma == 0 {
+			return Chart{}, fmt.Errorf("spc: EWMA: every moving range is zero, so the data give no sigma: %w: give Sigma", ErrInvalidInput)
+		}
+	}
+	steady := width * sigma * math.Sqrt(lambda/(2-lambda))
+	c := Chart{
+		Kind:   KindEWMA,
+		Center: target,
+		UCL:    target + steady,
+		LCL:    target - steady,
+		Sigma:  sigma,
+		Points: make([]Point, len(xs)),
+	}
+	z := target
+	for i, x := range xs {
+		t := float64(i + 1)
+		z = lambda*x + (1-lambda)*z
+		half := width * sigma * math.Sqrt(lambda/(2-lambda)*(1-math.Pow(1-lambda, 2*t)))
+		p := Point{Value: x, Statistic: z, UCL: target + half, LCL: target - half}
+		c.Points[i] = p
+		if z > p.UCL || z < p.LCL {
+			c.Signals = append(c.Signals, Signal{Index: i + 1, Rule: RuleEWMABeyond})
+		}
+	}
+	return c, nil
 }
 
 // CUSUM is the tabular CUSUM (e-Handbook §6.3.2.3): k, h in the data's
 // units. S_hi,t = max(0, S_hi,t−1 + x_t − target − k) and
 // S_lo,t = min(0, S_lo,t−1 + x_t − target + k), both starting at 0; a point
 // with S_hi > h is a "cusum_high" signal, one with S_lo < −h a "cusum_low"
-// signal. The sums are not reset after a signal. k ≥ 0 and h > 0 are
-// required.
+// signal. S_lo is the negative of the e-Handbook's S_lo = max(0, …), so
+// that both sums plot against the limits h and −h. The sums are not reset
+// after a signal, so every point beyond a limit is a signal. Chart.Sigma is
+// 0: the limits come from h, not from a sigma. k ≥ 0 and h > 0 are
+// required, and at least one value.
 func CUSUM(xs []float64, target, k, h float64) (Chart, error) {
-	return Chart{}, errors.New("spc: CUSUM not yet implemented")
+	if err := checkSeries("CUSUM", xs, 1); err != nil {
+		return Chart{}, err
+	}
+	if math.IsNaN(target) || math.IsInf(target, 0) {
+		return Chart{}, fmt.Errorf("spc: CUSUM: target %v: %w: want a finite number", target, ErrInvalidInput)
+	}
+	if !(k >= 0) || math.IsInf(k, 0) {
+		return Chart{}, fmt.Errorf("spc: CUSUM: k %v: %w: want a finite k >= 0", k, ErrInvalidInput)
+	}
+	if !(h > 0) || math.IsInf(h, 0) {
+		return Chart{}, fmt.Errorf("spc: CUSUM: h %v: %w: want a finite h > 0", h, ErrInvalidInput)
+	}
+	c := Chart{
+		Kind:   KindCUSUM,
+		Center: 0,
+		UCL:    h,
+		LCL:    -h,
+		Points: make([]Point, len(xs)),
+	}
+	var hi, lo float64
+	for i, x := range xs {
+		hi = math.Max(0, hi+x-target-k)
+		lo = math.Min(0, lo+x-target+k)
+		c.Points[i] = Point{Value: x, Statistic: hi, Lower: lo, UCL: h, LCL: -h}
+		if hi > h {
+			c.Signals = append(c.Signals, Signal{Index: i + 1, Rule: RuleCUSUMHigh})
+		}
+		if lo < -h {
+			c.Signals = append(c.Signals, Signal{Index: i + 1, Rule: RuleCUSUMLow})
+		}
+	}
+	return c, nil
 }
 
 // WesternElectric applies rules 1–4 to xs about center with sigma
 // (e-Handbook §6.3.2): 1, one point beyond 3σ; 2, two of three consecutive
 // points beyond 2σ on the same side; 3, four of five consecutive points
 // beyond 1σ on the same side; 4, eight consecutive points on the same side
-// of the center. A signal is reported at the point that completes the
-// pattern, once per rule and point, in order of Index then rule number.
+// of the center. "Beyond" is strictly beyond; a point on the center line is
+// on neither side. A signal is reported at a point that lies beyond the
+// rule's line itself and completes the pattern (at the start of the series
+// the first points count as a shorter window, so two points beyond 2σ
+// signal at the second: a choice of this package, as is "strictly"), once
+// per rule and point, in order of Index then
+// rule number. Every point of a longer run signals rule 4 again. A sigma
+// that is not finite and > 0 gives no signals.
 func WesternElectric(xs []float64, center, sigma float64) []Signal {
-	return nil
+	if !(sigma > 0) || math.IsInf(sigma, 0) || math.IsNaN(center) || math.IsInf(center, 0) {
+		return nil
+	}
+	// side(i, m) is +1 when xs[i] lies more than m sigmas above the
+	// center, −1 when more than m sigmas below, 0 otherwise.
+	side := func(i int, m float64) int {
+		d := xs[i] - center
+		switch {
+		case d > m*sigma:
+			return 1
+		case d < -m*sigma:
+			return -1
+		}
+		return 0
+	}
+	// completes reports whether point i lies beyond m sigmas and, with it,
+	// at least need of the last window points (fewer at the start of the
+	// series) lie beyond m sigmas on its side.
+	completes := func(i, window, need int, m float64) bool {
+		s := side(i, m)
+		if s == 0 {
+			return false
+		}
+		n := 0
+		for j := max(0, i-window+1); j <= i; j++ {
+			if side(j, m) == s {
+				n++
+			}
+		}
+		return n >= need
+	}
+	var out []Signal
+	for i := range xs {
+		if math.IsNaN(xs[i]) {
+			continue
+		}
+		if side(i, 3) != 0 {
+			out = append(out, Signal{Index: i + 1, Rule: RuleBeyond3Sigma})
+		}
+		if completes(i, 3, 2, 2) {
+			out = append(out, Signal{Index: i + 1, Rule: Rule2of3Beyond2})
+		}
+		if completes(i, 5, 4, 1) {
+			out = append(out, Signal{Index: i + 1, Rule: Rule4of5Beyond1})
+		}
+		if completes(i, 8, 8, 0) {
+			out = append(out, Signal{Index: i + 1, Rule: Rule8OnOneSide})
+		}
+	}
+	return out
 }
 
 // Capability of a toleranced result (e-Handbook §6.1.6).
@@ -127,9 +327,84 @@ type Capability struct {
 // specification limits lsl and usl (nil: no limit on that side; at least one
 // is required, and lsl < usl when both are given). Cp and Cpk use SDWithin,
 // Pp and Ppk SDOverall. confidence is the two-sided level of the intervals,
-// 0 < confidence < 1; 0 means 0.95. Capable needs at least 2 finite values.
+// 0 < confidence < 1; 0 means 0.95. The Cp interval is
+// Ĉp·√(χ²_{α/2,ν}/ν) … Ĉp·√(χ²_{1−α/2,ν}/ν) with ν = n − 1, exact for a
+// sample SD of normal data and an approximation for SDWithin; the Cpk
+// interval is Bissell's normal approximation
+// Ĉpk·[1 ± z_{1−α/2}·√(1/(9n·Ĉpk²) + 1/(2(n−1)))]. When a standard deviation
+// is zero (all values equal) the indices built on it are ±Inf or NaN.
+// Capable needs at least 2 finite values.
 func Capable(xs []float64, lsl, usl *float64, confidence float64) (Capability, error) {
-	return Capability{}, errors.New("spc: Capable not yet implemented")
+	if err := checkSeries("capability", xs, 2); err != nil {
+		return Capability{}, err
+	}
+	if lsl == nil && usl == nil {
+		return Capability{}, fmt.Errorf("spc: capability: %w: want a lower or an upper specification limit, or both", ErrInvalidInput)
+	}
+	for _, l := range []*float64{lsl, usl} {
+		if l != nil && (math.IsNaN(*l) || math.IsInf(*l, 0)) {
+			return Capability{}, fmt.Errorf("spc: capability: specification limit %v: %w: want a finite number", *l, ErrInvalidInput)
+		}
+	}
+	if lsl != nil && usl != nil && !(*lsl < *usl) {
+		return Capability{}, fmt.Errorf("spc: capability: limits %v and %v: %w: want the lower limit below the upper", *lsl, *usl, ErrInvalidInput)
+	}
+	if confidence == 0 {
+		confidence = 0.95
+	}
+	if !(confidence > 0 && confidence < 1) {
+		return Capability{}, fmt.Errorf("spc: capability: confidence %v: %w: want 0 < confidence < 1", confidence, ErrInvalidInput)
+	}
+	n := len(xs)
+	m := mean(xs)
+	var ss float64
+	for _, x := range xs {
+		ss += (x - m) * (x - m)
+	}
+	c := Capability{
+		N:         n,
+		Mean:      m,
+		SDWithin:  meanMovingRange(xs) / D2,
+		SDOverall: math.Sqrt(ss / float64(n-1)),
+	}
+	c.Cp, c.Cpk = indices(m, c.SDWithin, lsl, usl)
+	c.Pp, c.Ppk = indices(m, c.SDOverall, lsl, usl)
+
+	alpha := 1 - confidence
+	nu := float64(n - 1)
+	chi := distuv.ChiSquared{K: nu}
+	c.CpCI = [2]float64{
+		c.Cp * math.Sqrt(chi.Quantile(alpha/2)/nu),
+		c.Cp * math.Sqrt(chi.Quantile(1-alpha/2)/nu),
+	}
+	z := distuv.UnitNormal.Quantile(1 - alpha/2)
+	half := z * math.Sqrt(1/(9*float64(n)*c.Cpk*c.Cpk)+1/(2*nu))
+	c.CpkCI = [2]float64{c.Cpk * (1 - half), c.Cpk * (1 + half)}
+
+	if lsl != nil {
+		c.FractionOutside += distuv.UnitNormal.CDF((*lsl - m) / c.SDOverall)
+	}
+	if usl != nil {
+		c.FractionOutside += distuv.UnitNormal.Survival((*usl - m) / c.SDOverall)
+	}
+	return c, nil
+}
+
+// indices returns (USL−LSL)/(6σ) and min(USL−μ, μ−LSL)/(3σ), the first NaN
+// unless both limits are given, the second from the side(s) given
+// (e-Handbook §6.1.6).
+func indices(mu, sigma float64, lsl, usl *float64) (p, pk float64) {
+	p, pk = math.NaN(), math.Inf(1)
+	if lsl != nil && usl != nil {
+		p = (*usl - *lsl) / (6 * sigma)
+	}
+	if lsl != nil {
+		pk = math.Min(pk, (mu-*lsl)/(3*sigma))
+	}
+	if usl != nil {
+		pk = math.Min(pk, (*usl-mu)/(3*sigma))
+	}
+	return p, pk
 }
 
 // Histogram is xs binned over [Lo, Hi] in len(Counts) equal bins, with
@@ -146,5 +421,67 @@ type Histogram struct {
 // hi ≤ lo gives a Histogram with no bins that counts every value below or
 // above the midpoint as Under or Over.
 func Bin(xs []float64, lo, hi float64, n int) Histogram {
-	return Histogram{Lo: lo, Hi: hi}
+	h := Histogram{Lo: lo, Hi: hi}
+	if n < 1 || !(hi > lo) || math.IsInf(hi-lo, 0) {
+		mid := lo + (hi-lo)/2
+		for _, x := range xs {
+			switch {
+			case x < mid:
+				h.Under++
+			case x > mid:
+				h.Over++
+			}
+		}
+		return h
+	}
+	h.Counts = make([]int, n)
+	w := (hi - lo) / float64(n)
+	for _, x := range xs {
+		switch {
+		case math.IsNaN(x):
+		case x < lo:
+			h.Under++
+		case x > hi:
+			h.Over++
+		default:
+			i := int((x - lo) / w)
+			if i >= n {
+				i = n - 1 // x = hi, or rounding just below it
+			}
+			h.Counts[i]++
+		}
+	}
+	return h
+}
+
+// checkSeries returns an error unless xs holds at least min values, all
+// finite.
+func checkSeries(what string, xs []float64, min int) error {
+	if len(xs) < min {
+		return fmt.Errorf("spc: %s: %d values: %w: want at least %d", what, len(xs), ErrTooFewPoints, min)
+	}
+	for i, x := range xs {
+		if math.IsNaN(x) || math.IsInf(x, 0) {
+			return fmt.Errorf("spc: %s: value %d is %v: %w: want finite numbers", what, i+1, x, ErrInvalidInput)
+		}
+	}
+	return nil
+}
+
+func mean(xs []float64) float64 {
+	var s float64
+	for _, x := range xs {
+		s += x
+	}
+	return s / float64(len(xs))
+}
+
+// meanMovingRange returns MR̄, the mean of |x_i − x_{i−1}| over the
+// len(xs)−1 consecutive pairs; len(xs) ≥ 2.
+func meanMovingRange(xs []float64) float64 {
+	var s float64
+	for i := 1; i < len(xs); i++ {
+		s += math.Abs(xs[i] - xs[i-1])
+	}
+	return s / float64(len(xs)-1)
 }
