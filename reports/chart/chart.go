@@ -83,7 +83,7 @@ func WritePDF(w io.Writer, charts []spc.Chart, o Options) error {
 	for _, c := range charts {
 		top := d.Y
 		plotTop := top + pdfdoc.Bold.LineH() + 1
-		plotH := share - (plotTop - top) - 8 - signalsH
+		plotH := share - (plotTop - top) - 8 - signalsH - 4 // 4 mm before the next panel
 		drawPanel(d, c, plotTop, plotH)
 		signalText(d, c, plotTop+plotH+7, signalsH)
 		d.Use(pdfdoc.Bold)
