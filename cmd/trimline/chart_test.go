@@ -211,6 +211,10 @@ func TestChartBadInput(t *testing.T) {
 			t.Errorf("%v: exit %d, %s", args, code, errOut)
 		}
 	}
+	// spc takes a width of 0 for 3: the command refuses it rather than print L = 0.
+	if code, _, errOut := runCLI(t, "chart", "--kind", "ewma", "--lambda", "0.2", "--width", "0", one); code != exitUsage || !strings.Contains(errOut, "--width must be a positive") {
+		t.Errorf("--width 0: exit %d, %s", code, errOut)
+	}
 }
 
 // --pdf draws the chart: a PDF whose text has the title and the labelled

@@ -69,6 +69,9 @@ index, rule). --pdf FILE also draws the chart on an A4 landscape page.`,
 				return usagef("--kind imr takes none of --lambda, --width, --target, --sigma, --k, --h")
 			}
 		case "ewma":
+			if !(*width > 0) {
+				return usagef("--width must be a positive number of sigmas, found %g", *width)
+			}
 			if !lambda.set {
 				return usagef("--kind ewma needs --lambda L (0 < L ≤ 1)")
 			}
