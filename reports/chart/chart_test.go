@@ -79,3 +79,33 @@ func TestWritePDF(t *testing.T) {
 		}
 	}
 }
+
+// A long series is drawn as its envelope: 20 000 points, one signal, a page
+// of well under a megabyte that still marks the signal (listed under it).
+func TestWritePDFLongSeries(t *testing.T) {
+	c := spc.Chart{Kind: "individuals", Center: 0, UCL: 3, LCL: -3, Sigma: 1,
+		Signals: []spc.Signal{{Index: 12345, Rule: spc.RuleBeyond3Sigma}}}
+	for i := range 20000 {
+		v := float64(i%7-3) / 2
+		if i == 12344 {
+			v = 5
+		}
+		c.Points = append(c.Points, spc.Point{Value: v, Statistic: v, UCL: 3, LCL: -3})
+	}
+	var b bytes.Buffer
+	if err := WritePDF(&b, []spc.Chart{c}, Options{Title: "long"}); err != nil {
+		t.Fatal(err)
+	}
+	if b.Len() > 1<<20 {
+		t.Errorf("PDF of 20 000 points: %d bytes, want under 1 MiB", b.Len())
+	}
+	if _, err := exec.LookPath("pdftotext"); err != nil {
+		t.Skip("pdftotext not installed")
+	}
+	cmd := exec.Command("pdftotext", "-layout", "-", "-")
+	cmd.Stdin = &b
+	txt, err := cmd.Output()
+	if err != nil || !strings.Contains(string(txt), "12345 beyond_3_sigma") {
+		t.Errorf("PDF text lacks the signal (%v):\n%s", err, txt)
+	}
+}
