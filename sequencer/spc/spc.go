@@ -421,18 +421,20 @@ type Histogram struct {
 
 // Bin bins xs over [lo, hi] (the tolerance band plus a margin) in n equal
 // bins; bin i holds lo + i·w ≤ x < lo + (i+1)·w with w = (hi−lo)/n, and the
-// last bin also holds x = hi. NaN values are counted nowhere. n < 1 or
-// hi ≤ lo gives a Histogram with no bins that counts every value below or
-// above the midpoint as Under or Over.
+// last bin also holds x = hi. NaN values are counted nowhere; every other
+// value is counted once. n < 1, or lo and hi not finite with lo < hi, gives
+// a Histogram with no bins that counts a value below the midpoint of lo and
+// hi as Under and any other as Over.
 func Bin(xs []float64, lo, hi float64, n int) Histogram {
 	h := Histogram{Lo: lo, Hi: hi}
 	if n < 1 || !(hi > lo) || math.IsInf(hi-lo, 0) {
 		mid := lo + (hi-lo)/2
 		for _, x := range xs {
 			switch {
+			case math.IsNaN(x):
 			case x < mid:
 				h.Under++
-			case x > mid:
+			default:
 				h.Over++
 			}
 		}

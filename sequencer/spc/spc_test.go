@@ -367,9 +367,9 @@ func TestBin(t *testing.T) {
 		t.Errorf("bins hold %d, want 197", total)
 	}
 
-	// No bins: every value falls below or above the midpoint.
-	h = spc.Bin([]float64{1, 9}, 0, 10, 0)
-	if len(h.Counts) != 0 || h.Under != 1 || h.Over != 1 {
+	// No bins: a value below the midpoint is Under, any other Over.
+	h = spc.Bin([]float64{1, 5, 9}, 0, 10, 0)
+	if len(h.Counts) != 0 || h.Under != 1 || h.Over != 2 {
 		t.Errorf("no bins: %+v", h)
 	}
 }
