@@ -85,7 +85,8 @@ type Chart struct {
 // Electric rules 1–4 as signals) and the moving-range chart (MR̄, UCL = D4·MR̄,
 // D4 = 3.267, LCL 0; its first point has no moving range: Points has n−1
 // entries). A moving range above its UCL is a "beyond_3_sigma" signal whose
-// Index is that of the later of its two values. Both charts' Sigma is
+// Index is that of the later of its two values in xs, so the moving range
+// is mr.Points[Index−2]. Both charts' Sigma is
 // MR̄/d2. A series whose values are all equal has Sigma 0 and no signals.
 // IMR needs at least 2 finite values.
 func IMR(xs []float64) (ind, mr Chart, err error) {
@@ -142,11 +143,11 @@ type EWMAOptions struct {
 // needs at least 2 finite values when it estimates sigma (MR̄/1.128, which
 // must not be zero), 1 when Sigma is given.
 func EWMA(xs []float64, o EWMAOptions) (Chart, error) {
-	min := 2
+	need := 2
 	if o.Sigma != nil {
-		min = 1
+		need = 1
 	}
-	if err := checkSeries("EWMA", xs, min); err != nil {
+	if err := checkSeries("EWMA", xs, need); err != nil {
 		return Chart{}, err
 	}
 	lambda := o.Lambda
@@ -160,7 +161,7 @@ func EWMA(xs []float64, o EWMAOptions) (Chart, error) {
 	if !(width > 0) || math.IsInf(width, 0) {
 		return Chart{}, fmt.Errorf("spc: EWMA: width %v: %w: want a finite width > 0", width, ErrInvalidInput)
 	}
-	target := 0.0
+	var target float64
 	if o.Target != nil {
 		target = *o.Target
 		if math.IsNaN(target) || math.IsInf(target, 0) {
@@ -257,9 +258,9 @@ func CUSUM(xs []float64, target, k, h float64) (Chart, error) {
 // rule's line itself and completes the pattern (at the start of the series
 // the first points count as a shorter window, so two points beyond 2σ
 // signal at the second: a choice of this package, as is "strictly"), once
-// per rule and point, in order of Index then
-// rule number. Every point of a longer run signals rule 4 again. A sigma
-// that is not finite and > 0 gives no signals.
+// per rule and point, in order of Index then rule number. Every point of a
+// longer run signals rule 4 again. A sigma that is not finite and > 0 gives
+// no signals.
 func WesternElectric(xs []float64, center, sigma float64) []Signal {
 	if !(sigma > 0) || math.IsInf(sigma, 0) || math.IsNaN(center) || math.IsInf(center, 0) {
 		return nil
@@ -319,7 +320,7 @@ type Capability struct {
 	Mean                float64
 	SDWithin, SDOverall float64    // MR̄/1.128 of consecutive values; sample SD (n−1)
 	Cp, Cpk, Pp, Ppk    float64    // NaN where a side is missing (Cp and Pp need both)
-	CpCI, CpkCI         [2]float64 // at Confidence: χ² for Cp, Bissell (1990) for Cpk; NaN where the index is
+	CpCI, CpkCI         [2]float64 // [low, high] at the confidence asked for: χ² for Cp, Bissell (1990) for Cpk; NaN where the index is
 	FractionOutside     float64    // expected fraction outside the tolerance, normal model, overall SD
 }
 
@@ -380,6 +381,9 @@ func Capable(xs []float64, lsl, usl *float64, confidence float64) (Capability, e
 	z := distuv.UnitNormal.Quantile(1 - alpha/2)
 	half := z * math.Sqrt(1/(9*float64(n)*c.Cpk*c.Cpk)+1/(2*nu))
 	c.CpkCI = [2]float64{c.Cpk * (1 - half), c.Cpk * (1 + half)}
+	if c.CpkCI[0] > c.CpkCI[1] { // Ĉpk < 0: the mean is outside the tolerance
+		c.CpkCI[0], c.CpkCI[1] = c.CpkCI[1], c.CpkCI[0]
+	}
 
 	if lsl != nil {
 		c.FractionOutside += distuv.UnitNormal.CDF((*lsl - m) / c.SDOverall)
@@ -417,18 +421,20 @@ type Histogram struct {
 
 // Bin bins xs over [lo, hi] (the tolerance band plus a margin) in n equal
 // bins; bin i holds lo + i·w ≤ x < lo + (i+1)·w with w = (hi−lo)/n, and the
-// last bin also holds x = hi. NaN values are counted nowhere. n < 1 or
-// hi ≤ lo gives a Histogram with no bins that counts every value below or
-// above the midpoint as Under or Over.
+// last bin also holds x = hi. NaN values are counted nowhere; every other
+// value is counted once. n < 1, or lo and hi not finite with lo < hi, gives
+// a Histogram with no bins that counts a value below the midpoint of lo and
+// hi as Under and any other as Over.
 func Bin(xs []float64, lo, hi float64, n int) Histogram {
 	h := Histogram{Lo: lo, Hi: hi}
 	if n < 1 || !(hi > lo) || math.IsInf(hi-lo, 0) {
 		mid := lo + (hi-lo)/2
 		for _, x := range xs {
 			switch {
+			case math.IsNaN(x):
 			case x < mid:
 				h.Under++
-			case x > mid:
+			default:
 				h.Over++
 			}
 		}
@@ -454,11 +460,11 @@ func Bin(xs []float64, lo, hi float64, n int) Histogram {
 	return h
 }
 
-// checkSeries returns an error unless xs holds at least min values, all
+// checkSeries returns an error unless xs holds at least need values, all
 // finite.
-func checkSeries(what string, xs []float64, min int) error {
-	if len(xs) < min {
-		return fmt.Errorf("spc: %s: %d values: %w: want at least %d", what, len(xs), ErrTooFewPoints, min)
+func checkSeries(what string, xs []float64, need int) error {
+	if len(xs) < need {
+		return fmt.Errorf("spc: %s: %d values: %w: want at least %d", what, len(xs), ErrTooFewPoints, need)
 	}
 	for i, x := range xs {
 		if math.IsNaN(x) || math.IsInf(x, 0) {

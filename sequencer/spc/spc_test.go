@@ -322,6 +322,17 @@ func TestCapabilityConfidenceIntervals(t *testing.T) {
 	if !(large.CpkCI[0] < large.Cpk && large.Cpk < large.CpkCI[1]) {
 		t.Errorf("Cpk %v outside its interval %v", large.Cpk, large.CpkCI)
 	}
+
+	// A mean outside the tolerance: Ĉpk = (20 − 21)/(3·2) = −1/6 (§6.1.6
+	// formula); the Bissell interval stays [low, high] about it.
+	out, err := spc.Capable(alternating(10, 21, 1.128), ptr(8), ptr(20), 0.95)
+	if err != nil {
+		t.Fatal(err)
+	}
+	near(t, "Cpk outside", out.Cpk, -1.0/6, 1e-12)
+	if !(out.CpkCI[0] < out.Cpk && out.Cpk < out.CpkCI[1]) {
+		t.Errorf("Cpk %v outside its interval %v", out.Cpk, out.CpkCI)
+	}
 }
 
 func TestBin(t *testing.T) {
@@ -356,9 +367,9 @@ func TestBin(t *testing.T) {
 		t.Errorf("bins hold %d, want 197", total)
 	}
 
-	// No bins: every value falls below or above the midpoint.
-	h = spc.Bin([]float64{1, 9}, 0, 10, 0)
-	if len(h.Counts) != 0 || h.Under != 1 || h.Over != 1 {
+	// No bins: a value below the midpoint is Under, any other Over.
+	h = spc.Bin([]float64{1, 5, 9}, 0, 10, 0)
+	if len(h.Counts) != 0 || h.Under != 1 || h.Over != 2 {
 		t.Errorf("no bins: %+v", h)
 	}
 }
