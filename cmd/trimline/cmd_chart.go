@@ -19,10 +19,11 @@ func newChartCmd() *command {
 	c := &command{
 		UsageLine: "trimline chart [--column NAME] [--kind imr|ewma|cusum] [--lambda L] [--width L] [--target T] [--sigma S] [--k K] [--h H] [--json] [--pdf FILE] FILE.csv",
 		Short:     "control chart of one column of a CSV file (I-MR, EWMA, tabular CUSUM)",
-		Long: `Reads a CSV table with a header row (separated by commas, semicolons or
-tabs; '#' lines are comments) and charts one column in the order of its rows: the
-column headed --column NAME, or else the first column whose first data row holds a
-number. Other columns may hold anything (a serial, a date).
+		Long: `Reads a CSV table (separated by commas, semicolons or tabs; '#' lines are
+comments; a first row with no number in it is the header) and charts one column in
+the order of its rows: the column headed --column NAME, or else the first column
+whose first data row holds a number. Other columns may hold anything (a serial, a
+date).
 
 --kind imr (the default): the individuals chart, x̄ ± 3·MR̄/1.128, with the Western
 Electric run rules 1–4 as signals, and the moving-range chart, UCL 3.267·MR̄, LCL 0
