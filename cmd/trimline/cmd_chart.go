@@ -140,7 +140,7 @@ index, rule). --pdf FILE also draws the chart on an A4 landscape page.`,
 				Stamp: time.Unix(0, 0),
 			}
 			if err := chart.WriteFile(*pdfPath, charts, o); err != nil {
-				return err
+				return fmt.Errorf("--pdf: %w", err)
 			}
 		}
 		if *asJSON {
