@@ -65,7 +65,7 @@ func WritePDF(w io.Writer, charts []spc.Chart, o Options) error {
 
 	title := pdfdoc.Style{Family: pdfdoc.Sans, Weight: "B", Size: 14, Color: pdfdoc.Ink}
 	d.Use(title)
-	pdf.Text(d.Left, d.Y+title.LineH()*0.75, o.Title)
+	pdf.Text(d.Left, d.Y+title.LineH()*0.75, d.Fit(o.Title, d.Width))
 	d.Y += title.LineH() + 1
 	d.Use(pdfdoc.Body.With(pdfdoc.Muted))
 	for _, l := range o.Lines {
