@@ -3,15 +3,12 @@ package main
 import (
 	"bytes"
 	"encoding/json"
-	"errors"
 	"math"
 	"os"
 	"os/exec"
 	"path/filepath"
 	"strings"
 	"testing"
-
-	"trimline/sequencer/fit"
 )
 
 // chartJSONOut is what trimline chart --json writes, decoded with unknown
@@ -276,29 +273,4 @@ func TestChartColumns(t *testing.T) {
 	if c := decodeChart(t, out); c.Column != "column 1" || len(c.Points) != 3 || c.Points[0].Value != 10 {
 		t.Errorf("no header: got %+v, want 3 points from 10", c)
 	}
-}
-
-// readColumn never panics, and what it refuses it refuses as an InputError
-// with a position (or a reading error, which a string reader never gives).
-func FuzzReadColumn(f *testing.F) {
-	f.Add("serial,v\nA,1\nB,2\n", "")
-	f.Add("a;b\n1;2\n3\n", "b")
-	f.Add("1\n2\n", "x")
-	f.Add("\uFEFF# c\nv\n\"1\n", "")
-	f.Add("a,b\n,\n", "")
-	f.Fuzz(func(t *testing.T, text, column string) {
-		xs, _, err := readColumn("f.csv", strings.NewReader(text), column)
-		var ie *fit.InputError
-		switch {
-		case err != nil && !errors.As(err, &ie):
-			t.Fatalf("error of type %T: %v", err, err)
-		case err == nil && len(xs) == 0:
-			t.Fatal("no error and no values")
-		}
-		for _, v := range xs {
-			if math.IsNaN(v) || math.IsInf(v, 0) {
-				t.Fatalf("non-finite value %g", v)
-			}
-		}
-	})
 }

@@ -94,7 +94,7 @@ index, rule). --pdf FILE also draws the chart on an A4 landscape page.`,
 			return badInput(err)
 		}
 		defer f.Close()
-		xs, header, err := readColumn(args[0], f, *column)
+		xs, header, err := spc.ReadColumn(args[0], f, *column)
 		if err != nil {
 			return badInput(err)
 		}

@@ -1,4 +1,4 @@
-package main
+package spc
 
 import (
 	"encoding/csv"
@@ -12,11 +12,11 @@ import (
 	"trimline/sequencer/fit"
 )
 
-// maxChartRows bounds the rows trimline chart reads: a chart of a shift has
+// MaxRows bounds the rows ReadColumn reads (trimline chart): a chart of a shift has
 // hundreds of points, a year's log tens of thousands.
-const maxChartRows = 100_000
+const MaxRows = 100_000
 
-// readColumn reads one numeric column of a CSV table from r:
+// ReadColumn reads one numeric column of a CSV table from r:
 // the column headed column, or, when column is "", the first column whose
 // first data row holds a number. It returns the values and the header of the
 // column read. name is used only in error messages.
@@ -31,7 +31,7 @@ const maxChartRows = 100_000
 //
 // Errors about the content are *fit.InputError, "name:line:col: message",
 // as trimline fit gives them.
-func readColumn(name string, r io.Reader, column string) (xs []float64, header string, err error) {
+func ReadColumn(name string, r io.Reader, column string) (xs []float64, header string, err error) {
 	data, err := io.ReadAll(io.LimitReader(r, fit.MaxBytes+1))
 	if err != nil {
 		return nil, "", fmt.Errorf("%s: reading: %w", name, err)
@@ -123,8 +123,8 @@ func readColumn(name string, r io.Reader, column string) (xs []float64, header s
 		case math.IsNaN(v) || math.IsInf(v, 0):
 			return fail(l, c, "expected a finite number, found %q", s)
 		}
-		if len(xs) == maxChartRows {
-			return fail(l, 1, "expected at most %d data rows", maxChartRows)
+		if len(xs) == MaxRows {
+			return fail(l, 1, "expected at most %d data rows", MaxRows)
 		}
 		xs = append(xs, v)
 	}
