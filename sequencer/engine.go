@@ -45,6 +45,9 @@ type Config struct {
 	Conditions Conditions
 	// Engineering runs use files that were never released; every record says so.
 	Engineering bool
+	// Lot is recorded in every run (Record.Lot); "" = none. CheckLot says
+	// which lot ids are accepted.
+	Lot string
 	// NewID returns a run id; nil uses a time-stamped random id.
 	NewID func(now time.Time) string
 	// Progress, when set, is called with every progress event of a run, on the
@@ -434,7 +437,7 @@ func (e *Engine) runUnit(ctx context.Context, serial, operator string) (rec *Rec
 		Files:       []FileRef{st.File, seq.File, seq.LimitsFile},
 		Instruments: append([]InstrumentRef(nil), e.refs...),
 		IdealGain:   seq.IdealGain, IdealOffset: seq.IdealOffset, FullScale: seq.FullScale, ResponseUnit: seq.recordResponseUnit(), StimulusUnit: seq.recordStimulusUnit(),
-		Conditions: e.cfg.Conditions, Coverage: coverage(seq), Engineering: e.cfg.Engineering,
+		Conditions: e.cfg.Conditions, Coverage: coverage(seq), Engineering: e.cfg.Engineering, Lot: e.cfg.Lot,
 		Simulated: simulation(e.refs, e.benchClock),
 	}
 	if e.cfg.NewID != nil {

@@ -177,6 +177,10 @@ type Record struct {
 	// Engineering marks a run made with files that were never released: its
 	// certificate says so in large letters and comes from a number series of its own.
 	Engineering bool `json:"engineering,omitempty"`
+	// Lot is the production lot the unit was run in, as the operator or the
+	// script gave it (run --lot), "" when none was given: quality numbers
+	// are filtered and trended by it.
+	Lot string `json:"lot,omitempty"`
 	// RetestOf is the run id of the earlier measured run (PASS, FAIL or REVIEW) of
 	// the same serial that this run repeats, "" for a first test. The ledger
 	// supersedes that run's certificate when this run is certified.
@@ -503,7 +507,7 @@ func FaultRecord(cfg Config, serial string, now time.Time, err error) *Record {
 		Station: st.ID, Operator: cfg.Operator, Software: cfg.Software, Started: now.UTC(), Finished: now.UTC(),
 		Files:     []FileRef{st.File, seq.File, seq.LimitsFile},
 		IdealGain: seq.IdealGain, IdealOffset: seq.IdealOffset, FullScale: seq.FullScale, ResponseUnit: seq.recordResponseUnit(),
-		Conditions: cfg.Conditions, Engineering: cfg.Engineering, Verdict: Fault, Fault: "station could not start the unit: " + err.Error()}
+		Conditions: cfg.Conditions, Engineering: cfg.Engineering, Lot: cfg.Lot, Verdict: Fault, Fault: "station could not start the unit: " + err.Error()}
 	if d, ok := DetailOf(err); ok {
 		rec.FaultDetail = &d
 	}

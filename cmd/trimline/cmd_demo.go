@@ -25,7 +25,7 @@ import (
 
 func newDemoCmd() *command {
 	c := &command{
-		UsageLine: "trimline demo [--list] [--product NAME] [--out DIR] [--units N] [--seed S] [--transport sim|tcp|serial] [--retest]",
+		UsageLine: "trimline demo [--list] [--product NAME] [--out DIR] [--units N] [--seed S] [--transport sim|tcp|serial] [--lot ID] [--retest]",
 		Short:     "write a demo product's files and trim N simulated units end to end",
 		Long: `Writes the station, sequence and limit files of a demo product (all invented) into
 DIR, then runs N simulated units through the whole job on the simulated bench. The
@@ -57,6 +57,7 @@ unit takes a few seconds, as it would on a real bench.`,
 	seed := c.Flag.Uint64("seed", 8, "`seed` of the simulated unit population")
 	transport := c.Flag.String("transport", "sim", "`how` to reach the simulated bench: sim (in process), tcp or serial")
 	operator := c.Flag.String("operator", defaultOperator(), "operator `name` printed on certificates")
+	lot := c.Flag.String("lot", "", "production `lot` id to record on every run")
 	ambient := c.Flag.String("ambient", "", "ambient `temperature` to record on every run, e.g. \"23.1 °C\" or 23.1degC")
 	retest := c.Flag.Bool("retest", false, "run units the folder's ledger has already tested again, as retests")
 	c.Run = func(ctx context.Context, e *env, args []string) error {
@@ -122,8 +123,11 @@ unit takes a few seconds, as it would on a real bench.`,
 		for i := range serials {
 			serials[i] = prod.Serial(i + 1)
 		}
+		if err := sequencer.CheckLot(*lot); err != nil {
+			return usagef("--lot: %v", err)
+		}
 		t, err := runBatch(ctx, e, batch{stationPath: station, sequencePath: sequence, serials: serials, out: *out,
-			operator: *operator, ambient: *ambient, retest: *retest})
+			operator: *operator, ambient: *ambient, retest: *retest, lot: *lot})
 		if errors.Is(err, issuing.ErrAttemptsUsed) {
 			return fmt.Errorf("%w\nThe demo folder %s has run these units as often as the sequence allows (retest.max_attempts): --out a new folder", err, *out)
 		}

@@ -3,11 +3,13 @@ package main
 import (
 	"context"
 	"os"
+
+	"trimline/sequencer"
 )
 
 func newRunCmd() *command {
 	c := &command{
-		UsageLine: "trimline run --station FILE --sequence FILE --serial SN [--serial SN ...] [--retest] [--out DIR] [--operator NAME] [--json]",
+		UsageLine: "trimline run --station FILE --sequence FILE --serial SN [--serial SN ...] [--retest] [--out DIR] [--operator NAME] [--lot ID] [--json]",
 		Short:     "trim and certify units on a station (the production command)",
 		Long: `Runs the sequence once per serial number: its steps in the order the sequence
 file lists them (sweeps, fits, trim codes written, read back and stored, commands
@@ -35,6 +37,7 @@ before without --retest), 3 station fault or a stopped batch.`,
 	ambient := c.Flag.String("ambient", "", "ambient `temperature` to record on every run, e.g. \"23.1 °C\" or 23.1degC")
 	asJSON := jsonFlag(c, "an object per unit (instead of a live line), then a summary object,")
 	retest := c.Flag.Bool("retest", false, "run serials that already have a measured run again; each retest links to the earlier run and supersedes its certificate")
+	lot := c.Flag.String("lot", "", "production `lot` id to record on every run (for quality numbers by lot)")
 	engineering := c.Flag.Bool("engineering", false, "run files that were never released; certificates are marked ENGINEERING RUN — NOT FOR SHIPMENT and numbered apart")
 	c.Run = func(ctx context.Context, e *env, args []string) error {
 		if *station == "" || *sequence == "" || len(serials) == 0 {
@@ -43,8 +46,11 @@ before without --retest), 3 station fault or a stopped batch.`,
 		if len(args) > 0 {
 			return usagef("unexpected argument %q", args[0])
 		}
+		if err := sequencer.CheckLot(*lot); err != nil {
+			return usagef("--lot: %v", err)
+		}
 		t, err := runBatch(ctx, e, batch{stationPath: *station, sequencePath: *sequence, serials: serials, out: *out,
-			operator: *operator, ambient: *ambient, engineering: *engineering, retest: *retest, json: *asJSON})
+			operator: *operator, ambient: *ambient, engineering: *engineering, retest: *retest, json: *asJSON, lot: *lot})
 		if err != nil {
 			return err
 		}

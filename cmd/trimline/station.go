@@ -22,6 +22,7 @@ type batch struct {
 	operator                  string
 	ambient                   string // entered ambient temperature, e.g. "23.1 °C"; "" = not recorded
 	engineering               bool   // run unreleased files; certificates are marked and numbered apart
+	lot                       string // production lot recorded in every run; "" = none
 	retest                    bool   // serials with an earlier measured run may run again (and supersede its certificate)
 	json                      bool   // one JSON object per unit on stdout instead of live lines
 }
@@ -51,7 +52,7 @@ func runBatch(ctx context.Context, e *env, b batch) (*sequencer.Tally, error) {
 		console = nil
 	}
 	s, err := shift.Open(ctx, shift.Options{StationPath: b.stationPath, SequencePath: b.sequencePath, Out: b.out,
-		Operator: b.operator, Software: "trimline " + version(), Conditions: cond, Engineering: b.engineering,
+		Operator: b.operator, Software: "trimline " + version(), Conditions: cond, Engineering: b.engineering, Lot: b.lot,
 		Serials: b.serials, Retest: b.retest, Console: console})
 	if err != nil {
 		return nil, err

@@ -121,7 +121,8 @@ type Options struct {
 	Operator                  string // the engine's default operator (a run may name its own)
 	Software                  string // "trimline v…", recorded in every run
 	Conditions                sequencer.Conditions
-	Engineering               bool // run unreleased files; certificates are marked and numbered apart
+	Engineering               bool   // run unreleased files; certificates are marked and numbered apart
+	Lot                       string // production lot recorded in every run ("" = none; sequencer.CheckLot)
 	// Serials, when given, are checked against the sequence's serial pattern
 	// and, unless Retest, against the ledger's earlier runs, before anything is
 	// opened beyond the ledger.
@@ -233,7 +234,7 @@ func Open(ctx context.Context, o Options) (_ *Shift, err error) {
 		}
 	}
 	s.cfg = sequencer.Config{Station: st, Sequence: seq, Operator: o.Operator,
-		Software: o.Software, Log: s.Log, Conditions: o.Conditions, Engineering: o.Engineering}
+		Software: o.Software, Log: s.Log, Conditions: o.Conditions, Engineering: o.Engineering, Lot: o.Lot}
 	return s, nil
 }
 
