@@ -38,7 +38,7 @@ func operatorQuantity(value, U float64, unit string, lower, upper *float64) (v, 
 	// scale: SI per limit unit; f: SI per shown unit.
 	scale, f, prefix := q.Value, q.Value, strings.TrimSuffix(units.Display(unit), base)
 	if big >= 999.5 {
-		prefix, f = siPrefix(big * scale)
+		prefix, f = units.SIPrefix(big * scale)
 	}
 	// dec: decimals in the limit's unit; three significant digits, or the
 	// stated U's place where that is coarser.
@@ -83,21 +83,4 @@ func operatorQuantity(value, U float64, unit string, lower, upper *float64) (v, 
 func roundAt(v float64, dec int) float64 {
 	p := math.Pow(10, float64(dec))
 	return math.Round(v*p) / p
-}
-
-// siPrefix is the prefix and its factor for a magnitude in SI units: the one
-// that puts it between 1 and 1000 (µ below 1 µ, none for 0).
-func siPrefix(mag float64) (string, float64) {
-	for _, p := range []struct {
-		s string
-		f float64
-	}{{"k", 1e3}, {"", 1}, {"m", 1e-3}, {"µ", 1e-6}, {"n", 1e-9}} {
-		if mag >= p.f*0.9999999 {
-			return p.s, p.f
-		}
-	}
-	if mag == 0 {
-		return "", 1
-	}
-	return "n", 1e-9
 }

@@ -296,23 +296,27 @@ func Format(v float64, unit string, digits int) string {
 	if unit == "ppm" || unit == "%" || unit == "" || unit == "code" || unit == "count" || unit == "°C" {
 		return strings.TrimSpace(fixedOrSci(v, digits) + " " + unit)
 	}
-	a := math.Abs(v)
-	type p struct {
-		f float64
+	prefix, f := SIPrefix(math.Abs(v))
+	return fixed(v/f, digits) + " " + prefix + unit
+}
+
+// SIPrefix is the SI prefix (G … p) and its factor that write a magnitude
+// (≥ 0, in SI units) between 1 and 1000: SIPrefix(0.0124) = "m", 1e-3. Zero
+// takes none; below 1 p, p; from 1 G up, G.
+func SIPrefix(mag float64) (string, float64) {
+	steps := []struct {
 		s string
+		f float64
+	}{{"G", 1e9}, {"M", 1e6}, {"k", 1e3}, {"", 1}, {"m", 1e-3}, {"µ", 1e-6}, {"n", 1e-9}, {"p", 1e-12}}
+	if mag == 0 {
+		return "", 1
 	}
-	steps := []p{{1e9, "G"}, {1e6, "M"}, {1e3, "k"}, {1, ""}, {1e-3, "m"}, {1e-6, "µ"}, {1e-9, "n"}, {1e-12, "p"}}
-	chosen := p{1, ""}
-	if a != 0 {
-		for _, s := range steps {
-			if a >= s.f*0.9999999 {
-				chosen = s
-				break
-			}
-			chosen = s
+	for _, p := range steps {
+		if mag >= p.f*0.9999999 {
+			return p.s, p.f
 		}
 	}
-	return fixed(v/chosen.f, digits) + " " + chosen.s + unit
+	return "p", 1e-12
 }
 
 func fixedOrSci(v float64, digits int) string {
