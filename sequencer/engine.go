@@ -216,7 +216,7 @@ func Open(ctx context.Context, cfg Config) (*Engine, error) {
 		si := st.Instruments[r]
 		ref := instrumentRef(r, si, e.cfg.Conditions)
 		ref.Identity = instruments.Identity{Maker: "0", Model: "0", Serial: "0", Firmware: "0"}
-		if !si.CalDue.IsZero() && now.After(si.CalDue.AddDate(0, 0, 1)) {
+		if cal, _ := si.Calibration(now); cal == CalExpired {
 			return fail(e.blame(r, "calibration due "+ref.CalDue, &expiredError{fmt.Sprintf("%s %s: calibration expired on %s; recalibrate it or fix cal_due in %s", r, si.Asset, ref.CalDue, st.File.Name)}))
 		}
 		// A DUT port's identity belongs to the unit in the fixture, read per run.
@@ -520,7 +520,7 @@ func (e *Engine) run(ctx context.Context, u *Unit) error {
 	// A long batch can outlive a calibration: check every unit, not just at open.
 	for _, r := range seq.Requires {
 		si := e.cfg.Station.Instruments[r]
-		if !si.CalDue.IsZero() && rec.Started.After(si.CalDue.AddDate(0, 0, 1)) {
+		if cal, _ := si.Calibration(rec.Started); cal == CalExpired {
 			return e.blame(r, "calibration due "+si.CalDue.Format("2006-01-02"), &stop{verdict: Fault, cause: ErrCalibrationExpired, msg: fmt.Sprintf("%s %s: calibration expired on %s; recalibrate it or fix cal_due in %s",
 				r, si.Asset, si.CalDue.Format("2006-01-02"), e.cfg.Station.File.Name)})
 		}

@@ -13,6 +13,35 @@ import (
 // runs out.
 const CalWarnDays = 14
 
+// CalState is where an instrument's calibration stands on a day.
+type CalState int
+
+// The states of a calibration: current, running out within CalWarnDays days
+// (the last day of cal_due included), or run out (after the last day).
+const (
+	CalCurrent CalState = iota
+	CalDueSoon
+	CalExpired
+)
+
+// Calibration says where the instrument's calibration stands at now and how
+// many whole UTC days are left until its cal_due (negative once past);
+// CalCurrent with 0 days for an instrument without a cal_due. CheckCalibration,
+// the engine and the console's status all decide by it.
+func (si StationInstrument) Calibration(now time.Time) (CalState, int) {
+	if si.CalDue.IsZero() {
+		return CalCurrent, 0
+	}
+	left := int(si.CalDue.Sub(now.UTC().Truncate(24*time.Hour)).Hours() / 24)
+	switch {
+	case now.After(si.CalDue.AddDate(0, 0, 1)):
+		return CalExpired, left
+	case left <= CalWarnDays:
+		return CalDueSoon, left
+	}
+	return CalCurrent, left
+}
+
 // Errorf returns a problem positioned at path in the station file (a YAML path
 // such as "$.signing.key"), for checks made after loading; a Station not loaded
 // from a file gives the file name alone.
@@ -43,11 +72,11 @@ func (s *Station) CheckCalibration(now time.Time) files.List {
 		}
 		due := si.CalDue.Format("2006-01-02")
 		path := "$.instruments." + r + ".cal_due"
-		left := int(si.CalDue.Sub(today).Hours() / 24)
+		cal, left := si.Calibration(now)
 		switch {
-		case now.After(si.CalDue.AddDate(0, 0, 1)):
+		case cal == CalExpired:
 			out = append(out, s.Errorf(path, "the calibration of the %s %s ran out on %s: the engine refuses to run; recalibrate it and update cal_due", r, si.Asset, due))
-		case left <= CalWarnDays:
+		case cal == CalDueSoon:
 			when := fmt.Sprintf("in %d days", left)
 			switch left {
 			case 0:

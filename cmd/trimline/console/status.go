@@ -44,7 +44,7 @@ func (s *Server) refreshStatus(ctx context.Context) {
 	items = append(items, files)
 
 	cal := statusItem{Key: "calibration", State: "ok", Title: "calibration current"}
-	today := time.Now().UTC().Truncate(24 * time.Hour)
+	now := time.Now()
 	var soonest time.Time
 	var expired, soon []string // "meter DMM-0203 (2026-12-12)"
 	// The instruments this sequence uses, as the engine checks them.
@@ -56,17 +56,17 @@ func (s *Server) refreshStatus(ctx context.Context) {
 		due := in.CalDue.Format("2006-01-02")
 		line := fmt.Sprintf("%s %s due %s", r, in.Asset, due)
 		who := strings.TrimSpace(r+" "+in.Asset) + " (" + due + ")"
-		switch {
-		case today.After(in.CalDue):
+		switch state, left := in.Calibration(now); state {
+		case sequencer.CalExpired:
 			cal.State = "block"
 			expired = append(expired, who)
 			line += " — EXPIRED"
-		case in.CalDue.Sub(today) <= sequencer.CalWarnDays*24*time.Hour: // as trimline check warns
+		case sequencer.CalDueSoon: // as trimline check warns
 			if cal.State == "ok" {
 				cal.State = "warn"
 			}
 			soon = append(soon, who)
-			line += fmt.Sprintf(" — in %d days", int(in.CalDue.Sub(today).Hours()/24))
+			line += fmt.Sprintf(" — in %d days", left)
 		}
 		if soonest.IsZero() || in.CalDue.Before(soonest) {
 			soonest = in.CalDue
