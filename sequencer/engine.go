@@ -437,7 +437,7 @@ func (e *Engine) runUnit(ctx context.Context, serial, operator string) (rec *Rec
 		Files:       []FileRef{st.File, seq.File, seq.LimitsFile},
 		Instruments: append([]InstrumentRef(nil), e.refs...),
 		IdealGain:   seq.IdealGain, IdealOffset: seq.IdealOffset, FullScale: seq.FullScale, ResponseUnit: seq.recordResponseUnit(), StimulusUnit: seq.recordStimulusUnit(),
-		Conditions: e.cfg.Conditions, Coverage: coverage(seq), Engineering: e.cfg.Engineering, Lot: e.cfg.Lot,
+		Conditions: e.cfg.Conditions, Coverage: coverage(seq), Engineering: e.cfg.Engineering, Lot: e.cfg.Lot, Site: st.Site,
 		Simulated: simulation(e.refs, e.benchClock),
 	}
 	if e.cfg.NewID != nil {

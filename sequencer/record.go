@@ -181,6 +181,9 @@ type Record struct {
 	// script gave it (run --lot), "" when none was given: quality numbers
 	// are filtered and trended by it.
 	Lot string `json:"lot,omitempty"`
+	// Site is the station's site (station.site) when the run was made, "" when
+	// the station file names none.
+	Site string `json:"site,omitempty"`
 	// RetestOf is the run id of the earlier measured run (PASS, FAIL or REVIEW) of
 	// the same serial that this run repeats, "" for a first test. The ledger
 	// supersedes that run's certificate when this run is certified.

@@ -34,7 +34,7 @@ func Replay(cfg Config, stored *Record) (*Record, error) {
 		Station: stored.Station, Operator: stored.Operator, Software: stored.Software,
 		Started: stored.Started, Finished: stored.Finished, Files: stored.Files, Instruments: stored.Instruments,
 		IdealGain: seq.IdealGain, IdealOffset: seq.IdealOffset, FullScale: seq.FullScale, ResponseUnit: seq.recordResponseUnit(),
-		Conditions: stored.Conditions, Coverage: coverage(seq), Engineering: stored.Engineering, RetestOf: stored.RetestOf, Lot: stored.Lot,
+		Conditions: stored.Conditions, Coverage: coverage(seq), Engineering: stored.Engineering, RetestOf: stored.RetestOf, Lot: stored.Lot, Site: stored.Site,
 		Simulated: stored.Simulated, StimulusUnit: seq.recordStimulusUnit(),
 	}
 	u := newUnit(cfg, rec, replaying)

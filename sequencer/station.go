@@ -114,7 +114,11 @@ type Station struct {
 	ID                string
 	Name              string
 	CertificatePrefix string
-	Instruments       map[string]StationInstrument // keyed by role
+	// Site is the factory or hall the station stands in (station.site,
+	// optional, "" when not given): recorded in every run (Record.Site) so a
+	// store shared by several sites can be filtered by it.
+	Site        string
+	Instruments map[string]StationInstrument // keyed by role
 	// SourceRating is the source's own output rating, from its data sheet.
 	SourceRating Rating
 	// MaxSourceVolts caps a voltage source's |level| and a current source's
@@ -463,6 +467,7 @@ type stationFile struct {
 		ID                string `yaml:"id"`
 		Name              string `yaml:"name"`
 		CertificatePrefix string `yaml:"certificate_prefix"`
+		Site              string `yaml:"site"`
 	} `yaml:"station"`
 	Instruments map[string]struct {
 		Kind     string   `yaml:"kind"`
@@ -580,6 +585,7 @@ func parseStation(name string, data []byte, recorded bool) (*Station, error) {
 	}
 	st := &Station{
 		ID: f.Station.ID, Name: f.Station.Name, CertificatePrefix: f.Station.CertificatePrefix,
+		Site:        f.Station.Site,
 		Instruments: map[string]StationInstrument{},
 		File:        FileRef{Kind: FileStation, Name: filepath.Base(name), Title: f.Station.Name, SHA256: hashHex(data)},
 		Raw:         data,
@@ -587,6 +593,9 @@ func parseStation(name string, data []byte, recorded bool) (*Station, error) {
 	}
 	if st.CertificatePrefix == "" {
 		st.CertificatePrefix = st.ID
+	}
+	if err := checkLabel("site", st.Site); err != nil {
+		errs = append(errs, doc.Errorf("$.station.site", "%v (the factory or hall the station stands in, e.g. \"Eastfield works\")", err))
 	}
 	if !doc.Has("$.instruments") {
 		errs = append(errs, doc.Errorf("$", "missing required key \"instruments\" (each role with its kind: %s)", kindsText()))

@@ -17,6 +17,7 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"slices"
 
 	"gonum.org/v1/gonum/stat/distuv"
 )
@@ -42,6 +43,8 @@ const (
 	KindMovingRange = "moving_range"
 	KindEWMA        = "ewma"
 	KindCUSUM       = "cusum"
+	KindMeans       = "means"   // X̄ chart of subgroup means (Subgroups)
+	KindSpreads     = "spreads" // s chart of subgroup standard deviations (Subgroups)
 )
 
 // Names of the signal rules in Signal.Rule.
@@ -458,6 +461,91 @@ func Bin(xs []float64, lo, hi float64, n int) Histogram {
 		}
 	}
 	return h
+}
+
+// C4 is the bias correction of the sample standard deviation of n normal
+// values, E[s] = c4·σ: c4(n) = √(2/(n−1))·Γ(n/2)/Γ((n−1)/2) (e-Handbook
+// §6.3.2.1); NaN for n < 2.
+func C4(n int) float64 {
+	if n < 2 {
+		return math.NaN()
+	}
+	a, _ := math.Lgamma(float64(n) / 2)
+	b, _ := math.Lgamma(float64(n-1) / 2)
+	return math.Sqrt(2/float64(n-1)) * math.Exp(a-b)
+}
+
+// Subgroups returns the X̄ chart (Kind "means") and the s chart (Kind
+// "spreads") of groups of unequal size, with a given center and process
+// sigma (e-Handbook §6.3.2.1, limits from a known sigma): group i's mean is
+// plotted against center ± 3·sigma/√nᵢ, its sample standard deviation sᵢ
+// against sigma·(c4(nᵢ) ± 3·√(1 − c4(nᵢ)²)), the lower limit no less than
+// 0. A group of one value has no standard deviation: its s point has Value,
+// Statistic and limits NaN. Each chart's steady-state Center, UCL and LCL are
+// those of the median group size (the s chart's Center is sigma·c4). A point
+// beyond its own limits is a "beyond_3_sigma" signal. Both charts' Sigma is
+// sigma. Subgroups needs at least one group, every group at least one
+// finite value, a finite center and a finite sigma > 0.
+func Subgroups(groups [][]float64, center, sigma float64) (means, spreads Chart, err error) {
+	if len(groups) == 0 {
+		return Chart{}, Chart{}, fmt.Errorf("spc: subgroups: no groups: %w: want at least 1", ErrTooFewPoints)
+	}
+	if math.IsNaN(center) || math.IsInf(center, 0) || !(sigma > 0) || math.IsInf(sigma, 0) {
+		return Chart{}, Chart{}, fmt.Errorf("spc: subgroups: center %v, sigma %v: %w: want a finite center and a finite sigma > 0", center, sigma, ErrInvalidInput)
+	}
+	sizes := make([]int, len(groups))
+	for i, g := range groups {
+		if err := checkSeries(fmt.Sprintf("subgroups: group %d", i+1), g, 1); err != nil {
+			return Chart{}, Chart{}, err
+		}
+		sizes[i] = len(g)
+	}
+	meanLimits := func(n int) (lo, hi float64) {
+		w := 3 * sigma / math.Sqrt(float64(n))
+		return center - w, center + w
+	}
+	sdLimits := func(n int) (c, lo, hi float64) {
+		if n < 2 {
+			return math.NaN(), math.NaN(), math.NaN()
+		}
+		c4 := C4(n)
+		w := 3 * math.Sqrt(1-c4*c4)
+		return sigma * c4, math.Max(0, sigma*(c4-w)), sigma * (c4 + w)
+	}
+	med := medianInt(sizes)
+	means = Chart{Kind: KindMeans, Center: center, Sigma: sigma, Points: make([]Point, len(groups))}
+	means.LCL, means.UCL = meanLimits(med)
+	spreads = Chart{Kind: KindSpreads, Sigma: sigma, Points: make([]Point, len(groups))}
+	spreads.Center, spreads.LCL, spreads.UCL = sdLimits(max(med, 2))
+	for i, g := range groups {
+		m := mean(g)
+		lo, hi := meanLimits(len(g))
+		means.Points[i] = Point{Value: m, Statistic: m, UCL: hi, LCL: lo}
+		if m > hi || m < lo {
+			means.Signals = append(means.Signals, Signal{Index: i + 1, Rule: RuleBeyond3Sigma})
+		}
+		s := math.NaN()
+		if len(g) >= 2 {
+			var ss float64
+			for _, x := range g {
+				ss += (x - m) * (x - m)
+			}
+			s = math.Sqrt(ss / float64(len(g)-1))
+		}
+		_, slo, shi := sdLimits(len(g))
+		spreads.Points[i] = Point{Value: s, Statistic: s, UCL: shi, LCL: slo}
+		if s > shi || s < slo {
+			spreads.Signals = append(spreads.Signals, Signal{Index: i + 1, Rule: RuleBeyond3Sigma})
+		}
+	}
+	return means, spreads, nil
+}
+
+// medianInt is the median of ns (the lower middle one of an even count).
+func medianInt(ns []int) int {
+	s := slices.Clone(ns)
+	slices.Sort(s)
+	return s[(len(s)-1)/2]
 }
 
 // checkSeries returns an error unless xs holds at least need values, all

@@ -2,6 +2,7 @@ package spc_test
 
 import (
 	"errors"
+	"fmt"
 	"math"
 	"reflect"
 	"strings"
@@ -413,3 +414,61 @@ func TestErrors(t *testing.T) {
 func second(_, _ spc.Chart, err error) error { return err }
 
 func errOf[T any](_ T, err error) error { return err }
+
+// TestC4 checks c4 against the e-Handbook's table of control-chart constants
+// (§6.3.2, "Control chart constants"; values as tabulated there, from memory:
+// 0.7979 for n = 2, 0.9400 for n = 5, 0.9727 for n = 10, 0.9896 for n = 25).
+func TestC4(t *testing.T) {
+	for _, c := range []struct {
+		n    int
+		want float64
+	}{{2, 0.7979}, {3, 0.8862}, {5, 0.9400}, {10, 0.9727}, {25, 0.9896}} {
+		near(t, fmt.Sprintf("c4(%d)", c.n), spc.C4(c.n), c.want, 5e-5)
+	}
+	if !math.IsNaN(spc.C4(1)) {
+		t.Errorf("c4(1) = %v, want NaN", spc.C4(1))
+	}
+}
+
+// TestSubgroupsByHand checks the X̄ and s charts of groups of unequal size
+// against limits worked by hand from e-Handbook §6.3.2.1 (known sigma): center
+// 10, sigma 2; group sizes 4, 1, 9.
+func TestSubgroupsByHand(t *testing.T) {
+	groups := [][]float64{{9, 11, 10, 12}, {25}, {10, 10, 10, 10, 10, 10, 10, 10, 10}}
+	means, spreads, err := spc.Subgroups(groups, 10, 2)
+	if err != nil {
+		t.Fatal(err)
+	}
+	// n = 4: 10 ± 3·2/2 = 7 … 13; n = 1: 10 ± 6 = 4 … 16; n = 9: 10 ± 2 = 8 … 12.
+	for i, want := range [][2]float64{{7, 13}, {4, 16}, {8, 12}} {
+		near(t, fmt.Sprintf("mean LCL %d", i+1), means.Points[i].LCL, want[0], 1e-12)
+		near(t, fmt.Sprintf("mean UCL %d", i+1), means.Points[i].UCL, want[1], 1e-12)
+	}
+	near(t, "mean of group 1", means.Points[0].Statistic, 10.5, 1e-12)
+	// Group 2's mean 25 is beyond 16: the only signal of the means chart.
+	if len(means.Signals) != 1 || means.Signals[0] != (spc.Signal{Index: 2, Rule: spc.RuleBeyond3Sigma}) {
+		t.Errorf("means signals = %v, want group 2 beyond 3 sigma", means.Signals)
+	}
+	// s of group 1: deviations −1.5, 0.5, −0.5, 1.5 → Σ = 5, s = √(5/3).
+	near(t, "s of group 1", spreads.Points[0].Statistic, math.Sqrt(5.0/3), 1e-12)
+	// n = 4: c4 = 0.9213 (e-Handbook table, from memory); UCL = 2·(c4 + 3√(1−c4²)).
+	c4 := spc.C4(4)
+	near(t, "c4(4)", c4, 0.9213, 5e-5)
+	near(t, "s UCL n=4", spreads.Points[0].UCL, 2*(c4+3*math.Sqrt(1-c4*c4)), 1e-12)
+	near(t, "s LCL n=4", spreads.Points[0].LCL, 0, 0) // c4 − 3√(1−c4²) < 0
+	if !math.IsNaN(spreads.Points[1].Statistic) || !math.IsNaN(spreads.Points[1].UCL) {
+		t.Errorf("a group of one value has an s point %+v, want NaN", spreads.Points[1])
+	}
+	// Group 3 has s = 0, above its LCL: n = 9, c4 − 3√(1−c4²) = 0.9693 − 0.7385 > 0.
+	c9 := spc.C4(9)
+	near(t, "s LCL n=9", spreads.Points[2].LCL, 2*(c9-3*math.Sqrt(1-c9*c9)), 1e-12)
+	if len(spreads.Signals) != 1 || spreads.Signals[0].Index != 3 {
+		t.Errorf("spreads signals = %v, want group 3 (s = 0 below its LCL)", spreads.Signals)
+	}
+	if _, _, err := spc.Subgroups(nil, 0, 1); !errors.Is(err, spc.ErrTooFewPoints) {
+		t.Errorf("no groups: err = %v", err)
+	}
+	if _, _, err := spc.Subgroups(groups, 10, 0); !errors.Is(err, spc.ErrInvalidInput) {
+		t.Errorf("sigma 0: err = %v", err)
+	}
+}
