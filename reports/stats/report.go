@@ -102,10 +102,10 @@ type Counts struct {
 	// is that run's final verdict): passed, failed, held for REVIEW with no
 	// decision yet. Passed + Failed + Held = Units.
 	Passed, Failed, Held int
-	FirstPass int // units whose first attempt passed (a REVIEW accepted on review without a retest counts)
-	Retested  int // units with more than one attempt
-	Attempts  int // completed runs that measured a unit (review decisions are not attempts)
-	Decisions int // review decisions among the runs counted
+	FirstPass            int // units whose first attempt passed (a REVIEW accepted on review without a retest counts)
+	Retested             int // units with more than one attempt
+	Attempts             int // completed runs that measured a unit (review decisions are not attempts)
+	Decisions            int // review decisions among the runs counted
 	// Runs is every run counted for the fault rate: attempts, faults and
 	// aborted runs.
 	Runs, Faults, Aborted int
