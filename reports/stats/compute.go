@@ -6,7 +6,6 @@ import (
 	"math"
 	"slices"
 	"strings"
-	"time"
 
 	"trimline/instruments/units"
 	"trimline/limits"
@@ -50,42 +49,24 @@ func withDefaults(o Options) Options {
 	return o
 }
 
-// population states the rules Compute applies, one sentence each.
+// population states the rules Compute applies, one sentence each. Which
+// filter was applied is Report.Filter, for the writers to print beside them.
 func population(o Options) []string {
-	eng := "Engineering runs (made with unreleased files) are left out and only counted."
+	eng := "Engineering runs (made with unreleased files) are left out; they are only counted."
 	if o.IncludeEngineering {
-		eng = "Engineering runs (made with unreleased files) are counted like production runs (include-engineering)."
+		eng = "Engineering runs (made with unreleased files) are counted like production runs, as asked."
 	}
 	return []string{
-		"A unit is a serial number; its runs are taken in the order they started.",
-		"An attempt is a completed run (PASS, FAIL or REVIEW); a reviewer's decision on a REVIEW run is not an attempt but gives that run its final verdict (accepted: PASS, rejected: FAIL).",
-		"Each unit's latest attempt counts for yield and capability, with its final verdict; a REVIEW run with no decision yet counts as held, not passed.",
-		"Earlier attempts count only for the retest rate; a unit passes first time when its first attempt's final verdict is PASS.",
-		"FAULT and ABORTED runs measured nothing: they count only in the fault rate (faults / all runs counted).",
+		"The filter (product, revision, station, site, lot, finish date) selects runs before anything else is counted.",
 		eng,
-		"The filter (" + o.Filter.String() + ") applies to the runs before anything else.",
-		"Capability uses each unit's value in the limit's unit, in test order, against the tolerance of the newest counted run.",
+		"A unit is a serial number; its runs are taken in the order they started.",
+		"An attempt is a completed run (PASS, FAIL or REVIEW); a reviewer's decision on a REVIEW run is not an attempt but gives that run its final verdict (accept: PASS, reject: FAIL).",
+		"Each unit's latest attempt counts for yield and capability, with its final verdict; a REVIEW run not yet decided is held, not passed.",
+		"Earlier attempts count only for the retest rate (units tested more than once); first-pass yield counts the units whose first attempt's final verdict is PASS.",
+		"FAULT and ABORTED runs measured nothing: they count only in the fault rate, faults over all runs counted (attempts, faults and aborted runs).",
+		"The Pareto counts, per limit, the units whose latest attempt failed it or is held on it, and the units whose first attempt did not pass it.",
+		"Capability takes each unit's value in the limit's unit, units in test order (the start of their latest attempt), against the tolerance of the newest counted run.",
 	}
-}
-
-// String is the filter in words, "all runs" for none.
-func (f Filter) String() string {
-	var p []string
-	for _, kv := range [][2]string{{"product", f.Product}, {"revision", f.Revision}, {"station", f.Station}, {"site", f.Site}, {"lot", f.Lot}} {
-		if kv[1] != "" {
-			p = append(p, kv[0]+" "+kv[1])
-		}
-	}
-	if !f.Since.IsZero() {
-		p = append(p, "finished on or after "+f.Since.UTC().Format(time.RFC3339))
-	}
-	if !f.Until.IsZero() {
-		p = append(p, "finished before "+f.Until.UTC().Format(time.RFC3339))
-	}
-	if len(p) == 0 {
-		return "all runs"
-	}
-	return strings.Join(p, ", ")
 }
 
 // matches reports whether run passes the filter's fields and time range (not
