@@ -95,15 +95,13 @@ func (l *Ledger) QualityRuns(ctx context.Context, since, until time.Time) ([]Qua
 	idx := map[string]int{}
 	err = eachRow(ctx, tx, `SELECT run_id, serial, product, revision, station, started, finished, verdict,
 		coalesce(certificate, ''), coalesce(retest_of, ''),
-		json_extract(record_json, '$.lot', '$.site', '$.engineering', '$.disposition.of', '$.disposition.decision'),
-		(SELECT json_group_array(json_array(json_extract(value, '$.name'), json_extract(value, '$.channel'),
-			json_extract(value, '$.quantity'))) FROM json_each(record_json, '$.results'))
+		json_extract(record_json, '$.lot', '$.site', '$.engineering', '$.disposition.of', '$.disposition.decision', '$.results')
 		FROM runs WHERE `+where+` ORDER BY started, run_id`, args, func(rows *sql.Rows) error {
 		var r QualityRun
-		var started, finished, verdict, facts string
-		var quants sql.NullString
+		var started, finished, verdict string
+		var facts []byte
 		if err := rows.Scan(&r.RunID, &r.Serial, &r.Product, &r.Revision, &r.Station, &started, &finished, &verdict,
-			&r.Certificate, &r.RetestOf, &facts, &quants); err != nil {
+			&r.Certificate, &r.RetestOf, &facts); err != nil {
 			return err
 		}
 		var err error
@@ -115,28 +113,17 @@ func (l *Ledger) QualityRuns(ctx context.Context, since, until time.Time) ([]Qua
 		}
 		r.Verdict = sequencer.Verdict(q.intern(verdict))
 		r.Product, r.Revision, r.Station = q.intern(r.Product), q.intern(r.Revision), q.intern(r.Station)
-		var f [5]any
-		if err := json.Unmarshal([]byte(facts), &f); err != nil {
+		var f recordFacts
+		if err := f.decode(facts); err != nil {
 			return fmt.Errorf("%w: run %s: record facts: %v", ErrCorrupt, r.RunID, err)
 		}
-		r.Lot, r.Site = q.intern(text(f[0])), q.intern(text(f[1]))
-		r.Engineering = f[2] == true || f[2] == float64(1)
-		if of := text(f[3]); of != "" {
-			r.Disposition = &QualityDisposition{Of: of, Decision: text(f[4])}
+		r.Lot, r.Site, r.Engineering = q.intern(f.Lot), q.intern(f.Site), f.Engineering
+		if f.Of != "" {
+			r.Disposition = &QualityDisposition{Of: f.Of, Decision: f.Decision}
 		}
-		if quants.Valid {
-			var qs [][3]*string
-			if err := json.Unmarshal([]byte(quants.String), &qs); err != nil {
-				return fmt.Errorf("%w: run %s: result quantities: %v", ErrCorrupt, r.RunID, err)
-			}
-			for _, e := range qs {
-				if e[0] != nil && e[2] != nil && *e[2] != "" {
-					ch := ""
-					if e[1] != nil {
-						ch = *e[1]
-					}
-					q.quantity[q.key(r.RunID, *e[0], ch)] = q.intern(*e[2])
-				}
+		for _, e := range f.Results {
+			if e.Quantity != "" {
+				q.quantity[q.key(r.RunID, e.Name, e.Channel)] = q.intern(e.Quantity)
 			}
 		}
 		idx[r.RunID] = len(q.runs)
@@ -261,13 +248,6 @@ func (q *quality) values(doc string, out *map[string]float64) error {
 	return nil
 }
 
-// text is a JSON value decoded into an any as a string, "" for null or any
-// other type.
-func text(v any) string {
-	s, _ := v.(string)
-	return s
-}
-
 func nullNaN(v sql.NullFloat64) float64 {
 	if !v.Valid {
 		return math.NaN()
@@ -281,4 +261,30 @@ func nullPtr(v sql.NullFloat64) *float64 {
 	}
 	f := v.Float64
 	return &f
+}
+
+// recordFacts are what QualityRuns takes from a record's JSON.
+type recordFacts struct {
+	Lot, Site, Of, Decision string
+	Engineering             bool
+	Results                 []struct{ Name, Channel, Quantity string }
+}
+
+// decode reads the array that json_extract makes of a record's lot, site,
+// engineering mark, decision (the run decided on, the decision) and results;
+// a missing member is null.
+func (f *recordFacts) decode(doc []byte) error {
+	var a [6]json.RawMessage
+	if err := json.Unmarshal(doc, &a); err != nil {
+		return err
+	}
+	for i, dst := range []any{&f.Lot, &f.Site, &f.Engineering, &f.Of, &f.Decision, &f.Results} {
+		if len(a[i]) == 0 || string(a[i]) == "null" {
+			continue
+		}
+		if err := json.Unmarshal(a[i], dst); err != nil {
+			return err
+		}
+	}
+	return nil
 }
