@@ -25,6 +25,9 @@ func Compute(runs []ledger.QualityRun, o Options) Report {
 	kept := r.filter(runs)
 	units := r.population(kept)
 	r.Population = population(o)
+	if n := r.Counts.Engineering; n > 0 && !o.IncludeEngineering {
+		r.Notes = append(r.Notes, fmt.Sprintf("%d engineering run(s) matched the filter and are left out (--include-engineering counts them).", n))
+	}
 	r.rates()
 	r.pareto(units)
 	r.results(units, o)
@@ -258,6 +261,7 @@ type resultAcc struct {
 	scale  float64 // of Unit: SI value = value in Unit × scale; NaN when the unit does not parse
 	other  int     // runs judged against another tolerance or unit
 	absent int     // counted units whose latest run has neither the result nor its limit
+	failed error   // why spc.Capable computed nothing
 }
 
 // results computes every toleranced result's capability over the units'
@@ -422,7 +426,10 @@ func (acc *resultAcc) capability(o Options) {
 		s.Mean = sum / float64(s.N)
 	}
 	if s.N >= 2 {
-		if c, err := spc.Capable(s.Values, s.Lower, s.Upper, o.Confidence); err == nil {
+		c, err := spc.Capable(s.Values, s.Lower, s.Upper, o.Confidence)
+		if err != nil {
+			acc.failed = err
+		} else {
 			s.Mean, s.SDWithin, s.SDOverall = c.Mean, c.SDWithin, c.SDOverall
 			s.Cp, s.Cpk, s.Pp, s.Ppk = c.Cp, c.Cpk, c.Pp, c.Ppk
 			s.CpCI, s.CpkCI, s.FractionOutside = c.CpCI, c.CpkCI, c.FractionOutside
@@ -499,6 +506,9 @@ func (r *Report) notes(acc *resultAcc) {
 	if acc.other > 0 {
 		r.Notes = append(r.Notes, fmt.Sprintf("%s: %d run(s) were judged against another tolerance than the newest run's (%s); every value is compared with the newest.",
 			acc.Name, acc.other, tolerance(acc.Lower, acc.Upper, acc.Unit)))
+	}
+	if acc.failed != nil {
+		r.Notes = append(r.Notes, fmt.Sprintf("%s: no capability: %v.", acc.Name, acc.failed))
 	}
 	if acc.N < 2 {
 		r.Notes = append(r.Notes, fmt.Sprintf("%s: %d valid value(s), fewer than 2: no capability.", acc.Name, acc.N))

@@ -361,6 +361,7 @@ func TestCapability(t *testing.T) {
 		"post_gain_error: 1 valid value(s), fewer than 2",
 		"post_noise: 1 unit(s) have no valid value",
 		"post_gain_error: 5 unit(s) were tested without",
+		"1 engineering run(s) matched the filter and are left out",
 	} {
 		if !strings.Contains(notes, w) {
 			t.Errorf("notes lack %q:\n%s", w, notes)
