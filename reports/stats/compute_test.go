@@ -17,14 +17,14 @@ import (
 	"trimline/sequencer/spc"
 )
 
-var ctx = context.Background()
+var handCtx = context.Background()
 
-// day0 is the first test day of the hand-worked population.
-var day0 = time.Date(2026, 3, 2, 8, 0, 0, 0, time.UTC)
+// handDay0 is the first test day of the hand-worked population.
+var handDay0 = time.Date(2026, 3, 2, 8, 0, 0, 0, time.UTC)
 
-// testRun is one run of the hand-worked population. Values are in the limits'
+// handRun is one run of the hand-worked population. Values are in the limits'
 // units: offset and noise in uV, pre in mV; NaN noise is an invalid result.
-type testRun struct {
+type handRun struct {
 	id, serial string
 	verdict    sequencer.Verdict
 	day        int
@@ -51,9 +51,9 @@ type testRun struct {
 //	U6 FAULT only
 //	U7 PASS then ABORTED, station S2, no lot, the only unit with post_gain_error
 //	U8 PASS, engineering
-func population() []testRun {
+func handPopulation() []handRun {
 	nan := math.NaN()
-	return []testRun{
+	return []handRun{
 		{id: "r01", serial: "U1", verdict: sequencer.Pass, lot: "L1", site: "North", offset: 10, noise: 20, pre: 3, tol: 60},
 		{id: "r02", serial: "U2", verdict: sequencer.Fail, lot: "L1", site: "North", offset: 70, noise: 22, pre: -4},
 		{id: "r03", serial: "U2", verdict: sequencer.Pass, lot: "L1", site: "North", retestOf: "r02", offset: 12, noise: 22, pre: -4},
@@ -68,11 +68,11 @@ func population() []testRun {
 	}
 }
 
-func ptr(v float64) *float64 { return &v }
+func tolPtr(v float64) *float64 { return &v }
 
 // record makes the record of run i of the population.
-func (tr testRun) record(i int) *sequencer.Record {
-	start := day0.Add(time.Duration(tr.day)*24*time.Hour + time.Duration(i)*10*time.Minute)
+func (tr handRun) record(i int) *sequencer.Record {
+	start := handDay0.Add(time.Duration(tr.day)*24*time.Hour + time.Duration(i)*10*time.Minute)
 	station := tr.station
 	if station == "" {
 		station = "S1"
@@ -113,16 +113,16 @@ func (tr testRun) record(i int) *sequencer.Record {
 		if !noise.Pass {
 			z = limits.ZoneFail
 		}
-		noise.Decision = &limits.Decision{Result: "post_noise", Upper: ptr(60), Rule: limits.RuleSimple, Value: tr.noise, Zone: z}
+		noise.Decision = &limits.Decision{Result: "post_noise", Upper: tolPtr(60), Rule: limits.RuleSimple, Value: tr.noise, Zone: z}
 	}
 	rec.Outcomes = []limits.Outcome{
 		{Name: "offset", Expr: "abs(post_offset) <= tol", Unit: "uV", Uses: []string{"post_offset"},
 			Values: map[string]float64{"post_offset": tr.offset}, Pass: zone == limits.ZonePass,
-			Decision: &limits.Decision{Result: "post_offset", Lower: ptr(-tol), Upper: ptr(tol), Rule: limits.RuleSimple, Value: tr.offset, U: 2, Zone: zone}},
+			Decision: &limits.Decision{Result: "post_offset", Lower: tolPtr(-tol), Upper: tolPtr(tol), Rule: limits.RuleSimple, Value: tr.offset, U: 2, Zone: zone}},
 		noise,
 		{Name: "pre offset", Expr: "abs(pre_offset) <= 20", Unit: "mV", Uses: []string{"pre_offset"},
 			Values: map[string]float64{"pre_offset": tr.pre}, Pass: math.Abs(tr.pre) <= 20,
-			Decision: &limits.Decision{Result: "pre_offset", Lower: ptr(-20), Upper: ptr(20), Rule: limits.RuleSimple, Value: tr.pre, Zone: limits.ZonePass}},
+			Decision: &limits.Decision{Result: "pre_offset", Lower: tolPtr(-20), Upper: tolPtr(20), Rule: limits.RuleSimple, Value: tr.pre, Zone: limits.ZonePass}},
 		{Name: "codes", Expr: "pre_offset < 1", Unit: "", Uses: []string{"pre_offset"}, Values: map[string]float64{"pre_offset": tr.pre * 1e-3}, Pass: true},
 	}
 	if tr.gain != 0 {
@@ -130,15 +130,15 @@ func (tr testRun) record(i int) *sequencer.Record {
 			Value: tr.gain * 1e-6, Unit: "ratio", Valid: true})
 		rec.Outcomes = append(rec.Outcomes, limits.Outcome{Name: "gain", Unit: "ppm", Uses: []string{"post_gain_error"},
 			Values: map[string]float64{"post_gain_error": tr.gain}, Pass: true,
-			Decision: &limits.Decision{Result: "post_gain_error", Lower: ptr(-500), Upper: ptr(500), Rule: limits.RuleSimple, Value: tr.gain, Zone: limits.ZonePass}})
+			Decision: &limits.Decision{Result: "post_gain_error", Lower: tolPtr(-500), Upper: tolPtr(500), Rule: limits.RuleSimple, Value: tr.gain, Zone: limits.ZonePass}})
 	}
 	return rec
 }
 
-// buildLedger stores runs in a new ledger and returns it open.
-func buildLedger(t *testing.T, runs []testRun) *ledger.Ledger {
+// storeHandRuns stores runs in a new ledger and returns it open.
+func storeHandRuns(t *testing.T, runs []handRun) *ledger.Ledger {
 	t.Helper()
-	led, err := ledger.Open(ctx, filepath.Join(t.TempDir(), "ledger.db"))
+	led, err := ledger.Open(handCtx, filepath.Join(t.TempDir(), "ledger.db"))
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -152,7 +152,7 @@ func buildLedger(t *testing.T, runs []testRun) *ledger.Ledger {
 				Reviewer: "Ina Reviewer", Reason: "inside the guard band, rechecked", At: rec.Started}
 			opt.Review = &ledger.ReviewDetail{Reason: "rechecked"}
 		}
-		cert, err := led.RecordRunWith(ctx, rec, opt)
+		cert, err := led.RecordRunWith(handCtx, rec, opt)
 		if err != nil {
 			t.Fatalf("store %s: %v", tr.id, err)
 		}
@@ -161,20 +161,20 @@ func buildLedger(t *testing.T, runs []testRun) *ledger.Ledger {
 	return led
 }
 
-func read(t *testing.T, led *ledger.Ledger, o stats.Options) stats.Report {
+func readReport(t *testing.T, led *ledger.Ledger, o stats.Options) stats.Report {
 	t.Helper()
-	r, err := stats.Read(ctx, led, o)
+	r, err := stats.Read(handCtx, led, o)
 	if err != nil {
 		t.Fatal(err)
 	}
 	return r
 }
 
-func near(a, b, tol float64) bool { return math.Abs(a-b) <= tol }
+func handNear(a, b, tol float64) bool { return math.Abs(a-b) <= tol }
 
-func TestRatesOfTheHandWorkedPopulation(t *testing.T) {
-	led := buildLedger(t, population())
-	r := read(t, led, stats.Options{})
+func TestComputeRatesOfAHandWorkedPopulation(t *testing.T) {
+	led := storeHandRuns(t, handPopulation())
+	r := readReport(t, led, stats.Options{})
 	want := stats.Counts{Units: 6, Passed: 4, Failed: 1, Held: 1, FirstPass: 3, Retested: 1, Attempts: 7, Decisions: 1,
 		Runs: 9, Faults: 1, Aborted: 1, Engineering: 1, NoCompleted: 1}
 	if r.Counts != want {
@@ -187,7 +187,7 @@ func TestRatesOfTheHandWorkedPopulation(t *testing.T) {
 		{"yield", r.Yield, 4.0 / 6}, {"first-pass yield", r.FirstPassYield, 3.0 / 6},
 		{"retest rate", r.RetestRate, 1.0 / 6}, {"fault rate", r.FaultRate, 1.0 / 9},
 	} {
-		if !near(c.got, c.want, 1e-12) {
+		if !handNear(c.got, c.want, 1e-12) {
 			t.Errorf("%s = %v, want %v", c.name, c.got, c.want)
 		}
 	}
@@ -209,7 +209,7 @@ func TestRatesOfTheHandWorkedPopulation(t *testing.T) {
 		t.Errorf("first verdicts %v, want %v", firsts, w)
 	}
 	u3 := r.Units[2]
-	if u3.RunID != "r06" || u3.Attempts != 1 || !u3.Started.Equal(day0.Add(24*time.Hour+30*time.Minute)) {
+	if u3.RunID != "r06" || u3.Attempts != 1 || !u3.Started.Equal(handDay0.Add(24*time.Hour+30*time.Minute)) {
 		t.Errorf("U3 row %+v: want the decision's run id r06, 1 attempt, the REVIEW run's start", u3)
 	}
 	if r.Units[1].Attempts != 2 || r.Units[1].RunID != "r03" {
@@ -220,7 +220,7 @@ func TestRatesOfTheHandWorkedPopulation(t *testing.T) {
 	}
 
 	// Engineering runs included: U8 counts as a seventh unit, passed first time.
-	r = read(t, led, stats.Options{Filter: stats.Filter{IncludeEngineering: true}})
+	r = readReport(t, led, stats.Options{Filter: stats.Filter{IncludeEngineering: true}})
 	want = stats.Counts{Units: 7, Passed: 5, Failed: 1, Held: 1, FirstPass: 4, Retested: 1, Attempts: 8, Decisions: 1,
 		Runs: 10, Faults: 1, Aborted: 1, Engineering: 1, NoCompleted: 1}
 	if r.Counts != want {
@@ -228,8 +228,8 @@ func TestRatesOfTheHandWorkedPopulation(t *testing.T) {
 	}
 }
 
-func TestFilters(t *testing.T) {
-	led := buildLedger(t, population())
+func TestComputeFilters(t *testing.T) {
+	led := storeHandRuns(t, handPopulation())
 	for _, c := range []struct {
 		name    string
 		f       stats.Filter
@@ -243,12 +243,12 @@ func TestFilters(t *testing.T) {
 		{"other product", stats.Filter{Product: "AMP-2"}, "", 0},
 		{"revision", stats.Filter{Revision: "a"}, "U1 U2 U3 U4 U5 U7", 9},
 		// Day 0's runs only; until is exclusive.
-		{"until", stats.Filter{Until: day0.Add(24 * time.Hour)}, "U1 U2", 3},
+		{"until", stats.Filter{Until: handDay0.Add(24 * time.Hour)}, "U1 U2", 3},
 		// From r05 on: U3's REVIEW run r04 (finished 08:31) is left out, so its
 		// decision decides nothing counted; U2's runs too.
-		{"since", stats.Filter{Since: day0.Add(24*time.Hour + 41*time.Minute)}, "U4 U5 U7", 5},
+		{"since", stats.Filter{Since: handDay0.Add(24*time.Hour + 41*time.Minute)}, "U4 U5 U7", 5},
 	} {
-		r, err := stats.Read(ctx, led, stats.Options{Filter: c.f})
+		r, err := stats.Read(handCtx, led, stats.Options{Filter: c.f})
 		if c.runs == 0 {
 			if !errors.Is(err, stats.ErrNoRuns) {
 				t.Errorf("%s: error %v, want ErrNoRuns", c.name, err)
@@ -268,8 +268,8 @@ func TestFilters(t *testing.T) {
 	}
 }
 
-func TestPareto(t *testing.T) {
-	r := read(t, buildLedger(t, population()), stats.Options{})
+func TestComputePareto(t *testing.T) {
+	r := readReport(t, storeHandRuns(t, handPopulation()), stats.Options{})
 	// offset: U5 failed it, U4 is held on it; first attempts of U2 (fail),
 	// U3 and U4 (conditional) and U5 did not pass it. noise: U5 failed it;
 	// U4's invalid noise is held with the unit.
@@ -282,7 +282,7 @@ func TestPareto(t *testing.T) {
 	}
 }
 
-func result(t *testing.T, r stats.Report, name string) stats.ResultStats {
+func resultNamed(t *testing.T, r stats.Report, name string) stats.ResultStats {
 	t.Helper()
 	for _, s := range r.Results {
 		if s.Name == name {
@@ -293,8 +293,8 @@ func result(t *testing.T, r stats.Report, name string) stats.ResultStats {
 	return stats.ResultStats{}
 }
 
-func TestCapability(t *testing.T) {
-	r := read(t, buildLedger(t, population()), stats.Options{})
+func TestComputeCapability(t *testing.T) {
+	r := readReport(t, storeHandRuns(t, handPopulation()), stats.Options{})
 	var names []string
 	for _, s := range r.Results {
 		names = append(names, s.Name+"/"+s.Stage)
@@ -303,7 +303,7 @@ func TestCapability(t *testing.T) {
 	if w := "pre_offset/as_found post_offset/as_left post_noise/as_left post_gain_error/as_left"; strings.Join(names, " ") != w {
 		t.Fatalf("results %v, want %s", names, w)
 	}
-	off := result(t, r, "post_offset")
+	off := resultNamed(t, r, "post_offset")
 	values := []float64{10, 12, 20, 45, 400, 14} // U1, U2 (retest), U3, U4, U5, U7
 	if !reflect.DeepEqual(off.Values, values) || !reflect.DeepEqual(off.Units, []int{0, 1, 2, 3, 4, 5}) {
 		t.Fatalf("post_offset values %v of units %v, want %v", off.Values, off.Units, values)
@@ -314,7 +314,7 @@ func TestCapability(t *testing.T) {
 	// By hand: mean 501/6 = 83.5; Σ(x−x̄)² = 121031.5, s = √(121031.5/5) =
 	// 155.5837; moving ranges 2, 8, 25, 355, 386, MR̄ = 155.2, MR̄/1.128 =
 	// 137.5887 (e-Handbook §6.3.2.2: d2 = 1.128 for ranges of two).
-	if !near(off.Mean, 83.5, 1e-12) || !near(off.SDOverall, 155.58374, 1e-4) || !near(off.SDWithin, 137.58865, 1e-4) {
+	if !handNear(off.Mean, 83.5, 1e-12) || !handNear(off.SDOverall, 155.58374, 1e-4) || !handNear(off.SDWithin, 137.58865, 1e-4) {
 		t.Errorf("post_offset mean %v sd %v within %v, want 83.5, 155.5837, 137.5887", off.Mean, off.SDOverall, off.SDWithin)
 	}
 	c, err := spc.Capable(values, off.Lower, off.Upper, 0.95)
@@ -336,7 +336,7 @@ func TestCapability(t *testing.T) {
 
 	// One-sided: from the lowest value (the 1st percentile of 5) to the limit,
 	// 20 … 60 uV, widened by a quarter of 40 uV each side; 90 uV is overflow.
-	noise := result(t, r, "post_noise")
+	noise := resultNamed(t, r, "post_noise")
 	if noise.N != 5 || noise.Invalid != 1 || noise.Hist.Lo != 10 || noise.Hist.Hi != 70 || noise.Hist.Over != 1 || !math.IsNaN(noise.Cp) || math.IsNaN(noise.Cpk) {
 		t.Errorf("post_noise n %d invalid %d histogram %v … %v over %d Cp %v Cpk %v; want 5, 1, 10 … 70, 1, NaN, a number",
 			noise.N, noise.Invalid, noise.Hist.Lo, noise.Hist.Hi, noise.Hist.Over, noise.Cp, noise.Cpk)
@@ -344,11 +344,11 @@ func TestCapability(t *testing.T) {
 	if !math.IsNaN(noise.MeanU) {
 		t.Errorf("post_noise mean U %v, want NaN (no uncertainty recorded)", noise.MeanU)
 	}
-	pre := result(t, r, "pre_offset")
+	pre := resultNamed(t, r, "pre_offset")
 	if pre.Unit != "mV" || !reflect.DeepEqual(pre.Values, []float64{3, -4, 5, 1, 2, 0}) || pre.MeanU != 0.002 {
 		t.Errorf("pre_offset unit %q values %v mean U %v, want mV, [3 -4 5 1 2 0], 0.002", pre.Unit, pre.Values, pre.MeanU)
 	}
-	gain := result(t, r, "post_gain_error")
+	gain := resultNamed(t, r, "post_gain_error")
 	if gain.N != 1 || !math.IsNaN(gain.Cpk) || !math.IsNaN(gain.SDOverall) || gain.Mean != 12 {
 		t.Errorf("post_gain_error n %d Cpk %v sd %v mean %v, want 1, NaN, NaN, 12", gain.N, gain.Cpk, gain.SDOverall, gain.Mean)
 	}
@@ -369,8 +369,8 @@ func TestCapability(t *testing.T) {
 	}
 }
 
-func TestTrends(t *testing.T) {
-	led := buildLedger(t, population())
+func TestComputeTrends(t *testing.T) {
+	led := storeHandRuns(t, handPopulation())
 	groups := func(tr stats.Trend) string {
 		var s []string
 		for _, g := range tr.Groups {
@@ -393,7 +393,7 @@ func TestTrends(t *testing.T) {
 		{stats.ByLot, "L1:xxxx L2:x (no lot):x"},
 		{stats.ByStation, "S1:xxxxx S2:x"},
 	} {
-		r := read(t, led, stats.Options{By: c.by})
+		r := readReport(t, led, stats.Options{By: c.by})
 		tr, ok := trendOf(r, "post_offset")
 		if !ok {
 			t.Errorf("by %s: no trend of post_offset", c.by)
@@ -409,19 +409,19 @@ func TestTrends(t *testing.T) {
 			t.Errorf("by %s: a trend of post_gain_error, which has one value", c.by)
 		}
 	}
-	r := read(t, led, stats.Options{By: stats.ByDay})
+	r := readReport(t, led, stats.Options{By: stats.ByDay})
 	tr, _ := trendOf(r, "post_offset")
-	if g := tr.Groups[0]; g.Mean != 11 || !near(g.SD, math.Sqrt2, 1e-12) {
+	if g := tr.Groups[0]; g.Mean != 11 || !handNear(g.SD, math.Sqrt2, 1e-12) {
 		t.Errorf("day 1 group mean %v sd %v, want 11 and √2 (10 and 12 uV)", g.Mean, g.SD)
 	}
 }
 
-func TestNoRuns(t *testing.T) {
-	led := buildLedger(t, population()[:0])
-	if _, err := stats.Read(ctx, led, stats.Options{}); !errors.Is(err, stats.ErrNoRuns) {
+func TestReadNoRuns(t *testing.T) {
+	led := storeHandRuns(t, handPopulation()[:0])
+	if _, err := stats.Read(handCtx, led, stats.Options{}); !errors.Is(err, stats.ErrNoRuns) {
 		t.Errorf("empty ledger: error %v, want ErrNoRuns", err)
 	}
-	if _, err := stats.Open(ctx, filepath.Join(t.TempDir(), "none.db"), stats.Options{}); err == nil || errors.Is(err, stats.ErrNoRuns) {
+	if _, err := stats.Open(handCtx, filepath.Join(t.TempDir(), "none.db"), stats.Options{}); err == nil || errors.Is(err, stats.ErrNoRuns) {
 		t.Errorf("missing ledger: error %v, want a missing file", err)
 	}
 	r := stats.Compute(nil, stats.Options{})

@@ -11,10 +11,10 @@ import (
 	"trimline/sequencer"
 )
 
-// synthetic makes n passing two-channel units without a ledger: per channel
+// twoChannelRuns makes n passing two-channel units without a ledger: per channel
 // an as-found and an as-left gain error (ppm, ±500) and a noise (uV, ≤ 60 on
 // channel 1 only); noise[i] is unit i's channel-1 noise.
-func synthetic(noise []float64) []ledger.QualityRun {
+func twoChannelRuns(noise []float64) []ledger.QualityRun {
 	t0 := time.Date(2026, 4, 1, 6, 0, 0, 0, time.UTC)
 	runs := make([]ledger.QualityRun, len(noise))
 	for i, nz := range noise {
@@ -28,20 +28,20 @@ func synthetic(noise []float64) []ledger.QualityRun {
 				ledger.QualityResult{Name: "post_gain", Channel: ch, Value: post * 1e-6, Unit: "ratio", Valid: true, Stage: sequencer.AsLeft, Quantity: "gain_error"})
 			r.Outcomes = append(r.Outcomes,
 				ledger.QualityOutcome{Name: "gain", Channel: ch, Unit: "ppm", Pass: true, Values: map[string]float64{"post_gain": post},
-					Rule: "simple", Lower: ptr(-500), Upper: ptr(500), Zone: "pass"},
+					Rule: "simple", Lower: tolPtr(-500), Upper: tolPtr(500), Zone: "pass"},
 				ledger.QualityOutcome{Name: "raw gain", Channel: ch, Unit: "ppm", Pass: true, Values: map[string]float64{"pre_gain": pre},
-					Rule: "simple", Lower: ptr(-5000), Upper: ptr(5000), Zone: "pass"})
+					Rule: "simple", Lower: tolPtr(-5000), Upper: tolPtr(5000), Zone: "pass"})
 		}
 		r.Results = append(r.Results, ledger.QualityResult{Name: "noise", Channel: "1", Value: nz * 1e-6, Unit: "V", Valid: true, Stage: sequencer.AsLeft, Quantity: "noise"})
 		r.Outcomes = append(r.Outcomes, ledger.QualityOutcome{Name: "noise", Channel: "1", Unit: "uV", Pass: true,
-			Values: map[string]float64{"noise": nz}, Rule: "simple", Upper: ptr(60), Zone: "pass"})
+			Values: map[string]float64{"noise": nz}, Rule: "simple", Upper: tolPtr(60), Zone: "pass"})
 		runs[i] = r
 	}
 	return runs
 }
 
-func TestChannelsAndPairs(t *testing.T) {
-	r := stats.Compute(synthetic([]float64{20, 21, 22}), stats.Options{})
+func TestComputeChannelsAndPairs(t *testing.T) {
+	r := stats.Compute(twoChannelRuns([]float64{20, 21, 22}), stats.Options{})
 	var names []string
 	for _, s := range r.Results {
 		names = append(names, s.Name)
@@ -66,7 +66,7 @@ func TestOneSidedBandIgnoresAnOutlier(t *testing.T) {
 		noise[i] = 20 + float64(i%11) // 20 … 30 uV
 	}
 	noise[50] = -1000
-	r := stats.Compute(synthetic(noise), stats.Options{})
+	r := stats.Compute(twoChannelRuns(noise), stats.Options{})
 	s := r.Results[len(r.Results)-1]
 	// 1st percentile: rank ⌊0.01·199⌋ = 1 of the sorted values, 20 uV; span to
 	// the limit 40 uV, a quarter of it either side.
@@ -74,7 +74,7 @@ func TestOneSidedBandIgnoresAnOutlier(t *testing.T) {
 		t.Errorf("%s histogram %v … %v, %d bins, under %d over %d; want 10 … 70, %d bins, 1, 0",
 			s.Name, s.Hist.Lo, s.Hist.Hi, len(s.Hist.Counts), s.Hist.Under, s.Hist.Over, stats.DefaultBins)
 	}
-	r = stats.Compute(synthetic(noise), stats.Options{Bins: 10, Margin: 0.5})
+	r = stats.Compute(twoChannelRuns(noise), stats.Options{Bins: 10, Margin: 0.5})
 	s = r.Results[len(r.Results)-1]
 	if s.Hist.Lo != 0 || s.Hist.Hi != 80 || len(s.Hist.Counts) != 10 {
 		t.Errorf("bins 10, margin 0.5: %v … %v in %d bins, want 0 … 80 in 10", s.Hist.Lo, s.Hist.Hi, len(s.Hist.Counts))
