@@ -447,12 +447,17 @@ func (acc *resultAcc) capability(o Options) {
 	}
 	lo, hi := band(s.Values, s.Lower, s.Upper, o.Margin)
 	s.Hist = spc.Bin(s.Values, lo, hi, o.Bins)
+	if s.N >= 2 {
+		lo, hi = band(s.Values, nil, nil, o.Margin)
+		s.DataHist = spc.Bin(s.Values, lo, hi, o.Bins)
+	}
 }
 
 // band is the histogram's range: a two-sided tolerance widened by margin·W on
 // each side (W its width); a one-sided one from the limit to the far robust
 // end of the data (the 1st or 99th percentile, so one outlier does not set
-// it), widened by margin times that span on each side.
+// it), widened by margin times that span on each side; with no tolerance, the
+// data's robust range (1st to 99th percentile) widened the same way.
 func band(xs []float64, lower, upper *float64, margin float64) (lo, hi float64) {
 	switch {
 	case lower != nil && upper != nil && *upper > *lower:
@@ -463,8 +468,12 @@ func band(xs []float64, lower, upper *float64, margin float64) (lo, hi float64) 
 			return 0, 1
 		}
 		a, b := percentile(xs, 0.01), percentile(xs, 0.99)
-		if !(b > a) {
-			a, b = a-0.5, b+0.5
+		if !(b > a) { // all equal: a band of their size around them
+			d := math.Abs(a) / 2
+			if !(d > 0) {
+				d = 0.5
+			}
+			a, b = a-d, b+d
 		}
 		return a - margin*(b-a), b + margin*(b-a)
 	}

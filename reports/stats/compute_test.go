@@ -334,6 +334,13 @@ func TestComputeCapability(t *testing.T) {
 			off.Hist.Lo, off.Hist.Hi, len(off.Hist.Counts), off.Hist.Under, off.Hist.Over, stats.DefaultBins)
 	}
 
+	// Over the data's own range: 1st percentile (rank ⌊0.01·5⌋ = 0) 10 uV, 99th
+	// (rank ⌊0.99·5⌋ = 4) 45 uV, a quarter of 35 uV either side; 400 uV over.
+	if h := off.DataHist; h.Lo != 1.25 || h.Hi != 53.75 || h.Over != 1 || h.Under != 0 || len(h.Counts) != stats.DefaultBins {
+		t.Errorf("post_offset data histogram %v … %v, under %d over %d, %d bins; want 1.25 … 53.75, 0, 1, %d",
+			h.Lo, h.Hi, h.Under, h.Over, len(h.Counts), stats.DefaultBins)
+	}
+
 	// One-sided: from the lowest value (the 1st percentile of 5) to the limit,
 	// 20 … 60 uV, widened by a quarter of 40 uV each side; 90 uV is overflow.
 	noise := resultNamed(t, r, "post_noise")

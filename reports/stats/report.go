@@ -157,6 +157,11 @@ type ResultStats struct {
 	// Hist bins the values over the tolerance band plus a margin, with explicit
 	// under- and overflow counts.
 	Hist spc.Histogram
+	// DataHist bins the values over their own robust range (1st to 99th
+	// percentile, widened by the margin), with under- and overflow: the shape
+	// of a capable process that fills only a few bins of Hist. No bins when
+	// fewer than 2 values.
+	DataHist spc.Histogram
 	// Values are the N values in test order (the runs' start times); U the
 	// expanded uncertainty of each (Unit, NaN when the record has none); Units
 	// the index in Report.Units of the unit each belongs to. For charts and

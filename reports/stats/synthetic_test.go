@@ -74,6 +74,10 @@ func TestOneSidedBandIgnoresAnOutlier(t *testing.T) {
 		t.Errorf("%s histogram %v … %v, %d bins, under %d over %d; want 10 … 70, %d bins, 1, 0",
 			s.Name, s.Hist.Lo, s.Hist.Hi, len(s.Hist.Counts), s.Hist.Under, s.Hist.Over, stats.DefaultBins)
 	}
+	// The data's own range: ranks 1 and ⌊0.99·199⌋ = 197, 20 … 30 uV.
+	if h := s.DataHist; h.Lo != 17.5 || h.Hi != 32.5 || h.Under != 1 || h.Over != 0 {
+		t.Errorf("data histogram %v … %v, under %d over %d; want 17.5 … 32.5, 1, 0", h.Lo, h.Hi, h.Under, h.Over)
+	}
 	r = stats.Compute(twoChannelRuns(noise), stats.Options{Bins: 10, Margin: 0.5})
 	s = r.Results[len(r.Results)-1]
 	if s.Hist.Lo != 0 || s.Hist.Hi != 80 || len(s.Hist.Counts) != 10 {
