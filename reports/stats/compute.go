@@ -302,7 +302,7 @@ func (r *Report) toleranced(us []*unit) []*resultAcc {
 			}
 			seen[k] = true
 			acc := &resultAcc{ResultStats: ResultStats{Name: k, Result: name, Channel: o.Channel, Limit: o.Name, Unit: o.Unit,
-				Lower: o.Lower, Upper: o.Upper}, scale: scaleOf(o.Unit)}
+				Lower: clone(o.Lower), Upper: clone(o.Upper)}, scale: scaleOf(o.Unit)}
 			if res := resultOf(a, name, o.Channel); res != nil {
 				acc.stage, acc.Quantity = res.Stage, res.Quantity
 			} else {
@@ -402,6 +402,15 @@ func (acc *resultAcc) add(a *ledger.QualityRun, ui int) {
 	acc.Values = append(acc.Values, v)
 	acc.U = append(acc.U, u)
 	acc.Units = append(acc.Units, ui)
+}
+
+// clone is a copy of *p, nil for nil: the Report shares nothing with the runs.
+func clone(p *float64) *float64 {
+	if p == nil {
+		return nil
+	}
+	v := *p
+	return &v
 }
 
 func samePtr(a, b *float64) bool {
