@@ -267,7 +267,7 @@ type resultAcc struct {
 // results computes every toleranced result's capability over the units'
 // latest attempts.
 func (r *Report) results(us []*unit, o Options) {
-	accs := r.toleranced(us)
+	accs := toleranced(us)
 	for ui, u := range us {
 		a := u.latest()
 		for _, acc := range accs {
@@ -285,7 +285,7 @@ func (r *Report) results(us []*unit, o Options) {
 // newest run's first, in its outcomes' order, then those only older runs have,
 // the pre-trim ones moved to the front. Each takes the limit, unit and
 // tolerance of the newest run that judged it.
-func (r *Report) toleranced(us []*unit) []*resultAcc {
+func toleranced(us []*unit) []*resultAcc {
 	var accs []*resultAcc
 	seen := map[string]bool{}
 	for i := len(us) - 1; i >= 0; i-- {
