@@ -95,13 +95,14 @@ func (l *Ledger) QualityRuns(ctx context.Context, since, until time.Time) ([]Qua
 	idx := map[string]int{}
 	err = eachRow(ctx, tx, `SELECT run_id, serial, product, revision, station, started, finished, verdict,
 		coalesce(certificate, ''), coalesce(retest_of, ''),
-		json_extract(record_json, '$.lot', '$.site', '$.engineering', '$.disposition.of', '$.disposition.decision', '$.results')
+		json_extract(record_json, '$.lot', '$.site', '$.engineering', '$.disposition.of', '$.disposition.decision'),
+		json_extract(record_json, '$.results')
 		FROM runs WHERE `+where+` ORDER BY started, run_id`, args, func(rows *sql.Rows) error {
 		var r QualityRun
 		var started, finished, verdict string
-		var facts []byte
+		var facts, results []byte
 		if err := rows.Scan(&r.RunID, &r.Serial, &r.Product, &r.Revision, &r.Station, &started, &finished, &verdict,
-			&r.Certificate, &r.RetestOf, &facts); err != nil {
+			&r.Certificate, &r.RetestOf, &facts, &results); err != nil {
 			return err
 		}
 		var err error
@@ -114,7 +115,7 @@ func (l *Ledger) QualityRuns(ctx context.Context, since, until time.Time) ([]Qua
 		r.Verdict = sequencer.Verdict(q.intern(verdict))
 		r.Product, r.Revision, r.Station = q.intern(r.Product), q.intern(r.Revision), q.intern(r.Station)
 		var f recordFacts
-		if err := f.decode(facts); err != nil {
+		if err := f.decode(facts, results); err != nil {
 			return fmt.Errorf("%w: run %s: record facts: %v", ErrCorrupt, r.RunID, err)
 		}
 		r.Lot, r.Site, r.Engineering = q.intern(f.Lot), q.intern(f.Site), f.Engineering
@@ -270,15 +271,15 @@ type recordFacts struct {
 	Results                 []struct{ Name, Channel, Quantity string }
 }
 
-// decode reads the array that json_extract makes of a record's lot, site,
-// engineering mark, decision (the run decided on, the decision) and results;
-// a missing member is null.
-func (f *recordFacts) decode(doc []byte) error {
-	var a [6]json.RawMessage
-	if err := json.Unmarshal(doc, &a); err != nil {
+// decode reads the array json_extract makes of a record's lot, site,
+// engineering mark and decision (the run decided on, the decision), a missing
+// member null, and the record's results.
+func (f *recordFacts) decode(facts, results []byte) error {
+	var a [5]json.RawMessage
+	if err := json.Unmarshal(facts, &a); err != nil {
 		return err
 	}
-	for i, dst := range []any{&f.Lot, &f.Site, &f.Engineering, &f.Of, &f.Decision, &f.Results} {
+	for i, dst := range []any{&f.Lot, &f.Site, &f.Engineering, &f.Of, &f.Decision} {
 		if len(a[i]) == 0 || string(a[i]) == "null" {
 			continue
 		}
@@ -286,5 +287,8 @@ func (f *recordFacts) decode(doc []byte) error {
 			return err
 		}
 	}
-	return nil
+	if len(results) == 0 {
+		return nil
+	}
+	return json.Unmarshal(results, &f.Results)
 }
