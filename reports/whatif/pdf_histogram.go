@@ -3,8 +3,8 @@ package whatif
 import (
 	"fmt"
 	"math"
-	"strconv"
 	"sort"
+	"strconv"
 	"strings"
 
 	"github.com/jung-kurt/gofpdf"
