@@ -84,7 +84,7 @@ func WritePDF(w io.Writer, charts []spc.Chart, o Options) error {
 		top := d.Y
 		plotTop := top + pdfdoc.Bold.LineH() + 1
 		plotH := share - (plotTop - top) - 8 - signalsH - 4 // 4 mm before the next panel
-		plot(d, c, d.Left+axisW, plotTop, d.Width-axisW-labelW, plotH, nil)
+		plot(d, c, d.Left+axisW, plotTop, d.Width-axisW-labelW, plotH, nil, pdfdoc.Small)
 		signalText(d, c, plotTop+plotH+7, signalsH)
 		d.Use(pdfdoc.Bold)
 		pdf.Text(d.Left, top+pdfdoc.Bold.LineH()*0.75, panelTitle(c))
@@ -166,16 +166,16 @@ const (
 // with its signalling points in red. A NaN statistic or limit (the s of a
 // group of one) is a gap: no point, no line through it. xlabels, when not nil,
 // name the points (one per point: a day, a lot) instead of their numbers;
-// labels that would collide are thinned out. The panel title and the list of
+// labels that would collide are thinned out. Its text is 7 pt. The panel title and the list of
 // signals are the caller's. c needs at least one point; a chart without one
 // draws an empty frame.
 func DrawPanel(d *pdfdoc.Doc, c spc.Chart, x, y, w, h float64, xlabels []string) {
-	plot(d, c, x+axisW, y, w-axisW-labelW, h-PanelTicksH, xlabels)
+	plot(d, c, x+axisW, y, w-axisW-labelW, h-PanelTicksH, xlabels, pdfdoc.Small.Sized(7))
 }
 
 // plot draws one chart's plot in the box (x, y, w, h), its tick and limit
-// labels outside it (DrawPanel).
-func plot(d *pdfdoc.Doc, c spc.Chart, x, y, w, h float64, xlabels []string) {
+// labels outside it in style st (DrawPanel).
+func plot(d *pdfdoc.Doc, c spc.Chart, x, y, w, h float64, xlabels []string, st pdfdoc.Style) {
 	pdf := d.PDF
 	n := len(c.Points)
 	// The moving-range chart's first point is the second observation.
@@ -215,7 +215,7 @@ func plot(d *pdfdoc.Doc, c spc.Chart, x, y, w, h float64, xlabels []string) {
 	px := func(i int) float64 { return x + (float64(first+i)-xlo)/(xhi-xlo)*w }
 
 	// Grid and y tick labels.
-	d.Use(pdfdoc.Small)
+	d.Use(st)
 	for _, t := range ya.Ticks {
 		d.HLine(x, py(t), w, pdfdoc.Grid, 0.2)
 		d.TextRight(x-1.5, py(t)+1, ya.Label(t))
@@ -281,8 +281,8 @@ func plot(d *pdfdoc.Doc, c spc.Chart, x, y, w, h float64, xlabels []string) {
 	for i, l := range levels {
 		want[i] = py(l.v)
 	}
-	at := pdfdoc.Spread(want, pdfdoc.Small.LineH()+0.4, y, y+h)
-	d.Use(pdfdoc.Small.With(pdfdoc.Ink))
+	at := pdfdoc.Spread(want, st.LineH()+0.4, y, y+h)
+	d.Use(st.With(pdfdoc.Ink))
 	for i, l := range levels {
 		pdf.Text(x+w+2, at[i]+1, l.name+" "+num(l.v))
 	}
