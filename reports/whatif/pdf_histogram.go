@@ -9,6 +9,7 @@ import (
 
 	"github.com/jung-kurt/gofpdf"
 
+	"trimline/instruments/units"
 	"trimline/limits"
 	"trimline/reports/internal/pdfdoc"
 )
@@ -41,8 +42,15 @@ func (d *doc) histogram(dist Distribution) {
 	// for the new set's (pushed apart along the row: placeLabels).
 	d.font("", labelPt, pdfdoc.Ink)
 	var onScale []boundLabel
-	lo, hi := dist.Min/scale, dist.Max/scale
-	ax := viewAxis(edges, lo, hi)
+	// The x axis is the histogram's band: the bounds and a margin (histBand).
+	hist := dist.Hist
+	lo, hi := hist.Lo/scale, hist.Hi/scale
+	var ax pdfdoc.Axis
+	if len(hist.Counts) > 0 && hi > lo {
+		ax = pdfdoc.NewAxis(lo, hi, 7)
+	} else {
+		ax = viewAxis(edges, dist.Min/scale, dist.Max/scale)
+	}
 	const yAxisW = 12.0
 	px, pw := marginL+yAxisW, contentW-yAxisW-2
 	for _, e := range edges {
@@ -96,11 +104,12 @@ func (d *doc) histogram(dist Distribution) {
 	xOf := func(v float64) float64 { return px + ax.Pos(v, pw) }
 
 	most := 1
-	for _, c := range dist.Bins {
+	for _, c := range hist.Counts {
 		most = max(most, c)
 	}
 	ystep := math.Max(1, math.Ceil(pdfdoc.NiceStep(float64(most), 4)))
-	ymax := math.Ceil(float64(most)/ystep) * ystep
+	// Headroom above the tallest bar for the counts outside the band.
+	ymax := math.Ceil(float64(most)*1.2/ystep) * ystep
 	yOf := func(c float64) float64 { return py + plotH - c/ymax*plotH }
 
 	// Grid and axes.
@@ -132,25 +141,42 @@ func (d *doc) histogram(dist Distribution) {
 	d.Fill(colBar)
 	d.Stroke(colBarEdg)
 	d.PDF.SetLineWidth(0.1)
-	n := len(dist.Bins)
-	if n > 0 {
+	if n := len(hist.Counts); n > 0 && hi > lo {
 		w := (hi - lo) / float64(n)
-		for k, c := range dist.Bins {
+		for k, c := range hist.Counts {
 			if c == 0 {
 				continue
 			}
-			var x0, x1 float64
-			if w > 0 {
-				x0, x1 = xOf(lo+float64(k)*w), xOf(lo+float64(k+1)*w)
-			} else {
-				x0, x1 = xOf(lo)-pw/160, xOf(lo)+pw/160
-			}
+			x0, x1 := xOf(lo+float64(k)*w), xOf(lo+float64(k+1)*w)
 			y := yOf(float64(c))
 			d.PDF.Rect(x0, y, math.Max(x1-x0, 0.3), py+plotH-y, "FD")
 		}
 	}
 	d.HLine(px, py+plotH, pw, pdfdoc.Muted, 0.25)
 	d.PDF.Line(px, py, px, py+plotH)
+
+	// The values outside the band, written at its ends inside the plot.
+	for _, end := range []struct {
+		n     int
+		s     string
+		right bool
+	}{
+		{hist.Under, fmt.Sprintf("◄ %d below %s%s", hist.Under, units.FormatSig(lo, 4), sp(unit)), false},
+		{hist.Over, fmt.Sprintf("%d above %s%s ►", hist.Over, units.FormatSig(hi, 4), sp(unit)), true},
+	} {
+		if end.n > 0 {
+			d.font("B", 7, pdfdoc.Fail)
+		} else {
+			d.font("", 7, pdfdoc.Muted)
+		}
+		sw := d.PDF.GetStringWidth(end.s)
+		tx := px + 1.2
+		if end.right {
+			tx = px + pw - 1.2 - sw
+		}
+		d.FillRect(tx-0.6, py+0.8, sw+1.2, 3.2, pdfdoc.White)
+		d.PDF.Text(tx, py+3.3, end.s)
+	}
 
 	// Bound lines, old first so the new ones are drawn on top.
 	var edgeRows [3]int // labels at the left (0) and right (2) edge
@@ -188,7 +214,7 @@ func (d *doc) histogram(dist Distribution) {
 				s := e.label() + sp(unit)
 				// An arrow at the edge pointing to where the bound lies, labelled
 				// inside the plot, stacked from the top at each edge.
-				ay := py + 4 + float64(edgeRows[outside+1])*3.2
+				ay := py + 4 + float64(edgeRows[outside+1]+1)*3.2 // below the count outside the band
 				edgeRows[outside+1]++
 				d.Fill(col)
 				dx := float64(outside) * 2.2
