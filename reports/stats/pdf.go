@@ -7,6 +7,7 @@ import (
 	"math"
 	"strconv"
 	"strings"
+	"time"
 
 	"trimline/instruments/units"
 	"trimline/reports/chart"
@@ -141,7 +142,7 @@ func (l *lotDoc) heading() {
 		{"Ledger", pdfOrDash(r.Ledger)},
 		{"Runs counted", pdfFilterText(r.Filter)},
 		{"Trends by", pdfTrendBy(r.By)},
-		{"Generated", r.Generated.UTC().Format("2006-01-02 15:04 UTC")},
+		{"Generated", pdfWhen(r.Generated)},
 	}
 	for _, kv := range lines {
 		l.text(l.Left, l.Y+pdfdoc.Body.LineH()*0.75, kv[0], pdfdoc.Bold)
@@ -254,7 +255,7 @@ func (l *lotDoc) pareto() {
 	barX, barW := l.Left+nameW+2, l.Width-nameW-2-countW
 	most := 1
 	for _, p := range ps {
-		most = max(most, p.Failed+p.Held)
+		most = max(most, p.Failed+p.Held, p.First)
 	}
 	for i, p := range ps {
 		l.Need(rowH)
@@ -276,6 +277,9 @@ func (l *lotDoc) pareto() {
 		if wh > 0 {
 			l.FillRect(barX+wf, l.Y+0.8, wh, rowH-1.6, pdfdoc.Review)
 		}
+		if p.First > 0 { // the first attempts, as an outline over the bars
+			l.Frame(barX, l.Y+0.5, barW*float64(p.First)/float64(most), rowH-1, pdfdoc.Ink, 0.25)
+		}
 		s := fmt.Sprintf("%d failed, %d held; %d at first attempt", p.Failed, p.Held, p.First)
 		l.text(l.Left+l.Width-countW+2, base, s, pdfdoc.Body)
 		l.Y += rowH
@@ -285,6 +289,8 @@ func (l *lotDoc) pareto() {
 	l.text(l.Left+5, l.Y+2.4, "failed (latest attempt)", pdfSmall)
 	l.FillRect(l.Left+36, l.Y+0.6, 3, 2, pdfdoc.Review)
 	l.text(l.Left+40, l.Y+2.4, "held for review", pdfSmall)
+	l.Frame(l.Left+66, l.Y+0.4, 3, 2.4, pdfdoc.Ink, 0.25)
+	l.text(l.Left+70, l.Y+2.4, "did not pass at the first attempt", pdfSmall)
 	l.Y += 4
 }
 
@@ -519,7 +525,7 @@ func (l *lotDoc) numbers(rs ResultStats, x, y, w float64) {
 		{"Pp", pdfIndex(rs.Pp)},
 		{"Ppk", pdfIndex(rs.Ppk)},
 		{"expected outside", units.FormatProbability(rs.FractionOutside)},
-		{"mean U (measurement)", pdfMeanU(rs.MeanU, u)},
+		{"mean expanded U", pdfMeanU(rs.MeanU, u)},
 	}
 	const pitch = 3.9
 	for i, kv := range rows {
@@ -547,7 +553,7 @@ func pdfMeanU(v float64, u string) string {
 	if !pdfFinite(v) {
 		return "— (not recorded)"
 	}
-	return "± " + pdfNum(v) + u + " (expanded)"
+	return "± " + pdfNum(v) + u
 }
 
 // index writes a capability index with three significant digits.
@@ -670,7 +676,7 @@ func (l *lotDoc) footers() {
 	for p := 1; p <= n; p++ {
 		l.PDF.SetPage(p)
 		l.Rule(pdfdoc.PageH-12, pdfdoc.Rule, 0.2)
-		left := "Lot report · " + pdfOrDash(l.r.Ledger) + " · generated " + l.r.Generated.UTC().Format("2006-01-02 15:04 UTC")
+		left := "Lot report · " + pdfOrDash(l.r.Ledger) + " · generated " + pdfWhen(l.r.Generated)
 		l.text(l.Left, pdfdoc.PageH-8, l.fit(left, l.Width-30, pdfPlotStyle), pdfPlotStyle)
 		l.TextRight(l.Left+l.Width, pdfdoc.PageH-8, fmt.Sprintf("page %d of %d", p, n))
 	}
@@ -706,6 +712,14 @@ func pdfSp(u string) string {
 		return ""
 	}
 	return " " + u
+}
+
+// pdfWhen writes a time in UTC to the minute; "—" for the zero time.
+func pdfWhen(t time.Time) string {
+	if t.IsZero() {
+		return "—"
+	}
+	return t.UTC().Format("2006-01-02 15:04 UTC")
 }
 
 func pdfOrDash(s string) string {
