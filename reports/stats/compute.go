@@ -21,7 +21,7 @@ import (
 // runs and options give the same Report. runs is only read.
 func Compute(runs []ledger.QualityRun, o Options) Report {
 	o = withDefaults(o)
-	r := Report{Ledger: o.Ledger, Filter: o.Filter, By: o.By, Generated: o.Generated}
+	r := Report{Ledger: o.Ledger, Filter: o.Filter, By: o.By, Generated: o.Generated, Confidence: o.Confidence}
 	kept := r.filter(runs)
 	units := r.population(kept)
 	r.Population = population(o)
@@ -426,6 +426,12 @@ func (acc *resultAcc) capability(o Options) {
 	s.Cp, s.Cpk, s.Pp, s.Ppk, s.FractionOutside = nan, nan, nan, nan, nan
 	s.CpCI, s.CpkCI = [2]float64{nan, nan}, [2]float64{nan, nan}
 	s.MeanU = nan
+	s.Outside = 0
+	for _, v := range s.Values {
+		if (s.Lower != nil && v < *s.Lower) || (s.Upper != nil && v > *s.Upper) {
+			s.Outside++
+		}
+	}
 	if s.N > 0 {
 		s.Min, s.Max = slices.Min(s.Values), slices.Max(s.Values)
 		sum := 0.0

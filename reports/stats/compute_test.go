@@ -325,6 +325,12 @@ func TestComputeCapability(t *testing.T) {
 		off.FractionOutside != c.FractionOutside {
 		t.Errorf("post_offset capability %+v differs from spc.Capable's %+v", off, c)
 	}
+	if off.Outside != 1 { // 400 uV beyond 50 uV; the others within ±50 uV
+		t.Errorf("post_offset: %d values outside the tolerance, want 1", off.Outside)
+	}
+	if r.Confidence != 0.95 {
+		t.Errorf("report confidence %v, want the default 0.95", r.Confidence)
+	}
 	if off.MeanU != 2 || off.U[0] != 2 { // 2e-6 V in uV
 		t.Errorf("post_offset mean U %v (first %v), want 2 uV", off.MeanU, off.U[0])
 	}

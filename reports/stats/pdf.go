@@ -309,10 +309,41 @@ func (l *lotDoc) results() {
 		}
 		l.resultTitle(rs, l.Left, l.Width)
 		top := l.Y
-		l.histogram(rs, l.Left, top, 104, histH)
+		l.histogram(rs, rs.Hist, l.Left, top, 104, histH)
 		l.numbers(rs, l.Left+110, top, l.Width-110)
 		l.Y = top + histH + 1
+		if crowded(rs.Hist) && len(rs.DataHist.Counts) > 0 {
+			// The band's bins are too wide to show the shape of a capable
+			// process: the values again, over their own range.
+			const closeH = 40.0
+			l.Need(closeH + 5)
+			l.text(l.Left, l.Y+pdfPlotStyle.LineH()*0.75, "Close-up: the same values over their own range (1st to 99th percentile, widened by a quarter each side)", pdfPlotStyle.With(pdfdoc.Muted))
+			l.Y += pdfPlotStyle.LineH() + 0.5
+			l.histogram(rs, rs.DataHist, l.Left, l.Y, 104, closeH)
+			l.Y += closeH + 1
+		}
 	}
+}
+
+// shapeHist is the histogram that shows rs's shape: over the tolerance band,
+// or over the values' own range when the band's is crowded.
+func shapeHist(rs ResultStats) spc.Histogram {
+	if crowded(rs.Hist) && len(rs.DataHist.Counts) > 0 {
+		return rs.DataHist
+	}
+	return rs.Hist
+}
+
+// crowded says whether h holds its values in so few bins (at most 4) that
+// their shape cannot be seen.
+func crowded(h spc.Histogram) bool {
+	filled := 0
+	for _, c := range h.Counts {
+		if c > 0 {
+			filled++
+		}
+	}
+	return filled > 0 && filled <= 4
 }
 
 // resultTitle writes a result's name, unit, stage and limit on two lines.
@@ -365,12 +396,11 @@ func pdfToleranceText(rs ResultStats) string {
 	return "none"
 }
 
-// histogram draws rs.Hist in the box (x, y, w, h): the counts per bin over
+// histogram draws hist (rs.Hist or rs.DataHist) in the box (x, y, w, h): the counts per bin over
 // the band, the tolerance limits and the mean as labelled lines, and the
 // values below and above the band written at its ends.
-func (l *lotDoc) histogram(rs ResultStats, x, y, w, h float64) {
+func (l *lotDoc) histogram(rs ResultStats, hist spc.Histogram, x, y, w, h float64) {
 	pdf := l.PDF
-	hist := rs.Hist
 	const axisW, labelsH, ticksH = 8.0, 7.0, 8.0
 	px, py, pw, ph := x+axisW, y+labelsH, w-axisW-1, h-labelsH-ticksH
 	if len(hist.Counts) == 0 || !pdfFinite(hist.Lo) || !pdfFinite(hist.Hi) || !(hist.Hi > hist.Lo) {
@@ -514,17 +544,26 @@ func (l *lotDoc) numbers(rs ResultStats, x, y, w float64) {
 	if rs.Invalid > 0 {
 		n += fmt.Sprintf("  (+%d invalid)", rs.Invalid)
 	}
+	ci := ""
+	if pdfFinite(l.r.Confidence) && l.r.Confidence > 0 {
+		ci = units.FormatSig(l.r.Confidence*100, 3) + "\u00a0% "
+	}
+	outside := "—"
+	if rs.N > 0 {
+		outside = fmt.Sprintf("%d of %d (%s)", rs.Outside, rs.N, pdfPercent(float64(rs.Outside)/float64(rs.N)))
+	}
 	rows := [][2]string{
 		{"n", n},
 		{"mean", q(rs.Mean)},
 		{"SD within (MR/1.128)", q(rs.SDWithin)},
 		{"SD overall", q(rs.SDOverall)},
 		{"min … max", pdfRangeText(rs.Min, rs.Max, u)},
-		{"Cp (CI, χ²)", pdfIndex(rs.Cp) + pdfCI(rs.CpCI)},
-		{"Cpk (CI, Bissell)", pdfIndex(rs.Cpk) + pdfCI(rs.CpkCI)},
+		{"Cp (" + ci + "CI, χ²)", pdfIndex(rs.Cp) + pdfCI(rs.CpCI)},
+		{"Cpk (" + ci + "CI, Bissell)", pdfIndex(rs.Cpk) + pdfCI(rs.CpkCI)},
 		{"Pp", pdfIndex(rs.Pp)},
 		{"Ppk", pdfIndex(rs.Ppk)},
-		{"expected outside", units.FormatProbability(rs.FractionOutside)},
+		{"expected outside (normal)", units.FormatProbability(rs.FractionOutside)},
+		{"measured outside", outside},
 		{"mean expanded U", pdfMeanU(rs.MeanU, u)},
 	}
 	const pitch = 3.9
@@ -561,6 +600,9 @@ func pdfIndex(v float64) string {
 	if !pdfFinite(v) {
 		return "—"
 	}
+	if math.Abs(v) < 10 {
+		return units.FormatAt(v, 2) // indices to two decimals (common practice)
+	}
 	return units.FormatSig(v, 3)
 }
 
@@ -596,7 +638,7 @@ func (l *lotDoc) pairs() {
 			x := l.Left + float64(k)*(half+6)
 			l.Y = top
 			l.resultTitle(rs, x, half)
-			l.histogram(rs, x, l.Y, half, histH)
+			l.histogram(rs, shapeHist(rs), x, l.Y, half, histH)
 			s := fmt.Sprintf("n %d · mean %s · SD overall %s · Cpk %s", rs.N, pdfNumU(rs.Mean, rs.Unit), pdfNumU(rs.SDOverall, rs.Unit), pdfIndex(rs.Cpk))
 			l.text(x, l.Y+histH+2.4, l.fit(s, half, pdfSmall), pdfSmall)
 		}

@@ -29,7 +29,7 @@ func lotReport(t testing.TB) stats.Report {
 	post := stats.ResultStats{Name: "post_offset", Result: "post_offset", Limit: "offset after trim", Stage: "as_left",
 		Quantity: "offset", Unit: "uV", Lower: f(-800), Upper: f(800), N: 198, Invalid: 2, Mean: -12.5, SDWithin: 61.7, SDOverall: 902.1,
 		Min: -12384.1, Max: 163.6, Cp: 4.32, Cpk: 4.25, Pp: 0.296, Ppk: 0.291, CpCI: [2]float64{3.9, 4.7}, CpkCI: [2]float64{3.8, 4.7},
-		FractionOutside: 0.378, MeanU: 9.6}
+		FractionOutside: 0.378, Outside: 3, MeanU: 9.6}
 	noise := stats.ResultStats{Name: "post_noise", Result: "post_noise", Limit: "output noise", Stage: "as_left", Unit: "uV",
 		Upper: f(60), N: 198, Mean: 24.1, SDWithin: 2.2, SDOverall: 2.4, Min: 19.7, Max: 33.0, Cp: math.NaN(), Cpk: 5.4,
 		Pp: math.NaN(), Ppk: 4.99, CpCI: [2]float64{math.NaN(), math.NaN()}, CpkCI: [2]float64{4.8, 6.0}, FractionOutside: 0, MeanU: math.NaN()}
@@ -49,7 +49,7 @@ func lotReport(t testing.TB) stats.Report {
 		t.Fatal(err)
 	}
 	return stats.Report{
-		Ledger: "/var/lib/trimline/ledger.db", Filter: stats.Filter{Product: "BRX-200", Lot: "L-0412"}, By: stats.ByLot, Generated: gen,
+		Ledger: "/var/lib/trimline/ledger.db", Filter: stats.Filter{Product: "BRX-200", Lot: "L-0412"}, By: stats.ByLot, Generated: gen, Confidence: 0.95,
 		Population: []string{"A unit is a serial; its latest completed run counts for yield and capability.",
 			"Earlier attempts count only for the retest rate; FAULT and ABORTED runs only for the fault rate."},
 		Counts: stats.Counts{Units: 198, Passed: 190, Failed: 6, Held: 2, FirstPass: 185, Retested: 9, Attempts: 207, Decisions: 1, Runs: 212, Faults: 3, Aborted: 2, Engineering: 4},
@@ -102,7 +102,7 @@ func TestWritePDF(t *testing.T) {
 		"/var/lib/trimline/ledger.db", "product BRX-200, lot L-0412", "2026-12-02 20:00 UTC",
 		"A unit is a serial", "96 %", "93.4 %", "4.55 %", "1.42 %",
 		"offset after trim", "4 failed, 1 held",
-		"post_offset [µV]", "−800 … 800 µV", "1.56", "(1.4 – 1.72)", "0.291", "38 %", "± 9.6 µV",
+		"post_offset [µV]", "−800 … 800 µV", "1.56", "(1.40 – 1.72)", "0.29", "38 %", "3 of 198", "95 % CI", "± 9.6 µV",
 		"1 below −1000", "LSL −800", "USL 800", "mean −12.5",
 		"≤ 60 µV", "Pre-trim beside post-trim", "L-0413", "Signals",
 	} {

@@ -4,7 +4,7 @@
 // intervals, e-Handbook §6.1.6), histograms over the tolerance band with
 // explicit under- and overflow, trends per day, lot or station with control
 // limits, and the pre-trim results beside the post-trim ones. It reads the
-// ledger (Load), computes a Report (Compute) and writes it as text, CSV, or a
+// ledger (Read, Open), computes a Report (Compute) and writes it as text, CSV, or a
 // PDF lot report; the statistics themselves are sequencer/spc's.
 //
 // Every number of a result is in its limit's unit (the unit the limit file
@@ -65,6 +65,9 @@ type Report struct {
 	Filter    Filter
 	By        string
 	Generated time.Time
+	// Confidence is the two-sided level of every Cp and Cpk interval (0.95
+	// unless Options said otherwise).
+	Confidence float64
 	// Population states, one sentence each, which runs count for what (a unit
 	// is a serial; its latest completed run counts for yield and capability;
 	// …). Every output prints it.
@@ -150,6 +153,10 @@ type ResultStats struct {
 	// FractionOutside is the expected fraction of units outside the tolerance
 	// (normal model, overall SD), 0–1.
 	FractionOutside float64
+	// Outside is how many of the N values lie outside the tolerance as
+	// measured (beside the normal model's FractionOutside: a few gross
+	// outliers inflate the overall SD and with it the expected fraction).
+	Outside int
 	// MeanU is the mean expanded measurement uncertainty of the values, in
 	// Unit (how much of the spread the measurement itself could be); NaN when
 	// no value has one.
