@@ -185,6 +185,7 @@ func TestReadmeJSONExamples(t *testing.T) {
 		kindCheck:        func() any { return new(checkOut) },
 		kindVerification: func() any { return new(verificationOut) },
 		kindError:        func() any { return new(errorOut) },
+		kindStats:        func() any { return new(statsOut) },
 	}
 	seen := map[string]bool{}
 	blocks := strings.Split(string(section), "```json\n")
