@@ -6,10 +6,15 @@ package stats
 import (
 	"context"
 	"errors"
+	"fmt"
+	"os"
 )
 
 var ErrNoRuns = errors.New("stats: no runs match")
 
 func Open(ctx context.Context, path string, o Options) (Report, error) {
+	if _, err := os.Stat(path); err != nil {
+		return Report{}, fmt.Errorf("stats: %w", err)
+	}
 	return Report{}, errors.New("stats: Open not merged yet")
 }
