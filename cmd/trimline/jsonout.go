@@ -605,13 +605,16 @@ func newVerificationOut(file string, v audit.Verdict, sealOnly bool, ledgerPath 
 	return out
 }
 
+// newStatsOut is r for --json; its numbers are rounded to the 15 digits a
+// float64 holds for sure (stats.Round15).
 func newStatsOut(r stats.Report) statsOut {
+	statNum := func(v float64) *float64 { return num(stats.Round15(v)) }
 	f := r.Filter
 	out := statsOut{Kind: kindStats, Version: jsonVersion, Ledger: r.Ledger, By: r.By, Generated: r.Generated.UTC(),
 		Filter: statsFilterOut{Product: f.Product, Revision: f.Revision, Station: f.Station, Site: f.Site, Lot: f.Lot,
 			IncludeEngineering: f.IncludeEngineering},
 		Population: nonNil(r.Population), Units: r.Counts.Units,
-		Yield: num(r.Yield), FirstPassYield: num(r.FirstPassYield), RetestRate: num(r.RetestRate), FaultRate: num(r.FaultRate),
+		Yield: statNum(r.Yield), FirstPassYield: statNum(r.FirstPassYield), RetestRate: statNum(r.RetestRate), FaultRate: statNum(r.FaultRate),
 		Pareto: []paretoOut{}, Results: []statResultOut{}, Pairs: []pairOut{}, Trends: []trendOut{}, Notes: nonNil(r.Notes)}
 	if !f.Since.IsZero() {
 		t := f.Since.UTC()
@@ -628,14 +631,14 @@ func newStatsOut(r stats.Report) statsOut {
 	for _, p := range r.Pareto {
 		out.Pareto = append(out.Pareto, paretoOut{Limit: p.Limit, Channel: p.Channel, Failed: p.Failed, Held: p.Held, First: p.First})
 	}
-	ci := func(v [2]float64) [2]*float64 { return [2]*float64{num(v[0]), num(v[1])} }
+	ci := func(v [2]float64) [2]*float64 { return [2]*float64{statNum(v[0]), statNum(v[1])} }
 	for _, s := range r.Results {
 		out.Results = append(out.Results, statResultOut{Name: s.Name, Result: s.Result, Channel: s.Channel, Stage: s.Stage,
-			Quantity: s.Quantity, Limit: s.Limit, Unit: s.Unit, Lower: s.Lower, Upper: s.Upper, N: s.N, Invalid: s.Invalid,
-			Mean: num(s.Mean), SDWithin: num(s.SDWithin), SDOverall: num(s.SDOverall), Min: num(s.Min), Max: num(s.Max),
-			Cp: num(s.Cp), CpCI: ci(s.CpCI), Cpk: num(s.Cpk), CpkCI: ci(s.CpkCI), Pp: num(s.Pp), Ppk: num(s.Ppk),
-			FractionOutside: num(s.FractionOutside), MeanU: num(s.MeanU),
-			Histogram: histogramOut{Lo: num(s.Hist.Lo), Hi: num(s.Hist.Hi), Counts: nonNil(s.Hist.Counts), Under: s.Hist.Under, Over: s.Hist.Over}})
+			Quantity: s.Quantity, Limit: s.Limit, Unit: s.Unit, Lower: statPtr(s.Lower), Upper: statPtr(s.Upper), N: s.N, Invalid: s.Invalid,
+			Mean: statNum(s.Mean), SDWithin: statNum(s.SDWithin), SDOverall: statNum(s.SDOverall), Min: statNum(s.Min), Max: statNum(s.Max),
+			Cp: statNum(s.Cp), CpCI: ci(s.CpCI), Cpk: statNum(s.Cpk), CpkCI: ci(s.CpkCI), Pp: statNum(s.Pp), Ppk: statNum(s.Ppk),
+			FractionOutside: statNum(s.FractionOutside), MeanU: statNum(s.MeanU),
+			Histogram: histogramOut{Lo: statNum(s.Hist.Lo), Hi: statNum(s.Hist.Hi), Counts: nonNil(s.Hist.Counts), Under: s.Hist.Under, Over: s.Hist.Over}})
 	}
 	name := func(i int) string {
 		if i < 0 || i >= len(r.Results) {
@@ -647,26 +650,34 @@ func newStatsOut(r stats.Report) statsOut {
 		out.Pairs = append(out.Pairs, pairOut{Quantity: p.Quantity, Channel: p.Channel, Pre: name(p.Pre), Post: name(p.Post)})
 	}
 	for _, t := range r.Trends {
-		to := trendOut{Result: name(t.Result), By: t.By, Center: num(t.Means.Center), Sigma: num(t.Means.Sigma), Groups: []trendGroupOut{}}
+		to := trendOut{Result: name(t.Result), By: t.By, Center: statNum(t.Means.Center), Sigma: statNum(t.Means.Sigma), Groups: []trendGroupOut{}}
 		beyond := map[int]bool{}
 		for _, s := range append(slices.Clone(t.Means.Signals), t.Spreads.Signals...) {
 			beyond[s.Index] = true
 		}
 		for i, g := range t.Groups {
-			grp := trendGroupOut{Key: g.Key, N: g.N, Mean: num(g.Mean), SD: num(g.SD), Beyond: beyond[i+1]}
+			grp := trendGroupOut{Key: g.Key, N: g.N, Mean: statNum(g.Mean), SD: statNum(g.SD), Beyond: beyond[i+1]}
 			if i < len(t.Means.Points) {
 				p := t.Means.Points[i]
-				grp.MeanLimits = [2]*float64{num(p.LCL), num(p.UCL)}
+				grp.MeanLimits = [2]*float64{statNum(p.LCL), statNum(p.UCL)}
 			}
 			if i < len(t.Spreads.Points) {
 				p := t.Spreads.Points[i]
-				grp.SDLimits = [2]*float64{num(p.LCL), num(p.UCL)}
+				grp.SDLimits = [2]*float64{statNum(p.LCL), statNum(p.UCL)}
 			}
 			to.Groups = append(to.Groups, grp)
 		}
 		out.Trends = append(out.Trends, to)
 	}
 	return out
+}
+
+// statPtr is a bound of a tolerance for --json: nil stays nil.
+func statPtr(v *float64) *float64 {
+	if v == nil {
+		return nil
+	}
+	return num(stats.Round15(*v))
 }
 
 // newErrorOut is err, which command c ended with, as an errorOut with its exit

@@ -22,8 +22,9 @@ var CSVColumns = []string{
 }
 
 // WriteCSV writes one row per toleranced result (Report.Results, in order)
-// under the header CSVColumns. Numbers are written in full precision; a
-// number that cannot be computed (NaN, or an infinite index of a result with
+// under the header CSVColumns. Numbers are written with 15 significant digits
+// (what a float64 holds for sure, so that 100.00000000000001, an artefact of
+// converting SI values to the limit's unit, is written 100); a number that cannot be computed (NaN, or an infinite index of a result with
 // no spread) is an empty cell. It returns the first error of w.
 func (r Report) WriteCSV(w io.Writer) error {
 	cw := csv.NewWriter(w)
@@ -86,12 +87,25 @@ func (r Report) WriteValuesCSV(w io.Writer) error {
 	return cw.Error()
 }
 
-// csvNum is v in full precision, or "" when it is not a finite number.
+// csvNum is v with 15 significant digits, or "" when it is not a finite
+// number.
 func csvNum(v float64) string {
 	if math.IsNaN(v) || math.IsInf(v, 0) {
 		return ""
 	}
-	return strconv.FormatFloat(v, 'g', -1, 64)
+	return strconv.FormatFloat(Round15(v), 'g', -1, 64)
+}
+
+// Round15 is v rounded to 15 significant digits, the digits a float64 holds
+// for sure: a value converted from SI units to its limit's unit
+// (100.00000000000001 µV) comes back as written (100). Writers of numbers for
+// programs (CSV, JSON) use it.
+func Round15(v float64) float64 {
+	r, err := strconv.ParseFloat(strconv.FormatFloat(v, 'g', 15, 64), 64)
+	if err != nil {
+		return v
+	}
+	return r
 }
 
 func csvPtr(v *float64) string {

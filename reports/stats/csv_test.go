@@ -56,8 +56,8 @@ func TestWriteCSV(t *testing.T) {
 				}
 				continue
 			}
-			if v, err := strconv.ParseFloat(got, 64); err != nil || v != want {
-				t.Errorf("%s %s = %q, want %v exactly", s.Name, col, got, want)
+			if v, err := strconv.ParseFloat(got, 64); err != nil || math.Abs(v-want) > 1e-14*math.Abs(want) {
+				t.Errorf("%s %s = %q, want %v to 15 digits", s.Name, col, got, want)
 			}
 		}
 	}
@@ -93,6 +93,14 @@ func TestWriteValuesCSV(t *testing.T) {
 	}
 	if f, err := time.Parse(time.RFC3339, first["finished"]); err != nil || !f.Equal(r.Units[0].Finished) {
 		t.Errorf("finished %q: %v", first["finished"], err)
+	}
+	// A value converted from SI units comes out as written.
+	r.Results[0].U[1] = 100.00000000000001
+	b.Reset()
+	r.WriteValuesCSV(&b)
+	_, rows = readCSV(t, b.Bytes())
+	if got := rows[1]["pre_offset U [mV]"]; got != "100" {
+		t.Errorf("U of 100.00000000000001 written %q, want 100", got)
 	}
 	if u := rows[4]; u["post_offset [uV]"] != "-42" || u["post_offset U [uV]"] != "" {
 		t.Errorf("a value without U: %v", u)
