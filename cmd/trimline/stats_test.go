@@ -4,10 +4,14 @@ import (
 	"bytes"
 	"encoding/csv"
 	"encoding/json"
+	"math"
 	"os"
 	"path/filepath"
 	"strings"
 	"testing"
+
+	"trimline/reports/stats"
+	"trimline/sequencer/spc"
 )
 
 // TestStats runs stats on one demo ledger: 25 units of lot L7 (seed 8 fails
@@ -222,5 +226,39 @@ func TestStatsParseDay(t *testing.T) {
 		if b, _ := json.Marshal(got); err != nil || string(b) != `"`+c.want+`"` {
 			t.Errorf("parseDay(%q, %v) = %s, %v; want %s", c.s, c.end, b, err, c.want)
 		}
+	}
+}
+
+// A number that cannot be computed is null in the JSON: the rates of a
+// report with no units, the Cp of a one-sided tolerance, the sd of a group
+// of one; and the object decodes into statsOut with unknown fields refused.
+func TestStatsJSONNull(t *testing.T) {
+	nan := math.NaN()
+	upper := 50.0
+	r := stats.Report{Ledger: "x.db", By: stats.ByLot, Yield: nan, FirstPassYield: nan, RetestRate: nan, FaultRate: 1,
+		Counts: stats.Counts{Runs: 2, Faults: 2},
+		Results: []stats.ResultStats{{Name: "gain_drift", Unit: "ppm", Upper: &upper, N: 2, Mean: 3, SDWithin: 1, SDOverall: 1.5,
+			Cp: nan, CpCI: [2]float64{nan, nan}, Cpk: 10.6, CpkCI: [2]float64{4, 17}, Pp: nan, Ppk: 10.4, FractionOutside: 0, MeanU: nan,
+			Hist: spc.Histogram{Lo: 0, Hi: 60, Counts: []int{2, 0}}}},
+		Trends: []stats.Trend{{Result: 0, By: stats.ByLot, Groups: []stats.Group{{Key: "L1", N: 1, Mean: 3, SD: nan}},
+			Means:   spc.Chart{Center: 3, Sigma: 1, Points: []spc.Point{{Value: 3, UCL: 6, LCL: 0}}},
+			Spreads: spc.Chart{Sigma: 1, Points: []spc.Point{{Value: nan, UCL: nan, LCL: nan}}}}},
+	}
+	var b bytes.Buffer
+	writeJSON(&b, newStatsOut(r))
+	var out statsOut
+	decodeStrict(t, b.String(), &out)
+	if out.Yield != nil || out.FirstPassYield != nil || out.RetestRate != nil || out.FaultRate == nil || *out.FaultRate != 1 {
+		t.Errorf("rates: %s", b.String())
+	}
+	res := out.Results[0]
+	if res.Cp != nil || res.CpCI[0] != nil || res.Pp != nil || res.MeanU != nil || res.Lower != nil || *res.Upper != 50 || *res.Cpk != 10.6 {
+		t.Errorf("result: %s", b.String())
+	}
+	if g := out.Trends[0].Groups[0]; g.SD != nil || g.SDLimits[0] != nil || *g.MeanLimits[1] != 6 || out.Trends[0].Result != "gain_drift" {
+		t.Errorf("trend: %s", b.String())
+	}
+	if !strings.Contains(b.String(), `"cp":null`) || !strings.Contains(b.String(), `"pareto":[]`) {
+		t.Errorf("want null for a missing number and [] for an empty list: %s", b.String())
 	}
 }
