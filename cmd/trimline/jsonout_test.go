@@ -155,7 +155,7 @@ func TestJSONBadInput(t *testing.T) {
 }
 
 func TestHelpShowsJSON(t *testing.T) {
-	for _, c := range [][]string{{"help", "run"}, {"help", "check"}, {"help", "audit", "verify"}, {"help", "fit"}} {
+	for _, c := range [][]string{{"help", "run"}, {"help", "check"}, {"help", "audit", "verify"}, {"help", "fit"}, {"help", "stats"}} {
 		_, out, _ := runCLI(t, c...)
 		if !strings.Contains(out, "-json") || !bytes.Contains([]byte(out), []byte("Output for scripts")) {
 			t.Errorf("%v does not show --json:\n%s", c, out)
