@@ -84,7 +84,7 @@ func WritePDF(w io.Writer, charts []spc.Chart, o Options) error {
 		top := d.Y
 		plotTop := top + pdfdoc.Bold.LineH() + 1
 		plotH := share - (plotTop - top) - 8 - signalsH - 4 // 4 mm before the next panel
-		drawPanel(d, c, plotTop, plotH)
+		plot(d, c, d.Left+axisW, plotTop, d.Width-axisW-labelW, plotH, nil, pdfdoc.Small)
 		signalText(d, c, plotTop+plotH+7, signalsH)
 		d.Use(pdfdoc.Bold)
 		pdf.Text(d.Left, top+pdfdoc.Bold.LineH()*0.75, panelTitle(c))
@@ -148,26 +148,66 @@ func perPointLimits(c spc.Chart) bool {
 	return false
 }
 
-// drawPanel draws one chart's plot with its top edge at y and height h.
-func drawPanel(d *pdfdoc.Doc, c spc.Chart, y, h float64) {
+// Room a panel keeps around its plot, mm: at the left for the y tick labels
+// (PanelAxisW), at the right for the limit labels (PanelLabelW), below for
+// the x tick labels (PanelTicksH).
+const (
+	PanelAxisW  = axisW
+	PanelLabelW = labelW
+	PanelTicksH = 6.0
+)
+
+// DrawPanel draws chart c as a panel filling the box (x, y, w, h) of d's
+// current page, mm: its plot (grid, y tick labels at the left, point numbers
+// or xlabels below, the centre line and steady-state limits labelled at the
+// right edge and pushed apart so they never overlap), each point's own limits
+// where they differ from the steady state (the early points of an EWMA, the
+// subgroups of unequal size of an X̄ or s chart), and the plotted statistic
+// with its signalling points in red. A NaN statistic or limit (the s of a
+// group of one) is a gap: no point, no line through it. xlabels, when not nil,
+// name the points (one per point: a day, a lot) instead of their numbers;
+// labels that would collide are thinned out. Its text is 7 pt. The panel title and the list of
+// signals are the caller's. c needs at least one point; a chart without one
+// draws an empty frame.
+func DrawPanel(d *pdfdoc.Doc, c spc.Chart, x, y, w, h float64, xlabels []string) {
+	plot(d, c, x+axisW, y, w-axisW-labelW, h-PanelTicksH, xlabels, pdfdoc.Small.Sized(7))
+}
+
+// plot draws one chart's plot in the box (x, y, w, h), its tick and limit
+// labels outside it in style st (DrawPanel).
+func plot(d *pdfdoc.Doc, c spc.Chart, x, y, w, h float64, xlabels []string, st pdfdoc.Style) {
 	pdf := d.PDF
-	x := d.Left + axisW
-	w := d.Width - axisW - labelW
 	n := len(c.Points)
 	// The moving-range chart's first point is the second observation.
 	first := 1
 	if c.Kind == "moving_range" {
 		first = 2
 	}
+	if n == 0 {
+		d.Frame(x, y, w, h, pdfdoc.Rule, 0.25)
+		return
+	}
 	ser := panelSeries(c)
-	lo, hi := math.Min(c.LCL, c.Center), math.Max(c.UCL, c.Center)
-	for _, s := range ser {
-		for _, v := range s.ys {
+	lo, hi := math.Inf(1), math.Inf(-1)
+	widen := func(v float64) {
+		if finite(v) {
 			lo, hi = math.Min(lo, v), math.Max(hi, v)
 		}
 	}
+	widen(c.LCL)
+	widen(c.Center)
+	widen(c.UCL)
+	for _, s := range ser {
+		for _, v := range s.ys {
+			widen(v)
+		}
+	}
 	for _, p := range c.Points {
-		lo, hi = math.Min(lo, p.LCL), math.Max(hi, p.UCL)
+		widen(p.LCL)
+		widen(p.UCL)
+	}
+	if lo > hi { // nothing finite to show
+		lo, hi = 0, 1
 	}
 	ya := pdfdoc.PaddedAxis(lo, hi, 0.08, 6)
 	py := func(v float64) float64 { return y + h - ya.Pos(v, h) }
@@ -175,23 +215,37 @@ func drawPanel(d *pdfdoc.Doc, c spc.Chart, y, h float64) {
 	px := func(i int) float64 { return x + (float64(first+i)-xlo)/(xhi-xlo)*w }
 
 	// Grid and y tick labels.
-	d.Use(pdfdoc.Small)
+	d.Use(st)
 	for _, t := range ya.Ticks {
 		d.HLine(x, py(t), w, pdfdoc.Grid, 0.2)
 		d.TextRight(x-1.5, py(t)+1, ya.Label(t))
 	}
-	// x ticks: whole point numbers, about 20 of them.
-	step := math.Max(1, pdfdoc.NiceStep(xhi-xlo, 20))
-	step = math.Ceil(step)
-	for k := math.Ceil(xlo/step) * step; k <= xhi; k += step {
-		if k < float64(first) {
-			continue
-		}
-		xx := x + (k-xlo)/(xhi-xlo)*w
+	tick := func(xx float64, label string) {
 		d.Stroke(pdfdoc.Rule)
 		pdf.SetLineWidth(0.2)
 		pdf.Line(xx, y+h, xx, y+h+1.2)
-		d.TextCentre(xx, y+h+4, strconv.Itoa(int(k)))
+		d.TextCentre(xx, y+h+4, label)
+	}
+	if len(xlabels) == n {
+		// Every k-th point named, k as small as keeps the names 1.5 mm apart.
+		widest := 0.0
+		for _, l := range xlabels {
+			widest = math.Max(widest, pdf.GetStringWidth(l))
+		}
+		k := max(1, int(math.Ceil((widest+1.5)/(w/(xhi-xlo)))))
+		for i := 0; i < n; i += k {
+			tick(px(i), xlabels[i])
+		}
+	} else {
+		// x ticks: whole point numbers, about 20 of them.
+		step := math.Max(1, pdfdoc.NiceStep(xhi-xlo, 20))
+		step = math.Ceil(step)
+		for k := math.Ceil(xlo/step) * step; k <= xhi; k += step {
+			if k < float64(first) {
+				continue
+			}
+			tick(x+(k-xlo)/(xhi-xlo)*w, strconv.Itoa(int(k)))
+		}
 	}
 	d.Frame(x, y, w, h, pdfdoc.Rule, 0.25)
 
@@ -207,6 +261,13 @@ func drawPanel(d *pdfdoc.Doc, c spc.Chart, y, h float64) {
 		{c.Center, "CL", centreColor, false},
 		{c.LCL, "LCL", pdfdoc.Fail, true},
 	}
+	shown := levels[:0]
+	for _, l := range levels {
+		if finite(l.v) {
+			shown = append(shown, l)
+		}
+	}
+	levels = shown
 	for _, l := range levels {
 		d.Stroke(l.color)
 		pdf.SetLineWidth(0.35)
@@ -220,8 +281,8 @@ func drawPanel(d *pdfdoc.Doc, c spc.Chart, y, h float64) {
 	for i, l := range levels {
 		want[i] = py(l.v)
 	}
-	at := spread(want, pdfdoc.Small.LineH()+0.4, y, y+h)
-	d.Use(pdfdoc.Small.With(pdfdoc.Ink))
+	at := pdfdoc.Spread(want, st.LineH()+0.4, y, y+h)
+	d.Use(st.With(pdfdoc.Ink))
 	for i, l := range levels {
 		pdf.Text(x+w+2, at[i]+1, l.name+" "+num(l.v))
 	}
@@ -235,10 +296,14 @@ func drawPanel(d *pdfdoc.Doc, c spc.Chart, y, h float64) {
 			func(p spc.Point) float64 { return p.LCL },
 		} {
 			for i := range c.Points {
+				v := lim(c.Points[i])
+				if !finite(v) {
+					continue
+				}
 				l, r := px(i)-w/(xhi-xlo)/2, px(i)+w/(xhi-xlo)/2
-				pdf.Line(l, py(lim(c.Points[i])), r, py(lim(c.Points[i])))
-				if i > 0 {
-					pdf.Line(l, py(lim(c.Points[i-1])), l, py(lim(c.Points[i])))
+				pdf.Line(l, py(v), r, py(v))
+				if i > 0 && finite(lim(c.Points[i-1])) {
+					pdf.Line(l, py(lim(c.Points[i-1])), l, py(v))
 				}
 			}
 		}
@@ -257,7 +322,9 @@ func drawPanel(d *pdfdoc.Doc, c spc.Chart, y, h float64) {
 		pdf.SetLineWidth(0.3)
 		if n <= maxJoined {
 			for i := 1; i < n; i++ {
-				pdf.Line(px(i-1), py(s.ys[i-1]), px(i), py(s.ys[i]))
+				if finite(s.ys[i-1]) && finite(s.ys[i]) {
+					pdf.Line(px(i-1), py(s.ys[i-1]), px(i), py(s.ys[i]))
+				}
 			}
 		} else {
 			envelope(d, s.ys, px, py)
@@ -265,6 +332,8 @@ func drawPanel(d *pdfdoc.Doc, c spc.Chart, y, h float64) {
 		for i, v := range s.ys {
 			col, r := s.color, dot
 			switch {
+			case !finite(v):
+				continue
 			case signalled[i] && (si == 0 || isLowSignal(c, i)):
 				col, r = pdfdoc.Fail, math.Max(dot*1.7, 0.5)
 			case n > maxDotted:
@@ -294,9 +363,14 @@ func envelope(d *pdfdoc.Doc, ys []float64, px func(int) float64, py func(float64
 		if i1 <= i0 {
 			continue
 		}
-		lo, hi := ys[i0], ys[i0]
+		lo, hi := math.Inf(1), math.Inf(-1)
 		for _, v := range ys[i0:i1] {
-			lo, hi = math.Min(lo, v), math.Max(hi, v)
+			if finite(v) {
+				lo, hi = math.Min(lo, v), math.Max(hi, v)
+			}
+		}
+		if lo > hi {
+			continue
 		}
 		x := px((i0 + i1 - 1) / 2)
 		d.PDF.Line(x, py(lo), x, py(hi))
@@ -311,37 +385,6 @@ func isLowSignal(c spc.Chart, i int) bool {
 		}
 	}
 	return false
-}
-
-// spread moves label positions want (any order) apart until neighbours are
-// at least gap apart, keeping them within [lo, hi] where there is room, and
-// returns the positions in the order of want.
-func spread(want []float64, gap, lo, hi float64) []float64 {
-	order := make([]int, len(want))
-	for i := range order {
-		order[i] = i
-	}
-	// Insertion sort by position: three labels.
-	for i := 1; i < len(order); i++ {
-		for j := i; j > 0 && want[order[j]] < want[order[j-1]]; j-- {
-			order[j], order[j-1] = order[j-1], order[j]
-		}
-	}
-	at := make([]float64, len(want))
-	for i, k := range order {
-		at[k] = want[k]
-		if i > 0 {
-			at[k] = math.Max(at[k], at[order[i-1]]+gap)
-		}
-	}
-	// Pushed past the bottom: shift the stack up as far as the top allows.
-	if last := at[order[len(order)-1]]; last > hi {
-		shift := math.Min(last-hi, math.Max(0, at[order[0]]-lo))
-		for _, k := range order {
-			at[k] -= shift
-		}
-	}
-	return at
 }
 
 // signalText lists a chart's signals in at most two lines of h mm at y.
@@ -377,6 +420,9 @@ func num(v float64) string {
 	}
 	return pdfdoc.Minus(strconv.FormatFloat(v, 'g', 5, 64))
 }
+
+// finite reports whether v is neither NaN nor infinite.
+func finite(v float64) bool { return !math.IsNaN(v) && !math.IsInf(v, 0) }
 
 // errNoPoints is returned for a chart without points.
 var errNoPoints = errors.New("chart: a chart without points")

@@ -2,38 +2,15 @@ package chart
 
 import (
 	"bytes"
+	"math"
 	"os/exec"
 	"strings"
 	"testing"
+	"time"
 
+	"trimline/reports/internal/pdfdoc"
 	"trimline/sequencer/spc"
 )
-
-// Labels wanted closer than the gap are pushed apart, in their order, and
-// kept inside the plot when there is room; labels far apart stay where they
-// are wanted.
-func TestSpreadKeepsLabelsApart(t *testing.T) {
-	cases := []struct {
-		name        string
-		want        []float64
-		gap, lo, hi float64
-		expect      []float64
-	}{
-		{"apart", []float64{10, 50, 90}, 3, 0, 100, []float64{10, 50, 90}},
-		{"UCL, CL, LCL on one line", []float64{50, 50, 50}, 3, 0, 100, []float64{50, 53, 56}},
-		{"pushed up from the bottom", []float64{99, 100, 100}, 3, 0, 100, []float64{94, 97, 100}},
-		{"any order", []float64{51, 50, 90}, 3, 0, 100, []float64{53, 50, 90}},
-	}
-	for _, c := range cases {
-		got := spread(c.want, c.gap, c.lo, c.hi)
-		for i := range got {
-			if d := got[i] - c.expect[i]; d > 1e-9 || d < -1e-9 {
-				t.Errorf("%s: got %v, want %v", c.name, got, c.expect)
-				break
-			}
-		}
-	}
-}
 
 // handChart is a chart written out by hand: a centre, limits and a signal,
 // so the drawing is tested apart from the arithmetic of sequencer/spc.
@@ -107,5 +84,36 @@ func TestWritePDFLongSeries(t *testing.T) {
 	txt, err := cmd.Output()
 	if err != nil || !strings.Contains(string(txt), "12345 beyond_3_sigma") {
 		t.Errorf("PDF text lacks the signal (%v):\n%s", err, txt)
+	}
+}
+
+// An X̄ and an s chart of unequal groups (spc.Subgroups) drawn as panels in
+// boxes of a portrait page: per-point limits, the s of a group of one is NaN
+// and is a gap (no coordinate of the drawing is NaN), and a chart without
+// points is an empty frame.
+func TestDrawPanelSubgroups(t *testing.T) {
+	groups := [][]float64{{10, 11, 9}, {12}, {10, 10.5}, {9, 9.5, 10, 11, 10.2}, {13}}
+	means, spreads, err := spc.Subgroups(groups, 10, 1)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !math.IsNaN(spreads.Points[1].Statistic) {
+		t.Fatalf("s of a group of one = %v, want NaN", spreads.Points[1].Statistic)
+	}
+	pdf := pdfdoc.New(time.Unix(0, 0), 15, 15, 15)
+	pdf.SetCompression(false)
+	pdf.AddPage()
+	d := &pdfdoc.Doc{PDF: pdf, Left: 15, Width: 180, Y: 15}
+	keys := []string{"2026-12-01", "2026-12-02", "2026-12-03", "2026-12-04", "2026-12-05"}
+	DrawPanel(d, means, 15, 20, 180, 60, keys)
+	DrawPanel(d, spreads, 15, 90, 90, 50, nil)
+	DrawPanel(d, spc.Chart{Kind: spc.KindMeans}, 110, 90, 80, 50, nil)
+	var b bytes.Buffer
+	if err := pdf.Output(&b); err != nil {
+		t.Fatal(err)
+	}
+	// fmt writes a NaN or infinite coordinate as NaN, +Inf or -Inf.
+	if bytes.Contains(b.Bytes(), []byte("NaN")) || bytes.Contains(b.Bytes(), []byte("Inf ")) {
+		t.Error("the drawing has a NaN or infinite coordinate")
 	}
 }

@@ -102,10 +102,10 @@ type Counts struct {
 	// is that run's final verdict): passed, failed, held for REVIEW with no
 	// decision yet. Passed + Failed + Held = Units.
 	Passed, Failed, Held int
-	FirstPass int // units whose first attempt passed (a REVIEW accepted on review without a retest counts)
-	Retested  int // units with more than one attempt
-	Attempts  int // completed runs that measured a unit (review decisions are not attempts)
-	Decisions int // review decisions among the runs counted
+	FirstPass            int // units whose first attempt passed (a REVIEW accepted on review without a retest counts)
+	Retested             int // units with more than one attempt
+	Attempts             int // completed runs that measured a unit (review decisions are not attempts)
+	Decisions            int // review decisions among the runs counted
 	// Runs is every run counted for the fault rate: attempts, faults and
 	// aborted runs.
 	Runs, Faults, Aborted int
@@ -157,6 +157,11 @@ type ResultStats struct {
 	// Hist bins the values over the tolerance band plus a margin, with explicit
 	// under- and overflow counts.
 	Hist spc.Histogram
+	// DataHist bins the values over their own robust range (1st to 99th
+	// percentile, widened by the margin), with under- and overflow: the shape
+	// of a capable process that fills only a few bins of Hist. No bins when
+	// fewer than 2 values.
+	DataHist spc.Histogram
 	// Values are the N values in test order (the runs' start times); U the
 	// expanded uncertainty of each (Unit, NaN when the record has none); Units
 	// the index in Report.Units of the unit each belongs to. For charts and

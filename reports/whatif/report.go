@@ -14,12 +14,14 @@ package whatif
 import (
 	"math"
 	"runtime"
+	"slices"
 	"sort"
 	"strings"
 	"sync"
 	"time"
 
 	"trimline/limits"
+	"trimline/sequencer/spc"
 )
 
 // StoredUnit is one unit's run as the station stored it, for Rejudge.
@@ -34,8 +36,13 @@ type StoredUnit struct {
 	Catalog limits.Catalog
 }
 
-// HistBins is the number of bins of a distribution.
-const HistBins = 40
+// HistBins is the number of bins of a distribution's histogram, and
+// HistMargin how far it reaches beyond the bounds on each side, as a fraction
+// of the span of the bounds (Distribution.Hist).
+const (
+	HistBins   = 24
+	HistMargin = 0.25
+)
 
 // Report is what a new limit set would have made of stored units (Rejudge).
 type Report struct {
@@ -102,10 +109,10 @@ type Distribution struct {
 	N        int     // valid, finite values
 	Invalid  int     // missing, invalid or not finite
 	Min, Max float64 // SI, over the N values
-	// Bins counts the values in HistBins equal bins over [Min, Max]: bin k holds
-	// Min + k·w ≤ v < Min + (k+1)·w, the last bin also v = Max. All in bin 0 when
-	// Min = Max.
-	Bins     []int
+	// Hist bins the N values (SI) in HistBins equal bins over the bounds of
+	// both sets plus a margin (histBand), with the values below and above that
+	// band counted apart (Under, Over), so one outlier never flattens it.
+	Hist     spc.Histogram
 	Old, New []limits.Bound // the limits on the result in each set
 }
 
@@ -190,14 +197,11 @@ func Rejudge(old, new *limits.Set, units []StoredUnit) Report {
 			}
 		}
 	}
-	bins := make([][][]int, workers) // worker → distribution → bins
+	values := make([][][]float64, workers) // worker → distribution → values
 	invalid := make([][]int, workers)
 	run(func(w, from, to int) {
-		b := make([][]int, len(dists))
+		b := make([][]float64, len(dists))
 		inv := make([]int, len(dists))
-		for k := range b {
-			b[k] = make([]int, HistBins)
-		}
 		for i := from; i < to; i++ {
 			if !judge[i] {
 				continue
@@ -208,28 +212,28 @@ func Rejudge(old, new *limits.Set, units []StoredUnit) Report {
 						inv[k]++
 						return
 					}
-					b[k][binOf(x, dists[k].Min, dists[k].Max)]++
+					b[k] = append(b[k], x)
 				})
 			}
 		}
-		bins[w], invalid[w] = b, inv
+		values[w], invalid[w] = b, inv
 	})
 	for k := range dists {
 		d := &dists[k]
-		d.Bins = make([]int, HistBins)
+		var xs []float64
 		for w := range workers {
-			if bins[w] == nil {
+			if values[w] == nil {
 				continue
 			}
-			for j, c := range bins[w][k] {
-				d.Bins[j] += c
-				d.N += c
-			}
+			xs = append(xs, values[w][k]...)
 			d.Invalid += invalid[w][k]
 		}
+		d.N = len(xs)
 		if d.N == 0 {
 			d.Min, d.Max = 0, 0
 		}
+		lo, hi := histBand(xs, d.Old, d.New)
+		d.Hist = spc.Bin(xs, lo, hi, HistBins)
 	}
 	rep.Distributions = dists
 
@@ -311,13 +315,70 @@ func usable(vals map[string]limits.Value, name string) (float64, bool) {
 	return v.V, true
 }
 
-func binOf(x, lo, hi float64) int {
-	if !(hi > lo) {
-		return 0
+// histBand is the range a distribution's histogram bins (SI): from the lowest
+// lower bound of either set to the highest upper bound, a side without a
+// bound reaching to the robust end of the values instead (their 1st or 99th
+// percentile, so one outlier does not set it), widened by HistMargin of that
+// span on each side. The same rule as the lot report's histograms.
+func histBand(xs []float64, old, new []limits.Bound) (lo, hi float64) {
+	lo, hi = math.Inf(1), math.Inf(-1)
+	for _, bs := range [][]limits.Bound{old, new} {
+		for _, b := range bs {
+			if b.Lower != nil && finite(*b.Lower) {
+				lo = math.Min(lo, *b.Lower)
+			}
+			if b.Upper != nil && finite(*b.Upper) {
+				hi = math.Max(hi, *b.Upper)
+			}
+		}
 	}
-	k := int((x - lo) / (hi - lo) * HistBins)
-	return max(0, min(HistBins-1, k))
+	var sorted []float64
+	pct := func(p float64) float64 {
+		if sorted == nil {
+			sorted = slices.Clone(xs)
+			slices.Sort(sorted)
+		}
+		return sorted[int(p*float64(len(sorted)-1))]
+	}
+	if math.IsInf(lo, 1) && len(xs) > 0 {
+		lo = pct(0.01)
+	}
+	if math.IsInf(hi, -1) && len(xs) > 0 {
+		hi = pct(0.99)
+	}
+	switch {
+	case math.IsInf(lo, 1) && math.IsInf(hi, -1): // no bound, no value
+		return 0, 1
+	case math.IsInf(lo, 1):
+		lo = hi
+	case math.IsInf(hi, -1):
+		hi = lo
+	}
+	lo, hi = min(lo, hi), max(lo, hi)
+	span := hi - lo
+	if !(span > 0) {
+		span = math.Abs(lo)
+		if !(span > 0) {
+			span = 1
+		}
+	}
+	return lo - HistMargin*span, hi + HistMargin*span
 }
+
+// binOf is the bin of h that holds x: −1 below it, len(h.Counts) above it (as
+// spc.Bin counts).
+func binOf(x float64, h spc.Histogram) int {
+	n := len(h.Counts)
+	switch {
+	case n == 0 || x < h.Lo:
+		return -1
+	case x > h.Hi:
+		return n
+	}
+	return min(n-1, int((x-h.Lo)/((h.Hi-h.Lo)/float64(n))))
+}
+
+func finite(v float64) bool { return !math.IsNaN(v) && !math.IsInf(v, 0) }
 
 // notPassing lists the limits of s that do not pass the unit.
 func notPassing(s *limits.Set, vals map[string]limits.Value) []string {

@@ -158,35 +158,51 @@ func writeDistribution(w io.Writer, d Distribution) {
 		}
 		kept = append(kept, e)
 	}
+	h := d.Hist
 	for _, e := range kept {
 		t := fmt.Sprintf("%s %s %s%s (%s)", e.which, e.side, units.FormatSig(in(e.v), 6), u, e.limit)
 		switch {
 		case e.v < d.Min && !sameValue(e.v, d.Min):
-			outside = append(outside, t+": below every value")
+			t += ": below every value"
 		case e.v > d.Max && !sameValue(e.v, d.Max):
-			outside = append(outside, t+": above every value")
-		default:
-			marks = append(marks, mark{binOf(e.v, d.Min, d.Max), t})
+			t += ": above every value"
+		}
+		if k := binOf(e.v, h); k >= 0 && k < len(h.Counts) {
+			marks = append(marks, mark{k, t})
+		} else {
+			outside = append(outside, t)
 		}
 	}
-	most := 1
-	for _, c := range d.Bins {
+	// The bins over the bounds plus a margin, with a row for the values
+	// below and one for those above them (Distribution.Hist).
+	most := max(1, h.Under, h.Over)
+	for _, c := range h.Counts {
 		most = max(most, c)
 	}
-	step := (d.Max - d.Min) / HistBins
-	labels := make([]string, len(d.Bins))
+	n := len(h.Counts)
+	labels := make([]string, n+2)
+	counts := make([]int, n+2)
+	labels[0], counts[0] = "< "+units.FormatSig(in(h.Lo), 4), h.Under
+	labels[n+1], counts[n+1] = "> "+units.FormatSig(in(h.Hi), 4), h.Over
+	for k, c := range h.Counts {
+		v := h.Lo + float64(k)*(h.Hi-h.Lo)/float64(n)
+		if math.Abs(v) < 1e-9*(h.Hi-h.Lo) {
+			v = 0 // not 5.4e−14 from rounding
+		}
+		labels[k+1], counts[k+1] = units.FormatSig(in(v), 4), c
+	}
 	lw := 0
-	for k := range d.Bins {
-		labels[k] = units.FormatSig(in(d.Min+float64(k)*step), 4)
-		lw = max(lw, len([]rune(labels[k])))
+	for _, l := range labels {
+		lw = max(lw, len([]rune(l)))
 	}
 	const barWidth = 40
-	for k, c := range d.Bins {
+	for k, c := range counts {
 		b := bar(c, most, barWidth)
-		line := fmt.Sprintf("  %*s │%s%s│ %6d", lw, labels[k], b, strings.Repeat(" ", barWidth-len([]rune(b))), c)
+		pad := lw - len([]rune(labels[k]))
+		line := fmt.Sprintf("  %s%s │%s%s│ %6d", strings.Repeat(" ", pad), labels[k], b, strings.Repeat(" ", barWidth-len([]rune(b))), c)
 		var ms []string
 		for _, m := range marks {
-			if m.bin == k {
+			if m.bin == k-1 {
 				ms = append(ms, m.text)
 			}
 		}

@@ -9,6 +9,7 @@ import (
 	"os/exec"
 	"path/filepath"
 	"reflect"
+	"slices"
 	"strconv"
 	"strings"
 	"testing"
@@ -19,6 +20,7 @@ import (
 	"trimline/limits/limitstest"
 	"trimline/reports/whatif"
 	"trimline/sequencer"
+	"trimline/sequencer/spc"
 )
 
 var generated = time.Date(2025, 3, 14, 9, 30, 0, 0, time.UTC)
@@ -159,13 +161,16 @@ func TestEdgeCases(t *testing.T) {
 		Old: "a", New: "b", Units: 3,
 		Before: whatif.VerdictCounts{Pass: 3}, After: whatif.VerdictCounts{Pass: 1, Fail: 2},
 		Distributions: []whatif.Distribution{
-			{Result: "empty", Unit: "uV", Invalid: 3, Bins: make([]int, whatif.HistBins),
+			{Result: "empty", Unit: "uV", Invalid: 3, Hist: spc.Bin(nil, -1.5e-4, 1.5e-4, whatif.HistBins),
 				New: []limits.Bound{{Limit: "l", Lower: f(-1e-4), Upper: f(1e-4)}}},
-			{Result: "single", Unit: "%", N: 3, Min: 0.01, Max: 0.01, Bins: append([]int{3}, make([]int, whatif.HistBins-1)...),
+			{Result: "single", Unit: "%", N: 3, Min: 0.01, Max: 0.01, Hist: spc.Bin([]float64{0.01, 0.01, 0.01}, 0.0075, 0.025, whatif.HistBins),
 				Old: []limits.Bound{{Limit: "l", Upper: f(0.02)}}, New: []limits.Bound{{Limit: "l", Upper: f(0.015)}}},
-			{Result: "far", Unit: "weird-unit", N: 3, Min: 1, Max: 2, Bins: append([]int{1, 2}, make([]int, whatif.HistBins-2)...),
+			// A band that leaves the bounds out (Rejudge's never does): they are
+			// drawn off scale.
+			{Result: "far", Unit: "weird-unit", N: 3, Min: 1, Max: 2, Hist: spc.Bin([]float64{1, 1.5, 2}, 0.75, 2.25, whatif.HistBins),
 				Old: []limits.Bound{{Limit: "l", Lower: f(-100), Upper: f(100)}}, New: []limits.Bound{{Limit: "l", Lower: f(1.5), Upper: f(1e6)}}},
-			{Result: "nobounds", N: 2, Min: -1, Max: 1, Bins: append([]int{1}, append(make([]int, whatif.HistBins-2), 1)...)},
+			{Result: "nobounds", N: 2, Min: -1, Max: 1, Hist: spc.Bin([]float64{-1, 1}, -1.5, 1.5, whatif.HistBins)},
+			{Result: "nobins", N: 2, Min: -1, Max: 1, Hist: spc.Bin([]float64{-1, 1}, 0, 0, whatif.HistBins)},
 		},
 	}
 	txt := pdfText(t, render(t, rep))
@@ -315,19 +320,29 @@ func TestWhatIfMatchesDirectLoop(t *testing.T) {
 			vals = append(vals, v.V)
 			lo, hi = math.Min(lo, v.V), math.Max(hi, v.V)
 		}
-		bins := make([]int, whatif.HistBins)
-		for _, v := range vals {
-			k := int(math.Floor((v - lo) / (hi - lo) * whatif.HistBins))
-			bins[min(k, whatif.HistBins-1)]++
+		// The band holds every bound; the values are binned over it with
+		// the ones outside it counted apart.
+		hist := spc.Bin(vals, d.Hist.Lo, d.Hist.Hi, whatif.HistBins)
+		if d.N != len(vals) || d.Invalid != invalid || d.Min != lo || d.Max != hi || !reflect.DeepEqual(d.Hist, hist) {
+			t.Errorf("%s: N %d invalid %d [%g, %g] hist %+v\nwant %d %d [%g, %g] %+v (direct loop)", d.Result, d.N, d.Invalid, d.Min, d.Max, d.Hist,
+				len(vals), invalid, lo, hi, hist)
 		}
-		if d.N != len(vals) || d.Invalid != invalid || d.Min != lo || d.Max != hi || !reflect.DeepEqual(d.Bins, bins) {
-			t.Errorf("%s: N %d invalid %d [%g, %g] bins %v\nwant %d %d [%g, %g] %v (direct loop)", d.Result, d.N, d.Invalid, d.Min, d.Max, d.Bins,
-				len(vals), invalid, lo, hi, bins)
+		for _, b := range append(slices.Clone(d.Old), d.New...) {
+			for _, v := range []*float64{b.Lower, b.Upper} {
+				if v != nil && (*v < d.Hist.Lo || *v > d.Hist.Hi) {
+					t.Errorf("%s: bound %g outside the histogram's band [%g, %g]", d.Result, *v, d.Hist.Lo, d.Hist.Hi)
+				}
+			}
 		}
 	}
 	po := rep.Distributions[2]
 	if len(po.Old) != 1 || len(po.New) != 1 || *po.Old[0].Upper != 800e-6 || !within(*po.New[0].Lower, -600e-6, 1e-12) {
 		t.Errorf("post_offset bounds old %+v new %+v, want ±800 µV → ±600 µV (hand-made pair)", po.Old, po.New)
+	}
+	// Hand-worked: the bounds span −800 … 800 µV, a quarter of that (400 µV)
+	// beyond each.
+	if !within(po.Hist.Lo, -1200e-6, 1e-12) || !within(po.Hist.Hi, 1200e-6, 1e-12) {
+		t.Errorf("post_offset binned over [%g, %g], want [−1200, 1200] µV", po.Hist.Lo, po.Hist.Hi)
 	}
 
 	var b bytes.Buffer
