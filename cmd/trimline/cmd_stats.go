@@ -106,9 +106,9 @@ When no run matches, the command says so and exits 2.`,
 			}
 		}
 		if *pdfPath != "" {
-			// TODO(lead): wire H2's stats.WriteFile(*pdfPath, r) here once it
-			// is on main; until then --pdf is refused.
-			return usagef("--pdf: the PDF lot report is not built into this version yet")
+			if err := stats.WriteFile(*pdfPath, r); err != nil {
+				return fmt.Errorf("--pdf: %w", err)
+			}
 		}
 		switch {
 		case *asJSON:

@@ -20,7 +20,6 @@ func TestStats(t *testing.T) {
 	if testing.Short() {
 		t.Skip("runs the demo with 30 units")
 	}
-	t.Skip("TEMPORARY: until H1's stats.Open is merged (reports/stats/h1_stub.go)")
 	dir := t.TempDir()
 	if code, out, errOut := runCLI(t, "demo", "--out", dir, "--units", "25", "--seed", "8", "--lot", "L7"); code != exitFail && code != exitPass {
 		t.Fatalf("demo: exit %d\n%s%s", code, out, errOut)
@@ -141,6 +140,17 @@ func TestStats(t *testing.T) {
 		head := strings.Join(recs[0], ",")
 		if !strings.HasPrefix(head, "serial,") || !strings.Contains(head, " U [") {
 			t.Errorf("header %s", head)
+		}
+	})
+
+	t.Run("pdf", func(t *testing.T) {
+		pdf := filepath.Join(t.TempDir(), "lot.pdf")
+		code, out, errOut := runCLI(t, "stats", "--ledger", led, "--by", "lot", "--pdf", pdf)
+		if code != exitPass || !strings.Contains(out, "lot report with plots: "+pdf) {
+			t.Fatalf("exit %d\n%s%s", code, out, errOut)
+		}
+		if b, err := os.ReadFile(pdf); err != nil || !bytes.HasPrefix(b, []byte("%PDF-")) {
+			t.Fatalf("no PDF at %s: %v", pdf, err)
 		}
 	})
 
