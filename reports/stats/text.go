@@ -217,9 +217,12 @@ func textWithUnit(v, unit string) string {
 	return v + " " + units.Display(unit)
 }
 
-// textHistogram draws s.Hist as rows of bars, adjacent bins merged so that
-// there are at most textHistRows, with the tolerance's limits marked between the
-// rows they separate and the under- and overflow counted above and below.
+// textHistogram draws s.Hist, the values over the tolerance band and a
+// margin, as rows of bars (textHistRows at most), with the tolerance's limits
+// marked between the rows they separate and the values below and above the
+// band counted. When the band's histogram has few rows with values in them (a
+// capable process) s.DataHist follows, the values over their own range, so
+// that their shape shows too.
 func textHistogram(w io.Writer, s ResultStats) {
 	h := s.Hist
 	fmt.Fprintf(w, "\n%s [%s], tolerance %s, n %d\n", s.Name, units.Display(s.Unit), textTolerance(s.Lower, s.Upper), s.N)
@@ -227,6 +230,17 @@ func textHistogram(w io.Writer, s ResultStats) {
 		fmt.Fprintf(w, "  no histogram: below the middle %d, above %d\n", h.Under, h.Over)
 		return
 	}
+	filled := textHistRowsOf(w, h, s.Lower, s.Upper)
+	if filled <= 3 && len(s.DataHist.Counts) > 0 && s.N >= 2 {
+		fmt.Fprintln(w, "  the same values over their own range:")
+		textHistRowsOf(w, s.DataHist, s.Lower, s.Upper)
+	}
+}
+
+// textHistRowsOf writes the rows of h, adjacent bins merged so that there
+// are at most textHistRows, between the counts below and above it, and
+// returns how many rows hold values.
+func textHistRowsOf(w io.Writer, h spc.Histogram, lower, upper *float64) (filled int) {
 	merge := (len(h.Counts) + textHistRows - 1) / textHistRows
 	width := (h.Hi - h.Lo) / float64(len(h.Counts))
 	type row struct {
@@ -246,6 +260,9 @@ func textHistogram(w io.Writer, s ResultStats) {
 	most := 1
 	for _, r := range rows {
 		most = max(most, r.n)
+		if r.n > 0 {
+			filled++
+		}
 	}
 	// Edges within a part in a million of a bin's width are the same edge.
 	near := func(a, b float64) bool { return math.Abs(a-b) <= width*1e-6 }
@@ -269,19 +286,20 @@ func textHistogram(w io.Writer, s ResultStats) {
 	}
 	fmt.Fprintf(w, "  below %s: %d\n", textValue(h.Lo), h.Under)
 	for i, r := range rows {
-		limit("LSL", s.Lower, r.lo)
-		limit("USL", s.Upper, r.lo)
+		limit("LSL", lower, r.lo)
+		limit("USL", upper, r.lo)
 		b := textBar(r.n, most, textBarWidth)
 		count := ""
 		if r.n > 0 {
 			count = " " + strconv.Itoa(r.n)
 		}
 		fmt.Fprintf(w, "  %s … %s │%s%s%s%s\n", textPad(los[i], wl), textPad(his[i], wh), b, count,
-			marked("LSL", s.Lower, r.lo, r.hi), marked("USL", s.Upper, r.lo, r.hi))
+			marked("LSL", lower, r.lo, r.hi), marked("USL", upper, r.lo, r.hi))
 	}
-	limit("LSL", s.Lower, h.Hi)
-	limit("USL", s.Upper, h.Hi)
+	limit("LSL", lower, h.Hi)
+	limit("USL", upper, h.Hi)
 	fmt.Fprintf(w, "  above %s: %d\n", textValue(h.Hi), h.Over)
+	return filled
 }
 
 // textPad right-aligns s in n runes.

@@ -193,3 +193,26 @@ func TestWriteTextEmpty(t *testing.T) {
 		}
 	}
 }
+
+// A capable result fills few rows of the band's histogram: the values over
+// their own range (DataHist) follow, so their shape shows; a result that
+// fills the band does not get them.
+func TestWriteTextDataHistogram(t *testing.T) {
+	r := sample(t)
+	xs := []float64{-3, -1, 0, 0.5, 1, 2, 2.5}
+	s := result(t, "post_gain_error", "as_left", "ppm", ptr(-500), ptr(500), xs, []float64{42, 42, 42, 42, 42, 42, 42})
+	s.DataHist = spc.Bin(xs, -4, 4, 8)
+	r.Results = []stats.ResultStats{s, r.Results[0]}
+	r.Results[1].DataHist = spc.Bin(r.Results[1].Values, -20, 30, 10)
+	r.Pairs, r.Trends = nil, nil
+	var b bytes.Buffer
+	r.WriteText(&b)
+	out := b.String()
+	if n := strings.Count(out, "the same values over their own range"); n != 1 {
+		t.Fatalf("the values over their own range shown %d times, want once (for post_gain_error):\n%s", n, out)
+	}
+	_, after, _ := strings.Cut(out, "the same values over their own range:\n")
+	if !strings.HasPrefix(after, "  below −4: 0\n") || !strings.Contains(after, "  above 4: 0\n") {
+		t.Errorf("data histogram:\n%s", after)
+	}
+}
