@@ -35,6 +35,7 @@ import (
 	"trimline/reports/certificate"
 	"trimline/reports/stats"
 	"trimline/sequencer"
+	"trimline/sequencer/spc"
 )
 
 // jsonVersion is the version of every object below.
@@ -433,6 +434,10 @@ type statResultOut struct {
 	FractionOutside *float64     `json:"fraction_outside"` // expected, normal model, 0–1
 	MeanU           *float64     `json:"mean_u"`           // mean expanded uncertainty U of the values
 	Histogram       histogramOut `json:"histogram"`
+	// DataHistogram bins the same values over their own robust range (1st to
+	// 99th percentile and a margin): the shape of a capable process that
+	// fills few bins of Histogram. No counts with fewer than 2 values.
+	DataHistogram histogramOut `json:"data_histogram"`
 }
 
 // histogramOut bins a result's values over [lo, hi] (the tolerance band and a
@@ -638,7 +643,7 @@ func newStatsOut(r stats.Report) statsOut {
 			Mean: statNum(s.Mean), SDWithin: statNum(s.SDWithin), SDOverall: statNum(s.SDOverall), Min: statNum(s.Min), Max: statNum(s.Max),
 			Cp: statNum(s.Cp), CpCI: ci(s.CpCI), Cpk: statNum(s.Cpk), CpkCI: ci(s.CpkCI), Pp: statNum(s.Pp), Ppk: statNum(s.Ppk),
 			FractionOutside: statNum(s.FractionOutside), MeanU: statNum(s.MeanU),
-			Histogram: histogramOut{Lo: statNum(s.Hist.Lo), Hi: statNum(s.Hist.Hi), Counts: nonNil(s.Hist.Counts), Under: s.Hist.Under, Over: s.Hist.Over}})
+			Histogram: newHistogramOut(s.Hist), DataHistogram: newHistogramOut(s.DataHist)})
 	}
 	name := func(i int) string {
 		if i < 0 || i >= len(r.Results) {
@@ -670,6 +675,10 @@ func newStatsOut(r stats.Report) statsOut {
 		out.Trends = append(out.Trends, to)
 	}
 	return out
+}
+
+func newHistogramOut(h spc.Histogram) histogramOut {
+	return histogramOut{Lo: num(stats.Round15(h.Lo)), Hi: num(stats.Round15(h.Hi)), Counts: nonNil(h.Counts), Under: h.Under, Over: h.Over}
 }
 
 // statPtr is a bound of a tolerance for --json: nil stays nil.
