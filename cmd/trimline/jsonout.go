@@ -33,7 +33,9 @@ import (
 	"trimline/limits"
 	"trimline/reports/audit"
 	"trimline/reports/certificate"
+	"trimline/reports/stats"
 	"trimline/sequencer"
+	"trimline/sequencer/spc"
 )
 
 // jsonVersion is the version of every object below.
@@ -46,6 +48,7 @@ const (
 	kindCheck        = "check"        // checkOut: the files checked (check)
 	kindVerification = "verification" // verificationOut: one certificate (audit verify)
 	kindError        = "error"        // errorOut: why the command could not do its work (stderr)
+	kindStats        = "stats"        // statsOut: quality numbers of a ledger (stats)
 )
 
 // jsonFlag adds the --json flag every command that has it takes, with words
@@ -331,6 +334,154 @@ type verificationOut struct {
 	TrustedStations []string `json:"trusted_stations"` // the stations they bind
 }
 
+// statsOut is stats' report: the quality numbers of the runs of a ledger that
+// the filter let through. Rates are fractions 0–1; every number of a result is
+// in its limit's unit (Unit, as the limit file writes it), not in SI units,
+// except the indices (pure numbers) and fraction_outside (0–1). A number that
+// cannot be computed (a rate of no units, an index of one value) is null.
+type statsOut struct {
+	Kind      string         `json:"kind"` // "stats"
+	Version   int            `json:"version"`
+	Ledger    string         `json:"ledger"`
+	Filter    statsFilterOut `json:"filter"`
+	By        string         `json:"by"`        // the trends' groups: "day" (UTC), "lot" or "station"
+	Generated time.Time      `json:"generated"` // RFC 3339, UTC
+	// Population says, one sentence each, which runs count for what.
+	Population []string `json:"population"`
+	Units      int      `json:"units"` // counted units (serials with a completed run)
+	// Yield is passed/units, FirstPassYield passed-on-the-first-attempt/units,
+	// RetestRate retested/units, FaultRate faults/runs (counts: Counts).
+	Yield          *float64       `json:"yield"`
+	FirstPassYield *float64       `json:"first_pass_yield"`
+	RetestRate     *float64       `json:"retest_rate"`
+	FaultRate      *float64       `json:"fault_rate"`
+	Counts         statsCountsOut `json:"counts"`
+	// Pareto lists the limits failing or held units did not pass, most units first.
+	Pareto  []paretoOut     `json:"pareto"`
+	Results []statResultOut `json:"results"` // the toleranced results, pre-trim first
+	Pairs   []pairOut       `json:"pairs"`   // pre-trim results beside post-trim ones
+	Trends  []trendOut      `json:"trends"`
+	Notes   []string        `json:"notes"` // what a reader must know about the numbers
+}
+
+// statsFilterOut is the filter a stats report was made with; "" and null
+// match anything.
+type statsFilterOut struct {
+	Product  string `json:"product"`
+	Revision string `json:"revision"`
+	Station  string `json:"station"`
+	Site     string `json:"site"`
+	Lot      string `json:"lot"`
+	// Since and Until bound the runs' finish: on or after Since, before Until.
+	Since              *time.Time `json:"since"`
+	Until              *time.Time `json:"until"`
+	IncludeEngineering bool       `json:"include_engineering"`
+}
+
+// statsCountsOut are the counts behind the rates.
+type statsCountsOut struct {
+	Units       int `json:"units"`
+	Passed      int `json:"passed"` // by the final verdict of each unit's latest attempt
+	Failed      int `json:"failed"`
+	Held        int `json:"held"`       // REVIEW with no decision yet
+	FirstPass   int `json:"first_pass"` // units whose first attempt passed
+	Retested    int `json:"retested"`   // units with more than one attempt
+	Attempts    int `json:"attempts"`   // completed runs (review decisions are none)
+	Decisions   int `json:"decisions"`  // review decisions
+	Runs        int `json:"runs"`       // attempts, faults and aborted runs
+	Faults      int `json:"faults"`
+	Aborted     int `json:"aborted"`
+	Engineering int `json:"engineering"`  // engineering runs the filter matched
+	NoCompleted int `json:"no_completed"` // serials with only faulted or aborted runs
+}
+
+// paretoOut is how many units one limit did not pass.
+type paretoOut struct {
+	Limit   string `json:"limit"`
+	Channel string `json:"channel,omitempty"` // absent for a limit of the whole unit
+	Failed  int    `json:"failed"`            // units whose latest attempt failed it
+	Held    int    `json:"held"`              // … held it for review
+	First   int    `json:"first"`             // units whose first attempt did not pass it
+}
+
+// statResultOut is the capability of one toleranced result.
+type statResultOut struct {
+	Name     string `json:"name"` // result, or result@channel
+	Result   string `json:"result"`
+	Channel  string `json:"channel,omitempty"`
+	Stage    string `json:"stage"` // as_found (pre-trim), adjustment or as_left
+	Quantity string `json:"quantity"`
+	Limit    string `json:"limit"` // the toleranced limit that judges it
+	Unit     string `json:"unit"`  // the limit's unit, of every number below but the indices and fractions
+	// Lower and Upper are the tolerance; null where unbounded.
+	Lower     *float64 `json:"lower"`
+	Upper     *float64 `json:"upper"`
+	N         int      `json:"n"`       // units with a valid value
+	Invalid   int      `json:"invalid"` // counted units without one
+	Mean      *float64 `json:"mean"`
+	SDWithin  *float64 `json:"sd_within"`  // MR̄/1.128 of consecutive units in test order
+	SDOverall *float64 `json:"sd_overall"` // sample SD (n − 1)
+	Min       *float64 `json:"min"`
+	Max       *float64 `json:"max"`
+	Cp        *float64 `json:"cp"` // null for a one-sided tolerance
+	// CpCI and CpkCI are [low, high] 95 % confidence intervals (χ² for Cp,
+	// Bissell 1990 for Cpk).
+	CpCI            [2]*float64  `json:"cp_ci"`
+	Cpk             *float64     `json:"cpk"`
+	CpkCI           [2]*float64  `json:"cpk_ci"`
+	Pp              *float64     `json:"pp"`
+	Ppk             *float64     `json:"ppk"`
+	FractionOutside *float64     `json:"fraction_outside"` // expected, normal model, 0–1
+	MeanU           *float64     `json:"mean_u"`           // mean expanded uncertainty U of the values
+	Histogram       histogramOut `json:"histogram"`
+	// DataHistogram bins the same values over their own robust range (1st to
+	// 99th percentile and a margin): the shape of a capable process that
+	// fills few bins of Histogram. No counts with fewer than 2 values.
+	DataHistogram histogramOut `json:"data_histogram"`
+}
+
+// histogramOut bins a result's values over [lo, hi] (the tolerance band and a
+// margin) in len(counts) equal bins; under and over count the values outside.
+type histogramOut struct {
+	Lo     *float64 `json:"lo"`
+	Hi     *float64 `json:"hi"`
+	Counts []int    `json:"counts"`
+	Under  int      `json:"under"`
+	Over   int      `json:"over"`
+}
+
+// pairOut puts a pre-trim result beside the post-trim result of the same
+// quantity and channel, by their names in results.
+type pairOut struct {
+	Quantity string `json:"quantity"`
+	Channel  string `json:"channel,omitempty"`
+	Pre      string `json:"pre"`
+	Post     string `json:"post"`
+}
+
+// trendOut is one result's mean and spread per group, with each group's
+// control limits: the mean against center ± 3·sigma/√n, the sd against
+// sigma·(c4 ± 3·√(1 − c4²)) (sigma the result's sd_within).
+type trendOut struct {
+	Result string          `json:"result"` // its name in results
+	By     string          `json:"by"`
+	Center *float64        `json:"center"`
+	Sigma  *float64        `json:"sigma"`
+	Groups []trendGroupOut `json:"groups"`
+}
+
+// trendGroupOut is one group of a trend: a day "2026-12-02", a lot id, a
+// station id. Beyond: its mean or sd is outside its limits.
+type trendGroupOut struct {
+	Key        string      `json:"key"`
+	N          int         `json:"n"`
+	Mean       *float64    `json:"mean"`
+	SD         *float64    `json:"sd"` // null for a group of one value
+	MeanLimits [2]*float64 `json:"mean_limits"`
+	SDLimits   [2]*float64 `json:"sd_limits"`
+	Beyond     bool        `json:"beyond"`
+}
+
 // errorOut is why a command could not do its work, on stderr.
 type errorOut struct {
 	Kind     string    `json:"kind"` // "error"
@@ -457,6 +608,85 @@ func newVerificationOut(file string, v audit.Verdict, sealOnly bool, ledgerPath 
 		out.Ledger = ledgerPath
 	}
 	return out
+}
+
+// newStatsOut is r for --json; its numbers are rounded to the 15 digits a
+// float64 holds for sure (stats.Round15).
+func newStatsOut(r stats.Report) statsOut {
+	statNum := func(v float64) *float64 { return num(stats.Round15(v)) }
+	f := r.Filter
+	out := statsOut{Kind: kindStats, Version: jsonVersion, Ledger: r.Ledger, By: r.By, Generated: r.Generated.UTC(),
+		Filter: statsFilterOut{Product: f.Product, Revision: f.Revision, Station: f.Station, Site: f.Site, Lot: f.Lot,
+			IncludeEngineering: f.IncludeEngineering},
+		Population: nonNil(r.Population), Units: r.Counts.Units,
+		Yield: statNum(r.Yield), FirstPassYield: statNum(r.FirstPassYield), RetestRate: statNum(r.RetestRate), FaultRate: statNum(r.FaultRate),
+		Pareto: []paretoOut{}, Results: []statResultOut{}, Pairs: []pairOut{}, Trends: []trendOut{}, Notes: nonNil(r.Notes)}
+	if !f.Since.IsZero() {
+		t := f.Since.UTC()
+		out.Filter.Since = &t
+	}
+	if !f.Until.IsZero() {
+		t := f.Until.UTC()
+		out.Filter.Until = &t
+	}
+	c := r.Counts
+	out.Counts = statsCountsOut{Units: c.Units, Passed: c.Passed, Failed: c.Failed, Held: c.Held, FirstPass: c.FirstPass,
+		Retested: c.Retested, Attempts: c.Attempts, Decisions: c.Decisions, Runs: c.Runs, Faults: c.Faults, Aborted: c.Aborted,
+		Engineering: c.Engineering, NoCompleted: c.NoCompleted}
+	for _, p := range r.Pareto {
+		out.Pareto = append(out.Pareto, paretoOut{Limit: p.Limit, Channel: p.Channel, Failed: p.Failed, Held: p.Held, First: p.First})
+	}
+	ci := func(v [2]float64) [2]*float64 { return [2]*float64{statNum(v[0]), statNum(v[1])} }
+	for _, s := range r.Results {
+		out.Results = append(out.Results, statResultOut{Name: s.Name, Result: s.Result, Channel: s.Channel, Stage: s.Stage,
+			Quantity: s.Quantity, Limit: s.Limit, Unit: s.Unit, Lower: statPtr(s.Lower), Upper: statPtr(s.Upper), N: s.N, Invalid: s.Invalid,
+			Mean: statNum(s.Mean), SDWithin: statNum(s.SDWithin), SDOverall: statNum(s.SDOverall), Min: statNum(s.Min), Max: statNum(s.Max),
+			Cp: statNum(s.Cp), CpCI: ci(s.CpCI), Cpk: statNum(s.Cpk), CpkCI: ci(s.CpkCI), Pp: statNum(s.Pp), Ppk: statNum(s.Ppk),
+			FractionOutside: statNum(s.FractionOutside), MeanU: statNum(s.MeanU),
+			Histogram: newHistogramOut(s.Hist), DataHistogram: newHistogramOut(s.DataHist)})
+	}
+	name := func(i int) string {
+		if i < 0 || i >= len(r.Results) {
+			return ""
+		}
+		return r.Results[i].Name
+	}
+	for _, p := range r.Pairs {
+		out.Pairs = append(out.Pairs, pairOut{Quantity: p.Quantity, Channel: p.Channel, Pre: name(p.Pre), Post: name(p.Post)})
+	}
+	for _, t := range r.Trends {
+		to := trendOut{Result: name(t.Result), By: t.By, Center: statNum(t.Means.Center), Sigma: statNum(t.Means.Sigma), Groups: []trendGroupOut{}}
+		beyond := map[int]bool{}
+		for _, s := range append(slices.Clone(t.Means.Signals), t.Spreads.Signals...) {
+			beyond[s.Index] = true
+		}
+		for i, g := range t.Groups {
+			grp := trendGroupOut{Key: g.Key, N: g.N, Mean: statNum(g.Mean), SD: statNum(g.SD), Beyond: beyond[i+1]}
+			if i < len(t.Means.Points) {
+				p := t.Means.Points[i]
+				grp.MeanLimits = [2]*float64{statNum(p.LCL), statNum(p.UCL)}
+			}
+			if i < len(t.Spreads.Points) {
+				p := t.Spreads.Points[i]
+				grp.SDLimits = [2]*float64{statNum(p.LCL), statNum(p.UCL)}
+			}
+			to.Groups = append(to.Groups, grp)
+		}
+		out.Trends = append(out.Trends, to)
+	}
+	return out
+}
+
+func newHistogramOut(h spc.Histogram) histogramOut {
+	return histogramOut{Lo: num(stats.Round15(h.Lo)), Hi: num(stats.Round15(h.Hi)), Counts: nonNil(h.Counts), Under: h.Under, Over: h.Over}
+}
+
+// statPtr is a bound of a tolerance for --json: nil stays nil.
+func statPtr(v *float64) *float64 {
+	if v == nil {
+		return nil
+	}
+	return num(stats.Round15(*v))
 }
 
 // newErrorOut is err, which command c ended with, as an errorOut with its exit

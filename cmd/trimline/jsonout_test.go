@@ -155,7 +155,7 @@ func TestJSONBadInput(t *testing.T) {
 }
 
 func TestHelpShowsJSON(t *testing.T) {
-	for _, c := range [][]string{{"help", "run"}, {"help", "check"}, {"help", "audit", "verify"}, {"help", "fit"}} {
+	for _, c := range [][]string{{"help", "run"}, {"help", "check"}, {"help", "audit", "verify"}, {"help", "fit"}, {"help", "stats"}} {
 		_, out, _ := runCLI(t, c...)
 		if !strings.Contains(out, "-json") || !bytes.Contains([]byte(out), []byte("Output for scripts")) {
 			t.Errorf("%v does not show --json:\n%s", c, out)
@@ -185,6 +185,7 @@ func TestReadmeJSONExamples(t *testing.T) {
 		kindCheck:        func() any { return new(checkOut) },
 		kindVerification: func() any { return new(verificationOut) },
 		kindError:        func() any { return new(errorOut) },
+		kindStats:        func() any { return new(statsOut) },
 	}
 	seen := map[string]bool{}
 	blocks := strings.Split(string(section), "```json\n")
