@@ -346,6 +346,8 @@ type statsOut struct {
 	Filter    statsFilterOut `json:"filter"`
 	By        string         `json:"by"`        // the trends' groups: "day" (UTC), "lot" or "station"
 	Generated time.Time      `json:"generated"` // RFC 3339, UTC
+	// Confidence is the two-sided level of every cp_ci and cpk_ci (0.95).
+	Confidence float64 `json:"confidence"`
 	// Population says, one sentence each, which runs count for what.
 	Population []string `json:"population"`
 	Units      int      `json:"units"` // counted units (serials with a completed run)
@@ -424,7 +426,7 @@ type statResultOut struct {
 	Min       *float64 `json:"min"`
 	Max       *float64 `json:"max"`
 	Cp        *float64 `json:"cp"` // null for a one-sided tolerance
-	// CpCI and CpkCI are [low, high] 95 % confidence intervals (χ² for Cp,
+	// CpCI and CpkCI are [low, high] confidence intervals at the report's confidence (χ² for Cp,
 	// Bissell 1990 for Cpk).
 	CpCI            [2]*float64  `json:"cp_ci"`
 	Cpk             *float64     `json:"cpk"`
@@ -432,6 +434,7 @@ type statResultOut struct {
 	Pp              *float64     `json:"pp"`
 	Ppk             *float64     `json:"ppk"`
 	FractionOutside *float64     `json:"fraction_outside"` // expected, normal model, 0–1
+	Outside         int          `json:"outside"`          // values measured outside the tolerance
 	MeanU           *float64     `json:"mean_u"`           // mean expanded uncertainty U of the values
 	Histogram       histogramOut `json:"histogram"`
 	// DataHistogram bins the same values over their own robust range (1st to
@@ -615,7 +618,7 @@ func newVerificationOut(file string, v audit.Verdict, sealOnly bool, ledgerPath 
 func newStatsOut(r stats.Report) statsOut {
 	statNum := func(v float64) *float64 { return num(stats.Round15(v)) }
 	f := r.Filter
-	out := statsOut{Kind: kindStats, Version: jsonVersion, Ledger: r.Ledger, By: r.By, Generated: r.Generated.UTC(),
+	out := statsOut{Kind: kindStats, Version: jsonVersion, Ledger: r.Ledger, By: r.By, Generated: r.Generated.UTC(), Confidence: r.Confidence,
 		Filter: statsFilterOut{Product: f.Product, Revision: f.Revision, Station: f.Station, Site: f.Site, Lot: f.Lot,
 			IncludeEngineering: f.IncludeEngineering},
 		Population: nonNil(r.Population), Units: r.Counts.Units,
@@ -642,7 +645,7 @@ func newStatsOut(r stats.Report) statsOut {
 			Quantity: s.Quantity, Limit: s.Limit, Unit: s.Unit, Lower: statPtr(s.Lower), Upper: statPtr(s.Upper), N: s.N, Invalid: s.Invalid,
 			Mean: statNum(s.Mean), SDWithin: statNum(s.SDWithin), SDOverall: statNum(s.SDOverall), Min: statNum(s.Min), Max: statNum(s.Max),
 			Cp: statNum(s.Cp), CpCI: ci(s.CpCI), Cpk: statNum(s.Cpk), CpkCI: ci(s.CpkCI), Pp: statNum(s.Pp), Ppk: statNum(s.Ppk),
-			FractionOutside: statNum(s.FractionOutside), MeanU: statNum(s.MeanU),
+			FractionOutside: statNum(s.FractionOutside), Outside: s.Outside, MeanU: statNum(s.MeanU),
 			Histogram: newHistogramOut(s.Hist), DataHistogram: newHistogramOut(s.DataHist)})
 	}
 	name := func(i int) string {

@@ -11,14 +11,15 @@ import (
 // CSVColumns are the header of WriteCSV, one column per field of a
 // ResultStats: the tolerance (lower, upper: empty where unbounded), the
 // numbers in the limit's unit (unit), the indices, their confidence intervals
-// (cp_low, cp_high, cpk_low, cpk_high), the expected fraction outside (0–1),
+// (cp_low, cp_high, cpk_low, cpk_high, at the level of confidence), the
+// expected fraction outside (0–1), the values measured outside (outside),
 // the mean expanded measurement uncertainty (mean_U) and the histogram's
 // under- and overflow counts.
 var CSVColumns = []string{
 	"name", "result", "channel", "stage", "quantity", "limit", "unit", "lower", "upper",
 	"n", "invalid", "mean", "sd_within", "sd_overall", "min", "max",
 	"cp", "cp_low", "cp_high", "cpk", "cpk_low", "cpk_high", "pp", "ppk",
-	"fraction_outside", "mean_U", "hist_under", "hist_over",
+	"confidence", "fraction_outside", "outside", "mean_U", "hist_under", "hist_over",
 }
 
 // WriteCSV writes one row per toleranced result (Report.Results, in order)
@@ -34,7 +35,7 @@ func (r Report) WriteCSV(w io.Writer) error {
 			s.Name, s.Result, s.Channel, s.Stage, s.Quantity, s.Limit, s.Unit, csvPtr(s.Lower), csvPtr(s.Upper),
 			strconv.Itoa(s.N), strconv.Itoa(s.Invalid), csvNum(s.Mean), csvNum(s.SDWithin), csvNum(s.SDOverall), csvNum(s.Min), csvNum(s.Max),
 			csvNum(s.Cp), csvNum(s.CpCI[0]), csvNum(s.CpCI[1]), csvNum(s.Cpk), csvNum(s.CpkCI[0]), csvNum(s.CpkCI[1]), csvNum(s.Pp), csvNum(s.Ppk),
-			csvNum(s.FractionOutside), csvNum(s.MeanU), strconv.Itoa(s.Hist.Under), strconv.Itoa(s.Hist.Over),
+			csvNum(r.Confidence), csvNum(s.FractionOutside), strconv.Itoa(s.Outside), csvNum(s.MeanU), strconv.Itoa(s.Hist.Under), strconv.Itoa(s.Hist.Over),
 		})
 	}
 	cw.Flush()

@@ -45,7 +45,7 @@ func TestWriteCSV(t *testing.T) {
 	}
 	for i, s := range r.Results {
 		row := rows[i]
-		if row["name"] != s.Name || row["unit"] != s.Unit || row["stage"] != s.Stage {
+		if row["name"] != s.Name || row["unit"] != s.Unit || row["stage"] != s.Stage || row["outside"] != strconv.Itoa(s.Outside) {
 			t.Errorf("row %d: %v", i, row)
 		}
 		for col, want := range map[string]float64{"mean": s.Mean, "sd_within": s.SDWithin, "cpk_low": s.CpkCI[0], "fraction_outside": s.FractionOutside, "mean_U": s.MeanU} {

@@ -150,13 +150,14 @@ func (r Report) textCapability(w io.Writer) {
 		return
 	}
 	fmt.Fprintln(w, "  Cp, Cpk from sd within (MR̄/1.128, units in test order); Pp, Ppk from sd overall;")
-	fmt.Fprintln(w, "  [low, high] confidence intervals: χ² for Cp, Bissell (1990) for Cpk; outside: expected, normal model")
+	fmt.Fprintf(w, "  [low, high] %s confidence intervals: χ² for Cp, Bissell (1990) for Cpk;\n", textLevel(r.Confidence))
+	fmt.Fprintln(w, "  expected: outside the tolerance by the normal model (sd overall); measured: values outside the tolerance")
 	invalid := false
 	for _, s := range r.Results {
 		invalid = invalid || s.Invalid > 0
 	}
-	t := textTable{align: "lllrrrrrrrrrr"}
-	head := []string{"result", "unit", "tolerance", "n", "mean", "sd within", "sd overall", "Cp [CI]", "Cpk [CI]", "Pp", "Ppk", "outside"}
+	t := textTable{align: "lllrrrrrrrrrrr"}
+	head := []string{"result", "unit", "tolerance", "n", "mean", "sd within", "sd overall", "Cp [CI]", "Cpk [CI]", "Pp", "Ppk", "expected", "measured"}
 	if invalid {
 		head = append(head, "no value")
 	}
@@ -164,13 +165,21 @@ func (r Report) textCapability(w io.Writer) {
 	for _, s := range r.Results {
 		row := []string{s.Name, units.Display(s.Unit), textTolerance(s.Lower, s.Upper), strconv.Itoa(s.N),
 			textValue(s.Mean), textSD(s.SDWithin), textSD(s.SDOverall),
-			textWithCI(s.Cp, s.CpCI), textWithCI(s.Cpk, s.CpkCI), textIndex(s.Pp), textIndex(s.Ppk), textOutside(s.FractionOutside)}
+			textWithCI(s.Cp, s.CpCI), textWithCI(s.Cpk, s.CpkCI), textIndex(s.Pp), textIndex(s.Ppk), textOutside(s.FractionOutside), strconv.Itoa(s.Outside)}
 		if invalid {
 			row = append(row, strconv.Itoa(s.Invalid))
 		}
 		t.add(row...)
 	}
 	t.write(w, "  ")
+}
+
+// textLevel is a confidence level as a percentage ("95 %"), "" when unknown.
+func textLevel(c float64) string {
+	if !(c > 0 && c < 1) {
+		return ""
+	}
+	return units.FormatSig(c*100, 3) + " %"
 }
 
 // textWithCI is an index with its interval: "1.32 [1.01, 1.63]".

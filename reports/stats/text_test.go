@@ -77,6 +77,9 @@ func result(t *testing.T, name, stage, unit string, lower, upper *float64, xs, u
 	var sum float64
 	var n int
 	for i, x := range xs {
+		if (lower != nil && x < *lower) || (upper != nil && x > *upper) {
+			s.Outside++
+		}
 		s.Min, s.Max = math.Min(s.Min, x), math.Max(s.Max, x)
 		if !math.IsNaN(us[i]) {
 			sum += us[i]
