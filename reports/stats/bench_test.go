@@ -2,6 +2,7 @@ package stats_test
 
 import (
 	"context"
+	"io"
 	"os"
 	"os/exec"
 	"path/filepath"
@@ -45,6 +46,30 @@ func BenchmarkRead(b *testing.B) {
 		}
 		if r.Counts.Units != 1000 {
 			b.Fatalf("%d units, want 1000", r.Counts.Units)
+		}
+	}
+}
+
+// BenchmarkReport is the whole of "trimline stats --pdf" on the 1000-unit
+// ledger: read and compute, then the text, both CSVs and the lot report PDF.
+// The target for it is under 2 s.
+func BenchmarkReport(b *testing.B) {
+	path := benchLedger(b)
+	ctx := context.Background()
+	for b.Loop() {
+		r, err := stats.Open(ctx, path, stats.Options{By: stats.ByLot})
+		if err != nil {
+			b.Fatal(err)
+		}
+		r.WriteText(io.Discard)
+		if err := r.WriteCSV(io.Discard); err != nil {
+			b.Fatal(err)
+		}
+		if err := r.WriteValuesCSV(io.Discard); err != nil {
+			b.Fatal(err)
+		}
+		if err := stats.WritePDF(io.Discard, r); err != nil {
+			b.Fatal(err)
 		}
 	}
 }
