@@ -407,8 +407,10 @@ func textSig(v float64, n int) string {
 	return units.FormatSig(v, n)
 }
 
-// textIndex writes a capability index (Cp, Cpk, …) with 3 significant digits,
-// trailing zeros kept ("1.30"); NaN is "—", an infinite index (no spread) ∞.
+// textIndex writes a capability index (Cp, Cpk, …) to two decimals below 10
+// ("1.30", "0.11", common practice, as the lot report writes them) and to 3
+// significant digits above ("26.1"); NaN is "—", an infinite index (no
+// spread) ∞.
 func textIndex(v float64) string {
 	switch {
 	case math.IsNaN(v):
@@ -417,6 +419,9 @@ func textIndex(v float64) string {
 		return "∞"
 	case math.IsInf(v, -1):
 		return "−∞"
+	}
+	if math.Abs(v) < 10 {
+		return units.FormatAt(v, 2)
 	}
 	return strings.Replace(units.FormatNumber(v, 3), "-", "−", 1)
 }
