@@ -53,7 +53,7 @@ func trimline() *command {
 		Commands: []*command{
 			newAuditCmd(), newBenchCmd(), newChartCmd(), newCheckCmd(), newConsoleCmd(), newDemoCmd(), newExportCmd(),
 			newFitCmd(), newImportCmd(), newKeysCmd(), newLimitsCmd(), newReprintCmd(), newRunCmd(),
-			newReviewCmd(), newStatsCmd(),
+			newPlanCmd(), newReviewCmd(), newStatsCmd(),
 		},
 	}
 	root.walk(func(c *command) {

@@ -35,6 +35,7 @@ import (
 	"trimline/reports/certificate"
 	"trimline/reports/stats"
 	"trimline/sequencer"
+	"trimline/sequencer/plan"
 	"trimline/sequencer/spc"
 )
 
@@ -721,4 +722,137 @@ func nonNil[T any](s []T) []T {
 		return []T{}
 	}
 	return s
+}
+
+// kindPlan is the kind of planOut: the trim plan of an error budget (plan).
+const kindPlan = "plan"
+
+// planOut is plan's report: what the error budget predicts of the units before
+// and after trim. Numbers are in SI units with the unit named beside them ("V"
+// or "A" for an offset, "ratio" for a gain error, "code" for a trim code);
+// fractions (shares, saturation, yields) are 0–1. A number that does not exist
+// is null.
+type planOut struct {
+	Kind     string `json:"kind"` // "plan"
+	Version  int    `json:"version"`
+	Budget   string `json:"budget"` // the budget file
+	Product  string `json:"product"`
+	Revision string `json:"revision"`
+	Limits   string `json:"limits"` // the limit file the yield is judged against; "" when the budget names none
+	Seed     uint64 `json:"seed"`
+	// Trials is the number of units drawn; AdaptiveTrials the number after which
+	// the adaptive rule (JCGM 101:2008 §7.9) held the pre-trim quantities to
+	// Digits significant digits (units are drawn on to 100 000 for the yield).
+	Trials         int `json:"trials"`
+	AdaptiveTrials int `json:"adaptive_trials"`
+	Digits         int `json:"digits"`
+	// Quantities: pre_offset and pre_gain_error, NAME_code of each DAC, then
+	// post_offset and post_gain_error.
+	Quantities []planQuantityOut `json:"quantities"`
+	// Saturation is, per DAC name, the fraction of units whose ideal code is
+	// outside the DAC's codes 0 … 2^bits − 1.
+	Saturation map[string]float64 `json:"saturation"`
+	// PredictedYield is the fraction of units whose predicted results
+	// (Predicted) all pass their tolerances, YieldSE its standard error
+	// √(p(1 − p)/trials); null without a limit file.
+	PredictedYield *float64 `json:"predicted_yield"`
+	YieldSE        *float64 `json:"yield_se"`
+	Predicted      []string `json:"predicted"`     // the results the yield judges: post_offset, post_gain_error
+	NotPredicted   []string `json:"not_predicted"` // limits of the file on other results, by name
+	TargetYield    float64  `json:"target_yield"`  // what the recommendation must meet, a fraction
+	// Recommendation is, per DAC of the design, the smallest one meeting
+	// TargetYield; [] without a limit file.
+	Recommendation []planRecommendationOut `json:"recommendation"`
+	// RecommendedYield is the predicted yield with every DAC as recommended
+	// (null when some DAC has no recommendation).
+	RecommendedYield *float64 `json:"recommended_yield"`
+	Notes            []string `json:"notes"` // what a reader must know about the numbers
+}
+
+// planQuantityOut is one predicted quantity over the units drawn.
+type planQuantityOut struct {
+	Name string   `json:"name"`
+	Unit string   `json:"unit"` // "V", "A", "ratio" or "code"
+	Mean *float64 `json:"mean"`
+	SD   *float64 `json:"sd"`
+	// Interval95 is the Monte Carlo's probabilistically symmetric 95 %
+	// interval [low, high].
+	Interval95 []float64 `json:"interval_95"`
+	// GUMInterval95 is the 95 % interval by the law of propagation (JCGM 100);
+	// for a post-trim quantity the common-practice ±1.96·LSB/√12 (GUMBasis
+	// says which); null when there is none.
+	GUMInterval95 []float64 `json:"gum_interval_95"`
+	GUMBasis      string    `json:"gum_basis"`
+	// WorstCase is [low, high] (every bounded source at an end, normal ones at
+	// ±3σ; for a code, unclamped; for a post-trim quantity ±½ LSB); null when
+	// there is none.
+	WorstCase []float64 `json:"worst_case"`
+	// Shares is each contribution's fraction of the variance: sources by name
+	// for a pre-trim quantity or a code, the parts of the residual
+	// (quantisation, saturation, DNL, coefficient rounding) after trim.
+	Shares map[string]float64 `json:"shares"`
+}
+
+// planRecommendationOut is the smallest design of one DAC that meets the target.
+type planRecommendationOut struct {
+	DAC    string `json:"dac"`    // the designed DAC it replaces
+	Result string `json:"result"` // the result it is judged on: post_offset or post_gain_error
+	Found  bool   `json:"found"`
+	Reason string `json:"reason"` // why none was found; "" when found
+	Bits   int    `json:"bits"`
+	// LSB per code and Range = 2^bits·LSB, in LSBUnit ("V" or "A" at the
+	// output or input by placement, "ratio" for gain).
+	LSB          *float64 `json:"lsb"`
+	Range        *float64 `json:"range"`
+	LSBUnit      string   `json:"lsb_unit"`
+	NoCorrection int      `json:"no_correction"` // mid-scale
+	// Pass is the fraction of units whose Result passes, PassSE its standard
+	// error; Saturation the fraction that saturate the DAC.
+	Pass       *float64 `json:"pass"`
+	PassSE     *float64 `json:"pass_se"`
+	Saturation *float64 `json:"saturation"`
+}
+
+// newPlanOut is r as a planOut.
+func newPlanOut(r *plan.Report) planOut {
+	b := r.Budget
+	out := planOut{Kind: kindPlan, Version: jsonVersion, Budget: b.Path, Product: b.Product, Revision: b.Revision,
+		Seed: r.Seed, Trials: r.Trials, AdaptiveTrials: r.AdaptiveTrials, Digits: r.Digits,
+		Saturation: map[string]float64{}, Predicted: plan.Predicted, NotPredicted: []string{}, TargetYield: r.TargetYield,
+		Recommendation: []planRecommendationOut{}, PredictedYield: num(r.Yield), YieldSE: num(r.YieldSE),
+		RecommendedYield: num(r.AllRecommended), Notes: nonNil(r.Notes)}
+	if r.Tolerances != nil {
+		out.Limits = r.Tolerances.File
+		out.NotPredicted = nonNil(r.Tolerances.NotPredicted)
+	}
+	pair := func(p *[2]float64) []float64 {
+		if p == nil || math.IsNaN(p[0]) || math.IsNaN(p[1]) {
+			return nil
+		}
+		return []float64{p[0], p[1]}
+	}
+	for _, qs := range [][]plan.Quantity{r.Pre, r.Codes, r.Post} {
+		for _, q := range qs {
+			sh := q.Shares
+			if sh == nil {
+				sh = map[string]float64{}
+			}
+			out.Quantities = append(out.Quantities, planQuantityOut{Name: q.Name, Unit: q.Unit, Mean: num(q.Mean), SD: num(q.SD),
+				Interval95: pair(&q.Interval95), GUMInterval95: pair(q.GUM95), GUMBasis: q.GUMBasis, WorstCase: pair(q.WorstCase), Shares: sh})
+		}
+	}
+	for _, d := range r.DACs {
+		out.Saturation[d.DAC.Name] = d.Saturation
+	}
+	for i, rec := range r.Recommendations {
+		o := planRecommendationOut{DAC: rec.DAC, Result: rec.Result, Found: rec.Found, Reason: rec.Reason}
+		if rec.Found {
+			o.Bits, o.NoCorrection = rec.Bits, rec.NoCorrection
+			o.LSB, o.Range = num(rec.LSB), num(rec.Range)
+			o.Pass, o.PassSE, o.Saturation = num(rec.Pass), num(rec.PassSE), num(rec.Saturation)
+		}
+		o.LSBUnit = plan.LSBUnit(b, r.DACs[i].DAC)
+		out.Recommendation = append(out.Recommendation, o)
+	}
+	return out
 }

@@ -186,6 +186,7 @@ func TestReadmeJSONExamples(t *testing.T) {
 		kindVerification: func() any { return new(verificationOut) },
 		kindError:        func() any { return new(errorOut) },
 		kindStats:        func() any { return new(statsOut) },
+		kindPlan:         func() any { return new(planOut) },
 	}
 	seen := map[string]bool{}
 	blocks := strings.Split(string(section), "```json\n")

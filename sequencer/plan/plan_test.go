@@ -1,0 +1,377 @@
+package plan
+
+import (
+	"context"
+	"math"
+	"math/rand/v2"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+
+	"trimline/instruments/budget"
+	"trimline/sequencer"
+)
+
+// q is the upper tail of the standard normal distribution, 1 − Φ(x).
+func q(x float64) float64 { return 0.5 * math.Erfc(x/math.Sqrt2) }
+
+// writeBudget writes a budget file and, when lims is not empty, the limit file
+// it names, in a folder of their own, and loads the budget.
+func writeBudget(t *testing.T, body, lims string) *budget.Budget {
+	t.Helper()
+	dir := t.TempDir()
+	head := "budget:\n  product: PLAN-1\n  revision: A\n"
+	if lims != "" {
+		head += "  limits: plan-limits.yaml\n"
+		lf := "limit_set: {name: plan test, revision: \"1\", product: PLAN-1}\nlimits:\n" + lims
+		if err := os.WriteFile(filepath.Join(dir, "plan-limits.yaml"), []byte(lf), 0o644); err != nil {
+			t.Fatal(err)
+		}
+	}
+	p := filepath.Join(dir, "plan-budget.yaml")
+	if err := os.WriteFile(p, []byte(head+body), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	b, err := budget.Load(p)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return b
+}
+
+// transfer is a unity-gain card swept ±1 V about 2.5 V.
+const transfer = `transfer:
+  gain: 1
+  output_at_zero: 2.5 V
+  input: {low: -1 V, high: 1 V}
+`
+
+// offsetLimits bound post_offset to ±50 µV and leave the gain wide.
+const offsetLimits = `  - name: offset after trim
+    description: offset
+    unit: uV
+    uses: [post_offset]
+    tolerance: {lower: -50, upper: 50}
+  - name: gain after trim
+    description: gain
+    unit: ppm
+    uses: [post_gain_error]
+    tolerance: {lower: -1000, upper: 1000}
+  - name: linearity after trim
+    description: linearity
+    unit: "%"
+    uses: [post_nonlinearity]
+    tolerance: {upper: 0.01}
+`
+
+func run(t *testing.T, b *budget.Budget, o Options) *Report {
+	t.Helper()
+	if b.LimitsFile != "" && o.Tolerances == nil {
+		tol, err := LoadTolerances(b.LimitsFile)
+		if err != nil {
+			t.Fatal(err)
+		}
+		o.Tolerances = tol
+	}
+	r, err := Run(context.Background(), b, o)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return r
+}
+
+// The planner's codes are the station's: for units drawn at random, the codes
+// and the predicted transfer of sequencer.ComputeTrim (pivot at the output at
+// zero, every DAC at no correction when measured) equal the planner's without
+// DNL, for a design with a gain DAC, an offset DAC before the gain stage and a
+// fine one after it.
+func TestCodesAreTheStations(t *testing.T) {
+	dacs := []budget.DAC{
+		{Name: "fine", Adjusts: "offset", Placement: "after_gain", Bits: 8, LSB: 20e-6, NoCorrection: 128},
+		{Name: "gain", Adjusts: "gain", Bits: 12, LSB: 10e-6, NoCorrection: 2048},
+		{Name: "coarse", Adjusts: "offset", Placement: "before_gain", Bits: 10, LSB: 0.5e-6, NoCorrection: 512},
+	}
+	const G, Y0 = 200, 2.5
+	d := newDesign(budget.Trim{DACs: dacs}, G, Y0)
+	st := sequencer.TrimPlan{Pivot: Y0}
+	for _, x := range dacs {
+		st.DACs = append(st.DACs, sequencer.DAC{Name: x.Name, Adjusts: x.Adjusts, Bits: x.Bits, LSB: x.LSB,
+			NoCorrection: x.NoCorrection, BeforeGain: x.Placement == "before_gain"})
+	}
+	before := []int{128, 2048, 512}
+	r := rand.New(rand.NewPCG(1, 2))
+	out := after{Steps: make([]step, len(dacs))}
+	for i := range 2000 {
+		off, ge := r.NormFloat64()*20e-3, r.NormFloat64()*0.01
+		if i%50 == 0 {
+			off *= 20 // some saturate
+		}
+		d.solve(off, ge, nil, how{clamp: true}, &out)
+		s, err := sequencer.ComputeTrim(st, G*(1+ge), Y0+off, before, G, Y0)
+		if err != nil {
+			t.Fatal(err)
+		}
+		for k, c := range s.Codes {
+			if c.Code != out.Steps[k].Code || c.Saturated != out.Steps[k].Saturated || math.Abs(c.Ideal-out.Steps[k].Ideal) > 1e-6 {
+				t.Fatalf("unit %d (offset %g V, gain error %g) DAC %s: station %+v, planner %+v", i, off, ge, dacs[k].Name, c, out.Steps[k])
+			}
+		}
+		if math.Abs(s.PredIntercept-Y0-out.Offset) > 1e-12 || math.Abs(s.PredSlope/G-1-out.GainError) > 1e-12 {
+			t.Fatalf("unit %d: station leaves %g V, %g; planner %g V, %g", i, s.PredIntercept-Y0, s.PredSlope/G-1, out.Offset, out.GainError)
+		}
+	}
+}
+
+// The ½ LSB rule (common practice): a unit whose offset is spread over many
+// codes and never saturates the DAC is left with a rounding error uniform over
+// ±½ LSB, standard deviation LSB/√12; the plan's common-practice interval is
+// ±1.96 of that.
+func TestQuantisationResidualIsLSBOverRoot12(t *testing.T) {
+	b := writeBudget(t, transfer+`sources:
+  - name: output offset
+    acts: output_offset
+    normal: 1 mV
+trim:
+  dacs:
+    - {name: offset, adjusts: offset, bits: 16, lsb: 10 uV, no_correction: 32768}
+`, "")
+	r := run(t, b, Options{Seed: 3})
+	post := r.Post[0]
+	want := 10e-6 / math.Sqrt(12) // 2.887 µV
+	// The sd of M uniform values has a relative standard error of about
+	// √((κ − 1)/(4M)) = 0.45/√M (κ = 1.8 for a uniform distribution).
+	if rel := math.Abs(post.SD/want - 1); rel > 5*0.45/math.Sqrt(float64(r.Trials)) {
+		t.Errorf("post_offset sd %.4g V over %d units, LSB/√12 = %.4g V (%.2g %% off)", post.SD, r.Trials, want, 100*rel)
+	}
+	if post.GUM95 == nil || math.Abs(post.GUM95[1]-1.96*want) > 1e-15 || !strings.Contains(post.GUMBasis, "common practice") {
+		t.Errorf("common-practice interval %v (%s), want ±%.4g", post.GUM95, post.GUMBasis, 1.96*want)
+	}
+	if math.Abs(post.Interval95[1]-0.95*5e-6) > 0.05e-6 || math.Abs(post.Interval95[0]+0.95*5e-6) > 0.05e-6 {
+		t.Errorf("95 %% interval %v, want ±0.95·½ LSB = ±4.75 µV for a uniform residual", post.Interval95)
+	}
+	if r.DACs[0].Saturation != 0 || post.Shares[PartQuantisation] != 1 {
+		t.Errorf("saturation %g, shares %v: want none and all quantisation", r.DACs[0].Saturation, post.Shares)
+	}
+}
+
+// The fraction of units that saturate a DAC, for a pre-trim offset normal with
+// σ: the code asked for is N − v/LSB, rounded; it falls outside 0 … 2N − 1 when
+// v > (N + ½)·LSB or v < −(N − ½)·LSB, so the fraction is
+// Q((N + ½)·LSB/σ) + Q((N − ½)·LSB/σ), Q the upper tail of the normal
+// distribution (NIST/SEMATECH e-Handbook §1.3.6.6.1, the normal distribution's
+// cumulative distribution function). 6 bits, LSB 50 µV, σ 1 mV: Q(1.625) +
+// Q(1.575) = 0.0521 + 0.0576 = 0.110.
+func TestSaturationFollowsTheNormalCDF(t *testing.T) {
+	b := writeBudget(t, transfer+`sources:
+  - name: output offset
+    acts: output_offset
+    normal: 1 mV
+trim:
+  dacs:
+    - {name: offset, adjusts: offset, bits: 6, lsb: 50 uV, no_correction: 32}
+`, "")
+	r := run(t, b, Options{Seed: 5})
+	want := q(32.5*0.05) + q(31.5*0.05)
+	got := r.DACs[0]
+	if se := YieldSE(want, r.Trials); math.Abs(got.Saturation-want) > 4*se {
+		t.Errorf("saturation %.4f ± %.4f over %d units, normal CDF gives %.4f", got.Saturation, se, r.Trials, want)
+	}
+	if math.Abs(got.SaturationSE-YieldSE(got.Saturation, r.Trials)) > 1e-15 {
+		t.Errorf("saturation SE %g", got.SaturationSE)
+	}
+	// What a saturated DAC cannot take shows as the saturation part.
+	if s := r.Post[0].Shares[PartSaturation]; !(s > 0.9) {
+		t.Errorf("post_offset shares %v: saturation should dominate", r.Post[0].Shares)
+	}
+}
+
+// The standard error of a binomial proportion, √(p(1 − p)/M) (NIST/SEMATECH
+// e-Handbook §7.2.4): 99.5 % over 10 000 units is 0.0705 %.
+func TestYieldSE(t *testing.T) {
+	for _, c := range []struct {
+		p    float64
+		m    int
+		want float64
+	}{{0.995, 10000, 7.0534e-4}, {0.5, 100, 0.05}, {1, 1000, 0}, {0, 1000, 0}} {
+		if got := YieldSE(c.p, c.m); math.Abs(got-c.want) > 1e-7 {
+			t.Errorf("YieldSE(%g, %d) = %g, want %g", c.p, c.m, got, c.want)
+		}
+	}
+	if !math.IsNaN(YieldSE(0.5, 0)) {
+		t.Error("YieldSE of no trials should be NaN")
+	}
+}
+
+// The recommendation, worked by hand. The offset at the output is normal with
+// σ = 1 mV; the tolerance after trim is ±50 µV; one offset DAC after the gain,
+// no DNL, no-correction code N = 2^(bits−1). A unit with offset v gets the code
+// N − round(v/LSB) clamped to 0 … 2N − 1 and is left with
+//
+//	v − round(v/LSB)·LSB  (|·| ≤ ½ LSB)  inside the range,
+//	v − N·LSB  or  v + (N − 1)·LSB        at either end.
+//
+// Rounding passes every unit iff ½ LSB ≤ 50 µV: LSB ≤ 100 µV. With that, a unit
+// passes iff −(N − 1)·LSB − 50 µV ≤ v ≤ N·LSB + 50 µV, so it fails with
+// probability Q((N·LSB + 0.05 mV)/σ) + Q(((N − 1)·LSB + 0.05 mV)/σ). The target
+// 99.5 % wants that ≤ 0.005, about both ends at 2.81σ.
+//
+//   - 5 bits (N = 16) at the largest LSB, 100 µV: Q(1.65) + Q(1.55) =
+//     0.049 + 0.061 = 11 % fail. No 5-bit DAC will do.
+//   - 6 bits (N = 32) at 100 µV: Q(3.25) + Q(3.15) = 0.14 % fail, so 6 bits do.
+//     The smallest LSB solves Q(32·L + 0.05) + Q(31·L + 0.05) = 0.005 (L in mV):
+//     31.5·L + 0.05 ≈ 2.807 (both tails together at 0.5 %) gives L ≈ 87.5 µV;
+//     bisection on the formula (below) gives 87.61 µV, a range of
+//     64·L = 5.61 mV.
+//
+// So: 6 bits, LSB 87.6 µV, range 5.61 mV. The Monte Carlo finds the LSB where
+// its own count of failures crosses 0.5 %; with 100 000 units that fraction
+// has a standard error of √(0.005·0.995/100 000) = 0.022 %, and the failure
+// rate falls by (32·φ(2.85) + 31·φ(2.77))/σ = 0.049 % per µV of LSB, so its LSB
+// is within about 0.46 µV (one standard error) of the formula's; the test
+// allows 2 µV.
+func TestRecommendationWorkedByHand(t *testing.T) {
+	b := writeBudget(t, transfer+`sources:
+  - name: output offset
+    acts: output_offset
+    normal: 1 mV
+trim:
+  dacs:
+    - {name: offset, adjusts: offset, bits: 12, lsb: 12.2 uV, no_correction: 2048}
+`, offsetLimits)
+	r := run(t, b, Options{Seed: 7, TargetYield: 0.995})
+	if len(r.Recommendations) != 1 {
+		t.Fatalf("recommendations %+v", r.Recommendations)
+	}
+	rec := r.Recommendations[0]
+	fail := func(l float64) float64 { return q(32*l+0.05) + q(31*l+0.05) } // l in mV, σ = 1 mV
+	lo, hi := 0.05, 0.1
+	for range 60 {
+		if mid := (lo + hi) / 2; fail(mid) > 0.005 {
+			lo = mid
+		} else {
+			hi = mid
+		}
+	}
+	wantLSB := hi * 1e-3 // V
+	if math.Abs(wantLSB-87.61e-6) > 0.01e-6 {
+		t.Fatalf("the formula's LSB is %.5g V, the comment worked out 87.61 µV", wantLSB)
+	}
+	if !rec.Found || rec.Bits != 6 || rec.NoCorrection != 32 || math.Abs(rec.LSB-wantLSB) > 2e-6 {
+		t.Fatalf("recommended %+v, want 6 bits, LSB %.4g V", rec, wantLSB)
+	}
+	if math.Abs(rec.Range-64*rec.LSB) > 1e-15 || rec.Pass < 0.995 || rec.Result != sequencer.ResPostOffset {
+		t.Errorf("recommended %+v", rec)
+	}
+	// The design as given (12 bits of 12.2 µV: ±25 mV of range, ½ LSB = 6.1 µV)
+	// passes every unit; the gain is not trimmed and has no error.
+	if r.Yield != 1 || r.YieldSE != 0 || r.OffsetPass != 1 || r.GainPass != 1 {
+		t.Errorf("yield %g ± %g (offset %g, gain %g), want 1", r.Yield, r.YieldSE, r.OffsetPass, r.GainPass)
+	}
+	if len(r.Tolerances.NotPredicted) != 1 || r.Tolerances.NotPredicted[0] != "linearity after trim" {
+		t.Errorf("not predicted %v", r.Tolerances.NotPredicted)
+	}
+}
+
+// Firmware coefficients held in fixed point with f fraction bits: the gain
+// coefficient k = 1/(1 + ge) is rounded to a multiple of 2^−f, which leaves a
+// gain error uniform over ±2^−(f+1), standard deviation 2^−f/√12 (common
+// practice); float32 keeps 24 significant bits.
+func TestCoefficientRounding(t *testing.T) {
+	f := budget.CoefficientFormat{Format: "fixed", FractionBits: 16}
+	if got := roundCoefficient(f, 1+3.4/65536); got != 1+3.0/65536 {
+		t.Errorf("fixed rounding %v", got)
+	}
+	if got := roundCoefficient(budget.CoefficientFormat{Format: "float32"}, 1+1e-9); got != 1 {
+		t.Errorf("float32 rounding %v", got)
+	}
+	b := writeBudget(t, transfer+`sources:
+  - name: reference
+    acts: gain
+    tolerance: ±1 %
+trim:
+  coefficients: {format: fixed, fraction_bits: 16}
+`, "")
+	r := run(t, b, Options{Seed: 11})
+	want := math.Ldexp(1, -16) / math.Sqrt(12)
+	post := r.Post[1]
+	if rel := math.Abs(post.SD/want - 1); rel > 0.02 {
+		t.Errorf("post_gain_error sd %.4g, 2^−16/√12 = %.4g", post.SD, want)
+	}
+	if post.Shares[PartCoefficient] != 1 || len(r.DACs) != 0 || r.Coefficients == nil {
+		t.Errorf("shares %v, DACs %d", post.Shares, len(r.DACs))
+	}
+}
+
+// bitError: the correction of code c from n is off by the sum of the bit
+// errors where they differ, + where c has the bit, − where n has it.
+func TestBitError(t *testing.T) {
+	e := []float32{0.5, -0.25, 1, 2}
+	for _, c := range []struct {
+		c, n int
+		want float64
+	}{{8, 8, 0}, {9, 8, 0.5}, {7, 8, 0.5 - 0.25 + 1 - 2}, {0, 8, -2}, {12, 8, 1}} {
+		if got := bitError(c.c, c.n, e); math.Abs(got-c.want) > 1e-9 {
+			t.Errorf("bitError(%d, %d) = %g, want %g", c.c, c.n, got, c.want)
+		}
+	}
+}
+
+// DNL: with every bit weight off by a normal error of σ dnl LSB, a code that
+// differs from the no-correction code in k bits is off by dnl·√k LSB. With the
+// offset near zero the codes asked for are mid-scale ± 30, half of them below
+// 2048 = 100000000000b and so differing from it in most of the 12 bits: DNL
+// takes the larger part of the residual's variance, the rounding the rest.
+func TestDNLAddsToTheResidual(t *testing.T) {
+	b := writeBudget(t, transfer+`sources:
+  - name: output offset
+    acts: output_offset
+    normal: 100 uV
+trim:
+  dacs:
+    - {name: offset, adjusts: offset, bits: 12, lsb: 10 uV, no_correction: 2048, dnl: 0.5 LSB}
+`, "")
+	r := run(t, b, Options{Seed: 13})
+	post := r.Post[0]
+	if post.Shares[PartDNL] < 0.5 || post.Shares[PartQuantisation] < 0.02 {
+		t.Errorf("shares %v: DNL and quantisation should both count", post.Shares)
+	}
+	if !(post.SD > 10e-6/math.Sqrt(12)*1.2) {
+		t.Errorf("post_offset sd %g: DNL should widen it beyond LSB/√12", post.SD)
+	}
+}
+
+// The limit file's bounds on the predicted results, read from the demo card's.
+func TestTolerancesOfTheDemoCard(t *testing.T) {
+	tol, err := LoadTolerances(filepath.Join("..", "..", "sequences", "brx200-limits.yaml"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if math.Abs(tol.Offset.Lo+800e-6) > 1e-12 || math.Abs(tol.Offset.Hi-800e-6) > 1e-12 ||
+		math.Abs(tol.Gain.Lo+500e-6) > 1e-12 || math.Abs(tol.Gain.Hi-500e-6) > 1e-12 {
+		t.Errorf("bands %+v %+v", tol.Offset, tol.Gain)
+	}
+	if tol.Offset.Unit != "uV" || len(tol.NotPredicted) == 0 {
+		t.Errorf("tolerances %+v", tol)
+	}
+	if !tol.Judge(0, 0) || tol.Judge(801e-6, 0) || tol.Judge(0, -501e-6) {
+		t.Error("Judge")
+	}
+}
+
+// The same seed gives the same plan.
+func TestSameSeedSamePlan(t *testing.T) {
+	b := writeBudget(t, transfer+`sources:
+  - name: output offset
+    acts: output_offset
+    uniform: ±1 mV
+trim:
+  dacs:
+    - {name: offset, adjusts: offset, bits: 8, lsb: 10 uV, no_correction: 128, dnl: 0.2 LSB}
+`, offsetLimits)
+	o := Options{Seed: 21, TargetYield: 0.99, MinTrials: 20000, SearchTrials: 20000}
+	a, c := run(t, b, o), run(t, b, o)
+	if a.Yield != c.Yield || a.Post[0].SD != c.Post[0].SD || a.Recommendations[0] != c.Recommendations[0] {
+		t.Errorf("two runs differ: %v %v, %+v %+v", a.Yield, c.Yield, a.Recommendations[0], c.Recommendations[0])
+	}
+}
