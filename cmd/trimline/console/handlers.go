@@ -38,6 +38,7 @@ func (s *Server) routes() *http.ServeMux {
 	m.HandleFunc("POST /scan", s.post(true, s.scan))
 	m.HandleFunc("POST /stop", s.post(true, s.stop))
 	m.HandleFunc("POST /clear", s.post(true, s.clear))
+	m.HandleFunc("POST /lot", s.post(true, s.setLot))
 	m.HandleFunc("POST /review/{cert}", s.post(true, s.review))
 	return m
 }
@@ -116,6 +117,7 @@ func (s *Server) post(needsPerson bool, h func(http.ResponseWriter, *http.Reques
 // pageData is what the page template shows.
 type pageData struct {
 	Station  stationView
+	Lot      string // the production lot in force, "" = none
 	CSRF     string
 	Person   string
 	Operate  bool
@@ -146,7 +148,7 @@ func (s *Server) index(w http.ResponseWriter, r *http.Request) {
 		se = s.sessions.start(w, nil, nil)
 	}
 	s.mu.Lock()
-	d := pageData{Station: s.st.Station, CSRF: se.csrf, Person: se.name, Operate: se.operate,
+	d := pageData{Station: s.st.Station, Lot: s.st.Lot, CSRF: se.csrf, Person: se.name, Operate: se.operate,
 		// An engineering console decides on no production unit.
 		Review: se.review && !s.shift.Issuer.Engineering, Loopback: s.loopback, AskPassphrase: s.askPassphrase()}
 	s.mu.Unlock()
@@ -196,7 +198,7 @@ func (s *Server) reply(w http.ResponseWriter, r *http.Request, code int, a answe
 		se := s.sessions.get(r)
 		d := pageData{Error: a.Error, Loopback: s.loopback, AskPassphrase: s.askPassphrase()}
 		s.mu.Lock()
-		d.Station = s.st.Station
+		d.Station, d.Lot = s.st.Station, s.st.Lot
 		s.mu.Unlock()
 		if se != nil {
 			d.CSRF, d.Person, d.Operate, d.Review = se.csrf, se.name, se.operate, se.review

@@ -29,11 +29,14 @@ const plotMax = 2000
 // Server.mu. Its JSON is the snapshot GET /state answers and the "state"
 // event carries.
 type state struct {
-	Version  int64        `json:"version"`
-	Station  stationView  `json:"station"`
-	Phase    string       `json:"phase"`
-	Status   []statusItem `json:"status"`
-	Blocked  bool         `json:"blocked"`
+	Version int64        `json:"version"`
+	Station stationView  `json:"station"`
+	Phase   string       `json:"phase"`
+	Status  []statusItem `json:"status"`
+	Blocked bool         `json:"blocked"`
+	// Lot is the production lot in force: every unit started now records it
+	// ("" = none).
+	Lot      string       `json:"lot"`
 	Unit     *unitView    `json:"unit,omitempty"`
 	Verdict  *verdictView `json:"verdict,omitempty"`
 	Fault    *faultView   `json:"fault,omitempty"`
@@ -136,6 +139,7 @@ type recentRow struct {
 	CertURL  string `json:"cert_url"`
 	Operator string `json:"operator"`
 	Retest   bool   `json:"retest"`
+	Lot      string `json:"lot"` // the production lot the run recorded, "" = none
 }
 
 type reviewRow struct {
@@ -215,7 +219,7 @@ func (s *state) record(rec *sequencer.Record, cert, certURL string, wall time.Du
 		c.CycleTxt = fmt.Sprintf("%.1f s", c.CycleS)
 	}
 	row := recentRow{At: time.Now().Format("15:04"), Serial: rec.Serial, Verdict: string(rec.Verdict), Cert: cert,
-		CertURL: certURL, Operator: rec.Operator, Retest: rec.RetestOf != ""}
+		CertURL: certURL, Operator: rec.Operator, Retest: rec.RetestOf != "", Lot: rec.Lot}
 	s.Recent = append([]recentRow{row}, s.Recent...)
 	if len(s.Recent) > recentMax {
 		s.Recent = s.Recent[:recentMax]
