@@ -29,14 +29,12 @@ const plotMax = 2000
 // Server.mu. Its JSON is the snapshot GET /state answers and the "state"
 // event carries.
 type state struct {
-	Version int64        `json:"version"`
-	Station stationView  `json:"station"`
-	Phase   string       `json:"phase"`
-	Status  []statusItem `json:"status"`
-	Blocked bool         `json:"blocked"`
-	// Lot is the production lot in force: every unit started now records it
-	// ("" = none).
-	Lot      string       `json:"lot"`
+	Version  int64        `json:"version"`
+	Station  stationView  `json:"station"`
+	Phase    string       `json:"phase"`
+	Status   []statusItem `json:"status"`
+	Blocked  bool         `json:"blocked"`
+	Lot      string       `json:"lot"` // the production lot in force, recorded by every unit started now; "" = none
 	Unit     *unitView    `json:"unit,omitempty"`
 	Verdict  *verdictView `json:"verdict,omitempty"`
 	Fault    *faultView   `json:"fault,omitempty"`
