@@ -629,6 +629,10 @@ func TestConsoleShiftInBrowser(t *testing.T) {
 		if e := p.text("#retest-earlier"); !strings.Contains(e, firstCert) {
 			t.Errorf("the retest question names %q, not the earlier certificate %s", e, firstCert)
 		}
+		// BRX-00001 was tested in the first lot; the retest records the next.
+		if l := p.text("#retest-lot"); !strings.Contains(l, firstLot) || !strings.Contains(l, nextLot) {
+			t.Errorf("the retest question says %q of the lots; want it to name the earlier %s and the lot in force %s", l, firstLot, nextLot)
+		}
 		p.shot("retest")
 		p.checkTargets("retest")
 		p.do(10*time.Second, "confirm the retest", chromedp.Click(chromedp.ID("retest-yes")))

@@ -849,4 +849,13 @@ func TestLotChangedOnScreen(t *testing.T) {
 	if len(s.Recent) != 2 || s.Recent[0].Lot != "L2026-49B" || s.Recent[1].Lot != "L2026-48A" {
 		t.Errorf("the last units %+v; want each with the lot it recorded", s.Recent)
 	}
+	// A unit of the earlier lot scanned again: the question says which lot
+	// the retest records.
+	code, a = c.post("/scan", url.Values{"serial": {"BRX-00001"}})
+	if want := "It was tested in lot L2026-48A; the retest records the lot in force, L2026-49B."; code != http.StatusOK || a.Retest == nil || a.Retest.Lot != want {
+		t.Errorf("rescan of BRX-00001 from the earlier lot: %d %+v; want the question to say %q", code, a.Retest, want)
+	}
+	if code, a = c.post("/scan", url.Values{"serial": {"BRX-00002"}}); a.Retest == nil || a.Retest.Lot != "" {
+		t.Errorf("rescan of BRX-00002 in the lot in force: %d %+v; want nothing said of the lot", code, a.Retest)
+	}
 }

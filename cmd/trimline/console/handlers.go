@@ -184,6 +184,9 @@ type retestAsk struct {
 	Serial  string `json:"serial"`
 	Earlier string `json:"earlier"` // "certificate TL1-000002 (FAIL, 2026-12-02 15:04)", station time
 	Attempt string `json:"attempt"` // "This is attempt 2 of 3.", "" when the sequence sets no limit
+	// Lot: "It was tested in lot L2026-48A; the retest records the lot in
+	// force, L2026-49B.", "" when the lots are the same.
+	Lot string `json:"lot"`
 }
 
 func (s *Server) reply(w http.ResponseWriter, r *http.Request, code int, a answer) {

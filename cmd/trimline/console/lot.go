@@ -1,6 +1,7 @@
 package console
 
 import (
+	"context"
 	"net/http"
 	"strings"
 	"unicode"
@@ -85,6 +86,27 @@ func (s *Server) setLot(w http.ResponseWriter, r *http.Request, se *session) {
 	sh.Log.Info().Str("person", se.name).Str("from", old).Str("lot", lot).Msg("console: lot changed")
 	s.publishState()
 	s.reply(w, r, http.StatusOK, answer{OK: true})
+}
+
+// retestLot tells the operator asked to retest a unit when its earlier run
+// recorded another lot than the one in force (which the retest records): ""
+// when the lots are the same or the earlier record cannot be read.
+func (s *Server) retestLot(ctx context.Context, runID string) string {
+	prev, err := s.shift.Ledger.Run(ctx, runID)
+	s.mu.Lock()
+	now := s.st.Lot
+	s.mu.Unlock()
+	if err != nil || prev.Lot == now {
+		return ""
+	}
+	was, is := "in no lot", "no lot"
+	if prev.Lot != "" {
+		was = "in lot " + prev.Lot
+	}
+	if now != "" {
+		is = "the lot in force, " + now
+	}
+	return "It was tested " + was + "; the retest records " + is + "."
 }
 
 // lotStill is what a refused change of the lot leaves in force.

@@ -93,6 +93,7 @@ func (s *Server) scan(w http.ResponseWriter, r *http.Request, se *session) {
 		if max > 0 {
 			ask.Attempt = fmt.Sprintf("This is attempt %d of %d.", n+1, max)
 		}
+		ask.Lot = s.retestLot(ctx, earlier.RunID)
 		s.reply(w, r, http.StatusOK, answer{Retest: ask})
 		return
 	}

@@ -90,6 +90,8 @@
       text("retest-serial", a.retest.serial);
       text("retest-earlier", a.retest.earlier);
       text("retest-attempt", a.retest.attempt);
+      text("retest-lot", a.retest.lot);
+      show($("retest-lot"), !!a.retest.lot);
       show($("retest"), true);
       // The question holds the focus, not its Yes button: a barcode scan's
       // Enter must never answer it.
