@@ -271,7 +271,7 @@ type fileOut struct {
 	What string `json:"what"`
 	// OK: the file loads as the command that uses it would load it. A file that
 	// is no input (a PDF, the ledger) is OK; Says names the command that checks
-	// it.
+	// it, or a station file's site ("site: …").
 	OK   bool   `json:"ok"`
 	Says string `json:"says"`
 }
