@@ -132,11 +132,26 @@ func Adaptive(nq int, model func(r *rand.Rand, out []float64), o MCOptions) (MCR
 
 // Simulate runs Adaptive on the budget's two pre-trim quantities (PreOffset,
 // PreGainError, in that order): each trial draws a unit (Draw) and takes its
-// PreTrim.
+// PreTrim. Each value is rounded to 10⁻¹² of its scale (the output's full swing
+// for the offset, 1 for the gain error), far below anything a station resolves,
+// so that a quantity no source moves is exactly constant and settles the
+// stopping rule rather than chasing the fit's rounding noise.
 func (b *Budget) Simulate(o MCOptions) (MCResult, error) {
+	t := &b.Transfer
+	resOffset := 1e-12 * (math.Abs(t.OutputAtZero) + math.Abs(t.Gain)*math.Max(math.Abs(t.InputLow), math.Abs(t.InputHigh)))
+	const resGain = 1e-12
 	return Adaptive(2, func(r *rand.Rand, out []float64) {
-		out[0], out[1] = b.Draw(r).PreTrim(b)
+		o, g := b.Draw(r).PreTrim(b)
+		out[0], out[1] = roundTo(o, resOffset), roundTo(g, resGain)
 	}, o)
+}
+
+// roundTo rounds v to a multiple of res (res > 0; v itself otherwise).
+func roundTo(v, res float64) float64 {
+	if !(res > 0) {
+		return v
+	}
+	return math.Round(v/res) * res
 }
 
 // NumericalTolerance is δ of JCGM 101:2008 §7.9.2 for a standard uncertainty u
