@@ -85,15 +85,24 @@ func newLatent(b *Budget) (latentModel, error) {
 			r[j][j+1], r[j+1][j] = rho, rho
 		}
 	}
+	coefs := map[int][]float64{}
+	coefsAt := func(i int) []float64 {
+		if c, ok := coefs[i]; ok {
+			return c
+		}
+		c := coefsOf(&b.Sources[i])
+		coefs[i] = c
+		return c
+	}
 	for k, c := range b.Correlations {
 		sa, sb := &b.Sources[c.A], &b.Sources[c.B]
 		if sa.Dist.Sigma == 0 || sb.Dist.Sigma == 0 {
 			continue // a source of no spread correlates with nothing
 		}
-		ca, cb := coefsOf(sa), coefsOf(sb)
+		ca, cb := coefsAt(c.A), coefsAt(c.B)
 		lo, hi := valueCorrelation(ca, cb, -1), valueCorrelation(ca, cb, 1)
-		if c.Coefficient < lo-1e-9 || c.Coefficient > hi+1e-9 {
-			return lm, &correlationError{k, fmt.Sprintf("a %s and a %s source can correlate from %.3f to %.3f, not %g",
+		if c.Coefficient < lo-1e-6 || c.Coefficient > hi+1e-6 {
+			return lm, &correlationError{k, fmt.Sprintf("a %s and a %s source can correlate from %.4g to %.4g, not %g",
 				sa.Dist.Kind, sb.Dist.Kind, lo, hi, c.Coefficient)}
 		}
 		rho := scoreCorrelation(ca, cb, c.Coefficient)
@@ -250,25 +259,31 @@ func momentsOf(f func(z float64) float64) (mean, sd float64) {
 }
 
 // hermite returns the coefficients b_1 … b_K of the standardised g on the
-// normalised Hermite polynomials h_k = He_k/√k!.
+// normalised Hermite polynomials h_k = He_k/√k!, h_{k+1} = (z·h_k − √k·h_{k−1})/√(k+1),
+// all in one pass of the quadrature.
 func hermite(g func(z float64) float64) []float64 {
 	b := make([]float64, hermiteTerms+1)
-	for k := 1; k <= hermiteTerms; k++ {
-		b[k] = integrate(func(z float64) float64 { return g(z) * hnorm(k, z) })
+	h := 2 * zMax / zSteps
+	for i := 0; i <= zSteps; i++ {
+		z := -zMax + float64(i)*h
+		w := 2.0
+		switch {
+		case i == 0 || i == zSteps:
+			w = 1
+		case i%2 == 1:
+			w = 4
+		}
+		f := w * g(z) * math.Exp(-z*z/2)
+		h0, h1 := 1.0, z
+		for k := 1; k <= hermiteTerms; k++ {
+			b[k] += f * h1
+			h0, h1 = h1, (z*h1-math.Sqrt(float64(k))*h0)/math.Sqrt(float64(k+1))
+		}
+	}
+	for k := range b {
+		b[k] *= h / 3 / math.Sqrt(2*math.Pi)
 	}
 	return b
-}
-
-// hnorm is He_k(z)/√k!, by the recurrence h_{k+1} = (z·h_k − √k·h_{k−1})/√(k+1).
-func hnorm(k int, z float64) float64 {
-	h0, h1 := 1.0, z
-	if k == 0 {
-		return h0
-	}
-	for j := 1; j < k; j++ {
-		h0, h1 = h1, (z*h1-math.Sqrt(float64(j))*h0)/math.Sqrt(float64(j+1))
-	}
-	return h1
 }
 
 // rectCoefs are the coefficients of a rectangular value (the ratio's resistors).

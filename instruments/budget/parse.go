@@ -167,7 +167,25 @@ type parser struct {
 	errs files.List
 }
 
+// bad records a problem at path: at the value there (a mapping at its first
+// key), or, when nothing is there, where the missing key belongs.
 func (p *parser) bad(path, format string, args ...any) {
+	if p.doc.Has(path) {
+		line, col := p.doc.StartPos(path)
+		p.errs = append(p.errs, p.doc.At(line, col, format, args...))
+		return
+	}
+	p.errs = append(p.errs, p.doc.Errorf(path, format, args...))
+}
+
+// missing records a missing key at path, placed at the start of the mapping
+// that lacks it.
+func (p *parser) missing(path, format string, args ...any) {
+	if i := strings.LastIndex(path, "."); i > 0 && p.doc.Has(path[:i]) {
+		line, col := p.doc.StartPos(path[:i])
+		p.errs = append(p.errs, p.doc.At(line, col, format, args...))
+		return
+	}
 	p.errs = append(p.errs, p.doc.Errorf(path, format, args...))
 }
 
@@ -179,7 +197,7 @@ func (p *parser) badAt(q *qty, format string, args ...any) {
 // recorded) when it is not one. A nil q is a missing key at path.
 func (p *parser) value(path string, q *qty, want units.Dim) (float64, bool) {
 	if q == nil {
-		p.bad(path, "missing required key %q", lastKey(path))
+		p.missing(path, "missing required key %q", lastKey(path))
 		return 0, false
 	}
 	v, err := units.ParseAs(q.text, want)
@@ -193,7 +211,7 @@ func (p *parser) value(path string, q *qty, want units.Dim) (float64, bool) {
 // anyOf parses q as a quantity of one of the dimensions in want.
 func (p *parser) anyOf(path string, q *qty, want ...units.Dim) (units.Quantity, bool) {
 	if q == nil {
-		p.bad(path, "missing required key %q", lastKey(path))
+		p.missing(path, "missing required key %q", lastKey(path))
 		return units.Quantity{}, false
 	}
 	v, err := units.Parse(q.text)
@@ -447,7 +465,7 @@ func (p *parser) source(path string, d *sourceDecl, b *Budget) (Source, bool) {
 	} else if d.At != nil {
 		p.badAt(d.At, "at applies to a crossover_step source only")
 	}
-	if d.Acts == ActsRailCompression && b.Transfer.Rails == nil && p.doc.Has("$.transfer") {
+	if d.Acts == ActsRailCompression && !p.doc.Has("$.transfer.rails") && p.doc.Has("$.transfer") {
 		p.bad(path+".acts", "rail_compression needs transfer.rails (low, high, knee)")
 	}
 	var keys []string
@@ -462,7 +480,7 @@ func (p *parser) source(path string, d *sourceDecl, b *Budget) (Source, bool) {
 		return s, false
 	case 1:
 	default:
-		p.bad(path+"."+keys[1], "source %q has two distributions (%s and %s): give exactly one", d.Name, keys[0], keys[1])
+		p.errs = append(p.errs, p.doc.KeyErrorf(path+"."+keys[1], "source %q has two distributions (%s and %s): give exactly one", d.Name, keys[0], keys[1]))
 		return s, false
 	}
 	var mean float64
@@ -827,6 +845,7 @@ func (p *parser) trim(f *budgetFile, b *Budget) {
 				dim = inDim
 			default:
 				p.bad(path+".placement", "expected after_gain or before_gain, found %q", d.Placement)
+				dim = outDim // the LSB read as after the gain, so that one mistake is told once
 			}
 		case "":
 			p.bad(path, "missing required key \"adjusts\" (gain or offset)")
