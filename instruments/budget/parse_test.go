@@ -2,6 +2,7 @@ package budget_test
 
 import (
 	"math"
+	"math/rand/v2"
 	"os"
 	"path/filepath"
 	"strings"
@@ -209,11 +210,18 @@ func FuzzParse(f *testing.F) {
 		if err != nil {
 			return
 		}
-		p := b.Propagate()
-		for _, q := range p {
+		for _, q := range b.Propagate() {
 			if math.IsNaN(q.U) || math.IsInf(q.U, 0) {
 				t.Fatalf("%s: u = %v", q.Name, q.U)
 			}
+		}
+		r := rand.New(rand.NewPCG(1, 2))
+		for range 10 {
+			u := b.Draw(r)
+			if len(u.Values) != len(b.Sources) {
+				t.Fatalf("%d values for %d sources", len(u.Values), len(b.Sources))
+			}
+			u.PreTrim(b)
 		}
 	})
 }
