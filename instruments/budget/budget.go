@@ -8,6 +8,24 @@
 // (JCGM 100, Propagate) and by Monte Carlo with the adaptive stopping rule of
 // JCGM 101:2008 §7.9 (Adaptive, Budget.Simulate).
 //
+// The file has five sections (testdata/example-budget.yaml shows every key):
+//
+//	budget:      product (required), revision, limits (a limit file, relative to this
+//	             one), temperature {low, high, reference} (for drift sources)
+//	transfer:    gain (a plain number or e.g. 200 V/V), output_at_zero, input {low,
+//	             high}, points (default 11), rails {low, high, knee} (optional)
+//	sources:     each a name, acts (input_offset, output_offset, gain, crossover_step
+//	             with at:, rail_compression) and exactly one of normal: σ, uniform:
+//	             ±a, triangular: ±a, arcsine: ±a, tolerance: ±a (rectangular, as a data
+//	             sheet writes it), drift: ±a per °C, ratio: {r1, r2, correlation},
+//	             open_loop: {gain} or {low, high}; an optional mean: for the first five
+//	correlations: between: [source, source], coefficient (of their values, −1…1)
+//	trim:        dacs (name, adjusts, bits, lsb, no_correction, placement, dnl) or
+//	             coefficients {format: fixed with fraction_bits, or float32}; optional
+//
+// Offsets are in the input's or the output's unit by where they act (V or A);
+// gain, compression and tolerances are ratios written with ppm or %.
+//
 // The package sits at the bottom of the flow, beside the engineering units, so the
 // simulator can draw its units from a budget without importing upward. Every
 // number past the file boundary is SI: volts (or amperes), ohms, °C, and ratios as
@@ -155,7 +173,9 @@ type DAC struct {
 	DNL           float64 // σ of each code's step error, in LSB (0 when not given)
 }
 
-// Trim is the trim design: DACs, or correction coefficients computed by firmware.
+// Trim is the trim design: DACs, or correction coefficients computed by firmware;
+// empty when the file has no trim: section (a budget only drawn from, by the
+// simulator).
 type Trim struct {
 	DACs         []DAC
 	Coefficients *CoefficientFormat

@@ -28,13 +28,14 @@ type Unit struct {
 // r's state. It is safe for concurrent use with distinct generators.
 func (b *Budget) Draw(r *rand.Rand) Unit {
 	lm := &b.latent
-	w := make([]float64, lm.n)
+	buf := make([]float64, 2*lm.n)
+	w := buf[:lm.n]
 	for i := range w {
 		w[i] = r.NormFloat64()
 	}
 	z := w
 	if lm.chol != nil {
-		z = make([]float64, lm.n)
+		z = buf[lm.n:]
 		for i, row := range lm.chol {
 			var s float64
 			for k := 0; k <= i; k++ {
