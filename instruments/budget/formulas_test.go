@@ -316,3 +316,31 @@ func corr(a, b []float64) float64 {
 	}
 	return c / float64(len(a)-1) / (sa * sb)
 }
+
+// On the example budget the model is nearly linear over the sources' spread, so
+// the law of propagation and the Monte Carlo agree on u(y) within the Monte
+// Carlo's numerical tolerance (JCGM 101 §8: the GUM is validated when they agree
+// within δ; here the standard uncertainties are compared, 2δ for one run's
+// scatter), and each quantity's shares sum to 1.
+func TestExamplePropagateAgreesWithSimulate(t *testing.T) {
+	b, err := budget.Load("testdata/example-budget.yaml")
+	if err != nil {
+		t.Fatal(err)
+	}
+	gum := b.Propagate()
+	mc := simulated(t, b, 19)
+	for q, p := range gum {
+		sum := 0.0
+		for _, s := range p.Shares {
+			sum += s
+		}
+		check(t, p.Name+" shares sum", sum, 1, 1e-9)
+		t.Logf("%s: GUM %.4g ± %.4g %s, MC %.4g ± %.4g (M = %d, δ = %.2g), worst case [%.4g, %.4g]",
+			p.Name, p.Mean, p.U, p.Unit, mc.Mean[q], mc.SD[q], mc.Trials, mc.Tolerance[q], p.WorstCase[0], p.WorstCase[1])
+		check(t, p.Name+" u(y): MC against GUM", mc.SD[q], p.U, 2*mc.Tolerance[q])
+		check(t, p.Name+" y: MC against GUM", mc.Mean[q], p.Mean, 2*mc.Tolerance[q])
+		if !(p.WorstCase[0] < mc.Values[q][0] && mc.Values[q][len(mc.Values[q])-1] < p.WorstCase[1]) {
+			t.Errorf("%s: drawn [%g, %g] outside the worst case [%g, %g]", p.Name, mc.Values[q][0], mc.Values[q][len(mc.Values[q])-1], p.WorstCase[0], p.WorstCase[1])
+		}
+	}
+}
