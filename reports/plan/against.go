@@ -300,31 +300,32 @@ func (q *Quantity) judge(alpha float64) (verdict, finding string) {
 	var parts []string
 	switch {
 	case q.Predicted.SD == 0 && q.Measured.SD > 0:
-		parts = append(parts, fmt.Sprintf("the budget predicts no spread of %s, the stations measured an SD of %s%s",
-			what, formatValue(q.Measured.SD, q.Unit), q.sharesClause()))
+		parts = append(parts, fmt.Sprintf("the budget predicts no spread of %s, the stations measured an SD of %s",
+			what, formatValue(q.Measured.SD, q.Unit)))
 	case q.FP < alpha && q.SDRatio > 1:
-		parts = append(parts, fmt.Sprintf("measured SD is %s× the predicted: the budget underestimates what drives %s%s",
-			formatRatio(q.SDRatio), what, q.sharesClause()))
+		parts = append(parts, fmt.Sprintf("measured SD is %s× the predicted (F test %s): the budget underestimates what drives %s%s",
+			formatRatio(q.SDRatio), formatP(q.FP), what, q.sharesClause()))
 	case q.FP < alpha && q.SDRatio < 1:
-		parts = append(parts, fmt.Sprintf("measured SD is %s× the predicted: the budget overestimates what drives %s%s",
-			formatRatio(q.SDRatio), what, q.sharesClause()))
+		parts = append(parts, fmt.Sprintf("measured SD is %s× the predicted (F test %s): the budget overestimates what drives %s%s",
+			formatRatio(q.SDRatio), formatP(q.FP), what, q.sharesClause()))
 	}
 	if q.MeanP < alpha {
 		dir := "above"
 		if q.MeanDifference < 0 {
 			dir = "below"
 		}
-		parts = append(parts, fmt.Sprintf("measured mean is %s %s the predicted: a systematic error in %s that the budget does not have",
-			formatValue(math.Abs(q.MeanDifference), q.Unit), dir, what))
+		parts = append(parts, fmt.Sprintf("measured mean is %s %s the predicted (Welch %s): a systematic error in %s that the budget does not have",
+			formatValue(math.Abs(q.MeanDifference), q.Unit), dir, formatP(q.MeanP), what))
 	}
 	if len(parts) == 0 && q.KSP < alpha {
-		parts = append(parts, fmt.Sprintf("the distributions of %s differ in shape though mean and SD agree: compare the quantiles", what))
+		parts = append(parts, fmt.Sprintf("the distributions of %s differ in shape though mean and SD agree (KS D = %s, %s): compare the quantiles",
+			what, formatRatio(q.KSD), formatP(q.KSP)))
 	}
 	if len(parts) == 0 {
-		return Agrees, fmt.Sprintf("%s agrees: KS D = %s (p = %s), SD ratio %s (p = %s)",
+		return Agrees, fmt.Sprintf("%s agrees: KS D = %s (%s), SD ratio %s (%s)",
 			capitalize(what), formatRatio(q.KSD), formatP(q.KSP), formatRatio(q.SDRatio), formatP(q.FP))
 	}
-	return Differs, capitalize(strings.Join(parts, "; ")) + fmt.Sprintf(" (KS D = %s, p = %s)", formatRatio(q.KSD), formatP(q.KSP))
+	return Differs, capitalize(strings.Join(parts, "; "))
 }
 
 // sharesClause names the sources with the largest shares of the predicted
@@ -396,7 +397,7 @@ func CompareProportion(name string, predicted, se float64, count, n int, o Optio
 		formatPercent(p.Interval95[0]), formatPercent(p.Interval95[1]))
 	if p.P >= o.alpha() {
 		p.Verdict = Agrees
-		p.Finding = fmt.Sprintf("%s agrees: measured %s, predicted %s (p = %s)", capitalize(name), measured, formatPercent(predicted), formatP(p.P))
+		p.Finding = fmt.Sprintf("%s agrees: measured %s, predicted %s (%s)", capitalize(name), measured, formatPercent(predicted), formatP(p.P))
 		return p
 	}
 	dir := "above"
@@ -404,7 +405,7 @@ func CompareProportion(name string, predicted, se float64, count, n int, o Optio
 		dir = "below"
 	}
 	p.Verdict = Differs
-	p.Finding = fmt.Sprintf("Measured %s %s is %s the predicted %s (p = %s)", name, measured, dir, formatPercent(predicted), formatP(p.P))
+	p.Finding = fmt.Sprintf("Measured %s %s is %s the predicted %s (%s)", name, measured, dir, formatPercent(predicted), formatP(p.P))
 	return p
 }
 

@@ -36,7 +36,7 @@ func (c Comparison) WriteText(w io.Writer) {
 		for i, p := range c.Probs {
 			row(formatPercent(p), num(at(q.Predicted.Quantiles, i)), num(at(q.Measured.Quantiles, i)))
 		}
-		fmt.Fprintf(w, "  KS D = %s, p = %s; SD ratio %s, F test p = %s; mean difference %s, Welch p = %s\n",
+		fmt.Fprintf(w, "  KS D = %s, %s; SD ratio %s, F test %s; mean difference %s, Welch %s\n",
 			formatRatio(q.KSD), formatP(q.KSP), formatRatio(q.SDRatio), formatP(q.FP), formatValue(q.MeanDifference, q.Unit), formatP(q.MeanP))
 		fmt.Fprintf(w, "  %s: %s\n", strings.ToUpper(q.Verdict), q.Finding)
 	}
@@ -75,8 +75,9 @@ func at(xs []float64, i int) float64 {
 }
 
 // displayUnit is the unit a quantity's table is written in and its size in
-// the quantity's SI unit: a voltage with the SI prefix of its largest
-// quantile or SD, a ratio in ppm, anything else as it is.
+// the quantity's SI unit: a voltage with the SI prefix of the larger of its
+// 5 % and 95 % quantiles (an outlier does not choose it), a ratio in ppm,
+// anything else as it is.
 func displayUnit(q Quantity) (string, float64) {
 	switch q.Unit {
 	case "ratio", "fraction":
@@ -84,7 +85,7 @@ func displayUnit(q Quantity) (string, float64) {
 	case "V", "A":
 		mag := 0.0
 		for _, s := range []Summary{q.Predicted, q.Measured} {
-			for _, v := range append([]float64{s.SD, s.Mean}, s.Quantiles...) {
+			for _, v := range []float64{at(s.Quantiles, 1), at(s.Quantiles, len(Probs)-2), s.Mean} {
 				if !math.IsNaN(v) && !math.IsInf(v, 0) {
 					mag = max(mag, math.Abs(v))
 				}
@@ -130,15 +131,16 @@ func formatRatio(v float64) string {
 	return units.FormatSig(v, 2)
 }
 
-// formatP writes a p-value with two significant digits, "< 0.001" below.
+// formatP writes a p-value for a sentence with two significant digits:
+// "p = 0.61", "p < 0.001".
 func formatP(p float64) string {
 	switch {
 	case math.IsNaN(p):
-		return dash
+		return "p = " + dash
 	case p < 0.001:
-		return "< 0.001"
+		return "p < 0.001"
 	}
-	return units.FormatSig(p, 2)
+	return "p = " + units.FormatSig(p, 2)
 }
 
 // formatPercent writes a fraction as a percentage, "—" for NaN.
