@@ -29,7 +29,7 @@ import (
 )
 
 // Probs are the probabilities of the quantile table (Summary.Quantiles), in
-// order: 1, 5, 25, 50, 75, 95 and 99 %.
+// order: 1, 5, 25, 50, 75, 95 and 99 %. Read only.
 var Probs = []float64{0.01, 0.05, 0.25, 0.50, 0.75, 0.95, 0.99}
 
 // DefaultAlpha is the significance level below which a test says that the
@@ -276,7 +276,7 @@ func WelchT(m1, sd1 float64, n1 int, m2, sd2 float64, n2 int) float64 {
 // CompareSample compares one quantity's predicted and measured values under o.
 // It is pure; s is only read.
 func CompareSample(s Sample, o Options) Quantity {
-	q := Quantity{Name: s.Name, Unit: s.Unit, Shares: s.Shares,
+	q := Quantity{Name: s.Name, Unit: canonUnit(s.Unit), Shares: s.Shares,
 		Predicted: Summarize(s.Predicted), Measured: Summarize(s.Measured)}
 	q.KSD, q.KSP = KS(s.Predicted, s.Measured)
 	q.SDRatio = q.Measured.SD / q.Predicted.SD
@@ -604,15 +604,18 @@ type Prediction struct {
 }
 
 // Predicted is one predicted quantity: its name (as Measurement names it:
-// MeasuredResults, "<dac>_code"), unit (SI, as Sample), the values (Monte
-// Carlo trials) and optionally each source's share of its variance.
+// MeasuredResults, "<dac>_code"), unit (SI, as Sample; "1" and "fraction"
+// are taken for "ratio"), the values (Monte Carlo trials) and optionally each
+// source's share of its variance.
 type Predicted struct {
 	Name, Unit string
 	Values     []float64
 	Shares     map[string]float64
 }
 
-// Comparison is a plan's predictions beside what the stations measured.
+// Comparison is a plan's predictions beside what the stations measured. Its
+// fields carry JSON names; a number that cannot be computed is NaN, which a
+// JSON writer must write as null (encoding/json refuses NaN).
 type Comparison struct {
 	Ledger      string       `json:"ledger"`
 	Product     string       `json:"product"`
@@ -670,15 +673,16 @@ func Compare(p Prediction, m Measurement, o Options) Comparison {
 	return c
 }
 
-// sameUnit reports whether a and b name the same unit ("fraction" is "ratio").
-func sameUnit(a, b string) bool {
-	canon := func(u string) string {
-		if u == "fraction" {
-			return "ratio"
-		}
-		return u
+// sameUnit reports whether a and b name the same unit.
+func sameUnit(a, b string) bool { return canonUnit(a) == canonUnit(b) }
+
+// canonUnit is the ledger's name of a unit: a plain fraction ("1", as the
+// budget names it, or "fraction") is "ratio".
+func canonUnit(u string) string {
+	if u == "1" || u == "fraction" {
+		return "ratio"
 	}
-	return canon(a) == canon(b)
+	return u
 }
 
 // Against opens the ledger at path (a missing file is an error, never a new

@@ -216,7 +216,7 @@ func TestMeasuredDemoLedger(t *testing.T) {
 	for i := range half {
 		half[i] = mean + (half[i]-mean)/2
 	}
-	p.Quantities[1] = plan.Predicted{Name: "pre_gain_error", Unit: "fraction", Values: half,
+	p.Quantities[1] = plan.Predicted{Name: "pre_gain_error", Unit: "1", Values: half,
 		Shares: map[string]float64{"reference": 0.7, "feedback resistors": 0.3}}
 	p.Saturation = map[string]float64{"offset": 0}
 	c = plan.Compare(p, m, plan.Options{})

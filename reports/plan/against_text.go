@@ -80,7 +80,7 @@ func at(xs []float64, i int) float64 {
 // anything else as it is.
 func displayUnit(q Quantity) (string, float64) {
 	switch q.Unit {
-	case "ratio", "fraction":
+	case "ratio":
 		return "ppm", 1e-6
 	case "V", "A":
 		mag := 0.0
@@ -113,7 +113,7 @@ func formatValue(v float64, unit string) string {
 	switch {
 	case math.IsNaN(v) || math.IsInf(v, 0):
 		return dash
-	case unit == "ratio" || unit == "fraction":
+	case canonUnit(unit) == "ratio":
 		return units.FormatSig(v*1e6, 3) + " ppm"
 	case unit == "code":
 		return units.FormatSig(v, 3) + " codes"
