@@ -101,6 +101,9 @@ type Quantity struct {
 	// of the F test of equal variances (which assumes both sides normal).
 	SDRatio float64 `json:"sd_ratio"`
 	FP      float64 `json:"f_p"`
+	// IQRRatio is the measured interquartile range over the predicted: the
+	// spread of the middle half, which a few outlying units do not move.
+	IQRRatio float64 `json:"iqr_ratio"`
 	// MeanDifference is the measured mean minus the predicted; MeanP the
 	// two-sided p-value of Welch's t test.
 	MeanDifference float64            `json:"mean_difference"`
@@ -280,6 +283,7 @@ func CompareSample(s Sample, o Options) Quantity {
 		Predicted: Summarize(s.Predicted), Measured: Summarize(s.Measured)}
 	q.KSD, q.KSP = KS(s.Predicted, s.Measured)
 	q.SDRatio = q.Measured.SD / q.Predicted.SD
+	q.IQRRatio = (q.Measured.Quantiles[4] - q.Measured.Quantiles[2]) / (q.Predicted.Quantiles[4] - q.Predicted.Quantiles[2])
 	q.FP = FTest(q.Measured.SD, q.Measured.N, q.Predicted.SD, q.Predicted.N)
 	q.MeanDifference = q.Measured.Mean - q.Predicted.Mean
 	q.MeanP = WelchT(q.Measured.Mean, q.Measured.SD, q.Measured.N, q.Predicted.Mean, q.Predicted.SD, q.Predicted.N)
@@ -302,6 +306,9 @@ func (q *Quantity) judge(alpha float64) (verdict, finding string) {
 	case q.Predicted.SD == 0 && q.Measured.SD > 0:
 		parts = append(parts, fmt.Sprintf("the budget predicts no spread of %s, the stations measured an SD of %s",
 			what, formatValue(q.Measured.SD, q.Unit)))
+	case q.FP < alpha && q.IQRRatio >= 0.8 && q.IQRRatio <= 1.25:
+		parts = append(parts, fmt.Sprintf("measured SD is %s× the predicted (F test %s), but the middle half agrees (IQR ratio %s): a few outlying units widen %s — see the 1 %% and 99 %% rows (defective units, or a tail the budget lacks)",
+			formatRatio(q.SDRatio), formatP(q.FP), formatRatio(q.IQRRatio), what))
 	case q.FP < alpha && q.SDRatio > 1:
 		parts = append(parts, fmt.Sprintf("measured SD is %s× the predicted (F test %s): the budget underestimates what drives %s%s",
 			formatRatio(q.SDRatio), formatP(q.FP), what, q.sharesClause()))
@@ -474,6 +481,10 @@ type Measurement struct {
 	Values  map[string][]float64
 	Unit    map[string]string
 	Missing map[string]int
+	// U is, by quantity, the median expanded uncertainty the stations stated
+	// for its values (absent when none was evaluated). Its random part widens
+	// the measured spread; its systematic part (shared by every unit) does not.
+	U map[string]float64
 	// Written and Saturated count, by DAC name, the latest attempts' written
 	// codes and those of them the trim marked saturated.
 	Written, Saturated map[string]int
@@ -505,11 +516,12 @@ func Measured(ctx context.Context, led *ledger.Ledger, product string) (Measurem
 	}
 	rep := stats.Compute(runs, stats.Options{Filter: stats.Filter{Product: product}})
 	m := Measurement{Product: product, Units: rep.Counts.Units, Passed: rep.Counts.Passed,
-		Values: map[string][]float64{}, Unit: map[string]string{}, Missing: map[string]int{},
+		Values: map[string][]float64{}, Unit: map[string]string{}, Missing: map[string]int{}, U: map[string]float64{},
 		Written: map[string]int{}, Saturated: map[string]int{}}
 	if m.Units == 0 {
 		return m, fmt.Errorf("against: no unit of %s was measured in the ledger (%d run(s) in all)", product, len(runs))
 	}
+	expanded := map[string][]float64{}
 	byID := make(map[string]*ledger.QualityRun, len(runs))
 	for i := range runs {
 		byID[runs[i].RunID] = &runs[i]
@@ -533,7 +545,14 @@ func Measured(ctx context.Context, led *ledger.Ledger, product string) (Measurem
 			}
 			m.Values[r.Name] = append(m.Values[r.Name], r.Value)
 			m.Unit[r.Name] = r.Unit
+			if !math.IsNaN(r.ExpandedU) {
+				expanded[r.Name] = append(expanded[r.Name], r.ExpandedU)
+			}
 		}
+	}
+	for name, us := range expanded {
+		slices.Sort(us)
+		m.U[name] = Quantile(us, 0.5)
 	}
 	codes, err := led.TrimCodes(ctx, product)
 	if err != nil {
@@ -649,6 +668,12 @@ func Compare(p Prediction, m Measurement, o Options) Comparison {
 	for _, name := range slices.Sorted(maps.Keys(m.Values)) {
 		if !predicted[name] {
 			c.Notes = append(c.Notes, fmt.Sprintf("%s was measured (%d values) but not predicted.", name, len(m.Values[name])))
+		}
+	}
+	for _, q := range c.Quantities {
+		if u, ok := m.U[q.Name]; ok && q.Measured.N > 0 && strings.HasPrefix(q.Name, "post_") {
+			c.Notes = append(c.Notes, fmt.Sprintf("%s: the stations stated a median expanded uncertainty of %s per value; its random part (noise, resolution) widens the measured spread, and a predicted residual may leave it out.",
+				q.Name, formatValue(u, q.Unit)))
 		}
 	}
 	for _, name := range slices.Sorted(maps.Keys(m.Missing)) {

@@ -239,6 +239,7 @@ func TestMeasuredDemoLedger(t *testing.T) {
 		"DIFFERS: Measured SD is 2×",
 		"pre_offset — the pre-trim offset [",
 		"Yield and saturation",
+		"post_offset: the stations stated a median expanded uncertainty of ",
 	} {
 		if !strings.Contains(text, want) {
 			t.Errorf("text lacks %q", want)

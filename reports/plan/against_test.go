@@ -240,6 +240,13 @@ func TestCompareSampleFindings(t *testing.T) {
 		t.Errorf("shifted: %s: %s", q.Verdict, q.Finding)
 	}
 
+	// Four defective units among 400 widen the SD, not the middle half.
+	outliers := append(exactly(normals(r, 396, 0, 1), 0, 100e-6), -3e-3, -2e-3, 2e-3, 3e-3)
+	q = plan.CompareSample(plan.Sample{Name: "post_offset", Unit: "V", Predicted: pred, Measured: outliers}, plan.Options{})
+	if q.Verdict != plan.Differs || !strings.Contains(q.Finding, "but the middle half agrees (IQR ratio 1") || !strings.Contains(q.Finding, "a few outlying units widen the offset after trim") {
+		t.Errorf("outliers: %s (SD ratio %g, IQR ratio %g): %s", q.Verdict, q.SDRatio, q.IQRRatio, q.Finding)
+	}
+
 	q = plan.CompareSample(plan.Sample{Name: "offset_code", Unit: "code", Predicted: []float64{1, 2, 3}, Measured: []float64{2}}, plan.Options{})
 	if q.Verdict != plan.NotCompared || !math.IsNaN(q.Measured.SD) || !math.IsNaN(q.FP) {
 		t.Errorf("one measured value: %+v", q)
