@@ -28,9 +28,9 @@ import (
 	"trimline/reports/stats"
 )
 
-// Probs are the probabilities of the quantile table (Summary.Quantiles), in
-// order: 1, 5, 25, 50, 75, 95 and 99 %. Read only.
-var Probs = []float64{0.01, 0.05, 0.25, 0.50, 0.75, 0.95, 0.99}
+// QuantileProbs are the probabilities of the quantile table
+// (Summary.Quantiles), in order: 1, 5, 25, 50, 75, 95 and 99 %. Read only.
+var QuantileProbs = []float64{0.01, 0.05, 0.25, 0.50, 0.75, 0.95, 0.99}
 
 // DefaultAlpha is the significance level below which a test says that the
 // measured side differs from the predicted. A comparison makes several tests
@@ -81,7 +81,7 @@ type Summary struct {
 	N         int       `json:"n"`
 	Mean      float64   `json:"mean"`
 	SD        float64   `json:"sd"`        // sample standard deviation (n − 1)
-	Quantiles []float64 `json:"quantiles"` // at Probs, Hyndman–Fan definition 7 (linear between order statistics)
+	Quantiles []float64 `json:"quantiles"` // at QuantileProbs, Hyndman–Fan definition 7 (linear between order statistics)
 }
 
 // Quantity is the comparison of one quantity. Every number is in Unit, except
@@ -134,10 +134,10 @@ type Proportion struct {
 
 // Summarize describes xs (any order; xs is not changed).
 func Summarize(xs []float64) Summary {
-	s := Summary{N: len(xs), Mean: math.NaN(), SD: math.NaN(), Quantiles: make([]float64, len(Probs))}
+	s := Summary{N: len(xs), Mean: math.NaN(), SD: math.NaN(), Quantiles: make([]float64, len(QuantileProbs))}
 	sorted := slices.Clone(xs)
 	slices.Sort(sorted)
-	for i, p := range Probs {
+	for i, p := range QuantileProbs {
 		s.Quantiles[i] = Quantile(sorted, p)
 	}
 	if len(xs) == 0 {
@@ -636,14 +636,14 @@ type Predicted struct {
 // fields carry JSON names; a number that cannot be computed is NaN, which a
 // JSON writer must write as null (encoding/json refuses NaN).
 type Comparison struct {
-	Ledger      string       `json:"ledger"`
-	Product     string       `json:"product"`
-	Units       int          `json:"units"` // units counted in the ledger
-	Alpha       float64      `json:"alpha"` // significance level of every test
-	Probs       []float64    `json:"probabilities"`
-	Quantities  []Quantity   `json:"quantities"`
-	Proportions []Proportion `json:"proportions"` // the yield, then each DAC's saturation
-	Notes       []string     `json:"notes"`
+	Ledger        string       `json:"ledger"`
+	Product       string       `json:"product"`
+	Units         int          `json:"units"` // units counted in the ledger
+	Alpha         float64      `json:"alpha"` // significance level of every test
+	QuantileProbs []float64    `json:"probabilities"`
+	Quantities    []Quantity   `json:"quantities"`
+	Proportions   []Proportion `json:"proportions"` // the yield, then each DAC's saturation
+	Notes         []string     `json:"notes"`
 }
 
 // Compare compares the prediction p with the measurement m under o: each
@@ -651,7 +651,7 @@ type Comparison struct {
 // and each DAC's saturation. A quantity measured but not predicted, or
 // predicted in another unit, is named in the notes. It is pure.
 func Compare(p Prediction, m Measurement, o Options) Comparison {
-	c := Comparison{Ledger: m.Ledger, Product: cmp.Or(m.Product, p.Product), Units: m.Units, Alpha: o.alpha(), Probs: Probs}
+	c := Comparison{Ledger: m.Ledger, Product: cmp.Or(m.Product, p.Product), Units: m.Units, Alpha: o.alpha(), QuantileProbs: QuantileProbs}
 	predicted := map[string]bool{}
 	for _, q := range p.Quantities {
 		predicted[q.Name] = true

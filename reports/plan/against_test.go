@@ -147,7 +147,7 @@ func TestQuantile(t *testing.T) {
 		t.Error("no values: want NaN")
 	}
 	s := plan.Summarize([]float64{4, 1, 3, 2})
-	if s.N != 4 || s.Mean != 2.5 || !near(s.SD, math.Sqrt(5.0/3), 1e-15) || s.Quantiles[3] != 2.5 || len(s.Quantiles) != len(plan.Probs) {
+	if s.N != 4 || s.Mean != 2.5 || !near(s.SD, math.Sqrt(5.0/3), 1e-15) || s.Quantiles[3] != 2.5 || len(s.Quantiles) != len(plan.QuantileProbs) {
 		t.Errorf("Summarize: %+v", s)
 	}
 	if s := plan.Summarize([]float64{4}); !math.IsNaN(s.SD) || s.Mean != 4 {

@@ -33,7 +33,7 @@ func (c Comparison) WriteText(w io.Writer) {
 		num := func(v float64) string { return formatNum(v / scale) }
 		row("mean", num(q.Predicted.Mean), num(q.Measured.Mean))
 		row("SD", num(q.Predicted.SD), num(q.Measured.SD))
-		for i, p := range c.Probs {
+		for i, p := range c.QuantileProbs {
 			row(formatPercent(p), num(at(q.Predicted.Quantiles, i)), num(at(q.Measured.Quantiles, i)))
 		}
 		fmt.Fprintf(w, "  KS D = %s, %s; SD ratio %s, F test %s; mean difference %s, Welch %s\n",
@@ -85,7 +85,7 @@ func displayUnit(q Quantity) (string, float64) {
 	case "V", "A":
 		mag := 0.0
 		for _, s := range []Summary{q.Predicted, q.Measured} {
-			for _, v := range []float64{at(s.Quantiles, 1), at(s.Quantiles, len(Probs)-2), s.Mean} {
+			for _, v := range []float64{at(s.Quantiles, 1), at(s.Quantiles, len(QuantileProbs)-2), s.Mean} {
 				if !math.IsNaN(v) && !math.IsInf(v, 0) {
 					mag = max(mag, math.Abs(v))
 				}
