@@ -32,6 +32,9 @@ import (
 // (Summary.Quantiles), in order: 1, 5, 25, 50, 75, 95 and 99 %. Read only.
 var QuantileProbs = []float64{0.01, 0.05, 0.25, 0.50, 0.75, 0.95, 0.99}
 
+// The quartiles' places in QuantileProbs.
+const lowerQuartile, upperQuartile = 2, 4
+
 // DefaultAlpha is the significance level below which a test says that the
 // measured side differs from the predicted. A comparison makes several tests
 // at once (three per quantity, several quantities), so it is 1 %, not the 5 %
@@ -283,7 +286,8 @@ func CompareSample(s Sample, o Options) Quantity {
 		Predicted: Summarize(s.Predicted), Measured: Summarize(s.Measured)}
 	q.KSD, q.KSP = KS(s.Predicted, s.Measured)
 	q.SDRatio = q.Measured.SD / q.Predicted.SD
-	q.IQRRatio = (q.Measured.Quantiles[4] - q.Measured.Quantiles[2]) / (q.Predicted.Quantiles[4] - q.Predicted.Quantiles[2])
+	iqr := func(s Summary) float64 { return s.Quantiles[upperQuartile] - s.Quantiles[lowerQuartile] }
+	q.IQRRatio = iqr(q.Measured) / iqr(q.Predicted)
 	q.FP = FTest(q.Measured.SD, q.Measured.N, q.Predicted.SD, q.Predicted.N)
 	q.MeanDifference = q.Measured.Mean - q.Predicted.Mean
 	q.MeanP = WelchT(q.Measured.Mean, q.Measured.SD, q.Measured.N, q.Predicted.Mean, q.Predicted.SD, q.Predicted.N)
@@ -306,7 +310,7 @@ func (q *Quantity) judge(alpha float64) (verdict, finding string) {
 	case q.Predicted.SD == 0 && q.Measured.SD > 0:
 		parts = append(parts, fmt.Sprintf("the budget predicts no spread of %s, the stations measured an SD of %s",
 			what, formatValue(q.Measured.SD, q.Unit)))
-	case q.FP < alpha && q.IQRRatio >= 0.8 && q.IQRRatio <= 1.25:
+	case q.FP < alpha && q.SDRatio > 1 && q.IQRRatio >= 0.8 && q.IQRRatio <= 1.25:
 		parts = append(parts, fmt.Sprintf("measured SD is %s× the predicted (F test %s), but the middle half agrees (IQR ratio %s): a few outlying units widen %s — see the 1 %% and 99 %% rows (defective units, or a tail the budget lacks)",
 			formatRatio(q.SDRatio), formatP(q.FP), formatRatio(q.IQRRatio), what))
 	case q.FP < alpha && q.SDRatio > 1:
