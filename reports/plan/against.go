@@ -311,6 +311,8 @@ func (q *Quantity) judge(alpha float64) (verdict, finding string) {
 		parts = append(parts, fmt.Sprintf("the budget predicts no spread of %s, the stations measured an SD of %s",
 			what, formatValue(q.Measured.SD, q.Unit)))
 	case q.FP < alpha && q.SDRatio > 1 && q.IQRRatio >= 0.8 && q.IQRRatio <= 1.25:
+		// The band is our choice, not a published rule: the middle half within
+		// ±25 % of the predicted, while the SD is not.
 		parts = append(parts, fmt.Sprintf("measured SD is %s× the predicted (F test %s), but the middle half agrees (IQR ratio %s): a few outlying units widen %s — see the 1 %% and 99 %% rows (defective units, or a tail the budget lacks)",
 			formatRatio(q.SDRatio), formatP(q.FP), formatRatio(q.IQRRatio), what))
 	case q.FP < alpha && q.SDRatio > 1:
