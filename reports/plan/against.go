@@ -682,6 +682,11 @@ func Compare(p Prediction, m Measurement, o Options) Comparison {
 				q.Name, formatValue(u, q.Unit)))
 		}
 	}
+	for _, name := range slices.Sorted(maps.Keys(m.Values)) {
+		if n := len(m.Values[name]); n > m.Units {
+			c.Notes = append(c.Notes, fmt.Sprintf("%s: %d values from %d units: every channel of a unit counts as one value.", name, n, m.Units))
+		}
+	}
 	for _, name := range slices.Sorted(maps.Keys(m.Missing)) {
 		c.Notes = append(c.Notes, fmt.Sprintf("%s: %d unit(s) have no valid value in their latest attempt; they are left out.", name, m.Missing[name]))
 	}

@@ -276,3 +276,33 @@ func BenchmarkCompareSample(b *testing.B) {
 		plan.CompareSample(s, plan.Options{})
 	}
 }
+
+// Compare on a measurement made by hand: two units of two channels each, a
+// quantity predicted in another unit, one measured and not predicted.
+func TestCompareNotes(t *testing.T) {
+	m := plan.Measurement{Product: "DUO-2", Units: 2, Passed: 1,
+		Values: map[string][]float64{"pre_offset": {1e-3, 2e-3, 3e-3, 4e-3}, "pre_gain_error": {1e-4, 2e-4}, "gain_code": {2000, 2001}},
+		Unit:   map[string]string{"pre_offset": "V", "pre_gain_error": "ratio", "gain_code": "code"}}
+	p := plan.Prediction{Yield: math.NaN(), YieldSE: math.NaN(), Quantities: []plan.Predicted{
+		{Name: "pre_offset", Unit: "V", Values: []float64{1e-3, 2e-3, 3e-3, 4e-3}},
+		{Name: "pre_gain_error", Unit: "ppm", Values: []float64{100, 200}},
+	}}
+	c := plan.Compare(p, m, plan.Options{})
+	if c.Product != "DUO-2" || len(c.Quantities) != 2 || c.Quantities[0].Verdict != plan.Agrees || c.Quantities[1].Verdict != plan.NotCompared {
+		t.Errorf("quantities: %+v", c.Quantities)
+	}
+	if len(c.Proportions) != 1 || c.Proportions[0].Verdict != plan.NotCompared || c.Proportions[0].Count != 1 {
+		t.Errorf("yield: %+v", c.Proportions)
+	}
+	notes := strings.Join(c.Notes, "\n")
+	for _, want := range []string{
+		"pre_gain_error is predicted in ppm but measured in ratio: not compared.",
+		"gain_code was measured (2 values) but not predicted.",
+		"pre_offset: 4 values from 2 units: every channel of a unit counts as one value.",
+		"Only 2 units measured",
+	} {
+		if !strings.Contains(notes, want) {
+			t.Errorf("notes lack %q:\n%s", want, notes)
+		}
+	}
+}
