@@ -105,3 +105,23 @@ func TestText(t *testing.T) {
 		t.Errorf("saturation %g, yield %g", sat, r.Yield)
 	}
 }
+
+// A plan hands --against every quantity it predicts, by the names the ledger
+// uses, with the yield over the results it judges and each DAC's saturation.
+func TestPredictionOf(t *testing.T) {
+	r := demoPlan(t, dacs)
+	p := report.PredictionOf(r)
+	var names []string
+	for _, q := range p.Quantities {
+		names = append(names, q.Name)
+		if len(q.Values) != r.Trials {
+			t.Errorf("%s: %d values, %d trials", q.Name, len(q.Values), r.Trials)
+		}
+	}
+	if got := strings.Join(names, " "); got != "pre_offset pre_gain_error offset_code gain_code post_offset post_gain_error" {
+		t.Errorf("quantities %s", got)
+	}
+	if p.Yield != r.Yield || len(p.YieldOver) != 2 || p.Saturation["offset"] != r.DACs[0].Saturation || p.Product != "BRX-200" {
+		t.Errorf("prediction %+v", p)
+	}
+}

@@ -20,9 +20,6 @@ import (
 	planner "trimline/sequencer/plan"
 )
 
-// dash stands for a number that does not exist.
-const dash = "—"
-
 // WriteText writes r for a designer at a terminal: the Monte Carlo run, the
 // pre-trim quantities (Monte Carlo beside the law of propagation and the worst
 // case, and the largest contributions), the codes each DAC will need and how
