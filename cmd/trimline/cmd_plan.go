@@ -2,7 +2,6 @@ package main
 
 import (
 	"context"
-	"errors"
 	"fmt"
 
 	"trimline/instruments/budget"
@@ -66,9 +65,6 @@ histograms; --json writes one object of kind "plan" (README: Output for scripts)
 			}
 		}
 		r, err := plan.Run(ctx, b, o)
-		if errors.Is(err, plan.ErrNoTrim) {
-			return badInput(fmt.Errorf("%s: %w", args[0], err))
-		}
 		if err != nil {
 			return err
 		}

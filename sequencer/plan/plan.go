@@ -13,7 +13,6 @@ package plan
 
 import (
 	"context"
-	"errors"
 	"fmt"
 	"math"
 	"math/rand/v2"
@@ -136,10 +135,6 @@ type Report struct {
 	Notes []string
 }
 
-// ErrNoTrim is wrapped by Run's error for a budget whose trim design has
-// neither DACs nor coefficients.
-var ErrNoTrim = errors.New("the budget's trim design has neither DACs nor coefficients")
-
 // planner holds what the trials record.
 type planner struct {
 	b      *budget.Budget
@@ -167,9 +162,6 @@ type planner struct {
 // that meet o.TargetYield. ctx is checked between trials of the search; a
 // cancel returns ctx's error.
 func Run(ctx context.Context, b *budget.Budget, o Options) (*Report, error) {
-	if len(b.Trim.DACs) == 0 && b.Trim.Coefficients == nil {
-		return nil, ErrNoTrim
-	}
 	if o.Digits == 0 {
 		o.Digits = 2
 	}
@@ -197,6 +189,9 @@ func Run(ctx context.Context, b *budget.Budget, o Options) (*Report, error) {
 	if f := b.Trim.Coefficients; f != nil && len(b.Trim.DACs) == 0 && f.Format == "fixed" {
 		notes = append(notes, fmt.Sprintf("both coefficients are taken as held with %d fraction bits of their SI value (the gain a plain factor, the offset in %s)",
 			f.FractionBits, orV(b.Transfer.OutputUnit)))
+	}
+	if len(b.Trim.DACs) == 0 && b.Trim.Coefficients == nil {
+		notes = append(notes, "the budget has no trim design: the units leave as they came, and there is nothing to recommend")
 	}
 	if len(b.Trim.DACs) > 0 && b.Trim.Coefficients != nil {
 		notes = append(notes, "the budget gives DACs and coefficients: the DACs are planned, the coefficients left out")

@@ -375,3 +375,21 @@ trim:
 		t.Errorf("two runs differ: %v %v, %+v %+v", a.Yield, c.Yield, a.Recommendations[0], c.Recommendations[0])
 	}
 }
+
+// A budget without a trim design (one only the simulator draws from) is
+// planned too: the units leave as they came, and there is nothing to size.
+func TestNoTrimDesign(t *testing.T) {
+	b := writeBudget(t, transfer+`sources:
+  - name: output offset
+    acts: output_offset
+    uniform: ±40 uV
+`, offsetLimits)
+	r := run(t, b, Options{Seed: 1, TargetYield: 0.995, MinTrials: 20000})
+	if r.Post[0].SD != r.Pre[0].SD || r.Post[0].Shares[PartUntrimmed] != 1 || len(r.Recommendations) != 0 || len(r.Notes) == 0 {
+		t.Errorf("post %+v, recommendations %v, notes %v", r.Post[0], r.Recommendations, r.Notes)
+	}
+	// Uniform over ±40 µV inside ±50 µV: every unit passes.
+	if r.Yield != 1 {
+		t.Errorf("yield %g", r.Yield)
+	}
+}

@@ -25,14 +25,12 @@ import (
 // design is a trim design as the planner solves it: the DACs in the order the
 // station solves them, or the coefficient format.
 type design struct {
-	dacs      []budget.DAC
-	gains     []int // indexes of the gain DACs, largest step first
-	offsets   []int // of the offset DACs: before the gain first, then largest step first
-	coef      *budget.CoefficientFormat
-	gain      float64 // nominal gain G (output unit per input unit)
-	zero      float64 // nominal output at zero input Y0
-	maxBits   int
-	noEffects bool // neither DACs nor coefficients: the unit leaves as it came
+	dacs    []budget.DAC
+	gains   []int // indexes of the gain DACs, largest step first
+	offsets []int // of the offset DACs: before the gain first, then largest step first
+	coef    *budget.CoefficientFormat
+	gain    float64 // nominal gain G (output unit per input unit)
+	zero    float64 // nominal output at zero input Y0
 }
 
 // newDesign orders the DACs of t as the station's trim does (gain DACs, then
@@ -42,7 +40,6 @@ type design struct {
 func newDesign(t budget.Trim, gain, zero float64) *design {
 	d := &design{dacs: t.DACs, gain: gain, zero: zero}
 	for i, x := range t.DACs {
-		d.maxBits = max(d.maxBits, x.Bits)
 		if x.Adjusts == sequencer.AdjustGain {
 			d.gains = append(d.gains, i)
 		} else {
@@ -63,7 +60,6 @@ func newDesign(t budget.Trim, gain, zero float64) *design {
 	if len(t.DACs) == 0 {
 		d.coef = t.Coefficients
 	}
-	d.noEffects = len(t.DACs) == 0 && d.coef == nil
 	return d
 }
 
