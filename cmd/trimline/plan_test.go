@@ -171,3 +171,23 @@ func TestPlanPDFAndBadInput(t *testing.T) {
 		t.Errorf("--json error: exit %d, %+v", code, e)
 	}
 }
+
+// trimline plan runs on every demo product's budget file.
+func TestPlanEveryDemoBudget(t *testing.T) {
+	budgets, _ := filepath.Glob(filepath.Join("..", "..", "sequences", "*budget*.yaml"))
+	if len(budgets) == 0 {
+		t.Skip("no budget files in sequences/")
+	}
+	for _, b := range budgets {
+		code, out, errOut := runCLI(t, "plan", b, "--json")
+		if code != 0 || errOut != "" {
+			t.Errorf("%s: exit %d, stderr %q", b, code, errOut)
+			continue
+		}
+		var p planOut
+		decodeStrict(t, strings.TrimSpace(out), &p)
+		if p.Trials < 100000 || len(p.Quantities) < 4 || p.Product == "" {
+			t.Errorf("%s: %+v", b, p)
+		}
+	}
+}
