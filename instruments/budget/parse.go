@@ -16,6 +16,10 @@ import (
 // MaxDACBits is the widest trim DAC a budget may describe (as a sequence's dacs:).
 const MaxDACBits = 24
 
+// MaxPoints bounds transfer.points: each trial of a Monte Carlo evaluates the
+// unit's output at every point.
+const MaxPoints = 1000
+
 // MaxSources bounds the sources of one budget (each adds to the correlation
 // matrix factored at load).
 const MaxSources = 200
@@ -369,8 +373,8 @@ func (p *parser) transfer(f *budgetFile, b *Budget) {
 	}
 	t.Points = 11
 	if f.Transfer.Points != nil {
-		if t.Points = *f.Transfer.Points; t.Points < 2 || t.Points > 10000 {
-			p.bad(base+".points", "expected 2 to 10000 sweep points, found %d", t.Points)
+		if t.Points = *f.Transfer.Points; t.Points < 2 || t.Points > MaxPoints {
+			p.bad(base+".points", "expected 2 to %d sweep points, found %d", MaxPoints, t.Points)
 			t.Points = 11
 		}
 	}
