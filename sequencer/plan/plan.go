@@ -190,6 +190,12 @@ func Run(ctx context.Context, b *budget.Budget, o Options) (*Report, error) {
 		notes = append(notes, fmt.Sprintf("both coefficients are taken as held with %d fraction bits of their SI value (the gain a plain factor, the offset in %s)",
 			f.FractionBits, orV(b.Transfer.OutputUnit)))
 	}
+	for _, x := range b.Trim.DACs {
+		if top := 1<<x.Bits - 1; x.NoCorrection == 0 || x.NoCorrection == top {
+			notes = append(notes, fmt.Sprintf("DAC %s: its no-correction code %d is an end of its codes 0 … %d, so it corrects one way only (two's-complement coding is not modelled: codes run 0 … 2^bits − 1)",
+				x.Name, x.NoCorrection, top))
+		}
+	}
 	if len(b.Trim.DACs) == 0 && b.Trim.Coefficients == nil {
 		notes = append(notes, "the budget has no trim design: the units leave as they came, and there is nothing to recommend")
 	}
