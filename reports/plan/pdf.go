@@ -258,6 +258,7 @@ type mark struct {
 	label string
 	col   pdfdoc.Color
 	dash  bool
+	side  int // where the label goes: −1 left of the line, +1 right of it, 0 centred
 }
 
 // plot is one histogram to draw.
@@ -283,7 +284,7 @@ func (d *planDoc) histograms() {
 	for i, q := range r.Codes {
 		x := r.DACs[i].DAC
 		p := plot{q: q, code: true, marks: intervalMarks(q, "")}
-		p.marks = append(p.marks, mark{0, "code 0", pdfEnd, false}, mark{float64(maxCodeOf(x.Bits)), "code " + strconv.Itoa(maxCodeOf(x.Bits)), pdfEnd, false})
+		p.marks = append(p.marks, mark{0, "code 0", pdfEnd, false, 0}, mark{float64(maxCodeOf(x.Bits)), "code " + strconv.Itoa(maxCodeOf(x.Bits)), pdfEnd, false, 0})
 		p.note = "saturates: " + percent(r.DACs[i].Saturation)
 		plots = append(plots, p)
 	}
@@ -295,10 +296,10 @@ func (d *planDoc) histograms() {
 				band = tol.Gain
 			}
 			if !math.IsInf(band.Lo, 0) {
-				p.marks = append(p.marks, mark{band.Lo, "lower limit", pdfdoc.Fail, false})
+				p.marks = append(p.marks, mark{band.Lo, "lower limit", pdfdoc.Fail, false, -1})
 			}
 			if !math.IsInf(band.Hi, 0) {
-				p.marks = append(p.marks, mark{band.Hi, "upper limit", pdfdoc.Fail, false})
+				p.marks = append(p.marks, mark{band.Hi, "upper limit", pdfdoc.Fail, false, 1})
 			}
 			pass := r.OffsetPass
 			if k == 1 {
@@ -331,9 +332,9 @@ func (d *planDoc) histograms() {
 // intervalMarks are the Monte Carlo's 95 % interval of q and the other one
 // (named by basis) when q has it.
 func intervalMarks(q planner.Quantity, basis string) []mark {
-	ms := []mark{{q.Interval95[0], "", pdfMC, true}, {q.Interval95[1], "", pdfMC, true}}
+	ms := []mark{{q.Interval95[0], "", pdfMC, true, 0}, {q.Interval95[1], "", pdfMC, true, 0}}
 	if q.GUM95 != nil && basis != "" {
-		ms = append(ms, mark{q.GUM95[0], "", pdfGUM, true}, mark{q.GUM95[1], "", pdfGUM, true})
+		ms = append(ms, mark{q.GUM95[0], "", pdfGUM, true, 0}, mark{q.GUM95[1], "", pdfGUM, true, 0})
 	}
 	return ms
 }
@@ -368,19 +369,20 @@ func (d *planDoc) histogram(p plot, x, y, w, h float64) {
 	// near it, and a margin.
 	lo, hi := quantile(vs, 0.0005), quantile(vs, 0.9995)
 	span := hi - lo
-	if span == 0 {
-		span = math.Max(math.Abs(lo)*0.1, 1e-12)
-		if p.code {
-			span = 4
-		}
-	}
 	for _, m := range p.marks {
 		if m.v >= lo-span/4 && m.v <= hi+span/4 {
 			lo, hi = math.Min(lo, m.v), math.Max(hi, m.v)
 		}
 	}
-	span = hi - lo
-	lo, hi = lo-0.05*span, hi+0.05*span
+	if span = hi - lo; span > 0 {
+		lo, hi = lo-0.05*span, hi+0.05*span
+	} else { // every unit alike: a narrow view about the value
+		pad := math.Max(math.Abs(lo)*0.1, 1e-9)
+		if p.code {
+			pad = 4
+		}
+		lo, hi = lo-pad, hi+pad
+	}
 	bins := pdfBins
 	if p.code { // whole codes per bin, bins centred on codes
 		width := math.Max(1, math.Ceil((hi-lo)/pdfBins))
@@ -467,7 +469,14 @@ func (d *planDoc) histogram(p plot, x, y, w, h float64) {
 		pdf.SetDashPattern(nil, 0)
 		if m.label != "" {
 			d.Use(pdfPlot.With(m.col))
-			d.TextCentre(math.Min(math.Max(xOf(m.v), px+8), px+pw-8), py-0.8, m.label)
+			switch xm := xOf(m.v); m.side {
+			case -1:
+				d.TextRight(xm-0.6, py-0.8, m.label)
+			case 1:
+				pdf.Text(xm+0.6, py-0.8, m.label)
+			default:
+				d.TextCentre(math.Min(math.Max(xm, px+8), px+pw-8), py-0.8, m.label)
+			}
 		}
 	}
 	d.Use(pdfPlot)

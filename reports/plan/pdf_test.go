@@ -125,3 +125,30 @@ func TestPredictionOf(t *testing.T) {
 		t.Errorf("prediction %+v", p)
 	}
 }
+
+// A quantity no source moves (here the gain error) is drawn as one bar about
+// its value, not refused: every unit is alike.
+func TestPDFZeroSpread(t *testing.T) {
+	b, err := budget.Parse("offset-budget.yaml", []byte(`budget: {product: HW-1, revision: A}
+transfer:
+  gain: 1
+  output_at_zero: 2.5 V
+  input: {low: -1 V, high: 1 V}
+sources:
+  - {name: output offset, acts: output_offset, normal: 1 mV}
+trim:
+  dacs:
+    - {name: offset, adjusts: offset, bits: 6, lsb: 50 uV, no_correction: 32}
+`))
+	if err != nil {
+		t.Fatal(err)
+	}
+	r, err := planner.Run(context.Background(), b, planner.Options{Seed: 1, MinTrials: 10000})
+	if err != nil {
+		t.Fatal(err)
+	}
+	var out bytes.Buffer
+	if err := report.WritePDF(&out, r, time.Time{}); err != nil || !bytes.HasPrefix(out.Bytes(), []byte("%PDF-")) {
+		t.Fatalf("PDF: %v", err)
+	}
+}

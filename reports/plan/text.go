@@ -172,7 +172,7 @@ func scaleOf(q planner.Quantity) scale {
 		spread = q.GUM95[1] - q.GUM95[0]
 	}
 	s := scaleFor(q.Unit, math.Max(spread, math.Abs(q.Mean)))
-	if spread > 0 {
+	if spread > 0 && spread/s.factor >= 1e-6 { // below, the spread is rounding noise
 		s.dec = min(9, max(0, 2-int(math.Floor(math.Log10(spread/s.factor)))))
 	}
 	return s
