@@ -159,7 +159,7 @@ func (d *planDoc) tables() {
 	d.Y += 1
 	d.para("¹ every bounded source at an end of its range, every normal one at ±3σ.", pdfdoc.Small)
 	for _, q := range r.Pre {
-		if len(q.Shares) > 0 {
+		if len(q.Shares) > 0 && q.SD > 0 {
 			d.para(q.Name+", share of the variance (law of propagation): "+sharesText(q.Shares, 6), pdfdoc.Body)
 		}
 	}

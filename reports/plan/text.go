@@ -50,7 +50,7 @@ func WriteText(w io.Writer, r *planner.Report) {
 	t.Flush()
 	fmt.Fprintln(w, "  ¹ every bounded source at an end of its range, every normal one at ±3σ")
 	for _, q := range r.Pre {
-		if len(q.Shares) > 0 {
+		if len(q.Shares) > 0 && q.SD > 0 { // no spread, no shares (only rounding noise)
 			fmt.Fprintf(w, "  %s, share of the variance (law of propagation): %s\n", q.Name, sharesText(q.Shares, 5))
 		}
 	}
@@ -194,6 +194,9 @@ func scaleFor(unit string, mag float64) scale {
 
 // num writes v in the scale's unit, without the unit.
 func (s scale) num(v float64) string {
+	if math.Abs(v/s.factor) < 1e-9 { // rounding noise of a quantity no source moves
+		v = 0
+	}
 	if s.dec < 0 {
 		return units.FormatSig(v/s.factor, 3)
 	}
