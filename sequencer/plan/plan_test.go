@@ -10,6 +10,7 @@ import (
 	"testing"
 
 	"trimline/instruments/budget"
+	"trimline/limits"
 	"trimline/sequencer"
 )
 
@@ -298,6 +299,14 @@ trim:
 	if rel := math.Abs(post.SD/want - 1); rel > 0.02 {
 		t.Errorf("post_gain_error sd %.4g, 2^−16/√12 = %.4g", post.SD, want)
 	}
+	// The offset after correction, k·Y0 + m − Y0 with no offset before it,
+	// carries the gain coefficient's rounding times Y0 = 2.5 V and the offset
+	// coefficient's own: u = √(2.5² + 1)·2^−16/√12 V, as the common-practice
+	// interval says.
+	wantOff := math.Hypot(2.5, 1) * math.Ldexp(1, -16) / math.Sqrt(12)
+	if off := r.Post[0]; math.Abs(off.SD/wantOff-1) > 0.03 || off.GUM95 == nil || math.Abs(off.GUM95[1]/(1.96*wantOff)-1) > 1e-9 {
+		t.Errorf("post_offset sd %.4g, interval %v; √(2.5² + 1)·2^−16/√12 = %.4g", off.SD, off.GUM95, wantOff)
+	}
 	if post.Shares[PartCoefficient] != 1 || len(r.DACs) != 0 || r.Coefficients == nil {
 		t.Errorf("shares %v, DACs %d", post.Shares, len(r.DACs))
 	}
@@ -391,5 +400,33 @@ func TestNoTrimDesign(t *testing.T) {
 	// Uniform over ±40 µV inside ±50 µV: every unit passes.
 	if r.Yield != 1 {
 		t.Errorf("yield %g", r.Yield)
+	}
+}
+
+// Bounds on the predicted results come from toleranced limits and from
+// expressions that read as bounds, several on one result intersected; an
+// expression that does not read as bounds is named, and limits on other
+// results are listed as not predicted.
+func TestTolerancesOf(t *testing.T) {
+	set, err := limits.Load("l.yaml", []byte(`limit_set: {name: t, revision: "1", product: P}
+limits:
+  - {name: offset wide, description: a, unit: uV, uses: [post_offset], tolerance: {lower: -100, upper: 80}}
+  - {name: offset tight, description: b, unit: mV, uses: [post_offset], expr: "abs(post_offset) <= 0.06"}
+  - {name: gain low, description: c, unit: ppm, uses: [post_gain_error], expr: "post_gain_error >= -300"}
+  - {name: both, description: d, unit: ppm, uses: [post_gain_error, pre_gain_error], expr: "abs(post_gain_error) < abs(pre_gain_error)"}
+  - {name: linearity, description: e, unit: "%", uses: [post_nonlinearity], tolerance: {upper: 0.01}}
+`), sequencer.FirstLayoutCatalog())
+	if err != nil {
+		t.Fatal(err)
+	}
+	tol := TolerancesOf(set)
+	if math.Abs(tol.Offset.Lo+60e-6) > 1e-12 || math.Abs(tol.Offset.Hi-60e-6) > 1e-12 || len(tol.Offset.Limits) != 2 || tol.Offset.Unit != "uV" {
+		t.Errorf("offset band %+v", tol.Offset)
+	}
+	if math.Abs(tol.Gain.Lo+300e-6) > 1e-12 || !math.IsInf(tol.Gain.Hi, 1) || !tol.Gain.Bounded() || !tol.Gain.Pass(1) {
+		t.Errorf("gain band %+v", tol.Gain)
+	}
+	if strings.Join(tol.ExpressionOnly, ",") != "both" || strings.Join(tol.NotPredicted, ",") != "linearity" {
+		t.Errorf("expression only %v, not predicted %v", tol.ExpressionOnly, tol.NotPredicted)
 	}
 }
