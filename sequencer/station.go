@@ -203,6 +203,9 @@ type StationInstrument struct {
 	Settings  map[string]string
 	Templates map[string]string // command template overrides for this model
 	Timeout   time.Duration     // per command; 0 = the driver's default
+	// Dir is the station file's folder, where a setting that names a file (the
+	// simulated DUT's budget) is resolved (instruments.Spec.Dir).
+	Dir string
 }
 
 // SpecValidity is when and where an instrument's accuracy specs hold, as its
@@ -626,7 +629,7 @@ func parseStation(name string, data []byte, recorded bool) (*Station, error) {
 		req(base+".address", in.Address)
 		req(base+".asset", in.Asset)
 		si := StationInstrument{Role: role, Kind: kind, Address: in.Address, Asset: in.Asset, Model: in.Model, Serial: in.Serial,
-			Settings: in.Settings, Templates: in.Templates}
+			Settings: in.Settings, Templates: in.Templates, Dir: filepath.Dir(name)}
 		if in.Timeout != nil {
 			if si.Timeout = in.Timeout.D(); si.Timeout <= 0 {
 				errs = append(errs, doc.Errorf(base+".timeout", "expected a positive timeout such as 2 s"))
@@ -753,7 +756,7 @@ func (s *Station) Specs(roles []string) []instruments.Spec {
 }
 
 func (si StationInstrument) spec() instruments.Spec {
-	return instruments.Spec{Role: si.Role, Kind: string(si.Kind), Address: si.Address, Settings: si.Settings, Templates: si.Templates, Timeout: si.Timeout}
+	return instruments.Spec{Role: si.Role, Kind: string(si.Kind), Address: si.Address, Settings: si.Settings, Templates: si.Templates, Timeout: si.Timeout, Dir: si.Dir}
 }
 
 func lastPart(path string) string {

@@ -285,7 +285,7 @@ func DefaultDUTSettings() DUTSettings {
 // latency are accepted and ignored here). A bad key or value gives a
 // *instruments.SettingError.
 func ParseDUTSettings(settings map[string]string) (DUTSettings, error) {
-	c, err := parseSettings(modelDUT, settings)
+	c, err := parseSettings(modelDUT, settings, "")
 	if err != nil {
 		return DUTSettings{}, err
 	}
@@ -362,8 +362,9 @@ type config struct {
 	meter        meterConfig
 	dut          DUTSettings
 	chamber      chamberConfig
-	lidOpen      bool // dut: the fixture lid starts open
-	offsetLSBSet bool // dut: offset_lsb was given, so offset_trim does not change it
+	lidOpen      bool   // dut: the fixture lid starts open
+	offsetLSBSet bool   // dut: offset_lsb was given, so offset_trim does not change it
+	dir          string // folder a relative path in a setting is resolved against; "" = working directory
 }
 
 func defaultConfig(model string) config {
@@ -542,9 +543,12 @@ func (c *config) setters() map[string]setter {
 }
 
 // parseSettings parses one spec's settings for model. Keys are visited in sorted
-// order so the first error reported is stable.
-func parseSettings(model string, settings map[string]string) (config, error) {
+// order so the first error reported is stable. dir is the folder a relative path
+// in a setting is resolved against (instruments.Spec.Dir; "" = the working
+// directory).
+func parseSettings(model string, settings map[string]string, dir string) (config, error) {
 	c := defaultConfig(model)
+	c.dir = dir
 	set := c.setters()
 	// The output kind and offset_trim decide the dimension of other keys: parse
 	// them first.
