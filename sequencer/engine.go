@@ -403,11 +403,15 @@ func (e *Engine) Run(ctx context.Context, serial string) (rec *Record) {
 // RunOptions change one run from what the Engine's Config says: a console
 // signs operators in and out over a shift on one opened bench.
 type RunOptions struct {
-	Operator string      // "" = Config.Operator
+	Operator string // "" = Config.Operator
+	// Lot is the production lot this run records (Record.Lot), "" =
+	// Config.Lot: a console's operator changes lots over a shift on one
+	// opened bench. CheckLot says which lot ids are accepted.
+	Lot      string
 	Progress func(Event) // nil = Config.Progress
 }
 
-// RunWith is Run with the operator and the progress hook of this one run. The
+// RunWith is Run with the operator, lot and progress hook of this one run. The
 // hook (o.Progress, else Config.Progress) gets the run's events as progress.go
 // lists them, the last, EventUnitEnd, once the source is off and the record
 // complete.
@@ -421,14 +425,18 @@ func (e *Engine) RunWith(ctx context.Context, serial string, o RunOptions) *Reco
 	if o.Operator != "" {
 		operator = o.Operator
 	}
-	rec := e.runUnit(ctx, serial, operator)
+	lot := e.cfg.Lot
+	if o.Lot != "" {
+		lot = o.Lot
+	}
+	rec := e.runUnit(ctx, serial, operator, lot)
 	e.emit(Event{Kind: EventUnitEnd, Serial: rec.Serial, RunID: rec.RunID, Verdict: rec.Verdict})
 	return rec
 }
 
 // runUnit is RunWith without its hook's last event: the deferred safe-off has
 // run when it returns.
-func (e *Engine) runUnit(ctx context.Context, serial, operator string) (rec *Record) {
+func (e *Engine) runUnit(ctx context.Context, serial, operator, lot string) (rec *Record) {
 	st, seq := e.cfg.Station, e.cfg.Sequence
 	now := e.clock.Now().UTC()
 	rec = &Record{
@@ -437,7 +445,7 @@ func (e *Engine) runUnit(ctx context.Context, serial, operator string) (rec *Rec
 		Files:       []FileRef{st.File, seq.File, seq.LimitsFile},
 		Instruments: append([]InstrumentRef(nil), e.refs...),
 		IdealGain:   seq.IdealGain, IdealOffset: seq.IdealOffset, FullScale: seq.FullScale, ResponseUnit: seq.recordResponseUnit(), StimulusUnit: seq.recordStimulusUnit(),
-		Conditions: e.cfg.Conditions, Coverage: coverage(seq), Engineering: e.cfg.Engineering, Lot: e.cfg.Lot, Site: st.Site,
+		Conditions: e.cfg.Conditions, Coverage: coverage(seq), Engineering: e.cfg.Engineering, Lot: lot, Site: st.Site,
 		Simulated: simulation(e.refs, e.benchClock),
 	}
 	if e.cfg.NewID != nil {

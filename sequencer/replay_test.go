@@ -23,7 +23,7 @@ var notRecomputed = map[string]string{
 	".Product": "copied", ".Revision": "copied", ".Station": "copied", ".Operator": "copied",
 	".Software": "copied", ".Started": "copied", ".Finished": "copied", ".Files": "copied",
 	".Instruments": "copied", ".Conditions": "copied", ".Simulated": "copied",
-	".Engineering": "copied", ".RetestOf": "copied", ".Lot": "copied",
+	".Engineering": "copied", ".RetestOf": "copied", ".Lot": "copied", ".Site": "copied",
 	".Disposition":                   "the reviewer's decision, copied; Differences checks that it applies (TestReplayOfReviewDecision)",
 	".Soaks":                         "the temperatures read are facts of the run, copied",
 	".Sweeps[].Points[].Readings":    "facts of the run, copied",

@@ -115,6 +115,7 @@ otherwise.`,
 			}
 			kind := sequencer.FileKind(data)
 			var lerr error
+			says := "" // what the ok line adds to the kind
 			switch kind {
 			case sequencer.FileStation:
 				var st *sequencer.Station
@@ -122,6 +123,9 @@ otherwise.`,
 					problems = append(problems, stationProblems(e, st)...)
 					if lerr == nil {
 						stations = append(stations, st)
+						if st.Site != "" {
+							says = "site: " + st.Site
+						}
 					}
 				}
 			case sequencer.FileSequence:
@@ -156,8 +160,12 @@ otherwise.`,
 				out.Files = append(out.Files, fileOut{Path: path, What: kind})
 				continue
 			}
-			fmt.Fprintf(stdout, "ok  %s (%s)\n", path, kind)
-			out.Files = append(out.Files, fileOut{Path: path, What: kind, OK: true})
+			if says != "" {
+				fmt.Fprintf(stdout, "ok  %s (%s; %s)\n", path, kind, says)
+			} else {
+				fmt.Fprintf(stdout, "ok  %s (%s)\n", path, kind)
+			}
+			out.Files = append(out.Files, fileOut{Path: path, What: kind, OK: true, Says: says})
 			if *showSteps && kind == sequencer.FileSequence {
 				printSteps(stdout, seqs[len(seqs)-1])
 			}

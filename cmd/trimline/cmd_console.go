@@ -12,11 +12,12 @@ import (
 
 	"trimline/cmd/trimline/console"
 	"trimline/cmd/trimline/internal/shift"
+	"trimline/sequencer"
 )
 
 func newConsoleCmd() *command {
 	c := &command{
-		UsageLine: "trimline console --station FILE --sequence FILE [--listen ADDR --tls-cert FILE --tls-key FILE] [--out DIR] [--bench tcp] [--ambient T] [--engineering]",
+		UsageLine: "trimline console --station FILE --sequence FILE [--listen ADDR --tls-cert FILE --tls-key FILE] [--out DIR] [--bench tcp] [--ambient T] [--lot ID] [--engineering]",
 		Short:     "serve the operator's station screen for a shift (a local web console)",
 		Long: `Opens the station for a shift and serves its operator screen on
 http://127.0.0.1:8470/ (open it in the station PC's browser). Operators sign in by
@@ -25,6 +26,9 @@ one) and scan serials; each unit runs as ` + "`trimline run`" + ` runs it (same 
 ledger, certificates and signatures), with its progress, its verdict in plain
 words, retests confirmed on screen, a station fault locking the station until it
 is cleared with a note, and the units held for review decided by a reviewer.
+Every unit records the production lot in force: --lot at the start, then the
+lot the operator scans into the screen's Lot field (each change is in the
+ledger's audit trail under the operator's name).
 
 The console listens on loopback unless --listen names another address; then it
 serves HTTPS only (--tls-cert and --tls-key; also usable on loopback), every
@@ -42,6 +46,7 @@ Runs until Ctrl-C.`,
 	ambient := c.Flag.String("ambient", "", "ambient `temperature` to record on every run, e.g. \"23.1 °C\"")
 	tlsCert := c.Flag.String("tls-cert", "", "TLS certificate `file` (PEM) to serve HTTPS with; required beyond loopback")
 	tlsKey := c.Flag.String("tls-key", "", "TLS private key `file` (PEM) of --tls-cert")
+	lot := c.Flag.String("lot", "", "production `lot` id in force when the shift starts (the operator changes it on screen)")
 	engineering := c.Flag.Bool("engineering", false, "run files that were never released; certificates are marked ENGINEERING RUN — NOT FOR SHIPMENT and numbered apart")
 	c.Run = func(ctx context.Context, e *env, args []string) error {
 		if *station == "" || *sequence == "" {
@@ -55,6 +60,9 @@ Runs until Ctrl-C.`,
 		}
 		if _, err := shift.ParseAmbient(*ambient); err != nil {
 			return usagef("--ambient: %v", err)
+		}
+		if err := sequencer.CheckLot(*lot); err != nil {
+			return usagef("--lot: %v", err)
 		}
 		if (*tlsCert == "") != (*tlsKey == "") {
 			return usagef("--tls-cert and --tls-key go together")
@@ -78,7 +86,7 @@ Runs until Ctrl-C.`,
 		}
 		defer ln.Close()
 		srv, err := console.New(ctx, console.Options{StationPath: *station, SequencePath: *sequence, Out: *out, Listen: *listen,
-			Bench: *bench, Ambient: *ambient, Engineering: *engineering, Log: e.stderr, Software: "trimline " + version(), TLS: useTLS})
+			Bench: *bench, Ambient: *ambient, Lot: *lot, Engineering: *engineering, Log: e.stderr, Software: "trimline " + version(), TLS: useTLS})
 		if errors.Is(err, console.ErrNoPassphrase) {
 			return badInput(err)
 		}

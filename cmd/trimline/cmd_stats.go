@@ -43,7 +43,8 @@ columns, the unit, the tolerance, the intervals, the fraction outside, the mean
 expanded uncertainty U); --json one object of kind "stats" (README: Output for
 scripts); --values FILE.csv also writes one row per counted unit with its value
 and U of every result; --pdf FILE also writes the A4 lot report with the plots.
-When no run matches, the command says so and exits 2.`,
+The text, the JSON and the PDF state who was counted; the two CSVs hold data
+only. When no run matches, the command says so and exits 2.`,
 	}
 	ledgerPath := c.Flag.String("ledger", "", "ledger `file` to read (one that does not exist is an error, never a new ledger)")
 	var f stats.Filter

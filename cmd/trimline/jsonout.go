@@ -271,7 +271,7 @@ type fileOut struct {
 	What string `json:"what"`
 	// OK: the file loads as the command that uses it would load it. A file that
 	// is no input (a PDF, the ledger) is OK; Says names the command that checks
-	// it.
+	// it, or a station file's site ("site: …").
 	OK   bool   `json:"ok"`
 	Says string `json:"says"`
 }
@@ -437,8 +437,8 @@ type statResultOut struct {
 	Outside         int          `json:"outside"`          // values measured outside the tolerance
 	MeanU           *float64     `json:"mean_u"`           // mean expanded uncertainty U of the values
 	Histogram       histogramOut `json:"histogram"`
-	// DataHistogram bins the same values over their own robust range (1st to
-	// 99th percentile and a margin): the shape of a capable process that
+	// DataHistogram bins the same values over their own robust range (within
+	// Tukey's inner fences, and a margin): the shape of a capable process that
 	// fills few bins of Histogram. No counts with fewer than 2 values.
 	DataHistogram histogramOut `json:"data_histogram"`
 }

@@ -34,3 +34,14 @@ func TestRunRecordsTheLot(t *testing.T) {
 		t.Fatalf("the refused lot ran BRX-00002: %+v %v", runs, err)
 	}
 }
+
+// TestConsoleRefusesABadLot: console --lot follows run --lot's rule, refused
+// (exit 2) before the console listens or opens anything.
+func TestConsoleRefusesABadLot(t *testing.T) {
+	dir := t.TempDir()
+	station, sequence := writeReleasedDemo(t, dir, 8)
+	code, _, errOut := runCLI(t, "console", "--station", station, "--sequence", sequence, "--out", dir, "--lot", " L2026-48A")
+	if code != exitUsage || !strings.Contains(errOut, "--lot") || !strings.Contains(errOut, "no spaces") {
+		t.Fatalf("console --lot with a leading space: exit %d\n%s", code, errOut)
+	}
+}

@@ -162,8 +162,9 @@ func TestStats(t *testing.T) {
 		var r statsOut
 		decodeStrict(t, out, &r)
 		// Only the retests are of lot L8: each is its unit's only attempt
-		// within the filter.
-		if r.Units != 5 || r.Counts.Retested != 0 || r.Filter.Lot != "l8" {
+		// within the filter, and a retest: the unit was retested and did not
+		// pass first time, whatever its first attempt in lot L7 said.
+		if r.Units != 5 || r.Counts.Retested != 5 || r.Counts.FirstPass != 0 || r.Filter.Lot != "l8" {
 			t.Errorf("--lot l8: units %d, counts %+v, filter %+v", r.Units, r.Counts, r.Filter)
 		}
 	})

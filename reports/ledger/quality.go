@@ -68,8 +68,9 @@ type QualityOutcome struct {
 }
 
 // QualityRuns returns every stored run that finished on or after since and
-// before until (a zero time is no bound), oldest first (by Started, then run
-// id), with its results and limit outcomes. It reads the runs, results and
+// before until (a zero time is no bound), in the order the ledger recorded
+// them (a retest always after the run it repeats, a review decision after the
+// run it decides, whatever the clocks of the stations said), with its results and limit outcomes. It reads the runs, results and
 // limit_outcomes tables in three queries and takes from each record's JSON
 // only the lot, site, engineering mark, review decision and the results'
 // quantities. It returns an empty slice when no run matches. Errors: ctx's,
@@ -97,7 +98,7 @@ func (l *Ledger) QualityRuns(ctx context.Context, since, until time.Time) ([]Qua
 		coalesce(certificate, ''), coalesce(retest_of, ''),
 		json_extract(record_json, '$.lot', '$.site', '$.engineering', '$.disposition.of', '$.disposition.decision'),
 		json_extract(record_json, '$.results')
-		FROM runs WHERE `+where+` ORDER BY started, run_id`, args, func(rows *sql.Rows) error {
+		FROM runs WHERE `+where+` ORDER BY rowid`, args, func(rows *sql.Rows) error {
 		var r QualityRun
 		var started, finished, verdict string
 		var facts, results []byte

@@ -62,13 +62,13 @@ func population(o Options) []string {
 	return []string{
 		"The filter (product, revision, station, site, lot, finish date) selects runs before anything else is counted.",
 		eng,
-		"A unit is a serial number; its runs are taken in the order they started.",
+		"A unit is a serial number; its runs are taken in the order the ledger recorded them (a retest after the run it repeats, whatever the stations' clocks said).",
 		"An attempt is a completed run (PASS, FAIL or REVIEW); a reviewer's decision on a REVIEW run is not an attempt but gives that run its final verdict (accept: PASS, reject: FAIL).",
 		"Each unit's latest attempt counts for yield and capability, with its final verdict; a REVIEW run not yet decided is held, not passed.",
-		"Earlier attempts count only for the retest rate (units tested more than once); first-pass yield counts the units whose first attempt's final verdict is PASS.",
+		"Earlier attempts count only for the retest rate (units tested more than once); first-pass yield counts the units whose first attempt's final verdict is PASS. A unit whose earliest counted run is a retest (its first attempt lies outside the filter) counts as retested, not as passed first time.",
 		"FAULT and ABORTED runs measured nothing: they count only in the fault rate, faults over all runs counted (attempts, faults and aborted runs).",
-		"The Pareto counts, per limit, the units whose latest attempt failed it or is held on it, and the units whose first attempt did not pass it.",
-		"Capability takes each unit's value in the limit's unit, units in test order (the start of their latest attempt), against the tolerance of the newest counted run.",
+		"The Pareto counts, per limit, the units whose latest attempt failed it (a conditional pass counts only where a reviewer rejected the unit), the units held for review on it, and the units whose first attempt did not pass it.",
+		"Capability takes each unit's value in the limit's unit, units in test order (the order their latest attempts were recorded), against the tolerance of the newest counted run.",
 	}
 }
 
@@ -167,6 +167,13 @@ func (r *Report) population(kept []*ledger.QualityRun) []*unit {
 		a := u.latest()
 		verdict, d := u.final(a)
 		first, _ := u.final(u.attempts[0])
+		// A unit whose earliest counted run is a retest had its first
+		// attempt outside the filter (another lot, station or date): it was
+		// retested and did not pass first time, whatever that attempt said.
+		outside := u.attempts[0].RetestOf != ""
+		if outside {
+			first = ""
+		}
 		row := UnitRow{Serial: a.Serial, Product: a.Product, Revision: a.Revision, RunID: a.RunID, Certificate: a.Certificate,
 			Station: a.Station, Site: a.Site, Lot: a.Lot, Started: a.Started, Finished: a.Finished,
 			Verdict: verdict, FirstVerdict: first, Attempts: len(u.attempts)}
@@ -185,7 +192,7 @@ func (r *Report) population(kept []*ledger.QualityRun) []*unit {
 		if first == string(sequencer.Pass) {
 			c.FirstPass++
 		}
-		if len(u.attempts) > 1 {
+		if len(u.attempts) > 1 || outside {
 			c.Retested++
 		}
 		r.Units = append(r.Units, row)
@@ -233,17 +240,19 @@ func (r *Report) pareto(us []*unit) {
 				if o.Pass {
 					continue
 				}
-				// Held: the unit waits for a reviewer, or a conditional pass
-				// its policy sent to review beside another limit's failure.
-				if verdict == string(sequencer.Review) || (a.Verdict == sequencer.Fail && o.Zone == limits.ZoneConditionalPass) {
-					get(o).Held++
-				} else {
+				switch {
+				case verdict == string(sequencer.Review):
+					get(o).Held++ // the unit waits for a reviewer
+				case o.Zone != limits.ZoneConditionalPass || a.Verdict == sequencer.Review:
+					// Failed, or a conditional pass a reviewer rejected.
 					get(o).Failed++
 				}
+				// A conditional pass beside another limit's failure failed
+				// nothing: the unit failed on the other limit.
 			}
 		}
 		for i := range u.attempts[0].Outcomes {
-			if o := &u.attempts[0].Outcomes[i]; !o.Pass {
+			if o := &u.attempts[0].Outcomes[i]; !o.Pass && u.attempts[0].RetestOf == "" {
 				get(o).First++
 			}
 		}
@@ -469,10 +478,11 @@ func (acc *resultAcc) capability(o Options) {
 }
 
 // band is the histogram's range: a two-sided tolerance widened by margin·W on
-// each side (W its width); a one-sided one from the limit to the far robust
-// end of the data (the 1st or 99th percentile, so one outlier does not set
-// it), widened by margin times that span on each side; with no tolerance, the
-// data's robust range (1st to 99th percentile) widened the same way.
+// each side (W its width); a one-sided one from the limit to the far end of
+// the data's robust range, widened by margin times that span on each side;
+// with no tolerance, the data's robust range widened the same way. The robust
+// range is the data within Tukey's inner fences (fences), so a few outliers
+// never set it, whatever the number of values.
 func band(xs []float64, lower, upper *float64, margin float64) (lo, hi float64) {
 	switch {
 	case lower != nil && upper != nil && *upper > *lower:
@@ -482,7 +492,7 @@ func band(xs []float64, lower, upper *float64, margin float64) (lo, hi float64) 
 		if len(xs) == 0 {
 			return 0, 1
 		}
-		a, b := percentile(xs, 0.01), percentile(xs, 0.99)
+		a, b := fences(xs)
 		if !(b > a) { // all equal: a band of their size around them
 			d := math.Abs(a) / 2
 			if !(d > 0) {
@@ -497,13 +507,13 @@ func band(xs []float64, lower, upper *float64, margin float64) (lo, hi float64) 
 		tl = *upper
 		end = tl
 		if len(xs) > 0 {
-			end = percentile(xs, 0.01)
+			end, _ = fences(xs)
 		}
 	} else {
 		tl = *lower
 		end = tl
 		if len(xs) > 0 {
-			end = percentile(xs, 0.99)
+			_, end = fences(xs)
 		}
 	}
 	a, b := min(tl, end), max(tl, end)
@@ -517,12 +527,31 @@ func band(xs []float64, lower, upper *float64, margin float64) (lo, hi float64) 
 	return a - margin*span, b + margin*span
 }
 
-// percentile is the value of rank p·(n−1) (nearest, rounded down) of the
-// sorted xs.
-func percentile(xs []float64, p float64) float64 {
+// fences is the robust range of xs (at least one value): the smallest and
+// the largest value within Tukey's inner fences Q1 − 1.5·IQ and
+// Q3 + 1.5·IQ, IQ = Q3 − Q1 (NIST/SEMATECH e-Handbook §7.1.6, "What are
+// outliers in the data?"), the quartiles interpolated between order
+// statistics.
+func fences(xs []float64) (lo, hi float64) {
 	s := slices.Clone(xs)
 	slices.Sort(s)
-	return s[int(p*float64(len(s)-1))]
+	q := func(p float64) float64 {
+		h := p * float64(len(s)-1)
+		i := int(h)
+		if i+1 >= len(s) {
+			return s[len(s)-1]
+		}
+		return s[i] + (h-float64(i))*(s[i+1]-s[i])
+	}
+	q1, q3 := q(0.25), q(0.75)
+	lf, uf := q1-1.5*(q3-q1), q3+1.5*(q3-q1)
+	lo, hi = s[len(s)-1], s[0]
+	for _, x := range s {
+		if x >= lf && x <= uf {
+			lo, hi = min(lo, x), max(hi, x)
+		}
+	}
+	return lo, hi
 }
 
 // notes adds what a reader must know about acc's numbers.
@@ -536,6 +565,9 @@ func (r *Report) notes(acc *resultAcc) {
 	}
 	if acc.N < 2 {
 		r.Notes = append(r.Notes, fmt.Sprintf("%s: %d valid value(s), fewer than 2: no capability.", acc.Name, acc.N))
+	} else if acc.SDWithin == 0 || acc.SDOverall == 0 {
+		r.Notes = append(r.Notes, fmt.Sprintf("%s: a standard deviation is 0 (within %s, overall %s): the indices built on it are not numbers a process can be judged by (the values may be rounded, or a unit repeated).",
+			acc.Name, units.FormatSig(acc.SDWithin, 3), units.FormatSig(acc.SDOverall, 3)))
 	}
 	if acc.Invalid > 0 {
 		r.Notes = append(r.Notes, fmt.Sprintf("%s: %d unit(s) have no valid value in their latest run; they are left out of its numbers.", acc.Name, acc.Invalid))

@@ -37,8 +37,9 @@ type handRun struct {
 	offset     float64
 	zone       string // of the offset outcome; "" means pass or fail by the value
 	noise, pre float64
-	tol        float64 // offset tolerance ±tol uV; 0 means 50
-	gain       float64 // post_gain_error in ppm, judged ±500 ppm; 0 means none
+	tol        float64       // offset tolerance ±tol uV; 0 means 50
+	clock      time.Duration // added to the run's start: a station clock that is off
+	gain       float64       // post_gain_error in ppm, judged ±500 ppm; 0 means none
 }
 
 // population is the hand-worked population (test order = start order):
@@ -72,7 +73,7 @@ func tolPtr(v float64) *float64 { return &v }
 
 // record makes the record of run i of the population.
 func (tr handRun) record(i int) *sequencer.Record {
-	start := handDay0.Add(time.Duration(tr.day)*24*time.Hour + time.Duration(i)*10*time.Minute)
+	start := handDay0.Add(time.Duration(tr.day)*24*time.Hour + time.Duration(i)*10*time.Minute + tr.clock)
 	station := tr.station
 	if station == "" {
 		station = "S1"
@@ -228,6 +229,31 @@ func TestComputeRatesOfAHandWorkedPopulation(t *testing.T) {
 	}
 }
 
+// TestRetestBehindTheClock: a retest made at a station whose clock is an hour
+// behind starts "before" the run it repeats; it is still the later attempt,
+// for the ledger recorded it after (and it names the run it repeats).
+func TestRetestBehindTheClock(t *testing.T) {
+	r := readReport(t, storeHandRuns(t, []handRun{
+		{id: "r01", serial: "U1", verdict: sequencer.Fail, offset: 70, noise: 20, pre: 1},
+		{id: "r02", serial: "U1", verdict: sequencer.Pass, retestOf: "r01", clock: -time.Hour, offset: 12, noise: 20, pre: 1},
+		{id: "r03", serial: "U2", verdict: sequencer.Pass, offset: 30, noise: 20, pre: 1},
+	}), stats.Options{})
+	if len(r.Units) != 2 {
+		t.Fatalf("%d units, want 2", len(r.Units))
+	}
+	u := r.Units[0]
+	if u.Serial != "U1" || u.RunID != "r02" || u.Verdict != "PASS" || u.FirstVerdict != "FAIL" || u.Attempts != 2 {
+		t.Errorf("U1: latest %s %s, first %s, %d attempts; want r02 PASS, first FAIL, 2", u.RunID, u.Verdict, u.FirstVerdict, u.Attempts)
+	}
+	if r.Counts.Passed != 2 || r.Counts.FirstPass != 1 || r.Counts.Retested != 1 {
+		t.Errorf("counts %+v, want 2 passed, 1 first pass, 1 retested", r.Counts)
+	}
+	off := resultNamed(t, r, "post_offset")
+	if !reflect.DeepEqual(off.Values, []float64{12, 30}) {
+		t.Errorf("post_offset in test order %v, want [12 30] (the retest's value, in the order recorded)", off.Values)
+	}
+}
+
 func TestComputeFilters(t *testing.T) {
 	led := storeHandRuns(t, handPopulation())
 	for _, c := range []struct {
@@ -264,6 +290,36 @@ func TestComputeFilters(t *testing.T) {
 		}
 		if strings.Join(got, " ") != c.serials || r.Counts.Runs != c.runs {
 			t.Errorf("%s: units %v, %d runs; want %s, %d runs", c.name, got, r.Counts.Runs, c.serials, c.runs)
+		}
+	}
+}
+
+// TestFirstAttemptOutsideTheFilter: a unit failed in lot A and passed on
+// retest in lot B is, in lot B's numbers, retested and not passed first time.
+// In the Pareto, a conditional pass beside another limit's failure failed
+// nothing; rejected on review, it did.
+func TestFirstAttemptOutsideTheFilter(t *testing.T) {
+	led := storeHandRuns(t, []handRun{
+		{id: "r01", serial: "U1", verdict: sequencer.Fail, lot: "A", offset: 70, noise: 20, pre: 1},
+		{id: "r02", serial: "U1", verdict: sequencer.Pass, lot: "B", retestOf: "r01", offset: 12, noise: 20, pre: 1},
+		{id: "r03", serial: "U2", verdict: sequencer.Pass, lot: "B", offset: 30, noise: 20, pre: 1},
+		// Conditional pass on offset, failed on noise: offset failed nothing.
+		{id: "r04", serial: "U3", verdict: sequencer.Fail, lot: "B", offset: 45, zone: limits.ZoneConditionalPass, noise: 90, pre: 1},
+	})
+	r, err := stats.Read(handCtx, led, stats.Options{Filter: stats.Filter{Lot: "B"}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if r.Counts.Units != 3 || r.Counts.FirstPass != 1 || r.Counts.Retested != 1 || r.Units[0].FirstVerdict != "" {
+		t.Errorf("lot B: %d units, %d first pass, %d retested, U1's first verdict %q; want 3, 1 (U2), 1 (U1), \"\"",
+			r.Counts.Units, r.Counts.FirstPass, r.Counts.Retested, r.Units[0].FirstVerdict)
+	}
+	for _, p := range r.Pareto {
+		if p.Limit == "offset" && (p.Failed != 0 || p.Held != 0 || p.First != 1) {
+			t.Errorf("offset: failed %d held %d first %d; want 0, 0, 1 (U3's conditional pass; U1's first attempt is outside the filter)", p.Failed, p.Held, p.First)
+		}
+		if p.Limit == "noise" && p.Failed != 1 {
+			t.Errorf("noise: failed %d, want 1 (U3)", p.Failed)
 		}
 	}
 }

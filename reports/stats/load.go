@@ -26,7 +26,7 @@ func Read(ctx context.Context, led *ledger.Ledger, o Options) (Report, error) {
 		return Report{}, fmt.Errorf("stats: %w", err)
 	}
 	r := Compute(runs, o)
-	if r.Counts.Runs == 0 && r.Counts.Decisions == 0 {
+	if r.Counts.Runs == 0 { // review decisions alone measured nothing: their REVIEW runs lie outside the filter
 		switch {
 		case r.Counts.Engineering > 0:
 			return r, fmt.Errorf("%w: %d engineering run(s) match, left out without include-engineering", ErrNoRuns, r.Counts.Engineering)

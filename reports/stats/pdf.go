@@ -302,8 +302,14 @@ func (l *lotDoc) results() {
 		l.para(l.Left, l.Width, "", "No toleranced result among the runs counted.", pdfdoc.Body)
 		return
 	}
+	const closeH = 40.0
 	for i, rs := range l.r.Results {
-		l.Need(histH + 12)
+		close := crowded(rs.Hist) && len(rs.DataHist.Counts) > 0
+		need := histH + 12
+		if close {
+			need += closeH + 5 // a close-up stays on its histogram's page
+		}
+		l.Need(need)
 		if i > 0 {
 			l.Y += 3
 		}
@@ -312,12 +318,10 @@ func (l *lotDoc) results() {
 		l.histogram(rs, rs.Hist, l.Left, top, 104, histH)
 		l.numbers(rs, l.Left+110, top, l.Width-110)
 		l.Y = top + histH + 1
-		if crowded(rs.Hist) && len(rs.DataHist.Counts) > 0 {
+		if close {
 			// The band's bins are too wide to show the shape of a capable
 			// process: the values again, over their own range.
-			const closeH = 40.0
-			l.Need(closeH + 5)
-			l.text(l.Left, l.Y+pdfPlotStyle.LineH()*0.75, "Close-up: the same values over their own range (1st to 99th percentile, widened by a quarter each side)", pdfPlotStyle.With(pdfdoc.Muted))
+			l.text(l.Left, l.Y+pdfPlotStyle.LineH()*0.75, "Close-up: the same values over their own range (within Tukey's fences, widened by a quarter each side)", pdfPlotStyle.With(pdfdoc.Muted))
 			l.Y += pdfPlotStyle.LineH() + 0.5
 			l.histogram(rs, rs.DataHist, l.Left, l.Y, 104, closeH)
 			l.Y += closeH + 1
@@ -621,7 +625,7 @@ func (l *lotDoc) pairs() {
 	}
 	const histH = 50.0
 	l.section("Pre-trim beside post-trim", histH+16)
-	l.para(l.Left, l.Width, "", "What comes off assembly (left) and what the trim achieves (right), each over its own tolerance band.", pdfSmall)
+	l.para(l.Left, l.Width, "", "What comes off assembly (left) and what the trim achieves (right), each over its own tolerance band, or over its values' own range where the band's bins are too wide to show their shape (the axis says which: a band's plot has its tolerance limits drawn).", pdfSmall)
 	l.Y += 1
 	half := (l.Width - 6) / 2
 	for i, p := range l.r.Pairs {

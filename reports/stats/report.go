@@ -73,8 +73,8 @@ type Report struct {
 	// …). Every output prints it.
 	Population []string
 	Counts     Counts
-	// Units are the counted units in test order (the start of their latest
-	// completed attempt).
+	// Units are the counted units in test order: the order the ledger
+	// recorded their latest attempts in.
 	Units []UnitRow
 	// Yield is Passed/Units, FirstPassYield FirstPass/Units, RetestRate
 	// Retested/Units, FaultRate Faults/Runs; NaN when the denominator is 0.
@@ -123,9 +123,11 @@ type Counts struct {
 type LimitFailures struct {
 	Limit   string // the limit's name
 	Channel string // the channel it judged, "" for a limit of the whole unit
-	// Failed and Held count units whose latest completed run failed the limit
-	// or held it for review; First counts units whose first attempt did not
-	// pass it (failed or held).
+	// Failed counts units whose latest attempt failed the limit (a
+	// conditional pass counts only where a reviewer rejected the unit; beside
+	// another limit's failure it failed nothing); Held the units held for
+	// review (undecided) that did not pass it; First the units whose first
+	// attempt did not pass it (any zone), when that attempt was counted.
 	Failed, Held, First int
 }
 
@@ -164,12 +166,13 @@ type ResultStats struct {
 	// Hist bins the values over the tolerance band plus a margin, with explicit
 	// under- and overflow counts.
 	Hist spc.Histogram
-	// DataHist bins the values over their own robust range (1st to 99th
-	// percentile, widened by the margin), with under- and overflow: the shape
+	// DataHist bins the values over their own robust range (within Tukey's
+	// inner fences, widened by the margin), with under- and overflow: the shape
 	// of a capable process that fills only a few bins of Hist. No bins when
 	// fewer than 2 values.
 	DataHist spc.Histogram
-	// Values are the N values in test order (the runs' start times); U the
+	// Values are the N values in test order (the order the runs were
+	// recorded); U the
 	// expanded uncertainty of each (Unit, NaN when the record has none); Units
 	// the index in Report.Units of the unit each belongs to. For charts and
 	// the per-unit CSV.
@@ -186,7 +189,7 @@ type UnitRow struct {
 	Station, Site, Lot        string
 	Started, Finished         time.Time // of the latest completed attempt (the test, not the decision)
 	Verdict                   string    // final: "PASS", "FAIL" or "REVIEW" (held, undecided)
-	FirstVerdict              string    // of the first attempt, after any review decision on it
+	FirstVerdict              string    // of the first attempt, after any review decision on it; "" when that attempt lies outside the filter
 	Attempts                  int
 }
 

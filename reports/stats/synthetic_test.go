@@ -3,6 +3,7 @@ package stats_test
 import (
 	"fmt"
 	"reflect"
+	"strings"
 	"testing"
 	"time"
 
@@ -61,26 +62,53 @@ func TestComputeChannelsAndPairs(t *testing.T) {
 // One outlier far below a one-sided limit's data must not set the band: it is
 // underflow, and the band runs from the 1st percentile to the limit.
 func TestOneSidedBandIgnoresAnOutlier(t *testing.T) {
+	// However few the values: 12 (where a 1st percentile is the smallest value,
+	// the outlier itself), 60 and 200.
+	for _, n := range []int{12, 60, 200} {
+		noise := make([]float64, n)
+		for i := range noise {
+			noise[i] = 20 + float64(i%11) // 20 … 30 uV
+		}
+		noise[5] = -1000
+		r := stats.Compute(twoChannelRuns(noise), stats.Options{})
+		s := r.Results[len(r.Results)-1]
+		// Tukey's inner fences (e-Handbook §7.1.6) keep −1000 uV out: the robust
+		// range is 20 … 30 uV; from 20 uV to the limit 60 uV is 40 uV, a quarter
+		// of it either side.
+		if s.Name != "noise@1" || s.Hist.Lo != 10 || s.Hist.Hi != 70 || s.Hist.Under != 1 || s.Hist.Over != 0 || len(s.Hist.Counts) != stats.DefaultBins {
+			t.Errorf("n %d: %s histogram %v … %v, %d bins, under %d over %d; want 10 … 70, %d bins, 1, 0",
+				n, s.Name, s.Hist.Lo, s.Hist.Hi, len(s.Hist.Counts), s.Hist.Under, s.Hist.Over, stats.DefaultBins)
+		}
+		// The data's own range: 20 … 30 uV, a quarter of 10 uV either side.
+		if h := s.DataHist; h.Lo != 17.5 || h.Hi != 32.5 || h.Under != 1 || h.Over != 0 {
+			t.Errorf("n %d: data histogram %v … %v, under %d over %d; want 17.5 … 32.5, 1, 0", n, h.Lo, h.Hi, h.Under, h.Over)
+		}
+	}
 	noise := make([]float64, 200)
 	for i := range noise {
-		noise[i] = 20 + float64(i%11) // 20 … 30 uV
+		noise[i] = 20 + float64(i%11)
 	}
 	noise[50] = -1000
-	r := stats.Compute(twoChannelRuns(noise), stats.Options{})
+	r := stats.Compute(twoChannelRuns(noise), stats.Options{Bins: 10, Margin: 0.5})
 	s := r.Results[len(r.Results)-1]
-	// 1st percentile: rank ⌊0.01·199⌋ = 1 of the sorted values, 20 uV; span to
-	// the limit 40 uV, a quarter of it either side.
-	if s.Name != "noise@1" || s.Hist.Lo != 10 || s.Hist.Hi != 70 || s.Hist.Under != 1 || s.Hist.Over != 0 || len(s.Hist.Counts) != stats.DefaultBins {
-		t.Errorf("%s histogram %v … %v, %d bins, under %d over %d; want 10 … 70, %d bins, 1, 0",
-			s.Name, s.Hist.Lo, s.Hist.Hi, len(s.Hist.Counts), s.Hist.Under, s.Hist.Over, stats.DefaultBins)
-	}
-	// The data's own range: ranks 1 and ⌊0.99·199⌋ = 197, 20 … 30 uV.
-	if h := s.DataHist; h.Lo != 17.5 || h.Hi != 32.5 || h.Under != 1 || h.Over != 0 {
-		t.Errorf("data histogram %v … %v, under %d over %d; want 17.5 … 32.5, 1, 0", h.Lo, h.Hi, h.Under, h.Over)
-	}
-	r = stats.Compute(twoChannelRuns(noise), stats.Options{Bins: 10, Margin: 0.5})
-	s = r.Results[len(r.Results)-1]
 	if s.Hist.Lo != 0 || s.Hist.Hi != 80 || len(s.Hist.Counts) != 10 {
 		t.Errorf("bins 10, margin 0.5: %v … %v in %d bins, want 0 … 80 in 10", s.Hist.Lo, s.Hist.Hi, len(s.Hist.Counts))
 	}
+}
+
+// TestZeroSpreadIsNoted: equal values make every index infinite or undefined;
+// the report says why instead of printing ∞ as if it were a capability.
+func TestZeroSpreadIsNoted(t *testing.T) {
+	noise := []float64{25, 25, 25, 25, 25, 25}
+	r := stats.Compute(twoChannelRuns(noise), stats.Options{})
+	s := r.Results[len(r.Results)-1]
+	if s.SDOverall != 0 || s.SDWithin != 0 {
+		t.Fatalf("%s: sd %v within %v, want 0", s.Name, s.SDOverall, s.SDWithin)
+	}
+	for _, n := range r.Notes {
+		if strings.HasPrefix(n, s.Name+": a standard deviation is 0") {
+			return
+		}
+	}
+	t.Errorf("no note on %s's zero spread among %q", s.Name, r.Notes)
 }

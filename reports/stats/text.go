@@ -229,8 +229,8 @@ func textWithUnit(v, unit string) string {
 // textHistogram draws s.Hist, the values over the tolerance band and a
 // margin, as rows of bars (textHistRows at most), with the tolerance's limits
 // marked between the rows they separate and the values below and above the
-// band counted. When the band's histogram has few rows with values in them (a
-// capable process) s.DataHist follows, the values over their own range, so
+// band counted. When the band's histogram has its values in four bins or
+// fewer (crowded: a capable process) s.DataHist follows, the values over their own range, so
 // that their shape shows too.
 func textHistogram(w io.Writer, s ResultStats) {
 	h := s.Hist
@@ -239,8 +239,8 @@ func textHistogram(w io.Writer, s ResultStats) {
 		fmt.Fprintf(w, "  no histogram: below the middle %d, above %d\n", h.Under, h.Over)
 		return
 	}
-	filled := textHistRowsOf(w, h, s.Lower, s.Upper)
-	if filled <= 3 && len(s.DataHist.Counts) > 0 && s.N >= 2 {
+	textHistRowsOf(w, h, s.Lower, s.Upper)
+	if crowded(h) && len(s.DataHist.Counts) > 0 && s.N >= 2 {
 		fmt.Fprintln(w, "  the same values over their own range:")
 		textHistRowsOf(w, s.DataHist, s.Lower, s.Upper)
 	}
@@ -441,9 +441,7 @@ func textOutside(f float64) string {
 	switch {
 	case math.IsNaN(f):
 		return textDash
-	case f == 0:
-		return "0 ppm"
-	case f < 1e-9:
+	case f < 1e-9: // 0 too: a normal tail that underflowed is not nothing
 		return "< 0.001 ppm"
 	case f < 1e-3:
 		return units.FormatSig(f*1e6, 2) + " ppm"

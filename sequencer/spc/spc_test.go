@@ -459,7 +459,7 @@ func TestSubgroupsByHand(t *testing.T) {
 	if !math.IsNaN(spreads.Points[1].Statistic) || !math.IsNaN(spreads.Points[1].UCL) {
 		t.Errorf("a group of one value has an s point %+v, want NaN", spreads.Points[1])
 	}
-	// Group 3 has s = 0, above its LCL: n = 9, c4 − 3√(1−c4²) = 0.9693 − 0.7385 > 0.
+	// Group 3 has s = 0, below its LCL (n = 9: 2·(c4 − 3√(1−c4²)) = 2·(0.9693 − 0.7377) > 0): a signal.
 	c9 := spc.C4(9)
 	near(t, "s LCL n=9", spreads.Points[2].LCL, 2*(c9-3*math.Sqrt(1-c9*c9)), 1e-12)
 	if len(spreads.Signals) != 1 || spreads.Signals[0].Index != 3 {

@@ -45,6 +45,10 @@ type Options struct {
 	// the station file as it is (sim:// on the simulated clock).
 	Bench   string
 	Ambient string // entered ambient temperature, e.g. "23.1 °C"; "" = not recorded
+	// Lot is the production lot in force when the shift starts ("" = none;
+	// sequencer.CheckLot): every unit records the lot in force, which the
+	// operator changes on the station screen.
+	Lot string
 	// Engineering runs files that were never released; certificates are marked
 	// and numbered apart.
 	Engineering bool
@@ -94,6 +98,8 @@ type Server struct {
 	closed  bool
 	// clearing: a clear of the fault lock is being recorded.
 	clearing bool
+	// changingLot: a change of the lot is being recorded; no unit starts.
+	changingLot bool
 	// stopStatus ends the status refresh; statusDone is closed when it has.
 	stopStatus context.CancelFunc
 	statusDone chan struct{}
@@ -134,8 +140,11 @@ func New(ctx context.Context, o Options) (_ *Server, err error) {
 	if err != nil {
 		return nil, fmt.Errorf("ambient: %w", err)
 	}
+	if err := sequencer.CheckLot(o.Lot); err != nil {
+		return nil, err
+	}
 	s.shift, err = shift.Open(ctx, shift.Options{StationPath: stationPath, SequencePath: o.SequencePath, Out: o.Out,
-		Software: o.Software, Conditions: cond, Engineering: o.Engineering, Console: o.Log})
+		Software: o.Software, Conditions: cond, Engineering: o.Engineering, Lot: o.Lot, Console: o.Log})
 	if err != nil {
 		return nil, err
 	}
@@ -159,6 +168,7 @@ func New(ctx context.Context, o Options) (_ *Server, err error) {
 		simulated = simulated || strings.HasPrefix(in.Address, "sim://")
 	}
 	s.st = newState(s.shift, simulated)
+	s.st.Lot = o.Lot
 	s.refreshStatus(ctx)
 	if _, err := s.shift.OpenEngine(ctx, "", ""); errors.Is(err, sequencer.ErrCalibrationExpired) {
 		// Not a fault a note clears: the calibration status blocks every
@@ -306,4 +316,7 @@ var (
 	errBusy    = errors.New("a unit is running: wait for its verdict or press STOP")
 	errLocked  = errors.New("the station is locked by a fault: clear it first")
 	errBlocked = errors.New("the station cannot start a unit")
+	// errLotChanging: a change of the lot is being recorded; the next unit
+	// waits for it, so that it records the lot the screen shows.
+	errLotChanging = errors.New("the lot is being changed: scan again in a moment")
 )

@@ -429,7 +429,8 @@ func TestConsoleShiftInBrowser(t *testing.T) {
 	t.Cleanup(func() { keepShots(t, shotDir) })
 
 	d := writeDemo(t, withTimeouts)
-	srv, hs := startConsole(t, d, console.Options{Bench: "tcp"})
+	const firstLot, nextLot = "L2026-48A", "L2026-49B"
+	srv, hs := startConsole(t, d, console.Options{Bench: "tcp", Lot: firstLot})
 	bench := srv.Bench()
 	if bench == nil {
 		t.Fatal("console.Options{Bench: \"tcp\"}: Bench() is nil")
@@ -504,9 +505,50 @@ func TestConsoleShiftInBrowser(t *testing.T) {
 		if rec.Operator != opName {
 			t.Errorf("the record's operator is %q, want the signed-in %q", rec.Operator, opName)
 		}
+		if rec.Lot != firstLot || p.text("#lot-now") != firstLot {
+			t.Errorf("the record's lot is %q, the screen's %q; want the starting lot %s", rec.Lot, p.text("#lot-now"), firstLot)
+		}
 		if n := eval[int](p, `document.querySelectorAll('#plot circle.pt').length`); n < 5 {
 			t.Errorf("the plot holds %d points after a whole unit", n)
 		}
+	})
+
+	t.Run("lot changed before the next unit", func(t *testing.T) {
+		p.t = t
+		before := runs()
+		// A unit's serial scanned into the lot field is no lot.
+		p.do(10*time.Second, "scan a serial into the lot field", chromedp.SendKeys(chromedp.ID("lot"), "BRX-00005\n"))
+		p.waitFor(10*time.Second, "the refusal of a serial as the lot", `vis('#lot-error') && txt('#lot-error').includes('serial')`)
+		if got := p.text("#lot-now"); got != firstLot {
+			t.Errorf("after a refused lot the screen shows lot %q, want %s", got, firstLot)
+		}
+		// The refused text is selected: the lot traveller's scan replaces it.
+		p.do(10*time.Second, "scan the lot traveller", chromedp.SendKeys(chromedp.ID("lot"), nextLot+"\n"))
+		p.waitFor(10*time.Second, "the new lot on screen and the focus back on the scan field",
+			fmt.Sprintf(`txt('#lot-now') === %q && !vis('#lot-error') && document.activeElement && document.activeElement.id === 'scan'`, nextLot))
+		trail, err := led.AuditTrail(context.Background())
+		if err != nil {
+			t.Fatal(err)
+		}
+		found := false
+		for _, e := range trail {
+			found = found || (e.Actor == opName && strings.Contains(e.Detail, firstLot) && strings.Contains(e.Detail, nextLot))
+		}
+		if !found {
+			t.Errorf("no audit-trail entry by %s records the change from %s to %s", opName, firstLot, nextLot)
+		}
+		// The lot traveller scanned into the serial field by mistake runs
+		// nothing and says where lots go.
+		p.scan(nextLot)
+		p.waitFor(10*time.Second, "the refusal of a lot id as a serial", `vis('#scan-error') && txt('#scan-error') !== ''`)
+		if msg := p.text("#scan-error"); !strings.Contains(msg, "Lot field") {
+			t.Errorf("a lot id scanned as a serial says %q; want it to point to the Lot field", msg)
+		}
+		time.Sleep(300 * time.Millisecond)
+		if n := runs(); n != before {
+			t.Errorf("the lot changes and a lot scanned as a serial recorded %d run(s)", n-before)
+		}
+		p.checkTargets("lot")
 	})
 
 	t.Run("defective unit fails with the plain reason", func(t *testing.T) {
@@ -541,9 +583,12 @@ func TestConsoleShiftInBrowser(t *testing.T) {
 		if st := eval[string](p, `(document.querySelector('details#statement') || {}).textContent || ''`); !strings.Contains(st, "tolerance") {
 			t.Errorf("the statement does not hold the decision rule's text: %q", st)
 		}
-		run, _ := lastRun(t, led, "BRX-00009")
+		run, rec := lastRun(t, led, "BRX-00009")
 		if run.Verdict != sequencer.Fail || cert == "" || run.Certificate != cert {
 			t.Errorf("the ledger's run of BRX-00009: %s %q; the page shows FAIL %q", run.Verdict, run.Certificate, cert)
+		}
+		if rec.Lot != nextLot {
+			t.Errorf("BRX-00009, run after the lot was changed to %s, recorded lot %q", nextLot, rec.Lot)
 		}
 	})
 
@@ -583,6 +628,10 @@ func TestConsoleShiftInBrowser(t *testing.T) {
 		p.waitFor(10*time.Second, "the retest question for BRX-00001", `vis('#retest')`)
 		if e := p.text("#retest-earlier"); !strings.Contains(e, firstCert) {
 			t.Errorf("the retest question names %q, not the earlier certificate %s", e, firstCert)
+		}
+		// BRX-00001 was tested in the first lot; the retest records the next.
+		if l := p.text("#retest-lot"); !strings.Contains(l, firstLot) || !strings.Contains(l, nextLot) {
+			t.Errorf("the retest question says %q of the lots; want it to name the earlier %s and the lot in force %s", l, firstLot, nextLot)
 		}
 		p.shot("retest")
 		p.checkTargets("retest")
@@ -715,6 +764,17 @@ func TestConsoleShiftInBrowser(t *testing.T) {
 		}
 		if !strings.Contains(p.text("#recent"), "BRX-00009") {
 			t.Error("the last units list does not show BRX-00009")
+		}
+		// Units of two lots: each row says its lot.
+		rowLot := func(serial string) string {
+			return eval[string](p, fmt.Sprintf(`(() => { const tr = [...document.querySelectorAll('#recent tbody tr')].find(r => r.innerText.includes(%q));
+				const l = tr && tr.querySelector('.row-lot'); return l ? l.innerText.trim() : ''; })()`, serial))
+		}
+		if got := rowLot("BRX-00009"); got != "lot "+nextLot {
+			t.Errorf("the last units list gives BRX-00009's lot as %q, want \"lot %s\"", got, nextLot)
+		}
+		if !strings.Contains(p.text("#recent"), "lot "+firstLot) {
+			t.Errorf("the last units list does not show the first lot %s of BRX-00001", firstLot)
 		}
 	})
 

@@ -162,8 +162,8 @@ func TestConsoleRefusesRequestsThatDoNotComeFromASignedInPage(t *testing.T) {
 	if code, body := w.post("/scan", url.Values{"serial": {"BRX-00001"}, "csrf": {token}}); !refused(code) {
 		t.Errorf("POST /scan without a signed-in session: %d, want 403\n%.400s", code, body)
 	}
-	for _, p := range []string{"/stop", "/clear", "/review/TL1-000001"} {
-		if code, _ := w.post(p, url.Values{"csrf": {token}, "note": {"x"}, "decision": {"accept"}, "reason": {"x"}}); !refused(code) {
+	for _, p := range []string{"/stop", "/clear", "/lot", "/review/TL1-000001"} {
+		if code, _ := w.post(p, url.Values{"csrf": {token}, "note": {"x"}, "decision": {"accept"}, "reason": {"x"}, "lot": {"L1"}}); !refused(code) {
 			t.Errorf("POST %s without a signed-in session: %d, want 403", p, code)
 		}
 	}
@@ -290,7 +290,7 @@ func TestConsoleRefusesRequestsThatDoNotComeFromASignedInPage(t *testing.T) {
 		}
 	}
 	for _, r := range []struct{ method, path string }{
-		{"GET", "/scan"}, {"GET", "/signin"}, {"GET", "/signout"}, {"GET", "/stop"}, {"GET", "/clear"},
+		{"GET", "/scan"}, {"GET", "/signin"}, {"GET", "/signout"}, {"GET", "/stop"}, {"GET", "/clear"}, {"GET", "/lot"},
 		{"GET", "/review/TL1-000001"}, {"PUT", "/"}, {"DELETE", "/"}, {"POST", "/"}, {"POST", "/events"},
 		{"POST", "/state"}, {"DELETE", "/scan"},
 	} {

@@ -468,8 +468,12 @@ func TestFaultWhileReopening(t *testing.T) {
 	if s := c.settled(60 * time.Second); s.Phase != phaseLocked {
 		t.Fatalf("after a silent meter: phase %s", s.Phase)
 	}
-	// Cleared without fixing it: the next unit cannot open the meter.
+	// Cleared without fixing it: the next unit cannot open the meter. It is
+	// recorded in the lot in force, a new one.
 	c.post("/clear", url.Values{"note": {"looked, found nothing"}})
+	if code, a := c.post("/lot", url.Values{"lot": {"L2026-50C"}}); code != http.StatusOK {
+		t.Fatalf("lot change: %d %+v", code, a)
+	}
 	c.post("/scan", url.Values{"serial": {"BRX-00004"}})
 	s := c.settled(60 * time.Second)
 	if s.Phase != phaseLocked || s.Fault == nil {
@@ -488,6 +492,9 @@ func TestFaultWhileReopening(t *testing.T) {
 	}
 	if rec.Operator != "Ada Quillfeather" {
 		t.Errorf("the FAULT before the unit started is recorded under %q, want the signed-in operator", rec.Operator)
+	}
+	if rec.Lot != "L2026-50C" {
+		t.Errorf("the FAULT before the unit started is recorded in lot %q, want the lot in force L2026-50C", rec.Lot)
 	}
 
 	// A meter that answers slowly: STOP while the instruments open.
@@ -706,5 +713,149 @@ func TestPanicIsAPlain500(t *testing.T) {
 	body := rec.Body.String()
 	if rec.Code != http.StatusInternalServerError || strings.Contains(body, "boom") || strings.Contains(body, "goroutine") || strings.Contains(body, ".go:") {
 		t.Fatalf("a panic answered %d %q; want a plain 500", rec.Code, body)
+	}
+}
+
+// TestLotChangedOnScreen: the shift starts in Options.Lot; an operator changes
+// the lot (CSRF and Origin as every POST, the operate right, CheckLot's rule,
+// not a serial, not while a unit runs), the change is in the audit trail under
+// their name, and every unit records the lot in force when it started. A lot
+// scanned into the serial field runs nothing and says where lots go.
+func TestLotChangedOnScreen(t *testing.T) {
+	dir, station, sequence := unitDemo(t, func(s string) string {
+		return strings.Replace(s, "may: [operate, review]", "may: [review]", 1)
+	})
+	ctx := context.Background()
+	srv, err := New(ctx, Options{StationPath: station, SequencePath: sequence, Out: filepath.Join(dir, "out"), Engineering: true, Lot: "L2026-48A"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer srv.Close()
+	led := srv.shift.Ledger
+	c := newClient(t, srv.Handler())
+	if code, _ := c.post("/lot", url.Values{"lot": {"L2026-49B"}}); code != http.StatusForbidden {
+		t.Fatalf("a lot change before sign-in answered %d, want 403", code)
+	}
+	c.signIn("B-1042", "Ada Quillfeather")
+	if s := c.state(); s.Lot != "L2026-48A" {
+		t.Fatalf("the lot in force is %q, want the starting L2026-48A", s.Lot)
+	}
+	if !strings.Contains(c.page(), `data-lot="L2026-48A">L2026-48A<`) {
+		t.Error("the station screen does not show the lot in force")
+	}
+	recordOf := func(serial string) *sequencer.Record {
+		t.Helper()
+		runs, err := led.Runs(ctx, serial)
+		if err != nil || len(runs) == 0 {
+			t.Fatalf("runs of %s: %v %v", serial, runs, err)
+		}
+		rec, err := led.Run(ctx, runs[0].RunID)
+		if err != nil {
+			t.Fatal(err)
+		}
+		return rec
+	}
+	c.post("/scan", url.Values{"serial": {"BRX-00001"}})
+	c.settled(30 * time.Second)
+	if rec := recordOf("BRX-00001"); rec.Lot != "L2026-48A" {
+		t.Fatalf("BRX-00001 recorded lot %q, want L2026-48A", rec.Lot)
+	}
+
+	// Every POST's rules: the session's token and the console's own Origin.
+	token := c.csrf
+	c.csrf = "wrong"
+	if code, _ := c.post("/lot", url.Values{"lot": {"L2026-49B"}}); code != http.StatusForbidden {
+		t.Errorf("a lot change with a wrong CSRF token answered %d, want 403", code)
+	}
+	c.csrf = token
+	req, _ := http.NewRequest("POST", c.base+"/lot", strings.NewReader(url.Values{"lot": {"L2026-49B"}, "csrf": {token}}.Encode()))
+	req.Header.Set("Content-Type", "application/x-www-form-urlencoded")
+	req.Header.Set("Origin", "http://evil.example")
+	if res, err := c.http.Do(req); err != nil || res.StatusCode != http.StatusForbidden {
+		t.Errorf("a lot change from another Origin: %v %v, want 403", res.Status, err)
+	} else {
+		res.Body.Close()
+	}
+
+	// CheckLot's rule, with its message; a serial is not a lot.
+	for _, bad := range []struct{ lot, says string }{
+		{"", "lot traveller"},
+		{"L2026\a49B", "control characters"},
+		{strings.Repeat("L", sequencer.MaxLotLen+1), "at most 64"},
+		{"BRX-00007", "serial"},
+	} {
+		code, a := c.post("/lot", url.Values{"lot": {bad.lot}})
+		if code != http.StatusBadRequest || !strings.Contains(a.Error, bad.says) || !strings.Contains(a.Error, "The lot is still L2026-48A.") {
+			t.Errorf("lot %q: %d %q; want 400 saying %q and that the lot is still L2026-48A", bad.lot, code, a.Error, bad.says)
+		}
+	}
+	// Not while a unit runs: it records the lot it started in.
+	srv.mu.Lock()
+	srv.st.Phase = phaseRunning
+	srv.mu.Unlock()
+	code, a := c.post("/lot", url.Values{"lot": {"L2026-49B"}})
+	srv.mu.Lock()
+	srv.st.Phase = phaseVerdict
+	srv.mu.Unlock()
+	if code != http.StatusConflict || !strings.Contains(a.Error, "running") {
+		t.Errorf("a lot change while a unit runs: %d %q; want 409", code, a.Error)
+	}
+	if s := c.state(); s.Lot != "L2026-48A" {
+		t.Fatalf("after refused changes the lot is %q", s.Lot)
+	}
+
+	// Only a person with the operate right.
+	rv := newClient(t, srv.Handler())
+	rv.signIn("B-2077", "Tobias Wrenhollow")
+	if code, _ := rv.post("/lot", url.Values{"lot": {"L2026-49B"}}); code != http.StatusForbidden {
+		t.Errorf("a reviewer's lot change answered %d, want 403", code)
+	}
+
+	if code, a := c.post("/lot", url.Values{"lot": {" L2026-49B "}}); code != http.StatusOK || !a.OK {
+		t.Fatalf("lot change: %d %+v", code, a)
+	}
+	if s := c.state(); s.Lot != "L2026-49B" {
+		t.Fatalf("the lot in force is %q after the change, want L2026-49B", s.Lot)
+	}
+	trail, err := led.AuditTrail(ctx)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var changes []string
+	for _, e := range trail {
+		if e.Action == auditLot {
+			changes = append(changes, e.Actor+": "+e.Detail)
+		}
+	}
+	if want := "Ada Quillfeather: from lot L2026-48A to lot L2026-49B"; len(changes) != 1 || changes[0] != want {
+		t.Errorf("audit trail of lot changes %q, want [%q]", changes, want)
+	}
+
+	// The lot traveller scanned into the serial field by mistake.
+	before, _ := led.RecentRuns(ctx, 0)
+	code, a = c.post("/scan", url.Values{"serial": {"L2026-49B"}})
+	if code != http.StatusBadRequest || !strings.Contains(a.Error, "Nothing was run") || !strings.Contains(a.Error, "use the Lot field") {
+		t.Errorf("a lot id scanned as a serial: %d %q; want 400, nothing run, pointing to the Lot field", code, a.Error)
+	}
+	if after, _ := led.RecentRuns(ctx, 0); len(after) != len(before) {
+		t.Fatal("a lot id scanned as a serial recorded a run")
+	}
+
+	c.post("/scan", url.Values{"serial": {"BRX-00002"}})
+	s := c.settled(30 * time.Second)
+	if rec := recordOf("BRX-00002"); rec.Lot != "L2026-49B" {
+		t.Fatalf("BRX-00002 recorded lot %q, want the lot in force L2026-49B", rec.Lot)
+	}
+	if len(s.Recent) != 2 || s.Recent[0].Lot != "L2026-49B" || s.Recent[1].Lot != "L2026-48A" {
+		t.Errorf("the last units %+v; want each with the lot it recorded", s.Recent)
+	}
+	// A unit of the earlier lot scanned again: the question says which lot
+	// the retest records.
+	code, a = c.post("/scan", url.Values{"serial": {"BRX-00001"}})
+	if want := "It was tested in lot L2026-48A; the retest records the lot in force, L2026-49B."; code != http.StatusOK || a.Retest == nil || a.Retest.Lot != want {
+		t.Errorf("rescan of BRX-00001 from the earlier lot: %d %+v; want the question to say %q", code, a.Retest, want)
+	}
+	if code, a = c.post("/scan", url.Values{"serial": {"BRX-00002"}}); a.Retest == nil || a.Retest.Lot != "" {
+		t.Errorf("rescan of BRX-00002 in the lot in force: %d %+v; want nothing said of the lot", code, a.Retest)
 	}
 }

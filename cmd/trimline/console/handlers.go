@@ -38,6 +38,7 @@ func (s *Server) routes() *http.ServeMux {
 	m.HandleFunc("POST /scan", s.post(true, s.scan))
 	m.HandleFunc("POST /stop", s.post(true, s.stop))
 	m.HandleFunc("POST /clear", s.post(true, s.clear))
+	m.HandleFunc("POST /lot", s.post(true, s.setLot))
 	m.HandleFunc("POST /review/{cert}", s.post(true, s.review))
 	return m
 }
@@ -116,6 +117,7 @@ func (s *Server) post(needsPerson bool, h func(http.ResponseWriter, *http.Reques
 // pageData is what the page template shows.
 type pageData struct {
 	Station  stationView
+	Lot      string // the production lot in force, "" = none
 	CSRF     string
 	Person   string
 	Operate  bool
@@ -146,7 +148,7 @@ func (s *Server) index(w http.ResponseWriter, r *http.Request) {
 		se = s.sessions.start(w, nil, nil)
 	}
 	s.mu.Lock()
-	d := pageData{Station: s.st.Station, CSRF: se.csrf, Person: se.name, Operate: se.operate,
+	d := pageData{Station: s.st.Station, Lot: s.st.Lot, CSRF: se.csrf, Person: se.name, Operate: se.operate,
 		// An engineering console decides on no production unit.
 		Review: se.review && !s.shift.Issuer.Engineering, Loopback: s.loopback, AskPassphrase: s.askPassphrase()}
 	s.mu.Unlock()
@@ -182,6 +184,9 @@ type retestAsk struct {
 	Serial  string `json:"serial"`
 	Earlier string `json:"earlier"` // "certificate TL1-000002 (FAIL, 2026-12-02 15:04)", station time
 	Attempt string `json:"attempt"` // "This is attempt 2 of 3.", "" when the sequence sets no limit
+	// Lot: "It was tested in lot L2026-48A; the retest records the lot in
+	// force, L2026-49B.", "" when the lots are the same.
+	Lot string `json:"lot"`
 }
 
 func (s *Server) reply(w http.ResponseWriter, r *http.Request, code int, a answer) {
@@ -196,7 +201,7 @@ func (s *Server) reply(w http.ResponseWriter, r *http.Request, code int, a answe
 		se := s.sessions.get(r)
 		d := pageData{Error: a.Error, Loopback: s.loopback, AskPassphrase: s.askPassphrase()}
 		s.mu.Lock()
-		d.Station = s.st.Station
+		d.Station, d.Lot = s.st.Station, s.st.Lot
 		s.mu.Unlock()
 		if se != nil {
 			d.CSRF, d.Person, d.Operate, d.Review = se.csrf, se.name, se.operate, se.review

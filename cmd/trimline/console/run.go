@@ -30,6 +30,11 @@ func (s *Server) scan(w http.ResponseWriter, r *http.Request, se *session) {
 	if err := sh.Sequence.CheckSerial(serial); err != nil {
 		var se *sequencer.SerialError
 		if errors.As(err, &se) {
+			if s.lotLike(serial) {
+				// A lot traveller scanned into the wrong field.
+				refuse(http.StatusBadRequest, serial+" looks like a lot id, not a "+sh.Sequence.Product+" serial. Nothing was run. To change the lot, use the Lot field.")
+				return
+			}
 			refuse(http.StatusBadRequest, "Not a "+sh.Sequence.Product+" serial: "+se.Rule+". Nothing was run.")
 			return
 		}
@@ -88,6 +93,7 @@ func (s *Server) scan(w http.ResponseWriter, r *http.Request, se *session) {
 		if max > 0 {
 			ask.Attempt = fmt.Sprintf("This is attempt %d of %d.", n+1, max)
 		}
+		ask.Lot = s.retestLot(ctx, earlier.RunID)
 		s.reply(w, r, http.StatusOK, answer{Retest: ask})
 		return
 	}
@@ -109,6 +115,8 @@ func (s *Server) cannotStart() string {
 		return errBusy.Error()
 	case s.st.Phase == phaseLocked:
 		return errLocked.Error()
+	case s.changingLot:
+		return errLotChanging.Error()
 	case s.st.Blocked:
 		var why []string
 		for _, it := range s.st.Status {
@@ -128,6 +136,12 @@ func (s *Server) start(serial, operator string, retest bool, attempt int) error 
 		s.mu.Unlock()
 		return errBusy
 	}
+	if s.changingLot {
+		s.mu.Unlock()
+		return errLotChanging
+	}
+	// The unit records the lot in force when it starts.
+	lot := s.st.Lot
 	ctx, cancel := context.WithCancelCause(context.Background())
 	done := make(chan struct{})
 	s.cancel = cancel
@@ -140,18 +154,25 @@ func (s *Server) start(serial, operator string, retest bool, attempt int) error 
 	go func() {
 		defer close(done)
 		defer cancel(nil)
-		s.runUnit(ctx, serial, operator, attempt)
+		s.runUnit(ctx, serial, operator, lot, attempt)
 	}()
 	return nil
 }
 
-// runUnit runs one unit (opening the instruments first when a fault closed
-// them) and shows its verdict.
-func (s *Server) runUnit(ctx context.Context, serial, operator string, attempt int) {
+// runUnit runs one unit in lot (opening the instruments first when a fault
+// closed them) and shows its verdict.
+func (s *Server) runUnit(ctx context.Context, serial, operator, lot string, attempt int) {
 	sh := s.shift
 	began := time.Now()
 	s.issuing.Lock()
 	defer s.issuing.Unlock()
+	if lot != "" {
+		// The shift's lot too: a unit whose start fails in OpenEngine is
+		// recorded in it. (Checked when it was set: New, setLot.)
+		if err := sh.SetLot(lot); err != nil {
+			sh.Log.Error().Err(err).Msg("console: lot")
+		}
+	}
 	if sh.Engine == nil {
 		// The first unit after a fault (or a bench that did not open)
 		// re-identifies every instrument.
@@ -167,7 +188,7 @@ func (s *Server) runUnit(ctx context.Context, serial, operator string, attempt i
 			return
 		}
 	}
-	rec, cert, err := sh.RunUnit(ctx, serial, sequencer.RunOptions{Operator: operator, Progress: s.progress})
+	rec, cert, err := sh.RunUnit(ctx, serial, sequencer.RunOptions{Operator: operator, Lot: lot, Progress: s.progress})
 	s.finish(rec, cert, time.Since(began), attempt, err)
 }
 

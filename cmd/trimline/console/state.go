@@ -34,6 +34,7 @@ type state struct {
 	Phase    string       `json:"phase"`
 	Status   []statusItem `json:"status"`
 	Blocked  bool         `json:"blocked"`
+	Lot      string       `json:"lot"` // the production lot in force, recorded by every unit started now; "" = none
 	Unit     *unitView    `json:"unit,omitempty"`
 	Verdict  *verdictView `json:"verdict,omitempty"`
 	Fault    *faultView   `json:"fault,omitempty"`
@@ -136,6 +137,7 @@ type recentRow struct {
 	CertURL  string `json:"cert_url"`
 	Operator string `json:"operator"`
 	Retest   bool   `json:"retest"`
+	Lot      string `json:"lot"` // the production lot the run recorded, "" = none
 }
 
 type reviewRow struct {
@@ -215,7 +217,7 @@ func (s *state) record(rec *sequencer.Record, cert, certURL string, wall time.Du
 		c.CycleTxt = fmt.Sprintf("%.1f s", c.CycleS)
 	}
 	row := recentRow{At: time.Now().Format("15:04"), Serial: rec.Serial, Verdict: string(rec.Verdict), Cert: cert,
-		CertURL: certURL, Operator: rec.Operator, Retest: rec.RetestOf != ""}
+		CertURL: certURL, Operator: rec.Operator, Retest: rec.RetestOf != "", Lot: rec.Lot}
 	s.Recent = append([]recentRow{row}, s.Recent...)
 	if len(s.Recent) > recentMax {
 		s.Recent = s.Recent[:recentMax]

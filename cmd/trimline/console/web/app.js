@@ -90,6 +90,8 @@
       text("retest-serial", a.retest.serial);
       text("retest-earlier", a.retest.earlier);
       text("retest-attempt", a.retest.attempt);
+      text("retest-lot", a.retest.lot);
+      show($("retest-lot"), !!a.retest.lot);
       show($("retest"), true);
       // The question holds the focus, not its Yes button: a barcode scan's
       // Enter must never answer it.
@@ -114,6 +116,53 @@
     scanError("Not retested. Scan the next unit.");
     refocus();
   });
+
+  // --- the production lot ---
+  // The lot in force is always shown beside the scan field. A new lot is
+  // scanned (or typed) into its own field and Enter: every unit started after
+  // it records it. A lot field left with the focus gives it back to the scan
+  // field after a while, so that the next serial is not scanned into it.
+  const lotField = $("lot");
+  const LOT_IDLE_MS = 20000;
+  let lotIdle = null;
+  function lotError(msg) {
+    text("lot-error", msg);
+    show($("lot-error"), !!msg);
+  }
+  function lotTouched() {
+    clearTimeout(lotIdle);
+    lotIdle = setTimeout(() => {
+      if (document.activeElement === lotField) { lotField.blur(); refocus(); }
+    }, LOT_IDLE_MS);
+  }
+  lotField.addEventListener("focus", lotTouched);
+  lotField.addEventListener("input", lotTouched);
+  $("lot-form").addEventListener("submit", async (ev) => {
+    ev.preventDefault();
+    const a = await post("/lot", { lot: lotField.value.trim() });
+    if (a.ok) {
+      lotField.value = "";
+      lotError("");
+      clearTimeout(lotIdle);
+      lotField.blur();
+      refocus();
+    } else {
+      lotError(a.error || "refused");
+      // A second scan replaces what was refused.
+      lotField.focus();
+      lotField.select();
+    }
+  });
+  function renderLot(s) {
+    const el = $("lot-now");
+    el.dataset.lot = s.lot || "";
+    el.textContent = s.lot || "none";
+    el.classList.toggle("none", !s.lot);
+    // Not while a unit runs: it records the lot it started in.
+    const off = document.body.dataset.operate !== "1" || s.phase === "running";
+    lotField.disabled = off;
+    $("lot-go").disabled = off;
+  }
 
   // --- stop, clear ---
   $("stop-form").addEventListener("submit", async (ev) => {
@@ -295,14 +344,29 @@
     return s;
   }
 
+  // The last units' lot: in the heading when they share one, else under each
+  // serial.
   function renderRecent(rows) {
     const tb = document.querySelector("#recent tbody");
     tb.replaceChildren();
+    const lots = new Set((rows || []).map((r) => r.lot || ""));
+    const differ = lots.size > 1;
+    const one = !differ && lots.size === 1 ? [...lots][0] : "";
+    text("recent-lot", one ? " \u00b7 lot " + one : "");
     for (const r of rows || []) {
       const tr = document.createElement("tr");
       tr.dataset.verdict = r.verdict;
+      tr.dataset.lot = r.lot || "";
       cell(tr, r.at);
-      cell(tr, r.serial + (r.retest ? " ↻" : ""));
+      const sn = document.createElement("span");
+      sn.textContent = r.serial + (r.retest ? " ↻" : "");
+      const td = cell(tr, sn);
+      if (differ) {
+        const l = document.createElement("div");
+        l.className = "row-lot";
+        l.textContent = r.lot ? "lot " + r.lot : "no lot";
+        td.append(l);
+      }
       cell(tr, verdictTag(r.verdict));
       if (r.cert_url) {
         const a = document.createElement("a");
@@ -489,6 +553,7 @@
     renderCounters(s.counters);
     renderRecent(s.recent);
     renderReview(s.review);
+    renderLot(s);
     const running = s.phase === "running";
     show($("idle"), !running && !s.verdict);
     // Anything blocking: the idle panel says what, instead of "Ready".

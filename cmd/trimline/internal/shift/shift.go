@@ -281,14 +281,39 @@ func (s *Shift) FaultRecord(serial, operator string, err error) *sequencer.Recor
 	return sequencer.FaultRecord(cfg, serial, time.Now(), err)
 }
 
-// RunUnit runs serial on the open engine with o's operator and progress hook,
-// then records the run (and publishes its certificate). It returns the record
-// and the certificate number ("" for a run that gets none). The record is
-// stored even when ctx is cancelled: an aborted run is recorded as ABORTED.
-// Errors: no engine is open, or the ledger or the certificate failed.
+// Lot is the production lot the shift's runs record ("" = none): Options.Lot
+// until SetLot changes it.
+func (s *Shift) Lot() string { return s.cfg.Lot }
+
+// SetLot changes the production lot that the shift's runs record from now on:
+// RunUnit's (unless its options name their own) and the FAULT record of a unit
+// whose start fails in OpenEngine. lot follows sequencer.CheckLot and is not
+// "": a lot in force is replaced by the next one, never removed (a run of an
+// engine opened with a lot cannot record none). Not safe concurrently with
+// RunUnit or OpenEngine.
+func (s *Shift) SetLot(lot string) error {
+	if lot == "" {
+		return errors.New("no lot id given")
+	}
+	if err := sequencer.CheckLot(lot); err != nil {
+		return err
+	}
+	s.cfg.Lot = lot
+	return nil
+}
+
+// RunUnit runs serial on the open engine with o's operator, lot (else the
+// shift's: SetLot) and progress hook, then records the run (and publishes its
+// certificate). It returns the record and the certificate number ("" for a
+// run that gets none). The record is stored even when ctx is cancelled: an
+// aborted run is recorded as ABORTED. Errors: no engine is open, or the ledger
+// or the certificate failed.
 func (s *Shift) RunUnit(ctx context.Context, serial string, o sequencer.RunOptions) (*sequencer.Record, string, error) {
 	if s.Engine == nil {
 		return nil, "", errors.New("the instruments are not open")
+	}
+	if o.Lot == "" {
+		o.Lot = s.cfg.Lot
 	}
 	rec := s.Engine.RunWith(ctx, serial, o)
 	cert, err := s.Issuer.Record(context.WithoutCancel(ctx), rec)
