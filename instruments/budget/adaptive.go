@@ -51,8 +51,11 @@ type MCResult struct {
 // (s² = Σ(v_r − v̄)²/(h(h − 1)), §7.9.4 f) of the mean, the standard
 // uncertainty and both ends of the symmetric coverage interval is at most δ, the
 // numerical tolerance of u(y) from all h·M₀ values at Digits significant digits
-// (NumericalTolerance). The result is a deterministic function of the model and
-// o. It is not safe to share model's state between concurrent calls.
+// (NumericalTolerance). The rule estimates those standard deviations from as
+// few as two batches, so a run may stop with an end point a little more than δ
+// from its limit: over 100 seeds of JCGM 101 §9.2.2, 93 landed within δ of the
+// exact end, all 100 within 2δ. The result is a deterministic function of the
+// model and o. It is not safe to share model's state between concurrent calls.
 //
 // Errors wrap ErrMC: nq < 1, a coverage outside (0, 1), a negative Digits, a cap
 // below one batch, a model value that is not finite.

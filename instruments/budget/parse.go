@@ -16,6 +16,10 @@ import (
 // MaxDACBits is the widest trim DAC a budget may describe (as a sequence's dacs:).
 const MaxDACBits = 24
 
+// MaxPoints bounds transfer.points: each trial of a Monte Carlo evaluates the
+// unit's output at every point.
+const MaxPoints = 1000
+
 // MaxSources bounds the sources of one budget (each adds to the correlation
 // matrix factored at load).
 const MaxSources = 200
@@ -44,7 +48,7 @@ func Parse(name string, data []byte) (*Budget, error) {
 			dec = files.List{{File: name, Msg: err.Error()}}
 		}
 	}
-	p := &parser{doc: doc}
+	p := &parser{doc: doc, decodedOK: len(dec) == 0}
 	b := p.budget(&f)
 	errs := withDecodeErrs(dec, p.errs)
 	if len(errs) > 0 {
@@ -163,8 +167,9 @@ var distKeys = []string{"normal", "uniform", "triangular", "arcsine", "tolerance
 
 // parser collects the problems of one file.
 type parser struct {
-	doc  *files.Doc
-	errs files.List
+	doc       *files.Doc
+	errs      files.List
+	decodedOK bool // every value decoded (a value that did not is zero)
 }
 
 // bad records a problem at path: at the value there (a mapping at its first
@@ -285,14 +290,18 @@ func (p *parser) budget(f *budgetFile) *Budget {
 			b.LimitsFile = filepath.Join(filepath.Dir(p.doc.Name), b.LimitsFile)
 		}
 	}
+	n := len(p.errs)
 	if t := f.Budget.Temperature; t != nil {
 		b.Temperature = p.temperature(t)
 	}
 	p.transfer(f, b)
 	p.sources(f, b)
 	p.correlations(f, b)
+	// The correlations can be drawn together only when every source they need
+	// has loaded; a mistake elsewhere (a DAC, the product) does not stop the check.
+	drawable := len(p.errs) == n && p.decodedOK
 	p.trim(f, b)
-	if len(p.errs) == 0 {
+	if drawable {
 		lm, err := newLatent(b)
 		if ce, ok := err.(*correlationError); ok {
 			path := "$.correlations"
@@ -364,8 +373,8 @@ func (p *parser) transfer(f *budgetFile, b *Budget) {
 	}
 	t.Points = 11
 	if f.Transfer.Points != nil {
-		if t.Points = *f.Transfer.Points; t.Points < 2 || t.Points > 10000 {
-			p.bad(base+".points", "expected 2 to 10000 sweep points, found %d", t.Points)
+		if t.Points = *f.Transfer.Points; t.Points < 2 || t.Points > MaxPoints {
+			p.bad(base+".points", "expected 2 to %d sweep points, found %d", MaxPoints, t.Points)
 			t.Points = 11
 		}
 	}

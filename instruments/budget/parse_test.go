@@ -140,9 +140,16 @@ func TestParseErrors(t *testing.T) {
 			[]string{"b.yaml:13:30: expected the high rail above the low one"}, 0},
 		{"all at once", "  revision: C", "  revision: C\n  colour: blue",
 			nil, 0},
+		{"correlations beside a DAC mistake", "    coefficient: 0.3",
+			"    coefficient: 0.9\n  - {between: [reference, supply ripple pickup], coefficient: 0.9}\n  - {between: [output stage offset, supply ripple pickup], coefficient: -0.9}",
+			nil, 0},
 	} {
 		t.Run(c.name, func(t *testing.T) {
 			text := replaceLine(t, base, c.old, c.new)
+			if c.name == "correlations beside a DAC mistake" {
+				text = replaceLine(t, text, "bits: 12", "      bits: 40")
+				c.want = []string{"b.yaml:52:3: the correlations between sources are inconsistent", "b.yaml:61:13: expected 1 to 24 bits"}
+			}
 			if c.name == "all at once" {
 				text = replaceLine(t, text, "normal: 10 uV", "    normal: 10 ms")
 				text = replaceLine(t, text, "bits: 12", "      bits: 40")

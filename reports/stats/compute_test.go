@@ -396,14 +396,15 @@ func TestComputeCapability(t *testing.T) {
 			off.Hist.Lo, off.Hist.Hi, len(off.Hist.Counts), off.Hist.Under, off.Hist.Over, stats.DefaultBins)
 	}
 
-	// Over the data's own range: 1st percentile (rank ⌊0.01·5⌋ = 0) 10 uV, 99th
-	// (rank ⌊0.99·5⌋ = 4) 45 uV, a quarter of 35 uV either side; 400 uV over.
+	// Over the data's own range: Tukey's fences (e-Handbook §7.1.6) of 10, 12,
+	// 14, 20, 45, 400: Q1 12.5, Q3 38.75, IQ 26.25, fences −26.9 … 78.1, so
+	// 10 … 45 uV, a quarter of 35 uV either side; 400 uV over.
 	if h := off.DataHist; h.Lo != 1.25 || h.Hi != 53.75 || h.Over != 1 || h.Under != 0 || len(h.Counts) != stats.DefaultBins {
 		t.Errorf("post_offset data histogram %v … %v, under %d over %d, %d bins; want 1.25 … 53.75, 0, 1, %d",
 			h.Lo, h.Hi, h.Under, h.Over, len(h.Counts), stats.DefaultBins)
 	}
 
-	// One-sided: from the lowest value (the 1st percentile of 5) to the limit,
+	// One-sided: from the lowest value (the smallest within the fences) to the limit,
 	// 20 … 60 uV, widened by a quarter of 40 uV each side; 90 uV is overflow.
 	noise := resultNamed(t, r, "post_noise")
 	if noise.N != 5 || noise.Invalid != 1 || noise.Hist.Lo != 10 || noise.Hist.Hi != 70 || noise.Hist.Over != 1 || !math.IsNaN(noise.Cp) || math.IsNaN(noise.Cpk) {

@@ -60,10 +60,11 @@ func TestComputeChannelsAndPairs(t *testing.T) {
 }
 
 // One outlier far below a one-sided limit's data must not set the band: it is
-// underflow, and the band runs from the 1st percentile to the limit.
+// underflow, and the band runs from the smallest value within Tukey's fences
+// to the limit.
 func TestOneSidedBandIgnoresAnOutlier(t *testing.T) {
-	// However few the values: 12 (where a 1st percentile is the smallest value,
-	// the outlier itself), 60 and 200.
+	// However few the values: 12 (where a 1st percentile would be the smallest
+	// value, the outlier itself), 60 and 200.
 	for _, n := range []int{12, 60, 200} {
 		noise := make([]float64, n)
 		for i := range noise {

@@ -229,7 +229,7 @@ func textWithUnit(v, unit string) string {
 // textHistogram draws s.Hist, the values over the tolerance band and a
 // margin, as rows of bars (textHistRows at most), with the tolerance's limits
 // marked between the rows they separate and the values below and above the
-// band counted. When the band's histogram has its values in four bins or
+// band counted. When the band's histogram has nine in ten of its values in four bins or
 // fewer (crowded: a capable process) s.DataHist follows, the values over their own range, so
 // that their shape shows too.
 func textHistogram(w io.Writer, s ResultStats) {
