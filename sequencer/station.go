@@ -555,7 +555,9 @@ func InspectStation(name string, data []byte) (*Station, error) {
 // The file was in force when the run was made, so the rules added since a file may
 // have been recorded are not applied to it: a declared source_rating (caps are
 // then bounded by nothing but being finite and positive), the station id rule and
-// the interlock above the hazardous-live level. Everything else is checked as
+// the interlock above the hazardous-live level. Nor are the drivers' settings
+// checked: the station is never opened, and a setting may name a file that is not
+// stored with the run (a simulated DUT's budget). Everything else is checked as
 // ParseStation checks it. The station must not be run.
 func ParseRecordedStation(name string, data []byte) (*Station, error) {
 	st, err := parseStation(name, data, true)
@@ -669,7 +671,7 @@ func parseStation(name string, data []byte, recorded bool) (*Station, error) {
 				}
 			}
 		}
-		if in.Address != "" {
+		if in.Address != "" && !recorded {
 			spec := si.spec()
 			if err := instruments.Check([]instruments.Spec{spec}); err != nil {
 				var se *instruments.SettingError
