@@ -290,6 +290,10 @@ type Spec struct {
 	Templates map[string]string
 	// Timeout bounds each command/reply exchange; 0 means the driver's default.
 	Timeout time.Duration
+	// Dir is the folder of the file the spec was read from (the station file's), where
+	// a driver resolves a relative path in a setting that names a file; "" means the
+	// working directory.
+	Dir string
 }
 
 // Driver opens instruments of one address scheme.

@@ -203,6 +203,9 @@ type StationInstrument struct {
 	Settings  map[string]string
 	Templates map[string]string // command template overrides for this model
 	Timeout   time.Duration     // per command; 0 = the driver's default
+	// Dir is the station file's folder, where a setting that names a file (the
+	// simulated DUT's budget) is resolved (instruments.Spec.Dir).
+	Dir string
 }
 
 // SpecValidity is when and where an instrument's accuracy specs hold, as its
@@ -552,7 +555,9 @@ func InspectStation(name string, data []byte) (*Station, error) {
 // The file was in force when the run was made, so the rules added since a file may
 // have been recorded are not applied to it: a declared source_rating (caps are
 // then bounded by nothing but being finite and positive), the station id rule and
-// the interlock above the hazardous-live level. Everything else is checked as
+// the interlock above the hazardous-live level. Nor are the drivers' settings
+// checked: the station is never opened, and a setting may name a file that is not
+// stored with the run (a simulated DUT's budget). Everything else is checked as
 // ParseStation checks it. The station must not be run.
 func ParseRecordedStation(name string, data []byte) (*Station, error) {
 	st, err := parseStation(name, data, true)
@@ -626,7 +631,7 @@ func parseStation(name string, data []byte, recorded bool) (*Station, error) {
 		req(base+".address", in.Address)
 		req(base+".asset", in.Asset)
 		si := StationInstrument{Role: role, Kind: kind, Address: in.Address, Asset: in.Asset, Model: in.Model, Serial: in.Serial,
-			Settings: in.Settings, Templates: in.Templates}
+			Settings: in.Settings, Templates: in.Templates, Dir: filepath.Dir(name)}
 		if in.Timeout != nil {
 			if si.Timeout = in.Timeout.D(); si.Timeout <= 0 {
 				errs = append(errs, doc.Errorf(base+".timeout", "expected a positive timeout such as 2 s"))
@@ -666,7 +671,7 @@ func parseStation(name string, data []byte, recorded bool) (*Station, error) {
 				}
 			}
 		}
-		if in.Address != "" {
+		if in.Address != "" && !recorded {
 			spec := si.spec()
 			if err := instruments.Check([]instruments.Spec{spec}); err != nil {
 				var se *instruments.SettingError
@@ -753,7 +758,7 @@ func (s *Station) Specs(roles []string) []instruments.Spec {
 }
 
 func (si StationInstrument) spec() instruments.Spec {
-	return instruments.Spec{Role: si.Role, Kind: string(si.Kind), Address: si.Address, Settings: si.Settings, Templates: si.Templates, Timeout: si.Timeout}
+	return instruments.Spec{Role: si.Role, Kind: string(si.Kind), Address: si.Address, Settings: si.Settings, Templates: si.Templates, Timeout: si.Timeout, Dir: si.Dir}
 }
 
 func lastPart(path string) string {

@@ -102,7 +102,7 @@ func NewBench(specs []instruments.Spec) (*Bench, error) {
 		if err != nil {
 			return nil, err
 		}
-		c, err := parseSettings(m, s.Settings)
+		c, err := parseSettings(m, s.Settings, s.Dir)
 		if err != nil {
 			return nil, fmt.Errorf("%s: %w", s.Address, err)
 		}

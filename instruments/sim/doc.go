@@ -138,6 +138,17 @@
 // output-referred offset |Gnom|·vin_os + vout_os has σ 3 mV, 30 % of its variance
 // input-referred and 70 % output-referred.
 //
+// With budget: FILE (an error budget file, see package budget; a relative path is
+// resolved against the station file's folder) the units' spread is the budget's
+// instead: ge, vin_os, vout_os and s are a budget.Unit drawn from the unit's own
+// random stream after every other draw (so the DACs, defects, supply and drift are
+// those of the same unit without the budget), A is ideal (the budget's open-loop
+// gain is in its ge) and crossover_at is the budget's crossover level. The budget
+// must describe the card: its gain, output at zero input and output unit are the
+// card's, its input-referred values in V; it may have one crossover level and no
+// rail compression source (the rails are the card's), and offset_sigma,
+// gain_sigma, open_loop_gain and crossover_* may not be given beside it.
+//
 // D(c) is the analog value in LSB of an n-bit R-2R trim DAC (offset_bits, gain_bits;
 // 12) for the code c at its input: Σ bit_i·(2^i + e_i) with e_i ~ N(0, dnl) per unit
 // (dnl = 0.05 LSB). C(r) = D(c) − 2^(n−1) is the correction for register r: with
@@ -398,6 +409,7 @@
 //	             gain_sigma (0.4 %), noise (20 µV rms), tau (1 ms),
 //	             crossover_step (1.5 µV; 0 V disables), crossover_at (3 mV),
 //	             dnl (0.05 LSB; 0 disables), open_loop_gain (1e7; 0 = ideal),
+//	             budget (none; a budget file the spread is drawn from instead),
 //	             offset_lsb (12.2 µV; 61 nV with offset_trim: before),
 //	             gain_lsb (10 ppm), offset_trim (after|before, after),
 //	             defect (none|stuck_bit|noisy|open, drawn), defect_rate (2 %),

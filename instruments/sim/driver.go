@@ -66,6 +66,6 @@ func (Driver) CheckSettings(spec instruments.Spec) error {
 	if err != nil {
 		return err
 	}
-	_, err = parseSettings(m, spec.Settings)
+	_, err = parseSettings(m, spec.Settings, spec.Dir)
 	return err
 }

@@ -352,6 +352,14 @@ func Params(serial string, seed uint64, s DUTSettings) UnitParams {
 	for i := range p.GainDAC.Width() {
 		p.GainDAC.BitError[i] = gainErr[i] * s.DNL
 	}
+	if b := s.Budget; b != nil {
+		// The budget's draws come after every other, so the rest of the unit (DNL,
+		// defect, supply, drift) is the one the settings alone would make.
+		u := b.Draw(r)
+		p.OpenLoopGain = 0 // the budget's open-loop gain is in u.GainError
+		p.GainError, p.InputOffset, p.OutputOffset = u.GainError, u.InputOffset, u.OutputOffset
+		p.CrossoverAt, p.CrossoverStep = u.CrossoverAt, u.CrossoverStep
+	}
 	if s.GainError != nil {
 		p.GainError = *s.GainError
 	}

@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"maps"
 	"math"
+	"path/filepath"
 	"slices"
 	"strconv"
 	"strings"
@@ -11,6 +12,7 @@ import (
 	"unicode"
 
 	"trimline/instruments"
+	"trimline/instruments/budget"
 	"trimline/instruments/units"
 )
 
@@ -35,6 +37,15 @@ type DUTSettings struct {
 
 	Offset    *float64 // V, override: total output-referred offset, all output-referred; nil = drawn
 	GainError *float64 // fraction, override: per-unit gain error; nil = drawn
+
+	// Budget is the error budget the units are drawn from (the budget setting), or
+	// nil. With a budget a unit's gain error, input- and output-referred offsets and
+	// input-pair step come from Budget.Draw on the unit's own random stream, after
+	// every other draw, in place of OffsetSigma, InputOffsetShare, GainSigma,
+	// OpenLoopGain, CrossoverAt and CrossoverStep; the card's design, its DACs (and
+	// DNL), noise, defects and drift stay as the other settings say. Offset and
+	// GainError still override what it draws.
+	Budget *budget.Budget
 
 	// The card's design and trim port. Every zero value means the demo card's, so a
 	// DUTSettings that leaves these out describes the BRX-200. With Output
@@ -285,7 +296,7 @@ func DefaultDUTSettings() DUTSettings {
 // latency are accepted and ignored here). A bad key or value gives a
 // *instruments.SettingError.
 func ParseDUTSettings(settings map[string]string) (DUTSettings, error) {
-	c, err := parseSettings(modelDUT, settings)
+	c, err := parseSettings(modelDUT, settings, "")
 	if err != nil {
 		return DUTSettings{}, err
 	}
@@ -362,8 +373,9 @@ type config struct {
 	meter        meterConfig
 	dut          DUTSettings
 	chamber      chamberConfig
-	lidOpen      bool // dut: the fixture lid starts open
-	offsetLSBSet bool // dut: offset_lsb was given, so offset_trim does not change it
+	lidOpen      bool   // dut: the fixture lid starts open
+	offsetLSBSet bool   // dut: offset_lsb was given, so offset_trim does not change it
+	dir          string // folder a relative path in a setting is resolved against; "" = working directory
 }
 
 func defaultConfig(model string) config {
@@ -532,7 +544,7 @@ func (c *config) setters() map[string]setter {
 	case modelMeter:
 		own = c.meter.setters()
 	case modelDUT:
-		own = c.dut.setters(&c.offsetLSBSet)
+		own = c.dut.setters(&c.offsetLSBSet, c.dir)
 		own["lid"] = choiceOf(&c.lidOpen, "closed", "open")
 	case modelChamber:
 		own = c.chamber.setters()
@@ -542,9 +554,12 @@ func (c *config) setters() map[string]setter {
 }
 
 // parseSettings parses one spec's settings for model. Keys are visited in sorted
-// order so the first error reported is stable.
-func parseSettings(model string, settings map[string]string) (config, error) {
+// order so the first error reported is stable. dir is the folder a relative path
+// in a setting is resolved against (instruments.Spec.Dir; "" = the working
+// directory).
+func parseSettings(model string, settings map[string]string, dir string) (config, error) {
 	c := defaultConfig(model)
+	c.dir = dir
 	set := c.setters()
 	// The output kind and offset_trim decide the dimension of other keys: parse
 	// them first.
@@ -592,8 +607,75 @@ func parseSettings(model string, settings map[string]string) (config, error) {
 		if err := checkCard(c.dut, settings); err != nil {
 			return c, err
 		}
+		if err := checkBudget(c.dut, settings); err != nil {
+			return c, err
+		}
 	}
 	return c, nil
+}
+
+// budgetOf sets the budget the units are drawn from: the budget file at the path
+// given, relative to dir when not absolute.
+func budgetOf(p **budget.Budget, dir string) setter {
+	return func(k, val string) error {
+		path := strings.TrimSpace(val)
+		if path == "" {
+			return settingErr(k, "expected the path of a budget file (relative to the station file)")
+		}
+		if !filepath.IsAbs(path) && dir != "" {
+			path = filepath.Join(dir, path)
+		}
+		b, err := budget.Load(path)
+		if err != nil {
+			return settingErr(k, "%v", err)
+		}
+		*p = b
+		return nil
+	}
+}
+
+// budgetReplaces are the settings a budget decides instead.
+var budgetReplaces = []string{"offset_sigma", "gain_sigma", "open_loop_gain", "crossover_step", "crossover_at"}
+
+// checkBudget checks that the budget of s, if any, describes the card the other
+// settings describe: the same nominal gain, output at zero input and output unit,
+// an input-referred budget in volts, no rail compression (the rails are the
+// card's), and none of the settings the budget replaces given beside it. given is
+// the settings map.
+func checkBudget(s DUTSettings, given map[string]string) error {
+	b := s.Budget
+	if b == nil {
+		return nil
+	}
+	for _, k := range budgetReplaces {
+		if _, ok := given[k]; ok {
+			return settingErr(k, "the budget file %s decides the units' spread: remove %s or budget", b.Path, k)
+		}
+	}
+	c := s.card()
+	u := "V"
+	if c.output == OutputCurrent {
+		u = "A"
+	}
+	same := func(a, b float64) bool { return math.Abs(a-b) <= 1e-9*math.Max(math.Abs(a), math.Abs(b)) }
+	t := b.Transfer
+	switch {
+	case t.OutputUnit != u:
+		return settingErr("budget", "%s: the budget's output is in %s, the card's in %s", b.Path, t.OutputUnit, u)
+	case t.InputUnit != "V":
+		return settingErr("budget", "%s: the budget's input is in %s; the simulator draws input-referred offsets in V at the amplifier's input", b.Path, t.InputUnit)
+	case !same(t.Gain, c.gain):
+		return settingErr("budget", "%s: the budget's gain is %g, the card's %g (gain)", b.Path, t.Gain, c.gain)
+	case !same(t.OutputAtZero, c.outputAtZero):
+		return settingErr("budget", "%s: the budget's output at zero input is %s, the card's %s (output_at_zero)",
+			b.Path, units.Format(t.OutputAtZero, u, 4), units.Format(c.outputAtZero, u, 4))
+	}
+	for _, src := range b.Sources {
+		if src.Acts == budget.ActsRailCompression {
+			return settingErr("budget", "%s:%d:%d: source %q: the simulator has no per-unit rail compression (its rails are the card's)", b.Path, src.Line, src.Col, src.Name)
+		}
+	}
+	return nil
 }
 
 // checkCard checks what no single key can: the rails leave room for both knees, and
@@ -754,8 +836,8 @@ func commandOf(p *string) setter {
 }
 
 // setters returns the setters of the DUT's own keys; offset_lsb also sets
-// *offsetLSBSet.
-func (s *DUTSettings) setters(offsetLSBSet *bool) map[string]setter {
+// *offsetLSBSet, and budget resolves a relative path against dir.
+func (s *DUTSettings) setters(offsetLSBSet *bool, dir string) map[string]setter {
 	// out is the dimension of the card's output-referred values: A for a current
 	// output, V otherwise. parseSettings sets output (and offset_trim) before the
 	// other keys, so it is known when they are parsed.
@@ -772,6 +854,7 @@ func (s *DUTSettings) setters(offsetLSBSet *bool) map[string]setter {
 		"offset":         outSetter(func(d units.Dim) setter { return overrideOf(&s.Offset, d) }),
 		"gain_error":     overrideOf(&s.GainError, units.Ratio),
 		"offset_sigma":   outSetter(func(d units.Dim) setter { return nonNegativeOf(&s.OffsetSigma, d) }),
+		"budget":         budgetOf(&s.Budget, dir),
 		"gain_sigma":     nonNegativeOf(&s.GainSigma, units.Ratio),
 		"noise":          outSetter(func(d units.Dim) setter { return nonNegativeOf(&s.Noise, d) }),
 		"tau":            nonNegativeOf(&s.Tau, units.Second),
