@@ -2,7 +2,9 @@ package main
 
 import (
 	"context"
+	"errors"
 	"fmt"
+	"io/fs"
 
 	"trimline/instruments/budget"
 	"trimline/instruments/files"
@@ -13,7 +15,7 @@ import (
 
 func newPlanCmd() *command {
 	c := &command{
-		UsageLine: "trimline plan BUDGET.yaml [--json] [--pdf FILE] [--target-yield 99.5 %] [--seed N]",
+		UsageLine: "trimline plan BUDGET.yaml [--json] [--pdf FILE] [--target-yield 99.5 %] [--seed N] [--against LEDGER]",
 		Short:     "from a product's error budget to trim codes, saturation, residuals, yield and DAC sizing",
 		Long: `Reads the error budget BUDGET.yaml (README: Planning a trim) and draws units from it
 by Monte Carlo, with the adaptive stopping rule of JCGM 101:2008 §7.9 on the
@@ -33,6 +35,16 @@ results the plan predicts; the others are listed), with its standard error
 bits and then the smallest range (2^bits·LSB) for which the result it trims passes
 in that fraction of units.
 
+--against LEDGER compares the predictions with what the stations of a ledger
+measured on the budget's product (each unit's latest attempt, as trimline stats
+counts them): pre-trim offset and gain error, each DAC's codes, post-trim
+offset and gain error, per quantity a quantile table and the two-sample
+Kolmogorov–Smirnov test (with the SD ratio's F test and Welch's test of the
+means), a sentence that says which quantity disagrees and the sources with the
+largest shares in it; then the yield and each DAC's saturation against the
+counts measured (exact binomial test). A ledger that does not exist is an
+error; no ledger is made.
+
 The same --seed gives the same report. --pdf also writes the report with
 histograms; --json writes one object of kind "plan" (README: Output for scripts).`,
 	}
@@ -40,6 +52,7 @@ histograms; --json writes one object of kind "plan" (README: Output for scripts)
 	pdfPath := c.Flag.String("pdf", "", "also write the plan with histograms to this PDF `file`")
 	target := c.Flag.String("target-yield", "99.5 %", "the `yield` the recommendation must meet, as a percentage")
 	seed := c.Flag.Uint64("seed", 1, "`seed` of the random stream")
+	against := c.Flag.String("against", "", "compare the predictions with what the stations of this ledger `file` measured")
 	c.Run = func(ctx context.Context, e *env, args []string) error {
 		if len(args) != 1 {
 			return usagef("usage: %s", c.UsageLine)
@@ -68,16 +81,35 @@ histograms; --json writes one object of kind "plan" (README: Output for scripts)
 		if err != nil {
 			return err
 		}
+		var cmp *planpdf.Comparison
+		if *against != "" {
+			c, err := planpdf.Against(ctx, *against, planpdf.PredictionOf(r), planpdf.Options{})
+			if err != nil {
+				if errors.Is(err, fs.ErrNotExist) {
+					return badInput(err)
+				}
+				return err
+			}
+			cmp = &c
+		}
 		if *pdfPath != "" {
 			if err := planpdf.WriteFile(*pdfPath, r, e.clock()); err != nil {
 				return fmt.Errorf("--pdf: %w", err)
 			}
 		}
 		if *asJSON {
-			writeJSON(e.stdout, newPlanOut(r))
+			out := newPlanOut(r)
+			if cmp != nil {
+				out.Against = newAgainstOut(*cmp)
+			}
+			writeJSON(e.stdout, out)
 			return nil
 		}
 		planpdf.WriteText(e.stdout, r)
+		if cmp != nil {
+			fmt.Fprintln(e.stdout)
+			cmp.WriteText(e.stdout)
+		}
 		if *pdfPath != "" {
 			fmt.Fprintf(e.stdout, "\nplan with histograms: %s\n", *pdfPath)
 		}

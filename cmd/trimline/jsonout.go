@@ -33,6 +33,7 @@ import (
 	"trimline/limits"
 	"trimline/reports/audit"
 	"trimline/reports/certificate"
+	planreport "trimline/reports/plan"
 	"trimline/reports/stats"
 	"trimline/sequencer"
 	"trimline/sequencer/plan"
@@ -767,6 +768,90 @@ type planOut struct {
 	// (null when some DAC has no recommendation).
 	RecommendedYield *float64 `json:"recommended_yield"`
 	Notes            []string `json:"notes"` // what a reader must know about the numbers
+	// Against is, with --against LEDGER, the predictions beside what the
+	// stations measured; absent otherwise.
+	Against *againstOut `json:"against,omitempty"`
+}
+
+// againstOut is a plan's predictions beside a ledger's measurements (plan
+// --against): per quantity both sides' n, mean, SD and quantiles (at
+// probabilities), the two-sample Kolmogorov–Smirnov statistic and p-value,
+// the SD ratio with the F test's p-value, the IQR ratio, the mean difference
+// with Welch's p-value, a verdict ("agrees", "differs", "not compared") and a
+// sentence; per proportion (the yield, each DAC's saturation) the predicted
+// and measured fractions with the exact 95 % interval and binomial p-value.
+// Numbers in the quantity's SI unit; null where not computable.
+type againstOut struct {
+	Ledger        string                 `json:"ledger"`
+	Product       string                 `json:"product"`
+	Units         int                    `json:"units"`
+	Alpha         float64                `json:"alpha"` // significance level of every test
+	Probabilities []float64              `json:"probabilities"`
+	Quantities    []againstQuantityOut   `json:"quantities"`
+	Proportions   []againstProportionOut `json:"proportions"`
+	Notes         []string               `json:"notes"`
+}
+
+// againstSideOut is one side (predicted or measured) of a quantity.
+type againstSideOut struct {
+	N         int        `json:"n"`
+	Mean      *float64   `json:"mean"`
+	SD        *float64   `json:"sd"`
+	Quantiles []*float64 `json:"quantiles"`
+}
+
+type againstQuantityOut struct {
+	Name           string             `json:"name"`
+	Unit           string             `json:"unit"`
+	Predicted      againstSideOut     `json:"predicted"`
+	Measured       againstSideOut     `json:"measured"`
+	KSD            *float64           `json:"ks_d"`
+	KSP            *float64           `json:"ks_p"`
+	SDRatio        *float64           `json:"sd_ratio"`
+	FP             *float64           `json:"f_p"`
+	IQRRatio       *float64           `json:"iqr_ratio"`
+	MeanDifference *float64           `json:"mean_difference"`
+	MeanP          *float64           `json:"mean_p"`
+	Shares         map[string]float64 `json:"shares,omitempty"`
+	Verdict        string             `json:"verdict"`
+	Finding        string             `json:"finding"`
+}
+
+type againstProportionOut struct {
+	Name        string      `json:"name"`
+	Predicted   *float64    `json:"predicted"`
+	PredictedSE *float64    `json:"predicted_se"`
+	Count       int         `json:"count"`
+	N           int         `json:"n"`
+	Measured    *float64    `json:"measured"`
+	Interval95  [2]*float64 `json:"interval_95"`
+	P           *float64    `json:"p"`
+	Verdict     string      `json:"verdict"`
+	Finding     string      `json:"finding"`
+}
+
+// newAgainstOut is c for --json, NaN as null.
+func newAgainstOut(c planreport.Comparison) *againstOut {
+	side := func(s planreport.Summary) againstSideOut {
+		o := againstSideOut{N: s.N, Mean: num(s.Mean), SD: num(s.SD), Quantiles: []*float64{}}
+		for _, q := range s.Quantiles {
+			o.Quantiles = append(o.Quantiles, num(q))
+		}
+		return o
+	}
+	out := &againstOut{Ledger: c.Ledger, Product: c.Product, Units: c.Units, Alpha: c.Alpha, Probabilities: c.QuantileProbs,
+		Quantities: []againstQuantityOut{}, Proportions: []againstProportionOut{}, Notes: nonNil(c.Notes)}
+	for _, q := range c.Quantities {
+		out.Quantities = append(out.Quantities, againstQuantityOut{Name: q.Name, Unit: q.Unit, Predicted: side(q.Predicted), Measured: side(q.Measured),
+			KSD: num(q.KSD), KSP: num(q.KSP), SDRatio: num(q.SDRatio), FP: num(q.FP), IQRRatio: num(q.IQRRatio),
+			MeanDifference: num(q.MeanDifference), MeanP: num(q.MeanP), Shares: q.Shares, Verdict: q.Verdict, Finding: q.Finding})
+	}
+	for _, p := range c.Proportions {
+		out.Proportions = append(out.Proportions, againstProportionOut{Name: p.Name, Predicted: num(p.Predicted), PredictedSE: num(p.PredictedSE),
+			Count: p.Count, N: p.N, Measured: num(p.Measured), Interval95: [2]*float64{num(p.Interval95[0]), num(p.Interval95[1])},
+			P: num(p.P), Verdict: p.Verdict, Finding: p.Finding})
+	}
+	return out
 }
 
 // planQuantityOut is one predicted quantity over the units drawn.
