@@ -21,6 +21,8 @@ import (
 	"trimline/instruments/units"
 	"trimline/sequencer"
 	"trimline/sequencer/fit"
+	"trimline/sequencer/plan"
+	"trimline/sequencer/uncertainty"
 	"trimline/sequences"
 )
 
@@ -58,7 +60,7 @@ type prediction struct {
 
 // predict returns the budget's σ of pre_offset and pre_gain_error by the law of
 // propagation (JCGM 100, Propagate) and by the adaptive Monte Carlo of JCGM
-// 101:2008 §7.9 (Simulate: units drawn from the budget and fitted), in that order.
+// 101:2008 §7.9 (plan.Simulate: units drawn from the budget and fitted), in that order.
 func predict(t *testing.T, b *budget.Budget) (offset, gain []prediction) {
 	t.Helper()
 	for _, p := range b.Propagate() {
@@ -72,13 +74,14 @@ func predict(t *testing.T, b *budget.Budget) (offset, gain []prediction) {
 	if len(offset) != 1 || len(gain) != 1 {
 		t.Fatalf("%s: Propagate gives no %s or %s", b.Path, budget.PreOffset, budget.PreGainError)
 	}
-	mc, err := b.Simulate(budget.MCOptions{Seed: 19})
+	mc, err := plan.Simulate(b, uncertainty.MCOptions{P: 0.95, Seed: 19})
 	if err != nil {
 		t.Fatal(err)
 	}
 	how := fmt.Sprintf("adaptive Monte Carlo, %d trials", mc.Trials)
-	offset = append(offset, prediction{how, mc.SD[0], sdUnc(mc.SD[0], mc.Trials)})
-	gain = append(gain, prediction{how, mc.SD[1], sdUnc(mc.SD[1], mc.Trials)})
+	so, sg := mc.Summary(0).Std, mc.Summary(1).Std
+	offset = append(offset, prediction{how, so, sdUnc(so, mc.Trials)})
+	gain = append(gain, prediction{how, sg, sdUnc(sg, mc.Trials)})
 	return offset, gain
 }
 

@@ -7,7 +7,8 @@ import (
 	"trimline/instruments/budget"
 )
 
-// BenchmarkDrawPreTrim is one trial of Simulate on the example budget.
+// BenchmarkDrawPreTrim is one Monte Carlo trial on the example budget (what
+// sequencer/plan.Simulate does M times).
 func BenchmarkDrawPreTrim(b *testing.B) {
 	bud, err := budget.Load("testdata/example-budget.yaml")
 	if err != nil {
@@ -16,21 +17,6 @@ func BenchmarkDrawPreTrim(b *testing.B) {
 	r := rand.New(rand.NewPCG(1, 2))
 	for b.Loop() {
 		bud.Draw(r).PreTrim(bud)
-	}
-}
-
-// BenchmarkSimulateExample is the whole adaptive run on the example budget.
-func BenchmarkSimulateExample(b *testing.B) {
-	bud, err := budget.Load("testdata/example-budget.yaml")
-	if err != nil {
-		b.Fatal(err)
-	}
-	for b.Loop() {
-		res, err := bud.Simulate(budget.MCOptions{Seed: 1})
-		if err != nil {
-			b.Fatal(err)
-		}
-		b.ReportMetric(float64(res.Trials), "trials")
 	}
 }
 

@@ -5,8 +5,9 @@
 // budget file (*budget*.yaml) strictly, draws units from it (Draw), gives a unit's
 // transfer and the pre-trim offset and gain error the station would measure
 // (Unit.Output, Unit.PreTrim), and propagates the budget by the law of propagation
-// (JCGM 100, Propagate) and by Monte Carlo with the adaptive stopping rule of
-// JCGM 101:2008 §7.9 (Adaptive, Budget.Simulate).
+// (JCGM 100, Propagate). The Monte Carlo evaluation with the adaptive stopping
+// rule of JCGM 101:2008 §7.9 is a higher layer's (sequencer/plan.Simulate, on
+// sequencer/uncertainty.MonteCarloModel): this package draws the units it uses.
 //
 // The file has five sections (testdata/example-budget.yaml shows every key):
 //
@@ -54,8 +55,8 @@ const (
 	KindOpenLoop   = "open_loop"  // closed-loop A/(1 + A·β), β = 1/|Gain|: its ratio to |Gain|, minus 1
 )
 
-// Names of the two pre-trim quantities (Propagation.Name, the order of
-// Budget.Simulate's outputs).
+// Names of the two pre-trim quantities (Propagation.Name; Unit.PreTrim returns
+// them in this order).
 const (
 	PreOffset    = "pre_offset"     // output-referred offset at zero input, in the output's unit
 	PreGainError = "pre_gain_error" // slope/Gain − 1, a fraction

@@ -32,7 +32,8 @@ type Propagation struct {
 // sources' values, each with its mean and standard deviation (Dist), the
 // sensitivities numerical (central differences of ±10⁻³·uᵢ), the correlations
 // those of the file. A model far from linear over the sources' spread (a large
-// gain error times a large offset) is better judged by Simulate.
+// gain error times a large offset) is better judged by Monte Carlo
+// (sequencer/plan.Simulate).
 func (b *Budget) Propagate() []Propagation {
 	n := len(b.Sources)
 	x0 := b.Nominal().Values

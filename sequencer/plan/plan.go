@@ -22,6 +22,7 @@ import (
 	"trimline/instruments/budget"
 	"trimline/instruments/units"
 	"trimline/sequencer"
+	"trimline/sequencer/uncertainty"
 )
 
 // Names of the post-trim parts of the residual (Quantity.Shares of the
@@ -152,6 +153,7 @@ type planner struct {
 	saturated []int
 	pass      [3]int  // all, offset, gain
 	resOffset float64 // the pre-trim offset's rounding, output unit
+	resGain   float64 // the pre-trim gain error's rounding
 
 	out, clamped, exact after
 }
@@ -204,19 +206,18 @@ func Run(ctx context.Context, b *budget.Budget, o Options) (*Report, error) {
 	}
 	p := &planner{b: b, d: newDesign(b.Trim, b.Transfer.Gain, b.Transfer.OutputAtZero), tol: o.Tolerances,
 		nDAC: len(b.Trim.DACs), search: o.SearchTrials}
-	t := &b.Transfer
 	// Pre-trim values rounded far below anything a station resolves (as
-	// budget.Simulate does), so a quantity no source moves is exactly constant
-	// and settles the stopping rule.
-	p.resOffset = 1e-12 * (math.Abs(t.OutputAtZero) + math.Abs(t.Gain)*math.Max(math.Abs(t.InputLow), math.Abs(t.InputHigh)))
+	// Simulate does), so a quantity no source moves is exactly constant and
+	// settles the stopping rule.
+	p.resOffset, p.resGain = preTrimResolution(b)
 	p.codes = make([][]float64, p.nDAC)
 	p.saturated = make([]int, p.nDAC)
 	for _, a := range []*after{&p.out, &p.clamped, &p.exact} {
 		a.Steps = make([]step, p.nDAC)
 	}
-	res, err := budget.Adaptive(2, func(r *rand.Rand, y []float64) {
+	res, err := uncertainty.MonteCarloModel(2, func(r *rand.Rand, y []float64) {
 		y[0], y[1] = p.trial(r)
-	}, budget.MCOptions{Seed: o.Seed, Coverage: 0.95, Digits: o.Digits, MaxTrials: o.MaxTrials})
+	}, uncertainty.MCOptions{P: 0.95, Digits: o.Digits, MaxTrials: o.MaxTrials, Seed: o.Seed})
 	if err != nil {
 		return nil, fmt.Errorf("Monte Carlo: %w", err)
 	}
@@ -250,7 +251,7 @@ func Run(ctx context.Context, b *budget.Budget, o Options) (*Report, error) {
 func (p *planner) trial(r *rand.Rand) (off, ge float64) {
 	u := p.b.Draw(r)
 	off, ge = u.PreTrim(p.b)
-	off, ge = roundTo(off, p.resOffset), roundTo(ge, 1e-12)
+	off, ge = roundTo(off, p.resOffset), roundTo(ge, p.resGain)
 	// Each DAC's bit errors, as normal scores for every bit a DAC may have, so
 	// the search can try wider DACs on the same units.
 	z := make([][]float32, p.nDAC)
