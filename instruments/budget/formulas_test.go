@@ -9,27 +9,6 @@ import (
 	"trimline/instruments/budget"
 )
 
-// ratioBudget is a non-inverting stage G = 1 + R2/R1 = 10 (R1 = 1 kΩ, R2 = 9 kΩ,
-// each ±0.1 % rectangular) whose only source is the ratio, with the given
-// correlation line ("" for none).
-func ratioBudget(t *testing.T, correlation string) *budget.Budget {
-	t.Helper()
-	text := `budget: {product: RATIO-10}
-transfer: {gain: 10, output_at_zero: 0 V, input: {low: -0.1 V, high: 0.1 V}}
-sources:
-  - name: feedback
-    acts: gain
-    ratio:
-      r1: {value: 1 kohm, tolerance: ±0.1 %}
-      r2: {value: 9 kohm, tolerance: ±0.1 %}
-` + correlation
-	b, err := budget.Parse("ratio-budget.yaml", []byte(text))
-	if err != nil {
-		t.Fatal(err)
-	}
-	return b
-}
-
 // The resistor-ratio gain G = 1 + R2/R1 with uniform tolerances, hand-worked
 // (common practice, the textbook comparison of worst case, RSS and Monte Carlo):
 // R1 = 1 kΩ, R2 = 9 kΩ, each ±a, a = 0.1 %, rectangular; k = R2/R1 = 9, G = 10,
@@ -49,7 +28,7 @@ sources:
 // The Monte Carlo half is sequencer/plan's TestResistorRatioMonteCarlo.
 func TestResistorRatioWorstCaseRSS(t *testing.T) {
 	const ppm = 1e-6
-	b := ratioBudget(t, "")
+	b := load(t, "ratio-budget.yaml")
 	s := b.Sources[0]
 	check(t, "worst case high", s.High/ppm, 0.9*(1.001/0.999-1)/ppm, 1e-6)
 	check(t, "worst case high (hand)", s.High/ppm, 1801.8, 0.05)
@@ -64,7 +43,7 @@ func TestResistorRatioWorstCaseRSS(t *testing.T) {
 	check(t, "worst case high through the fit", p.WorstCase[1]/ppm, 1801.8, 0.1)
 	check(t, "worst case low through the fit", p.WorstCase[0]/ppm, -1798.2, 0.1)
 
-	matched := ratioBudget(t, "      correlation: 0.9\n")
+	matched := load(t, "ratio-matched-budget.yaml")
 	pm := matched.Propagate()[1]
 	check(t, "matched RSS u (hand 232.4 ppm)", pm.U/ppm, 232.4, 0.05)
 	check(t, "matched worst case high", pm.WorstCase[1]/ppm, 1801.8, 0.1)

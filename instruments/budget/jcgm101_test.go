@@ -1,16 +1,16 @@
 package budget_test
 
 import (
-	"fmt"
 	"math"
+	"path/filepath"
 	"testing"
 
 	"trimline/instruments/budget"
 )
 
 // JCGM 101:2008 §9.2, the additive model Y = X₁ + X₂ + X₃ + X₄ with every input
-// of expectation 0, written as a budget file whose four output-offset sources
-// encode the same sum (gain 1, so the pre-trim offset is the sum), through
+// of expectation 0, written as budget files (testdata/jcgm101-9.2.*-budget.yaml:
+// four output-offset sources, gain 1, so the pre-trim offset is the sum), through
 // Propagate (the GUM), with p = 95 % and n_dig = 2 as there. The same files
 // through the Monte Carlo are sequencer/plan's tests (jcgm101_test.go there).
 //
@@ -18,18 +18,10 @@ import (
 // search found the document's title and contents, not its tables); they are
 // written "from memory" and checked to the digits printed.
 
-// additiveBudget is a budget whose pre-trim offset is X₁ + X₂ + X₃ + X₄, each a
-// source written with key dists[i].
-func additiveBudget(t *testing.T, dists [4]string) *budget.Budget {
+// load loads a budget of testdata (the JCGM 101 §9.2 models as budget files).
+func load(t *testing.T, name string) *budget.Budget {
 	t.Helper()
-	text := `budget: {product: SUM-4}
-transfer: {gain: 1, output_at_zero: 0 V, input: {low: -1 V, high: 1 V}, points: 3}
-sources:
-`
-	for i, d := range dists {
-		text += fmt.Sprintf("  - {name: X%d, acts: output_offset, %s}\n", i+1, d)
-	}
-	b, err := budget.Parse("sum-budget.yaml", []byte(text))
+	b, err := budget.Load(filepath.Join("testdata", name))
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -57,7 +49,7 @@ func published(t *testing.T, what string, got, printed float64, digits int) {
 // 95 % interval ±1.96·2 = ±3.92 (from memory: the document prints u(y) = 2.00
 // and [−3.92, 3.92]).
 func TestJCGM101AdditiveNormal(t *testing.T) {
-	b := additiveBudget(t, [4]string{"normal: 1 V", "normal: 1 V", "normal: 1 V", "normal: 1 V"})
+	b := load(t, "jcgm101-9.2.2-budget.yaml")
 	p := b.Propagate()[0]
 	t.Logf("Propagate: %s u = %.6f %s, 95 %% [%.4f, %.4f], worst case [%.2f, %.2f]", p.Name, p.U, p.Unit, p.Interval95[0], p.Interval95[1], p.WorstCase[0], p.WorstCase[1])
 	check(t, "GUM u(y)", p.U, 2, 1e-6)
@@ -73,8 +65,7 @@ func TestJCGM101AdditiveNormal(t *testing.T) {
 // u(y) = 2 and ±3.92 (normal, k = 1.96; from memory); the worst case is 4·√3.
 func TestJCGM101AdditiveRectangular(t *testing.T) {
 	a := math.Sqrt(3)
-	w := fmt.Sprintf("uniform: ±%v V", a)
-	b := additiveBudget(t, [4]string{w, w, w, w})
+	b := load(t, "jcgm101-9.2.3-budget.yaml")
 	p := b.Propagate()[0]
 	t.Logf("Propagate: u = %.6f, 95 %% [%.4f, %.4f], worst case [%.4f, %.4f]", p.U, p.Interval95[0], p.Interval95[1], p.WorstCase[0], p.WorstCase[1])
 	check(t, "GUM u(y)", p.U, 2, 1e-6)
@@ -86,8 +77,7 @@ func TestJCGM101AdditiveRectangular(t *testing.T) {
 // 10 (half-width 10√3) that dominates. GUM u(y) = √103 = 10.15 and ±19.9 (from
 // memory), the rectangle's share 100/103.
 func TestJCGM101AdditiveDominantRectangular(t *testing.T) {
-	b0 := 10 * math.Sqrt(3)
-	bud := additiveBudget(t, [4]string{"normal: 1 V", "normal: 1 V", "normal: 1 V", fmt.Sprintf("uniform: ±%v V", b0)})
+	bud := load(t, "jcgm101-9.2.4-budget.yaml")
 	p := bud.Propagate()[0]
 	t.Logf("Propagate: u = %.4f, 95 %% [%.3f, %.3f], shares %v", p.U, p.Interval95[0], p.Interval95[1], p.Shares)
 	published(t, "GUM u(y)", p.U, 10.15, 2)

@@ -1,7 +1,6 @@
 package plan_test
 
 import (
-	"fmt"
 	"math"
 	"path/filepath"
 	"slices"
@@ -25,22 +24,13 @@ import (
 
 const k95 = 1.959963984540054 // the normal 97.5 % point
 
-// exampleBudget is the budget package's example (ten sources, two DACs).
-var exampleBudget = filepath.Join("..", "..", "instruments", "budget", "testdata", "example-budget.yaml")
-
-// additiveBudget is a budget whose pre-trim offset is X₁ + X₂ + X₃ + X₄ (JCGM
-// 101 §9.2's additive model: gain 1, four output-offset sources), each a
-// source written with key dists[i].
-func additiveBudget(t *testing.T, dists [4]string) *budget.Budget {
+// budgetFile loads a budget of the budget package's testdata: the example
+// (ten sources, two DACs), the JCGM 101 §9.2 models (jcgm101-9.2.*-budget.yaml:
+// gain 1 and four output-offset sources, so the pre-trim offset is their sum)
+// and the resistor-ratio stages.
+func budgetFile(t testing.TB, name string) *budget.Budget {
 	t.Helper()
-	text := `budget: {product: SUM-4}
-transfer: {gain: 1, output_at_zero: 0 V, input: {low: -1 V, high: 1 V}, points: 3}
-sources:
-`
-	for i, d := range dists {
-		text += fmt.Sprintf("  - {name: X%d, acts: output_offset, %s}\n", i+1, d)
-	}
-	b, err := budget.Parse("sum-budget.yaml", []byte(text))
+	b, err := budget.Load(filepath.Join("..", "..", "instruments", "budget", "testdata", name))
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -95,7 +85,7 @@ func bisect(f func(float64) float64, target, lo, hi float64) float64 {
 // 3.92] for both the GUM and the Monte Carlo).
 func TestJCGM101BudgetAdditiveNormal(t *testing.T) {
 	exact := k95 * 2
-	b := additiveBudget(t, [4]string{"normal: 1 V", "normal: 1 V", "normal: 1 V", "normal: 1 V"})
+	b := budgetFile(t, "jcgm101-9.2.2-budget.yaml")
 	mc := simulated(t, b, 9221)
 	s, delta := mc.Summary(0), mc.Tolerance[0]
 	t.Logf("Simulate: M = %d, y = %.4f, u = %.4f, [%.4f, %.4f], δ = %g", mc.Trials, s.Mean, s.Std, s.Low, s.High, delta)
@@ -125,8 +115,7 @@ func TestJCGM101BudgetAdditiveRectangular(t *testing.T) {
 	exact := 2*a*bisect(irwinHall, 0.975, 0, 4) - 4*a
 	check(t, "exact 97.5 % point (3.88, from memory)", exact, 3.88, 0.005)
 
-	w := fmt.Sprintf("uniform: ±%v V", a)
-	b := additiveBudget(t, [4]string{w, w, w, w})
+	b := budgetFile(t, "jcgm101-9.2.3-budget.yaml")
 	mc := simulated(t, b, 9231)
 	s, delta := mc.Summary(0), mc.Tolerance[0]
 	t.Logf("Simulate: M = %d, u = %.4f, [%.4f, %.4f], exact ±%.4f, δ = %g", mc.Trials, s.Std, s.Low, s.High, exact, delta)
@@ -153,7 +142,7 @@ func TestJCGM101BudgetAdditiveDominantRectangular(t *testing.T) {
 	exact := bisect(cdf, 0.975, 0, 40)
 	check(t, "exact 97.5 % point (17.0, from memory)", exact, 17.0, 0.05)
 
-	bud := additiveBudget(t, [4]string{"normal: 1 V", "normal: 1 V", "normal: 1 V", fmt.Sprintf("uniform: ±%v V", b0)})
+	bud := budgetFile(t, "jcgm101-9.2.4-budget.yaml")
 	mc := simulated(t, bud, 9241)
 	s, delta := mc.Summary(0), mc.Tolerance[0]
 	t.Logf("Simulate: M = %d, u = %.4f, [%.4f, %.4f], exact ±%.4f, δ = %g", mc.Trials, s.Std, s.Low, s.High, exact, delta)
@@ -164,27 +153,6 @@ func TestJCGM101BudgetAdditiveDominantRectangular(t *testing.T) {
 	publishedMC(t, "budget MC y_high", s.High, 17.0, 2*delta+0.05)
 }
 
-// ratioBudget is a non-inverting stage G = 1 + R2/R1 = 10 (R1 = 1 kΩ, R2 = 9 kΩ,
-// each ±0.1 % rectangular) whose only source is the ratio, with the given
-// correlation line ("" for none).
-func ratioBudget(t *testing.T, correlation string) *budget.Budget {
-	t.Helper()
-	text := `budget: {product: RATIO-10}
-transfer: {gain: 10, output_at_zero: 0 V, input: {low: -0.1 V, high: 0.1 V}}
-sources:
-  - name: feedback
-    acts: gain
-    ratio:
-      r1: {value: 1 kohm, tolerance: ±0.1 %}
-      r2: {value: 9 kohm, tolerance: ±0.1 %}
-` + correlation
-	b, err := budget.Parse("ratio-budget.yaml", []byte(text))
-	if err != nil {
-		t.Fatal(err)
-	}
-	return b
-}
-
 // The Monte Carlo half of the budget package's TestResistorRatioWorstCaseRSS,
 // hand-worked there (common practice): g ≈ 0.9·(e2 − e1) is triangular on ±b,
 // b = 1800 ppm, so its 95 % interval is ±b·(1 − √0.05) = ±1397.5 ppm, narrower
@@ -192,7 +160,7 @@ sources:
 // ppm. A matched pair (ρ = 0.9) shrinks the spread by √0.1 to 232.4 ppm.
 func TestResistorRatioMonteCarlo(t *testing.T) {
 	const ppm = 1e-6
-	b := ratioBudget(t, "")
+	b := budgetFile(t, "ratio-budget.yaml")
 	p := b.Propagate()[1]
 	mc := simulated(t, b, 31)
 	s := mc.Summary(1)
@@ -206,7 +174,7 @@ func TestResistorRatioMonteCarlo(t *testing.T) {
 		t.Errorf("expected MC %.1f < RSS %.1f < worst case %.1f ppm", hi, p.Interval95[1]/ppm, p.WorstCase[1]/ppm)
 	}
 
-	mm := simulated(t, ratioBudget(t, "      correlation: 0.9\n"), 32)
+	mm := simulated(t, budgetFile(t, "ratio-matched-budget.yaml"), 32)
 	sm := mm.Summary(1)
 	t.Logf("matched MC: M = %d, sd %.1f ppm, 95 %% [%.1f, %.1f] ppm", mm.Trials, sm.Std/ppm, sm.Low/ppm, sm.High/ppm)
 	check(t, "matched MC sd (hand 232.4 ppm)", sm.Std/ppm, 232.4, 2*mm.Tolerance[1]/ppm)
@@ -219,10 +187,7 @@ func TestResistorRatioMonteCarlo(t *testing.T) {
 // within δ; here the standard uncertainties are compared, 2δ for one run's
 // scatter), and each quantity's shares sum to 1.
 func TestExamplePropagateAgreesWithSimulate(t *testing.T) {
-	b, err := budget.Load(exampleBudget)
-	if err != nil {
-		t.Fatal(err)
-	}
+	b := budgetFile(t, "example-budget.yaml")
 	gum := b.Propagate()
 	mc := simulated(t, b, 19)
 	for q, p := range gum {
@@ -246,7 +211,7 @@ func TestExamplePropagateAgreesWithSimulate(t *testing.T) {
 // it settles the stopping rule in two sequences; and a cap below one sequence
 // of M₀ = 10⁴ is refused, naming the budget.
 func TestSimulateConstantAndCap(t *testing.T) {
-	b := additiveBudget(t, [4]string{"normal: 1 V", "normal: 1 V", "normal: 1 V", "normal: 1 V"})
+	b := budgetFile(t, "jcgm101-9.2.2-budget.yaml")
 	mc := simulated(t, b, 5)
 	if g := mc.Summary(1); g.Std != 0 || g.Low != g.High {
 		t.Errorf("gain error no source moves: sd %g, [%g, %g]", g.Std, g.Low, g.High)
@@ -260,10 +225,7 @@ func TestSimulateConstantAndCap(t *testing.T) {
 
 // BenchmarkSimulateExample is the whole adaptive run on the example budget.
 func BenchmarkSimulateExample(b *testing.B) {
-	bud, err := budget.Load(exampleBudget)
-	if err != nil {
-		b.Fatal(err)
-	}
+	bud := budgetFile(b, "example-budget.yaml")
 	for b.Loop() {
 		run, err := plan.Simulate(bud, uncertainty.MCOptions{P: 0.95, Seed: 1})
 		if err != nil {
