@@ -102,6 +102,9 @@ func (b *Budget) Propagate() []Propagation {
 			if v > 0 {
 				share = part[i] / v
 			}
+			if math.Abs(share) < 1e-12 {
+				share = 0 // round-off of a source this quantity does not see (1e-32 is not a share)
+			}
 			p.Shares[s.Name] += share
 			p.Sensitivities[s.Name] = c[q][i]
 		}
