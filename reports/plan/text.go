@@ -270,12 +270,12 @@ func coefficientsText(cs []planner.CoefficientPlan) string {
 			t += " in " + x.Unit
 		}
 		if x.Format.Kind != numfmt.Float32 {
-			lo, hi := x.Format.Range()
-			t += fmt.Sprintf(" (%s … %s", units.FormatSig(lo, 6), units.FormatSig(hi, 6))
+			lo, _ := x.Format.Range()
+			t += fmt.Sprintf(" from %s to %s − 2^−%d", units.FormatSig(lo, 6), units.FormatSig(-lo, 6), x.Format.Frac)
 			if x.Unit != "" {
 				t += " " + x.Unit
 			}
-			t += ", saturated in " + percentSE(c.Saturation, c.SaturationSE) + ")"
+			t += ", saturates " + percentSE(c.Saturation, c.SaturationSE)
 		}
 		parts = append(parts, t)
 	}
