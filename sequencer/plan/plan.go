@@ -558,10 +558,3 @@ func dimOf(unit string) units.Dim {
 	}
 	return units.Volt
 }
-
-func orV(unit string) string {
-	if unit == "" {
-		return "V"
-	}
-	return unit
-}
