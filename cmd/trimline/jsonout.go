@@ -751,7 +751,9 @@ type planOut struct {
 	// post_offset and post_gain_error.
 	Quantities []planQuantityOut `json:"quantities"`
 	// Saturation is, per DAC name, the fraction of units whose ideal code is
-	// outside the DAC's codes 0 … 2^bits − 1.
+	// outside the DAC's codes (0 … 2^bits − 1, or −2^(bits−1) … 2^(bits−1) − 1
+	// in two's complement); with firmware coefficients, per coefficient name,
+	// the fraction whose exact value lies beyond its format's range.
 	Saturation map[string]float64 `json:"saturation"`
 	// PredictedYield is the fraction of units whose predicted results
 	// (Predicted) all pass their tolerances, YieldSE its standard error
@@ -890,7 +892,7 @@ type planRecommendationOut struct {
 	LSB          *float64 `json:"lsb"`
 	Range        *float64 `json:"range"`
 	LSBUnit      string   `json:"lsb_unit"`
-	NoCorrection int      `json:"no_correction"` // mid-scale
+	NoCorrection int      `json:"no_correction"` // mid-code: 2^(bits−1), or 0 in two's complement
 	// Pass is the fraction of units whose Result passes, PassSE its standard
 	// error; Saturation the fraction that saturate the DAC.
 	Pass       *float64 `json:"pass"`
@@ -928,6 +930,9 @@ func newPlanOut(r *plan.Report) planOut {
 	}
 	for _, d := range r.DACs {
 		out.Saturation[d.DAC.Name] = d.Saturation
+	}
+	for _, c := range r.Coefficients { // a design trims by DACs or by coefficients, never both
+		out.Saturation[c.Coefficient.Name] = c.Saturation
 	}
 	for i, rec := range r.Recommendations {
 		o := planRecommendationOut{DAC: rec.DAC, Result: rec.Result, Found: rec.Found, Reason: rec.Reason}

@@ -140,10 +140,10 @@ func TestPlanJSON(t *testing.T) {
 
 // --pdf writes the plan with its histograms; bad input exits 2 and says why.
 func TestPlanPDFAndBadInput(t *testing.T) {
-	b := planBudget(t, "  coefficients: {format: fixed, fraction_bits: 20}\n")
+	b := planBudget(t, "  coefficients:\n    - {name: gain, adjusts: gain, format: Q2.20}\n    - {name: offset, adjusts: offset, format: Q4.20}\n")
 	pdf := filepath.Join(t.TempDir(), "plan.pdf")
 	code, out, errOut := runCLI(t, "plan", b, "--pdf", pdf)
-	if code != 0 || errOut != "" || !strings.Contains(out, "plan with histograms: "+pdf) || !strings.Contains(out, "Firmware coefficients: fixed point, 20 fraction bits") {
+	if code != 0 || errOut != "" || !strings.Contains(out, "plan with histograms: "+pdf) || !strings.Contains(out, "Firmware coefficients: gain Q2.20 from −2 to 2 − 2^−20, saturates 0 %") {
 		t.Fatalf("exit %d, stderr %q\n%s", code, errOut, out)
 	}
 	data, err := os.ReadFile(pdf)

@@ -21,8 +21,9 @@
 //	             sheet writes it), drift: ±a per °C, ratio: {r1, r2, correlation},
 //	             open_loop: {gain} or {low, high}; an optional mean: for the first five
 //	correlations: between: [source, source], coefficient (of their values, −1…1)
-//	trim:        dacs (name, adjusts, bits, lsb, no_correction, placement, dnl) or
-//	             coefficients {format: fixed with fraction_bits, or float32}; optional
+//	trim:        dacs (name, adjusts, bits, lsb, no_correction, placement, dnl,
+//	             coding) or coefficients (each name, adjusts, format Q<m>.<n> or
+//	             float32, unit for an offset), as a sequence writes them; optional
 //
 // Offsets are in the input's or the output's unit by where they act (V or A);
 // gain, compression and tolerances are ratios written with ppm or %.
@@ -32,6 +33,12 @@
 // number past the file boundary is SI: volts (or amperes), ohms, °C, and ratios as
 // plain fractions (10 ppm is 1e-5).
 package budget
+
+import (
+	"math"
+
+	"trimline/instruments/numfmt"
+)
 
 // Where a source acts (the values of Source.Acts).
 const (
@@ -165,13 +172,41 @@ type Correlation struct {
 }
 
 // DAC is one trim DAC of the design to evaluate (the keys of a sequence's dacs:).
+// Its codes run MinCode … MaxCode: 0 … 2^Bits − 1 in binary-offset coding,
+// −2^(Bits−1) … 2^(Bits−1) − 1 in two's complement.
 type DAC struct {
-	Name, Adjusts string // adjusts: offset or gain
-	Placement     string // after_gain (output-referred) or before_gain (input-referred); "" for a gain DAC
-	Bits          int
-	LSB           float64 // per code: the output's or input's unit by placement, a fraction for gain
-	NoCorrection  int     // the code that applies no correction
-	DNL           float64 // σ of each code's step error, in LSB (0 when not given)
+	Name, Adjusts  string // adjusts: offset or gain
+	Placement      string // after_gain (output-referred) or before_gain (input-referred); "" for a gain DAC
+	Bits           int
+	LSB            float64 // per code: the output's or input's unit by placement, a fraction for gain
+	NoCorrection   int     // the code that applies no correction
+	DNL            float64 // σ of each code's step error, in LSB (0 when not given)
+	TwosComplement bool    // coding: twos_complement (signed codes)
+}
+
+// MinCode is the DAC's lowest code.
+func (d DAC) MinCode() int {
+	if d.TwosComplement {
+		return -(1 << (d.Bits - 1))
+	}
+	return 0
+}
+
+// MaxCode is the DAC's highest code.
+func (d DAC) MaxCode() int {
+	if d.TwosComplement {
+		return 1<<(d.Bits-1) - 1
+	}
+	return 1<<d.Bits - 1
+}
+
+// MidCode is the code in the middle of the DAC's codes, the usual no-correction
+// code: 2^(Bits−1) in binary-offset coding, 0 in two's complement.
+func (d DAC) MidCode() int {
+	if d.TwosComplement {
+		return 0
+	}
+	return 1 << (d.Bits - 1)
 }
 
 // Trim is the trim design: DACs, or correction coefficients computed by firmware;
@@ -179,11 +214,53 @@ type DAC struct {
 // simulator).
 type Trim struct {
 	DACs         []DAC
-	Coefficients *CoefficientFormat
+	Coefficients []Coefficient
 }
 
-// CoefficientFormat is the number format of firmware correction coefficients.
-type CoefficientFormat struct {
-	Format       string // fixed or float32
-	FractionBits int    // fixed only
+// Coefficient is one firmware correction coefficient of the design (the keys
+// of a sequence's coefficients:): the unit computes corrected = k·raw + m with
+// k the gain coefficient and m the offset, each held in its own number format.
+type Coefficient struct {
+	Name, Adjusts string        // adjusts: gain or offset
+	FormatName    string        // as the file writes it: "Q2.14", "float32"
+	Format        numfmt.Format // the number the firmware holds, in Unit
+	// Unit is the unit of an offset's number as the file writes it ("mA", or
+	// the value of one of its units such as "312.5 uV"; "" for the output's SI
+	// unit or a gain); UnitSI the SI value of one (1e-3 for mA), 1 for a gain.
+	Unit   string
+	UnitSI float64
+}
+
+// Hold is v (SI: the output's unit for an offset, a plain factor for a gain) as
+// the firmware holds it: Round, or the end of the format's range nearest v
+// when v lies beyond it, saturated then true.
+func (c Coefficient) Hold(v float64) (held float64, saturated bool) {
+	x := v / c.UnitSI
+	lo, hi := c.Format.Range()
+	switch {
+	case x < lo:
+		return lo * c.UnitSI, true
+	case x > hi:
+		return hi * c.UnitSI, true
+	case math.IsNaN(x):
+		return v, true
+	}
+	return c.Round(v), false
+}
+
+// Round is v (SI) rounded to the format in the coefficient's unit, as the
+// station's encoding rounds (half away from zero for Q<m>.<n>, to nearest
+// float32), whatever the format's range.
+func (c Coefficient) Round(v float64) float64 {
+	x := v / c.UnitSI
+	if c.Format.Kind == numfmt.Float32 {
+		return float64(float32(x)) * c.UnitSI
+	}
+	s := c.Format.Resolution(x)
+	return math.Round(x/s) * s * c.UnitSI
+}
+
+// Step is the coefficient's rounding step near v (SI), in SI.
+func (c Coefficient) Step(v float64) float64 {
+	return c.Format.Resolution(v/c.UnitSI) * c.UnitSI
 }

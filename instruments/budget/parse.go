@@ -10,6 +10,7 @@ import (
 	"github.com/goccy/go-yaml/ast"
 
 	"trimline/instruments/files"
+	"trimline/instruments/numfmt"
 	"trimline/instruments/units"
 )
 
@@ -110,11 +111,8 @@ type budgetFile struct {
 		Coefficient *qty     `yaml:"coefficient"`
 	} `yaml:"correlations"`
 	Trim struct {
-		DACs         []*dacDecl `yaml:"dacs"`
-		Coefficients *struct {
-			Format       string `yaml:"format"`
-			FractionBits *int   `yaml:"fraction_bits"`
-		} `yaml:"coefficients"`
+		DACs         []*dacDecl  `yaml:"dacs"`
+		Coefficients []*coefDecl `yaml:"coefficients"`
 	} `yaml:"trim"`
 }
 
@@ -160,6 +158,14 @@ type dacDecl struct {
 	NoCorrection *int   `yaml:"no_correction"`
 	Placement    string `yaml:"placement"`
 	DNL          *qty   `yaml:"dnl"`
+	Coding       string `yaml:"coding"`
+}
+
+type coefDecl struct {
+	Name    string `yaml:"name"`
+	Adjusts string `yaml:"adjusts"`
+	Format  string `yaml:"format"`
+	Unit    string `yaml:"unit"`
 }
 
 // distKeys are the keys that give a source its distribution, exactly one per source.
@@ -878,11 +884,20 @@ func (p *parser) trim(f *budgetFile, b *Budget) {
 		} else {
 			out.LSB = v
 		}
+		switch d.Coding {
+		case "", "binary_offset", "offset_binary":
+		case "twos_complement":
+			out.TwosComplement = true
+		default:
+			p.bad(path+".coding", "expected binary_offset or twos_complement, found %q", d.Coding)
+		}
 		switch {
+		case d.NoCorrection == nil && out.TwosComplement:
+			out.NoCorrection = 0 // a signed code: 0 is no correction
 		case d.NoCorrection == nil:
 			p.bad(path, "missing required key \"no_correction\" (the code that applies no correction, often mid-scale)")
-		case out.Bits > 0 && (*d.NoCorrection < 0 || *d.NoCorrection >= 1<<out.Bits):
-			p.bad(path+".no_correction", "expected a code in 0..%d", 1<<out.Bits-1)
+		case out.Bits > 0 && (*d.NoCorrection < out.MinCode() || *d.NoCorrection > out.MaxCode()):
+			p.bad(path+".no_correction", "expected a code in %d..%d", out.MinCode(), out.MaxCode())
 		default:
 			out.NoCorrection = *d.NoCorrection
 		}
@@ -897,33 +912,87 @@ func (p *parser) trim(f *budgetFile, b *Budget) {
 		}
 		b.Trim.DACs = append(b.Trim.DACs, out)
 	}
-	if c := f.Trim.Coefficients; c != nil {
-		const path = "$.trim.coefficients"
-		cf := &CoefficientFormat{Format: c.Format}
-		switch c.Format {
-		case "fixed":
-			switch {
-			case c.FractionBits == nil:
-				p.bad(path, "missing required key \"fraction_bits\" (bits after the binary point)")
-			case *c.FractionBits < 0 || *c.FractionBits > 62:
-				p.bad(path+".fraction_bits", "expected 0 to 62 fraction bits, found %d", *c.FractionBits)
-			default:
-				cf.FractionBits = *c.FractionBits
-			}
-		case "float32":
-			if c.FractionBits != nil {
-				p.bad(path+".fraction_bits", "fraction_bits applies to the fixed format only")
-			}
-		case "":
-			p.bad(path, "missing required key \"format\" (fixed or float32)")
-		default:
-			p.bad(path+".format", "expected fixed or float32, found %q", c.Format)
-		}
-		b.Trim.Coefficients = cf
+	if p.doc.Has("$.trim.coefficients.format") {
+		p.bad("$.trim.coefficients.format", "expected a list of coefficients as a sequence writes them, each with its own format (- {name: gain, adjusts: gain, format: Q2.14}; - {name: offset, adjusts: offset, format: Q4.12, unit: mA}): a format for both (fixed with fraction_bits) is no longer read")
 	}
-	if len(f.Trim.DACs) == 0 && f.Trim.Coefficients == nil {
+	p.coefficients(f.Trim.Coefficients, outDim, b)
+	if len(f.Trim.DACs) == 0 && len(f.Trim.Coefficients) == 0 && !p.doc.Has("$.trim.coefficients.format") {
 		p.bad("$.trim", "expected dacs or coefficients: the trim design to evaluate")
 	}
+}
+
+// coefficients checks trim.coefficients: a list as a sequence's coefficients:
+// writes it (name, adjusts gain or offset, format Q<m>.<n> or float32, unit for
+// an offset), at most one per adjustment. outDim is the output's dimension, an
+// offset's unit's.
+func (p *parser) coefficients(cs []*coefDecl, outDim units.Dim, b *Budget) {
+	names, adjusts := map[string]int{}, map[string]int{}
+	for i, d := range cs {
+		path := fmt.Sprintf("$.trim.coefficients[%d]", i)
+		if d == nil {
+			p.bad(path, "expected a coefficient: name, adjusts, format")
+			continue
+		}
+		c := Coefficient{Name: d.Name, Adjusts: d.Adjusts, FormatName: d.Format, UnitSI: 1}
+		if j, dup := names[d.Name]; d.Name == "" {
+			p.bad(path, "missing required key \"name\"")
+		} else if dup {
+			p.bad(path+".name", "coefficient name %q is already used by coefficients[%d]", d.Name, j)
+		} else {
+			names[d.Name] = i
+		}
+		switch d.Adjusts {
+		case "gain", "offset":
+			if j, dup := adjusts[d.Adjusts]; dup {
+				p.bad(path+".adjusts", "coefficients[%d] adjusts %s already", j, d.Adjusts)
+			}
+			adjusts[d.Adjusts] = i
+		case "":
+			p.bad(path, "missing required key \"adjusts\" (gain or offset)")
+		default:
+			p.bad(path+".adjusts", "expected gain or offset, found %q", d.Adjusts)
+		}
+		switch {
+		case d.Unit == "":
+		case d.Adjusts == "gain":
+			p.bad(path+".unit", "unit applies to offset coefficients only: a gain is a plain factor (no correction = 1)")
+		default:
+			text := d.Unit
+			if strings.IndexFunc(text, func(r rune) bool { return r >= '0' && r <= '9' }) < 0 {
+				text = "1 " + text
+			}
+			q, err := units.Parse(text)
+			if err != nil || q.Dim != outDim || !(q.Value > 0) || math.IsInf(q.Value, 0) {
+				p.bad(path+".unit", "expected a unit of the output (%s) such as m%s, or the value of one of the firmware's units such as 312.5 u%s, found %q",
+					outDim, unitOfDim(outDim), unitOfDim(outDim), d.Unit)
+			} else {
+				c.Unit, c.UnitSI = d.Unit, q.Value
+			}
+		}
+		switch f, err := numfmt.Parse(d.Format, "decimal"); {
+		case d.Format == "":
+			p.bad(path, "missing required key \"format\" (float32, or Q<m>.<n> such as Q2.14)")
+		case err != nil:
+			p.bad(path+".format", "%v", err)
+		case f.Kind == numfmt.Scaled:
+			p.bad(path+".format", "format %q: expected float32 or Q<m>.<n> (int<bits> with a scale is not modelled by the planner)", d.Format)
+		default:
+			c.Format = f
+			if lo, hi := f.Range(); d.Adjusts == "gain" && !(lo <= 1 && 1 <= hi) {
+				p.bad(path+".format", "%s cannot hold 1, a gain's no correction (its range is %s … %s): expected a format with a wider range",
+					d.Format, units.FormatSig(lo, 6), units.FormatSig(hi, 6))
+			}
+		}
+		b.Trim.Coefficients = append(b.Trim.Coefficients, c)
+	}
+}
+
+// unitOfDim is the SI unit of an output dimension.
+func unitOfDim(d units.Dim) string {
+	if d == units.Ampere {
+		return "A"
+	}
+	return "V"
 }
 
 // withDecodeErrs returns the decoding problems dec and the parser's own problems,

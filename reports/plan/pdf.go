@@ -177,9 +177,9 @@ func (d *planDoc) tables() {
 		}
 		d.Table(cols, rows, nil)
 	}
-	if f := r.Coefficients; f != nil {
+	if len(r.Coefficients) > 0 {
 		d.section("Firmware coefficients", 10)
-		d.para("Format: "+formatText(*f)+"; the unit computes corrected = k·raw + m.", pdfdoc.Body)
+		d.para("Formats: "+coefficientsText(r.Coefficients)+"; the unit computes corrected = k·raw + m.", pdfdoc.Body)
 	}
 
 	d.section("After trim", 20)

@@ -14,6 +14,7 @@ import (
 	"text/tabwriter"
 
 	"trimline/instruments/budget"
+	"trimline/instruments/numfmt"
 	"trimline/instruments/units"
 	"trimline/limits"
 	"trimline/sequencer"
@@ -67,12 +68,12 @@ func WriteText(w io.Writer, r *planner.Report) {
 		}
 		t.Flush()
 	}
-	if f := r.Coefficients; f != nil {
-		fmt.Fprintf(w, "\nFirmware coefficients: %s (corrected = k·raw + m)\n", formatText(*f))
+	if len(r.Coefficients) > 0 {
+		fmt.Fprintf(w, "\nFirmware coefficients: %s (corrected = k·raw + m)\n", coefficientsText(r.Coefficients))
 	}
 
 	left, rule := "rounding to a code, saturation, DNL", "u = LSB/√12"
-	if r.Coefficients != nil {
+	if len(r.Coefficients) > 0 {
 		left, rule = "the rounding of the coefficients", "u = step/√12"
 	}
 	fmt.Fprintf(w, "\nAfter trim (what is left: %s)\n", left)
@@ -146,8 +147,7 @@ func WriteText(w io.Writer, r *planner.Report) {
 }
 
 type (
-	budgetDAC    = budget.DAC
-	budgetFormat = budget.CoefficientFormat
+	budgetDAC = budget.DAC
 )
 
 func inUnit(v float64, unit string) float64 { return limits.InUnit(v, unit) }
@@ -243,7 +243,8 @@ func lsbUnit(r *planner.Report, x budgetDAC) string { return planner.LSBUnit(r.B
 // rangeText is the correction the DAC can apply, from code 0 to 2^bits − 1
 // about the no-correction code n.
 func rangeText(r *planner.Report, bits int, lsb float64, n int, x budgetDAC) string {
-	lo, hi := -float64(n)*lsb, float64(1<<bits-1-n)*lsb
+	c := budget.DAC{Bits: bits, TwosComplement: x.TwosComplement}
+	lo, hi := float64(c.MinCode()-n)*lsb, float64(c.MaxCode()-n)*lsb
 	s := scaleFor(lsbUnit(r, x), math.Max(-lo, hi))
 	return s.pair(&[2]float64{lo, hi})
 }
@@ -258,11 +259,27 @@ func adjustsText(x budgetDAC) string {
 	return "offset, after gain"
 }
 
-func formatText(f budgetFormat) string {
-	if f.Format == "fixed" {
-		return fmt.Sprintf("fixed point, %d fraction bits", f.FractionBits)
+// coefficientsText names each coefficient with its format, the offset's unit
+// and the fraction of units that saturate it.
+func coefficientsText(cs []planner.CoefficientPlan) string {
+	var parts []string
+	for _, c := range cs {
+		x := c.Coefficient
+		t := x.Name + " " + x.FormatName
+		if x.Unit != "" {
+			t += " in " + x.Unit
+		}
+		if x.Format.Kind != numfmt.Float32 {
+			lo, _ := x.Format.Range()
+			t += fmt.Sprintf(" from %s to %s − 2^−%d", units.FormatSig(lo, 6), units.FormatSig(-lo, 6), x.Format.Frac)
+			if x.Unit != "" {
+				t += " " + x.Unit
+			}
+			t += ", saturates " + percentSE(c.Saturation, c.SaturationSE)
+		}
+		parts = append(parts, t)
 	}
-	return f.Format
+	return strings.Join(parts, "; ")
 }
 
 // bandText is what a band accepts, in the unit of its first limit.

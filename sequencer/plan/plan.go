@@ -86,7 +86,15 @@ type DACPlan struct {
 	DAC    budget.DAC
 	Result string // its code's quantity name (NAME_code)
 	// Saturation is the fraction of units whose ideal code lies outside
-	// 0 … 2^Bits − 1, SaturationSE its standard error.
+	// MinCode … MaxCode, SaturationSE its standard error.
+	Saturation, SaturationSE float64
+}
+
+// CoefficientPlan is one firmware coefficient of the design and the fraction
+// of units whose exact value lies beyond its format's range (held at the end
+// of the range: saturated), with its standard error.
+type CoefficientPlan struct {
+	Coefficient              budget.Coefficient
 	Saturation, SaturationSE float64
 }
 
@@ -120,8 +128,8 @@ type Report struct {
 	Codes                  []Quantity // a code per DAC, in the design's order
 	Post                   []Quantity // post_offset, post_gain_error
 	DACs                   []DACPlan
-	Coefficients           *budget.CoefficientFormat // the firmware's format when it trims by coefficients
-	Tolerances             *Tolerances               // nil when there is no limit file
+	Coefficients           []CoefficientPlan // the firmware's coefficients when it trims by them
+	Tolerances             *Tolerances       // nil when there is no limit file
 	// Yield is the fraction of units whose predicted results all pass,
 	// YieldSE its standard error √(p(1 − p)/M); OffsetPass and GainPass each
 	// result's own fraction. NaN without tolerances.
@@ -150,10 +158,11 @@ type planner struct {
 	post      [2][]float64
 	z         [][][]float32 // [trial][DAC] the bit errors' normal scores, first search trials
 	parts     [2][3]moments // per post quantity: quantisation, saturation, DNL
-	saturated []int
-	pass      [3]int  // all, offset, gain
-	resOffset float64 // the pre-trim offset's rounding, output unit
-	resGain   float64 // the pre-trim gain error's rounding
+	saturated []int         // per DAC
+	coefSat   []int         // per coefficient, when the design trims by coefficients
+	pass      [3]int        // all, offset, gain
+	resOffset float64       // the pre-trim offset's rounding, output unit
+	resGain   float64       // the pre-trim gain error's rounding
 
 	out, clamped, exact after
 }
@@ -188,20 +197,16 @@ func Run(ctx context.Context, b *budget.Budget, o Options) (*Report, error) {
 				t.File, sequencer.ResPostOffset, t.OffsetDim, want))
 		}
 	}
-	if f := b.Trim.Coefficients; f != nil && len(b.Trim.DACs) == 0 && f.Format == "fixed" {
-		notes = append(notes, fmt.Sprintf("both coefficients are taken as held with %d fraction bits of their SI value (the gain a plain factor, the offset in %s)",
-			f.FractionBits, orV(b.Transfer.OutputUnit)))
-	}
 	for _, x := range b.Trim.DACs {
-		if top := 1<<x.Bits - 1; x.NoCorrection == 0 || x.NoCorrection == top {
-			notes = append(notes, fmt.Sprintf("DAC %s: its no-correction code %d is an end of its codes 0 … %d, so it corrects one way only (two's-complement coding is not modelled: codes run 0 … 2^bits − 1)",
-				x.Name, x.NoCorrection, top))
+		if lo, hi := x.MinCode(), x.MaxCode(); x.NoCorrection == lo || x.NoCorrection == hi {
+			notes = append(notes, fmt.Sprintf("DAC %s: its no-correction code %d is an end of its codes %d … %d, so it corrects one way only",
+				x.Name, x.NoCorrection, lo, hi))
 		}
 	}
-	if len(b.Trim.DACs) == 0 && b.Trim.Coefficients == nil {
+	if len(b.Trim.DACs) == 0 && len(b.Trim.Coefficients) == 0 {
 		notes = append(notes, "the budget has no trim design: the units leave as they came, and there is nothing to recommend")
 	}
-	if len(b.Trim.DACs) > 0 && b.Trim.Coefficients != nil {
+	if len(b.Trim.DACs) > 0 && len(b.Trim.Coefficients) > 0 {
 		notes = append(notes, "the budget gives DACs and coefficients: the DACs are planned, the coefficients left out")
 	}
 	p := &planner{b: b, d: newDesign(b.Trim, b.Transfer.Gain, b.Transfer.OutputAtZero), tol: o.Tolerances,
@@ -212,8 +217,9 @@ func Run(ctx context.Context, b *budget.Budget, o Options) (*Report, error) {
 	p.resOffset, p.resGain = preTrimResolution(b)
 	p.codes = make([][]float64, p.nDAC)
 	p.saturated = make([]int, p.nDAC)
+	p.coefSat = make([]int, len(p.d.coef))
 	for _, a := range []*after{&p.out, &p.clamped, &p.exact} {
-		a.Steps = make([]step, p.nDAC)
+		a.Steps = make([]step, max(p.nDAC, len(p.d.coef)))
 	}
 	res, err := uncertainty.MonteCarloModel(2, func(r *rand.Rand, y []float64) {
 		y[0], y[1] = p.trial(r)
@@ -222,7 +228,7 @@ func Run(ctx context.Context, b *budget.Budget, o Options) (*Report, error) {
 		return nil, fmt.Errorf("Monte Carlo: %w", err)
 	}
 	rep := &Report{Budget: b, Seed: o.Seed, AdaptiveTrials: res.Trials, Digits: o.Digits, Tolerances: o.Tolerances,
-		TargetYield: o.TargetYield, Coefficients: p.d.coef, Notes: notes}
+		TargetYield: o.TargetYield, Notes: notes}
 	if !res.Converged {
 		rep.Notes = append(rep.Notes, fmt.Sprintf("the adaptive rule was not met within %d units: the pre-trim numbers are those of the units drawn", res.Trials))
 	}
@@ -272,9 +278,14 @@ func (p *planner) trial(r *rand.Rand) (off, ge float64) {
 	p.d.solve(off, ge, z, how{clamp: true}, &p.clamped)
 	p.d.solve(off, ge, z, how{}, &p.exact)
 	for i, s := range p.out.Steps {
-		p.codes[i] = append(p.codes[i], float64(s.Code))
-		if s.Saturated {
-			p.saturated[i]++
+		switch {
+		case p.d.coef != nil && s.Saturated:
+			p.coefSat[i]++
+		case p.d.coef == nil:
+			p.codes[i] = append(p.codes[i], float64(s.Code))
+			if s.Saturated {
+				p.saturated[i]++
+			}
 		}
 	}
 	post := [2]float64{p.out.Offset, p.out.GainError}
@@ -352,6 +363,10 @@ func (p *planner) report(rep *Report) {
 		rep.DACs = append(rep.DACs, DACPlan{DAC: x, Result: v.Name,
 			Saturation: float64(p.saturated[i]) / float64(m), SaturationSE: YieldSE(float64(p.saturated[i])/float64(m), m)})
 	}
+	for i, c := range p.d.coef {
+		f := float64(p.coefSat[i]) / float64(m)
+		rep.Coefficients = append(rep.Coefficients, CoefficientPlan{Coefficient: c, Saturation: f, SaturationSE: YieldSE(f, m)})
+	}
 	for q, name := range []string{sequencer.ResPostOffset, sequencer.ResPostGainError} {
 		unit := outUnit
 		if q == 1 {
@@ -396,16 +411,24 @@ func isFirst(d *design, i int) bool {
 // size of a float32 offset coefficient).
 func (p *planner) commonPractice(q int, preSD [2]float64) (u float64, basis string, ok bool) {
 	b := p.b
-	if f := p.d.coef; f != nil {
+	if p.d.coef != nil {
 		// k ≈ 1 multiplies the output at zero input, Y0; m is about the
-		// pre-trim offset and Y0 times the gain error.
+		// pre-trim offset and Y0 times the gain error. Each is rounded in its
+		// own format and unit.
 		y0 := math.Abs(b.Transfer.OutputAtZero)
-		sk := coefficientStep(*f, 1)
-		if q == 1 {
-			return sk / math.Sqrt(12), "common practice: coefficient rounding uniform over ±½ step, u = step/√12, k = 1.96", true
+		var sk, sm float64
+		gain, offset := false, false
+		for _, c := range p.d.coef {
+			if c.Adjusts == sequencer.AdjustGain {
+				sk, gain = c.Step(1), true
+			} else {
+				sm, offset = c.Step(preSD[0]+y0*preSD[1]), true
+			}
 		}
-		sm := coefficientStep(*f, preSD[0]+y0*preSD[1])
-		return math.Hypot(sk*y0, sm) / math.Sqrt(12), "common practice: rounding of both coefficients uniform over ±½ step, u = step/√12, k = 1.96", true
+		if q == 1 {
+			return sk / math.Sqrt(12), "common practice: coefficient rounding uniform over ±½ step, u = step/√12, k = 1.96", gain
+		}
+		return math.Hypot(sk*y0, sm) / math.Sqrt(12), "common practice: rounding of both coefficients uniform over ±½ step (each in its format and unit), u = step/√12, k = 1.96", offset
 	}
 	order := p.d.offsets
 	if q == 1 {
@@ -428,8 +451,10 @@ func (p *planner) commonPractice(q int, preSD [2]float64) (u float64, basis stri
 func (p *planner) shares(q int) map[string]float64 {
 	names := [3]string{PartQuantisation, PartSaturation, PartDNL}
 	switch {
-	case p.d.coef != nil:
+	case p.d.coef != nil && p.d.hasCoef(q):
 		names[0] = PartCoefficient
+	case p.d.coef != nil:
+		names[0] = PartUntrimmed
 	case q == 0 && len(p.d.offsets) == 0, q == 1 && len(p.d.gains) == 0:
 		names[0] = PartUntrimmed
 	}
@@ -533,11 +558,4 @@ func dimOf(unit string) units.Dim {
 		return units.Ampere
 	}
 	return units.Volt
-}
-
-func orV(unit string) string {
-	if unit == "" {
-		return "V"
-	}
-	return unit
 }

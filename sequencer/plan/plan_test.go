@@ -2,6 +2,7 @@ package plan
 
 import (
 	"context"
+	"fmt"
 	"math"
 	"math/rand/v2"
 	"os"
@@ -10,6 +11,7 @@ import (
 	"testing"
 
 	"trimline/instruments/budget"
+	"trimline/instruments/numfmt"
 	"trimline/limits"
 	"trimline/sequencer"
 )
@@ -274,16 +276,17 @@ trim:
 	}
 }
 
-// Firmware coefficients held in fixed point with f fraction bits: the gain
-// coefficient k = 1/(1 + ge) is rounded to a multiple of 2^−f, which leaves a
-// gain error uniform over ±2^−(f+1), standard deviation 2^−f/√12 (common
-// practice); float32 keeps 24 significant bits.
+// Firmware coefficients held in fixed point Qm.n: the gain coefficient
+// k = 1/(1 + ge) is rounded to a multiple of 2^−n, which leaves a gain error
+// uniform over ±2^−(n+1), standard deviation 2^−n/√12 (common practice); float32
+// keeps 24 significant bits.
 func TestCoefficientRounding(t *testing.T) {
-	f := budget.CoefficientFormat{Format: "fixed", FractionBits: 16}
-	if got := roundCoefficient(f, 1+3.4/65536); got != 1+3.0/65536 {
+	q2, _ := numfmt.Parse("Q2.16", "decimal")
+	f32, _ := numfmt.Parse("float32", "decimal")
+	if got := (budget.Coefficient{Format: q2, UnitSI: 1}).Round(1 + 3.4/65536); got != 1+3.0/65536 {
 		t.Errorf("fixed rounding %v", got)
 	}
-	if got := roundCoefficient(budget.CoefficientFormat{Format: "float32"}, 1+1e-9); got != 1 {
+	if got := (budget.Coefficient{Format: f32, UnitSI: 1}).Round(1 + 1e-9); got != 1 {
 		t.Errorf("float32 rounding %v", got)
 	}
 	b := writeBudget(t, transfer+`sources:
@@ -291,7 +294,9 @@ func TestCoefficientRounding(t *testing.T) {
     acts: gain
     tolerance: ±1 %
 trim:
-  coefficients: {format: fixed, fraction_bits: 16}
+  coefficients:
+    - {name: gain, adjusts: gain, format: Q2.16}
+    - {name: offset, adjusts: offset, format: Q4.16}
 `, "")
 	r := run(t, b, Options{Seed: 11})
 	want := math.Ldexp(1, -16) / math.Sqrt(12)
@@ -307,8 +312,130 @@ trim:
 	if off := r.Post[0]; math.Abs(off.SD/wantOff-1) > 0.03 || off.GUM95 == nil || math.Abs(off.GUM95[1]/(1.96*wantOff)-1) > 1e-9 {
 		t.Errorf("post_offset sd %.4g, interval %v; √(2.5² + 1)·2^−16/√12 = %.4g", off.SD, off.GUM95, wantOff)
 	}
-	if post.Shares[PartCoefficient] != 1 || len(r.DACs) != 0 || r.Coefficients == nil {
+	if post.Shares[PartCoefficient] != 1 || len(r.DACs) != 0 || len(r.Coefficients) != 2 {
 		t.Errorf("shares %v, DACs %d", post.Shares, len(r.DACs))
+	}
+}
+
+// An LTX-420-like design: a current output (Y0 = 0 here, so that only the
+// offset coefficient's rounding is left in the offset), the gain held as
+// Q2.14 and the offset as Q4.12 in mA, so that one step of the offset is
+// 2^−12 mA = 0.244 µA and the residual u = 2^−12 mA/√12 ≈ 0.0705 µA (common
+// practice: rounding uniform over ±½ step). An offset of σ 10 mA saturates the
+// Q4.12 range −8 … 7.99976 mA in P(|Z| > 0.8) = 2·Φ(−0.8) = 0.4237 of units
+// (normal table).
+func TestCoefficientsOwnFormatAndUnit(t *testing.T) {
+	const head = `transfer:
+  gain: 0.016
+  output_at_zero: 0 A
+  input: {low: 0 V, high: 1 V}
+sources:
+  - name: output offset
+    acts: output_offset
+    normal: %s
+  - name: reference
+    acts: gain
+    tolerance: ±0.5 %%
+trim:
+  coefficients:
+    - name: gain
+      adjusts: gain
+      format: Q2.14
+    - name: offset
+      adjusts: offset
+      format: Q4.12
+      unit: mA
+`
+	b := writeBudget(t, fmt.Sprintf(head, "50 uA"), "")
+	r := run(t, b, Options{Seed: 5})
+	want := math.Ldexp(1e-3, -12) / math.Sqrt(12)
+	if math.Abs(want-0.0705e-6) > 0.0001e-6 {
+		t.Fatalf("hand-worked u %.6g", want)
+	}
+	off := r.Post[0]
+	if math.Abs(off.SD/want-1) > 0.03 || off.GUM95 == nil || math.Abs(off.GUM95[1]/(1.96*want)-1) > 1e-9 {
+		t.Errorf("post_offset sd %.4g A, interval %v; 2^−12 mA/√12 = %.4g A", off.SD, off.GUM95, want)
+	}
+	if g := r.Post[1]; math.Abs(g.SD/(math.Ldexp(1, -14)/math.Sqrt(12))-1) > 0.03 {
+		t.Errorf("post_gain_error sd %.4g, 2^−14/√12", g.SD)
+	}
+	if len(r.Coefficients) != 2 || r.Coefficients[1].Saturation != 0 {
+		t.Errorf("coefficients %+v", r.Coefficients)
+	}
+
+	b = writeBudget(t, fmt.Sprintf(head, "10 mA"), "")
+	r = run(t, b, Options{Seed: 5})
+	c := r.Coefficients[1]
+	if c.Coefficient.Name != "offset" || math.Abs(c.Saturation-0.4237) > 3*c.SaturationSE+0.001 {
+		t.Errorf("offset coefficient saturation %.4f ± %.4f, want 2·Φ(−0.8) = 0.4237", c.Saturation, c.SaturationSE)
+	}
+	// A saturated offset coefficient leaves at least |offset| − 8 mA.
+	if hi := r.Post[0].Interval95; hi[1] < 1e-3 {
+		t.Errorf("post_offset interval %v: saturation should leave mA", hi)
+	}
+}
+
+// A two's-complement offset DAC: codes −128 … 127 about 0 (no correction).
+// With an offset of σ 100 LSB the codes centre on 0 and the DAC saturates
+// where |offset| > 127.5 LSB below or 128.5 LSB above (codes round away from
+// the ends): P(Z < −1.275) + P(Z > 1.285) = 0.1011 + 0.0994 = 0.2005 (normal table).
+func TestTwosComplementDAC(t *testing.T) {
+	b := writeBudget(t, transfer+`sources:
+  - name: output offset
+    acts: output_offset
+    normal: 1 mV
+trim:
+  dacs:
+    - name: offset
+      adjusts: offset
+      bits: 8
+      lsb: 10 uV
+      coding: twos_complement
+`, "")
+	if x := b.Trim.DACs[0]; x.NoCorrection != 0 || x.MinCode() != -128 || x.MaxCode() != 127 {
+		t.Fatalf("DAC %+v", x)
+	}
+	r := run(t, b, Options{Seed: 3})
+	codes := r.Codes[0]
+	if math.Abs(codes.Mean) > 3*codes.SD/math.Sqrt(float64(r.Trials)) || codes.Interval95[0] < -128 || codes.Interval95[1] > 127 {
+		t.Errorf("codes mean %.3g, interval %v: want centred on 0 within −128 … 127", codes.Mean, codes.Interval95)
+	}
+	d := r.DACs[0]
+	if math.Abs(d.Saturation-0.2005) > 3*d.SaturationSE+0.002 {
+		t.Errorf("saturation %.4f ± %.4f, want 0.2005", d.Saturation, d.SaturationSE)
+	}
+	// The same DAC written as offset binary about 128 (the analog DAC sees the
+	// register with its top bit inverted), with DNL: the same residuals on the
+	// same units, codes 128 apart.
+	withDNL := strings.Replace(transfer+`sources:
+  - name: output offset
+    acts: output_offset
+    normal: 1 mV
+trim:
+  dacs:
+    - name: offset
+      adjusts: offset
+      bits: 8
+      lsb: 10 uV
+      dnl: 0.3 LSB
+      coding: twos_complement
+`, "normal: 1 mV", "normal: 0.5 mV", 1)
+	rt := run(t, writeBudget(t, withDNL, ""), Options{Seed: 3})
+	rb := run(t, writeBudget(t, strings.Replace(withDNL, "coding: twos_complement", "no_correction: 128", 1), ""), Options{Seed: 3})
+	if rt.Post[0].SD != rb.Post[0].SD || math.Abs(rt.Codes[0].Mean+128-rb.Codes[0].Mean) > 1e-9 || rt.DACs[0].Saturation != rb.DACs[0].Saturation {
+		t.Errorf("two's complement: post sd %g, code mean %g; offset binary about 128: %g, %g",
+			rt.Post[0].SD, rt.Codes[0].Mean, rb.Post[0].SD, rb.Codes[0].Mean)
+	}
+	dsg, s := newDesign(b.Trim, 1, 2.5), &after{Steps: make([]step, 1)}
+	for _, c := range []struct {
+		off  float64
+		code int
+		sat  bool
+	}{{-2e-3, 127, true}, {2e-3, -128, true}, {0.5e-3, -50, false}} {
+		dsg.solve(c.off, 0, nil, how{clamp: true}, s)
+		if s.Steps[0].Code != c.code || s.Steps[0].Saturated != c.sat {
+			t.Errorf("offset %g V: %+v, want code %d saturated %v", c.off, s.Steps[0], c.code, c.sat)
+		}
 	}
 }
 

@@ -102,7 +102,8 @@ func (p *planner) recommendDAC(ctx context.Context, s searchSet, j int, x budget
 			return false, 0, 0, err
 		}
 		c := x
-		c.Bits, c.LSB, c.NoCorrection = bits, lsb, 1<<(bits-1)
+		c.Bits, c.LSB = bits, lsb
+		c.NoCorrection = c.MidCode()
 		pass, sat = p.judgeDAC(s, j, c, band, early, allowed)
 		return pass >= len(s.off)-allowed, pass, sat, nil
 	}
@@ -159,7 +160,8 @@ func (p *planner) recommendDAC(ctx context.Context, s searchSet, j int, x budget
 			return r, err
 		}
 		n := float64(len(s.off))
-		r.Found, r.Bits, r.LSB, r.Range, r.NoCorrection = true, bits, lsb, math.Ldexp(lsb, bits), 1<<(bits-1)
+		r.Found, r.Bits, r.LSB, r.Range = true, bits, lsb, math.Ldexp(lsb, bits)
+		r.NoCorrection = budget.DAC{Bits: bits, TwosComplement: x.TwosComplement}.MidCode()
 		r.Pass, r.Saturation = float64(pass)/n, float64(sat)/n
 		r.PassSE = YieldSE(r.Pass, len(s.off))
 		return r, nil

@@ -26,11 +26,11 @@ import (
 // station solves them, or the coefficient format.
 type design struct {
 	dacs    []budget.DAC
-	gains   []int // indexes of the gain DACs, largest step first
-	offsets []int // of the offset DACs: before the gain first, then largest step first
-	coef    *budget.CoefficientFormat
-	gain    float64 // nominal gain G (output unit per input unit)
-	zero    float64 // nominal output at zero input Y0
+	gains   []int                // indexes of the gain DACs, largest step first
+	offsets []int                // of the offset DACs: before the gain first, then largest step first
+	coef    []budget.Coefficient // the firmware's coefficients when it trims by them
+	gain    float64              // nominal gain G (output unit per input unit)
+	zero    float64              // nominal output at zero input Y0
 }
 
 // newDesign orders the DACs of t as the station's trim does (gain DACs, then
@@ -57,7 +57,7 @@ func newDesign(t budget.Trim, gain, zero float64) *design {
 		}
 		return larger(a, b)
 	})
-	if len(t.DACs) == 0 {
+	if len(t.DACs) == 0 && len(t.Coefficients) > 0 {
 		d.coef = t.Coefficients
 	}
 	return d
@@ -65,12 +65,10 @@ func newDesign(t budget.Trim, gain, zero float64) *design {
 
 const placementBefore = "before_gain"
 
-// maxCode is the largest code of an n-bit DAC (codes run 0 … 2^n − 1).
-func maxCode(n int) int { return 1<<n - 1 }
-
-// step is what one DAC does to one unit: the exact code the arithmetic asks
-// for, the code written (rounded, and clamped to the DAC's range unless the
-// solve is told not to) and whether it had to clamp.
+// step is what one DAC (or firmware coefficient) does to one unit: the exact
+// code the arithmetic asks for, the code written (rounded, and clamped to the
+// DAC's range unless the solve is told not to) and whether it had to clamp. For
+// a coefficient Ideal is its exact value and Code is not used.
 type step struct {
 	Ideal     float64
 	Code      int
@@ -92,10 +90,10 @@ type how struct{ clamp, dnl bool }
 // solve trims one unit measured with pre-trim offset off (output unit) and gain
 // error ge (fraction). z holds the unit's DAC errors as normal scores: bit k's
 // weight of DAC i is off by DNL·z[i][k] LSB (nil: ideal DACs). out.Steps must
-// have one entry per DAC.
+// have one entry per DAC (per coefficient when the design has no DACs).
 func (d *design) solve(off, ge float64, z [][]float32, h how, out *after) {
 	if d.coef != nil {
-		out.Offset, out.GainError = d.coefficients(off, ge)
+		out.Offset, out.GainError = d.coefficients(off, ge, h.clamp, out.Steps)
 		return
 	}
 	a := d.gain * (1 + ge) // the slope measured with no correction
@@ -105,11 +103,11 @@ func (d *design) solve(off, ge float64, z [][]float32, h how, out *after) {
 		if !h.clamp {
 			return int(c), false
 		}
-		switch top := float64(maxCode(d.dacs[i].Bits)); {
-		case c < 0 || math.IsNaN(c):
-			return 0, true
-		case c > top:
-			return int(top), true
+		switch lo, hi := d.dacs[i].MinCode(), d.dacs[i].MaxCode(); {
+		case c < float64(lo) || math.IsNaN(c):
+			return lo, true
+		case c > float64(hi):
+			return hi, true
 		}
 		return int(c), false
 	}
@@ -117,8 +115,10 @@ func (d *design) solve(off, ge float64, z [][]float32, h how, out *after) {
 	moved := func(i, c int) float64 {
 		x := d.dacs[i]
 		v := float64(c - x.NoCorrection)
-		if h.dnl && z != nil && z[i] != nil && c >= 0 && c <= maxCode(x.Bits) {
-			v += x.DNL * bitError(c, x.NoCorrection, z[i])
+		if h.dnl && z != nil && z[i] != nil && c >= x.MinCode() && c <= x.MaxCode() {
+			// The bits the analog DAC sees: the code in offset binary (a
+			// two's-complement register with its top bit inverted).
+			v += x.DNL * bitError(c-x.MinCode(), x.NoCorrection-x.MinCode(), z[i])
 		}
 		return v
 	}
@@ -177,36 +177,51 @@ func bitError(c, n int, e []float32) float64 {
 }
 
 // coefficients trims by firmware correction: the unit computes k·y + m with
-// k = G/a and m = Y0 − k·(Y0 + off), each computed exactly and then rounded to
-// the coefficient format on its own, as the station's coefficients step does
-// (sequencer.CoefficientPlan.Values, then the format's encoding).
-func (d *design) coefficients(off, ge float64) (offset, gainError float64) {
-	k := 1 / (1 + ge)
-	m := d.zero - k*(d.zero+off)
-	k, m = roundCoefficient(*d.coef, k), roundCoefficient(*d.coef, m)
+// k = G/a and m = Y0 − k·(Y0 + off), each computed exactly and then held in its
+// own format and unit (rounded, and clamped to the format's range when clamp
+// is set: saturated), as the station's coefficients step does
+// (sequencer.CoefficientPlan.Values, then the format's encoding). A design with
+// no gain coefficient keeps k = 1 (m = −off), one with no offset coefficient
+// m = 0. steps gets each coefficient's exact value and whether it saturated.
+func (d *design) coefficients(off, ge float64, clamp bool, steps []step) (offset, gainError float64) {
+	k, m := 1.0, 0.0
+	gi, oi := -1, -1
+	for i, c := range d.coef {
+		if c.Adjusts == sequencer.AdjustGain {
+			gi, k = i, 1/(1+ge)
+		} else {
+			oi = i
+		}
+	}
+	m = d.zero - k*(d.zero+off) // from the exact k, as the station computes both first
+	hold := func(i int, v float64) float64 {
+		c := d.coef[i]
+		steps[i].Ideal = v
+		if !clamp {
+			steps[i].Saturated = false
+			return c.Round(v)
+		}
+		held, sat := c.Hold(v)
+		steps[i].Saturated = sat
+		return held
+	}
+	if gi >= 0 {
+		k = hold(gi, k)
+	}
+	if oi >= 0 {
+		m = hold(oi, m)
+	} else {
+		m = 0
+	}
 	return k*(d.zero+off) + m - d.zero, k*(1+ge) - 1
 }
 
-// roundCoefficient is v as the firmware holds it in format f: for fixed, the
-// nearest multiple of 2^−FractionBits (of the SI value: volts, amperes or a
-// plain factor); for float32, the nearest float32 (24 significant bits).
-func roundCoefficient(f budget.CoefficientFormat, v float64) float64 {
-	switch f.Format {
-	case "fixed":
-		s := math.Ldexp(1, f.FractionBits)
-		return math.Round(v*s) / s
-	case "float32":
-		return float64(float32(v))
+// hasCoef reports whether the design has a coefficient for post-trim quantity
+// q (0 the offset, 1 the gain error).
+func (d *design) hasCoef(q int) bool {
+	want := sequencer.AdjustOffset
+	if q == 1 {
+		want = sequencer.AdjustGain
 	}
-	return v
-}
-
-// coefficientStep is the rounding step of format f near v: 2^−FractionBits for
-// fixed, one unit in the last place of a float32 for float32.
-func coefficientStep(f budget.CoefficientFormat, v float64) float64 {
-	if f.Format == "fixed" {
-		return math.Ldexp(1, -f.FractionBits)
-	}
-	x := float32(v)
-	return float64(math.Nextafter32(x, float32(math.Inf(1))) - x)
+	return slices.ContainsFunc(d.coef, func(c budget.Coefficient) bool { return c.Adjusts == want })
 }
