@@ -769,7 +769,11 @@ type planOut struct {
 	// RecommendedYield is the predicted yield with every DAC as recommended
 	// (null when some DAC has no recommendation).
 	RecommendedYield *float64 `json:"recommended_yield"`
-	Notes            []string `json:"notes"` // what a reader must know about the numbers
+	// PerDACTarget is the fraction each DAC was sized to pass its own result
+	// in, 1 − (1 − target)/k for k DACs (tightened while the DACs together fell
+	// short); null without a recommendation.
+	PerDACTarget *float64 `json:"per_dac_target"`
+	Notes        []string `json:"notes"` // what a reader must know about the numbers
 	// Against is, with --against LEDGER, the predictions beside what the
 	// stations measured; absent otherwise.
 	Against *againstOut `json:"against,omitempty"`
@@ -907,7 +911,7 @@ func newPlanOut(r *plan.Report) planOut {
 		Seed: r.Seed, Trials: r.Trials, AdaptiveTrials: r.AdaptiveTrials, Digits: r.Digits,
 		Saturation: map[string]float64{}, Predicted: plan.Predicted, NotPredicted: []string{}, TargetYield: r.TargetYield,
 		Recommendation: []planRecommendationOut{}, PredictedYield: num(r.Yield), YieldSE: num(r.YieldSE),
-		RecommendedYield: num(r.AllRecommended), Notes: nonNil(r.Notes)}
+		RecommendedYield: num(r.AllRecommended), PerDACTarget: num(r.PerDACTarget), Notes: nonNil(r.Notes)}
 	if r.Tolerances != nil {
 		out.Limits = r.Tolerances.File
 		out.NotPredicted = nonNil(r.Tolerances.NotPredicted)

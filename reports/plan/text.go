@@ -126,8 +126,9 @@ func WriteText(w io.Writer, r *planner.Report) {
 
 	if r.TargetYield > 0 && len(r.Recommendations) > 0 {
 		fmt.Fprintf(w, "\nRecommendation for a yield of %s: per DAC the fewest bits, then the smallest range,\n", percent(r.TargetYield))
-		fmt.Fprintln(w, "for which the result it trims passes in that fraction of units (the other DACs as designed,")
-		fmt.Fprintf(w, "no-correction code at mid-scale; judged on the first %d units drawn)\n", r.Recommendations[0].Trials)
+		fmt.Fprintf(w, "for which the result it trims passes in %s of units, its share of the allowed failures so that\n", percent(r.PerDACTarget))
+		fmt.Fprintln(w, "together they meet the target (the other DACs as designed, no-correction code at mid-scale;")
+		fmt.Fprintf(w, "judged on the first %d units drawn)\n", r.Recommendations[0].Trials)
 		t = table(w)
 		fmt.Fprintln(t, "  DAC\tbits\tLSB\trange\tresult\tpasses\tsaturates")
 		for i, rec := range r.Recommendations {

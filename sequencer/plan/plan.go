@@ -140,6 +140,11 @@ type Report struct {
 	// AllRecommended is the yield of the design with every DAC as
 	// recommended (NaN when some DAC has none).
 	AllRecommended, AllRecommendedSE float64
+	// PerDACTarget is the fraction each DAC was sized to pass its own result
+	// in: 1 − (1 − TargetYield)/k for k DACs, so that their failures together
+	// stay within the target (union bound), tightened while the DACs together
+	// still fell short of it.
+	PerDACTarget float64
 	// Notes are what a reader must know about the numbers, one sentence each.
 	Notes []string
 }

@@ -32,32 +32,51 @@ type searchSet struct {
 
 func (p *planner) recommend(ctx context.Context, rep *Report, target float64) error {
 	s := p.searchUnits()
-	for j, x := range p.d.dacs {
-		r, err := p.recommendDAC(ctx, s, j, x, target)
-		if err != nil {
-			return err
-		}
-		rep.Recommendations = append(rep.Recommendations, r)
-	}
-	if len(rep.Recommendations) > 0 && !slices.ContainsFunc(rep.Recommendations, func(r Recommendation) bool { return !r.Found }) {
-		dacs := slices.Clone(p.d.dacs)
-		for j, r := range rep.Recommendations {
-			dacs[j].Bits, dacs[j].LSB, dacs[j].NoCorrection = r.Bits, r.LSB, r.NoCorrection
-		}
-		d := newDesign(budget.Trim{DACs: dacs}, p.d.gain, p.d.zero)
-		var out after
-		out.Steps = make([]step, len(dacs))
-		pass := 0
-		for t := range s.off {
-			d.solve(s.off[t], s.ge[t], s.z[t], how{clamp: true, dnl: true}, &out)
-			if p.tol.Judge(out.Offset, out.GainError) {
-				pass++
+	// Each DAC is sized for its own result; together their failures add up
+	// (at most, on the same units: the union bound). So each is sized for a
+	// share of the allowed failures, 1 − (1 − target)/k with k DACs, and
+	// tightened, halving the share, while the DACs together still fall short.
+	perDAC := 1 - (1-target)/float64(max(len(p.d.dacs), 1))
+	for round := 0; ; round++ {
+		rep.Recommendations = rep.Recommendations[:0]
+		for j, x := range p.d.dacs {
+			r, err := p.recommendDAC(ctx, s, j, x, perDAC)
+			if err != nil {
+				return err
 			}
+			rep.Recommendations = append(rep.Recommendations, r)
 		}
-		rep.AllRecommended = float64(pass) / float64(len(s.off))
+		rep.PerDACTarget = perDAC
+		if len(rep.Recommendations) == 0 || slices.ContainsFunc(rep.Recommendations, func(r Recommendation) bool { return !r.Found }) {
+			return nil
+		}
+		rep.AllRecommended = p.allRecommended(s, rep.Recommendations)
 		rep.AllRecommendedSE = YieldSE(rep.AllRecommended, len(s.off))
+		if rep.AllRecommended >= target || round == 3 {
+			return nil
+		}
+		perDAC = 1 - (1-perDAC)/2
 	}
-	return nil
+}
+
+// allRecommended is the fraction of the search's units that pass with every
+// DAC as recommended.
+func (p *planner) allRecommended(s searchSet, recs []Recommendation) float64 {
+	dacs := slices.Clone(p.d.dacs)
+	for j, r := range recs {
+		dacs[j].Bits, dacs[j].LSB, dacs[j].NoCorrection = r.Bits, r.LSB, r.NoCorrection
+	}
+	d := newDesign(budget.Trim{DACs: dacs}, p.d.gain, p.d.zero)
+	var out after
+	out.Steps = make([]step, len(dacs))
+	pass := 0
+	for t := range s.off {
+		d.solve(s.off[t], s.ge[t], s.z[t], how{clamp: true, dnl: true}, &out)
+		if p.tol.Judge(out.Offset, out.GainError) {
+			pass++
+		}
+	}
+	return float64(pass) / float64(len(s.off))
 }
 
 // searchUnits are the first units drawn, in the order drawn.
