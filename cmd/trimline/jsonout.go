@@ -760,7 +760,7 @@ type planOut struct {
 	// √(p(1 − p)/trials); null without a limit file.
 	PredictedYield *float64 `json:"predicted_yield"`
 	YieldSE        *float64 `json:"yield_se"`
-	Predicted      []string `json:"predicted"`     // the results the yield judges: post_offset, post_gain_error
+	Predicted      []string `json:"predicted"`     // the results the yield judges: post_offset, post_gain_error (less post_offset when the limits judge it in another unit)
 	NotPredicted   []string `json:"not_predicted"` // limits of the file on other results, by name
 	TargetYield    float64  `json:"target_yield"`  // what the recommendation must meet, a fraction
 	// Recommendation is, per DAC of the design, the smallest one meeting
@@ -909,7 +909,7 @@ func newPlanOut(r *plan.Report) planOut {
 	b := r.Budget
 	out := planOut{Kind: kindPlan, Version: jsonVersion, Budget: b.Path, Product: b.Product, Revision: b.Revision,
 		Seed: r.Seed, Trials: r.Trials, AdaptiveTrials: r.AdaptiveTrials, Digits: r.Digits,
-		Saturation: map[string]float64{}, Predicted: plan.Predicted, NotPredicted: []string{}, TargetYield: r.TargetYield,
+		Saturation: map[string]float64{}, Predicted: nonNil(r.Judged), NotPredicted: []string{}, TargetYield: r.TargetYield,
 		Recommendation: []planRecommendationOut{}, PredictedYield: num(r.Yield), YieldSE: num(r.YieldSE),
 		RecommendedYield: num(r.AllRecommended), PerDACTarget: num(r.PerDACTarget), Notes: nonNil(r.Notes)}
 	if r.Tolerances != nil {

@@ -212,7 +212,7 @@ func (d *planDoc) tables() {
 	}{{tol.Offset, sequencer.ResPostOffset, r.OffsetPass}, {tol.Gain, sequencer.ResPostGainError, r.GainPass}} {
 		rows = append(rows, pdfdoc.Row{cell(x.name), cell(orDefault(strings.Join(x.band.Limits, ", "), "no limit")), cell(bandText(x.band)), cell(percent(x.pass))})
 	}
-	rows = append(rows, pdfdoc.Row{pdfdoc.Cell{{Text: "all predicted results", St: pdfdoc.Bold}}, cell(""), cell(""),
+	rows = append(rows, pdfdoc.Row{pdfdoc.Cell{{Text: "all judged: " + strings.Join(r.Judged, ", "), St: pdfdoc.Bold}}, cell(""), cell(""),
 		pdfdoc.Cell{{Text: percentSE(r.Yield, r.YieldSE), St: pdfdoc.Bold}}})
 	if r.Yield == 1 {
 		rows[len(rows)-1][3] = pdfdoc.Cell{{Text: "100 % (every unit drawn)", St: pdfdoc.Bold}}

@@ -115,7 +115,7 @@ func WriteText(w io.Writer, r *planner.Report) {
 		}
 		fmt.Fprintf(t, "  %s\t%s\t%s\tpass %s\n", x.name, lim, bandText(x.band), percent(x.pass))
 	}
-	fmt.Fprintf(t, "  all predicted results\t\t\t%s\n", yieldText(r.Yield, r.YieldSE, r.Trials))
+	fmt.Fprintf(t, "  all judged (%s)\t\t\t%s\n", strings.Join(r.Judged, ", "), yieldText(r.Yield, r.YieldSE, r.Trials))
 	t.Flush()
 	if len(tol.ExpressionOnly) > 0 {
 		fmt.Fprintf(w, "  not read as bounds (judged by an expression): %s\n", strings.Join(tol.ExpressionOnly, ", "))

@@ -140,6 +140,10 @@ type Report struct {
 	// AllRecommended is the yield of the design with every DAC as
 	// recommended (NaN when some DAC has none).
 	AllRecommended, AllRecommendedSE float64
+	// Judged are the predicted results the yield judges: Predicted, less
+	// post_offset when the limit file judges it in another unit than the
+	// budget's output (a count), which the plan cannot convert.
+	Judged []string
 	// PerDACTarget is the fraction each DAC was sized to pass its own result
 	// in: 1 − (1 − TargetYield)/k for k DACs, so that their failures together
 	// stay within the target (union bound), tightened while the DACs together
@@ -192,13 +196,15 @@ func Run(ctx context.Context, b *budget.Budget, o Options) (*Report, error) {
 		o.SearchTrials = 100_000
 	}
 	var notes []string
+	judged := slices.Clone(Predicted)
 	if t := o.Tolerances; t != nil && t.OffsetDim != 0 && t.Offset.Bounded() {
 		if want := dimOf(b.Transfer.OutputUnit); t.OffsetDim != want {
 			c := *t
 			c.Offset = unbounded()
 			c.Offset.Limits = t.Offset.Limits
 			o.Tolerances = &c
-			notes = append(notes, fmt.Sprintf("%s judges %s as a %s but the budget's output is a %s: the offset is not judged",
+			judged = slices.DeleteFunc(judged, func(r string) bool { return r == sequencer.ResPostOffset })
+			notes = append(notes, fmt.Sprintf("%s judges %s as a %s but the budget's output is a %s: the offset is not judged, and the yield is that of the other results only",
 				t.File, sequencer.ResPostOffset, t.OffsetDim, want))
 		}
 	}
@@ -232,7 +238,7 @@ func Run(ctx context.Context, b *budget.Budget, o Options) (*Report, error) {
 	if err != nil {
 		return nil, fmt.Errorf("Monte Carlo: %w", err)
 	}
-	rep := &Report{Budget: b, Seed: o.Seed, AdaptiveTrials: res.Trials, Digits: o.Digits, Tolerances: o.Tolerances,
+	rep := &Report{Judged: judged, Budget: b, Seed: o.Seed, AdaptiveTrials: res.Trials, Digits: o.Digits, Tolerances: o.Tolerances,
 		TargetYield: o.TargetYield, Notes: notes}
 	if !res.Converged {
 		rep.Notes = append(rep.Notes, fmt.Sprintf("the adaptive rule was not met within %d units: the pre-trim numbers are those of the units drawn", res.Trials))
