@@ -7,6 +7,7 @@ import (
 	"fmt"
 	"strconv"
 	"strings"
+	"trimline/instruments/numfmt"
 
 	"trimline/instruments/files"
 	"trimline/instruments/units"
@@ -43,20 +44,10 @@ type DAC struct {
 }
 
 // MinCode is the smallest code the DAC accepts.
-func (d DAC) MinCode() int {
-	if d.TwosComplement {
-		return -(1 << (d.Bits - 1))
-	}
-	return 0
-}
+func (d DAC) MinCode() int { lo, _, _ := numfmt.Codes(d.Bits, d.TwosComplement); return lo }
 
 // MaxCode is the largest code the DAC accepts.
-func (d DAC) MaxCode() int {
-	if d.TwosComplement {
-		return 1<<(d.Bits-1) - 1
-	}
-	return 1<<d.Bits - 1
-}
+func (d DAC) MaxCode() int { _, hi, _ := numfmt.Codes(d.Bits, d.TwosComplement); return hi }
 
 // Word is the text of code as the port writes it: decimal, or hexadecimal
 // (uppercase, ⌈Bits/4⌉ digits; a two's-complement code as its Bits-bit pattern).

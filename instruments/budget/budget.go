@@ -185,29 +185,14 @@ type DAC struct {
 }
 
 // MinCode is the DAC's lowest code.
-func (d DAC) MinCode() int {
-	if d.TwosComplement {
-		return -(1 << (d.Bits - 1))
-	}
-	return 0
-}
+func (d DAC) MinCode() int { lo, _, _ := numfmt.Codes(d.Bits, d.TwosComplement); return lo }
 
 // MaxCode is the DAC's highest code.
-func (d DAC) MaxCode() int {
-	if d.TwosComplement {
-		return 1<<(d.Bits-1) - 1
-	}
-	return 1<<d.Bits - 1
-}
+func (d DAC) MaxCode() int { _, hi, _ := numfmt.Codes(d.Bits, d.TwosComplement); return hi }
 
 // MidCode is the code in the middle of the DAC's codes, the usual no-correction
 // code: 2^(Bits−1) in binary-offset coding, 0 in two's complement.
-func (d DAC) MidCode() int {
-	if d.TwosComplement {
-		return 0
-	}
-	return 1 << (d.Bits - 1)
-}
+func (d DAC) MidCode() int { _, _, mid := numfmt.Codes(d.Bits, d.TwosComplement); return mid }
 
 // Trim is the trim design: DACs, or correction coefficients computed by firmware;
 // empty when the file has no trim: section (a budget only drawn from, by the

@@ -417,3 +417,14 @@ func (f Format) want() string {
 	}
 	return "the word as a signed decimal integer such as -1234"
 }
+
+// Codes is the range of a bits-bit DAC register's codes and its mid-scale
+// code, the usual no-correction code: 0 … 2^bits − 1 about 2^(bits−1) in
+// binary-offset coding, −2^(bits−1) … 2^(bits−1) − 1 about 0 in two's
+// complement. The one rule for the sequence's DACs and the budget's.
+func Codes(bits int, twosComplement bool) (lo, hi, mid int) {
+	if twosComplement {
+		return -(1 << (bits - 1)), 1<<(bits-1) - 1, 0
+	}
+	return 0, 1<<bits - 1, 1 << (bits - 1)
+}

@@ -502,3 +502,17 @@ func ExampleFormat_Encode() {
 	// E000 -0.25
 	// 1235 0.001235
 }
+
+// TestCodes: the code ranges of the demo cards' DACs, worked by hand.
+func TestCodes(t *testing.T) {
+	for _, c := range []struct {
+		bits        int
+		twos        bool
+		lo, hi, mid int
+	}{{12, false, 0, 4095, 2048}, {8, true, -128, 127, 0}, {1, false, 0, 1, 1}} {
+		lo, hi, mid := numfmt.Codes(c.bits, c.twos)
+		if lo != c.lo || hi != c.hi || mid != c.mid {
+			t.Errorf("Codes(%d, %v) = %d, %d, %d; want %d, %d, %d", c.bits, c.twos, lo, hi, mid, c.lo, c.hi, c.mid)
+		}
+	}
+}
